@@ -1,0 +1,104 @@
+package cnn
+
+import (
+	"math"
+
+	"telltale/corpus"
+)
+
+// Output is the full result of one forward pass over one text.
+type Output struct {
+	Logits []float32 // Classes
+	Probs  []float32 // softmax of Logits
+	Pooled []float32 // NumFilters: h[g] = relu(Pre[g]), 0 when masked
+	Pre    []float32 // NumFilters: pre-activation of the winning window
+	Argmax []int     // NumFilters: start of the winning window (first maximum)
+	Len    int       // padded length L' = max(len(ids), MaxWidth)
+}
+
+// Padded returns ids right-padded with PAD to at least n tokens. It returns
+// ids itself when no padding is needed.
+func Padded(ids []int32, n int) []int32 {
+	if len(ids) >= n {
+		return ids
+	}
+	p := make([]int32, n)
+	copy(p, ids)
+	for i := len(ids); i < n; i++ {
+		p[i] = corpus.PAD
+	}
+	return p
+}
+
+// Forward runs the model on one text by direct convolution. It is the
+// reference every faster path is tested against. Ids must be < VocabSize.
+func (m *Model) Forward(ids []int32) Output {
+	cfg := m.Config
+	x := Padded(ids, cfg.MaxWidth())
+	nf := cfg.NumFilters()
+	out := Output{
+		Logits: make([]float32, cfg.Classes),
+		Probs:  make([]float32, cfg.Classes),
+		Pooled: make([]float32, nf),
+		Pre:    make([]float32, nf),
+		Argmax: make([]int, nf),
+		Len:    len(x),
+	}
+	d := cfg.Dim
+	for g := 0; g < nf; g++ {
+		b, f := m.FilterConv(g)
+		c := &m.Convs[b]
+		best, bestT := float32(math.Inf(-1)), 0
+		for t := 0; t+c.Width <= len(x); t++ {
+			a := c.B[f]
+			for s := 0; s < c.Width; s++ {
+				w := c.W[(f*c.Width+s)*d : (f*c.Width+s)*d+d]
+				e := m.Row(x[t+s])
+				for k := range w {
+					a += w[k] * e[k]
+				}
+			}
+			if a > best {
+				best, bestT = a, t
+			}
+		}
+		out.Pre[g], out.Argmax[g] = best, bestT
+		if best > 0 && !m.IsMasked(g) {
+			out.Pooled[g] = best
+		}
+	}
+	m.Head(out.Pooled, out.Logits)
+	Softmax(out.Logits, out.Probs)
+	return out
+}
+
+// Head computes logits = OutB + OutW·pooled. Len(pooled) must be NumFilters
+// and len(logits) Classes.
+func (m *Model) Head(pooled, logits []float32) {
+	nf := m.Config.NumFilters()
+	for c := range logits {
+		row := m.OutW[c*nf : (c+1)*nf]
+		z := m.OutB[c]
+		for g, h := range pooled {
+			z += row[g] * h
+		}
+		logits[c] = z
+	}
+}
+
+// Softmax writes the softmax of z into p (same length), stably.
+func Softmax(z, p []float32) {
+	mx := z[0]
+	for _, v := range z[1:] {
+		mx = max(mx, v)
+	}
+	var sum float64
+	for i, v := range z {
+		e := math.Exp(float64(v - mx))
+		p[i] = float32(e)
+		sum += e
+	}
+	for i := range p {
+		p[i] = float32(float64(p[i]) / sum)
+	}
+}

@@ -1,0 +1,126 @@
+package cnn
+
+import "fmt"
+
+// Config is the architecture of a sentence CNN (Kim 2014, "Convolutional
+// Neural Networks for Sentence Classification", EMNLP).
+type Config struct {
+	VocabSize int     // rows of the embedding table, reserved ids included
+	Dim       int     // embedding dimension
+	Widths    []int   // filter widths, e.g. 3, 4, 5
+	Filters   int     // feature maps per width
+	Classes   int     // number of labels, at least 2
+	Dropout   float32 // dropout rate on the pooled layer during training
+	MaxNorm   float32 // max L2 norm of each output-weight row; 0 turns it off
+}
+
+// Validate reports the first problem with c, or nil.
+func (c Config) Validate() error {
+	switch {
+	case c.VocabSize < 2:
+		return fmt.Errorf("cnn: vocabulary size %d: need at least the two reserved ids", c.VocabSize)
+	case c.Dim < 1:
+		return fmt.Errorf("cnn: embedding dimension %d: must be at least 1", c.Dim)
+	case len(c.Widths) == 0:
+		return fmt.Errorf("cnn: no filter widths: give at least one, e.g. --widths 3,4,5")
+	case c.Filters < 1:
+		return fmt.Errorf("cnn: %d feature maps per width: must be at least 1", c.Filters)
+	case c.Classes < 2:
+		return fmt.Errorf("cnn: %d classes: need at least 2 labels", c.Classes)
+	case c.Dropout < 0 || c.Dropout >= 1:
+		return fmt.Errorf("cnn: dropout %g: must be in [0, 1)", c.Dropout)
+	case c.MaxNorm < 0:
+		return fmt.Errorf("cnn: max-norm %g: must be 0 (off) or positive", c.MaxNorm)
+	}
+	for _, w := range c.Widths {
+		if w < 1 || w > 32 {
+			return fmt.Errorf("cnn: filter width %d: must be between 1 and 32", w)
+		}
+	}
+	return nil
+}
+
+// NumFilters is the total number of filters over all widths.
+func (c Config) NumFilters() int { return len(c.Widths) * c.Filters }
+
+// MaxWidth is the widest filter; shorter texts are padded with PAD up to it.
+func (c Config) MaxWidth() int {
+	m := 0
+	for _, w := range c.Widths {
+		m = max(m, w)
+	}
+	return m
+}
+
+// Conv is one bank of filters of the same width.
+//
+// W is laid out [filter][slot][dim]: the weight of filter f at window position
+// (slot) s for embedding component d is W[(f*Width+s)*Dim+d].
+type Conv struct {
+	Width int
+	W     []float32 // Filters*Width*Dim
+	B     []float32 // Filters
+}
+
+// Model is a trained (or initialised) sentence CNN with everything needed to
+// tokenize and label new text.
+//
+// Filters are numbered globally in the order of Config.Widths: filter g lives
+// in Convs[g/Filters] as local filter g%Filters. Pooled unit g feeds column g
+// of OutW.
+//
+// The forward pass for one text of ids x (length L, padded with PAD on the
+// right to at least MaxWidth tokens, giving L'):
+//
+//	a[g][t] = B[f] + Σ_s Σ_d W[f][s][d]·Emb[x[t+s]][d]   for t = 0 … L'−w
+//	h[g]    = max_t relu(a[g][t])   (0 when filter g is masked)
+//	logit[c] = OutB[c] + Σ_g OutW[c][g]·h[g]
+//
+// Windows never reach past L', so a text's logits do not depend on how it was
+// batched.
+type Model struct {
+	Config Config
+	Labels []string // class names, by class index
+	Vocab  []string // words by id; Vocab[0] is PAD, Vocab[1] is UNK
+
+	Emb   []float32 // VocabSize*Dim, row-major; row 0 (PAD) is always zero
+	Convs []Conv    // one per entry of Config.Widths
+	OutW  []float32 // Classes*NumFilters, row-major [class][filter]
+	OutB  []float32 // Classes
+
+	// Masked[g] true removes filter g: its pooled unit is held at zero.
+	// Nil means no filter is masked.
+	Masked []bool
+}
+
+// FilterConv returns the bank index and local index of global filter g.
+func (m *Model) FilterConv(g int) (bank, local int) {
+	return g / m.Config.Filters, g % m.Config.Filters
+}
+
+// FilterWidth is the width of global filter g.
+func (m *Model) FilterWidth(g int) int { return m.Config.Widths[g/m.Config.Filters] }
+
+// FilterSlot returns the weights of global filter g at slot s (Dim values).
+func (m *Model) FilterSlot(g, s int) []float32 {
+	b, f := m.FilterConv(g)
+	c := &m.Convs[b]
+	d := m.Config.Dim
+	off := (f*c.Width + s) * d
+	return c.W[off : off+d]
+}
+
+// FilterBias is the bias of global filter g.
+func (m *Model) FilterBias(g int) float32 {
+	b, f := m.FilterConv(g)
+	return m.Convs[b].B[f]
+}
+
+// IsMasked reports whether filter g is masked.
+func (m *Model) IsMasked(g int) bool { return m.Masked != nil && m.Masked[g] }
+
+// Row returns the embedding of word id.
+func (m *Model) Row(id int32) []float32 {
+	d := m.Config.Dim
+	return m.Emb[int(id)*d : int(id)*d+d]
+}

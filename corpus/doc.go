@@ -1,0 +1,3 @@
+// Package corpus reads labeled text, checks it, splits it, tokenizes it and
+// builds the vocabulary the classifier is trained on.
+package corpus
