@@ -1,0 +1,77 @@
+package corpus
+
+import (
+	"errors"
+	"fmt"
+)
+
+// Sentinel errors. Every error returned for bad input wraps exactly one of
+// them, so callers can test the kind with errors.Is while showing the full
+// message (which names the file, the line and the fix) to the user.
+var (
+	// ErrFormat: the file is not well-formed for its format (quoting, JSON
+	// syntax, field count, wrong delimiter, unknown format).
+	ErrFormat = errors.New("corpus: malformed input")
+	// ErrColumn: the text or label column is missing or cannot be chosen.
+	ErrColumn = errors.New("corpus: text or label column not found")
+	// ErrEmpty: the file or folder holds no usable examples.
+	ErrEmpty = errors.New("corpus: no examples")
+	// ErrEncoding: the bytes are not UTF-8 text (invalid sequences, NUL bytes,
+	// UTF-16).
+	ErrEncoding = errors.New("corpus: not UTF-8 text")
+	// ErrLabel: an empty label, a single label, or a label unknown to a
+	// label set.
+	ErrLabel = errors.New("corpus: bad label")
+	// ErrTooLong: a record is longer than the hard record limit.
+	ErrTooLong = errors.New("corpus: record too long")
+)
+
+// Warning is a problem that did not stop reading (an empty text that was
+// skipped, a text that was truncated, a file that was ignored).
+type Warning struct {
+	Path    string
+	Line    int // 1-based; 0 when the warning is about a whole file
+	Message string
+}
+
+// String formats the warning like an error message: "corpus: path line N: message".
+func (w Warning) String() string {
+	if w.Line > 0 {
+		return fmt.Sprintf("corpus: %s line %d: %s", w.Path, w.Line, w.Message)
+	}
+	return fmt.Sprintf("corpus: %s: %s", w.Path, w.Message)
+}
+
+// maxWarnings bounds the warnings kept, so a million bad lines cannot use
+// unbounded memory; the rest are counted in one final warning.
+const maxWarnings = 1000
+
+type warnings struct {
+	list    []Warning
+	dropped int
+	path    string
+}
+
+func (ws *warnings) add(path string, line int, format string, args ...any) {
+	if len(ws.list) >= maxWarnings {
+		ws.dropped++
+		return
+	}
+	ws.list = append(ws.list, Warning{Path: path, Line: line, Message: fmt.Sprintf(format, args...)})
+}
+
+func (ws *warnings) result() []Warning {
+	if ws.dropped > 0 {
+		return append(ws.list, Warning{Path: ws.path, Message: fmt.Sprintf("%d more warnings not shown", ws.dropped)})
+	}
+	return ws.list
+}
+
+// errAt formats a bad-input error naming path and line (line 0 is left out).
+func errAt(path string, line int, sentinel error, format string, args ...any) error {
+	msg := fmt.Sprintf(format, args...)
+	if line > 0 {
+		return fmt.Errorf("corpus: %s line %d: %s: %w", path, line, msg, sentinel)
+	}
+	return fmt.Errorf("corpus: %s: %s: %w", path, msg, sentinel)
+}

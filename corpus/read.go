@@ -1,0 +1,646 @@
+package corpus
+
+import (
+	"bufio"
+	"bytes"
+	"encoding/csv"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"sort"
+	"strings"
+	"unicode/utf8"
+)
+
+// DefaultMaxTextBytes is the text length limit used when Options.MaxTextBytes is 0.
+const DefaultMaxTextBytes = 1 << 20
+
+// recordLimitFactor: a record (CSV/TSV record or JSON line) longer than
+// recordLimitFactor*MaxTextBytes bytes is an error (ErrTooLong); texts longer
+// than MaxTextBytes but within that limit are truncated with a warning.
+const recordLimitFactor = 8
+
+// Options control reading. The zero value reads the format implied by the
+// path with columns "text" and "label" (or auto-detected ones).
+type Options struct {
+	// TextCol and LabelCol name the text and label columns (CSV/TSV header
+	// names, JSON keys). Empty means: "text"/"label" if present, else a
+	// common name (sentence, review, body… / category, class, target…) if
+	// exactly one matches, else the other column of a two-column file.
+	// Names are compared case-insensitively.
+	TextCol, LabelCol string
+	// Format is "", "csv", "tsv", "jsonl" or "dir". Empty: a directory is
+	// "dir", otherwise the extension decides (.csv; .tsv/.tab; .jsonl/.ndjson).
+	Format string
+	// MaxTextBytes is the longest text kept (0 = DefaultMaxTextBytes).
+	// Longer texts are truncated at a UTF-8 boundary with a warning. A
+	// record longer than 8×MaxTextBytes is an error, which bounds memory.
+	MaxTextBytes int
+	// ReplaceInvalidUTF8 replaces invalid UTF-8 sequences by U+FFFD with a
+	// warning instead of failing (mail corpora often hold Latin-1 bytes).
+	ReplaceInvalidUTF8 bool
+}
+
+// Example is one labeled text.
+type Example struct {
+	Text, Label string
+	Line        int    // 1-based line where the record starts; 0 for folders
+	File        string // folders: path of the file relative to the root; else empty
+}
+
+// Dataset is a loaded corpus.
+type Dataset struct {
+	Path     string
+	Examples []Example
+	Labels   []string // sorted unique labels
+}
+
+// Where names an example's origin for messages: "path line N" or "path/file".
+func (d *Dataset) Where(e Example) string {
+	if e.File != "" {
+		return filepath.Join(d.Path, e.File)
+	}
+	return fmt.Sprintf("%s line %d", d.Path, e.Line)
+}
+
+// Load reads the whole corpus at path (a file, or a folder with one
+// sub-folder per label). It returns the examples in file order, the
+// warnings, and an error wrapping one of the sentinels for bad input.
+// Nothing on disk is modified.
+func Load(path string, opt Options) (*Dataset, []Warning, error) {
+	d := &Dataset{Path: path}
+	seen := map[string]bool{}
+	ws, err := Stream(path, opt, func(e Example) error {
+		d.Examples = append(d.Examples, e)
+		if !seen[e.Label] {
+			seen[e.Label] = true
+			d.Labels = append(d.Labels, e.Label)
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, ws, err
+	}
+	sort.Strings(d.Labels)
+	return d, ws, nil
+}
+
+// Stream reads the corpus at path like Load but hands each example to fn
+// instead of keeping it, so memory does not grow with the corpus. An error
+// returned by fn stops reading and is returned as is. After the last
+// example Stream checks that there were examples and at least two labels
+// (a classifier needs two), so fn may have seen examples of a corpus that
+// is finally rejected.
+func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error) {
+	if opt.MaxTextBytes <= 0 {
+		opt.MaxTextBytes = DefaultMaxTextBytes
+	}
+	st, err := os.Stat(path)
+	if err != nil {
+		return nil, fmt.Errorf("corpus: %s: cannot open: %v: check the path: %w", path, err, ErrEmpty)
+	}
+	format := opt.Format
+	if format == "" {
+		format = detectFormat(path, st.IsDir())
+	}
+	ws := &warnings{path: path}
+	labels := map[string]int{}
+	n := 0
+	count := func(e Example) error {
+		n++
+		if len(labels) < 2 {
+			labels[e.Label]++
+		}
+		return fn(e)
+	}
+	switch format {
+	case "dir":
+		if !st.IsDir() {
+			return nil, errAt(path, 0, ErrFormat, "format dir needs a folder with one sub-folder per label")
+		}
+		err = readDir(path, opt, ws, count)
+	case "csv", "tsv", "jsonl":
+		if st.IsDir() {
+			return nil, errAt(path, 0, ErrFormat, "is a folder: a folder is read as one sub-folder per label (format dir)")
+		}
+		var f *os.File
+		f, err = os.Open(path)
+		if err != nil {
+			return nil, fmt.Errorf("corpus: %s: cannot open: %v: %w", path, err, ErrEmpty)
+		}
+		defer f.Close()
+		if format == "jsonl" {
+			err = readJSONL(f, path, opt, ws, count)
+		} else {
+			err = readDelimited(f, path, format, opt, ws, count)
+		}
+	case "":
+		return nil, errAt(path, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or pass the format (csv, tsv, jsonl, dir)")
+	default:
+		return nil, errAt(path, 0, ErrFormat, "unknown format %q: use csv, tsv, jsonl or dir", format)
+	}
+	if err != nil {
+		return ws.result(), err
+	}
+	if n == 0 {
+		return ws.result(), errAt(path, 0, ErrEmpty, "no examples found: the file needs a header row and at least one record with a non-empty text")
+	}
+	if len(labels) < 2 {
+		var only string
+		for l := range labels {
+			only = l
+		}
+		return ws.result(), errAt(path, 0, ErrLabel, "only one label %q in %d examples: a classifier needs at least two labels; check the label column", only, n)
+	}
+	return ws.result(), nil
+}
+
+func detectFormat(path string, dir bool) string {
+	if dir {
+		return "dir"
+	}
+	switch strings.ToLower(filepath.Ext(path)) {
+	case ".csv":
+		return "csv"
+	case ".tsv", ".tab":
+		return "tsv"
+	case ".jsonl", ".ndjson":
+		return "jsonl"
+	}
+	return ""
+}
+
+// Column auto-detection candidates, common names for text and label fields
+// in public classification data sets (common practice, no source).
+var (
+	textNames  = []string{"text", "sentence", "review", "body", "content", "message", "document", "comment", "utterance", "tweet"}
+	labelNames = []string{"label", "category", "class", "target", "intent", "sentiment", "labels", "y"}
+)
+
+// pickColumns resolves the text and label column indexes in names.
+func pickColumns(names []string, opt Options, path string, line int) (ti, li int, err error) {
+	find := func(want string) int {
+		for i, n := range names {
+			if strings.EqualFold(strings.TrimSpace(n), want) {
+				return i
+			}
+		}
+		return -1
+	}
+	guess := func(cands []string) int {
+		if i := find(cands[0]); i >= 0 {
+			return i
+		}
+		hit := -1
+		for _, c := range cands[1:] {
+			if i := find(c); i >= 0 {
+				if hit >= 0 {
+					return -2 // ambiguous
+				}
+				hit = i
+			}
+		}
+		return hit
+	}
+	list := fmt.Sprintf("%q", names)
+	if opt.TextCol != "" {
+		if ti = find(opt.TextCol); ti < 0 {
+			return 0, 0, errAt(path, line, ErrColumn, "text column %q not found; the columns are %s: pass the right name with --text-col", opt.TextCol, list)
+		}
+	} else {
+		ti = guess(textNames)
+	}
+	if opt.LabelCol != "" {
+		if li = find(opt.LabelCol); li < 0 {
+			return 0, 0, errAt(path, line, ErrColumn, "label column %q not found; the columns are %s: pass the right name with --label-col", opt.LabelCol, list)
+		}
+	} else {
+		li = guess(labelNames)
+	}
+	if len(names) == 2 {
+		if ti >= 0 && li < 0 {
+			li = 1 - ti
+		} else if li >= 0 && ti < 0 {
+			ti = 1 - li
+		}
+	}
+	if ti < 0 {
+		return 0, 0, errAt(path, line, ErrColumn, "cannot tell which column holds the text; the columns are %s: pass --text-col", list)
+	}
+	if li < 0 {
+		return 0, 0, errAt(path, line, ErrColumn, "cannot tell which column holds the label; the columns are %s: pass --label-col", list)
+	}
+	if ti == li {
+		return 0, 0, errAt(path, line, ErrColumn, "text and label are the same column %q: pass different --text-col and --label-col", names[ti])
+	}
+	return ti, li, nil
+}
+
+// checkText validates the bytes of a field: no NUL, valid UTF-8 (or
+// replaced when opt allows). line is the line where the field starts.
+func checkText(s string, path string, line int, opt Options, ws *warnings, what string) (string, error) {
+	if i := strings.IndexByte(s, 0); i >= 0 {
+		return "", errAt(path, line+strings.Count(s[:i], "\n"), ErrEncoding, "NUL byte in the %s: the file looks binary or UTF-16; save it as UTF-8 text", what)
+	}
+	if !utf8.ValidString(s) {
+		bad := 0
+		for i := 0; i < len(s); {
+			r, size := utf8.DecodeRuneInString(s[i:])
+			if r == utf8.RuneError && size == 1 {
+				bad = i
+				break
+			}
+			i += size
+		}
+		l := line + strings.Count(s[:bad], "\n")
+		if !opt.ReplaceInvalidUTF8 {
+			return "", errAt(path, l, ErrEncoding, "invalid UTF-8 byte 0x%02x in the %s: convert the file to UTF-8 (e.g. iconv -f latin1 -t utf-8), or replace bad bytes with --replace-invalid-utf8", s[bad], what)
+		}
+		ws.add(path, l, "invalid UTF-8 in the %s replaced by U+FFFD", what)
+		s = strings.ToValidUTF8(s, "\uFFFD")
+	}
+	return s, nil
+}
+
+// truncate cuts s to at most max bytes at a rune boundary.
+func truncate(s string, max int) string {
+	if len(s) <= max {
+		return s
+	}
+	cut := max
+	for cut > 0 && !utf8.RuneStart(s[cut]) {
+		cut--
+	}
+	return s[:cut]
+}
+
+// makeExample applies the shared checks to one raw record.
+func makeExample(text, label, path, file string, line, labelLine int, opt Options, ws *warnings) (Example, bool, error) {
+	var err error
+	if text, err = checkText(text, path, line, opt, ws, "text"); err != nil {
+		return Example{}, false, err
+	}
+	if label, err = checkText(label, path, labelLine, opt, ws, "label"); err != nil {
+		return Example{}, false, err
+	}
+	label = strings.TrimSpace(label)
+	if label == "" {
+		return Example{}, false, errAt(path, labelLine, ErrLabel, "empty label: give every example a label, or remove the record")
+	}
+	if strings.TrimSpace(text) == "" {
+		ws.add(path, line, "empty text skipped")
+		return Example{}, false, nil
+	}
+	if len(text) > opt.MaxTextBytes {
+		ws.add(path, line, "text of %d bytes truncated to %d bytes (raise --max-text-bytes to keep more)", len(text), opt.MaxTextBytes)
+		text = truncate(text, opt.MaxTextBytes)
+	}
+	return Example{Text: text, Label: label, Line: line, File: file}, true, nil
+}
+
+// limitReader fails once more than limit bytes are read since the last
+// reset, so one enormous record cannot exhaust memory.
+type limitReader struct {
+	r     io.Reader
+	n     int
+	limit int
+}
+
+var errRecordLimit = errors.New("record limit")
+
+func (l *limitReader) Read(p []byte) (int, error) {
+	if l.n > l.limit {
+		return 0, errRecordLimit
+	}
+	if len(p) > l.limit-l.n+1 {
+		p = p[:l.limit-l.n+1]
+	}
+	n, err := l.r.Read(p)
+	l.n += n
+	return n, err
+}
+
+// skipBOM consumes a UTF-8 byte order mark and rejects UTF-16 ones.
+func skipBOM(br *bufio.Reader, path string) error {
+	b, _ := br.Peek(3)
+	if bytes.HasPrefix(b, []byte("\xef\xbb\xbf")) {
+		br.Discard(3)
+		return nil
+	}
+	if bytes.HasPrefix(b, []byte("\xff\xfe")) || bytes.HasPrefix(b, []byte("\xfe\xff")) {
+		return errAt(path, 1, ErrEncoding, "the file is UTF-16: save it as UTF-8")
+	}
+	return nil
+}
+
+func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, fn func(Example) error) error {
+	br := bufio.NewReaderSize(r, 64<<10)
+	if err := skipBOM(br, path); err != nil {
+		return err
+	}
+	limit := recordLimitFactor * opt.MaxTextBytes
+	lr := &limitReader{r: br, limit: limit}
+	cr := csv.NewReader(bufio.NewReaderSize(lr, 16<<10))
+	if format == "tsv" {
+		cr.Comma = '\t'
+	}
+	cr.ReuseRecord = true
+	cr.FieldsPerRecord = 0 // set from the header
+	wrap := func(err error, line int) error {
+		if errors.Is(err, errRecordLimit) {
+			return errAt(path, line, ErrTooLong, "record longer than %d bytes: the file may lack line breaks or have an unclosed quote; or raise --max-text-bytes (limit is %d × it)", limit, recordLimitFactor)
+		}
+		var pe *csv.ParseError
+		if errors.As(err, &pe) {
+			switch {
+			case errors.Is(pe.Err, csv.ErrFieldCount):
+				return errAt(path, pe.StartLine, ErrFormat, "record has a different number of fields than the header (%d): quote fields that contain the delimiter", cr.FieldsPerRecord)
+			case errors.Is(pe.Err, csv.ErrBareQuote), errors.Is(pe.Err, csv.ErrQuote):
+				return errAt(path, pe.StartLine, ErrFormat, "malformed quoting (%v at line %d, column %d): put quoted fields in double quotes and double any quote inside them", pe.Err, pe.Line, pe.Column)
+			}
+			return errAt(path, pe.StartLine, ErrFormat, "%v", pe.Err)
+		}
+		return fmt.Errorf("corpus: %s line %d: read error: %v: %w", path, line, err, ErrFormat)
+	}
+	header, err := cr.Read()
+	if err == io.EOF {
+		return errAt(path, 0, ErrEmpty, "file is empty: it needs a header row naming the text and label columns")
+	}
+	if err != nil {
+		return wrap(err, 1)
+	}
+	names := make([]string, len(header))
+	for i, h := range header {
+		if _, err := checkText(h, path, 1, Options{}, ws, "header"); err != nil {
+			return err
+		}
+		names[i] = strings.TrimSpace(h)
+	}
+	if len(names) == 1 {
+		h := names[0]
+		for _, d := range []struct{ sep, name, fix string }{{"\t", "tabs", "tsv"}, {";", "semicolons", ""}, {"|", "bars", ""}, {",", "commas", "csv"}} {
+			if strings.Contains(h, d.sep) && (format != "csv" || d.sep != ",") && (format != "tsv" || d.sep != "\t") {
+				fix := "convert it to comma- or tab-separated"
+				if d.fix != "" {
+					fix = "name it ." + d.fix + " or pass the format " + d.fix
+				}
+				return errAt(path, 1, ErrFormat, "header has one column %q containing %s: the file looks %s-separated, not %s; %s", h, d.name, d.name, format, fix)
+			}
+		}
+	}
+	seen := map[string]bool{}
+	for _, n := range names {
+		k := strings.ToLower(n)
+		if seen[k] {
+			return errAt(path, 1, ErrColumn, "column %q appears twice in the header: rename one", n)
+		}
+		seen[k] = true
+	}
+	ti, li, err := pickColumns(names, opt, path, 1)
+	if err != nil {
+		return err
+	}
+	cr.FieldsPerRecord = len(header)
+	for {
+		lr.n = 0
+		rec, err := cr.Read()
+		if err == io.EOF {
+			return nil
+		}
+		if err != nil {
+			line, _ := cr.FieldPos(0)
+			return wrap(err, line)
+		}
+		line, _ := cr.FieldPos(ti)
+		labelLine, _ := cr.FieldPos(li)
+		start, _ := cr.FieldPos(0)
+		e, ok, err := makeExample(rec[ti], rec[li], path, "", line, labelLine, opt, ws)
+		if err != nil {
+			return err
+		}
+		if !ok {
+			continue
+		}
+		e.Line = start
+		if err := fn(e); err != nil {
+			return err
+		}
+	}
+}
+
+// readLine reads one line (without the line break and a trailing CR) into
+// buf, failing with errRecordLimit past limit bytes.
+func readLine(br *bufio.Reader, buf []byte, limit int) ([]byte, error) {
+	buf = buf[:0]
+	for {
+		chunk, err := br.ReadSlice('\n')
+		if len(buf)+len(chunk) > limit+2 {
+			// consume the rest of the line so the caller could go on
+			for err == bufio.ErrBufferFull {
+				_, err = br.ReadSlice('\n')
+			}
+			return buf, errRecordLimit
+		}
+		buf = append(buf, chunk...)
+		if err == bufio.ErrBufferFull {
+			continue
+		}
+		if err != nil && !(err == io.EOF && len(buf) > 0) {
+			return buf, err
+		}
+		buf = bytes.TrimSuffix(buf, []byte("\n"))
+		buf = bytes.TrimSuffix(buf, []byte("\r"))
+		return buf, nil
+	}
+}
+
+func readJSONL(r io.Reader, path string, opt Options, ws *warnings, fn func(Example) error) error {
+	br := bufio.NewReaderSize(r, 64<<10)
+	if err := skipBOM(br, path); err != nil {
+		return err
+	}
+	limit := recordLimitFactor * opt.MaxTextBytes
+	var buf []byte
+	var textKey, labelKey string
+	for line := 1; ; line++ {
+		b, err := readLine(br, buf, limit)
+		buf = b
+		if err == io.EOF {
+			if line == 1 {
+				return errAt(path, 0, ErrEmpty, "file is empty: it needs one JSON object per line")
+			}
+			return nil
+		}
+		if err == errRecordLimit {
+			return errAt(path, line, ErrTooLong, "line longer than %d bytes: raise --max-text-bytes (limit is %d × it)", limit, recordLimitFactor)
+		}
+		if err != nil {
+			return fmt.Errorf("corpus: %s line %d: read error: %v: %w", path, line, err, ErrFormat)
+		}
+		if len(bytes.TrimSpace(b)) == 0 {
+			continue
+		}
+		if i := bytes.IndexByte(b, 0); i >= 0 {
+			return errAt(path, line, ErrEncoding, "NUL byte: the file looks binary or UTF-16; save it as UTF-8 text")
+		}
+		var obj map[string]json.RawMessage
+		if err := json.Unmarshal(b, &obj); err != nil {
+			return errAt(path, line, ErrFormat, "not a JSON object (%v): write one object per line, like {\"text\": \"...\", \"label\": \"...\"}", err)
+		}
+		if textKey == "" {
+			keys := make([]string, 0, len(obj))
+			for k := range obj {
+				keys = append(keys, k)
+			}
+			sort.Strings(keys)
+			ti, li, err := pickColumns(keys, opt, path, line)
+			if err != nil {
+				return err
+			}
+			textKey, labelKey = keys[ti], keys[li]
+		}
+		text, err := jsonField(obj, textKey, true)
+		if err != nil {
+			return errAt(path, line, ErrColumn, "field %q: %v", textKey, err)
+		}
+		label, err := jsonField(obj, labelKey, false)
+		if err != nil {
+			return errAt(path, line, ErrColumn, "field %q: %v", labelKey, err)
+		}
+		e, ok, err := makeExample(text, label, path, "", line, line, opt, ws)
+		if err != nil {
+			return err
+		}
+		if ok {
+			if err := fn(e); err != nil {
+				return err
+			}
+		}
+	}
+}
+
+// jsonField returns obj[key] as a string. Labels may also be numbers or
+// booleans (written as in the file).
+func jsonField(obj map[string]json.RawMessage, key string, text bool) (string, error) {
+	raw, ok := obj[key]
+	if !ok {
+		return "", fmt.Errorf("missing: every line needs the same fields")
+	}
+	raw = bytes.TrimSpace(raw)
+	if len(raw) > 0 && raw[0] == '"' {
+		var s string
+		if err := json.Unmarshal(raw, &s); err != nil {
+			return "", err
+		}
+		return s, nil
+	}
+	if !text && len(raw) > 0 && (raw[0] == '-' || (raw[0] >= '0' && raw[0] <= '9') || string(raw) == "true" || string(raw) == "false") {
+		return string(raw), nil
+	}
+	if text {
+		return "", fmt.Errorf("is %s, not a string: the text must be a JSON string", raw)
+	}
+	return "", fmt.Errorf("is %s: a label must be a string or a number", raw)
+}
+
+// readDir reads a folder with one sub-folder per label. Within a label
+// folder, the examples are the regular files whose name has the extension
+// .txt or no extension at all, in name order; hidden entries (name starting
+// with ".") are skipped, other files (e.g. .json twins) are skipped with one
+// warning per folder, and entries at the top level or nested deeper are
+// ignored with a warning. Symbolic links are not followed.
+func readDir(root string, opt Options, ws *warnings, fn func(Example) error) error {
+	entries, err := os.ReadDir(root)
+	if err != nil {
+		return fmt.Errorf("corpus: %s: cannot read folder: %v: %w", root, err, ErrEmpty)
+	}
+	ignored := 0
+	for _, de := range entries {
+		name := de.Name()
+		if strings.HasPrefix(name, ".") {
+			continue
+		}
+		if !de.IsDir() {
+			ignored++
+			continue
+		}
+		label := strings.TrimSpace(name)
+		sub := filepath.Join(root, name)
+		files, err := os.ReadDir(sub)
+		if err != nil {
+			return fmt.Errorf("corpus: %s: cannot read folder: %v: %w", sub, err, ErrEmpty)
+		}
+		skipped, nested, kept := 0, 0, 0
+		for _, fe := range files {
+			fname := fe.Name()
+			if strings.HasPrefix(fname, ".") {
+				continue
+			}
+			if fe.IsDir() {
+				nested++
+				continue
+			}
+			if !fe.Type().IsRegular() {
+				skipped++
+				continue
+			}
+			if ext := filepath.Ext(fname); ext != "" && !strings.EqualFold(ext, ".txt") {
+				skipped++
+				continue
+			}
+			rel := filepath.Join(name, fname)
+			full := filepath.Join(sub, fname)
+			text, long, err := readFileLimited(full, opt.MaxTextBytes)
+			if err != nil {
+				return fmt.Errorf("corpus: %s: cannot read: %v: %w", full, err, ErrEmpty)
+			}
+			if long {
+				ws.add(full, 0, "text longer than %d bytes truncated (raise --max-text-bytes to keep more)", opt.MaxTextBytes)
+				text = truncate(text, opt.MaxTextBytes)
+			}
+			e, ok, err := makeExample(text, label, full, rel, 1, 1, opt, ws)
+			if err != nil {
+				return err
+			}
+			if !ok {
+				continue
+			}
+			e.Line = 0
+			kept++
+			if err := fn(e); err != nil {
+				return err
+			}
+		}
+		if skipped > 0 {
+			ws.add(sub, 0, "%d files skipped: only .txt files and files without extension are examples", skipped)
+		}
+		if nested > 0 {
+			ws.add(sub, 0, "%d sub-folders ignored: put example files directly in the label folder", nested)
+		}
+		if kept == 0 {
+			ws.add(sub, 0, "label folder holds no examples")
+		}
+	}
+	if ignored > 0 {
+		ws.add(root, 0, "%d files at the top level ignored: examples belong in one sub-folder per label", ignored)
+	}
+	return nil
+}
+
+// readFileLimited reads at most max+4 bytes; long reports that the file is
+// longer than max.
+func readFileLimited(path string, max int) (string, bool, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return "", false, err
+	}
+	defer f.Close()
+	b, err := io.ReadAll(io.LimitReader(f, int64(max)+4))
+	if err != nil {
+		return "", false, err
+	}
+	return string(b), len(b) > max, nil
+}

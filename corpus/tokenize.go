@@ -1,0 +1,458 @@
+package corpus
+
+import (
+	"bytes"
+	"fmt"
+	"os"
+	"sort"
+	"strings"
+	"sync"
+	"unicode"
+	"unicode/utf8"
+
+	"github.com/sugarme/tokenizer"
+	"github.com/sugarme/tokenizer/model"
+	"github.com/sugarme/tokenizer/model/wordpiece"
+	"github.com/sugarme/tokenizer/normalizer"
+	"github.com/sugarme/tokenizer/pretrained"
+)
+
+// TokenizerConfig describes a tokenizer completely; it round-trips through
+// encoding/json so a model file can store it and rebuild the same
+// tokenizer without other files.
+type TokenizerConfig struct {
+	// Lower lower-cases every token after Unicode clean-up.
+	Lower bool `json:"lower"`
+	// KeepForm turns off the NFKC normalization (compatibility forms such
+	// as "ﬁ" → "fi", full-width letters, "①" → "1"). Off by default.
+	KeepForm bool `json:"keep_form,omitempty"`
+	// MinCount and MaxVocab are the word-vocabulary limits callers pass to
+	// BuildVocab; kept here so the model file records them.
+	MinCount int `json:"min_count,omitempty"`
+	MaxVocab int `json:"max_vocab,omitempty"`
+	// Subword asks for a WordPiece vocabulary trained on the training
+	// split (TrainSubword) to split out-of-vocabulary words (TokenizeFor).
+	Subword bool `json:"subword,omitempty"`
+	// SubwordSize is the WordPiece vocabulary size (0 = 2000).
+	SubwordSize int `json:"subword_size,omitempty"`
+	// SubwordPieces is the trained WordPiece vocabulary (continuation
+	// pieces start with "##"), filled by TrainSubword.
+	SubwordPieces []string `json:"subword_pieces,omitempty"`
+	// File names a tokenizer file in the library's JSON format (as read by
+	// github.com/sugarme/tokenizer/pretrained.FromFile); NewTokenizer reads it
+	// into FileJSON, which is what is used and stored.
+	File     string `json:",omitempty"`
+	FileJSON []byte `json:",omitempty"`
+}
+
+// Tokenizer splits text into tokens with byte offsets into the original
+// text. Built-in rule: the text is split at Unicode white space (removed)
+// and around every punctuation or symbol character (each kept as its own
+// token; emoji are symbols), using the splitting of
+// github.com/sugarme/tokenizer/normalizer on the original text; then each
+// token is normalized with the library's normalizers: NFKC (unless
+// KeepForm), removal of control and format characters (zero-width spaces,
+// soft hyphens), optional lower-casing. A token that normalizes to nothing
+// is dropped. Invalid UTF-8 bytes never form tokens.
+//
+// Because splitting happens before normalization, text[Start:End] is
+// always the token's exact source span, even when NFKC changes its length.
+//
+// A Tokenizer is safe for concurrent use.
+type Tokenizer struct {
+	cfg  TokenizerConfig
+	norm normalizer.Normalizer
+	wp   *wordpiece.WordPiece
+	user *tokenizer.Tokenizer
+	mu   sync.Mutex // guards user (the library's Tokenizer is not documented as concurrency-safe)
+}
+
+// NewTokenizer builds a tokenizer from cfg. If cfg.File is set and
+// cfg.FileJSON is empty, the file is read. A user tokenizer file replaces
+// the built-in rule: its own normalizer, pre-tokenizer and model decide the
+// tokens (Token.Text is the library's token string) and its offsets are
+// checked against the text.
+func NewTokenizer(cfg TokenizerConfig) (*Tokenizer, error) {
+	t := &Tokenizer{cfg: cfg}
+	var ns []normalizer.Normalizer
+	if !cfg.KeepForm {
+		ns = append(ns, normalizer.NewNFKC())
+	}
+	t.norm = normalizer.NewSequence(ns)
+	if cfg.File != "" && len(cfg.FileJSON) == 0 {
+		b, err := os.ReadFile(cfg.File)
+		if err != nil {
+			return nil, fmt.Errorf("corpus: %s: cannot read tokenizer file: %v: %w", cfg.File, err, ErrFormat)
+		}
+		t.cfg.FileJSON = b
+	}
+	if len(t.cfg.FileJSON) > 0 {
+		name := cfg.File
+		if name == "" {
+			name = "tokenizer file"
+		}
+		u, err := loadUserTokenizer(t.cfg.FileJSON)
+		if err != nil {
+			return nil, fmt.Errorf("corpus: %s: not a tokenizer file in the library's JSON format: %v: %w", name, err, ErrFormat)
+		}
+		t.user = u
+	}
+	if len(cfg.SubwordPieces) > 0 {
+		t.setPieces(cfg.SubwordPieces)
+	}
+	return t, nil
+}
+
+func loadUserTokenizer(b []byte) (tk *tokenizer.Tokenizer, err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			err = fmt.Errorf("the library failed on it (%v)", r)
+		}
+	}()
+	return pretrained.FromReader(bytes.NewReader(b))
+}
+
+// Config returns the configuration, including trained subword pieces and
+// the contents of a user tokenizer file, for storing in a model file.
+func (t *Tokenizer) Config() TokenizerConfig {
+	c := t.cfg
+	c.SubwordPieces = append([]string(nil), c.SubwordPieces...)
+	c.FileJSON = append([]byte(nil), c.FileJSON...)
+	if len(c.FileJSON) == 0 {
+		c.FileJSON = nil
+	}
+	return c
+}
+
+// wpUnk is the WordPiece unknown token; it is never a vocabulary entry.
+const wpUnk = "[UNK]"
+
+func (t *Tokenizer) setPieces(pieces []string) {
+	v := make(model.Vocab, len(pieces)+1)
+	for i, p := range pieces {
+		v[p] = i
+	}
+	v[wpUnk] = len(pieces)
+	wp := wordpiece.NewWordPieceBuilder().Vocab(&v).UnkToken(wpUnk).ContinuingSubwordPrefix("##").MaxInputCharsPerWord(100).Build()
+	t.wp = &wp
+	t.cfg.SubwordPieces = pieces
+}
+
+// HasSubword reports whether a subword vocabulary is present.
+func (t *Tokenizer) HasSubword() bool { return t.wp != nil }
+
+// TrainSubword trains a WordPiece vocabulary of about size pieces (0 = the
+// config's SubwordSize, else 2000) on the words of texts (the training
+// split) with the library's WordPiece trainer, and keeps it in the
+// tokenizer and its Config. It must not run concurrently with other
+// methods. Schuster & Nakajima 2012, "Japanese and Korean voice search"
+// (WordPiece); the library implements it as BPE merges with a "##" prefix.
+func (t *Tokenizer) TrainSubword(texts []string, size int) (err error) {
+	if size <= 0 {
+		size = t.cfg.SubwordSize
+	}
+	if size <= 0 {
+		size = 2000
+	}
+	counts := map[string]int{}
+	for _, s := range texts {
+		for _, tk := range t.Tokenize(s) {
+			counts[tk.Text]++
+		}
+	}
+	if len(counts) == 0 {
+		return fmt.Errorf("corpus: subword training: no words in the training texts: %w", ErrEmpty)
+	}
+	defer func() {
+		if r := recover(); r != nil {
+			err = fmt.Errorf("corpus: subword training failed in the tokenizer library: %v: %w", r, ErrFormat)
+		}
+	}()
+	tr := wordpiece.NewWordPieceTrainerBuilder().VocabSize(size).MinFrequency(0).ShowProgress(false).
+		SpecialTokens([]tokenizer.AddedToken{tokenizer.NewAddedToken(wpUnk, true)}).Build()
+	m := tr.Train(counts)
+	voc := m.GetVocab()
+	pieces := make([]string, 0, len(voc))
+	for p := range voc {
+		if p != wpUnk {
+			pieces = append(pieces, p)
+		}
+	}
+	sort.Slice(pieces, func(i, j int) bool { return voc[pieces[i]] < voc[pieces[j]] })
+	t.cfg.Subword = true
+	t.cfg.SubwordSize = size
+	t.setPieces(pieces)
+	return nil
+}
+
+func isPunctOrSymbol(r rune) bool { return unicode.IsPunct(r) || unicode.IsSymbol(r) }
+
+func dropChar(r rune) bool {
+	return unicode.Is(unicode.Cc, r) || unicode.Is(unicode.Cf, r) || r == utf8.RuneError
+}
+
+var (
+	spacePattern = normalizer.NewFnPattern(unicode.IsSpace)
+	punctPattern = normalizer.NewFnPattern(isPunctOrSymbol)
+)
+
+// Tokenize splits text into tokens (see Tokenizer). It never fails; with
+// a user tokenizer file whose library call fails or returns offsets that
+// do not fit the text, the built-in rule is used for that text.
+func (t *Tokenizer) Tokenize(text string) []Token {
+	if t.user != nil {
+		if toks, ok := t.userTokenize(text); ok {
+			return toks
+		}
+	}
+	var out []Token
+	// Invalid UTF-8 bytes separate runs that are tokenized on their own.
+	for start := 0; start < len(text); {
+		end := start
+		for end < len(text) {
+			r, size := utf8.DecodeRuneInString(text[end:])
+			if r == utf8.RuneError && size == 1 {
+				break
+			}
+			end += size
+		}
+		if end > start {
+			out = t.tokenizeValid(text[start:end], start, out)
+		}
+		start = end + 1
+	}
+	return out
+}
+
+// tokenizeValid appends the tokens of s (valid UTF-8 found at byte base
+// of the text) to out.
+func (t *Tokenizer) tokenizeValid(s string, base int, out []Token) []Token {
+	// Fast path for the splitting: the library's NormalizedString tracks
+	// alignments per byte; cut at white space first so each piece is small.
+	for i := 0; i < len(s); {
+		r, size := utf8.DecodeRuneInString(s[i:])
+		if unicode.IsSpace(r) {
+			i += size
+			continue
+		}
+		j := i
+		for j < len(s) {
+			r, size := utf8.DecodeRuneInString(s[j:])
+			if unicode.IsSpace(r) {
+				break
+			}
+			j += size
+		}
+		out = t.splitWord(s[i:j], base+i, out)
+		i = j
+	}
+	return out
+}
+
+func (t *Tokenizer) splitWord(w string, base int, out []Token) []Token {
+	n := normalizer.NewNormalizedFrom(w)
+	for _, piece := range n.Split(punctPattern, normalizer.IsolatedBehavior) {
+		off := piece.OffsetsOriginal()
+		src := w[off[0]:off[1]]
+		text := t.normalize(src)
+		if text == "" {
+			continue
+		}
+		out = append(out, Token{Text: text, Start: base + off[0], End: base + off[1]})
+	}
+	return out
+}
+
+// normalize applies the token normalization to one source span.
+func (t *Tokenizer) normalize(src string) string {
+	clean := true
+	ascii := true
+	for i := 0; i < len(src); i++ {
+		if src[i] >= utf8.RuneSelf {
+			ascii = false
+			break
+		}
+		if src[i] < 0x20 || src[i] == 0x7f {
+			clean = false
+		}
+	}
+	if ascii && clean {
+		if t.cfg.Lower {
+			return strings.ToLower(src)
+		}
+		return src
+	}
+	ns := normalizer.NewNormalizedFrom(src)
+	if res, err := t.norm.Normalize(ns); err == nil {
+		ns = res
+	}
+	ns = ns.Filter(func(r rune) bool { return !dropChar(r) })
+	if t.cfg.Lower {
+		ns = ns.Lowercase()
+	}
+	return ns.GetNormalized()
+}
+
+func (t *Tokenizer) userTokenize(text string) (toks []Token, ok bool) {
+	if !utf8.ValidString(text) {
+		return nil, false
+	}
+	t.mu.Lock()
+	defer t.mu.Unlock()
+	defer func() {
+		if r := recover(); r != nil {
+			toks, ok = nil, false
+		}
+	}()
+	enc, err := t.user.EncodeSingle(text, false)
+	if err != nil {
+		return nil, false
+	}
+	for i, s := range enc.Tokens {
+		if i >= len(enc.Offsets) || len(enc.Offsets[i]) != 2 {
+			return nil, false
+		}
+		a, b := enc.Offsets[i][0], enc.Offsets[i][1]
+		if a < 0 || b < a || b > len(text) || !utf8.ValidString(text[a:b]) ||
+			(a < len(text) && !utf8.RuneStart(text[a])) || (b < len(text) && !utf8.RuneStart(text[b])) {
+			return nil, false
+		}
+		toks = append(toks, Token{Text: s, Start: a, End: b})
+	}
+	return toks, true
+}
+
+// TokenizeFor tokenizes text and, when a subword vocabulary is present,
+// replaces each word that v maps to UNK by its WordPiece pieces if all of
+// them are in v. Pieces carry offsets of their part of the source span
+// when the token's normalized text equals its source; otherwise each piece
+// carries the whole word's span.
+func (t *Tokenizer) TokenizeFor(v *Vocab, text string) []Token {
+	toks := t.Tokenize(text)
+	if t.wp == nil {
+		return toks
+	}
+	out := toks[:0:0]
+	for _, tk := range toks {
+		if v.ID(tk.Text) != UNK {
+			out = append(out, tk)
+			continue
+		}
+		pieces := t.pieces(tk.Text)
+		okAll := len(pieces) > 0
+		for _, p := range pieces {
+			if v.ID(p.Value) == UNK {
+				okAll = false
+				break
+			}
+		}
+		if !okAll {
+			out = append(out, tk)
+			continue
+		}
+		same := text[tk.Start:tk.End] == tk.Text
+		var byteOf []int // rune index → byte offset in tk.Text
+		if same {
+			for i := range tk.Text {
+				byteOf = append(byteOf, i)
+			}
+			byteOf = append(byteOf, len(tk.Text))
+		}
+		for _, p := range pieces {
+			pt := Token{Text: p.Value, Start: tk.Start, End: tk.End}
+			if same && p.Offsets[1] < len(byteOf) {
+				pt.Start, pt.End = tk.Start+byteOf[p.Offsets[0]], tk.Start+byteOf[p.Offsets[1]]
+			}
+			out = append(out, pt)
+		}
+	}
+	return out
+}
+
+// pieces returns the WordPiece split of word, or nil when it has no split.
+func (t *Tokenizer) pieces(word string) []tokenizer.Token {
+	ps, err := t.wp.Tokenize(word)
+	if err != nil {
+		return nil
+	}
+	for _, p := range ps {
+		if p.Value == wpUnk {
+			return nil
+		}
+	}
+	return ps
+}
+
+// BuildVocab builds the word vocabulary from texts (the training split):
+// every token text seen at least minCount times (minCount < 1 means 1),
+// most frequent first, ties broken by word (byte order), at most maxSize
+// entries in all including PAD and UNK (maxSize <= 0: no limit). When tok
+// has a subword vocabulary, its pieces that occur in the split of the
+// training words left out are appended after the words (not counted
+// against maxSize), with those occurrence counts.
+func BuildVocab(tok *Tokenizer, texts []string, minCount, maxSize int) *Vocab {
+	if minCount < 1 {
+		minCount = 1
+	}
+	counts := map[string]int{}
+	for _, s := range texts {
+		for _, tk := range tok.Tokenize(s) {
+			counts[tk.Text]++
+		}
+	}
+	type wc struct {
+		w string
+		c int
+	}
+	var list []wc
+	for w, c := range counts {
+		if c >= minCount && w != PADWord && w != UNKWord {
+			list = append(list, wc{w, c})
+		}
+	}
+	sort.Slice(list, func(i, j int) bool {
+		if list[i].c != list[j].c {
+			return list[i].c > list[j].c
+		}
+		return list[i].w < list[j].w
+	})
+	if maxSize > 0 && len(list) > maxSize-2 {
+		list = list[:max(maxSize-2, 0)]
+	}
+	words := []string{PADWord, UNKWord}
+	cs := []int{0, 0}
+	in := map[string]bool{}
+	for _, e := range list {
+		words = append(words, e.w)
+		cs = append(cs, e.c)
+		in[e.w] = true
+	}
+	if tok.wp != nil {
+		pc := map[string]int{}
+		for w, c := range counts {
+			if in[w] {
+				continue
+			}
+			for _, p := range tok.pieces(w) {
+				pc[p.Value] += c
+			}
+		}
+		var plist []wc
+		for p, c := range pc {
+			if !in[p] && p != PADWord && p != UNKWord {
+				plist = append(plist, wc{p, c})
+			}
+		}
+		sort.Slice(plist, func(i, j int) bool {
+			if plist[i].c != plist[j].c {
+				return plist[i].c > plist[j].c
+			}
+			return plist[i].w < plist[j].w
+		})
+		for _, e := range plist {
+			words = append(words, e.w)
+			cs = append(cs, e.c)
+		}
+	}
+	return NewVocab(words, cs)
+}
