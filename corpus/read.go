@@ -366,6 +366,7 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 		return fmt.Errorf("corpus: %s line %d: read error: %v: %w", path, line, err, ErrFormat)
 	}
 	header, err := cr.Read()
+	// The header is not checked for field counts: records must match it.
 	if err == io.EOF {
 		return errAt(path, 0, ErrEmpty, "file is empty: it needs a header row naming the text and label columns")
 	}
@@ -404,6 +405,7 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 		return err
 	}
 	cr.FieldsPerRecord = len(header)
+	nextLine := 2 // line after the last record read (for errors without a position)
 	for {
 		lr.n = 0
 		rec, err := cr.Read()
@@ -411,9 +413,11 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 			return nil
 		}
 		if err != nil {
-			line, _ := cr.FieldPos(0)
-			return wrap(err, line)
+			return wrap(err, nextLine)
 		}
+		last := len(rec) - 1
+		endLine, _ := cr.FieldPos(last)
+		nextLine = endLine + strings.Count(rec[last], "\n") + 1
 		line, _ := cr.FieldPos(ti)
 		labelLine, _ := cr.FieldPos(li)
 		start, _ := cr.FieldPos(0)

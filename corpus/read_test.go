@@ -1,0 +1,235 @@
+package corpus
+
+import (
+	"errors"
+	"os"
+	"path/filepath"
+	"reflect"
+	"strings"
+	"testing"
+)
+
+func writeFile(t *testing.T, dir, name, content string) string {
+	t.Helper()
+	p := filepath.Join(dir, name)
+	if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(p, []byte(content), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
+}
+
+func TestLoadFormats(t *testing.T) {
+	type want struct {
+		texts, labels []string
+		lines         []int
+	}
+	cases := []struct {
+		name, file, content string
+		opt                 Options
+		want                want
+	}{
+		{"csv", "a.csv", "text,label\nhello there,pos\n\"multi\nline, quoted\",neg\n",
+			Options{}, want{[]string{"hello there", "multi\nline, quoted"}, []string{"pos", "neg"}, []int{2, 3}}},
+		{"csv-crlf-bom", "a.csv", "\ufefftext,label\r\nhi,pos\r\nbye,neg\r\n",
+			Options{}, want{[]string{"hi", "bye"}, []string{"pos", "neg"}, []int{2, 3}}},
+		{"csv-label-first-trimmed", "a.csv", "label,text\n  pos ,a\nneg,b\n",
+			Options{}, want{[]string{"a", "b"}, []string{"pos", "neg"}, []int{2, 3}}},
+		{"csv-common-names", "a.csv", "id,review,sentiment\n1,good,p\n2,bad,n\n",
+			Options{}, want{[]string{"good", "bad"}, []string{"p", "n"}, []int{2, 3}}},
+		{"csv-two-columns-one-known", "a.csv", "Category,words\nx,one\ny,two\n",
+			Options{}, want{[]string{"one", "two"}, []string{"x", "y"}, []int{2, 3}}},
+		{"csv-named-columns", "a.csv", "a,b,c\n1,t1,l1\n2,t2,l2\n",
+			Options{TextCol: "b", LabelCol: "C"}, want{[]string{"t1", "t2"}, []string{"l1", "l2"}, []int{2, 3}}},
+		{"tsv", "a.tsv", "text\tlabel\nsay \"hi\"?\tq\nok, fine\ta\n",
+			Options{}, want{nil, nil, nil}}, // bare quote: error case below; replaced here
+		{"jsonl", "a.jsonl", "{\"text\":\"héllo 😀\",\"label\":\"pos\"}\r\n\n{\"label\":2,\"text\":\"b\"}\n",
+			Options{}, want{[]string{"héllo 😀", "b"}, []string{"pos", "2"}, []int{1, 3}}},
+		{"jsonl-no-final-newline", "a.ndjson", "{\"sentence\":\"a\",\"class\":\"x\"}\n{\"sentence\":\"b\",\"class\":\"y\"}",
+			Options{}, want{[]string{"a", "b"}, []string{"x", "y"}, []int{1, 2}}},
+		{"format-override", "data.txt", "text,label\na,x\nb,y\n",
+			Options{Format: "csv"}, want{[]string{"a", "b"}, []string{"x", "y"}, []int{2, 3}}},
+	}
+	cases[6].content = "text\tlabel\nsay hi?\tq\nok, fine\ta\n"
+	cases[6].want = want{[]string{"say hi?", "ok, fine"}, []string{"q", "a"}, []int{2, 3}}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			p := writeFile(t, t.TempDir(), c.file, c.content)
+			d, _, err := Load(p, c.opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var got want
+			for _, e := range d.Examples {
+				got.texts = append(got.texts, e.Text)
+				got.labels = append(got.labels, e.Label)
+				got.lines = append(got.lines, e.Line)
+			}
+			if !reflect.DeepEqual(got, c.want) {
+				t.Errorf("got %+v\nwant %+v", got, c.want)
+			}
+		})
+	}
+}
+
+func TestLoadBadInput(t *testing.T) {
+	long := strings.Repeat("x", 10<<20)
+	cases := []struct {
+		name, file, content string
+		opt                 Options
+		sentinel            error
+		line                string // expected "line N" part ("" = none expected)
+		msg                 string // expected substring
+	}{
+		{"empty file", "a.csv", "", Options{}, ErrEmpty, "", "file is empty"},
+		{"header only", "a.csv", "text,label\n", Options{}, ErrEmpty, "", "no examples"},
+		{"unbalanced quotes", "a.csv", "text,label\nok,a\n\"never closed,b\nmore,c\n", Options{}, ErrFormat, "line 3", "malformed quoting"},
+		{"bare quote", "a.csv", "text,label\nok,a\nsay \"hi\",b\n", Options{}, ErrFormat, "line 3", "malformed quoting"},
+		{"field count", "a.csv", "text,label\nok,a\na,b,c\n", Options{}, ErrFormat, "line 3", "different number of fields"},
+		{"wrong delimiter tab", "a.csv", "text\tlabel\nok\ta\n", Options{}, ErrFormat, "line 1", "tab"},
+		{"wrong delimiter semicolon", "a.csv", "text;label\nok;a\n", Options{}, ErrFormat, "line 1", "semicolons"},
+		{"tsv with commas", "a.tsv", "text,label\nok,a\n", Options{}, ErrFormat, "line 1", "commas"},
+		{"missing column", "a.csv", "text,label\nok,a\nno,b\n", Options{TextCol: "body"}, ErrColumn, "line 1", `text column "body" not found; the columns are ["text" "label"]`},
+		{"ambiguous columns", "a.csv", "id,words,tag\n1,a,b\n", Options{}, ErrColumn, "line 1", "--text-col"},
+		{"ambiguous label columns", "a.csv", "text,class,target\na,b,c\n", Options{}, ErrColumn, "line 1", "--label-col"},
+		{"duplicate column", "a.csv", "text,label,Text\na,b,c\n", Options{}, ErrColumn, "line 1", "appears twice"},
+		{"nul byte", "a.csv", "text,label\nok,a\nb\x00ad,b\n", Options{}, ErrEncoding, "line 3", "NUL byte"},
+		{"invalid utf8", "a.csv", "text,label\nok,a\n\"two\nlines caf\xe9\",b\n", Options{}, ErrEncoding, "line 4", "invalid UTF-8 byte 0xe9"},
+		{"utf16", "a.csv", "\xff\xfet\x00e\x00", Options{}, ErrEncoding, "line 1", "UTF-16"},
+		{"empty label", "a.csv", "text,label\nok,a\nfine, \n", Options{}, ErrLabel, "line 3", "empty label"},
+		{"one label only", "a.csv", "text,label\nok,a\nfine,a\n", Options{}, ErrLabel, "", `only one label "a" in 2 examples`},
+		{"only empty texts", "a.csv", "text,label\n ,a\n,b\n", Options{}, ErrEmpty, "", "no examples"},
+		{"10 MB single line csv", "a.csv", "text,label\n" + long + ",a\n", Options{}, ErrTooLong, "line 2", "record longer than"},
+		{"10 MB single line jsonl", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\":\"" + long + "\",\"label\":\"y\"}\n", Options{}, ErrTooLong, "line 2", "line longer than"},
+		{"jsonl bad json", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\": \"b\", label: y}\n", Options{}, ErrFormat, "line 2", "not a JSON object"},
+		{"jsonl missing field", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\":\"b\"}\n", Options{}, ErrColumn, "line 2", `field "label": missing`},
+		{"jsonl text not string", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\":5,\"label\":\"y\"}\n", Options{}, ErrColumn, "line 2", "not a string"},
+		{"jsonl empty label", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\":\"b\",\"label\":\"  \"}\n", Options{}, ErrLabel, "line 2", "empty label"},
+		{"jsonl nul", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\":\"b\x00\",\"label\":\"y\"}\n", Options{}, ErrEncoding, "line 2", "NUL byte"},
+		{"jsonl empty", "a.jsonl", "", Options{}, ErrEmpty, "", "file is empty"},
+		{"unknown extension", "a.txt", "text,label\n", Options{}, ErrFormat, "", "cannot tell the format"},
+		{"unknown format", "a.csv", "text,label\n", Options{Format: "xml"}, ErrFormat, "", `unknown format "xml"`},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			p := writeFile(t, t.TempDir(), c.file, c.content)
+			_, _, err := Load(p, c.opt)
+			if err == nil {
+				t.Fatal("no error")
+			}
+			if !errors.Is(err, c.sentinel) {
+				t.Errorf("error %q does not wrap %v", err, c.sentinel)
+			}
+			msg := err.Error()
+			if !strings.HasPrefix(msg, "corpus: "+p) {
+				t.Errorf("error %q does not start with the path", msg)
+			}
+			if c.line != "" && !strings.Contains(msg, p+" "+c.line+":") {
+				t.Errorf("error %q does not name %s", msg, c.line)
+			}
+			if c.line == "" && strings.Contains(msg, p+" line") {
+				t.Errorf("error %q names a line, none expected", msg)
+			}
+			if !strings.Contains(msg, c.msg) {
+				t.Errorf("error %q lacks %q", msg, c.msg)
+			}
+		})
+	}
+}
+
+func TestLoadWarnings(t *testing.T) {
+	dir := t.TempDir()
+	p := writeFile(t, dir, "a.csv", "text,label\n  ,a\nabcdeéf,b\n\"caf\xe9\",a\nok,b\n")
+	d, ws, err := Load(p, Options{MaxTextBytes: 6, ReplaceInvalidUTF8: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := []string{
+		"corpus: " + p + " line 2: empty text skipped",
+		"corpus: " + p + " line 3: text of 8 bytes truncated to 6 bytes (raise --max-text-bytes to keep more)",
+		"corpus: " + p + " line 4: invalid UTF-8 in the text replaced by U+FFFD",
+	}
+	var got []string
+	for _, w := range ws {
+		got = append(got, w.String())
+	}
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("warnings\n%q\nwant\n%q", got, want)
+	}
+	// "abcdeéf" cut at 6 bytes would split "é" (bytes 5-6): the cut backs off to "abcde".
+	texts := d.Texts()
+	if wantT := []string{"abcde", "caf\uFFFD", "ok"}; !reflect.DeepEqual(texts, wantT) {
+		t.Errorf("texts %q, want %q", texts, wantT)
+	}
+	if !reflect.DeepEqual(d.Labels, []string{"a", "b"}) {
+		t.Errorf("labels %q", d.Labels)
+	}
+}
+
+func TestLoadDir(t *testing.T) {
+	dir := t.TempDir()
+	writeFile(t, dir, "ham/1.txt", "hello\r\nthere")
+	writeFile(t, dir, "ham/1.json", `{"text":"hello"}`)
+	writeFile(t, dir, "ham/2", "no extension")
+	writeFile(t, dir, "ham/.hidden.txt", "hidden")
+	writeFile(t, dir, "spam/a.TXT", "buy now")
+	writeFile(t, dir, "spam/deeper/x.txt", "nested")
+	writeFile(t, dir, "README.md", "top level")
+	writeFile(t, dir, ".git/config", "hidden dir")
+	d, ws, err := Load(dir, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, e := range d.Examples {
+		got = append(got, e.Label+":"+e.File+":"+e.Text)
+	}
+	want := []string{"ham:" + filepath.Join("ham", "1.txt") + ":hello\r\nthere", "ham:" + filepath.Join("ham", "2") + ":no extension", "spam:" + filepath.Join("spam", "a.TXT") + ":buy now"}
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("got %q\nwant %q", got, want)
+	}
+	var msgs []string
+	for _, w := range ws {
+		msgs = append(msgs, w.String())
+	}
+	wantW := []string{
+		"corpus: " + filepath.Join(dir, "ham") + ": 1 files skipped: only .txt files and files without extension are examples",
+		"corpus: " + filepath.Join(dir, "spam") + ": 1 sub-folders ignored: put example files directly in the label folder",
+		"corpus: " + dir + ": 1 files at the top level ignored: examples belong in one sub-folder per label",
+	}
+	if !reflect.DeepEqual(msgs, wantW) {
+		t.Errorf("warnings %q\nwant %q", msgs, wantW)
+	}
+}
+
+func TestLoadDirBadFile(t *testing.T) {
+	dir := t.TempDir()
+	writeFile(t, dir, "a/1.txt", "fine")
+	bad := writeFile(t, dir, "b/1.txt", "line one\nline two caf\xe9\n")
+	_, _, err := Load(dir, Options{})
+	if !errors.Is(err, ErrEncoding) || !strings.Contains(err.Error(), bad+" line 2: invalid UTF-8") {
+		t.Fatalf("got %v", err)
+	}
+	d, ws, err := Load(dir, Options{ReplaceInvalidUTF8: true})
+	if err != nil || len(ws) != 1 || d.Examples[1].Text != "line one\nline two caf\uFFFD\n" {
+		t.Fatalf("replace: %v %v %q", err, ws, d.Texts())
+	}
+}
+
+func TestLoadNothingModified(t *testing.T) {
+	dir := t.TempDir()
+	p := writeFile(t, dir, "a.csv", "\ufefftext,label\r\na,x\r\nb,y\r\n")
+	before, _ := os.ReadFile(p)
+	st, _ := os.Stat(p)
+	if _, _, err := Load(p, Options{}); err != nil {
+		t.Fatal(err)
+	}
+	after, _ := os.ReadFile(p)
+	st2, _ := os.Stat(p)
+	ents, _ := os.ReadDir(dir)
+	if string(before) != string(after) || !st.ModTime().Equal(st2.ModTime()) || len(ents) != 1 {
+		t.Error("Load changed the folder")
+	}
+}

@@ -1,0 +1,316 @@
+package corpus
+
+import (
+	"fmt"
+	"hash/fnv"
+	"io"
+	"math"
+	"sort"
+	"strings"
+	"text/tabwriter"
+	"unicode"
+)
+
+// Summary describes a train/test pair of datasets: sizes, class balance,
+// vocabulary, token lengths, and duplicate texts within and across the
+// splits (a text in both splits is a train/test leak).
+type Summary struct {
+	Labels          []string         `json:"labels"`
+	Splits          []SplitSummary   `json:"splits"`
+	VocabSize       int              `json:"vocab_size"` // word vocabulary of the training split, PAD and UNK included
+	TestOOVRate     float64          `json:"test_oov_rate"`
+	ExactDuplicates []DuplicateGroup `json:"exact_duplicates"`
+	NearDuplicates  []DuplicateGroup `json:"near_duplicates"`
+	ExactGroups     int              `json:"exact_groups"` // number of groups, also those not listed
+	NearGroups      int              `json:"near_groups"`
+	Leaks           int              `json:"leaks"` // test examples whose text (exact or near) is also in train
+}
+
+// SplitSummary describes one split.
+type SplitSummary struct {
+	Name        string             `json:"name"`
+	Path        string             `json:"path"`
+	Examples    int                `json:"examples"`
+	PerLabel    map[string]int     `json:"per_label"`
+	Balance     map[string]float64 `json:"balance"` // share of examples per label
+	TokenLength Percentiles        `json:"token_length"`
+}
+
+// Percentiles of token counts per text, by the nearest-rank method
+// (common practice, no source).
+type Percentiles struct {
+	P50 int `json:"p50"`
+	P90 int `json:"p90"`
+	P99 int `json:"p99"`
+	Max int `json:"max"`
+}
+
+// DuplicateGroup is a set of examples with the same text (exact) or the
+// same text after near-duplicate normalization (lower-cased, punctuation,
+// digits and symbols removed, white space collapsed).
+type DuplicateGroup struct {
+	Members       []Location `json:"members"`
+	CrossSplit    bool       `json:"cross_split"`    // members in both train and test
+	LabelConflict bool       `json:"label_conflict"` // members carry different labels
+	Text          string     `json:"text"`           // the first member's text, cut to 80 bytes
+}
+
+// Location names one example.
+type Location struct {
+	Split string `json:"split"`
+	Line  int    `json:"line,omitempty"`
+	File  string `json:"file,omitempty"`
+	Label string `json:"label"`
+}
+
+// maxGroups bounds the duplicate groups listed in a Summary.
+const maxGroups = 50
+
+// Summarize describes train and test (test may be nil). The vocabulary is
+// built from train with tok's MinCount and MaxVocab.
+func Summarize(train, test *Dataset, tok *Tokenizer) Summary {
+	var s Summary
+	sets := []*Dataset{train}
+	names := []string{"train"}
+	if test != nil {
+		sets = append(sets, test)
+		names = append(names, "test")
+	}
+	labelSet := map[string]bool{}
+	for i, d := range sets {
+		ss := SplitSummary{Name: names[i], Path: d.Path, Examples: len(d.Examples), PerLabel: d.Counts(), Balance: map[string]float64{}}
+		lens := make([]int, len(d.Examples))
+		for j, e := range d.Examples {
+			lens[j] = len(tok.Tokenize(e.Text))
+		}
+		ss.TokenLength = percentiles(lens)
+		for l, c := range ss.PerLabel {
+			labelSet[l] = true
+			ss.Balance[l] = float64(c) / float64(len(d.Examples))
+		}
+		s.Splits = append(s.Splits, ss)
+	}
+	for l := range labelSet {
+		s.Labels = append(s.Labels, l)
+	}
+	sort.Strings(s.Labels)
+	cfg := tok.Config()
+	v := BuildVocab(tok, train.Texts(), cfg.MinCount, cfg.MaxVocab)
+	s.VocabSize = v.Len()
+	if test != nil {
+		n, unk := 0, 0
+		for _, e := range test.Examples {
+			for _, id := range v.Encode(tok.Tokenize(e.Text)) {
+				n++
+				if id == UNK {
+					unk++
+				}
+			}
+		}
+		if n > 0 {
+			s.TestOOVRate = float64(unk) / float64(n)
+		}
+	}
+	s.duplicates(sets, names)
+	return s
+}
+
+type member struct {
+	split, idx int
+	exact      uint64
+}
+
+func (s *Summary) duplicates(sets []*Dataset, names []string) {
+	exact := map[uint64][]member{}
+	near := map[uint64][]member{}
+	for si, d := range sets {
+		for i, e := range d.Examples {
+			m := member{si, i, hashString(e.Text)}
+			exact[m.exact] = append(exact[m.exact], m)
+			nk := hashString(nearKey(e.Text))
+			near[nk] = append(near[nk], m)
+		}
+	}
+	leaked := map[member]bool{}
+	build := func(ms []member) DuplicateGroup {
+		var g DuplicateGroup
+		labels := map[string]bool{}
+		splits := map[int]bool{}
+		for _, m := range ms {
+			e := sets[m.split].Examples[m.idx]
+			g.Members = append(g.Members, Location{Split: names[m.split], Line: e.Line, File: e.File, Label: e.Label})
+			labels[e.Label] = true
+			splits[m.split] = true
+		}
+		g.CrossSplit = len(splits) > 1
+		g.LabelConflict = len(labels) > 1
+		g.Text = truncate(sets[ms[0].split].Examples[ms[0].idx].Text, 80)
+		if g.CrossSplit {
+			for _, m := range ms {
+				if m.split == 1 {
+					leaked[m] = true
+				}
+			}
+		}
+		return g
+	}
+	collect := func(groups map[uint64][]member, keep func([]member) bool) ([]DuplicateGroup, int) {
+		var all []DuplicateGroup
+		for _, ms := range groups {
+			if len(ms) > 1 && keep(ms) {
+				all = append(all, build(ms))
+			}
+		}
+		sort.Slice(all, func(i, j int) bool {
+			a, b := all[i], all[j]
+			if a.CrossSplit != b.CrossSplit {
+				return a.CrossSplit
+			}
+			if len(a.Members) != len(b.Members) {
+				return len(a.Members) > len(b.Members)
+			}
+			return lessLoc(a.Members[0], b.Members[0])
+		})
+		n := len(all)
+		if len(all) > maxGroups {
+			all = all[:maxGroups]
+		}
+		return all, n
+	}
+	s.ExactDuplicates, s.ExactGroups = collect(exact, func([]member) bool { return true })
+	// A near group is listed only if it holds more than one distinct text.
+	s.NearDuplicates, s.NearGroups = collect(near, func(ms []member) bool {
+		for _, m := range ms[1:] {
+			if m.exact != ms[0].exact {
+				return true
+			}
+		}
+		return false
+	})
+	s.Leaks = len(leaked)
+}
+
+func lessLoc(a, b Location) bool {
+	if a.Split != b.Split {
+		return a.Split > b.Split // "train" before "test"
+	}
+	if a.File != b.File {
+		return a.File < b.File
+	}
+	return a.Line < b.Line
+}
+
+func hashString(s string) uint64 {
+	h := fnv.New64a()
+	io.WriteString(h, s)
+	return h.Sum64()
+}
+
+// nearKey lower-cases s, drops punctuation, symbols and digits and
+// collapses white space.
+func nearKey(s string) string {
+	var b strings.Builder
+	space := false
+	for _, r := range s {
+		switch {
+		case unicode.IsSpace(r):
+			space = b.Len() > 0
+		case unicode.IsPunct(r) || unicode.IsSymbol(r) || unicode.IsDigit(r) || unicode.Is(unicode.Cf, r) || unicode.Is(unicode.Cc, r):
+		default:
+			if space {
+				b.WriteByte(' ')
+				space = false
+			}
+			b.WriteRune(unicode.ToLower(r))
+		}
+	}
+	return b.String()
+}
+
+// percentiles returns nearest-rank percentiles of xs (zero for none).
+func percentiles(xs []int) Percentiles {
+	if len(xs) == 0 {
+		return Percentiles{}
+	}
+	s := append([]int(nil), xs...)
+	sort.Ints(s)
+	rank := func(p float64) int {
+		k := int(math.Ceil(p/100*float64(len(s)))) - 1
+		return s[max(k, 0)]
+	}
+	return Percentiles{P50: rank(50), P90: rank(90), P99: rank(99), Max: s[len(s)-1]}
+}
+
+// WriteText writes the summary as readable tables.
+func (s Summary) WriteText(out io.Writer) error {
+	w := &errWriter{w: out}
+	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintf(tw, "label\t")
+	for _, sp := range s.Splits {
+		fmt.Fprintf(tw, "%s\t%%\t", sp.Name)
+	}
+	fmt.Fprintln(tw)
+	for _, l := range s.Labels {
+		fmt.Fprintf(tw, "%s\t", l)
+		for _, sp := range s.Splits {
+			fmt.Fprintf(tw, "%d\t%.1f\t", sp.PerLabel[l], 100*sp.Balance[l])
+		}
+		fmt.Fprintln(tw)
+	}
+	fmt.Fprintf(tw, "all\t")
+	for _, sp := range s.Splits {
+		fmt.Fprintf(tw, "%d\t100.0\t", sp.Examples)
+	}
+	fmt.Fprintln(tw)
+	tw.Flush()
+	fmt.Fprintf(w, "\nvocabulary: %d entries (train)", s.VocabSize)
+	if len(s.Splits) > 1 {
+		fmt.Fprintf(w, "; test tokens not in it: %.1f%%", 100*s.TestOOVRate)
+	}
+	fmt.Fprintln(w)
+	fmt.Fprintln(w, "tokens per text:")
+	for _, sp := range s.Splits {
+		p := sp.TokenLength
+		fmt.Fprintf(w, "  %-5s p50 %d  p90 %d  p99 %d  max %d\n", sp.Name, p.P50, p.P90, p.P99, p.Max)
+	}
+	fmt.Fprintf(w, "duplicates: %d exact groups, %d near-exact groups; %d test examples also in train\n", s.ExactGroups, s.NearGroups, s.Leaks)
+	for _, part := range []struct {
+		name string
+		gs   []DuplicateGroup
+	}{{"exact", s.ExactDuplicates}, {"near", s.NearDuplicates}} {
+		for _, g := range part.gs {
+			var locs []string
+			for _, m := range g.Members {
+				where := m.File
+				if where == "" {
+					where = fmt.Sprintf("line %d", m.Line)
+				}
+				locs = append(locs, fmt.Sprintf("%s %s (%s)", m.Split, where, m.Label))
+			}
+			flags := ""
+			if g.CrossSplit {
+				flags += " LEAK"
+			}
+			if g.LabelConflict {
+				flags += " CONFLICTING-LABELS"
+			}
+			fmt.Fprintf(w, "  %s%s %q: %s\n", part.name, flags, g.Text, strings.Join(locs, ", "))
+		}
+	}
+	return w.err
+}
+
+// errWriter keeps the first write error.
+type errWriter struct {
+	w   io.Writer
+	err error
+}
+
+func (e *errWriter) Write(p []byte) (int, error) {
+	if e.err != nil {
+		return len(p), nil
+	}
+	n, err := e.w.Write(p)
+	e.err = err
+	return n, err
+}
