@@ -1,0 +1,435 @@
+package explain
+
+import (
+	"fmt"
+	"math"
+
+	"telltale/cnn"
+	"telltale/corpus"
+)
+
+// Explanation says why one text got its label. Every number is exact or
+// measured: Bias[c] + Σ_i Attributions.Exact[i][c] = Logits[c] up to float
+// rounding, and the occlusion values are what re-predicting the edited text
+// gives.
+type Explanation struct {
+	Tokens        []TokenSpan   `json:"tokens"`
+	Label         string        `json:"label"`
+	Class         int           `json:"class"`
+	Labels        []string      `json:"labels"`
+	Probabilities []float64     `json:"probabilities"`
+	Logits        []float64     `json:"logits"`
+	Bias          []float64     `json:"bias"`
+	Attributions  Attributions  `json:"attributions"`
+	Filters       []FiredFilter `json:"filters"`
+}
+
+// TokenSpan is one token of the explained text. Start and End are byte
+// offsets into the original text (both 0 when the caller gave no tokens).
+type TokenSpan struct {
+	Text  string `json:"text"`
+	Start int    `json:"start"`
+	End   int    `json:"end"`
+	ID    int32  `json:"id"`
+}
+
+// Attributions holds one map of the text per method.
+type Attributions struct {
+	// Exact[i][c] is token i's exact additive share of logit c.
+	Exact [][]float64 `json:"exact"`
+	// Occlusion[i] = p(ŷ|x) − p(ŷ|x with token i replaced by PAD), ŷ the
+	// predicted class: positive when the token supported the prediction.
+	Occlusion []float64 `json:"occlusion,omitempty"`
+	// OcclusionLog[i] = log p(ŷ|x) − log p(ŷ|x with token i replaced by PAD).
+	OcclusionLog []float64 `json:"occlusion_log,omitempty"`
+	// Windows holds the occlusion of every n-gram window of the widths asked
+	// for in ExplainOptions.OcclusionWidths.
+	Windows []SpanOcclusion `json:"windows,omitempty"`
+	// IG[i][c] is token i's integrated-gradients attribution to logit c.
+	IG [][]float64 `json:"ig,omitempty"`
+	// IGGap[c] = Σ_i IG[i][c] − (logit_c(x) − logit_c(PAD baseline)), the
+	// completeness gap of the Riemann approximation.
+	IGGap   []float64 `json:"ig_gap,omitempty"`
+	IGSteps int       `json:"ig_steps,omitempty"`
+}
+
+// SpanOcclusion is the effect of replacing tokens Start … End−1 with PAD.
+type SpanOcclusion struct {
+	Start   int     `json:"start"`
+	End     int     `json:"end"`
+	Drop    float64 `json:"drop"`     // p(ŷ|x) − p(ŷ|x edited)
+	DropLog float64 `json:"drop_log"` // log p(ŷ|x) − log p(ŷ|x edited)
+}
+
+// FiredFilter is a filter whose pooled unit is positive for the text.
+type FiredFilter struct {
+	Filter     int       `json:"filter"`
+	Width      int       `json:"width"`
+	Start      int       `json:"start"` // first token of the winning window
+	Activation float64   `json:"activation"`
+	BiasTerm   float64   `json:"bias"`
+	Slots      []float64 `json:"slots"` // slot scores: BiasTerm + Σ Slots = Activation
+	// Family is the index of the filter's family (in its Profile) whose
+	// centroid is nearest to Slots, or −1 without profiles or when the
+	// activation is below the filter's purity threshold.
+	Family int `json:"family"`
+	// Contribution[c] = OutW[c][g]·Activation, the filter's part of logit c.
+	Contribution []float64 `json:"contribution"`
+}
+
+// ExplainOptions selects the methods of Explain. Exact shares are always
+// computed.
+type ExplainOptions struct {
+	// Table is a prebuilt table of the model. Nil builds one over the
+	// text's own words (the cost of one direct convolution of the text).
+	Table *SlotTable
+	// Profiles, when not nil, names the family of every fired window.
+	Profiles *Profiles
+	// Occlusion computes single-token occlusion.
+	Occlusion bool
+	// OcclusionWidths adds the occlusion of every n-gram window of each width.
+	OcclusionWidths []int
+	// IG computes integrated gradients with IGSteps steps (0 means 50).
+	IG      bool
+	IGSteps int
+}
+
+// Explain explains the prediction of m on one text. Ids are the text's
+// vocabulary ids (each < VocabSize); tokens, if not nil, must have the same
+// length and give the token texts and offsets. The explanation's Tokens are
+// the real tokens only: the PAD positions added to reach MaxWidth have zero
+// embeddings and so zero shares.
+func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOptions) (*Explanation, error) {
+	if tokens != nil && len(tokens) != len(ids) {
+		return nil, fmt.Errorf("explain: %d tokens but %d ids", len(tokens), len(ids))
+	}
+	for i, id := range ids {
+		if id < 0 || int(id) >= m.Config.VocabSize {
+			return nil, fmt.Errorf("explain: token %d has id %d outside the vocabulary of %d", i, id, m.Config.VocabSize)
+		}
+	}
+	st := opt.Table
+	if st == nil {
+		var err error
+		if st, err = NewSlotTable(m, TableOptions{Words: distinct(ids), Workers: 1}); err != nil {
+			return nil, err
+		}
+	} else if st.m != m {
+		return nil, fmt.Errorf("explain: the slot table was built for another model")
+	}
+	r := st.NewRunner()
+	r.keep = true
+	r.load(ids)
+	r.pool()
+	e := newExplanation(m, tokens, ids, &r.p)
+	exact(st, r, e, opt.Profiles)
+	if opt.Occlusion || len(opt.OcclusionWidths) > 0 {
+		o := newOccluder(r, e)
+		if opt.Occlusion {
+			e.Attributions.Occlusion = make([]float64, len(ids))
+			e.Attributions.OcclusionLog = make([]float64, len(ids))
+			for i := range ids {
+				e.Attributions.Occlusion[i], e.Attributions.OcclusionLog[i] = o.span(i, i)
+			}
+		}
+		for _, w := range opt.OcclusionWidths {
+			if w < 1 {
+				return nil, fmt.Errorf("explain: occlusion window width %d: must be at least 1", w)
+			}
+			for i := 0; i == 0 || i+w <= len(ids); i++ {
+				j := min(i+w, len(ids))
+				if j <= i {
+					break
+				}
+				d, dl := o.span(i, j-1)
+				e.Attributions.Windows = append(e.Attributions.Windows, SpanOcclusion{Start: i, End: j, Drop: d, DropLog: dl})
+			}
+		}
+	}
+	if opt.IG {
+		steps := opt.IGSteps
+		if steps <= 0 {
+			steps = 50
+		}
+		integratedGradients(r, e, steps)
+	}
+	return e, nil
+}
+
+func distinct(ids []int32) []int32 {
+	seen := make(map[int32]bool, len(ids))
+	var out []int32
+	for _, id := range ids {
+		if !seen[id] {
+			seen[id] = true
+			out = append(out, id)
+		}
+	}
+	return out
+}
+
+func newExplanation(m *cnn.Model, tokens []corpus.Token, ids []int32, p *Pass) *Explanation {
+	C := m.Config.Classes
+	e := &Explanation{
+		Tokens: make([]TokenSpan, len(ids)),
+		Labels: labelNames(m),
+		Logits: logits64(m, p.Pooled),
+	}
+	for i, id := range ids {
+		ts := TokenSpan{ID: id}
+		if tokens != nil {
+			ts.Text, ts.Start, ts.End = tokens[i].Text, tokens[i].Start, tokens[i].End
+		} else {
+			ts.Text = wordOf(m, id)
+		}
+		e.Tokens[i] = ts
+	}
+	e.Probabilities = softmax64(e.Logits, make([]float64, C))
+	e.Class = argmax64(e.Logits)
+	e.Label = e.Labels[e.Class]
+	return e
+}
+
+func labelNames(m *cnn.Model) []string {
+	out := make([]string, m.Config.Classes)
+	for c := range out {
+		if c < len(m.Labels) {
+			out[c] = m.Labels[c]
+		} else {
+			out[c] = fmt.Sprintf("class %d", c)
+		}
+	}
+	return out
+}
+
+func wordOf(m *cnn.Model, id int32) string {
+	if int(id) < len(m.Vocab) {
+		return m.Vocab[id]
+	}
+	switch id {
+	case corpus.PAD:
+		return corpus.PADWord
+	case corpus.UNK:
+		return corpus.UNKWord
+	}
+	return fmt.Sprintf("#%d", id)
+}
+
+// logits64 is the head in float64: OutB[c] + Σ_g OutW[c][g]·pooled[g].
+func logits64(m *cnn.Model, pooled []float32) []float64 {
+	nf := m.Config.NumFilters()
+	z := make([]float64, m.Config.Classes)
+	for c := range z {
+		s := float64(m.OutB[c])
+		for g, h := range pooled {
+			if h != 0 {
+				s += float64(m.OutW[c*nf+g]) * float64(h)
+			}
+		}
+		z[c] = s
+	}
+	return z
+}
+
+func softmax64(z, p []float64) []float64 {
+	mx := z[0]
+	for _, v := range z[1:] {
+		mx = max(mx, v)
+	}
+	var sum float64
+	for i, v := range z {
+		p[i] = math.Exp(v - mx)
+		sum += p[i]
+	}
+	for i := range p {
+		p[i] /= sum
+	}
+	return p
+}
+
+// logSoftmax64 returns log softmax(z)[c].
+func logSoftmax64(z []float64, c int) float64 {
+	mx := z[0]
+	for _, v := range z[1:] {
+		mx = max(mx, v)
+	}
+	var sum float64
+	for _, v := range z {
+		sum += math.Exp(v - mx)
+	}
+	return z[c] - mx - math.Log(sum)
+}
+
+func argmax64(v []float64) int {
+	best := 0
+	for i, x := range v {
+		if x > v[best] {
+			best = i
+		}
+	}
+	return best
+}
+
+// exact fills the exact additive attribution. With ReLU, 1-max pooling and a
+// linear head,
+//
+//	logit[c] = OutB[c] + Σ_{g fired} OutW[c][g]·(B_g + Σ_s W_g[s]·Emb[x[t*_g+s]])
+//
+// so logit[c] = bias[c] + Σ_i share[i][c] with
+//
+//	bias[c]     = OutB[c] + Σ_{g fired} OutW[c][g]·B_g
+//	share[i][c] = Σ_{g fired, t*_g ≤ i < t*_g+w_g} OutW[c][g]·(W_g[i−t*_g]·Emb[x_i])
+//
+// where "fired" means pooled h_g > 0 and g not masked. Slots on PAD positions
+// past the text have zero embeddings and contribute nothing.
+func exact(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
+	m := st.m
+	C, nf := m.Config.Classes, m.Config.NumFilters()
+	L := len(e.Tokens)
+	share := make([][]float64, L)
+	flat := make([]float64, L*C)
+	for i := range share {
+		share[i] = flat[i*C : (i+1)*C]
+	}
+	bias := make([]float64, C)
+	for c := range bias {
+		bias[c] = float64(m.OutB[c])
+	}
+	p := &r.p
+	for g := 0; g < nf; g++ {
+		h := p.Pooled[g]
+		if h == 0 {
+			continue
+		}
+		b, f := m.FilterConv(g)
+		tb := &st.banks[b]
+		w, F := tb.width, tb.filters
+		t0 := int(p.Start[g])
+		ff := FiredFilter{
+			Filter: g, Width: w, Start: t0, Activation: float64(h),
+			BiasTerm: float64(tb.bias[f]), Slots: make([]float64, w),
+			Family: -1, Contribution: make([]float64, C),
+		}
+		for s := 0; s < w; s++ {
+			ff.Slots[s] = float64(r.rows[b][t0+s][s*F+f])
+		}
+		for c := 0; c < C; c++ {
+			ow := float64(m.OutW[c*nf+g])
+			bias[c] += ow * ff.BiasTerm
+			ff.Contribution[c] = ow * ff.Activation
+			for s := 0; s < w; s++ {
+				if i := t0 + s; i < L {
+					share[i][c] += ow * ff.Slots[s]
+				}
+			}
+		}
+		if prof != nil {
+			ff.Family = prof.familyOf(g, ff.Slots, ff.Activation)
+		}
+		e.Filters = append(e.Filters, ff)
+	}
+	e.Bias = bias
+	e.Attributions.Exact = share
+}
+
+// occluder recomputes the pooled units after replacing a span of tokens with
+// PAD, touching only the windows that contain a replaced token: the maximum
+// over the other windows comes from prefix and suffix maxima of the kept
+// window pre-activations.
+type occluder struct {
+	r      *Runner
+	e      *Explanation
+	pm, sm [][]float32 // [bank] prefix / suffix maxima, windows × filters
+	acc    []float32
+	newMax []float32
+	z      []float64
+	y      int
+	logP   float64
+}
+
+func newOccluder(r *Runner, e *Explanation) *occluder {
+	st := r.st
+	o := &occluder{r: r, e: e, y: e.Class,
+		acc:    make([]float32, st.m.Config.Filters),
+		newMax: make([]float32, st.m.Config.Filters),
+		z:      make([]float64, len(e.Logits))}
+	o.logP = logSoftmax64(e.Logits, e.Class)
+	for b := range st.banks {
+		F := st.banks[b].filters
+		win := r.win[b]
+		nw := len(win) / F
+		pm := make([]float32, len(win))
+		sm := make([]float32, len(win))
+		copy(pm[:F], win[:F])
+		for t := 1; t < nw; t++ {
+			for f := 0; f < F; f++ {
+				pm[t*F+f] = max(pm[(t-1)*F+f], win[t*F+f])
+			}
+		}
+		copy(sm[(nw-1)*F:], win[(nw-1)*F:])
+		for t := nw - 2; t >= 0; t-- {
+			for f := 0; f < F; f++ {
+				sm[t*F+f] = max(sm[(t+1)*F+f], win[t*F+f])
+			}
+		}
+		o.pm = append(o.pm, pm)
+		o.sm = append(o.sm, sm)
+	}
+	return o
+}
+
+// span returns the drop in p(ŷ) and log p(ŷ) when tokens lo … hi (inclusive)
+// are replaced with PAD.
+func (o *occluder) span(lo, hi int) (drop, dropLog float64) {
+	r := o.r
+	st := r.st
+	m := st.m
+	nf := m.Config.NumFilters()
+	copy(o.z, o.e.Logits)
+	n := r.p.Len
+	for b := range st.banks {
+		tb := &st.banks[b]
+		F, w := tb.filters, tb.width
+		nw := n - w + 1
+		t0, t1 := max(0, lo-w+1), min(hi, nw-1)
+		nm := o.newMax
+		for f := range nm {
+			nm[f] = negInf
+		}
+		if t0 > 0 {
+			copy(nm, o.pm[b][(t0-1)*F:t0*F])
+		}
+		if t1+1 < nw {
+			sm := o.sm[b][(t1+1)*F : (t1+2)*F]
+			for f, v := range sm {
+				nm[f] = max(nm[f], v)
+			}
+		}
+		rows := r.rows[b]
+		for t := t0; t <= t1; t++ {
+			copy(o.acc, tb.bias)
+			for s := 0; s < w; s++ {
+				if i := t + s; i < lo || i > hi {
+					addTo(o.acc, rows[i][s*F:(s+1)*F])
+				}
+			}
+			for f, a := range o.acc {
+				nm[f] = max(nm[f], a)
+			}
+		}
+		for f, a := range nm {
+			g := b*F + f
+			if m.IsMasked(g) {
+				continue
+			}
+			h := max(a, 0)
+			if dh := float64(h) - float64(r.p.Pooled[g]); dh != 0 {
+				for c := range o.z {
+					o.z[c] += float64(m.OutW[c*nf+g]) * dh
+				}
+			}
+		}
+	}
+	lp := logSoftmax64(o.z, o.y)
+	return math.Exp(o.logP) - math.Exp(lp), o.logP - lp
+}
