@@ -1,0 +1,73 @@
+# telltale — the two commands of the README are `make demo` and `make test`.
+# Both install what they need on a fresh Debian machine (as root, or via sudo).
+
+SHELL := /bin/bash
+GO ?= go
+# The fast float32 kernels use Go 1.26's experimental SIMD package; the
+# portable kernels are used when this is emptied (make GOEXPERIMENT= build).
+export GOEXPERIMENT ?= simd
+BIN := bin/telltale
+
+# Debian packages: building the window (cgo + GL), and the outside references
+# and browsers the tests check against.
+GUI_PKGS  := gcc libc6-dev pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev \
+             libxrandr-dev libxinerama-dev libxi-dev libxxf86vm-dev
+TEST_PKGS := gcc libc6-dev python3 python3-torch python3-sklearn python3-numpy \
+             chromium xvfb npm ca-certificates
+SHOT_PKGS := $(GUI_PKGS) xvfb imagemagick fonts-dejavu-core
+
+.PHONY: all build demo test test-go test-race fuzz vet bench screenshots deps-gui deps-test corpora clean
+
+all: build
+
+deps-gui:
+	@scripts/ensure-debian-packages.sh $(GUI_PKGS)
+
+deps-test:
+	@scripts/ensure-debian-packages.sh $(TEST_PKGS)
+
+corpora: deps-test
+	@scripts/fetch-corpora.sh
+
+build: deps-gui
+	$(GO) build -o $(BIN) .
+
+# The tour on the embedded demo corpus: summary, training, evaluation,
+# filters, an explanation, the audit and the report; then the window, when
+# there is a display.
+demo: build
+	@scripts/demo.sh $(BIN)
+
+test: corpora vet test-go test-race fuzz
+
+vet:
+	$(GO) vet -tags ci ./...
+
+# Every test, with the software GUI driver (tag ci: no GL or X needed).
+test-go:
+	CI=true $(GO) test -tags ci -count=1 -timeout 20m ./...
+
+# The race detector over the training, profiling and GUI-state packages
+# (short mode leaves out the long corpus-scale runs).
+test-race:
+	CI=true $(GO) test -tags ci -race -short -count=1 -timeout 20m ./corpus ./cnn ./explain ./gui
+
+# Each fuzz target for a short fixed time.
+FUZZTIME ?= 10s
+fuzz:
+	@set -e; for t in $$(scripts/fuzz-targets.sh); do \
+	  pkg=$${t%%:*}; fn=$${t##*:}; \
+	  echo "fuzz $$pkg $$fn ($(FUZZTIME))"; \
+	  $(GO) test -tags ci -run '^$$' -fuzz "^$$fn\$$" -fuzztime $(FUZZTIME) "$$pkg" >/dev/null || \
+	    { $(GO) test -tags ci -run '^$$' -fuzz "^$$fn\$$" -fuzztime $(FUZZTIME) "$$pkg"; exit 1; }; \
+	done
+
+bench: corpora build
+	@bench/run.sh $(BIN)
+
+screenshots:
+	@scripts/ensure-debian-packages.sh $(SHOT_PKGS)
+	@scripts/screenshots.sh
+
+clean:
+	rm -rf bin testdata/spamassassin testdata/afinn bench/out

