@@ -12,6 +12,7 @@ import (
 
 	"github.com/sugarme/tokenizer"
 	"github.com/sugarme/tokenizer/model"
+	"github.com/sugarme/tokenizer/model/bpe"
 	"github.com/sugarme/tokenizer/model/wordpiece"
 	"github.com/sugarme/tokenizer/normalizer"
 	"github.com/sugarme/tokenizer/pretrained"
@@ -141,12 +142,12 @@ func (t *Tokenizer) setPieces(pieces []string) {
 // HasSubword reports whether a subword vocabulary is present.
 func (t *Tokenizer) HasSubword() bool { return t.wp != nil }
 
-// TrainSubword trains a WordPiece vocabulary of about size pieces (0 = the
+// TrainSubword trains a subword vocabulary of about size pieces (0 = the
 // config's SubwordSize, else 2000) on the words of texts (the training
 // split) with the library's WordPiece trainer, and keeps it in the
 // tokenizer and its Config. It must not run concurrently with other
-// methods. Schuster & Nakajima 2012, "Japanese and Korean voice search"
-// (WordPiece); the library implements it as BPE merges with a "##" prefix.
+// methods. Segmentation as in WordPiece (Schuster & Nakajima 2012,
+// "Japanese and Korean voice search").
 func (t *Tokenizer) TrainSubword(texts []string, size int) (err error) {
 	if size <= 0 {
 		size = t.cfg.SubwordSize
@@ -168,21 +169,51 @@ func (t *Tokenizer) TrainSubword(texts []string, size int) (err error) {
 			err = fmt.Errorf("corpus: subword training failed in the tokenizer library: %v: %w", r, ErrFormat)
 		}
 	}()
-	tr := wordpiece.NewWordPieceTrainerBuilder().VocabSize(size).MinFrequency(0).ShowProgress(false).
-		SpecialTokens([]tokenizer.AddedToken{tokenizer.NewAddedToken(wpUnk, true)}).Build()
-	m := tr.Train(counts)
+	// The library's WordPiece trainer mangles its "##" prefix (v0.3.0), so
+	// the merges are learned with its plain BPE trainer (Sennrich et al.
+	// 2016, "Neural Machine Translation of Rare Words with Subword Units")
+	// and every learned piece is allowed both word-initially and, with
+	// "##", as a continuation; words are then split greedily
+	// longest-match-first by the library's WordPiece model.
+	tr := bpe.NewBpeTrainer(0, size)
+	tr.ShowProgress = false
+	m := quietly(func() tokenizer.Model { m, _ := tr.Train(counts); return m })
 	voc := m.GetVocab()
-	pieces := make([]string, 0, len(voc))
+	base := make([]string, 0, len(voc))
 	for p := range voc {
-		if p != wpUnk {
-			pieces = append(pieces, p)
-		}
+		base = append(base, p)
 	}
-	sort.Slice(pieces, func(i, j int) bool { return voc[pieces[i]] < voc[pieces[j]] })
+	sort.Slice(base, func(i, j int) bool { return voc[base[i]] < voc[base[j]] })
+	pieces := append([]string(nil), base...)
+	for _, p := range base {
+		pieces = append(pieces, "##"+p)
+	}
 	t.cfg.Subword = true
 	t.cfg.SubwordSize = size
 	t.setPieces(pieces)
 	return nil
+}
+
+// quietMu serializes quietly: the library's trainer prints progress to
+// standard output unconditionally, which would corrupt a command's output
+// (e.g. JSON), so os.Stdout points to the null device while it runs. Other
+// goroutines writing to os.Stdout meanwhile would lose their output.
+var quietMu sync.Mutex
+
+func quietly[T any](f func() T) T {
+	quietMu.Lock()
+	defer quietMu.Unlock()
+	null, err := os.OpenFile(os.DevNull, os.O_WRONLY, 0)
+	if err != nil {
+		return f()
+	}
+	saved := os.Stdout
+	os.Stdout = null
+	defer func() {
+		os.Stdout = saved
+		null.Close()
+	}()
+	return f()
 }
 
 func isPunctOrSymbol(r rune) bool { return unicode.IsPunct(r) || unicode.IsSymbol(r) }
@@ -324,8 +355,9 @@ func (t *Tokenizer) userTokenize(text string) (toks []Token, ok bool) {
 
 // TokenizeFor tokenizes text and, when a subword vocabulary is present,
 // replaces each word that v maps to UNK by its WordPiece pieces if all of
-// them are in v. Pieces carry offsets of their part of the source span
-// when the token's normalized text equals its source; otherwise each piece
+// them are in v. When the normalized word has as many runes as its source
+// span (e.g. after lower-casing), piece i of runes [a,b) gets the span of
+// source runes [a,b); otherwise (NFKC changed the length) every piece
 // carries the whole word's span.
 func (t *Tokenizer) TokenizeFor(v *Vocab, text string) []Token {
 	toks := t.Tokenize(text)
@@ -350,13 +382,14 @@ func (t *Tokenizer) TokenizeFor(v *Vocab, text string) []Token {
 			out = append(out, tk)
 			continue
 		}
-		same := text[tk.Start:tk.End] == tk.Text
-		var byteOf []int // rune index → byte offset in tk.Text
+		src := text[tk.Start:tk.End]
+		same := utf8.RuneCountInString(src) == utf8.RuneCountInString(tk.Text)
+		var byteOf []int // rune index → byte offset in the source span
 		if same {
-			for i := range tk.Text {
+			for i := range src {
 				byteOf = append(byteOf, i)
 			}
-			byteOf = append(byteOf, len(tk.Text))
+			byteOf = append(byteOf, len(src))
 		}
 		for _, p := range pieces {
 			pt := Token{Text: p.Value, Start: tk.Start, End: tk.End}
@@ -370,7 +403,12 @@ func (t *Tokenizer) TokenizeFor(v *Vocab, text string) []Token {
 }
 
 // pieces returns the WordPiece split of word, or nil when it has no split.
-func (t *Tokenizer) pieces(word string) []tokenizer.Token {
+func (t *Tokenizer) pieces(word string) (out []tokenizer.Token) {
+	defer func() {
+		if recover() != nil {
+			out = nil
+		}
+	}()
 	ps, err := t.wp.Tokenize(word)
 	if err != nil {
 		return nil
@@ -387,9 +425,10 @@ func (t *Tokenizer) pieces(word string) []tokenizer.Token {
 // every token text seen at least minCount times (minCount < 1 means 1),
 // most frequent first, ties broken by word (byte order), at most maxSize
 // entries in all including PAD and UNK (maxSize <= 0: no limit). When tok
-// has a subword vocabulary, its pieces that occur in the split of the
-// training words left out are appended after the words (not counted
-// against maxSize), with those occurrence counts.
+// has a subword vocabulary, all its pieces not already words are appended
+// after the words (not counted against maxSize); a piece's count is its
+// number of occurrences in the splits of training words that are not in the
+// word list, the only places TokenizeFor uses it during training.
 func BuildVocab(tok *Tokenizer, texts []string, minCount, maxSize int) *Vocab {
 	if minCount < 1 {
 		minCount = 1
@@ -428,13 +467,20 @@ func BuildVocab(tok *Tokenizer, texts []string, minCount, maxSize int) *Vocab {
 		in[e.w] = true
 	}
 	if tok.wp != nil {
+		// Pieces of every training word are added; their counts are the
+		// occurrences in words left out of the word list (the ones that
+		// TokenizeFor splits, so these counts are what training sees).
 		pc := map[string]int{}
+		for _, p := range tok.cfg.SubwordPieces {
+			pc[p] = 0
+		}
 		for w, c := range counts {
-			if in[w] {
-				continue
-			}
 			for _, p := range tok.pieces(w) {
-				pc[p.Value] += c
+				if in[w] {
+					pc[p.Value] += 0
+				} else {
+					pc[p.Value] += c
+				}
 			}
 		}
 		var plist []wc
