@@ -1,0 +1,94 @@
+package main
+
+import (
+	"bytes"
+	"encoding/csv"
+	"flag"
+	"fmt"
+	"log"
+	"os"
+	"path/filepath"
+)
+
+func main() {
+	log.SetFlags(0)
+	log.SetPrefix("demogen: ")
+	out := flag.String("out", "testdata/demo", "folder to write train.csv, test.csv and README.md into")
+	flag.Parse()
+	if flag.NArg() != 0 {
+		fmt.Fprintln(os.Stderr, "usage: demogen [-out DIR]")
+		os.Exit(2)
+	}
+	if err := write(*out); err != nil {
+		log.Fatal(err)
+	}
+}
+
+// write generates the corpus and writes its three files into dir, each
+// atomically.
+func write(dir string) error {
+	c := generate()
+	files := []struct {
+		name string
+		data func() ([]byte, error)
+	}{
+		{"train.csv", func() ([]byte, error) { return encodeCSV(c.Train) }},
+		{"test.csv", func() ([]byte, error) { return encodeCSV(c.Test) }},
+		{"README.md", func() ([]byte, error) { return []byte(readme(c)), nil }},
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return err
+	}
+	for _, f := range files {
+		b, err := f.data()
+		if err != nil {
+			return fmt.Errorf("%s: %w", f.name, err)
+		}
+		if err := writeAtomic(filepath.Join(dir, f.name), b); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// encodeCSV writes the header "text,label" and one record per example with
+// RFC 4180 quoting.
+func encodeCSV(xs []example) ([]byte, error) {
+	var buf bytes.Buffer
+	w := csv.NewWriter(&buf)
+	if err := w.Write([]string{"text", "label"}); err != nil {
+		return nil, err
+	}
+	for _, x := range xs {
+		if err := w.Write([]string{x.Text, x.Label}); err != nil {
+			return nil, err
+		}
+	}
+	w.Flush()
+	return buf.Bytes(), w.Error()
+}
+
+// writeAtomic writes data to a temporary file in the same folder and renames
+// it over path, so a reader never sees a half-written file.
+func writeAtomic(path string, data []byte) (err error) {
+	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp*")
+	if err != nil {
+		return err
+	}
+	defer func() {
+		if err != nil {
+			os.Remove(f.Name())
+		}
+	}()
+	if _, err = f.Write(data); err != nil {
+		f.Close()
+		return err
+	}
+	if err = f.Close(); err != nil {
+		return err
+	}
+	if err = os.Chmod(f.Name(), 0o644); err != nil {
+		return err
+	}
+	return os.Rename(f.Name(), path)
+}
