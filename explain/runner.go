@@ -21,6 +21,7 @@ type Pass struct {
 	Probs  []float32 // Classes
 	Pred   int       // argmax of Logits (first maximum)
 	Len    int       // padded length L' = max(len(ids), MaxWidth)
+	IDs    []int32   // the padded ids, Len of them; window g is IDs[Start[g]:Start[g]+width]
 }
 
 // Runner runs texts through a SlotTable with reusable buffers. A Runner is not
@@ -73,6 +74,7 @@ func (r *Runner) load(ids []int32) {
 		r.x = append(r.x, corpus.PAD)
 	}
 	r.p.Len = n
+	r.p.IDs = r.x
 	for b := range st.banks {
 		tb := &st.banks[b]
 		k := tb.width * tb.filters
