@@ -1,17 +1,21 @@
 package cnn
 
-import "fmt"
+import (
+	"fmt"
+
+	"telltale/corpus"
+)
 
 // Config is the architecture of a sentence CNN (Kim 2014, "Convolutional
 // Neural Networks for Sentence Classification", EMNLP).
 type Config struct {
-	VocabSize int     // rows of the embedding table, reserved ids included
-	Dim       int     // embedding dimension
-	Widths    []int   // filter widths, e.g. 3, 4, 5
-	Filters   int     // feature maps per width
-	Classes   int     // number of labels, at least 2
-	Dropout   float32 // dropout rate on the pooled layer during training
-	MaxNorm   float32 // max L2 norm of each output-weight row; 0 turns it off
+	VocabSize int     `json:"vocab_size"` // rows of the embedding table, reserved ids included
+	Dim       int     `json:"dim"`        // embedding dimension
+	Widths    []int   `json:"widths"`     // filter widths, e.g. 3, 4, 5
+	Filters   int     `json:"filters"`    // feature maps per width
+	Classes   int     `json:"classes"`    // number of labels, at least 2
+	Dropout   float32 `json:"dropout"`    // dropout rate on the pooled layer during training
+	MaxNorm   float32 `json:"max_norm"`   // max L2 norm of each output-weight row; 0 turns it off
 }
 
 // Validate reports the first problem with c, or nil.
@@ -91,6 +95,27 @@ type Model struct {
 	// Masked[g] true removes filter g: its pooled unit is held at zero.
 	// Nil means no filter is masked.
 	Masked []bool
+
+	// Tokenizer is how texts were split into the words of Vocab.
+	Tokenizer corpus.TokenizerConfig
+
+	// Info records how the model was trained and how well it did; it is
+	// stored in the model file and never affects predictions.
+	Info Info
+}
+
+// Info is the training record kept with a model.
+type Info struct {
+	Created        string        `json:"created,omitempty"` // RFC 3339 time of training
+	Recipe         *TrainConfig  `json:"recipe,omitempty"`  // the training settings used
+	Epochs         []EpochResult `json:"epochs,omitempty"`  // per-epoch loss and dev metrics
+	BestEpoch      int           `json:"best_epoch,omitempty"`
+	ExamplesPerSec float64       `json:"examples_per_second,omitempty"`
+	Dev            *Metrics      `json:"dev,omitempty"`  // dev metrics of the kept weights
+	Test           *Metrics      `json:"test,omitempty"` // filled by callers that hold out a test split
+	// Notes holds free-form facts callers want kept with the model (data file,
+	// split seed, …).
+	Notes map[string]string `json:"notes,omitempty"`
 }
 
 // FilterConv returns the bank index and local index of global filter g.

@@ -1,0 +1,278 @@
+package cnn
+
+import (
+	"bytes"
+	"encoding/binary"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"hash/crc32"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+
+	"telltale/corpus"
+)
+
+// The model file is one self-checking binary file:
+//
+//	magic      8 bytes  "TTLCNN\r\n"
+//	version    uint32   FormatVersion
+//	headerLen  uint64   length of the JSON header
+//	header     JSON     config, labels, vocabulary, tokenizer, info, mask
+//	nWeights   uint64   number of float32 weights that follow
+//	weights    nWeights × float32: Emb, then W and B of each bank in order,
+//	           then OutW, OutB
+//	crc        uint32   CRC-32 (Castagnoli) of everything before it
+//
+// All integers and floats are little-endian.
+
+// FormatVersion is the model file version this package writes and the newest
+// it reads.
+const FormatVersion = 1
+
+const fileMagic = "TTLCNN\r\n"
+
+var crcTable = crc32.MakeTable(crc32.Castagnoli)
+
+// ErrNotModel is returned by Load for a file that is not a model file.
+var ErrNotModel = errors.New("not a telltale model file")
+
+type fileHeader struct {
+	Config    Config                 `json:"config"`
+	Labels    []string               `json:"labels"`
+	Vocab     []string               `json:"vocab"`
+	Tokenizer corpus.TokenizerConfig `json:"tokenizer"`
+	Info      Info                   `json:"info"`
+	Masked    []int                  `json:"masked,omitempty"` // indices of masked filters
+}
+
+// numWeights is the number of float32 values the model file stores for cfg.
+func numWeights(cfg Config) int {
+	n := cfg.VocabSize*cfg.Dim + cfg.Classes*cfg.NumFilters() + cfg.Classes
+	for _, w := range cfg.Widths {
+		n += cfg.Filters*w*cfg.Dim + cfg.Filters
+	}
+	return n
+}
+
+// Save writes m to path atomically: it writes a temporary file in the same
+// directory, syncs it and renames it over path, so a crash never leaves a
+// partial model file behind.
+func (m *Model) Save(path string) (err error) {
+	if err := m.checkShapes(); err != nil {
+		return err
+	}
+	dir := filepath.Dir(path)
+	f, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp*")
+	if err != nil {
+		return fmt.Errorf("cnn: saving model: %w", err)
+	}
+	tmp := f.Name()
+	defer func() {
+		if err != nil {
+			f.Close()
+			os.Remove(tmp)
+		}
+	}()
+	if err = m.encode(f); err != nil {
+		return fmt.Errorf("cnn: saving model %s: %w", path, err)
+	}
+	if err = f.Sync(); err != nil {
+		return fmt.Errorf("cnn: saving model %s: %w", path, err)
+	}
+	if err = f.Close(); err != nil {
+		return fmt.Errorf("cnn: saving model %s: %w", path, err)
+	}
+	if err = os.Rename(tmp, path); err != nil {
+		return fmt.Errorf("cnn: saving model %s: %w", path, err)
+	}
+	if d, derr := os.Open(dir); derr == nil {
+		d.Sync() // make the rename durable; not all systems support it
+		d.Close()
+	}
+	return nil
+}
+
+// encode writes the model file format to w.
+func (m *Model) encode(w io.Writer) error {
+	h := fileHeader{Config: m.Config, Labels: m.Labels, Vocab: m.Vocab, Tokenizer: m.Tokenizer, Info: m.Info}
+	for g, on := range m.Masked {
+		if on {
+			h.Masked = append(h.Masked, g)
+		}
+	}
+	js, err := json.Marshal(h)
+	if err != nil {
+		return err
+	}
+	crc := crc32.New(crcTable)
+	bw := &errWriter{w: io.MultiWriter(w, crc)}
+	bw.write([]byte(fileMagic))
+	bw.u32(FormatVersion)
+	bw.u64(uint64(len(js)))
+	bw.write(js)
+	bw.u64(uint64(numWeights(m.Config)))
+	bw.floats(m.Emb)
+	for _, c := range m.Convs {
+		bw.floats(c.W)
+		bw.floats(c.B)
+	}
+	bw.floats(m.OutW)
+	bw.floats(m.OutB)
+	if bw.err != nil {
+		return bw.err
+	}
+	var sum [4]byte
+	binary.LittleEndian.PutUint32(sum[:], crc.Sum32())
+	_, err = w.Write(sum[:])
+	return err
+}
+
+type errWriter struct {
+	w   io.Writer
+	err error
+	buf [1 << 14]byte
+}
+
+func (e *errWriter) write(b []byte) {
+	if e.err == nil {
+		_, e.err = e.w.Write(b)
+	}
+}
+
+func (e *errWriter) u32(v uint32) {
+	var b [4]byte
+	binary.LittleEndian.PutUint32(b[:], v)
+	e.write(b[:])
+}
+
+func (e *errWriter) u64(v uint64) {
+	var b [8]byte
+	binary.LittleEndian.PutUint64(b[:], v)
+	e.write(b[:])
+}
+
+func (e *errWriter) floats(x []float32) {
+	for len(x) > 0 {
+		n := min(len(x), len(e.buf)/4)
+		for i, v := range x[:n] {
+			binary.LittleEndian.PutUint32(e.buf[4*i:], math.Float32bits(v))
+		}
+		e.write(e.buf[:4*n])
+		x = x[n:]
+	}
+}
+
+// Load reads a model file written by Save. A file that is not a model, is
+// truncated or damaged, is from a newer format version, or whose vocabulary
+// and weights disagree gives an error naming the file and the problem.
+func Load(path string) (*Model, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("cnn: loading model: %w", err)
+	}
+	m, err := decode(data)
+	if err != nil {
+		return nil, fmt.Errorf("cnn: model file %s: %w", path, err)
+	}
+	return m, nil
+}
+
+// decode parses a whole model file. It never allocates more than a small
+// multiple of len(data).
+func decode(data []byte) (*Model, error) {
+	const fixed = 8 + 4 + 8
+	if len(data) < len(fileMagic) || string(data[:len(fileMagic)]) != fileMagic {
+		return nil, fmt.Errorf("%w (wrong magic bytes): give a file written by telltale train", ErrNotModel)
+	}
+	if len(data) < fixed {
+		return nil, fmt.Errorf("truncated after %d bytes: the file is incomplete, save or copy it again", len(data))
+	}
+	if v := binary.LittleEndian.Uint32(data[8:]); v > FormatVersion {
+		return nil, fmt.Errorf("format version %d is newer than this program reads (%d): update telltale", v, FormatVersion)
+	} else if v == 0 {
+		return nil, fmt.Errorf("format version 0 is invalid: the file is damaged")
+	}
+	hl := binary.LittleEndian.Uint64(data[12:])
+	rest := uint64(len(data) - fixed)
+	if hl > rest || rest-hl < 8+4 {
+		return nil, fmt.Errorf("truncated (header of %d bytes, %d bytes left): the file is incomplete, save or copy it again", hl, rest)
+	}
+	off := fixed + int(hl)
+	nw := binary.LittleEndian.Uint64(data[off:])
+	off += 8
+	if left := uint64(len(data)-off-4) / 4; nw > left || uint64(len(data)-off-4)%4 != 0 || nw < left {
+		if nw > left {
+			return nil, fmt.Errorf("truncated (%d weights announced, room for %d): the file is incomplete, save or copy it again", nw, left)
+		}
+		return nil, fmt.Errorf("damaged: %d bytes after the weights: the file is corrupted", len(data)-off-4-int(4*nw))
+	}
+	body := data[:len(data)-4]
+	if got, want := crc32.Checksum(body, crcTable), binary.LittleEndian.Uint32(data[len(data)-4:]); got != want {
+		return nil, fmt.Errorf("checksum mismatch (%08x, stored %08x): the file is corrupted, retrain or restore it", got, want)
+	}
+	var h fileHeader
+	dec := json.NewDecoder(bytes.NewReader(data[fixed : fixed+int(hl)]))
+	if err := dec.Decode(&h); err != nil {
+		return nil, fmt.Errorf("header: %v: the file is corrupted", err)
+	}
+	cfg := h.Config
+	if err := cfg.Validate(); err != nil {
+		return nil, fmt.Errorf("header: %v", err)
+	}
+	// Every product below is of two values already bounded by the file
+	// length, so none overflows, and the weights they count must fit in it.
+	n := len(data)
+	if cfg.VocabSize > n || cfg.Dim > n || cfg.Filters > n || cfg.Classes > n || len(cfg.Widths) > n ||
+		cfg.VocabSize*cfg.Dim > n || cfg.Filters*cfg.Dim*32 > n || cfg.Classes*cfg.Filters > n ||
+		cfg.Classes*cfg.Filters*len(cfg.Widths) > n || cfg.Filters*cfg.Dim*32*len(cfg.Widths) > n {
+		return nil, fmt.Errorf("header: sizes larger than the file: the file is corrupted")
+	}
+	if want := numWeights(cfg); uint64(want) != nw {
+		return nil, fmt.Errorf("the configuration needs %d weights but the file has %d: the vocabulary or labels do not match the weights", want, nw)
+	}
+	if len(h.Vocab) != cfg.VocabSize {
+		return nil, fmt.Errorf("the vocabulary has %d words but the weights are for %d: the vocabulary does not match the weights", len(h.Vocab), cfg.VocabSize)
+	}
+	if len(h.Vocab) < 2 || h.Vocab[0] != corpus.PADWord || h.Vocab[1] != corpus.UNKWord {
+		return nil, fmt.Errorf("the vocabulary does not start with %s, %s: the file is damaged", corpus.PADWord, corpus.UNKWord)
+	}
+	if len(h.Labels) != cfg.Classes {
+		return nil, fmt.Errorf("%d label names for %d classes: the labels do not match the weights", len(h.Labels), cfg.Classes)
+	}
+	m := &Model{Config: cfg, Labels: h.Labels, Vocab: h.Vocab, Tokenizer: h.Tokenizer, Info: h.Info}
+	if len(h.Masked) > 0 {
+		nf := cfg.NumFilters()
+		m.Masked = make([]bool, nf)
+		for _, g := range h.Masked {
+			if g < 0 || g >= nf {
+				return nil, fmt.Errorf("masked filter %d outside 0..%d: the file is damaged", g, nf-1)
+			}
+			m.Masked[g] = true
+		}
+	}
+	w := data[off : off+4*int(nw)]
+	take := func(n int) []float32 {
+		x := make([]float32, n)
+		for i := range x {
+			x[i] = math.Float32frombits(binary.LittleEndian.Uint32(w[4*i:]))
+		}
+		w = w[4*n:]
+		return x
+	}
+	m.Emb = take(cfg.VocabSize * cfg.Dim)
+	for _, wd := range cfg.Widths {
+		W := take(cfg.Filters * wd * cfg.Dim)
+		m.Convs = append(m.Convs, Conv{Width: wd, W: W, B: take(cfg.Filters)})
+	}
+	m.OutW = take(cfg.Classes * cfg.NumFilters())
+	m.OutB = take(cfg.Classes)
+	for _, v := range m.Emb[:cfg.Dim] {
+		if v != 0 {
+			return nil, fmt.Errorf("the PAD embedding is not zero: the file is damaged")
+		}
+	}
+	return m, nil
+}

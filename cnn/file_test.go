@@ -1,0 +1,120 @@
+package cnn
+
+import (
+	"bytes"
+	"encoding/binary"
+	"hash/crc32"
+	"os"
+	"path/filepath"
+	"reflect"
+	"strings"
+	"testing"
+
+	"telltale/corpus"
+)
+
+func savedModel(t testing.TB) (*Model, []byte) {
+	m := randModel(4, 200, 16, []int{3, 4, 5}, 6, 3)
+	m.Masked = make([]bool, m.Config.NumFilters())
+	m.Masked[5] = true
+	m.Tokenizer = corpus.TokenizerConfig{Lower: true, MinCount: 2}
+	m.Info = Info{Created: "2025-01-01T00:00:00Z", BestEpoch: 3, Notes: map[string]string{"data": "demo.csv"},
+		Dev: &Metrics{Accuracy: 0.9, MacroF1: 0.8}}
+	var buf bytes.Buffer
+	if err := m.encode(&buf); err != nil {
+		t.Fatal(err)
+	}
+	return m, buf.Bytes()
+}
+
+func TestSaveLoadRoundTrip(t *testing.T) {
+	m, _ := savedModel(t)
+	path := filepath.Join(t.TempDir(), "m.ttm")
+	if err := m.Save(path); err != nil {
+		t.Fatal(err)
+	}
+	got, err := Load(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(got, m) {
+		t.Fatalf("loaded model differs from the saved one")
+	}
+	ents, _ := os.ReadDir(filepath.Dir(path))
+	if len(ents) != 1 {
+		t.Errorf("save left %d files in its directory, want only the model", len(ents))
+	}
+}
+
+func TestLoadTruncated(t *testing.T) {
+	_, data := savedModel(t)
+	for n := 0; n < len(data); n += 1024 {
+		if _, err := decode(data[:n]); err == nil {
+			t.Fatalf("truncated at %d of %d bytes: no error", n, len(data))
+		} else if n >= 20 && !strings.Contains(err.Error(), "truncated") && !strings.Contains(err.Error(), "incomplete") {
+			t.Errorf("truncated at %d: error %q does not say so", n, err)
+		}
+	}
+	if _, err := decode(data[:len(data)-1]); err == nil {
+		t.Fatal("last byte missing: no error")
+	}
+}
+
+func TestLoadFlippedByte(t *testing.T) {
+	_, data := savedModel(t)
+	for _, at := range []int{30, len(data) / 2, len(data) - 10, len(data) - 2} {
+		bad := bytes.Clone(data)
+		bad[at] ^= 0x10
+		_, err := decode(bad)
+		if err == nil || !strings.Contains(err.Error(), "corrupt") {
+			t.Errorf("byte %d flipped: error %v, want a corruption error", at, err)
+		}
+	}
+}
+
+// reseal recomputes the checksum after an edit.
+func reseal(b []byte) []byte {
+	binary.LittleEndian.PutUint32(b[len(b)-4:], crc32.Checksum(b[:len(b)-4], crcTable))
+	return b
+}
+
+func TestLoadNewerVersion(t *testing.T) {
+	_, data := savedModel(t)
+	bad := bytes.Clone(data)
+	binary.LittleEndian.PutUint32(bad[8:], FormatVersion+1)
+	_, err := decode(reseal(bad))
+	if err == nil || !strings.Contains(err.Error(), "newer") {
+		t.Fatalf("newer version: error %v", err)
+	}
+}
+
+func TestLoadVocabMismatch(t *testing.T) {
+	m, _ := savedModel(t)
+	m.Vocab = append(m.Vocab, "extra") // one word more than the weights hold
+	var buf bytes.Buffer
+	if err := m.encode(&buf); err != nil {
+		t.Fatal(err)
+	}
+	_, err := decode(buf.Bytes())
+	if err == nil || !strings.Contains(err.Error(), "vocabulary") {
+		t.Fatalf("vocabulary/weights mismatch: error %v", err)
+	}
+	if _, err := decode([]byte("PK\x03\x04 not a model")); err == nil || !strings.Contains(err.Error(), "not a telltale model") {
+		t.Fatalf("foreign file: error %v", err)
+	}
+}
+
+func FuzzLoad(f *testing.F) {
+	_, data := savedModel(f)
+	f.Add(data)
+	f.Add(data[:100])
+	f.Add([]byte(fileMagic))
+	f.Fuzz(func(t *testing.T, b []byte) {
+		m, err := decode(b)
+		if err == nil {
+			if err := m.checkShapes(); err != nil {
+				t.Fatalf("decode accepted a model with bad shapes: %v", err)
+			}
+		}
+	})
+}

@@ -1,0 +1,162 @@
+package cnn
+
+import (
+	"math"
+
+	"telltale/corpus"
+)
+
+// The fast paths (Predictor and training) compute the first layer per
+// distinct word instead of per token. For a set of texts, every distinct word
+// u gets a row of its dot products with every filter slot,
+//
+//	T[u][r] = Emb[u]·W[f][s],   r = rowOff[bank] + s·Filters + f,
+//
+// one matMulNT over the distinct words. A window's pre-activations for all
+// filters of a bank are then B + Σ_s T[x[t+s]][rowOff+s·F : rowOff+(s+1)·F],
+// Width additions of contiguous rows of Filters values. PAD has a zero
+// embedding, so it contributes nothing and is never tabled.
+
+// slotWeights is the convolution weights rearranged slot-major: row r =
+// rowOff[b] + s·F + f holds W[f][s] of bank b.
+type slotWeights struct {
+	nrows  int
+	rowOff []int
+	wt     []float32 // nrows·Dim
+}
+
+// build (re)fills sw from the model's current weights.
+func (sw *slotWeights) build(m *Model) {
+	cfg := m.Config
+	d, F := cfg.Dim, cfg.Filters
+	sw.rowOff = sw.rowOff[:0]
+	n := 0
+	for _, w := range cfg.Widths {
+		sw.rowOff = append(sw.rowOff, n)
+		n += w * F
+	}
+	sw.nrows = n
+	sw.wt = grow(sw.wt, n*d)
+	for b, c := range m.Convs {
+		off := sw.rowOff[b]
+		for f := 0; f < F; f++ {
+			for s := 0; s < c.Width; s++ {
+				copy(sw.wt[(off+s*F+f)*d:(off+s*F+f+1)*d], c.W[(f*c.Width+s)*d:(f*c.Width+s+1)*d])
+			}
+		}
+	}
+}
+
+// wordSet maps the vocabulary ids of a group of texts to dense local indices.
+type wordSet struct {
+	local []int32 // by vocabulary id: local index, or -1
+	words []int32 // by local index: vocabulary id
+}
+
+func (ws *wordSet) init(vocab int) {
+	if len(ws.local) != vocab {
+		ws.local = make([]int32, vocab)
+		for i := range ws.local {
+			ws.local[i] = -1
+		}
+		ws.words = ws.words[:0]
+	}
+}
+
+// add returns the local index of id, adding it if new; PAD gives -1.
+func (ws *wordSet) add(id int32) int32 {
+	if id == corpus.PAD {
+		return -1
+	}
+	li := ws.local[id]
+	if li < 0 {
+		li = int32(len(ws.words))
+		ws.local[id] = li
+		ws.words = append(ws.words, id)
+	}
+	return li
+}
+
+// reset forgets every word.
+func (ws *wordSet) reset() {
+	for _, id := range ws.words {
+		ws.local[id] = -1
+	}
+	ws.words = ws.words[:0]
+}
+
+// gatherRows copies the embeddings of words[lo:hi] into emb (rows lo..hi).
+func gatherRows(m *Model, words []int32, emb []float32, lo, hi int) {
+	d := m.Config.Dim
+	for i := lo; i < hi; i++ {
+		copy(emb[i*d:(i+1)*d], m.Row(words[i]))
+	}
+}
+
+// tableRows fills rows lo..hi of the slot table from the gathered embeddings.
+func tableRows(sw *slotWeights, emb, tab []float32, d, lo, hi int) {
+	if hi > lo {
+		matMulNT(tab[lo*sw.nrows:hi*sw.nrows], emb[lo*d:hi*d], sw.wt, hi-lo, sw.nrows, d)
+	}
+}
+
+// scanWindows updates best and arg (NumFilters each) with the windows
+// t ∈ [t0, t1) of a text of padded length lp. loc holds the local indices of
+// tokens base … base+len(loc)−1 (−1 for PAD); other positions a window
+// reaches must be PAD. acc is scratch of Filters values.
+func scanWindows(m *Model, sw *slotWeights, tab []float32, loc []int32, base, lp, t0, t1 int, acc, best []float32, arg []int32) {
+	cfg := m.Config
+	F, nr := cfg.Filters, sw.nrows
+	end := base + len(loc)
+	for b, c := range m.Convs {
+		w := c.Width
+		g0 := b * F
+		bb, ba := best[g0:g0+F], arg[g0:g0+F]
+		off := sw.rowOff[b]
+		for t := t0; t < t1 && t <= lp-w; t++ {
+			copy(acc, c.B)
+			for s := 0; s < w; s++ {
+				p := t + s
+				if p >= end {
+					break
+				}
+				if li := loc[p-base]; li >= 0 {
+					r := int(li)*nr + off + s*F
+					addTo(acc, tab[r:r+F])
+				}
+			}
+			maxUpdate(bb, ba, acc, int32(t))
+		}
+	}
+}
+
+// resetBest sets best to −∞ and arg to 0.
+func resetBest(best []float32, arg []int32) {
+	inf := float32(math.Inf(-1))
+	for i := range best {
+		best[i] = inf
+	}
+	for i := range arg {
+		arg[i] = 0
+	}
+}
+
+// pool writes h[g] = relu(pre[g]), 0 for masked filters.
+func (m *Model) pool(pre, h []float32) {
+	for g, v := range pre {
+		if v > 0 && !m.IsMasked(g) {
+			h[g] = v
+		} else {
+			h[g] = 0
+		}
+	}
+}
+
+// grow returns s resized to n, reusing its storage when large enough. The
+// contents are unspecified.
+func grow[T any](s []T, n int) []T {
+	if cap(s) >= n {
+		return s[:n]
+	}
+	return make([]T, n, n+n/4)
+}

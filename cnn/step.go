@@ -1,0 +1,422 @@
+package cnn
+
+import (
+	"math"
+	"math/rand/v2"
+	"sync"
+)
+
+// workers runs one function over a partition of [0, n) on a fixed set of
+// goroutines. Part k of the partition always goes to buffer index k, so a
+// result depends only on n and the number of workers.
+type workers struct {
+	n  int
+	ch chan task
+	wg sync.WaitGroup
+}
+
+type task struct {
+	fn        func(k, lo, hi int)
+	k, lo, hi int
+}
+
+func newWorkers(n int) *workers {
+	w := &workers{n: max(1, n)}
+	if w.n > 1 {
+		w.ch = make(chan task, w.n)
+		for i := 1; i < w.n; i++ {
+			go func() {
+				for t := range w.ch {
+					t.fn(t.k, t.lo, t.hi)
+					w.wg.Done()
+				}
+			}()
+		}
+	}
+	return w
+}
+
+// run calls fn(k, lo, hi) for the n parts of [0, size) and waits. Empty parts
+// are skipped.
+func (w *workers) run(size int, fn func(k, lo, hi int)) {
+	if w.n == 1 {
+		if size > 0 {
+			fn(0, 0, size)
+		}
+		return
+	}
+	for k := 1; k < w.n; k++ {
+		lo, hi := k*size/w.n, (k+1)*size/w.n
+		if lo < hi {
+			w.wg.Add(1)
+			w.ch <- task{fn, k, lo, hi}
+		}
+	}
+	if hi := size / w.n; hi > 0 {
+		fn(0, 0, hi)
+	}
+	w.wg.Wait()
+}
+
+func (w *workers) close() {
+	if w.ch != nil {
+		close(w.ch)
+	}
+}
+
+// threadBuf is one worker's scratch and gradient accumulators.
+type threadBuf struct {
+	w, b, ow, ob, emb []float32 // gradients: conv W (all banks), conv B, OutW, OutB, embeddings of the batch's words
+	acc, h, z, p, dz  []float32
+	dh                []float32
+}
+
+// paramGroup is one trainable tensor with its gradient and optimizer state.
+type paramGroup struct {
+	p, g, s1, s2 []float32
+}
+
+// trainer holds everything a training step needs, allocated once.
+type trainer struct {
+	m   *Model
+	tc  TrainConfig
+	wk  *workers
+	sw  slotWeights
+	ws  wordSet
+	rng *rand.Rand
+
+	// the current batch
+	texts  [][]int32
+	labels []int
+	loc    []int32
+	locOff []int
+	emb    []float32
+	tab    []float32
+	pre    []float32
+	arg    []int32
+	drop   []float32 // per text and filter: 0 or 1/(1−p); nil for no dropout
+	loss   []float64
+
+	wOff   []int // offset of each bank in the flattened conv gradient
+	th     []threadBuf
+	gEmb   []float32 // full-size embedding gradient, zero outside the batch's rows
+	groups []paramGroup
+	cur    *paramGroup
+	step_  int
+
+	fnGather, fnTable, fnText, fnReduce, fnScatter, fnUnscatter, fnOpt func(k, lo, hi int)
+}
+
+func newTrainer(m *Model, tc TrainConfig) *trainer {
+	cfg := m.Config
+	d, nf := cfg.Dim, cfg.NumFilters()
+	tr := &trainer{m: m, tc: tc, wk: newWorkers(tc.Threads)}
+	total := 0
+	for _, c := range m.Convs {
+		tr.wOff = append(tr.wOff, total)
+		total += len(c.W)
+	}
+	tr.th = make([]threadBuf, tr.wk.n)
+	for k := range tr.th {
+		t := &tr.th[k]
+		t.w = make([]float32, total)
+		t.b = make([]float32, nf)
+		t.ow = make([]float32, len(m.OutW))
+		t.ob = make([]float32, cfg.Classes)
+		t.acc = make([]float32, cfg.Filters)
+		t.h = make([]float32, nf)
+		t.dh = make([]float32, nf)
+		t.z = make([]float32, cfg.Classes)
+		t.p = make([]float32, cfg.Classes)
+		t.dz = make([]float32, cfg.Classes)
+	}
+	g0 := &tr.th[0]
+	state := func(n int) []float32 { return make([]float32, n) }
+	add := func(p, g []float32) {
+		tr.groups = append(tr.groups, paramGroup{p: p, g: g, s1: state(len(p)), s2: state(len(p))})
+	}
+	if !tc.FreezeEmb {
+		tr.gEmb = make([]float32, len(m.Emb))
+		add(m.Emb[d:], tr.gEmb[d:]) // the PAD row is never trained
+	}
+	for b, c := range m.Convs {
+		add(c.W, g0.w[tr.wOff[b]:tr.wOff[b]+len(c.W)])
+		fo := b * cfg.Filters
+		add(c.B, g0.b[fo:fo+cfg.Filters])
+	}
+	add(m.OutW, g0.ow)
+	add(m.OutB, g0.ob)
+	tr.fnGather = tr.gather
+	tr.fnTable = tr.table
+	tr.fnText = tr.texts_
+	tr.fnReduce = tr.reduce
+	tr.fnScatter = tr.scatter
+	tr.fnUnscatter = tr.unscatter
+	tr.fnOpt = tr.opt
+	tr.ws.init(cfg.VocabSize)
+	return tr
+}
+
+func (tr *trainer) close() { tr.wk.close() }
+
+// step trains on the items idx of d and returns the batch's mean loss.
+func (tr *trainer) step(d Data, idx []int) float64 {
+	tr.texts = tr.texts[:0]
+	tr.labels = tr.labels[:0]
+	for _, i := range idx {
+		tr.texts = append(tr.texts, d.IDs[i])
+		tr.labels = append(tr.labels, d.Labels[i])
+	}
+	nf := tr.m.Config.NumFilters()
+	if p := tr.m.Config.Dropout; p > 0 {
+		tr.drop = grow(tr.drop, len(idx)*nf)
+		keep := 1 / (1 - p)
+		for i := range tr.drop {
+			if tr.rng.Float32() < p {
+				tr.drop[i] = 0
+			} else {
+				tr.drop[i] = keep
+			}
+		}
+	} else {
+		tr.drop = tr.drop[:0]
+	}
+	loss := tr.forwardBackward()
+	tr.update()
+	return loss
+}
+
+// forwardBackward runs the batch in tr.texts/tr.labels with the dropout
+// scales in tr.drop (empty: none) and leaves the batch-mean loss gradient in
+// the groups' g slices (and tr.gEmb). It returns the mean loss.
+func (tr *trainer) forwardBackward() float64 {
+	m := tr.m
+	cfg := m.Config
+	d, nf := cfg.Dim, cfg.NumFilters()
+	n := len(tr.texts)
+	tr.sw.build(m)
+	tr.ws.reset()
+	tr.loc = tr.loc[:0]
+	tr.locOff = append(tr.locOff[:0], 0)
+	for _, ids := range tr.texts {
+		for _, id := range ids {
+			tr.loc = append(tr.loc, tr.ws.add(id))
+		}
+		tr.locOff = append(tr.locOff, len(tr.loc))
+	}
+	nw := len(tr.ws.words)
+	tr.emb = grow(tr.emb, nw*d)
+	tr.tab = grow(tr.tab, nw*tr.sw.nrows)
+	tr.pre = grow(tr.pre, n*nf)
+	tr.arg = grow(tr.arg, n*nf)
+	tr.loss = grow(tr.loss, n)
+	for k := range tr.th {
+		t := &tr.th[k]
+		clear(t.w)
+		clear(t.b)
+		clear(t.ow)
+		clear(t.ob)
+		if !tr.tc.FreezeEmb {
+			t.emb = grow(t.emb, nw*d)
+			clear(t.emb)
+		}
+	}
+	tr.wk.run(nw, tr.fnGather)
+	tr.wk.run(nw, tr.fnTable)
+	tr.wk.run(n, tr.fnText)
+	// Reduce the per-thread gradients into thread 0's, in thread order.
+	if len(tr.th) > 1 {
+		tr.wk.run(len(tr.th[0].w), tr.fnReduce)
+	}
+	if !tr.tc.FreezeEmb {
+		tr.wk.run(nw, tr.fnScatter)
+	}
+	var sum float64
+	for _, l := range tr.loss[:n] {
+		sum += l
+	}
+	return sum / float64(n)
+}
+
+func (tr *trainer) gather(_, lo, hi int) { gatherRows(tr.m, tr.ws.words, tr.emb, lo, hi) }
+
+func (tr *trainer) table(_, lo, hi int) {
+	tableRows(&tr.sw, tr.emb, tr.tab, tr.m.Config.Dim, lo, hi)
+}
+
+// texts_ runs forward and backward for texts lo..hi into buffer k.
+func (tr *trainer) texts_(k, lo, hi int) {
+	m := tr.m
+	cfg := m.Config
+	d, nf, F, C := cfg.Dim, cfg.NumFilters(), cfg.Filters, cfg.Classes
+	maxW := cfg.MaxWidth()
+	t := &tr.th[k]
+	scale := 1 / float32(len(tr.texts))
+	freeze := tr.tc.FreezeEmb
+	for i := lo; i < hi; i++ {
+		ids := tr.texts[i]
+		loc := tr.loc[tr.locOff[i]:tr.locOff[i+1]]
+		lp := max(len(ids), maxW)
+		best, arg := tr.pre[i*nf:(i+1)*nf], tr.arg[i*nf:(i+1)*nf]
+		resetBest(best, arg)
+		scanWindows(m, &tr.sw, tr.tab, loc, 0, lp, 0, lp, t.acc, best, arg)
+		m.pool(best, t.h)
+		var drop []float32
+		if len(tr.drop) > 0 {
+			drop = tr.drop[i*nf : (i+1)*nf]
+			for g := range t.h {
+				t.h[g] *= drop[g]
+			}
+		}
+		m.Head(t.h, t.z)
+		y := tr.labels[i]
+		tr.loss[i] = crossEntropy(t.z, t.p, y)
+		for c := 0; c < C; c++ {
+			t.dz[c] = t.p[c] * scale
+		}
+		t.dz[y] -= scale
+		// Output layer.
+		for c := 0; c < C; c++ {
+			axpy(t.dz[c], t.h, t.ow[c*nf:(c+1)*nf])
+			t.ob[c] += t.dz[c]
+		}
+		clear(t.dh)
+		for c := 0; c < C; c++ {
+			axpy(t.dz[c], m.OutW[c*nf:(c+1)*nf], t.dh)
+		}
+		// Through dropout, ReLU and the max: only the winning window of each
+		// filter gets gradient.
+		for g := 0; g < nf; g++ {
+			gd := t.dh[g]
+			if drop != nil {
+				gd *= drop[g]
+			}
+			if gd == 0 || !(best[g] > 0) || m.IsMasked(g) {
+				continue
+			}
+			b, f := g/F, g%F
+			c := &m.Convs[b]
+			w := c.Width
+			t.b[g] += gd
+			t0 := int(arg[g])
+			for s := 0; s < w && t0+s < len(ids); s++ {
+				li := loc[t0+s]
+				if li < 0 {
+					continue
+				}
+				wo := (f*w + s) * d
+				axpy(gd, tr.emb[int(li)*d:int(li+1)*d], t.w[tr.wOff[b]+wo:tr.wOff[b]+wo+d])
+				if !freeze {
+					axpy(gd, c.W[wo:wo+d], t.emb[int(li)*d:int(li+1)*d])
+				}
+			}
+		}
+	}
+}
+
+// crossEntropy writes softmax(z) into p and returns −log p[y], computed in
+// float64 by log-sum-exp.
+func crossEntropy(z, p []float32, y int) float64 {
+	Softmax(z, p)
+	mx := z[0]
+	for _, v := range z[1:] {
+		mx = max(mx, v)
+	}
+	var s float64
+	for _, v := range z {
+		s += math.Exp(float64(v - mx))
+	}
+	return math.Log(s) + float64(mx) - float64(z[y])
+}
+
+// reduce sums elements lo..hi of every thread's gradients into thread 0's,
+// in thread order. Part of the work covers the small buffers and the
+// embedding rows too, proportionally.
+func (tr *trainer) reduce(_, lo, hi int) {
+	sumInto := func(get func(t *threadBuf) []float32, lo, hi int) {
+		dst := get(&tr.th[0])[lo:hi]
+		for k := 1; k < len(tr.th); k++ {
+			addTo(dst, get(&tr.th[k])[lo:hi])
+		}
+	}
+	n := len(tr.th[0].w)
+	sumInto(func(t *threadBuf) []float32 { return t.w }, lo, hi)
+	part := func(m int) (int, int) { return lo * m / n, hi * m / n }
+	a, b := part(len(tr.th[0].b))
+	sumInto(func(t *threadBuf) []float32 { return t.b }, a, b)
+	a, b = part(len(tr.th[0].ow))
+	sumInto(func(t *threadBuf) []float32 { return t.ow }, a, b)
+	a, b = part(len(tr.th[0].ob))
+	sumInto(func(t *threadBuf) []float32 { return t.ob }, a, b)
+	if !tr.tc.FreezeEmb {
+		a, b = part(len(tr.th[0].emb))
+		sumInto(func(t *threadBuf) []float32 { return t.emb }, a, b)
+	}
+}
+
+// scatter copies the batch words' embedding gradients into gEmb.
+func (tr *trainer) scatter(_, lo, hi int) {
+	d := tr.m.Config.Dim
+	for i := lo; i < hi; i++ {
+		id := int(tr.ws.words[i])
+		copy(tr.gEmb[id*d:(id+1)*d], tr.th[0].emb[i*d:(i+1)*d])
+	}
+}
+
+// unscatter zeroes the batch words' rows of gEmb again.
+func (tr *trainer) unscatter(_, lo, hi int) {
+	d := tr.m.Config.Dim
+	for i := lo; i < hi; i++ {
+		id := int(tr.ws.words[i])
+		clear(tr.gEmb[id*d : (id+1)*d])
+	}
+}
+
+// update applies one optimizer step to every group, then the max-norm
+// constraint.
+func (tr *trainer) update() {
+	tr.step_++
+	for i := range tr.groups {
+		tr.cur = &tr.groups[i]
+		tr.wk.run(len(tr.cur.p), tr.fnOpt)
+	}
+	tr.cur = nil
+	if !tr.tc.FreezeEmb {
+		tr.wk.run(len(tr.ws.words), tr.fnUnscatter)
+	}
+	if s := tr.m.Config.MaxNorm; s > 0 {
+		maxNormRows(tr.m.OutW, tr.m.Config.NumFilters(), s)
+	}
+}
+
+func (tr *trainer) opt(_, lo, hi int) {
+	g := tr.cur
+	tc := tr.tc
+	if tc.Optimizer == "adadelta" {
+		adadeltaUpdate(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi], float32(tc.LR), float32(tc.Rho), float32(tc.Eps))
+		return
+	}
+	// Adam (Kingma & Ba 2015) in PyTorch's formulation; see adamStepGo.
+	bc1 := 1 - math.Pow(tc.Beta1, float64(tr.step_))
+	bc2 := 1 - math.Pow(tc.Beta2, float64(tr.step_))
+	adamStep(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi],
+		float32(tc.LR), float32(tc.Beta1), float32(tc.Beta2), float32(tc.Eps), float32(bc1), float32(bc2))
+}
+
+// maxNormRows rescales every row (of n values) of w whose L2 norm exceeds s
+// to norm s (Kim 2014, section 2.1).
+func maxNormRows(w []float32, n int, s float32) {
+	for r := 0; r+n <= len(w); r += n {
+		row := w[r : r+n]
+		var ss float64
+		for _, v := range row {
+			ss += float64(v) * float64(v)
+		}
+		if norm := math.Sqrt(ss); norm > float64(s) {
+			k := float32(float64(s) / norm)
+			for i := range row {
+				row[i] *= k
+			}
+		}
+	}
+}

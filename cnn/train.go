@@ -1,0 +1,294 @@
+package cnn
+
+import (
+	"context"
+	"fmt"
+	"math/rand/v2"
+	"runtime"
+	"slices"
+	"time"
+)
+
+// TrainConfig is the training recipe. Zero fields take the defaults noted.
+type TrainConfig struct {
+	Epochs    int     `json:"epochs"`    // passes over the training split; default 10
+	Batch     int     `json:"batch"`     // mini-batch size; default 50 (Kim 2014)
+	Optimizer string  `json:"optimizer"` // "adam" (default) or "adadelta"
+	LR        float64 `json:"lr"`        // learning rate; default 1e-3 for Adam, 1.0 for Adadelta
+	Beta1     float64 `json:"beta1"`     // Adam; default 0.9
+	Beta2     float64 `json:"beta2"`     // Adam; default 0.999
+	Rho       float64 `json:"rho"`       // Adadelta decay; default 0.95 (Kim 2014; Zeiler 2012)
+	Eps       float64 `json:"eps"`       // default 1e-8 for Adam, 1e-6 for Adadelta
+	Seed      uint64  `json:"seed"`      // shuffling and dropout
+	Threads   int     `json:"threads"`   // goroutines; 0 means GOMAXPROCS
+	// Patience stops training after this many epochs without a better dev
+	// macro-F1; 0 means the default 3, negative turns early stopping off.
+	Patience  int  `json:"patience"`
+	MaxLen    int  `json:"max_len"`    // texts are cut to this many tokens; 0 keeps them whole
+	FreezeEmb bool `json:"freeze_emb"` // keep the embeddings fixed
+}
+
+// WithDefaults returns tc with every zero field set to its default, or an
+// error naming the first invalid setting.
+func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
+	if tc.Epochs == 0 {
+		tc.Epochs = 10
+	}
+	if tc.Batch == 0 {
+		tc.Batch = 50
+	}
+	if tc.Optimizer == "" {
+		tc.Optimizer = "adam"
+	}
+	switch tc.Optimizer {
+	case "adam":
+		tc.LR = or(tc.LR, 1e-3)
+		tc.Eps = or(tc.Eps, 1e-8)
+	case "adadelta":
+		tc.LR = or(tc.LR, 1.0)
+		tc.Eps = or(tc.Eps, 1e-6)
+	default:
+		return tc, fmt.Errorf("cnn: optimizer %q: use adam or adadelta", tc.Optimizer)
+	}
+	tc.Beta1 = or(tc.Beta1, 0.9)
+	tc.Beta2 = or(tc.Beta2, 0.999)
+	tc.Rho = or(tc.Rho, 0.95)
+	if tc.Patience == 0 {
+		tc.Patience = 3
+	}
+	if tc.Threads <= 0 {
+		tc.Threads = runtime.GOMAXPROCS(0)
+	}
+	switch {
+	case tc.Epochs < 0:
+		return tc, fmt.Errorf("cnn: %d epochs: must be at least 1", tc.Epochs)
+	case tc.Batch < 1:
+		return tc, fmt.Errorf("cnn: batch size %d: must be at least 1", tc.Batch)
+	case tc.LR <= 0:
+		return tc, fmt.Errorf("cnn: learning rate %g: must be positive", tc.LR)
+	case tc.Beta1 < 0 || tc.Beta1 >= 1 || tc.Beta2 < 0 || tc.Beta2 >= 1 || tc.Rho < 0 || tc.Rho >= 1:
+		return tc, fmt.Errorf("cnn: optimizer decay rates must be in [0, 1)")
+	case tc.Eps <= 0:
+		return tc, fmt.Errorf("cnn: optimizer epsilon %g: must be positive", tc.Eps)
+	case tc.MaxLen < 0:
+		return tc, fmt.Errorf("cnn: max length %d: must be 0 (no limit) or positive", tc.MaxLen)
+	}
+	return tc, nil
+}
+
+func or(v, def float64) float64 {
+	if v == 0 {
+		return def
+	}
+	return v
+}
+
+// EpochResult is the record of one training epoch.
+type EpochResult struct {
+	Epoch          int      `json:"epoch"`
+	Loss           float64  `json:"loss"` // mean training cross-entropy
+	Dev            *Metrics `json:"dev,omitempty"`
+	ExamplesPerSec float64  `json:"examples_per_second"`
+	Seconds        float64  `json:"seconds"` // training time of the epoch, dev evaluation excluded
+}
+
+// TrainResult is the record of a training run.
+type TrainResult struct {
+	Epochs    []EpochResult `json:"epochs"`
+	BestEpoch int           `json:"best_epoch"` // 1-based; 0 when no epoch completed
+	// ExamplesPerSec is the training throughput in steady state: examples over
+	// training time of the epochs after the first (the first alone when there
+	// is only one).
+	ExamplesPerSec float64 `json:"examples_per_second"`
+	Cancelled      bool    `json:"cancelled"`     // the context ended training
+	StoppedEarly   bool    `json:"stopped_early"` // patience ran out
+}
+
+// Progress is what Train reports while it runs.
+type Progress struct {
+	Epoch, Epochs  int
+	Batch, Batches int      // batches done in this epoch, of Batches
+	Loss           float64  // mean training loss of the epoch so far
+	Dev            *Metrics // set on the report at the end of an epoch when there is a dev split
+	ExamplesPerSec float64  // throughput of the epoch so far
+	Phase          string   // "train" during an epoch, "epoch" at its end, "done" at the very end
+}
+
+// progressEvery is how many batches pass between progress reports.
+const progressEvery = 10
+
+// Train fits m to train by mini-batch gradient descent and returns the
+// training record. After each epoch the model is evaluated on dev (which may
+// be empty); the weights of the epoch with the best dev macro-F1 (the earlier
+// one on ties; with no dev split, the last epoch) are kept, and training stops
+// when Patience epochs pass without improvement. On return m holds those
+// weights, also when ctx is cancelled (then Cancelled is set and the error is
+// nil; if no epoch completed, m holds the weights reached so far).
+//
+// Progress, if not nil, is called from Train's goroutine every few batches and
+// at the end of every epoch. Results are identical for the same model, data,
+// seed and thread count.
+//
+// The batch step (Kim 2014): embeddings, convolution of each width, ReLU,
+// max over time, dropout on the pooled layer (inverted: kept units are scaled
+// by 1/(1−p)), a linear layer, softmax cross-entropy averaged over the batch;
+// Adam (Kingma & Ba 2015, in PyTorch's formulation) or Adadelta (Zeiler 2012);
+// then the optional max-norm constraint on each row of OutW (Kim 2014).
+// Batches are length-bucketed: the shuffled split is cut into chunks of 100
+// batches, each chunk sorted by length and cut into batches, and the batch
+// order shuffled.
+func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progress func(Progress)) (*TrainResult, error) {
+	tc, err := tc.WithDefaults()
+	if err != nil {
+		return nil, err
+	}
+	if err := m.checkShapes(); err != nil {
+		return nil, err
+	}
+	if train.Len() == 0 {
+		return nil, fmt.Errorf("cnn: the training split is empty")
+	}
+	if err := train.check(m.Config, "training"); err != nil {
+		return nil, err
+	}
+	if err := dev.check(m.Config, "dev"); err != nil {
+		return nil, err
+	}
+	train, dev = train.Truncate(tc.MaxLen), dev.Truncate(tc.MaxLen)
+	tr := newTrainer(m, tc)
+	defer tr.close()
+	rng := rand.New(rand.NewPCG(tc.Seed, tc.Seed^0x5bd1e995))
+	tr.rng = rand.New(rand.NewPCG(tc.Seed^0xa0761d6478bd642f, tc.Seed))
+	res := &TrainResult{}
+	var best *Model
+	bestF1 := -1.0
+	var steadyN, firstN int
+	var steadyT, firstT time.Duration
+	n := train.Len()
+	order := make([]int, n)
+	var batches [][]int
+	for epoch := 1; epoch <= tc.Epochs; epoch++ {
+		batches = makeBatches(rng, train.IDs, tc.Batch, order, batches)
+		start := time.Now()
+		var sum float64
+		done := 0
+		for bi, b := range batches {
+			if ctx.Err() != nil {
+				res.Cancelled = true
+				break
+			}
+			sum += tr.step(train, b) * float64(len(b))
+			done += len(b)
+			if progress != nil && (bi+1)%progressEvery == 0 && bi+1 < len(batches) {
+				progress(Progress{Epoch: epoch, Epochs: tc.Epochs, Batch: bi + 1, Batches: len(batches),
+					Loss: sum / float64(done), ExamplesPerSec: float64(done) / time.Since(start).Seconds(), Phase: "train"})
+			}
+		}
+		if res.Cancelled {
+			break
+		}
+		el := time.Since(start)
+		if epoch == 1 {
+			firstN, firstT = done, el
+		} else {
+			steadyN, steadyT = steadyN+done, steadyT+el
+		}
+		er := EpochResult{Epoch: epoch, Loss: sum / float64(done), ExamplesPerSec: float64(done) / el.Seconds(), Seconds: el.Seconds()}
+		improved := true
+		if dev.Len() > 0 {
+			mt, _, err := Evaluate(m, dev, tc.Threads)
+			if err != nil {
+				return nil, err
+			}
+			er.Dev = &mt
+			improved = mt.MacroF1 > bestF1
+			if improved {
+				bestF1 = mt.MacroF1
+			}
+		}
+		res.Epochs = append(res.Epochs, er)
+		if improved {
+			res.BestEpoch = epoch
+			best = copyWeights(best, m)
+		}
+		if progress != nil {
+			progress(Progress{Epoch: epoch, Epochs: tc.Epochs, Batch: len(batches), Batches: len(batches),
+				Loss: er.Loss, Dev: er.Dev, ExamplesPerSec: er.ExamplesPerSec, Phase: "epoch"})
+		}
+		if tc.Patience > 0 && dev.Len() > 0 && epoch-res.BestEpoch >= tc.Patience && epoch < tc.Epochs {
+			res.StoppedEarly = true
+			break
+		}
+	}
+	if best != nil {
+		copyWeights(m, best)
+	}
+	switch {
+	case steadyN > 0:
+		res.ExamplesPerSec = float64(steadyN) / steadyT.Seconds()
+	case firstN > 0:
+		res.ExamplesPerSec = float64(firstN) / firstT.Seconds()
+	}
+	if progress != nil {
+		var last Progress
+		if k := len(res.Epochs); k > 0 {
+			e := res.Epochs[res.BestEpoch-1]
+			last = Progress{Epoch: k, Epochs: tc.Epochs, Loss: e.Loss, Dev: e.Dev, ExamplesPerSec: res.ExamplesPerSec}
+		}
+		last.Phase = "done"
+		progress(last)
+	}
+	return res, nil
+}
+
+// Truncate returns d with every text cut to at most n tokens (n ≤ 0 keeps
+// them whole). The texts share storage with d.
+func (d Data) Truncate(n int) Data {
+	if n <= 0 {
+		return d
+	}
+	out := Data{IDs: make([][]int32, len(d.IDs)), Labels: d.Labels}
+	for i, ids := range d.IDs {
+		out.IDs[i] = ids[:min(len(ids), n)]
+	}
+	return out
+}
+
+// batchChunk is how many batches are sorted by length together.
+const batchChunk = 100
+
+// makeBatches shuffles 0..len(ids)−1 into order, sorts each chunk of
+// batchChunk batches by text length, cuts it into batches of size bs and
+// shuffles the batch order.
+func makeBatches(rng *rand.Rand, ids [][]int32, bs int, order []int, batches [][]int) [][]int {
+	for i := range order {
+		order[i] = i
+	}
+	rng.Shuffle(len(order), func(i, j int) { order[i], order[j] = order[j], order[i] })
+	batches = batches[:0]
+	for c := 0; c < len(order); c += bs * batchChunk {
+		chunk := order[c:min(len(order), c+bs*batchChunk)]
+		slices.SortStableFunc(chunk, func(a, b int) int { return len(ids[a]) - len(ids[b]) })
+		for b := 0; b < len(chunk); b += bs {
+			batches = append(batches, chunk[b:min(len(chunk), b+bs)])
+		}
+	}
+	rng.Shuffle(len(batches), func(i, j int) { batches[i], batches[j] = batches[j], batches[i] })
+	return batches
+}
+
+// copyWeights copies the trainable weights of src into dst, allocating dst
+// when nil, and returns dst.
+func copyWeights(dst, src *Model) *Model {
+	if dst == nil {
+		return src.Clone()
+	}
+	copy(dst.Emb, src.Emb)
+	for b := range src.Convs {
+		copy(dst.Convs[b].W, src.Convs[b].W)
+		copy(dst.Convs[b].B, src.Convs[b].B)
+	}
+	copy(dst.OutW, src.OutW)
+	copy(dst.OutB, src.OutB)
+	return dst
+}
