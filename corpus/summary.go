@@ -244,24 +244,25 @@ func percentiles(xs []int) Percentiles {
 // WriteText writes the summary as readable tables.
 func (s Summary) WriteText(out io.Writer) error {
 	w := &errWriter{w: out}
-	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintf(tw, "label\t")
+	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
+	row := func(cells ...string) { fmt.Fprintln(tw, strings.Join(cells, "\t")) }
+	head := []string{"label"}
 	for _, sp := range s.Splits {
-		fmt.Fprintf(tw, "%s\t%%\t", sp.Name)
+		head = append(head, sp.Name, "%")
 	}
-	fmt.Fprintln(tw)
+	row(head...)
 	for _, l := range s.Labels {
-		fmt.Fprintf(tw, "%s\t", l)
+		cells := []string{l}
 		for _, sp := range s.Splits {
-			fmt.Fprintf(tw, "%d\t%.1f\t", sp.PerLabel[l], 100*sp.Balance[l])
+			cells = append(cells, fmt.Sprint(sp.PerLabel[l]), fmt.Sprintf("%.1f", 100*sp.Balance[l]))
 		}
-		fmt.Fprintln(tw)
+		row(cells...)
 	}
-	fmt.Fprintf(tw, "all\t")
+	all := []string{"all"}
 	for _, sp := range s.Splits {
-		fmt.Fprintf(tw, "%d\t100.0\t", sp.Examples)
+		all = append(all, fmt.Sprint(sp.Examples), "100.0")
 	}
-	fmt.Fprintln(tw)
+	row(all...)
 	tw.Flush()
 	fmt.Fprintf(w, "\nvocabulary: %d entries (train)", s.VocabSize)
 	if len(s.Splits) > 1 {

@@ -1,0 +1,140 @@
+package corpus
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"reflect"
+	"strings"
+	"testing"
+)
+
+func makeSet(counts map[string]int) *Dataset {
+	d := &Dataset{Path: "mem.csv"}
+	line := 2
+	for _, l := range []string{"a", "b", "c"} {
+		for i := 0; i < counts[l]; i++ {
+			d.Examples = append(d.Examples, Example{Text: fmt.Sprintf("%s %d", l, i), Label: l, Line: line})
+			line++
+		}
+	}
+	d.Labels = uniqueLabels(d.Examples)
+	return d
+}
+
+func TestSplit(t *testing.T) {
+	d := makeSet(map[string]int{"a": 50, "b": 7, "c": 1})
+	train, test := d.Split(0.2, 3)
+	// round(0.2·50)=10, round(0.2·7)=1, round(0.2·1)=0 (one stays in train).
+	if c := test.Counts(); !reflect.DeepEqual(c, map[string]int{"a": 10, "b": 1}) {
+		t.Errorf("test counts %v", c)
+	}
+	if c := train.Counts(); !reflect.DeepEqual(c, map[string]int{"a": 40, "b": 6, "c": 1}) {
+		t.Errorf("train counts %v", c)
+	}
+	train2, test2 := d.Split(0.2, 3)
+	if !reflect.DeepEqual(train, train2) || !reflect.DeepEqual(test, test2) {
+		t.Error("same seed, different split")
+	}
+	_, test3 := d.Split(0.2, 4)
+	if reflect.DeepEqual(test.Examples, test3.Examples) {
+		t.Error("different seed, same split")
+	}
+	for _, s := range []*Dataset{train, test} {
+		for i := 1; i < len(s.Examples); i++ {
+			if s.Examples[i].Line <= s.Examples[i-1].Line {
+				t.Fatal("split changed example order")
+			}
+		}
+	}
+}
+
+func TestLabelIndex(t *testing.T) {
+	d := makeSet(map[string]int{"a": 2, "b": 1})
+	idx, err := d.LabelIndex([]string{"b", "a"})
+	if err != nil || !reflect.DeepEqual(idx, []int{1, 1, 0}) {
+		t.Fatalf("%v %v", idx, err)
+	}
+	_, err = d.LabelIndex([]string{"a"})
+	if !errors.Is(err, ErrLabel) || !strings.Contains(err.Error(), `corpus: mem.csv line 4: label "b" is not among the training labels ["a"]`) {
+		t.Errorf("got %v", err)
+	}
+}
+
+func TestRelabelFilter(t *testing.T) {
+	d := makeSet(map[string]int{"a": 2, "b": 1, "c": 3})
+	r := d.Relabel(map[string]string{"a": "x", "b": "x", "c": ""})
+	if c := r.Counts(); !reflect.DeepEqual(c, map[string]int{"x": 3}) || !reflect.DeepEqual(r.Labels, []string{"x"}) {
+		t.Errorf("relabel %v %v", c, r.Labels)
+	}
+	f := d.Filter(func(e Example) bool { return e.Label != "a" })
+	if !reflect.DeepEqual(f.Labels, []string{"b", "c"}) || len(f.Examples) != 4 {
+		t.Errorf("filter %v", f.Labels)
+	}
+	if len(d.Examples) != 6 {
+		t.Error("Relabel or Filter changed the original")
+	}
+}
+
+func TestSummarize(t *testing.T) {
+	train := &Dataset{Path: "train.csv", Examples: []Example{
+		{Text: "The ferry was late!", Label: "complaint", Line: 2},
+		{Text: "the ferry was LATE", Label: "complaint", Line: 3},
+		{Text: "Book two seats", Label: "booking", Line: 4},
+		{Text: "Book two seats", Label: "booking", Line: 5},
+		{Text: "lost my bag on deck 3", Label: "lost", Line: 6},
+	}}
+	train.Labels = uniqueLabels(train.Examples)
+	test := &Dataset{Path: "test.csv", Examples: []Example{
+		{Text: "lost my bag on deck 7", Label: "lost", Line: 2},
+		{Text: "Book two seats", Label: "complaint", Line: 3},
+	}}
+	test.Labels = uniqueLabels(test.Examples)
+	tok, _ := NewTokenizer(TokenizerConfig{Lower: true})
+	s := Summarize(train, test, tok)
+	if s.ExactGroups != 1 || len(s.ExactDuplicates[0].Members) != 3 || !s.ExactDuplicates[0].CrossSplit || !s.ExactDuplicates[0].LabelConflict {
+		t.Errorf("exact %+v", s.ExactDuplicates)
+	}
+	// near groups: ferry (train 2,3) and lost bag (train 6, test 2)
+	if s.NearGroups != 2 || s.Leaks != 2 {
+		t.Errorf("near %d leaks %d: %+v", s.NearGroups, s.Leaks, s.NearDuplicates)
+	}
+	if p := s.Splits[0].TokenLength; p != (Percentiles{P50: 4, P90: 6, P99: 6, Max: 6}) {
+		t.Errorf("percentiles %+v", p)
+	}
+	var b strings.Builder
+	if err := s.WriteText(&b); err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{"booking", "duplicates: 1 exact groups, 2 near-exact groups; 2 test examples also in train", "exact LEAK CONFLICTING-LABELS \"Book two seats\": train line 4 (booking), train line 5 (booking), test line 3 (complaint)"} {
+		if !strings.Contains(b.String(), want) {
+			t.Errorf("text lacks %q:\n%s", want, b.String())
+		}
+	}
+}
+
+func ExampleSummary_WriteText() {
+	train := &Dataset{Path: "train.csv", Examples: []Example{
+		{Text: "Where is my bag?", Label: "lost", Line: 2},
+		{Text: "Two tickets to Arrow Isle, please", Label: "booking", Line: 3},
+		{Text: "two tickets to arrow isle please!", Label: "booking", Line: 4},
+	}}
+	test := &Dataset{Path: "test.csv", Examples: []Example{
+		{Text: "Where is my bag?", Label: "lost", Line: 2},
+	}}
+	tok, _ := NewTokenizer(TokenizerConfig{Lower: true})
+	Summarize(train, test, tok).WriteText(os.Stdout)
+	// Output:
+	// label    train  %      test  %
+	// booking  2      66.7   0     0.0
+	// lost     1      33.3   1     100.0
+	// all      3      100.0  1     100.0
+	//
+	// vocabulary: 15 entries (train); test tokens not in it: 0.0%
+	// tokens per text:
+	//   train p50 7  p90 7  p99 7  max 7
+	//   test  p50 5  p90 5  p99 5  max 5
+	// duplicates: 1 exact groups, 1 near-exact groups; 1 test examples also in train
+	//   exact LEAK "Where is my bag?": train line 2 (lost), test line 2 (lost)
+	//   near "Two tickets to Arrow Isle, please": train line 3 (booking), train line 4 (booking)
+}

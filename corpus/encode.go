@@ -1,0 +1,68 @@
+package corpus
+
+import (
+	"runtime"
+	"sync"
+)
+
+// Encoder turns raw text into tokens and vocabulary ids: the tokenizer and
+// vocabulary of one model, together.
+type Encoder struct {
+	Tok   *Tokenizer
+	Vocab *Vocab
+}
+
+// NewEncoder rebuilds the encoder a model was trained with from its stored
+// tokenizer configuration and its words by id (words[0] PAD, words[1] UNK).
+func NewEncoder(cfg TokenizerConfig, words []string) (*Encoder, error) {
+	tok, err := NewTokenizer(cfg)
+	if err != nil {
+		return nil, err
+	}
+	return &Encoder{Tok: tok, Vocab: NewVocab(words, nil)}, nil
+}
+
+// TrainEncoder builds the encoder for a training split: the tokenizer of
+// cfg, a subword vocabulary trained on texts when cfg.Subword is set, and a
+// word vocabulary of texts with cfg.MinCount and cfg.MaxVocab.
+func TrainEncoder(cfg TokenizerConfig, texts []string) (*Encoder, error) {
+	tok, err := NewTokenizer(cfg)
+	if err != nil {
+		return nil, err
+	}
+	if cfg.Subword && !tok.HasSubword() {
+		if err := tok.TrainSubword(texts, cfg.SubwordSize); err != nil {
+			return nil, err
+		}
+	}
+	return &Encoder{Tok: tok, Vocab: BuildVocab(tok, texts, max(cfg.MinCount, 1), cfg.MaxVocab)}, nil
+}
+
+// Encode tokenizes text (splitting unknown words into known subword pieces
+// when the tokenizer has them) and maps the tokens to ids.
+func (e *Encoder) Encode(text string) ([]Token, []int32) {
+	toks := e.Tok.TokenizeFor(e.Vocab, text)
+	return toks, e.Vocab.Encode(toks)
+}
+
+// EncodeAll encodes every text with threads goroutines (0 means GOMAXPROCS).
+// The result does not depend on threads.
+func (e *Encoder) EncodeAll(texts []string, threads int) [][]int32 {
+	out := make([][]int32, len(texts))
+	if threads <= 0 {
+		threads = runtime.GOMAXPROCS(0)
+	}
+	threads = max(1, min(threads, len(texts)))
+	var wg sync.WaitGroup
+	for w := 0; w < threads; w++ {
+		wg.Add(1)
+		go func(w int) {
+			defer wg.Done()
+			for i := w; i < len(texts); i += threads {
+				_, out[i] = e.Encode(texts[i])
+			}
+		}(w)
+	}
+	wg.Wait()
+	return out
+}
