@@ -1,48 +1,160 @@
 package cnn
 
-// Dense float32 kernels used by the hot loops. These are the portable
-// versions; faster ones for amd64 live beside them behind build tags and must
-// agree with these on every input (see kernel_test.go).
+import "math"
 
-// matMulNT sets c (m×n) to a (m×k) times the transpose of b (n×k), all
-// row-major and contiguous.
-func matMulNT(c, a, b []float32, m, n, k int) {
+// Dense float32 kernels used by the hot loops.
+//
+// Callers use matMulNT, axpy, addTo, dot, maxUpdate and adamStep. Those names
+// are dispatch functions defined in kernel_generic.go (the default build: they
+// call the portable versions in this file) and in kernel_simd_amd64.go (built
+// with GOEXPERIMENT=simd on amd64: they pick an AVX-512 or AVX2+FMA version at
+// start-up from the CPU's features, and fall back to these otherwise).
+//
+// Every version must agree with the portable one on every input up to float32
+// rounding; kernel_test.go checks each available version against a float64
+// reference on random inputs and odd sizes.
+//
+// All kernels are single-threaded, allocate nothing in steady state, keep no
+// state between calls and are safe to call from many goroutines at once.
+// matMulNT's SIMD versions pack into a fixed-size array on the goroutine's
+// stack, so the caller passes no scratch.
+
+// kernelSet is one complete implementation of the kernels, for tests and
+// benchmarks that compare implementations side by side.
+type kernelSet struct {
+	name      string
+	matMulNT  func(c, a, b []float32, m, n, k int)
+	axpy      func(alpha float32, x, y []float32)
+	addTo     func(dst, x []float32)
+	dot       func(x, y []float32) float32
+	maxUpdate func(best []float32, arg []int32, x []float32, t int32)
+	adamStep  func(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32)
+}
+
+// portableKernels is the pure-Go implementation, available in every build.
+var portableKernels = kernelSet{
+	name:      "go",
+	matMulNT:  matMulNTGo,
+	axpy:      axpyGo,
+	addTo:     addToGo,
+	dot:       dotGo,
+	maxUpdate: maxUpdateGo,
+	adamStep:  adamStepGo,
+}
+
+// checkMatMulNT panics unless the slices hold the matrices their shapes say.
+func checkMatMulNT(c, a, b []float32, m, n, k int) {
+	if m < 0 || n < 0 || k < 0 || len(c) < m*n || len(a) < m*k || len(b) < n*k {
+		panic("cnn: matMulNT: slice too short for its shape")
+	}
+}
+
+// matMulNTGo sets c (m×n) to a (m×k) times the transpose of b (n×k), all
+// row-major and contiguous: c[i*n+j] = Σ_p a[i*k+p]·b[j*k+p]. Len(c) must be
+// at least m·n, len(a) at least m·k and len(b) at least n·k.
+//
+// It computes four outputs of a row at a time so that each load of a[i][p]
+// serves four products and the four sums run as independent chains.
+func matMulNTGo(c, a, b []float32, m, n, k int) {
+	checkMatMulNT(c, a, b, m, n, k)
 	for i := 0; i < m; i++ {
 		ai := a[i*k : i*k+k]
 		ci := c[i*n : i*n+n]
-		for j := 0; j < n; j++ {
-			bj := b[j*k : j*k+k]
-			var s float32
+		j := 0
+		for ; j+4 <= n; j += 4 {
+			b0 := b[j*k : j*k+k]
+			b1 := b[(j+1)*k : (j+1)*k+k]
+			b2 := b[(j+2)*k : (j+2)*k+k]
+			b3 := b[(j+3)*k : (j+3)*k+k]
+			var s0, s1, s2, s3 float32
 			for p, v := range ai {
-				s += v * bj[p]
+				s0 += v * b0[p]
+				s1 += v * b1[p]
+				s2 += v * b2[p]
+				s3 += v * b3[p]
 			}
-			ci[j] = s
+			ci[j], ci[j+1], ci[j+2], ci[j+3] = s0, s1, s2, s3
+		}
+		for ; j < n; j++ {
+			ci[j] = dotGo(ai, b[j*k:j*k+k])
 		}
 	}
 }
 
-// axpy adds alpha·x to y. Len(y) must be at least len(x).
-func axpy(alpha float32, x, y []float32) {
+// axpyGo adds alpha·x to y. Len(y) must be at least len(x).
+func axpyGo(alpha float32, x, y []float32) {
 	y = y[:len(x)]
 	for i, v := range x {
 		y[i] += alpha * v
 	}
 }
 
-// addTo adds x to dst elementwise. Len(dst) must be at least len(x).
-func addTo(dst, x []float32) {
+// addToGo adds x to dst elementwise. Len(dst) must be at least len(x).
+func addToGo(dst, x []float32) {
 	dst = dst[:len(x)]
 	for i, v := range x {
 		dst[i] += v
 	}
 }
 
-// dot returns the dot product of x and y[:len(x)].
-func dot(x, y []float32) float32 {
+// dotGo returns the dot product of x and y[:len(x)]. Len(y) must be at least
+// len(x).
+func dotGo(x, y []float32) float32 {
 	y = y[:len(x)]
-	var s float32
-	for i, v := range x {
-		s += v * y[i]
+	var s0, s1, s2, s3 float32
+	i := 0
+	for ; i+4 <= len(x); i += 4 {
+		s0 += x[i] * y[i]
+		s1 += x[i+1] * y[i+1]
+		s2 += x[i+2] * y[i+2]
+		s3 += x[i+3] * y[i+3]
 	}
-	return s
+	for ; i < len(x); i++ {
+		s0 += x[i] * y[i]
+	}
+	return (s0 + s1) + (s2 + s3)
 }
+
+// maxUpdateGo sets best[i], arg[i] = x[i], t wherever x[i] > best[i]: one step
+// of a running maximum with first-maximum tie break (a later equal value does
+// not replace an earlier one). Len(best) and len(arg) must be at least len(x).
+func maxUpdateGo(best []float32, arg []int32, x []float32, t int32) {
+	best = best[:len(x)]
+	arg = arg[:len(x)]
+	for i, v := range x {
+		if v > best[i] {
+			best[i], arg[i] = v, t
+		}
+	}
+}
+
+// adamStepGo applies one Adam update (Kingma & Ba 2015, "Adam: A Method for
+// Stochastic Optimization", ICLR; in PyTorch's formulation of torch.optim.Adam
+// without weight decay) to parameters p with gradient g and moment estimates
+// m and v:
+//
+//	m ← b1·m + (1−b1)·g
+//	v ← b2·v + (1−b2)·g²
+//	p ← p − (lr/bc1)·m / (√v/√bc2 + eps)
+//
+// where bc1 = 1−b1^t and bc2 = 1−b2^t are the bias corrections of step t
+// (t counts from 1). Len(g), len(m) and len(v) must be at least len(p).
+func adamStepGo(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
+	g = g[:len(p)]
+	m = m[:len(p)]
+	v = v[:len(p)]
+	step := lr / bc1
+	isb2 := 1 / sqrt32(bc2)
+	c1, c2 := 1-b1, 1-b2
+	for i, gi := range g {
+		mi := b1*m[i] + c1*gi
+		vi := b2*v[i] + c2*gi*gi
+		m[i], v[i] = mi, vi
+		d := sqrt32(vi)*isb2 + eps
+		p[i] -= step * mi / d
+	}
+}
+
+// sqrt32 is the correctly rounded float32 square root (rounding the float64
+// root once more is exact for float32 arguments).
+func sqrt32(x float32) float32 { return float32(math.Sqrt(float64(x))) }
