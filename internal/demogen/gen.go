@@ -42,7 +42,7 @@ const (
 // Generation settings.
 const (
 	seed          = 20240607
-	testOnlyRate  = 0.3   // chance a test-split slot draws from its test-only pool
+	testOnlyRate  = 0.4   // chance a test-split slot draws from its test-only pool
 	typoRate      = 0.025 // chance an eligible word gets a typo
 	sideRate      = 0.18  // chance of a remark from another team's topic
 	mixRate       = 0.20  // chance of a second matter from another team's templates
@@ -52,7 +52,7 @@ const (
 	signoffRate   = 0.50
 	minWords      = 8
 	maxWords      = 60
-	maxBodyWords  = maxWords - 9 // room for the footer (9 fields) and the stamp
+	maxBodyWords  = maxWords - 10 // room for the footer (9 fields) and the stamp (1)
 	maxGenAttempt = 1000
 )
 

@@ -42,7 +42,7 @@ var pools = map[string]pool{
 	},
 	"colour": {
 		train:    []string{"black", "blue", "red", "green", "grey", "brown", "pink", "yellow", "navy", "white"},
-		testOnly: []string{"turquoise", "maroon", "lilac"},
+		testOnly: []string{"turquoise", "maroon"},
 	},
 	"vehicle": {
 		train:    []string{"a car", "a van", "a bike", "a car and trailer", "a motorbike", "a small van"},
@@ -82,11 +82,11 @@ var pools = map[string]pool{
 	},
 	"ticketType": {
 		train:    []string{"ten journey ticket", "season ticket", "island resident card", "day-return", "family saver"},
-		testOnly: []string{"rover pass", "carnet"},
+		testOnly: []string{"carnet"},
 	},
 	"weather": {
 		train:    []string{"storm", "high winds", "fog", "heavy swell", "gales"},
-		testOnly: []string{"squalls", "sea mist"},
+		testOnly: []string{"squalls"},
 	},
 }
 
@@ -153,6 +153,7 @@ var templates = map[string][]string{
 		"Is it cheaper to book a return now or two singles? We are going {port} to {port2}.",
 		"I'd like an e-ticket for {pax} on sailing {sailno}, how do I book that?",
 		"My {ticketType} has expired, can I renew it online or do I need to call?",
+		"Can I book {pax} with {vehicle} for the {event} weekend? We'd go from {port}.",
 	},
 	"timetable": {
 		"What time is the first sailing from {port} to {port2} on {day}?",
@@ -181,6 +182,7 @@ var templates = map[string][]string{
 		"Does the {ship} still do the {port} to {port2} run, or has it changed route?",
 		"Will the {date} sailings go ahead if the {weather} carries on?",
 		"What are the sailing times from {port} in {month}?",
+		"What time do the extra boats for the {event} leave {port}?",
 	},
 	"lost-property": {
 		"I left my {item} on the {ship} on {date}[, on the {time} sailing|].",
@@ -207,6 +209,7 @@ var templates = map[string][]string{
 	"complaints": {
 		"{someone} [were|was] {complainAdj}[ and made us wait for ages| when we asked for help| to my {relative}|].",
 		"I was charged twice for booking {bref} and have never been refunded.",
+		"{someone} [were|was] [not friendly at all|not helpful at all|far from helpful|far from friendly|not polite at all][, and we were left waiting| on {date}|].",
 		"The {time} sailing was cancelled without any warning and nobody told us why.",
 		"The toilets on the {ship} were filthy and the cafe was closed for the whole crossing.",
 		"It is not good enough that the ferry was {n} minutes late [again|for the third time this week|on {date}].",
@@ -235,6 +238,7 @@ var templates = map[string][]string{
 	"praise": {
 		"{someone} [were|was] {praiseAdj}[ and made us feel welcome| when we asked for help| to my {relative}|].",
 		"I'd like to thank {staff} on the {ship} who was {praiseAdj} when my {relative} needed help with the lift.",
+		"{someone} [were|was] [so friendly|so helpful|so kind|so friendly and helpful][, thank you| on {date}|].",
 		"Please pass on my thanks to the crew of the {time} from {port}, nothing was too much trouble.",
 		"{staff} at the {port} desk went out of their way to help us rebook after the cancellation.",
 		"A big thank you to whoever handed in my {item}, I got it back the next day.",
