@@ -1,0 +1,144 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"flag"
+	"fmt"
+	"io"
+
+	"telltale/corpus"
+)
+
+// dataFlags are the options of every command that reads labeled data.
+type dataFlags struct {
+	Data, Dev         string
+	TextCol, LabelCol string
+	Format            string
+	TestFrac          float64
+	Seed              uint64
+	Relabel           string
+}
+
+func (d *dataFlags) register(fs *flag.FlagSet, devHelp string) {
+	fs.StringVar(&d.Data, "data", "", "labeled data: a .csv, .tsv or .jsonl file, or a folder with one sub-folder per label")
+	fs.StringVar(&d.Dev, "dev", "", devHelp)
+	fs.StringVar(&d.TextCol, "text-col", "", "name of the text column or field (default: text, or auto-detected)")
+	fs.StringVar(&d.LabelCol, "label-col", "", "name of the label column or field (default: label, or auto-detected)")
+	fs.StringVar(&d.Format, "format", "", "force the input format: csv, tsv, jsonl or dir")
+	fs.Float64Var(&d.TestFrac, "test-frac", 0.2, "without --dev: share of --data held out, stratified by label")
+	fs.Uint64Var(&d.Seed, "seed", 1, "random seed (splits, initialisation, shuffling)")
+	fs.StringVar(&d.Relabel, "relabel", "", "map labels before use, e.g. 'easy-ham-1=ham,spam-1=spam' (an empty target drops the label)")
+}
+
+func (d *dataFlags) options() corpus.Options {
+	return corpus.Options{TextCol: d.TextCol, LabelCol: d.LabelCol, Format: d.Format, ReplaceInvalidUTF8: true}
+}
+
+// load reads --data (and --dev) and returns the training and held-out sets.
+// Without --dev, --data is split. Warnings go to warn.
+func (d *dataFlags) load(warn io.Writer, quiet bool) (train, test *corpus.Dataset, err error) {
+	if d.Data == "" {
+		return nil, nil, usagef("--data is required: a labeled .csv, .tsv, .jsonl file or a folder of label folders")
+	}
+	relabel, err := parseRelabel(d.Relabel)
+	if err != nil {
+		return nil, nil, err
+	}
+	all, err := d.read(d.Data, relabel, warn, quiet)
+	if err != nil {
+		return nil, nil, err
+	}
+	if d.Dev == "" {
+		if d.TestFrac <= 0 || d.TestFrac >= 1 {
+			return nil, nil, usagef("--test-frac %g: must be between 0 and 1 (exclusive)", d.TestFrac)
+		}
+		train, test = all.Split(d.TestFrac, d.Seed)
+		return train, test, nil
+	}
+	test, err = d.read(d.Dev, relabel, warn, quiet)
+	return all, test, err
+}
+
+func (d *dataFlags) read(path string, relabel map[string]string, warn io.Writer, quiet bool) (*corpus.Dataset, error) {
+	ds, warnings, err := corpus.Load(path, d.options())
+	if err != nil {
+		return nil, err
+	}
+	if !quiet {
+		printWarnings(warn, warnings)
+	}
+	if relabel != nil {
+		ds = ds.Relabel(relabel)
+	}
+	return ds, nil
+}
+
+// printWarnings prints the first warnings and a count of the rest.
+func printWarnings(w io.Writer, warnings []corpus.Warning) {
+	const most = 10
+	for i, x := range warnings {
+		if i == most {
+			fmt.Fprintf(w, "warning: … and %d more warnings\n", len(warnings)-most)
+			break
+		}
+		fmt.Fprintf(w, "warning: %s\n", x)
+	}
+}
+
+func parseRelabel(s string) (map[string]string, error) {
+	if s == "" {
+		return nil, nil
+	}
+	m := map[string]string{}
+	for _, part := range splitList(s) {
+		from, to, ok := cutEq(part)
+		if !ok {
+			return nil, usagef("--relabel %q: each entry is FROM=TO, separated by commas", s)
+		}
+		m[from] = to
+	}
+	return m, nil
+}
+
+func writeJSON(w io.Writer, v any) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(v)
+}
+
+func init() {
+	register(&command{
+		Name:      "data",
+		UsageLine: "data --data FILE [--dev FILE] [--text-col C] [--label-col C] [--json]",
+		Short:     "summarize a labeled dataset: labels, balance, vocabulary, lengths, duplicates and leaks",
+		Long: `Data reads a labeled dataset and prints its summary: examples per label in the
+training and held-out splits, class balance, vocabulary size, token-length
+percentiles, exact and near-exact duplicate texts, and texts that occur in both
+splits (train/test leaks). Bad input stops with a message naming the file, the
+line and what to do.`,
+		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
+			var df dataFlags
+			df.register(fs, "separate held-out file (default: a stratified split of --data)")
+			asJSON := fs.Bool("json", false, "print the summary as one JSON object")
+			lower := fs.Bool("lower", true, "lower-case tokens")
+			minCount := fs.Int("min-count", 1, "minimum training count for a word to enter the vocabulary")
+			quiet := fs.Bool("quiet", false, "print no warnings")
+			return func(ctx context.Context, env *runEnv) error {
+				train, test, err := df.load(env.Stderr, *quiet)
+				if err != nil {
+					return err
+				}
+				tok, err := corpus.NewTokenizer(corpus.TokenizerConfig{Lower: *lower, MinCount: *minCount})
+				if err != nil {
+					return err
+				}
+				s := corpus.Summarize(train, test, tok)
+				if *asJSON {
+					return writeJSON(env.Stdout, s)
+				}
+				return s.WriteText(env.Stdout)
+			}
+		},
+	})
+}

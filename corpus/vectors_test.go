@@ -1,0 +1,135 @@
+package corpus
+
+import (
+	"compress/gzip"
+	"errors"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+func writeVectorFile(t testing.TB, name, body string) string {
+	t.Helper()
+	p := filepath.Join(t.TempDir(), name)
+	if strings.HasSuffix(name, ".gz") {
+		f, err := os.Create(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		gz := gzip.NewWriter(f)
+		if _, err := gz.Write([]byte(body)); err != nil {
+			t.Fatal(err)
+		}
+		if err := gz.Close(); err != nil {
+			t.Fatal(err)
+		}
+		if err := f.Close(); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	if err := os.WriteFile(p, []byte(body), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
+}
+
+func TestReadVectors(t *testing.T) {
+	// The plain-text layout: optional "count dim" header, then "word x1 … xd"
+	// per line (common practice, no source).
+	const body = "3 4\nferry 0.5 -1 2.25 0\nquay 1e-3 2 3 4\r\nferry 9 9 9 9\n\ndeck -0.125 0 0 1\n"
+	for _, name := range []string{"v.txt", "v.txt.gz"} {
+		for _, header := range []bool{true, false} {
+			b := body
+			if !header {
+				b = body[strings.IndexByte(body, '\n')+1:]
+			}
+			v, err := ReadVectors(writeVectorFile(t, name, b), nil)
+			if err != nil {
+				t.Fatalf("%s header=%v: %v", name, header, err)
+			}
+			if v.Dim != 4 || strings.Join(v.Words, " ") != "ferry quay deck" {
+				t.Fatalf("%s header=%v: dim %d words %q", name, header, v.Dim, v.Words)
+			}
+			want := map[string][]float32{"ferry": {0.5, -1, 2.25, 0}, "quay": {0.001, 2, 3, 4}, "deck": {-0.125, 0, 0, 1}}
+			for i, w := range v.Words {
+				if fmt.Sprint(v.Vector(i)) != fmt.Sprint(want[w]) {
+					t.Errorf("%s: vector of %q = %v, want %v", name, w, v.Vector(i), want[w])
+				}
+			}
+		}
+	}
+	v, err := ReadVectors(writeVectorFile(t, "k.txt", body), func(w string) bool { return w == "quay" })
+	if err != nil || len(v.Words) != 1 || v.Words[0] != "quay" {
+		t.Fatalf("keep filter: %v %v", v, err)
+	}
+}
+
+func TestReadVectorsErrors(t *testing.T) {
+	cases := []struct{ name, body, want string }{
+		{"empty", "", "is empty"},
+		{"word only", "ferry\n", "line 1: expected a word followed by its numbers"},
+		{"wrong dimension", "ferry 1 2 3\nquay 1 2\n", "line 2: 2 numbers for \"quay\", but the file's dimension is 3"},
+		{"header disagrees", "2 3\nferry 1 2 3 4\n", "line 2: 4 numbers"},
+		{"nan", "ferry 1 2\nquay NaN 1\n", "line 2: \"NaN\" is not a finite number"},
+		{"text", "ferry 1 2\nquay one 1\n", "line 2: \"one\" is not a finite number"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := ReadVectors(writeVectorFile(t, "v.txt", c.body), nil)
+			if err == nil || !strings.Contains(err.Error(), c.want) || !errors.Is(err, ErrVectors) {
+				t.Fatalf("error %v, want one containing %q wrapping ErrVectors", err, c.want)
+			}
+		})
+	}
+	plain := filepath.Join(t.TempDir(), "v.gz")
+	if err := os.WriteFile(plain, []byte("ferry 1 2\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := ReadVectors(plain, nil); err == nil || !strings.Contains(err.Error(), "not a gzip file") {
+		t.Fatalf("plain file named .gz: %v", err)
+	}
+	if _, err := ReadVectors(filepath.Join(t.TempDir(), "none.txt"), nil); err == nil || !strings.Contains(err.Error(), "cannot open") {
+		t.Fatalf("missing file: %v", err)
+	}
+}
+
+// BenchmarkReadVectors reads a 400,000-word, 300-dimension file (the size
+// of common published English vector sets), written once per run.
+func BenchmarkReadVectors(b *testing.B) {
+	words, dim := 400000, 300
+	if testing.Short() {
+		words = 20000
+	}
+	p := filepath.Join(b.TempDir(), "big.txt")
+	f, err := os.Create(p)
+	if err != nil {
+		b.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(1, 1))
+	var sb strings.Builder
+	fmt.Fprintf(f, "%d %d\n", words, dim)
+	for i := 0; i < words; i++ {
+		sb.Reset()
+		fmt.Fprintf(&sb, "w%d", i)
+		for d := 0; d < dim; d++ {
+			fmt.Fprintf(&sb, " %.5f", rng.Float32()-0.5)
+		}
+		sb.WriteByte('\n')
+		f.WriteString(sb.String())
+	}
+	if err := f.Close(); err != nil {
+		b.Fatal(err)
+	}
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		v, err := ReadVectors(p, nil)
+		if err != nil || len(v.Words) != words {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(words)*float64(b.N)/b.Elapsed().Seconds(), "words/s")
+}

@@ -1,0 +1,36 @@
+package main
+
+import (
+	"strconv"
+	"strings"
+)
+
+// splitList splits a comma-separated option value, dropping empty entries.
+func splitList(s string) []string {
+	var out []string
+	for _, p := range strings.Split(s, ",") {
+		if p = strings.TrimSpace(p); p != "" {
+			out = append(out, p)
+		}
+	}
+	return out
+}
+
+// cutEq splits "a=b".
+func cutEq(s string) (string, string, bool) {
+	a, b, ok := strings.Cut(s, "=")
+	return strings.TrimSpace(a), strings.TrimSpace(b), ok
+}
+
+// parseInts parses a comma-separated list of integers.
+func parseInts(s, flagName string) ([]int, error) {
+	var out []int
+	for _, p := range splitList(s) {
+		n, err := strconv.Atoi(p)
+		if err != nil {
+			return nil, usagef("--%s %q: %q is not a whole number", flagName, s, p)
+		}
+		out = append(out, n)
+	}
+	return out, nil
+}
