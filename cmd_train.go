@@ -17,9 +17,9 @@ import (
 // window's recipe form, which mirrors them).
 type recipeFlags struct {
 	Epochs, Batch, Dim, Filters, MaxLen, Threads, Patience, MinCount int
-	Widths, Optimizer, Vectors, Tokenizer                          string
-	Dropout, LR, MaxNorm                                           float64
-	Freeze, Subword, Lower                                         bool
+	Widths, Optimizer, Vectors, Tokenizer                            string
+	Dropout, LR, MaxNorm                                             float64
+	Freeze, Subword, Lower                                           bool
 }
 
 func (r *recipeFlags) register(fs *flag.FlagSet) {
