@@ -1,6 +1,7 @@
 package main
 
 import (
+	"encoding/json"
 	"strconv"
 	"strings"
 )
@@ -33,4 +34,20 @@ func parseInts(s, flagName string) ([]int, error) {
 		out = append(out, n)
 	}
 	return out, nil
+}
+
+// oneLine shortens s to at most n runes on one line.
+func oneLine(s string, n int) string {
+	s = strings.Join(strings.Fields(s), " ")
+	r := []rune(s)
+	if len(r) > n {
+		return string(r[:n-1]) + "…"
+	}
+	return s
+}
+
+// jsonLine encodes v as one line of JSON.
+func jsonLine(v any) ([]byte, error) {
+	b, err := json.Marshal(v)
+	return append(b, '\n'), err
 }
