@@ -1,0 +1,92 @@
+package explain
+
+import (
+	"context"
+	"fmt"
+	"math/rand/v2"
+	"testing"
+
+	"telltale/cnn"
+)
+
+// benchModel is the default recipe's shape: 128-d, widths 3/4/5 × 100.
+func benchModel(vocab int) *cnn.Model {
+	rng := rand.New(rand.NewPCG(20, 20))
+	return randomModel(rng, cnn.Config{VocabSize: vocab, Dim: 128, Widths: []int{3, 4, 5}, Filters: 100, Classes: 2})
+}
+
+func benchTexts(m *cnn.Model, n, length int) [][]int32 {
+	rng := rand.New(rand.NewPCG(21, 21))
+	ids := make([][]int32, n)
+	for i := range ids {
+		ids[i] = make([]int32, length)
+		for j := range ids[i] {
+			// Zipf-like: small ids are common.
+			ids[i][j] = int32(2 + int(float64(m.Config.VocabSize-2)*rng.Float64()*rng.Float64()*rng.Float64()))
+		}
+	}
+	return ids
+}
+
+// BenchmarkProfile reports texts per second of Profile on texts of 77
+// tokens, table build included.
+func BenchmarkProfile(b *testing.B) {
+	m := benchModel(20000)
+	ids := benchTexts(m, 20000, 77)
+	b.ReportAllocs()
+	b.ResetTimer()
+	for b.Loop() {
+		if _, err := Profile(context.Background(), m, ids, nil, ProfileOptions{}); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(len(ids)*b.N)/b.Elapsed().Seconds(), "texts/s")
+}
+
+// BenchmarkScan is the forward pass alone over a prebuilt table.
+func BenchmarkScan(b *testing.B) {
+	m := benchModel(20000)
+	ids := benchTexts(m, 20000, 77)
+	st, _ := NewSlotTable(m, TableOptions{})
+	b.ReportAllocs()
+	b.ResetTimer()
+	for b.Loop() {
+		_ = Scan(context.Background(), st, ids, 0, nil, func(int, int, *Pass) {})
+	}
+	b.ReportMetric(float64(len(ids)*b.N)/b.Elapsed().Seconds(), "texts/s")
+}
+
+// BenchmarkExplain: exact shares plus every single-token occlusion of a
+// text, with a prebuilt table ("warm") and with the table built for the
+// text's own words ("cold").
+func BenchmarkExplain(b *testing.B) {
+	m := benchModel(20000)
+	st, _ := NewSlotTable(m, TableOptions{})
+	for _, n := range []int{50, 200} {
+		ids := benchTexts(m, 1, n)[0]
+		for _, warm := range []bool{true, false} {
+			name := fmt.Sprintf("len=%d/cold", n)
+			opt := ExplainOptions{Occlusion: true}
+			if warm {
+				name = fmt.Sprintf("len=%d/warm", n)
+				opt.Table = st
+			}
+			b.Run(name, func(b *testing.B) {
+				b.ReportAllocs()
+				for b.Loop() {
+					if _, err := Explain(m, nil, ids, opt); err != nil {
+						b.Fatal(err)
+					}
+				}
+			})
+		}
+	}
+}
+
+func BenchmarkSlotTable(b *testing.B) {
+	m := benchModel(5000)
+	b.ReportAllocs()
+	for b.Loop() {
+		_, _ = NewSlotTable(m, TableOptions{})
+	}
+}

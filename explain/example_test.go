@@ -1,0 +1,38 @@
+package explain_test
+
+import (
+	"fmt"
+
+	"telltale/cnn"
+	"telltale/explain"
+)
+
+// A one-filter model: the bigram filter scores "not" negatively in its first
+// slot and "good" positively in its second, and votes for class "pos". The
+// winning window is "not good" (0.5 − 2 + 3 = 1.5), so the logits are ∓1.5
+// and split into a bias part ∓0.5 plus the shares −2 ("not") and +3 (the
+// second "good"). Occluding "not" lets "PAD good" win with 3.5, which raises
+// p(pos) from σ(3) to σ(7): a negative drop of 0.952574 − 0.999089.
+func ExampleExplain() {
+	m := &cnn.Model{
+		Config: cnn.Config{VocabSize: 4, Dim: 2, Widths: []int{2}, Filters: 1, Classes: 2},
+		Labels: []string{"neg", "pos"},
+		Vocab:  []string{"<pad>", "<unk>", "not", "good"},
+		Emb:    []float32{0, 0, 0, 0, 1, 0, 0, 1}, // not = (1, 0), good = (0, 1)
+		// slot 0: not −2, good +1; slot 1: not −1, good +3
+		Convs: []cnn.Conv{{Width: 2, W: []float32{-2, 1, -1, 3}, B: []float32{0.5}}},
+		OutW:  []float32{-1, 1},
+		OutB:  []float32{0, 0},
+	}
+	ids := []int32{3, 2, 3} // good not good
+	e, _ := explain.Explain(m, nil, ids, explain.ExplainOptions{Occlusion: true})
+	fmt.Printf("label %s, logits %.2f, bias %.2f\n", e.Label, e.Logits, e.Bias)
+	for i, t := range e.Tokens {
+		fmt.Printf("%-4s share[pos] %+.2f  occlusion %+.3f\n", t.Text, e.Attributions.Exact[i][1], e.Attributions.Occlusion[i])
+	}
+	// Output:
+	// label pos, logits [-1.50 1.50], bias [-0.50 0.50]
+	// good share[pos] +0.00  occlusion +0.000
+	// not  share[pos] -2.00  occlusion -0.047
+	// good share[pos] +3.00  occlusion +0.222
+}
