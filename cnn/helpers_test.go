@@ -1,6 +1,7 @@
 package cnn
 
 import (
+	"bytes"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -48,3 +49,5 @@ func close32(a, b float32, rel, abs float64) bool {
 	d := math.Abs(float64(a) - float64(b))
 	return d <= abs+rel*math.Max(math.Abs(float64(a)), math.Abs(float64(b)))
 }
+
+func bytesReader(b []byte) *bytes.Reader { return bytes.NewReader(b) }

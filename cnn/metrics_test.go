@@ -1,0 +1,173 @@
+package cnn
+
+import (
+	"encoding/json"
+	"math"
+	"math/rand/v2"
+	"os/exec"
+	"slices"
+	"testing"
+)
+
+func near(a, b, tol float64) bool { return math.Abs(a-b) <= tol }
+
+// The worked examples of the scikit-learn documentation: f1_score with
+// y_true=[0,1,2,0,1,2], y_pred=[0,2,1,0,0,1] gives macro 0.2666…, micro
+// 0.3333… and weighted 0.2666…; confusion_matrix with y_true=[2,0,2,2,0,1],
+// y_pred=[0,0,2,2,0,2] gives [[2,0,0],[0,0,1],[1,0,2]].
+func TestMetricsScikitLearnExamples(t *testing.T) {
+	labels := []string{"a", "b", "c"}
+	mt := ComputeMetrics(labels, []int{0, 1, 2, 0, 1, 2}, []int{0, 2, 1, 0, 0, 1}, nil, 0)
+	if !near(mt.MacroF1, 0.26666666666666666, 1e-12) || !near(mt.WeightedF1, 0.26666666666666666, 1e-12) {
+		t.Errorf("macro %g weighted %g, want 0.2666…", mt.MacroF1, mt.WeightedF1)
+	}
+	if !near(mt.Accuracy, 1.0/3, 1e-12) { // micro-F1 equals accuracy for single-label classes
+		t.Errorf("accuracy (micro-F1) %g, want 0.3333…", mt.Accuracy)
+	}
+	mt = ComputeMetrics(labels, []int{2, 0, 2, 2, 0, 1}, []int{0, 0, 2, 2, 0, 2}, nil, 0)
+	want := [][]int{{2, 0, 0}, {0, 0, 1}, {1, 0, 2}}
+	for i := range want {
+		if !slices.Equal(mt.Confusion[i], want[i]) {
+			t.Fatalf("confusion %v, want %v", mt.Confusion, want)
+		}
+	}
+	if mt.PerClass[2].Support != 3 || mt.PerClass[1].F1 != 0 {
+		t.Errorf("per class %+v", mt.PerClass)
+	}
+}
+
+// The torchmetrics documentation's examples (values recalled from memory,
+// and recomputed by hand in the comments):
+//
+// MulticlassCalibrationError(num_classes=3, n_bins=3, norm='l1') on
+// preds [[.25,.20,.55],[.55,.05,.40],[.10,.30,.60],[.90,.05,.05]],
+// target [0,1,2,0] gives 0.2000: confidences .55 .55 .60 .90, correct
+// F F T T; bin (1/3,2/3]: 3/4·|1/3−0.5667| = 0.175, bin (2/3,1]:
+// 1/4·|1−0.9| = 0.025.
+//
+// BinaryCalibrationError(n_bins=2, norm='l1') on preds
+// [.25,.25,.55,.75,.75], target [0,0,1,1,1] gives 0.2900 (confidence = the
+// positive probability, accuracy = the target): 2/5·0.25 + 3/5·0.3167.
+func TestECETorchmetricsExamples(t *testing.T) {
+	probs := [][]float32{{.25, .20, .55}, {.55, .05, .40}, {.10, .30, .60}, {.90, .05, .05}}
+	gold := []int{0, 1, 2, 0}
+	pred := make([]int, 4)
+	conf := make([]float64, 4)
+	for i, p := range probs {
+		pred[i], conf[i] = argmax(p)
+	}
+	if e := ComputeMetrics([]string{"a", "b", "c"}, gold, pred, conf, 3).ECE; !near(e, 0.2, 1e-6) {
+		t.Errorf("multiclass ECE %g, want 0.2000", e)
+	}
+	e := expectedCalibrationError([]float64{.25, .25, .55, .75, .75}, []bool{false, false, true, true, true}, 2)
+	if !near(e, 0.29, 1e-9) {
+		t.Errorf("binary ECE %g, want 0.2900", e)
+	}
+}
+
+// Against Debian's scikit-learn on random labels: accuracy, per-class
+// precision/recall/F1/support, macro and weighted F1 and the confusion matrix.
+func TestMetricsAgainstScikitLearn(t *testing.T) {
+	requirePython(t, "sklearn")
+	type tc struct {
+		K int   `json:"k"`
+		G []int `json:"gold"`
+		P []int `json:"pred"`
+	}
+	rng := rand.New(rand.NewPCG(11, 12))
+	var cases []tc
+	for i := 0; i < 12; i++ {
+		k := 2 + rng.IntN(5)
+		used := k
+		if i%4 == 3 {
+			used = k - 1 // the last class never occurs: excluded from the macro average
+		}
+		n := 1 + rng.IntN(80)
+		c := tc{K: k, G: make([]int, n), P: make([]int, n)}
+		for j := range c.G {
+			c.G[j] = rng.IntN(used)
+			if rng.IntN(3) == 0 {
+				c.P[j] = c.G[j]
+			} else {
+				c.P[j] = rng.IntN(used)
+			}
+		}
+		cases = append(cases, c)
+	}
+	js, _ := json.Marshal(cases)
+	script := `
+import json, sys, warnings
+warnings.filterwarnings("ignore")
+from sklearn.metrics import accuracy_score, f1_score, precision_recall_fscore_support, confusion_matrix
+out = []
+for c in json.load(sys.stdin):
+    g, p, labels = c["gold"], c["pred"], list(range(c["k"]))
+    pr, rc, f1, sup = precision_recall_fscore_support(g, p, labels=labels, zero_division=0)
+    out.append({"accuracy": accuracy_score(g, p),
+                "macro": f1_score(g, p, average="macro", zero_division=0),
+                "weighted": f1_score(g, p, average="weighted", zero_division=0),
+                "precision": pr.tolist(), "recall": rc.tolist(), "f1": f1.tolist(), "support": sup.tolist(),
+                "confusion": confusion_matrix(g, p, labels=labels).tolist()})
+print(json.dumps(out))
+`
+	cmd := exec.Command("/usr/bin/python3", "-c", script)
+	cmd.Stdin = bytesReader(js)
+	raw, err := cmd.Output()
+	if err != nil {
+		t.Fatalf("scikit-learn: %v", err)
+	}
+	var refs []struct {
+		Accuracy, Macro, Weighted float64
+		Precision, Recall, F1     []float64
+		Support                   []int
+		Confusion                 [][]int
+	}
+	if err := json.Unmarshal(raw, &refs); err != nil {
+		t.Fatal(err)
+	}
+	for i, c := range cases {
+		labels := make([]string, c.K)
+		mt := ComputeMetrics(labels, c.G, c.P, nil, 0)
+		r := refs[i]
+		if !near(mt.Accuracy, r.Accuracy, 1e-12) || !near(mt.MacroF1, r.Macro, 1e-12) || !near(mt.WeightedF1, r.Weighted, 1e-12) {
+			t.Errorf("case %d: accuracy %g macro %g weighted %g; scikit-learn %g %g %g", i, mt.Accuracy, mt.MacroF1, mt.WeightedF1, r.Accuracy, r.Macro, r.Weighted)
+		}
+		for k, pc := range mt.PerClass {
+			if !near(pc.Precision, r.Precision[k], 1e-12) || !near(pc.Recall, r.Recall[k], 1e-12) || !near(pc.F1, r.F1[k], 1e-12) || pc.Support != r.Support[k] {
+				t.Errorf("case %d class %d: %+v; scikit-learn P %g R %g F1 %g n %d", i, k, pc, r.Precision[k], r.Recall[k], r.F1[k], r.Support[k])
+			}
+			if !slices.Equal(mt.Confusion[k], r.Confusion[k]) {
+				t.Errorf("case %d: confusion row %d %v, scikit-learn %v", i, k, mt.Confusion[k], r.Confusion[k])
+			}
+		}
+	}
+}
+
+func TestEvaluateMatchesForward(t *testing.T) {
+	m := randModel(8, 30, 6, []int{2, 3}, 4, 3)
+	rng := rand.New(rand.NewPCG(3, 3))
+	d := Data{IDs: randTexts(rng, 150, 20, 30), Labels: make([]int, 150)}
+	for i := range d.Labels {
+		d.Labels[i] = rng.IntN(3)
+	}
+	mt, pred, err := Evaluate(m, d, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	correct := 0
+	for i, ids := range d.IDs {
+		c, _ := argmax(m.Forward(ids).Probs)
+		if c != pred[i] {
+			t.Fatalf("text %d: Evaluate predicts %d, Forward %d", i, pred[i], c)
+		}
+		if c == d.Labels[i] {
+			correct++
+		}
+	}
+	if !near(mt.Accuracy, float64(correct)/150, 1e-12) || mt.N != 150 {
+		t.Errorf("accuracy %g, want %g", mt.Accuracy, float64(correct)/150)
+	}
+	if _, _, err := Evaluate(m, Data{IDs: [][]int32{{99}}, Labels: []int{0}}, 1); err == nil {
+		t.Error("out-of-vocabulary id accepted")
+	}
+}
