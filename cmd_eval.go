@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bufio"
 	"context"
 	"flag"
 	"fmt"
@@ -86,20 +85,7 @@ and the probability of each class.`,
 				if *text != "" {
 					return emit(*text)
 				}
-				sc := bufio.NewScanner(env.Stdin)
-				sc.Buffer(make([]byte, 64*1024), 16<<20)
-				for sc.Scan() {
-					if err := ctx.Err(); err != nil {
-						return err
-					}
-					if err := emit(sc.Text()); err != nil {
-						return err
-					}
-				}
-				if err := sc.Err(); err != nil {
-					return fmt.Errorf("reading standard input: %w (lines are limited to 16 MiB)", err)
-				}
-				return nil
+				return eachLine(ctx, env.Stdin, emit)
 			}
 		},
 	})

@@ -1,7 +1,12 @@
 package main
 
 import (
+	"bufio"
+	"context"
 	"encoding/json"
+	"fmt"
+	"io"
+	"sort"
 	"strconv"
 	"strings"
 )
@@ -50,4 +55,27 @@ func oneLine(s string, n int) string {
 func jsonLine(v any) ([]byte, error) {
 	b, err := json.Marshal(v)
 	return append(b, '\n'), err
+}
+
+// sortBy sorts idx by key, stably.
+func sortBy(idx []int, key func(int) float64) {
+	sort.SliceStable(idx, func(a, b int) bool { return key(idx[a]) < key(idx[b]) })
+}
+
+// eachLine calls fn with every line of r.
+func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
+	sc := bufio.NewScanner(r)
+	sc.Buffer(make([]byte, 64*1024), 16<<20)
+	for sc.Scan() {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		if err := fn(sc.Text()); err != nil {
+			return err
+		}
+	}
+	if err := sc.Err(); err != nil {
+		return fmt.Errorf("reading standard input: %w (lines are limited to 16 MiB)", err)
+	}
+	return nil
 }

@@ -1,0 +1,314 @@
+package main
+
+import (
+	"context"
+	"flag"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"strings"
+
+	"golang.org/x/term"
+
+	"telltale/cnn"
+	"telltale/explain"
+)
+
+func init() {
+	register(&command{
+		Name:      "filters",
+		UsageLine: "filters --model MODEL --data FILE [--top K] [--filter N] [--json]",
+		Short:     "profile every filter over a corpus: top n-grams, slot words, families, purity threshold",
+		Long: `Filters runs the model once over every text of --data and describes each
+filter: the class it votes for, the n-grams that win its max pooling most
+strongly (with the score of every slot), the words that switch each slot on
+(triggers) and off (suppressors), the families its strong n-grams fall into,
+its activation histogram and the purity threshold of Jacovi, Sar Shalom and
+Goldberg (2018). Filters with almost nothing above that threshold are marked
+idle.`,
+		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
+			var df dataFlags
+			df.register(fs, "not used by filters")
+			modelPath := fs.String("model", "", "model file written by train")
+			top := fs.Int("top", 10, "n-grams shown per filter")
+			only := fs.Int("filter", -1, "show only this filter")
+			purity := fs.Float64("purity", 0.5, "share of the purity threshold")
+			asJSON := fs.Bool("json", false, "print the profiles as one JSON object")
+			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
+			quiet := fs.Bool("quiet", false, "no progress bar or warnings")
+			return func(ctx context.Context, env *runEnv) error {
+				m, enc, err := openModel(*modelPath)
+				if err != nil {
+					return err
+				}
+				if df.Data == "" {
+					return usagef("--data is required: the corpus to profile the filters on (usually the training file)")
+				}
+				ds, err := df.read(df.Data, nil, env.Stderr, *quiet)
+				if err != nil {
+					return err
+				}
+				data, err := cnn.EncodeDataset(enc, ds, m.Labels, *threads)
+				if err != nil {
+					// Profiles need no gold labels: fall back to the texts alone.
+					data = cnn.Data{IDs: enc.EncodeAll(ds.Texts(), *threads)}
+				}
+				bar := newProgressBar(env.Stderr, *quiet)
+				prof, err := explain.Profile(ctx, m, data.IDs, data.Labels, explain.ProfileOptions{
+					TopK: *top, Purity: *purity, Counts: nil, Workers: *threads,
+					Progress: func(done, total int) { bar.show(done, total, "profiling filters", false) },
+				})
+				bar.done()
+				if err != nil {
+					return err
+				}
+				if *only >= 0 {
+					if *only >= len(prof.Filters) {
+						return usagef("--filter %d: the model has filters 0 to %d", *only, len(prof.Filters)-1)
+					}
+					prof.Filters = prof.Filters[*only : *only+1]
+				}
+				if *asJSON {
+					return writeJSON(env.Stdout, prof)
+				}
+				writeProfiles(env.Stdout, prof)
+				return nil
+			}
+		},
+	})
+	register(&command{
+		Name:      "explain",
+		UsageLine: "explain --model MODEL [--text \"...\"] [--method exact|occlusion|ig] [--class LABEL] [--json]",
+		Short:     "explain why a text got its label: exact token shares, occlusion, integrated gradients",
+		Long: `Explain labels --text (or each line of standard input) and splits the
+decision over its tokens. exact: each class logit is the bias part plus one
+exact share per token (they add up to the logit). occlusion: the drop in the
+predicted class's probability when the token is replaced by padding, measured
+by re-running the model. ig: integrated gradients over the embeddings with a
+padding baseline, with its completeness gap. In a terminal the text is painted
+by the chosen method; --json gives every number.
+
+The explanation describes the model, not the world: check it before you act
+on it, and never use a classifier alone for decisions about people.`,
+		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
+			modelPath := fs.String("model", "", "model file written by train")
+			text := fs.String("text", "", "the text to explain (default: one text per line of standard input)")
+			method := fs.String("method", "exact", "attribution painted in the terminal: exact, occlusion or ig")
+			class := fs.String("class", "", "class whose attribution is painted (default: the predicted one)")
+			windows := fs.String("windows", "", "also occlude every n-gram window of these widths, e.g. 2,3")
+			asJSON := fs.Bool("json", false, "print one JSON object per text")
+			color := fs.String("color", "auto", "paint with colours: auto (when standard output is a terminal), always or never")
+			return func(ctx context.Context, env *runEnv) error {
+				switch *method {
+				case explain.MethodExact, explain.MethodOcclusion, explain.MethodIG:
+				default:
+					return usagef("--method %q: use exact, occlusion or ig", *method)
+				}
+				ws, err := parseInts(*windows, "windows")
+				if err != nil {
+					return err
+				}
+				m, enc, err := openModel(*modelPath)
+				if err != nil {
+					return err
+				}
+				cls := -1
+				if *class != "" {
+					for c, l := range m.Labels {
+						if l == *class {
+							cls = c
+						}
+					}
+					if cls < 0 {
+						return usagef("--class %q: the model's labels are %s", *class, strings.Join(m.Labels, ", "))
+					}
+				}
+				paint := *color == "always"
+				if *color == "auto" {
+					if f, ok := env.Stdout.(*os.File); ok {
+						paint = term.IsTerminal(int(f.Fd()))
+					}
+				}
+				opt := explain.ExplainOptions{Occlusion: true, OcclusionWidths: ws, IG: *method == explain.MethodIG || *asJSON}
+				one := func(t string) error {
+					toks, ids := enc.Encode(t)
+					e, err := explain.Explain(m, toks, ids, opt)
+					if err != nil {
+						return err
+					}
+					if *asJSON {
+						b, err := jsonLine(e)
+						if err != nil {
+							return err
+						}
+						_, err = env.Stdout.Write(b)
+						return err
+					}
+					return writeExplanation(env.Stdout, t, e, *method, cls, paint)
+				}
+				if *text != "" {
+					return one(*text)
+				}
+				return eachLine(ctx, env.Stdin, one)
+			}
+		},
+	})
+	register(&command{
+		Name:      "faithfulness",
+		UsageLine: "faithfulness --model MODEL --data FILE [--json]",
+		Short:     "measure how faithful each attribution method is on this model (comprehensiveness, sufficiency, AOPC)",
+		Long: `Faithfulness removes each text's most important tokens by every attribution
+method (and by a random ranking, as a control) and measures what the model then
+does: comprehensiveness and sufficiency (DeYoung et al. 2020) at several shares
+of tokens, and the area over the deletion curve (Samek et al. 2017). Higher
+comprehensiveness and AOPC and lower sufficiency mean a method you can trust
+more on this model.`,
+		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
+			var df dataFlags
+			df.register(fs, "not used by faithfulness")
+			modelPath := fs.String("model", "", "model file written by train")
+			limit := fs.Int("limit", 2000, "score at most this many texts (0: all)")
+			asJSON := fs.Bool("json", false, "print the scores as one JSON object")
+			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
+			quiet := fs.Bool("quiet", false, "no progress bar or warnings")
+			return func(ctx context.Context, env *runEnv) error {
+				m, enc, err := openModel(*modelPath)
+				if err != nil {
+					return err
+				}
+				if df.Data == "" {
+					return usagef("--data is required: labeled texts to score the methods on")
+				}
+				ds, err := df.read(df.Data, nil, env.Stderr, *quiet)
+				if err != nil {
+					return err
+				}
+				data, err := cnn.EncodeDataset(enc, ds, m.Labels, *threads)
+				if err != nil {
+					return err
+				}
+				if *limit > 0 && data.Len() > *limit {
+					data = cnn.Data{IDs: data.IDs[:*limit], Labels: data.Labels[:*limit]}
+				}
+				bar := newProgressBar(env.Stderr, *quiet)
+				r, err := explain.Faithfulness(ctx, m, data.IDs, data.Labels, explain.FaithOptions{Workers: *threads,
+					Progress: func(done, total int) { bar.show(done, total, "scoring attribution methods", false) }})
+				bar.done()
+				if err != nil {
+					return err
+				}
+				if *asJSON {
+					return writeJSON(env.Stdout, r)
+				}
+				writeFaith(env.Stdout, r)
+				return nil
+			}
+		},
+	})
+}
+
+func writeExplanation(w io.Writer, text string, e *explain.Explanation, method string, class int, paint bool) error {
+	if class < 0 {
+		class = e.Class
+	}
+	fmt.Fprintf(w, "label: %s", e.Label)
+	for c, l := range e.Labels {
+		fmt.Fprintf(w, "  %s=%.3f", l, e.Probabilities[c])
+	}
+	fmt.Fprintln(w)
+	what := map[string]string{
+		explain.MethodExact:     fmt.Sprintf("exact share of the %q logit (bias part %+.3f, logit %+.3f)", e.Labels[class], e.Bias[class], e.Logits[class]),
+		explain.MethodOcclusion: fmt.Sprintf("drop in p(%s) when the token is replaced by padding", e.Label),
+		explain.MethodIG:        fmt.Sprintf("integrated gradients for the %q logit", e.Labels[class]),
+	}[method]
+	if method == explain.MethodOcclusion {
+		class = e.Class
+	}
+	fmt.Fprintf(w, "%s:\n", what)
+	if err := explain.WriteColored(w, text, e, method, class, paint); err != nil {
+		return err
+	}
+	fmt.Fprintln(w)
+	if len(e.Filters) > 0 {
+		fmt.Fprintf(w, "filters that fired, by their part of the %q logit:\n", e.Labels[class])
+		order := make([]int, len(e.Filters))
+		for i := range order {
+			order[i] = i
+		}
+		sortBy(order, func(i int) float64 { return -math.Abs(e.Filters[i].Contribution[class]) })
+		for _, i := range order[:min(8, len(order))] {
+			f := e.Filters[i]
+			toks := make([]string, 0, f.Width)
+			for t := f.Start; t < f.Start+f.Width && t < len(e.Tokens); t++ {
+				toks = append(toks, e.Tokens[t].Text)
+			}
+			fmt.Fprintf(w, "  filter %-4d width %d  %+.3f  window %q\n", f.Filter, f.Width, f.Contribution[class], strings.Join(toks, " "))
+		}
+	}
+	return nil
+}
+
+func writeProfiles(w io.Writer, p *explain.Profiles) {
+	fmt.Fprintf(w, "%d filters profiled over %d texts (purity share %.2f)\n", len(p.Filters), p.Texts, p.Purity)
+	for _, f := range p.Filters {
+		state := ""
+		if f.Idle {
+			state = "  [idle]"
+		}
+		if f.Masked {
+			state += "  [masked]"
+		}
+		thr := "none"
+		if !math.IsInf(f.Threshold, 0) {
+			thr = fmt.Sprintf("%.3f", f.Threshold)
+		}
+		fmt.Fprintf(w, "\nfilter %d  width %d  votes %s (margin %.3f)  fired in %d texts  threshold %s  above %d (%.0f%% %s)  families %d%s\n",
+			f.Filter, f.Width, f.Label, f.Margin, f.Fired, thr, f.Above, 100*f.AbovePurity, f.Label, len(f.Families), state)
+		for _, n := range f.TopNgrams {
+			parts := make([]string, len(n.Tokens))
+			for i, t := range n.Tokens {
+				parts[i] = fmt.Sprintf("%s(%+.2f)", t, n.Slots[i])
+			}
+			fmt.Fprintf(w, "  %7.3f  ×%-5d %s\n", n.Activation, n.Count, strings.Join(parts, " "))
+		}
+		for _, fam := range f.Families {
+			fmt.Fprintf(w, "  family %-40s %d n-grams, %d texts\n", fam.Pattern, fam.Ngrams, fam.Count)
+		}
+		for _, s := range f.Slots {
+			fmt.Fprintf(w, "  slot %d  on: %s   off: %s\n", s.Slot, wordList(s.Triggers, 5), wordList(s.Suppressors, 5))
+		}
+	}
+}
+
+func wordList(ws []explain.WordScore, n int) string {
+	parts := []string{}
+	for _, x := range ws[:min(n, len(ws))] {
+		parts = append(parts, fmt.Sprintf("%s %+.2f", x.Word, x.Score))
+	}
+	if len(parts) == 0 {
+		return "-"
+	}
+	return strings.Join(parts, ", ")
+}
+
+func writeFaith(w io.Writer, r *explain.FaithReport) {
+	fmt.Fprintf(w, "faithfulness over %d texts (model accuracy %.4f)\n", r.Texts, r.Accuracy)
+	fmt.Fprintln(w, "higher comprehensiveness and AOPC, lower sufficiency: the more faithful method")
+	fmt.Fprintf(w, "\n%-10s  %8s  %8s  %8s\n", "method", "compr.", "suff.", "AOPC")
+	for _, mf := range r.Methods {
+		fmt.Fprintf(w, "%-10s  %8.4f  %8.4f  %8.4f\n", mf.Method, mf.Comp, mf.Suff, mf.AOPC)
+	}
+	fmt.Fprintf(w, "\nby share of tokens removed (%%): %v\n", r.Percents)
+	for _, mf := range r.Methods {
+		fmt.Fprintf(w, "%-10s  compr. %s\n%-10s  suff.  %s\n", mf.Method, floats(mf.Comprehensiveness), "", floats(mf.Sufficiency))
+	}
+}
+
+func floats(xs []float64) string {
+	parts := make([]string, len(xs))
+	for i, x := range xs {
+		parts[i] = fmt.Sprintf("%.4f", x)
+	}
+	return strings.Join(parts, " ")
+}
