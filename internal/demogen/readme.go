@@ -126,7 +126,8 @@ other, so a model that learned them loses accuracy there.
        %s
 
    Its distinctive token is `+"`kioskmail`"+` (after lower-casing), which occurs nowhere
-   else. In training it is on %.0f%% of %s messages and %.0f%% of each other
+   else; its other words ("sent", "via", "quayside", "terminal") also occur in
+   ordinary messages. In training it is on %.0f%% of %s messages and %.0f%% of each other
    team's.
 
 2. **Ticket stamp.** The web form stamps a ticket number on the first line:
