@@ -1,4 +1,41 @@
-// Package cnn is the sentence-classification CNN of Kim (2014): word
-// embeddings, one-dimensional filters of several widths, ReLU, max-over-time
-// pooling, dropout and a linear softmax layer, in pure Go float32.
+// Package cnn is the sentence-classification CNN of Kim (2014, "Convolutional
+// Neural Networks for Sentence Classification", EMNLP): word embeddings,
+// one-dimensional filters of several widths, ReLU, max-over-time pooling,
+// dropout and a linear softmax layer, in pure Go float32.
+//
+// # Model
+//
+// A Model holds the Config, the label names, the vocabulary, the tokenizer
+// settings, the weights and a training record (Info). The forward pass is
+// defined in the Model doc comment; Forward computes it by direct convolution
+// and is the reference every faster path is tested against. New builds a
+// randomly initialised model, SetVectors loads pretrained word vectors.
+//
+// # Inference
+//
+// Predict, PredictBatch, Probabilities and the reusable Predictor compute the
+// first layer once per distinct word of a group of texts: a slot table of
+// every word's dot product with every filter slot (one matrix product), after
+// which a window's pre-activations are a few additions of table rows. The
+// table's memory is bounded; very long texts are processed in segments.
+//
+// # Training
+//
+// Train runs mini-batch training with Adam or Adadelta on length-bucketed
+// batches, dropout on the pooled layer, an optional max-norm constraint and
+// early stopping on dev macro-F1, using all cores with results that depend
+// only on the seed and the thread count. Only the winning window of each
+// filter receives gradient, so the backward pass is sparse. Progress is
+// reported through a callback and a context cancels training, keeping the
+// best weights so far.
+//
+// # Evaluation and files
+//
+// ComputeMetrics and Evaluate give accuracy, per-class precision, recall and
+// F1, macro- and weighted-F1, the confusion matrix and the expected
+// calibration error. Save and Load write and read one checksummed model file
+// (see file.go for the layout), atomically.
+//
+// The numerics are checked against central finite differences and against
+// PyTorch (testdata/torch_check.py), the metrics against scikit-learn.
 package cnn

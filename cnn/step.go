@@ -110,7 +110,8 @@ type trainer struct {
 func newTrainer(m *Model, tc TrainConfig) *trainer {
 	cfg := m.Config
 	d, nf := cfg.Dim, cfg.NumFilters()
-	tr := &trainer{m: m, tc: tc, wk: newWorkers(tc.Threads)}
+	tr := &trainer{m: m, tc: tc, wk: newWorkers(tc.Threads),
+		rng: rand.New(rand.NewPCG(tc.Seed^0xa0761d6478bd642f, tc.Seed))} // dropout masks
 	total := 0
 	for _, c := range m.Convs {
 		tr.wOff = append(tr.wOff, total)

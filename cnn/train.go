@@ -158,7 +158,6 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	tr := newTrainer(m, tc)
 	defer tr.close()
 	rng := rand.New(rand.NewPCG(tc.Seed, tc.Seed^0x5bd1e995))
-	tr.rng = rand.New(rand.NewPCG(tc.Seed^0xa0761d6478bd642f, tc.Seed))
 	res := &TrainResult{}
 	var best *Model
 	bestF1 := -1.0
