@@ -138,3 +138,23 @@ func TestTrainEarlyStopping(t *testing.T) {
 		t.Errorf("stopped early %v after %d epochs with best epoch %d, want stop 2 epochs after the best", res.StoppedEarly, len(res.Epochs), res.BestEpoch)
 	}
 }
+
+// A training step allocates nothing once its buffers have grown.
+func TestTrainStepNoAlloc(t *testing.T) {
+	m := randModel(6, 40, 8, []int{2, 3}, 4, 3)
+	m.Config.Dropout, m.Config.MaxNorm = 0.5, 3
+	d := toyData(9, 100, 40)
+	for _, opt := range []string{"adam", "adadelta"} {
+		tc, _ := TrainConfig{Seed: 1, Threads: 2, Optimizer: opt}.WithDefaults()
+		tr := newTrainer(m, tc)
+		batches := makeBatches(rand.New(rand.NewPCG(1, 1)), d.IDs, 10, make([]int, d.Len()), nil)
+		for _, b := range batches {
+			tr.step(d, b)
+		}
+		i := 0
+		if a := testing.AllocsPerRun(20, func() { tr.step(d, batches[i%len(batches)]); i++ }); a != 0 {
+			t.Errorf("%s: %v allocations per training step, want 0", opt, a)
+		}
+		tr.close()
+	}
+}
