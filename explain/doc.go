@@ -22,6 +22,24 @@
 // incrementally, touching only the windows that contain the replaced tokens.
 // Integrated gradients over the embeddings with a PAD baseline are optional.
 //
+// # What each filter responds to
+//
+// Profile makes one parallel, cancellable pass over a corpus and describes
+// every filter (FilterProfile): the class it votes for and by how much, its
+// top distinct n-grams with per-slot scores and counts, an activation
+// histogram, the purity threshold of Jacovi, Sar Shalom & Goldberg (2018)
+// with the count above it and an idle mark, the trigger and suppressor words
+// of each slot, and its families: above-threshold n-grams clustered by
+// slot-score vector with average linkage (Sokal & Michener 1958), each
+// described by its dominant slots and wildcards. Memory does not grow with
+// the corpus: per filter it keeps bounded heaps and a fine histogram.
+//
+// # How much to trust an attribution
+//
+// Faithfulness measures comprehensiveness and sufficiency (DeYoung et al.
+// 2020) and the deletion AOPC (Samek et al. 2017) of each method against a
+// random ranking. WriteColored paints a text on ColorBrewer's PuOr scale.
+//
 //	st, _ := explain.NewSlotTable(model, explain.TableOptions{})
 //	e, _ := explain.Explain(model, tokens, ids, explain.ExplainOptions{Table: st, Occlusion: true})
 //	// e.Bias[c] + Σ_i e.Attributions.Exact[i][c] == e.Logits[c]

@@ -125,25 +125,18 @@ func (r *Runner) pool() {
 		pre := r.p.Pre[b*F : (b+1)*F]
 		start := r.p.Start[b*F : (b+1)*F]
 		rows := r.rows[b]
+		for f := range start {
+			pre[f], start[f] = negInf, 0
+		}
 		for t := 0; t < nw; t++ {
-			copy(acc, tb.bias)
-			for s := 0; s < w; s++ {
-				addTo(acc, rows[t+s][s*F:(s+1)*F])
-			}
-			if t == 0 {
-				copy(pre, acc)
-				for f := range start {
-					start[f] = 0
-				}
-			} else {
-				for f, a := range acc {
-					if a > pre[f] {
-						pre[f], start[f] = a, int32(t)
-					}
-				}
-			}
+			windowSum(acc, tb.bias, rows[t:t+w], F)
 			if r.keep {
 				copy(r.win[b][t*F:(t+1)*F], acc)
+			}
+			for f, a := range acc {
+				if a > pre[f] {
+					pre[f], start[f] = a, int32(t)
+				}
 			}
 		}
 	}
@@ -158,6 +151,35 @@ func (r *Runner) pool() {
 	m.Head(r.p.Pooled, r.p.Logits)
 	cnn.Softmax(r.p.Logits, r.p.Probs)
 	r.p.Pred = argmax32(r.p.Logits)
+}
+
+// windowSum sets acc to bias + Σ_s rows[s][s·F:(s+1)·F], summed left to
+// right (the same order as adding one row at a time), with the common widths
+// unrolled.
+func windowSum(acc, bias []float32, rows [][]float32, F int) {
+	acc, bias = acc[:F], bias[:F]
+	switch len(rows) {
+	case 3:
+		r0, r1, r2 := rows[0][:F], rows[1][F:2*F], rows[2][2*F:3*F]
+		for f := range acc {
+			acc[f] = bias[f] + r0[f] + r1[f] + r2[f]
+		}
+	case 4:
+		r0, r1, r2, r3 := rows[0][:F], rows[1][F:2*F], rows[2][2*F:3*F], rows[3][3*F:4*F]
+		for f := range acc {
+			acc[f] = bias[f] + r0[f] + r1[f] + r2[f] + r3[f]
+		}
+	case 5:
+		r0, r1, r2, r3, r4 := rows[0][:F], rows[1][F:2*F], rows[2][2*F:3*F], rows[3][3*F:4*F], rows[4][4*F:5*F]
+		for f := range acc {
+			acc[f] = bias[f] + r0[f] + r1[f] + r2[f] + r3[f] + r4[f]
+		}
+	default:
+		copy(acc, bias)
+		for s, row := range rows {
+			addTo(acc, row[s*F:(s+1)*F])
+		}
+	}
 }
 
 func argmax32(v []float32) int {
