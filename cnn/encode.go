@@ -13,7 +13,16 @@ func EncodeDataset(enc *corpus.Encoder, ds *corpus.Dataset, labels []string, thr
 	return Data{IDs: enc.EncodeAll(ds.Texts(), threads), Labels: y}, nil
 }
 
-// Encoder rebuilds the tokenizer and vocabulary m was trained with.
+// Encoder rebuilds the tokenizer and vocabulary m was trained with. It cuts
+// texts to the length the model was trained on (its recipe's MaxLen), so
+// predictions and explanations see what training saw.
 func (m *Model) Encoder() (*corpus.Encoder, error) {
-	return corpus.NewEncoder(m.Tokenizer, m.Vocab)
+	enc, err := corpus.NewEncoder(m.Tokenizer, m.Vocab)
+	if err != nil {
+		return nil, err
+	}
+	if m.Info.Recipe != nil {
+		enc.MaxTokens = m.Info.Recipe.MaxLen
+	}
+	return enc, nil
 }

@@ -222,12 +222,19 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	if best != nil {
 		copyWeights(m, best)
 	}
+	// The model file keeps the record of how it was trained.
+	m.Info = Info{Created: time.Now().UTC().Format(time.RFC3339), Recipe: &tc, Epochs: res.Epochs,
+		BestEpoch: res.BestEpoch, Test: m.Info.Test, Notes: m.Info.Notes}
+	if res.BestEpoch > 0 {
+		m.Info.Dev = res.Epochs[res.BestEpoch-1].Dev
+	}
 	switch {
 	case steadyN > 0:
 		res.ExamplesPerSec = float64(steadyN) / steadyT.Seconds()
 	case firstN > 0:
 		res.ExamplesPerSec = float64(firstN) / firstT.Seconds()
 	}
+	m.Info.ExamplesPerSec = res.ExamplesPerSec
 	if progress != nil {
 		var last Progress
 		if k := len(res.Epochs); k > 0 {

@@ -10,6 +10,9 @@ import (
 type Encoder struct {
 	Tok   *Tokenizer
 	Vocab *Vocab
+	// MaxTokens, when positive, cuts every encoded text to its first
+	// MaxTokens tokens (the length a model was trained on).
+	MaxTokens int
 }
 
 // NewEncoder rebuilds the encoder a model was trained with from its stored
@@ -42,6 +45,9 @@ func TrainEncoder(cfg TokenizerConfig, texts []string) (*Encoder, error) {
 // when the tokenizer has them) and maps the tokens to ids.
 func (e *Encoder) Encode(text string) ([]Token, []int32) {
 	toks := e.Tok.TokenizeFor(e.Vocab, text)
+	if e.MaxTokens > 0 && len(toks) > e.MaxTokens {
+		toks = toks[:e.MaxTokens]
+	}
 	return toks, e.Vocab.Encode(toks)
 }
 
