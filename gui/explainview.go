@@ -115,7 +115,7 @@ func explainView(st *State) fyne.CanvasObject {
 	what.Wrapping = fyne.TextWrapWord
 	detail := widget.NewLabel("Tap a token for its numbers.")
 	detail.Wrapping = fyne.TextWrapWord
-	fired := newSheet([]string{"filter", "width", "window", "activation", "family", "to logit"}, []float32{60, 60, 260, 90, 70, 90})
+	fired := newSheet([]string{"filter", "width", "window", "activation", "family", "to logit"}, []float32{52, 52, 190, 86, 60, 80})
 
 	var cur *explainState
 	st.explainShown = func() *explainState { return cur }
@@ -144,6 +144,8 @@ func explainView(st *State) fyne.CanvasObject {
 		}
 	}
 	paint := func() {
+		// A fresh layout each time: the row-wrap layout caches its size.
+		painted.Layout = layout.NewRowWrapLayoutWithCustomPadding(2, 4)
 		painted.Objects = nil
 		probs.Objects = nil
 		if cur == nil || cur.E == nil {
@@ -267,8 +269,7 @@ func explainView(st *State) fyne.CanvasObject {
 
 	controls := container.NewHBox(widget.NewLabel("Paint by"), method, widget.NewLabel("for class"), class, layout.NewSpacer(), nextBtn)
 	top := container.NewVBox(caution, entry, controls, verdict)
-	paintBox := container.NewVBox(painted, legend, what, detail)
-	left := container.NewBorder(nil, nil, nil, nil, container.NewVScroll(paintBox))
+	left := container.NewBorder(nil, container.NewVBox(legend, what, detail), nil, nil, container.NewVScroll(painted))
 	right := container.NewBorder(container.NewVBox(widget.NewLabelWithStyle("Probabilities", fyne.TextAlignLeading, fyne.TextStyle{Bold: true}), probs,
 		widget.NewLabelWithStyle("Filters that fired (tap one to see it in Filters)", fyne.TextAlignLeading, fyne.TextStyle{Bold: true})), nil, nil, nil, fired.table)
 	split := container.NewHSplit(left, right)

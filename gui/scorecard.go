@@ -27,7 +27,7 @@ func scorecardView(st *State) fyne.CanvasObject {
 	empty.Wrapping = fyne.TextWrapWord
 	headline := widget.NewLabelWithStyle("", fyne.TextAlignLeading, fyne.TextStyle{Bold: true})
 	headline.Wrapping = fyne.TextWrapWord
-	classes := newSheet([]string{"label", "precision", "recall", "F1", "support"}, []float32{160, 90, 90, 90, 80})
+	classes := newSheet([]string{"label", "precision", "recall", "F1", "support"}, []float32{120, 80, 70, 70, 70})
 	confusion := container.NewStack()
 	reliability := newPlotImage()
 	cellTexts := newSheet([]string{"#", "gold", "predicted", "confidence", "text"}, []float32{50, 110, 110, 90, 520})
@@ -102,7 +102,7 @@ func content(headline *widget.Label, classes *sheet, confusion *fyne.Container, 
 		container.NewBorder(widget.NewLabelWithStyle("Confusion matrix (rows: gold, columns: predicted)", fyne.TextAlignLeading, fyne.TextStyle{Bold: true}), nil, nil, nil, confusion),
 		rel.img)
 	bottom := container.NewHSplit(classes.table, container.NewBorder(note, nil, nil, nil, cell.table))
-	bottom.Offset = 0.35
+	bottom.Offset = 0.4
 	split := container.NewVSplit(top, bottom)
 	split.Offset = 0.55
 	return container.NewBorder(headline, nil, nil, nil, split)
