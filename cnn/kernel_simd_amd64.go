@@ -2,7 +2,10 @@
 
 package cnn
 
-import "simd/archsimd"
+import (
+	"simd/archsimd"
+	"unsafe"
+)
 
 // SIMD kernels written with Go's experimental simd/archsimd package (build
 // with GOEXPERIMENT=simd). At start-up the dispatch functions pick, from the
@@ -215,28 +218,35 @@ func matMulNT512(c, a, b []float32, m, n, k int) {
 }
 
 // kern512x4 sets the 4×cols tile c[r*ldc+jj] (r < 4, jj < cols ≤ 32) to rows
-// a[r*lda:][:k] times the packed panel pb (k×32).
+// a[r*lda:][:k] times the packed panel pb (k×32), or adds it when acc is set.
+//
+// The inner loop walks raw pointers: the slice expressions below check every
+// bound once, and bounds checks inside the loop cost about a third of its
+// speed.
 func kern512x4(c []float32, ldc int, a []float32, lda int, pb []float32, k, cols int, acc bool) {
-	a0 := a[:k]
-	a1 := a[lda : lda+k]
-	a2 := a[2*lda : 2*lda+k]
-	a3 := a[3*lda : 3*lda+k]
-	pb = pb[:32*k]
+	_ = a[3*lda+k-1]
+	_ = pb[32*k-1]
+	pa := unsafe.Pointer(unsafe.SliceData(a))
+	pa1 := unsafe.Add(pa, 4*lda)
+	pa2 := unsafe.Add(pa, 8*lda)
+	pa3 := unsafe.Add(pa, 12*lda)
+	pp := unsafe.Pointer(unsafe.SliceData(pb))
 	var c00, c01, c10, c11, c20, c21, c30, c31 archsimd.Float32x16
-	for p := range a0 {
-		q := (*[32]float32)(pb[32*p:])
-		b0 := archsimd.LoadFloat32x16((*[16]float32)(q[:16]))
-		b1 := archsimd.LoadFloat32x16((*[16]float32)(q[16:]))
-		x := archsimd.BroadcastFloat32x16(a0[p])
+	for p := 0; p < k; p++ {
+		b0 := archsimd.LoadFloat32x16((*[16]float32)(pp))
+		b1 := archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(pp, 64)))
+		pp = unsafe.Add(pp, 128)
+		o := uintptr(4 * p)
+		x := archsimd.BroadcastFloat32x16(*(*float32)(unsafe.Add(pa, o)))
 		c00 = b0.MulAdd(x, c00)
 		c01 = b1.MulAdd(x, c01)
-		x = archsimd.BroadcastFloat32x16(a1[p])
+		x = archsimd.BroadcastFloat32x16(*(*float32)(unsafe.Add(pa1, o)))
 		c10 = b0.MulAdd(x, c10)
 		c11 = b1.MulAdd(x, c11)
-		x = archsimd.BroadcastFloat32x16(a2[p])
+		x = archsimd.BroadcastFloat32x16(*(*float32)(unsafe.Add(pa2, o)))
 		c20 = b0.MulAdd(x, c20)
 		c21 = b1.MulAdd(x, c21)
-		x = archsimd.BroadcastFloat32x16(a3[p])
+		x = archsimd.BroadcastFloat32x16(*(*float32)(unsafe.Add(pa3, o)))
 		c30 = b0.MulAdd(x, c30)
 		c31 = b1.MulAdd(x, c31)
 	}
@@ -273,29 +283,31 @@ func kern512x1(c, a, pb []float32, acc bool) {
 }
 
 // store512 stores v0, v1 (32 values) into row, which may be shorter, or
-// adds them to row when acc is set.
+// adds them to row when acc is set. Partial rows go through an array on the
+// stack: the SlicePart loads and stores of archsimd convert a short slice to
+// an array pointer, which the race detector's pointer checks reject.
 func store512(row []float32, v0, v1 archsimd.Float32x16, acc bool) {
-	if acc {
-		v0 = v0.Add(archsimd.LoadFloat32x16SlicePart(row))
-		if len(row) > 16 {
-			v1 = v1.Add(archsimd.LoadFloat32x16SlicePart(row[16:]))
-		}
-	}
-	if len(row) >= 32 {
+	if len(row) >= 32 && !acc {
 		v0.StoreSlice(row[:16])
 		v1.StoreSlice(row[16:32])
 		return
 	}
-	if len(row) > 16 {
-		v0.StoreSlice(row[:16])
-		v1.StoreSlicePart(row[16:])
+	var t [32]float32
+	v0.StoreSlice(t[:16])
+	v1.StoreSlice(t[16:])
+	archsimd.ClearAVXUpperBits()
+	if acc {
+		for i := range row {
+			row[i] += t[i]
+		}
 		return
 	}
-	v0.StoreSlicePart(row)
+	copy(row, t[:])
 }
 
 // rowDots512 sets ci[j] = a·b[j*k:][:k] for j < n, four rows of b at a time.
 func rowDots512(ci, a, b []float32, n, k int) {
+	kv := k &^ (16 - 1)
 	j := 0
 	for ; j+4 <= n; j += 4 {
 		b0 := b[j*k : j*k+k]
@@ -303,62 +315,51 @@ func rowDots512(ci, a, b []float32, n, k int) {
 		b2 := b[(j+2)*k : (j+2)*k+k]
 		b3 := b[(j+3)*k : (j+3)*k+k]
 		var s0, s1, s2, s3 archsimd.Float32x16
-		p := 0
-		for ; p+16 <= k; p += 16 {
+		for p := 0; p < kv; p += 16 {
 			x := archsimd.LoadFloat32x16Slice(a[p:])
 			s0 = archsimd.LoadFloat32x16Slice(b0[p:]).MulAdd(x, s0)
 			s1 = archsimd.LoadFloat32x16Slice(b1[p:]).MulAdd(x, s1)
 			s2 = archsimd.LoadFloat32x16Slice(b2[p:]).MulAdd(x, s2)
 			s3 = archsimd.LoadFloat32x16Slice(b3[p:]).MulAdd(x, s3)
 		}
-		if p < k {
-			x := archsimd.LoadFloat32x16SlicePart(a[p:])
-			s0 = archsimd.LoadFloat32x16SlicePart(b0[p:]).MulAdd(x, s0)
-			s1 = archsimd.LoadFloat32x16SlicePart(b1[p:]).MulAdd(x, s1)
-			s2 = archsimd.LoadFloat32x16SlicePart(b2[p:]).MulAdd(x, s2)
-			s3 = archsimd.LoadFloat32x16SlicePart(b3[p:]).MulAdd(x, s3)
-		}
 		hsum4x8(s0.GetLo().Add(s0.GetHi()), s1.GetLo().Add(s1.GetHi()), s2.GetLo().Add(s2.GetHi()), s3.GetLo().Add(s3.GetHi())).StoreSlice(ci[j:])
+		if kv < k {
+			archsimd.ClearAVXUpperBits()
+			ci[j] += dotGo(a[kv:], b0[kv:])
+			ci[j+1] += dotGo(a[kv:], b1[kv:])
+			ci[j+2] += dotGo(a[kv:], b2[kv:])
+			ci[j+3] += dotGo(a[kv:], b3[kv:])
+		}
 	}
+	archsimd.ClearAVXUpperBits()
 	for ; j < n; j++ {
 		ci[j] = dot512(a, b[j*k:j*k+k])
 	}
-	archsimd.ClearAVXUpperBits()
-}
-
-func hsum16(v archsimd.Float32x16) float32 {
-	return hsum8(v.GetLo().Add(v.GetHi()))
 }
 
 func axpy512(alpha float32, x, y []float32) {
 	y = y[:len(x)]
+	// The scalar tail goes first, so that no scalar is needed after the
+	// vector loop (see adamStep512).
+	n := len(x) &^ (16 - 1)
+	axpyGo(alpha, x[n:], y[n:])
 	av := archsimd.BroadcastFloat32x16(alpha)
-	i := 0
-	for ; i+16 <= len(x); i += 16 {
+	for i := 0; i < n; i += 16 {
 		xv := archsimd.LoadFloat32x16Slice(x[i:])
 		yv := archsimd.LoadFloat32x16Slice(y[i:])
 		xv.MulAdd(av, yv).StoreSlice(y[i:])
-	}
-	if i < len(x) {
-		xv := archsimd.LoadFloat32x16SlicePart(x[i:])
-		yv := archsimd.LoadFloat32x16SlicePart(y[i:])
-		xv.MulAdd(av, yv).StoreSlicePart(y[i:])
 	}
 	archsimd.ClearAVXUpperBits()
 }
 
 func addTo512(dst, x []float32) {
 	dst = dst[:len(x)]
-	i := 0
-	for ; i+16 <= len(x); i += 16 {
+	n := len(x) &^ (16 - 1)
+	addToGo(dst[n:], x[n:])
+	for i := 0; i < n; i += 16 {
 		xv := archsimd.LoadFloat32x16Slice(x[i:])
 		dv := archsimd.LoadFloat32x16Slice(dst[i:])
 		dv.Add(xv).StoreSlice(dst[i:])
-	}
-	if i < len(x) {
-		xv := archsimd.LoadFloat32x16SlicePart(x[i:])
-		dv := archsimd.LoadFloat32x16SlicePart(dst[i:])
-		dv.Add(xv).StoreSlicePart(dst[i:])
 	}
 	archsimd.ClearAVXUpperBits()
 }
@@ -367,7 +368,7 @@ func dot512(x, y []float32) float32 {
 	y = y[:len(x)]
 	var s0, s1 archsimd.Float32x16
 	i := 0
-	for ; i+32 <= len(x); i += 32 {
+	for ; i+2*16 <= len(x); i += 2 * 16 {
 		s0 = archsimd.LoadFloat32x16Slice(x[i:]).MulAdd(archsimd.LoadFloat32x16Slice(y[i:]), s0)
 		s1 = archsimd.LoadFloat32x16Slice(x[i+16:]).MulAdd(archsimd.LoadFloat32x16Slice(y[i+16:]), s1)
 	}
@@ -375,20 +376,24 @@ func dot512(x, y []float32) float32 {
 		s0 = archsimd.LoadFloat32x16Slice(x[i:]).MulAdd(archsimd.LoadFloat32x16Slice(y[i:]), s0)
 		i += 16
 	}
-	if i < len(x) {
-		s1 = archsimd.LoadFloat32x16SlicePart(x[i:]).MulAdd(archsimd.LoadFloat32x16SlicePart(y[i:]), s1)
-	}
-	r := hsum16(s0.Add(s1))
+	// Reduce to four lanes and store them before clearing the upper
+	// halves, so no vector temporary is spilled in legacy SSE code.
+	v := s0.Add(s1)
+	u := v.GetLo().Add(v.GetHi())
+	w := u.GetLo().Add(u.GetHi())
+	var t [4]float32
+	w.Store(&t)
 	archsimd.ClearAVXUpperBits()
-	return r
+	return (t[0] + t[1]) + (t[2] + t[3]) + dotGo(x[i:], y[i:])
 }
 
 func maxUpdate512(best []float32, arg []int32, x []float32, t int32) {
 	best = best[:len(x)]
 	arg = arg[:len(x)]
+	n := len(x) &^ (16 - 1)
+	maxUpdateGo(best[n:], arg[n:], x[n:], t)
 	tv := archsimd.BroadcastInt32x16(t)
-	i := 0
-	for ; i+16 <= len(x); i += 16 {
+	for i := 0; i < n; i += 16 {
 		xv := archsimd.LoadFloat32x16Slice(x[i:])
 		bv := archsimd.LoadFloat32x16Slice(best[i:])
 		gt := xv.Greater(bv)
@@ -396,13 +401,17 @@ func maxUpdate512(best []float32, arg []int32, x []float32, t int32) {
 		tv.Merge(archsimd.LoadInt32x16Slice(arg[i:]), gt).StoreSlice(arg[i:])
 	}
 	archsimd.ClearAVXUpperBits()
-	maxUpdateGo(best[i:], arg[i:], x[i:], t)
 }
 
 func adamStep512(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 	g = g[:len(p)]
 	m = m[:len(p)]
 	v = v[:len(p)]
+	// The scalar tail goes first: a scalar float live after the vector loop
+	// gets spilled and reloaded in it with legacy-SSE moves, and each of
+	// those pays the AVX–SSE transition (about 300 ns here).
+	n := len(p) &^ (16 - 1)
+	adamStepGo(p[n:], g[n:], m[n:], v[n:], lr, b1, b2, eps, bc1, bc2)
 	b1v := archsimd.BroadcastFloat32x16(b1)
 	b2v := archsimd.BroadcastFloat32x16(b2)
 	c1v := archsimd.BroadcastFloat32x16(1 - b1)
@@ -410,10 +419,7 @@ func adamStep512(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 	sv := archsimd.BroadcastFloat32x16(lr / bc1)
 	iv := archsimd.BroadcastFloat32x16(1 / sqrt32(bc2))
 	ev := archsimd.BroadcastFloat32x16(eps)
-	// No scalar float is used after this point: a legacy-SSE reload of one
-	// inside the loop would pay the AVX–SSE transition on every iteration.
-	i := 0
-	for ; i+16 <= len(p); i += 16 {
+	for i := 0; i < n; i += 16 {
 		gv := archsimd.LoadFloat32x16Slice(g[i:])
 		mv := archsimd.LoadFloat32x16Slice(m[i:]).MulAdd(b1v, gv.Mul(c1v))
 		vv := archsimd.LoadFloat32x16Slice(v[i:]).MulAdd(b2v, gv.Mul(c2v).Mul(gv))
@@ -422,17 +428,6 @@ func adamStep512(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 		d := vv.Sqrt().MulAdd(iv, ev)
 		pv := archsimd.LoadFloat32x16Slice(p[i:])
 		pv.Sub(sv.Mul(mv).Div(d)).StoreSlice(p[i:])
-	}
-	if i < len(p) {
-		// Lanes past the end read as zero: m = v = 0, d = eps, no NaN.
-		gv := archsimd.LoadFloat32x16SlicePart(g[i:])
-		mv := archsimd.LoadFloat32x16SlicePart(m[i:]).MulAdd(b1v, gv.Mul(c1v))
-		vv := archsimd.LoadFloat32x16SlicePart(v[i:]).MulAdd(b2v, gv.Mul(c2v).Mul(gv))
-		mv.StoreSlicePart(m[i:])
-		vv.StoreSlicePart(v[i:])
-		d := vv.Sqrt().MulAdd(iv, ev)
-		pv := archsimd.LoadFloat32x16SlicePart(p[i:])
-		pv.Sub(sv.Mul(mv).Div(d)).StoreSlicePart(p[i:])
 	}
 	archsimd.ClearAVXUpperBits()
 }
@@ -533,29 +528,31 @@ func kern256x1(c, a, pb []float32, acc bool) {
 }
 
 // store256 stores v0, v1 (16 values) into row, which may be shorter, or
-// adds them to row when acc is set.
+// adds them to row when acc is set. Partial rows go through an array on the
+// stack: the SlicePart loads and stores of archsimd convert a short slice to
+// an array pointer, which the race detector's pointer checks reject.
 func store256(row []float32, v0, v1 archsimd.Float32x8, acc bool) {
-	if acc {
-		v0 = v0.Add(archsimd.LoadFloat32x8SlicePart(row))
-		if len(row) > 8 {
-			v1 = v1.Add(archsimd.LoadFloat32x8SlicePart(row[8:]))
-		}
-	}
-	if len(row) >= 16 {
+	if len(row) >= 16 && !acc {
 		v0.StoreSlice(row[:8])
 		v1.StoreSlice(row[8:16])
 		return
 	}
-	if len(row) > 8 {
-		v0.StoreSlice(row[:8])
-		v1.StoreSlicePart(row[8:])
+	var t [16]float32
+	v0.StoreSlice(t[:8])
+	v1.StoreSlice(t[8:])
+	archsimd.ClearAVXUpperBits()
+	if acc {
+		for i := range row {
+			row[i] += t[i]
+		}
 		return
 	}
-	v0.StoreSlicePart(row)
+	copy(row, t[:])
 }
 
 // rowDots256 sets ci[j] = a·b[j*k:][:k] for j < n, four rows of b at a time.
 func rowDots256(ci, a, b []float32, n, k int) {
+	kv := k &^ (8 - 1)
 	j := 0
 	for ; j+4 <= n; j += 4 {
 		b0 := b[j*k : j*k+k]
@@ -563,27 +560,26 @@ func rowDots256(ci, a, b []float32, n, k int) {
 		b2 := b[(j+2)*k : (j+2)*k+k]
 		b3 := b[(j+3)*k : (j+3)*k+k]
 		var s0, s1, s2, s3 archsimd.Float32x8
-		p := 0
-		for ; p+8 <= k; p += 8 {
+		for p := 0; p < kv; p += 8 {
 			x := archsimd.LoadFloat32x8Slice(a[p:])
 			s0 = archsimd.LoadFloat32x8Slice(b0[p:]).MulAdd(x, s0)
 			s1 = archsimd.LoadFloat32x8Slice(b1[p:]).MulAdd(x, s1)
 			s2 = archsimd.LoadFloat32x8Slice(b2[p:]).MulAdd(x, s2)
 			s3 = archsimd.LoadFloat32x8Slice(b3[p:]).MulAdd(x, s3)
 		}
-		if p < k {
-			x := archsimd.LoadFloat32x8SlicePart(a[p:])
-			s0 = archsimd.LoadFloat32x8SlicePart(b0[p:]).MulAdd(x, s0)
-			s1 = archsimd.LoadFloat32x8SlicePart(b1[p:]).MulAdd(x, s1)
-			s2 = archsimd.LoadFloat32x8SlicePart(b2[p:]).MulAdd(x, s2)
-			s3 = archsimd.LoadFloat32x8SlicePart(b3[p:]).MulAdd(x, s3)
-		}
 		hsum4x8(s0, s1, s2, s3).StoreSlice(ci[j:])
+		if kv < k {
+			archsimd.ClearAVXUpperBits()
+			ci[j] += dotGo(a[kv:], b0[kv:])
+			ci[j+1] += dotGo(a[kv:], b1[kv:])
+			ci[j+2] += dotGo(a[kv:], b2[kv:])
+			ci[j+3] += dotGo(a[kv:], b3[kv:])
+		}
 	}
+	archsimd.ClearAVXUpperBits()
 	for ; j < n; j++ {
 		ci[j] = dot256(a, b[j*k:j*k+k])
 	}
-	archsimd.ClearAVXUpperBits()
 }
 
 // hsum4x8 returns the four sums of the lanes of t0, t1, t2, t3, in a vector,
@@ -594,42 +590,29 @@ func hsum4x8(t0, t1, t2, t3 archsimd.Float32x8) archsimd.Float32x4 {
 	return u.GetLo().Add(u.GetHi())
 }
 
-func hsum8(v archsimd.Float32x8) float32 {
-	s := v.GetLo().Add(v.GetHi())
-	s = s.AddPairs(s)
-	s = s.AddPairs(s)
-	return s.GetElem(0)
-}
-
 func axpy256(alpha float32, x, y []float32) {
 	y = y[:len(x)]
+	// The scalar tail goes first, so that no scalar is needed after the
+	// vector loop (see adamStep256).
+	n := len(x) &^ (8 - 1)
+	axpyGo(alpha, x[n:], y[n:])
 	av := archsimd.BroadcastFloat32x8(alpha)
-	i := 0
-	for ; i+8 <= len(x); i += 8 {
+	for i := 0; i < n; i += 8 {
 		xv := archsimd.LoadFloat32x8Slice(x[i:])
 		yv := archsimd.LoadFloat32x8Slice(y[i:])
 		xv.MulAdd(av, yv).StoreSlice(y[i:])
-	}
-	if i < len(x) {
-		xv := archsimd.LoadFloat32x8SlicePart(x[i:])
-		yv := archsimd.LoadFloat32x8SlicePart(y[i:])
-		xv.MulAdd(av, yv).StoreSlicePart(y[i:])
 	}
 	archsimd.ClearAVXUpperBits()
 }
 
 func addTo256(dst, x []float32) {
 	dst = dst[:len(x)]
-	i := 0
-	for ; i+8 <= len(x); i += 8 {
+	n := len(x) &^ (8 - 1)
+	addToGo(dst[n:], x[n:])
+	for i := 0; i < n; i += 8 {
 		xv := archsimd.LoadFloat32x8Slice(x[i:])
 		dv := archsimd.LoadFloat32x8Slice(dst[i:])
 		dv.Add(xv).StoreSlice(dst[i:])
-	}
-	if i < len(x) {
-		xv := archsimd.LoadFloat32x8SlicePart(x[i:])
-		dv := archsimd.LoadFloat32x8SlicePart(dst[i:])
-		dv.Add(xv).StoreSlicePart(dst[i:])
 	}
 	archsimd.ClearAVXUpperBits()
 }
@@ -638,7 +621,7 @@ func dot256(x, y []float32) float32 {
 	y = y[:len(x)]
 	var s0, s1 archsimd.Float32x8
 	i := 0
-	for ; i+16 <= len(x); i += 16 {
+	for ; i+2*8 <= len(x); i += 2 * 8 {
 		s0 = archsimd.LoadFloat32x8Slice(x[i:]).MulAdd(archsimd.LoadFloat32x8Slice(y[i:]), s0)
 		s1 = archsimd.LoadFloat32x8Slice(x[i+8:]).MulAdd(archsimd.LoadFloat32x8Slice(y[i+8:]), s1)
 	}
@@ -646,20 +629,23 @@ func dot256(x, y []float32) float32 {
 		s0 = archsimd.LoadFloat32x8Slice(x[i:]).MulAdd(archsimd.LoadFloat32x8Slice(y[i:]), s0)
 		i += 8
 	}
-	if i < len(x) {
-		s1 = archsimd.LoadFloat32x8SlicePart(x[i:]).MulAdd(archsimd.LoadFloat32x8SlicePart(y[i:]), s1)
-	}
-	r := hsum8(s0.Add(s1))
+	// Reduce to four lanes and store them before clearing the upper
+	// halves, so no vector temporary is spilled in legacy SSE code.
+	u := s0.Add(s1)
+	w := u.GetLo().Add(u.GetHi())
+	var t [4]float32
+	w.Store(&t)
 	archsimd.ClearAVXUpperBits()
-	return r
+	return (t[0] + t[1]) + (t[2] + t[3]) + dotGo(x[i:], y[i:])
 }
 
 func maxUpdate256(best []float32, arg []int32, x []float32, t int32) {
 	best = best[:len(x)]
 	arg = arg[:len(x)]
+	n := len(x) &^ (8 - 1)
+	maxUpdateGo(best[n:], arg[n:], x[n:], t)
 	tv := archsimd.BroadcastInt32x8(t)
-	i := 0
-	for ; i+8 <= len(x); i += 8 {
+	for i := 0; i < n; i += 8 {
 		xv := archsimd.LoadFloat32x8Slice(x[i:])
 		bv := archsimd.LoadFloat32x8Slice(best[i:])
 		gt := xv.Greater(bv)
@@ -667,13 +653,17 @@ func maxUpdate256(best []float32, arg []int32, x []float32, t int32) {
 		tv.Merge(archsimd.LoadInt32x8Slice(arg[i:]), gt).StoreSlice(arg[i:])
 	}
 	archsimd.ClearAVXUpperBits()
-	maxUpdateGo(best[i:], arg[i:], x[i:], t)
 }
 
 func adamStep256(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 	g = g[:len(p)]
 	m = m[:len(p)]
 	v = v[:len(p)]
+	// The scalar tail goes first: a scalar float live after the vector loop
+	// gets spilled and reloaded in it with legacy-SSE moves, and each of
+	// those pays the AVX–SSE transition (about 300 ns here).
+	n := len(p) &^ (8 - 1)
+	adamStepGo(p[n:], g[n:], m[n:], v[n:], lr, b1, b2, eps, bc1, bc2)
 	b1v := archsimd.BroadcastFloat32x8(b1)
 	b2v := archsimd.BroadcastFloat32x8(b2)
 	c1v := archsimd.BroadcastFloat32x8(1 - b1)
@@ -681,10 +671,7 @@ func adamStep256(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 	sv := archsimd.BroadcastFloat32x8(lr / bc1)
 	iv := archsimd.BroadcastFloat32x8(1 / sqrt32(bc2))
 	ev := archsimd.BroadcastFloat32x8(eps)
-	// No scalar float is used after this point: a legacy-SSE reload of one
-	// inside the loop would pay the AVX–SSE transition on every iteration.
-	i := 0
-	for ; i+8 <= len(p); i += 8 {
+	for i := 0; i < n; i += 8 {
 		gv := archsimd.LoadFloat32x8Slice(g[i:])
 		mv := archsimd.LoadFloat32x8Slice(m[i:]).MulAdd(b1v, gv.Mul(c1v))
 		vv := archsimd.LoadFloat32x8Slice(v[i:]).MulAdd(b2v, gv.Mul(c2v).Mul(gv))
@@ -693,17 +680,6 @@ func adamStep256(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 		d := vv.Sqrt().MulAdd(iv, ev)
 		pv := archsimd.LoadFloat32x8Slice(p[i:])
 		pv.Sub(sv.Mul(mv).Div(d)).StoreSlice(p[i:])
-	}
-	if i < len(p) {
-		// Lanes past the end read as zero: m = v = 0, d = eps, no NaN.
-		gv := archsimd.LoadFloat32x8SlicePart(g[i:])
-		mv := archsimd.LoadFloat32x8SlicePart(m[i:]).MulAdd(b1v, gv.Mul(c1v))
-		vv := archsimd.LoadFloat32x8SlicePart(v[i:]).MulAdd(b2v, gv.Mul(c2v).Mul(gv))
-		mv.StoreSlicePart(m[i:])
-		vv.StoreSlicePart(v[i:])
-		d := vv.Sqrt().MulAdd(iv, ev)
-		pv := archsimd.LoadFloat32x8SlicePart(p[i:])
-		pv.Sub(sv.Mul(mv).Div(d)).StoreSlicePart(p[i:])
 	}
 	archsimd.ClearAVXUpperBits()
 }
