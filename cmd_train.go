@@ -115,8 +115,12 @@ func runTrain(ctx context.Context, env *runEnv, df *dataFlags, rf *recipeFlags, 
 		return err
 	}
 	if maskFile != "" {
-		if train, err = maskTrainingText(train, maskFile); err != nil {
+		var n int
+		if train, n, err = maskTrainingText(train, maskFile); err != nil {
 			return err
+		}
+		if !quiet {
+			fmt.Fprintf(env.Stderr, "mask-tokens: %d matches of the patterns in %s taken out of the training text\n", n, maskFile)
 		}
 	}
 	enc, err := corpus.TrainEncoder(rf.tokenizerConfig(), train.Texts())

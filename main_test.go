@@ -1,0 +1,191 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// runCmd runs one command line in-process and returns its exit code and output.
+func runCmd(t *testing.T, stdin string, args ...string) (int, string, string) {
+	t.Helper()
+	var out, errb bytes.Buffer
+	code := run(context.Background(), args, strings.NewReader(stdin), &out, &errb)
+	return code, out.String(), errb.String()
+}
+
+// smallDemo writes the first n lines of the demo training file (its header
+// included) to a temporary file.
+func smallDemo(t *testing.T, n int) string {
+	t.Helper()
+	b, err := os.ReadFile("testdata/demo/train.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.SplitAfter(string(b), "\n")
+	// Records may span lines; cut at a line that starts a new record.
+	var sb strings.Builder
+	count := 0
+	for _, l := range lines {
+		if count >= n && strings.HasPrefix(l, "\"") {
+			break
+		}
+		sb.WriteString(l)
+		count++
+	}
+	p := filepath.Join(t.TempDir(), "small.csv")
+	if err := os.WriteFile(p, []byte(sb.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
+}
+
+func TestUsageErrorsExitTwo(t *testing.T) {
+	cases := [][]string{
+		{},
+		{"no-such-command"},
+		{"train", "--data", "x.csv"}, // --out missing
+		{"train", "--no-such-flag"},  // unknown flag
+		{"eval", "--data", "testdata/demo/test.csv"}, // --model missing
+		{"explain", "--model", "m", "--method", "shapes"},
+		{"data"},
+	}
+	for _, args := range cases {
+		code, _, stderr := runCmd(t, "", args...)
+		if code != 2 {
+			t.Errorf("%q: exit %d, want 2 (stderr %q)", args, code, stderr)
+		}
+		if stderr == "" {
+			t.Errorf("%q: no message on stderr", args)
+		}
+	}
+}
+
+func TestRuntimeErrorsExitOneAndNameTheFile(t *testing.T) {
+	dir := t.TempDir()
+	bad := filepath.Join(dir, "bad.csv")
+	os.WriteFile(bad, []byte("text,label\n\"unclosed,spam\n"), 0o644)
+	junk := filepath.Join(dir, "junk.tt")
+	os.WriteFile(junk, []byte("not a model at all"), 0o644)
+	cases := []struct {
+		args []string
+		want string
+	}{
+		{[]string{"data", "--data", bad}, "bad.csv"},
+		{[]string{"data", "--data", filepath.Join(dir, "missing.csv")}, "missing.csv"},
+		{[]string{"eval", "--model", junk, "--data", "testdata/demo/test.csv"}, "junk.tt"},
+		{[]string{"predict", "--model", filepath.Join(dir, "none.tt"), "--text", "hello"}, "none.tt"},
+	}
+	for _, c := range cases {
+		code, _, stderr := runCmd(t, "", c.args...)
+		if code != 1 || !strings.Contains(stderr, c.want) {
+			t.Errorf("%q: exit %d, stderr %q; want exit 1 naming %q", c.args, code, stderr, c.want)
+		}
+	}
+}
+
+// TestTourContract trains a tiny model on part of the demo corpus and checks
+// the JSON contract of the commands that later checks rely on.
+func TestTourContract(t *testing.T) {
+	data := smallDemo(t, 600)
+	model := filepath.Join(t.TempDir(), "m.tt")
+	code, out, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "2", "--dim", "16",
+		"--filters", "8", "--json", "--quiet")
+	if code != 0 {
+		t.Fatalf("train: exit %d: %s", code, stderr)
+	}
+	var tr map[string]any
+	if err := json.Unmarshal([]byte(out), &tr); err != nil {
+		t.Fatalf("train --json: %v\n%s", err, out)
+	}
+	if v, ok := tr["examples_per_second"].(float64); !ok || v <= 0 {
+		t.Errorf("train --json: examples_per_second = %v", tr["examples_per_second"])
+	}
+
+	code, out, stderr = runCmd(t, "", "eval", "--model", model, "--data", "testdata/demo/test.csv", "--json")
+	if code != 0 {
+		t.Fatalf("eval: exit %d: %s", code, stderr)
+	}
+	var ev map[string]any
+	if err := json.Unmarshal([]byte(out), &ev); err != nil {
+		t.Fatal(err)
+	}
+	for _, k := range []string{"accuracy", "macro_f1", "per_class", "confusion", "ece"} {
+		if _, ok := ev[k]; !ok {
+			t.Errorf("eval --json lacks %q", k)
+		}
+	}
+	if conf := ev["confusion"].([]any); len(conf) != 5 {
+		t.Errorf("eval: confusion has %d rows, want 5 (the demo's teams)", len(conf))
+	}
+
+	code, out, stderr = runCmd(t, "first text\nsecond text about a lost bag\n", "predict", "--model", model, "--json")
+	if code != 0 {
+		t.Fatalf("predict: exit %d: %s", code, stderr)
+	}
+	lines := strings.Split(strings.TrimSpace(out), "\n")
+	if len(lines) != 2 {
+		t.Fatalf("predict: %d lines for 2 texts", len(lines))
+	}
+	for _, l := range lines {
+		var p struct {
+			Label         string             `json:"label"`
+			Probabilities map[string]float64 `json:"probabilities"`
+		}
+		if err := json.Unmarshal([]byte(l), &p); err != nil {
+			t.Fatal(err)
+		}
+		sum := 0.0
+		for _, v := range p.Probabilities {
+			sum += v
+		}
+		if p.Label == "" || len(p.Probabilities) != 5 || sum < 0.999 || sum > 1.001 {
+			t.Errorf("predict: %s", l)
+		}
+	}
+
+	text := "My bag was left on the Brindle Rose, can you help?"
+	code, out, stderr = runCmd(t, "", "explain", "--model", model, "--text", text, "--json")
+	if code != 0 {
+		t.Fatalf("explain: exit %d: %s", code, stderr)
+	}
+	var ex struct {
+		Tokens []struct {
+			Text       string `json:"text"`
+			Start, End int
+		} `json:"tokens"`
+		Label         string    `json:"label"`
+		Probabilities []float64 `json:"probabilities"`
+		Logits        []float64 `json:"logits"`
+		Bias          []float64 `json:"bias"`
+		Attributions  struct {
+			Exact     [][]float64 `json:"exact"`
+			Occlusion []float64   `json:"occlusion"`
+		} `json:"attributions"`
+	}
+	if err := json.Unmarshal([]byte(out), &ex); err != nil {
+		t.Fatal(err)
+	}
+	if len(ex.Tokens) == 0 || len(ex.Attributions.Exact) != len(ex.Tokens) || len(ex.Attributions.Occlusion) != len(ex.Tokens) {
+		t.Fatalf("explain: %d tokens, %d exact rows, %d occlusion values", len(ex.Tokens), len(ex.Attributions.Exact), len(ex.Attributions.Occlusion))
+	}
+	for _, tok := range ex.Tokens {
+		if !strings.EqualFold(text[tok.Start:tok.End], tok.Text) {
+			t.Errorf("token %q has offsets [%d,%d) = %q", tok.Text, tok.Start, tok.End, text[tok.Start:tok.End])
+		}
+	}
+	// The exact identity, through the command's JSON: bias + Σ shares = logit.
+	for c := range ex.Logits {
+		sum := ex.Bias[c]
+		for i := range ex.Tokens {
+			sum += ex.Attributions.Exact[i][c]
+		}
+		if d := sum - ex.Logits[c]; d > 1e-4 || d < -1e-4 {
+			t.Errorf("class %d: bias + shares = %v, logit %v", c, sum, ex.Logits[c])
+		}
+	}
+}
