@@ -1,0 +1,253 @@
+package report
+
+import (
+	"cmp"
+	"context"
+	"fmt"
+	"path/filepath"
+	"slices"
+	"strings"
+	"time"
+
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/explain"
+)
+
+// Options control Build. Zero values select the defaults.
+type Options struct {
+	Title     string    // default "telltale report"
+	ModelPath string    // shown in the header
+	Generated time.Time // zero: the time Build runs
+	HeldOut   string    // name of the held-out split (default "test")
+	// Examples is the number of explained examples of each kind (default 2).
+	Examples int
+	// FiltersPerClass is how many filters of each class the catalogue shows
+	// (default 4).
+	FiltersPerClass int
+	// Profile controls the filter profiles over the training split; its
+	// Progress is set by Build.
+	Profile explain.ProfileOptions
+	// Audit controls the cue audit (its Profiles and, when zero, Workers
+	// are set by Build); SkipAudit leaves the audit out.
+	Audit     explain.AuditOptions
+	SkipAudit bool
+	// Threads is the number of goroutines (0: GOMAXPROCS).
+	Threads int
+}
+
+// Progress is called during Build with the stage ("summary", "evaluate",
+// "profile", "audit …" with the audit's own stage, "explain"), the items done and the total. It may be called from
+// several goroutines and should return quickly.
+type Progress func(stage string, done, total int)
+
+// Build computes every piece of the report with the cnn, corpus and explain
+// packages and lays them out: the summary of train and heldout, the metrics
+// and reliability bins of m on heldout, the filter profiles over train and
+// explained held-out examples. Train is the split m was trained on and
+// heldout one it was not trained on (both required, with labels m knows).
+// The model must carry its vocabulary. Progress may be nil. Build returns
+// ctx.Err() when ctx is cancelled.
+func Build(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, opt Options, progress Progress) (*Report, error) {
+	in, err := Gather(ctx, m, train, heldout, opt, progress)
+	if err != nil {
+		return nil, err
+	}
+	return New(in)
+}
+
+// Gather computes the pieces Build lays out and returns them as an Input,
+// for callers that want to add to them or replace some before New.
+func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, opt Options, progress Progress) (Input, error) {
+	if m == nil {
+		return Input{}, ErrNoModel
+	}
+	if train == nil || len(train.Examples) == 0 {
+		return Input{}, fmt.Errorf("report: no training examples: the report profiles filters on the split the model was trained on")
+	}
+	if heldout == nil || len(heldout.Examples) == 0 {
+		return Input{}, fmt.Errorf("report: no held-out examples: give a split the model was not trained on (e.g. --dev FILE)")
+	}
+	if len(m.Vocab) != m.Config.VocabSize {
+		return Input{}, fmt.Errorf("report: the model holds %d vocabulary words for %d embedding rows: it cannot read text", len(m.Vocab), m.Config.VocabSize)
+	}
+	if progress == nil {
+		progress = func(string, int, int) {}
+	}
+	in := Input{Title: opt.Title, ModelPath: opt.ModelPath, Generated: opt.Generated, Model: m,
+		HeldOut: cmp.Or(opt.HeldOut, "test"), ProfiledOn: "the training split", FiltersPerClass: opt.FiltersPerClass}
+	if in.Generated.IsZero() {
+		in.Generated = time.Now()
+	}
+	tok, err := corpus.NewTokenizer(m.Tokenizer)
+	if err != nil {
+		return Input{}, fmt.Errorf("report: the model's tokenizer: %w", err)
+	}
+
+	progress("summary", 0, 1)
+	sum := corpus.Summarize(train, heldout, tok)
+	in.Summary = &sum
+	progress("summary", 1, 1)
+	if err := ctx.Err(); err != nil {
+		return Input{}, err
+	}
+
+	maxLen := 0
+	if m.Info.Recipe != nil {
+		maxLen = m.Info.Recipe.MaxLen
+	}
+	tr, err := explain.NewAuditData(m, train, maxLen, opt.Threads)
+	if err != nil {
+		return Input{}, fmt.Errorf("report: training split: %w", err)
+	}
+	ho, err := explain.NewAuditData(m, heldout, maxLen, opt.Threads)
+	if err != nil {
+		return Input{}, fmt.Errorf("report: held-out split: %w", err)
+	}
+
+	progress("evaluate", 0, len(ho.IDs))
+	probs := m.Probabilities(ho.IDs, opt.Threads)
+	pred := make([]int, len(probs))
+	conf := make([]float64, len(probs))
+	correct := make([]bool, len(probs))
+	for i, p := range probs {
+		for c, v := range p {
+			if v > p[pred[i]] {
+				pred[i] = c
+			}
+		}
+		conf[i] = float64(p[pred[i]])
+		correct[i] = pred[i] == ho.Gold[i]
+	}
+	mt := cnn.ComputeMetrics(m.Labels, ho.Gold, pred, conf, cnn.DefaultBins)
+	in.Metrics = &mt
+	in.Reliability = Reliability(conf, correct, cnn.DefaultBins)
+	progress("evaluate", len(ho.IDs), len(ho.IDs))
+	if err := ctx.Err(); err != nil {
+		return Input{}, err
+	}
+
+	popt := opt.Profile
+	popt.Progress = func(done, total int) { progress("profile", done, total) }
+	prof, err := explain.Profile(ctx, m, tr.IDs, tr.Gold, popt)
+	if err != nil {
+		return Input{}, err
+	}
+	in.Profiles = prof
+
+	if !opt.SkipAudit {
+		aopt := opt.Audit
+		aopt.Profiles = prof
+		if aopt.Workers == 0 {
+			aopt.Workers = opt.Threads
+		}
+		aud, err := explain.RunAudit(ctx, m, tr, ho, aopt, func(stage string, done, total int) { progress("audit "+stage, done, total) })
+		if err != nil {
+			return Input{}, fmt.Errorf("report: cue audit: %w", err)
+		}
+		in.Audit = aud
+	}
+
+	n := opt.Examples
+	if n <= 0 {
+		n = 2
+	}
+	picks := pickExamples(ho.Gold, pred, conf, n)
+	if in.Audit != nil {
+		picks = append(picks, conflictPicks(in.Audit, n)...)
+		if len(picks) > 0 && picks[len(picks)-1].kind != KindCueConflict {
+			in.ExamplesNote = "The cue audit found no held-out text whose cue points to another label than its gold one."
+		}
+	} else {
+		in.ExamplesNote = "Cue-conflicting examples (a cue word pointing to another label than the gold one) come from the cue audit, which was not run for this report."
+	}
+	for i, pk := range picks {
+		if err := ctx.Err(); err != nil {
+			return Input{}, err
+		}
+		progress("explain", i, len(picks))
+		e, err := explain.Explain(m, ho.Tokens[pk.index], ho.IDs[pk.index], explain.ExplainOptions{Profiles: prof, Occlusion: true})
+		if err != nil {
+			return Input{}, fmt.Errorf("report: explaining %s: %w", heldout.Where(heldout.Examples[pk.index]), err)
+		}
+		note := where(heldout, pk.index)
+		if pk.note != "" {
+			note = pk.note + "; " + note
+		}
+		in.Examples = append(in.Examples, Example{Kind: pk.kind, Text: ho.Texts[pk.index], Gold: m.Labels[ho.Gold[pk.index]],
+			Note: note, Explanation: e})
+	}
+	progress("explain", len(picks), len(picks))
+	return in, nil
+}
+
+// where names a held-out example by file base name and line.
+func where(d *corpus.Dataset, i int) string {
+	e := d.Examples[i]
+	if e.File != "" {
+		return e.File
+	}
+	return fmt.Sprintf("%s line %d", filepath.Base(d.Path), e.Line)
+}
+
+type pick struct {
+	kind  ExampleKind
+	index int
+	note  string
+}
+
+// pickExamples chooses up to n correct texts (the first of each gold label
+// in split order, so that several labels are shown) and the n wrong texts
+// the model was most confident about (ties: split order).
+func pickExamples(gold, pred []int, conf []float64, n int) []pick {
+	var out []pick
+	seen := map[int]bool{}
+	for i := range gold {
+		if len(seen) == n {
+			break
+		}
+		if gold[i] == pred[i] && !seen[gold[i]] {
+			seen[gold[i]] = true
+			out = append(out, pick{kind: KindCorrect, index: i})
+		}
+	}
+	var wrong []int
+	for i := range gold {
+		if gold[i] != pred[i] {
+			wrong = append(wrong, i)
+		}
+	}
+	slices.SortStableFunc(wrong, func(a, b int) int { return cmp.Compare(conf[b], conf[a]) })
+	for _, i := range wrong[:min(n, len(wrong))] {
+		out = append(out, pick{kind: KindWrong, index: i})
+	}
+	return out
+}
+
+// conflictPicks takes up to n cue-conflicting held-out texts from the audit's
+// suspects, highest score first: first the quoted ones (where masking the
+// filter changed the prediction), then the rest of each subset.
+func conflictPicks(a *explain.Audit, n int) []pick {
+	var out []pick
+	seen := map[int]bool{}
+	add := func(s explain.Suspect, i int) {
+		if len(out) < n && !seen[i] {
+			seen[i] = true
+			cues := make([]string, len(s.Cues))
+			for k, c := range s.Cues {
+				cues[k] = c.Token
+			}
+			out = append(out, pick{kind: KindCueConflict, index: i,
+				note: fmt.Sprintf("cue %s points to %s (filter %d)", strings.Join(cues, ", "), s.Conflict.CueLabel, s.Filter)})
+		}
+	}
+	for _, s := range a.Filters {
+		for _, e := range s.Examples.Conflict {
+			add(s, e.Index)
+		}
+		for _, i := range s.Conflict.Indices {
+			add(s, i)
+		}
+	}
+	return out
+}

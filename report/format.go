@@ -1,0 +1,77 @@
+package report
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+)
+
+// Number formats used throughout the page (common practice, no source):
+// shares and rates as percentages with one decimal, scores with three
+// decimals, signed values always with their sign.
+
+func pct(x float64) string {
+	if math.IsNaN(x) {
+		return "–"
+	}
+	return strconv.FormatFloat(100*x, 'f', 1, 64) + "%"
+}
+
+func num(x float64) string {
+	switch {
+	case math.IsNaN(x):
+		return "–"
+	case math.IsInf(x, 1):
+		return "none"
+	case math.IsInf(x, -1):
+		return "-inf"
+	}
+	return strconv.FormatFloat(x, 'f', 3, 64)
+}
+
+func signed(x float64) string {
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return num(x)
+	}
+	s := strconv.FormatFloat(x, 'f', 3, 64)
+	if s == "-0.000" {
+		s = "0.000"
+	}
+	if s[0] != '-' {
+		s = "+" + s
+	}
+	return s
+}
+
+func count(n int) string {
+	s := strconv.Itoa(n)
+	neg := n < 0
+	if neg {
+		s = s[1:]
+	}
+	// Thin grouping with a comma every three digits.
+	var out []byte
+	for i := range len(s) {
+		if i > 0 && (len(s)-i)%3 == 0 {
+			out = append(out, ',')
+		}
+		out = append(out, s[i])
+	}
+	if neg {
+		return "-" + string(out)
+	}
+	return string(out)
+}
+
+func ints(v []int) string {
+	s := ""
+	for i, x := range v {
+		if i > 0 {
+			s += ", "
+		}
+		s += strconv.Itoa(x)
+	}
+	return s
+}
+
+func floatf(format string, x float64) string { return fmt.Sprintf(format, x) }

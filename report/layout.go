@@ -1,0 +1,618 @@
+package report
+
+import (
+	"cmp"
+	"fmt"
+	"html/template"
+	"math"
+	"slices"
+	"strings"
+
+	"telltale/corpus"
+	"telltale/explain"
+)
+
+// page is everything the template shows, already formatted.
+type page struct {
+	Title, Generated, ModelPath string
+	Glance                      []kv
+	Summary                     *summaryView
+	Recipe                      recipeView
+	Metrics                     *metricsView
+	Filters                     *filtersView
+	Audit                       *auditView
+	Examples                    []exampleView
+	ExamplesNote                string
+	Notes                       []string
+	Labels                      []string
+}
+
+type kv struct{ Key, Value string }
+
+type summaryView struct {
+	Labels              []string
+	Splits              []splitRow
+	Vocab, OOV          string
+	HasTest             bool
+	Exact, Near, Leaks  string
+	Duplicates          []dupRow
+	MoreDuplicates      int
+	ExactShown, NearAll int
+}
+
+type splitRow struct {
+	Name, Path, Examples string
+	PerLabel             []string // "count (share)" by label
+	P50, P90, P99, Max   string
+}
+
+type dupRow struct {
+	Kind, Text, Members string
+	Flags               []string
+}
+
+type recipeView struct {
+	Arch, Train []kv
+	Epochs      []epochRow
+	Created     string
+}
+
+type epochRow struct {
+	Epoch, Loss, DevAcc, DevF1, Speed string
+	Best                              bool
+}
+
+type metricsView struct {
+	Split, N, Accuracy, MacroF1, WeightedF1, ECE string
+	Rows                                         []classRow
+	Labels                                       []string
+	Confusion                                    [][]heatCell
+	ConfusionImg, ReliabilityImg                 template.URL
+	ConfusionAlt, ReliabilityAlt                 string
+	Bins                                         []binRow
+}
+
+type classRow struct{ Label, Precision, Recall, F1, Support string }
+
+type binRow struct{ Range, Count, Confidence, Accuracy, Gap string }
+
+// heatCell is a coloured cell or token with its value as text.
+type heatCell struct {
+	Text  string
+	Style template.CSS // background and ink, built from palette colours only
+	Title string
+}
+
+type filtersView struct {
+	ProfiledOn, Texts, Purity string
+	Total, Idle, Shown        int
+	PerClass                  int
+	Groups                    []filterGroup
+	Legend                    legend
+}
+
+type filterGroup struct {
+	Label   string
+	Filters []filterCard
+}
+
+type filterCard struct {
+	ID, Width                    int
+	Label, Margin, Threshold     string
+	ThresholdNote                string
+	Above, Purity, Fired, MaxAct string
+	Ngrams                       []ngramRow
+	Families                     []familyRow
+	Slots                        []slotRow
+	Scale                        string
+}
+
+type ngramRow struct {
+	Cells                   []heatCell
+	Activation, Count, Pred string
+}
+
+type familyRow struct{ Pattern, Ngrams, Count, Members string }
+
+type slotRow struct {
+	Slot                  int
+	Triggers, Suppressors string
+}
+
+type legend struct {
+	Swatches []heatCell
+	Lo, Hi   string
+}
+
+type exampleView struct {
+	Kind, KindClass, Gold, Pred, Confidence, Note string
+	Correct                                       bool
+	Segments                                      []heatCell
+	Legend                                        legend
+	Probs                                         []kv
+	Identity                                      string
+	Tokens                                        []tokenRow
+	HasOcclusion                                  bool
+	Fired                                         []firedRow
+}
+
+type tokenRow struct{ Index, Token, Share, Occlusion string }
+
+type firedRow struct{ Filter, Window, Activation, Contribution, Family string }
+
+func layout(in Input) (*page, error) {
+	m := in.Model
+	p := &page{Title: in.Title, ModelPath: in.ModelPath, Notes: in.Notes, Labels: m.Labels}
+	if p.Title == "" {
+		p.Title = "telltale report"
+	}
+	if !in.Generated.IsZero() {
+		p.Generated = in.Generated.Format("2006-01-02 15:04 MST")
+	}
+	p.Recipe = recipe(in)
+	if in.Summary != nil {
+		p.Summary = summary(in.Summary)
+	}
+	if in.Metrics != nil {
+		mv, err := metrics(in)
+		if err != nil {
+			return nil, err
+		}
+		p.Metrics = mv
+		p.Glance = append(p.Glance,
+			kv{"Held-out split", fmt.Sprintf("%s, %s texts", mv.Split, mv.N)},
+			kv{"Accuracy", mv.Accuracy}, kv{"Macro-F1", mv.MacroF1}, kv{"ECE", mv.ECE})
+	}
+	p.Glance = append(p.Glance, kv{"Filters", count(m.Config.NumFilters())}, kv{"Vocabulary", count(m.Config.VocabSize)})
+	if in.Profiles != nil {
+		fv, err := filters(in)
+		if err != nil {
+			return nil, err
+		}
+		p.Filters = fv
+	}
+	if in.Audit != nil {
+		p.Audit = auditLayout(in.Audit)
+	}
+	p.ExamplesNote = in.ExamplesNote
+	for i, ex := range in.Examples {
+		ev, err := example(in, ex)
+		if err != nil {
+			return nil, fmt.Errorf("report: example %d: %w", i+1, err)
+		}
+		p.Examples = append(p.Examples, ev)
+	}
+	return p, nil
+}
+
+func recipe(in Input) recipeView {
+	m := in.Model
+	c := m.Config
+	widths := make([]string, len(c.Widths))
+	for i, w := range c.Widths {
+		widths[i] = fmt.Sprint(w)
+	}
+	rv := recipeView{Arch: []kv{
+		{"Embedding dimension", fmt.Sprint(c.Dim)},
+		{"Filter widths", strings.Join(widths, ", ")},
+		{"Filters per width", fmt.Sprint(c.Filters)},
+		{"Classes", fmt.Sprintf("%d (%s)", c.Classes, strings.Join(m.Labels, ", "))},
+		{"Vocabulary", count(c.VocabSize) + " entries, padding and unknown included"},
+		{"Dropout", num(float64(c.Dropout))},
+		{"Max norm of output rows", maxNorm(c.MaxNorm)},
+	}}
+	if masked := maskedCount(m.Masked); masked > 0 {
+		rv.Arch = append(rv.Arch, kv{"Masked filters", fmt.Sprint(masked)})
+	}
+	info := m.Info
+	rv.Created = info.Created
+	if r := info.Recipe; r != nil {
+		rv.Train = []kv{
+			{"Optimizer", r.Optimizer},
+			{"Learning rate", fmt.Sprint(r.LR)},
+			{"Epochs (at most)", fmt.Sprint(r.Epochs)},
+			{"Batch size", fmt.Sprint(r.Batch)},
+			{"Early-stopping patience", fmt.Sprint(r.Patience)},
+			{"Longest text kept", maxLen(r.MaxLen)},
+			{"Embeddings frozen", yesNo(r.FreezeEmb)},
+			{"Seed", fmt.Sprint(r.Seed)},
+		}
+	}
+	if info.BestEpoch > 0 {
+		rv.Train = append(rv.Train, kv{"Weights kept from epoch", fmt.Sprint(info.BestEpoch)})
+	}
+	if info.ExamplesPerSec > 0 {
+		rv.Train = append(rv.Train, kv{"Training speed (steady state)", count(int(math.Round(info.ExamplesPerSec))) + " texts/s"})
+	}
+	keys := make([]string, 0, len(info.Notes))
+	for k := range info.Notes {
+		keys = append(keys, k)
+	}
+	slices.Sort(keys)
+	for _, k := range keys {
+		rv.Train = append(rv.Train, kv{k, info.Notes[k]})
+	}
+	for _, e := range info.Epochs {
+		row := epochRow{Epoch: fmt.Sprint(e.Epoch), Loss: num(e.Loss), DevAcc: "–", DevF1: "–",
+			Speed: count(int(math.Round(e.ExamplesPerSec))), Best: e.Epoch == info.BestEpoch}
+		if e.Dev != nil {
+			row.DevAcc, row.DevF1 = pct(e.Dev.Accuracy), num(e.Dev.MacroF1)
+		}
+		rv.Epochs = append(rv.Epochs, row)
+	}
+	return rv
+}
+
+func maxNorm(v float32) string {
+	if v == 0 {
+		return "off"
+	}
+	return num(float64(v))
+}
+
+func maxLen(n int) string {
+	if n <= 0 {
+		return "whole text"
+	}
+	return fmt.Sprintf("%d tokens", n)
+}
+
+func yesNo(b bool) string {
+	if b {
+		return "yes"
+	}
+	return "no"
+}
+
+func maskedCount(m []bool) int {
+	n := 0
+	for _, b := range m {
+		if b {
+			n++
+		}
+	}
+	return n
+}
+
+func summary(s *corpus.Summary) *summaryView {
+	sv := &summaryView{Labels: s.Labels, Vocab: count(s.VocabSize), OOV: pct(s.TestOOVRate),
+		Exact: count(s.ExactGroups), Near: count(s.NearGroups), Leaks: count(s.Leaks)}
+	for _, sp := range s.Splits {
+		row := splitRow{Name: sp.Name, Path: sp.Path, Examples: count(sp.Examples),
+			P50: fmt.Sprint(sp.TokenLength.P50), P90: fmt.Sprint(sp.TokenLength.P90),
+			P99: fmt.Sprint(sp.TokenLength.P99), Max: fmt.Sprint(sp.TokenLength.Max)}
+		for _, l := range s.Labels {
+			row.PerLabel = append(row.PerLabel, fmt.Sprintf("%s (%s)", count(sp.PerLabel[l]), pct(sp.Balance[l])))
+		}
+		if sp.Name != "train" {
+			sv.HasTest = true
+		}
+		sv.Splits = append(sv.Splits, row)
+	}
+	const most = 8
+	add := func(kind string, gs []corpus.DuplicateGroup) {
+		for _, g := range gs {
+			if len(sv.Duplicates) == most {
+				sv.MoreDuplicates++
+				continue
+			}
+			row := dupRow{Kind: kind, Text: g.Text, Members: locations(g.Members)}
+			if g.CrossSplit {
+				row.Flags = append(row.Flags, "in train and test")
+			}
+			if g.LabelConflict {
+				row.Flags = append(row.Flags, "labels differ")
+			}
+			sv.Duplicates = append(sv.Duplicates, row)
+		}
+	}
+	add("exact", s.ExactDuplicates)
+	add("near", s.NearDuplicates)
+	return sv
+}
+
+func locations(ls []corpus.Location) string {
+	const most = 4
+	parts := make([]string, 0, most+1)
+	for i, l := range ls {
+		if i == most {
+			parts = append(parts, fmt.Sprintf("… %d more", len(ls)-most))
+			break
+		}
+		where := l.Split
+		switch {
+		case l.File != "":
+			where += " " + l.File
+		case l.Line > 0:
+			where += fmt.Sprintf(" line %d", l.Line)
+		}
+		parts = append(parts, where+" ("+l.Label+")")
+	}
+	return strings.Join(parts, "; ")
+}
+
+func metrics(in Input) (*metricsView, error) {
+	mt := in.Metrics
+	k := len(mt.Labels)
+	if len(mt.Confusion) != k || len(mt.PerClass) != k {
+		return nil, fmt.Errorf("report: metrics have %d labels, %d confusion rows and %d class rows", k, len(mt.Confusion), len(mt.PerClass))
+	}
+	split := in.HeldOut
+	if split == "" {
+		split = "held-out"
+	}
+	mv := &metricsView{Split: split, N: count(mt.N), Accuracy: pct(mt.Accuracy), MacroF1: num(mt.MacroF1),
+		WeightedF1: num(mt.WeightedF1), ECE: num(mt.ECE), Labels: mt.Labels}
+	for _, c := range mt.PerClass {
+		mv.Rows = append(mv.Rows, classRow{c.Label, num(c.Precision), num(c.Recall), num(c.F1), count(c.Support)})
+	}
+	most := 0
+	for _, row := range mt.Confusion {
+		if len(row) != k {
+			return nil, fmt.Errorf("report: confusion matrix row of %d cells, want %d", len(row), k)
+		}
+		for _, v := range row {
+			most = max(most, v)
+		}
+	}
+	for g, row := range mt.Confusion {
+		cells := make([]heatCell, k)
+		for p, v := range row {
+			bg := sequentialAt(float64(v), float64(most))
+			cells[p] = heatCell{Text: count(v), Style: cellStyle(bg),
+				Title: fmt.Sprintf("gold %s, predicted %s: %d", mt.Labels[g], mt.Labels[p], v)}
+		}
+		mv.Confusion = append(mv.Confusion, cells)
+	}
+	img, err := confusionPlot(mt.Labels, mt.Confusion)
+	if err != nil {
+		return nil, err
+	}
+	mv.ConfusionImg = img
+	mv.ConfusionAlt = fmt.Sprintf("Confusion matrix of %d texts: rows are gold labels, columns predicted labels; the table beside it holds the same counts.", mt.N)
+	if len(in.Reliability) > 0 {
+		img, err := reliabilityPlot(in.Reliability)
+		if err != nil {
+			return nil, err
+		}
+		mv.ReliabilityImg = img
+		mv.ReliabilityAlt = "Reliability diagram: accuracy against mean confidence per confidence bin; the table below holds the same values."
+		for _, b := range in.Reliability {
+			if b.Count == 0 {
+				continue
+			}
+			mv.Bins = append(mv.Bins, binRow{Range: fmt.Sprintf("(%.2f, %.2f]", b.Lo, b.Hi), Count: count(b.Count),
+				Confidence: num(b.Confidence), Accuracy: num(b.Accuracy), Gap: signed(b.Accuracy - b.Confidence)})
+		}
+	}
+	return mv, nil
+}
+
+func cellStyle(bg rgb) template.CSS {
+	return template.CSS("background:" + bg.css() + ";color:" + ink(bg))
+}
+
+// newLegend lays out the diverging scale from −scale to +scale.
+func newLegend(scale float64, lo, hi string) legend {
+	lg := legend{Lo: lo, Hi: hi}
+	n := len(diverging)
+	for i := range n {
+		v := scale * (2*float64(i)/float64(n-1) - 1)
+		bg := divergingAt(v, scale)
+		lg.Swatches = append(lg.Swatches, heatCell{Style: cellStyle(bg), Title: signed(v)})
+	}
+	return lg
+}
+
+func filters(in Input) (*filtersView, error) {
+	pr := in.Profiles
+	m := in.Model
+	if len(pr.Filters) != m.Config.NumFilters() {
+		return nil, fmt.Errorf("report: profiles describe %d filters, the model has %d", len(pr.Filters), m.Config.NumFilters())
+	}
+	per := in.FiltersPerClass
+	if per <= 0 {
+		per = 4
+	}
+	on := in.ProfiledOn
+	if on == "" {
+		on = "the profiled corpus"
+	}
+	fv := &filtersView{ProfiledOn: on, Texts: count(pr.Texts), Purity: pct(pr.Purity), Total: len(pr.Filters), PerClass: per}
+	byClass := make([][]explain.FilterProfile, len(m.Labels))
+	for _, f := range pr.Filters {
+		if f.Idle {
+			fv.Idle++
+			continue
+		}
+		if f.Class < 0 || f.Class >= len(byClass) {
+			return nil, fmt.Errorf("report: filter %d votes for class %d of %d", f.Filter, f.Class, len(byClass))
+		}
+		byClass[f.Class] = append(byClass[f.Class], f)
+	}
+	for c, fs := range byClass {
+		// Most windows above the purity threshold first, then filter number.
+		slices.SortStableFunc(fs, func(a, b explain.FilterProfile) int {
+			return cmp.Or(cmp.Compare(b.Above, a.Above), cmp.Compare(a.Filter, b.Filter))
+		})
+		g := filterGroup{Label: m.Labels[c]}
+		for _, f := range fs[:min(per, len(fs))] {
+			card := filterCardOf(f)
+			g.Filters = append(g.Filters, card)
+			fv.Shown++
+		}
+		fv.Groups = append(fv.Groups, g)
+	}
+	fv.Legend = newLegend(1, "switches off", "drives up")
+	return fv, nil
+}
+
+// filterCardOf lays out one filter; the largest absolute slot score shown
+// sets the card's colour scale.
+func filterCardOf(f explain.FilterProfile) filterCard {
+	card := filterCard{ID: f.Filter, Width: f.Width, Label: f.Label, Margin: signed(f.Margin),
+		Threshold: num(f.Threshold), Above: count(f.Above), Purity: pct(f.AbovePurity),
+		Fired: count(f.Fired), MaxAct: num(f.MaxActivation)}
+	if !f.ThresholdExact && !math.IsInf(f.Threshold, 0) {
+		card.ThresholdNote = "at a histogram bin edge"
+	}
+	const shown = 6
+	ngrams := f.TopNgrams[:min(shown, len(f.TopNgrams))]
+	var scale float64
+	for _, ng := range ngrams {
+		for _, s := range ng.Slots {
+			scale = max(scale, math.Abs(s))
+		}
+	}
+	for _, ng := range ngrams {
+		row := ngramRow{Activation: num(ng.Activation), Count: count(ng.Count), Pred: ints(ng.ByPred)}
+		for s, tok := range ng.Tokens {
+			v := math.NaN()
+			if s < len(ng.Slots) {
+				v = ng.Slots[s]
+			}
+			bg := divergingAt(v, scale)
+			row.Cells = append(row.Cells, heatCell{Text: tok, Style: cellStyle(bg),
+				Title: fmt.Sprintf("slot %d: %s", s+1, signed(v))})
+		}
+		card.Ngrams = append(card.Ngrams, row)
+	}
+	card.Scale = num(scale)
+	for _, fam := range f.Families {
+		members := make([]string, 0, len(fam.Members))
+		for _, mb := range fam.Members[:min(3, len(fam.Members))] {
+			members = append(members, strings.Join(mb, " "))
+		}
+		card.Families = append(card.Families, familyRow{Pattern: fam.Pattern, Ngrams: count(fam.Ngrams),
+			Count: count(fam.Count), Members: strings.Join(members, " · ")})
+	}
+	for _, sw := range f.Slots {
+		card.Slots = append(card.Slots, slotRow{Slot: sw.Slot + 1, Triggers: words(sw.Triggers), Suppressors: words(sw.Suppressors)})
+	}
+	return card
+}
+
+func words(ws []explain.WordScore) string {
+	const most = 5
+	parts := make([]string, 0, most)
+	for _, w := range ws[:min(most, len(ws))] {
+		parts = append(parts, w.Word+" "+signed(w.Score))
+	}
+	if len(parts) == 0 {
+		return "–"
+	}
+	return strings.Join(parts, ", ")
+}
+
+func example(in Input, ex Example) (exampleView, error) {
+	e := ex.Explanation
+	if e == nil {
+		return exampleView{}, fmt.Errorf("no explanation")
+	}
+	C := len(e.Labels)
+	if e.Class < 0 || e.Class >= C || len(e.Logits) != C || len(e.Bias) != C || len(e.Probabilities) != C {
+		return exampleView{}, fmt.Errorf("explanation of %d labels has class %d, %d logits, %d biases, %d probabilities",
+			C, e.Class, len(e.Logits), len(e.Bias), len(e.Probabilities))
+	}
+	if len(e.Attributions.Exact) != len(e.Tokens) {
+		return exampleView{}, fmt.Errorf("%d tokens but %d exact shares", len(e.Tokens), len(e.Attributions.Exact))
+	}
+	occ := e.Attributions.Occlusion
+	if occ != nil && len(occ) != len(e.Tokens) {
+		return exampleView{}, fmt.Errorf("%d tokens but %d occlusion values", len(e.Tokens), len(occ))
+	}
+	c := e.Class
+	ev := exampleView{Kind: string(ex.Kind), KindClass: kindClass(ex.Kind), Gold: ex.Gold, Pred: e.Label,
+		Confidence: pct(e.Probabilities[c]), Note: ex.Note, Correct: ex.Gold == e.Label, HasOcclusion: occ != nil}
+	share := make([]float64, len(e.Tokens))
+	var scale, sum float64
+	for i, row := range e.Attributions.Exact {
+		if len(row) != C {
+			return exampleView{}, fmt.Errorf("token %d has %d shares, want %d", i, len(row), C)
+		}
+		share[i] = row[c]
+		sum += row[c]
+		scale = max(scale, math.Abs(row[c]))
+	}
+	ev.Legend = newLegend(scale, "against "+e.Label+" "+signed(-scale), "for "+e.Label+" "+signed(scale))
+	ev.Identity = fmt.Sprintf("bias %s + token shares %s = logit %s", signed(e.Bias[c]), signed(sum), signed(e.Logits[c]))
+	ev.Segments = paint(ex.Text, e.Tokens, share, scale, e.Label)
+	for k, l := range e.Labels {
+		ev.Probs = append(ev.Probs, kv{l, pct(e.Probabilities[k])})
+	}
+	order := make([]int, len(share))
+	for i := range order {
+		order[i] = i
+	}
+	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(math.Abs(share[b]), math.Abs(share[a])) })
+	for _, i := range order[:min(6, len(order))] {
+		row := tokenRow{Index: fmt.Sprint(i + 1), Token: e.Tokens[i].Text, Share: signed(share[i])}
+		if occ != nil {
+			row.Occlusion = signed(occ[i])
+		}
+		ev.Tokens = append(ev.Tokens, row)
+	}
+	fired := slices.Clone(e.Filters)
+	slices.SortStableFunc(fired, func(a, b explain.FiredFilter) int {
+		return cmp.Compare(math.Abs(b.Contribution[c]), math.Abs(a.Contribution[c]))
+	})
+	for _, f := range fired[:min(5, len(fired))] {
+		toks := make([]string, 0, f.Width)
+		for i := f.Start; i < f.Start+f.Width; i++ {
+			if i < len(e.Tokens) {
+				toks = append(toks, e.Tokens[i].Text)
+			} else {
+				toks = append(toks, corpus.PADWord)
+			}
+		}
+		fr := firedRow{Filter: fmt.Sprintf("%d (width %d)", f.Filter, f.Width), Window: strings.Join(toks, " "),
+			Activation: num(f.Activation), Contribution: signed(f.Contribution[c]), Family: "–"}
+		if in.Profiles != nil && f.Family >= 0 && f.Filter < len(in.Profiles.Filters) {
+			if fams := in.Profiles.Filters[f.Filter].Families; f.Family < len(fams) {
+				fr.Family = fams[f.Family].Pattern
+			}
+		}
+		ev.Fired = append(ev.Fired, fr)
+	}
+	return ev, nil
+}
+
+func kindClass(k ExampleKind) string {
+	switch k {
+	case KindCorrect:
+		return "ok"
+	case KindWrong:
+		return "bad"
+	default:
+		return "cue"
+	}
+}
+
+// paint splits text into plain gaps and coloured tokens, using the token
+// offsets. A token whose span does not fit (missing offsets, or a subword
+// piece sharing its word's span) is shown by its own text.
+func paint(text string, toks []explain.TokenSpan, share []float64, scale float64, label string) []heatCell {
+	var out []heatCell
+	pos := 0
+	for i, t := range toks {
+		bg := divergingAt(share[i], scale)
+		cell := heatCell{Style: cellStyle(bg), Title: fmt.Sprintf("%s: %s toward %s", t.Text, signed(share[i]), label)}
+		if t.Start >= pos && t.Start < t.End && t.End <= len(text) {
+			if t.Start > pos {
+				out = append(out, heatCell{Text: text[pos:t.Start]})
+			}
+			cell.Text = text[t.Start:t.End]
+			pos = t.End
+		} else {
+			if len(out) > 0 && pos == 0 {
+				out = append(out, heatCell{Text: " "})
+			}
+			cell.Text = t.Text
+		}
+		out = append(out, cell)
+	}
+	if pos < len(text) && (pos > 0 || len(toks) == 0) {
+		out = append(out, heatCell{Text: text[pos:]})
+	}
+	return out
+}

@@ -1,0 +1,216 @@
+package report
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"html"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"testing"
+)
+
+func render(t *testing.T, r *Report) string {
+	t.Helper()
+	var buf bytes.Buffer
+	if err := r.WriteHTML(&buf); err != nil {
+		t.Fatal(err)
+	}
+	return buf.String()
+}
+
+// TestDemoSections checks that a report of a real (tiny) model holds every
+// section, that its numbers are the ones computed by cnn and explain, and
+// that it references nothing outside the file.
+func TestDemoSections(t *testing.T) {
+	d := loadDemo(t)
+	raw := render(t, d.report)
+	checkSelfContained(t, raw)
+	// Compare the text as a browser reads it: html/template writes "+" as
+	// "&#43;", quotes as "&#34;".
+	out := html.UnescapeString(raw)
+	for _, id := range []string{"data", "recipe", "metrics", "filters", "audit", "examples", "caution"} {
+		if !strings.Contains(out, `<section id="`+id+`">`) {
+			t.Errorf("section %q missing", id)
+		}
+	}
+	mt := d.input.Metrics
+	want := []string{
+		"<title>Ferry desk demo</title>",
+		"Accuracy</span><span class=\"v\">" + pct(mt.Accuracy) + "<",
+		"Macro-F1</span><span class=\"v\">" + num(mt.MacroF1) + "<",
+		"ECE</span><span class=\"v\">" + num(mt.ECE) + "<",
+		"test, 300 texts",
+		"expected calibration error " + num(mt.ECE),
+		// the training record
+		"<th>Filter widths</th><td>2, 3</td>",
+		"<th>Optimizer</th><td>adam</td>",
+		"Never use this model, or this report, as the only basis for a decision about a person.",
+	}
+	for _, c := range mt.PerClass {
+		want = append(want, "<td>"+c.Label+"</td><td class=\"num\">"+num(c.Precision)+"</td><td class=\"num\">"+num(c.Recall)+"</td><td class=\"num\">"+num(c.F1)+"</td><td class=\"num\">"+count(c.Support)+"</td>")
+	}
+	for g, row := range mt.Confusion {
+		for p, v := range row {
+			want = append(want, `title="gold `+mt.Labels[g]+`, predicted `+mt.Labels[p]+`: `+count(v)+`">`+count(v)+`</td>`)
+		}
+	}
+	for _, sp := range d.input.Summary.Splits {
+		want = append(want, `<td class="num">`+count(sp.Examples)+`</td>`)
+	}
+	for _, w := range want {
+		if !strings.Contains(out, w) {
+			t.Errorf("output lacks %q", w)
+		}
+	}
+	// The audit: its flagged words with their numbers, its suspects with
+	// every part of their score.
+	a := d.input.Audit
+	if a == nil {
+		t.Fatal("Gather did not run the audit")
+	}
+	for _, tk := range a.Tokens[:min(15, len(a.Tokens))] {
+		w := "<td><code>" + tk.Token + "</code></td><td class=\"num\">" + count(tk.Count) + "</td><td>" + tk.Label + "</td><td class=\"num\">" + pct(tk.Share) + "</td><td class=\"num\">" + floatf("%.1f", tk.Z) + "</td>"
+		if !strings.Contains(out, w) {
+			t.Errorf("flagged token row %q missing", w)
+		}
+	}
+	for _, s := range a.Filters[:min(suspectsShown, len(a.Filters))] {
+		w := fmt.Sprintf("Filter %d · width %d · votes %s · score %s = %s × %s", s.Filter, s.Width, s.Label, num(s.Score), pct(s.Parts.FlaggedShare), signed(s.Parts.Push))
+		if !strings.Contains(out, w) {
+			t.Errorf("suspect heading %q missing", w)
+		}
+	}
+	if got, want := strings.Count(out, `<div class="suspect">`), min(suspectsShown, len(a.Filters)); got != want {
+		t.Errorf("%d suspects shown, want %d", got, want)
+	}
+	// The demo corpus plants two cues (testdata/demo/README.md): the
+	// footer word "kioskmail" and the stamp word "tkref". Both must be
+	// flagged even on this slice of the corpus, and shown.
+	for _, cue := range []string{"kioskmail", "tkref"} {
+		if !strings.Contains(out, "<td><code>"+cue+"</code></td>") {
+			t.Errorf("planted cue %q not among the flagged words shown", cue)
+		}
+	}
+	// Examples: every kind present in the input is shown with its numbers.
+	if len(d.input.Examples) == 0 {
+		t.Fatal("no examples gathered")
+	}
+	for _, ex := range d.input.Examples {
+		e := ex.Explanation
+		sum := 0.0
+		for _, row := range e.Attributions.Exact {
+			sum += row[e.Class]
+		}
+		id := "bias " + signed(e.Bias[e.Class]) + " + token shares " + signed(sum) + " = logit " + signed(e.Logits[e.Class])
+		if !strings.Contains(out, id) {
+			t.Errorf("identity line %q missing", id)
+		}
+		// The exact decomposition shown must hold (explain's identity).
+		if d := e.Bias[e.Class] + sum - e.Logits[e.Class]; d > 1e-4 || d < -1e-4 {
+			t.Errorf("shown identity off by %g", d)
+		}
+	}
+	if got := strings.Count(out, `<div class="example">`); got != len(d.input.Examples) {
+		t.Errorf("%d example blocks, want %d", got, len(d.input.Examples))
+	}
+	if got := strings.Count(out, `<div class="card">`); got == 0 {
+		t.Error("no filter cards")
+	}
+}
+
+// checkSelfContained asserts that out has no script, no reference to
+// another file or host, and that every src is a data: URL.
+func checkSelfContained(t *testing.T, out string) {
+	t.Helper()
+	low := strings.ToLower(out)
+	for _, bad := range []string{"<script", "http:", "https:", "@import", "url(", "<iframe", "<object", "<embed", "stylesheet"} {
+		if strings.Contains(low, bad) {
+			t.Errorf("output contains %q", bad)
+		}
+	}
+	for _, m := range regexp.MustCompile(`(?:src|href)="([^"]*)"`).FindAllStringSubmatch(out, -1) {
+		u := m[1]
+		if !strings.HasPrefix(u, "data:") && !strings.HasPrefix(u, "#") {
+			t.Errorf("reference to %q", u)
+		}
+	}
+}
+
+// TestAbsentPieces checks that a report with only a model says, section by
+// section, what was not computed, and shows no made-up numbers.
+func TestAbsentPieces(t *testing.T) {
+	d := loadDemo(t)
+	r, err := New(Input{Model: d.model})
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := render(t, r)
+	for _, w := range []string{
+		"The dataset summary was not computed for this report.",
+		"The model was not evaluated on a held-out split for this report.",
+		"Filter profiles were not computed for this report.",
+		"The cue audit (flagged words, suspect filters, ablation, counterfactual substitution) was not run for this report",
+		"No examples were explained for this report.",
+	} {
+		if !strings.Contains(out, w) {
+			t.Errorf("output lacks %q", w)
+		}
+	}
+	for _, bad := range []string{"data:image", `class="suspect"`, `class="card"`, `class="example"`, "Accuracy</span>"} {
+		if strings.Contains(out, bad) {
+			t.Errorf("report without pieces contains %q", bad)
+		}
+	}
+}
+
+func TestNewNeedsModel(t *testing.T) {
+	if _, err := New(Input{}); !errors.Is(err, ErrNoModel) {
+		t.Fatalf("New without model: %v, want ErrNoModel", err)
+	}
+}
+
+func TestGatherNeedsHeldOut(t *testing.T) {
+	d := loadDemo(t)
+	if _, err := Gather(context.Background(), d.model, d.train, nil, Options{}, nil); err == nil || !strings.Contains(err.Error(), "--dev") {
+		t.Fatalf("Gather without held-out split: %v, want an error naming --dev", err)
+	}
+}
+
+func TestGatherCancelled(t *testing.T) {
+	d := loadDemo(t)
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	if _, err := Gather(ctx, d.model, d.train, d.test, Options{}, nil); !errors.Is(err, context.Canceled) {
+		t.Fatalf("cancelled Gather: %v, want context.Canceled", err)
+	}
+}
+
+func TestWriteFileAtomic(t *testing.T) {
+	d := loadDemo(t)
+	dir := t.TempDir()
+	path := filepath.Join(dir, "report.html")
+	if err := os.WriteFile(path, []byte("old"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := WriteFile(path, d.report); err != nil {
+		t.Fatal(err)
+	}
+	got, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if string(got) != render(t, d.report) {
+		t.Error("file differs from WriteHTML's output")
+	}
+	entries, _ := os.ReadDir(dir)
+	if len(entries) != 1 {
+		t.Errorf("folder holds %d entries after writing, want only the report", len(entries))
+	}
+	if err := WriteFile(filepath.Join(dir, "missing", "r.html"), d.report); err == nil {
+		t.Error("writing into a missing folder succeeded")
+	}
+}
