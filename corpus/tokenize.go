@@ -16,6 +16,7 @@ import (
 	"github.com/sugarme/tokenizer/model/wordpiece"
 	"github.com/sugarme/tokenizer/normalizer"
 	"github.com/sugarme/tokenizer/pretrained"
+	"golang.org/x/text/unicode/norm"
 )
 
 // TokenizerConfig describes a tokenizer completely; it round-trips through
@@ -49,12 +50,12 @@ type TokenizerConfig struct {
 // Tokenizer splits text into tokens with byte offsets into the original
 // text. Built-in rule: the text is split at Unicode white space (removed)
 // and around every punctuation or symbol character (each kept as its own
-// token; emoji are symbols), using the splitting of
-// github.com/sugarme/tokenizer/normalizer on the original text; then each
-// token is normalized with the library's normalizers: NFKC (unless
-// KeepForm), removal of control and format characters (zero-width spaces,
-// soft hyphens), optional lower-casing. A token that normalizes to nothing
-// is dropped. Invalid UTF-8 bytes never form tokens.
+// token; emoji are symbols), on the original text, exactly as the
+// splitting of github.com/sugarme/tokenizer/normalizer does it (tested);
+// then each token is normalized: NFKC (unless KeepForm), removal of
+// control and format characters (zero-width spaces, soft hyphens) and
+// U+FFFD, optional lower-casing. A token that normalizes to nothing is
+// dropped. Invalid UTF-8 bytes never form tokens.
 //
 // Because splitting happens before normalization, text[Start:End] is
 // always the token's exact source span, even when NFKC changes its length.
@@ -222,9 +223,31 @@ func dropChar(r rune) bool {
 	return unicode.Is(unicode.Cc, r) || unicode.Is(unicode.Cf, r) || r == utf8.RuneError
 }
 
-var (
-	spacePattern = normalizer.NewFnPattern(unicode.IsSpace)
-	punctPattern = normalizer.NewFnPattern(isPunctOrSymbol)
+// asciiClass classifies the ASCII bytes for the splitting loop; it agrees
+// with unicode.IsSpace and isPunctOrSymbol on every byte below 0x80.
+var asciiClass = func() (c [utf8.RuneSelf]uint8) {
+	for b := range utf8.RuneSelf {
+		r := rune(b)
+		switch {
+		case unicode.IsSpace(r):
+			c[b] = clsSpace
+		case isPunctOrSymbol(r):
+			c[b] = clsPunct
+		case r < 0x20 || r == 0x7f:
+			c[b] = clsControl
+		case 'A' <= r && r <= 'Z':
+			c[b] = clsUpper
+		}
+	}
+	return c
+}()
+
+const (
+	clsWord    = iota // letters (lower case), digits
+	clsSpace          // white space: separates, removed
+	clsPunct          // punctuation or symbol: a token of its own
+	clsControl        // control character: inside a word, removed by normalization
+	clsUpper          // upper-case letter
 )
 
 // Tokenize splits text into tokens (see Tokenizer). It never fails; with
@@ -236,65 +259,117 @@ func (t *Tokenizer) Tokenize(text string) []Token {
 			return toks
 		}
 	}
-	var out []Token
-	// Invalid UTF-8 bytes separate runs that are tokenized on their own.
-	for start := 0; start < len(text); {
-		end := start
-		for end < len(text) {
-			r, size := utf8.DecodeRuneInString(text[end:])
-			if r == utf8.RuneError && size == 1 {
-				break
-			}
-			end += size
-		}
-		if end > start {
-			out = t.tokenizeValid(text[start:end], start, out)
-		}
-		start = end + 1
-	}
-	return out
+	return t.split(text)
 }
 
-// tokenizeValid appends the tokens of s (valid UTF-8 found at byte base
-// of the text) to out.
-func (t *Tokenizer) tokenizeValid(s string, base int, out []Token) []Token {
-	// Fast path for the splitting: the library's NormalizedString tracks
-	// alignments per byte; cut at white space first so each piece is small.
-	for i := 0; i < len(s); {
-		r, size := utf8.DecodeRuneInString(s[i:])
-		if unicode.IsSpace(r) {
-			i += size
+// split is the built-in rule in one pass over the bytes: ASCII bytes are
+// classified by table, other runes decoded and classified with the
+// unicode package; only words holding non-ASCII runes or control
+// characters go through the full normalization. It gives the same tokens
+// and offsets as splitReference (tested on whole corpora).
+func (t *Tokenizer) split(text string) []Token {
+	if text == "" {
+		return nil
+	}
+	out := make([]Token, 0, len(text)/4+1)
+	var lowered string // text with ASCII letters lower-cased, made when first needed
+	word := -1         // start of the current word, -1 when none
+	plain := true      // current word is ASCII letters and digits only
+	upper := false
+	flush := func(end int) {
+		if word < 0 {
+			return
+		}
+		src := text[word:end]
+		var s string
+		switch {
+		case !plain:
+			s = t.normalize(src)
+		case upper && t.cfg.Lower:
+			if lowered == "" {
+				lowered = lowerASCII(text)
+			}
+			s = lowered[word:end]
+		default:
+			s = src
+		}
+		if s != "" {
+			out = append(out, Token{Text: s, Start: word, End: end})
+		}
+		word, plain, upper = -1, true, false
+	}
+	for i := 0; i < len(text); {
+		if b := text[i]; b < utf8.RuneSelf {
+			switch asciiClass[b] {
+			case clsSpace:
+				flush(i)
+			case clsPunct:
+				flush(i)
+				out = append(out, Token{Text: text[i : i+1], Start: i, End: i + 1})
+			default:
+				if word < 0 {
+					word = i
+				}
+				switch asciiClass[b] {
+				case clsControl:
+					plain = false
+				case clsUpper:
+					upper = true
+				}
+			}
+			i++
 			continue
 		}
-		j := i
-		for j < len(s) {
-			r, size := utf8.DecodeRuneInString(s[j:])
-			if unicode.IsSpace(r) {
-				break
+		r, size := utf8.DecodeRuneInString(text[i:])
+		switch {
+		case r == utf8.RuneError && size == 1: // invalid byte: separates, never part of a token
+			flush(i)
+		case unicode.IsSpace(r):
+			flush(i)
+		case isPunctOrSymbol(r):
+			flush(i)
+			if s := t.normalize(text[i : i+size]); s != "" {
+				out = append(out, Token{Text: s, Start: i, End: i + size})
 			}
-			j += size
+		default:
+			if word < 0 {
+				word = i
+			}
+			plain = false
 		}
-		out = t.splitWord(s[i:j], base+i, out)
-		i = j
+		i += size
+	}
+	flush(len(text))
+	if len(out) == 0 {
+		return nil // as splitReference
 	}
 	return out
 }
 
-func (t *Tokenizer) splitWord(w string, base int, out []Token) []Token {
-	n := normalizer.NewNormalizedFrom(w)
-	for _, piece := range n.Split(punctPattern, normalizer.IsolatedBehavior) {
-		off := piece.OffsetsOriginal()
-		src := w[off[0]:off[1]]
-		text := t.normalize(src)
-		if text == "" {
-			continue
+// lowerASCII returns s with the ASCII letters A-Z lower-cased (one
+// allocation; the other bytes are unchanged).
+func lowerASCII(s string) string {
+	var b strings.Builder
+	b.Grow(len(s))
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		if 'A' <= c && c <= 'Z' {
+			c += 'a' - 'A'
 		}
-		out = append(out, Token{Text: text, Start: base + off[0], End: base + off[1]})
+		b.WriteByte(c)
 	}
-	return out
+	return b.String()
 }
 
-// normalize applies the token normalization to one source span.
+// normalize applies the token normalization to one source span: NFKC
+// (unless KeepForm), removal of control and format characters and U+FFFD,
+// lower-casing if configured. NFKC is computed with golang.org/x/text
+// (the normalization tables the library's own NFKC is built on): the
+// library's NormalizedString.NFKC panics on some inputs (e.g. "Ŀǰ", "ǲΰ",
+// an index past the end of its alignment table in TransformRange) and
+// returns non-normalized text with stray U+FFFD on others (e.g. "´" →
+// " \u0301\ufffd", "ǵĲ" → "g\u0301ijj"); on all other inputs both agree
+// (tested).
 func (t *Tokenizer) normalize(src string) string {
 	clean := true
 	ascii := true
@@ -313,6 +388,97 @@ func (t *Tokenizer) normalize(src string) string {
 		}
 		return src
 	}
+	s := src
+	if !t.cfg.KeepForm && !ascii {
+		s = norm.NFKC.String(s)
+	}
+	keep := true
+	for _, r := range s {
+		if dropChar(r) {
+			keep = false
+			break
+		}
+	}
+	if !keep {
+		var b strings.Builder
+		b.Grow(len(s))
+		for _, r := range s {
+			if !dropChar(r) {
+				b.WriteRune(r)
+			}
+		}
+		s = b.String()
+	}
+	if t.cfg.Lower {
+		s = strings.ToLower(s)
+	}
+	return s
+}
+
+var punctPattern = normalizer.NewFnPattern(isPunctOrSymbol)
+
+// splitReference is the built-in rule written with the library's
+// splitting (NormalizedString.Split around punctuation and symbols, per
+// white-space separated word). It is the reference that split is tested
+// against; it is about 30 times slower.
+func (t *Tokenizer) splitReference(text string) []Token {
+	var out []Token
+	// Invalid UTF-8 bytes separate runs that are tokenized on their own.
+	for start := 0; start < len(text); {
+		end := start
+		for end < len(text) {
+			r, size := utf8.DecodeRuneInString(text[end:])
+			if r == utf8.RuneError && size == 1 {
+				break
+			}
+			end += size
+		}
+		if end > start {
+			out = t.referenceValid(text[start:end], start, out)
+		}
+		start = end + 1
+	}
+	return out
+}
+
+func (t *Tokenizer) referenceValid(s string, base int, out []Token) []Token {
+	for i := 0; i < len(s); {
+		r, size := utf8.DecodeRuneInString(s[i:])
+		if unicode.IsSpace(r) {
+			i += size
+			continue
+		}
+		j := i
+		for j < len(s) {
+			r, size := utf8.DecodeRuneInString(s[j:])
+			if unicode.IsSpace(r) {
+				break
+			}
+			j += size
+		}
+		w := s[i:j]
+		n := normalizer.NewNormalizedFrom(w)
+		for _, piece := range n.Split(punctPattern, normalizer.IsolatedBehavior) {
+			off := piece.OffsetsOriginal()
+			if text := t.normalize(w[off[0]:off[1]]); text != "" {
+				out = append(out, Token{Text: text, Start: base + i + off[0], End: base + i + off[1]})
+			}
+		}
+		i = j
+	}
+	return out
+}
+
+// libraryNormalize is the normalization done with the library's
+// normalizers (NFKC unless KeepForm, Filter, Lowercase), as the tokenizer
+// did before normalize; ok is false when the library panics. Kept to test
+// that normalize agrees with it.
+func (t *Tokenizer) libraryNormalize(src string) (s string, ok bool) {
+	defer func() {
+		if r := recover(); r != nil {
+			s, ok = "", false
+		}
+	}()
 	ns := normalizer.NewNormalizedFrom(src)
 	if res, err := t.norm.Normalize(ns); err == nil {
 		ns = res
@@ -321,7 +487,7 @@ func (t *Tokenizer) normalize(src string) string {
 	if t.cfg.Lower {
 		ns = ns.Lowercase()
 	}
-	return ns.GetNormalized()
+	return ns.GetNormalized(), true
 }
 
 func (t *Tokenizer) userTokenize(text string) (toks []Token, ok bool) {
