@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -123,20 +122,7 @@ func runTrain(ctx context.Context, env *runEnv, df *dataFlags, rf *recipeFlags, 
 			fmt.Fprintf(env.Stderr, "mask-tokens: %d matches of the patterns in %s taken out of the training text\n", n, maskFile)
 		}
 	}
-	enc, err := corpus.TrainEncoder(rf.tokenizerConfig(), train.Texts())
-	if err != nil {
-		return err
-	}
-	threads := rf.Threads
-	trainData, err := cnn.EncodeDataset(enc, train, train.Labels, threads)
-	if err != nil {
-		return err
-	}
-	devData, err := cnn.EncodeDataset(enc, dev, train.Labels, threads)
-	if err != nil {
-		return fmt.Errorf("%w (every dev label must occur in the training data)", err)
-	}
-	cfg, err := rf.modelConfig(enc.Vocab.Len(), len(train.Labels))
+	cfg, err := rf.modelConfig(2, max(2, len(train.Labels)))
 	if err != nil {
 		return err
 	}
@@ -144,25 +130,12 @@ func runTrain(ctx context.Context, env *runEnv, df *dataFlags, rf *recipeFlags, 
 	if err != nil {
 		return err
 	}
-	m, err := cnn.New(cfg, enc.Vocab.Words, train.Labels, df.Seed)
-	if err != nil {
-		return err
-	}
-	m.Tokenizer = enc.Tok.Config()
-	if rf.Vectors != "" {
-		found, err := loadVectors(m, rf.Vectors)
-		if err != nil {
-			return err
-		}
-		if !quiet {
-			fmt.Fprintf(env.Stderr, "vectors: %d of %d vocabulary words found in %s\n", found, enc.Vocab.Len()-2, rf.Vectors)
-		}
-	}
+	recipe := cnn.Recipe{Tokenizer: rf.tokenizerConfig(), Model: cfg, Train: tc, VectorsPath: rf.Vectors}
 	bar := newProgressBar(env.Stderr, quiet)
 	if !quiet {
-		bar.line("training on %d texts (%d labels, vocabulary %d), dev %d texts", trainData.Len(), len(train.Labels), enc.Vocab.Len(), devData.Len())
+		bar.line("training on %d texts (%d labels), dev %d texts", len(train.Examples), len(train.Labels), len(dev.Examples))
 	}
-	res, err := cnn.Train(ctx, m, trainData, devData, tc, func(p cnn.Progress) {
+	trained, err := cnn.TrainText(ctx, train, dev, recipe, func(p cnn.Progress) {
 		if quiet {
 			return
 		}
@@ -178,8 +151,12 @@ func runTrain(ctx context.Context, env *runEnv, df *dataFlags, rf *recipeFlags, 
 		}
 	})
 	bar.done()
-	if err != nil && !errors.Is(err, context.Canceled) {
+	if err != nil {
 		return err
+	}
+	m, res := trained.Model, trained.Result
+	if rf.Vectors != "" && !quiet {
+		fmt.Fprintf(env.Stderr, "vectors: %d of %d vocabulary words found in %s\n", trained.VectorsFound, len(m.Vocab)-2, rf.Vectors)
 	}
 	m.Info.Notes = map[string]string{"data": df.Data, "dev": df.Dev, "seed": fmt.Sprint(df.Seed)}
 	if res != nil && res.BestEpoch == 0 {

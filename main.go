@@ -13,6 +13,7 @@ package main
 //go:generate go run ./internal/demogen -out testdata/demo
 
 import (
+	_ "aa.telltale.local/localeenv"
 	"context"
 	"errors"
 	"flag"

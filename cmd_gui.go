@@ -1,0 +1,84 @@
+package main
+
+import (
+	"context"
+	_ "embed"
+	"flag"
+	"fmt"
+	"os"
+	"runtime"
+	"strings"
+	"time"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/app"
+
+	"telltale/gui"
+)
+
+// The demo corpus travels inside the binary, so the window always has
+// something to show.
+var (
+	//go:embed testdata/demo/train.csv
+	demoTrain []byte
+	//go:embed testdata/demo/test.csv
+	demoTest []byte
+)
+
+func init() {
+	register(&command{
+		Name:      "gui",
+		UsageLine: "gui [--data FILE] [--test FILE] [--model MODEL] [--view NAME] [--demo-train] [--quit-after DURATION]",
+		Short:     "open the desktop window (on the built-in demo corpus when no data is given)",
+		Long: `Gui opens the telltale window: the corpus, training with live curves, the
+scorecard, the filter catalogue, the explanation of any sentence as you type,
+and the cue audit. Without --data it opens on the demo corpus built into the
+binary. It needs a display; without one, use the command line (train, eval,
+explain, filters, audit) or 'telltale report' for an HTML report.
+
+` + gui.Caution,
+		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
+			var o gui.Options
+			fs.StringVar(&o.DataPath, "data", "", "labeled training data (default: the built-in demo corpus)")
+			fs.StringVar(&o.TestPath, "test", "", "labeled held-out data")
+			fs.StringVar(&o.TextCol, "text-col", "", "name of the text column or field")
+			fs.StringVar(&o.LabelCol, "label-col", "", "name of the label column or field")
+			fs.StringVar(&o.ModelPath, "model", "", "a model file to open")
+			fs.StringVar(&o.StartView, "view", "", "the view to open first: "+strings.Join(gui.ViewTitles(), ", "))
+			fs.BoolVar(&o.AutoRun, "demo-train", false, "with no model, train one at start and profile its filters")
+			quitAfter := fs.Duration("quit-after", 0, "close the window after this long (for scripts)")
+			return func(ctx context.Context, env *runEnv) error {
+				if err := checkDisplay(); err != nil {
+					return err
+				}
+				o.DemoTrain, o.DemoTest = demoTrain, demoTest
+				o.OnReady = func() { fmt.Fprintln(env.Stderr, "telltale: window ready") }
+				a := app.NewWithID("org.telltale.app")
+				w := gui.NewWindow(a, o)
+				// Ctrl-C and SIGTERM close the window cleanly.
+				go func() {
+					<-ctx.Done()
+					fyne.Do(a.Quit)
+				}()
+				if *quitAfter > 0 {
+					time.AfterFunc(*quitAfter, func() { fyne.Do(a.Quit) })
+				}
+				w.ShowAndRun()
+				return nil
+			}
+		},
+	})
+}
+
+// checkDisplay fails plainly when there is no screen to open a window on.
+func checkDisplay() error {
+	if runtime.GOOS != "linux" && runtime.GOOS != "freebsd" {
+		return nil
+	}
+	if os.Getenv("DISPLAY") != "" || os.Getenv("WAYLAND_DISPLAY") != "" {
+		return nil
+	}
+	return fmt.Errorf("no display to open a window on (DISPLAY and WAYLAND_DISPLAY are unset): " +
+		"run it on a desktop, under Xvfb (xvfb-run telltale gui), or use the command line " +
+		"(telltale train, eval, explain, filters, audit) and 'telltale report --out report.html' instead")
+}

@@ -1,0 +1,3 @@
+module aa.telltale.local/localeenv
+
+go 1.26
