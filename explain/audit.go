@@ -87,9 +87,10 @@ func (o *AuditOptions) defaults(train int) {
 type AuditProgress func(stage string, done, total int)
 
 // ScoreFormula states how Suspect.Score is made from its parts.
-const ScoreFormula = "score = flagged_share × max(0, push): the share of the filter's above-threshold slot mass " +
-	"(training split) carried by flagged words, times the mean drop of the cue label's probability on held-out " +
-	"texts containing the filter's cue when the filter is masked"
+const ScoreFormula = "score = flagged_share × max(0, harm), harm = conflict_share × conflict_gain: the share of the " +
+	"filter's above-threshold slot mass (training split) on flagged words, times how much masking the filter raises " +
+	"the gold label's probability on held-out texts where its cue points to another label, averaged over all " +
+	"held-out texts with the cue; ties are ranked by flagged_share × push"
 
 // Audit is the result of RunAudit: the words that predict a label by
 // themselves and the filters that lean on them, with the evidence.
@@ -169,9 +170,16 @@ type Parts struct {
 	AboveWindows int     `json:"above_windows"`
 	Threshold    float64 `json:"threshold"`
 	// Push is the mean over the PushTexts held-out texts that contain a cue
-	// word of p(cue label) − p(cue label | filter masked).
+	// word of p(cue label) − p(cue label | filter masked): how hard the
+	// filter pulls toward the cue's label where the cue is.
 	Push      float64 `json:"push"`
 	PushTexts int     `json:"push_texts"`
+	// ConflictShare is the share of those texts whose gold label is not
+	// the cue's; ConflictGain the mean over them of p(gold | filter masked)
+	// − p(gold); Harm = ConflictShare × ConflictGain.
+	ConflictShare float64 `json:"conflict_share"`
+	ConflictGain  float64 `json:"conflict_gain"`
+	Harm          float64 `json:"harm"`
 }
 
 // Cue is one of a filter's cue words.
@@ -297,7 +305,8 @@ type AuditExample struct {
 // (3) on heldout, for every such filter, exact ablation (masking filter g
 // subtracts OutW[c][g]·h[g] from each logit, the identity of the model's
 // layout, so no re-run is needed; a test checks it against Model.Masked),
-// the push toward the cue's label and the cue-conflicting subset; (4) the
+// the push toward the cue's label and the harm on the cue-conflicting
+// subset; (4) the
 // ranking by Score (ScoreFormula) and, for the Top suspects, counterfactual
 // substitution of their cue words by label-neutral words.
 func RunAudit(ctx context.Context, m *cnn.Model, train, heldout AuditData, opt AuditOptions, progress AuditProgress) (*Audit, error) {
@@ -719,6 +728,9 @@ func (a *auditor) assemble(ctx context.Context) (*Audit, error) {
 		if x.Score != y.Score {
 			return cmp.Compare(y.Score, x.Score)
 		}
+		if tx, ty := x.Parts.FlaggedShare*x.Parts.Push, y.Parts.FlaggedShare*y.Parts.Push; tx != ty {
+			return cmp.Compare(ty, tx)
+		}
 		return cmp.Compare(x.Filter, y.Filter)
 	})
 	sus = sus[:min(len(sus), a.opt.Top)]
@@ -829,7 +841,7 @@ func (a *auditor) suspect(g int, base cnn.Metrics) Suspect {
 	// Push and the cue-conflicting subset.
 	texts := a.cueTexts(s.Cues)
 	s.Conflict.CueLabel = labels[cueClass]
-	var push float64
+	var push, gain float64
 	var right, rightMasked int
 	var fixed, broken []AuditExample
 	for _, i := range texts {
@@ -841,6 +853,7 @@ func (a *auditor) suspect(g int, base cnn.Metrics) Suspect {
 		if gold == cueClass {
 			continue
 		}
+		gain += q[gold] - p[gold]
 		s.Conflict.Texts++
 		if len(s.Conflict.Indices) < 200 {
 			s.Conflict.Indices = append(s.Conflict.Indices, i)
@@ -877,11 +890,14 @@ func (a *auditor) suspect(g int, base cnn.Metrics) Suspect {
 	}
 	s.Parts.PushTexts = len(texts)
 	if s.Conflict.Texts > 0 {
+		s.Parts.ConflictShare = float64(s.Conflict.Texts) / float64(len(texts))
+		s.Parts.ConflictGain = gain / float64(s.Conflict.Texts)
+		s.Parts.Harm = s.Parts.ConflictShare * s.Parts.ConflictGain
 		s.Conflict.Accuracy = float64(right) / float64(s.Conflict.Texts)
 		s.Conflict.AccuracyMasked = float64(rightMasked) / float64(s.Conflict.Texts)
 	}
 	s.Examples.Conflict = append(fixed, broken...)
-	s.Score = s.Parts.FlaggedShare * max(0, s.Parts.Push)
+	s.Score = s.Parts.FlaggedShare * max(0, s.Parts.Harm)
 
 	for _, w := range e.top {
 		if len(s.Examples.Windows) == a.opt.Examples {

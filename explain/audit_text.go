@@ -38,8 +38,8 @@ func (a *Audit) WriteText(w io.Writer) error {
 		p("  none: no active filter draws on flagged words.\n")
 	}
 	for rank, s := range a.Filters {
-		p("\n%d. filter %d (width %d, votes %s): score %.4f = flagged share %.3f × push %.4f\n",
-			rank+1, s.Filter, s.Width, s.Label, s.Score, s.Parts.FlaggedShare, s.Parts.Push)
+		p("\n%d. filter %d (width %d, votes %s): score %.4f = flagged share %.3f × harm %.4f (conflict share %.3f × gain %.4f)\n",
+			rank+1, s.Filter, s.Width, s.Label, s.Score, s.Parts.FlaggedShare, s.Parts.Harm, s.Parts.ConflictShare, s.Parts.ConflictGain)
 		var cues []string
 		for _, c := range s.Cues {
 			cues = append(cues, fmt.Sprintf("%s (%s, z %.1f, %.0f%% of its slot mass, in %.0f%% of its windows)",
@@ -71,8 +71,8 @@ func (a *Audit) WriteText(w io.Writer) error {
 		p("   When it is masked, the probability of %s drops by %.4f on average over the %d held-out texts with the cue.\n",
 			s.Conflict.CueLabel, s.Parts.Push, s.Parts.PushTexts)
 		if s.Conflict.Texts > 0 {
-			p("   On the %d cue-conflicting held-out texts (cue says %s, gold differs) accuracy goes from %.3f to %.3f without it (%d fixed, %d broken).\n",
-				s.Conflict.Texts, s.Conflict.CueLabel, s.Conflict.Accuracy, s.Conflict.AccuracyMasked, s.Conflict.Fixed, s.Conflict.Broken)
+			p("   On the %d cue-conflicting held-out texts (cue says %s, gold differs) the gold label gains %.4f in probability without it, and accuracy goes from %.3f to %.3f (%d fixed, %d broken).\n",
+				s.Conflict.Texts, s.Conflict.CueLabel, s.Parts.ConflictGain, s.Conflict.Accuracy, s.Conflict.AccuracyMasked, s.Conflict.Fixed, s.Conflict.Broken)
 		} else {
 			p("   No held-out text contains the cue with a gold label other than %s.\n", s.Conflict.CueLabel)
 		}
