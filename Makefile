@@ -16,7 +16,7 @@ TEST_PKGS := gcc libc6-dev python3 python3-torch python3-sklearn python3-numpy \
              chromium xvfb npm ca-certificates
 SHOT_PKGS := $(GUI_PKGS) xvfb imagemagick fonts-dejavu-core
 
-.PHONY: all build demo test test-go test-race fuzz vet bench screenshots deps-gui deps-test corpora clean
+.PHONY: all build demo test test-go test-portable test-race fuzz vet bench screenshots deps-gui deps-test corpora clean
 
 all: build
 
@@ -38,7 +38,7 @@ build: deps-gui
 demo: build
 	@scripts/demo.sh $(BIN)
 
-test: corpora vet test-go test-race fuzz
+test: corpora vet test-go test-portable test-race fuzz
 
 vet:
 	$(GO) vet -tags ci ./...
@@ -46,6 +46,10 @@ vet:
 # Every test, with the software GUI driver (tag ci: no GL or X needed).
 test-go:
 	CI=true $(GO) test -tags ci -count=1 -timeout 20m ./...
+
+# The portable kernels (no SIMD) must give the same results.
+test-portable:
+	GOEXPERIMENT= CI=true $(GO) test -tags ci -count=1 -run 'Kernel|Predict|Forward|Table' ./cnn ./explain
 
 # The race detector over the training, profiling and GUI-state packages
 # (short mode leaves out the long corpus-scale runs).
