@@ -41,7 +41,7 @@ type suspectView struct {
 type auditExampleRow struct{ Snippet, Gold, Pred, After, Value, Note string }
 
 // suspectsShown is the most suspect filters the report details.
-const suspectsShown = 6
+const suspectsShown = 5
 
 func auditLayout(a *explain.Audit) *auditView {
 	av := &auditView{Train: count(a.TrainTexts), Heldout: count(a.HeldoutTexts), Tested: count(a.Tested),
@@ -156,15 +156,15 @@ func suspect(rank int, s explain.Suspect) suspectView {
 // signedPoints formats a difference of shares as signed percentage points.
 func signedPoints(d float64) string {
 	s := floatf("%+.1f", 100*d)
-	if s == "-0.0" {
-		s = "+0.0"
+	if s == "-0.0" || s == "+0.0" {
+		s = "0.0"
 	}
 	return s
 }
 
 func auditExamples(es []explain.AuditExample) []auditExampleRow {
 	var out []auditExampleRow
-	for _, e := range es[:min(3, len(es))] {
+	for _, e := range es[:min(2, len(es))] {
 		out = append(out, auditExampleRow{Snippet: e.Snippet, Gold: e.Gold, Pred: e.Pred, After: e.After, Value: num(e.Value), Note: e.Note})
 	}
 	return out

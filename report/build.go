@@ -23,7 +23,7 @@ type Options struct {
 	// Examples is the number of explained examples of each kind (default 2).
 	Examples int
 	// FiltersPerClass is how many filters of each class the catalogue shows
-	// (default 4).
+	// (default 3).
 	FiltersPerClass int
 	// Profile controls the filter profiles over the training split; its
 	// Progress is set by Build.

@@ -279,7 +279,7 @@ func chromiumLoad(t *testing.T, file string, print bool) pageRun {
 	var shot struct {
 		Data string `json:"data"`
 	}
-	h := min(run.DOM.Height, 16000)
+	h := min(run.DOM.Height, 32000)
 	if err := c.call(ctx, s, "Page.captureScreenshot", map[string]any{"format": "png", "captureBeyondViewport": true,
 		"clip": map[string]any{"x": 0, "y": 0, "width": 1280, "height": h, "scale": 1}}, &shot); err != nil {
 		fail(err)
@@ -377,5 +377,31 @@ func TestChromiumLoadsReport(t *testing.T) {
 			t.Fatal(err)
 		}
 		t.Logf("%s: %d bytes of PNG in %s, page height %.0f px", what, len(run.PNG), name, run.DOM.Height)
+	}
+}
+
+// TestChromiumDetects is the control of the browser test: a page that makes
+// a request and logs a console error must be caught by the same recorder.
+func TestChromiumDetects(t *testing.T) {
+	needChromium(t)
+	file := filepath.Join(t.TempDir(), "bad.html")
+	page := `<!DOCTYPE html><html><head><title>x</title></head><body><p>x</p>` +
+		`<img src="http://127.0.0.1:9/missing.png"><script>console.error("planted error")</script></body></html>`
+	if err := os.WriteFile(file, []byte(page), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	run := chromiumLoad(t, file, false)
+	if !strings.Contains(strings.Join(run.Console, "\n"), "planted error") {
+		t.Errorf("console error not caught; console %q", run.Console)
+	}
+	found := false
+	for _, u := range run.Requests {
+		found = found || strings.HasPrefix(u, "http://127.0.0.1:9/")
+	}
+	if !found {
+		t.Errorf("network request not caught; requests %q", run.Requests)
+	}
+	if run.DOM.Scripts != 1 {
+		t.Errorf("%d scripts counted, want 1", run.DOM.Scripts)
 	}
 }

@@ -34,8 +34,8 @@ func signed(x float64) string {
 		return num(x)
 	}
 	s := strconv.FormatFloat(x, 'f', 3, 64)
-	if s == "-0.000" {
-		s = "0.000"
+	if s == "-0.000" || s == "0.000" {
+		return "0.000" // no sign on a value that rounds to zero
 	}
 	if s[0] != '-' {
 		s = "+" + s

@@ -38,7 +38,7 @@ func keep(d *corpus.Dataset, n int) *corpus.Dataset {
 }
 
 // loadDemo trains a tiny model (8 filters of widths 2 and 3 over 24-d
-// vectors, 3 epochs) on the first 1,200 demo training texts and gathers a
+// vectors, 5 epochs) on the first 1,200 demo training texts and gathers a
 // report of it on the first 300 test texts; it runs once per test binary.
 func loadDemo(t *testing.T) demoFixture {
 	t.Helper()
@@ -80,7 +80,7 @@ func loadDemo(t *testing.T) demoFixture {
 			if err != nil {
 				return err
 			}
-			tc := cnn.TrainConfig{Epochs: 3, Seed: 3, Threads: 2, Patience: -1}
+			tc := cnn.TrainConfig{Epochs: 5, LR: 0.005, Seed: 3, Threads: 2, Patience: -1}
 			res, err := cnn.Train(context.Background(), m, trd, cnn.Data{}, tc, nil)
 			if err != nil {
 				return err

@@ -101,6 +101,7 @@ type filterCard struct {
 	Label, Margin, Threshold     string
 	ThresholdNote                string
 	Above, Purity, Fired, MaxAct string
+	FamilyCount                  int
 	Ngrams                       []ngramRow
 	Families                     []familyRow
 	Slots                        []slotRow
@@ -129,11 +130,16 @@ type exampleView struct {
 	Correct                                       bool
 	Segments                                      []heatCell
 	Legend                                        legend
-	Probs                                         []kv
+	Probs                                         []probCell
 	Identity                                      string
 	Tokens                                        []tokenRow
 	HasOcclusion                                  bool
 	Fired                                         []firedRow
+}
+
+type probCell struct {
+	Label, Value string
+	Chosen       bool
 }
 
 type tokenRow struct{ Index, Token, Share, Occlusion string }
@@ -412,7 +418,7 @@ func filters(in Input) (*filtersView, error) {
 	}
 	per := in.FiltersPerClass
 	if per <= 0 {
-		per = 4
+		per = 3
 	}
 	on := in.ProfiledOn
 	if on == "" {
@@ -452,11 +458,11 @@ func filters(in Input) (*filtersView, error) {
 func filterCardOf(f explain.FilterProfile) filterCard {
 	card := filterCard{ID: f.Filter, Width: f.Width, Label: f.Label, Margin: signed(f.Margin),
 		Threshold: num(f.Threshold), Above: count(f.Above), Purity: pct(f.AbovePurity),
-		Fired: count(f.Fired), MaxAct: num(f.MaxActivation)}
+		Fired: count(f.Fired), MaxAct: num(f.MaxActivation), FamilyCount: len(f.Families)}
 	if !f.ThresholdExact && !math.IsInf(f.Threshold, 0) {
 		card.ThresholdNote = "at a histogram bin edge"
 	}
-	const shown = 6
+	const shown = 5
 	ngrams := f.TopNgrams[:min(shown, len(f.TopNgrams))]
 	var scale float64
 	for _, ng := range ngrams {
@@ -478,9 +484,9 @@ func filterCardOf(f explain.FilterProfile) filterCard {
 		card.Ngrams = append(card.Ngrams, row)
 	}
 	card.Scale = num(scale)
-	for _, fam := range f.Families {
+	for _, fam := range f.Families[:min(2, len(f.Families))] {
 		members := make([]string, 0, len(fam.Members))
-		for _, mb := range fam.Members[:min(3, len(fam.Members))] {
+		for _, mb := range fam.Members[:min(2, len(fam.Members))] {
 			members = append(members, strings.Join(mb, " "))
 		}
 		card.Families = append(card.Families, familyRow{Pattern: fam.Pattern, Ngrams: count(fam.Ngrams),
@@ -493,7 +499,7 @@ func filterCardOf(f explain.FilterProfile) filterCard {
 }
 
 func words(ws []explain.WordScore) string {
-	const most = 5
+	const most = 3
 	parts := make([]string, 0, most)
 	for _, w := range ws[:min(most, len(ws))] {
 		parts = append(parts, w.Word+" "+signed(w.Score))
@@ -538,7 +544,7 @@ func example(in Input, ex Example) (exampleView, error) {
 	ev.Identity = fmt.Sprintf("bias %s + token shares %s = logit %s", signed(e.Bias[c]), signed(sum), signed(e.Logits[c]))
 	ev.Segments = paint(ex.Text, e.Tokens, share, scale, e.Label)
 	for k, l := range e.Labels {
-		ev.Probs = append(ev.Probs, kv{l, pct(e.Probabilities[k])})
+		ev.Probs = append(ev.Probs, probCell{l, pct(e.Probabilities[k]), k == c})
 	}
 	order := make([]int, len(share))
 	for i := range order {

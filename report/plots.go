@@ -161,10 +161,6 @@ func reliabilityPlot(bins []ReliabilityBin) (template.URL, error) {
 	}
 	diag.LineStyle = draw.LineStyle{Color: plotGrey, Width: vg.Points(1), Dashes: []vg.Length{vg.Points(4), vg.Points(3)}}
 	p.Add(diag)
-	p.Legend.Add("perfect calibration", diag)
-	if len(h.Bins) > 0 {
-		p.Legend.Add("accuracy per bin", h)
-	}
 	if len(pts) > 0 {
 		sc, err := plotter.NewScatter(pts)
 		if err != nil {
@@ -172,9 +168,6 @@ func reliabilityPlot(bins []ReliabilityBin) (template.URL, error) {
 		}
 		sc.GlyphStyle = draw.GlyphStyle{Color: toRGB(diverging[1]).color(), Radius: vg.Points(2.5), Shape: draw.CircleGlyph{}}
 		p.Add(sc)
-		p.Legend.Add("mean confidence", sc)
 	}
-	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.XOffs, p.Legend.YOffs = vg.Points(8), vg.Points(-4)
 	return svgURL(p, vg.Points(340), vg.Points(320))
 }

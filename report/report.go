@@ -61,7 +61,7 @@ type Input struct {
 	Profiles   *explain.Profiles
 	ProfiledOn string
 	// FiltersPerClass is how many filters of each class the catalogue shows
-	// (0 means 4).
+	// (0 means 3).
 	FiltersPerClass int
 
 	// Audit is the spurious-cue audit of the model (training split for

@@ -1,0 +1,156 @@
+package report
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"strings"
+	"testing"
+
+	"gonum.org/v1/plot/palette/brewer"
+
+	"telltale/cnn"
+	"telltale/explain"
+)
+
+func TestFormats(t *testing.T) {
+	for _, c := range []struct {
+		got, want string
+	}{
+		{pct(0.8342), "83.4%"},
+		{pct(1), "100.0%"},
+		{pct(math.NaN()), "–"},
+		{num(0.12345), "0.123"},
+		{num(math.Inf(1)), "none"},
+		{signed(0.5), "+0.500"},
+		{signed(-0.25), "-0.250"},
+		{signed(-0.0001), "0.000"},
+		{count(0), "0"},
+		{count(999), "999"},
+		{count(1000), "1,000"},
+		{count(1234567), "1,234,567"},
+		{count(-4500), "-4,500"},
+		{signedPoints(0.003), "+0.3"},
+		{signedPoints(-0.0001), "0.0"}, {signed(0), "0.000"},
+		{ints([]int{3, 0, 12}), "3, 0, 12"},
+	} {
+		if c.got != c.want {
+			t.Errorf("got %q, want %q", c.got, c.want)
+		}
+	}
+}
+
+// TestPalette checks the attribution scale against gonum's copy of the
+// ColorBrewer tables: PuOr with 11 classes is marked good for colour-blind
+// readers there, its ends and middle are where the scale puts −s, 0 and +s.
+func TestPalette(t *testing.T) {
+	p := brewer.PuOr[11]
+	if p.ColorBlind != brewer.Good {
+		t.Fatalf("PuOr-11 colour-blind usability %v, want Good", p.ColorBlind)
+	}
+	for _, c := range []struct {
+		v    float64
+		want string
+	}{{-2, "#7f3b08"}, {0, "#f7f7f7"}, {2, "#2d004b"}, {-10, "#7f3b08"}, {math.NaN(), "#f7f7f7"}} {
+		if got := divergingAt(c.v, 2).css(); got != c.want {
+			t.Errorf("divergingAt(%g, 2) = %s, want %s", c.v, got, c.want)
+		}
+	}
+	if got := divergingAt(1, 0).css(); got != "#f7f7f7" {
+		t.Errorf("zero scale gives %s, want the neutral middle", got)
+	}
+	// Ink: dark on the light middle, white on the dark ends (WCAG contrast).
+	if ink(divergingAt(0, 1)) != "#111111" || ink(divergingAt(1, 1)) != "#ffffff" || ink(divergingAt(-1, 1)) != "#ffffff" {
+		t.Error("ink colours do not follow the WCAG contrast rule on the scale's middle and ends")
+	}
+}
+
+// TestReliabilityMatchesECE checks the reliability bins against the
+// expected calibration error of cnn.ComputeMetrics (itself checked against
+// torchmetrics' examples in package cnn): Σ n_m/n·|acc_m − conf_m| = ECE,
+// on random predictions, with confidences on bin edges included.
+func TestReliabilityMatchesECE(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 5))
+	for trial := range 20 {
+		n := 1 + rng.IntN(400)
+		bins := []int{0, 1, 10, 15}[trial%4]
+		gold, pred := make([]int, n), make([]int, n)
+		conf := make([]float64, n)
+		correct := make([]bool, n)
+		for i := range n {
+			gold[i], pred[i] = rng.IntN(3), rng.IntN(3)
+			conf[i] = rng.Float64()
+			if rng.IntN(5) == 0 {
+				conf[i] = float64(rng.IntN(16)) / 15 // on an edge
+			}
+			correct[i] = gold[i] == pred[i]
+		}
+		mt := cnn.ComputeMetrics([]string{"a", "b", "c"}, gold, pred, conf, bins)
+		rb := Reliability(conf, correct, bins)
+		var ece float64
+		total := 0
+		for _, b := range rb {
+			total += b.Count
+			ece += float64(b.Count) / float64(n) * math.Abs(b.Accuracy-b.Confidence)
+			if b.Count > 0 && (b.Confidence <= b.Lo && b.Lo > 0 || b.Confidence > b.Hi+1e-12) {
+				t.Errorf("trial %d: bin (%g, %g] has mean confidence %g", trial, b.Lo, b.Hi, b.Confidence)
+			}
+		}
+		if total != n {
+			t.Errorf("trial %d: bins hold %d predictions of %d", trial, total, n)
+		}
+		if math.Abs(ece-mt.ECE) > 1e-12 {
+			t.Errorf("trial %d: ECE from bins %g, cnn %g", trial, ece, mt.ECE)
+		}
+	}
+}
+
+// TestPaintKeepsText checks that painting gives back the original text
+// exactly, gaps included, and that each token's title carries its signed
+// share.
+func TestPaintKeepsText(t *testing.T) {
+	text := "Hi  there,\nfriend!"
+	toks := []explain.TokenSpan{{Text: "hi", Start: 0, End: 2}, {Text: "there", Start: 4, End: 9}, {Text: ",", Start: 9, End: 10}, {Text: "friend", Start: 11, End: 17}, {Text: "!", Start: 17, End: 18}}
+	share := []float64{0.5, -0.25, 0, 1, -1}
+	segs := paint(text, toks, share, 1, "x")
+	var b strings.Builder
+	painted := 0
+	for _, s := range segs {
+		b.WriteString(s.Text)
+		if s.Style != "" {
+			if want := fmt.Sprintf("%s: %s toward x", toks[painted].Text, signed(share[painted])); s.Title != want {
+				t.Errorf("title %q, want %q", s.Title, want)
+			}
+			painted++
+		}
+	}
+	if b.String() != text {
+		t.Errorf("painted text %q, want %q", b.String(), text)
+	}
+	if painted != len(toks) {
+		t.Errorf("%d tokens painted, want %d", painted, len(toks))
+	}
+	// Without offsets the tokens are shown by their own text.
+	segs = paint("ab", []explain.TokenSpan{{Text: "a"}, {Text: "b"}}, []float64{1, 1}, 1, "x")
+	b.Reset()
+	for _, s := range segs {
+		b.WriteString(s.Text)
+	}
+	if b.String() != "a b" {
+		t.Errorf("tokens without offsets read %q, want %q", b.String(), "a b")
+	}
+}
+
+func ExampleReliability() {
+	conf := []float64{0.95, 0.9, 0.6, 0.55, 0.3}
+	correct := []bool{true, true, false, true, false}
+	for _, b := range Reliability(conf, correct, 5) {
+		if b.Count > 0 {
+			fmt.Printf("(%.1f, %.1f]: %d texts, confidence %.3f, accuracy %.2f\n", b.Lo, b.Hi, b.Count, b.Confidence, b.Accuracy)
+		}
+	}
+	// Output:
+	// (0.2, 0.4]: 1 texts, confidence 0.300, accuracy 0.00
+	// (0.4, 0.6]: 2 texts, confidence 0.575, accuracy 0.50
+	// (0.8, 1.0]: 2 texts, confidence 0.925, accuracy 1.00
+}
