@@ -100,6 +100,9 @@ side by side.`,
 				if err != nil {
 					return err
 				}
+				if err := checkOutPath(*out); err != nil {
+					return err
+				}
 				masked, err := explain.MaskFilters(m, gs)
 				if err != nil {
 					return usageError{err.Error()}

@@ -10,6 +10,10 @@ import (
 	"telltale/corpus"
 )
 
+// maxTextBytesFlag is the largest --max-text-bytes (1 GiB): one record may
+// then hold up to 8 GiB in memory while it is read.
+const maxTextBytesFlag = 1 << 30
+
 // dataFlags are the options of every command that reads labeled data.
 type dataFlags struct {
 	Data, Dev         string
@@ -18,6 +22,7 @@ type dataFlags struct {
 	TestFrac          float64
 	Seed              uint64
 	Relabel           string
+	MaxTextBytes      int
 }
 
 func (d *dataFlags) register(fs *flag.FlagSet, devHelp string) {
@@ -28,11 +33,12 @@ func (d *dataFlags) register(fs *flag.FlagSet, devHelp string) {
 	fs.StringVar(&d.Format, "format", "", "force the input format: csv, tsv, jsonl or dir")
 	fs.Float64Var(&d.TestFrac, "test-frac", 0.2, "without --dev: share of --data held out, stratified by label")
 	fs.Uint64Var(&d.Seed, "seed", 1, "random seed (splits, initialisation, shuffling)")
+	fs.IntVar(&d.MaxTextBytes, "max-text-bytes", corpus.DefaultMaxTextBytes, "longest text kept, in bytes: longer ones are cut with a warning; a record over 8 times this is an error")
 	fs.StringVar(&d.Relabel, "relabel", "", "map labels before use, e.g. 'easy-ham-1=ham,spam-1=spam' (an empty target drops the label)")
 }
 
 func (d *dataFlags) options() corpus.Options {
-	return corpus.Options{TextCol: d.TextCol, LabelCol: d.LabelCol, Format: d.Format, ReplaceInvalidUTF8: true}
+	return corpus.Options{TextCol: d.TextCol, LabelCol: d.LabelCol, Format: d.Format, MaxTextBytes: d.MaxTextBytes, ReplaceInvalidUTF8: true}
 }
 
 // load reads --data (and --dev) and returns the training and held-out sets.
@@ -61,6 +67,9 @@ func (d *dataFlags) load(warn io.Writer, quiet bool) (train, test *corpus.Datase
 }
 
 func (d *dataFlags) read(path string, relabel map[string]string, warn io.Writer, quiet bool) (*corpus.Dataset, error) {
+	if d.MaxTextBytes < 0 || d.MaxTextBytes > maxTextBytesFlag {
+		return nil, usagef("--max-text-bytes %d: must be between 1 and %d", d.MaxTextBytes, maxTextBytesFlag)
+	}
 	ds, warnings, err := corpus.Load(path, d.options())
 	if err != nil {
 		return nil, err

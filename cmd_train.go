@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"os"
 	"path/filepath"
 	"time"
 
@@ -109,6 +110,9 @@ file (one per line) are taken out of the training text first.`,
 
 func runTrain(ctx context.Context, env *runEnv, df *dataFlags, rf *recipeFlags, out, maskFile string, asJSON, quiet bool) error {
 	start := time.Now()
+	if err := checkOutPath(out); err != nil {
+		return err
+	}
 	train, dev, err := df.load(env.Stderr, quiet)
 	if err != nil {
 		return err
@@ -181,6 +185,24 @@ func runTrain(ctx context.Context, env *runEnv, df *dataFlags, rf *recipeFlags, 
 		return context.Canceled
 	}
 	return nil
+}
+
+// checkOutPath fails, naming path, when no file can be written there (it
+// is a folder, or its folder is missing or not writable), so that a long
+// training run does not end with nowhere to save. It creates and removes a
+// temporary file next to path; the model itself is later written atomically
+// by cnn.Model.Save.
+func checkOutPath(path string) error {
+	if st, err := os.Stat(path); err == nil && st.IsDir() {
+		return fmt.Errorf("--out %s is a folder: give a file name, e.g. %s", path, filepath.Join(path, "model.tt"))
+	}
+	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".check*")
+	if err != nil {
+		return fmt.Errorf("--out %s cannot be written (%v): check that its folder exists and is writable", path, err)
+	}
+	name := f.Name()
+	f.Close()
+	return os.Remove(name)
 }
 
 type trainSummary struct {

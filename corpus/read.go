@@ -153,7 +153,11 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 		for l := range labels {
 			only = l
 		}
-		return ws.result(), errAt(path, 0, ErrLabel, "only one label %q in %d examples: a classifier needs at least two labels; check the label column", only, n)
+		fix := "check the label column"
+		if format == "dir" {
+			fix = "put the examples of each label in one sub-folder per label"
+		}
+		return ws.result(), errAt(path, 0, ErrLabel, "only one label %q in %d examples: a classifier needs at least two labels; %s", only, n, fix)
 	}
 	return ws.result(), nil
 }
@@ -382,13 +386,13 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 	}
 	if len(names) == 1 {
 		h := names[0]
-		for _, d := range []struct{ sep, name, fix string }{{"\t", "tabs", "tsv"}, {";", "semicolons", ""}, {"|", "bars", ""}, {",", "commas", "csv"}} {
+		for _, d := range []struct{ sep, name, fix string }{{"\t", "tab", "tsv"}, {";", "semicolon", ""}, {"|", "bar", ""}, {",", "comma", "csv"}} {
 			if strings.Contains(h, d.sep) && (format != "csv" || d.sep != ",") && (format != "tsv" || d.sep != "\t") {
 				fix := "convert it to comma- or tab-separated"
 				if d.fix != "" {
 					fix = "name it ." + d.fix + " or pass the format " + d.fix
 				}
-				return errAt(path, 1, ErrFormat, "header has one column %q containing %s: the file looks %s-separated, not %s; %s", h, d.name, d.name, format, fix)
+				return errAt(path, 1, ErrFormat, "header has one column %q containing %ss: the file looks %s-separated, not %s; %s", h, d.name, d.name, format, fix)
 			}
 		}
 	}
