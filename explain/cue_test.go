@@ -209,3 +209,26 @@ func TestMaskFilters(t *testing.T) {
 		t.Error("filter −1: no error")
 	}
 }
+
+// Any pattern file and text: no panic, errors name the file and line, and
+// a text without matches comes back unchanged.
+func FuzzCueMasker(f *testing.F) {
+	f.Add("kioskmail\n/TKREF-[0-9]{5}/\n# c\n", "TKREF-48213 sent via KioskMail")
+	f.Add("/(/\n", "x")
+	f.Add("é\n//\n/a|/\n", "É é")
+	f.Fuzz(func(t *testing.T, file, text string) {
+		cm, err := ParseCueMasker("fuzz.txt", []byte(file))
+		if err != nil {
+			if !errors.Is(err, ErrCuePattern) || !strings.Contains(err.Error(), "fuzz.txt line ") {
+				t.Fatalf("error without file and line: %v", err)
+			}
+			return
+		}
+		out, n := cm.Mask(text)
+		if n == 0 && out != text {
+			t.Fatalf("no match but text changed: %q → %q", text, out)
+		}
+		_ = NgramCategories(strings.Fields(text))
+		_ = TokenCategory(text)
+	})
+}
