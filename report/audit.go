@@ -26,6 +26,7 @@ type suspectView struct {
 	Filter, Width                  int
 	Label, Score, Story            string
 	FlaggedShare, Push, PushTexts  string
+	Harm, HarmParts                string
 	AboveWindows                   string
 	Cues                           []kv
 	Concentration                  string
@@ -73,7 +74,10 @@ func cmpOr(s, def string) string {
 func suspect(rank int, s explain.Suspect) suspectView {
 	p := s.Parts
 	sv := suspectView{Rank: rank, Filter: s.Filter, Width: s.Width, Label: s.Label, Score: num(s.Score),
-		FlaggedShare: pct(p.FlaggedShare), Push: signed(p.Push), PushTexts: count(p.PushTexts), AboveWindows: count(p.AboveWindows)}
+		FlaggedShare: pct(p.FlaggedShare), Push: signed(p.Push), PushTexts: count(p.PushTexts), AboveWindows: count(p.AboveWindows),
+		Harm: num(math.Max(0, p.Harm)),
+		HarmParts: fmt.Sprintf("%s = %s of the held-out texts with the cue have another gold label × masking raises their gold label's probability by %s on average",
+			signed(p.Harm), pct(p.ConflictShare), signed(p.ConflictGain))}
 	var cueWords []string
 	for _, c := range s.Cues {
 		cueWords = append(cueWords, "“"+c.Token+"”")

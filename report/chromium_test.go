@@ -2,10 +2,13 @@ package report
 
 import (
 	"bufio"
+	"bytes"
 	"context"
 	"encoding/base64"
 	"encoding/json"
 	"fmt"
+	"image"
+	"image/png"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -122,6 +125,8 @@ type domFacts struct {
 	Painted  int      `json:"painted"`
 	Text     string   `json:"text"`
 	Height   float64  `json:"height"`
+	// Tops maps each section id to its top edge in page pixels.
+	Tops map[string]float64 `json:"tops"`
 }
 
 // chromiumLoad opens file in headless Chromium at 1280 px wide and reports
@@ -269,6 +274,7 @@ func chromiumLoad(t *testing.T, file string, print bool) pageRun {
 		images: [...document.images].map(i => i.complete && i.naturalWidth > 0),
 		painted: document.querySelectorAll('.painted mark').length,
 		text: document.body.innerText,
+		tops: Object.fromEntries([...document.querySelectorAll('section')].map(s => [s.id, s.getBoundingClientRect().top + window.scrollY])),
 		height: document.documentElement.scrollHeight})))))`
 	if err := c.call(ctx, s, "Runtime.evaluate", map[string]any{"expression": facts, "awaitPromise": true, "returnByValue": true}, &ev); err != nil {
 		fail(err)
@@ -320,7 +326,9 @@ func needChromium(t *testing.T) {
 // texts added, in headless Chromium: no console error, no request other
 // than the file itself, no script element, every image decoded, every
 // section present, the hostile texts shown as text. It saves a screenshot
-// (to $TELLTALE_REPORT_PNG when set, else in the test's temporary folder).
+// in the test's temporary folder; with $TELLTALE_REPORT_PNG set it also
+// writes the top 4,000 pixels of the page there and the cue audit next to
+// it (name-audit.png).
 func TestChromiumLoadsReport(t *testing.T) {
 	needChromium(t)
 	in := screenshotInput(t)
@@ -367,16 +375,16 @@ func TestChromiumLoadsReport(t *testing.T) {
 		if in.Examples[len(in.Examples)-1].Text == hostileText && !strings.Contains(run.DOM.Text, hostileText) {
 			t.Errorf("%s: the hostile example text is not shown as text", what)
 		}
-		name := "report-" + what + ".png"
-		if dst := os.Getenv("TELLTALE_REPORT_PNG"); dst != "" && !print {
-			name = dst
-		} else {
-			name = filepath.Join(dir, name)
-		}
+		name := filepath.Join(dir, "report-"+what+".png")
 		if err := os.WriteFile(name, run.PNG, 0o644); err != nil {
 			t.Fatal(err)
 		}
 		t.Logf("%s: %d bytes of PNG in %s, page height %.0f px", what, len(run.PNG), name, run.DOM.Height)
+		if dst := os.Getenv("TELLTALE_REPORT_PNG"); dst != "" && !print {
+			// The top of the page, and the cue audit beside it.
+			saveCrop(t, run.PNG, 0, 4000, dst)
+			saveCrop(t, run.PNG, int(run.DOM.Tops["audit"]), 3600, strings.TrimSuffix(dst, ".png")+"-audit.png")
+		}
 	}
 }
 
@@ -404,4 +412,29 @@ func TestChromiumDetects(t *testing.T) {
 	if run.DOM.Scripts != 1 {
 		t.Errorf("%d scripts counted, want 1", run.DOM.Scripts)
 	}
+}
+
+// saveCrop writes rows [top, top+height) of the PNG page to path.
+func saveCrop(t *testing.T, page []byte, top, height int, path string) {
+	t.Helper()
+	img, err := png.Decode(bytes.NewReader(page))
+	if err != nil {
+		t.Fatal(err)
+	}
+	b := img.Bounds()
+	r := image.Rect(b.Min.X, b.Min.Y+top, b.Max.X, min(b.Max.Y, b.Min.Y+top+height))
+	sub, ok := img.(interface {
+		SubImage(image.Rectangle) image.Image
+	})
+	if !ok || r.Empty() {
+		t.Fatalf("cannot crop %v from a %v page", r, b)
+	}
+	var buf bytes.Buffer
+	if err := png.Encode(&buf, sub.SubImage(r)); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(path, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("saved %s (%d×%d)", path, r.Dx(), r.Dy())
 }

@@ -79,7 +79,7 @@ func TestDemoSections(t *testing.T) {
 		}
 	}
 	for _, s := range a.Filters[:min(suspectsShown, len(a.Filters))] {
-		w := fmt.Sprintf("Filter %d · width %d · votes %s · score %s = %s × %s", s.Filter, s.Width, s.Label, num(s.Score), pct(s.Parts.FlaggedShare), signed(s.Parts.Push))
+		w := fmt.Sprintf("Filter %d · width %d · votes %s · score %s = %s × %s", s.Filter, s.Width, s.Label, num(s.Score), pct(s.Parts.FlaggedShare), num(max(0, s.Parts.Harm)))
 		if !strings.Contains(out, w) {
 			t.Errorf("suspect heading %q missing", w)
 		}

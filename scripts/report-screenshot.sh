@@ -1,5 +1,6 @@
 #!/usr/bin/env bash
-# Saves docs/screenshots/report.png: the HTML report of the demo model,
+# Saves docs/screenshots/report.png (the top of the page) and
+# docs/screenshots/report-audit.png (its cue audit): the HTML report of the demo model,
 # rendered by headless Chromium through the report package's browser test
 # (which also checks that the page loads with no console error and no
 # network request). Trains the demo model first unless DEMO_MODEL names one.
