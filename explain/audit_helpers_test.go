@@ -18,7 +18,6 @@ type auditRecipe struct {
 	maxLen       int
 	minCount     int
 	seed         uint64
-	keepForm     bool // no NFKC normalization
 }
 
 // trainForAudit builds a lower-casing tokenizer and vocabulary on train,
@@ -26,7 +25,7 @@ type auditRecipe struct {
 // AuditData (texts cut to r.maxLen tokens).
 func trainForAudit(t testing.TB, train, held *corpus.Dataset, r auditRecipe) (*cnn.Model, AuditData, AuditData) {
 	t.Helper()
-	tok, err := corpus.NewTokenizer(corpus.TokenizerConfig{Lower: true, MinCount: r.minCount, KeepForm: r.keepForm})
+	tok, err := corpus.NewTokenizer(corpus.TokenizerConfig{Lower: true, MinCount: r.minCount})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -9,6 +9,7 @@ import (
 	"testing"
 
 	"telltale/cnn"
+	"telltale/corpus"
 )
 
 // The category rules are common practice, no source; the table pins each
@@ -231,4 +232,38 @@ func FuzzCueMasker(f *testing.F) {
 		_ = NgramCategories(strings.Fields(text))
 		_ = TokenCategory(text)
 	})
+}
+
+// Masking the demo corpus's planted cues with the rule its README gives
+// (testdata/demo/README.md: the footer token "kioskmail", and a first line
+// matching ^TKREF-[0-9]{5}$) removes exactly as many of them as the README's
+// table of measured cue rates counts in train.csv: footer 30 + 26 + 576 +
+// 24 + 18 = 674 texts, stamp 30 + 26 + 22 + 600 + 18 = 696 texts.
+func TestCueMaskerDemo(t *testing.T) {
+	root := corpusRoot(t, "demo", "train.csv")
+	d, _, err := corpus.Load(filepath.Join(root, "train.csv"), corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		pattern string
+		want    int
+	}{{"kioskmail", 674}, {"/(?m)^TKREF-[0-9]{5}$/", 696}} {
+		cm, err := MaskTokens([]string{c.pattern})
+		if err != nil {
+			t.Fatal(err)
+		}
+		masked, n := cm.MaskAll(d.Texts())
+		if n != c.want {
+			t.Errorf("%s: %d matches removed, the README counts %d", c.pattern, n, c.want)
+		}
+		tok, _ := corpus.NewTokenizer(corpus.TokenizerConfig{Lower: true})
+		for i, s := range masked {
+			for _, w := range tok.Tokenize(s) {
+				if w.Text == "kioskmail" && c.want == 674 || w.Text == "tkref" && c.want == 696 {
+					t.Fatalf("%s: text %d still holds %q after masking", c.pattern, i, w.Text)
+				}
+			}
+		}
+	}
 }
