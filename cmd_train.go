@@ -170,22 +170,27 @@ func runTrain(ctx context.Context, env *runEnv, df *dataFlags, rf *recipeFlags, 
 		return err
 	}
 	abs, _ := filepath.Abs(out)
-	if res.Cancelled && !quiet {
-		fmt.Fprintf(env.Stderr, "training interrupted after epoch %d; the best model so far (epoch %d) is saved in %s\n", len(res.Epochs), res.BestEpoch, abs)
-	}
 	summary := trainSummary{Model: abs, BestEpoch: res.BestEpoch, Epochs: len(res.Epochs), Cancelled: res.Cancelled,
 		StoppedEarly: res.StoppedEarly, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Seconds: time.Since(start).Seconds()}
 	if asJSON {
-		return writeJSON(env.Stdout, summary)
-	}
-	if !quiet {
+		if err := writeJSON(env.Stdout, summary); err != nil {
+			return err
+		}
+	} else if !quiet {
 		writeTrainSummary(env.Stdout, summary)
 	}
 	if res.Cancelled {
-		return context.Canceled
+		return interrupted(fmt.Sprintf("training interrupted after epoch %d; the best model so far (epoch %d) is saved in %s", len(res.Epochs), res.BestEpoch, abs))
 	}
 	return nil
 }
+
+// interrupted is the error of a run stopped by the user (exit code 1); its
+// message says what was kept. It matches context.Canceled under errors.Is.
+type interrupted string
+
+func (e interrupted) Error() string { return string(e) }
+func (e interrupted) Unwrap() error { return context.Canceled }
 
 // checkOutPath fails, naming path, when no file can be written there (it
 // is a folder, or its folder is missing or not writable), so that a long

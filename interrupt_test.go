@@ -1,0 +1,193 @@
+package main
+
+import (
+	"bufio"
+	"bytes"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"sync"
+	"syscall"
+	"testing"
+	"time"
+
+	"telltale/cnn"
+)
+
+// buildBinary builds the command with the ci tag into a temporary folder.
+func buildBinary(t *testing.T) string {
+	t.Helper()
+	bin := filepath.Join(t.TempDir(), "telltale")
+	cmd := exec.Command("go", "build", "-tags", "ci", "-o", bin, ".")
+	if out, err := cmd.CombinedOutput(); err != nil {
+		t.Fatalf("go build: %v\n%s", err, out)
+	}
+	return bin
+}
+
+// startTrain starts `telltale train` with args and returns the process, a
+// function that waits for a line of stderr containing want (or the end of
+// stderr), and one that waits for the process and returns its exit code and
+// all of stderr. Standard output goes to stdout.
+func startTrain(t *testing.T, bin string, stdout io.Writer, args ...string) (cmd *exec.Cmd, waitLine func(want string) bool, finish func() (int, string)) {
+	t.Helper()
+	cmd = exec.Command(bin, append([]string{"train"}, args...)...)
+	cmd.Stdout = stdout
+	pipe, err := cmd.StderrPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	var mu sync.Mutex
+	var all bytes.Buffer
+	lines := make(chan string, 100)
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		sc := bufio.NewScanner(pipe)
+		for sc.Scan() {
+			mu.Lock()
+			all.WriteString(sc.Text() + "\n")
+			mu.Unlock()
+			select {
+			case lines <- sc.Text():
+			default:
+			}
+		}
+		close(lines)
+	}()
+	t.Cleanup(func() { cmd.Process.Kill() })
+	waitLine = func(want string) bool {
+		for l := range lines {
+			if strings.Contains(l, want) {
+				return true
+			}
+		}
+		return false
+	}
+	finish = func() (int, string) {
+		go func() {
+			for range lines {
+			}
+		}()
+		<-done
+		err := cmd.Wait()
+		code := 0
+		var ee *exec.ExitError
+		if errors.As(err, &ee) {
+			code = ee.ExitCode() // -1 when killed by a signal
+		} else if err != nil {
+			t.Fatal(err)
+		}
+		mu.Lock()
+		defer mu.Unlock()
+		return code, all.String()
+	}
+	return cmd, waitLine, finish
+}
+
+// TestInterruptKeepsBestModel: SIGINT during `telltale train` stops it
+// with exit 1 (not a crash), the best model of the finished epochs is saved
+// where the message says, it loads and evaluates, and no temporary file is
+// left; before the first epoch ends, nothing is saved and the message says
+// so.
+func TestInterruptKeepsBestModel(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds the binary and trains in a child process; skipped with -short")
+	}
+	bin := buildBinary(t)
+
+	t.Run("after an epoch", func(t *testing.T) {
+		out := t.TempDir()
+		model := filepath.Join(out, "model.tt")
+		var stdout bytes.Buffer
+		cmd, waitLine, finish := startTrain(t, bin, &stdout, "--data", "testdata/demo/train.csv", "--out", model,
+			"--epochs", "1000", "--patience", "0", "--dim", "16", "--filters", "8", "--threads", "1", "--json")
+		if !waitLine("epoch 1/1000") {
+			_, stderr := finish()
+			t.Fatalf("no end of the first epoch on stderr:\n%s", stderr)
+		}
+		if err := cmd.Process.Signal(syscall.SIGINT); err != nil {
+			t.Fatal(err)
+		}
+		code, stderr := finish()
+		noCrash(t, "interrupted train", stderr)
+		if code != 1 {
+			t.Errorf("exit %d after SIGINT, want 1; stderr:\n%s", code, stderr)
+		}
+		abs, _ := filepath.Abs(model)
+		if !strings.Contains(stderr, "the best model so far (epoch ") || !strings.Contains(stderr, "is saved in "+abs) {
+			t.Errorf("stderr does not say that and where the best model was saved:\n%s", stderr)
+		}
+		var summary trainSummary
+		if err := json.Unmarshal(stdout.Bytes(), &summary); err != nil {
+			t.Errorf("--json output: %v\n%s", err, stdout.String())
+		}
+		if !summary.Cancelled || summary.Model != abs || summary.BestEpoch < 1 {
+			t.Errorf("--json output after SIGINT: %+v", summary)
+		}
+		m, err := cnn.Load(model)
+		if err != nil {
+			t.Fatalf("saved model does not load: %v", err)
+		}
+		if m.Info.BestEpoch < 1 {
+			t.Errorf("saved model records best epoch %d", m.Info.BestEpoch)
+		}
+		if code, outp, errs := tt(t, "eval", "--model", model, "--data", "testdata/demo/test.csv"); code != 0 || !strings.Contains(outp, "accuracy") {
+			t.Errorf("eval of the saved model: exit %d\n%s%s", code, outp, errs)
+		}
+		if got := listTree(t, out); fmt.Sprint(got) != "[model.tt]" {
+			t.Errorf("output folder holds %q, want only model.tt", got)
+		}
+	})
+
+	t.Run("before the first epoch ends", func(t *testing.T) {
+		// Ten copies of the demo corpus and the default model size make the
+		// first epoch long enough to interrupt it.
+		src, err := os.ReadFile("testdata/demo/train.csv")
+		if err != nil {
+			t.Fatal(err)
+		}
+		header, body, _ := bytes.Cut(src, []byte("\n"))
+		big := append(append([]byte(nil), header...), '\n')
+		for i := 0; i < 10; i++ {
+			big = append(big, body...)
+		}
+		data := filepath.Join(t.TempDir(), "big.csv")
+		if err := os.WriteFile(data, big, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		out := t.TempDir()
+		model := filepath.Join(out, "model.tt")
+		cmd, waitLine, finish := startTrain(t, bin, io.Discard, "--data", data, "--out", model, "--epochs", "5", "--threads", "1")
+		if !waitLine("training on") {
+			_, stderr := finish()
+			t.Fatalf("training did not start:\n%s", stderr)
+		}
+		time.Sleep(100 * time.Millisecond) // into the first batches; not a timing assertion
+		if err := cmd.Process.Signal(syscall.SIGINT); err != nil {
+			t.Fatal(err)
+		}
+		code, stderr := finish()
+		noCrash(t, "interrupted train", stderr)
+		if strings.Contains(stderr, "epoch 1/5") {
+			t.Skipf("the first epoch ended before the interrupt arrived; nothing to check:\n%s", stderr)
+		}
+		if code != 1 {
+			t.Errorf("exit %d after SIGINT, want 1; stderr:\n%s", code, stderr)
+		}
+		if !strings.Contains(stderr, "nothing saved to "+model) {
+			t.Errorf("stderr does not say that nothing was saved:\n%s", stderr)
+		}
+		if got := listTree(t, out); len(got) != 0 {
+			t.Errorf("output folder holds %q, want nothing", got)
+		}
+	})
+}
