@@ -31,8 +31,7 @@ type Runner struct {
 	x     []int32
 	rows  [][][]float32 // [bank][position] → width·filters slot scores
 	extra [][]float32   // [bank] scratch for words not tabled
-	acc   []float32
-	win   [][]float32 // [bank] windows × filters pre-activations (kept when keep)
+	win   [][]float32   // [bank] windows × filters pre-activations (kept when keep)
 	keep  bool
 	p     Pass
 }
@@ -46,7 +45,6 @@ func (st *SlotTable) NewRunner() *Runner {
 		rows:  make([][][]float32, len(st.banks)),
 		extra: make([][]float32, len(st.banks)),
 		win:   make([][]float32, len(st.banks)),
-		acc:   make([]float32, cfg.Filters),
 		p: Pass{
 			Pre: make([]float32, nf), Start: make([]int32, nf), Pooled: make([]float32, nf),
 			Logits: make([]float32, cfg.Classes), Probs: make([]float32, cfg.Classes),
@@ -109,36 +107,20 @@ func (r *Runner) load(ids []int32) {
 func (r *Runner) pool() {
 	st := r.st
 	m := st.m
-	cfg := m.Config
 	n := r.p.Len
-	acc := r.acc
 	for b := range st.banks {
 		tb := &st.banks[b]
 		F, w := tb.filters, tb.width
-		nw := n - w + 1
+		var win []float32
 		if r.keep {
+			nw := n - w + 1
 			if cap(r.win[b]) < nw*F {
 				r.win[b] = make([]float32, nw*F)
 			}
 			r.win[b] = r.win[b][:nw*F]
+			win = r.win[b]
 		}
-		pre := r.p.Pre[b*F : (b+1)*F]
-		start := r.p.Start[b*F : (b+1)*F]
-		rows := r.rows[b]
-		for f := range start {
-			pre[f], start[f] = negInf, 0
-		}
-		for t := 0; t < nw; t++ {
-			windowSum(acc, tb.bias, rows[t:t+w], F)
-			if r.keep {
-				copy(r.win[b][t*F:(t+1)*F], acc)
-			}
-			for f, a := range acc {
-				if a > pre[f] {
-					pre[f], start[f] = a, int32(t)
-				}
-			}
-		}
+		poolBank(r.p.Pre[b*F:(b+1)*F], r.p.Start[b*F:(b+1)*F], tb.bias, r.rows[b][:n], w, F, win)
 	}
 	for g, a := range r.p.Pre {
 		if a > 0 && !m.IsMasked(g) {
@@ -147,39 +129,9 @@ func (r *Runner) pool() {
 			r.p.Pooled[g] = 0
 		}
 	}
-	_ = cfg
 	m.Head(r.p.Pooled, r.p.Logits)
 	cnn.Softmax(r.p.Logits, r.p.Probs)
 	r.p.Pred = argmax32(r.p.Logits)
-}
-
-// windowSum sets acc to bias + Σ_s rows[s][s·F:(s+1)·F], summed left to
-// right (the same order as adding one row at a time), with the common widths
-// unrolled.
-func windowSum(acc, bias []float32, rows [][]float32, F int) {
-	acc, bias = acc[:F], bias[:F]
-	switch len(rows) {
-	case 3:
-		r0, r1, r2 := rows[0][:F], rows[1][F:2*F], rows[2][2*F:3*F]
-		for f := range acc {
-			acc[f] = bias[f] + r0[f] + r1[f] + r2[f]
-		}
-	case 4:
-		r0, r1, r2, r3 := rows[0][:F], rows[1][F:2*F], rows[2][2*F:3*F], rows[3][3*F:4*F]
-		for f := range acc {
-			acc[f] = bias[f] + r0[f] + r1[f] + r2[f] + r3[f]
-		}
-	case 5:
-		r0, r1, r2, r3, r4 := rows[0][:F], rows[1][F:2*F], rows[2][2*F:3*F], rows[3][3*F:4*F], rows[4][4*F:5*F]
-		for f := range acc {
-			acc[f] = bias[f] + r0[f] + r1[f] + r2[f] + r3[f] + r4[f]
-		}
-	default:
-		copy(acc, bias)
-		for s, row := range rows {
-			addTo(acc, row[s*F:(s+1)*F])
-		}
-	}
 }
 
 func argmax32(v []float32) int {
