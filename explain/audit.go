@@ -147,8 +147,14 @@ type Suspect struct {
 	Label  string  `json:"label"`
 	Score  float64 `json:"score"`
 	Parts  Parts   `json:"parts"`
-	// Cues are its cue words: flagged words carrying most of its slot mass.
-	Cues          []Cue           `json:"cues"`
+	// Cues are its cue words: flagged words carrying most of its slot mass
+	// (the heaviest, then those of the same label with at least CueShare of
+	// the mass, at most MaxCues). The interventions act on them.
+	Cues []Cue `json:"cues"`
+	// Words lists every flagged word in at least 5% of its above-threshold
+	// windows (at most 10, by mass share): what its windows hold, whether
+	// or not the word's own slot score drives the activation.
+	Words         []Cue           `json:"flagged_words"`
 	Concentration Concentration   `json:"concentration"`
 	TopNgrams     []AuditNgram    `json:"top_ngrams"`
 	Categories    []CategoryShare `json:"categories"`
@@ -819,6 +825,23 @@ func (a *auditor) suspect(g int, base cnn.Metrics) Suspect {
 		s.Cues = append(s.Cues, Cue{Token: st.Token, ID: w.id, Label: labels[st.Class], Z: st.Z,
 			MassShare: w.v / e.mass, WindowShare: float64(e.cueWins[w.id]) / float64(max(1, e.above))})
 	}
+	for id, n := range e.cueWins {
+		if share := float64(n) / float64(max(1, e.above)); share >= 0.05 {
+			st := a.assoc.Stat(id)
+			s.Words = append(s.Words, Cue{Token: st.Token, ID: id, Label: labels[st.Class], Z: st.Z,
+				MassShare: e.cueMass[id] / e.mass, WindowShare: share})
+		}
+	}
+	slices.SortFunc(s.Words, func(x, y Cue) int {
+		if x.MassShare != y.MassShare {
+			return cmp.Compare(y.MassShare, x.MassShare)
+		}
+		if x.WindowShare != y.WindowShare {
+			return cmp.Compare(y.WindowShare, x.WindowShare)
+		}
+		return cmp.Compare(x.ID, y.ID)
+	})
+	s.Words = s.Words[:min(len(s.Words), 10)]
 	s.Concentration = concentration(m, e)
 	s.TopNgrams, s.Categories = a.categories(g)
 

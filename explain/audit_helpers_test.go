@@ -4,6 +4,7 @@ import (
 	"context"
 	"os"
 	"path/filepath"
+	"slices"
 	"testing"
 
 	"telltale/cnn"
@@ -77,13 +78,13 @@ func auditAccuracy(t testing.TB, m *cnn.Model, d AuditData) float64 {
 	return mt.Accuracy
 }
 
-// keyedOn reports whether suspect s has a cue word in words.
+// keyedOn reports whether suspect s is keyed on one of words: the word is
+// one of its cues, or it lies in at least 30% of the filter's windows at or
+// above its purity threshold.
 func keyedOn(s Suspect, words ...string) bool {
-	for _, c := range s.Cues {
-		for _, w := range words {
-			if c.Token == w {
-				return true
-			}
+	for _, c := range append(slices.Clone(s.Cues), s.Words...) {
+		if slices.Contains(words, c.Token) && (c.WindowShare >= 0.3 || slices.ContainsFunc(s.Cues, func(x Cue) bool { return x.ID == c.ID })) {
+			return true
 		}
 	}
 	return false

@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"fmt"
 	"io"
+	"slices"
 	"strings"
 	"text/tabwriter"
 )
@@ -46,6 +47,15 @@ func (a *Audit) WriteText(w io.Writer) error {
 				quoteTok(c.Token), c.Label, c.Z, 100*c.MassShare, 100*c.WindowShare))
 		}
 		p("   It fires on %s.\n", strings.Join(cues, "; "))
+		var others []string
+		for _, c := range s.Words {
+			if !slices.ContainsFunc(s.Cues, func(x Cue) bool { return x.ID == c.ID }) && c.WindowShare >= 0.25 {
+				others = append(others, fmt.Sprintf("%s (%.0f%%)", quoteTok(c.Token), 100*c.WindowShare))
+			}
+		}
+		if len(others) > 0 {
+			p("   Its windows also hold the flagged %s.\n", strings.Join(others, ", "))
+		}
 		p("   Of its %d training windows at or above its purity threshold %.3f, %.0f%% of the slot mass is on flagged words.\n",
 			s.Parts.AboveWindows, s.Parts.Threshold, 100*s.Parts.FlaggedShare)
 		cc := s.Concentration
