@@ -5,9 +5,11 @@ import (
 	"flag"
 	"fmt"
 	"path/filepath"
+	"strings"
 
 	"telltale/cnn"
 	"telltale/explain"
+	"telltale/report"
 )
 
 func init() {
@@ -32,7 +34,11 @@ label. Suspects are ranked by a score whose every part is shown.`,
 			asJSON := fs.Bool("json", false, "print the audit as one JSON object")
 			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
 			quiet := fs.Bool("quiet", false, "no progress bar or warnings")
+			export := fs.String("export", "", "also write the suspect filters to this .csv or .jsonl file (and the flagged tokens beside it, NAME.tokens.csv)")
 			return func(ctx context.Context, env *runEnv) error {
+				if err := checkExport(*export); err != nil {
+					return err
+				}
 				m, _, err := openModel(*modelPath)
 				if err != nil {
 					return err
@@ -59,6 +65,15 @@ label. Suspects are ranked by a score whose every part is shown.`,
 				bar.done()
 				if err != nil {
 					return err
+				}
+				if *export != "" {
+					if err := report.WriteTableFile(*export, report.SuspectTable(a)); err != nil {
+						return err
+					}
+					ext := filepath.Ext(*export)
+					if err := report.WriteTableFile(strings.TrimSuffix(*export, ext)+".tokens"+ext, report.TokenTable(a)); err != nil {
+						return err
+					}
 				}
 				if *asJSON {
 					return writeJSON(env.Stdout, a)

@@ -9,6 +9,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/report"
 )
 
 func init() {
@@ -28,7 +29,11 @@ calibration error over equal-width confidence bins.`,
 			bins := fs.Int("bins", cnn.DefaultBins, "equal-width bins for the calibration error")
 			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
 			quiet := fs.Bool("quiet", false, "print no warnings")
+			export := fs.String("export", "", "also write every prediction with its probabilities to this .csv or .jsonl file")
 			return func(ctx context.Context, env *runEnv) error {
+				if err := checkExport(*export); err != nil {
+					return err
+				}
 				m, enc, err := openModel(*modelPath)
 				if err != nil {
 					return err
@@ -48,9 +53,14 @@ calibration error over equal-width confidence bins.`,
 				if err != nil {
 					return err
 				}
-				if *bins != cnn.DefaultBins {
+				if *bins != cnn.DefaultBins || *export != "" {
 					probs := m.Probabilities(data.IDs, *threads)
 					met = metricsWithBins(m, data, probs, *bins)
+					if *export != "" {
+						if err := report.WriteTableFile(*export, report.PredictionTable(m.Labels, ds.Texts(), data.Labels, probs)); err != nil {
+							return err
+						}
+					}
 				}
 				if *asJSON {
 					return writeJSON(env.Stdout, met)
@@ -70,22 +80,37 @@ and the probability of each class.`,
 			modelPath := fs.String("model", "", "model file written by train")
 			text := fs.String("text", "", "the text to label (default: one text per line of standard input)")
 			asJSON := fs.Bool("json", false, "print one JSON object per text")
+			export := fs.String("export", "", "also write the predictions to this .csv or .jsonl file")
 			return func(ctx context.Context, env *runEnv) error {
+				if err := checkExport(*export); err != nil {
+					return err
+				}
 				m, enc, err := openModel(*modelPath)
 				if err != nil {
 					return err
 				}
 				pr := m.NewPredictor()
 				out := make([]cnn.Output, 1)
+				var texts []string
+				var probs [][]float32
 				emit := func(t string) error {
 					_, ids := enc.Encode(t)
 					pr.Run([][]int32{ids}, out)
+					if *export != "" {
+						texts, probs = append(texts, t), append(probs, append([]float32(nil), out[0].Probs...))
+					}
 					return writePrediction(env.Stdout, m, t, out[0].Probs, *asJSON)
 				}
+				var err2 error
 				if *text != "" {
-					return emit(*text)
+					err2 = emit(*text)
+				} else {
+					err2 = eachLine(ctx, env.Stdin, emit)
 				}
-				return eachLine(ctx, env.Stdin, emit)
+				if err2 != nil || *export == "" {
+					return err2
+				}
+				return report.WriteTableFile(*export, report.PredictionTable(m.Labels, texts, nil, probs))
 			}
 		},
 	})
@@ -183,4 +208,15 @@ func writeMetrics(w io.Writer, m cnn.Metrics) {
 		}
 		fmt.Fprintln(w)
 	}
+}
+
+// checkExport refuses an export path of an unknown format before any work.
+func checkExport(path string) error {
+	if path == "" {
+		return nil
+	}
+	if _, err := report.ExportFormat(path); err != nil {
+		return usagef("--export %s: the file must end in .csv or .jsonl", path)
+	}
+	return nil
 }

@@ -13,6 +13,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/explain"
+	"telltale/report"
 )
 
 func init() {
@@ -37,7 +38,11 @@ idle.`,
 			asJSON := fs.Bool("json", false, "print the profiles as one JSON object")
 			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
 			quiet := fs.Bool("quiet", false, "no progress bar or warnings")
+			export := fs.String("export", "", "also write the top n-grams of every filter to this .csv or .jsonl file")
 			return func(ctx context.Context, env *runEnv) error {
+				if err := checkExport(*export); err != nil {
+					return err
+				}
 				m, enc, err := openModel(*modelPath)
 				if err != nil {
 					return err
@@ -69,6 +74,11 @@ idle.`,
 					}
 					prof.Filters = prof.Filters[*only : *only+1]
 				}
+				if *export != "" {
+					if err := report.WriteTableFile(*export, report.ProfileTable(prof)); err != nil {
+						return err
+					}
+				}
 				if *asJSON {
 					return writeJSON(env.Stdout, prof)
 				}
@@ -99,7 +109,11 @@ on it, and never use a classifier alone for decisions about people.`,
 			windows := fs.String("windows", "", "also occlude every n-gram window of these widths, e.g. 2,3")
 			asJSON := fs.Bool("json", false, "print one JSON object per text")
 			color := fs.String("color", "auto", "paint with colours: auto (when standard output is a terminal), always or never")
+			export := fs.String("export", "", "also write every token's attributions to this .csv or .jsonl file")
 			return func(ctx context.Context, env *runEnv) error {
+				if err := checkExport(*export); err != nil {
+					return err
+				}
 				switch *method {
 				case explain.MethodExact, explain.MethodOcclusion, explain.MethodIG:
 				default:
@@ -130,12 +144,16 @@ on it, and never use a classifier alone for decisions about people.`,
 						paint = term.IsTerminal(int(f.Fd()))
 					}
 				}
-				opt := explain.ExplainOptions{Occlusion: true, OcclusionWidths: ws, IG: *method == explain.MethodIG || *asJSON}
+				opt := explain.ExplainOptions{Occlusion: true, OcclusionWidths: ws, IG: *method == explain.MethodIG || *asJSON || *export != ""}
+				var all []*explain.Explanation
 				one := func(t string) error {
 					toks, ids := enc.Encode(t)
 					e, err := explain.Explain(m, toks, ids, opt)
 					if err != nil {
 						return err
+					}
+					if *export != "" {
+						all = append(all, e)
 					}
 					if *asJSON {
 						b, err := jsonLine(e)
@@ -148,9 +166,14 @@ on it, and never use a classifier alone for decisions about people.`,
 					return writeExplanation(env.Stdout, t, e, *method, cls, paint)
 				}
 				if *text != "" {
-					return one(*text)
+					err = one(*text)
+				} else {
+					err = eachLine(ctx, env.Stdin, one)
 				}
-				return eachLine(ctx, env.Stdin, one)
+				if err != nil || *export == "" {
+					return err
+				}
+				return report.WriteTableFile(*export, report.AttributionTable(all))
 			}
 		},
 	})

@@ -1,12 +1,8 @@
 package report
 
 import (
-	"bytes"
 	"errors"
-	"fmt"
 	"io"
-	"os"
-	"path/filepath"
 	"time"
 
 	"telltale/cnn"
@@ -111,37 +107,6 @@ func (r *Report) WriteHTML(w io.Writer) error {
 // WriteFile writes the report to path atomically: a temporary file in the
 // same directory is written, synced and renamed over path, so a failure
 // never leaves a partial report behind.
-func WriteFile(path string, r *Report) (err error) {
-	var buf bytes.Buffer
-	if err := r.WriteHTML(&buf); err != nil {
-		return fmt.Errorf("report: %s: %w", path, err)
-	}
-	dir := filepath.Dir(path)
-	f, err := os.CreateTemp(dir, "."+filepath.Base(path)+".*.tmp")
-	if err != nil {
-		return fmt.Errorf("report: %s: %w (is the folder there and writable?)", path, err)
-	}
-	tmp := f.Name()
-	defer func() {
-		if err != nil {
-			f.Close()
-			os.Remove(tmp)
-		}
-	}()
-	if _, err = f.Write(buf.Bytes()); err != nil {
-		return fmt.Errorf("report: %s: %w", path, err)
-	}
-	if err = f.Sync(); err != nil {
-		return fmt.Errorf("report: %s: %w", path, err)
-	}
-	if err = f.Chmod(0o644); err != nil {
-		return fmt.Errorf("report: %s: %w", path, err)
-	}
-	if err = f.Close(); err != nil {
-		return fmt.Errorf("report: %s: %w", path, err)
-	}
-	if err = os.Rename(tmp, path); err != nil {
-		return fmt.Errorf("report: %s: %w", path, err)
-	}
-	return nil
+func WriteFile(path string, r *Report) error {
+	return writeAtomic(path, r.WriteHTML)
 }
