@@ -2,6 +2,7 @@ package explain
 
 import (
 	"context"
+	"flag"
 	"fmt"
 	"math/rand/v2"
 	"syscall"
@@ -104,5 +105,64 @@ func BenchmarkSlotTable(b *testing.B) {
 	b.ReportAllocs()
 	for b.Loop() {
 		_, _ = NewSlotTable(m, TableOptions{})
+	}
+}
+
+var profileTexts = flag.Int("profile-texts", 100000, "texts streamed by BenchmarkProfile1M (1000000 for the full-size run)")
+
+// BenchmarkProfile1M profiles a streamed synthetic corpus with the default
+// recipe's shape (128-d, widths 3/4/5 × 100, 20,000 words, texts of 20–80
+// Zipf-distributed tokens; see zipfSource), table build included. It streams
+// -profile-texts texts (100,000 by default; the bench harness passes
+// 1000000) and reports texts/s, texts per CPU-second and the wall seconds
+// that 1M texts take at that rate.
+func BenchmarkProfile1M(b *testing.B) {
+	m := benchModel(20000)
+	n := *profileTexts
+	b.ReportAllocs()
+	c0 := cpuTime()
+	for b.Loop() {
+		if _, err := ProfileStream(context.Background(), m, zipfSource(m, n, 22), ProfileOptions{}); err != nil {
+			b.Fatal(err)
+		}
+	}
+	rate := float64(n*b.N) / b.Elapsed().Seconds()
+	b.ReportMetric(rate, "texts/s")
+	b.ReportMetric(float64(n*b.N)/(cpuTime()-c0).Seconds(), "texts/cpu-s")
+	b.ReportMetric(1e6/rate, "s/1M-texts")
+}
+
+// BenchmarkKernels compares every kernel set of this build on the profile's
+// inner loop (one bank of 100 filters of width 4 over 77 positions) and on
+// the table build of 200 words.
+func BenchmarkKernels(b *testing.B) {
+	rng := rand.New(rand.NewPCG(23, 23))
+	const F, w, n, d = 100, 4, 77, 128
+	vocab := make([][]float32, 500)
+	for i := range vocab {
+		vocab[i] = randSlice(rng, w*F)
+	}
+	rows := make([][]float32, n)
+	for i := range rows {
+		rows[i] = vocab[rng.IntN(len(vocab))]
+	}
+	bias := randSlice(rng, F)
+	pre, start := make([]float32, F), make([]int32, F)
+	emb, wt := randSlice(rng, 200*d), randSlice(rng, 1200*d)
+	c := make([]float32, 200*1200)
+	for _, ks := range kernelSets() {
+		b.Run("poolBank/"+ks.name, func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				ks.poolBank(pre, start, bias, rows, w, F, nil)
+			}
+		})
+		b.Run("matMulNT/"+ks.name, func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				ks.matMulNT(c, emb, wt, 200, 1200, d)
+			}
+			b.ReportMetric(2*200*1200*d*float64(b.N)/b.Elapsed().Seconds()/1e9, "GFLOP/s")
+		})
 	}
 }

@@ -9,6 +9,8 @@ import (
 	"runtime"
 	"slices"
 	"sort"
+	"sync/atomic"
+	"unsafe"
 
 	"telltale/cnn"
 	"telltale/corpus"
@@ -163,21 +165,17 @@ func (p FilterProfile) MarshalJSON() ([]byte, error) {
 
 // Profile runs every text of ids through m once and describes each filter.
 // Gold, when not nil, gives each text's gold class (len(gold) = len(ids)).
-// Ids must be < VocabSize. Memory is bounded independently of the number of
-// texts: per filter and worker it keeps a heap of the Pool best distinct
-// n-grams, the ExactTop largest activations and a histogram of 1024 fine bins
-// by class. It returns ctx.Err() when cancelled.
+// Ids must be < VocabSize. Without opt.Table it tables the words of the
+// texts, most frequent first. Memory beyond the texts and the table is
+// bounded independently of the number of texts (see ProfileStream). It
+// returns ctx.Err() when cancelled.
 func Profile(ctx context.Context, m *cnn.Model, ids [][]int32, gold []int, opt ProfileOptions) (*Profiles, error) {
-	opt.defaults()
 	cfg := m.Config
 	if gold != nil && len(gold) != len(ids) {
 		return nil, fmt.Errorf("explain: %d gold labels for %d texts", len(gold), len(ids))
 	}
-	counts := opt.Counts
-	if counts == nil {
-		counts = make([]int, cfg.VocabSize)
-	} else if len(counts) != cfg.VocabSize {
-		return nil, fmt.Errorf("explain: %d word counts for a vocabulary of %d", len(counts), cfg.VocabSize)
+	if opt.Counts != nil && len(opt.Counts) != cfg.VocabSize {
+		return nil, fmt.Errorf("explain: %d word counts for a vocabulary of %d", len(opt.Counts), cfg.VocabSize)
 	}
 	seen := make([]int, cfg.VocabSize)
 	for i, text := range ids {
@@ -192,10 +190,9 @@ func Profile(ctx context.Context, m *cnn.Model, ids [][]int32, gold []int, opt P
 		}
 	}
 	if opt.Counts == nil {
-		copy(counts, seen)
+		opt.Counts = seen
 	}
-	st := opt.Table
-	if st == nil {
+	if opt.Table == nil {
 		var words []int32
 		for id, n := range seen {
 			if n > 0 {
@@ -203,12 +200,66 @@ func Profile(ctx context.Context, m *cnn.Model, ids [][]int32, gold []int, opt P
 			}
 		}
 		slices.SortStableFunc(words, func(a, b int32) int { return cmp.Compare(seen[b], seen[a]) })
-		var err error
-		if st, err = NewSlotTable(m, TableOptions{Words: words, MaxBytes: opt.TableMax, Workers: opt.Workers}); err != nil {
+		st, err := NewSlotTable(m, TableOptions{Words: words, MaxBytes: opt.TableMax, Workers: opt.Workers})
+		if err != nil {
 			return nil, err
 		}
-	} else if st.m != m {
+		opt.Table = st
+	}
+	return profile(ctx, m, SliceSource(ids, gold), len(ids), opt)
+}
+
+// ProfileStream is Profile over texts read one at a time from next, for
+// corpora too big to hold: it keeps at most a few batches of texts in memory
+// at once besides the table and the per-filter summaries (bounded heaps and
+// a histogram of 1024 fine bins per filter and worker), so its memory does
+// not grow with the number of texts. Texts with gold −1 count in no gold
+// column; ByGold is reported when at least one text has a gold class.
+//
+// Without opt.Table it tables the whole vocabulary up to opt.TableMax, most
+// frequent first when opt.Counts is given and in vocabulary order (the order
+// corpus.Vocab gives: most frequent first) otherwise; without opt.Counts the
+// slot words' counts are those of the streamed texts. Progress gets total 0.
+// It returns next's error, an error naming the first text with an id
+// outside the vocabulary or a gold class outside the model's, or ctx.Err()
+// when cancelled.
+func ProfileStream(ctx context.Context, m *cnn.Model, next TextSource, opt ProfileOptions) (*Profiles, error) {
+	cfg := m.Config
+	if opt.Counts != nil && len(opt.Counts) != cfg.VocabSize {
+		return nil, fmt.Errorf("explain: %d word counts for a vocabulary of %d", len(opt.Counts), cfg.VocabSize)
+	}
+	if opt.Table == nil {
+		var words []int32
+		if opt.Counts != nil {
+			words = make([]int32, cfg.VocabSize)
+			for i := range words {
+				words[i] = int32(i)
+			}
+			slices.SortStableFunc(words, func(a, b int32) int { return cmp.Compare(opt.Counts[b], opt.Counts[a]) })
+		}
+		st, err := NewSlotTable(m, TableOptions{Words: words, MaxBytes: opt.TableMax, Workers: opt.Workers})
+		if err != nil {
+			return nil, err
+		}
+		opt.Table = st
+	}
+	return profile(ctx, m, next, 0, opt)
+}
+
+// profile is the pass shared by Profile and ProfileStream: opt.Table is set;
+// opt.Counts nil means count the streamed words.
+func profile(ctx context.Context, m *cnn.Model, next TextSource, total int, opt ProfileOptions) (*Profiles, error) {
+	opt.defaults()
+	cfg := m.Config
+	st := opt.Table
+	if st.m != m {
 		return nil, fmt.Errorf("explain: the slot table was built for another model")
+	}
+	counts := opt.Counts
+	var streamCounts []int
+	if counts == nil {
+		streamCounts = make([]int, cfg.VocabSize)
+		counts = streamCounts
 	}
 	nf := cfg.NumFilters()
 	votes := make([]int, nf)
@@ -224,11 +275,12 @@ func Profile(ctx context.Context, m *cnn.Model, ids [][]int32, gold []int, opt P
 	for w := range accs {
 		accs[w] = newFilterAccs(cfg, &opt, ub)
 	}
-	err := Scan(ctx, st, ids, workers, opt.Progress, func(wk, text int, p *Pass) {
+	var haveGold atomic.Bool
+	texts, err := scanStream(ctx, st, next, workers, opt.Progress, total, streamCounts, func(wk, text, gd int, p *Pass) {
 		a := accs[wk]
-		gd := -1
-		if gold != nil {
-			gd = gold[text]
+		if gd >= 0 && !a.gold {
+			a.gold = true
+			haveGold.Store(true)
 		}
 		for g := 0; g < nf; g++ {
 			a.filters[g].add(p, g, text, gd, p.Pred == votes[g], cfg.Classes)
@@ -237,10 +289,10 @@ func Profile(ctx context.Context, m *cnn.Model, ids [][]int32, gold []int, opt P
 	if err != nil {
 		return nil, err
 	}
-	out := &Profiles{Texts: len(ids), Labels: labelNames(m), Purity: opt.Purity, Filters: make([]FilterProfile, nf)}
+	out := &Profiles{Texts: texts, Labels: labelNames(m), Purity: opt.Purity, Filters: make([]FilterProfile, nf)}
 	parallelRows(nf, workers, 1, func(lo, hi int) {
 		for g := lo; g < hi; g++ {
-			out.Filters[g] = finishProfile(st, g, votes[g], accs, counts, len(ids), gold != nil, &opt)
+			out.Filters[g] = finishProfile(st, g, votes[g], accs, counts, texts, haveGold.Load(), &opt)
 		}
 	})
 	return out, ctx.Err()
@@ -288,19 +340,23 @@ func upperBounds(st *SlotTable) []float32 {
 
 const fineBins = 1024
 
-type filterAccs struct{ filters []filterAcc }
+type filterAccs struct {
+	filters []filterAcc
+	gold    bool // some text had a gold class
+}
 
 type filterAcc struct {
 	width    int
 	pool     ngramHeap
 	index    map[string]*ngramEntry
-	top      actHeap
+	top      topActs
 	hist     []int32 // fineBins × 2: [bin][in-class]
 	scale    float32 // fineBins / ub
 	notFired int
 	fired    int
 	maxAct   float32
 	key      []byte
+	slab     []ngramEntry // entries not yet used
 	opt      *ProfileOptions
 }
 
@@ -319,7 +375,8 @@ func newFilterAccs(cfg cnn.Config, opt *ProfileOptions, ub []float32) *filterAcc
 }
 
 type ngramEntry struct {
-	key      string
+	key      string // the window's ids, 4 bytes each; points into kb
+	kb       []byte
 	act      float32
 	count    int
 	examples []int
@@ -366,19 +423,46 @@ func (fa *filterAcc) add(p *Pass, g, text, gold int, inClass bool, classes int) 
 		e.note(text, p.Pred, gold, fa.opt.Examples)
 		return
 	}
+	var e *ngramEntry
 	if len(pool.e) == fa.opt.Pool {
 		if worse(a, string(fa.key), pool.e[0]) {
 			return
 		}
-		delete(fa.index, pool.pop().key)
+		// The evicted entry's slices are reused: only the key allocates.
+		e = pool.pop()
+		delete(fa.index, e.key)
+		clear(e.byPred)
+		clear(e.byGold)
+		*e = ngramEntry{kb: e.kb, examples: e.examples[:0], byPred: e.byPred, byGold: e.byGold}
+	} else {
+		e = fa.newEntry(classes)
 	}
-	e := &ngramEntry{key: string(fa.key), act: a, byPred: make([]int, classes)}
-	if gold >= 0 {
-		e.byGold = make([]int, classes)
-	}
+	// The key is a string over the entry's own bytes, rewritten only after
+	// the entry left the index, so replacing an entry allocates nothing.
+	e.kb = append(e.kb[:0], fa.key...)
+	e.key, e.act = unsafe.String(unsafe.SliceData(e.kb), len(e.kb)), a
 	e.note(text, p.Pred, gold, fa.opt.Examples)
 	fa.index[e.key] = e
 	pool.push(e)
+}
+
+// newEntry takes a fresh entry from the filter's slab, allocated at once for
+// Pool entries on first use.
+func (fa *filterAcc) newEntry(classes int) *ngramEntry {
+	if len(fa.slab) == 0 {
+		n := fa.opt.Pool
+		fa.slab = make([]ngramEntry, n)
+		counts := make([]int, 2*classes*n)
+		keys := make([]byte, 4*fa.width*n)
+		for i := range fa.slab {
+			c := counts[2*classes*i:]
+			fa.slab[i] = ngramEntry{byPred: c[:classes:classes], byGold: c[classes : 2*classes : 2*classes],
+				kb: keys[4*fa.width*i : 4*fa.width*i : 4*fa.width*(i+1)]}
+		}
+	}
+	e := &fa.slab[0]
+	fa.slab = fa.slab[1:]
+	return e
 }
 
 func (e *ngramEntry) note(text, pred, gold, keep int) {
@@ -448,49 +532,69 @@ type actEntry struct {
 	in bool
 }
 
-// actHeap keeps the largest activations (a min-heap of at most cap values)
-// and whether anything was dropped.
-type actHeap struct {
+// topActs keeps the largest activations pushed: at least the capacity
+// largest, and every value above its floor. Values go to the end of a buffer
+// of up to twice the capacity; a full buffer is cut to its capacity largest
+// by selection (Hoare's FIND, 1961), which sets the floor. That costs O(1)
+// per push on average, where a heap would cost a logarithm with scattered
+// memory accesses. Dropped records whether any value was left out.
+type topActs struct {
 	e       []actEntry
+	floor   float32
+	full    bool
 	dropped bool
 }
 
-func (h *actHeap) push(v actEntry, capacity int) {
-	if len(h.e) == capacity {
+func (h *topActs) push(v actEntry, capacity int) {
+	if h.full && v.a <= h.floor {
 		h.dropped = true
-		if v.a <= h.e[0].a {
-			return
-		}
-		h.e[0] = v
-		h.down(0)
 		return
 	}
+	if h.e == nil {
+		h.e = make([]actEntry, 0, 2*capacity)
+	}
 	h.e = append(h.e, v)
-	for i := len(h.e) - 1; i > 0; {
-		p := (i - 1) / 2
-		if h.e[i].a >= h.e[p].a {
-			break
+	if len(h.e) >= 2*capacity {
+		selectTop(h.e, capacity)
+		h.e = h.e[:capacity]
+		h.floor = h.e[0].a
+		for _, x := range h.e[1:] {
+			h.floor = min(h.floor, x.a)
 		}
-		h.e[i], h.e[p] = h.e[p], h.e[i]
-		i = p
+		h.full, h.dropped = true, true
 	}
 }
 
-func (h *actHeap) down(i int) {
-	n := len(h.e)
-	for {
-		l, r, s := 2*i+1, 2*i+2, i
-		if l < n && h.e[l].a < h.e[s].a {
-			s = l
+// selectTop reorders e so that its k largest activations come first (k <
+// len(e)), by quickselect with a middle pivot and a three-way partition
+// (ties are common: a word n-gram repeats its activation exactly).
+func selectTop(e []actEntry, k int) {
+	lo, hi := 0, len(e) // the answer's boundary lies in [lo, hi)
+	for hi-lo > 1 {
+		p := e[lo+(hi-lo)/2].a
+		// Three-way partition of e[lo:hi] into > p, == p, < p.
+		i, j, n := lo, lo, hi
+		for j < n {
+			switch a := e[j].a; {
+			case a > p:
+				e[i], e[j] = e[j], e[i]
+				i++
+				j++
+			case a < p:
+				n--
+				e[j], e[n] = e[n], e[j]
+			default:
+				j++
+			}
 		}
-		if r < n && h.e[r].a < h.e[s].a {
-			s = r
-		}
-		if s == i {
+		switch {
+		case k < i:
+			hi = i
+		case k > j:
+			lo = j
+		default:
 			return
 		}
-		h.e[i], h.e[s] = h.e[s], h.e[i]
-		i = s
 	}
 }
 
@@ -570,7 +674,7 @@ func finishProfile(st *SlotTable, g, class int, accs []*filterAccs, counts []int
 	}
 	ngrams := make([]Ngram, len(pool))
 	for i, e := range pool {
-		ngrams[i] = makeNgram(st, g, e)
+		ngrams[i] = makeNgram(st, g, e, haveGold)
 	}
 	pr.TopNgrams = ngrams[:min(opt.TopK, len(ngrams))]
 	pr.Slots = slotWords(st, g, counts, opt.SlotWords, opt.MinCount)
@@ -584,11 +688,14 @@ func finishProfile(st *SlotTable, g, class int, accs []*filterAccs, counts []int
 	return pr
 }
 
-func makeNgram(st *SlotTable, g int, e *ngramEntry) Ngram {
+func makeNgram(st *SlotTable, g int, e *ngramEntry, haveGold bool) Ngram {
 	m := st.m
 	w := len(e.key) / 4
 	n := Ngram{IDs: make([]int32, w), Tokens: make([]string, w), Slots: make([]float64, w),
-		Activation: float64(e.act), Count: e.count, Examples: e.examples, ByPred: e.byPred, ByGold: e.byGold}
+		Activation: float64(e.act), Count: e.count, Examples: e.examples, ByPred: e.byPred}
+	if haveGold {
+		n.ByGold = e.byGold
+	}
 	for s := 0; s < w; s++ {
 		k := e.key[4*s:]
 		id := int32(uint32(k[0]) | uint32(k[1])<<8 | uint32(k[2])<<16 | uint32(k[3])<<24)
