@@ -593,3 +593,26 @@ func TestDataMemoryOnMillionLines(t *testing.T) {
 		t.Errorf("peak live heap %d MB for a %d MB file: more than 6 bytes per input byte", grownLive>>20, st.Size()>>20)
 	}
 }
+
+// TestLineLimits: a word-vector line over 1 MiB and a standard-input line
+// of predict over 16 MiB are refused with the limit in the message.
+func TestLineLimits(t *testing.T) {
+	dir := t.TempDir()
+	vec := filepath.Join(dir, "long-vectors.txt")
+	os.WriteFile(vec, []byte("ferry"+strings.Repeat(" 0.5", 300_000)+"\n"), 0o644)
+	code, _, stderr := tt(t, "train", "--data", filepath.Join("testdata", "bad", "two-labels.csv"), "--vectors", vec,
+		"--epochs", "1", "--dim", "4", "--filters", "2", "--out", filepath.Join(dir, "m.tt"))
+	noCrash(t, "long vector line", stderr)
+	if code != 1 || !strings.Contains(stderr, "long-vectors.txt line 1: line longer than 1048576 bytes") {
+		t.Errorf("vector line over 1 MiB: exit %d, stderr %q", code, stderr)
+	}
+
+	model := tinyModel(t)
+	var out, errb bytes.Buffer
+	in := strings.Repeat("ferry ", (16<<20)/6+10) + "\nlate ferry\n"
+	code = run(context.Background(), []string{"predict", "--model", model}, strings.NewReader(in), &out, &errb)
+	noCrash(t, "long stdin line", errb.String())
+	if code != 1 || !strings.Contains(errb.String(), "lines are limited to 16 MiB") {
+		t.Errorf("stdin line over 16 MiB: exit %d, stderr %q", code, errb.String())
+	}
+}
