@@ -158,3 +158,7 @@ func adamStepGo(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 // sqrt32 is the correctly rounded float32 square root (rounding the float64
 // root once more is exact for float32 arguments).
 func sqrt32(x float32) float32 { return float32(math.Sqrt(float64(x))) }
+
+// KernelName names the float32 kernels this build runs on this CPU: "go"
+// (portable), "avx2" or "avx512".
+func KernelName() string { return kernelLevel }

@@ -1,0 +1,149 @@
+package main
+
+import (
+	"bufio"
+	"encoding/json"
+	"fmt"
+	"os"
+	"slices"
+	"strings"
+)
+
+// cmdTable reads result files (JSON lines of train runs of both
+// implementations and of tools runs) and prints, per corpus, the medians of
+// each implementation and the ratios ours/reference.
+func cmdTable(args []string) error {
+	var runs []result
+	var tools []toolResult
+	for _, path := range args {
+		f, err := os.Open(path)
+		if err != nil {
+			return err
+		}
+		sc := bufio.NewScanner(f)
+		sc.Buffer(nil, 1<<20)
+		for sc.Scan() {
+			line := sc.Bytes()
+			var probe struct{ Impl string }
+			if json.Unmarshal(line, &probe) != nil {
+				continue
+			}
+			if probe.Impl == "tools" {
+				var t toolResult
+				if json.Unmarshal(line, &t) == nil {
+					tools = append(tools, t)
+				}
+				continue
+			}
+			var r result
+			if json.Unmarshal(line, &r) == nil {
+				runs = append(runs, r)
+			}
+		}
+		f.Close()
+	}
+	var corpora []string
+	for _, r := range runs {
+		if !slices.Contains(corpora, r.Corpus) {
+			corpora = append(corpora, r.Corpus)
+		}
+	}
+	w := os.Stdout
+	fmt.Fprintln(w, "| corpus | texts | measure | ours (median) | reference (median) | ours/reference | runs ours/ref | load avg |")
+	fmt.Fprintln(w, "|---|---|---|---|---|---|---|---|")
+	for _, c := range corpora {
+		var ours, ref, cli []result
+		for _, r := range runs {
+			if r.Corpus != c {
+				continue
+			}
+			switch r.Impl {
+			case "ours":
+				ours = append(ours, r)
+			case "ours-cli":
+				cli = append(cli, r)
+			default:
+				ref = append(ref, r)
+			}
+		}
+		med := func(rs []result, f func(result) float64) float64 {
+			var xs []float64
+			for _, r := range rs {
+				if v := f(r); v > 0 {
+					xs = append(xs, v)
+				}
+			}
+			return median(xs)
+		}
+		loads := func(rs []result) string {
+			var s []string
+			for _, r := range rs {
+				s = append(s, strings.Fields(r.Load + " ?")[0])
+			}
+			return strings.Join(s, ",")
+		}
+		texts := 0
+		if len(ours) > 0 {
+			texts = ours[0].Texts
+		} else if len(ref) > 0 {
+			texts = ref[0].Texts
+		}
+		row := func(name, unit string, f func(result) float64) {
+			o, r := med(ours, f), med(ref, f)
+			ratio := "–"
+			if o > 0 && r > 0 {
+				ratio = fmt.Sprintf("%.2f×", o/r)
+			}
+			fmt.Fprintf(w, "| %s | %d | %s | %s | %s | %s | %d/%d | %s / %s |\n", c, texts, name,
+				num(o, unit), num(r, unit), ratio, len(ours), len(ref), loads(ours), loads(ref))
+		}
+		row("training examples/s (steady)", "", func(r result) float64 { return r.SteadyEPS })
+		row("end-to-end seconds to a trained model", "s", func(r result) float64 {
+			if len(r.EpochTexts) > 0 && r.EpochTexts[len(r.EpochTexts)-1] < r.Texts {
+				return 0 // a partial run times throughput only
+			}
+			return r.E2ESeconds
+		})
+		if len(cli) > 0 {
+			o := med(cli, func(r result) float64 { return r.E2ESeconds })
+			rr := med(ref, func(r result) float64 { return r.E2ESeconds })
+			fmt.Fprintf(w, "| %s | %d | end-to-end seconds via `telltale train` (tokenizing, 10%% dev held out and evaluated) | %s | %s | %.2f× | %d/%d | %s |\n",
+				c, texts, num(o, "s"), num(rr, "s"), o/rr, len(cli), len(ref), loads(cli))
+		}
+		row("inference examples/s (batch 100)", "", func(r result) float64 { return r.InferEPS })
+		row("peak RSS MiB", "", func(r result) float64 { return r.PeakRSSMB })
+		if len(ours) > 0 {
+			fmt.Fprintf(w, "| %s | %d | our GFLOP/s dense-equivalent / executed | %.0f / %.0f | | | | |\n", c, texts,
+				med(ours, func(r result) float64 { return r.DenseGFLOPs }), med(ours, func(r result) float64 { return r.ExecGFLOPs }))
+		}
+	}
+	if len(tools) > 0 {
+		fmt.Fprintln(w)
+		fmt.Fprintln(w, "| tool alone | measure | result | target | load avg |")
+		fmt.Fprintln(w, "|---|---|---|---|---|")
+		for _, t := range tools {
+			if t.ProfileTexts > 0 {
+				fmt.Fprintf(w, "| filter profiles, %s (%d texts) | seconds | %.1f | < 60 | %s |\n", t.ProfileCorpus, t.ProfileTexts, t.ProfileSeconds, t.Load)
+			}
+			if t.ExplainTokens > 0 {
+				fmt.Fprintf(w, "| explain, %d tokens, exact + all single-token occlusions | ms (median of %d) | %.2f | < 5 | %s |\n", t.ExplainTokens, t.ExplainRuns, t.ExplainMs, t.Load)
+			}
+			if t.AuditTexts > 0 {
+				fmt.Fprintf(w, "| SpamAssassin audit (%d texts; tokenizing %.1f s more) | seconds | %.1f | < 60 | %s |\n", t.AuditTexts, t.AuditPrepSecond, t.AuditSeconds, t.Load)
+			}
+		}
+	}
+	return nil
+}
+
+func num(v float64, unit string) string {
+	switch {
+	case v == 0:
+		return "–"
+	case unit == "s":
+		return fmt.Sprintf("%.1f s", v)
+	case v >= 100:
+		return fmt.Sprintf("%.0f", v)
+	}
+	return fmt.Sprintf("%.2f", v)
+}
