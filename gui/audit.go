@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"sort"
+	"strings"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
@@ -12,19 +13,165 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/cnn"
+	"telltale/explain"
 )
 
-// auditState is the result of the cue audit of the open model.
-type auditState struct{}
+// auditState is the result of the cue audit of the open model
+// (explain.RunAudit) and the texts its examples point into.
+type auditState struct {
+	A       *explain.Audit
+	suspect map[int]int // global filter → index into A.Filters
+	// Texts of the two splits the audit read, by index (its examples name
+	// a split and an index).
+	Train, Heldout []string
+}
+
+func newAuditState(a *explain.Audit, train, heldout []string) *auditState {
+	as := &auditState{A: a, suspect: map[int]int{}, Train: train, Heldout: heldout}
+	for i, s := range a.Filters {
+		as.suspect[s.Filter] = i
+	}
+	return as
+}
+
+// suspectOf returns filter g's entry among the suspects, or nil.
+func (a *auditState) suspectOf(g int) *explain.Suspect {
+	if a == nil {
+		return nil
+	}
+	if i, ok := a.suspect[g]; ok {
+		return &a.A.Filters[i]
+	}
+	return nil
+}
 
 // suspicionOf is filter g's audit score as shown in lists, "—" without an
-// audit.
+// audit or when g is not among the suspects.
 func (a *auditState) suspicionOf(g int) string {
+	if s := a.suspectOf(g); s != nil {
+		return fmt.Sprintf("%.4f", s.Score)
+	}
 	return "—"
 }
 
-// flaggedTokenRows lists the tokens the audit flagged.
-func flaggedTokenRows(a *auditState) [][]string { return nil }
+// cuesOf lists filter g's cue words, "" when it is not a suspect.
+func (a *auditState) cuesOf(g int) string {
+	if s := a.suspectOf(g); s != nil {
+		return cueWords(s)
+	}
+	return ""
+}
+
+func cueWords(s *explain.Suspect) string {
+	var ws []string
+	for _, c := range s.Cues {
+		ws = append(ws, c.Token)
+	}
+	return strings.Join(ws, " ")
+}
+
+// text returns the full text an audit example quotes.
+func (a *auditState) text(ex explain.AuditExample) string {
+	src := a.Heldout
+	if ex.Split == "train" {
+		src = a.Train
+	}
+	if ex.Index >= 0 && ex.Index < len(src) {
+		return src[ex.Index]
+	}
+	return ex.Snippet
+}
+
+// flaggedCols are the columns of flaggedTokenRows.
+var (
+	flaggedCols   = []string{"token", "training texts", "label", "share", "z", "PMI", "held-out texts", "category"}
+	flaggedWidths = []float32{130, 100, 130, 60, 70, 60, 100, 110}
+)
+
+// flaggedTokenRows lists the tokens the audit flagged, largest z first.
+func flaggedTokenRows(a *auditState) [][]string {
+	if a == nil {
+		return nil
+	}
+	var rows [][]string
+	for _, f := range a.A.Tokens {
+		rows = append(rows, []string{f.Token, fmt.Sprint(f.Count), f.Label, fmt.Sprintf("%.3f", f.Share),
+			fmt.Sprintf("%.2f", f.Z), fmt.Sprintf("%.3f", f.PMI), fmt.Sprint(f.Heldout), f.Category})
+	}
+	return rows
+}
+
+// auditSeed seeds the audit's counterfactual draws.
+const auditSeed = 1
+
+// auditTop is the number of suspects the window asks for.
+const auditTop = 20
+
+// auditNow shows the audit view and runs the cue audit.
+func (st *State) auditNow() {
+	st.tabs("Cue audit")
+	st.runAudit(nil)
+}
+
+// runAudit runs the cue audit of the open model in the background: token
+// statistics and filter evidence on the training split, interventions on
+// the held-out split; then runs then, if not nil (also after a failure).
+func (st *State) runAudit(then func()) {
+	ms, cs := itemGet(st.model), itemGet(st.data)
+	if ms == nil || cs == nil {
+		st.showError(errors.New("the audit needs a model and its data: train a model (Training view) or open one (File › Open model)"))
+		if then != nil {
+			then()
+		}
+		return
+	}
+	var prof *explain.Profiles
+	if ps := itemGet(st.profiles); ps != nil {
+		prof = ps.P
+	}
+	_ = st.status.Set("Running the cue audit…")
+	st.start(taskAudit, true, func(ctx context.Context, report reporter) (func(), error) {
+		maxLen := 0
+		if r := ms.Model.Info.Recipe; r != nil {
+			maxLen = r.MaxLen
+		}
+		tr, err := explain.NewAuditData(ms.Model, cs.Train, maxLen, 0)
+		if err != nil {
+			return then, fmt.Errorf("the training split does not fit this model: %w", err)
+		}
+		ho, err := explain.NewAuditData(ms.Model, cs.Test, maxLen, 0)
+		if err != nil {
+			return then, fmt.Errorf("the held-out split does not fit this model: %w", err)
+		}
+		a, err := explain.RunAudit(ctx, ms.Model, tr, ho,
+			explain.AuditOptions{Profiles: prof, Table: ms.Table, Top: auditTop, Seed: auditSeed},
+			func(stage string, done, total int) {
+				report(done, total, fmt.Sprintf("Cue audit: %s, %d of %d", auditStages[stage], done, total))
+			})
+		if err != nil {
+			return then, err
+		}
+		as := newAuditState(a, cs.Train.Texts(), cs.Test.Texts())
+		return func() {
+			if itemGet(st.model) == ms {
+				st.audit.Set(as)
+				_ = st.status.Set(fmt.Sprintf("Cue audit done: %d tokens flagged, %d filters scored, %d suspects listed.",
+					len(a.Tokens), a.Candidates, len(a.Filters)))
+			}
+			if then != nil {
+				then()
+			}
+		}, nil
+	})
+}
+
+// auditStages names RunAudit's stages for the status bar.
+var auditStages = map[string]string{
+	"profile":        "profiling the filters",
+	"evidence":       "weighing each filter's evidence",
+	"heldout":        "masking each filter on the held-out split",
+	"counterfactual": "substituting cue words",
+}
 
 // maskState is the masked copy of the open model and its held-out result.
 type maskState struct {
@@ -33,13 +180,9 @@ type maskState struct {
 	Eval    *evaluation
 }
 
-// auditNow runs the cue audit.
-func (st *State) auditNow() {
-	st.tabs("Cue audit")
-}
-
-// applyMask evaluates a copy of the open model with filters masked, in the
-// background, and shows the before/after metrics.
+// applyMask evaluates a copy of the open model with filters masked
+// (explain.MaskFilters), in the background, and hands the before/after
+// result to done.
 func (st *State) applyMask(filters []int, done func(*maskState)) {
 	ms, cs := itemGet(st.model), itemGet(st.data)
 	if ms == nil || cs == nil {
@@ -50,12 +193,11 @@ func (st *State) applyMask(filters []int, done func(*maskState)) {
 	sort.Ints(filters)
 	_ = st.status.Set(fmt.Sprintf("Evaluating the model with %d filters masked…", len(filters)))
 	st.start(taskMask, true, func(ctx context.Context, report reporter) (func(), error) {
-		m := ms.Model.Clone()
-		m.Masked = make([]bool, m.Config.NumFilters())
-		for _, g := range filters {
-			m.Masked[g] = true
+		m, err := explain.MaskFilters(ms.Model, filters)
+		if err != nil {
+			return nil, err
 		}
-		masked := &modelState{Model: m, Tok: ms.Tok, Vocab: ms.Vocab}
+		masked := &modelState{Model: m, Enc: ms.Enc}
 		ev, err := evaluate(masked, cs)
 		if err != nil {
 			return nil, err
@@ -72,13 +214,191 @@ func (st *State) applyMask(filters []int, done func(*maskState)) {
 	})
 }
 
-// auditView: suspects, masking and the before/after comparison.
+// Columns of the suspect table.
+var (
+	suspectCols = []string{"mask", "rank", "filter", "votes for", "cue words", "score", "flagged share", "push",
+		"conflict share", "conflict gain", "harm", "Δ macro-F1 masked", "flip rate"}
+	suspectWidths = []float32{46, 44, 50, 104, 120, 64, 96, 60, 100, 96, 60, 124, 70}
+)
+
+const (
+	colMask = 0
+)
+
+// auditView: the ranked suspects with every part of their score, the
+// evidence of the selected one, the flagged tokens, and masking with the
+// before/after comparison.
 func auditView(st *State) fyne.CanvasObject {
-	note := widget.NewLabel("Tick filters to mask them; the held-out metrics of the masked model appear beside the original's.")
-	note.Wrapping = fyne.TextWrapWord
+	runBtn := widget.NewButton("Run the audit", func() { st.runAudit(nil) })
+	runBtn.Importance = widget.HighImportance
+	stopBtn := widget.NewButton("Stop", func() { st.cancel(taskAudit) })
+	summary := widget.NewLabel("Run the audit to rank the filters that may key on spurious cues (Run › Run the audit).")
+	summary.Wrapping = fyne.TextWrapWord
+	formula := widget.NewLabelWithStyle("", fyne.TextAlignLeading, fyne.TextStyle{Italic: true})
+	formula.Wrapping = fyne.TextWrapWord
+
 	ticked := map[int]bool{}
+	tickedList := func() []int {
+		var gs []int
+		for g, b := range ticked {
+			if b {
+				gs = append(gs, g)
+			}
+		}
+		sort.Ints(gs)
+		return gs
+	}
+
+	suspects := newSheet(suspectCols, suspectWidths)
+	flagged := newSheet(flaggedCols, flaggedWidths)
+
+	// Evidence of the selected suspect.
+	title := widget.NewLabelWithStyle("Select a suspect to see its evidence; tap its mask cell to tick it.", fyne.TextAlignLeading, fyne.TextStyle{Bold: true})
+	title.Wrapping = fyne.TextWrapWord
+	parts := newSheet([]string{"part", "value", "what it is"}, []float32{150, 90, 520})
+	cues := newSheet([]string{"cue word", "label", "z", "slot-mass share", "window share"}, []float32{130, 120, 70, 120, 110})
+	effects := newSheet([]string{"intervention", "measure", "value"}, []float32{170, 230, 280})
+	examples := newSheet([]string{"figure", "split", "#", "gold", "predicted", "after", "value", "note", "text"},
+		[]float32{120, 64, 50, 110, 110, 110, 64, 160, 480})
+	var exampleList []explain.AuditExample
+	examples.onSelect = func(row int) {
+		if a := itemGet(st.audit); a != nil && row < len(exampleList) {
+			st.explainThis(a.text(exampleList[row]))
+		}
+	}
+	exampleNote := widget.NewLabel("The texts behind each figure; tap one to explain it.")
+
+	showSuspect := func(s *explain.Suspect) {
+		if s == nil {
+			title.SetText("Select a suspect to see its evidence; tap its mask cell to tick it.")
+			for _, sh := range []*sheet{parts, cues, effects, examples} {
+				sh.setRows(nil)
+			}
+			exampleList = nil
+			return
+		}
+		p := s.Parts
+		title.SetText(fmt.Sprintf("Filter %d (width %d) votes for %s; cue words: %s. Score %.4f = %.4f × max(0, %.4f).",
+			s.Filter, s.Width, s.Label, cueWords(s), s.Score, p.FlaggedShare, p.Harm))
+		parts.setRows(suspectParts(s))
+		var crows [][]string
+		for _, c := range s.Cues {
+			crows = append(crows, []string{c.Token, c.Label, fmt.Sprintf("%.2f", c.Z), fmt.Sprintf("%.3f", c.MassShare), fmt.Sprintf("%.3f", c.WindowShare)})
+		}
+		cues.setRows(crows)
+		effects.setRows(suspectEffects(s))
+		exampleList = nil
+		var erows [][]string
+		add := func(fig string, exs []explain.AuditExample) {
+			for _, ex := range exs {
+				exampleList = append(exampleList, ex)
+				erows = append(erows, []string{fig, ex.Split, fmt.Sprint(ex.Index + 1), ex.Gold, ex.Pred, ex.After,
+					fmt.Sprintf("%.3f", ex.Value), ex.Note, oneLine(ex.Snippet)})
+			}
+		}
+		add("cue window", s.Examples.Windows)
+		add("conflict, masked", s.Examples.Conflict)
+		add("substitution flip", s.Examples.Counterfactual)
+		examples.setRows(erows)
+		exampleNote.SetText(fmt.Sprintf("%d texts behind the figures: training windows above the threshold holding a cue, "+
+			"held-out texts where the cue points away from the gold label and masking changes the prediction, "+
+			"and substitutions that flipped it. Tap one to explain it.", len(erows)))
+	}
+
+	// Masking: ticking a filter re-evaluates at once.
+	compare := newSheet([]string{"measure", "original", "masked", "change"}, []float32{170, 80, 80, 80})
+	maskNote := widget.NewLabel("Tick filters (the mask column, or the list of all filters) to mask them; the held-out metrics of the masked model appear here.")
+	maskNote.Wrapping = fyne.TextWrapWord
+	var mask *maskState
+	st.maskShown = func() *maskState { return mask }
+	save := widget.NewButton("Save masked model…", func() {
+		if mask == nil {
+			return
+		}
+		m := mask.Model
+		st.saveDialog("telltale-masked.tt", func(path string) error { return m.Save(path) })
+	})
+	save.Disable()
+
+	var suspectRows func()
+	var allChecks *widget.List
+	remask := func() {
+		suspectRows()
+		allChecks.Refresh()
+		gs := tickedList()
+		if len(gs) == 0 {
+			mask = nil
+			save.Disable()
+			compare.setRows(nil)
+			maskNote.SetText("No filter ticked: the model is as trained.")
+			return
+		}
+		st.applyMask(gs, func(mk *maskState) {
+			if fmt.Sprint(mk.Filters) != fmt.Sprint(tickedList()) {
+				return // the ticks changed meanwhile; a newer evaluation follows
+			}
+			mask = mk
+			save.Enable()
+			compare.setRows(compareRows(itemGet(st.model).Eval.Metrics, mk.Eval.Metrics))
+			maskNote.SetText(fmt.Sprintf("Masked filters %v.", mk.Filters))
+		})
+	}
+	st.maskTicks = func(gs []int) {
+		clear(ticked)
+		for _, g := range gs {
+			ticked[g] = true
+		}
+		remask()
+	}
+
+	suspectRows = func() {
+		a := itemGet(st.audit)
+		if a == nil {
+			suspects.setRows(nil)
+			return
+		}
+		sel := suspects.selected
+		rows := make([][]string, len(a.A.Filters))
+		for i, s := range a.A.Filters {
+			m := "☐"
+			if ticked[s.Filter] {
+				m = "☑"
+			}
+			flip := "—"
+			if s.Counter != nil {
+				flip = fmt.Sprintf("%.3f", s.Counter.FlipRate)
+			}
+			rows[i] = []string{m, fmt.Sprint(i + 1), fmt.Sprint(s.Filter), s.Label, cueWords(&s), fmt.Sprintf("%.4f", s.Score),
+				fmt.Sprintf("%.3f", s.Parts.FlaggedShare), fmt.Sprintf("%+.4f", s.Parts.Push), fmt.Sprintf("%.3f", s.Parts.ConflictShare),
+				fmt.Sprintf("%+.4f", s.Parts.ConflictGain), fmt.Sprintf("%+.4f", s.Parts.Harm),
+				fmt.Sprintf("%+.4f", s.Ablation.DeltaMacroF1), flip}
+		}
+		suspects.rows = rows
+		suspects.reorder()
+		suspects.selected = sel
+	}
+	suspects.onCell = func(row, col int) {
+		a := itemGet(st.audit)
+		if a == nil || row >= len(a.A.Filters) {
+			return
+		}
+		if col == colMask {
+			g := a.A.Filters[row].Filter
+			ticked[g] = !ticked[g]
+			remask()
+			// A second tap on the same cell must toggle again.
+			suspects.table.UnselectAll()
+		}
+	}
+	suspects.onSelect = func(row int) {
+		if a := itemGet(st.audit); a != nil && row < len(a.A.Filters) {
+			showSuspect(&a.A.Filters[row])
+		}
+	}
+
+	// Every filter, for masking filters the audit did not list.
 	var filterIDs []int
-	checks := widget.NewList(func() int { return len(filterIDs) },
+	allChecks = widget.NewList(func() int { return len(filterIDs) },
 		func() fyne.CanvasObject { return widget.NewCheck("", nil) },
 		func(i widget.ListItemID, o fyne.CanvasObject) {
 			c := o.(*widget.Check)
@@ -90,56 +410,23 @@ func auditView(st *State) fyne.CanvasObject {
 				fp := ps.P.Filters[g]
 				var top string
 				if len(fp.TopNgrams) > 0 {
-					top = fmt.Sprint(fp.TopNgrams[0].Tokens)
+					top = strings.Join(fp.TopNgrams[0].Tokens, " ")
 				}
-				label = fmt.Sprintf("filter %d · w%d · %s · %s", g, fp.Width, fp.Label, top)
+				label = fmt.Sprintf("filter %d · width %d · %s · %s", g, fp.Width, fp.Label, top)
+			}
+			if s := itemGet(st.audit).suspectOf(g); s != nil {
+				label += fmt.Sprintf(" · suspicion %.4f (%s)", s.Score, cueWords(s))
 			}
 			c.Text = label
 			c.Refresh()
-			c.OnChanged = func(b bool) { ticked[g] = b }
-		})
-	compare := newSheet([]string{"measure", "original", "masked", "change"}, []float32{200, 90, 90, 90})
-	var mask *maskState
-	st.maskShown = func() *maskState { return mask }
-	apply := widget.NewButton("Mask ticked filters", nil)
-	apply.Importance = widget.HighImportance
-	save := widget.NewButton("Save masked model…", func() {
-		if mask == nil {
-			return
-		}
-		m := mask.Model
-		st.saveDialog("telltale-masked.tt", func(path string) error { return m.Save(path) })
-	})
-	save.Disable()
-	st.maskTicks = func(gs []int) {
-		for k := range ticked {
-			delete(ticked, k)
-		}
-		for _, g := range gs {
-			ticked[g] = true
-		}
-		checks.Refresh()
-	}
-	apply.OnTapped = func() {
-		var gs []int
-		for g, b := range ticked {
-			if b {
-				gs = append(gs, g)
+			c.OnChanged = func(b bool) {
+				ticked[g] = b
+				remask()
 			}
-		}
-		st.applyMask(gs, func(mk *maskState) {
-			mask = mk
-			save.Enable()
-			ms := itemGet(st.model)
-			compare.setRows(compareRows(ms.Eval.Metrics, mk.Eval.Metrics))
-			note.SetText(fmt.Sprintf("Masked filters %v.", mk.Filters))
 		})
-	}
-	st.maskApply = apply
+
 	st.model.AddListener(binding.NewDataListener(func() {
-		for k := range ticked {
-			delete(ticked, k)
-		}
+		clear(ticked)
 		mask = nil
 		save.Disable()
 		compare.setRows(nil)
@@ -149,27 +436,137 @@ func auditView(st *State) fyne.CanvasObject {
 				filterIDs = append(filterIDs, g)
 			}
 		}
-		checks.Refresh()
+		allChecks.Refresh()
 	}))
-	st.profiles.AddListener(binding.NewDataListener(checks.Refresh))
+	st.profiles.AddListener(binding.NewDataListener(allChecks.Refresh))
+	st.audit.AddListener(binding.NewDataListener(func() {
+		a := itemGet(st.audit)
+		showSuspect(nil)
+		suspectRows()
+		allChecks.Refresh()
+		if a == nil {
+			summary.SetText("Run the audit to rank the filters that may key on spurious cues (Run › Run the audit).")
+			formula.SetText("")
+			flagged.setRows(nil)
+			return
+		}
+		au := a.A
+		summary.SetText(fmt.Sprintf("%d of %d tested tokens flagged on %d training texts (one-sided z above %.2f: family-wise level %g, Bonferroni over %d tokens, %s prior). "+
+			"%d filters scored; the top %d listed. Held-out split (%d texts) as trained: accuracy %.4f, macro-F1 %.4f.",
+			len(au.Tokens), au.Tested, au.TrainTexts, au.Threshold, au.Alpha, au.Tested, au.PriorKind,
+			au.Candidates, len(au.Filters), au.HeldoutTexts, au.Baseline.Accuracy, au.Baseline.MacroF1))
+		formula.SetText(au.Formula)
+		flagged.setRows(flaggedTokenRows(a))
+		if len(au.Filters) > 0 {
+			suspects.selectRow(0)
+		}
+	}))
+	refreshButtons := func() {
+		if st.running(taskAudit) {
+			runBtn.Disable()
+			stopBtn.Enable()
+		} else {
+			runBtn.Enable()
+			stopBtn.Disable()
+		}
+	}
+	st.busy.AddListener(binding.NewDataListener(refreshButtons))
+
+	st.auditShown = func() *auditState { return itemGet(st.audit) }
+	st.auditSuspects = suspects
+	st.maskCompare = compare
 	st.exports["Cue audit"] = exporter{
-		table: func() *sheet { return compare },
+		table: func() *sheet { return suspects },
 		data: func() any {
-			if mask != nil {
-				return struct {
-					Masked   []int       `json:"masked"`
-					Original cnn.Metrics `json:"original"`
-					After    cnn.Metrics `json:"after"`
-				}{mask.Filters, itemGet(st.model).Eval.Metrics, mask.Eval.Metrics}
+			var out struct {
+				Audit    *explain.Audit `json:"audit,omitempty"`
+				Masked   []int          `json:"masked,omitempty"`
+				Original *cnn.Metrics   `json:"original,omitempty"`
+				After    *cnn.Metrics   `json:"after,omitempty"`
 			}
-			return nil
+			if a := itemGet(st.audit); a != nil {
+				out.Audit = a.A
+			}
+			if mask != nil {
+				orig := itemGet(st.model).Eval.Metrics
+				out.Masked, out.Original, out.After = mask.Filters, &orig, &mask.Eval.Metrics
+			}
+			return out
 		},
 	}
-	left := container.NewBorder(widget.NewLabelWithStyle("Filters", fyne.TextAlignLeading, fyne.TextStyle{Bold: true}), nil, nil, nil, checks)
-	right := container.NewBorder(container.NewVBox(note, container.NewHBox(apply, save)), nil, nil, nil, compare.table)
-	split := container.NewHSplit(left, right)
-	split.Offset = 0.45
-	return split
+
+	head := container.NewBorder(nil, nil, nil, container.NewHBox(runBtn, stopBtn), summary)
+	evidence := container.NewAppTabs(
+		container.NewTabItem("Score parts", container.NewVSplit(parts.table, cues.table)),
+		container.NewTabItem("Ablation and substitution", effects.table),
+		container.NewTabItem("Examples", container.NewBorder(exampleNote, nil, nil, nil, examples.table)),
+	)
+	maskPane := container.NewBorder(container.NewBorder(nil, nil, nil, save, maskNote), nil, nil, nil, compare.table)
+	right := container.NewVSplit(container.NewBorder(title, nil, nil, nil, evidence), maskPane)
+	right.Offset = 0.62
+	lists := container.NewAppTabs(
+		container.NewTabItem("Suspects", suspects.table),
+		container.NewTabItem("Flagged tokens", flagged.table),
+		container.NewTabItem("All filters", allChecks),
+	)
+	split := container.NewHSplit(lists, right)
+	split.Offset = 0.5
+	return container.NewBorder(container.NewVBox(head, formula), nil, nil, nil, split)
+}
+
+// suspectParts lists every part of a suspect's score with its basis.
+func suspectParts(s *explain.Suspect) [][]string {
+	p := s.Parts
+	f := func(v float64) string { return fmt.Sprintf("%.4f", v) }
+	return [][]string{
+		{"score", f(s.Score), "flagged share × max(0, harm)"},
+		{"flagged share", f(p.FlaggedShare), fmt.Sprintf("flagged slot mass %.4f of %.4f, over %d training windows at or above the purity threshold %.4f", p.FlaggedMass, p.Mass, p.AboveWindows, p.Threshold)},
+		{"harm", f(p.Harm), "conflict share × conflict gain"},
+		{"conflict share", f(p.ConflictShare), fmt.Sprintf("of the %d held-out texts with a cue word, the share whose gold label is not the cue's", p.PushTexts)},
+		{"conflict gain", f(p.ConflictGain), "mean rise of p(gold) on those texts when the filter is masked"},
+		{"push", f(p.Push), fmt.Sprintf("mean fall of p(cue label) when masked, over the %d held-out texts with a cue word (breaks ties)", p.PushTexts)},
+		{"dominant slot", fmt.Sprint(s.Concentration.Slot + 1), fmt.Sprintf("top word %q in %.1f%% of windows; entropy %.3f bits (normalized %.3f)",
+			s.Concentration.TopWord, 100*s.Concentration.TopShare, s.Concentration.Entropy, s.Concentration.Normalized)},
+	}
+}
+
+// suspectEffects lists the ablation, conflict-subset and counterfactual
+// results of a suspect, and the categories of its top n-grams.
+func suspectEffects(s *explain.Suspect) [][]string {
+	ab, cf := s.Ablation, s.Conflict
+	f := func(v float64) string { return fmt.Sprintf("%.4f", v) }
+	rows := [][]string{
+		{"ablation (held-out)", "accuracy", fmt.Sprintf("%.4f → %.4f (%+.4f)", ab.Accuracy, ab.AccuracyMasked, ab.DeltaAccuracy)},
+		{"ablation (held-out)", "macro-F1", fmt.Sprintf("%.4f → %.4f (%+.4f)", ab.MacroF1, ab.MacroF1Masked, ab.DeltaMacroF1)},
+		{"ablation (held-out)", "predictions changed", fmt.Sprintf("%d (%.2f%%)", ab.Flipped, 100*ab.FlippedShare)},
+		{"cue-conflicting texts", "texts (cue points to " + cf.CueLabel + ")", fmt.Sprint(cf.Texts)},
+		{"cue-conflicting texts", "accuracy", fmt.Sprintf("%.4f → %.4f masked", cf.Accuracy, cf.AccuracyMasked)},
+		{"cue-conflicting texts", "fixed / broken by masking", fmt.Sprintf("%d / %d", cf.Fixed, cf.Broken)},
+	}
+	if c := s.Counter; c != nil {
+		rows = append(rows,
+			[]string{"cue substitution", "cue words → alternatives", strings.Join(c.Cues, " ") + " → " + strings.Join(c.Alternatives, " ")},
+			[]string{"cue substitution", "texts × draws", fmt.Sprintf("%d × %d", c.Texts, c.Draws)},
+			[]string{"cue substitution", "flips (rate)", fmt.Sprintf("%d (%.4f)", c.Flips, c.FlipRate)},
+			[]string{"cue substitution", "mean change of p(prediction)", fmt.Sprintf("%+.4f", c.MeanProbChange)},
+			[]string{"control: random positions", "flips (rate)", fmt.Sprintf("%d (%.4f)", c.ControlFlips, c.ControlFlipRate)},
+			[]string{"control: random positions", "mean change of p(prediction)", fmt.Sprintf("%+.4f", c.ControlChange)},
+		)
+	} else {
+		rows = append(rows, []string{"cue substitution", "not run", "only the top suspects are substituted"})
+	}
+	for _, c := range s.Categories {
+		rows = append(rows, []string{"top n-grams", "category " + c.Category, f(c.Share) + "  " + strings.Join(c.Ngrams, " | ")})
+	}
+	for _, n := range s.TopNgrams {
+		rows = append(rows, []string{"top n-grams", strings.Join(n.Tokens, " "), fmt.Sprintf("activation %.4f, wins in %d texts %s", n.Activation, n.Count, strings.Join(n.Categories, " "))})
+	}
+	return rows
+}
+
+// oneLine folds line breaks for a table cell.
+func oneLine(s string) string {
+	return strings.Join(strings.Fields(s), " ")
 }
 
 // compareRows lays the original and masked metrics side by side.

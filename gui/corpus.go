@@ -1,12 +1,8 @@
 package gui
 
 import (
-	"bufio"
 	"context"
-	"encoding/csv"
-	"encoding/json"
 	"fmt"
-	"os"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -35,9 +31,9 @@ type corpusState struct {
 	Warnings []corpus.Warning
 	Summary  corpus.Summary
 	Tok      *corpus.Tokenizer // the tokenizer the summary used
-	// Lengths are the token counts of the training texts, by the same
-	// tokenizer, for the length plot.
-	Lengths []float64
+	// Lengths is the histogram of the training texts' token counts, by
+	// the same tokenizer, for the length plot.
+	Lengths []corpus.LengthBin
 }
 
 // dataSource says what to open.
@@ -80,48 +76,45 @@ func (st *State) openData(src dataSource, then func()) {
 
 func loadCorpus(ctx context.Context, src dataSource) (*corpusState, error) {
 	cs := &corpusState{Path: src.path, TestPath: src.testPath, Opts: src.opts}
-	path, testPath := src.path, src.testPath
-	if path == "" {
+	var train, test *corpus.Dataset
+	var err error
+	if src.path == "" {
 		if len(src.demoTrain) == 0 {
 			return nil, fmt.Errorf("no data given and no demo corpus built in: open a labeled file with File › Open data")
 		}
-		dir, err := os.MkdirTemp("", "telltale-demo-")
-		if err != nil {
+		cs.Source = "the built-in demo corpus"
+		var warns []corpus.Warning
+		if train, warns, err = corpus.LoadBytes("demo/train.csv", src.demoTrain, src.opts); err != nil {
 			return nil, err
 		}
-		defer os.RemoveAll(dir)
-		path = filepath.Join(dir, "demo-train.csv")
-		if err := os.WriteFile(path, src.demoTrain, 0o600); err != nil {
-			return nil, err
-		}
+		cs.Warnings = warns
 		if len(src.demoTest) > 0 {
-			testPath = filepath.Join(dir, "demo-test.csv")
-			if err := os.WriteFile(testPath, src.demoTest, 0o600); err != nil {
+			if test, warns, err = corpus.LoadBytes("demo/test.csv", src.demoTest, src.opts); err != nil {
 				return nil, err
 			}
+			cs.Warnings = append(cs.Warnings, warns...)
 		}
-		cs.Source = "the built-in demo corpus"
 	} else {
-		cs.Source = filepath.Base(path)
-	}
-	cs.Columns = peekColumns(path)
-	train, warns, err := corpus.Load(path, src.opts)
-	if err != nil {
-		return nil, err
-	}
-	cs.Warnings = warns
-	if ctx.Err() != nil {
-		return nil, ctx.Err()
-	}
-	var test *corpus.Dataset
-	if testPath != "" {
-		t, w2, err := corpus.Load(testPath, src.opts)
-		if err != nil {
+		cs.Source = filepath.Base(src.path)
+		// The column pickers; a file whose header cannot be read is
+		// reported by Load below.
+		cs.Columns, _ = corpus.Columns(src.path, src.opts)
+		var warns []corpus.Warning
+		if train, warns, err = corpus.Load(src.path, src.opts); err != nil {
 			return nil, err
 		}
-		cs.Warnings = append(cs.Warnings, w2...)
-		test = t
-	} else {
+		cs.Warnings = warns
+		if ctx.Err() != nil {
+			return nil, ctx.Err()
+		}
+		if src.testPath != "" {
+			if test, warns, err = corpus.Load(src.testPath, src.opts); err != nil {
+				return nil, err
+			}
+			cs.Warnings = append(cs.Warnings, warns...)
+		}
+	}
+	if test == nil {
 		train, test = train.Split(testShare, splitSeed)
 	}
 	if _, err := test.LabelIndex(train.Labels); err != nil {
@@ -133,53 +126,12 @@ func loadCorpus(ctx context.Context, src dataSource) (*corpusState, error) {
 	}
 	cs.Train, cs.Test, cs.Tok = train, test, tok
 	cs.Summary = corpus.Summarize(train, test, tok)
-	cs.Lengths = make([]float64, len(train.Examples))
-	for i, e := range train.Examples {
-		cs.Lengths[i] = float64(len(tok.Tokenize(e.Text)))
-	}
+	cs.Lengths = corpus.LengthHistogram(corpus.TokenLengths(train, tok), lengthBins)
 	return cs, ctx.Err()
 }
 
-// peekColumns returns the header names of a CSV/TSV file or the keys of the
-// first JSON Lines record, for the column pickers; nil for folders or when
-// the file cannot be read (Load then says why).
-func peekColumns(path string) []string {
-	f, err := os.Open(path)
-	if err != nil {
-		return nil
-	}
-	defer f.Close()
-	br := bufio.NewReader(f)
-	switch strings.ToLower(filepath.Ext(path)) {
-	case ".csv", ".tsv", ".tab":
-		r := csv.NewReader(br)
-		if ext := strings.ToLower(filepath.Ext(path)); ext != ".csv" {
-			r.Comma = '\t'
-		}
-		r.LazyQuotes = true
-		rec, err := r.Read()
-		if err != nil {
-			return nil
-		}
-		for i := range rec {
-			rec[i] = strings.TrimPrefix(strings.TrimSpace(rec[i]), "\ufeff")
-		}
-		return rec
-	case ".jsonl", ".ndjson":
-		line, _ := br.ReadBytes('\n')
-		var obj map[string]json.RawMessage
-		if json.Unmarshal(line, &obj) != nil {
-			return nil
-		}
-		var keys []string
-		for k := range obj {
-			keys = append(keys, k)
-		}
-		sort.Strings(keys)
-		return keys
-	}
-	return nil
-}
+// lengthBins is the most bars of the length plot.
+const lengthBins = 30
 
 // corpusView shows the open corpus.
 func corpusView(st *State) fyne.CanvasObject {
@@ -220,7 +172,7 @@ func corpusView(st *State) fyne.CanvasObject {
 			o.(*widget.Label).SetText(cs.Warnings[i].String())
 		}
 	})
-	flagged := newSheet([]string{"token", "count", "label", "z"}, []float32{160, 80, 140, 80})
+	flagged := newSheet(flaggedCols, flaggedWidths)
 	flaggedNote := widget.NewLabel("Flagged tokens appear once the cue audit has run (Cue audit view).")
 
 	st.exports["Corpus"] = exporter{
@@ -351,11 +303,11 @@ func lengthPlot(cs *corpusState) *plot.Plot {
 	if len(cs.Lengths) == 0 {
 		return p
 	}
-	h, err := plotter.NewHist(plotter.Values(cs.Lengths), 30)
-	if err != nil {
-		return p
+	// Bar b covers the token counts Lo … Hi: [Lo, Hi+1) on the axis.
+	h := &plotter.Histogram{FillColor: seriesColors[0], Width: float64(cs.Lengths[0].Hi - cs.Lengths[0].Lo + 1)}
+	for _, b := range cs.Lengths {
+		h.Bins = append(h.Bins, plotter.HistogramBin{Min: float64(b.Lo), Max: float64(b.Hi + 1), Weight: float64(b.Count)})
 	}
-	h.FillColor = seriesColors[0]
 	h.LineStyle.Width = 0
 	p.Add(h)
 	return p

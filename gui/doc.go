@@ -4,7 +4,7 @@
 //
 // # Structure
 //
-// Every view is a function of a *State (see the views table in views.go);
+// Every view is a function of a *State (see the views table in gui.go);
 // the State owns the data bindings, the open corpus, model, filter profiles
 // and audit, and runs long work (loading, training, profiling, the audit) on
 // background goroutines with a context that the user can cancel. Background

@@ -50,11 +50,10 @@ func (st *State) runExplain(text string, done func(*explainState)) {
 		prof = ps.P
 	}
 	st.start(taskExplain, false, func(ctx context.Context, _ reporter) (func(), error) {
-		toks := ms.Tok.TokenizeFor(ms.Vocab, text)
+		toks, ids := ms.Enc.Encode(text)
 		if len(toks) == 0 {
 			return func() { done(&explainState{Text: text}) }, nil
 		}
-		ids := ms.Vocab.Encode(toks)
 		e, err := explain.Explain(ms.Model, toks, ids, explain.ExplainOptions{
 			Table: ms.Table, Profiles: prof, Occlusion: true, IG: true,
 		})

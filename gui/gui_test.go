@@ -3,9 +3,13 @@
 package gui
 
 import (
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
+	"slices"
+	"sort"
 	"strings"
 	"sync"
 	"testing"
@@ -13,8 +17,10 @@ import (
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/widget"
 
 	"telltale/cnn"
+	"telltale/explain"
 )
 
 // queue stands in for the UI goroutine: background work posts functions
@@ -95,19 +101,19 @@ func TestWholeSession(t *testing.T) {
 		t.Errorf("corpus view does not name the opened corpus")
 	}
 
-	// Tiny recipe; two epochs.
-	_ = st.recipe.widths.Set("2,3")
-	_ = st.recipe.filters.Set("6")
-	_ = st.recipe.dim.Set("12")
-	_ = st.recipe.epochs.Set("2")
+	// A small recipe; three epochs.
+	_ = st.recipe.widths.Set("3,4,5")
+	_ = st.recipe.filters.Set("10")
+	_ = st.recipe.dim.Set("16")
+	_ = st.recipe.epochs.Set("3")
 	test.Tap(st.trainButtons[0])
 	if !st.trainButtons[0].Disabled() || st.trainButtons[1].Disabled() {
 		t.Errorf("while training, Train should be disabled and Stop enabled")
 	}
 	q.waitFor(t, "the trained model and its profiles", func() bool { return itemGet(st.profiles) != nil })
 	ms := itemGet(st.model)
-	if ms.Model.Config.NumFilters() != 12 || ms.Eval == nil {
-		t.Fatalf("model has %d filters (want 12) or no evaluation", ms.Model.Config.NumFilters())
+	if ms.Model.Config.NumFilters() != 3*10 || ms.Eval == nil {
+		t.Fatalf("model has %d filters (want 3 widths × 10) or no evaluation", ms.Model.Config.NumFilters())
 	}
 	if ms.Eval.Metrics.N != len(cs.Test.Examples) {
 		t.Errorf("scorecard covers %d texts, held-out split has %d", ms.Eval.Metrics.N, len(cs.Test.Examples))
@@ -122,7 +128,7 @@ func TestWholeSession(t *testing.T) {
 	// error (Guo et al. 2017: ECE = Σ |B|/n · |acc − conf|).
 	var ece float64
 	for _, b := range reliabilityBins(ms.Eval, cnn.DefaultBins) {
-		ece += float64(b.count) / float64(len(ms.Eval.Pred)) * math.Abs(b.acc-b.conf)
+		ece += float64(b.Count) / float64(len(ms.Eval.Pred)) * math.Abs(b.Acc-b.Conf)
 	}
 	if math.Abs(ece-ms.Eval.Metrics.ECE) > 1e-9 {
 		t.Errorf("reliability bins give ECE %.12f, cnn says %.12f", ece, ms.Eval.Metrics.ECE)
@@ -179,20 +185,112 @@ func TestWholeSession(t *testing.T) {
 		}
 	}
 
-	// Mask two filters: the masked metrics are those of cnn.Evaluate on a
-	// masked copy, and the open model stays unmasked.
-	st.tabs("Cue audit")
-	st.maskTicks([]int{0, 4})
-	test.Tap(st.maskApply)
-	q.waitFor(t, "the masked evaluation", func() bool { return st.maskShown() != nil })
-	mk := st.maskShown()
-	if !mk.Model.IsMasked(0) || !mk.Model.IsMasked(4) || mk.Model.IsMasked(1) || ms.Model.IsMasked(0) {
-		t.Fatalf("mask not as ticked (or leaked into the open model)")
+	// Run the audit (Run › Run the audit). The token test runs on the
+	// training split, so whatever the model learned, the two cues planted
+	// there (testdata/demo/README.md: "kioskmail" in 80% of lost-property
+	// texts, "tkref" in 75% of complaints texts) must be flagged for their
+	// labels.
+	st.auditNow()
+	q.waitFor(t, "the audit", func() bool { return itemGet(st.audit) != nil })
+	au := st.auditShown()
+	planted := map[string]string{"kioskmail": "lost-property", "tkref": "complaints"}
+	for tok, label := range planted {
+		found := false
+		for _, f := range au.A.Tokens {
+			if f.Token == tok {
+				found = f.Label == label
+			}
+		}
+		if !found {
+			t.Errorf("planted cue %q not flagged for %s", tok, label)
+		}
 	}
-	ref := ms.Model.Clone()
-	ref.Masked = make([]bool, ref.Config.NumFilters())
-	ref.Masked[0], ref.Masked[4] = true, true
-	d, err := encode(ms.Tok, ms.Vocab, cs.Test, ms.Model.Labels)
+	if len(au.A.Filters) == 0 {
+		t.Fatalf("the audit lists no suspects")
+	}
+	keyed := map[string]int{} // planted cue → first suspect keyed on it
+	for i, s := range au.A.Filters {
+		for _, c := range s.Cues {
+			if _, ok := planted[c.Token]; ok {
+				if _, seen := keyed[c.Token]; !seen {
+					keyed[c.Token] = i
+				}
+			}
+		}
+	}
+	t.Logf("suspects keyed on the planted cues (rank from 0): %v of %d", keyed, len(au.A.Filters))
+	// The small recipe above (3 widths × 10 filters, 3 epochs) is enough
+	// for filters to learn both cues: each must key a top-5 suspect.
+	for tok := range planted {
+		if r, ok := keyed[tok]; !ok || r >= 5 {
+			t.Errorf("no suspect among the top 5 keys on the planted cue %q", tok)
+		}
+	}
+	// The suspect table shows every suspect with the parts of its score;
+	// the Filters view shows the same score in its suspicion column.
+	if got := len(st.auditSuspects.rows); got != len(au.A.Filters) {
+		t.Errorf("suspect table has %d rows, the audit %d suspects", got, len(au.A.Filters))
+	}
+	top := au.A.Filters[0]
+	row := st.auditSuspects.rows[0]
+	if row[2] != fmt.Sprint(top.Filter) || row[5] != fmt.Sprintf("%.4f", top.Score) || row[6] != fmt.Sprintf("%.3f", top.Parts.FlaggedShare) {
+		t.Errorf("suspect row %q does not show suspect %d with score %v", row, top.Filter, top.Score)
+	}
+	if got := au.suspicionOf(top.Filter); got != fmt.Sprintf("%.4f", top.Score) {
+		t.Errorf("Filters view suspicion of filter %d = %q, audit score %v", top.Filter, got, top.Score)
+	}
+	if !strings.Contains(test.RenderToMarkup(w.Canvas()), au.A.Formula[:40]) {
+		t.Errorf("audit view does not show the score formula")
+	}
+
+	// The Filters view: sorting by suspicion (descending) puts the top
+	// suspect first, and searching for a cue word finds its filters.
+	fl := st.filterList
+	fl.sortCol, fl.desc = -1, false
+	fl.sortBy(4)
+	if got := fl.rows[fl.visible(0)][0]; got != fmt.Sprint(top.Filter) {
+		t.Errorf("filters sorted by suspicion start with filter %s, want the top suspect %d", got, top.Filter)
+	}
+	fl.setQuery("kioskmail")
+	if len(fl.order) == 0 {
+		t.Errorf("searching the filter list for kioskmail finds nothing")
+	}
+	for i := range fl.order {
+		if r := fl.rows[fl.visible(i)]; r[5] == "" && !strings.Contains(r[len(r)-1], "kioskmail") {
+			t.Errorf("search for kioskmail shows filter %s with neither a cue nor an n-gram holding it", r[0])
+		}
+	}
+	fl.setQuery("")
+
+	// Tapping the mask cell of the top suspect masks it at once.
+	st.auditSuspects.table.Select(widget.TableCellID{Row: 0, Col: 0})
+	q.waitFor(t, "the masked evaluation", func() bool {
+		mk := st.maskShown()
+		return mk != nil && slices.Equal(mk.Filters, []int{top.Filter})
+	})
+
+	// Tick the top suspect and filter 0 in the suspect table / filter
+	// list: the masked metrics are those of cnn.Evaluate on
+	// explain.MaskFilters' copy, and the open model stays unmasked.
+	maskSet := []int{top.Filter}
+	if top.Filter != 0 {
+		maskSet = append(maskSet, 0)
+	}
+	st.maskTicks(maskSet)
+	sort.Ints(maskSet)
+	q.waitFor(t, "the masked evaluation", func() bool { return slices.Equal(st.maskShown().Filters, maskSet) })
+	mk := st.maskShown()
+	for g := range ms.Model.Config.NumFilters() {
+		in := slices.Contains(maskSet, g)
+		if mk.Model.IsMasked(g) != in || ms.Model.IsMasked(g) {
+			t.Fatalf("filter %d: masked %v in the copy (want %v), %v in the open model (want false)", g, mk.Model.IsMasked(g), in, ms.Model.IsMasked(g))
+		}
+	}
+	ref, err := explain.MaskFilters(ms.Model, maskSet)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d, err := cnn.EncodeDataset(ms.Enc, cs.Test, ms.Model.Labels, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -200,12 +298,15 @@ func TestWholeSession(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if met.Accuracy != mk.Eval.Metrics.Accuracy || met.MacroF1 != mk.Eval.Metrics.MacroF1 {
-		t.Errorf("masked view shows accuracy %v macro-F1 %v; cnn.Evaluate gives %v %v",
-			mk.Eval.Metrics.Accuracy, mk.Eval.Metrics.MacroF1, met.Accuracy, met.MacroF1)
+	if !reflect.DeepEqual(met, mk.Eval.Metrics) {
+		t.Errorf("masked view shows %+v; cnn.Evaluate on explain.MaskFilters' copy gives %+v", mk.Eval.Metrics, met)
 	}
-	if !strings.Contains(test.RenderToMarkup(w.Canvas()), "Masked filters [0 4].") {
+	wantRow := []string{"accuracy", fmt.Sprintf("%.4f", ms.Eval.Metrics.Accuracy), fmt.Sprintf("%.4f", met.Accuracy), fmt.Sprintf("%+.4f", met.Accuracy-ms.Eval.Metrics.Accuracy)}
+	if markup := test.RenderToMarkup(w.Canvas()); !strings.Contains(markup, fmt.Sprintf("Masked filters %v.", maskSet)) {
 		t.Errorf("audit view does not say which filters are masked")
+	}
+	if got := st.maskCompare.rows; len(got) == 0 || !slices.Equal(got[0], wantRow) {
+		t.Errorf("before/after table starts %q, want %q", got, wantRow)
 	}
 
 	// Save the masked model and read it back.
@@ -214,8 +315,8 @@ func TestWholeSession(t *testing.T) {
 		t.Fatal(err)
 	}
 	back, err := cnn.Load(path)
-	if err != nil || !back.IsMasked(4) {
-		t.Fatalf("saved masked model: %v, masked(4)=%v", err, err == nil && back.IsMasked(4))
+	if err != nil || !back.IsMasked(top.Filter) {
+		t.Fatalf("saved masked model: %v, masked(%d)=%v", err, top.Filter, err == nil && back.IsMasked(top.Filter))
 	}
 }
 

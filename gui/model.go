@@ -12,8 +12,9 @@ import (
 // modelState is the open model and what the window knows about it.
 type modelState struct {
 	Model *cnn.Model
-	Tok   *corpus.Tokenizer
-	Vocab *corpus.Vocab
+	// Enc is the model's own tokenizer and vocabulary (cnn.Model.Encoder):
+	// every text the window encodes for it goes through here.
+	Enc   *corpus.Encoder
 	Table *explain.SlotTable // word-slot table of the model (read-only)
 	Path  string             // file it was opened from or saved to; "" if unsaved
 	// Run is the training record when the model was trained in this
@@ -33,17 +34,10 @@ type evaluation struct {
 	Texts   []string    // the held-out texts, in the same order
 }
 
-// encoded is a split as the model sees it.
-func encode(tok *corpus.Tokenizer, v *corpus.Vocab, d *corpus.Dataset, labels []string) (cnn.Data, error) {
-	gold, err := d.LabelIndex(labels)
-	if err != nil {
-		return cnn.Data{}, err
-	}
-	out := cnn.Data{IDs: make([][]int32, len(d.Examples)), Labels: gold}
-	for i, e := range d.Examples {
-		out.IDs[i] = v.Encode(tok.TokenizeFor(v, e.Text))
-	}
-	return out, nil
+// encode is a split as the model sees it, encoded as the command line
+// encodes it.
+func encode(enc *corpus.Encoder, d *corpus.Dataset, labels []string) (cnn.Data, error) {
+	return cnn.EncodeDataset(enc, d, labels, 0)
 }
 
 // evaluate runs m on the held-out split of cs.
@@ -51,7 +45,7 @@ func evaluate(ms *modelState, cs *corpusState) (*evaluation, error) {
 	if cs == nil {
 		return nil, nil
 	}
-	d, err := encode(ms.Tok, ms.Vocab, cs.Test, ms.Model.Labels)
+	d, err := encode(ms.Enc, cs.Test, ms.Model.Labels)
 	if err != nil {
 		return nil, fmt.Errorf("the held-out split does not fit this model: %w", err)
 	}
@@ -69,7 +63,7 @@ func evaluate(ms *modelState, cs *corpusState) (*evaluation, error) {
 // newModelState prepares an opened or trained model for the views: its
 // tokenizer, vocabulary and word-slot table.
 func newModelState(m *cnn.Model, path string) (*modelState, error) {
-	tok, err := corpus.NewTokenizer(m.Tokenizer)
+	enc, err := m.Encoder()
 	if err != nil {
 		return nil, fmt.Errorf("the model's tokenizer settings cannot be used: %w", err)
 	}
@@ -80,7 +74,7 @@ func newModelState(m *cnn.Model, path string) (*modelState, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &modelState{Model: m, Tok: tok, Vocab: corpus.NewVocab(m.Vocab, nil), Table: table, Path: path}, nil
+	return &modelState{Model: m, Enc: enc, Table: table, Path: path}, nil
 }
 
 // setModel makes ms the open model; the profiles and audit of the old one

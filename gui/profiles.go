@@ -45,7 +45,7 @@ func (st *State) profileNow(then func()) {
 	}
 	_ = st.status.Set("Profiling the filters over the training split…")
 	st.start(taskProfile, true, func(ctx context.Context, report reporter) (func(), error) {
-		d, err := encode(ms.Tok, ms.Vocab, cs.Train, ms.Model.Labels)
+		d, err := encode(ms.Enc, cs.Train, ms.Model.Labels)
 		if err != nil {
 			return then, fmt.Errorf("the training split does not fit this model: %w", err)
 		}
@@ -76,8 +76,9 @@ func (st *State) profileNow(then func()) {
 func filtersView(st *State) fyne.CanvasObject {
 	empty := widget.NewLabel("Train or open a model; its filters are profiled over the training split and listed here.")
 	empty.Wrapping = fyne.TextWrapWord
-	list := newSheet([]string{"filter", "width", "votes for", "vote margin", "suspicion", "fired", "threshold", "purity", "families", "idle"},
-		[]float32{56, 52, 110, 90, 80, 60, 80, 64, 70, 46})
+	list := newSheet([]string{"filter", "width", "votes for", "vote margin", "suspicion", "cue words", "fired", "threshold", "purity", "families", "idle"},
+		[]float32{56, 52, 110, 90, 80, 100, 60, 80, 64, 70, 46})
+	st.filterList = list
 	query := widget.NewEntry()
 	query.SetPlaceHolder("Filter the list: a label, a word of a top n-gram, a width…")
 	query.OnChanged = list.setQuery
@@ -205,7 +206,7 @@ func filtersView(st *State) fyne.CanvasObject {
 				top = append(top, strings.Join(n.Tokens, " "))
 			}
 			rows[i] = []string{fmt.Sprint(fp.Filter), fmt.Sprint(fp.Width), fp.Label, fmt.Sprintf("%.3f", fp.Margin),
-				au.suspicionOf(fp.Filter), fmt.Sprint(fp.Fired), thr, fmt.Sprintf("%.2f", fp.AbovePurity),
+				au.suspicionOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thr, fmt.Sprintf("%.2f", fp.AbovePurity),
 				fmt.Sprint(len(fp.Families)), yesNo(fp.Idle), strings.Join(top, " / ")}
 		}
 		list.setRows(rows)
@@ -218,7 +219,19 @@ func filtersView(st *State) fyne.CanvasObject {
 		}
 	}
 	st.profiles.AddListener(binding.NewDataListener(refresh))
-	st.audit.AddListener(binding.NewDataListener(refresh))
+	// After an audit the list is ranked by suspicion, the top suspect
+	// selected.
+	st.audit.AddListener(binding.NewDataListener(func() {
+		refresh()
+		if itemGet(st.audit) != nil && itemGet(st.profiles) != nil {
+			list.sortCol, list.desc = 4, true
+			list.reorder()
+			if len(list.order) > 0 {
+				list.table.UnselectAll()
+				list.table.Select(widget.TableCellID{Row: 0, Col: 0})
+			}
+		}
+	}))
 	st.app.Settings().AddListener(func(fyne.Settings) {
 		if cur != nil {
 			hist.set(histogramPlot(cur))

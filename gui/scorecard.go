@@ -230,8 +230,8 @@ func reliabilityPlot(ev *evaluation) *plot.Plot {
 	}
 	var pts plotter.XYs
 	for _, b := range bins {
-		if b.count > 0 {
-			pts = append(pts, plotter.XY{X: b.conf, Y: b.acc})
+		if b.Count > 0 {
+			pts = append(pts, plotter.XY{X: b.Conf, Y: b.Acc})
 		}
 	}
 	if len(pts) > 0 {
@@ -247,37 +247,14 @@ func reliabilityPlot(ev *evaluation) *plot.Plot {
 	return p
 }
 
-type relBin struct {
-	count     int
-	conf, acc float64
-}
-
-// reliabilityBins groups the held-out predictions into equal-width bins of
-// confidence (the probability of the predicted class) as for the expected
-// calibration error (Guo et al. 2017, "On Calibration of Modern Neural
-// Networks", ICML): bin b holds confidences in (b/n, (b+1)/n]. It returns
-// each bin's mean confidence and accuracy; the tests check that these bins
-// reproduce cnn's ECE.
-func reliabilityBins(ev *evaluation, n int) []relBin {
-	bins := make([]relBin, n)
+// reliabilityBins are the held-out predictions in cnn's equal-width
+// confidence bins (confidence: the probability of the predicted class).
+func reliabilityBins(ev *evaluation, n int) []cnn.ReliabilityBin {
+	conf := make([]float64, len(ev.Pred))
+	correct := make([]bool, len(ev.Pred))
 	for i, pred := range ev.Pred {
-		c := float64(ev.Probs[i][pred])
-		b := int(c * float64(n))
-		if float64(b) == c*float64(n) {
-			b-- // right-closed bins
-		}
-		b = max(0, min(n-1, b))
-		bins[b].count++
-		bins[b].conf += c
-		if pred == ev.Gold[i] {
-			bins[b].acc++
-		}
+		conf[i] = float64(ev.Probs[i][pred])
+		correct[i] = pred == ev.Gold[i]
 	}
-	for i := range bins {
-		if bins[i].count > 0 {
-			bins[i].conf /= float64(bins[i].count)
-			bins[i].acc /= float64(bins[i].count)
-		}
-	}
-	return bins
+	return cnn.Reliability(conf, correct, n)
 }

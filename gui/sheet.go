@@ -26,7 +26,10 @@ type sheet struct {
 
 	table    *widget.Table
 	onSelect func(row int) // original row index
-	selected int           // original row index, -1 none
+	// onCell, if set, is called before onSelect with the column tapped.
+	onCell   func(row, col int)
+	selected int  // original row index, -1 none
+	quiet    bool // a selection made by the program: no onCell
 }
 
 // newSheet makes an empty sheet with the given column titles and widths.
@@ -73,6 +76,9 @@ func newSheet(cols []string, widths []float32) *sheet {
 			return
 		}
 		s.selected = s.order[id.Row]
+		if s.onCell != nil && !s.quiet {
+			s.onCell(s.selected, id.Col)
+		}
 		if s.onSelect != nil {
 			s.onSelect(s.selected)
 		}
@@ -117,11 +123,17 @@ func (s *sheet) reorder() {
 	if c := s.sortCol; c >= 0 {
 		sort.SliceStable(s.order, func(a, b int) bool {
 			x, y := s.rows[s.order[a]][c], s.rows[s.order[b]][c]
-			less := cellLess(x, y)
+			// Cells that are not numbers ("—": no value) stay after the
+			// numbers in both directions.
+			_, ex := parseCell(x)
+			_, ey := parseCell(y)
+			if (ex == nil) != (ey == nil) {
+				return ex == nil
+			}
 			if s.desc {
 				return cellLess(y, x)
 			}
-			return less
+			return cellLess(x, y)
 		})
 	}
 	s.table.Refresh()
@@ -134,7 +146,15 @@ func (s *sheet) visible(i int) int { return s.order[i] }
 func (s *sheet) selectRow(row int) {
 	for i, r := range s.order {
 		if r == row {
-			s.table.Select(widget.TableCellID{Row: i, Col: 0})
+			// With a cell action, select a cell beside the first column
+			// so that a tap on the first column still reaches it.
+			col := 0
+			if s.onCell != nil && len(s.cols) > 1 {
+				col = 1
+			}
+			s.quiet = true
+			s.table.Select(widget.TableCellID{Row: i, Col: col})
+			s.quiet = false
 			return
 		}
 	}

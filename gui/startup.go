@@ -1,5 +1,7 @@
 package gui
 
+import "telltale/explain"
+
 // startup opens the start-up data and model, and with AutoRun trains,
 // profiles and audits; OnReady runs at the end, also after a failure.
 func (st *State) startup() {
@@ -19,6 +21,9 @@ func (st *State) startup() {
 		switch {
 		case st.opts.ModelPath != "":
 			st.afterProfile = ready
+			if st.opts.AutoRun {
+				st.afterProfile = func() { st.runAudit(func() { st.suggestText(); ready() }) }
+			}
 			st.openModel(st.opts.ModelPath, func() {
 				if itemGet(st.model) == nil {
 					st.afterProfile = nil
@@ -26,7 +31,7 @@ func (st *State) startup() {
 				}
 			})
 		case st.opts.AutoRun:
-			st.afterProfile = ready
+			st.afterProfile = func() { st.runAudit(func() { st.suggestText(); ready() }) }
 			st.afterTrain = func(ok bool) {
 				if !ok {
 					st.afterProfile = nil
@@ -38,4 +43,21 @@ func (st *State) startup() {
 			ready()
 		}
 	})
+}
+
+// suggestText puts a text on the explain view when it has none: the first
+// held-out text behind the top suspect's figures (one where its cue points
+// away from the gold label), so a first visit sees the cue at work.
+func (st *State) suggestText() {
+	a := itemGet(st.audit)
+	if a == nil || len(a.A.Filters) == 0 || stringGet(st.explainText) != "" {
+		return
+	}
+	ex := a.A.Filters[0].Examples
+	for _, list := range [][]explain.AuditExample{ex.Conflict, ex.Counterfactual, ex.Windows} {
+		if len(list) > 0 {
+			_ = st.explainText.Set(a.text(list[0]))
+			return
+		}
+	}
 }

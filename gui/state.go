@@ -62,10 +62,13 @@ type State struct {
 	filterShown      func() *explain.FilterProfile // the filter on screen, for tests
 	filterNgramChips func() []*heatCell            // its painted n-gram tokens, for tests
 
-	maskShown    func() *maskState // the masked model on screen, for tests
-	maskTicks    func(gs []int)    // sets the ticked filters, for tests
-	maskApply    *widget.Button    // the mask button, for tests
-	explainEntry *widget.Entry     // the explain view's text box, for tests
+	maskShown     func() *maskState  // the masked model on screen, for tests
+	maskTicks     func(gs []int)     // sets the ticked filters and masks them
+	auditShown    func() *auditState // the audit on screen, for tests
+	auditSuspects *sheet             // the suspect table, for tests
+	maskCompare   *sheet             // the before/after table, for tests
+	filterList    *sheet             // the Filters view's list, for tests
+	explainEntry  *widget.Entry      // the explain view's text box, for tests
 
 	// One-shot hooks of the start-up sequence.
 	afterTrain   func(ok bool)

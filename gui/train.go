@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"strconv"
 	"strings"
-	"time"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
@@ -14,7 +13,6 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/cnn"
-	"telltale/corpus"
 )
 
 // recipe holds the training form's values as the user typed them.
@@ -216,47 +214,25 @@ func (r *trainRun) add(pr cnn.Progress) {
 	}
 }
 
-// trainModel builds the vocabulary on the training split less a dev part,
-// and trains a new model. On cancel it returns the best model so far.
+// trainModel trains a new model on the open corpus's training split less
+// a dev share (split off with the recipe's seed, as the command line does),
+// through the same pipeline as the command line (cnn.TrainText). On cancel
+// it returns the best model so far.
 func trainModel(ctx context.Context, cs *corpusState, p parsed, progress func(cnn.Progress)) (*modelState, *cnn.TrainResult, error) {
 	tcfg := defaultTokenizer()
 	tcfg.MinCount = p.minCount
-	tok, err := corpus.NewTokenizer(tcfg)
+	fit, dev := cs.Train.Split(p.devShare, p.tc.Seed)
+	tr, err := cnn.TrainText(ctx, fit, dev, cnn.Recipe{Tokenizer: tcfg, Model: p.cfg, Train: p.tc}, progress)
 	if err != nil {
 		return nil, nil, err
 	}
-	fit, dev := cs.Train.Split(p.devShare, p.tc.Seed+1)
-	vocab := corpus.BuildVocab(tok, fit.Texts(), p.minCount, 0)
-	labels := cs.Train.Labels
-	fd, err := encode(tok, vocab, fit, labels)
-	if err != nil {
-		return nil, nil, err
-	}
-	dd, err := encode(tok, vocab, dev, labels)
-	if err != nil {
-		return nil, nil, err
-	}
-	cfg := p.cfg
-	cfg.VocabSize, cfg.Classes = vocab.Len(), len(labels)
-	m, err := cnn.New(cfg, vocab.Words, labels, p.tc.Seed)
-	if err != nil {
-		return nil, nil, err
-	}
-	res, err := cnn.Train(ctx, m, fd, dd, p.tc, progress)
-	if err != nil {
-		return nil, nil, err
-	}
+	res := tr.Result
 	if res.BestEpoch == 0 {
 		return nil, nil, errCanceled
 	}
-	m.Tokenizer = tok.Config()
-	tc, _ := p.tc.WithDefaults()
-	m.Info = cnn.Info{
-		Created: time.Now().UTC().Format(time.RFC3339), Recipe: &tc, Epochs: res.Epochs,
-		BestEpoch: res.BestEpoch, ExamplesPerSec: res.ExamplesPerSec,
-		Dev:   res.Epochs[res.BestEpoch-1].Dev,
-		Notes: map[string]string{"data": cs.Source, "window_split_seed": fmt.Sprint(splitSeed)},
-	}
+	m := tr.Model
+	m.Info.Notes = map[string]string{"data": cs.Source, "window_split_seed": fmt.Sprint(splitSeed),
+		"dev_share": fmt.Sprint(p.devShare), "seed": fmt.Sprint(p.tc.Seed)}
 	ms, err := newModelState(m, "")
 	if err != nil {
 		return nil, nil, err
