@@ -13,7 +13,7 @@ BIN := bin/telltale
 GUI_PKGS  := gcc libc6-dev pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev \
              libxrandr-dev libxinerama-dev libxi-dev libxxf86vm-dev
 TEST_PKGS := gcc libc6-dev python3 python3-torch python3-sklearn python3-numpy python3-pandas \
-             chromium xvfb npm ca-certificates
+             chromium xvfb ca-certificates
 SHOT_PKGS := $(GUI_PKGS) xvfb imagemagick fonts-dejavu-core
 
 .PHONY: all build demo test test-go test-portable test-race fuzz vet bench screenshots deps-gui deps-test corpora clean

@@ -8,6 +8,8 @@
 #                           `word: score,` entry per line)
 set -euo pipefail
 cd "$(dirname "$0")/.."
+# npm may come with Node.js from elsewhere; install Debian's only when absent.
+command -v npm >/dev/null 2>&1 || scripts/ensure-debian-packages.sh npm
 tmp=$(mktemp -d)
 trap 'rm -rf "$tmp"' EXIT
 if [ ! -f testdata/spamassassin/.complete ]; then
