@@ -94,6 +94,7 @@ func (m *Model) SetVectors(words []string, vecs [][]float32) (int, error) {
 			found++
 		}
 	}
+	m.Invalidate()
 	return found, nil
 }
 
@@ -115,6 +116,7 @@ func (m *Model) Clone() *Model {
 	if m.Masked != nil {
 		c.Masked = append([]bool(nil), m.Masked...)
 	}
+	c.cache = nil
 	return &c
 }
 

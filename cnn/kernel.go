@@ -1,6 +1,9 @@
 package cnn
 
-import "math"
+import (
+	"math"
+	"unsafe"
+)
 
 // Dense float32 kernels used by the hot loops.
 //
@@ -29,6 +32,7 @@ type kernelSet struct {
 	dot       func(x, y []float32) float32
 	maxUpdate func(best []float32, arg []int32, x []float32, t int32)
 	adamStep  func(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32)
+	windowMax func(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int)
 }
 
 // portableKernels is the pure-Go implementation, available in every build.
@@ -40,6 +44,7 @@ var portableKernels = kernelSet{
 	dot:       dotGo,
 	maxUpdate: maxUpdateGo,
 	adamStep:  adamStepGo,
+	windowMax: windowMaxGo,
 }
 
 // checkMatMulNT panics unless the slices hold the matrices their shapes say.
@@ -152,6 +157,54 @@ func adamStepGo(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 		m[i], v[i] = mi, vi
 		d := sqrt32(vi)*isb2 + eps
 		p[i] -= step * mi / d
+	}
+}
+
+// winLanes is the padding unit of windowMax's filter vectors: bias, best
+// and arg hold padLanes(nf) values, and every table row is readable that far
+// past its last slot.
+const winLanes = 16
+
+// padLanes rounds n up to a multiple of winLanes.
+func padLanes(n int) int { return (n + winLanes - 1) &^ (winLanes - 1) }
+
+// windowMaxGo runs the windows t ∈ [t0, t1) of one filter bank of width w
+// over a text given by its slot-table rows (rows[p] points at the table row
+// of the word at position p; a PAD position points at a zero row): the
+// pre-activations
+//
+//	a[f] = bias[f] + Σ_{s<w} rows[t+s][col + s·nf + f]   (summed in order of s)
+//
+// of the nf filters update the running maximum best, arg (first maximum:
+// a later equal value does not replace an earlier one). Len(rows) must be at
+// least t1−1+w; bias, best and arg must hold padLanes(nf) values (the
+// padding is scratch: its contents are unspecified afterwards); every row
+// must be readable at col + (w−1)·nf + padLanes(nf) values.
+func windowMaxGo(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int) {
+	if t1 <= t0 {
+		return
+	}
+	_ = rows[t1-1+w-1]
+	bias, best, arg = bias[:nf], best[:nf], arg[:nf]
+	var acc [winLanes]float32
+	for j := 0; j < nf; j += winLanes {
+		n := min(winLanes, nf-j)
+		bj, aj := best[j:j+n], arg[j:j+n]
+		for t := t0; t < t1; t++ {
+			a := acc[:n]
+			copy(a, bias[j:j+n])
+			for s := 0; s < w; s++ {
+				r := unsafe.Slice((*float32)(unsafe.Add(unsafe.Pointer(rows[t+s]), 4*(col+s*nf+j))), n)
+				for i, v := range r {
+					a[i] += v
+				}
+			}
+			for i, v := range a {
+				if v > bj[i] {
+					bj[i], aj[i] = v, int32(t)
+				}
+			}
+		}
 	}
 }
 

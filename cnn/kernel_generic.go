@@ -30,6 +30,12 @@ func adamStep(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 	adamStepGo(p, g, m, v, lr, b1, b2, eps, bc1, bc2)
 }
 
+// windowMax runs the windows of one filter bank over a text's table rows
+// (see windowMaxGo).
+func windowMax(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int) {
+	windowMaxGo(rows, w, nf, col, bias, best, arg, t0, t1)
+}
+
 // kernelLevel names the implementation the dispatch functions use.
 const kernelLevel = "go"
 

@@ -52,6 +52,7 @@ var avx2Kernels = kernelSet{
 	dot:       dot256,
 	maxUpdate: maxUpdate256,
 	adamStep:  adamStep256,
+	windowMax: windowMax256,
 }
 
 var avx512Kernels = kernelSet{
@@ -62,6 +63,7 @@ var avx512Kernels = kernelSet{
 	dot:       dot512,
 	maxUpdate: maxUpdate512,
 	adamStep:  adamStep512,
+	windowMax: windowMax512,
 }
 
 // kernelSets lists every implementation this build and CPU can run; the
@@ -149,6 +151,19 @@ func adamStep(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 		adamStep256(p, g, m, v, lr, b1, b2, eps, bc1, bc2)
 	default:
 		adamStepGo(p, g, m, v, lr, b1, b2, eps, bc1, bc2)
+	}
+}
+
+// windowMax runs the windows of one filter bank over a text's table rows
+// (see windowMaxGo).
+func windowMax(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int) {
+	switch simdLevel {
+	case levelAVX512:
+		windowMax512(rows, w, nf, col, bias, best, arg, t0, t1)
+	case levelAVX2:
+		windowMax256(rows, w, nf, col, bias, best, arg, t0, t1)
+	default:
+		windowMaxGo(rows, w, nf, col, bias, best, arg, t0, t1)
 	}
 }
 
@@ -680,6 +695,72 @@ func adamStep256(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 		d := vv.Sqrt().MulAdd(iv, ev)
 		pv := archsimd.LoadFloat32x8Slice(p[i:])
 		pv.Sub(sv.Mul(mv).Div(d)).StoreSlice(p[i:])
+	}
+	archsimd.ClearAVXUpperBits()
+}
+
+// windowMax512 keeps one 16-filter chunk's running maximum and argument in
+// registers while the windows stream past, and loads each slot row's chunk
+// once per window: w loads and adds, a compare and two merges per window
+// and chunk. The padding lanes past nf read the rows' slack and are never
+// returned to callers as results.
+func windowMax512(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int) {
+	if t1 <= t0 {
+		return
+	}
+	np := padLanes(nf)
+	_ = rows[t1-1+w-1]
+	bias, best, arg = bias[:np], best[:np], arg[:np]
+	for j := 0; j < np; j += 16 {
+		bv := archsimd.LoadFloat32x16Slice(bias[j:])
+		mx := archsimd.LoadFloat32x16Slice(best[j:])
+		ag := archsimd.LoadInt32x16Slice(arg[j:])
+		off := uintptr(4 * (col + j))
+		stride := uintptr(4 * nf)
+		for t := t0; t < t1; t++ {
+			acc := bv
+			o := off
+			for _, r := range rows[t : t+w] {
+				acc = acc.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(unsafe.Pointer(r), o))))
+				o += stride
+			}
+			gt := acc.Greater(mx)
+			mx = acc.Merge(mx, gt)
+			ag = archsimd.BroadcastInt32x16(int32(t)).Merge(ag, gt)
+		}
+		mx.StoreSlice(best[j:])
+		ag.StoreSlice(arg[j:])
+	}
+	archsimd.ClearAVXUpperBits()
+}
+
+// windowMax256 is windowMax512 with two 8-lane halves per chunk.
+func windowMax256(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int) {
+	if t1 <= t0 {
+		return
+	}
+	np := padLanes(nf)
+	_ = rows[t1-1+w-1]
+	bias, best, arg = bias[:np], best[:np], arg[:np]
+	for j := 0; j < np; j += 8 {
+		bv := archsimd.LoadFloat32x8Slice(bias[j:])
+		mx := archsimd.LoadFloat32x8Slice(best[j:])
+		ag := archsimd.LoadInt32x8Slice(arg[j:])
+		off := uintptr(4 * (col + j))
+		stride := uintptr(4 * nf)
+		for t := t0; t < t1; t++ {
+			acc := bv
+			o := off
+			for _, r := range rows[t : t+w] {
+				acc = acc.Add(archsimd.LoadFloat32x8((*[8]float32)(unsafe.Add(unsafe.Pointer(r), o))))
+				o += stride
+			}
+			gt := acc.Greater(mx)
+			mx = acc.Merge(mx, gt)
+			ag = archsimd.BroadcastInt32x8(int32(t)).Merge(ag, gt)
+		}
+		mx.StoreSlice(best[j:])
+		ag.StoreSlice(arg[j:])
 	}
 	archsimd.ClearAVXUpperBits()
 }

@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"sync"
 	"testing"
+	"unsafe"
 )
 
 // The kernel tests run every implementation this build can use (the portable
@@ -386,6 +387,74 @@ func TestKernelNoAllocs(t *testing.T) {
 		for name, a := range allocs {
 			if a != 0 {
 				t.Errorf("%s %s: %v allocations per call, want 0", ks.name, name, a)
+			}
+		}
+	}
+}
+
+// windowMax of every implementation must give the running maximum of the
+// window sums, summed in slot order, with the first maximum kept on ties;
+// the SIMD versions must agree with the portable one bit for bit.
+func TestKernelWindowMax(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 8))
+	for _, nf := range []int{1, 5, 16, 17, 100} {
+		for _, w := range []int{1, 3, 5} {
+			const words, lp = 7, 23
+			nr := 2*w*nf + 3 // two banks' worth of columns and an odd remainder
+			col := nr - w*nf - 1
+			tab := make([]float32, words*nr+winLanes)
+			for i := range tab[:words*nr] {
+				// Few distinct values, so that ties between windows occur.
+				tab[i] = float32(rng.IntN(5)-2) * 0.25
+			}
+			rows := make([]*float32, lp)
+			for p := range rows {
+				rows[p] = &tab[rng.IntN(words)*nr]
+			}
+			np := padLanes(nf)
+			bias := make([]float32, np)
+			for i := range bias[:nf] {
+				bias[i] = float32(rng.NormFloat64())
+			}
+			t0, t1 := 2, lp-w+1
+			var ref []float32
+			var refArg []int32
+			for _, ks := range kernelSets() {
+				best := make([]float32, np)
+				arg := make([]int32, np)
+				for i := range best {
+					best[i] = float32(math.Inf(-1))
+				}
+				best[0], arg[0] = 1e9, -7 // an earlier maximum that must survive
+				ks.windowMax(rows, w, nf, col, bias, best, arg, t0, t1)
+				if ref == nil {
+					// Check the portable version against a direct computation.
+					for f := 0; f < nf; f++ {
+						wantB, wantA := float32(math.Inf(-1)), int32(0)
+						if f == 0 {
+							wantB, wantA = 1e9, -7
+						}
+						for tt := t0; tt < t1; tt++ {
+							a := bias[f]
+							for s := 0; s < w; s++ {
+								a += unsafe.Slice(rows[tt+s], nr)[col+s*nf+f]
+							}
+							if a > wantB {
+								wantB, wantA = a, int32(tt)
+							}
+						}
+						if best[f] != wantB || arg[f] != wantA {
+							t.Fatalf("%s nf=%d w=%d filter %d: max %g at %d, want %g at %d", ks.name, nf, w, f, best[f], arg[f], wantB, wantA)
+						}
+					}
+					ref, refArg = best[:nf], arg[:nf]
+					continue
+				}
+				for f := 0; f < nf; f++ {
+					if math.Float32bits(best[f]) != math.Float32bits(ref[f]) || arg[f] != refArg[f] {
+						t.Fatalf("%s nf=%d w=%d filter %d: %g at %d, portable %g at %d", ks.name, nf, w, f, best[f], arg[f], ref[f], refArg[f])
+					}
+				}
 			}
 		}
 	}

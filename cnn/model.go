@@ -102,6 +102,9 @@ type Model struct {
 	// Info records how the model was trained and how well it did; it is
 	// stored in the model file and never affects predictions.
 	Info Info
+
+	version uint64     // bumped by Invalidate; guarded by cacheMu
+	cache   *slotCache // the persistent slot table (cache.go); guarded by cacheMu
 }
 
 // Info is the training record kept with a model.

@@ -2,8 +2,10 @@ package cnn
 
 import (
 	"runtime"
+
 	"sync"
 	"sync/atomic"
+	"telltale/corpus"
 )
 
 // tableFloats bounds the slot table of one Predictor (in float32 values, 32
@@ -11,22 +13,32 @@ import (
 const tableFloats = 1 << 23
 
 // Predictor runs a model on batches of texts with the word-slot table (see
-// slots.go). It reuses its scratch memory, so steady-state calls with
-// reusable outputs do not allocate. It reads the model's weights at every
-// call, so it stays correct after they change. A Predictor is not safe for
-// concurrent use; make one per goroutine.
+// slots.go): the model's persistent table for its most frequent words
+// (cache.go) and a per-call table for the others. It reuses its scratch
+// memory, so steady-state calls with reusable outputs do not allocate. It
+// reads the biases, masks and output layer at every call; after the
+// embeddings or convolution weights were changed in place outside Train,
+// call Model.Invalidate. A Predictor is not safe for concurrent use; make
+// one per goroutine.
 type Predictor struct {
 	m  *Model
 	sw slotWeights
 	ws wordSet
 
-	emb, tab, acc []float32
-	best          []float32 // per text of the call: NumFilters
-	arg           []int32
-	loc           []int32
-	spans         []span
-	h             []float32
-	maxTokens     int // distinct words per group; 0 means the default from tableFloats
+	emb, tab, bias []float32
+	best           []float32 // per text of the call: NumFilters
+	arg            []int32
+	bestP          []float32 // windowMax scratch
+	argP           []int32
+	code           []int32 // per token: cached word id (≥ 0), PAD (−1) or −2−local index
+	rows           []*float32
+	spans          []span
+	h              []float32
+	maxTokens      int // distinct uncached words per group; 0 means the default from tableFloats
+	cacheWords     int // words of the persistent table: 0 the default bound, −1 none (tests)
+
+	cache *slotCache // of the current call
+	csw   *slotWeights
 }
 
 // span is a run of windows of one text processed within one group.
@@ -37,12 +49,13 @@ type span struct {
 // NewPredictor returns a Predictor for m.
 func (m *Model) NewPredictor() *Predictor { return &Predictor{m: m} }
 
-// groupWords is the largest number of distinct words one group may hold.
+// groupWords is the largest number of distinct uncached words one group may
+// hold.
 func (p *Predictor) groupWords() int {
 	if p.maxTokens > 0 {
 		return max(p.maxTokens, 2*p.m.Config.MaxWidth())
 	}
-	return max(tableFloats/max(p.sw.nrows, 1), 4*p.m.Config.MaxWidth()+64)
+	return max(tableFloats/max(p.csw.nrows, 1), 4*p.m.Config.MaxWidth()+64)
 }
 
 // Run computes the output of every text into outs (same length as texts),
@@ -96,13 +109,15 @@ func (p *Predictor) Probs(texts [][]int32, dst []float32) {
 
 // runPre fills p.best and p.arg for texts.
 //
-// Texts are grouped so that a group's slot table has at most groupWords rows:
+// Words of the persistent table need no work per call. The other words are
+// grouped so that a group's per-call table has at most groupWords rows:
 // short texts share a group, a long text gets a group of its own when its
-// distinct words fit, and only a text with more distinct words than that is
-// split into overlapping segments of windows. Identical windows tie exactly
-// within a group; across the segments of one split text their sums may
-// differ in the last bit, so there a tie between identical windows is broken
-// within float32 rounding rather than strictly by position.
+// uncached words fit, and only a text with more distinct uncached words
+// than that is split into overlapping segments of windows. Identical
+// windows tie exactly within a group; across the segments of one split text
+// their sums may differ in the last bit, so there a tie between identical
+// windows is broken within float32 rounding rather than strictly by
+// position.
 func (p *Predictor) runPre(texts [][]int32) {
 	m := p.m
 	cfg := m.Config
@@ -110,9 +125,24 @@ func (p *Predictor) runPre(texts [][]int32) {
 	for _, w := range cfg.Widths {
 		minW = min(minW, w)
 	}
-	p.sw.build(m)
+	p.cache = nil
+	if p.cacheWords >= 0 {
+		want := -1
+		if p.cacheWords > 0 {
+			want = p.cacheWords
+		}
+		p.cache = m.slotTable(want)
+	}
+	if p.cache != nil {
+		p.csw = &p.cache.sw
+	} else {
+		p.sw.build(m)
+		p.csw = &p.sw
+	}
+	p.bias = padBias(m, p.bias)
 	p.ws.init(cfg.VocabSize)
-	p.acc = grow(p.acc, cfg.Filters)
+	p.bestP = grow(p.bestP, padLanes(cfg.Filters))
+	p.argP = grow(p.argP, padLanes(cfg.Filters))
 	p.best = grow(p.best, len(texts)*nf)
 	p.arg = grow(p.arg, len(texts)*nf)
 	resetBest(p.best, p.arg)
@@ -125,8 +155,8 @@ func (p *Predictor) runPre(texts [][]int32) {
 		if p.addWhole(i, ids, lp, capW) {
 			continue
 		}
-		// More distinct words than a table holds: segments of seg windows
-		// need at most capW tokens each.
+		// More distinct uncached words than a table holds: segments of seg
+		// windows need at most capW tokens each.
 		seg := capW - (maxW - 1)
 		nwin := lp - minW + 1
 		for t0 := 0; t0 < nwin; t0 += seg {
@@ -136,26 +166,39 @@ func (p *Predictor) runPre(texts [][]int32) {
 			if len(p.ws.words)+ntok > capW {
 				p.flush()
 			}
-			sp := span{text: i, t0: t0, t1: t1, base: t0, locOff: len(p.loc), locLen: ntok, lp: lp}
+			sp := span{text: i, t0: t0, t1: t1, base: t0, locOff: len(p.code), locLen: ntok, lp: lp}
 			for q := t0; q < tokEnd; q++ {
-				p.loc = append(p.loc, p.ws.add(ids[q]))
+				p.code = append(p.code, p.codeOf(ids[q]))
 			}
 			p.spans = append(p.spans, sp)
 		}
 		p.flush()
 	}
 	p.flush()
+	p.cache = nil
 }
 
-// addWhole adds text i as one span if its words fit in the current group
-// (which must be empty unless len(ids) words certainly fit) and reports
-// whether it did; on failure the group is left empty.
+// codeOf returns the code of word id: its id when the persistent table
+// holds it, −1 for PAD, else −2 − its index in the per-call word set.
+func (p *Predictor) codeOf(id int32) int32 {
+	if p.cache != nil && int(id) < p.cache.words {
+		return id
+	}
+	if id == corpus.PAD {
+		return -1
+	}
+	return -2 - p.ws.add(id)
+}
+
+// addWhole adds text i as one span if its uncached words fit in the current
+// group (which must be empty unless len(ids) words certainly fit) and
+// reports whether it did; on failure the group is left empty.
 func (p *Predictor) addWhole(i int, ids []int32, lp, capW int) bool {
-	mark := len(p.loc)
+	mark := len(p.code)
 	for _, id := range ids {
-		p.loc = append(p.loc, p.ws.add(id))
+		p.code = append(p.code, p.codeOf(id))
 		if len(p.ws.words) > capW {
-			p.loc = p.loc[:mark]
+			p.code = p.code[:mark]
 			p.ws.reset()
 			return false
 		}
@@ -164,22 +207,43 @@ func (p *Predictor) addWhole(i int, ids []int32, lp, capW int) bool {
 	return true
 }
 
-// flush computes the slot table of the current group and scans its spans.
+// flush computes the per-call table of the current group and scans its
+// spans.
 func (p *Predictor) flush() {
 	m := p.m
-	d, nf := m.Config.Dim, m.Config.NumFilters()
+	d, nf, maxW := m.Config.Dim, m.Config.NumFilters(), m.Config.MaxWidth()
+	sw := p.csw
 	nw := len(p.ws.words)
-	p.emb = grow(p.emb, nw*d)
-	p.tab = grow(p.tab, nw*p.sw.nrows)
-	gatherRows(m, p.ws.words, p.emb, 0, nw)
-	tableRows(&p.sw, p.emb, p.tab, d, 0, nw)
+	if nw > 0 {
+		p.emb = grow(p.emb, nw*d)
+		p.tab = grow(p.tab, tableLen(sw, nw))
+		gatherRows(m, p.ws.words, p.emb, 0, nw)
+		tableRows(sw, p.emb, p.tab, d, 0, nw)
+	}
+	nr := sw.nrows
+	zero := &sw.zero[0]
 	for _, sp := range p.spans {
-		scanWindows(m, &p.sw, p.tab, p.loc[sp.locOff:sp.locOff+sp.locLen], sp.base, sp.lp, sp.t0, sp.t1,
-			p.acc, p.best[sp.text*nf:(sp.text+1)*nf], p.arg[sp.text*nf:(sp.text+1)*nf])
+		code := p.code[sp.locOff : sp.locOff+sp.locLen]
+		p.rows = grow(p.rows, sp.lp)
+		end := min(sp.lp, sp.t1-1+maxW)
+		for q := sp.t0; q < end; q++ {
+			r := zero
+			if k := q - sp.base; k < len(code) {
+				switch c := code[k]; {
+				case c >= 0:
+					r = &p.cache.tab[int(c)*nr]
+				case c <= -2:
+					r = &p.tab[int(-2-c)*nr]
+				}
+			}
+			p.rows[q] = r
+		}
+		scanRows(m, sw, p.bias, p.rows, sp.lp, sp.t0, sp.t1, p.bestP, p.argP,
+			p.best[sp.text*nf:(sp.text+1)*nf], p.arg[sp.text*nf:(sp.text+1)*nf])
 	}
 	p.ws.reset()
 	p.spans = p.spans[:0]
-	p.loc = p.loc[:0]
+	p.code = p.code[:0]
 }
 
 var predictorPool sync.Pool // of *Predictor, rebound to the model on use

@@ -23,6 +23,8 @@ type slotWeights struct {
 	nrows  int
 	rowOff []int
 	wt     []float32 // nrows·Dim
+	bias   []float32 // per bank: its biases padded to padLanes(Filters)
+	zero   []float32 // the table row of PAD: zeros, with windowMax's slack
 }
 
 // build (re)fills sw from the model's current weights.
@@ -37,6 +39,10 @@ func (sw *slotWeights) build(m *Model) {
 	}
 	sw.nrows = n
 	sw.wt = grow(sw.wt, n*d)
+	sw.bias = padBias(m, sw.bias)
+	if len(sw.zero) != n+winLanes {
+		sw.zero = make([]float32, n+winLanes)
+	}
 	for b, c := range m.Convs {
 		off := sw.rowOff[b]
 		for f := 0; f < F; f++ {
@@ -127,6 +133,45 @@ func scanWindows(m *Model, sw *slotWeights, tab []float32, loc []int32, base, lp
 			}
 			maxUpdate(bb, ba, acc, int32(t))
 		}
+	}
+}
+
+// padBias returns the biases of every bank, each padded with zeros to
+// padLanes(Filters) values, in buf's storage when large enough.
+func padBias(m *Model, buf []float32) []float32 {
+	np := padLanes(m.Config.Filters)
+	buf = grow(buf, len(m.Convs)*np)
+	clear(buf)
+	for b, c := range m.Convs {
+		copy(buf[b*np:], c.B)
+	}
+	return buf
+}
+
+// tableLen is the length of a slot table of n words: windowMax reads up to
+// winLanes values past the last row.
+func tableLen(sw *slotWeights, n int) int { return n*sw.nrows + winLanes }
+
+// scanRows updates best and arg (NumFilters each) with the windows
+// t ∈ [t0, t1) of a text of padded length lp whose positions' table rows are
+// rows[0 … lp−1] (PAD positions point at sw.zero; positions before t0 are
+// not read). bias is padBias's; bestP and argP are scratch of
+// padLanes(Filters) values.
+func scanRows(m *Model, sw *slotWeights, bias []float32, rows []*float32, lp, t0, t1 int, bestP []float32, argP []int32, best []float32, arg []int32) {
+	F := m.Config.Filters
+	np := padLanes(F)
+	for b, c := range m.Convs {
+		w := c.Width
+		e := min(t1, lp-w+1)
+		if e <= t0 {
+			continue
+		}
+		g0 := b * F
+		copy(bestP, best[g0:g0+F])
+		copy(argP, arg[g0:g0+F])
+		windowMax(rows, w, F, sw.rowOff[b], bias[b*np:(b+1)*np], bestP, argP, t0, e)
+		copy(best[g0:g0+F], bestP[:F])
+		copy(arg[g0:g0+F], argP[:F])
 	}
 }
 

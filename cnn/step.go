@@ -69,6 +69,9 @@ type threadBuf struct {
 	w, b, ow, ob, emb []float32 // gradients: conv W (all banks), conv B, OutW, OutB, embeddings of the batch's words
 	acc, h, z, p, dz  []float32
 	dh                []float32
+	rows              []*float32 // table rows of the current text's positions
+	bestP             []float32  // windowMax scratch
+	argP              []int32
 }
 
 // paramGroup is one trainable tensor with its gradient and optimizer state.
@@ -125,6 +128,8 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 		t.ow = make([]float32, len(m.OutW))
 		t.ob = make([]float32, cfg.Classes)
 		t.acc = make([]float32, cfg.Filters)
+		t.bestP = make([]float32, padLanes(cfg.Filters))
+		t.argP = make([]int32, padLanes(cfg.Filters))
 		t.h = make([]float32, nf)
 		t.dh = make([]float32, nf)
 		t.z = make([]float32, cfg.Classes)
@@ -207,7 +212,7 @@ func (tr *trainer) forwardBackward() float64 {
 	}
 	nw := len(tr.ws.words)
 	tr.emb = grow(tr.emb, nw*d)
-	tr.tab = grow(tr.tab, nw*tr.sw.nrows)
+	tr.tab = grow(tr.tab, tableLen(&tr.sw, nw))
 	tr.pre = grow(tr.pre, n*nf)
 	tr.arg = grow(tr.arg, n*nf)
 	tr.loss = grow(tr.loss, n)
@@ -260,7 +265,14 @@ func (tr *trainer) texts_(k, lo, hi int) {
 		lp := max(len(ids), maxW)
 		best, arg := tr.pre[i*nf:(i+1)*nf], tr.arg[i*nf:(i+1)*nf]
 		resetBest(best, arg)
-		scanWindows(m, &tr.sw, tr.tab, loc, 0, lp, 0, lp, t.acc, best, arg)
+		t.rows = grow(t.rows, lp)
+		for p := range t.rows {
+			t.rows[p] = &tr.sw.zero[0]
+			if p < len(loc) && loc[p] >= 0 {
+				t.rows[p] = &tr.tab[int(loc[p])*tr.sw.nrows]
+			}
+		}
+		scanRows(m, &tr.sw, tr.sw.bias, t.rows, lp, 0, lp, t.bestP, t.argP, best, arg)
 		m.pool(best, t.h)
 		var drop []float32
 		if len(tr.drop) > 0 {

@@ -183,6 +183,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 					Loss: sum / float64(done), ExamplesPerSec: float64(done) / time.Since(start).Seconds(), Phase: "train"})
 			}
 		}
+		m.Invalidate() // the weights changed: predictions rebuild their table
 		if res.Cancelled {
 			break
 		}
@@ -221,6 +222,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	}
 	if best != nil {
 		copyWeights(m, best)
+		m.Invalidate()
 	}
 	// The model file keeps the record of how it was trained.
 	m.Info = Info{Created: time.Now().UTC().Format(time.RFC3339), Recipe: &tc, Epochs: res.Epochs,
