@@ -13,7 +13,11 @@
 //
 // The table's memory is bounded (TableOptions.MaxBytes); words past the bound
 // are computed on the fly. A Runner runs texts through a table; Scan does so
-// for a whole corpus in parallel.
+// for a whole corpus in parallel. Built with GOEXPERIMENT=simd on amd64, the
+// window sums with their running maximum and the table build run on
+// AVX-512 or AVX2 kernels chosen at start-up (kernel_simd_amd64.go); other
+// builds use the portable kernels of kernel.go, which give the same window
+// sums bit for bit.
 //
 // # Why a text got its label
 //
@@ -32,7 +36,9 @@
 // of each slot, and its families: above-threshold n-grams clustered by
 // slot-score vector with average linkage (Sokal & Michener 1958), each
 // described by its dominant slots and wildcards. Memory does not grow with
-// the corpus: per filter it keeps bounded heaps and a fine histogram.
+// the corpus: per filter it keeps bounded top lists and a fine histogram.
+// ProfileStream does the same over a TextSource, for corpora too big to
+// hold in memory; Profiles.WriteText writes a readable summary.
 //
 // # How much to trust an attribution
 //
