@@ -8,10 +8,12 @@ import (
 	"math"
 	"os"
 	"strings"
+	"sync"
 
 	"golang.org/x/term"
 
 	"telltale/cnn"
+	"telltale/corpus"
 	"telltale/explain"
 	"telltale/report"
 )
@@ -50,19 +52,13 @@ idle.`,
 				if df.Data == "" {
 					return usagef("--data is required: the corpus to profile the filters on (usually the training file)")
 				}
-				ds, err := df.read(df.Data, nil, env.Stderr, *quiet)
-				if err != nil {
-					return err
-				}
-				data, err := cnn.EncodeDataset(enc, ds, m.Labels, *threads)
-				if err != nil {
-					// Profiles need no gold labels: fall back to the texts alone.
-					data = cnn.Data{IDs: enc.EncodeAll(ds.Texts(), *threads)}
-				}
+				// The corpus is streamed: only a few texts are held at once.
+				next, stop := streamTexts(ctx, df.Data, df.options(), enc, m.Labels)
+				defer stop()
 				bar := newProgressBar(env.Stderr, *quiet)
-				prof, err := explain.Profile(ctx, m, data.IDs, data.Labels, explain.ProfileOptions{
-					TopK: *top, Purity: *purity, Counts: nil, Workers: *threads,
-					Progress: func(done, total int) { bar.show(done, total, "profiling filters", false) },
+				prof, err := explain.ProfileStream(ctx, m, next, explain.ProfileOptions{
+					TopK: *top, Purity: *purity, Workers: *threads,
+					Progress: func(done, _ int) { bar.note(fmt.Sprintf("profiling filters: %d texts", done)) },
 				})
 				bar.done()
 				if err != nil {
@@ -82,8 +78,7 @@ idle.`,
 				if *asJSON {
 					return writeJSON(env.Stdout, prof)
 				}
-				writeProfiles(env.Stdout, prof)
-				return nil
+				return prof.WriteText(env.Stdout, *top)
 			}
 		},
 	})
@@ -272,49 +267,6 @@ func writeExplanation(w io.Writer, text string, e *explain.Explanation, method s
 	return nil
 }
 
-func writeProfiles(w io.Writer, p *explain.Profiles) {
-	fmt.Fprintf(w, "%d filters profiled over %d texts (purity share %.2f)\n", len(p.Filters), p.Texts, p.Purity)
-	for _, f := range p.Filters {
-		state := ""
-		if f.Idle {
-			state = "  [idle]"
-		}
-		if f.Masked {
-			state += "  [masked]"
-		}
-		thr := "none"
-		if !math.IsInf(f.Threshold, 0) {
-			thr = fmt.Sprintf("%.3f", f.Threshold)
-		}
-		fmt.Fprintf(w, "\nfilter %d  width %d  votes %s (margin %.3f)  fired in %d texts  threshold %s  above %d (%.0f%% %s)  families %d%s\n",
-			f.Filter, f.Width, f.Label, f.Margin, f.Fired, thr, f.Above, 100*f.AbovePurity, f.Label, len(f.Families), state)
-		for _, n := range f.TopNgrams {
-			parts := make([]string, len(n.Tokens))
-			for i, t := range n.Tokens {
-				parts[i] = fmt.Sprintf("%s(%+.2f)", t, n.Slots[i])
-			}
-			fmt.Fprintf(w, "  %7.3f  ×%-5d %s\n", n.Activation, n.Count, strings.Join(parts, " "))
-		}
-		for _, fam := range f.Families {
-			fmt.Fprintf(w, "  family %-40s %d n-grams, %d texts\n", fam.Pattern, fam.Ngrams, fam.Count)
-		}
-		for _, s := range f.Slots {
-			fmt.Fprintf(w, "  slot %d  on: %s   off: %s\n", s.Slot, wordList(s.Triggers, 5), wordList(s.Suppressors, 5))
-		}
-	}
-}
-
-func wordList(ws []explain.WordScore, n int) string {
-	parts := []string{}
-	for _, x := range ws[:min(n, len(ws))] {
-		parts = append(parts, fmt.Sprintf("%s %+.2f", x.Word, x.Score))
-	}
-	if len(parts) == 0 {
-		return "-"
-	}
-	return strings.Join(parts, ", ")
-}
-
 func writeFaith(w io.Writer, r *explain.FaithReport) {
 	fmt.Fprintf(w, "faithfulness over %d texts (model accuracy %.4f)\n", r.Texts, r.Accuracy)
 	fmt.Fprintln(w, "higher comprehensiveness and AOPC, lower sufficiency: the more faithful method")
@@ -334,4 +286,48 @@ func floats(xs []float64) string {
 		parts[i] = fmt.Sprintf("%.4f", x)
 	}
 	return strings.Join(parts, " ")
+}
+
+// streamTexts reads a labeled file one example at a time (corpus.Stream) on
+// a goroutine and hands each text's ids and gold class (−1 for a label the
+// model does not know) to the caller's pulls. Stop ends the reading early.
+func streamTexts(ctx context.Context, path string, opt corpus.Options, enc *corpus.Encoder, labels []string) (explain.TextSource, func()) {
+	type item struct {
+		ids  []int32
+		gold int
+	}
+	class := make(map[string]int, len(labels))
+	for i, l := range labels {
+		class[l] = i
+	}
+	items := make(chan item, 256)
+	done := make(chan struct{})
+	var readErr error
+	go func() {
+		defer close(items)
+		_, readErr = corpus.Stream(path, opt, func(e corpus.Example) error {
+			_, ids := enc.Encode(e.Text)
+			g, ok := class[e.Label]
+			if !ok {
+				g = -1
+			}
+			select {
+			case items <- item{ids, g}:
+				return nil
+			case <-done:
+				return context.Canceled
+			case <-ctx.Done():
+				return ctx.Err()
+			}
+		})
+	}()
+	next := func() ([]int32, int, bool, error) {
+		it, ok := <-items
+		if !ok {
+			return nil, 0, false, readErr
+		}
+		return it.ids, it.gold, true, nil
+	}
+	var once sync.Once
+	return next, func() { once.Do(func() { close(done) }) }
 }

@@ -55,3 +55,12 @@ func (p *progressBar) done() {
 		fmt.Fprint(p.w, "\r\x1b[K")
 	}
 }
+
+// note redraws a line of text where the total is not known in advance.
+func (p *progressBar) note(s string) {
+	if !p.on || time.Since(p.last) < 100*time.Millisecond {
+		return
+	}
+	p.last = time.Now()
+	fmt.Fprintf(p.w, "\r%s\x1b[K", s)
+}
