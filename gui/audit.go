@@ -267,6 +267,7 @@ func auditView(st *State) fyne.CanvasObject {
 		}
 	}
 	exampleNote := widget.NewLabel("The texts behind each figure; tap one to explain it.")
+	exampleNote.Wrapping = fyne.TextWrapWord
 
 	showSuspect := func(s *explain.Suspect) {
 		if s == nil {
@@ -320,6 +321,19 @@ func auditView(st *State) fyne.CanvasObject {
 	})
 	save.Disable()
 
+	// showBaseline fills the original column only, before any masking.
+	showBaseline := func() {
+		ms := itemGet(st.model)
+		if ms == nil || ms.Eval == nil {
+			compare.setRows(nil)
+			return
+		}
+		rows := compareRows(ms.Eval.Metrics, ms.Eval.Metrics)
+		for _, r := range rows {
+			r[2], r[3] = "—", "—"
+		}
+		compare.setRows(rows)
+	}
 	var suspectRows func()
 	var allChecks *widget.List
 	remask := func() {
@@ -329,7 +343,7 @@ func auditView(st *State) fyne.CanvasObject {
 		if len(gs) == 0 {
 			mask = nil
 			save.Disable()
-			compare.setRows(nil)
+			showBaseline()
 			maskNote.SetText("No filter ticked: the model is as trained.")
 			return
 		}
@@ -429,7 +443,7 @@ func auditView(st *State) fyne.CanvasObject {
 		clear(ticked)
 		mask = nil
 		save.Disable()
-		compare.setRows(nil)
+		showBaseline()
 		filterIDs = nil
 		if ms := itemGet(st.model); ms != nil {
 			for g := range ms.Model.Config.NumFilters() {
@@ -496,14 +510,16 @@ func auditView(st *State) fyne.CanvasObject {
 	}
 
 	head := container.NewBorder(nil, nil, nil, container.NewHBox(runBtn, stopBtn), summary)
+	partsSplit := container.NewVSplit(parts.table, cues.table)
+	partsSplit.Offset = 0.72
 	evidence := container.NewAppTabs(
-		container.NewTabItem("Score parts", container.NewVSplit(parts.table, cues.table)),
+		container.NewTabItem("Score parts", partsSplit),
 		container.NewTabItem("Ablation and substitution", effects.table),
 		container.NewTabItem("Examples", container.NewBorder(exampleNote, nil, nil, nil, examples.table)),
 	)
 	maskPane := container.NewBorder(container.NewBorder(nil, nil, nil, save, maskNote), nil, nil, nil, compare.table)
 	right := container.NewVSplit(container.NewBorder(title, nil, nil, nil, evidence), maskPane)
-	right.Offset = 0.62
+	right.Offset = 0.7
 	lists := container.NewAppTabs(
 		container.NewTabItem("Suspects", suspects.table),
 		container.NewTabItem("Flagged tokens", flagged.table),

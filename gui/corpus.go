@@ -294,6 +294,16 @@ func balancePlot(s corpus.Summary) *plot.Plot {
 		p.Legend.Add(sp.Name, bars)
 	}
 	p.NominalX(s.Labels...)
+	// Head room above the tallest bar for the legend.
+	top := 0.0
+	for _, sp := range s.Splits {
+		for _, v := range sp.Balance {
+			top = max(top, v)
+		}
+	}
+	p.Y.Min, p.Y.Max = 0, 1.3*top
+	// Room beside the outer bars, which are offset from their label.
+	p.X.Min, p.X.Max = -0.7, float64(len(s.Labels))-0.3
 	return p
 }
 

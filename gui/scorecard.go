@@ -89,6 +89,20 @@ func scorecardView(st *State) fyne.CanvasObject {
 		confusion.Objects = []fyne.CanvasObject{confusionGrid(m, showCell)}
 		confusion.Refresh()
 		reliability.set(reliabilityPlot(ms.Eval))
+		// Open on the most frequent confusion, so the list is not empty.
+		bg, bp, bn := -1, -1, 0
+		for g, row := range m.Confusion {
+			for p, n := range row {
+				if g != p && n > bn {
+					bg, bp, bn = g, p, n
+				}
+			}
+		}
+		if bn > 0 {
+			showCell(bg, bp)
+		} else {
+			cellTexts.setRows(nil)
+		}
 		body.Objects = []fyne.CanvasObject{content(headline, classes, confusion, reliability, cellNote, cellTexts)}
 		body.Refresh()
 	}
@@ -244,6 +258,7 @@ func reliabilityPlot(ev *evaluation) *plot.Plot {
 		}
 	}
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = 0, 1, 0, 1
+	p.Legend.Top = false // bottom right: above the diagonal's far end
 	return p
 }
 

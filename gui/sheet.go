@@ -42,7 +42,9 @@ func newSheet(cols []string, widths []float32) *sheet {
 			l := o.(*widget.Label)
 			l.Truncation = fyne.TextTruncateEllipsis
 			if id.Row < len(s.order) && id.Col < len(s.cols) {
-				l.SetText(s.rows[s.order[id.Row]][id.Col])
+				// One line per cell: a text's line breaks would spill
+				// over the next rows.
+				l.SetText(strings.ReplaceAll(s.rows[s.order[id.Row]][id.Col], "\n", " "))
 			} else {
 				l.SetText("")
 			}

@@ -45,12 +45,17 @@ func (st *State) startup() {
 	})
 }
 
-// suggestText puts a text on the explain view when it has none: the first
+// suggestText puts a text on the explain view unless the user typed one: the first
 // held-out text behind the top suspect's figures (one where its cue points
 // away from the gold label), so a first visit sees the cue at work.
 func (st *State) suggestText() {
 	a := itemGet(st.audit)
-	if a == nil || len(a.A.Filters) == 0 || stringGet(st.explainText) != "" {
+	if a == nil || len(a.A.Filters) == 0 {
+		return
+	}
+	// The explain view starts on the first held-out text; the user's own
+	// text is never replaced.
+	if t := stringGet(st.explainText); t != "" && (len(a.Heldout) == 0 || t != a.Heldout[0]) {
 		return
 	}
 	ex := a.A.Filters[0].Examples

@@ -298,6 +298,7 @@ func trainView(st *State) fyne.CanvasObject {
 			_ = xyLine(pd, "macro-F1", run.devX, run.devF1, seriesColors[1])
 		}
 		pd.Y.Min, pd.Y.Max = 0, 1
+		pd.Legend.Top = false // dev metrics rise toward the top right
 		devImg.set(pd)
 		pr := run.last
 		if pr.Epochs > 0 {

@@ -8,7 +8,7 @@
 # TELLTALE_BIN names a prebuilt binary; otherwise one is built here with cgo.
 # The binary must support: telltale gui --demo-train --view NAME
 # --quit-after DURATION, and print "window ready" on stderr once the
-# start-up work (training, profiling) is done.
+# start-up work (training, profiling, the cue audit) is done.
 set -euo pipefail
 
 cd "$(dirname "$0")/.."
