@@ -59,11 +59,11 @@ test-race:
 # Each fuzz target for a short fixed time.
 FUZZTIME ?= 10s
 fuzz:
-	@set -e; for t in $$(scripts/fuzz-targets.sh); do \
+	@set -e; log=$$(mktemp); trap 'rm -f $$log' EXIT; \
+	for t in $$(scripts/fuzz-targets.sh); do \
 	  pkg=$${t%%:*}; fn=$${t##*:}; \
 	  echo "fuzz $$pkg $$fn ($(FUZZTIME))"; \
-	  $(GO) test -tags ci -run '^$$' -fuzz "^$$fn\$$" -fuzztime $(FUZZTIME) "$$pkg" >/dev/null || \
-	    { $(GO) test -tags ci -run '^$$' -fuzz "^$$fn\$$" -fuzztime $(FUZZTIME) "$$pkg"; exit 1; }; \
+	  $(GO) test -tags ci -run '^$$' -fuzz "^$$fn\$$" -fuzztime $(FUZZTIME) "$$pkg" >$$log 2>&1 || { cat $$log; exit 1; }; \
 	done
 
 bench: corpora build

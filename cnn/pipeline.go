@@ -71,6 +71,9 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 		return nil, err
 	}
 	out.Result = res
+	// Later texts are cut to the length the model was trained on, as the
+	// encoder of a loaded model (Model.Encoder) does.
+	out.Encoder.MaxTokens = m.Info.Recipe.MaxLen
 	return out, nil
 }
 
