@@ -61,7 +61,11 @@ func spamTexts(t *testing.T, perGroup, maxLen int) (texts [][]string, gold []int
 // random models over a vocabulary built from those e-mails (words seen at
 // least twice; the rest map to UNK).
 func TestSpamAssassinIdentities(t *testing.T) {
-	texts, gold := spamTexts(t, 120, 300)
+	perGroup := 120
+	if testing.Short() {
+		perGroup = 20 // the race pass runs short mode; the full pass takes 120 per group
+	}
+	texts, gold := spamTexts(t, perGroup, 300)
 	count := map[string]int{}
 	for _, ws := range texts {
 		for _, w := range ws {
