@@ -166,9 +166,9 @@ own tokenizer and vocabulary.`,
 				if err != nil {
 					return err
 				}
-				var ms []*cnn.Model
 				rows := make([]compareRow, 0, len(paths))
-				for _, p := range paths {
+				var first []int
+				for i, p := range paths {
 					m, enc, err := openModel(p)
 					if err != nil {
 						return err
@@ -177,12 +177,17 @@ own tokenizer and vocabulary.`,
 					if err != nil {
 						return err
 					}
-					met, _, err := cnn.Evaluate(m, data, 0)
+					met, pred, err := cnn.Evaluate(m, data, 0)
 					if err != nil {
 						return err
 					}
-					ms = append(ms, m)
-					rows = append(rows, compareRow{Model: p, Metrics: met})
+					row := compareRow{Model: p, Metrics: met}
+					if i == 0 {
+						first = pred
+					} else {
+						row.Flipped = flippedShare(first, pred)
+					}
+					rows = append(rows, row)
 				}
 				return writeComparison(env, rows, *asJSON)
 			}
@@ -211,13 +216,7 @@ func compareModels(env *runEnv, data cnn.Data, names []string, ms []*cnn.Model, 
 			first = pred
 			continue
 		}
-		flips := 0
-		for j := range pred {
-			if pred[j] != first[j] {
-				flips++
-			}
-		}
-		rows[i].Flipped = float64(flips) / float64(max(1, len(pred)))
+		rows[i].Flipped = flippedShare(first, pred)
 	}
 	return writeComparison(env, rows, asJSON)
 }
@@ -265,4 +264,15 @@ func samePath(a, b string) (bool, error) {
 		return false, err
 	}
 	return filepath.Clean(pa) == filepath.Clean(pb), nil
+}
+
+// flippedShare is the share of positions where b's prediction differs from a's.
+func flippedShare(a, b []int) float64 {
+	flips := 0
+	for j := range b {
+		if b[j] != a[j] {
+			flips++
+		}
+	}
+	return float64(flips) / float64(max(1, len(b)))
 }

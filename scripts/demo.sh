@@ -23,6 +23,9 @@ step "Audit the filters for spurious cues" \
 suspects=$(awk -F, 'NR > 1 && NR <= 6 { print $2 }' "$out/suspects.csv" | paste -sd, -)
 step "Mask the top suspects and compare both models on the test split" \
   "$tt" mask --model "$out/ferry.tt" --filters "$suspects" --out "$out/ferry-masked.tt" --data testdata/demo/test.csv
+step "Retrain with the two cues taken out of the training text, and compare the three models" \
+  "$tt" train --data testdata/demo/train.csv --out "$out/ferry-clean.tt" --epochs 8 --mask-tokens testdata/demo/cues.txt --quiet
+"$tt" compare --models "$out/ferry.tt,$out/ferry-masked.tt,$out/ferry-clean.tt" --data testdata/demo/test.csv
 step "A shareable report" \
   "$tt" report --model "$out/ferry.tt" --data testdata/demo/train.csv --dev testdata/demo/test.csv --out "$out/report.html"
 
