@@ -121,7 +121,7 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	}
 	mt := cnn.ComputeMetrics(m.Labels, ho.Gold, pred, conf, cnn.DefaultBins)
 	in.Metrics = &mt
-	in.Reliability = Reliability(conf, correct, cnn.DefaultBins)
+	in.Reliability = cnn.Reliability(conf, correct, cnn.DefaultBins)
 	progress("evaluate", len(ho.IDs), len(ho.IDs))
 	if err := ctx.Err(); err != nil {
 		return Input{}, err

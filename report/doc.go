@@ -40,6 +40,6 @@
 //	if err != nil { … }
 //	err = report.WriteFile("report.html", r) // atomic: temp file + rename
 //
-// The package computes nothing about the model itself: Reliability only
-// groups predictions into the bins of cnn's expected calibration error.
+// The package computes nothing about the model itself: every number comes
+// from corpus, cnn and explain (the reliability bins from cnn.Reliability).
 package report

@@ -388,7 +388,7 @@ func metrics(in Input) (*metricsView, error) {
 				continue
 			}
 			mv.Bins = append(mv.Bins, binRow{Range: fmt.Sprintf("(%.2f, %.2f]", b.Lo, b.Hi), Count: count(b.Count),
-				Confidence: num(b.Confidence), Accuracy: num(b.Accuracy), Gap: signed(b.Accuracy - b.Confidence)})
+				Confidence: num(b.Conf), Accuracy: num(b.Acc), Gap: signed(b.Acc - b.Conf)})
 		}
 	}
 	return mv, nil

@@ -15,6 +15,8 @@ import (
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgsvg"
+
+	"telltale/cnn"
 )
 
 // Plots are drawn with gonum.org/v1/plot, rendered to SVG by its vgsvg
@@ -135,7 +137,7 @@ func confusionPlot(labels []string, conf [][]int) (template.URL, error) {
 	return svgURL(p, side+vg.Points(40), side)
 }
 
-func reliabilityPlot(bins []ReliabilityBin) (template.URL, error) {
+func reliabilityPlot(bins []cnn.ReliabilityBin) (template.URL, error) {
 	p := newPlot("Reliability diagram", "confidence", "accuracy")
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = 0, 1, 0, 1
 	p.Add(plotter.NewGrid())
@@ -146,8 +148,8 @@ func reliabilityPlot(bins []ReliabilityBin) (template.URL, error) {
 		if b.Count == 0 {
 			continue
 		}
-		h.Bins = append(h.Bins, plotter.HistogramBin{Min: b.Lo, Max: b.Hi, Weight: b.Accuracy})
-		pts = append(pts, plotter.XY{X: b.Confidence, Y: b.Accuracy})
+		h.Bins = append(h.Bins, plotter.HistogramBin{Min: b.Lo, Max: b.Hi, Weight: b.Acc})
+		pts = append(pts, plotter.XY{X: b.Conf, Y: b.Acc})
 	}
 	if len(bins) > 0 {
 		h.Width = bins[0].Hi - bins[0].Lo

@@ -50,7 +50,7 @@ type Input struct {
 	// Reliability), computed from the same predictions.
 	HeldOut     string
 	Metrics     *cnn.Metrics
-	Reliability []ReliabilityBin
+	Reliability []cnn.ReliabilityBin
 
 	// Profiles describes the filters over the corpus named ProfiledOn
 	// (usually "train").

@@ -86,14 +86,14 @@ func TestReliabilityMatchesECE(t *testing.T) {
 			correct[i] = gold[i] == pred[i]
 		}
 		mt := cnn.ComputeMetrics([]string{"a", "b", "c"}, gold, pred, conf, bins)
-		rb := Reliability(conf, correct, bins)
+		rb := cnn.Reliability(conf, correct, bins)
 		var ece float64
 		total := 0
 		for _, b := range rb {
 			total += b.Count
-			ece += float64(b.Count) / float64(n) * math.Abs(b.Accuracy-b.Confidence)
-			if b.Count > 0 && (b.Confidence <= b.Lo && b.Lo > 0 || b.Confidence > b.Hi+1e-12) {
-				t.Errorf("trial %d: bin (%g, %g] has mean confidence %g", trial, b.Lo, b.Hi, b.Confidence)
+			ece += float64(b.Count) / float64(n) * math.Abs(b.Acc-b.Conf)
+			if b.Count > 0 && (b.Conf <= b.Lo && b.Lo > 0 || b.Conf > b.Hi+1e-12) {
+				t.Errorf("trial %d: bin (%g, %g] has mean confidence %g", trial, b.Lo, b.Hi, b.Conf)
 			}
 		}
 		if total != n {
@@ -139,18 +139,4 @@ func TestPaintKeepsText(t *testing.T) {
 	if b.String() != "a b" {
 		t.Errorf("tokens without offsets read %q, want %q", b.String(), "a b")
 	}
-}
-
-func ExampleReliability() {
-	conf := []float64{0.95, 0.9, 0.6, 0.55, 0.3}
-	correct := []bool{true, true, false, true, false}
-	for _, b := range Reliability(conf, correct, 5) {
-		if b.Count > 0 {
-			fmt.Printf("(%.1f, %.1f]: %d texts, confidence %.3f, accuracy %.2f\n", b.Lo, b.Hi, b.Count, b.Confidence, b.Accuracy)
-		}
-	}
-	// Output:
-	// (0.2, 0.4]: 1 texts, confidence 0.300, accuracy 0.00
-	// (0.4, 0.6]: 2 texts, confidence 0.575, accuracy 0.50
-	// (0.8, 1.0]: 2 texts, confidence 0.925, accuracy 1.00
 }
