@@ -129,7 +129,7 @@ side by side.`,
 				if df.Data == "" {
 					return nil
 				}
-				ds, err := df.read(df.Data, nil, env.Stderr, false)
+				ds, err := df.read(df.Data, env.Stderr, false)
 				if err != nil {
 					return err
 				}
@@ -162,7 +162,7 @@ own tokenizer and vocabulary.`,
 				if df.Data == "" {
 					return usagef("--data is required: the labeled file to compare the models on")
 				}
-				ds, err := df.read(df.Data, nil, env.Stderr, false)
+				ds, err := df.read(df.Data, env.Stderr, false)
 				if err != nil {
 					return err
 				}

@@ -22,6 +22,7 @@ type dataFlags struct {
 	TestFrac          float64
 	Seed              uint64
 	Relabel           string
+	Mail              string
 	MaxTextBytes      int
 }
 
@@ -34,6 +35,7 @@ func (d *dataFlags) register(fs *flag.FlagSet, devHelp string) {
 	fs.Float64Var(&d.TestFrac, "test-frac", 0.2, "without --dev: share of --data held out, stratified by label")
 	fs.Uint64Var(&d.Seed, "seed", 1, "random seed (splits, initialisation, shuffling)")
 	fs.IntVar(&d.MaxTextBytes, "max-text-bytes", corpus.DefaultMaxTextBytes, "longest text kept, in bytes: longer ones are cut with a warning; a record over 8 times this is an error")
+	fs.StringVar(&d.Mail, "mail", "", "e-mail texts: 'subject-body' keeps the Subject header and the body and drops the other headers")
 	fs.StringVar(&d.Relabel, "relabel", "", "map labels before use, e.g. 'easy-ham-1=ham,spam-1=spam' (an empty target drops the label)")
 }
 
@@ -47,11 +49,7 @@ func (d *dataFlags) load(warn io.Writer, quiet bool) (train, test *corpus.Datase
 	if d.Data == "" {
 		return nil, nil, usagef("--data is required: a labeled .csv, .tsv, .jsonl file or a folder of label folders")
 	}
-	relabel, err := parseRelabel(d.Relabel)
-	if err != nil {
-		return nil, nil, err
-	}
-	all, err := d.read(d.Data, relabel, warn, quiet)
+	all, err := d.read(d.Data, warn, quiet)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -62,13 +60,15 @@ func (d *dataFlags) load(warn io.Writer, quiet bool) (train, test *corpus.Datase
 		train, test = all.Split(d.TestFrac, d.Seed)
 		return train, test, nil
 	}
-	test, err = d.read(d.Dev, relabel, warn, quiet)
+	test, err = d.read(d.Dev, warn, quiet)
 	return all, test, err
 }
 
-func (d *dataFlags) read(path string, relabel map[string]string, warn io.Writer, quiet bool) (*corpus.Dataset, error) {
-	if d.MaxTextBytes < 0 || d.MaxTextBytes > maxTextBytesFlag {
-		return nil, usagef("--max-text-bytes %d: must be between 1 and %d", d.MaxTextBytes, maxTextBytesFlag)
+// read reads one labeled file with --relabel and --mail applied.
+func (d *dataFlags) read(path string, warn io.Writer, quiet bool) (*corpus.Dataset, error) {
+	prepare, err := d.preparer()
+	if err != nil {
+		return nil, err
 	}
 	ds, warnings, err := corpus.Load(path, d.options())
 	if err != nil {
@@ -77,10 +77,56 @@ func (d *dataFlags) read(path string, relabel map[string]string, warn io.Writer,
 	if !quiet {
 		printWarnings(warn, warnings)
 	}
-	if relabel != nil {
-		ds = ds.Relabel(relabel)
+	return prepare(ds), nil
+}
+
+// preparer returns what --relabel and --mail do to a dataset.
+func (d *dataFlags) preparer() (func(*corpus.Dataset) *corpus.Dataset, error) {
+	relabel, err := parseRelabel(d.Relabel)
+	if err != nil {
+		return nil, err
 	}
-	return ds, nil
+	var text func(string) string
+	switch d.Mail {
+	case "":
+	case "subject-body":
+		text = corpus.SubjectAndBody
+	default:
+		return nil, usagef("--mail %q: the one choice is subject-body", d.Mail)
+	}
+	return func(ds *corpus.Dataset) *corpus.Dataset {
+		if relabel != nil {
+			ds = ds.Relabel(relabel)
+		}
+		if text != nil {
+			ds = ds.MapTexts(text)
+		}
+		return ds
+	}, nil
+}
+
+// example applies --relabel and --mail to one streamed example; ok is false
+// for an example whose label --relabel drops.
+func (d *dataFlags) example() (func(corpus.Example) (corpus.Example, bool), error) {
+	relabel, err := parseRelabel(d.Relabel)
+	if err != nil {
+		return nil, err
+	}
+	if d.Mail != "" && d.Mail != "subject-body" {
+		return nil, usagef("--mail %q: the one choice is subject-body", d.Mail)
+	}
+	return func(e corpus.Example) (corpus.Example, bool) {
+		if to, ok := relabel[e.Label]; ok {
+			if to == "" {
+				return e, false
+			}
+			e.Label = to
+		}
+		if d.Mail == "subject-body" {
+			e.Text = corpus.SubjectAndBody(e.Text)
+		}
+		return e, true
+	}, nil
 }
 
 // printWarnings prints the first warnings and a count of the rest.

@@ -41,7 +41,7 @@ calibration error over equal-width confidence bins.`,
 				if df.Data == "" {
 					return usagef("--data is required: the labeled file to evaluate on")
 				}
-				ds, err := df.read(df.Data, nil, env.Stderr, *quiet)
+				ds, err := df.read(df.Data, env.Stderr, *quiet)
 				if err != nil {
 					return err
 				}

@@ -53,7 +53,11 @@ idle.`,
 					return usagef("--data is required: the corpus to profile the filters on (usually the training file)")
 				}
 				// The corpus is streamed: only a few texts are held at once.
-				next, stop := streamTexts(ctx, df.Data, df.options(), enc, m.Labels)
+				prepare, err := df.example()
+				if err != nil {
+					return err
+				}
+				next, stop := streamTexts(ctx, df.Data, df.options(), prepare, enc, m.Labels)
 				defer stop()
 				bar := newProgressBar(env.Stderr, *quiet)
 				prof, err := explain.ProfileStream(ctx, m, next, explain.ProfileOptions{
@@ -198,7 +202,7 @@ more on this model.`,
 				if df.Data == "" {
 					return usagef("--data is required: labeled texts to score the methods on")
 				}
-				ds, err := df.read(df.Data, nil, env.Stderr, *quiet)
+				ds, err := df.read(df.Data, env.Stderr, *quiet)
 				if err != nil {
 					return err
 				}
@@ -291,7 +295,8 @@ func floats(xs []float64) string {
 // streamTexts reads a labeled file one example at a time (corpus.Stream) on
 // a goroutine and hands each text's ids and gold class (−1 for a label the
 // model does not know) to the caller's pulls. Stop ends the reading early.
-func streamTexts(ctx context.Context, path string, opt corpus.Options, enc *corpus.Encoder, labels []string) (explain.TextSource, func()) {
+func streamTexts(ctx context.Context, path string, opt corpus.Options, prepare func(corpus.Example) (corpus.Example, bool),
+	enc *corpus.Encoder, labels []string) (explain.TextSource, func()) {
 	type item struct {
 		ids  []int32
 		gold int
@@ -306,6 +311,10 @@ func streamTexts(ctx context.Context, path string, opt corpus.Options, enc *corp
 	go func() {
 		defer close(items)
 		_, readErr = corpus.Stream(path, opt, func(e corpus.Example) error {
+			e, keep := prepare(e)
+			if !keep {
+				return nil
+			}
 			_, ids := enc.Encode(e.Text)
 			g, ok := class[e.Label]
 			if !ok {

@@ -57,7 +57,7 @@ func TestSpamAssassinAccuracy(t *testing.T) {
 		t.Fatal(err)
 	}
 	for i := range d.Examples {
-		d.Examples[i].Text = subjectAndBody(d.Examples[i].Text)
+		d.Examples[i].Text = corpus.SubjectAndBody(d.Examples[i].Text)
 	}
 	all := d.Relabel(spamGroupLabels)
 	// 4150 ham and 1896 spam: the group sizes of the package's README.
@@ -136,52 +136,6 @@ func TestSpamAssassinAccuracy(t *testing.T) {
 	t.Logf("SpamAssassin 80/20 test macro-F1: telltale CNN %.4f, scikit-learn %s TF-IDF+LR %.4f", got.MacroF1, base.Sklearn, base.MacroF1)
 	if got.Accuracy < 0.97 {
 		t.Errorf("SpamAssassin test accuracy %.4f, want at least 0.97", got.Accuracy)
-	}
-}
-
-// subjectAndBody returns the Subject header of a raw RFC 822 message (with
-// its folded continuation lines) followed by everything after the first
-// empty line; the other headers are left out. A text without a header block
-// is returned whole. It is the same text as bench.mailText.
-func subjectAndBody(raw string) string {
-	raw = strings.ReplaceAll(raw, "\r\n", "\n")
-	head, body, ok := strings.Cut(raw, "\n\n")
-	if !ok {
-		return raw
-	}
-	var subject strings.Builder
-	in := false
-	for _, line := range strings.Split(head, "\n") {
-		if in && (strings.HasPrefix(line, " ") || strings.HasPrefix(line, "\t")) {
-			subject.WriteString(" " + strings.TrimSpace(line))
-			continue
-		}
-		in = false
-		if len(line) >= 8 && strings.EqualFold(line[:8], "subject:") {
-			in = true
-			subject.WriteString(strings.TrimSpace(line[8:]))
-		}
-	}
-	if subject.Len() == 0 {
-		return body
-	}
-	return subject.String() + "\n" + body
-}
-
-// TestSubjectAndBody pins the text the SpamAssassin check trains on.
-func TestSubjectAndBody(t *testing.T) {
-	for _, c := range []struct{ name, raw, want string }{
-		{"plain", "From: a@b\nSubject: Hello there\nTo: c@d\n\nBody line\nmore\n", "Hello there\nBody line\nmore\n"},
-		{"folded subject", "Subject: one\n\ttwo\n  three\nDate: x\n\nbody", "one two three\nbody"},
-		{"lower-case name", "subject:  hi \n\nb", "hi\nb"},
-		{"no subject", "From: a\n\nbody only", "body only"},
-		{"crlf", "Subject: s\r\nX: y\r\n\r\nb\r\n", "s\nb\n"},
-		{"no header block", "just text", "just text"},
-		{"subject-like body line", "From: a\n\nSubject: not a header", "Subject: not a header"},
-	} {
-		if got := subjectAndBody(c.raw); got != c.want {
-			t.Errorf("%s: got %q, want %q", c.name, got, c.want)
-		}
 	}
 }
 
