@@ -689,11 +689,17 @@ func audSoftmax(z, p []float64) {
 	}
 }
 
-// ablated writes the logits of held-out text i with filter g masked.
-func (a *auditor) ablated(i, g int, z []float64) {
-	h := float64(a.pooled[i*a.nf+g])
+// ablatedSet writes the logits of held-out text i with the filters gs
+// masked together: z[c] = logit[c] − Σ_{g∈gs} OutW[c][g]·h[g], the exact
+// effect of holding their pooled units at zero (the output layer is linear
+// in the pooled layer); a test checks it against Model.Masked.
+func (a *auditor) ablatedSet(i int, gs []int, z []float64) {
 	for c := range z {
-		z[c] = a.logits[i*a.C+c] - float64(a.m.OutW[c*a.nf+g])*h
+		v := a.logits[i*a.C+c]
+		for _, g := range gs {
+			v -= float64(a.m.OutW[c*a.nf+g]) * float64(a.pooled[i*a.nf+g])
+		}
+		z[c] = v
 	}
 }
 
@@ -718,7 +724,7 @@ func (a *auditor) assemble(ctx context.Context) (*Audit, error) {
 		}
 		return cmp.Compare(x.ID, y.ID)
 	})
-	base := a.metrics(-1)
+	base := a.metricsSet(nil)
 	out.Baseline = Baseline{Accuracy: base.Accuracy, MacroF1: base.MacroF1}
 
 	var cands []int
@@ -772,18 +778,18 @@ func (a *auditor) assemble(ctx context.Context) (*Audit, error) {
 	return out, nil
 }
 
-// metrics evaluates the held-out predictions with filter g masked (g < 0:
-// none).
-func (a *auditor) metrics(g int) cnn.Metrics {
+// metricsSet evaluates the held-out predictions with the filters gs masked
+// together (none: the model as it is).
+func (a *auditor) metricsSet(gs []int) cnn.Metrics {
 	n := a.held.Len()
 	pred := make([]int, n)
 	z := make([]float64, a.C)
 	for i := range pred {
-		if g < 0 {
+		if len(gs) == 0 {
 			pred[i] = a.pred[i]
 			continue
 		}
-		a.ablated(i, g, z)
+		a.ablatedSet(i, gs, z)
 		pred[i] = audArgmax(z)
 	}
 	return cnn.ComputeMetrics(audLabels(a.m), a.held.Gold, pred, nil, 0)
@@ -845,81 +851,16 @@ func (a *auditor) suspect(g int, base cnn.Metrics) Suspect {
 	s.Concentration = concentration(m, e)
 	s.TopNgrams, s.Categories = a.categories(g)
 
-	// Ablation over the whole held-out split.
-	ab := a.metrics(g)
-	s.Ablation = Ablation{Accuracy: base.Accuracy, AccuracyMasked: ab.Accuracy, DeltaAccuracy: ab.Accuracy - base.Accuracy,
-		MacroF1: base.MacroF1, MacroF1Masked: ab.MacroF1, DeltaMacroF1: ab.MacroF1 - base.MacroF1}
-	z, p, q := make([]float64, a.C), make([]float64, a.C), make([]float64, a.C)
-	for i := range a.pred {
-		a.ablated(i, g, z)
-		if audArgmax(z) != a.pred[i] {
-			s.Ablation.Flipped++
-			if len(s.Ablation.FlippedTexts) < 100 {
-				s.Ablation.FlippedTexts = append(s.Ablation.FlippedTexts, i)
-			}
-		}
+	// Ablation, push and the cue-conflicting subset on the held-out split.
+	cueIDs := make([]int32, len(s.Cues))
+	for k, c := range s.Cues {
+		cueIDs[k] = c.ID
 	}
-	s.Ablation.FlippedShare = float64(s.Ablation.Flipped) / float64(len(a.pred))
-
-	// Push and the cue-conflicting subset.
-	texts := a.cueTexts(s.Cues)
-	s.Conflict.CueLabel = labels[cueClass]
-	var push, gain float64
-	var right, rightMasked int
-	var fixed, broken []AuditExample
-	for _, i := range texts {
-		audSoftmax(a.logits[i*a.C:(i+1)*a.C], p)
-		a.ablated(i, g, z)
-		audSoftmax(z, q)
-		push += p[cueClass] - q[cueClass]
-		gold := a.held.Gold[i]
-		if gold == cueClass {
-			continue
-		}
-		gain += q[gold] - p[gold]
-		s.Conflict.Texts++
-		if len(s.Conflict.Indices) < 200 {
-			s.Conflict.Indices = append(s.Conflict.Indices, i)
-		}
-		before, after := a.pred[i], audArgmax(z)
-		if before == gold {
-			right++
-		}
-		if after == gold {
-			rightMasked++
-		}
-		if before != after {
-			ex := AuditExample{Split: "heldout", Index: i, Gold: labels[gold], Pred: labels[before], After: labels[after], Value: q[after]}
-			at := a.firstCue(i, s.Cues)
-			ex.Start, ex.End = at, at+1
-			ex.Snippet = a.held.textSnippet(m, i, at, 60)
-			if after == gold {
-				s.Conflict.Fixed++
-				ex.Note = "masking the filter fixes it"
-				if len(fixed) < a.opt.Examples {
-					fixed = append(fixed, ex)
-				}
-			} else if before == gold {
-				s.Conflict.Broken++
-				ex.Note = "masking the filter breaks it"
-				if len(broken) < a.opt.Examples {
-					broken = append(broken, ex)
-				}
-			}
-		}
-	}
-	if len(texts) > 0 {
-		s.Parts.Push = push / float64(len(texts))
-	}
-	s.Parts.PushTexts = len(texts)
-	if s.Conflict.Texts > 0 {
-		s.Parts.ConflictShare = float64(s.Conflict.Texts) / float64(len(texts))
-		s.Parts.ConflictGain = gain / float64(s.Conflict.Texts)
-		s.Parts.Harm = s.Parts.ConflictShare * s.Parts.ConflictGain
-		s.Conflict.Accuracy = float64(right) / float64(s.Conflict.Texts)
-		s.Conflict.AccuracyMasked = float64(rightMasked) / float64(s.Conflict.Texts)
-	}
-	s.Examples.Conflict = append(fixed, broken...)
+	iv := a.intervene([]int{g}, cueIDs, cueClass, base, "masking the filter")
+	s.Ablation, s.Conflict = iv.ablation, iv.conflict
+	s.Parts.Push, s.Parts.PushTexts = iv.push, iv.pushTexts
+	s.Parts.ConflictShare, s.Parts.ConflictGain, s.Parts.Harm = iv.conflictShare, iv.conflictGain, iv.harm
+	s.Examples.Conflict = iv.examples
 	s.Score = s.Parts.FlaggedShare * max(0, s.Parts.Harm)
 
 	for _, w := range e.top {
@@ -943,22 +884,116 @@ func (a *auditor) suspect(g int, base cnn.Metrics) Suspect {
 
 // cueTexts lists the held-out texts containing any of the cue words, in
 // order.
-func (a *auditor) cueTexts(cues []Cue) []int {
+func (a *auditor) cueTexts(cues []int32) []int {
 	var out []int
-	for _, c := range cues {
-		out = append(out, a.index[c.ID]...)
+	for _, id := range cues {
+		out = append(out, a.index[id]...)
 	}
 	slices.Sort(out)
 	return slices.Compact(out)
 }
 
-func (a *auditor) firstCue(i int, cues []Cue) int {
+func (a *auditor) firstCue(i int, cues []int32) int {
 	for k, id := range a.held.IDs[i] {
-		if slices.ContainsFunc(cues, func(c Cue) bool { return c.ID == id }) {
+		if slices.Contains(cues, id) {
 			return k
 		}
 	}
 	return 0
+}
+
+// intervention is what masking a set of filters does on the held-out split.
+type intervention struct {
+	ablation                          Ablation
+	conflict                          Conflict
+	push                              float64
+	pushTexts                         int
+	conflictShare, conflictGain, harm float64
+	examples                          []AuditExample // fixed first, then broken
+}
+
+// intervene masks the filters gs together (exactly: ablatedSet) and
+// measures, on the whole held-out split, the change of accuracy, macro-F1
+// and predictions, and on the held-out texts holding one of the cue words
+// (label cueClass) the push toward cueClass and the cue-conflicting subset.
+// What names the intervention in example notes ("masking the filter").
+func (a *auditor) intervene(gs []int, cues []int32, cueClass int, base cnn.Metrics, what string) intervention {
+	labels := audLabels(a.m)
+	var iv intervention
+	ab := a.metricsSet(gs)
+	iv.ablation = Ablation{Accuracy: base.Accuracy, AccuracyMasked: ab.Accuracy, DeltaAccuracy: ab.Accuracy - base.Accuracy,
+		MacroF1: base.MacroF1, MacroF1Masked: ab.MacroF1, DeltaMacroF1: ab.MacroF1 - base.MacroF1}
+	z, p, q := make([]float64, a.C), make([]float64, a.C), make([]float64, a.C)
+	for i := range a.pred {
+		a.ablatedSet(i, gs, z)
+		if audArgmax(z) != a.pred[i] {
+			iv.ablation.Flipped++
+			if len(iv.ablation.FlippedTexts) < 100 {
+				iv.ablation.FlippedTexts = append(iv.ablation.FlippedTexts, i)
+			}
+		}
+	}
+	iv.ablation.FlippedShare = float64(iv.ablation.Flipped) / float64(len(a.pred))
+
+	texts := a.cueTexts(cues)
+	iv.conflict.CueLabel = labels[cueClass]
+	var push, gain float64
+	var right, rightMasked int
+	var fixed, broken []AuditExample
+	for _, i := range texts {
+		audSoftmax(a.logits[i*a.C:(i+1)*a.C], p)
+		a.ablatedSet(i, gs, z)
+		audSoftmax(z, q)
+		push += p[cueClass] - q[cueClass]
+		gold := a.held.Gold[i]
+		if gold == cueClass {
+			continue
+		}
+		gain += q[gold] - p[gold]
+		iv.conflict.Texts++
+		if len(iv.conflict.Indices) < 200 {
+			iv.conflict.Indices = append(iv.conflict.Indices, i)
+		}
+		before, after := a.pred[i], audArgmax(z)
+		if before == gold {
+			right++
+		}
+		if after == gold {
+			rightMasked++
+		}
+		if before != after {
+			ex := AuditExample{Split: "heldout", Index: i, Gold: labels[gold], Pred: labels[before], After: labels[after], Value: q[after]}
+			at := a.firstCue(i, cues)
+			ex.Start, ex.End = at, at+1
+			ex.Snippet = a.held.textSnippet(a.m, i, at, 60)
+			if after == gold {
+				iv.conflict.Fixed++
+				ex.Note = what + " fixes it"
+				if len(fixed) < a.opt.Examples {
+					fixed = append(fixed, ex)
+				}
+			} else if before == gold {
+				iv.conflict.Broken++
+				ex.Note = what + " breaks it"
+				if len(broken) < a.opt.Examples {
+					broken = append(broken, ex)
+				}
+			}
+		}
+	}
+	if len(texts) > 0 {
+		iv.push = push / float64(len(texts))
+	}
+	iv.pushTexts = len(texts)
+	if iv.conflict.Texts > 0 {
+		iv.conflictShare = float64(iv.conflict.Texts) / float64(len(texts))
+		iv.conflictGain = gain / float64(iv.conflict.Texts)
+		iv.harm = iv.conflictShare * iv.conflictGain
+		iv.conflict.Accuracy = float64(right) / float64(iv.conflict.Texts)
+		iv.conflict.AccuracyMasked = float64(rightMasked) / float64(iv.conflict.Texts)
+	}
+	iv.examples = append(fixed, broken...)
+	return iv
 }
 
 func concentration(m *cnn.Model, e *filterEvidence) Concentration {

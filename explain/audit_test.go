@@ -279,7 +279,7 @@ func TestAblationMatchesMasked(t *testing.T) {
 				t.Fatal(err)
 			}
 			for i, ids := range d.IDs {
-				a.ablated(i, g, z)
+				a.ablatedSet(i, []int{g}, z)
 				o := mm.Forward(ids)
 				for c := range z {
 					if !near(z[c], float64(o.Logits[c]), 1e-4, 1e-4) {
