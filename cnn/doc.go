@@ -16,8 +16,12 @@
 // Predict, PredictBatch, Probabilities and the reusable Predictor compute the
 // first layer once per distinct word of a group of texts: a slot table of
 // every word's dot product with every filter slot (one matrix product), after
-// which a window's pre-activations are a few additions of table rows. The
-// table's memory is bounded; very long texts are processed in segments.
+// which a window's pre-activations are a few additions of table rows (one
+// SIMD kernel keeps each block of 16 filters' running maximum in registers).
+// A model keeps a persistent table of its most frequent words between calls
+// (at most 128 MiB), rebuilt after Train or Invalidate; the other words of a
+// call get a per-call table. Both tables' memory is bounded; very long texts
+// are processed in segments.
 //
 // # Training
 //

@@ -36,6 +36,12 @@ func windowMax(rows []*float32, w, nf, col int, bias, best []float32, arg []int3
 	windowMaxGo(rows, w, nf, col, bias, best, arg, t0, t1)
 }
 
+// packWeights packs nothing in this build (see the SIMD build's version).
+func packWeights(dst, b []float32, n, k int) []float32 { return nil }
+
+// matMulNTPacked is matMulNT (b is never packed in this build).
+func matMulNTPacked(c, a, b, pb []float32, m, n, k int) { matMulNT(c, a, b, m, n, k) }
+
 // kernelLevel names the implementation the dispatch functions use.
 const kernelLevel = "go"
 

@@ -185,6 +185,70 @@ func packPanel(pb, b []float32, j0, cols, k, p0, kb, nr int) {
 	}
 }
 
+// packWeights returns b (n×k, row-major) packed the way matMulNT packs it,
+// every panel of the current level's nr columns one after the other, reusing
+// dst's storage; nil when this build or shape does not pack (k > kc, or the
+// portable kernels).
+func packWeights(dst, b []float32, n, k int) []float32 {
+	nr := 0
+	switch simdLevel {
+	case levelAVX512:
+		nr = 32
+	case levelAVX2:
+		nr = 16
+	}
+	if nr == 0 || k == 0 || k > kc || n == 0 {
+		return nil
+	}
+	panels := (n + nr - 1) / nr
+	dst = grow(dst, panels*nr*k)
+	for pi := range panels {
+		j0 := pi * nr
+		packPanel(dst[pi*nr*k:(pi+1)*nr*k], b, j0, min(nr, n-j0), k, 0, k, nr)
+	}
+	return dst
+}
+
+// matMulNTPacked is matMulNT with b already packed by packWeights (pb); with
+// pb nil it is matMulNT. The result is the same bit for bit.
+func matMulNTPacked(c, a, b, pb []float32, m, n, k int) {
+	checkMatMulNT(c, a, b, m, n, k)
+	if pb == nil || m < smallM512 || m == 0 || n == 0 {
+		matMulNT(c, a, b, m, n, k)
+		return
+	}
+	switch simdLevel {
+	case levelAVX512:
+		const nr = 32
+		for j0 := 0; j0 < n; j0 += nr {
+			cols := min(nr, n-j0)
+			panel := pb[j0*k : j0*k+nr*k]
+			i := 0
+			for ; i+4 <= m; i += 4 {
+				kern512x4(c[i*n+j0:], n, a[i*k:], k, panel, k, cols, false)
+			}
+			for ; i < m; i++ {
+				kern512x1(c[i*n+j0:i*n+j0+cols], a[i*k:i*k+k], panel, false)
+			}
+		}
+	case levelAVX2:
+		const nr = 16
+		for j0 := 0; j0 < n; j0 += nr {
+			cols := min(nr, n-j0)
+			panel := pb[j0*k : j0*k+nr*k]
+			i := 0
+			for ; i+4 <= m; i += 4 {
+				kern256x4(c[i*n+j0:], n, a[i*k:], k, panel, k, cols, false)
+			}
+			for ; i < m; i++ {
+				kern256x1(c[i*n+j0:i*n+j0+cols], a[i*k:i*k+k], panel, false)
+			}
+		}
+	default:
+		matMulNT(c, a, b, m, n, k)
+	}
+}
+
 // kc is the depth of one packed panel: matMulNT works through k in blocks
 // of kc, so a panel (kc×32 floats, 32 KiB) lives on the stack and in L1.
 const kc = 256
@@ -699,11 +763,13 @@ func adamStep256(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 	archsimd.ClearAVXUpperBits()
 }
 
-// windowMax512 keeps one 16-filter chunk's running maximum and argument in
-// registers while the windows stream past, and loads each slot row's chunk
-// once per window: w loads and adds, a compare and two merges per window
-// and chunk. The padding lanes past nf read the rows' slack and are never
-// returned to callers as results.
+// windowMax512 computes 128 filters (eight vectors) per pass over the
+// windows: for each window it adds the eight vectors of each slot's row,
+// 512 contiguous bytes, so a rarely used word's row streams in whole lines
+// instead of being revisited once per 16 filters; the running maxima stay
+// in registers and the arguments are written only when a maximum changes.
+// The lanes past nf read the rows' slack and are never returned to callers
+// as results.
 func windowMax512(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int) {
 	if t1 <= t0 {
 		return
@@ -711,27 +777,73 @@ func windowMax512(rows []*float32, w, nf, col int, bias, best []float32, arg []i
 	np := padLanes(nf)
 	_ = rows[t1-1+w-1]
 	bias, best, arg = bias[:np], best[:np], arg[:np]
-	for j := 0; j < np; j += 16 {
-		bv := archsimd.LoadFloat32x16Slice(bias[j:])
-		mx := archsimd.LoadFloat32x16Slice(best[j:])
-		ag := archsimd.LoadInt32x16Slice(arg[j:])
+	stride := uintptr(4 * nf)
+	for j := 0; j < np; j += 128 {
+		bp := (*[128]float32)(bias[j : j+128])
+		mp := (*[128]float32)(best[j : j+128])
+		ap := (*[128]int32)(arg[j : j+128])
+		m0 := archsimd.LoadFloat32x16((*[16]float32)(mp[0:16]))
+		m1 := archsimd.LoadFloat32x16((*[16]float32)(mp[16:32]))
+		m2 := archsimd.LoadFloat32x16((*[16]float32)(mp[32:48]))
+		m3 := archsimd.LoadFloat32x16((*[16]float32)(mp[48:64]))
+		m4 := archsimd.LoadFloat32x16((*[16]float32)(mp[64:80]))
+		m5 := archsimd.LoadFloat32x16((*[16]float32)(mp[80:96]))
+		m6 := archsimd.LoadFloat32x16((*[16]float32)(mp[96:112]))
+		m7 := archsimd.LoadFloat32x16((*[16]float32)(mp[112:128]))
 		off := uintptr(4 * (col + j))
-		stride := uintptr(4 * nf)
 		for t := t0; t < t1; t++ {
-			acc := bv
+			a0 := archsimd.LoadFloat32x16((*[16]float32)(bp[0:16]))
+			a1 := archsimd.LoadFloat32x16((*[16]float32)(bp[16:32]))
+			a2 := archsimd.LoadFloat32x16((*[16]float32)(bp[32:48]))
+			a3 := archsimd.LoadFloat32x16((*[16]float32)(bp[48:64]))
+			a4 := archsimd.LoadFloat32x16((*[16]float32)(bp[64:80]))
+			a5 := archsimd.LoadFloat32x16((*[16]float32)(bp[80:96]))
+			a6 := archsimd.LoadFloat32x16((*[16]float32)(bp[96:112]))
+			a7 := archsimd.LoadFloat32x16((*[16]float32)(bp[112:128]))
 			o := off
 			for _, r := range rows[t : t+w] {
-				acc = acc.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(unsafe.Pointer(r), o))))
+				p := unsafe.Add(unsafe.Pointer(r), o)
+				a0 = a0.Add(archsimd.LoadFloat32x16((*[16]float32)(p)))
+				a1 = a1.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 64))))
+				a2 = a2.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 128))))
+				a3 = a3.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 192))))
+				a4 = a4.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 256))))
+				a5 = a5.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 320))))
+				a6 = a6.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 384))))
+				a7 = a7.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 448))))
 				o += stride
 			}
-			gt := acc.Greater(mx)
-			mx = acc.Merge(mx, gt)
-			ag = archsimd.BroadcastInt32x16(int32(t)).Merge(ag, gt)
+			tt := int32(t)
+			m0 = maxArg512(a0, m0, (*[16]int32)(ap[0:16]), tt)
+			m1 = maxArg512(a1, m1, (*[16]int32)(ap[16:32]), tt)
+			m2 = maxArg512(a2, m2, (*[16]int32)(ap[32:48]), tt)
+			m3 = maxArg512(a3, m3, (*[16]int32)(ap[48:64]), tt)
+			m4 = maxArg512(a4, m4, (*[16]int32)(ap[64:80]), tt)
+			m5 = maxArg512(a5, m5, (*[16]int32)(ap[80:96]), tt)
+			m6 = maxArg512(a6, m6, (*[16]int32)(ap[96:112]), tt)
+			m7 = maxArg512(a7, m7, (*[16]int32)(ap[112:128]), tt)
 		}
-		mx.StoreSlice(best[j:])
-		ag.StoreSlice(arg[j:])
+		m0.Store((*[16]float32)(mp[0:16]))
+		m1.Store((*[16]float32)(mp[16:32]))
+		m2.Store((*[16]float32)(mp[32:48]))
+		m3.Store((*[16]float32)(mp[48:64]))
+		m4.Store((*[16]float32)(mp[64:80]))
+		m5.Store((*[16]float32)(mp[80:96]))
+		m6.Store((*[16]float32)(mp[96:112]))
+		m7.Store((*[16]float32)(mp[112:128]))
 	}
 	archsimd.ClearAVXUpperBits()
+}
+
+// maxArg512 returns the lane-wise maximum of a and m (a replaces m only
+// where greater: first maximum) and writes t into arg where a replaced m.
+func maxArg512(a, m archsimd.Float32x16, arg *[16]int32, t int32) archsimd.Float32x16 {
+	gt := a.Greater(m)
+	if gt.ToBits() != 0 {
+		archsimd.BroadcastInt32x16(t).Merge(archsimd.LoadInt32x16(arg), gt).Store(arg)
+		return a.Merge(m, gt)
+	}
+	return m
 }
 
 // windowMax256 is windowMax512 with two 8-lane halves per chunk.

@@ -459,3 +459,20 @@ func TestKernelWindowMax(t *testing.T) {
 		}
 	}
 }
+
+// matMulNTPacked with weights packed once must equal matMulNT bit for bit.
+func TestKernelMatMulNTPacked(t *testing.T) {
+	r := rand.New(rand.NewPCG(9, 9))
+	for _, sh := range [][3]int{{1, 1200, 128}, {7, 33, 17}, {8, 40, 128}, {13, 1200, 128}, {100, 31, 5}, {9, 64, 300}} {
+		m, n, k := sh[0], sh[1], sh[2]
+		a, b := randSlice(r, m*k), randSlice(r, n*k)
+		want, got := make([]float32, m*n), make([]float32, m*n)
+		matMulNT(want, a, b, m, n, k)
+		matMulNTPacked(got, a, b, packWeights(nil, b, n, k), m, n, k)
+		for i := range want {
+			if math.Float32bits(got[i]) != math.Float32bits(want[i]) {
+				t.Fatalf("m=%d n=%d k=%d: c[%d] = %g, matMulNT %g", m, n, k, i, got[i], want[i])
+			}
+		}
+	}
+}

@@ -137,10 +137,16 @@ func expectedCalibrationError(conf []float64, correct []bool, bins int) float64 
 // GOMAXPROCS) and returns the metrics and the predicted class of each text
 // (the first class of highest probability).
 func Evaluate(m *Model, d Data, threads int) (Metrics, []int, error) {
+	return evaluate(m, d, threads, true)
+}
+
+// evaluate is Evaluate; without cached it leaves the model's persistent
+// slot table alone (Train's dev evaluations: the weights change after each).
+func evaluate(m *Model, d Data, threads int, cached bool) (Metrics, []int, error) {
 	if err := d.check(m.Config, "evaluation"); err != nil {
 		return Metrics{}, nil, err
 	}
-	probs := m.Probabilities(d.IDs, threads)
+	probs := m.probabilities(d.IDs, threads, cached)
 	pred := make([]int, len(probs))
 	conf := make([]float64, len(probs))
 	for i, p := range probs {

@@ -272,8 +272,13 @@ func (m *Model) Predict(ids []int32) Output {
 	return out[0]
 }
 
-// predictChunk is the number of texts one goroutine takes at a time.
-const predictChunk = 64
+// predictChunk is the most texts one goroutine takes at a time; a call with
+// fewer than threads·predictChunk texts is cut into smaller chunks (at
+// least minChunk texts) so that every goroutine gets a share.
+const (
+	predictChunk = 64
+	minChunk     = 8
+)
 
 // PredictBatch runs the model on every text using threads goroutines (0 means
 // GOMAXPROCS). The result is the same for any thread count.
@@ -289,9 +294,19 @@ func (m *Model) PredictBatch(texts [][]int32, threads int) []Output {
 // threads goroutines (0 means GOMAXPROCS). Row i has Classes values; all rows
 // share one backing array.
 func (m *Model) Probabilities(texts [][]int32, threads int) [][]float32 {
+	return m.probabilities(texts, threads, true)
+}
+
+// probabilities is Probabilities; without cached only per-call tables are
+// used.
+func (m *Model) probabilities(texts [][]int32, threads int, cached bool) [][]float32 {
 	c := m.Config.Classes
 	flat := make([]float32, len(texts)*c)
 	m.parallelChunks(len(texts), threads, func(p *Predictor, lo, hi int) {
+		if !cached {
+			p.cacheWords = -1
+			defer func() { p.cacheWords = 0 }()
+		}
 		p.Probs(texts[lo:hi], flat[lo*c:hi*c])
 	})
 	rows := make([][]float32, len(texts))
@@ -307,7 +322,11 @@ func (m *Model) parallelChunks(n, threads int, fn func(p *Predictor, lo, hi int)
 	if threads <= 0 {
 		threads = runtime.GOMAXPROCS(0)
 	}
-	chunks := (n + predictChunk - 1) / predictChunk
+	size := predictChunk
+	if threads > 1 {
+		size = min(size, max(minChunk, (n+2*threads-1)/(2*threads)))
+	}
+	chunks := (n + size - 1) / size
 	threads = max(1, min(threads, chunks))
 	var next atomic.Int64
 	work := func() {
@@ -317,7 +336,7 @@ func (m *Model) parallelChunks(n, threads int, fn func(p *Predictor, lo, hi int)
 			if c >= chunks {
 				break
 			}
-			fn(p, c*predictChunk, min(n, (c+1)*predictChunk))
+			fn(p, c*size, min(n, (c+1)*size))
 		}
 		putPredictor(p)
 	}

@@ -23,6 +23,7 @@ type slotWeights struct {
 	nrows  int
 	rowOff []int
 	wt     []float32 // nrows·Dim
+	packed []float32 // wt packed for matMulNTPacked (nil: not packed)
 	bias   []float32 // per bank: its biases padded to padLanes(Filters)
 	zero   []float32 // the table row of PAD: zeros, with windowMax's slack
 }
@@ -51,6 +52,7 @@ func (sw *slotWeights) build(m *Model) {
 			}
 		}
 	}
+	sw.packed = packWeights(sw.packed, sw.wt, n, d)
 }
 
 // wordSet maps the vocabulary ids of a group of texts to dense local indices.
@@ -102,37 +104,7 @@ func gatherRows(m *Model, words []int32, emb []float32, lo, hi int) {
 // tableRows fills rows lo..hi of the slot table from the gathered embeddings.
 func tableRows(sw *slotWeights, emb, tab []float32, d, lo, hi int) {
 	if hi > lo {
-		matMulNT(tab[lo*sw.nrows:hi*sw.nrows], emb[lo*d:hi*d], sw.wt, hi-lo, sw.nrows, d)
-	}
-}
-
-// scanWindows updates best and arg (NumFilters each) with the windows
-// t ∈ [t0, t1) of a text of padded length lp. loc holds the local indices of
-// tokens base … base+len(loc)−1 (−1 for PAD); other positions a window
-// reaches must be PAD. acc is scratch of Filters values.
-func scanWindows(m *Model, sw *slotWeights, tab []float32, loc []int32, base, lp, t0, t1 int, acc, best []float32, arg []int32) {
-	cfg := m.Config
-	F, nr := cfg.Filters, sw.nrows
-	end := base + len(loc)
-	for b, c := range m.Convs {
-		w := c.Width
-		g0 := b * F
-		bb, ba := best[g0:g0+F], arg[g0:g0+F]
-		off := sw.rowOff[b]
-		for t := t0; t < t1 && t <= lp-w; t++ {
-			copy(acc, c.B)
-			for s := 0; s < w; s++ {
-				p := t + s
-				if p >= end {
-					break
-				}
-				if li := loc[p-base]; li >= 0 {
-					r := int(li)*nr + off + s*F
-					addTo(acc, tab[r:r+F])
-				}
-			}
-			maxUpdate(bb, ba, acc, int32(t))
-		}
+		matMulNTPacked(tab[lo*sw.nrows:hi*sw.nrows], emb[lo*d:hi*d], sw.wt, sw.packed, hi-lo, sw.nrows, d)
 	}
 }
 

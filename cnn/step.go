@@ -67,7 +67,7 @@ func (w *workers) close() {
 // threadBuf is one worker's scratch and gradient accumulators.
 type threadBuf struct {
 	w, b, ow, ob, emb []float32 // gradients: conv W (all banks), conv B, OutW, OutB, embeddings of the batch's words
-	acc, h, z, p, dz  []float32
+	h, z, p, dz       []float32
 	dh                []float32
 	rows              []*float32 // table rows of the current text's positions
 	bestP             []float32  // windowMax scratch
@@ -127,7 +127,6 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 		t.b = make([]float32, nf)
 		t.ow = make([]float32, len(m.OutW))
 		t.ob = make([]float32, cfg.Classes)
-		t.acc = make([]float32, cfg.Filters)
 		t.bestP = make([]float32, padLanes(cfg.Filters))
 		t.argP = make([]int32, padLanes(cfg.Filters))
 		t.h = make([]float32, nf)

@@ -196,7 +196,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		er := EpochResult{Epoch: epoch, Loss: sum / float64(done), ExamplesPerSec: float64(done) / el.Seconds(), Seconds: el.Seconds()}
 		improved := true
 		if dev.Len() > 0 {
-			mt, _, err := Evaluate(m, dev, tc.Threads)
+			mt, _, err := evaluate(m, dev, tc.Threads, false)
 			if err != nil {
 				return nil, err
 			}
