@@ -162,8 +162,8 @@ func adamStepGo(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 
 // winLanes is the padding unit of windowMax's filter vectors: bias, best
 // and arg hold padLanes(nf) values, and every table row is readable that far
-// past its last slot (the AVX-512 kernel computes 128 filters per pass).
-const winLanes = 128
+// past its last slot (the AVX-512 kernel computes 64 filters per pass).
+const winLanes = 64
 
 // padLanes rounds n up to a multiple of winLanes.
 func padLanes(n int) int { return (n + winLanes - 1) &^ (winLanes - 1) }

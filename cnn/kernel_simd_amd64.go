@@ -763,13 +763,14 @@ func adamStep256(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 	archsimd.ClearAVXUpperBits()
 }
 
-// windowMax512 computes 128 filters (eight vectors) per pass over the
-// windows: for each window it adds the eight vectors of each slot's row,
-// 512 contiguous bytes, so a rarely used word's row streams in whole lines
-// instead of being revisited once per 16 filters; the running maxima stay
-// in registers and the arguments are written only when a maximum changes.
-// The lanes past nf read the rows' slack and are never returned to callers
-// as results.
+// windowMax512 computes 64 filters (four vectors) per pass over the
+// windows: for each window it adds the four vectors of each slot's row, 256
+// contiguous bytes, so a rarely used word's row streams in whole runs of
+// lines instead of one line per 16 filters. The running maxima and their
+// arguments stay in registers, twelve vectors in all, which the compiler
+// keeps without spilling; there is no branch on whether a maximum changed
+// (such branches are unpredictable). The lanes past nf read the rows' slack
+// and are never returned to callers as results.
 func windowMax512(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int) {
 	if t1 <= t0 {
 		return
@@ -778,28 +779,24 @@ func windowMax512(rows []*float32, w, nf, col int, bias, best []float32, arg []i
 	_ = rows[t1-1+w-1]
 	bias, best, arg = bias[:np], best[:np], arg[:np]
 	stride := uintptr(4 * nf)
-	for j := 0; j < np; j += 128 {
-		bp := (*[128]float32)(bias[j : j+128])
-		mp := (*[128]float32)(best[j : j+128])
-		ap := (*[128]int32)(arg[j : j+128])
+	for j := 0; j < np; j += 64 {
+		bp := (*[64]float32)(bias[j : j+64])
+		mp := (*[64]float32)(best[j : j+64])
+		ap := (*[64]int32)(arg[j : j+64])
 		m0 := archsimd.LoadFloat32x16((*[16]float32)(mp[0:16]))
 		m1 := archsimd.LoadFloat32x16((*[16]float32)(mp[16:32]))
 		m2 := archsimd.LoadFloat32x16((*[16]float32)(mp[32:48]))
 		m3 := archsimd.LoadFloat32x16((*[16]float32)(mp[48:64]))
-		m4 := archsimd.LoadFloat32x16((*[16]float32)(mp[64:80]))
-		m5 := archsimd.LoadFloat32x16((*[16]float32)(mp[80:96]))
-		m6 := archsimd.LoadFloat32x16((*[16]float32)(mp[96:112]))
-		m7 := archsimd.LoadFloat32x16((*[16]float32)(mp[112:128]))
+		i0 := archsimd.LoadInt32x16((*[16]int32)(ap[0:16]))
+		i1 := archsimd.LoadInt32x16((*[16]int32)(ap[16:32]))
+		i2 := archsimd.LoadInt32x16((*[16]int32)(ap[32:48]))
+		i3 := archsimd.LoadInt32x16((*[16]int32)(ap[48:64]))
 		off := uintptr(4 * (col + j))
 		for t := t0; t < t1; t++ {
 			a0 := archsimd.LoadFloat32x16((*[16]float32)(bp[0:16]))
 			a1 := archsimd.LoadFloat32x16((*[16]float32)(bp[16:32]))
 			a2 := archsimd.LoadFloat32x16((*[16]float32)(bp[32:48]))
 			a3 := archsimd.LoadFloat32x16((*[16]float32)(bp[48:64]))
-			a4 := archsimd.LoadFloat32x16((*[16]float32)(bp[64:80]))
-			a5 := archsimd.LoadFloat32x16((*[16]float32)(bp[80:96]))
-			a6 := archsimd.LoadFloat32x16((*[16]float32)(bp[96:112]))
-			a7 := archsimd.LoadFloat32x16((*[16]float32)(bp[112:128]))
 			o := off
 			for _, r := range rows[t : t+w] {
 				p := unsafe.Add(unsafe.Pointer(r), o)
@@ -807,43 +804,28 @@ func windowMax512(rows []*float32, w, nf, col int, bias, best []float32, arg []i
 				a1 = a1.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 64))))
 				a2 = a2.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 128))))
 				a3 = a3.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 192))))
-				a4 = a4.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 256))))
-				a5 = a5.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 320))))
-				a6 = a6.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 384))))
-				a7 = a7.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 448))))
 				o += stride
 			}
-			tt := int32(t)
-			m0 = maxArg512(a0, m0, (*[16]int32)(ap[0:16]), tt)
-			m1 = maxArg512(a1, m1, (*[16]int32)(ap[16:32]), tt)
-			m2 = maxArg512(a2, m2, (*[16]int32)(ap[32:48]), tt)
-			m3 = maxArg512(a3, m3, (*[16]int32)(ap[48:64]), tt)
-			m4 = maxArg512(a4, m4, (*[16]int32)(ap[64:80]), tt)
-			m5 = maxArg512(a5, m5, (*[16]int32)(ap[80:96]), tt)
-			m6 = maxArg512(a6, m6, (*[16]int32)(ap[96:112]), tt)
-			m7 = maxArg512(a7, m7, (*[16]int32)(ap[112:128]), tt)
+			tv := archsimd.BroadcastInt32x16(int32(t))
+			g := a0.Greater(m0)
+			m0, i0 = a0.Merge(m0, g), tv.Merge(i0, g)
+			g = a1.Greater(m1)
+			m1, i1 = a1.Merge(m1, g), tv.Merge(i1, g)
+			g = a2.Greater(m2)
+			m2, i2 = a2.Merge(m2, g), tv.Merge(i2, g)
+			g = a3.Greater(m3)
+			m3, i3 = a3.Merge(m3, g), tv.Merge(i3, g)
 		}
 		m0.Store((*[16]float32)(mp[0:16]))
 		m1.Store((*[16]float32)(mp[16:32]))
 		m2.Store((*[16]float32)(mp[32:48]))
 		m3.Store((*[16]float32)(mp[48:64]))
-		m4.Store((*[16]float32)(mp[64:80]))
-		m5.Store((*[16]float32)(mp[80:96]))
-		m6.Store((*[16]float32)(mp[96:112]))
-		m7.Store((*[16]float32)(mp[112:128]))
+		i0.Store((*[16]int32)(ap[0:16]))
+		i1.Store((*[16]int32)(ap[16:32]))
+		i2.Store((*[16]int32)(ap[32:48]))
+		i3.Store((*[16]int32)(ap[48:64]))
 	}
 	archsimd.ClearAVXUpperBits()
-}
-
-// maxArg512 returns the lane-wise maximum of a and m (a replaces m only
-// where greater: first maximum) and writes t into arg where a replaced m.
-func maxArg512(a, m archsimd.Float32x16, arg *[16]int32, t int32) archsimd.Float32x16 {
-	gt := a.Greater(m)
-	if gt.ToBits() != 0 {
-		archsimd.BroadcastInt32x16(t).Merge(archsimd.LoadInt32x16(arg), gt).Store(arg)
-		return a.Merge(m, gt)
-	}
-	return m
 }
 
 // windowMax256 is windowMax512 with two 8-lane halves per chunk.
