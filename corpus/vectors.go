@@ -32,12 +32,16 @@ func (v *Vectors) Vector(i int) []float32 { return v.Data[i*v.Dim : (i+1)*v.Dim]
 // about 3 KB; 1 MiB leaves room for 30,000 dimensions).
 const maxVectorLine = 1 << 20
 
+// vectorBlock is the size of the blocks of whole lines handed to the parsers.
+const vectorBlock = 4 << 20
+
 // ReadVectors reads word vectors in the common plain-text layout: an
 // optional first line "COUNT DIM", then one word and its numbers per line,
-// separated by spaces. A path ending in .gz is decompressed. When keep is
-// not nil, only words for which it returns true are kept (the others are not
-// parsed, which makes reading a large file for a small vocabulary fast).
-// Later duplicates of a word are ignored. Lines are parsed in parallel.
+// separated by spaces or tabs. A path ending in .gz is decompressed. When
+// keep is not nil, only words for which it returns true are kept (the others
+// are not parsed, which makes reading a large file for a small vocabulary
+// fast); keep is called from several goroutines at once. Later duplicates of
+// a word are ignored. Blocks of lines are parsed in parallel.
 func ReadVectors(path string, keep func(word string) bool) (*Vectors, error) {
 	f, err := os.Open(path)
 	if err != nil {
@@ -53,152 +57,115 @@ func ReadVectors(path string, keep func(word string) bool) (*Vectors, error) {
 		defer gz.Close()
 		r = gz
 	}
-	br := bufio.NewReaderSize(r, 1<<20)
-
-	type chunk struct {
-		first int // line number of lines[0]
-		lines [][]byte
-	}
-	type parsed struct {
-		words []string
-		data  []float32
-		err   error
-	}
-	dim := 0
-	lineNo := 0
-	readLine := func() ([]byte, error) {
-		line, err := br.ReadSlice('\n')
-		if errors.Is(err, bufio.ErrBufferFull) {
-			return nil, fmt.Errorf("corpus: %s line %d: line longer than %d bytes: is this a word-vector file?: %w", path, lineNo+1, maxVectorLine, ErrVectors)
-		}
-		if err == io.EOF && len(line) > 0 {
-			err = nil
-		}
-		if err != nil {
-			return nil, err
-		}
-		lineNo++
-		return bytes.TrimRight(line, "\r\n"), nil
-	}
+	br := bufio.NewReaderSize(r, maxVectorLine+1)
 
 	// The first line is either the header or the first vector.
-	first, err := readLine()
-	if err == io.EOF {
+	first, err := br.ReadSlice('\n')
+	if errors.Is(err, bufio.ErrBufferFull) {
+		return nil, fmt.Errorf("corpus: %s line 1: line longer than %d bytes: is this a word-vector file?: %w", path, maxVectorLine, ErrVectors)
+	}
+	if err != nil && err != io.EOF {
+		return nil, fmt.Errorf("corpus: %s: reading: %w", path, err)
+	}
+	if len(bytes.TrimSpace(first)) == 0 && err == io.EOF {
 		return nil, fmt.Errorf("corpus: %s: the vector file is empty: %w", path, ErrVectors)
 	}
-	if err != nil {
-		return nil, err
-	}
-	pending := [][]byte{}
-	if fields := strings.Fields(string(first)); len(fields) == 2 && isCount(fields[0]) && isCount(fields[1]) {
+	first = append([]byte(nil), first...)
+	dim, count, startLine := 0, 0, 1
+	fields := strings.Fields(string(first))
+	switch {
+	case len(fields) == 2 && isCount(fields[0]) && isCount(fields[1]):
 		dim, _ = strconv.Atoi(fields[1])
-	} else {
-		if len(fields) < 2 {
-			return nil, fmt.Errorf("corpus: %s line 1: expected a word followed by its numbers: %w", path, ErrVectors)
-		}
+		count, _ = strconv.Atoi(fields[0])
+		first, startLine = nil, 2
+	case len(fields) < 2:
+		return nil, fmt.Errorf("corpus: %s line 1: expected a word followed by its numbers: %w", path, ErrVectors)
+	default:
 		dim = len(fields) - 1
-		pending = append(pending, append([]byte(nil), first...))
 	}
 	if dim < 1 || dim > 100000 {
 		return nil, fmt.Errorf("corpus: %s line 1: dimension %d is out of range (1 to 100000): %w", path, dim, ErrVectors)
 	}
-	parse := func(c chunk) parsed {
-		var p parsed
-		for i, line := range c.lines {
-			n := c.first + i
-			line = bytes.TrimSpace(line)
-			if len(line) == 0 {
-				continue
-			}
-			sp := bytes.IndexByte(line, ' ')
-			if sp < 0 {
-				p.err = fmt.Errorf("corpus: %s line %d: a word without numbers; each line must be a word and %d numbers: %w", path, n, dim, ErrVectors)
-				return p
-			}
-			word := string(line[:sp])
-			if keep != nil && !keep(word) {
-				continue
-			}
-			rest := line[sp+1:]
-			start := len(p.data)
-			for len(rest) > 0 {
-				rest = bytes.TrimLeft(rest, " ")
-				if len(rest) == 0 {
-					break
-				}
-				end := bytes.IndexByte(rest, ' ')
-				if end < 0 {
-					end = len(rest)
-				}
-				x, err := strconv.ParseFloat(string(rest[:end]), 32)
-				if err != nil || math.IsNaN(x) || math.IsInf(x, 0) {
-					p.err = fmt.Errorf("corpus: %s line %d: %q is not a finite number: %w", path, n, rest[:end], ErrVectors)
-					return p
-				}
-				p.data = append(p.data, float32(x))
-				rest = rest[end:]
-			}
-			if got := len(p.data) - start; got != dim {
-				p.err = fmt.Errorf("corpus: %s line %d: %d numbers for %q, but the file's dimension is %d: %w", path, n, got, word, dim, ErrVectors)
-				return p
-			}
-			p.words = append(p.words, word)
-		}
-		return p
-	}
 
-	workers := runtime.GOMAXPROCS(0)
-	resultQueue := make(chan chan parsed, 4*workers)
-	var wg sync.WaitGroup
-	type job struct {
-		c   chunk
-		out chan parsed
+	type block struct {
+		first int // line number of the block's first line
+		data  []byte
+		out   chan vectorPart
 	}
-	jobQ := make(chan job, workers)
+	workers := runtime.GOMAXPROCS(0)
+	jobs := make(chan block, workers)
+	order := make(chan chan vectorPart, 2*workers)
+	var wg sync.WaitGroup
 	for w := 0; w < workers; w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for j := range jobQ {
-				j.out <- parse(j.c)
+			for b := range jobs {
+				b.out <- parseVectorBlock(path, b.data, b.first, dim, keep)
 			}
 		}()
 	}
-	// Reader: cut the file into chunks of lines and queue them in order.
+	// The reader cuts the stream into blocks of whole lines, in order.
 	readErr := make(chan error, 1)
 	go func() {
-		defer close(resultQueue)
-		defer close(jobQ)
-		const chunkLines = 2048
-		c := chunk{first: lineNo - len(pending) + 1, lines: pending}
+		defer close(order)
+		defer close(jobs)
+		line := startLine
+		buf := first
+		send := func(data []byte) {
+			out := make(chan vectorPart, 1)
+			jobs <- block{first: line, data: data, out: out}
+			order <- out
+			line += bytes.Count(data, []byte{'\n'})
+		}
 		for {
-			line, err := readLine()
-			if err == io.EOF {
-				break
-			}
-			if err != nil {
-				readErr <- err
+			// Each block is read in place after the carried-over partial line.
+			next := make([]byte, len(buf), len(buf)+vectorBlock)
+			copy(next, buf)
+			n, err := io.ReadFull(br, next[len(buf):cap(next)])
+			buf = next[:len(buf)+n]
+			if err == io.EOF || err == io.ErrUnexpectedEOF {
+				if len(buf) > 0 {
+					send(buf)
+				}
+				readErr <- nil
 				return
 			}
-			c.lines = append(c.lines, append([]byte(nil), line...))
-			if len(c.lines) == chunkLines {
-				out := make(chan parsed, 1)
-				jobQ <- job{c, out}
-				resultQueue <- out
-				c = chunk{first: lineNo + 1}
+			if err != nil {
+				readErr <- fmt.Errorf("corpus: %s: reading: %w", path, err)
+				return
 			}
+			cut := bytes.LastIndexByte(buf, '\n')
+			if cut < 0 {
+				if len(buf) > maxVectorLine {
+					readErr <- fmt.Errorf("corpus: %s line %d: line longer than %d bytes: is this a word-vector file?: %w", path, line, maxVectorLine, ErrVectors)
+					return
+				}
+				continue
+			}
+			rest := buf[cut+1:]
+			send(buf[:cut+1])
+			buf = rest
 		}
-		if len(c.lines) > 0 {
-			out := make(chan parsed, 1)
-			jobQ <- job{c, out}
-			resultQueue <- out
-		}
-		readErr <- nil
 	}()
 	v := &Vectors{Dim: dim}
-	seen := map[string]bool{}
+	if count > 0 {
+		// Trust the header's count only as far as the file can hold it: a
+		// number takes at least two bytes (compressed files: 128M numbers).
+		most := 1 << 27
+		if st, err := f.Stat(); err == nil && r == io.Reader(f) {
+			most = int(st.Size() / 2)
+		}
+		n := most
+		if count <= most/dim {
+			n = count * dim
+		}
+		v.Words = make([]string, 0, n/dim)
+		v.Data = make([]float32, 0, n)
+	}
+	seen := make(map[string]bool, cap(v.Words))
 	var firstErr error
-	for out := range resultQueue {
+	for out := range order {
 		p := <-out
 		if firstErr != nil {
 			continue
@@ -224,6 +191,138 @@ func ReadVectors(path string, keep func(word string) bool) (*Vectors, error) {
 		return nil, firstErr
 	}
 	return v, nil
+}
+
+// vectorPart is what one block of lines parses to.
+type vectorPart struct {
+	words []string
+	data  []float32
+	err   error
+}
+
+func isSep(c byte) bool { return c == ' ' || c == '\t' }
+
+// parseVectorBlock parses whole lines; first is the line number of the
+// first one.
+func parseVectorBlock(path string, data []byte, first, dim int, keep func(string) bool) vectorPart {
+	// A number takes at least two bytes (a digit and a separator).
+	p := vectorPart{data: make([]float32, 0, min(len(data)/2, 1<<20))}
+	n := first - 1
+	for len(data) > 0 {
+		n++
+		var line []byte
+		if i := bytes.IndexByte(data, '\n'); i >= 0 {
+			line, data = data[:i], data[i+1:]
+		} else {
+			line, data = data, nil
+		}
+		if len(line) > maxVectorLine {
+			p.err = fmt.Errorf("corpus: %s line %d: line longer than %d bytes: is this a word-vector file?: %w", path, n, maxVectorLine, ErrVectors)
+			return p
+		}
+		line = bytes.TrimSpace(line)
+		if len(line) == 0 {
+			continue
+		}
+		sp := bytes.IndexFunc(line, func(r rune) bool { return r == ' ' || r == '\t' })
+		if sp < 0 {
+			p.err = fmt.Errorf("corpus: %s line %d: a word without numbers; each line must be a word and %d numbers: %w", path, n, dim, ErrVectors)
+			return p
+		}
+		word := string(line[:sp])
+		if keep != nil && !keep(word) {
+			continue
+		}
+		rest := line[sp+1:]
+		start := len(p.data)
+		for {
+			for len(rest) > 0 && isSep(rest[0]) {
+				rest = rest[1:]
+			}
+			if len(rest) == 0 {
+				break
+			}
+			end := 0
+			for end < len(rest) && !isSep(rest[end]) {
+				end++
+			}
+			x, ok := parseFloat32(rest[:end])
+			if !ok {
+				p.err = fmt.Errorf("corpus: %s line %d: %q is not a finite number: %w", path, n, rest[:end], ErrVectors)
+				return p
+			}
+			p.data = append(p.data, x)
+			rest = rest[end:]
+		}
+		if got := len(p.data) - start; got != dim {
+			p.err = fmt.Errorf("corpus: %s line %d: %d numbers for %q, but the file's dimension is %d: %w", path, n, got, word, dim, ErrVectors)
+			return p
+		}
+		p.words = append(p.words, word)
+	}
+	return p
+}
+
+// pow10f holds the powers of ten that float32 represents exactly.
+var pow10f = [...]float32{1, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10}
+
+// parseFloat32 parses a decimal number to the nearest float32, as
+// strconv.ParseFloat(s, 32) does, and reports whether it is a finite number.
+// Plain decimals with at most 7 significant digits and a short fraction take
+// the exact fast path of Clinger (1990, "How to Read Floating Point Numbers
+// Accurately", PLDI): an integer below 2^24 and a power of ten up to 10^10
+// are both exact in float32, so one correctly rounded division or product
+// gives the correctly rounded result. Everything else goes to strconv.
+func parseFloat32(s []byte) (float32, bool) {
+	i, neg := 0, false
+	if i < len(s) && (s[i] == '-' || s[i] == '+') {
+		neg = s[i] == '-'
+		i++
+	}
+	var mant uint32
+	digits, frac := 0, 0
+	seenDot, any := false, false
+	for ; i < len(s); i++ {
+		c := s[i]
+		switch {
+		case c >= '0' && c <= '9':
+			any = true
+			if mant == 0 && c == '0' {
+				if seenDot {
+					frac++
+				}
+				continue
+			}
+			digits++
+			if digits > 7 {
+				return slowFloat32(s)
+			}
+			mant = mant*10 + uint32(c-'0')
+			if seenDot {
+				frac++
+			}
+		case c == '.' && !seenDot:
+			seenDot = true
+		default:
+			return slowFloat32(s)
+		}
+	}
+	if !any || frac >= len(pow10f) {
+		return slowFloat32(s)
+	}
+	x := float32(mant) / pow10f[frac]
+	if neg {
+		x = -x
+	}
+	return x, true
+}
+
+func slowFloat32(s []byte) (float32, bool) {
+	x, err := strconv.ParseFloat(string(s), 32)
+	if err != nil || math.IsNaN(x) || math.IsInf(x, 0) {
+		return 0, false
+	}
+	return float32(x), true
 }
 
 func isCount(s string) bool {

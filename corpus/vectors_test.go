@@ -4,9 +4,11 @@ import (
 	"compress/gzip"
 	"errors"
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -132,4 +134,43 @@ func BenchmarkReadVectors(b *testing.B) {
 		}
 	}
 	b.ReportMetric(float64(words)*float64(b.N)/b.Elapsed().Seconds(), "words/s")
+}
+
+// TestParseFloat32MatchesStrconv checks the fast path against
+// strconv.ParseFloat(s, 32), the standard library's correctly rounded parser,
+// on the forms vector files hold and on edge cases.
+func TestParseFloat32MatchesStrconv(t *testing.T) {
+	cases := []string{"0", "-0", "1", "-1", "0.5", "0.05", "+0.25", "100", "1234567", "12345678", "0.1234567",
+		"-0.12345678", "3.4028235e38", "1e-3", "1E+2", "0.0000000001", "0.00000000001", "9999999", "0.999999",
+		"1.", ".5", "-.5", "00012.5000", "16777217", "1.6777217"}
+	rng := rand.New(rand.NewPCG(3, 3))
+	for i := 0; i < 20000; i++ {
+		digits := 1 + rng.IntN(8)
+		frac := rng.IntN(digits + 3)
+		var sb strings.Builder
+		if rng.IntN(2) == 0 {
+			sb.WriteByte('-')
+		}
+		num := fmt.Sprintf("%0*d", digits, rng.Int64N(100000000)%int64(math.Pow10(digits)))
+		if frac >= len(num) {
+			num = strings.Repeat("0", frac-len(num)+1) + num
+		}
+		sb.WriteString(num[:len(num)-frac])
+		if frac > 0 {
+			sb.WriteString("." + num[len(num)-frac:])
+		}
+		cases = append(cases, sb.String())
+	}
+	for _, s := range cases {
+		want, err := strconv.ParseFloat(s, 32)
+		got, ok := parseFloat32([]byte(s))
+		if !ok || err != nil || got != float32(want) || math.Signbit(float64(got)) != math.Signbit(want) {
+			t.Fatalf("parseFloat32(%q) = %v, %v; strconv gives %v, %v", s, got, ok, float32(want), err)
+		}
+	}
+	for _, s := range []string{"", "-", ".", "1..2", "1e", "NaN", "inf", "-Inf", "0x1p3x", "1,5", "1e39"} {
+		if _, ok := parseFloat32([]byte(s)); ok {
+			t.Errorf("parseFloat32(%q) accepted", s)
+		}
+	}
 }
