@@ -10,9 +10,9 @@ import (
 	"io"
 	"math"
 	"os"
-	"path/filepath"
 
 	"telltale/corpus"
+	"telltale/internal/atomicfile"
 )
 
 // The model file is one self-checking binary file:
@@ -64,33 +64,8 @@ func (m *Model) Save(path string) (err error) {
 	if err := m.checkShapes(); err != nil {
 		return err
 	}
-	dir := filepath.Dir(path)
-	f, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp*")
-	if err != nil {
+	if err := atomicfile.Write(path, m.encode); err != nil {
 		return fmt.Errorf("cnn: saving model: %w", err)
-	}
-	tmp := f.Name()
-	defer func() {
-		if err != nil {
-			f.Close()
-			os.Remove(tmp)
-		}
-	}()
-	if err = m.encode(f); err != nil {
-		return fmt.Errorf("cnn: saving model %s: %w", path, err)
-	}
-	if err = f.Sync(); err != nil {
-		return fmt.Errorf("cnn: saving model %s: %w", path, err)
-	}
-	if err = f.Close(); err != nil {
-		return fmt.Errorf("cnn: saving model %s: %w", path, err)
-	}
-	if err = os.Rename(tmp, path); err != nil {
-		return fmt.Errorf("cnn: saving model %s: %w", path, err)
-	}
-	if d, derr := os.Open(dir); derr == nil {
-		d.Sync() // make the rename durable; not all systems support it
-		d.Close()
 	}
 	return nil
 }

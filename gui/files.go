@@ -5,12 +5,12 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"os"
-	"path/filepath"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/storage"
+
+	"telltale/internal/atomicfile"
 )
 
 // exporter gives a view's main table (for CSV) and its data (for JSON).
@@ -95,7 +95,7 @@ func (st *State) exportCSVDialog() {
 		return
 	}
 	st.saveDialog(fileStem(title)+".csv", func(path string) error {
-		return writeAtomic(path, ex.table().writeCSV)
+		return atomicfile.Write(path, ex.table().writeCSV)
 	})
 }
 
@@ -112,7 +112,7 @@ func (st *State) exportJSONDialog() {
 		return
 	}
 	st.saveDialog(fileStem(title)+".json", func(path string) error {
-		return writeAtomic(path, func(w io.Writer) error {
+		return atomicfile.Write(path, func(w io.Writer) error {
 			enc := json.NewEncoder(w)
 			enc.SetIndent("", "  ")
 			return enc.Encode(v)
@@ -135,29 +135,4 @@ func fileStem(title string) string {
 		}
 	}
 	return "telltale-" + string(b)
-}
-
-// writeAtomic writes a file through a temporary file in the same folder
-// and renames it into place, so a failure never leaves a partial file.
-func writeAtomic(path string, write func(io.Writer) error) (err error) {
-	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp-*")
-	if err != nil {
-		return err
-	}
-	defer func() {
-		if err != nil {
-			_ = f.Close()
-			_ = os.Remove(f.Name())
-		}
-	}()
-	if err = write(f); err != nil {
-		return err
-	}
-	if err = f.Sync(); err != nil {
-		return err
-	}
-	if err = f.Close(); err != nil {
-		return err
-	}
-	return os.Rename(f.Name(), path)
 }

@@ -7,13 +7,13 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"path/filepath"
 	"strconv"
 	"strings"
 
 	"telltale/cnn"
 	"telltale/explain"
+	"telltale/internal/atomicfile"
 )
 
 // Table is a flat table for data-frame tools: one header, one row per record.
@@ -120,41 +120,14 @@ func WriteTableFile(path string, t *Table) error {
 	if err != nil {
 		return err
 	}
-	return writeAtomic(path, func(w io.Writer) error {
+	err = atomicfile.Write(path, func(w io.Writer) error {
 		if format == "csv" {
 			return t.WriteCSV(w)
 		}
 		return t.WriteJSONL(w)
 	})
-}
-
-// writeAtomic writes through a temporary file in the destination's folder,
-// synced and renamed over path, so a failure never leaves a partial file.
-func writeAtomic(path string, write func(io.Writer) error) (err error) {
-	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*.tmp")
 	if err != nil {
-		return fmt.Errorf("report: %s: %w (is the folder there and writable?)", path, err)
-	}
-	defer func() {
-		if err != nil {
-			f.Close()
-			os.Remove(f.Name())
-		}
-	}()
-	if err = write(f); err != nil {
-		return fmt.Errorf("report: writing %s: %w", path, err)
-	}
-	if err = f.Sync(); err != nil {
-		return fmt.Errorf("report: writing %s: %w", path, err)
-	}
-	if err = f.Chmod(0o644); err != nil {
-		return fmt.Errorf("report: writing %s: %w", path, err)
-	}
-	if err = f.Close(); err != nil {
-		return fmt.Errorf("report: writing %s: %w", path, err)
-	}
-	if err = os.Rename(f.Name(), path); err != nil {
-		return fmt.Errorf("report: cannot write %s: %w", path, err)
+		return fmt.Errorf("report: %w", err)
 	}
 	return nil
 }

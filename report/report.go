@@ -2,12 +2,14 @@ package report
 
 import (
 	"errors"
+	"fmt"
 	"io"
 	"time"
 
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
+	"telltale/internal/atomicfile"
 )
 
 const defaultBins = cnn.DefaultBins
@@ -108,5 +110,8 @@ func (r *Report) WriteHTML(w io.Writer) error {
 // same directory is written, synced and renamed over path, so a failure
 // never leaves a partial report behind.
 func WriteFile(path string, r *Report) error {
-	return writeAtomic(path, r.WriteHTML)
+	if err := atomicfile.Write(path, r.WriteHTML); err != nil {
+		return fmt.Errorf("report: %w", err)
+	}
+	return nil
 }

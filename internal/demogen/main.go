@@ -5,9 +5,12 @@ import (
 	"encoding/csv"
 	"flag"
 	"fmt"
+	"io"
 	"log"
 	"os"
 	"path/filepath"
+
+	"telltale/internal/atomicfile"
 )
 
 func main() {
@@ -44,7 +47,8 @@ func write(dir string) error {
 		if err != nil {
 			return fmt.Errorf("%s: %w", f.name, err)
 		}
-		if err := writeAtomic(filepath.Join(dir, f.name), b); err != nil {
+		err = atomicfile.Write(filepath.Join(dir, f.name), func(w io.Writer) error { _, err := w.Write(b); return err })
+		if err != nil {
 			return err
 		}
 	}
@@ -66,29 +70,4 @@ func encodeCSV(xs []example) ([]byte, error) {
 	}
 	w.Flush()
 	return buf.Bytes(), w.Error()
-}
-
-// writeAtomic writes data to a temporary file in the same folder and renames
-// it over path, so a reader never sees a half-written file.
-func writeAtomic(path string, data []byte) (err error) {
-	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp*")
-	if err != nil {
-		return err
-	}
-	defer func() {
-		if err != nil {
-			os.Remove(f.Name())
-		}
-	}()
-	if _, err = f.Write(data); err != nil {
-		f.Close()
-		return err
-	}
-	if err = f.Close(); err != nil {
-		return err
-	}
-	if err = os.Chmod(f.Name(), 0o644); err != nil {
-		return err
-	}
-	return os.Rename(f.Name(), path)
 }
