@@ -97,6 +97,7 @@ side by side.`,
 			var df dataFlags
 			df.register(fs, "not used by mask")
 			asJSON := fs.Bool("json", false, "print the comparison as one JSON object")
+			quiet := fs.Bool("quiet", false, "print nothing but errors (and --json output)")
 			return func(ctx context.Context, env *runEnv) error {
 				if *out == "" {
 					return usagef("--out is required: where to write the masked model")
@@ -125,11 +126,16 @@ side by side.`,
 				if err := masked.Save(*out); err != nil {
 					return err
 				}
-				fmt.Fprintf(env.Stderr, "masked filters %v; model written to %s (%s unchanged)\n", gs, *out, *modelPath)
+				if !*quiet {
+					fmt.Fprintf(env.Stderr, "masked filters %v; model written to %s (%s unchanged)\n", gs, *out, *modelPath)
+				}
 				if df.Data == "" {
+					if *asJSON {
+						return writeJSON(env.Stdout, map[string]any{"model": *out, "masked": gs})
+					}
 					return nil
 				}
-				ds, err := df.read(df.Data, env.Stderr, false)
+				ds, err := df.read(df.Data, env.Stderr, *quiet)
 				if err != nil {
 					return err
 				}
@@ -154,6 +160,7 @@ own tokenizer and vocabulary.`,
 			var df dataFlags
 			df.register(fs, "not used by compare")
 			asJSON := fs.Bool("json", false, "print the comparison as one JSON object")
+			quiet := fs.Bool("quiet", false, "print no warnings")
 			return func(ctx context.Context, env *runEnv) error {
 				paths := splitList(*models)
 				if len(paths) < 2 {
@@ -162,7 +169,7 @@ own tokenizer and vocabulary.`,
 				if df.Data == "" {
 					return usagef("--data is required: the labeled file to compare the models on")
 				}
-				ds, err := df.read(df.Data, env.Stderr, false)
+				ds, err := df.read(df.Data, env.Stderr, *quiet)
 				if err != nil {
 					return err
 				}

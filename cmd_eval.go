@@ -81,6 +81,7 @@ and the probability of each class.`,
 			text := fs.String("text", "", "the text to label (default: one text per line of standard input)")
 			asJSON := fs.Bool("json", false, "print one JSON object per text")
 			export := fs.String("export", "", "also write the predictions to this .csv or .jsonl file")
+			fs.Bool("quiet", false, "accepted for symmetry: predict prints no progress or warnings")
 			return func(ctx context.Context, env *runEnv) error {
 				if err := checkExport(*export); err != nil {
 					return err

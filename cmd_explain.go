@@ -109,6 +109,7 @@ on it, and never use a classifier alone for decisions about people.`,
 			asJSON := fs.Bool("json", false, "print one JSON object per text")
 			color := fs.String("color", "auto", "paint with colours: auto (when standard output is a terminal), always or never")
 			export := fs.String("export", "", "also write every token's attributions to this .csv or .jsonl file")
+			fs.Bool("quiet", false, "accepted for symmetry: explain prints no progress or warnings")
 			return func(ctx context.Context, env *runEnv) error {
 				if err := checkExport(*export); err != nil {
 					return err

@@ -30,6 +30,7 @@ the training file; --dev the held-out file (default: a stratified share of
 			skipAudit := fs.Bool("no-audit", false, "leave out the spurious-cue audit")
 			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
 			quiet := fs.Bool("quiet", false, "no progress bar or warnings")
+			asJSON := fs.Bool("json", false, "print where the report went as one JSON object")
 			return func(ctx context.Context, env *runEnv) error {
 				if *out == "" {
 					return usagef("--out is required: where to write the report, e.g. --out report.html")
@@ -53,8 +54,11 @@ the training file; --dev the held-out file (default: a stratified share of
 				if err := report.WriteFile(*out, r); err != nil {
 					return err
 				}
+				abs, _ := filepath.Abs(*out)
+				if *asJSON {
+					return writeJSON(env.Stdout, map[string]string{"report": abs})
+				}
 				if !*quiet {
-					abs, _ := filepath.Abs(*out)
 					fmt.Fprintf(env.Stderr, "report written to %s\n", abs)
 				}
 				return nil
