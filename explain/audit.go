@@ -51,6 +51,13 @@ type AuditOptions struct {
 	// Examples is the number of quoted examples behind each figure
 	// (default 3).
 	Examples int
+	// GroupJaccard is the least Jaccard index of two flagged words'
+	// training texts for them to join one cue group (default 0.8;
+	// GroupRule).
+	GroupJaccard float64
+	// ModelFile and HeldoutFile, when set, name the model and held-out
+	// files in the command WriteText suggests (else MODEL and HELDOUT).
+	ModelFile, HeldoutFile string
 	// Seed seeds the counterfactual draws.
 	Seed uint64
 	// Workers is the number of goroutines (0: GOMAXPROCS).
@@ -79,6 +86,9 @@ func (o *AuditOptions) defaults(train int) {
 	if o.NeutralZ <= 0 {
 		o.NeutralZ = 1
 	}
+	if o.GroupJaccard <= 0 || o.GroupJaccard > 1 {
+		o.GroupJaccard = 0.8
+	}
 }
 
 // AuditProgress is called during RunAudit with the stage ("profile",
@@ -90,7 +100,9 @@ type AuditProgress func(stage string, done, total int)
 const ScoreFormula = "score = flagged_share × max(0, harm), harm = conflict_share × conflict_gain: the share of the " +
 	"filter's above-threshold slot mass (training split) on flagged words, times how much masking the filter raises " +
 	"the gold label's probability on held-out texts where its cue points to another label, averaged over all " +
-	"held-out texts with the cue; ties are ranked by flagged_share × push"
+	"held-out texts with the cue; ties are ranked by flagged_share × push. The list is ordered by cue group (group_rule): " +
+	"the highest-scoring filter of each group with a positive group score, groups in order of their score, then the " +
+	"second of each, and so on; then the other filters by score"
 
 // Audit is the result of RunAudit: the words that predict a label by
 // themselves and the filters that lean on them, with the evidence.
@@ -115,6 +127,20 @@ type Audit struct {
 	Filters    []Suspect `json:"filters"`
 	Candidates int       `json:"candidates"`
 	Formula    string    `json:"score_formula"`
+	// CueGroups are the flagged words merged into artifacts with the
+	// filters keyed on them and their joint interventions, highest score
+	// first (GroupRule, GroupFormula): the first Top groups and any group
+	// of a listed suspect. Groups is how many groups have member filters.
+	CueGroups    []CueGroup `json:"cue_groups"`
+	Groups       int        `json:"groups"`
+	GroupRule    string     `json:"group_rule"`
+	GroupFormula string     `json:"group_formula"`
+	// Plan is the suggested mask (nil when no group's joint masking raises
+	// held-out accuracy).
+	Plan *MaskPlan `json:"suggested_mask"`
+	// ModelFile and HeldoutFile are AuditOptions' file names, if given.
+	ModelFile   string `json:"model_file,omitempty"`
+	HeldoutFile string `json:"heldout_file,omitempty"`
 }
 
 // FlaggedToken is a word whose dominant label's z passes the threshold.
@@ -147,6 +173,9 @@ type Suspect struct {
 	Label  string  `json:"label"`
 	Score  float64 `json:"score"`
 	Parts  Parts   `json:"parts"`
+	// Group is the 1-based position of its cue group in Audit.CueGroups
+	// (0: it joined none).
+	Group int `json:"cue_group"`
 	// Cues are its cue words: flagged words carrying most of its slot mass
 	// (the heaviest, then those of the same label with at least CueShare of
 	// the mass, at most MaxCues). The interventions act on them.
@@ -243,7 +272,11 @@ type Ablation struct {
 	DeltaMacroF1   float64 `json:"delta_macro_f1"`
 	Flipped        int     `json:"flipped"`
 	FlippedShare   float64 `json:"flipped_share"`
-	FlippedTexts   []int   `json:"flipped_texts,omitempty"` // held-out indices, at most 100
+	// Fixed and Broken count the flips that turn a wrong prediction right
+	// and a right one wrong.
+	Fixed        int   `json:"fixed"`
+	Broken       int   `json:"broken"`
+	FlippedTexts []int `json:"flipped_texts,omitempty"` // held-out indices, at most 100
 }
 
 // Conflict is the cue-conflicting subset: held-out texts that contain a cue
@@ -710,7 +743,8 @@ func (a *auditor) assemble(ctx context.Context) (*Audit, error) {
 	labels := audLabels(m)
 	out := &Audit{Labels: labels, TrainTexts: a.train.Len(), HeldoutTexts: a.held.Len(),
 		Prior: a.assoc.Prior, PriorKind: a.assoc.PriorKind, Alpha: a.assoc.Alpha, Tested: a.assoc.Tested,
-		Threshold: a.assoc.Threshold, Smoothing: a.assoc.Smoothing, Formula: ScoreFormula, Tokens: []FlaggedToken{}}
+		Threshold: a.assoc.Threshold, Smoothing: a.assoc.Smoothing, Formula: ScoreFormula, Tokens: []FlaggedToken{},
+		CueGroups: []CueGroup{}, GroupRule: GroupRule, GroupFormula: GroupFormula, ModelFile: a.opt.ModelFile, HeldoutFile: a.opt.HeldoutFile}
 	for _, s := range a.assoc.Stats {
 		if s.Flagged {
 			out.Tokens = append(out.Tokens, FlaggedToken{Token: s.Token, ID: s.ID, Count: s.Count, Label: s.Label,
@@ -745,14 +779,34 @@ func (a *auditor) assemble(ctx context.Context) (*Audit, error) {
 		}
 		return cmp.Compare(x.Filter, y.Filter)
 	})
-	sus = sus[:min(len(sus), a.opt.Top)]
+	groups, of := a.cueGroups(sus, base)
+	out.Groups = len(groups)
+	sus, of = roundRobin(sus, of, groups)
+	sus, of = sus[:min(len(sus), a.opt.Top)], of[:min(len(sus), a.opt.Top)]
+	// Keep the first Top groups and those of the listed suspects.
+	keep := make([]int, len(groups))
+	for G := range keep {
+		keep[G] = -1
+	}
+	for G := range groups {
+		if G < a.opt.Top || slices.Contains(of, G) {
+			keep[G] = len(out.CueGroups)
+			out.CueGroups = append(out.CueGroups, groups[G])
+		}
+	}
+	for i := range sus {
+		if of[i] >= 0 {
+			sus[i].Group = keep[of[i]] + 1
+		}
+	}
+	out.Plan = a.plan(out.CueGroups, base)
 	cache := map[string]*Counterfactual{}
 	cacheEx := map[string][]AuditExample{}
 	for i := range sus {
 		if err := ctx.Err(); err != nil {
 			return nil, err
 		}
-		a.progress("counterfactual", i, len(sus))
+		a.progress("counterfactual", i, len(sus)+min(len(out.CueGroups), groupCounterfactuals))
 		s := &sus[i]
 		ids := make([]int32, len(s.Cues))
 		for k, c := range s.Cues {
@@ -770,7 +824,25 @@ func (a *auditor) assemble(ctx context.Context) (*Audit, error) {
 		}
 		s.Examples.Counterfactual = cacheEx[key]
 	}
-	a.progress("counterfactual", len(sus), len(sus))
+	ng := min(len(out.CueGroups), groupCounterfactuals)
+	for i := range ng {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		a.progress("counterfactual", len(sus)+i, len(sus)+ng)
+		cg := &out.CueGroups[i]
+		key := fmt.Sprint(cg.IDs)
+		cf, ok := cache[key]
+		if !ok {
+			cf, cacheEx[key] = a.counterfactual(ctx, cg.IDs)
+			cache[key] = cf
+		}
+		if cf != nil {
+			cp := *cf
+			cg.Counter = &cp
+		}
+	}
+	a.progress("counterfactual", len(sus)+ng, len(sus)+ng)
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -926,7 +998,13 @@ func (a *auditor) intervene(gs []int, cues []int32, cueClass int, base cnn.Metri
 	z, p, q := make([]float64, a.C), make([]float64, a.C), make([]float64, a.C)
 	for i := range a.pred {
 		a.ablatedSet(i, gs, z)
-		if audArgmax(z) != a.pred[i] {
+		if after := audArgmax(z); after != a.pred[i] {
+			switch gold := a.held.Gold[i]; gold {
+			case after:
+				iv.ablation.Fixed++
+			case a.pred[i]:
+				iv.ablation.Broken++
+			}
 			iv.ablation.Flipped++
 			if len(iv.ablation.FlippedTexts) < 100 {
 				iv.ablation.FlippedTexts = append(iv.ablation.FlippedTexts, i)
