@@ -138,6 +138,9 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	if !opt.SkipAudit {
 		aopt := opt.Audit
 		aopt.Profiles = prof
+		if aopt.ModelFile == "" {
+			aopt.ModelFile = opt.ModelPath
+		}
 		if aopt.Workers == 0 {
 			aopt.Workers = opt.Threads
 		}

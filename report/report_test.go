@@ -84,6 +84,29 @@ func TestDemoSections(t *testing.T) {
 			t.Errorf("suspect heading %q missing", w)
 		}
 	}
+	// The cue groups: one row per group shown, with its score and parts,
+	// and the command that masks the suggested (or strongest) filters.
+	if len(a.CueGroups) == 0 {
+		t.Fatal("the audit formed no cue group")
+	}
+	for G, cg := range a.CueGroups[:min(groupsShown, len(a.CueGroups))] {
+		w := fmt.Sprintf(`<tr><td class="num">%d</td><td>“%s”`, G+1, cg.Words[0])
+		w2 := fmt.Sprintf(`<td class="num">%s = %s × %s</td>`, num(cg.Score), pct(cg.Parts.FlaggedShare), num(max(0, cg.Parts.Harm)))
+		if !strings.Contains(out, w) || !strings.Contains(out, w2) {
+			t.Errorf("cue group %d row (%q … %q) missing", G+1, w, w2)
+		}
+	}
+	fs := a.CueGroups[0].Mask
+	if a.Plan != nil {
+		fs = a.Plan.Filters
+	}
+	var ids []string
+	for _, f := range fs {
+		ids = append(ids, fmt.Sprint(f))
+	}
+	if w := "telltale mask --model demo.model --filters " + strings.Join(ids, ",") + " --out demo.model-masked.tt --data HELDOUT"; !strings.Contains(out, w) {
+		t.Errorf("mask command %q missing", w)
+	}
 	if got, want := strings.Count(out, `<div class="suspect">`), min(suspectsShown, len(a.Filters)); got != want {
 		t.Errorf("%d suspects shown, want %d", got, want)
 	}
