@@ -167,6 +167,17 @@ func moves(from, to float64, digits int) string {
 	return fmt.Sprintf("%s it from %.*f to %.*f", verb, digits, from, digits, to)
 }
 
+// Story is the opening of WriteText: in plain words, the cue groups the
+// model leans on, their filters, what masking them changes, and the
+// command that does it.
+func (a *Audit) Story() string {
+	var sb strings.Builder
+	bw := bufio.NewWriter(&sb)
+	a.writeStory(bw)
+	bw.Flush()
+	return strings.TrimSpace(sb.String())
+}
+
 // writeStory tells, in plain words, which cue groups the model leans on and
 // what masking their filters changes.
 func (a *Audit) writeStory(w *bufio.Writer) {

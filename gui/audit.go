@@ -225,6 +225,60 @@ const (
 	colMask = 0
 )
 
+// Columns of the cue-group table.
+var (
+	groupCols = []string{"#", "cue words", "label", "training texts", "filters", "score", "flagged share", "harm",
+		"all masked: accuracy", "cue-conflicting: accuracy", "strongest", "strongest masked: accuracy"}
+	groupWidths = []float32{36, 220, 104, 100, 60, 64, 96, 64, 150, 170, 70, 180}
+)
+
+// groupRows lists the audit's cue groups in their order, every number as
+// the audit computed it.
+func groupRows(a *auditState) [][]string {
+	if a == nil {
+		return nil
+	}
+	var rows [][]string
+	for G, cg := range a.A.CueGroups {
+		conf := "—"
+		if cg.Conflict.Texts > 0 {
+			conf = fmt.Sprintf("%.3f → %.3f (%d texts)", cg.Conflict.Accuracy, cg.Conflict.AccuracyMasked, cg.Conflict.Texts)
+		}
+		rows = append(rows, []string{fmt.Sprint(G + 1), strings.Join(cg.Words, " "), cg.Label,
+			fmt.Sprintf("%d (%.0f%%)", cg.TrainTexts, 100*cg.LabelShare), fmt.Sprint(len(cg.Filters)), fmt.Sprintf("%.4f", cg.Score),
+			fmt.Sprintf("%.3f", cg.Parts.FlaggedShare), fmt.Sprintf("%+.4f", cg.Parts.Harm),
+			fmt.Sprintf("%.4f → %.4f", cg.Ablation.Accuracy, cg.Ablation.AccuracyMasked), conf, fmt.Sprint(len(cg.Mask)),
+			fmt.Sprintf("%.4f → %.4f (p %.2g)", cg.MaskAblation.Accuracy, cg.MaskAblation.AccuracyMasked, cg.MaskP)})
+	}
+	return rows
+}
+
+// groupStory describes cue group G (0-based) in a sentence, from the
+// audit's numbers.
+func groupStory(a *auditState, G int) string {
+	cg := &a.A.CueGroups[G]
+	s := fmt.Sprintf("Group %d: %s (%d training texts, %.0f%% %s) — %d filters key on it: %s. Masking all of them: held-out accuracy %.4f → %.4f",
+		G+1, strings.Join(cg.Words, ", "), cg.TrainTexts, 100*cg.LabelShare, cg.Label, len(cg.Filters), intList(cg.Filters),
+		cg.Ablation.Accuracy, cg.Ablation.AccuracyMasked)
+	if cg.Conflict.Texts > 0 {
+		s += fmt.Sprintf(", and %.3f → %.3f on the %d held-out texts where the cue points away from the gold label", cg.Conflict.Accuracy, cg.Conflict.AccuracyMasked, cg.Conflict.Texts)
+	}
+	s += fmt.Sprintf(". Its strongest %d (%s): %.4f → %.4f (one-sided exact McNemar p = %.2g).", len(cg.Mask), intList(cg.Mask),
+		cg.MaskAblation.Accuracy, cg.MaskAblation.AccuracyMasked, cg.MaskP)
+	if len(cg.Shared) > 0 {
+		s += " Words that come with it and count as nobody's cue: " + strings.Join(cg.Shared, " ") + "."
+	}
+	return s
+}
+
+func intList(gs []int) string {
+	s := make([]string, len(gs))
+	for i, g := range gs {
+		s[i] = fmt.Sprint(g)
+	}
+	return strings.Join(s, ", ")
+}
+
 // auditView: the ranked suspects with every part of their score, the
 // evidence of the selected one, the flagged tokens, and masking with the
 // before/after comparison.
@@ -251,6 +305,12 @@ func auditView(st *State) fyne.CanvasObject {
 
 	suspects := newSheet(suspectCols, suspectWidths)
 	flagged := newSheet(flaggedCols, flaggedWidths)
+	groups := newSheet(groupCols, groupWidths)
+	story := widget.NewLabel("Run the audit to see the cue groups: flagged words that travel together and the filters keyed on them.")
+	story.Wrapping = fyne.TextWrapWord
+	groupNote := widget.NewLabel("Select a group to see what masking its filters changes.")
+	groupNote.Wrapping = fyne.TextWrapWord
+	selGroup := -1
 
 	// Evidence of the selected suspect.
 	title := widget.NewLabelWithStyle("Select a suspect to see its evidence; tap its mask cell to tick it.", fyne.TextAlignLeading, fyne.TextStyle{Bold: true})
@@ -364,6 +424,47 @@ func auditView(st *State) fyne.CanvasObject {
 		}
 		remask()
 	}
+	// tickMore adds filters to the ticked ones and masks them all.
+	tickMore := func(gs []int) {
+		for _, g := range gs {
+			ticked[g] = true
+		}
+		remask()
+	}
+	tickStrongest := widget.NewButton("Tick its strongest filters", func() {
+		if a := itemGet(st.audit); a != nil && selGroup >= 0 && selGroup < len(a.A.CueGroups) {
+			tickMore(a.A.CueGroups[selGroup].Mask)
+		}
+	})
+	tickAll := widget.NewButton("Tick all its filters", func() {
+		if a := itemGet(st.audit); a != nil && selGroup >= 0 && selGroup < len(a.A.CueGroups) {
+			tickMore(a.A.CueGroups[selGroup].Filters)
+		}
+	})
+	tickPlan := widget.NewButton("Tick the suggested mask", func() {
+		if a := itemGet(st.audit); a != nil && a.A.Plan != nil {
+			tickMore(a.A.Plan.Filters)
+		}
+	})
+	untick := widget.NewButton("Untick all", func() { st.maskTicks(nil) })
+	for _, b := range []*widget.Button{tickStrongest, tickAll, tickPlan} {
+		b.Disable()
+	}
+	showGroup := func(G int) {
+		a := itemGet(st.audit)
+		if a == nil || G < 0 || G >= len(a.A.CueGroups) {
+			selGroup = -1
+			groupNote.SetText("Select a group to see what masking its filters changes.")
+			tickStrongest.Disable()
+			tickAll.Disable()
+			return
+		}
+		selGroup = G
+		groupNote.SetText(groupStory(a, G))
+		tickStrongest.Enable()
+		tickAll.Enable()
+	}
+	groups.onSelect = showGroup
 
 	suspectRows = func() {
 		a := itemGet(st.audit)
@@ -462,9 +563,25 @@ func auditView(st *State) fyne.CanvasObject {
 			summary.SetText("Run the audit to rank the filters that may key on spurious cues (Run › Run the audit).")
 			formula.SetText("")
 			flagged.setRows(nil)
+			groups.setRows(nil)
+			story.SetText("Run the audit to see the cue groups: flagged words that travel together and the filters keyed on them.")
+			tickPlan.Disable()
+			showGroup(-1)
 			return
 		}
 		au := a.A
+		groups.setRows(groupRows(a))
+		story.SetText(au.Story())
+		if au.Plan != nil {
+			tickPlan.Enable()
+		} else {
+			tickPlan.Disable()
+		}
+		if len(au.CueGroups) > 0 {
+			groups.selectRow(0)
+		} else {
+			showGroup(-1)
+		}
 		summary.SetText(fmt.Sprintf("%d of %d tested tokens flagged on %d training texts (one-sided z above %.2f: family-wise level %g, Bonferroni over %d tokens, %s prior). "+
 			"%d filters scored; the top %d listed. Held-out split (%d texts) as trained: accuracy %.4f, macro-F1 %.4f.",
 			len(au.Tokens), au.Tested, au.TrainTexts, au.Threshold, au.Alpha, au.Tested, au.PriorKind,
@@ -520,7 +637,10 @@ func auditView(st *State) fyne.CanvasObject {
 	maskPane := container.NewBorder(container.NewBorder(nil, nil, nil, save, maskNote), nil, nil, nil, compare.table)
 	right := container.NewVSplit(container.NewBorder(title, nil, nil, nil, evidence), maskPane)
 	right.Offset = 0.7
+	cuesPane := container.NewBorder(
+		container.NewVBox(story, groupNote, container.NewHBox(tickStrongest, tickAll, tickPlan, untick)), nil, nil, nil, groups.table)
 	lists := container.NewAppTabs(
+		container.NewTabItem("Cues", cuesPane),
 		container.NewTabItem("Suspects", suspects.table),
 		container.NewTabItem("Flagged tokens", flagged.table),
 		container.NewTabItem("All filters", allChecks),

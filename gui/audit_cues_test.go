@@ -1,0 +1,50 @@
+//go:build ci
+
+package gui
+
+import (
+	"strings"
+	"testing"
+
+	"telltale/explain"
+)
+
+// The Cues tab lists every cue group with the numbers the audit computed,
+// in the audit's order, and tells the selected group's story from them.
+func TestGroupRows(t *testing.T) {
+	a := &explain.Audit{CueGroups: []explain.CueGroup{
+		{Words: []string{"kioskmail", "sent", "via"}, Label: "lost-property", TrainTexts: 783, LabelShare: 0.74,
+			Filters: []int{60, 241, 231}, Score: 0.096, Parts: explain.GroupParts{FlaggedShare: 0.936, Harm: 0.1025},
+			Ablation: explain.Ablation{Accuracy: 0.84375, AccuracyMasked: 0.85125},
+			Conflict: explain.Conflict{Texts: 278, Accuracy: 0.813, AccuracyMasked: 0.903},
+			Mask:     []int{60, 241}, MaskAblation: explain.Ablation{Accuracy: 0.84375, AccuracyMasked: 0.865}, MaskP: 0.0012,
+			Shared: []string{"-"}},
+		{Words: []string{"left"}, Label: "lost-property", TrainTexts: 348, LabelShare: 0.57, Filters: []int{111},
+			Mask: []int{111}, Ablation: explain.Ablation{Accuracy: 0.84375, AccuracyMasked: 0.8463}},
+	}}
+	as := newAuditState(a, nil, nil)
+	rows := groupRows(as)
+	if len(rows) != 2 || len(rows[0]) != len(groupCols) {
+		t.Fatalf("rows %v, want 2 rows of %d cells", rows, len(groupCols))
+	}
+	want := []string{"1", "kioskmail sent via", "lost-property", "783 (74%)", "3", "0.0960", "0.936", "+0.1025",
+		"0.8438 → 0.8512", "0.813 → 0.903 (278 texts)", "2", "0.8438 → 0.8650 (p 0.0012)"}
+	for c, w := range want {
+		if rows[0][c] != w {
+			t.Errorf("column %q = %q, want %q", groupCols[c], rows[0][c], w)
+		}
+	}
+	if rows[1][0] != "2" || rows[1][9] != "—" {
+		t.Errorf("second row %v: want rank 2 and no cue-conflicting texts", rows[1])
+	}
+	s := groupStory(as, 0)
+	for _, w := range []string{"Group 1: kioskmail, sent, via", "3 filters key on it: 60, 241, 231", "0.8438 → 0.8512",
+		"0.813 → 0.903 on the 278 held-out texts", "strongest 2 (60, 241): 0.8438 → 0.8650", "nobody's cue: -"} {
+		if !strings.Contains(s, w) {
+			t.Errorf("story %q lacks %q", s, w)
+		}
+	}
+	if groupRows(nil) != nil {
+		t.Error("rows without an audit")
+	}
+}
