@@ -345,9 +345,14 @@ type AuditExample struct {
 // subtracts OutW[c][g]·h[g] from each logit, the identity of the model's
 // layout, so no re-run is needed; a test checks it against Model.Masked),
 // the push toward the cue's label and the harm on the cue-conflicting
-// subset; (4) the
-// ranking by Score (ScoreFormula) and, for the Top suspects, counterfactual
-// substitution of their cue words by label-neutral words.
+// subset; (4) cue groups (GroupRule): flagged words merged by the overlap
+// of their training texts, each scored filter joined to the group it keys
+// on, and per group the joint intervention of all its filters masked
+// together (GroupFormula), the prefix of its strongest filters that masks
+// best, and a suggested mask (MaskPlan); (5) the ranking of the suspects
+// round robin over the groups (ScoreFormula) and, for the Top suspects and
+// the first groups, counterfactual substitution of their cue words by
+// label-neutral words.
 func RunAudit(ctx context.Context, m *cnn.Model, train, heldout AuditData, opt AuditOptions, progress AuditProgress) (*Audit, error) {
 	if err := m.Config.Validate(); err != nil {
 		return nil, err
