@@ -30,14 +30,20 @@ label. Suspects are ranked by a score whose every part is shown.`,
 			var df dataFlags
 			df.register(fs, "held-out file for the interventions (default: a stratified share of --data)")
 			modelPath := fs.String("model", "", "model file written by train")
-			top := fs.Int("top", 10, "suspect filters reported")
+			top := fs.Int("top", 10, "suspect filters reported (taken in turn from the cue groups, strongest group first)")
 			asJSON := fs.Bool("json", false, "print the audit as one JSON object")
 			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
 			quiet := fs.Bool("quiet", false, "no progress bar or warnings")
-			export := fs.String("export", "", "also write the suspect filters to this .csv or .jsonl file (and the flagged tokens beside it, NAME.tokens.csv)")
+			maskedOut := fs.String("masked-out", "", "also write a copy of the model with the audit's suggested filters masked to this file")
+			export := fs.String("export", "", "also write the suspect filters to this .csv or .jsonl file (and beside it the flagged tokens, NAME.tokens.csv, and the cue groups, NAME.groups.csv)")
 			return func(ctx context.Context, env *runEnv) error {
 				if err := checkExport(*export); err != nil {
 					return err
+				}
+				if *maskedOut != "" {
+					if same, _ := samePath(*maskedOut, *modelPath); same {
+						return usagef("--masked-out %s is the input model: give a new file name, the original is never overwritten", *maskedOut)
+					}
 				}
 				m, _, err := openModel(*modelPath)
 				if err != nil {
@@ -60,7 +66,8 @@ label. Suspects are ranked by a score whose every part is shown.`,
 					return err
 				}
 				bar := newProgressBar(env.Stderr, *quiet)
-				a, err := explain.RunAudit(ctx, m, trainData, heldData, explain.AuditOptions{Top: *top, Seed: df.Seed, Workers: *threads},
+				a, err := explain.RunAudit(ctx, m, trainData, heldData, explain.AuditOptions{Top: *top, Seed: df.Seed, Workers: *threads,
+					ModelFile: *modelPath, HeldoutFile: df.Dev},
 					func(stage string, done, total int) { bar.show(done, total, stage, false) })
 				bar.done()
 				if err != nil {
@@ -71,8 +78,27 @@ label. Suspects are ranked by a score whose every part is shown.`,
 						return err
 					}
 					ext := filepath.Ext(*export)
-					if err := report.WriteTableFile(strings.TrimSuffix(*export, ext)+".tokens"+ext, report.TokenTable(a)); err != nil {
+					base := strings.TrimSuffix(*export, ext)
+					if err := report.WriteTableFile(base+".tokens"+ext, report.TokenTable(a)); err != nil {
 						return err
+					}
+					if err := report.WriteTableFile(base+".groups"+ext, report.CueGroupTable(a)); err != nil {
+						return err
+					}
+				}
+				if *maskedOut != "" {
+					if a.Plan == nil || len(a.Plan.Filters) == 0 {
+						return fmt.Errorf("the audit suggests no filters to mask, so %s was not written", *maskedOut)
+					}
+					masked, err := explain.MaskFilters(m, a.Plan.Filters)
+					if err != nil {
+						return err
+					}
+					if err := masked.Save(*maskedOut); err != nil {
+						return err
+					}
+					if !*quiet {
+						fmt.Fprintf(env.Stderr, "model with the %d suggested filters masked written to %s\n", len(a.Plan.Filters), *maskedOut)
 					}
 				}
 				if *asJSON {

@@ -272,3 +272,28 @@ func joinFloats(xs []float64) string {
 	}
 	return strings.Join(parts, " ")
 }
+
+// CueGroupTable has one row per cue group of an audit, strongest first: its
+// words (space-separated), label, training and held-out texts holding them,
+// score, its filters (space-separated), the held-out accuracy with all of
+// them masked and with only its strongest ones (mask) masked, the accuracy
+// on its cue-conflicting texts likewise, and the mask's McNemar p-value.
+func CueGroupTable(a *explain.Audit) *Table {
+	t := &Table{Columns: []string{"rank", "words", "label", "label_share", "train_texts", "heldout_texts", "score",
+		"filters", "accuracy", "accuracy_all_masked", "conflict_texts", "conflict_accuracy", "conflict_accuracy_all_masked",
+		"mask", "accuracy_mask", "conflict_accuracy_mask", "mask_p"}}
+	for i, g := range a.CueGroups {
+		t.Add(i+1, strings.Join(g.Words, " "), g.Label, g.LabelShare, g.TrainTexts, g.HeldoutTexts, g.Score,
+			joinInts(g.Filters), g.Ablation.Accuracy, g.Ablation.AccuracyMasked, g.Conflict.Texts, g.Conflict.Accuracy,
+			g.Conflict.AccuracyMasked, joinInts(g.Mask), g.MaskAblation.AccuracyMasked, g.MaskConflict.AccuracyMasked, g.MaskP)
+	}
+	return t
+}
+
+func joinInts(xs []int) string {
+	parts := make([]string, len(xs))
+	for i, x := range xs {
+		parts[i] = strconv.Itoa(x)
+	}
+	return strings.Join(parts, " ")
+}

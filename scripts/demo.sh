@@ -17,12 +17,9 @@ step "Evaluate on the test split, where the cues are spread evenly" \
   "$tt" eval --model "$out/ferry.tt" --data testdata/demo/test.csv
 step "Why does a message get its label? (exact shares of the predicted logit)" \
   "$tt" explain --model "$out/ferry.tt" --text "The deckhand was not friendly at all and my refund never came."
-step "Audit the filters for spurious cues" \
-  "$tt" audit --model "$out/ferry.tt" --data testdata/demo/train.csv --dev testdata/demo/test.csv --top 5 --export "$out/suspects.csv"
-# The first two columns of the suspects table are the rank and the filter.
-suspects=$(awk -F, 'NR > 1 && NR <= 6 { print $2 }' "$out/suspects.csv" | paste -sd, -)
-step "Mask the top suspects and compare both models on the test split" \
-  "$tt" mask --model "$out/ferry.tt" --filters "$suspects" --out "$out/ferry-masked.tt" --data testdata/demo/test.csv
+step "Audit the filters for spurious cues (and save a copy with the suggested filters masked)" \
+  "$tt" audit --model "$out/ferry.tt" --data testdata/demo/train.csv --dev testdata/demo/test.csv --top 5 \
+  --export "$out/suspects.csv" --masked-out "$out/ferry-masked.tt"
 step "Retrain with the two cues taken out of the training text, and compare the three models" \
   "$tt" train --data testdata/demo/train.csv --out "$out/ferry-clean.tt" --epochs 8 --mask-tokens testdata/demo/cues.txt --quiet
 "$tt" compare --models "$out/ferry.tt,$out/ferry-masked.tt,$out/ferry-clean.tt" --data testdata/demo/test.csv
