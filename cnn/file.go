@@ -197,12 +197,26 @@ func decode(data []byte) (*Model, error) {
 	if err := cfg.Validate(); err != nil {
 		return nil, fmt.Errorf("header: %v", err)
 	}
-	// Every product below is of two values already bounded by the file
-	// length, so none overflows, and the weights they count must fit in it.
-	n := len(data)
-	if cfg.VocabSize > n || cfg.Dim > n || cfg.Filters > n || cfg.Classes > n || len(cfg.Widths) > n ||
-		cfg.VocabSize*cfg.Dim > n || cfg.Filters*cfg.Dim*32 > n || cfg.Classes*cfg.Filters > n ||
-		cfg.Classes*cfg.Filters*len(cfg.Widths) > n || cfg.Filters*cfg.Dim*32*len(cfg.Widths) > n {
+	// The weights the header's sizes call for must fit in the file (four
+	// bytes each); each product is checked before it is formed, so none
+	// overflows and nothing is allocated for an impossible header.
+	limit := len(data) / 4
+	fits := func(a, b int) (int, bool) {
+		if a != 0 && b > limit/a {
+			return 0, false
+		}
+		return a * b, true
+	}
+	widthSum := 0
+	for _, w := range cfg.Widths {
+		widthSum += w // each width is at most 32 (Validate)
+	}
+	emb, ok1 := fits(cfg.VocabSize, cfg.Dim)
+	fd, ok2 := fits(cfg.Filters, cfg.Dim)
+	conv, ok3 := fits(fd, widthSum)
+	nf, ok4 := fits(cfg.Filters, len(cfg.Widths))
+	out, ok5 := fits(cfg.Classes, nf)
+	if !ok1 || !ok2 || !ok3 || !ok4 || !ok5 || emb > limit || conv > limit || out > limit || emb+conv+out > limit {
 		return nil, fmt.Errorf("header: sizes larger than the file: the file is corrupted")
 	}
 	if want := numWeights(cfg); uint64(want) != nw {

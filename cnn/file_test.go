@@ -118,3 +118,25 @@ func FuzzLoad(f *testing.F) {
 		}
 	})
 }
+
+// TestSmallVocabularyRoundTrip: a model whose embedding table is small next
+// to its filters (a tiny vocabulary with the default architecture) saves and
+// loads.
+func TestSmallVocabularyRoundTrip(t *testing.T) {
+	words := []string{"<pad>", "<unk>", "ferry", "late"}
+	m, err := New(Config{VocabSize: len(words), Dim: 128, Widths: []int{3, 4, 5}, Filters: 100, Classes: 2}, words, []string{"a", "b"}, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	p := filepath.Join(t.TempDir(), "small.tt")
+	if err := m.Save(p); err != nil {
+		t.Fatal(err)
+	}
+	got, err := Load(p)
+	if err != nil {
+		t.Fatalf("loading a small-vocabulary model: %v", err)
+	}
+	if got.Config.VocabSize != 4 || len(got.Convs) != 3 || got.Convs[2].W[7] != m.Convs[2].W[7] {
+		t.Fatal("round trip changed the model")
+	}
+}
