@@ -201,10 +201,17 @@ own tokenizer and vocabulary.`,
 				}
 				rows := make([]compareRow, 0, len(paths))
 				var first []int
+				var labels []string
 				for i, p := range paths {
 					m, enc, err := openModel(p)
 					if err != nil {
 						return err
+					}
+					if i == 0 {
+						labels = m.Labels
+					} else if strings.Join(m.Labels, "\x00") != strings.Join(labels, "\x00") {
+						return usagef("%s has the labels %s but %s has %s: compare needs models with the same labels in the same order",
+							p, strings.Join(m.Labels, ", "), paths[0], strings.Join(labels, ", "))
 					}
 					data, err := cnn.EncodeDataset(enc, ds, m.Labels, 0)
 					if err != nil {

@@ -6,6 +6,8 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"slices"
+	"strings"
 
 	"telltale/corpus"
 )
@@ -77,11 +79,11 @@ func (d *dataFlags) read(path string, warn io.Writer, quiet bool) (*corpus.Datas
 	if !quiet {
 		printWarnings(warn, warnings)
 	}
-	return prepare(ds), nil
+	return prepare(ds)
 }
 
 // preparer returns what --relabel and --mail do to a dataset.
-func (d *dataFlags) preparer() (func(*corpus.Dataset) *corpus.Dataset, error) {
+func (d *dataFlags) preparer() (func(*corpus.Dataset) (*corpus.Dataset, error), error) {
 	relabel, err := parseRelabel(d.Relabel)
 	if err != nil {
 		return nil, err
@@ -94,14 +96,20 @@ func (d *dataFlags) preparer() (func(*corpus.Dataset) *corpus.Dataset, error) {
 	default:
 		return nil, usagef("--mail %q: the one choice is subject-body", d.Mail)
 	}
-	return func(ds *corpus.Dataset) *corpus.Dataset {
+	return func(ds *corpus.Dataset) (*corpus.Dataset, error) {
 		if relabel != nil {
+			for from := range relabel {
+				// Checked on --data only: a held-out file may lack some labels.
+				if ds.Path == d.Data && !slices.Contains(ds.Labels, from) {
+					return nil, usagef("--relabel: %s has no label %q; its labels are %s", ds.Path, from, strings.Join(ds.Labels, ", "))
+				}
+			}
 			ds = ds.Relabel(relabel)
 		}
 		if text != nil {
 			ds = ds.MapTexts(text)
 		}
-		return ds
+		return ds, nil
 	}, nil
 }
 

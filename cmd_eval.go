@@ -26,13 +26,16 @@ calibration error over equal-width confidence bins.`,
 			df.register(fs, "not used by eval")
 			modelPath := fs.String("model", "", "model file written by train")
 			asJSON := fs.Bool("json", false, "print the metrics as one JSON object")
-			bins := fs.Int("bins", cnn.DefaultBins, "equal-width bins for the calibration error")
+			bins := fs.Int("bins", cnn.DefaultBins, "equal-width bins for the calibration error (1 or more)")
 			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
 			quiet := fs.Bool("quiet", false, "print no warnings")
 			export := fs.String("export", "", "also write every prediction with its probabilities to this .csv or .jsonl file")
 			return func(ctx context.Context, env *runEnv) error {
 				if err := checkExport(*export); err != nil {
 					return err
+				}
+				if *bins < 1 {
+					return usagef("--bins %d: give at least 1 bin", *bins)
 				}
 				m, enc, err := openModel(*modelPath)
 				if err != nil {
@@ -74,8 +77,8 @@ calibration error over equal-width confidence bins.`,
 		Name:      "predict",
 		UsageLine: "predict --model MODEL [--text \"...\"] [--json]     (without --text: one text per stdin line)",
 		Short:     "label new text with a saved model",
-		Long: `Predict labels --text, or every line of standard input, and prints the label
-and the probability of each class.`,
+		Long: `Predict labels --text, or every line of standard input (blank lines are
+skipped), and prints the label and the probability of each class.`,
 		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
 			modelPath := fs.String("model", "", "model file written by train")
 			text := fs.String("text", "", "the text to label (default: one text per line of standard input)")
@@ -103,7 +106,10 @@ and the probability of each class.`,
 					return writePrediction(env.Stdout, m, t, out[0].Probs, *asJSON)
 				}
 				var err2 error
-				if *text != "" {
+				if isSet(fs, "text") {
+					if strings.TrimSpace(*text) == "" {
+						return usagef("--text is empty: give a text, or leave --text out to read one text per line of standard input")
+					}
 					err2 = emit(*text)
 				} else {
 					err2 = eachLine(ctx, env.Stdin, emit)

@@ -35,7 +35,7 @@ idle.`,
 			df.register(fs, "not used by filters")
 			modelPath := fs.String("model", "", "model file written by train")
 			top := fs.Int("top", 10, "n-grams shown per filter")
-			only := fs.Int("filter", -1, "show only this filter")
+			only := fs.Int("filter", -1, "show only this filter (default: all)")
 			purity := fs.Float64("purity", 0.5, "share of the purity threshold")
 			asJSON := fs.Bool("json", false, "print the profiles as one JSON object")
 			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
@@ -44,6 +44,12 @@ idle.`,
 			return func(ctx context.Context, env *runEnv) error {
 				if err := checkExport(*export); err != nil {
 					return err
+				}
+				if *purity <= 0 || *purity > 1 {
+					return usagef("--purity %g: a share between 0 (exclusive) and 1", *purity)
+				}
+				if *only < -1 || *top < 1 {
+					return usagef("--filter is a filter number (0 or more) and --top at least 1")
 				}
 				m, enc, err := openModel(*modelPath)
 				if err != nil {
@@ -105,7 +111,7 @@ on it, and never use a classifier alone for decisions about people.`,
 			text := fs.String("text", "", "the text to explain (default: one text per line of standard input)")
 			method := fs.String("method", "exact", "attribution painted in the terminal: exact, occlusion or ig")
 			class := fs.String("class", "", "class whose attribution is painted (default: the predicted one)")
-			windows := fs.String("windows", "", "also occlude every n-gram window of these widths, e.g. 2,3")
+			windows := fs.String("windows", "", "also occlude every n-gram window of these widths, e.g. 2,3 (in the text output and --json)")
 			asJSON := fs.Bool("json", false, "print one JSON object per text")
 			color := fs.String("color", "auto", "paint with colours: auto (when standard output is a terminal), always or never")
 			export := fs.String("export", "", "also write every token's attributions to this .csv or .jsonl file")
@@ -122,6 +128,14 @@ on it, and never use a classifier alone for decisions about people.`,
 				ws, err := parseInts(*windows, "windows")
 				if err != nil {
 					return err
+				}
+				for _, w := range ws {
+					if w < 1 {
+						return usagef("--windows %q: widths are 1 or more", *windows)
+					}
+				}
+				if *method == explain.MethodOcclusion && *class != "" {
+					return usagef("--class with --method occlusion: occlusion measures the predicted class only; use --method exact or ig to choose a class")
 				}
 				m, enc, err := openModel(*modelPath)
 				if err != nil {
@@ -148,6 +162,10 @@ on it, and never use a classifier alone for decisions about people.`,
 				var all []*explain.Explanation
 				one := func(t string) error {
 					toks, ids := enc.Encode(t)
+					cut := 0
+					if enc.MaxTokens > 0 {
+						cut = max(0, len(enc.Tok.TokenizeFor(enc.Vocab, t))-len(toks))
+					}
 					e, err := explain.Explain(m, toks, ids, opt)
 					if err != nil {
 						return err
@@ -156,16 +174,25 @@ on it, and never use a classifier alone for decisions about people.`,
 						all = append(all, e)
 					}
 					if *asJSON {
-						b, err := jsonLine(e)
+						b, err := jsonLine(struct {
+							*explain.Explanation
+							CutTokens int `json:"cut_tokens"`
+						}{e, cut})
 						if err != nil {
 							return err
 						}
 						_, err = env.Stdout.Write(b)
 						return err
 					}
+					if cut > 0 {
+						fmt.Fprintf(env.Stdout, "(the model reads the first %d tokens; the last %d are not explained)\n", len(toks), cut)
+					}
 					return writeExplanation(env.Stdout, t, e, *method, cls, paint)
 				}
-				if *text != "" {
+				if isSet(fs, "text") {
+					if strings.TrimSpace(*text) == "" {
+						return usagef("--text is empty: give a text, or leave --text out to read one text per line of standard input")
+					}
 					err = one(*text)
 				} else {
 					err = eachLine(ctx, env.Stdin, one)
@@ -191,7 +218,7 @@ more on this model.`,
 			var df dataFlags
 			df.register(fs, "not used by faithfulness")
 			modelPath := fs.String("model", "", "model file written by train")
-			limit := fs.Int("limit", 2000, "score at most this many texts (0: all)")
+			limit := fs.Int("limit", 2000, "score a seeded, stratified sample of at most this many texts (0: all)")
 			asJSON := fs.Bool("json", false, "print the scores as one JSON object")
 			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
 			quiet := fs.Bool("quiet", false, "no progress bar or warnings")
@@ -211,11 +238,18 @@ more on this model.`,
 				if err != nil {
 					return err
 				}
+				if *limit < 0 {
+					return usagef("--limit %d: 0 (all texts) or more", *limit)
+				}
 				if *limit > 0 && data.Len() > *limit {
-					data = cnn.Data{IDs: data.IDs[:*limit], Labels: data.Labels[:*limit]}
+					// A seeded, stratified sample, not the first texts of the file.
+					sample, _ := ds.Split(1-float64(*limit)/float64(data.Len()), df.Seed)
+					if data, err = cnn.EncodeDataset(enc, sample, m.Labels, *threads); err != nil {
+						return err
+					}
 				}
 				bar := newProgressBar(env.Stderr, *quiet)
-				r, err := explain.Faithfulness(ctx, m, data.IDs, data.Labels, explain.FaithOptions{Workers: *threads,
+				r, err := explain.Faithfulness(ctx, m, data.IDs, data.Labels, explain.FaithOptions{Workers: *threads, Seed: df.Seed,
 					Progress: func(done, total int) { bar.show(done, total, "scoring attribution methods", false) }})
 				bar.done()
 				if err != nil {
@@ -253,6 +287,21 @@ func writeExplanation(w io.Writer, text string, e *explain.Explanation, method s
 		return err
 	}
 	fmt.Fprintln(w)
+	if ws := e.Attributions.Windows; len(ws) > 0 {
+		order := make([]int, len(ws))
+		for i := range order {
+			order[i] = i
+		}
+		sortBy(order, func(i int) float64 { return -ws[i].Drop })
+		fmt.Fprintf(w, "n-gram windows whose removal lowers p(%s) most:\n", e.Label)
+		for _, i := range order[:min(5, len(order))] {
+			toks := make([]string, 0, ws[i].End-ws[i].Start)
+			for t := ws[i].Start; t < ws[i].End && t < len(e.Tokens); t++ {
+				toks = append(toks, e.Tokens[t].Text)
+			}
+			fmt.Fprintf(w, "  %+.3f  %q\n", ws[i].Drop, strings.Join(toks, " "))
+		}
+	}
 	if len(e.Filters) > 0 {
 		fmt.Fprintf(w, "filters that fired, by their part of the %q logit:\n", e.Labels[class])
 		order := make([]int, len(e.Filters))

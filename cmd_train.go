@@ -61,6 +61,10 @@ func (r *recipeFlags) modelConfig(vocabSize, classes int) (cnn.Config, error) {
 }
 
 func (r *recipeFlags) trainConfig(seed uint64) (cnn.TrainConfig, error) {
+	// The library reads 0 as "the default"; on the command line it is a mistake.
+	if r.Epochs < 1 || r.Batch < 1 {
+		return cnn.TrainConfig{}, usagef("--epochs and --batch must be at least 1 (got %d and %d)", r.Epochs, r.Batch)
+	}
 	tc := cnn.TrainConfig{Epochs: r.Epochs, Batch: r.Batch, Optimizer: r.Optimizer, LR: r.LR, Seed: seed,
 		Threads: r.Threads, Patience: r.Patience, MaxLen: r.MaxLen, FreezeEmb: r.Freeze}
 	if r.Patience == 0 {

@@ -41,7 +41,6 @@ type command struct {
 
 // runEnv is what a command sees of the process.
 type runEnv struct {
-	Args   []string // positional arguments after the flags
 	Stdin  io.Reader
 	Stdout io.Writer
 	Stderr io.Writer
@@ -103,7 +102,13 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		fmt.Fprintf(stderr, "telltale %s: %v\nusage: telltale %s\n", c.Name, err, c.UsageLine)
 		return 2
 	}
-	err := exec(ctx, &runEnv{Args: fs.Args(), Stdin: stdin, Stdout: stdout, Stderr: stderr})
+	// A stray word would make the flag package stop, silently dropping
+	// every option after it.
+	if fs.NArg() > 0 {
+		fmt.Fprintf(stderr, "telltale %s: unexpected argument %q: every value goes with an option (quote texts, e.g. --text \"...\")\nusage: telltale %s\n", c.Name, fs.Arg(0), c.UsageLine)
+		return 2
+	}
+	err := exec(ctx, &runEnv{Stdin: stdin, Stdout: stdout, Stderr: stderr})
 	if err == nil {
 		return 0
 	}

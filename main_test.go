@@ -189,3 +189,48 @@ func TestTourContract(t *testing.T) {
 		}
 	}
 }
+
+// TestMisuseExitsTwo: command lines that are wrong in ways the flag package
+// alone would not catch end with a usage error, not a silent default.
+func TestMisuseExitsTwo(t *testing.T) {
+	data := smallDemo(t, 300)
+	dir := t.TempDir()
+	model := filepath.Join(dir, "m.tt")
+	if code, _, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--filters", "4", "--quiet"); code != 0 {
+		t.Fatalf("train: %s", stderr)
+	}
+	other := filepath.Join(dir, "other.csv")
+	os.WriteFile(other, []byte("text,label\nthe ferry,x\nthe boat,y\nmy bag,x\nthe quay,y\n"), 0o644)
+	otherModel := filepath.Join(dir, "o.tt")
+	if code, _, stderr := runCmd(t, "", "train", "--data", other, "--dev", other, "--out", otherModel, "--epochs", "1", "--dim", "8", "--filters", "4", "--quiet"); code != 0 {
+		t.Fatalf("train: %s", stderr)
+	}
+	cases := []struct {
+		args []string
+		want string
+	}{
+		{[]string{"train", "--data", data, "--out", filepath.Join(dir, "x.tt"), "oops", "--epochs", "1"}, `unexpected argument "oops"`},
+		{[]string{"predict", "--model", model, "rocket moon"}, `unexpected argument "rocket moon"`},
+		{[]string{"train", "--data", data, "--out", filepath.Join(dir, "x.tt"), "--epochs", "0"}, "--epochs and --batch must be at least 1"},
+		{[]string{"predict", "--model", model, "--text", ""}, "--text is empty"},
+		{[]string{"explain", "--model", model, "--text", "  "}, "--text is empty"},
+		{[]string{"explain", "--model", model, "--text", "lost bag", "--method", "occlusion", "--class", "praise"}, "occlusion measures the predicted class only"},
+		{[]string{"explain", "--model", model, "--text", "lost bag", "--windows", "0"}, "widths are 1 or more"},
+		{[]string{"filters", "--model", model, "--data", data, "--purity", "7"}, "--purity 7"},
+		{[]string{"eval", "--model", model, "--data", data, "--bins", "-3"}, "--bins -3"},
+		{[]string{"faithfulness", "--model", model, "--data", data, "--limit", "-5"}, "--limit -5"},
+		{[]string{"data", "--data", data, "--relabel", "spm=junk"}, `has no label "spm"`},
+		{[]string{"compare", "--models", model + "," + otherModel, "--data", data}, "compare needs models with the same labels"},
+	}
+	for _, c := range cases {
+		code, _, stderr := runCmd(t, "", c.args...)
+		if code != 2 || !strings.Contains(stderr, c.want) {
+			t.Errorf("%q: exit %d, stderr %q; want exit 2 and %q", c.args, code, stderr, c.want)
+		}
+	}
+	// Blank lines of standard input get no label.
+	code, out, _ := runCmd(t, "refund please\n\n  \nlost my bag\n", "predict", "--model", model)
+	if code != 0 || len(strings.Split(strings.TrimSpace(out), "\n")) != 2 {
+		t.Errorf("predict over 2 texts and 2 blank lines: exit %d, output %q", code, out)
+	}
+}

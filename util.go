@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"context"
 	"encoding/json"
+	"flag"
 	"fmt"
 	"io"
 	"sort"
@@ -62,13 +63,16 @@ func sortBy(idx []int, key func(int) float64) {
 	sort.SliceStable(idx, func(a, b int) bool { return key(idx[a]) < key(idx[b]) })
 }
 
-// eachLine calls fn with every line of r.
+// eachLine calls fn with every line of r that holds more than white space.
 func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
 	sc := bufio.NewScanner(r)
 	sc.Buffer(make([]byte, 64*1024), 16<<20)
 	for sc.Scan() {
 		if err := ctx.Err(); err != nil {
 			return err
+		}
+		if strings.TrimSpace(sc.Text()) == "" {
+			continue
 		}
 		if err := fn(sc.Text()); err != nil {
 			return err
@@ -78,4 +82,11 @@ func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
 		return fmt.Errorf("reading standard input: %w (lines are limited to 16 MiB)", err)
 	}
 	return nil
+}
+
+// isSet reports whether the flag name was given on the command line.
+func isSet(fs *flag.FlagSet, name string) bool {
+	set := false
+	fs.Visit(func(f *flag.Flag) { set = set || f.Name == name })
+	return set
 }
