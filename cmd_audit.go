@@ -22,13 +22,13 @@ instead of the task. On the training split (--data) it tests every token for an
 association with a label (the z-statistic of Gardner et al. 2021 with a
 Bonferroni-corrected threshold, and smoothed PMI) and measures how much of each
 filter's strong activations rests on the flagged tokens. On the held-out split
-(--dev, or a stratified share of --data) it proves each suspect by ablation
+(--dev; without it, the dev split train kept out of --data) it proves each suspect by ablation
 (the filter masked), by counterfactual substitution of its cue tokens with
 label-neutral words, and on the texts where the cue points away from the gold
 label. Suspects are ranked by a score whose every part is shown.`,
 		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
 			var df dataFlags
-			df.register(fs, "held-out file for the interventions (default: a stratified share of --data)")
+			df.register(fs, "held-out file for the interventions (default: the dev split train kept out of --data)")
 			modelPath := fs.String("model", "", "model file written by train")
 			top := fs.Int("top", 10, "suspect filters reported (taken in turn from the cue groups, strongest group first)")
 			asJSON := fs.Bool("json", false, "print the audit as one JSON object")
@@ -49,7 +49,7 @@ label. Suspects are ranked by a score whose every part is shown.`,
 				if err != nil {
 					return err
 				}
-				train, held, err := df.load(env.Stderr, *quiet)
+				train, held, _, _, err := df.loadForModel(m, env.Stderr, *quiet)
 				if err != nil {
 					return err
 				}

@@ -6,9 +6,12 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"path/filepath"
 	"slices"
+	"strconv"
 	"strings"
 
+	"telltale/cnn"
 	"telltale/corpus"
 )
 
@@ -204,4 +207,35 @@ line and what to do.`,
 			}
 		},
 	})
+}
+
+// loadForModel reads the training and held-out splits for a model's audit
+// or report, with a note on where the held-out texts come from. With --dev,
+// that file is held out. Without it, when --data is the file the model was
+// trained on, the held-out texts are the dev split train kept out of it
+// (used to choose the epoch, never trained on); otherwise --data is split
+// with --test-frac and a warning says the held-out share may hold training
+// texts.
+func (d *dataFlags) loadForModel(m *cnn.Model, warn io.Writer, quiet bool) (train, held *corpus.Dataset, name, note string, err error) {
+	if d.Dev != "" {
+		train, held, err = d.load(warn, quiet)
+		return train, held, "test", "a separate file, none of them used for training", err
+	}
+	notes := m.Info.Notes
+	frac, ferr := strconv.ParseFloat(notes["dev_frac"], 64)
+	seed, serr := strconv.ParseUint(notes["seed"], 10, 64)
+	abs, _ := filepath.Abs(d.Data)
+	if ferr == nil && serr == nil && frac > 0 && frac < 1 && notes["data_abs"] != "" && abs == notes["data_abs"] {
+		all, err := d.read(d.Data, warn, quiet)
+		if err != nil {
+			return nil, nil, "", "", err
+		}
+		train, held = all.Split(frac, seed)
+		return train, held, "dev", fmt.Sprintf("the %.0f%% that train held out of this file: used to choose the epoch, never trained on", 100*frac), nil
+	}
+	train, held, err = d.load(warn, quiet)
+	if err == nil && !quiet {
+		fmt.Fprintf(warn, "warning: no --dev: holding out %.0f%% of %s, which may include texts the model was trained on; pass --dev FILE for a fair held-out split\n", 100*d.TestFrac, d.Data)
+	}
+	return train, held, "held-out", fmt.Sprintf("a %.0f%% share of the data file that may include texts the model was trained on", 100*d.TestFrac), err
 }

@@ -19,11 +19,13 @@ styles and images inline) and prints well: the dataset summary, the training
 recipe and metrics, the confusion matrix and reliability diagram, the filter
 catalogue, the spurious-cue audit with its evidence, and explained examples
 (correct, wrong and cue-conflicting) painted by exact attribution. --data is
-the training file; --dev the held-out file (default: a stratified share of
---data).`,
+the training file; --dev the held-out file. Without --dev, the held-out texts
+are the dev split that train kept out of --data (when --data is the file the
+model was trained on), else a share of --data, with a warning that it may
+hold training texts.`,
 		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
 			var df dataFlags
-			df.register(fs, "held-out file (default: a stratified share of --data)")
+			df.register(fs, "held-out file (default: the dev split train kept out of --data)")
 			modelPath := fs.String("model", "", "model file written by train")
 			out := fs.String("out", "", "where to write the HTML report")
 			title := fs.String("title", "", "the report's title (default: from the model file's name)")
@@ -39,12 +41,12 @@ the training file; --dev the held-out file (default: a stratified share of
 				if err != nil {
 					return err
 				}
-				train, held, err := df.load(env.Stderr, *quiet)
+				train, held, name, note, err := df.loadForModel(m, env.Stderr, *quiet)
 				if err != nil {
 					return err
 				}
 				bar := newProgressBar(env.Stderr, *quiet)
-				r, err := report.Build(ctx, m, train, held, report.Options{Title: *title, ModelPath: *modelPath,
+				r, err := report.Build(ctx, m, train, held, report.Options{Title: *title, ModelPath: *modelPath, HeldOut: name, HeldOutNote: note,
 					SkipAudit: *skipAudit, Threads: *threads},
 					func(stage string, done, total int) { bar.show(done, total, stage, false) })
 				bar.done()

@@ -167,6 +167,13 @@ func runTrain(ctx context.Context, env *runEnv, df *dataFlags, rf *recipeFlags, 
 		fmt.Fprintf(env.Stderr, "vectors: %d of %d vocabulary words found in %s\n", trained.VectorsFound, len(m.Vocab)-2, rf.Vectors)
 	}
 	m.Info.Notes = map[string]string{"data": df.Data, "dev": df.Dev, "seed": fmt.Sprint(df.Seed)}
+	if df.Dev == "" {
+		// audit and report find the same dev split again from these.
+		m.Info.Notes["dev_frac"] = fmt.Sprint(df.TestFrac)
+		if abs, err := filepath.Abs(df.Data); err == nil {
+			m.Info.Notes["data_abs"] = abs
+		}
+	}
 	if res != nil && res.BestEpoch == 0 {
 		return fmt.Errorf("training stopped before the first epoch ended; nothing saved to %s", out)
 	}

@@ -20,6 +20,10 @@ type Options struct {
 	ModelPath string    // shown in the header
 	Generated time.Time // zero: the time Build runs
 	HeldOut   string    // name of the held-out split (default "test")
+	// HeldOutNote says where the held-out texts come from and whether the
+	// model saw them (default: "none of them used for training", true of a
+	// separate file).
+	HeldOutNote string
 	// Examples is the number of explained examples of each kind (default 2).
 	Examples int
 	// FiltersPerClass is how many filters of each class the catalogue shows
@@ -75,7 +79,7 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		progress = func(string, int, int) {}
 	}
 	in := Input{Title: opt.Title, ModelPath: opt.ModelPath, Generated: opt.Generated, Model: m,
-		HeldOut: cmp.Or(opt.HeldOut, "test"), ProfiledOn: "the training split", FiltersPerClass: opt.FiltersPerClass}
+		HeldOut: cmp.Or(opt.HeldOut, "test"), HeldOutNote: cmp.Or(opt.HeldOutNote, "none of them used for training"), ProfiledOn: "the training split", FiltersPerClass: opt.FiltersPerClass}
 	if in.Generated.IsZero() {
 		in.Generated = time.Now()
 	}

@@ -63,13 +63,13 @@ type epochRow struct {
 }
 
 type metricsView struct {
-	Split, N, Accuracy, MacroF1, WeightedF1, ECE string
-	Rows                                         []classRow
-	Labels                                       []string
-	Confusion                                    [][]heatCell
-	ConfusionImg, ReliabilityImg                 template.URL
-	ConfusionAlt, ReliabilityAlt                 string
-	Bins                                         []binRow
+	Split, Note, N, Accuracy, MacroF1, WeightedF1, ECE string
+	Rows                                               []classRow
+	Labels                                             []string
+	Confusion                                          [][]heatCell
+	ConfusionImg, ReliabilityImg                       template.URL
+	ConfusionAlt, ReliabilityAlt                       string
+	Bins                                               []binRow
 }
 
 type classRow struct{ Label, Precision, Recall, F1, Support string }
@@ -347,7 +347,11 @@ func metrics(in Input) (*metricsView, error) {
 	if split == "" {
 		split = "held-out"
 	}
-	mv := &metricsView{Split: split, N: count(mt.N), Accuracy: pct(mt.Accuracy), MacroF1: num(mt.MacroF1),
+	note := in.HeldOutNote
+	if note == "" {
+		note = "none of them used for training"
+	}
+	mv := &metricsView{Split: split, Note: note, N: count(mt.N), Accuracy: pct(mt.Accuracy), MacroF1: num(mt.MacroF1),
 		WeightedF1: num(mt.WeightedF1), ECE: num(mt.ECE), Labels: mt.Labels}
 	for _, c := range mt.PerClass {
 		mv.Rows = append(mv.Rows, classRow{c.Label, num(c.Precision), num(c.Recall), num(c.F1), count(c.Support)})

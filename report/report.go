@@ -51,6 +51,7 @@ type Input struct {
 	// (e.g. "test"); Reliability holds its reliability-diagram bins (see
 	// Reliability), computed from the same predictions.
 	HeldOut     string
+	HeldOutNote string // where the held-out texts come from, e.g. "none of them used for training"
 	Metrics     *cnn.Metrics
 	Reliability []cnn.ReliabilityBin
 
