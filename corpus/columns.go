@@ -53,7 +53,7 @@ func readColumns(r io.Reader, path, format string, opt Options) ([]string, error
 	case "csv", "tsv":
 		cr := csv.NewReader(&limitReader{r: br, limit: limit})
 		if format == "tsv" {
-			cr.Comma = '\t'
+			cr.Comma, cr.LazyQuotes = '\t', true
 		}
 		header, err := cr.Read()
 		if err == io.EOF {

@@ -349,7 +349,8 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 	lr := &limitReader{r: br, limit: limit}
 	cr := csv.NewReader(bufio.NewReaderSize(lr, 16<<10))
 	if format == "tsv" {
-		cr.Comma = '\t'
+		// TSV files are seldom quoted: a bare quote inside a text is text.
+		cr.Comma, cr.LazyQuotes = '\t', true
 	}
 	cr.ReuseRecord = true
 	cr.FieldsPerRecord = 0 // set from the header
