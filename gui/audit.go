@@ -377,7 +377,7 @@ func auditView(st *State) fyne.CanvasObject {
 			return
 		}
 		m := mask.Model
-		st.saveDialog("telltale-masked.tt", func(path string) error { return m.Save(path) })
+		st.saveDialog("Save masked model", "telltale-masked.tt", func(path string) error { return m.Save(path) })
 	})
 	save.Disable()
 

@@ -5,12 +5,16 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"strings"
 
 	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/storage"
-
-	"telltale/internal/atomicfile"
+	"fyne.io/fyne/v2/widget"
 )
 
 // exporter gives a view's main table (for CSV) and its data (for JSON).
@@ -60,29 +64,118 @@ func (st *State) saveModelDialog() {
 		st.showError(errors.New("there is no model to save yet: train one in the Training view or open one with File › Open model"))
 		return
 	}
-	st.saveDialog("telltale-model.tt", func(path string) error { return st.saveModel(ms, path) })
+	st.saveDialog("Save model", "telltale-model.tt", func(path string) error { return st.saveModel(ms, path) })
 }
 
-// saveDialog asks for a file name and calls write with its path. The
-// dialog's own writer is closed unused: write replaces the file atomically.
-func (st *State) saveDialog(name string, write func(path string) error) {
-	d := dialog.NewFileSave(func(w fyne.URIWriteCloser, err error) {
-		if err != nil {
-			st.showErrorf(err, "could not open the file dialog")
+// saveForm is the save dialog on screen, kept for tests.
+type saveForm struct {
+	form    *dialog.FormDialog
+	name    *widget.Entry
+	folder  func() string         // the chosen folder
+	choose  func()                // asks for another folder
+	confirm *dialog.ConfirmDialog // the overwrite question, once asked
+}
+
+// saveDialog asks for a folder and a file name (suggested: name) and calls
+// write with the joined path; an existing file is replaced only after the
+// user confirms. Nothing here opens the destination: write must replace it
+// atomically (temporary file and rename), so a failed save leaves the old
+// file as it was.
+func (st *State) saveDialog(title, name string, write func(path string) error) {
+	dir := st.saveDir
+	if dir == "" {
+		if d, err := os.Getwd(); err == nil {
+			dir = d
+		}
+	}
+	folder := widget.NewLabel(dir)
+	folder.Truncation = fyne.TextTruncateEllipsis
+	entry := widget.NewEntry()
+	entry.SetText(name)
+	entry.Validator = validFileName
+	sf := &saveForm{name: entry, folder: func() string { return dir }}
+	sf.choose = func() {
+		st.pickFolder(dir, func(d string) {
+			dir = d
+			folder.SetText(d)
+		})
+	}
+	change := widget.NewButton("Choose…", sf.choose)
+	items := []*widget.FormItem{
+		widget.NewFormItem("Folder", container.NewBorder(nil, nil, nil, change, folder)),
+		widget.NewFormItem("File name", entry),
+	}
+	sf.form = dialog.NewForm(title, "Save", "Cancel", items, func(ok bool) {
+		if !ok {
 			return
 		}
-		if w == nil {
-			return
+		path := filepath.Join(dir, strings.TrimSpace(entry.Text))
+		st.saveDir = dir
+		info, err := os.Stat(path)
+		switch {
+		case err == nil && info.IsDir():
+			st.showError(fmt.Errorf("%s is a folder: choose another file name", path))
+		case err == nil:
+			sf.confirm = dialog.NewConfirm("Replace the file?",
+				fmt.Sprintf("%s already exists. Replace it?", path), func(yes bool) {
+					if yes {
+						st.commitSave(path, write)
+					}
+				}, st.win)
+			sf.confirm.SetConfirmText("Replace")
+			sf.confirm.Show()
+		case errors.Is(err, fs.ErrNotExist):
+			st.commitSave(path, write)
+		default:
+			st.showErrorf(err, "could not check %s", path)
 		}
-		path := w.URI().Path()
-		_ = w.Close()
-		if err := write(path); err != nil {
-			st.showErrorf(err, "could not write %s", path)
-			return
-		}
-		_ = st.status.Set("Wrote " + path)
 	}, st.win)
-	d.SetFileName(name)
+	sf.form.Resize(fyne.NewSize(560, sf.form.MinSize().Height))
+	st.saveShown = sf
+	sf.form.Show()
+}
+
+// commitSave runs write for path and reports the outcome.
+func (st *State) commitSave(path string, write func(path string) error) {
+	if err := write(path); err != nil {
+		st.showErrorf(err, "could not write %s (any file that was there is unchanged)", path)
+		return
+	}
+	_ = st.status.Set("Wrote " + path)
+}
+
+// validFileName accepts a bare file name: not empty, no folder part.
+func validFileName(s string) error {
+	s = strings.TrimSpace(s)
+	switch {
+	case s == "":
+		return errors.New("type a file name")
+	case s == "." || s == "..":
+		return errors.New("type a file name, not a folder")
+	case strings.ContainsAny(s, `/\`) || strings.ContainsRune(s, filepath.Separator):
+		return errors.New("a file name only: choose the folder above")
+	}
+	return nil
+}
+
+// pickFolderDialog asks for a folder, starting at start, and hands it to
+// done; nothing happens when the user cancels.
+func (st *State) pickFolderDialog(start string, done func(dir string)) {
+	d := dialog.NewFolderOpen(func(u fyne.ListableURI, err error) {
+		if err != nil {
+			st.showErrorf(err, "could not open the folder dialog")
+			return
+		}
+		if u == nil {
+			return
+		}
+		done(u.Path())
+	}, st.win)
+	if start != "" {
+		if l, err := storage.ListerForURI(storage.NewFileURI(start)); err == nil {
+			d.SetLocation(l)
+		}
+	}
 	d.Show()
 }
 
@@ -94,8 +187,8 @@ func (st *State) exportCSVDialog() {
 		st.showError(fmt.Errorf("the %s view has no table to export yet", title))
 		return
 	}
-	st.saveDialog(fileStem(title)+".csv", func(path string) error {
-		return atomicfile.Write(path, ex.table().writeCSV)
+	st.saveDialog("Export table as CSV", fileStem(title)+".csv", func(path string) error {
+		return st.writeFile(path, ex.table().writeCSV)
 	})
 }
 
@@ -111,8 +204,8 @@ func (st *State) exportJSONDialog() {
 		st.showError(fmt.Errorf("the %s view has no data to export yet", title))
 		return
 	}
-	st.saveDialog(fileStem(title)+".json", func(path string) error {
-		return atomicfile.Write(path, func(w io.Writer) error {
+	st.saveDialog("Export view data as JSON", fileStem(title)+".json", func(path string) error {
+		return st.writeFile(path, func(w io.Writer) error {
 			enc := json.NewEncoder(w)
 			enc.SetIndent("", "  ")
 			return enc.Encode(v)

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"sync"
 	"time"
 
@@ -13,6 +14,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/explain"
+	"telltale/internal/atomicfile"
 )
 
 // State is everything the window knows: the open corpus, the model, its
@@ -70,6 +72,14 @@ type State struct {
 	filterList    *sheet             // the Filters view's list, for tests
 	explainEntry  *widget.Entry      // the explain view's text box, for tests
 
+	// Saving: where files go and how they are written. writeFile replaces
+	// a file atomically (atomicfile.Write); pickFolder asks for a folder
+	// (the folder dialog). Tests replace both.
+	saveDir    string
+	writeFile  func(path string, write func(io.Writer) error) error
+	pickFolder func(start string, done func(dir string))
+	saveShown  *saveForm // the save dialog last shown, for tests
+
 	// One-shot hooks of the start-up sequence.
 	afterTrain   func(ok bool)
 	afterProfile func()
@@ -108,7 +118,9 @@ func newState(a fyne.App, opts Options) *State {
 		exports:       map[string]exporter{},
 		recipe:        newRecipe(),
 		trainChanged:  func() {},
+		writeFile:     atomicfile.Write,
 	}
+	st.pickFolder = st.pickFolderDialog
 	_ = st.status.Set("No data open yet.")
 	_ = st.explainMethod.Set(methodExact)
 	return st

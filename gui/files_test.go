@@ -1,0 +1,242 @@
+//go:build ci
+
+package gui
+
+import (
+	"bytes"
+	"encoding/csv"
+	"errors"
+	"io"
+	"os"
+	"path/filepath"
+	"reflect"
+	"strings"
+	"testing"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/test"
+
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/internal/atomicfile"
+)
+
+// saveState is a State with a window, a Corpus view that exports a small
+// table, and a folder chooser that always answers dir.
+func saveState(t *testing.T, dir string) (*State, *sheet) {
+	t.Helper()
+	a := test.NewTempApp(t)
+	st := newState(a, Options{})
+	st.win = a.NewWindow("save")
+	st.win.Resize(fyne.NewSize(900, 600))
+	st.selectedView = func() string { return "Corpus" }
+	tbl := newSheet([]string{"label", "texts"}, []float32{100, 80})
+	tbl.setRows([][]string{{"refunds", "412"}, {"lost, property", "97"}})
+	st.exports["Corpus"] = exporter{table: func() *sheet { return tbl }}
+	st.pickFolder = func(start string, done func(string)) { done(dir) }
+	return st, tbl
+}
+
+// shownSave returns the save dialog that the last call put on screen.
+func shownSave(t *testing.T, st *State) *saveForm {
+	t.Helper()
+	sf := st.saveShown
+	if sf == nil {
+		t.Fatal("no save dialog was shown")
+	}
+	st.saveShown = nil
+	return sf
+}
+
+// dirNames lists the entries of dir.
+func dirNames(t *testing.T, dir string) []string {
+	t.Helper()
+	es, err := os.ReadDir(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var ns []string
+	for _, e := range es {
+		ns = append(ns, e.Name())
+	}
+	return ns
+}
+
+// Saving over an existing file: the file keeps its bytes until the user
+// confirms and the new content is complete; a save whose writer fails after
+// writing part of the content leaves the old bytes as they were.
+func TestSaveOverExistingFile(t *testing.T) {
+	dir := t.TempDir()
+	st, tbl := saveState(t, dir)
+	path := filepath.Join(dir, "telltale-corpus.csv")
+	old := []byte("the old export\nwith two lines\n")
+	if err := os.WriteFile(path, old, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	keepsOld := func(when string) {
+		t.Helper()
+		if b, err := os.ReadFile(path); err != nil || !bytes.Equal(b, old) {
+			t.Fatalf("%s: the existing file holds %q (err %v), want the old %q", when, b, err, old)
+		}
+	}
+	calls := 0
+	boom := errors.New("disk full")
+	st.writeFile = func(p string, write func(io.Writer) error) error {
+		calls++
+		return atomicfile.Write(p, func(w io.Writer) error {
+			if err := write(w); err != nil {
+				return err
+			}
+			return boom // the content went out, then the device failed
+		})
+	}
+
+	// The dialog suggests the view's name and the chosen folder.
+	st.exportCSVDialog()
+	sf := shownSave(t, st)
+	if sf.name.Text != "telltale-corpus.csv" {
+		t.Errorf("suggested name %q, want telltale-corpus.csv", sf.name.Text)
+	}
+	sf.choose()
+	if sf.folder() != dir {
+		t.Errorf("folder %q after choosing %q", sf.folder(), dir)
+	}
+	keepsOld("with the save dialog open")
+	sf.form.Submit()
+	if sf.confirm == nil {
+		t.Fatal("saving over an existing file did not ask before replacing it")
+	}
+	keepsOld("while asking to replace")
+	sf.confirm.Hide() // "No"
+	if calls != 0 {
+		t.Errorf("declining the replacement still wrote the file (%d writes)", calls)
+	}
+	keepsOld("after declining")
+
+	// Confirmed, but the write fails: the old bytes stay, no temporary
+	// file is left, and the error is shown.
+	st.exportCSVDialog()
+	sf = shownSave(t, st)
+	sf.form.Submit()
+	if sf.confirm == nil {
+		t.Fatal("second save did not ask before replacing")
+	}
+	sf.confirm.Confirm()
+	if calls != 1 {
+		t.Fatalf("confirmed save wrote %d times, want once", calls)
+	}
+	keepsOld("after a failed write")
+	if ns := dirNames(t, dir); !reflect.DeepEqual(ns, []string{"telltale-corpus.csv"}) {
+		t.Errorf("folder holds %v after a failed write, want only the old file", ns)
+	}
+	if s := stringGet(st.status); !strings.Contains(s, "disk full") || !strings.Contains(s, path) {
+		t.Errorf("status %q does not report the failed write of %s", s, path)
+	}
+
+	// A working writer replaces the file with the table; encoding/csv (Go's
+	// standard library, RFC 4180) reads back the header and rows.
+	st.writeFile = atomicfile.Write
+	st.exportCSVDialog()
+	sf = shownSave(t, st)
+	sf.form.Submit()
+	sf.confirm.Confirm()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	recs, err := csv.NewReader(bytes.NewReader(b)).ReadAll()
+	if err != nil {
+		t.Fatalf("the saved file is not CSV: %v\n%s", err, b)
+	}
+	want := append([][]string{tbl.cols}, tbl.rows...)
+	if !reflect.DeepEqual(recs, want) {
+		t.Errorf("saved records %q, want %q", recs, want)
+	}
+	if s := stringGet(st.status); s != "Wrote "+path {
+		t.Errorf("status %q after saving", s)
+	}
+
+	// A new name is written without a question.
+	st.exportCSVDialog()
+	sf = shownSave(t, st)
+	sf.name.SetText("fresh.csv")
+	sf.form.Submit()
+	if sf.confirm != nil {
+		t.Error("asked to replace a file that did not exist")
+	}
+	if _, err := os.Stat(filepath.Join(dir, "fresh.csv")); err != nil {
+		t.Errorf("new file not written: %v", err)
+	}
+
+	// A name with a folder part cannot be submitted.
+	st.exportCSVDialog()
+	sf = shownSave(t, st)
+	sf.name.SetText("../escape.csv")
+	sf.form.Submit()
+	if _, err := os.Stat(filepath.Join(filepath.Dir(dir), "escape.csv")); err == nil {
+		t.Error("a name with a folder part was written outside the chosen folder")
+	}
+}
+
+// The model is saved through the same dialog: it replaces an existing file
+// only after confirmation, and the file loads back as the same model.
+func TestSaveModelReplaces(t *testing.T) {
+	dir := t.TempDir()
+	st, _ := saveState(t, dir)
+	vocab := []string{corpus.PADWord, corpus.UNKWord, "ferry", "ticket", "refund", "late", "cabin", "deck", "bag", "lost", "port", "crew"}
+	m, err := cnn.New(cnn.Config{VocabSize: len(vocab), Dim: 4, Widths: []int{2, 3}, Filters: 3, Classes: 2}, vocab, []string{"a", "b"}, 7)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ms := &modelState{Model: m}
+	st.model.Set(ms)
+	path := filepath.Join(dir, "telltale-model.tt")
+	if err := os.WriteFile(path, []byte("an older model"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	st.saveModelDialog()
+	sf := shownSave(t, st)
+	if sf.name.Text != "telltale-model.tt" {
+		t.Errorf("suggested name %q", sf.name.Text)
+	}
+	sf.choose()
+	sf.form.Submit()
+	if sf.confirm == nil {
+		t.Fatal("saving the model over a file did not ask first")
+	}
+	if b, _ := os.ReadFile(path); string(b) != "an older model" {
+		t.Fatalf("the old file changed before confirmation: %q", b)
+	}
+	sf.confirm.Confirm()
+	got, err := cnn.Load(path)
+	if err != nil {
+		t.Fatalf("saved model does not load: %v", err)
+	}
+	if !reflect.DeepEqual(got.Convs, m.Convs) || !reflect.DeepEqual(got.Emb, m.Emb) || !reflect.DeepEqual(got.Labels, m.Labels) {
+		t.Error("the loaded model differs from the saved one")
+	}
+	if ms.Path != path {
+		t.Errorf("model path %q after saving to %q", ms.Path, path)
+	}
+}
+
+func TestValidFileName(t *testing.T) {
+	for _, c := range []struct {
+		name string
+		ok   bool
+	}{
+		{"model.tt", true},
+		{" spaced name.csv ", true},
+		{"", false},
+		{"   ", false},
+		{".", false},
+		{"..", false},
+		{"sub/model.tt", false},
+		{`sub\model.tt`, false},
+		{"/abs.tt", false},
+	} {
+		if err := validFileName(c.name); (err == nil) != c.ok {
+			t.Errorf("validFileName(%q) = %v, want ok %v", c.name, err, c.ok)
+		}
+	}
+}
