@@ -111,6 +111,7 @@ func cmdTable(args []string) error {
 				c, texts, num(o, "s"), num(rr, "s"), o/rr, len(cli), len(ref), loads(cli))
 		}
 		row("inference examples/s (batch 100)", "", func(r result) float64 { return r.InferEPS })
+		row("inference examples/s, first pass (ours: table built)", "", func(r result) float64 { return r.InferCold })
 		row("peak RSS MiB", "", func(r result) float64 { return r.PeakRSSMB })
 		if len(ours) > 0 {
 			fmt.Fprintf(w, "| %s | %d | our GFLOP/s dense-equivalent / executed | %.0f / %.0f | | | | |\n", c, texts,
