@@ -571,7 +571,7 @@ func auditView(st *State) fyne.CanvasObject {
 		}
 		au := a.A
 		groups.setRows(groupRows(a))
-		story.SetText(au.Story())
+		story.SetText(reflow(au.Story()))
 		if au.Plan != nil {
 			tickPlan.Enable()
 		} else {
@@ -637,17 +637,30 @@ func auditView(st *State) fyne.CanvasObject {
 	maskPane := container.NewBorder(container.NewBorder(nil, nil, nil, save, maskNote), nil, nil, nil, compare.table)
 	right := container.NewVSplit(container.NewBorder(title, nil, nil, nil, evidence), maskPane)
 	right.Offset = 0.7
+	// The group table on top, the selected group's story and the audit's
+	// whole story below it, scrolled, so long stories never push the
+	// window past the screen.
+	storyPane := container.NewVScroll(container.NewVBox(groupNote, widget.NewSeparator(), story))
+	groupSplit := container.NewVSplit(groups.table, storyPane)
+	groupSplit.Offset = 0.45
 	cuesPane := container.NewBorder(
-		container.NewVBox(story, groupNote, container.NewHBox(tickStrongest, tickAll, tickPlan, untick)), nil, nil, nil, groups.table)
+		container.NewGridWithColumns(2, tickStrongest, tickAll, tickPlan, untick), nil, nil, nil, groupSplit)
 	lists := container.NewAppTabs(
 		container.NewTabItem("Cues", cuesPane),
-		container.NewTabItem("Suspects", suspects.table),
+		container.NewTabItem("Suspects", container.NewBorder(formula, nil, nil, nil, suspects.table)),
 		container.NewTabItem("Flagged tokens", flagged.table),
 		container.NewTabItem("All filters", allChecks),
 	)
+	st.auditTab = func(title string) {
+		for _, it := range lists.Items {
+			if it.Text == title {
+				lists.Select(it)
+			}
+		}
+	}
 	split := container.NewHSplit(lists, right)
 	split.Offset = 0.5
-	return container.NewBorder(container.NewVBox(head, formula), nil, nil, nil, split)
+	return container.NewBorder(head, nil, nil, nil, split)
 }
 
 // suspectParts lists every part of a suspect's score with its basis.
@@ -698,6 +711,26 @@ func suspectEffects(s *explain.Suspect) [][]string {
 		rows = append(rows, []string{"top n-grams", strings.Join(n.Tokens, " "), fmt.Sprintf("activation %.4f, wins in %d texts %s", n.Activation, n.Count, strings.Join(n.Categories, " "))})
 	}
 	return rows
+}
+
+// reflow joins the lines of terminal text that were broken only to fit a
+// terminal, so a word-wrapped label can lay them out: a line is joined to
+// the one before it unless it is indented or empty, or the one before ends a
+// sentence or a lead-in (., :) or is empty.
+func reflow(s string) string {
+	lines := strings.Split(s, "\n")
+	var out []string
+	for _, l := range lines {
+		if n := len(out); n > 0 && l != "" && !strings.HasPrefix(l, " ") {
+			prev := strings.TrimRight(out[n-1], " ")
+			if prev != "" && !strings.HasSuffix(prev, ".") && !strings.HasSuffix(prev, ":") {
+				out[n-1] = prev + " " + l
+				continue
+			}
+		}
+		out = append(out, l)
+	}
+	return strings.Join(out, "\n")
 }
 
 // oneLine folds line breaks for a table cell.

@@ -48,3 +48,21 @@ func TestGroupRows(t *testing.T) {
 		t.Error("rows without an audit")
 	}
 }
+
+// reflow undoes line breaks made for a terminal and keeps the ones that
+// separate items (indented lines), sentences and lead-ins.
+func TestReflow(t *testing.T) {
+	for _, c := range []struct{ in, want string }{
+		{"read by filters whose\nmasking raises it:\n  (1) the words", "read by filters whose masking raises it:\n  (1) the words"},
+		{"one.\ntwo", "one.\ntwo"},
+		{"lead:\nnext", "lead:\nnext"},
+		{"a\n\nb", "a\n\nb"},
+		{"exact McNemar\np < 0.05) and\nfix", "exact McNemar p < 0.05) and fix"},
+		{"  (2) item\n      Masking all", "  (2) item\n      Masking all"},
+		{"", ""},
+	} {
+		if got := reflow(c.in); got != c.want {
+			t.Errorf("reflow(%q) = %q, want %q", c.in, got, c.want)
+		}
+	}
+}

@@ -266,7 +266,9 @@ func explainView(st *State) fyne.CanvasObject {
 		},
 	}
 
-	controls := container.NewHBox(widget.NewLabel("Paint by"), method, widget.NewLabel("for class"), class, layout.NewSpacer(), nextBtn)
+	controls := container.NewHBox(widget.NewLabel("Paint by"), method, widget.NewLabel("for class"),
+		// Wide enough for "(predicted label)": a select sizes itself by its placeholder.
+		container.NewGridWrap(fyne.NewSize(200, class.MinSize().Height), class), layout.NewSpacer(), nextBtn)
 	top := container.NewVBox(caution, entry, controls, verdict)
 	left := container.NewBorder(nil, container.NewVBox(legend, what, detail), nil, nil, container.NewVScroll(painted))
 	right := container.NewBorder(container.NewVBox(widget.NewLabelWithStyle("Probabilities", fyne.TextAlignLeading, fyne.TextStyle{Bold: true}), probs,

@@ -239,9 +239,12 @@ func TestWholeSession(t *testing.T) {
 	if got := au.suspicionOf(top.Filter); got != fmt.Sprintf("%.4f", top.Score) {
 		t.Errorf("Filters view suspicion of filter %d = %q, audit score %v", top.Filter, got, top.Score)
 	}
+	// The score formula heads the Suspects tab.
+	st.auditTab("Suspects")
 	if !strings.Contains(test.RenderToMarkup(w.Canvas()), au.A.Formula[:40]) {
-		t.Errorf("audit view does not show the score formula")
+		t.Errorf("the audit view's Suspects tab does not show the score formula")
 	}
+	st.auditTab("Cues")
 
 	// The Filters view: sorting by suspicion (descending) puts the top
 	// suspect first, and searching for a cue word finds its filters.

@@ -19,6 +19,7 @@ const (
 	plotW   = 5.6 * vg.Inch
 	plotH   = 3.0 * vg.Inch
 	plotDPI = 96
+	plotPad = 0.18 * vg.Inch // right margin (half of it on top)
 )
 
 // seriesColors are the line colours of plots with several series: the
@@ -53,7 +54,12 @@ func newPlot(title, xLabel, yLabel string) *plot.Plot {
 // renderPlot draws p into an RGBA image.
 func renderPlot(p *plot.Plot) image.Image {
 	c := vgimg.NewWith(vgimg.UseWH(plotW, plotH), vgimg.UseDPI(plotDPI))
-	p.Draw(draw.New(c))
+	dc := draw.New(c)
+	dc.SetColor(p.BackgroundColor)
+	dc.Fill(dc.Rectangle.Path())
+	// A margin on the right: the last tick label is centred on the end of
+	// the axis and the legend sits flush right; both would be cut there.
+	p.Draw(draw.Crop(dc, 0, -plotPad, 0, -plotPad/2))
 	return c.Image()
 }
 

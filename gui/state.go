@@ -68,6 +68,7 @@ type State struct {
 	maskTicks     func(gs []int)     // sets the ticked filters and masks them
 	auditShown    func() *auditState // the audit on screen, for tests
 	auditSuspects *sheet             // the suspect table, for tests
+	auditTab      func(title string) // selects a tab of the audit's lists, for tests
 	maskCompare   *sheet             // the before/after table, for tests
 	filterList    *sheet             // the Filters view's list, for tests
 	explainEntry  *widget.Entry      // the explain view's text box, for tests
