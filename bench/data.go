@@ -285,7 +285,7 @@ var spamGroups = map[string]string{"easy-ham-1": "ham", "easy-ham-2": "ham", "ha
 	"spam-1": "spam", "spam-2": "spam"}
 
 // loadSpam reads the SpamAssassin corpus at root (one folder per group),
-// keeps each mail's subject and body (mailText), relabels the groups ham and
+// keeps each mail's subject and body (corpus.SubjectAndBody), relabels the groups ham and
 // spam and splits off 20% (seed 7) as the held-out split.
 func loadSpam(root string) (train, held *corpus.Dataset, err error) {
 	d, _, err := corpus.Load(root, corpus.Options{ReplaceInvalidUTF8: true})
@@ -293,7 +293,7 @@ func loadSpam(root string) (train, held *corpus.Dataset, err error) {
 		return nil, nil, fmt.Errorf("bench: %w (run `make corpora` to fetch the corpus)", err)
 	}
 	for i := range d.Examples {
-		d.Examples[i].Text = mailText(d.Examples[i].Text)
+		d.Examples[i].Text = corpus.SubjectAndBody(d.Examples[i].Text)
 	}
 	bin := d.Relabel(spamGroups)
 	train, held = bin.Split(0.2, 7)
@@ -324,33 +324,4 @@ func spamPrepared(root string, threads int) (*prepared, error) {
 	p.meta = meta{Corpus: "spam", Texts: len(p.ids), Tokens: tokens, VocabSize: len(p.words), Labels: train.Labels,
 		MaxLen: spamMaxLen, Tokenizer: enc.Tok.Config()}
 	return p, nil
-}
-
-// mailText returns the subject and the body of a raw RFC 822 message: the
-// Subject header (with its folded continuation lines) followed by everything
-// after the first empty line. The other headers are left out. A text without
-// a header block is returned whole.
-func mailText(raw string) string {
-	raw = strings.ReplaceAll(raw, "\r\n", "\n")
-	head, body, ok := strings.Cut(raw, "\n\n")
-	if !ok {
-		return raw
-	}
-	var subject strings.Builder
-	in := false
-	for _, line := range strings.Split(head, "\n") {
-		if in && (strings.HasPrefix(line, " ") || strings.HasPrefix(line, "\t")) {
-			subject.WriteString(" " + strings.TrimSpace(line))
-			continue
-		}
-		in = false
-		if len(line) >= 8 && strings.EqualFold(line[:8], "subject:") {
-			in = true
-			subject.WriteString(strings.TrimSpace(line[8:]))
-		}
-	}
-	if subject.Len() == 0 {
-		return body
-	}
-	return subject.String() + "\n" + body
 }

@@ -5,23 +5,6 @@ import (
 	"testing"
 )
 
-func TestMailText(t *testing.T) {
-	// RFC 5322 section 2.2.3: a header line may be folded by inserting a
-	// line break before white space; unfolding joins the lines.
-	tests := []struct{ name, raw, want string }{
-		{"subject and body", "From: a@b\nSubject: Cheap pills\nTo: c@d\n\nBuy now.\n", "Cheap pills\nBuy now.\n"},
-		{"folded subject", "Subject: Re: the\n  meeting\nX-Y: z\n\nSee you", "Re: the meeting\nSee you"},
-		{"CRLF", "subject: hi\r\nFrom: x\r\n\r\nbody\r\n", "hi\nbody\n"},
-		{"no subject", "From: x\n\nonly body", "only body"},
-		{"no header block", "just one line", "just one line"},
-	}
-	for _, tt := range tests {
-		if got := mailText(tt.raw); got != tt.want {
-			t.Errorf("%s: mailText = %q, want %q", tt.name, got, tt.want)
-		}
-	}
-}
-
 func TestIDsRoundTrip(t *testing.T) {
 	p := synthetic(300, 5)
 	dir := t.TempDir()

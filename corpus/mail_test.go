@@ -13,6 +13,8 @@ func TestSubjectAndBody(t *testing.T) {
 		{"crlf", "Subject: s\r\nX: y\r\n\r\nb\r\n", "s\nb\n"},
 		{"no header block", "just text", "just text"},
 		{"subject-like body line", "From: a\n\nSubject: not a header", "Subject: not a header"},
+		// RFC 5322 section 2.2.3: a folded header line is unfolded by joining its lines.
+		{"folded reply subject", "Subject: Re: the\n  meeting\nX-Y: z\n\nSee you", "Re: the meeting\nSee you"},
 	} {
 		if got := SubjectAndBody(c.raw); got != c.want {
 			t.Errorf("%s: got %q, want %q", c.name, got, c.want)
