@@ -7,7 +7,7 @@ import (
 
 // Dense float32 kernels used by the hot loops.
 //
-// Callers use matMulNT, axpy, addTo, dot, maxUpdate and adamStep. Those names
+// Callers use axpy, addTo, maxUpdate, adamStep and windowMax. Those names
 // are dispatch functions defined in kernel_generic.go (the default build: they
 // call the portable versions in this file) and in kernel_simd_amd64.go (built
 // with GOEXPERIMENT=simd on amd64: they pick an AVX-512 or AVX2+FMA version at
@@ -19,17 +19,15 @@ import (
 //
 // All kernels are single-threaded, allocate nothing in steady state, keep no
 // state between calls and are safe to call from many goroutines at once.
-// matMulNT's SIMD versions pack into a fixed-size array on the goroutine's
-// stack, so the caller passes no scratch.
+// The matrix product and the dot product are package telltale/internal/f32
+// (MatMulNT, MatMulNTPacked, Dot), shared with package explain.
 
 // kernelSet is one complete implementation of the kernels, for tests and
 // benchmarks that compare implementations side by side.
 type kernelSet struct {
 	name      string
-	matMulNT  func(c, a, b []float32, m, n, k int)
 	axpy      func(alpha float32, x, y []float32)
 	addTo     func(dst, x []float32)
-	dot       func(x, y []float32) float32
 	maxUpdate func(best []float32, arg []int32, x []float32, t int32)
 	adamStep  func(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32)
 	windowMax func(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int)
@@ -38,52 +36,11 @@ type kernelSet struct {
 // portableKernels is the pure-Go implementation, available in every build.
 var portableKernels = kernelSet{
 	name:      "go",
-	matMulNT:  matMulNTGo,
 	axpy:      axpyGo,
 	addTo:     addToGo,
-	dot:       dotGo,
 	maxUpdate: maxUpdateGo,
 	adamStep:  adamStepGo,
 	windowMax: windowMaxGo,
-}
-
-// checkMatMulNT panics unless the slices hold the matrices their shapes say.
-func checkMatMulNT(c, a, b []float32, m, n, k int) {
-	if m < 0 || n < 0 || k < 0 || len(c) < m*n || len(a) < m*k || len(b) < n*k {
-		panic("cnn: matMulNT: slice too short for its shape")
-	}
-}
-
-// matMulNTGo sets c (m×n) to a (m×k) times the transpose of b (n×k), all
-// row-major and contiguous: c[i*n+j] = Σ_p a[i*k+p]·b[j*k+p]. Len(c) must be
-// at least m·n, len(a) at least m·k and len(b) at least n·k.
-//
-// It computes four outputs of a row at a time so that each load of a[i][p]
-// serves four products and the four sums run as independent chains.
-func matMulNTGo(c, a, b []float32, m, n, k int) {
-	checkMatMulNT(c, a, b, m, n, k)
-	for i := 0; i < m; i++ {
-		ai := a[i*k : i*k+k]
-		ci := c[i*n : i*n+n]
-		j := 0
-		for ; j+4 <= n; j += 4 {
-			b0 := b[j*k : j*k+k]
-			b1 := b[(j+1)*k : (j+1)*k+k]
-			b2 := b[(j+2)*k : (j+2)*k+k]
-			b3 := b[(j+3)*k : (j+3)*k+k]
-			var s0, s1, s2, s3 float32
-			for p, v := range ai {
-				s0 += v * b0[p]
-				s1 += v * b1[p]
-				s2 += v * b2[p]
-				s3 += v * b3[p]
-			}
-			ci[j], ci[j+1], ci[j+2], ci[j+3] = s0, s1, s2, s3
-		}
-		for ; j < n; j++ {
-			ci[j] = dotGo(ai, b[j*k:j*k+k])
-		}
-	}
 }
 
 // axpyGo adds alpha·x to y. Len(y) must be at least len(x).
@@ -100,24 +57,6 @@ func addToGo(dst, x []float32) {
 	for i, v := range x {
 		dst[i] += v
 	}
-}
-
-// dotGo returns the dot product of x and y[:len(x)]. Len(y) must be at least
-// len(x).
-func dotGo(x, y []float32) float32 {
-	y = y[:len(x)]
-	var s0, s1, s2, s3 float32
-	i := 0
-	for ; i+4 <= len(x); i += 4 {
-		s0 += x[i] * y[i]
-		s1 += x[i+1] * y[i+1]
-		s2 += x[i+2] * y[i+2]
-		s3 += x[i+3] * y[i+3]
-	}
-	for ; i < len(x); i++ {
-		s0 += x[i] * y[i]
-	}
-	return (s0 + s1) + (s2 + s3)
 }
 
 // maxUpdateGo sets best[i], arg[i] = x[i], t wherever x[i] > best[i]: one step

@@ -11,30 +11,8 @@ import (
 //	go test ./cnn -run '^$' -bench Kernel -benchmem
 //	GOEXPERIMENT=simd go test ./cnn -run '^$' -bench Kernel -benchmem
 //
-// matMulNT reports GFLOP/s counting 2·m·n·k floating-point operations; the
-// elementwise kernels report GB/s of the slices they read and write.
-
-func BenchmarkKernelMatMulNT(b *testing.B) {
-	// n = 1200, k = 128 is the word-slot table of the default model
-	// (100 filters × widths 3, 4, 5 over 128-d embeddings) for m distinct
-	// words; m = 1 is one word (explain); the last shape is odd-sized.
-	shapes := [][3]int{{1, 1200, 128}, {4, 1200, 128}, {16, 1200, 128}, {100, 1200, 128},
-		{500, 1200, 128}, {1000, 1200, 128}, {2000, 1200, 128}, {129, 33, 100}}
-	r := rand.New(rand.NewPCG(1, 1))
-	for _, ks := range kernelSets() {
-		for _, sh := range shapes {
-			m, n, k := sh[0], sh[1], sh[2]
-			a, w, c := randSlice(r, m*k), randSlice(r, n*k), make([]float32, m*n)
-			b.Run(fmt.Sprintf("%s/m=%d/n=%d/k=%d", ks.name, m, n, k), func(b *testing.B) {
-				b.ReportAllocs()
-				for b.Loop() {
-					ks.matMulNT(c, a, w, m, n, k)
-				}
-				b.ReportMetric(2*float64(m*n*k)*float64(b.N)/b.Elapsed().Seconds()/1e9, "GFLOP/s")
-			})
-		}
-	}
-}
+// The elementwise kernels report GB/s of the slices they read and write
+// (MatMulNT and Dot: package telltale/internal/f32).
 
 func benchVec(b *testing.B, name string, lengths []int, bytesPer int, f func(n int) func()) {
 	for _, n := range lengths {
@@ -67,18 +45,6 @@ func BenchmarkKernelAddTo(b *testing.B) {
 		benchVec(b, ks.name, benchLengths, 12, func(n int) func() {
 			x, y := randSlice(r, n), randSlice(r, n)
 			return func() { ks.addTo(y, x) }
-		})
-	}
-}
-
-var sinkF32 float32
-
-func BenchmarkKernelDot(b *testing.B) {
-	r := rand.New(rand.NewPCG(4, 4))
-	for _, ks := range kernelSets() {
-		benchVec(b, ks.name, benchLengths, 8, func(n int) func() {
-			x, y := randSlice(r, n), randSlice(r, n)
-			return func() { sinkF32 = ks.dot(x, y) }
 		})
 	}
 }

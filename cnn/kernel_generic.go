@@ -6,19 +6,11 @@ package cnn
 // version of kernel.go. Build with GOEXPERIMENT=simd on amd64 for the fast
 // path (kernel_simd_amd64.go).
 
-// matMulNT sets c (m×n) to a (m×k) times the transpose of b (n×k), all
-// row-major and contiguous. Len(c) must be at least m·n, len(a) at least m·k,
-// len(b) at least n·k.
-func matMulNT(c, a, b []float32, m, n, k int) { matMulNTGo(c, a, b, m, n, k) }
-
 // axpy adds alpha·x to y. Len(y) must be at least len(x).
 func axpy(alpha float32, x, y []float32) { axpyGo(alpha, x, y) }
 
 // addTo adds x to dst elementwise. Len(dst) must be at least len(x).
 func addTo(dst, x []float32) { addToGo(dst, x) }
-
-// dot returns the dot product of x and y[:len(x)].
-func dot(x, y []float32) float32 { return dotGo(x, y) }
 
 // maxUpdate sets best[i], arg[i] = x[i], t wherever x[i] > best[i] (see
 // maxUpdateGo). Len(best) and len(arg) must be at least len(x).
@@ -35,12 +27,6 @@ func adamStep(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 func windowMax(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int) {
 	windowMaxGo(rows, w, nf, col, bias, best, arg, t0, t1)
 }
-
-// packWeights packs nothing in this build (see the SIMD build's version).
-func packWeights(dst, b []float32, n, k int) []float32 { return nil }
-
-// matMulNTPacked is matMulNT (b is never packed in this build).
-func matMulNTPacked(c, a, b, pb []float32, m, n, k int) { matMulNT(c, a, b, m, n, k) }
 
 // kernelLevel names the implementation the dispatch functions use.
 const kernelLevel = "go"

@@ -4,6 +4,7 @@ import (
 	"math"
 
 	"telltale/corpus"
+	"telltale/internal/f32"
 )
 
 // The fast paths (Predictor and training) compute the first layer per
@@ -12,7 +13,7 @@ import (
 //
 //	T[u][r] = Emb[u]·W[f][s],   r = rowOff[bank] + s·Filters + f,
 //
-// one matMulNT over the distinct words. A window's pre-activations for all
+// one f32.MatMulNT over the distinct words. A window's pre-activations for all
 // filters of a bank are then B + Σ_s T[x[t+s]][rowOff+s·F : rowOff+(s+1)·F],
 // Width additions of contiguous rows of Filters values. PAD has a zero
 // embedding, so it contributes nothing and is never tabled.
@@ -23,7 +24,7 @@ type slotWeights struct {
 	nrows  int
 	rowOff []int
 	wt     []float32 // nrows·Dim
-	packed []float32 // wt packed for matMulNTPacked (nil: not packed)
+	packed []float32 // wt packed for f32.MatMulNTPacked (nil: not packed)
 	bias   []float32 // per bank: its biases padded to padLanes(Filters)
 	zero   []float32 // the table row of PAD: zeros, with windowMax's slack
 }
@@ -52,7 +53,7 @@ func (sw *slotWeights) build(m *Model) {
 			}
 		}
 	}
-	sw.packed = packWeights(sw.packed, sw.wt, n, d)
+	sw.packed = f32.PackWeights(sw.packed, sw.wt, n, d)
 }
 
 // wordSet maps the vocabulary ids of a group of texts to dense local indices.
@@ -104,7 +105,7 @@ func gatherRows(m *Model, words []int32, emb []float32, lo, hi int) {
 // tableRows fills rows lo..hi of the slot table from the gathered embeddings.
 func tableRows(sw *slotWeights, emb, tab []float32, d, lo, hi int) {
 	if hi > lo {
-		matMulNTPacked(tab[lo*sw.nrows:hi*sw.nrows], emb[lo*d:hi*d], sw.wt, sw.packed, hi-lo, sw.nrows, d)
+		f32.MatMulNTPacked(tab[lo*sw.nrows:hi*sw.nrows], emb[lo*d:hi*d], sw.wt, sw.packed, hi-lo, sw.nrows, d)
 	}
 }
 

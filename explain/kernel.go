@@ -1,66 +1,18 @@
 package explain
 
-// Portable kernels. The dispatch functions matMulNT, dot, addTo and poolBank
-// (kernel_generic.go, or kernel_simd_amd64.go when built with
-// GOEXPERIMENT=simd on amd64) call these or their SIMD versions.
+// Portable kernels. The dispatch function poolBank (kernel_generic.go, or
+// kernel_simd_amd64.go when built with GOEXPERIMENT=simd on amd64) calls
+// poolBankGo or its SIMD versions; the matrix and dot products are package
+// telltale/internal/f32.
 
 // kernelSet is one implementation of the kernels, for tests that compare
 // every implementation this build and CPU can run with the portable one.
 type kernelSet struct {
 	name     string
-	matMulNT func(c, a, b []float32, m, n, k int)
-	dot      func(x, y []float32) float32
 	poolBank func(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, win []float32)
 }
 
-var portableKernels = kernelSet{name: "go", matMulNT: matMulNTGo, dot: dotGo, poolBank: poolBankGo}
-
-// checkMatMulNT panics unless the slices hold the matrices their shapes say.
-func checkMatMulNT(c, a, b []float32, m, n, k int) {
-	if m < 0 || n < 0 || k < 0 || len(c) < m*n || len(a) < m*k || len(b) < n*k {
-		panic("explain: matMulNT: slice too short for its shape")
-	}
-}
-
-// matMulNTGo sets c (m×n) to a (m×k) times the transpose of b (n×k), all
-// row-major and contiguous. Each c[i][j] is accumulated over p in order, so
-// it equals dotGo(a_i, b_j) bit for bit; blocking over 4 columns only reuses
-// the loads of a_i.
-func matMulNTGo(c, a, b []float32, m, n, k int) {
-	checkMatMulNT(c, a, b, m, n, k)
-	for i := 0; i < m; i++ {
-		ai := a[i*k : i*k+k]
-		ci := c[i*n : i*n+n]
-		j := 0
-		for ; j+4 <= n; j += 4 {
-			b0 := b[j*k : j*k+k]
-			b1 := b[(j+1)*k : (j+1)*k+k]
-			b2 := b[(j+2)*k : (j+2)*k+k]
-			b3 := b[(j+3)*k : (j+3)*k+k]
-			var s0, s1, s2, s3 float32
-			for p, v := range ai {
-				s0 += v * b0[p]
-				s1 += v * b1[p]
-				s2 += v * b2[p]
-				s3 += v * b3[p]
-			}
-			ci[j], ci[j+1], ci[j+2], ci[j+3] = s0, s1, s2, s3
-		}
-		for ; j < n; j++ {
-			ci[j] = dotGo(ai, b[j*k:j*k+k])
-		}
-	}
-}
-
-// dotGo returns the dot product of x and y[:len(x)], accumulated in order.
-func dotGo(x, y []float32) float32 {
-	y = y[:len(x)]
-	var s float32
-	for i, v := range x {
-		s += v * y[i]
-	}
-	return s
-}
+var portableKernels = kernelSet{name: "go", poolBank: poolBankGo}
 
 // addTo adds x to dst elementwise. Len(dst) must be at least len(x).
 func addTo(dst, x []float32) {

@@ -6,14 +6,6 @@ package explain
 // version of kernel.go. Build with GOEXPERIMENT=simd on amd64 for the fast
 // path (kernel_simd_amd64.go).
 
-// matMulNT sets c (m×n) to a (m×k) times the transpose of b (n×k), all
-// row-major and contiguous. Len(c) must be at least m·n, len(a) at least m·k,
-// len(b) at least n·k.
-func matMulNT(c, a, b []float32, m, n, k int) { matMulNTGo(c, a, b, m, n, k) }
-
-// dot returns the dot product of x and y[:len(x)].
-func dot(x, y []float32) float32 { return dotGo(x, y) }
-
 // poolBank max-pools one bank of filters over a text (see poolBankGo).
 func poolBank(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, win []float32) {
 	poolBankGo(pre, start, bias, rows, w, F, win)

@@ -15,9 +15,9 @@ func randSlice(rng *rand.Rand, n int) []float32 {
 }
 
 // Every kernel set this build and CPU can run must agree with the portable
-// one on random inputs of odd sizes: poolBank bit for bit (the sums are taken
-// in the same order), matMulNT and dot within float rounding of a float64
-// reference.
+// one on random inputs of odd sizes, bit for bit (the sums are taken in the
+// same order). The matrix and dot products are tested in
+// telltale/internal/f32.
 func TestKernelsAgree(t *testing.T) {
 	sets := kernelSets()
 	t.Logf("kernel level %s, %d implementations", kernelLevel, len(sets))
@@ -69,49 +69,32 @@ func TestKernelsAgree(t *testing.T) {
 				}
 			}
 		}
-		for trial := 0; trial < 200; trial++ {
-			m, n, k := rng.IntN(40), 1+rng.IntN(70), rng.IntN(300)
-			if trial%4 == 0 {
-				m, n, k = 8+rng.IntN(150), 300, 128
-			}
-			a, b := randSlice(rng, m*k), randSlice(rng, n*k)
-			c := randSlice(rng, m*n) // stale values must be overwritten
-			ks.matMulNT(c, a, b, m, n, k)
-			for i := 0; i < m; i++ {
-				for j := 0; j < n; j++ {
-					var want, mag float64
-					for p := 0; p < k; p++ {
-						v := float64(a[i*k+p]) * float64(b[j*k+p])
-						want += v
-						mag += math.Abs(v)
-					}
-					if got := float64(c[i*n+j]); math.Abs(got-want) > 1e-6*(1+mag) {
-						t.Fatalf("%s matMulNT %d×%d×%d c[%d][%d] = %g, want %g", ks.name, m, n, k, i, j, got, want)
-					}
-				}
-			}
-			if k > 0 && n > 0 {
-				x := randSlice(rng, k)
-				got, want := float64(ks.dot(x, b)), float64(dotGo(x, b))
-				if math.Abs(got-want) > 1e-5*(1+math.Abs(want)) {
-					t.Fatalf("%s dot k=%d: %g, portable %g", ks.name, k, got, want)
-				}
-			}
-		}
+
 	}
 }
 
-// A word computed on the fly (fewer than smallM rows) gets exactly the slot
-// scores that SlotScore reports.
-func TestSmallMatMulIsDot(t *testing.T) {
+// A word outside the table gets, from the row computed on the fly
+// (wordRow, a one-row f32.MatMulNT), exactly the slot scores that SlotScore
+// reports for it.
+func TestUntabledRowIsSlotScore(t *testing.T) {
 	rng := rand.New(rand.NewPCG(41, 41))
-	for _, k := range []int{1, 7, 16, 33, 128, 300} {
-		a, b := randSlice(rng, k), randSlice(rng, 50*k)
-		c := make([]float32, 50)
-		matMulNT(c, a, b, 1, 50, k)
-		for j := range c {
-			if d := dot(a, b[j*k:(j+1)*k]); math.Float32bits(d) != math.Float32bits(c[j]) {
-				t.Fatalf("k=%d column %d: %g, dot gives %g", k, j, c[j], d)
+	for trial := 0; trial < 10; trial++ {
+		m, _ := tableCase(rng, trial)
+		st := mustTable(t, m, TableOptions{Words: []int32{}}) // PAD and UNK only
+		for id := int32(2); int(id) < m.Config.VocabSize; id++ {
+			if st.Has(id) {
+				t.Fatalf("trial %d: word %d tabled, want only PAD and UNK", trial, id)
+			}
+			for g := 0; g < m.Config.NumFilters(); g++ {
+				b, f := m.FilterConv(g)
+				F := m.Config.Filters
+				row := st.wordRow(b, id, make([]float32, m.FilterWidth(g)*F))
+				for s := 0; s < m.FilterWidth(g); s++ {
+					got, want := row[s*F+f], st.SlotScore(g, s, id)
+					if math.Float32bits(got) != math.Float32bits(want) {
+						t.Fatalf("trial %d word %d g %d s %d: row %g, SlotScore %g", trial, id, g, s, got, want)
+					}
+				}
 			}
 		}
 	}

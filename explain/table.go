@@ -7,6 +7,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/f32"
 )
 
 // DefaultTableBytes is the default memory bound of a SlotTable (256 MiB).
@@ -138,7 +139,7 @@ func NewSlotTable(m *cnn.Model, opt TableOptions) (*SlotTable, error) {
 			}
 		}
 		parallelRows(n, workers, 64, func(lo, hi int) {
-			matMulNT(tb.t[lo*w*F:hi*w*F], emb[lo*d:hi*d], tb.wt, hi-lo, w*F, d)
+			f32.MatMulNT(tb.t[lo*w*F:hi*w*F], emb[lo*d:hi*d], tb.wt, hi-lo, w*F, d)
 		})
 		st.banks = append(st.banks, tb)
 	}
@@ -166,7 +167,9 @@ func (st *SlotTable) SlotScore(g, s int, id int32) float32 {
 	if r := st.rows[id]; r >= 0 {
 		return tb.t[(int(r)*tb.width+s)*tb.filters+f]
 	}
-	return dot(st.m.Row(id), st.m.FilterSlot(g, s))
+	// The entry of the one-row product that wordRow computes, bit for bit,
+	// so that both give a word outside the table the same slot scores.
+	return f32.RowDot(st.m.Row(id), tb.wt, tb.width*tb.filters, st.m.Config.Dim, s*tb.filters+f)
 }
 
 // wordRow returns the width×filters slot scores of id for bank b, from the
@@ -177,7 +180,7 @@ func (st *SlotTable) wordRow(b int, id int32, buf []float32) []float32 {
 	if r := st.rows[id]; r >= 0 {
 		return tb.t[int(r)*n : int(r)*n+n]
 	}
-	matMulNT(buf[:n], st.m.Row(id), tb.wt, 1, n, st.m.Config.Dim)
+	f32.MatMulNT(buf[:n], st.m.Row(id), tb.wt, 1, n, st.m.Config.Dim)
 	return buf[:n]
 }
 
