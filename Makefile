@@ -49,7 +49,7 @@ test-go:
 
 # The portable kernels (no SIMD) must give the same results.
 test-portable:
-	GOEXPERIMENT= CI=true $(GO) test -tags ci -count=1 -run 'Kernel|Predict|Forward|Table' ./cnn ./explain
+	GOEXPERIMENT= CI=true $(GO) test -tags ci -count=1 -run 'Kernel|Predict|Forward|Table|MatMul|Dot' ./cnn ./explain ./internal/f32
 
 # The race detector over the training, profiling and GUI-state packages
 # (short mode leaves out the long corpus-scale runs).
