@@ -25,7 +25,10 @@ filter's strong activations rests on the flagged tokens. On the held-out split
 (--dev; without it, the dev split train kept out of --data) it proves each suspect by ablation
 (the filter masked), by counterfactual substitution of its cue tokens with
 label-neutral words, and on the texts where the cue points away from the gold
-label. Suspects are ranked by a score whose every part is shown.`,
+label. Flagged words that occur in the same texts are merged into one cue
+(a footer line, say), and the filters keyed on each cue are masked together
+too. Suspects and cues are ranked by scores whose every part is shown, and the
+output ends with the mask command to try (--masked-out writes that model).`,
 		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
 			var df dataFlags
 			df.register(fs, "held-out file for the interventions (default: the dev split train kept out of --data)")

@@ -140,6 +140,15 @@ func printCommandHelp(w io.Writer, c *command) {
 	fs := flag.NewFlagSet(c.Name, flag.ContinueOnError)
 	c.Setup(fs)
 	fmt.Fprintln(w, "\nOptions:")
-	fs.SetOutput(w)
-	fs.PrintDefaults()
+	fs.VisitAll(func(f *flag.Flag) {
+		name, usage := flag.UnquoteUsage(f)
+		line := "  --" + f.Name
+		if name != "" {
+			line += " " + name
+		}
+		if f.DefValue != "" && f.DefValue != "false" && f.DefValue != "0" {
+			usage += fmt.Sprintf(" (default %s)", f.DefValue)
+		}
+		fmt.Fprintf(w, "%s\n    \t%s\n", line, usage)
+	})
 }
