@@ -5,6 +5,8 @@ package cnn
 import (
 	"simd/archsimd"
 	"unsafe"
+
+	"telltale/internal/f32"
 )
 
 // SIMD kernels written with Go's experimental simd/archsimd package (build
@@ -13,23 +15,14 @@ import (
 // (Float32x8), else the portable versions of kernel.go. The matrix product
 // and dot product live in telltale/internal/f32, which picks the same level.
 const (
-	levelGo = iota
-	levelAVX2
-	levelAVX512
+	levelGo     = f32.LevelGo
+	levelAVX2   = f32.LevelAVX2
+	levelAVX512 = f32.LevelAVX512
 )
 
-// simdLevel is the implementation the dispatch functions use on this CPU.
-var simdLevel = detectLevel()
-
-func detectLevel() int {
-	switch {
-	case archsimd.X86.AVX512():
-		return levelAVX512
-	case archsimd.X86.AVX2() && archsimd.X86.FMA():
-		return levelAVX2
-	}
-	return levelGo
-}
+// simdLevel is the implementation the dispatch functions use on this CPU,
+// the same one internal/f32 picks.
+var simdLevel = f32.Level()
 
 // kernelLevel names the implementation the dispatch functions use.
 var kernelLevel = [...]string{"go", "avx2", "avx512"}[simdLevel]

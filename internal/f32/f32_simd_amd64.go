@@ -27,10 +27,17 @@ import (
 // that follows the vector loop), so that callers' legacy-SSE code does not
 // pay the AVX–SSE transition penalty.
 
+// The implementations, in the order of the CPU features they need.
 const (
-	levelGo = iota
-	levelAVX2
-	levelAVX512
+	LevelGo     = iota // portable Go
+	LevelAVX2          // AVX2 with FMA, Float32x8
+	LevelAVX512        // AVX-512, Float32x16
+)
+
+const (
+	levelGo     = LevelGo
+	levelAVX2   = LevelAVX2
+	levelAVX512 = LevelAVX512
 )
 
 // simdLevel is the implementation the dispatch functions use on this CPU.
@@ -45,6 +52,10 @@ func detectLevel() int {
 	}
 	return levelGo
 }
+
+// Level is the best implementation this CPU runs (LevelGo, LevelAVX2 or
+// LevelAVX512); every package's SIMD kernels dispatch on it.
+func Level() int { return simdLevel }
 
 // kernelLevel names the implementation the dispatch functions use.
 var kernelLevel = [...]string{"go", "avx2", "avx512"}[simdLevel]
