@@ -70,8 +70,9 @@ bench: corpora build
 	@bench/run.sh $(BIN)
 
 screenshots:
-	@scripts/ensure-debian-packages.sh $(SHOT_PKGS)
+	@scripts/ensure-debian-packages.sh $(SHOT_PKGS) chromium
 	@scripts/screenshots.sh
+	@scripts/report-screenshot.sh
 
 clean:
 	rm -rf bin testdata/spamassassin testdata/afinn bench/out
