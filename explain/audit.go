@@ -11,7 +11,6 @@ import (
 	"sync/atomic"
 
 	"telltale/cnn"
-	"telltale/corpus"
 )
 
 // AuditOptions controls RunAudit. Zero values select the defaults.
@@ -373,9 +372,9 @@ func RunAudit(ctx context.Context, m *cnn.Model, train, heldout AuditData, opt A
 	a := &auditor{m: m, train: train, held: heldout, opt: opt, progress: progress, nf: m.Config.NumFilters(), C: m.Config.Classes}
 	words := make([]string, m.Config.VocabSize)
 	for id := range words {
-		words[id] = audWord(m, int32(id))
+		words[id] = wordOf(m, int32(id))
 	}
-	a.assoc = Associate(train.IDs, train.Gold, audLabels(m), words, opt.Association)
+	a.assoc = Associate(train.IDs, train.Gold, labelNames(m), words, opt.Association)
 	if err := a.table(); err != nil {
 		return nil, err
 	}
@@ -745,7 +744,7 @@ func (a *auditor) ablatedSet(i int, gs []int, z []float64) {
 // adds counterfactuals and examples to the top ones.
 func (a *auditor) assemble(ctx context.Context) (*Audit, error) {
 	m := a.m
-	labels := audLabels(m)
+	labels := labelNames(m)
 	out := &Audit{Labels: labels, TrainTexts: a.train.Len(), HeldoutTexts: a.held.Len(),
 		Prior: a.assoc.Prior, PriorKind: a.assoc.PriorKind, Alpha: a.assoc.Alpha, Tested: a.assoc.Tested,
 		Threshold: a.assoc.Threshold, Smoothing: a.assoc.Smoothing, Formula: ScoreFormula, Tokens: []FlaggedToken{},
@@ -869,13 +868,13 @@ func (a *auditor) metricsSet(gs []int) cnn.Metrics {
 		a.ablatedSet(i, gs, z)
 		pred[i] = audArgmax(z)
 	}
-	return cnn.ComputeMetrics(audLabels(a.m), a.held.Gold, pred, nil, 0)
+	return cnn.ComputeMetrics(labelNames(a.m), a.held.Gold, pred, nil, 0)
 }
 
 // suspect scores filter g.
 func (a *auditor) suspect(g int, base cnn.Metrics) Suspect {
 	m, e, pr := a.m, &a.ev[g], &a.prof.Filters[g]
-	labels := audLabels(m)
+	labels := labelNames(m)
 	s := Suspect{Filter: g, Width: m.FilterWidth(g), Class: pr.Class, Label: pr.Label}
 	s.Parts = Parts{FlaggedMass: e.flagMass, Mass: e.mass, AboveWindows: e.above, Threshold: pr.Threshold}
 	if e.mass > 0 {
@@ -995,7 +994,7 @@ type intervention struct {
 // (label cueClass) the push toward cueClass and the cue-conflicting subset.
 // What names the intervention in example notes ("masking the filter").
 func (a *auditor) intervene(gs []int, cues []int32, cueClass int, base cnn.Metrics, what string) intervention {
-	labels := audLabels(a.m)
+	labels := labelNames(a.m)
 	var iv intervention
 	ab := a.metricsSet(gs)
 	iv.ablation = Ablation{Accuracy: base.Accuracy, AccuracyMasked: ab.Accuracy, DeltaAccuracy: ab.Accuracy - base.Accuracy,
@@ -1107,7 +1106,7 @@ func concentration(m *cnn.Model, e *filterEvidence) Concentration {
 	if n > 1 {
 		c.Normalized = c.Entropy / math.Log2(float64(n))
 	}
-	c.TopWord = audWord(m, topID)
+	c.TopWord = wordOf(m, topID)
 	c.TopShare = float64(top) / float64(n)
 	return c
 }
@@ -1152,31 +1151,6 @@ func joinTokens(t []string) string {
 		s += w
 	}
 	return s
-}
-
-func audLabels(m *cnn.Model) []string {
-	out := make([]string, m.Config.Classes)
-	for c := range out {
-		if c < len(m.Labels) {
-			out[c] = m.Labels[c]
-		} else {
-			out[c] = fmt.Sprintf("class %d", c)
-		}
-	}
-	return out
-}
-
-func audWord(m *cnn.Model, id int32) string {
-	if id >= 0 && int(id) < len(m.Vocab) {
-		return m.Vocab[id]
-	}
-	switch id {
-	case corpus.PAD:
-		return corpus.PADWord
-	case corpus.UNK:
-		return corpus.UNKWord
-	}
-	return fmt.Sprintf("#%d", id)
 }
 
 // audParallel calls fn(i) for i in 0 … n−1 from up to workers goroutines.

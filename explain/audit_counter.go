@@ -85,10 +85,10 @@ func (a *auditor) counterfactual(ctx context.Context, cues []int32) (*Counterfac
 	}
 	cf := &Counterfactual{Texts: len(texts), Draws: a.opt.Draws}
 	for _, id := range cues {
-		cf.Cues = append(cf.Cues, audWord(a.m, id))
+		cf.Cues = append(cf.Cues, wordOf(a.m, id))
 	}
 	for _, id := range alts {
-		cf.Alternatives = append(cf.Alternatives, audWord(a.m, id))
+		cf.Alternatives = append(cf.Alternatives, wordOf(a.m, id))
 	}
 	cf.Indices = texts[:min(len(texts), 200)]
 	var key uint64
@@ -134,8 +134,8 @@ func (a *auditor) counterfactual(ctx context.Context, cues []int32) (*Counterfac
 				if c := slices.Index(cues, id); c >= 0 {
 					edit[j] = pick[c]
 					used = append(used, pick[c])
-					if !slices.Contains(names, audWord(a.m, id)+"→"+audWord(a.m, pick[c])) {
-						names = append(names, audWord(a.m, id)+"→"+audWord(a.m, pick[c]))
+					if !slices.Contains(names, wordOf(a.m, id)+"→"+wordOf(a.m, pick[c])) {
+						names = append(names, wordOf(a.m, id)+"→"+wordOf(a.m, pick[c]))
 					}
 				}
 			}
@@ -167,7 +167,7 @@ func (a *auditor) counterfactual(ctx context.Context, cues []int32) (*Counterfac
 	}
 	var sum, ctl float64
 	var exs []AuditExample
-	labels := audLabels(a.m)
+	labels := labelNames(a.m)
 	for k, r := range res {
 		sum += r.change
 		ctl += r.ctlChange

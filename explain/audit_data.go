@@ -107,7 +107,7 @@ func (d AuditData) snippet(m *cnn.Model, i, lo, hi, ctx int) string {
 	if d.Tokens == nil {
 		var parts []string
 		for j := max(0, lo-4); j < min(len(ids), hi+4); j++ {
-			w := audWord(m, ids[j])
+			w := wordOf(m, ids[j])
 			if j == lo {
 				w = "[" + w
 			}

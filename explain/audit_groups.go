@@ -400,14 +400,14 @@ func (a *auditor) cueGroups(sus []Suspect, base cnn.Metrics) ([]CueGroup, []int)
 			members[member[i]] = append(members[member[i]], i)
 		}
 	}
-	labels := audLabels(a.m)
+	labels := labelNames(a.m)
 	keys := slices.Sorted(maps.Keys(members))
 	groups := make([]CueGroup, len(keys))
 	audParallel(len(keys), a.opt.Workers, func(k int) {
 		G := keys[k]
 		cg := CueGroup{IDs: slices.Clone(wg.ids[G]), Class: wg.class[G], Label: labels[wg.class[G]]}
 		for _, id := range cg.IDs {
-			cg.Words = append(cg.Words, audWord(a.m, id))
+			cg.Words = append(cg.Words, wordOf(a.m, id))
 		}
 		cg.TrainTexts = len(wg.docs[G])
 		same := 0
@@ -428,7 +428,7 @@ func (a *auditor) cueGroups(sus []Suspect, base cnn.Metrics) ([]CueGroup, []int)
 		}
 		slices.Sort(sh)
 		for _, id := range sh {
-			cg.Shared = append(cg.Shared, audWord(a.m, id))
+			cg.Shared = append(cg.Shared, wordOf(a.m, id))
 		}
 		for _, i := range members[G] {
 			g := sus[i].Filter

@@ -123,7 +123,7 @@ func TestJointAblationMatchesMasked(t *testing.T) {
 		}
 		a := &auditor{m: m, held: d, nf: cfg.NumFilters(), C: cfg.Classes, progress: func(string, int, int) {}}
 		a.opt.defaults(len(d.IDs))
-		a.assoc = Associate(d.IDs, d.Gold, audLabels(m), m.Vocab, AssociationOptions{MinCount: 1})
+		a.assoc = Associate(d.IDs, d.Gold, labelNames(m), m.Vocab, AssociationOptions{MinCount: 1})
 		if err := a.table(); err != nil {
 			t.Fatal(err)
 		}

@@ -10,7 +10,6 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
-	"strconv"
 	"strings"
 	"testing"
 
@@ -265,7 +264,7 @@ func TestAblationMatchesMasked(t *testing.T) {
 		}
 		a := &auditor{m: m, held: d, nf: cfg.NumFilters(), C: cfg.Classes, progress: func(string, int, int) {}}
 		a.opt.defaults(len(d.IDs))
-		a.assoc = Associate(d.IDs, d.Gold, audLabels(m), m.Vocab, AssociationOptions{MinCount: 1})
+		a.assoc = Associate(d.IDs, d.Gold, labelNames(m), m.Vocab, AssociationOptions{MinCount: 1})
 		if err := a.table(); err != nil {
 			t.Fatal(err)
 		}
@@ -339,7 +338,7 @@ func TestAuditDeterministic(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		outs = append(outs, auditRound(t, b))
+		outs = append(outs, roundJSON(t, b))
 	}
 	if !bytes.Equal(outs[0], outs[1]) {
 		t.Error("1 and 3 workers give different audits")
@@ -375,7 +374,7 @@ func TestAuditGolden(t *testing.T) {
 			t.Errorf("token JSON lacks %q", k)
 		}
 	}
-	auditGolden(t, "planted.golden.json", auditRound(t, b))
+	auditGolden(t, "planted.golden.json", roundJSON(t, b))
 	var sb bytes.Buffer
 	if err := a.WriteText(&sb); err != nil {
 		t.Fatal(err)
@@ -407,40 +406,6 @@ func auditGolden(t *testing.T, name string, got []byte) {
 	}
 }
 
-// auditRound rewrites every number of a JSON document to 6 significant
-// digits, so the golden file does not depend on the last bits of float
-// arithmetic.
-func auditRound(t *testing.T, b []byte) []byte {
-	t.Helper()
-	var v any
-	d := json.NewDecoder(bytes.NewReader(b))
-	d.UseNumber()
-	if err := d.Decode(&v); err != nil {
-		t.Fatal(err)
-	}
-	var walk func(any) any
-	walk = func(x any) any {
-		switch x := x.(type) {
-		case map[string]any:
-			for k, v := range x {
-				x[k] = walk(v)
-			}
-		case []any:
-			for i, v := range x {
-				x[i] = walk(v)
-			}
-		case json.Number:
-			f, _ := x.Float64()
-			return json.Number(strconv.FormatFloat(f, 'g', 6, 64))
-		}
-		return x
-	}
-	out, err := json.MarshalIndent(walk(v), "", "  ")
-	if err != nil {
-		t.Fatal(err)
-	}
-	return append(out, '\n')
-}
 
 func ExampleMaskTokens() {
 	cm, err := MaskTokens([]string{"kioskmail", "/TKREF-[0-9]{5}/"})

@@ -203,7 +203,7 @@ func labelNames(m *cnn.Model) []string {
 }
 
 func wordOf(m *cnn.Model, id int32) string {
-	if int(id) < len(m.Vocab) {
+	if id >= 0 && int(id) < len(m.Vocab) {
 		return m.Vocab[id]
 	}
 	switch id {
