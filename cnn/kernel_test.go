@@ -6,7 +6,19 @@ import (
 	"math/rand/v2"
 	"testing"
 	"unsafe"
+
+	"telltale/internal/kerneltest"
 )
+
+// The shared kernel-test helpers (internal/kerneltest).
+var (
+	kernelSizes = kerneltest.Sizes
+	randSlice   = kerneltest.RandSlice
+	withGuard   = kerneltest.WithGuard
+	checkGuard  = kerneltest.CheckGuard
+)
+
+const kernelTol = kerneltest.Tol
 
 // The kernel tests run every implementation this build can use (the portable
 // one always; AVX2 and AVX-512 ones when built with GOEXPERIMENT=simd on a CPU
@@ -15,43 +27,6 @@ import (
 //
 //	go test ./cnn -run Kernel
 //	GOEXPERIMENT=simd go test ./cnn -run Kernel
-
-// kernelSizes are the odd and even sizes every kernel is tried on.
-var kernelSizes = []int{1, 2, 3, 7, 15, 16, 17, 31, 33, 100, 129}
-
-// kernelTol is the relative tolerance of float32 kernels against float64
-// references, relative to the sum of absolute terms. A float32 sum of k
-// terms errs by at most about k·2⁻²⁴ of that sum (standard rounding-error
-// bound, Higham, "Accuracy and Stability of Numerical Algorithms", §3.1);
-// random rounding errors grow like √k, well inside 1e-5 for k ≤ 129.
-const kernelTol = 1e-5
-
-func randSlice(r *rand.Rand, n int) []float32 {
-	s := make([]float32, n)
-	for i := range s {
-		s[i] = float32(r.NormFloat64())
-	}
-	return s
-}
-
-// withGuard returns a slice of n values filled with fill, followed by a
-// guard region (in the same array, beyond len) that a kernel must not touch.
-func withGuard(n int, fill float32) (s, guard []float32) {
-	full := make([]float32, n+8)
-	for i := range full {
-		full[i] = fill
-	}
-	return full[:n], full[n:]
-}
-
-func checkGuard(t *testing.T, guard []float32, fill float32, what string) {
-	t.Helper()
-	for i, v := range guard {
-		if v != fill && !(math.IsNaN(float64(v)) && math.IsNaN(float64(fill))) {
-			t.Fatalf("%s: wrote past the end: guard[%d] = %g", what, i, v)
-		}
-	}
-}
 
 func TestKernelSets(t *testing.T) {
 	sets := kernelSets()

@@ -406,7 +406,6 @@ func auditGolden(t *testing.T, name string, got []byte) {
 	}
 }
 
-
 func ExampleMaskTokens() {
 	cm, err := MaskTokens([]string{"kioskmail", "/TKREF-[0-9]{5}/"})
 	if err != nil {

@@ -4,15 +4,12 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"telltale/internal/kerneltest"
 )
 
-func randSlice(rng *rand.Rand, n int) []float32 {
-	x := make([]float32, n)
-	for i := range x {
-		x[i] = float32(rng.NormFloat64())
-	}
-	return x
-}
+// randSlice is the shared kernel-test helper.
+var randSlice = kerneltest.RandSlice
 
 // Every kernel set this build and CPU can run must agree with the portable
 // one on random inputs of odd sizes, bit for bit (the sums are taken in the
