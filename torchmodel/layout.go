@@ -170,6 +170,18 @@ func mapWeights(sd *statedict.StateDict, l Layout, file string) (*weights, error
 		}
 		return t.Data, nil
 	}
+	named := map[string]bool{}
+	for _, k := range slices.Concat(l.Embeddings, l.Convs, []string{l.Output}) {
+		named[k], named[biasKey(k)] = true, true
+		if _, ok := sd.Tensors[k]; !ok {
+			return nil, fmt.Errorf("torchmodel: %s: no key %s (named in the layout); the file's keys are %s: %w", file, k, strings.Join(sd.Keys, ", "), ErrLayout)
+		}
+	}
+	for _, k := range sd.Keys {
+		if !named[k] {
+			return nil, layoutErr(file, k, sd.Tensors[k], "not part of the layout (%s): telltale's sentence CNN has no other parameters", l)
+		}
+	}
 	w := &weights{}
 	if err := w.tables(sd, l, file, get); err != nil {
 		return nil, err
@@ -179,11 +191,6 @@ func mapWeights(sd *statedict.StateDict, l Layout, file string) (*weights, error
 	}
 	if err := w.output(l, file, get, bias); err != nil {
 		return nil, err
-	}
-	for _, k := range sd.Keys {
-		if !used[k] {
-			return nil, layoutErr(file, k, sd.Tensors[k], "not part of the layout (%s): telltale's sentence CNN has no other parameters", l)
-		}
 	}
 	return w, nil
 }

@@ -104,7 +104,7 @@ func vocabJSON(path string, b []byte) ([]string, error) {
 		if err != nil {
 			return nil, bad("malformed JSON: %v", err)
 		}
-		tok := kt.(string)
+		tok, line := kt.(string), lineAt()
 		vt, err := dec.Token()
 		if err != nil {
 			return nil, bad("malformed JSON: %v", err)
@@ -120,7 +120,7 @@ func vocabJSON(path string, b []byte) ([]string, error) {
 		if _, dup := ids[tok]; dup {
 			return nil, bad("the token %q again (first on line %d): each token must appear once", tok, lineOf[tok])
 		}
-		ids[tok], lineOf[tok] = int(id), lineAt()
+		ids[tok], lineOf[tok] = int(id), line
 		for len(byID) <= int(id) {
 			byID = append(byID, "")
 		}
