@@ -1,0 +1,143 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/torchmodel"
+)
+
+// exportedModel writes a small random telltale model and its export; it
+// returns the model file and the export folder.
+func exportedModel(t *testing.T) (string, string) {
+	t.Helper()
+	dir := t.TempDir()
+	cfg := cnn.Config{VocabSize: 6, Dim: 4, Widths: []int{2, 3}, Filters: 3, Classes: 2}
+	m, err := cnn.New(cfg, []string{"<pad>", "<unk>", "free", "money", "meeting", "today"}, []string{"ham", "spam"}, 9)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m.Tokenizer = corpus.TokenizerConfig{Lower: true}
+	model := filepath.Join(dir, "model.tt")
+	if err := m.Save(model); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "exported")
+	var stdout, stderr bytes.Buffer
+	if err := runExport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, exportOptions{Model: model, Out: out}); err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range []string{torchmodel.WeightsFile, torchmodel.VocabFile, torchmodel.LabelsFile} {
+		if _, err := os.Stat(filepath.Join(out, f)); err != nil {
+			t.Fatalf("export wrote no %s: %v", f, err)
+		}
+	}
+	return model, out
+}
+
+// An exported model imported again is a model file every command reads:
+// explain runs on it, and its Info records where it came from.
+func TestImportCommand(t *testing.T) {
+	_, exp := exportedModel(t)
+	out := filepath.Join(t.TempDir(), "imported.tt")
+	var stdout, stderr bytes.Buffer
+	o := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
+		LabelsFile: filepath.Join(exp, torchmodel.LabelsFile), PadID: -1, UnkID: -1, Lower: true, Out: out, JSON: true}
+	if err := runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o); err != nil {
+		t.Fatal(err)
+	}
+	var s importSummary
+	if err := json.Unmarshal(stdout.Bytes(), &s); err != nil || s.Vocab != 6 || s.Format != "npz" {
+		t.Fatalf("summary %s: %v", stdout.String(), err)
+	}
+	m, err := cnn.Load(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.HasSuffix(m.Info.Notes["origin_file"], torchmodel.WeightsFile) || len(m.Info.Notes["origin_sha256"]) != 64 {
+		t.Errorf("origin not recorded: %v", m.Info.Notes)
+	}
+	code, stdoutS, stderrS := runCmd(t, "", "explain", "--model", out, "--text", "Free money today", "--json")
+	if code != 0 || !strings.Contains(stdoutS, "spam") {
+		t.Errorf("explain on the imported model: exit %d\n%s\n%s", code, stdoutS, stderrS)
+	}
+}
+
+// Bad input stops import before anything is written, with a message naming
+// the file; an output that is an input, directly or through a symbolic
+// link, is refused before any work and the input is left as it was.
+func TestImportCommandWritesNothingOnBadInput(t *testing.T) {
+	_, exp := exportedModel(t)
+	dir := t.TempDir()
+	vocab := filepath.Join(exp, torchmodel.VocabFile)
+	before, _ := os.ReadFile(vocab)
+	link := filepath.Join(dir, "link.tt")
+	if err := os.Symlink(vocab, link); err != nil {
+		t.Fatal(err)
+	}
+	short := filepath.Join(dir, "short.txt")
+	os.WriteFile(short, []byte("<pad>\n<unk>\nfree\n"), 0o644)
+	good := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: vocab, Labels: "ham,spam",
+		PadID: -1, UnkID: -1, Lower: true, Out: filepath.Join(dir, "out.tt")}
+	cases := []struct {
+		name string
+		edit func(*importOptions)
+		says []string
+	}{
+		{"vocabulary size", func(o *importOptions) { o.Vocab = short }, []string{"short.txt", "embedding.weight"}},
+		{"labels", func(o *importOptions) { o.Labels = "a,b,c" }, []string{"3 labels", "output.weight"}},
+		{"out is the vocabulary", func(o *importOptions) { o.Out = vocab }, []string{"--out", "--vocab", "same file"}},
+		{"out links to the vocabulary", func(o *importOptions) { o.Out = link }, []string{"link.tt", "--vocab", "same file"}},
+		{"missing state_dict", func(o *importOptions) { o.StateDict = filepath.Join(dir, "none.pt") }, []string{"--state-dict", "none.pt"}},
+	}
+	for _, c := range cases {
+		o := good
+		c.edit(&o)
+		var stdout, stderr bytes.Buffer
+		err := runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o)
+		if err == nil {
+			t.Errorf("%s: no error", c.name)
+			continue
+		}
+		for _, s := range c.says {
+			if !strings.Contains(err.Error(), s) {
+				t.Errorf("%s: %v\ndoes not say %q", c.name, err, s)
+			}
+		}
+		if _, err := os.Stat(good.Out); err == nil {
+			t.Fatalf("%s: %s was written", c.name, good.Out)
+		}
+		if after, _ := os.ReadFile(vocab); !bytes.Equal(after, before) {
+			t.Fatalf("%s: the vocabulary file changed", c.name)
+		}
+	}
+}
+
+// Export refuses a folder where one of its files is the model itself
+// (through a symbolic link), before any work; the model is unchanged.
+func TestExportCommandRefusesOverwritingTheModel(t *testing.T) {
+	model, _ := exportedModel(t)
+	before, _ := os.ReadFile(model)
+	out := t.TempDir()
+	if err := os.Symlink(model, filepath.Join(out, torchmodel.VocabFile)); err != nil {
+		t.Fatal(err)
+	}
+	var stdout, stderr bytes.Buffer
+	err := runExport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, exportOptions{Model: model, Out: out})
+	if err == nil || !strings.Contains(err.Error(), "same file as --model") {
+		t.Fatalf("%v, want a refusal naming --model", err)
+	}
+	if after, _ := os.ReadFile(model); !bytes.Equal(after, before) {
+		t.Fatal("the model file changed")
+	}
+	if _, err := os.Stat(filepath.Join(out, torchmodel.WeightsFile)); err == nil {
+		t.Error("state_dict.npz was written")
+	}
+}
