@@ -251,3 +251,34 @@ func TestExportRefusesLineBreaks(t *testing.T) {
 		t.Errorf("%d files written", len(entries))
 	}
 }
+
+// FuzzReadVocab reads arbitrary vocabulary files as JSON and as lines: the
+// result is an error or tokens that are non-empty and distinct.
+func FuzzReadVocab(f *testing.F) {
+	f.Add([]byte(`{"<pad>": 0, "<unk>": 1, "the": 2}`))
+	f.Add([]byte("{\"a\": 0,\n \"a\": 1}"))
+	f.Add([]byte("<pad>\r\n<unk>\r\nthe\r\n"))
+	dir := f.TempDir()
+	f.Fuzz(func(t *testing.T, data []byte) {
+		for _, name := range []string{"v.json", "v.txt"} {
+			p := filepath.Join(dir, name)
+			if err := os.WriteFile(p, data, 0o644); err != nil {
+				t.Fatal(err)
+			}
+			words, err := ReadVocab(p)
+			if err != nil {
+				if !errors.Is(err, ErrVocab) {
+					t.Fatalf("%s: %v does not wrap ErrVocab", name, err)
+				}
+				continue
+			}
+			seen := map[string]bool{}
+			for _, w := range words {
+				if w == "" || seen[w] {
+					t.Fatalf("%s: empty or repeated token %q in %q", name, w, words)
+				}
+				seen[w] = true
+			}
+		}
+	})
+}

@@ -132,6 +132,9 @@ func vocabJSON(path string, b []byte) ([]string, error) {
 	if _, err := dec.Token(); err != nil {
 		return nil, bad("malformed JSON: %v", err)
 	}
+	if _, err := dec.Token(); err != io.EOF {
+		return nil, bad("more after the JSON object: give one object of token → id")
+	}
 	if len(byID) == 0 {
 		return nil, bad("an empty vocabulary")
 	}
