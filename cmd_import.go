@@ -9,29 +9,33 @@ import (
 	"slices"
 	"strings"
 
+	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/torchmodel"
+	"telltale/torchmodel/npy"
 )
 
 // importOptions are the options of `telltale import`.
 type importOptions struct {
-	StateDict  string // torch.save file or .npz
-	Entry      string // checkpoint entry holding the state_dict
-	Vocab      string // vocabulary: .json token → id, or one token per line
-	PadID      int    // -1: detect
-	UnkID      int    // -1: detect
-	ZeroPad    bool
-	Labels     string // comma-separated label names in output order
-	LabelsFile string // or one label per line
-	Lower      bool
-	KeepForm   bool
-	Tokenizer  string // tokenizer file in github.com/sugarme/tokenizer's JSON format
-	Embeddings string // layout: embedding table key(s), comma-separated
-	Convs      string // layout: convolution weight keys in order
-	Output     string // layout: output layer weight key
-	Out        string // the telltale model file to write
-	JSON       bool
-	Quiet      bool
+	StateDict   string // torch.save file or .npz
+	Entry       string // checkpoint entry holding the state_dict
+	Vocab       string // vocabulary: .json token → id, or one token per line
+	PadID       int    // -1: detect
+	UnkID       int    // -1: detect
+	ZeroPad     bool
+	Labels      string // comma-separated label names in output order
+	LabelsFile  string // or one label per line
+	Lower       bool
+	KeepForm    bool
+	Tokenizer   string // tokenizer file in github.com/sugarme/tokenizer's JSON format
+	Embeddings  string // layout: embedding table key(s), comma-separated
+	Convs       string // layout: convolution weight keys in order
+	Output      string // layout: output layer weight key
+	CheckTexts  string // texts, one per line, whose reference logits are in CheckLogits
+	CheckLogits string // .npy of the original model's logits on CheckTexts
+	Out         string // the telltale model file to write
+	JSON        bool
+	Quiet       bool
 }
 
 // registerImportFlags registers the options of import on fs.
@@ -50,6 +54,8 @@ func registerImportFlags(fs *flag.FlagSet, o *importOptions) {
 	fs.StringVar(&o.Embeddings, "embedding-keys", "", "layout: the key of the embedding table, or the two of the multichannel variant in channel order")
 	fs.StringVar(&o.Convs, "conv-keys", "", "layout: the weight keys of the convolutions, in the order their outputs enter the output layer")
 	fs.StringVar(&o.Output, "output-key", "", "layout: the weight key of the output layer")
+	fs.StringVar(&o.CheckTexts, "check-texts", "", "texts, one per line, on which the original model's logits are in --check-logits")
+	fs.StringVar(&o.CheckLogits, "check-logits", "", "a .npy file of the original model's logits on --check-texts (one row per text): the import is refused unless telltale's agree to 1e-4")
 	fs.StringVar(&o.Out, "out", "", "the telltale model file to write")
 	fs.BoolVar(&o.JSON, "json", false, "print a summary as one JSON object")
 	fs.BoolVar(&o.Quiet, "quiet", false, "print nothing but errors (and --json output)")
@@ -68,6 +74,7 @@ type importSummary struct {
 	Labels    []string `json:"labels"`
 	Warnings  []string `json:"warnings,omitempty"`
 	Tokenizer string   `json:"tokenizer"`
+	Check     string   `json:"check,omitempty"`
 }
 
 // runImport reads a sentence CNN trained in PyTorch and writes it as a
@@ -85,6 +92,8 @@ func runImport(ctx context.Context, env *runEnv, o importOptions) error {
 		return usagef("give the label names in output order with exactly one of --labels a,b or --labels-file FILE")
 	case o.PadID < -1 || o.UnkID < -1:
 		return usagef("--pad-id and --unk-id are ids (0 or more), or -1 to find them by name")
+	case (o.CheckTexts == "") != (o.CheckLogits == ""):
+		return usagef("--check-texts and --check-logits go together: the texts and the original model's logits on them")
 	case o.Tokenizer != "" && (o.KeepForm || !o.Lower):
 		return usagef("--tokenizer replaces the built-in rule: --lower and --keep-form do not apply to it")
 	}
@@ -92,7 +101,8 @@ func runImport(ctx context.Context, env *runEnv, o importOptions) error {
 	if !layout.IsZero() && !layout.Complete() {
 		return usagef("a layout names all parts: give --embedding-keys, --conv-keys and --output-key together")
 	}
-	inputs := map[string]string{"--state-dict": o.StateDict, "--vocab": o.Vocab, "--labels-file": o.LabelsFile, "--tokenizer": o.Tokenizer}
+	inputs := map[string]string{"--state-dict": o.StateDict, "--vocab": o.Vocab, "--labels-file": o.LabelsFile, "--tokenizer": o.Tokenizer,
+		"--check-texts": o.CheckTexts, "--check-logits": o.CheckLogits}
 	if err := checkPaths(map[string]string{"--out": o.Out}, inputs); err != nil {
 		return err
 	}
@@ -119,13 +129,18 @@ func runImport(ctx context.Context, env *runEnv, o importOptions) error {
 		return err
 	}
 	m := res.Model
+	if o.CheckTexts != "" {
+		if err := checkImported(m, o); err != nil {
+			return err
+		}
+	}
 	if err := m.Save(o.Out); err != nil {
 		return err
 	}
 	abs, _ := filepath.Abs(o.Out)
 	s := importSummary{Model: abs, From: m.Info.Notes["origin_file"], Format: res.Format, Layout: res.Layout.String(),
 		Vocab: m.Config.VocabSize, Dim: m.Config.Dim, Widths: m.Config.Widths, Maps: m.Config.Filters, Labels: m.Labels,
-		Warnings: res.Warnings, Tokenizer: describeTokenizer(tcfg)}
+		Warnings: res.Warnings, Tokenizer: describeTokenizer(tcfg), Check: m.Info.Notes["origin_check"]}
 	if o.JSON {
 		return writeJSON(env.Stdout, s)
 	}
@@ -137,7 +152,54 @@ func runImport(ctx context.Context, env *runEnv, o importOptions) error {
 	}
 	fmt.Fprintf(env.Stdout, "model saved: %s\nfrom %s (%s)\nlayout: %s\n%d words of dimension %d; widths %v, %d maps each; labels %s\ntokenizer: %s\n",
 		s.Model, s.From, s.Format, s.Layout, s.Vocab, s.Dim, s.Widths, s.Maps, strings.Join(s.Labels, ", "), s.Tokenizer)
+	if s.Check != "" {
+		fmt.Fprintf(env.Stdout, "checked: %s\n", s.Check)
+	}
 	return nil
+}
+
+// checkImported compares the imported model's logits with the original
+// model's on the texts of --check-texts and records the result in the
+// model's notes; a mismatch is an error (nothing is written).
+func checkImported(m *cnn.Model, o importOptions) error {
+	raw, err := os.ReadFile(o.CheckTexts)
+	if err != nil {
+		return fmt.Errorf("--check-texts: %w", err)
+	}
+	texts := strings.Split(strings.TrimSuffix(strings.ReplaceAll(string(raw), "\r\n", "\n"), "\n"), "\n")
+	f, err := os.Open(o.CheckLogits)
+	if err != nil {
+		return fmt.Errorf("--check-logits: %w", err)
+	}
+	defer f.Close()
+	st, err := f.Stat()
+	if err != nil {
+		return fmt.Errorf("--check-logits: %w", err)
+	}
+	a, err := npy.ReadNPY(f, st.Size())
+	if err != nil {
+		return fmt.Errorf("--check-logits %s: %w", o.CheckLogits, err)
+	}
+	if len(a.Shape) != 2 || a.Shape[0] != len(texts) || a.Shape[1] < 1 {
+		return fmt.Errorf("--check-logits %s has shape %v: need one row per line of %s (%d) and one column per output", o.CheckLogits, a.Shape, o.CheckTexts, len(texts))
+	}
+	want := make([][]float32, len(texts))
+	for i := range want {
+		want[i] = a.Data[i*a.Shape[1] : (i+1)*a.Shape[1]]
+	}
+	worst, err := torchmodel.CheckLogits(m, texts, want, o.CheckTexts)
+	if err != nil {
+		return err
+	}
+	m.Info.Notes["origin_check"] = fmt.Sprintf("logits of %d texts (%s) agree with %s to %.2g (tolerance %g)", len(texts), absOrSame(o.CheckTexts), absOrSame(o.CheckLogits), worst, torchmodel.CheckTolerance)
+	return nil
+}
+
+func absOrSame(p string) string {
+	if a, err := filepath.Abs(p); err == nil {
+		return a
+	}
+	return p
 }
 
 func describeTokenizer(c corpus.TokenizerConfig) string {

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"errors"
 	"os"
 	"path/filepath"
 	"strings"
@@ -12,6 +13,7 @@ import (
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/torchmodel"
+	"telltale/torchmodel/npy"
 )
 
 // exportedModel writes a small random telltale model and its export; it
@@ -139,5 +141,54 @@ func TestExportCommandRefusesOverwritingTheModel(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(out, torchmodel.WeightsFile)); err == nil {
 		t.Error("state_dict.npz was written")
+	}
+}
+
+// With --check-texts and --check-logits, import compares its logits with
+// the original model's (here the exported model itself, run by telltale)
+// and records the agreement; logits that differ stop the import before
+// anything is written.
+func TestImportCommandCheck(t *testing.T) {
+	model, exp := exportedModel(t)
+	orig, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	texts := []string{"Free money today", "meeting", "today meeting free free money"}
+	os.WriteFile(filepath.Join(dir, "texts.txt"), []byte(strings.Join(texts, "\n")+"\n"), 0o644)
+	enc, _ := orig.Encoder()
+	var logits []float32
+	for _, s := range texts {
+		_, ids := enc.Encode(s)
+		logits = append(logits, orig.Forward(ids).Logits...)
+	}
+	writeLogits := func(name string, x []float32) string {
+		var b bytes.Buffer
+		npy.WriteNPY(&b, npy.Array{Shape: []int{len(texts), 2}, Data: x})
+		p := filepath.Join(dir, name)
+		os.WriteFile(p, b.Bytes(), 0o644)
+		return p
+	}
+	o := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
+		Labels: "ham,spam", PadID: -1, UnkID: -1, Lower: true, CheckTexts: filepath.Join(dir, "texts.txt"),
+		CheckLogits: writeLogits("good.npy", logits), Out: filepath.Join(dir, "checked.tt")}
+	var stdout, stderr bytes.Buffer
+	if err := runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o); err != nil {
+		t.Fatal(err)
+	}
+	m, err := cnn.Load(o.Out)
+	if err != nil || !strings.Contains(m.Info.Notes["origin_check"], "logits of 3 texts") {
+		t.Fatalf("%v: notes %v", err, m.Info.Notes)
+	}
+	bad := append([]float32(nil), logits...)
+	bad[3] += 0.01
+	o.CheckLogits, o.Out = writeLogits("bad.npy", bad), filepath.Join(dir, "bad.tt")
+	err = runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o)
+	if !errors.Is(err, torchmodel.ErrMismatch) || !strings.Contains(err.Error(), "texts.txt line 2") {
+		t.Fatalf("%v, want ErrMismatch naming line 2", err)
+	}
+	if _, err := os.Stat(o.Out); err == nil {
+		t.Error("the model was written despite the mismatch")
 	}
 }

@@ -215,6 +215,16 @@ func TestImportMatchesTorch(t *testing.T) {
 			}
 			t.Logf("layout: %s; widths %v, %d filters each, dimension %d", res.Layout, m.Config.Widths, m.Config.Filters, m.Config.Dim)
 			want := out.Variants[c.variant]
+			if c.file == "conv1d.pt" {
+				if worst, err := CheckLogits(m, ms.eval, float32s(want), "eval"); err != nil {
+					t.Errorf("CheckLogits with PyTorch's logits: %v", err)
+				} else {
+					t.Logf("CheckLogits: largest difference %.2g", worst)
+				}
+				if _, err := CheckLogits(m, ms.eval, float32s(out.Variants["conv2d"]), "eval"); !errors.Is(err, ErrMismatch) {
+					t.Errorf("CheckLogits with another model's logits: %v, want ErrMismatch", err)
+				}
+			}
 			short, changed := 0, 0
 			for i, text := range ms.eval {
 				got, n := logitsOf(t, m, text)
@@ -329,4 +339,14 @@ func isPlainASCII(s string) bool {
 		}
 	}
 	return true
+}
+
+func float32s(x [][]float64) [][]float32 {
+	out := make([][]float32, len(x))
+	for i, r := range x {
+		for _, v := range r {
+			out[i] = append(out[i], float32(v))
+		}
+	}
+	return out
 }
