@@ -192,3 +192,43 @@ func TestImportCommandCheck(t *testing.T) {
 		t.Error("the model was written despite the mismatch")
 	}
 }
+
+// An imported model (here an export of a telltale model of the demo
+// corpus's labels, with random weights) works in every command that reads
+// a model and data: predict, eval, filters, report, audit and export.
+func TestImportedModelInEveryCommand(t *testing.T) {
+	data := smallDemo(t, 200)
+	ds, _, err := corpus.Load(data, corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	enc, _ := corpus.TrainEncoder(corpus.TokenizerConfig{Lower: true}, ds.Texts())
+	cfg := cnn.Config{VocabSize: enc.Vocab.Len(), Dim: 8, Widths: []int{2, 3}, Filters: 4, Classes: len(ds.Labels)}
+	m0, _ := cnn.New(cfg, enc.Vocab.Words, ds.Labels, 3)
+	m0.Tokenizer = corpus.TokenizerConfig{Lower: true}
+	exp := t.TempDir()
+	if err := torchmodel.Export(m0, exp); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(t.TempDir(), "imported.tt")
+	var so, se bytes.Buffer
+	o := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
+		LabelsFile: filepath.Join(exp, torchmodel.LabelsFile), PadID: -1, UnkID: -1, Lower: true, Out: out}
+	if err := runImport(context.Background(), &runEnv{Stdout: &so, Stderr: &se}, o); err != nil {
+		t.Fatal(err)
+	}
+	for _, args := range [][]string{
+		{"predict", "--model", out, "--text", "free money"},
+		{"eval", "--model", out, "--data", data},
+		{"filters", "--model", out, "--data", data, "--top", "2"},
+		{"report", "--model", out, "--data", data, "--out", filepath.Join(t.TempDir(), "r.html")},
+		{"audit", "--model", out, "--data", data},
+	} {
+		if code, _, stderr := runCmd(t, "", args...); code != 0 {
+			t.Errorf("%s on the imported model: exit %d\n%s", args[0], code, stderr)
+		}
+	}
+	if err := runExport(context.Background(), &runEnv{Stdout: &so, Stderr: &se}, exportOptions{Model: out, Out: filepath.Join(t.TempDir(), "x")}); err != nil {
+		t.Errorf("export of the imported model: %v", err)
+	}
+}
