@@ -225,34 +225,7 @@ func TestImportMatchesTorch(t *testing.T) {
 					t.Errorf("CheckLogits with another model's logits: %v, want ErrMismatch", err)
 				}
 			}
-			short, changed := 0, 0
-			for i, text := range ms.eval {
-				got, n := logitsOf(t, m, text)
-				ref := want[i]
-				if len(ref) == 1 { // one sigmoid unit: telltale holds logits 0 and z
-					if got[0] != 0 {
-						t.Fatalf("text %d: first logit %g, want 0", i, got[0])
-					}
-					got = got[1:]
-				}
-				same := len(got) == len(ref)
-				for k := range ref {
-					same = same && testref.Close(float64(got[k]), ref[k], 1e-5, 1e-5)
-				}
-				if c.zeroPad && n < m.Config.MaxWidth() {
-					short++
-					if !same {
-						changed++
-					}
-					continue
-				}
-				if !same {
-					t.Errorf("text %d (%d tokens): logits %v, torch %v", i, n, got, ref)
-				}
-			}
-			if c.zeroPad && (short == 0 || changed == 0) {
-				t.Errorf("%d short texts, %d with other logits after zeroing the padding row; the warning says they change", short, changed)
-			}
+			compareWithTorch(t, m, ms.eval, want, c.zeroPad)
 		})
 	}
 }
@@ -339,6 +312,42 @@ func isPlainASCII(s string) bool {
 		}
 	}
 	return true
+}
+
+// compareWithTorch compares m's logits on texts with PyTorch's. With
+// zeroedPad (a padding row set to zero on import), texts shorter than the
+// widest filter must differ somewhere, as the warning says, and the others
+// must agree.
+func compareWithTorch(t *testing.T, m *cnn.Model, texts []string, want [][]float64, zeroedPad bool) {
+	t.Helper()
+	short, changed := 0, 0
+	for i, text := range texts {
+		got, n := logitsOf(t, m, text)
+		ref := want[i]
+		if len(ref) == 1 { // one sigmoid unit: telltale holds logits 0 and z
+			if got[0] != 0 {
+				t.Fatalf("text %d: first logit %g, want 0", i, got[0])
+			}
+			got = got[1:]
+		}
+		same := len(got) == len(ref)
+		for k := range ref {
+			same = same && testref.Close(float64(got[k]), ref[k], 1e-5, 1e-5)
+		}
+		if zeroedPad && n < m.Config.MaxWidth() {
+			short++
+			if !same {
+				changed++
+			}
+			continue
+		}
+		if !same {
+			t.Errorf("text %d (%d tokens): logits %v, torch %v", i, n, got, ref)
+		}
+	}
+	if zeroedPad && (short == 0 || changed == 0) {
+		t.Errorf("%d short texts, %d with other logits after zeroing the padding row; the warning says they change", short, changed)
+	}
 }
 
 func float32s(x [][]float64) [][]float32 {

@@ -222,44 +222,8 @@ func (u *unpickler) load() (any, error) {
 
 // step runs one opcode other than STOP.
 func (u *unpickler) step(op byte) error {
-	switch op {
-	case 0x80: // PROTO
-		v, err := u.u8()
-		if err != nil {
-			return err
-		}
-		if v > 5 {
-			return u.fail("pickle protocol %d is newer than 5", v)
-		}
-		return nil
-	case 0x95: // FRAME: only a length hint, the opcodes follow in line
-		_, err := u.u64()
+	if done, err := u.stackOp(op); done {
 		return err
-	case '(': // MARK
-		u.marks = append(u.marks, len(u.stack))
-		return nil
-	case '0': // POP
-		_, err := u.pop()
-		return err
-	case '1': // POP_MARK
-		_, err := u.popMark()
-		return err
-	case '2': // DUP
-		v, err := u.top()
-		if err != nil {
-			return err
-		}
-		u.push(v)
-		return nil
-	case 'N':
-		u.push(nil)
-		return nil
-	case 0x88:
-		u.push(true)
-		return nil
-	case 0x89:
-		u.push(false)
-		return nil
 	}
 	if done, err := u.scalar(op); done {
 		return err
@@ -311,6 +275,45 @@ func (u *unpickler) step(op byte) error {
 		return u.fail("text persistent ids (PERSID) are not used by torch.save: refused")
 	}
 	return u.fail("opcode 0x%02x is not part of the pickle subset torch.save writes", op)
+}
+
+// stackOp handles the protocol, framing and stack opcodes and the
+// constants None, True and False.
+func (u *unpickler) stackOp(op byte) (bool, error) {
+	switch op {
+	case 0x80: // PROTO
+		v, err := u.u8()
+		if err == nil && v > 5 {
+			err = u.fail("pickle protocol %d is newer than 5", v)
+		}
+		return true, err
+	case 0x95: // FRAME: only a length hint, the opcodes follow in line
+		_, err := u.u64()
+		return true, err
+	case '(': // MARK
+		u.marks = append(u.marks, len(u.stack))
+	case '0': // POP
+		_, err := u.pop()
+		return true, err
+	case '1': // POP_MARK
+		_, err := u.popMark()
+		return true, err
+	case '2': // DUP
+		v, err := u.top()
+		if err != nil {
+			return true, err
+		}
+		u.push(v)
+	case 'N':
+		u.push(nil)
+	case 0x88:
+		u.push(true)
+	case 0x89:
+		u.push(false)
+	default:
+		return false, nil
+	}
+	return true, nil
 }
 
 // scalar handles the opcodes that push a number, a string or bytes.

@@ -399,6 +399,31 @@ func readLegacy(ctx context.Context, f *os.File, size int64, opt Options) (*Stat
 	}
 	u.persistent = nil
 	u.stack, u.marks = u.stack[:0], u.marks[:0]
+	at, err := legacyStorages(u, next, storages)
+	if err != nil {
+		return nil, err
+	}
+	sd, refs, err := pick(root, opt.Entry)
+	if err != nil {
+		return nil, err
+	}
+	sd.Format = "legacy"
+	load := func(s *storageRef) ([]byte, error) {
+		b, ok := at[s]
+		if !ok {
+			return nil, fmt.Errorf("storage %s is not in the file: %w", s.key, ErrDamaged)
+		}
+		return b, nil
+	}
+	if err := fill(ctx, sd, refs, load, binary.LittleEndian, opt.Progress); err != nil {
+		return nil, err
+	}
+	return sd, nil
+}
+
+// legacyStorages reads the list of storage keys after the object's pickle
+// and locates each storage's bytes in the data that follows.
+func legacyStorages(u *unpickler, next func(string) (any, error), storages map[string]*storageRef) (map[*storageRef][]byte, error) {
 	keysV, err := next("list of storage keys")
 	if err != nil {
 		return nil, err
@@ -407,7 +432,6 @@ func readLegacy(ctx context.Context, f *os.File, size int64, opt Options) (*Stat
 	if !ok {
 		return nil, fmt.Errorf("the list of storage keys is a %s: %w", kind(keysV), ErrDamaged)
 	}
-	// Locate every storage's bytes; all storages are listed, in order.
 	at := map[*storageRef][]byte{}
 	pos := u.pos
 	for _, k := range kl.items {
@@ -428,20 +452,5 @@ func readLegacy(ctx context.Context, f *os.File, size int64, opt Options) (*Stat
 		at[s] = u.data[pos : pos+nb]
 		pos += nb
 	}
-	sd, refs, err := pick(root, opt.Entry)
-	if err != nil {
-		return nil, err
-	}
-	sd.Format = "legacy"
-	load := func(s *storageRef) ([]byte, error) {
-		b, ok := at[s]
-		if !ok {
-			return nil, fmt.Errorf("storage %s is not in the file: %w", s.key, ErrDamaged)
-		}
-		return b, nil
-	}
-	if err := fill(ctx, sd, refs, load, binary.LittleEndian, opt.Progress); err != nil {
-		return nil, err
-	}
-	return sd, nil
+	return at, nil
 }
