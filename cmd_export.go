@@ -12,6 +12,19 @@ import (
 	"telltale/torchmodel"
 )
 
+// Help of export, for its entry in the command table.
+const (
+	exportUsage = "export --model MODEL --out FOLDER [--json] [--quiet]"
+	exportShort = "hand a model to PyTorch: its state_dict as NumPy arrays, with its vocabulary and labels"
+	exportLong  = `Export writes a telltale model (masked filters included) into a folder:
+state_dict.npz (NumPy arrays, read without pickle), vocab.txt (one token per
+line, id = line number; 0 is padding, 1 unknown), labels.txt (the class names
+in output order) and, for a model with a tokenizer file, tokenizer.json. The
+PyTorch module in the README ("Bring your own model") loads the folder and
+gives telltale's logits. A masked filter's output weights are exported as
+zero, which gives the masked model's logits exactly.`
+)
+
 // exportOptions are the options of `telltale export`.
 type exportOptions struct {
 	Model string // the telltale model file

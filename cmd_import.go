@@ -15,6 +15,35 @@ import (
 	"telltale/torchmodel/npy"
 )
 
+// Help of import, for its entry in the command table.
+const (
+	importUsage = "import --state-dict FILE --vocab FILE (--labels a,b | --labels-file FILE) --out MODEL\n" +
+		"               [--entry NAME] [--pad-id N] [--unk-id N] [--zero-pad] [--lower] [--keep-form] [--tokenizer FILE]\n" +
+		"               [--embedding-keys K[,K]] [--conv-keys K,K,…] [--output-key K]\n" +
+		"               [--check-texts FILE --check-logits FILE.npy] [--json] [--quiet]"
+	importShort = "bring in a sentence CNN trained in PyTorch (its state_dict) as a telltale model"
+	importLong  = `Import reads the state_dict of a sentence CNN that torch.save wrote (or a
+checkpoint holding it), with the vocabulary it was trained with and its label
+names in output order, and writes a telltale model file that every command
+and the window open. The file's pickle is read by telltale's own reader,
+which builds tensors only and refuses anything else by name; nothing in the
+file is run.
+
+Supported: one embedding table (two for the multichannel variant), one
+Conv1d(d, m, k) or Conv2d(1, m, (k, d)) per filter width with the same m,
+ReLU, max over time, dropout, one linear layer or one sigmoid unit. The parts
+are found by shape and file order; --embedding-keys, --conv-keys and
+--output-key name them when that is ambiguous. Any other parameter is refused
+naming its key and shape. A state_dict does not record the activation, the
+pooling or the padding: with --check-texts and --check-logits (your model's
+logits on those texts) the import is checked against your model and stops,
+writing nothing, unless they agree to 1e-4.
+
+The padding and unknown tokens are found by name or given with --pad-id and
+--unk-id; the padding row must be zero unless --zero-pad sets it to zero
+(texts shorter than the widest filter then get other logits).`
+)
+
 // importOptions are the options of `telltale import`.
 type importOptions struct {
 	StateDict   string // torch.save file or .npz
