@@ -73,6 +73,9 @@ func Read(ctx context.Context, file string, opt Options) (*StateDict, error) {
 	if err != nil {
 		return nil, fmt.Errorf("statedict: %w", err)
 	}
+	if st.IsDir() {
+		return nil, fmt.Errorf("statedict: %s is a folder: give the file torch.save wrote: %w", file, ErrNotTorch)
+	}
 	var head [4]byte
 	n, _ := io.ReadFull(f, head[:])
 	var sd *StateDict

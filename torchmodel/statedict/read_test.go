@@ -25,12 +25,24 @@ var torchFiles = sync.OnceValues(func() (string, error) {
 	if err != nil {
 		return "", err
 	}
+	torchDir = dir
 	out, err := exec.Command(testref.Python, "testdata/save_files.py", dir).CombinedOutput()
 	if err != nil {
 		return "", errors.New(string(out))
 	}
 	return dir, nil
 })
+
+// torchDir is the folder torchFiles made, removed after the tests.
+var torchDir string
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if torchDir != "" {
+		os.RemoveAll(torchDir)
+	}
+	os.Exit(code)
+}
 
 type expectedTensor struct {
 	Key    string    `json:"key"`
