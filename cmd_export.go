@@ -1,0 +1,115 @@
+package main
+
+import (
+	"context"
+	"flag"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"telltale/cnn"
+	"telltale/torchmodel"
+)
+
+// Help of export, for its entry in the command table.
+const (
+	exportUsage = "export --model MODEL --out FOLDER [--json] [--quiet]"
+	exportShort = "hand a model to PyTorch: its state_dict as NumPy arrays, with its vocabulary and labels"
+	exportLong  = `Export writes a telltale model (masked filters included) into a folder:
+state_dict.npz (NumPy arrays, read without pickle), vocab.txt (one token per
+line, id = line number; 0 is padding, 1 unknown), labels.txt (the class names
+in output order) and, for a model with a tokenizer file, tokenizer.json. The
+PyTorch module in the README ("Bring your own model") loads the folder and
+gives telltale's logits. A masked filter's output weights are exported as
+zero, which gives the masked model's logits exactly.`
+)
+
+// exportOptions are the options of `telltale export`.
+type exportOptions struct {
+	Model string // the telltale model file
+	Out   string // the folder to write into
+	JSON  bool
+	Quiet bool
+}
+
+// registerExportFlags registers the options of export on fs.
+func registerExportFlags(fs *flag.FlagSet, o *exportOptions) {
+	fs.StringVar(&o.Model, "model", "", "model file written by train or import")
+	fs.StringVar(&o.Out, "out", "", "folder to write state_dict.npz, vocab.txt and labels.txt into (made if missing)")
+	fs.BoolVar(&o.JSON, "json", false, "print a summary as one JSON object")
+	fs.BoolVar(&o.Quiet, "quiet", false, "print nothing but errors (and --json output)")
+}
+
+// exportSummary is what export prints.
+type exportSummary struct {
+	Files     []string `json:"files"`
+	Masked    int      `json:"masked_filters"`
+	Lower     bool     `json:"lower"`
+	MaxTokens int      `json:"max_tokens"`
+	Tokenizer string   `json:"tokenizer"`
+}
+
+// runExport writes a telltale model as a state_dict of NumPy arrays for
+// the PyTorch module of the README, with its vocabulary and labels. The
+// paths are checked before any work: the model must be readable, the
+// folder writable, and no file written may be the model file.
+func runExport(ctx context.Context, env *runEnv, o exportOptions) error {
+	switch {
+	case o.Model == "":
+		return usagef("--model is required: the telltale model file to export")
+	case o.Out == "":
+		return usagef("--out is required: the folder to write the files into, e.g. --out exported")
+	}
+	if st, err := os.Stat(o.Out); err == nil && !st.IsDir() {
+		return fmt.Errorf("--out %s is a file: give a folder (it is made if missing)", o.Out)
+	}
+	outputs := map[string]string{}
+	for _, f := range []string{torchmodel.WeightsFile, torchmodel.VocabFile, torchmodel.LabelsFile, torchmodel.TokenizerFile} {
+		outputs["--out "+f] = filepath.Join(o.Out, f)
+	}
+	if err := checkPaths(outputs, map[string]string{"--model": o.Model}); err != nil {
+		return err
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	m, err := cnn.Load(o.Model)
+	if err != nil {
+		return err
+	}
+	if err := os.MkdirAll(o.Out, 0o755); err != nil {
+		return fmt.Errorf("--out %s: %w", o.Out, err)
+	}
+	if err := checkOutPath(filepath.Join(o.Out, torchmodel.WeightsFile)); err != nil {
+		return err
+	}
+	if err := torchmodel.Export(m, o.Out); err != nil {
+		return err
+	}
+	s := exportSummary{Files: torchmodel.ExportFiles(m, o.Out), Lower: m.Tokenizer.Lower, Tokenizer: describeTokenizer(m.Tokenizer)}
+	if m.Info.Recipe != nil {
+		s.MaxTokens = m.Info.Recipe.MaxLen
+	}
+	for g := range m.Config.NumFilters() {
+		if m.IsMasked(g) {
+			s.Masked++
+		}
+	}
+	if o.JSON {
+		return writeJSON(env.Stdout, s)
+	}
+	if o.Quiet {
+		return nil
+	}
+	fmt.Fprintf(env.Stdout, "exported: %s\n", strings.Join(s.Files, ", "))
+	if s.Masked > 0 {
+		fmt.Fprintf(env.Stdout, "%d masked filters exported with zero output weights (same logits)\n", s.Masked)
+	}
+	cut := "texts are kept whole"
+	if s.MaxTokens > 0 {
+		cut = fmt.Sprintf("texts are cut to %d tokens", s.MaxTokens)
+	}
+	fmt.Fprintf(env.Stdout, "tokenizer: %s; %s; ids are the line numbers of %s (0 padding, 1 unknown)\n", s.Tokenizer, cut, torchmodel.VocabFile)
+	return nil
+}

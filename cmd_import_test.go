@@ -1,0 +1,234 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"errors"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/torchmodel"
+	"telltale/torchmodel/npy"
+)
+
+// exportedModel writes a small random telltale model and its export; it
+// returns the model file and the export folder.
+func exportedModel(t *testing.T) (string, string) {
+	t.Helper()
+	dir := t.TempDir()
+	cfg := cnn.Config{VocabSize: 6, Dim: 4, Widths: []int{2, 3}, Filters: 3, Classes: 2}
+	m, err := cnn.New(cfg, []string{"<pad>", "<unk>", "free", "money", "meeting", "today"}, []string{"ham", "spam"}, 9)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m.Tokenizer = corpus.TokenizerConfig{Lower: true}
+	model := filepath.Join(dir, "model.tt")
+	if err := m.Save(model); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "exported")
+	var stdout, stderr bytes.Buffer
+	if err := runExport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, exportOptions{Model: model, Out: out}); err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range []string{torchmodel.WeightsFile, torchmodel.VocabFile, torchmodel.LabelsFile} {
+		if _, err := os.Stat(filepath.Join(out, f)); err != nil {
+			t.Fatalf("export wrote no %s: %v", f, err)
+		}
+	}
+	return model, out
+}
+
+// An exported model imported again is a model file every command reads:
+// explain runs on it, and its Info records where it came from.
+func TestImportCommand(t *testing.T) {
+	_, exp := exportedModel(t)
+	out := filepath.Join(t.TempDir(), "imported.tt")
+	var stdout, stderr bytes.Buffer
+	o := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
+		LabelsFile: filepath.Join(exp, torchmodel.LabelsFile), PadID: -1, UnkID: -1, Lower: true, Out: out, JSON: true}
+	if err := runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o); err != nil {
+		t.Fatal(err)
+	}
+	var s importSummary
+	if err := json.Unmarshal(stdout.Bytes(), &s); err != nil || s.Vocab != 6 || s.Format != "npz" {
+		t.Fatalf("summary %s: %v", stdout.String(), err)
+	}
+	m, err := cnn.Load(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.HasSuffix(m.Info.Notes["origin_file"], torchmodel.WeightsFile) || len(m.Info.Notes["origin_sha256"]) != 64 {
+		t.Errorf("origin not recorded: %v", m.Info.Notes)
+	}
+	code, stdoutS, stderrS := runCmd(t, "", "explain", "--model", out, "--text", "Free money today", "--json")
+	if code != 0 || !strings.Contains(stdoutS, "spam") {
+		t.Errorf("explain on the imported model: exit %d\n%s\n%s", code, stdoutS, stderrS)
+	}
+}
+
+// Bad input stops import before anything is written, with a message naming
+// the file; an output that is an input, directly or through a symbolic
+// link, is refused before any work and the input is left as it was.
+func TestImportCommandWritesNothingOnBadInput(t *testing.T) {
+	_, exp := exportedModel(t)
+	dir := t.TempDir()
+	vocab := filepath.Join(exp, torchmodel.VocabFile)
+	before, _ := os.ReadFile(vocab)
+	link := filepath.Join(dir, "link.tt")
+	if err := os.Symlink(vocab, link); err != nil {
+		t.Fatal(err)
+	}
+	short := filepath.Join(dir, "short.txt")
+	os.WriteFile(short, []byte("<pad>\n<unk>\nfree\n"), 0o644)
+	good := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: vocab, Labels: "ham,spam",
+		PadID: -1, UnkID: -1, Lower: true, Out: filepath.Join(dir, "out.tt")}
+	cases := []struct {
+		name string
+		edit func(*importOptions)
+		says []string
+	}{
+		{"vocabulary size", func(o *importOptions) { o.Vocab = short }, []string{"short.txt", "embedding.weight"}},
+		{"labels", func(o *importOptions) { o.Labels = "a,b,c" }, []string{"3 labels", "output.weight"}},
+		{"out is the vocabulary", func(o *importOptions) { o.Out = vocab }, []string{"--out", "--vocab", "same file"}},
+		{"out links to the vocabulary", func(o *importOptions) { o.Out = link }, []string{"link.tt", "--vocab", "same file"}},
+		{"missing state_dict", func(o *importOptions) { o.StateDict = filepath.Join(dir, "none.pt") }, []string{"--state-dict", "none.pt"}},
+	}
+	for _, c := range cases {
+		o := good
+		c.edit(&o)
+		var stdout, stderr bytes.Buffer
+		err := runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o)
+		if err == nil {
+			t.Errorf("%s: no error", c.name)
+			continue
+		}
+		for _, s := range c.says {
+			if !strings.Contains(err.Error(), s) {
+				t.Errorf("%s: %v\ndoes not say %q", c.name, err, s)
+			}
+		}
+		if _, err := os.Stat(good.Out); err == nil {
+			t.Fatalf("%s: %s was written", c.name, good.Out)
+		}
+		if after, _ := os.ReadFile(vocab); !bytes.Equal(after, before) {
+			t.Fatalf("%s: the vocabulary file changed", c.name)
+		}
+	}
+}
+
+// Export refuses a folder where one of its files is the model itself
+// (through a symbolic link), before any work; the model is unchanged.
+func TestExportCommandRefusesOverwritingTheModel(t *testing.T) {
+	model, _ := exportedModel(t)
+	before, _ := os.ReadFile(model)
+	out := t.TempDir()
+	if err := os.Symlink(model, filepath.Join(out, torchmodel.VocabFile)); err != nil {
+		t.Fatal(err)
+	}
+	var stdout, stderr bytes.Buffer
+	err := runExport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, exportOptions{Model: model, Out: out})
+	if err == nil || !strings.Contains(err.Error(), "same file as --model") {
+		t.Fatalf("%v, want a refusal naming --model", err)
+	}
+	if after, _ := os.ReadFile(model); !bytes.Equal(after, before) {
+		t.Fatal("the model file changed")
+	}
+	if _, err := os.Stat(filepath.Join(out, torchmodel.WeightsFile)); err == nil {
+		t.Error("state_dict.npz was written")
+	}
+}
+
+// With --check-texts and --check-logits, import compares its logits with
+// the original model's (here the exported model itself, run by telltale)
+// and records the agreement; logits that differ stop the import before
+// anything is written.
+func TestImportCommandCheck(t *testing.T) {
+	model, exp := exportedModel(t)
+	orig, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	texts := []string{"Free money today", "meeting", "today meeting free free money"}
+	os.WriteFile(filepath.Join(dir, "texts.txt"), []byte(strings.Join(texts, "\n")+"\n"), 0o644)
+	enc, _ := orig.Encoder()
+	var logits []float32
+	for _, s := range texts {
+		_, ids := enc.Encode(s)
+		logits = append(logits, orig.Forward(ids).Logits...)
+	}
+	writeLogits := func(name string, x []float32) string {
+		var b bytes.Buffer
+		npy.WriteNPY(&b, npy.Array{Shape: []int{len(texts), 2}, Data: x})
+		p := filepath.Join(dir, name)
+		os.WriteFile(p, b.Bytes(), 0o644)
+		return p
+	}
+	o := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
+		Labels: "ham,spam", PadID: -1, UnkID: -1, Lower: true, CheckTexts: filepath.Join(dir, "texts.txt"),
+		CheckLogits: writeLogits("good.npy", logits), Out: filepath.Join(dir, "checked.tt")}
+	var stdout, stderr bytes.Buffer
+	if err := runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o); err != nil {
+		t.Fatal(err)
+	}
+	m, err := cnn.Load(o.Out)
+	if err != nil || !strings.Contains(m.Info.Notes["origin_check"], "logits of 3 texts") {
+		t.Fatalf("%v: notes %v", err, m.Info.Notes)
+	}
+	bad := append([]float32(nil), logits...)
+	bad[3] += 0.01
+	o.CheckLogits, o.Out = writeLogits("bad.npy", bad), filepath.Join(dir, "bad.tt")
+	err = runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o)
+	if !errors.Is(err, torchmodel.ErrMismatch) || !strings.Contains(err.Error(), "texts.txt line 2") {
+		t.Fatalf("%v, want ErrMismatch naming line 2", err)
+	}
+	if _, err := os.Stat(o.Out); err == nil {
+		t.Error("the model was written despite the mismatch")
+	}
+}
+
+// An imported model (here an export of a telltale model of the demo
+// corpus's labels, with random weights) works in every command that reads
+// a model and data: predict, eval, filters, report, audit and export.
+func TestImportedModelInEveryCommand(t *testing.T) {
+	data := smallDemo(t, 200)
+	ds, _, err := corpus.Load(data, corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	enc, _ := corpus.TrainEncoder(corpus.TokenizerConfig{Lower: true}, ds.Texts())
+	cfg := cnn.Config{VocabSize: enc.Vocab.Len(), Dim: 8, Widths: []int{2, 3}, Filters: 4, Classes: len(ds.Labels)}
+	m0, _ := cnn.New(cfg, enc.Vocab.Words, ds.Labels, 3)
+	m0.Tokenizer = corpus.TokenizerConfig{Lower: true}
+	exp := t.TempDir()
+	if err := torchmodel.Export(m0, exp); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(t.TempDir(), "imported.tt")
+	var so, se bytes.Buffer
+	o := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
+		LabelsFile: filepath.Join(exp, torchmodel.LabelsFile), PadID: -1, UnkID: -1, Lower: true, Out: out}
+	if err := runImport(context.Background(), &runEnv{Stdout: &so, Stderr: &se}, o); err != nil {
+		t.Fatal(err)
+	}
+	for _, args := range [][]string{
+		{"predict", "--model", out, "--text", "free money"},
+		{"eval", "--model", out, "--data", data},
+		{"filters", "--model", out, "--data", data, "--top", "2"},
+		{"report", "--model", out, "--data", data, "--out", filepath.Join(t.TempDir(), "r.html")},
+		{"audit", "--model", out, "--data", data},
+	} {
+		if code, _, stderr := runCmd(t, "", args...); code != 0 {
+			t.Errorf("%s on the imported model: exit %d\n%s", args[0], code, stderr)
+		}
+	}
+	if err := runExport(context.Background(), &runEnv{Stdout: &so, Stderr: &se}, exportOptions{Model: out, Out: filepath.Join(t.TempDir(), "x")}); err != nil {
+		t.Errorf("export of the imported model: %v", err)
+	}
+}

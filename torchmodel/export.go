@@ -1,0 +1,120 @@
+package torchmodel
+
+import (
+	"fmt"
+	"io"
+	"path/filepath"
+	"strings"
+
+	"telltale/cnn"
+	"telltale/internal/atomicfile"
+	"telltale/torchmodel/npy"
+)
+
+// The files Export writes into its folder.
+const (
+	WeightsFile   = "state_dict.npz"
+	VocabFile     = "vocab.txt"
+	LabelsFile    = "labels.txt"
+	TokenizerFile = "tokenizer.json" // only for models with a tokenizer file
+)
+
+// ExportFiles lists the files Export writes for m into dir.
+func ExportFiles(m *cnn.Model, dir string) []string {
+	files := []string{filepath.Join(dir, WeightsFile), filepath.Join(dir, VocabFile), filepath.Join(dir, LabelsFile)}
+	if len(m.Tokenizer.FileJSON) > 0 {
+		files = append(files, filepath.Join(dir, TokenizerFile))
+	}
+	return files
+}
+
+// StateDict returns m's weights as the state_dict of the PyTorch module in
+// the README ("Bring your own model"), in that module's order:
+//
+//	embedding.weight   [VocabSize, Dim]        nn.Embedding, padding_idx=0
+//	convs.B.weight     [Filters, Dim, Width]   nn.Conv1d, one per width B
+//	convs.B.bias       [Filters]
+//	output.weight      [Classes, NumFilters]   nn.Linear
+//	output.bias        [Classes]
+//
+// A masked filter's column of output.weight is zero: its pooled value, which
+// telltale holds at zero, then adds nothing to any logit, so the logits are
+// the same.
+func StateDict(m *cnn.Model) []npy.Array {
+	cfg := m.Config
+	d, nf := cfg.Dim, cfg.NumFilters()
+	arrays := []npy.Array{{Name: "embedding.weight", Shape: []int{cfg.VocabSize, d}, Data: m.Emb}}
+	for b, c := range m.Convs {
+		// telltale's [filter][slot][dim] becomes Conv1d's [filter][dim][slot].
+		w := make([]float32, len(c.W))
+		for f := 0; f < cfg.Filters; f++ {
+			for s := 0; s < c.Width; s++ {
+				for j := 0; j < d; j++ {
+					w[(f*d+j)*c.Width+s] = c.W[(f*c.Width+s)*d+j]
+				}
+			}
+		}
+		arrays = append(arrays,
+			npy.Array{Name: fmt.Sprintf("convs.%d.weight", b), Shape: []int{cfg.Filters, d, c.Width}, Data: w},
+			npy.Array{Name: fmt.Sprintf("convs.%d.bias", b), Shape: []int{cfg.Filters}, Data: c.B})
+	}
+	out := append([]float32(nil), m.OutW...)
+	for g := 0; g < nf; g++ {
+		if m.IsMasked(g) {
+			for c := 0; c < cfg.Classes; c++ {
+				out[c*nf+g] = 0
+			}
+		}
+	}
+	return append(arrays,
+		npy.Array{Name: "output.weight", Shape: []int{cfg.Classes, nf}, Data: out},
+		npy.Array{Name: "output.bias", Shape: []int{cfg.Classes}, Data: m.OutB})
+}
+
+// Export writes m into the folder dir, which must exist: WeightsFile (the
+// StateDict as NumPy's .npz, read without pickle), VocabFile (one token per
+// line, id = line number from 0; line 0 is the padding token, line 1 the
+// unknown token), LabelsFile (the class names in output order) and, for a
+// model with a tokenizer file, TokenizerFile. Each file is written
+// atomically. A model whose words or labels contain a line break cannot be
+// written one per line and is refused before anything is written.
+func Export(m *cnn.Model, dir string) error {
+	if len(m.Vocab) != m.Config.VocabSize {
+		return fmt.Errorf("torchmodel: the model has no vocabulary to export: %w", ErrVocab)
+	}
+	for id, w := range m.Vocab {
+		if strings.ContainsAny(w, "\r\n") || w == "" {
+			return fmt.Errorf("torchmodel: word %d (%q) is empty or holds a line break and cannot be one line of %s: %w", id, w, VocabFile, ErrVocab)
+		}
+	}
+	for _, l := range m.Labels {
+		if strings.ContainsAny(l, "\r\n") || l == "" {
+			return fmt.Errorf("torchmodel: label %q is empty or holds a line break and cannot be one line of %s: %w", l, LabelsFile, ErrVocab)
+		}
+	}
+	arrays := StateDict(m)
+	if err := atomicfile.Write(filepath.Join(dir, WeightsFile), func(w io.Writer) error { return npy.WriteNPZ(w, arrays) }); err != nil {
+		return fmt.Errorf("torchmodel: %w", err)
+	}
+	writeLines := func(name string, lines []string) error {
+		return atomicfile.Write(filepath.Join(dir, name), func(w io.Writer) error {
+			_, err := io.WriteString(w, strings.Join(lines, "\n")+"\n")
+			return err
+		})
+	}
+	if err := writeLines(VocabFile, m.Vocab); err != nil {
+		return fmt.Errorf("torchmodel: %w", err)
+	}
+	if err := writeLines(LabelsFile, m.Labels); err != nil {
+		return fmt.Errorf("torchmodel: %w", err)
+	}
+	if len(m.Tokenizer.FileJSON) > 0 {
+		if err := atomicfile.Write(filepath.Join(dir, TokenizerFile), func(w io.Writer) error {
+			_, err := w.Write(m.Tokenizer.FileJSON)
+			return err
+		}); err != nil {
+			return fmt.Errorf("torchmodel: %w", err)
+		}
+	}
+	return nil
+}

@@ -1,0 +1,45 @@
+"""Loads a model written by `telltale export` with the README's PyTorch module
+(testdata/telltale_cnn.py, Debian's python3-torch) and computes its logits,
+for the export test.
+
+usage: export_check.py DIR
+
+DIR/in.json holds the export folder, token ids from telltale's encoder, raw
+ASCII texts and the model's token limit. out.json gets, in float64 from the
+exported float32 weights: the logits of the ids, run in padded batches of
+16 (so that each batch holds texts of different lengths), and the logits of
+the raw texts as the module's own encode() reads them.
+"""
+import json
+import os
+import sys
+
+import torch
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from telltale_cnn import TelltaleCNN  # noqa: E402
+
+d = sys.argv[1]
+with open(os.path.join(d, "in.json")) as f:
+    cfg = json.load(f)
+model = TelltaleCNN.load(cfg["folder"]).double()
+
+
+def run(texts):
+    out = []
+    with torch.no_grad():
+        for i in range(0, len(texts), 16):
+            part = texts[i:i + 16]
+            n = max(1, max(len(t) for t in part))
+            ids = torch.zeros((len(part), n), dtype=torch.long)
+            for r, t in enumerate(part):
+                ids[r, :len(t)] = torch.tensor(t, dtype=torch.long)
+            lengths = torch.tensor([len(t) for t in part])
+            out += model(ids, lengths).tolist()
+    return out
+
+
+encoded = [model.encode(t, max_tokens=cfg["max_tokens"]) for t in cfg["texts"]]
+with open(os.path.join(d, "out.json"), "w") as f:
+    json.dump({"batch_logits": run(cfg["ids"]), "text_logits": run(encoded), "labels": model.labels,
+               "text_ids": encoded, "torch": torch.__version__}, f)
