@@ -13,6 +13,7 @@ import (
 
 	"telltale/corpus"
 	"telltale/internal/atomicfile"
+	"telltale/internal/version"
 )
 
 // The model file is one self-checking binary file:
@@ -73,6 +74,7 @@ func (m *Model) Save(path string) (err error) {
 // encode writes the model file format to w.
 func (m *Model) encode(w io.Writer) error {
 	h := fileHeader{Config: m.Config, Labels: m.Labels, Vocab: m.Vocab, Tokenizer: m.Tokenizer, Info: m.Info}
+	h.Info.Version = version.String() // the file records the version that wrote it
 	for g, on := range m.Masked {
 		if on {
 			h.Masked = append(h.Masked, g)
