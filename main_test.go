@@ -95,7 +95,7 @@ func TestTourContract(t *testing.T) {
 	data := smallDemo(t, 600)
 	model := filepath.Join(t.TempDir(), "m.tt")
 	code, out, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "2", "--dim", "16",
-		"--filters", "8", "--json", "--quiet")
+		"--maps", "8", "--json", "--quiet")
 	if code != 0 {
 		t.Fatalf("train: exit %d: %s", code, stderr)
 	}
@@ -197,13 +197,13 @@ func TestMisuseExitsTwo(t *testing.T) {
 	data := smallDemo(t, 300)
 	dir := t.TempDir()
 	model := filepath.Join(dir, "m.tt")
-	if code, _, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--filters", "4", "--quiet"); code != 0 {
+	if code, _, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"); code != 0 {
 		t.Fatalf("train: %s", stderr)
 	}
 	other := filepath.Join(dir, "other.csv")
 	os.WriteFile(other, []byte("text,label\nthe ferry,x\nthe boat,y\nmy bag,x\nthe quay,y\n"), 0o644)
 	otherModel := filepath.Join(dir, "o.tt")
-	if code, _, stderr := runCmd(t, "", "train", "--data", other, "--dev", other, "--out", otherModel, "--epochs", "1", "--dim", "8", "--filters", "4", "--quiet"); code != 0 {
+	if code, _, stderr := runCmd(t, "", "train", "--data", other, "--dev", other, "--out", otherModel, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"); code != 0 {
 		t.Fatalf("train: %s", stderr)
 	}
 	cases := []struct {
@@ -212,7 +212,7 @@ func TestMisuseExitsTwo(t *testing.T) {
 	}{
 		{[]string{"train", "--data", data, "--out", filepath.Join(dir, "x.tt"), "oops", "--epochs", "1"}, `unexpected argument "oops"`},
 		{[]string{"predict", "--model", model, "rocket moon"}, `unexpected argument "rocket moon"`},
-		{[]string{"train", "--data", data, "--out", filepath.Join(dir, "x.tt"), "--epochs", "0"}, "--epochs and --batch must be at least 1"},
+		{[]string{"train", "--data", data, "--out", filepath.Join(dir, "x.tt"), "--epochs", "0"}, "--epochs 0: give 1 or more"},
 		{[]string{"predict", "--model", model, "--text", ""}, "--text is empty"},
 		{[]string{"explain", "--model", model, "--text", "  "}, "--text is empty"},
 		{[]string{"explain", "--model", model, "--text", "lost bag", "--method", "occlusion", "--class", "praise"}, "occlusion measures the predicted class only"},
@@ -242,7 +242,7 @@ func TestMisuseExitsTwo(t *testing.T) {
 func TestAuditWithoutDevUsesTheModelsDevSplit(t *testing.T) {
 	data := smallDemo(t, 400)
 	model := filepath.Join(t.TempDir(), "m.tt")
-	if code, _, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--filters", "4", "--quiet"); code != 0 {
+	if code, _, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"); code != 0 {
 		t.Fatalf("train: %s", stderr)
 	}
 	code, out, stderr := runCmd(t, "", "audit", "--model", model, "--data", data, "--json", "--quiet")
