@@ -20,8 +20,10 @@ import (
 // rearranged by slot, one slot table of Σwidths × maps values per distinct
 // word of a batch for training and one for the dev evaluation, the
 // embedding rows of a batch's words once plus once per thread, and the
-// persistent inference table (at most 2²⁵ values). The estimate errs high
-// for texts shorter than maxLen.
+// persistent inference table (at most 2²⁵ values). It is an upper bound:
+// a batch seldom holds as many distinct words as the estimate allows
+// (3.5 times the peak heap measured on the demo corpus, TestTrainingMemoryEstimate),
+// so only a model that cannot fit is refused.
 func trainingBytes(cfg cnn.Config, batch, maxLen, threads int) float64 {
 	v, d := float64(cfg.VocabSize), float64(cfg.Dim)
 	maps, classes := float64(cfg.Filters), float64(cfg.Classes)
@@ -72,15 +74,20 @@ func machineMemory() float64 {
 }
 
 // checkMemory refuses a training run whose estimate exceeds the machine's
-// memory, naming the options that set the size.
+// memory, naming the options that set the size. A VocabSize of 2 (the
+// reserved words alone) stands for a vocabulary not yet counted.
 func checkMemory(cfg cnn.Config, batch, maxLen, threads int) error {
 	need, have := trainingBytes(cfg, batch, maxLen, threads), machineMemory()
 	if have == 0 || need <= have {
 		return nil
 	}
-	return usagef("training this model would take about %s of memory (--maps %d × widths %v × --dim %d, a vocabulary of %d words, "+
+	vocab := fmt.Sprintf("a vocabulary of %d words", cfg.VocabSize)
+	if cfg.VocabSize <= 2 {
+		vocab = "before any vocabulary"
+	}
+	return usagef("training this model would take up to about %s of memory (--maps %d × widths %v × --dim %d, %s, "+
 		"batches of %d texts of up to %d tokens, %d threads) but this machine has %s: lower --maps, --dim, --batch, --max-len or --threads, or raise --min-count",
-		gib(need), cfg.Filters, cfg.Widths, cfg.Dim, cfg.VocabSize, batch, maxLen, threads, gib(have))
+		gib(need), cfg.Filters, cfg.Widths, cfg.Dim, vocab, batch, maxLen, threads, gib(have))
 }
 
 func gib(b float64) string { return fmt.Sprintf("%.1f GiB", b/(1<<30)) }
