@@ -86,6 +86,8 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"negative seed", train("--seed", "-1"), 2, []string{"--seed -1: a seed is a whole number from 0 to 18446744073709551615"}},
 		{"seed not a number", train("--seed", "one"), 2, []string{"--seed one: a seed is a whole number"}},
 		{"epochs not a number", train("--epochs", "x"), 2, []string{"--epochs x: not a whole number"}},
+		{"a value holding \" for \"", train("--epochs", "3 for 4"), 2, []string{"--epochs 3 for 4: not a whole number"}},
+		{"a switch with a value", train("--quiet=maybe"), 2, []string{"--quiet maybe: give true or false"}},
 		{"unknown option", train("--filter", "3"), 2, []string{"unknown option --filter"}},
 		// NaN and infinities.
 		{"lr NaN", train("--lr", "NaN"), 2, []string{"--lr NaN: not a finite number"}},

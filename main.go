@@ -21,6 +21,7 @@ import (
 	"log"
 	"os"
 	"os/signal"
+	"strconv"
 	"strings"
 	"syscall"
 
@@ -260,25 +261,28 @@ func scan(msg, prefix string, rest *string) bool {
 // and `invalid boolean value "V" for -N: W`.
 func scanValue(msg string, value, name, why *string) bool {
 	rest, ok := strings.CutPrefix(msg, "invalid value ")
+	boolean := false
 	if !ok {
 		if rest, ok = strings.CutPrefix(msg, "invalid boolean value "); !ok {
 			return false
 		}
+		boolean = true
 	}
-	q, tail, ok := strings.Cut(rest, " for ")
+	q, err := strconv.QuotedPrefix(rest)
+	if err != nil {
+		return false
+	}
+	tail, ok := strings.CutPrefix(rest[len(q):], " for ")
 	if !ok {
 		return false
 	}
-	tail = strings.TrimPrefix(strings.TrimPrefix(tail, "flag "), "-")
-	n, w, ok := strings.Cut(tail, ": ")
+	n, w, ok := strings.Cut(strings.TrimPrefix(strings.TrimPrefix(tail, "flag "), "-"), ": ")
 	if !ok {
 		return false
 	}
-	if v, err := unquote(q); err == nil {
-		q = v
-	}
-	*value, *name, *why = q, n, w
-	if strings.HasPrefix(msg, "invalid boolean") {
+	*value, _ = strconv.Unquote(q)
+	*name, *why = n, w
+	if boolean {
 		*why = "give true or false"
 	}
 	return true

@@ -197,6 +197,3 @@ func clip(s string) string {
 	}
 	return fmt.Sprintf("%s… (%d bytes)", s[:cut], len(s))
 }
-
-// unquote undoes the quoting of strconv.Quote.
-func unquote(s string) (string, error) { return strconv.Unquote(s) }

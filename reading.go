@@ -25,14 +25,12 @@ type readOptions struct {
 	Mail              string
 	Relabel           string
 
-	labeled bool // the label options are registered
 	relabel map[string]string
 }
 
 // register adds the reading options; labeled adds --label-col and
 // --relabel.
 func (r *readOptions) register(fs *flag.FlagSet, labeled bool) {
-	r.labeled = labeled
 	fs.StringVar(&r.TextCol, "text-col", "", "name of the text column or field (default: text, or auto-detected)")
 	if labeled {
 		fs.StringVar(&r.LabelCol, "label-col", "", "name of the label column or field (default: label, or auto-detected)")

@@ -60,7 +60,8 @@ func numWeights(cfg Config) int {
 
 // Save writes m to path atomically: it writes a temporary file in the same
 // directory, syncs it and renames it over path, so a crash never leaves a
-// partial model file behind.
+// partial model file behind. The file records the telltale version that
+// wrote it (Info.Version; m itself is not changed).
 func (m *Model) Save(path string) (err error) {
 	if err := m.checkShapes(); err != nil {
 		return err
