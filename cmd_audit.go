@@ -9,313 +9,160 @@ import (
 
 	"telltale/cnn"
 	"telltale/explain"
+	"telltale/internal/outguard"
 	"telltale/report"
 )
 
-func init() {
-	register(&command{
-		Name:      "audit",
-		UsageLine: "audit --model MODEL --data TRAIN [--dev FILE] [--top K] [--json]",
-		Short:     "find the filters that key on spurious cues, with the evidence and interventions",
-		Long: `Audit looks for filters that learned an artifact of how the data was collected
-instead of the task. On the training split (--data) it tests every token for an
-association with a label (the z-statistic of Gardner et al. 2021 with a
+var cmdAudit = &command{
+	Name:      "audit",
+	UsageLine: "audit --model MODEL --data TRAIN [--test FILE] [--top K] [--export FILE] [--masked-out MODEL2] [--json]",
+	Short:     "find the filters that key on spurious cues, with the evidence and interventions",
+	Long: `Audit looks for filters that learned an artifact of how the data was collected
+instead of the task. On the training split of --data it tests every token for
+an association with a label (the z-statistic of Gardner et al. 2021 with a
 Bonferroni-corrected threshold, and smoothed PMI) and measures how much of each
-filter's strong activations rests on the flagged tokens. On the held-out split
-(--dev; without it, the dev split train kept out of --data) it proves each suspect by ablation
-(the filter masked), by counterfactual substitution of its cue tokens with
-label-neutral words, and on the texts where the cue points away from the gold
-label. Flagged words that occur in the same texts are merged into one cue
-(a footer line, say), and the filters keyed on each cue are masked together
-too. Suspects and cues are ranked by scores whose every part is shown, and the
-output ends with the mask command to try (--masked-out writes that model).`,
-		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
-			var df dataFlags
-			df.register(fs, "held-out file for the interventions (default: the dev split train kept out of --data)")
-			modelPath := fs.String("model", "", "model file written by train")
-			top := fs.Int("top", 10, "suspect filters reported (taken in turn from the cue groups, strongest group first)")
-			asJSON := fs.Bool("json", false, "print the audit as one JSON object")
-			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
-			quiet := fs.Bool("quiet", false, "no progress bar or warnings")
-			maskedOut := fs.String("masked-out", "", "also write a copy of the model with the audit's suggested filters masked to this file")
-			export := fs.String("export", "", "also write the suspect filters to this .csv or .jsonl file (and beside it the flagged tokens, NAME.tokens.csv, and the cue groups, NAME.groups.csv)")
-			return func(ctx context.Context, env *runEnv) error {
-				if err := checkExport(*export); err != nil {
-					return err
-				}
-				if *maskedOut != "" {
-					if same, _ := samePath(*maskedOut, *modelPath); same {
-						return usagef("--masked-out %s is the input model: give a new file name, the original is never overwritten", *maskedOut)
-					}
-				}
-				m, _, err := openModel(*modelPath)
-				if err != nil {
-					return err
-				}
-				train, held, _, _, err := df.loadForModel(m, env.Stderr, *quiet)
-				if err != nil {
-					return err
-				}
-				maxLen := 0
-				if m.Info.Recipe != nil {
-					maxLen = m.Info.Recipe.MaxLen
-				}
-				trainData, err := explain.NewAuditData(m, train, maxLen, *threads)
-				if err != nil {
-					return err
-				}
-				heldData, err := explain.NewAuditData(m, held, maxLen, *threads)
-				if err != nil {
-					return err
-				}
-				bar := newProgressBar(env.Stderr, *quiet)
-				a, err := explain.RunAudit(ctx, m, trainData, heldData, explain.AuditOptions{Top: *top, Seed: df.Seed, Workers: *threads,
-					ModelFile: *modelPath, HeldoutFile: df.Dev},
-					func(stage string, done, total int) { bar.show(done, total, stage, false) })
-				bar.done()
-				if err != nil {
-					return err
-				}
-				if *export != "" {
-					if err := report.WriteTableFile(*export, report.SuspectTable(a)); err != nil {
-						return err
-					}
-					ext := filepath.Ext(*export)
-					base := strings.TrimSuffix(*export, ext)
-					if err := report.WriteTableFile(base+".tokens"+ext, report.TokenTable(a)); err != nil {
-						return err
-					}
-					if err := report.WriteTableFile(base+".groups"+ext, report.CueGroupTable(a)); err != nil {
-						return err
-					}
-				}
-				if *maskedOut != "" {
-					if a.Plan == nil || len(a.Plan.Filters) == 0 {
-						return fmt.Errorf("the audit suggests no filters to mask, so %s was not written", *maskedOut)
-					}
-					masked, err := explain.MaskFilters(m, a.Plan.Filters)
-					if err != nil {
-						return err
-					}
-					if err := masked.Save(*maskedOut); err != nil {
-						return err
-					}
-					if !*quiet {
-						fmt.Fprintf(env.Stderr, "model with the %d suggested filters masked written to %s\n", len(a.Plan.Filters), *maskedOut)
-					}
-				}
-				if *asJSON {
-					return writeJSON(env.Stdout, a)
-				}
-				return a.WriteText(env.Stdout)
-			}
-		},
-	})
-	register(&command{
-		Name:      "mask",
-		UsageLine: "mask --model MODEL --filters 12,40,77 --out MODEL2 [--data FILE]",
-		Short:     "write a copy of a model with some filters masked (the original is kept)",
-		Long: `Mask writes a new model file in which the listed filters are switched off
-(their pooled units held at zero). The original model file is never
-overwritten. With --data, both models are evaluated on that labeled file
-side by side.`,
-		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
-			modelPath := fs.String("model", "", "model file written by train")
-			filters := fs.String("filters", "", "global filter numbers to mask, comma-separated")
-			out := fs.String("out", "", "where to write the masked model (must differ from --model)")
-			var df dataFlags
-			df.register(fs, "not used by mask")
-			asJSON := fs.Bool("json", false, "print the comparison as one JSON object")
-			quiet := fs.Bool("quiet", false, "print nothing but errors (and --json output)")
-			return func(ctx context.Context, env *runEnv) error {
-				if *out == "" {
-					return usagef("--out is required: where to write the masked model")
-				}
-				if same, _ := samePath(*out, *modelPath); same {
-					return usagef("--out %s is the input model: give a new file name, the original is never overwritten", *out)
-				}
-				gs, err := parseInts(*filters, "filters")
-				if err != nil {
-					return err
-				}
-				if len(gs) == 0 {
-					return usagef("--filters is required: e.g. --filters 12,40 (the numbers shown by 'telltale audit' or 'telltale filters')")
-				}
-				m, enc, err := openModel(*modelPath)
-				if err != nil {
-					return err
-				}
-				if err := checkOutPath(*out); err != nil {
-					return err
-				}
-				masked, err := explain.MaskFilters(m, gs)
-				if err != nil {
-					return usageError{err.Error()}
-				}
-				if err := masked.Save(*out); err != nil {
-					return err
-				}
-				if !*quiet {
-					fmt.Fprintf(env.Stderr, "masked filters %v; model written to %s (%s unchanged)\n", gs, *out, *modelPath)
-				}
-				if df.Data == "" {
-					if *asJSON {
-						return writeJSON(env.Stdout, map[string]any{"model": *out, "masked": gs})
-					}
-					return nil
-				}
-				ds, err := df.read(df.Data, env.Stderr, *quiet)
-				if err != nil {
-					return err
-				}
-				data, err := cnn.EncodeDataset(enc, ds, m.Labels, 0)
-				if err != nil {
-					return err
-				}
-				return compareModels(env, data, []string{*modelPath, *out}, []*cnn.Model{m, masked}, *asJSON)
-			}
-		},
-	})
-	register(&command{
-		Name:      "compare",
-		UsageLine: "compare --models A,B[,…] --data FILE [--json]",
-		Short:     "evaluate several models side by side on the same labeled file",
-		Long: `Compare evaluates each model on the same labeled file and prints their
-metrics side by side, e.g. a model against its masked copy, or against one
-retrained with --mask-tokens. The models must share their labels; each uses its
-own tokenizer and vocabulary.`,
-		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
-			models := fs.String("models", "", "model files, comma-separated")
-			var df dataFlags
-			df.register(fs, "not used by compare")
-			asJSON := fs.Bool("json", false, "print the comparison as one JSON object")
-			quiet := fs.Bool("quiet", false, "print no warnings")
-			return func(ctx context.Context, env *runEnv) error {
-				paths := splitList(*models)
-				if len(paths) < 2 {
-					return usagef("--models needs at least two model files, comma-separated")
-				}
-				if df.Data == "" {
-					return usagef("--data is required: the labeled file to compare the models on")
-				}
-				ds, err := df.read(df.Data, env.Stderr, *quiet)
-				if err != nil {
-					return err
-				}
-				rows := make([]compareRow, 0, len(paths))
-				var first []int
-				var labels []string
-				for i, p := range paths {
-					m, enc, err := openModel(p)
-					if err != nil {
-						return err
-					}
-					if i == 0 {
-						labels = m.Labels
-					} else if strings.Join(m.Labels, "\x00") != strings.Join(labels, "\x00") {
-						return usagef("%s has the labels %s but %s has %s: compare needs models with the same labels in the same order",
-							p, strings.Join(m.Labels, ", "), paths[0], strings.Join(labels, ", "))
-					}
-					data, err := cnn.EncodeDataset(enc, ds, m.Labels, 0)
-					if err != nil {
-						return err
-					}
-					met, pred, err := cnn.Evaluate(m, data, 0)
-					if err != nil {
-						return err
-					}
-					row := compareRow{Model: p, Metrics: met}
-					if i == 0 {
-						first = pred
-					} else {
-						row.Flipped = flippedShare(first, pred)
-					}
-					rows = append(rows, row)
-				}
-				return writeComparison(env, rows, *asJSON)
-			}
-		},
-	})
+filter's strong activations rests on the flagged tokens. On the test split
+(--test FILE; without it, the test split train held out of --data) it proves
+each suspect by ablation (the filter masked), by counterfactual substitution of
+its cue tokens with label-neutral words, and on the texts where the cue points
+away from the gold label. When --data is not the model's data, all of it serves
+both purposes, with a note. Flagged words that occur in the same texts are
+merged into one cue (a footer line, say), and the filters keyed on each cue
+are masked together too. Suspects and cues are ranked by scores whose every
+part is shown, and the output ends with the mask command to try (--masked-out
+writes that model).`,
+	Options: func() options { return new(auditOptions) },
+	Run:     runAs(runAudit),
 }
 
-type compareRow struct {
-	Model   string      `json:"model"`
-	Metrics cnn.Metrics `json:"metrics"`
-	// Flipped is the share of texts whose prediction differs from the first model's.
-	Flipped float64 `json:"flipped_vs_first"`
+type auditOptions struct {
+	model, data, test, maskedOut, export string
+	read                                 readOptions
+	top                                  int
+	seed                                 uint64
+	threads                              threadsOption
+	asJSON, quiet                        bool
 }
 
-// compareModels evaluates models that share one encoder on data.
-func compareModels(env *runEnv, data cnn.Data, names []string, ms []*cnn.Model, asJSON bool) error {
-	rows := make([]compareRow, len(ms))
-	var first []int
-	for i, m := range ms {
-		met, pred, err := cnn.Evaluate(m, data, 0)
+func (o *auditOptions) register(fs *flag.FlagSet) {
+	fs.StringVar(&o.model, "model", "", "model file written by train")
+	fs.StringVar(&o.data, "data", "", "the labeled data the model was trained on")
+	fs.StringVar(&o.test, "test", "", "labeled test file for the interventions (default: the test split train held out of --data)")
+	o.read.register(fs, true)
+	intVar(fs, &o.top, "top", 10, "suspect filters reported, 1 or more (taken in turn from the cue groups, strongest group first)")
+	seedVar(fs, &o.seed, "seed", cnn.DefaultRecipe().Train.Seed, "random seed of the counterfactual substitutions")
+	o.threads.register(fs)
+	fs.StringVar(&o.maskedOut, "masked-out", "", "also write a copy of the model with the audit's suggested filters masked to this file")
+	fs.StringVar(&o.export, "export", "", "also write the suspect filters to this .csv or .jsonl file (and beside it the flagged tokens, NAME.tokens.csv, and the cue groups, NAME.groups.csv)")
+	fs.BoolVar(&o.asJSON, "json", false, "print the audit as one JSON object")
+	fs.BoolVar(&o.quiet, "quiet", false, "no progress bar, notes or warnings")
+}
+
+func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
+	if o.data == "" {
+		return usagef("--data is required: the labeled data the model was trained on")
+	}
+	for _, err := range []error{requireModel(o.model), checkExport(o.export), checkAtLeast("top", o.top, 1, "suspect filters reported"),
+		o.read.check(), o.threads.check(env.Stderr)} {
 		if err != nil {
 			return err
-		}
-		rows[i] = compareRow{Model: names[i], Metrics: met}
-		if i == 0 {
-			first = pred
-			continue
-		}
-		rows[i].Flipped = flippedShare(first, pred)
-	}
-	return writeComparison(env, rows, asJSON)
-}
-
-func writeComparison(env *runEnv, rows []compareRow, asJSON bool) error {
-	if asJSON {
-		return writeJSON(env.Stdout, rows)
-	}
-	w := env.Stdout
-	fmt.Fprintf(w, "%-40s  %8s  %8s  %11s  %6s  %8s\n", "model", "accuracy", "macro-F1", "weighted-F1", "ECE", "flipped")
-	for i, r := range rows {
-		flip := "-"
-		if i > 0 && r.Flipped >= 0 {
-			flip = fmt.Sprintf("%.1f%%", 100*r.Flipped)
-		}
-		fmt.Fprintf(w, "%-40s  %8.4f  %8.4f  %11.4f  %6.4f  %8s\n", oneLine(r.Model, 40), r.Metrics.Accuracy, r.Metrics.MacroF1, r.Metrics.WeightedF1, r.Metrics.ECE, flip)
-	}
-	if len(rows) > 0 {
-		fmt.Fprintf(w, "\nper-class F1\n%-20s", "label")
-		for i := range rows {
-			fmt.Fprintf(w, "  %8s", fmt.Sprintf("model %d", i+1))
-		}
-		fmt.Fprintln(w)
-		for c, pc := range rows[0].Metrics.PerClass {
-			fmt.Fprintf(w, "%-20s", pc.Label)
-			for _, r := range rows {
-				if c < len(r.Metrics.PerClass) {
-					fmt.Fprintf(w, "  %8.4f", r.Metrics.PerClass[c].F1)
-				}
-			}
-			fmt.Fprintln(w)
 		}
 	}
 	return nil
 }
 
-// samePath reports whether a and b name the same file (or would).
-func samePath(a, b string) (bool, error) {
-	pa, err := filepath.Abs(a)
-	if err != nil {
-		return false, err
+// exportPaths are the files --export writes: the suspects, and beside them
+// the flagged tokens and the cue groups.
+func exportPaths(export string) (suspects, tokens, groups string) {
+	if export == "" {
+		return "", "", ""
 	}
-	pb, err := filepath.Abs(b)
-	if err != nil {
-		return false, err
-	}
-	return filepath.Clean(pa) == filepath.Clean(pb), nil
+	ext := filepath.Ext(export)
+	base := strings.TrimSuffix(export, ext)
+	return export, base + ".tokens" + ext, base + ".groups" + ext
 }
 
-// flippedShare is the share of positions where b's prediction differs from a's.
-func flippedShare(a, b []int) float64 {
-	flips := 0
-	for j := range b {
-		if b[j] != a[j] {
-			flips++
+func (o *auditOptions) files() (outputs, inputs []outguard.File) {
+	suspects, tokens, groups := exportPaths(o.export)
+	return []outguard.File{{Name: "--export", Path: suspects}, {Name: "--export's token table", Path: tokens},
+			{Name: "--export's group table", Path: groups}, {Name: "--masked-out", Path: o.maskedOut}},
+		[]outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.data}, {Name: "--test", Path: o.test}}
+}
+
+func runAudit(ctx context.Context, env *runEnv, o *auditOptions) error {
+	m, _, err := openModel(o.model)
+	if err != nil {
+		return err
+	}
+	es, err := findTestSplit(m, o.data, o.test, &o.read, env.Stderr, o.quiet)
+	if err != nil {
+		return err
+	}
+	say(env.Stderr, o.quiet, "%s", es.note)
+	a, err := o.audit(ctx, env, m, es)
+	if err != nil {
+		return err
+	}
+	if err := o.writeFiles(env, m, a); err != nil {
+		return err
+	}
+	if o.asJSON {
+		return writeJSON(env.Stdout, a)
+	}
+	return a.WriteText(env.Stdout)
+}
+
+// audit runs the audit of m with evidence from es.train and interventions
+// on es.test.
+func (o *auditOptions) audit(ctx context.Context, env *runEnv, m *cnn.Model, es *evalSet) (*explain.Audit, error) {
+	maxLen := 0
+	if m.Info.Recipe != nil {
+		maxLen = m.Info.Recipe.MaxLen
+	}
+	trainData, err := explain.NewAuditData(m, es.train, maxLen, o.threads.N)
+	if err != nil {
+		return nil, err
+	}
+	heldData, err := explain.NewAuditData(m, es.test, maxLen, o.threads.N)
+	if err != nil {
+		return nil, err
+	}
+	bar := newProgressBar(env.Stderr, o.quiet)
+	a, err := explain.RunAudit(ctx, m, trainData, heldData, explain.AuditOptions{Top: o.top, Seed: o.seed, Workers: o.threads.N,
+		ModelFile: o.model, HeldoutFile: o.test},
+		func(stage string, done, total int) { bar.show(done, total, stage, false) })
+	bar.done()
+	return a, err
+}
+
+// writeFiles writes the exports and the masked model the options ask for.
+func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, a *explain.Audit) error {
+	if o.export != "" {
+		suspects, tokens, groups := exportPaths(o.export)
+		for _, f := range []struct {
+			path  string
+			table *report.Table
+		}{{suspects, report.SuspectTable(a)}, {tokens, report.TokenTable(a)}, {groups, report.CueGroupTable(a)}} {
+			if err := report.WriteTableFile(f.path, f.table); err != nil {
+				return err
+			}
 		}
 	}
-	return float64(flips) / float64(max(1, len(b)))
+	if o.maskedOut == "" {
+		return nil
+	}
+	if a.Plan == nil || len(a.Plan.Filters) == 0 {
+		return fmt.Errorf("the audit suggests no filters to mask, so %s was not written", o.maskedOut)
+	}
+	masked, err := explain.MaskFilters(m, a.Plan.Filters)
+	if err != nil {
+		return err
+	}
+	if err := masked.Save(o.maskedOut); err != nil {
+		return err
+	}
+	if !o.quiet {
+		fmt.Fprintf(env.Stderr, "model with the %d suggested filters masked written to %s\n", len(a.Plan.Filters), o.maskedOut)
+	}
+	return nil
 }

@@ -5,129 +5,138 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/outguard"
 	"telltale/report"
 )
 
-func init() {
-	register(&command{
-		Name:      "eval",
-		UsageLine: "eval --model MODEL --data FILE [--text-col C] [--label-col C] [--json]",
-		Short:     "evaluate a model on labeled data: accuracy, per-class F1, confusion matrix, calibration",
-		Long: `Eval runs a saved model on every text of --data and prints accuracy,
-per-class precision, recall and F1 with support, macro- and weighted-F1, the
-confusion matrix (rows: gold label, columns: predicted) and the expected
-calibration error over equal-width confidence bins.`,
-		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
-			var df dataFlags
-			df.register(fs, "not used by eval")
-			modelPath := fs.String("model", "", "model file written by train")
-			asJSON := fs.Bool("json", false, "print the metrics as one JSON object")
-			bins := fs.Int("bins", cnn.DefaultBins, "equal-width bins for the calibration error (1 or more)")
-			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
-			quiet := fs.Bool("quiet", false, "print no warnings")
-			export := fs.String("export", "", "also write every prediction with its probabilities to this .csv or .jsonl file")
-			return func(ctx context.Context, env *runEnv) error {
-				if err := checkExport(*export); err != nil {
-					return err
-				}
-				if *bins < 1 {
-					return usagef("--bins %d: give at least 1 bin", *bins)
-				}
-				m, enc, err := openModel(*modelPath)
-				if err != nil {
-					return err
-				}
-				if df.Data == "" {
-					return usagef("--data is required: the labeled file to evaluate on")
-				}
-				ds, err := df.read(df.Data, env.Stderr, *quiet)
-				if err != nil {
-					return err
-				}
-				data, err := cnn.EncodeDataset(enc, ds, m.Labels, *threads)
-				if err != nil {
-					return fmt.Errorf("%w (the model knows the labels %s)", err, strings.Join(m.Labels, ", "))
-				}
-				met, _, err := cnn.Evaluate(m, data, *threads)
-				if err != nil {
-					return err
-				}
-				if *bins != cnn.DefaultBins || *export != "" {
-					probs := m.Probabilities(data.IDs, *threads)
-					met = metricsWithBins(m, data, probs, *bins)
-					if *export != "" {
-						if err := report.WriteTableFile(*export, report.PredictionTable(m.Labels, ds.Texts(), data.Labels, probs)); err != nil {
-							return err
-						}
-					}
-				}
-				if *asJSON {
-					return writeJSON(env.Stdout, met)
-				}
-				writeMetrics(env.Stdout, met)
-				return nil
-			}
-		},
-	})
-	register(&command{
-		Name:      "predict",
-		UsageLine: "predict --model MODEL [--text \"...\"] [--json]     (without --text: one text per stdin line)",
-		Short:     "label new text with a saved model",
-		Long: `Predict labels --text, or every line of standard input (blank lines are
-skipped), and prints the label and the probability of each class.`,
-		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
-			modelPath := fs.String("model", "", "model file written by train")
-			text := fs.String("text", "", "the text to label (default: one text per line of standard input)")
-			asJSON := fs.Bool("json", false, "print one JSON object per text")
-			export := fs.String("export", "", "also write the predictions to this .csv or .jsonl file")
-			fs.Bool("quiet", false, "accepted for symmetry: predict prints no progress or warnings")
-			return func(ctx context.Context, env *runEnv) error {
-				if err := checkExport(*export); err != nil {
-					return err
-				}
-				m, enc, err := openModel(*modelPath)
-				if err != nil {
-					return err
-				}
-				pr := m.NewPredictor()
-				out := make([]cnn.Output, 1)
-				var texts []string
-				var probs [][]float32
-				emit := func(t string) error {
-					_, ids := enc.Encode(t)
-					pr.Run([][]int32{ids}, out)
-					if *export != "" {
-						texts, probs = append(texts, t), append(probs, append([]float32(nil), out[0].Probs...))
-					}
-					return writePrediction(env.Stdout, m, t, out[0].Probs, *asJSON)
-				}
-				var err2 error
-				if isSet(fs, "text") {
-					if strings.TrimSpace(*text) == "" {
-						return usagef("--text is empty: give a text, or leave --text out to read one text per line of standard input")
-					}
-					err2 = emit(*text)
-				} else {
-					err2 = eachLine(ctx, env.Stdin, emit)
-				}
-				if err2 != nil || *export == "" {
-					return err2
-				}
-				return report.WriteTableFile(*export, report.PredictionTable(m.Labels, texts, nil, probs))
-			}
-		},
-	})
+var cmdEval = &command{
+	Name:      "eval",
+	UsageLine: "eval --model MODEL (--data FILE | --test FILE) [--text-col C] [--label-col C] [--export FILE] [--json]",
+	Short:     "evaluate a model on labeled data: accuracy, per-class F1, confusion matrix, calibration",
+	Long: `Eval runs a saved model on labeled texts and prints accuracy, per-class
+precision, recall and F1 with support, macro- and weighted-F1, the confusion
+matrix (rows: gold label, columns: predicted) and the expected calibration
+error over equal-width confidence bins.
+
+The texts: with --test FILE, those. With --data FILE alone, when it holds the
+data the model was trained on, the test split train held out of it (or the test
+file train was given); with other data, all of it, with a note that it may hold
+texts the model was trained on.`,
+	Options: func() options { return new(evalOptions) },
+	Run:     runAs(runEval),
+}
+
+type evalOptions struct {
+	model, data, test string
+	read              readOptions
+	bins              int
+	threads           threadsOption
+	export            string
+	asJSON, quiet     bool
+}
+
+func (o *evalOptions) register(fs *flag.FlagSet) {
+	fs.StringVar(&o.model, "model", "", "model file written by train")
+	registerEvalData(fs, &o.data, &o.test)
+	o.read.register(fs, true)
+	intVar(fs, &o.bins, "bins", cnn.DefaultBins, "equal-width bins for the calibration error (1 or more)")
+	o.threads.register(fs)
+	fs.StringVar(&o.export, "export", "", "also write every prediction with its probabilities to this .csv or .jsonl file")
+	fs.BoolVar(&o.asJSON, "json", false, "print the metrics as one JSON object")
+	fs.BoolVar(&o.quiet, "quiet", false, "print no notes or warnings")
+}
+
+// registerEvalData adds --data and --test as the commands that evaluate a
+// saved model read them.
+func registerEvalData(fs *flag.FlagSet, data, test *string) {
+	fs.StringVar(data, "data", "", "labeled data: the test split train held out of it when it is the model's data, else all of it")
+	fs.StringVar(test, "test", "", "labeled test file to evaluate on")
+}
+
+func (o *evalOptions) check(fs *flag.FlagSet, env *runEnv) error {
+	for _, err := range []error{requireModel(o.model), requireEvalData(o.data, o.test), checkExport(o.export),
+		checkAtLeast("bins", o.bins, 1, "bins of the calibration error"), o.read.check(), o.threads.check(env.Stderr)} {
+		if err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func (o *evalOptions) files() (outputs, inputs []outguard.File) {
+	return []outguard.File{{Name: "--export", Path: o.export}},
+		[]outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.data}, {Name: "--test", Path: o.test}}
+}
+
+// evalOutput is eval's JSON: the metrics and the texts they are of.
+type evalOutput struct {
+	cnn.Metrics
+	Split     string `json:"split"` // "test", or "all" when all of --data
+	SplitNote string `json:"split_note"`
+}
+
+func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
+	m, enc, err := openModel(o.model)
+	if err != nil {
+		return err
+	}
+	es, err := findTestSplit(m, o.data, o.test, &o.read, env.Stderr, o.quiet)
+	if err != nil {
+		return err
+	}
+	say(env.Stderr, o.quiet, "%s", es.note)
+	data, err := encodeFor(m, enc, es.test, o.threads.N)
+	if err != nil {
+		return err
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	probs := m.Probabilities(data.IDs, o.threads.N)
+	met := metricsWithBins(m, data, probs, o.bins)
+	if o.export != "" {
+		if err := report.WriteTableFile(o.export, report.PredictionTable(m.Labels, es.test.Texts(), data.Labels, probs)); err != nil {
+			return err
+		}
+	}
+	if o.asJSON {
+		return writeJSON(env.Stdout, evalOutput{Metrics: met, Split: es.name, SplitNote: es.note})
+	}
+	writeMetrics(env.Stdout, met)
+	return nil
+}
+
+// encodeFor encodes ds for model m, saying which labels the model knows
+// when ds has another.
+func encodeFor(m *cnn.Model, enc *corpus.Encoder, ds *corpus.Dataset, threads int) (cnn.Data, error) {
+	data, err := cnn.EncodeDataset(enc, ds, m.Labels, threads)
+	if err != nil {
+		return data, fmt.Errorf("%w (the model knows the labels %s)", err, listed(m.Labels))
+	}
+	return data, nil
+}
+
+// requireModel refuses a missing --model.
+func requireModel(path string) error {
+	if path == "" {
+		return usagef("--model is required: a model file written by 'telltale train'")
+	}
+	return nil
+}
+
+// requireEvalData refuses a command line with neither --data nor --test.
+func requireEvalData(data, test string) error {
+	if data == "" && test == "" {
+		return usagef("--data or --test is required: labeled texts to evaluate the model on")
+	}
+	return nil
 }
 
 // openModel loads a model file and rebuilds its encoder.
 func openModel(path string) (*cnn.Model, *corpus.Encoder, error) {
-	if path == "" {
-		return nil, nil, usagef("--model is required: a model file written by 'telltale train'")
-	}
 	m, err := cnn.Load(path)
 	if err != nil {
 		return nil, nil, err
@@ -139,57 +148,26 @@ func openModel(path string) (*cnn.Model, *corpus.Encoder, error) {
 	return m, enc, nil
 }
 
+// metricsWithBins evaluates the probabilities probs of d's texts with bins
+// calibration bins.
 func metricsWithBins(m *cnn.Model, d cnn.Data, probs [][]float32, bins int) cnn.Metrics {
 	pred := make([]int, len(probs))
 	conf := make([]float64, len(probs))
 	for i, p := range probs {
-		best := 0
-		for c := range p {
-			if p[c] > p[best] {
-				best = c
-			}
-		}
+		best := argmax(p)
 		pred[i], conf[i] = best, float64(p[best])
 	}
 	return cnn.ComputeMetrics(m.Labels, d.Labels, pred, conf, bins)
 }
 
-type prediction struct {
-	Text          string             `json:"text"`
-	Label         string             `json:"label"`
-	Probabilities map[string]float64 `json:"probabilities"`
-}
-
-func writePrediction(w io.Writer, m *cnn.Model, text string, probs []float32, asJSON bool) error {
+func argmax(p []float32) int {
 	best := 0
-	for c := range probs {
-		if probs[c] > probs[best] {
+	for c := range p {
+		if p[c] > p[best] {
 			best = c
 		}
 	}
-	if asJSON {
-		p := prediction{Text: text, Label: m.Labels[best], Probabilities: map[string]float64{}}
-		for c, l := range m.Labels {
-			p.Probabilities[l] = float64(probs[c])
-		}
-		b, err := jsonLine(p)
-		if err != nil {
-			return err
-		}
-		_, err = w.Write(b)
-		return err
-	}
-	var sb strings.Builder
-	fmt.Fprintf(&sb, "%s\t", m.Labels[best])
-	for c, l := range m.Labels {
-		if c > 0 {
-			sb.WriteString(" ")
-		}
-		fmt.Fprintf(&sb, "%s=%.3f", l, probs[c])
-	}
-	fmt.Fprintf(&sb, "\t%s\n", oneLine(text, 60))
-	_, err := io.WriteString(w, sb.String())
-	return err
+	return best
 }
 
 // writeMetrics prints an evaluation as readable tables.

@@ -14,6 +14,8 @@ import (
 	"fyne.io/fyne/v2/app"
 
 	"telltale/gui"
+	"telltale/internal/localeenv"
+	"telltale/internal/outguard"
 )
 
 // The demo corpus travels inside the binary, so the window always has
@@ -25,49 +27,67 @@ var (
 	demoTest []byte
 )
 
-func init() {
-	register(&command{
-		Name:      "gui",
-		UsageLine: "gui [--data FILE] [--test FILE] [--model MODEL] [--view NAME] [--demo-train] [--quit-after DURATION]",
-		Short:     "open the desktop window (on the built-in demo corpus when no data is given)",
-		Long: `Gui opens the telltale window: the corpus, training with live curves, the
-scorecard, the filter catalogue, the explanation of any sentence as you type,
+var cmdGUI = &command{
+	Name:      "gui",
+	UsageLine: "gui [--data FILE] [--test FILE] [--model MODEL] [--view NAME] [--demo-train] [--quit-after DURATION]",
+	Short:     "open the desktop window (on the built-in demo corpus when no data is given)",
+	Long: `Gui opens the telltale window: the corpus, training with live curves, the
+results, the filter catalogue, the explanation of any sentence as you type,
 and the cue audit. Without --data it opens on the demo corpus built into the
 binary. It needs a display; without one, use the command line (train, eval,
 explain, filters, audit) or 'telltale report' for an HTML report.
 
 ` + gui.Caution,
-		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
-			var o gui.Options
-			fs.StringVar(&o.DataPath, "data", "", "labeled training data (default: the built-in demo corpus)")
-			fs.StringVar(&o.TestPath, "test", "", "labeled held-out data")
-			fs.StringVar(&o.TextCol, "text-col", "", "name of the text column or field")
-			fs.StringVar(&o.LabelCol, "label-col", "", "name of the label column or field")
-			fs.StringVar(&o.ModelPath, "model", "", "a model file to open")
-			fs.StringVar(&o.StartView, "view", "", "the view to open first: "+strings.Join(gui.ViewTitles(), ", "))
-			fs.BoolVar(&o.AutoRun, "demo-train", false, "with no model, train one at start and profile its filters")
-			quitAfter := fs.Duration("quit-after", 0, "close the window after this long (for scripts)")
-			return func(ctx context.Context, env *runEnv) error {
-				if err := checkDisplay(); err != nil {
-					return err
-				}
-				o.DemoTrain, o.DemoTest = demoTrain, demoTest
-				o.OnReady = func() { fmt.Fprintln(env.Stderr, "telltale: window ready") }
-				a := app.NewWithID("org.telltale.app")
-				w := gui.NewWindow(a, o)
-				// Ctrl-C and SIGTERM close the window cleanly.
-				go func() {
-					<-ctx.Done()
-					fyne.Do(a.Quit)
-				}()
-				if *quitAfter > 0 {
-					time.AfterFunc(*quitAfter, func() { fyne.Do(a.Quit) })
-				}
-				w.ShowAndRun()
-				return nil
-			}
-		},
-	})
+	Options: func() options { return new(guiOptions) },
+	Run:     runAs(runGUI),
+}
+
+type guiOptions struct {
+	gui.Options
+	quitAfter time.Duration
+}
+
+func (o *guiOptions) register(fs *flag.FlagSet) {
+	fs.StringVar(&o.DataPath, "data", "", "labeled training data (default: the built-in demo corpus)")
+	fs.StringVar(&o.TestPath, "test", "", "labeled test file")
+	fs.StringVar(&o.TextCol, "text-col", "", "name of the text column or field")
+	fs.StringVar(&o.LabelCol, "label-col", "", "name of the label column or field")
+	fs.StringVar(&o.ModelPath, "model", "", "a model file to open")
+	fs.StringVar(&o.StartView, "view", "", "the view to open first: "+strings.Join(gui.ViewTitles(), ", "))
+	fs.BoolVar(&o.AutoRun, "demo-train", false, "with no model, train one at start and profile its filters")
+	fs.DurationVar(&o.quitAfter, "quit-after", 0, "close the window after this long (for scripts)")
+}
+
+func (o *guiOptions) check(fs *flag.FlagSet, env *runEnv) error {
+	if o.quitAfter < 0 {
+		return usagef("--quit-after %s: give a duration of 0 (stay open) or more, e.g. 30s", o.quitAfter)
+	}
+	return nil
+}
+
+func (o *guiOptions) files() (outputs, inputs []outguard.File) {
+	return nil, []outguard.File{{Name: "--data", Path: o.DataPath}, {Name: "--test", Path: o.TestPath}, {Name: "--model", Path: o.ModelPath}}
+}
+
+func runGUI(ctx context.Context, env *runEnv, o *guiOptions) error {
+	if err := checkDisplay(); err != nil {
+		return err
+	}
+	localeenv.Fix() // the window's own locale lookups read the same variables
+	o.DemoTrain, o.DemoTest = demoTrain, demoTest
+	o.OnReady = func() { fmt.Fprintln(env.Stderr, "telltale: window ready") }
+	a := app.NewWithID("org.telltale.app")
+	w := gui.NewWindow(a, o.Options)
+	// Ctrl-C and SIGTERM close the window cleanly.
+	go func() {
+		<-ctx.Done()
+		fyne.Do(a.Quit)
+	}()
+	if o.quitAfter > 0 {
+		time.AfterFunc(o.quitAfter, func() { fyne.Do(a.Quit) })
+	}
+	w.ShowAndRun()
+	return nil
 }
 
 // checkDisplay fails plainly when there is no screen to open a window on.

@@ -6,65 +6,98 @@ import (
 	"fmt"
 	"path/filepath"
 
+	"telltale/internal/outguard"
 	"telltale/report"
 )
 
-func init() {
-	register(&command{
-		Name:      "report",
-		UsageLine: "report --model MODEL --data FILE [--dev FILE] --out report.html",
-		Short:     "write one self-contained HTML report: data, metrics, filters, audit, explained examples",
-		Long: `Report writes a single HTML file that needs nothing else to open (no network,
+var cmdReport = &command{
+	Name:      "report",
+	UsageLine: "report --model MODEL --data FILE [--test FILE] --out report.html",
+	Short:     "write one self-contained HTML report: data, metrics, filters, audit, explained examples",
+	Long: `Report writes a single HTML file that needs nothing else to open (no network,
 styles and images inline) and prints well: the dataset summary, the training
 recipe and metrics, the confusion matrix and reliability diagram, the filter
 catalogue, the spurious-cue audit with its evidence, and explained examples
 (correct, wrong and cue-conflicting) painted by exact attribution. --data is
-the training file; --dev the held-out file. Without --dev, the held-out texts
-are the dev split that train kept out of --data (when --data is the file the
-model was trained on), else a share of --data, with a warning that it may
-hold training texts.`,
-		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
-			var df dataFlags
-			df.register(fs, "held-out file (default: the dev split train kept out of --data)")
-			modelPath := fs.String("model", "", "model file written by train")
-			out := fs.String("out", "", "where to write the HTML report")
-			title := fs.String("title", "", "the report's title (default: from the model file's name)")
-			skipAudit := fs.Bool("no-audit", false, "leave out the spurious-cue audit")
-			threads := fs.Int("threads", 0, "worker goroutines (default: all cores)")
-			quiet := fs.Bool("quiet", false, "no progress bar or warnings")
-			asJSON := fs.Bool("json", false, "print where the report went as one JSON object")
-			return func(ctx context.Context, env *runEnv) error {
-				if *out == "" {
-					return usagef("--out is required: where to write the report, e.g. --out report.html")
-				}
-				m, _, err := openModel(*modelPath)
-				if err != nil {
-					return err
-				}
-				train, held, name, note, err := df.loadForModel(m, env.Stderr, *quiet)
-				if err != nil {
-					return err
-				}
-				bar := newProgressBar(env.Stderr, *quiet)
-				r, err := report.Build(ctx, m, train, held, report.Options{Title: *title, ModelPath: *modelPath, HeldOut: name, HeldOutNote: note,
-					SkipAudit: *skipAudit, Threads: *threads},
-					func(stage string, done, total int) { bar.show(done, total, stage, false) })
-				bar.done()
-				if err != nil {
-					return err
-				}
-				if err := report.WriteFile(*out, r); err != nil {
-					return err
-				}
-				abs, _ := filepath.Abs(*out)
-				if *asJSON {
-					return writeJSON(env.Stdout, map[string]string{"report": abs})
-				}
-				if !*quiet {
-					fmt.Fprintf(env.Stderr, "report written to %s\n", abs)
-				}
-				return nil
-			}
-		},
-	})
+the data the model was trained on; the metrics are of the test split, found as
+eval finds it: --test FILE, or the test split train held out of --data, or,
+when --data is not the model's data, all of it with a note in the report.`,
+	Options: func() options { return new(reportOptions) },
+	Run:     runAs(runReport),
+}
+
+type reportOptions struct {
+	model, data, test, out, title string
+	read                          readOptions
+	noAudit                       bool
+	threads                       threadsOption
+	asJSON, quiet                 bool
+}
+
+func (o *reportOptions) register(fs *flag.FlagSet) {
+	fs.StringVar(&o.model, "model", "", "model file written by train")
+	fs.StringVar(&o.data, "data", "", "the labeled data the model was trained on")
+	fs.StringVar(&o.test, "test", "", "labeled test file (default: the test split train held out of --data)")
+	o.read.register(fs, true)
+	fs.StringVar(&o.out, "out", "", "where to write the HTML report")
+	fs.StringVar(&o.title, "title", "", "the report's title (default: from the model file's name)")
+	fs.BoolVar(&o.noAudit, "no-audit", false, "leave out the spurious-cue audit")
+	o.threads.register(fs)
+	fs.BoolVar(&o.asJSON, "json", false, "print where the report went as one JSON object")
+	fs.BoolVar(&o.quiet, "quiet", false, "no progress bar, notes or warnings")
+}
+
+func (o *reportOptions) check(fs *flag.FlagSet, env *runEnv) error {
+	if o.out == "" {
+		return usagef("--out is required: where to write the report, e.g. --out report.html")
+	}
+	if o.data == "" {
+		return usagef("--data is required: the labeled data the model was trained on")
+	}
+	for _, err := range []error{requireModel(o.model), o.read.check(), o.threads.check(env.Stderr)} {
+		if err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func (o *reportOptions) files() (outputs, inputs []outguard.File) {
+	return []outguard.File{{Name: "--out", Path: o.out}},
+		[]outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.data}, {Name: "--test", Path: o.test}}
+}
+
+func runReport(ctx context.Context, env *runEnv, o *reportOptions) error {
+	m, _, err := openModel(o.model)
+	if err != nil {
+		return err
+	}
+	es, err := findTestSplit(m, o.data, o.test, &o.read, env.Stderr, o.quiet)
+	if err != nil {
+		return err
+	}
+	say(env.Stderr, o.quiet, "%s", es.note)
+	name := es.name
+	if name == "all" {
+		name = "evaluation"
+	}
+	bar := newProgressBar(env.Stderr, o.quiet)
+	r, err := report.Build(ctx, m, es.train, es.test, report.Options{Title: o.title, ModelPath: o.model, HeldOut: name, HeldOutNote: es.note,
+		SkipAudit: o.noAudit, Threads: o.threads.N},
+		func(stage string, done, total int) { bar.show(done, total, stage, false) })
+	bar.done()
+	if err != nil {
+		return err
+	}
+	if err := report.WriteFile(o.out, r); err != nil {
+		return err
+	}
+	abs, _ := filepath.Abs(o.out)
+	if o.asJSON {
+		return writeJSON(env.Stdout, map[string]string{"report": abs})
+	}
+	if !o.quiet {
+		fmt.Fprintf(env.Stderr, "report written to %s\n", abs)
+	}
+	return nil
 }

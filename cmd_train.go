@@ -5,146 +5,130 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"os"
 	"path/filepath"
 	"time"
 
 	"telltale/cnn"
-	"telltale/corpus"
+	"telltale/internal/outguard"
 )
 
-// recipeFlags are the model and training options of train (and of the
-// window's recipe form, which mirrors them).
-type recipeFlags struct {
-	Epochs, Batch, Dim, Filters, MaxLen, Threads, Patience, MinCount int
-	Widths, Optimizer, Vectors, Tokenizer                            string
-	Dropout, LR, MaxNorm                                             float64
-	Freeze, Subword, Lower                                           bool
+var cmdTrain = &command{
+	Name: "train",
+	UsageLine: "train --data FILE --out MODEL [--dev FILE | --dev-frac X] [--test FILE | --test-frac X]\n" +
+		"               [--text-col C] [--label-col C] [--epochs N] [--batch N] [--dim N] [--widths 3,4,5] [--maps N]\n" +
+		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--vectors FILE] [--freeze]\n" +
+		"               [--mask-tokens FILE] [--seed N] [--threads N] [--force] [--json]",
+	Short: "train a sentence CNN on labeled data and save the model",
+	Long: `Train builds a vocabulary from the training split, trains the convolutional
+classifier of Kim (2014) and saves the weights of the best epoch by macro-F1 on
+the dev split to --out. Without --dev and --test, --dev-frac and --test-frac of
+--data are held out as the dev and test splits, stratified by label and seeded
+by --seed; the kept model is evaluated on the test split at the end, and the
+model file records how the splits were made, so that eval, audit, report,
+faithfulness, compare and mask, given the same --data, evaluate on the same
+test split.
+
+Before training it refuses data that would give a useless model: more
+distinct labels than half the examples (the text and label columns swapped,
+say), an empty dev split, an empty vocabulary (--min-count too high), a model
+too large for the machine's memory. --force trains anyway on the first two.
+A run whose loss stops being a finite number stops at once, keeps the best
+epoch so far and says to lower --lr. Press Ctrl-C to stop early: the best
+model so far is saved. When --out names an existing file it is replaced
+whole at the end (written beside it, then renamed), never in part.
+
+--mask-tokens FILE takes cue tokens out of the training text first. The file
+holds one pattern per line: a plain token, matched as a whole word without
+regard to case (tkref matches in "TKREF-48213" but not in "tkrefs"), or a
+regular expression between slashes in Go's RE2 syntax (/TKREF-[0-9]{5}/),
+matched anywhere. Blank lines and lines starting with # are skipped. A line
+that looks like a regular expression but lacks the slashes is a plain token
+and usually matches nothing: train warns of it.`,
+	Options: func() options { return new(trainOptions) },
+	Run:     runAs(runTrain),
 }
 
-func (r *recipeFlags) register(fs *flag.FlagSet) {
-	fs.IntVar(&r.Epochs, "epochs", 10, "passes over the training data")
-	fs.IntVar(&r.Batch, "batch", 50, "mini-batch size")
-	fs.IntVar(&r.Dim, "dim", 128, "embedding dimension (must match --vectors when given)")
-	fs.StringVar(&r.Widths, "widths", "3,4,5", "filter widths, comma-separated")
-	fs.IntVar(&r.Filters, "filters", 100, "feature maps per width")
-	fs.Float64Var(&r.Dropout, "dropout", 0.5, "dropout rate on the pooled layer")
-	fs.Float64Var(&r.MaxNorm, "max-norm", 0, "max L2 norm of each output-weight row (Kim used 3); 0 is off")
-	fs.StringVar(&r.Optimizer, "optimizer", "adam", "adam or adadelta")
-	fs.Float64Var(&r.LR, "lr", 0, "learning rate (default 0.001 for adam, 1.0 for adadelta)")
-	fs.IntVar(&r.MaxLen, "max-len", 400, "cut texts to this many tokens (0 keeps them whole)")
-	fs.IntVar(&r.Patience, "patience", 3, "stop after this many epochs without a better dev macro-F1 (negative: never)")
-	fs.StringVar(&r.Vectors, "vectors", "", "pretrained word vectors: one word and its numbers per line (.gz accepted)")
-	fs.BoolVar(&r.Freeze, "freeze", false, "keep the embeddings fixed during training")
-	fs.IntVar(&r.Threads, "threads", 0, "worker goroutines (default: all cores)")
-	fs.IntVar(&r.MinCount, "min-count", 1, "minimum training count for a word to enter the vocabulary")
-	fs.BoolVar(&r.Subword, "subword", false, "learn subword pieces on the training split for unknown words")
-	fs.BoolVar(&r.Lower, "lower", true, "lower-case tokens")
-	fs.StringVar(&r.Tokenizer, "tokenizer", "", "a tokenizer file in the JSON format of github.com/sugarme/tokenizer")
+type trainOptions struct {
+	data       string
+	read       readOptions
+	split      splitOptions
+	recipe     recipeOptions
+	threads    threadsOption
+	out        string
+	maskTokens string
+	force      bool
+	asJSON     bool
+	quiet      bool
 }
 
-func (r *recipeFlags) tokenizerConfig() corpus.TokenizerConfig {
-	return corpus.TokenizerConfig{Lower: r.Lower, MinCount: r.MinCount, Subword: r.Subword, File: r.Tokenizer}
+func (o *trainOptions) register(fs *flag.FlagSet) {
+	fs.StringVar(&o.data, "data", "", "labeled data: a .csv, .tsv or .jsonl file, or a folder with one sub-folder per label")
+	fs.StringVar(&o.out, "out", "", "where to write the model file")
+	o.split.register(fs, "random seed: the held-out shares, the initialisation, shuffling and dropout")
+	o.read.register(fs, true)
+	o.recipe.register(fs)
+	o.threads.register(fs)
+	fs.StringVar(&o.maskTokens, "mask-tokens", "", "file of tokens or /regular expressions/ to take out of the training text (see above)")
+	fs.BoolVar(&o.force, "force", false, "train although the labels look like texts or the dev split is empty")
+	fs.BoolVar(&o.asJSON, "json", false, "print the final metrics as one JSON object")
+	fs.BoolVar(&o.quiet, "quiet", false, "print nothing but errors (and --json output)")
 }
 
-func (r *recipeFlags) modelConfig(vocabSize, classes int) (cnn.Config, error) {
-	widths, err := parseInts(r.Widths, "widths")
-	if err != nil {
-		return cnn.Config{}, err
+func (o *trainOptions) check(fs *flag.FlagSet, env *runEnv) error {
+	if o.data == "" {
+		return usagef("--data is required: a labeled .csv, .tsv, .jsonl file or a folder of label folders")
 	}
-	c := cnn.Config{VocabSize: vocabSize, Dim: r.Dim, Widths: widths, Filters: r.Filters, Classes: classes,
-		Dropout: float32(r.Dropout), MaxNorm: float32(r.MaxNorm)}
-	if err := c.Validate(); err != nil {
-		return c, usageError{err.Error()}
+	if o.out == "" {
+		return usagef("--out is required: where to write the model file, e.g. --out model.tt")
 	}
-	return c, nil
-}
-
-func (r *recipeFlags) trainConfig(seed uint64) (cnn.TrainConfig, error) {
-	// The library reads 0 as "the default"; on the command line it is a mistake.
-	if r.Epochs < 1 || r.Batch < 1 {
-		return cnn.TrainConfig{}, usagef("--epochs and --batch must be at least 1 (got %d and %d)", r.Epochs, r.Batch)
-	}
-	tc := cnn.TrainConfig{Epochs: r.Epochs, Batch: r.Batch, Optimizer: r.Optimizer, LR: r.LR, Seed: seed,
-		Threads: r.Threads, Patience: r.Patience, MaxLen: r.MaxLen, FreezeEmb: r.Freeze}
-	if r.Patience == 0 {
-		tc.Patience = -1
-	}
-	tc, err := tc.WithDefaults()
-	if err != nil {
-		return tc, usageError{err.Error()}
-	}
-	return tc, nil
-}
-
-func init() {
-	register(&command{
-		Name: "train",
-		UsageLine: "train --data FILE [--dev FILE] [--text-col C] [--label-col C] --out MODEL\n" +
-			"               [--epochs N] [--batch N] [--dim N] [--widths 3,4,5] [--filters N] [--dropout P]\n" +
-			"               [--optimizer adam|adadelta] [--lr X] [--max-len N] [--vectors FILE] [--freeze]\n" +
-			"               [--mask-tokens FILE] [--seed N] [--threads N] [--json]",
-		Short: "train a sentence CNN on labeled data and save the model",
-		Long: `Train builds a vocabulary from the training data, trains the convolutional
-classifier of Kim (2014) and saves the best epoch's weights (by macro-F1 on the
-dev split) to --out. Without --dev, --dev-frac of --data is held out, stratified
-by label, for early stopping. Press Ctrl-C to stop early: the best model so far
-is saved. With --mask-tokens, the tokens or regular expressions listed in that
-file (one per line) are taken out of the training text first.`,
-		Setup: func(fs *flag.FlagSet) func(context.Context, *runEnv) error {
-			var df dataFlags
-			var rf recipeFlags
-			df.register(fs, "dev file for early stopping (default: --dev-frac of --data)")
-			rf.register(fs)
-			out := fs.String("out", "", "where to write the model file")
-			devFrac := fs.Float64("dev-frac", 0.1, "without --dev: share of --data held out for early stopping")
-			maskTokens := fs.String("mask-tokens", "", "file of tokens or regular expressions to take out of the training text")
-			asJSON := fs.Bool("json", false, "print the final metrics as one JSON object")
-			quiet := fs.Bool("quiet", false, "print nothing but errors (and --json output)")
-			return func(ctx context.Context, env *runEnv) error {
-				if *out == "" {
-					return usagef("--out is required: where to write the model file, e.g. --out model.tt")
-				}
-				df.TestFrac = *devFrac
-				return runTrain(ctx, env, &df, &rf, *out, *maskTokens, *asJSON, *quiet)
-			}
-		},
-	})
-}
-
-func runTrain(ctx context.Context, env *runEnv, df *dataFlags, rf *recipeFlags, out, maskFile string, asJSON, quiet bool) error {
-	start := time.Now()
-	if err := checkOutPath(out); err != nil {
-		return err
-	}
-	train, dev, err := df.load(env.Stderr, quiet)
-	if err != nil {
-		return err
-	}
-	if maskFile != "" {
-		var n int
-		if train, n, err = maskTrainingText(train, maskFile); err != nil {
+	for _, err := range []error{o.recipe.check(), o.split.check(fs), o.read.check(), o.threads.check(env.Stderr)} {
+		if err != nil {
 			return err
 		}
-		if !quiet {
-			fmt.Fprintf(env.Stderr, "mask-tokens: %d matches of the patterns in %s taken out of the training text\n", n, maskFile)
+	}
+	// The sizes the options alone set (the vocabulary is not known yet).
+	return o.recipe.checkSize(2, 2, max(o.recipe.MaxLen, 1), o.threads.N)
+}
+
+func (o *trainOptions) files() (outputs, inputs []outguard.File) {
+	return []outguard.File{{Name: "--out", Path: o.out}}, []outguard.File{
+		{Name: "--data", Path: o.data}, {Name: "--dev", Path: o.split.Dev}, {Name: "--test", Path: o.split.Test},
+		{Name: "--vectors", Path: o.recipe.Vectors}, {Name: "--tokenizer", Path: o.recipe.Tokenizer}, {Name: "--mask-tokens", Path: o.maskTokens}}
+}
+
+func runTrain(ctx context.Context, env *runEnv, o *trainOptions) error {
+	start := time.Now()
+	sp, err := o.split.load(o.data, &o.read, env.Stderr, o.quiet)
+	if err != nil {
+		return err
+	}
+	if !o.quiet {
+		printWarnings(env.Stderr, sp.all.LabelWarnings())
+	}
+	if o.maskTokens != "" {
+		if sp.train, err = maskTrainingText(sp.train, o.maskTokens, env.Stderr, o.quiet); err != nil {
+			return err
 		}
 	}
-	cfg, err := rf.modelConfig(2, max(2, len(train.Labels)))
+	if err := o.checkData(sp, env.Stderr); err != nil {
+		return err
+	}
+	trained, err := o.fit(ctx, sp, env.Stderr)
 	if err != nil {
 		return err
 	}
-	tc, err := rf.trainConfig(df.Seed)
-	if err != nil {
-		return err
+	return o.keep(ctx, env, trained, sp, start)
+}
+
+// fit trains the model on the splits, showing progress.
+func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.Trained, error) {
+	bar := newProgressBar(w, o.quiet)
+	if !o.quiet {
+		bar.line("training on %d texts (%d labels), dev %d texts, test %d texts", len(sp.train.Examples), len(sp.train.Labels),
+			len(sp.dev.Examples), len(sp.test.Examples))
 	}
-	recipe := cnn.Recipe{Tokenizer: rf.tokenizerConfig(), Model: cfg, Train: tc, VectorsPath: rf.Vectors}
-	bar := newProgressBar(env.Stderr, quiet)
-	if !quiet {
-		bar.line("training on %d texts (%d labels), dev %d texts", len(train.Examples), len(train.Labels), len(dev.Examples))
-	}
-	trained, err := cnn.TrainText(ctx, train, dev, recipe, func(p cnn.Progress) {
-		if quiet {
+	trained, err := cnn.TrainText(ctx, sp.train, sp.dev, o.recipe.recipe(o.split.Seed, o.threads.N), func(p cnn.Progress) {
+		if o.quiet {
 			return
 		}
 		switch p.Phase {
@@ -159,83 +143,90 @@ func runTrain(ctx context.Context, env *runEnv, df *dataFlags, rf *recipeFlags, 
 		}
 	})
 	bar.done()
-	if err != nil {
-		return err
-	}
+	return trained, err
+}
+
+// keep saves the trained model (its test evaluation and split record with
+// it) unless no epoch completed, prints the summary, and returns the error
+// of a run that was interrupted or diverged.
+func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Trained, sp *splits, start time.Time) error {
 	m, res := trained.Model, trained.Result
-	if rf.Vectors != "" && !quiet {
-		fmt.Fprintf(env.Stderr, "vectors: %d of %d vocabulary words found in %s\n", trained.VectorsFound, len(m.Vocab)-2, rf.Vectors)
+	if o.recipe.Vectors != "" && !o.quiet {
+		fmt.Fprintf(env.Stderr, "vectors: %d of %d vocabulary words found in %s\n", trained.VectorsFound, len(m.Vocab)-2, o.recipe.Vectors)
 	}
-	m.Info.Notes = map[string]string{"data": df.Data, "dev": df.Dev, "seed": fmt.Sprint(df.Seed)}
-	if df.Dev == "" {
-		// audit and report find the same dev split again from these.
-		m.Info.Notes["dev_frac"] = fmt.Sprint(df.TestFrac)
-		if abs, err := filepath.Abs(df.Data); err == nil {
-			m.Info.Notes["data_abs"] = abs
+	if res.BestEpoch == 0 {
+		what := "training stopped before the first epoch ended"
+		if d := res.Diverged; d != nil {
+			return fmt.Errorf("training diverged in epoch %d before it ended (%s): nothing saved to %s; lower --lr (it was %g)",
+				d.Epoch, divergedWhere(d), o.out, m.Info.Recipe.LR)
 		}
+		return interrupted(what + "; nothing saved to " + o.out)
 	}
-	if res != nil && res.BestEpoch == 0 {
-		return fmt.Errorf("training stopped before the first epoch ended; nothing saved to %s", out)
+	m.Info.Splits = &sp.record
+	if len(sp.test.Examples) > 0 && ctx.Err() == nil {
+		data, err := cnn.EncodeDataset(trained.Encoder, sp.test, m.Labels, o.threads.N)
+		if err != nil {
+			return err
+		}
+		met, _, err := cnn.Evaluate(m, data, o.threads.N)
+		if err != nil {
+			return err
+		}
+		m.Info.Test = &met
 	}
-	if err := m.Save(out); err != nil {
+	if err := m.Save(o.out); err != nil {
 		return err
 	}
-	abs, _ := filepath.Abs(out)
+	abs, _ := filepath.Abs(o.out)
 	summary := trainSummary{Model: abs, BestEpoch: res.BestEpoch, Epochs: len(res.Epochs), Cancelled: res.Cancelled,
-		StoppedEarly: res.StoppedEarly, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Seconds: time.Since(start).Seconds()}
-	if asJSON {
+		StoppedEarly: res.StoppedEarly, Diverged: res.Diverged, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Test: m.Info.Test,
+		Splits: m.Info.Splits, Seconds: time.Since(start).Seconds()}
+	if o.asJSON {
 		if err := writeJSON(env.Stdout, summary); err != nil {
 			return err
 		}
-	} else if !quiet {
+	} else if !o.quiet {
 		writeTrainSummary(env.Stdout, summary)
 	}
-	if res.Cancelled {
-		return interrupted(fmt.Sprintf("training interrupted after epoch %d; the best model so far (epoch %d) is saved in %s", len(res.Epochs), res.BestEpoch, abs))
+	switch {
+	case res.Diverged != nil:
+		return fmt.Errorf("training diverged in epoch %d (%s) and stopped; the best model so far (epoch %d) is saved in %s; lower --lr (it was %g) to train on",
+			res.Diverged.Epoch, divergedWhere(res.Diverged), res.BestEpoch, abs, m.Info.Recipe.LR)
+	case res.Cancelled:
+		return interrupted(fmt.Sprintf("training stopped after epoch %d; the best model so far (epoch %d) is saved in %s", len(res.Epochs), res.BestEpoch, abs))
 	}
 	return nil
 }
 
-// interrupted is the error of a run stopped by the user (exit code 1); its
-// message says what was kept. It matches context.Canceled under errors.Is.
-type interrupted string
-
-func (e interrupted) Error() string { return string(e) }
-func (e interrupted) Unwrap() error { return context.Canceled }
-
-// checkOutPath fails, naming path, when no file can be written there (it
-// is a folder, or its folder is missing or not writable), so that a long
-// training run does not end with nowhere to save. It creates and removes a
-// temporary file next to path; the model itself is later written atomically
-// by cnn.Model.Save.
-func checkOutPath(path string) error {
-	if st, err := os.Stat(path); err == nil && st.IsDir() {
-		return fmt.Errorf("--out %s is a folder: give a file name, e.g. %s", path, filepath.Join(path, "model.tt"))
+// divergedWhere says where a run diverged.
+func divergedWhere(d *cnn.Divergence) string {
+	if d.Batch == 0 {
+		return "weights that are not finite numbers at the end of the epoch"
 	}
-	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".check*")
-	if err != nil {
-		return fmt.Errorf("--out %s cannot be written (%v): check that its folder exists and is writable", path, err)
-	}
-	name := f.Name()
-	f.Close()
-	return os.Remove(name)
+	return fmt.Sprintf("the loss of batch %d was %s", d.Batch, d.Value)
 }
 
 type trainSummary struct {
-	Model             string       `json:"model"`
-	BestEpoch         int          `json:"best_epoch"`
-	Epochs            int          `json:"epochs"`
-	Cancelled         bool         `json:"cancelled"`
-	StoppedEarly      bool         `json:"stopped_early"`
-	ExamplesPerSecond float64      `json:"examples_per_second"`
-	Seconds           float64      `json:"seconds"`
-	Dev               *cnn.Metrics `json:"dev,omitempty"`
+	Model             string           `json:"model"`
+	BestEpoch         int              `json:"best_epoch"`
+	Epochs            int              `json:"epochs"`
+	Cancelled         bool             `json:"cancelled"`
+	StoppedEarly      bool             `json:"stopped_early"`
+	Diverged          *cnn.Divergence  `json:"diverged,omitempty"`
+	ExamplesPerSecond float64          `json:"examples_per_second"`
+	Seconds           float64          `json:"seconds"`
+	Dev               *cnn.Metrics     `json:"dev,omitempty"`
+	Test              *cnn.Metrics     `json:"test,omitempty"`
+	Splits            *cnn.SplitRecord `json:"splits,omitempty"`
 }
 
 func writeTrainSummary(w io.Writer, s trainSummary) {
 	fmt.Fprintf(w, "model saved: %s (best epoch %d of %d, %.0f training examples/s, %.1f s in all)\n",
 		s.Model, s.BestEpoch, s.Epochs, s.ExamplesPerSecond, s.Seconds)
 	if s.Dev != nil {
-		fmt.Fprintf(w, "dev: accuracy %.4f  macro-F1 %.4f  ECE %.4f  (%d texts)\n", s.Dev.Accuracy, s.Dev.MacroF1, s.Dev.ECE, s.Dev.N)
+		fmt.Fprintf(w, "dev:  accuracy %.4f  macro-F1 %.4f  ECE %.4f  (%d texts, used to choose the epoch)\n", s.Dev.Accuracy, s.Dev.MacroF1, s.Dev.ECE, s.Dev.N)
+	}
+	if s.Test != nil {
+		fmt.Fprintf(w, "test: accuracy %.4f  macro-F1 %.4f  ECE %.4f  (%d texts, used for nothing else)\n", s.Test.Accuracy, s.Test.MacroF1, s.Test.ECE, s.Test.N)
 	}
 }

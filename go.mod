@@ -12,7 +12,6 @@ require (
 )
 
 require (
-	aa.telltale.local/localeenv v0.0.0
 	codeberg.org/go-fonts/liberation v0.5.0 // indirect
 	codeberg.org/go-latex/latex v0.2.0 // indirect
 	codeberg.org/go-pdf/fpdf v0.11.1 // indirect
@@ -57,5 +56,3 @@ require (
 	golang.org/x/sys v0.50.0 // indirect
 	gopkg.in/yaml.v3 v3.0.1 // indirect
 )
-
-replace aa.telltale.local/localeenv => ./internal/localeenv

@@ -30,13 +30,19 @@ func buildBinary(t *testing.T) string {
 	return bin
 }
 
-// startTrain starts `telltale train` with args and returns the process, a
+// startTrain starts `telltale train` with args (see startCommand).
+func startTrain(t *testing.T, bin string, stdout io.Writer, args ...string) (cmd *exec.Cmd, waitLine func(want string) bool, finish func() (int, string)) {
+	t.Helper()
+	return startCommand(t, bin, stdout, append([]string{"train"}, args...)...)
+}
+
+// startCommand starts the binary with args and returns the process, a
 // function that waits for a line of stderr containing want (or the end of
 // stderr), and one that waits for the process and returns its exit code and
 // all of stderr. Standard output goes to stdout.
-func startTrain(t *testing.T, bin string, stdout io.Writer, args ...string) (cmd *exec.Cmd, waitLine func(want string) bool, finish func() (int, string)) {
+func startCommand(t *testing.T, bin string, stdout io.Writer, args ...string) (cmd *exec.Cmd, waitLine func(want string) bool, finish func() (int, string)) {
 	t.Helper()
-	cmd = exec.Command(bin, append([]string{"train"}, args...)...)
+	cmd = exec.Command(bin, args...)
 	cmd.Stdout = stdout
 	pipe, err := cmd.StderrPipe()
 	if err != nil {
@@ -94,10 +100,10 @@ func startTrain(t *testing.T, bin string, stdout io.Writer, args ...string) (cmd
 }
 
 // TestInterruptKeepsBestModel: SIGINT during `telltale train` stops it
-// with exit 1 (not a crash), the best model of the finished epochs is saved
-// where the message says, it loads and evaluates, and no temporary file is
-// left; before the first epoch ends, nothing is saved and the message says
-// so.
+// with exit 130 (128 + SIGINT, the shells' convention) and "interrupted",
+// not a crash; the best model of the finished epochs is saved where the
+// message says, it loads and evaluates, and no temporary file is left;
+// before the first epoch ends, nothing is saved and the message says so.
 func TestInterruptKeepsBestModel(t *testing.T) {
 	if testing.Short() {
 		t.Skip("builds the binary and trains in a child process; skipped with -short")
@@ -109,7 +115,7 @@ func TestInterruptKeepsBestModel(t *testing.T) {
 		model := filepath.Join(out, "model.tt")
 		var stdout bytes.Buffer
 		cmd, waitLine, finish := startTrain(t, bin, &stdout, "--data", "testdata/demo/train.csv", "--out", model,
-			"--epochs", "1000", "--patience", "0", "--dim", "16", "--filters", "8", "--threads", "1", "--json")
+			"--epochs", "1000", "--patience", "0", "--dim", "16", "--maps", "8", "--threads", "1", "--json")
 		if !waitLine("epoch 1/1000") {
 			_, stderr := finish()
 			t.Fatalf("no end of the first epoch on stderr:\n%s", stderr)
@@ -119,8 +125,8 @@ func TestInterruptKeepsBestModel(t *testing.T) {
 		}
 		code, stderr := finish()
 		noCrash(t, "interrupted train", stderr)
-		if code != 1 {
-			t.Errorf("exit %d after SIGINT, want 1; stderr:\n%s", code, stderr)
+		if code != 130 || !strings.Contains(stderr, "telltale train: interrupted: ") {
+			t.Errorf("exit %d after SIGINT, want 130 and \"interrupted\"; stderr:\n%s", code, stderr)
 		}
 		abs, _ := filepath.Abs(model)
 		if !strings.Contains(stderr, "the best model so far (epoch ") || !strings.Contains(stderr, "is saved in "+abs) {
@@ -180,8 +186,8 @@ func TestInterruptKeepsBestModel(t *testing.T) {
 		if strings.Contains(stderr, "epoch 1/5") {
 			t.Skipf("the first epoch ended before the interrupt arrived; nothing to check:\n%s", stderr)
 		}
-		if code != 1 {
-			t.Errorf("exit %d after SIGINT, want 1; stderr:\n%s", code, stderr)
+		if code != 130 || !strings.Contains(stderr, "telltale train: interrupted: ") {
+			t.Errorf("exit %d after SIGINT, want 130 and \"interrupted\"; stderr:\n%s", code, stderr)
 		}
 		if !strings.Contains(stderr, "nothing saved to "+model) {
 			t.Errorf("stderr does not say that nothing was saved:\n%s", stderr)
@@ -190,4 +196,30 @@ func TestInterruptKeepsBestModel(t *testing.T) {
 			t.Errorf("output folder holds %q, want nothing", got)
 		}
 	})
+}
+
+// TestInterruptAudit: SIGINT while the audit runs ends it with exit 130
+// and "interrupted", not "context canceled" and exit 1.
+func TestInterruptAudit(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds the binary and audits in a child process; skipped with -short")
+	}
+	bin := buildBinary(t)
+	model := tinyModel(t)
+	cmd, waitLine, finish := startCommand(t, bin, io.Discard, "audit", "--model", model, "--data", "testdata/demo/train.csv", "--threads", "1")
+	if !waitLine("note: ") {
+		_, stderr := finish()
+		t.Fatalf("the audit did not start:\n%s", stderr)
+	}
+	if err := cmd.Process.Signal(syscall.SIGINT); err != nil {
+		t.Fatal(err)
+	}
+	code, stderr := finish()
+	noCrash(t, "interrupted audit", stderr)
+	if code == 0 {
+		t.Skipf("the audit ended before the interrupt arrived; nothing to check:\n%s", stderr)
+	}
+	if code != 130 || !strings.Contains(stderr, "telltale audit: interrupted") || strings.Contains(stderr, "context canceled") {
+		t.Errorf("exit %d, stderr:\n%s\nwant exit 130 and \"telltale audit: interrupted\"", code, stderr)
+	}
 }

@@ -13,7 +13,6 @@ package main
 //go:generate go run ./internal/demogen -out testdata/demo
 
 import (
-	_ "aa.telltale.local/localeenv"
 	"context"
 	"errors"
 	"flag"
@@ -22,21 +21,63 @@ import (
 	"log"
 	"os"
 	"os/signal"
-	"sort"
+	"strconv"
 	"strings"
 	"syscall"
+
+	"telltale/internal/localeenv"
+	"telltale/internal/outguard"
 )
 
-// command is one subcommand: its usage line, a one-line summary, a longer
-// description, its own flag set and the function that runs it.
+// commands is every command, in the order help lists them.
+var commands = []*command{
+	cmdData,
+	cmdTrain,
+	cmdEval,
+	cmdPredict,
+	cmdExplain,
+	cmdFilters,
+	cmdFaithfulness,
+	cmdAudit,
+	cmdMask,
+	cmdCompare,
+	cmdReport,
+	cmdGUI,
+	cmdVersion,
+}
+
+// A command is one subcommand of telltale (the shape of the Go command's
+// base.Command): its usage line, a one-line summary, a longer description,
+// its options and the function that runs it.
 type command struct {
 	Name      string
-	UsageLine string
+	UsageLine string // after "telltale "
 	Short     string
 	Long      string
-	// Setup registers the command's flags and returns the function that runs
-	// it once the flags are parsed.
-	Setup func(fs *flag.FlagSet) func(ctx context.Context, env *runEnv) error
+	// Options returns a fresh value to hold the command's options.
+	Options func() options
+	// Run runs the command with the value Options returned, its options
+	// parsed and checked and its outputs cleared by the output guard.
+	Run func(ctx context.Context, env *runEnv, o options) error
+}
+
+// options holds one command's option values.
+type options interface {
+	// register adds the options to fs, with their defaults.
+	register(fs *flag.FlagSet)
+	// check refuses option values that cannot work, before any work starts
+	// (a usageError names the option); it may adjust values with a warning
+	// on env.Stderr. fs tells which options were given.
+	check(fs *flag.FlagSet, env *runEnv) error
+	// files lists the files the command will write and those it reads, for
+	// the output guard.
+	files() (outputs, inputs []outguard.File)
+}
+
+// runAs adapts a run function over one command's own options type to
+// command.Run.
+func runAs[O options](run func(context.Context, *runEnv, O) error) func(context.Context, *runEnv, options) error {
+	return func(ctx context.Context, env *runEnv, o options) error { return run(ctx, env, o.(O)) }
 }
 
 // runEnv is what a command sees of the process.
@@ -53,67 +94,125 @@ func (e usageError) Error() string { return e.msg }
 
 func usagef(format string, args ...any) error { return usageError{fmt.Sprintf(format, args...)} }
 
-var commands = map[string]*command{}
+// interrupted is the error of a run stopped by a signal; its message says
+// what was kept. It matches context.Canceled under errors.Is.
+type interrupted string
 
-func register(c *command) { commands[c.Name] = c }
+func (e interrupted) Error() string { return string(e) }
+func (e interrupted) Unwrap() error { return context.Canceled }
+
+// signalled is the cause of a context cancelled by a signal.
+type signalled struct{ sig syscall.Signal }
+
+func (s signalled) Error() string { return "interrupted by " + s.sig.String() }
+
+// errHelpShown ends a run that printed a command's help on request.
+var errHelpShown = errors.New("help shown")
 
 func main() {
 	log.SetFlags(0)
 	log.SetPrefix("telltale: ")
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	if len(os.Args) < 2 || os.Args[1] != cmdGUI.Name {
+		localeenv.Undo() // only the window needs the locale fix
+	}
+	ctx, stop := signalContext()
 	code := run(ctx, os.Args[1:], os.Stdin, os.Stdout, os.Stderr)
 	stop()
 	os.Exit(code)
 }
 
+// signalContext returns a context cancelled, with a signalled cause, by
+// the first SIGINT or SIGTERM; later ones are ignored while the command
+// finishes (saving what it keeps).
+func signalContext() (context.Context, func()) {
+	ctx, cancel := context.WithCancelCause(context.Background())
+	ch := make(chan os.Signal, 2)
+	signal.Notify(ch, os.Interrupt, syscall.SIGTERM)
+	go func() {
+		if s, ok := (<-ch).(syscall.Signal); ok {
+			cancel(signalled{s})
+		}
+	}()
+	return ctx, func() { signal.Stop(ch); cancel(nil) }
+}
+
 // run executes one command line and returns the process exit code: 0 on
-// success, 1 on a run-time failure, 2 on a usage error.
+// success, 1 on a run-time failure, 2 on a usage error, 128 + the signal's
+// number (130 for SIGINT) when a signal stopped it.
 func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.Writer) int {
-	if len(args) == 0 || args[0] == "help" || args[0] == "-h" || args[0] == "--help" {
-		if len(args) > 1 {
-			if c, ok := commands[args[1]]; ok {
-				printCommandHelp(stdout, c)
-				return 0
-			}
-			fmt.Fprintf(stderr, "telltale: unknown command %q\n", args[1])
-			printHelp(stderr)
-			return 2
-		}
-		if len(args) == 0 {
-			printHelp(stderr)
-			return 2
-		}
-		printHelp(stdout)
-		return 0
-	}
-	c, ok := commands[args[0]]
-	if !ok {
-		fmt.Fprintf(stderr, "telltale: unknown command %q; run 'telltale help' for the list\n", args[0])
+	if len(args) == 0 {
+		printHelp(stderr)
 		return 2
 	}
+	switch args[0] {
+	case "help", "-h", "-help", "--help":
+		return runHelp(args[1:], stdout, stderr)
+	}
+	c := lookup(args[0])
+	if c == nil {
+		fmt.Fprintf(stderr, "telltale: unknown command %q; run 'telltale help' for the list\n", clip(args[0]))
+		return 2
+	}
+	err := execute(ctx, c, args[1:], &runEnv{Stdin: stdin, Stdout: stdout, Stderr: stderr})
+	return exitCode(ctx, c, err, stderr)
+}
+
+func lookup(name string) *command {
+	for _, c := range commands {
+		if c.Name == name {
+			return c
+		}
+	}
+	return nil
+}
+
+// execute parses and checks c's options, runs the output guard and then c.
+func execute(ctx context.Context, c *command, args []string, env *runEnv) error {
+	o := c.Options()
 	fs := flag.NewFlagSet(c.Name, flag.ContinueOnError)
 	fs.SetOutput(io.Discard)
-	exec := c.Setup(fs)
-	if err := fs.Parse(args[1:]); err != nil {
+	o.register(fs)
+	if err := fs.Parse(args); err != nil {
 		if errors.Is(err, flag.ErrHelp) {
-			printCommandHelp(stdout, c)
-			return 0
+			printCommandHelp(env.Stdout, c)
+			return errHelpShown
 		}
-		fmt.Fprintf(stderr, "telltale %s: %v\nusage: telltale %s\n", c.Name, err, c.UsageLine)
-		return 2
+		return usageError{flagMessage(err)}
 	}
 	// A stray word would make the flag package stop, silently dropping
 	// every option after it.
 	if fs.NArg() > 0 {
-		fmt.Fprintf(stderr, "telltale %s: unexpected argument %q: every value goes with an option (quote texts, e.g. --text \"...\")\nusage: telltale %s\n", c.Name, fs.Arg(0), c.UsageLine)
-		return 2
+		return usagef("unexpected argument %q: every value goes with an option (quote texts, e.g. --text \"...\")", clip(fs.Arg(0)))
 	}
-	err := exec(ctx, &runEnv{Stdin: stdin, Stdout: stdout, Stderr: stderr})
-	if err == nil {
-		return 0
+	if err := o.check(fs, env); err != nil {
+		return err
+	}
+	outs, ins := o.files()
+	if err := outguard.Check(outs, ins); err != nil {
+		if errors.Is(err, outguard.ErrOntoInput) {
+			return usageError{err.Error()}
+		}
+		return err
+	}
+	return c.Run(ctx, env, o)
+}
+
+// exitCode prints err (if any) and returns the exit code for it.
+func exitCode(ctx context.Context, c *command, err error, stderr io.Writer) int {
+	if code, stopped := signalCode(ctx, err); stopped {
+		var in interrupted
+		if errors.As(err, &in) {
+			fmt.Fprintf(stderr, "telltale %s: interrupted: %s\n", c.Name, in)
+		} else {
+			fmt.Fprintf(stderr, "telltale %s: interrupted\n", c.Name)
+		}
+		return code
 	}
 	var ue usageError
-	if errors.As(err, &ue) {
+	switch {
+	case err == nil, errors.Is(err, errHelpShown):
+		return 0
+	case errors.As(err, &ue):
 		fmt.Fprintf(stderr, "telltale %s: %v\nusage: telltale %s\n", c.Name, err, c.UsageLine)
 		return 2
 	}
@@ -121,27 +220,109 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 	return 1
 }
 
+// signalCode reports whether the run was stopped by a signal (or its
+// context cancelled) and the exit code that says so: 128 + the signal's
+// number, 130 (SIGINT) when the context was cancelled otherwise.
+func signalCode(ctx context.Context, err error) (int, bool) {
+	if ctx.Err() == nil && !errors.Is(err, context.Canceled) {
+		return 0, false
+	}
+	var s signalled
+	if errors.As(context.Cause(ctx), &s) {
+		return 128 + int(s.sig), true
+	}
+	return 128 + int(syscall.SIGINT), true
+}
+
+// flagMessage rewrites the flag package's errors with options written as
+// the help writes them (two dashes).
+func flagMessage(err error) string {
+	msg := err.Error()
+	var name, value, why string
+	switch {
+	case scan(msg, "flag provided but not defined: -", &name):
+		return fmt.Sprintf("unknown option --%s: 'telltale help' with the command's name lists its options", clip(name))
+	case scan(msg, "flag needs an argument: -", &name):
+		return fmt.Sprintf("--%s needs a value", name)
+	case scanValue(msg, &value, &name, &why):
+		return fmt.Sprintf("--%s %s: %s", name, clip(value), why)
+	}
+	return msg
+}
+
+// scan reports whether msg starts with prefix and sets rest to what follows.
+func scan(msg, prefix string, rest *string) bool {
+	r, ok := strings.CutPrefix(msg, prefix)
+	*rest = r
+	return ok
+}
+
+// scanValue takes apart the flag package's `invalid value "V" for flag -N: W`
+// and `invalid boolean value "V" for -N: W`.
+func scanValue(msg string, value, name, why *string) bool {
+	rest, ok := strings.CutPrefix(msg, "invalid value ")
+	boolean := false
+	if !ok {
+		if rest, ok = strings.CutPrefix(msg, "invalid boolean value "); !ok {
+			return false
+		}
+		boolean = true
+	}
+	q, err := strconv.QuotedPrefix(rest)
+	if err != nil {
+		return false
+	}
+	tail, ok := strings.CutPrefix(rest[len(q):], " for ")
+	if !ok {
+		return false
+	}
+	n, w, ok := strings.Cut(strings.TrimPrefix(strings.TrimPrefix(tail, "flag "), "-"), ": ")
+	if !ok {
+		return false
+	}
+	*value, _ = strconv.Unquote(q)
+	*name, *why = n, w
+	if boolean {
+		*why = "give true or false"
+	}
+	return true
+}
+
+func runHelp(args []string, stdout, stderr io.Writer) int {
+	if len(args) == 0 {
+		printHelp(stdout)
+		return 0
+	}
+	if c := lookup(args[0]); c != nil {
+		printCommandHelp(stdout, c)
+		return 0
+	}
+	fmt.Fprintf(stderr, "telltale: unknown command %q\n", clip(args[0]))
+	printHelp(stderr)
+	return 2
+}
+
 func printHelp(w io.Writer) {
 	fmt.Fprintln(w, "telltale trains a sentence CNN, explains it and audits it for spurious cues.")
 	fmt.Fprintln(w, "\nUsage:\n\n\ttelltale <command> [options]\n\nCommands:")
-	names := make([]string, 0, len(commands))
-	for n := range commands {
-		names = append(names, n)
-	}
-	sort.Strings(names)
-	for _, n := range names {
-		fmt.Fprintf(w, "\t%-13s %s\n", n, commands[n].Short)
+	for _, c := range commands {
+		fmt.Fprintf(w, "\t%-13s %s\n", c.Name, c.Short)
 	}
 	fmt.Fprintln(w, "\nRun 'telltale help <command>' for a command's options.")
 }
 
+// printCommandHelp prints c's usage, description and exactly the options
+// it registers.
 func printCommandHelp(w io.Writer, c *command) {
 	fmt.Fprintf(w, "usage: telltale %s\n\n%s\n", c.UsageLine, strings.TrimSpace(c.Long))
 	fs := flag.NewFlagSet(c.Name, flag.ContinueOnError)
-	c.Setup(fs)
+	c.Options().register(fs)
 	fmt.Fprintln(w, "\nOptions:")
 	fs.VisitAll(func(f *flag.Flag) {
 		name, usage := flag.UnquoteUsage(f)
+		if t, ok := f.Value.(interface{ typeName() string }); ok && !strings.Contains(f.Usage, "`") {
+			name = t.typeName()
+		}
 		line := "  --" + f.Name
 		if name != "" {
 			line += " " + name

@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
-	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -95,7 +94,7 @@ func TestTourContract(t *testing.T) {
 	data := smallDemo(t, 600)
 	model := filepath.Join(t.TempDir(), "m.tt")
 	code, out, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "2", "--dim", "16",
-		"--filters", "8", "--json", "--quiet")
+		"--maps", "8", "--json", "--quiet")
 	if code != 0 {
 		t.Fatalf("train: exit %d: %s", code, stderr)
 	}
@@ -197,13 +196,13 @@ func TestMisuseExitsTwo(t *testing.T) {
 	data := smallDemo(t, 300)
 	dir := t.TempDir()
 	model := filepath.Join(dir, "m.tt")
-	if code, _, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--filters", "4", "--quiet"); code != 0 {
+	if code, _, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"); code != 0 {
 		t.Fatalf("train: %s", stderr)
 	}
 	other := filepath.Join(dir, "other.csv")
 	os.WriteFile(other, []byte("text,label\nthe ferry,x\nthe boat,y\nmy bag,x\nthe quay,y\n"), 0o644)
 	otherModel := filepath.Join(dir, "o.tt")
-	if code, _, stderr := runCmd(t, "", "train", "--data", other, "--dev", other, "--out", otherModel, "--epochs", "1", "--dim", "8", "--filters", "4", "--quiet"); code != 0 {
+	if code, _, stderr := runCmd(t, "", "train", "--data", other, "--dev", other, "--out", otherModel, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"); code != 0 {
 		t.Fatalf("train: %s", stderr)
 	}
 	cases := []struct {
@@ -212,7 +211,7 @@ func TestMisuseExitsTwo(t *testing.T) {
 	}{
 		{[]string{"train", "--data", data, "--out", filepath.Join(dir, "x.tt"), "oops", "--epochs", "1"}, `unexpected argument "oops"`},
 		{[]string{"predict", "--model", model, "rocket moon"}, `unexpected argument "rocket moon"`},
-		{[]string{"train", "--data", data, "--out", filepath.Join(dir, "x.tt"), "--epochs", "0"}, "--epochs and --batch must be at least 1"},
+		{[]string{"train", "--data", data, "--out", filepath.Join(dir, "x.tt"), "--epochs", "0"}, "--epochs 0: give 1 or more"},
 		{[]string{"predict", "--model", model, "--text", ""}, "--text is empty"},
 		{[]string{"explain", "--model", model, "--text", "  "}, "--text is empty"},
 		{[]string{"explain", "--model", model, "--text", "lost bag", "--method", "occlusion", "--class", "praise"}, "occlusion measures the predicted class only"},
@@ -233,39 +232,5 @@ func TestMisuseExitsTwo(t *testing.T) {
 	code, out, _ := runCmd(t, "refund please\n\n  \nlost my bag\n", "predict", "--model", model)
 	if code != 0 || len(strings.Split(strings.TrimSpace(out), "\n")) != 2 {
 		t.Errorf("predict over 2 texts and 2 blank lines: exit %d, output %q", code, out)
-	}
-}
-
-// TestAuditWithoutDevUsesTheModelsDevSplit: without --dev, audit holds out
-// the texts train kept out of the same file, not a fresh share that would mix
-// in training texts.
-func TestAuditWithoutDevUsesTheModelsDevSplit(t *testing.T) {
-	data := smallDemo(t, 400)
-	model := filepath.Join(t.TempDir(), "m.tt")
-	if code, _, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--filters", "4", "--quiet"); code != 0 {
-		t.Fatalf("train: %s", stderr)
-	}
-	code, out, stderr := runCmd(t, "", "audit", "--model", model, "--data", data, "--json", "--quiet")
-	if code != 0 {
-		t.Fatalf("audit: %s", stderr)
-	}
-	var a struct {
-		Train   int `json:"train_texts"`
-		Heldout int `json:"heldout_texts"`
-	}
-	if err := json.Unmarshal([]byte(out), &a); err != nil {
-		t.Fatal(err)
-	}
-	total := a.Train + a.Heldout
-	if a.Heldout == 0 || math.Abs(float64(a.Heldout)/float64(total)-0.1) > 0.02 {
-		t.Errorf("held out %d of %d texts, want the 10%% dev split of train", a.Heldout, total)
-	}
-	if strings.Contains(stderr, "may include texts") {
-		t.Errorf("warned about training texts although the dev split was found: %s", stderr)
-	}
-	// Another file than the model's: a share of it, with a warning.
-	_, _, stderr = runCmd(t, "", "audit", "--model", model, "--data", "testdata/demo/test.csv", "--json")
-	if !strings.Contains(stderr, "may include texts the model was trained on") {
-		t.Errorf("no warning for a held-out share of another file: %s", stderr)
 	}
 }

@@ -70,7 +70,7 @@ func tinyModel(t *testing.T) string {
 	data := demoPart(t, dir, 400)
 	model := filepath.Join(dir, "m.tt")
 	code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8",
-		"--filters", "4", "--quiet")
+		"--maps", "4", "--quiet")
 	if code != 0 {
 		t.Fatalf("train: exit %d: %s", code, stderr)
 	}
@@ -100,7 +100,7 @@ func dataSummary(t *testing.T, args ...string) (labels []string, examples int, s
 func TestBadInputMessages(t *testing.T) {
 	bad := func(name string) string { return filepath.Join("testdata", "bad", name) }
 	train := bad("two-labels.csv")
-	tiny := []string{"--epochs", "1", "--dim", "4", "--filters", "2", "--quiet", "--out", filepath.Join(t.TempDir(), "m.tt")}
+	tiny := []string{"--epochs", "1", "--dim", "4", "--maps", "2", "--force", "--quiet", "--out", filepath.Join(t.TempDir(), "m.tt")}
 	cases := []struct {
 		name string
 		args []string
@@ -372,7 +372,7 @@ func TestAtomicWriteFailures(t *testing.T) {
 	before := listTree(t, dir)
 	for _, o := range outs {
 		for _, args := range [][]string{
-			{"train", "--data", data, "--epochs", "1", "--dim", "4", "--filters", "2", "--out", o.out},
+			{"train", "--data", data, "--epochs", "1", "--dim", "4", "--maps", "2", "--out", o.out},
 			{"mask", "--model", model, "--filters", "0", "--out", o.out},
 		} {
 			code, _, stderr := tt(t, args...)
@@ -465,7 +465,7 @@ func TestDataNamesAreNeverPaths(t *testing.T) {
 		{folder, "[a b x.. ~x]"},
 	} {
 		model := filepath.Join(out, "m.tt")
-		code, _, stderr := tt(t, "train", "--data", c.data, "--out", model, "--epochs", "1", "--dim", "4", "--filters", "2", "--quiet")
+		code, _, stderr := tt(t, "train", "--data", c.data, "--out", model, "--epochs", "1", "--dim", "4", "--maps", "2", "--force", "--quiet")
 		if code != 0 {
 			t.Fatalf("train on %s: exit %d: %s", c.data, code, stderr)
 		}
@@ -574,8 +574,12 @@ func TestDataMemoryOnMillionLines(t *testing.T) {
 	if err := json.Unmarshal([]byte(out), &s); err != nil {
 		t.Fatal(err)
 	}
-	if n := s.Splits[0].Examples + s.Splits[1].Examples; n != lines {
-		t.Errorf("data counted %d examples, want %d", n, lines)
+	n := 0
+	for _, sp := range s.Splits {
+		n += sp.Examples
+	}
+	if n != lines {
+		t.Errorf("data counted %d examples in its splits, want %d", n, lines)
 	}
 	grown := int64(peak) - int64(base.HeapAlloc)
 	grownLive := int64(peakLive) - int64(baseLive)
@@ -601,7 +605,7 @@ func TestLineLimits(t *testing.T) {
 	vec := filepath.Join(dir, "long-vectors.txt")
 	os.WriteFile(vec, []byte("ferry"+strings.Repeat(" 0.5", 300_000)+"\n"), 0o644)
 	code, _, stderr := tt(t, "train", "--data", filepath.Join("testdata", "bad", "two-labels.csv"), "--vectors", vec,
-		"--epochs", "1", "--dim", "4", "--filters", "2", "--out", filepath.Join(dir, "m.tt"))
+		"--epochs", "1", "--dim", "4", "--maps", "2", "--force", "--out", filepath.Join(dir, "m.tt"))
 	noCrash(t, "long vector line", stderr)
 	if code != 1 || !strings.Contains(stderr, "long-vectors.txt line 1: line longer than 1048576 bytes") {
 		t.Errorf("vector line over 1 MiB: exit %d, stderr %q", code, stderr)

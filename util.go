@@ -4,43 +4,11 @@ import (
 	"bufio"
 	"context"
 	"encoding/json"
-	"flag"
 	"fmt"
 	"io"
 	"sort"
-	"strconv"
 	"strings"
 )
-
-// splitList splits a comma-separated option value, dropping empty entries.
-func splitList(s string) []string {
-	var out []string
-	for _, p := range strings.Split(s, ",") {
-		if p = strings.TrimSpace(p); p != "" {
-			out = append(out, p)
-		}
-	}
-	return out
-}
-
-// cutEq splits "a=b".
-func cutEq(s string) (string, string, bool) {
-	a, b, ok := strings.Cut(s, "=")
-	return strings.TrimSpace(a), strings.TrimSpace(b), ok
-}
-
-// parseInts parses a comma-separated list of integers.
-func parseInts(s, flagName string) ([]int, error) {
-	var out []int
-	for _, p := range splitList(s) {
-		n, err := strconv.Atoi(p)
-		if err != nil {
-			return nil, usagef("--%s %q: %q is not a whole number", flagName, s, p)
-		}
-		out = append(out, n)
-	}
-	return out, nil
-}
 
 // oneLine shortens s to at most n runes on one line.
 func oneLine(s string, n int) string {
@@ -58,35 +26,67 @@ func jsonLine(v any) ([]byte, error) {
 	return append(b, '\n'), err
 }
 
+// writeJSON writes v as indented JSON.
+func writeJSON(w io.Writer, v any) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(v)
+}
+
 // sortBy sorts idx by key, stably.
 func sortBy(idx []int, key func(int) float64) {
 	sort.SliceStable(idx, func(a, b int) bool { return key(idx[a]) < key(idx[b]) })
 }
 
-// eachLine calls fn with every line of r that holds more than white space.
-func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
-	sc := bufio.NewScanner(r)
-	sc.Buffer(make([]byte, 64*1024), 16<<20)
-	for sc.Scan() {
-		if err := ctx.Err(); err != nil {
-			return err
-		}
-		if strings.TrimSpace(sc.Text()) == "" {
-			continue
-		}
-		if err := fn(sc.Text()); err != nil {
-			return err
-		}
-	}
-	if err := sc.Err(); err != nil {
-		return fmt.Errorf("reading standard input: %w (lines are limited to 16 MiB)", err)
-	}
-	return nil
-}
+// maxStdinLine is the longest line read from standard input.
+const maxStdinLine = 16 << 20
 
-// isSet reports whether the flag name was given on the command line.
-func isSet(fs *flag.FlagSet, name string) bool {
-	set := false
-	fs.Visit(func(f *flag.Flag) { set = set || f.Name == name })
-	return set
+// eachLine calls fn with every line of r that holds more than white space.
+// The lines are read on a goroutine of their own, so that a cancelled ctx
+// ends the loop even while r blocks (a terminal waiting for input); that
+// goroutine then ends with r.
+func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
+	type line struct {
+		text string
+		err  error
+	}
+	lines := make(chan line)
+	done := make(chan struct{})
+	defer close(done)
+	go func() {
+		defer close(lines)
+		sc := bufio.NewScanner(r)
+		sc.Buffer(make([]byte, 64*1024), maxStdinLine)
+		for sc.Scan() {
+			select {
+			case lines <- line{text: sc.Text()}:
+			case <-done:
+				return
+			}
+		}
+		if err := sc.Err(); err != nil {
+			select {
+			case lines <- line{err: err}:
+			case <-done:
+			}
+		}
+	}()
+	for {
+		select {
+		case <-ctx.Done():
+			return ctx.Err()
+		case l, ok := <-lines:
+			switch {
+			case !ok:
+				return nil
+			case l.err != nil:
+				return fmt.Errorf("reading standard input: %w (lines are limited to 16 MiB)", l.err)
+			case strings.TrimSpace(l.text) == "":
+			default:
+				if err := fn(l.text); err != nil {
+					return err
+				}
+			}
+		}
+	}
 }

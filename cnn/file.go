@@ -13,6 +13,7 @@ import (
 
 	"telltale/corpus"
 	"telltale/internal/atomicfile"
+	"telltale/internal/version"
 )
 
 // The model file is one self-checking binary file:
@@ -59,7 +60,8 @@ func numWeights(cfg Config) int {
 
 // Save writes m to path atomically: it writes a temporary file in the same
 // directory, syncs it and renames it over path, so a crash never leaves a
-// partial model file behind.
+// partial model file behind. The file records the telltale version that
+// wrote it (Info.Version; m itself is not changed).
 func (m *Model) Save(path string) (err error) {
 	if err := m.checkShapes(); err != nil {
 		return err
@@ -73,6 +75,7 @@ func (m *Model) Save(path string) (err error) {
 // encode writes the model file format to w.
 func (m *Model) encode(w io.Writer) error {
 	h := fileHeader{Config: m.Config, Labels: m.Labels, Vocab: m.Vocab, Tokenizer: m.Tokenizer, Info: m.Info}
+	h.Info.Version = version.String() // the file records the version that wrote it
 	for g, on := range m.Masked {
 		if on {
 			h.Masked = append(h.Masked, g)

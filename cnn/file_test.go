@@ -11,6 +11,7 @@ import (
 	"testing"
 
 	"telltale/corpus"
+	"telltale/internal/version"
 )
 
 func savedModel(t testing.TB) (*Model, []byte) {
@@ -19,7 +20,9 @@ func savedModel(t testing.TB) (*Model, []byte) {
 	m.Masked[5] = true
 	m.Tokenizer = corpus.TokenizerConfig{Lower: true, MinCount: 2}
 	m.Info = Info{Created: "2025-01-01T00:00:00Z", BestEpoch: 3, Notes: map[string]string{"data": "demo.csv"},
-		Dev: &Metrics{Accuracy: 0.9, MacroF1: 0.8}}
+		Dev: &Metrics{Accuracy: 0.9, MacroF1: 0.8},
+		Splits: &SplitRecord{Data: "demo.csv", DataAbs: "/data/demo.csv", DevFrac: 0.1, TestFrac: 0.1, Seed: 1,
+			Examples: 10, Fingerprint: "00000000000000ff", Train: 8, Dev: 1, Test: 1}}
 	var buf bytes.Buffer
 	if err := m.encode(&buf); err != nil {
 		t.Fatal(err)
@@ -37,6 +40,11 @@ func TestSaveLoadRoundTrip(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// The file records the version that wrote it; the rest comes back as saved.
+	if got.Info.Version != version.String() {
+		t.Errorf("the file records version %q, want %q", got.Info.Version, version.String())
+	}
+	got.Info.Version = ""
 	if !reflect.DeepEqual(got, m) {
 		t.Fatalf("loaded model differs from the saved one")
 	}

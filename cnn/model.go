@@ -116,9 +116,39 @@ type Info struct {
 	ExamplesPerSec float64       `json:"examples_per_second,omitempty"`
 	Dev            *Metrics      `json:"dev,omitempty"`  // dev metrics of the kept weights
 	Test           *Metrics      `json:"test,omitempty"` // filled by callers that hold out a test split
-	// Notes holds free-form facts callers want kept with the model (data file,
-	// split seed, …).
+	// Splits records how the training, dev and test splits were made, so
+	// that a later run given the same data finds the same test split; nil
+	// when the trainer did not record it.
+	Splits *SplitRecord `json:"splits,omitempty"`
+	// Version is the telltale version that wrote the file (set by Save).
+	Version string `json:"version,omitempty"`
+	// Notes holds free-form facts callers want kept with the model.
 	Notes map[string]string `json:"notes,omitempty"`
+}
+
+// SplitRecord is how a model's three splits were made from its labeled
+// data: training, dev (early stopping) and test (the final evaluation).
+// Without a dev or test file, that split is a share of Data held out by
+// corpus.Dataset.SplitThree with DevFrac, TestFrac and Seed; the same data
+// (same Fingerprint) split the same way gives the same splits again.
+type SplitRecord struct {
+	Data     string `json:"data"`     // the data as given to the trainer
+	DataAbs  string `json:"data_abs"` // its absolute path
+	DevFile  string `json:"dev_file,omitempty"`
+	TestFile string `json:"test_file,omitempty"` // absolute paths of separate files
+	// DevFrac and TestFrac are the shares of Data held out (0 for a split
+	// given as a file).
+	DevFrac  float64 `json:"dev_frac,omitempty"`
+	TestFrac float64 `json:"test_frac,omitempty"`
+	Seed     uint64  `json:"seed"`
+	// Examples and Fingerprint identify the data as read (after any
+	// relabeling): corpus.Dataset.Fingerprint.
+	Examples    int    `json:"examples"`
+	Fingerprint string `json:"fingerprint"`
+	// Train, Dev and Test are the sizes of the three splits.
+	Train int `json:"train"`
+	Dev   int `json:"dev"`
+	Test  int `json:"test"`
 }
 
 // FilterConv returns the bank index and local index of global filter g.

@@ -3,6 +3,7 @@ package cnn
 import (
 	"context"
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"runtime"
 	"slices"
@@ -102,6 +103,20 @@ type TrainResult struct {
 	ExamplesPerSec float64 `json:"examples_per_second"`
 	Cancelled      bool    `json:"cancelled"`     // the context ended training
 	StoppedEarly   bool    `json:"stopped_early"` // patience ran out
+	// Diverged, when set, says where the loss or the weights stopped being
+	// finite numbers; training stopped there.
+	Diverged *Divergence `json:"diverged,omitempty"`
+}
+
+// Divergence is where a training run diverged.
+type Divergence struct {
+	Epoch int `json:"epoch"`
+	// Batch is the batch of the epoch (1-based) whose loss was not finite,
+	// or 0 when the loss was finite but a weight was not at the end of the
+	// epoch.
+	Batch int `json:"batch"`
+	// Value is the loss ("NaN", "+Inf") or, when Batch is 0, "weights".
+	Value string `json:"value"`
 }
 
 // Progress is what Train reports while it runs.
@@ -123,7 +138,11 @@ const progressEvery = 10
 // one on ties; with no dev split, the last epoch) are kept, and training stops
 // when Patience epochs pass without improvement. On return m holds those
 // weights, also when ctx is cancelled (then Cancelled is set and the error is
-// nil; if no epoch completed, m holds the weights reached so far).
+// nil; if no epoch completed, m holds the weights reached so far). A batch
+// whose loss is NaN or infinite, or a weight that is not finite at the end
+// of an epoch, stops training at once (a learning rate far too large, say):
+// Diverged says where, m holds the best epoch's weights, and BestEpoch is 0
+// when no epoch had completed (m's weights are then unusable).
 //
 // Progress, if not nil, is called from Train's goroutine every few batches and
 // at the end of every epoch. Results are identical for the same model, data,
@@ -176,7 +195,12 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 				res.Cancelled = true
 				break
 			}
-			sum += tr.step(train, b) * float64(len(b))
+			loss := tr.step(train, b)
+			if math.IsNaN(loss) || math.IsInf(loss, 0) {
+				res.Diverged = &Divergence{Epoch: epoch, Batch: bi + 1, Value: fmt.Sprint(loss)}
+				break
+			}
+			sum += loss * float64(len(b))
 			done += len(b)
 			if progress != nil && (bi+1)%progressEvery == 0 && bi+1 < len(batches) {
 				progress(Progress{Epoch: epoch, Epochs: tc.Epochs, Batch: bi + 1, Batches: len(batches),
@@ -184,7 +208,10 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 			}
 		}
 		m.Invalidate() // the weights changed: predictions rebuild their table
-		if res.Cancelled {
+		if res.Diverged == nil && !finiteWeights(m) {
+			res.Diverged = &Divergence{Epoch: epoch, Value: "weights"}
+		}
+		if res.Cancelled || res.Diverged != nil {
 			break
 		}
 		el := time.Since(start)
@@ -226,7 +253,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	}
 	// The model file keeps the record of how it was trained.
 	m.Info = Info{Created: time.Now().UTC().Format(time.RFC3339), Recipe: &tc, Epochs: res.Epochs,
-		BestEpoch: res.BestEpoch, Test: m.Info.Test, Notes: m.Info.Notes}
+		BestEpoch: res.BestEpoch, Test: m.Info.Test, Splits: m.Info.Splits, Notes: m.Info.Notes}
 	if res.BestEpoch > 0 {
 		m.Info.Dev = res.Epochs[res.BestEpoch-1].Dev
 	}
@@ -247,6 +274,23 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		progress(last)
 	}
 	return res, nil
+}
+
+// finiteWeights reports whether every trainable weight of m is a finite number.
+func finiteWeights(m *Model) bool {
+	finite := func(xs []float32) bool {
+		for _, x := range xs {
+			if f := float64(x); math.IsNaN(f) || math.IsInf(f, 0) {
+				return false
+			}
+		}
+		return true
+	}
+	ok := finite(m.Emb) && finite(m.OutW) && finite(m.OutB)
+	for _, c := range m.Convs {
+		ok = ok && finite(c.W) && finite(c.B)
+	}
+	return ok
 }
 
 // Truncate returns d with every text cut to at most n tokens (n ≤ 0 keeps

@@ -2,6 +2,7 @@ package cnn
 
 import (
 	"context"
+	"math"
 	"math/rand/v2"
 	"slices"
 	"testing"
@@ -156,5 +157,60 @@ func TestTrainStepNoAlloc(t *testing.T) {
 			t.Errorf("%s: %v allocations per training step, want 0", opt, a)
 		}
 		tr.close()
+	}
+}
+
+// TestTrainStopsWhenDiverging: with a learning rate far too large, the loss
+// overflows float32 within a few batches (Adam's first step moves every
+// weight by about the learning rate; Kingma & Ba 2015, section 2.1). Train
+// must stop at once, in the first epoch, and keep no epoch.
+func TestTrainStopsWhenDiverging(t *testing.T) {
+	train, dev := toyData(1, 300, 30), toyData(2, 100, 30)
+	m := randModel(1, 30, 8, []int{2, 3}, 4, 2)
+	res, err := Train(context.Background(), m, train, dev, TrainConfig{Epochs: 5, Batch: 10, Seed: 3, Threads: 1, LR: 1e30}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Diverged == nil {
+		t.Fatalf("no divergence reported at learning rate 1e30; epochs %+v", res.Epochs)
+	}
+	if res.Diverged.Epoch != 1 || res.Diverged.Batch < 1 || len(res.Epochs) != 0 || res.BestEpoch != 0 {
+		t.Errorf("diverged %+v after %d epochs (best %d): want a stop in a batch of the first epoch with no epoch kept",
+			res.Diverged, len(res.Epochs), res.BestEpoch)
+	}
+}
+
+// TestTrainKeepsBestEpochWhenDivergingLater: a run whose loss turns NaN
+// after good epochs stops in the next batch and keeps the best of them. A
+// NaN is put into an output bias when epoch 2 ends (through the progress
+// callback, the only way in from outside); the weights handed back must be
+// finite and score on dev exactly as the best epoch did.
+func TestTrainKeepsBestEpochWhenDivergingLater(t *testing.T) {
+	train, dev := toyData(1, 300, 30), toyData(2, 100, 30)
+	m := randModel(1, 30, 8, []int{2, 3}, 4, 2)
+	tc := TrainConfig{Epochs: 6, Batch: 10, Seed: 3, Threads: 1, Patience: -1}
+	res, err := Train(context.Background(), m, train, dev, tc, func(p Progress) {
+		if p.Phase == "epoch" && p.Epoch == 2 {
+			m.OutB[0] = float32(math.NaN())
+		}
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if d := res.Diverged; d == nil || d.Epoch != 3 || d.Batch != 1 || d.Value != "NaN" {
+		t.Fatalf("diverged %+v, want the first batch of epoch 3 with loss NaN", res.Diverged)
+	}
+	if len(res.Epochs) != 2 || res.BestEpoch < 1 {
+		t.Fatalf("%d epochs recorded, best %d; want 2 and one of them", len(res.Epochs), res.BestEpoch)
+	}
+	if !finiteWeights(m) {
+		t.Fatal("the kept weights are not finite")
+	}
+	mt, _, err := Evaluate(m, dev, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if want := res.Epochs[res.BestEpoch-1].Dev.MacroF1; mt.MacroF1 != want {
+		t.Errorf("kept weights score macro-F1 %g, best epoch %d had %g", mt.MacroF1, res.BestEpoch, want)
 	}
 }

@@ -1,9 +1,14 @@
 package corpus
 
 import (
+	"encoding/binary"
+	"fmt"
+	"hash/fnv"
+	"io"
 	"math"
 	"math/rand/v2"
 	"sort"
+	"strings"
 )
 
 // Texts returns the texts in example order.
@@ -37,10 +42,11 @@ func (d *Dataset) LabelIndex(labels []string) ([]int, error) {
 	for i, e := range d.Examples {
 		j, ok := idx[e.Label]
 		if !ok {
+			const fix = "add training examples for it, or remove or relabel these examples"
 			if e.File != "" {
-				return nil, errAt(d.Where(e), 0, ErrLabel, "label %q is not among the training labels %q: add training examples for it, or remove or relabel these examples", e.Label, labels)
+				return nil, errAt(d.Where(e), 0, ErrLabel, "label %s is not among the training labels %s: %s", quote(e.Label), quoteList(labels), fix)
 			}
-			return nil, errAt(d.Path, e.Line, ErrLabel, "label %q is not among the training labels %q: add training examples for it, or remove or relabel these examples", e.Label, labels)
+			return nil, errAt(d.Path, e.Line, ErrLabel, "label %s is not among the training labels %s: %s", quote(e.Label), quoteList(labels), fix)
 		}
 		out[i] = j
 	}
@@ -93,13 +99,29 @@ func uniqueLabels(es []Example) []string {
 
 // Split divides d into a training and a test set, stratified by label:
 // each label with n examples sends round(testFrac·n) of them to test, but
-// always keeps at least one in train. The choice is a seeded shuffle
-// (math/rand/v2 PCG), so the same data, fraction and seed give the same
-// split. Both halves keep the original example order. testFrac must be
-// in [0, 1).
+// always keeps at least one in train. It is SplitThree with no dev share.
+// testFrac must be in [0, 1).
 func (d *Dataset) Split(testFrac float64, seed uint64) (train, test *Dataset) {
 	if testFrac < 0 || testFrac >= 1 || math.IsNaN(testFrac) {
 		panic("corpus: Split: testFrac must be in [0, 1)")
+	}
+	train, _, test = d.SplitThree(0, testFrac, seed)
+	return train, test
+}
+
+// SplitThree divides d into training, dev and test splits, stratified by
+// label: the examples of each label (n of them) are shuffled with a seeded
+// generator (math/rand/v2 PCG), the first round(testFrac·n) go to test, the
+// next round(devFrac·n) to dev and the rest to training, which always keeps
+// at least one (dev gives up examples first, then test). The same data,
+// shares and seed give the same splits; the test split does not depend on
+// devFrac except through that last rule. Each split keeps the original
+// example order. devFrac and testFrac must be in [0, 1).
+func (d *Dataset) SplitThree(devFrac, testFrac float64, seed uint64) (train, dev, test *Dataset) {
+	for _, f := range []float64{devFrac, testFrac} {
+		if f < 0 || f >= 1 || math.IsNaN(f) {
+			panic("corpus: SplitThree: shares must be in [0, 1)")
+		}
 	}
 	byLabel := map[string][]int{}
 	for i, e := range d.Examples {
@@ -111,28 +133,73 @@ func (d *Dataset) Split(testFrac float64, seed uint64) (train, test *Dataset) {
 	}
 	sort.Strings(labels)
 	rng := rand.New(rand.NewPCG(seed, seed))
-	inTest := make([]bool, len(d.Examples))
+	const inTrain, inDev, inTest = 0, 1, 2
+	where := make([]int8, len(d.Examples))
 	for _, l := range labels {
 		idx := byLabel[l]
 		rng.Shuffle(len(idx), func(i, j int) { idx[i], idx[j] = idx[j], idx[i] })
-		k := int(math.Round(testFrac * float64(len(idx))))
-		if k > len(idx)-1 {
-			k = len(idx) - 1
+		n := len(idx)
+		kt := min(int(math.Round(testFrac*float64(n))), n-1)
+		kd := min(int(math.Round(devFrac*float64(n))), n-1-kt)
+		for _, i := range idx[:kt] {
+			where[i] = inTest
 		}
-		for _, i := range idx[:k] {
-			inTest[i] = true
+		for _, i := range idx[kt : kt+kd] {
+			where[i] = inDev
 		}
 	}
-	train = &Dataset{Path: d.Path}
-	test = &Dataset{Path: d.Path}
+	parts := [3]*Dataset{{Path: d.Path}, {Path: d.Path}, {Path: d.Path}}
 	for i, e := range d.Examples {
-		if inTest[i] {
-			test.Examples = append(test.Examples, e)
-		} else {
-			train.Examples = append(train.Examples, e)
+		p := parts[where[i]]
+		p.Examples = append(p.Examples, e)
+	}
+	for _, p := range parts {
+		p.Labels = uniqueLabels(p.Examples)
+	}
+	return parts[inTrain], parts[inDev], parts[inTest]
+}
+
+// Fingerprint identifies the examples of d, their order, texts and labels
+// (not where they were read from): the FNV-1a 64-bit hash of each text and
+// label, length-prefixed, in hexadecimal. Two datasets with the same
+// fingerprint split the same way (SplitThree).
+func (d *Dataset) Fingerprint() string {
+	h := fnv.New64a()
+	var n [8]byte
+	put := func(s string) {
+		binary.LittleEndian.PutUint64(n[:], uint64(len(s)))
+		h.Write(n[:])
+		io.WriteString(h, s)
+	}
+	for _, e := range d.Examples {
+		put(e.Text)
+		put(e.Label)
+	}
+	return fmt.Sprintf("%016x", h.Sum64())
+}
+
+// LabelWarnings points out labels that are likely mistakes: a label with a
+// single example (nothing can be learned from one text) and labels that
+// differ only in letter case, such as "BOOKINGS" and "bookings" (surrounding
+// white space is already trimmed when reading). The warnings name d.Path.
+func (d *Dataset) LabelWarnings() []Warning {
+	var out []Warning
+	counts := d.Counts()
+	for _, l := range d.Labels {
+		if counts[l] == 1 {
+			out = append(out, Warning{Path: d.Path, Message: fmt.Sprintf(
+				"label %s has a single example: nothing can be learned from one text; add examples, or merge it into another label with --relabel", quote(l))})
 		}
 	}
-	train.Labels = uniqueLabels(train.Examples)
-	test.Labels = uniqueLabels(test.Examples)
-	return train, test
+	first := map[string]string{}
+	for _, l := range d.Labels {
+		k := strings.ToLower(l)
+		if f, ok := first[k]; ok {
+			out = append(out, Warning{Path: d.Path, Message: fmt.Sprintf(
+				"labels %s and %s differ only in letter case: if they are one label, merge them with --relabel %s", quote(f), quote(l), quote(l+"="+f))})
+			continue
+		}
+		first[k] = l
+	}
+	return out
 }

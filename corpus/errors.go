@@ -3,6 +3,7 @@ package corpus
 import (
 	"errors"
 	"fmt"
+	"strings"
 )
 
 // Sentinel errors. Every error returned for bad input wraps exactly one of
@@ -50,6 +51,7 @@ type warnings struct {
 	list    []Warning
 	dropped int
 	path    string
+	hinted  bool // the conversion hint for invalid UTF-8 was given
 }
 
 func (ws *warnings) add(path string, line int, format string, args ...any) {
@@ -58,6 +60,17 @@ func (ws *warnings) add(path string, line int, format string, args ...any) {
 		return
 	}
 	ws.list = append(ws.list, Warning{Path: path, Line: line, Message: fmt.Sprintf(format, args...)})
+}
+
+// invalidUTF8 warns of invalid UTF-8 replaced in the field what; the first
+// such warning also says how to convert the file.
+func (ws *warnings) invalidUTF8(path string, line int, what string) {
+	hint := ""
+	if !ws.hinted {
+		ws.hinted = true
+		hint = " (if the file is Latin-1, convert it to UTF-8 first: iconv -f latin1 -t utf-8 IN > OUT)"
+	}
+	ws.add(path, line, "invalid UTF-8 in the %s replaced by U+FFFD%s", what, hint)
 }
 
 func (ws *warnings) result() []Warning {
@@ -74,4 +87,40 @@ func errAt(path string, line int, sentinel error, format string, args ...any) er
 		return fmt.Errorf("corpus: %s line %d: %s: %w", path, line, msg, sentinel)
 	}
 	return fmt.Errorf("corpus: %s: %s: %w", path, msg, sentinel)
+}
+
+// maxQuoted is the most bytes of one value of the input (a column name, a
+// label, a header line) that a message repeats: a 5 MB line must not become
+// a 5 MB message.
+const maxQuoted = 200
+
+// quote is s in Go quotes, cut to maxQuoted bytes (at a character boundary)
+// with the full length noted.
+func quote(s string) string {
+	if len(s) <= maxQuoted {
+		return fmt.Sprintf("%q", s)
+	}
+	return fmt.Sprintf("%q… (%d bytes)", truncate(s, maxQuoted), len(s))
+}
+
+// maxListed is the most values of a list (columns, labels) a message names.
+const maxListed = 20
+
+// quoteList is ss as ["a" "b" …], each value quoted (and cut) by quote, at
+// most maxListed of them with a count of the rest.
+func quoteList(ss []string) string {
+	var b strings.Builder
+	b.WriteByte('[')
+	for i, s := range ss {
+		if i == maxListed {
+			fmt.Fprintf(&b, " … and %d more", len(ss)-maxListed)
+			break
+		}
+		if i > 0 {
+			b.WriteByte(' ')
+		}
+		b.WriteString(quote(s))
+	}
+	b.WriteByte(']')
+	return b.String()
 }

@@ -30,6 +30,14 @@ func fuzzLoad(t *testing.T, name string, data []byte) {
 			t.Fatalf("bad example %+v", e)
 		}
 	}
+	// Read as texts to label, the same file gives at least the same texts.
+	u, _, err := Load(p, Options{MaxTextBytes: 256, Unlabeled: true})
+	if err != nil {
+		t.Fatalf("read with labels but not without: %v", err)
+	}
+	if len(u.Examples) < len(d.Examples) {
+		t.Fatalf("%d texts to label, %d labeled examples", len(u.Examples), len(d.Examples))
+	}
 }
 
 func FuzzReadCSV(f *testing.F) {

@@ -8,6 +8,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"os"
 	"path/filepath"
 	"sort"
@@ -42,6 +43,11 @@ type Options struct {
 	// ReplaceInvalidUTF8 replaces invalid UTF-8 sequences by U+FFFD with a
 	// warning instead of failing (mail corpora often hold Latin-1 bytes).
 	ReplaceInvalidUTF8 bool
+	// Unlabeled reads texts to be labeled: the label column is used when
+	// there is one (Example.Label is "" otherwise), a file with one column
+	// is all text, a folder's files count at its top level as well as in
+	// label folders, and one label (or none) is not an error.
+	Unlabeled bool
 }
 
 // Example is one labeled text.
@@ -148,7 +154,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 	if n == 0 {
 		return ws.result(), errAt(path, 0, ErrEmpty, "no examples found: the file needs a header row and at least one record with a non-empty text")
 	}
-	if len(labels) < 2 {
+	if len(labels) < 2 && !opt.Unlabeled {
 		var only string
 		for l := range labels {
 			only = l
@@ -157,7 +163,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 		if format == "dir" {
 			fix = "put the examples of each label in one sub-folder per label"
 		}
-		return ws.result(), errAt(path, 0, ErrLabel, "only one label %q in %d examples: a classifier needs at least two labels; %s", only, n, fix)
+		return ws.result(), errAt(path, 0, ErrLabel, "only one label %s in %d examples: a classifier needs at least two labels; %s", quote(only), n, fix)
 	}
 	return ws.result(), nil
 }
@@ -184,8 +190,11 @@ var (
 	labelNames = []string{"label", "category", "class", "target", "intent", "sentiment", "labels", "y"}
 )
 
-// pickColumns resolves the text and label column indexes in names.
-func pickColumns(names []string, opt Options, path string, line int) (ti, li int, err error) {
+// pickColumns resolves the text and label column indexes in names; li is
+// −1 when opt.Unlabeled and no label column is named or recognised. header
+// says the names come from a header row (CSV, TSV), whose absence is the
+// usual reason why no name is recognised.
+func pickColumns(names []string, opt Options, path string, line int, header bool) (ti, li int, err error) {
 	find := func(want string) int {
 		for i, n := range names {
 			if strings.EqualFold(strings.TrimSpace(n), want) {
@@ -209,38 +218,58 @@ func pickColumns(names []string, opt Options, path string, line int) (ti, li int
 		}
 		return hit
 	}
-	list := fmt.Sprintf("%q", names)
+	list := quoteList(names)
 	if opt.TextCol != "" {
 		if ti = find(opt.TextCol); ti < 0 {
-			return 0, 0, errAt(path, line, ErrColumn, "text column %q not found; the columns are %s: pass the right name with --text-col", opt.TextCol, list)
+			return 0, 0, errAt(path, line, ErrColumn, "text column %s not found; the columns are %s: pass the right name with --text-col", quote(opt.TextCol), list)
 		}
 	} else {
 		ti = guess(textNames)
 	}
 	if opt.LabelCol != "" {
 		if li = find(opt.LabelCol); li < 0 {
-			return 0, 0, errAt(path, line, ErrColumn, "label column %q not found; the columns are %s: pass the right name with --label-col", opt.LabelCol, list)
+			return 0, 0, errAt(path, line, ErrColumn, "label column %s not found; the columns are %s: pass the right name with --label-col", quote(opt.LabelCol), list)
 		}
 	} else {
 		li = guess(labelNames)
 	}
 	if len(names) == 2 {
-		if ti >= 0 && li < 0 {
+		// Texts to label need no label column: the other one may be anything.
+		if ti >= 0 && li < 0 && !opt.Unlabeled {
 			li = 1 - ti
 		} else if li >= 0 && ti < 0 {
 			ti = 1 - li
 		}
 	}
-	if ti < 0 {
-		return 0, 0, errAt(path, line, ErrColumn, "cannot tell which column holds the text; the columns are %s: pass --text-col", list)
+	if opt.Unlabeled {
+		if ti < 0 && len(names) == 1 {
+			ti = 0
+		}
+		if li < 0 || li == ti {
+			li = -1
+		}
 	}
-	if li < 0 {
-		return 0, 0, errAt(path, line, ErrColumn, "cannot tell which column holds the label; the columns are %s: pass --label-col", list)
+	if ti < 0 {
+		return 0, 0, errAt(path, line, ErrColumn, "cannot tell which column holds the text; %s", columnsHint(list, "text", header))
+	}
+	if li < 0 && !opt.Unlabeled {
+		return 0, 0, errAt(path, line, ErrColumn, "cannot tell which column holds the label; %s", columnsHint(list, "label", header))
 	}
 	if ti == li {
-		return 0, 0, errAt(path, line, ErrColumn, "text and label are the same column %q: pass different --text-col and --label-col", names[ti])
+		return 0, 0, errAt(path, line, ErrColumn, "text and label are the same column %s: pass different --text-col and --label-col", quote(names[ti]))
 	}
 	return ti, li, nil
+}
+
+// columnsHint names the columns found and the fixes for an unrecognised
+// text or label column (what). A header row whose names are not column
+// names is most often a missing header: the first record was taken for it.
+func columnsHint(list, what string, header bool) string {
+	if !header {
+		return fmt.Sprintf("the fields are %s: pass --%s-col with the name of the %s field", list, what, what)
+	}
+	return fmt.Sprintf("the columns are %s (the first line): if that line is an example rather than a header, the file lacks its header row: "+
+		"add a first line naming the columns, e.g. text,label; otherwise pass --%s-col with the name of the %s column", list, what, what)
 }
 
 // checkText validates the bytes of a field: no NUL, valid UTF-8 (or
@@ -263,7 +292,7 @@ func checkText(s string, path string, line int, opt Options, ws *warnings, what 
 		if !opt.ReplaceInvalidUTF8 {
 			return "", errAt(path, l, ErrEncoding, "invalid UTF-8 byte 0x%02x in the %s: convert the file to UTF-8 (e.g. iconv -f latin1 -t utf-8), or replace bad bytes with --replace-invalid-utf8", s[bad], what)
 		}
-		ws.add(path, l, "invalid UTF-8 in the %s replaced by U+FFFD", what)
+		ws.invalidUTF8(path, l, what)
 		s = strings.ToValidUTF8(s, "\uFFFD")
 	}
 	return s, nil
@@ -291,7 +320,7 @@ func makeExample(text, label, path, file string, line, labelLine int, opt Option
 		return Example{}, false, err
 	}
 	label = strings.TrimSpace(label)
-	if label == "" {
+	if label == "" && !opt.Unlabeled {
 		return Example{}, false, errAt(path, labelLine, ErrLabel, "empty label: give every example a label, or remove the record")
 	}
 	if strings.TrimSpace(text) == "" {
@@ -393,7 +422,7 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 				if d.fix != "" {
 					fix = "name it ." + d.fix + " or pass the format " + d.fix
 				}
-				return errAt(path, 1, ErrFormat, "header has one column %q containing %ss: the file looks %s-separated, not %s; %s", h, d.name, d.name, format, fix)
+				return errAt(path, 1, ErrFormat, "header has one column %s containing %ss: the file looks %s-separated, not %s; %s", quote(h), d.name, d.name, format, fix)
 			}
 		}
 	}
@@ -401,11 +430,11 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 	for _, n := range names {
 		k := strings.ToLower(n)
 		if seen[k] {
-			return errAt(path, 1, ErrColumn, "column %q appears twice in the header: rename one", n)
+			return errAt(path, 1, ErrColumn, "column %s appears twice in the header: rename one", quote(n))
 		}
 		seen[k] = true
 	}
-	ti, li, err := pickColumns(names, opt, path, 1)
+	ti, li, err := pickColumns(names, opt, path, 1, true)
 	if err != nil {
 		return err
 	}
@@ -424,9 +453,13 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 		endLine, _ := cr.FieldPos(last)
 		nextLine = endLine + strings.Count(rec[last], "\n") + 1
 		line, _ := cr.FieldPos(ti)
-		labelLine, _ := cr.FieldPos(li)
+		label, labelLine := "", line
+		if li >= 0 {
+			label = rec[li]
+			labelLine, _ = cr.FieldPos(li)
+		}
 		start, _ := cr.FieldPos(0)
-		e, ok, err := makeExample(rec[ti], rec[li], path, "", line, labelLine, opt, ws)
+		e, ok, err := makeExample(rec[ti], label, path, "", line, labelLine, opt, ws)
 		if err != nil {
 			return err
 		}
@@ -505,19 +538,24 @@ func readJSONL(r io.Reader, path string, opt Options, ws *warnings, fn func(Exam
 				keys = append(keys, k)
 			}
 			sort.Strings(keys)
-			ti, li, err := pickColumns(keys, opt, path, line)
+			ti, li, err := pickColumns(keys, opt, path, line, false)
 			if err != nil {
 				return err
 			}
-			textKey, labelKey = keys[ti], keys[li]
+			textKey = keys[ti]
+			if li >= 0 {
+				labelKey = keys[li]
+			}
 		}
 		text, err := jsonField(obj, textKey, true)
 		if err != nil {
-			return errAt(path, line, ErrColumn, "field %q: %v", textKey, err)
+			return errAt(path, line, ErrColumn, "field %s: %v", quote(textKey), err)
 		}
-		label, err := jsonField(obj, labelKey, false)
-		if err != nil {
-			return errAt(path, line, ErrColumn, "field %q: %v", labelKey, err)
+		var label string
+		if labelKey != "" {
+			if label, err = jsonField(obj, labelKey, false); err != nil {
+				return errAt(path, line, ErrColumn, "field %s: %v", quote(labelKey), err)
+			}
 		}
 		e, ok, err := makeExample(text, label, path, "", line, line, opt, ws)
 		if err != nil {
@@ -532,7 +570,8 @@ func readJSONL(r io.Reader, path string, opt Options, ws *warnings, fn func(Exam
 }
 
 // jsonField returns obj[key] as a string. Labels may also be numbers or
-// booleans (written as in the file).
+// booleans (written as in the file). A value that is wrong is repeated in
+// the message cut to maxQuoted bytes.
 func jsonField(obj map[string]json.RawMessage, key string, text bool) (string, error) {
 	raw, ok := obj[key]
 	if !ok {
@@ -549,10 +588,14 @@ func jsonField(obj map[string]json.RawMessage, key string, text bool) (string, e
 	if !text && len(raw) > 0 && (raw[0] == '-' || (raw[0] >= '0' && raw[0] <= '9') || string(raw) == "true" || string(raw) == "false") {
 		return string(raw), nil
 	}
-	if text {
-		return "", fmt.Errorf("is %s, not a string: the text must be a JSON string", raw)
+	shown := string(raw)
+	if len(shown) > maxQuoted {
+		shown = fmt.Sprintf("%s… (%d bytes)", truncate(shown, maxQuoted), len(raw))
 	}
-	return "", fmt.Errorf("is %s: a label must be a string or a number", raw)
+	if text {
+		return "", fmt.Errorf("is %s, not a string: the text must be a JSON string", shown)
+	}
+	return "", fmt.Errorf("is %s: a label must be a string, a number, true or false", shown)
 }
 
 // readDir reads a folder with one sub-folder per label. Within a label
@@ -560,7 +603,9 @@ func jsonField(obj map[string]json.RawMessage, key string, text bool) (string, e
 // .txt or no extension at all, in name order; hidden entries (name starting
 // with ".") are skipped, other files (e.g. .json twins) are skipped with one
 // warning per folder, and entries at the top level or nested deeper are
-// ignored with a warning. Symbolic links are not followed.
+// ignored with a warning. Symbolic links are not followed, so nothing
+// outside the folder is read: each is skipped with a warning that says so.
+// With opt.Unlabeled, files at the top level are texts too (label "").
 func readDir(root string, opt Options, ws *warnings, fn func(Example) error) error {
 	entries, err := os.ReadDir(root)
 	if err != nil {
@@ -569,74 +614,97 @@ func readDir(root string, opt Options, ws *warnings, fn func(Example) error) err
 	ignored := 0
 	for _, de := range entries {
 		name := de.Name()
-		if strings.HasPrefix(name, ".") {
-			continue
-		}
-		if !de.IsDir() {
+		switch {
+		case strings.HasPrefix(name, "."):
+		case de.Type()&fs.ModeSymlink != 0:
+			ws.add(filepath.Join(root, name), 0, symlinkSkipped)
+		case de.IsDir():
+			if err := readLabelDir(root, name, strings.TrimSpace(name), opt, ws, fn); err != nil {
+				return err
+			}
+		case opt.Unlabeled && isExampleFile(de):
+			if _, err := readExampleFile(root, name, "", opt, ws, fn); err != nil {
+				return err
+			}
+		default:
 			ignored++
-			continue
-		}
-		label := strings.TrimSpace(name)
-		sub := filepath.Join(root, name)
-		files, err := os.ReadDir(sub)
-		if err != nil {
-			return fmt.Errorf("corpus: %s: cannot read folder: %v: %w", sub, err, ErrEmpty)
-		}
-		skipped, nested, kept := 0, 0, 0
-		for _, fe := range files {
-			fname := fe.Name()
-			if strings.HasPrefix(fname, ".") {
-				continue
-			}
-			if fe.IsDir() {
-				nested++
-				continue
-			}
-			if !fe.Type().IsRegular() {
-				skipped++
-				continue
-			}
-			if ext := filepath.Ext(fname); ext != "" && !strings.EqualFold(ext, ".txt") {
-				skipped++
-				continue
-			}
-			rel := filepath.Join(name, fname)
-			full := filepath.Join(sub, fname)
-			text, long, err := readFileLimited(full, opt.MaxTextBytes)
-			if err != nil {
-				return fmt.Errorf("corpus: %s: cannot read: %v: %w", full, err, ErrEmpty)
-			}
-			if long {
-				ws.add(full, 0, "text longer than %d bytes truncated (raise --max-text-bytes to keep more)", opt.MaxTextBytes)
-				text = truncate(text, opt.MaxTextBytes)
-			}
-			e, ok, err := makeExample(text, label, full, rel, 1, 1, opt, ws)
-			if err != nil {
-				return err
-			}
-			if !ok {
-				continue
-			}
-			e.Line = 0
-			kept++
-			if err := fn(e); err != nil {
-				return err
-			}
-		}
-		if skipped > 0 {
-			ws.add(sub, 0, "%d files skipped: only .txt files and files without extension are examples", skipped)
-		}
-		if nested > 0 {
-			ws.add(sub, 0, "%d sub-folders ignored: put example files directly in the label folder", nested)
-		}
-		if kept == 0 {
-			ws.add(sub, 0, "label folder holds no examples")
 		}
 	}
 	if ignored > 0 {
 		ws.add(root, 0, "%d files at the top level ignored: examples belong in one sub-folder per label", ignored)
 	}
 	return nil
+}
+
+// symlinkSkipped is the warning for a symbolic link in a data folder.
+const symlinkSkipped = "symbolic link skipped: links in a data folder are not followed, so that nothing outside it is read; " +
+	"put the folder or file itself there (e.g. copy it with cp -rL)"
+
+// isExampleFile reports whether a folder entry is an example file: a
+// regular file named .txt or without extension.
+func isExampleFile(de fs.DirEntry) bool {
+	ext := filepath.Ext(de.Name())
+	return de.Type().IsRegular() && (ext == "" || strings.EqualFold(ext, ".txt"))
+}
+
+// readLabelDir reads the examples of the label folder root/name.
+func readLabelDir(root, name, label string, opt Options, ws *warnings, fn func(Example) error) error {
+	sub := filepath.Join(root, name)
+	files, err := os.ReadDir(sub)
+	if err != nil {
+		return fmt.Errorf("corpus: %s: cannot read folder: %v: %w", sub, err, ErrEmpty)
+	}
+	skipped, nested, kept := 0, 0, 0
+	for _, fe := range files {
+		fname := fe.Name()
+		switch {
+		case strings.HasPrefix(fname, "."):
+		case fe.Type()&fs.ModeSymlink != 0:
+			ws.add(filepath.Join(sub, fname), 0, symlinkSkipped)
+		case fe.IsDir():
+			nested++
+		case !isExampleFile(fe):
+			skipped++
+		default:
+			ok, err := readExampleFile(root, filepath.Join(name, fname), label, opt, ws, fn)
+			if err != nil {
+				return err
+			}
+			if ok {
+				kept++
+			}
+		}
+	}
+	if skipped > 0 {
+		ws.add(sub, 0, "%d files skipped: only .txt files and files without extension are examples", skipped)
+	}
+	if nested > 0 {
+		ws.add(sub, 0, "%d sub-folders ignored: put example files directly in the label folder", nested)
+	}
+	if kept == 0 {
+		ws.add(sub, 0, "label folder holds no examples")
+	}
+	return nil
+}
+
+// readExampleFile reads the example file root/rel with label and hands it
+// to fn; ok is false for a file skipped with a warning (an empty text).
+func readExampleFile(root, rel, label string, opt Options, ws *warnings, fn func(Example) error) (ok bool, err error) {
+	full := filepath.Join(root, rel)
+	text, long, err := readFileLimited(full, opt.MaxTextBytes)
+	if err != nil {
+		return false, fmt.Errorf("corpus: %s: cannot read: %v: %w", full, err, ErrEmpty)
+	}
+	if long {
+		ws.add(full, 0, "text longer than %d bytes truncated (raise --max-text-bytes to keep more)", opt.MaxTextBytes)
+		text = truncate(text, opt.MaxTextBytes)
+	}
+	e, ok, err := makeExample(text, label, full, rel, 1, 1, opt, ws)
+	if err != nil || !ok {
+		return false, err
+	}
+	e.Line = 0
+	return true, fn(e)
 }
 
 // readFileLimited reads at most max+4 bytes; long reports that the file is

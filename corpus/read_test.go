@@ -141,7 +141,7 @@ func TestLoadBadInput(t *testing.T) {
 
 func TestLoadWarnings(t *testing.T) {
 	dir := t.TempDir()
-	p := writeFile(t, dir, "a.csv", "text,label\n  ,a\nabcdeéf,b\n\"caf\xe9\",a\nok,b\n")
+	p := writeFile(t, dir, "a.csv", "text,label\n  ,a\nabcdeéf,b\n\"caf\xe9\",a\nok,b\nn\xefv,b\n")
 	d, ws, err := Load(p, Options{MaxTextBytes: 6, ReplaceInvalidUTF8: true})
 	if err != nil {
 		t.Fatal(err)
@@ -149,7 +149,8 @@ func TestLoadWarnings(t *testing.T) {
 	want := []string{
 		"corpus: " + p + " line 2: empty text skipped",
 		"corpus: " + p + " line 3: text of 8 bytes truncated to 6 bytes (raise --max-text-bytes to keep more)",
-		"corpus: " + p + " line 4: invalid UTF-8 in the text replaced by U+FFFD",
+		"corpus: " + p + " line 4: invalid UTF-8 in the text replaced by U+FFFD (if the file is Latin-1, convert it to UTF-8 first: iconv -f latin1 -t utf-8 IN > OUT)",
+		"corpus: " + p + " line 6: invalid UTF-8 in the text replaced by U+FFFD", // the hint is given once
 	}
 	var got []string
 	for _, w := range ws {
@@ -160,7 +161,7 @@ func TestLoadWarnings(t *testing.T) {
 	}
 	// "abcdeéf" cut at 6 bytes would split "é" (bytes 5-6): the cut backs off to "abcde".
 	texts := d.Texts()
-	if wantT := []string{"abcde", "caf\uFFFD", "ok"}; !reflect.DeepEqual(texts, wantT) {
+	if wantT := []string{"abcde", "caf\uFFFD", "ok", "n\uFFFDv"}; !reflect.DeepEqual(texts, wantT) {
 		t.Errorf("texts %q, want %q", texts, wantT)
 	}
 	if !reflect.DeepEqual(d.Labels, []string{"a", "b"}) {

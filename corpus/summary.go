@@ -23,7 +23,7 @@ type Summary struct {
 	NearDuplicates  []DuplicateGroup `json:"near_duplicates"`
 	ExactGroups     int              `json:"exact_groups"` // number of groups, also those not listed
 	NearGroups      int              `json:"near_groups"`
-	Leaks           int              `json:"leaks"` // test examples whose text (exact or near) is also in train
+	Leaks           int              `json:"leaks"` // dev and test examples whose text (exact or near) is also in train
 }
 
 // SplitSummary describes one split.
@@ -69,12 +69,24 @@ const maxGroups = 50
 // Summarize describes train and test (test may be nil). The vocabulary is
 // built from train with tok's MinCount and MaxVocab.
 func Summarize(train, test *Dataset, tok *Tokenizer) Summary {
+	return SummarizeThree(train, nil, test, tok)
+}
+
+// SummarizeThree describes the training, dev and test splits (dev and test
+// may be nil) as Summarize does two; a dev or test example whose text is
+// also in the training split counts as a leak.
+func SummarizeThree(train, dev, test *Dataset, tok *Tokenizer) Summary {
 	var s Summary
 	sets := []*Dataset{train}
 	names := []string{"train"}
-	if test != nil {
-		sets = append(sets, test)
-		names = append(names, "test")
+	for _, sp := range []struct {
+		d    *Dataset
+		name string
+	}{{dev, "dev"}, {test, "test"}} {
+		if sp.d != nil {
+			sets = append(sets, sp.d)
+			names = append(names, sp.name)
+		}
 	}
 	labelSet := map[string]bool{}
 	for i, d := range sets {
@@ -147,7 +159,7 @@ func (s *Summary) duplicates(sets []*Dataset, names []string) {
 		g.Text = truncate(sets[ms[0].split].Examples[ms[0].idx].Text, 80)
 		if g.CrossSplit {
 			for _, m := range ms {
-				if m.split == 1 {
+				if m.split > 0 {
 					leaked[m] = true
 				}
 			}
@@ -190,9 +202,12 @@ func (s *Summary) duplicates(sets []*Dataset, names []string) {
 	s.Leaks = len(leaked)
 }
 
+// splitOrder ranks split names as they are listed.
+var splitOrder = map[string]int{"train": 0, "dev": 1, "test": 2}
+
 func lessLoc(a, b Location) bool {
 	if a.Split != b.Split {
-		return a.Split > b.Split // "train" before "test"
+		return splitOrder[a.Split] < splitOrder[b.Split]
 	}
 	if a.File != b.File {
 		return a.File < b.File
@@ -265,7 +280,11 @@ func (s Summary) WriteText(out io.Writer) error {
 	row(all...)
 	tw.Flush()
 	fmt.Fprintf(w, "\nvocabulary: %d entries (train)", s.VocabSize)
-	if len(s.Splits) > 1 {
+	held := map[string]bool{}
+	for _, sp := range s.Splits[1:] {
+		held[sp.Name] = true
+	}
+	if held["test"] {
 		fmt.Fprintf(w, "; test tokens not in it: %.1f%%", 100*s.TestOOVRate)
 	}
 	fmt.Fprintln(w)
@@ -274,7 +293,11 @@ func (s Summary) WriteText(out io.Writer) error {
 		p := sp.TokenLength
 		fmt.Fprintf(w, "  %-5s p50 %d  p90 %d  p99 %d  max %d\n", sp.Name, p.P50, p.P90, p.P99, p.Max)
 	}
-	fmt.Fprintf(w, "duplicates: %d exact groups, %d near-exact groups; %d test examples also in train\n", s.ExactGroups, s.NearGroups, s.Leaks)
+	leaked := "test"
+	if held["dev"] {
+		leaked = "dev or test"
+	}
+	fmt.Fprintf(w, "duplicates: %d exact groups, %d near-exact groups; %d %s examples also in train\n", s.ExactGroups, s.NearGroups, s.Leaks, leaked)
 	for _, part := range []struct {
 		name string
 		gs   []DuplicateGroup

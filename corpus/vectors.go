@@ -248,14 +248,14 @@ func parseVectorBlock(path string, data []byte, first, dim int, keep func(string
 			}
 			x, ok := parseFloat32(rest[:end])
 			if !ok {
-				p.err = fmt.Errorf("corpus: %s line %d: %q is not a finite number: %w", path, n, rest[:end], ErrVectors)
+				p.err = fmt.Errorf("corpus: %s line %d: %s is not a finite number: %w", path, n, quote(string(rest[:end])), ErrVectors)
 				return p
 			}
 			p.data = append(p.data, x)
 			rest = rest[end:]
 		}
 		if got := len(p.data) - start; got != dim {
-			p.err = fmt.Errorf("corpus: %s line %d: %d numbers for %q, but the file's dimension is %d: %w", path, n, got, word, dim, ErrVectors)
+			p.err = fmt.Errorf("corpus: %s line %d: %d numbers for %s, but the file's dimension is %d: %w", path, n, got, quote(word), dim, ErrVectors)
 			return p
 		}
 		p.words = append(p.words, word)

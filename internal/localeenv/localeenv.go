@@ -1,8 +1,3 @@
-// Package localeenv runs before the window toolkit's packages initialise
-// (its import path sorts first, and Go initialises independent packages in
-// import-path order) and turns a "C.UTF-8" locale, which the toolkit's
-// locale lookup cannot parse and reports on every start, into plain "C",
-// which means the same to every program and is understood.
 package localeenv
 
 import (
@@ -10,15 +5,36 @@ import (
 	"strings"
 )
 
-func init() {
+// fixed is the variable the init changed and its value before, or "".
+var fixed, before string
+
+func init() { fixed, before = Fix() }
+
+// Fix sets the variable the toolkit's locale lookup reads from a "C.…" or
+// "POSIX.…" value to "C" when the lookup could not parse it, and returns
+// the variable's name and old value ("" when nothing was changed).
+func Fix() (name, old string) {
+	if os.Getenv("LANGUAGE") != "" {
+		return "", ""
+	}
 	for _, v := range []string{"LC_ALL", "LC_MESSAGES", "LANG"} {
 		val := os.Getenv(v)
 		if val == "" {
 			continue
 		}
-		if l := strings.ToUpper(val); strings.HasPrefix(l, "C.") || strings.HasPrefix(l, "POSIX.") {
-			os.Setenv(v, val[:strings.IndexByte(val, '.')])
+		if u := strings.ToUpper(val); strings.HasPrefix(u, "C.") || strings.HasPrefix(u, "POSIX.") {
+			os.Setenv(v, "C")
+			return v, val
 		}
-		return
+		return "", ""
+	}
+	return "", ""
+}
+
+// Undo gives back the value the init changed, if any.
+func Undo() {
+	if fixed != "" {
+		os.Setenv(fixed, before)
+		fixed = ""
 	}
 }

@@ -1,0 +1,219 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// caseFiles are the files the cases of TestRefusalsAndMessages read.
+type caseFiles struct {
+	dir, data, model, tiny, swapped, folder, headerless, wide, cues, labels string
+}
+
+func makeCaseFiles(t *testing.T) caseFiles {
+	t.Helper()
+	dir := t.TempDir()
+	f := caseFiles{dir: dir, data: demoPart(t, dir, 300), model: tinyModel(t), tiny: filepath.Join("testdata", "bad", "two-labels.csv")}
+	write := func(name, content string) string {
+		p := filepath.Join(dir, name)
+		os.MkdirAll(filepath.Dir(p), 0o755)
+		if err := os.WriteFile(p, []byte(content), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	var sw strings.Builder
+	sw.WriteString("text,label\n")
+	for i := 0; i < 40; i++ {
+		fmt.Fprintf(&sw, "message number %d about the ferry,%s\n", i, []string{"bookings", "praise"}[i%2])
+	}
+	f.swapped = write("swapped.csv", sw.String())
+	f.headerless = write("headerless.csv", "the ferry was late,complaints\nthanks to the crew,praise\n")
+	f.wide = write("wide.csv", strings.Repeat("x;", 5<<20/2)+"\na;b\n")
+	f.cues = write("cues.txt", "# the slashes are missing\nTKREF-[0-9]{5}\n")
+	var lb strings.Builder
+	lb.WriteString("text,label\n")
+	for i := 0; i < 12; i++ {
+		fmt.Fprintf(&lb, "text %d,%s\n", i, []string{"bookings", "BOOKINGS", "praise"}[i%3])
+	}
+	lb.WriteString("the only one,lost-property\n")
+	f.labels = write("labels.csv", lb.String())
+	f.folder = filepath.Join(dir, "folder")
+	for _, l := range []string{"ham", "spam"} {
+		for i := 0; i < 3; i++ {
+			write(filepath.Join("folder", l, fmt.Sprintf("%d.txt", i)), l+" text")
+		}
+	}
+	write("elsewhere/eggs/1.txt", "eggs")
+	os.Symlink(filepath.Join(dir, "elsewhere", "eggs"), filepath.Join(f.folder, "eggs"))
+	os.Symlink(filepath.Join(dir, "elsewhere", "eggs", "1.txt"), filepath.Join(f.folder, "ham", "9.txt"))
+	return f
+}
+
+// TestRefusalsAndMessages: every case of a bad option, useless data or an
+// unclear message found by trying telltale as a new user would, through
+// run(): the exit code and the message. (The cases come from that review;
+// the expected wording is this project's own.)
+func TestRefusalsAndMessages(t *testing.T) {
+	f := makeCaseFiles(t)
+	out := filepath.Join(f.dir, "m.tt")
+	train := func(args ...string) []string {
+		return append([]string{"train", "--data", f.data, "--out", out, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"}, args...)
+	}
+	cases := []struct {
+		name string
+		args []string
+		code int
+		want []string
+	}{
+		// Options checked up front.
+		{"negative threads", train("--threads", "-3"), 2, []string{"--threads -3: give 1 or more worker goroutines, or 0 for one per core"}},
+		{"threads capped", []string{"eval", "--model", f.model, "--test", f.tiny, "--threads", "100000"}, 0,
+			[]string{"warning: --threads 100000 is more than 4 per core on this machine's"}},
+		{"maps too many for memory", train("--maps", "100000000"), 2, []string{"training this model would take up to about", "but this machine has", "lower --maps"}},
+		{"dim too large for memory", train("--dim", "100000000"), 2, []string{"training this model would take up to about", "--dim 100000000"}},
+		{"empty list item", train("--widths", "3,,5"), 2, []string{`--widths "3,,5": item 2 of 3 is empty`}},
+		{"width 0", train("--widths", "0,3"), 2, []string{`--widths "0,3": 0 is not a filter width (1 or more)`}},
+		{"audit top 0", []string{"audit", "--model", f.model, "--data", f.data, "--top", "0"}, 2, []string{"--top 0: give 1 or more"}},
+		{"audit top -5", []string{"audit", "--model", f.model, "--data", f.data, "--top", "-5"}, 2, []string{"--top -5: give 1 or more"}},
+		{"filters top 0", []string{"filters", "--model", f.model, "--data", f.data, "--top", "0"}, 2, []string{"--top 0: give 1 or more"}},
+		{"negative patience", train("--patience", "-1"), 2, []string{"--patience -1: give 0 or more", "0 never stops early"}},
+		{"negative seed", train("--seed", "-1"), 2, []string{"--seed -1: a seed is a whole number from 0 to 18446744073709551615"}},
+		{"seed not a number", train("--seed", "one"), 2, []string{"--seed one: a seed is a whole number"}},
+		{"epochs not a number", train("--epochs", "x"), 2, []string{"--epochs x: not a whole number"}},
+		{"a value holding \" for \"", train("--epochs", "3 for 4"), 2, []string{"--epochs 3 for 4: not a whole number"}},
+		{"a switch with a value", train("--quiet=maybe"), 2, []string{"--quiet maybe: give true or false"}},
+		{"unknown option", train("--filter", "3"), 2, []string{"unknown option --filter"}},
+		// NaN and infinities.
+		{"lr NaN", train("--lr", "NaN"), 2, []string{"--lr NaN: not a finite number"}},
+		{"lr Inf", train("--lr", "Inf"), 2, []string{"--lr Inf: not a finite number"}},
+		{"lr overflowing", train("--lr", "1e400"), 2, []string{"--lr 1e400: not a finite number"}},
+		{"lr negative", train("--lr", "-1"), 2, []string{"--lr -1: give a positive learning rate"}},
+		{"dropout NaN", train("--dropout", "NaN"), 2, []string{"--dropout NaN: not a finite number"}},
+		{"dropout 1", train("--dropout", "1"), 2, []string{"--dropout 1: give a rate from 0 up to (not including) 1"}},
+		{"max-norm Inf", train("--max-norm", "+Inf"), 2, []string{"--max-norm +Inf: not a finite number"}},
+		{"dev-frac NaN", train("--dev-frac", "NaN"), 2, []string{"--dev-frac NaN: not a finite number"}},
+		{"purity NaN", []string{"filters", "--model", f.model, "--data", f.data, "--purity", "NaN"}, 2, []string{"--purity NaN: not a finite number"}},
+		{"a diverging run", train("--lr", "1e30", "--epochs", "3"), 1,
+			[]string{"training diverged in epoch 1", "nothing saved to " + out, "lower --lr (it was 1e+30)"}},
+		// Data that would give a useless model.
+		{"swapped columns", []string{"train", "--data", f.swapped, "--text-col", "label", "--label-col", "text", "--out", out}, 1,
+			[]string{"40 distinct labels among 40 examples", "check that --text-col and --label-col name the right columns", "--force"}},
+		{"empty vocabulary", train("--min-count", "1000000"), 1,
+			[]string{"the vocabulary is empty: no word occurs 1000000 times in the training split", "lower --min-count"}},
+		{"empty dev split", []string{"train", "--data", f.tiny, "--out", out}, 1, []string{"the dev split is empty", "raise --dev-frac", "--force"}},
+		{"label warnings", []string{"data", "--data", f.labels}, 0, []string{
+			`label "lost-property" has a single example`, `labels "BOOKINGS" and "bookings" differ only in letter case: if they are one label, merge them with --relabel "bookings=BOOKINGS"`}},
+		// Folders.
+		{"symbolic links in a folder", []string{"data", "--data", f.folder}, 0, []string{
+			filepath.Join(f.folder, "eggs") + ": symbolic link skipped: links in a data folder are not followed",
+			filepath.Join(f.folder, "ham", "9.txt") + ": symbolic link skipped"}},
+		// Messages.
+		{"headerless CSV", []string{"data", "--data", f.headerless}, 1, []string{"the file lacks its header row", "e.g. text,label"}},
+		{"dev-frac 0", train("--dev-frac", "0"), 2, []string{"--dev-frac 0: give a share between 0 and 1 (exclusive) of --data to hold out for early stopping"}},
+		{"test-frac 1", train("--test-frac", "1"), 2, []string{"--test-frac 1: give a share between 0 and 1"}},
+		{"shares that leave nothing", train("--dev-frac", "0.5", "--test-frac", "0.5"), 2, []string{"hold out 100% of --data: together they must stay below 1"}},
+		{"a file and a share", train("--dev", f.tiny, "--dev-frac", "0.2"), 2, []string{"give --dev FILE or --dev-frac, not both"}},
+		{"report onto a folder", []string{"report", "--model", f.model, "--data", f.data, "--out", f.dir}, 1, []string{"--out " + f.dir + " is a folder"}},
+		{"bare regular expression", train("--mask-tokens", f.cues, "--quiet=false", "--out", filepath.Join(f.dir, "masked.tt")), 0, []string{
+			`the pattern "TKREF-[0-9]{5}" matches nothing: without slashes it is a plain token`, "write /TKREF-[0-9]{5}/"}},
+		{"Latin-1", []string{"data", "--data", filepath.Join("testdata", "bad", "latin1.csv")}, 0, []string{"iconv -f latin1 -t utf-8"}},
+		{"both --text and --data", []string{"predict", "--model", f.model, "--text", "hi", "--data", f.data}, 2, []string{"give --text or --data, not both"}},
+		{"filter index out of range", []string{"filters", "--model", f.model, "--data", f.data, "--filters", "0,999"}, 2, []string{"--filters 0,999: the model has filters 0 to 11"}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, stderr := tt(t, c.args...)
+			noCrash(t, c.name, stderr)
+			if code != c.code {
+				t.Errorf("exit %d, want %d; stderr:\n%s", code, c.code, stderr)
+			}
+			for _, w := range c.want {
+				if !strings.Contains(stderr, w) {
+					t.Errorf("stderr lacks %q:\n%s", w, stderr)
+				}
+			}
+		})
+	}
+	if _, err := os.Stat(out); err == nil {
+		t.Error("a refused training run wrote its model file")
+	}
+}
+
+// TestLongValuesAreNotEchoed: a 5 MB line in a file or on the command line
+// does not come back whole in a message.
+func TestLongValuesAreNotEchoed(t *testing.T) {
+	f := makeCaseFiles(t)
+	huge := strings.Repeat("y", 5<<20)
+	for _, args := range [][]string{
+		{"data", "--data", f.wide},
+		{"predict", "--model", f.model, huge},
+		{"train", "--data", f.data, "--out", "x.tt", "--widths", huge + ",,"},
+		{"data", "--data", f.data, "--text-col", huge},
+		{huge},
+	} {
+		code, _, stderr := tt(t, args...)
+		if code == 0 || len(stderr) > 4000 {
+			t.Errorf("%.40q: exit %d with %d bytes of stderr:\n%.600s", args, code, len(stderr), stderr)
+		}
+	}
+}
+
+// TestPatienceZeroNeverStopsEarly: --patience 0 means training every epoch
+// (said in help train); the model records no early stop.
+func TestPatienceZeroNeverStopsEarly(t *testing.T) {
+	data := demoPart(t, t.TempDir(), 300)
+	model := filepath.Join(t.TempDir(), "m.tt")
+	code, out, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "4", "--dim", "4", "--maps", "2", "--patience", "0", "--json", "--quiet")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	var s trainSummary
+	if err := json.Unmarshal([]byte(out), &s); err != nil {
+		t.Fatal(err)
+	}
+	if s.Epochs != 4 || s.StoppedEarly {
+		t.Errorf("--patience 0 trained %d of 4 epochs (stopped early: %v)", s.Epochs, s.StoppedEarly)
+	}
+	_, help, _ := tt(t, "help", "train")
+	if !strings.Contains(help, "0 never stops early") {
+		t.Errorf("help train does not say what --patience 0 means:\n%s", help)
+	}
+}
+
+// TestInterruptedExits130: a run whose context is cancelled, as a SIGINT
+// cancels it, ends with exit 130 and "interrupted" for every command that
+// does work (the window needs a display and is left out).
+func TestInterruptedExits130(t *testing.T) {
+	f := makeCaseFiles(t)
+	dir := t.TempDir()
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	for _, args := range [][]string{
+		{"data", "--data", f.data},
+		{"train", "--data", f.data, "--out", filepath.Join(dir, "m.tt"), "--epochs", "1", "--dim", "4", "--maps", "2"},
+		{"eval", "--model", f.model, "--data", f.data},
+		{"predict", "--model", f.model, "--data", f.data},
+		{"explain", "--model", f.model, "--data", f.data},
+		{"filters", "--model", f.model, "--data", f.data},
+		{"faithfulness", "--model", f.model, "--data", f.data},
+		{"audit", "--model", f.model, "--data", f.data},
+		{"mask", "--model", f.model, "--filters", "1", "--out", filepath.Join(dir, "masked.tt"), "--data", f.data},
+		{"compare", "--models", f.model + "," + f.model, "--data", f.data},
+		{"report", "--model", f.model, "--data", f.data, "--out", filepath.Join(dir, "r.html")},
+	} {
+		var stdout, stderr strings.Builder
+		code := run(ctx, args, strings.NewReader(""), &stdout, &stderr)
+		if code != 130 || !strings.Contains(stderr.String(), "telltale "+args[0]+": interrupted") {
+			t.Errorf("%s: exit %d, stderr %q; want 130 and interrupted", args[0], code, stderr.String())
+		}
+	}
+	if _, err := os.Stat(filepath.Join(dir, "m.tt")); err == nil {
+		t.Error("an interrupted training run saved a model before its first epoch ended")
+	}
+}

@@ -1,0 +1,192 @@
+package main
+
+import (
+	"context"
+	"flag"
+	"fmt"
+	"strings"
+
+	"telltale/cnn"
+	"telltale/internal/outguard"
+)
+
+var cmdCompare = &command{
+	Name:      "compare",
+	UsageLine: "compare --models A,B[,…] (--data FILE | --test FILE) [--json]",
+	Short:     "evaluate several models side by side on the same labeled texts",
+	Long: `Compare evaluates each model on the same labeled texts and prints their
+metrics side by side, e.g. a model against its masked copy, or against one
+retrained with --mask-tokens. The texts are found as eval finds them for the
+first model: --test FILE, or the test split of its own --data, or all of other
+data; a note says when another model's splits were made otherwise. The models
+must share their labels; each uses its own tokenizer and vocabulary.`,
+	Options: func() options { return new(compareOptions) },
+	Run:     runAs(runCompare),
+}
+
+type compareOptions struct {
+	models, data, test string
+	read               readOptions
+	asJSON, quiet      bool
+
+	paths []string
+}
+
+func (o *compareOptions) register(fs *flag.FlagSet) {
+	fs.StringVar(&o.models, "models", "", "model files, comma-separated")
+	registerEvalData(fs, &o.data, &o.test)
+	o.read.register(fs, true)
+	fs.BoolVar(&o.asJSON, "json", false, "print the comparison as one JSON object")
+	fs.BoolVar(&o.quiet, "quiet", false, "print no notes or warnings")
+}
+
+func (o *compareOptions) check(fs *flag.FlagSet, env *runEnv) error {
+	var err error
+	if o.paths, err = listItems("models", o.models); err != nil {
+		return err
+	}
+	if len(o.paths) < 2 {
+		return usagef("--models needs at least two model files, comma-separated")
+	}
+	if err := requireEvalData(o.data, o.test); err != nil {
+		return err
+	}
+	return o.read.check()
+}
+
+func (o *compareOptions) files() (outputs, inputs []outguard.File) {
+	inputs = []outguard.File{{Name: "--data", Path: o.data}, {Name: "--test", Path: o.test}}
+	for _, p := range o.paths {
+		inputs = append(inputs, outguard.File{Name: "--models", Path: p})
+	}
+	return nil, inputs
+}
+
+func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
+	models := make([]*cnn.Model, len(o.paths))
+	for i, p := range o.paths {
+		m, _, err := openModel(p)
+		if err != nil {
+			return err
+		}
+		if i > 0 && strings.Join(m.Labels, "\x00") != strings.Join(models[0].Labels, "\x00") {
+			return usagef("%s has the labels %s but %s has %s: compare needs models with the same labels in the same order",
+				p, listed(m.Labels), o.paths[0], listed(models[0].Labels))
+		}
+		models[i] = m
+	}
+	es, err := findTestSplit(models[0], o.data, o.test, &o.read, env.Stderr, o.quiet)
+	if err != nil {
+		return err
+	}
+	say(env.Stderr, o.quiet, "%s", es.note)
+	for i, m := range models[1:] {
+		if o.test == "" && !sameSplits(m.Info.Splits, models[0].Info.Splits) {
+			say(env.Stderr, o.quiet, "%s was not trained with the splits of %s: its figures may include texts it was trained on", o.paths[i+1], o.paths[0])
+		}
+	}
+	rows := make([]compareRow, 0, len(models))
+	var first []int
+	for i, m := range models {
+		enc, err := m.Encoder()
+		if err != nil {
+			return fmt.Errorf("%s: rebuilding its tokenizer: %w", o.paths[i], err)
+		}
+		data, err := encodeFor(m, enc, es.test, 0)
+		if err != nil {
+			return err
+		}
+		met, pred, err := cnn.Evaluate(m, data, 0)
+		if err != nil {
+			return err
+		}
+		row := compareRow{Model: o.paths[i], Metrics: met}
+		if i == 0 {
+			first = pred
+		} else {
+			row.Flipped = flippedShare(first, pred)
+		}
+		rows = append(rows, row)
+	}
+	return writeComparison(env, rows, o.asJSON)
+}
+
+// sameSplits reports whether two models' splits were made the same way
+// from the same data.
+func sameSplits(a, b *cnn.SplitRecord) bool {
+	if a == nil || b == nil {
+		return a == b
+	}
+	return a.Fingerprint == b.Fingerprint && a.DevFrac == b.DevFrac && a.TestFrac == b.TestFrac && a.Seed == b.Seed &&
+		a.DevFile == b.DevFile && a.TestFile == b.TestFile
+}
+
+type compareRow struct {
+	Model   string      `json:"model"`
+	Metrics cnn.Metrics `json:"metrics"`
+	// Flipped is the share of texts whose prediction differs from the first model's.
+	Flipped float64 `json:"flipped_vs_first"`
+}
+
+// compareModels evaluates models that share one encoder on data.
+func compareModels(env *runEnv, data cnn.Data, names []string, ms []*cnn.Model, asJSON bool) error {
+	rows := make([]compareRow, len(ms))
+	var first []int
+	for i, m := range ms {
+		met, pred, err := cnn.Evaluate(m, data, 0)
+		if err != nil {
+			return err
+		}
+		rows[i] = compareRow{Model: names[i], Metrics: met}
+		if i == 0 {
+			first = pred
+			continue
+		}
+		rows[i].Flipped = flippedShare(first, pred)
+	}
+	return writeComparison(env, rows, asJSON)
+}
+
+func writeComparison(env *runEnv, rows []compareRow, asJSON bool) error {
+	if asJSON {
+		return writeJSON(env.Stdout, rows)
+	}
+	w := env.Stdout
+	fmt.Fprintf(w, "%-40s  %8s  %8s  %11s  %6s  %8s\n", "model", "accuracy", "macro-F1", "weighted-F1", "ECE", "flipped")
+	for i, r := range rows {
+		flip := "-"
+		if i > 0 && r.Flipped >= 0 {
+			flip = fmt.Sprintf("%.1f%%", 100*r.Flipped)
+		}
+		fmt.Fprintf(w, "%-40s  %8.4f  %8.4f  %11.4f  %6.4f  %8s\n", oneLine(r.Model, 40), r.Metrics.Accuracy, r.Metrics.MacroF1, r.Metrics.WeightedF1, r.Metrics.ECE, flip)
+	}
+	if len(rows) == 0 {
+		return nil
+	}
+	fmt.Fprintf(w, "\nper-class F1\n%-20s", "label")
+	for i := range rows {
+		fmt.Fprintf(w, "  %8s", fmt.Sprintf("model %d", i+1))
+	}
+	fmt.Fprintln(w)
+	for c, pc := range rows[0].Metrics.PerClass {
+		fmt.Fprintf(w, "%-20s", pc.Label)
+		for _, r := range rows {
+			if c < len(r.Metrics.PerClass) {
+				fmt.Fprintf(w, "  %8.4f", r.Metrics.PerClass[c].F1)
+			}
+		}
+		fmt.Fprintln(w)
+	}
+	return nil
+}
+
+// flippedShare is the share of positions where b's prediction differs from a's.
+func flippedShare(a, b []int) float64 {
+	flips := 0
+	for j := range b {
+		if b[j] != a[j] {
+			flips++
+		}
+	}
+	return float64(flips) / float64(max(1, len(b)))
+}

@@ -1,0 +1,185 @@
+package main
+
+import (
+	"crypto/sha256"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// guardCommand is one command's outputs and inputs, for the output guard's
+// table test: every input option with the file it names, every output
+// option, and the other arguments the command needs.
+type guardCommand struct {
+	name    string
+	outputs []string
+	inputs  []string
+	extra   []string
+}
+
+var guardCommands = []guardCommand{
+	{"train", []string{"--out"}, []string{"--data", "--dev", "--test", "--vectors", "--tokenizer", "--mask-tokens"}, []string{"--epochs", "1", "--maps", "2", "--dim", "4"}},
+	{"eval", []string{"--export"}, []string{"--model", "--data", "--test"}, nil},
+	{"predict", []string{"--export"}, []string{"--model", "--data"}, nil},
+	{"explain", []string{"--export"}, []string{"--model", "--data"}, nil},
+	{"filters", []string{"--export"}, []string{"--model", "--data"}, nil},
+	{"audit", []string{"--export", "--masked-out"}, []string{"--model", "--data", "--test"}, nil},
+	{"mask", []string{"--out"}, []string{"--model", "--data", "--test"}, []string{"--filters", "0"}},
+	{"report", []string{"--out"}, []string{"--model", "--data", "--test"}, nil},
+}
+
+// guardInputs are the contents of the input files, by option.
+func guardInputs(t *testing.T) map[string][]byte {
+	t.Helper()
+	data, err := os.ReadFile(demoPart(t, t.TempDir(), 300))
+	if err != nil {
+		t.Fatal(err)
+	}
+	model, err := os.ReadFile(tinyModel(t))
+	if err != nil {
+		t.Fatal(err)
+	}
+	two, err := os.ReadFile(filepath.Join("testdata", "bad", "two-labels.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	tok, err := os.ReadFile(filepath.Join("testdata", "bad", "tokenizer.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return map[string][]byte{"--data": data, "--dev": two, "--test": two, "--model": model,
+		"--vectors": []byte("ferry 0.1 0.2 0.3 0.4\n"), "--tokenizer": tok, "--mask-tokens": []byte("/TKREF-[0-9]{5}/\n")}
+}
+
+// aliases are the ways an output can name an input file p in dir: the
+// same path, a path through "..", a symbolic link and a hard link (the
+// last two named with ext, so that an --export format check passes).
+var aliases = []struct {
+	name string
+	make func(t *testing.T, dir, p, ext string) string
+}{
+	{"same path", func(t *testing.T, dir, p, ext string) string { return p }},
+	{"./.. path", func(t *testing.T, dir, p, ext string) string {
+		os.Mkdir(filepath.Join(dir, "sub"), 0o755)
+		wd, err := os.Getwd()
+		if err != nil {
+			t.Fatal(err)
+		}
+		rel, err := filepath.Rel(wd, dir)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return "./" + rel + "/sub/../" + filepath.Base(p)
+	}},
+	{"symbolic link", func(t *testing.T, dir, p, ext string) string {
+		l := filepath.Join(dir, "link"+ext)
+		if err := os.Symlink(p, l); err != nil {
+			t.Fatal(err)
+		}
+		return l
+	}},
+	{"hard link", func(t *testing.T, dir, p, ext string) string {
+		l := filepath.Join(dir, "hard"+ext)
+		if err := os.Link(p, l); err != nil {
+			t.Fatal(err)
+		}
+		return l
+	}},
+}
+
+// TestOutputNeverOverwritesInput: for every command, every file it writes
+// and every file it reads, an output that is the input (the same path, a
+// path through "..", a symbolic link to it or a hard link of it) is refused
+// with exit 2 before any work, the message naming both options, and the
+// input's bytes are unchanged (SHA-256 before and after).
+func TestOutputNeverOverwritesInput(t *testing.T) {
+	contents := guardInputs(t)
+	for _, gc := range guardCommands {
+		for _, out := range gc.outputs {
+			for _, in := range gc.inputs {
+				for _, al := range aliases {
+					name := fmt.Sprintf("%s %s onto %s by %s", gc.name, out, in, al.name)
+					t.Run(name, func(t *testing.T) { checkGuard(t, gc, out, in, al.make, contents) })
+				}
+			}
+		}
+	}
+}
+
+func checkGuard(t *testing.T, gc guardCommand, out, in string, alias func(*testing.T, string, string, string) string, contents map[string][]byte) {
+	dir := t.TempDir()
+	// An --export must end in .csv, so the inputs are named that way too:
+	// the guard, not the extension check, must be what refuses.
+	ext := ".in"
+	if out == "--export" {
+		ext = ".csv"
+	}
+	args := []string{gc.name}
+	var target string
+	for _, opt := range gc.inputs {
+		p := filepath.Join(dir, strings.TrimPrefix(opt, "--")+ext)
+		if opt == "--data" && ext != ".csv" {
+			p += ".csv" // read by its extension
+		}
+		if err := os.WriteFile(p, contents[opt], 0o644); err != nil {
+			t.Fatal(err)
+		}
+		args = append(args, opt, p)
+		if opt == in {
+			target = p
+		}
+	}
+	before := sha256.Sum256(contents[in])
+	args = append(append(args, gc.extra...), out, alias(t, dir, target, ext))
+	code, _, stderr := tt(t, args...)
+	noCrash(t, "guard", stderr)
+	if code != 2 || !strings.Contains(stderr, "telltale never writes onto its inputs") ||
+		!strings.Contains(stderr, out+" ") || !strings.Contains(stderr, in+" ") {
+		t.Errorf("%q: exit %d, stderr %q; want exit 2 naming %s and %s", args, code, stderr, out, in)
+	}
+	after, err := os.ReadFile(target)
+	if err != nil || sha256.Sum256(after) != before {
+		t.Errorf("the input %s changed (%v)", in, err)
+	}
+}
+
+// TestOutputGuardFoldersAndSidecars: an output inside an input folder, an
+// audit export whose side tables would land on an input, and two outputs
+// naming one file are refused the same way.
+func TestOutputGuardFoldersAndSidecars(t *testing.T) {
+	model := tinyModel(t)
+	dir := t.TempDir()
+	folder := filepath.Join(dir, "corpus")
+	for _, l := range []string{"ham", "spam"} {
+		os.MkdirAll(filepath.Join(folder, l), 0o755)
+		for i := 0; i < 3; i++ {
+			os.WriteFile(filepath.Join(folder, l, fmt.Sprintf("%d.txt", i)), []byte(l+" text"), 0o644)
+		}
+	}
+	data := demoPart(t, dir, 300)
+	tokens := filepath.Join(dir, "sus.tokens.csv") // what --export sus.csv writes beside it
+	os.WriteFile(tokens, []byte("keep me\n"), 0o644)
+	cases := []struct {
+		args []string
+		want string
+	}{
+		{[]string{"train", "--data", folder, "--out", filepath.Join(folder, "ham", "4.txt")}, "is inside the --data folder"},
+		{[]string{"eval", "--model", model, "--test", folder, "--export", filepath.Join(folder, "x.csv")}, "is inside the --test folder"},
+		{[]string{"audit", "--model", model, "--data", data, "--test", tokens, "--export", filepath.Join(dir, "sus.csv")}, "--export's token table " + tokens + " is --test"},
+		{[]string{"audit", "--model", model, "--data", data, "--export", filepath.Join(dir, "a.csv"), "--masked-out", filepath.Join(dir, "x", "..", "a.csv")}, "are one file"},
+	}
+	for _, c := range cases {
+		code, _, stderr := tt(t, c.args...)
+		if code != 2 || !strings.Contains(stderr, c.want) {
+			t.Errorf("%q: exit %d, stderr %q; want exit 2 and %q", c.args, code, stderr, c.want)
+		}
+	}
+	if b, _ := os.ReadFile(tokens); string(b) != "keep me\n" {
+		t.Errorf("the input beside the export changed: %q", b)
+	}
+	if _, err := os.Stat(filepath.Join(folder, "ham", "4.txt")); err == nil {
+		t.Error("train wrote into its data folder")
+	}
+}

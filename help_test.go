@@ -1,0 +1,111 @@
+package main
+
+import (
+	"encoding/json"
+	"flag"
+	"os"
+	"path/filepath"
+	"reflect"
+	"strings"
+	"testing"
+
+	"telltale/cnn"
+	"telltale/internal/version"
+)
+
+var update = flag.Bool("update", false, "rewrite the golden files of the help texts")
+
+// TestHelpGolden: `telltale help X` for every command against
+// testdata/help/X.golden (go test -update rewrites them; a mismatch writes
+// the actual text to testdata/failed/). The goldens are what a reader
+// checks: each lists exactly the options its command uses. The window's
+// help is left out: its view names and caution are the window's own text.
+func TestHelpGolden(t *testing.T) {
+	for _, c := range commands {
+		if c == cmdGUI {
+			continue
+		}
+		code, out, stderr := tt(t, "help", c.Name)
+		if code != 0 {
+			t.Fatalf("help %s: exit %d: %s", c.Name, code, stderr)
+		}
+		golden := filepath.Join("testdata", "help", c.Name+".golden")
+		if *update {
+			os.MkdirAll(filepath.Dir(golden), 0o755)
+			if err := os.WriteFile(golden, []byte(out), 0o644); err != nil {
+				t.Fatal(err)
+			}
+			continue
+		}
+		want, err := os.ReadFile(golden)
+		if err != nil {
+			t.Fatalf("%v (run go test -update)", err)
+		}
+		if out != string(want) {
+			failed := filepath.Join("testdata", "failed", "help-"+c.Name+".txt")
+			os.MkdirAll(filepath.Dir(failed), 0o755)
+			os.WriteFile(failed, []byte(out), 0o644)
+			t.Errorf("help %s differs from %s; the actual text is in %s", c.Name, golden, failed)
+		}
+	}
+}
+
+// TestHelpListsOnlyUsedOptions: no help text offers an option its command
+// ignores, and the shared vocabulary holds: --maps only for train,
+// --filters always a list, --dev only where a dev split is made.
+func TestHelpListsOnlyUsedOptions(t *testing.T) {
+	options := map[string]map[string]bool{}
+	for _, c := range commands {
+		_, out, _ := tt(t, "help", c.Name)
+		if strings.Contains(out, "not used by") {
+			t.Errorf("help %s offers an option it does not use:\n%s", c.Name, out)
+		}
+		options[c.Name] = map[string]bool{}
+		for _, l := range strings.Split(out, "\n") {
+			if f, ok := strings.CutPrefix(l, "  --"); ok {
+				options[c.Name][strings.Fields(f)[0]] = true
+			}
+		}
+	}
+	for name, opts := range options {
+		if opts["dev"] != (name == "train" || name == "data") {
+			t.Errorf("%s: --dev offered %v", name, opts["dev"])
+		}
+		if opts["maps"] != (name == "train") || opts["filter"] || opts["dev-frac"] != opts["dev"] {
+			t.Errorf("%s: options %v", name, opts)
+		}
+	}
+	for _, name := range []string{"filters", "mask"} {
+		_, out, _ := tt(t, "help", name)
+		if !strings.Contains(out, "--filters string\n    \t") || !strings.Contains(out, "comma-separated") {
+			t.Errorf("help %s: --filters is not a list of indexes:\n%s", name, out)
+		}
+	}
+}
+
+// TestTrainDefaultsAreTheRecipe: train's option defaults are
+// cnn.DefaultRecipe's.
+func TestTrainDefaultsAreTheRecipe(t *testing.T) {
+	var o trainOptions
+	fs := flag.NewFlagSet("train", flag.ContinueOnError)
+	o.register(fs)
+	r, def := o.recipe.recipe(1, 0), cnn.DefaultRecipe()
+	r.Model.Widths, r.Train.Threads = def.Model.Widths, def.Train.Threads // parsed by check
+	if o.recipe.Widths != "3,4,5" || r.Model.Dim != def.Model.Dim || r.Model.Filters != def.Model.Filters || r.Model.Dropout != def.Model.Dropout ||
+		r.Train.Epochs != def.Train.Epochs || r.Train.Batch != def.Train.Batch || r.Train.Patience != def.Train.Patience ||
+		r.Train.MaxLen != def.Train.MaxLen || r.Train.Optimizer != def.Train.Optimizer || !reflect.DeepEqual(r.Tokenizer, def.Tokenizer) ||
+		o.split.DevFrac != cnn.DefaultDevFrac || o.split.TestFrac != cnn.DefaultTestFrac || o.split.Seed != def.Train.Seed {
+		t.Errorf("train's defaults %+v / %+v differ from cnn.DefaultRecipe %+v", r, o.split, def)
+	}
+}
+
+func TestVersion(t *testing.T) {
+	code, out, _ := tt(t, "version")
+	if code != 0 || !strings.HasPrefix(out, "telltale "+version.String()+" (model file format ") {
+		t.Errorf("version: exit %d, %q", code, out)
+	}
+	var v map[string]any
+	if code, out, _ = tt(t, "version", "--json"); code != 0 || json.Unmarshal([]byte(out), &v) != nil || v["version"] != version.String() {
+		t.Errorf("version --json: exit %d, %q", code, out)
+	}
+}

@@ -1,3 +1,0 @@
-module aa.telltale.local/localeenv
-
-go 1.26

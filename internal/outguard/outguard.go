@@ -1,0 +1,168 @@
+package outguard
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+)
+
+// File is one path a run reads or writes, with the name the user gave it
+// (an option such as "--out", or a field of a form), used in messages.
+type File struct {
+	Name string
+	Path string
+}
+
+// ErrOntoInput is wrapped by the error of an output that is an input (or
+// lies inside an input folder), or that another output also names: a
+// mistake in what the user asked for.
+var ErrOntoInput = errors.New("outguard: output would overwrite an input")
+
+// ErrNotWritable is wrapped by the error of an output that cannot be
+// written: it is a folder, or its folder is missing or not writable.
+var ErrNotWritable = errors.New("outguard: output cannot be written")
+
+// Error is a problem Check found. It wraps ErrOntoInput or ErrNotWritable.
+type Error struct {
+	msg  string
+	kind error
+}
+
+func (e *Error) Error() string { return e.msg }
+func (e *Error) Unwrap() error { return e.kind }
+
+func fail(kind error, format string, args ...any) error {
+	return &Error{msg: fmt.Sprintf(format, args...), kind: kind}
+}
+
+// Check returns nil when every output can be written without touching an
+// input or another output. Outputs and inputs with an empty Path are left
+// out. Inputs need not exist (a missing input is the reader's error). The
+// first problem found is returned, wrapping ErrOntoInput or ErrNotWritable;
+// its message names both files and says what to do.
+//
+// Check writes nothing but a probe file in each output's folder, which it
+// removes at once.
+func Check(outputs, inputs []File) error {
+	var ins []resolved
+	for _, in := range inputs {
+		if in.Path != "" {
+			ins = append(ins, resolve(in))
+		}
+	}
+	var outs []resolved
+	for _, out := range outputs {
+		if out.Path == "" {
+			continue
+		}
+		o := resolve(out)
+		if err := o.ontoInput(ins); err != nil {
+			return err
+		}
+		for _, prev := range outs {
+			if o.same(prev) {
+				return fail(ErrOntoInput, "%s %s and %s %s are one file: give each output its own name",
+					prev.Name, prev.Path, o.Name, o.Path)
+			}
+		}
+		if err := writable(out); err != nil {
+			return err
+		}
+		outs = append(outs, o)
+	}
+	return nil
+}
+
+// resolved is a File with what identifies it on disk: the file's own
+// status when it exists (which follows symbolic links), else its absolute
+// path with the links of its folders resolved.
+type resolved struct {
+	File
+	info os.FileInfo // nil when the path does not exist
+	abs  string
+	link os.FileInfo // the output path's own status when it is a symbolic link
+}
+
+func resolve(f File) resolved {
+	r := resolved{File: f, abs: absPath(f.Path)}
+	r.info, _ = os.Stat(f.Path)
+	if li, err := os.Lstat(f.Path); err == nil && li.Mode()&os.ModeSymlink != 0 {
+		r.link = li
+	}
+	return r
+}
+
+// absPath is path made absolute and cleaned, with symbolic links in its
+// folders resolved as far as they exist.
+func absPath(path string) string {
+	abs, err := filepath.Abs(path)
+	if err != nil {
+		return filepath.Clean(path)
+	}
+	dir, base := filepath.Split(abs)
+	if real, err := filepath.EvalSymlinks(dir); err == nil {
+		return filepath.Join(real, base)
+	}
+	return abs
+}
+
+// same reports whether r and o are one file.
+func (r resolved) same(o resolved) bool {
+	if r.info != nil && o.info != nil {
+		return os.SameFile(r.info, o.info)
+	}
+	return r.abs == o.abs
+}
+
+// ontoInput returns the error for an output that is one of ins or lies
+// inside an input folder.
+func (r resolved) ontoInput(ins []resolved) error {
+	for _, in := range ins {
+		var how string
+		switch {
+		case r.link != nil && r.info != nil && in.info != nil && os.SameFile(r.info, in.info):
+			how = "is a symbolic link to"
+		case r.same(in) && r.abs == in.abs:
+			how = "is"
+		case r.same(in):
+			how = "is the same file (through a hard or symbolic link) as"
+		case in.info != nil && in.info.IsDir() && r.inside(in.info):
+			return fail(ErrOntoInput, "%s %s is inside the %s folder %s, and writing there would change the data: "+
+				"telltale never writes onto its inputs: put the output elsewhere", r.Name, r.Path, in.Name, in.Path)
+		default:
+			continue
+		}
+		return fail(ErrOntoInput, "%s %s %s %s %s: telltale never writes onto its inputs: give the output another file name",
+			r.Name, r.Path, how, in.Name, in.Path)
+	}
+	return nil
+}
+
+// inside reports whether r's folder, or one above it, is dir.
+func (r resolved) inside(dir os.FileInfo) bool {
+	for p := filepath.Dir(r.abs); ; p = filepath.Dir(p) {
+		if st, err := os.Stat(p); err == nil && os.SameFile(st, dir) {
+			return true
+		}
+		if parent := filepath.Dir(p); parent == p {
+			return false
+		}
+	}
+}
+
+// writable returns the error for an output that cannot be written: a
+// folder, or a path whose folder is missing or refuses a new file (found by
+// creating and removing a probe file there).
+func writable(f File) error {
+	if st, err := os.Stat(f.Path); err == nil && st.IsDir() {
+		return fail(ErrNotWritable, "%s %s is a folder: give a file name inside it", f.Name, f.Path)
+	}
+	probe, err := os.CreateTemp(filepath.Dir(f.Path), "."+filepath.Base(f.Path)+".check*")
+	if err != nil {
+		return fail(ErrNotWritable, "%s %s cannot be written (%v): check that its folder exists and is writable", f.Name, f.Path, err)
+	}
+	name := probe.Name()
+	probe.Close()
+	return os.Remove(name)
+}

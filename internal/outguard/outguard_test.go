@@ -1,0 +1,109 @@
+package outguard
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// TestCheck: every way of naming an input as an output is refused with
+// ErrOntoInput, and outputs that cannot be written with ErrNotWritable;
+// a fresh file beside the inputs is accepted. (Common practice, no source:
+// file identity is os.SameFile, the device and inode of the file.)
+func TestCheck(t *testing.T) {
+	dir := t.TempDir()
+	data := filepath.Join(dir, "d.csv")
+	os.WriteFile(data, []byte("text,label\n"), 0o644)
+	folder := filepath.Join(dir, "corpus")
+	os.MkdirAll(filepath.Join(folder, "spam"), 0o755)
+	os.Mkdir(filepath.Join(dir, "sub"), 0o755)
+	link := filepath.Join(dir, "link.csv")
+	if err := os.Symlink(data, link); err != nil {
+		t.Fatal(err)
+	}
+	hard := filepath.Join(dir, "hard.csv")
+	if err := os.Link(data, hard); err != nil {
+		t.Fatal(err)
+	}
+	linkedDir := filepath.Join(dir, "linked-dir")
+	if err := os.Symlink(filepath.Join(dir, "sub"), linkedDir); err != nil {
+		t.Fatal(err)
+	}
+	inputs := []File{{"--data", data}, {"--dev", ""}, {"--test", filepath.Join(dir, "missing.csv")}, {"--corpus", folder}}
+	cases := []struct {
+		name    string
+		outputs []File
+		kind    error  // nil: accepted
+		want    string // substring of the message
+	}{
+		{"a new file", []File{{"--out", filepath.Join(dir, "m.tt")}}, nil, ""},
+		{"no output", []File{{"--out", ""}}, nil, ""},
+		{"the same path", []File{{"--out", data}}, ErrOntoInput, "--out " + data + " is --data " + data},
+		{"through ..", []File{{"--out", filepath.Join(dir, "sub", "..", "d.csv")}}, ErrOntoInput, "is --data"},
+		{"relative", []File{{"--out", rel(t, data)}}, ErrOntoInput, "is --data"},
+		{"a symbolic link to it", []File{{"--out", link}}, ErrOntoInput, "is a symbolic link to --data"},
+		{"a hard link to it", []File{{"--out", hard}}, ErrOntoInput, "is the same file (through a hard or symbolic link) as --data"},
+		{"through a linked folder", []File{{"--out", filepath.Join(linkedDir, "..", "d.csv")}}, ErrOntoInput, "--data"},
+		{"a missing input", []File{{"--out", filepath.Join(dir, "missing.csv")}}, ErrOntoInput, "is --test"},
+		{"inside an input folder", []File{{"--out", filepath.Join(folder, "spam", "new.txt")}}, ErrOntoInput, "is inside the --corpus folder"},
+		{"two outputs one file", []File{{"--export", filepath.Join(dir, "a.csv")}, {"--masked-out", filepath.Join(dir, "sub", "..", "a.csv")}}, ErrOntoInput, "are one file"},
+		{"a folder", []File{{"--out", filepath.Join(dir, "sub")}}, ErrNotWritable, "is a folder"},
+		{"a missing folder", []File{{"--out", filepath.Join(dir, "no", "m.tt")}}, ErrNotWritable, "no such file or directory"},
+		{"under a file", []File{{"--out", filepath.Join(data, "m.tt")}}, ErrNotWritable, "not a directory"},
+	}
+	before := list(t, dir)
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			err := Check(c.outputs, inputs)
+			switch {
+			case c.kind == nil && err != nil:
+				t.Fatalf("refused: %v", err)
+			case c.kind != nil && !errors.Is(err, c.kind):
+				t.Fatalf("got %v, want an error wrapping %v", err, c.kind)
+			case c.kind != nil && !strings.Contains(err.Error(), c.want):
+				t.Errorf("message %q lacks %q", err, c.want)
+			}
+		})
+	}
+	if after := list(t, dir); after != before {
+		t.Errorf("Check left files behind:\nbefore %s\nafter  %s", before, after)
+	}
+}
+
+// rel is path relative to the working folder.
+func rel(t *testing.T, path string) string {
+	wd, err := os.Getwd()
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := filepath.Rel(wd, path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return r
+}
+
+func list(t *testing.T, dir string) string {
+	var names []string
+	filepath.Walk(dir, func(p string, _ os.FileInfo, _ error) error {
+		names = append(names, p)
+		return nil
+	})
+	return strings.Join(names, " ")
+}
+
+func ExampleCheck() {
+	dir, _ := os.MkdirTemp("", "outguard")
+	defer os.RemoveAll(dir)
+	data := filepath.Join(dir, "d.csv")
+	os.WriteFile(data, []byte("text,label\n"), 0o644)
+	err := Check([]File{{"--out", dir + "/x/../d.csv"}}, []File{{"--data", data}})
+	fmt.Println(errors.Is(err, ErrOntoInput))
+	fmt.Println(strings.ReplaceAll(err.Error(), dir, "DIR"))
+	// Output:
+	// true
+	// --out DIR/x/../d.csv is --data DIR/d.csv: telltale never writes onto its inputs: give the output another file name
+}

@@ -1,0 +1,169 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"io"
+	"slices"
+	"strings"
+
+	"telltale/corpus"
+)
+
+// maxTextBytesFlag is the largest --max-text-bytes (1 GiB): one record may
+// then hold up to 8 GiB in memory while it is read.
+const maxTextBytesFlag = 1 << 30
+
+// readOptions are how a command reads a data file: the columns, the format,
+// the length limit, and what --mail and --relabel do to the examples.
+// Commands that read texts to label (predict, explain) have no label
+// options.
+type readOptions struct {
+	TextCol, LabelCol string
+	Format            string
+	MaxTextBytes      int
+	Mail              string
+	Relabel           string
+
+	relabel map[string]string
+}
+
+// register adds the reading options; labeled adds --label-col and
+// --relabel.
+func (r *readOptions) register(fs *flag.FlagSet, labeled bool) {
+	fs.StringVar(&r.TextCol, "text-col", "", "name of the text column or field (default: text, or auto-detected)")
+	if labeled {
+		fs.StringVar(&r.LabelCol, "label-col", "", "name of the label column or field (default: label, or auto-detected)")
+	}
+	fs.StringVar(&r.Format, "format", "", "force the input format: csv, tsv, jsonl or dir")
+	intVar(fs, &r.MaxTextBytes, "max-text-bytes", corpus.DefaultMaxTextBytes, "longest text kept, in bytes: longer ones are cut with a warning; a record over 8 times this is an error")
+	fs.StringVar(&r.Mail, "mail", "", "e-mail texts: 'subject-body' keeps the Subject header and the body and drops the other headers")
+	if labeled {
+		fs.StringVar(&r.Relabel, "relabel", "", "map labels before use, e.g. 'easy-ham-1=ham,spam-1=spam' (an empty target drops the label)")
+	}
+}
+
+// check refuses reading options that cannot work.
+func (r *readOptions) check() error {
+	switch r.Format {
+	case "", "csv", "tsv", "jsonl", "dir":
+	default:
+		return usagef("--format %q: use csv, tsv, jsonl or dir", clip(r.Format))
+	}
+	if r.MaxTextBytes < 1 || r.MaxTextBytes > maxTextBytesFlag {
+		return usagef("--max-text-bytes %d: give 1 to %d", r.MaxTextBytes, maxTextBytesFlag)
+	}
+	if r.Mail != "" && r.Mail != "subject-body" {
+		return usagef("--mail %q: the one choice is subject-body", clip(r.Mail))
+	}
+	var err error
+	r.relabel, err = parseRelabel(r.Relabel)
+	return err
+}
+
+func (r *readOptions) corpusOptions(unlabeled bool) corpus.Options {
+	return corpus.Options{TextCol: r.TextCol, LabelCol: r.LabelCol, Format: r.Format, MaxTextBytes: r.MaxTextBytes,
+		ReplaceInvalidUTF8: true, Unlabeled: unlabeled}
+}
+
+// read reads the labeled file at path with --relabel and --mail applied,
+// printing its warnings on warn unless quiet. With strict, every label
+// --relabel names must occur in the file (held-out files may lack some).
+func (r *readOptions) read(path string, strict bool, warn io.Writer, quiet bool) (*corpus.Dataset, error) {
+	ds, warnings, err := corpus.Load(path, r.corpusOptions(false))
+	if !quiet {
+		printWarnings(warn, warnings)
+	}
+	if err != nil {
+		return nil, err
+	}
+	return r.prepare(ds, strict)
+}
+
+// readTexts reads the texts to label at path (labels are kept where the
+// file has them), with --mail applied.
+func (r *readOptions) readTexts(path string, warn io.Writer, quiet bool) (*corpus.Dataset, error) {
+	ds, warnings, err := corpus.Load(path, r.corpusOptions(true))
+	if !quiet {
+		printWarnings(warn, warnings)
+	}
+	if err != nil {
+		return nil, err
+	}
+	return r.prepare(ds, false)
+}
+
+// prepare applies --relabel and --mail to a dataset.
+func (r *readOptions) prepare(ds *corpus.Dataset, strict bool) (*corpus.Dataset, error) {
+	if r.relabel != nil {
+		if strict {
+			for from := range r.relabel {
+				if !slices.Contains(ds.Labels, from) {
+					return nil, usagef("--relabel: %s has no label %q; its labels are %s", ds.Path, clip(from), listed(ds.Labels))
+				}
+			}
+		}
+		ds = ds.Relabel(r.relabel)
+	}
+	if r.Mail == "subject-body" {
+		ds = ds.MapTexts(corpus.SubjectAndBody)
+	}
+	return ds, nil
+}
+
+// example applies --relabel and --mail to one streamed example; keep is
+// false for an example whose label --relabel drops.
+func (r *readOptions) example(e corpus.Example) (out corpus.Example, keep bool) {
+	if to, ok := r.relabel[e.Label]; ok {
+		if to == "" {
+			return e, false
+		}
+		e.Label = to
+	}
+	if r.Mail == "subject-body" {
+		e.Text = corpus.SubjectAndBody(e.Text)
+	}
+	return e, true
+}
+
+func parseRelabel(s string) (map[string]string, error) {
+	items, err := listItems("relabel", s)
+	if err != nil || items == nil {
+		return nil, err
+	}
+	m := map[string]string{}
+	for _, part := range items {
+		from, to, ok := strings.Cut(part, "=")
+		if !ok || strings.TrimSpace(from) == "" {
+			return nil, usagef("--relabel %q: each entry is FROM=TO, separated by commas", clip(s))
+		}
+		m[strings.TrimSpace(from)] = strings.TrimSpace(to)
+	}
+	return m, nil
+}
+
+// printWarnings prints the first warnings and a count of the rest.
+func printWarnings(w io.Writer, warnings []corpus.Warning) {
+	const most = 10
+	for i, x := range warnings {
+		if i == most {
+			fmt.Fprintf(w, "warning: … and %d more warnings\n", len(warnings)-most)
+			break
+		}
+		fmt.Fprintf(w, "warning: %s\n", x)
+	}
+}
+
+// listed is a list of names for a message: at most ten, each clipped.
+func listed(names []string) string {
+	const most = 10
+	parts := make([]string, 0, min(len(names), most)+1)
+	for i, n := range names {
+		if i == most {
+			parts = append(parts, fmt.Sprintf("and %d more", len(names)-most))
+			break
+		}
+		parts = append(parts, clip(n))
+	}
+	return strings.Join(parts, ", ")
+}

@@ -1,0 +1,174 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"io"
+	"path/filepath"
+
+	"telltale/cnn"
+	"telltale/corpus"
+)
+
+// The three splits, one word each everywhere: training, dev (early
+// stopping) and test (the final evaluation, never used for a choice).
+// train and data make them from --data, a file or a share of --data each;
+// the model file records how (cnn.SplitRecord), and the commands that
+// evaluate a saved model find the same test split again from it.
+
+// splitOptions are the dev and test options of train and data.
+type splitOptions struct {
+	Dev, Test         string
+	DevFrac, TestFrac float64
+	Seed              uint64
+}
+
+func (s *splitOptions) register(fs *flag.FlagSet, seedUsage string) {
+	fs.StringVar(&s.Dev, "dev", "", "labeled dev file, for early stopping (default: --dev-frac of --data)")
+	floatVar(fs, &s.DevFrac, "dev-frac", cnn.DefaultDevFrac, "without --dev: share of --data held out as the dev split, stratified by label")
+	fs.StringVar(&s.Test, "test", "", "labeled test file, for the final evaluation (default: --test-frac of --data)")
+	floatVar(fs, &s.TestFrac, "test-frac", cnn.DefaultTestFrac, "without --test: share of --data held out as the test split, stratified by label")
+	seedVar(fs, &s.Seed, "seed", cnn.DefaultRecipe().Train.Seed, seedUsage)
+}
+
+// check refuses a file and a share for one split, shares outside (0, 1),
+// and shares that leave nothing to train on.
+func (s *splitOptions) check(fs *flag.FlagSet) error {
+	for _, p := range []struct{ file, frac, given string }{{"dev", "dev-frac", s.Dev}, {"test", "test-frac", s.Test}} {
+		if p.given != "" && isSet(fs, p.frac) {
+			return usagef("give --%s FILE or --%s, not both", p.file, p.frac)
+		}
+	}
+	if s.Dev == "" {
+		if err := checkShare("dev-frac", s.DevFrac, "of --data to hold out for early stopping"); err != nil {
+			return err
+		}
+	}
+	if s.Test == "" {
+		if err := checkShare("test-frac", s.TestFrac, "of --data to hold out for the final evaluation"); err != nil {
+			return err
+		}
+	}
+	if s.Dev == "" && s.Test == "" && s.DevFrac+s.TestFrac >= 1 {
+		return usagef("--dev-frac %g and --test-frac %g hold out %.0f%% of --data: together they must stay below 1, leaving texts to train on",
+			s.DevFrac, s.TestFrac, 100*(s.DevFrac+s.TestFrac))
+	}
+	return nil
+}
+
+// splits are the three splits of a run and the record of how they were
+// made.
+type splits struct {
+	all              *corpus.Dataset // all of --data
+	train, dev, test *corpus.Dataset
+	record           cnn.SplitRecord
+}
+
+// load reads data (and the dev and test files) and makes the three splits.
+func (s *splitOptions) load(data string, r *readOptions, warn io.Writer, quiet bool) (*splits, error) {
+	all, err := r.read(data, true, warn, quiet)
+	if err != nil {
+		return nil, err
+	}
+	devFrac, testFrac := s.DevFrac, s.TestFrac
+	if s.Dev != "" {
+		devFrac = 0
+	}
+	if s.Test != "" {
+		testFrac = 0
+	}
+	sp := &splits{all: all}
+	sp.train, sp.dev, sp.test = all.SplitThree(devFrac, testFrac, s.Seed)
+	if s.Dev != "" {
+		if sp.dev, err = r.read(s.Dev, false, warn, quiet); err != nil {
+			return nil, err
+		}
+	}
+	if s.Test != "" {
+		if sp.test, err = r.read(s.Test, false, warn, quiet); err != nil {
+			return nil, err
+		}
+	}
+	sp.record = cnn.SplitRecord{Data: data, DataAbs: absPath(data), DevFile: absPath(s.Dev), TestFile: absPath(s.Test),
+		DevFrac: devFrac, TestFrac: testFrac, Seed: s.Seed, Examples: len(all.Examples), Fingerprint: all.Fingerprint(),
+		Train: len(sp.train.Examples), Dev: len(sp.dev.Examples), Test: len(sp.test.Examples)}
+	return sp, nil
+}
+
+// absPath is path made absolute ("" stays "").
+func absPath(path string) string {
+	if path == "" {
+		return ""
+	}
+	if abs, err := filepath.Abs(path); err == nil {
+		return abs
+	}
+	return path
+}
+
+// evalSet is what a command that evaluates a saved model works on.
+type evalSet struct {
+	train *corpus.Dataset // the training split of --data (all of it when the model's split is not found); nil without --data
+	test  *corpus.Dataset // the texts to evaluate on
+	name  string          // "test", or "all" when that is all of --data
+	note  string          // where the texts come from, for the user
+}
+
+// findTestSplit finds the texts to evaluate model m on. With test (a file),
+// those. Else, when data is the data the model was trained on (the same
+// examples: cnn.SplitRecord.Fingerprint), the test split train held out of
+// it or the test file train was given; with other data, or a model that
+// does not record its splits, all of data, with a note that it may include
+// texts the model was trained on.
+func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writer, quiet bool) (*evalSet, error) {
+	if data == "" && test == "" {
+		return nil, usagef("--data or --test is required: labeled texts to evaluate the model on")
+	}
+	es := &evalSet{name: "test"}
+	var all *corpus.Dataset
+	var err error
+	if data != "" {
+		if all, err = r.read(data, true, warn, quiet); err != nil {
+			return nil, err
+		}
+	}
+	rec := m.Info.Splits
+	same := all != nil && rec != nil && rec.Examples == len(all.Examples) && rec.Fingerprint == all.Fingerprint()
+	if same {
+		es.train, _, es.test = all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
+	}
+	switch {
+	case test != "":
+		if es.test, err = r.read(test, false, warn, quiet); err != nil {
+			return nil, err
+		}
+		es.note = fmt.Sprintf("evaluating on the test file %s (%d texts)", test, len(es.test.Examples))
+	case same && rec.TestFile != "":
+		if es.test, err = r.read(rec.TestFile, false, warn, quiet); err != nil {
+			return nil, fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
+		}
+		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%d texts)", rec.TestFile, len(es.test.Examples))
+	case same:
+		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%d texts), never used for training or to choose the epoch",
+			data, 100*rec.TestFrac, rec.Seed, len(es.test.Examples))
+	case rec == nil:
+		es.test, es.name = all, "all"
+		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %d texts of %s, which may include texts the model was trained on",
+			len(all.Examples), data)
+	default:
+		es.test, es.name = all, "all"
+		es.note = fmt.Sprintf("%s is not the data the model was trained on (%s): evaluating on all %d of its texts, which may include texts the model was trained on",
+			data, rec.Data, len(all.Examples))
+	}
+	if es.train == nil {
+		es.train = all
+	}
+	return es, nil
+}
+
+// say prints a note on w unless quiet.
+func say(w io.Writer, quiet bool, format string, args ...any) {
+	if !quiet {
+		fmt.Fprintf(w, "note: "+format+"\n", args...)
+	}
+}

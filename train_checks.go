@@ -1,0 +1,118 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"strings"
+
+	"telltale/corpus"
+	"telltale/explain"
+)
+
+// checkData refuses, before training, data that would give a useless
+// model: labels that look like texts (more distinct labels than half the
+// examples, as when the text and label columns are swapped) and an empty
+// dev split, unless --force; dev or test labels the training split lacks;
+// an empty vocabulary; and a model too large for the machine's memory. It
+// warns of an empty test split.
+func (o *trainOptions) checkData(sp *splits, w io.Writer) error {
+	all := sp.all
+	if n, k := len(all.Examples), len(all.Labels); k > 2 && 2*k > n && !o.force {
+		return fmt.Errorf("%s: %d distinct labels among %d examples, fewer than two examples per label: the label column looks like text; "+
+			"check that --text-col and --label-col name the right columns, or pass --force to train anyway", o.data, k, n)
+	}
+	if len(sp.dev.Examples) == 0 && !o.force {
+		return fmt.Errorf("the dev split is empty: --dev-frac %g of %s holds out no text of any label (too few examples per label); "+
+			"raise --dev-frac, give a dev file with --dev, or pass --force to train every epoch without early stopping", o.split.DevFrac, o.data)
+	}
+	if len(sp.test.Examples) == 0 && !o.quiet {
+		fmt.Fprintf(w, "warning: the test split is empty: --test-frac %g of %s holds out no text of any label; the model will have no test figures: raise --test-frac or give a test file with --test\n",
+			o.split.TestFrac, o.data)
+	}
+	for _, held := range []*corpus.Dataset{sp.dev, sp.test} {
+		if _, err := held.LabelIndex(sp.train.Labels); err != nil {
+			return err
+		}
+	}
+	return o.checkVocabulary(sp)
+}
+
+// checkVocabulary tokenizes the training split as training will and
+// refuses an empty vocabulary and a model too large for memory.
+func (o *trainOptions) checkVocabulary(sp *splits) error {
+	cfg := o.recipe.tokenizerConfig()
+	cfg.Subword = false // the word vocabulary; pieces are added to it later
+	tok, err := corpus.NewTokenizer(cfg)
+	if err != nil {
+		return err
+	}
+	counts := map[string]int{}
+	longest := 1
+	for _, e := range sp.train.Examples {
+		toks := tok.Tokenize(e.Text)
+		longest = max(longest, len(toks))
+		for _, t := range toks {
+			counts[t.Text]++
+		}
+	}
+	words, top := 0, 0
+	for _, c := range counts {
+		top = max(top, c)
+		if c >= o.recipe.MinCount {
+			words++
+		}
+	}
+	if words == 0 && !o.recipe.Subword {
+		return fmt.Errorf("the vocabulary is empty: no word occurs %d times in the training split (the most frequent occurs %d times): lower --min-count",
+			o.recipe.MinCount, top)
+	}
+	vocab := 2 + words
+	if o.recipe.Subword {
+		vocab += 2000 // the default number of subword pieces (corpus.TokenizerConfig.SubwordSize)
+	}
+	return o.recipe.checkSize(vocab, len(sp.train.Labels), longest, o.threads.N)
+}
+
+// maskTrainingText takes the cue tokens or patterns listed in file out of
+// every training text and returns the masked copy. It says how many
+// matches were taken out, and warns of a plain-token line that looks like
+// a regular expression and matches nothing (the slashes were forgotten).
+func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet bool) (*corpus.Dataset, error) {
+	cm, err := explain.LoadCueMasker(file)
+	if err != nil {
+		return nil, err
+	}
+	out := *train
+	out.Examples = make([]corpus.Example, len(train.Examples))
+	total := 0
+	for i, e := range train.Examples {
+		var n int
+		e.Text, n = cm.Mask(e.Text)
+		total += n
+		out.Examples[i] = e
+	}
+	if quiet {
+		return &out, nil
+	}
+	fmt.Fprintf(w, "mask-tokens: %d matches of the patterns in %s taken out of the training text\n", total, file)
+	for _, p := range cm.Patterns() {
+		if strings.HasPrefix(p, "/") || !strings.ContainsAny(p, `\[]{}()*+?|^$`) {
+			continue
+		}
+		if one, err := explain.MaskTokens([]string{p}); err == nil && !matchesAny(one, train) {
+			fmt.Fprintf(w, "warning: %s: the pattern %q matches nothing: without slashes it is a plain token, not a regular expression; write /%s/ for one\n",
+				file, clip(p), clip(p))
+		}
+	}
+	return &out, nil
+}
+
+// matchesAny reports whether cm matches in any text of d.
+func matchesAny(cm *explain.CueMasker, d *corpus.Dataset) bool {
+	for _, e := range d.Examples {
+		if _, n := cm.Mask(e.Text); n > 0 {
+			return true
+		}
+	}
+	return false
+}
