@@ -9,8 +9,18 @@ import (
 	"strings"
 
 	"telltale/cnn"
+	"telltale/internal/outguard"
 	"telltale/torchmodel"
 )
+
+var cmdExport = &command{
+	Name:      "export",
+	UsageLine: exportUsage,
+	Short:     exportShort,
+	Long:      exportLong,
+	Options:   func() options { return new(exportOptions) },
+	Run:       runAs(runExport),
+}
 
 // Help of export, for its entry in the command table.
 const (
@@ -33,12 +43,41 @@ type exportOptions struct {
 	Quiet bool
 }
 
-// registerExportFlags registers the options of export on fs.
-func registerExportFlags(fs *flag.FlagSet, o *exportOptions) {
+func (o *exportOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.Model, "model", "", "model file written by train or import")
 	fs.StringVar(&o.Out, "out", "", "folder to write state_dict.npz, vocab.txt and labels.txt into (made if missing)")
 	fs.BoolVar(&o.JSON, "json", false, "print a summary as one JSON object")
 	fs.BoolVar(&o.Quiet, "quiet", false, "print nothing but errors (and --json output)")
+}
+
+func (o *exportOptions) check(*flag.FlagSet, *runEnv) error {
+	switch {
+	case o.Model == "":
+		return usagef("--model is required: the telltale model file to export")
+	case o.Out == "":
+		return usagef("--out is required: the folder to write the files into, e.g. --out exported")
+	}
+	if st, err := os.Stat(o.Out); err == nil && !st.IsDir() {
+		// Said first when the file is the model: the worse mistake.
+		if err := outguard.Check([]outguard.File{{Name: "--out", Path: o.Out}}, []outguard.File{{Name: "--model", Path: o.Model}}); err != nil {
+			return usageError{err.Error()}
+		}
+		return usagef("--out %s is a file: give a folder (it is made if missing)", o.Out)
+	}
+	return requireInputs([]outguard.File{{Name: "--model", Path: o.Model}})
+}
+
+// files lists the files export writes inside --out, or --out itself while
+// that folder does not exist yet (then its own folder must be writable).
+func (o *exportOptions) files() (outputs, inputs []outguard.File) {
+	inputs = []outguard.File{{Name: "--model", Path: o.Model}}
+	if st, err := os.Stat(o.Out); err != nil || !st.IsDir() {
+		return []outguard.File{{Name: "--out", Path: o.Out}}, inputs
+	}
+	for _, f := range []string{torchmodel.WeightsFile, torchmodel.VocabFile, torchmodel.LabelsFile, torchmodel.TokenizerFile} {
+		outputs = append(outputs, outguard.File{Name: "--out's " + f, Path: filepath.Join(o.Out, f)})
+	}
+	return outputs, inputs
 }
 
 // exportSummary is what export prints.
@@ -54,35 +93,13 @@ type exportSummary struct {
 // the PyTorch module of the README, with its vocabulary and labels. The
 // paths are checked before any work: the model must be readable, the
 // folder writable, and no file written may be the model file.
-func runExport(ctx context.Context, env *runEnv, o exportOptions) error {
-	switch {
-	case o.Model == "":
-		return usagef("--model is required: the telltale model file to export")
-	case o.Out == "":
-		return usagef("--out is required: the folder to write the files into, e.g. --out exported")
-	}
-	if st, err := os.Stat(o.Out); err == nil && !st.IsDir() {
-		return fmt.Errorf("--out %s is a file: give a folder (it is made if missing)", o.Out)
-	}
-	outputs := map[string]string{}
-	for _, f := range []string{torchmodel.WeightsFile, torchmodel.VocabFile, torchmodel.LabelsFile, torchmodel.TokenizerFile} {
-		outputs["--out "+f] = filepath.Join(o.Out, f)
-	}
-	if err := checkPaths(outputs, map[string]string{"--model": o.Model}); err != nil {
-		return err
-	}
-	if err := ctx.Err(); err != nil {
-		return err
-	}
+func runExport(ctx context.Context, env *runEnv, o *exportOptions) error {
 	m, err := cnn.Load(o.Model)
 	if err != nil {
 		return err
 	}
 	if err := os.MkdirAll(o.Out, 0o755); err != nil {
 		return fmt.Errorf("--out %s: %w", o.Out, err)
-	}
-	if err := checkOutPath(filepath.Join(o.Out, torchmodel.WeightsFile)); err != nil {
-		return err
 	}
 	if err := torchmodel.Export(m, o.Out); err != nil {
 		return err

@@ -2,18 +2,28 @@ package main
 
 import (
 	"context"
+	"errors"
 	"flag"
 	"fmt"
 	"os"
 	"path/filepath"
-	"slices"
 	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/outguard"
 	"telltale/torchmodel"
 	"telltale/torchmodel/npy"
 )
+
+var cmdImport = &command{
+	Name:      "import",
+	UsageLine: importUsage,
+	Short:     importShort,
+	Long:      importLong,
+	Options:   func() options { return new(importOptions) },
+	Run:       runAs(runImport),
+}
 
 // Help of import, for its entry in the command table.
 const (
@@ -65,10 +75,12 @@ type importOptions struct {
 	Out         string // the telltale model file to write
 	JSON        bool
 	Quiet       bool
+
+	layout torchmodel.Layout // from Embeddings, Convs and Output
+	labels []string          // from Labels
 }
 
-// registerImportFlags registers the options of import on fs.
-func registerImportFlags(fs *flag.FlagSet, o *importOptions) {
+func (o *importOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.StateDict, "state-dict", "", "the file torch.save wrote (model.state_dict(), or a checkpoint holding it), or an .npz of named arrays")
 	fs.StringVar(&o.Entry, "entry", "", "the checkpoint entry that holds the state_dict, e.g. model_state_dict (default: found)")
 	fs.StringVar(&o.Vocab, "vocab", "", "the vocabulary: a .json object of token → id, or a file with one token per line (id = line number from 0)")
@@ -90,6 +102,64 @@ func registerImportFlags(fs *flag.FlagSet, o *importOptions) {
 	fs.BoolVar(&o.Quiet, "quiet", false, "print nothing but errors (and --json output)")
 }
 
+// check refuses missing or contradictory options before any work.
+func (o *importOptions) check(*flag.FlagSet, *runEnv) error {
+	switch {
+	case o.StateDict == "":
+		return usagef("--state-dict is required: the file torch.save wrote, e.g. --state-dict model.pt")
+	case o.Vocab == "":
+		return usagef("--vocab is required: the vocabulary the model was trained with (JSON token → id, or one token per line)")
+	case o.Out == "":
+		return usagef("--out is required: where to write the telltale model, e.g. --out model.tt")
+	case (o.Labels == "") == (o.LabelsFile == ""):
+		return usagef("give the label names in output order with exactly one of --labels a,b or --labels-file FILE")
+	case o.PadID < -1 || o.UnkID < -1:
+		return usagef("--pad-id and --unk-id are ids (0 or more), or -1 to find them by name")
+	case (o.CheckTexts == "") != (o.CheckLogits == ""):
+		return usagef("--check-texts and --check-logits go together: the texts and the original model's logits on them")
+	case o.Tokenizer != "" && (o.KeepForm || !o.Lower):
+		return usagef("--tokenizer replaces the built-in rule: --lower and --keep-form do not apply to it")
+	}
+	var err error
+	o.layout.Output = strings.TrimSpace(o.Output)
+	if o.layout.Embeddings, err = listItems("embedding-keys", o.Embeddings); err != nil {
+		return err
+	}
+	if o.layout.Convs, err = listItems("conv-keys", o.Convs); err != nil {
+		return err
+	}
+	if !o.layout.IsZero() && !o.layout.Complete() {
+		return usagef("a layout names all parts: give --embedding-keys, --conv-keys and --output-key together")
+	}
+	if o.labels, err = listItems("labels", o.Labels); err != nil {
+		return err
+	}
+	_, inputs := o.files()
+	return requireInputs(inputs)
+}
+
+// requireInputs fails, naming the option, when a given input file is
+// missing or unreadable, so that nothing starts with an input that is not
+// there.
+func requireInputs(inputs []outguard.File) error {
+	for _, in := range inputs {
+		if in.Path == "" {
+			continue
+		}
+		if _, err := os.Stat(in.Path); err != nil {
+			return fmt.Errorf("%s %s: %w", in.Name, in.Path, errors.Unwrap(err))
+		}
+	}
+	return nil
+}
+
+func (o *importOptions) files() (outputs, inputs []outguard.File) {
+	return []outguard.File{{Name: "--out", Path: o.Out}},
+		[]outguard.File{{Name: "--state-dict", Path: o.StateDict}, {Name: "--vocab", Path: o.Vocab},
+			{Name: "--labels-file", Path: o.LabelsFile}, {Name: "--tokenizer", Path: o.Tokenizer},
+			{Name: "--check-texts", Path: o.CheckTexts}, {Name: "--check-logits", Path: o.CheckLogits}}
+}
+
 // importSummary is what import prints.
 type importSummary struct {
 	Model     string   `json:"model"`
@@ -109,36 +179,8 @@ type importSummary struct {
 // runImport reads a sentence CNN trained in PyTorch and writes it as a
 // telltale model file. Every path is checked before any work: the inputs
 // must be readable, the output writable and no output may be an input.
-func runImport(ctx context.Context, env *runEnv, o importOptions) error {
-	switch {
-	case o.StateDict == "":
-		return usagef("--state-dict is required: the file torch.save wrote, e.g. --state-dict model.pt")
-	case o.Vocab == "":
-		return usagef("--vocab is required: the vocabulary the model was trained with (JSON token → id, or one token per line)")
-	case o.Out == "":
-		return usagef("--out is required: where to write the telltale model, e.g. --out model.tt")
-	case (o.Labels == "") == (o.LabelsFile == ""):
-		return usagef("give the label names in output order with exactly one of --labels a,b or --labels-file FILE")
-	case o.PadID < -1 || o.UnkID < -1:
-		return usagef("--pad-id and --unk-id are ids (0 or more), or -1 to find them by name")
-	case (o.CheckTexts == "") != (o.CheckLogits == ""):
-		return usagef("--check-texts and --check-logits go together: the texts and the original model's logits on them")
-	case o.Tokenizer != "" && (o.KeepForm || !o.Lower):
-		return usagef("--tokenizer replaces the built-in rule: --lower and --keep-form do not apply to it")
-	}
-	layout := torchmodel.Layout{Embeddings: splitList(o.Embeddings), Convs: splitList(o.Convs), Output: strings.TrimSpace(o.Output)}
-	if !layout.IsZero() && !layout.Complete() {
-		return usagef("a layout names all parts: give --embedding-keys, --conv-keys and --output-key together")
-	}
-	inputs := map[string]string{"--state-dict": o.StateDict, "--vocab": o.Vocab, "--labels-file": o.LabelsFile, "--tokenizer": o.Tokenizer,
-		"--check-texts": o.CheckTexts, "--check-logits": o.CheckLogits}
-	if err := checkPaths(map[string]string{"--out": o.Out}, inputs); err != nil {
-		return err
-	}
-	if err := checkOutPath(o.Out); err != nil {
-		return err
-	}
-	labels := splitList(o.Labels)
+func runImport(ctx context.Context, env *runEnv, o *importOptions) error {
+	labels := o.labels
 	if o.LabelsFile != "" {
 		var err error
 		if labels, err = torchmodel.ReadLabels(o.LabelsFile); err != nil {
@@ -150,7 +192,7 @@ func runImport(ctx context.Context, env *runEnv, o importOptions) error {
 		tcfg.Lower = false
 	}
 	bar := newProgressBar(env.Stderr, o.Quiet || o.JSON)
-	res, err := torchmodel.Import(ctx, torchmodel.Options{StateDict: o.StateDict, Entry: o.Entry, Layout: layout,
+	res, err := torchmodel.Import(ctx, torchmodel.Options{StateDict: o.StateDict, Entry: o.Entry, Layout: o.layout,
 		Vocab: o.Vocab, PadID: o.PadID, UnkID: o.UnkID, ZeroPad: o.ZeroPad, Labels: labels, Tokenizer: tcfg,
 		Progress: func(done, total int64) { bar.show(int(done>>20), int(total>>20), "reading tensors (MiB)", false) }})
 	bar.done()
@@ -190,7 +232,7 @@ func runImport(ctx context.Context, env *runEnv, o importOptions) error {
 // checkImported compares the imported model's logits with the original
 // model's on the texts of --check-texts and records the result in the
 // model's notes; a mismatch is an error (nothing is written).
-func checkImported(m *cnn.Model, o importOptions) error {
+func checkImported(m *cnn.Model, o *importOptions) error {
 	raw, err := os.ReadFile(o.CheckTexts)
 	if err != nil {
 		return fmt.Errorf("--check-texts: %w", err)
@@ -244,57 +286,4 @@ func describeTokenizer(c corpus.TokenizerConfig) string {
 		parts = append(parts, "NFKC-normalized")
 	}
 	return strings.Join(parts, ", ")
-}
-
-// checkPaths fails when an output names the same file as an input (after
-// resolving symbolic links), naming both options. Inputs that are not
-// given ("") are skipped; inputs must exist.
-func checkPaths(outputs, inputs map[string]string) error {
-	type seen struct {
-		flag, path string
-		info       os.FileInfo
-	}
-	var ins []seen
-	for _, f := range sortedKeys(inputs) {
-		p := inputs[f]
-		if p == "" {
-			continue
-		}
-		info, err := statResolved(p)
-		if err != nil {
-			return fmt.Errorf("%s %s: %w", f, p, err)
-		}
-		ins = append(ins, seen{f, p, info})
-	}
-	for _, f := range sortedKeys(outputs) {
-		p := outputs[f]
-		info, err := statResolved(p)
-		if err != nil {
-			continue // not there yet: it cannot be an input
-		}
-		for _, in := range ins {
-			if os.SameFile(info, in.info) {
-				return fmt.Errorf("%s %s is the same file as %s %s: it would be overwritten; write to another file", f, p, in.flag, in.path)
-			}
-		}
-	}
-	return nil
-}
-
-// statResolved resolves every symbolic link in p, then stats the result.
-func statResolved(p string) (os.FileInfo, error) {
-	r, err := filepath.EvalSymlinks(p)
-	if err != nil {
-		return nil, err
-	}
-	return os.Stat(r)
-}
-
-func sortedKeys(m map[string]string) []string {
-	keys := make([]string, 0, len(m))
-	for k := range m {
-		keys = append(keys, k)
-	}
-	slices.Sort(keys)
-	return keys
 }

@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -32,9 +33,8 @@ func exportedModel(t *testing.T) (string, string) {
 		t.Fatal(err)
 	}
 	out := filepath.Join(dir, "exported")
-	var stdout, stderr bytes.Buffer
-	if err := runExport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, exportOptions{Model: model, Out: out}); err != nil {
-		t.Fatal(err)
+	if code, _, stderr := runCmd(t, "", "export", "--model", model, "--out", out); code != 0 {
+		t.Fatalf("export: exit %d\n%s", code, stderr)
 	}
 	for _, f := range []string{torchmodel.WeightsFile, torchmodel.VocabFile, torchmodel.LabelsFile} {
 		if _, err := os.Stat(filepath.Join(out, f)); err != nil {
@@ -44,20 +44,35 @@ func exportedModel(t *testing.T) (string, string) {
 	return model, out
 }
 
+// importArgs is the command line of an import with o's options.
+func importArgs(o importOptions) []string {
+	args := []string{"import", "--state-dict", o.StateDict, "--vocab", o.Vocab, "--out", o.Out}
+	for _, kv := range [][2]string{{"--labels", o.Labels}, {"--labels-file", o.LabelsFile},
+		{"--check-texts", o.CheckTexts}, {"--check-logits", o.CheckLogits}} {
+		if kv[1] != "" {
+			args = append(args, kv[0], kv[1])
+		}
+	}
+	if o.JSON {
+		args = append(args, "--json")
+	}
+	return args
+}
+
 // An exported model imported again is a model file every command reads:
 // explain runs on it, and its Info records where it came from.
 func TestImportCommand(t *testing.T) {
 	_, exp := exportedModel(t)
 	out := filepath.Join(t.TempDir(), "imported.tt")
-	var stdout, stderr bytes.Buffer
 	o := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
-		LabelsFile: filepath.Join(exp, torchmodel.LabelsFile), PadID: -1, UnkID: -1, Lower: true, Out: out, JSON: true}
-	if err := runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o); err != nil {
-		t.Fatal(err)
+		LabelsFile: filepath.Join(exp, torchmodel.LabelsFile), Out: out, JSON: true}
+	code, stdout, stderr := runCmd(t, "", importArgs(o)...)
+	if code != 0 {
+		t.Fatalf("import: exit %d\n%s", code, stderr)
 	}
 	var s importSummary
-	if err := json.Unmarshal(stdout.Bytes(), &s); err != nil || s.Vocab != 6 || s.Format != "npz" {
-		t.Fatalf("summary %s: %v", stdout.String(), err)
+	if err := json.Unmarshal([]byte(stdout), &s); err != nil || s.Vocab != 6 || s.Format != "npz" {
+		t.Fatalf("summary %s: %v", stdout, err)
 	}
 	m, err := cnn.Load(out)
 	if err != nil {
@@ -87,30 +102,30 @@ func TestImportCommandWritesNothingOnBadInput(t *testing.T) {
 	short := filepath.Join(dir, "short.txt")
 	os.WriteFile(short, []byte("<pad>\n<unk>\nfree\n"), 0o644)
 	good := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: vocab, Labels: "ham,spam",
-		PadID: -1, UnkID: -1, Lower: true, Out: filepath.Join(dir, "out.tt")}
+		Out: filepath.Join(dir, "out.tt")}
 	cases := []struct {
 		name string
 		edit func(*importOptions)
+		code int
 		says []string
 	}{
-		{"vocabulary size", func(o *importOptions) { o.Vocab = short }, []string{"short.txt", "embedding.weight"}},
-		{"labels", func(o *importOptions) { o.Labels = "a,b,c" }, []string{"3 labels", "output.weight"}},
-		{"out is the vocabulary", func(o *importOptions) { o.Out = vocab }, []string{"--out", "--vocab", "same file"}},
-		{"out links to the vocabulary", func(o *importOptions) { o.Out = link }, []string{"link.tt", "--vocab", "same file"}},
-		{"missing state_dict", func(o *importOptions) { o.StateDict = filepath.Join(dir, "none.pt") }, []string{"--state-dict", "none.pt"}},
+		{"vocabulary size", func(o *importOptions) { o.Vocab = short }, 1, []string{"short.txt", "embedding.weight"}},
+		{"labels", func(o *importOptions) { o.Labels = "a,b,c" }, 1, []string{"3 labels", "output.weight"}},
+		{"out is the vocabulary", func(o *importOptions) { o.Out = vocab }, 2, []string{"--out", "--vocab", "never writes onto its inputs"}},
+		{"out links to the vocabulary", func(o *importOptions) { o.Out = link }, 2, []string{"link.tt", "symbolic link to --vocab"}},
+		{"missing state_dict", func(o *importOptions) { o.StateDict = filepath.Join(dir, "none.pt") }, 1, []string{"--state-dict", "none.pt"}},
 	}
 	for _, c := range cases {
 		o := good
 		c.edit(&o)
-		var stdout, stderr bytes.Buffer
-		err := runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o)
-		if err == nil {
-			t.Errorf("%s: no error", c.name)
+		code, _, stderr := runCmd(t, "", importArgs(o)...)
+		if code != c.code {
+			t.Errorf("%s: exit %d, want %d\n%s", c.name, code, c.code, stderr)
 			continue
 		}
 		for _, s := range c.says {
-			if !strings.Contains(err.Error(), s) {
-				t.Errorf("%s: %v\ndoes not say %q", c.name, err, s)
+			if !strings.Contains(stderr, s) {
+				t.Errorf("%s: %s\ndoes not say %q", c.name, stderr, s)
 			}
 		}
 		if _, err := os.Stat(good.Out); err == nil {
@@ -131,10 +146,9 @@ func TestExportCommandRefusesOverwritingTheModel(t *testing.T) {
 	if err := os.Symlink(model, filepath.Join(out, torchmodel.VocabFile)); err != nil {
 		t.Fatal(err)
 	}
-	var stdout, stderr bytes.Buffer
-	err := runExport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, exportOptions{Model: model, Out: out})
-	if err == nil || !strings.Contains(err.Error(), "same file as --model") {
-		t.Fatalf("%v, want a refusal naming --model", err)
+	code, _, stderr := runCmd(t, "", "export", "--model", model, "--out", out)
+	if code != 2 || !strings.Contains(stderr, "symbolic link to --model") {
+		t.Fatalf("exit %d: %s, want a refusal naming --model", code, stderr)
 	}
 	if after, _ := os.ReadFile(model); !bytes.Equal(after, before) {
 		t.Fatal("the model file changed")
@@ -173,9 +187,8 @@ func TestImportCommandCheck(t *testing.T) {
 	o := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
 		Labels: "ham,spam", PadID: -1, UnkID: -1, Lower: true, CheckTexts: filepath.Join(dir, "texts.txt"),
 		CheckLogits: writeLogits("good.npy", logits), Out: filepath.Join(dir, "checked.tt")}
-	var stdout, stderr bytes.Buffer
-	if err := runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o); err != nil {
-		t.Fatal(err)
+	if code, _, stderr := runCmd(t, "", importArgs(o)...); code != 0 {
+		t.Fatalf("import: exit %d\n%s", code, stderr)
 	}
 	m, err := cnn.Load(o.Out)
 	if err != nil || !strings.Contains(m.Info.Notes["origin_check"], "logits of 3 texts") {
@@ -184,7 +197,10 @@ func TestImportCommandCheck(t *testing.T) {
 	bad := append([]float32(nil), logits...)
 	bad[3] += 0.01
 	o.CheckLogits, o.Out = writeLogits("bad.npy", bad), filepath.Join(dir, "bad.tt")
-	err = runImport(context.Background(), &runEnv{Stdout: &stdout, Stderr: &stderr}, o)
+	if err := o.check(nil, nil); err != nil {
+		t.Fatal(err)
+	}
+	err = runImport(context.Background(), &runEnv{Stdout: io.Discard, Stderr: io.Discard}, &o)
 	if !errors.Is(err, torchmodel.ErrMismatch) || !strings.Contains(err.Error(), "texts.txt line 2") {
 		t.Fatalf("%v, want ErrMismatch naming line 2", err)
 	}
@@ -211,11 +227,10 @@ func TestImportedModelInEveryCommand(t *testing.T) {
 		t.Fatal(err)
 	}
 	out := filepath.Join(t.TempDir(), "imported.tt")
-	var so, se bytes.Buffer
 	o := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
-		LabelsFile: filepath.Join(exp, torchmodel.LabelsFile), PadID: -1, UnkID: -1, Lower: true, Out: out}
-	if err := runImport(context.Background(), &runEnv{Stdout: &so, Stderr: &se}, o); err != nil {
-		t.Fatal(err)
+		LabelsFile: filepath.Join(exp, torchmodel.LabelsFile), Out: out}
+	if code, _, stderr := runCmd(t, "", importArgs(o)...); code != 0 {
+		t.Fatalf("import: exit %d\n%s", code, stderr)
 	}
 	for _, args := range [][]string{
 		{"predict", "--model", out, "--text", "free money"},
@@ -228,7 +243,7 @@ func TestImportedModelInEveryCommand(t *testing.T) {
 			t.Errorf("%s on the imported model: exit %d\n%s", args[0], code, stderr)
 		}
 	}
-	if err := runExport(context.Background(), &runEnv{Stdout: &so, Stderr: &se}, exportOptions{Model: out, Out: filepath.Join(t.TempDir(), "x")}); err != nil {
-		t.Errorf("export of the imported model: %v", err)
+	if code, _, stderr := runCmd(t, "", "export", "--model", out, "--out", filepath.Join(t.TempDir(), "x")); code != 0 {
+		t.Errorf("export of the imported model: exit %d\n%s", code, stderr)
 	}
 }

@@ -28,6 +28,8 @@ var guardCommands = []guardCommand{
 	{"audit", []string{"--export", "--masked-out"}, []string{"--model", "--data", "--test"}, nil},
 	{"mask", []string{"--out"}, []string{"--model", "--data", "--test"}, []string{"--filters", "0"}},
 	{"report", []string{"--out"}, []string{"--model", "--data", "--test"}, nil},
+	{"import", []string{"--out"}, []string{"--state-dict", "--vocab", "--labels-file", "--tokenizer", "--check-texts", "--check-logits"}, nil},
+	{"export", []string{"--out"}, []string{"--model"}, nil},
 }
 
 // guardInputs are the contents of the input files, by option.
@@ -50,7 +52,10 @@ func guardInputs(t *testing.T) map[string][]byte {
 		t.Fatal(err)
 	}
 	return map[string][]byte{"--data": data, "--dev": two, "--test": two, "--model": model,
-		"--vectors": []byte("ferry 0.1 0.2 0.3 0.4\n"), "--tokenizer": tok, "--mask-tokens": []byte("/TKREF-[0-9]{5}/\n")}
+		"--vectors": []byte("ferry 0.1 0.2 0.3 0.4\n"), "--tokenizer": tok, "--mask-tokens": []byte("/TKREF-[0-9]{5}/\n"),
+		// import's inputs: the guard refuses before any of them is read.
+		"--state-dict": []byte("PK not a real state_dict"), "--vocab": []byte("<pad>\n<unk>\nferry\n"),
+		"--labels-file": []byte("a\nb\n"), "--check-texts": []byte("ferry\n"), "--check-logits": []byte("not read")}
 }
 
 // aliases are the ways an output can name an input file p in dir: the

@@ -41,6 +41,8 @@ var commands = []*command{
 	cmdAudit,
 	cmdMask,
 	cmdCompare,
+	cmdImport,
+	cmdExport,
 	cmdReport,
 	cmdGUI,
 	cmdVersion,
