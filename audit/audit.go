@@ -1,0 +1,619 @@
+package audit
+
+import (
+	"cmp"
+	"context"
+	"fmt"
+	"math/rand/v2"
+	"runtime"
+	"slices"
+	"strings"
+
+	"telltale/cnn"
+	"telltale/explain"
+)
+
+// Options controls Run. Zero values select the defaults noted.
+type Options struct {
+	// Test is TestFisher (default) or TestBinomial; Correction is CorrectBH
+	// (default) or CorrectBonferroni, over every word × class tested; Alpha
+	// is the level of the correction (default 0.01); MinSupport the fewest
+	// training texts a word or cue must occur in to be tested (default 5).
+	Test       string
+	Correction string
+	Alpha      float64
+	MinSupport int
+	// Agreement is the least share of a word's occurrences its phrase must
+	// keep while it grows (default 0.8); MaxSeeds bounds the associated
+	// words grown into phrases (default 300).
+	Agreement float64
+	MaxSeeds  int
+	// Measured bounds the cues whose reliance is measured (default 40: the
+	// most associated half and the most artifact-like half of them, and
+	// every marked artifact).
+	Measured int
+	// Draws is the number of seeded edits per text (default 4); MaxTexts
+	// the most texts edited per cue and half (default 300); Bootstrap the
+	// resamples of every interval (default 1000); RelianceAlpha the level
+	// of the reliance tests, Benjamini–Hochberg over the cues measured
+	// (default 0.05).
+	Draws         int
+	MaxTexts      int
+	Bootstrap     int
+	RelianceAlpha float64
+	// MaxHeldout bounds the held-out texts used (a seeded, stratified
+	// sample; default 20,000), which bounds memory; MinHalf is the fewest
+	// texts each half must have (default 30).
+	MaxHeldout int
+	MinHalf    int
+	// Top is the number of cues listed in each list (default 15);
+	// Examples the quoted texts per cue (default 2).
+	Top      int
+	Examples int
+	// Marks are a person's verdicts (nil: none).
+	Marks *Marks
+	// ModelFile, TrainFile and HeldoutFile name the files in the commands
+	// the story suggests.
+	ModelFile, TrainFile, HeldoutFile string
+	// Seed seeds the halves, the edits and the bootstrap.
+	Seed uint64
+	// Workers is the number of goroutines (0: GOMAXPROCS); TableBytes
+	// bounds the slot table (0: explain.DefaultTableBytes).
+	Workers    int
+	TableBytes int64
+}
+
+func (o *Options) defaults() {
+	def := func(v *int, d int) {
+		if *v <= 0 {
+			*v = d
+		}
+	}
+	deff := func(v *float64, d float64) {
+		if *v <= 0 || *v >= 1 {
+			*v = d
+		}
+	}
+	if o.Test == "" {
+		o.Test = TestFisher
+	}
+	if o.Correction == "" {
+		o.Correction = CorrectBH
+	}
+	deff(&o.Alpha, 0.01)
+	def(&o.MinSupport, 5)
+	deff(&o.Agreement, 0.8)
+	def(&o.MaxSeeds, 300)
+	def(&o.Measured, 40)
+	def(&o.Draws, 4)
+	def(&o.MaxTexts, 300)
+	def(&o.Bootstrap, 1000)
+	deff(&o.RelianceAlpha, 0.05)
+	def(&o.MaxHeldout, 20000)
+	def(&o.MinHalf, 30)
+	def(&o.Top, 15)
+	def(&o.Examples, 2)
+	if o.Workers <= 0 {
+		o.Workers = runtime.GOMAXPROCS(0)
+	}
+}
+
+// check reports an option that cannot be used.
+func (o *Options) check() error {
+	if o.Test != TestFisher && o.Test != TestBinomial {
+		return fmt.Errorf("audit: test %q: use %s or %s: %w", o.Test, TestFisher, TestBinomial, ErrInput)
+	}
+	if o.Correction != CorrectBH && o.Correction != CorrectBonferroni {
+		return fmt.Errorf("audit: correction %q: use %s or %s: %w", o.Correction, CorrectBH, CorrectBonferroni, ErrInput)
+	}
+	return nil
+}
+
+// Progress is called during Run with the stage ("association", "phrases",
+// "held-out", "reliance", "confirmation", "action"), the items done and
+// the total. It may be called from several goroutines.
+type Progress func(stage string, done, total int)
+
+// The verdicts of a cue (Candidate.Verdict).
+const (
+	// VerdictActed: artifact-like, the model relies on it on the selection
+	// half, and the confirmation half confirms it: the action removes it.
+	VerdictActed = "acted-on"
+	// VerdictUnconfirmed: artifact-like and relied on in the selection
+	// half, but the confirmation half does not confirm the reliance.
+	VerdictUnconfirmed = "unconfirmed"
+	// VerdictNotRelied: artifact-like but the model does not measurably
+	// rely on it.
+	VerdictNotRelied = "not-relied-on"
+	// VerdictTask: relied on, reads like the task (or marked task): listed
+	// apart for a person to judge, never acted on.
+	VerdictTask = "reads-like-the-task"
+	// VerdictOther: associated with a label, not artifact-like, not
+	// measurably relied on.
+	VerdictOther = "other"
+	// VerdictUnmeasured: associated, but too rare in the held-out split to
+	// measure (or beyond Options.Measured).
+	VerdictUnmeasured = "not-measured"
+)
+
+// Candidate is a cue: a word or a phrase that predicts a label in the
+// training split, with the evidence of the three questions.
+type Candidate struct {
+	// Words are the cue's words as the model reads them (NumberWord for any
+	// number), Text the same joined by spaces (how marks name it), Surface
+	// its most common form in the original text.
+	Words   []string `json:"words"`
+	Text    string   `json:"text"`
+	Surface string   `json:"surface,omitempty"`
+	// Label is the label it predicts; Seeds the associated words it grew
+	// from (empty for a cue only a mark names).
+	Label string   `json:"label"`
+	Class int      `json:"class"`
+	Seeds []string `json:"grown_from,omitempty"`
+	// Association is question 1, on the training split.
+	Association CueAssociation `json:"association"`
+	// ArtifactLikeness (question 3, ArtifactFormula) and its signals.
+	ArtifactLikeness float64  `json:"artifact_likeness"`
+	Signals          []Signal `json:"signals"`
+	// Reliance is question 2 on the selection half (it ranks the cue);
+	// Confirmed the same on the confirmation half (every figure a person
+	// reads about a listed cue comes from there).
+	Reliance  *Reliance `json:"reliance_selection,omitempty"`
+	Confirmed *Reliance `json:"reliance,omitempty"`
+	// RelianceQ is the Benjamini–Hochberg adjusted p-value of the
+	// selection half's sign test over the cues measured.
+	RelianceQ float64 `json:"reliance_q"`
+	// Shift is question 4: the cue's label share in the held-out split.
+	Shift *Shift `json:"shift,omitempty"`
+	// Filters keyed on it, with their ablation.
+	Filters *Filters `json:"filters,omitempty"`
+	// Score = LabelDrop (selection half, at least 0) × ArtifactLikeness.
+	Score   float64 `json:"score"`
+	Mark    string  `json:"mark,omitempty"`
+	Verdict string  `json:"verdict"`
+	// Pattern takes the cue out of raw text (corpus.MaskTokens).
+	Pattern string `json:"pattern"`
+
+	phrase   phrase
+	trainOcc []span
+	selOcc   []span
+	confOcc  []span
+}
+
+// CueAssociation is a cue's association with its label in the training
+// split, by texts.
+type CueAssociation struct {
+	Texts    int     `json:"texts"`
+	InLabel  int     `json:"in_label"`
+	Share    float64 `json:"share"`
+	PerClass []int   `json:"per_class"`
+	// P is the exact one-sided p-value (Result.Test) of the cue's texts in
+	// its label; Adjusted the same corrected over every word × class
+	// tested (Result.Correction).
+	P        float64 `json:"p"`
+	Adjusted float64 `json:"adjusted_p"`
+}
+
+// Shift compares a cue's label share in the held-out split with training.
+type Shift struct {
+	HeldoutTexts int     `json:"heldout_texts"`
+	HeldoutShare float64 `json:"heldout_share"`
+	TrainShare   float64 `json:"train_share"`
+	// P is the two-sided Fisher exact test of the 2×2 table split × (in
+	// the cue's label or not) over the texts holding it.
+	P float64 `json:"p"`
+	// Present: P < 0.01 and the held-out share is lower.
+	Present bool `json:"present"`
+}
+
+// Result is the audit of one model.
+type Result struct {
+	Labels            []string `json:"labels"`
+	TrainTexts        int      `json:"train_texts"`
+	HeldoutTexts      int      `json:"heldout_texts"`
+	SelectionTexts    int      `json:"selection_texts"`
+	ConfirmationTexts int      `json:"confirmation_texts"`
+	// Test, Correction, Alpha, Tests and Cutoff describe question 1: Tests
+	// word × class tests, corrected; a cue passes when its p ≤ Cutoff.
+	Test       string  `json:"test"`
+	Correction string  `json:"correction"`
+	Alpha      float64 `json:"alpha"`
+	Tests      int     `json:"tests"`
+	Cutoff     float64 `json:"cutoff"`
+	MinSupport int     `json:"min_support"`
+	// Associated is how many cues pass the gate; Measured how many had
+	// their reliance measured.
+	Associated int `json:"associated"`
+	Measured   int `json:"measured"`
+	// Ranked are the artifact-like cues (artifact-likeness ≥
+	// ArtifactThreshold, or marked artifact), highest Score first.
+	Ranked []Candidate `json:"ranked"`
+	// Task are the cues the model relies on that read like the task (or
+	// are marked task), most relied on first.
+	Task []Candidate `json:"relied_on_reads_like_the_task"`
+	// Others are the remaining associated cues, most associated first.
+	Others []Candidate `json:"others,omitempty"`
+	// Action is what to do; its cues are the Ranked ones acted on.
+	Action          Action `json:"action"`
+	ArtifactFormula string `json:"artifact_formula"`
+	ScoreFormula    string `json:"score_formula"`
+	ModelFile       string `json:"model_file,omitempty"`
+	TrainFile       string `json:"train_file,omitempty"`
+	HeldoutFile     string `json:"heldout_file,omitempty"`
+}
+
+// ScoreFormula states how a cue is ranked.
+const ScoreFormula = "score = reliance × artifact-likeness, for cues that pass the association gate; reliance is the " +
+	"mean drop of the probability of the cue's label when the cue is replaced by label-neutral words, " +
+	"less the drop when the same words are put elsewhere (selection half, at least 0)"
+
+// auditor holds what Run computes along the way.
+type auditor struct {
+	m        *cnn.Model
+	opt      Options
+	train    Data
+	sel      Data
+	conf     Data
+	vocab    []string
+	labels   []string
+	assoc    *association
+	st       *explain.SlotTable
+	selBase  *basePass
+	confBase *basePass
+	neutral  []int32
+	progress Progress
+}
+
+// Run audits model m: train is the split it was trained on, heldout a
+// split it was not trained on (the dev or test split, shifted or not).
+// Nothing is written. Progress may be nil; Run returns ctx.Err() when
+// cancelled.
+//
+// The held-out split is divided once, stratified by label and seeded, into
+// a selection half, on which the cues are ranked, chosen and their filters
+// found, and a confirmation half, on which every reliance figure shown,
+// the accuracy without the cues and the test of a filter mask are measured:
+// so every printed p-value and interval is valid for what it describes.
+func Run(ctx context.Context, m *cnn.Model, train, heldout Data, opt Options, progress Progress) (*Result, error) {
+	opt.defaults()
+	if err := opt.check(); err != nil {
+		return nil, err
+	}
+	if progress == nil {
+		progress = func(string, int, int) {}
+	}
+	if err := m.Config.Validate(); err != nil {
+		return nil, fmt.Errorf("audit: %w", err)
+	}
+	if len(m.Vocab) != m.Config.VocabSize {
+		return nil, fmt.Errorf("audit: the model holds %d vocabulary words for %d embedding rows: the audit needs its words; retrain it with telltale train: %w",
+			len(m.Vocab), m.Config.VocabSize, ErrInput)
+	}
+	if err := train.check(m, "training"); err != nil {
+		return nil, err
+	}
+	if err := heldout.check(m, "held-out"); err != nil {
+		return nil, err
+	}
+	if train.Len() < 2*opt.MinSupport {
+		return nil, fmt.Errorf("audit: the %s has %d texts: too few for a test of association (at least %d): %w",
+			train.name("training"), train.Len(), 2*opt.MinSupport, ErrInput)
+	}
+	a := &auditor{m: m, opt: opt, train: train, vocab: m.Vocab, labels: m.Labels, progress: progress}
+	if err := a.halves(heldout); err != nil {
+		return nil, err
+	}
+	progress("association", 0, 1)
+	a.assoc = associate(train, m.Config.Classes, m.Config.VocabSize, opt.Test, opt.Correction, opt.Alpha, opt.MinSupport)
+	progress("association", 1, 1)
+	cands, err := a.candidates(ctx)
+	if err != nil {
+		return nil, err
+	}
+	if err := a.heldoutPasses(ctx, cands); err != nil {
+		return nil, err
+	}
+	measured, err := a.measure(ctx, cands)
+	if err != nil {
+		return nil, err
+	}
+	res := a.result(cands, measured)
+	if err := a.confirm(ctx, res); err != nil {
+		return nil, err
+	}
+	if err := a.act(ctx, res); err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+// halves samples the held-out split to at most MaxHeldout texts and
+// divides it into the selection and confirmation halves, stratified by
+// label.
+func (a *auditor) halves(heldout Data) error {
+	r := rand.New(rand.NewPCG(a.opt.Seed, 0x5eed))
+	byClass := make([][]int, a.m.Config.Classes)
+	for i, g := range heldout.Gold {
+		byClass[g] = append(byClass[g], i)
+	}
+	keep := float64(min(heldout.Len(), a.opt.MaxHeldout)) / float64(max(1, heldout.Len()))
+	var sel, conf []int
+	for _, idx := range byClass {
+		r.Shuffle(len(idx), func(x, y int) { idx[x], idx[y] = idx[y], idx[x] })
+		idx = idx[:int(float64(len(idx))*keep+0.5)]
+		h := len(idx) / 2
+		if len(idx)%2 == 1 && r.IntN(2) == 0 {
+			h++
+		}
+		sel = append(sel, idx[:h]...)
+		conf = append(conf, idx[h:]...)
+	}
+	slices.Sort(sel)
+	slices.Sort(conf)
+	if len(sel) < a.opt.MinHalf || len(conf) < a.opt.MinHalf {
+		return fmt.Errorf("audit: the %s has %d texts: too few for the tests, which need %d in each of its two halves; give a larger held-out file: %w",
+			heldout.name("held-out"), heldout.Len(), a.opt.MinHalf, ErrInput)
+	}
+	a.sel, a.conf = heldout.subset(sel), heldout.subset(conf)
+	return nil
+}
+
+// candidates grows the associated words into phrases, adds the marked
+// cues, finds their training occurrences and keeps those that pass the
+// association gate, with their artifact signals.
+func (a *auditor) candidates(ctx context.Context) ([]*Candidate, error) {
+	opt := a.opt
+	a.progress("phrases", 0, 1)
+	// Seeds: the associated words, most associated first.
+	var seeds []int32
+	seen := map[int32]bool{}
+	for _, w := range a.assoc.significant {
+		if !seen[w.id] && len(seeds) < opt.MaxSeeds {
+			seen[w.id] = true
+			seeds = append(seeds, w.id)
+		}
+	}
+	const maxSamples = 3000
+	occ := make(map[int32][]span, len(seeds))
+	for i, text := range a.train.IDs {
+		for j, id := range text {
+			if seen[id] && len(occ[id]) < maxSamples {
+				occ[id] = append(occ[id], span{int32(i), int32(j), int32(j + 1)})
+			}
+		}
+	}
+	var phrases []phrase
+	from := map[string][]string{}
+	index := map[string]int{}
+	add := func(p phrase, seed string) {
+		k := p.key()
+		if _, ok := index[k]; !ok {
+			index[k] = len(phrases)
+			phrases = append(phrases, p)
+		}
+		if seed != "" && !slices.Contains(from[k], seed) {
+			from[k] = append(from[k], seed)
+		}
+	}
+	for n, id := range seeds {
+		if n%32 == 0 {
+			if err := ctx.Err(); err != nil {
+				return nil, err
+			}
+		}
+		add(grow(a.train, a.vocab, id, occ[id], growOptions{agreement: opt.Agreement, maxLen: 40}), a.vocab[id])
+	}
+	// Marked cues are candidates whatever their association.
+	wordID := map[string]int32{}
+	for id, w := range a.vocab {
+		if _, ok := wordID[w]; !ok {
+			wordID[w] = int32(id)
+		}
+	}
+	for _, kind := range []string{MarkArtifact, MarkTask} {
+		for _, ws := range opt.Marks.Cues(kind) {
+			p := make(phrase, len(ws))
+			for i, w := range ws {
+				if w == NumberWord {
+					p[i] = anyNumber
+					continue
+				}
+				id, ok := wordID[w]
+				if !ok {
+					return nil, fmt.Errorf("audit: the marked cue %q holds %q, which is not a word of the model's vocabulary: mark the cue as the audit shows it: %w",
+						strings.Join(ws, " "), w, ErrInput)
+				}
+				p[i] = id
+			}
+			add(p, "")
+		}
+	}
+	mt := newMatcher(phrases, a.vocab)
+	occs := mt.occurrences(a.train)
+	a.progress("phrases", 1, 1)
+	var out []*Candidate
+	C := a.m.Config.Classes
+	for k, p := range phrases {
+		words := p.words(a.vocab)
+		mark := opt.Marks.Get(words)
+		docs := texts(occs[k])
+		per := make([]int, C)
+		for _, i := range docs {
+			per[a.train.Gold[i]]++
+		}
+		class, pv := a.assoc.best(per)
+		if mark == "" && (len(docs) < opt.MinSupport || pv > a.assoc.cutoff) {
+			continue
+		}
+		c := &Candidate{Words: words, Text: strings.Join(words, " "), Class: class, Label: a.labels[class], Seeds: from[p.key()],
+			Mark: mark, Pattern: pattern(words), phrase: p, trainOcc: occs[k]}
+		c.Association = CueAssociation{Texts: len(docs), InLabel: per[class], PerClass: per, P: pv,
+			Adjusted: a.assoc.adjusted(pv, len(p) == 1 && len(c.Seeds) > 0)}
+		if len(docs) > 0 {
+			c.Association.Share = float64(per[class]) / float64(len(docs))
+		}
+		c.Signals = trainingSignals(a.train, a.vocab, occs[k], len(p), per[class], len(docs))
+		c.Surface = surface(a.train, a.vocab, p, occs[k])
+		out = append(out, c)
+	}
+	return out, nil
+}
+
+// surface is the most common original form of the occurrences of p, the
+// digits of its number elements written as '#', or the words joined when
+// the text is unknown.
+func surface(d Data, vocab []string, p phrase, occ []span) string {
+	count := map[string]int{}
+	step := max(1, len(occ)/maxSignalSamples)
+	for k := 0; k < len(occ); k += step {
+		s := occ[k]
+		var form string
+		if d.Tokens == nil {
+			form = strings.Join(p.words(vocab), " ")
+		} else {
+			i, toks := int(s.text), d.Tokens[s.text]
+			var b strings.Builder
+			for j := int(s.start); j < int(s.end); j++ {
+				if j > int(s.start) {
+					b.WriteString(d.Texts[i][toks[j-1].End:toks[j].Start])
+				}
+				w := d.Texts[i][toks[j].Start:toks[j].End]
+				if p[j-int(s.start)] == anyNumber {
+					w = strings.Repeat("#", len(w))
+				}
+				b.WriteString(w)
+			}
+			form = b.String()
+		}
+		count[form]++
+	}
+	best := ""
+	for s, n := range count {
+		if n > count[best] || n == count[best] && s < best {
+			best = s
+		}
+	}
+	return best
+}
+
+// heldoutPasses builds the slot table, runs both halves once, finds every
+// candidate's occurrences there and measures the shift.
+func (a *auditor) heldoutPasses(ctx context.Context, cands []*Candidate) error {
+	a.progress("held-out", 0, 2)
+	count := make([]int, a.m.Config.VocabSize)
+	for _, d := range []Data{a.sel, a.conf} {
+		for _, t := range d.IDs {
+			for _, id := range t {
+				count[id]++
+			}
+		}
+	}
+	var ws []int32
+	for id, n := range count {
+		if n > 0 {
+			ws = append(ws, int32(id))
+		}
+	}
+	// Neutral words are edited in: table them too.
+	a.neutral = a.neutralWords(cands)
+	ws = append(ws, a.neutral...)
+	slices.SortStableFunc(ws, func(x, y int32) int { return cmp.Compare(count[y], count[x]) })
+	st, err := explain.NewSlotTable(a.m, explain.TableOptions{Words: slices.Compact(ws), MaxBytes: a.opt.TableBytes, Workers: a.opt.Workers})
+	if err != nil {
+		return err
+	}
+	a.st = st
+	C, nf := a.m.Config.Classes, a.m.Config.NumFilters()
+	if a.selBase, err = runBase(ctx, st, a.sel, C, nf, a.opt.Workers); err != nil {
+		return err
+	}
+	a.progress("held-out", 1, 2)
+	if a.confBase, err = runBase(ctx, st, a.conf, C, nf, a.opt.Workers); err != nil {
+		return err
+	}
+	phrases := make([]phrase, len(cands))
+	for k, c := range cands {
+		phrases[k] = c.phrase
+	}
+	mt := newMatcher(phrases, a.vocab)
+	selOcc, confOcc := mt.occurrences(a.sel), mt.occurrences(a.conf)
+	for k, c := range cands {
+		c.selOcc, c.confOcc = selOcc[k], confOcc[k]
+		a.shift(c)
+		c.ArtifactLikeness = artifactScore(c.Signals)
+		if c.Mark == MarkArtifact {
+			c.ArtifactLikeness = 1
+		}
+	}
+	a.progress("held-out", 2, 2)
+	return nil
+}
+
+// shift compares the cue's label share in both halves together with
+// training and adds the shift signal.
+func (a *auditor) shift(c *Candidate) {
+	in, n := 0, 0
+	for _, part := range []struct {
+		d   Data
+		occ []span
+	}{{a.sel, c.selOcc}, {a.conf, c.confOcc}} {
+		for _, i := range texts(part.occ) {
+			n++
+			if part.d.Gold[i] == c.Class {
+				in++
+			}
+		}
+	}
+	s := &Shift{HeldoutTexts: n, TrainShare: c.Association.Share}
+	if n > 0 {
+		s.HeldoutShare = float64(in) / float64(n)
+		ta := c.Association
+		s.P = FisherTwoSided(ta.InLabel, ta.Texts-ta.InLabel, in, n-in)
+		s.Present = s.P < 0.01 && s.HeldoutShare < s.TrainShare
+	}
+	c.Shift = s
+	v, says := 0.0, "its label share is the same in the held-out texts"
+	switch {
+	case n == 0:
+		says = "it does not occur in the held-out texts"
+	case s.Present:
+		v = min(1, (s.TrainShare-s.HeldoutShare)/max(1e-9, s.TrainShare-1/float64(a.m.Config.Classes)))
+		says = fmt.Sprintf("in %s of its held-out texts the label is %s, against %s in training (Fisher p = %s)",
+			pct(s.HeldoutShare), c.Label, pct(s.TrainShare), pval(s.P))
+	}
+	c.Signals = append(c.Signals, Signal{Name: SignalShift, Value: max(0, v), Weight: signalWeights[SignalShift], Says: says})
+}
+
+// neutralWords are the label-neutral words edits put in: words in at least
+// max(20, MinSupport) training texts whose every one-sided p-value is at
+// least 0.25, made of letters only and in no candidate, the 50 most common.
+func (a *auditor) neutralWords(cands []*Candidate) []int32 {
+	inCand := map[int32]bool{}
+	for _, c := range cands {
+		for _, id := range c.phrase {
+			inCand[id] = true
+		}
+	}
+	var ws []int32
+	for id, w := range a.vocab {
+		if int(a.assoc.count[id]) < max(20, a.opt.MinSupport) || a.assoc.minP[id] < 0.25 || inCand[int32(id)] ||
+			!onlyLetters(w) {
+			continue
+		}
+		ws = append(ws, int32(id))
+	}
+	slices.SortStableFunc(ws, func(x, y int32) int { return cmp.Compare(a.assoc.count[y], a.assoc.count[x]) })
+	return ws[:min(len(ws), 50)]
+}
+
+func onlyLetters(w string) bool {
+	if w == "" {
+		return false
+	}
+	for _, r := range w {
+		if !(r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' || r > 127 && !isPunct(string(r))) {
+			return false
+		}
+	}
+	return true
+}
