@@ -31,7 +31,7 @@ const (
 // splits is strong evidence by itself.
 var signalWeights = map[string]float64{
 	SignalEdge: 0.6, SignalLine: 0.6, SignalSpan: 0.25, SignalContext: 0.15, SignalCode: 0.8, SignalNumber: 0.3,
-	SignalAddress: 0.7, SignalMarkup: 0.6, SignalCasing: 0.5, SignalPurity: 0.5, SignalShift: 0.8,
+	SignalAddress: 0.7, SignalMarkup: 0.6, SignalCasing: 0.5, SignalPurity: 0.4, SignalShift: 0.8,
 }
 
 // signalOrder is the order signals are listed in.
@@ -41,7 +41,7 @@ var signalOrder = []string{SignalEdge, SignalLine, SignalSpan, SignalContext, Si
 // ArtifactFormula states how Candidate.ArtifactLikeness is made.
 const ArtifactFormula = "artifact-likeness = 1 − Π (1 − weight × value) over the signals, each value in [0, 1] " +
 	"(the share of the cue's training occurrences that show it, or a graded measure), weights: edge 0.6, line 0.6, " +
-	"span 0.25, context 0.15, code 0.8, number 0.3, address 0.7, markup 0.6, casing 0.5, purity 0.5, shift 0.8"
+	"span 0.25, context 0.15, code 0.8, number 0.3, address 0.7, markup 0.6, casing 0.5, purity 0.4, shift 0.8"
 
 // ArtifactThreshold is the artifact-likeness at or above which a cue reads
 // like how the data was collected rather than like the task.
@@ -322,7 +322,7 @@ func trainingSignals(d Data, vocab []string, occ []span, length int, inLabel, te
 		}
 		if o.known {
 			known++
-			surfaces[o.surface]++
+			surfaces[maskDigits(o.surface)]++
 		}
 	}
 	share := func(k int) float64 { return float64(k) / float64(max(1, n)) }
@@ -347,22 +347,33 @@ func trainingSignals(d Data, vocab []string, occ []span, length int, inLabel, te
 		where, edge = "end", share(end)
 	}
 	sig := []Signal{
-		{Name: SignalEdge, Value: overHalf(edge), Says: "at the very " + where + " of the text in " + pct(edge) + " of its occurrences"},
-		{Name: SignalLine, Value: overHalf(share(line)), Says: "a whole line of its own in " + pct(share(line)) + " of its occurrences"},
-		{Name: SignalSpan, Value: min(1, float64(length-1)/9), Says: plural(length, "word") + " always written together"},
+		{Name: SignalEdge, Value: overHalf(edge), Says: "it sits at the very " + where + " of the text in " + pct(edge) + " of its occurrences"},
+		{Name: SignalLine, Value: overHalf(share(line)), Says: "it is a whole line of its own in " + pct(share(line)) + " of its occurrences"},
+		{Name: SignalSpan, Value: min(1, float64(length-1)/9), Says: "its " + plural(length, "word") + " always come together"},
 		{Name: SignalContext, Value: fixed, Says: "the words next to it are " + sameness(fixed)},
-		{Name: SignalCode, Value: share(code), Says: "an identifier with digits in " + pct(share(code)) + " of its occurrences"},
-		{Name: SignalNumber, Value: share(number), Says: "only numbers or dates in " + pct(share(number)) + " of its occurrences"},
-		{Name: SignalAddress, Value: share(address), Says: "a web or e-mail address in " + pct(share(address)) + " of its occurrences"},
-		{Name: SignalMarkup, Value: share(markup), Says: "markup or a run of the same mark in " + pct(share(markup)) + " of its occurrences"},
+		{Name: SignalCode, Value: share(code), Says: "it is an identifier with digits in " + pct(share(code)) + " of its occurrences"},
+		{Name: SignalNumber, Value: share(number), Says: "it is only numbers or dates in " + pct(share(number)) + " of its occurrences"},
+		{Name: SignalAddress, Value: share(address), Says: "it is part of a web or e-mail address in " + pct(share(address)) + " of its occurrences"},
+		{Name: SignalMarkup, Value: share(markup), Says: "it holds markup or a run of the same mark in " + pct(share(markup)) + " of its occurrences"},
 		{Name: SignalCasing, Value: casing, Says: casingSays(top, casing)},
-		{Name: SignalPurity, Value: purity, Says: "in one label in " + pct(float64(inLabel)/float64(max(1, texts))) + " of " + plural(texts, "training text") +
+		{Name: SignalPurity, Value: purity, Says: "it is in one label in " + pct(float64(inLabel)/float64(max(1, texts))) + " of its " + plural(texts, "training text") +
 			" (at least " + pct(lo) + " with 95% confidence)"},
 	}
 	for i := range sig {
 		sig[i].Weight = signalWeights[sig[i].Name]
 	}
 	return sig
+}
+
+// maskDigits writes every digit as '#', so that stamps with varying
+// numbers share one surface.
+func maskDigits(s string) string {
+	return strings.Map(func(r rune) rune {
+		if unicode.IsDigit(r) {
+			return '#'
+		}
+		return r
+	}, s)
 }
 
 // overHalf maps a share to [0, 1], 0 up to one half.
@@ -380,9 +391,9 @@ func sameness(fixed float64) string {
 
 func casingSays(top string, v float64) string {
 	if v == 0 {
-		return "no unusual casing"
+		return "it has no unusual casing"
 	}
-	return "written '" + oneLine(top, 60) + "' in " + pct(v) + " of its occurrences"
+	return "it is written '" + oneLine(top, 60) + "' in " + pct(v) + " of its occurrences"
 }
 
 // oneLine writes s on one line, cut to at most n runes with an ellipsis.

@@ -32,8 +32,8 @@ type Options struct {
 	// most associated half and the most artifact-like half of them, and
 	// every marked artifact).
 	Measured int
-	// Draws is the number of seeded edits per text (default 4); MaxTexts
-	// the most texts edited per cue and half (default 300); Bootstrap the
+	// Draws is the number of seeded edits per text (default 3); MaxTexts
+	// the most texts edited per cue and half (default 200); Bootstrap the
 	// resamples of every interval (default 1000); RelianceAlpha the level
 	// of the reliance tests, Benjamini–Hochberg over the cues measured
 	// (default 0.05).
@@ -85,8 +85,8 @@ func (o *Options) defaults() {
 	deff(&o.Agreement, 0.8)
 	def(&o.MaxSeeds, 300)
 	def(&o.Measured, 40)
-	def(&o.Draws, 4)
-	def(&o.MaxTexts, 300)
+	def(&o.Draws, 3)
+	def(&o.MaxTexts, 200)
 	def(&o.Bootstrap, 1000)
 	deff(&o.RelianceAlpha, 0.05)
 	def(&o.MaxHeldout, 20000)
@@ -117,10 +117,12 @@ type Progress func(stage string, done, total int)
 // The verdicts of a cue (Candidate.Verdict).
 const (
 	// VerdictActed: artifact-like, the model relies on it on the selection
-	// half, and the confirmation half confirms it: the action removes it.
+	// half, and the confirmation half confirms it, where replacing it
+	// changes predictions beyond the control: the action removes it.
 	VerdictActed = "acted-on"
 	// VerdictUnconfirmed: artifact-like and relied on in the selection
-	// half, but the confirmation half does not confirm the reliance.
+	// half, but the confirmation half does not confirm that replacing it
+	// lowers its label's probability and changes predictions.
 	VerdictUnconfirmed = "unconfirmed"
 	// VerdictNotRelied: artifact-like but the model does not measurably
 	// rely on it.
@@ -240,6 +242,10 @@ type Result struct {
 	ModelFile       string `json:"model_file,omitempty"`
 	TrainFile       string `json:"train_file,omitempty"`
 	HeldoutFile     string `json:"heldout_file,omitempty"`
+	// Selection and Confirmation are the indexes of the held-out texts in
+	// each half (the confirmation half is the counterfactual split's).
+	Selection    []int `json:"-"`
+	Confirmation []int `json:"-"`
 }
 
 // ScoreFormula states how a cue is ranked.
@@ -258,6 +264,8 @@ type auditor struct {
 	labels   []string
 	assoc    *association
 	st       *explain.SlotTable
+	selIdx   []int
+	confIdx  []int
 	selBase  *basePass
 	confBase *basePass
 	neutral  []int32
@@ -355,6 +363,7 @@ func (a *auditor) halves(heldout Data) error {
 			heldout.name("held-out"), heldout.Len(), a.opt.MinHalf, ErrInput)
 	}
 	a.sel, a.conf = heldout.subset(sel), heldout.subset(conf)
+	a.selIdx, a.confIdx = sel, conf
 	return nil
 }
 
@@ -578,7 +587,7 @@ func (a *auditor) shift(c *Candidate) {
 		says = "it does not occur in the held-out texts"
 	case s.Present:
 		v = min(1, (s.TrainShare-s.HeldoutShare)/max(1e-9, s.TrainShare-1/float64(a.m.Config.Classes)))
-		says = fmt.Sprintf("in %s of its held-out texts the label is %s, against %s in training (Fisher p = %s)",
+		says = fmt.Sprintf("only %s of the held-out texts holding it are %s, against %s in training (Fisher p = %s)",
 			pct(s.HeldoutShare), c.Label, pct(s.TrainShare), pval(s.P))
 	}
 	c.Signals = append(c.Signals, Signal{Name: SignalShift, Value: max(0, v), Weight: signalWeights[SignalShift], Says: says})

@@ -11,7 +11,8 @@ import (
 // does. Keyed filters are found on the selection half: a filter is keyed
 // on the cue when its winning window (the one max-pooling keeps) lies on
 // an occurrence of the cue in at least half of the texts holding it, and it
-// votes for the cue's label more than for any other. Ablation is measured
+// votes for the cue's label more than for any other; the 20 whose votes
+// weigh most are kept. Ablation is measured
 // on the confirmation half, which took no part in finding them.
 type Filters struct {
 	Keyed    []int     `json:"keyed"`
@@ -36,6 +37,9 @@ type Ablation struct {
 	CueTexts   int `json:"cue_texts"`
 	CueFlipped int `json:"cue_flipped"`
 }
+
+// maxKeyed bounds the keyed filters kept per cue, strongest first.
+const maxKeyed = 20
 
 // keyedFilters finds the filters keyed on a cue of label class with
 // occurrences occ in the half whose base pass is b.
@@ -95,6 +99,7 @@ func keyedFilters(m *cnn.Model, b *basePass, occ []span, class int) []int {
 		}
 		return cmp.Compare(x.g, y.g)
 	})
+	out = out[:min(len(out), maxKeyed)]
 	gs := make([]int, len(out))
 	for i, k := range out {
 		gs[i] = k.g

@@ -92,7 +92,7 @@ func (a *auditor) result(cands, measured []*Candidate) *Result {
 		Alpha: a.opt.Alpha, Tests: a.assoc.tests, Cutoff: a.assoc.cutoff, MinSupport: a.opt.MinSupport,
 		Associated: len(cands), Measured: len(measured), ArtifactFormula: ArtifactFormula, ScoreFormula: ScoreFormula,
 		ModelFile: a.opt.ModelFile, TrainFile: a.opt.TrainFile, HeldoutFile: a.opt.HeldoutFile,
-		Ranked: []Candidate{}, Task: []Candidate{}}
+		Ranked: []Candidate{}, Task: []Candidate{}, Selection: a.selIdx, Confirmation: a.confIdx}
 	var ranked, task, others []*Candidate
 	for _, c := range cands {
 		if c.Reliance != nil {
@@ -161,6 +161,11 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 		}
 	}
 	a.progress("confirmation", total, total)
+	// The cues put to the test: artifact-like and relied on in the
+	// selection half. On the confirmation half each must lower its label's
+	// probability (the sign test, Benjamini–Hochberg over the cues put to
+	// the test) and change predictions beyond the control (the 95%
+	// interval of the net flip rate above 0).
 	var put []int
 	for k := range res.Ranked {
 		if res.Ranked[k].Verdict == VerdictUnconfirmed {
@@ -173,7 +178,7 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	}
 	for i, q := range BenjaminiHochberg(ps) {
 		c := &res.Ranked[put[i]]
-		if q <= a.opt.RelianceAlpha && c.Confirmed.LabelDrop.Estimate > 0 && c.Confirmed.Measured > 0 {
+		if q <= a.opt.RelianceAlpha && c.Confirmed.LabelDrop.Estimate > 0 && c.Confirmed.NetFlipRate.Low > 0 {
 			c.Verdict = VerdictActed
 		}
 	}

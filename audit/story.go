@@ -133,7 +133,7 @@ func (c *Candidate) why() string {
 	if len(says) == 0 {
 		return "its signals together pass the threshold"
 	}
-	return "it is " + strings.Join(says, "; ")
+	return strings.Join(says, "; ")
 }
 
 // Story tells the audit in plain words: the cues the model relies on that
@@ -167,8 +167,7 @@ func (r *Result) writeStory(w io.Writer) {
 			p("     It looks like a collection artifact because %s.\n", c.why())
 			p("     Replacing it by neutral words changes %s of the predictions on the texts that hold it, against %s\n",
 				interval(cr.FlipRate), interval(cr.ControlFlipRate))
-			p("     when the same words are put elsewhere (sign test p = %s); it decides %s of all held-out predictions.\n",
-				pval(cr.P), interval(cr.Decided))
+			p("     when the same words are put elsewhere; it decides %s of all held-out predictions.\n", interval(cr.Decided))
 			if cf := cr.Conflict; cf != nil && cf.Texts >= 5 {
 				p("     On the %d of those texts whose label is not %s, accuracy goes from %.2f to %.2f without it.\n",
 					cf.Texts, c.Label, cf.Accuracy, cf.AccuracyReplaced)
@@ -210,8 +209,8 @@ func (r *Result) writeStory(w io.Writer) {
 			if cr == nil {
 				cr = c.Reliance
 			}
-			p("  %s (%s): replacing it changes %s of the predictions on its texts, %s with the words elsewhere.\n",
-				c.name(), c.Label, interval(cr.FlipRate), fmtPct(cr.ControlFlipRate.Estimate))
+			p("  %s (%s): replacing it lowers the probability of %s by %.3f (%.3f–%.3f) on its texts and changes %s of the predictions.\n",
+				c.name(), c.Label, c.Label, cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, fmtPct(cr.NetFlipRate.Estimate))
 		}
 	}
 }
@@ -267,8 +266,10 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	as := c.Association
 	p("   association: in %d training texts, %s %s; p = %s, corrected %s\n", as.Texts, fmtPct(as.Share), c.Label, pval(as.P), pval(as.Adjusted))
 	if cr := c.Confirmed; cr != nil {
-		p("   reliance: replacing it changes %s of %d held-out texts' predictions, elsewhere %s; p(prediction) drops %.3f (%.3f–%.3f); sign test p = %s\n",
-			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, pval(cr.P))
+		p("   reliance: replacing it changes %s of %d held-out texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
+			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), interval(cr.NetFlipRate), pval(cr.FlipP))
+		p("     p(%s) drops %.3f (%.3f–%.3f), p(prediction) %.3f (%.3f–%.3f) (sign test p = %s)\n", c.Label,
+			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, pval(cr.P))
 		for _, ex := range cr.Examples {
 			p("     %s → %s (gold %s): %s\n", ex.Pred, ex.After, ex.Gold, ex.Snippet)
 		}
