@@ -160,19 +160,19 @@ func readOccurrence(d Data, vocab []string, s span) occurrence {
 	o.ownLine = strings.TrimSpace(text[ls:lo]) == "" && strings.TrimSpace(text[hi:le]) == ""
 	for j := a + 1; j < b; j++ {
 		o.touch[j-a-1] = toks[j].Start == toks[j-1].End
-		if o.touch[j-a-1] && isPunct(toks[j].Text) && toks[j].Text == toks[j-1].Text {
+		if o.touch[j-a-1] && isSeparator(toks[j].Text) && toks[j].Text == toks[j-1].Text {
 			o.adjacentPunct = true
 		}
 	}
 	return o
 }
 
-// isCode: a token mixing letters and digits, or a word of letters written
-// together with a number (directly, or through one of - # : _ /, with no
-// space: "TKREF-48213", "ID#123").
+// isCode: a token with a letter before a digit ("bw123456"; not "3rd" or
+// "12pm"), or a word of letters written together with a number (directly,
+// or through one of - # : _ /, with no space: "TKREF-48213", "ID#123").
 func (o occurrence) isCode() bool {
 	for j, t := range o.toks {
-		if hasLetter(t) && hasDigit(t) {
+		if l := strings.IndexFunc(t, unicode.IsLetter); l >= 0 && strings.IndexFunc(t[l:], unicode.IsDigit) >= 0 {
 			return true
 		}
 		if !hasLetter(t) || isNumber(t) {
@@ -220,7 +220,11 @@ func (o occurrence) isAddress() bool {
 	return false
 }
 
-// isMarkup: an HTML tag or entity, or a run of the same punctuation mark
+// isSeparator: a mark that machines repeat to draw lines ("--", "____",
+// "===="); the marks of speech (. ! ? / and the like) are not.
+func isSeparator(s string) bool { return len(s) == 1 && strings.Contains("-_=*#~+", s) }
+
+// isMarkup: an HTML tag or entity, or a run of the same separator mark
 // written without spaces ("--", "____").
 func (o occurrence) isMarkup() bool {
 	if o.adjacentPunct {
@@ -238,7 +242,7 @@ func (o occurrence) isMarkup() bool {
 	if !o.known {
 		// Without the text, a run of the same mark counts.
 		for j := 0; j+1 < len(o.toks); j++ {
-			if isPunct(o.toks[j]) && o.toks[j] == o.toks[j+1] {
+			if isSeparator(o.toks[j]) && o.toks[j] == o.toks[j+1] {
 				return true
 			}
 		}

@@ -228,7 +228,9 @@ type Result struct {
 	Associated int `json:"associated"`
 	Measured   int `json:"measured"`
 	// Ranked are the artifact-like cues (artifact-likeness ≥
-	// ArtifactThreshold, or marked artifact), highest Score first.
+	// ArtifactThreshold, or marked artifact): those acted on first, then
+	// those relied on in the selection half only, then the rest, each
+	// group by Score (ScoreFormula).
 	Ranked []Candidate `json:"ranked"`
 	// Task are the cues the model relies on that read like the task (or
 	// are marked task), most relied on first.
@@ -251,7 +253,8 @@ type Result struct {
 // ScoreFormula states how a cue is ranked.
 const ScoreFormula = "score = reliance × artifact-likeness, for cues that pass the association gate; reliance is the " +
 	"mean drop of the probability of the cue's label when the cue is replaced by label-neutral words, " +
-	"less the drop when the same words are put elsewhere (selection half, at least 0)"
+	"less the drop when the same words are put elsewhere (selection half, at least 0); the cues acted on are listed " +
+	"first, then those relied on only in the selection half, then the rest"
 
 // auditor holds what Run computes along the way.
 type auditor struct {

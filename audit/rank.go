@@ -129,7 +129,10 @@ func (a *auditor) result(cands, measured []*Candidate) *Result {
 		return cmp.Compare(y.Reliance.LabelDrop.Estimate, x.Reliance.LabelDrop.Estimate)
 	})
 	slices.SortStableFunc(others, func(x, y *Candidate) int { return cmp.Compare(x.Association.P, y.Association.P) })
-	for _, c := range ranked[:min(len(ranked), a.opt.Top)] {
+	// The confirmation may move a cue among the first Top; all artifact-like
+	// cues measured are confirmed, and the list is cut after the order by
+	// verdict (confirm).
+	for _, c := range ranked {
 		res.Ranked = append(res.Ranked, *c)
 	}
 	for _, c := range task[:min(len(task), a.opt.Top)] {
@@ -146,21 +149,26 @@ func (a *auditor) result(cands, measured []*Candidate) *Result {
 // there, Benjamini–Hochberg over the cues put to the test), and finds
 // their keyed filters on the selection half.
 func (a *auditor) confirm(ctx context.Context, res *Result) error {
-	total := len(res.Ranked) + len(res.Task)
-	done := 0
-	for _, list := range [][]Candidate{res.Ranked, res.Task} {
-		for k := range list {
-			a.progress("confirmation", done, total)
-			c := &list[k]
-			r, err := a.job(c, a.conf, a.confBase, c.confOcc, "confirmation").measure(ctx, a.st, a.opt.Workers)
-			if err != nil {
-				return err
-			}
-			c.Confirmed = r
-			done++
+	// Measured on the confirmation half: every cue that may be acted on,
+	// and the first Top of each list (the rest are cut below).
+	var todo []*Candidate
+	for k := range res.Ranked {
+		if c := &res.Ranked[k]; k < a.opt.Top || c.Verdict == VerdictUnconfirmed {
+			todo = append(todo, c)
 		}
 	}
-	a.progress("confirmation", total, total)
+	for k := range res.Task {
+		todo = append(todo, &res.Task[k])
+	}
+	for k, c := range todo {
+		a.progress("confirmation", k, len(todo))
+		r, err := a.job(c, a.conf, a.confBase, c.confOcc, "confirmation").measure(ctx, a.st, a.opt.Workers)
+		if err != nil {
+			return err
+		}
+		c.Confirmed = r
+	}
+	a.progress("confirmation", len(todo), len(todo))
 	// The cues put to the test: artifact-like and relied on in the
 	// selection half. On the confirmation half each must lower its label's
 	// probability (the sign test, Benjamini–Hochberg over the cues put to
@@ -182,6 +190,11 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 			c.Verdict = VerdictActed
 		}
 	}
+	// The cues acted on first, then those relied on in choosing only, then
+	// the rest; by score within each.
+	order := map[string]int{VerdictActed: 0, VerdictUnconfirmed: 1, VerdictNotRelied: 2}
+	slices.SortStableFunc(res.Ranked, func(x, y Candidate) int { return cmp.Compare(order[x.Verdict], order[y.Verdict]) })
+	res.Ranked = res.Ranked[:min(len(res.Ranked), a.opt.Top)]
 	for k := range res.Ranked {
 		c := &res.Ranked[k]
 		if c.Verdict == VerdictNotRelied {
