@@ -292,9 +292,10 @@ func pct(x float64) string { return fmtPct(x) }
 const maxSignalSamples = 2000
 
 // trainingSignals measures every signal but shift on the cue's training
-// occurrences occ; purity is the share of its texts in its label and texts
-// their number.
-func trainingSignals(d Data, vocab []string, occ []span, length int, inLabel, texts int) []Signal {
+// occurrences occ (inLabel of its texts in its label) and tells where the
+// cue sits: "start" or "end" of the text when the edge signal holds for
+// most of them, else "".
+func trainingSignals(d Data, vocab []string, occ []span, length int, inLabel, texts int) ([]Signal, string) {
 	step := max(1, len(occ)/maxSignalSamples)
 	var n, start, end, line, code, number, address, markup, known int
 	left, right, surfaces := map[string]int{}, map[string]int{}, map[string]int{}
@@ -366,7 +367,10 @@ func trainingSignals(d Data, vocab []string, occ []span, length int, inLabel, te
 	for i := range sig {
 		sig[i].Weight = signalWeights[sig[i].Name]
 	}
-	return sig
+	if sig[0].Value < 0.5 {
+		where = ""
+	}
+	return sig, where
 }
 
 // maskDigits writes every digit as '#', so that stamps with varying

@@ -152,6 +152,9 @@ type Candidate struct {
 	Label string   `json:"label"`
 	Class int      `json:"class"`
 	Seeds []string `json:"grown_from,omitempty"`
+	// Position is "start" or "end" when the cue sits at that edge of most
+	// of its training texts, else "".
+	Position string `json:"position,omitempty"`
 	// Association is question 1, on the training split.
 	Association CueAssociation `json:"association"`
 	// ArtifactLikeness (question 3, ArtifactFormula) and its signals.
@@ -464,7 +467,7 @@ func (a *auditor) candidates(ctx context.Context) ([]*Candidate, error) {
 		if len(docs) > 0 {
 			c.Association.Share = float64(per[class]) / float64(len(docs))
 		}
-		c.Signals = trainingSignals(a.train, a.vocab, occs[k], len(p), per[class], len(docs))
+		c.Signals, c.Position = trainingSignals(a.train, a.vocab, occs[k], len(p), per[class], len(docs))
 		c.Surface = surface(a.train, a.vocab, p, occs[k])
 		out = append(out, c)
 	}

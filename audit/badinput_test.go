@@ -84,6 +84,13 @@ func TestBadInput(t *testing.T) {
 	_, err = Run(ctx, m, train, data(t, m, strip), Options{Marks: mk}, nil)
 	expect("a marked cue absent from the held-out split", err, "never occurs in the held-out split")
 
+	// A cancelled context stops the audit with the context's error.
+	cctx, cancel := context.WithCancel(ctx)
+	cancel()
+	if _, err := Run(cctx, m, train, held, Options{}, nil); !errors.Is(err, context.Canceled) {
+		t.Errorf("cancelled: %v, want context.Canceled", err)
+	}
+
 	// Options that do not exist.
 	_, err = Run(ctx, m, train, held, Options{Test: "chi-square"}, nil)
 	expect("an unknown test", err, "use fisher or binomial")

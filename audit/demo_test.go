@@ -2,6 +2,7 @@ package audit
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"strings"
 	"testing"
@@ -109,6 +110,27 @@ func checkDemo(t *testing.T, res *Result) {
 	}
 	if len(res.Action.Cues) > 0 && res.Action.Counterfactual == nil {
 		t.Error("an action without the counterfactual split's accuracy")
+	}
+	// The JSON holds the ranked cues and the action under the documented
+	// keys (doc.go), and the story names no internal field.
+	js, err := json.Marshal(res)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var back map[string]any
+	if err := json.Unmarshal(js, &back); err != nil {
+		t.Fatal(err)
+	}
+	for _, key := range []string{"ranked", "relied_on_reads_like_the_task", "action", "test", "correction", "cutoff"} {
+		if _, ok := back[key]; !ok {
+			t.Errorf("JSON lacks %q", key)
+		}
+	}
+	story := res.Story()
+	for _, name := range []string{"_", "LabelDrop", "verdict", "artifact_likeness"} {
+		if strings.Contains(story, name) && name != "_" || name == "_" && strings.Contains(story, "_drop") {
+			t.Errorf("the story names %q:\n%s", name, story)
+		}
 	}
 }
 

@@ -97,3 +97,36 @@ func ExampleMarks() {
 	// artifact	tkref - <number>
 	// task	not
 }
+
+// Any marks file: no panic; an error names the file and line and wraps
+// ErrInput; what parses writes back to the same marks.
+func FuzzParseMarks(f *testing.F) {
+	f.Add("# c\nartifact - - sent via kioskmail - -\ntask not\n")
+	f.Add("artifact\n")
+	f.Add("task a\ntask a\n")
+	f.Add("artifact tkref - <number>\r\n")
+	f.Fuzz(func(t *testing.T, file string) {
+		mk, err := ParseMarks("fuzz.marks", []byte(file), nil)
+		if err != nil {
+			if !errors.Is(err, ErrInput) || !strings.Contains(err.Error(), "fuzz.marks line ") {
+				t.Fatalf("error without file and line: %v", err)
+			}
+			return
+		}
+		var b bytes.Buffer
+		if _, err := mk.WriteTo(&b); err != nil {
+			t.Fatal(err)
+		}
+		back, err := ParseMarks("back.marks", b.Bytes(), nil)
+		if err != nil || back.Len() != mk.Len() {
+			t.Fatalf("written marks do not read back (%v): %q", err, b.String())
+		}
+		for _, kind := range []string{MarkArtifact, MarkTask} {
+			for _, ws := range mk.Cues(kind) {
+				if back.Get(ws) != kind {
+					t.Fatalf("%q: %q after writing, want %q", ws, back.Get(ws), kind)
+				}
+			}
+		}
+	})
+}

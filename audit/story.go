@@ -162,8 +162,12 @@ func (r *Result) writeStory(w io.Writer) {
 		for n, c := range acted {
 			cr := c.Confirmed
 			share := float64(cr.Texts) / float64(max(1, r.ConfirmationTexts))
-			p("\n  %d. %s, in %s of the held-out texts (and %d training texts, %s of them %s).\n",
-				n+1, c.name(), fmtPct(share), c.Association.Texts, fmtPct(c.Association.Share), c.Label)
+			at := "in"
+			if c.Position != "" {
+				at = "at the " + c.Position + " of"
+			}
+			p("\n  %d. %s, %s %s of the held-out texts (and of %d training texts, %s of them %s).\n",
+				n+1, c.name(), at, fmtPct(share), c.Association.Texts, fmtPct(c.Association.Share), c.Label)
 			p("     It looks like a collection artifact because %s.\n", c.why())
 			p("     Replacing it by neutral words changes %s of the predictions on the texts that hold it, against %s\n",
 				interval(cr.FlipRate), interval(cr.ControlFlipRate))
