@@ -65,6 +65,19 @@ func (a *auditor) act(ctx context.Context, res *Result) error {
 		a.progress("action", 1, 1)
 		return nil
 	}
+	cf, err := a.counterfactual(ctx, acted)
+	if err != nil {
+		return err
+	}
+	res.Action.Counterfactual = cf
+	res.Action.Tried, res.Action.Mask = a.mask(acted)
+	a.progress("action", 1, 1)
+	return nil
+}
+
+// counterfactual measures the confirmation half with every occurrence of
+// the acted-on cues deleted.
+func (a *auditor) counterfactual(ctx context.Context, acted []*Candidate) (*Counterfactual, error) {
 	// The counterfactual split: every occurrence of an acted-on cue deleted.
 	drop := map[int][]span{}
 	for _, c := range acted {
@@ -91,7 +104,7 @@ func (a *auditor) act(ctx context.Context, res *Result) error {
 	}
 	out, err := runAll(ctx, a.st, order, want, 0, a.opt.Workers)
 	if err != nil {
-		return err
+		return nil, err
 	}
 	after := slices.Clone(a.confBase.pred)
 	for k, i := range idx {
@@ -132,10 +145,13 @@ func (a *auditor) act(ctx context.Context, res *Result) error {
 	cf.Accuracy, cf.AccuracyWithout = wilsonInterval(right, cf.Texts), wilsonInterval(rightWithout, cf.Texts)
 	cf.CueAccuracy, cf.CueAccuracyWithout = wilsonInterval(cueRight, cf.CueTexts), wilsonInterval(cueWithout, cf.CueTexts)
 	cf.P = min(1, 2*min(SignTest(cf.Fixed, cf.Broken), SignTest(cf.Broken, cf.Fixed)))
-	res.Action.Counterfactual = cf
+	return cf, nil
+}
 
-	// A filter mask: each cue's best prefix of keyed filters on the
-	// selection half, tested together on the confirmation half.
+// mask is each acted-on cue's best prefix of keyed filters on the
+// selection half, tested together on the confirmation half: the test, and
+// the mask when it helps there (one-sided exact McNemar p < 0.05).
+func (a *auditor) mask(acted []*Candidate) (*Ablation, []int) {
 	var mask []int
 	for _, c := range acted {
 		if c.Filters == nil || len(c.Filters.Keyed) == 0 {
@@ -154,11 +170,10 @@ func (a *auditor) act(ctx context.Context, res *Result) error {
 		}
 		slices.Sort(cue)
 		t := ablate(a.m, a.confBase, a.conf.Gold, mask, slices.Compact(cue))
-		res.Action.Tried = t
 		if t.P < 0.05 && t.AccuracyMasked > t.Accuracy {
-			res.Action.Mask = mask
+			return t, mask
 		}
+		return t, nil
 	}
-	a.progress("action", 1, 1)
-	return nil
+	return nil, nil
 }

@@ -55,16 +55,13 @@ type association struct {
 	cutoff float64
 	// significant word × class pairs, smallest p first.
 	significant []wordTest
-	// minP is each word's smallest p-value over the classes (1 when not
-	// tested).
-	minP []float64
 }
 
 // associate counts and tests every word of train that occurs in at least
 // minSupport texts against every class, and corrects over all of them.
 func associate(train Data, classes, vocab int, test, correction string, alpha float64, minSupport int) *association {
 	a := &association{test: test, correction: correction, texts: train.Len(), classTexts: make([]int, classes), classes: classes,
-		count: make([]int32, vocab), perClass: make([]int32, vocab*classes), minP: make([]float64, vocab)}
+		count: make([]int32, vocab), perClass: make([]int32, vocab*classes)}
 	last := make([]int32, vocab)
 	for i := range last {
 		last[i] = -1
@@ -83,14 +80,12 @@ func associate(train Data, classes, vocab int, test, correction string, alpha fl
 	}
 	var all []wordTest
 	for id := range vocab {
-		a.minP[id] = 1
 		if int32(id) == corpus.PAD || int32(id) == corpus.UNK || int(a.count[id]) < minSupport {
 			continue
 		}
 		for c := range classes {
 			k, n := int(a.perClass[id*classes+c]), int(a.count[id])
 			p := a.pValue(k, n, c)
-			a.minP[id] = min(a.minP[id], p)
 			all = append(all, wordTest{id: int32(id), class: c, count: n, inClass: k, p: p})
 		}
 	}

@@ -4,6 +4,7 @@ import (
 	"cmp"
 	"context"
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"runtime"
 	"slices"
@@ -373,17 +374,54 @@ func (a *auditor) halves(heldout Data) error {
 	return nil
 }
 
+// phraseSet collects distinct phrases with the words they grew from.
+type phraseSet struct {
+	phrases []phrase
+	from    map[string][]string
+	index   map[string]int
+}
+
+func (ps *phraseSet) add(p phrase, seed string) {
+	k := p.key()
+	if _, ok := ps.index[k]; !ok {
+		ps.index[k] = len(ps.phrases)
+		ps.phrases = append(ps.phrases, p)
+	}
+	if seed != "" && !slices.Contains(ps.from[k], seed) {
+		ps.from[k] = append(ps.from[k], seed)
+	}
+}
+
 // candidates grows the associated words into phrases, adds the marked
 // cues, finds their training occurrences and keeps those that pass the
 // association gate, with their artifact signals.
 func (a *auditor) candidates(ctx context.Context) ([]*Candidate, error) {
-	opt := a.opt
 	a.progress("phrases", 0, 1)
-	// Seeds: the associated words, most associated first.
+	ps := &phraseSet{from: map[string][]string{}, index: map[string]int{}}
+	if err := a.grownPhrases(ctx, ps); err != nil {
+		return nil, err
+	}
+	if err := a.markedPhrases(ps); err != nil {
+		return nil, err
+	}
+	occs := newMatcher(ps.phrases, a.vocab).occurrences(a.train)
+	a.progress("phrases", 1, 1)
+	var out []*Candidate
+	for k, p := range ps.phrases {
+		if c := a.candidate(p, ps.from[p.key()], occs[k]); c != nil {
+			out = append(out, c)
+		}
+	}
+	return out, nil
+}
+
+// grownPhrases grows the associated words, most associated first (at most
+// MaxSeeds), into phrases.
+func (a *auditor) grownPhrases(ctx context.Context, ps *phraseSet) error {
 	var seeds []int32
 	seen := map[int32]bool{}
 	for _, w := range a.assoc.significant {
-		if !seen[w.id] && len(seeds) < opt.MaxSeeds {
+		if !seen[w.id] && len(seeds) < a.opt.MaxSeeds {
 			seen[w.id] = true
 			seeds = append(seeds, w.id)
 		}
@@ -397,28 +435,20 @@ func (a *auditor) candidates(ctx context.Context) ([]*Candidate, error) {
 			}
 		}
 	}
-	var phrases []phrase
-	from := map[string][]string{}
-	index := map[string]int{}
-	add := func(p phrase, seed string) {
-		k := p.key()
-		if _, ok := index[k]; !ok {
-			index[k] = len(phrases)
-			phrases = append(phrases, p)
-		}
-		if seed != "" && !slices.Contains(from[k], seed) {
-			from[k] = append(from[k], seed)
-		}
-	}
 	for n, id := range seeds {
 		if n%32 == 0 {
 			if err := ctx.Err(); err != nil {
-				return nil, err
+				return err
 			}
 		}
-		add(grow(a.train, a.vocab, id, occ[id], growOptions{agreement: opt.Agreement, maxLen: 40}), a.vocab[id])
+		ps.add(grow(a.train, a.vocab, id, occ[id], growOptions{agreement: a.opt.Agreement, maxLen: 40}), a.vocab[id])
 	}
-	// Marked cues are candidates whatever their association.
+	return nil
+}
+
+// markedPhrases adds the marked cues: candidates whatever their
+// association.
+func (a *auditor) markedPhrases(ps *phraseSet) error {
 	wordID := map[string]int32{}
 	for id, w := range a.vocab {
 		if _, ok := wordID[w]; !ok {
@@ -426,7 +456,7 @@ func (a *auditor) candidates(ctx context.Context) ([]*Candidate, error) {
 		}
 	}
 	for _, kind := range []string{MarkArtifact, MarkTask} {
-		for _, ws := range opt.Marks.Cues(kind) {
+		for _, ws := range a.opt.Marks.Cues(kind) {
 			p := make(phrase, len(ws))
 			for i, w := range ws {
 				if w == NumberWord {
@@ -435,43 +465,41 @@ func (a *auditor) candidates(ctx context.Context) ([]*Candidate, error) {
 				}
 				id, ok := wordID[w]
 				if !ok {
-					return nil, fmt.Errorf("audit: the marked cue %q holds %q, which is not a word of the model's vocabulary: mark the cue as the audit shows it: %w",
+					return fmt.Errorf("audit: the marked cue %q holds %q, which is not a word of the model's vocabulary: mark the cue as the audit shows it: %w",
 						strings.Join(ws, " "), w, ErrInput)
 				}
 				p[i] = id
 			}
-			add(p, "")
+			ps.add(p, "")
 		}
 	}
-	mt := newMatcher(phrases, a.vocab)
-	occs := mt.occurrences(a.train)
-	a.progress("phrases", 1, 1)
-	var out []*Candidate
-	C := a.m.Config.Classes
-	for k, p := range phrases {
-		words := p.words(a.vocab)
-		mark := opt.Marks.Get(words)
-		docs := texts(occs[k])
-		per := make([]int, C)
-		for _, i := range docs {
-			per[a.train.Gold[i]]++
-		}
-		class, pv := a.assoc.best(per)
-		if mark == "" && (len(docs) < opt.MinSupport || pv > a.assoc.cutoff) {
-			continue
-		}
-		c := &Candidate{Words: words, Text: strings.Join(words, " "), Class: class, Label: a.labels[class], Seeds: from[p.key()],
-			Mark: mark, Pattern: pattern(words), phrase: p, trainOcc: occs[k]}
-		c.Association = CueAssociation{Texts: len(docs), InLabel: per[class], PerClass: per, P: pv,
-			Adjusted: a.assoc.adjusted(pv, len(p) == 1 && len(c.Seeds) > 0)}
-		if len(docs) > 0 {
-			c.Association.Share = float64(per[class]) / float64(len(docs))
-		}
-		c.Signals, c.Position = trainingSignals(a.train, a.vocab, occs[k], len(p), per[class], len(docs))
-		c.Surface = surface(a.train, a.vocab, p, occs[k])
-		out = append(out, c)
+	return nil
+}
+
+// candidate is phrase p with its training occurrences occ, or nil when it
+// is neither marked nor passes the association gate.
+func (a *auditor) candidate(p phrase, seeds []string, occ []span) *Candidate {
+	words := p.words(a.vocab)
+	mark := a.opt.Marks.Get(words)
+	docs := texts(occ)
+	per := make([]int, a.m.Config.Classes)
+	for _, i := range docs {
+		per[a.train.Gold[i]]++
 	}
-	return out, nil
+	class, pv := a.assoc.best(per)
+	if mark == "" && (len(docs) < a.opt.MinSupport || pv > a.assoc.cutoff) {
+		return nil
+	}
+	c := &Candidate{Words: words, Text: strings.Join(words, " "), Class: class, Label: a.labels[class], Seeds: seeds,
+		Mark: mark, Pattern: pattern(words), phrase: p, trainOcc: occ}
+	c.Association = CueAssociation{Texts: len(docs), InLabel: per[class], PerClass: per, P: pv,
+		Adjusted: a.assoc.adjusted(pv, len(p) == 1 && len(seeds) > 0)}
+	if len(docs) > 0 {
+		c.Association.Share = float64(per[class]) / float64(len(docs))
+	}
+	c.Signals, c.Position = trainingSignals(a.train, a.vocab, occ, len(p), per[class], len(docs))
+	c.Surface = surface(a.train, a.vocab, p, occ)
+	return c
 }
 
 // surface is the most common original form of the occurrences of p, the
@@ -599,9 +627,12 @@ func (a *auditor) shift(c *Candidate) {
 	c.Signals = append(c.Signals, Signal{Name: SignalShift, Value: max(0, v), Weight: signalWeights[SignalShift], Says: says})
 }
 
-// neutralWords are the label-neutral words edits put in: words in at least
-// max(20, MinSupport) training texts whose every one-sided p-value is at
-// least 0.25, made of letters only and in no candidate, the 50 most common.
+// neutralWords are the label-neutral words edits put in: words of letters
+// only, in no candidate and in at least max(20, MinSupport) training texts,
+// whose label shares differ from the training split's by a total variation
+// distance of at most 0.05 (an effect size, not a test: with many texts
+// every word's test rejects), the 50 most common; when fewer than 10 pass,
+// the 50 closest to the training split's shares.
 func (a *auditor) neutralWords(cands []*Candidate) []int32 {
 	inCand := map[int32]bool{}
 	for _, c := range cands {
@@ -609,16 +640,41 @@ func (a *auditor) neutralWords(cands []*Candidate) []int32 {
 			inCand[id] = true
 		}
 	}
-	var ws []int32
+	C := a.assoc.classes
+	type word struct {
+		id int32
+		tv float64
+	}
+	var ws []word
 	for id, w := range a.vocab {
-		if int(a.assoc.count[id]) < max(20, a.opt.MinSupport) || a.assoc.minP[id] < 0.25 || inCand[int32(id)] ||
-			!onlyLetters(w) {
+		n := int(a.assoc.count[id])
+		if n < max(20, a.opt.MinSupport) || inCand[int32(id)] || !onlyLetters(w) {
 			continue
 		}
-		ws = append(ws, int32(id))
+		var tv float64
+		for c := range C {
+			share := float64(a.assoc.perClass[id*C+c]) / float64(n)
+			tv += math.Abs(share - float64(a.assoc.classTexts[c])/float64(a.assoc.texts))
+		}
+		ws = append(ws, word{int32(id), tv / 2})
 	}
-	slices.SortStableFunc(ws, func(x, y int32) int { return cmp.Compare(a.assoc.count[y], a.assoc.count[x]) })
-	return ws[:min(len(ws), 50)]
+	byCount := func(x, y word) int { return cmp.Compare(a.assoc.count[y.id], a.assoc.count[x.id]) }
+	var near []word
+	for _, w := range ws {
+		if w.tv <= 0.05 {
+			near = append(near, w)
+		}
+	}
+	if len(near) < 10 {
+		slices.SortStableFunc(ws, func(x, y word) int { return cmp.Compare(x.tv, y.tv) })
+		near = ws[:min(len(ws), 50)]
+	}
+	slices.SortStableFunc(near, byCount)
+	out := make([]int32, 0, 50)
+	for _, w := range near[:min(len(near), 50)] {
+		out = append(out, w.id)
+	}
+	return out
 }
 
 func onlyLetters(w string) bool {

@@ -154,6 +154,14 @@ func (j *relianceJob) measure(ctx context.Context, st *explain.SlotTable, worker
 	if err != nil {
 		return nil, err
 	}
+	return j.summarize(r, all, chosen, byText, res), nil
+}
+
+// summarize computes the figures of r from the edits' results res (two per
+// draw and text of chosen, counterfactual first); all are the texts holding
+// the cue.
+func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][]span, res []editResult) *Reliance {
+	D := j.draws
 	n := len(chosen)
 	flip, ctlFlip, net, drop, ldrop := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
 	var conflictTexts int
@@ -228,7 +236,7 @@ func (j *relianceJob) measure(ctx context.Context, st *explain.SlotTable, worker
 				Gold: j.labels[j.half.Gold[i]], Pred: j.labels[j.base.pred[i]], After: j.labels[cf.pred], Prob: float64(cf.prob)})
 		}
 	}
-	return r, nil
+	return r
 }
 
 // edit returns the two edits of one draw: cf has every span's tokens
