@@ -188,12 +188,16 @@ func (r *Result) writeStory(w io.Writer) {
 				cf.CueTexts, map[bool]string{true: "it", false: "one"}[len(acted) == 1], accuracy(cf.CueAccuracyWithout),
 				accuracy(cf.CueAccuracy), cf.Fixed, cf.Broken, pval(cf.P))
 		}
-		p("\nWhat to do: retrain without %s, then compare both models on the held-out texts with and without %s:\n",
-			map[bool]string{true: "it", false: "them"}[len(acted) == 1], map[bool]string{true: "it", false: "them"}[len(acted) == 1])
-		p("  mark %s as artifact, and give the patterns to telltale train --mask-tokens:\n", map[bool]string{true: "it", false: "them"}[len(acted) == 1])
+		it := map[bool]string{true: "it", false: "them"}[len(acted) == 1]
+		model, train := orName(r.ModelFile, "MODEL"), orName(r.TrainFile, "TRAIN")
+		base := strings.TrimSuffix(model, ".tt")
+		p("\nWhat to do: retrain without %s and compare both models on held-out texts with and without %s.\n", it, it)
+		p("Write these lines to a file, say %s.cues, one pattern a line:\n", base)
 		for _, pat := range r.Action.Patterns {
 			p("    %s\n", pat)
 		}
+		p("then: telltale train --data %s --mask-tokens %s.cues --out %s-without.tt\n", train, base, base)
+		p("(Mark %s as artifact to keep this verdict with the model.)\n", it)
 		if t := r.Action.Tried; t != nil {
 			if r.Action.Mask != nil {
 				p("Masking filters %s helps on held-out texts that took no part in choosing them: accuracy %.3f → %.3f\n",
@@ -217,6 +221,13 @@ func (r *Result) writeStory(w io.Writer) {
 				c.name(), c.Label, c.Label, cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, fmtPct(cr.NetFlipRate.Estimate))
 		}
 	}
+}
+
+func orName(s, def string) string {
+	if s == "" {
+		return def
+	}
+	return s
 }
 
 func ints(xs []int) string {
