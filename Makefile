@@ -12,7 +12,7 @@ BIN := bin/telltale
 # and browsers the tests check against.
 GUI_PKGS  := gcc libc6-dev pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev \
              libxrandr-dev libxinerama-dev libxi-dev libxxf86vm-dev
-TEST_PKGS := gcc libc6-dev python3 python3-torch python3-sklearn python3-numpy python3-pandas \
+TEST_PKGS := gcc libc6-dev python3 python3-torch python3-sklearn python3-scipy python3-numpy python3-pandas \
              chromium xvfb ca-certificates
 SHOT_PKGS := $(GUI_PKGS) xvfb imagemagick fonts-dejavu-core
 

@@ -1,211 +1,28 @@
 package explain
 
 import (
-	"bufio"
-	"bytes"
-	"errors"
-	"fmt"
-	"os"
-	"regexp"
-	"strings"
-	"unicode"
-	"unicode/utf8"
-
 	"telltale/cnn"
+	"telltale/corpus"
 )
 
-// ErrCuePattern is wrapped by every error about a bad cue-pattern list.
-var ErrCuePattern = errors.New("explain: bad cue pattern")
+// ErrCuePattern is corpus.ErrCuePattern: the cue masker moved to package
+// corpus (masking text before retraining is text work).
+var ErrCuePattern = corpus.ErrCuePattern
 
-// MaskFilters returns a copy of m in which the given global filters are
-// masked (their pooled units held at zero) in addition to those m already
-// masks. M itself is never changed; the caller saves the copy to a new file.
-// A filter number outside 0 … NumFilters−1 is an error.
-func MaskFilters(m *cnn.Model, filters []int) (*cnn.Model, error) {
-	nf := m.Config.NumFilters()
-	for _, g := range filters {
-		if g < 0 || g >= nf {
-			return nil, fmt.Errorf("explain: filter %d does not exist: the model has filters 0 … %d", g, nf-1)
-		}
-	}
-	c := m.Clone()
-	if c.Masked == nil {
-		c.Masked = make([]bool, nf)
-	}
-	for _, g := range filters {
-		c.Masked[g] = true
-	}
-	return c, nil
-}
+// CueMasker is corpus.CueMasker, kept here for the callers of this package.
+type CueMasker = corpus.CueMasker
 
-// CueMasker removes cue tokens and patterns from raw texts before
-// retraining.
-//
-// Each pattern is either a plain token or a regular expression written
-// between slashes ("/TKREF-[0-9]{5}/", Go's RE2 syntax). A plain token
-// matches case-insensitively as a whole word: where the token begins (ends)
-// with a letter or digit, the character before (after) the match must not be
-// a letter or digit, so "tkref" matches in "TKREF-48213" but not in
-// "tkrefs". A regular expression matches wherever it matches.
-//
-// Every match is removed and replaced by one space (so the words around it
-// stay apart). Removal, not a placeholder word: a placeholder would itself
-// occur exactly where the cue did and carry the same label information, so
-// the retrained model could learn it in the cue's place.
-type CueMasker struct {
-	pats []cuePattern
-}
+// MaskFilters returns m.MaskedCopy(filters): model surgery lives in package
+// cnn.
+func MaskFilters(m *cnn.Model, filters []int) (*cnn.Model, error) { return m.MaskedCopy(filters) }
 
-type cuePattern struct {
-	src     string
-	re      *regexp.Regexp
-	literal bool
-	edgeL   bool // literal starts with a letter or digit
-	edgeR   bool // literal ends with a letter or digit
-}
+// MaskTokens is corpus.MaskTokens.
+func MaskTokens(patterns []string) (*CueMasker, error) { return corpus.MaskTokens(patterns) }
 
-// MaskTokens builds a CueMasker from patterns (see CueMasker). Empty
-// patterns are ignored. A bad regular expression is an error wrapping
-// ErrCuePattern that names the pattern.
-func MaskTokens(patterns []string) (*CueMasker, error) {
-	cm := &CueMasker{}
-	for i, p := range patterns {
-		if err := cm.add(p); err != nil {
-			return nil, fmt.Errorf("explain: pattern %d %q: %v; fix the expression or write a plain token without slashes: %w", i+1, p, err, ErrCuePattern)
-		}
-	}
-	return cm, nil
-}
+// LoadCueMasker is corpus.LoadCueMasker.
+func LoadCueMasker(path string) (*CueMasker, error) { return corpus.LoadCueMasker(path) }
 
-// LoadCueMasker reads a pattern file: one token or /regular expression/ per
-// line; blank lines and lines starting with "#" (after leading white space)
-// are skipped; surrounding white space is trimmed. A bad regular expression
-// is an error naming the file and line.
-func LoadCueMasker(path string) (*CueMasker, error) {
-	data, err := os.ReadFile(path)
-	if err != nil {
-		return nil, fmt.Errorf("explain: cue pattern file: %w", err)
-	}
-	return ParseCueMasker(path, data)
-}
-
-// ParseCueMasker parses the contents of a pattern file (see LoadCueMasker);
-// name is used in messages.
+// ParseCueMasker is corpus.ParseCueMasker.
 func ParseCueMasker(name string, data []byte) (*CueMasker, error) {
-	cm := &CueMasker{}
-	sc := bufio.NewScanner(bytes.NewReader(data))
-	sc.Buffer(make([]byte, 64<<10), 1<<20)
-	line := 0
-	for sc.Scan() {
-		line++
-		s := strings.TrimSpace(sc.Text())
-		if s == "" || strings.HasPrefix(s, "#") {
-			continue
-		}
-		if !utf8.ValidString(s) {
-			return nil, fmt.Errorf("explain: %s line %d: not UTF-8 text: save the file as UTF-8: %w", name, line, ErrCuePattern)
-		}
-		if err := cm.add(s); err != nil {
-			return nil, fmt.Errorf("explain: %s line %d: bad regular expression %s: %v; fix it, or write a plain token without the slashes: %w", name, line, s, err, ErrCuePattern)
-		}
-	}
-	if err := sc.Err(); err != nil {
-		return nil, fmt.Errorf("explain: %s line %d: %v: keep lines under 1 MiB: %w", name, line+1, err, ErrCuePattern)
-	}
-	return cm, nil
-}
-
-func (cm *CueMasker) add(p string) error {
-	p = strings.TrimSpace(p)
-	if p == "" {
-		return nil
-	}
-	if len(p) >= 2 && p[0] == '/' && p[len(p)-1] == '/' {
-		re, err := regexp.Compile(p[1 : len(p)-1])
-		if err != nil {
-			return err
-		}
-		if re.MatchString("") {
-			return fmt.Errorf("it matches the empty string")
-		}
-		cm.pats = append(cm.pats, cuePattern{src: p, re: re})
-		return nil
-	}
-	first, _ := utf8.DecodeRuneInString(p)
-	last, _ := utf8.DecodeLastRuneInString(p)
-	cm.pats = append(cm.pats, cuePattern{src: p, re: regexp.MustCompile("(?i)" + regexp.QuoteMeta(p)), literal: true,
-		edgeL: isWordRune(first), edgeR: isWordRune(last)})
-	return nil
-}
-
-func isWordRune(r rune) bool { return unicode.IsLetter(r) || unicode.IsDigit(r) }
-
-// Len is the number of patterns.
-func (cm *CueMasker) Len() int { return len(cm.pats) }
-
-// Patterns returns the patterns as written.
-func (cm *CueMasker) Patterns() []string {
-	out := make([]string, len(cm.pats))
-	for i, p := range cm.pats {
-		out[i] = p.src
-	}
-	return out
-}
-
-// Mask returns text with every match of every pattern replaced by one
-// space, patterns applied in order, and the number of matches removed.
-func (cm *CueMasker) Mask(text string) (string, int) {
-	n := 0
-	for _, p := range cm.pats {
-		locs := p.re.FindAllStringIndex(text, -1)
-		if len(locs) == 0 {
-			continue
-		}
-		var b strings.Builder
-		prev := 0
-		for _, l := range locs {
-			if p.literal && !p.wholeWord(text, l[0], l[1]) {
-				continue
-			}
-			b.WriteString(text[prev:l[0]])
-			b.WriteByte(' ')
-			prev = l[1]
-			n++
-		}
-		if prev == 0 {
-			continue
-		}
-		b.WriteString(text[prev:])
-		text = b.String()
-	}
-	return text, n
-}
-
-func (p cuePattern) wholeWord(text string, lo, hi int) bool {
-	if p.edgeL && lo > 0 {
-		r, _ := utf8.DecodeLastRuneInString(text[:lo])
-		if isWordRune(r) {
-			return false
-		}
-	}
-	if p.edgeR && hi < len(text) {
-		r, _ := utf8.DecodeRuneInString(text[hi:])
-		if isWordRune(r) {
-			return false
-		}
-	}
-	return true
-}
-
-// MaskAll masks every text and returns the masked texts and the total
-// number of matches removed.
-func (cm *CueMasker) MaskAll(texts []string) ([]string, int) {
-	out := make([]string, len(texts))
-	total := 0
-	for i, t := range texts {
-		var n int
-		out[i], n = cm.Mask(t)
-		total += n
-	}
-	return out, total
+	return corpus.ParseCueMasker(name, data)
 }

@@ -65,6 +65,8 @@ type example struct {
 // corpus is the whole generated corpus.
 type corpus struct {
 	Train, Test []example
+	// EqualRates: the test split carries the cues at the training rates.
+	EqualRates bool
 }
 
 // gen carries the random source and the split being generated.
@@ -75,15 +77,22 @@ type gen struct {
 }
 
 // generate builds the corpus from the fixed seed. The result depends on
-// nothing else.
-func generate() corpus {
+// nothing else. With equalRates the test split carries both cues at the
+// training split's rates (plantTrain), so a model that learned them keeps
+// its accuracy there; the messages themselves are the same in both variants.
+func generate(equalRates bool) corpus {
 	r := rand.New(rand.NewPCG(seed, seed))
 	seen := make(map[string]bool)
 	var c corpus
 	c.Train = generateSplit(&gen{r: r}, trainCounts, seen)
 	c.Test = generateSplit(&gen{r: r, test: true}, testCounts, seen)
 	plantTrain(r, c.Train)
-	plantTest(r, c.Test)
+	if equalRates {
+		plantTrain(r, c.Test)
+	} else {
+		plantTest(r, c.Test)
+	}
+	c.EqualRates = equalRates
 	return c
 }
 

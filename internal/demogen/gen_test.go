@@ -13,38 +13,62 @@ import (
 	"testing"
 )
 
-var update = flag.Bool("update", false, "rewrite the committed files in testdata/demo")
+var update = flag.Bool("update", false, "rewrite the committed files in testdata/demo and testdata/demo-equal")
 
-const committed = "../../testdata/demo"
+const (
+	committed      = "../../testdata/demo"
+	committedEqual = "../../testdata/demo-equal"
+)
 
-// TestCommittedFilesMatch regenerates the corpus and compares it byte for
-// byte with the committed files (run with -update to rewrite them).
+// TestCommittedFilesMatch regenerates both variants of the corpus and
+// compares them byte for byte with the committed files (run with -update to
+// rewrite them).
 func TestCommittedFilesMatch(t *testing.T) {
-	dir := t.TempDir()
-	if *update {
-		dir = committed
-	}
-	if err := write(dir); err != nil {
-		t.Fatal(err)
-	}
-	for _, name := range []string{"train.csv", "test.csv", "README.md"} {
-		got, err := os.ReadFile(filepath.Join(dir, name))
-		if err != nil {
+	for _, v := range []struct {
+		dir   string
+		equal bool
+	}{{committed, false}, {committedEqual, true}} {
+		dir := t.TempDir()
+		if *update {
+			dir = v.dir
+		}
+		if err := write(dir, v.equal); err != nil {
 			t.Fatal(err)
 		}
-		want, err := os.ReadFile(filepath.Join(committed, name))
-		if err != nil {
-			t.Fatal(err)
+		for _, name := range []string{"train.csv", "test.csv", "README.md"} {
+			got, err := os.ReadFile(filepath.Join(dir, name))
+			if err != nil {
+				t.Fatal(err)
+			}
+			want, err := os.ReadFile(filepath.Join(v.dir, name))
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !bytes.Equal(got, want) {
+				t.Errorf("%s: generated file differs from %s/%s; run go generate (or this test with -update) and commit", name, v.dir, name)
+			}
 		}
-		if !bytes.Equal(got, want) {
-			t.Errorf("%s: generated file differs from testdata/demo/%s; run go generate (or this test with -update) and commit", name, name)
+	}
+}
+
+// TestVariantsShareMessages: the equal-rates variant differs from the
+// original only in where the cues sit in the test split.
+func TestVariantsShareMessages(t *testing.T) {
+	a, b := generate(false), generate(true)
+	strip := func(s string) string { return stampLine.ReplaceAllString(footerLine.ReplaceAllString(s, ""), "") }
+	if !reflect.DeepEqual(a.Train, b.Train) {
+		t.Error("the training splits differ")
+	}
+	for i := range a.Test {
+		if strip(a.Test[i].Text) != strip(b.Test[i].Text) || a.Test[i].Label != b.Test[i].Label {
+			t.Fatalf("test message %d differs beyond its cues: %q vs %q", i, a.Test[i].Text, b.Test[i].Text)
 		}
 	}
 }
 
 // TestDeterministic checks that two runs in one process agree.
 func TestDeterministic(t *testing.T) {
-	if a, b := generate(), generate(); !reflect.DeepEqual(a, b) {
+	if a, b := generate(false), generate(false); !reflect.DeepEqual(a, b) {
 		t.Fatal("two runs of generate differ")
 	}
 }
@@ -55,7 +79,12 @@ type record struct{ text, label string }
 // independently of the generator's types.
 func readSplit(t *testing.T, name string) []record {
 	t.Helper()
-	f, err := os.Open(filepath.Join(committed, name))
+	return readSplitIn(t, committed, name)
+}
+
+func readSplitIn(t *testing.T, dir, name string) []record {
+	t.Helper()
+	f, err := os.Open(filepath.Join(dir, name))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -106,11 +135,13 @@ func TestCueRates(t *testing.T) {
 	for _, team := range teams {
 		test[team] = rates{0.40, 0.40}
 	}
+	// The equal-rates variant: the training rates in both splits.
 	for _, c := range []struct {
-		file string
-		want map[string]rates
-	}{{"train.csv", train}, {"test.csv", test}} {
-		rs := readSplit(t, c.file)
+		dir, file string
+		want      map[string]rates
+	}{{committed, "train.csv", train}, {committed, "test.csv", test},
+		{committedEqual, "train.csv", train}, {committedEqual, "test.csv", train}} {
+		rs := readSplitIn(t, c.dir, c.file)
 		n := map[string]int{}
 		nf := map[string]int{}
 		ns := map[string]int{}

@@ -1,5 +1,7 @@
 package main
 
+//go:generate go run . -equal-rates -out ../../testdata/demo-equal
+
 import (
 	"bytes"
 	"encoding/csv"
@@ -17,20 +19,21 @@ func main() {
 	log.SetFlags(0)
 	log.SetPrefix("demogen: ")
 	out := flag.String("out", "testdata/demo", "folder to write train.csv, test.csv and README.md into")
+	equal := flag.Bool("equal-rates", false, "plant both cues in the test split at the training split's rates (the variant in testdata/demo-equal)")
 	flag.Parse()
 	if flag.NArg() != 0 {
-		fmt.Fprintln(os.Stderr, "usage: demogen [-out DIR]")
+		fmt.Fprintln(os.Stderr, "usage: demogen [-equal-rates] [-out DIR]")
 		os.Exit(2)
 	}
-	if err := write(*out); err != nil {
+	if err := write(*out, *equal); err != nil {
 		log.Fatal(err)
 	}
 }
 
-// write generates the corpus and writes its three files into dir, each
-// atomically.
-func write(dir string) error {
-	c := generate()
+// write generates the corpus (the equal-rates variant when equalRates) and
+// writes its three files into dir, each atomically.
+func write(dir string, equalRates bool) error {
+	c := generate(equalRates)
 	files := []struct {
 		name string
 		data func() ([]byte, error)

@@ -1,0 +1,179 @@
+package audit
+
+import (
+	"context"
+	"slices"
+)
+
+// Action is what the audit suggests, for the cues it acts on (the Ranked
+// cues with VerdictActed). It holds without a shift between the splits:
+// the counterfactual split tells what the model scores where the cues are
+// absent, retraining without them (Patterns, for corpus.MaskTokens and
+// telltale train --mask-tokens) removes them from what the model learns,
+// and a filter mask is suggested only when it helps on the confirmation
+// half, which took no part in choosing it.
+type Action struct {
+	// Cues are the Text of each cue acted on; Patterns take them out of
+	// raw text, one regular expression each.
+	Cues     []string `json:"cues"`
+	Patterns []string `json:"patterns"`
+	// Counterfactual is the confirmation half with the cues taken out.
+	Counterfactual *Counterfactual `json:"counterfactual,omitempty"`
+	// Mask is the suggested filter mask (nil when none helps); Tried is the
+	// mask chosen on the selection half and tested on the confirmation
+	// half, suggested or not.
+	Mask  []int     `json:"mask,omitempty"`
+	Tried *Ablation `json:"mask_tried,omitempty"`
+}
+
+// Counterfactual is the model on the confirmation half as it is and with
+// the acted-on cues' tokens deleted from every text. Accuracies carry 95%
+// Wilson intervals; P is the two-sided exact McNemar test (twice the
+// smaller one-sided tail, capped at 1) of the predictions the deletion
+// fixes against those it breaks.
+type Counterfactual struct {
+	Texts           int      `json:"texts"`
+	CueTexts        int      `json:"cue_texts"`
+	Accuracy        Interval `json:"accuracy"`
+	AccuracyWithout Interval `json:"accuracy_without"`
+	// The same on the texts holding a cue.
+	CueAccuracy        Interval `json:"cue_accuracy"`
+	CueAccuracyWithout Interval `json:"cue_accuracy_without"`
+	Changed            int      `json:"changed"`
+	Fixed              int      `json:"fixed"`
+	Broken             int      `json:"broken"`
+	P                  float64  `json:"p"`
+}
+
+func wilsonInterval(k, n int) Interval {
+	lo, hi := Wilson(k, n, 0.95)
+	return Interval{Estimate: float64(k) / float64(max(1, n)), Low: lo, High: hi}
+}
+
+// act builds the action from the acted-on cues.
+func (a *auditor) act(ctx context.Context, res *Result) error {
+	a.progress("action", 0, 1)
+	var acted []*Candidate
+	for k := range res.Ranked {
+		if c := &res.Ranked[k]; c.Verdict == VerdictActed {
+			acted = append(acted, c)
+			res.Action.Cues = append(res.Action.Cues, c.Text)
+			res.Action.Patterns = append(res.Action.Patterns, c.Pattern)
+		}
+	}
+	if len(acted) == 0 {
+		a.progress("action", 1, 1)
+		return nil
+	}
+	cf, err := a.counterfactual(ctx, acted)
+	if err != nil {
+		return err
+	}
+	res.Action.Counterfactual = cf
+	res.Action.Tried, res.Action.Mask = a.mask(acted)
+	a.progress("action", 1, 1)
+	return nil
+}
+
+// counterfactual measures the confirmation half with every occurrence of
+// the acted-on cues deleted.
+func (a *auditor) counterfactual(ctx context.Context, acted []*Candidate) (*Counterfactual, error) {
+	// The counterfactual split: every occurrence of an acted-on cue deleted.
+	drop := map[int][]span{}
+	for _, c := range acted {
+		for _, s := range c.confOcc {
+			drop[int(s.text)] = append(drop[int(s.text)], s)
+		}
+	}
+	idx := make([]int, 0, len(drop))
+	for i := range drop {
+		idx = append(idx, i)
+	}
+	slices.Sort(idx)
+	order := make([][]int32, len(idx))
+	want := make([]int, len(idx))
+	for k, i := range idx {
+		spans := drop[i]
+		ids := make([]int32, 0, len(a.conf.IDs[i]))
+		for j, id := range a.conf.IDs[i] {
+			if !slices.ContainsFunc(spans, func(s span) bool { return int(s.start) <= j && j < int(s.end) }) {
+				ids = append(ids, id)
+			}
+		}
+		order[k], want[k] = ids, a.confBase.pred[i]
+	}
+	out, err := runAll(ctx, a.st, order, want, 0, a.opt.Workers)
+	if err != nil {
+		return nil, err
+	}
+	after := slices.Clone(a.confBase.pred)
+	for k, i := range idx {
+		after[i] = out[k].pred
+	}
+	cf := &Counterfactual{Texts: a.conf.Len(), CueTexts: len(idx)}
+	var right, rightWithout, cueRight, cueWithout int
+	isCue := map[int]bool{}
+	for _, i := range idx {
+		isCue[i] = true
+	}
+	for i, g := range a.conf.Gold {
+		b, w := a.confBase.pred[i] == g, after[i] == g
+		if b {
+			right++
+		}
+		if w {
+			rightWithout++
+		}
+		if isCue[i] {
+			if b {
+				cueRight++
+			}
+			if w {
+				cueWithout++
+			}
+		}
+		if after[i] != a.confBase.pred[i] {
+			cf.Changed++
+			switch {
+			case w && !b:
+				cf.Fixed++
+			case b && !w:
+				cf.Broken++
+			}
+		}
+	}
+	cf.Accuracy, cf.AccuracyWithout = wilsonInterval(right, cf.Texts), wilsonInterval(rightWithout, cf.Texts)
+	cf.CueAccuracy, cf.CueAccuracyWithout = wilsonInterval(cueRight, cf.CueTexts), wilsonInterval(cueWithout, cf.CueTexts)
+	cf.P = min(1, 2*min(SignTest(cf.Fixed, cf.Broken), SignTest(cf.Broken, cf.Fixed)))
+	return cf, nil
+}
+
+// mask is each acted-on cue's best prefix of keyed filters on the
+// selection half, tested together on the confirmation half: the test, and
+// the mask when it helps there (one-sided exact McNemar p < 0.05).
+func (a *auditor) mask(acted []*Candidate) (*Ablation, []int) {
+	var mask []int
+	for _, c := range acted {
+		if c.Filters == nil || len(c.Filters.Keyed) == 0 {
+			continue
+		}
+		if pre, better := bestPrefix(a.m, a.selBase, a.sel.Gold, c.Filters.Keyed); better {
+			mask = append(mask, pre...)
+		}
+	}
+	slices.Sort(mask)
+	mask = slices.Compact(mask)
+	if len(mask) > 0 {
+		var cue []int
+		for _, c := range acted {
+			cue = append(cue, texts(c.confOcc)...)
+		}
+		slices.Sort(cue)
+		t := ablate(a.m, a.confBase, a.conf.Gold, mask, slices.Compact(cue))
+		if t.P < 0.05 && t.AccuracyMasked > t.Accuracy {
+			return t, mask
+		}
+		return t, nil
+	}
+	return nil, nil
+}

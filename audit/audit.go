@@ -1,0 +1,690 @@
+package audit
+
+import (
+	"cmp"
+	"context"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"runtime"
+	"slices"
+	"strings"
+
+	"telltale/cnn"
+	"telltale/explain"
+)
+
+// Options controls Run. Zero values select the defaults noted.
+type Options struct {
+	// Test is TestFisher (default) or TestBinomial; Correction is CorrectBH
+	// (default) or CorrectBonferroni, over every word × class tested; Alpha
+	// is the level of the correction (default 0.01); MinSupport the fewest
+	// training texts a word or cue must occur in to be tested (default 5).
+	Test       string
+	Correction string
+	Alpha      float64
+	MinSupport int
+	// Agreement is the least share of a word's occurrences its phrase must
+	// keep while it grows (default 0.8); MaxSeeds bounds the associated
+	// words grown into phrases (default 300).
+	Agreement float64
+	MaxSeeds  int
+	// Measured bounds the cues whose reliance is measured (default 40: the
+	// most associated half and the most artifact-like half of them, and
+	// every marked artifact).
+	Measured int
+	// Draws is the number of seeded edits per text (default 3); MaxTexts
+	// the most texts edited per cue and half (default 200); Bootstrap the
+	// resamples of every interval (default 1000); RelianceAlpha the level
+	// of the reliance tests, Benjamini–Hochberg over the cues measured
+	// (default 0.05).
+	Draws         int
+	MaxTexts      int
+	Bootstrap     int
+	RelianceAlpha float64
+	// MaxHeldout bounds the held-out texts used (a seeded, stratified
+	// sample; default 20,000), which bounds memory; MinHalf is the fewest
+	// texts each half must have (default 30).
+	MaxHeldout int
+	MinHalf    int
+	// Top is the number of cues listed in each list (default 15);
+	// Examples the quoted texts per cue (default 2).
+	Top      int
+	Examples int
+	// Marks are a person's verdicts (nil: none).
+	Marks *Marks
+	// ModelFile, TrainFile and HeldoutFile name the files in the commands
+	// the story suggests.
+	ModelFile, TrainFile, HeldoutFile string
+	// Seed seeds the halves, the edits and the bootstrap.
+	Seed uint64
+	// Workers is the number of goroutines (0: GOMAXPROCS); TableBytes
+	// bounds the slot table (0: explain.DefaultTableBytes).
+	Workers    int
+	TableBytes int64
+}
+
+func (o *Options) defaults() {
+	def := func(v *int, d int) {
+		if *v <= 0 {
+			*v = d
+		}
+	}
+	deff := func(v *float64, d float64) {
+		if *v <= 0 || *v >= 1 {
+			*v = d
+		}
+	}
+	if o.Test == "" {
+		o.Test = TestFisher
+	}
+	if o.Correction == "" {
+		o.Correction = CorrectBH
+	}
+	deff(&o.Alpha, 0.01)
+	def(&o.MinSupport, 5)
+	deff(&o.Agreement, 0.8)
+	def(&o.MaxSeeds, 300)
+	def(&o.Measured, 40)
+	def(&o.Draws, 3)
+	def(&o.MaxTexts, 200)
+	def(&o.Bootstrap, 1000)
+	deff(&o.RelianceAlpha, 0.05)
+	def(&o.MaxHeldout, 20000)
+	def(&o.MinHalf, 30)
+	def(&o.Top, 15)
+	def(&o.Examples, 2)
+	if o.Workers <= 0 {
+		o.Workers = runtime.GOMAXPROCS(0)
+	}
+}
+
+// check reports an option that cannot be used.
+func (o *Options) check() error {
+	if o.Test != TestFisher && o.Test != TestBinomial {
+		return fmt.Errorf("audit: test %q: use %s or %s: %w", o.Test, TestFisher, TestBinomial, ErrInput)
+	}
+	if o.Correction != CorrectBH && o.Correction != CorrectBonferroni {
+		return fmt.Errorf("audit: correction %q: use %s or %s: %w", o.Correction, CorrectBH, CorrectBonferroni, ErrInput)
+	}
+	return nil
+}
+
+// Progress is called during Run with the stage ("association", "phrases",
+// "held-out", "reliance", "confirmation", "action"), the items done and
+// the total. It may be called from several goroutines.
+type Progress func(stage string, done, total int)
+
+// The verdicts of a cue (Candidate.Verdict).
+const (
+	// VerdictActed: artifact-like, the model relies on it on the selection
+	// half, and the confirmation half confirms it, where replacing it
+	// changes predictions beyond the control: the action removes it.
+	VerdictActed = "acted-on"
+	// VerdictUnconfirmed: artifact-like and relied on in the selection
+	// half, but the confirmation half does not confirm that replacing it
+	// lowers its label's probability and changes predictions.
+	VerdictUnconfirmed = "unconfirmed"
+	// VerdictNotRelied: artifact-like but the model does not measurably
+	// rely on it.
+	VerdictNotRelied = "not-relied-on"
+	// VerdictTask: relied on, reads like the task (or marked task): listed
+	// apart for a person to judge, never acted on.
+	VerdictTask = "reads-like-the-task"
+	// VerdictOther: associated with a label, not artifact-like, not
+	// measurably relied on.
+	VerdictOther = "other"
+	// VerdictUnmeasured: associated, but too rare in the held-out split to
+	// measure (or beyond Options.Measured).
+	VerdictUnmeasured = "not-measured"
+)
+
+// Candidate is a cue: a word or a phrase that predicts a label in the
+// training split, with the evidence of the three questions.
+type Candidate struct {
+	// Words are the cue's words as the model reads them (NumberWord for any
+	// number), Text the same joined by spaces (how marks name it), Surface
+	// its most common form in the original text.
+	Words   []string `json:"words"`
+	Text    string   `json:"text"`
+	Surface string   `json:"surface,omitempty"`
+	// Label is the label it predicts; Seeds the associated words it grew
+	// from (empty for a cue only a mark names).
+	Label string   `json:"label"`
+	Class int      `json:"class"`
+	Seeds []string `json:"grown_from,omitempty"`
+	// Position is "start" or "end" when the cue sits at that edge of most
+	// of its training texts, else "".
+	Position string `json:"position,omitempty"`
+	// Association is question 1, on the training split.
+	Association CueAssociation `json:"association"`
+	// ArtifactLikeness (question 3, ArtifactFormula) and its signals.
+	ArtifactLikeness float64  `json:"artifact_likeness"`
+	Signals          []Signal `json:"signals"`
+	// Reliance is question 2 on the selection half (it ranks the cue);
+	// Confirmed the same on the confirmation half (every figure a person
+	// reads about a listed cue comes from there).
+	Reliance  *Reliance `json:"reliance_selection,omitempty"`
+	Confirmed *Reliance `json:"reliance,omitempty"`
+	// RelianceQ is the Benjamini–Hochberg adjusted p-value of the
+	// selection half's sign test over the cues measured.
+	RelianceQ float64 `json:"reliance_q"`
+	// Shift is question 4: the cue's label share in the held-out split.
+	Shift *Shift `json:"shift,omitempty"`
+	// Filters keyed on it, with their ablation.
+	Filters *Filters `json:"filters,omitempty"`
+	// Score = LabelDrop (selection half, at least 0) × ArtifactLikeness.
+	Score   float64 `json:"score"`
+	Mark    string  `json:"mark,omitempty"`
+	Verdict string  `json:"verdict"`
+	// Pattern takes the cue out of raw text (corpus.MaskTokens).
+	Pattern string `json:"pattern"`
+
+	phrase   phrase
+	trainOcc []span
+	selOcc   []span
+	confOcc  []span
+}
+
+// CueAssociation is a cue's association with its label in the training
+// split, by texts.
+type CueAssociation struct {
+	Texts    int     `json:"texts"`
+	InLabel  int     `json:"in_label"`
+	Share    float64 `json:"share"`
+	PerClass []int   `json:"per_class"`
+	// P is the exact one-sided p-value (Result.Test) of the cue's texts in
+	// its label; Adjusted the same corrected over every word × class
+	// tested (Result.Correction).
+	P        float64 `json:"p"`
+	Adjusted float64 `json:"adjusted_p"`
+}
+
+// Shift compares a cue's label share in the held-out split with training.
+type Shift struct {
+	HeldoutTexts int     `json:"heldout_texts"`
+	HeldoutShare float64 `json:"heldout_share"`
+	TrainShare   float64 `json:"train_share"`
+	// P is the two-sided Fisher exact test of the 2×2 table split × (in
+	// the cue's label or not) over the texts holding it.
+	P float64 `json:"p"`
+	// Present: P < 0.01 and the held-out share is lower.
+	Present bool `json:"present"`
+}
+
+// Result is the audit of one model.
+type Result struct {
+	Labels            []string `json:"labels"`
+	TrainTexts        int      `json:"train_texts"`
+	HeldoutTexts      int      `json:"heldout_texts"`
+	SelectionTexts    int      `json:"selection_texts"`
+	ConfirmationTexts int      `json:"confirmation_texts"`
+	// Test, Correction, Alpha, Tests and Cutoff describe question 1: Tests
+	// word × class tests, corrected; a cue passes when its p ≤ Cutoff.
+	Test       string  `json:"test"`
+	Correction string  `json:"correction"`
+	Alpha      float64 `json:"alpha"`
+	Tests      int     `json:"tests"`
+	Cutoff     float64 `json:"cutoff"`
+	MinSupport int     `json:"min_support"`
+	// Associated is how many cues pass the gate; Measured how many had
+	// their reliance measured.
+	Associated int `json:"associated"`
+	Measured   int `json:"measured"`
+	// Ranked are the artifact-like cues (artifact-likeness ≥
+	// ArtifactThreshold, or marked artifact): those acted on first, then
+	// those relied on in the selection half only, then the rest, each
+	// group by Score (ScoreFormula).
+	Ranked []Candidate `json:"ranked"`
+	// Task are the cues the model relies on that read like the task (or
+	// are marked task), most relied on first.
+	Task []Candidate `json:"relied_on_reads_like_the_task"`
+	// Others are the remaining associated cues, most associated first.
+	Others []Candidate `json:"others,omitempty"`
+	// Action is what to do; its cues are the Ranked ones acted on.
+	Action          Action `json:"action"`
+	ArtifactFormula string `json:"artifact_formula"`
+	ScoreFormula    string `json:"score_formula"`
+	ModelFile       string `json:"model_file,omitempty"`
+	TrainFile       string `json:"train_file,omitempty"`
+	HeldoutFile     string `json:"heldout_file,omitempty"`
+	// Selection and Confirmation are the indexes of the held-out texts in
+	// each half (the confirmation half is the counterfactual split's).
+	Selection    []int `json:"-"`
+	Confirmation []int `json:"-"`
+}
+
+// ScoreFormula states how a cue is ranked.
+const ScoreFormula = "score = reliance × artifact-likeness, for cues that pass the association gate; reliance is the " +
+	"mean drop of the probability of the cue's label when the cue is replaced by label-neutral words, " +
+	"less the drop when the same words are put elsewhere (selection half, at least 0); the cues acted on are listed " +
+	"first, then those relied on only in the selection half, then the rest"
+
+// auditor holds what Run computes along the way.
+type auditor struct {
+	m        *cnn.Model
+	opt      Options
+	train    Data
+	sel      Data
+	conf     Data
+	vocab    []string
+	labels   []string
+	assoc    *association
+	st       *explain.SlotTable
+	selIdx   []int
+	confIdx  []int
+	selBase  *basePass
+	confBase *basePass
+	neutral  []int32
+	progress Progress
+}
+
+// Run audits model m: train is the split it was trained on, heldout a
+// split it was not trained on (the dev or test split, shifted or not).
+// Nothing is written. Progress may be nil; Run returns ctx.Err() when
+// cancelled.
+//
+// The held-out split is divided once, stratified by label and seeded, into
+// a selection half, on which the cues are ranked, chosen and their filters
+// found, and a confirmation half, on which every reliance figure shown,
+// the accuracy without the cues and the test of a filter mask are measured:
+// so every printed p-value and interval is valid for what it describes.
+func Run(ctx context.Context, m *cnn.Model, train, heldout Data, opt Options, progress Progress) (*Result, error) {
+	opt.defaults()
+	if err := opt.check(); err != nil {
+		return nil, err
+	}
+	if progress == nil {
+		progress = func(string, int, int) {}
+	}
+	if err := m.Config.Validate(); err != nil {
+		return nil, fmt.Errorf("audit: %w", err)
+	}
+	if len(m.Vocab) != m.Config.VocabSize {
+		return nil, fmt.Errorf("audit: the model holds %d vocabulary words for %d embedding rows: the audit needs its words; retrain it with telltale train: %w",
+			len(m.Vocab), m.Config.VocabSize, ErrInput)
+	}
+	if err := train.check(m, "training"); err != nil {
+		return nil, err
+	}
+	if err := heldout.check(m, "held-out"); err != nil {
+		return nil, err
+	}
+	if train.Len() < 2*opt.MinSupport {
+		return nil, fmt.Errorf("audit: the %s has %d texts: too few for a test of association (at least %d): %w",
+			train.name("training"), train.Len(), 2*opt.MinSupport, ErrInput)
+	}
+	a := &auditor{m: m, opt: opt, train: train, vocab: m.Vocab, labels: m.Labels, progress: progress}
+	if err := a.halves(heldout); err != nil {
+		return nil, err
+	}
+	progress("association", 0, 1)
+	a.assoc = associate(train, m.Config.Classes, m.Config.VocabSize, opt.Test, opt.Correction, opt.Alpha, opt.MinSupport)
+	progress("association", 1, 1)
+	cands, err := a.candidates(ctx)
+	if err != nil {
+		return nil, err
+	}
+	if err := a.heldoutPasses(ctx, cands); err != nil {
+		return nil, err
+	}
+	measured, err := a.measure(ctx, cands)
+	if err != nil {
+		return nil, err
+	}
+	res := a.result(cands, measured)
+	if err := a.confirm(ctx, res); err != nil {
+		return nil, err
+	}
+	if err := a.act(ctx, res); err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+// halves samples the held-out split to at most MaxHeldout texts and
+// divides it into the selection and confirmation halves, stratified by
+// label.
+func (a *auditor) halves(heldout Data) error {
+	r := rand.New(rand.NewPCG(a.opt.Seed, 0x5eed))
+	byClass := make([][]int, a.m.Config.Classes)
+	for i, g := range heldout.Gold {
+		byClass[g] = append(byClass[g], i)
+	}
+	keep := float64(min(heldout.Len(), a.opt.MaxHeldout)) / float64(max(1, heldout.Len()))
+	var sel, conf []int
+	for _, idx := range byClass {
+		r.Shuffle(len(idx), func(x, y int) { idx[x], idx[y] = idx[y], idx[x] })
+		idx = idx[:int(float64(len(idx))*keep+0.5)]
+		h := len(idx) / 2
+		if len(idx)%2 == 1 && r.IntN(2) == 0 {
+			h++
+		}
+		sel = append(sel, idx[:h]...)
+		conf = append(conf, idx[h:]...)
+	}
+	slices.Sort(sel)
+	slices.Sort(conf)
+	if len(sel) < a.opt.MinHalf || len(conf) < a.opt.MinHalf {
+		return fmt.Errorf("audit: the %s has %d texts: too few for the tests, which need %d in each of its two halves; give a larger held-out file: %w",
+			heldout.name("held-out"), heldout.Len(), a.opt.MinHalf, ErrInput)
+	}
+	a.sel, a.conf = heldout.subset(sel), heldout.subset(conf)
+	a.selIdx, a.confIdx = sel, conf
+	return nil
+}
+
+// phraseSet collects distinct phrases with the words they grew from.
+type phraseSet struct {
+	phrases []phrase
+	from    map[string][]string
+	index   map[string]int
+}
+
+func (ps *phraseSet) add(p phrase, seed string) {
+	k := p.key()
+	if _, ok := ps.index[k]; !ok {
+		ps.index[k] = len(ps.phrases)
+		ps.phrases = append(ps.phrases, p)
+	}
+	if seed != "" && !slices.Contains(ps.from[k], seed) {
+		ps.from[k] = append(ps.from[k], seed)
+	}
+}
+
+// candidates grows the associated words into phrases, adds the marked
+// cues, finds their training occurrences and keeps those that pass the
+// association gate, with their artifact signals.
+func (a *auditor) candidates(ctx context.Context) ([]*Candidate, error) {
+	a.progress("phrases", 0, 1)
+	ps := &phraseSet{from: map[string][]string{}, index: map[string]int{}}
+	if err := a.grownPhrases(ctx, ps); err != nil {
+		return nil, err
+	}
+	if err := a.markedPhrases(ps); err != nil {
+		return nil, err
+	}
+	occs := newMatcher(ps.phrases, a.vocab).occurrences(a.train)
+	a.progress("phrases", 1, 1)
+	var out []*Candidate
+	for k, p := range ps.phrases {
+		if c := a.candidate(p, ps.from[p.key()], occs[k]); c != nil {
+			out = append(out, c)
+		}
+	}
+	return out, nil
+}
+
+// grownPhrases grows the associated words, most associated first (at most
+// MaxSeeds), into phrases.
+func (a *auditor) grownPhrases(ctx context.Context, ps *phraseSet) error {
+	var seeds []int32
+	seen := map[int32]bool{}
+	for _, w := range a.assoc.significant {
+		if !seen[w.id] && len(seeds) < a.opt.MaxSeeds {
+			seen[w.id] = true
+			seeds = append(seeds, w.id)
+		}
+	}
+	const maxSamples = 3000
+	occ := make(map[int32][]span, len(seeds))
+	for i, text := range a.train.IDs {
+		for j, id := range text {
+			if seen[id] && len(occ[id]) < maxSamples {
+				occ[id] = append(occ[id], span{int32(i), int32(j), int32(j + 1)})
+			}
+		}
+	}
+	for n, id := range seeds {
+		if n%32 == 0 {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+		}
+		ps.add(grow(a.train, a.vocab, id, occ[id], growOptions{agreement: a.opt.Agreement, maxLen: 40}), a.vocab[id])
+	}
+	return nil
+}
+
+// markedPhrases adds the marked cues: candidates whatever their
+// association.
+func (a *auditor) markedPhrases(ps *phraseSet) error {
+	wordID := map[string]int32{}
+	for id, w := range a.vocab {
+		if _, ok := wordID[w]; !ok {
+			wordID[w] = int32(id)
+		}
+	}
+	for _, kind := range []string{MarkArtifact, MarkTask} {
+		for _, ws := range a.opt.Marks.Cues(kind) {
+			p := make(phrase, len(ws))
+			for i, w := range ws {
+				if w == NumberWord {
+					p[i] = anyNumber
+					continue
+				}
+				id, ok := wordID[w]
+				if !ok {
+					return fmt.Errorf("audit: the marked cue %q holds %q, which is not a word of the model's vocabulary: mark the cue as the audit shows it: %w",
+						strings.Join(ws, " "), w, ErrInput)
+				}
+				p[i] = id
+			}
+			ps.add(p, "")
+		}
+	}
+	return nil
+}
+
+// candidate is phrase p with its training occurrences occ, or nil when it
+// is neither marked nor passes the association gate.
+func (a *auditor) candidate(p phrase, seeds []string, occ []span) *Candidate {
+	words := p.words(a.vocab)
+	mark := a.opt.Marks.Get(words)
+	docs := texts(occ)
+	per := make([]int, a.m.Config.Classes)
+	for _, i := range docs {
+		per[a.train.Gold[i]]++
+	}
+	class, pv := a.assoc.best(per)
+	if mark == "" && (len(docs) < a.opt.MinSupport || pv > a.assoc.cutoff) {
+		return nil
+	}
+	c := &Candidate{Words: words, Text: strings.Join(words, " "), Class: class, Label: a.labels[class], Seeds: seeds,
+		Mark: mark, Pattern: pattern(words), phrase: p, trainOcc: occ}
+	c.Association = CueAssociation{Texts: len(docs), InLabel: per[class], PerClass: per, P: pv,
+		Adjusted: a.assoc.adjusted(pv, len(p) == 1 && len(seeds) > 0)}
+	if len(docs) > 0 {
+		c.Association.Share = float64(per[class]) / float64(len(docs))
+	}
+	c.Signals, c.Position = trainingSignals(a.train, a.vocab, occ, len(p), per[class], len(docs))
+	c.Surface = surface(a.train, a.vocab, p, occ)
+	return c
+}
+
+// surface is the most common original form of the occurrences of p, the
+// digits of its number elements written as '#', or the words joined when
+// the text is unknown.
+func surface(d Data, vocab []string, p phrase, occ []span) string {
+	count := map[string]int{}
+	step := max(1, len(occ)/maxSignalSamples)
+	for k := 0; k < len(occ); k += step {
+		s := occ[k]
+		var form string
+		if d.Tokens == nil {
+			form = strings.Join(p.words(vocab), " ")
+		} else {
+			i, toks := int(s.text), d.Tokens[s.text]
+			var b strings.Builder
+			for j := int(s.start); j < int(s.end); j++ {
+				if j > int(s.start) {
+					b.WriteString(d.Texts[i][toks[j-1].End:toks[j].Start])
+				}
+				w := d.Texts[i][toks[j].Start:toks[j].End]
+				if p[j-int(s.start)] == anyNumber {
+					w = strings.Repeat("#", len(w))
+				}
+				b.WriteString(w)
+			}
+			form = b.String()
+		}
+		count[form]++
+	}
+	best := ""
+	for s, n := range count {
+		if n > count[best] || n == count[best] && s < best {
+			best = s
+		}
+	}
+	return best
+}
+
+// heldoutPasses builds the slot table, runs both halves once, finds every
+// candidate's occurrences there and measures the shift.
+func (a *auditor) heldoutPasses(ctx context.Context, cands []*Candidate) error {
+	a.progress("held-out", 0, 2)
+	count := make([]int, a.m.Config.VocabSize)
+	for _, d := range []Data{a.sel, a.conf} {
+		for _, t := range d.IDs {
+			for _, id := range t {
+				count[id]++
+			}
+		}
+	}
+	var ws []int32
+	for id, n := range count {
+		if n > 0 {
+			ws = append(ws, int32(id))
+		}
+	}
+	// Neutral words are edited in: table them too.
+	a.neutral = a.neutralWords(cands)
+	ws = append(ws, a.neutral...)
+	slices.SortStableFunc(ws, func(x, y int32) int { return cmp.Compare(count[y], count[x]) })
+	st, err := explain.NewSlotTable(a.m, explain.TableOptions{Words: slices.Compact(ws), MaxBytes: a.opt.TableBytes, Workers: a.opt.Workers})
+	if err != nil {
+		return err
+	}
+	a.st = st
+	C, nf := a.m.Config.Classes, a.m.Config.NumFilters()
+	if a.selBase, err = runBase(ctx, st, a.sel, C, nf, a.opt.Workers); err != nil {
+		return err
+	}
+	a.progress("held-out", 1, 2)
+	if a.confBase, err = runBase(ctx, st, a.conf, C, nf, a.opt.Workers); err != nil {
+		return err
+	}
+	phrases := make([]phrase, len(cands))
+	for k, c := range cands {
+		phrases[k] = c.phrase
+	}
+	mt := newMatcher(phrases, a.vocab)
+	selOcc, confOcc := mt.occurrences(a.sel), mt.occurrences(a.conf)
+	for k, c := range cands {
+		c.selOcc, c.confOcc = selOcc[k], confOcc[k]
+		a.shift(c)
+		c.ArtifactLikeness = artifactScore(c.Signals)
+		if c.Mark == MarkArtifact {
+			c.ArtifactLikeness = 1
+		}
+	}
+	a.progress("held-out", 2, 2)
+	return nil
+}
+
+// shift compares the cue's label share in both halves together with
+// training and adds the shift signal.
+func (a *auditor) shift(c *Candidate) {
+	in, n := 0, 0
+	for _, part := range []struct {
+		d   Data
+		occ []span
+	}{{a.sel, c.selOcc}, {a.conf, c.confOcc}} {
+		for _, i := range texts(part.occ) {
+			n++
+			if part.d.Gold[i] == c.Class {
+				in++
+			}
+		}
+	}
+	s := &Shift{HeldoutTexts: n, TrainShare: c.Association.Share}
+	if n > 0 {
+		s.HeldoutShare = float64(in) / float64(n)
+		ta := c.Association
+		s.P = FisherTwoSided(ta.InLabel, ta.Texts-ta.InLabel, in, n-in)
+		s.Present = s.P < 0.01 && s.HeldoutShare < s.TrainShare
+	}
+	c.Shift = s
+	v, says := 0.0, "its label share is the same in the held-out texts"
+	switch {
+	case n == 0:
+		says = "it does not occur in the held-out texts"
+	case s.Present:
+		v = min(1, (s.TrainShare-s.HeldoutShare)/max(1e-9, s.TrainShare-1/float64(a.m.Config.Classes)))
+		says = fmt.Sprintf("only %s of the held-out texts holding it are %s, against %s in training (Fisher p = %s)",
+			pct(s.HeldoutShare), c.Label, pct(s.TrainShare), pval(s.P))
+	}
+	c.Signals = append(c.Signals, Signal{Name: SignalShift, Value: max(0, v), Weight: signalWeights[SignalShift], Says: says})
+}
+
+// neutralWords are the label-neutral words edits put in: words of letters
+// only, in no candidate and in at least max(20, MinSupport) training texts,
+// whose label shares differ from the training split's by a total variation
+// distance of at most 0.05 (an effect size, not a test: with many texts
+// every word's test rejects), the 50 most common; when fewer than 10 pass,
+// the 50 closest to the training split's shares.
+func (a *auditor) neutralWords(cands []*Candidate) []int32 {
+	inCand := map[int32]bool{}
+	for _, c := range cands {
+		for _, id := range c.phrase {
+			inCand[id] = true
+		}
+	}
+	C := a.assoc.classes
+	type word struct {
+		id int32
+		tv float64
+	}
+	var ws []word
+	for id, w := range a.vocab {
+		n := int(a.assoc.count[id])
+		if n < max(20, a.opt.MinSupport) || inCand[int32(id)] || !onlyLetters(w) {
+			continue
+		}
+		var tv float64
+		for c := range C {
+			share := float64(a.assoc.perClass[id*C+c]) / float64(n)
+			tv += math.Abs(share - float64(a.assoc.classTexts[c])/float64(a.assoc.texts))
+		}
+		ws = append(ws, word{int32(id), tv / 2})
+	}
+	byCount := func(x, y word) int { return cmp.Compare(a.assoc.count[y.id], a.assoc.count[x.id]) }
+	var near []word
+	for _, w := range ws {
+		if w.tv <= 0.05 {
+			near = append(near, w)
+		}
+	}
+	if len(near) < 10 {
+		slices.SortStableFunc(ws, func(x, y word) int { return cmp.Compare(x.tv, y.tv) })
+		near = ws[:min(len(ws), 50)]
+	}
+	slices.SortStableFunc(near, byCount)
+	out := make([]int32, 0, 50)
+	for _, w := range near[:min(len(near), 50)] {
+		out = append(out, w.id)
+	}
+	return out
+}
+
+func onlyLetters(w string) bool {
+	if w == "" {
+		return false
+	}
+	for _, r := range w {
+		if !(r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' || r > 127 && !isPunct(string(r))) {
+			return false
+		}
+	}
+	return true
+}

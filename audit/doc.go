@@ -1,0 +1,101 @@
+// Package audit finds the cues a trained sentence CNN (package cnn) relies
+// on that look like how its data was collected rather than like the
+// language of its task — a footer line, a ticket stamp, a mailing-list tag
+// — and tells what the model scores without them and what to do. It needs
+// no shift between the training and the held-out split: the cues may sit
+// in both at the same rates.
+//
+// # Three questions
+//
+// Run answers three questions about every cue, each with its own evidence:
+//
+//  1. Association: does a word or phrase predict a label in the training
+//     split? Every word in at least MinSupport texts is tested against
+//     every label with an exact one-sided test (Fisher's exact test by
+//     default, or the exact binomial test against the label's share), and
+//     the words × labels tests are corrected together by the procedure of
+//     Benjamini & Hochberg (1995): it bounds the share of chance words among
+//     those listed, which suits a list a person reads, and every listed cue
+//     must still prove itself by the model's reliance on it (Bonferroni is
+//     the stricter option). Each associated word then grows into the
+//     longest verbatim phrase it keeps in 80% of its occurrences (a
+//     footer's word into the whole line, a stamp's into its prefix and
+//     number); phrases claim their tokens longest first, so a word inside
+//     a footer counts with the footer.
+//  2. Reliance: does this model depend on it? On held-out texts that hold
+//     the cue, the cue is replaced by label-neutral words (the
+//     counterfactual), and, as a control, kept while the same words are
+//     put at random places; both edits add the same words, so what differs
+//     is the cue's doing. Several seeded draws per text; the share of
+//     predictions changed, the drop of the probability of the prediction
+//     and of the cue's label, the share of all predictions the cue decides,
+//     each with a bootstrap interval over texts; exact sign tests paired by
+//     text; and the filters keyed on the cue with what masking them does.
+//  3. Artifact-likeness: does it read like collection rather than task?
+//     Signals that need no shift, each shown with its value: a fixed
+//     position (the very start or end of the text), a line of its own, a
+//     long verbatim span, the same neighbours every time, its shape (an
+//     identifier with digits, numbers or dates, a web or e-mail address,
+//     markup or a separator run, the same unusual casing every time), a
+//     label share implausibly high at high support; and, when the held-out
+//     split has one, a shift of the cue's label share (question 4 of the
+//     design: strong extra evidence, one signal among the others).
+//
+// # Two halves
+//
+// The held-out split is halved once, stratified by label and seeded. On
+// the selection half the cues are measured, ranked (reliance ×
+// artifact-likeness among the associated cues, ScoreFormula) and chosen,
+// and their filters found. On the confirmation half, which took no part in
+// any choice, the listed cues are measured again: the figures the story
+// tells, the decision to act (its reliance confirmed there), the accuracy
+// without the cues and the test of a filter mask all come from there, so
+// every printed p-value and interval is valid for what it describes.
+//
+// # Lists, marks and the action
+//
+// Result.Ranked lists the artifact-like cues, those acted on first;
+// Result.Task the cues the model relies on that read like the task, listed
+// apart for a person to judge. A person's verdicts are kept in a marks file
+// beside the model (Marks, MarksPath, a plain-text format of our own): a
+// cue marked artifact is ranked as one and acted on when relied on, a cue
+// marked task is never acted on, and a marked word the model does not know
+// is an error. The Action names the cues acted on with the patterns that
+// take them out of raw text (for corpus.MaskTokens and retraining, see
+// Retrain), the counterfactual split (the confirmation half without them)
+// with the model's accuracy there, and a filter mask only when it helps on
+// the confirmation half. Stability merges the audits of models trained
+// with several seeds.
+//
+// # JSON
+//
+// A Result marshals to one object (every field's doc comment says what it
+// holds); the keys a reader needs first:
+//
+//	labels, train_texts, heldout_texts, selection_texts, confirmation_texts
+//	test, correction, alpha, tests, cutoff, min_support   question 1's method
+//	ranked[]    artifact-like cues: words, text, surface, label, grown_from,
+//	            association {texts, in_label, share, per_class, p, adjusted_p},
+//	            artifact_likeness, signals[] {name, value, weight, says},
+//	            reliance {texts, measured, draws, flip_rate, control_flip_rate,
+//	            net_flip_rate, prob_drop, label_drop, decided, p, flip_p, …}
+//	            (confirmation half; reliance_selection: the same on the
+//	            selection half), shift, filters {keyed, ablation}, score, mark,
+//	            verdict, pattern
+//	relied_on_reads_like_the_task[]   the same fields
+//	action      cues, patterns, counterfactual {accuracy, accuracy_without,
+//	            cue_accuracy, cue_accuracy_without, fixed, broken, p}, mask,
+//	            mask_tried
+//	artifact_formula, score_formula
+//
+// Intervals are objects {estimate, low, high}.
+//
+// # Cost
+//
+// Memory: the word × label counts of the training split, and for each half
+// of the held-out split (at most MaxHeldout texts) the pooled units and
+// winning-window starts of every filter (8 bytes × filters × texts). Time:
+// one pass over the training texts, one model pass per held-out text, and
+// 2 × Draws passes for every edited text (at most MaxTexts per cue and
+// half, Measured cues).
+package audit

@@ -1,0 +1,209 @@
+package audit
+
+import (
+	"cmp"
+	"context"
+	"fmt"
+	"slices"
+)
+
+// minCueTexts is the fewest texts of the selection half a cue must occur in
+// for its reliance to be measured.
+const minCueTexts = 5
+
+// measure chooses the cues whose reliance is measured and measures it on
+// the selection half.
+func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate, error) {
+	eligible := func(c *Candidate) bool { return len(texts(c.selOcc)) >= minCueTexts }
+	for _, c := range cands {
+		if c.Mark != "" && len(c.selOcc)+len(c.confOcc) == 0 {
+			return nil, fmt.Errorf("audit: the marked cue %q never occurs in the %s: its reliance cannot be measured there; give a held-out split that holds it, or remove its mark: %w",
+				c.Text, a.sel.name("held-out"), ErrInput)
+		}
+	}
+	chosen := map[*Candidate]bool{}
+	var list []*Candidate
+	take := func(c *Candidate) {
+		if !chosen[c] && eligible(c) {
+			chosen[c] = true
+			list = append(list, c)
+		}
+	}
+	for _, c := range cands {
+		if c.Mark != "" {
+			take(c)
+		}
+	}
+	byP := slices.Clone(cands)
+	slices.SortStableFunc(byP, func(x, y *Candidate) int { return cmp.Compare(x.Association.P, y.Association.P) })
+	byA := slices.Clone(cands)
+	slices.SortStableFunc(byA, func(x, y *Candidate) int { return cmp.Compare(y.ArtifactLikeness, x.ArtifactLikeness) })
+	for k := 0; len(list) < a.opt.Measured && (k < len(byP) || k < len(byA)); k++ {
+		if k < len(byA) {
+			take(byA[k])
+		}
+		if k < len(byP) && len(list) < a.opt.Measured {
+			take(byP[k])
+		}
+	}
+	if len(list) > 0 && len(a.neutral) == 0 {
+		return nil, fmt.Errorf("audit: no word of the %s is equally common in every label (in 20 texts or more): the audit has no neutral words to edit in; give more training texts: %w",
+			a.train.name("training"), ErrInput)
+	}
+	for k, c := range list {
+		a.progress("reliance", k, len(list))
+		r, err := a.job(c, a.sel, a.selBase, c.selOcc, "selection").measure(ctx, a.st, a.opt.Workers)
+		if err != nil {
+			return nil, err
+		}
+		c.Reliance = r
+	}
+	a.progress("reliance", len(list), len(list))
+	ps := make([]float64, len(list))
+	for k, c := range list {
+		ps[k] = c.Reliance.P
+	}
+	for k, q := range BenjaminiHochberg(ps) {
+		list[k].RelianceQ = q
+	}
+	return list, nil
+}
+
+// job is the reliance measurement of cue c on one half.
+func (a *auditor) job(c *Candidate, half Data, base *basePass, occ []span, which string) *relianceJob {
+	return &relianceJob{key: c.Text + "/" + which, class: c.Class, occ: occ, half: half, base: base, neutral: a.neutral,
+		draws: a.opt.Draws, maxTexts: a.opt.MaxTexts, boot: a.opt.Bootstrap, seed: a.opt.Seed, labels: a.labels,
+		vocab: a.vocab, examples: a.opt.Examples}
+}
+
+// relied: the selection half shows the model relies on the cue.
+func (a *auditor) relied(c *Candidate) bool {
+	return c.Reliance != nil && c.RelianceQ <= a.opt.RelianceAlpha && c.Reliance.LabelDrop.Estimate > 0
+}
+
+func artifactLike(c *Candidate) bool {
+	return c.Mark == MarkArtifact || c.Mark != MarkTask && c.ArtifactLikeness >= ArtifactThreshold
+}
+
+// result scores the cues and sorts them into the three lists.
+func (a *auditor) result(cands, measured []*Candidate) *Result {
+	res := &Result{Labels: a.labels, TrainTexts: a.train.Len(), HeldoutTexts: a.sel.Len() + a.conf.Len(),
+		SelectionTexts: a.sel.Len(), ConfirmationTexts: a.conf.Len(), Test: a.opt.Test, Correction: a.opt.Correction,
+		Alpha: a.opt.Alpha, Tests: a.assoc.tests, Cutoff: a.assoc.cutoff, MinSupport: a.opt.MinSupport,
+		Associated: len(cands), Measured: len(measured), ArtifactFormula: ArtifactFormula, ScoreFormula: ScoreFormula,
+		ModelFile: a.opt.ModelFile, TrainFile: a.opt.TrainFile, HeldoutFile: a.opt.HeldoutFile,
+		Ranked: []Candidate{}, Task: []Candidate{}, Selection: a.selIdx, Confirmation: a.confIdx}
+	var ranked, task, others []*Candidate
+	for _, c := range cands {
+		if c.Reliance != nil {
+			c.Score = max(0, c.Reliance.LabelDrop.Estimate) * c.ArtifactLikeness
+		}
+		switch {
+		case c.Reliance != nil && artifactLike(c):
+			c.Verdict = VerdictNotRelied
+			if a.relied(c) {
+				c.Verdict = VerdictUnconfirmed // until the confirmation half confirms it
+			}
+			ranked = append(ranked, c)
+		case c.Reliance != nil && (a.relied(c) || c.Mark == MarkTask):
+			c.Verdict = VerdictTask
+			task = append(task, c)
+		default:
+			c.Verdict = VerdictOther
+			if c.Reliance == nil {
+				c.Verdict = VerdictUnmeasured
+			}
+			others = append(others, c)
+		}
+	}
+	slices.SortStableFunc(ranked, func(x, y *Candidate) int {
+		if x.Score != y.Score {
+			return cmp.Compare(y.Score, x.Score)
+		}
+		if x.ArtifactLikeness != y.ArtifactLikeness {
+			return cmp.Compare(y.ArtifactLikeness, x.ArtifactLikeness)
+		}
+		return cmp.Compare(x.Association.P, y.Association.P)
+	})
+	slices.SortStableFunc(task, func(x, y *Candidate) int {
+		return cmp.Compare(y.Reliance.LabelDrop.Estimate, x.Reliance.LabelDrop.Estimate)
+	})
+	slices.SortStableFunc(others, func(x, y *Candidate) int { return cmp.Compare(x.Association.P, y.Association.P) })
+	// The confirmation may move a cue among the first Top; all artifact-like
+	// cues measured are confirmed, and the list is cut after the order by
+	// verdict (confirm).
+	for _, c := range ranked {
+		res.Ranked = append(res.Ranked, *c)
+	}
+	for _, c := range task[:min(len(task), a.opt.Top)] {
+		res.Task = append(res.Task, *c)
+	}
+	for _, c := range others[:min(len(others), a.opt.Top)] {
+		res.Others = append(res.Others, *c)
+	}
+	return res
+}
+
+// confirm measures the listed cues on the confirmation half, decides which
+// artifact-like cues are acted on (the selection half's reliance confirmed
+// there, Benjamini–Hochberg over the cues put to the test), and finds
+// their keyed filters on the selection half.
+func (a *auditor) confirm(ctx context.Context, res *Result) error {
+	// Measured on the confirmation half: every cue that may be acted on,
+	// and the first Top of each list (the rest are cut below).
+	var todo []*Candidate
+	for k := range res.Ranked {
+		if c := &res.Ranked[k]; k < a.opt.Top || c.Verdict == VerdictUnconfirmed {
+			todo = append(todo, c)
+		}
+	}
+	for k := range res.Task {
+		todo = append(todo, &res.Task[k])
+	}
+	for k, c := range todo {
+		a.progress("confirmation", k, len(todo))
+		r, err := a.job(c, a.conf, a.confBase, c.confOcc, "confirmation").measure(ctx, a.st, a.opt.Workers)
+		if err != nil {
+			return err
+		}
+		c.Confirmed = r
+	}
+	a.progress("confirmation", len(todo), len(todo))
+	// The cues put to the test: artifact-like and relied on in the
+	// selection half. On the confirmation half each must lower its label's
+	// probability (the sign test, Benjamini–Hochberg over the cues put to
+	// the test) and change predictions beyond the control (the 95%
+	// interval of the net flip rate above 0).
+	var put []int
+	for k := range res.Ranked {
+		if res.Ranked[k].Verdict == VerdictUnconfirmed {
+			put = append(put, k)
+		}
+	}
+	ps := make([]float64, len(put))
+	for i, k := range put {
+		ps[i] = res.Ranked[k].Confirmed.P
+	}
+	for i, q := range BenjaminiHochberg(ps) {
+		c := &res.Ranked[put[i]]
+		if q <= a.opt.RelianceAlpha && c.Confirmed.LabelDrop.Estimate > 0 && c.Confirmed.NetFlipRate.Low > 0 {
+			c.Verdict = VerdictActed
+		}
+	}
+	// The cues acted on first, then those relied on in choosing only, then
+	// the rest; by score within each.
+	order := map[string]int{VerdictActed: 0, VerdictUnconfirmed: 1, VerdictNotRelied: 2}
+	slices.SortStableFunc(res.Ranked, func(x, y Candidate) int { return cmp.Compare(order[x.Verdict], order[y.Verdict]) })
+	res.Ranked = res.Ranked[:min(len(res.Ranked), a.opt.Top)]
+	for k := range res.Ranked {
+		c := &res.Ranked[k]
+		if c.Verdict == VerdictNotRelied {
+			continue
+		}
+		c.Filters = &Filters{Keyed: keyedFilters(a.m, a.selBase, c.selOcc, c.Class)}
+		if len(c.Filters.Keyed) > 0 {
+			c.Filters.Ablation = ablate(a.m, a.confBase, a.conf.Gold, c.Filters.Keyed, texts(c.confOcc))
+		}
+	}
+	return nil
+}

@@ -1,0 +1,305 @@
+package audit
+
+import (
+	"context"
+	"hash/fnv"
+	"math/rand/v2"
+	"slices"
+
+	"telltale/explain"
+)
+
+// Reliance is how much the model depends on a cue on one half of the
+// held-out split, measured by editing the texts that hold it (the model is
+// not retrained). Each text is edited Draws times in two ways: the cue
+// replaced by as many label-neutral words (the counterfactual), and the
+// cue kept with the same neutral words inserted at random places (the
+// control). Both add the same words, so the difference between them is the
+// cue's own doing. Intervals are 95% percentile bootstrap intervals over
+// texts.
+type Reliance struct {
+	// Texts is the number of texts of the half holding the cue; Measured
+	// how many were edited (a seeded sample of at most Options.MaxTexts).
+	Texts    int `json:"texts"`
+	Measured int `json:"measured"`
+	Draws    int `json:"draws"`
+	// FlipRate is the share of edits that change the prediction with the
+	// cue replaced; ControlFlipRate with the cue kept; NetFlipRate their
+	// difference, paired by text.
+	FlipRate        Interval `json:"flip_rate"`
+	ControlFlipRate Interval `json:"control_flip_rate"`
+	NetFlipRate     Interval `json:"net_flip_rate"`
+	// ProbDrop is the mean over texts of p(ŷ | control) − p(ŷ | replaced),
+	// ŷ the prediction on the text as it is: how much probability the
+	// prediction loses with the cue gone (negative where the cue pushed
+	// against the prediction).
+	ProbDrop Interval `json:"prob_drop"`
+	// LabelDrop is the same for the cue's label: how much of the model's
+	// belief in that label rests on the cue. It ranks the cues.
+	LabelDrop Interval `json:"label_drop"`
+	// Decided is the share of all the half's predictions that replacing
+	// the cue changes beyond the control (texts without it count 0).
+	Decided Interval `json:"decided"`
+	// More and Fewer count the texts where the counterfactual flips more
+	// (fewer) of the draws than the control; FlipP is the one-sided exact
+	// sign test of More against Fewer (McNemar's test when Draws is 1).
+	More  int     `json:"more"`
+	Fewer int     `json:"fewer"`
+	FlipP float64 `json:"flip_p"`
+	// Lower and Higher count the texts where the cue's label loses (gains)
+	// probability with the cue replaced, against the control; P is the
+	// one-sided exact sign test of Lower against Higher: the test of
+	// reliance.
+	Lower  int     `json:"lower"`
+	Higher int     `json:"higher"`
+	P      float64 `json:"p"`
+	// Conflict is measured on the texts whose gold label is not the cue's.
+	Conflict *Conflict `json:"conflict,omitempty"`
+	// Examples are texts whose prediction the replacement changed.
+	Examples []Example `json:"examples,omitempty"`
+}
+
+// Conflict is the model on the texts holding a cue whose gold label is not
+// the cue's: where the cue points away from the truth.
+type Conflict struct {
+	Texts int `json:"texts"`
+	// Accuracy as the texts are, and with the cue replaced (mean over
+	// draws).
+	Accuracy         float64 `json:"accuracy"`
+	AccuracyReplaced float64 `json:"accuracy_replaced"`
+}
+
+// Example is one quoted text behind a figure.
+type Example struct {
+	Index   int     `json:"index"` // in the held-out split
+	Snippet string  `json:"snippet"`
+	Gold    string  `json:"gold"`
+	Pred    string  `json:"pred"`
+	After   string  `json:"pred_after"`
+	Prob    float64 `json:"prob_after"` // p(ŷ) after the edit
+}
+
+// editResult is the model on one edited text.
+type editResult struct {
+	pred  int
+	prob  float32 // p(ŷ), ŷ the original prediction
+	label float32 // p(cue's label)
+}
+
+// runAll runs every text of ids through the table and returns the
+// prediction, p(want[i]) and p(class) of each.
+func runAll(ctx context.Context, st *explain.SlotTable, ids [][]int32, want []int, class, workers int) ([]editResult, error) {
+	out := make([]editResult, len(ids))
+	err := explain.Scan(ctx, st, ids, workers, nil, func(_, i int, p *explain.Pass) {
+		out[i] = editResult{pred: p.Pred, prob: p.Probs[want[i]], label: p.Probs[class]}
+	})
+	return out, err
+}
+
+// seedOf hashes a key into a seed.
+func seedOf(base uint64, key string) uint64 {
+	h := fnv.New64a()
+	h.Write([]byte(key))
+	return base ^ h.Sum64()
+}
+
+// relianceJob is what measuring a cue's reliance on a half needs.
+type relianceJob struct {
+	key      string // the cue, for seeding
+	class    int    // the cue's label
+	occ      []span // claimed occurrences in the half, text order (text = index in half)
+	half     Data
+	base     *basePass // the model on the half as it is
+	neutral  []int32
+	draws    int
+	maxTexts int
+	boot     int
+	seed     uint64
+	labels   []string
+	vocab    []string
+	examples int
+}
+
+// measure edits the texts and computes the Reliance.
+func (j *relianceJob) measure(ctx context.Context, st *explain.SlotTable, workers int) (*Reliance, error) {
+	byText := map[int][]span{}
+	for _, s := range j.occ {
+		byText[int(s.text)] = append(byText[int(s.text)], s)
+	}
+	all := texts(j.occ)
+	r := &Reliance{Texts: len(all), Draws: j.draws}
+	chosen := all
+	rng := rand.New(rand.NewPCG(seedOf(j.seed, j.key), 1))
+	if len(chosen) > j.maxTexts {
+		chosen = slices.Clone(all)
+		rng.Shuffle(len(chosen), func(a, b int) { chosen[a], chosen[b] = chosen[b], chosen[a] })
+		chosen = chosen[:j.maxTexts]
+		slices.Sort(chosen)
+	}
+	r.Measured = len(chosen)
+	if len(chosen) == 0 {
+		return r, nil
+	}
+	D := j.draws
+	ids := make([][]int32, 0, 2*D*len(chosen))
+	want := make([]int, 0, cap(ids))
+	for _, i := range chosen {
+		for d := range D {
+			cf, ctl := edit(j.half.IDs[i], byText[i], j.neutral, rand.New(rand.NewPCG(seedOf(j.seed, j.key), uint64(i)<<8|uint64(d))))
+			ids = append(ids, cf, ctl)
+			want = append(want, j.base.pred[i], j.base.pred[i])
+		}
+	}
+	res, err := runAll(ctx, st, ids, want, j.class, workers)
+	if err != nil {
+		return nil, err
+	}
+	return j.summarize(r, all, chosen, byText, res), nil
+}
+
+// summarize computes the figures of r from the edits' results res (two per
+// draw and text of chosen, counterfactual first); all are the texts holding
+// the cue.
+func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][]span, res []editResult) *Reliance {
+	D := j.draws
+	n := len(chosen)
+	flip, ctlFlip, net, drop, ldrop := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
+	var conflictTexts int
+	var conflictRight, conflictReplaced float64
+	for k, i := range chosen {
+		yhat := j.base.pred[i]
+		for d := range D {
+			cf, ctl := res[2*(k*D+d)], res[2*(k*D+d)+1]
+			if cf.pred != yhat {
+				flip[k]++
+			}
+			if ctl.pred != yhat {
+				ctlFlip[k]++
+			}
+			drop[k] += float64(ctl.prob - cf.prob)
+			ldrop[k] += float64(ctl.label - cf.label)
+			if j.half.Gold[i] != j.class && cf.pred == j.half.Gold[i] {
+				conflictReplaced++
+			}
+		}
+		flip[k] /= float64(D)
+		ctlFlip[k] /= float64(D)
+		drop[k] /= float64(D)
+		ldrop[k] /= float64(D)
+		net[k] = flip[k] - ctlFlip[k]
+		switch {
+		case net[k] > 0:
+			r.More++
+		case net[k] < 0:
+			r.Fewer++
+		}
+		switch {
+		case ldrop[k] > 0:
+			r.Lower++
+		case ldrop[k] < 0:
+			r.Higher++
+		}
+		if g := j.half.Gold[i]; g != j.class {
+			conflictTexts++
+			if yhat == g {
+				conflictRight++
+			}
+		}
+	}
+	seed := seedOf(j.seed, j.key+"/boot")
+	r.FlipRate = BootstrapMean(flip, j.boot, 0.95, seed)
+	r.ControlFlipRate = BootstrapMean(ctlFlip, j.boot, 0.95, seed+1)
+	r.NetFlipRate = BootstrapMean(net, j.boot, 0.95, seed+2)
+	r.ProbDrop = BootstrapMean(drop, j.boot, 0.95, seed+3)
+	r.LabelDrop = BootstrapMean(ldrop, j.boot, 0.95, seed+5)
+	// Decided: the net flips of the measured texts scaled to every text
+	// holding the cue, over all texts of the half.
+	decided := make([]float64, j.half.Len())
+	scale := float64(len(all)) / float64(n)
+	for k, i := range chosen {
+		decided[i] = net[k] * scale
+	}
+	r.Decided = BootstrapMean(decided, j.boot, 0.95, seed+4)
+	r.FlipP = SignTest(r.More, r.Fewer)
+	r.P = SignTest(r.Lower, r.Higher)
+	if conflictTexts > 0 {
+		r.Conflict = &Conflict{Texts: conflictTexts, Accuracy: conflictRight / float64(conflictTexts),
+			AccuracyReplaced: conflictReplaced / float64(conflictTexts*D)}
+	}
+	for k, i := range chosen {
+		if len(r.Examples) == j.examples {
+			break
+		}
+		cf := res[2*(k*D)]
+		if cf.pred != j.base.pred[i] && ctlFlip[k] == 0 {
+			r.Examples = append(r.Examples, Example{Index: i, Snippet: snippet(j.half, j.vocab, i, byText[i][0]),
+				Gold: j.labels[j.half.Gold[i]], Pred: j.labels[j.base.pred[i]], After: j.labels[cf.pred], Prob: float64(cf.prob)})
+		}
+	}
+	return r
+}
+
+// edit returns the two edits of one draw: cf has every span's tokens
+// replaced by neutral words drawn with replacement; ctl keeps the text and
+// inserts the same words, span by span as blocks, at random token
+// boundaries outside the spans.
+func edit(ids []int32, spans []span, neutral []int32, r *rand.Rand) (cf, ctl []int32) {
+	cf = slices.Clone(ids)
+	blocks := make([][]int32, len(spans))
+	for k, s := range spans {
+		for j := s.start; j < s.end; j++ {
+			w := neutral[r.IntN(len(neutral))]
+			cf[j] = w
+			blocks[k] = append(blocks[k], w)
+		}
+	}
+	inside := func(b int) bool {
+		for _, s := range spans {
+			if int(s.start) < b && b < int(s.end) {
+				return true
+			}
+		}
+		return false
+	}
+	var free []int
+	for b := 0; b <= len(ids); b++ {
+		if !inside(b) {
+			free = append(free, b)
+		}
+	}
+	at := make(map[int][]int32)
+	for _, blk := range blocks {
+		b := free[r.IntN(len(free))]
+		at[b] = append(at[b], blk...)
+	}
+	ctl = make([]int32, 0, len(ids)+len(cf))
+	for b := 0; b <= len(ids); b++ {
+		ctl = append(ctl, at[b]...)
+		if b < len(ids) {
+			ctl = append(ctl, ids[b])
+		}
+	}
+	return cf, ctl
+}
+
+// basePass is the model on a set of texts as they are.
+type basePass struct {
+	pred   []int
+	probs  []float32 // n × C
+	pooled []float32 // n × nf
+	start  []int32   // n × nf: start of each filter's winning window
+}
+
+// runBase runs every text of d once, keeping what the filter evidence
+// needs.
+func runBase(ctx context.Context, st *explain.SlotTable, d Data, classes, nf, workers int) (*basePass, error) {
+	n := d.Len()
+	b := &basePass{pred: make([]int, n), probs: make([]float32, n*classes), pooled: make([]float32, n*nf), start: make([]int32, n*nf)}
+	err := explain.Scan(ctx, st, d.IDs, workers, nil, func(_, i int, p *explain.Pass) {
+		b.pred[i] = p.Pred
+		copy(b.probs[i*classes:], p.Probs)
+		copy(b.pooled[i*nf:], p.Pooled)
+		copy(b.start[i*nf:], p.Start)
+	})
+	return b, err
+}

