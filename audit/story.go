@@ -197,7 +197,7 @@ func (r *Result) writeStory(w io.Writer) {
 			p("    %s\n", pat)
 		}
 		p("then: telltale train --data %s --mask-tokens %s.cues --out %s-without.tt\n", train, base, base)
-		p("(Mark %s as artifact to keep this verdict with the model.)\n", it)
+		p("(Mark %s as artifact to keep this judgement with the model.)\n", it)
 		if t := r.Action.Tried; t != nil {
 			if r.Action.Mask != nil {
 				p("Masking filters %s helps on held-out texts that took no part in choosing them: accuracy %.3f → %.3f\n",
