@@ -148,7 +148,17 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		in.Audit = aud
 	}
 
-	n := opt.Examples
+	if err := explainExamples(ctx, &in, heldout, ho, pred, conf, opt.Examples, progress); err != nil {
+		return Input{}, err
+	}
+	return in, nil
+}
+
+// explainExamples explains the chosen held-out texts of ho (heldout as the
+// model reads it, pred and conf its predictions): n (default 2) correct,
+// wrong and cue-conflicting ones each.
+func explainExamples(ctx context.Context, in *Input, heldout *corpus.Dataset, ho audit.Data, pred []int, conf []float64, n int,
+	progress Progress) error {
 	if n <= 0 {
 		n = 2
 	}
@@ -163,22 +173,22 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	}
 	for i, pk := range picks {
 		if err := ctx.Err(); err != nil {
-			return Input{}, err
+			return err
 		}
 		progress("explain", i, len(picks))
-		e, err := explain.Explain(m, ho.Tokens[pk.index], ho.IDs[pk.index], explain.ExplainOptions{Profiles: prof, Occlusion: true})
+		e, err := explain.Explain(in.Model, ho.Tokens[pk.index], ho.IDs[pk.index], explain.ExplainOptions{Profiles: in.Profiles, Occlusion: true})
 		if err != nil {
-			return Input{}, fmt.Errorf("report: explaining %s: %w", heldout.Where(heldout.Examples[pk.index]), err)
+			return fmt.Errorf("report: explaining %s: %w", heldout.Where(heldout.Examples[pk.index]), err)
 		}
 		note := where(heldout, pk.index)
 		if pk.note != "" {
 			note = pk.note + "; " + note
 		}
-		in.Examples = append(in.Examples, Example{Kind: pk.kind, Text: ho.Texts[pk.index], Gold: m.Labels[ho.Gold[pk.index]],
+		in.Examples = append(in.Examples, Example{Kind: pk.kind, Text: ho.Texts[pk.index], Gold: in.Model.Labels[ho.Gold[pk.index]],
 			Note: note, Explanation: e})
 	}
 	progress("explain", len(picks), len(picks))
-	return in, nil
+	return nil
 }
 
 // where names a held-out example by file base name and line.
