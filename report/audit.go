@@ -93,7 +93,7 @@ func AuditMethod(r *audit.Result) []string {
 	return []string{
 		fmt.Sprintf("Association: %s (one-sided) of each word's training texts in each label; the %s word × label tests are corrected by %s at %g. "+
 			"Associated words grow into the longest phrase they keep in 80%% of their occurrences; a cue in at least %d training texts passes at p ≤ %s.",
-			TestName(r.Test), count(r.Tests), CorrectionName(r.Correction), r.Alpha, r.MinSupport, strings.TrimPrefix(pvalue(r.Cutoff), "= ")),
+			AssociationTestName(r.Test), count(r.Tests), CorrectionName(r.Correction), r.Alpha, r.MinSupport, strings.TrimPrefix(pvalue(r.Cutoff), "= ")),
 		"Reliance: each held-out text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
 			"kept with the same words put elsewhere; intervals are 95% bootstrap intervals over texts, sign tests are exact and one-sided. " +
 			"A cue is acted on when it is artifact-like, relied on in the choosing half and confirmed in the confirming half (Benjamini–Hochberg over the cues put to the test).",
@@ -123,15 +123,6 @@ func trainShares(s *corpus.Summary, labels []string) []float64 {
 func cmpOr(s, def string) string {
 	if s == "" {
 		return def
-	}
-	return s
-}
-
-// signedPoints formats a difference of shares as signed percentage points.
-func signedPoints(d float64) string {
-	s := floatf("%+.1f", 100*d)
-	if s == "-0.0" || s == "+0.0" {
-		s = "0.0"
 	}
 	return s
 }

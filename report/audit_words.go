@@ -41,8 +41,8 @@ var verdictWords = map[string]string{
 	audit.VerdictUnmeasured:  "too rare in the held-out texts to measure",
 }
 
-// TestName names an audit's test of association in plain words.
-func TestName(test string) string {
+// AssociationTestName names an audit's test of association in plain words.
+func AssociationTestName(test string) string {
 	if test == audit.TestBinomial {
 		return "exact binomial test"
 	}
@@ -107,7 +107,7 @@ func association(c *audit.Candidate, r *audit.Result, priors []float64) string {
 		s += fmt.Sprintf(", against %s of all training texts", pct(priors[c.Class]))
 	}
 	return s + fmt.Sprintf("; %s p %s, corrected over %s word × label tests (%s) p %s",
-		TestName(r.Test), pvalue(as.P), count(r.Tests), CorrectionName(r.Correction), pvalue(as.Adjusted))
+		AssociationTestName(r.Test), pvalue(as.P), count(r.Tests), CorrectionName(r.Correction), pvalue(as.Adjusted))
 }
 
 func reliance(c *audit.Candidate) string {
