@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"maps"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"regexp"
 	"slices"
@@ -441,5 +442,27 @@ func checkJSONDocumented(t *testing.T, raw []byte) {
 	walk(v)
 	if len(missing) > 0 {
 		t.Errorf("JSON keys not documented in the README: %v", slices.Sorted(maps.Keys(missing)))
+	}
+}
+
+// TestShellQuote: the commands the audit prints give each argument back
+// whole to a POSIX shell (/bin/sh, the reference); plain words stay bare.
+func TestShellQuote(t *testing.T) {
+	for _, s := range []string{"tkref - <number>", "won't", `"><img src=x>`, "$HOME `ls` \\ !", "a\nb", "", "bin/demo/ferry.tt", "x=1,y@2"} {
+		out, err := exec.Command("/bin/sh", "-c", "printf '%s' "+shellQuote(s)).Output()
+		if err != nil || string(out) != s {
+			t.Errorf("sh reads %q back as %q (%v)", s, out, err)
+		}
+	}
+	if got := shellJoin([]string{"--data", "bin/demo/train.csv"}); got != "--data bin/demo/train.csv" {
+		t.Errorf("plain words quoted: %s", got)
+	}
+	for _, c := range []struct {
+		n    int
+		want string
+	}{{0, "0"}, {999, "999"}, {1000, "1,000"}, {1234567, "1,234,567"}, {-4500, "-4,500"}} {
+		if got := count(c.n); got != c.want {
+			t.Errorf("count(%d) = %q, want %q", c.n, got, c.want)
+		}
 	}
 }
