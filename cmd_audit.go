@@ -2,95 +2,259 @@ package main
 
 import (
 	"context"
+	"errors"
 	"flag"
 	"fmt"
+	"io"
+	"io/fs"
+	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 
+	"telltale/audit"
 	"telltale/cnn"
-	"telltale/explain"
+	"telltale/corpus"
 	"telltale/internal/outguard"
 	"telltale/report"
 )
 
 var cmdAudit = &command{
-	Name:      "audit",
-	UsageLine: "audit --model MODEL --data TRAIN [--test FILE] [--top K] [--export FILE] [--masked-out MODEL2] [--json]",
-	Short:     "find the filters that key on spurious cues, with the evidence and interventions",
-	Long: `Audit looks for filters that learned an artifact of how the data was collected
-instead of the task. On the training split of --data it tests every token for
-an association with a label (the z-statistic of Gardner et al. 2021 with a
-Bonferroni-corrected threshold, and smoothed PMI) and measures how much of each
-filter's strong activations rests on the flagged tokens. On the test split
-(--test FILE; without it, the test split train held out of --data) it proves
-each suspect by ablation (the filter masked), by counterfactual substitution of
-its cue tokens with label-neutral words, and on the texts where the cue points
-away from the gold label. When --data is not the model's data, all of it serves
-both purposes, with a note. Flagged words that occur in the same texts are
-merged into one cue (a footer line, say), and the filters keyed on each cue
-are masked together too. Suspects and cues are ranked by scores whose every
-part is shown, and the output ends with the mask command to try (--masked-out
-writes that model).`,
+	Name: "audit",
+	UsageLine: "audit --model MODEL --data FILE [--test FILE] [--top K] [--export FILE] [--json]\n" +
+		"               [--marks FILE] [--mark-artifact CUE]... [--mark-task CUE]... [--unmark CUE]...\n" +
+		"               [--seeds N | --models M2,M3,...] [--stable-in K] [--retrain [--retrain-out MODEL2]] [--masked-out MODEL2]",
+	Short: "find the cues the model relies on that look like how its data was collected, and what to do",
+	Long: `Audit asks three questions of every word and phrase that predicts a label in
+the training split of --data, and tells in plain words what it found:
+
+  association        Does it predict a label in the training split? Fisher's
+                     exact test of each word in each label, corrected over
+                     every word and label tested (Benjamini-Hochberg); a word
+                     grows into the longest phrase it keeps (a footer line, a
+                     stamp with its number).
+  reliance           Does this model depend on it? In held-out texts that hold
+                     it, it is replaced by label-neutral words, against a
+                     control that keeps it and puts the same words elsewhere:
+                     how many predictions change and how much its label's
+                     probability falls, with 95% bootstrap intervals.
+  artifact-likeness  Does it read like how the data was collected rather than
+                     like the task? Where it sits (a line of its own, the start
+                     or end of the text), the same neighbours every time, its
+                     shape (an identifier with digits, an address, markup), and
+                     a label share that differs in the held-out texts.
+
+The held-out texts are the test split: --test FILE, or the test split train
+held out of --data. They are halved at random (--seed): the cues are ranked and
+chosen on one half, and every figure shown is measured on the other, which took
+no part in choosing them. The cues the model relies on that look like
+collection are ranked first; those that read like the task are listed apart,
+for you to judge. The output opens with the story; the commands that act on it
+and how the numbers are made close it.
+
+Marks keep your verdicts in a file beside the model (its name ending in
+.marks, or --marks FILE). --mark-artifact CUE and --mark-task CUE mark a cue,
+written as the audit shows it or as it appears in the text; --unmark CUE
+removes a mark. A cue marked artifact is acted on when the model relies on it,
+one marked task never is. With --data the audit runs with the new marks and
+the file is written only when it succeeds; without --data only the marks are
+written.
+
+--seeds N trains N more models with the model's recipe on the same splits
+(the model's seed + 1 ... + N) and audits each; --models names models already
+trained so. A cue acted on in at least --stable-in K of the audits (default: a
+majority) is stable. Filter numbers differ from model to model; cue words do
+not.
+
+--retrain trains a model without the cues acted on and those marked artifact
+(taken out of the training text as train's --mask-tokens does) and compares
+both models on the test split as it is and with the cues taken out;
+--retrain-out keeps the new model. --masked-out writes a copy of the model with
+the filters masked that helped on the confirming half; when none did, nothing
+is written and the command fails.`,
 	Options: func() options { return new(auditOptions) },
 	Run:     runAs(runAudit),
 }
 
+// maxSeeds bounds --seeds: each seed trains a whole model.
+const maxSeeds = 20
+
 type auditOptions struct {
-	model, data, test, maskedOut, export string
-	read                                 readOptions
-	top                                  int
-	seed                                 uint64
-	threads                              threadsOption
-	asJSON, quiet                        bool
+	model, data, test            string
+	read                         readOptions
+	top                          int
+	marks                        string
+	markArtifact, markTask, drop cueList
+	seeds                        int
+	models                       string
+	stableIn                     int
+	retrain                      bool
+	retrainOut, vectors          string
+	maskedOut, export            string
+	seed                         uint64
+	threads                      threadsOption
+	asJSON, quiet                bool
+
+	others []string // the --models items
 }
+
+// cueList is a repeatable option naming cues.
+type cueList []string
+
+func (c *cueList) String() string { return strings.Join(*c, "; ") }
+
+func (c *cueList) Set(s string) error {
+	if strings.TrimSpace(s) == "" {
+		return errors.New("give the cue's words, in quotes")
+	}
+	*c = append(*c, s)
+	return nil
+}
+
+func (*cueList) typeName() string { return "CUE" }
 
 func (o *auditOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.model, "model", "", "model file written by train")
 	fs.StringVar(&o.data, "data", "", "the labeled data the model was trained on")
-	fs.StringVar(&o.test, "test", "", "labeled test file for the interventions (default: the test split train held out of --data)")
+	fs.StringVar(&o.test, "test", "", "labeled test file: the held-out texts (default: the test split train held out of --data)")
 	o.read.register(fs, true)
-	intVar(fs, &o.top, "top", 10, "suspect filters reported, 1 or more (taken in turn from the cue groups, strongest group first)")
-	seedVar(fs, &o.seed, "seed", cnn.DefaultRecipe().Train.Seed, "random seed of the counterfactual substitutions")
+	intVar(fs, &o.top, "top", 15, "cues listed in each list, 1 or more")
+	fs.StringVar(&o.marks, "marks", "", "the marks file (default: beside the model, its name ending in .marks)")
+	fs.Var(&o.markArtifact, "mark-artifact", "mark a cue as an artifact of how the data was collected (repeatable)")
+	fs.Var(&o.markTask, "mark-task", "mark a cue as language of the task (repeatable)")
+	fs.Var(&o.drop, "unmark", "remove the mark of a cue (repeatable)")
+	intVar(fs, &o.seeds, "seeds", 0, fmt.Sprintf("also train this many models (at most %d) with the model's recipe and other seeds, and tell which cues are stable", maxSeeds))
+	fs.StringVar(&o.models, "models", "", "other models trained with the model's recipe on the same splits, comma-separated: tell which cues are stable")
+	intVar(fs, &o.stableIn, "stable-in", 0, "with --seeds or --models: a cue is stable when acted on in at least this many audits (0: a majority)")
+	fs.BoolVar(&o.retrain, "retrain", false, "train a model without the cues acted on or marked artifact and compare both models")
+	fs.StringVar(&o.retrainOut, "retrain-out", "", "with --retrain: write the retrained model to this file")
+	fs.StringVar(&o.vectors, "vectors", "", "with --seeds or --retrain: the word vectors the model was trained with (model files do not record them)")
+	fs.StringVar(&o.maskedOut, "masked-out", "", "write a copy of the model with the filters masked that helped on the confirming half")
+	fs.StringVar(&o.export, "export", "", "write the listed cues to this .csv or .jsonl file (with --seeds or --models, the stability table beside it, NAME.stability.csv)")
+	seedVar(fs, &o.seed, "seed", cnn.DefaultRecipe().Train.Seed, "random seed of the halves, the edits and the bootstrap")
 	o.threads.register(fs)
-	fs.StringVar(&o.maskedOut, "masked-out", "", "also write a copy of the model with the audit's suggested filters masked to this file")
-	fs.StringVar(&o.export, "export", "", "also write the suspect filters to this .csv or .jsonl file (and beside it the flagged tokens, NAME.tokens.csv, and the cue groups, NAME.groups.csv)")
 	fs.BoolVar(&o.asJSON, "json", false, "print the audit as one JSON object")
 	fs.BoolVar(&o.quiet, "quiet", false, "no progress bar, notes or warnings")
 }
 
+// marking reports whether the command line changes marks.
+func (o *auditOptions) marking() bool {
+	return len(o.markArtifact)+len(o.markTask)+len(o.drop) > 0
+}
+
 func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
-	if o.data == "" {
-		return usagef("--data is required: the labeled data the model was trained on")
+	if err := requireModel(o.model); err != nil {
+		return err
 	}
-	for _, err := range []error{requireModel(o.model), checkExport(o.export), checkAtLeast("top", o.top, 1, "suspect filters reported"),
+	if o.data == "" {
+		if !o.marking() {
+			return usagef("--data is required: the labeled data the model was trained on")
+		}
+		for _, name := range []string{"test", "seeds", "models", "retrain", "retrain-out", "masked-out", "export", "json"} {
+			if isSet(fs, name) {
+				return usagef("--%s needs --data: without it the audit only writes the marks", name)
+			}
+		}
+	}
+	var err error
+	if o.others, err = listItems("models", o.models); err != nil {
+		return err
+	}
+	audits := 1 + o.seeds + len(o.others)
+	for _, err := range []error{checkExport(o.export), checkAtLeast("top", o.top, 1, "cues listed in each list"),
+		checkAtLeast("seeds", o.seeds, 0, "models to train; 0 trains none"), checkAtLeast("stable-in", o.stableIn, 0, "audits; 0 is a majority"),
 		o.read.check(), o.threads.check(env.Stderr)} {
 		if err != nil {
 			return err
 		}
 	}
+	switch {
+	case o.seeds > maxSeeds:
+		return usagef("--seeds %d: give at most %d (each seed trains a whole model)", o.seeds, maxSeeds)
+	case o.seeds > 0 && len(o.others) > 0:
+		return usagef("give --seeds N or --models, not both")
+	case o.stableIn > audits:
+		return usagef("--stable-in %d: there are %d audits (the model and %d more)", o.stableIn, audits, audits-1)
+	case isSet(fs, "stable-in") && audits == 1:
+		return usagef("--stable-in needs --seeds or --models: the cues stable over several models")
+	case o.retrainOut != "" && !o.retrain:
+		return usagef("--retrain-out needs --retrain")
+	case o.vectors != "" && !o.retrain && o.seeds == 0:
+		return usagef("--vectors is for training: give it with --seeds or --retrain")
+	case slices.Contains(o.others, o.model):
+		return usagef("--models %s: the model itself is always audited; list the other models", clip(o.model))
+	}
+	return o.checkCues()
+}
+
+// checkCues refuses a cue given twice among the mark options.
+func (o *auditOptions) checkCues() error {
+	seen := map[string]string{}
+	for _, l := range []struct {
+		name string
+		cues cueList
+	}{{"mark-artifact", o.markArtifact}, {"mark-task", o.markTask}, {"unmark", o.drop}} {
+		for _, c := range l.cues {
+			key := strings.Join(strings.Fields(c), " ")
+			if prev, ok := seen[key]; ok {
+				return usagef("the cue %q is given to --%s and --%s: give each cue once", clip(key), prev, l.name)
+			}
+			seen[key] = l.name
+		}
+	}
 	return nil
 }
 
-// exportPaths are the files --export writes: the suspects, and beside them
-// the flagged tokens and the cue groups.
-func exportPaths(export string) (suspects, tokens, groups string) {
-	if export == "" {
-		return "", "", ""
+// marksPath is the marks file read and written.
+func (o *auditOptions) marksPath() string {
+	if o.marks != "" {
+		return o.marks
 	}
-	ext := filepath.Ext(export)
-	base := strings.TrimSuffix(export, ext)
-	return export, base + ".tokens" + ext, base + ".groups" + ext
+	return audit.MarksPath(o.model)
+}
+
+// stabilityPath is the table --export writes beside the cues with --seeds
+// or --models ("" when none).
+func (o *auditOptions) stabilityPath() string {
+	if o.export == "" || o.seeds+len(o.others) == 0 {
+		return ""
+	}
+	ext := filepath.Ext(o.export)
+	return strings.TrimSuffix(o.export, ext) + ".stability" + ext
 }
 
 func (o *auditOptions) files() (outputs, inputs []outguard.File) {
-	suspects, tokens, groups := exportPaths(o.export)
-	return []outguard.File{{Name: "--export", Path: suspects}, {Name: "--export's token table", Path: tokens},
-			{Name: "--export's group table", Path: groups}, {Name: "--masked-out", Path: o.maskedOut}},
-		[]outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.data}, {Name: "--test", Path: o.test}}
+	outputs = []outguard.File{{Name: "--export", Path: o.export}, {Name: "--export's stability table", Path: o.stabilityPath()},
+		{Name: "--masked-out", Path: o.maskedOut}, {Name: "--retrain-out", Path: o.retrainOut}}
+	inputs = []outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.data}, {Name: "--test", Path: o.test},
+		{Name: "--vectors", Path: o.vectors}}
+	for _, p := range o.others {
+		inputs = append(inputs, outguard.File{Name: "--models", Path: p})
+	}
+	// The marks file is the one file the audit both reads and writes: an
+	// output when the marks change, else an input.
+	marks := outguard.File{Name: "the marks file (--marks)", Path: o.marksPath()}
+	if o.marking() {
+		outputs = append(outputs, marks)
+	} else {
+		inputs = append(inputs, marks)
+	}
+	return outputs, inputs
 }
 
 func runAudit(ctx context.Context, env *runEnv, o *auditOptions) error {
 	m, _, err := openModel(o.model)
+	if err != nil {
+		return err
+	}
+	marks, err := o.loadMarks(m)
+	if err != nil {
+		return err
+	}
+	if o.data == "" {
+		return o.writeMarks(env, marks)
+	}
+	others, err := o.openOthers(m)
 	if err != nil {
 		return err
 	}
@@ -99,70 +263,387 @@ func runAudit(ctx context.Context, env *runEnv, o *auditOptions) error {
 		return err
 	}
 	say(env.Stderr, o.quiet, "%s", es.note)
-	a, err := o.audit(ctx, env, m, es)
+	var recipe *cnn.Recipe
+	if o.retrain || o.seeds > 0 {
+		if recipe, err = o.trainingRecipe(m, es); err != nil {
+			return err
+		}
+	}
+	run := &auditRun{o: o, env: env, es: es, marks: marks, bar: newProgressBar(env.Stderr, o.quiet)}
+	out, err := run.all(ctx, m, others, recipe)
+	run.bar.done()
 	if err != nil {
 		return err
 	}
-	if err := o.writeFiles(env, m, a); err != nil {
+	if err := o.writeFiles(env, m, marks, out); err != nil {
 		return err
 	}
 	if o.asJSON {
-		return writeJSON(env.Stdout, a)
+		err = writeJSON(env.Stdout, out)
+	} else {
+		err = writeAuditText(env.Stdout, newAuditView(o, es, run.priors, out))
 	}
-	return a.WriteText(env.Stdout)
+	if err != nil {
+		return err
+	}
+	if o.maskedOut != "" && out.Action.Mask == nil {
+		return fmt.Errorf("%s was not written: masking the filters that read the cues acted on did not help on the confirming half "+
+			"(or no cue was acted on), so the audit suggests no filter mask; retrain without the cues instead (--retrain)", o.maskedOut)
+	}
+	return nil
 }
 
-// audit runs the audit of m with evidence from es.train and interventions
-// on es.test.
-func (o *auditOptions) audit(ctx context.Context, env *runEnv, m *cnn.Model, es *evalSet) (*explain.Audit, error) {
-	maxLen := 0
-	if m.Info.Recipe != nil {
-		maxLen = m.Info.Recipe.MaxLen
-	}
-	trainData, err := explain.NewAuditData(m, es.train, maxLen, o.threads.N)
+// auditJSON is what --json prints: the audit of the model (its fields at
+// the top level) with the story and what the options added.
+type auditJSON struct {
+	*audit.Result
+	Story string `json:"story"`
+	// HeldoutSplit is "test", or "all" when the held-out texts are all of
+	// --data (not the model's data, or a model that does not record its
+	// splits).
+	HeldoutSplit string `json:"heldout_split"`
+	MarksFile    string `json:"marks_file"`
+	// Stability is over the model and the models of --seeds or --models.
+	Stability []audit.Stable `json:"stability,omitempty"`
+	StableIn  int            `json:"stable_in,omitempty"`
+	// Retrained is --retrain's comparison; RetrainedModel where
+	// --retrain-out wrote the model.
+	Retrained      *audit.Retrained `json:"retrained,omitempty"`
+	RetrainedModel string           `json:"retrained_model,omitempty"`
+	MaskedModel    string           `json:"masked_model,omitempty"`
+}
+
+// auditRun is one run of the command: the audits of the model and of the
+// other models, the stability over them and the retraining.
+type auditRun struct {
+	o      *auditOptions
+	env    *runEnv
+	es     *evalSet
+	marks  *audit.Marks
+	bar    *progressBar
+	priors []float64 // each label's share of the training split
+}
+
+// all audits m (and the other models), merges the audits and retrains as
+// the options ask.
+func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, recipe *cnn.Recipe) (*auditJSON, error) {
+	res, err := r.one(ctx, m, r.marks, "")
 	if err != nil {
 		return nil, err
 	}
-	heldData, err := explain.NewAuditData(m, es.test, maxLen, o.threads.N)
+	inHeldout(res)
+	out := &auditJSON{Result: res, Story: res.Story(), HeldoutSplit: r.es.name, MarksFile: r.o.marksPath()}
+	results := []*audit.Result{res}
+	for k := range r.o.seeds {
+		seed := recipe.Train.Seed + uint64(k) + 1
+		sm, err := r.train(ctx, *recipe, seed, fmt.Sprintf("model %d of %d (seed %d)", k+1, r.o.seeds, seed))
+		if err != nil {
+			return nil, err
+		}
+		others = append(others, sm)
+	}
+	for k, om := range others {
+		or, err := r.one(ctx, om, knownMarks(r.marks, om), fmt.Sprintf("model %d of %d: ", k+2, len(others)+1))
+		if err != nil {
+			return nil, err
+		}
+		results = append(results, or)
+	}
+	if len(results) > 1 {
+		out.StableIn = r.o.stableIn
+		if out.StableIn == 0 {
+			out.StableIn = len(results)/2 + 1
+		}
+		out.Stability = audit.Stability(results, out.StableIn)
+	}
+	if r.o.retrain {
+		if out.Retrained, err = r.retrain(ctx, m, res, *recipe); err != nil {
+			return nil, err
+		}
+		if r.o.retrainOut != "" {
+			out.RetrainedModel = r.o.retrainOut
+		}
+	}
+	if r.o.maskedOut != "" && res.Action.Mask != nil {
+		out.MaskedModel = r.o.maskedOut
+	}
+	return out, nil
+}
+
+// inHeldout numbers the quoted examples of r by their place in the
+// held-out split (the audit numbers them within their half), as the JSON
+// documents them.
+func inHeldout(r *audit.Result) {
+	for _, list := range [][]audit.Candidate{r.Ranked, r.Task, r.Others} {
+		for _, c := range list {
+			for _, h := range []struct {
+				rl  *audit.Reliance
+				idx []int
+			}{{c.Reliance, r.Selection}, {c.Confirmed, r.Confirmation}} {
+				if h.rl == nil {
+					continue
+				}
+				for k := range h.rl.Examples {
+					h.rl.Examples[k].Index = h.idx[h.rl.Examples[k].Index]
+				}
+			}
+		}
+	}
+}
+
+// one audits model m on the splits with marks; what prefixes the progress.
+func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, what string) (*audit.Result, error) {
+	train, err := audit.NewData(m, r.es.train, r.o.threads.N)
+	if err != nil {
+		return nil, fmt.Errorf("the training split of %s: %w", r.o.data, err)
+	}
+	held, err := audit.NewData(m, r.es.test, r.o.threads.N)
+	if err != nil {
+		return nil, fmt.Errorf("the held-out texts (%s): %w", cmpOr(r.o.test, r.o.data), err)
+	}
+	if r.priors == nil {
+		r.priors = make([]float64, len(m.Labels))
+		for _, g := range train.Gold {
+			r.priors[g] += 1 / float64(len(train.Gold))
+		}
+	}
+	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.o.test, r.o.data),
+		Seed: r.o.seed, Workers: r.o.threads.N}
+	return audit.Run(ctx, m, train, held, opt, func(stage string, done, total int) {
+		r.bar.show(done, total, what+"audit: "+stage, false)
+	})
+}
+
+// train trains one more model with recipe and seed on the model's splits.
+func (r *auditRun) train(ctx context.Context, recipe cnn.Recipe, seed uint64, what string) (*cnn.Model, error) {
+	recipe.Train.Seed = seed
+	tr, err := cnn.TrainText(ctx, r.es.train, r.es.dev, recipe, func(p cnn.Progress) {
+		if p.Phase == "train" {
+			r.bar.show(p.Batch, p.Batches, fmt.Sprintf("%s: epoch %d/%d", what, p.Epoch, p.Epochs), false)
+		}
+	})
+	if err == nil {
+		err = ctx.Err()
+	}
+	if err == nil && tr.Result.Diverged != nil {
+		err = fmt.Errorf("training %s diverged in epoch %d: the model's recipe does not train stably with this seed", what, tr.Result.Diverged.Epoch)
+	}
 	if err != nil {
 		return nil, err
 	}
-	bar := newProgressBar(env.Stderr, o.quiet)
-	a, err := explain.RunAudit(ctx, m, trainData, heldData, explain.AuditOptions{Top: o.top, Seed: o.seed, Workers: o.threads.N,
-		ModelFile: o.model, HeldoutFile: o.test},
-		func(stage string, done, total int) { bar.show(done, total, stage, false) })
-	bar.done()
-	return a, err
+	return tr.Model, nil
 }
 
-// writeFiles writes the exports and the masked model the options ask for.
-func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, a *explain.Audit) error {
+// retrain trains without the cues acted on and those marked artifact and
+// compares the two models on the test split with and without them.
+func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result, recipe cnn.Recipe) (*audit.Retrained, error) {
+	patterns := slices.Clone(res.Action.Patterns)
+	for _, p := range r.marks.Patterns() {
+		if !slices.Contains(patterns, p) {
+			patterns = append(patterns, p)
+		}
+	}
+	if len(patterns) == 0 {
+		return nil, errors.New("--retrain: the audit acted on no cue and no cue is marked artifact, so there is nothing to retrain without; " +
+			"mark a cue with --mark-artifact CUE if you judge it an artifact")
+	}
+	rt, err := audit.Retrain(ctx, m, patterns, r.es.train, r.es.dev, r.es.test, recipe, func(p cnn.Progress) {
+		if p.Phase == "train" {
+			r.bar.show(p.Batch, p.Batches, fmt.Sprintf("retraining without the cues: epoch %d/%d", p.Epoch, p.Epochs), false)
+		}
+	})
+	if err == nil {
+		err = ctx.Err()
+	}
+	return rt, err
+}
+
+// loadMarks reads the marks file (none yet is no marks, unless --marks
+// names it and nothing is marked) and applies the mark options.
+func (o *auditOptions) loadMarks(m *cnn.Model) (*audit.Marks, error) {
+	path := o.marksPath()
+	marks, err := audit.ReadMarks(path, m)
+	switch {
+	case errors.Is(err, fs.ErrNotExist) && (o.marks == "" || o.marking()):
+		marks = audit.NewMarks()
+	case errors.Is(err, fs.ErrNotExist):
+		return nil, fmt.Errorf("--marks %s does not exist: give a marks file the audit wrote, or mark a cue to start one", path)
+	case err != nil:
+		return nil, err
+	}
+	for _, l := range []struct {
+		cues cueList
+		kind string
+	}{{o.markArtifact, audit.MarkArtifact}, {o.markTask, audit.MarkTask}, {o.drop, ""}} {
+		for _, c := range l.cues {
+			words, err := cueWords(m, c)
+			if err != nil {
+				return nil, err
+			}
+			if err := marks.Set(words, l.kind); err != nil {
+				return nil, err
+			}
+		}
+	}
+	return marks, nil
+}
+
+// writeMarks writes the marks file when the marks changed, and says so.
+func (o *auditOptions) writeMarks(env *runEnv, marks *audit.Marks) error {
+	if !o.marking() {
+		return nil
+	}
+	path := o.marksPath()
+	if err := marks.Write(path); err != nil {
+		return fmt.Errorf("writing the marks: %w", err)
+	}
+	if !o.quiet {
+		fmt.Fprintf(env.Stderr, "marks written to %s: %d cues marked artifact, %d task\n", path,
+			len(marks.Cues(audit.MarkArtifact)), len(marks.Cues(audit.MarkTask)))
+	}
+	return nil
+}
+
+// cueWords are the words of a cue given on the command line, as the audit
+// writes them: the words as given when the model knows each (or it is
+// audit.NumberWord), else the text split by the model's tokenizer with
+// every number written as audit.NumberWord.
+func cueWords(m *cnn.Model, cue string) ([]string, error) {
+	known := make(map[string]bool, len(m.Vocab))
+	for _, w := range m.Vocab {
+		known[w] = true
+	}
+	fields := strings.Fields(cue)
+	if !slices.ContainsFunc(fields, func(w string) bool { return !known[w] && w != audit.NumberWord }) {
+		return fields, nil
+	}
+	tok, err := corpus.NewTokenizer(m.Tokenizer)
+	if err != nil {
+		return nil, err
+	}
+	var words []string
+	for _, t := range tok.Tokenize(cue) {
+		w := t.Text
+		if strings.Trim(w, "0123456789") == "" {
+			w = audit.NumberWord
+		}
+		if !known[w] && w != audit.NumberWord {
+			return nil, usagef("the cue %q holds %q, which the model does not know: copy the cue as the audit shows it (in quotes)", clip(cue), clip(w))
+		}
+		words = append(words, w)
+	}
+	if len(words) == 0 {
+		return nil, usagef("the cue %q holds no word: copy the cue as the audit shows it (in quotes)", clip(cue))
+	}
+	return words, nil
+}
+
+// knownMarks are the marks whose words model m knows (another model's
+// vocabulary may lack a marked word, which then marks nothing there).
+func knownMarks(marks *audit.Marks, m *cnn.Model) *audit.Marks {
+	known := make(map[string]bool, len(m.Vocab))
+	for _, w := range m.Vocab {
+		known[w] = true
+	}
+	out := audit.NewMarks()
+	for _, kind := range []string{audit.MarkArtifact, audit.MarkTask} {
+		for _, ws := range marks.Cues(kind) {
+			if !slices.ContainsFunc(ws, func(w string) bool { return !known[w] && w != audit.NumberWord }) {
+				out.Set(ws, kind) // the words are those of a cue already marked: Set cannot fail
+			}
+		}
+	}
+	return out
+}
+
+// openOthers loads the --models, which must have the model's labels and
+// splits.
+func (o *auditOptions) openOthers(m *cnn.Model) ([]*cnn.Model, error) {
+	var out []*cnn.Model
+	for _, p := range o.others {
+		om, _, err := openModel(p)
+		if err != nil {
+			return nil, err
+		}
+		if !slices.Equal(om.Labels, m.Labels) {
+			return nil, usagef("--models %s has the labels %s but --model has %s: stability needs models of the same labels", p, listed(om.Labels), listed(m.Labels))
+		}
+		if m.Info.Splits == nil || !sameSplits(om.Info.Splits, m.Info.Splits) {
+			return nil, usagef("--models %s was not trained on the splits of --model: its training texts may be held-out texts of the audit; "+
+				"train it with the same --data and split options (or use --seeds N)", p)
+		}
+		out = append(out, om)
+	}
+	return out, nil
+}
+
+// trainingRecipe is the recipe that trained m, for --seeds and --retrain,
+// which train on m's own training and dev splits.
+func (o *auditOptions) trainingRecipe(m *cnn.Model, es *evalSet) (*cnn.Recipe, error) {
+	what := map[bool]string{true: "--retrain", false: "--seeds"}[o.retrain]
+	if m.Info.Recipe == nil {
+		return nil, fmt.Errorf("%s: %s records no training recipe (an imported model?): %s trains with the model's recipe; train a model with telltale train", what, o.model, what)
+	}
+	if es.dev == nil {
+		return nil, fmt.Errorf("%s: %s is not the data %s was trained on (by its split record): %s trains on the model's own training split; give that data", what, o.data, o.model, what)
+	}
+	if rec := m.Info.Splits; rec.DevFile != "" {
+		dev, err := o.read.read(rec.DevFile, false, io.Discard, true)
+		if err != nil {
+			return nil, fmt.Errorf("%s: the model's dev split is the file it was trained with (%s), which cannot be read: %w", what, rec.DevFile, err)
+		}
+		es.dev = dev
+	}
+	if o.vectors != "" {
+		if _, err := os.Stat(o.vectors); err != nil {
+			return nil, fmt.Errorf("--vectors: %w", err)
+		}
+	}
+	r := cnn.Recipe{Tokenizer: m.Tokenizer, Model: m.Config, Train: *m.Info.Recipe, VectorsPath: o.vectors}
+	r.Tokenizer.SubwordPieces = nil // learned again on the training text
+	r.Model.VocabSize, r.Model.Classes = 0, 0
+	r.Train.Threads = o.threads.N
+	return &r, nil
+}
+
+// writeFiles writes the exports, the marks and the models the options ask
+// for.
+func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, marks *audit.Marks, out *auditJSON) error {
 	if o.export != "" {
-		suspects, tokens, groups := exportPaths(o.export)
-		for _, f := range []struct {
-			path  string
-			table *report.Table
-		}{{suspects, report.SuspectTable(a)}, {tokens, report.TokenTable(a)}, {groups, report.CueGroupTable(a)}} {
-			if err := report.WriteTableFile(f.path, f.table); err != nil {
+		if err := report.WriteTableFile(o.export, report.CueTable(out.Result)); err != nil {
+			return err
+		}
+		if p := o.stabilityPath(); p != "" {
+			if err := report.WriteTableFile(p, report.StabilityTable(out.Stability)); err != nil {
 				return err
 			}
 		}
 	}
-	if o.maskedOut == "" {
-		return nil
-	}
-	if a.Plan == nil || len(a.Plan.Filters) == 0 {
-		return fmt.Errorf("the audit suggests no filters to mask, so %s was not written", o.maskedOut)
-	}
-	masked, err := explain.MaskFilters(m, a.Plan.Filters)
-	if err != nil {
+	if err := o.writeMarks(env, marks); err != nil {
 		return err
 	}
-	if err := masked.Save(o.maskedOut); err != nil {
-		return err
+	if o.retrainOut != "" {
+		if err := out.Retrained.Model.Save(o.retrainOut); err != nil {
+			return err
+		}
+		say(env.Stderr, o.quiet, "the retrained model is written to %s", o.retrainOut)
 	}
-	if !o.quiet {
-		fmt.Fprintf(env.Stderr, "model with the %d suggested filters masked written to %s\n", len(a.Plan.Filters), o.maskedOut)
+	if o.maskedOut != "" && out.Action.Mask != nil {
+		masked, err := m.MaskedCopy(out.Action.Mask)
+		if err != nil {
+			return err
+		}
+		if err := masked.Save(o.maskedOut); err != nil {
+			return err
+		}
+		say(env.Stderr, o.quiet, "the model with filters %s masked is written to %s", joinInts(out.Action.Mask), o.maskedOut)
 	}
 	return nil
+}
+
+func cmpOr(s, def string) string {
+	if s == "" {
+		return def
+	}
+	return s
 }

@@ -2,10 +2,13 @@ package main
 
 import (
 	"context"
+	"errors"
 	"flag"
 	"fmt"
+	"io/fs"
 	"path/filepath"
 
+	"telltale/audit"
 	"telltale/internal/outguard"
 	"telltale/report"
 )
@@ -64,7 +67,8 @@ func (o *reportOptions) check(fs *flag.FlagSet, env *runEnv) error {
 
 func (o *reportOptions) files() (outputs, inputs []outguard.File) {
 	return []outguard.File{{Name: "--out", Path: o.out}},
-		[]outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.data}, {Name: "--test", Path: o.test}}
+		[]outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.data}, {Name: "--test", Path: o.test},
+			{Name: "the model's marks file", Path: audit.MarksPath(o.model)}}
 }
 
 func runReport(ctx context.Context, env *runEnv, o *reportOptions) error {
@@ -77,13 +81,18 @@ func runReport(ctx context.Context, env *runEnv, o *reportOptions) error {
 		return err
 	}
 	say(env.Stderr, o.quiet, "%s", es.note)
+	// The audit honours the marks kept beside the model (telltale audit --mark-…).
+	marks, err := audit.ReadMarks(audit.MarksPath(o.model), m)
+	if err != nil && !errors.Is(err, fs.ErrNotExist) {
+		return err
+	}
 	name := es.name
 	if name == "all" {
 		name = "evaluation"
 	}
 	bar := newProgressBar(env.Stderr, o.quiet)
 	r, err := report.Build(ctx, m, es.train, es.test, report.Options{Title: o.title, ModelPath: o.model, HeldOut: name, HeldOutNote: es.note,
-		SkipAudit: o.noAudit, Threads: o.threads.N},
+		SkipAudit: o.noAudit, Threads: o.threads.N, Audit: audit.Options{Marks: marks, TrainFile: o.data, HeldoutFile: cmpOr(o.test, o.data)}},
 		func(stage string, done, total int) { bar.show(done, total, stage, false) })
 	bar.done()
 	if err != nil {

@@ -25,7 +25,7 @@ var guardCommands = []guardCommand{
 	{"predict", []string{"--export"}, []string{"--model", "--data"}, nil},
 	{"explain", []string{"--export"}, []string{"--model", "--data"}, nil},
 	{"filters", []string{"--export"}, []string{"--model", "--data"}, nil},
-	{"audit", []string{"--export", "--masked-out"}, []string{"--model", "--data", "--test"}, nil},
+	{"audit", []string{"--export", "--masked-out", "--retrain-out"}, []string{"--model", "--data", "--test", "--models", "--vectors", "--marks"}, []string{"--retrain"}},
 	{"mask", []string{"--out"}, []string{"--model", "--data", "--test"}, []string{"--filters", "0"}},
 	{"report", []string{"--out"}, []string{"--model", "--data", "--test"}, nil},
 	{"import", []string{"--out"}, []string{"--state-dict", "--vocab", "--labels-file", "--tokenizer", "--check-texts", "--check-logits"}, nil},
@@ -53,6 +53,8 @@ func guardInputs(t *testing.T) map[string][]byte {
 	}
 	return map[string][]byte{"--data": data, "--dev": two, "--test": two, "--model": model,
 		"--vectors": []byte("ferry 0.1 0.2 0.3 0.4\n"), "--tokenizer": tok, "--mask-tokens": []byte("/TKREF-[0-9]{5}/\n"),
+		// audit's: another model, and a marks file.
+		"--models": model, "--marks": []byte("artifact\ttkref - <number>\n"),
 		// import's inputs: the guard refuses before any of them is read.
 		"--state-dict": []byte("PK not a real state_dict"), "--vocab": []byte("<pad>\n<unk>\nferry\n"),
 		"--labels-file": []byte("a\nb\n"), "--check-texts": []byte("ferry\n"), "--check-logits": []byte("not read")}
@@ -151,8 +153,9 @@ func checkGuard(t *testing.T, gc guardCommand, out, in string, alias func(*testi
 }
 
 // TestOutputGuardFoldersAndSidecars: an output inside an input folder, an
-// audit export whose side tables would land on an input, and two outputs
-// naming one file are refused the same way.
+// audit export whose side table would land on an input, an audit's marks
+// file (written when a cue is marked) on an input or another output, and two
+// outputs naming one file are refused the same way.
 func TestOutputGuardFoldersAndSidecars(t *testing.T) {
 	model := tinyModel(t)
 	dir := t.TempDir()
@@ -164,16 +167,19 @@ func TestOutputGuardFoldersAndSidecars(t *testing.T) {
 		}
 	}
 	data := demoPart(t, dir, 300)
-	tokens := filepath.Join(dir, "sus.tokens.csv") // what --export sus.csv writes beside it
-	os.WriteFile(tokens, []byte("keep me\n"), 0o644)
+	stability := filepath.Join(dir, "sus.stability.csv") // what --export sus.csv writes beside it with --seeds
+	os.WriteFile(stability, []byte("keep me\n"), 0o644)
+	marks := filepath.Join(filepath.Dir(model), "m.marks") // the marks file beside the model, written when a cue is marked
 	cases := []struct {
 		args []string
 		want string
 	}{
 		{[]string{"train", "--data", folder, "--out", filepath.Join(folder, "ham", "4.txt")}, "is inside the --data folder"},
 		{[]string{"eval", "--model", model, "--test", folder, "--export", filepath.Join(folder, "x.csv")}, "is inside the --test folder"},
-		{[]string{"audit", "--model", model, "--data", data, "--test", tokens, "--export", filepath.Join(dir, "sus.csv")}, "--export's token table " + tokens + " is --test"},
+		{[]string{"audit", "--model", model, "--data", data, "--test", stability, "--seeds", "2", "--export", filepath.Join(dir, "sus.csv")}, "--export's stability table " + stability + " is --test"},
 		{[]string{"audit", "--model", model, "--data", data, "--export", filepath.Join(dir, "a.csv"), "--masked-out", filepath.Join(dir, "x", "..", "a.csv")}, "are one file"},
+		{[]string{"audit", "--model", model, "--data", data, "--mark-task", "ferry", "--masked-out", marks}, "are one file"},
+		{[]string{"audit", "--model", model, "--data", data, "--mark-task", "ferry", "--marks", data}, "the marks file (--marks) " + data + " is --data"},
 	}
 	for _, c := range cases {
 		code, _, stderr := tt(t, c.args...)
@@ -181,7 +187,7 @@ func TestOutputGuardFoldersAndSidecars(t *testing.T) {
 			t.Errorf("%q: exit %d, stderr %q; want exit 2 and %q", c.args, code, stderr, c.want)
 		}
 	}
-	if b, _ := os.ReadFile(tokens); string(b) != "keep me\n" {
+	if b, _ := os.ReadFile(stability); string(b) != "keep me\n" {
 		t.Errorf("the input beside the export changed: %q", b)
 	}
 	if _, err := os.Stat(filepath.Join(folder, "ham", "4.txt")); err == nil {

@@ -110,6 +110,7 @@ func absPath(path string) string {
 type evalSet struct {
 	train *corpus.Dataset // the training split of --data (all of it when the model's split is not found); nil without --data
 	test  *corpus.Dataset // the texts to evaluate on
+	dev   *corpus.Dataset // the dev share of --data when it is the model's data (empty when the model had a dev file); else nil
 	name  string          // "test", or "all" when that is all of --data
 	note  string          // where the texts come from, for the user
 }
@@ -135,7 +136,7 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	rec := m.Info.Splits
 	same := all != nil && rec != nil && rec.Examples == len(all.Examples) && rec.Fingerprint == all.Fingerprint()
 	if same {
-		es.train, _, es.test = all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
+		es.train, es.dev, es.test = all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
 	}
 	switch {
 	case test != "":

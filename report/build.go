@@ -6,9 +6,9 @@ import (
 	"fmt"
 	"path/filepath"
 	"slices"
-	"strings"
 	"time"
 
+	"telltale/audit"
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
@@ -32,9 +32,10 @@ type Options struct {
 	// Profile controls the filter profiles over the training split; its
 	// Progress is set by Build.
 	Profile explain.ProfileOptions
-	// Audit controls the cue audit (its Profiles and, when zero, Workers
-	// are set by Build); SkipAudit leaves the audit out.
-	Audit     explain.AuditOptions
+	// Audit controls the cue audit (its ModelFile, when empty, is
+	// ModelPath and its Workers, when zero, Threads); SkipAudit leaves the
+	// audit out.
+	Audit     audit.Options
 	SkipAudit bool
 	// Threads is the number of goroutines (0: GOMAXPROCS).
 	Threads int
@@ -96,15 +97,12 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		return Input{}, err
 	}
 
-	maxLen := 0
-	if m.Info.Recipe != nil {
-		maxLen = m.Info.Recipe.MaxLen
-	}
-	tr, err := explain.NewAuditData(m, train, maxLen, opt.Threads)
+	// Both splits as the model reads them: tokens, ids and gold labels.
+	tr, err := audit.NewData(m, train, opt.Threads)
 	if err != nil {
 		return Input{}, fmt.Errorf("report: training split: %w", err)
 	}
-	ho, err := explain.NewAuditData(m, heldout, maxLen, opt.Threads)
+	ho, err := audit.NewData(m, heldout, opt.Threads)
 	if err != nil {
 		return Input{}, fmt.Errorf("report: held-out split: %w", err)
 	}
@@ -141,51 +139,56 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 
 	if !opt.SkipAudit {
 		aopt := opt.Audit
-		aopt.Profiles = prof
-		if aopt.ModelFile == "" {
-			aopt.ModelFile = opt.ModelPath
-		}
-		if aopt.Workers == 0 {
-			aopt.Workers = opt.Threads
-		}
-		aud, err := explain.RunAudit(ctx, m, tr, ho, aopt, func(stage string, done, total int) { progress("audit "+stage, done, total) })
+		aopt.ModelFile = cmp.Or(aopt.ModelFile, opt.ModelPath)
+		aopt.Workers = cmp.Or(aopt.Workers, opt.Threads)
+		aud, err := audit.Run(ctx, m, tr, ho, aopt, func(stage string, done, total int) { progress("audit "+stage, done, total) })
 		if err != nil {
 			return Input{}, fmt.Errorf("report: cue audit: %w", err)
 		}
 		in.Audit = aud
 	}
 
-	n := opt.Examples
+	if err := explainExamples(ctx, &in, heldout, ho, pred, conf, opt.Examples, progress); err != nil {
+		return Input{}, err
+	}
+	return in, nil
+}
+
+// explainExamples explains the chosen held-out texts of ho (heldout as the
+// model reads it, pred and conf its predictions): n (default 2) correct,
+// wrong and cue-conflicting ones each.
+func explainExamples(ctx context.Context, in *Input, heldout *corpus.Dataset, ho audit.Data, pred []int, conf []float64, n int,
+	progress Progress) error {
 	if n <= 0 {
 		n = 2
 	}
 	picks := pickExamples(ho.Gold, pred, conf, n)
 	if in.Audit != nil {
 		picks = append(picks, conflictPicks(in.Audit, n)...)
-		if len(picks) > 0 && picks[len(picks)-1].kind != KindCueConflict {
-			in.ExamplesNote = "The cue audit found no held-out text whose cue points to another label than its gold one."
+		if len(picks) == 0 || picks[len(picks)-1].kind != KindCueConflict {
+			in.ExamplesNote = "The cue audit acted on no cue whose replacement changed the label of a confirming text whose gold label is another, so no cue-conflicting text is shown."
 		}
 	} else {
-		in.ExamplesNote = "Cue-conflicting examples (a cue word pointing to another label than the gold one) come from the cue audit, which was not run for this report."
+		in.ExamplesNote = "Cue-conflicting examples (texts holding a cue the audit acted on that points to another label than the gold one) come from the cue audit, which was not run for this report."
 	}
 	for i, pk := range picks {
 		if err := ctx.Err(); err != nil {
-			return Input{}, err
+			return err
 		}
 		progress("explain", i, len(picks))
-		e, err := explain.Explain(m, ho.Tokens[pk.index], ho.IDs[pk.index], explain.ExplainOptions{Profiles: prof, Occlusion: true})
+		e, err := explain.Explain(in.Model, ho.Tokens[pk.index], ho.IDs[pk.index], explain.ExplainOptions{Profiles: in.Profiles, Occlusion: true})
 		if err != nil {
-			return Input{}, fmt.Errorf("report: explaining %s: %w", heldout.Where(heldout.Examples[pk.index]), err)
+			return fmt.Errorf("report: explaining %s: %w", heldout.Where(heldout.Examples[pk.index]), err)
 		}
 		note := where(heldout, pk.index)
 		if pk.note != "" {
 			note = pk.note + "; " + note
 		}
-		in.Examples = append(in.Examples, Example{Kind: pk.kind, Text: ho.Texts[pk.index], Gold: m.Labels[ho.Gold[pk.index]],
+		in.Examples = append(in.Examples, Example{Kind: pk.kind, Text: ho.Texts[pk.index], Gold: in.Model.Labels[ho.Gold[pk.index]],
 			Note: note, Explanation: e})
 	}
 	progress("explain", len(picks), len(picks))
-	return in, nil
+	return nil
 }
 
 // where names a held-out example by file base name and line.
@@ -231,29 +234,24 @@ func pickExamples(gold, pred []int, conf []float64, n int) []pick {
 	return out
 }
 
-// conflictPicks takes up to n cue-conflicting held-out texts from the audit's
-// suspects, highest score first: first the quoted ones (where masking the
-// filter changed the prediction), then the rest of each subset.
-func conflictPicks(a *explain.Audit, n int) []pick {
+// conflictPicks takes up to n cue-conflicting held-out texts from the
+// audit: texts of the confirming half holding a cue it acted on, whose gold
+// label is not the cue's and whose label changed when the cue was replaced
+// (the audit's quoted examples), the first cue first.
+func conflictPicks(r *audit.Result, n int) []pick {
 	var out []pick
 	seen := map[int]bool{}
-	add := func(s explain.Suspect, i int) {
-		if len(out) < n && !seen[i] {
-			seen[i] = true
-			cues := make([]string, len(s.Cues))
-			for k, c := range s.Cues {
-				cues[k] = c.Token
+	for _, c := range r.Ranked {
+		if c.Verdict != audit.VerdictActed || c.Confirmed == nil {
+			continue
+		}
+		for _, e := range c.Confirmed.Examples {
+			i := r.Confirmation[e.Index] // the example's index is in the confirming half
+			if len(out) < n && !seen[i] && e.Gold != c.Label {
+				seen[i] = true
+				out = append(out, pick{kind: KindCueConflict, index: i,
+					note: fmt.Sprintf("holds %s, which points to %s; with it replaced the model says %s", cueName(&c), c.Label, e.After)})
 			}
-			out = append(out, pick{kind: KindCueConflict, index: i,
-				note: fmt.Sprintf("cue %s points to %s (filter %d)", strings.Join(cues, ", "), s.Conflict.CueLabel, s.Filter)})
-		}
-	}
-	for _, s := range a.Filters {
-		for _, e := range s.Examples.Conflict {
-			add(s, e.Index)
-		}
-		for _, i := range s.Conflict.Indices {
-			add(s, i)
 		}
 	}
 	return out

@@ -11,10 +11,12 @@
 // confusion-matrix heat map and a reliability diagram; a catalogue of
 // filters by the class they vote for (explain.Profiles: top n-grams with
 // per-slot heat, families, trigger and suppressor words); the cue audit
-// (explain.Audit: flagged words, suspect filters with every part of their
-// score, ablation, the cue-conflicting subset, counterfactual substitution
-// and the texts behind each number); explained examples (correct, wrong and
-// cue-conflicting) painted by exact attribution; and a caution section.
+// (audit.Result: the story in plain words first, what to do, then the cues
+// that look like how the data was collected and, apart, those the model
+// relies on that read like the task, each with its association, reliance
+// and artifact-likeness evidence and their intervals); explained examples
+// (correct, wrong and cue-conflicting) painted by exact attribution; and a
+// caution section.
 // A piece that was not computed gets a section saying so, never a filler.
 //
 // # Safety and self-containment
@@ -34,12 +36,15 @@
 // # Use
 //
 // Callers that already hold the pieces fill an Input and call New; Build
-// computes them with cnn, corpus and explain first:
+// computes them with cnn, corpus, explain and audit first:
 //
 //	r, err := report.Build(ctx, model, train, heldout, report.Options{ModelPath: path}, progress)
 //	if err != nil { … }
 //	err = report.WriteFile("report.html", r) // atomic: temp file + rename
 //
 // The package computes nothing about the model itself: every number comes
-// from corpus, cnn and explain (the reliability bins from cnn.Reliability).
+// from corpus, cnn, explain and audit (the reliability bins from
+// cnn.Reliability). The cue audit's words (DescribeCue, AuditMethod) and
+// tables (CueTable, StabilityTable) are exported, so that the command line
+// says and exports what the report shows.
 package report

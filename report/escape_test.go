@@ -10,6 +10,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"strings"
 	"testing"
 
@@ -102,6 +103,14 @@ func TestEscaping(t *testing.T) {
 	in.ModelPath = `m"odel<x>.bin`
 	in.Notes = []string{`note <script>alert(3)</script>`}
 	in.Examples = []Example{hostileExample(t, m)}
+	// A cue's words and form come from the data too.
+	if in.Audit == nil || len(in.Audit.Ranked) == 0 {
+		t.Fatal("the fixture's audit lists no cue")
+	}
+	a := *in.Audit
+	a.Ranked = slices.Clone(a.Ranked)
+	a.Ranked[0].Surface, a.Ranked[0].Text = `<script>alert(4)</script>`, `"><img src=x>`
+	in.Audit = &a
 	r, err := New(in)
 	if err != nil {
 		t.Fatal(err)
@@ -126,6 +135,9 @@ func TestEscaping(t *testing.T) {
 		`train line 3 (&lt;u&gt;x&lt;/u&gt;)`,
 		`<td>&lt;script&gt;alert(&#34;x&#34;)&lt;/script&gt;&amp;co</td>`,
 		`<li>note &lt;script&gt;alert(3)&lt;/script&gt;</li>`,
+		// a cue's form and words
+		`&#39;&lt;script&gt;alert(4)&lt;/script&gt;&#39; → `,
+		`<code>&#34;&gt;&lt;img src=x&gt;</code>`,
 		`line &#34;7&#34; &lt;i&gt;&amp;&lt;/i&gt;`,
 		// a painted token with its signed value in the title attribute
 		`title="script: `,

@@ -220,42 +220,6 @@ func ProfileTable(p *explain.Profiles) *Table {
 	return t
 }
 
-// SuspectTable has one row per suspect filter of an audit, in rank order,
-// with every part of its score, its cue words, and the interventions.
-func SuspectTable(a *explain.Audit) *Table {
-	t := &Table{Columns: []string{"rank", "filter", "width", "votes", "score", "flagged_share", "push", "harm",
-		"cues", "accuracy", "accuracy_masked", "macro_f1", "macro_f1_masked", "flipped_share",
-		"conflict_texts", "conflict_accuracy", "conflict_accuracy_masked",
-		"counterfactual_texts", "counterfactual_flip_rate", "counterfactual_mean_prob_change", "control_flip_rate"}}
-	for i, s := range a.Filters {
-		cues := make([]string, len(s.Cues))
-		for j, c := range s.Cues {
-			cues[j] = c.Token
-		}
-		var cfTexts any
-		var cfRate, cfChange, ctlRate any
-		if s.Counter != nil {
-			cfTexts, cfRate, cfChange, ctlRate = s.Counter.Texts, s.Counter.FlipRate, s.Counter.MeanProbChange, s.Counter.ControlFlipRate
-		}
-		t.Add(i+1, s.Filter, s.Width, s.Label, s.Score, s.Parts.FlaggedShare, s.Parts.Push, s.Parts.Harm,
-			strings.Join(cues, " "), s.Ablation.Accuracy, s.Ablation.AccuracyMasked, s.Ablation.MacroF1, s.Ablation.MacroF1Masked,
-			s.Ablation.FlippedShare, s.Conflict.Texts, s.Conflict.Accuracy, s.Conflict.AccuracyMasked,
-			cfTexts, cfRate, cfChange, ctlRate)
-	}
-	return t
-}
-
-// TokenTable has one row per flagged token of an audit: the token, the
-// training texts containing it, its dominant label and that label's share,
-// the z-statistic, PMI, artifact category and held-out texts containing it.
-func TokenTable(a *explain.Audit) *Table {
-	t := &Table{Columns: []string{"token", "count", "label", "share", "z", "pmi", "category", "heldout"}}
-	for _, x := range a.Tokens {
-		t.Add(x.Token, x.Count, x.Label, x.Share, x.Z, x.PMI, x.Category, x.Heldout)
-	}
-	return t
-}
-
 // MetricsTable has one row per class: precision, recall, F1 and support.
 func MetricsTable(m cnn.Metrics) *Table {
 	t := &Table{Columns: []string{"label", "precision", "recall", "f1", "support"}}
@@ -271,23 +235,6 @@ func joinFloats(xs []float64) string {
 		parts[i] = strconv.FormatFloat(x, 'g', 6, 64)
 	}
 	return strings.Join(parts, " ")
-}
-
-// CueGroupTable has one row per cue group of an audit, strongest first: its
-// words (space-separated), label, training and held-out texts holding them,
-// score, its filters (space-separated), the held-out accuracy with all of
-// them masked and with only its strongest ones (mask) masked, the accuracy
-// on its cue-conflicting texts likewise, and the mask's McNemar p-value.
-func CueGroupTable(a *explain.Audit) *Table {
-	t := &Table{Columns: []string{"rank", "words", "label", "label_share", "train_texts", "heldout_texts", "score",
-		"filters", "accuracy", "accuracy_all_masked", "conflict_texts", "conflict_accuracy", "conflict_accuracy_all_masked",
-		"mask", "accuracy_mask", "conflict_accuracy_mask", "mask_p"}}
-	for i, g := range a.CueGroups {
-		t.Add(i+1, strings.Join(g.Words, " "), g.Label, g.LabelShare, g.TrainTexts, g.HeldoutTexts, g.Score,
-			joinInts(g.Filters), g.Ablation.Accuracy, g.Ablation.AccuracyMasked, g.Conflict.Texts, g.Conflict.Accuracy,
-			g.Conflict.AccuracyMasked, joinInts(g.Mask), g.MaskAblation.AccuracyMasked, g.MaskConflict.AccuracyMasked, g.MaskP)
-	}
-	return t
 }
 
 func joinInts(xs []int) string {

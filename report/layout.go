@@ -178,7 +178,7 @@ func layout(in Input) (*page, error) {
 		p.Filters = fv
 	}
 	if in.Audit != nil {
-		p.Audit = auditLayout(in.Audit)
+		p.Audit = auditLayout(in.Audit, trainShares(in.Summary, m.Labels), in.ModelPath)
 	}
 	p.ExamplesNote = in.ExamplesNote
 	for i, ex := range in.Examples {

@@ -6,6 +6,7 @@ import (
 	"io"
 	"time"
 
+	"telltale/audit"
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
@@ -22,8 +23,9 @@ const (
 	KindCorrect ExampleKind = "correct"
 	// KindWrong: the model's label differs from the gold label.
 	KindWrong ExampleKind = "wrong"
-	// KindCueConflict: a cue token found by the audit points to a label
-	// other than the gold one.
+	// KindCueConflict: the text holds a cue the audit acted on that points
+	// to a label other than the gold one, and replacing the cue changed the
+	// model's label.
 	KindCueConflict ExampleKind = "cue-conflicting"
 )
 
@@ -63,10 +65,9 @@ type Input struct {
 	// (0 means 3).
 	FiltersPerClass int
 
-	// Audit is the spurious-cue audit of the model (training split for
-	// the evidence, held-out split for the interventions); nil says it was
-	// not run.
-	Audit *explain.Audit
+	// Audit is the cue audit of the model (association on the training
+	// split, reliance on the held-out split); nil says it was not run.
+	Audit *audit.Result
 
 	Examples []Example
 	// ExamplesNote is shown below the examples (for example, why a kind

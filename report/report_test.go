@@ -4,13 +4,15 @@ import (
 	"bytes"
 	"context"
 	"errors"
-	"fmt"
 	"html"
 	"os"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"strings"
 	"testing"
+
+	auditpkg "telltale/audit"
 )
 
 func render(t *testing.T, r *Report) string {
@@ -66,56 +68,50 @@ func TestDemoSections(t *testing.T) {
 			t.Errorf("output lacks %q", w)
 		}
 	}
-	// The audit: its flagged words with their numbers, its suspects with
-	// every part of their score.
+	// The audit: the story first, then every listed cue with its three
+	// lines of evidence as DescribeCue words them (the command line says
+	// the same), the list apart, and the mask command only when the audit
+	// suggests a mask.
 	a := d.input.Audit
 	if a == nil {
 		t.Fatal("Gather did not run the audit")
 	}
-	for _, tk := range a.Tokens[:min(15, len(a.Tokens))] {
-		w := "<td><code>" + tk.Token + "</code></td><td class=\"num\">" + count(tk.Count) + "</td><td>" + tk.Label + "</td><td class=\"num\">" + pct(tk.Share) + "</td><td class=\"num\">" + floatf("%.1f", tk.Z) + "</td>"
-		if !strings.Contains(out, w) {
-			t.Errorf("flagged token row %q missing", w)
+	audit := out[strings.Index(out, `<section id="audit">`):strings.Index(out, `<section id="examples">`)]
+	at := 0
+	for _, para := range strings.Split(a.Story(), "\n\n") {
+		k := strings.Index(audit[at:], "<p>"+strings.TrimRight(para, "\n")+"</p>")
+		if k < 0 {
+			t.Fatalf("story paragraph %q missing or out of order", para)
+		}
+		at += k
+	}
+	shares := trainShares(d.input.Summary, d.model.Labels)
+	for _, list := range [][]auditpkg.Candidate{a.Ranked, a.Task} {
+		for i := range list {
+			ev := DescribeCue(&list[i], a, shares)
+			for _, part := range []string{ev.Name + " → " + ev.Label + " · " + ev.Verdict, ev.Association, cmpOr(ev.Reliance, "not measured"), ev.Artifact, ev.Words} {
+				k := strings.Index(audit[at:], part)
+				if k < 0 {
+					t.Errorf("cue %q: %q missing or out of order", list[i].Text, part)
+					continue
+				}
+				at += k
+			}
 		}
 	}
-	for _, s := range a.Filters[:min(suspectsShown, len(a.Filters))] {
-		w := fmt.Sprintf("Filter %d · width %d · votes %s · score %s = %s × %s", s.Filter, s.Width, s.Label, num(s.Score), pct(s.Parts.FlaggedShare), num(max(0, s.Parts.Harm)))
-		if !strings.Contains(out, w) {
-			t.Errorf("suspect heading %q missing", w)
-		}
+	if got, want := strings.Count(audit, `<div class="cuecard">`), len(a.Ranked)+len(a.Task); got != want {
+		t.Errorf("%d cues shown, want %d", got, want)
 	}
-	// The cue groups: one row per group shown, with its score and parts,
-	// and the command that masks the suggested (or strongest) filters.
-	if len(a.CueGroups) == 0 {
-		t.Fatal("the audit formed no cue group")
-	}
-	for G, cg := range a.CueGroups[:min(groupsShown, len(a.CueGroups))] {
-		w := fmt.Sprintf(`<tr><td class="num">%d</td><td>“%s”`, G+1, cg.Words[0])
-		w2 := fmt.Sprintf(`<td class="num">%s = %s × %s</td>`, num(cg.Score), pct(cg.Parts.FlaggedShare), num(max(0, cg.Parts.Harm)))
-		if !strings.Contains(out, w) || !strings.Contains(out, w2) {
-			t.Errorf("cue group %d row (%q … %q) missing", G+1, w, w2)
-		}
-	}
-	fs := a.CueGroups[0].Mask
-	if a.Plan != nil {
-		fs = a.Plan.Filters
-	}
-	var ids []string
-	for _, f := range fs {
-		ids = append(ids, fmt.Sprint(f))
-	}
-	if w := "telltale mask --model demo.model --filters " + strings.Join(ids, ",") + " --out demo.model-masked.tt --data HELDOUT"; !strings.Contains(out, w) {
-		t.Errorf("mask command %q missing", w)
-	}
-	if got, want := strings.Count(out, `<div class="suspect">`), min(suspectsShown, len(a.Filters)); got != want {
-		t.Errorf("%d suspects shown, want %d", got, want)
+	if has := strings.Contains(audit, "telltale mask --model demo.model --filters "); has != (a.Action.Mask != nil) {
+		t.Errorf("mask command shown %v, mask suggested %v", has, a.Action.Mask)
 	}
 	// The demo corpus plants two cues (testdata/demo/README.md): the
-	// footer word "kioskmail" and the stamp word "tkref". Both must be
-	// flagged even on this slice of the corpus, and shown.
+	// footer line (word "kioskmail") and the ticket stamp ("tkref"). On
+	// this slice of the corpus both must be associated, measured and read
+	// as artifact-like: listed among the cues that look like collection.
 	for _, cue := range []string{"kioskmail", "tkref"} {
-		if !strings.Contains(out, "<td><code>"+cue+"</code></td>") {
-			t.Errorf("planted cue %q not among the flagged words shown", cue)
+		if !slices.ContainsFunc(a.Ranked, func(c auditpkg.Candidate) bool { return slices.Contains(c.Words, cue) }) {
+			t.Errorf("planted cue %q not among the artifact-like cues", cue)
 		}
 	}
 	// Examples: every kind present in the input is shown with its numbers.
@@ -176,14 +172,14 @@ func TestAbsentPieces(t *testing.T) {
 		"The dataset summary was not computed for this report.",
 		"The model was not evaluated on a held-out split for this report.",
 		"Filter profiles were not computed for this report.",
-		"The cue audit (flagged words, suspect filters, ablation, counterfactual substitution) was not run for this report",
+		"The cue audit (association, reliance and artifact-likeness of the cues that predict a label) was not run for this report",
 		"No examples were explained for this report.",
 	} {
 		if !strings.Contains(out, w) {
 			t.Errorf("output lacks %q", w)
 		}
 	}
-	for _, bad := range []string{"data:image", `class="suspect"`, `class="card"`, `class="example"`, "Accuracy</span>"} {
+	for _, bad := range []string{"data:image", `class="cuecard"`, `class="card"`, `class="example"`, "Accuracy</span>"} {
 		if strings.Contains(out, bad) {
 			t.Errorf("report without pieces contains %q", bad)
 		}

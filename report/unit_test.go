@@ -9,6 +9,7 @@ import (
 
 	"gonum.org/v1/plot/palette/brewer"
 
+	auditpkg "telltale/audit"
 	"telltale/cnn"
 	"telltale/explain"
 )
@@ -30,9 +31,19 @@ func TestFormats(t *testing.T) {
 		{count(1000), "1,000"},
 		{count(1234567), "1,234,567"},
 		{count(-4500), "-4,500"},
-		{signedPoints(0.003), "+0.3"},
-		{signedPoints(-0.0001), "0.0"}, {signed(0), "0.000"},
+		{signed(0), "0.000"},
 		{ints([]int{3, 0, 12}), "3, 0, 12"},
+		// The cue audit's figures.
+		{pvalue(0.0017), "= 0.0017"},
+		{pvalue(3.2e-301), "< 1e-300"},
+		{pvalue(0), "< 1e-300"},
+		{interval(auditpkg.Interval{Estimate: 0.14, Low: 0.086, High: 0.191}), "14.0% (8.6–19.1%)"},
+		{drop(auditpkg.Interval{Estimate: 0.001, Low: -0.046, High: 0.052}), "0.001 (-0.046 to 0.052)"},
+		{accuracy(auditpkg.Interval{Estimate: 0.9, Low: 0.867, High: 0.926}), "0.900 (0.867–0.926)"},
+		{plural(1, "filter"), "1 filter"},
+		{plural(1200, "training text"), "1,200 training texts"},
+		{AssociationTestName(auditpkg.TestBinomial), "exact binomial test"},
+		{CorrectionName(auditpkg.CorrectBonferroni), "Bonferroni"},
 	} {
 		if c.got != c.want {
 			t.Errorf("got %q, want %q", c.got, c.want)
@@ -138,5 +149,23 @@ func TestPaintKeepsText(t *testing.T) {
 	}
 	if b.String() != "a b" {
 		t.Errorf("tokens without offsets read %q, want %q", b.String(), "a b")
+	}
+}
+
+// TestCueName: a cue is named a line when most of its occurrences are a
+// line of their own, else a word or words, quoted in its usual form.
+func TestCueName(t *testing.T) {
+	line := []auditpkg.Signal{{Name: auditpkg.SignalLine, Value: 0.98}}
+	for _, c := range []struct {
+		cand auditpkg.Candidate
+		want string
+	}{
+		{auditpkg.Candidate{Words: []string{"tkref", "-", "<number>"}, Text: "tkref - <number>", Surface: "TKREF-#####", Signals: line}, "the line 'TKREF-#####'"},
+		{auditpkg.Candidate{Words: []string{"would", "like"}, Text: "would like", Surface: "would\n like"}, "the words 'would like'"},
+		{auditpkg.Candidate{Words: []string{"font"}, Text: "font"}, "the word 'font'"},
+	} {
+		if got := cueName(&c.cand); got != c.want {
+			t.Errorf("cueName(%q) = %q, want %q", c.cand.Text, got, c.want)
+		}
 	}
 }

@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # The README's tour on the demo corpus (the invented Brindlewick Ferries help
-# desk, testdata/demo/): summary, training, evaluation, an explanation, the
-# filters, the cue audit and the report; then the window when there is a display.
+# desk, testdata/demo/): summary, training, evaluation, an explanation, the cue
+# audit with retraining and marks, the equal-rates variant (testdata/demo-equal/),
+# and the report; then the window when there is a display.
 set -euo pipefail
 tt=${1:-bin/telltale}
 cd "$(dirname "$0")/.."
@@ -17,12 +18,16 @@ step "Evaluate on the test file, where the cues are spread evenly" \
   "$tt" eval --model "$out/ferry.tt" --test testdata/demo/test.csv
 step "Why does a message get its label? (exact shares of the predicted logit)" \
   "$tt" explain --model "$out/ferry.tt" --text "The deckhand was not friendly at all and my refund never came."
-step "Audit the filters for spurious cues (and save a copy with the suggested filters masked)" \
-  "$tt" audit --model "$out/ferry.tt" --data testdata/demo/train.csv --test testdata/demo/test.csv --top 5 \
-  --export "$out/suspects.csv" --masked-out "$out/ferry-masked.tt"
-step "Retrain with the two cues taken out of the training text, and compare the three models" \
-  "$tt" train --data testdata/demo/train.csv --test testdata/demo/test.csv --out "$out/ferry-clean.tt" --epochs 8 --mask-tokens testdata/demo/cues.txt --quiet
-"$tt" compare --models "$out/ferry.tt,$out/ferry-masked.tt,$out/ferry-clean.tt" --test testdata/demo/test.csv
+step "Audit for cues that look like how the data was collected, and retrain without those it acts on" \
+  "$tt" audit --model "$out/ferry.tt" --data testdata/demo/train.csv --test testdata/demo/test.csv \
+  --export "$out/cues.csv" --retrain --retrain-out "$out/ferry-without.tt"
+step "Keep the verdicts with the model (the marks file beside it; every later audit and the report honour it)" \
+  "$tt" audit --model "$out/ferry.tt" --mark-artifact '- - sent via kioskmail at the quayside terminal - -' --mark-artifact 'tkref - <number>'
+step "The model and the one retrained without the cues, side by side" \
+  "$tt" compare --models "$out/ferry.tt,$out/ferry-without.tt" --test testdata/demo/test.csv
+step "The same cues at the training rates in the test split too (no shift): the audit finds them all the same" \
+  "$tt" train --data testdata/demo-equal/train.csv --test testdata/demo-equal/test.csv --out "$out/ferry-equal.tt" --epochs 8 --quiet
+"$tt" audit --model "$out/ferry-equal.tt" --data testdata/demo-equal/train.csv --test testdata/demo-equal/test.csv
 step "A shareable report" \
   "$tt" report --model "$out/ferry.tt" --data testdata/demo/train.csv --test testdata/demo/test.csv --out "$out/report.html"
 

@@ -1,0 +1,468 @@
+package main
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"encoding/csv"
+	"encoding/json"
+	"maps"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"slices"
+	"strconv"
+	"strings"
+	"testing"
+
+	"telltale/audit"
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/report"
+)
+
+// auditOut is the part of audit --json the tests read.
+type auditOut struct {
+	audit.Result
+	Story          string           `json:"story"`
+	HeldoutSplit   string           `json:"heldout_split"`
+	MarksFile      string           `json:"marks_file"`
+	Stability      []audit.Stable   `json:"stability"`
+	StableIn       int              `json:"stable_in"`
+	Retrained      *audit.Retrained `json:"retrained"`
+	RetrainedModel string           `json:"retrained_model"`
+	MaskedModel    string           `json:"masked_model"`
+}
+
+// demoAuditModel trains the README tour's model (the default recipe, 8
+// epochs, on the demo's training file with its test file) into dir.
+func demoAuditModel(t *testing.T, dir string) string {
+	t.Helper()
+	model := filepath.Join(dir, "ferry.tt")
+	if code, _, stderr := tt(t, "train", "--data", "testdata/demo/train.csv", "--test", "testdata/demo/test.csv", "--out", model,
+		"--epochs", "8", "--quiet"); code != 0 {
+		t.Fatalf("train: exit %d: %s", code, stderr)
+	}
+	return model
+}
+
+func sha(t *testing.T, path string) [32]byte {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return sha256.Sum256(b)
+}
+
+// TestAuditCommand runs telltale audit on the demo as the README's tour
+// does. The demo corpus's README (testdata/demo/README.md) documents the
+// two planted cues: the kiosk footer line (word "kioskmail") on 80% of
+// lost-property training texts and the ticket stamp ("tkref" and five
+// digits) on 75% of complaints.
+func TestAuditCommand(t *testing.T) {
+	if testing.Short() {
+		t.Skip("trains the tour's model; skipped with -short")
+	}
+	dir := t.TempDir()
+	model := demoAuditModel(t, dir)
+	base := []string{"audit", "--model", model, "--data", "testdata/demo/train.csv", "--test", "testdata/demo/test.csv"}
+	var res auditOut
+	jsonOf(t, &res, append(base, "--json", "--quiet")...)
+	t.Run("planted cues", func(t *testing.T) { checkPlanted(t, &res) })
+	t.Run("text", func(t *testing.T) { checkAuditText(t, base, &res) })
+	t.Run("export", func(t *testing.T) { checkAuditExport(t, base, &res) })
+	t.Run("marks", func(t *testing.T) { checkMarks(t, model, base) })
+	t.Run("masked-out", func(t *testing.T) { checkMaskedOut(t, base, &res) })
+	t.Run("seeds and retrain", func(t *testing.T) { checkSeedsAndRetrain(t, model, base) })
+}
+
+// checkPlanted: the two planted cues are the first two artifact-like cues
+// and the only cues acted on, on the test file (800 texts) halved.
+func checkPlanted(t *testing.T, res *auditOut) {
+	if res.HeldoutTexts != 800 || res.HeldoutSplit != "test" || res.SelectionTexts+res.ConfirmationTexts != 800 {
+		t.Errorf("held-out: %d texts (%s), halves %d + %d; want the 800 of the test file", res.HeldoutTexts, res.HeldoutSplit,
+			res.SelectionTexts, res.ConfirmationTexts)
+	}
+	if len(res.Ranked) < 2 {
+		t.Fatalf("%d artifact-like cues, want the two planted ones", len(res.Ranked))
+	}
+	first := []string{res.Ranked[0].Text, res.Ranked[1].Text}
+	slices.Sort(first)
+	if !strings.Contains(first[0], "kioskmail") || !strings.HasPrefix(first[1], "tkref") {
+		t.Errorf("first two artifact-like cues %q, want the footer line and the stamp", first)
+	}
+	if got := slices.Sorted(slices.Values(res.Action.Cues)); !slices.Equal(got, first) {
+		t.Errorf("cues acted on %q, want the two planted ones %q", got, first)
+	}
+	// The quoted examples are numbered by their place in the test file.
+	test, _, err := corpus.Load("testdata/demo/test.csv", corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	quoted := 0
+	for _, c := range res.Ranked {
+		if c.Confirmed == nil {
+			continue
+		}
+		for _, e := range c.Confirmed.Examples {
+			text := strings.Join(strings.Fields(test.Examples[e.Index].Text), " ")
+			inner := strings.NewReplacer("[", "", "]", "").Replace(strings.Trim(e.Snippet, "…"))
+			if !strings.Contains(text, inner) {
+				t.Errorf("example %d quotes %q, which is not in test text %d: %q", e.Index, inner, e.Index, text)
+			}
+			quoted++
+		}
+	}
+	if quoted == 0 {
+		t.Error("no cue acted on quotes a text")
+	}
+	if cf := res.Action.Counterfactual; cf == nil || cf.AccuracyWithout.Low > cf.AccuracyWithout.Estimate || cf.AccuracyWithout.High < cf.AccuracyWithout.Estimate {
+		t.Errorf("counterfactual accuracy without an interval around it: %+v", cf)
+	}
+}
+
+// internalName matches a JSON key or Go field style name (flip_rate,
+// flaggedShare) in the text.
+var internalName = regexp.MustCompile(`\b[a-z]+_[a-z_]+\b|\b[a-z]+[A-Z][A-Za-z]+\b`)
+
+// checkAuditText: the text opens with what was audited and the story the
+// JSON holds, then shows every listed cue with the words report.DescribeCue
+// gives it (the report says the same), then the action; it names no
+// internal field.
+func checkAuditText(t *testing.T, base []string, res *auditOut) {
+	code, out, stderr := tt(t, append(base, "--quiet")...)
+	if code != 0 {
+		t.Fatalf("audit: exit %d: %s", code, stderr)
+	}
+	head, rest, ok := strings.Cut(out, "\n\n")
+	if !ok || !strings.HasPrefix(head, "Cue audit of ") || !strings.HasPrefix(rest, res.Story+"\n") {
+		t.Fatalf("the text does not open with what was audited and the story:\n%.2000s", out)
+	}
+	at := len(head) + len(res.Story)
+	for _, list := range [][]audit.Candidate{res.Ranked, res.Task} {
+		for i := range list {
+			ev := report.DescribeCue(&list[i], &res.Result, nil)
+			for _, part := range []string{ev.Name + " → " + ev.Label + ": " + ev.Verdict, ev.Reliance, ev.Artifact, ev.Filters} {
+				k := strings.Index(out[at:], part)
+				if k < 0 {
+					t.Errorf("cue %q: %q missing or out of order", list[i].Text, part)
+					continue
+				}
+				at += k
+			}
+		}
+	}
+	if !strings.Contains(out[at:], "To act on it from the command line:") || !strings.Contains(out[at:], "--retrain --retrain-out") {
+		t.Errorf("the action with its commands does not follow the cues")
+	}
+	// Cue texts and paths may hold anything: look at the rest.
+	scrubbed := out
+	for _, c := range append(slices.Clone(res.Ranked), res.Task...) {
+		for _, s := range append([]string{c.Text, c.Surface, c.Pattern}, c.Words...) {
+			scrubbed = strings.ReplaceAll(scrubbed, s, "")
+		}
+		for _, s := range c.Signals {
+			scrubbed = strings.ReplaceAll(scrubbed, s.Says, "")
+		}
+	}
+	for _, p := range base {
+		scrubbed = strings.ReplaceAll(scrubbed, p, "")
+	}
+	if names := internalName.FindAllString(scrubbed, -1); len(names) > 0 {
+		t.Errorf("the text names internal fields: %q", names)
+	}
+}
+
+// checkAuditExport: --export writes one row per listed cue with the
+// README's columns, and its figures are the JSON's.
+func checkAuditExport(t *testing.T, base []string, res *auditOut) {
+	path := filepath.Join(t.TempDir(), "cues.csv")
+	if code, _, stderr := tt(t, append(base, "--export", path, "--quiet")...); code != 0 {
+		t.Fatalf("audit --export: exit %d: %s", code, stderr)
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	recs, err := csv.NewReader(f).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if want := readmeColumns(t, "cues"); !slices.Equal(recs[0], want) {
+		t.Errorf("columns %q, README lists %q", recs[0], want)
+	}
+	if len(recs)-1 != len(res.Ranked)+len(res.Task) {
+		t.Fatalf("%d rows for %d + %d listed cues", len(recs)-1, len(res.Ranked), len(res.Task))
+	}
+	col := map[string]int{}
+	for i, c := range recs[0] {
+		col[c] = i
+	}
+	for i, c := range res.Ranked {
+		row := recs[1+i]
+		if row[col["cue"]] != c.Text || row[col["list"]] != "artifact-like" || row[col["verdict"]] != c.Verdict ||
+			row[col["flip_rate"]] != cell(c.Confirmed.FlipRate.Estimate) || row[col["label_drop_low"]] != cell(c.Confirmed.LabelDrop.Low) {
+			t.Errorf("row %d %q does not hold cue %q as the JSON does", i+1, row[:8], c.Text)
+		}
+	}
+}
+
+// cell is a number as the CSV export writes it.
+func cell(x float64) string { return strconv.FormatFloat(x, 'g', 8, 64) }
+
+// readmeColumns are the columns the README's export table lists for a table.
+func readmeColumns(t *testing.T, table string) []string {
+	t.Helper()
+	b, err := os.ReadFile("README.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, l := range strings.Split(string(b), "\n") {
+		if cells := strings.Split(l, "|"); len(cells) > 3 && strings.TrimSpace(cells[1]) == table {
+			var cols []string
+			for _, m := range regexp.MustCompile("`([a-z_]+)`").FindAllStringSubmatch(cells[3], -1) {
+				cols = append(cols, m[1])
+			}
+			return cols
+		}
+	}
+	t.Fatalf("the README's export table has no row %q", table)
+	return nil
+}
+
+// checkMarks: marks are written beside the model, atomically, only by the
+// mark options, and honoured; a bad mark or a failing audit writes nothing.
+func checkMarks(t *testing.T, model string, base []string) {
+	marks := audit.MarksPath(model)
+	before := sha(t, model)
+	code, _, stderr := tt(t, "audit", "--model", model, "--mark-artifact", "TKREF-48213", "--mark-task", "- - sent via kioskmail at the quayside terminal - -")
+	if code != 0 || !strings.Contains(stderr, "marks written to "+marks) {
+		t.Fatalf("marking: exit %d: %s", code, stderr)
+	}
+	m, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	mk, err := audit.ReadMarks(marks, m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	footer := strings.Fields("- - sent via kioskmail at the quayside terminal - -")
+	if mk.Get([]string{"tkref", "-", audit.NumberWord}) != audit.MarkArtifact || mk.Get(footer) != audit.MarkTask || mk.Len() != 2 {
+		t.Errorf("marks file holds %v", mk.Cues(audit.MarkArtifact))
+	}
+	if sha(t, model) != before {
+		t.Error("marking changed the model file")
+	}
+	// Honoured: the footer, marked task, is never acted on and is listed
+	// apart; the stamp is acted on as marked.
+	var res auditOut
+	jsonOf(t, &res, append(base, "--json", "--quiet")...)
+	if slices.ContainsFunc(res.Action.Cues, func(c string) bool { return strings.Contains(c, "kioskmail") }) {
+		t.Errorf("the footer, marked task, is acted on: %q", res.Action.Cues)
+	}
+	if !slices.ContainsFunc(res.Task, func(c audit.Candidate) bool { return c.Mark == audit.MarkTask && strings.Contains(c.Text, "kioskmail") }) {
+		t.Error("the footer, marked task, is not listed apart")
+	}
+	if !slices.ContainsFunc(res.Ranked, func(c audit.Candidate) bool { return c.Mark == audit.MarkArtifact && c.Verdict == audit.VerdictActed }) {
+		t.Error("the stamp, marked artifact, is not acted on")
+	}
+	// A word the model does not know, or an audit that fails, writes nothing.
+	kept := sha(t, marks)
+	for _, c := range []struct {
+		args []string
+		code int
+		want string
+	}{
+		{[]string{"audit", "--model", model, "--mark-artifact", "zzqx"}, 2, `holds "zzqx", which the model does not know`},
+		{append(slices.Clone(base[:len(base)-2]), "--test", filepath.Join("testdata", "bad", "two-labels.csv"), "--unmark", "TKREF-1"), 1, "too few"},
+	} {
+		code, _, stderr := tt(t, c.args...)
+		if code != c.code || !strings.Contains(stderr, c.want) {
+			t.Errorf("%q: exit %d, stderr %q; want %d and %q", c.args, code, stderr, c.code, c.want)
+		}
+	}
+	if sha(t, marks) != kept {
+		t.Error("a refused mark or a failed audit changed the marks file")
+	}
+	// Unmarking both leaves an empty marks file.
+	if code, _, stderr := tt(t, "audit", "--model", model, "--unmark", "tkref - <number>", "--unmark", strings.Join(footer, " "), "--quiet"); code != 0 {
+		t.Fatalf("unmarking: exit %d: %s", code, stderr)
+	}
+	if mk, err := audit.ReadMarks(marks, m); err != nil || mk.Len() != 0 {
+		t.Errorf("after unmarking: %v, %v", mk, err)
+	}
+}
+
+// checkMaskedOut: --masked-out writes the mask the audit suggests, or
+// nothing and fails when it suggests none.
+func checkMaskedOut(t *testing.T, base []string, res *auditOut) {
+	out := filepath.Join(t.TempDir(), "masked.tt")
+	code, _, stderr := tt(t, append(base, "--masked-out", out, "--quiet")...)
+	_, statErr := os.Stat(out)
+	if res.Action.Mask == nil {
+		if code != 1 || statErr == nil || !strings.Contains(stderr, "was not written") {
+			t.Errorf("no mask suggested: exit %d, file written %v, stderr %q; want exit 1 and no file", code, statErr == nil, stderr)
+		}
+		return
+	}
+	if code != 0 {
+		t.Fatalf("audit --masked-out: exit %d: %s", code, stderr)
+	}
+	m, err := cnn.Load(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for g := range m.Config.NumFilters() {
+		if m.IsMasked(g) != slices.Contains(res.Action.Mask, g) {
+			t.Errorf("filter %d masked %v in %s, suggested mask %v", g, m.IsMasked(g), out, res.Action.Mask)
+		}
+	}
+}
+
+// checkSeedsAndRetrain: --seeds 1 audits a second model of the recipe and
+// merges both audits; --retrain's "before" figures on the test file are
+// eval's figures of the model, and its "after" figures eval's of the model
+// it writes.
+func checkSeedsAndRetrain(t *testing.T, model string, base []string) {
+	dir := t.TempDir()
+	retrained := filepath.Join(dir, "without.tt")
+	code, raw, stderr := tt(t, append(base, "--seeds", "1", "--retrain", "--retrain-out", retrained, "--json", "--quiet")...)
+	var res auditOut
+	if err := json.Unmarshal([]byte(raw), &res); code != 0 || err != nil {
+		t.Fatalf("audit --seeds 1 --retrain: exit %d, %v: %s", code, err, stderr)
+	}
+	checkJSONDocumented(t, []byte(raw))
+	if len(res.Stability) == 0 || res.Stability[0].Models != 2 || res.StableIn != 2 {
+		t.Errorf("stability over %+v (stable in %d), want 2 models", res.Stability, res.StableIn)
+	}
+	rt := res.Retrained
+	if rt == nil || rt.Texts != 800 || rt.Removed == 0 || res.RetrainedModel != retrained {
+		t.Fatalf("retrained: %+v", rt)
+	}
+	for _, c := range []struct {
+		model string
+		want  float64
+	}{{model, rt.Original.Before.Estimate}, {retrained, rt.Original.After.Estimate}} {
+		var ev evalOutput
+		jsonOf(t, &ev, "eval", "--model", c.model, "--test", "testdata/demo/test.csv", "--json", "--quiet")
+		if ev.N != rt.Texts || ev.Accuracy != c.want {
+			t.Errorf("eval of %s: accuracy %v on %d texts; the audit says %v", c.model, ev.Accuracy, ev.N, c.want)
+		}
+	}
+	if rt.Counterfactual.Before.Estimate <= rt.Original.Before.Estimate {
+		t.Errorf("the model without the planted cues scores %v, with them %v: taking the cues out should help it on the demo's test file",
+			rt.Counterfactual.Before.Estimate, rt.Original.Before.Estimate)
+	}
+}
+
+// TestAuditRefusals: options that cannot work are refused before any work
+// with a message naming them.
+func TestAuditRefusals(t *testing.T) {
+	f := makeCaseFiles(t)
+	a := func(args ...string) []string {
+		return append([]string{"audit", "--model", f.model, "--data", f.data}, args...)
+	}
+	for _, c := range []struct {
+		args []string
+		code int
+		want string
+	}{
+		{a("--seeds", "30"), 2, "--seeds 30: give at most 20"},
+		{a("--seeds", "-1"), 2, "--seeds -1: give 0 or more"},
+		{a("--seeds", "2", "--models", f.model+"x"), 2, "give --seeds N or --models, not both"},
+		{a("--stable-in", "2"), 2, "--stable-in 2: there are 1 audits"},
+		{a("--retrain-out", filepath.Join(f.dir, "r.tt")), 2, "--retrain-out needs --retrain"},
+		{a("--vectors", "v.txt"), 2, "--vectors is for training"},
+		{a("--models", f.model), 2, "the model itself is always audited"},
+		{a("--mark-task", "ferry", "--unmark", " ferry "), 2, `the cue "ferry" is given to --mark-task and --unmark`},
+		{a("--mark-task", " "), 2, "give the cue's words, in quotes"},
+		{[]string{"audit", "--model", f.model, "--mark-task", "ferry", "--export", filepath.Join(f.dir, "x.csv")}, 2, "--export needs --data"},
+		{[]string{"audit", "--model", f.model}, 2, "--data is required"},
+		{a("--marks", filepath.Join(f.dir, "none.marks")), 1, "none.marks does not exist"},
+		{a("--models", tinyModelOther(t)), 2, "was not trained on the splits of --model"},
+		{a("--retrain"), 1, "is not the data " + f.model + " was trained on"},
+	} {
+		code, _, stderr := tt(t, c.args...)
+		noCrash(t, "audit", stderr)
+		if code != c.code || !strings.Contains(stderr, c.want) {
+			t.Errorf("%q: exit %d, stderr %q; want %d and %q", c.args[5:], code, stderr, c.code, c.want)
+		}
+	}
+}
+
+// tinyModelOther is a tiny model trained on other texts than tinyModel's.
+func tinyModelOther(t *testing.T) string {
+	t.Helper()
+	dir := t.TempDir()
+	data := demoPart(t, dir, 500)
+	model := filepath.Join(dir, "other.tt")
+	if code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"); code != 0 {
+		t.Fatalf("train: exit %d: %s", code, stderr)
+	}
+	return model
+}
+
+// checkJSONDocumented: every key of the audit's JSON output, at any
+// depth, is in the README's documentation of it.
+func checkJSONDocumented(t *testing.T, raw []byte) {
+	t.Helper()
+	b, err := os.ReadFile("README.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, doc, ok := bytes.Cut(b, []byte("### The audit's JSON"))
+	if !ok {
+		t.Fatal("README.md has no section \"### The audit's JSON\"")
+	}
+	doc, _, _ = bytes.Cut(doc, []byte("\n## "))
+	var v any
+	if err := json.Unmarshal(raw, &v); err != nil {
+		t.Fatal(err)
+	}
+	missing := map[string]bool{}
+	var walk func(v any)
+	walk = func(v any) {
+		switch x := v.(type) {
+		case map[string]any:
+			for k, e := range x {
+				if !bytes.Contains(doc, []byte(k)) {
+					missing[k] = true
+				}
+				walk(e)
+			}
+		case []any:
+			for _, e := range x {
+				walk(e)
+			}
+		}
+	}
+	walk(v)
+	if len(missing) > 0 {
+		t.Errorf("JSON keys not documented in the README: %v", slices.Sorted(maps.Keys(missing)))
+	}
+}
+
+// TestShellQuote: the commands the audit prints give each argument back
+// whole to a POSIX shell (/bin/sh, the reference); plain words stay bare.
+func TestShellQuote(t *testing.T) {
+	for _, s := range []string{"tkref - <number>", "won't", `"><img src=x>`, "$HOME `ls` \\ !", "a\nb", "", "bin/demo/ferry.tt", "x=1,y@2"} {
+		out, err := exec.Command("/bin/sh", "-c", "printf '%s' "+shellQuote(s)).Output()
+		if err != nil || string(out) != s {
+			t.Errorf("sh reads %q back as %q (%v)", s, out, err)
+		}
+	}
+	if got := shellJoin([]string{"--data", "bin/demo/train.csv"}); got != "--data bin/demo/train.csv" {
+		t.Errorf("plain words quoted: %s", got)
+	}
+	for _, c := range []struct {
+		n    int
+		want string
+	}{{0, "0"}, {999, "999"}, {1000, "1,000"}, {1234567, "1,234,567"}, {-4500, "-4,500"}} {
+		if got := count(c.n); got != c.want {
+			t.Errorf("count(%d) = %q, want %q", c.n, got, c.want)
+		}
+	}
+}

@@ -1,0 +1,200 @@
+package main
+
+import (
+	"bufio"
+	"fmt"
+	"io"
+	"strings"
+
+	"telltale/audit"
+	"telltale/report"
+)
+
+// auditView is what the text of an audit shows: the audit (and what the
+// options added) with the names the text uses.
+type auditView struct {
+	*auditJSON
+	o       *auditOptions
+	heldout string    // the held-out texts, named
+	priors  []float64 // the labels' shares of the training split
+	command string    // this audit's command line, to extend with one option
+}
+
+func newAuditView(o *auditOptions, es *evalSet, priors []float64, out *auditJSON) *auditView {
+	v := &auditView{auditJSON: out, o: o, priors: priors}
+	switch {
+	case es.name == "all":
+		v.heldout = "texts of all of " + o.data + " (they may include texts the model was trained on)"
+	case o.test != "":
+		v.heldout = "texts of the test file " + o.test
+	default:
+		v.heldout = "texts of the test split train held out of " + o.data
+	}
+	args := []string{"telltale", "audit", "--model", o.model, "--data", o.data}
+	for _, opt := range []struct{ name, value string }{{"test", o.test}, {"text-col", o.read.TextCol}, {"label-col", o.read.LabelCol},
+		{"format", o.read.Format}, {"mail", o.read.Mail}, {"relabel", o.read.Relabel}, {"marks", o.marks}} {
+		if opt.value != "" {
+			args = append(args, "--"+opt.name, opt.value)
+		}
+	}
+	v.command = shellJoin(args)
+	return v
+}
+
+// writeAuditText writes the audit for a person: what was audited, the
+// story, the two lists of cues with their evidence, the stability and
+// retraining the options asked for, the commands that act on it, and how
+// the numbers are made.
+func writeAuditText(w io.Writer, v *auditView) error {
+	bw := bufio.NewWriter(w)
+	r := v.Result
+	fmt.Fprintf(bw, "Cue audit of %s: association on the %s training texts of %s; reliance on the %s %s, halved at random (seed %d) "+
+		"into %s that choose the cues and %s that confirm them.\n\n", v.o.model, count(r.TrainTexts), v.o.data, count(r.HeldoutTexts), v.heldout,
+		v.o.seed, count(r.SelectionTexts), count(r.ConfirmationTexts))
+	fmt.Fprintf(bw, "%s\n", v.Story)
+	v.writeList(bw, fmt.Sprintf("Cues that look like how the data was collected (%d), those acted on first, then by reliance × artifact-likeness", len(r.Ranked)), r.Ranked)
+	v.writeList(bw, fmt.Sprintf("Relied on, reads like the task (%d): judge these yourself and mark any that is an artifact", len(r.Task)), r.Task)
+	v.writeStability(bw)
+	v.writeRetrained(bw)
+	v.writeActions(bw)
+	fmt.Fprintf(bw, "\nHow the numbers are made.\n")
+	for _, m := range report.AuditMethod(r) {
+		fmt.Fprintf(bw, "  %s\n", m)
+	}
+	return bw.Flush()
+}
+
+// writeActions writes the commands that act on the audit here: keep the
+// verdicts, retrain, write the masked model.
+func (v *auditView) writeActions(w io.Writer) {
+	var acted, unmarked []string
+	for _, c := range v.Ranked {
+		if c.Verdict == audit.VerdictActed {
+			acted = append(acted, c.Text)
+			if c.Mark != audit.MarkArtifact {
+				unmarked = append(unmarked, "--mark-artifact", c.Text)
+			}
+		}
+	}
+	base := strings.TrimSuffix(v.o.model, ".tt")
+	type step struct{ say, args string }
+	var steps []step
+	if len(unmarked) > 0 {
+		steps = append(steps, step{"keep the verdict with the model (in " + v.MarksFile + ")", shellJoin(unmarked)})
+	}
+	if len(acted) > 0 && v.Retrained == nil {
+		steps = append(steps, step{"retrain without the cues and compare both models on the test texts with and without them",
+			shellJoin([]string{"--retrain", "--retrain-out", base + "-without.tt"})})
+	}
+	if m := v.Action.Mask; m != nil && v.MaskedModel == "" {
+		steps = append(steps, step{"write a copy with filters " + joinInts(m) + " masked, which helped on the confirming half",
+			shellJoin([]string{"--masked-out", base + "-masked.tt"})})
+	}
+	if len(steps) == 0 {
+		return
+	}
+	fmt.Fprintf(w, "\nTo act on it from the command line:\n")
+	for _, s := range steps {
+		fmt.Fprintf(w, "  %s:\n    %s %s\n", s.say, v.command, s.args)
+	}
+}
+
+// writeList writes one list of cues with their three lines of evidence.
+func (v *auditView) writeList(w io.Writer, title string, cs []audit.Candidate) {
+	fmt.Fprintf(w, "\n%s:\n", title)
+	if len(cs) == 0 {
+		fmt.Fprintf(w, "  none.\n")
+	}
+	for i := range cs {
+		ev := report.DescribeCue(&cs[i], v.Result, v.priors)
+		fmt.Fprintf(w, "\n%2d. %s → %s: %s\n", i+1, ev.Name, ev.Label, ev.Verdict)
+		line := func(what, text string) { fmt.Fprintf(w, "    %-18s %s\n", what, text) }
+		line("association", ev.Association)
+		line("reliance", cmpOr(ev.Reliance, "not measured"))
+		line("artifact-likeness", ev.Artifact)
+		for _, s := range ev.Signals {
+			line("", "· "+s)
+		}
+		if ev.Filters != "" {
+			line("filters", ev.Filters)
+		}
+		for k, e := range ev.Examples {
+			line(map[bool]string{true: "for example", false: ""}[k == 0], e)
+		}
+		line("to mark it", shellQuote(ev.Words))
+	}
+}
+
+// writeStability writes the cues over the audits of several models.
+func (v *auditView) writeStability(w io.Writer) {
+	if len(v.Stability) == 0 {
+		return
+	}
+	fmt.Fprintf(w, "\nOver %d models (this one and %d more of its recipe): a cue is stable when acted on in at least %d of the audits.\n",
+		v.Stability[0].Models, v.Stability[0].Models-1, v.StableIn)
+	for _, s := range v.Stability {
+		ranks := make([]string, len(s.Ranks))
+		for i, r := range s.Ranks {
+			ranks[i] = fmt.Sprint(r)
+			if r == 0 {
+				ranks[i] = "–"
+			}
+		}
+		stable := ""
+		if s.Stable {
+			stable = ", stable"
+		}
+		fmt.Fprintf(w, "  acted on in %d of %d (ranks %s)%s: %s → %s\n", s.Found, s.Models, strings.Join(ranks, " "), stable, shellQuote(s.Text), s.Label)
+	}
+}
+
+// writeRetrained writes --retrain's comparison.
+func (v *auditView) writeRetrained(w io.Writer) {
+	rt := v.Retrained
+	if rt == nil {
+		return
+	}
+	fmt.Fprintf(w, "\nRetrained without %d cues (%s matches taken out of the training split, %s out of the test texts):\n",
+		len(rt.Patterns), count(rt.Removed), count(rt.HeldoutRemoved))
+	for _, p := range []struct {
+		what string
+		mp   audit.ModelPair
+	}{{"as they are", rt.Original}, {"without the cues", rt.Counterfactual}} {
+		fmt.Fprintf(w, "  on the %s test texts %s: accuracy %s with this model, %s retrained; %d right only before, %d only after (two-sided exact McNemar p = %.2g)\n",
+			count(rt.Texts), p.what, accInterval(p.mp.Before), accInterval(p.mp.After), p.mp.OnlyBefore, p.mp.OnlyAfter, p.mp.P)
+	}
+	if v.RetrainedModel != "" {
+		fmt.Fprintf(w, "  The retrained model is in %s.\n", v.RetrainedModel)
+	}
+}
+
+func accInterval(x audit.Interval) string {
+	return fmt.Sprintf("%.3f (%.3f–%.3f)", x.Estimate, x.Low, x.High)
+}
+
+// count writes n with a comma every three digits.
+func count(n int) string {
+	s := fmt.Sprint(n)
+	for i := len(s) - 3; i > 0 && s[i-1] != '-'; i -= 3 {
+		s = s[:i] + "," + s[i:]
+	}
+	return s
+}
+
+// shellJoin quotes each argument for a POSIX shell and joins them.
+func shellJoin(args []string) string {
+	q := make([]string, len(args))
+	for i, a := range args {
+		q[i] = shellQuote(a)
+	}
+	return strings.Join(q, " ")
+}
+
+// shellQuote quotes s for a POSIX shell when it holds anything but letters,
+// digits and . _ / : , = + - @ %.
+func shellQuote(s string) string {
+	if s != "" && strings.Trim(s, "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789._/:,=+-@%") == "" {
+		return s
+	}
+	return "'" + strings.ReplaceAll(s, "'", `'\''`) + "'"
+}
