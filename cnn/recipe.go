@@ -1,6 +1,9 @@
 package cnn
 
-import "telltale/corpus"
+import (
+	"telltale/corpus"
+	"telltale/linear"
+)
 
 // Default shares of the labeled data held out when no separate file is
 // given: the dev split (early stopping) and the test split (the final
@@ -14,9 +17,11 @@ const (
 // benchmark and the tests start from: the architecture of Kim (2014) with
 // Adam. VocabSize and Classes are filled in from the data by TrainText.
 func DefaultRecipe() Recipe {
+	base := linear.DefaultConfig()
 	return Recipe{
 		Tokenizer: corpus.TokenizerConfig{Lower: true, MinCount: 1},
 		Model:     Config{Dim: 128, Widths: []int{3, 4, 5}, Filters: 100, Dropout: 0.5},
 		Train:     TrainConfig{Epochs: 10, Batch: 50, Optimizer: "adam", Seed: 1, Patience: 3, MaxLen: 400},
+		Baseline:  &base,
 	}
 }

@@ -3,6 +3,7 @@ package cnn
 import (
 	"context"
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"runtime"
 	"slices"
@@ -26,6 +27,17 @@ type TrainConfig struct {
 	Patience  int  `json:"patience"`
 	MaxLen    int  `json:"max_len"`    // texts are cut to this many tokens; 0 keeps them whole
 	FreezeEmb bool `json:"freeze_emb"` // keep the embeddings fixed
+	// ClassWeight "balanced" weights each training text's loss by
+	// n/(k·n_c) (n texts, k classes, n_c texts of its class: scikit-learn's
+	// "balanced"); "" weighs every text 1.
+	ClassWeight string `json:"class_weight,omitempty"`
+	// WordDropout is α of the word dropout of Kiperwasser & Goldberg (2016,
+	// "Simple and Accurate Dependency Parsing Using Bidirectional LSTM
+	// Feature Representations", TACL): in every training batch each
+	// occurrence of a word seen #w times in the training split is replaced
+	// by UNK with probability α/(#w+α), so the UNK vector is trained on
+	// what unknown words are like, the rare words. 0 turns it off.
+	WordDropout float64 `json:"word_dropout,omitempty"`
 }
 
 // WithDefaults returns tc with every zero field set to its default, or an
@@ -72,6 +84,10 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: optimizer epsilon %g: must be positive", tc.Eps)
 	case tc.MaxLen < 0:
 		return tc, fmt.Errorf("cnn: max length %d: must be 0 (no limit) or positive", tc.MaxLen)
+	case tc.ClassWeight != "" && tc.ClassWeight != "balanced":
+		return tc, fmt.Errorf("cnn: class weight %q: use balanced or leave it empty", tc.ClassWeight)
+	case tc.WordDropout < 0 || math.IsInf(tc.WordDropout, 0) || math.IsNaN(tc.WordDropout):
+		return tc, fmt.Errorf("cnn: word dropout %g: must be 0 (off) or positive", tc.WordDropout)
 	}
 	return tc, nil
 }
@@ -157,6 +173,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	train, dev = train.Truncate(tc.MaxLen), dev.Truncate(tc.MaxLen)
 	tr := newTrainer(m, tc)
 	defer tr.close()
+	tr.prepare(train)
 	rng := rand.New(rand.NewPCG(tc.Seed, tc.Seed^0x5bd1e995))
 	res := &TrainResult{}
 	var best *Model
