@@ -190,7 +190,7 @@ func (tr *trainer) prepare(d Data) {
 			}
 		}
 	}
-	if a := tr.tc.WordDropout; a > 0 {
+	if a, q := tr.tc.WordDropout, tr.tc.TokenDropout; a > 0 || q > 0 {
 		count := make([]int, cfg.VocabSize)
 		for _, ids := range d.IDs {
 			for _, id := range ids {
@@ -199,7 +199,11 @@ func (tr *trainer) prepare(d Data) {
 		}
 		tr.unkP = make([]float32, cfg.VocabSize)
 		for id := int(corpus.UNK) + 1; id < cfg.VocabSize; id++ {
-			tr.unkP[id] = float32(a / (float64(count[id]) + a))
+			rare := 0.0
+			if a > 0 {
+				rare = a / (float64(count[id]) + a)
+			}
+			tr.unkP[id] = float32(1 - (1-q)*(1-rare))
 		}
 		tr.wdRng = rand.New(rand.NewPCG(tr.tc.Seed^0x243f6a8885a308d3, tr.tc.Seed))
 	}

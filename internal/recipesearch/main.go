@@ -34,15 +34,22 @@ var variants = map[string]func(r *cnn.Recipe){
 	"wd1":     func(r *cnn.Recipe) { r.Train.WordDropout = 1 },
 	"min2wd":  func(r *cnn.Recipe) { r.Tokenizer.MinCount = 2; r.Train.WordDropout = 0.25 },
 	"sub":     func(r *cnn.Recipe) { r.Tokenizer.Subword = true },
-	"subwd":   func(r *cnn.Recipe) { r.Tokenizer.Subword = true; r.Train.WordDropout = 0.25 },
-	"drop3":   func(r *cnn.Recipe) { r.Model.Dropout = 0.3 },
-	"drop6":   func(r *cnn.Recipe) { r.Model.Dropout = 0.6 },
-	"dim64":   func(r *cnn.Recipe) { r.Model.Dim = 64 },
-	"dim200":  func(r *cnn.Recipe) { r.Model.Dim = 200 },
-	"ep20":    func(r *cnn.Recipe) { r.Train.Epochs = 20; r.Train.Patience = 5 },
-	"ep5":     func(r *cnn.Recipe) { r.Train.Epochs = 5 },
-	"lr2":     func(r *cnn.Recipe) { r.Train.LR = 2e-3 },
-	"lr5":     func(r *cnn.Recipe) { r.Train.LR = 5e-4 },
+	"tok10":   func(r *cnn.Recipe) { r.Train.TokenDropout = 0.1 },
+	"tok25":   func(r *cnn.Recipe) { r.Train.TokenDropout = 0.25 },
+	"tok40":   func(r *cnn.Recipe) { r.Train.TokenDropout = 0.4 },
+	"min2tok25": func(r *cnn.Recipe) {
+		r.Tokenizer.MinCount = 2
+		r.Train.TokenDropout = 0.25
+	},
+	"subwd":  func(r *cnn.Recipe) { r.Tokenizer.Subword = true; r.Train.WordDropout = 0.25 },
+	"drop3":  func(r *cnn.Recipe) { r.Model.Dropout = 0.3 },
+	"drop6":  func(r *cnn.Recipe) { r.Model.Dropout = 0.6 },
+	"dim64":  func(r *cnn.Recipe) { r.Model.Dim = 64 },
+	"dim200": func(r *cnn.Recipe) { r.Model.Dim = 200 },
+	"ep20":   func(r *cnn.Recipe) { r.Train.Epochs = 20; r.Train.Patience = 5 },
+	"ep5":    func(r *cnn.Recipe) { r.Train.Epochs = 5 },
+	"lr2":    func(r *cnn.Recipe) { r.Train.LR = 2e-3 },
+	"lr5":    func(r *cnn.Recipe) { r.Train.LR = 5e-4 },
 	"adadelta": func(r *cnn.Recipe) {
 		r.Train.Optimizer = "adadelta"
 		r.Model.MaxNorm = 3
