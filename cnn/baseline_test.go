@@ -197,11 +197,12 @@ func TestClassWeightsGradient(t *testing.T) {
 	}
 }
 
-// Word dropout trains the UNK vector (without it, a vocabulary of every
-// training word leaves it at its random start) and never changes the
-// training data.
+// Word dropout and token dropout train the UNK vector (without them, a
+// vocabulary of every training word leaves it at its random start) and
+// never change the training data.
 func TestWordDropoutTrainsUNK(t *testing.T) {
-	for _, a := range []float64{0, 0.25} {
+	for _, wd := range [][2]float64{{0, 0}, {0.25, 0}, {0, 0.25}} {
+		a, q := wd[0], wd[1]
 		m := randModel(1, 30, 8, []int{2, 3}, 4, 2)
 		unk0 := slices.Clone(m.Row(corpus.UNK))
 		train := toyData(1, 300, 30)
@@ -209,21 +210,24 @@ func TestWordDropoutTrainsUNK(t *testing.T) {
 		for i, ids := range train.IDs {
 			before[i] = slices.Clone(ids)
 		}
-		if _, err := Train(context.Background(), m, train, Data{}, TrainConfig{Epochs: 2, Batch: 10, Seed: 3, WordDropout: a}, nil); err != nil {
+		if _, err := Train(context.Background(), m, train, Data{}, TrainConfig{Epochs: 2, Batch: 10, Seed: 3, WordDropout: a, TokenDropout: q}, nil); err != nil {
 			t.Fatal(err)
 		}
 		changed := !slices.Equal(unk0, m.Row(corpus.UNK))
-		if changed != (a > 0) {
-			t.Errorf("word dropout %g: UNK vector changed %v", a, changed)
+		if changed != (a > 0 || q > 0) {
+			t.Errorf("word dropout %g, token dropout %g: UNK vector changed %v", a, q, changed)
 		}
 		for i := range before {
 			if !slices.Equal(before[i], train.IDs[i]) {
-				t.Fatalf("word dropout %g changed training text %d", a, i)
+				t.Fatalf("word dropout %g, token dropout %g changed training text %d", a, q, i)
 			}
 		}
 	}
 	if _, err := (TrainConfig{WordDropout: -1}).WithDefaults(); err == nil {
 		t.Error("negative word dropout accepted")
+	}
+	if _, err := (TrainConfig{TokenDropout: 1}).WithDefaults(); err == nil {
+		t.Error("token dropout 1 accepted")
 	}
 	if _, err := (TrainConfig{ClassWeight: "even"}).WithDefaults(); err == nil {
 		t.Error("unknown class weight accepted")

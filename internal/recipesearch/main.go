@@ -37,6 +37,35 @@ var variants = map[string]func(r *cnn.Recipe){
 	"tok10":   func(r *cnn.Recipe) { r.Train.TokenDropout = 0.1 },
 	"tok25":   func(r *cnn.Recipe) { r.Train.TokenDropout = 0.25 },
 	"tok40":   func(r *cnn.Recipe) { r.Train.TokenDropout = 0.4 },
+	"min2ep20": func(r *cnn.Recipe) {
+		r.Tokenizer.MinCount = 2
+		r.Train.Epochs, r.Train.Patience = 20, 5
+	},
+	"min2tok25ep20": func(r *cnn.Recipe) {
+		r.Tokenizer.MinCount = 2
+		r.Train.TokenDropout = 0.25
+		r.Train.Epochs, r.Train.Patience = 20, 5
+	},
+	"min2tok10": func(r *cnn.Recipe) {
+		r.Tokenizer.MinCount = 2
+		r.Train.TokenDropout = 0.1
+	},
+	"min2wd1": func(r *cnn.Recipe) {
+		r.Tokenizer.MinCount = 2
+		r.Train.WordDropout = 1
+	},
+	"w123":      func(r *cnn.Recipe) { r.Model.Widths = []int{1, 2, 3} },
+	"w123tok25": func(r *cnn.Recipe) { r.Model.Widths = []int{1, 2, 3}; r.Train.TokenDropout = 0.25 },
+	"w12tok25":  func(r *cnn.Recipe) { r.Model.Widths = []int{1, 2}; r.Train.TokenDropout = 0.25 },
+	"w123f200tok25": func(r *cnn.Recipe) {
+		r.Model.Widths, r.Model.Filters = []int{1, 2, 3}, 200
+		r.Train.TokenDropout = 0.25
+	},
+	"tok25drop7": func(r *cnn.Recipe) { r.Train.TokenDropout = 0.25; r.Model.Dropout = 0.7 },
+	"tok25lr5ep20": func(r *cnn.Recipe) {
+		r.Train.TokenDropout = 0.25
+		r.Train.LR, r.Train.Epochs, r.Train.Patience = 5e-4, 20, 5
+	},
 	"min2tok25": func(r *cnn.Recipe) {
 		r.Tokenizer.MinCount = 2
 		r.Train.TokenDropout = 0.25
