@@ -219,7 +219,7 @@ func decode(data []byte) (*Model, error) {
 		if left := uint64(end-wEnd-8) / 8; nb > left {
 			// The count sits just before the checksum, where both a cut and
 			// a damaged byte land.
-			return nil, fmt.Errorf("truncated or corrupted (%d baseline weights announced, room for %d): the file is incomplete or damaged, save or copy it again", nb, left)
+			return nil, fmt.Errorf("truncated or corrupted (%d baseline weights announced, room for %d): the file is incomplete, save or copy it again", nb, left)
 		}
 		bEnd = wEnd + 8 + 8*int(nb)
 	}
