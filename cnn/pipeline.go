@@ -28,7 +28,8 @@ type Recipe struct {
 	// (package linear) with this configuration on the same training split,
 	// its tokens (the tokenizer's words, cut to Train.MaxLen) and the dev
 	// split (its C chosen by dev macro-F1), and keep it with the model. An
-	// empty ClassWeight takes Train.ClassWeight.
+	// empty ClassWeight takes Train.ClassWeight, zero Solver.Threads
+	// Train.Threads.
 	Baseline *linear.Config
 }
 
@@ -136,6 +137,9 @@ func fitBaseline(ctx context.Context, tok *corpus.Tokenizer, train, dev *corpus.
 	}
 	if cfg.ClassWeight == "" {
 		cfg.ClassWeight = tc.ClassWeight
+	}
+	if cfg.Solver.Threads == 0 {
+		cfg.Solver.Threads = tc.Threads
 	}
 	macroF1 := func(gold, pred []int) float64 { return ComputeMetrics(labels, gold, pred, nil, 0).MacroF1 }
 	return linear.Fit(ctx, tr, dv, labels, cfg, macroF1, nil)

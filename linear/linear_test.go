@@ -208,7 +208,7 @@ func TestObjectiveGradient(t *testing.T) {
 		y[i] = i % k
 	}
 	for _, cw := range [][]float64{nil, {0.5, 2, 1.25}} {
-		o := newObjective(X, y, k, p, cw, 0.7)
+		o := newObjective(X, y, k, p, cw, 0.7, 1)
 		x := make([]float64, k*p+k)
 		for i := range x {
 			x[i] = rng.NormFloat64()
@@ -268,5 +268,42 @@ func TestFitChoosesOnDevAndRoundTrips(t *testing.T) {
 	}
 	if err := back.SetWeights(m.Weights()[1:]); err == nil {
 		t.Error("SetWeights accepted one weight too few")
+	}
+}
+
+// Splitting the rows over threads changes the objective and its gradient
+// only by float64 rounding.
+func TestObjectiveThreads(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	const k, p, n = 3, 40, 1000
+	X := make([]Row, n)
+	y := make([]int, n)
+	for i := range X {
+		for j := int32(0); j < p; j++ {
+			if rng.IntN(4) == 0 {
+				X[i].Index = append(X[i].Index, j)
+				X[i].Value = append(X[i].Value, rng.NormFloat64())
+			}
+		}
+		y[i] = rng.IntN(k)
+	}
+	x := make([]float64, k*p+k)
+	for i := range x {
+		x[i] = rng.NormFloat64() / 4
+	}
+	one := newObjective(X, y, k, p, nil, 2, 1)
+	three := newObjective(X, y, k, p, nil, 2, 3)
+	if len(three.parts) != 3 {
+		t.Fatalf("%d parts for 3 threads and %d rows", len(three.parts), n)
+	}
+	one.eval(x)
+	three.eval(x)
+	if !testref.Close(one.f, three.f, 0, 1e-12) {
+		t.Errorf("objective %g on one thread, %g on three", one.f, three.f)
+	}
+	for i := range one.g {
+		if !testref.Close(one.g[i], three.g[i], 1e-15, 1e-10) {
+			t.Errorf("gradient[%d] %g on one thread, %g on three", i, one.g[i], three.g[i])
+		}
 	}
 }

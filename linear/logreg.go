@@ -5,7 +5,9 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
 	"slices"
+	"sync"
 
 	"gonum.org/v1/gonum/optimize"
 )
@@ -29,6 +31,10 @@ type SolverConfig struct {
 	GradTol float64 `json:"grad_tol"`
 	// MaxIter caps the L-BFGS iterations; default 5000.
 	MaxIter int `json:"max_iter"`
+	// Threads is the number of goroutines evaluating the objective; 0
+	// means GOMAXPROCS. Results differ between thread counts only in the
+	// last bits of the sums.
+	Threads int `json:"threads,omitempty"`
 }
 
 func (s SolverConfig) withDefaults() SolverConfig {
@@ -37,6 +43,9 @@ func (s SolverConfig) withDefaults() SolverConfig {
 	}
 	if s.MaxIter == 0 {
 		s.MaxIter = 5000
+	}
+	if s.Threads <= 0 {
+		s.Threads = runtime.GOMAXPROCS(0)
 	}
 	return s
 }
@@ -59,7 +68,9 @@ func BalancedWeights(y []int, k int) []float64 {
 
 // objective is the penalised mean cross-entropy of rows X with labels y and
 // per-class weights cw (nil: all 1). Parameters are laid out as Coef
-// (k×p) followed by Intercept (k).
+// (k×p) followed by Intercept (k). The rows are split into one part per
+// thread, each summing into its own gradient; the parts are added in order,
+// so the result depends only on the data and the thread count.
 type objective struct {
 	X     []Row
 	y     []int
@@ -67,13 +78,21 @@ type objective struct {
 	cw    []float64
 	alpha float64 // penalty factor 1/(C·S), S the weight sum
 
-	lastX    []float64
-	f        float64
-	g, z, pr []float64
-	evals    int
+	lastX []float64
+	f     float64
+	g     []float64
+	parts []part
+	evals int
 }
 
-func newObjective(X []Row, y []int, k, p int, cw []float64, C float64) *objective {
+// part is one thread's share of an evaluation.
+type part struct {
+	lo, hi    int
+	g, z      []float64
+	sum, wsum float64
+}
+
+func newObjective(X []Row, y []int, k, p int, cw []float64, C float64, threads int) *objective {
 	o := &objective{X: X, y: y, k: k, p: p, cw: cw}
 	var s float64
 	for _, c := range y {
@@ -81,8 +100,12 @@ func newObjective(X []Row, y []int, k, p int, cw []float64, C float64) *objectiv
 	}
 	o.alpha = 1 / (C * s)
 	o.g = make([]float64, k*p+k)
-	o.z = make([]float64, k)
-	o.pr = make([]float64, k)
+	// A part of fewer than 256 rows is not worth its own gradient buffer.
+	threads = max(1, min(threads, len(X)/256))
+	for t := range threads {
+		o.parts = append(o.parts, part{lo: t * len(X) / threads, hi: (t + 1) * len(X) / threads,
+			g: make([]float64, k*p+k), z: make([]float64, k)})
+	}
 	return o
 }
 
@@ -100,20 +123,56 @@ func (o *objective) eval(x []float64) {
 	}
 	o.evals++
 	o.lastX = append(o.lastX[:0], x...)
+	var wg sync.WaitGroup
+	for t := range o.parts {
+		wg.Add(1)
+		go func(pt *part) {
+			defer wg.Done()
+			o.evalRows(x, pt)
+		}(&o.parts[t])
+	}
+	wg.Wait()
+	k, p := o.k, o.p
+	W := x[:k*p]
+	gW, gb := o.g[:k*p], o.g[k*p:]
+	copy(o.g, o.parts[0].g)
+	sum, wsum := o.parts[0].sum, o.parts[0].wsum
+	for _, pt := range o.parts[1:] {
+		for j, v := range pt.g {
+			o.g[j] += v
+		}
+		sum, wsum = sum+pt.sum, wsum+pt.wsum
+	}
+	inv := 1 / wsum
+	var pen float64
+	for j, v := range W {
+		pen += v * v
+		gW[j] = gW[j]*inv + o.alpha*v
+	}
+	for c := range gb {
+		gb[c] *= inv
+	}
+	o.f = sum*inv + 0.5*o.alpha*pen
+}
+
+// evalRows sums the weighted losses, weights and loss gradients of the
+// part's rows at x into pt.
+func (o *objective) evalRows(x []float64, pt *part) {
 	k, p := o.k, o.p
 	W, b := x[:k*p], x[k*p:]
-	gW, gb := o.g[:k*p], o.g[k*p:]
-	clear(o.g)
-	var sum, wsum float64
-	for i, r := range o.X {
-		logits(W, b, p, r, o.z)
-		lse := logSumExp(o.z)
+	gW, gb := pt.g[:k*p], pt.g[k*p:]
+	clear(pt.g)
+	pt.sum, pt.wsum = 0, 0
+	for i := pt.lo; i < pt.hi; i++ {
+		r := o.X[i]
+		logits(W, b, p, r, pt.z)
+		lse := logSumExp(pt.z)
 		y := o.y[i]
 		w := o.weight(y)
-		wsum += w
-		sum += w * (lse - o.z[y])
+		pt.wsum += w
+		pt.sum += w * (lse - pt.z[y])
 		for c := 0; c < k; c++ {
-			d := math.Exp(o.z[c]-lse) * w
+			d := math.Exp(pt.z[c]-lse) * w
 			if c == y {
 				d -= w
 			}
@@ -127,16 +186,6 @@ func (o *objective) eval(x []float64) {
 			}
 		}
 	}
-	inv := 1 / wsum
-	var pen float64
-	for j, v := range W {
-		pen += v * v
-		gW[j] = gW[j]*inv + o.alpha*v
-	}
-	for c := range gb {
-		gb[c] *= inv
-	}
-	o.f = sum*inv + 0.5*o.alpha*pen
 }
 
 // logits writes W·r + b into z.
@@ -173,7 +222,7 @@ func fitC(ctx context.Context, X []Row, y []int, k, p int, cw []float64, C float
 		return nil, fmt.Errorf("linear: regularisation C = %g: must be positive and finite", C)
 	}
 	sc = sc.withDefaults()
-	o := newObjective(X, y, k, p, cw, C)
+	o := newObjective(X, y, k, p, cw, C, sc.Threads)
 	if x0 == nil {
 		x0 = make([]float64, k*p+k)
 	}
