@@ -51,6 +51,10 @@ const PhaseBaseline = "baseline"
 // may be nil or empty: then every epoch counts as the best so far). Every
 // label of dev must occur in train. The command line and the window both
 // train through here, so they give the same model for the same recipe.
+//
+// With r.Baseline it then fits the linear baseline into Model.Baseline
+// (reporting Phase PhaseBaseline first); a cancellation during that fit
+// keeps the trained CNN and leaves Model.Baseline nil.
 func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progress func(Progress)) (*Trained, error) {
 	if train == nil || len(train.Examples) == 0 {
 		return nil, fmt.Errorf("cnn: the training split is empty: give a file with labeled texts")
