@@ -78,4 +78,4 @@ screenshots:
 	@scripts/report-screenshot.sh
 
 clean:
-	rm -rf bin testdata/spamassassin testdata/afinn bench/out
+	rm -rf bin testdata/spamassassin testdata/afinn testdata/sotu bench/out

@@ -11,6 +11,8 @@ require (
 	gonum.org/v1/plot v0.17.0
 )
 
+require golang.org/x/tools v0.36.0 // indirect
+
 require (
 	codeberg.org/go-fonts/liberation v0.5.0 // indirect
 	codeberg.org/go-latex/latex v0.2.0 // indirect
@@ -52,7 +54,7 @@ require (
 	github.com/sugarme/regexpset v0.0.0-20200920021344-4d4ec8eaf93c // indirect
 	github.com/yuin/goldmark v1.7.8 // indirect
 	golang.org/x/image v0.30.0 // indirect
-	golang.org/x/net v0.35.0 // indirect
+	golang.org/x/net v0.43.0 // indirect
 	golang.org/x/sys v0.50.0 // indirect
 	gopkg.in/yaml.v3 v3.0.1 // indirect
 )

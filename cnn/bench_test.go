@@ -24,26 +24,31 @@ func benchCorpus(n, vocab int) Data {
 	return d
 }
 
-// benchModel is the default recipe: 128-d embeddings, widths 3, 4, 5 with
-// 100 feature maps each, dropout 0.5.
+// benchModel is the default recipe's model (DefaultRecipe: 128-d
+// embeddings, widths 3, 4, 5 with 100 feature maps each, dropout 0.5) for
+// two classes.
 func benchModel(b *testing.B, vocab int) *Model {
-	m, err := New(Config{VocabSize: vocab, Dim: 128, Widths: []int{3, 4, 5}, Filters: 100, Classes: 2, Dropout: 0.5},
-		nil, []string{"a", "b"}, 1)
+	cfg := DefaultRecipe().Model
+	cfg.VocabSize, cfg.Classes = vocab, 2
+	m, err := New(cfg, nil, []string{"a", "b"}, 1)
 	if err != nil {
 		b.Fatal(err)
 	}
 	return m
 }
 
-// BenchmarkTrainStep is one Adam step on a batch of 50 texts of 77 tokens
-// with the default recipe; it reports training examples per second.
+// BenchmarkTrainStep is one training step on a batch of 50 texts of 77
+// tokens with the default recipe (DefaultRecipe: Adam, and its word dropout
+// and class weights when it has them); it reports training examples per
+// second.
 func BenchmarkTrainStep(b *testing.B) {
 	const vocab = 20000
 	d := benchCorpus(1000, vocab)
 	m := benchModel(b, vocab)
-	tc, _ := TrainConfig{Seed: 1}.WithDefaults()
+	tc, _ := DefaultRecipe().Train.WithDefaults()
 	tr := newTrainer(m, tc)
 	defer tr.close()
+	tr.prepare(d)
 	batches := makeBatches(rand.New(rand.NewPCG(1, 1)), d.IDs, 50, make([]int, d.Len()), nil)
 	for _, bt := range batches { // warm up the scratch buffers
 		tr.step(d, bt)
@@ -66,7 +71,9 @@ func BenchmarkTrain(b *testing.B) {
 	var eps float64
 	for i := 0; i < b.N; i++ {
 		m := benchModel(b, vocab)
-		res, err := Train(context.Background(), m, d, dev, TrainConfig{Epochs: 2, Seed: 1, Patience: -1}, nil)
+		tc := DefaultRecipe().Train
+		tc.Epochs, tc.Patience = 2, -1
+		res, err := Train(context.Background(), m, d, dev, tc, nil)
 		if err != nil {
 			b.Fatal(err)
 		}

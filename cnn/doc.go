@@ -33,6 +33,24 @@
 // reported through a callback and a context cancels training, keeping the
 // best weights so far.
 //
+// Unknown words are learned, not left at random: with TrainConfig.WordDropout
+// each training occurrence of a word seen #w times becomes UNK with
+// probability α/(#w+α) (Kiperwasser & Goldberg 2016), so the UNK vector is
+// trained on the rare words that unknown words resemble (with every training
+// word in the vocabulary it would otherwise never occur in training). With
+// subword pieces (corpus.TokenizerConfig.Subword) the words seen once are
+// split into pieces in the training texts too, so the pieces that test-time
+// unknown words are split into have trained vectors. TrainConfig.ClassWeight
+// "balanced" weights the loss by n/(k·n_c) for imbalanced labels.
+//
+// # The linear baseline
+//
+// A model can carry a linear baseline (package linear: TF-IDF n-grams and
+// logistic regression) fitted by TrainText on the same training split and
+// tokens, its regularisation chosen on the same dev split; the model file
+// keeps it. CompareBaseline evaluates both on a test split and runs the
+// exact McNemar test between them (McNemarExact).
+//
 // # Evaluation and files
 //
 // ComputeMetrics and Evaluate give accuracy, per-class precision, recall and

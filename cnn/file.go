@@ -10,10 +10,12 @@ import (
 	"io"
 	"math"
 	"os"
+	"slices"
 
 	"telltale/corpus"
 	"telltale/internal/atomicfile"
 	"telltale/internal/version"
+	"telltale/linear"
 )
 
 // The model file is one self-checking binary file:
@@ -25,13 +27,18 @@ import (
 //	nWeights   uint64   number of float32 weights that follow
 //	weights    nWeights × float32: Emb, then W and B of each bank in order,
 //	           then OutW, OutB
+//	nBaseline  uint64   number of float64 baseline weights that follow (version 2)
+//	baseline   nBaseline × float64: the linear baseline's IDF, Coef,
+//	           Intercept (linear.Model.Weights); its other parts are in the
+//	           header under "baseline" (version 2)
 //	crc        uint32   CRC-32 (Castagnoli) of everything before it
 //
-// All integers and floats are little-endian.
+// All integers and floats are little-endian. Version 1 files (no baseline
+// section) still load.
 
 // FormatVersion is the model file version this package writes and the newest
 // it reads.
-const FormatVersion = 1
+const FormatVersion = 2
 
 const fileMagic = "TTLCNN\r\n"
 
@@ -47,6 +54,7 @@ type fileHeader struct {
 	Tokenizer corpus.TokenizerConfig `json:"tokenizer"`
 	Info      Info                   `json:"info"`
 	Masked    []int                  `json:"masked,omitempty"` // indices of masked filters
+	Baseline  *linear.Model          `json:"baseline,omitempty"`
 }
 
 // numWeights is the number of float32 values the model file stores for cfg.
@@ -74,7 +82,7 @@ func (m *Model) Save(path string) (err error) {
 
 // encode writes the model file format to w.
 func (m *Model) encode(w io.Writer) error {
-	h := fileHeader{Config: m.Config, Labels: m.Labels, Vocab: m.Vocab, Tokenizer: m.Tokenizer, Info: m.Info}
+	h := fileHeader{Config: m.Config, Labels: m.Labels, Vocab: m.Vocab, Tokenizer: m.Tokenizer, Info: m.Info, Baseline: m.Baseline}
 	h.Info.Version = version.String() // the file records the version that wrote it
 	for g, on := range m.Masked {
 		if on {
@@ -99,6 +107,12 @@ func (m *Model) encode(w io.Writer) error {
 	}
 	bw.floats(m.OutW)
 	bw.floats(m.OutB)
+	var base []float64
+	if m.Baseline != nil {
+		base = m.Baseline.Weights()
+	}
+	bw.u64(uint64(len(base)))
+	bw.floats64(base)
 	if bw.err != nil {
 		return bw.err
 	}
@@ -143,6 +157,17 @@ func (e *errWriter) floats(x []float32) {
 	}
 }
 
+func (e *errWriter) floats64(x []float64) {
+	for len(x) > 0 {
+		n := min(len(x), len(e.buf)/8)
+		for i, v := range x[:n] {
+			binary.LittleEndian.PutUint64(e.buf[8*i:], math.Float64bits(v))
+		}
+		e.write(e.buf[:8*n])
+		x = x[n:]
+	}
+}
+
 // Load reads a model file written by Save. A file that is not a model, is
 // truncated or damaged, is from a newer format version, or whose vocabulary
 // and weights disagree gives an error naming the file and the problem.
@@ -168,9 +193,10 @@ func decode(data []byte) (*Model, error) {
 	if len(data) < fixed {
 		return nil, fmt.Errorf("truncated after %d bytes: the file is incomplete, save or copy it again", len(data))
 	}
-	if v := binary.LittleEndian.Uint32(data[8:]); v > FormatVersion {
-		return nil, fmt.Errorf("format version %d is newer than this program reads (%d): update telltale", v, FormatVersion)
-	} else if v == 0 {
+	version := binary.LittleEndian.Uint32(data[8:])
+	if version > FormatVersion {
+		return nil, fmt.Errorf("format version %d is newer than this program reads (%d): update telltale", version, FormatVersion)
+	} else if version == 0 {
 		return nil, fmt.Errorf("format version 0 is invalid: the file is damaged")
 	}
 	hl := binary.LittleEndian.Uint64(data[12:])
@@ -181,11 +207,27 @@ func decode(data []byte) (*Model, error) {
 	off := fixed + int(hl)
 	nw := binary.LittleEndian.Uint64(data[off:])
 	off += 8
-	if left := uint64(len(data)-off-4) / 4; nw > left || uint64(len(data)-off-4)%4 != 0 || nw < left {
-		if nw > left {
-			return nil, fmt.Errorf("truncated (%d weights announced, room for %d): the file is incomplete, save or copy it again", nw, left)
+	end := len(data) - 4 // where the checksum starts
+	if left := uint64(end-off) / 4; nw > left {
+		return nil, fmt.Errorf("truncated (%d weights announced, room for %d): the file is incomplete, save or copy it again", nw, left)
+	}
+	wEnd := off + 4*int(nw)
+	var nb uint64
+	bEnd := wEnd
+	if version >= 2 {
+		if end-wEnd < 8 {
+			return nil, fmt.Errorf("truncated (no baseline section after the weights): the file is incomplete, save or copy it again")
 		}
-		return nil, fmt.Errorf("damaged: %d bytes after the weights: the file is corrupted", len(data)-off-4-int(4*nw))
+		nb = binary.LittleEndian.Uint64(data[wEnd:])
+		if left := uint64(end-wEnd-8) / 8; nb > left {
+			// The count sits just before the checksum, where both a cut and
+			// a damaged byte land.
+			return nil, fmt.Errorf("truncated or corrupted (%d baseline weights announced, room for %d): the file is incomplete, save or copy it again", nb, left)
+		}
+		bEnd = wEnd + 8 + 8*int(nb)
+	}
+	if bEnd != end {
+		return nil, fmt.Errorf("damaged: %d bytes after the weights: the file is corrupted", end-bEnd)
 	}
 	body := data[:len(data)-4]
 	if got, want := crc32.Checksum(body, crcTable), binary.LittleEndian.Uint32(data[len(data)-4:]); got != want {
@@ -245,7 +287,7 @@ func decode(data []byte) (*Model, error) {
 			m.Masked[g] = true
 		}
 	}
-	w := data[off : off+4*int(nw)]
+	w := data[off:wEnd]
 	take := func(n int) []float32 {
 		x := make([]float32, n)
 		for i := range x {
@@ -261,10 +303,45 @@ func decode(data []byte) (*Model, error) {
 	}
 	m.OutW = take(cfg.Classes * cfg.NumFilters())
 	m.OutB = take(cfg.Classes)
+	if err := setBaseline(m, h.Baseline, data[bEnd-8*int(nb):bEnd]); err != nil {
+		return nil, err
+	}
 	for _, v := range m.Emb[:cfg.Dim] {
 		if v != 0 {
 			return nil, fmt.Errorf("the PAD embedding is not zero: the file is damaged")
 		}
 	}
 	return m, nil
+}
+
+// setBaseline gives m the baseline of the header with its weights decoded
+// from raw (8 bytes each), checking that the two agree with each other and
+// with m's labels.
+func setBaseline(m *Model, b *linear.Model, raw []byte) error {
+	if b == nil {
+		if len(raw) > 0 {
+			return fmt.Errorf("%d baseline weights but no baseline in the header: the file is damaged", len(raw)/8)
+		}
+		return nil
+	}
+	if !slices.Equal(b.Labels, m.Labels) {
+		return fmt.Errorf("the baseline's labels %q differ from the model's %q: the file is damaged", b.Labels, m.Labels)
+	}
+	if b.Vectorizer == nil || b.Classifier == nil {
+		return fmt.Errorf("the baseline has no features or classifier: the file is damaged")
+	}
+	// The sizes are checked before the weights are allocated.
+	if p := len(b.Vectorizer.Features); b.Classifier.Features != p || b.Classifier.Classes != len(b.Labels) ||
+		uint64(p)*uint64(len(b.Labels)+1)+uint64(len(b.Labels)) != uint64(len(raw)/8) {
+		return fmt.Errorf("the baseline's %d features and %d classes do not match its %d weights: the file is damaged", p, len(b.Labels), len(raw)/8)
+	}
+	w := make([]float64, len(raw)/8)
+	for i := range w {
+		w[i] = math.Float64frombits(binary.LittleEndian.Uint64(raw[8*i:]))
+	}
+	if err := b.SetWeights(w); err != nil {
+		return fmt.Errorf("baseline: %v: the file is damaged", err)
+	}
+	m.Baseline = b
+	return nil
 }

@@ -113,9 +113,15 @@ func TestLoadVocabMismatch(t *testing.T) {
 }
 
 func FuzzLoad(f *testing.F) {
-	_, data := savedModel(f)
+	m, data := savedModel(f)
 	f.Add(data)
 	f.Add(data[:100])
+	m.Baseline = tinyBaseline(f, m.Labels)
+	var withBaseline bytes.Buffer
+	if err := m.encode(&withBaseline); err != nil {
+		f.Fatal(err)
+	}
+	f.Add(withBaseline.Bytes())
 	f.Add([]byte(fileMagic))
 	f.Fuzz(func(t *testing.T, b []byte) {
 		m, err := decode(b)

@@ -3,6 +3,8 @@ package cnn
 import (
 	"fmt"
 	"math"
+
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // DefaultBins is the number of equal-width confidence bins of the expected
@@ -191,4 +193,39 @@ func (d Data) check(cfg Config, name string) error {
 		}
 	}
 	return nil
+}
+
+// McNemar is the exact McNemar test of two classifiers on the same texts
+// (McNemar 1947, "Note on the sampling error of the difference between
+// correlated proportions or percentages", Psychometrika; exact form:
+// the discordant pairs are binomial with p = 1/2 under the null hypothesis
+// of equal accuracy).
+type McNemar struct {
+	OnlyA int     `json:"only_a"` // texts A labels right and B wrong
+	OnlyB int     `json:"only_b"` // texts B labels right and A wrong
+	P     float64 `json:"p"`      // two-sided p-value: min(1, 2·P[X ≤ min(OnlyA, OnlyB)]), X ~ Binomial(OnlyA+OnlyB, 1/2)
+}
+
+// McNemarExact runs the exact McNemar test on the predictions predA and
+// predB of gold (all the same length).
+func McNemarExact(gold, predA, predB []int) McNemar {
+	if len(gold) != len(predA) || len(gold) != len(predB) {
+		panic("cnn: McNemarExact: gold and predictions differ in length")
+	}
+	var t McNemar
+	for i, g := range gold {
+		a, b := predA[i] == g, predB[i] == g
+		switch {
+		case a && !b:
+			t.OnlyA++
+		case b && !a:
+			t.OnlyB++
+		}
+	}
+	t.P = 1
+	if n := t.OnlyA + t.OnlyB; n > 0 {
+		bin := distuv.Binomial{N: float64(n), P: 0.5}
+		t.P = min(1, 2*bin.CDF(float64(min(t.OnlyA, t.OnlyB))))
+	}
+	return t
 }

@@ -4,6 +4,7 @@ import (
 	"fmt"
 
 	"telltale/corpus"
+	"telltale/linear"
 )
 
 // Config is the architecture of a sentence CNN (Kim 2014, "Convolutional
@@ -102,6 +103,12 @@ type Model struct {
 	// Info records how the model was trained and how well it did; it is
 	// stored in the model file and never affects predictions.
 	Info Info
+
+	// Baseline, when not nil, is the linear baseline trained on the same
+	// training and dev splits (TrainText with Recipe.Baseline); it is
+	// stored in the model file and never affects the CNN's predictions.
+	// Clones share it; it is not changed after fitting.
+	Baseline *linear.Model
 
 	version uint64     // bumped by Invalidate; guarded by cacheMu
 	cache   *slotCache // the persistent slot table (cache.go); guarded by cacheMu

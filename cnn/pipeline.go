@@ -3,8 +3,11 @@ package cnn
 import (
 	"context"
 	"fmt"
+	"runtime"
+	"sync"
 
 	"telltale/corpus"
+	"telltale/linear"
 )
 
 // Recipe is everything needed to train a model from labeled text: how to
@@ -16,8 +19,18 @@ type Recipe struct {
 	Train     TrainConfig
 	// VectorsPath, when set, names a word-vector file (corpus.ReadVectors)
 	// whose vectors of vocabulary words are copied into the embedding table
-	// before training; their dimension must equal Model.Dim.
-	VectorsPath string
+	// before training. Their dimension must equal Model.Dim, unless Model.Dim
+	// is 0 or DimFromVectors is set: then the embedding dimension is the
+	// file's.
+	VectorsPath    string
+	DimFromVectors bool
+	// Baseline, when not nil, asks TrainText to fit the linear baseline
+	// (package linear) with this configuration on the same training split,
+	// its tokens (the tokenizer's words, cut to Train.MaxLen) and the dev
+	// split (its C chosen by dev macro-F1), and keep it with the model. An
+	// empty ClassWeight takes Train.ClassWeight, zero Solver.Threads
+	// Train.Threads.
+	Baseline *linear.Config
 }
 
 // Trained is the outcome of TrainText.
@@ -29,11 +42,19 @@ type Trained struct {
 	VectorsFound int
 }
 
+// PhaseBaseline is the Progress phase reported once before TrainText fits
+// the linear baseline.
+const PhaseBaseline = "baseline"
+
 // TrainText builds the vocabulary of train, encodes both splits, initialises
 // a model with r.Train.Seed and trains it with early stopping on dev (which
 // may be nil or empty: then every epoch counts as the best so far). Every
 // label of dev must occur in train. The command line and the window both
 // train through here, so they give the same model for the same recipe.
+//
+// With r.Baseline it then fits the linear baseline into Model.Baseline
+// (reporting Phase PhaseBaseline first); a cancellation during that fit
+// keeps the trained CNN and leaves Model.Baseline nil.
 func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progress func(Progress)) (*Trained, error) {
 	if train == nil || len(train.Examples) == 0 {
 		return nil, fmt.Errorf("cnn: the training split is empty: give a file with labeled texts")
@@ -55,14 +76,23 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 	}
 	cfg := r.Model
 	cfg.VocabSize, cfg.Classes = enc.Vocab.Len(), len(train.Labels)
+	var vecs *corpus.Vectors
+	if r.VectorsPath != "" {
+		if vecs, err = readVectorsFor(enc.Vocab.Words, r.VectorsPath); err != nil {
+			return nil, err
+		}
+		if cfg.Dim == 0 || r.DimFromVectors {
+			cfg.Dim = vecs.Dim
+		}
+	}
 	m, err := New(cfg, enc.Vocab.Words, train.Labels, r.Train.Seed)
 	if err != nil {
 		return nil, err
 	}
 	m.Tokenizer = enc.Tok.Config()
 	out := &Trained{Model: m, Encoder: enc}
-	if r.VectorsPath != "" {
-		if out.VectorsFound, err = setVectorsFrom(m, r.VectorsPath); err != nil {
+	if vecs != nil {
+		if out.VectorsFound, err = setVectors(m, vecs, r.VectorsPath); err != nil {
 			return nil, err
 		}
 	}
@@ -74,21 +104,102 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 	// Later texts are cut to the length the model was trained on, as the
 	// encoder of a loaded model (Model.Encoder) does.
 	out.Encoder.MaxTokens = m.Info.Recipe.MaxLen
+	if r.Baseline != nil && !res.Cancelled {
+		if progress != nil {
+			progress(Progress{Phase: PhaseBaseline})
+		}
+		if m.Baseline, err = fitBaseline(ctx, enc.Tok, train, dev, train.Labels, *r.Baseline, *m.Info.Recipe); err != nil {
+			if ctx.Err() != nil {
+				return out, nil // cancelled: the CNN is kept, the baseline left out
+			}
+			return nil, err
+		}
+	}
 	return out, nil
 }
 
-// setVectorsFrom copies the vectors of m's words found in the file at path.
-func setVectorsFrom(m *Model, path string) (int, error) {
-	inVocab := make(map[string]bool, len(m.Vocab))
-	for _, w := range m.Vocab[2:] {
+// fitBaseline fits the linear baseline on the words of train (dev chooses
+// its C by macro-F1), cut to the CNN's training length.
+func fitBaseline(ctx context.Context, tok *corpus.Tokenizer, train, dev *corpus.Dataset, labels []string, cfg linear.Config, tc TrainConfig) (*linear.Model, error) {
+	split := func(ds *corpus.Dataset) (linear.Split, error) {
+		if ds == nil || len(ds.Examples) == 0 {
+			return linear.Split{}, nil
+		}
+		y, err := ds.LabelIndex(labels)
+		if err != nil {
+			return linear.Split{}, err
+		}
+		return linear.Split{Docs: baselineDocs(tok, ds.Texts(), tc.MaxLen, tc.Threads), Labels: y}, nil
+	}
+	tr, err := split(train)
+	if err != nil {
+		return nil, err
+	}
+	dv, err := split(dev)
+	if err != nil {
+		return nil, err
+	}
+	if cfg.ClassWeight == "" {
+		cfg.ClassWeight = tc.ClassWeight
+	}
+	if cfg.Solver.Threads == 0 {
+		cfg.Solver.Threads = tc.Threads
+	}
+	macroF1 := func(gold, pred []int) float64 { return ComputeMetrics(labels, gold, pred, nil, 0).MacroF1 }
+	return linear.Fit(ctx, tr, dv, labels, cfg, macroF1, nil)
+}
+
+// baselineDocs is the tokens the baseline sees of each text: the
+// tokenizer's words (no subword pieces), cut to maxLen (0: whole).
+func baselineDocs(tok *corpus.Tokenizer, texts []string, maxLen, threads int) [][]string {
+	out := make([][]string, len(texts))
+	parallel(len(texts), threads, func(i int) {
+		toks := tok.Tokenize(texts[i])
+		if maxLen > 0 && len(toks) > maxLen {
+			toks = toks[:maxLen]
+		}
+		words := make([]string, len(toks))
+		for j, t := range toks {
+			words[j] = t.Text
+		}
+		out[i] = words
+	})
+	return out
+}
+
+// parallel calls fn(i) for i in [0, n) on threads goroutines (0: GOMAXPROCS).
+func parallel(n, threads int, fn func(i int)) {
+	if threads <= 0 {
+		threads = runtime.GOMAXPROCS(0)
+	}
+	threads = max(1, min(threads, n))
+	var wg sync.WaitGroup
+	for w := 0; w < threads; w++ {
+		wg.Add(1)
+		go func(w int) {
+			defer wg.Done()
+			for i := w; i < n; i += threads {
+				fn(i)
+			}
+		}(w)
+	}
+	wg.Wait()
+}
+
+// readVectorsFor reads the vectors of words (past the reserved two) from
+// the file at path.
+func readVectorsFor(words []string, path string) (*corpus.Vectors, error) {
+	inVocab := make(map[string]bool, len(words))
+	for _, w := range words[2:] {
 		inVocab[w] = true
 	}
-	v, err := corpus.ReadVectors(path, func(w string) bool { return inVocab[w] })
-	if err != nil {
-		return 0, err
-	}
+	return corpus.ReadVectors(path, func(w string) bool { return inVocab[w] })
+}
+
+// setVectors copies the vectors v (read from path) of m's words into m.
+func setVectors(m *Model, v *corpus.Vectors, path string) (int, error) {
 	if v.Dim != m.Config.Dim {
-		return 0, fmt.Errorf("cnn: %s holds %d-dimensional vectors but the model's embedding dimension is %d: set it to %d (--dim %d)", path, v.Dim, m.Config.Dim, v.Dim, v.Dim)
+		return 0, fmt.Errorf("cnn: %s holds %d-dimensional vectors but the model's embedding dimension is %d: set it to %d (--dim %d) or leave it to the file (--dim 0)", path, v.Dim, m.Config.Dim, v.Dim, v.Dim)
 	}
 	vecs := make([][]float32, len(v.Words))
 	for i := range vecs {
@@ -99,4 +210,51 @@ func setVectorsFrom(m *Model, path string) (int, error) {
 		return 0, fmt.Errorf("%s: %w", path, err)
 	}
 	return found, nil
+}
+
+// Comparison is the CNN and its linear baseline on one labeled split.
+type Comparison struct {
+	CNN      Metrics `json:"cnn"`
+	Baseline Metrics `json:"baseline"`
+	// McNemar compares the two: OnlyA counts texts only the CNN labels
+	// right, OnlyB texts only the baseline labels right.
+	McNemar McNemar `json:"mcnemar"`
+}
+
+// CompareBaseline evaluates m and the baseline it carries (m.Baseline must
+// not be nil) on test (the test split; every label must be one of m's)
+// with threads goroutines (0: GOMAXPROCS): accuracy, macro-F1 and the rest
+// of Metrics for each, and the exact McNemar test between them. Texts are
+// encoded as the model was trained (Model.Encoder; the baseline sees the
+// tokenizer's words cut to the same length).
+func CompareBaseline(m *Model, test *corpus.Dataset, threads int) (*Comparison, error) {
+	if m.Baseline == nil {
+		return nil, fmt.Errorf("cnn: the model carries no linear baseline: train it with the baseline on")
+	}
+	enc, err := m.Encoder()
+	if err != nil {
+		return nil, err
+	}
+	data, err := EncodeDataset(enc, test, m.Labels, threads)
+	if err != nil {
+		return nil, err
+	}
+	cnnM, cnnPred, err := Evaluate(m, data, threads)
+	if err != nil {
+		return nil, err
+	}
+	docs := baselineDocs(enc.Tok, test.Texts(), enc.MaxTokens, threads)
+	probs := m.Baseline.Probabilities(docs)
+	pred := make([]int, len(probs))
+	conf := make([]float64, len(probs))
+	for i, p := range probs {
+		for c, v := range p {
+			if v > p[pred[i]] {
+				pred[i] = c
+			}
+		}
+		conf[i] = p[pred[i]]
+	}
+	return &Comparison{CNN: cnnM, Baseline: ComputeMetrics(m.Labels, data.Labels, pred, conf, DefaultBins),
+		McNemar: McNemarExact(data.Labels, cnnPred, pred)}, nil
 }

@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"sync"
+
+	"telltale/corpus"
 )
 
 // workers runs one function over a partition of [0, n) on a fixed set of
@@ -100,6 +102,14 @@ type trainer struct {
 	drop   []float32 // per text and filter: 0 or 1/(1−p); nil for no dropout
 	loss   []float64
 
+	// classW is the loss weight of each class (nil: all 1); unkP the
+	// word-dropout probability of each word id (nil: none), drawn from
+	// wdRng into the batch copy wdBuf.
+	classW []float32
+	unkP   []float32
+	wdRng  *rand.Rand
+	wdBuf  []int32
+
 	wOff   []int // offset of each bank in the flattened conv gradient
 	th     []threadBuf
 	gEmb   []float32 // full-size embedding gradient, zero outside the batch's rows
@@ -164,6 +174,63 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 
 func (tr *trainer) close() { tr.wk.close() }
 
+// prepare sets the class weights and word-dropout probabilities that the
+// training split d calls for.
+func (tr *trainer) prepare(d Data) {
+	cfg := tr.m.Config
+	if tr.tc.ClassWeight == "balanced" {
+		n := make([]int, cfg.Classes)
+		for _, y := range d.Labels {
+			n[y]++
+		}
+		tr.classW = make([]float32, cfg.Classes)
+		for c, nc := range n {
+			if nc > 0 {
+				tr.classW[c] = float32(float64(d.Len()) / float64(cfg.Classes*nc))
+			}
+		}
+	}
+	if a, q := tr.tc.WordDropout, tr.tc.TokenDropout; a > 0 || q > 0 {
+		count := make([]int, cfg.VocabSize)
+		for _, ids := range d.IDs {
+			for _, id := range ids {
+				count[id]++
+			}
+		}
+		tr.unkP = make([]float32, cfg.VocabSize)
+		for id := int(corpus.UNK) + 1; id < cfg.VocabSize; id++ {
+			rare := 0.0
+			if a > 0 {
+				rare = a / (float64(count[id]) + a)
+			}
+			tr.unkP[id] = float32(1 - (1-q)*(1-rare))
+		}
+		tr.wdRng = rand.New(rand.NewPCG(tr.tc.Seed^0x243f6a8885a308d3, tr.tc.Seed))
+	}
+}
+
+// dropWords replaces the batch's texts by copies in which each word is UNK
+// with its word-dropout probability.
+func (tr *trainer) dropWords() {
+	total := 0
+	for _, ids := range tr.texts {
+		total += len(ids)
+	}
+	tr.wdBuf = grow(tr.wdBuf, total)
+	off := 0
+	for i, ids := range tr.texts {
+		cp := tr.wdBuf[off : off+len(ids) : off+len(ids)]
+		for j, id := range ids {
+			if p := tr.unkP[id]; p > 0 && tr.wdRng.Float32() < p {
+				id = corpus.UNK
+			}
+			cp[j] = id
+		}
+		tr.texts[i] = cp
+		off += len(ids)
+	}
+}
+
 // step trains on the items idx of d and returns the batch's mean loss.
 func (tr *trainer) step(d Data, idx []int) float64 {
 	tr.texts = tr.texts[:0]
@@ -171,6 +238,9 @@ func (tr *trainer) step(d Data, idx []int) float64 {
 	for _, i := range idx {
 		tr.texts = append(tr.texts, d.IDs[i])
 		tr.labels = append(tr.labels, d.Labels[i])
+	}
+	if tr.unkP != nil {
+		tr.dropWords()
 	}
 	nf := tr.m.Config.NumFilters()
 	if p := tr.m.Config.Dropout; p > 0 {
@@ -283,10 +353,15 @@ func (tr *trainer) texts_(k, lo, hi int) {
 		m.Head(t.h, t.z)
 		y := tr.labels[i]
 		tr.loss[i] = crossEntropy(t.z, t.p, y)
-		for c := 0; c < C; c++ {
-			t.dz[c] = t.p[c] * scale
+		sc := scale
+		if tr.classW != nil {
+			sc *= tr.classW[y]
+			tr.loss[i] *= float64(tr.classW[y])
 		}
-		t.dz[y] -= scale
+		for c := 0; c < C; c++ {
+			t.dz[c] = t.p[c] * sc
+		}
+		t.dz[y] -= sc
 		// Output layer.
 		for c := 0; c < C; c++ {
 			axpy(t.dz[c], t.h, t.ow[c*nf:(c+1)*nf])

@@ -27,6 +27,23 @@ type TrainConfig struct {
 	Patience  int  `json:"patience"`
 	MaxLen    int  `json:"max_len"`    // texts are cut to this many tokens; 0 keeps them whole
 	FreezeEmb bool `json:"freeze_emb"` // keep the embeddings fixed
+	// ClassWeight "balanced" weights each training text's loss by
+	// n/(k·n_c) (n texts, k classes, n_c texts of its class: scikit-learn's
+	// "balanced"); "" weighs every text 1.
+	ClassWeight string `json:"class_weight,omitempty"`
+	// WordDropout is α of the word dropout of Kiperwasser & Goldberg (2016,
+	// "Simple and Accurate Dependency Parsing Using Bidirectional LSTM
+	// Feature Representations", TACL): in every training batch each
+	// occurrence of a word seen #w times in the training split is replaced
+	// by UNK with probability α/(#w+α), so the UNK vector is trained on
+	// what unknown words are like, the rare words. 0 turns it off.
+	WordDropout float64 `json:"word_dropout,omitempty"`
+	// TokenDropout is the probability that any token of a training batch is
+	// replaced by UNK, whatever its count (word dropout as in Bowman et al.
+	// 2016, "Generating Sentences from a Continuous Space", CoNLL): no one
+	// word can carry a prediction alone. It combines with WordDropout (a
+	// word is kept only if both keep it). 0 turns it off.
+	TokenDropout float64 `json:"token_dropout,omitempty"`
 }
 
 // WithDefaults returns tc with every zero field set to its default, or an
@@ -73,6 +90,12 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: optimizer epsilon %g: must be positive", tc.Eps)
 	case tc.MaxLen < 0:
 		return tc, fmt.Errorf("cnn: max length %d: must be 0 (no limit) or positive", tc.MaxLen)
+	case tc.ClassWeight != "" && tc.ClassWeight != "balanced":
+		return tc, fmt.Errorf("cnn: class weight %q: use balanced or leave it empty", tc.ClassWeight)
+	case tc.WordDropout < 0 || math.IsInf(tc.WordDropout, 0) || math.IsNaN(tc.WordDropout):
+		return tc, fmt.Errorf("cnn: word dropout %g: must be 0 (off) or positive", tc.WordDropout)
+	case !(tc.TokenDropout >= 0 && tc.TokenDropout < 1):
+		return tc, fmt.Errorf("cnn: token dropout %g: must be in [0, 1)", tc.TokenDropout)
 	}
 	return tc, nil
 }
@@ -152,7 +175,10 @@ const progressEvery = 10
 // max over time, dropout on the pooled layer (inverted: kept units are scaled
 // by 1/(1−p)), a linear layer, softmax cross-entropy averaged over the batch;
 // Adam (Kingma & Ba 2015, in PyTorch's formulation) or Adadelta (Zeiler 2012);
-// then the optional max-norm constraint on each row of OutW (Kim 2014).
+// then the optional max-norm constraint on each row of OutW (Kim 2014). With
+// ClassWeight each text's loss is weighted by its class's weight (the batch
+// mean of the weighted losses is minimised and reported); with WordDropout
+// the batch's words are replaced by UNK first (a copy: train is unchanged).
 // Batches are length-bucketed: the shuffled split is cut into chunks of 100
 // batches, each chunk sorted by length and cut into batches, and the batch
 // order shuffled.
@@ -176,6 +202,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	train, dev = train.Truncate(tc.MaxLen), dev.Truncate(tc.MaxLen)
 	tr := newTrainer(m, tc)
 	defer tr.close()
+	tr.prepare(train)
 	rng := rand.New(rand.NewPCG(tc.Seed, tc.Seed^0x5bd1e995))
 	res := &TrainResult{}
 	var best *Model

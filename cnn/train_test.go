@@ -146,8 +146,9 @@ func TestTrainStepNoAlloc(t *testing.T) {
 	m.Config.Dropout, m.Config.MaxNorm = 0.5, 3
 	d := toyData(9, 100, 40)
 	for _, opt := range []string{"adam", "adadelta"} {
-		tc, _ := TrainConfig{Seed: 1, Threads: 2, Optimizer: opt}.WithDefaults()
+		tc, _ := TrainConfig{Seed: 1, Threads: 2, Optimizer: opt, TokenDropout: 0.25, WordDropout: 0.25, ClassWeight: "balanced"}.WithDefaults()
 		tr := newTrainer(m, tc)
+		tr.prepare(d)
 		batches := makeBatches(rand.New(rand.NewPCG(1, 1)), d.IDs, 10, make([]int, d.Len()), nil)
 		for _, b := range batches {
 			tr.step(d, b)

@@ -35,7 +35,9 @@
 // Token keeps byte offsets into the original text: text[Start:End] is its
 // source. BuildVocab makes the word vocabulary (PAD, UNK, then words by
 // count, ties by word). Optionally TrainSubword learns subword pieces on the
-// training split and TokenizeFor splits unknown words into them; or a
+// training split and TokenizeFor splits unknown words into them; TrainEncoder
+// then leaves the words seen once out of the word list, so they are split in
+// the training texts too and the pieces' vectors are trained. Or a
 // tokenizer file in the library's JSON format replaces the built-in rule.
 //
 //	train, _, err := corpus.Load("tickets.csv", corpus.Options{})

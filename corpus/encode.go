@@ -28,18 +28,31 @@ func NewEncoder(cfg TokenizerConfig, words []string) (*Encoder, error) {
 // TrainEncoder builds the encoder for a training split: the tokenizer of
 // cfg, a subword vocabulary trained on texts when cfg.Subword is set, and a
 // word vocabulary of texts with cfg.MinCount and cfg.MaxVocab.
+//
+// With subwords a word needs at least SubwordMinCount (2) training
+// occurrences, or cfg.MinCount if higher, to keep a vector of its own: the
+// rarer words are split into pieces in the training texts exactly as
+// unknown words are at test time, so the pieces' vectors are trained.
 func TrainEncoder(cfg TokenizerConfig, texts []string) (*Encoder, error) {
 	tok, err := NewTokenizer(cfg)
 	if err != nil {
 		return nil, err
 	}
-	if cfg.Subword && !tok.HasSubword() {
-		if err := tok.TrainSubword(texts, cfg.SubwordSize); err != nil {
-			return nil, err
+	minCount := max(cfg.MinCount, 1)
+	if cfg.Subword {
+		minCount = max(minCount, SubwordMinCount)
+		if !tok.HasSubword() {
+			if err := tok.TrainSubword(texts, cfg.SubwordSize); err != nil {
+				return nil, err
+			}
 		}
 	}
-	return &Encoder{Tok: tok, Vocab: BuildVocab(tok, texts, max(cfg.MinCount, 1), cfg.MaxVocab)}, nil
+	return &Encoder{Tok: tok, Vocab: BuildVocab(tok, texts, minCount, cfg.MaxVocab)}, nil
 }
+
+// SubwordMinCount is the fewest training occurrences a word needs to keep
+// its own vector when subwords are on (TrainEncoder).
+const SubwordMinCount = 2
 
 // Encode tokenizes text (splitting unknown words into known subword pieces
 // when the tokenizer has them) and maps the tokens to ids.

@@ -34,6 +34,9 @@ type TokenizerConfig struct {
 	MaxVocab int `json:"max_vocab,omitempty"`
 	// Subword asks for a WordPiece vocabulary trained on the training
 	// split (TrainSubword) to split out-of-vocabulary words (TokenizeFor).
+	// TrainEncoder then keeps out of the word list the words seen fewer
+	// than SubwordMinCount times, so that they are split in training too
+	// and the pieces' vectors learn.
 	Subword bool `json:"subword,omitempty"`
 	// SubwordSize is the WordPiece vocabulary size (0 = 2000).
 	SubwordSize int `json:"subword_size,omitempty"`

