@@ -1,5 +1,3 @@
-//go:build ci
-
 package gui
 
 import (
@@ -21,18 +19,18 @@ import (
 	"telltale/internal/atomicfile"
 )
 
-// saveState is a State with a window, a Corpus view that exports a small
-// table, and a folder chooser that always answers dir.
+// saveState is a State with its views on a window (nothing opened), the
+// Corpus view on screen with a small table to export, and a folder chooser
+// that always answers dir.
 func saveState(t *testing.T, dir string) (*State, *sheet) {
 	t.Helper()
 	a := test.NewTempApp(t)
-	st := newState(a, Options{})
+	st := newState(a, Options{}, func(f func()) { f() })
 	st.win = a.NewWindow("save")
-	st.win.Resize(fyne.NewSize(900, 600))
-	st.selectedView = func() string { return "Corpus" }
-	tbl := newSheet([]string{"label", "texts"}, []float32{100, 80})
-	tbl.setRows([][]string{{"refunds", "412"}, {"lost, property", "97"}})
-	st.exports["Corpus"] = exporter{table: func() *sheet { return tbl }}
+	st.win.SetContent(st.build())
+	st.win.Resize(fyne.NewSize(1024, 700))
+	tbl := st.corpusView.dups
+	tbl.setRows([][]string{{"exact", "2", "no", "no", "refunds", "my refund"}, {"near", "2", "yes", "yes", "lost, property", "a bag"}})
 	st.pickFolder = func(start string, done func(string)) { done(dir) }
 	return st, tbl
 }
@@ -40,11 +38,11 @@ func saveState(t *testing.T, dir string) (*State, *sheet) {
 // shownSave returns the save dialog that the last call put on screen.
 func shownSave(t *testing.T, st *State) *saveForm {
 	t.Helper()
-	sf := st.saveShown
+	sf := st.lastSave
 	if sf == nil {
 		t.Fatal("no save dialog was shown")
 	}
-	st.saveShown = nil
+	st.lastSave = nil
 	return sf
 }
 
