@@ -135,7 +135,7 @@ func (st *State) runAudit(then func()) {
 	if ps := itemGet(st.profiles); ps != nil {
 		prof = ps.P
 	}
-	_ = st.status.Set("Running the cue audit…")
+	st.setStatus("Running the cue audit…")
 	st.start(taskAudit, true, func(ctx context.Context, report reporter) (func(), error) {
 		a, err := auditWork(ctx, ms, cs, prof, report)
 		if err != nil {
@@ -145,7 +145,7 @@ func (st *State) runAudit(then func()) {
 		return func() {
 			if itemGet(st.model) == ms {
 				st.audit.Set(as)
-				_ = st.status.Set(fmt.Sprintf("Cue audit done: %s flagged, %d filters scored, %d suspects listed.",
+				st.setStatus(fmt.Sprintf("Cue audit done: %s flagged, %d filters scored, %d suspects listed.",
 					plural(len(a.Tokens), "word", "words"), a.Candidates, len(a.Filters)))
 			}
 			if then != nil {
@@ -201,7 +201,7 @@ func (st *State) applyMask(filters []int, done func(*maskState)) {
 		return
 	}
 	filters = slices.Sorted(slices.Values(filters))
-	_ = st.status.Set(fmt.Sprintf("Evaluating the model with %s masked…", plural(len(filters), "filter", "filters")))
+	st.setStatus(fmt.Sprintf("Evaluating the model with %s masked…", plural(len(filters), "filter", "filters")))
 	st.start(taskMask, true, func(ctx context.Context, report reporter) (func(), error) {
 		if ctx.Err() != nil {
 			return nil, ctx.Err()
@@ -220,7 +220,7 @@ func (st *State) applyMask(filters []int, done func(*maskState)) {
 			if itemGet(st.model) != ms {
 				return
 			}
-			_ = st.status.Set(fmt.Sprintf("With %s masked: test accuracy %.3f (was %.3f), macro-F1 %.3f (was %.3f).",
+			st.setStatus(fmt.Sprintf("With %s masked: test accuracy %.3f (was %.3f), macro-F1 %.3f (was %.3f).",
 				plural(len(filters), "filter", "filters"), ev.Metrics.Accuracy, ms.Eval.Metrics.Accuracy, ev.Metrics.MacroF1, ms.Eval.Metrics.MacroF1))
 			done(mk)
 		}, nil

@@ -43,7 +43,7 @@ func (p *evidencePane) content() fyne.CanvasObject {
 	p.tabs = container.NewAppTabs(
 		container.NewTabItem("Score parts", p.parts.view),
 		container.NewTabItem("Cue words", p.words.view()),
-		container.NewTabItem("Masking and substitution", p.effects.view),
+		container.NewTabItem("Interventions", p.effects.view),
 		container.NewTabItem("Examples", container.NewBorder(p.exampleNote, p.examples.detail, nil, nil, p.examples.view())),
 	)
 	return container.NewBorder(tall(container.NewVScroll(p.title), 96), nil, nil, nil, p.tabs)
@@ -52,7 +52,7 @@ func (p *evidencePane) content() fyne.CanvasObject {
 // explainRow sends an example's whole text to the explanation view.
 func (p *evidencePane) explainRow(row int) {
 	if a := itemGet(p.st.audit); a != nil && row < len(p.exampleList) {
-		p.st.explainThis(a.text(p.exampleList[row]))
+		p.st.explainThis(a.text(p.exampleList[row]), p.examples)
 	}
 }
 
@@ -116,8 +116,7 @@ type maskPane struct {
 	save    *widget.Button
 }
 
-const maskHint = "Tick filters (the mask column of Suspects, the buttons of Cues, or All filters) to mask them in a copy of the model; " +
-	"its test figures appear here. The other views keep using the model as trained."
+const maskHint = "Tick filters to mask them in a copy of the model; its test figures appear here. The other views keep the model as trained."
 
 func newMaskPane(st *State, v *auditView) *maskPane {
 	p := &maskPane{st: st, v: v, ticked: map[int]bool{}}
@@ -129,7 +128,7 @@ func newMaskPane(st *State, v *auditView) *maskPane {
 }
 
 func (p *maskPane) content() fyne.CanvasObject {
-	return container.NewBorder(container.NewBorder(nil, nil, nil, p.save, p.note), nil, nil, nil, p.compare.view())
+	return container.NewBorder(p.note, container.NewHBox(p.save), nil, nil, p.compare.view())
 }
 
 // saveMasked asks where to save the masked copy.

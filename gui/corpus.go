@@ -97,7 +97,7 @@ func (st *State) openData(src dataSource, then func()) {
 		}
 		return
 	}
-	_ = st.status.Set("Opening data…")
+	st.setStatus("Opening data…")
 	st.start(taskLoad, true, func(ctx context.Context, report reporter) (func(), error) {
 		cs, err := loadCorpus(ctx, src, plan)
 		if err != nil {
@@ -105,7 +105,7 @@ func (st *State) openData(src dataSource, then func()) {
 		}
 		return func() {
 			st.data.Set(cs)
-			_ = st.status.Set(fmt.Sprintf("Opened %s: %d training, %d dev and %d test texts, %d labels.",
+			st.setStatus(fmt.Sprintf("Opened %s: %d training, %d dev and %d test texts, %d labels.",
 				cs.Source, len(cs.Train.Examples), len(cs.Dev.Examples), len(cs.Test.Examples), len(cs.Train.Labels)))
 			if then != nil {
 				then()

@@ -199,39 +199,37 @@ func duplicateRows(s corpus.Summary) [][]string {
 	return rows
 }
 
-// balancePlot draws the share of each label in each split as grouped bars.
+// balancePlot draws the share of each label in each split as grouped
+// horizontal bars, the labels down the side where long names fit.
 func balancePlot(cs *corpusState) *plot.Plot {
 	s := cs.Summary
-	p := newPlot("Class balance", "", "share of the split")
+	p := newPlot("Class balance", "share of the split", "")
 	splits := []corpus.SplitSummary{s.Splits[0], cs.DevSplit}
 	splits = append(splits, s.Splits[1:]...)
-	w := vg.Points(10)
+	w := vg.Points(5)
+	top := 0.0
 	for i, sp := range splits {
 		vals := make(plotter.Values, len(s.Labels))
 		for j, l := range s.Labels {
 			vals[j] = sp.Balance[l]
+			top = max(top, vals[j])
 		}
 		bars, err := plotter.NewBarChart(vals, w)
 		if err != nil {
 			continue
 		}
+		bars.Horizontal = true
 		bars.Color = seriesColors[i%len(seriesColors)]
 		bars.LineStyle.Width = 0
-		bars.Offset = vg.Length(float64(i)-float64(len(splits)-1)/2) * w
+		// The first split on top of each group.
+		bars.Offset = vg.Length(float64(len(splits)-1)/2-float64(i)) * w
 		p.Add(bars)
 		p.Legend.Add(splitName(sp.Name), bars)
 	}
-	p.NominalX(s.Labels...)
-	// Head room above the tallest bar for the legend.
-	top := 0.0
-	for _, sp := range splits {
-		for _, v := range sp.Balance {
-			top = max(top, v)
-		}
-	}
-	p.Y.Min, p.Y.Max = 0, 1.35*top
-	// Room beside the outer bars, which are offset from their label.
-	p.X.Min, p.X.Max = -0.7, float64(len(s.Labels))-0.3
+	p.NominalY(s.Labels...)
+	// Room on the right of the longest bar for the legend.
+	p.X.Min, p.X.Max = 0, 1.45*top
+	p.Y.Min, p.Y.Max = -0.6, float64(len(s.Labels))-0.4
 	return p
 }
 

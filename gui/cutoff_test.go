@@ -32,7 +32,7 @@ func cutOff(c fyne.Canvas) []string {
 			cut = append(cut, s)
 		}
 		switch w := o.(type) {
-		case *widget.Table, *widget.List:
+		case *widget.Table, *sheetTable, *widget.List:
 			return
 		case *container.Scroll:
 			walk(w.Content, p.Subtract(w.Offset), true)

@@ -139,7 +139,7 @@ func (st *State) commitSave(path string, write func(path string) error) {
 		st.showErrorf(err, "could not write %s (any file that was there is unchanged)", path)
 		return
 	}
-	_ = st.status.Set("Wrote " + path)
+	st.setStatus("Wrote " + path)
 }
 
 // validFileName accepts a bare file name: not empty, no folder part.

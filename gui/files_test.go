@@ -127,7 +127,7 @@ func TestSaveOverExistingFile(t *testing.T) {
 	if ns := dirNames(t, dir); !reflect.DeepEqual(ns, []string{"telltale-corpus.csv"}) {
 		t.Errorf("folder holds %v after a failed write, want only the old file", ns)
 	}
-	if s := stringGet(st.status); !strings.Contains(s, "disk full") || !strings.Contains(s, path) {
+	if s := st.statusText(); !strings.Contains(s, "disk full") || !strings.Contains(s, path) {
 		t.Errorf("status %q does not report the failed write of %s", s, path)
 	}
 
@@ -150,7 +150,7 @@ func TestSaveOverExistingFile(t *testing.T) {
 	if !reflect.DeepEqual(recs, want) {
 		t.Errorf("saved records %q, want %q", recs, want)
 	}
-	if s := stringGet(st.status); s != "Wrote "+path {
+	if s := st.statusText(); s != "Wrote "+path {
 		t.Errorf("status %q after saving", s)
 	}
 
@@ -236,5 +236,77 @@ func TestValidFileName(t *testing.T) {
 		if err := validFileName(c.name); (err == nil) != c.ok {
 			t.Errorf("validFileName(%q) = %v, want ok %v", c.name, err, c.ok)
 		}
+	}
+}
+
+// No save dialog writes onto a file the window reads from (the data, the
+// test file, the model): the same file is refused under any of its names —
+// the path itself, one through "..", a symbolic link, a hard link — and
+// keeps its bytes.
+func TestSaveRefusesTheWindowsInputs(t *testing.T) {
+	dir := t.TempDir()
+	inputs := map[string]string{"data": "data.csv", "test": "test.csv", "model": "model.tt"}
+	for _, name := range inputs {
+		if err := os.WriteFile(filepath.Join(dir, name), []byte("input "+name), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	other := t.TempDir()
+	sub := filepath.Join(dir, "sub")
+	if err := os.Mkdir(sub, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	for _, input := range []string{"data.csv", "test.csv", "model.tt"} {
+		src := filepath.Join(dir, input)
+		if err := os.Symlink(src, filepath.Join(other, "link-"+input)); err != nil {
+			t.Fatal(err)
+		}
+		if err := os.Link(src, filepath.Join(other, "hard-"+input)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for _, c := range []struct{ folder, name, input string }{
+		{dir, "data.csv", "data.csv"},
+		{dir, "test.csv", "test.csv"},
+		{dir, "model.tt", "model.tt"},
+		{sub + "/..", "data.csv", "data.csv"},
+		{other, "link-data.csv", "data.csv"},
+		{other, "link-model.tt", "model.tt"},
+		{other, "hard-test.csv", "test.csv"},
+		{other, "hard-model.tt", "model.tt"},
+	} {
+		t.Run(c.name+" in "+filepath.Base(c.folder), func(t *testing.T) {
+			st, _ := saveState(t, c.folder)
+			st.opts.DataPath = filepath.Join(dir, inputs["data"])
+			st.opts.TestPath = filepath.Join(dir, inputs["test"])
+			st.opts.ModelPath = filepath.Join(dir, inputs["model"])
+			written := 0
+			st.writeFile = func(string, func(io.Writer) error) error { written++; return nil }
+			st.exportCSVDialog()
+			sf := shownSave(t, st)
+			sf.choose()
+			sf.name.SetText(c.name)
+			sf.form.Submit()
+			if sf.confirm != nil || written != 0 {
+				t.Errorf("saving as %s offered to replace it or wrote it (%d writes)", filepath.Join(c.folder, c.name), written)
+			}
+			if s := st.statusText(); !strings.Contains(s, "which this window reads from") {
+				t.Errorf("status %q does not say the file is an input", s)
+			}
+			if b, _ := os.ReadFile(filepath.Join(dir, c.input)); string(b) != "input "+c.input {
+				t.Errorf("the input %s now holds %q", c.input, b)
+			}
+		})
+	}
+	// A new file beside the inputs is written.
+	st, _ := saveState(t, dir)
+	st.opts.DataPath = filepath.Join(dir, inputs["data"])
+	st.exportCSVDialog()
+	sf := shownSave(t, st)
+	sf.choose()
+	sf.name.SetText("export.csv")
+	sf.form.Submit()
+	if _, err := os.Stat(filepath.Join(dir, "export.csv")); err != nil {
+		t.Errorf("a new file beside the inputs was not written: %v", err)
 	}
 }

@@ -74,7 +74,7 @@ func (v *filtersView) layout() fyne.CanvasObject {
 	tabs := container.NewAppTabs(
 		container.NewTabItem("Top n-grams", container.NewVScroll(v.ngrams)),
 		container.NewTabItem("Families", container.NewBorder(nil, v.families.detail, nil, nil, v.families.view())),
-		container.NewTabItem("Trigger and suppressor words", container.NewBorder(nil, v.slots.detail, nil, nil, v.slots.view())),
+		container.NewTabItem("Slot words", container.NewBorder(nil, v.slots.detail, nil, nil, v.slots.view())),
 		container.NewTabItem("Activations", v.hist),
 	)
 	right := container.NewBorder(v.title, nil, nil, nil, tabs)
@@ -86,7 +86,13 @@ func (v *filtersView) layout() fyne.CanvasObject {
 
 func (v *filtersView) content() fyne.CanvasObject { return v.body }
 func (v *filtersView) exportTable() *sheet        { return v.list }
-func (v *filtersView) focusInput()                { v.st.win.Canvas().Focus(v.query) }
+
+// focusInput focuses the search box, when the list is on screen.
+func (v *filtersView) focusInput() {
+	if v.body.Objects[0] == v.full {
+		v.st.win.Canvas().Focus(v.query)
+	}
+}
 
 func (v *filtersView) exportData() any {
 	if ps := itemGet(v.st.profiles); ps != nil {
@@ -95,13 +101,14 @@ func (v *filtersView) exportData() any {
 	return nil
 }
 
-// showFilter shows filter g in the Filters view, selected in the list.
-func (st *State) showFilter(g int) {
+// showFilter shows filter g in the Filters view, selected in the list,
+// from a row of sheet from (nil: from elsewhere).
+func (st *State) showFilter(g int, from *sheet) {
 	v := st.filtersView
 	v.query.SetText("")
 	v.list.setQuery("")
 	v.list.selectRow(g)
-	st.show(titleFilters)
+	st.showFrom(from, titleFilters)
 }
 
 func (v *filtersView) modelChanged() {

@@ -77,7 +77,7 @@ func TestWholeSession(t *testing.T) {
 
 	// Select a filter: the painted n-gram tokens carry the profile's slot
 	// scores.
-	st.showFilter(3)
+	st.showFilter(3, nil)
 	q.drain()
 	fp := st.filtersView.shown
 	if fp == nil || fp.Filter != 3 {

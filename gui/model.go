@@ -63,8 +63,12 @@ func (ms *modelState) caption() string {
 		return "No model yet: train one (Training view, Run › Train) or open one (File › Open model)."
 	}
 	c := ms.Model.Config
-	s := fmt.Sprintf("Model: %s — %d filters (widths %s × %d maps), labels %s.", ms.name(), c.NumFilters(),
-		intList(c.Widths), c.Filters, strings.Join(ms.Model.Labels, ", "))
+	name := "trained in this window"
+	if ms.Path != "" {
+		name = filepath.Base(ms.Path)
+	}
+	s := fmt.Sprintf("Model: %s — %d filters (widths %s × %d maps), %d labels.", name, c.NumFilters(),
+		intList(c.Widths), c.Filters, len(ms.Model.Labels))
 	if m := ms.masked(); len(m) > 0 {
 		s += fmt.Sprintf(" A masked model: %s switched off (%s).", plural(len(m), "filter is", "filters are"), shortList(m, 12))
 	}
@@ -143,7 +147,7 @@ func planOf(m *cnn.Model) (splitPlan, bool) {
 // open corpus's test split; a model that records its split plan is
 // evaluated on the test split that plan makes.
 func (st *State) openModel(path string, then func()) {
-	_ = st.status.Set("Opening model " + path + "…")
+	st.setStatus("Opening model " + path + "…")
 	cs := itemGet(st.data)
 	st.start(taskLoad, true, func(ctx context.Context, report reporter) (func(), error) {
 		m, err := cnn.Load(path)
@@ -170,7 +174,7 @@ func (st *State) openModel(path string, then func()) {
 				st.data.Set(cs)
 			}
 			st.setModel(ms)
-			_ = st.status.Set(fmt.Sprintf("Opened model %s: %d filters, labels %s.", path, ms.Model.Config.NumFilters(),
+			st.setStatus(fmt.Sprintf("Opened model %s: %d filters, labels %s.", path, ms.Model.Config.NumFilters(),
 				strings.Join(ms.Model.Labels, ", ")))
 			if then != nil {
 				then()

@@ -37,7 +37,7 @@ func (st *State) profileNow(then func()) {
 		then()
 		return
 	}
-	_ = st.status.Set("Profiling the filters over the training split…")
+	st.setStatus("Profiling the filters over the training split…")
 	st.start(taskProfile, true, func(ctx context.Context, report reporter) (func(), error) {
 		d, err := encode(ms.Enc, cs.Train, ms.Model.Labels)
 		if err != nil {
@@ -58,7 +58,7 @@ func (st *State) profileNow(then func()) {
 				return
 			}
 			st.profiles.Set(ps)
-			_ = st.status.Set(fmt.Sprintf("Profiled %d filters over %s.", len(p.Filters), texts(p.Texts)))
+			st.setStatus(fmt.Sprintf("Profiled %d filters over %s.", len(p.Filters), texts(p.Texts)))
 			then()
 		}, nil
 	})

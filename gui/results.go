@@ -62,7 +62,7 @@ func (v *resultsView) layout() fyne.CanvasObject {
 	bottom := container.NewHSplit(v.lower, texts)
 	bottom.Offset = 0.4
 	split := container.NewVSplit(matrix, bottom)
-	split.Offset = 0.45
+	split.Offset = 0.58
 	return container.NewBorder(container.NewVBox(v.caption, v.headline), nil, nil, nil, split)
 }
 
@@ -84,7 +84,7 @@ func (v *resultsView) explainRow(row int) {
 	if ms == nil || ms.Eval == nil || row >= len(v.cellRows) {
 		return
 	}
-	v.st.explainThis(ms.Eval.Texts[v.cellRows[row]])
+	v.st.explainThis(ms.Eval.Texts[v.cellRows[row]], v.cellTexts)
 }
 
 // showCell lists the test texts of gold label gold predicted as pred.

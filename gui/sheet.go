@@ -33,7 +33,7 @@ type sheet struct {
 	desc    bool
 	query   string
 
-	table    *widget.Table
+	table    *sheetTable
 	detail   *widget.Label // the selected row's cut cells, whole
 	onSelect func(row int) // original row index
 	// onCell, if set, is called before onSelect with the column clicked.
@@ -41,9 +41,7 @@ type sheet struct {
 	selected int  // original row index, -1 none
 	quiet    bool // a selection made by the program: no onCell
 	mute     bool // a selection kept through a re-sort: no callbacks
-	// widest holds each column's few longest cells, measured once per
-	// setRows; widths the columns' widths.
-	widest [][]string
+	// widths are the columns' widths (fitColumns).
 	widths []float32
 	box    *fyne.Container // the table in a layout that widens its last column
 	// shownLast is the last column's width on screen.
@@ -65,7 +63,9 @@ func newSheet(cols ...string) *sheet {
 	s.detail = widget.NewLabel("")
 	s.detail.Wrapping = fyne.TextWrapWord
 	s.detail.Hide()
-	s.table = widget.NewTable(s.size, s.createCell, s.updateCell)
+	s.table = &sheetTable{}
+	s.table.Length, s.table.CreateCell, s.table.UpdateCell = s.size, s.createCell, s.updateCell
+	s.table.ExtendBaseWidget(s.table)
 	s.table.ShowHeaderRow = true
 	s.table.CreateHeader = func() fyne.CanvasObject {
 		b := widget.NewButton("", nil)
@@ -81,6 +81,40 @@ func newSheet(cols ...string) *sheet {
 	s.box = container.New(&fillLast{s: s}, s.table)
 	s.fitColumns()
 	return s
+}
+
+// sheetTable is a table that, on a click, runs what the row's handler left
+// for after the click once the table has taken the keyboard focus. A handler
+// that switches views must wait so: the table takes the focus after its
+// handler returns, and a table no longer on screen cannot take it (the
+// toolkit logs "Failed to focus object which is not part of the canvas'
+// content").
+type sheetTable struct {
+	widget.Table
+	clicking bool
+	after    []func()
+}
+
+// Tapped selects the clicked cell, then runs what was left for after.
+func (t *sheetTable) Tapped(e *fyne.PointEvent) {
+	t.clicking = true
+	t.Table.Tapped(e)
+	t.clicking = false
+	after := t.after
+	t.after = nil
+	for _, f := range after {
+		f()
+	}
+}
+
+// afterClick runs f once the click being handled is done, or now when no
+// click is.
+func (t *sheetTable) afterClick(f func()) {
+	if t.clicking {
+		t.after = append(t.after, f)
+		return
+	}
+	f()
 }
 
 // view is the sheet as it goes on screen: the table, its last column
@@ -117,7 +151,9 @@ func (s *sheet) widenLast() {
 	for _, w := range s.widths[:n-1] {
 		used += w + theme.Size(theme.SizeNameSeparatorThickness)
 	}
-	w := max(s.widths[n-1], room-used)
+	// The last column takes the room left, down to its title's width;
+	// a longer cell is cut there and shown whole in the detail line.
+	w := max(room-used, textWidth(s.cols[n-1]+" ▼", true)+2*theme.Padding())
 	if w != s.shownLast {
 		s.shownLast = w
 		s.table.SetColumnWidth(n-1, w)
@@ -209,13 +245,11 @@ func textWidth(t string, bold bool) float32 {
 // room for the sort mark), within its cap. It measures the few longest
 // cells of each column, which are the widest in the theme's font.
 func (s *sheet) fitColumns() {
-	s.widest = make([][]string, len(s.cols))
 	s.widths = make([]float32, len(s.cols))
 	for c, title := range s.cols {
-		s.widest[c] = s.longest(c, 3)
 		head := textWidth(title+" ▼", true) + 2*theme.Padding()
 		w := head
-		for _, t := range s.widest[c] {
+		for _, t := range s.longest(c, 3) {
 			w = max(w, textWidth(t, false))
 		}
 		s.widths[c] = min(w, max(s.caps[c], head))
@@ -244,28 +278,30 @@ func (s *sheet) longest(c, n int) []string {
 	return top
 }
 
-// cutColumns lists the columns whose widest cell does not fit its width.
-func (s *sheet) cutColumns() []int {
+// cutCells lists the columns whose cell in row r does not fit the column.
+func (s *sheet) cutCells(r int) []int {
 	var cut []int
 	for c := range s.cols {
 		room := s.widths[c]
-		if c == len(s.cols)-1 && s.shownLast > room {
+		if c == len(s.cols)-1 && s.shownLast > 0 {
 			room = s.shownLast
 		}
-		for _, t := range s.widest[c] {
-			if textWidth(t, false) > room+1 {
-				cut = append(cut, c)
-				break
-			}
+		if textWidth(oneLine(s.cell(r, c)), false) > room+1 {
+			cut = append(cut, c)
 		}
 	}
 	return cut
 }
 
-// showDetail writes the selected row's cut cells in the detail line.
+// showDetail writes the selected row's cut cells, whole, in the detail line.
 func (s *sheet) showDetail() {
-	cut := s.cutColumns()
-	if s.selected < 0 || s.selected >= len(s.rows) || len(cut) == 0 {
+	if s.selected < 0 || s.selected >= len(s.rows) {
+		s.detail.SetText("")
+		s.detail.Hide()
+		return
+	}
+	cut := s.cutCells(s.selected)
+	if len(cut) == 0 {
 		s.detail.SetText("")
 		s.detail.Hide()
 		return

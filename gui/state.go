@@ -3,11 +3,13 @@ package gui
 import (
 	"fmt"
 	"io"
+	"math"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/data/binding"
 	"fyne.io/fyne/v2/dialog"
+	"fyne.io/fyne/v2/widget"
 
 	"telltale/internal/atomicfile"
 )
@@ -28,11 +30,15 @@ type State struct {
 	ui    func(fn func())
 	tasks *taskRunner
 
-	// Bound values shown by the status bar.
-	status   binding.String // what the window is doing, one line
-	progress binding.Float  // 0 … 1 of the task in the status bar
-	busy     binding.Bool   // a task of the status bar is running
-	running  binding.String // kinds of work running, for the views' buttons
+	// The status bar: what the window is doing, in one line, and the one
+	// progress figure of the window with a Stop button. They are set
+	// directly, not through bindings: a binding's update waits its turn on
+	// the UI goroutine's queue, and progress comes often.
+	statusLine *widget.Label
+	bar        *widget.ProgressBar
+	stopBtn    *widget.Button
+
+	running binding.String // kinds of work running, for the views' buttons
 
 	// What is open; each change is seen by every view.
 	data     binding.Item[*corpusState]
@@ -75,9 +81,6 @@ func newState(a fyne.App, opts Options, ui func(func())) *State {
 		app:         a,
 		opts:        opts,
 		ui:          ui,
-		status:      binding.NewString(),
-		progress:    binding.NewFloat(),
-		busy:        binding.NewBool(),
 		running:     binding.NewString(),
 		data:        binding.NewItem(func(a, b *corpusState) bool { return same(a, b) }),
 		model:       binding.NewItem(func(a, b *modelState) bool { return same(a, b) }),
@@ -89,21 +92,50 @@ func newState(a fyne.App, opts Options, ui func(func())) *State {
 	}
 	st.pickFolder = st.pickFolderDialog
 	st.tasks = newTaskRunner(ui)
+	st.newStatusBar()
 	st.tasks.onBusy = func(b bool) {
-		_ = st.busy.Set(b)
+		st.setBusy(b)
 		st.tasksChanged()
 	}
 	st.tasks.onNote = func(f float64, s string) {
 		if f >= 0 {
-			_ = st.progress.Set(f)
+			st.bar.SetValue(f)
 		}
 		if s != "" {
-			_ = st.status.Set(s)
+			st.setStatus(s)
 		}
 	}
 	st.tasks.onError = st.showError
-	_ = st.status.Set("No data open yet.")
+	st.setStatus("No data open yet.")
 	return st
+}
+
+// newStatusBar makes the status bar's widgets.
+func (st *State) newStatusBar() {
+	st.statusLine = widget.NewLabel("")
+	st.statusLine.Truncation = fyne.TextTruncateEllipsis
+	st.bar = widget.NewProgressBar()
+	st.bar.TextFormatter = func() string { return fmt.Sprintf("%.0f%%", math.Floor(100*st.bar.Value)) }
+	st.bar.Hide()
+	st.stopBtn = widget.NewButton("Stop", st.stopAll)
+	st.stopBtn.Disable()
+}
+
+// setStatus says in the status bar what the window is doing.
+func (st *State) setStatus(s string) { st.statusLine.SetText(s) }
+
+// statusText is the status bar's line.
+func (st *State) statusText() string { return st.statusLine.Text }
+
+// setBusy shows the progress bar and enables Stop while work runs.
+func (st *State) setBusy(busy bool) {
+	if busy {
+		st.bar.Show()
+		st.stopBtn.Enable()
+	} else {
+		st.bar.Hide()
+		st.stopBtn.Disable()
+	}
 }
 
 // start runs w in the background as the task of kind (see taskRunner).
@@ -148,7 +180,7 @@ func (st *State) cancelAll() { st.tasks.cancelAll() }
 // showError shows err in a dialog; the message says what happened and,
 // coming from the lower packages, what to do.
 func (st *State) showError(err error) {
-	_ = st.status.Set("Error: " + err.Error())
+	st.setStatus("Error: " + err.Error())
 	if st.win != nil {
 		dialog.ShowError(err, st.win)
 	}

@@ -90,7 +90,7 @@ func (st *State) trainNow() {
 	}
 	run := &trainRun{}
 	st.trainingView.startRun(run)
-	_ = st.status.Set("Training…")
+	st.setStatus("Training…")
 	st.start(taskTrain, true, func(ctx context.Context, report reporter) (func(), error) {
 		return st.trainWork(ctx, report, run, cs, rec, plan)
 	})
@@ -136,7 +136,7 @@ func (st *State) trainWork(ctx context.Context, report reporter, run *trainRun, 
 		if res.Cancelled {
 			word = "Stopped; kept the best model so far"
 		}
-		_ = st.status.Set(fmt.Sprintf("%s: best epoch %d, test accuracy %.3f, macro-F1 %.3f.",
+		st.setStatus(fmt.Sprintf("%s: best epoch %d, test accuracy %.3f, macro-F1 %.3f.",
 			word, res.BestEpoch, eval.Metrics.Accuracy, eval.Metrics.MacroF1))
 		if cs != itemGet(st.data) {
 			st.data.Set(cs)

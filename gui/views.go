@@ -97,16 +97,21 @@ func (st *State) views() []view {
 	return []view{st.corpusView, st.trainingView, st.resultsView, st.filtersView, st.whyView, st.auditView}
 }
 
-// show selects the view titled title. The switch waits for the UI
-// goroutine's next turn, so that a tap that switches views (a table row
-// that opens its text in another view) finishes on a widget that is still
-// on screen.
+// show selects the view titled title.
 func (st *State) show(title string) {
-	i := viewIndex(st.specs, title)
-	if i < 0 || st.tabs == nil {
+	if i := viewIndex(st.specs, title); i >= 0 && st.tabs != nil {
+		st.tabs.SelectIndex(i)
+	}
+}
+
+// showFrom selects the view titled title from a row of sheet from (nil:
+// not from a sheet), once the click on that row is done (sheetTable).
+func (st *State) showFrom(from *sheet, title string) {
+	if from == nil {
+		st.show(title)
 		return
 	}
-	st.ui(func() { st.tabs.SelectIndex(i) })
+	from.table.afterClick(func() { st.show(title) })
 }
 
 // shownTitle is the title of the view on screen.

@@ -74,7 +74,7 @@ func newWhyView(st *State) *whyView {
 	v.fired = newSheet("filter", "adds to the logit", "activation", "width", "family", "window").wide(5, 260)
 	v.fired.onSelect = func(row int) {
 		if row < len(v.firedRows) {
-			st.showFilter(v.firedRows[row].Filter)
+			st.showFilter(v.firedRows[row].Filter, v.fired)
 		}
 	}
 	v.body = v.layout()
@@ -105,10 +105,11 @@ func (v *whyView) exportData() any {
 	return nil
 }
 
-// explainThis sends text to the explanation view and shows it.
-func (st *State) explainThis(text string) {
+// explainThis sends text to the explanation view and shows it, from a row
+// of sheet from (nil: from elsewhere).
+func (st *State) explainThis(text string, from *sheet) {
 	_ = st.explainText.Set(text)
-	st.show(titleWhy)
+	st.showFrom(from, titleWhy)
 }
 
 // nextTestText puts the next text of the test split in the box.

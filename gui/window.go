@@ -1,9 +1,6 @@
 package gui
 
 import (
-	"fmt"
-	"math"
-
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/driver/desktop"
@@ -91,27 +88,11 @@ func (st *State) build() fyne.CanvasObject {
 	return container.NewBorder(nil, st.statusBar(), nil, nil, tabs)
 }
 
-// statusBar shows what the window is doing: one line, the one progress
+// statusBar lays out what the window is doing: one line, the one progress
 // figure of the window (a bar with its percentage) and a Stop button.
 func (st *State) statusBar() fyne.CanvasObject {
-	msg := widget.NewLabelWithData(st.status)
-	msg.Truncation = fyne.TextTruncateEllipsis
-	bar := widget.NewProgressBarWithData(st.progress)
-	bar.TextFormatter = func() string { return fmt.Sprintf("%.0f%%", math.Floor(100*bar.Value)) }
-	stop := widget.NewButton("Stop", st.stopAll)
-	stop.Disable()
-	bar.Hide()
-	listen(func() {
-		if b, _ := st.busy.Get(); b {
-			bar.Show()
-			stop.Enable()
-		} else {
-			bar.Hide()
-			stop.Disable()
-		}
-	}, st.busy)
-	right := container.NewHBox(container.NewGridWrap(fyne.NewSize(200, bar.MinSize().Height), bar), stop)
-	return container.NewBorder(nil, nil, nil, right, msg)
+	right := container.NewHBox(container.NewGridWrap(fyne.NewSize(200, st.bar.MinSize().Height), st.bar), st.stopBtn)
+	return container.NewBorder(nil, nil, nil, right, st.statusLine)
 }
 
 // installMenus sets the main menu with the usual shortcuts.
