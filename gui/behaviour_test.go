@@ -1,6 +1,7 @@
 package gui
 
 import (
+	"slices"
 	"strings"
 	"testing"
 
@@ -148,16 +149,16 @@ func TestHelp(t *testing.T) {
 	if top == nil {
 		t.Fatal("Help › Glossary showed nothing")
 	}
-	var lines []string
+	var entries []string
 	walkObjects(top, func(o fyne.CanvasObject) {
-		if l, ok := o.(*widget.Label); ok {
-			lines = append(lines, l.Text)
+		if r, ok := o.(*widget.RichText); ok {
+			entries = append(entries, r.String())
 		}
 	})
-	all := strings.Join(lines, "\n")
 	for _, term := range glossary.Terms {
-		if !strings.Contains(all, term.Line()) {
-			t.Errorf("the glossary dialog lacks %q", term.Name)
+		want := term.Name + ": " + term.Meaning + " " + term.Formula
+		if !slices.Contains(entries, want) {
+			t.Errorf("the glossary dialog lacks %q", want)
 		}
 	}
 }

@@ -60,35 +60,42 @@ func dirNames(t *testing.T, dir string) []string {
 	return ns
 }
 
-// Saving over an existing file: the file keeps its bytes until the user
-// confirms and the new content is complete; a save whose writer fails after
-// writing part of the content leaves the old bytes as they were.
-func TestSaveOverExistingFile(t *testing.T) {
-	dir := t.TempDir()
-	st, tbl := saveState(t, dir)
-	path := filepath.Join(dir, "telltale-corpus.csv")
+// oldExport is a save state whose folder already holds telltale-corpus.csv,
+// the name the Corpus view suggests, with keepsOld checking that the file
+// still holds its old bytes, and a writer that writes the content and then
+// fails (as a full disk would), counting its calls.
+func oldExport(t *testing.T) (st *State, tbl *sheet, dir, path string, keepsOld func(when string), calls *int) {
+	t.Helper()
+	dir = t.TempDir()
+	st, tbl = saveState(t, dir)
+	path = filepath.Join(dir, "telltale-corpus.csv")
 	old := []byte("the old export\nwith two lines\n")
 	if err := os.WriteFile(path, old, 0o644); err != nil {
 		t.Fatal(err)
 	}
-	keepsOld := func(when string) {
+	keepsOld = func(when string) {
 		t.Helper()
 		if b, err := os.ReadFile(path); err != nil || !bytes.Equal(b, old) {
 			t.Fatalf("%s: the existing file holds %q (err %v), want the old %q", when, b, err, old)
 		}
 	}
-	calls := 0
-	boom := errors.New("disk full")
+	calls = new(int)
 	st.writeFile = func(p string, write func(io.Writer) error) error {
-		calls++
+		*calls++
 		return atomicfile.Write(p, func(w io.Writer) error {
 			if err := write(w); err != nil {
 				return err
 			}
-			return boom // the content went out, then the device failed
+			return errors.New("disk full") // the content went out, then the device failed
 		})
 	}
+	return st, tbl, dir, path, keepsOld, calls
+}
 
+// Saving over an existing file asks first; the file keeps its bytes while
+// the dialog is open, while asking, and when the user declines.
+func TestSaveAsksBeforeReplacing(t *testing.T) {
+	st, _, dir, _, keepsOld, calls := oldExport(t)
 	// The dialog suggests the view's name and the chosen folder.
 	st.exportCSVDialog()
 	sf := shownSave(t, st)
@@ -106,22 +113,26 @@ func TestSaveOverExistingFile(t *testing.T) {
 	}
 	keepsOld("while asking to replace")
 	sf.confirm.Hide() // "No"
-	if calls != 0 {
-		t.Errorf("declining the replacement still wrote the file (%d writes)", calls)
+	if *calls != 0 {
+		t.Errorf("declining the replacement still wrote the file (%d writes)", *calls)
 	}
 	keepsOld("after declining")
+}
 
-	// Confirmed, but the write fails: the old bytes stay, no temporary
-	// file is left, and the error is shown.
+// A confirmed save whose writer fails after writing the content leaves the
+// old bytes as they were, no temporary file, and says so.
+func TestSaveFailedWriteKeepsTheOldFile(t *testing.T) {
+	st, _, dir, path, keepsOld, calls := oldExport(t)
 	st.exportCSVDialog()
-	sf = shownSave(t, st)
+	sf := shownSave(t, st)
+	sf.choose()
 	sf.form.Submit()
 	if sf.confirm == nil {
-		t.Fatal("second save did not ask before replacing")
+		t.Fatal("the save did not ask before replacing")
 	}
 	sf.confirm.Confirm()
-	if calls != 1 {
-		t.Fatalf("confirmed save wrote %d times, want once", calls)
+	if *calls != 1 {
+		t.Fatalf("confirmed save wrote %d times, want once", *calls)
 	}
 	keepsOld("after a failed write")
 	if ns := dirNames(t, dir); !reflect.DeepEqual(ns, []string{"telltale-corpus.csv"}) {
@@ -130,12 +141,18 @@ func TestSaveOverExistingFile(t *testing.T) {
 	if s := st.statusText(); !strings.Contains(s, "disk full") || !strings.Contains(s, path) {
 		t.Errorf("status %q does not report the failed write of %s", s, path)
 	}
+}
 
-	// A working writer replaces the file with the table; encoding/csv (Go's
-	// standard library, RFC 4180) reads back the header and rows.
+// A working writer replaces the file with the table, a new name is written
+// without a question, and a name with a folder part is refused.
+func TestSaveWritesTheTable(t *testing.T) {
+	st, tbl, dir, path, _, _ := oldExport(t)
+	// encoding/csv (Go's standard library, RFC 4180) reads back the
+	// header and rows.
 	st.writeFile = atomicfile.Write
 	st.exportCSVDialog()
-	sf = shownSave(t, st)
+	sf := shownSave(t, st)
+	sf.choose()
 	sf.form.Submit()
 	sf.confirm.Confirm()
 	b, err := os.ReadFile(path)
@@ -146,14 +163,12 @@ func TestSaveOverExistingFile(t *testing.T) {
 	if err != nil {
 		t.Fatalf("the saved file is not CSV: %v\n%s", err, b)
 	}
-	want := append([][]string{tbl.cols}, tbl.rows...)
-	if !reflect.DeepEqual(recs, want) {
+	if want := append([][]string{tbl.cols}, tbl.rows...); !reflect.DeepEqual(recs, want) {
 		t.Errorf("saved records %q, want %q", recs, want)
 	}
 	if s := st.statusText(); s != "Wrote "+path {
 		t.Errorf("status %q after saving", s)
 	}
-
 	// A new name is written without a question.
 	st.exportCSVDialog()
 	sf = shownSave(t, st)

@@ -20,10 +20,20 @@ import (
 	"telltale/internal/glossary"
 )
 
+// session is the window of TestWholeSession and what it has shown so far.
+type session struct {
+	t  *testing.T
+	w  fyne.Window
+	st *State
+	q  *queue
+	cs *corpusState
+	ms *modelState
+}
+
 // TestWholeSession walks the main job through the window: open the demo
-// corpus, train a tiny model, select a filter, explain a sentence and mask
-// a filter, checking widget state and what is painted against the numbers
-// of the packages underneath.
+// corpus, train a tiny model, select a filter, explain a sentence, run the
+// audit and mask filters, checking widget state and what is painted against
+// the numbers of the packages underneath.
 func TestWholeSession(t *testing.T) {
 	a := test.NewTempApp(t)
 	tr, te := demoBytes(t)
@@ -31,9 +41,22 @@ func TestWholeSession(t *testing.T) {
 	w, st := newWindow(a, Options{DemoTrain: tr, DemoTest: te}, q.post)
 	w.Resize(fyne.NewSize(1180, 760))
 	t.Cleanup(st.cancelAll)
+	s := &session{t: t, w: w, st: st, q: q}
+	s.corpus()
+	s.training()
+	s.filter()
+	s.explanation()
+	top := s.audit()
+	s.filterList(top)
+	s.masking(top)
+}
 
+// corpus: the demo corpus opens with its test file as the test split.
+func (s *session) corpus() {
+	t, w, st, q := s.t, s.w, s.st, s.q
 	q.waitFor(t, "the demo corpus", func() bool { return itemGet(st.data) != nil })
 	cs := itemGet(st.data)
+	s.cs = cs
 	if got := len(cs.Train.Labels); got != 5 {
 		t.Fatalf("demo corpus has %d labels, want the five teams", got)
 	}
@@ -43,7 +66,12 @@ func TestWholeSession(t *testing.T) {
 	if cs.TestFile == nil || len(cs.Test.Examples) != len(cs.TestFile.Examples) || len(cs.Dev.Examples) == 0 {
 		t.Errorf("the demo's test file is not the test split, or there is no dev split")
 	}
+}
 
+// training: a small recipe trains with the buttons following the run, and
+// the reliability bins drawn reproduce cnn's calibration error.
+func (s *session) training() {
+	t, st, q, cs := s.t, s.st, s.q, s.cs
 	// A small recipe; three epochs.
 	smallRecipe(st)
 	tv := st.trainingView
@@ -53,6 +81,7 @@ func TestWholeSession(t *testing.T) {
 	}
 	q.waitFor(t, "the trained model and its profiles", func() bool { return itemGet(st.profiles) != nil })
 	ms := itemGet(st.model)
+	s.ms = ms
 	if ms.Model.Config.NumFilters() != 3*10 || ms.Eval == nil {
 		t.Fatalf("model has %d filters (want 3 widths × 10) or no evaluation", ms.Model.Config.NumFilters())
 	}
@@ -74,7 +103,11 @@ func TestWholeSession(t *testing.T) {
 	if math.Abs(ece-ms.Eval.Metrics.ECE) > 1e-9 {
 		t.Errorf("reliability bins give ECE %.12f, cnn says %.12f", ece, ms.Eval.Metrics.ECE)
 	}
+}
 
+// filter: the painted n-gram tokens of a filter carry its slot scores.
+func (s *session) filter() {
+	t, st, q := s.t, s.st, s.q
 	// Select a filter: the painted n-gram tokens carry the profile's slot
 	// scores.
 	st.showFilter(3, nil)
@@ -96,7 +129,11 @@ func TestWholeSession(t *testing.T) {
 			t.Errorf("n-gram token %d painted %v, slot score %v", i, c.value, want[i])
 		}
 	}
+}
 
+// explanation: a typed text is painted with the explanation's numbers.
+func (s *session) explanation() {
+	t, w, st, q := s.t, s.w, s.st, s.q
 	// Explain a sentence typed into the box.
 	st.show(titleWhy)
 	q.drain()
@@ -108,7 +145,7 @@ func TestWholeSession(t *testing.T) {
 		return e != nil && e.Text == "the staff were not friendly at all" && e.E != nil
 	})
 	e := wv.shown.E
-	chips = wv.chips()
+	chips := wv.chips()
 	if len(chips) != len(e.Tokens) || len(chips) != 7 {
 		t.Fatalf("%d tokens painted, explanation has %d (want 7)", len(chips), len(e.Tokens))
 	}
@@ -132,7 +169,12 @@ func TestWholeSession(t *testing.T) {
 			t.Errorf("occlusion: token %d painted %v, explanation %v", i, c.value, e.Attributions.Occlusion[i])
 		}
 	}
+}
 
+// audit runs the audit and checks what it flags and lists; it returns the
+// top suspect.
+func (s *session) audit() explain.Suspect {
+	t, w, st, q := s.t, s.w, s.st, s.q
 	// Run the audit (Run › Run the audit). The token test runs on the
 	// training split, so whatever the model learned, the two cues planted
 	// there (testdata/demo/README.md: "kioskmail" in 80% of lost-property
@@ -195,7 +237,13 @@ func TestWholeSession(t *testing.T) {
 		t.Errorf("the audit view's Suspects tab does not show the score formula %q", term.Formula)
 	}
 	av.showTab("Cues")
+	return top
+}
 
+// filterList: the Filters view ranks by the audit's scores and searches
+// cue words.
+func (s *session) filterList(top explain.Suspect) {
+	t, st := s.t, s.st
 	// The Filters view: sorting by suspicion (descending) puts the top
 	// suspect first, and searching for a cue word finds its filters.
 	fl := st.filtersView.list
@@ -214,7 +262,13 @@ func TestWholeSession(t *testing.T) {
 		}
 	}
 	fl.setQuery("")
+}
 
+// masking: masked metrics are those of cnn.Evaluate on explain.MaskFilters'
+// copy, and the masked model saves and loads.
+func (s *session) masking(top explain.Suspect) {
+	t, st, q, cs, ms := s.t, s.st, s.q, s.cs, s.ms
+	av := st.auditView
 	// Clicking the mask cell of the top suspect masks it at once.
 	av.showTab("Suspects")
 	av.suspects.table.Select(widget.TableCellID{Row: 0, Col: colMask})

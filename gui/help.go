@@ -23,18 +23,25 @@ const cautionShort = "These numbers describe the model, not the world: validate 
 var dialogSize = fyne.NewSize(720, 520)
 
 // glossaryContent lists the glossary's terms by topic: the name in bold,
-// then what it tells and how it is computed.
+// what it tells, and how it is computed in the monospace font.
 func glossaryContent() fyne.CanvasObject {
 	box := container.NewVBox()
 	for _, topic := range glossary.Topics {
-		box.Add(widget.NewLabelWithStyle(capitalize(topic), fyne.TextAlignLeading, fyne.TextStyle{Bold: true}))
+		box.Add(widget.NewLabelWithStyle(capitalize(topic), fyne.TextAlignLeading, fyne.TextStyle{Bold: true, Italic: true}))
 		for _, t := range glossary.Terms {
 			if t.Topic != topic {
 				continue
 			}
-			l := widget.NewLabel(t.Line())
-			l.Wrapping = fyne.TextWrapWord
-			box.Add(l)
+			segs := []widget.RichTextSegment{
+				&widget.TextSegment{Text: t.Name + ": ", Style: widget.RichTextStyleStrong},
+				&widget.TextSegment{Text: t.Meaning + " ", Style: widget.RichTextStyleInline},
+			}
+			if t.Formula != "" {
+				segs = append(segs, &widget.TextSegment{Text: t.Formula, Style: widget.RichTextStyleCodeInline})
+			}
+			r := widget.NewRichText(segs...)
+			r.Wrapping = fyne.TextWrapWord
+			box.Add(r)
 		}
 	}
 	return container.NewVScroll(box)

@@ -89,8 +89,9 @@ func newTaskRunner(ui func(func())) *taskRunner {
 }
 
 // minProgressGap is the least time between two progress updates of a task
-// that reach the window (its last update always does).
-const minProgressGap = 50 * time.Millisecond
+// that reach the window (its last update always does): each update redraws
+// the window, which a software renderer does slowly.
+const minProgressGap = 200 * time.Millisecond
 
 // start runs w in the background as the newest task of kind, cancelling the
 // task of that kind that runs now. Tasks with inBar show in the status bar.

@@ -31,7 +31,7 @@ type runData struct {
 
 // minRedrawGap is the least time between two redraws of the curves while a
 // run goes on (each redraw renders two plots on the UI goroutine).
-const minRedrawGap = 250 * time.Millisecond
+const minRedrawGap = 500 * time.Millisecond
 
 // add records pr and reports whether a redraw should be posted: none is
 // waiting and the last one is old enough (the end of an epoch always is).
