@@ -91,6 +91,16 @@ func inWindowWords(s string) string {
 	return strings.ReplaceAll(s, "held-out", "test")
 }
 
+// windowStory is the audit's story for the window: in the window's words,
+// with its closing command line (for the terminal) replaced by what to do
+// here.
+func windowStory(story string) string {
+	if i := strings.Index(story, "To try it:"); i >= 0 {
+		story = strings.TrimSpace(story[:i]) + "\n\nTo try it here: Tick the suggested mask, or a group's strongest filters, and read the test figures on the right."
+	}
+	return inWindowWords(reflow(story))
+}
+
 // categoryNames are the audit's artifact categories in words.
 var categoryNames = map[string]string{
 	"number-date":        "number or date",
@@ -145,8 +155,8 @@ func (st *State) runAudit(then func()) {
 		return func() {
 			if itemGet(st.model) == ms {
 				st.audit.Set(as)
-				st.setStatus(fmt.Sprintf("Cue audit done: %s flagged, %d filters scored, %d suspects listed.",
-					plural(len(a.Tokens), "word", "words"), a.Candidates, len(a.Filters)))
+				st.setStatus(fmt.Sprintf("Cue audit done: %s flagged, %s scored, %s listed.",
+					plural(len(a.Tokens), "word", "words"), plural(a.Candidates, "filter", "filters"), plural(len(a.Filters), "suspect", "suspects")))
 			}
 			if then != nil {
 				then()

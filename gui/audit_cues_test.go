@@ -64,3 +64,18 @@ func TestReflow(t *testing.T) {
 		}
 	}
 }
+
+// The audit's story reads in the window's words: the test split, and no
+// command line to type.
+func TestWindowStory(t *testing.T) {
+	story := "Masking all 17: held-out accuracy 0.834 → 0.849.\nTo try it:\n  telltale mask --model MODEL --filters 1,2 --out MODEL-masked.tt --data HELDOUT"
+	got := windowStory(story)
+	for _, bad := range []string{"held-out", "telltale mask", "MODEL", "HELDOUT"} {
+		if strings.Contains(got, bad) {
+			t.Errorf("the story shows %q: %q", bad, got)
+		}
+	}
+	if !strings.Contains(got, "test accuracy 0.834 → 0.849") || !strings.Contains(got, "Tick the suggested mask") {
+		t.Errorf("the story lost its figures or its advice: %q", got)
+	}
+}

@@ -153,8 +153,12 @@ func suspectEffects(s *explain.Suspect) [][]string {
 		rows = append(rows, []string{"top n-grams", "looks like " + categoryName(c.Category), fmt.Sprintf("%.4f  %s", c.Share, strings.Join(c.Ngrams, " | "))})
 	}
 	for _, n := range s.TopNgrams {
-		rows = append(rows, []string{"top n-grams", strings.Join(n.Tokens, " "), fmt.Sprintf("activation %.4f, wins in %s %s",
-			n.Activation, texts(n.Count), strings.Join(n.Categories, " "))})
+		looks := ""
+		for _, c := range n.Categories {
+			looks += "; looks like " + categoryName(c)
+		}
+		rows = append(rows, []string{"top n-grams", strings.Join(n.Tokens, " "), fmt.Sprintf("activation %.4f, wins in %s%s",
+			n.Activation, texts(n.Count), looks)})
 	}
 	return rows
 }

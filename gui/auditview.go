@@ -168,10 +168,10 @@ func auditSummary(au *explain.Audit) string {
 		prior = "one over the number of labels"
 	}
 	return fmt.Sprintf("%d of %d words flagged in %s of the training split (one-sided z above %.2f against %s; "+
-		"family-wise level %g, Bonferroni over the %d words). %d filters scored; the top %d listed. "+
+		"family-wise level %g, Bonferroni over the %d words). %s scored; the top %d listed. "+
 		"Test split (%s) with the model as trained: accuracy %.4f, macro-F1 %.4f.",
 		len(au.Tokens), au.Tested, texts(au.TrainTexts), au.Threshold, prior, au.Alpha, au.Tested,
-		au.Candidates, len(au.Filters), texts(au.HeldoutTexts), au.Baseline.Accuracy, au.Baseline.MacroF1)
+		plural(au.Candidates, "filter", "filters"), len(au.Filters), texts(au.HeldoutTexts), au.Baseline.Accuracy, au.Baseline.MacroF1)
 }
 
 // refreshSuspects writes the suspect table, keeping the selection.
@@ -269,7 +269,7 @@ func (p *cuesPane) auditChanged(a *auditState) {
 		p.tickPlan.Disable()
 		return
 	}
-	p.story.SetText(inWindowWords(reflow(a.A.Story())))
+	p.story.SetText(windowStory(a.A.Story()))
 	if a.A.Plan != nil {
 		p.tickPlan.Enable()
 	} else {
