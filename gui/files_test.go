@@ -325,3 +325,36 @@ func TestSaveRefusesTheWindowsInputs(t *testing.T) {
 		t.Errorf("a new file beside the inputs was not written: %v", err)
 	}
 }
+
+// A model trained in the window and saved may be saved again to the same
+// file (it is no input); the file a model was opened from may not.
+func TestSaveModelAgain(t *testing.T) {
+	dir := t.TempDir()
+	st, _ := saveState(t, dir)
+	vocab := []string{corpus.PADWord, corpus.UNKWord, "ferry", "ticket", "refund", "late"}
+	m, err := cnn.New(cnn.Config{VocabSize: len(vocab), Dim: 4, Widths: []int{2}, Filters: 2, Classes: 2}, vocab, []string{"a", "b"}, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ms := &modelState{Model: m}
+	st.model.Set(ms)
+	save := func() *saveForm {
+		st.saveModelDialog()
+		sf := shownSave(t, st)
+		sf.choose()
+		sf.form.Submit()
+		return sf
+	}
+	save()
+	path := filepath.Join(dir, "telltale-model.tt")
+	if ms.Path != path {
+		t.Fatalf("the model was not saved to %s", path)
+	}
+	if sf := save(); sf.confirm == nil {
+		t.Fatalf("saving the trained model again did not offer to replace its file (status %q)", st.statusText())
+	}
+	ms.Source = path // as if opened from that file
+	if sf := save(); sf.confirm != nil || !strings.Contains(st.statusText(), "the open model's file") {
+		t.Errorf("saving onto the file the model was opened from was not refused (status %q)", st.statusText())
+	}
+}

@@ -16,7 +16,7 @@ func (st *State) inputs() []string {
 	}
 	ps = append(ps, st.opts.DataPath, st.opts.TestPath, st.opts.ModelPath)
 	if ms := itemGet(st.model); ms != nil {
-		ps = append(ps, ms.Path)
+		ps = append(ps, ms.Source)
 	}
 	return ps
 }
@@ -71,7 +71,7 @@ func describeInput(st *State, in string) string {
 			return "the open test file (" + in + ")"
 		}
 	}
-	if ms := itemGet(st.model); ms != nil && in == ms.Path {
+	if ms := itemGet(st.model); ms != nil && in == ms.Source {
 		return "the open model's file (" + in + ")"
 	}
 	return "an input of this window (" + in + ")"

@@ -20,6 +20,9 @@ type modelState struct {
 	Enc   *corpus.Encoder
 	Table *explain.SlotTable // word-slot table of the model (read-only)
 	Path  string             // file it was opened from or saved to; "" if unsaved
+	// Source is the file it was opened from, an input of the window that
+	// no save may write onto; "" for a model trained in the window.
+	Source string
 	// Run is the training record when the model was trained in this
 	// window; nil for an opened model.
 	Run *cnn.TrainResult
@@ -158,6 +161,7 @@ func (st *State) openModel(path string, then func()) {
 		if err != nil {
 			return then, fmt.Errorf("%s: %w", path, err)
 		}
+		ms.Source = path
 		if p, ok := planOf(m); ok && cs != nil && p != cs.Plan && p.check(cs.TestFile != nil) == nil {
 			if cs, err = cs.resplit(ctx, p); err != nil {
 				return then, err
