@@ -126,7 +126,9 @@ const auditTop = 20
 // auditNow shows the audit view and runs the cue audit.
 func (st *State) auditNow() {
 	st.show(titleAudit)
-	st.runAudit(nil)
+	if !st.isRunning(taskAudit) {
+		st.runAudit(nil)
+	}
 }
 
 // runAudit runs the cue audit of the open model in the background: word

@@ -81,6 +81,9 @@ func TestEmptyStates(t *testing.T) {
 		{"Why this label says how to get a model", strings.Contains(st.whyView.verdict.Text, "No model yet")},
 		{"Cue audit says how to get a model", strings.Contains(st.auditView.empty.Text, "No model yet")},
 		{"Corpus says how to open data", strings.Contains(st.corpusView.source.Text, "Open data")},
+		{"Run › Train is disabled without data", menuItem(w, "Run", "Train").Disabled},
+		{"Run › Run the audit is disabled without a model", menuItem(w, "Run", "Run the audit").Disabled},
+		{"File › Save model is disabled without a model", menuItem(w, "File", "Save model…").Disabled},
 	} {
 		if !c.ok {
 			t.Error(c.what)
@@ -113,6 +116,20 @@ func TestNewRunStartsClean(t *testing.T) {
 	if bars != 0 {
 		t.Errorf("the Training view has %d progress bars of its own", bars)
 	}
+}
+
+// menuItem finds an item of the window's main menu.
+func menuItem(w fyne.Window, menu, label string) *fyne.MenuItem {
+	for _, m := range w.MainMenu().Items {
+		if m.Label == menu {
+			for _, it := range m.Items {
+				if it.Label == label {
+					return it
+				}
+			}
+		}
+	}
+	panic("no menu item " + menu + " › " + label)
 }
 
 // walkObjects calls fn on o and everything inside it.

@@ -109,19 +109,18 @@ func (st *State) installMenus() {
 		}
 		return it
 	}
+	saveModel := item("Save model…", sc(fyne.KeyS, mod), st.saveModelDialog)
+	train := item("Train", sc(fyne.KeyT, mod), st.trainNow)
+	audit := item("Run the audit", sc(fyne.KeyU, mod), st.auditNow)
 	file := fyne.NewMenu("File",
 		item("Open data…", sc(fyne.KeyO, mod), st.openDataDialog),
 		item("Open model…", sc(fyne.KeyO, mod|fyne.KeyModifierShift), st.openModelDialog),
-		item("Save model…", sc(fyne.KeyS, mod), st.saveModelDialog),
+		saveModel,
 		fyne.NewMenuItemSeparator(),
 		item("Export table as CSV…", sc(fyne.KeyE, mod), st.exportCSVDialog),
 		item("Export view data as JSON…", sc(fyne.KeyE, mod|fyne.KeyModifierShift), st.exportJSONDialog),
 	)
-	run := fyne.NewMenu("Run",
-		item("Train", sc(fyne.KeyT, mod), st.trainNow),
-		item("Stop", sc(fyne.KeyPeriod, mod), st.stopAll),
-		item("Run the audit", sc(fyne.KeyU, mod), st.auditNow),
-	)
+	run := fyne.NewMenu("Run", train, item("Stop", sc(fyne.KeyPeriod, mod), st.stopAll), audit)
 	viewItems := []*fyne.MenuItem{
 		item("Go to the text box", sc(fyne.KeyF, mod), func() {
 			if v := st.shownView(); v != nil {
@@ -141,5 +140,15 @@ func (st *State) installMenus() {
 	help := fyne.NewMenu("Help",
 		fyne.NewMenuItem("Glossary", st.showGlossary),
 		fyne.NewMenuItem("About telltale", st.showAbout))
-	st.win.SetMainMenu(fyne.NewMainMenu(file, run, fyne.NewMenu("View", viewItems...), help))
+	menu := fyne.NewMainMenu(file, run, fyne.NewMenu("View", viewItems...), help)
+	st.win.SetMainMenu(menu)
+	// Menu items that cannot work now are disabled; their shortcuts then
+	// say why (each action checks for itself).
+	listen(func() {
+		noData, noModel := itemGet(st.data) == nil, itemGet(st.model) == nil
+		saveModel.Disabled = noModel
+		train.Disabled = noData || st.isRunning(taskTrain)
+		audit.Disabled = noData || noModel || st.isRunning(taskAudit)
+		menu.Refresh()
+	}, st.data, st.model, st.running)
 }
