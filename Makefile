@@ -13,10 +13,10 @@ BIN := bin/telltale
 GUI_PKGS  := gcc libc6-dev pkg-config libgl1-mesa-dev libx11-dev libxcursor-dev \
              libxrandr-dev libxinerama-dev libxi-dev libxxf86vm-dev
 TEST_PKGS := gcc libc6-dev python3 python3-torch python3-sklearn python3-scipy python3-numpy python3-pandas \
-             chromium xvfb ca-certificates
-SHOT_PKGS := $(GUI_PKGS) xvfb imagemagick fonts-dejavu-core
+             chromium xvfb xdotool ca-certificates
+SHOT_PKGS := $(GUI_PKGS) xvfb xdotool imagemagick fonts-dejavu-core
 
-.PHONY: all build demo test test-go test-portable test-race fuzz vet bench screenshots deps-gui deps-test corpora clean
+.PHONY: all build demo test test-go test-portable test-race fuzz soak vet bench screenshots deps-gui deps-test corpora clean
 
 all: build
 
@@ -38,7 +38,7 @@ build: deps-gui
 demo: build
 	@scripts/demo.sh $(BIN)
 
-test: corpora vet test-go test-portable test-race fuzz
+test: corpora vet test-go test-portable test-race fuzz soak
 
 vet:
 	$(GO) vet -tags ci ./...
@@ -68,6 +68,13 @@ fuzz:
 	  echo "fuzz $$pkg $$fn ($(FUZZTIME))"; \
 	  $(GO) test -tags ci -run '^$$' -fuzz "^$$fn\$$" -fuzztime $(FUZZTIME) "$$pkg" >$$log 2>&1 || { cat $$log; exit 1; }; \
 	done
+
+# The real window under Xvfb for about two and a half minutes, driven with
+# xdotool (train, retrain, search and scroll the filter list, the audit,
+# explanations, rows that open other views): it must keep answering.
+soak: build
+	@scripts/ensure-debian-packages.sh xvfb xdotool
+	@scripts/soak.sh $(BIN)
 
 bench: corpora build
 	@bench/run.sh $(BIN)

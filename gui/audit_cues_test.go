@@ -1,5 +1,3 @@
-//go:build ci
-
 package gui
 
 import (
@@ -38,8 +36,8 @@ func TestGroupRows(t *testing.T) {
 		t.Errorf("second row %v: want rank 2 and no cue-conflicting texts", rows[1])
 	}
 	s := groupStory(as, 0)
-	for _, w := range []string{"Group 1: kioskmail, sent, via", "3 filters key on it: 60, 241, 231", "0.8438 → 0.8512",
-		"0.813 → 0.903 on the 278 held-out texts", "strongest 2 (60, 241): 0.8438 → 0.8650", "nobody's cue: -"} {
+	for _, w := range []string{"Cue group 1: kioskmail, sent, via", "3 filters key on it: 60, 241, 231", "0.8438 → 0.8512",
+		"0.813 → 0.903 on the 278 texts of the test split", "strongest 2 (60, 241): 0.8438 → 0.8650", "nobody's cue: -"} {
 		if !strings.Contains(s, w) {
 			t.Errorf("story %q lacks %q", s, w)
 		}
@@ -64,5 +62,20 @@ func TestReflow(t *testing.T) {
 		if got := reflow(c.in); got != c.want {
 			t.Errorf("reflow(%q) = %q, want %q", c.in, got, c.want)
 		}
+	}
+}
+
+// The audit's story reads in the window's words: the test split, and no
+// command line to type.
+func TestWindowStory(t *testing.T) {
+	story := "Masking all 17: held-out accuracy 0.834 → 0.849.\nTo try it:\n  telltale mask --model MODEL --filters 1,2 --out MODEL-masked.tt --data HELDOUT"
+	got := windowStory(story)
+	for _, bad := range []string{"held-out", "telltale mask", "MODEL", "HELDOUT"} {
+		if strings.Contains(got, bad) {
+			t.Errorf("the story shows %q: %q", bad, got)
+		}
+	}
+	if !strings.Contains(got, "test accuracy 0.834 → 0.849") || !strings.Contains(got, "Tick the suggested mask") {
+		t.Errorf("the story lost its figures or its advice: %q", got)
 	}
 }

@@ -17,12 +17,6 @@ import (
 	"fyne.io/fyne/v2/widget"
 )
 
-// exporter gives a view's main table (for CSV) and its data (for JSON).
-type exporter struct {
-	table func() *sheet
-	data  func() any
-}
-
 // openDataDialog asks for a labeled file and opens it.
 func (st *State) openDataDialog() {
 	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
@@ -67,7 +61,7 @@ func (st *State) saveModelDialog() {
 	st.saveDialog("Save model", "telltale-model.tt", func(path string) error { return st.saveModel(ms, path) })
 }
 
-// saveForm is the save dialog on screen, kept for tests.
+// saveForm is a save dialog on screen.
 type saveForm struct {
 	form    *dialog.FormDialog
 	name    *widget.Entry
@@ -111,6 +105,10 @@ func (st *State) saveDialog(title, name string, write func(path string) error) {
 		}
 		path := filepath.Join(dir, strings.TrimSpace(entry.Text))
 		st.saveDir = dir
+		if err := st.notAnInput(path); err != nil {
+			st.showError(err)
+			return
+		}
 		info, err := os.Stat(path)
 		switch {
 		case err == nil && info.IsDir():
@@ -131,7 +129,7 @@ func (st *State) saveDialog(title, name string, write func(path string) error) {
 		}
 	}, st.win)
 	sf.form.Resize(fyne.NewSize(560, sf.form.MinSize().Height))
-	st.saveShown = sf
+	st.lastSave = sf
 	sf.form.Show()
 }
 
@@ -141,7 +139,7 @@ func (st *State) commitSave(path string, write func(path string) error) {
 		st.showErrorf(err, "could not write %s (any file that was there is unchanged)", path)
 		return
 	}
-	_ = st.status.Set("Wrote " + path)
+	st.setStatus("Wrote " + path)
 }
 
 // validFileName accepts a bare file name: not empty, no folder part.
@@ -181,24 +179,26 @@ func (st *State) pickFolderDialog(start string, done func(dir string)) {
 
 // exportCSVDialog writes the shown view's main table as CSV.
 func (st *State) exportCSVDialog() {
-	title := st.selectedView()
-	ex, ok := st.exports[title]
-	if !ok || ex.table == nil || ex.table() == nil || len(ex.table().rows) == 0 {
+	title, v := st.shownTitle(), st.shownView()
+	if v == nil {
+		return
+	}
+	tbl := v.exportTable()
+	if tbl == nil || len(tbl.rows) == 0 {
 		st.showError(fmt.Errorf("the %s view has no table to export yet", title))
 		return
 	}
 	st.saveDialog("Export table as CSV", fileStem(title)+".csv", func(path string) error {
-		return st.writeFile(path, ex.table().writeCSV)
+		return st.writeFile(path, tbl.writeCSV)
 	})
 }
 
 // exportJSONDialog writes the shown view's data as JSON.
 func (st *State) exportJSONDialog() {
-	title := st.selectedView()
-	ex, ok := st.exports[title]
+	title, view := st.shownTitle(), st.shownView()
 	var v any
-	if ok && ex.data != nil {
-		v = ex.data()
+	if view != nil {
+		v = view.exportData()
 	}
 	if v == nil {
 		st.showError(fmt.Errorf("the %s view has no data to export yet", title))

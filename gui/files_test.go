@@ -1,5 +1,3 @@
-//go:build ci
-
 package gui
 
 import (
@@ -21,18 +19,18 @@ import (
 	"telltale/internal/atomicfile"
 )
 
-// saveState is a State with a window, a Corpus view that exports a small
-// table, and a folder chooser that always answers dir.
+// saveState is a State with its views on a window (nothing opened), the
+// Corpus view on screen with a small table to export, and a folder chooser
+// that always answers dir.
 func saveState(t *testing.T, dir string) (*State, *sheet) {
 	t.Helper()
 	a := test.NewTempApp(t)
-	st := newState(a, Options{})
+	st := newState(a, Options{}, func(f func()) { f() })
 	st.win = a.NewWindow("save")
-	st.win.Resize(fyne.NewSize(900, 600))
-	st.selectedView = func() string { return "Corpus" }
-	tbl := newSheet([]string{"label", "texts"}, []float32{100, 80})
-	tbl.setRows([][]string{{"refunds", "412"}, {"lost, property", "97"}})
-	st.exports["Corpus"] = exporter{table: func() *sheet { return tbl }}
+	st.win.SetContent(st.build())
+	st.win.Resize(fyne.NewSize(1024, 700))
+	tbl := st.corpusView.dups
+	tbl.setRows([][]string{{"exact", "2", "no", "no", "refunds", "my refund"}, {"near", "2", "yes", "yes", "lost, property", "a bag"}})
 	st.pickFolder = func(start string, done func(string)) { done(dir) }
 	return st, tbl
 }
@@ -40,11 +38,11 @@ func saveState(t *testing.T, dir string) (*State, *sheet) {
 // shownSave returns the save dialog that the last call put on screen.
 func shownSave(t *testing.T, st *State) *saveForm {
 	t.Helper()
-	sf := st.saveShown
+	sf := st.lastSave
 	if sf == nil {
 		t.Fatal("no save dialog was shown")
 	}
-	st.saveShown = nil
+	st.lastSave = nil
 	return sf
 }
 
@@ -62,35 +60,42 @@ func dirNames(t *testing.T, dir string) []string {
 	return ns
 }
 
-// Saving over an existing file: the file keeps its bytes until the user
-// confirms and the new content is complete; a save whose writer fails after
-// writing part of the content leaves the old bytes as they were.
-func TestSaveOverExistingFile(t *testing.T) {
-	dir := t.TempDir()
-	st, tbl := saveState(t, dir)
-	path := filepath.Join(dir, "telltale-corpus.csv")
+// oldExport is a save state whose folder already holds telltale-corpus.csv,
+// the name the Corpus view suggests, with keepsOld checking that the file
+// still holds its old bytes, and a writer that writes the content and then
+// fails (as a full disk would), counting its calls.
+func oldExport(t *testing.T) (st *State, tbl *sheet, dir, path string, keepsOld func(when string), calls *int) {
+	t.Helper()
+	dir = t.TempDir()
+	st, tbl = saveState(t, dir)
+	path = filepath.Join(dir, "telltale-corpus.csv")
 	old := []byte("the old export\nwith two lines\n")
 	if err := os.WriteFile(path, old, 0o644); err != nil {
 		t.Fatal(err)
 	}
-	keepsOld := func(when string) {
+	keepsOld = func(when string) {
 		t.Helper()
 		if b, err := os.ReadFile(path); err != nil || !bytes.Equal(b, old) {
 			t.Fatalf("%s: the existing file holds %q (err %v), want the old %q", when, b, err, old)
 		}
 	}
-	calls := 0
-	boom := errors.New("disk full")
+	calls = new(int)
 	st.writeFile = func(p string, write func(io.Writer) error) error {
-		calls++
+		*calls++
 		return atomicfile.Write(p, func(w io.Writer) error {
 			if err := write(w); err != nil {
 				return err
 			}
-			return boom // the content went out, then the device failed
+			return errors.New("disk full") // the content went out, then the device failed
 		})
 	}
+	return st, tbl, dir, path, keepsOld, calls
+}
 
+// Saving over an existing file asks first; the file keeps its bytes while
+// the dialog is open, while asking, and when the user declines.
+func TestSaveAsksBeforeReplacing(t *testing.T) {
+	st, _, dir, _, keepsOld, calls := oldExport(t)
 	// The dialog suggests the view's name and the chosen folder.
 	st.exportCSVDialog()
 	sf := shownSave(t, st)
@@ -108,36 +113,46 @@ func TestSaveOverExistingFile(t *testing.T) {
 	}
 	keepsOld("while asking to replace")
 	sf.confirm.Hide() // "No"
-	if calls != 0 {
-		t.Errorf("declining the replacement still wrote the file (%d writes)", calls)
+	if *calls != 0 {
+		t.Errorf("declining the replacement still wrote the file (%d writes)", *calls)
 	}
 	keepsOld("after declining")
+}
 
-	// Confirmed, but the write fails: the old bytes stay, no temporary
-	// file is left, and the error is shown.
+// A confirmed save whose writer fails after writing the content leaves the
+// old bytes as they were, no temporary file, and says so.
+func TestSaveFailedWriteKeepsTheOldFile(t *testing.T) {
+	st, _, dir, path, keepsOld, calls := oldExport(t)
 	st.exportCSVDialog()
-	sf = shownSave(t, st)
+	sf := shownSave(t, st)
+	sf.choose()
 	sf.form.Submit()
 	if sf.confirm == nil {
-		t.Fatal("second save did not ask before replacing")
+		t.Fatal("the save did not ask before replacing")
 	}
 	sf.confirm.Confirm()
-	if calls != 1 {
-		t.Fatalf("confirmed save wrote %d times, want once", calls)
+	if *calls != 1 {
+		t.Fatalf("confirmed save wrote %d times, want once", *calls)
 	}
 	keepsOld("after a failed write")
 	if ns := dirNames(t, dir); !reflect.DeepEqual(ns, []string{"telltale-corpus.csv"}) {
 		t.Errorf("folder holds %v after a failed write, want only the old file", ns)
 	}
-	if s := stringGet(st.status); !strings.Contains(s, "disk full") || !strings.Contains(s, path) {
+	if s := st.statusText(); !strings.Contains(s, "disk full") || !strings.Contains(s, path) {
 		t.Errorf("status %q does not report the failed write of %s", s, path)
 	}
+}
 
-	// A working writer replaces the file with the table; encoding/csv (Go's
-	// standard library, RFC 4180) reads back the header and rows.
+// A working writer replaces the file with the table, a new name is written
+// without a question, and a name with a folder part is refused.
+func TestSaveWritesTheTable(t *testing.T) {
+	st, tbl, dir, path, _, _ := oldExport(t)
+	// encoding/csv (Go's standard library, RFC 4180) reads back the
+	// header and rows.
 	st.writeFile = atomicfile.Write
 	st.exportCSVDialog()
-	sf = shownSave(t, st)
+	sf := shownSave(t, st)
+	sf.choose()
 	sf.form.Submit()
 	sf.confirm.Confirm()
 	b, err := os.ReadFile(path)
@@ -148,14 +163,12 @@ func TestSaveOverExistingFile(t *testing.T) {
 	if err != nil {
 		t.Fatalf("the saved file is not CSV: %v\n%s", err, b)
 	}
-	want := append([][]string{tbl.cols}, tbl.rows...)
-	if !reflect.DeepEqual(recs, want) {
+	if want := append([][]string{tbl.cols}, tbl.rows...); !reflect.DeepEqual(recs, want) {
 		t.Errorf("saved records %q, want %q", recs, want)
 	}
-	if s := stringGet(st.status); s != "Wrote "+path {
+	if s := st.statusText(); s != "Wrote "+path {
 		t.Errorf("status %q after saving", s)
 	}
-
 	// A new name is written without a question.
 	st.exportCSVDialog()
 	sf = shownSave(t, st)
@@ -238,5 +251,110 @@ func TestValidFileName(t *testing.T) {
 		if err := validFileName(c.name); (err == nil) != c.ok {
 			t.Errorf("validFileName(%q) = %v, want ok %v", c.name, err, c.ok)
 		}
+	}
+}
+
+// No save dialog writes onto a file the window reads from (the data, the
+// test file, the model): the same file is refused under any of its names —
+// the path itself, one through "..", a symbolic link, a hard link — and
+// keeps its bytes.
+func TestSaveRefusesTheWindowsInputs(t *testing.T) {
+	dir := t.TempDir()
+	inputs := map[string]string{"data": "data.csv", "test": "test.csv", "model": "model.tt"}
+	for _, name := range inputs {
+		if err := os.WriteFile(filepath.Join(dir, name), []byte("input "+name), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	other := t.TempDir()
+	sub := filepath.Join(dir, "sub")
+	if err := os.Mkdir(sub, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	for _, input := range []string{"data.csv", "test.csv", "model.tt"} {
+		src := filepath.Join(dir, input)
+		if err := os.Symlink(src, filepath.Join(other, "link-"+input)); err != nil {
+			t.Fatal(err)
+		}
+		if err := os.Link(src, filepath.Join(other, "hard-"+input)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for _, c := range []struct{ folder, name, input string }{
+		{dir, "data.csv", "data.csv"},
+		{dir, "test.csv", "test.csv"},
+		{dir, "model.tt", "model.tt"},
+		{sub + "/..", "data.csv", "data.csv"},
+		{other, "link-data.csv", "data.csv"},
+		{other, "link-model.tt", "model.tt"},
+		{other, "hard-test.csv", "test.csv"},
+		{other, "hard-model.tt", "model.tt"},
+	} {
+		t.Run(c.name+" in "+filepath.Base(c.folder), func(t *testing.T) {
+			st, _ := saveState(t, c.folder)
+			st.opts.DataPath = filepath.Join(dir, inputs["data"])
+			st.opts.TestPath = filepath.Join(dir, inputs["test"])
+			st.opts.ModelPath = filepath.Join(dir, inputs["model"])
+			written := 0
+			st.writeFile = func(string, func(io.Writer) error) error { written++; return nil }
+			st.exportCSVDialog()
+			sf := shownSave(t, st)
+			sf.choose()
+			sf.name.SetText(c.name)
+			sf.form.Submit()
+			if sf.confirm != nil || written != 0 {
+				t.Errorf("saving as %s offered to replace it or wrote it (%d writes)", filepath.Join(c.folder, c.name), written)
+			}
+			if s := st.statusText(); !strings.Contains(s, "which this window reads from") {
+				t.Errorf("status %q does not say the file is an input", s)
+			}
+			if b, _ := os.ReadFile(filepath.Join(dir, c.input)); string(b) != "input "+c.input {
+				t.Errorf("the input %s now holds %q", c.input, b)
+			}
+		})
+	}
+	// A new file beside the inputs is written.
+	st, _ := saveState(t, dir)
+	st.opts.DataPath = filepath.Join(dir, inputs["data"])
+	st.exportCSVDialog()
+	sf := shownSave(t, st)
+	sf.choose()
+	sf.name.SetText("export.csv")
+	sf.form.Submit()
+	if _, err := os.Stat(filepath.Join(dir, "export.csv")); err != nil {
+		t.Errorf("a new file beside the inputs was not written: %v", err)
+	}
+}
+
+// A model trained in the window and saved may be saved again to the same
+// file (it is no input); the file a model was opened from may not.
+func TestSaveModelAgain(t *testing.T) {
+	dir := t.TempDir()
+	st, _ := saveState(t, dir)
+	vocab := []string{corpus.PADWord, corpus.UNKWord, "ferry", "ticket", "refund", "late"}
+	m, err := cnn.New(cnn.Config{VocabSize: len(vocab), Dim: 4, Widths: []int{2}, Filters: 2, Classes: 2}, vocab, []string{"a", "b"}, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ms := &modelState{Model: m}
+	st.model.Set(ms)
+	save := func() *saveForm {
+		st.saveModelDialog()
+		sf := shownSave(t, st)
+		sf.choose()
+		sf.form.Submit()
+		return sf
+	}
+	save()
+	path := filepath.Join(dir, "telltale-model.tt")
+	if ms.Path != path {
+		t.Fatalf("the model was not saved to %s", path)
+	}
+	if sf := save(); sf.confirm == nil {
+		t.Fatalf("saving the trained model again did not offer to replace its file (status %q)", st.statusText())
+	}
+	ms.Source = path // as if opened from that file
+	if sf := save(); sf.confirm != nil || !strings.Contains(st.statusText(), "the open model's file") {
+		t.Errorf("saving onto the file the model was opened from was not refused (status %q)", st.statusText())
 	}
 }

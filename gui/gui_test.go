@@ -1,5 +1,3 @@
-//go:build ci
-
 package gui
 
 import (
@@ -11,9 +9,7 @@ import (
 	"slices"
 	"sort"
 	"strings"
-	"sync"
 	"testing"
-	"time"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
@@ -21,69 +17,23 @@ import (
 
 	"telltale/cnn"
 	"telltale/explain"
+	"telltale/internal/glossary"
 )
 
-// queue stands in for the UI goroutine: background work posts functions
-// to it and the test goroutine runs them while it waits.
-type queue struct {
-	mu  sync.Mutex
-	fns []func()
-}
-
-func (q *queue) post(fn func()) {
-	q.mu.Lock()
-	q.fns = append(q.fns, fn)
-	q.mu.Unlock()
-}
-
-func (q *queue) drain() {
-	for {
-		q.mu.Lock()
-		fns := q.fns
-		q.fns = nil
-		q.mu.Unlock()
-		if len(fns) == 0 {
-			return
-		}
-		for _, f := range fns {
-			f()
-		}
-	}
-}
-
-// waitFor runs posted UI work until cond holds, failing after a deadline.
-func (q *queue) waitFor(t *testing.T, what string, cond func() bool) {
-	t.Helper()
-	deadline := time.Now().Add(3 * time.Minute)
-	for {
-		q.drain()
-		if cond() {
-			return
-		}
-		if time.Now().After(deadline) {
-			t.Fatalf("gave up waiting for %s", what)
-		}
-		time.Sleep(5 * time.Millisecond)
-	}
-}
-
-func demoBytes(t *testing.T) (train, testSplit []byte) {
-	t.Helper()
-	train, err := os.ReadFile(filepath.Join("..", "testdata", "demo", "train.csv"))
-	if err != nil {
-		t.Fatalf("demo corpus missing (run go generate at the repository root): %v", err)
-	}
-	testSplit, err = os.ReadFile(filepath.Join("..", "testdata", "demo", "test.csv"))
-	if err != nil {
-		t.Fatalf("demo corpus missing: %v", err)
-	}
-	return train, testSplit
+// session is the window of TestWholeSession and what it has shown so far.
+type session struct {
+	t  *testing.T
+	w  fyne.Window
+	st *State
+	q  *queue
+	cs *corpusState
+	ms *modelState
 }
 
 // TestWholeSession walks the main job through the window: open the demo
-// corpus, train a tiny model, select a filter, explain a sentence and mask
-// a filter, checking widget state and what is painted against the numbers
-// of the packages underneath.
+// corpus, train a tiny model, select a filter, explain a sentence, run the
+// audit and mask filters, checking widget state and what is painted against
+// the numbers of the packages underneath.
 func TestWholeSession(t *testing.T) {
 	a := test.NewTempApp(t)
 	tr, te := demoBytes(t)
@@ -91,38 +41,58 @@ func TestWholeSession(t *testing.T) {
 	w, st := newWindow(a, Options{DemoTrain: tr, DemoTest: te}, q.post)
 	w.Resize(fyne.NewSize(1180, 760))
 	t.Cleanup(st.cancelAll)
+	s := &session{t: t, w: w, st: st, q: q}
+	s.corpus()
+	s.training()
+	s.filter()
+	s.explanation()
+	top := s.audit()
+	s.filterList(top)
+	s.masking(top)
+}
 
+// corpus: the demo corpus opens with its test file as the test split.
+func (s *session) corpus() {
+	t, w, st, q := s.t, s.w, s.st, s.q
 	q.waitFor(t, "the demo corpus", func() bool { return itemGet(st.data) != nil })
 	cs := itemGet(st.data)
+	s.cs = cs
 	if got := len(cs.Train.Labels); got != 5 {
 		t.Fatalf("demo corpus has %d labels, want the five teams", got)
 	}
 	if !strings.Contains(test.RenderToMarkup(w.Canvas()), "Open: the built-in demo corpus") {
 		t.Errorf("corpus view does not name the opened corpus")
 	}
+	if cs.TestFile == nil || len(cs.Test.Examples) != len(cs.TestFile.Examples) || len(cs.Dev.Examples) == 0 {
+		t.Errorf("the demo's test file is not the test split, or there is no dev split")
+	}
+}
 
+// training: a small recipe trains with the buttons following the run, and
+// the reliability bins drawn reproduce cnn's calibration error.
+func (s *session) training() {
+	t, st, q, cs := s.t, s.st, s.q, s.cs
 	// A small recipe; three epochs.
-	_ = st.recipe.widths.Set("3,4,5")
-	_ = st.recipe.filters.Set("10")
-	_ = st.recipe.dim.Set("16")
-	_ = st.recipe.epochs.Set("3")
-	test.Tap(st.trainButtons[0])
-	if !st.trainButtons[0].Disabled() || st.trainButtons[1].Disabled() {
+	smallRecipe(st)
+	tv := st.trainingView
+	test.Tap(tv.trainBtn)
+	if !tv.trainBtn.Disabled() || tv.stopBtn.Disabled() {
 		t.Errorf("while training, Train should be disabled and Stop enabled")
 	}
 	q.waitFor(t, "the trained model and its profiles", func() bool { return itemGet(st.profiles) != nil })
 	ms := itemGet(st.model)
+	s.ms = ms
 	if ms.Model.Config.NumFilters() != 3*10 || ms.Eval == nil {
 		t.Fatalf("model has %d filters (want 3 widths × 10) or no evaluation", ms.Model.Config.NumFilters())
 	}
 	if ms.Eval.Metrics.N != len(cs.Test.Examples) {
-		t.Errorf("scorecard covers %d texts, held-out split has %d", ms.Eval.Metrics.N, len(cs.Test.Examples))
+		t.Errorf("Results cover %d texts, the test split has %d", ms.Eval.Metrics.N, len(cs.Test.Examples))
 	}
-	if st.trainButtons[0].Disabled() {
+	if tv.trainBtn.Disabled() {
 		t.Errorf("Train button still disabled after training")
 	}
-	if len(st.trainRun.lossY) == 0 || len(st.trainRun.devF1) != len(ms.Run.Epochs) {
-		t.Errorf("curves: %d loss points, %d dev points for %d epochs", len(st.trainRun.lossY), len(st.trainRun.devF1), len(ms.Run.Epochs))
+	if d := tv.run.snapshot(); len(d.LossY) == 0 || len(d.DevF1) != len(ms.Run.Epochs) || len(d.Epochs) != len(ms.Run.Epochs) {
+		t.Errorf("curves: %d loss points, %d dev points, %d epoch rows for %d epochs", len(d.LossY), len(d.DevF1), len(d.Epochs), len(ms.Run.Epochs))
 	}
 	// The reliability bins drawn must reproduce cnn's expected calibration
 	// error (Guo et al. 2017: ECE = Σ |B|/n · |acc − conf|).
@@ -133,11 +103,16 @@ func TestWholeSession(t *testing.T) {
 	if math.Abs(ece-ms.Eval.Metrics.ECE) > 1e-9 {
 		t.Errorf("reliability bins give ECE %.12f, cnn says %.12f", ece, ms.Eval.Metrics.ECE)
 	}
+}
 
+// filter: the painted n-gram tokens of a filter carry its slot scores.
+func (s *session) filter() {
+	t, st, q := s.t, s.st, s.q
 	// Select a filter: the painted n-gram tokens carry the profile's slot
 	// scores.
-	st.showFilter(3)
-	fp := st.filterShown()
+	st.showFilter(3, nil)
+	q.drain()
+	fp := st.filtersView.shown
 	if fp == nil || fp.Filter != 3 {
 		t.Fatalf("filter 3 not shown: %+v", fp)
 	}
@@ -145,7 +120,7 @@ func TestWholeSession(t *testing.T) {
 	for _, n := range fp.TopNgrams {
 		want = append(want, n.Slots...)
 	}
-	chips := st.filterNgramChips()
+	chips := st.filtersView.ngramChips()
 	if len(chips) != len(want) {
 		t.Fatalf("%d n-gram tokens painted, profile has %d", len(chips), len(want))
 	}
@@ -154,17 +129,23 @@ func TestWholeSession(t *testing.T) {
 			t.Errorf("n-gram token %d painted %v, slot score %v", i, c.value, want[i])
 		}
 	}
+}
 
+// explanation: a typed text is painted with the explanation's numbers.
+func (s *session) explanation() {
+	t, w, st, q := s.t, s.w, s.st, s.q
 	// Explain a sentence typed into the box.
-	st.tabs("Why this label")
-	st.explainEntry.SetText("")
-	test.Type(st.explainEntry, "the staff were not friendly at all")
+	st.show(titleWhy)
+	q.drain()
+	wv := st.whyView
+	wv.entry.SetText("")
+	test.Type(wv.entry, "the staff were not friendly at all")
 	q.waitFor(t, "the explanation", func() bool {
-		e := st.explainShown()
+		e := wv.shown
 		return e != nil && e.Text == "the staff were not friendly at all" && e.E != nil
 	})
-	e := st.explainShown().E
-	chips = st.explainChips()
+	e := wv.shown.E
+	chips := wv.chips()
 	if len(chips) != len(e.Tokens) || len(chips) != 7 {
 		t.Fatalf("%d tokens painted, explanation has %d (want 7)", len(chips), len(e.Tokens))
 	}
@@ -177,14 +158,23 @@ func TestWholeSession(t *testing.T) {
 	if !strings.Contains(markup, "Predicted: "+e.Label) {
 		t.Errorf("explain view does not show the predicted label %q", e.Label)
 	}
-	_ = st.explainMethod.Set(methodOcclusion)
+	// The probabilities under the verdict, ranked.
+	if want := rankedWords(e); wv.strip.words() != want {
+		t.Errorf("ranked strip says %q, want %q", wv.strip.words(), want)
+	}
+	wv.method.SetSelected(methodOcclusion)
 	q.drain()
-	for i, c := range st.explainChips() {
+	for i, c := range wv.chips() {
 		if c.value != e.Attributions.Occlusion[i] {
 			t.Errorf("occlusion: token %d painted %v, explanation %v", i, c.value, e.Attributions.Occlusion[i])
 		}
 	}
+}
 
+// audit runs the audit and checks what it flags and lists; it returns the
+// top suspect.
+func (s *session) audit() explain.Suspect {
+	t, w, st, q := s.t, s.w, s.st, s.q
 	// Run the audit (Run › Run the audit). The token test runs on the
 	// training split, so whatever the model learned, the two cues planted
 	// there (testdata/demo/README.md: "kioskmail" in 80% of lost-property
@@ -192,7 +182,7 @@ func TestWholeSession(t *testing.T) {
 	// labels.
 	st.auditNow()
 	q.waitFor(t, "the audit", func() bool { return itemGet(st.audit) != nil })
-	au := st.auditShown()
+	au := itemGet(st.audit)
 	planted := map[string]string{"kioskmail": "lost-property", "tkref": "complaints"}
 	for tok, label := range planted {
 		found := false
@@ -228,29 +218,37 @@ func TestWholeSession(t *testing.T) {
 	}
 	// The suspect table shows every suspect with the parts of its score;
 	// the Filters view shows the same score in its suspicion column.
-	if got := len(st.auditSuspects.rows); got != len(au.A.Filters) {
+	av := st.auditView
+	if got := len(av.suspects.rows); got != len(au.A.Filters) {
 		t.Errorf("suspect table has %d rows, the audit %d suspects", got, len(au.A.Filters))
 	}
 	top := au.A.Filters[0]
-	row := st.auditSuspects.rows[0]
+	row := av.suspects.rows[0]
 	if row[2] != fmt.Sprint(top.Filter) || row[5] != fmt.Sprintf("%.4f", top.Score) || row[6] != fmt.Sprintf("%.3f", top.Parts.FlaggedShare) {
 		t.Errorf("suspect row %q does not show suspect %d with score %v", row, top.Filter, top.Score)
 	}
 	if got := au.suspicionOf(top.Filter); got != fmt.Sprintf("%.4f", top.Score) {
 		t.Errorf("Filters view suspicion of filter %d = %q, audit score %v", top.Filter, got, top.Score)
 	}
-	// The score formula heads the Suspects tab.
-	st.auditTab("Suspects")
-	if !strings.Contains(test.RenderToMarkup(w.Canvas()), au.A.Formula[:40]) {
-		t.Errorf("the audit view's Suspects tab does not show the score formula")
+	// The score's formula, in the glossary's words, heads the Suspects tab.
+	av.showTab("Suspects")
+	term, _ := glossary.Lookup("suspicion score")
+	if !strings.Contains(test.RenderToMarkup(w.Canvas()), term.Formula) {
+		t.Errorf("the audit view's Suspects tab does not show the score formula %q", term.Formula)
 	}
-	st.auditTab("Cues")
+	av.showTab("Cues")
+	return top
+}
 
+// filterList: the Filters view ranks by the audit's scores and searches
+// cue words.
+func (s *session) filterList(top explain.Suspect) {
+	t, st := s.t, s.st
 	// The Filters view: sorting by suspicion (descending) puts the top
 	// suspect first, and searching for a cue word finds its filters.
-	fl := st.filterList
+	fl := st.filtersView.list
 	fl.sortCol, fl.desc = -1, false
-	fl.sortBy(4)
+	fl.sortBy(colFilterSuspicion)
 	if got := fl.rows[fl.visible(0)][0]; got != fmt.Sprint(top.Filter) {
 		t.Errorf("filters sorted by suspicion start with filter %s, want the top suspect %d", got, top.Filter)
 	}
@@ -259,16 +257,23 @@ func TestWholeSession(t *testing.T) {
 		t.Errorf("searching the filter list for kioskmail finds nothing")
 	}
 	for i := range fl.order {
-		if r := fl.rows[fl.visible(i)]; r[5] == "" && !strings.Contains(r[len(r)-1], "kioskmail") {
+		if r := fl.rows[fl.visible(i)]; r[colFilterCues] == "" && !strings.Contains(r[len(r)-1], "kioskmail") {
 			t.Errorf("search for kioskmail shows filter %s with neither a cue nor an n-gram holding it", r[0])
 		}
 	}
 	fl.setQuery("")
+}
 
-	// Tapping the mask cell of the top suspect masks it at once.
-	st.auditSuspects.table.Select(widget.TableCellID{Row: 0, Col: 0})
+// masking: masked metrics are those of cnn.Evaluate on explain.MaskFilters'
+// copy, and the masked model saves and loads.
+func (s *session) masking(top explain.Suspect) {
+	t, st, q, cs, ms := s.t, s.st, s.q, s.cs, s.ms
+	av := st.auditView
+	// Clicking the mask cell of the top suspect masks it at once.
+	av.showTab("Suspects")
+	av.suspects.table.Select(widget.TableCellID{Row: 0, Col: colMask})
 	q.waitFor(t, "the masked evaluation", func() bool {
-		mk := st.maskShown()
+		mk := av.masking.mask
 		return mk != nil && slices.Equal(mk.Filters, []int{top.Filter})
 	})
 
@@ -279,10 +284,10 @@ func TestWholeSession(t *testing.T) {
 	if top.Filter != 0 {
 		maskSet = append(maskSet, 0)
 	}
-	st.maskTicks(maskSet)
+	av.masking.setTicks(maskSet)
 	sort.Ints(maskSet)
-	q.waitFor(t, "the masked evaluation", func() bool { return slices.Equal(st.maskShown().Filters, maskSet) })
-	mk := st.maskShown()
+	q.waitFor(t, "the masked evaluation", func() bool { return slices.Equal(av.masking.mask.Filters, maskSet) })
+	mk := av.masking.mask
 	for g := range ms.Model.Config.NumFilters() {
 		in := slices.Contains(maskSet, g)
 		if mk.Model.IsMasked(g) != in || ms.Model.IsMasked(g) {
@@ -305,10 +310,10 @@ func TestWholeSession(t *testing.T) {
 		t.Errorf("masked view shows %+v; cnn.Evaluate on explain.MaskFilters' copy gives %+v", mk.Eval.Metrics, met)
 	}
 	wantRow := []string{"accuracy", fmt.Sprintf("%.4f", ms.Eval.Metrics.Accuracy), fmt.Sprintf("%.4f", met.Accuracy), fmt.Sprintf("%+.4f", met.Accuracy-ms.Eval.Metrics.Accuracy)}
-	if markup := test.RenderToMarkup(w.Canvas()); !strings.Contains(markup, fmt.Sprintf("Masked filters %v.", maskSet)) {
-		t.Errorf("audit view does not say which filters are masked")
+	if note := av.masking.note; note.Text != maskedNote(maskSet) || !note.Visible() || !strings.Contains(note.Text, "masked copy") {
+		t.Errorf("audit view says %q, not which filters are masked", note.Text)
 	}
-	if got := st.maskCompare.rows; len(got) == 0 || !slices.Equal(got[0], wantRow) {
+	if got := av.masking.compare.rows; len(got) == 0 || !slices.Equal(got[0], wantRow) {
 		t.Errorf("before/after table starts %q, want %q", got, wantRow)
 	}
 
@@ -332,11 +337,10 @@ func TestBadDataShowsDialog(t *testing.T) {
 		t.Fatal(err)
 	}
 	q := &queue{}
-	w, st := newWindow(a, Options{DataPath: path}, q.post)
-	w.Resize(fyne.NewSize(1000, 700))
 	ready := false
-	st.opts.OnReady = func() { ready = true }
-	q.waitFor(t, "the load to fail", func() bool { return !st.running(taskLoad) && ready })
+	w, st := newWindow(a, Options{DataPath: path, OnReady: func() { ready = true }}, q.post)
+	w.Resize(fyne.NewSize(1000, 700))
+	q.waitFor(t, "the load to fail", func() bool { return st.tasks.idle(taskLoad) && ready })
 	top := w.Canvas().Overlays().Top()
 	if top == nil {
 		t.Fatalf("no error dialog shown")
@@ -352,11 +356,11 @@ func TestBadDataShowsDialog(t *testing.T) {
 
 // TestViewIndex checks the start-view names main.go passes on.
 func TestViewIndex(t *testing.T) {
-	vs := views()
+	vs := viewTable()
 	for _, c := range []struct {
 		in   string
 		want int
-	}{{"Corpus", 0}, {"corpus", 0}, {"why", 4}, {"Cue audit", 5}, {"f", 3}, {"nope", -1}, {"", -1}} {
+	}{{"Corpus", 0}, {"corpus", 0}, {"why", 4}, {"Cue audit", 5}, {"f", 3}, {"res", 2}, {"nope", -1}, {"", -1}} {
 		if got := viewIndex(vs, c.in); got != c.want {
 			t.Errorf("viewIndex(%q) = %d, want %d", c.in, got, c.want)
 		}

@@ -3,6 +3,9 @@ package gui
 import (
 	"context"
 	"fmt"
+	"path/filepath"
+	"strconv"
+	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
@@ -17,21 +20,62 @@ type modelState struct {
 	Enc   *corpus.Encoder
 	Table *explain.SlotTable // word-slot table of the model (read-only)
 	Path  string             // file it was opened from or saved to; "" if unsaved
+	// Source is the file it was opened from, an input of the window that
+	// no save may write onto; "" for a model trained in the window.
+	Source string
 	// Run is the training record when the model was trained in this
 	// window; nil for an opened model.
 	Run *cnn.TrainResult
-	// Held-out evaluation (on the open corpus's test split) when a corpus is
+	// Eval is the model on the open corpus's test split, when a corpus is
 	// open and fits the model.
 	Eval *evaluation
 }
 
-// evaluation is the model's result on the held-out split.
+// evaluation is the model's result on the test split.
 type evaluation struct {
 	Metrics cnn.Metrics
-	Gold    []int       // class of each held-out text
-	Pred    []int       // predicted class of each held-out text
-	Probs   [][]float32 // class probabilities of each held-out text
-	Texts   []string    // the held-out texts, in the same order
+	Gold    []int       // class of each test text
+	Pred    []int       // predicted class of each test text
+	Probs   [][]float32 // class probabilities of each test text
+	Texts   []string    // the test texts, in the same order
+}
+
+// masked lists the model's masked filters, ascending.
+func (ms *modelState) masked() []int {
+	var gs []int
+	for g := range ms.Model.Config.NumFilters() {
+		if ms.Model.IsMasked(g) {
+			gs = append(gs, g)
+		}
+	}
+	return gs
+}
+
+// name is how the views call the model.
+func (ms *modelState) name() string {
+	if ms.Path != "" {
+		return filepath.Base(ms.Path)
+	}
+	return "the model trained in this window"
+}
+
+// caption is the one line every view that uses the model shows above it:
+// which model, its filters, and whether some are masked.
+func (ms *modelState) caption() string {
+	if ms == nil {
+		return "No model yet: train one (Training view, Run › Train) or open one (File › Open model)."
+	}
+	c := ms.Model.Config
+	name := "trained in this window"
+	if ms.Path != "" {
+		name = filepath.Base(ms.Path)
+	}
+	s := fmt.Sprintf("Model: %s — %d filters (widths %s × %d maps), %d labels.", name, c.NumFilters(),
+		intList(c.Widths), c.Filters, len(ms.Model.Labels))
+	if m := ms.masked(); len(m) > 0 {
+		s += fmt.Sprintf(" A masked model: %s switched off (%s).", plural(len(m), "filter is", "filters are"), shortList(m, 12))
+	}
+	return s
 }
 
 // encode is a split as the model sees it, encoded as the command line
@@ -40,14 +84,14 @@ func encode(enc *corpus.Encoder, d *corpus.Dataset, labels []string) (cnn.Data, 
 	return cnn.EncodeDataset(enc, d, labels, 0)
 }
 
-// evaluate runs m on the held-out split of cs.
+// evaluate runs ms on the test split of cs.
 func evaluate(ms *modelState, cs *corpusState) (*evaluation, error) {
 	if cs == nil {
 		return nil, nil
 	}
 	d, err := encode(ms.Enc, cs.Test, ms.Model.Labels)
 	if err != nil {
-		return nil, fmt.Errorf("the held-out split does not fit this model: %w", err)
+		return nil, fmt.Errorf("the test split does not fit this model: %w", err)
 	}
 	met, pred, err := cnn.Evaluate(ms.Model, d, 0)
 	if err != nil {
@@ -82,15 +126,32 @@ func newModelState(m *cnn.Model, path string) (*modelState, error) {
 func (st *State) setModel(ms *modelState) {
 	st.cancel(taskProfile)
 	st.cancel(taskAudit)
+	st.cancel(taskMask)
 	st.audit.Set(nil)
 	st.profiles.Set(nil)
 	st.model.Set(ms)
 	st.profileNow(nil)
 }
 
-// openModel loads a model file in the background.
+// planOf reads the split plan a model file records (the keys the window
+// and the command line write into Info.Notes), if it records one.
+func planOf(m *cnn.Model) (splitPlan, bool) {
+	n := m.Info.Notes
+	dev, err1 := strconv.ParseFloat(n["dev_frac"], 64)
+	test, err2 := strconv.ParseFloat(n["test_frac"], 64)
+	seed, err3 := strconv.ParseUint(n["seed"], 10, 64)
+	if err1 != nil || err2 != nil || err3 != nil {
+		return splitPlan{}, false
+	}
+	return splitPlan{DevFrac: dev, TestFrac: test, Seed: seed}, true
+}
+
+// openModel loads a model file in the background and evaluates it on the
+// open corpus's test split; a model that records its split plan is
+// evaluated on the test split that plan makes.
 func (st *State) openModel(path string, then func()) {
-	_ = st.status.Set("Opening model " + path + "…")
+	st.setStatus("Opening model " + path + "…")
+	cs := itemGet(st.data)
 	st.start(taskLoad, true, func(ctx context.Context, report reporter) (func(), error) {
 		m, err := cnn.Load(path)
 		if err != nil {
@@ -100,15 +161,25 @@ func (st *State) openModel(path string, then func()) {
 		if err != nil {
 			return then, fmt.Errorf("%s: %w", path, err)
 		}
-		cs := itemGet(st.data)
+		ms.Source = path
+		if p, ok := planOf(m); ok && cs != nil && p != cs.Plan && p.check(cs.TestFile != nil) == nil {
+			if cs, err = cs.resplit(ctx, p); err != nil {
+				return then, err
+			}
+		}
 		ev, err := evaluate(ms, cs)
 		if err != nil {
 			return then, fmt.Errorf("opened %s, but %w; open the data it was trained for", path, err)
 		}
 		ms.Eval = ev
 		return func() {
+			if cs != nil && cs != itemGet(st.data) {
+				st.recipe.setPlan(cs.Plan)
+				st.data.Set(cs)
+			}
 			st.setModel(ms)
-			_ = st.status.Set(fmt.Sprintf("Opened model %s: %d filters, labels %v.", path, ms.Model.Config.NumFilters(), ms.Model.Labels))
+			st.setStatus(fmt.Sprintf("Opened model %s: %d filters, labels %s.", path, ms.Model.Config.NumFilters(),
+				strings.Join(ms.Model.Labels, ", ")))
 			if then != nil {
 				then()
 			}

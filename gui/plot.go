@@ -1,25 +1,21 @@
 package gui
 
 import (
-	"image"
 	"image/color"
+	"sync"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/theme"
+	"fyne.io/fyne/v2/widget"
+	stdfont "golang.org/x/image/font"
+	"golang.org/x/image/font/opentype"
 	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgimg"
-)
-
-// Plot sizes in points at 96 dpi; the image scales to fit its cell.
-const (
-	plotW   = 5.6 * vg.Inch
-	plotH   = 3.0 * vg.Inch
-	plotDPI = 96
-	plotPad = 0.18 * vg.Inch // right margin (half of it on top)
 )
 
 // seriesColors are the line colours of plots with several series: the
@@ -29,13 +25,49 @@ var seriesColors = []color.Color{
 	divergingAnchors[9], divergingAnchors[1], color.NRGBA{0x70, 0x70, 0x70, 0xff}, divergingAnchors[7], divergingAnchors[3],
 }
 
-// newPlot returns a plot styled with the current Fyne theme's colours, so
-// plots follow the light and dark variants.
+// windowTypeface is the name under which the window's own fonts are known
+// to gonum/plot, so that plots are set in the window's font.
+const windowTypeface = "telltale-window"
+
+// windowFonts registers the theme's regular and bold text fonts with
+// gonum/plot's font cache once per font resource; it returns false when a
+// font cannot be read (plots then keep gonum/plot's default font).
+var windowFonts = struct {
+	mu     sync.Mutex
+	loaded map[string]bool
+}{loaded: map[string]bool{}}
+
+func registerWindowFonts() bool {
+	regular, bold := theme.TextFont(), theme.TextBoldFont()
+	key := regular.Name() + "|" + bold.Name()
+	windowFonts.mu.Lock()
+	defer windowFonts.mu.Unlock()
+	if ok, seen := windowFonts.loaded[key]; seen {
+		return ok
+	}
+	var coll font.Collection
+	for _, f := range []struct {
+		res    fyne.Resource
+		weight stdfont.Weight
+	}{{regular, stdfont.WeightNormal}, {bold, stdfont.WeightBold}} {
+		face, err := opentype.Parse(f.res.Content())
+		if err != nil {
+			windowFonts.loaded[key] = false
+			return false
+		}
+		coll = append(coll, font.Face{Font: font.Font{Typeface: windowTypeface, Weight: f.weight}, Face: face})
+	}
+	font.DefaultCache.Add(coll)
+	windowFonts.loaded[key] = true
+	return true
+}
+
+// newPlot returns a plot styled with the current theme: its colours (so
+// plots follow the light and dark variants) and its text font and size.
 func newPlot(title, xLabel, yLabel string) *plot.Plot {
 	p := plot.New()
 	fg := theme.Color(theme.ColorNameForeground)
-	bg := theme.Color(theme.ColorNameBackground)
-	p.BackgroundColor = bg
+	p.BackgroundColor = theme.Color(theme.ColorNameBackground)
 	p.Title.Text = title
 	p.Title.TextStyle.Color = fg
 	p.Legend.TextStyle.Color = fg
@@ -48,43 +80,92 @@ func newPlot(title, xLabel, yLabel string) *plot.Plot {
 	}
 	p.X.Label.Text = xLabel
 	p.Y.Label.Text = yLabel
+	if registerWindowFonts() {
+		size := font.Length(theme.TextSize())
+		regular := font.Font{Typeface: windowTypeface, Size: size}
+		bold := regular
+		bold.Weight = stdfont.WeightBold
+		small := regular
+		small.Size = size * 0.85
+		p.Title.TextStyle.Font = bold
+		p.Legend.TextStyle.Font = small
+		for _, a := range []*plot.Axis{&p.X, &p.Y} {
+			a.Label.TextStyle.Font = regular
+			a.Tick.Label.Font = small
+		}
+	}
 	return p
 }
 
-// renderPlot draws p into an RGBA image.
-func renderPlot(p *plot.Plot) image.Image {
-	c := vgimg.NewWith(vgimg.UseWH(plotW, plotH), vgimg.UseDPI(plotDPI))
-	dc := draw.New(c)
-	dc.SetColor(p.BackgroundColor)
-	dc.Fill(dc.Rectangle.Path())
-	// A margin on the right: the last tick label is centred on the end of
-	// the axis and the legend sits flush right; both would be cut there.
-	p.Draw(draw.Crop(dc, 0, -plotPad, 0, -plotPad/2))
-	return c.Image()
+// plotView shows a plot drawn at the size it is given, so that its text is
+// the size of the window's text.
+type plotView struct {
+	widget.BaseWidget
+	plot  *plot.Plot
+	img   *canvas.Image
+	drawn fyne.Size // size the image was drawn at
+	least fyne.Size
 }
 
-// plotImage is an image cell that shows a rendered plot, or nothing.
-type plotImage struct {
-	img *canvas.Image
-}
-
-func newPlotImage() *plotImage {
-	im := canvas.NewImageFromImage(nil)
-	im.FillMode = canvas.ImageFillContain
-	im.ScaleMode = canvas.ImageScaleSmooth
-	im.SetMinSize(fyne.NewSize(float32(plotW.Dots(plotDPI))*0.7, float32(plotH.Dots(plotDPI))*0.7))
-	return &plotImage{img: im}
+// newPlotView makes an empty plot cell no smaller than least.
+func newPlotView(least fyne.Size) *plotView {
+	v := &plotView{img: canvas.NewImageFromImage(nil), least: least}
+	v.img.FillMode = canvas.ImageFillStretch
+	v.ExtendBaseWidget(v)
+	return v
 }
 
 // set replaces the shown plot; nil clears it.
-func (pi *plotImage) set(p *plot.Plot) {
-	if p == nil {
-		pi.img.Image = nil
-	} else {
-		pi.img.Image = renderPlot(p)
-	}
-	pi.img.Refresh()
+func (v *plotView) set(p *plot.Plot) {
+	v.plot = p
+	v.drawn = fyne.Size{}
+	v.draw(v.Size())
 }
+
+// draw renders the plot at size s (in the canvas's pixels).
+func (v *plotView) draw(s fyne.Size) {
+	if v.plot == nil || s.Width < 10 || s.Height < 10 {
+		v.img.Image = nil
+		v.img.Refresh()
+		return
+	}
+	if s == v.drawn {
+		return
+	}
+	scale := float32(1)
+	if c := fyne.CurrentApp().Driver().CanvasForObject(v); c != nil {
+		scale = c.Scale()
+	}
+	// One window unit is one point at scale 1.
+	w, h := vg.Length(s.Width), vg.Length(s.Height)
+	c := vgimg.NewWith(vgimg.UseWH(w, h), vgimg.UseDPI(int(72*scale+0.5)))
+	dc := draw.New(c)
+	dc.SetColor(v.plot.BackgroundColor)
+	dc.Fill(dc.Rectangle.Path())
+	// A margin on the right and top: the last tick label is centred on the
+	// end of the axis and the legend sits flush right; both would be cut.
+	pad := vg.Length(theme.Padding() * 2)
+	v.plot.Draw(draw.Crop(dc, pad/2, -pad, 0, -pad/2))
+	v.img.Image = c.Image()
+	v.drawn = s
+	v.img.Refresh()
+}
+
+func (v *plotView) CreateRenderer() fyne.WidgetRenderer { return &plotRenderer{v: v} }
+
+type plotRenderer struct{ v *plotView }
+
+func (r *plotRenderer) Layout(s fyne.Size) {
+	r.v.img.Resize(s)
+	r.v.draw(s)
+}
+func (r *plotRenderer) MinSize() fyne.Size           { return r.v.least }
+func (r *plotRenderer) Refresh()                     { r.v.draw(r.v.Size()) }
+func (r *plotRenderer) Objects() []fyne.CanvasObject { return []fyne.CanvasObject{r.v.img} }
+func (r *plotRenderer) Destroy()                     {}
+
+// plotSize is the least size of a plot cell.
+var plotSize = fyne.NewSize(240, 170)
 
 // xyLine adds one named line to p.
 func xyLine(p *plot.Plot, name string, xs, ys []float64, col color.Color) error {

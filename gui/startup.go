@@ -18,11 +18,12 @@ func (st *State) startup() {
 			ready()
 			return
 		}
+		audit := func() { st.runAudit(func() { st.suggestText(); ready() }) }
 		switch {
 		case st.opts.ModelPath != "":
 			st.afterProfile = ready
 			if st.opts.AutoRun {
-				st.afterProfile = func() { st.runAudit(func() { st.suggestText(); ready() }) }
+				st.afterProfile = audit
 			}
 			st.openModel(st.opts.ModelPath, func() {
 				if itemGet(st.model) == nil {
@@ -31,7 +32,7 @@ func (st *State) startup() {
 				}
 			})
 		case st.opts.AutoRun:
-			st.afterProfile = func() { st.runAudit(func() { st.suggestText(); ready() }) }
+			st.afterProfile = audit
 			st.afterTrain = func(ok bool) {
 				if !ok {
 					st.afterProfile = nil
@@ -45,17 +46,18 @@ func (st *State) startup() {
 	})
 }
 
-// suggestText puts a text on the explain view unless the user typed one: the first
-// held-out text behind the top suspect's figures (one where its cue points
-// away from the gold label), so a first visit sees the cue at work.
+// suggestText puts a text on the explanation view unless the user typed
+// one: the first test text behind the top suspect's figures (one where its
+// cue points away from the gold label), so a first visit sees the cue at
+// work.
 func (st *State) suggestText() {
 	a := itemGet(st.audit)
 	if a == nil || len(a.A.Filters) == 0 {
 		return
 	}
-	// The explain view starts on the first held-out text; the user's own
+	// The explanation view starts on the first test text; the user's own
 	// text is never replaced.
-	if t := stringGet(st.explainText); t != "" && (len(a.Heldout) == 0 || t != a.Heldout[0]) {
+	if t := stringGet(st.explainText); t != "" && (len(a.Test) == 0 || t != a.Test[0]) {
 		return
 	}
 	ex := a.A.Filters[0].Examples

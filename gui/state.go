@@ -1,25 +1,22 @@
 package gui
 
 import (
-	"context"
-	"errors"
 	"fmt"
 	"io"
-	"sync"
-	"time"
+	"math"
 
 	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/data/binding"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/widget"
 
-	"telltale/explain"
 	"telltale/internal/atomicfile"
 )
 
 // State is everything the window knows: the open corpus, the model, its
-// filter profiles and audit, the values the widgets are bound to, and the
-// background tasks. Views receive it; nothing is kept in package globals.
+// filter profiles and audit, the values the widgets are bound to, the
+// views, and the background tasks. Nothing is kept in package globals.
 //
 // All fields are read and written on the UI goroutine only; background work
 // hands its results back through ui.
@@ -30,48 +27,40 @@ type State struct {
 
 	// ui runs fn on the UI goroutine: fyne.Do in the application; the
 	// tests replace it with a queue they drain themselves.
-	ui func(fn func())
+	ui    func(fn func())
+	tasks *taskRunner
 
-	// Bound values shown by the status bar and several views.
-	status   binding.String // what the window is doing, one line
-	progress binding.Float  // 0 … 1 of the task in the status bar
-	busy     binding.Bool   // a task of the status bar is running
+	// The status bar: what the window is doing, in one line, and the one
+	// progress figure of the window with a Stop button. They are set
+	// directly, not through bindings: a binding's update waits its turn on
+	// the UI goroutine's queue, and progress comes often.
+	statusLine *widget.Label
+	bar        *widget.ProgressBar
+	stopBtn    *widget.Button
 
+	running binding.String // kinds of work running, for the views' buttons
+
+	// What is open; each change is seen by every view.
 	data     binding.Item[*corpusState]
 	model    binding.Item[*modelState]
 	profiles binding.Item[*profileState]
 	audit    binding.Item[*auditState]
 
-	// Values of the explain view, kept here so another view (a confusion
-	// cell, a suspect's example) can send a text to it.
-	explainText   binding.String
-	explainMethod binding.String
-	explainClass  binding.String
+	// explainText is the text of the explanation view, here so that other
+	// views (a confusion cell's texts, an audit example) can send one.
+	explainText binding.String
 
-	tabs         func(title string)  // selects a view by title (set by build)
-	selectedView func() string       // title of the shown view
-	exports      map[string]exporter // per view title: its table and data
-	views        []view
+	recipe *recipeForm
 
-	recipe       *recipe
-	trainRun     *trainRun         // the run shown by the Training view
-	trainChanged func()            // redraws the Training view
-	trainButtons [2]*widget.Button // Train and Stop, for tests
-
-	explainShown     func() *explainState          // the explanation on screen, for tests
-	explainChips     func() []*heatCell            // the painted tokens, for tests
-	showFilter       func(g int)                   // selects filter g in the Filters view
-	filterShown      func() *explain.FilterProfile // the filter on screen, for tests
-	filterNgramChips func() []*heatCell            // its painted n-gram tokens, for tests
-
-	maskShown     func() *maskState  // the masked model on screen, for tests
-	maskTicks     func(gs []int)     // sets the ticked filters and masks them
-	auditShown    func() *auditState // the audit on screen, for tests
-	auditSuspects *sheet             // the suspect table, for tests
-	auditTab      func(title string) // selects a tab of the audit's lists, for tests
-	maskCompare   *sheet             // the before/after table, for tests
-	filterList    *sheet             // the Filters view's list, for tests
-	explainEntry  *widget.Entry      // the explain view's text box, for tests
+	// The views, in tab order (built by build from viewTable).
+	tabs         *container.AppTabs
+	specs        []viewSpec
+	corpusView   *corpusView
+	trainingView *trainingView
+	resultsView  *resultsView
+	filtersView  *filtersView
+	whyView      *whyView
+	auditView    *auditView
 
 	// Saving: where files go and how they are written. writeFile replaces
 	// a file atomically (atomicfile.Write); pickFolder asks for a folder
@@ -79,200 +68,119 @@ type State struct {
 	saveDir    string
 	writeFile  func(path string, write func(io.Writer) error) error
 	pickFolder func(start string, done func(dir string))
-	saveShown  *saveForm // the save dialog last shown, for tests
+	lastSave   *saveForm // the save dialog last shown
 
 	// One-shot hooks of the start-up sequence.
 	afterTrain   func(ok bool)
 	afterProfile func()
-
-	mu    sync.Mutex
-	tasks map[string]*task
-	gen   int
 }
 
-// task is a running background job of one kind.
-type task struct {
-	gen    int
-	cancel context.CancelFunc
-}
-
-// errCanceled marks work stopped by the user; it is never shown as an error.
-var errCanceled = errors.New("canceled")
-
-func newState(a fyne.App, opts Options) *State {
+func newState(a fyne.App, opts Options, ui func(func())) *State {
 	same := func(a, b any) bool { return a == b }
 	st := &State{
-		app:           a,
-		opts:          opts,
-		ui:            fyne.Do,
-		status:        binding.NewString(),
-		progress:      binding.NewFloat(),
-		busy:          binding.NewBool(),
-		data:          binding.NewItem(func(a, b *corpusState) bool { return same(a, b) }),
-		model:         binding.NewItem(func(a, b *modelState) bool { return same(a, b) }),
-		profiles:      binding.NewItem(func(a, b *profileState) bool { return same(a, b) }),
-		audit:         binding.NewItem(func(a, b *auditState) bool { return same(a, b) }),
-		explainText:   binding.NewString(),
-		explainMethod: binding.NewString(),
-		explainClass:  binding.NewString(),
-		tasks:         map[string]*task{},
-		exports:       map[string]exporter{},
-		recipe:        newRecipe(),
-		trainChanged:  func() {},
-		writeFile:     atomicfile.Write,
+		app:         a,
+		opts:        opts,
+		ui:          ui,
+		running:     binding.NewString(),
+		data:        binding.NewItem(func(a, b *corpusState) bool { return same(a, b) }),
+		model:       binding.NewItem(func(a, b *modelState) bool { return same(a, b) }),
+		profiles:    binding.NewItem(func(a, b *profileState) bool { return same(a, b) }),
+		audit:       binding.NewItem(func(a, b *auditState) bool { return same(a, b) }),
+		explainText: binding.NewString(),
+		recipe:      newRecipeForm(),
+		writeFile:   atomicfile.Write,
 	}
 	st.pickFolder = st.pickFolderDialog
-	_ = st.status.Set("No data open yet.")
-	_ = st.explainMethod.Set(methodExact)
+	st.tasks = newTaskRunner(ui)
+	st.newStatusBar()
+	st.tasks.onBusy = func(b bool) {
+		st.setBusy(b)
+		st.tasksChanged()
+	}
+	st.tasks.onNote = func(f float64, s string) {
+		if f >= 0 {
+			st.bar.SetValue(f)
+		}
+		if s != "" {
+			st.setStatus(s)
+		}
+	}
+	st.tasks.onError = st.showError
+	st.setStatus("No data open yet.")
 	return st
 }
 
-// Kinds of background work. One task of each kind runs at a time; starting
-// a new one cancels the old one.
-const (
-	taskLoad    = "load"
-	taskTrain   = "train"
-	taskProfile = "profile"
-	taskAudit   = "audit"
-	taskExplain = "explain"
-	taskMask    = "mask"
-)
-
-// reporter is handed to background work to report progress; it may be
-// called from any goroutine, often.
-type reporter func(done, total int, what string)
-
-// start runs work on a new goroutine with a cancellable context. When work
-// returns, apply (if not nil) runs on the UI goroutine, unless a newer task of
-// the same kind was started meanwhile. An error other than cancellation is
-// shown in a dialog. Tasks with showInBar report to the status bar.
-func (st *State) start(kind string, showInBar bool, work func(ctx context.Context, report reporter) (apply func(), err error)) {
-	ctx, cancel := context.WithCancel(context.Background())
-	st.mu.Lock()
-	if old := st.tasks[kind]; old != nil {
-		old.cancel()
-	}
-	st.gen++
-	gen := st.gen
-	st.tasks[kind] = &task{gen: gen, cancel: cancel}
-	st.mu.Unlock()
-	if showInBar {
-		_ = st.busy.Set(true)
-		_ = st.progress.Set(0)
-	}
-	var last time.Time
-	var lastMu sync.Mutex
-	report := func(done, total int, what string) {
-		if !showInBar {
-			return
-		}
-		// At most about 20 updates a second reach the window.
-		lastMu.Lock()
-		now := time.Now()
-		skip := now.Sub(last) < 50*time.Millisecond && done < total
-		if !skip {
-			last = now
-		}
-		lastMu.Unlock()
-		if skip {
-			return
-		}
-		st.ui(func() {
-			if !st.current(kind, gen) {
-				return
-			}
-			if total > 0 {
-				_ = st.progress.Set(float64(done) / float64(total))
-			}
-			if what != "" {
-				_ = st.status.Set(what)
-			}
-		})
-	}
-	go func() {
-		apply, err := work(ctx, report)
-		if err == nil && ctx.Err() != nil {
-			err = errCanceled
-		}
-		st.ui(func() {
-			cur := st.current(kind, gen)
-			if cur {
-				st.mu.Lock()
-				delete(st.tasks, kind)
-				st.mu.Unlock()
-				if showInBar {
-					_ = st.busy.Set(st.anyBarTask())
-					_ = st.progress.Set(1)
-				}
-			}
-			if apply != nil && cur {
-				apply()
-			}
-			switch {
-			case err == nil:
-			case errors.Is(err, errCanceled), errors.Is(err, context.Canceled):
-				if cur && showInBar {
-					_ = st.status.Set("Stopped.")
-				}
-			default:
-				if cur {
-					st.showError(err)
-				}
-			}
-		})
-	}()
+// newStatusBar makes the status bar's widgets.
+func (st *State) newStatusBar() {
+	st.statusLine = widget.NewLabel("")
+	st.statusLine.Truncation = fyne.TextTruncateEllipsis
+	st.bar = widget.NewProgressBar()
+	st.bar.TextFormatter = func() string { return fmt.Sprintf("%.0f%%", math.Floor(100*st.bar.Value)) }
+	st.bar.Hide()
+	st.stopBtn = widget.NewButton("Stop", st.stopAll)
+	st.stopBtn.Disable()
 }
 
-// current reports whether the task of kind with generation gen is still the
-// latest of its kind.
-func (st *State) current(kind string, gen int) bool {
-	st.mu.Lock()
-	defer st.mu.Unlock()
-	t := st.tasks[kind]
-	return t != nil && t.gen == gen
+// setStatus says in the status bar what the window is doing.
+func (st *State) setStatus(s string) { st.statusLine.SetText(s) }
+
+// statusText is the status bar's line.
+func (st *State) statusText() string { return st.statusLine.Text }
+
+// setBusy shows the progress bar and enables Stop while work runs.
+func (st *State) setBusy(busy bool) {
+	if busy {
+		st.bar.Show()
+		st.stopBtn.Enable()
+	} else {
+		st.bar.Hide()
+		st.stopBtn.Disable()
+	}
 }
 
-func (st *State) anyBarTask() bool {
-	st.mu.Lock()
-	defer st.mu.Unlock()
-	for k := range st.tasks {
-		if k != taskExplain {
-			return true
+// start runs w in the background as the task of kind (see taskRunner).
+func (st *State) start(kind string, inBar bool, w work) {
+	st.tasks.start(kind, inBar, w)
+	st.tasksChanged()
+}
+
+// tasksChanged tells the views which kinds of work run, so their buttons
+// follow.
+func (st *State) tasksChanged() {
+	s := ""
+	for _, k := range []string{taskLoad, taskTrain, taskProfile, taskAudit, taskMask} {
+		if st.tasks.busy(k) {
+			s += k + " "
 		}
 	}
-	return false
+	_ = st.running.Set(s)
 }
 
-// running reports whether a task of kind is running.
-func (st *State) running(kind string) bool {
-	st.mu.Lock()
-	defer st.mu.Unlock()
-	return st.tasks[kind] != nil
-}
+// isRunning reports whether work of kind runs or waits.
+func (st *State) isRunning(kind string) bool { return st.tasks.busy(kind) }
 
-// cancel stops the task of kind, if any. Its apply still runs (so a
-// cancelled training keeps the best model so far).
+// cancel stops the work of kind; its result is still applied (a stopped
+// training keeps the best model so far).
 func (st *State) cancel(kind string) {
-	st.mu.Lock()
-	defer st.mu.Unlock()
-	if t := st.tasks[kind]; t != nil {
-		t.cancel()
-	}
+	st.tasks.cancel(kind)
+	st.tasksChanged()
 }
 
-// cancelAll stops every task.
-func (st *State) cancelAll() {
-	st.mu.Lock()
-	defer st.mu.Unlock()
-	for _, t := range st.tasks {
-		t.cancel()
+// stopAll stops the work shown in the status bar.
+func (st *State) stopAll() {
+	for _, k := range barTasks {
+		st.tasks.cancel(k)
 	}
+	st.tasksChanged()
 }
+
+// cancelAll stops every task (the window is closing).
+func (st *State) cancelAll() { st.tasks.cancelAll() }
 
 // showError shows err in a dialog; the message says what happened and,
 // coming from the lower packages, what to do.
 func (st *State) showError(err error) {
-	_ = st.status.Set("Error: " + err.Error())
+	st.setStatus("Error: " + err.Error())
 	if st.win != nil {
 		dialog.ShowError(err, st.win)
 	}
@@ -291,4 +199,12 @@ func itemGet[T any](it binding.Item[T]) T {
 func stringGet(s binding.String) string {
 	v, _ := s.Get()
 	return v
+}
+
+// listen calls fn on the UI goroutine whenever one of the items changes,
+// and once now.
+func listen(fn func(), items ...binding.DataItem) {
+	for _, it := range items {
+		it.AddListener(binding.NewDataListener(fn))
+	}
 }

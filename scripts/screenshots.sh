@@ -1,29 +1,26 @@
 #!/usr/bin/env bash
-# screenshots.sh — launch the real telltale window under Xvfb (Mesa's
-# software GL) on the built-in demo corpus and save a PNG of each main view
-# to docs/screenshots/. Used by `make screenshots`.
+# screenshots.sh — run the real telltale window under Xvfb (Mesa's software
+# GL) on the built-in demo corpus, once at 1366×900 and once at 1024×700,
+# and save a PNG of every view to docs/screenshots/NAME-WxH.png. It fails
+# when a view makes the window grow past the screen (it does not fit).
+# Used by `make screenshots`.
 #
-# Needs: Debian's xvfb, imagemagick (import, convert) and x11-utils
-# (xwininfo), and the window build packages (gcc, libgl1-mesa-dev, libx11-dev…).
-# TELLTALE_BIN names a prebuilt binary; otherwise one is built here with cgo.
-# The binary must support: telltale gui --demo-train --view NAME
-# --quit-after DURATION, and print "window ready" on stderr once the
-# start-up work (training, profiling, the cue audit) is done.
+# Needs: Debian's xvfb, xdotool and imagemagick (import), and the window's
+# build packages (gcc, libgl1-mesa-dev, libx11-dev…). TELLTALE_BIN names a
+# prebuilt binary; otherwise one is built here with cgo.
 set -euo pipefail
 
 cd "$(dirname "$0")/.."
-out=${OUT:-docs/screenshots}
+script_name=screenshots
+out=${SCREENSHOTS_DIR:-docs/screenshots}
 mkdir -p "$out"
 tmp=$(mktemp -d)
-xpid=""
-cleanup() {
-	if [ -n "$xpid" ]; then kill "$xpid" 2>/dev/null || true; fi
-	rm -rf "$tmp"
-}
-trap cleanup EXIT
+# shellcheck source=scripts/window-lib.sh
+. scripts/window-lib.sh
+trap 'stop_window; stop_screen; rm -rf "$tmp"' EXIT
 
-for tool in Xvfb import xwininfo convert; do
-	command -v "$tool" >/dev/null || { echo "screenshots: $tool is missing: apt-get install xvfb imagemagick x11-utils" >&2; exit 1; }
+for tool in Xvfb import xdotool; do
+	command -v "$tool" >/dev/null || { echo "screenshots: $tool is missing: apt-get install xvfb imagemagick xdotool" >&2; exit 1; }
 done
 
 bin=${TELLTALE_BIN:-}
@@ -35,44 +32,24 @@ fi
 
 export LANG=en_US.UTF-8
 export XDG_CONFIG_HOME=$tmp/config
-# A display number unlikely to be taken; several runs at once pick their own.
-disp=${SCREENSHOT_DISPLAY:-$((90 + RANDOM % 400))}
-Xvfb ":$disp" -screen 0 1280x800x24 -nolisten tcp >"$tmp/xvfb.log" 2>&1 &
-xpid=$!
-for _ in $(seq 1 50); do
-	[ -e "/tmp/.X11-unix/X$disp" ] && break
-	sleep 0.1
-done
-export DISPLAY=":$disp"
 
-# title|file name, in the window's tab order.
-views=("Corpus|corpus" "Training|training" "Scorecard|scorecard" "Filters|filters" "Why this label|why-this-label" "Cue audit|cue-audit")
-for entry in "${views[@]}"; do
-	title=${entry%%|*}
-	name=${entry##*|}
-	log=$tmp/$name.log
-	"$bin" gui --demo-train --view "$title" --quit-after 300s >"$log" 2>&1 &
-	pid=$!
-	ok=""
-	for _ in $(seq 1 480); do
-		if grep -q "window ready" "$log"; then ok=1; break; fi
-		if ! kill -0 "$pid" 2>/dev/null; then break; fi
-		sleep 0.25
+for size in 1366x900 1024x700; do
+	start_screen "$size"
+	start_window "$tmp/window-$size.log" --demo-train
+	fit_window "$size"
+	for i in "${!views[@]}"; do
+		title=${views[$i]%%|*}
+		name=${views[$i]##*|}
+		press "ctrl+$((i + 1))"
+		wait_title "telltale — $title" 20 >/dev/null || { echo "screenshots: the window did not show $title" >&2; exit 1; }
+		sleep 1.5 # let the last frame render
+		if [ "$(window_size)" != "$size" ]; then
+			echo "screenshots: $title does not fit $size: the window grew to $(window_size)" >&2
+			exit 1
+		fi
+		import -window "$window_id" "$out/$name-$size.png"
+		echo "screenshots: $out/$name-$size.png" >&2
 	done
-	if [ -z "$ok" ]; then
-		echo "screenshots: the window did not get ready for view $title; its output:" >&2
-		cat "$log" >&2
-		kill -TERM "$pid" 2>/dev/null || true
-		exit 1
-	fi
-	sleep 1.5 # let the last frame render
-	id=$(xwininfo -root -tree | awk '/"telltale/ {print $1; exit}')
-	if [ -n "$id" ]; then
-		import -window "$id" "$out/$name.png"
-	else
-		import -window root "$out/$name.png"
-	fi
-	kill -TERM "$pid" 2>/dev/null || true
-	wait "$pid" 2>/dev/null || true
-	echo "screenshots: $out/$name.png" >&2
+	stop_window
+	stop_screen
 done

@@ -1,0 +1,181 @@
+package gui
+
+import (
+	"slices"
+	"strings"
+	"testing"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/widget"
+
+	"telltale/internal/glossary"
+	"telltale/internal/version"
+)
+
+// Typing a text explains one text at a time: however fast the keys come,
+// at most one explanation runs, and the last text typed is the one shown.
+func TestTypingExplainsOneTextAtATime(t *testing.T) {
+	_, st, q := trainedWindow(t, smallScreen)
+	wv := st.whyView
+	wv.entry.SetText("")
+	q.drain()
+	text := "Dear crew, my bag with two passports was left on the upper deck of the morning ferry"
+	test.Type(wv.entry, text)
+	q.waitFor(t, "the explanation of the whole text", func() bool {
+		return wv.shown != nil && wv.shown.Text == text && wv.shown.E != nil
+	})
+	if got := st.tasks.most(taskExplain); got != 1 {
+		t.Errorf("%d explanations ran at once while typing %d characters, want 1", got, len(text))
+	}
+}
+
+// Clicking a row that opens its subject in another view (a filter that
+// fired, in Why this label) switches views only once the clicked table has
+// taken the keyboard focus (it cannot once it is off screen: the toolkit
+// then logs "Failed to focus object which is not part of the canvas'
+// content"), and the other view shows and selects that subject.
+func TestClickingARowOpensItsView(t *testing.T) {
+	w, st, q := loadedWindow(t, smallScreen)
+	st.show(titleWhy)
+	q.drain()
+	wv := st.whyView
+	tbl := wv.fired.table
+	if len(wv.fired.order) == 0 {
+		t.Fatal("no filter fired on the explained text")
+	}
+	want := wv.firedRows[wv.fired.visible(0)].Filter
+	header := tbl.CreateHeader().MinSize().Height
+	row := widget.NewLabel("0").MinSize().Height
+	test.TapAt(tbl, fyne.NewPos(20, header+row/2+2))
+	if w.Canvas().Focused() != tbl {
+		t.Errorf("the clicked table did not get the keyboard focus (focus: %T)", w.Canvas().Focused())
+	}
+	if got := st.shownTitle(); got != titleFilters {
+		t.Fatalf("after the click the window shows %s, want %s", got, titleFilters)
+	}
+	fv := st.filtersView
+	if fv.shown == nil || fv.shown.Filter != want || fv.list.selected != want {
+		t.Errorf("Filters shows filter %v with row %d selected, want filter %d in both", fv.shown, fv.list.selected, want)
+	}
+}
+
+// Every view says what to do when there is nothing to show, and the buttons
+// that cannot work are disabled instead of failing with a dialog.
+func TestEmptyStates(t *testing.T) {
+	a := test.NewTempApp(t)
+	q := &queue{}
+	w, st := newWindow(a, Options{}, q.post) // no data, no demo corpus
+	w.Resize(smallScreen)
+	q.waitFor(t, "the failed start", func() bool { return st.tasks.idle(taskLoad) })
+	q.drain()
+	for _, c := range []struct {
+		what string
+		ok   bool
+	}{
+		{"Train is disabled without data", st.trainingView.trainBtn.Disabled()},
+		{"Run the audit is disabled without a model", st.auditView.runBtn.Disabled()},
+		{"Next test text is disabled without a model", st.whyView.next.Disabled()},
+		{"Results says how to get a model", strings.Contains(st.resultsView.empty.Text, "train a model")},
+		{"Filters says how to get a model", strings.Contains(st.filtersView.empty.Text, "train a model")},
+		{"Why this label says how to get a model", strings.Contains(st.whyView.verdict.Text, "No model yet")},
+		{"Cue audit says how to get a model", strings.Contains(st.auditView.empty.Text, "No model yet")},
+		{"Corpus says how to open data", strings.Contains(st.corpusView.source.Text, "Open data")},
+		{"Run › Train is disabled without data", menuItem(w, "Run", "Train").Disabled},
+		{"Run › Run the audit is disabled without a model", menuItem(w, "Run", "Run the audit").Disabled},
+		{"File › Save model is disabled without a model", menuItem(w, "File", "Save model…").Disabled},
+	} {
+		if !c.ok {
+			t.Error(c.what)
+		}
+	}
+}
+
+// A new run starts with an empty epoch table and empty curves, and the
+// Training view has no progress figure of its own: the status bar's bar is
+// the window's one progress figure.
+func TestNewRunStartsClean(t *testing.T) {
+	_, st, q := trainedWindow(t, smallScreen)
+	tv := st.trainingView
+	if len(tv.epochs.rows) == 0 {
+		t.Fatal("the finished run shows no epochs")
+	}
+	st.trainNow()
+	if len(tv.epochs.rows) != 0 {
+		t.Errorf("a new run shows %d epochs of the old one", len(tv.epochs.rows))
+	}
+	st.cancel(taskTrain)
+	q.waitFor(t, "the stopped run", func() bool { return st.tasks.idle(taskTrain) })
+	q.drain()
+	var bars int
+	walkObjects(tv.content(), func(o fyne.CanvasObject) {
+		if _, ok := o.(*widget.ProgressBar); ok {
+			bars++
+		}
+	})
+	if bars != 0 {
+		t.Errorf("the Training view has %d progress bars of its own", bars)
+	}
+}
+
+// menuItem finds an item of the window's main menu.
+func menuItem(w fyne.Window, menu, label string) *fyne.MenuItem {
+	for _, m := range w.MainMenu().Items {
+		if m.Label == menu {
+			for _, it := range m.Items {
+				if it.Label == label {
+					return it
+				}
+			}
+		}
+	}
+	panic("no menu item " + menu + " › " + label)
+}
+
+// walkObjects calls fn on o and everything inside it.
+func walkObjects(o fyne.CanvasObject, fn func(fyne.CanvasObject)) {
+	fn(o)
+	switch c := o.(type) {
+	case *fyne.Container:
+		for _, k := range c.Objects {
+			walkObjects(k, fn)
+		}
+	case fyne.Widget:
+		for _, k := range test.WidgetRenderer(c).Objects() {
+			walkObjects(k, fn)
+		}
+	}
+}
+
+// Help › About names the version and the three cautions; Help › Glossary
+// lists every term of internal/glossary.
+func TestHelp(t *testing.T) {
+	a := test.NewTempApp(t)
+	st := newState(a, Options{}, func(f func()) { f() })
+	st.win = a.NewWindow("help")
+	st.win.SetContent(st.build())
+	st.win.Resize(smallScreen)
+	about := aboutText()
+	for _, want := range []string{version.String(), "describe the model, not the world", "Validate", "rules of the place"} {
+		if !strings.Contains(about, want) {
+			t.Errorf("About lacks %q", want)
+		}
+	}
+	st.showGlossary()
+	top := st.win.Canvas().Overlays().Top()
+	if top == nil {
+		t.Fatal("Help › Glossary showed nothing")
+	}
+	var entries []string
+	walkObjects(top, func(o fyne.CanvasObject) {
+		if r, ok := o.(*widget.RichText); ok {
+			entries = append(entries, r.String())
+		}
+	})
+	for _, term := range glossary.Terms {
+		want := term.Name + ": " + term.Meaning + " " + term.Formula
+		if !slices.Contains(entries, want) {
+			t.Errorf("the glossary dialog lacks %q", want)
+		}
+	}
+}

@@ -1,0 +1,67 @@
+package gui
+
+import (
+	"fmt"
+	"strings"
+)
+
+// intList writes indexes as "3, 9, 42".
+func intList(gs []int) string {
+	s := make([]string, len(gs))
+	for i, g := range gs {
+		s[i] = fmt.Sprint(g)
+	}
+	return strings.Join(s, ", ")
+}
+
+// shortList writes at most n indexes, then how many more.
+func shortList(gs []int, n int) string {
+	if len(gs) <= n {
+		return intList(gs)
+	}
+	return fmt.Sprintf("%s and %d more", intList(gs[:n]), len(gs)-n)
+}
+
+// plural writes a count with the singular or plural form: "1 text",
+// "2 texts".
+func plural(n int, one, many string) string {
+	if n == 1 {
+		return "1 " + one
+	}
+	return fmt.Sprintf("%d %s", n, many)
+}
+
+// texts is plural for texts, the most counted thing on screen.
+func texts(n int) string { return plural(n, "text", "texts") }
+
+func yesNo(b bool) string {
+	if b {
+		return "yes"
+	}
+	return "no"
+}
+
+// oneLine folds line breaks and runs of spaces for a one-line cell.
+func oneLine(s string) string {
+	return strings.Join(strings.Fields(s), " ")
+}
+
+// reflow joins the lines of terminal text that were broken only to fit a
+// terminal, so a word-wrapped label can lay them out: a line is joined to
+// the one before it unless it is indented or empty, or the one before ends a
+// sentence or a lead-in (., :) or is empty.
+func reflow(s string) string {
+	lines := strings.Split(s, "\n")
+	var out []string
+	for _, l := range lines {
+		if n := len(out); n > 0 && l != "" && !strings.HasPrefix(l, " ") {
+			prev := strings.TrimRight(out[n-1], " ")
+			if prev != "" && !strings.HasSuffix(prev, ".") && !strings.HasSuffix(prev, ":") {
+				out[n-1] = prev + " " + l
+				continue
+			}
+		}
+		out = append(out, l)
+	}
+	return strings.Join(out, "\n")
+}

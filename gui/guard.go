@@ -1,0 +1,78 @@
+package gui
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+)
+
+// inputs lists the files the window reads from: the data, the test file
+// and the model's file.
+func (st *State) inputs() []string {
+	var ps []string
+	if cs := itemGet(st.data); cs != nil {
+		ps = append(ps, cs.Path, cs.TestPath)
+	}
+	ps = append(ps, st.opts.DataPath, st.opts.TestPath, st.opts.ModelPath)
+	if ms := itemGet(st.model); ms != nil {
+		ps = append(ps, ms.Source)
+	}
+	return ps
+}
+
+// notAnInput refuses path when it is one of the window's inputs: the same
+// file by identity (os.SameFile after resolving symbolic links), so that
+// another name for it (a link, a hard link, "./", "..") is caught too. A
+// path that does not exist yet is no input.
+func (st *State) notAnInput(path string) error {
+	out, err := resolvedInfo(path)
+	if err != nil {
+		return nil // nothing there yet: it cannot be an input
+	}
+	for _, in := range st.inputs() {
+		if in == "" {
+			continue
+		}
+		inInfo, err := resolvedInfo(in)
+		if err != nil {
+			continue
+		}
+		if os.SameFile(out, inInfo) {
+			return fmt.Errorf("%s is %s, which this window reads from: saving there would overwrite it. Choose another file name", path, describeInput(st, in))
+		}
+	}
+	return nil
+}
+
+// resolvedInfo is the file info of path after following symbolic links.
+func resolvedInfo(path string) (os.FileInfo, error) {
+	real, err := filepath.EvalSymlinks(path)
+	if err != nil {
+		return nil, err
+	}
+	info, err := os.Stat(real)
+	if err != nil {
+		return nil, err
+	}
+	if info.IsDir() {
+		return nil, errors.New("a folder")
+	}
+	return info, nil
+}
+
+// describeInput names what input in is.
+func describeInput(st *State, in string) string {
+	if cs := itemGet(st.data); cs != nil {
+		switch in {
+		case cs.Path:
+			return "the open data file (" + in + ")"
+		case cs.TestPath:
+			return "the open test file (" + in + ")"
+		}
+	}
+	if ms := itemGet(st.model); ms != nil && in == ms.Source {
+		return "the open model's file (" + in + ")"
+	}
+	return "an input of this window (" + in + ")"
+}

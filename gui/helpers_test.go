@@ -1,0 +1,115 @@
+package gui
+
+import (
+	"fmt"
+	"os"
+	"path/filepath"
+	"sort"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/test"
+
+	"telltale/explain"
+)
+
+// queue stands in for the UI goroutine: background work posts functions
+// to it and the test goroutine runs them while it waits.
+type queue struct {
+	mu  sync.Mutex
+	fns []func()
+}
+
+func (q *queue) post(fn func()) {
+	q.mu.Lock()
+	q.fns = append(q.fns, fn)
+	q.mu.Unlock()
+}
+
+func (q *queue) drain() {
+	for {
+		q.mu.Lock()
+		fns := q.fns
+		q.fns = nil
+		q.mu.Unlock()
+		if len(fns) == 0 {
+			return
+		}
+		for _, f := range fns {
+			f()
+		}
+	}
+}
+
+// waitFor runs posted UI work until cond holds, failing after a deadline.
+func (q *queue) waitFor(t *testing.T, what string, cond func() bool) {
+	t.Helper()
+	deadline := time.Now().Add(3 * time.Minute)
+	for {
+		q.drain()
+		if cond() {
+			return
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("gave up waiting for %s", what)
+		}
+		time.Sleep(5 * time.Millisecond)
+	}
+}
+
+func demoBytes(t *testing.T) (train, testSplit []byte) {
+	t.Helper()
+	train, err := os.ReadFile(filepath.Join("..", "testdata", "demo", "train.csv"))
+	if err != nil {
+		t.Fatalf("demo corpus missing (run go generate at the repository root): %v", err)
+	}
+	testSplit, err = os.ReadFile(filepath.Join("..", "testdata", "demo", "test.csv"))
+	if err != nil {
+		t.Fatalf("demo corpus missing: %v", err)
+	}
+	return train, testSplit
+}
+
+// smallRecipe puts a recipe in the form that trains in seconds: widths
+// 3, 4, 5 with 10 maps each, 16 dimensions, three epochs.
+func smallRecipe(st *State) {
+	_ = st.recipe.widths.Set("3,4,5")
+	_ = st.recipe.maps.Set("10")
+	_ = st.recipe.dim.Set("16")
+	_ = st.recipe.epochs.Set("3")
+}
+
+// trainedWindow opens the demo corpus in a window of the given size,
+// trains the small recipe and waits for the filter profiles.
+func trainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
+	t.Helper()
+	a := test.NewTempApp(t)
+	tr, te := demoBytes(t)
+	q := &queue{}
+	w, st := newWindow(a, Options{DemoTrain: tr, DemoTest: te}, q.post)
+	w.Resize(size)
+	t.Cleanup(st.cancelAll)
+	q.waitFor(t, "the demo corpus", func() bool { return itemGet(st.data) != nil })
+	smallRecipe(st)
+	st.trainNow()
+	q.waitFor(t, "the trained model and its profiles", func() bool { return itemGet(st.profiles) != nil })
+	return w, st, q
+}
+
+// rankedWords is the ranking of e's probabilities written as the strip
+// under the verdict writes it, computed here from the explanation.
+func rankedWords(e *explain.Explanation) string {
+	idx := make([]int, len(e.Labels))
+	for i := range idx {
+		idx[i] = i
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return e.Probabilities[idx[a]] > e.Probabilities[idx[b]] })
+	var parts []string
+	for _, i := range idx {
+		parts = append(parts, fmt.Sprintf("%s %.3f", e.Labels[i], e.Probabilities[i]))
+	}
+	return strings.Join(parts, "  ·  ")
+}

@@ -1,0 +1,173 @@
+package gui
+
+import (
+	"errors"
+	"fmt"
+	"strconv"
+	"strings"
+
+	"fyne.io/fyne/v2/data/binding"
+
+	"telltale/cnn"
+)
+
+// recipeForm holds the training form's values as the user typed them. It
+// starts from cnn.DefaultRecipe and offers what `telltale train` offers.
+type recipeForm struct {
+	widths, maps, dim, epochs, patience, dropout, maxNorm   binding.String
+	optimizer, lr, batch, minCount, seed, devFrac, testFrac binding.String
+}
+
+// formatFloat writes a recipe number as the user would type it.
+func formatFloat(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+
+func newRecipeForm() *recipeForm {
+	r := &recipeForm{}
+	for _, p := range r.fields() {
+		*p = binding.NewString()
+	}
+	r.reset()
+	return r
+}
+
+// fields lists the form's values.
+func (r *recipeForm) fields() []*binding.String {
+	return []*binding.String{&r.widths, &r.maps, &r.dim, &r.epochs, &r.patience, &r.dropout, &r.maxNorm,
+		&r.optimizer, &r.lr, &r.batch, &r.minCount, &r.seed, &r.devFrac, &r.testFrac}
+}
+
+// reset puts cnn.DefaultRecipe and the default split shares in the form.
+func (r *recipeForm) reset() {
+	d := cnn.DefaultRecipe()
+	var ws []string
+	for _, w := range d.Model.Widths {
+		ws = append(ws, strconv.Itoa(w))
+	}
+	lr := ""
+	if d.Train.LR > 0 {
+		lr = formatFloat(d.Train.LR)
+	}
+	for b, v := range map[binding.String]string{
+		r.widths: strings.Join(ws, ","), r.maps: strconv.Itoa(d.Model.Filters), r.dim: strconv.Itoa(d.Model.Dim),
+		r.epochs: strconv.Itoa(d.Train.Epochs), r.patience: strconv.Itoa(d.Train.Patience),
+		r.dropout: formatFloat(float64(d.Model.Dropout)), r.maxNorm: formatFloat(float64(d.Model.MaxNorm)),
+		r.optimizer: d.Train.Optimizer, r.lr: lr, r.batch: strconv.Itoa(d.Train.Batch),
+		r.minCount: strconv.Itoa(d.Tokenizer.MinCount), r.seed: strconv.FormatUint(d.Train.Seed, 10),
+		r.devFrac: formatFloat(cnn.DefaultDevFrac), r.testFrac: formatFloat(cnn.DefaultTestFrac),
+	} {
+		_ = b.Set(v)
+	}
+}
+
+// fieldErrors collects the form's problems, each naming its field and the fix.
+type fieldErrors []error
+
+func (fe *fieldErrors) whole(b binding.String, name, hint string) int {
+	s := strings.TrimSpace(stringGet(b))
+	v, err := strconv.Atoi(s)
+	if err != nil {
+		*fe = append(*fe, fmt.Errorf("%s %q is not a whole number: %s", name, s, hint))
+	}
+	return v
+}
+
+func (fe *fieldErrors) real(b binding.String, name, hint string) float64 {
+	s := strings.TrimSpace(stringGet(b))
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil {
+		*fe = append(*fe, fmt.Errorf("%s %q is not a number: %s", name, s, hint))
+	}
+	return v
+}
+
+// plan reads the split shares and the seed.
+func (r *recipeForm) plan() (splitPlan, error) {
+	var fe fieldErrors
+	p := r.readPlan(&fe)
+	return p, errors.Join(fe...)
+}
+
+func (r *recipeForm) readPlan(fe *fieldErrors) splitPlan {
+	seed := fe.whole(r.seed, "seed", "any whole number of 0 or more, e.g. 1")
+	if seed < 0 {
+		*fe = append(*fe, fmt.Errorf("seed %d: use a whole number of 0 or more", seed))
+		seed = 0
+	}
+	return splitPlan{
+		DevFrac:  fe.real(r.devFrac, "dev share", fmt.Sprintf("a fraction in (0, 0.5], e.g. %g", cnn.DefaultDevFrac)),
+		TestFrac: fe.real(r.testFrac, "test share", fmt.Sprintf("a fraction in (0, 0.5], e.g. %g", cnn.DefaultTestFrac)),
+		Seed:     uint64(seed),
+	}
+}
+
+// parse checks the form and returns the recipe and the split plan; a test
+// file, when open, makes the test share unused. The errors name each field
+// and its fix.
+func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
+	rec := cnn.DefaultRecipe()
+	var fe fieldErrors
+	rec.Model.Widths = nil
+	for _, f := range strings.Split(stringGet(r.widths), ",") {
+		w, err := strconv.Atoi(strings.TrimSpace(f))
+		if err != nil {
+			fe = append(fe, fmt.Errorf("filter widths %q: give whole numbers separated by commas, e.g. 3,4,5", stringGet(r.widths)))
+			break
+		}
+		rec.Model.Widths = append(rec.Model.Widths, w)
+	}
+	rec.Model.Filters = fe.whole(r.maps, "feature maps per width", "e.g. 100")
+	rec.Model.Dim = fe.whole(r.dim, "embedding dimension", "e.g. 128")
+	rec.Model.Dropout = float32(fe.real(r.dropout, "dropout", "a rate in [0, 1), e.g. 0.5"))
+	rec.Model.MaxNorm = float32(fe.real(r.maxNorm, "max-norm", "0 turns it off; Kim (2014) used 3"))
+	rec.Train.Epochs = fe.whole(r.epochs, "epochs", "e.g. 10")
+	rec.Train.Batch = fe.whole(r.batch, "batch size", "e.g. 50")
+	rec.Train.Optimizer = stringGet(r.optimizer)
+	if s := strings.TrimSpace(stringGet(r.lr)); s != "" {
+		rec.Train.LR = fe.real(r.lr, "learning rate", "a positive number, or empty for the optimizer's default")
+	}
+	// As on the command line: 0 (or less) never stops early.
+	if rec.Train.Patience = fe.whole(r.patience, "patience", "epochs without a better dev macro-F1 before stopping; 0 never stops"); rec.Train.Patience <= 0 {
+		rec.Train.Patience = -1
+	}
+	rec.Tokenizer.MinCount = fe.whole(r.minCount, "minimum word count", "e.g. 1 or 2")
+	plan := r.readPlan(&fe)
+	rec.Train.Seed = plan.Seed
+	if len(fe) == 0 {
+		fe.checkRecipe(rec, plan, withTestFile)
+	}
+	if len(fe) > 0 {
+		return rec, plan, fmt.Errorf("the training recipe needs fixing:\n%w", errors.Join(fe...))
+	}
+	return rec, plan, nil
+}
+
+// checkRecipe adds what the model's and trainer's own checks say.
+func (fe *fieldErrors) checkRecipe(rec cnn.Recipe, plan splitPlan, withTestFile bool) {
+	switch {
+	case rec.Train.Epochs < 1 || rec.Train.Batch < 1:
+		*fe = append(*fe, fmt.Errorf("epochs and batch size must be at least 1 (got %d and %d)", rec.Train.Epochs, rec.Train.Batch))
+	case rec.Train.LR < 0:
+		*fe = append(*fe, fmt.Errorf("learning rate %g: must be positive, or empty for the optimizer's default", rec.Train.LR))
+	case rec.Tokenizer.MinCount < 1:
+		*fe = append(*fe, fmt.Errorf("minimum word count %d: must be at least 1", rec.Tokenizer.MinCount))
+	}
+	// The model's own checks, with placeholder sizes that always pass.
+	c := rec.Model
+	c.VocabSize, c.Classes = 2, 2
+	if err := c.Validate(); err != nil {
+		*fe = append(*fe, err)
+	}
+	if _, err := rec.Train.WithDefaults(); err != nil {
+		*fe = append(*fe, err)
+	}
+	if err := plan.check(withTestFile); err != nil {
+		*fe = append(*fe, err)
+	}
+}
+
+// setPlan puts a split plan in the form (the plan an opened model records).
+func (r *recipeForm) setPlan(p splitPlan) {
+	_ = r.devFrac.Set(formatFloat(p.DevFrac))
+	_ = r.testFrac.Set(formatFloat(p.TestFrac))
+	_ = r.seed.Set(strconv.FormatUint(p.Seed, 10))
+}

@@ -1,0 +1,194 @@
+package gui
+
+import (
+	"fmt"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/widget"
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+
+	"telltale/cnn"
+)
+
+// resultsView shows the model on the test split: the headline figures, the
+// confusion matrix (click a cell to list its texts), the per-class table and
+// the reliability diagram. Further models (a baseline beside the CNN) are
+// meant to go beside the per-class table as more tabs of lower.
+type resultsView struct {
+	st *State
+
+	caption, headline, cellNote *widget.Label
+	confusion                   *confusionGrid
+	classes, cellTexts          *sheet
+	reliability                 *plotView
+	lower                       *container.AppTabs
+	cellRows                    []int // test index of each row of cellTexts
+	empty                       *widget.Label
+	full                        fyne.CanvasObject
+	body                        *fyne.Container
+}
+
+func newResultsView(st *State) *resultsView {
+	v := &resultsView{st: st}
+	v.caption = wrapped("")
+	v.empty = wrapped("No results yet: train a model (Training view) or open one (File › Open model); it is then evaluated on the test split.")
+	v.headline = wrapped("")
+	v.headline.TextStyle.Bold = true
+	v.classes = newSheet("label", "precision", "recall", "F1", "support")
+	v.cellTexts = newSheet("#", "gold", "predicted", "p(predicted)", "text").wide(4, capText)
+	v.cellNote = wrapped("Click a cell of the confusion matrix to list its texts.")
+	v.confusion = newConfusionGrid(v.showCell)
+	v.reliability = newPlotView(plotSize)
+	v.cellTexts.onSelect = v.explainRow
+	v.full = v.layout()
+	v.body = container.NewStack(v.empty)
+	listen(v.refresh, st.model)
+	st.app.Settings().AddListener(func(fyne.Settings) { v.refresh() })
+	return v
+}
+
+func (v *resultsView) layout() fyne.CanvasObject {
+	matrix := container.NewBorder(bold("Confusion matrix: rows are the gold label, columns the predicted one"), nil, nil, nil,
+		container.NewScroll(v.confusion.box))
+	v.lower = container.NewAppTabs(
+		container.NewTabItem("Per class", v.classes.view()),
+		container.NewTabItem("Reliability", v.reliability),
+	)
+	texts := container.NewBorder(v.cellNote, v.cellTexts.detail, nil, nil, v.cellTexts.view())
+	bottom := container.NewHSplit(v.lower, texts)
+	bottom.Offset = 0.4
+	split := container.NewVSplit(matrix, bottom)
+	split.Offset = 0.58
+	return container.NewBorder(container.NewVBox(v.caption, v.headline), nil, nil, nil, split)
+}
+
+func (v *resultsView) content() fyne.CanvasObject { return v.body }
+func (v *resultsView) exportTable() *sheet        { return v.classes }
+func (v *resultsView) focusInput()                {}
+
+func (v *resultsView) exportData() any {
+	if ms := itemGet(v.st.model); ms != nil && ms.Eval != nil {
+		return ms.Eval.Metrics
+	}
+	return nil
+}
+
+// explainRow sends the test text of a row of the cell's list to the
+// explanation view.
+func (v *resultsView) explainRow(row int) {
+	ms := itemGet(v.st.model)
+	if ms == nil || ms.Eval == nil || row >= len(v.cellRows) {
+		return
+	}
+	v.st.explainThis(ms.Eval.Texts[v.cellRows[row]], v.cellTexts)
+}
+
+// showCell lists the test texts of gold label gold predicted as pred.
+func (v *resultsView) showCell(gold, pred int) {
+	ms := itemGet(v.st.model)
+	if ms == nil || ms.Eval == nil {
+		return
+	}
+	ev := ms.Eval
+	var rows [][]string
+	v.cellRows = v.cellRows[:0]
+	for i := range ev.Gold {
+		if ev.Gold[i] == gold && ev.Pred[i] == pred {
+			v.cellRows = append(v.cellRows, i)
+			rows = append(rows, []string{fmt.Sprint(i), ev.Metrics.Labels[gold], ev.Metrics.Labels[pred],
+				fmt.Sprintf("%.3f", ev.Probs[i][pred]), ev.Texts[i]})
+		}
+	}
+	v.cellTexts.setRows(rows)
+	v.confusion.selectCell(gold, pred)
+	v.cellNote.SetText(fmt.Sprintf("%s of the test split with gold label %s predicted as %s (# is the text's index in the test split, from 0). Click one to explain it.",
+		capitalize(texts(len(rows))), ev.Metrics.Labels[gold], ev.Metrics.Labels[pred]))
+}
+
+func (v *resultsView) refresh() {
+	ms := itemGet(v.st.model)
+	if ms == nil || ms.Eval == nil {
+		v.body.Objects = []fyne.CanvasObject{v.empty}
+		v.body.Refresh()
+		return
+	}
+	v.caption.SetText(ms.caption())
+	m := ms.Eval.Metrics
+	v.headline.SetText(fmt.Sprintf("Test split, %s: accuracy %.3f, macro-F1 %.3f, weighted F1 %.3f, expected calibration error %.3f (%d bins).",
+		texts(m.N), m.Accuracy, m.MacroF1, m.WeightedF1, m.ECE, cnn.DefaultBins))
+	var rows [][]string
+	for _, c := range m.PerClass {
+		rows = append(rows, []string{c.Label, fmt.Sprintf("%.3f", c.Precision), fmt.Sprintf("%.3f", c.Recall),
+			fmt.Sprintf("%.3f", c.F1), fmt.Sprint(c.Support)})
+	}
+	v.classes.setRows(rows)
+	v.confusion.set(m)
+	v.reliability.set(reliabilityPlot(ms.Eval))
+	// Open on the most frequent confusion, so the list is not empty.
+	g, p := mostConfused(m)
+	v.showCell(g, p)
+	v.body.Objects = []fyne.CanvasObject{v.full}
+	v.body.Refresh()
+}
+
+// mostConfused is the off-diagonal cell with the most texts (the first
+// diagonal cell when there is none).
+func mostConfused(m cnn.Metrics) (gold, pred int) {
+	bn := 0
+	for g, row := range m.Confusion {
+		for p, n := range row {
+			if g != p && n > bn {
+				gold, pred, bn = g, p, n
+			}
+		}
+	}
+	return gold, pred
+}
+
+// reliabilityPlot draws accuracy against confidence per equal-width bin,
+// with the diagonal of perfect calibration.
+func reliabilityPlot(ev *evaluation) *plot.Plot {
+	p := newPlot("Reliability (test split)", "confidence of the predicted label", "accuracy")
+	bins := reliabilityBins(ev, cnn.DefaultBins)
+	diag, _ := plotter.NewLine(plotter.XYs{{X: 0, Y: 0}, {X: 1, Y: 1}})
+	if diag != nil {
+		diag.Color = seriesColors[2]
+		diag.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
+		p.Add(diag)
+		p.Legend.Add("perfect calibration", diag)
+	}
+	var pts plotter.XYs
+	for _, b := range bins {
+		if b.Count > 0 {
+			pts = append(pts, plotter.XY{X: b.Conf, Y: b.Acc})
+		}
+	}
+	if len(pts) > 0 {
+		if l, s, err := plotter.NewLinePoints(pts); err == nil {
+			l.Color = seriesColors[0]
+			s.Color = seriesColors[0]
+			s.Shape = draw.CircleGlyph{}
+			p.Add(l, s)
+			p.Legend.Add("model", l, s)
+		}
+	}
+	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = 0, 1, 0, 1
+	p.Legend.Top = false // bottom right: above the diagonal's far end
+	return p
+}
+
+// reliabilityBins are the test predictions in cnn's equal-width confidence
+// bins (confidence: the probability of the predicted class).
+func reliabilityBins(ev *evaluation, n int) []cnn.ReliabilityBin {
+	conf := make([]float64, len(ev.Pred))
+	correct := make([]bool, len(ev.Pred))
+	for i, pred := range ev.Pred {
+		conf[i] = float64(ev.Probs[i][pred])
+		correct[i] = pred == ev.Gold[i]
+	}
+	return cnn.Reliability(conf, correct, n)
+}

@@ -1,0 +1,145 @@
+#!/usr/bin/env bash
+# soak.sh — use the real telltale window for a few minutes under Xvfb as a
+# person would (train, retrain, search the filter list, scroll it, run the
+# audit, type texts to explain, click rows that open other views) and check
+# that it keeps answering: after every action a key that switches views must
+# change the window's title within LIMIT seconds, the window must still run
+# at the end, and it must have logged no toolkit error. Used by `make soak`
+# (and `make test`).
+#
+# Usage: scripts/soak.sh [BINARY]. SOAK_SECONDS (default 90) is how long
+# the actions go on after start-up; SOAK_LIMIT (default 15) the longest
+# answer allowed, in seconds; SOAK_SHOT, a PNG file to save the window to
+# when a check fails (needs imagemagick). Needs Debian's xvfb and xdotool.
+set -euo pipefail
+
+cd "$(dirname "$0")/.."
+script_name=soak
+tmp=$(mktemp -d)
+# shellcheck source=scripts/window-lib.sh
+. scripts/window-lib.sh
+trap 'stop_window; stop_screen; rm -rf "$tmp"' EXIT
+
+for tool in Xvfb xdotool; do
+	command -v "$tool" >/dev/null || { echo "soak: $tool is missing: apt-get install xvfb xdotool" >&2; exit 1; }
+done
+bin=${1:-${TELLTALE_BIN:-bin/telltale}}
+[ -x "$bin" ] || { echo "soak: no window binary at $bin: run make build" >&2; exit 1; }
+
+seconds=${SOAK_SECONDS:-90}
+limit=${SOAK_LIMIT:-15}
+size=1366x900
+export LANG=en_US.UTF-8
+export XDG_CONFIG_HOME=$tmp/config
+
+start_screen "$size"
+log=$tmp/window.log
+start=$(date +%s)
+start_window "$log" --demo-train
+fit_window "$size"
+echo "soak: window ready after $(($(date +%s) - start)) s; acting for ${seconds} s" >&2
+
+worst=0
+probes=0
+# expect TITLE: the window must show view TITLE within the limit.
+expect() {
+	local took
+	if ! took=$(wait_title "telltale — $1" "$limit"); then
+		echo "soak: the window did not show $1 within ${limit} s (step: $step); it shows $(xdotool getwindowname "$window_id")" >&2
+		if [ -n "${SOAK_SHOT:-}" ] && command -v import >/dev/null; then
+			import -window "$window_id" "$SOAK_SHOT" && echo "soak: the window as it was: $SOAK_SHOT" >&2
+		fi
+		tail -20 "$log" >&2
+		exit 1
+	fi
+	probes=$((probes + 1))
+	worst=$(awk -v a="$worst" -v b="$took" 'BEGIN {print (b > a) ? b : a}')
+	if awk -v t="$took" 'BEGIN {exit !(t > 2)}'; then
+		echo "soak: $1 took ${took} s (step: $step)" >&2
+	fi
+}
+
+# visit N: switch to view N (1-based) and check that the window answers.
+visit() {
+	press "ctrl+$1"
+	expect "${views[$(($1 - 1))]%%|*}"
+}
+
+# point X Y: move the pointer to the given share of the window's width and
+# height, and give the window time to see it (the toolkit takes a click
+# where it last saw the pointer).
+point() {
+	local w=${size%x*} h=${size#*x}
+	xdotool mousemove --window "$window_id" "$(awk -v s="$1" -v w="$w" 'BEGIN {printf "%d", s * w}')" \
+		"$(awk -v s="$2" -v h="$h" 'BEGIN {printf "%d", s * h}')"
+	sleep 0.3
+}
+
+# click X Y: a left click there.
+click() {
+	point "$1" "$2"
+	xdotool click 1
+}
+
+# open_row X Y TITLE: click the table row at X, Y, which opens view TITLE;
+# a click that lands on the gap between two rows selects nothing, so a
+# second click goes 20 pixels lower.
+open_row() {
+	click "$1" "$2"
+	if ! wait_title "telltale — $3" 3 >/dev/null; then
+		point "$1" "$(awk -v y="$2" -v h="${size#*x}" 'BEGIN {print y + 20 / h}')"
+		xdotool click 1
+	fi
+	expect "$3"
+}
+
+texts=("The deckhand was not friendly at all and my refund never came."
+	"Is the 15:55 from Carrowmere still running on Sundays in winter?"
+	"I left a blue rucksack on the upper deck, sent via KioskMail at the quayside terminal")
+round=0
+end=$(($(date +%s) + seconds))
+while [ "$(date +%s)" -lt "$end" ]; do
+	round=$((round + 1))
+	step="train"
+	visit 2
+	press ctrl+t # retrains from the second round on; ignored while a run goes on
+	step="search the filter list"
+	visit 4
+	press ctrl+f
+	type_text "book"
+	visit 1
+	visit 4
+	press ctrl+f ctrl+a BackSpace
+	step="scroll the filter list and select filters"
+	point 0.25 0.5
+	xdotool click --repeat 30 --delay 10 5
+	xdotool click --repeat 30 --delay 10 4
+	for y in 0.30 0.40 0.50 0.60; do click 0.25 "$y"; done
+	step="run the audit"
+	visit 3
+	press ctrl+u
+	step="type a text to explain"
+	visit 5
+	press ctrl+f ctrl+a BackSpace
+	type_text "${texts[$((round % ${#texts[@]}))]}"
+	visit 3
+	step="click a text of a confusion cell"
+	open_row 0.70 0.75 "Why this label" # a row of the cell's texts
+	visit 6
+	visit 5
+	step="click a filter that fired"
+	open_row 0.68 0.80 "Filters" # a row of the filters that fired
+	visit 2
+done
+
+if ! kill -0 "$window_pid" 2>/dev/null; then
+	echo "soak: the window quit during the run; its output:" >&2
+	cat "$log" >&2
+	exit 1
+fi
+if grep -q "Fyne error" "$log"; then
+	echo "soak: the toolkit reported errors:" >&2
+	grep -A2 "Fyne error" "$log" >&2
+	exit 1
+fi
+echo "soak: $round rounds, $probes view switches in $(($(date +%s) - start)) s; slowest answer ${worst} s (limit ${limit} s)" >&2
