@@ -69,6 +69,10 @@ fuzz:
 	  $(GO) test -tags ci -run '^$$' -fuzz "^$$fn\$$" -fuzztime $(FUZZTIME) "$$pkg" >$$log 2>&1 || { cat $$log; exit 1; }; \
 	done
 
+# The command line end to end, then training and inference through the Go
+# API, against the PyTorch reference (bench/RESULTS.md). BENCH_QUICK=1 is a
+# smoke run of a few minutes; BENCH_PART=cli or api runs one part; REPS sets
+# the repetitions (default 3).
 bench: corpora build
 	@bench/run.sh $(BIN)
 

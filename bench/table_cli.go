@@ -66,7 +66,11 @@ func writeCLITable(w io.Writer, rs []cliResult) {
 		switch cmd, _, _ := strings.Cut(c, " "); cmd {
 		case "predict":
 			o, r := cliMedian(ours, rate), cliMedian(ref, rate)
-			row(fmt.Sprintf("texts/s (%d texts; reference: eval forward alone, batches of 100)", texts), num(o, ""), num(r, ""), ratioText(o, r), cliGoals["predict"], len(ours), len(ref), lo, lr)
+			if len(ref) == 0 {
+				row(fmt.Sprintf("texts/s (%d texts)", texts), num(o, ""), "", "", "", len(ours), 0, lo, "")
+			} else {
+				row(fmt.Sprintf("texts/s (%d texts; reference: eval forward alone, batches of 100)", texts), num(o, ""), num(r, ""), ratioText(o, r), cliGoals["predict"], len(ours), len(ref), lo, lr)
+			}
 			row("peak RSS MiB", num(cliMedian(ours, rss), ""), "", "", cliGoals["predict-bytes"], len(ours), 0, lo, "")
 		case "train":
 			o, r := cliMedian(ours, secs), cliMedian(ref, secs)
