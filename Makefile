@@ -76,6 +76,10 @@ soak: build
 	@scripts/ensure-debian-packages.sh xvfb xdotool
 	@scripts/soak.sh $(BIN)
 
+# The command line end to end, then training and inference through the Go
+# API, against the PyTorch reference (bench/RESULTS.md). BENCH_QUICK=1 is a
+# smoke run of a few minutes; BENCH_PART=cli or api runs one part; REPS sets
+# the repetitions (default 3).
 bench: corpora build
 	@bench/run.sh $(BIN)
 

@@ -65,6 +65,50 @@ func writeTexts(dir string, p *prepared) error {
 	})
 }
 
+// writeLines writes dir/lines.txt, the corpus's texts one per line in the
+// order of ids.bin, as `telltale predict` reads standard input: each line
+// break of a text becomes a space (the tokenizer splits at both alike, so
+// the tokens are unchanged). A text that would be a blank line, which
+// predict skips, is an error, so that line i is always text i.
+func writeLines(dir string, p *prepared) error {
+	return writeAtomic(filepath.Join(dir, "lines.txt"), func(w io.Writer) error {
+		bw := bufio.NewWriterSize(w, 1<<20)
+		var sb strings.Builder
+		for i, ids := range p.ids {
+			line := ""
+			if p.texts != nil {
+				line = flatten(p.texts[i])
+			} else {
+				sb.Reset()
+				for j, id := range ids {
+					if j > 0 {
+						sb.WriteByte(' ')
+					}
+					sb.WriteString(p.words[id])
+				}
+				line = sb.String()
+			}
+			if strings.TrimSpace(line) == "" {
+				return fmt.Errorf("bench: text %d of %s is blank: predict would skip its line", i, p.meta.Corpus)
+			}
+			bw.WriteString(line)
+			bw.WriteByte('\n')
+		}
+		return bw.Flush()
+	})
+}
+
+// flatten puts a text on one line: carriage returns and line feeds become
+// spaces.
+func flatten(s string) string {
+	return strings.Map(func(r rune) rune {
+		if r == '\n' || r == '\r' {
+			return ' '
+		}
+		return r
+	}, s)
+}
+
 // idsMagic starts DIR/ids.bin ("TID1" little-endian).
 const idsMagic = 0x31444954
 
@@ -300,11 +344,18 @@ func loadSpam(root string) (train, held *corpus.Dataset, err error) {
 	return train, held, nil
 }
 
-// spamPrepared encodes the training split of the SpamAssassin corpus.
-func spamPrepared(root string, threads int) (*prepared, error) {
-	train, _, err := loadSpam(root)
+// spamPrepared encodes the training split of the SpamAssassin corpus, or
+// with whole every mail of it (corpus name "spam-all").
+func spamPrepared(root string, threads int, whole bool) (*prepared, error) {
+	train, held, err := loadSpam(root)
 	if err != nil {
 		return nil, err
+	}
+	name := "spam"
+	if whole {
+		all := *train
+		all.Examples = append(slices.Clip(train.Examples), held.Examples...)
+		train, name = &all, "spam-all"
 	}
 	tc := corpus.TokenizerConfig{Lower: true, MinCount: 1}
 	enc, err := corpus.TrainEncoder(tc, train.Texts())
@@ -321,7 +372,7 @@ func spamPrepared(root string, threads int) (*prepared, error) {
 	for _, t := range p.ids {
 		tokens += int64(len(t))
 	}
-	p.meta = meta{Corpus: "spam", Texts: len(p.ids), Tokens: tokens, VocabSize: len(p.words), Labels: train.Labels,
+	p.meta = meta{Corpus: name, Texts: len(p.ids), Tokens: tokens, VocabSize: len(p.words), Labels: train.Labels,
 		MaxLen: spamMaxLen, Tokenizer: enc.Tok.Config()}
 	return p, nil
 }

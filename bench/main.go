@@ -32,6 +32,10 @@ func main() {
 		err = cmdTools(os.Args[2:])
 	case "table":
 		err = cmdTable(os.Args[2:])
+	case "cli":
+		err = cmdCLI(os.Args[2:])
+	case "explain-input":
+		err = cmdExplainInput(os.Args[2:])
 	default:
 		usage()
 	}
@@ -42,7 +46,7 @@ func main() {
 }
 
 func usage() {
-	fmt.Fprintln(os.Stderr, "usage: bench prepare|train|tools|table … (see bench/doc.go)")
+	fmt.Fprintln(os.Stderr, "usage: bench prepare|train|tools|cli|explain-input|table … (see bench/doc.go)")
 	os.Exit(2)
 }
 
@@ -54,6 +58,8 @@ func cmdPrepare(args []string) error {
 	out := fs.String("out", "", "output folder")
 	seed := fs.Uint64("seed", 1, "synth: seed")
 	texts := fs.Bool("texts", false, "also write data.jsonl, the labeled texts, for `telltale train`")
+	lines := fs.Bool("lines", false, "also write lines.txt, the texts one per line, for `telltale predict`")
+	whole := fs.Bool("whole", false, "spam: every mail (corpus spam-all), not the 80% training split")
 	fs.Parse(args)
 	if *out == "" {
 		return fmt.Errorf("prepare: -out is required")
@@ -64,7 +70,7 @@ func cmdPrepare(args []string) error {
 	case "synth":
 		p = synthetic(*n, *seed)
 	case "spam":
-		p, err = spamPrepared(*root, 0)
+		p, err = spamPrepared(*root, 0, *whole)
 	default:
 		return fmt.Errorf("prepare: -corpus %q: use synth or spam", *kind)
 	}
@@ -75,7 +81,12 @@ func cmdPrepare(args []string) error {
 		return err
 	}
 	if *texts {
-		return writeTexts(*out, p)
+		if err := writeTexts(*out, p); err != nil {
+			return err
+		}
+	}
+	if *lines {
+		return writeLines(*out, p)
 	}
 	return nil
 }

@@ -10,11 +10,14 @@ import (
 )
 
 // cmdTable reads result files (JSON lines of train runs of both
-// implementations and of tools runs) and prints, per corpus, the medians of
-// each implementation and the ratios ours/reference.
+// implementations, of tools runs and of command-line runs) and prints, per
+// corpus, the medians of each implementation and the ratios, all of them
+// "higher is better": ours/reference for rates, reference/ours for seconds
+// and memory.
 func cmdTable(args []string) error {
 	var runs []result
 	var tools []toolResult
+	var clis []cliResult
 	for _, path := range args {
 		f, err := os.Open(path)
 		if err != nil {
@@ -26,6 +29,13 @@ func cmdTable(args []string) error {
 			line := sc.Bytes()
 			var probe struct{ Impl string }
 			if json.Unmarshal(line, &probe) != nil {
+				continue
+			}
+			if probe.Impl == "cli" || strings.HasPrefix(probe.Impl, "torch-") {
+				var c cliResult
+				if json.Unmarshal(line, &c) == nil {
+					clis = append(clis, c)
+				}
 				continue
 			}
 			if probe.Impl == "tools" {
@@ -49,8 +59,14 @@ func cmdTable(args []string) error {
 		}
 	}
 	w := os.Stdout
-	fmt.Fprintln(w, "| corpus | texts | measure | ours (median) | reference (median) | ours/reference | runs ours/ref | load avg |")
-	fmt.Fprintln(w, "|---|---|---|---|---|---|---|---|")
+	writeCLITable(w, clis)
+	if len(clis) > 0 && len(corpora) > 0 {
+		fmt.Fprintln(w)
+	}
+	if len(corpora) > 0 {
+		fmt.Fprintln(w, "| corpus | texts | measure (through the Go API, shared ids) | ours (median) | reference (median) | speed ratio (higher is better) | runs ours/ref | load avg |")
+		fmt.Fprintln(w, "|---|---|---|---|---|---|---|---|")
+	}
 	for _, c := range corpora {
 		var ours, ref, cli []result
 		for _, r := range runs {
@@ -88,17 +104,19 @@ func cmdTable(args []string) error {
 		} else if len(ref) > 0 {
 			texts = ref[0].Texts
 		}
-		row := func(name, unit string, f func(result) float64) {
+		// row prints one measure; lower marks one where less is better
+		// (seconds, memory), whose ratio is then reference/ours.
+		row := func(name, unit string, lower bool, f func(result) float64) {
 			o, r := med(ours, f), med(ref, f)
-			ratio := "–"
-			if o > 0 && r > 0 {
-				ratio = fmt.Sprintf("%.2f×", o/r)
+			ratio := ratioText(o, r)
+			if lower {
+				ratio = ratioText(r, o)
 			}
 			fmt.Fprintf(w, "| %s | %d | %s | %s | %s | %s | %d/%d | %s / %s |\n", c, texts, name,
 				num(o, unit), num(r, unit), ratio, len(ours), len(ref), loads(ours), loads(ref))
 		}
-		row("training examples/s (steady)", "", func(r result) float64 { return r.SteadyEPS })
-		row("end-to-end seconds to a trained model", "s", func(r result) float64 {
+		row("training examples/s (steady)", "", false, func(r result) float64 { return r.SteadyEPS })
+		row("end-to-end seconds to a trained model", "s", true, func(r result) float64 {
 			if len(r.EpochTexts) > 0 && r.EpochTexts[len(r.EpochTexts)-1] < r.Texts {
 				return 0 // a partial run times throughput only
 			}
@@ -107,12 +125,12 @@ func cmdTable(args []string) error {
 		if len(cli) > 0 {
 			o := med(cli, func(r result) float64 { return r.E2ESeconds })
 			rr := med(ref, func(r result) float64 { return r.E2ESeconds })
-			fmt.Fprintf(w, "| %s | %d | end-to-end seconds via `telltale train` (tokenizing, 10%% dev held out and evaluated) | %s | %s | %.2f× | %d/%d | %s |\n",
-				c, texts, num(o, "s"), num(rr, "s"), o/rr, len(cli), len(ref), loads(cli))
+			fmt.Fprintf(w, "| %s | %d | end-to-end seconds via `telltale train` (tokenizing, 10%% dev held out and evaluated) | %s | %s | %s | %d/%d | %s |\n",
+				c, texts, num(o, "s"), num(rr, "s"), ratioText(rr, o), len(cli), len(ref), loads(cli))
 		}
-		row("inference examples/s (batch 100)", "", func(r result) float64 { return r.InferEPS })
-		row("inference examples/s, first pass (ours: table built)", "", func(r result) float64 { return r.InferCold })
-		row("peak RSS MiB", "", func(r result) float64 { return r.PeakRSSMB })
+		row("inference examples/s (batch 100)", "", false, func(r result) float64 { return r.InferEPS })
+		row("inference examples/s, first pass (ours: table built)", "", false, func(r result) float64 { return r.InferCold })
+		row("peak RSS MiB (ratio: reference/ours)", "", true, func(r result) float64 { return r.PeakRSSMB })
 		if len(ours) > 0 {
 			fmt.Fprintf(w, "| %s | %d | our GFLOP/s dense-equivalent / executed | %.0f / %.0f | | | | |\n", c, texts,
 				med(ours, func(r result) float64 { return r.DenseGFLOPs }), med(ours, func(r result) float64 { return r.ExecGFLOPs }))
@@ -124,13 +142,13 @@ func cmdTable(args []string) error {
 		fmt.Fprintln(w, "|---|---|---|---|---|")
 		for _, t := range tools {
 			if t.ProfileTexts > 0 {
-				fmt.Fprintf(w, "| filter profiles, %s (%d texts) | seconds | %.1f | < 60 | %s |\n", t.ProfileCorpus, t.ProfileTexts, t.ProfileSeconds, t.Load)
+				fmt.Fprintf(w, "| filter profiles, %s (%d texts) | seconds | %.1f | < 20 per 1M texts | %s |\n", t.ProfileCorpus, t.ProfileTexts, t.ProfileSeconds, t.Load)
 			}
 			if t.ExplainTokens > 0 {
-				fmt.Fprintf(w, "| explain, %d tokens, exact + all single-token occlusions | ms (median of %d) | %.2f | < 5 | %s |\n", t.ExplainTokens, t.ExplainRuns, t.ExplainMs, t.Load)
+				fmt.Fprintf(w, "| explain, %d tokens, exact + all single-token occlusions | ms (median of %d) | %.2f | < 1 | %s |\n", t.ExplainTokens, t.ExplainRuns, t.ExplainMs, t.Load)
 			}
 			if t.AuditTexts > 0 {
-				fmt.Fprintf(w, "| SpamAssassin audit (%d texts; tokenizing %.1f s more) | seconds | %.1f | < 60 | %s |\n", t.AuditTexts, t.AuditPrepSecond, t.AuditSeconds, t.Load)
+				fmt.Fprintf(w, "| SpamAssassin audit (%d texts; tokenizing %.1f s more) | seconds | %.1f | 100k texts < 180 | %s |\n", t.AuditTexts, t.AuditPrepSecond, t.AuditSeconds, t.Load)
 			}
 		}
 	}
