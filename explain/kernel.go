@@ -8,11 +8,12 @@ package explain
 // kernelSet is one implementation of the kernels, for tests that compare
 // every implementation this build and CPU can run with the portable one.
 type kernelSet struct {
-	name     string
-	poolBank func(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, win []float32)
+	name        string
+	poolBank    func(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, win []float32)
+	poolBankNeg func(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, sc *bankScreen, cands []negCand) []negCand
 }
 
-var portableKernels = kernelSet{name: "go", poolBank: poolBankGo}
+var portableKernels = kernelSet{name: "go", poolBank: poolBankGo, poolBankNeg: poolBankNegGo}
 
 // addTo adds x to dst elementwise. Len(dst) must be at least len(x).
 func addTo(dst, x []float32) {
@@ -89,4 +90,112 @@ func windowSum(acc, bias []float32, rows [][]float32, F int) {
 			addTo(acc, row[s*F:(s+1)*F])
 		}
 	}
+}
+
+// corners is the number of corners of a negative-window screen: the first
+// two hold the band of thresholds the search covers (see bankScreen), the
+// others the skyline's staircase.
+const corners = 6
+
+// bankScreen holds, for one bank of filters, the corners of the screen that
+// passes a window on to the negative n-gram search: window (a, P) of filter
+// f is rejected when, for some corner i, P < pc[i][f] and a ≥ ac[i][f].
+// Corner 0 is (lo, −Inf): it rejects P < lo. Corner 1 is (+Inf, hi): it
+// rejects a ≥ hi. So a window passes only if lo ≤ P and a < hi, which
+// every window that is negative for a threshold in [lo, hi] satisfies. The
+// other corners reject windows that enough kept ones beat on both counts
+// (see skyline). Corners that reject nothing are (−Inf, +Inf).
+//
+// A window must also hold down by at least dmin[f] (P − a ≥ dmin[f], in
+// float32): k windows negative for every threshold of the band already hold
+// down at least that far.
+type bankScreen struct {
+	pc, ac [corners][]float32 // [corner][filter]
+	dmin   []float32          // [filter]
+}
+
+// newBankScreen returns a screen that rejects every window.
+func newBankScreen(F int) bankScreen {
+	var sc bankScreen
+	for i := range corners {
+		sc.pc[i] = make([]float32, F)
+		sc.ac[i] = make([]float32, F)
+	}
+	sc.dmin = make([]float32, F)
+	for f := 0; f < F; f++ {
+		sc.band(f, posInf, negInf)
+	}
+	return sc
+}
+
+// band sets filter f's screen to pass the windows with lo ≤ P and a < hi
+// (lo = +Inf passes none) and clears its staircase and floor.
+func (sc *bankScreen) band(f int, lo, hi float32) {
+	sc.dmin[f] = negInf
+	sc.pc[0][f], sc.ac[0][f] = lo, negInf
+	sc.pc[1][f], sc.ac[1][f] = posInf, hi
+	for i := 2; i < corners; i++ {
+		sc.pc[i][f], sc.ac[i][f] = negInf, posInf
+	}
+}
+
+// negCand is a window that passed the screen: filter f (local to its
+// bank), window start t, pre-activation a and positive part p.
+type negCand struct {
+	f, t int32
+	a, p float32
+}
+
+// passes is the screen for one window of filter f.
+func (sc *bankScreen) passes(f int, a, p float32) bool {
+	if !(p > 0 && p > a && p-a >= sc.dmin[f]) {
+		return false
+	}
+	for i := range corners {
+		if p < sc.pc[i][f] && a >= sc.ac[i][f] {
+			return false
+		}
+	}
+	return true
+}
+
+// poolBankNegGo is poolBankGo (without kept windows) that also forms each
+// window's positive part
+//
+//	p[t][f] = bias[f] + max(rows[t][f], 0) + … + max(rows[t+w−1][(w−1)·F+f], 0)
+//
+// summed left to right, and appends to cands every window that passes the
+// screen sc (see bankScreen.passes), in an order that depends on the
+// implementation. It returns cands.
+func poolBankNegGo(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, sc *bankScreen, cands []negCand) []negCand {
+	pre, start, bias = pre[:F], start[:F], bias[:F]
+	for f := range pre {
+		pre[f], start[f] = negInf, 0
+	}
+	nw := len(rows) - w + 1
+	var buf [256]float32
+	var acc, pos []float32
+	if 2*F <= len(buf) {
+		acc, pos = buf[:F], buf[F:2*F]
+	} else {
+		acc, pos = make([]float32, F), make([]float32, F)
+	}
+	for t := 0; t < nw; t++ {
+		windowSum(acc, bias, rows[t:t+w], F)
+		copy(pos, bias)
+		for s, row := range rows[t : t+w] {
+			for f, v := range row[s*F : (s+1)*F] {
+				pos[f] += max(v, 0)
+			}
+		}
+		for f, a := range acc {
+			if a > pre[f] {
+				pre[f], start[f] = a, int32(t)
+			}
+			if sc.passes(f, a, pos[f]) {
+				cands = append(cands, negCand{f: int32(f), t: int32(t), a: a, p: pos[f]})
+			}
+		}
+	}
+	return cands
 }

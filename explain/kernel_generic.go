@@ -11,6 +11,12 @@ func poolBank(pre []float32, start []int32, bias []float32, rows [][]float32, w,
 	poolBankGo(pre, start, bias, rows, w, F, win)
 }
 
+// poolBankNeg is poolBank with the negative-window screen (see
+// poolBankNegGo).
+func poolBankNeg(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, sc *bankScreen, cands []negCand) []negCand {
+	return poolBankNegGo(pre, start, bias, rows, w, F, sc, cands)
+}
+
 // kernelLevel names the implementation the dispatch functions use.
 const kernelLevel = "go"
 
