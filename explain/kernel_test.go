@@ -3,8 +3,8 @@ package explain
 import (
 	"cmp"
 	"math"
-	"slices"
 	"math/rand/v2"
+	"slices"
 	"testing"
 
 	"telltale/internal/kerneltest"
