@@ -1,6 +1,7 @@
 package explain
 
 import (
+	"math"
 	"sort"
 	"unsafe"
 
@@ -33,6 +34,7 @@ type filterAccs struct {
 	filtersF int      // filters per bank
 	key      []byte
 
+	recent     int          // texts counted in the small histogram counters
 	runner     *Runner      // the worker's runner, whose screens feed negatives
 	screens    []bankScreen // per bank
 	firstTexts textBuffer
@@ -68,11 +70,16 @@ func (b *textBuffer) each(fn func(ids []int32, text int)) {
 
 // filterAcc accumulates one filter over the texts a worker sees.
 type filterAcc struct {
-	width    int
-	pool     ngramHeap
-	index    map[string]*ngramEntry
-	top      topActs
-	hist     []int32 // fineBins × 4: [bin][half][in-class]
+	width int
+	pool  ngramHeap
+	index map[string]*ngramEntry
+	top   topActs
+	// hist counts fired windows by fine bin, [bin][half][in-class]: the
+	// recent ones in small counters (touched at random for every text and
+	// filter, so kept small for the cache), moved to total before they
+	// can overflow (see filterAccs.count).
+	hist     []uint16
+	total    []int32
 	scale    float32 // fineBins / ub
 	notFired int
 	fired    int
@@ -95,7 +102,8 @@ func newFilterAccs(cfg cnn.Config, opt *ProfileOptions, ub []float32) *filterAcc
 		a.filters[g] = filterAcc{
 			width:  cfg.Widths[g/cfg.Filters],
 			index:  make(map[string]*ngramEntry),
-			hist:   make([]int32, 4*fineBins),
+			hist:   make([]uint16, 4*fineBins),
+			total:  make([]int32, 4*fineBins),
 			scale:  fineBins / ub[g],
 			sky:    newSkyline(opt.Negatives, opt.Examples),
 			fam:    &famSample{bar: bars[g*famStrata : (g+1)*famStrata]},
@@ -104,6 +112,27 @@ func newFilterAccs(cfg cnn.Config, opt *ProfileOptions, ub []float32) *filterAcc
 		}
 	}
 	return a
+}
+
+// count notes one more text in the small histogram counters, and moves
+// them to the totals before a counter could overflow (a text adds at most
+// one to each filter's histogram).
+func (a *filterAccs) count() {
+	if a.recent++; a.recent == math.MaxUint16 {
+		a.flush()
+	}
+}
+
+// flush moves the small histogram counters to the totals.
+func (a *filterAccs) flush() {
+	for g := range a.filters {
+		fa := &a.filters[g]
+		for i, v := range fa.hist {
+			fa.total[i] += int32(v)
+		}
+		clear(fa.hist)
+	}
+	a.recent = 0
 }
 
 // attach makes r the worker's runner. Its screens stay off until the band
@@ -140,13 +169,14 @@ func (a *filterAccs) searchNegatives(st *SlotTable, p *Pass, text int, votes []i
 // [est/2, 2·est + 4 bins]; a filter without an estimate gets no band.
 func (a *filterAccs) setBands(st *SlotTable, votes []int, opt *ProfileOptions) {
 	F := a.filtersF
+	a.flush()
 	a.lo, a.hi = make([]float32, len(a.filters)), make([]float32, len(a.filters))
 	for g := range a.filters {
 		fa := &a.filters[g]
 		lo, hi := posInf, negInf
 		if a.texts[0] > 0 {
 			base := float64(a.assigned[0][votes[g]]) / float64(a.texts[0])
-			if est, ok := histThreshold(fa.hist, 0, fa.scale, base+opt.Selective*(1-base)); ok {
+			if est, ok := histThreshold(fa.total, 0, fa.scale, base+opt.Selective*(1-base)); ok {
 				lo, hi = est/2, 2*est+4/fa.scale
 			}
 		}

@@ -30,7 +30,7 @@ func finishProfile(st *SlotTable, g, class int, accs []*filterAccs, counts []int
 		pr.Fired += fa.fired
 		pr.Hist.NotFired += fa.notFired
 		pr.MaxActivation = max(pr.MaxActivation, float64(fa.maxAct))
-		for i, v := range fa.hist {
+		for i, v := range fa.total {
 			hist[i] += int(v)
 		}
 		top = append(top, fa.top.e...)
@@ -143,7 +143,7 @@ func mergedSelectivity(g, class int, accs []*filterAccs, opt *ProfileOptions) Se
 	for _, a := range accs {
 		fa := &a.filters[g]
 		scale = fa.scale
-		for i, v := range fa.hist {
+		for i, v := range fa.total {
 			hist[i] += int(v)
 		}
 		top = append(top, fa.top.e...)

@@ -347,6 +347,7 @@ func profile(ctx context.Context, m *cnn.Model, next TextSource, total int, reop
 			haveGold.Store(true)
 		}
 		hf := half(text)
+		a.count()
 		a.texts[hf]++
 		a.assigned[hf][p.Pred]++
 		for g := 0; g < nf; g++ {
@@ -356,6 +357,9 @@ func profile(ctx context.Context, m *cnn.Model, next TextSource, total int, reop
 	})
 	if err != nil {
 		return nil, err
+	}
+	for _, a := range accs {
+		a.flush()
 	}
 	sels := make([]Selectivity, nf)
 	parallelRows(nf, workers, 1, func(lo, hi int) {
