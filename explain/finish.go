@@ -40,7 +40,7 @@ func finishProfile(st *SlotTable, g, class int, accs []*filterAccs, counts []int
 	}
 	slices.SortFunc(top, func(a, b actEntry) int { return cmp.Compare(b.a, a.a) })
 	if len(top) > opt.ExactTop {
-		top = top[:opt.ExactTop]
+		top, dropped = top[:opt.ExactTop], true
 	}
 	both := halfHist(hist, -1)
 	pr.Threshold, pr.ThresholdExact, pr.Above, pr.AbovePurity = purityThreshold(top, dropped, both, scale, opt.Purity)
@@ -150,7 +150,9 @@ func mergedSelectivity(g, class int, accs []*filterAccs, opt *ProfileOptions) Se
 		dropped = dropped || fa.top.dropped
 	}
 	slices.SortFunc(top, func(a, b actEntry) int { return cmp.Compare(b.a, a.a) })
-	top = top[:min(len(top), opt.ExactTop)]
+	if len(top) > opt.ExactTop {
+		top, dropped = top[:opt.ExactTop], true
+	}
 	return selectivity(top, dropped, hist, scale, class, accs, opt)
 }
 
@@ -177,12 +179,17 @@ func selectivity(top []actEntry, dropped bool, hist []int, scale float32, class 
 		}
 		// Above the floor of top every window is kept, so the choosing
 		// half's part of it is complete there too.
-		s.Threshold, s.ThresholdExact, _, _ = purityThreshold(choose, dropped, halfHist(hist, 0), scale, s.Target)
+		floor := negInf
+		if len(top) > 0 {
+			floor = top[len(top)-1].a
+		}
+		s.Threshold, s.ThresholdExact, _, _ = purityThresholdAbove(choose, dropped, floor, halfHist(hist, 0), scale, s.Target)
 	}
 	var windows, inClass int
 	if !math.IsInf(s.Threshold, 1) {
-		s.Above, _ = countAbove(top, dropped, halfHist(hist, -1), scale, s.Threshold, s.ThresholdExact, -1)
-		windows, inClass = countAbove(top, dropped, halfHist(hist, 1), scale, s.Threshold, s.ThresholdExact, 1)
+		fromTop := !dropped || s.Threshold > float64(top[len(top)-1].a)
+		s.Above, _ = countAbove(top, fromTop, halfHist(hist, -1), scale, s.Threshold, -1)
+		windows, inClass = countAbove(top, fromTop, halfHist(hist, 1), scale, s.Threshold, 1)
 	}
 	s.heldOutTest(windows, inClass, texts[1], assigned[1], opt.Alpha)
 	return s
@@ -190,10 +197,10 @@ func selectivity(top []actEntry, dropped bool, hist []int, scale float32, class 
 
 // countAbove counts the winning windows with activation ≥ thr (and of
 // those, the ones in class) in one half (hf 0 or 1) or both (−1): from the
-// exact list top when thr came from it, else from the fine histogram hist
-// of that half, thr being a bin edge.
-func countAbove(top []actEntry, dropped bool, hist []int, scale float32, thr float64, exact bool, hf int) (n, in int) {
-	if exact {
+// list top when it holds them all (fromTop), else from the fine histogram
+// hist of that half, thr being a bin edge.
+func countAbove(top []actEntry, fromTop bool, hist []int, scale float32, thr float64, hf int) (n, in int) {
+	if fromTop {
 		for _, e := range top {
 			if float64(e.a) < thr {
 				break
@@ -237,10 +244,22 @@ func makeNgram(st *SlotTable, g int, e *ngramEntry, haveGold bool) Ngram {
 // holds the largest activations in descending order; when dropped is false
 // it holds every fired window and the answer is exact. Otherwise candidates
 // at or below the smallest kept value are the fine-histogram bin edges
-// (count ≥ edge is exact there, the edge itself is the approximation).
+// (count ≥ edge is exact there, the edge itself is the approximation), and
+// an answer from the kept values (or none) is exact only when no bin below
+// them could hold a threshold between its edges.
 func purityThreshold(top []actEntry, dropped bool, hist []int, scale float32, p float64) (thr float64, exact bool, above int, purity float64) {
-	if dropped && len(top) > 0 {
-		floor := top[len(top)-1].a
+	floor := negInf
+	if len(top) > 0 {
+		floor = top[len(top)-1].a
+	}
+	return purityThresholdAbove(top, dropped, floor, hist, scale, p)
+}
+
+// purityThresholdAbove is purityThreshold when top holds every window above
+// floor (and maybe some at it), which may be above its last value: top may
+// hold one half of the windows the floor was set on.
+func purityThresholdAbove(top []actEntry, dropped bool, floor float32, hist []int, scale float32, p float64) (thr float64, exact bool, above int, purity float64) {
+	if dropped {
 		cumAt, inAt := make([]int, fineBins), make([]int, fineBins)
 		var cum, in int
 		for j := fineBins - 1; j >= 0; j-- {
@@ -248,9 +267,19 @@ func purityThreshold(top []actEntry, dropped bool, hist []int, scale float32, p 
 			in += hist[2*j+1]
 			cumAt[j], inAt[j] = cum, in
 		}
+		// A threshold inside bin j is possible only if the bin's in-class
+		// windows all above it and the others all below could reach p.
+		possible := false
 		for j := 0; j < fineBins && float32(j)/scale <= floor; j++ {
 			if cumAt[j] > 0 && float64(inAt[j]) >= p*float64(cumAt[j]) {
 				return float64(float32(j) / scale), false, cumAt[j], float64(inAt[j]) / float64(cumAt[j])
+			}
+			inBin, above := hist[2*j+1], 0
+			if j+1 < fineBins {
+				above = cumAt[j+1]
+			}
+			if inBin > 0 && float64(inAt[j]) >= p*float64(above+inBin) {
+				possible = true
 			}
 		}
 		// Above the floor every window is kept: values equal to the floor
@@ -259,7 +288,8 @@ func purityThreshold(top []actEntry, dropped bool, hist []int, scale float32, p 
 		for k > 0 && top[k-1].a == floor {
 			k--
 		}
-		top = top[:k]
+		thr, _, above, purity = purityThresholdAbove(top[:k], false, floor, nil, scale, p)
+		return thr, !possible, above, purity
 	}
 	// Exact: the threshold is the activation at the end of the longest
 	// satisfying prefix of the descending list (tied values kept whole).
