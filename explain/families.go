@@ -33,15 +33,20 @@ type Family struct {
 	Weight float64 `json:"weight"`
 	// Share is Weight over the weight of all windows above the threshold,
 	// with a 95% percentile interval from resampling each stratum's sample
-	// (the family's n-grams held fixed).
+	// with replacement (the family's n-grams held fixed; a stratum sampled
+	// whole is not resampled, so the interval is the share itself when
+	// every window above the threshold was sampled).
 	Share     float64 `json:"share"`
 	ShareLow  float64 `json:"share_low"`
 	ShareHigh float64 `json:"share_high"`
 	// Stability is how often two of the family's n-grams fall in the same
-	// family again when the sample is resampled and clustered anew: the
-	// mean over its pairs of n-grams, each pair weighted by the product of
-	// their weights, of the share of resamples holding both that put them
-	// together. Nil for a family of one n-gram.
+	// family again when the windows are resampled with replacement and
+	// clustered anew: the mean over its pairs of n-grams, each pair
+	// weighted by the product of their weights, of the share of resamples
+	// holding both that put them together (a pairwise form of the
+	// bootstrap cluster stability of Hennig 2007, "Cluster-wise assessment
+	// of cluster stability", Computational Statistics & Data Analysis,
+	// which uses the Jaccard coefficient). Nil for a family of one n-gram.
 	Stability *float64 `json:"stability"`
 }
 
@@ -113,13 +118,24 @@ func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float
 		}
 	}
 	rng := rand.New(rand.NewPCG(seed, uint64(g)))
-	resample := func(dst []float64) {
+	// resample draws each stratum's sample again with replacement; with
+	// census set, a stratum sampled whole is kept as it is (its windows
+	// carry no sampling error).
+	resample := func(dst []float64, census bool) {
 		clear(dst)
 		for j, ks := range strata {
 			if len(ks) == 0 {
 				continue
 			}
 			w := float64(fs.n[j]) / float64(m[j])
+			if census && m[j] == fs.n[j] {
+				for _, k := range ks {
+					if k >= 0 {
+						dst[k] += w
+					}
+				}
+				continue
+			}
 			for range ks {
 				if k := ks[rng.IntN(len(ks))]; k >= 0 {
 					dst[k] += w
@@ -128,8 +144,8 @@ func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float
 		}
 	}
 	fams := describeFamilies(items, labels)
-	familyShares(fams, labels, weights, resample)
-	familyStability(fams, labels, vecs, weights, cut, resample, &scratch)
+	familyShares(fams, labels, weights, func(dst []float64) { resample(dst, true) })
+	familyStability(fams, labels, vecs, weights, cut, func(dst []float64) { resample(dst, false) }, &scratch)
 	slices.SortStableFunc(fams, func(x, y Family) int { return cmp.Compare(y.Weight, x.Weight) })
 	return fams
 }
