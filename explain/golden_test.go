@@ -205,4 +205,14 @@ func TestGoldenExplainJSON(t *testing.T) {
 		t.Fatal(err)
 	}
 	golden(t, "paint.golden.txt", plain.Bytes())
+	var shares bytes.Buffer
+	for _, c := range []int{-1, 0, 1} {
+		if err := Paint(&shares, text, e, MethodExact, c, false); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := Paint(&shares, text, e, MethodIG, -1, false); err != nil {
+		t.Fatal(err)
+	}
+	golden(t, "paint-identified.golden.txt", shares.Bytes())
 }
