@@ -155,8 +155,12 @@ func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOption
 			return nil, err
 		}
 	}
-	r := st.NewRunner()
-	r.keep = true
+	r, _ := st.explainers.Get().(*Runner)
+	if r == nil {
+		r = st.NewRunner()
+		r.keep = true
+	}
+	defer st.explainers.Put(r)
 	r.load(ids)
 	r.pool()
 	e := newExplanation(m, tokens, ids, &r.p)

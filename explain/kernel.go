@@ -9,11 +9,31 @@ package explain
 // every implementation this build and CPU can run with the portable one.
 type kernelSet struct {
 	name        string
+	maxInto     func(dst, x []float32)
+	subMaxInto  func(dst, a, b []float32)
 	poolBank    func(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, win []float32)
 	poolBankNeg func(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, sc *bankScreen, cands []negCand) []negCand
 }
 
-var portableKernels = kernelSet{name: "go", poolBank: poolBankGo, poolBankNeg: poolBankNegGo}
+var portableKernels = kernelSet{name: "go", maxInto: maxIntoGo, subMaxInto: subMaxIntoGo, poolBank: poolBankGo, poolBankNeg: poolBankNegGo}
+
+// maxIntoGo sets dst[f] = max(dst[f], x[f]). Len(x) must be at least
+// len(dst).
+func maxIntoGo(dst, x []float32) {
+	x = x[:len(dst)]
+	for f, v := range x {
+		dst[f] = max(dst[f], v)
+	}
+}
+
+// subMaxIntoGo sets dst[f] = max(dst[f], a[f] − b[f]). Len(a) and len(b)
+// must be at least len(dst).
+func subMaxIntoGo(dst, a, b []float32) {
+	a, b = a[:len(dst)], b[:len(dst)]
+	for f := range dst {
+		dst[f] = max(dst[f], a[f]-b[f])
+	}
+}
 
 // addTo adds x to dst elementwise. Len(dst) must be at least len(x).
 func addTo(dst, x []float32) {

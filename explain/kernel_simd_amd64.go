@@ -39,9 +39,9 @@ var simdLevel = f32.Level()
 // kernelLevel names the implementation the dispatch functions use.
 var kernelLevel = [...]string{"go", "avx2", "avx512"}[simdLevel]
 
-var avx2Kernels = kernelSet{name: "avx2", poolBank: poolBank256, poolBankNeg: poolBankNeg256}
+var avx2Kernels = kernelSet{name: "avx2", maxInto: maxInto256, subMaxInto: subMaxInto256, poolBank: poolBank256, poolBankNeg: poolBankNeg256}
 
-var avx512Kernels = kernelSet{name: "avx512", poolBank: poolBank512, poolBankNeg: poolBankNeg512}
+var avx512Kernels = kernelSet{name: "avx512", maxInto: maxInto512, subMaxInto: subMaxInto512, poolBank: poolBank512, poolBankNeg: poolBankNeg512}
 
 // kernelSets lists every implementation this build and CPU can run; the
 // first is the portable one.
@@ -78,6 +78,76 @@ func poolBankNeg(pre []float32, start []int32, bias []float32, rows [][]float32,
 		return poolBankNeg256(pre, start, bias, rows, w, F, sc, cands)
 	}
 	return poolBankNegGo(pre, start, bias, rows, w, F, sc, cands)
+}
+
+// maxInto sets dst[f] = max(dst[f], x[f]) (see maxIntoGo).
+func maxInto(dst, x []float32) {
+	switch simdLevel {
+	case levelAVX512:
+		maxInto512(dst, x)
+	case levelAVX2:
+		maxInto256(dst, x)
+	default:
+		maxIntoGo(dst, x)
+	}
+}
+
+// subMaxInto sets dst[f] = max(dst[f], a[f] − b[f]) (see subMaxIntoGo).
+func subMaxInto(dst, a, b []float32) {
+	switch simdLevel {
+	case levelAVX512:
+		subMaxInto512(dst, a, b)
+	case levelAVX2:
+		subMaxInto256(dst, a, b)
+	default:
+		subMaxIntoGo(dst, a, b)
+	}
+}
+
+func maxInto512(dst, x []float32) {
+	n := len(dst)
+	x = x[:n]
+	i := 0
+	for ; i+16 <= n; i += 16 {
+		archsimd.LoadFloat32x16Slice(dst[i:]).Max(archsimd.LoadFloat32x16Slice(x[i:])).StoreSlice(dst[i:])
+	}
+	archsimd.ClearAVXUpperBits()
+	maxIntoGo(dst[i:], x[i:])
+}
+
+func subMaxInto512(dst, a, b []float32) {
+	n := len(dst)
+	a, b = a[:n], b[:n]
+	i := 0
+	for ; i+16 <= n; i += 16 {
+		d := archsimd.LoadFloat32x16Slice(a[i:]).Sub(archsimd.LoadFloat32x16Slice(b[i:]))
+		archsimd.LoadFloat32x16Slice(dst[i:]).Max(d).StoreSlice(dst[i:])
+	}
+	archsimd.ClearAVXUpperBits()
+	subMaxIntoGo(dst[i:], a[i:], b[i:])
+}
+
+func maxInto256(dst, x []float32) {
+	n := len(dst)
+	x = x[:n]
+	i := 0
+	for ; i+8 <= n; i += 8 {
+		archsimd.LoadFloat32x8Slice(dst[i:]).Max(archsimd.LoadFloat32x8Slice(x[i:])).StoreSlice(dst[i:])
+	}
+	archsimd.ClearAVXUpperBits()
+	maxIntoGo(dst[i:], x[i:])
+}
+
+func subMaxInto256(dst, a, b []float32) {
+	n := len(dst)
+	a, b = a[:n], b[:n]
+	i := 0
+	for ; i+8 <= n; i += 8 {
+		d := archsimd.LoadFloat32x8Slice(a[i:]).Sub(archsimd.LoadFloat32x8Slice(b[i:]))
+		archsimd.LoadFloat32x8Slice(dst[i:]).Max(d).StoreSlice(dst[i:])
+	}
+	archsimd.ClearAVXUpperBits()
+	subMaxIntoGo(dst[i:], a[i:], b[i:])
 }
 
 // checkRows panics unless every row holds at least need floats, so that the

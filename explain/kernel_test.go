@@ -179,3 +179,28 @@ func TestKernelsNegAgree(t *testing.T) {
 		}
 	}
 }
+
+// The element-wise max kernels of the occluder agree with the portable ones
+// bit for bit (max and one subtraction round the same way everywhere).
+func TestKernelsMaxAgree(t *testing.T) {
+	rng := rand.New(rand.NewPCG(43, 43))
+	for _, ks := range kernelSets() {
+		for trial := 0; trial < 100; trial++ {
+			n := rng.IntN(70)
+			dst, a, b := randSlice(rng, n), randSlice(rng, n+rng.IntN(3)), randSlice(rng, n+rng.IntN(3))
+			d0, d1 := slices.Clone(dst), slices.Clone(dst)
+			portableKernels.maxInto(d0, a)
+			ks.maxInto(d1, a)
+			portableKernels.subMaxInto(d0, a, b)
+			ks.subMaxInto(d1, a, b)
+			for i := range d0 {
+				if math.Float32bits(d0[i]) != math.Float32bits(d1[i]) {
+					t.Fatalf("%s n=%d: [%d] = %g, portable %g", ks.name, n, i, d1[i], d0[i])
+				}
+				if want := max(dst[i], a[i], a[i]-b[i]); d0[i] != want {
+					t.Fatalf("portable n=%d: [%d] = %g, want %g", n, i, d0[i], want)
+				}
+			}
+		}
+	}
+}

@@ -26,23 +26,20 @@ func newOccluder(r *Runner, e *Explanation) *occluder {
 		pooled: make([]float32, st.m.Config.NumFilters()),
 		z:      make([]float64, len(e.Logits))}
 	o.logP = logSoftmax64(e.Logits, e.Class)
+	r.occPM, r.occSM = grow(r.occPM, len(st.banks)), grow(r.occSM, len(st.banks))
 	for b := range st.banks {
 		F := st.banks[b].filters
 		win := r.win[b]
 		nw := len(win) / F
-		pm := make([]float32, len(win))
-		sm := make([]float32, len(win))
-		copy(pm[:F], win[:F])
+		r.occPM[b], r.occSM[b] = grow(r.occPM[b], len(win)), grow(r.occSM[b], len(win))
+		pm, sm := r.occPM[b], r.occSM[b]
+		copy(pm, win)
 		for t := 1; t < nw; t++ {
-			for f := 0; f < F; f++ {
-				pm[t*F+f] = max(pm[(t-1)*F+f], win[t*F+f])
-			}
+			maxInto(pm[t*F:(t+1)*F], pm[(t-1)*F:t*F])
 		}
-		copy(sm[(nw-1)*F:], win[(nw-1)*F:])
+		copy(sm, win)
 		for t := nw - 2; t >= 0; t-- {
-			for f := 0; f < F; f++ {
-				sm[t*F+f] = max(sm[(t+1)*F+f], win[t*F+f])
-			}
+			maxInto(sm[t*F:(t+1)*F], sm[(t+1)*F:(t+2)*F])
 		}
 		o.pm = append(o.pm, pm)
 		o.sm = append(o.sm, sm)
@@ -53,8 +50,58 @@ func newOccluder(r *Runner, e *Explanation) *occluder {
 // span returns the drop in p(ŷ) and log p(ŷ) when tokens lo … hi (inclusive)
 // are replaced with PAD.
 func (o *occluder) span(lo, hi int) (drop, dropLog float64) {
-	o.apply(lo, hi, nil)
+	if lo == hi {
+		o.single(lo)
+	} else {
+		o.apply(lo, hi, nil)
+	}
 	return o.drops()
+}
+
+// single is apply for the one token i: a window holding it loses that
+// token's slot score (PAD scores zero), so its new pre-activation is the
+// kept one minus that score.
+func (o *occluder) single(i int) {
+	r := o.r
+	st := r.st
+	m := st.m
+	nf := m.Config.NumFilters()
+	copy(o.z, o.e.Logits)
+	copy(o.pooled, r.p.Pooled)
+	n := r.p.Len
+	for b := range st.banks {
+		tb := &st.banks[b]
+		F, w := tb.filters, tb.width
+		nw := n - w + 1
+		t0, t1 := max(0, i-w+1), min(i, nw-1)
+		nm := o.newMax[:F]
+		if t0 > 0 {
+			copy(nm, o.pm[b][(t0-1)*F:t0*F])
+		} else {
+			for f := range nm {
+				nm[f] = negInf
+			}
+		}
+		if t1+1 < nw {
+			maxInto(nm, o.sm[b][(t1+1)*F:(t1+2)*F])
+		}
+		row := r.rows[b][i]
+		win := r.win[b]
+		for t := t0; t <= t1; t++ {
+			s := i - t
+			subMaxInto(nm, win[t*F:(t+1)*F], row[s*F:(s+1)*F])
+		}
+		for f, a := range nm {
+			g := b*F + f
+			h := max(a, 0)
+			if dh := float64(h) - float64(r.p.Pooled[g]); dh != 0 && !m.IsMasked(g) {
+				o.pooled[g] = h
+				for c := range o.z {
+					o.z[c] += float64(m.OutW[c*nf+g]) * dh
+				}
+			}
+		}
+	}
 }
 
 // drops compares the edited logits o.z with the text's.

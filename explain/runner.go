@@ -38,6 +38,9 @@ type Runner struct {
 	// bank's negative-window screen into cands (see poolBankNegGo).
 	screen []bankScreen
 	cands  [][]negCand // [bank]
+	// occPM and occSM are the occluder's prefix and suffix maxima, kept
+	// for the next explanation.
+	occPM, occSM [][]float32
 }
 
 // NewRunner returns a Runner over st.
