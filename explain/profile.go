@@ -17,7 +17,7 @@ import (
 type ProfileOptions struct {
 	TopK      int     // n-grams reported per filter (default 10)
 	Examples  int     // example text indices kept per n-gram (default 3)
-	Purity    float64 // share p of the purity threshold (default 0.5)
+	Purity    float64 // share p of the deprecated FilterProfile.Threshold (default 0.5)
 	Bins      int     // bins of the reported activation histogram (default 20)
 	ExactTop  int     // top activations per filter kept exactly for the threshold (default 4096)
 	Pool      int     // distinct top n-grams per filter kept for families (default 100)
@@ -227,8 +227,12 @@ func (p FilterProfile) MarshalJSON() ([]byte, error) {
 // Gold, when not nil, gives each text's gold class (len(gold) = len(ids)).
 // Ids must be < VocabSize. Without opt.Table it tables the words of the
 // texts, most frequent first. Memory beyond the texts and the table is
-// bounded independently of the number of texts (see ProfileStream). It
-// returns ctx.Err() when cancelled.
+// bounded independently of the number of texts (see ProfileStream); the
+// first texts of each worker are copied aside for the negative n-gram
+// search, and the texts are read again for the filters whose threshold
+// left their search band (see ProfileOptions.Reopen), so that every
+// FilterProfile.NegativesExact is true. It returns ctx.Err() when
+// cancelled.
 func Profile(ctx context.Context, m *cnn.Model, ids [][]int32, gold []int, opt ProfileOptions) (*Profiles, error) {
 	cfg := m.Config
 	if gold != nil && len(gold) != len(ids) {
@@ -281,9 +285,12 @@ func Profile(ctx context.Context, m *cnn.Model, ids [][]int32, gold []int, opt P
 // frequent first when opt.Counts is given and in vocabulary order (the order
 // corpus.Vocab gives: most frequent first) otherwise; without opt.Counts the
 // slot words' counts are those of the streamed texts. Progress gets total 0.
-// It returns next's error, an error naming the first text with an id
-// outside the vocabulary or a gold class outside the model's, or ctx.Err()
-// when cancelled.
+// Each worker also keeps a copy of its first 2048 texts for the negative
+// n-gram search; give opt.Reopen so that filters whose threshold left the
+// search band are searched again (else they are marked inexact). It
+// returns next's or Reopen's error, an error naming the first text with an
+// id outside the vocabulary or a gold class outside the model's, or
+// ctx.Err() when cancelled.
 func ProfileStream(ctx context.Context, m *cnn.Model, next TextSource, opt ProfileOptions) (*Profiles, error) {
 	cfg := m.Config
 	if opt.Counts != nil && len(opt.Counts) != cfg.VocabSize {
