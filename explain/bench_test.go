@@ -118,8 +118,9 @@ func BenchmarkSlotTable(b *testing.B) {
 
 var profileTexts = flag.Int("profile-texts", 100000, "texts streamed by BenchmarkProfile1M (1000000 for the full-size run)")
 
-// BenchmarkProfile1M profiles a streamed synthetic corpus with the default
-// recipe's shape (128-d, widths 3/4/5 × 100, 20,000 words, texts of 20–80
+// BenchmarkProfile1M profiles a streamed synthetic corpus, negative
+// n-grams and families included (the corpus can be read again for the
+// negative n-gram search), with the default recipe's shape (128-d, widths 3/4/5 × 100, 20,000 words, texts of 20–80
 // Zipf-distributed tokens; see zipfSource), table build included. It streams
 // -profile-texts texts (100,000 by default; the bench harness passes
 // 1000000) and reports texts/s, texts per CPU-second and the wall seconds
@@ -130,9 +131,16 @@ func BenchmarkProfile1M(b *testing.B) {
 	b.ReportAllocs()
 	c0 := cpuTime()
 	for b.Loop() {
-		if _, err := ProfileStream(context.Background(), m, zipfSource(m, n, 22), ProfileOptions{}); err != nil {
+		opt := ProfileOptions{Reopen: func() (TextSource, error) { return zipfSource(m, n, 22), nil }}
+		prof, err := ProfileStream(context.Background(), m, zipfSource(m, n, 22), opt)
+		if err != nil {
 			b.Fatal(err)
 		}
+		negs := 0
+		for _, f := range prof.Filters {
+			negs += len(f.Negatives)
+		}
+		b.ReportMetric(float64(negs), "negative-ngrams")
 	}
 	rate := float64(n*b.N) / b.Elapsed().Seconds()
 	b.ReportMetric(rate, "texts/s")

@@ -1,6 +1,8 @@
 package explain
 
 import (
+	"context"
+	"encoding/json"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -426,6 +428,36 @@ func checkKeptDown(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, k in
 	for g, b := range brute {
 		if !reported[g] && len(e.KeptDown) == k && math.Abs(b.effect) > smallest+1e-5 {
 			t.Fatalf("text %v: filter %d left out with |effect| %g above the smallest reported %g", ids, g, math.Abs(b.effect), smallest)
+		}
+	}
+}
+
+// Every number of the filter profiles that is meant to be shown (all but
+// the deprecated output-weight column Votes) is invariant when a constant
+// is added to one filter's output-weight column and to all classes'
+// biases, on random models and corpora.
+func TestProfileShownNumbersInvariant(t *testing.T) {
+	rng := rand.New(rand.NewPCG(34, 34))
+	for trial := 0; trial < 12; trial++ {
+		m, _ := tableCase(rng, trial)
+		ids, gold := randomCorpus(rng, m, 200, 14)
+		g := rng.IntN(m.Config.NumFilters())
+		s := shifted(m, g, float32(rng.NormFloat64()*3), float32(rng.NormFloat64()*3))
+		var docs [2][]byte
+		for i, mm := range []*cnn.Model{m, s} {
+			prof, err := Profile(context.Background(), mm, ids, gold, ProfileOptions{Workers: 2})
+			if err != nil {
+				t.Fatal(err)
+			}
+			for k := range prof.Filters {
+				prof.Filters[k].Votes = nil
+			}
+			if docs[i], err = json.Marshal(prof); err != nil {
+				t.Fatal(err)
+			}
+		}
+		if path, ok := jsonClose(docs[0], docs[1], 1e-5, 1e-5); !ok {
+			t.Fatalf("trial %d: a shown number of the profiles changes under a shift of filter %d's output weights, at %s", trial, g, path)
 		}
 	}
 }
