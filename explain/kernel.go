@@ -1,5 +1,7 @@
 package explain
 
+import "math"
+
 // Portable kernels. The dispatch function poolBank (kernel_generic.go, or
 // kernel_simd_amd64.go when built with GOEXPERIMENT=simd on amd64) calls
 // poolBankGo or its SIMD versions; the matrix and dot products are package
@@ -127,8 +129,8 @@ const corners = 6
 // (see skyline). Corners that reject nothing are (−Inf, +Inf).
 //
 // A window must also hold down by at least dmin[f] (P − a ≥ dmin[f], in
-// float32): k windows negative for every threshold of the band already hold
-// down at least that far.
+// float32), which is positive: k windows negative for every threshold of
+// the band already hold down at least that far.
 type bankScreen struct {
 	pc, ac [corners][]float32 // [corner][filter]
 	dmin   []float32          // [filter]
@@ -149,9 +151,11 @@ func newBankScreen(F int) bankScreen {
 }
 
 // band sets filter f's screen to pass the windows with lo ≤ P and a < hi
-// (lo = +Inf passes none) and clears its staircase and floor.
+// (lo = +Inf passes none) and clears its staircase and floor. The floor
+// starts at the smallest positive float32: a window must hold down by
+// something (P > a).
 func (sc *bankScreen) band(f int, lo, hi float32) {
-	sc.dmin[f] = negInf
+	sc.dmin[f] = math.SmallestNonzeroFloat32
 	sc.pc[0][f], sc.ac[0][f] = lo, negInf
 	sc.pc[1][f], sc.ac[1][f] = posInf, hi
 	for i := 2; i < corners; i++ {
@@ -168,7 +172,7 @@ type negCand struct {
 
 // passes is the screen for one window of filter f.
 func (sc *bankScreen) passes(f int, a, p float32) bool {
-	if !(p > 0 && p > a && p-a >= sc.dmin[f]) {
+	if !(p-a >= sc.dmin[f]) {
 		return false
 	}
 	for i := range corners {

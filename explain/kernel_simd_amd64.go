@@ -300,7 +300,7 @@ func poolBankNeg512(pre []float32, start []int32, bias []float32, rows [][]float
 			tv = tv.Add(one)
 			// The band and the floor first; the staircase only for the
 			// windows they pass.
-			m := p.GreaterEqual(lo).And(s.Less(hi)).And(p.Greater(zero)).And(p.Greater(s)).And(p.Sub(s).GreaterEqual(dmin))
+			m := p.GreaterEqual(lo).And(s.Less(hi)).And(p.Sub(s).GreaterEqual(dmin))
 			if bits := m.ToBits() & lanes; bits != 0 {
 				for i := 2; i < corners; i++ {
 					pc := archsimd.LoadFloat32x16Slice(sc.pc[i][c0:])
@@ -385,7 +385,7 @@ func poolBankNeg256(pre []float32, start []int32, bias []float32, rows [][]float
 			}
 			hi := archsimd.LoadFloat32x8Slice(sc.ac[1][c0:])
 			dmin := archsimd.LoadFloat32x8Slice(sc.dmin[c0:])
-			m := p.GreaterEqual(lo).And(s.Less(hi)).And(p.Greater(zero)).And(p.Greater(s)).And(p.Sub(s).GreaterEqual(dmin))
+			m := p.GreaterEqual(lo).And(s.Less(hi)).And(p.Sub(s).GreaterEqual(dmin))
 			if bits := m.ToBits() & lanes; bits != 0 {
 				for i := 2; i < corners; i++ {
 					pc := archsimd.LoadFloat32x8Slice(sc.pc[i][c0:])

@@ -2,6 +2,7 @@ package explain
 
 import (
 	"cmp"
+	"math"
 	"slices"
 	"unsafe"
 )
@@ -223,7 +224,7 @@ func skyOrder(x, y *skyEntry) int {
 func (s *skyline) screen(sc *bankScreen, f int) {
 	s.fresh = 0
 	floor := s.dmin()
-	sc.dmin[f], s.floor = floor, floor
+	sc.dmin[f], s.floor = max(floor, math.SmallestNonzeroFloat32), floor
 	kept := s.items[:0]
 	for _, e := range s.items {
 		if e.p-e.a >= floor {
