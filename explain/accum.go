@@ -177,7 +177,7 @@ func (a *filterAccs) setBands(st *SlotTable, votes []int, opt *ProfileOptions) {
 		if a.texts[0] > 0 {
 			base := float64(a.assigned[0][votes[g]]) / float64(a.texts[0])
 			if est, ok := histThreshold(fa.total, 0, fa.scale, base+opt.Selective*(1-base)); ok {
-				lo, hi = max(est/2, math.SmallestNonzeroFloat32), 2*est+4/fa.scale
+				lo, hi = est/2, 2*est+4/fa.scale
 			}
 		}
 		a.lo[g], a.hi[g] = lo, hi

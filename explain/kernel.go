@@ -1,7 +1,5 @@
 package explain
 
-import "math"
-
 // Portable kernels. The dispatch function poolBank (kernel_generic.go, or
 // kernel_simd_amd64.go when built with GOEXPERIMENT=simd on amd64) calls
 // poolBankGo or its SIMD versions; the matrix and dot products are package
@@ -150,12 +148,17 @@ func newBankScreen(F int) bankScreen {
 	return sc
 }
 
+// minHeldDown is the smallest positive normal float32, 2⁻¹²⁶: the least a
+// window must hold down (P − a) to count. It is not the smallest positive
+// float32, which is subnormal: comparing with a subnormal is slow on some
+// CPUs. A window holding down by less would need P and a below about 1e-31.
+const minHeldDown = 0x1p-126
+
 // band sets filter f's screen to pass the windows with lo ≤ P and a < hi
 // (lo = +Inf passes none) and clears its staircase and floor. The floor
-// starts at the smallest positive float32: a window must hold down by
-// something (P > a).
+// starts at minHeldDown: a window must hold down by something (P > a).
 func (sc *bankScreen) band(f int, lo, hi float32) {
-	sc.dmin[f] = math.SmallestNonzeroFloat32
+	sc.dmin[f] = minHeldDown
 	sc.pc[0][f], sc.ac[0][f] = lo, negInf
 	sc.pc[1][f], sc.ac[1][f] = posInf, hi
 	for i := 2; i < corners; i++ {

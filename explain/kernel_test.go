@@ -129,7 +129,7 @@ func TestKernelsNegAgree(t *testing.T) {
 				case off || rng.IntN(4) == 0:
 					sc.band(f, posInf, negInf)
 				case rng.IntN(3) == 0:
-					sc.band(f, math.SmallestNonzeroFloat32, posInf)
+					sc.band(f, minHeldDown, posInf)
 				default:
 					lo := float32(math.Abs(rng.NormFloat64())) + 1e-3
 					sc.band(f, lo, lo+float32(rng.Float64()))
@@ -140,7 +140,7 @@ func TestKernelsNegAgree(t *testing.T) {
 					}
 				}
 				if rng.IntN(2) == 0 {
-					sc.dmin[f] = max(float32(rng.Float64()), math.SmallestNonzeroFloat32)
+					sc.dmin[f] = max(float32(rng.Float64()), minHeldDown)
 				}
 			}
 			run := func(fn func([]float32, []int32, []float32, [][]float32, int, int, *bankScreen, []negCand) []negCand) ([]float32, []int32, []negCand) {

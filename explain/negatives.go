@@ -2,7 +2,6 @@ package explain
 
 import (
 	"cmp"
-	"math"
 	"slices"
 	"unsafe"
 )
@@ -224,7 +223,7 @@ func skyOrder(x, y *skyEntry) int {
 func (s *skyline) screen(sc *bankScreen, f int) {
 	s.fresh = 0
 	floor := s.dmin()
-	sc.dmin[f], s.floor = max(floor, math.SmallestNonzeroFloat32), floor
+	sc.dmin[f], s.floor = max(floor, minHeldDown), floor
 	kept := s.items[:0]
 	for _, e := range s.items {
 		if e.p-e.a >= floor {
