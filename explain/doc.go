@@ -1,6 +1,7 @@
 // Package explain tells what a trained sentence CNN (package cnn) responds to
 // and why a text got its label. Every number it reports is an identity a
-// test asserts or a quantity measured by re-running the model.
+// test asserts or a quantity measured by re-running the model, with its
+// uncertainty where it is estimated.
 //
 // # Word-slot tables
 //
@@ -14,39 +15,86 @@
 // The table's memory is bounded (TableOptions.MaxBytes); words past the bound
 // are computed on the fly. A Runner runs texts through a table; Scan does so
 // for a whole corpus in parallel. Built with GOEXPERIMENT=simd on amd64, the
-// window sums with their running maximum and the table build run on
-// AVX-512 or AVX2 kernels chosen at start-up (kernel_simd_amd64.go); other
-// builds use the portable kernels of kernel.go, which give the same window
-// sums bit for bit.
+// window sums with their running maximum, the negative-window screen and the
+// occluder's maxima run on AVX-512 or AVX2 kernels chosen at start-up
+// (kernel_simd_amd64.go); other builds use the portable kernels of
+// kernel.go, which give the same results bit for bit.
+//
+// # Identified quantities
+//
+// Softmax does not change when the same number is added to every class's
+// logit, and training's loss does not either; so the constant added to one
+// filter's output weights over all classes (and to all output biases) is
+// left free by the data, and any number that moves with it describes the
+// arbitrary constant, not the model. Explain therefore splits identified
+// quantities only: the log-odds of the predicted class against the
+// runner-up (the default view, Explanation.LogOdds) and each class's
+// centred logit, its logit minus the mean over classes (the per-class
+// view, Explanation.Centred). Both are contrasts of logits whose class
+// weights sum to zero. The per-class logit shares kept for compatibility
+// (Attributions.Exact, Bias, FiredFilter.Contribution, Attributions.IG,
+// FilterProfile.Votes, TokenScores, WriteColored) are marked "Deprecated:
+// not identified"; a property test asserts that every shown number is
+// invariant under such shifts.
 //
 // # Why a text got its label
 //
-// Explain splits each logit exactly into a bias part and one share per token,
-// and measures occlusion (each token, or each n-gram window, replaced by PAD)
-// incrementally, touching only the windows that contain the replaced tokens.
-// Integrated gradients over the embeddings with a PAD baseline are optional.
+// Explain splits each identified quantity exactly (Shares): the output
+// bias, one part per fired filter's convolution bias, and one share per
+// token. The method is gradient × input at the word vectors with every
+// filter's winning window held fixed, against the zero word vector (PAD):
+// with ReLU, max pooling and a linear head it is an exact decomposition.
+// It measures occlusion (each token, or each n-gram window, replaced by
+// PAD) incrementally, touching only the windows that contain the replaced
+// tokens, and integrated gradients (Sundararajan, Taly & Yan 2017) with
+// the PAD baseline in closed form: along the straight path every window of
+// a filter starts from its bias, so the winning window never changes and
+// each pooled value has one breakpoint, where its ReLU switches (IGResult;
+// the Riemann sum is kept as a check that converges to it). KeptDown lists
+// the windows that would have won their filter but for their negative
+// slots, with the tokens that kept them down, checked by occluding those
+// tokens.
 //
 // # What each filter responds to
 //
 // Profile makes one parallel, cancellable pass over a corpus and describes
 // every filter (FilterProfile): the class it votes for and by how much, its
 // top distinct n-grams with per-slot scores and counts, an activation
-// histogram, the purity threshold of Jacovi, Sar Shalom & Goldberg (2018)
-// with the count above it and an idle mark, the trigger and suppressor words
-// of each slot, and its families: above-threshold n-grams clustered by
-// slot-score vector with average linkage (Sokal & Michener 1958), each
-// described by its dominant slots and wildcards. Memory does not grow with
-// the corpus: per filter it keeps bounded top lists and a fine histogram.
-// ProfileStream does the same over a TextSource, for corpora too big to
-// hold in memory; Profiles.WriteText writes a readable summary.
+// histogram, the trigger and suppressor words of each slot, and:
+//
+//   - Selectivity: a purity threshold (Jacovi, Sar Shalom & Goldberg 2018)
+//     measured from the class's base rate up, chosen on one half of the
+//     corpus and tested on the other with a one-sided exact binomial test,
+//     Holm-corrected over the filters; filters that fail are not selective.
+//   - Negative n-grams (Jacovi et al. 2018): corpus windows whose positive
+//     slots would pass the threshold but whose negative slots hold them
+//     below it, ranked by how far they were held down. The threshold is
+//     known only at the end of the pass, so each worker searches a band
+//     around an early estimate with a k-skyline of candidate windows and the
+//     texts it saw first are searched again at the end; a filter whose
+//     threshold left a band is searched again over the texts read anew
+//     (ProfileOptions.Reopen) or marked inexact.
+//   - Families: a stratified random sample of all winning windows above the
+//     threshold, each weighted by the windows it stands for
+//     (Horvitz–Thompson), clustered by slot-score vector with weighted
+//     average linkage (Sokal & Michener 1958), with share intervals and a
+//     bootstrap stability figure.
+//
+// Memory does not grow with the corpus: per filter it keeps bounded top
+// lists, skylines and samples and a fine histogram. ProfileStream does the
+// same over a TextSource, for corpora too big to hold in memory;
+// Profiles.WriteText writes a readable summary.
 //
 // # How much to trust an attribution
 //
 // Faithfulness measures comprehensiveness and sufficiency (DeYoung et al.
-// 2020) and the deletion AOPC (Samek et al. 2017) of each method against a
-// random ranking. WriteColored paints a text on ColorBrewer's PuOr scale.
+// 2020) and the deletion AOPC (Samek et al. 2017) of each method's ranking
+// of identified scores against a random ranking averaged over several
+// draws, with bootstrap intervals and Wilcoxon signed-rank tests between
+// methods; single-token removals, where occlusion is best by construction,
+// are reported apart. Paint paints a text on ColorBrewer's PuOr scale.
 //
 //	st, _ := explain.NewSlotTable(model, explain.TableOptions{})
-//	e, _ := explain.Explain(model, tokens, ids, explain.ExplainOptions{Table: st, Occlusion: true})
-//	// e.Bias[c] + Σ_i e.Attributions.Exact[i][c] == e.Logits[c]
+//	e, _ := explain.Explain(model, tokens, ids, explain.ExplainOptions{Table: st, Occlusion: true, IG: true})
+//	// e.LogOdds.Value == e.LogOdds.Parts(): output bias + filter biases + token shares
 package explain

@@ -9,19 +9,49 @@ import (
 )
 
 // Explanation says why one text got its label. Every number is exact or
-// measured: Bias[c] + Σ_i Attributions.Exact[i][c] = Logits[c] up to float
-// rounding, and the occlusion values are what re-predicting the edited text
-// gives.
+// measured: LogOdds.Value = LogOdds.Parts() (and the same for each of
+// Centred) up to float rounding, and the occlusion values are what
+// re-predicting the edited text gives.
+//
+// The identified numbers, the ones to show, are Probabilities, LogOdds,
+// Centred, Integrated, the occlusion drops, KeptDown and, per fired filter,
+// its activation and slot scores. Logits, Bias, Attributions.Exact,
+// Attributions.IG and FiredFilter.Contribution depend on a constant that
+// training does not pin down (see Shares).
 type Explanation struct {
-	Tokens        []TokenSpan   `json:"tokens"`
-	Label         string        `json:"label"`
-	Class         int           `json:"class"`
-	Labels        []string      `json:"labels"`
-	Probabilities []float64     `json:"probabilities"`
-	Logits        []float64     `json:"logits"`
-	Bias          []float64     `json:"bias"`
-	Attributions  Attributions  `json:"attributions"`
-	Filters       []FiredFilter `json:"filters"`
+	Tokens        []TokenSpan `json:"tokens"`
+	Label         string      `json:"label"`
+	Class         int         `json:"class"`
+	Labels        []string    `json:"labels"`
+	Probabilities []float64   `json:"probabilities"`
+	// Logits are the model's logits.
+	//
+	// Deprecated: not identified (adding a constant to every class's output
+	// bias shifts them all); show LogOdds.Value or Centred[c].Value.
+	Logits []float64 `json:"logits"`
+	// Bias[c] = OutB[c] + Σ_{g fired} OutW[c][g]·B_g.
+	//
+	// Deprecated: not identified; LogOdds and Centred split it into
+	// OutputBias and FilterBias.
+	Bias         []float64     `json:"bias"`
+	Attributions Attributions  `json:"attributions"`
+	Filters      []FiredFilter `json:"filters"`
+
+	// RunnerUp is the class with the largest logit after Class.
+	RunnerUp int `json:"runner_up"`
+	// LogOdds splits log p(Class)/p(RunnerUp), the default view.
+	LogOdds Shares `json:"log_odds"`
+	// Centred[c] splits class c's centred logit (its logit minus the mean
+	// over classes; log p(c) minus the mean of the log-probabilities), the
+	// per-class view.
+	Centred []Shares `json:"centred"`
+	// Integrated holds integrated gradients of the same quantities when
+	// ExplainOptions.IG is set.
+	Integrated *IGResult `json:"integrated_gradients,omitempty"`
+	// KeptDown lists, when ExplainOptions.KeptDown > 0, the windows that
+	// would have won their filter but for their negative slots (see
+	// KeptDownWindow), largest |Effect| first.
+	KeptDown []KeptDownWindow `json:"kept_down,omitempty"`
 }
 
 // TokenSpan is one token of the explained text. Start and End are byte
@@ -36,6 +66,10 @@ type TokenSpan struct {
 // Attributions holds one map of the text per method.
 type Attributions struct {
 	// Exact[i][c] is token i's exact additive share of logit c.
+	//
+	// Deprecated: not identified (adding k to every class's output weight on
+	// a filter shifts it by k times the slot score); use
+	// Explanation.LogOdds.Tokens or Explanation.Centred[c].Tokens.
 	Exact [][]float64 `json:"exact"`
 	// Occlusion[i] = p(ŷ|x) − p(ŷ|x with token i replaced by PAD), ŷ the
 	// predicted class: positive when the token supported the prediction.
@@ -46,11 +80,16 @@ type Attributions struct {
 	// for in ExplainOptions.OcclusionWidths.
 	Windows []SpanOcclusion `json:"windows,omitempty"`
 	// IG[i][c] is token i's integrated-gradients attribution to logit c.
+	//
+	// Deprecated: not identified; use Explanation.Integrated.
 	IG [][]float64 `json:"ig,omitempty"`
-	// IGGap[c] = Σ_i IG[i][c] − (logit_c(x) − logit_c(PAD baseline)), the
-	// completeness gap of the Riemann approximation.
-	IGGap   []float64 `json:"ig_gap,omitempty"`
-	IGSteps int       `json:"ig_steps,omitempty"`
+	// IGGap[c] = Σ_i IG[i][c] − (logit_c(x) − logit_c(PAD baseline)): float
+	// rounding for the closed form, the error of a Riemann sum otherwise.
+	//
+	// Deprecated: not identified; use Explanation.Integrated.
+	IGGap []float64 `json:"ig_gap,omitempty"`
+	// IGSteps is 0 for the closed form, else the Riemann sum's steps.
+	IGSteps int `json:"ig_steps,omitempty"`
 }
 
 // SpanOcclusion is the effect of replacing tokens Start … End−1 with PAD.
@@ -71,9 +110,12 @@ type FiredFilter struct {
 	Slots      []float64 `json:"slots"` // slot scores: BiasTerm + Σ Slots = Activation
 	// Family is the index of the filter's family (in its Profile) whose
 	// centroid is nearest to Slots, or −1 without profiles or when the
-	// activation is below the filter's purity threshold.
+	// activation is below the filter's selectivity threshold.
 	Family int `json:"family"`
 	// Contribution[c] = OutW[c][g]·Activation, the filter's part of logit c.
+	//
+	// Deprecated: not identified; use Explanation.LogOdds.Filters or
+	// Explanation.Centred[c].Filters.
 	Contribution []float64 `json:"contribution"`
 }
 
@@ -89,24 +131,22 @@ type ExplainOptions struct {
 	Occlusion bool
 	// OcclusionWidths adds the occlusion of every n-gram window of each width.
 	OcclusionWidths []int
-	// IG computes integrated gradients with IGSteps steps (0 means 50).
+	// IG computes integrated gradients: in closed form, or, with IGSteps >
+	// 0, as a right Riemann sum of that many steps (kept as a check).
 	IG      bool
 	IGSteps int
+	// KeptDown is the number of kept-down windows to report (0: none).
+	KeptDown int
 }
 
 // Explain explains the prediction of m on one text. Ids are the text's
 // vocabulary ids (each < VocabSize); tokens, if not nil, must have the same
 // length and give the token texts and offsets. The explanation's Tokens are
 // the real tokens only: the PAD positions added to reach MaxWidth have zero
-// embeddings and so zero shares.
+// embeddings and so zero shares. Options are checked before any work.
 func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOptions) (*Explanation, error) {
-	if tokens != nil && len(tokens) != len(ids) {
-		return nil, fmt.Errorf("explain: %d tokens but %d ids", len(tokens), len(ids))
-	}
-	for i, id := range ids {
-		if id < 0 || int(id) >= m.Config.VocabSize {
-			return nil, fmt.Errorf("explain: token %d has id %d outside the vocabulary of %d", i, id, m.Config.VocabSize)
-		}
+	if err := checkExplain(m, tokens, ids, opt); err != nil {
+		return nil, err
 	}
 	st := opt.Table
 	if st == nil {
@@ -114,46 +154,72 @@ func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOption
 		if st, err = NewSlotTable(m, TableOptions{Words: distinct(ids), Workers: 1}); err != nil {
 			return nil, err
 		}
-	} else if st.m != m {
-		return nil, fmt.Errorf("explain: the slot table was built for another model")
 	}
-	r := st.NewRunner()
-	r.keep = true
+	r, _ := st.explainers.Get().(*Runner)
+	if r == nil {
+		r = st.NewRunner()
+		r.keep = true
+	}
+	defer st.explainers.Put(r)
 	r.load(ids)
 	r.pool()
 	e := newExplanation(m, tokens, ids, &r.p)
 	exact(st, r, e, opt.Profiles)
-	if opt.Occlusion || len(opt.OcclusionWidths) > 0 {
-		o := newOccluder(r, e)
-		if opt.Occlusion {
-			e.Attributions.Occlusion = make([]float64, len(ids))
-			e.Attributions.OcclusionLog = make([]float64, len(ids))
-			for i := range ids {
-				e.Attributions.Occlusion[i], e.Attributions.OcclusionLog[i] = o.span(i, i)
-			}
+	identifiedShares(m, e)
+	var o *occluder
+	if opt.Occlusion || len(opt.OcclusionWidths) > 0 || opt.KeptDown > 0 {
+		o = newOccluder(r, e)
+	}
+	if opt.Occlusion {
+		e.Attributions.Occlusion = make([]float64, len(ids))
+		e.Attributions.OcclusionLog = make([]float64, len(ids))
+		for i := range ids {
+			e.Attributions.Occlusion[i], e.Attributions.OcclusionLog[i] = o.span(i, i)
 		}
-		for _, w := range opt.OcclusionWidths {
-			if w < 1 {
-				return nil, fmt.Errorf("explain: occlusion window width %d: must be at least 1", w)
-			}
-			for i := 0; i == 0 || i+w <= len(ids); i++ {
-				j := min(i+w, len(ids))
-				if j <= i {
-					break
-				}
-				d, dl := o.span(i, j-1)
-				e.Attributions.Windows = append(e.Attributions.Windows, SpanOcclusion{Start: i, End: j, Drop: d, DropLog: dl})
-			}
+	}
+	for _, w := range opt.OcclusionWidths {
+		for i := 0; i+w <= len(ids) || (i == 0 && len(ids) > 0); i++ {
+			j := min(i+w, len(ids))
+			d, dl := o.span(i, j-1)
+			e.Attributions.Windows = append(e.Attributions.Windows, SpanOcclusion{Start: i, End: j, Drop: d, DropLog: dl})
 		}
 	}
 	if opt.IG {
-		steps := opt.IGSteps
-		if steps <= 0 {
-			steps = 50
+		if opt.IGSteps > 0 {
+			integratedGradients(r, e, opt.IGSteps)
+		} else {
+			igExact(r, e)
 		}
-		integratedGradients(r, e, steps)
+		identifiedIG(r, e)
+	}
+	if opt.KeptDown > 0 {
+		e.KeptDown = keptDown(r, e, o, opt.KeptDown)
 	}
 	return e, nil
+}
+
+// checkExplain checks Explain's input and options.
+func checkExplain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOptions) error {
+	if tokens != nil && len(tokens) != len(ids) {
+		return fmt.Errorf("explain: %d tokens but %d ids", len(tokens), len(ids))
+	}
+	for i, id := range ids {
+		if id < 0 || int(id) >= m.Config.VocabSize {
+			return fmt.Errorf("explain: token %d has id %d outside the vocabulary of %d", i, id, m.Config.VocabSize)
+		}
+	}
+	if opt.Table != nil && opt.Table.m != m {
+		return fmt.Errorf("explain: the slot table was built for another model")
+	}
+	for _, w := range opt.OcclusionWidths {
+		if w < 1 {
+			return fmt.Errorf("explain: occlusion window width %d: must be at least 1", w)
+		}
+	}
+	if opt.IGSteps < 0 || opt.KeptDown < 0 {
+		return fmt.Errorf("explain: IGSteps %d and KeptDown %d: must be 0 or more", opt.IGSteps, opt.KeptDown)
+	}
+	return nil
 }
 
 func distinct(ids []int32) []int32 {
@@ -187,6 +253,7 @@ func newExplanation(m *cnn.Model, tokens []corpus.Token, ids []int32, p *Pass) *
 	e.Probabilities = softmax64(e.Logits, make([]float64, C))
 	e.Class = argmax64(e.Logits)
 	e.Label = e.Labels[e.Class]
+	e.RunnerUp = runnerUp(e.Logits, e.Class)
 	return e
 }
 
@@ -330,106 +397,4 @@ func exact(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
 	}
 	e.Bias = bias
 	e.Attributions.Exact = share
-}
-
-// occluder recomputes the pooled units after replacing a span of tokens with
-// PAD, touching only the windows that contain a replaced token: the maximum
-// over the other windows comes from prefix and suffix maxima of the kept
-// window pre-activations.
-type occluder struct {
-	r      *Runner
-	e      *Explanation
-	pm, sm [][]float32 // [bank] prefix / suffix maxima, windows × filters
-	acc    []float32
-	newMax []float32
-	z      []float64
-	y      int
-	logP   float64
-}
-
-func newOccluder(r *Runner, e *Explanation) *occluder {
-	st := r.st
-	o := &occluder{r: r, e: e, y: e.Class,
-		acc:    make([]float32, st.m.Config.Filters),
-		newMax: make([]float32, st.m.Config.Filters),
-		z:      make([]float64, len(e.Logits))}
-	o.logP = logSoftmax64(e.Logits, e.Class)
-	for b := range st.banks {
-		F := st.banks[b].filters
-		win := r.win[b]
-		nw := len(win) / F
-		pm := make([]float32, len(win))
-		sm := make([]float32, len(win))
-		copy(pm[:F], win[:F])
-		for t := 1; t < nw; t++ {
-			for f := 0; f < F; f++ {
-				pm[t*F+f] = max(pm[(t-1)*F+f], win[t*F+f])
-			}
-		}
-		copy(sm[(nw-1)*F:], win[(nw-1)*F:])
-		for t := nw - 2; t >= 0; t-- {
-			for f := 0; f < F; f++ {
-				sm[t*F+f] = max(sm[(t+1)*F+f], win[t*F+f])
-			}
-		}
-		o.pm = append(o.pm, pm)
-		o.sm = append(o.sm, sm)
-	}
-	return o
-}
-
-// span returns the drop in p(ŷ) and log p(ŷ) when tokens lo … hi (inclusive)
-// are replaced with PAD.
-func (o *occluder) span(lo, hi int) (drop, dropLog float64) {
-	r := o.r
-	st := r.st
-	m := st.m
-	nf := m.Config.NumFilters()
-	copy(o.z, o.e.Logits)
-	n := r.p.Len
-	for b := range st.banks {
-		tb := &st.banks[b]
-		F, w := tb.filters, tb.width
-		nw := n - w + 1
-		t0, t1 := max(0, lo-w+1), min(hi, nw-1)
-		nm := o.newMax
-		for f := range nm {
-			nm[f] = negInf
-		}
-		if t0 > 0 {
-			copy(nm, o.pm[b][(t0-1)*F:t0*F])
-		}
-		if t1+1 < nw {
-			sm := o.sm[b][(t1+1)*F : (t1+2)*F]
-			for f, v := range sm {
-				nm[f] = max(nm[f], v)
-			}
-		}
-		rows := r.rows[b]
-		for t := t0; t <= t1; t++ {
-			copy(o.acc, tb.bias)
-			for s := 0; s < w; s++ {
-				if i := t + s; i < lo || i > hi {
-					addTo(o.acc, rows[i][s*F:(s+1)*F])
-				}
-			}
-			for f, a := range o.acc {
-				nm[f] = max(nm[f], a)
-			}
-		}
-		for f, a := range nm {
-			g := b*F + f
-			if m.IsMasked(g) {
-				continue
-			}
-			h := max(a, 0)
-			if dh := float64(h) - float64(r.p.Pooled[g]); dh != 0 {
-				for c := range o.z {
-					o.z[c] += float64(m.OutW[c*nf+g]) * dh
-				}
-			}
-		}
-	}
-	lp := logSoftmax64(o.z, o.y)
-	return math.Exp(o.logP) - math.Exp(lp), o.logP - lp
 }

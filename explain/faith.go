@@ -15,7 +15,7 @@ import (
 	"telltale/corpus"
 )
 
-// Attribution methods known to Faithfulness and WriteColored.
+// Attribution methods known to Faithfulness and the painters.
 const (
 	MethodExact     = "exact"
 	MethodOcclusion = "occlusion"
@@ -27,12 +27,26 @@ const (
 type FaithOptions struct {
 	Percents  []float64 // shares of tokens kept or removed, in percent (default 1, 5, 10, 20, 50)
 	AOPCSteps int       // deletion-curve steps J (default 10)
-	IGSteps   int       // integrated-gradients steps (default 50)
-	Methods   []string  // default exact, occlusion, ig, random
-	Seed      uint64    // seed of the random ranking
+	// IGSteps > 0 ranks by a Riemann sum of that many steps instead of the
+	// closed form of integrated gradients.
+	IGSteps int
+	Methods []string // default exact, occlusion, ig, random
+	// Draws is the number of random rankings averaged per text for the
+	// random control (default 5).
+	Draws int
+	// Resamples is the number of bootstrap resamples of the texts behind
+	// every interval (default 1000).
+	Resamples int
+	Seed      uint64 // seeds the random rankings, the tie-breaks and the resamples
 	Table     *SlotTable
 	Workers   int
 	Progress  Progress
+}
+
+// Interval is a two-sided 95% interval.
+type Interval struct {
+	Low  float64 `json:"low"`
+	High float64 `json:"high"`
 }
 
 // FaithReport measures how well each attribution method's ranking of tokens
@@ -40,31 +54,78 @@ type FaithOptions struct {
 // PAD, positions kept). All scores are on the predicted class ŷ of each
 // text; higher comprehensiveness and AOPC and lower sufficiency mean a more
 // faithful method.
+//
+// Every method ranks the tokens by an identified score: the exact share of
+// the log-odds of ŷ against the runner-up, its integrated gradients, or
+// the occlusion drop of p(ŷ); ties are broken at random (seeded). Removing
+// the one token whose removal lowers p(ŷ) most is what single-token
+// occlusion measures, so occlusion is best at one token by construction:
+// every removal of a single token (k = 1) is reported apart, in Top1Comp
+// and Top1Suff, and left out of the aggregates. Intervals are 95%
+// percentile bootstrap intervals over the texts (Efron & Tibshirani 1993,
+// "An Introduction to the Bootstrap", ch. 13); Pairs compares the methods
+// text by text.
 type FaithReport struct {
-	Texts    int           `json:"texts"`    // texts scored (empty texts are skipped)
-	Accuracy float64       `json:"accuracy"` // of the model on the scored texts (NaN → null without gold)
-	Percents []float64     `json:"percents"`
-	Methods  []MethodFaith `json:"methods"`
+	Texts     int           `json:"texts"`    // texts scored (empty texts are skipped)
+	Accuracy  float64       `json:"accuracy"` // of the model on the scored texts (NaN → null without gold)
+	Percents  []float64     `json:"percents"`
+	Draws     int           `json:"draws"`     // random rankings per text for the random control
+	Resamples int           `json:"resamples"` // bootstrap resamples behind the intervals
+	Methods   []MethodFaith `json:"methods"`
+	Pairs     []MethodPair  `json:"pairs"`
 }
 
-// MethodFaith holds one method's scores, averaged over texts.
+// MethodFaith holds one method's scores, averaged over texts. A figure with
+// no text to average is NaN (JSON null).
 type MethodFaith struct {
 	Method string `json:"method"`
 	// Comprehensiveness[k] = mean of p(ŷ|x) − p(ŷ|x without its top-k% tokens);
 	// Sufficiency[k] = mean of p(ŷ|x) − p(ŷ|only its top-k% tokens)
 	// (DeYoung et al. 2020, "ERASER: A Benchmark to Evaluate Rationalized
 	// NLP Models", ACL, §4.2). The top k% are the ⌈k·L/100⌉ tokens with the
-	// largest scores for ŷ.
+	// largest scores for ŷ; texts where that is one token are left out
+	// (PercentTexts counts the others).
 	Comprehensiveness []float64 `json:"comprehensiveness"`
 	Sufficiency       []float64 `json:"sufficiency"`
-	// Comp and Suff average over the percents, ERASER's aggregate.
-	Comp float64 `json:"comp"`
-	Suff float64 `json:"suff"`
+	PercentTexts      []int     `json:"percent_texts"`
+	// Comp and Suff average, over the texts with at least one percent of
+	// two or more tokens (AggregateTexts), each text's mean over those
+	// percents: ERASER's aggregate without single tokens.
+	Comp           float64  `json:"comp"`
+	Suff           float64  `json:"suff"`
+	CompCI         Interval `json:"comp_ci"`
+	SuffCI         Interval `json:"suff_ci"`
+	AggregateTexts int      `json:"aggregate_texts"`
 	// AOPC is the area over the most-relevant-first deletion curve (Samek
 	// et al. 2017, "Evaluating the Visualization of What a Deep Neural Network
-	// Has Learned", IEEE TNNLS): 1/(J+1) Σ_{j=0}^{J} p(ŷ|x) − p(ŷ|x^(k_j)),
-	// x^(k) with its k top-ranked tokens removed and k_j = ⌈j·L/J⌉.
-	AOPC float64 `json:"aopc"`
+	// Has Learned", IEEE TNNLS): the mean of p(ŷ|x) − p(ŷ|x^(k_j)) over the
+	// points j = 0 … J, x^(k) with its k top-ranked tokens removed and
+	// k_j = ⌈j·L/J⌉, the points with k_j = 1 left out.
+	AOPC   float64  `json:"aopc"`
+	AOPCCI Interval `json:"aopc_ci"`
+	// Top1Comp and Top1Suff are comprehensiveness and sufficiency for the
+	// single top-ranked token, over all texts.
+	Top1Comp   float64  `json:"top1_comp"`
+	Top1Suff   float64  `json:"top1_suff"`
+	Top1CompCI Interval `json:"top1_comp_ci"`
+	Top1SuffCI Interval `json:"top1_suff_ci"`
+}
+
+// MethodPair compares two methods text by text on one measure ("comp",
+// "suff" or "aopc"): Diff is the mean over the texts where both are
+// defined of A's value minus B's, with a bootstrap interval, and P the
+// two-sided p-value of the Wilcoxon signed-rank test of those differences
+// (Wilcoxon 1945, "Individual Comparisons by Ranking Methods", Biometrics
+// Bulletin; zero differences dropped, normal approximation with the tie
+// correction, no continuity correction).
+type MethodPair struct {
+	A       string   `json:"a"`
+	B       string   `json:"b"`
+	Measure string   `json:"measure"`
+	Texts   int      `json:"texts"`
+	Diff    float64  `json:"diff"`
+	DiffCI  Interval `json:"diff_ci"`
+	P       float64  `json:"p"`
 }
 
 func (o *FaithOptions) defaults() {
@@ -74,35 +135,59 @@ func (o *FaithOptions) defaults() {
 	if o.AOPCSteps <= 0 {
 		o.AOPCSteps = 10
 	}
-	if o.IGSteps <= 0 {
-		o.IGSteps = 50
-	}
 	if len(o.Methods) == 0 {
 		o.Methods = []string{MethodExact, MethodOcclusion, MethodIG, MethodRandom}
+	}
+	if o.Draws <= 0 {
+		o.Draws = 5
+	}
+	if o.Resamples <= 0 {
+		o.Resamples = 1000
 	}
 	if o.Workers <= 0 {
 		o.Workers = runtime.GOMAXPROCS(0)
 	}
 }
 
+// check reports the first problem with the options.
+func (o *FaithOptions) check(texts, golds int, haveGold bool) error {
+	if haveGold && golds != texts {
+		return fmt.Errorf("explain: %d gold labels for %d texts", golds, texts)
+	}
+	for _, p := range o.Percents {
+		if !(p > 0 && p <= 100) {
+			return fmt.Errorf("explain: faithfulness percent %g: must be in (0, 100]", p)
+		}
+	}
+	for _, meth := range o.Methods {
+		switch meth {
+		case MethodExact, MethodOcclusion, MethodIG, MethodRandom:
+		default:
+			return fmt.Errorf("explain: unknown attribution method %q: use exact, occlusion, ig or random", meth)
+		}
+	}
+	if o.IGSteps < 0 {
+		return fmt.Errorf("explain: faithfulness IGSteps %d: must be 0 (closed form) or more", o.IGSteps)
+	}
+	return nil
+}
+
+// textFaith is one text's figures for one method; NaN where undefined.
+type textFaith struct {
+	comp, suff []float64 // per percent
+	aggComp    float64
+	aggSuff    float64
+	aopc       float64
+	top1Comp   float64
+	top1Suff   float64
+}
+
 // Faithfulness scores the attribution methods on a labeled set. Gold may be
 // nil (Accuracy is then NaN). It returns ctx.Err() when cancelled.
 func Faithfulness(ctx context.Context, m *cnn.Model, ids [][]int32, gold []int, opt FaithOptions) (*FaithReport, error) {
 	opt.defaults()
-	if gold != nil && len(gold) != len(ids) {
-		return nil, fmt.Errorf("explain: %d gold labels for %d texts", len(gold), len(ids))
-	}
-	for _, p := range opt.Percents {
-		if !(p > 0 && p <= 100) {
-			return nil, fmt.Errorf("explain: faithfulness percent %g: must be in (0, 100]", p)
-		}
-	}
-	for _, meth := range opt.Methods {
-		switch meth {
-		case MethodExact, MethodOcclusion, MethodIG, MethodRandom:
-		default:
-			return nil, fmt.Errorf("explain: unknown attribution method %q: use exact, occlusion, ig or random", meth)
-		}
+	if err := opt.check(len(ids), len(gold), gold != nil); err != nil {
+		return nil, err
 	}
 	st := opt.Table
 	if st == nil {
@@ -111,71 +196,29 @@ func Faithfulness(ctx context.Context, m *cnn.Model, ids [][]int32, gold []int, 
 			return nil, err
 		}
 	}
-	nm, np := len(opt.Methods), len(opt.Percents)
-	type acc struct {
-		comp, suff [][]float64
-		aopc       []float64
-		texts      int
-		correct    int
-		err        error
-	}
-	accs := make([]acc, opt.Workers)
+	per := make([][]textFaith, len(ids)) // [text][method]; nil for empty texts
+	correct := make([]bool, len(ids))
 	var next, done atomic.Int64
 	var wg sync.WaitGroup
-	for w := range accs {
-		a := &accs[w]
-		a.comp, a.suff, a.aopc = make2(nm, np), make2(nm, np), make([]float64, nm)
+	errs := make([]error, opt.Workers)
+	for w := range opt.Workers {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			r := st.NewRunner()
-			var buf []int32
-			var order []int
+			sc := newFaithScorer(st, &opt)
 			for ctx.Err() == nil {
 				i := int(next.Add(1)) - 1
 				if i >= len(ids) {
 					return
 				}
-				text := ids[i]
-				if len(text) > 0 {
-					e, err := Explain(m, nil, text, ExplainOptions{Table: st,
-						Occlusion: slices.Contains(opt.Methods, MethodOcclusion),
-						IG:        slices.Contains(opt.Methods, MethodIG), IGSteps: opt.IGSteps})
+				if len(ids[i]) > 0 {
+					res, y, err := sc.text(ids[i], i)
 					if err != nil {
-						a.err = err
+						errs[w] = err
 						return
 					}
-					y := e.Class
-					a.texts++
-					if gold != nil && gold[i] == y {
-						a.correct++
-					}
-					L := len(text)
-					p0 := float64(r.Run(text).Probs[y])
-					prob := func(keep func(rank int) bool) float64 {
-						buf = append(buf[:0], text...)
-						for rank, pos := range order {
-							if !keep(rank) {
-								buf[pos] = corpus.PAD
-							}
-						}
-						return float64(r.Run(buf).Probs[y])
-					}
-					for mi, meth := range opt.Methods {
-						order = ranking(order, e, meth, y, rand.New(rand.NewPCG(opt.Seed, uint64(i))))
-						for pi, pc := range opt.Percents {
-							k := int(math.Ceil(pc * float64(L) / 100))
-							a.comp[mi][pi] += p0 - prob(func(rank int) bool { return rank >= k })
-							a.suff[mi][pi] += p0 - prob(func(rank int) bool { return rank < k })
-						}
-						var area float64
-						J := opt.AOPCSteps
-						for j := 0; j <= J; j++ {
-							k := int(math.Ceil(float64(j) * float64(L) / float64(J)))
-							area += p0 - prob(func(rank int) bool { return rank >= k })
-						}
-						a.aopc[mi] += area / float64(J+1)
-					}
+					per[i] = res
+					correct[i] = gold != nil && gold[i] == y
 				}
 				if d := done.Add(1); opt.Progress != nil && (d%64 == 0 || int(d) == len(ids)) {
 					opt.Progress(int(d), len(ids))
@@ -187,71 +230,173 @@ func Faithfulness(ctx context.Context, m *cnn.Model, ids [][]int32, gold []int, 
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
-	out := &FaithReport{Percents: opt.Percents, Accuracy: math.NaN()}
-	correct := 0
-	for _, a := range accs {
-		if a.err != nil {
-			return nil, a.err
+	for _, err := range errs {
+		if err != nil {
+			return nil, err
 		}
-		out.Texts += a.texts
-		correct += a.correct
 	}
-	if gold != nil && out.Texts > 0 {
-		out.Accuracy = float64(correct) / float64(out.Texts)
+	return faithReport(per, correct, gold != nil, &opt), nil
+}
+
+// faithScorer scores the texts of one worker.
+type faithScorer struct {
+	st    *SlotTable
+	r     *Runner
+	opt   *FaithOptions
+	buf   []int32
+	order []int
+}
+
+func newFaithScorer(st *SlotTable, opt *FaithOptions) *faithScorer {
+	return &faithScorer{st: st, r: st.NewRunner(), opt: opt}
+}
+
+// text explains text i and scores every method on it. It returns the
+// figures per method and the predicted class.
+func (sc *faithScorer) text(text []int32, i int) ([]textFaith, int, error) {
+	opt := sc.opt
+	e, err := Explain(sc.st.m, nil, text, ExplainOptions{Table: sc.st,
+		Occlusion: slices.Contains(opt.Methods, MethodOcclusion),
+		IG:        slices.Contains(opt.Methods, MethodIG), IGSteps: opt.IGSteps})
+	if err != nil {
+		return nil, 0, err
 	}
-	n := float64(max(out.Texts, 1))
+	y := e.Class
+	p0 := float64(sc.r.Run(text).Probs[y])
+	out := make([]textFaith, len(opt.Methods))
 	for mi, meth := range opt.Methods {
-		mf := MethodFaith{Method: meth, Comprehensiveness: make([]float64, np), Sufficiency: make([]float64, np)}
-		for _, a := range accs {
-			for pi := range opt.Percents {
-				mf.Comprehensiveness[pi] += a.comp[mi][pi] / n
-				mf.Sufficiency[pi] += a.suff[mi][pi] / n
+		draws := 1
+		if meth == MethodRandom {
+			draws = opt.Draws
+		}
+		var acc textFaith
+		for d := range draws {
+			rng := rand.New(rand.NewPCG(opt.Seed, uint64(i)<<16|uint64(mi)<<8|uint64(d)))
+			sc.order = rankTokens(sc.order, Scores(e, meth, -1), len(text), rng)
+			f := sc.score(text, y, p0)
+			acc = addFaith(acc, f, float64(draws))
+		}
+		out[mi] = acc
+	}
+	return out, y, nil
+}
+
+// score measures the current ranking sc.order on text.
+func (sc *faithScorer) score(text []int32, y int, p0 float64) textFaith {
+	opt := sc.opt
+	L := len(text)
+	prob := func(keep func(rank int) bool) float64 {
+		sc.buf = append(sc.buf[:0], text...)
+		for rank, pos := range sc.order {
+			if !keep(rank) {
+				sc.buf[pos] = corpus.PAD
 			}
-			mf.AOPC += a.aopc[mi] / n
 		}
-		for pi := range opt.Percents {
-			mf.Comp += mf.Comprehensiveness[pi] / float64(np)
-			mf.Suff += mf.Sufficiency[pi] / float64(np)
-		}
-		out.Methods = append(out.Methods, mf)
+		return float64(sc.r.Run(sc.buf).Probs[y])
 	}
-	return out, nil
+	removeTop := func(k int) float64 { return p0 - prob(func(rank int) bool { return rank >= k }) }
+	keepTop := func(k int) float64 { return p0 - prob(func(rank int) bool { return rank < k }) }
+	f := textFaith{comp: make([]float64, len(opt.Percents)), suff: make([]float64, len(opt.Percents))}
+	var sc2, ss float64
+	n := 0
+	for pi, pc := range opt.Percents {
+		k := int(math.Ceil(pc * float64(L) / 100))
+		if k == 1 {
+			f.comp[pi], f.suff[pi] = math.NaN(), math.NaN()
+			continue
+		}
+		f.comp[pi], f.suff[pi] = removeTop(k), keepTop(k)
+		sc2 += f.comp[pi]
+		ss += f.suff[pi]
+		n++
+	}
+	f.aggComp, f.aggSuff = math.NaN(), math.NaN()
+	if n > 0 {
+		f.aggComp, f.aggSuff = sc2/float64(n), ss/float64(n)
+	}
+	var area float64
+	pts := 0
+	J := opt.AOPCSteps
+	for j := 0; j <= J; j++ {
+		if k := int(math.Ceil(float64(j) * float64(L) / float64(J))); k != 1 {
+			area += removeTop(k)
+			pts++
+		}
+	}
+	f.aopc = area / float64(pts)
+	f.top1Comp, f.top1Suff = removeTop(1), keepTop(1)
+	return f
 }
 
-// MarshalJSON writes a NaN accuracy as null.
-func (f FaithReport) MarshalJSON() ([]byte, error) {
-	type plain FaithReport
-	q := struct {
-		plain
-		Accuracy *float64 `json:"accuracy"`
-	}{plain: plain(f)}
-	if !math.IsNaN(f.Accuracy) {
-		q.Accuracy = &f.Accuracy
+// addFaith adds f/n to acc, field by field (NaN stays NaN).
+func addFaith(acc, f textFaith, n float64) textFaith {
+	if acc.comp == nil {
+		acc.comp, acc.suff = make([]float64, len(f.comp)), make([]float64, len(f.suff))
 	}
-	return jsonMarshal(q)
+	for i := range f.comp {
+		acc.comp[i] += f.comp[i] / n
+		acc.suff[i] += f.suff[i] / n
+	}
+	acc.aggComp += f.aggComp / n
+	acc.aggSuff += f.aggSuff / n
+	acc.aopc += f.aopc / n
+	acc.top1Comp += f.top1Comp / n
+	acc.top1Suff += f.top1Suff / n
+	return acc
 }
 
-// ranking orders token positions by the method's score for class y,
-// largest first; ties keep the earlier position first.
-func ranking(order []int, e *Explanation, method string, y int, rng *rand.Rand) []int {
-	L := len(e.Tokens)
+// rankTokens orders the L token positions by score, largest first, ties
+// in random order (rng); a nil score (the random control) gives a random
+// order.
+func rankTokens(order []int, score []float64, L int, rng *rand.Rand) []int {
 	order = order[:0]
 	for i := 0; i < L; i++ {
 		order = append(order, i)
 	}
-	if method == MethodRandom {
-		rng.Shuffle(L, func(i, j int) { order[i], order[j] = order[j], order[i] })
-		return order
+	rng.Shuffle(L, func(i, j int) { order[i], order[j] = order[j], order[i] })
+	if score != nil {
+		slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(score[b], score[a]) })
 	}
-	score := TokenScores(e, method, y)
-	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(score[b], score[a]) })
 	return order
+}
+
+// Scores returns one identified score per token for the method: for
+// MethodExact and MethodIG, the token's share of the log-odds of the
+// predicted class against the runner-up when class is −1, else of the
+// centred logit of class; for MethodOcclusion, the drop of p(ŷ) (class is
+// ignored). It returns nil for MethodRandom and when the explanation lacks
+// the method or the class.
+func Scores(e *Explanation, method string, class int) []float64 {
+	if class >= len(e.Centred) {
+		return nil
+	}
+	switch method {
+	case MethodExact:
+		if class < 0 {
+			return e.LogOdds.Tokens
+		}
+		return e.Centred[class].Tokens
+	case MethodIG:
+		if e.Integrated == nil {
+			return nil
+		}
+		if class < 0 {
+			return e.Integrated.LogOdds.Tokens
+		}
+		return e.Integrated.Centred[class].Tokens
+	case MethodOcclusion:
+		return e.Attributions.Occlusion
+	}
+	return nil
 }
 
 // TokenScores returns one score per token for the method and class:
 // the exact share or IG attribution to logit class, or the occlusion drop of
 // the predicted class (class is ignored for occlusion). It returns nil when
 // the explanation lacks the method.
+//
+// Deprecated: not identified for exact and ig (the shares of one class's
+// logit); use Scores.
 func TokenScores(e *Explanation, method string, class int) []float64 {
 	out := make([]float64, len(e.Tokens))
 	switch method {
@@ -273,14 +418,6 @@ func TokenScores(e *Explanation, method string, class int) []float64 {
 		copy(out, e.Attributions.Occlusion)
 	default:
 		return nil
-	}
-	return out
-}
-
-func make2(a, b int) [][]float64 {
-	out := make([][]float64, a)
-	for i := range out {
-		out[i] = make([]float64, b)
 	}
 	return out
 }

@@ -3,21 +3,51 @@ package explain
 import (
 	"cmp"
 	"math"
+	"math/rand/v2"
 	"slices"
 	"strings"
 )
 
-// Family is a group of a filter's above-threshold n-grams whose slot-score
-// vectors are close: one of the things the filter means.
+// Family is a group of a filter's winning windows above its selectivity
+// threshold whose slot-score vectors are close: one of the things the
+// filter means. Families are built from the stratified sample of the
+// windows above the threshold (see FilterProfile.FamilySample), each
+// distinct n-gram weighted by the number of windows it stands for.
 type Family struct {
-	Ngrams  int          `json:"ngrams"`  // distinct n-grams in the family
-	Count   int          `json:"count"`   // texts whose winning window is one of them
+	Ngrams int `json:"ngrams"` // distinct n-grams sampled in the family
+	// Count is Weight rounded: the estimated number of texts whose winning
+	// window is in the family.
+	Count   int          `json:"count"`
 	Pattern string       `json:"pattern"` // e.g. "good|great * service"; "*" marks a wildcard slot
 	Slots   []FamilySlot `json:"slots"`
-	// Centroid is the count-weighted mean slot-score vector.
+	// Centroid is the weighted mean slot-score vector.
 	Centroid []float64 `json:"centroid"`
-	// Members holds the tokens of up to five members, highest activation first.
+	// Members holds the tokens of up to five members, largest weight first.
 	Members [][]string `json:"members"`
+
+	// Sampled is the number of sampled windows in the family.
+	Sampled int `json:"sampled"`
+	// Weight is the estimated number of windows in the family: the sum of
+	// its sampled windows' weights (Horvitz–Thompson; exact when every
+	// window above the threshold was sampled).
+	Weight float64 `json:"weight"`
+	// Share is Weight over the weight of all windows above the threshold,
+	// with a 95% percentile interval from resampling each stratum's sample
+	// with replacement (the family's n-grams held fixed; a stratum sampled
+	// whole is not resampled, so the interval is the share itself when
+	// every window above the threshold was sampled).
+	Share     float64 `json:"share"`
+	ShareLow  float64 `json:"share_low"`
+	ShareHigh float64 `json:"share_high"`
+	// Stability is how often two of the family's n-grams fall in the same
+	// family again when the windows are resampled with replacement and
+	// clustered anew: the mean over its pairs of n-grams, each pair
+	// weighted by the product of their weights, of the share of resamples
+	// holding both that put them together (a pairwise form of the
+	// bootstrap cluster stability of Hennig 2007, "Cluster-wise assessment
+	// of cluster stability", Computational Statistics & Data Analysis,
+	// which uses the Jaccard coefficient). Nil for a family of one n-gram.
+	Stability *float64 `json:"stability"`
 }
 
 // FamilySlot describes one slot of a family. A slot is dominant when it is
@@ -34,93 +64,302 @@ type FamilySlot struct {
 // slots carry.
 const DominantShare = 0.8
 
-// families clusters n-grams (distinct, ordered by activation) by their
-// slot-score vectors with agglomerative clustering under average linkage
-// (UPGMA: Sokal & Michener 1958, "A statistical method for evaluating
-// systematic relationships", Univ. Kansas Sci. Bull.) on Euclidean distance,
-// updated with the Lance–Williams formula. Merging stops when the smallest
-// average distance between clusters exceeds cut times the mean norm of the
-// vectors. Ties merge the pair with the lowest indices first, so the result
-// is deterministic.
-func families(ngrams []Ngram, cut float64) []Family {
-	n := len(ngrams)
-	if n == 0 {
+// Resamples of the family statistics.
+const (
+	familyStabilityResamples = 20
+	familyShareResamples     = 200
+)
+
+// familyItem is a distinct sampled n-gram above the threshold.
+type familyItem struct {
+	key     string
+	tokens  []string
+	slots   []float64
+	weight  float64
+	sampled int
+}
+
+// buildFamilies clusters the sampled windows of filter g at or above theta
+// (see famSample) and describes each family.
+func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float64, seed uint64) []Family {
+	ws, m := fs.above(theta)
+	if len(ws) == 0 {
 		return nil
 	}
-	var meanNorm float64
-	for _, g := range ngrams {
-		var s float64
-		for _, v := range g.Slots {
-			s += v * v
+	var items []familyItem
+	index := map[string]int{}
+	for _, w := range ws {
+		i, ok := index[w.key]
+		if !ok {
+			i = len(items)
+			index[w.key] = i
+			items = append(items, newFamilyItem(st, g, w.key))
 		}
-		meanNorm += math.Sqrt(s)
+		items[i].weight += w.weight
+		items[i].sampled++
 	}
-	meanNorm /= float64(n)
-	limit := cut * meanNorm
-	d := make([]float64, n*n)
-	for i := 0; i < n; i++ {
-		for j := i + 1; j < n; j++ {
-			var s float64
-			for k, v := range ngrams[i].Slots {
-				x := v - ngrams[j].Slots[k]
-				s += x * x
+	weights := make([]float64, len(items))
+	vecs := make([][]float64, len(items))
+	for i, it := range items {
+		weights[i], vecs[i] = it.weight, it.slots
+	}
+	var scratch upgmaScratch
+	labels := scratch.cut(vecs, weights, cut)
+	// Per stratum, the item of every sampled window (−1 below the
+	// threshold), for resampling.
+	var strata [famStrata][]int
+	for j := range famStrata {
+		for _, it := range fs.items[j] {
+			k := -1
+			if it.act >= theta {
+				k = index[it.key]
 			}
-			d[i*n+j], d[j*n+i] = math.Sqrt(s), math.Sqrt(s)
+			strata[j] = append(strata[j], k)
 		}
 	}
-	size := make([]int, n)
-	members := make([][]int, n)
-	alive := make([]bool, n)
-	for i := range size {
-		size[i], members[i], alive[i] = 1, []int{i}, true
-	}
-	for {
-		ba, bb, bd := -1, -1, math.Inf(1)
-		for a := 0; a < n; a++ {
-			if !alive[a] {
+	rng := rand.New(rand.NewPCG(seed, uint64(g)))
+	// resample draws each stratum's sample again with replacement; with
+	// census set, a stratum sampled whole is kept as it is (its windows
+	// carry no sampling error).
+	resample := func(dst []float64, census bool) {
+		clear(dst)
+		for j, ks := range strata {
+			if len(ks) == 0 {
 				continue
 			}
-			for b := a + 1; b < n; b++ {
-				if alive[b] && d[a*n+b] < bd {
-					ba, bb, bd = a, b, d[a*n+b]
+			w := float64(fs.n[j]) / float64(m[j])
+			if census && m[j] == fs.n[j] {
+				for _, k := range ks {
+					if k >= 0 {
+						dst[k] += w
+					}
+				}
+				continue
+			}
+			for range ks {
+				if k := ks[rng.IntN(len(ks))]; k >= 0 {
+					dst[k] += w
 				}
 			}
 		}
-		if ba < 0 || bd > limit {
-			break
+	}
+	fams := describeFamilies(items, labels)
+	familyShares(fams, labels, weights, func(dst []float64) { resample(dst, true) })
+	familyStability(fams, labels, vecs, weights, cut, func(dst []float64) { resample(dst, false) }, &scratch)
+	slices.SortStableFunc(fams, func(x, y Family) int { return cmp.Compare(y.Weight, x.Weight) })
+	return fams
+}
+
+func newFamilyItem(st *SlotTable, g int, key string) familyItem {
+	w := len(key) / 4
+	it := familyItem{key: key, tokens: make([]string, w), slots: make([]float64, w)}
+	for s := 0; s < w; s++ {
+		k := key[4*s:]
+		id := int32(uint32(k[0]) | uint32(k[1])<<8 | uint32(k[2])<<16 | uint32(k[3])<<24)
+		it.tokens[s] = wordOf(st.m, id)
+		it.slots[s] = float64(st.SlotScore(g, s, id))
+	}
+	return it
+}
+
+// upgmaCut clusters the weighted points x by average linkage (UPGMA: Sokal
+// & Michener 1958, "A statistical method for evaluating systematic
+// relationships", Univ. Kansas Sci. Bull.) on Euclidean distance, a
+// cluster's weight being the sum of its points' weights (so a point of
+// weight w acts as w identical windows), and cuts the tree where the
+// average distance between merged clusters exceeds cut times the weighted
+// mean norm of the points. The tree is built with the nearest-neighbour
+// chain (Murtagh 1983, "A survey of recent advances in hierarchical
+// clustering algorithms", The Computer Journal), which average linkage
+// allows because it is reducible; distances are updated with the
+// Lance–Williams formula. It returns each point's cluster label (0, 1, … in
+// order of first point). Points with weight 0 get label −1.
+func upgmaCut(x [][]float64, w []float64, cut float64) []int {
+	return new(upgmaScratch).cut(x, w, cut)
+}
+
+// upgmaScratch holds upgmaCut's buffers, reused over the resamples of one
+// filter.
+type upgmaScratch struct {
+	d, size       []float64
+	alive         []bool
+	parent, chain []int
+	merges        []merge
+}
+
+func (u *upgmaScratch) cut(x [][]float64, w []float64, cut float64) []int {
+	n := len(x)
+	labels := make([]int, n)
+	var idx []int // the points taking part
+	var meanNorm, total float64
+	for i := range x {
+		labels[i] = -1
+		if w[i] > 0 {
+			idx = append(idx, i)
+			meanNorm += w[i] * norm(x[i])
+			total += w[i]
 		}
-		na, nb := float64(size[ba]), float64(size[bb])
-		for k := 0; k < n; k++ {
-			if alive[k] && k != ba && k != bb {
-				v := (na*d[ba*n+k] + nb*d[bb*n+k]) / (na + nb)
-				d[ba*n+k], d[k*n+ba] = v, v
+	}
+	if len(idx) == 0 {
+		return labels
+	}
+	limit := cut * meanNorm / total
+	k := len(idx)
+	u.d = grow(u.d, k*k)
+	d := u.d
+	for a := 0; a < k; a++ {
+		for b := a + 1; b < k; b++ {
+			v := dist(x[idx[a]], x[idx[b]])
+			d[a*k+b], d[b*k+a] = v, v
+		}
+	}
+	u.parent = grow(u.parent, k)
+	parent := u.parent
+	for i := range parent {
+		parent[i] = i
+	}
+	for _, mg := range u.nnChain(d, k, w, idx) {
+		if mg.d <= limit {
+			union(parent, mg.a, mg.b)
+		}
+	}
+	next := map[int]int{}
+	for a := 0; a < k; a++ {
+		r := find(parent, a)
+		if _, ok := next[r]; !ok {
+			next[r] = len(next)
+		}
+		labels[idx[a]] = next[r]
+	}
+	return labels
+}
+
+type merge struct {
+	a, b int
+	d    float64
+}
+
+// nnChain returns the merges of the average-linkage tree over k clusters
+// with distance matrix d (k×k, overwritten) and weights w[idx[i]].
+func (u *upgmaScratch) nnChain(d []float64, k int, w []float64, idx []int) []merge {
+	u.size, u.alive = grow(u.size, k), grow(u.alive, k)
+	size, alive := u.size, u.alive
+	for i := range size {
+		size[i], alive[i] = w[idx[i]], true
+	}
+	merges, chain := u.merges[:0], u.chain[:0]
+	for left := k; left > 1; {
+		if len(chain) == 0 {
+			chain = append(chain, slices.Index(alive, true))
+		}
+		a := chain[len(chain)-1]
+		prev := -1
+		if len(chain) > 1 {
+			prev = chain[len(chain)-2]
+		}
+		// Nearest alive neighbour of a; the previous link wins ties, so
+		// the chain cannot cycle.
+		b, bd := prev, math.Inf(1)
+		if prev >= 0 {
+			bd = d[a*k+prev]
+		}
+		for j := 0; j < k; j++ {
+			if alive[j] && j != a && d[a*k+j] < bd {
+				b, bd = j, d[a*k+j]
 			}
 		}
-		size[ba] += size[bb]
-		members[ba] = append(members[ba], members[bb]...)
-		alive[bb] = false
-	}
-	var out []Family
-	for a := 0; a < n; a++ {
-		if alive[a] {
-			ms := members[a]
-			slices.Sort(ms)
-			out = append(out, describeFamily(ngrams, ms))
+		if b != prev {
+			chain = append(chain, b)
+			continue
 		}
+		chain = chain[:len(chain)-2]
+		merges = append(merges, merge{a: a, b: b, d: bd})
+		na, nb := size[a], size[b]
+		for j := 0; j < k; j++ {
+			if alive[j] && j != a && j != b {
+				v := (na*d[a*k+j] + nb*d[b*k+j]) / (na + nb)
+				d[a*k+j], d[j*k+a] = v, v
+			}
+		}
+		size[a] += nb
+		alive[b] = false
+		left--
 	}
-	slices.SortStableFunc(out, func(x, y Family) int { return cmp.Compare(y.Count, x.Count) })
+	u.merges, u.chain = merges, chain
+	return merges
+}
+
+// grow returns s resliced to n elements, reallocated when too short.
+func grow[T any](s []T, n int) []T {
+	if cap(s) < n {
+		return make([]T, n)
+	}
+	return s[:n]
+}
+
+func find(parent []int, a int) int {
+	for parent[a] != a {
+		parent[a] = parent[parent[a]]
+		a = parent[a]
+	}
+	return a
+}
+
+func union(parent []int, a, b int) {
+	ra, rb := find(parent, a), find(parent, b)
+	if ra < rb {
+		parent[rb] = ra
+	} else {
+		parent[ra] = rb
+	}
+}
+
+func norm(v []float64) float64 {
+	var s float64
+	for _, x := range v {
+		s += x * x
+	}
+	return math.Sqrt(s)
+}
+
+func dist(a, b []float64) float64 {
+	var s float64
+	for i, v := range a {
+		x := v - b[i]
+		s += x * x
+	}
+	return math.Sqrt(s)
+}
+
+// describeFamilies makes one Family per label.
+func describeFamilies(items []familyItem, labels []int) []Family {
+	nf := 0
+	for _, l := range labels {
+		nf = max(nf, l+1)
+	}
+	groups := make([][]int, nf)
+	for i, l := range labels {
+		groups[l] = append(groups[l], i)
+	}
+	out := make([]Family, nf)
+	for l, ms := range groups {
+		out[l] = describeFamily(items, ms)
+	}
 	return out
 }
 
-func describeFamily(ngrams []Ngram, ms []int) Family {
-	w := len(ngrams[ms[0]].Slots)
+func describeFamily(items []familyItem, ms []int) Family {
+	slices.SortStableFunc(ms, func(a, b int) int { return cmp.Compare(items[b].weight, items[a].weight) })
+	w := len(items[ms[0]].slots)
 	f := Family{Ngrams: len(ms), Centroid: make([]float64, w), Slots: make([]FamilySlot, w)}
 	for _, i := range ms {
-		f.Count += ngrams[i].Count
+		f.Weight += items[i].weight
+		f.Sampled += items[i].sampled
 	}
+	f.Count = int(math.Round(f.Weight))
 	for _, i := range ms {
-		for s, v := range ngrams[i].Slots {
-			f.Centroid[s] += v * float64(ngrams[i].Count) / float64(f.Count)
+		for s, v := range items[i].slots {
+			f.Centroid[s] += v * items[i].weight / f.Weight
 		}
 	}
 	order := make([]int, w)
@@ -143,7 +382,7 @@ func describeFamily(ngrams []Ngram, ms []int) Family {
 	for s := 0; s < w; s++ {
 		fs := FamilySlot{Slot: s, Wildcard: !dominant[s], Mean: f.Centroid[s]}
 		if dominant[s] {
-			fs.Words = topWordsAt(ngrams, ms, s, 3)
+			fs.Words = topWordsAt(items, ms, s, 3)
 			parts[s] = strings.Join(fs.Words, "|")
 		} else {
 			parts[s] = "*"
@@ -152,36 +391,126 @@ func describeFamily(ngrams []Ngram, ms []int) Family {
 	}
 	f.Pattern = strings.Join(parts, " ")
 	for _, i := range ms[:min(5, len(ms))] {
-		f.Members = append(f.Members, ngrams[i].Tokens)
+		f.Members = append(f.Members, items[i].tokens)
 	}
 	return f
 }
 
-// topWordsAt returns the k words most frequent (by text count) at slot s
-// among the members; ties keep the order of first appearance.
-func topWordsAt(ngrams []Ngram, ms []int, s, k int) []string {
-	count := map[string]int{}
+// topWordsAt returns the k words of largest weight at slot s among the
+// members; ties keep the order of first appearance.
+func topWordsAt(items []familyItem, ms []int, s, k int) []string {
+	weight := map[string]float64{}
 	var order []string
 	for _, i := range ms {
-		t := ngrams[i].Tokens[s]
-		if _, ok := count[t]; !ok {
+		t := items[i].tokens[s]
+		if _, ok := weight[t]; !ok {
 			order = append(order, t)
 		}
-		count[t] += ngrams[i].Count
+		weight[t] += items[i].weight
 	}
-	slices.SortStableFunc(order, func(a, b string) int { return cmp.Compare(count[b], count[a]) })
+	slices.SortStableFunc(order, func(a, b string) int { return cmp.Compare(weight[b], weight[a]) })
 	return order[:min(k, len(order))]
+}
+
+// familyShares sets each family's Share and its percentile interval.
+func familyShares(fams []Family, labels []int, weights []float64, resample func([]float64)) {
+	var total float64
+	for _, w := range weights {
+		total += w
+	}
+	shares := make([][]float64, len(fams))
+	rw := make([]float64, len(weights))
+	for range familyShareResamples {
+		resample(rw)
+		sums := make([]float64, len(fams))
+		var t float64
+		for i, w := range rw {
+			sums[labels[i]] += w
+			t += w
+		}
+		for l := range fams {
+			if t > 0 {
+				shares[l] = append(shares[l], sums[l]/t)
+			}
+		}
+	}
+	for l := range fams {
+		fams[l].Share = fams[l].Weight / total
+		fams[l].ShareLow, fams[l].ShareHigh = percentileInterval(shares[l], 0.95)
+	}
+}
+
+// familyStability clusters resampled weights anew and counts, for every
+// pair of n-grams of a family both present in a resample, how often they
+// share a family there; a family's figure weights its pairs by the product
+// of their weights.
+func familyStability(fams []Family, labels []int, vecs [][]float64, weights []float64, cut float64, resample func([]float64), scratch *upgmaScratch) {
+	n := len(labels)
+	together := make([]float64, n*n)
+	both := make([]float64, n*n)
+	rw := make([]float64, n)
+	for range familyStabilityResamples {
+		resample(rw)
+		rl := scratch.cut(vecs, rw, cut)
+		for i := 0; i < n; i++ {
+			if rl[i] < 0 {
+				continue
+			}
+			for j := i + 1; j < n; j++ {
+				if rl[j] < 0 || labels[i] != labels[j] {
+					continue
+				}
+				both[i*n+j]++
+				if rl[i] == rl[j] {
+					together[i*n+j]++
+				}
+			}
+		}
+	}
+	num := make([]float64, len(fams))
+	den := make([]float64, len(fams))
+	for i := 0; i < n; i++ {
+		for j := i + 1; j < n; j++ {
+			if labels[i] != labels[j] || both[i*n+j] == 0 {
+				continue
+			}
+			pw := weights[i] * weights[j]
+			num[labels[i]] += pw * together[i*n+j] / both[i*n+j]
+			den[labels[i]] += pw
+		}
+	}
+	for l := range fams {
+		if den[l] > 0 {
+			s := num[l] / den[l]
+			fams[l].Stability = &s
+		}
+	}
+}
+
+// percentileInterval returns the (1−level)/2 and (1+level)/2 empirical
+// quantiles of xs (nearest rank), or NaN, NaN without values.
+func percentileInterval(xs []float64, level float64) (lo, hi float64) {
+	if len(xs) == 0 {
+		return math.NaN(), math.NaN()
+	}
+	s := slices.Clone(xs)
+	slices.Sort(s)
+	at := func(q float64) float64 {
+		i := int(math.Ceil(q*float64(len(s)))) - 1
+		return s[min(max(i, 0), len(s)-1)]
+	}
+	return at((1 - level) / 2), at((1 + level) / 2)
 }
 
 // familyOf returns the index of the family of filter g whose centroid is
 // nearest (Euclidean) to the slot scores, or −1 when the activation is below
-// the filter's purity threshold or the filter has no families.
+// the filter's selectivity threshold or the filter has no families.
 func (p *Profiles) familyOf(g int, slots []float64, act float64) int {
 	if g >= len(p.Filters) {
 		return -1
 	}
 	pr := &p.Filters[g]
-	if act < pr.Threshold || len(pr.Families) == 0 || len(pr.Families[0].Centroid) != len(slots) {
+	if act < pr.Selectivity.Threshold || len(pr.Families) == 0 || len(pr.Families[0].Centroid) != len(slots) {
 		return -1
 	}
 	best, bd := -1, 0.0

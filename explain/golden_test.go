@@ -182,12 +182,14 @@ func TestGoldenExplainJSON(t *testing.T) {
 	}
 	text := "the crew was not friendly"
 	toks, ids := tokensOf(text, index)
-	e, err := Explain(m, toks, ids, ExplainOptions{Profiles: prof, Occlusion: true, OcclusionWidths: []int{2}, IG: true, IGSteps: 20})
+	e, err := Explain(m, toks, ids, ExplainOptions{Profiles: prof, Occlusion: true, OcclusionWidths: []int{2}, IG: true, KeptDown: 3})
 	if err != nil {
 		t.Fatal(err)
 	}
 	checkExact(t, m, ids, e)
+	checkIdentities(t, m, ids, e)
 	checkOcclusion(t, m, ids, e)
+	checkKeptDown(t, m, ids, e, 3)
 	b, err := json.Marshal(e)
 	if err != nil {
 		t.Fatal(err)
@@ -203,4 +205,14 @@ func TestGoldenExplainJSON(t *testing.T) {
 		t.Fatal(err)
 	}
 	golden(t, "paint.golden.txt", plain.Bytes())
+	var shares bytes.Buffer
+	for _, c := range []int{-1, 0, 1} {
+		if err := Paint(&shares, text, e, MethodExact, c, false); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := Paint(&shares, text, e, MethodIG, -1, false); err != nil {
+		t.Fatal(err)
+	}
+	golden(t, "paint-identified.golden.txt", shares.Bytes())
 }

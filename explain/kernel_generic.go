@@ -11,6 +11,18 @@ func poolBank(pre []float32, start []int32, bias []float32, rows [][]float32, w,
 	poolBankGo(pre, start, bias, rows, w, F, win)
 }
 
+// poolBankNeg is poolBank with the negative-window screen (see
+// poolBankNegGo).
+func poolBankNeg(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, sc *bankScreen, cands []negCand) []negCand {
+	return poolBankNegGo(pre, start, bias, rows, w, F, sc, cands)
+}
+
+// maxInto sets dst[f] = max(dst[f], x[f]) (see maxIntoGo).
+func maxInto(dst, x []float32) { maxIntoGo(dst, x) }
+
+// subMaxInto sets dst[f] = max(dst[f], a[f] − b[f]) (see subMaxIntoGo).
+func subMaxInto(dst, a, b []float32) { subMaxIntoGo(dst, a, b) }
+
 // kernelLevel names the implementation the dispatch functions use.
 const kernelLevel = "go"
 

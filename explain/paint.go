@@ -40,6 +40,9 @@ func ansi(i int, s string) string {
 // followed by its score, as in word[+0.42]. Text is the original text the
 // tokens' byte offsets point into; when it is empty or the offsets do not
 // fit it, the tokens are written separated by spaces. A legend line follows.
+//
+// Deprecated: not identified for exact and ig (it paints the shares of one
+// class's logit); use Paint.
 func WriteColored(w io.Writer, text string, e *Explanation, method string, class int, color bool) error {
 	if class < 0 || class >= len(e.Labels) {
 		return fmt.Errorf("explain: class %d: the model has classes 0…%d", class, len(e.Labels)-1)
@@ -48,6 +51,44 @@ func WriteColored(w io.Writer, text string, e *Explanation, method string, class
 	if scores == nil {
 		return fmt.Errorf("explain: the explanation has no %q attributions: ask for it in ExplainOptions", method)
 	}
+	target := e.Labels[class]
+	if method == MethodOcclusion {
+		target = e.Label
+	}
+	return paintScores(w, text, e, scores, fmt.Sprintf("%s for %q", method, target), color)
+}
+
+// Paint paints the explained text by one method's identified token scores
+// (Scores): class −1 paints the shares of the log-odds of the predicted
+// class against the runner-up, a class from 0 the shares of its centred
+// logit; occlusion paints the drop of p(ŷ) whatever class is. With color,
+// each token gets a 24-bit ANSI background on a diverging scale normalised
+// to the largest |score|; without, each token is followed by its score, as
+// in word[+0.42]. Text is the original text the tokens' byte offsets point
+// into; when it is empty or the offsets do not fit it, the tokens are
+// written separated by spaces. A legend line follows.
+func Paint(w io.Writer, text string, e *Explanation, method string, class int, color bool) error {
+	if class < -1 || class >= len(e.Labels) {
+		return fmt.Errorf("explain: class %d: the model has classes 0…%d (−1: the predicted one against the runner-up)", class, len(e.Labels)-1)
+	}
+	scores := Scores(e, method, class)
+	if scores == nil {
+		return fmt.Errorf("explain: the explanation has no %q attributions: ask for it in ExplainOptions", method)
+	}
+	var legend string
+	switch {
+	case method == MethodOcclusion:
+		legend = fmt.Sprintf("occlusion: drop of p(%s)", e.Label)
+	case class < 0:
+		legend = fmt.Sprintf("%s share of log p(%s)/p(%s)", method, e.Label, e.Labels[e.RunnerUp])
+	default:
+		legend = fmt.Sprintf("%s share of the centred logit of %q", method, e.Labels[class])
+	}
+	return paintScores(w, text, e, scores, legend, color)
+}
+
+// paintScores writes the text painted by scores, then the legend line.
+func paintScores(w io.Writer, text string, e *Explanation, scores []float64, legend string, color bool) error {
 	scale := 0.0
 	for _, v := range scores {
 		scale = max(scale, math.Abs(v))
@@ -80,11 +121,7 @@ func WriteColored(w io.Writer, text string, e *Explanation, method string, class
 		}
 	}
 	bw.WriteByte('\n')
-	target := e.Labels[class]
-	if method == MethodOcclusion {
-		target = e.Label
-	}
-	fmt.Fprintf(bw, "%s for %q: ", method, target)
+	fmt.Fprintf(bw, "%s: ", legend)
 	if color {
 		for i := range diverging {
 			bw.WriteString(ansi(i, "  "))

@@ -60,3 +60,36 @@ func TestWriteColoredANSI(t *testing.T) {
 		t.Fatal("no error for a class out of range")
 	}
 }
+
+// Paint writes the identified shares: the log-odds of the predicted class
+// against the runner-up by default, a class's centred logit when asked.
+func TestPaintIdentified(t *testing.T) {
+	e := paintCase()
+	e.RunnerUp = 1
+	e.LogOdds = Shares{Class: 0, Against: 1, Tokens: []float64{1.34, -0.52, 0}}
+	e.Centred = []Shares{{Class: 0, Against: AgainstMean, Tokens: []float64{0.67, -0.26, 0}},
+		{Class: 1, Against: AgainstMean, Tokens: []float64{-0.67, 0.26, 0}}}
+	var b bytes.Buffer
+	if err := Paint(&b, "Was not friendly!", e, MethodExact, -1, false); err != nil {
+		t.Fatal(err)
+	}
+	want := "Was not[+1.34] friendly[-0.52]![+0.00]\nexact share of log p(complaint)/p(praise): scores from -1.34 to +1.34 (negative against, positive for)\n"
+	if b.String() != want {
+		t.Fatalf("got %q\nwant %q", b.String(), want)
+	}
+	b.Reset()
+	if err := Paint(&b, "Was not friendly!", e, MethodExact, 1, false); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.HasPrefix(b.String(), "Was not[-0.67] friendly[+0.26]![+0.00]\nexact share of the centred logit of \"praise\"") {
+		t.Fatalf("got %q", b.String())
+	}
+	for _, c := range []struct {
+		method string
+		class  int
+	}{{MethodIG, -1}, {MethodExact, 2}, {MethodExact, -2}} {
+		if err := Paint(&b, "", e, c.method, c.class, false); err == nil {
+			t.Fatalf("%s class %d: no error", c.method, c.class)
+		}
+	}
+}

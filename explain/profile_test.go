@@ -287,72 +287,50 @@ func TestFamiliesMatchSciPy(t *testing.T) {
 		{0.5, []int{1, 3, 4, 1, 3, 5, 2, 3, 5, 1, 3, 4}},
 		{1.0, []int{1, 2, 3, 1, 2, 3, 1, 2, 3, 1, 2, 3}},
 	}
-	ngrams := make([]Ngram, len(pts))
-	for i, p := range pts {
-		ngrams[i] = Ngram{Slots: p, Count: 1, Tokens: []string{itoa(i), "x", "y"}}
+	ones := make([]float64, len(pts))
+	for i := range ones {
+		ones[i] = 1
 	}
 	for _, c := range cases {
-		fams := families(ngrams, c.cut)
-		got := map[string]bool{}
-		for _, f := range fams {
-			var ms []int
-			for _, mem := range f.Members {
-				ms = append(ms, atoiTest(mem[0]))
-			}
-			if f.Ngrams > 5 {
-				t.Skip("family larger than the member list")
-			}
-			slices.Sort(ms)
-			got[ngramKey(toIDs(ms))] = true
-		}
-		want := map[string]bool{}
-		groups := map[int][]int{}
-		for i, l := range c.labels {
-			groups[l] = append(groups[l], i)
-		}
-		for _, ms := range groups {
-			want[ngramKey(toIDs(ms))] = true
-		}
-		if len(got) != len(want) {
-			t.Fatalf("cut %g: %d families, SciPy %d", c.cut, len(got), len(want))
-		}
-		for k := range want {
-			if !got[k] {
-				t.Fatalf("cut %g: SciPy cluster %s missing; got %v", c.cut, k, got)
-			}
+		if got := upgmaCut(pts, ones, c.cut); !samePartition(got, c.labels) {
+			t.Fatalf("cut %g: labels %v, SciPy %v", c.cut, got, c.labels)
 		}
 	}
 }
 
-func toIDs(v []int) []int32 {
-	out := make([]int32, len(v))
-	for i, x := range v {
-		out[i] = int32(x)
+// samePartition reports whether two labelings group the points alike.
+func samePartition(a, b []int) bool {
+	if len(a) != len(b) {
+		return false
 	}
-	return out
-}
-
-func atoiTest(s string) int {
-	n := 0
-	for _, c := range s {
-		n = n*10 + int(c-'0')
+	ab, ba := map[int]int{}, map[int]int{}
+	for i := range a {
+		if x, ok := ab[a[i]]; ok && x != b[i] {
+			return false
+		}
+		if y, ok := ba[b[i]]; ok && y != a[i] {
+			return false
+		}
+		ab[a[i]], ba[b[i]] = b[i], a[i]
 	}
-	return n
+	return true
 }
 
 // A family's dominant slots carry at least DominantShare of its positive
-// mean mass, and wildcards are shown as "*" in the pattern.
+// mean mass, wildcards are shown as "*" in the pattern, and its weight is
+// the sum of its n-grams' weights.
 func TestFamilyDescription(t *testing.T) {
-	ngrams := []Ngram{
-		{Tokens: []string{"very", "good", "food"}, Slots: []float64{0.1, 2.0, 0.05}, Count: 3},
-		{Tokens: []string{"so", "good", "staff"}, Slots: []float64{0.2, 2.1, -0.1}, Count: 1},
+	items := []familyItem{
+		{tokens: []string{"very", "good", "food"}, slots: []float64{0.1, 2.0, 0.05}, weight: 3, sampled: 3},
+		{tokens: []string{"so", "good", "staff"}, slots: []float64{0.2, 2.1, -0.1}, weight: 1, sampled: 1},
 	}
-	fams := families(ngrams, 0.5)
+	labels := upgmaCut([][]float64{items[0].slots, items[1].slots}, []float64{3, 1}, 0.5)
+	fams := describeFamilies(items, labels)
 	if len(fams) != 1 {
 		t.Fatalf("%d families, want 1", len(fams))
 	}
 	f := fams[0]
-	if f.Pattern != "* good *" || f.Count != 4 || f.Ngrams != 2 {
+	if f.Pattern != "* good *" || f.Count != 4 || f.Ngrams != 2 || f.Sampled != 4 {
 		t.Fatalf("family %+v, want pattern \"* good *\" over 4 texts", f)
 	}
 }

@@ -34,6 +34,13 @@ type Runner struct {
 	win   [][]float32   // [bank] windows × filters pre-activations (kept when keep)
 	keep  bool
 	p     Pass
+	// screen, when not nil, makes pool collect the windows that pass each
+	// bank's negative-window screen into cands (see poolBankNegGo).
+	screen []bankScreen
+	cands  [][]negCand // [bank]
+	// occPM and occSM are the occluder's prefix and suffix maxima, kept
+	// for the next explanation.
+	occPM, occSM [][]float32
 }
 
 // NewRunner returns a Runner over st.
@@ -120,6 +127,10 @@ func (r *Runner) pool() {
 			r.win[b] = r.win[b][:nw*F]
 			win = r.win[b]
 		}
+		if r.screen != nil {
+			r.cands[b] = poolBankNeg(r.p.Pre[b*F:(b+1)*F], r.p.Start[b*F:(b+1)*F], tb.bias, r.rows[b][:n], w, F, &r.screen[b], r.cands[b][:0])
+			continue
+		}
 		poolBank(r.p.Pre[b*F:(b+1)*F], r.p.Start[b*F:(b+1)*F], tb.bias, r.rows[b][:n], w, F, win)
 	}
 	for g, a := range r.p.Pre {
@@ -191,4 +202,7 @@ func Scan(ctx context.Context, st *SlotTable, ids [][]int32, workers int, progre
 	return ctx.Err()
 }
 
-var negInf = float32(math.Inf(-1))
+var (
+	negInf = float32(math.Inf(-1))
+	posInf = float32(math.Inf(1))
+)

@@ -57,9 +57,10 @@ func spamTexts(t *testing.T, perGroup, maxLen int) (texts [][]string, gold []int
 	return texts, gold
 }
 
-// The slot-score identity and the exact decomposition on real e-mails, for
-// random models over a vocabulary built from those e-mails (words seen at
-// least twice; the rest map to UNK).
+// The slot-score identity, the exact decompositions, kept-down windows,
+// negative n-grams (by brute force) and the invariance of every shown
+// number on real e-mails, for random models over a vocabulary built from
+// those e-mails (words seen at least twice; the rest map to UNK).
 func TestSpamAssassinIdentities(t *testing.T) {
 	perGroup := 120
 	if testing.Short() {
@@ -117,14 +118,20 @@ func TestSpamAssassinIdentities(t *testing.T) {
 		}
 		st := mustTable(t, m, TableOptions{})
 		for i, text := range ids {
-			e, err := Explain(m, nil, text, ExplainOptions{Table: st, Profiles: prof, Occlusion: i%40 == 0})
+			e, err := Explain(m, nil, text, ExplainOptions{Table: st, Profiles: prof, Occlusion: i%40 == 0, IG: true, KeptDown: 3})
 			if err != nil {
 				t.Fatal(err)
 			}
 			checkExact(t, m, text, e)
+			checkIdentities(t, m, text, e)
+			checkKeptDown(t, m, text, e, 3)
 			if i%40 == 0 {
 				checkOcclusion(t, m, text, e)
+				checkInvariant(t, m, text, ExplainOptions{Table: st, Occlusion: true, IG: true, KeptDown: 3}, rng)
 			}
+		}
+		for g := range prof.Filters {
+			checkNegatives(t, m, ids, &prof.Filters[g], 10, 3)
 		}
 	}
 }

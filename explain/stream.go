@@ -44,12 +44,13 @@ const batchTexts = 256
 // scanStream runs the texts of next through st with workers goroutines,
 // reading ahead at most 2·workers batches of batchTexts texts, and calls fn
 // with each text's pass as Scan does (worker, index in the stream, gold,
-// pass). A single goroutine reads next and checks every id (< VocabSize)
+// pass); prepare, when not nil, is called once with each worker's Runner
+// before its first text. A single goroutine reads next and checks every id (< VocabSize)
 // and gold class (−1 or a class of the model); counts, when not nil, gets
 // each word's number of occurrences. It returns the number of texts read,
 // and the source's error, a check's error or ctx.Err().
 func scanStream(ctx context.Context, st *SlotTable, next TextSource, workers int, progress Progress, total int,
-	counts []int, fn func(worker, text, gold int, p *Pass)) (int, error) {
+	counts []int, prepare func(worker int, r *Runner), fn func(worker, text, gold int, p *Pass)) (int, error) {
 	if workers <= 0 {
 		workers = runtime.GOMAXPROCS(0)
 	}
@@ -120,6 +121,9 @@ func scanStream(ctx context.Context, st *SlotTable, next TextSource, workers int
 		go func() {
 			defer wg.Done()
 			r := st.NewRunner()
+			if prepare != nil {
+				prepare(wk, r)
+			}
 			for b := range work {
 				if ctx.Err() == nil {
 					lo := 0

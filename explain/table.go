@@ -55,6 +55,9 @@ type SlotTable struct {
 	words []int32 // tabled ids by row
 	banks []tableBank
 	bytes int64
+	// explainers holds Runners kept for Explain, so that explaining text
+	// after text reuses their buffers.
+	explainers sync.Pool
 }
 
 type tableBank struct {

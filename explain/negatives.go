@@ -1,0 +1,354 @@
+package explain
+
+import (
+	"cmp"
+	"slices"
+	"unsafe"
+)
+
+// NegativeNgram is a corpus window of one filter whose positive slots alone
+// would pass the filter's selectivity threshold but whose negative slots
+// hold it below: Positive ≥ Threshold > Activation. Jacovi, Sar Shalom &
+// Goldberg (2018, "Understanding Convolutional Neural Networks for Text
+// Classification", BlackboxNLP, §5) show that filters are defined by such
+// n-grams too: a negation in one slot keeping a praise filter quiet.
+type NegativeNgram struct {
+	IDs    []int32   `json:"ids"`
+	Tokens []string  `json:"tokens"`
+	Slots  []float64 `json:"slots"` // slot scores; bias + Σ Slots = Activation
+	// Activation is the window's pre-activation, below the threshold.
+	Activation float64 `json:"activation"`
+	// Positive is bias + Σ of the positive slot scores, at or above the
+	// threshold.
+	Positive float64 `json:"positive"`
+	// HeldDown = Positive − Activation, minus the sum of the negative slot
+	// scores: how far the negative slots held the window down (the
+	// ranking).
+	HeldDown float64 `json:"held_down"`
+	// NegativeSlots lists the slots with negative scores and Words their
+	// words.
+	NegativeSlots []int    `json:"negative_slots"`
+	Words         []string `json:"words"`
+	Count         int      `json:"count"`    // windows of the corpus equal to it, winning or not
+	Examples      []int    `json:"examples"` // smallest indices of texts holding it
+}
+
+// skyline keeps, for one filter, every distinct corpus window that might be
+// among the k negative n-grams with the largest HeldDown for any threshold,
+// which is not known until the pass ends.
+//
+// Window y dominates window x when P_y ≥ P_x and a_y ≤ a_x (ties broken by
+// the ids, so that dominance is a strict order): for every threshold θ, x
+// valid (P_x ≥ θ > a_x) makes y valid, and y then holds at least as far
+// down (P_y − a_y ≥ P_x − a_x). A window with k dominators can never be in
+// the top k, and neither can any window it dominates, so the skyline keeps
+// exactly the windows seen with fewer than k dominators (the k-skyline): an
+// evicted window's dominators stay dominated by at least k kept ones, so
+// the count over the kept ones decides membership. A window once out stays
+// out; a kept window sees every occurrence, so its count is exact. For
+// random points its size grows like k·ln(n).
+//
+// The search covers the thresholds of a band [lo, hi] (see bankScreen). A
+// window negative for every threshold of the band (P ≥ hi, a < lo) beats,
+// for every threshold, any window that holds down less; so the k largest
+// HeldDown values of such windows (best, a min-heap) give a floor dmin
+// below which a window can be dropped, and kept ones are dropped from the
+// skyline too.
+type skyline struct {
+	k     int
+	keep  int // examples per n-gram
+	index map[string]*skyEntry
+	items []*skyEntry
+	// fresh counts insertions since the screen was last updated.
+	fresh  int
+	lo, hi float32
+	best   []float32 // min-heap of the k largest HeldDown of band-wide windows
+	floor  float32   // the floor the screen was last given
+}
+
+type skyEntry struct {
+	key      string // the window's ids, 4 bytes each
+	a, p     float32
+	dom      int // dominators seen (stops at k)
+	count    int
+	examples []int
+	inBest   bool // its HeldDown is in best
+}
+
+func newSkyline(k, keep int) *skyline {
+	return &skyline{k: k, keep: keep, index: map[string]*skyEntry{}, lo: negInf, hi: posInf, floor: negInf}
+}
+
+// dmin is the HeldDown floor (−Inf while best holds fewer than k values).
+func (s *skyline) dmin() float32 {
+	if len(s.best) < s.k {
+		return negInf
+	}
+	return s.best[0]
+}
+
+// setBand narrows the band to [lo, hi] (inside the one before) and adds
+// to best the kept windows that are now negative for all of it.
+func (s *skyline) setBand(lo, hi float32) {
+	s.lo, s.hi = lo, hi
+	for _, e := range s.items {
+		s.noteBest(e)
+	}
+	s.fresh++
+}
+
+// noteBest adds e's HeldDown to best when e is negative for the whole band.
+func (s *skyline) noteBest(e *skyEntry) {
+	if e.inBest || !(e.p >= s.hi && e.a < s.lo) {
+		return
+	}
+	e.inBest = true
+	s.best = pushLargest(s.best, e.p-e.a, s.k)
+}
+
+// pushLargest keeps the k largest values in a min-heap h.
+func pushLargest(h []float32, v float32, k int) []float32 {
+	if len(h) == k {
+		if v <= h[0] {
+			return h
+		}
+		h[0] = v
+	} else {
+		h = append(h, v)
+		for i := len(h) - 1; i > 0; {
+			p := (i - 1) / 2
+			if h[p] <= h[i] {
+				return h
+			}
+			h[p], h[i] = h[i], h[p]
+			i = p
+		}
+		return h
+	}
+	for i := 0; ; {
+		l, r, m := 2*i+1, 2*i+2, i
+		if l < len(h) && h[l] < h[m] {
+			m = l
+		}
+		if r < len(h) && h[r] < h[m] {
+			m = r
+		}
+		if m == i {
+			return h
+		}
+		h[i], h[m] = h[m], h[i]
+		i = m
+	}
+}
+
+// dominates reports whether y dominates x (see skyline).
+func dominates(y, x *skyEntry) bool {
+	if y.p < x.p || y.a > x.a {
+		return false
+	}
+	return y.p > x.p || y.a < x.a || y.key < x.key
+}
+
+// add records one occurrence in text of the window whose ids are encoded
+// in kb (4 bytes each, least significant first), with pre-activation a and
+// positive part p. Items are kept in the order of descending P, then
+// ascending a and ids, so that a window's dominators all come before its
+// place and the windows it dominates all after.
+func (s *skyline) add(kb []byte, a, p float32, text int) {
+	key := unsafe.String(unsafe.SliceData(kb), len(kb))
+	if e, ok := s.index[key]; ok {
+		e.count++
+		if !slices.Contains(e.examples, text) {
+			e.examples = insertSmallest(e.examples, text, s.keep)
+		}
+		return
+	}
+	if p-a < s.dmin() {
+		return
+	}
+	at := s.place(key, a, p)
+	d := 0
+	for _, y := range s.items[:at] {
+		if y.a <= a && (y.p > p || y.a < a || y.key < key) {
+			if d++; d >= s.k {
+				return
+			}
+		}
+	}
+	x := &skyEntry{key: string(kb), a: a, p: p, dom: d, count: 1, examples: []int{text}} // kb is a reused buffer
+	s.noteBest(x)
+	s.items = slices.Insert(s.items, at, x)
+	kept := s.items[:at+1]
+	for _, y := range s.items[at+1:] {
+		if y.a >= x.a && dominates(x, y) {
+			y.dom++
+		}
+		if y.dom < s.k {
+			kept = append(kept, y)
+		} else {
+			delete(s.index, y.key)
+		}
+	}
+	clear(s.items[len(kept):])
+	s.items = kept
+	s.index[x.key] = x
+	s.fresh++
+}
+
+// place is where a window (key, a, p) goes in the order of skyOrder: after
+// every kept window y with skyOrder(y, window) < 0.
+func (s *skyline) place(key string, a, p float32) int {
+	lo, hi := 0, len(s.items)
+	for lo < hi {
+		mid := int(uint(lo+hi) >> 1)
+		y := s.items[mid]
+		if cmp.Or(cmp.Compare(p, y.p), cmp.Compare(y.a, a), cmp.Compare(y.key, key)) < 0 {
+			lo = mid + 1
+		} else {
+			hi = mid
+		}
+	}
+	return lo
+}
+
+// skyOrder sorts by descending P, then ascending a, then ids.
+func skyOrder(x, y *skyEntry) int {
+	return cmp.Or(cmp.Compare(y.p, x.p), cmp.Compare(x.a, y.a), cmp.Compare(x.key, y.key))
+}
+
+// screen writes the skyline's staircase corners for filter f into sc: a
+// corner (P, a) is such that k kept windows have P_y ≥ P and a_y ≤ a, so a
+// window with P_x < P and a_x ≥ a has k dominators. The corners are spread
+// over the staircase. It does nothing while fewer than k windows are kept.
+func (s *skyline) screen(sc *bankScreen, f int) {
+	s.fresh = 0
+	floor := s.dmin()
+	sc.dmin[f], s.floor = max(floor, minHeldDown), floor
+	kept := s.items[:0]
+	for _, e := range s.items {
+		if e.p-e.a >= floor {
+			kept = append(kept, e)
+		} else {
+			delete(s.index, e.key)
+		}
+	}
+	clear(s.items[len(kept):])
+	s.items = kept
+	n := len(s.items)
+	if n < s.k {
+		return
+	}
+	// Sweep down in P keeping the k smallest a seen (a max-heap).
+	heap := make([]float32, 0, s.k)
+	stair := make([][2]float32, 0, n-s.k+1)
+	for _, e := range s.items {
+		heap = pushSmallest(heap, e.a, s.k)
+		if len(heap) == s.k {
+			stair = append(stair, [2]float32{e.p, heap[0]})
+		}
+	}
+	const k = corners - 2 // the first two corners hold the band
+	for i := range k {
+		c := stair[i*(len(stair)-1)/(k-1)]
+		sc.pc[2+i][f], sc.ac[2+i][f] = c[0], c[1]
+	}
+}
+
+// pushSmallest keeps the k smallest values in a max-heap h.
+func pushSmallest(h []float32, v float32, k int) []float32 {
+	if len(h) < k {
+		h = append(h, v)
+		for i := len(h) - 1; i > 0; {
+			p := (i - 1) / 2
+			if h[p] >= h[i] {
+				break
+			}
+			h[p], h[i] = h[i], h[p]
+			i = p
+		}
+		return h
+	}
+	if v >= h[0] {
+		return h
+	}
+	h[0] = v
+	for i := 0; ; {
+		l, r, m := 2*i+1, 2*i+2, i
+		if l < len(h) && h[l] > h[m] {
+			m = l
+		}
+		if r < len(h) && h[r] > h[m] {
+			m = r
+		}
+		if m == i {
+			break
+		}
+		h[i], h[m] = h[m], h[i]
+		i = m
+	}
+	return h
+}
+
+// needsScreen reports whether enough windows were added since the last
+// screen update to make another worth its cost (a sort of the skyline).
+func (s *skyline) needsScreen() bool {
+	return s.fresh > 0 && (len(s.items) < 4*s.k || s.fresh >= len(s.items)/8 || s.dmin() > s.floor)
+}
+
+// negativeNgrams merges the workers' skylines of filter g and returns the
+// valid windows (P ≥ θ > a, in float32 as the kernels computed them) with
+// the largest HeldDown, ties by ids, at most k. Counts add up over workers:
+// a window among the top k is kept by every worker that saw it.
+func negativeNgrams(st *SlotTable, g int, skies []*skyline, theta float32, k, keep int) []NegativeNgram {
+	merged := map[string]*skyEntry{}
+	for _, s := range skies {
+		for _, e := range s.items {
+			if !(e.p >= theta && e.a < theta) {
+				continue
+			}
+			if x, ok := merged[e.key]; ok {
+				x.count += e.count
+				for _, t := range e.examples {
+					if !slices.Contains(x.examples, t) {
+						x.examples = insertSmallest(x.examples, t, keep)
+					}
+				}
+			} else {
+				cp := *e
+				cp.examples = slices.Clone(e.examples)
+				merged[e.key] = &cp
+			}
+		}
+	}
+	all := make([]*skyEntry, 0, len(merged))
+	for _, e := range merged {
+		all = append(all, e)
+	}
+	slices.SortFunc(all, func(x, y *skyEntry) int {
+		return cmp.Or(cmp.Compare(y.p-y.a, x.p-x.a), cmp.Compare(x.key, y.key))
+	})
+	out := make([]NegativeNgram, 0, min(k, len(all)))
+	for _, e := range all[:min(k, len(all))] {
+		out = append(out, makeNegative(st, g, e))
+	}
+	return out
+}
+
+func makeNegative(st *SlotTable, g int, e *skyEntry) NegativeNgram {
+	m := st.m
+	w := len(e.key) / 4
+	n := NegativeNgram{IDs: make([]int32, w), Tokens: make([]string, w), Slots: make([]float64, w),
+		Activation: float64(e.a), Positive: float64(e.p), HeldDown: float64(e.p) - float64(e.a),
+		Count: e.count, Examples: e.examples}
+	for s := 0; s < w; s++ {
+		k := e.key[4*s:]
+		id := int32(uint32(k[0]) | uint32(k[1])<<8 | uint32(k[2])<<16 | uint32(k[3])<<24)
+		n.IDs[s], n.Tokens[s] = id, wordOf(m, id)
+		n.Slots[s] = float64(st.SlotScore(g, s, id))
+		if n.Slots[s] < 0 {
+			n.NegativeSlots = append(n.NegativeSlots, s)
+			n.Words = append(n.Words, n.Tokens[s])
+		}
+	}
+	return n
+}

@@ -1,0 +1,168 @@
+package explain
+
+import "math"
+
+// occluder recomputes the pooled units after replacing some tokens of a
+// short stretch of the text with PAD, touching only the windows that contain
+// a replaced token: the maximum over the other windows comes from prefix and
+// suffix maxima of the kept window pre-activations.
+type occluder struct {
+	r      *Runner
+	e      *Explanation
+	pm, sm [][]float32 // [bank] prefix / suffix maxima, windows × filters
+	acc    []float32
+	newMax []float32
+	pooled []float32 // NumFilters: the pooled units of the edited text
+	z      []float64 // the logits of the edited text
+	y      int
+	logP   float64
+}
+
+func newOccluder(r *Runner, e *Explanation) *occluder {
+	st := r.st
+	o := &occluder{r: r, e: e, y: e.Class,
+		acc:    make([]float32, st.m.Config.Filters),
+		newMax: make([]float32, st.m.Config.Filters),
+		pooled: make([]float32, st.m.Config.NumFilters()),
+		z:      make([]float64, len(e.Logits))}
+	o.logP = logSoftmax64(e.Logits, e.Class)
+	r.occPM, r.occSM = grow(r.occPM, len(st.banks)), grow(r.occSM, len(st.banks))
+	for b := range st.banks {
+		F := st.banks[b].filters
+		win := r.win[b]
+		nw := len(win) / F
+		r.occPM[b], r.occSM[b] = grow(r.occPM[b], len(win)), grow(r.occSM[b], len(win))
+		pm, sm := r.occPM[b], r.occSM[b]
+		copy(pm, win)
+		for t := 1; t < nw; t++ {
+			maxInto(pm[t*F:(t+1)*F], pm[(t-1)*F:t*F])
+		}
+		copy(sm, win)
+		for t := nw - 2; t >= 0; t-- {
+			maxInto(sm[t*F:(t+1)*F], sm[(t+1)*F:(t+2)*F])
+		}
+		o.pm = append(o.pm, pm)
+		o.sm = append(o.sm, sm)
+	}
+	return o
+}
+
+// span returns the drop in p(ŷ) and log p(ŷ) when tokens lo … hi (inclusive)
+// are replaced with PAD.
+func (o *occluder) span(lo, hi int) (drop, dropLog float64) {
+	if lo == hi {
+		o.single(lo)
+	} else {
+		o.apply(lo, hi, nil)
+	}
+	return o.drops()
+}
+
+// single is apply for the one token i: a window holding it loses that
+// token's slot score (PAD scores zero), so its new pre-activation is the
+// kept one minus that score.
+func (o *occluder) single(i int) {
+	r := o.r
+	st := r.st
+	m := st.m
+	nf := m.Config.NumFilters()
+	copy(o.z, o.e.Logits)
+	copy(o.pooled, r.p.Pooled)
+	n := r.p.Len
+	for b := range st.banks {
+		tb := &st.banks[b]
+		F, w := tb.filters, tb.width
+		nw := n - w + 1
+		t0, t1 := max(0, i-w+1), min(i, nw-1)
+		nm := o.newMax[:F]
+		if t0 > 0 {
+			copy(nm, o.pm[b][(t0-1)*F:t0*F])
+		} else {
+			for f := range nm {
+				nm[f] = negInf
+			}
+		}
+		if t1+1 < nw {
+			maxInto(nm, o.sm[b][(t1+1)*F:(t1+2)*F])
+		}
+		row := r.rows[b][i]
+		win := r.win[b]
+		for t := t0; t <= t1; t++ {
+			s := i - t
+			subMaxInto(nm, win[t*F:(t+1)*F], row[s*F:(s+1)*F])
+		}
+		for f, a := range nm {
+			g := b*F + f
+			h := max(a, 0)
+			if dh := float64(h) - float64(r.p.Pooled[g]); dh != 0 && !m.IsMasked(g) {
+				o.pooled[g] = h
+				for c := range o.z {
+					o.z[c] += float64(m.OutW[c*nf+g]) * dh
+				}
+			}
+		}
+	}
+}
+
+// drops compares the edited logits o.z with the text's.
+func (o *occluder) drops() (drop, dropLog float64) {
+	lp := logSoftmax64(o.z, o.y)
+	return math.Exp(o.logP) - math.Exp(lp), o.logP - lp
+}
+
+// apply sets o.z and o.pooled to the logits and pooled units of the text
+// with the tokens i in lo … hi (inclusive) replaced by PAD, all of them when
+// keep is nil and those with keep(i) false otherwise.
+func (o *occluder) apply(lo, hi int, keep func(i int) bool) {
+	r := o.r
+	st := r.st
+	m := st.m
+	nf := m.Config.NumFilters()
+	copy(o.z, o.e.Logits)
+	copy(o.pooled, r.p.Pooled)
+	n := r.p.Len
+	for b := range st.banks {
+		tb := &st.banks[b]
+		F, w := tb.filters, tb.width
+		nw := n - w + 1
+		t0, t1 := max(0, lo-w+1), min(hi, nw-1)
+		nm := o.newMax
+		for f := range nm {
+			nm[f] = negInf
+		}
+		if t0 > 0 {
+			copy(nm, o.pm[b][(t0-1)*F:t0*F])
+		}
+		if t1+1 < nw {
+			sm := o.sm[b][(t1+1)*F : (t1+2)*F]
+			for f, v := range sm {
+				nm[f] = max(nm[f], v)
+			}
+		}
+		rows := r.rows[b]
+		for t := t0; t <= t1; t++ {
+			copy(o.acc, tb.bias)
+			for s := 0; s < w; s++ {
+				if i := t + s; i < lo || i > hi || (keep != nil && keep(i)) {
+					addTo(o.acc, rows[i][s*F:(s+1)*F])
+				}
+			}
+			for f, a := range o.acc {
+				nm[f] = max(nm[f], a)
+			}
+		}
+		for f, a := range nm {
+			g := b*F + f
+			if m.IsMasked(g) {
+				continue
+			}
+			h := max(a, 0)
+			o.pooled[g] = h
+			if dh := float64(h) - float64(r.p.Pooled[g]); dh != 0 {
+				for c := range o.z {
+					o.z[c] += float64(m.OutW[c*nf+g]) * dh
+				}
+			}
+		}
+	}
+}
