@@ -331,7 +331,6 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 	if err != nil {
 		return nil, err
 	}
-	inHeldout(res)
 	out := &auditJSON{Result: res, Story: res.Story(), HeldoutSplit: r.es.name, MarksFile: r.o.marksPath()}
 	results := []*audit.Result{res}
 	for k := range r.o.seeds {
@@ -368,27 +367,6 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 		out.MaskedModel = r.o.maskedOut
 	}
 	return out, nil
-}
-
-// inHeldout numbers the quoted examples of r by their place in the
-// held-out split (the audit numbers them within their half), as the JSON
-// documents them.
-func inHeldout(r *audit.Result) {
-	for _, list := range [][]audit.Candidate{r.Ranked, r.Task, r.Others} {
-		for _, c := range list {
-			for _, h := range []struct {
-				rl  *audit.Reliance
-				idx []int
-			}{{c.Reliance, r.Selection}, {c.Confirmed, r.Confirmation}} {
-				if h.rl == nil {
-					continue
-				}
-				for k := range h.rl.Examples {
-					h.rl.Examples[k].Index = h.idx[h.rl.Examples[k].Index]
-				}
-			}
-		}
-	}
 }
 
 // one audits model m on the splits with marks; what prefixes the progress.

@@ -52,7 +52,7 @@ func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate
 	}
 	for k, c := range list {
 		a.progress("reliance", k, len(list))
-		r, err := a.job(c, a.sel, a.selBase, c.selOcc, "selection").measure(ctx, a.st, a.opt.Workers)
+		r, err := a.job(c, a.sel, a.selIdx, a.selBase, c.selOcc, "selection").measure(ctx, a.st, a.opt.Workers)
 		if err != nil {
 			return nil, err
 		}
@@ -69,9 +69,10 @@ func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate
 	return list, nil
 }
 
-// job is the reliance measurement of cue c on one half.
-func (a *auditor) job(c *Candidate, half Data, base *basePass, occ []span, which string) *relianceJob {
-	return &relianceJob{key: c.Text + "/" + which, class: c.Class, occ: occ, half: half, base: base, neutral: a.neutral,
+// job is the reliance measurement of cue c on one half; index maps the
+// half's texts to the held-out split's.
+func (a *auditor) job(c *Candidate, half Data, index []int, base *basePass, occ []span, which string) *relianceJob {
+	return &relianceJob{key: c.Text + "/" + which, class: c.Class, occ: occ, half: half, index: index, base: base, neutral: a.neutral,
 		draws: a.opt.Draws, maxTexts: a.opt.MaxTexts, boot: a.opt.Bootstrap, seed: a.opt.Seed, labels: a.labels,
 		vocab: a.vocab, examples: a.opt.Examples}
 }
@@ -162,7 +163,7 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	}
 	for k, c := range todo {
 		a.progress("confirmation", k, len(todo))
-		r, err := a.job(c, a.conf, a.confBase, c.confOcc, "confirmation").measure(ctx, a.st, a.opt.Workers)
+		r, err := a.job(c, a.conf, a.confIdx, a.confBase, c.confOcc, "confirmation").measure(ctx, a.st, a.opt.Workers)
 		if err != nil {
 			return err
 		}
