@@ -47,15 +47,27 @@ type Options struct {
 	// texts each half must have (default 30).
 	MaxHeldout int
 	MinHalf    int
-	// Top is the number of cues listed in each list (default 15);
+	// Top is the number of cues listed in each list, besides the marked
+	// ones, which are always listed (default 15);
 	// Examples the quoted texts per cue (default 2).
 	Top      int
 	Examples int
 	// Marks are a person's verdicts (nil: none).
 	Marks *Marks
-	// ModelFile, TrainFile and HeldoutFile name the files in the commands
-	// the story suggests.
+	// ModelFile, TrainFile and HeldoutFile name the files the audit read
+	// (the Result keeps them).
 	ModelFile, TrainFile, HeldoutFile string
+	// HeldoutShare says the held-out texts are a share held out of the
+	// data the model was trained on (its test split), not a file of their
+	// own: a message on too few held-out texts then says to hold out a
+	// larger share.
+	HeldoutShare bool
+	// RetrainCommands renders the command lines, for a POSIX shell and
+	// runnable as they are, that take the cues out of the training text by
+	// their patterns (Action.Patterns) and train the model's recipe again
+	// on its own splits. Nil: the story lists the patterns and says what to
+	// do in words.
+	RetrainCommands func(patterns []string) []string
 	// Seed seeds the halves, the edits and the bootstrap.
 	Seed uint64
 	// Workers is the number of goroutines (0: GOMAXPROCS); TableBytes
@@ -240,6 +252,7 @@ type Result struct {
 	// are marked task), most relied on first.
 	Task []Candidate `json:"relied_on_reads_like_the_task"`
 	// Others are the remaining associated cues, most associated first.
+	// Each list holds its first Options.Top cues and every marked cue.
 	Others []Candidate `json:"others,omitempty"`
 	// Action is what to do; its cues are the Ranked ones acted on.
 	Action          Action `json:"action"`
@@ -366,8 +379,13 @@ func (a *auditor) halves(heldout Data) error {
 	slices.Sort(sel)
 	slices.Sort(conf)
 	if len(sel) < a.opt.MinHalf || len(conf) < a.opt.MinHalf {
-		return fmt.Errorf("audit: the %s has %d texts: too few for the tests, which need %d in each of its two halves; give a larger held-out file: %w",
-			heldout.name("held-out"), heldout.Len(), a.opt.MinHalf, ErrInput)
+		fix := "give a larger file of held-out texts (--test FILE)"
+		if a.opt.HeldoutShare {
+			fix = "hold out a larger share of the data as the test split (train the model again with a larger --test-frac), " +
+				"or give a larger file of held-out texts (--test FILE)"
+		}
+		return fmt.Errorf("audit: the %s has %d texts: too few for the tests, which need %d in each of its two halves; %s: %w",
+			heldout.name("held-out"), heldout.Len(), a.opt.MinHalf, fix, ErrInput)
 	}
 	a.sel, a.conf = heldout.subset(sel), heldout.subset(conf)
 	a.selIdx, a.confIdx = sel, conf

@@ -136,13 +136,21 @@ func (a *auditor) result(cands, measured []*Candidate) *Result {
 	for _, c := range ranked {
 		res.Ranked = append(res.Ranked, *c)
 	}
-	for _, c := range task[:min(len(task), a.opt.Top)] {
-		res.Task = append(res.Task, *c)
-	}
-	for _, c := range others[:min(len(others), a.opt.Top)] {
-		res.Others = append(res.Others, *c)
-	}
+	res.Task = firstAndMarked(task, a.opt.Top)
+	res.Others = firstAndMarked(others, a.opt.Top)
 	return res
+}
+
+// firstAndMarked is the first top cues of cs and every marked cue after
+// them: a person's verdict is always shown.
+func firstAndMarked(cs []*Candidate, top int) []Candidate {
+	out := []Candidate{}
+	for k, c := range cs {
+		if k < top || c.Mark != "" {
+			out = append(out, *c)
+		}
+	}
+	return out
 }
 
 // confirm measures the listed cues on the confirmation half, decides which
@@ -154,7 +162,7 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	// and the first Top of each list (the rest are cut below).
 	var todo []*Candidate
 	for k := range res.Ranked {
-		if c := &res.Ranked[k]; k < a.opt.Top || c.Verdict == VerdictUnconfirmed {
+		if c := &res.Ranked[k]; k < a.opt.Top || c.Verdict == VerdictUnconfirmed || c.Mark != "" {
 			todo = append(todo, c)
 		}
 	}
@@ -195,7 +203,11 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	// the rest; by score within each.
 	order := map[string]int{VerdictActed: 0, VerdictUnconfirmed: 1, VerdictNotRelied: 2}
 	slices.SortStableFunc(res.Ranked, func(x, y Candidate) int { return cmp.Compare(order[x.Verdict], order[y.Verdict]) })
-	res.Ranked = res.Ranked[:min(len(res.Ranked), a.opt.Top)]
+	ranked := make([]*Candidate, len(res.Ranked))
+	for k := range res.Ranked {
+		ranked[k] = &res.Ranked[k]
+	}
+	res.Ranked = firstAndMarked(ranked, a.opt.Top)
 	for k := range res.Ranked {
 		c := &res.Ranked[k]
 		if c.Verdict == VerdictNotRelied {
