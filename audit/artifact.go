@@ -1,7 +1,9 @@
 package audit
 
 import (
+	"maps"
 	"math"
+	"slices"
 	"strings"
 	"unicode"
 )
@@ -277,8 +279,12 @@ func entropyShare(count map[string]int, n int) float64 {
 	if n <= 1 {
 		return 1
 	}
+	// Summed in a fixed order: the map's order varies from run to run, and
+	// so would the last bits of the sum, and with them the order of cues
+	// whose artifact-likeness ties.
+	ks := slices.Sorted(maps.Values(count))
 	var h float64
-	for _, k := range count {
+	for _, k := range ks {
 		p := float64(k) / float64(n)
 		h -= p * math.Log2(p)
 	}

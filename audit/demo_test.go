@@ -192,3 +192,21 @@ func TestRetrainWithoutCues(t *testing.T) {
 			rt.Counterfactual.After.Estimate, rt.Counterfactual.Before.Estimate)
 	}
 }
+
+// TestRunRepeats: the same audit run again gives the same result, to the
+// last bit (the maps the audit counts in are read in a fixed order).
+func TestRunRepeats(t *testing.T) {
+	if testing.Short() {
+		t.Skip("trains a model; skipped with -short")
+	}
+	d := demoAudit(t, "demo-equal", 1) // shared with TestDemoPlantedCues
+	again, err := Run(context.Background(), d.m, data(t, d.m, d.train), d.held, Options{Seed: 1}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a, _ := json.Marshal(d.res)
+	b, _ := json.Marshal(again)
+	if string(a) != string(b) {
+		t.Errorf("the audit run twice differs:\n%s\n%s", a, b)
+	}
+}
