@@ -29,7 +29,7 @@ type Options struct {
 	// words grown into phrases (default 300).
 	Agreement float64
 	MaxSeeds  int
-	// Measured bounds the cues whose reliance is measured (default 40: the
+	// Measured bounds the cues whose reliance is measured (default 60: the
 	// most associated half and the most artifact-like half of them, and
 	// every marked artifact).
 	Measured int
@@ -97,7 +97,7 @@ func (o *Options) defaults() {
 	def(&o.MinSupport, 5)
 	deff(&o.Agreement, 0.8)
 	def(&o.MaxSeeds, 300)
-	def(&o.Measured, 40)
+	def(&o.Measured, 60)
 	def(&o.Draws, 3)
 	def(&o.MaxTexts, 200)
 	def(&o.Bootstrap, 1000)
@@ -433,8 +433,13 @@ func (a *auditor) candidates(ctx context.Context) ([]*Candidate, error) {
 	return out, nil
 }
 
+// majority is the share of a word's occurrences its written form must keep
+// (grownPhrases).
+const majority = 0.5
+
 // grownPhrases grows the associated words, most associated first (at most
-// MaxSeeds), into phrases.
+// MaxSeeds), into phrases; a square bracket into the bracketed groups it
+// opens or closes.
 func (a *auditor) grownPhrases(ctx context.Context, ps *phraseSet) error {
 	var seeds []int32
 	seen := map[int32]bool{}
@@ -459,7 +464,26 @@ func (a *auditor) grownPhrases(ctx context.Context, ps *phraseSet) error {
 				return err
 			}
 		}
-		ps.add(grow(a.train, a.vocab, id, occ[id], growOptions{agreement: a.opt.Agreement, maxLen: 40}), a.vocab[id])
+		if w := a.vocab[id]; w == "[" || w == "]" {
+			if groups := bracketGroups(a.train, a.vocab, occ[id], a.opt.MinSupport); len(groups) > 0 {
+				for _, g := range groups {
+					ps.add(g, w)
+				}
+				continue
+			}
+		}
+		p := grow(a.train, a.vocab, id, occ[id], growOptions{agreement: a.opt.Agreement, maxLen: 40})
+		ps.add(p, a.vocab[id])
+		// A word that keeps no phrase in Agreement of its occurrences but
+		// is written together with marks in most of them ("re" of "Re:",
+		// whose other occurrences are "you're") yields that written form
+		// too: the matcher gives it those occurrences, and the word the
+		// rest.
+		if len(p) == 1 && a.train.Tokens != nil {
+			if q := grow(a.train, a.vocab, id, occ[id], growOptions{agreement: majority, maxLen: 40, written: true}); len(q) > 1 {
+				ps.add(q, a.vocab[id])
+			}
+		}
 	}
 	return nil
 }

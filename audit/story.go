@@ -317,7 +317,9 @@ func (r *Result) WriteText(w io.Writer) error {
 	p("\nHow the numbers are made.\n")
 	p("  Association: %s exact test of each word's training texts in each label, %d word × label tests corrected by %s at %g;\n",
 		r.Test, r.Tests, r.Correction, r.Alpha)
-	p("  words are grown into the longest phrase they keep in 80%% of their occurrences; a cue passes when its p ≤ %s.\n", pval(r.Cutoff))
+	p("  words are grown into the longest phrase they keep in 80%% of their occurrences (or, failing that, into the form\n")
+	p("  they are written in, with no space, in most of them), brackets into the bracketed groups they open or close;\n")
+	p("  a cue passes when its p ≤ %s.\n", pval(r.Cutoff))
 	p("  Reliance: each text edited %s; intervals are 95%% bootstrap intervals over texts; the sign test is one-sided.\n",
 		"several times (the cue replaced by neutral words, or the same words put elsewhere)")
 	p("  %s.\n  %s.\n", r.ArtifactFormula, r.ScoreFormula)
