@@ -298,7 +298,7 @@ func recipeArgs(m *cnn.Model) []string {
 	}
 	// A boolean option takes its value after '=': "--lower false" would
 	// leave "false" as an argument of its own.
-	flag := func(differs bool, name string, value bool) {
+	boolOpt := func(differs bool, name string, value bool) {
 		if differs {
 			args = append(args, "--"+name+"="+strconv.FormatBool(value))
 		}
@@ -311,9 +311,9 @@ func recipeArgs(m *cnn.Model) []string {
 	opt(c.Dropout != dc.Dropout, "dropout", strconv.FormatFloat(float64(c.Dropout), 'g', -1, 32))
 	opt(c.MaxNorm != dc.MaxNorm, "max-norm", strconv.FormatFloat(float64(c.MaxNorm), 'g', -1, 32))
 	k, dk := m.Tokenizer, def.Tokenizer
-	flag(k.Lower != dk.Lower, "lower", k.Lower)
+	boolOpt(k.Lower != dk.Lower, "lower", k.Lower)
 	opt(k.MinCount != dk.MinCount && k.MinCount > 0, "min-count", strconv.Itoa(k.MinCount))
-	flag(k.Subword != dk.Subword, "subword", k.Subword)
+	boolOpt(k.Subword != dk.Subword, "subword", k.Subword)
 	opt(k.File != "", "tokenizer", k.File)
 	if r := m.Info.Recipe; r != nil {
 		// The model records its recipe with the optimizer's defaults filled
@@ -327,7 +327,7 @@ func recipeArgs(m *cnn.Model) []string {
 		opt(r.LR != dt.LR, "lr", fmtFloat(r.LR))
 		opt(r.MaxLen != dt.MaxLen, "max-len", strconv.Itoa(r.MaxLen))
 		opt(r.Patience != dt.Patience, "patience", strconv.Itoa(max(0, r.Patience))) // negative: never stops, train's 0
-		flag(r.FreezeEmb != dt.FreezeEmb, "freeze", r.FreezeEmb)
+		boolOpt(r.FreezeEmb != dt.FreezeEmb, "freeze", r.FreezeEmb)
 	}
 	return args
 }

@@ -29,7 +29,7 @@ type Options struct {
 	// words grown into phrases (default 300).
 	Agreement float64
 	MaxSeeds  int
-	// Measured bounds the cues whose reliance is measured (default 60: the
+	// Measured bounds the cues whose reliance is measured (default 40: the
 	// most associated half and the most artifact-like half of them, and
 	// every marked artifact).
 	Measured int
@@ -97,7 +97,7 @@ func (o *Options) defaults() {
 	def(&o.MinSupport, 5)
 	deff(&o.Agreement, 0.8)
 	def(&o.MaxSeeds, 300)
-	def(&o.Measured, 60)
+	def(&o.Measured, 40)
 	def(&o.Draws, 3)
 	def(&o.MaxTexts, 200)
 	def(&o.Bootstrap, 1000)
