@@ -269,7 +269,8 @@ func runAudit(ctx context.Context, env *runEnv, o *auditOptions) error {
 			return err
 		}
 	}
-	run := &auditRun{o: o, env: env, es: es, marks: marks, bar: newProgressBar(env.Stderr, o.quiet)}
+	run := &auditRun{o: o, env: env, es: es, marks: marks, bar: newProgressBar(env.Stderr, o.quiet),
+		src: auditSource{model: o.model, data: o.data, test: o.test, read: &o.read, vectors: o.vectors, es: es, m: m}}
 	out, err := run.all(ctx, m, others, recipe)
 	run.bar.done()
 	if err != nil {
@@ -321,7 +322,8 @@ type auditRun struct {
 	es     *evalSet
 	marks  *audit.Marks
 	bar    *progressBar
-	priors []float64 // each label's share of the training split
+	src    auditSource // the files, for the story's commands and the messages
+	priors []float64   // each label's share of the training split
 }
 
 // all audits m (and the other models), merges the audits and retrains as
@@ -331,7 +333,6 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 	if err != nil {
 		return nil, err
 	}
-	inHeldout(res)
 	out := &auditJSON{Result: res, Story: res.Story(), HeldoutSplit: r.es.name, MarksFile: r.o.marksPath()}
 	results := []*audit.Result{res}
 	for k := range r.o.seeds {
@@ -370,27 +371,6 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 	return out, nil
 }
 
-// inHeldout numbers the quoted examples of r by their place in the
-// held-out split (the audit numbers them within their half), as the JSON
-// documents them.
-func inHeldout(r *audit.Result) {
-	for _, list := range [][]audit.Candidate{r.Ranked, r.Task, r.Others} {
-		for _, c := range list {
-			for _, h := range []struct {
-				rl  *audit.Reliance
-				idx []int
-			}{{c.Reliance, r.Selection}, {c.Confirmed, r.Confirmation}} {
-				if h.rl == nil {
-					continue
-				}
-				for k := range h.rl.Examples {
-					h.rl.Examples[k].Index = h.idx[h.rl.Examples[k].Index]
-				}
-			}
-		}
-	}
-}
-
 // one audits model m on the splits with marks; what prefixes the progress.
 func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, what string) (*audit.Result, error) {
 	train, err := audit.NewData(m, r.es.train, r.o.threads.N)
@@ -408,7 +388,7 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 		}
 	}
 	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.o.test, r.o.data),
-		Seed: r.o.seed, Workers: r.o.threads.N}
+		HeldoutShare: r.src.heldoutShare(), RetrainCommands: r.src.retrainCommands, Seed: r.o.seed, Workers: r.o.threads.N}
 	return audit.Run(ctx, m, train, held, opt, func(stage string, done, total int) {
 		r.bar.show(done, total, what+"audit: "+stage, false)
 	})

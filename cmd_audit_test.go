@@ -71,6 +71,7 @@ func TestAuditCommand(t *testing.T) {
 	jsonOf(t, &res, append(base, "--json", "--quiet")...)
 	t.Run("planted cues", func(t *testing.T) { checkPlanted(t, &res) })
 	t.Run("text", func(t *testing.T) { checkAuditText(t, base, &res) })
+	t.Run("retrain command", func(t *testing.T) { checkRetrainCommand(t, model, &res) })
 	t.Run("export", func(t *testing.T) { checkAuditExport(t, base, &res) })
 	t.Run("marks", func(t *testing.T) { checkMarks(t, model, base) })
 	t.Run("masked-out", func(t *testing.T) { checkMaskedOut(t, base, &res) })
@@ -358,6 +359,113 @@ func checkSeedsAndRetrain(t *testing.T, model string, base []string) {
 	}
 }
 
+// storyCommands are the command lines the story gives to retrain without
+// the cues: the lines indented by four spaces after the one that says so.
+func storyCommands(story string) []string {
+	_, rest, ok := strings.Cut(story, "These commands write the patterns")
+	if !ok {
+		return nil
+	}
+	var cmds []string
+	for _, l := range strings.Split(rest, "\n")[2:] {
+		c, ok := strings.CutPrefix(l, "    ")
+		if !ok {
+			break
+		}
+		cmds = append(cmds, c)
+	}
+	return cmds
+}
+
+// checkRetrainCommand: /bin/sh (the reference of the quoting) runs the
+// story's commands as they are printed, with telltale on the PATH: they
+// write the patterns of the cues acted on to a file beside the model and
+// train the model's recipe on its own splits (the same --test file, the
+// same 8 epochs and seed) without the cues, whose words the new model's
+// vocabulary then lacks.
+func checkRetrainCommand(t *testing.T, model string, res *auditOut) {
+	cmds := storyCommands(res.Story)
+	if len(cmds) != 2 || !strings.HasPrefix(cmds[0], "printf ") || !strings.HasPrefix(cmds[1], "telltale train ") {
+		t.Fatalf("the story's commands %q, want printf and telltale train:\n%s", cmds, res.Story)
+	}
+	for _, want := range []string{"--data testdata/demo/train.csv", "--test testdata/demo/test.csv", "--epochs 8", "--mask-tokens"} {
+		if !strings.Contains(cmds[1], want) {
+			t.Errorf("the train command %q lacks %q", cmds[1], want)
+		}
+	}
+	bin := buildBinary(t)
+	sh := exec.Command("/bin/sh", "-c", strings.Join(cmds, "\n"))
+	sh.Env = append(os.Environ(), "PATH="+filepath.Dir(bin)+string(os.PathListSeparator)+os.Getenv("PATH"))
+	if out, err := sh.CombinedOutput(); err != nil {
+		t.Fatalf("/bin/sh ran the story's commands: %v\n%s", err, out)
+	}
+	base := strings.TrimSuffix(model, ".tt")
+	cues, err := os.ReadFile(base + ".cues")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := strings.Split(strings.TrimSuffix(string(cues), "\n"), "\n"); !slices.Equal(got, res.Action.Patterns) {
+		t.Errorf("the patterns file holds %q, the audit's patterns are %q", got, res.Action.Patterns)
+	}
+	before, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	after, err := cnn.Load(base + "-without.tt")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if a, b := after.Info.Splits, before.Info.Splits; a == nil || a.TestFile != b.TestFile || a.Fingerprint != b.Fingerprint || a.Seed != b.Seed ||
+		a.DevFrac != b.DevFrac || a.Train != b.Train {
+		t.Errorf("the retrained model's splits %+v, the audited model's %+v", a, b)
+	}
+	if after.Info.Recipe.Epochs != before.Info.Recipe.Epochs {
+		t.Errorf("retrained for %d epochs, the model for %d", after.Info.Recipe.Epochs, before.Info.Recipe.Epochs)
+	}
+	for _, w := range []string{"kioskmail", "tkref"} {
+		if slices.Contains(after.Vocab, w) || !slices.Contains(before.Vocab, w) {
+			t.Errorf("%q in the vocabulary: %v before, %v after retraining without the cues", w, slices.Contains(before.Vocab, w), slices.Contains(after.Vocab, w))
+		}
+	}
+}
+
+// TestRetrainArgs: the train command the story prints makes the model's
+// splits and recipe again, every option as train reads it: the split
+// record's shares, files and seed, the audit's reading options, and each
+// recipe setting that differs from train's default (a boolean as
+// --name=value).
+func TestRetrainArgs(t *testing.T) {
+	m := &cnn.Model{Config: cnn.Config{Dim: 64, Widths: []int{2, 3}, Filters: 100, Dropout: 0.3, MaxNorm: 3},
+		Tokenizer: corpus.TokenizerConfig{Lower: false, MinCount: 2}}
+	tc := cnn.DefaultRecipe().Train
+	tc.Epochs, tc.Patience, tc.Seed = 5, -1, 7
+	tc, _ = tc.WithDefaults()
+	m.Info.Recipe = &tc
+	m.Info.Splits = &cnn.SplitRecord{Data: "d.csv", DevFrac: 0.2, TestFrac: 0.1, Seed: 7}
+	read := readOptions{TextCol: "body", Mail: "subject-body", Relabel: "spam-1=spam,easy-ham-1=ham", MaxTextBytes: corpus.DefaultMaxTextBytes}
+	src := auditSource{model: "out/m.tt", data: "my data.csv", read: &read, m: m, es: &evalSet{dev: &corpus.Dataset{}}}
+	got := src.retrainCommands([]string{"/(?i)\\btkref\\b/", "it's"})
+	want := []string{`printf '%s\n' '/(?i)\btkref\b/' 'it'\''s' > out/m.cues`,
+		"telltale train --data 'my data.csv' --dev-frac 0.2 --seed 7 --text-col body --mail subject-body --relabel spam-1=spam,easy-ham-1=ham " +
+			"--dim 64 --widths 2,3 --dropout 0.3 --max-norm 3 --lower=false --min-count 2 --epochs 5 --patience 0 --mask-tokens out/m.cues --out out/m-without.tt"}
+	if !slices.Equal(got, want) {
+		t.Errorf("commands\n%q\nwant\n%q", got, want)
+	}
+	// Data that is not the model's: its own file and --test, the recipe's seed.
+	src.es, src.test = &evalSet{}, "t.csv"
+	if got := src.trainArgs(); !slices.Contains(got, "--test") || slices.Contains(got, "--dev-frac") || !slices.Contains(got, "7") {
+		t.Errorf("on other data: %q", got)
+	}
+	// The default recipe adds no recipe option.
+	def := cnn.DefaultRecipe()
+	dm := &cnn.Model{Config: def.Model, Tokenizer: def.Tokenizer}
+	dt, _ := def.Train.WithDefaults()
+	dm.Info.Recipe = &dt
+	if got := recipeArgs(dm); len(got) != 0 {
+		t.Errorf("the default recipe gives %q", got)
+	}
+}
+
 // TestAuditRefusals: options that cannot work are refused before any work
 // with a message naming them.
 func TestAuditRefusals(t *testing.T) {
@@ -384,6 +492,10 @@ func TestAuditRefusals(t *testing.T) {
 		{a("--marks", filepath.Join(f.dir, "none.marks")), 1, "none.marks does not exist"},
 		{a("--models", tinyModelOther(t)), 2, "was not trained on the splits of --model"},
 		{a("--retrain"), 1, "is not the data " + f.model + " was trained on"},
+		// Too few held-out texts: the test split held out of the model's own
+		// data, or a file.
+		{[]string{"audit", "--model", f.model, "--data", modelData(t, f.model)}, 1, "train the model again with a larger --test-frac"},
+		{a("--test", f.tiny), 1, "give a larger file of held-out texts (--test FILE)"},
 	} {
 		code, _, stderr := tt(t, c.args...)
 		noCrash(t, "audit", stderr)
@@ -391,6 +503,16 @@ func TestAuditRefusals(t *testing.T) {
 			t.Errorf("%q: exit %d, stderr %q; want %d and %q", c.args[5:], code, stderr, c.code, c.want)
 		}
 	}
+}
+
+// modelData is the data file the model at path was trained on.
+func modelData(t *testing.T, path string) string {
+	t.Helper()
+	m, err := cnn.Load(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return m.Info.Splits.Data
 }
 
 // tinyModelOther is a tiny model trained on other texts than tinyModel's.

@@ -4,9 +4,12 @@ import (
 	"bufio"
 	"fmt"
 	"io"
+	"strconv"
 	"strings"
 
 	"telltale/audit"
+	"telltale/cnn"
+	"telltale/corpus"
 	"telltale/report"
 )
 
@@ -198,3 +201,136 @@ func shellQuote(s string) string {
 	}
 	return "'" + strings.ReplaceAll(s, "'", `'\''`) + "'"
 }
+
+// auditSource is what the audit's faces (audit, report) know of the files
+// an audit read, for the commands its story prints and the advice of its
+// messages.
+type auditSource struct {
+	model, data, test string
+	read              *readOptions
+	vectors           string
+	es                *evalSet
+	m                 *cnn.Model
+}
+
+// sameData reports whether --data is the data the model was trained on (its
+// split record matches), so that its splits can be made again.
+func (s auditSource) sameData() bool { return s.es.dev != nil && s.m.Info.Splits != nil }
+
+// heldoutShare reports whether the held-out texts are the test split held
+// out of --data (not a file of their own).
+func (s auditSource) heldoutShare() bool {
+	return s.test == "" && s.sameData() && s.m.Info.Splits.TestFile == ""
+}
+
+// retrainCommands renders, for a POSIX shell, the story's commands that
+// retrain without the cues: printf writes the patterns to MODEL.cues, one a
+// line, and telltale train trains the model's recipe again on its own
+// splits of --data with them taken out, into MODEL-without.tt (MODEL the
+// model file's name without .tt).
+func (s auditSource) retrainCommands(patterns []string) []string {
+	base := strings.TrimSuffix(s.model, ".tt")
+	cues, out := base+".cues", base+"-without.tt"
+	args := append(s.trainArgs(), "--mask-tokens", cues, "--out", out)
+	return []string{"printf '%s\\n' " + shellJoin(patterns) + " > " + shellQuote(cues), shellJoin(args)}
+}
+
+// trainArgs is the train command line that makes the model's splits of
+// --data again (its split record, when --data is the model's data; else
+// --data with --test as given) and reads the data as the audit did, with
+// every recipe option whose value the model records differently from
+// train's default.
+func (s auditSource) trainArgs() []string {
+	args := []string{"telltale", "train", "--data", s.data}
+	opt := func(name, value string) { args = append(args, "--"+name, value) }
+	def := cnn.DefaultRecipe()
+	seed := def.Train.Seed
+	if r := s.m.Info.Recipe; r != nil {
+		seed = r.Seed
+	}
+	if rec := s.m.Info.Splits; s.sameData() {
+		seed = rec.Seed
+		switch {
+		case rec.DevFile != "":
+			opt("dev", rec.DevFile)
+		case rec.DevFrac != cnn.DefaultDevFrac:
+			opt("dev-frac", fmtFloat(rec.DevFrac))
+		}
+		switch {
+		case rec.TestFile != "" && s.test != "" && absPath(s.test) == rec.TestFile:
+			opt("test", s.test)
+		case rec.TestFile != "":
+			opt("test", rec.TestFile)
+		case rec.TestFrac != cnn.DefaultTestFrac:
+			opt("test-frac", fmtFloat(rec.TestFrac))
+		}
+	} else if s.test != "" {
+		opt("test", s.test)
+	}
+	if seed != def.Train.Seed {
+		opt("seed", strconv.FormatUint(seed, 10))
+	}
+	r := s.read
+	for _, o := range []struct{ name, value string }{{"text-col", r.TextCol}, {"label-col", r.LabelCol}, {"format", r.Format},
+		{"mail", r.Mail}, {"relabel", r.Relabel}} {
+		if o.value != "" {
+			opt(o.name, o.value)
+		}
+	}
+	if r.MaxTextBytes != corpus.DefaultMaxTextBytes {
+		opt("max-text-bytes", strconv.Itoa(r.MaxTextBytes))
+	}
+	args = append(args, recipeArgs(s.m)...)
+	if s.vectors != "" {
+		opt("vectors", s.vectors)
+	}
+	return args
+}
+
+// recipeArgs are train's options for every setting of m's recipe that
+// differs from train's default (cnn.DefaultRecipe).
+func recipeArgs(m *cnn.Model) []string {
+	var args []string
+	opt := func(differs bool, name, value string) {
+		if differs {
+			args = append(args, "--"+name, value)
+		}
+	}
+	// A boolean option takes its value after '=': "--lower false" would
+	// leave "false" as an argument of its own.
+	boolOpt := func(differs bool, name string, value bool) {
+		if differs {
+			args = append(args, "--"+name+"="+strconv.FormatBool(value))
+		}
+	}
+	def := cnn.DefaultRecipe()
+	c, dc := m.Config, def.Model
+	opt(c.Dim != dc.Dim, "dim", strconv.Itoa(c.Dim))
+	opt(joinInts(c.Widths) != joinInts(dc.Widths), "widths", joinInts(c.Widths))
+	opt(c.Filters != dc.Filters, "maps", strconv.Itoa(c.Filters))
+	opt(c.Dropout != dc.Dropout, "dropout", strconv.FormatFloat(float64(c.Dropout), 'g', -1, 32))
+	opt(c.MaxNorm != dc.MaxNorm, "max-norm", strconv.FormatFloat(float64(c.MaxNorm), 'g', -1, 32))
+	k, dk := m.Tokenizer, def.Tokenizer
+	boolOpt(k.Lower != dk.Lower, "lower", k.Lower)
+	opt(k.MinCount != dk.MinCount && k.MinCount > 0, "min-count", strconv.Itoa(k.MinCount))
+	boolOpt(k.Subword != dk.Subword, "subword", k.Subword)
+	opt(k.File != "", "tokenizer", k.File)
+	if r := m.Info.Recipe; r != nil {
+		// The model records its recipe with the optimizer's defaults filled
+		// in: compare with train's default filled in the same way.
+		dt := def.Train
+		dt.Optimizer, dt.LR = r.Optimizer, 0
+		dt, _ = dt.WithDefaults()
+		opt(r.Epochs != dt.Epochs, "epochs", strconv.Itoa(r.Epochs))
+		opt(r.Batch != dt.Batch, "batch", strconv.Itoa(r.Batch))
+		opt(r.Optimizer != def.Train.Optimizer, "optimizer", r.Optimizer)
+		opt(r.LR != dt.LR, "lr", fmtFloat(r.LR))
+		opt(r.MaxLen != dt.MaxLen, "max-len", strconv.Itoa(r.MaxLen))
+		opt(r.Patience != dt.Patience, "patience", strconv.Itoa(max(0, r.Patience))) // negative: never stops, train's 0
+		boolOpt(r.FreezeEmb != dt.FreezeEmb, "freeze", r.FreezeEmb)
+	}
+	return args
+}
+
+// fmtFloat writes x in the fewest digits that read back as x.
+func fmtFloat(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }

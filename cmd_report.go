@@ -91,8 +91,10 @@ func runReport(ctx context.Context, env *runEnv, o *reportOptions) error {
 		name = "evaluation"
 	}
 	bar := newProgressBar(env.Stderr, o.quiet)
+	src := auditSource{model: o.model, data: o.data, test: o.test, read: &o.read, es: es, m: m}
 	r, err := report.Build(ctx, m, es.train, es.test, report.Options{Title: o.title, ModelPath: o.model, HeldOut: name, HeldOutNote: es.note,
-		SkipAudit: o.noAudit, Threads: o.threads.N, Audit: audit.Options{Marks: marks, TrainFile: o.data, HeldoutFile: cmpOr(o.test, o.data)}},
+		SkipAudit: o.noAudit, Threads: o.threads.N, Audit: audit.Options{Marks: marks, TrainFile: o.data, HeldoutFile: cmpOr(o.test, o.data),
+			HeldoutShare: src.heldoutShare(), RetrainCommands: src.retrainCommands}},
 		func(stage string, done, total int) { bar.show(done, total, stage, false) })
 	bar.done()
 	if err != nil {

@@ -24,6 +24,9 @@ type Action struct {
 	// half, suggested or not.
 	Mask  []int     `json:"mask,omitempty"`
 	Tried *Ablation `json:"mask_tried,omitempty"`
+	// Commands are the command lines that retrain without the cues
+	// (Options.RetrainCommands; nil without it). The story shows them.
+	Commands []string `json:"-"`
 }
 
 // Counterfactual is the model on the confirmation half as it is and with
@@ -71,6 +74,9 @@ func (a *auditor) act(ctx context.Context, res *Result) error {
 	}
 	res.Action.Counterfactual = cf
 	res.Action.Tried, res.Action.Mask = a.mask(acted)
+	if a.opt.RetrainCommands != nil {
+		res.Action.Commands = a.opt.RetrainCommands(res.Action.Patterns)
+	}
 	a.progress("action", 1, 1)
 	return nil
 }

@@ -1,7 +1,9 @@
 package audit
 
 import (
+	"maps"
 	"math"
+	"slices"
 	"strings"
 	"unicode"
 )
@@ -17,7 +19,7 @@ const (
 	SignalCode    = "code"    // an identifier with digits
 	SignalNumber  = "number"  // only numbers or dates
 	SignalAddress = "address" // a web or e-mail address
-	SignalMarkup  = "markup"  // markup, entities or a separator run
+	SignalMarkup  = "markup"  // markup, entities, encodings, bracketed tags or a separator run
 	SignalCasing  = "casing"  // always the same unusual casing
 	SignalPurity  = "purity"  // nearly always one label at high support
 	SignalShift   = "shift"   // its label share differs in the held-out split
@@ -116,6 +118,8 @@ type occurrence struct {
 	known         bool // the original text is known (surface, ownLine)
 	left, right   string
 	adjacentPunct bool   // two punctuation tokens with nothing between them
+	encoded       bool   // inside HTML tags or a header line, a quoted-printable code, or a tag in brackets
+	inAddress     bool   // inside a web or e-mail address
 	touch         []bool // touch[j]: token j+1 follows token j with no space (true when the text is unknown)
 	atStart       bool
 	atEnd         bool
@@ -158,6 +162,11 @@ func readOccurrence(d Data, vocab []string, s span) occurrence {
 		le += hi
 	}
 	o.ownLine = strings.TrimSpace(text[ls:lo]) == "" && strings.TrimSpace(text[hi:le]) == ""
+	o.encoded = inTags(text, lo, hi) || inBracketTag(text, lo, hi) || inHeaderLine(text, lo, hi)
+	o.inAddress = inAddress(text, lo, hi)
+	for j := a; j < b && !o.encoded; j++ {
+		o.encoded = quotedPrintable(text, toks[j].Start, toks[j].End)
+	}
 	for j := a + 1; j < b; j++ {
 		o.touch[j-a-1] = toks[j].Start == toks[j-1].End
 		if o.touch[j-a-1] && isSeparator(toks[j].Text) && toks[j].Text == toks[j-1].Text {
@@ -204,8 +213,13 @@ func (o occurrence) isNumberDate() bool {
 	return words > 0
 }
 
-// isAddress: an e-mail or web address or a part that only addresses have.
+// isAddress: an e-mail or web address or a part that only addresses have,
+// or (the text known) words written inside an address ("html" of
+// "http://example.com/index.html").
 func (o occurrence) isAddress() bool {
+	if o.inAddress {
+		return true
+	}
 	for j, t := range o.toks {
 		l := strings.ToLower(t)
 		switch {
@@ -224,10 +238,12 @@ func (o occurrence) isAddress() bool {
 // "===="); the marks of speech (. ! ? / and the like) are not.
 func isSeparator(s string) bool { return len(s) == 1 && strings.Contains("-_=*#~+", s) }
 
-// isMarkup: an HTML tag or entity, or a run of the same separator mark
-// written without spaces ("--", "____").
+// isMarkup: an HTML tag or entity, a run of the same separator mark
+// written without spaces ("--", "____"), marks only markup is written with
+// ("=", "] :"), or (markup.go) words inside HTML tags, a quoted-printable
+// code, a header line or a tag in square brackets.
 func (o occurrence) isMarkup() bool {
-	if o.adjacentPunct {
+	if o.adjacentPunct || o.encoded || markupTokens(o.toks) {
 		return true
 	}
 	for j := 0; j+1 < len(o.toks); j++ {
@@ -277,8 +293,12 @@ func entropyShare(count map[string]int, n int) float64 {
 	if n <= 1 {
 		return 1
 	}
+	// Summed in a fixed order: the map's order varies from run to run, and
+	// so would the last bits of the sum, and with them the order of cues
+	// whose artifact-likeness ties.
+	ks := slices.Sorted(maps.Values(count))
 	var h float64
-	for _, k := range count {
+	for _, k := range ks {
 		p := float64(k) / float64(n)
 		h -= p * math.Log2(p)
 	}
@@ -359,7 +379,8 @@ func trainingSignals(d Data, vocab []string, occ []span, length int, inLabel, te
 		{Name: SignalCode, Value: share(code), Says: "it is an identifier with digits in " + pct(share(code)) + " of its occurrences"},
 		{Name: SignalNumber, Value: share(number), Says: "it is only numbers or dates in " + pct(share(number)) + " of its occurrences"},
 		{Name: SignalAddress, Value: share(address), Says: "it is part of a web or e-mail address in " + pct(share(address)) + " of its occurrences"},
-		{Name: SignalMarkup, Value: share(markup), Says: "it holds markup or a run of the same mark in " + pct(share(markup)) + " of its occurrences"},
+		{Name: SignalMarkup, Value: share(markup), Says: "it is or holds markup (an HTML tag, a quoted-printable code, a header line, a tag in brackets) or a run of the same mark in " +
+			pct(share(markup)) + " of its occurrences"},
 		{Name: SignalCasing, Value: casing, Says: casingSays(top, casing)},
 		{Name: SignalPurity, Value: purity, Says: "it is in one label in " + pct(float64(inLabel)/float64(max(1, texts))) + " of its " + plural(texts, "training text") +
 			" (at least " + pct(lo) + " with 95% confidence)"},

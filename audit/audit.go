@@ -47,15 +47,27 @@ type Options struct {
 	// texts each half must have (default 30).
 	MaxHeldout int
 	MinHalf    int
-	// Top is the number of cues listed in each list (default 15);
+	// Top is the number of cues listed in each list, besides the marked
+	// ones, which are always listed (default 15);
 	// Examples the quoted texts per cue (default 2).
 	Top      int
 	Examples int
 	// Marks are a person's verdicts (nil: none).
 	Marks *Marks
-	// ModelFile, TrainFile and HeldoutFile name the files in the commands
-	// the story suggests.
+	// ModelFile, TrainFile and HeldoutFile name the files the audit read
+	// (the Result keeps them).
 	ModelFile, TrainFile, HeldoutFile string
+	// HeldoutShare says the held-out texts are a share held out of the
+	// data the model was trained on (its test split), not a file of their
+	// own: a message on too few held-out texts then says to hold out a
+	// larger share.
+	HeldoutShare bool
+	// RetrainCommands renders the command lines, for a POSIX shell and
+	// runnable as they are, that take the cues out of the training text by
+	// their patterns (Action.Patterns) and train the model's recipe again
+	// on its own splits. Nil: the story lists the patterns and says what to
+	// do in words.
+	RetrainCommands func(patterns []string) []string
 	// Seed seeds the halves, the edits and the bootstrap.
 	Seed uint64
 	// Workers is the number of goroutines (0: GOMAXPROCS); TableBytes
@@ -240,6 +252,7 @@ type Result struct {
 	// are marked task), most relied on first.
 	Task []Candidate `json:"relied_on_reads_like_the_task"`
 	// Others are the remaining associated cues, most associated first.
+	// Each list holds its first Options.Top cues and every marked cue.
 	Others []Candidate `json:"others,omitempty"`
 	// Action is what to do; its cues are the Ranked ones acted on.
 	Action          Action `json:"action"`
@@ -366,8 +379,13 @@ func (a *auditor) halves(heldout Data) error {
 	slices.Sort(sel)
 	slices.Sort(conf)
 	if len(sel) < a.opt.MinHalf || len(conf) < a.opt.MinHalf {
-		return fmt.Errorf("audit: the %s has %d texts: too few for the tests, which need %d in each of its two halves; give a larger held-out file: %w",
-			heldout.name("held-out"), heldout.Len(), a.opt.MinHalf, ErrInput)
+		fix := "give a larger file of held-out texts (--test FILE)"
+		if a.opt.HeldoutShare {
+			fix = "hold out a larger share of the data as the test split (train the model again with a larger --test-frac), " +
+				"or give a larger file of held-out texts (--test FILE)"
+		}
+		return fmt.Errorf("audit: the %s has %d texts: too few for the tests, which need %d in each of its two halves; %s: %w",
+			heldout.name("held-out"), heldout.Len(), a.opt.MinHalf, fix, ErrInput)
 	}
 	a.sel, a.conf = heldout.subset(sel), heldout.subset(conf)
 	a.selIdx, a.confIdx = sel, conf
@@ -415,8 +433,13 @@ func (a *auditor) candidates(ctx context.Context) ([]*Candidate, error) {
 	return out, nil
 }
 
+// majority is the share of a word's occurrences its written form must keep
+// (grownPhrases).
+const majority = 0.5
+
 // grownPhrases grows the associated words, most associated first (at most
-// MaxSeeds), into phrases.
+// MaxSeeds), into phrases; a square bracket into the bracketed groups it
+// opens or closes.
 func (a *auditor) grownPhrases(ctx context.Context, ps *phraseSet) error {
 	var seeds []int32
 	seen := map[int32]bool{}
@@ -441,7 +464,26 @@ func (a *auditor) grownPhrases(ctx context.Context, ps *phraseSet) error {
 				return err
 			}
 		}
-		ps.add(grow(a.train, a.vocab, id, occ[id], growOptions{agreement: a.opt.Agreement, maxLen: 40}), a.vocab[id])
+		if w := a.vocab[id]; w == "[" || w == "]" {
+			if groups := bracketGroups(a.train, a.vocab, occ[id], a.opt.MinSupport); len(groups) > 0 {
+				for _, g := range groups {
+					ps.add(g, w)
+				}
+				continue
+			}
+		}
+		p := grow(a.train, a.vocab, id, occ[id], growOptions{agreement: a.opt.Agreement, maxLen: 40})
+		ps.add(p, a.vocab[id])
+		// A word that keeps no phrase in Agreement of its occurrences but
+		// is written together with marks in most of them ("re" of "Re:",
+		// whose other occurrences are "you're") yields that written form
+		// too: the matcher gives it those occurrences, and the word the
+		// rest.
+		if len(p) == 1 && a.train.Tokens != nil {
+			if q := grow(a.train, a.vocab, id, occ[id], growOptions{agreement: majority, maxLen: 40, written: true}); len(q) > 1 {
+				ps.add(q, a.vocab[id])
+			}
+		}
 	}
 	return nil
 }

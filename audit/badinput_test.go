@@ -43,9 +43,17 @@ func TestBadInput(t *testing.T) {
 		}
 	}
 
-	// Too few held-out texts for the two halves.
-	_, err := Run(ctx, m, train, held.subset([]int{0, 1, 2, 3, 4, 5, 6, 7, 8, 9}), Options{}, nil)
-	expect("ten held-out texts", err, "too few for the tests")
+	// Too few held-out texts for the two halves: the fix depends on where
+	// they come from, a file of their own or a share of the data.
+	ten := held.subset([]int{0, 1, 2, 3, 4, 5, 6, 7, 8, 9})
+	_, err := Run(ctx, m, train, ten, Options{}, nil)
+	expect("ten held-out texts", err, "too few for the tests, which need 30 in each of its two halves; give a larger file of held-out texts (--test FILE)")
+	if err != nil && strings.Contains(err.Error(), "--test-frac") {
+		t.Errorf("a held-out file too small: %v, which speaks of a share", err)
+	}
+	_, err = Run(ctx, m, train, ten, Options{HeldoutShare: true}, nil)
+	expect("ten held-out texts held out of the data", err, "hold out a larger share of the data as the test split "+
+		"(train the model again with a larger --test-frac), or give a larger file of held-out texts (--test FILE)")
 
 	// Too few training texts for a test of association.
 	_, err = Run(ctx, m, train.subset([]int{0, 1, 2}), held, Options{}, nil)

@@ -6,8 +6,6 @@ import (
 	"fmt"
 	"strings"
 	"testing"
-
-	"telltale/cnn"
 )
 
 // TestDemoPlantedCues trains the default recipe (8 epochs, as the README's
@@ -32,18 +30,13 @@ func TestDemoPlantedCues(t *testing.T) {
 		t.Skip("trains six models; skipped with -short")
 	}
 	for _, variant := range []string{"demo", "demo-equal"} {
-		all := loadCSV(t, variant, "train.csv")
-		test := loadCSV(t, variant, "test.csv")
 		var results []*Result
 		for _, seed := range []uint64{1, 2, 3} {
 			t.Run(fmt.Sprintf("%s/seed%d", variant, seed), func(t *testing.T) {
-				train, dev := all.Split(cnn.DefaultDevFrac, seed)
-				r := cnn.DefaultRecipe()
-				r.Train.Epochs = 8
-				m := trainText(t, train, dev, r, seed)
-				res := run(t, m, data(t, m, train), data(t, m, test), Options{Seed: seed})
-				results = append(results, res)
-				checkDemo(t, res)
+				d := demoAudit(t, variant, seed)
+				results = append(results, d.res)
+				checkDemo(t, d.res)
+				checkExamples(t, d.res, d.held)
 			})
 		}
 		st := Stability(results, 2)
@@ -59,6 +52,40 @@ func TestDemoPlantedCues(t *testing.T) {
 				t.Errorf("%s: the cue holding %q is not stable over the seeds: %+v", variant, word, st)
 			}
 		}
+	}
+}
+
+// checkExamples: every quoted example is numbered by its place in the
+// held-out split given to Run (not in its half) and quotes that text.
+func checkExamples(t *testing.T, res *Result, held Data) {
+	t.Helper()
+	quoted := 0
+	for _, list := range [][]Candidate{res.Ranked, res.Task} {
+		for _, c := range list {
+			for _, rl := range []*Reliance{c.Reliance, c.Confirmed} {
+				if rl == nil {
+					continue
+				}
+				for _, e := range rl.Examples {
+					quoted++
+					if e.Index < 0 || e.Index >= held.Len() {
+						t.Errorf("cue %q: example index %d outside the %d held-out texts", c.Text, e.Index, held.Len())
+						continue
+					}
+					text := strings.Join(strings.Fields(held.Texts[e.Index]), " ")
+					inner := strings.NewReplacer("[", "", "]", "").Replace(strings.Trim(e.Snippet, "…"))
+					if !strings.Contains(strings.NewReplacer("[", "", "]", "").Replace(text), inner) {
+						t.Errorf("cue %q: example %d quotes %q, which is not in held-out text %d: %q", c.Text, e.Index, inner, e.Index, text)
+					}
+					if g := held.Gold[e.Index]; res.Labels[g] != e.Gold {
+						t.Errorf("cue %q: example %d has gold %s, held-out text %d is %s", c.Text, e.Index, e.Gold, e.Index, res.Labels[g])
+					}
+				}
+			}
+		}
+	}
+	if quoted == 0 {
+		t.Error("no cue quotes a held-out text")
 	}
 }
 
@@ -134,7 +161,8 @@ func checkDemo(t *testing.T, res *Result) {
 	}
 }
 
-// TestRetrainWithoutCues follows the action on the equal-rates demo: the
+// TestRetrainWithoutCues follows the action on the equal-rates demo (seed
+// 1): the
 // patterns of the cues acted on are taken out of the training text and a
 // model is retrained (Retrain). They take out of test.csv exactly the cues
 // its README counts there (footer 6 + 5 + 115 + 5 + 4 = 135, stamp 6 + 5 +
@@ -143,23 +171,13 @@ func checkDemo(t *testing.T, res *Result) {
 // as the audited model, which relied on them.
 func TestRetrainWithoutCues(t *testing.T) {
 	if testing.Short() {
-		t.Skip("trains two models; skipped with -short")
+		t.Skip("trains up to two models; skipped with -short")
 	}
-	all := loadCSV(t, "demo-equal", "train.csv")
-	test := loadCSV(t, "demo-equal", "test.csv")
-	train, dev := all.Split(cnn.DefaultDevFrac, 1)
-	r := cnn.DefaultRecipe()
-	r.Train.Epochs = 8
-	m := trainText(t, train, dev, r, 1)
-	res, err := Run(context.Background(), m, data(t, m, train), data(t, m, test), Options{Seed: 1}, nil)
-	if err != nil {
-		t.Fatal(err)
+	d := demoAudit(t, "demo-equal", 1) // the model and audit of TestDemoPlantedCues, shared
+	if len(d.res.Action.Patterns) != 2 {
+		t.Fatalf("the action names %v, want the two planted cues", d.res.Action.Cues)
 	}
-	if len(res.Action.Patterns) != 2 {
-		t.Fatalf("the action names %v, want the two planted cues", res.Action.Cues)
-	}
-	r.Train.Seed = 1
-	rt, err := Retrain(context.Background(), m, res.Action.Patterns, train, dev, test, r, nil)
+	rt, err := Retrain(context.Background(), d.m, d.res.Action.Patterns, d.train, d.dev, d.test, d.recipe, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -172,5 +190,23 @@ func TestRetrainWithoutCues(t *testing.T) {
 	if rt.Counterfactual.After.Estimate < rt.Counterfactual.Before.Estimate {
 		t.Errorf("without the cues the retrained model scores %.3f, the audited model %.3f: want at least as much",
 			rt.Counterfactual.After.Estimate, rt.Counterfactual.Before.Estimate)
+	}
+}
+
+// TestRunRepeats: the same audit run again gives the same result, to the
+// last bit (the maps the audit counts in are read in a fixed order).
+func TestRunRepeats(t *testing.T) {
+	if testing.Short() {
+		t.Skip("trains a model; skipped with -short")
+	}
+	d := demoAudit(t, "demo-equal", 1) // shared with TestDemoPlantedCues
+	again, err := Run(context.Background(), d.m, data(t, d.m, d.train), d.held, Options{Seed: 1}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a, _ := json.Marshal(d.res)
+	b, _ := json.Marshal(again)
+	if string(a) != string(b) {
+		t.Errorf("the audit run twice differs:\n%s\n%s", a, b)
 	}
 }

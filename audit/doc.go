@@ -20,8 +20,11 @@
 //     the stricter option). Each associated word then grows into the
 //     longest verbatim phrase it keeps in 80% of its occurrences (a
 //     footer's word into the whole line, a stamp's into its prefix and
-//     number); phrases claim their tokens longest first, so a word inside
-//     a footer counts with the footer.
+//     number), and, when that is the word alone, also into the form it is
+//     written in, with no space, in most of them ("Re:" from "re"); a
+//     square bracket grows into the bracketed groups it opens or closes (a
+//     list tag "[ilug]" is one cue). Phrases claim their tokens longest
+//     first, so a word inside a footer counts with the footer.
 //  2. Reliance: does this model depend on it? On held-out texts that hold
 //     the cue, the cue is replaced by label-neutral words (the
 //     counterfactual), and, as a control, kept while the same words are
@@ -36,10 +39,12 @@
 //     position (the very start or end of the text), a line of its own, a
 //     long verbatim span, the same neighbours every time, its shape (an
 //     identifier with digits, numbers or dates, a web or e-mail address,
-//     markup or a separator run, the same unusual casing every time), a
-//     label share implausibly high at high support; and, when the held-out
-//     split has one, a shift of the cue's label share (question 4 of the
-//     design: strong extra evidence, one signal among the others).
+//     markup — an HTML tag or what stands inside one, a quoted-printable
+//     code, a tag in square brackets, marks only markup is written with
+//     such as "=" — or a separator run, the same unusual casing every
+//     time), a label share implausibly high at high support; and, when the
+//     held-out split has one, a shift of the cue's label share (question 4
+//     of the design: strong extra evidence, one signal among the others).
 //
 // # Two halves
 //

@@ -2,9 +2,11 @@ package audit
 
 import (
 	"context"
+	"fmt"
 	"path/filepath"
 	"slices"
 	"strings"
+	"sync"
 	"testing"
 
 	"telltale/cnn"
@@ -72,4 +74,45 @@ func acted(res *Result) []Candidate {
 		}
 	}
 	return out
+}
+
+// demoRun is a model of the demo corpus (or a variant) with its audit.
+type demoRun struct {
+	train, dev, test *corpus.Dataset
+	recipe           cnn.Recipe
+	m                *cnn.Model
+	held             Data // test as m reads it
+	res              *Result
+}
+
+// demoRuns are the demo runs made so far: the tests that need the same
+// model and audit share them rather than train again.
+var demoRuns = struct {
+	sync.Mutex
+	m map[string]*demoRun
+}{m: map[string]*demoRun{}}
+
+// demoAudit trains the default recipe (8 epochs, as the README's tour) on
+// the training file of variant (testdata/demo or testdata/demo-equal) less
+// its dev share, split and trained with seed, and audits it against the
+// variant's test.csv with Options{Seed: seed}; a run made before is
+// returned again.
+func demoAudit(t *testing.T, variant string, seed uint64) *demoRun {
+	t.Helper()
+	demoRuns.Lock()
+	defer demoRuns.Unlock()
+	key := fmt.Sprint(variant, "/", seed)
+	if d, ok := demoRuns.m[key]; ok {
+		return d
+	}
+	all := loadCSV(t, variant, "train.csv")
+	d := &demoRun{test: loadCSV(t, variant, "test.csv"), recipe: cnn.DefaultRecipe()}
+	d.train, d.dev = all.Split(cnn.DefaultDevFrac, seed)
+	d.recipe.Train.Epochs = 8
+	d.recipe.Train.Seed = seed
+	d.m = trainText(t, d.train, d.dev, d.recipe, seed)
+	d.held = data(t, d.m, d.test)
+	d.res = run(t, d.m, data(t, d.m, d.train), d.held, Options{Seed: seed})
+	demoRuns.m[key] = d
+	return d
 }

@@ -75,9 +75,12 @@ type span struct {
 
 // growOptions bound the growth of a phrase from a seed word.
 type growOptions struct {
-	agreement  float64 // least share of the seed's occurrences the phrase must keep
-	maxLen     int     // longest phrase in tokens
-	maxSamples int     // most occurrences of the seed looked at
+	agreement float64 // least share of the seed's occurrences the phrase must keep
+	maxLen    int     // longest phrase in tokens
+	// written keeps the phrase within the written form it sits in: only a
+	// neighbour written with no white space between it and the phrase
+	// continues it (the text must be known).
+	written bool
 }
 
 // grow extends the one-word phrase of seed to the maximal verbatim span
@@ -100,7 +103,7 @@ func grow(d Data, vocab []string, seed int32, occ []span, opt growOptions) phras
 				if !right {
 					j = int(s.start) - 1
 				}
-				if j < 0 || j >= len(d.IDs[s.text]) {
+				if j < 0 || j >= len(d.IDs[s.text]) || opt.written && !touching(d, s, right) {
 					continue
 				}
 				count[d.IDs[s.text][j]]++
@@ -127,7 +130,7 @@ func grow(d Data, vocab []string, seed int32, occ []span, opt growOptions) phras
 				if !right {
 					j = int(s.start) - 1
 				}
-				if j >= 0 && j < len(d.IDs[s.text]) && at(d, vocab, e, int(s.text), j) {
+				if j >= 0 && j < len(d.IDs[s.text]) && at(d, vocab, e, int(s.text), j) && (!opt.written || touching(d, s, right)) {
 					if right {
 						s.end++
 					} else {
@@ -147,6 +150,98 @@ func grow(d Data, vocab []string, seed int32, occ []span, opt growOptions) phras
 	extend(true)
 	extend(false)
 	return p
+}
+
+// maxGroupTokens is the most tokens between the brackets of a bracketed
+// group.
+const maxGroupTokens = 6
+
+// maxGroups bounds the bracketed groups one bracket grows into.
+const maxGroups = 20
+
+// bracketGroups are the distinct groups in square brackets ("[ ilug ]",
+// "[ razor - users ]", "[ <number> ]") that the occurrences occ of a bracket
+// token open or close, each in at least minTexts texts, most common first:
+// a tag in brackets is one cue, not a bracket and a word. A group holds 1
+// to maxGroupTokens tokens, none a bracket, on one line where the text is
+// known; its numbers match any number. At most maxGroups are returned
+// (ties in texts by their words).
+func bracketGroups(d Data, vocab []string, occ []span, minTexts int) []phrase {
+	type group struct {
+		p     phrase
+		texts int
+		last  int32
+	}
+	groups := map[string]*group{}
+	for _, s := range occ {
+		i, j := int(s.text), int(s.start)
+		open := tokenText(d, vocab, i, j) == "["
+		lo, hi, ok := j, j, false
+		for k := 1; k <= maxGroupTokens+1; k++ {
+			n := j + k
+			if !open {
+				n = j - k
+			}
+			if n < 0 || n >= len(d.IDs[i]) {
+				break
+			}
+			if tok := tokenText(d, vocab, i, n); tok == "[" || tok == "]" {
+				// The bracket that closes (or opens) the group, after at
+				// least one token; any other bracket ends the search.
+				ok = k > 1 && open == (tok == "]")
+				lo, hi = min(lo, n), max(hi, n)
+				break
+			}
+		}
+		if !ok || d.Tokens != nil && strings.Contains(d.Texts[i][d.Tokens[i][lo].Start:d.Tokens[i][hi].End], "\n") {
+			continue
+		}
+		p := make(phrase, 0, hi-lo+1)
+		for n := lo; n <= hi; n++ {
+			if isNumber(tokenText(d, vocab, i, n)) {
+				p = append(p, anyNumber)
+			} else {
+				p = append(p, d.IDs[i][n])
+			}
+		}
+		g := groups[p.key()]
+		if g == nil {
+			g = &group{p: p, last: -1}
+			groups[p.key()] = g
+		}
+		if g.last != s.text {
+			g.texts++
+			g.last = s.text
+		}
+	}
+	var out []*group
+	for _, g := range groups {
+		if g.texts >= minTexts {
+			out = append(out, g)
+		}
+	}
+	slices.SortFunc(out, func(x, y *group) int {
+		if x.texts != y.texts {
+			return cmp.Compare(y.texts, x.texts)
+		}
+		return cmp.Compare(strings.Join(x.p.words(vocab), " "), strings.Join(y.p.words(vocab), " "))
+	})
+	ps := make([]phrase, min(len(out), maxGroups))
+	for k, g := range out[:len(ps)] {
+		ps[k] = g.p
+	}
+	return ps
+}
+
+// touching reports whether the token after span s (before it, when !right)
+// is written with no white space between it and the span. The text must
+// be known and the token must exist.
+func touching(d Data, s span, right bool) bool {
+	toks := d.Tokens[s.text]
+	if right {
+		return toks[s.end].Start == toks[s.end-1].End
+	}
+	return toks[s.start].Start == toks[s.start-1].End
 }
 
 // matcher finds the occurrences of a set of phrases in texts, longest

@@ -69,9 +69,21 @@ func TestGrow(t *testing.T) {
 			t.Errorf("grow(%q) = %q, want %q", c.seed, got, c.want)
 		}
 	}
+	// A word that keeps no phrase in 80% of its occurrences grows, at the
+	// majority, into the form it is written in, with no space: "re" of
+	// "Re:", not of "you're"; and not across a space ("Re: hello" ×2).
+	d2, vocab2 := tinyData(t, "Re: hello", "Re: hello", "you're here")
+	id, occ := occurrencesOf(d2, vocab2, "re")
+	if got := strings.Join(grow(d2, vocab2, id, occ, opt).words(vocab2), " "); got != "re" {
+		t.Errorf("grow(re) at 0.8 = %q, want it alone", got)
+	}
+	written := growOptions{agreement: majority, maxLen: 40, written: true}
+	if got := strings.Join(grow(d2, vocab2, id, occ, written).words(vocab2), " "); got != "re :" {
+		t.Errorf("grow(re) into its written form = %q, want %q", got, "re :")
+	}
 	// "sent" occurs three times, twice in the footer: 2/3 < 0.8 keeps it
 	// alone, 0.6 lets it grow into the footer.
-	id, occ := occurrencesOf(d, vocab, "sent")
+	id, occ = occurrencesOf(d, vocab, "sent")
 	if got := strings.Join(grow(d, vocab, id, occ, opt).words(vocab), " "); got != "sent" {
 		t.Errorf("grow(sent) at 0.8 = %q, want it alone", got)
 	}
@@ -135,6 +147,39 @@ func TestPatternDemoCounts(t *testing.T) {
 	for _, s := range []string{"tkrefs-12", "xtkref-1", "tkref-x"} {
 		if _, n := cm.Mask(s); n != 0 {
 			t.Errorf("%q matched the stamp pattern", s)
+		}
+	}
+}
+
+// A square bracket grows into the bracketed groups it opens or closes, each
+// in at least the given number of texts, most common first; numbers match
+// any number, and a group never spans lines or holds another bracket.
+func TestBracketGroups(t *testing.T) {
+	d, vocab := tinyData(t,
+		"Re: [ILUG] new kernel",
+		"[ILUG] meeting",
+		"[zzzzteana] ghosts",
+		"[ILUG-Social] pints",
+		"see [1] and [22]",
+		"a [broken\ntag] here",
+		"nested [a [b] c]",
+		"[] empty")
+	for _, c := range []struct {
+		bracket  string
+		minTexts int
+		want     []string
+	}{
+		{"[", 2, []string{"[ ilug ]"}},
+		{"]", 2, []string{"[ ilug ]"}},
+		{"[", 1, []string{"[ ilug ]", "[ <number> ]", "[ b ]", "[ ilug - social ]", "[ zzzzteana ]"}},
+	} {
+		_, occ := occurrencesOf(d, vocab, c.bracket)
+		var got []string
+		for _, p := range bracketGroups(d, vocab, occ, c.minTexts) {
+			got = append(got, strings.Join(p.words(vocab), " "))
+		}
+		if !slices.Equal(got, c.want) {
+			t.Errorf("groups of %q in %d texts or more: %q, want %q", c.bracket, c.minTexts, got, c.want)
 		}
 	}
 }

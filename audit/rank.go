@@ -52,7 +52,7 @@ func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate
 	}
 	for k, c := range list {
 		a.progress("reliance", k, len(list))
-		r, err := a.job(c, a.sel, a.selBase, c.selOcc, "selection").measure(ctx, a.st, a.opt.Workers)
+		r, err := a.job(c, a.sel, a.selIdx, a.selBase, c.selOcc, "selection").measure(ctx, a.st, a.opt.Workers)
 		if err != nil {
 			return nil, err
 		}
@@ -69,9 +69,10 @@ func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate
 	return list, nil
 }
 
-// job is the reliance measurement of cue c on one half.
-func (a *auditor) job(c *Candidate, half Data, base *basePass, occ []span, which string) *relianceJob {
-	return &relianceJob{key: c.Text + "/" + which, class: c.Class, occ: occ, half: half, base: base, neutral: a.neutral,
+// job is the reliance measurement of cue c on one half; index maps the
+// half's texts to the held-out split's.
+func (a *auditor) job(c *Candidate, half Data, index []int, base *basePass, occ []span, which string) *relianceJob {
+	return &relianceJob{key: c.Text + "/" + which, class: c.Class, occ: occ, half: half, index: index, base: base, neutral: a.neutral,
 		draws: a.opt.Draws, maxTexts: a.opt.MaxTexts, boot: a.opt.Bootstrap, seed: a.opt.Seed, labels: a.labels,
 		vocab: a.vocab, examples: a.opt.Examples}
 }
@@ -135,13 +136,21 @@ func (a *auditor) result(cands, measured []*Candidate) *Result {
 	for _, c := range ranked {
 		res.Ranked = append(res.Ranked, *c)
 	}
-	for _, c := range task[:min(len(task), a.opt.Top)] {
-		res.Task = append(res.Task, *c)
-	}
-	for _, c := range others[:min(len(others), a.opt.Top)] {
-		res.Others = append(res.Others, *c)
-	}
+	res.Task = firstAndMarked(task, a.opt.Top)
+	res.Others = firstAndMarked(others, a.opt.Top)
 	return res
+}
+
+// firstAndMarked is the first top cues of cs and every marked cue after
+// them: a person's verdict is always shown.
+func firstAndMarked(cs []*Candidate, top int) []Candidate {
+	out := []Candidate{}
+	for k, c := range cs {
+		if k < top || c.Mark != "" {
+			out = append(out, *c)
+		}
+	}
+	return out
 }
 
 // confirm measures the listed cues on the confirmation half, decides which
@@ -153,7 +162,7 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	// and the first Top of each list (the rest are cut below).
 	var todo []*Candidate
 	for k := range res.Ranked {
-		if c := &res.Ranked[k]; k < a.opt.Top || c.Verdict == VerdictUnconfirmed {
+		if c := &res.Ranked[k]; k < a.opt.Top || c.Verdict == VerdictUnconfirmed || c.Mark != "" {
 			todo = append(todo, c)
 		}
 	}
@@ -162,7 +171,7 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	}
 	for k, c := range todo {
 		a.progress("confirmation", k, len(todo))
-		r, err := a.job(c, a.conf, a.confBase, c.confOcc, "confirmation").measure(ctx, a.st, a.opt.Workers)
+		r, err := a.job(c, a.conf, a.confIdx, a.confBase, c.confOcc, "confirmation").measure(ctx, a.st, a.opt.Workers)
 		if err != nil {
 			return err
 		}
@@ -194,7 +203,11 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	// the rest; by score within each.
 	order := map[string]int{VerdictActed: 0, VerdictUnconfirmed: 1, VerdictNotRelied: 2}
 	slices.SortStableFunc(res.Ranked, func(x, y Candidate) int { return cmp.Compare(order[x.Verdict], order[y.Verdict]) })
-	res.Ranked = res.Ranked[:min(len(res.Ranked), a.opt.Top)]
+	ranked := make([]*Candidate, len(res.Ranked))
+	for k := range res.Ranked {
+		ranked[k] = &res.Ranked[k]
+	}
+	res.Ranked = firstAndMarked(ranked, a.opt.Top)
 	for k := range res.Ranked {
 		c := &res.Ranked[k]
 		if c.Verdict == VerdictNotRelied {

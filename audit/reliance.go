@@ -71,7 +71,9 @@ type Conflict struct {
 
 // Example is one quoted text behind a figure.
 type Example struct {
-	Index   int     `json:"index"` // in the held-out split
+	// Index is the text's index in the held-out split given to Run (not
+	// in its half).
+	Index   int     `json:"index"`
 	Snippet string  `json:"snippet"`
 	Gold    string  `json:"gold"`
 	Pred    string  `json:"pred"`
@@ -109,6 +111,7 @@ type relianceJob struct {
 	class    int    // the cue's label
 	occ      []span // claimed occurrences in the half, text order (text = index in half)
 	half     Data
+	index    []int     // index[i]: the held-out index of text i of the half
 	base     *basePass // the model on the half as it is
 	neutral  []int32
 	draws    int
@@ -232,7 +235,7 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 		}
 		cf := res[2*(k*D)]
 		if cf.pred != j.base.pred[i] && ctlFlip[k] == 0 {
-			r.Examples = append(r.Examples, Example{Index: i, Snippet: snippet(j.half, j.vocab, i, byText[i][0]),
+			r.Examples = append(r.Examples, Example{Index: j.index[i], Snippet: snippet(j.half, j.vocab, i, byText[i][0]),
 				Gold: j.labels[j.half.Gold[i]], Pred: j.labels[j.base.pred[i]], After: j.labels[cf.pred], Prob: float64(cf.prob)})
 		}
 	}

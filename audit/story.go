@@ -188,46 +188,100 @@ func (r *Result) writeStory(w io.Writer) {
 				cf.CueTexts, map[bool]string{true: "it", false: "one"}[len(acted) == 1], accuracy(cf.CueAccuracyWithout),
 				accuracy(cf.CueAccuracy), cf.Fixed, cf.Broken, pval(cf.P))
 		}
-		it := map[bool]string{true: "it", false: "them"}[len(acted) == 1]
-		model, train := orName(r.ModelFile, "MODEL"), orName(r.TrainFile, "TRAIN")
-		base := strings.TrimSuffix(model, ".tt")
-		p("\nWhat to do: retrain without %s and compare both models on held-out texts with and without %s.\n", it, it)
-		p("Write these lines to a file, say %s.cues, one pattern a line:\n", base)
+		r.writeWhatToDo(p, acted)
+	}
+	r.writeTask(p)
+}
+
+// writeWhatToDo writes what to do about the cues acted on: retrain without
+// them (the commands, or the patterns), keep the verdict with marks, and
+// whether a filter mask helps.
+func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
+	it := map[bool]string{true: "it", false: "them"}[len(acted) == 1]
+	p("\nWhat to do: retrain without %s and compare both models on held-out texts with and without %s.\n", it, it)
+	if cmds := r.Action.Commands; len(cmds) > 0 {
+		p("These commands write the patterns that take %s out of the text to a file and train the model's recipe again\n", it)
+		p("on its own splits without %s:\n", it)
+		for _, c := range cmds {
+			p("    %s\n", c)
+		}
+	} else {
+		p("The patterns that take %s out of the text, one a line, for a --mask-tokens file of telltale train:\n", it)
 		for _, pat := range r.Action.Patterns {
 			p("    %s\n", pat)
 		}
-		p("then: telltale train --data %s --mask-tokens %s.cues --out %s-without.tt\n", train, base, base)
-		p("(Mark %s as artifact to keep this judgement with the model.)\n", it)
-		if t := r.Action.Tried; t != nil {
-			if r.Action.Mask != nil {
-				p("Masking filters %s helps on held-out texts that took no part in choosing them: accuracy %.3f → %.3f\n",
-					ints(t.Filters), t.Accuracy, t.AccuracyMasked)
-				p("(%d fixed, %d broken, one-sided exact McNemar p = %s).\n", t.Fixed, t.Broken, pval(t.P))
-			} else {
-				p("Masking the filters that read %s does not help on held-out texts that took no part in choosing them\n",
-					map[bool]string{true: "it", false: "them"}[len(acted) == 1])
-				p("(accuracy %.3f → %.3f, p = %s): no filter mask is suggested.\n", t.Accuracy, t.AccuracyMasked, pval(t.P))
-			}
-		}
+		p("Train the model's recipe again on its own splits with that file.\n")
 	}
-	if len(r.Task) > 0 {
-		p("\nThe model also relies on these, which read like the task (mark any that is an artifact):\n")
-		for _, c := range r.Task[:min(len(r.Task), 8)] {
-			cr := c.Confirmed
-			if cr == nil {
-				cr = c.Reliance
-			}
-			p("  %s (%s): replacing it lowers the probability of %s by %.3f (%.3f–%.3f) on its texts and changes %s of the predictions.\n",
-				c.name(), c.Label, c.Label, cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, fmtPct(cr.NetFlipRate.Estimate))
+	p("%s\n", markAdvice(acted))
+	if t := r.Action.Tried; t != nil {
+		if r.Action.Mask != nil {
+			p("Masking filters %s helps on held-out texts that took no part in choosing them: accuracy %.3f → %.3f\n",
+				ints(t.Filters), t.Accuracy, t.AccuracyMasked)
+			p("(%d fixed, %d broken, one-sided exact McNemar p = %s).\n", t.Fixed, t.Broken, pval(t.P))
+		} else {
+			p("Masking the filters that read %s does not help on held-out texts that took no part in choosing them\n",
+				map[bool]string{true: "it", false: "them"}[len(acted) == 1])
+			p("(accuracy %.3f → %.3f, p = %s): no filter mask is suggested.\n", t.Accuracy, t.AccuracyMasked, pval(t.P))
 		}
 	}
 }
 
-func orName(s, def string) string {
-	if s == "" {
-		return def
+// writeTask writes the first cues relied on that read like the task, and
+// every marked one.
+func (r *Result) writeTask(p func(string, ...any)) {
+	if len(r.Task) > 0 {
+		p("\nThe model also relies on these, which read like the task (mark any that is an artifact):\n")
+		for k, c := range r.Task {
+			if k >= 8 && c.Mark == "" {
+				continue
+			}
+			cr := c.Confirmed
+			if cr == nil {
+				cr = c.Reliance
+			}
+			marked := ""
+			if c.Mark == MarkTask {
+				marked = "; you marked it task"
+			}
+			p("  %s (%s%s): replacing it lowers the probability of %s by %.3f (%.3f–%.3f) on its texts and changes %s of the predictions.\n",
+				c.name(), c.Label, marked, c.Label, cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, fmtPct(cr.NetFlipRate.Estimate))
+		}
 	}
-	return s
+}
+
+// markAdvice says which of the cues acted on (numbered from 1 as the story
+// lists them) to mark as artifact, and which are marked already.
+func markAdvice(acted []*Candidate) string {
+	var marked, unmarked []int
+	for n, c := range acted {
+		if c.Mark == MarkArtifact {
+			marked = append(marked, n+1)
+		} else {
+			unmarked = append(unmarked, n+1)
+		}
+	}
+	switch {
+	case len(unmarked) == 0 && len(acted) == 1:
+		return "(You marked it as artifact: the marks file keeps this judgement with the model.)"
+	case len(unmarked) == 0:
+		return "(You marked them all as artifact: the marks file keeps this judgement with the model.)"
+	case len(marked) == 0:
+		return fmt.Sprintf("(Mark %s as artifact to keep this judgement with the model.)", map[bool]string{true: "it", false: "them"}[len(acted) == 1])
+	}
+	return fmt.Sprintf("(Mark %s as artifact to keep this judgement with the model; you marked %s already.)", cueNumbers(unmarked), cueNumbers(marked))
+}
+
+// cueNumbers names cues by their numbers: "cue 2", "cues 1 and 3", "cues
+// 1, 2 and 4".
+func cueNumbers(ns []int) string {
+	if len(ns) == 1 {
+		return fmt.Sprintf("cue %d", ns[0])
+	}
+	s := make([]string, len(ns))
+	for i, n := range ns {
+		s[i] = fmt.Sprint(n)
+	}
+	return "cues " + strings.Join(s[:len(s)-1], ", ") + " and " + s[len(s)-1]
 }
 
 func ints(xs []int) string {
@@ -263,7 +317,9 @@ func (r *Result) WriteText(w io.Writer) error {
 	p("\nHow the numbers are made.\n")
 	p("  Association: %s exact test of each word's training texts in each label, %d word × label tests corrected by %s at %g;\n",
 		r.Test, r.Tests, r.Correction, r.Alpha)
-	p("  words are grown into the longest phrase they keep in 80%% of their occurrences; a cue passes when its p ≤ %s.\n", pval(r.Cutoff))
+	p("  words are grown into the longest phrase they keep in 80%% of their occurrences (or, failing that, into the form\n")
+	p("  they are written in, with no space, in most of them), brackets into the bracketed groups they open or close;\n")
+	p("  a cue passes when its p ≤ %s.\n", pval(r.Cutoff))
 	p("  Reliance: each text edited %s; intervals are 95%% bootstrap intervals over texts; the sign test is one-sided.\n",
 		"several times (the cue replaced by neutral words, or the same words put elsewhere)")
 	p("  %s.\n  %s.\n", r.ArtifactFormula, r.ScoreFormula)

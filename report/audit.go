@@ -92,7 +92,8 @@ func actionLayout(r *audit.Result, modelPath string) *actionView {
 func AuditMethod(r *audit.Result) []string {
 	return []string{
 		fmt.Sprintf("Association: %s (one-sided) of each word's training texts in each label; the %s word × label tests are corrected by %s at %g. "+
-			"Associated words grow into the longest phrase they keep in 80%% of their occurrences; a cue in at least %d training texts passes at p ≤ %s.",
+			"Associated words grow into the longest phrase they keep in 80%% of their occurrences (or, failing that, into the form they are written in, with no space, in most of them), and a bracket into the "+
+			"bracketed groups it opens or closes; a cue in at least %d training texts passes at p ≤ %s.",
 			AssociationTestName(r.Test), count(r.Tests), CorrectionName(r.Correction), r.Alpha, r.MinSupport, strings.TrimPrefix(pvalue(r.Cutoff), "= ")),
 		"Reliance: each held-out text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
 			"kept with the same words put elsewhere; intervals are 95% bootstrap intervals over texts, sign tests are exact and one-sided. " +

@@ -246,10 +246,9 @@ func conflictPicks(r *audit.Result, n int) []pick {
 			continue
 		}
 		for _, e := range c.Confirmed.Examples {
-			i := r.Confirmation[e.Index] // the example's index is in the confirming half
-			if len(out) < n && !seen[i] && e.Gold != c.Label {
-				seen[i] = true
-				out = append(out, pick{kind: KindCueConflict, index: i,
+			if len(out) < n && !seen[e.Index] && e.Gold != c.Label {
+				seen[e.Index] = true
+				out = append(out, pick{kind: KindCueConflict, index: e.Index,
 					note: fmt.Sprintf("holds %s, which points to %s; with it replaced the model says %s", cueName(&c), c.Label, e.After)})
 			}
 		}
