@@ -24,6 +24,10 @@ type Recipe struct {
 	// file's.
 	VectorsPath    string
 	DimFromVectors bool
+	// Members, when 2 or more, asks TrainText for that many models, trained
+	// with seeds Train.Seed + i·memberSeedStride on the same vocabulary and
+	// merged into one (Merge: the mean of their logits). 0 or 1 trains one.
+	Members int
 	// Baseline, when not nil, asks TrainText to fit the linear baseline
 	// (package linear) with this configuration on the same training split,
 	// its tokens (the tokenizer's words, cut to Train.MaxLen) and the dev
@@ -48,7 +52,10 @@ const PhaseBaseline = "baseline"
 
 // TrainText builds the vocabulary of train, encodes both splits, initialises
 // a model with r.Train.Seed and trains it with early stopping on dev (which
-// may be nil or empty: then every epoch counts as the best so far). Every
+// may be nil or empty: then every epoch counts as the best so far). With
+// r.Members it trains several and merges them; Result is the first
+// member's record, and a member that is cancelled or diverges ends the
+// training with the first member kept alone. Every
 // label of dev must occur in train. The command line and the window both
 // train through here, so they give the same model for the same recipe.
 //
@@ -85,22 +92,32 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 			cfg.Dim = vecs.Dim
 		}
 	}
-	m, err := New(cfg, enc.Vocab.Words, train.Labels, r.Train.Seed)
-	if err != nil {
-		return nil, err
+	out := &Trained{Encoder: enc}
+	var members []*Model
+	for i := range max(1, r.Members) {
+		tc := r.Train
+		tc.Seed += uint64(i) * memberSeedStride
+		m, res, found, err := trainOne(ctx, cfg, enc, train.Labels, trainData, devData, tc, r.VectorsPath, vecs, progress)
+		if err != nil {
+			return nil, err
+		}
+		if i == 0 {
+			out.Result, out.VectorsFound = res, found
+		}
+		members = append(members, m)
+		if res.Cancelled || res.Diverged != nil {
+			break // an unfinished member ends the ensemble; the first is kept alone
+		}
 	}
-	m.Tokenizer = enc.Tok.Config()
-	out := &Trained{Model: m, Encoder: enc}
-	if vecs != nil {
-		if out.VectorsFound, err = setVectors(m, vecs, r.VectorsPath); err != nil {
+	m := members[0]
+	if len(members) == max(1, r.Members) && len(members) > 1 {
+		var err error
+		if m, err = mergeMembers(members, devData, r.Train.Threads); err != nil {
 			return nil, err
 		}
 	}
-	res, err := Train(ctx, m, trainData, devData, r.Train, progress)
-	if err != nil {
-		return nil, err
-	}
-	out.Result = res
+	out.Model = m
+	res := out.Result
 	// Later texts are cut to the length the model was trained on, as the
 	// encoder of a loaded model (Model.Encoder) does.
 	out.Encoder.MaxTokens = m.Info.Recipe.MaxLen
@@ -116,6 +133,53 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 		}
 	}
 	return out, nil
+}
+
+// memberSeedStride spaces the seeds of the members of one ensemble, so
+// that the ensembles of nearby seeds share no member.
+const memberSeedStride = 0x9e3779b97f4a7c15
+
+// trainOne initialises a model of cfg for the vocabulary of enc with
+// tc.Seed (its embeddings from tc.EmbedInit, then the vectors read from
+// vectorsPath, when vecs is not nil) and trains it.
+func trainOne(ctx context.Context, cfg Config, enc *corpus.Encoder, labels []string, train, dev Data, tc TrainConfig, vectorsPath string, vecs *corpus.Vectors, progress func(Progress)) (*Model, *TrainResult, int, error) {
+	m, err := New(cfg, enc.Vocab.Words, labels, tc.Seed)
+	if err != nil {
+		return nil, nil, 0, err
+	}
+	m.Tokenizer = enc.Tok.Config()
+	if tc.EmbedInit == InitPPMI {
+		// Cut as Train cuts them, so the statistics are of what it sees.
+		m.InitCooccurrence(train.Truncate(tc.MaxLen).IDs, tc.Seed, tc.Threads)
+	}
+	found := 0
+	if vecs != nil {
+		if found, err = setVectors(m, vecs, vectorsPath); err != nil {
+			return nil, nil, 0, err
+		}
+	}
+	res, err := Train(ctx, m, train, dev, tc, progress)
+	if err != nil {
+		return nil, nil, 0, err
+	}
+	return m, res, found, nil
+}
+
+// mergeMembers merges the trained members (Merge) and records the merged
+// model's dev metrics.
+func mergeMembers(members []*Model, dev Data, threads int) (*Model, error) {
+	m, err := Merge(members)
+	if err != nil {
+		return nil, err
+	}
+	if dev.Len() > 0 {
+		mt, _, err := evaluate(m, dev, threads, false)
+		if err != nil {
+			return nil, err
+		}
+		m.Info.Dev = &mt
+	}
+	return m, nil
 }
 
 // fitBaseline fits the linear baseline on the words of train (dev chooses

@@ -76,9 +76,11 @@ type threadBuf struct {
 	argP              []int32
 }
 
-// paramGroup is one trainable tensor with its gradient and optimizer state.
+// paramGroup is one trainable tensor with its gradient and optimizer state;
+// decay marks the weights that weight decay shrinks (not the biases).
 type paramGroup struct {
 	p, g, s1, s2 []float32
+	decay        bool
 }
 
 // trainer holds everything a training step needs, allocated once.
@@ -147,20 +149,20 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 	}
 	g0 := &tr.th[0]
 	state := func(n int) []float32 { return make([]float32, n) }
-	add := func(p, g []float32) {
-		tr.groups = append(tr.groups, paramGroup{p: p, g: g, s1: state(len(p)), s2: state(len(p))})
+	add := func(p, g []float32, decay bool) {
+		tr.groups = append(tr.groups, paramGroup{p: p, g: g, s1: state(len(p)), s2: state(len(p)), decay: decay})
 	}
 	if !tc.FreezeEmb {
 		tr.gEmb = make([]float32, len(m.Emb))
-		add(m.Emb[d:], tr.gEmb[d:]) // the PAD row is never trained
+		add(m.Emb[d:], tr.gEmb[d:], true) // the PAD row is never trained
 	}
 	for b, c := range m.Convs {
-		add(c.W, g0.w[tr.wOff[b]:tr.wOff[b]+len(c.W)])
+		add(c.W, g0.w[tr.wOff[b]:tr.wOff[b]+len(c.W)], true)
 		fo := b * cfg.Filters
-		add(c.B, g0.b[fo:fo+cfg.Filters])
+		add(c.B, g0.b[fo:fo+cfg.Filters], false)
 	}
-	add(m.OutW, g0.ow)
-	add(m.OutB, g0.ob)
+	add(m.OutW, g0.ow, true)
+	add(m.OutB, g0.ob, false)
 	tr.fnGather = tr.gather
 	tr.fnTable = tr.table
 	tr.fnText = tr.texts_
@@ -479,6 +481,14 @@ func (tr *trainer) update() {
 func (tr *trainer) opt(_, lo, hi int) {
 	g := tr.cur
 	tc := tr.tc
+	if tc.WeightDecay > 0 && g.decay {
+		// Decoupled weight decay (Loshchilov & Hutter 2019), before the step
+		// as torch.optim.AdamW does it.
+		k := float32(1 - tc.LR*tc.WeightDecay)
+		for i := range g.p[lo:hi] {
+			g.p[lo+i] *= k
+		}
+	}
 	if tc.Optimizer == "adadelta" {
 		adadeltaUpdate(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi], float32(tc.LR), float32(tc.Rho), float32(tc.Eps))
 		return

@@ -44,6 +44,28 @@ type TrainConfig struct {
 	// word can carry a prediction alone. It combines with WordDropout (a
 	// word is kept only if both keep it). 0 turns it off.
 	TokenDropout float64 `json:"token_dropout,omitempty"`
+	// EmbedInit is how TrainText starts the embedding table before
+	// training: "" (uniform in ±0.25, Kim 2014) or "ppmi" (the frequent
+	// training words' PPMI-SVD vectors, Model.InitCooccurrence; the others
+	// uniform). Train starts from the model it is given and ignores it.
+	EmbedInit string `json:"embed_init,omitempty"`
+	// WeightDecay is the decoupled weight decay of Loshchilov & Hutter
+	// (2019, "Decoupled Weight Decay Regularization", ICLR): every step
+	// multiplies the weights (embeddings, filters and output weights, not
+	// the biases) by 1 − LR·WeightDecay before the optimizer's step. 0
+	// turns it off.
+	WeightDecay float64 `json:"weight_decay,omitempty"`
+	// AverageLast, when 2 or more, makes the model of each epoch the mean
+	// of the weights at the ends of the last AverageLast epochs (fewer in
+	// the first epochs): checkpoint averaging as in Vaswani et al. (2017,
+	// "Attention Is All You Need", section 6.1). The mean of weights is one
+	// model of the same shape; dev chooses among these means, and training
+	// continues from the latest weights. 0 or 1 keeps each epoch's own.
+	AverageLast int `json:"average_last,omitempty"`
+	// StopOn is what early stopping and the choice of the kept epoch
+	// follow on the dev split: "macro-f1" ("" too: the highest) or
+	// "loss" (the lowest mean cross-entropy).
+	StopOn string `json:"stop_on,omitempty"`
 }
 
 // WithDefaults returns tc with every zero field set to its default, or an
@@ -96,9 +118,24 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: word dropout %g: must be 0 (off) or positive", tc.WordDropout)
 	case !(tc.TokenDropout >= 0 && tc.TokenDropout < 1):
 		return tc, fmt.Errorf("cnn: token dropout %g: must be in [0, 1)", tc.TokenDropout)
+	case tc.EmbedInit != "" && tc.EmbedInit != InitPPMI:
+		return tc, fmt.Errorf("cnn: embedding start %q: use %s or leave it empty", tc.EmbedInit, InitPPMI)
+	case !(tc.WeightDecay >= 0) || tc.WeightDecay*tc.LR >= 1:
+		return tc, fmt.Errorf("cnn: weight decay %g: must be 0 (off) or positive with decay × learning rate below 1", tc.WeightDecay)
+	case tc.AverageLast < 0:
+		return tc, fmt.Errorf("cnn: average of the last %d epochs: must be 0 (off) or positive", tc.AverageLast)
+	case tc.StopOn != "" && tc.StopOn != StopMacroF1 && tc.StopOn != StopLoss:
+		return tc, fmt.Errorf("cnn: stop on %q: use %s or %s", tc.StopOn, StopMacroF1, StopLoss)
 	}
 	return tc, nil
 }
+
+// Values of TrainConfig.EmbedInit and StopOn.
+const (
+	InitPPMI    = "ppmi"
+	StopMacroF1 = "macro-f1"
+	StopLoss    = "loss"
+)
 
 func or(v, def float64) float64 {
 	if v == 0 {
@@ -156,10 +193,12 @@ type Progress struct {
 const progressEvery = 10
 
 // Train fits m to train by mini-batch gradient descent and returns the
-// training record. After each epoch the model is evaluated on dev (which may
-// be empty); the weights of the epoch with the best dev macro-F1 (the earlier
-// one on ties; with no dev split, the last epoch) are kept, and training stops
-// when Patience epochs pass without improvement. On return m holds those
+// training record. After each epoch the epoch's model (its weights, or with
+// AverageLast the mean of the last epochs' weights) is evaluated on dev
+// (which may be empty); the model of the epoch with the best dev macro-F1
+// (or lowest dev loss, StopOn; the earlier one on ties; with no dev split,
+// the last epoch) is kept, and training stops when Patience epochs pass
+// without improvement. On return m holds those
 // weights, also when ctx is cancelled (then Cancelled is set and the error is
 // nil; if no epoch completed, m holds the weights reached so far). A batch
 // whose loss is NaN or infinite, or a weight that is not finite at the end
@@ -205,8 +244,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	tr.prepare(train)
 	rng := rand.New(rand.NewPCG(tc.Seed, tc.Seed^0x5bd1e995))
 	res := &TrainResult{}
-	var best *Model
-	bestF1 := -1.0
+	sel := newSelector(tc, dev)
 	var steadyN, firstN int
 	var steadyT, firstT time.Duration
 	n := train.Len()
@@ -248,22 +286,13 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 			steadyN, steadyT = steadyN+done, steadyT+el
 		}
 		er := EpochResult{Epoch: epoch, Loss: sum / float64(done), ExamplesPerSec: float64(done) / el.Seconds(), Seconds: el.Seconds()}
-		improved := true
-		if dev.Len() > 0 {
-			mt, _, err := evaluate(m, dev, tc.Threads, false)
-			if err != nil {
-				return nil, err
-			}
-			er.Dev = &mt
-			improved = mt.MacroF1 > bestF1
-			if improved {
-				bestF1 = mt.MacroF1
-			}
+		var improved bool
+		if er.Dev, improved, err = sel.epochEnd(m); err != nil {
+			return nil, err
 		}
 		res.Epochs = append(res.Epochs, er)
 		if improved {
 			res.BestEpoch = epoch
-			best = copyWeights(best, m)
 		}
 		if progress != nil {
 			progress(Progress{Epoch: epoch, Epochs: tc.Epochs, Batch: len(batches), Batches: len(batches),
@@ -274,8 +303,8 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 			break
 		}
 	}
-	if best != nil {
-		copyWeights(m, best)
+	if sel.best != nil {
+		copyWeights(m, sel.best)
 		m.Invalidate()
 	}
 	// The model file keeps the record of how it was trained.

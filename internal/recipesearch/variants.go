@@ -1,0 +1,59 @@
+package main
+
+import "telltale/cnn"
+
+// variants are the changes a candidate recipe makes to the default recipe.
+var variants = map[string]func(r *cnn.Recipe){
+	"default": func(r *cnn.Recipe) {},
+	// vocabulary and unknown words
+	"min2":  func(r *cnn.Recipe) { r.Tokenizer.MinCount = 2 },
+	"min3":  func(r *cnn.Recipe) { r.Tokenizer.MinCount = 3 },
+	"wd":    func(r *cnn.Recipe) { r.Train.WordDropout = 0.25 },
+	"wd1":   func(r *cnn.Recipe) { r.Train.WordDropout = 1 },
+	"sub":   func(r *cnn.Recipe) { r.Tokenizer.Subword = true },
+	"tok0":  func(r *cnn.Recipe) { r.Train.TokenDropout = 0 },
+	"tok10": func(r *cnn.Recipe) { r.Train.TokenDropout = 0.1 },
+	"tok25": func(r *cnn.Recipe) { r.Train.TokenDropout = 0.25 },
+	"tok40": func(r *cnn.Recipe) { r.Train.TokenDropout = 0.4 },
+	// architecture
+	"w123":   func(r *cnn.Recipe) { r.Model.Widths = []int{1, 2, 3} },
+	"w12":    func(r *cnn.Recipe) { r.Model.Widths = []int{1, 2} },
+	"w2345":  func(r *cnn.Recipe) { r.Model.Widths = []int{2, 3, 4, 5} },
+	"f50":    func(r *cnn.Recipe) { r.Model.Filters = 50 },
+	"f200":   func(r *cnn.Recipe) { r.Model.Filters = 200 },
+	"dim64":  func(r *cnn.Recipe) { r.Model.Dim = 64 },
+	"dim200": func(r *cnn.Recipe) { r.Model.Dim = 200 },
+	"drop3":  func(r *cnn.Recipe) { r.Model.Dropout = 0.3 },
+	"drop6":  func(r *cnn.Recipe) { r.Model.Dropout = 0.6 },
+	"drop7":  func(r *cnn.Recipe) { r.Model.Dropout = 0.7 },
+	// optimisation
+	"ep5":      func(r *cnn.Recipe) { r.Train.Epochs = 5 },
+	"ep20":     func(r *cnn.Recipe) { r.Train.Epochs, r.Train.Patience = 20, 5 },
+	"pat5":     func(r *cnn.Recipe) { r.Train.Patience = 5 },
+	"lr2":      func(r *cnn.Recipe) { r.Train.LR = 2e-3 },
+	"lr5":      func(r *cnn.Recipe) { r.Train.LR = 5e-4 },
+	"batch25":  func(r *cnn.Recipe) { r.Train.Batch = 25 },
+	"batch100": func(r *cnn.Recipe) { r.Train.Batch = 100 },
+	"maxnorm3": func(r *cnn.Recipe) { r.Model.MaxNorm = 3 },
+	"adadelta": func(r *cnn.Recipe) { r.Train.Optimizer = "adadelta"; r.Model.MaxNorm = 3 },
+	"len200":   func(r *cnn.Recipe) { r.Train.MaxLen = 200 },
+	"len800":   func(r *cnn.Recipe) { r.Train.MaxLen = 800 },
+	// regularisation, averaging and the start of the embeddings
+	"decay01":  func(r *cnn.Recipe) { r.Train.WeightDecay = 0.1 },
+	"decay1":   func(r *cnn.Recipe) { r.Train.WeightDecay = 1 },
+	"decay10":  func(r *cnn.Recipe) { r.Train.WeightDecay = 10 },
+	"avg2":     func(r *cnn.Recipe) { r.Train.AverageLast = 2 },
+	"avg3":     func(r *cnn.Recipe) { r.Train.AverageLast = 3 },
+	"avg5":     func(r *cnn.Recipe) { r.Train.AverageLast = 5 },
+	"stoploss": func(r *cnn.Recipe) { r.Train.StopOn = cnn.StopLoss },
+	"ppmi":     func(r *cnn.Recipe) { r.Train.EmbedInit = cnn.InitPPMI },
+}
+
+func init() {
+	// ensembles merged into one model (cnn.Merge); "thin" members share the
+	// default's width between them, so the merged model has its shape
+	variants["ens2"] = func(r *cnn.Recipe) { r.Members = 2 }
+	variants["ens3"] = func(r *cnn.Recipe) { r.Members = 3 }
+	variants["ens2thin"] = func(r *cnn.Recipe) { r.Members, r.Model.Dim, r.Model.Filters = 2, 64, 50 }
+	variants["ens4thin"] = func(r *cnn.Recipe) { r.Members, r.Model.Dim, r.Model.Filters = 4, 32, 25 }
+}
