@@ -3,11 +3,8 @@ package main
 import (
 	"context"
 	"flag"
-	"fmt"
-	"io"
 	"strings"
 
-	"telltale/cnn"
 	"telltale/internal/outguard"
 	"telltale/report"
 )
@@ -57,19 +54,25 @@ func runPredict(ctx context.Context, env *runEnv, o *predictOptions) error {
 	if err != nil {
 		return err
 	}
-	pr := m.NewPredictor()
-	out := make([]cnn.Output, 1)
+	next, err := o.texts.batches(env)
+	if err != nil {
+		return err
+	}
 	var texts []string
 	var probs [][]float32
-	err = o.texts.each(ctx, env, func(t text) error {
-		_, ids := enc.Encode(t.Text)
-		pr.Run([][]int32{ids}, out)
-		if o.export != "" {
-			texts, probs = append(texts, t.Text), append(probs, append([]float32(nil), out[0].Probs...))
+	var keep func(text, []float32)
+	if o.export != "" {
+		keep = func(t text, p []float32) {
+			texts, probs = append(texts, t.Text), append(probs, append([]float32(nil), p...))
 		}
-		return writePrediction(env.Stdout, m, t, out[0].Probs, o.asJSON)
-	})
-	if err != nil || o.export == "" {
+	}
+	format := func(dst []byte, t text, p []float32) ([]byte, error) {
+		return appendTextLine(dst, m.Labels, t, p), nil
+	}
+	if o.asJSON {
+		format = newPredictionJSON(m.Labels).appendLine
+	}
+	if err := predictStream(ctx, next, m, enc, env.Stdout, format, keep); err != nil || o.export == "" {
 		return err
 	}
 	return report.WriteTableFile(o.export, report.PredictionTable(m.Labels, texts, nil, probs))
@@ -111,6 +114,26 @@ type text struct {
 	File string
 }
 
+// batches returns the texts of the source in batches (see predictStream);
+// --data is read whole first, standard input as it comes.
+func (s *textSource) batches(env *runEnv) (batchSource, error) {
+	switch {
+	case s.given:
+		return sliceBatches([]text{{Text: s.text}}), nil
+	case s.data != "":
+		ds, err := s.read.readTexts(s.data, env.Stderr, s.quiet)
+		if err != nil {
+			return nil, err
+		}
+		texts := make([]text, len(ds.Examples))
+		for i, e := range ds.Examples {
+			texts[i] = text{Text: e.Text, Line: e.Line, File: e.File}
+		}
+		return sliceBatches(texts), nil
+	}
+	return lineBatches(env.Stdin), nil
+}
+
 // each calls fn with every text of the source.
 func (s *textSource) each(ctx context.Context, env *runEnv, fn func(text) error) error {
 	switch {
@@ -132,39 +155,4 @@ func (s *textSource) each(ctx context.Context, env *runEnv, fn func(text) error)
 		return nil
 	}
 	return eachLine(ctx, env.Stdin, func(t string) error { return fn(text{Text: t}) })
-}
-
-type prediction struct {
-	Text          string             `json:"text"`
-	Line          int                `json:"line,omitempty"` // where in --data
-	File          string             `json:"file,omitempty"`
-	Label         string             `json:"label"`
-	Probabilities map[string]float64 `json:"probabilities"`
-}
-
-func writePrediction(w io.Writer, m *cnn.Model, t text, probs []float32, asJSON bool) error {
-	best := argmax(probs)
-	if asJSON {
-		p := prediction{Text: t.Text, Line: t.Line, File: t.File, Label: m.Labels[best], Probabilities: map[string]float64{}}
-		for c, l := range m.Labels {
-			p.Probabilities[l] = float64(probs[c])
-		}
-		b, err := jsonLine(p)
-		if err != nil {
-			return err
-		}
-		_, err = w.Write(b)
-		return err
-	}
-	var sb strings.Builder
-	fmt.Fprintf(&sb, "%s\t", m.Labels[best])
-	for c, l := range m.Labels {
-		if c > 0 {
-			sb.WriteString(" ")
-		}
-		fmt.Fprintf(&sb, "%s=%.3f", l, probs[c])
-	}
-	fmt.Fprintf(&sb, "\t%s\n", oneLine(t.Text, 60))
-	_, err := io.WriteString(w, sb.String())
-	return err
 }

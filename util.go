@@ -1,10 +1,8 @@
 package main
 
 import (
-	"bufio"
 	"context"
 	"encoding/json"
-	"fmt"
 	"io"
 	"sort"
 	"strings"
@@ -42,32 +40,30 @@ func sortBy(idx []int, key func(int) float64) {
 const maxStdinLine = 16 << 20
 
 // eachLine calls fn with every line of r that holds more than white space.
-// The lines are read on a goroutine of their own, so that a cancelled ctx
-// ends the loop even while r blocks (a terminal waiting for input); that
-// goroutine then ends with r.
+// The lines are read on a goroutine of their own (see lineBatches), so that
+// a cancelled ctx ends the loop even while r blocks (a terminal waiting for
+// input); that goroutine then ends with r.
 func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
-	type line struct {
-		text string
-		err  error
+	type batch struct {
+		texts []text
+		err   error
 	}
-	lines := make(chan line)
+	batches := make(chan batch)
 	done := make(chan struct{})
 	defer close(done)
 	go func() {
-		defer close(lines)
-		sc := bufio.NewScanner(r)
-		sc.Buffer(make([]byte, 64*1024), maxStdinLine)
-		for sc.Scan() {
+		defer close(batches)
+		next := lineBatches(r)
+		for {
+			var b textBatch
+			more, err := next(&b)
 			select {
-			case lines <- line{text: sc.Text()}:
+			case batches <- batch{texts: b.texts, err: err}:
 			case <-done:
 				return
 			}
-		}
-		if err := sc.Err(); err != nil {
-			select {
-			case lines <- line{err: err}:
-			case <-done:
+			if !more || err != nil {
+				return
 			}
 		}
 	}()
@@ -75,17 +71,20 @@ func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
 		select {
 		case <-ctx.Done():
 			return ctx.Err()
-		case l, ok := <-lines:
-			switch {
-			case !ok:
+		case b, ok := <-batches:
+			if !ok {
 				return nil
-			case l.err != nil:
-				return fmt.Errorf("reading standard input: %w (lines are limited to 16 MiB)", l.err)
-			case strings.TrimSpace(l.text) == "":
-			default:
-				if err := fn(l.text); err != nil {
+			}
+			for _, t := range b.texts {
+				if err := ctx.Err(); err != nil {
 					return err
 				}
+				if err := fn(t.Text); err != nil {
+					return err
+				}
+			}
+			if b.err != nil {
+				return b.err
 			}
 		}
 	}

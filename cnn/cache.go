@@ -1,32 +1,52 @@
 package cnn
 
 import (
-	"runtime"
 	"sync"
+	"sync/atomic"
 	"unsafe"
 )
 
-// A frozen model's slot table (slots.go) can be kept between calls: the
+// A frozen model's slot table (slots.go) is kept between calls: the
 // inference paths (Predictor, Predict, PredictBatch, Probabilities,
-// Evaluate) share one persistent table per model holding the rows of the
-// most frequent words (the lowest ids, as BuildVocab orders them), bounded
-// to cacheFloats values; the other words of a call get a per-call table as
-// before. The table depends on the embeddings and the convolution weights
-// only (biases, masks and the head are read at every call). It is rebuilt
-// when Train has changed the weights, after Invalidate, and when the
-// weight slices themselves were replaced.
+// Evaluate) share one persistent table per model, filled lazily: a word's
+// row is computed the first time a call meets the word and kept for every
+// later call, up to cacheFloats values; the words met after the table is
+// full get a per-call table as before. Nothing is computed for words no
+// call uses, so a process that labels a few texts pays for their words
+// only, and one that labels many pays once per distinct word.
+//
+// Every row, kept or per-call, is computed alone (f32.StableRows), so a
+// word's row has the same value bit for bit whoever computed it, in
+// whatever batch and order: the results do not depend on which words the
+// table already holds, on the threads or on the batches.
+//
+// The table depends on the embeddings and the convolution weights only
+// (biases, masks and the head are read at every call). It is rebuilt when
+// Train has changed the weights, after Invalidate, and when the weight
+// slices themselves were replaced.
 
 // cacheFloats bounds the persistent table of one model (in float32 values:
-// 128 MiB; 27,962 words for widths 3, 4, 5 × 100 filters).
-const cacheFloats = 1 << 25
+// 256 MiB; 55,924 words for widths 3, 4, 5 × 100 filters). Only the rows of
+// words met are ever allocated.
+const cacheFloats = 1 << 26
 
-// slotCache is the persistent table of the words 0 … words−1: word id's row
-// starts at tab[id·nrows]. It is read-only once built.
+// chunkRows is the number of rows allocated at once.
+const chunkRows = 256
+
+// slotCache is the persistent table. Word id's row, once it has one, is
+// rowOf[id] ≥ 0, and row r lies in chunks[r/chunkRows]. Rows are written
+// once, under mu, before their index is published in rowOf, and never
+// change afterwards, so readers need no lock.
 type slotCache struct {
-	key   cacheKey
-	sw    slotWeights
-	words int
-	tab   []float32
+	key     cacheKey
+	sw      slotWeights
+	maxRows int
+	rowOf   []atomic.Int32 // by word id: its row, −1 while it has none
+	full    atomic.Bool    // every row is taken
+
+	mu     sync.Mutex
+	used   int         // rows taken; guarded by mu
+	chunks [][]float32 // chunkRows rows each (and windowMax's slack); an entry is set under mu before any row in it is published
 }
 
 // cacheKey identifies the weights a table was built from.
@@ -36,7 +56,7 @@ type cacheKey struct {
 	embLen  int
 	w       [8]*float32 // first weight of each bank (up to 8 banks are checked)
 	banks   int
-	words   int
+	rows    int
 }
 
 var cacheMu sync.Mutex // guards Model.cache and Model.version of every model
@@ -52,8 +72,8 @@ func (m *Model) Invalidate() {
 	cacheMu.Unlock()
 }
 
-func (m *Model) cacheKey(words int) cacheKey {
-	k := cacheKey{version: m.version, embLen: len(m.Emb), banks: len(m.Convs), words: words}
+func (m *Model) cacheKey(rows int) cacheKey {
+	k := cacheKey{version: m.version, embLen: len(m.Emb), banks: len(m.Convs), rows: rows}
 	if len(m.Emb) > 0 {
 		k.emb = unsafe.SliceData(m.Emb)
 	}
@@ -63,11 +83,11 @@ func (m *Model) cacheKey(words int) cacheKey {
 	return k
 }
 
-// slotTable returns m's persistent table of the first words ids (at most
-// what cacheFloats allows; words < 0 means that many), building it with up
-// to GOMAXPROCS goroutines when it is missing or stale. It returns nil when
-// no word would be tabled.
-func (m *Model) slotTable(words int) *slotCache {
+// slotTable returns m's persistent table, which holds at most rows words
+// (at most what cacheFloats allows; rows < 0 means that many), making a new
+// empty one when it is missing or stale. It returns nil when no word would
+// be tabled.
+func (m *Model) slotTable(rows int) *slotCache {
 	cfg := m.Config
 	nr := 0
 	for _, w := range cfg.Widths {
@@ -77,34 +97,59 @@ func (m *Model) slotTable(words int) *slotCache {
 		return nil
 	}
 	limit := min(cfg.VocabSize, cacheFloats/nr)
-	if words < 0 || words > limit {
-		words = limit
+	if rows < 0 || rows > limit {
+		rows = limit
 	}
-	if words <= 0 {
+	if rows <= 0 {
 		return nil
 	}
 	cacheMu.Lock()
 	defer cacheMu.Unlock()
-	key := m.cacheKey(words)
+	key := m.cacheKey(rows)
 	if c := m.cache; c != nil && c.key == key {
 		return c
 	}
-	m.cache = buildCache(m, key, words)
-	return m.cache
+	c := &slotCache{key: key, maxRows: rows, rowOf: make([]atomic.Int32, cfg.VocabSize),
+		chunks: make([][]float32, (rows+chunkRows-1)/chunkRows)}
+	for i := range c.rowOf {
+		c.rowOf[i].Store(-1)
+	}
+	c.sw.build(m)
+	m.cache = c
+	return c
 }
 
-// buildCache tables the words 0 … words−1 of m.
-func buildCache(m *Model, key cacheKey, words int) *slotCache {
-	c := &slotCache{key: key, words: words}
-	c.sw.build(m)
-	d := m.Config.Dim
-	c.tab = make([]float32, tableLen(&c.sw, words))
-	threads := max(1, min(runtime.GOMAXPROCS(0), words/64))
-	var wg sync.WaitGroup
-	for k := range threads {
-		lo, hi := k*words/threads, (k+1)*words/threads
-		wg.Go(func() { tableRows(&c.sw, m.Emb[:words*d], c.tab, d, lo, hi) })
+// rowAt returns the start of row r (published in rowOf).
+func (c *slotCache) rowAt(r int32) *float32 {
+	return &c.chunks[r/chunkRows][int(r%chunkRows)*c.sw.nrows]
+}
+
+// add keeps the rows of words, tab[i·nrows:(i+1)·nrows] being the row of
+// words[i] computed alone (f32.StableRows), for the words that have no row
+// yet, while rows are left.
+func (c *slotCache) add(words []int32, tab []float32) {
+	if c.full.Load() {
+		return
 	}
-	wg.Wait()
-	return c
+	nr := c.sw.nrows
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	for i, id := range words {
+		if c.rowOf[id].Load() >= 0 {
+			continue // added by another goroutine meanwhile
+		}
+		if c.used == c.maxRows {
+			c.full.Store(true)
+			return
+		}
+		r := c.used
+		ch := c.chunks[r/chunkRows]
+		if ch == nil {
+			ch = make([]float32, chunkRows*nr+winLanes)
+			c.chunks[r/chunkRows] = ch
+		}
+		copy(ch[(r%chunkRows)*nr:(r%chunkRows+1)*nr], tab[i*nr:(i+1)*nr])
+		c.used++
+		c.rowOf[id].Store(int32(r))
+	}
 }

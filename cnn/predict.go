@@ -178,14 +178,16 @@ func (p *Predictor) runPre(texts [][]int32) {
 	p.cache = nil
 }
 
-// codeOf returns the code of word id: its id when the persistent table
+// codeOf returns the code of word id: its row when the persistent table
 // holds it, −1 for PAD, else −2 − its index in the per-call word set.
 func (p *Predictor) codeOf(id int32) int32 {
-	if p.cache != nil && int(id) < p.cache.words {
-		return id
-	}
 	if id == corpus.PAD {
 		return -1
+	}
+	if p.cache != nil {
+		if r := p.cache.rowOf[id].Load(); r >= 0 {
+			return r
+		}
 	}
 	return -2 - p.ws.add(id)
 }
@@ -211,14 +213,14 @@ func (p *Predictor) addWhole(i int, ids []int32, lp, capW int) bool {
 // spans.
 func (p *Predictor) flush() {
 	m := p.m
-	d, nf, maxW := m.Config.Dim, m.Config.NumFilters(), m.Config.MaxWidth()
+	nf, maxW := m.Config.NumFilters(), m.Config.MaxWidth()
 	sw := p.csw
 	nw := len(p.ws.words)
 	if nw > 0 {
-		p.emb = grow(p.emb, nw*d)
-		p.tab = grow(p.tab, tableLen(sw, nw))
-		gatherRows(m, p.ws.words, p.emb, 0, nw)
-		tableRows(sw, p.emb, p.tab, d, 0, nw)
+		p.emb, p.tab = wordRows(m, sw, p.ws.words, p.emb, p.tab)
+		if p.cache != nil {
+			p.cache.add(p.ws.words, p.tab)
+		}
 	}
 	nr := sw.nrows
 	zero := &sw.zero[0]
@@ -231,7 +233,7 @@ func (p *Predictor) flush() {
 			if k := q - sp.base; k < len(code) {
 				switch c := code[k]; {
 				case c >= 0:
-					r = &p.cache.tab[int(c)*nr]
+					r = p.cache.rowAt(c)
 				case c <= -2:
 					r = &p.tab[int(-2-c)*nr]
 				}

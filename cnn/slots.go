@@ -102,6 +102,21 @@ func gatherRows(m *Model, words []int32, emb []float32, lo, hi int) {
 	}
 }
 
+// wordRows computes the slot-table rows of words (none PAD), each alone
+// (f32.StableRows: a row's value does not depend on the other words), into
+// tab, row i for words[i], and returns the buffers emb and tab, grown as
+// needed.
+func wordRows(m *Model, sw *slotWeights, words []int32, emb, tab []float32) ([]float32, []float32) {
+	d, n := m.Config.Dim, len(words)
+	rows := f32.StableRows(n)
+	emb = grow(emb, rows*d)
+	tab = grow(tab, rows*sw.nrows+winLanes)
+	gatherRows(m, words, emb, 0, n)
+	clear(emb[n*d : rows*d])
+	tableRows(sw, emb, tab, d, 0, rows)
+	return emb, tab
+}
+
 // tableRows fills rows lo..hi of the slot table from the gathered embeddings.
 func tableRows(sw *slotWeights, emb, tab []float32, d, lo, hi int) {
 	if hi > lo {

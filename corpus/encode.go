@@ -2,6 +2,7 @@ package corpus
 
 import (
 	"runtime"
+	"strings"
 	"sync"
 )
 
@@ -55,13 +56,75 @@ func TrainEncoder(cfg TokenizerConfig, texts []string) (*Encoder, error) {
 const SubwordMinCount = 2
 
 // Encode tokenizes text (splitting unknown words into known subword pieces
-// when the tokenizer has them) and maps the tokens to ids.
+// when the tokenizer has them), cut to MaxTokens when positive, and maps the
+// tokens to ids. It reads text only up to the last token kept.
 func (e *Encoder) Encode(text string) ([]Token, []int32) {
-	toks := e.Tok.TokenizeFor(e.Vocab, text)
-	if e.MaxTokens > 0 && len(toks) > e.MaxTokens {
-		toks = toks[:e.MaxTokens]
-	}
+	toks := e.Tok.TokenizeForN(e.Vocab, text, e.limit())
 	return toks, e.Vocab.Encode(toks)
+}
+
+// limit is the token limit of TokenizeN: MaxTokens, or −1 for none.
+func (e *Encoder) limit() int {
+	if e.MaxTokens > 0 {
+		return e.MaxTokens
+	}
+	return -1
+}
+
+// AppendIDs appends the ids that Encode gives text to dst and returns the
+// extended slice. With the built-in rule it makes no tokens: each word is
+// looked up where it lies in text (an upper-case ASCII word lower-cased in a
+// buffer on the stack), and text is read only up to the last id kept, so
+// for most texts nothing is allocated but dst's growth. With a user
+// tokenizer file it is Encode.
+func (e *Encoder) AppendIDs(dst []int32, text string) []int32 {
+	t, v := e.Tok, e.Vocab
+	if t.user != nil {
+		_, ids := e.Encode(text)
+		return append(dst, ids...)
+	}
+	limit := len(dst) + e.MaxTokens
+	if e.MaxTokens <= 0 {
+		limit = -1
+	}
+	for i := 0; limit < 0 || len(dst) < limit; {
+		p, next := nextPiece(text, i)
+		if next < 0 {
+			break
+		}
+		i = next
+		src := text[p.start:p.end]
+		var id int32
+		word := src // the token's text, made only where needed below
+		switch p.kind {
+		case pieceUpper:
+			if t.cfg.Lower {
+				id, word = v.lowerID(src), ""
+			} else {
+				id = v.ID(src)
+			}
+		case pieceMixed, pieceRune:
+			if word = t.normalize(src); word == "" {
+				continue
+			}
+			id = v.ID(word)
+		default:
+			id = v.ID(src)
+		}
+		if id == UNK && t.wp != nil {
+			if word == "" {
+				word = strings.ToLower(src)
+			}
+			if n0 := len(dst); t.appendPieceIDs(v, word, &dst) {
+				if limit >= 0 && len(dst) > limit {
+					dst = dst[:max(n0, limit)]
+				}
+				continue
+			}
+		}
+		dst = append(dst, id)
+	}
+	return dst
 }
 
 // EncodeAll encodes every text with threads goroutines (0 means GOMAXPROCS).

@@ -4,11 +4,13 @@ import (
 	"bytes"
 	"fmt"
 	"os"
+	"runtime"
 	"sort"
 	"strings"
 	"sync"
 	"unicode"
 	"unicode/utf8"
+	"unsafe"
 
 	"github.com/sugarme/tokenizer"
 	"github.com/sugarme/tokenizer/model"
@@ -226,12 +228,15 @@ func dropChar(r rune) bool {
 	return unicode.Is(unicode.Cc, r) || unicode.Is(unicode.Cf, r) || r == utf8.RuneError
 }
 
-// asciiClass classifies the ASCII bytes for the splitting loop; it agrees
-// with unicode.IsSpace and isPunctOrSymbol on every byte below 0x80.
-var asciiClass = func() (c [utf8.RuneSelf]uint8) {
-	for b := range utf8.RuneSelf {
+// byteClass classifies the bytes for the splitting loop: ASCII bytes as
+// unicode.IsSpace and isPunctOrSymbol do, every other byte as clsOther
+// (part of a multi-byte rune, or invalid).
+var byteClass = func() (c [256]uint8) {
+	for b := range 256 {
 		r := rune(b)
 		switch {
+		case b >= utf8.RuneSelf:
+			c[b] = clsOther
 		case unicode.IsSpace(r):
 			c[b] = clsSpace
 		case isPunctOrSymbol(r):
@@ -246,122 +251,182 @@ var asciiClass = func() (c [utf8.RuneSelf]uint8) {
 }()
 
 const (
-	clsWord    = iota // letters (lower case), digits
+	clsWord    = iota // lower-case letters, digits
 	clsSpace          // white space: separates, removed
 	clsPunct          // punctuation or symbol: a token of its own
 	clsControl        // control character: inside a word, removed by normalization
 	clsUpper          // upper-case letter
+	clsOther          // a byte ≥ 0x80: decoded as UTF-8
 )
 
 // Tokenize splits text into tokens (see Tokenizer). It never fails; with
 // a user tokenizer file whose library call fails or returns offsets that
 // do not fit the text, the built-in rule is used for that text.
 func (t *Tokenizer) Tokenize(text string) []Token {
+	return t.TokenizeN(text, -1)
+}
+
+// TokenizeN is Tokenize cut to the first n tokens (n < 0: all of them). It
+// gives exactly the first n tokens of Tokenize, and with the built-in rule
+// it stops reading text after the n-th, so a long text cut to a model's
+// length costs what its first n tokens cost.
+func (t *Tokenizer) TokenizeN(text string, n int) []Token {
 	if t.user != nil {
 		if toks, ok := t.userTokenize(text); ok {
+			if n >= 0 && len(toks) > n {
+				toks = toks[:n:n]
+			}
 			return toks
 		}
 	}
-	return t.split(text)
+	return t.splitN(text, n)
 }
 
-// split is the built-in rule in one pass over the bytes: ASCII bytes are
-// classified by table, other runes decoded and classified with the
-// unicode package; only words holding non-ASCII runes or control
-// characters go through the full normalization. It gives the same tokens
-// and offsets as splitReference (tested on whole corpora).
-func (t *Tokenizer) split(text string) []Token {
-	if text == "" {
+// split is the built-in rule over the whole text.
+func (t *Tokenizer) split(text string) []Token { return t.splitN(text, -1) }
+
+// splitN is the built-in rule up to n tokens (n < 0: all): the pieces of
+// nextPiece, each normalized as its kind needs (only words holding
+// non-ASCII runes or control characters, and non-ASCII punctuation, go
+// through the full normalization). It gives the same tokens and offsets as
+// splitReference (tested on whole corpora). Lower-cased plain words are
+// substrings of one lower-cased copy of the text up to the last token, so
+// the tokens cost one allocation besides the slice.
+func (t *Tokenizer) splitN(text string, n int) []Token {
+	if text == "" || n == 0 {
 		return nil
 	}
-	out := make([]Token, 0, len(text)/4+1)
-	var lowered string // text with ASCII letters lower-cased, made when first needed
-	word := -1         // start of the current word, -1 when none
-	plain := true      // current word is ASCII letters and digits only
-	upper := false
-	flush := func(end int) {
-		if word < 0 {
-			return
-		}
-		src := text[word:end]
-		var s string
-		switch {
-		case !plain:
-			s = t.normalize(src)
-		case upper && t.cfg.Lower:
-			if lowered == "" {
-				lowered = lowerASCII(text)
-			}
-			s = lowered[word:end]
-		default:
-			s = src
-		}
-		if s != "" {
-			out = append(out, Token{Text: s, Start: word, End: end})
-		}
-		word, plain, upper = -1, true, false
+	size := len(text)/4 + 1 // tokens are rarely shorter than 3 bytes with their separator
+	if n > 0 {
+		size = min(size, n)
 	}
-	for i := 0; i < len(text); {
-		if b := text[i]; b < utf8.RuneSelf {
-			switch asciiClass[b] {
-			case clsSpace:
-				flush(i)
-			case clsPunct:
-				flush(i)
-				out = append(out, Token{Text: text[i : i+1], Start: i, End: i + 1})
-			default:
-				if word < 0 {
-					word = i
-				}
-				switch asciiClass[b] {
-				case clsControl:
-					plain = false
-				case clsUpper:
-					upper = true
-				}
-			}
-			i++
-			continue
+	out := make([]Token, 0, size)
+	needLower := false
+	for i := 0; n < 0 || len(out) < n; {
+		p, next := nextPiece(text, i)
+		if next < 0 {
+			break
 		}
-		r, size := utf8.DecodeRuneInString(text[i:])
-		switch {
-		case r == utf8.RuneError && size == 1: // invalid byte: separates, never part of a token
-			flush(i)
-		case unicode.IsSpace(r):
-			flush(i)
-		case isPunctOrSymbol(r):
-			flush(i)
-			if s := t.normalize(text[i : i+size]); s != "" {
-				out = append(out, Token{Text: s, Start: i, End: i + size})
+		i = next
+		src := text[p.start:p.end]
+		s := src
+		switch p.kind {
+		case pieceUpper:
+			if t.cfg.Lower {
+				s, needLower = "", true // filled below from the lower-cased copy
 			}
-		default:
-			if word < 0 {
-				word = i
+		case pieceMixed, pieceRune:
+			if s = t.normalize(src); s == "" {
+				continue
 			}
-			plain = false
 		}
-		i += size
+		out = append(out, Token{Text: s, Start: p.start, End: p.end})
 	}
-	flush(len(text))
 	if len(out) == 0 {
 		return nil // as splitReference
 	}
+	if needLower {
+		// Only pieceUpper tokens have an empty Text here: every other
+		// token is non-empty.
+		lowered := lowerASCII(text[:out[len(out)-1].End])
+		for k := range out {
+			if out[k].Text == "" {
+				out[k].Text = lowered[out[k].Start:out[k].End]
+			}
+		}
+	}
 	return out
+}
+
+// A piece is one token's source span as the splitting rule finds it,
+// before normalization; kind says what normalization it needs.
+type piece struct {
+	start, end int
+	kind       uint8
+}
+
+// The kinds of piece. pieceMixed|pieceUpper is pieceMixed, which the
+// word loop of nextPiece relies on.
+const (
+	pieceWord  = 0 // ASCII lower-case letters and digits: the token is the span
+	pieceUpper = 1 // ASCII letters and digits with an upper-case letter: lower-cased when Lower
+	pieceMixed = 3 // a word holding non-ASCII runes or control characters: normalized
+	piecePunct = 4 // one ASCII punctuation or symbol byte: the token is the byte
+	pieceRune  = 5 // one non-ASCII punctuation or symbol rune: normalized
+)
+
+// nextPiece returns the first piece of text at or after byte i and the
+// byte where the search for the next one starts; next is −1 when there is
+// none. The rule: Unicode white space and invalid UTF-8 bytes separate and
+// are dropped, every punctuation or symbol character is a piece of its own,
+// and the runs of other characters between them are words.
+func nextPiece(text string, i int) (p piece, next int) {
+	// Skip separators; return a punctuation piece at once.
+skip:
+	for i < len(text) {
+		switch byteClass[text[i]] {
+		case clsSpace:
+			i++
+			continue
+		case clsPunct:
+			return piece{i, i + 1, piecePunct}, i + 1
+		case clsOther:
+		default:
+			break skip
+		}
+		r, size := utf8.DecodeRuneInString(text[i:])
+		switch {
+		case r == utf8.RuneError && size == 1, unicode.IsSpace(r):
+			i += size
+		case isPunctOrSymbol(r):
+			return piece{i, i + size, pieceRune}, i + size
+		default:
+			break skip
+		}
+	}
+	if i >= len(text) {
+		return piece{}, -1
+	}
+	start := i
+	kind := uint8(pieceWord)
+	for i < len(text) {
+		switch byteClass[text[i]] {
+		case clsWord:
+			i++
+			continue
+		case clsUpper:
+			kind |= pieceUpper // pieceWord becomes pieceUpper; pieceMixed stays
+			i++
+			continue
+		case clsControl:
+			kind = pieceMixed
+			i++
+			continue
+		case clsSpace, clsPunct:
+			return piece{start, i, kind}, i
+		}
+		r, size := utf8.DecodeRuneInString(text[i:])
+		if (r == utf8.RuneError && size == 1) || unicode.IsSpace(r) || isPunctOrSymbol(r) {
+			return piece{start, i, kind}, i
+		}
+		kind = pieceMixed
+		i += size
+	}
+	return piece{start, i, kind}, i
 }
 
 // lowerASCII returns s with the ASCII letters A-Z lower-cased (one
 // allocation; the other bytes are unchanged).
 func lowerASCII(s string) string {
-	var b strings.Builder
-	b.Grow(len(s))
-	for i := 0; i < len(s); i++ {
-		c := s[i]
+	b := []byte(s)
+	for i, c := range b {
 		if 'A' <= c && c <= 'Z' {
-			c += 'a' - 'A'
+			b[i] = c + ('a' - 'A')
 		}
-		b.WriteByte(c)
 	}
-	return b.String()
+	// b is not used again: the string may share its storage, as
+	// strings.Builder's String does.
+	return unsafe.String(unsafe.SliceData(b), len(b))
 }
 
 // normalize applies the token normalization to one source span: NFKC
@@ -529,10 +594,28 @@ func (t *Tokenizer) userTokenize(text string) (toks []Token, ok bool) {
 // source runes [a,b); otherwise (NFKC changed the length) every piece
 // carries the whole word's span.
 func (t *Tokenizer) TokenizeFor(v *Vocab, text string) []Token {
-	toks := t.Tokenize(text)
+	return t.TokenizeForN(v, text, -1)
+}
+
+// TokenizeForN is TokenizeFor cut to its first n tokens (n < 0: all); like
+// TokenizeN it stops reading text once it has them.
+func (t *Tokenizer) TokenizeForN(v *Vocab, text string, n int) []Token {
+	// Every word gives at least one token, so the first n words hold the
+	// first n tokens.
+	toks := t.TokenizeN(text, n)
 	if t.wp == nil {
 		return toks
 	}
+	out := t.expandPieces(v, text, toks)
+	if n >= 0 && len(out) > n {
+		out = out[:n:n]
+	}
+	return out
+}
+
+// expandPieces replaces each token of toks that v maps to UNK by its
+// WordPiece pieces when all of them are in v (see TokenizeFor).
+func (t *Tokenizer) expandPieces(v *Vocab, text string, toks []Token) []Token {
 	out := toks[:0:0]
 	for _, tk := range toks {
 		if v.ID(tk.Text) != UNK {
@@ -571,6 +654,26 @@ func (t *Tokenizer) TokenizeFor(v *Vocab, text string) []Token {
 	return out
 }
 
+// appendPieceIDs appends to *dst the ids of word's WordPiece pieces and
+// reports true when word has pieces and v knows all of them (the tokens
+// expandPieces puts in word's place); otherwise it leaves *dst alone.
+func (t *Tokenizer) appendPieceIDs(v *Vocab, word string, dst *[]int32) bool {
+	pieces := t.pieces(word)
+	if len(pieces) == 0 {
+		return false
+	}
+	n0 := len(*dst)
+	for _, p := range pieces {
+		id := v.ID(p.Value)
+		if id == UNK {
+			*dst = (*dst)[:n0]
+			return false
+		}
+		*dst = append(*dst, id)
+	}
+	return true
+}
+
 // pieces returns the WordPiece split of word, or nil when it has no split.
 func (t *Tokenizer) pieces(word string) (out []tokenizer.Token) {
 	defer func() {
@@ -602,12 +705,7 @@ func BuildVocab(tok *Tokenizer, texts []string, minCount, maxSize int) *Vocab {
 	if minCount < 1 {
 		minCount = 1
 	}
-	counts := map[string]int{}
-	for _, s := range texts {
-		for _, tk := range tok.Tokenize(s) {
-			counts[tk.Text]++
-		}
-	}
+	counts := countWords(tok, texts)
 	type wc struct {
 		w string
 		c int
@@ -670,4 +768,105 @@ func BuildVocab(tok *Tokenizer, texts []string, minCount, maxSize int) *Vocab {
 		}
 	}
 	return NewVocab(words, cs)
+}
+
+// countWords counts the token texts of texts (what Tokenize gives) on
+// GOMAXPROCS goroutines, each over a contiguous share of the texts; the
+// counts do not depend on the split.
+func countWords(tok *Tokenizer, texts []string) map[string]int {
+	workers := max(1, min(runtime.GOMAXPROCS(0), len(texts)/64))
+	parts := make([]wordCounter, workers)
+	var wg sync.WaitGroup
+	for w := range parts {
+		lo, hi := w*len(texts)/workers, (w+1)*len(texts)/workers
+		wg.Go(func() {
+			c := &parts[w]
+			c.index = map[string]int32{}
+			for _, s := range texts[lo:hi] {
+				tok.countText(s, c)
+			}
+		})
+	}
+	wg.Wait()
+	counts := make(map[string]int, len(parts[0].words))
+	for _, c := range parts {
+		for i, w := range c.words {
+			counts[w] += c.n[i]
+		}
+	}
+	return counts
+}
+
+// wordCounter counts words; a word already counted costs one map lookup
+// and no allocation.
+type wordCounter struct {
+	index map[string]int32 // word → its index in words and n
+	words []string
+	n     []int
+}
+
+// add counts word, which may live in memory that is reused afterwards
+// (it is copied when new).
+func (c *wordCounter) add(word []byte) {
+	if i, ok := c.index[string(word)]; ok {
+		c.n[i]++
+		return
+	}
+	w := string(word)
+	c.index[w] = int32(len(c.words))
+	c.words = append(c.words, w)
+	c.n = append(c.n, 1)
+}
+
+// addString is add for a string; a new word is copied, so that the
+// counter does not keep the text it was cut from.
+func (c *wordCounter) addString(word string) {
+	if i, ok := c.index[word]; ok {
+		c.n[i]++
+		return
+	}
+	w := strings.Clone(word)
+	c.index[w] = int32(len(c.words))
+	c.words = append(c.words, w)
+	c.n = append(c.n, 1)
+}
+
+// countText counts the tokens of text into c as Tokenize gives them,
+// without making the tokens with the built-in rule.
+func (t *Tokenizer) countText(text string, c *wordCounter) {
+	if t.user != nil {
+		for _, tk := range t.Tokenize(text) {
+			c.addString(tk.Text)
+		}
+		return
+	}
+	var buf [64]byte
+	for i := 0; ; {
+		p, next := nextPiece(text, i)
+		if next < 0 {
+			return
+		}
+		i = next
+		src := text[p.start:p.end]
+		switch p.kind {
+		case pieceUpper:
+			if t.cfg.Lower {
+				b := buf[:0]
+				for k := 0; k < len(src); k++ {
+					ch := src[k]
+					if 'A' <= ch && ch <= 'Z' {
+						ch += 'a' - 'A'
+					}
+					b = append(b, ch)
+				}
+				c.add(b)
+				continue
+			}
+		case pieceMixed, pieceRune:
+			if src = t.normalize(src); src == "" {
+				continue
+			}
+		}
+		c.addString(src)
+	}
 }

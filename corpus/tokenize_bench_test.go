@@ -1,6 +1,7 @@
 package corpus
 
 import (
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
@@ -59,5 +60,27 @@ func BenchmarkTokenizeShort(b *testing.B) {
 	b.ReportAllocs()
 	for b.Loop() {
 		tok.Tokenize(text)
+	}
+}
+
+// BenchmarkAppendIDs encodes the corpus of BenchmarkTokenize straight to
+// ids, whole and cut to 400 tokens (the default recipe's length); the
+// throughput is of the whole texts' bytes.
+func BenchmarkAppendIDs(b *testing.B) {
+	texts := benchCorpus(b)
+	tok, _ := NewTokenizer(TokenizerConfig{Lower: true})
+	enc := &Encoder{Tok: tok, Vocab: BuildVocab(tok, texts[:len(texts)/2], 2, 0)}
+	for _, limit := range []int{0, 400} {
+		b.Run(fmt.Sprintf("max=%d", limit), func(b *testing.B) {
+			enc.MaxTokens = limit
+			var ids []int32
+			b.SetBytes(benchBytes)
+			b.ReportAllocs()
+			for b.Loop() {
+				for _, s := range texts {
+					ids = enc.AppendIDs(ids[:0], s)
+				}
+			}
+		})
 	}
 }

@@ -55,6 +55,28 @@ func (v *Vocab) ID(word string) int32 {
 	return UNK
 }
 
+// lowerID is ID of word with its ASCII letters lower-cased, without
+// allocating for words of up to 64 bytes (Go does not copy the key of a map
+// lookup made with string(bytes)).
+func (v *Vocab) lowerID(word string) int32 {
+	var buf [64]byte
+	b := buf[:0]
+	if len(word) > len(buf) {
+		b = make([]byte, 0, len(word))
+	}
+	for i := 0; i < len(word); i++ {
+		c := word[i]
+		if 'A' <= c && c <= 'Z' {
+			c += 'a' - 'A'
+		}
+		b = append(b, c)
+	}
+	if id, ok := v.index[string(b)]; ok {
+		return id
+	}
+	return UNK
+}
+
 // Encode maps tokens to ids.
 func (v *Vocab) Encode(tokens []Token) []int32 {
 	ids := make([]int32, len(tokens))

@@ -98,3 +98,15 @@ func RowDot(a, b []float32, n, k, j int) float32 {
 	MatMulNT(c[:], a[:k], b[j0*k:(j0+4)*k], 1, 4, k)
 	return c[j-j0]
 }
+
+// StableRows returns the row count, at least m, to which a caller pads a
+// (with rows of its choosing, e.g. zeros) so that each row of the result
+// of MatMulNT or MatMulNTPacked is the same bit for bit whatever the other
+// rows and their number. Every implementation then computes each row alone
+// with one kernel: the portable one always does, and the SIMD ones send a
+// product of at least 8 rows, a multiple of 4, through their 4-row
+// micro-kernel only (fewer rows go through dot products, and the rows past
+// the last group of 4 through a one-row kernel, both summing in another
+// order). Tables built this way in pieces, in any order, are equal to one
+// built at once. TestStableRows checks it for every implementation.
+func StableRows(m int) int { return max(8, (m+3)&^3) }

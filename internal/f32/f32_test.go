@@ -234,3 +234,55 @@ func TestMatMulNTPacked(t *testing.T) {
 		}
 	}
 }
+
+// TestStableRows checks StableRows's promise: a row computed in a product
+// padded to StableRows rows is the same bit for bit whatever the other rows,
+// their number and the row's place among them.
+func TestStableRows(t *testing.T) {
+	r := rand.New(rand.NewPCG(7, 7))
+	for _, sh := range [][2]int{{1200, 128}, {33, 300}, {40, 7}} {
+		n, k := sh[0], sh[1]
+		const m = 23
+		a := randSlice(r, m*k)
+		b := randSlice(r, n*k)
+		pb := PackWeights(nil, b, n, k)
+		products := []struct {
+			name string
+			mul  func(c, a []float32, m int)
+		}{
+			{"MatMulNTPacked", func(c, a []float32, m int) { MatMulNTPacked(c, a, b, pb, m, n, k) }},
+		}
+		for _, ks := range kernelSets() {
+			products = append(products, struct {
+				name string
+				mul  func(c, a []float32, m int)
+			}{ks.name, func(c, a []float32, m int) { ks.matMulNT(c, a, b, m, n, k) }})
+		}
+		for _, p := range products {
+			all := stableProduct(p.mul, a, m, k, n, 0)
+			for i := 0; i < m; i++ {
+				// Row i alone, at the start and at the end of its padded block.
+				for _, at := range []int{0, StableRows(1) - 1} {
+					one := stableProduct(p.mul, a[i*k:(i+1)*k], 1, k, n, at)
+					for j := 0; j < n; j++ {
+						if math.Float32bits(one[j]) != math.Float32bits(all[i*n+j]) {
+							t.Fatalf("%s n=%d k=%d: row %d alone at %d: c[%d] = %g, with the others %g", p.name, n, k, i, at, j, one[j], all[i*n+j])
+						}
+					}
+				}
+			}
+		}
+	}
+}
+
+// stableProduct multiplies the m rows of a (placed from row at on, the
+// other rows zero) padded to StableRows(m+at) rows and returns the m rows
+// of the result.
+func stableProduct(mul func(c, a []float32, m int), a []float32, m, k, n, at int) []float32 {
+	rows := StableRows(m + at)
+	pa := make([]float32, rows*k)
+	copy(pa[at*k:], a[:m*k])
+	c := make([]float32, rows*n)
+	mul(c, pa, rows)
+	return c[at*n : (at+m)*n]
+}

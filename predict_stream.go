@@ -1,0 +1,283 @@
+package main
+
+import (
+	"bufio"
+	"bytes"
+	"context"
+	"fmt"
+	"io"
+	"runtime"
+	"strconv"
+	"sync"
+
+	"telltale/cnn"
+	"telltale/corpus"
+)
+
+// Predict as a stream: one goroutine reads the texts in batches, every
+// core encodes and labels whole batches and formats their output lines,
+// and the calling goroutine writes the batches in their input order, one
+// write per batch. At most 2·workers+2 batches exist at once, so memory
+// does not grow with the input.
+
+// Batch bounds: a batch ends at batchTexts texts or once it holds
+// batchBytes bytes of text.
+const (
+	batchTexts = 256
+	batchBytes = 1 << 20
+)
+
+// textBatch is a run of consecutive texts and what predict makes of them.
+type textBatch struct {
+	texts []text
+	buf   []byte // the batch's standard-input lines, one after the other
+	ids   []int32
+	view  [][]int32 // each text's ids, slices of ids
+	probs []float32 // Classes per text
+	ends  []int     // where each text's ids end in ids
+	out   []byte    // the batch's output lines
+	err   error     // from formatting the output
+	done  chan struct{}
+}
+
+// batchSource fills b.texts with the next texts (b.texts and b.buf come
+// reset) and reports false at the end of the input; an error stops the
+// stream. It is called from one goroutine.
+type batchSource func(b *textBatch) (more bool, err error)
+
+// predictStream labels every text of next with m and enc and writes the
+// lines of format (one text's output appended to dst) to w in input
+// order; keep, when not nil, is called in input order with every text and
+// its probabilities (which it must copy to keep), after the batch's lines
+// are written.
+func predictStream(ctx context.Context, next batchSource, m *cnn.Model, enc *corpus.Encoder, w io.Writer,
+	format func(dst []byte, t text, probs []float32) ([]byte, error), keep func(t text, probs []float32)) error {
+	ctx, cancel := context.WithCancel(ctx)
+	workers := runtime.GOMAXPROCS(0)
+	free := make(chan *textBatch, 2*workers+2)
+	for range cap(free) {
+		free <- &textBatch{}
+	}
+	work := make(chan *textBatch, cap(free))
+	order := make(chan *textBatch, cap(free))
+	var readErr error
+	go func() { // reads; ends with the input, a read error or ctx
+		defer close(work)
+		defer close(order)
+		for {
+			var b *textBatch
+			select {
+			case b = <-free:
+			case <-ctx.Done():
+				return
+			}
+			b.texts, b.buf, b.err, b.done = b.texts[:0], b.buf[:0], nil, make(chan struct{})
+			more, err := next(b)
+			if err != nil {
+				readErr = err
+				return
+			}
+			if len(b.texts) > 0 {
+				work <- b
+				order <- b
+			}
+			if !more {
+				return
+			}
+		}
+	}()
+	var wg sync.WaitGroup
+	for range workers {
+		wg.Go(func() {
+			p := m.NewPredictor()
+			for {
+				select {
+				case b, ok := <-work:
+					if !ok {
+						return
+					}
+					b.label(p, m, enc, format)
+					close(b.done)
+				case <-ctx.Done():
+					return
+				}
+			}
+		})
+	}
+	// The reader may still be blocked on its input (a terminal): it ends
+	// with the input, as eachLine's does; the workers end here.
+	defer func() {
+		cancel()
+		wg.Wait()
+	}()
+	for {
+		var b *textBatch
+		var ok bool
+		select {
+		case b, ok = <-order:
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+		if !ok {
+			// The reader has returned, so readErr is set if it failed.
+			if readErr != nil {
+				return readErr
+			}
+			return ctx.Err()
+		}
+		select {
+		case <-b.done:
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+		if b.err != nil {
+			return b.err
+		}
+		if _, err := w.Write(b.out); err != nil {
+			return err
+		}
+		if keep != nil {
+			c := m.Config.Classes
+			for i, t := range b.texts {
+				keep(t, b.probs[i*c:(i+1)*c])
+			}
+		}
+		free <- b
+	}
+}
+
+// label encodes, labels and formats the texts of b with p.
+func (b *textBatch) label(p *cnn.Predictor, m *cnn.Model, enc *corpus.Encoder, format func([]byte, text, []float32) ([]byte, error)) {
+	b.ids, b.view, b.ends = b.ids[:0], b.view[:0], b.ends[:0]
+	for _, t := range b.texts {
+		b.ids = enc.AppendIDs(b.ids, t.Text)
+		b.ends = append(b.ends, len(b.ids))
+	}
+	lo := 0
+	for _, hi := range b.ends {
+		b.view = append(b.view, b.ids[lo:hi:hi])
+		lo = hi
+	}
+	c := m.Config.Classes
+	b.probs = grow(b.probs, len(b.texts)*c)
+	p.Probs(b.view, b.probs)
+	b.out = b.out[:0]
+	for i, t := range b.texts {
+		if b.out, b.err = format(b.out, t, b.probs[i*c:(i+1)*c]); b.err != nil {
+			return
+		}
+	}
+}
+
+func grow[T any](s []T, n int) []T {
+	if cap(s) >= n {
+		return s[:n]
+	}
+	return make([]T, n)
+}
+
+// sliceBatches is a batchSource over texts held in memory.
+func sliceBatches(texts []text) batchSource {
+	i := 0
+	return func(b *textBatch) (bool, error) {
+		size := 0
+		for i < len(texts) && len(b.texts) < batchTexts && size < batchBytes {
+			b.texts = append(b.texts, texts[i])
+			size += len(texts[i].Text)
+			i++
+		}
+		return i < len(texts), nil
+	}
+}
+
+// lineBatches is a batchSource over the lines of r that hold more than
+// white space (a line ends at "\n", and a "\r" before it is dropped, as
+// bufio.ScanLines does). A batch ends early when the lines read so far are
+// all r has delivered, so that lines typed or piped one by one are labeled
+// as they come. Each batch's lines are copied once into its buffer and
+// become one string, which the batch's texts are substrings of.
+func lineBatches(r io.Reader) batchSource {
+	lr := &lineReader{r: bufio.NewReaderSize(r, 256<<10)}
+	return func(b *textBatch) (bool, error) {
+		b.ends = b.ends[:0]
+		for len(b.ends) < batchTexts && len(b.buf) < batchBytes {
+			line, err := lr.next()
+			if err == io.EOF {
+				b.addLines()
+				return false, nil
+			}
+			if err != nil {
+				return false, fmt.Errorf("reading standard input: %w (lines are limited to 16 MiB)", err)
+			}
+			if len(bytes.TrimSpace(line)) > 0 {
+				b.buf = append(b.buf, line...)
+				b.ends = append(b.ends, len(b.buf))
+			}
+			if lr.r.Buffered() == 0 && len(b.ends) > 0 {
+				break // the next read may wait for more input
+			}
+		}
+		b.addLines()
+		return true, nil
+	}
+}
+
+// addLines makes b's texts of the lines in b.buf that end at b.ends.
+func (b *textBatch) addLines() {
+	all := string(b.buf)
+	lo := 0
+	for _, hi := range b.ends {
+		b.texts = append(b.texts, text{Text: all[lo:hi]})
+		lo = hi
+	}
+}
+
+// lineReader reads lines of up to maxStdinLine bytes.
+type lineReader struct {
+	r    *bufio.Reader
+	long []byte
+}
+
+// next returns the next line without its end, valid until the next call;
+// io.EOF after the last line, bufio.ErrTooLong for a line over
+// maxStdinLine bytes.
+func (lr *lineReader) next() ([]byte, error) {
+	line, err := lr.r.ReadSlice('\n')
+	if err == bufio.ErrBufferFull {
+		lr.long = append(lr.long[:0], line...)
+		for err == bufio.ErrBufferFull {
+			if len(lr.long) > maxStdinLine {
+				return nil, bufio.ErrTooLong
+			}
+			line, err = lr.r.ReadSlice('\n')
+			lr.long = append(lr.long, line...)
+		}
+		line = lr.long
+	}
+	if err != nil && (err != io.EOF || len(line) == 0) {
+		return nil, err
+	}
+	if len(line) > maxStdinLine {
+		return nil, bufio.ErrTooLong
+	}
+	line = bytes.TrimSuffix(line, []byte{'\n'})
+	return bytes.TrimSuffix(line, []byte{'\r'}), nil
+}
+
+// appendTextLine appends predict's plain line for one text: the label, each
+// class's probability to 3 decimals and the text's start on one line.
+func appendTextLine(dst []byte, labels []string, t text, probs []float32) []byte {
+	dst = append(dst, labels[argmax(probs)]...)
+	dst = append(dst, '\t')
+	for c, l := range labels {
+		if c > 0 {
+			dst = append(dst, ' ')
+		}
+		dst = append(dst, l...)
+		dst = append(dst, '=')
+		dst = strconv.AppendFloat(dst, float64(probs[c]), 'f', 3, 32) // as fmt's %.3f of a float32
+	}
+	dst = append(dst, '\t')
+	dst = append(dst, oneLine(t.Text, 60)...)
+	return append(dst, '\n')
+}
