@@ -531,15 +531,23 @@ func tinyModelOther(t *testing.T) string {
 // depth, is in the README's documentation of it.
 func checkJSONDocumented(t *testing.T, raw []byte) {
 	t.Helper()
+	checkJSONDocumentedIn(t, raw, "### The audit's JSON")
+}
+
+// checkJSONDocumentedIn: every key of the JSON raw, at any depth, is in
+// the README's section headed heading.
+func checkJSONDocumentedIn(t *testing.T, raw []byte, heading string) {
+	t.Helper()
 	b, err := os.ReadFile("README.md")
 	if err != nil {
 		t.Fatal(err)
 	}
-	_, doc, ok := bytes.Cut(b, []byte("### The audit's JSON"))
+	_, doc, ok := bytes.Cut(b, []byte(heading))
 	if !ok {
-		t.Fatal("README.md has no section \"### The audit's JSON\"")
+		t.Fatalf("README.md has no section %q", heading)
 	}
 	doc, _, _ = bytes.Cut(doc, []byte("\n## "))
+	doc, _, _ = bytes.Cut(doc, []byte("\n### "))
 	var v any
 	if err := json.Unmarshal(raw, &v); err != nil {
 		t.Fatal(err)

@@ -16,7 +16,12 @@ var cmdCompare = &command{
 	Short:     "evaluate several models side by side on the same labeled texts",
 	Long: `Compare evaluates each model on the same labeled texts and prints their
 metrics side by side, e.g. a model against its masked copy, or against one
-retrained with --mask-tokens. The texts are found as eval finds them for the
+retrained with --mask-tokens: accuracy with its 95% Wilson interval,
+macro-F1 with its 95% bootstrap interval over texts, weighted-F1, the
+calibration error and the share of predictions that differ from the first
+model's. A model whose file carries the linear baseline train fits beside
+the CNN is then shown beside it, with the exact McNemar test between the
+two, as train shows them. The texts are found as eval finds them for the
 first model: --test FILE, or the test split of its own --data, or all of other
 data; a note says when another model's splits were made otherwise. The models
 must share their labels; each uses its own tokenizer and vocabulary.`,
@@ -100,7 +105,11 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		if err != nil {
 			return err
 		}
-		row := compareRow{Model: o.paths[i], Metrics: met}
+		c, err := compareWithBaseline(m, es.test, 0)
+		if err != nil {
+			return fmt.Errorf("%s: %w", o.paths[i], err)
+		}
+		row := compareRow{Model: o.paths[i], Metrics: met, Figures: cnn.FiguresOf(met, c), Baseline: baselineOf(m, c)}
 		if i == 0 {
 			first = pred
 		} else {
@@ -108,7 +117,7 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		}
 		rows = append(rows, row)
 	}
-	return writeComparison(env, rows, o.asJSON)
+	return writeComparison(env, rows, splitHeading(es.name, len(es.test.Examples)), o.asJSON)
 }
 
 // sameSplits reports whether two models' splits were made the same way
@@ -124,6 +133,10 @@ func sameSplits(a, b *cnn.SplitRecord) bool {
 type compareRow struct {
 	Model   string      `json:"model"`
 	Metrics cnn.Metrics `json:"metrics"`
+	// Figures are the model's accuracy and macro-F1 with their intervals,
+	// and its baseline's beside them when its file carries one (Baseline).
+	Figures  cnn.Figures   `json:"figures"`
+	Baseline *baselineJSON `json:"baseline,omitempty"`
 	// Flipped is the share of texts whose prediction differs from the first model's.
 	Flipped float64 `json:"flipped_vs_first"`
 }
@@ -137,28 +150,33 @@ func compareModels(env *runEnv, data cnn.Data, names []string, ms []*cnn.Model, 
 		if err != nil {
 			return err
 		}
-		rows[i] = compareRow{Model: names[i], Metrics: met}
+		rows[i] = compareRow{Model: names[i], Metrics: met, Figures: cnn.FiguresOf(met, nil)}
 		if i == 0 {
 			first = pred
 			continue
 		}
 		rows[i].Flipped = flippedShare(first, pred)
 	}
-	return writeComparison(env, rows, asJSON)
+	return writeComparison(env, rows, "", asJSON)
 }
 
-func writeComparison(env *runEnv, rows []compareRow, asJSON bool) error {
+// writeComparison prints rows as tables (or JSON) and, for every model
+// whose file carries a baseline, the model beside it on the texts named by
+// heading.
+func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool) error {
 	if asJSON {
 		return writeJSON(env.Stdout, rows)
 	}
 	w := env.Stdout
-	fmt.Fprintf(w, "%-40s  %8s  %8s  %11s  %6s  %8s\n", "model", "accuracy", "macro-F1", "weighted-F1", "ECE", "flipped")
+	level := fmt.Sprintf("(%g%%)", 100*cnn.IntervalLevel)
+	fmt.Fprintf(w, "%-40s  %-19s  %-19s  %11s  %6s  %8s\n", "model", "accuracy "+level, "macro-F1 "+level, "weighted-F1", "ECE", "flipped")
 	for i, r := range rows {
 		flip := "-"
 		if i > 0 && r.Flipped >= 0 {
 			flip = fmt.Sprintf("%.1f%%", 100*r.Flipped)
 		}
-		fmt.Fprintf(w, "%-40s  %8.4f  %8.4f  %11.4f  %6.4f  %8s\n", oneLine(r.Model, 40), r.Metrics.Accuracy, r.Metrics.MacroF1, r.Metrics.WeightedF1, r.Metrics.ECE, flip)
+		fmt.Fprintf(w, "%-40s  %-19s  %-19s  %11.4f  %6.4f  %8s\n", oneLine(r.Model, 40), r.Figures.CNN.Accuracy, r.Figures.CNN.MacroF1,
+			r.Metrics.WeightedF1, r.Metrics.ECE, flip)
 	}
 	if len(rows) == 0 {
 		return nil
@@ -176,6 +194,12 @@ func writeComparison(env *runEnv, rows []compareRow, asJSON bool) error {
 			}
 		}
 		fmt.Fprintln(w)
+	}
+	for i, r := range rows {
+		if r.Figures.Baseline != nil {
+			fmt.Fprintln(w)
+			writeFigures(w, fmt.Sprintf("model %d beside its linear baseline, %s", i+1, heading), r.Figures, r.Baseline)
+		}
 	}
 	return nil
 }

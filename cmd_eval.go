@@ -16,10 +16,14 @@ var cmdEval = &command{
 	Name:      "eval",
 	UsageLine: "eval --model MODEL (--data FILE | --test FILE) [--text-col C] [--label-col C] [--export FILE] [--json]",
 	Short:     "evaluate a model on labeled data: accuracy, per-class F1, confusion matrix, calibration",
-	Long: `Eval runs a saved model on labeled texts and prints accuracy, per-class
-precision, recall and F1 with support, macro- and weighted-F1, the confusion
+	Long: `Eval runs a saved model on labeled texts and prints accuracy with its 95%
+Wilson interval, macro-F1 with its 95% bootstrap interval over texts,
+per-class precision, recall and F1 with support, weighted-F1, the confusion
 matrix (rows: gold label, columns: predicted) and the expected calibration
-error over equal-width confidence bins.
+error over equal-width confidence bins. When the model file carries the
+linear baseline train fits beside the CNN, the baseline's accuracy and
+macro-F1 are shown beside the CNN's, with the exact McNemar test between
+the two, as train shows them.
 
 The texts: with --test FILE, those. With --data FILE alone, when it holds the
 data the model was trained on, the test split train held out of it (or the test
@@ -71,11 +75,14 @@ func (o *evalOptions) files() (outputs, inputs []outguard.File) {
 		[]outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.data}, {Name: "--test", Path: o.test}}
 }
 
-// evalOutput is eval's JSON: the metrics and the texts they are of.
+// evalOutput is eval's JSON: the metrics and the texts they are of, the
+// figures with their intervals and the baseline beside the CNN.
 type evalOutput struct {
 	cnn.Metrics
-	Split     string `json:"split"` // "test", or "all" when all of --data
-	SplitNote string `json:"split_note"`
+	Split     string        `json:"split"` // "test", or "all" when all of --data
+	SplitNote string        `json:"split_note"`
+	Figures   cnn.Figures   `json:"figures"`
+	Baseline  *baselineJSON `json:"baseline,omitempty"`
 }
 
 func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
@@ -97,16 +104,32 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 	}
 	probs := m.Probabilities(data.IDs, o.threads.N)
 	met := metricsWithBins(m, data, probs, o.bins)
+	cmp, err := compareWithBaseline(m, es.test, o.threads.N)
+	if err != nil {
+		return err
+	}
+	figures := cnn.FiguresOf(met, cmp)
 	if o.export != "" {
 		if err := report.WriteTableFile(o.export, report.PredictionTable(m.Labels, es.test.Texts(), data.Labels, probs)); err != nil {
 			return err
 		}
 	}
 	if o.asJSON {
-		return writeJSON(env.Stdout, evalOutput{Metrics: met, Split: es.name, SplitNote: es.note})
+		return writeJSON(env.Stdout, evalOutput{Metrics: met, Split: es.name, SplitNote: es.note, Figures: figures, Baseline: baselineOf(m, cmp)})
 	}
-	writeMetrics(env.Stdout, met)
+	writeFigures(env.Stdout, splitHeading(es.name, met.N), figures, baselineOf(m, cmp))
+	fmt.Fprintln(env.Stdout)
+	writeMetrics(env.Stdout, met, o.bins)
 	return nil
+}
+
+// splitHeading names the texts a command evaluated: the test split, or all
+// of --data.
+func splitHeading(split string, n int) string {
+	if split == "all" {
+		return fmt.Sprintf("all %d texts of --data", n)
+	}
+	return fmt.Sprintf("%s split, %d texts", split, n)
 }
 
 // encodeFor encodes ds for model m, saying which labels the model knows
@@ -170,9 +193,10 @@ func argmax(p []float32) int {
 	return best
 }
 
-// writeMetrics prints an evaluation as readable tables.
-func writeMetrics(w io.Writer, m cnn.Metrics) {
-	fmt.Fprintf(w, "accuracy %.4f   macro-F1 %.4f   weighted-F1 %.4f   ECE %.4f   (%d texts)\n\n", m.Accuracy, m.MacroF1, m.WeightedF1, m.ECE, m.N)
+// writeMetrics prints an evaluation as readable tables, after the
+// figures writeFigures prints.
+func writeMetrics(w io.Writer, m cnn.Metrics, bins int) {
+	fmt.Fprintf(w, "weighted-F1 %.4f   ECE %.4f (%d bins)\n\n", m.WeightedF1, m.ECE, bins)
 	width := 5
 	for i, l := range m.Labels {
 		width = max(width, len(fmt.Sprintf("[%d] %s", i, l)))

@@ -83,19 +83,36 @@ func TestHelpListsOnlyUsedOptions(t *testing.T) {
 	}
 }
 
-// TestTrainDefaultsAreTheRecipe: train's option defaults are
-// cnn.DefaultRecipe's.
+// TestTrainDefaultsAreTheRecipe: train's option defaults give
+// cnn.DefaultRecipe itself, field for field (the baseline's configuration
+// and the dropouts included), and the options change what they name.
 func TestTrainDefaultsAreTheRecipe(t *testing.T) {
-	var o trainOptions
-	fs := flag.NewFlagSet("train", flag.ContinueOnError)
-	o.register(fs)
-	r, def := o.recipe.recipe(1, 0), cnn.DefaultRecipe()
-	r.Model.Widths, r.Train.Threads = def.Model.Widths, def.Train.Threads // parsed by check
-	if o.recipe.Widths != "3,4,5" || r.Model.Dim != def.Model.Dim || r.Model.Filters != def.Model.Filters || r.Model.Dropout != def.Model.Dropout ||
-		r.Train.Epochs != def.Train.Epochs || r.Train.Batch != def.Train.Batch || r.Train.Patience != def.Train.Patience ||
-		r.Train.MaxLen != def.Train.MaxLen || r.Train.Optimizer != def.Train.Optimizer || !reflect.DeepEqual(r.Tokenizer, def.Tokenizer) ||
-		o.split.DevFrac != cnn.DefaultDevFrac || o.split.TestFrac != cnn.DefaultTestFrac || o.split.Seed != def.Train.Seed {
+	parse := func(args ...string) (*trainOptions, cnn.Recipe) {
+		t.Helper()
+		o := new(trainOptions)
+		fs := flag.NewFlagSet("train", flag.ContinueOnError)
+		o.register(fs)
+		if err := fs.Parse(args); err != nil {
+			t.Fatal(err)
+		}
+		if err := o.recipe.check(fs); err != nil {
+			t.Fatal(err)
+		}
+		return o, o.recipe.recipe(o.split.Seed, o.threads.N)
+	}
+	o, r := parse()
+	def := cnn.DefaultRecipe()
+	if !reflect.DeepEqual(r, def) || o.split.DevFrac != cnn.DefaultDevFrac || o.split.TestFrac != cnn.DefaultTestFrac {
 		t.Errorf("train's defaults %+v / %+v differ from cnn.DefaultRecipe %+v", r, o.split, def)
+	}
+	_, r = parse("--class-weight", "balanced", "--word-dropout", "0.5", "--token-dropout", "0.125", "--baseline=false")
+	want := def
+	want.Train.ClassWeight, want.Train.WordDropout, want.Train.TokenDropout, want.Baseline = "balanced", 0.5, 0.125, nil
+	if !reflect.DeepEqual(r, want) {
+		t.Errorf("with the options set: %+v, want %+v", r, want)
+	}
+	if _, r = parse("--class-weight", "none"); r.Train.ClassWeight != "" {
+		t.Errorf("--class-weight none gave %q, want the recipe's \"\"", r.Train.ClassWeight)
 	}
 }
 

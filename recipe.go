@@ -1,9 +1,15 @@
 package main
 
 import (
+	"bufio"
+	"compress/gzip"
 	"flag"
 	"fmt"
+	"io"
+	"os"
 	"runtime"
+	"strconv"
+	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
@@ -13,18 +19,25 @@ import (
 // are cnn.DefaultRecipe's.
 type recipeOptions struct {
 	Epochs, Batch, Dim, Maps, MaxLen, Patience, MinCount int
-	Widths, Optimizer, Vectors, Tokenizer                string
-	Dropout, LR, MaxNorm                                 float64
-	Freeze, Subword, Lower                               bool
+	Widths, Optimizer, Vectors, Tokenizer, ClassWeight   string
+	Dropout, LR, MaxNorm, WordDropout, TokenDropout      float64
+	Freeze, Subword, Lower, Baseline                     bool
 
 	widths []int
+	// dimFromVectors: no --dim was given with --vectors, so the embedding
+	// dimension is the file's (Dim holds it as the file's first line says,
+	// for the memory check).
+	dimFromVectors bool
 }
+
+// classWeightNone is --class-weight's word for cnn.TrainConfig's "".
+const classWeightNone = "none"
 
 func (r *recipeOptions) register(fs *flag.FlagSet) {
 	def := cnn.DefaultRecipe()
 	intVar(fs, &r.Epochs, "epochs", def.Train.Epochs, "passes over the training split")
 	intVar(fs, &r.Batch, "batch", def.Train.Batch, "mini-batch size")
-	intVar(fs, &r.Dim, "dim", def.Model.Dim, "embedding dimension (must match --vectors when given)")
+	intVar(fs, &r.Dim, "dim", def.Model.Dim, "embedding dimension; with --vectors and no --dim (or --dim 0), the file's")
 	fs.StringVar(&r.Widths, "widths", joinInts(def.Model.Widths), "filter widths, comma-separated (1 to 32 each)")
 	intVar(fs, &r.Maps, "maps", def.Model.Filters, "feature maps (filters) per width")
 	floatVar(fs, &r.Dropout, "dropout", float64(def.Model.Dropout), "dropout rate on the pooled layer, in [0, 1)")
@@ -39,10 +52,31 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 	fs.BoolVar(&r.Subword, "subword", def.Tokenizer.Subword, "learn subword pieces on the training split for unknown words")
 	fs.BoolVar(&r.Lower, "lower", def.Tokenizer.Lower, "lower-case tokens")
 	fs.StringVar(&r.Tokenizer, "tokenizer", def.Tokenizer.File, "a tokenizer file in the JSON format of github.com/sugarme/tokenizer")
+	fs.StringVar(&r.ClassWeight, "class-weight", cmpOr(def.Train.ClassWeight, classWeightNone),
+		"none, or balanced: each training text's loss weighted by n/(k·n_c), for imbalanced labels (the baseline's too)")
+	floatVar(fs, &r.WordDropout, "word-dropout", def.Train.WordDropout,
+		"α: each training occurrence of a word seen #w times becomes the unknown word with probability α/(#w+α); 0 is off")
+	floatVar(fs, &r.TokenDropout, "token-dropout", def.Train.TokenDropout,
+		"probability that any training token becomes the unknown word, in every batch, in [0, 1); 0 is off")
+	fs.BoolVar(&r.Baseline, "baseline", def.Baseline != nil,
+		"also fit the linear baseline (TF-IDF n-grams + logistic regression) and show it beside the CNN; --baseline=false leaves it out")
 }
 
-// check refuses every value that cannot train, naming the option.
-func (r *recipeOptions) check() error {
+// check refuses every value that cannot train, naming the option; fs tells
+// whether --dim was given.
+func (r *recipeOptions) check(fs *flag.FlagSet) error {
+	if r.Vectors != "" && (!isSet(fs, "dim") || r.Dim == 0) {
+		r.dimFromVectors = true
+		if d := vectorsDim(r.Vectors); d > 0 {
+			r.Dim = d
+		} else if r.Dim == 0 {
+			r.Dim = cnn.DefaultRecipe().Model.Dim // for the memory check; training reads the file and says what is wrong
+		}
+	}
+	dimWhat := "numbers per word embedding"
+	if r.Vectors == "" {
+		dimWhat += "; 0 only with --vectors, for the file's"
+	}
 	for _, c := range []struct {
 		name   string
 		n, lo  int
@@ -50,7 +84,7 @@ func (r *recipeOptions) check() error {
 	}{
 		{"epochs", r.Epochs, 1, "passes over the training split"},
 		{"batch", r.Batch, 1, "texts per mini-batch"},
-		{"dim", r.Dim, 1, "numbers per word embedding"},
+		{"dim", r.Dim, 1, dimWhat},
 		{"maps", r.Maps, 1, "feature maps per width"},
 		{"max-len", r.MaxLen, 0, "0 keeps texts whole"},
 		{"patience", r.Patience, 0, "epochs without a better dev macro-F1 before stopping; 0 never stops early"},
@@ -81,24 +115,77 @@ func (r *recipeOptions) check() error {
 		return usagef("--lr %g: give a positive learning rate, or 0 for the optimizer's default", r.LR)
 	case r.Optimizer != "adam" && r.Optimizer != "adadelta":
 		return usagef("--optimizer %q: use adam or adadelta", clip(r.Optimizer))
+	case r.ClassWeight != classWeightNone && r.ClassWeight != "balanced":
+		return usagef("--class-weight %q: use none or balanced", clip(r.ClassWeight))
+	case r.WordDropout < 0:
+		return usagef("--word-dropout %g: give α of 0 (off) or more", r.WordDropout)
+	case r.TokenDropout < 0 || r.TokenDropout >= 1:
+		return usagef("--token-dropout %g: give a probability from 0 up to (not including) 1", r.TokenDropout)
 	}
 	return nil
+}
+
+// vectorsDim is the dimension the first line of the word-vector file at
+// path gives (a "COUNT DIM" header, or a word and its numbers), as
+// corpus.ReadVectors reads it, or 0 when that line cannot be read: training
+// then reads the file and reports what is wrong with it. Only the memory
+// check before training uses it; training takes the dimension from
+// corpus.ReadVectors itself (cnn.Recipe.DimFromVectors).
+func vectorsDim(path string) int {
+	f, err := os.Open(path)
+	if err != nil {
+		return 0
+	}
+	defer f.Close()
+	var r io.Reader = f
+	if strings.HasSuffix(path, ".gz") {
+		gz, err := gzip.NewReader(f)
+		if err != nil {
+			return 0
+		}
+		defer gz.Close()
+		r = gz
+	}
+	line, err := bufio.NewReaderSize(r, 1<<20).ReadSlice('\n')
+	if err != nil && err != io.EOF {
+		return 0
+	}
+	fields := strings.Fields(string(line))
+	if len(fields) == 2 {
+		count, err1 := strconv.ParseUint(fields[0], 10, 31)
+		dim, err2 := strconv.ParseUint(fields[1], 10, 31)
+		if err1 == nil && err2 == nil && count > 0 {
+			return int(dim)
+		}
+	}
+	return max(0, len(fields)-1)
 }
 
 func (r *recipeOptions) tokenizerConfig() corpus.TokenizerConfig {
 	return corpus.TokenizerConfig{Lower: r.Lower, MinCount: r.MinCount, Subword: r.Subword, File: r.Tokenizer}
 }
 
-// recipe is the cnn.Recipe of the options (VocabSize and Classes are
-// filled in by cnn.TrainText).
+// recipe is cnn.DefaultRecipe with the options' values (VocabSize and
+// Classes are filled in by cnn.TrainText).
 func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
-	tc := cnn.TrainConfig{Epochs: r.Epochs, Batch: r.Batch, Optimizer: r.Optimizer, LR: r.LR, Seed: seed,
-		Threads: threads, Patience: r.Patience, MaxLen: r.MaxLen, FreezeEmb: r.Freeze}
+	rec := cnn.DefaultRecipe()
+	tc := &rec.Train
+	tc.Epochs, tc.Batch, tc.Optimizer, tc.LR, tc.Seed = r.Epochs, r.Batch, r.Optimizer, r.LR, seed
+	tc.Threads, tc.Patience, tc.MaxLen, tc.FreezeEmb = threads, r.Patience, r.MaxLen, r.Freeze
+	tc.WordDropout, tc.TokenDropout, tc.ClassWeight = r.WordDropout, r.TokenDropout, r.ClassWeight
+	if r.ClassWeight == classWeightNone {
+		tc.ClassWeight = ""
+	}
 	if r.Patience == 0 {
 		tc.Patience = -1 // the library reads 0 as its default; here it means never
 	}
-	cfg := cnn.Config{Dim: r.Dim, Widths: r.widths, Filters: r.Maps, Dropout: float32(r.Dropout), MaxNorm: float32(r.MaxNorm)}
-	return cnn.Recipe{Tokenizer: r.tokenizerConfig(), Model: cfg, Train: tc, VectorsPath: r.Vectors}
+	cfg := &rec.Model
+	cfg.Dim, cfg.Widths, cfg.Filters, cfg.Dropout, cfg.MaxNorm = r.Dim, r.widths, r.Maps, float32(r.Dropout), float32(r.MaxNorm)
+	rec.Tokenizer, rec.VectorsPath, rec.DimFromVectors = r.tokenizerConfig(), r.Vectors, r.dimFromVectors
+	if !r.Baseline {
+		rec.Baseline = nil
+	}
+	return rec
 }
 
 // checkSize refuses a model whose training would not fit in memory, with

@@ -3,6 +3,9 @@ package cnn
 import (
 	"fmt"
 	"math"
+	"math/rand/v2"
+	"slices"
+	"strconv"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -229,3 +232,200 @@ func McNemarExact(gold, predA, predB []int) McNemar {
 	}
 	return t
 }
+
+// IntervalLevel is the two-sided level of every interval the tool shows.
+const IntervalLevel = 0.95
+
+// BootstrapResamples is the number of resamples of the macro-F1 interval the
+// tool shows; BootstrapSeed seeds them, so that every command and view gives
+// the same interval for the same predictions.
+const (
+	BootstrapResamples = 2000
+	BootstrapSeed      = 1
+)
+
+// Interval is an estimate with its two-sided confidence interval, the JSON
+// shape of every interval telltale writes.
+type Interval struct {
+	Estimate float64 `json:"estimate"`
+	Low      float64 `json:"low"`
+	High     float64 `json:"high"`
+}
+
+// String writes the interval as the tool shows it: "0.834 (0.806–0.859)".
+func (iv Interval) String() string {
+	return fmt.Sprintf("%.3f (%.3f–%.3f)", iv.Estimate, iv.Low, iv.High)
+}
+
+// WilsonInterval is the proportion k/n with its Wilson score interval at the
+// two-sided level (Wilson 1927, "Probable inference, the law of succession,
+// and statistical inference", JASA 22:209–212), the interval of an accuracy
+// of k right out of n texts. Preconditions: 0 ≤ k ≤ n, 0 < level < 1. With
+// n = 0 it is 0 in [0, 1].
+func WilsonInterval(k, n int, level float64) Interval {
+	if k < 0 || k > n || !(level > 0 && level < 1) {
+		panic(fmt.Sprintf("cnn: WilsonInterval(%d, %d, %g): need 0 ≤ k ≤ n and a level in (0, 1)", k, n, level))
+	}
+	if n == 0 {
+		return Interval{Low: 0, High: 1}
+	}
+	z := distuv.UnitNormal.Quantile(1 - (1-level)/2)
+	p, nn := float64(k)/float64(n), float64(n)
+	den := 1 + z*z/nn
+	mid := (p + z*z/(2*nn)) / den
+	half := z / den * math.Sqrt(p*(1-p)/nn+z*z/(4*nn*nn))
+	return Interval{Estimate: p, Low: max(0, mid-half), High: min(1, mid+half)}
+}
+
+// BootstrapMacroF1 is the macro-F1 of the confusion matrix (rows gold,
+// columns predicted, as Metrics.Confusion) with its percentile bootstrap
+// interval over texts at the two-sided level (Efron & Tibshirani 1993, "An
+// Introduction to the Bootstrap", ch. 13): resamples sets of as many texts
+// as the matrix counts, drawn with replacement and seeded by seed, and the
+// (1−level)/2 and (1+level)/2 quantiles of their macro-F1 (linear
+// interpolation between order statistics, numpy's default). A text is its
+// (gold, predicted) pair, so resampling the matrix's cells is resampling the
+// texts. Macro-F1 follows ComputeMetrics (the classes present in gold or
+// predictions of each resample). Preconditions: a square matrix of
+// non-negative counts, resamples ≥ 1, 0 < level < 1. With no text it is 0 in
+// [0, 1].
+func BootstrapMacroF1(confusion [][]int, resamples int, level float64, seed uint64) Interval {
+	k := len(confusion)
+	if resamples < 1 || !(level > 0 && level < 1) {
+		panic(fmt.Sprintf("cnn: BootstrapMacroF1: %d resamples at level %g: need 1 or more and a level in (0, 1)", resamples, level))
+	}
+	var cells []int // the cell g·k+p of every text
+	for g, row := range confusion {
+		if len(row) != k {
+			panic(fmt.Sprintf("cnn: BootstrapMacroF1: row %d has %d cells, want %d", g, len(row), k))
+		}
+		for p, n := range row {
+			if n < 0 {
+				panic(fmt.Sprintf("cnn: BootstrapMacroF1: count %d in cell (%d, %d)", n, g, p))
+			}
+			for range n {
+				cells = append(cells, g*k+p)
+			}
+		}
+	}
+	n := len(cells)
+	if n == 0 {
+		return Interval{Low: 0, High: 1}
+	}
+	flat := make([]int, k*k)
+	for _, c := range cells {
+		flat[c]++
+	}
+	est := macroF1Of(flat, k)
+	r := rand.New(rand.NewPCG(seed, 0x5851f42d4c957f2d))
+	stats := make([]float64, resamples)
+	for b := range stats {
+		clear(flat)
+		for range n {
+			flat[cells[r.IntN(n)]]++
+		}
+		stats[b] = macroF1Of(flat, k)
+	}
+	slices.Sort(stats)
+	return Interval{Estimate: est, Low: quantileSorted(stats, (1-level)/2), High: quantileSorted(stats, (1+level)/2)}
+}
+
+// macroF1Of is the macro-F1 of the k×k confusion counts flat (row-major,
+// rows gold) as ComputeMetrics computes it.
+func macroF1Of(flat []int, k int) float64 {
+	present, sum := 0, 0.0
+	for c := range k {
+		tp, fp, fn := flat[c*k+c], 0, 0
+		for o := range k {
+			if o != c {
+				fp += flat[o*k+c]
+				fn += flat[c*k+o]
+			}
+		}
+		if tp+fp+fn > 0 {
+			present++
+			sum += ratio(2*tp, 2*tp+fp+fn)
+		}
+	}
+	if present == 0 {
+		return 0
+	}
+	return sum / float64(present)
+}
+
+// quantileSorted is the q-quantile of sorted xs with linear interpolation
+// between order statistics (Hyndman & Fan 1996, definition 7, numpy's
+// default). Precondition: xs is not empty.
+func quantileSorted(xs []float64, q float64) float64 {
+	h := q * float64(len(xs)-1)
+	i := int(h)
+	if i >= len(xs)-1 {
+		return xs[len(xs)-1]
+	}
+	return xs[i] + (h-float64(i))*(xs[i+1]-xs[i])
+}
+
+// Headline is what a user acts on of a classifier on a labeled split: its
+// accuracy with the Wilson interval and its macro-F1 with the bootstrap
+// interval over texts, both at IntervalLevel.
+type Headline struct {
+	N        int      `json:"n"`
+	Accuracy Interval `json:"accuracy"`
+	MacroF1  Interval `json:"macro_f1"`
+}
+
+// HeadlineOf is the headline of m: the Wilson interval of its accuracy and
+// BootstrapMacroF1 of its confusion matrix with BootstrapResamples
+// resamples seeded by BootstrapSeed.
+func HeadlineOf(m Metrics) Headline {
+	right := 0
+	for c, row := range m.Confusion {
+		right += row[c]
+	}
+	return Headline{N: m.N, Accuracy: WilsonInterval(right, m.N, IntervalLevel),
+		MacroF1: BootstrapMacroF1(m.Confusion, BootstrapResamples, IntervalLevel, BootstrapSeed)}
+}
+
+// Figures are the headlines of the CNN and, when the model carries one, of
+// its linear baseline on the same texts, with the exact McNemar test between
+// the two.
+type Figures struct {
+	CNN      Headline      `json:"cnn"`
+	Baseline *Headline     `json:"baseline,omitempty"`
+	McNemar  *BaselineTest `json:"mcnemar,omitempty"`
+}
+
+// BaselineTest is the exact McNemar test between the CNN and its baseline.
+type BaselineTest struct {
+	CNNOnly      int     `json:"cnn_only"`      // texts the CNN labels right and the baseline wrong
+	BaselineOnly int     `json:"baseline_only"` // texts the baseline labels right and the CNN wrong
+	P            float64 `json:"p"`             // two-sided exact p-value (McNemarExact)
+}
+
+// FiguresOf is the CNN's headline of cnnMetrics and, with c (CompareBaseline
+// on the same texts; nil when the model carries no baseline), the baseline's
+// and the test between them.
+func FiguresOf(cnnMetrics Metrics, c *Comparison) Figures {
+	f := Figures{CNN: HeadlineOf(cnnMetrics)}
+	if c != nil {
+		b := HeadlineOf(c.Baseline)
+		f.Baseline = &b
+		f.McNemar = &BaselineTest{CNNOnly: c.McNemar.OnlyA, BaselineOnly: c.McNemar.OnlyB, P: c.McNemar.P}
+	}
+	return f
+}
+
+// Sentence says the test in words: "the CNN is right on 30 texts where the
+// baseline is wrong, and the baseline on 48 where the CNN is wrong; exact
+// McNemar p = 0.054".
+func (t BaselineTest) Sentence() string {
+	texts := "texts"
+	if t.CNNOnly == 1 {
+		texts = "text"
+	}
+	return fmt.Sprintf("the CNN is right on %d %s where the baseline is wrong, and the baseline on %d where the CNN is wrong; exact McNemar p = %s",
+		t.CNNOnly, texts, t.BaselineOnly, PValue(t.P))
+}
+
+// PValue writes a p-value with two significant digits: 0.054, 1.5e-07, 1.
+func PValue(p float64) string { return strconv.FormatFloat(p, 'g', 2, 64) }

@@ -94,7 +94,8 @@ func exactModel(t *testing.T, texts, labels []string) *cnn.Model {
 }
 
 // TestGoldenLoaded renders every view at 1024×700 with the demo corpus, the
-// exact model, its profiles, its audit and an explanation.
+// exact model with a linear baseline, its profiles, its audit and an
+// explanation.
 func TestGoldenLoaded(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the audit; the race pass (make test-race) runs -short")
@@ -109,7 +110,7 @@ func TestGoldenLoaded(t *testing.T) {
 	t.Cleanup(st.cancelAll)
 	q.waitFor(t, "the demo corpus", func() bool { return itemGet(st.data) != nil })
 	cs := itemGet(st.data)
-	ms, err := newModelState(exactModel(t, cs.Train.Texts(), cs.Train.Labels), "exact.tt")
+	ms, err := newModelState(withBaseline(t, exactModel(t, cs.Train.Texts(), cs.Train.Labels), cs), "exact.tt")
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -44,6 +44,7 @@ func TestWholeSession(t *testing.T) {
 	s := &session{t: t, w: w, st: st, q: q}
 	s.corpus()
 	s.training()
+	s.results()
 	s.filter()
 	s.explanation()
 	top := s.audit()

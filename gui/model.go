@@ -38,6 +38,11 @@ type evaluation struct {
 	Pred    []int       // predicted class of each test text
 	Probs   [][]float32 // class probabilities of each test text
 	Texts   []string    // the test texts, in the same order
+	// Baseline is the model beside the linear baseline it carries on the
+	// same texts (cnn.CompareBaseline); nil when it carries none. Figures
+	// are the accuracy and macro-F1 of both with their intervals.
+	Baseline *cnn.Comparison
+	Figures  cnn.Figures
 }
 
 // masked lists the model's masked filters, ascending.
@@ -97,10 +102,16 @@ func evaluate(ms *modelState, cs *corpusState) (*evaluation, error) {
 	if err != nil {
 		return nil, err
 	}
+	var cmp *cnn.Comparison
+	if ms.Model.Baseline != nil {
+		if cmp, err = cnn.CompareBaseline(ms.Model, cs.Test, 0); err != nil {
+			return nil, fmt.Errorf("the linear baseline on the test split: %w", err)
+		}
+	}
 	return &evaluation{
 		Metrics: met, Gold: d.Labels, Pred: pred,
 		Probs: ms.Model.Probabilities(d.IDs, 0),
-		Texts: cs.Test.Texts(),
+		Texts: cs.Test.Texts(), Baseline: cmp, Figures: cnn.FiguresOf(met, cmp),
 	}, nil
 }
 

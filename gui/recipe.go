@@ -3,6 +3,7 @@ package gui
 import (
 	"errors"
 	"fmt"
+	"math"
 	"strconv"
 	"strings"
 
@@ -16,7 +17,17 @@ import (
 type recipeForm struct {
 	widths, maps, dim, epochs, patience, dropout, maxNorm   binding.String
 	optimizer, lr, batch, minCount, seed, devFrac, testFrac binding.String
+	tokenDropout, wordDropout, classWeight                  binding.String
+	// baseline: fit the linear baseline beside the CNN (cnn.Recipe.Baseline).
+	baseline binding.Bool
 }
+
+// The class weights the form offers, as `telltale train --class-weight`
+// names them ("none" is cnn.TrainConfig's "").
+const (
+	classWeightNone     = "none"
+	classWeightBalanced = "balanced"
+)
 
 // formatFloat writes a recipe number as the user would type it.
 func formatFloat(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
@@ -26,6 +37,7 @@ func newRecipeForm() *recipeForm {
 	for _, p := range r.fields() {
 		*p = binding.NewString()
 	}
+	r.baseline = binding.NewBool()
 	r.reset()
 	return r
 }
@@ -33,7 +45,8 @@ func newRecipeForm() *recipeForm {
 // fields lists the form's values.
 func (r *recipeForm) fields() []*binding.String {
 	return []*binding.String{&r.widths, &r.maps, &r.dim, &r.epochs, &r.patience, &r.dropout, &r.maxNorm,
-		&r.optimizer, &r.lr, &r.batch, &r.minCount, &r.seed, &r.devFrac, &r.testFrac}
+		&r.optimizer, &r.lr, &r.batch, &r.minCount, &r.seed, &r.devFrac, &r.testFrac,
+		&r.tokenDropout, &r.wordDropout, &r.classWeight}
 }
 
 // reset puts cnn.DefaultRecipe and the default split shares in the form.
@@ -54,9 +67,15 @@ func (r *recipeForm) reset() {
 		r.optimizer: d.Train.Optimizer, r.lr: lr, r.batch: strconv.Itoa(d.Train.Batch),
 		r.minCount: strconv.Itoa(d.Tokenizer.MinCount), r.seed: strconv.FormatUint(d.Train.Seed, 10),
 		r.devFrac: formatFloat(cnn.DefaultDevFrac), r.testFrac: formatFloat(cnn.DefaultTestFrac),
+		r.tokenDropout: formatFloat(d.Train.TokenDropout), r.wordDropout: formatFloat(d.Train.WordDropout),
+		r.classWeight: classWeightNone,
 	} {
 		_ = b.Set(v)
 	}
+	if d.Train.ClassWeight != "" {
+		_ = r.classWeight.Set(d.Train.ClassWeight)
+	}
+	_ = r.baseline.Set(d.Baseline != nil)
 }
 
 // fieldErrors collects the form's problems, each naming its field and the fix.
@@ -71,11 +90,13 @@ func (fe *fieldErrors) whole(b binding.String, name, hint string) int {
 	return v
 }
 
+// real reads a finite number: NaN and infinities mean nothing in a recipe.
 func (fe *fieldErrors) real(b binding.String, name, hint string) float64 {
 	s := strings.TrimSpace(stringGet(b))
 	v, err := strconv.ParseFloat(s, 64)
-	if err != nil {
-		*fe = append(*fe, fmt.Errorf("%s %q is not a number: %s", name, s, hint))
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+		*fe = append(*fe, fmt.Errorf("%s %q is not a finite number: %s", name, s, hint))
+		return 0
 	}
 	return v
 }
@@ -130,6 +151,19 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 		rec.Train.Patience = -1
 	}
 	rec.Tokenizer.MinCount = fe.whole(r.minCount, "minimum word count", "e.g. 1 or 2")
+	rec.Train.TokenDropout = fe.real(r.tokenDropout, "token dropout", "a probability in [0, 1); 0 is off")
+	rec.Train.WordDropout = fe.real(r.wordDropout, "word dropout α", "0 (off) or more, e.g. 0.25")
+	switch cw := stringGet(r.classWeight); cw {
+	case classWeightNone:
+		rec.Train.ClassWeight = ""
+	case classWeightBalanced:
+		rec.Train.ClassWeight = cw
+	default:
+		fe = append(fe, fmt.Errorf("class weight %q: choose none or balanced", cw))
+	}
+	if on, _ := r.baseline.Get(); !on {
+		rec.Baseline = nil
+	}
 	plan := r.readPlan(&fe)
 	rec.Train.Seed = plan.Seed
 	if len(fe) == 0 {

@@ -14,22 +14,22 @@ import (
 	"telltale/cnn"
 )
 
-// resultsView shows the model on the test split: the headline figures, the
-// confusion matrix (click a cell to list its texts), the per-class table and
-// the reliability diagram. Further models (a baseline beside the CNN) are
-// meant to go beside the per-class table as more tabs of lower.
+// resultsView shows the model on the test split: the headline figures with
+// their intervals beside those of the linear baseline the model carries
+// and the McNemar test between the two, the confusion matrix (click a cell
+// to list its texts), the per-class table and the reliability diagram.
 type resultsView struct {
 	st *State
 
-	caption, headline, cellNote *widget.Label
-	confusion                   *confusionGrid
-	classes, cellTexts          *sheet
-	reliability                 *plotView
-	lower                       *container.AppTabs
-	cellRows                    []int // test index of each row of cellTexts
-	empty                       *widget.Label
-	full                        fyne.CanvasObject
-	body                        *fyne.Container
+	caption, headline, beside, cellNote *widget.Label
+	confusion                           *confusionGrid
+	classes, cellTexts                  *sheet
+	reliability                         *plotView
+	lower                               *container.AppTabs
+	cellRows                            []int // test index of each row of cellTexts
+	empty                               *widget.Label
+	full                                fyne.CanvasObject
+	body                                *fyne.Container
 }
 
 func newResultsView(st *State) *resultsView {
@@ -38,6 +38,7 @@ func newResultsView(st *State) *resultsView {
 	v.empty = wrapped("No results yet: train a model (Training view) or open one (File › Open model); it is then evaluated on the test split.")
 	v.headline = wrapped("")
 	v.headline.TextStyle.Bold = true
+	v.beside = wrapped("")
 	v.classes = newSheet("label", "precision", "recall", "F1", "support")
 	v.cellTexts = newSheet("#", "gold", "predicted", "p(predicted)", "text").wide(4, capText)
 	v.cellNote = wrapped("Click a cell of the confusion matrix to list its texts.")
@@ -63,18 +64,36 @@ func (v *resultsView) layout() fyne.CanvasObject {
 	bottom.Offset = 0.4
 	split := container.NewVSplit(matrix, bottom)
 	split.Offset = 0.58
-	return container.NewBorder(container.NewVBox(v.caption, v.headline), nil, nil, nil, split)
+	return container.NewBorder(container.NewVBox(v.caption, v.headline, v.beside), nil, nil, nil, split)
 }
 
 func (v *resultsView) content() fyne.CanvasObject { return v.body }
 func (v *resultsView) exportTable() *sheet        { return v.classes }
 func (v *resultsView) focusInput()                {}
 
+// resultsJSON is the Results view's data as `telltale eval --json` writes
+// it: the CNN's metrics, the figures with their intervals and the baseline.
+type resultsJSON struct {
+	cnn.Metrics
+	Figures  cnn.Figures      `json:"figures"`
+	Baseline *resultsBaseline `json:"baseline,omitempty"`
+}
+
+type resultsBaseline struct {
+	C       float64     `json:"c"`
+	Metrics cnn.Metrics `json:"metrics"`
+}
+
 func (v *resultsView) exportData() any {
-	if ms := itemGet(v.st.model); ms != nil && ms.Eval != nil {
-		return ms.Eval.Metrics
+	ms := itemGet(v.st.model)
+	if ms == nil || ms.Eval == nil {
+		return nil
 	}
-	return nil
+	out := resultsJSON{Metrics: ms.Eval.Metrics, Figures: ms.Eval.Figures}
+	if b := ms.Eval.Baseline; b != nil && ms.Model.Baseline != nil {
+		out.Baseline = &resultsBaseline{C: ms.Model.Baseline.Classifier.C, Metrics: b.Baseline}
+	}
+	return out
 }
 
 // explainRow sends the test text of a row of the cell's list to the
@@ -118,13 +137,15 @@ func (v *resultsView) refresh() {
 	}
 	v.caption.SetText(ms.caption())
 	m := ms.Eval.Metrics
-	v.headline.SetText(fmt.Sprintf("Test split, %s: accuracy %.3f, macro-F1 %.3f, weighted F1 %.3f, expected calibration error %.3f (%d bins).",
-		texts(m.N), m.Accuracy, m.MacroF1, m.WeightedF1, m.ECE, cnn.DefaultBins))
+	head, beside := figureLines(ms.Eval.Figures, ms.Model)
+	v.headline.SetText(fmt.Sprintf("Test split, %s: %s (%g%% intervals).", texts(m.N), head, 100*cnn.IntervalLevel))
+	v.beside.SetText(beside)
 	var rows [][]string
 	for _, c := range m.PerClass {
 		rows = append(rows, []string{c.Label, fmt.Sprintf("%.3f", c.Precision), fmt.Sprintf("%.3f", c.Recall),
 			fmt.Sprintf("%.3f", c.F1), fmt.Sprint(c.Support)})
 	}
+	rows = append(rows, []string{"(weighted by support)", "", "", fmt.Sprintf("%.3f", m.WeightedF1), fmt.Sprint(m.N)})
 	v.classes.setRows(rows)
 	v.confusion.set(m)
 	v.reliability.set(reliabilityPlot(ms.Eval))
@@ -133,6 +154,23 @@ func (v *resultsView) refresh() {
 	v.showCell(g, p)
 	v.body.Objects = []fyne.CanvasObject{v.full}
 	v.body.Refresh()
+}
+
+// figureLines words the figures of f as the command line prints them: the
+// CNN's accuracy and macro-F1 with their intervals (head), and the line
+// beside them: the linear baseline's and the McNemar test between the two,
+// or that m carries no baseline.
+func figureLines(f cnn.Figures, m *cnn.Model) (head, beside string) {
+	head = fmt.Sprintf("accuracy %s, macro-F1 %s", f.CNN.Accuracy, f.CNN.MacroF1)
+	if f.Baseline == nil || f.McNemar == nil || m.Baseline == nil {
+		return head, "The model carries no linear baseline to set beside it: train with Linear baseline on (the default) to have one."
+	}
+	c := fmt.Sprintf("C = %g from the dev split", m.Baseline.Classifier.C)
+	if len(m.Baseline.Dev) == 0 {
+		c = fmt.Sprintf("C = %g, no dev split", m.Baseline.Classifier.C)
+	}
+	return head, fmt.Sprintf("Linear baseline (%s): accuracy %s, macro-F1 %s. %s.",
+		c, f.Baseline.Accuracy, f.Baseline.MacroF1, capitalize(f.McNemar.Sentence()))
 }
 
 // mostConfused is the off-diagonal cell with the most texts (the first
@@ -152,7 +190,7 @@ func mostConfused(m cnn.Metrics) (gold, pred int) {
 // reliabilityPlot draws accuracy against confidence per equal-width bin,
 // with the diagonal of perfect calibration.
 func reliabilityPlot(ev *evaluation) *plot.Plot {
-	p := newPlot("Reliability (test split)", "confidence of the predicted label", "accuracy")
+	p := newPlot(fmt.Sprintf("Reliability (test split): ECE %.3f over %d bins", ev.Metrics.ECE, cnn.DefaultBins), "confidence of the predicted label", "accuracy")
 	bins := reliabilityBins(ev, cnn.DefaultBins)
 	diag, _ := plotter.NewLine(plotter.XYs{{X: 0, Y: 0}, {X: 1, Y: 1}})
 	if diag != nil {

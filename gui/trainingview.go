@@ -52,24 +52,41 @@ func (v *trainingView) recipeForm() *widget.Form {
 	entry := func(b binding.String, hint string) *widget.FormItem {
 		return &widget.FormItem{Widget: widget.NewEntryWithData(b), HintText: hint}
 	}
-	opt := widget.NewSelect([]string{"adam", "adadelta"}, func(s string) { _ = r.optimizer.Set(s) })
-	opt.SetSelected(stringGet(r.optimizer))
+	opt := selectFor(r.optimizer, "adam", "adadelta")
+	weight := selectFor(r.classWeight, classWeightNone, classWeightBalanced)
+	baseline := widget.NewCheckWithData("fit beside the CNN", r.baseline)
 	items := []*widget.FormItem{
 		entry(r.widths, ""), entry(r.maps, ""), entry(r.dim, ""), entry(r.epochs, ""),
 		entry(r.patience, "0 never stops early"), entry(r.dropout, ""), entry(r.maxNorm, "0 is off"),
 		{Widget: opt}, entry(r.lr, "empty: the optimizer's default"), entry(r.batch, ""),
-		entry(r.minCount, ""), entry(r.seed, "splits, initialisation, shuffling"),
+		entry(r.minCount, ""), entry(r.tokenDropout, "any token to unknown; 0 is off"),
+		entry(r.wordDropout, "α, rare words to unknown; 0 is off"),
+		{Widget: weight, HintText: "balanced: imbalanced labels"}, {Widget: baseline, HintText: "TF-IDF + logistic regression"},
+		entry(r.seed, "splits, initialisation, shuffling"),
 		entry(r.devFrac, "share of the data"), entry(r.testFrac, "share of the data"),
 	}
 	names := []string{"Filter widths", "Feature maps per width", "Embedding dimension", "Epochs (at most)",
 		"Patience (epochs)", "Dropout", "Max-norm of output rows", "Optimizer", "Learning rate", "Batch size",
-		"Least word count", "Seed", "Dev share", "Test share"}
+		"Least word count", "Token dropout", "Word dropout", "Class weight", "Linear baseline", "Seed", "Dev share", "Test share"}
 	for i, it := range items {
 		it.Text = names[i]
 	}
 	v.firstEntry = items[0].Widget.(*widget.Entry)
 	v.testShare = items[len(items)-1].Widget.(*widget.Entry)
 	return widget.NewForm(items...)
+}
+
+// selectFor is a choice among options bound to b: it shows b's value and
+// sets b (Defaults included, which sets b).
+func selectFor(b binding.String, options ...string) *widget.Select {
+	sel := widget.NewSelect(options, func(s string) { _ = b.Set(s) })
+	sel.SetSelected(stringGet(b))
+	b.AddListener(binding.NewDataListener(func() {
+		if s := stringGet(b); s != sel.Selected {
+			sel.SetSelected(s)
+		}
+	}))
+	return sel
 }
 
 func (v *trainingView) layout() fyne.CanvasObject {
@@ -142,7 +159,9 @@ func (v *trainingView) redraw(run *trainRun) {
 	d := run.snapshot()
 	v.drawCurves(d.LossX, d.LossY, d.DevX, d.DevAcc, d.DevF1)
 	v.epochs.setRows(epochRows(d.Epochs))
-	if pr := d.Last; pr.Epochs > 0 && v.st.isRunning(taskTrain) {
+	if d.Last.Phase == cnn.PhaseBaseline && v.st.isRunning(taskTrain) {
+		v.line.SetText("Fitting the linear baseline (TF-IDF n-grams + logistic regression, its C chosen on the dev split)…")
+	} else if pr := d.Last; pr.Epochs > 0 && v.st.isRunning(taskTrain) {
 		v.line.SetText(fmt.Sprintf("Epoch %d of %d, batch %d of %d — loss %.4f — %.0f examples/s",
 			pr.Epoch, pr.Epochs, pr.Batch, pr.Batches, pr.Loss, pr.ExamplesPerSec))
 	}

@@ -48,8 +48,9 @@ type Progress func(stage string, done, total int)
 
 // Build computes every piece of the report with the cnn, corpus and explain
 // packages and lays them out: the summary of train and heldout, the metrics
-// and reliability bins of m on heldout, the filter profiles over train and
-// explained held-out examples. Train is the split m was trained on and
+// and reliability bins of m on heldout (beside those of the linear baseline
+// m carries, if any), the filter profiles over train and explained held-out
+// examples. Train is the split m was trained on and
 // heldout one it was not trained on (both required, with labels m knows).
 // The model must carry its vocabulary. Progress may be nil. Build returns
 // ctx.Err() when ctx is cancelled.
@@ -124,6 +125,11 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	mt := cnn.ComputeMetrics(m.Labels, ho.Gold, pred, conf, cnn.DefaultBins)
 	in.Metrics = &mt
 	in.Reliability = cnn.Reliability(conf, correct, cnn.DefaultBins)
+	if m.Baseline != nil {
+		if in.Baseline, err = cnn.CompareBaseline(m, heldout, opt.Threads); err != nil {
+			return Input{}, fmt.Errorf("report: the linear baseline on the held-out split: %w", err)
+		}
+	}
 	progress("evaluate", len(ho.IDs), len(ho.IDs))
 	if err := ctx.Err(); err != nil {
 		return Input{}, err

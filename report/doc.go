@@ -7,8 +7,11 @@
 // In order: the dataset summary (corpus.Summary: sizes, class balance,
 // token lengths, duplicates and leaks); the architecture and training
 // record of the model (cnn.Config, cnn.Info); its evaluation on a held-out
-// split (cnn.Metrics: per-class table, accuracy, macro-F1, ECE) with a
-// confusion-matrix heat map and a reliability diagram; a catalogue of
+// split (cnn.Metrics: per-class table, accuracy and macro-F1 with their 95%
+// intervals, ECE) beside the linear baseline the model file carries
+// (cnn.CompareBaseline: the baseline's accuracy and macro-F1 with theirs and
+// the exact McNemar test between the two) with a confusion-matrix heat map
+// and a reliability diagram; a catalogue of
 // filters by the class they vote for (explain.Profiles: top n-grams with
 // per-slot heat, families, trigger and suppressor words); the cue audit
 // (audit.Result: the story in plain words first, what to do, then the cues

@@ -9,6 +9,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/linear"
 )
 
 // demoFixture is a small model trained on a slice of the demo corpus, with
@@ -87,6 +88,20 @@ func loadDemo(t *testing.T) demoFixture {
 			}
 			rec, _ := tc.WithDefaults()
 			m.Info = cnn.Info{Created: "2025-01-01T00:00:00Z", Recipe: &rec, Epochs: res.Epochs, BestEpoch: res.BestEpoch, ExamplesPerSec: res.ExamplesPerSec}
+			// The linear baseline beside it, on the tokenizer's words (as
+			// cnn.TrainText fits it; without a dev split, the grid's middle C).
+			var docs [][]string
+			for _, e := range train.Examples {
+				var words []string
+				for _, tk := range tok.Tokenize(e.Text) {
+					words = append(words, tk.Text)
+				}
+				docs = append(docs, words)
+			}
+			if m.Baseline, err = linear.Fit(context.Background(), linear.Split{Docs: docs, Labels: trd.Labels}, linear.Split{}, m.Labels,
+				linear.DefaultConfig(), nil, nil); err != nil {
+				return err
+			}
 			in, err := Gather(context.Background(), m, train, test, Options{Title: "Ferry desk demo", ModelPath: "demo.model", Threads: 2}, nil)
 			if err != nil {
 				return err

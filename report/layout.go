@@ -8,6 +8,7 @@ import (
 	"slices"
 	"strings"
 
+	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
 )
@@ -64,15 +65,23 @@ type epochRow struct {
 
 type metricsView struct {
 	Split, Note, N, Accuracy, MacroF1, WeightedF1, ECE string
-	Rows                                               []classRow
-	Labels                                             []string
-	Confusion                                          [][]heatCell
-	ConfusionImg, ReliabilityImg                       template.URL
-	ConfusionAlt, ReliabilityAlt                       string
-	Bins                                               []binRow
+	// Figures: the CNN and, when the model carries one, its linear
+	// baseline, each with accuracy and macro-F1 and their intervals;
+	// McNemar says the test between the two ("" without a baseline).
+	Figures                      []figureRow
+	Level                        string
+	McNemar                      string
+	Rows                         []classRow
+	Labels                       []string
+	Confusion                    [][]heatCell
+	ConfusionImg, ReliabilityImg template.URL
+	ConfusionAlt, ReliabilityAlt string
+	Bins                         []binRow
 }
 
 type classRow struct{ Label, Precision, Recall, F1, Support string }
+
+type figureRow struct{ Model, Note, Accuracy, MacroF1 string }
 
 type binRow struct{ Range, Count, Confidence, Accuracy, Gap string }
 
@@ -168,6 +177,9 @@ func layout(in Input) (*page, error) {
 		p.Glance = append(p.Glance,
 			kv{"Held-out split", fmt.Sprintf("%s, %s texts", mv.Split, mv.N)},
 			kv{"Accuracy", mv.Accuracy}, kv{"Macro-F1", mv.MacroF1}, kv{"ECE", mv.ECE})
+		if len(mv.Figures) > 1 {
+			p.Glance = append(p.Glance, kv{"Linear baseline accuracy", mv.Figures[1].Accuracy})
+		}
 	}
 	p.Glance = append(p.Glance, kv{"Filters", count(m.Config.NumFilters())}, kv{"Vocabulary", count(m.Config.VocabSize)})
 	if in.Profiles != nil {
@@ -351,8 +363,20 @@ func metrics(in Input) (*metricsView, error) {
 	if note == "" {
 		note = "none of them used for training"
 	}
-	mv := &metricsView{Split: split, Note: note, N: count(mt.N), Accuracy: pct(mt.Accuracy), MacroF1: num(mt.MacroF1),
-		WeightedF1: num(mt.WeightedF1), ECE: num(mt.ECE), Labels: mt.Labels}
+	if b := in.Baseline; b != nil && (b.CNN.N != mt.N || len(b.Baseline.Labels) != k || b.CNN.Accuracy != mt.Accuracy) {
+		return nil, fmt.Errorf("report: the baseline comparison is of %d texts (CNN accuracy %g), the metrics of %d (accuracy %g): give both of the same held-out split",
+			b.CNN.N, b.CNN.Accuracy, mt.N, mt.Accuracy)
+	}
+	fig := cnn.FiguresOf(*mt, in.Baseline)
+	mv := &metricsView{Split: split, Note: note, N: count(mt.N), Accuracy: fig.CNN.Accuracy.String(), MacroF1: fig.CNN.MacroF1.String(),
+		WeightedF1: num(mt.WeightedF1), ECE: num(mt.ECE), Labels: mt.Labels, Level: fmt.Sprintf("%g%%", 100*cnn.IntervalLevel)}
+	mv.Figures = []figureRow{{Model: "CNN", Accuracy: fig.CNN.Accuracy.String(), MacroF1: fig.CNN.MacroF1.String()}}
+	if fig.Baseline != nil {
+		mv.Figures = append(mv.Figures, figureRow{Model: "Linear baseline", Note: baselineNote(in.Model),
+			Accuracy: fig.Baseline.Accuracy.String(), MacroF1: fig.Baseline.MacroF1.String()})
+		sentence := fig.McNemar.Sentence()
+		mv.McNemar = strings.ToUpper(sentence[:1]) + sentence[1:] + "."
+	}
 	for _, c := range mt.PerClass {
 		mv.Rows = append(mv.Rows, classRow{c.Label, num(c.Precision), num(c.Recall), num(c.F1), count(c.Support)})
 	}
@@ -396,6 +420,20 @@ func metrics(in Input) (*metricsView, error) {
 		}
 	}
 	return mv, nil
+}
+
+// baselineNote says what the baseline is and how its C was chosen (on the
+// dev split, or the middle of the grid when there was none).
+func baselineNote(m *cnn.Model) string {
+	b := m.Baseline
+	if b == nil || b.Classifier == nil {
+		return "TF-IDF n-grams + logistic regression"
+	}
+	how := "chosen on the dev split"
+	if len(b.Dev) == 0 {
+		how = "the middle of the grid: there was no dev split"
+	}
+	return fmt.Sprintf("TF-IDF n-grams + logistic regression, C = %g, %s", b.Classifier.C, how)
 }
 
 func cellStyle(bg rgb) template.CSS {

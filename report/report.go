@@ -56,6 +56,10 @@ type Input struct {
 	HeldOutNote string // where the held-out texts come from, e.g. "none of them used for training"
 	Metrics     *cnn.Metrics
 	Reliability []cnn.ReliabilityBin
+	// Baseline is the CNN beside the linear baseline its file carries, on
+	// the same held-out texts as Metrics (cnn.CompareBaseline); nil when
+	// the model carries none.
+	Baseline *cnn.Comparison
 
 	// Profiles describes the filters over the corpus named ProfiledOn
 	// (usually "train").

@@ -9,10 +9,12 @@ import (
 	"path/filepath"
 	"regexp"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
 	auditpkg "telltale/audit"
+	"telltale/cnn"
 )
 
 func render(t *testing.T, r *Report) string {
@@ -40,10 +42,11 @@ func TestDemoSections(t *testing.T) {
 		}
 	}
 	mt := d.input.Metrics
+	head := cnn.HeadlineOf(*mt)
 	want := []string{
 		"<title>Ferry desk demo</title>",
-		"Accuracy</span><span class=\"v\">" + pct(mt.Accuracy) + "<",
-		"Macro-F1</span><span class=\"v\">" + num(mt.MacroF1) + "<",
+		"Accuracy</span><span class=\"v\">" + head.Accuracy.String() + "<",
+		"Macro-F1</span><span class=\"v\">" + head.MacroF1.String() + "<",
 		"ECE</span><span class=\"v\">" + num(mt.ECE) + "<",
 		"test, 300 texts",
 		"expected calibration error " + num(mt.ECE),
@@ -231,5 +234,59 @@ func TestWriteFileAtomic(t *testing.T) {
 	}
 	if err := WriteFile(filepath.Join(dir, "missing", "r.html"), d.report); err == nil {
 		t.Error("writing into a missing folder succeeded")
+	}
+}
+
+// TestBaselineBesideTheCNN: the evaluation shows the CNN beside the linear
+// baseline the model carries, with the figures cnn computes (Gather's
+// comparison is cnn.CompareBaseline's on the held-out split; the intervals
+// cnn.HeadlineOf's) and the McNemar test in the words the command line
+// uses; a model without a baseline says so, and a comparison of other
+// texts is refused.
+func TestBaselineBesideTheCNN(t *testing.T) {
+	d := loadDemo(t)
+	want, err := cnn.CompareBaseline(d.model, d.test, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := d.input.Baseline
+	if got == nil || got.McNemar != want.McNemar || got.Baseline.Accuracy != want.Baseline.Accuracy || got.CNN.Accuracy != d.input.Metrics.Accuracy {
+		t.Fatalf("Gather's comparison %+v, CompareBaseline's %+v", got, want)
+	}
+	out := html.UnescapeString(render(t, d.report))
+	sec := out[strings.Index(out, `<section id="metrics">`):strings.Index(out, `<section id="filters">`)]
+	f := cnn.FiguresOf(*d.input.Metrics, want)
+	sentence := f.McNemar.Sentence()
+	for _, w := range []string{
+		`<tr><td>CNN</td><td class="num">` + f.CNN.Accuracy.String() + `</td><td class="num">` + f.CNN.MacroF1.String() + `</td></tr>`,
+		`<tr><td>Linear baseline<div class="small">TF-IDF n-grams + logistic regression, C = ` + strconv.FormatFloat(d.model.Baseline.Classifier.C, 'g', -1, 64) +
+			`, the middle of the grid: there was no dev split</div></td><td class="num">` +
+			f.Baseline.Accuracy.String() + `</td><td class="num">` + f.Baseline.MacroF1.String() + `</td></tr>`,
+		"<p class=\"mcnemar\">T" + sentence[1:] + ".</p>",
+		"Accuracy (95% interval)",
+	} {
+		if !strings.Contains(sec, w) {
+			t.Errorf("the evaluation lacks %q:\n%s", w, sec)
+		}
+	}
+	if !strings.Contains(out, "Linear baseline accuracy</span><span class=\"v\">"+f.Baseline.Accuracy.String()+"<") {
+		t.Error("the glance lacks the baseline's accuracy")
+	}
+
+	in := d.input
+	in.Baseline = nil
+	r, err := New(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	out = html.UnescapeString(render(t, r))
+	if strings.Contains(out, "Linear baseline") || !strings.Contains(out, "The model file carries no linear baseline") {
+		t.Error("a report without the baseline shows one, or does not say it is missing")
+	}
+	other := *want
+	other.CNN.N++
+	in.Baseline = &other
+	if _, err := New(in); err == nil || !strings.Contains(err.Error(), "the baseline comparison is of") {
+		t.Errorf("a comparison of other texts: %v", err)
 	}
 }

@@ -1,0 +1,173 @@
+package gui
+
+import (
+	"context"
+	"reflect"
+	"strings"
+	"testing"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/widget"
+
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/linear"
+)
+
+// withBaseline fits the linear baseline into m as cnn.TrainText does: on
+// the words of its tokenizer over cs's training split, its C chosen by
+// macro-F1 on the dev split.
+func withBaseline(t *testing.T, m *cnn.Model, cs *corpusState) *cnn.Model {
+	t.Helper()
+	tok, err := corpus.NewTokenizer(m.Tokenizer)
+	if err != nil {
+		t.Fatal(err)
+	}
+	split := func(d *corpus.Dataset) linear.Split {
+		y, err := d.LabelIndex(m.Labels)
+		if err != nil {
+			t.Fatal(err)
+		}
+		s := linear.Split{Labels: y}
+		for _, text := range d.Texts() {
+			var words []string
+			for _, tk := range tok.Tokenize(text) {
+				words = append(words, tk.Text)
+			}
+			s.Docs = append(s.Docs, words)
+		}
+		return s
+	}
+	macroF1 := func(gold, pred []int) float64 { return cnn.ComputeMetrics(m.Labels, gold, pred, nil, 0).MacroF1 }
+	if m.Baseline, err = linear.Fit(context.Background(), split(cs.Train), split(cs.Dev), m.Labels, linear.DefaultConfig(), macroF1, nil); err != nil {
+		t.Fatal(err)
+	}
+	return m
+}
+
+// results: a model trained with the form's default recipe carries the
+// linear baseline; the Results view shows both with the figures cnn
+// computes on the test split (cnn.CompareBaseline, cnn.FiguresOf) and the
+// McNemar test in the command line's words.
+func (s *session) results() {
+	t, w, st, q, ms, cs := s.t, s.w, s.st, s.q, s.ms, s.cs
+	if ms.Model.Baseline == nil || ms.Eval.Baseline == nil {
+		t.Fatalf("the default recipe's model carries no baseline (%v) or was not compared with it", ms.Model.Baseline == nil)
+	}
+	want, err := cnn.CompareBaseline(ms.Model, cs.Test, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if ms.Eval.Baseline.McNemar != want.McNemar || ms.Eval.Baseline.Baseline.Accuracy != want.Baseline.Accuracy ||
+		want.CNN.Accuracy != ms.Eval.Metrics.Accuracy {
+		t.Errorf("the window's comparison %+v, cnn's %+v", ms.Eval.Baseline, want)
+	}
+	f := cnn.FiguresOf(ms.Eval.Metrics, want)
+	if !reflect.DeepEqual(ms.Eval.Figures, f) {
+		t.Errorf("the window's figures %+v, cnn's %+v", ms.Eval.Figures, f)
+	}
+	st.show(titleResults)
+	q.drain()
+	// The labels wrap, so the painted text is checked line by line and the
+	// labels' whole text against the figures.
+	rv := st.resultsView
+	shown := rv.headline.Text + "\n" + rv.beside.Text
+	sentence := f.McNemar.Sentence()
+	for _, part := range []string{
+		"accuracy " + f.CNN.Accuracy.String() + ", macro-F1 " + f.CNN.MacroF1.String(),
+		"accuracy " + f.Baseline.Accuracy.String() + ", macro-F1 " + f.Baseline.MacroF1.String(),
+		"T" + sentence[1:],
+	} {
+		if !strings.Contains(shown, part) {
+			t.Errorf("the Results view lacks %q:\n%s", part, shown)
+		}
+	}
+	markup := test.RenderToMarkup(w.Canvas())
+	for _, label := range []*widget.Label{rv.headline, rv.beside} {
+		for _, word := range strings.Fields(label.Text) {
+			if !strings.Contains(markup, word) {
+				t.Errorf("%q is not painted", word)
+			}
+		}
+	}
+	data, ok := st.resultsView.exportData().(resultsJSON)
+	if !ok || data.Baseline == nil || data.Baseline.Metrics.Accuracy != want.Baseline.Accuracy || data.Baseline.C != ms.Model.Baseline.Classifier.C {
+		t.Errorf("the view's export %+v", data)
+	}
+}
+
+// The Results view's line beside the headline says when the model carries
+// no baseline.
+func TestFigureLinesWithoutBaseline(t *testing.T) {
+	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
+	head, beside := figureLines(cnn.FiguresOf(m, nil), &cnn.Model{})
+	if want := "accuracy " + cnn.WilsonInterval(3, 4, 0.95).String(); !strings.HasPrefix(head, want) {
+		t.Errorf("head %q, want it to start %q", head, want)
+	}
+	if !strings.Contains(beside, "carries no linear baseline") || strings.Contains(beside, "McNemar") {
+		t.Errorf("beside %q", beside)
+	}
+}
+
+// The training form starts from cnn.DefaultRecipe, field for field, offers
+// what `telltale train` offers (class weight, token and word dropout, the
+// baseline on or off), and refuses their bad values naming the field.
+func TestRecipeForm(t *testing.T) {
+	a := test.NewTempApp(t)
+	q := &queue{}
+	w, st := newWindow(a, Options{}, q.post)
+	w.Resize(fyne.NewSize(smallScreen.Width, smallScreen.Height-menuBar))
+	t.Cleanup(st.cancelAll)
+	q.waitFor(t, "the failed start", func() bool { return st.tasks.idle(taskLoad) })
+	q.drain()
+	var names []string
+	for _, it := range st.trainingView.form.Items {
+		names = append(names, it.Text)
+	}
+	for _, n := range []string{"Token dropout", "Word dropout", "Class weight", "Linear baseline"} {
+		if !strings.Contains(strings.Join(names, "|"), n) {
+			t.Errorf("the form lacks %q: %q", n, names)
+		}
+	}
+	r := st.recipe
+	rec, _, err := r.parse(false)
+	if err != nil || !reflect.DeepEqual(rec, cnn.DefaultRecipe()) {
+		t.Fatalf("the form's defaults give %+v (%v), want cnn.DefaultRecipe %+v", rec, err, cnn.DefaultRecipe())
+	}
+	_ = r.tokenDropout.Set("0.125")
+	_ = r.wordDropout.Set("0.5")
+	_ = r.classWeight.Set("balanced")
+	_ = r.baseline.Set(false)
+	rec, _, err = r.parse(false)
+	want := cnn.DefaultRecipe()
+	want.Train.TokenDropout, want.Train.WordDropout, want.Train.ClassWeight, want.Baseline = 0.125, 0.5, "balanced", nil
+	if err != nil || !reflect.DeepEqual(rec, want) {
+		t.Errorf("with the new options set: %+v (%v), want %+v", rec, err, want)
+	}
+	for _, it := range st.trainingView.form.Items {
+		if sel, ok := it.Widget.(*widget.Select); ok && it.Text == "Class weight" {
+			q.waitFor(t, "the class weight's choice to follow its value", func() bool { return sel.Selected == "balanced" })
+		}
+	}
+	for _, c := range []struct {
+		set  func()
+		want string
+	}{
+		{func() { _ = r.tokenDropout.Set("NaN") }, `token dropout "NaN" is not a finite number`},
+		{func() { _ = r.tokenDropout.Set("1") }, "token dropout 1: must be in [0, 1)"},
+		{func() { _ = r.wordDropout.Set("Inf") }, `word dropout α "Inf" is not a finite number`},
+		{func() { _ = r.wordDropout.Set("-1") }, "word dropout -1: must be 0 (off) or positive"},
+		{func() { _ = r.classWeight.Set("heavy") }, `class weight "heavy": choose none or balanced`},
+	} {
+		r.reset()
+		c.set()
+		if _, _, err := r.parse(false); err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("error %v, want it to say %q", err, c.want)
+		}
+	}
+	r.reset()
+	if on, _ := r.baseline.Get(); !on {
+		t.Error("Defaults did not turn the baseline back on")
+	}
+}
