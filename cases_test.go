@@ -98,7 +98,7 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"dropout 1", train("--dropout", "1"), 2, []string{"--dropout 1: give a rate from 0 up to (not including) 1"}},
 		{"max-norm Inf", train("--max-norm", "+Inf"), 2, []string{"--max-norm +Inf: not a finite number"}},
 		{"dev-frac NaN", train("--dev-frac", "NaN"), 2, []string{"--dev-frac NaN: not a finite number"}},
-		{"purity NaN", []string{"filters", "--model", f.model, "--data", f.data, "--purity", "NaN"}, 2, []string{"--purity NaN: not a finite number"}},
+		{"selectivity NaN", []string{"filters", "--model", f.model, "--data", f.data, "--selectivity", "NaN"}, 2, []string{"--selectivity NaN: not a finite number"}},
 		{"a diverging run", train("--lr", "1e30", "--epochs", "3"), 1,
 			[]string{"training diverged in epoch 1", "nothing saved to " + out, "lower --lr (it was 1e+30)"}},
 		// Data that would give a useless model.
