@@ -108,7 +108,7 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"baseline not a switch value", train("--baseline=sometimes"), 2, []string{"--baseline sometimes: give true or false"}},
 		{"dim 0 without vectors", train("--dim", "0"), 2, []string{"--dim 0: give 1 or more (numbers per word embedding; 0 only with --vectors, for the file's)"}},
 		{"dev-frac NaN", train("--dev-frac", "NaN"), 2, []string{"--dev-frac NaN: not a finite number"}},
-		{"purity NaN", []string{"filters", "--model", f.model, "--data", f.data, "--purity", "NaN"}, 2, []string{"--purity NaN: not a finite number"}},
+		{"selectivity NaN", []string{"filters", "--model", f.model, "--data", f.data, "--selectivity", "NaN"}, 2, []string{"--selectivity NaN: not a finite number"}},
 		{"a diverging run", train("--lr", "1e30", "--epochs", "3"), 1,
 			[]string{"training diverged in epoch 1", "nothing saved to " + out, "lower --lr (it was 1e+30)"}},
 		// Data that would give a useless model.

@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"slices"
 	"strings"
 
 	"golang.org/x/term"
@@ -21,14 +22,20 @@ import (
 var cmdExplain = &command{
 	Name:      "explain",
 	UsageLine: "explain --model MODEL [--text \"...\" | --data FILE] [--method exact|occlusion|ig] [--class LABEL] [--json]",
-	Short:     "explain why a text got its label: exact token shares, occlusion, integrated gradients",
+	Short:     "explain why a text got its label: exact token shares, occlusion, integrated gradients, windows kept down",
 	Long: `Explain labels --text (or each text of --data, or each line of standard
-input) and splits the decision over its tokens. exact: each class logit is the
-bias part plus one exact share per token (they add up to the logit).
-occlusion: the drop in the predicted class's probability when the token is
-replaced by padding, measured by re-running the model. ig: integrated gradients
-over the embeddings with a padding baseline, with its completeness gap. In a
-terminal the text is painted by the chosen method; --json gives every number.
+input) and splits the decision over its tokens. By default the decision is the
+log-odds of the predicted label against the runner-up, log p(label)/p(runner-up);
+with --class it is that label's centred logit (its logit minus the mean over
+labels). exact: the output bias, the biases of the filters that fired and one
+share per token add up to it exactly. occlusion: the drop in the predicted
+label's probability when the token is replaced by padding, measured by
+re-running the model. ig: integrated gradients over the embeddings from an
+all-padding baseline, in closed form. A label's own logit, or a token's share
+of it, is never shown: training does not pin it down. Windows kept down are
+windows that would have won their filter but for the tokens that kept them
+down; removing those tokens checks each one. In a terminal the text is
+painted by the chosen method; --json gives every number.
 
 The explanation describes the model, not the world: check it before you act
 on it, and never use a classifier alone for decisions about people.`,
@@ -39,6 +46,7 @@ on it, and never use a classifier alone for decisions about people.`,
 type explainOptions struct {
 	model, method, class, windows, color, export string
 	texts                                        textSource
+	keptDown                                     int
 	asJSON                                       bool
 
 	widths []int
@@ -48,8 +56,9 @@ func (o *explainOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.model, "model", "", "model file written by train")
 	o.texts.register(fs, "explain")
 	fs.StringVar(&o.method, "method", explain.MethodExact, "attribution painted in the terminal: exact, occlusion or ig")
-	fs.StringVar(&o.class, "class", "", "class whose attribution is painted (default: the predicted one)")
+	fs.StringVar(&o.class, "class", "", "paint the shares of this label's centred logit (default: the log-odds of the predicted label against the runner-up)")
 	fs.StringVar(&o.windows, "windows", "", "also occlude every n-gram window of these widths, e.g. 2,3 (in the text output and --json)")
+	intVar(fs, &o.keptDown, "kept-down", 3, "windows kept down to list per text (0: none)")
 	fs.BoolVar(&o.asJSON, "json", false, "print one JSON object per text")
 	fs.StringVar(&o.color, "color", "auto", "paint with colours: auto (when standard output is a terminal), always or never")
 	fs.StringVar(&o.export, "export", "", "also write every token's attributions to this .csv or .jsonl file")
@@ -73,7 +82,8 @@ func (o *explainOptions) check(fs *flag.FlagSet, env *runEnv) error {
 	if o.widths, err = listInts("windows", o.windows, 1, "a window width (widths are 1 or more)"); err != nil {
 		return err
 	}
-	for _, err := range []error{requireModel(o.model), checkExport(o.export), o.texts.check(fs)} {
+	for _, err := range []error{requireModel(o.model), checkExport(o.export), o.texts.check(fs),
+		checkAtLeast("kept-down", o.keptDown, 0, "windows kept down to list")} {
 		if err != nil {
 			return err
 		}
@@ -106,10 +116,12 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	if f, ok := env.Stdout.(*os.File); ok && o.color == "auto" {
 		paint = term.IsTerminal(int(f.Fd()))
 	}
-	opt := explain.ExplainOptions{Occlusion: true, OcclusionWidths: o.widths, IG: o.method == explain.MethodIG || o.asJSON || o.export != ""}
+	opt := explain.ExplainOptions{Occlusion: true, OcclusionWidths: o.widths, KeptDown: o.keptDown,
+		IG: o.method == explain.MethodIG || o.asJSON || o.export != ""}
+	tables := newSlotTables(m)
 	var all []*explain.Explanation
 	err = o.texts.each(ctx, env, func(t text) error {
-		e, cut, err := explainText(m, enc, t.Text, opt)
+		e, cut, err := explainText(m, enc, t.Text, opt, tables)
 		if err != nil {
 			return err
 		}
@@ -130,13 +142,60 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	return report.WriteTableFile(o.export, report.AttributionTable(all))
 }
 
+// slotTables decides, text by text, when a slot table of the whole
+// vocabulary pays: each text explained without one tables its own words
+// (Explain's default), so once the words tabled that way add up to as many
+// as the whole table would hold, it is built once and every later text
+// uses it. Explaining n texts thus costs at most about twice what the
+// better of the two choices made in advance would have (the break-even
+// rule of renting against buying).
+type slotTables struct {
+	m      *cnn.Model
+	st     *explain.SlotTable
+	spent  int // words tabled text by text so far
+	budget int // words the whole table holds
+}
+
+func newSlotTables(m *cnn.Model) *slotTables {
+	perWord := 0
+	for _, w := range m.Config.Widths {
+		perWord += 4 * w * m.Config.Filters
+	}
+	return &slotTables{m: m, budget: min(m.Config.VocabSize, int(explain.DefaultTableBytes/max(perWord, 1)))}
+}
+
+// forText returns the table to explain ids with: nil (a table of the text's
+// own words) until the break-even point, then the whole vocabulary's.
+func (s *slotTables) forText(ids []int32) (*explain.SlotTable, error) {
+	if s.st != nil {
+		return s.st, nil
+	}
+	seen := make(map[int32]bool, len(ids))
+	for _, id := range ids {
+		seen[id] = true
+	}
+	if s.spent += len(seen); s.spent < s.budget {
+		return nil, nil
+	}
+	st, err := explain.NewSlotTable(s.m, explain.TableOptions{})
+	if err != nil {
+		return nil, err
+	}
+	s.st = st
+	return st, nil
+}
+
 // explainText explains one text and says how many of its tokens are past
 // the length the model reads.
-func explainText(m *cnn.Model, enc *corpus.Encoder, t string, opt explain.ExplainOptions) (*explain.Explanation, int, error) {
+func explainText(m *cnn.Model, enc *corpus.Encoder, t string, opt explain.ExplainOptions, tables *slotTables) (*explain.Explanation, int, error) {
 	toks, ids := enc.Encode(t)
 	cut := 0
 	if enc.MaxTokens > 0 {
 		cut = max(0, len(enc.Tok.TokenizeFor(enc.Vocab, t))-len(toks))
+	}
+	var err error
+	if opt.Table, err = tables.forText(ids); err != nil {
+		return nil, 0, err
 	}
 	e, err := explain.Explain(m, toks, ids, opt)
 	return e, cut, err
@@ -156,31 +215,71 @@ func writeExplanationJSON(w io.Writer, e *explain.Explanation, t text, cut int) 
 	return err
 }
 
+// writeExplanation writes one explanation for a reader: the label and the
+// probabilities, the text painted by the method for the log-odds (class
+// −1) or class's centred logit, the identity or check of the method, the
+// windows whose removal matters most, the filters that fired and the
+// windows kept down.
 func writeExplanation(w io.Writer, text string, e *explain.Explanation, method string, class int, paint bool) error {
-	if class < 0 {
-		class = e.Class
-	}
 	fmt.Fprintf(w, "label: %s", e.Label)
 	for c, l := range e.Labels {
 		fmt.Fprintf(w, "  %s=%.3f", l, e.Probabilities[c])
 	}
-	fmt.Fprintln(w)
-	what := map[string]string{
-		explain.MethodExact:     fmt.Sprintf("exact share of the %q logit (bias part %+.3f, logit %+.3f)", e.Labels[class], e.Bias[class], e.Logits[class]),
-		explain.MethodOcclusion: fmt.Sprintf("drop in p(%s) when the token is replaced by padding", e.Label),
-		explain.MethodIG:        fmt.Sprintf("integrated gradients for the %q logit", e.Labels[class]),
-	}[method]
+	fmt.Fprintf(w, "  (runner-up: %s)\n", e.Labels[e.RunnerUp])
 	if method == explain.MethodOcclusion {
-		class = e.Class
+		class = -1
 	}
-	fmt.Fprintf(w, "%s:\n", what)
-	if err := explain.WriteColored(w, text, e, method, class, paint); err != nil {
+	if err := explain.Paint(w, text, e, method, class, paint); err != nil {
 		return err
 	}
+	writeIdentity(w, e, method, class)
 	fmt.Fprintln(w)
 	writeWindows(w, e)
 	writeFiredFilters(w, e, class)
+	writeKeptDown(w, e)
 	return nil
+}
+
+// quantity names the split quantity: the log-odds (class −1) or class's
+// centred logit.
+func quantity(e *explain.Explanation, class int) string {
+	if class < 0 {
+		return fmt.Sprintf("log p(%s)/p(%s)", e.Label, e.Labels[e.RunnerUp])
+	}
+	return fmt.Sprintf("the centred logit of %s", e.Labels[class])
+}
+
+// sharesOf is the split of the log-odds (class −1) or of class's centred logit.
+func sharesOf(e *explain.Explanation, class int) *explain.Shares {
+	if class < 0 {
+		return &e.LogOdds
+	}
+	return &e.Centred[class]
+}
+
+// writeIdentity writes what the painted numbers add up to: the exact
+// split, or integrated gradients' completeness.
+func writeIdentity(w io.Writer, e *explain.Explanation, method string, class int) {
+	switch method {
+	case explain.MethodExact:
+		s := sharesOf(e, class)
+		var fb, tok float64
+		for _, v := range s.FilterBias {
+			fb += v
+		}
+		for _, v := range s.Tokens {
+			tok += v
+		}
+		fmt.Fprintf(w, "%s = %+.3f = output bias %+.3f + filter biases %+.3f + token shares %+.3f\n",
+			quantity(e, class), s.Value, s.OutputBias, fb, tok)
+	case explain.MethodIG:
+		ig := e.Integrated.LogOdds
+		if class >= 0 {
+			ig = e.Integrated.Centred[class]
+		}
+		fmt.Fprintf(w, "%s = %+.3f, with every word vector zero %+.3f: the token scores add up to the difference (gap %.1g)\n",
+			quantity(e, class), ig.Value, ig.Baseline, ig.Gap)
+	}
 }
 
 // writeWindows lists the n-gram windows whose removal lowers the predicted
@@ -197,31 +296,56 @@ func writeWindows(w io.Writer, e *explain.Explanation) {
 	sortBy(order, func(i int) float64 { return -ws[i].Drop })
 	fmt.Fprintf(w, "n-gram windows whose removal lowers p(%s) most:\n", e.Label)
 	for _, i := range order[:min(5, len(order))] {
-		toks := make([]string, 0, ws[i].End-ws[i].Start)
-		for t := ws[i].Start; t < ws[i].End && t < len(e.Tokens); t++ {
-			toks = append(toks, e.Tokens[t].Text)
-		}
-		fmt.Fprintf(w, "  %+.3f  %q\n", ws[i].Drop, strings.Join(toks, " "))
+		fmt.Fprintf(w, "  %+.3f  %q\n", ws[i].Drop, strings.Join(tokenTexts(e, ws[i].Start, ws[i].End-ws[i].Start, nil), " "))
 	}
 }
 
-// writeFiredFilters lists the filters that fired by their part of class's logit.
+// writeFiredFilters lists the filters that fired by their part of the
+// log-odds (class −1) or of class's centred logit, with the part their
+// bias carries.
 func writeFiredFilters(w io.Writer, e *explain.Explanation, class int) {
 	if len(e.Filters) == 0 {
 		return
 	}
-	fmt.Fprintf(w, "filters that fired, by their part of the %q logit:\n", e.Labels[class])
+	s := sharesOf(e, class)
+	fmt.Fprintf(w, "filters that fired, by their part of %s (of it, the filter's bias):\n", quantity(e, class))
 	order := make([]int, len(e.Filters))
 	for i := range order {
 		order[i] = i
 	}
-	sortBy(order, func(i int) float64 { return -math.Abs(e.Filters[i].Contribution[class]) })
+	sortBy(order, func(i int) float64 { return -math.Abs(s.Filters[i]) })
 	for _, i := range order[:min(8, len(order))] {
 		f := e.Filters[i]
-		toks := make([]string, 0, f.Width)
-		for t := f.Start; t < f.Start+f.Width && t < len(e.Tokens); t++ {
-			toks = append(toks, e.Tokens[t].Text)
-		}
-		fmt.Fprintf(w, "  filter %-4d width %d  %+.3f  window %q\n", f.Filter, f.Width, f.Contribution[class], strings.Join(toks, " "))
+		fmt.Fprintf(w, "  filter %-4d width %d  %+.3f (%+.3f)  window %q\n", f.Filter, f.Width, s.Filters[i], s.FilterBias[i],
+			strings.Join(tokenTexts(e, f.Start, f.Width, nil), " "))
 	}
+}
+
+// writeKeptDown lists the windows that would have won their filter but for
+// the tokens in brackets, with the estimated and the measured change of the
+// log-odds when those tokens are replaced by padding.
+func writeKeptDown(w io.Writer, e *explain.Explanation) {
+	if len(e.KeptDown) == 0 {
+		return
+	}
+	fmt.Fprintf(w, "windows kept down by the [tokens] in them (change of log p(%s)/p(%s) had the window won without them; measured without them):\n",
+		e.Label, e.Labels[e.RunnerUp])
+	for _, kd := range e.KeptDown {
+		fmt.Fprintf(w, "  filter %-4d width %d  %q  estimate %+.3f, measured %+.3f (p(%s) falls by %+.3f)\n", kd.Filter, kd.Width,
+			strings.Join(tokenTexts(e, kd.Start, kd.Width, kd.By), " "), kd.Effect, kd.LogOdds-e.LogOdds.Value, e.Label, kd.Drop)
+	}
+}
+
+// tokenTexts are the texts of the width tokens from start (none past the
+// text's end), those at the positions in marked in brackets.
+func tokenTexts(e *explain.Explanation, start, width int, marked []int) []string {
+	out := make([]string, 0, width)
+	for t := start; t < start+width && t < len(e.Tokens); t++ {
+		s := e.Tokens[t].Text
+		if slices.Contains(marked, t) {
+			s = "[" + s + "]"
+		}
+		out = append(out, s)
+	}
+	return out
 }

@@ -5,6 +5,8 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"math"
+	"slices"
 	"strings"
 
 	"telltale/cnn"
@@ -15,14 +17,21 @@ import (
 var cmdFaithfulness = &command{
 	Name:      "faithfulness",
 	UsageLine: "faithfulness --model MODEL (--data FILE | --test FILE) [--limit N] [--json]",
-	Short:     "measure how faithful each attribution method is on this model (comprehensiveness, sufficiency, AOPC)",
+	Short:     "measure how faithful each attribution method is on this model (comprehensiveness, sufficiency, AOPC), with intervals and paired tests",
 	Long: `Faithfulness removes each text's most important tokens by every attribution
-method (and by a random ranking, as a control) and measures what the model then
-does: comprehensiveness and sufficiency (DeYoung et al. 2020) at several shares
-of tokens, and the area over the deletion curve (Samek et al. 2017). Higher
+method (and by a random ranking averaged over several draws, as a control) and
+measures what the model then does: comprehensiveness and sufficiency (DeYoung
+et al. 2020) at several shares of tokens, and the area over the deletion curve
+(Samek et al. 2017). Each method ranks the tokens by an identified score (the
+exact share or integrated gradients of the log-odds of the predicted label
+against the runner-up, or occlusion), ties broken at random. Higher
 comprehensiveness and AOPC and lower sufficiency mean a method you can trust
-more on this model. The texts are found as eval finds them: --test FILE, or
-the test split of the model's own --data, or all of other data.`,
+more on this model. Every figure has a 95% bootstrap interval over the texts,
+and every two methods are compared text by text (Wilcoxon signed-rank test).
+Removing one token is what occlusion measures, so it is best there by
+construction: those removals are reported apart and left out of the
+aggregates. The texts are found as eval finds them: --test FILE, or the test
+split of the model's own --data, or all of other data.`,
 	Options: func() options { return new(faithOptions) },
 	Run:     runAs(runFaithfulness),
 }
@@ -97,22 +106,90 @@ func runFaithfulness(ctx context.Context, env *runEnv, o *faithOptions) error {
 }
 
 func writeFaith(w io.Writer, r *explain.FaithReport) {
-	fmt.Fprintf(w, "faithfulness over %d texts (model accuracy %.4f)\n", r.Texts, r.Accuracy)
+	acc := "no gold labels"
+	if !math.IsNaN(r.Accuracy) {
+		acc = fmt.Sprintf("model accuracy %.4f", r.Accuracy)
+	}
+	fmt.Fprintf(w, "faithfulness over %d texts (%s); 95%% bootstrap intervals over the texts (%d resamples); the random ranking averaged over %d draws\n",
+		r.Texts, acc, r.Resamples, r.Draws)
 	fmt.Fprintln(w, "higher comprehensiveness and AOPC, lower sufficiency: the more faithful method")
-	fmt.Fprintf(w, "\n%-10s  %8s  %8s  %8s\n", "method", "compr.", "suff.", "AOPC")
+	fmt.Fprintf(w, "\nremovals of two or more tokens (texts: %s)\n", aggregateTexts(r))
+	fmt.Fprintf(w, "%-10s  %-26s  %-26s  %s\n", "method", "compr.", "suff.", "AOPC")
 	for _, mf := range r.Methods {
-		fmt.Fprintf(w, "%-10s  %8.4f  %8.4f  %8.4f\n", mf.Method, mf.Comp, mf.Suff, mf.AOPC)
+		fmt.Fprintf(w, "%-10s  %-26s  %-26s  %s\n", mf.Method, withCI(mf.Comp, mf.CompCI), withCI(mf.Suff, mf.SuffCI), withCI(mf.AOPC, mf.AOPCCI))
 	}
-	fmt.Fprintf(w, "\nby share of tokens removed (%%): %v\n", r.Percents)
+	fmt.Fprintf(w, "\nthe top token alone (all texts; occlusion is best here by construction)\n%-10s  %-26s  %s\n", "method", "compr.", "suff.")
 	for _, mf := range r.Methods {
-		fmt.Fprintf(w, "%-10s  compr. %s\n%-10s  suff.  %s\n", mf.Method, floats(mf.Comprehensiveness), "", floats(mf.Sufficiency))
+		fmt.Fprintf(w, "%-10s  %-26s  %s\n", mf.Method, withCI(mf.Top1Comp, mf.Top1CompCI), withCI(mf.Top1Suff, mf.Top1SuffCI))
 	}
+	fmt.Fprintf(w, "\nby share of tokens removed (%%): %v (texts where it is one token are left out)\n", r.Percents)
+	for _, mf := range r.Methods {
+		fmt.Fprintf(w, "%-10s  compr. %s\n%-10s  suff.  %s\n%-10s  texts  %s\n", mf.Method, floats(mf.Comprehensiveness), "", floats(mf.Sufficiency),
+			"", intList(mf.PercentTexts))
+	}
+	if len(r.Pairs) > 0 {
+		fmt.Fprintln(w, "\nmethods compared text by text: mean of A − B with its interval, Wilcoxon signed-rank p")
+	}
+	for _, pr := range r.Pairs {
+		fmt.Fprintf(w, "%-10s − %-10s %-5s %-26s p %s  (%d texts)\n", pr.A, pr.B, pr.Measure, withCI(pr.Diff, pr.DiffCI), pEquals(pr.P), pr.Texts)
+	}
+}
+
+// aggregateTexts lists each method's texts behind the aggregates (the
+// same for all methods but the random control's, which ranks the same
+// texts).
+func aggregateTexts(r *explain.FaithReport) string {
+	parts := make([]string, len(r.Methods))
+	for i, mf := range r.Methods {
+		parts[i] = fmt.Sprint(mf.AggregateTexts)
+	}
+	return strings.Join(slices.Compact(parts), ", ")
+}
+
+// pEquals is "= p" or "< bound".
+func pEquals(p float64) string {
+	s := pvalue(p)
+	if strings.HasPrefix(s, "<") {
+		return s
+	}
+	return "= " + s
+}
+
+// withCI writes a figure and its interval, "–" when there is none.
+func withCI(v float64, ci explain.Interval) string {
+	if math.IsNaN(v) {
+		return "–"
+	}
+	return fmt.Sprintf("%+.4f [%+.4f, %+.4f]", v, ci.Low, ci.High)
+}
+
+// pvalue writes a p-value with two significant digits; one that
+// underflows the normal approximation's float64 tail is written as a bound.
+func pvalue(p float64) string {
+	switch {
+	case math.IsNaN(p):
+		return "–"
+	case p == 0:
+		return "< 1e-300"
+	}
+	return fmt.Sprintf("%.2g", p)
 }
 
 func floats(xs []float64) string {
 	parts := make([]string, len(xs))
 	for i, x := range xs {
-		parts[i] = fmt.Sprintf("%.4f", x)
+		parts[i] = fmt.Sprintf("%7.4f", x)
+		if math.IsNaN(x) {
+			parts[i] = fmt.Sprintf("%7s", "–")
+		}
+	}
+	return strings.Join(parts, " ")
+}
+
+func intList(xs []int) string {
+	parts := make([]string, len(xs))
+	for i, x := range xs {
+		parts[i] = fmt.Sprintf("%7d", x)
 	}
 	return strings.Join(parts, " ")
 }

@@ -4,6 +4,10 @@ import (
 	"context"
 	"flag"
 	"fmt"
+	"io"
+	"math"
+	"slices"
+	"strings"
 	"sync"
 
 	"telltale/corpus"
@@ -15,15 +19,22 @@ import (
 var cmdFilters = &command{
 	Name:      "filters",
 	UsageLine: "filters --model MODEL --data FILE [--top K] [--filters 3,17] [--json]",
-	Short:     "profile every filter over a corpus: top n-grams, slot words, families, purity threshold",
-	Long: `Filters runs the model once over every text of --data and describes each
-filter: the class it votes for, the n-grams that win its max pooling most
-strongly (with the score of every slot), the words that switch each slot on
-(triggers) and off (suppressors), the families its strong n-grams fall into,
-its activation histogram and the purity threshold of Jacovi, Sar Shalom and
-Goldberg (2018). Filters with almost nothing above that threshold are marked
-idle. Filters are numbered from 0, as in every command; --filters shows only
-those listed.`,
+	Short:     "profile every filter over a corpus: selectivity, top and negative n-grams, families, slot words",
+	Long: `Filters runs the model over every text of --data and describes each filter:
+the class it votes for and by how much; its selectivity threshold, the lowest
+activation above which its winning windows come from texts the model assigns
+that class at least --selectivity of the way from the class's base rate to all
+of them (after Jacovi, Sar Shalom and Goldberg 2018), chosen on one half of the
+texts and tested on the other with a one-sided exact binomial test,
+Holm-corrected over the filters at --alpha (filters that fail are not
+selective); the n-grams that win its max pooling most strongly (with the score
+of every slot); its negative n-grams, windows whose positive slots would pass
+the threshold but whose negative slots hold them below it; the families its
+windows above the threshold fall into, with their share and stability; the
+words that switch each slot on (triggers) and off (suppressors); and its
+activation histogram (in --json). The file is read twice when a filter's
+negative n-grams need a second search. Filters are numbered from 0, as in every
+command; --filters shows only those listed.`,
 	Options: func() options { return new(filtersOptions) },
 	Run:     runAs(runFilters),
 }
@@ -32,7 +43,7 @@ type filtersOptions struct {
 	model, data, filters, export string
 	read                         readOptions
 	top                          int
-	purity                       float64
+	selective, alpha             float64
 	threads                      threadsOption
 	asJSON, quiet                bool
 
@@ -43,18 +54,22 @@ func (o *filtersOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.model, "model", "", "model file written by train")
 	fs.StringVar(&o.data, "data", "", "the corpus to profile the filters on (usually the training file)")
 	o.read.register(fs, true)
-	intVar(fs, &o.top, "top", 10, "n-grams shown per filter (1 or more)")
+	intVar(fs, &o.top, "top", 10, "n-grams, negative n-grams and slot words shown per filter (1 or more)")
 	fs.StringVar(&o.filters, "filters", "", "show only these filters: indexes from 0, comma-separated (default: all)")
-	floatVar(fs, &o.purity, "purity", 0.5, "share of the purity threshold, in (0, 1]")
+	floatVar(fs, &o.selective, "selectivity", 0.5, "how far from the class's base rate toward all of a filter's windows being of its class the threshold asks, in (0, 1)")
+	floatVar(fs, &o.alpha, "alpha", 0.05, "level of the selectivity test, in (0, 1)")
 	o.threads.register(fs)
-	fs.StringVar(&o.export, "export", "", "also write the top n-grams of every filter to this .csv or .jsonl file")
+	fs.StringVar(&o.export, "export", "", "also write the top and negative n-grams and the families of every filter to this .csv or .jsonl file")
 	fs.BoolVar(&o.asJSON, "json", false, "print the profiles as one JSON object")
 	fs.BoolVar(&o.quiet, "quiet", false, "no progress bar or warnings")
 }
 
 func (o *filtersOptions) check(fs *flag.FlagSet, env *runEnv) error {
-	if o.purity <= 0 || o.purity > 1 {
-		return usagef("--purity %g: a share between 0 (exclusive) and 1", o.purity)
+	if !(o.selective > 0 && o.selective < 1) {
+		return usagef("--selectivity %g: a share between 0 and 1 (both exclusive)", o.selective)
+	}
+	if !(o.alpha > 0 && o.alpha < 1) {
+		return usagef("--alpha %g: a level between 0 and 1 (both exclusive)", o.alpha)
 	}
 	var err error
 	if o.only, err = listInts("filters", o.filters, 0, "a filter index (0 or more)"); err != nil {
@@ -89,12 +104,28 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 			}
 		}
 	}
-	// The corpus is streamed: only a few texts are held at once.
-	next, stop := streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
+	// The corpus is streamed: only a few texts are held at once. The
+	// negative n-gram search may read it again (Reopen).
+	stream := func() (explain.TextSource, func()) {
+		return streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
+	}
+	next, stop := stream()
 	defer stop()
+	var stopAgain func()
+	defer func() {
+		if stopAgain != nil {
+			stopAgain()
+		}
+	}()
 	bar := newProgressBar(env.Stderr, o.quiet)
 	prof, err := explain.ProfileStream(ctx, m, next, explain.ProfileOptions{
-		TopK: o.top, Purity: o.purity, Workers: o.threads.N,
+		TopK: o.top, Negatives: o.top, Selective: o.selective, Alpha: o.alpha, Workers: o.threads.N,
+		Reopen: func() (explain.TextSource, error) {
+			bar.note("reading the texts again for the negative n-grams")
+			var again explain.TextSource
+			again, stopAgain = stream()
+			return again, nil
+		},
 		Progress: func(done, _ int) { bar.note(fmt.Sprintf("profiling filters: %d texts", done)) },
 	})
 	bar.done()
@@ -116,7 +147,152 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 	if o.asJSON {
 		return writeJSON(env.Stdout, prof)
 	}
-	return prof.WriteText(env.Stdout, o.top)
+	return writeProfiles(env.Stdout, prof, o.top)
+}
+
+// writeProfiles writes the profiles for a reader: a header, then every
+// filter with at most top n-grams, negative n-grams and slot words.
+func writeProfiles(w io.Writer, p *explain.Profiles, top int) error {
+	ew := &errWriter{w: w}
+	sel, masked := 0, 0
+	for i := range p.Filters {
+		switch f := &p.Filters[i]; {
+		case f.Masked:
+			masked++
+		case f.Selectivity.Selective:
+			sel++
+		}
+	}
+	ew.printf("%d filters profiled over %d texts: %d selective, %d not selective", len(p.Filters), p.Texts, sel, len(p.Filters)-sel-masked)
+	if masked > 0 {
+		ew.printf(", %d masked", masked)
+	}
+	ew.printf(".\nA filter's threshold is chosen on %d texts: above it, its winning windows come from texts assigned its class %.2f of the way\n"+
+		"from the class's base rate to all of them. On the other %d texts that share is measured and tested against the base rate\n"+
+		"(one-sided exact binomial test, Holm-corrected over the filters, α = %g).\n", p.Halves[0], p.Selective, p.Halves[1], p.Alpha)
+	for i := range p.Filters {
+		writeFilter(ew, p, &p.Filters[i], top)
+	}
+	return ew.err
+}
+
+func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, top int) {
+	state := ""
+	switch {
+	case f.Masked:
+		state = "  [masked]"
+	case !f.Selectivity.Selective:
+		state = "  [not selective]"
+	}
+	votes := make([]string, len(f.CentredVotes))
+	for c, v := range f.CentredVotes {
+		votes[c] = fmt.Sprintf("%s %+.3f", p.Labels[c], v)
+	}
+	ew.printf("\nfilter %d  width %d  votes %s by %.3f (centred votes: %s)  fired in %d of %d texts, max %.3f%s\n",
+		f.Filter, f.Width, f.Label, f.Margin, strings.Join(votes, ", "), f.Fired, p.Texts, f.MaxActivation, state)
+	ew.printf("  %s\n", selectivityLine(&f.Selectivity, f.Label))
+	if len(f.TopNgrams) > 0 {
+		ew.printf("  top n-grams (activation, texts it wins in, slot scores):\n")
+	}
+	for _, n := range f.TopNgrams[:min(top, len(f.TopNgrams))] {
+		ew.printf("    %8.3f  ×%-5d %s\n", n.Activation, n.Count, slotString(n.Tokens, n.Slots, nil))
+	}
+	writeNegatives(ew, f, top)
+	if len(f.Families) > 0 {
+		ew.printf("  families (from a sample of %d of the %d windows above the threshold; share of those windows, stability):\n",
+			f.FamilySample, f.Selectivity.Above)
+	}
+	for _, fam := range f.Families {
+		stab := "-"
+		if fam.Stability != nil {
+			stab = fmt.Sprintf("%.2f", *fam.Stability)
+		}
+		ngrams := "1 n-gram"
+		if fam.Ngrams != 1 {
+			ngrams = fmt.Sprintf("%d n-grams", fam.Ngrams)
+		}
+		ew.printf("    %-36s %3.0f%% [%.0f%%, %.0f%%]  stability %s  (%s, about %d texts)\n",
+			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, ngrams, fam.Count)
+	}
+	for _, s := range f.Slots {
+		ew.printf("  slot %d  on: %s\n          off: %s\n", s.Slot, scoreList(s.Triggers, top), scoreList(s.Suppressors, top))
+	}
+}
+
+// writeNegatives lists a filter's negative n-grams, the tokens at their
+// negative slots in brackets.
+func writeNegatives(ew *errWriter, f *explain.FilterProfile, top int) {
+	if math.IsInf(f.Selectivity.Threshold, 1) {
+		return
+	}
+	note := ""
+	if !f.NegativesExact {
+		note = "; the search was incomplete: others may be missing and the counts short"
+	}
+	if len(f.Negatives) == 0 {
+		ew.printf("  no negative n-grams%s\n", note)
+		return
+	}
+	ew.printf("  negative n-grams, kept below the threshold by the [words] at their negative slots (held down by, score without them → with, windows%s):\n", note)
+	for _, n := range f.Negatives[:min(top, len(f.Negatives))] {
+		ew.printf("    %8.3f  %.3f → %.3f  ×%-5d %s\n", n.HeldDown, n.Positive, n.Activation, n.Count, slotString(n.Tokens, n.Slots, n.NegativeSlots))
+	}
+}
+
+// selectivityLine describes a filter's threshold and its held-out test.
+func selectivityLine(s *explain.Selectivity, label string) string {
+	verdict := "not selective"
+	if s.Selective {
+		verdict = "selective"
+	}
+	if math.IsInf(s.Threshold, 0) {
+		return fmt.Sprintf("no threshold: no activation reaches purity %.2f for %s on the choosing half: not selective", s.Target, label)
+	}
+	thr := fmt.Sprintf("%.3f", s.Threshold)
+	if !s.ThresholdExact {
+		thr = "≈" + thr
+	}
+	if s.Windows == 0 {
+		return fmt.Sprintf("threshold %s (%d windows above): no held-out window above it: %s", thr, s.Above, verdict)
+	}
+	return fmt.Sprintf("threshold %s (%d windows above); held out: %d of %d in %s = %.2f [%.2f, %.2f] against a base rate of %.2f, p = %.2g (Holm %.2g): %s",
+		thr, s.Above, s.InClass, s.Windows, label, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm, verdict)
+}
+
+// slotString writes each token with its slot score, those at the slots in
+// marked in brackets.
+func slotString(tokens []string, slots []float64, marked []int) string {
+	parts := make([]string, len(tokens))
+	for s, t := range tokens {
+		if slices.Contains(marked, s) {
+			t = "[" + t + "]"
+		}
+		parts[s] = fmt.Sprintf("%s(%+.2f)", t, slots[s])
+	}
+	return strings.Join(parts, " ")
+}
+
+func scoreList(ws []explain.WordScore, n int) string {
+	if len(ws) == 0 {
+		return "-"
+	}
+	parts := make([]string, 0, min(n, len(ws)))
+	for _, x := range ws[:min(n, len(ws))] {
+		parts = append(parts, fmt.Sprintf("%s %+.2f", x.Word, x.Score))
+	}
+	return strings.Join(parts, ", ")
+}
+
+// errWriter keeps the first write error and skips the writes after it.
+type errWriter struct {
+	w   io.Writer
+	err error
+}
+
+func (e *errWriter) printf(format string, args ...any) {
+	if e.err == nil {
+		_, e.err = fmt.Fprintf(e.w, format, args...)
+	}
 }
 
 // streamTexts reads a labeled file one example at a time (corpus.Stream) on

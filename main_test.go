@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -153,40 +154,70 @@ func TestTourContract(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("explain: exit %d: %s", code, stderr)
 	}
+	type shares struct {
+		Class      int       `json:"class"`
+		Against    int       `json:"against"`
+		Value      float64   `json:"value"`
+		OutputBias float64   `json:"output_bias"`
+		FilterBias []float64 `json:"filter_bias"`
+		Tokens     []float64 `json:"tokens"`
+	}
 	var ex struct {
 		Tokens []struct {
 			Text       string `json:"text"`
 			Start, End int
 		} `json:"tokens"`
 		Label         string    `json:"label"`
+		Class         int       `json:"class"`
+		RunnerUp      int       `json:"runner_up"`
 		Probabilities []float64 `json:"probabilities"`
-		Logits        []float64 `json:"logits"`
-		Bias          []float64 `json:"bias"`
+		LogOdds       shares    `json:"log_odds"`
+		Centred       []shares  `json:"centred"`
 		Attributions  struct {
-			Exact     [][]float64 `json:"exact"`
-			Occlusion []float64   `json:"occlusion"`
+			Occlusion []float64 `json:"occlusion"`
 		} `json:"attributions"`
+		Logits []float64 `json:"logits"`
 	}
 	if err := json.Unmarshal([]byte(out), &ex); err != nil {
 		t.Fatal(err)
 	}
-	if len(ex.Tokens) == 0 || len(ex.Attributions.Exact) != len(ex.Tokens) || len(ex.Attributions.Occlusion) != len(ex.Tokens) {
-		t.Fatalf("explain: %d tokens, %d exact rows, %d occlusion values", len(ex.Tokens), len(ex.Attributions.Exact), len(ex.Attributions.Occlusion))
+	if len(ex.Tokens) == 0 || len(ex.LogOdds.Tokens) != len(ex.Tokens) || len(ex.Attributions.Occlusion) != len(ex.Tokens) || len(ex.Centred) != 5 {
+		t.Fatalf("explain: %d tokens, %d shares, %d occlusion values, %d centred logits", len(ex.Tokens), len(ex.LogOdds.Tokens), len(ex.Attributions.Occlusion), len(ex.Centred))
+	}
+	if ex.Logits != nil {
+		t.Errorf("explain --json gives the logits, which training does not pin down")
 	}
 	for _, tok := range ex.Tokens {
 		if !strings.EqualFold(text[tok.Start:tok.End], tok.Text) {
 			t.Errorf("token %q has offsets [%d,%d) = %q", tok.Text, tok.Start, tok.End, text[tok.Start:tok.End])
 		}
 	}
-	// The exact identity, through the command's JSON: bias + Σ shares = logit.
-	for c := range ex.Logits {
-		sum := ex.Bias[c]
-		for i := range ex.Tokens {
-			sum += ex.Attributions.Exact[i][c]
+	// The exact identity, through the command's JSON: output bias + filter
+	// biases + token shares = the log-odds, which is log p(label)/p(runner-up)
+	// of the probabilities given; the same for every centred logit, which add
+	// up to zero.
+	var centredSum float64
+	for j, s := range append([]shares{ex.LogOdds}, ex.Centred...) {
+		sum := s.OutputBias
+		for _, v := range s.FilterBias {
+			sum += v
 		}
-		if d := sum - ex.Logits[c]; d > 1e-4 || d < -1e-4 {
-			t.Errorf("class %d: bias + shares = %v, logit %v", c, sum, ex.Logits[c])
+		for _, v := range s.Tokens {
+			sum += v
 		}
+		if d := sum - s.Value; d > 1e-4 || d < -1e-4 {
+			t.Errorf("quantity %d (class %d against %d): parts add up to %v, value %v", j, s.Class, s.Against, sum, s.Value)
+		}
+		if j > 0 {
+			centredSum += s.Value
+		}
+	}
+	lo := math.Log(ex.Probabilities[ex.Class] / ex.Probabilities[ex.RunnerUp])
+	if d := lo - ex.LogOdds.Value; d > 1e-4 || d < -1e-4 || ex.LogOdds.Class != ex.Class || ex.LogOdds.Against != ex.RunnerUp {
+		t.Errorf("log-odds %v of %d against %d; the probabilities give %v of %d against %d", ex.LogOdds.Value, ex.LogOdds.Class, ex.LogOdds.Against, lo, ex.Class, ex.RunnerUp)
+	}
+	if centredSum > 1e-6 || centredSum < -1e-6 {
+		t.Errorf("centred logits add up to %v", centredSum)
 	}
 }
 
@@ -216,7 +247,9 @@ func TestMisuseExitsTwo(t *testing.T) {
 		{[]string{"explain", "--model", model, "--text", "  "}, "--text is empty"},
 		{[]string{"explain", "--model", model, "--text", "lost bag", "--method", "occlusion", "--class", "praise"}, "occlusion measures the predicted class only"},
 		{[]string{"explain", "--model", model, "--text", "lost bag", "--windows", "0"}, "widths are 1 or more"},
-		{[]string{"filters", "--model", model, "--data", data, "--purity", "7"}, "--purity 7"},
+		{[]string{"filters", "--model", model, "--data", data, "--selectivity", "7"}, "--selectivity 7"},
+		{[]string{"filters", "--model", model, "--data", data, "--alpha", "0"}, "--alpha 0"},
+		{[]string{"explain", "--model", model, "--text", "lost bag", "--kept-down", "-1"}, "--kept-down -1"},
 		{[]string{"eval", "--model", model, "--data", data, "--bins", "-3"}, "--bins -3"},
 		{[]string{"faithfulness", "--model", model, "--data", data, "--limit", "-5"}, "--limit -5"},
 		{[]string{"data", "--data", data, "--relabel", "spm=junk"}, `has no label "spm"`},

@@ -31,11 +31,9 @@
 // runner-up (the default view, Explanation.LogOdds) and each class's
 // centred logit, its logit minus the mean over classes (the per-class
 // view, Explanation.Centred). Both are contrasts of logits whose class
-// weights sum to zero. The per-class logit shares kept for compatibility
-// (Attributions.Exact, Bias, FiredFilter.Contribution, Attributions.IG,
-// FilterProfile.Votes, TokenScores, WriteColored) are marked "Deprecated:
-// not identified"; a property test asserts that every shown number is
-// invariant under such shifts.
+// weights sum to zero. The logits themselves, the shares of one class's
+// logit and a filter's raw output-weight column are not given; a property
+// test asserts that every number given is invariant under such shifts.
 //
 // # Why a text got its label
 //

@@ -10,9 +10,11 @@ import (
 // A one-filter model: the bigram filter scores "not" negatively in its first
 // slot and "good" positively in its second, and votes for class "pos". The
 // winning window is "not good" (0.5 − 2 + 3 = 1.5), so the logits are ∓1.5
-// and split into a bias part ∓0.5 plus the shares −2 ("not") and +3 (the
-// second "good"). Occluding "not" lets "PAD good" win with 3.5, which raises
-// p(pos) from σ(3) to σ(7): a negative drop of 0.952574 − 0.999089.
+// and the log-odds of pos against neg is 3. The filter's vote for pos over
+// neg is 1 − (−1) = 2, so that splits into 2·0.5 = 1 for the filter's bias
+// and the shares 2·(−2) = −4 ("not") and 2·3 = +6 (the second "good").
+// Occluding "not" lets "PAD good" win with 3.5, which raises p(pos) from
+// σ(3) to σ(7): a negative drop of 0.952574 − 0.999089.
 func ExampleExplain() {
 	m := &cnn.Model{
 		Config: cnn.Config{VocabSize: 4, Dim: 2, Widths: []int{2}, Filters: 1, Classes: 2},
@@ -26,15 +28,15 @@ func ExampleExplain() {
 	}
 	ids := []int32{3, 2, 3} // good not good
 	e, _ := explain.Explain(m, nil, ids, explain.ExplainOptions{Occlusion: true})
-	fmt.Printf("label %s, logits %.2f, bias %.2f\n", e.Label, e.Logits, e.Bias)
+	fmt.Printf("label %s, log p(pos)/p(neg) %.2f, filter bias part %.2f\n", e.Label, e.LogOdds.Value, e.LogOdds.FilterBias)
 	for i, t := range e.Tokens {
-		fmt.Printf("%-4s share[pos] %+.2f  occlusion %+.3f\n", t.Text, e.Attributions.Exact[i][1], e.Attributions.Occlusion[i])
+		fmt.Printf("%-4s share %+.2f  occlusion %+.3f\n", t.Text, e.LogOdds.Tokens[i], e.Attributions.Occlusion[i])
 	}
 	// Output:
-	// label pos, logits [-1.50 1.50], bias [-0.50 0.50]
-	// good share[pos] +0.00  occlusion +0.000
-	// not  share[pos] -2.00  occlusion -0.047
-	// good share[pos] +3.00  occlusion +0.222
+	// label pos, log p(pos)/p(neg) 3.00, filter bias part [1.00]
+	// good share +0.00  occlusion +0.000
+	// not  share -4.00  occlusion -0.047
+	// good share +6.00  occlusion +0.222
 }
 
 // The same model and text, split into identified shares: the log-odds of

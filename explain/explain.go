@@ -13,29 +13,20 @@ import (
 // Centred) up to float rounding, and the occlusion values are what
 // re-predicting the edited text gives.
 //
-// The identified numbers, the ones to show, are Probabilities, LogOdds,
-// Centred, Integrated, the occlusion drops, KeptDown and, per fired filter,
-// its activation and slot scores. Logits, Bias, Attributions.Exact,
-// Attributions.IG and FiredFilter.Contribution depend on a constant that
-// training does not pin down (see Shares).
+// Every number in it is identified: Probabilities, LogOdds, Centred,
+// Integrated, the occlusion drops, KeptDown and, per fired filter, its
+// activation and slot scores. The logits themselves are not given: adding
+// the same number to every class's output bias, or to every class's output
+// weight on one filter, changes no probability but shifts every logit and
+// every share of one class's logit (see Shares).
 type Explanation struct {
-	Tokens        []TokenSpan `json:"tokens"`
-	Label         string      `json:"label"`
-	Class         int         `json:"class"`
-	Labels        []string    `json:"labels"`
-	Probabilities []float64   `json:"probabilities"`
-	// Logits are the model's logits.
-	//
-	// Deprecated: not identified (adding a constant to every class's output
-	// bias shifts them all); show LogOdds.Value or Centred[c].Value.
-	Logits []float64 `json:"logits"`
-	// Bias[c] = OutB[c] + Σ_{g fired} OutW[c][g]·B_g.
-	//
-	// Deprecated: not identified; LogOdds and Centred split it into
-	// OutputBias and FilterBias.
-	Bias         []float64     `json:"bias"`
-	Attributions Attributions  `json:"attributions"`
-	Filters      []FiredFilter `json:"filters"`
+	Tokens        []TokenSpan   `json:"tokens"`
+	Label         string        `json:"label"`
+	Class         int           `json:"class"`
+	Labels        []string      `json:"labels"`
+	Probabilities []float64     `json:"probabilities"`
+	Attributions  Attributions  `json:"attributions"`
+	Filters       []FiredFilter `json:"filters"`
 
 	// RunnerUp is the class with the largest logit after Class.
 	RunnerUp int `json:"runner_up"`
@@ -52,6 +43,10 @@ type Explanation struct {
 	// would have won their filter but for their negative slots (see
 	// KeptDownWindow), largest |Effect| first.
 	KeptDown []KeptDownWindow `json:"kept_down,omitempty"`
+
+	// logits are the model's logits in float64, which the identified
+	// quantities are contrasts of.
+	logits []float64
 }
 
 // TokenSpan is one token of the explained text. Start and End are byte
@@ -63,14 +58,10 @@ type TokenSpan struct {
 	ID    int32  `json:"id"`
 }
 
-// Attributions holds one map of the text per method.
+// Attributions holds the occlusion measurements of the text (the shares
+// and integrated gradients are in Explanation.LogOdds, Centred and
+// Integrated).
 type Attributions struct {
-	// Exact[i][c] is token i's exact additive share of logit c.
-	//
-	// Deprecated: not identified (adding k to every class's output weight on
-	// a filter shifts it by k times the slot score); use
-	// Explanation.LogOdds.Tokens or Explanation.Centred[c].Tokens.
-	Exact [][]float64 `json:"exact"`
 	// Occlusion[i] = p(ŷ|x) − p(ŷ|x with token i replaced by PAD), ŷ the
 	// predicted class: positive when the token supported the prediction.
 	Occlusion []float64 `json:"occlusion,omitempty"`
@@ -79,17 +70,6 @@ type Attributions struct {
 	// Windows holds the occlusion of every n-gram window of the widths asked
 	// for in ExplainOptions.OcclusionWidths.
 	Windows []SpanOcclusion `json:"windows,omitempty"`
-	// IG[i][c] is token i's integrated-gradients attribution to logit c.
-	//
-	// Deprecated: not identified; use Explanation.Integrated.
-	IG [][]float64 `json:"ig,omitempty"`
-	// IGGap[c] = Σ_i IG[i][c] − (logit_c(x) − logit_c(PAD baseline)): float
-	// rounding for the closed form, the error of a Riemann sum otherwise.
-	//
-	// Deprecated: not identified; use Explanation.Integrated.
-	IGGap []float64 `json:"ig_gap,omitempty"`
-	// IGSteps is 0 for the closed form, else the Riemann sum's steps.
-	IGSteps int `json:"ig_steps,omitempty"`
 }
 
 // SpanOcclusion is the effect of replacing tokens Start … End−1 with PAD.
@@ -110,17 +90,14 @@ type FiredFilter struct {
 	Slots      []float64 `json:"slots"` // slot scores: BiasTerm + Σ Slots = Activation
 	// Family is the index of the filter's family (in its Profile) whose
 	// centroid is nearest to Slots, or −1 without profiles or when the
-	// activation is below the filter's selectivity threshold.
+	// activation is below the filter's selectivity threshold. Its part of
+	// each identified quantity is in Explanation.LogOdds.Filters and
+	// Centred[c].Filters, at the filter's index in Explanation.Filters.
 	Family int `json:"family"`
-	// Contribution[c] = OutW[c][g]·Activation, the filter's part of logit c.
-	//
-	// Deprecated: not identified; use Explanation.LogOdds.Filters or
-	// Explanation.Centred[c].Filters.
-	Contribution []float64 `json:"contribution"`
 }
 
-// ExplainOptions selects the methods of Explain. Exact shares are always
-// computed.
+// ExplainOptions selects the methods of Explain. The identified shares
+// (LogOdds, Centred) are always computed.
 type ExplainOptions struct {
 	// Table is a prebuilt table of the model. Nil builds one over the
 	// text's own words (the cost of one direct convolution of the text).
@@ -164,7 +141,7 @@ func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOption
 	r.load(ids)
 	r.pool()
 	e := newExplanation(m, tokens, ids, &r.p)
-	exact(st, r, e, opt.Profiles)
+	firedFilters(st, r, e, opt.Profiles)
 	identifiedShares(m, e)
 	var o *occluder
 	if opt.Occlusion || len(opt.OcclusionWidths) > 0 || opt.KeptDown > 0 {
@@ -185,12 +162,13 @@ func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOption
 		}
 	}
 	if opt.IG {
+		var perClass [][]float64
 		if opt.IGSteps > 0 {
-			integratedGradients(r, e, opt.IGSteps)
+			perClass = integratedGradients(r, e, opt.IGSteps)
 		} else {
-			igExact(r, e)
+			perClass = igExact(r, e)
 		}
-		identifiedIG(r, e)
+		identifiedIG(r, e, perClass, opt.IGSteps)
 	}
 	if opt.KeptDown > 0 {
 		e.KeptDown = keptDown(r, e, o, opt.KeptDown)
@@ -239,7 +217,7 @@ func newExplanation(m *cnn.Model, tokens []corpus.Token, ids []int32, p *Pass) *
 	e := &Explanation{
 		Tokens: make([]TokenSpan, len(ids)),
 		Labels: labelNames(m),
-		Logits: logits64(m, p.Pooled),
+		logits: logits64(m, p.Pooled),
 	}
 	for i, id := range ids {
 		ts := TokenSpan{ID: id}
@@ -250,10 +228,10 @@ func newExplanation(m *cnn.Model, tokens []corpus.Token, ids []int32, p *Pass) *
 		}
 		e.Tokens[i] = ts
 	}
-	e.Probabilities = softmax64(e.Logits, make([]float64, C))
-	e.Class = argmax64(e.Logits)
+	e.Probabilities = softmax64(e.logits, make([]float64, C))
+	e.Class = argmax64(e.logits)
 	e.Label = e.Labels[e.Class]
-	e.RunnerUp = runnerUp(e.Logits, e.Class)
+	e.RunnerUp = runnerUp(e.logits, e.Class)
 	return e
 }
 
@@ -337,31 +315,18 @@ func argmax64(v []float64) int {
 	return best
 }
 
-// exact fills the exact additive attribution. With ReLU, 1-max pooling and a
-// linear head,
+// firedFilters lists the fired filters with their winning windows' slot
+// scores. With ReLU, 1-max pooling and a linear head,
 //
 //	logit[c] = OutB[c] + Σ_{g fired} OutW[c][g]·(B_g + Σ_s W_g[s]·Emb[x[t*_g+s]])
 //
-// so logit[c] = bias[c] + Σ_i share[i][c] with
-//
-//	bias[c]     = OutB[c] + Σ_{g fired} OutW[c][g]·B_g
-//	share[i][c] = Σ_{g fired, t*_g ≤ i < t*_g+w_g} OutW[c][g]·(W_g[i−t*_g]·Emb[x_i])
-//
-// where "fired" means pooled h_g > 0 and g not masked. Slots on PAD positions
-// past the text have zero embeddings and contribute nothing.
-func exact(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
+// where "fired" means pooled h_g > 0 and g not masked, so every contrast of
+// the logits splits exactly over the output biases, the fired filters'
+// biases and the slot scores of their winning windows (identifiedShares).
+// Slots on PAD positions past the text have zero embeddings and score zero.
+func firedFilters(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
 	m := st.m
-	C, nf := m.Config.Classes, m.Config.NumFilters()
-	L := len(e.Tokens)
-	share := make([][]float64, L)
-	flat := make([]float64, L*C)
-	for i := range share {
-		share[i] = flat[i*C : (i+1)*C]
-	}
-	bias := make([]float64, C)
-	for c := range bias {
-		bias[c] = float64(m.OutB[c])
-	}
+	nf := m.Config.NumFilters()
 	p := &r.p
 	for g := 0; g < nf; g++ {
 		h := p.Pooled[g]
@@ -374,27 +339,14 @@ func exact(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
 		t0 := int(p.Start[g])
 		ff := FiredFilter{
 			Filter: g, Width: w, Start: t0, Activation: float64(h),
-			BiasTerm: float64(tb.bias[f]), Slots: make([]float64, w),
-			Family: -1, Contribution: make([]float64, C),
+			BiasTerm: float64(tb.bias[f]), Slots: make([]float64, w), Family: -1,
 		}
 		for s := 0; s < w; s++ {
 			ff.Slots[s] = float64(r.rows[b][t0+s][s*F+f])
-		}
-		for c := 0; c < C; c++ {
-			ow := float64(m.OutW[c*nf+g])
-			bias[c] += ow * ff.BiasTerm
-			ff.Contribution[c] = ow * ff.Activation
-			for s := 0; s < w; s++ {
-				if i := t0 + s; i < L {
-					share[i][c] += ow * ff.Slots[s]
-				}
-			}
 		}
 		if prof != nil {
 			ff.Family = prof.familyOf(g, ff.Slots, ff.Activation)
 		}
 		e.Filters = append(e.Filters, ff)
 	}
-	e.Bias = bias
-	e.Attributions.Exact = share
 }

@@ -8,22 +8,17 @@ import (
 	"telltale/cnn"
 )
 
-// checkExact asserts the exact decomposition on one explanation:
-// Bias[c] + Σ_i Exact[i][c] equals the reference logit of cnn.Model.Forward,
-// and each fired filter's bias plus slot scores equals its activation.
+// checkExact asserts, on one explanation, what the identified shares are
+// built from (checkIdentities checks the shares themselves): the logits
+// and the predicted class equal those of the reference cnn.Model.Forward,
+// the fired filters are its positive pooled units, and each fired filter's
+// bias plus slot scores equals its activation.
 func checkExact(t *testing.T, m *cnn.Model, ids []int32, e *Explanation) {
 	t.Helper()
 	want := m.Forward(ids)
 	for c := range want.Logits {
-		sum := e.Bias[c]
-		for i := range e.Attributions.Exact {
-			sum += e.Attributions.Exact[i][c]
-		}
-		if !near(sum, float64(want.Logits[c]), 1e-4, 1e-5) {
-			t.Fatalf("text %v class %d: bias + shares = %.7g, forward logit %.7g", ids, c, sum, want.Logits[c])
-		}
-		if !near(e.Logits[c], float64(want.Logits[c]), 1e-4, 1e-5) {
-			t.Fatalf("class %d: logit %g, forward %g", c, e.Logits[c], want.Logits[c])
+		if !near(e.logits[c], float64(want.Logits[c]), 1e-4, 1e-5) {
+			t.Fatalf("class %d: logit %g, forward %g", c, e.logits[c], want.Logits[c])
 		}
 	}
 	if argmax32(want.Logits) != e.Class && math.Abs(float64(want.Logits[e.Class]-want.Logits[argmax32(want.Logits)])) > 1e-5 {
@@ -147,16 +142,30 @@ func TestIntegratedGradientsFiniteDifferences(t *testing.T) {
 			}
 			return float64(pm.Forward(pos).Logits[c])
 		}
+		// The identified quantities: the log-odds of the predicted class
+		// against the runner-up, then each class's centred logit.
+		C := m.Config.Classes
+		quantity := func(alpha float64, j int, eps float64, q int) float64 {
+			if q == 0 {
+				return logit(alpha, j, eps, e.Class) - logit(alpha, j, eps, e.RunnerUp)
+			}
+			var mean float64
+			for c := 0; c < C; c++ {
+				mean += logit(alpha, j, eps, c) / float64(C)
+			}
+			return logit(alpha, j, eps, q-1) - mean
+		}
+		ig := append([]IGShares{e.Integrated.LogOdds}, e.Integrated.Centred...)
 		const eps = 1e-4
-		for c := 0; c < m.Config.Classes; c++ {
+		for q := range ig {
 			for j := 0; j < L; j++ {
 				var want float64
 				for k := 1; k <= steps; k++ {
 					a := float64(k) / steps
-					want += 1.0 / steps * (logit(a, j, eps, c) - logit(a, j, -eps, c)) / (2 * eps)
+					want += 1.0 / steps * (quantity(a, j, eps, q) - quantity(a, j, -eps, q)) / (2 * eps)
 				}
-				if got := e.Attributions.IG[j][c]; !near(got, want, 2e-3, 1e-3) {
-					t.Errorf("trial %d token %d class %d: IG %.6g, finite differences %.6g", trial, j, c, got, want)
+				if got := ig[q].Tokens[j]; !near(got, want, 2e-3, 1e-3) {
+					t.Errorf("trial %d token %d quantity %d: IG %.6g, finite differences %.6g", trial, j, q, got, want)
 				}
 			}
 		}
@@ -173,9 +182,11 @@ func TestIntegratedGradientsCompleteness(t *testing.T) {
 		ids := randomText(rng, m.Config.VocabSize, 30)
 		few, _ := Explain(m, nil, ids, ExplainOptions{IG: true, IGSteps: 4})
 		many, _ := Explain(m, nil, ids, ExplainOptions{IG: true, IGSteps: 4000})
-		for c := range few.Attributions.IGGap {
-			gapFew += math.Abs(few.Attributions.IGGap[c])
-			gapMany += math.Abs(many.Attributions.IGGap[c])
+		gapFew += math.Abs(few.Integrated.LogOdds.Gap)
+		gapMany += math.Abs(many.Integrated.LogOdds.Gap)
+		for c := range few.Integrated.Centred {
+			gapFew += math.Abs(few.Integrated.Centred[c].Gap)
+			gapMany += math.Abs(many.Integrated.Centred[c].Gap)
 		}
 	}
 	if !(gapMany < gapFew/20) || gapMany > 0.05 {

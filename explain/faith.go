@@ -390,38 +390,6 @@ func Scores(e *Explanation, method string, class int) []float64 {
 	return nil
 }
 
-// TokenScores returns one score per token for the method and class:
-// the exact share or IG attribution to logit class, or the occlusion drop of
-// the predicted class (class is ignored for occlusion). It returns nil when
-// the explanation lacks the method.
-//
-// Deprecated: not identified for exact and ig (the shares of one class's
-// logit); use Scores.
-func TokenScores(e *Explanation, method string, class int) []float64 {
-	out := make([]float64, len(e.Tokens))
-	switch method {
-	case MethodExact:
-		for i, v := range e.Attributions.Exact {
-			out[i] = v[class]
-		}
-	case MethodIG:
-		if e.Attributions.IG == nil {
-			return nil
-		}
-		for i, v := range e.Attributions.IG {
-			out[i] = v[class]
-		}
-	case MethodOcclusion:
-		if e.Attributions.Occlusion == nil {
-			return nil
-		}
-		copy(out, e.Attributions.Occlusion)
-	default:
-		return nil
-	}
-	return out
-}
-
 // corpusWords lists the words used in ids, most frequent first.
 func corpusWords(m *cnn.Model, ids [][]int32) []int32 {
 	seen := make([]int, m.Config.VocabSize)

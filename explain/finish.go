@@ -16,7 +16,7 @@ func finishProfile(st *SlotTable, g, class int, accs []*filterAccs, counts []int
 	m := st.m
 	pr := FilterProfile{Filter: g, Width: m.FilterWidth(g), Masked: m.IsMasked(g), Class: class,
 		Label: labelNames(m)[class]}
-	pr.Votes, pr.CentredVotes, pr.Margin = filterVotes(m, g, class)
+	pr.CentredVotes, pr.Margin = filterVotes(m, g, class)
 	hist := make([]int, 4*fineBins)
 	var top []actEntry
 	dropped := false
@@ -73,12 +73,13 @@ func finishProfile(st *SlotTable, g, class int, accs []*filterAccs, counts []int
 	return pr
 }
 
-// filterVotes returns filter g's output-weight column, the column minus its
-// mean, and the margin of class over the next largest vote.
-func filterVotes(m *cnn.Model, g, class int) (votes, centred []float64, margin float64) {
+// filterVotes returns filter g's output-weight column minus its mean, and
+// the margin of class over the next largest vote: the identified parts of
+// the column (adding a constant to all of it changes neither).
+func filterVotes(m *cnn.Model, g, class int) (centred []float64, margin float64) {
 	nf := m.Config.NumFilters()
 	C := m.Config.Classes
-	votes, centred = make([]float64, C), make([]float64, C)
+	votes, centred := make([]float64, C), make([]float64, C)
 	var mean float64
 	second := math.Inf(-1)
 	for c := 0; c < C; c++ {
@@ -91,7 +92,7 @@ func filterVotes(m *cnn.Model, g, class int) (votes, centred []float64, margin f
 	for c := range centred {
 		centred[c] = votes[c] - mean
 	}
-	return votes, centred, votes[class] - second
+	return centred, votes[class] - second
 }
 
 // mergeNgrams adds a worker's top n-grams to merged.

@@ -200,11 +200,6 @@ func TestGoldenExplainJSON(t *testing.T) {
 		t.Fatal(err)
 	}
 	golden(t, "profiles.golden.json", roundJSON(t, pb))
-	var plain bytes.Buffer
-	if err := WriteColored(&plain, text, e, MethodExact, 1, false); err != nil {
-		t.Fatal(err)
-	}
-	golden(t, "paint.golden.txt", plain.Bytes())
 	var shares bytes.Buffer
 	for _, c := range []int{-1, 0, 1} {
 		if err := Paint(&shares, text, e, MethodExact, c, false); err != nil {

@@ -30,8 +30,8 @@ type IGResult struct {
 	Centred []IGShares `json:"centred"`
 }
 
-// igExact fills the raw per-class integrated gradients (Attributions.IG,
-// IGGap) in closed form.
+// igExact returns the per-class integrated gradients ig[i][c] in closed
+// form; identifiedIG turns them into the identified quantities.
 //
 // Along the path αE (α from 0 to 1) every window of filter g has the
 // pre-activation B_g + α·S_g[t], S_g[t] the sum of its slot scores. All these
@@ -49,7 +49,7 @@ type IGResult struct {
 // completeness, exactly. Filters that do not fire on the text but fire near
 // the baseline (B_g > 0, S* < 0) thus give their negative slot scores to
 // the tokens that switched them off.
-func igExact(r *Runner, e *Explanation) {
+func igExact(r *Runner, e *Explanation) [][]float64 {
 	st := r.st
 	m := st.m
 	C, nf := m.Config.Classes, m.Config.NumFilters()
@@ -86,9 +86,7 @@ func igExact(r *Runner, e *Explanation) {
 			}
 		}
 	}
-	e.Attributions.IG = ig
-	e.Attributions.IGSteps = 0
-	e.Attributions.IGGap = igGap(r, e, ig)
+	return ig
 }
 
 // switchedOn is the length of {α ∈ (0, 1] : b + α·s > 0}.
@@ -124,22 +122,8 @@ func baselineLogits(r *Runner) []float64 {
 	return base
 }
 
-// igGap is, per class, Σ_i IG_i[c] − (logit_c(x) − logit_c(baseline)).
-func igGap(r *Runner, e *Explanation, ig [][]float64) []float64 {
-	base := baselineLogits(r)
-	gap := make([]float64, len(base))
-	for c := range gap {
-		var sum float64
-		for i := range ig {
-			sum += ig[i][c]
-		}
-		gap[c] = sum - (e.Logits[c] - base[c])
-	}
-	return gap
-}
-
-// integratedGradients fills IG and IGGap with the right Riemann sum of the
-// paper, α_k = k/N for k = 1 … N (α = 0 is left out: there every window ties
+// integratedGradients returns the per-class integrated gradients
+// ig[i][c] as the right Riemann sum of the paper, α_k = k/N for k = 1 … N (α = 0 is left out: there every window ties
 // at B_g and the gradient is only a tie-break convention). At αE filter g
 // wins at window t*_g(α) (first maximum of B_g + α·S_g[t], S_g[t] the
 // window's slot-score sum) and, when that value is positive and g is not
@@ -148,7 +132,7 @@ func igGap(r *Runner, e *Explanation, ig [][]float64) []float64 {
 // for every fired filter, OutW times the slot scores of its winning window
 // at that α. It is kept as a check of the closed form (igExact), to which it
 // converges as N grows.
-func integratedGradients(r *Runner, e *Explanation, steps int) {
+func integratedGradients(r *Runner, e *Explanation, steps int) [][]float64 {
 	st := r.st
 	m := st.m
 	C, nf := m.Config.Classes, m.Config.NumFilters()
@@ -210,26 +194,24 @@ func integratedGradients(r *Runner, e *Explanation, steps int) {
 			}
 		}
 	}
-	e.Attributions.IG = ig
-	e.Attributions.IGSteps = steps
-	e.Attributions.IGGap = igGap(r, e, ig)
+	return ig
 }
 
-// identifiedIG fills e.Integrated from the per-class attributions in
-// e.Attributions.IG: integrated gradients are linear in the head, so the
-// attribution of a contrast v is Σ_c v_c·IG_i[c].
-func identifiedIG(r *Runner, e *Explanation) {
+// identifiedIG fills e.Integrated from the per-class attributions ig[i][c]
+// (steps 0 for the closed form): integrated gradients are linear in the
+// head, so the attribution of a contrast v is Σ_c v_c·ig[i][c].
+func identifiedIG(r *Runner, e *Explanation, ig [][]float64, steps int) {
 	m := r.st.m
 	base := baselineLogits(r)
 	ts := targets(m.Config.Classes, e.Class, e.RunnerUp)
-	res := &IGResult{Steps: e.Attributions.IGSteps}
+	res := &IGResult{Steps: steps}
 	L := len(e.Tokens)
 	flat := make([]float64, len(ts)*L)
 	for j, k := range ts {
-		s := IGShares{Class: k.class, Against: k.against, Value: k.dot(e.Logits), Baseline: k.dot(base)}
+		s := IGShares{Class: k.class, Against: k.against, Value: k.dot(e.logits), Baseline: k.dot(base)}
 		s.Tokens, flat = flat[:L:L], flat[L:]
 		var sum float64
-		for i, row := range e.Attributions.IG {
+		for i, row := range ig {
 			s.Tokens[i] = k.dot(row)
 			sum += s.Tokens[i]
 		}

@@ -118,7 +118,7 @@ func measureKeptDown(o *occluder, lo contrast, kd *KeptDownWindow) {
 	if len(kd.By) == 0 {
 		// A window can pass its filter's pooled value with no negative
 		// slot only through float rounding; nothing to replace.
-		kd.Pooled, kd.LogOdds = kd.Winner, lo.dot(o.e.Logits)
+		kd.Pooled, kd.LogOdds = kd.Winner, lo.dot(o.e.logits)
 		return
 	}
 	by := kd.By

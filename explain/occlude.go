@@ -24,8 +24,8 @@ func newOccluder(r *Runner, e *Explanation) *occluder {
 		acc:    make([]float32, st.m.Config.Filters),
 		newMax: make([]float32, st.m.Config.Filters),
 		pooled: make([]float32, st.m.Config.NumFilters()),
-		z:      make([]float64, len(e.Logits))}
-	o.logP = logSoftmax64(e.Logits, e.Class)
+		z:      make([]float64, len(e.logits))}
+	o.logP = logSoftmax64(e.logits, e.Class)
 	r.occPM, r.occSM = grow(r.occPM, len(st.banks)), grow(r.occSM, len(st.banks))
 	for b := range st.banks {
 		F := st.banks[b].filters
@@ -66,7 +66,7 @@ func (o *occluder) single(i int) {
 	st := r.st
 	m := st.m
 	nf := m.Config.NumFilters()
-	copy(o.z, o.e.Logits)
+	copy(o.z, o.e.logits)
 	copy(o.pooled, r.p.Pooled)
 	n := r.p.Len
 	for b := range st.banks {
@@ -118,7 +118,7 @@ func (o *occluder) apply(lo, hi int, keep func(i int) bool) {
 	st := r.st
 	m := st.m
 	nf := m.Config.NumFilters()
-	copy(o.z, o.e.Logits)
+	copy(o.z, o.e.logits)
 	copy(o.pooled, r.p.Pooled)
 	n := r.p.Len
 	for b := range st.banks {

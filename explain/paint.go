@@ -33,31 +33,6 @@ func ansi(i int, s string) string {
 	return fmt.Sprintf("\x1b[48;2;%d;%d;%dm\x1b[38;2;%sm%s\x1b[0m", c[0], c[1], c[2], fg, s)
 }
 
-// WriteColored paints the explained text by one method's token scores for
-// class (class is ignored for occlusion, which is about the predicted
-// class). With color, each token gets a 24-bit ANSI background on a
-// diverging scale normalised to the largest |score|; without, each token is
-// followed by its score, as in word[+0.42]. Text is the original text the
-// tokens' byte offsets point into; when it is empty or the offsets do not
-// fit it, the tokens are written separated by spaces. A legend line follows.
-//
-// Deprecated: not identified for exact and ig (it paints the shares of one
-// class's logit); use Paint.
-func WriteColored(w io.Writer, text string, e *Explanation, method string, class int, color bool) error {
-	if class < 0 || class >= len(e.Labels) {
-		return fmt.Errorf("explain: class %d: the model has classes 0…%d", class, len(e.Labels)-1)
-	}
-	scores := TokenScores(e, method, class)
-	if scores == nil {
-		return fmt.Errorf("explain: the explanation has no %q attributions: ask for it in ExplainOptions", method)
-	}
-	target := e.Labels[class]
-	if method == MethodOcclusion {
-		target = e.Label
-	}
-	return paintScores(w, text, e, scores, fmt.Sprintf("%s for %q", method, target), color)
-}
-
 // Paint paints the explained text by one method's identified token scores
 // (Scores): class −1 paints the shares of the log-odds of the predicted
 // class against the runner-up, a class from 0 the shares of its centred

@@ -5,7 +5,6 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
-	"math"
 	"runtime"
 	"slices"
 	"sync/atomic"
@@ -15,19 +14,25 @@ import (
 
 // ProfileOptions controls Profile. Zero values select the defaults.
 type ProfileOptions struct {
-	TopK      int     // n-grams reported per filter (default 10)
-	Examples  int     // example text indices kept per n-gram (default 3)
-	Purity    float64 // share p of the deprecated FilterProfile.Threshold (default 0.5)
-	Bins      int     // bins of the reported activation histogram (default 20)
-	ExactTop  int     // top activations per filter kept exactly for the threshold (default 4096)
-	Pool      int     // distinct top n-grams per filter kept for families (default 100)
-	SlotWords int     // trigger and suppressor words per slot (default 8)
-	MinCount  int     // minimum corpus count of a slot word (default 2)
+	TopK     int // n-grams reported per filter (default 10)
+	Examples int // example text indices kept per n-gram (default 3)
+	// Purity is the share p of the deprecated FilterProfile.Threshold
+	// (default 0.5).
+	//
+	// Deprecated: see FilterProfile.Threshold; Selective sets Selectivity.
+	Purity    float64
+	Bins      int // bins of the reported activation histogram (default 20)
+	ExactTop  int // top activations per filter kept exactly for the threshold (default 4096)
+	Pool      int // distinct top n-grams per filter kept for families (default 100)
+	SlotWords int // trigger and suppressor words per slot (default 8)
+	MinCount  int // minimum corpus count of a slot word (default 2)
 	// Counts gives each vocabulary word's count (e.g. corpus.Vocab.Counts);
 	// nil counts the words of the profiled texts.
 	Counts []int
 	// IdleShare: a filter is idle when fewer than max(5, IdleShare·texts)
 	// windows lie at or above its purity threshold (default 0.001).
+	//
+	// Deprecated: see FilterProfile.Threshold.
 	IdleShare float64
 	// FamilyCut is the average-linkage distance, as a share of the
 	// weighted mean slot-vector norm, above which clusters are not merged
@@ -97,7 +102,9 @@ type Profiles struct {
 	Texts  int      `json:"texts"`
 	Labels []string `json:"labels"`
 	// Purity is the share of the deprecated FilterProfile.Threshold.
-	Purity float64 `json:"purity"`
+	//
+	// Deprecated: see FilterProfile.Threshold.
+	Purity float64 `json:"-"`
 	// Halves counts the texts of the choosing and the held-out half (see
 	// Selectivity).
 	Halves [2]int `json:"halves"`
@@ -118,11 +125,6 @@ type FilterProfile struct {
 	Masked bool   `json:"masked"`
 	Class  int    `json:"class"` // the class the filter votes for: argmax_c OutW[c][g]
 	Label  string `json:"label"`
-	// Votes is the filter's output-weight column OutW[·][g].
-	//
-	// Deprecated: not identified (training leaves a constant added to the
-	// whole column free); use CentredVotes or Margin.
-	Votes []float64 `json:"votes"`
 	// CentredVotes[c] = OutW[c][g] − the column's mean: how much a unit of
 	// the filter's activation moves class c's centred logit.
 	CentredVotes []float64 `json:"centred_votes"`
@@ -132,25 +134,24 @@ type FilterProfile struct {
 	Fired         int     `json:"fired"` // texts whose winning window has a positive activation
 	MaxActivation float64 `json:"max_activation"`
 
-	// Threshold is the purity threshold of Jacovi, Sar Shalom & Goldberg
-	// (2018, "Understanding Convolutional Neural Networks for Text
-	// Classification", BlackboxNLP): the lowest activation a such that at
-	// least a share Purity of the fired winning windows with activation ≥ a
-	// come from texts assigned the filter's class. +Inf (JSON null) when no
-	// such a exists. ThresholdExact is false when the threshold fell below
-	// the ExactTop largest activations and was taken at a histogram bin edge.
+	// Threshold, ThresholdExact, Above, AbovePurity and Idle are the purity
+	// threshold of Jacovi, Sar Shalom & Goldberg (2018, "Understanding
+	// Convolutional Neural Networks for Text Classification", BlackboxNLP)
+	// taken at the share ProfileOptions.Purity of the fired winning windows
+	// over all texts (+Inf when none), whether it is exact or a histogram
+	// bin edge, the windows at or above it, their share from texts assigned
+	// Class, and whether fewer than max(5, IdleShare·texts) windows reach it
+	// (or the filter is masked). No view shows them and JSON leaves them
+	// out: they are not compared with the class's base rate, and they are
+	// chosen and measured on the same texts.
 	//
-	// Deprecated: not compared with the class's base rate and chosen and
-	// measured on the same texts; use Selectivity.
-	Threshold      float64 `json:"threshold"`
-	ThresholdExact bool    `json:"threshold_exact"`
-	// Deprecated: see Threshold; use Selectivity.
-	Above int `json:"above"` // winning windows with activation ≥ Threshold
-	// Deprecated: see Threshold; use Selectivity.
-	AbovePurity float64 `json:"above_purity"` // share of those from texts assigned Class
-	// Idle marks a filter with fewer than max(5, IdleShare·texts) windows at
-	// or above its (deprecated) Threshold, or a masked filter.
-	Idle bool `json:"idle"`
+	// Deprecated: kept only for the former cue audit of this package
+	// (audit*.go), and removed with it; use Selectivity.
+	Threshold      float64 `json:"-"`
+	ThresholdExact bool    `json:"-"`
+	Above          int     `json:"-"`
+	AbovePurity    float64 `json:"-"`
+	Idle           bool    `json:"-"`
 
 	// Selectivity is the threshold relative to the class's base rate, with
 	// its held-out test.
@@ -208,19 +209,6 @@ type SlotWords struct {
 	Slot        int         `json:"slot"`
 	Triggers    []WordScore `json:"triggers"`
 	Suppressors []WordScore `json:"suppressors"`
-}
-
-// MarshalJSON writes an infinite threshold as null.
-func (p FilterProfile) MarshalJSON() ([]byte, error) {
-	type plain FilterProfile
-	q := struct {
-		plain
-		Threshold *float64 `json:"threshold"`
-	}{plain: plain(p)}
-	if !math.IsInf(p.Threshold, 0) {
-		q.Threshold = &p.Threshold
-	}
-	return jsonMarshal(q)
 }
 
 // Profile runs every text of ids through m once and describes each filter.

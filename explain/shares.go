@@ -22,12 +22,15 @@ const (
 // same number to every class's output weight on one filter, or to every
 // class's output bias, changes no probability and none of these numbers:
 // that is what "identified" means here, and why the shares of a single
-// class's logit (Attributions.Exact) are not shown.
+// class's logit are not given.
 //
 // The method is gradient × input at the word vectors with every filter's
 // winning window held fixed, against the zero word vector (PAD) as
 // reference; with ReLU, max pooling and a linear head that product is an
-// exact decomposition (Explain's doc comment gives the algebra).
+// exact decomposition: with h_g = B_g + Σ_s slot score of the winning
+// window for every fired filter g,
+//
+//	Σ_c v_c·logit[c] = Σ_c v_c·OutB[c] + Σ_{g fired} (Σ_c v_c·OutW[c][g])·(B_g + Σ_s slot scores).
 type Shares struct {
 	Class   int `json:"class"`
 	Against int `json:"against"` // a class, or AgainstMean (−1)
@@ -142,7 +145,7 @@ func identifiedShares(m *cnn.Model, e *Explanation) {
 	for j, k := range ts {
 		s := &out[j]
 		s.Class, s.Against = k.class, k.against
-		s.Value = k.dot(e.Logits)
+		s.Value = k.dot(e.logits)
 		s.OutputBias = k.outputBias(m)
 		s.Tokens, flat = flat[:L:L], flat[L:]
 		s.FilterBias, flat = flat[:nk:nk], flat[nk:]

@@ -3,6 +3,7 @@ package gui
 import (
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 
 	"fyne.io/fyne/v2"
@@ -14,16 +15,18 @@ import (
 )
 
 // filtersView is the list of the model's filters and the selected filter's
-// profile: top n-grams painted by slot score, families, trigger and
-// suppressor words, and the activation histogram.
+// profile: its selectivity, top and negative n-grams painted by slot
+// score, families, trigger and suppressor words, and the activation
+// histogram.
 type filtersView struct {
 	st *State
 
 	caption, title  *widget.Label
 	query           *widget.Entry
 	list            *sheet
-	ngrams          *fyne.Container
+	ngrams, negs    *fyne.Container
 	families, slots *sheet
+	familyNote      *widget.Label
 	hist            *plotView
 	shown           *explain.FilterProfile // the filter on screen
 	empty           *widget.Label
@@ -34,7 +37,7 @@ type filtersView struct {
 // Columns of the filter list; the last cell of each row (its top n-grams)
 // is searched but not shown.
 var filterCols = []string{"filter", "width", "votes for", "vote margin", "suspicion score", "cue words",
-	"fired in", "purity threshold", "purity", "families", "idle"}
+	"fired in", "threshold", "held-out purity", "base rate", "Holm p", "selective", "families"}
 
 const (
 	colFilterMargin    = 3
@@ -53,7 +56,9 @@ func newFiltersView(st *State) *filtersView {
 	v.title = wrapped("Select a filter in the list.")
 	v.title.TextStyle.Bold = true
 	v.ngrams = container.NewVBox()
-	v.families = newSheet("family", "pattern", "n-grams", "texts", "dominant slots").wide(4, capText)
+	v.negs = container.NewVBox()
+	v.families = newSheet("family", "pattern", "share", "stability", "n-grams", "texts", "dominant slots").wide(6, capText)
+	v.familyNote = wrapped("")
 	v.slots = newSheet("slot", "trigger words (slot score)", "suppressor words (slot score)").wide(1, capText).wide(2, capText)
 	v.hist = newPlotView(plotSize)
 	v.list.onSelect = v.show
@@ -73,9 +78,10 @@ func newFiltersView(st *State) *filtersView {
 func (v *filtersView) layout() fyne.CanvasObject {
 	tabs := container.NewAppTabs(
 		container.NewTabItem("Top n-grams", container.NewVScroll(v.ngrams)),
-		container.NewTabItem("Families", container.NewBorder(nil, v.families.detail, nil, nil, v.families.view())),
-		container.NewTabItem("Slot words", container.NewBorder(nil, v.slots.detail, nil, nil, v.slots.view())),
-		container.NewTabItem("Activations", v.hist),
+		container.NewTabItem("Negatives", container.NewVScroll(v.negs)),
+		container.NewTabItem("Families", container.NewBorder(v.familyNote, v.families.detail, nil, nil, v.families.view())),
+		container.NewTabItem("Slots", container.NewBorder(nil, v.slots.detail, nil, nil, v.slots.view())),
+		container.NewTabItem("Histogram", v.hist),
 	)
 	right := container.NewBorder(v.title, nil, nil, nil, tabs)
 	left := container.NewBorder(v.query, v.list.detail, nil, nil, v.list.view())
@@ -129,7 +135,9 @@ func (v *filtersView) show(g int) {
 	v.shown = fp
 	v.title.SetText(filterTitle(fp, ps.P.Texts))
 	v.paintNgrams(fp)
+	v.paintNegatives(fp)
 	v.families.setRows(familyRows(fp))
+	v.familyNote.SetText(familyNote(fp))
 	var srows [][]string
 	for _, sw := range fp.Slots {
 		srows = append(srows, []string{fmt.Sprint(sw.Slot), wordScores(sw.Triggers), wordScores(sw.Suppressors)})
@@ -140,22 +148,34 @@ func (v *filtersView) show(g int) {
 
 // filterTitle is the sentence heading a filter's profile.
 func filterTitle(fp *explain.FilterProfile, texts int) string {
+	sel := &fp.Selectivity
 	state := ""
-	if fp.Masked {
+	switch {
+	case fp.Masked:
 		state = " It is masked (switched off) in this model."
-	} else if fp.Idle {
-		state = " It is idle: it rarely fires above its purity threshold."
+	case !sel.Selective:
+		state = " It is not selective: its strong windows do not tell its class apart better than chance on the held-out half."
 	}
-	thr := "none: never pure enough"
-	if !math.IsInf(fp.Threshold, 0) {
-		thr = thresholdText(fp.Threshold)
-		if !fp.ThresholdExact {
-			thr += " (at a histogram bin edge)"
-		}
+	return fmt.Sprintf("Filter %d (width %d) votes for %s with a margin of %.3f. It fired in %d of %d training texts; highest activation %.3f. %s%s",
+		fp.Filter, fp.Width, fp.Label, fp.Margin, fp.Fired, texts, fp.MaxActivation, selectivityText(sel, fp.Label), state)
+}
+
+// selectivityText says where the filter's selectivity threshold lies and
+// what the held-out half measured there.
+func selectivityText(s *explain.Selectivity, label string) string {
+	if math.IsInf(s.Threshold, 0) {
+		return fmt.Sprintf("No activation reaches purity %.2f for %s on the choosing half: no selectivity threshold.", s.Target, label)
 	}
-	return fmt.Sprintf("Filter %d (width %d) votes for %s with a margin of %.3f. It fired in %d of %d training texts; highest activation %.3f; "+
-		"purity threshold %s, with %d windows at or above it, %.1f%% of them from texts assigned %s.%s",
-		fp.Filter, fp.Width, fp.Label, fp.Margin, fp.Fired, texts, fp.MaxActivation, thr, fp.Above, 100*fp.AbovePurity, fp.Label, state)
+	thr := thresholdText(s.Threshold)
+	if !s.ThresholdExact {
+		thr += " (at a histogram bin edge)"
+	}
+	if s.Windows == 0 {
+		return fmt.Sprintf("Selectivity threshold %s, %d windows at or above it; none of them in the held-out half.", thr, s.Above)
+	}
+	return fmt.Sprintf("Selectivity threshold %s, %d windows at or above it. Held out: %d of %d from texts assigned %s, purity %.3f (95%% interval %.3f–%.3f) "+
+		"against a base rate of %.3f; one-sided binomial p = %.2g, Holm-corrected %.2g.",
+		thr, s.Above, s.InClass, s.Windows, label, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm)
 }
 
 // paintNgrams paints the filter's top n-grams token by token by slot score.
@@ -185,10 +205,69 @@ func (v *filtersView) paintNgrams(fp *explain.FilterProfile) {
 	v.ngrams.Refresh()
 }
 
-// ngramChips returns the painted n-gram tokens, in order.
-func (v *filtersView) ngramChips() []*heatCell {
+// paintNegatives paints the filter's negative n-grams token by token by
+// slot score, each with how far it was held down and by which words.
+func (v *filtersView) paintNegatives(fp *explain.FilterProfile) {
+	v.negs.Objects = nil
+	if math.IsInf(fp.Selectivity.Threshold, 0) {
+		v.negs.Add(wrapped("Negative n-grams are found relative to the selectivity threshold; this filter has none."))
+		v.negs.Refresh()
+		return
+	}
+	head := fmt.Sprintf("Windows of the corpus whose positive slots alone would reach the threshold %s but whose negative slots hold them below it, held down furthest first.",
+		thresholdText(fp.Selectivity.Threshold))
+	if !fp.NegativesExact {
+		head += " The search could not be completed: others may be missing and the counts short."
+	}
+	if len(fp.Negatives) == 0 {
+		head += " There are none."
+	}
+	v.negs.Add(wrapped(head))
+	scale := 0.0
+	for _, n := range fp.Negatives {
+		for _, s := range n.Slots {
+			scale = math.Max(scale, math.Abs(s))
+		}
+	}
+	for _, n := range fp.Negatives {
+		row := container.New(layout.NewRowWrapLayoutWithCustomPadding(2, 2))
+		for s, t := range n.Tokens {
+			chip := newHeatCell(t, divergingColor(n.Slots[s], scale), nil)
+			chip.value, chip.compact = n.Slots[s], true
+			row.Add(chip)
+		}
+		by := make([]string, len(n.Words))
+		for i, w := range n.Words {
+			by[i] = strconv.Quote(w)
+		}
+		row.Add(widget.NewLabel(fmt.Sprintf("held down %.3f (%.3f → %.3f) by %s · %s", n.HeldDown, n.Positive, n.Activation,
+			strings.Join(by, ", "), windows(n.Count))))
+		v.negs.Add(row)
+	}
+	if len(fp.Negatives) > 0 {
+		v.negs.Add(heatLegend(scale, "slot score", "slot score"))
+	}
+	v.negs.Refresh()
+}
+
+// windows writes a count of windows.
+func windows(n int) string {
+	if n == 1 {
+		return "1 window"
+	}
+	return fmt.Sprintf("%d windows", n)
+}
+
+// ngramChips returns the painted top n-gram tokens, in order.
+func (v *filtersView) ngramChips() []*heatCell { return chipsIn(v.ngrams) }
+
+// negativeChips returns the painted negative n-gram tokens, in order.
+func (v *filtersView) negativeChips() []*heatCell { return chipsIn(v.negs) }
+
+// chipsIn returns the heat cells of the rows of c, in order.
+func chipsIn(c *fyne.Container) []*heatCell {
 	var cs []*heatCell
-	for _, row := range v.ngrams.Objects {
+	for _, row := range c.Objects {
 		if c, ok := row.(*fyne.Container); ok {
 			for _, o := range c.Objects {
 				if h, ok := o.(*heatCell); ok {
@@ -211,9 +290,24 @@ func familyRows(fp *explain.FilterProfile) [][]string {
 				dom = append(dom, fmt.Sprintf("%d:%s (%.3f)", sl.Slot, strings.Join(sl.Words, "|"), sl.Mean))
 			}
 		}
-		rows = append(rows, []string{fmt.Sprint(k), f.Pattern, fmt.Sprint(f.Ngrams), fmt.Sprint(f.Count), strings.Join(dom, "  ")})
+		stab := "—"
+		if f.Stability != nil {
+			stab = fmt.Sprintf("%.2f", *f.Stability)
+		}
+		rows = append(rows, []string{fmt.Sprint(k), f.Pattern, fmt.Sprintf("%.1f%% (%.1f–%.1f%%)", 100*f.Share, 100*f.ShareLow, 100*f.ShareHigh),
+			stab, fmt.Sprint(f.Ngrams), fmt.Sprint(f.Count), strings.Join(dom, "  ")})
 	}
 	return rows
+}
+
+// familyNote says what the families were built from.
+func familyNote(fp *explain.FilterProfile) string {
+	if math.IsInf(fp.Selectivity.Threshold, 0) {
+		return "Families group the windows above the selectivity threshold; this filter has none."
+	}
+	return fmt.Sprintf("Built from a sample of %d of the %d windows at or above the threshold, each weighted by the windows it stands for. "+
+		"Share: of those windows, with a 95%% interval; stability: how often two of the family's n-grams fall together again when the sample is resampled.",
+		fp.FamilySample, fp.Selectivity.Above)
 }
 
 func wordScores(ws []explain.WordScore) string {
@@ -242,9 +336,11 @@ func (v *filtersView) refresh() {
 		for _, n := range fp.TopNgrams {
 			top = append(top, strings.Join(n.Tokens, " "))
 		}
+		sel := &fp.Selectivity
 		rows[i] = []string{fmt.Sprint(fp.Filter), fmt.Sprint(fp.Width), fp.Label, fmt.Sprintf("%.3f", fp.Margin),
-			au.suspicionOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thresholdText(fp.Threshold),
-			fmt.Sprintf("%.2f", fp.AbovePurity), fmt.Sprint(len(fp.Families)), yesNo(fp.Idle), strings.Join(top, " / ")}
+			au.suspicionOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thresholdText(sel.Threshold),
+			rateText(sel.Purity), rateText(sel.BaseRate), pText(sel.PHolm), yesNo(sel.Selective), fmt.Sprint(len(fp.Families)),
+			strings.Join(top, " / ")}
 	}
 	v.list.setRows(rows)
 	if au != nil {

@@ -130,6 +130,20 @@ func (s *session) filter() {
 			t.Errorf("n-gram token %d painted %v, slot score %v", i, c.value, want[i])
 		}
 	}
+	// So do its negative n-grams.
+	want = want[:0]
+	for _, n := range fp.Negatives {
+		want = append(want, n.Slots...)
+	}
+	chips = st.filtersView.negativeChips()
+	if len(chips) != len(want) {
+		t.Fatalf("%d negative n-gram tokens painted, profile has %d", len(chips), len(want))
+	}
+	for i, c := range chips {
+		if c.value != want[i] {
+			t.Errorf("negative n-gram token %d painted %v, slot score %v", i, c.value, want[i])
+		}
+	}
 }
 
 // explanation: a typed text is painted with the explanation's numbers.
@@ -150,15 +164,45 @@ func (s *session) explanation() {
 	if len(chips) != len(e.Tokens) || len(chips) != 7 {
 		t.Fatalf("%d tokens painted, explanation has %d (want 7)", len(chips), len(e.Tokens))
 	}
+	// By default the shares of the log-odds of the predicted label against
+	// the runner-up.
 	for i, c := range chips {
-		if c.value != e.Attributions.Exact[i][e.Class] || c.text != e.Tokens[i].Text {
-			t.Errorf("token %d painted %q %v, explanation %q %v", i, c.text, c.value, e.Tokens[i].Text, e.Attributions.Exact[i][e.Class])
+		if c.value != e.LogOdds.Tokens[i] || c.text != e.Tokens[i].Text {
+			t.Errorf("token %d painted %q %v, explanation %q %v", i, c.text, c.value, e.Tokens[i].Text, e.LogOdds.Tokens[i])
 		}
 	}
 	markup := test.RenderToMarkup(w.Canvas())
-	if !strings.Contains(markup, "Predicted: "+e.Label) {
-		t.Errorf("explain view does not show the predicted label %q", e.Label)
+	if !strings.Contains(markup, "Predicted: "+e.Label) || !strings.Contains(markup, fmt.Sprintf("log p(%s)/p(%s) = %.4f", e.Label, e.Labels[e.RunnerUp], e.LogOdds.Value)) {
+		t.Errorf("explain view does not show the predicted label %q and the log-odds %.4f against %q", e.Label, e.LogOdds.Value, e.Labels[e.RunnerUp])
 	}
+	// The filters that fired carry their parts of the log-odds.
+	for _, row := range wv.fired.rows {
+		k := slices.IndexFunc(e.Filters, func(f explain.FiredFilter) bool { return fmt.Sprint(f.Filter) == row[0] })
+		if k < 0 || row[colFiredPart] != signed4(e.LogOdds.Filters[k]) {
+			t.Errorf("fired filter row %q: not the explanation's part of the log-odds", row)
+		}
+	}
+	if len(wv.kept.rows) != len(e.KeptDown) {
+		t.Errorf("%d windows kept down listed, the explanation has %d", len(wv.kept.rows), len(e.KeptDown))
+	}
+	// A label chosen: the shares of its centred logit, then integrated
+	// gradients of it.
+	c := (e.Class + 1) % len(e.Labels)
+	wv.class.SetSelected(e.Labels[c])
+	q.drain()
+	for i, ch := range wv.chips() {
+		if ch.value != e.Centred[c].Tokens[i] {
+			t.Errorf("centred logit of %s: token %d painted %v, explanation %v", e.Labels[c], i, ch.value, e.Centred[c].Tokens[i])
+		}
+	}
+	wv.method.SetSelected(methodIG)
+	q.drain()
+	for i, ch := range wv.chips() {
+		if ch.value != e.Integrated.Centred[c].Tokens[i] {
+			t.Errorf("integrated gradients of the centred logit of %s: token %d painted %v, explanation %v", e.Labels[c], i, ch.value, e.Integrated.Centred[c].Tokens[i])
+		}
+	}
+	wv.class.SetSelected(classPredicted)
 	// The probabilities under the verdict, ranked.
 	if want := rankedWords(e); wv.strip.words() != want {
 		t.Errorf("ranked strip says %q, want %q", wv.strip.words(), want)

@@ -64,7 +64,8 @@ func (st *State) profileNow(then func()) {
 	})
 }
 
-// thresholdText writes a purity threshold with the window's one precision.
+// thresholdText writes a selectivity threshold with the window's one
+// precision.
 func thresholdText(t float64) string {
 	if math.IsInf(t, 0) || math.IsNaN(t) {
 		return "—"
@@ -72,9 +73,27 @@ func thresholdText(t float64) string {
 	return fmt.Sprintf("%.3f", t)
 }
 
+// rateText writes a share in [0, 1] ("—" when there is none).
+func rateText(r float64) string {
+	if math.IsNaN(r) {
+		return "—"
+	}
+	return fmt.Sprintf("%.3f", r)
+}
+
+// pText writes a p-value with two significant digits ("—" when there is
+// no test).
+func pText(p float64) string {
+	if math.IsNaN(p) {
+		return "—"
+	}
+	return fmt.Sprintf("%.2g", p)
+}
+
 // histogramPlot draws the filter's winning-window activations over the
 // fired texts (the profile's own bins), the part from texts assigned the
-// filter's class in front, with the purity threshold as a vertical line.
+// filter's class in front, with the selectivity threshold as a vertical
+// line.
 func histogramPlot(fp *explain.FilterProfile) *plot.Plot {
 	p := newPlot(fmt.Sprintf("Filter %d: winning-window activations", fp.Filter), "activation", "texts")
 	h := fp.Hist
@@ -99,14 +118,14 @@ func histogramPlot(fp *explain.FilterProfile) *plot.Plot {
 	p.Add(all, cls)
 	p.Legend.Add("all fired texts", all)
 	p.Legend.Add("assigned "+fp.Label, cls)
-	if !math.IsInf(fp.Threshold, 0) && !math.IsNaN(fp.Threshold) {
-		l, err := plotter.NewLine(plotter.XYs{{X: fp.Threshold, Y: 0}, {X: fp.Threshold, Y: top * 1.05}})
+	if thr := fp.Selectivity.Threshold; !math.IsInf(thr, 0) && !math.IsNaN(thr) {
+		l, err := plotter.NewLine(plotter.XYs{{X: thr, Y: 0}, {X: thr, Y: top * 1.05}})
 		if err == nil {
 			l.Color = seriesColors[1]
 			l.Width = vg.Points(2)
 			l.Dashes = []vg.Length{vg.Points(5), vg.Points(3)}
 			p.Add(l)
-			p.Legend.Add("purity threshold "+thresholdText(fp.Threshold), l)
+			p.Legend.Add("selectivity threshold "+thresholdText(thr), l)
 		}
 	}
 	return p

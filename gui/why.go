@@ -32,7 +32,7 @@ func (st *State) runExplain(text string, done func(*explainState)) {
 			return func() { done(&explainState{Text: text}) }, nil
 		}
 		e, err := explain.Explain(ms.Model, toks, ids, explain.ExplainOptions{
-			Table: ms.Table, Profiles: prof, Occlusion: true, IG: true,
+			Table: ms.Table, Profiles: prof, Occlusion: true, IG: true, KeptDown: keptDownShown,
 		})
 		if err != nil {
 			return nil, err
@@ -41,41 +41,57 @@ func (st *State) runExplain(text string, done func(*explainState)) {
 	})
 }
 
+// keptDownShown is the number of windows kept down the view lists.
+const keptDownShown = 8
+
+// quantityName names what the view splits: the log-odds of the predicted
+// label against the runner-up (class −1) or class's centred logit.
+func quantityName(e *explain.Explanation, class int) string {
+	if class < 0 {
+		return fmt.Sprintf("log p(%s)/p(%s)", e.Label, e.Labels[e.RunnerUp])
+	}
+	return fmt.Sprintf("the centred logit of %s", e.Labels[class])
+}
+
+// sharesFor is the split of the log-odds (class −1) or of class's centred
+// logit.
+func sharesFor(e *explain.Explanation, class int) *explain.Shares {
+	if class < 0 {
+		return &e.LogOdds
+	}
+	return &e.Centred[class]
+}
+
 // tokenValues returns the painted value of every token for the method and
-// class, and a sentence naming what it is.
+// class (−1: the log-odds of the predicted label against the runner-up),
+// and a sentence naming what it is.
 func tokenValues(e *explain.Explanation, method string, class int) ([]float64, string) {
-	n := len(e.Tokens)
-	v := make([]float64, n)
+	v := make([]float64, len(e.Tokens))
 	switch method {
 	case methodOcclusion:
-		copy(v, e.Attributions.Occlusion)
+		copy(v, explain.Scores(e, explain.MethodOcclusion, -1))
 		return v, fmt.Sprintf("how much p(%s) falls when the token is replaced by padding", e.Label)
 	case methodIG:
-		for i := range n {
-			if i < len(e.Attributions.IG) {
-				v[i] = e.Attributions.IG[i][class]
-			}
-		}
-		return v, fmt.Sprintf("integrated gradients (%d steps) on the logit of %s", e.Attributions.IGSteps, e.Labels[class])
+		copy(v, explain.Scores(e, explain.MethodIG, class))
+		return v, "integrated gradients of " + quantityName(e, class) + " from a text of padding only"
 	default:
-		for i := range n {
-			v[i] = e.Attributions.Exact[i][class]
-		}
-		return v, fmt.Sprintf("exact share of the logit of %s", e.Labels[class])
+		copy(v, explain.Scores(e, explain.MethodExact, class))
+		return v, "exact share of " + quantityName(e, class)
 	}
 }
 
-// tokenDetail lists every number of token i (tokens counted from 0).
+// tokenDetail lists every number of token i (tokens counted from 0) for
+// class (−1: the log-odds).
 func tokenDetail(e *explain.Explanation, i, class int) string {
 	t := e.Tokens[i]
 	var b strings.Builder
-	fmt.Fprintf(&b, "Token %d, %q (word %d of the vocabulary, bytes %d–%d of the text). Exact share of the logit of %s: %+.5f",
-		i, t.Text, t.ID, t.Start, t.End, e.Labels[class], e.Attributions.Exact[i][class])
+	fmt.Fprintf(&b, "Token %d, %q (word %d of the vocabulary, bytes %d–%d of the text). Exact share of %s: %+.5f",
+		i, t.Text, t.ID, t.Start, t.End, quantityName(e, class), sharesFor(e, class).Tokens[i])
 	if i < len(e.Attributions.Occlusion) {
 		fmt.Fprintf(&b, "; occlusion: p(%s) falls by %+.5f (log-probability by %+.5f)", e.Label, e.Attributions.Occlusion[i], e.Attributions.OcclusionLog[i])
 	}
-	if i < len(e.Attributions.IG) {
-		fmt.Fprintf(&b, "; integrated gradients: %+.5f", e.Attributions.IG[i][class])
+	if ig := explain.Scores(e, explain.MethodIG, class); i < len(ig) {
+		fmt.Fprintf(&b, "; integrated gradients: %+.5f", ig[i])
 	}
 	b.WriteString(".")
 	return b.String()

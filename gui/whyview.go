@@ -3,6 +3,7 @@ package gui
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"fyne.io/fyne/v2"
@@ -20,13 +21,16 @@ const (
 	methodIG        = "Integrated gradients"
 )
 
-// classPredicted is the class choice that follows the prediction.
-const classPredicted = "the predicted label"
+// classPredicted is the class choice that splits the log-odds of the
+// predicted label against the runner-up; the other choices are labels,
+// whose centred logits are split.
+const classPredicted = "the predicted label against the runner-up"
 
 // whyView is the text box, the verdict with the ranked class
-// probabilities, the painted text and the filters that fired. The painted
-// values come from explain.Explain; a later version of explain with other
-// shares slots in at tokenValues.
+// probabilities, the painted text, the filters that fired and the windows
+// kept down. Every number is an identified one of explain.Explain: the
+// split of the log-odds of the predicted label against the runner-up, or
+// of a label's centred logit.
 type whyView struct {
 	st *State
 
@@ -36,12 +40,18 @@ type whyView struct {
 	next                                    *widget.Button
 	strip                                   *rankStrip
 	painted, legend                         *fyne.Container
-	fired                                   *sheet
+	fired, kept                             *sheet
 	firedRows                               []explain.FiredFilter
+	keptRows                                []explain.KeptDownWindow
 	shown                                   *explainState // the explanation on screen
 	nextText                                int           // the test text Next shows
 	body                                    fyne.CanvasObject
 }
+
+// Columns of the fired-filter sheet; the second names the quantity split.
+var firedCols = []string{"filter", "window", "part of the log-odds", "of it, bias", "activation", "width", "family"}
+
+const colFiredPart = 2
 
 // explainState is an explanation on screen.
 type explainState struct {
@@ -71,10 +81,16 @@ func newWhyView(st *State) *whyView {
 	v.legend = container.NewStack()
 	v.what = wrapped("")
 	v.detail = wrapped("")
-	v.fired = newSheet("filter", "adds to the logit", "activation", "width", "family", "window").wide(5, 260)
+	v.fired = newSheet(slices.Clone(firedCols)...)
 	v.fired.onSelect = func(row int) {
 		if row < len(v.firedRows) {
 			st.showFilter(v.firedRows[row].Filter, v.fired)
+		}
+	}
+	v.kept = newSheet("filter", "window", "estimate", "measured", "p falls by", "width")
+	v.kept.onSelect = func(row int) {
+		if row < len(v.keptRows) {
+			st.showFilter(v.keptRows[row].Filter, v.kept)
 		}
 	}
 	v.body = v.layout()
@@ -88,7 +104,11 @@ func (v *whyView) layout() fyne.CanvasObject {
 	controls := container.NewHBox(widget.NewLabel("Paint by"), v.method.box, widget.NewLabel("for"), v.class.box, layout.NewSpacer(), v.next)
 	top := container.NewVBox(v.caution, v.caption, v.entry, container.NewHScroll(controls), v.verdict, v.strip)
 	left := container.NewBorder(nil, container.NewVBox(v.legend, v.what, v.detail), nil, nil, container.NewVScroll(v.painted))
-	right := container.NewBorder(bold("Filters that fired (click one to see it in Filters)"), nil, nil, nil, v.fired.view())
+	firedTab := container.NewBorder(wrapped("Click a filter to see it in Filters."), v.fired.detail, nil, nil, v.fired.view())
+	keptTab := container.NewBorder(wrapped("Each window would have won its filter but for the [tokens] in brackets: "+
+		"the change of the log-odds estimated had it won, and measured with them replaced by padding."),
+		v.kept.detail, nil, nil, v.kept.view())
+	right := container.NewAppTabs(container.NewTabItem("Filters that fired", firedTab), container.NewTabItem("Windows kept down", keptTab))
 	split := container.NewHSplit(left, right)
 	split.Offset = 0.55
 	return container.NewBorder(top, nil, nil, nil, split)
@@ -158,14 +178,15 @@ func (v *whyView) update() {
 	})
 }
 
-// chosenClass is the class the view paints.
+// chosenClass is the class whose centred logit the view paints, or −1 for
+// the log-odds of the predicted label against the runner-up.
 func (v *whyView) chosenClass(e *explain.Explanation) int {
 	for i, l := range e.Labels {
 		if l == v.class.Selected {
 			return i
 		}
 	}
-	return e.Class
+	return -1
 }
 
 // paint draws the shown explanation, or says why there is none.
@@ -183,8 +204,7 @@ func (v *whyView) paint() {
 	}
 	e := v.shown.E
 	c := v.chosenClass(e)
-	v.verdict.SetText(fmt.Sprintf("Predicted: %s, p = %.3f.   Logit of %s = %.4f = bias part %.4f + the sum of the token shares.",
-		e.Label, e.Probabilities[e.Class], e.Labels[c], e.Logits[c], e.Bias[c]))
+	v.verdict.SetText(verdict(e, c))
 	v.strip.set(e.Labels, e.Probabilities)
 	v.strip.Show()
 	vals, desc := tokenValues(e, v.method.Selected, c)
@@ -206,6 +226,7 @@ func (v *whyView) paint() {
 	v.what.SetText("Colour: " + desc + ". Purple raises it, orange lowers it.")
 	v.legend.Objects = []fyne.CanvasObject{heatLegend(scale, "lowers", "raises")}
 	v.fillFired(e, c)
+	v.fillKept(e)
 	v.painted.Refresh()
 	v.legend.Refresh()
 }
@@ -223,31 +244,89 @@ func (v *whyView) paintNothing() {
 	v.strip.Hide()
 	v.what.SetText("")
 	v.detail.SetText("")
-	v.firedRows = nil
+	v.firedRows, v.keptRows = nil, nil
 	v.fired.setRows(nil)
+	v.kept.setRows(nil)
 	v.painted.Refresh()
 	v.legend.Refresh()
 }
 
-// fillFired lists the filters that fired, largest part of class c's logit
-// first.
+// verdict is the line under the text box: the prediction, the runner-up,
+// and the exact split of the quantity painted (class −1: the log-odds).
+func verdict(e *explain.Explanation, class int) string {
+	sh := sharesFor(e, class)
+	var fb, tok float64
+	for _, x := range sh.FilterBias {
+		fb += x
+	}
+	for _, x := range sh.Tokens {
+		tok += x
+	}
+	name := quantityName(e, class)
+	if class >= 0 {
+		name = "Centred logit of " + e.Labels[class]
+	}
+	return fmt.Sprintf("Predicted: %s, p = %.3f; runner-up %s, p = %.3f.   %s = %.4f = output bias %s + filter biases %s + token shares %s.",
+		e.Label, e.Probabilities[e.Class], e.Labels[e.RunnerUp], e.Probabilities[e.RunnerUp],
+		name, sh.Value, signed4(sh.OutputBias), signed4(fb), signed4(tok))
+}
+
+// signed4 writes x with its sign and four decimals, zero without a minus.
+func signed4(x float64) string {
+	s := fmt.Sprintf("%+.4f", x)
+	if s == "-0.0000" {
+		return "+0.0000"
+	}
+	return s
+}
+
+// fillFired lists the filters that fired, largest part of the quantity
+// painted (class −1: the log-odds) first.
 func (v *whyView) fillFired(e *explain.Explanation, c int) {
 	v.firedRows = e.Filters
+	sh := sharesFor(e, c)
+	if c < 0 {
+		v.fired.cols[colFiredPart] = "part of the log-odds"
+	} else {
+		v.fired.cols[colFiredPart] = "part of the centred logit"
+	}
 	var rows [][]string
-	for _, f := range e.Filters {
-		var win []string
-		for k := f.Start; k < f.Start+f.Width && k < len(e.Tokens); k++ {
-			win = append(win, e.Tokens[k].Text)
-		}
+	for k, f := range e.Filters {
 		fam := "—"
 		if f.Family >= 0 {
 			fam = fmt.Sprint(f.Family)
 		}
-		rows = append(rows, []string{fmt.Sprint(f.Filter), fmt.Sprintf("%+.4f", f.Contribution[c]), fmt.Sprintf("%.4f", f.Activation),
-			fmt.Sprint(f.Width), fam, strings.Join(win, " ")})
+		rows = append(rows, []string{fmt.Sprint(f.Filter), windowText(e, f.Start, f.Width, nil), signed4(sh.Filters[k]), signed4(sh.FilterBias[k]),
+			fmt.Sprintf("%.4f", f.Activation), fmt.Sprint(f.Width), fam})
 	}
 	v.fired.setRows(rows)
-	v.fired.sortOn(1, true)
+	v.fired.sortOn(colFiredPart, true)
+}
+
+// fillKept lists the windows kept down, largest estimated effect first (as
+// explain orders them).
+func (v *whyView) fillKept(e *explain.Explanation) {
+	v.keptRows = e.KeptDown
+	var rows [][]string
+	for _, kd := range e.KeptDown {
+		rows = append(rows, []string{fmt.Sprint(kd.Filter), windowText(e, kd.Start, kd.Width, kd.By), signed4(kd.Effect),
+			signed4(kd.LogOdds - e.LogOdds.Value), signed4(kd.Drop), fmt.Sprint(kd.Width)})
+	}
+	v.kept.setRows(rows)
+}
+
+// windowText is the text of a window's tokens (none past the text's end),
+// those at the positions in marked in brackets.
+func windowText(e *explain.Explanation, start, width int, marked []int) string {
+	var win []string
+	for k := start; k < start+width && k < len(e.Tokens); k++ {
+		t := e.Tokens[k].Text
+		if slices.Contains(marked, k) {
+			t = "[" + t + "]"
+		}
+		win = append(win, t)
+	}
+	return strings.Join(win, " ")
 }
 
 // chips returns the painted tokens, in order.

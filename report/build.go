@@ -182,7 +182,7 @@ func explainExamples(ctx context.Context, in *Input, heldout *corpus.Dataset, ho
 			return err
 		}
 		progress("explain", i, len(picks))
-		e, err := explain.Explain(in.Model, ho.Tokens[pk.index], ho.IDs[pk.index], explain.ExplainOptions{Profiles: in.Profiles, Occlusion: true})
+		e, err := explain.Explain(in.Model, ho.Tokens[pk.index], ho.IDs[pk.index], explain.ExplainOptions{Profiles: in.Profiles, Occlusion: true, KeptDown: 3})
 		if err != nil {
 			return fmt.Errorf("report: explaining %s: %w", heldout.Where(heldout.Examples[pk.index]), err)
 		}

@@ -8,6 +8,7 @@ import (
 	"io"
 	"math"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -160,41 +161,61 @@ func PredictionTable(labels, texts []string, gold []int, probs [][]float32) *Tab
 	return t
 }
 
-// AttributionTable has one row per token of each explained text: the text's
-// index, the token's position, text and byte offsets, exact_<label> for every
-// class, the single-token occlusion drop and log-drop of the predicted class
-// (empty when not computed) and ig_<label> (empty when not computed).
+// AttributionTable has one row per token of each explained text: the
+// text's index, the token's position, text and byte offsets, the predicted
+// label and the runner-up (the class with the next largest probability),
+// then the token's identified scores: share_log_odds, its exact share of
+// the log-odds of the predicted label against the runner-up, and
+// share_centred_<label> for every class, its exact share of that class's
+// centred logit (the logit minus the mean over classes); occlusion and
+// occlusion_log, the drop of p(predicted) and of its log when the token is
+// replaced by padding; ig_log_odds and ig_centred_<label>, the same
+// quantities by integrated gradients. A score the explanation lacks is
+// empty. Labels are those of the first explanation; every explanation must
+// be of the same model.
 func AttributionTable(es []*explain.Explanation) *Table {
-	t := &Table{Columns: []string{"text_index", "token_index", "token", "start", "end", "predicted"}}
+	t := &Table{Columns: []string{"text_index", "token_index", "token", "start", "end", "predicted", "runner_up", "share_log_odds"}}
 	if len(es) == 0 {
 		return t
 	}
 	labels := es[0].Labels
 	for _, l := range labels {
-		t.Columns = append(t.Columns, "exact_"+l)
+		t.Columns = append(t.Columns, "share_centred_"+l)
 	}
-	t.Columns = append(t.Columns, "occlusion", "occlusion_log")
+	t.Columns = append(t.Columns, "occlusion", "occlusion_log", "ig_log_odds")
 	for _, l := range labels {
-		t.Columns = append(t.Columns, "ig_"+l)
+		t.Columns = append(t.Columns, "ig_centred_"+l)
 	}
 	for ti, e := range es {
 		for i, tok := range e.Tokens {
-			row := []any{ti, i, tok.Text, tok.Start, tok.End, e.Label}
+			row := []any{ti, i, tok.Text, tok.Start, tok.End, e.Label, e.Labels[e.RunnerUp], at(e.LogOdds.Tokens, i)}
 			for c := range labels {
-				row = append(row, e.Attributions.Exact[i][c])
+				row = append(row, sharesAt(e.Centred, c, i))
 			}
 			row = append(row, at(e.Attributions.Occlusion, i), at(e.Attributions.OcclusionLog, i))
-			for c := range labels {
-				if e.Attributions.IG != nil {
-					row = append(row, e.Attributions.IG[i][c])
-				} else {
-					row = append(row, nil)
+			if ig := e.Integrated; ig != nil {
+				row = append(row, at(ig.LogOdds.Tokens, i))
+				for c := range labels {
+					var v any
+					if c < len(ig.Centred) {
+						v = at(ig.Centred[c].Tokens, i)
+					}
+					row = append(row, v)
 				}
+			} else {
+				row = append(row, make([]any, 1+len(labels))...)
 			}
 			t.Add(row...)
 		}
 	}
 	return t
+}
+
+func sharesAt(ss []explain.Shares, c, i int) any {
+	if c < len(ss) {
+		return at(ss[c].Tokens, i)
+	}
+	return nil
 }
 
 func at(xs []float64, i int) any {
@@ -204,17 +225,56 @@ func at(xs []float64, i int) any {
 	return nil
 }
 
-// ProfileTable has one row per top n-gram of every filter: the filter's
-// number, width, the class it votes for, its purity threshold, whether it is
-// idle, its number of families, then the n-gram's rank, tokens (space-
-// separated), activation, count of texts it wins in, and its slot scores
-// (space-separated, in slot order).
+// ProfileTable has one row per n-gram and family of every filter. Each row
+// starts with the filter: its number, width, the label it votes for, its
+// vote margin, centred_vote_<label> for every class (its output weight for
+// the class minus the mean over classes), its selectivity (selective, the
+// threshold, the held-out purity with its 95% interval, the held-out base
+// rate, the one-sided binomial p and its Holm-corrected value), whether its
+// negative n-grams are complete (negatives_exact) and the number of
+// sampled windows its families were built from (family_sample). Then the
+// row's kind and rank within it: "top", a top n-gram, with its tokens
+// (space-separated), activation, the number of texts it wins in and its
+// slot scores (space-separated, in slot order); "negative", a negative
+// n-gram, with the same and held_down (how far its negative slots held it
+// below the threshold), positive (its score without them) and
+// negative_slots (their indexes, space-separated), its count being the
+// windows of the corpus equal to it; "family", with its pattern as ngram,
+// its estimated text count, share of the windows above the threshold with
+// its 95% interval, and stability (empty for a family of one n-gram). A
+// missing number is empty.
 func ProfileTable(p *explain.Profiles) *Table {
-	t := &Table{Columns: []string{"filter", "width", "votes", "threshold", "idle", "families", "rank", "ngram", "activation", "count", "slot_scores"}}
+	t := &Table{Columns: []string{"filter", "width", "votes_for", "margin"}}
+	for _, l := range p.Labels {
+		t.Columns = append(t.Columns, "centred_vote_"+l)
+	}
+	t.Columns = append(t.Columns, "selective", "threshold", "purity", "purity_low", "purity_high", "base_rate", "p", "p_holm",
+		"negatives_exact", "family_sample", "kind", "rank", "ngram", "activation", "count", "slot_scores",
+		"held_down", "positive", "negative_slots", "share", "share_low", "share_high", "stability")
 	for _, f := range p.Filters {
+		s := f.Selectivity
+		head := []any{f.Filter, f.Width, f.Label, f.Margin}
+		for c := range p.Labels {
+			head = append(head, at(f.CentredVotes, c))
+		}
+		head = append(head, s.Selective, s.Threshold, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm,
+			f.NegativesExact, f.FamilySample)
+		add := func(cells ...any) { t.Add(append(slices.Clone(head), cells...)...) }
 		for r, n := range f.TopNgrams {
-			t.Add(f.Filter, f.Width, f.Label, f.Threshold, f.Idle, len(f.Families), r+1,
-				strings.Join(n.Tokens, " "), n.Activation, n.Count, joinFloats(n.Slots))
+			add("top", r+1, strings.Join(n.Tokens, " "), n.Activation, n.Count, joinFloats(n.Slots),
+				nil, nil, nil, nil, nil, nil, nil)
+		}
+		for r, n := range f.Negatives {
+			add("negative", r+1, strings.Join(n.Tokens, " "), n.Activation, n.Count, joinFloats(n.Slots),
+				n.HeldDown, n.Positive, joinInts(n.NegativeSlots), nil, nil, nil, nil)
+		}
+		for r, fam := range f.Families {
+			var stab any
+			if fam.Stability != nil {
+				stab = *fam.Stability
+			}
+			add("family", r+1, fam.Pattern, nil, fam.Count, nil,
+				nil, nil, nil, fam.Share, fam.ShareLow, fam.ShareHigh, stab)
 		}
 	}
 	return t

@@ -4,12 +4,15 @@ import (
 	"bytes"
 	"encoding/csv"
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"telltale/explain"
 )
 
 func sampleTable() *Table {
@@ -113,3 +116,97 @@ print("ok")`
 		t.Fatalf("pandas: %v\n%s", err, out)
 	}
 }
+
+// TestAttributionTableCarriesTheIdentity: the exported shares are the
+// explanation's, so that a text's share_log_odds column, with the output
+// bias and the fired filters' bias parts, adds up to its log-odds, and its
+// share_centred_<label> columns add up to zero over the labels (explain's
+// identities, which its tests check against the model's forward pass).
+func TestAttributionTableCarriesTheIdentity(t *testing.T) {
+	d := loadDemo(t)
+	var es []*explain.Explanation
+	for _, ex := range d.input.Examples {
+		es = append(es, ex.Explanation)
+	}
+	tb := AttributionTable(es)
+	col := map[string]int{}
+	for i, c := range tb.Columns {
+		col[c] = i
+	}
+	labels := d.model.Labels
+	for _, name := range append([]string{"share_log_odds", "occlusion", "occlusion_log", "ig_log_odds", "runner_up"}, "share_centred_"+labels[0], "ig_centred_"+labels[len(labels)-1]) {
+		if _, ok := col[name]; !ok {
+			t.Fatalf("column %q missing from %v", name, tb.Columns)
+		}
+	}
+	sums := make([]float64, len(es))
+	for _, row := range tb.Rows {
+		ti, i := row[col["text_index"]].(int), row[col["token_index"]].(int)
+		e := es[ti]
+		share := row[col["share_log_odds"]].(float64)
+		if share != e.LogOdds.Tokens[i] || row[col["occlusion"]] != e.Attributions.Occlusion[i] || row[col["runner_up"]] != e.Labels[e.RunnerUp] {
+			t.Errorf("text %d token %d: row %v, explanation share %v", ti, i, row, e.LogOdds.Tokens[i])
+		}
+		if row[col["ig_log_odds"]] != nil {
+			t.Errorf("text %d token %d: integrated gradients exported though not computed", ti, i)
+		}
+		sums[ti] += share
+		var centred float64
+		for _, l := range labels {
+			centred += row[col["share_centred_"+l]].(float64)
+		}
+		if math.Abs(centred) > 1e-9 {
+			t.Errorf("text %d token %d: centred shares sum to %g", ti, i, centred)
+		}
+	}
+	for ti, e := range es {
+		parts := sums[ti] + e.LogOdds.OutputBias
+		for _, v := range e.LogOdds.FilterBias {
+			parts += v
+		}
+		if math.Abs(parts-e.LogOdds.Value) > 1e-4 {
+			t.Errorf("text %d: exported shares and bias parts add up to %g, log-odds %g", ti, parts, e.LogOdds.Value)
+		}
+	}
+}
+
+// TestProfileTableRows: one row per top n-gram, negative n-gram and family
+// of every filter, each carrying its filter's selectivity; the table loads
+// in pandas with its empty cells as missing values.
+func TestProfileTableRows(t *testing.T) {
+	d := loadDemo(t)
+	p := d.input.Profiles
+	tb := ProfileTable(p)
+	col := map[string]int{}
+	for i, c := range tb.Columns {
+		col[c] = i
+	}
+	want := map[string]int{}
+	for _, f := range p.Filters {
+		want["top"] += len(f.TopNgrams)
+		want["negative"] += len(f.Negatives)
+		want["family"] += len(f.Families)
+	}
+	got := map[string]int{}
+	for _, row := range tb.Rows {
+		f := p.Filters[row[col["filter"]].(int)]
+		kind := row[col["kind"]].(string)
+		got[kind]++
+		if row[col["selective"]] != f.Selectivity.Selective || !same(row[col["threshold"]].(float64), f.Selectivity.Threshold) ||
+			!same(row[col["p_holm"]].(float64), f.Selectivity.PHolm) {
+			t.Errorf("filter %d %s row %v: selectivity differs from %+v", f.Filter, kind, row, f.Selectivity)
+		}
+		if r := row[col["rank"]].(int); kind == "negative" && row[col["held_down"]] != f.Negatives[r-1].HeldDown {
+			t.Errorf("filter %d negative n-gram %d: held down %v, profile %v", f.Filter, r, row[col["held_down"]], f.Negatives[r-1].HeldDown)
+		}
+	}
+	if fmt.Sprint(got) != fmt.Sprint(want) {
+		t.Errorf("rows by kind %v, profiles hold %v", got, want)
+	}
+	if want["negative"] == 0 || want["family"] == 0 {
+		t.Errorf("the demo fixture's profiles hold %v: the check checked little", want)
+	}
+}
+
+// same is equality with NaN equal to NaN.
+func same(a, b float64) bool { return a == b || math.IsNaN(a) && math.IsNaN(b) }

@@ -4,7 +4,9 @@ import (
 	"bytes"
 	"context"
 	"errors"
+	"fmt"
 	"html"
+	"math"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -123,17 +125,44 @@ func TestDemoSections(t *testing.T) {
 	}
 	for _, ex := range d.input.Examples {
 		e := ex.Explanation
-		sum := 0.0
-		for _, row := range e.Attributions.Exact {
-			sum += row[e.Class]
+		lo := e.LogOdds
+		var sum, fb float64
+		for _, v := range lo.Tokens {
+			sum += v
 		}
-		id := "bias " + signed(e.Bias[e.Class]) + " + token shares " + signed(sum) + " = logit " + signed(e.Logits[e.Class])
+		for _, v := range lo.FilterBias {
+			fb += v
+		}
+		id := "log p(" + e.Label + ")/p(" + e.Labels[e.RunnerUp] + ") " + signed(lo.Value) + " = output bias " + signed(lo.OutputBias) +
+			" + filter biases " + signed(fb) + " + token shares " + signed(sum)
 		if !strings.Contains(out, id) {
 			t.Errorf("identity line %q missing", id)
 		}
-		// The exact decomposition shown must hold (explain's identity).
-		if d := e.Bias[e.Class] + sum - e.Logits[e.Class]; d > 1e-4 || d < -1e-4 {
+		// The decomposition shown must hold (explain's identity), and its
+		// value is the log-odds of the probabilities shown.
+		if d := lo.OutputBias + fb + sum - lo.Value; d > 1e-4 || d < -1e-4 {
 			t.Errorf("shown identity off by %g", d)
+		}
+		if d := math.Log(e.Probabilities[e.Class]/e.Probabilities[e.RunnerUp]) - lo.Value; d > 1e-4 || d < -1e-4 {
+			t.Errorf("log-odds %g is not log p(%s)/p(%s) of the probabilities shown (off by %g)", lo.Value, e.Label, e.Labels[e.RunnerUp], d)
+		}
+		// Every kept-down window is shown with its measured check.
+		for _, kd := range e.KeptDown {
+			row := "<td>" + fmt.Sprintf("%d (width %d)", kd.Filter, kd.Width) + "</td>"
+			if !strings.Contains(out, row) || !strings.Contains(out, `<td class="num">`+signed(kd.LogOdds-lo.Value)+`</td><td class="num">`+signed(kd.Drop)+`</td>`) {
+				t.Errorf("kept-down window of filter %d at %d not shown with its measured change", kd.Filter, kd.Start)
+			}
+		}
+	}
+	// Filters: every selective filter shown is shown with its held-out
+	// figures, and none that is not selective is shown.
+	for _, f := range d.input.Profiles.Filters {
+		card := fmt.Sprintf("<h4>Filter %d · width %d</h4>", f.Filter, f.Width)
+		if strings.Contains(out, card) && !f.Selectivity.Selective {
+			t.Errorf("filter %d shown though not selective", f.Filter)
+		}
+		if strings.Contains(out, card) && !strings.Contains(out, heldOut(&f.Selectivity, f.Label)) {
+			t.Errorf("filter %d shown without its held-out figures %q", f.Filter, heldOut(&f.Selectivity, f.Label))
 		}
 	}
 	if got := strings.Count(out, `<div class="example">`); got != len(d.input.Examples) {

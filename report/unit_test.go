@@ -123,13 +123,13 @@ func TestPaintKeepsText(t *testing.T) {
 	text := "Hi  there,\nfriend!"
 	toks := []explain.TokenSpan{{Text: "hi", Start: 0, End: 2}, {Text: "there", Start: 4, End: 9}, {Text: ",", Start: 9, End: 10}, {Text: "friend", Start: 11, End: 17}, {Text: "!", Start: 17, End: 18}}
 	share := []float64{0.5, -0.25, 0, 1, -1}
-	segs := paint(text, toks, share, 1, "x")
+	segs := paint(text, toks, share, 1, "x", "y")
 	var b strings.Builder
 	painted := 0
 	for _, s := range segs {
 		b.WriteString(s.Text)
 		if s.Style != "" {
-			if want := fmt.Sprintf("%s: %s toward x", toks[painted].Text, signed(share[painted])); s.Title != want {
+			if want := fmt.Sprintf("%s: %s to log p(x)/p(y)", toks[painted].Text, signed(share[painted])); s.Title != want {
 				t.Errorf("title %q, want %q", s.Title, want)
 			}
 			painted++
@@ -142,7 +142,7 @@ func TestPaintKeepsText(t *testing.T) {
 		t.Errorf("%d tokens painted, want %d", painted, len(toks))
 	}
 	// Without offsets the tokens are shown by their own text.
-	segs = paint("ab", []explain.TokenSpan{{Text: "a"}, {Text: "b"}}, []float64{1, 1}, 1, "x")
+	segs = paint("ab", []explain.TokenSpan{{Text: "a"}, {Text: "b"}}, []float64{1, 1}, 1, "x", "y")
 	b.Reset()
 	for _, s := range segs {
 		b.WriteString(s.Text)

@@ -1,0 +1,330 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"math"
+	"path/filepath"
+	"slices"
+	"strings"
+	"testing"
+
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/explain"
+	"telltale/internal/testref"
+)
+
+// TestExplainTextShowsTheJSONNumbers: what explain writes for a reader is
+// the identified split its --json gives (output bias, filter biases, token
+// shares adding up to the log-odds of the label against the runner-up), the
+// fired filters' parts of it and every window kept down with its estimate
+// and its measured check.
+func TestExplainTextShowsTheJSONNumbers(t *testing.T) {
+	model := tinyModel(t)
+	text := "The deckhand was not friendly at all and my refund never came."
+	args := []string{"explain", "--model", model, "--text", text, "--kept-down", "3", "--color", "never"}
+	code, out, stderr := tt(t, args...)
+	if code != 0 {
+		t.Fatalf("explain: exit %d: %s", code, stderr)
+	}
+	code, js, stderr := tt(t, append(args, "--json")...)
+	if code != 0 {
+		t.Fatalf("explain --json: exit %d: %s", code, stderr)
+	}
+	var e explain.Explanation
+	if err := json.Unmarshal([]byte(js), &e); err != nil {
+		t.Fatal(err)
+	}
+	lo := e.LogOdds
+	var fb, tok float64
+	for _, v := range lo.FilterBias {
+		fb += v
+	}
+	for _, v := range lo.Tokens {
+		tok += v
+	}
+	q := fmt.Sprintf("log p(%s)/p(%s)", e.Label, e.Labels[e.RunnerUp])
+	want := []string{
+		fmt.Sprintf("%s = %+.3f = output bias %+.3f + filter biases %+.3f + token shares %+.3f", q, lo.Value, lo.OutputBias, fb, tok),
+		"filters that fired, by their part of " + q,
+	}
+	if len(e.KeptDown) == 0 {
+		t.Fatalf("no window kept down on %q: the check checks nothing", text)
+	}
+	for _, kd := range e.KeptDown {
+		want = append(want, fmt.Sprintf("filter %-4d width %d", kd.Filter, kd.Width),
+			fmt.Sprintf("estimate %+.3f, measured %+.3f (p(%s) falls by %+.3f)", kd.Effect, kd.LogOdds-lo.Value, e.Label, kd.Drop))
+	}
+	for _, w := range want {
+		if !strings.Contains(out, w) {
+			t.Errorf("explain's text lacks %q:\n%s", w, out)
+		}
+	}
+	// The largest part of the log-odds among the fired filters is listed first.
+	best := 0
+	for k := range e.Filters {
+		if math.Abs(lo.Filters[k]) > math.Abs(lo.Filters[best]) {
+			best = k
+		}
+	}
+	first := fmt.Sprintf("filter %-4d width %d  %+.3f (%+.3f)", e.Filters[best].Filter, e.Filters[best].Width, lo.Filters[best], lo.FilterBias[best])
+	if _, after, _ := strings.Cut(out, "filters that fired"); !strings.Contains(strings.SplitN(after, "\n", 3)[1], first) {
+		t.Errorf("the first fired filter listed is not %q:\n%s", first, out)
+	}
+	// --class: the centred logit of that label.
+	c := (e.Class + 1) % len(e.Labels)
+	code, out, _ = tt(t, "explain", "--model", model, "--text", text, "--class", e.Labels[c], "--color", "never")
+	s := e.Centred[c]
+	if code != 0 || !strings.Contains(out, fmt.Sprintf("the centred logit of %s = %+.3f = output bias %+.3f", e.Labels[c], s.Value, s.OutputBias)) {
+		t.Errorf("explain --class %s: exit %d, no split of its centred logit %+.3f:\n%s", e.Labels[c], code, s.Value, out)
+	}
+}
+
+// TestSlotTablesBreakEven: explaining text after text builds one table of
+// the whole vocabulary once the words tabled text by text reach what it
+// holds, and the explanations with it are those without it.
+func TestSlotTablesBreakEven(t *testing.T) {
+	m, err := cnn.Load(tinyModel(t))
+	if err != nil {
+		t.Fatal(err)
+	}
+	enc, err := m.Encoder()
+	if err != nil {
+		t.Fatal(err)
+	}
+	tables := newSlotTables(m)
+	if tables.budget != m.Config.VocabSize {
+		t.Fatalf("budget %d words, the tiny model's vocabulary of %d fits the default bound", tables.budget, m.Config.VocabSize)
+	}
+	ds, _, err := corpus.Load(filepath.Join("testdata", "demo", "test.csv"), corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	spent, built := 0, -1
+	for i, ex := range ds.Examples[:400] {
+		toks, ids := enc.Encode(ex.Text)
+		before := tables.st
+		st, err := tables.forText(ids)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if before == nil {
+			spent += len(slices.Compact(slices.Sorted(slices.Values(ids))))
+		}
+		switch {
+		case spent < tables.budget && st != nil:
+			t.Fatalf("text %d: a table built after %d of %d words", i, spent, tables.budget)
+		case spent >= tables.budget && st == nil:
+			t.Fatalf("text %d: no table after %d of %d words", i, spent, tables.budget)
+		case st != nil && built < 0:
+			built = i
+		}
+		if st == nil || i%20 != 0 {
+			continue
+		}
+		with, err := explain.Explain(m, toks, ids, explain.ExplainOptions{Table: st, Occlusion: true, KeptDown: 2})
+		if err != nil {
+			t.Fatal(err)
+		}
+		without, err := explain.Explain(m, toks, ids, explain.ExplainOptions{Occlusion: true, KeptDown: 2})
+		if err != nil {
+			t.Fatal(err)
+		}
+		a, _ := json.Marshal(with)
+		b, _ := json.Marshal(without)
+		if path, ok := jsonNumbersClose(a, b); !ok {
+			t.Errorf("text %d: the explanation with the vocabulary's table differs from the one with the text's own at %s", i, path)
+		}
+	}
+	if built < 0 {
+		t.Fatalf("no table built over 400 texts (%d of %d words)", spent, tables.budget)
+	}
+	t.Logf("the table was built at text %d", built)
+}
+
+// jsonNumbersClose reports whether two JSON documents have the same
+// structure and strings, and numbers within 1e-5 (absolute or relative):
+// the two tables compute the same float32 dot products with kernels that
+// may add in another order, a few units in 1e-7 apart.
+func jsonNumbersClose(a, b []byte) (string, bool) {
+	var x, y any
+	if json.Unmarshal(a, &x) != nil || json.Unmarshal(b, &y) != nil {
+		return "(not JSON)", false
+	}
+	var walk func(path string, x, y any) (string, bool)
+	walk = func(path string, x, y any) (string, bool) {
+		switch x := x.(type) {
+		case map[string]any:
+			y, ok := y.(map[string]any)
+			if !ok || len(x) != len(y) {
+				return path, false
+			}
+			for k, v := range x {
+				if p, ok := walk(path+"."+k, v, y[k]); !ok {
+					return p, false
+				}
+			}
+		case []any:
+			y, ok := y.([]any)
+			if !ok || len(x) != len(y) {
+				return path, false
+			}
+			for i := range x {
+				if p, ok := walk(fmt.Sprintf("%s[%d]", path, i), x[i], y[i]); !ok {
+					return p, false
+				}
+			}
+		case float64:
+			y, ok := y.(float64)
+			if !ok || !testref.Close(x, y, 1e-5, 1e-5) {
+				return fmt.Sprintf("%s (%v, %v)", path, x, y), false
+			}
+		default:
+			if x != y {
+				return path, false
+			}
+		}
+		return "", true
+	}
+	return walk("", x, y)
+}
+
+// TestFiltersTextAndReopen: filters reads its file again when a filter's
+// negative n-grams need a second search, so that every one is exact (on one
+// thread, the demo corpus needs it: without the second reading some are
+// not); the text says which filters are not selective and brackets the
+// words at the negative slots of each negative n-gram.
+func TestFiltersTextAndReopen(t *testing.T) {
+	model := filepath.Join(t.TempDir(), "m.tt")
+	if code, _, stderr := tt(t, "train", "--data", demoPart(t, t.TempDir(), 1000), "--out", model, "--epochs", "1", "--dim", "16",
+		"--maps", "60", "--threads", "1", "--quiet"); code != 0 {
+		t.Fatalf("train: exit %d: %s", code, stderr)
+	}
+	data := filepath.Join("testdata", "demo", "train.csv")
+	m, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	enc, err := m.Encoder()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var ro readOptions
+	ro.MaxTextBytes = corpus.DefaultMaxTextBytes
+	next, stop := streamTexts(context.Background(), data, ro.corpusOptions(false), ro.example, enc, m.Labels)
+	once, err := explain.ProfileStream(context.Background(), m, next, explain.ProfileOptions{Workers: 1, TopK: 3, Negatives: 3})
+	stop()
+	if err != nil {
+		t.Fatal(err)
+	}
+	inexact := 0
+	for _, f := range once.Filters {
+		if !f.NegativesExact {
+			inexact++
+		}
+	}
+	if inexact == 0 {
+		t.Fatalf("read once, every filter's negative n-grams are exact: the check checks nothing")
+	}
+	t.Logf("read once, %d of %d filters' negative n-grams are not exact", inexact, len(once.Filters))
+	code, js, stderr := tt(t, "filters", "--model", model, "--data", data, "--threads", "1", "--top", "3", "--json", "--quiet")
+	if code != 0 {
+		t.Fatalf("filters --json: exit %d: %s", code, stderr)
+	}
+	var p explain.Profiles
+	if err := json.Unmarshal([]byte(js), &p); err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range p.Filters {
+		if !f.NegativesExact {
+			t.Errorf("filter %d: negative n-grams not exact though the file can be read again", f.Filter)
+		}
+	}
+	code, out, stderr := tt(t, "filters", "--model", model, "--data", data, "--threads", "1", "--top", "3", "--quiet")
+	if code != 0 {
+		t.Fatalf("filters: exit %d: %s", code, stderr)
+	}
+	blocks := strings.Split(out, "\nfilter ")[1:]
+	if len(blocks) != len(p.Filters) {
+		t.Fatalf("%d filters written, %d profiled", len(blocks), len(p.Filters))
+	}
+	negatives := 0
+	for i, f := range p.Filters {
+		b := blocks[i]
+		if strings.Contains(strings.SplitN(b, "\n", 2)[0], "[not selective]") == f.Selectivity.Selective {
+			t.Errorf("filter %d: selective %v, heading %q", f.Filter, f.Selectivity.Selective, strings.SplitN(b, "\n", 2)[0])
+		}
+		for _, n := range f.Negatives {
+			negatives++
+			if !strings.Contains(b, fmt.Sprintf("%8.3f  %.3f → %.3f  ×%-5d %s", n.HeldDown, n.Positive, n.Activation, n.Count,
+				slotString(n.Tokens, n.Slots, n.NegativeSlots))) {
+				t.Errorf("filter %d: negative n-gram %q not written", f.Filter, n.Tokens)
+			}
+			for _, s := range n.NegativeSlots {
+				if !(n.Slots[s] < 0) || !strings.Contains(slotString(n.Tokens, n.Slots, n.NegativeSlots), "["+n.Tokens[s]+"]") {
+					t.Errorf("filter %d: negative slot %d of %q (score %g) not bracketed", f.Filter, s, n.Tokens, n.Slots[s])
+				}
+			}
+		}
+	}
+	if negatives == 0 {
+		t.Errorf("no negative n-gram written: the check checks nothing")
+	}
+}
+
+// TestFaithfulnessText: the text gives each method's aggregates with their
+// intervals, the single-token figures apart and the paired tests, as in
+// --json, where figures without a text are null.
+func TestFaithfulnessText(t *testing.T) {
+	model := tinyModel(t)
+	data := demoPart(t, t.TempDir(), 200)
+	args := []string{"faithfulness", "--model", model, "--data", data, "--limit", "60", "--quiet"}
+	code, out, stderr := tt(t, args...)
+	if code != 0 {
+		t.Fatalf("faithfulness: exit %d: %s", code, stderr)
+	}
+	code, js, stderr := tt(t, append(args, "--json")...)
+	if code != 0 {
+		t.Fatalf("faithfulness --json: exit %d: %s", code, stderr)
+	}
+	if strings.Contains(js, "NaN") {
+		t.Errorf("--json holds NaN")
+	}
+	var r struct {
+		Methods []struct {
+			Method            string     `json:"method"`
+			Comp              *float64   `json:"comp"`
+			CompCI            ciJSON     `json:"comp_ci"`
+			Comprehensiveness []*float64 `json:"comprehensiveness"`
+		} `json:"methods"`
+		Pairs []struct {
+			A, B, Measure string
+			Diff          *float64 `json:"diff"`
+			P             *float64 `json:"p"`
+		} `json:"pairs"`
+	}
+	if err := json.Unmarshal([]byte(js), &r); err != nil {
+		t.Fatal(err)
+	}
+	if len(r.Methods) != 4 || len(r.Pairs) != 18 {
+		t.Fatalf("%d methods and %d pairs, want 4 and 18 (3 measures of 6 pairs)", len(r.Methods), len(r.Pairs))
+	}
+	for _, mf := range r.Methods {
+		line := fmt.Sprintf("%-10s  %+.4f [%+.4f, %+.4f]", mf.Method, *mf.Comp, *mf.CompCI.Low, *mf.CompCI.High)
+		if !strings.Contains(out, line) {
+			t.Errorf("the text lacks %q:\n%s", line, out)
+		}
+	}
+	for _, part := range []string{"the top token alone", "methods compared text by text", "exact      − occlusion  comp"} {
+		if !strings.Contains(out, part) {
+			t.Errorf("the text lacks %q", part)
+		}
+	}
+}
+
+type ciJSON struct {
+	Low  *float64 `json:"low"`
+	High *float64 `json:"high"`
+}
