@@ -33,13 +33,13 @@ type filtersView struct {
 
 // Columns of the filter list; the last cell of each row (its top n-grams)
 // is searched but not shown.
-var filterCols = []string{"filter", "width", "votes for", "vote margin", "suspicion score", "cue words",
+var filterCols = []string{"filter", "width", "votes for", "vote margin", "cue rank", "cue it reads",
 	"fired in", "purity threshold", "purity", "families", "idle"}
 
 const (
-	colFilterMargin    = 3
-	colFilterSuspicion = 4
-	colFilterCues      = 5
+	colFilterMargin  = 3
+	colFilterCueRank = 4
+	colFilterCues    = 5
 )
 
 func newFiltersView(st *State) *filtersView {
@@ -224,8 +224,8 @@ func wordScores(ws []explain.WordScore) string {
 	return strings.Join(parts, ", ")
 }
 
-// refresh lists the profiled filters, ranked by vote margin (by suspicion
-// once an audit ran), the first one selected.
+// refresh lists the profiled filters, ranked by vote margin (by the rank
+// of the cue they read once an audit ran), the first one selected.
 func (v *filtersView) refresh() {
 	ps := itemGet(v.st.profiles)
 	if ps == nil {
@@ -243,12 +243,12 @@ func (v *filtersView) refresh() {
 			top = append(top, strings.Join(n.Tokens, " "))
 		}
 		rows[i] = []string{fmt.Sprint(fp.Filter), fmt.Sprint(fp.Width), fp.Label, fmt.Sprintf("%.3f", fp.Margin),
-			au.suspicionOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thresholdText(fp.Threshold),
+			au.cueRankOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thresholdText(fp.Threshold),
 			fmt.Sprintf("%.2f", fp.AbovePurity), fmt.Sprint(len(fp.Families)), yesNo(fp.Idle), strings.Join(top, " / ")}
 	}
 	v.list.setRows(rows)
 	if au != nil {
-		v.list.sortOn(colFilterSuspicion, true)
+		v.list.sortOn(colFilterCueRank, false)
 	} else if v.list.sortCol < 0 {
 		v.list.sortOn(colFilterMargin, true)
 	}
@@ -259,7 +259,8 @@ func (v *filtersView) refresh() {
 	v.body.Refresh()
 }
 
-// auditChanged shows the audit's scores in the list, ranked by suspicion.
+// auditChanged shows the cues the filters read in the list, ranked by the
+// cue's rank among the artifact-like cues.
 func (v *filtersView) auditChanged() {
 	if itemGet(v.st.profiles) != nil {
 		v.refresh()

@@ -125,7 +125,7 @@ func newModelState(m *cnn.Model, path string) (*modelState, error) {
 func (st *State) setModel(ms *modelState) {
 	st.cancel(taskProfile)
 	st.cancel(taskAudit)
-	st.cancel(taskMask)
+	st.cancel(taskRetrain)
 	st.audit.Set(nil)
 	st.profiles.Set(nil)
 	st.model.Set(ms)
@@ -193,11 +193,16 @@ func (st *State) openModel(path string, then func()) {
 	})
 }
 
-// saveModel writes ms to path (atomically, by cnn.Save).
+// saveModel writes ms to path (atomically, by cnn.Save), and the marks of
+// its cues beside it; marks that cannot be written are reported on their
+// own, the model being saved.
 func (st *State) saveModel(ms *modelState, path string) error {
 	if err := ms.Model.Save(path); err != nil {
 		return err
 	}
 	ms.Path = path
+	if err := st.auditView.modelSaved(path); err != nil {
+		st.showError(err)
+	}
 	return nil
 }

@@ -75,7 +75,7 @@ func TestTermsWellFormed(t *testing.T) {
 	}
 	// The terms the project's guide requires (DEVELOPERS.md, One vocabulary).
 	for _, name := range []string{"slot score", "family", "purity threshold", "trigger words", "suppressor words",
-		"votes", "vote margin", "exact share", "occlusion", "flagged word", "suspicion score", "cue group"} {
+		"votes", "vote margin", "exact share", "occlusion", "association", "reliance", "artifact-likeness"} {
 		if _, ok := Lookup(name); !ok {
 			t.Errorf("the glossary lacks %q", name)
 		}
