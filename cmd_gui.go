@@ -31,11 +31,14 @@ var cmdGUI = &command{
 	Name:      "gui",
 	UsageLine: "gui [--data FILE] [--test FILE] [--model MODEL] [--view NAME] [--demo-train] [--quit-after DURATION]",
 	Short:     "open the desktop window (on the built-in demo corpus when no data is given)",
-	Long: `Gui opens the telltale window: the corpus, training with live curves, the
-results, the filter catalogue, the explanation of any sentence as you type,
-and the cue audit. Without --data it opens on the demo corpus built into the
-binary. It needs a display; without one, use the command line (train, eval,
-explain, filters, audit) or 'telltale report' for an HTML report.
+	Long: `Gui opens the telltale window, one view for each step: Corpus (the three
+splits, made as train makes them), Training (live curves), Results (the test
+split), Filters, Why this label (any sentence explained as you type) and Cue
+audit (the cues the model relies on that look like how the data was
+collected, with marks, retraining without them and what to do). Without
+--data it opens on the demo corpus built into the binary. It needs a display;
+without one, use the command line (train, eval, explain, filters, audit) or
+'telltale report' for an HTML report.
 
 ` + gui.Caution,
 	Options: func() options { return new(guiOptions) },
@@ -54,7 +57,7 @@ func (o *guiOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.LabelCol, "label-col", "", "name of the label column or field")
 	fs.StringVar(&o.ModelPath, "model", "", "a model file to open")
 	fs.StringVar(&o.StartView, "view", "", "the view to open first: "+strings.Join(gui.ViewTitles(), ", "))
-	fs.BoolVar(&o.AutoRun, "demo-train", false, "with no model, train one at start and profile its filters")
+	fs.BoolVar(&o.AutoRun, "demo-train", false, "with no model, train one at start, profile its filters and run the cue audit")
 	fs.DurationVar(&o.quitAfter, "quit-after", 0, "close the window after this long (for scripts)")
 }
 

@@ -6,7 +6,6 @@ import (
 	"fmt"
 
 	"telltale/cnn"
-	"telltale/explain"
 	"telltale/internal/outguard"
 )
 
@@ -67,7 +66,7 @@ func runMask(ctx context.Context, env *runEnv, o *maskOptions) error {
 	if err != nil {
 		return err
 	}
-	masked, err := explain.MaskFilters(m, o.indexes)
+	masked, err := m.MaskedCopy(o.indexes)
 	if err != nil {
 		return usageError{err.Error()}
 	}

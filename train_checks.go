@@ -6,7 +6,6 @@ import (
 	"strings"
 
 	"telltale/corpus"
-	"telltale/explain"
 )
 
 // checkData refuses, before training, data that would give a useless
@@ -78,7 +77,7 @@ func (o *trainOptions) checkVocabulary(sp *splits) error {
 // matches were taken out, and warns of a plain-token line that looks like
 // a regular expression and matches nothing (the slashes were forgotten).
 func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet bool) (*corpus.Dataset, error) {
-	cm, err := explain.LoadCueMasker(file)
+	cm, err := corpus.LoadCueMasker(file)
 	if err != nil {
 		return nil, err
 	}
@@ -99,7 +98,7 @@ func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet boo
 		if strings.HasPrefix(p, "/") || !strings.ContainsAny(p, `\[]{}()*+?|^$`) {
 			continue
 		}
-		if one, err := explain.MaskTokens([]string{p}); err == nil && !matchesAny(one, train) {
+		if one, err := corpus.MaskTokens([]string{p}); err == nil && !matchesAny(one, train) {
 			fmt.Fprintf(w, "warning: %s: the pattern %q matches nothing: without slashes it is a plain token, not a regular expression; write /%s/ for one\n",
 				file, clip(p), clip(p))
 		}
@@ -108,7 +107,7 @@ func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet boo
 }
 
 // matchesAny reports whether cm matches in any text of d.
-func matchesAny(cm *explain.CueMasker, d *corpus.Dataset) bool {
+func matchesAny(cm *corpus.CueMasker, d *corpus.Dataset) bool {
 	for _, e := range d.Examples {
 		if _, n := cm.Mask(e.Text); n > 0 {
 			return true

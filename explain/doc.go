@@ -1,7 +1,9 @@
 // Package explain tells what a trained sentence CNN (package cnn) responds to
 // and why a text got its label. Every number it reports is an identity a
 // test asserts or a quantity measured by re-running the model, with its
-// uncertainty where it is estimated.
+// uncertainty where it is estimated. It keeps profiles, families,
+// attributions and faithfulness; the cue audit, which runs texts through
+// its word-slot tables (SlotTable, Scan), is package audit.
 //
 // # Word-slot tables
 //

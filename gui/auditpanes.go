@@ -2,226 +2,371 @@ package gui
 
 import (
 	"fmt"
-	"slices"
+	"path/filepath"
 	"strings"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/widget"
 
-	"telltale/explain"
+	"telltale/audit"
+	"telltale/report"
 )
 
-// evidencePane shows the evidence of the cue group or suspect selected
-// last: its score's parts, its cue words, what masking and substitution
-// change, and the texts behind the figures (click one to explain it).
-type evidencePane struct {
-	st                 *State
-	title, exampleNote *widget.Label
-	parts, effects     *factList
-	words, examples    *sheet
-	exampleList        []explain.AuditExample
-	tabs               *container.AppTabs
+// proseList shows rows of (name, sentence) as wrapped lines: the name in
+// bold, the sentence as it is, so a long sentence is never cut.
+type proseList struct {
+	rows [][2]string
+	box  *fyne.Container
+	view *container.Scroll
 }
 
-const evidenceHint = "Select a cue group or a suspect to see its evidence."
+func newProseList() *proseList {
+	p := &proseList{box: container.NewVBox()}
+	p.view = container.NewVScroll(p.box)
+	return p
+}
 
-func newEvidencePane(st *State) *evidencePane {
-	p := &evidencePane{st: st}
+// set shows rows, scrolled to the top.
+func (p *proseList) set(rows [][2]string) {
+	p.rows = rows
+	p.box.Objects = nil
+	for _, r := range rows {
+		var segs []widget.RichTextSegment
+		if r[0] != "" {
+			segs = append(segs, &widget.TextSegment{Text: r[0] + "  ", Style: widget.RichTextStyleStrong})
+		}
+		segs = append(segs, &widget.TextSegment{Text: r[1], Style: widget.RichTextStyleInline})
+		t := widget.NewRichText(segs...)
+		t.Wrapping = fyne.TextWrapWord
+		p.box.Add(t)
+	}
+	p.box.Refresh()
+	p.view.ScrollToTop()
+}
+
+// The marks a cue can be given, as the verdict buttons name them.
+var markNames = []struct{ kind, name string }{
+	{audit.MarkArtifact, "artifact"},
+	{audit.MarkTask, "task"},
+	{"", "no mark"},
+}
+
+// evidencePane shows the selected cue: what it is and the audit's verdict,
+// the person's mark (artifact or task), its association, reliance and
+// artifact-likeness in words with their intervals, and the texts and
+// filters behind the figures (click one to open it).
+type evidencePane struct {
+	v         *auditView
+	title     *widget.Label
+	verdict   *widget.RadioGroup
+	marksNote *widget.Label
+	facts     *proseList
+	examples  *sheet
+	exList    []auditExample
+	words     []string // the cue shown, as marks name it
+	quiet     bool     // the verdict is being set by the program
+}
+
+const evidenceHint = "Select a cue in the lists to see its evidence here."
+
+func newEvidencePane(v *auditView) *evidencePane {
+	p := &evidencePane{v: v}
 	p.title = wrapped(evidenceHint)
 	p.title.TextStyle.Bold = true
-	p.parts = newFactList()
-	p.words = newSheet("cue word", "label", "z", "share of slot mass", "share of windows")
-	p.effects = newFactList()
-	p.examples = newSheet(exampleCols...).wide(7, 200).wide(8, capText)
-	p.examples.onSelect = p.explainRow
-	p.exampleNote = wrapped("")
+	var names []string
+	for _, m := range markNames {
+		names = append(names, m.name)
+	}
+	p.verdict = widget.NewRadioGroup(names, p.markChosen)
+	p.verdict.Horizontal = true
+	p.verdict.Required = true
+	p.verdict.Disable()
+	p.marksNote = wrapped("")
+	p.facts = newProseList()
+	p.examples = newSheet(exampleCols...).wide(0, 200).wide(6, capText)
+	p.examples.onSelect = p.openRow
 	return p
 }
 
 func (p *evidencePane) content() fyne.CanvasObject {
-	p.tabs = container.NewAppTabs(
-		container.NewTabItem("Score parts", p.parts.view),
-		container.NewTabItem("Cue words", p.words.view()),
-		container.NewTabItem("Interventions", p.effects.view),
-		container.NewTabItem("Examples", container.NewBorder(p.exampleNote, p.examples.detail, nil, nil, p.examples.view())),
-	)
-	return container.NewBorder(tall(container.NewVScroll(p.title), 96), nil, nil, nil, p.tabs)
+	head := container.NewVBox(p.title, container.NewHBox(widget.NewLabel("Your verdict:"), p.verdict), p.marksNote)
+	behind := container.NewBorder(wrapped("Behind the figures (click one to open it):"),
+		p.examples.detail, nil, nil, p.examples.view())
+	split := container.NewVSplit(p.facts.view, behind)
+	split.Offset = 0.6
+	return container.NewBorder(head, nil, nil, nil, split)
 }
 
-// explainRow sends an example's whole text to the explanation view.
-func (p *evidencePane) explainRow(row int) {
-	if a := itemGet(p.st.audit); a != nil && row < len(p.exampleList) {
-		p.st.explainThis(a.text(p.exampleList[row]), p.examples)
-	}
-}
-
+// clear shows no cue.
 func (p *evidencePane) clear() {
+	p.words = nil
 	p.title.SetText(evidenceHint)
-	p.parts.set(nil)
-	p.effects.set(nil)
-	p.words.setRows(nil)
+	p.setVerdict("")
+	p.verdict.Disable()
+	p.facts.set(nil)
+	p.exList = nil
 	p.examples.setRows(nil)
-	p.exampleList = nil
-	p.exampleNote.SetText("")
 }
 
-// setExamples lists the quoted texts under their figures.
-func (p *evidencePane) setExamples(figs []string, lists [][]explain.AuditExample, note string) {
-	p.exampleList = nil
-	var rows [][]string
-	for i, exs := range lists {
-		p.exampleList = append(p.exampleList, exs...)
-		rows = append(rows, exampleRows(figs[i], exs)...)
+// showMarks says where the marks are kept.
+func (p *evidencePane) showMarks(am *auditMarks) {
+	p.marksNote.SetText(am.note())
+	if am.err != nil || p.words == nil {
+		p.verdict.Disable()
+	} else {
+		p.verdict.Enable()
 	}
-	p.examples.setRows(rows)
-	p.exampleNote.SetText(fmt.Sprintf("%s behind the figures (# is the text's index in its split, from 0): %s Click one to explain it.",
-		capitalize(texts(len(rows))), note))
 }
 
-// showSuspect shows suspect s.
-func (p *evidencePane) showSuspect(a *auditState, s *explain.Suspect) {
-	pt := s.Parts
-	p.title.SetText(fmt.Sprintf("Filter %d (width %d) votes for %s; cue words: %s. Suspicion score %.4f = %.4f × max(0, %.4f).",
-		s.Filter, s.Width, s.Label, orDash(cueWords(s)), s.Score, pt.FlaggedShare, pt.Harm))
-	p.parts.set(suspectParts(s))
-	p.words.setRows(cueRows(s))
-	p.effects.set(suspectEffects(s))
-	ex := s.Examples
-	p.setExamples([]string{"cue window", "conflict, masked", "substitution flip"},
-		[][]explain.AuditExample{ex.Windows, ex.Conflict, ex.Counterfactual},
-		"training windows at or above the threshold that hold a cue, test texts where the cue points away from the gold label and masking changes the prediction, and substitutions that changed it.")
+// show shows listed cue k of audit a.
+func (p *evidencePane) show(a *auditState, k int) {
+	c := a.listed[k]
+	ev := report.DescribeCue(c, a.R, a.priors)
+	rank, artifact := a.rankOf(k)
+	list := "artifact-like cue"
+	if !artifact {
+		list = "cue that reads like the task"
+	}
+	p.title.SetText(fmt.Sprintf("%s → %s: %s (%s %d)", capitalize(ev.Name), ev.Label, ev.Verdict, list, rank))
+	p.words = c.Words
+	p.setVerdict(c.Mark)
+	p.showMarks(p.v.marks)
+	reliance := ev.Reliance
+	if reliance == "" {
+		reliance = "not measured: " + ev.Verdict
+	}
+	rows := [][2]string{{"Association", ev.Association}, {"Reliance", reliance}, {"Artifact-likeness", ev.Artifact}}
+	for _, s := range ev.Signals {
+		rows = append(rows, [2]string{"", "· " + s})
+	}
+	if ev.Filters != "" {
+		rows = append(rows, [2]string{"Filters", ev.Filters})
+	}
+	for i := range rows {
+		rows[i][1] = inWindowWords(rows[i][1])
+	}
+	p.facts.set(rows)
+	p.exList = a.examplesOf(k)
+	p.examples.setRows(exampleRows(p.exList))
 }
 
-// showGroup shows cue group G (0-based position).
-func (p *evidencePane) showGroup(a *auditState, G int) {
-	cg := &a.A.CueGroups[G]
-	p.title.SetText(groupStory(a, G))
-	p.parts.set(groupParts(cg))
-	p.words.setRows(groupWordRows(a, cg))
-	p.effects.set(groupEffects(cg))
-	p.setExamples([]string{"conflict, masked"}, [][]explain.AuditExample{cg.Examples},
-		"test texts where the group's words point away from the gold label and masking its filters changes the prediction.")
+// setVerdict shows mark kind on the verdict buttons without acting on it.
+func (p *evidencePane) setVerdict(kind string) {
+	p.quiet = true
+	defer func() { p.quiet = false }()
+	for _, m := range markNames {
+		if m.kind == kind {
+			p.verdict.SetSelected(m.name)
+		}
+	}
 }
 
-// maskPane ticks filters and shows the test split with the ticked filters
-// masked in a copy of the model, beside the model as trained.
-type maskPane struct {
-	st      *State
-	v       *auditView
-	ticked  map[int]bool
-	mask    *maskState // the masked copy on screen
-	compare *sheet
-	note    *widget.Label
-	save    *widget.Button
+// markChosen marks the cue shown as the person chose.
+func (p *evidencePane) markChosen(name string) {
+	if p.quiet || p.words == nil {
+		return
+	}
+	for _, m := range markNames {
+		if m.name != name {
+			continue
+		}
+		if err := p.v.setMark(p.words, m.kind); err != nil {
+			p.v.st.showError(err)
+			p.setVerdict(p.v.marks.marks.Get(p.words))
+		}
+	}
 }
 
-const maskHint = "Tick filters to mask them in a copy of the model; its test figures appear here. The other views keep the model as trained."
+// openRow opens what stands behind a figure: a text in Why this label, a
+// filter in the Filters view.
+func (p *evidencePane) openRow(row int) {
+	if row >= len(p.exList) {
+		return
+	}
+	e := p.exList[row]
+	if e.Filter >= 0 {
+		p.v.st.showFilter(e.Filter, p.examples)
+		return
+	}
+	p.v.st.explainThis(e.Text, p.examples)
+}
 
-func newMaskPane(st *State, v *auditView) *maskPane {
-	p := &maskPane{st: st, v: v, ticked: map[int]bool{}}
-	p.compare = newSheet("measure", "as trained", "masked", "change")
-	p.note = wrapped(maskHint)
-	p.save = widget.NewButton("Save masked model…", p.saveMasked)
-	p.save.Disable()
+// actionPane is what to do: the cues acted on and what the model scores
+// without them, retraining without them (and the two models compared), and
+// the filter mask when the confirming half supports one.
+type actionPane struct {
+	v                       *auditView
+	text                    *widget.Label
+	figures                 *proseList
+	retrainBtn, saveRetrain *widget.Button
+	saveMask                *widget.Button
+	compareNote             *widget.Label
+	compare                 *sheet
+	cueTexts                *sheet
+	tabs                    *container.AppTabs
+	exList                  []auditExample
+	result                  *retrained // the last retraining
+}
+
+const noRetrainYet = "Retrain without the cues to compare both models here: the model's recipe on the training split with the cues taken out, " +
+	"both models then on the test split as it is and with the cues taken out."
+
+func newActionPane(v *auditView) *actionPane {
+	p := &actionPane{v: v}
+	p.text = wrapped("")
+	p.figures = newProseList()
+	p.retrainBtn = widget.NewButton("Retrain without the cues", p.retrain)
+	p.retrainBtn.Importance = widget.HighImportance
+	p.saveRetrain = widget.NewButton("Save the retrained model…", p.saveRetrained)
+	p.saveMask = widget.NewButton("Save the masked model…", p.saveMasked)
+	p.compareNote = wrapped(noRetrainYet)
+	p.compare = newSheet(retrainCols...)
+	p.cueTexts = newSheet(exampleCols...).wide(6, capText)
+	p.cueTexts.onSelect = func(row int) {
+		if row < len(p.exList) {
+			v.st.explainThis(p.exList[row].Text, p.cueTexts)
+		}
+	}
+	p.reset()
 	return p
 }
 
-func (p *maskPane) content() fyne.CanvasObject {
-	return container.NewBorder(p.note, container.NewHBox(p.save), nil, nil, p.compare.view())
+func (p *actionPane) content() fyne.CanvasObject {
+	buttons := container.NewVBox(container.NewHBox(p.retrainBtn, p.saveRetrain), container.NewHBox(p.saveMask))
+	top := container.NewBorder(nil, buttons, nil, nil,
+		container.NewVScroll(container.NewVBox(p.text, p.figures.box)))
+	p.tabs = container.NewAppTabs(
+		container.NewTabItem("Both models", container.NewBorder(p.compareNote, nil, nil, nil, p.compare.view())),
+		container.NewTabItem("Texts that hold a cue", container.NewBorder(nil, p.cueTexts.detail, nil, nil, p.cueTexts.view())),
+	)
+	split := container.NewVSplit(top, p.tabs)
+	split.Offset = 0.6
+	return split
 }
 
-// saveMasked asks where to save the masked copy.
-func (p *maskPane) saveMasked() {
-	if p.mask == nil {
+// reset drops the retraining (a new model is open).
+func (p *actionPane) reset() {
+	p.result = nil
+	p.compareNote.SetText(noRetrainYet)
+	p.compare.setRows(nil)
+	p.auditChanged(nil)
+}
+
+// auditChanged says what to do after audit a.
+func (p *actionPane) auditChanged(a *auditState) {
+	p.buttons()
+	if a == nil {
+		p.text.SetText("What to do appears here once the audit has run.")
+		p.figures.set(nil)
+		p.exList = nil
+		p.cueTexts.setRows(nil)
 		return
 	}
-	m := p.mask.Model
-	p.st.saveDialog("Save masked model", "telltale-masked.tt", func(path string) error { return m.Save(path) })
-}
-
-// reset drops the ticks and the masked copy (a new model is open).
-func (p *maskPane) reset() {
-	clear(p.ticked)
-	p.mask = nil
-	p.save.Disable()
-	p.note.SetText(maskHint)
-	p.showOriginal()
-}
-
-// showOriginal fills the "as trained" column only.
-func (p *maskPane) showOriginal() {
-	ms := itemGet(p.st.model)
-	if ms == nil || ms.Eval == nil {
-		p.compare.setRows(nil)
+	p.exList = a.cueTexts
+	p.cueTexts.setRows(exampleRows(a.cueTexts))
+	ae := report.DescribeAction(a.R)
+	if ae == nil {
+		p.text.SetText("The audit acts on no cue: none that looks like how the data was collected changes the model's predictions " +
+			"measurably on test texts that took no part in choosing it. Mark a cue as an artifact to retrain without it all the same.")
+		p.figures.set(nil)
 		return
 	}
-	rows := compareRows(ms.Eval.Metrics, ms.Eval.Metrics)
-	for _, r := range rows {
-		r[2], r[3] = "—", "—"
+	p.text.SetText(fmt.Sprintf("The model relies on %s. Retrain without %s (the patterns below take %s out of the text), "+
+		"and keep your verdict with the model: mark %s as artifact.", ae.Cues, them(len(a.R.Action.Cues)), them(len(a.R.Action.Cues)),
+		them(len(a.R.Action.Cues))))
+	var rows [][2]string
+	for _, f := range ae.Counterfactual {
+		rows = append(rows, [2]string{f[0] + ":", f[1]})
 	}
-	p.compare.setRows(rows)
+	if ae.Mask != "" {
+		rows = append(rows, [2]string{"Filter mask:", ae.Mask})
+	}
+	rows = append(rows, [2]string{"Patterns:", strings.Join(retrainPatterns(a.R, a.marks), "   ")})
+	p.figures.set(rows)
 }
 
-// tickedList is the ticked filters, ascending.
-func (p *maskPane) tickedList() []int {
-	var gs []int
-	for g, on := range p.ticked {
-		if on {
-			gs = append(gs, g)
+func them(n int) string {
+	if n == 1 {
+		return "it"
+	}
+	return "them"
+}
+
+// buttons follows the audit, the marks and the work that runs.
+func (p *actionPane) buttons() {
+	a := itemGet(p.v.st.audit)
+	canRetrain := a != nil && !p.v.st.isRunning(taskRetrain) && len(retrainPatterns(a.R, a.marks)) > 0
+	enable(p.retrainBtn, canRetrain)
+	enable(p.saveRetrain, p.result != nil && p.result.of.ms == itemGet(p.v.st.model))
+	enable(p.saveMask, a != nil && a.R.Action.Mask != nil)
+	if a != nil && a.R.Action.Mask != nil {
+		p.saveMask.Show()
+	} else {
+		p.saveMask.Hide()
+	}
+}
+
+func enable(b *widget.Button, on bool) {
+	if on {
+		b.Enable()
+	} else {
+		b.Disable()
+	}
+}
+
+// retrain retrains without the cues of the audit on screen.
+func (p *actionPane) retrain() {
+	a := itemGet(p.v.st.audit)
+	if a == nil {
+		return
+	}
+	p.compareNote.SetText("Retraining without the cues… (progress in the status bar)")
+	p.v.st.retrainNow(a, func(r *retrained) {
+		if itemGet(p.v.st.model) != r.of.ms {
+			return
 		}
-	}
-	slices.Sort(gs)
-	return gs
-}
-
-// tick ticks (on) or unticks filters gs and masks the ticked ones.
-func (p *maskPane) tick(gs []int, on bool) {
-	for _, g := range gs {
-		p.ticked[g] = on
-	}
-	p.remask()
-}
-
-// setTicks ticks exactly gs and masks them.
-func (p *maskPane) setTicks(gs []int) {
-	clear(p.ticked)
-	p.tick(gs, true)
-}
-
-// remask evaluates the masked copy for the ticked filters.
-func (p *maskPane) remask() {
-	p.v.ticksChanged()
-	gs := p.tickedList()
-	if len(gs) == 0 {
-		p.st.cancel(taskMask)
-		p.mask = nil
-		p.save.Disable()
-		p.showOriginal()
-		p.note.SetText("No filter ticked: the model as trained.")
-		return
-	}
-	p.st.applyMask(gs, func(mk *maskState) {
-		if !slices.Equal(mk.Filters, p.tickedList()) {
-			return // the ticks changed meanwhile; a newer evaluation follows
-		}
-		p.mask = mk
-		p.save.Enable()
-		p.compare.setRows(compareRows(itemGet(p.st.model).Eval.Metrics, mk.Eval.Metrics))
-		p.note.SetText(maskedNote(mk.Filters))
+		p.result = r
+		rt := r.rt
+		p.compareNote.SetText(fmt.Sprintf("Retrained with the model's recipe without %s: %d matches taken out of the training split, %d out of "+
+			"the test split. Accuracies with 95%% Wilson intervals. Word vectors the model may have been trained with are not used: model files do not record them.",
+			plural(len(rt.Patterns), "cue", "cues"), rt.Removed, rt.HeldoutRemoved))
+		p.compare.setRows(retrainRows(rt))
+		p.buttons()
 	})
+	p.buttons()
 }
 
-// maskedNote says which filters the masked copy switches off.
-func maskedNote(gs []int) string {
-	s := make([]string, len(gs))
-	for i, g := range gs {
-		s[i] = fmt.Sprint(g)
+// saveRetrained asks where to save the retrained model.
+func (p *actionPane) saveRetrained() {
+	if p.result == nil {
+		return
 	}
-	list := strings.Join(s, ", ")
-	if n := len(s); n > 1 {
-		list = strings.Join(s[:n-1], ", ") + " and " + s[n-1]
+	m := p.result.rt.Model
+	p.v.st.saveDialog("Save the retrained model", stem(p.result.of.ms)+"-without.tt", func(path string) error { return m.Save(path) })
+}
+
+// saveMasked asks where to save a copy of the model with the suggested
+// filters masked.
+func (p *actionPane) saveMasked() {
+	a := itemGet(p.v.st.audit)
+	if a == nil || a.R.Action.Mask == nil {
+		return
 	}
-	return fmt.Sprintf("A masked copy with %s switched off (%s), on the test split; the other views keep using the model as trained.",
-		plural(len(gs), "filter", "filters"), list)
+	m, err := a.ms.Model.MaskedCopy(a.R.Action.Mask)
+	if err != nil {
+		p.v.st.showError(err)
+		return
+	}
+	p.v.st.saveDialog("Save the masked model", stem(a.ms)+"-masked.tt", func(path string) error { return m.Save(path) })
+}
+
+// stem is the model's file name without its extension, for the names of
+// the files made from it.
+func stem(ms *modelState) string {
+	if ms.Path == "" {
+		return "telltale-model"
+	}
+	b := filepath.Base(ms.Path)
+	return strings.TrimSuffix(b, filepath.Ext(b))
 }

@@ -2,343 +2,230 @@ package gui
 
 import (
 	"fmt"
-	"strings"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/widget"
 
-	"telltale/cnn"
-	"telltale/explain"
-	"telltale/internal/glossary"
+	"telltale/audit"
 )
 
-// auditView shows the cue audit: its summary, the cue groups, the ranked
-// suspects with every part of their score, the flagged words and every
-// filter (tick to mask); on the right the evidence of the selected group or
-// suspect and what masking the ticked filters changes.
+// auditView shows the cue audit (package audit) of the open model: the
+// story first; the cues the model relies on that look like how the data was
+// collected, ranked, and apart those that read like the task; on the right
+// the selected cue's association, reliance and artifact-likeness with their
+// intervals, the artifact/task mark and the texts and filters behind the
+// figures; and what to do: retrain without the cues, or a filter mask when
+// the confirming half supports one.
 type auditView struct {
 	st *State
 
 	runBtn, stopBtn *widget.Button
 	summary         *widget.Label
 	lists           *container.AppTabs
-	cues            *cuesPane
-	suspects        *sheet
-	formula         *widget.Label
-	flagged         *sheet
-	all             *allFiltersPane
+	storyTab        *container.TabItem
+	rankedTab       *container.TabItem
+	taskTab         *container.TabItem
+	actionTab       *container.TabItem
+	story           *widget.Label
+	ranked, task    *sheet
 	evidence        *evidencePane
-	masking         *maskPane
-	empty           *widget.Label
-	full            fyne.CanvasObject
-	body            *fyne.Container
+	action          *actionPane
+	// marks are the verdicts on the open model's cues (auditmarks.go).
+	marks *auditMarks
+	// selected is the cue on the right, by its words ("" none).
+	selected string
+	empty    *widget.Label
+	full     fyne.CanvasObject
+	body     *fyne.Container
 }
 
-const noAuditYet = "The audit has not run on this model yet: press Run the audit (Run › Run the audit) to rank the filters that may key on spurious cues."
+const (
+	noAuditYet = "The audit has not run on this model yet: press Run the audit (Run › Run the audit). It finds the words and phrases " +
+		"that predict a label in the training split, measures on the test split how much the model relies on each, and tells " +
+		"which look like how the data was collected rather than like the task."
+	rankedNote = "Cues that look like how the data was collected: those acted on first, then by reliance × artifact-likeness. " +
+		"Select one to see its evidence and to mark it."
+	taskNote = "Relied on, reads like the task: judge these yourself and mark any that is an artifact."
+)
 
 func newAuditView(st *State) *auditView {
-	v := &auditView{st: st}
+	v := &auditView{st: st, marks: readMarks(nil)}
 	v.runBtn = widget.NewButton("Run the audit", func() { st.runAudit(nil) })
 	v.runBtn.Importance = widget.HighImportance
-	v.stopBtn = widget.NewButton("Stop", func() { st.cancel(taskAudit) })
-	v.summary = wrapped(noAuditYet)
+	v.stopBtn = widget.NewButton("Stop", func() {
+		st.cancel(taskAudit)
+		st.cancel(taskRetrain)
+	})
+	v.summary = wrapped("")
+	v.story = wrapped(noAuditYet)
 	v.empty = wrapped("No model yet: train one (Training view) or open one (File › Open model); then run the audit here.")
-	v.masking = newMaskPane(st, v)
-	v.evidence = newEvidencePane(st)
-	v.cues = newCuesPane(v)
-	v.suspects = newSheet(suspectCols...).wide(4, 200)
-	v.suspects.onCell = v.suspectCell
-	v.suspects.onSelect = v.showSuspect
-	term, _ := glossary.Lookup("suspicion score")
-	v.formula = widget.NewLabelWithStyle(term.Line(), fyne.TextAlignLeading, fyne.TextStyle{Italic: true})
-	v.formula.Wrapping = fyne.TextWrapWord
-	v.flagged = newSheet(flaggedCols...)
-	v.all = newAllFiltersPane(st, v)
+	v.ranked = newSheet(cueCols...).wide(1, 260)
+	v.task = newSheet(cueCols...).wide(1, 260)
+	v.ranked.onSelect = func(row int) { v.showCue(row) }
+	v.task.onSelect = func(row int) {
+		if a := itemGet(st.audit); a != nil {
+			v.showCue(len(a.R.Ranked) + row)
+		}
+	}
+	v.evidence = newEvidencePane(v)
+	v.action = newActionPane(v)
 	v.full = v.layout()
 	v.body = container.NewStack(v.empty)
 	listen(v.modelChanged, st.model)
-	listen(v.all.list.Refresh, st.profiles)
 	listen(v.auditChanged, st.audit)
-	listen(v.buttons, st.running, st.model)
+	listen(v.buttons, st.running, st.model, st.data, st.audit)
 	return v
 }
 
 func (v *auditView) layout() fyne.CanvasObject {
-	v.lists = container.NewAppTabs(
-		container.NewTabItem("Cues", v.cues.content()),
-		container.NewTabItem("Suspects", container.NewBorder(v.formula, v.suspects.detail, nil, nil, v.suspects.view())),
-		container.NewTabItem("Flagged words", v.flagged.view()),
-		container.NewTabItem("All filters", v.all.list),
-	)
-	right := container.NewVSplit(v.evidence.content(), v.masking.content())
-	right.Offset = 0.62
-	split := container.NewHSplit(v.lists, right)
+	list := func(note string, s *sheet) fyne.CanvasObject {
+		return container.NewBorder(wrapped(note), s.detail, nil, nil, s.view())
+	}
+	v.storyTab = container.NewTabItem("Story", container.NewVScroll(v.story))
+	v.rankedTab = container.NewTabItem("Artifact-like", list(rankedNote, v.ranked))
+	v.taskTab = container.NewTabItem("Like the task", list(taskNote, v.task))
+	v.actionTab = container.NewTabItem("What to do", v.action.content())
+	v.lists = container.NewAppTabs(v.storyTab, v.rankedTab, v.taskTab, v.actionTab)
+	split := container.NewHSplit(v.lists, v.evidence.content())
 	split.Offset = 0.5
 	head := container.NewBorder(nil, nil, nil, container.NewHBox(v.runBtn, v.stopBtn), v.summary)
 	return container.NewBorder(head, nil, nil, nil, split)
 }
 
 func (v *auditView) content() fyne.CanvasObject { return v.body }
-func (v *auditView) exportTable() *sheet        { return v.suspects }
 func (v *auditView) focusInput()                {}
 
+// exportTable is the list on screen: the cues that read like the task when
+// that tab is selected, else the artifact-like cues.
+func (v *auditView) exportTable() *sheet {
+	if v.lists.Selected() == v.taskTab {
+		return v.task
+	}
+	return v.ranked
+}
+
+// auditExport is what File › Export view data as JSON writes: the audit as
+// telltale audit --json documents it, its story in the window's words, the
+// marks file and the retraining, when there was one.
+type auditExport struct {
+	*audit.Result
+	Story     string           `json:"story"`
+	MarksFile string           `json:"marks_file,omitempty"`
+	Retrained *audit.Retrained `json:"retrained,omitempty"`
+}
+
 func (v *auditView) exportData() any {
-	var out struct {
-		Audit    *explain.Audit `json:"audit,omitempty"`
-		Masked   []int          `json:"masked,omitempty"`
-		Original *cnn.Metrics   `json:"original,omitempty"`
-		After    *cnn.Metrics   `json:"after,omitempty"`
-	}
 	a := itemGet(v.st.audit)
-	if a != nil {
-		out.Audit = a.A
-	}
-	ms := itemGet(v.st.model)
-	if mk := v.masking.mask; mk != nil && ms != nil && ms.Eval != nil {
-		orig := ms.Eval.Metrics
-		out.Masked, out.Original, out.After = mk.Filters, &orig, &mk.Eval.Metrics
-	}
-	if a == nil && out.Masked == nil {
+	if a == nil {
 		return nil
+	}
+	out := auditExport{Result: a.R, Story: windowStory(a.R), MarksFile: v.marks.file}
+	if rt := v.action.result; rt != nil && rt.of == a {
+		out.Retrained = rt.rt
 	}
 	return out
 }
 
-// showTab selects one of the lists' tabs by title.
-func (v *auditView) showTab(title string) {
-	for _, it := range v.lists.Items {
-		if it.Text == title {
-			v.lists.Select(it)
-		}
-	}
-}
-
-// buttons lets Run work when there is a model and no audit running.
+// buttons follows the work that runs: Run works when there is a model and
+// data and no audit runs; Stop while the audit or a retraining runs.
 func (v *auditView) buttons() {
-	switch {
-	case v.st.isRunning(taskAudit):
+	auditing := v.st.isRunning(taskAudit)
+	if auditing || itemGet(v.st.model) == nil || itemGet(v.st.data) == nil {
 		v.runBtn.Disable()
-		v.stopBtn.Enable()
-	case itemGet(v.st.model) == nil || itemGet(v.st.data) == nil:
-		v.runBtn.Disable()
-		v.stopBtn.Disable()
-	default:
+	} else {
 		v.runBtn.Enable()
+	}
+	if auditing || v.st.isRunning(taskRetrain) {
+		v.stopBtn.Enable()
+	} else {
 		v.stopBtn.Disable()
 	}
+	v.action.buttons()
 }
 
+// modelChanged reads the new model's marks and drops what belonged to the
+// old one.
 func (v *auditView) modelChanged() {
-	v.masking.reset()
-	v.all.reset()
-	if itemGet(v.st.model) == nil {
+	ms := itemGet(v.st.model)
+	v.marks = readMarks(ms)
+	v.selected = ""
+	v.action.reset()
+	if ms == nil {
 		v.body.Objects = []fyne.CanvasObject{v.empty}
 	} else {
 		v.body.Objects = []fyne.CanvasObject{v.full}
 	}
 	v.body.Refresh()
+	v.showMarks()
 	v.buttons()
 }
 
-// auditChanged fills every list from the new audit (or empties them).
+// showMarks says where the marks are kept and whether they can change.
+func (v *auditView) showMarks() { v.evidence.showMarks(v.marks) }
+
+// auditChanged fills the story, both lists and what to do from the new
+// audit (or empties them), keeping the cue on the right when it is still
+// listed.
 func (v *auditView) auditChanged() {
 	a := itemGet(v.st.audit)
-	v.evidence.clear()
-	v.refreshSuspects()
-	v.all.list.Refresh()
-	v.flagged.setRows(flaggedTokenRows(a))
-	v.cues.auditChanged(a)
+	v.action.auditChanged(a)
 	if a == nil {
-		v.summary.SetText(noAuditYet)
+		v.summary.SetText("")
+		v.story.SetText(noAuditYet)
+		v.ranked.setRows(nil)
+		v.task.setRows(nil)
+		v.setTabTitles(0, 0)
+		v.evidence.clear()
 		return
 	}
-	v.summary.SetText(auditSummary(a.A))
-	if len(a.A.CueGroups) > 0 {
-		v.cues.groups.selectRow(0)
-	} else if len(a.A.Filters) > 0 {
-		v.suspects.selectRow(0)
+	r := a.R
+	v.summary.SetText(fmt.Sprintf("Association is tested on the %s of the training split; reliance is measured on the %s of the test split, "+
+		"halved at random into %d that choose the cues and %d that confirm them: every figure comes from the confirming half unless it says otherwise.",
+		texts(r.TrainTexts), texts(r.HeldoutTexts), r.SelectionTexts, r.ConfirmationTexts))
+	v.story.SetText(windowStory(r))
+	v.ranked.setRows(cueRows(r, r.Ranked))
+	v.task.setRows(cueRows(r, r.Task))
+	v.setTabTitles(len(r.Ranked), len(r.Task))
+	k := a.find(v.selected)
+	if k < 0 && len(a.listed) > 0 {
+		k = 0
 	}
+	if k < 0 {
+		v.selected = ""
+		v.evidence.clear()
+		return
+	}
+	v.selectCue(k)
 }
 
-// auditSummary is the audit's headline in words.
-func auditSummary(au *explain.Audit) string {
-	prior := "the label's share of the training split"
-	if au.PriorKind == "uniform" {
-		prior = "one over the number of labels"
-	}
-	return fmt.Sprintf("%d of %d words flagged in %s of the training split (one-sided z above %.2f against %s; "+
-		"family-wise level %g, Bonferroni over the %d words). %s scored; the top %d listed. "+
-		"Test split (%s) with the model as trained: accuracy %.4f, macro-F1 %.4f.",
-		len(au.Tokens), au.Tested, texts(au.TrainTexts), au.Threshold, prior, au.Alpha, au.Tested,
-		plural(au.Candidates, "filter", "filters"), len(au.Filters), texts(au.HeldoutTexts), au.Baseline.Accuracy, au.Baseline.MacroF1)
+// setTabTitles puts the lists' lengths in their tab titles.
+func (v *auditView) setTabTitles(ranked, task int) {
+	v.rankedTab.Text = fmt.Sprintf("Artifact-like (%d)", ranked)
+	v.taskTab.Text = fmt.Sprintf("Like the task (%d)", task)
+	v.lists.Refresh()
 }
 
-// refreshSuspects writes the suspect table, keeping the selection.
-func (v *auditView) refreshSuspects() {
+// selectCue selects listed cue k in its list, which shows it on the right.
+func (v *auditView) selectCue(k int) {
 	a := itemGet(v.st.audit)
-	if a == nil {
-		v.suspects.setRows(nil)
+	if a == nil || k < 0 || k >= len(a.listed) {
 		return
 	}
-	rows := make([][]string, len(a.A.Filters))
-	for i := range a.A.Filters {
-		s := &a.A.Filters[i]
-		rows[i] = suspectRow(s, i+1, v.masking.ticked[s.Filter])
-	}
-	if len(v.suspects.rows) == len(rows) {
-		// Only the ticks changed: keep the order, the scroll and the selection.
-		v.suspects.rows = rows
-		v.suspects.table.Refresh()
-		return
-	}
-	v.suspects.setRows(rows)
-}
-
-// suspectCell ticks or unticks a suspect when its mask cell is clicked.
-func (v *auditView) suspectCell(row, col int) {
-	a := itemGet(v.st.audit)
-	if a == nil || row >= len(a.A.Filters) || col != colMask {
-		return
-	}
-	g := a.A.Filters[row].Filter
-	v.masking.tick([]int{g}, !v.masking.ticked[g])
-}
-
-// showSuspect shows suspect row's evidence.
-func (v *auditView) showSuspect(row int) {
-	if a := itemGet(v.st.audit); a != nil && row < len(a.A.Filters) {
-		v.evidence.showSuspect(a, &a.A.Filters[row])
-	}
-}
-
-// ticksChanged redraws what shows the ticks.
-func (v *auditView) ticksChanged() {
-	v.refreshSuspects()
-	v.all.list.Refresh()
-}
-
-// cuesPane is the Cues tab: the cue groups, buttons that tick their
-// filters, and the audit's story.
-type cuesPane struct {
-	v                                        *auditView
-	groups                                   *sheet
-	story                                    *widget.Label
-	tickStrongest, tickAll, tickPlan, untick *widget.Button
-	selected                                 int // the group shown, -1 none
-}
-
-func newCuesPane(v *auditView) *cuesPane {
-	p := &cuesPane{v: v, selected: -1}
-	p.groups = newSheet(groupCols...).wide(1, 220)
-	p.groups.onSelect = p.show
-	p.story = wrapped("")
-	group := func(pick func(cg *explain.CueGroup) []int) func() {
-		return func() {
-			if a := itemGet(v.st.audit); a != nil && p.selected >= 0 && p.selected < len(a.A.CueGroups) {
-				v.masking.tick(pick(&a.A.CueGroups[p.selected]), true)
-			}
-		}
-	}
-	p.tickStrongest = widget.NewButton("Tick its strongest filters", group(func(cg *explain.CueGroup) []int { return cg.Mask }))
-	p.tickAll = widget.NewButton("Tick all its filters", group(func(cg *explain.CueGroup) []int { return cg.Filters }))
-	p.tickPlan = widget.NewButton("Tick the suggested mask", func() {
-		if a := itemGet(v.st.audit); a != nil && a.A.Plan != nil {
-			v.masking.tick(a.A.Plan.Filters, true)
-		}
-	})
-	p.untick = widget.NewButton("Untick all", func() { v.masking.setTicks(nil) })
-	p.auditChanged(nil)
-	return p
-}
-
-func (p *cuesPane) content() fyne.CanvasObject {
-	split := container.NewVSplit(container.NewBorder(nil, p.groups.detail, nil, nil, p.groups.view()), container.NewVScroll(p.story))
-	split.Offset = 0.5
-	return container.NewBorder(container.NewGridWithColumns(2, p.tickStrongest, p.tickAll, p.tickPlan, p.untick), nil, nil, nil, split)
-}
-
-func (p *cuesPane) auditChanged(a *auditState) {
-	p.groups.setRows(groupRows(a))
-	p.selected = -1
-	p.tickStrongest.Disable()
-	p.tickAll.Disable()
-	p.untick.Enable()
-	if a == nil {
-		p.story.SetText("The cue groups appear here once the audit has run: flagged words that travel together, and the filters keyed on them.")
-		p.tickPlan.Disable()
-		return
-	}
-	p.story.SetText(windowStory(a.A.Story()))
-	if a.A.Plan != nil {
-		p.tickPlan.Enable()
+	if k < len(a.R.Ranked) {
+		v.ranked.selectRow(k)
 	} else {
-		p.tickPlan.Disable()
+		v.task.selectRow(k - len(a.R.Ranked))
 	}
+	v.showCue(k)
 }
 
-// show selects cue group G: its evidence on the right, its buttons on.
-func (p *cuesPane) show(G int) {
-	a := itemGet(p.v.st.audit)
-	if a == nil || G < 0 || G >= len(a.A.CueGroups) {
+// showCue shows listed cue k on the right.
+func (v *auditView) showCue(k int) {
+	a := itemGet(v.st.audit)
+	if a == nil || k < 0 || k >= len(a.listed) {
 		return
 	}
-	p.selected = G
-	p.tickStrongest.Enable()
-	p.tickAll.Enable()
-	p.v.evidence.showGroup(a, G)
+	v.selected = a.listed[k].Text
+	v.evidence.show(a, k)
 }
-
-// allFiltersPane lists every filter of the model with a tick box, for
-// masking filters the audit did not list.
-type allFiltersPane struct {
-	st   *State
-	v    *auditView
-	list *widget.List
-	ids  []int
-}
-
-func newAllFiltersPane(st *State, v *auditView) *allFiltersPane {
-	p := &allFiltersPane{st: st, v: v}
-	p.list = widget.NewList(func() int { return len(p.ids) },
-		func() fyne.CanvasObject { return widget.NewCheck("", nil) }, p.update)
-	return p
-}
-
-func (p *allFiltersPane) reset() {
-	p.ids = nil
-	if ms := itemGet(p.st.model); ms != nil {
-		for g := range ms.Model.Config.NumFilters() {
-			p.ids = append(p.ids, g)
-		}
-	}
-	p.list.Refresh()
-	p.list.ScrollToTop()
-}
-
-func (p *allFiltersPane) update(i widget.ListItemID, o fyne.CanvasObject) {
-	c := o.(*widget.Check)
-	if i >= len(p.ids) {
-		return
-	}
-	g := p.ids[i]
-	c.OnChanged = nil
-	c.SetChecked(p.v.masking.ticked[g])
-	label := fmt.Sprintf("filter %d", g)
-	if ps := itemGet(p.st.profiles); ps != nil && g < len(ps.P.Filters) {
-		fp := ps.P.Filters[g]
-		top := ""
-		if len(fp.TopNgrams) > 0 {
-			top = " · " + joinTokens(fp.TopNgrams[0].Tokens)
-		}
-		label = fmt.Sprintf("filter %d · width %d · votes for %s%s", g, fp.Width, fp.Label, top)
-	}
-	if s := itemGet(p.st.audit).suspectOf(g); s != nil {
-		label += fmt.Sprintf(" · suspicion score %.4f (%s)", s.Score, cueWords(s))
-	}
-	c.Text = label
-	c.Refresh()
-	c.OnChanged = func(b bool) { p.v.masking.tick([]int{g}, b) }
-}
-
-func joinTokens(ts []string) string { return strings.Join(ts, " ") }

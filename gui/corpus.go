@@ -20,6 +20,10 @@ type corpusState struct {
 	// All is the labeled data; TestFile the test file (nil without one).
 	All, TestFile *corpus.Dataset
 	Plan          splitPlan
+	// Record is how the splits were made, as a model trained on them
+	// records it (cnn.Model.Info.Splits), the same record telltale train
+	// writes for the same data, shares and seed.
+	Record cnn.SplitRecord
 	// Train, Dev and Test are the splits: training (what the model learns
 	// from), dev (early stopping) and test (the final evaluation).
 	Train, Dev, Test *corpus.Dataset
@@ -35,15 +39,11 @@ type corpusState struct {
 }
 
 // splitPlan says how the dev and test splits are made from the data: each
-// a share of all of it, stratified by label and seeded.
+// a share of all of it, stratified by label and seeded
+// (corpus.Dataset.SplitThree, as telltale train makes them).
 type splitPlan struct {
 	DevFrac, TestFrac float64
 	Seed              uint64
-}
-
-// defaultPlan is the plan of cnn.DefaultRecipe.
-func defaultPlan() splitPlan {
-	return splitPlan{DevFrac: cnn.DefaultDevFrac, TestFrac: cnn.DefaultTestFrac, Seed: cnn.DefaultRecipe().Train.Seed}
 }
 
 // check reports a plan that cannot be made, in the words of the recipe form.
@@ -59,24 +59,6 @@ func (p splitPlan) check(withTestFile bool) error {
 		return fmt.Errorf("dev share %g and test share %g leave less than a fifth of the data for training: make them smaller", p.DevFrac, p.TestFrac)
 	}
 	return nil
-}
-
-// splitData makes the three splits. Without a test file the test split is
-// plan.TestFrac of all, drawn first (corpus.Dataset.Split: stratified by
-// label, seeded by plan.Seed); the dev split is then drawn from the rest
-// with the share that makes it plan.DevFrac of all. With a test file, all
-// of the data is training and dev, and the dev split is plan.DevFrac of it.
-// The plan must pass check.
-func splitData(all, testFile *corpus.Dataset, plan splitPlan) (train, dev, test *corpus.Dataset) {
-	rest, devShare := all, plan.DevFrac
-	if testFile != nil {
-		test = testFile
-	} else {
-		rest, test = all.Split(plan.TestFrac, plan.Seed)
-		devShare = plan.DevFrac / (1 - plan.TestFrac)
-	}
-	train, dev = rest.Split(devShare, plan.Seed)
-	return train, dev, test
 }
 
 // dataSource says what to open.
@@ -144,12 +126,12 @@ func (cs *corpusState) readDemo(src dataSource) error {
 	cs.Source = "the built-in demo corpus"
 	var warns []corpus.Warning
 	var err error
-	if cs.All, warns, err = corpus.LoadBytes("demo/train.csv", src.demoTrain, src.opts); err != nil {
+	if cs.All, warns, err = corpus.LoadBytes(demoTrainFile, src.demoTrain, src.opts); err != nil {
 		return err
 	}
 	cs.Warnings = warns
 	if len(src.demoTest) > 0 {
-		if cs.TestFile, warns, err = corpus.LoadBytes("demo/test.csv", src.demoTest, src.opts); err != nil {
+		if cs.TestFile, warns, err = corpus.LoadBytes(demoTestFile, src.demoTest, src.opts); err != nil {
 			return err
 		}
 		cs.Warnings = append(cs.Warnings, warns...)
@@ -178,11 +160,24 @@ func (cs *corpusState) readFiles(src dataSource) error {
 	return nil
 }
 
-// resplit returns a copy of cs split by plan, with its summary.
+// resplit returns a copy of cs split by plan, with its summary and the
+// record of how the splits were made. The splits are those telltale train
+// makes of the same data with the same shares and seed: without a test file,
+// corpus.Dataset.SplitThree(plan.DevFrac, plan.TestFrac, plan.Seed); with
+// one, the test file is the test split and SplitThree(plan.DevFrac, 0,
+// plan.Seed) makes the training and dev splits of all of the data.
 func (cs *corpusState) resplit(ctx context.Context, plan splitPlan) (*corpusState, error) {
 	n := *cs
 	n.Plan = plan
-	n.Train, n.Dev, n.Test = splitData(cs.All, cs.TestFile, plan)
+	testFrac := plan.TestFrac
+	if cs.TestFile != nil {
+		testFrac = 0
+	}
+	n.Train, n.Dev, n.Test = cs.All.SplitThree(plan.DevFrac, testFrac, plan.Seed)
+	if cs.TestFile != nil {
+		n.Test = cs.TestFile
+	}
+	n.Record = cs.record(plan.DevFrac, testFrac, plan.Seed, &n)
 	if len(n.Train.Examples) == 0 || len(n.Test.Examples) == 0 {
 		return nil, fmt.Errorf("%s: too few texts for a training and a test split (%d in all)", cs.Source, len(cs.All.Examples))
 	}
@@ -201,6 +196,44 @@ func (cs *corpusState) resplit(ctx context.Context, plan splitPlan) (*corpusStat
 	n.DevSplit.Name = "dev"
 	n.Lengths = corpus.LengthHistogram(corpus.TokenLengths(n.Train, tok), lengthBins)
 	return &n, ctx.Err()
+}
+
+// The files the built-in demo corpus is made from (the command embeds
+// them), as the splits' record names them.
+const (
+	demoTrainFile = "testdata/demo/train.csv"
+	demoTestFile  = "testdata/demo/test.csv"
+)
+
+// record is how split n of cs was made, in the form telltale train writes
+// (cnn.SplitRecord): the data file as opened and its absolute path, the test
+// file's absolute path, the shares held out, the seed, and the data's size
+// and fingerprint, by which a later command finds the same splits again.
+// The demo corpus is named by the files it is made from.
+func (cs *corpusState) record(devFrac, testFrac float64, seed uint64, n *corpusState) cnn.SplitRecord {
+	r := cnn.SplitRecord{Data: cs.Path, DataAbs: absPath(cs.Path), TestFile: absPath(cs.TestPath), DevFrac: devFrac, TestFrac: testFrac,
+		Seed: seed, Examples: len(cs.All.Examples), Fingerprint: cs.All.Fingerprint(),
+		Train: len(n.Train.Examples), Dev: len(n.Dev.Examples), Test: len(n.Test.Examples)}
+	if cs.Path == "" {
+		// The built-in copies of files of the repository: named relative
+		// to it, as they have no place on this machine.
+		r.Data = demoTrainFile
+		if cs.TestFile != nil {
+			r.TestFile = demoTestFile
+		}
+	}
+	return r
+}
+
+// absPath is path made absolute ("" stays "").
+func absPath(path string) string {
+	if path == "" {
+		return ""
+	}
+	if abs, err := filepath.Abs(path); err == nil {
+		return abs
+	}
+	return path
 }
 
 // lengthBins is the most bars of the length plot.

@@ -13,11 +13,12 @@ import (
 	"gonum.org/v1/plot/vg"
 
 	"telltale/corpus"
+	"telltale/report"
 )
 
 // corpusView shows the open corpus: where it came from, its three splits,
-// class balance and text lengths, duplicates and leaks, the words the cue
-// audit flagged and the reader's warnings.
+// class balance and text lengths, duplicates and leaks, the words and
+// phrases the cue audit found predicting a label, and the reader's warnings.
 type corpusView struct {
 	st *State
 
@@ -25,8 +26,8 @@ type corpusView struct {
 	open, reload          *widget.Button
 	textCol, labelCol     *widget.Select
 	balance, lengths      *plotView
-	dups, flagged         *sheet
-	flaggedNote           *widget.Label
+	dups, cues            *sheet
+	cuesNote              *widget.Label
 	warnings              *widget.Label
 	body                  fyne.CanvasObject
 }
@@ -44,12 +45,12 @@ func newCorpusView(st *State) *corpusView {
 	v.reload.Disable()
 	v.balance, v.lengths = newPlotView(plotSize), newPlotView(plotSize)
 	v.dups = newSheet("kind", "texts", "across splits", "labels differ", "labels", "text").wide(5, capText)
-	v.flagged = newSheet(flaggedCols...)
-	v.flaggedNote = wrapped("The cue audit flags words here once it has run (Cue audit view).")
+	v.cues = newSheet(associationCols...).wide(0, 260)
+	v.cuesNote = wrapped(noCuesYet)
 	v.warnings = wrapped("")
 	v.body = v.layout()
 	listen(v.refresh, st.data)
-	listen(v.refreshFlagged, st.audit)
+	listen(v.refreshCues, st.audit)
 	st.app.Settings().AddListener(func(fyne.Settings) { v.refresh() })
 	return v
 }
@@ -72,7 +73,7 @@ func (v *corpusView) layout() fyne.CanvasObject {
 	plots := container.NewGridWithColumns(2, v.balance, v.lengths)
 	tabs := container.NewAppTabs(
 		container.NewTabItem("Duplicates and leaks", container.NewBorder(nil, v.dups.detail, nil, nil, v.dups.view())),
-		container.NewTabItem("Flagged words", container.NewBorder(v.flaggedNote, nil, nil, nil, v.flagged.view())),
+		container.NewTabItem("Cues", container.NewBorder(v.cuesNote, v.cues.detail, nil, nil, v.cues.view())),
 		container.NewTabItem("Reading warnings", container.NewVScroll(v.warnings)),
 	)
 	body := container.NewVSplit(container.NewBorder(nil, v.facts, nil, nil, plots), tabs)
@@ -126,15 +127,20 @@ func (v *corpusView) refresh() {
 	v.warnings.SetText(warningsText(cs.Warnings))
 }
 
-func (v *corpusView) refreshFlagged() {
+const noCuesYet = "The words and phrases that predict a label in the training split appear here once the cue audit has run (Cue audit view)."
+
+func (v *corpusView) refreshCues() {
 	a := itemGet(v.st.audit)
-	v.flagged.setRows(flaggedTokenRows(a))
+	rows := associationRows(a)
+	v.cues.setRows(rows)
 	if a == nil {
-		v.flaggedNote.SetText("The cue audit flags words here once it has run (Cue audit view).")
+		v.cuesNote.SetText(noCuesYet)
 		return
 	}
-	v.flaggedNote.SetText(fmt.Sprintf("%s flagged by the cue audit: each predicts one label by itself in the training split.",
-		plural(len(a.A.Tokens), "word", "words")))
+	found := plural(a.R.Associated, "word or phrase predicts", "words and phrases predict")
+	v.cuesNote.SetText(fmt.Sprintf("%s a label in the training split (%s, corrected over the %d word × label tests by %s); "+
+		"listed here: the %d the Cue audit view lists, then the most associated of the others.", found,
+		report.AssociationTestName(a.R.Test), a.R.Tests, report.CorrectionName(a.R.Correction), len(rows)))
 }
 
 // splitsLine says how the three splits were made and how big they are.

@@ -36,13 +36,13 @@ type filtersView struct {
 
 // Columns of the filter list; the last cell of each row (its top n-grams)
 // is searched but not shown.
-var filterCols = []string{"filter", "width", "votes for", "vote margin", "suspicion score", "cue words",
+var filterCols = []string{"filter", "width", "votes for", "vote margin", "cue rank", "cue it reads",
 	"fired in", "threshold", "held-out purity", "base rate", "Holm p", "selective", "families"}
 
 const (
-	colFilterMargin    = 3
-	colFilterSuspicion = 4
-	colFilterCues      = 5
+	colFilterMargin  = 3
+	colFilterCueRank = 4
+	colFilterCues    = 5
 )
 
 func newFiltersView(st *State) *filtersView {
@@ -318,8 +318,8 @@ func wordScores(ws []explain.WordScore) string {
 	return strings.Join(parts, ", ")
 }
 
-// refresh lists the profiled filters, ranked by vote margin (by suspicion
-// once an audit ran), the first one selected.
+// refresh lists the profiled filters, ranked by vote margin (by the rank
+// of the cue they read once an audit ran), the first one selected.
 func (v *filtersView) refresh() {
 	ps := itemGet(v.st.profiles)
 	if ps == nil {
@@ -338,13 +338,13 @@ func (v *filtersView) refresh() {
 		}
 		sel := &fp.Selectivity
 		rows[i] = []string{fmt.Sprint(fp.Filter), fmt.Sprint(fp.Width), fp.Label, fmt.Sprintf("%.3f", fp.Margin),
-			au.suspicionOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thresholdText(sel.Threshold),
+			au.cueRankOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thresholdText(sel.Threshold),
 			rateText(sel.Purity), rateText(sel.BaseRate), pText(sel.PHolm), yesNo(sel.Selective), fmt.Sprint(len(fp.Families)),
 			strings.Join(top, " / ")}
 	}
 	v.list.setRows(rows)
 	if au != nil {
-		v.list.sortOn(colFilterSuspicion, true)
+		v.list.sortOn(colFilterCueRank, false)
 	} else if v.list.sortCol < 0 {
 		v.list.sortOn(colFilterMargin, true)
 	}
@@ -355,7 +355,8 @@ func (v *filtersView) refresh() {
 	v.body.Refresh()
 }
 
-// auditChanged shows the audit's scores in the list, ranked by suspicion.
+// auditChanged shows the cues the filters read in the list, ranked by the
+// cue's rank among the artifact-like cues.
 func (v *filtersView) auditChanged() {
 	if itemGet(v.st.profiles) != nil {
 		v.refresh()

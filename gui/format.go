@@ -2,6 +2,7 @@ package gui
 
 import (
 	"fmt"
+	"regexp"
 	"strings"
 )
 
@@ -48,16 +49,17 @@ func oneLine(s string) string {
 
 // reflow joins the lines of terminal text that were broken only to fit a
 // terminal, so a word-wrapped label can lay them out: a line is joined to
-// the one before it unless it is indented or empty, or the one before ends a
-// sentence or a lead-in (., :) or is empty.
+// the one before it (its indentation dropped) unless it is empty, starts a
+// numbered item ("2. ", "(2) "), or the one before ends a sentence or a
+// lead-in (., :) or is empty. A line not joined keeps its indentation.
 func reflow(s string) string {
 	lines := strings.Split(s, "\n")
 	var out []string
 	for _, l := range lines {
-		if n := len(out); n > 0 && l != "" && !strings.HasPrefix(l, " ") {
+		if n := len(out); n > 0 && strings.TrimSpace(l) != "" && !itemStart.MatchString(l) {
 			prev := strings.TrimRight(out[n-1], " ")
-			if prev != "" && !strings.HasSuffix(prev, ".") && !strings.HasSuffix(prev, ":") {
-				out[n-1] = prev + " " + l
+			if strings.TrimSpace(prev) != "" && !strings.HasSuffix(prev, ".") && !strings.HasSuffix(prev, ":") {
+				out[n-1] = prev + " " + strings.TrimLeft(l, " ")
 				continue
 			}
 		}
@@ -65,3 +67,6 @@ func reflow(s string) string {
 	}
 	return strings.Join(out, "\n")
 }
+
+// itemStart is a line that starts an item of a list: "2. " or "(2) ".
+var itemStart = regexp.MustCompile(`^\s*(\d+\.|\(\d+\)) `)

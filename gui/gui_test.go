@@ -1,13 +1,14 @@
 package gui
 
 import (
+	"encoding/xml"
 	"fmt"
 	"math"
 	"os"
 	"path/filepath"
 	"reflect"
 	"slices"
-	"sort"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -15,9 +16,10 @@ import (
 	"fyne.io/fyne/v2/test"
 	"fyne.io/fyne/v2/widget"
 
+	"telltale/audit"
 	"telltale/cnn"
 	"telltale/explain"
-	"telltale/internal/glossary"
+	"telltale/report"
 )
 
 // session is the window of TestWholeSession and what it has shown so far.
@@ -32,7 +34,7 @@ type session struct {
 
 // TestWholeSession walks the main job through the window: open the demo
 // corpus, train a tiny model, select a filter, explain a sentence, run the
-// audit and mask filters, checking widget state and what is painted against
+// audit and save the masked model it suggests, checking widget state and what is painted against
 // the numbers of the packages underneath.
 func TestWholeSession(t *testing.T) {
 	a := test.NewTempApp(t)
@@ -49,7 +51,9 @@ func TestWholeSession(t *testing.T) {
 	s.explanation()
 	top := s.audit()
 	s.filterList(top)
-	s.masking(top)
+	s.action()
+	s.marks()
+	s.retrain()
 }
 
 // corpus: the demo corpus opens with its test file as the test split.
@@ -216,160 +220,238 @@ func (s *session) explanation() {
 	}
 }
 
-// audit runs the audit and checks what it flags and lists; it returns the
-// top suspect.
-func (s *session) audit() explain.Suspect {
+// audit runs the audit and checks what it lists and paints against
+// package audit's numbers; it returns the top artifact-like cue.
+func (s *session) audit() audit.Candidate {
 	t, w, st, q := s.t, s.w, s.st, s.q
-	// Run the audit (Run › Run the audit). The token test runs on the
-	// training split, so whatever the model learned, the two cues planted
-	// there (testdata/demo/README.md: "kioskmail" in 80% of lost-property
-	// texts, "tkref" in 75% of complaints texts) must be flagged for their
-	// labels.
+	// Run the audit (Run › Run the audit). The demo plants two cues in the
+	// training file (testdata/demo/README.md): a footer line in most
+	// lost-property texts and a ticket stamp in most complaints texts, both
+	// spread evenly over the labels of the test file. The small recipe
+	// above learns both; the audit must rank them first and act on them.
 	st.auditNow()
 	q.waitFor(t, "the audit", func() bool { return itemGet(st.audit) != nil })
 	au := itemGet(st.audit)
-	planted := map[string]string{"kioskmail": "lost-property", "tkref": "complaints"}
-	for tok, label := range planted {
-		found := false
-		for _, f := range au.A.Tokens {
-			if f.Token == tok {
-				found = f.Label == label
-			}
-		}
-		if !found {
-			t.Errorf("planted cue %q not flagged for %s", tok, label)
+	r := au.R
+	want := map[string]string{"- - sent via kioskmail at the quayside terminal - -": "lost-property", "tkref - <number>": "complaints"}
+	if len(r.Ranked) < 2 {
+		t.Fatalf("the audit ranks %d artifact-like cues, want the two planted ones first", len(r.Ranked))
+	}
+	for _, c := range r.Ranked[:2] {
+		if want[c.Text] != c.Label || c.Verdict != audit.VerdictActed {
+			t.Errorf("artifact-like cue %q → %s (%s) among the first two; want the planted cues, acted on", c.Text, c.Label, c.Verdict)
 		}
 	}
-	if len(au.A.Filters) == 0 {
-		t.Fatalf("the audit lists no suspects")
-	}
-	keyed := map[string]int{} // planted cue → first suspect keyed on it
-	for i, s := range au.A.Filters {
-		for _, c := range s.Cues {
-			if _, ok := planted[c.Token]; ok {
-				if _, seen := keyed[c.Token]; !seen {
-					keyed[c.Token] = i
-				}
-			}
-		}
-	}
-	t.Logf("suspects keyed on the planted cues (rank from 0): %v of %d", keyed, len(au.A.Filters))
-	// The small recipe above (3 widths × 10 filters, 3 epochs) is enough
-	// for filters to learn both cues: each must key a top-5 suspect.
-	for tok := range planted {
-		if r, ok := keyed[tok]; !ok || r >= 5 {
-			t.Errorf("no suspect among the top 5 keys on the planted cue %q", tok)
-		}
-	}
-	// The suspect table shows every suspect with the parts of its score;
-	// the Filters view shows the same score in its suspicion column.
 	av := st.auditView
-	if got := len(av.suspects.rows); got != len(au.A.Filters) {
-		t.Errorf("suspect table has %d rows, the audit %d suspects", got, len(au.A.Filters))
+	// The story is the audit's, in the window's words.
+	if got := av.story.Text; got != windowStory(r) || strings.Contains(got, "telltale train") || strings.Contains(got, "held-out") {
+		t.Errorf("the story on screen is not the audit's in the window's words:\n%s", got)
 	}
-	top := au.A.Filters[0]
-	row := av.suspects.rows[0]
-	if row[2] != fmt.Sprint(top.Filter) || row[5] != fmt.Sprintf("%.4f", top.Score) || row[6] != fmt.Sprintf("%.3f", top.Parts.FlaggedShare) {
-		t.Errorf("suspect row %q does not show suspect %d with score %v", row, top.Filter, top.Score)
+	// Both lists show every cue with the audit's figures.
+	if len(av.ranked.rows) != len(r.Ranked) || len(av.task.rows) != len(r.Task) {
+		t.Errorf("lists of %d and %d rows, the audit lists %d and %d cues", len(av.ranked.rows), len(av.task.rows), len(r.Ranked), len(r.Task))
 	}
-	if got := au.suspicionOf(top.Filter); got != fmt.Sprintf("%.4f", top.Score) {
-		t.Errorf("Filters view suspicion of filter %d = %q, audit score %v", top.Filter, got, top.Score)
+	top := r.Ranked[0]
+	row := av.ranked.rows[0]
+	lo, hi := audit.Wilson(top.Association.InLabel, top.Association.Texts, 0.95)
+	if row[1] != oneLine(top.Surface) || row[4] != fmt.Sprint(top.Association.Texts) ||
+		row[5] != pctInterval(audit.Interval{Estimate: top.Association.Share, Low: lo, High: hi}) ||
+		row[7] != pctInterval(top.Confirmed.FlipRate) || row[8] != pctInterval(top.Confirmed.ControlFlipRate) {
+		t.Errorf("top row %q does not show the audit's figures of %q", row, top.Text)
 	}
-	// The score's formula, in the glossary's words, heads the Suspects tab.
-	av.showTab("Suspects")
-	term, _ := glossary.Lookup("suspicion score")
-	if !strings.Contains(test.RenderToMarkup(w.Canvas()), term.Formula) {
-		t.Errorf("the audit view's Suspects tab does not show the score formula %q", term.Formula)
+	// The top cue is shown on the right in report.DescribeCue's words.
+	ev := report.DescribeCue(&r.Ranked[0], r, au.priors)
+	shown := map[string]bool{}
+	for _, o := range av.evidence.facts.box.Objects {
+		var b strings.Builder
+		for _, seg := range o.(*widget.RichText).Segments {
+			b.WriteString(seg.Textual())
+		}
+		shown[b.String()] = true
 	}
-	av.showTab("Cues")
+	for _, part := range []string{"Association  " + ev.Association, "Reliance  " + ev.Reliance, "Artifact-likeness  " + ev.Artifact} {
+		part = inWindowWords(part)
+		if !shown[part] {
+			t.Errorf("the evidence pane does not show %q", part)
+		}
+	}
+	if title := av.evidence.title.Text; !strings.HasPrefix(title, capitalize(ev.Name)+" → "+ev.Label+": "+ev.Verdict) {
+		t.Errorf("the evidence pane's title %q does not name the cue, its label and the verdict", title)
+	}
+	// No field name of the JSON is on screen.
+	for _, tab := range av.lists.Items {
+		av.lists.Select(tab)
+		q.drain()
+		markup := test.RenderToMarkup(w.Canvas())
+		for _, name := range []string{"acted-on", "not-relied-on", "flip_rate", "label_drop", "artifact_likeness", "reliance_selection", "heldout"} {
+			if strings.Contains(markup, name) {
+				t.Errorf("the %s tab shows the field name %q", tab.Text, name)
+			}
+		}
+	}
+	av.lists.Select(av.storyTab)
+	// The texts behind the reliance figure are the audit's examples, by
+	// their place in the test split; one opens in Why this label.
+	exs := au.examplesOf(0)
+	var fromTest *auditExample
+	for i, e := range exs {
+		if e.Split == "test" {
+			fromTest = &exs[i]
+			if e.Text != s.cs.Test.Examples[e.Index].Text || !strings.Contains(oneLine(e.Text), unquote(e.Quote)) {
+				t.Errorf("example %+v is not test text %d", e, e.Index)
+			}
+		}
+	}
+	if fromTest == nil {
+		t.Fatalf("no test text behind the top cue's reliance")
+	}
+	st.explainThis(fromTest.Text, nil)
+	q.drain()
+	if st.shownTitle() != titleWhy || stringGet(st.explainText) != fromTest.Text {
+		t.Errorf("an example does not open in Why this label")
+	}
+	st.show(titleAudit)
 	return top
 }
 
-// filterList: the Filters view ranks by the audit's scores and searches
-// cue words.
-func (s *session) filterList(top explain.Suspect) {
+// unquote is an example's quote without the audit's marks: the ellipses
+// and the brackets around the cue.
+func unquote(q string) string {
+	return oneLine(strings.NewReplacer("…", " ", "[", "", "]", "").Replace(q))
+}
+
+// xmlText is s as the markup of a rendering writes it.
+func xmlText(s string) string {
+	var b strings.Builder
+	_ = xml.EscapeText(&b, []byte(s))
+	return b.String()
+}
+
+// filterList: the Filters view ranks by the cues the filters read and
+// searches cue words.
+func (s *session) filterList(top audit.Candidate) {
 	t, st := s.t, s.st
-	// The Filters view: sorting by suspicion (descending) puts the top
-	// suspect first, and searching for a cue word finds its filters.
 	fl := st.filtersView.list
-	fl.sortCol, fl.desc = -1, false
-	fl.sortBy(colFilterSuspicion)
-	if got := fl.rows[fl.visible(0)][0]; got != fmt.Sprint(top.Filter) {
-		t.Errorf("filters sorted by suspicion start with filter %s, want the top suspect %d", got, top.Filter)
+	first := fl.rows[fl.visible(0)]
+	if top.Filters == nil || len(top.Filters.Keyed) == 0 {
+		t.Fatalf("the top cue has no filters that read it")
+	}
+	if first[colFilterCueRank] != "1" || !slices.Contains(top.Filters.Keyed, atoi(t, first[0])) {
+		t.Errorf("the Filters view starts with filter %s (cue rank %s), want one that reads the top cue (%v)", first[0], first[colFilterCueRank], top.Filters.Keyed)
 	}
 	fl.setQuery("kioskmail")
 	if len(fl.order) == 0 {
 		t.Errorf("searching the filter list for kioskmail finds nothing")
 	}
 	for i := range fl.order {
-		if r := fl.rows[fl.visible(i)]; r[colFilterCues] == "" && !strings.Contains(r[len(r)-1], "kioskmail") {
+		if r := fl.rows[fl.visible(i)]; !strings.Contains(strings.ToLower(r[colFilterCues]+r[len(r)-1]), "kioskmail") {
 			t.Errorf("search for kioskmail shows filter %s with neither a cue nor an n-gram holding it", r[0])
 		}
 	}
 	fl.setQuery("")
 }
 
-// masking: masked metrics are those of cnn.Evaluate on explain.MaskFilters'
-// copy, and the masked model saves and loads.
-func (s *session) masking(top explain.Suspect) {
-	t, st, q, cs, ms := s.t, s.st, s.q, s.cs, s.ms
-	av := st.auditView
-	// Clicking the mask cell of the top suspect masks it at once.
-	av.showTab("Suspects")
-	av.suspects.table.Select(widget.TableCellID{Row: 0, Col: colMask})
-	q.waitFor(t, "the masked evaluation", func() bool {
-		mk := av.masking.mask
-		return mk != nil && slices.Equal(mk.Filters, []int{top.Filter})
-	})
-
-	// Tick the top suspect and filter 0 in the suspect table / filter
-	// list: the masked metrics are those of cnn.Evaluate on
-	// explain.MaskFilters' copy, and the open model stays unmasked.
-	maskSet := []int{top.Filter}
-	if top.Filter != 0 {
-		maskSet = append(maskSet, 0)
+func atoi(t *testing.T, s string) int {
+	t.Helper()
+	n, err := strconv.Atoi(s)
+	if err != nil {
+		t.Fatal(err)
 	}
-	av.masking.setTicks(maskSet)
-	sort.Ints(maskSet)
-	q.waitFor(t, "the masked evaluation", func() bool { return slices.Equal(av.masking.mask.Filters, maskSet) })
-	mk := av.masking.mask
-	for g := range ms.Model.Config.NumFilters() {
-		in := slices.Contains(maskSet, g)
-		if mk.Model.IsMasked(g) != in || ms.Model.IsMasked(g) {
-			t.Fatalf("filter %d: masked %v in the copy (want %v), %v in the open model (want false)", g, mk.Model.IsMasked(g), in, ms.Model.IsMasked(g))
+	return n
+}
+
+// action: the suggested filter mask is offered only when the audit
+// suggests one, and the copy it saves masks exactly those filters.
+func (s *session) action() {
+	t, st, q := s.t, s.st, s.q
+	a := itemGet(st.audit)
+	p := st.auditView.action
+	mask := a.R.Action.Mask
+	if p.saveMask.Visible() != (mask != nil) {
+		t.Fatalf("the masked-model button shows %v, the audit suggests the mask %v", p.saveMask.Visible(), mask)
+	}
+	if mask == nil {
+		return
+	}
+	dir := t.TempDir()
+	st.pickFolder = func(start string, done func(string)) { done(dir) }
+	test.Tap(p.saveMask)
+	sf := shownSave(t, st)
+	sf.choose()
+	sf.form.Submit()
+	q.drain()
+	back, err := cnn.Load(filepath.Join(dir, stem(s.ms)+"-masked.tt"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for g := range back.Config.NumFilters() {
+		if back.IsMasked(g) != slices.Contains(mask, g) || s.ms.Model.IsMasked(g) {
+			t.Fatalf("filter %d: masked %v in the saved copy (want %v), %v in the open model (want false)", g, back.IsMasked(g), slices.Contains(mask, g), s.ms.Model.IsMasked(g))
 		}
 	}
-	ref, err := explain.MaskFilters(ms.Model, maskSet)
-	if err != nil {
-		t.Fatal(err)
-	}
-	d, err := cnn.EncodeDataset(ms.Enc, cs.Test, ms.Model.Labels, 0)
-	if err != nil {
-		t.Fatal(err)
-	}
-	met, _, err := cnn.Evaluate(ref, d, 0)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if !reflect.DeepEqual(met, mk.Eval.Metrics) {
-		t.Errorf("masked view shows %+v; cnn.Evaluate on explain.MaskFilters' copy gives %+v", mk.Eval.Metrics, met)
-	}
-	wantRow := []string{"accuracy", fmt.Sprintf("%.4f", ms.Eval.Metrics.Accuracy), fmt.Sprintf("%.4f", met.Accuracy), fmt.Sprintf("%+.4f", met.Accuracy-ms.Eval.Metrics.Accuracy)}
-	if note := av.masking.note; note.Text != maskedNote(maskSet) || !note.Visible() || !strings.Contains(note.Text, "masked copy") {
-		t.Errorf("audit view says %q, not which filters are masked", note.Text)
-	}
-	if got := av.masking.compare.rows; len(got) == 0 || !slices.Equal(got[0], wantRow) {
-		t.Errorf("before/after table starts %q, want %q", got, wantRow)
-	}
+}
 
-	// Save the masked model and read it back.
-	path := filepath.Join(t.TempDir(), "masked.tt")
-	if err := mk.Model.Save(path); err != nil {
+// marks: marking a cue that reads like the task as an artifact writes the
+// marks file beside the saved model, and the audit, run again, ranks it
+// among the artifact-like cues with its mark.
+func (s *session) marks() {
+	t, st, q := s.t, s.st, s.q
+	dir := t.TempDir()
+	path := filepath.Join(dir, "ferry.tt")
+	if err := st.saveModel(s.ms, path); err != nil {
 		t.Fatal(err)
 	}
-	back, err := cnn.Load(path)
-	if err != nil || !back.IsMasked(top.Filter) {
-		t.Fatalf("saved masked model: %v, masked(%d)=%v", err, top.Filter, err == nil && back.IsMasked(top.Filter))
+	a := itemGet(st.audit)
+	if len(a.R.Task) == 0 {
+		t.Fatalf("the audit lists no cue that reads like the task to mark")
+	}
+	cue := a.R.Task[0]
+	av := st.auditView
+	av.selectCue(len(a.R.Ranked))
+	q.drain()
+	if av.selected != cue.Text {
+		t.Fatalf("the evidence pane shows %q, want the first cue that reads like the task %q", av.selected, cue.Text)
+	}
+	av.evidence.verdict.SetSelected("artifact")
+	q.waitFor(t, "the audit with the mark", func() bool { b := itemGet(st.audit); return b != a && b != nil })
+	mk, err := audit.ReadMarks(audit.MarksPath(path), s.ms.Model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := mk.Cues(audit.MarkArtifact); len(got) != 1 || strings.Join(got[0], " ") != cue.Text {
+		t.Errorf("the marks file holds %v, want %q marked artifact", got, cue.Text)
+	}
+	b := itemGet(st.audit)
+	k := b.find(cue.Text)
+	if _, artifact := b.rankOf(k); k < 0 || !artifact || b.listed[k].Mark != audit.MarkArtifact {
+		t.Errorf("after the mark, %q is not ranked among the artifact-like cues with its mark", cue.Text)
+	}
+	if av.selected != cue.Text || av.evidence.verdict.Selected != "artifact" {
+		t.Errorf("the evidence pane shows %q marked %q after the audit ran again", av.selected, av.evidence.verdict.Selected)
+	}
+}
+
+// retrain: retraining without the cues compares both models on the test
+// split; the audited model's accuracy there is cnn.Evaluate's.
+func (s *session) retrain() {
+	t, st, q := s.t, s.st, s.q
+	p := st.auditView.action
+	if p.retrainBtn.Disabled() {
+		t.Fatalf("Retrain without the cues is disabled after an audit that acts on cues")
+	}
+	test.Tap(p.retrainBtn)
+	q.waitFor(t, "the retrained model", func() bool { return p.result != nil })
+	rt := p.result.rt
+	a := itemGet(st.audit)
+	if want := retrainPatterns(a.R, a.marks); !slices.Equal(rt.Patterns, want) {
+		t.Errorf("retrained without %q, want the cues acted on and marked artifact %q", rt.Patterns, want)
+	}
+	if rt.Texts != len(s.cs.Test.Examples) || rt.Original.Before.Estimate != s.ms.Eval.Metrics.Accuracy {
+		t.Errorf("the audited model on the test split: %d texts, accuracy %v; cnn.Evaluate gives %d, %v",
+			rt.Texts, rt.Original.Before.Estimate, len(s.cs.Test.Examples), s.ms.Eval.Metrics.Accuracy)
+	}
+	if !reflect.DeepEqual(p.compare.rows, retrainRows(rt)) || p.saveRetrain.Disabled() {
+		t.Errorf("the comparison shows %q, want %q, and the retrained model can be saved", p.compare.rows, retrainRows(rt))
 	}
 }
 

@@ -4,7 +4,6 @@ import (
 	"context"
 	"fmt"
 	"path/filepath"
-	"strconv"
 	"strings"
 
 	"telltale/cnn"
@@ -137,29 +136,36 @@ func newModelState(m *cnn.Model, path string) (*modelState, error) {
 func (st *State) setModel(ms *modelState) {
 	st.cancel(taskProfile)
 	st.cancel(taskAudit)
-	st.cancel(taskMask)
+	st.cancel(taskRetrain)
 	st.audit.Set(nil)
 	st.profiles.Set(nil)
 	st.model.Set(ms)
 	st.profileNow(nil)
 }
 
-// planOf reads the split plan a model file records (the keys the window
-// and the command line write into Info.Notes), if it records one.
-func planOf(m *cnn.Model) (splitPlan, bool) {
-	n := m.Info.Notes
-	dev, err1 := strconv.ParseFloat(n["dev_frac"], 64)
-	test, err2 := strconv.ParseFloat(n["test_frac"], 64)
-	seed, err3 := strconv.ParseUint(n["seed"], 10, 64)
-	if err1 != nil || err2 != nil || err3 != nil {
+// planOf is the split plan model m records (cnn.Model.Info.Splits) when it
+// was trained on the data of cs (the same examples: the record's size and
+// fingerprint), as the command line finds a model's test split. A model
+// trained with a test file records no test share: it fits only a corpus
+// opened with a test file, whose own share, unused, is kept.
+func planOf(m *cnn.Model, cs *corpusState) (splitPlan, bool) {
+	r := m.Info.Splits
+	if r == nil || cs == nil || r.Examples != len(cs.All.Examples) || r.Fingerprint != cs.All.Fingerprint() {
 		return splitPlan{}, false
 	}
-	return splitPlan{DevFrac: dev, TestFrac: test, Seed: seed}, true
+	p := splitPlan{DevFrac: r.DevFrac, TestFrac: r.TestFrac, Seed: r.Seed}
+	if r.TestFile != "" {
+		if cs.TestFile == nil {
+			return splitPlan{}, false
+		}
+		p.TestFrac = cs.Plan.TestFrac
+	}
+	return p, true
 }
 
 // openModel loads a model file in the background and evaluates it on the
-// open corpus's test split; a model that records its split plan is
-// evaluated on the test split that plan makes.
+// open corpus's test split; a model trained on the open data is evaluated
+// on the test split it records.
 func (st *State) openModel(path string, then func()) {
 	st.setStatus("Opening model " + path + "…")
 	cs := itemGet(st.data)
@@ -173,7 +179,7 @@ func (st *State) openModel(path string, then func()) {
 			return then, fmt.Errorf("%s: %w", path, err)
 		}
 		ms.Source = path
-		if p, ok := planOf(m); ok && cs != nil && p != cs.Plan && p.check(cs.TestFile != nil) == nil {
+		if p, ok := planOf(m, cs); ok && p != cs.Plan && p.check(cs.TestFile != nil) == nil {
 			if cs, err = cs.resplit(ctx, p); err != nil {
 				return then, err
 			}
@@ -198,11 +204,16 @@ func (st *State) openModel(path string, then func()) {
 	})
 }
 
-// saveModel writes ms to path (atomically, by cnn.Save).
+// saveModel writes ms to path (atomically, by cnn.Save), and the marks of
+// its cues beside it; marks that cannot be written are reported on their
+// own, the model being saved.
 func (st *State) saveModel(ms *modelState, path string) error {
 	if err := ms.Model.Save(path); err != nil {
 		return err
 	}
 	ms.Path = path
+	if err := st.auditView.modelSaved(path); err != nil {
+		st.showError(err)
+	}
 	return nil
 }

@@ -1,7 +1,5 @@
 package gui
 
-import "telltale/explain"
-
 // startup opens the start-up data and model, and with AutoRun trains,
 // profiles and audits; OnReady runs at the end, also after a failure.
 func (st *State) startup() {
@@ -47,23 +45,22 @@ func (st *State) startup() {
 }
 
 // suggestText puts a text on the explanation view unless the user typed
-// one: the first test text behind the top suspect's figures (one where its
-// cue points away from the gold label), so a first visit sees the cue at
-// work.
+// one: the first test text whose prediction replacing the top cue changed,
+// so a first visit sees the cue at work.
 func (st *State) suggestText() {
 	a := itemGet(st.audit)
-	if a == nil || len(a.A.Filters) == 0 {
+	if a == nil || len(a.listed) == 0 {
 		return
 	}
 	// The explanation view starts on the first test text; the user's own
 	// text is never replaced.
-	if t := stringGet(st.explainText); t != "" && (len(a.Test) == 0 || t != a.Test[0]) {
+	test := a.cs.Test.Examples
+	if t := stringGet(st.explainText); t != "" && (len(test) == 0 || t != test[0].Text) {
 		return
 	}
-	ex := a.A.Filters[0].Examples
-	for _, list := range [][]explain.AuditExample{ex.Conflict, ex.Counterfactual, ex.Windows} {
-		if len(list) > 0 {
-			_ = st.explainText.Set(a.text(list[0]))
+	for _, e := range a.examplesOf(0) {
+		if e.Split == "test" {
+			_ = st.explainText.Set(e.Text)
 			return
 		}
 	}

@@ -148,7 +148,7 @@ func (st *State) start(kind string, inBar bool, w work) {
 // follow.
 func (st *State) tasksChanged() {
 	s := ""
-	for _, k := range []string{taskLoad, taskTrain, taskProfile, taskAudit, taskMask} {
+	for _, k := range []string{taskLoad, taskTrain, taskProfile, taskAudit, taskRetrain} {
 		if st.tasks.busy(k) {
 			s += k + " "
 		}

@@ -14,11 +14,11 @@ const (
 	taskProfile = "profile"
 	taskAudit   = "audit"
 	taskExplain = "explain"
-	taskMask    = "mask"
+	taskRetrain = "retrain" // retraining without the cues the audit found
 )
 
 // barTasks are the kinds the status bar's Stop button stops.
-var barTasks = []string{taskTrain, taskProfile, taskAudit, taskLoad, taskMask}
+var barTasks = []string{taskTrain, taskProfile, taskAudit, taskLoad, taskRetrain}
 
 // errCanceled marks work stopped by the user; it is never shown as an error.
 var errCanceled = errors.New("canceled")

@@ -152,7 +152,8 @@ func (st *State) trainWork(ctx context.Context, report reporter, run *trainRun, 
 
 // trainModel trains a new model on cs's training split with early stopping
 // on its dev split, through the same pipeline as the command line
-// (cnn.TrainText). On cancel it returns the best model so far.
+// (cnn.TrainText), and records how the splits were made (cs.Record), as
+// telltale train does. On cancel it returns the best model so far.
 func trainModel(ctx context.Context, cs *corpusState, rec cnn.Recipe, progress func(cnn.Progress)) (*modelState, *cnn.TrainResult, error) {
 	tr, err := cnn.TrainText(ctx, cs.Train, cs.Dev, rec, progress)
 	if err != nil {
@@ -163,13 +164,8 @@ func trainModel(ctx context.Context, cs *corpusState, rec cnn.Recipe, progress f
 		return nil, nil, errCanceled
 	}
 	m := tr.Model
-	p := cs.Plan
-	m.Info.Notes = map[string]string{"data": cs.Source, "seed": fmt.Sprint(p.Seed), "dev_frac": formatFloat(p.DevFrac)}
-	if cs.TestFile == nil {
-		m.Info.Notes["test_frac"] = formatFloat(p.TestFrac)
-	} else if cs.TestPath != "" {
-		m.Info.Notes["test"] = cs.TestPath
-	}
+	splits := cs.Record
+	m.Info.Splits = &splits
 	ms, err := newModelState(m, "")
 	if err != nil {
 		return nil, nil, err

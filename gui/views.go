@@ -54,7 +54,7 @@ func viewTable() []viewSpec {
 			func(st *State) view { st.filtersView = newFiltersView(st); return st.filtersView }},
 		{titleWhy, "Why one text gets its label, token by token.",
 			func(st *State) view { st.whyView = newWhyView(st); return st.whyView }},
-		{titleAudit, "Filters that may key on spurious cues, and what masking them changes.",
+		{titleAudit, "The cues the model relies on that look like how its data was collected, and what to do about them.",
 			func(st *State) view { st.auditView = newAuditView(st); return st.auditView }},
 	}
 }

@@ -51,8 +51,23 @@ func auditLayout(r *audit.Result, priors []float64, modelPath string) *auditView
 	return av
 }
 
-// actionLayout lays out the action, or nil when the audit acts on nothing.
-func actionLayout(r *audit.Result, modelPath string) *actionView {
+// ActionEvidence is the action of a cue audit in plain words, every figure
+// with its interval or its test: what the report and the window show of it,
+// so that both say the same.
+type ActionEvidence struct {
+	// Cues names the cues acted on, "; "-separated.
+	Cues string
+	// Counterfactual are the figures of the confirming half as it is and
+	// without the cues, each a name and its value (none without them).
+	Counterfactual [][2]string
+	// Mask says what masking the filters that read the cues does on the
+	// confirming half and whether it is suggested ("" when none was tried).
+	Mask string
+}
+
+// DescribeAction puts the action of audit r in plain words, or returns nil
+// when the audit acts on no cue.
+func DescribeAction(r *audit.Result) *ActionEvidence {
 	a := r.Action
 	if len(a.Cues) == 0 {
 		return nil
@@ -63,9 +78,9 @@ func actionLayout(r *audit.Result, modelPath string) *actionView {
 			cues = append(cues, cueName(&c))
 		}
 	}
-	av := &actionView{Cues: strings.Join(cues, "; "), Patterns: strings.Join(a.Patterns, "\n")}
+	ae := &ActionEvidence{Cues: strings.Join(cues, "; ")}
 	if cf := a.Counterfactual; cf != nil {
-		av.Counterfactual = []kv{
+		ae.Counterfactual = [][2]string{
 			{fmt.Sprintf("Accuracy on the %s confirming texts, as they are → without the cues", count(cf.Texts)),
 				accuracy(cf.Accuracy) + " → " + accuracy(cf.AccuracyWithout)},
 			{fmt.Sprintf("On the %s of them that hold a cue", count(cf.CueTexts)), accuracy(cf.CueAccuracy) + " → " + accuracy(cf.CueAccuracyWithout)},
@@ -76,13 +91,29 @@ func actionLayout(r *audit.Result, modelPath string) *actionView {
 		verdict := "does not help there, so no filter mask is suggested"
 		if a.Mask != nil {
 			verdict = "helps there"
-			model := cmpOr(modelPath, "MODEL")
-			av.MaskCommand = fmt.Sprintf("telltale mask --model %s --filters %s --out %s-masked.tt",
-				model, strings.ReplaceAll(ints(a.Mask), " ", ""), strings.TrimSuffix(model, ".tt"))
 		}
-		av.Mask = fmt.Sprintf("Masking filters %s, chosen on the choosing half, %s: accuracy on the confirming half %s → %s "+
+		ae.Mask = fmt.Sprintf("Masking filters %s, chosen on the choosing half, %s: accuracy on the confirming half %s → %s "+
 			"(%s fixed, %s broken, one-sided exact McNemar p %s).", ints(t.Filters), verdict, num(t.Accuracy), num(t.AccuracyMasked),
 			count(t.Fixed), count(t.Broken), pvalue(t.P))
+	}
+	return ae
+}
+
+// actionLayout lays out the action, or nil when the audit acts on nothing.
+func actionLayout(r *audit.Result, modelPath string) *actionView {
+	ae := DescribeAction(r)
+	if ae == nil {
+		return nil
+	}
+	a := r.Action
+	av := &actionView{Cues: ae.Cues, Patterns: strings.Join(a.Patterns, "\n"), Mask: ae.Mask}
+	for _, f := range ae.Counterfactual {
+		av.Counterfactual = append(av.Counterfactual, kv{f[0], f[1]})
+	}
+	if a.Mask != nil {
+		model := cmpOr(modelPath, "MODEL")
+		av.MaskCommand = fmt.Sprintf("telltale mask --model %s --filters %s --out %s-masked.tt",
+			model, strings.ReplaceAll(ints(a.Mask), " ", ""), strings.TrimSuffix(model, ".tt"))
 	}
 	return av
 }

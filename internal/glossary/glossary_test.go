@@ -76,7 +76,7 @@ func TestTermsWellFormed(t *testing.T) {
 	// The terms the project's guide requires (DEVELOPERS.md, One vocabulary).
 	for _, name := range []string{"slot score", "family", "selectivity threshold", "selective", "negative n-gram", "stability",
 		"trigger words", "suppressor words", "centred votes", "vote margin", "identified shares", "centred logit", "kept-down window",
-		"occlusion", "flagged word", "suspicion score", "cue group"} {
+		"occlusion", "association", "reliance", "artifact-likeness"} {
 		if _, ok := Lookup(name); !ok {
 			t.Errorf("the glossary lacks %q", name)
 		}
