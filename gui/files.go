@@ -47,6 +47,10 @@ func (st *State) openModelDialog() {
 		}
 		path := r.URI().Path()
 		_ = r.Close()
+		if isStateDict(path) {
+			st.importDialog(path)
+			return
+		}
 		st.openModel(path, nil)
 	}, st.win)
 }

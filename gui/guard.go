@@ -17,6 +17,7 @@ func (st *State) inputs() []string {
 	ps = append(ps, st.opts.DataPath, st.opts.TestPath, st.opts.ModelPath)
 	if ms := itemGet(st.model); ms != nil {
 		ps = append(ps, ms.Source)
+		ps = append(ps, ms.SideFiles...)
 	}
 	return ps
 }

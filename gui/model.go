@@ -22,6 +22,9 @@ type modelState struct {
 	// Source is the file it was opened from, an input of the window that
 	// no save may write onto; "" for a model trained in the window.
 	Source string
+	// SideFiles are the other files it was made from (an imported model's
+	// vocabulary and labels), inputs too.
+	SideFiles []string
 	// Run is the training record when the model was trained in this
 	// window; nil for an opened model.
 	Run *cnn.TrainResult
@@ -168,17 +171,24 @@ func planOf(m *cnn.Model, cs *corpusState) (splitPlan, bool) {
 // on the test split it records.
 func (st *State) openModel(path string, then func()) {
 	st.setStatus("Opening model " + path + "…")
+	st.loadModel(path, path, func(context.Context) (*cnn.Model, error) { return cnn.Load(path) }, then)
+}
+
+// loadModel makes the model load gives the open one, in the background:
+// source is the file it comes from (an input no save may write onto) and
+// path the model file it is saved as ("" when it has none yet).
+func (st *State) loadModel(source, path string, load func(context.Context) (*cnn.Model, error), then func()) {
 	cs := itemGet(st.data)
 	st.start(taskLoad, true, func(ctx context.Context, report reporter) (func(), error) {
-		m, err := cnn.Load(path)
+		m, err := load(ctx)
 		if err != nil {
 			return then, err
 		}
 		ms, err := newModelState(m, path)
 		if err != nil {
-			return then, fmt.Errorf("%s: %w", path, err)
+			return then, fmt.Errorf("%s: %w", source, err)
 		}
-		ms.Source = path
+		ms.Source = source
 		if p, ok := planOf(m, cs); ok && p != cs.Plan && p.check(cs.TestFile != nil) == nil {
 			if cs, err = cs.resplit(ctx, p); err != nil {
 				return then, err
@@ -186,7 +196,7 @@ func (st *State) openModel(path string, then func()) {
 		}
 		ev, err := evaluate(ms, cs)
 		if err != nil {
-			return then, fmt.Errorf("opened %s, but %w; open the data it was trained for", path, err)
+			return then, fmt.Errorf("opened %s, but %w; open the data it was trained for", source, err)
 		}
 		ms.Eval = ev
 		return func() {
@@ -195,8 +205,12 @@ func (st *State) openModel(path string, then func()) {
 				st.data.Set(cs)
 			}
 			st.setModel(ms)
-			st.setStatus(fmt.Sprintf("Opened model %s: %d filters, labels %s.", path, ms.Model.Config.NumFilters(),
-				strings.Join(ms.Model.Labels, ", ")))
+			saved := ""
+			if path == "" {
+				saved = " Not saved yet: File › Save model writes it as a telltale model."
+			}
+			st.setStatus(fmt.Sprintf("Opened model %s: %d filters, labels %s.%s", source, ms.Model.Config.NumFilters(),
+				strings.Join(ms.Model.Labels, ", "), saved))
 			if then != nil {
 				then()
 			}
