@@ -54,55 +54,16 @@ func predictStream(ctx context.Context, next batchSource, m *cnn.Model, enc *cor
 	format func(dst []byte, t text, probs []float32) ([]byte, error), keep func(t text, probs []float32)) error {
 	ctx, cancel := context.WithCancel(ctx)
 	workers := runtime.GOMAXPROCS(0)
-	free := make(chan *textBatch, 2*workers+2)
-	for range cap(free) {
-		free <- &textBatch{}
+	s := &stream{free: make(chan *textBatch, 2*workers+2)}
+	for range cap(s.free) {
+		s.free <- &textBatch{}
 	}
-	work := make(chan *textBatch, cap(free))
-	order := make(chan *textBatch, cap(free))
-	var readErr error
-	go func() { // reads; ends with the input, a read error or ctx
-		defer close(work)
-		defer close(order)
-		for {
-			var b *textBatch
-			select {
-			case b = <-free:
-			case <-ctx.Done():
-				return
-			}
-			b.texts, b.buf, b.err, b.done = b.texts[:0], b.buf[:0], nil, make(chan struct{})
-			more, err := next(b)
-			if err != nil {
-				readErr = err
-				return
-			}
-			if len(b.texts) > 0 {
-				work <- b
-				order <- b
-			}
-			if !more {
-				return
-			}
-		}
-	}()
+	s.work = make(chan *textBatch, cap(s.free))
+	s.order = make(chan *textBatch, cap(s.free))
+	go s.read(ctx, next)
 	var wg sync.WaitGroup
 	for range workers {
-		wg.Go(func() {
-			p := m.NewPredictor()
-			for {
-				select {
-				case b, ok := <-work:
-					if !ok {
-						return
-					}
-					b.label(p, m, enc, format)
-					close(b.done)
-				case <-ctx.Done():
-					return
-				}
-			}
-		})
+		wg.Go(func() { s.labelAll(ctx, m, enc, format) })
 	}
 	// The reader may still be blocked on its input (a terminal): it ends
 	// with the input, as eachLine's does; the workers end here.
@@ -110,18 +71,76 @@ func predictStream(ctx context.Context, next batchSource, m *cnn.Model, enc *cor
 		cancel()
 		wg.Wait()
 	}()
+	return s.write(ctx, w, m.Config.Classes, keep)
+}
+
+// stream is predictStream's batches on their way: free ones, those to
+// label, and all of them in input order for the writer.
+type stream struct {
+	free, work, order chan *textBatch
+	readErr           error // set by read before it closes order
+}
+
+// read fills free batches from next and hands each to the labelers and
+// to the writer; it ends with the input, a read error or ctx.
+func (s *stream) read(ctx context.Context, next batchSource) {
+	defer close(s.work)
+	defer close(s.order)
+	for {
+		var b *textBatch
+		select {
+		case b = <-s.free:
+		case <-ctx.Done():
+			return
+		}
+		b.texts, b.buf, b.err, b.done = b.texts[:0], b.buf[:0], nil, make(chan struct{})
+		more, err := next(b)
+		if err != nil {
+			s.readErr = err
+			return
+		}
+		if len(b.texts) > 0 {
+			s.work <- b
+			s.order <- b
+		}
+		if !more {
+			return
+		}
+	}
+}
+
+// labelAll labels batches until there are no more or ctx ends.
+func (s *stream) labelAll(ctx context.Context, m *cnn.Model, enc *corpus.Encoder, format func([]byte, text, []float32) ([]byte, error)) {
+	p := m.NewPredictor()
+	for {
+		select {
+		case b, ok := <-s.work:
+			if !ok {
+				return
+			}
+			b.label(p, m, enc, format)
+			close(b.done)
+		case <-ctx.Done():
+			return
+		}
+	}
+}
+
+// write writes the batches' lines to w in input order, calls keep with
+// each text and its probabilities (classes per text), and frees the batch.
+func (s *stream) write(ctx context.Context, w io.Writer, classes int, keep func(t text, probs []float32)) error {
 	for {
 		var b *textBatch
 		var ok bool
 		select {
-		case b, ok = <-order:
+		case b, ok = <-s.order:
 		case <-ctx.Done():
 			return ctx.Err()
 		}
 		if !ok {
 			// The reader has returned, so readErr is set if it failed.
-			if readErr != nil {
-				return readErr
+			if s.readErr != nil {
+				return s.readErr
 			}
 			return ctx.Err()
 		}
@@ -137,12 +156,11 @@ func predictStream(ctx context.Context, next batchSource, m *cnn.Model, enc *cor
 			return err
 		}
 		if keep != nil {
-			c := m.Config.Classes
 			for i, t := range b.texts {
-				keep(t, b.probs[i*c:(i+1)*c])
+				keep(t, b.probs[i*classes:(i+1)*classes])
 			}
 		}
-		free <- b
+		s.free <- b
 	}
 }
 
