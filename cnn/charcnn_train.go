@@ -1,0 +1,97 @@
+package cnn
+
+import "telltale/corpus"
+
+// charTrain is the character layer's part of a training step: the
+// character ids and forward results of the batch's distinct words, and each
+// worker's gradient of the layer.
+type charTrain struct {
+	ids []int32   // the character ids of the batch's words, concatenated
+	off []int     // word i's ids are ids[off[i]:off[i+1]]
+	out []float32 // words × Filters: their character parts
+	pre []float32 // words × Filters: the winning windows' pre-activations
+	arg []int32   // words × Filters: the winning windows
+	th  []charGrad
+}
+
+// charGrad is one worker's gradient of the character layer.
+type charGrad struct{ emb, w, b []float32 }
+
+// newCharTrain allocates the character part of tr and adds the layer's
+// weights to the optimizer's groups (the character vectors and filters
+// decay like the word table and filters, the biases do not; the zero
+// character's row is never trained).
+func newCharTrain(tr *trainer, add func(p, g []float32, decay bool)) *charTrain {
+	l, cd := tr.m.Char, tr.m.Config.Chars.Dim
+	ct := &charTrain{th: make([]charGrad, len(tr.th))}
+	for k := range ct.th {
+		ct.th[k] = charGrad{emb: make([]float32, len(l.Emb)), w: make([]float32, len(l.W)), b: make([]float32, len(l.B))}
+	}
+	g0 := &ct.th[0]
+	add(l.Emb[cd:], g0.emb[cd:], true)
+	add(l.W, g0.w, true)
+	add(l.B, g0.b, false)
+	return ct
+}
+
+// charPrepare lists the character ids of the batch's words and clears the
+// gradients.
+func (tr *trainer) charPrepare() {
+	ct, m := tr.ch, tr.m
+	ct.ids, ct.off = ct.ids[:0], append(ct.off[:0], 0)
+	var buf []int32
+	for _, id := range tr.ws.words {
+		if id != corpus.UNK {
+			buf = m.charIDs(buf, m.Vocab[id])
+			ct.ids = append(ct.ids, buf...)
+		}
+		ct.off = append(ct.off, len(ct.ids))
+	}
+	nf := len(tr.ws.words) * m.Config.Chars.Filters
+	ct.out, ct.pre, ct.arg = grow(ct.out, nf), grow(ct.pre, nf), grow(ct.arg, nf)
+	for k := range ct.th {
+		clear(ct.th[k].emb)
+		clear(ct.th[k].w)
+		clear(ct.th[k].b)
+	}
+}
+
+// charForwardRows computes the character parts of words lo..hi into their
+// gathered rows (UNK's part is zero).
+func (tr *trainer) charForwardRows(_, lo, hi int) {
+	ct, m := tr.ch, tr.m
+	d, wd, F := m.Config.Dim, m.Config.WordDim(), m.Config.Chars.Filters
+	for i := lo; i < hi; i++ {
+		out := ct.out[i*F : (i+1)*F]
+		if cs := ct.ids[ct.off[i]:ct.off[i+1]]; len(cs) > 0 {
+			m.charForward(cs, out, ct.pre[i*F:(i+1)*F], ct.arg[i*F:(i+1)*F])
+		} else {
+			clear(out)
+		}
+		copy(tr.emb[i*d+wd:(i+1)*d], out)
+	}
+}
+
+// charBackwardRows carries the reduced gradients of words lo..hi's
+// character parts into worker k's gradient of the layer.
+func (tr *trainer) charBackwardRows(k, lo, hi int) {
+	ct, m := tr.ch, tr.m
+	d, wd, F := m.Config.Dim, m.Config.WordDim(), m.Config.Chars.Filters
+	g := &ct.th[k]
+	for i := lo; i < hi; i++ {
+		if cs := ct.ids[ct.off[i]:ct.off[i+1]]; len(cs) > 0 {
+			m.charBackward(cs, ct.out[i*F:(i+1)*F], ct.arg[i*F:(i+1)*F], tr.th[0].emb[i*d+wd:(i+1)*d], g.emb, g.w, g.b)
+		}
+	}
+}
+
+// charReduce sums the workers' gradients of the layer into worker 0's, in
+// worker order.
+func (tr *trainer) charReduce() {
+	th := tr.ch.th
+	for k := 1; k < len(th); k++ {
+		addTo(th[0].emb, th[k].emb)
+		addTo(th[0].w, th[k].w)
+		addTo(th[0].b, th[k].b)
+	}
+}
