@@ -123,7 +123,7 @@ type trainer struct {
 	ch *charTrain
 
 	fnGather, fnTable, fnText, fnReduce, fnScatter, fnUnscatter, fnOpt func(k, lo, hi int)
-	fnCharFwd, fnCharBwd                                                func(k, lo, hi int)
+	fnCharFwd, fnCharBwd                                               func(k, lo, hi int)
 }
 
 // embGrad reports whether the step needs the gradient of the batch's word
