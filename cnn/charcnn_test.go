@@ -1,14 +1,19 @@
 package cnn
 
 import (
+	"encoding/json"
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"os"
+	"os/exec"
+	"path/filepath"
 	"slices"
 	"strings"
 	"testing"
 
 	"telltale/corpus"
+	"telltale/internal/testref"
 )
 
 // rows64 returns the float64 word vector of each id, computed afresh: for
@@ -183,6 +188,165 @@ func TestCharGradientFiniteDifferences(t *testing.T) {
 		}
 		if charChecked < 20 {
 			t.Errorf("seed %d: only %d nonzero character-layer gradients checked", seed, charChecked)
+		}
+	}
+}
+
+type charTorchIn struct {
+	Vocab       int         `json:"vocab"`
+	WordDim     int         `json:"word_dim"`
+	Filters     int         `json:"filters"`
+	Classes     int         `json:"classes"`
+	Widths      []int       `json:"widths"`
+	CharRows    int         `json:"char_rows"`
+	CharDim     int         `json:"char_dim"`
+	CharFilters int         `json:"char_filters"`
+	CharWidth   int         `json:"char_width"`
+	CharIDs     [][]int32   `json:"char_ids"`
+	WordEmb     []float32   `json:"word_emb"`
+	CharEmb     []float32   `json:"char_emb"`
+	CharW       []float32   `json:"char_w"`
+	CharB       []float32   `json:"char_b"`
+	ConvW       [][]float32 `json:"conv_w"`
+	ConvB       [][]float32 `json:"conv_b"`
+	OutW        []float32   `json:"out_w"`
+	OutB        []float32   `json:"out_b"`
+	Texts       [][]int32   `json:"texts"`
+	Labels      []int       `json:"labels"`
+	Drop        []float32   `json:"drop"`
+}
+
+type charTorchOut struct {
+	Logits  []float64   `json:"logits"`
+	Loss    float64     `json:"loss"`
+	WordEmb []float64   `json:"word_emb"`
+	CharEmb []float64   `json:"char_emb"`
+	CharW   []float64   `json:"char_w"`
+	CharB   []float64   `json:"char_b"`
+	ConvW   [][]float64 `json:"conv_w"`
+	ConvB   [][]float64 `json:"conv_b"`
+	OutW    []float64   `json:"out_w"`
+	OutB    []float64   `json:"out_b"`
+	Torch   string      `json:"torch"`
+}
+
+// Logits, loss and every gradient of a batch of a model with a character
+// layer (the word table's, the character vectors', filters' and biases',
+// the network's) agree with PyTorch (Debian's python3-torch 1.13, float64,
+// script cnn/testdata/charcnn_check.py) within 1e-4 relative with an
+// absolute floor of 1e-6, as TestTorchCrossCheck: texts of different
+// lengths, UNK, a word longer than MaxChars, a one-letter word shorter than
+// the character width with its begin and end marks, a rune outside the
+// alphabet, dropout scales.
+func TestCharTorchCrossCheck(t *testing.T) {
+	testref.RequirePython(t, "torch")
+	type tcase struct {
+		m      *Model
+		texts  [][]int32
+		labels []int
+		drop   []float32
+	}
+	var cases []tcase
+	var ins []charTorchIn
+	for seed := uint64(1); seed <= 3; seed++ {
+		cc := CharConfig{Filters: 4, Width: 2 + int(seed), Dim: 5, MaxChars: 6}
+		m := randCharModel(seed, 25, 6, []int{2, 3, 5}, 4, 3, cc)
+		rng := rand.New(rand.NewPCG(seed, 5))
+		texts := randTexts(rng, 9, 14, 25)
+		texts[0], texts[1], texts[2] = []int32{2}, []int32{}, []int32{4, 3, corpus.UNK, 4}
+		labels := make([]int, len(texts))
+		for i := range labels {
+			labels[i] = rng.IntN(3)
+		}
+		var drop []float32
+		if seed != 1 {
+			drop = make([]float32, len(texts)*m.Config.NumFilters())
+			for i := range drop {
+				if rng.IntN(2) == 0 {
+					drop[i] = 2
+				}
+			}
+		}
+		d, wd := m.Config.Dim, m.Config.WordDim()
+		in := charTorchIn{Vocab: 25, WordDim: wd, Filters: 4, Classes: 3, Widths: m.Config.Widths,
+			CharRows: m.Config.Chars.Rows(), CharDim: cc.Dim, CharFilters: cc.Filters, CharWidth: cc.Width,
+			CharEmb: m.Char.Emb, CharW: m.Char.W, CharB: m.Char.B,
+			OutW: m.OutW, OutB: m.OutB, Texts: texts, Labels: labels, Drop: drop}
+		for id, w := range m.Vocab {
+			in.WordEmb = append(in.WordEmb, m.Emb[id*d:id*d+wd]...)
+			in.CharIDs = append(in.CharIDs, m.charIDs(nil, w))
+		}
+		for _, c := range m.Convs {
+			in.ConvW = append(in.ConvW, c.W)
+			in.ConvB = append(in.ConvB, c.B)
+		}
+		ins = append(ins, in)
+		cases = append(cases, tcase{m, texts, labels, drop})
+	}
+	dir := t.TempDir()
+	js, _ := json.Marshal(ins)
+	if err := os.WriteFile(filepath.Join(dir, "in.json"), js, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if out, err := exec.Command("/usr/bin/python3", "testdata/charcnn_check.py", dir).CombinedOutput(); err != nil {
+		t.Fatalf("charcnn_check.py: %v\n%s", err, out)
+	}
+	var refs []charTorchOut
+	raw, err := os.ReadFile(filepath.Join(dir, "out.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := json.Unmarshal(raw, &refs); err != nil || len(refs) != len(cases) {
+		t.Fatalf("out.json: %v (%d cases)", err, len(refs))
+	}
+	for ci, c := range cases {
+		seed, m, ref := ci+1, c.m, refs[ci]
+		loss, tr := analytic(m, c.texts, c.labels, c.drop, 2)
+		cmp := func(what string, got []float32, want []float64) {
+			t.Helper()
+			if len(got) != len(want) {
+				t.Fatalf("seed %d %s: %d values, torch %d", seed, what, len(got), len(want))
+			}
+			for i := range want {
+				if !testref.Close(float64(got[i]), want[i], 1e-6, 1e-4) {
+					t.Errorf("seed %d %s[%d]: %g, torch %g", seed, what, i, got[i], want[i])
+				}
+			}
+		}
+		if !testref.Close(loss, ref.Loss, 0, 1e-4) {
+			t.Errorf("seed %d: loss %g, torch %g", seed, loss, ref.Loss)
+		}
+		nf := m.Config.NumFilters()
+		logits := make([]float32, len(c.texts)*3)
+		h := make([]float32, nf)
+		for i := range c.texts {
+			m.pool(tr.pre[i*nf:(i+1)*nf], h)
+			for g := range h {
+				if c.drop != nil {
+					h[g] *= c.drop[i*nf+g]
+				}
+			}
+			m.Head(h, logits[i*3:(i+1)*3])
+		}
+		cmp("logits", logits, ref.Logits)
+		d, wd := m.Config.Dim, m.Config.WordDim()
+		var gWord []float32
+		for id := range m.Config.VocabSize {
+			gWord = append(gWord, tr.gEmb[id*d:id*d+wd]...)
+		}
+		cmp("grad word table", gWord, ref.WordEmb)
+		g := tr.ch.th[0]
+		cmp("grad char vectors", g.emb, ref.CharEmb)
+		cmp("grad char filters", g.w, ref.CharW)
+		cmp("grad char biases", g.b, ref.CharB)
+		for b := range m.Convs {
+			cmp("grad W", tr.th[0].w[tr.wOff[b]:tr.wOff[b]+len(m.Convs[b].W)], ref.ConvW[b])
+			cmp("grad B", tr.th[0].b[b*4:(b+1)*4], ref.ConvB[b])
+		}
+		cmp("grad OutW", tr.th[0].ow, ref.OutW)
+		cmp("grad OutB", tr.th[0].ob, ref.OutB)
+		if ci == 0 {
+			t.Logf("compared with torch %s", ref.Torch)
 		}
 	}
 }
