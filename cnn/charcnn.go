@@ -186,40 +186,76 @@ func (m *Model) charIDs(dst []int32, word string) []int32 {
 	return dst
 }
 
-// charForward writes charvec of the word of character ids cs into out
-// (Filters values) and the winning window of each filter into arg and its
-// pre-activation into pre.
-func (m *Model) charForward(cs []int32, out, pre []float32, arg []int32) {
+// charTable fills tab (grown as needed) with every character's dot
+// products with every filter slot, tab[(c·Width + s)·Filters + f] =
+// W[f][s]·C[c], and returns it: a window's pre-activations are then the
+// bias plus Width rows of Filters values, as for the word layer (slots.go).
+// Every path (training, FillChars, CharVector) computes a word's character
+// part from this table in the same order, so its value does not depend on
+// which path computed it.
+func (m *Model) charTable(tab []float32) []float32 {
 	c, l := m.Config.Chars, m.Char
-	cd, w := c.Dim, c.Width
-	for f := 0; f < c.Filters; f++ {
-		best, bt := float32(math.Inf(-1)), 0
-		for j := 0; j+w <= len(cs); j++ {
-			a := l.B[f]
-			for s := 0; s < w; s++ {
+	cd, w, F := c.Dim, c.Width, c.Filters
+	tab = grow(tab, c.Rows()*w*F)
+	for ch := 0; ch < c.Rows(); ch++ {
+		e := l.Emb[ch*cd : (ch+1)*cd]
+		for s := 0; s < w; s++ {
+			row := tab[(ch*w+s)*F : (ch*w+s+1)*F]
+			for f := range row {
 				ws := l.W[(f*w+s)*cd : (f*w+s+1)*cd]
-				e := l.Emb[int(cs[j+s])*cd : int(cs[j+s]+1)*cd]
+				var a float32
 				for k, v := range ws {
 					a += v * e[k]
 				}
-			}
-			if a > best {
-				best, bt = a, j
+				row[f] = a
 			}
 		}
-		out[f] = float32(math.Tanh(float64(best)))
+	}
+	return tab
+}
+
+// charForward writes charvec of the word of character ids cs into out
+// (Filters values), given charTable's tab and scratch acc of Filters
+// values; with pre not nil, also the winning pre-activation and window of
+// each filter into pre and arg.
+func (m *Model) charForward(tab, acc []float32, cs []int32, out, pre []float32, arg []int32) {
+	c, l := m.Config.Chars, m.Char
+	w, F := c.Width, c.Filters
+	best := out // the running maxima, before tanh
+	for f := range best {
+		best[f] = float32(math.Inf(-1))
+	}
+	for j := 0; j+w <= len(cs); j++ {
+		copy(acc, l.B)
+		for s := 0; s < w; s++ {
+			row := tab[(int(cs[j+s])*w+s)*F : (int(cs[j+s])*w+s+1)*F]
+			for f, v := range row {
+				acc[f] += v
+			}
+		}
+		for f, a := range acc[:F] {
+			if a > best[f] {
+				best[f] = a
+				if arg != nil {
+					arg[f] = int32(j)
+				}
+			}
+		}
+	}
+	for f, b := range best {
 		if pre != nil {
-			pre[f], arg[f] = best, int32(bt)
+			pre[f] = b
 		}
+		out[f] = float32(math.Tanh(float64(b)))
 	}
 }
 
-// charBackward adds to gEmb, gW, gB the gradient of the loss through the
-// character part of one word, whose forward gave out and arg, given the
-// loss gradient gOut with respect to its character part.
-func (m *Model) charBackward(cs []int32, out []float32, arg []int32, gOut, gEmb, gW, gB []float32) {
-	c, l := m.Config.Chars, m.Char
-	cd, w := c.Dim, c.Width
+// charBackward adds to gTab (charTable's shape) and gB the gradient of the
+// loss through the character part of one word, whose forward gave out and
+// arg, given the loss gradient gOut with respect to that part. charUntable
+// turns gTab into the gradients of the character vectors and filters.
+func (m *Model) charBackward(cs []int32, out []float32, arg []int32, gOut, gTab, gB []float32) {
+	w, F := m.Config.Chars.Width, m.Config.Chars.Filters
 	for f, g := range gOut {
 		if g == 0 {
 			continue
@@ -228,13 +264,29 @@ func (m *Model) charBackward(cs []int32, out []float32, arg []int32, gOut, gEmb,
 		gB[f] += g
 		j := int(arg[f])
 		for s := 0; s < w; s++ {
-			ch := cs[j+s]
-			if ch == charPad {
-				continue // the zero character is fixed and adds nothing
+			gTab[(int(cs[j+s])*w+s)*F+f] += g
+		}
+	}
+}
+
+// charUntable adds to gEmb and gW the gradients that the table gradient
+// gTab stands for: tab[c][s][f] = W[f][s]·C[c], so ∂/∂W[f][s] gains
+// Σ_c gTab[c][s][f]·C[c] and ∂/∂C[c] gains Σ_{s,f} gTab[c][s][f]·W[f][s].
+// The zero character is fixed and gets none.
+func (m *Model) charUntable(gTab, gEmb, gW []float32) {
+	c, l := m.Config.Chars, m.Char
+	cd, w, F := c.Dim, c.Width, c.Filters
+	for ch := charPad + 1; ch < c.Rows(); ch++ {
+		e, ge := l.Emb[ch*cd:(ch+1)*cd], gEmb[ch*cd:(ch+1)*cd]
+		for s := 0; s < w; s++ {
+			for f, g := range gTab[(ch*w+s)*F : (ch*w+s+1)*F] {
+				if g == 0 {
+					continue
+				}
+				wo := (f*w + s) * cd
+				axpy(g, e, gW[wo:wo+cd])
+				axpy(g, l.W[wo:wo+cd], ge)
 			}
-			wo := (f*w + s) * cd
-			axpy(g, l.Emb[int(ch)*cd:int(ch+1)*cd], gW[wo:wo+cd])
-			axpy(g, l.W[wo:wo+cd], gEmb[int(ch)*cd:int(ch+1)*cd])
 		}
 	}
 }
@@ -242,7 +294,7 @@ func (m *Model) charBackward(cs []int32, out []float32, arg []int32, gOut, gEmb,
 // CharVector writes the character part of word's vector into dst
 // (Config.Chars.Filters values). The model must have a character layer.
 func (m *Model) CharVector(word string, dst []float32) {
-	m.charForward(m.charIDs(nil, word), dst, nil, nil)
+	m.charForward(m.charTable(nil), make([]float32, m.Config.Chars.Filters), m.charIDs(nil, word), dst, nil, nil)
 }
 
 // FillChars recomputes the character part of every vocabulary word's row
@@ -262,6 +314,7 @@ func (m *Model) FillChars() {
 // on GOMAXPROCS goroutines.
 func (m *Model) fillCharRows(lo, hi int) {
 	wd := m.Config.WordDim()
+	tab := m.charTable(nil)
 	threads := max(1, min(runtime.GOMAXPROCS(0), (hi-lo)/64))
 	var wg sync.WaitGroup
 	for k := 0; k < threads; k++ {
@@ -270,9 +323,10 @@ func (m *Model) fillCharRows(lo, hi int) {
 		go func() {
 			defer wg.Done()
 			var cs []int32
+			acc := make([]float32, m.Config.Chars.Filters)
 			for id := a; id < b; id++ {
 				cs = m.charIDs(cs, m.Vocab[id])
-				m.charForward(cs, m.Row(int32(id))[wd:], nil, nil)
+				m.charForward(tab, acc, cs, m.Row(int32(id))[wd:], nil, nil)
 			}
 		}()
 	}
