@@ -334,23 +334,26 @@ func (m *Model) fillCharRows(lo, hi int) {
 }
 
 // WithUnseen returns, for a model with a character layer, a model whose
-// vocabulary also holds every word of texts that m's encoder maps to UNK,
-// each with the vector [E[UNK] ; charvec(word)]: the table knows nothing of
-// the word, its characters do. Since a token's vector still depends on the
-// token alone, everything computed from the returned model (predictions,
-// explanations and their exact token shares) is computed as for any model;
-// texts must be encoded with its Encoder. The returned model shares m's
-// filters and head (read-only) and must not be saved in m's place. For a
-// model without a character layer, or texts without unseen words, it
-// returns m itself, so that path costs one tokenization pass only when
-// characters are on.
-func (m *Model) WithUnseen(texts []string) (*Model, error) {
-	if m.Config.Chars == nil || len(texts) == 0 {
-		return m, nil
+// vocabulary also holds every word of texts that enc (m's encoder; nil
+// builds it) maps to UNK, each with the vector [E[UNK] ; charvec(word)]:
+// the table knows nothing of the word, its characters do; and the encoder
+// of that model (enc's tokenizer, the longer vocabulary). Since a token's
+// vector still depends on the token alone, everything computed from the
+// returned model (predictions, explanations and their exact token shares)
+// is computed as for any model, with texts encoded by the returned
+// encoder. The returned model shares m's filters and head (read-only) and
+// must not be saved in m's place. For a model without a character layer,
+// or texts without unseen words, it returns m and enc themselves, so that
+// path costs nothing when characters are off.
+func (m *Model) WithUnseen(enc *corpus.Encoder, texts []string) (*Model, *corpus.Encoder, error) {
+	if enc == nil {
+		var err error
+		if enc, err = m.Encoder(); err != nil {
+			return nil, nil, err
+		}
 	}
-	enc, err := m.Encoder()
-	if err != nil {
-		return nil, err
+	if m.Config.Chars == nil || len(texts) == 0 {
+		return m, enc, nil
 	}
 	seen := map[string]bool{}
 	var add []string
@@ -364,7 +367,7 @@ func (m *Model) WithUnseen(texts []string) (*Model, error) {
 		}
 	}
 	if len(add) == 0 {
-		return m, nil
+		return m, enc, nil
 	}
 	d, v := m.Config.Dim, m.Config.VocabSize
 	x := *m
@@ -378,5 +381,5 @@ func (m *Model) WithUnseen(texts []string) (*Model, error) {
 	}
 	x.cache, x.version = nil, 0
 	x.fillCharRows(v, v+len(add))
-	return &x, nil
+	return &x, &corpus.Encoder{Tok: enc.Tok, Vocab: corpus.NewVocab(x.Vocab, nil), MaxTokens: enc.MaxTokens}, nil
 }

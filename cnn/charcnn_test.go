@@ -438,7 +438,7 @@ func TestWithUnseen(t *testing.T) {
 	m.Tokenizer = corpus.TokenizerConfig{Lower: true, MinCount: 1}
 	known := m.Vocab[5] + " " + m.Vocab[7]
 	texts := []string{known + " qqxyq " + m.Vocab[9] + "zz", "qqxyq Qqxyy"}
-	mu, err := m.WithUnseen(texts)
+	mu, encU, err := m.WithUnseen(nil, texts)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -458,9 +458,8 @@ func TestWithUnseen(t *testing.T) {
 			t.Errorf("row of %q is %v, want UNK's table part and its character vector %v", w, row, want)
 		}
 	}
-	encU, err := mu.Encoder()
-	if err != nil {
-		t.Fatal(err)
+	if e2, _ := mu.Encoder(); !slices.Equal(e2.Vocab.Words, encU.Vocab.Words) {
+		t.Error("the returned encoder is not the returned model's")
 	}
 	enc, _ := m.Encoder()
 	_, ids := enc.Encode(known)
@@ -472,7 +471,7 @@ func TestWithUnseen(t *testing.T) {
 		t.Errorf("unseen words still encoded as UNK: %v", idsU)
 	}
 	plain := randModel(1, 10, 4, []int{2}, 2, 2)
-	if p, err := plain.WithUnseen(texts); err != nil || p != plain {
+	if p, _, err := plain.WithUnseen(nil, texts); err != nil || p != plain {
 		t.Errorf("a model without a character layer: %v, %v", p == plain, err)
 	}
 }
@@ -563,11 +562,10 @@ func TestCharMisspellingsNearTheirWords(t *testing.T) {
 			miss, of = append(miss, v), append(of, w)
 		}
 	}
-	mu, err := m.WithUnseen(miss)
+	mu, encU, err := m.WithUnseen(nil, miss)
 	if err != nil {
 		t.Fatal(err)
 	}
-	encU, _ := mu.Encoder()
 	var sumWord, sumRand float64
 	closer := 0
 	for i, v := range miss {

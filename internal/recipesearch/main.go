@@ -114,11 +114,7 @@ func measure(which, name string, r cnn.Recipe, sp splits) (string, error) {
 	if m.Config.Chars != nil {
 		// Early stopping saw the dev split's unseen words as UNK; this is
 		// the kept model with each unseen word's own character vector.
-		mu, err := m.WithUnseen(sp.dev.Texts())
-		if err != nil {
-			return "", err
-		}
-		encU, err := mu.Encoder()
+		mu, encU, err := m.WithUnseen(enc, sp.dev.Texts())
 		if err != nil {
 			return "", err
 		}
