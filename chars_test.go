@@ -12,7 +12,7 @@ import (
 )
 
 // TestTrainWithChars: train --chars records the character layer in the
-// model (word vectors --dim + --char-filters wide); predict labels a text
+// model (word vectors --dim + --char-maps wide); predict labels a text
 // of misspelled words with their own vectors (the probabilities of the
 // library's cnn.Model.WithUnseen path, to float32 rounding as printed);
 // explain explains it; export refuses the model, naming the option,
@@ -22,7 +22,7 @@ func TestTrainWithChars(t *testing.T) {
 	data := demoPart(t, dir, 400)
 	model := filepath.Join(dir, "m.tt")
 	args := []string{"train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet",
-		"--chars", "--char-filters", "6", "--char-width", "2"}
+		"--chars", "--char-maps", "6", "--char-width", "2"}
 	if code, _, stderr := tt(t, args...); code != 0 {
 		t.Fatalf("%q: exit %d: %s", args, code, stderr)
 	}

@@ -19,7 +19,7 @@ import (
 // are cnn.DefaultRecipe's.
 type recipeOptions struct {
 	Epochs, Batch, Dim, Maps, MaxLen, Patience, MinCount int
-	CharFilters, CharWidth                               int
+	CharMaps, CharWidth                                  int
 	Widths, Optimizer, Vectors, Tokenizer, ClassWeight   string
 	Dropout, LR, MaxNorm, WordDropout, TokenDropout      float64
 	Freeze, Subword, Lower, Baseline, Chars              bool
@@ -61,7 +61,7 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 		"probability that any training token becomes the unknown word, in every batch, in [0, 1); 0 is off")
 	fs.BoolVar(&r.Chars, "chars", def.Model.Chars != nil,
 		"character-aware word vectors: a character CNN per word, its output beside the word's table vector, so unseen and misspelled words get vectors of their own")
-	intVar(fs, &r.CharFilters, "char-filters", cnn.DefaultCharFilters, "with --chars: character filters, the numbers each word gains")
+	intVar(fs, &r.CharMaps, "char-maps", cnn.DefaultCharFilters, "with --chars: feature maps (filters) of the character layer, the numbers each word vector gains")
 	intVar(fs, &r.CharWidth, "char-width", cnn.DefaultCharWidth, "with --chars: characters per character filter window (1 to 32)")
 	fs.BoolVar(&r.Baseline, "baseline", def.Baseline != nil,
 		"also fit the linear baseline (TF-IDF n-grams + logistic regression) and show it beside the CNN; --baseline=false leaves it out")
@@ -94,7 +94,7 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 		{"max-len", r.MaxLen, 0, "0 keeps texts whole"},
 		{"patience", r.Patience, 0, "epochs without a better dev macro-F1 before stopping; 0 never stops early"},
 		{"min-count", r.MinCount, 1, "a word enters the vocabulary once it occurs this often"},
-		{"char-filters", r.CharFilters, 1, "character filters (with --chars)"},
+		{"char-maps", r.CharMaps, 1, "feature maps of the character layer (with --chars)"},
 		{"char-width", r.CharWidth, 1, "characters per character filter window (with --chars)"},
 	} {
 		if err := checkAtLeast(c.name, c.n, c.lo, c.reason); err != nil {
@@ -130,10 +130,10 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 		return usagef("--token-dropout %g: give a probability from 0 up to (not including) 1", r.TokenDropout)
 	case r.CharWidth > 32:
 		return usagef("--char-width %d: give at most 32 characters", r.CharWidth)
-	case r.CharFilters > 4096:
-		return usagef("--char-filters %d: give at most 4096", r.CharFilters)
-	case !r.Chars && (isSet(fs, "char-filters") || isSet(fs, "char-width")):
-		return usagef("--char-filters and --char-width shape the character layer: add --chars")
+	case r.CharMaps > 4096:
+		return usagef("--char-maps %d: give at most 4096", r.CharMaps)
+	case !r.Chars && (isSet(fs, "char-maps") || isSet(fs, "char-width")):
+		return usagef("--char-maps and --char-width shape the character layer: add --chars")
 	}
 	return nil
 }
@@ -143,7 +143,7 @@ func (r *recipeOptions) charConfig() *cnn.CharConfig {
 	if !r.Chars {
 		return nil
 	}
-	return &cnn.CharConfig{Filters: r.CharFilters, Width: r.CharWidth, Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
+	return &cnn.CharConfig{Filters: r.CharMaps, Width: r.CharWidth, Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
 }
 
 // vectorsDim is the dimension the first line of the word-vector file at
@@ -222,7 +222,7 @@ func (r *recipeOptions) checkSize(vocab, classes, longest, threads int) error {
 	}
 	dim := r.Dim
 	if r.Chars {
-		dim += r.CharFilters // the word vectors' width with the character part
+		dim += r.CharMaps // the word vectors' width with the character part
 	}
 	cfg := cnn.Config{VocabSize: vocab, Dim: dim, Widths: r.widths, Filters: r.Maps, Classes: classes}
 	return checkMemory(cfg, r.Batch, maxLen, threads)
