@@ -202,7 +202,9 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 	}
 	cfg := &rec.Model
 	cfg.Dim, cfg.Widths, cfg.Filters, cfg.Dropout, cfg.MaxNorm = r.Dim, r.widths, r.Maps, float32(r.Dropout), float32(r.MaxNorm)
-	cfg.Chars = r.charConfig()
+	if cfg.Chars = r.charConfig(); cfg.Chars != nil {
+		cfg.Dim += cfg.Chars.Filters // --dim is the word table's; the character part comes beside it
+	}
 	rec.Tokenizer, rec.VectorsPath, rec.DimFromVectors = r.tokenizerConfig(), r.Vectors, r.dimFromVectors
 	if !r.Baseline {
 		rec.Baseline = nil

@@ -537,7 +537,7 @@ func TestCharMisspellingsNearTheirWords(t *testing.T) {
 	}
 	r := DefaultRecipe()
 	r.Baseline = nil
-	r.Model.Dim, r.Model.Filters = 32, 50
+	r.Model.Dim, r.Model.Filters = 32+DefaultCharFilters, 50
 	r.Model.Chars = &CharConfig{Filters: DefaultCharFilters, Width: DefaultCharWidth, Dim: DefaultCharDim, MaxChars: DefaultMaxChars}
 	r.Train.Epochs, r.Train.Threads, r.Train.Patience, r.Train.TokenDropout = 5, 2, -1, 0
 	trained, err := TrainText(context.Background(), ds, nil, r, nil)

@@ -23,10 +23,12 @@ type Recipe struct {
 	// is 0 or DimFromVectors is set: then the embedding dimension is the
 	// file's.
 	//
-	// Model.Dim is the word table's dimension: with Model.Chars (whose
-	// Alphabet TrainText fills from the vocabulary) each word vector is
-	// that table row and Chars.Filters character-part values side by side,
-	// so the model's Config.Dim is Model.Dim + Chars.Filters.
+	// With Model.Chars (whose Alphabet TrainText fills from the
+	// vocabulary), Model.Dim is the whole word vector's width: the word
+	// table's Dim − Chars.Filters columns and the character part; a
+	// vectors file then gives the table's columns (DimFromVectors: Dim is
+	// the file's plus Chars.Filters). A trained model's Config is thus a
+	// recipe for the same architecture.
 	VectorsPath    string
 	DimFromVectors bool
 	// Members, when 2 or more, asks TrainText for that many models, trained
@@ -98,13 +100,15 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 		}
 		if cfg.Dim == 0 || r.DimFromVectors {
 			cfg.Dim = vecs.Dim
+			if cfg.Chars != nil {
+				cfg.Dim += cfg.Chars.Filters
+			}
 		}
 	}
 	if cfg.Chars != nil {
 		cc := *cfg.Chars
 		cc.Alphabet = Alphabet(enc.Vocab.Words)
 		cfg.Chars = &cc
-		cfg.Dim += cc.Filters
 	}
 	out := &Trained{Encoder: enc}
 	var members []*Model

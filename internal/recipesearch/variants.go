@@ -15,6 +15,7 @@ var variants = map[string]func(r *cnn.Recipe){
 	"chars": func(r *cnn.Recipe) {
 		r.Model.Chars = &cnn.CharConfig{Filters: cnn.DefaultCharFilters, Width: cnn.DefaultCharWidth,
 			Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
+		r.Model.Dim += cnn.DefaultCharFilters // the word table keeps its columns
 	},
 	"tok0":  func(r *cnn.Recipe) { r.Train.TokenDropout = 0 },
 	"tok10": func(r *cnn.Recipe) { r.Train.TokenDropout = 0.1 },
