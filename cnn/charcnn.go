@@ -215,9 +215,9 @@ func (m *Model) charTable(tab []float32) []float32 {
 }
 
 // charForward writes charvec of the word of character ids cs into out
-// (Filters values), given charTable's tab and scratch acc of Filters
-// values; with pre not nil, also the winning pre-activation and window of
-// each filter into pre and arg.
+// (Filters values) and the winning window of each filter into arg, given
+// charTable's tab and scratch acc of Filters values; with pre not nil,
+// also the winning pre-activations into pre.
 func (m *Model) charForward(tab, acc []float32, cs []int32, out, pre []float32, arg []int32) {
 	c, l := m.Config.Chars, m.Char
 	w, F := c.Width, c.Filters
@@ -228,24 +228,15 @@ func (m *Model) charForward(tab, acc []float32, cs []int32, out, pre []float32, 
 	for j := 0; j+w <= len(cs); j++ {
 		copy(acc, l.B)
 		for s := 0; s < w; s++ {
-			row := tab[(int(cs[j+s])*w+s)*F : (int(cs[j+s])*w+s+1)*F]
-			for f, v := range row {
-				acc[f] += v
-			}
+			r := (int(cs[j+s])*w + s) * F
+			addTo(acc[:F], tab[r:r+F])
 		}
-		for f, a := range acc[:F] {
-			if a > best[f] {
-				best[f] = a
-				if arg != nil {
-					arg[f] = int32(j)
-				}
-			}
-		}
+		maxUpdate(best, arg, acc[:F], int32(j))
+	}
+	if pre != nil {
+		copy(pre, best)
 	}
 	for f, b := range best {
-		if pre != nil {
-			pre[f] = b
-		}
 		out[f] = float32(math.Tanh(float64(b)))
 	}
 }
@@ -294,7 +285,8 @@ func (m *Model) charUntable(gTab, gEmb, gW []float32) {
 // CharVector writes the character part of word's vector into dst
 // (Config.Chars.Filters values). The model must have a character layer.
 func (m *Model) CharVector(word string, dst []float32) {
-	m.charForward(m.charTable(nil), make([]float32, m.Config.Chars.Filters), m.charIDs(nil, word), dst, nil, nil)
+	F := m.Config.Chars.Filters
+	m.charForward(m.charTable(nil), make([]float32, F), m.charIDs(nil, word), dst, nil, make([]int32, F))
 }
 
 // FillChars recomputes the character part of every vocabulary word's row
@@ -324,9 +316,10 @@ func (m *Model) fillCharRows(lo, hi int) {
 			defer wg.Done()
 			var cs []int32
 			acc := make([]float32, m.Config.Chars.Filters)
+			arg := make([]int32, m.Config.Chars.Filters)
 			for id := a; id < b; id++ {
 				cs = m.charIDs(cs, m.Vocab[id])
-				m.charForward(tab, acc, cs, m.Row(int32(id))[wd:], nil, nil)
+				m.charForward(tab, acc, cs, m.Row(int32(id))[wd:], nil, arg)
 			}
 		}()
 	}

@@ -12,6 +12,7 @@ type charTrain struct {
 	pre []float32 // words × Filters: the winning windows' pre-activations
 	arg []int32   // words × Filters: the winning windows
 	tab []float32 // charTable of the step's weights
+	buf []int32   // one word's character ids
 	acc [][]float32
 	th  []charGrad
 }
@@ -47,11 +48,10 @@ func newCharTrain(tr *trainer, add func(p, g []float32, decay bool)) *charTrain 
 func (tr *trainer) charPrepare() {
 	ct, m := tr.ch, tr.m
 	ct.ids, ct.off = ct.ids[:0], append(ct.off[:0], 0)
-	var buf []int32
 	for _, id := range tr.ws.words {
 		if id != corpus.UNK {
-			buf = m.charIDs(buf, m.Vocab[id])
-			ct.ids = append(ct.ids, buf...)
+			ct.buf = m.charIDs(ct.buf, m.Vocab[id])
+			ct.ids = append(ct.ids, ct.buf...)
 		}
 		ct.off = append(ct.off, len(ct.ids))
 	}
