@@ -594,3 +594,29 @@ func TestCharMisspellingsNearTheirWords(t *testing.T) {
 		t.Errorf("misspellings are not significantly closer to their words than to random ones (z = %.2f)", z)
 	}
 }
+
+// With the word table frozen (TrainConfig.FreezeEmb) the character layer
+// still trains: its gradients are those of the unfrozen step, and the word
+// table gets none.
+func TestCharLayerTrainsWithFrozenTable(t *testing.T) {
+	cc := CharConfig{Filters: 3, Width: 2, Dim: 4, MaxChars: 8}
+	m := randCharModel(5, 15, 4, []int{1, 2}, 3, 2, cc)
+	rng := rand.New(rand.NewPCG(5, 1))
+	texts := randTexts(rng, 6, 9, 15)
+	labels := []int{0, 1, 0, 1, 1, 0}
+	_, free := analytic(m, texts, labels, nil, 1)
+	tr := newTrainer(m, TrainConfig{Threads: 1, FreezeEmb: true})
+	tr.texts, tr.labels = texts, labels
+	tr.forwardBackward()
+	tr.close()
+	if tr.gEmb != nil {
+		t.Error("a frozen word table has a gradient buffer")
+	}
+	g, want := tr.ch.th[0], free.ch.th[0]
+	if !slices.Equal(g.emb, want.emb) || !slices.Equal(g.w, want.w) || !slices.Equal(g.b, want.b) {
+		t.Error("the character layer's gradients differ with the word table frozen")
+	}
+	if !slices.ContainsFunc(g.w, func(v float32) bool { return v != 0 }) {
+		t.Error("no gradient reached the character filters")
+	}
+}
