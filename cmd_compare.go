@@ -97,6 +97,9 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		if err != nil {
 			return fmt.Errorf("%s: rebuilding its tokenizer: %w", o.paths[i], err)
 		}
+		if m, enc, err = m.WithUnseen(enc, es.test.Texts()); err != nil { // unseen words' own rows, with --chars
+			return fmt.Errorf("%s: %w", o.paths[i], err)
+		}
 		data, err := encodeFor(m, enc, es.test, 0)
 		if err != nil {
 			return err

@@ -95,6 +95,9 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 		return err
 	}
 	say(env.Stderr, o.quiet, "%s", es.note)
+	if m, enc, err = m.WithUnseen(enc, es.test.Texts()); err != nil { // unseen words' own rows, with --chars
+		return err
+	}
 	data, err := encodeFor(m, enc, es.test, o.threads.N)
 	if err != nil {
 		return err

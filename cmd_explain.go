@@ -188,14 +188,28 @@ func (s *slotTables) forText(ids []int32) (*explain.SlotTable, error) {
 // explainText explains one text and says how many of its tokens are past
 // the length the model reads.
 func explainText(m *cnn.Model, enc *corpus.Encoder, t string, opt explain.ExplainOptions, tables *slotTables) (*explain.Explanation, int, error) {
+	if m.Config.Chars != nil {
+		// The text's unseen words get rows of their own
+		// (cnn.Model.WithUnseen), which the vocabulary's table does not hold.
+		mu, encU, err := m.WithUnseen(enc, []string{t})
+		if err != nil {
+			return nil, 0, err
+		}
+		if mu != m {
+			m, enc, tables = mu, encU, nil
+		}
+	}
 	toks, ids := enc.Encode(t)
 	cut := 0
 	if enc.MaxTokens > 0 {
 		cut = max(0, len(enc.Tok.TokenizeFor(enc.Vocab, t))-len(toks))
 	}
-	var err error
-	if opt.Table, err = tables.forText(ids); err != nil {
-		return nil, 0, err
+	opt.Table = nil
+	if tables != nil {
+		var err error
+		if opt.Table, err = tables.forText(ids); err != nil {
+			return nil, 0, err
+		}
 	}
 	e, err := explain.Explain(m, toks, ids, opt)
 	return e, cut, err

@@ -98,6 +98,9 @@ func runExport(ctx context.Context, env *runEnv, o *exportOptions) error {
 	if err != nil {
 		return err
 	}
+	if err := torchmodel.CanExport(m); err != nil {
+		return fmt.Errorf("%s: %w", o.Model, err)
+	}
 	if err := os.MkdirAll(o.Out, 0o755); err != nil {
 		return fmt.Errorf("--out %s: %w", o.Out, err)
 	}

@@ -18,6 +18,7 @@ var cmdTrain = &command{
 		"               [--text-col C] [--label-col C] [--epochs N] [--batch N] [--dim N] [--widths 3,4,5] [--maps N]\n" +
 		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--vectors FILE] [--freeze]\n" +
 		"               [--min-count N] [--subword] [--class-weight none|balanced] [--word-dropout A] [--token-dropout P]\n" +
+		"               [--chars [--char-maps N] [--char-width W]]\n" +
 		"               [--baseline=false] [--mask-tokens FILE] [--seed N] [--threads N] [--force] [--json]",
 	Short: "train a sentence CNN on labeled data and save the model",
 	Long: `Train builds a vocabulary from the training split, trains the convolutional

@@ -166,6 +166,22 @@ func (s *stream) write(ctx context.Context, w io.Writer, classes int, keep func(
 
 // label encodes, labels and formats the texts of b with p.
 func (b *textBatch) label(p *cnn.Predictor, m *cnn.Model, enc *corpus.Encoder, format func([]byte, text, []float32) ([]byte, error)) {
+	if m.Config.Chars != nil {
+		// A model with a character layer gives the batch's unseen words
+		// rows of their own (cnn.Model.WithUnseen); other models skip this.
+		texts := make([]string, len(b.texts))
+		for i, t := range b.texts {
+			texts[i] = t.Text
+		}
+		mu, encU, err := m.WithUnseen(enc, texts)
+		if err != nil {
+			b.err = err
+			return
+		}
+		if mu != m {
+			m, enc, p = mu, encU, mu.NewPredictor()
+		}
+	}
 	b.ids, b.view, b.ends = b.ids[:0], b.view[:0], b.ends[:0]
 	for _, t := range b.texts {
 		b.ids = enc.AppendIDs(b.ids, t.Text)

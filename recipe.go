@@ -19,9 +19,10 @@ import (
 // are cnn.DefaultRecipe's.
 type recipeOptions struct {
 	Epochs, Batch, Dim, Maps, MaxLen, Patience, MinCount int
+	CharMaps, CharWidth                                  int
 	Widths, Optimizer, Vectors, Tokenizer, ClassWeight   string
 	Dropout, LR, MaxNorm, WordDropout, TokenDropout      float64
-	Freeze, Subword, Lower, Baseline                     bool
+	Freeze, Subword, Lower, Baseline, Chars              bool
 
 	widths []int
 	// dimFromVectors: no --dim was given with --vectors, so the embedding
@@ -58,6 +59,10 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 		"α: each training occurrence of a word seen #w times becomes the unknown word with probability α/(#w+α); 0 is off")
 	floatVar(fs, &r.TokenDropout, "token-dropout", def.Train.TokenDropout,
 		"probability that any training token becomes the unknown word, in every batch, in [0, 1); 0 is off")
+	fs.BoolVar(&r.Chars, "chars", def.Model.Chars != nil,
+		"character-aware word vectors: a character CNN per word, its output beside the word's table vector, so unseen and misspelled words get vectors of their own")
+	intVar(fs, &r.CharMaps, "char-maps", cnn.DefaultCharFilters, "with --chars: feature maps (filters) of the character layer, the numbers each word vector gains")
+	intVar(fs, &r.CharWidth, "char-width", cnn.DefaultCharWidth, "with --chars: characters per character filter window (1 to 32)")
 	fs.BoolVar(&r.Baseline, "baseline", def.Baseline != nil,
 		"also fit the linear baseline (TF-IDF n-grams + logistic regression) and show it beside the CNN; --baseline=false leaves it out")
 }
@@ -89,6 +94,8 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 		{"max-len", r.MaxLen, 0, "0 keeps texts whole"},
 		{"patience", r.Patience, 0, "epochs without a better dev macro-F1 before stopping; 0 never stops early"},
 		{"min-count", r.MinCount, 1, "a word enters the vocabulary once it occurs this often"},
+		{"char-maps", r.CharMaps, 1, "feature maps of the character layer (with --chars)"},
+		{"char-width", r.CharWidth, 1, "characters per character filter window (with --chars)"},
 	} {
 		if err := checkAtLeast(c.name, c.n, c.lo, c.reason); err != nil {
 			return err
@@ -121,8 +128,22 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 		return usagef("--word-dropout %g: give α of 0 (off) or more", r.WordDropout)
 	case r.TokenDropout < 0 || r.TokenDropout >= 1:
 		return usagef("--token-dropout %g: give a probability from 0 up to (not including) 1", r.TokenDropout)
+	case r.CharWidth > 32:
+		return usagef("--char-width %d: give at most 32 characters", r.CharWidth)
+	case r.CharMaps > 4096:
+		return usagef("--char-maps %d: give at most 4096", r.CharMaps)
+	case !r.Chars && (isSet(fs, "char-maps") || isSet(fs, "char-width")):
+		return usagef("--char-maps and --char-width shape the character layer: add --chars")
 	}
 	return nil
+}
+
+// charConfig is the character layer the options ask for, or nil.
+func (r *recipeOptions) charConfig() *cnn.CharConfig {
+	if !r.Chars {
+		return nil
+	}
+	return &cnn.CharConfig{Filters: r.CharMaps, Width: r.CharWidth, Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
 }
 
 // vectorsDim is the dimension the first line of the word-vector file at
@@ -181,6 +202,9 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 	}
 	cfg := &rec.Model
 	cfg.Dim, cfg.Widths, cfg.Filters, cfg.Dropout, cfg.MaxNorm = r.Dim, r.widths, r.Maps, float32(r.Dropout), float32(r.MaxNorm)
+	if cfg.Chars = r.charConfig(); cfg.Chars != nil {
+		cfg.Dim += cfg.Chars.Filters // --dim is the word table's; the character part comes beside it
+	}
 	rec.Tokenizer, rec.VectorsPath, rec.DimFromVectors = r.tokenizerConfig(), r.Vectors, r.dimFromVectors
 	if !r.Baseline {
 		rec.Baseline = nil
@@ -198,7 +222,11 @@ func (r *recipeOptions) checkSize(vocab, classes, longest, threads int) error {
 	if maxLen == 0 || longest < maxLen {
 		maxLen = longest
 	}
-	cfg := cnn.Config{VocabSize: vocab, Dim: r.Dim, Widths: r.widths, Filters: r.Maps, Classes: classes}
+	dim := r.Dim
+	if r.Chars {
+		dim += r.CharMaps // the word vectors' width with the character part
+	}
+	cfg := cnn.Config{VocabSize: vocab, Dim: dim, Widths: r.widths, Filters: r.Maps, Classes: classes}
 	return checkMemory(cfg, r.Batch, maxLen, threads)
 }
 

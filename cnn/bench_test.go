@@ -98,3 +98,41 @@ func BenchmarkPredict(b *testing.B) {
 	}
 	b.ReportMetric(float64(100*b.N)/b.Elapsed().Seconds(), "examples/s")
 }
+
+// BenchmarkTrainStepChars is BenchmarkTrainStep with the character layer
+// of train --chars (DefaultChar* settings) beside the 128 word-table
+// columns, over a vocabulary of random lower-case words of 3 to 10 letters.
+func BenchmarkTrainStepChars(b *testing.B) {
+	const vocab = 20000
+	d := benchCorpus(1000, vocab)
+	rng := rand.New(rand.NewPCG(5, 5))
+	words := []string{"<pad>", "<unk>"}
+	for i := 2; i < vocab; i++ {
+		w := make([]byte, 3+rng.IntN(8))
+		for j := range w {
+			w[j] = byte('a' + rng.IntN(26))
+		}
+		words = append(words, string(w))
+	}
+	cfg := DefaultRecipe().Model
+	cc := CharConfig{Filters: DefaultCharFilters, Width: DefaultCharWidth, Dim: DefaultCharDim, MaxChars: DefaultMaxChars, Alphabet: Alphabet(words)}
+	cfg.VocabSize, cfg.Classes, cfg.Dim, cfg.Chars = vocab, 2, cfg.Dim+cc.Filters, &cc
+	m, err := New(cfg, words, []string{"a", "b"}, 1)
+	if err != nil {
+		b.Fatal(err)
+	}
+	tc, _ := DefaultRecipe().Train.WithDefaults()
+	tr := newTrainer(m, tc)
+	defer tr.close()
+	tr.prepare(d)
+	batches := makeBatches(rand.New(rand.NewPCG(1, 1)), d.IDs, 50, make([]int, d.Len()), nil)
+	for _, bt := range batches {
+		tr.step(d, bt)
+	}
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		tr.step(d, batches[i%len(batches)])
+	}
+	b.ReportMetric(float64(50*b.N)/b.Elapsed().Seconds(), "examples/s")
+}

@@ -43,6 +43,19 @@
 // unknown words are split into have trained vectors. TrainConfig.ClassWeight
 // "balanced" weights the loss by n/(k·n_c) for imbalanced labels.
 //
+// # Character-aware word vectors
+//
+// With Config.Chars a model's word vectors are the word table's row and a
+// character part side by side: a small character CNN per word, max-pooled
+// over the word's characters, tanh (dos Santos & Zadrozny 2014; Kim,
+// Jernite, Sontag & Rush 2016; charcnn.go). It is trained through the same
+// step as the rest, and the vocabulary's character parts are kept in Emb
+// (FillChars), so everything that reads word vectors reads them unchanged.
+// WithUnseen gives the words of given texts that are not in the vocabulary
+// rows of their own ([UNK's table row ; their character part]) in a longer
+// model used for those texts only; predict, eval, compare and explain use
+// it, so a misspelled or unseen word is not the one UNK vector.
+//
 // # The linear baseline
 //
 // A model can carry a linear baseline (package linear: TF-IDF n-grams and

@@ -26,7 +26,8 @@ import (
 //	header     JSON     config, labels, vocabulary, tokenizer, info, mask
 //	nWeights   uint64   number of float32 weights that follow
 //	weights    nWeights × float32: Emb, then W and B of each bank in order,
-//	           then OutW, OutB
+//	           then OutW, OutB, then (version 3, a model with a character
+//	           layer) the layer's character vectors, filters and biases
 //	nBaseline  uint64   number of float64 baseline weights that follow (version 2)
 //	baseline   nBaseline × float64: the linear baseline's IDF, Coef,
 //	           Intercept (linear.Model.Weights); its other parts are in the
@@ -34,11 +35,22 @@ import (
 //	crc        uint32   CRC-32 (Castagnoli) of everything before it
 //
 // All integers and floats are little-endian. Version 1 files (no baseline
-// section) still load.
+// section) still load. A model without a character layer is written as
+// version 2, so older programs still read it; one with a character layer
+// as version 3, which they refuse with "update telltale". The character
+// parts of Emb are stored but recomputed from the layer on loading.
 
-// FormatVersion is the model file version this package writes and the newest
-// it reads.
-const FormatVersion = 2
+// FormatVersion is the newest model file version this package writes and
+// reads.
+const FormatVersion = 3
+
+// fileVersion is the version m is written as.
+func fileVersion(m *Model) uint32 {
+	if m.Config.Chars != nil {
+		return 3
+	}
+	return 2
+}
 
 const fileMagic = "TTLCNN\r\n"
 
@@ -62,6 +74,9 @@ func numWeights(cfg Config) int {
 	n := cfg.VocabSize*cfg.Dim + cfg.Classes*cfg.NumFilters() + cfg.Classes
 	for _, w := range cfg.Widths {
 		n += cfg.Filters*w*cfg.Dim + cfg.Filters
+	}
+	if cfg.Chars != nil {
+		n += cfg.Chars.numWeights()
 	}
 	return n
 }
@@ -96,7 +111,7 @@ func (m *Model) encode(w io.Writer) error {
 	crc := crc32.New(crcTable)
 	bw := &errWriter{w: io.MultiWriter(w, crc)}
 	bw.write([]byte(fileMagic))
-	bw.u32(FormatVersion)
+	bw.u32(fileVersion(m))
 	bw.u64(uint64(len(js)))
 	bw.write(js)
 	bw.u64(uint64(numWeights(m.Config)))
@@ -107,6 +122,11 @@ func (m *Model) encode(w io.Writer) error {
 	}
 	bw.floats(m.OutW)
 	bw.floats(m.OutB)
+	if l := m.Char; l != nil {
+		bw.floats(l.Emb)
+		bw.floats(l.W)
+		bw.floats(l.B)
+	}
 	var base []float64
 	if m.Baseline != nil {
 		base = m.Baseline.Weights()
@@ -264,6 +284,16 @@ func decode(data []byte) (*Model, error) {
 	if !ok1 || !ok2 || !ok3 || !ok4 || !ok5 || emb > limit || conv > limit || out > limit || emb+conv+out > limit {
 		return nil, fmt.Errorf("header: sizes larger than the file: the file is corrupted")
 	}
+	if cfg.Chars != nil {
+		// Validate bounds the layer's sizes and the alphabet lies in the
+		// header, so its count cannot overflow.
+		if version < 3 {
+			return nil, fmt.Errorf("a character layer in a version %d file: the file is damaged", version)
+		}
+		if cfg.Chars.numWeights() > limit {
+			return nil, fmt.Errorf("header: sizes larger than the file: the file is corrupted")
+		}
+	}
 	if want := numWeights(cfg); uint64(want) != nw {
 		return nil, fmt.Errorf("the configuration needs %d weights but the file has %d: the vocabulary or labels do not match the weights", want, nw)
 	}
@@ -303,6 +333,14 @@ func decode(data []byte) (*Model, error) {
 	}
 	m.OutW = take(cfg.Classes * cfg.NumFilters())
 	m.OutB = take(cfg.Classes)
+	if cc := cfg.Chars; cc != nil {
+		m.Char = &CharLayer{Emb: take(cc.Rows() * cc.Dim), W: take(cc.Filters * cc.Width * cc.Dim), B: take(cc.Filters)}
+		for _, v := range m.Char.Emb[:cc.Dim] {
+			if v != 0 {
+				return nil, fmt.Errorf("the zero character's vector is not zero: the file is damaged")
+			}
+		}
+	}
 	if err := setBaseline(m, h.Baseline, data[bEnd-8*int(nb):bEnd]); err != nil {
 		return nil, err
 	}
@@ -311,6 +349,7 @@ func decode(data []byte) (*Model, error) {
 			return nil, fmt.Errorf("the PAD embedding is not zero: the file is damaged")
 		}
 	}
+	m.FillChars() // a token's vector is computed from the token, never read
 	return m, nil
 }
 

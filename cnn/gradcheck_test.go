@@ -16,7 +16,7 @@ func ref64(m *Model, texts [][]int32, labels []int, drop []float32) (float64, []
 	cfg := m.Config
 	nf := cfg.NumFilters()
 	var loss float64
-	var pattern []int
+	row, pattern := rows64(m)
 	for i, ids := range texts {
 		x := Padded(ids, cfg.MaxWidth())
 		h := make([]float64, nf)
@@ -26,9 +26,9 @@ func ref64(m *Model, texts [][]int32, labels []int, drop []float32) (float64, []
 			for t := 0; t+w <= len(x); t++ {
 				a := float64(m.FilterBias(g))
 				for s := 0; s < w; s++ {
-					e := m.Row(x[t+s])
+					e := row(x[t+s])
 					for k, v := range m.FilterSlot(g, s) {
-						a += float64(v) * float64(e[k])
+						a += float64(v) * e[k]
 					}
 				}
 				if a > best {
@@ -85,6 +85,10 @@ type paramRef struct {
 // gradParams lists every parameter group with its analytic gradient.
 func gradParams(m *Model, tr *trainer) []paramRef {
 	ps := []paramRef{{"Emb", m.Emb, tr.gEmb}}
+	if l := m.Char; l != nil {
+		g := tr.ch.th[0]
+		ps = append(ps, paramRef{"CharEmb", l.Emb, g.emb}, paramRef{"CharW", l.W, g.w}, paramRef{"CharB", l.B, g.b})
+	}
 	for b, c := range m.Convs {
 		g := tr.th[0].w[tr.wOff[b] : tr.wOff[b]+len(c.W)]
 		ps = append(ps, paramRef{"W" + string(rune('0'+c.Width)), c.W, g})

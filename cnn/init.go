@@ -59,6 +59,15 @@ func New(cfg Config, vocab []string, labels []string, seed uint64) (*Model, erro
 	bound := 1 / math.Sqrt(float64(nf))
 	uni(m.OutW, bound)
 	uni(m.OutB, bound)
+	if cfg.Chars != nil {
+		if vocab == nil {
+			return nil, fmt.Errorf("cnn: a model with a character layer needs its vocabulary")
+		}
+		c := *cfg.Chars
+		m.Config.Chars = &c
+		m.Char = newCharLayer(&c, uni)
+		m.FillChars()
+	}
 	return m, nil
 }
 
@@ -74,11 +83,11 @@ func (m *Model) SetVectors(words []string, vecs [][]float32) (int, error) {
 	if len(m.Vocab) != m.Config.VocabSize {
 		return 0, fmt.Errorf("cnn: the model has no vocabulary to match vectors against")
 	}
-	d := m.Config.Dim
+	d, wd := m.Config.Dim, m.Config.WordDim()
 	index := make(map[string]int, len(words))
 	for i, w := range words {
-		if len(vecs[i]) != d {
-			return 0, fmt.Errorf("cnn: vector %d (%q) has %d values, the model's embedding dimension is %d: use --dim %d or a matching vector file", i+1, w, len(vecs[i]), d, len(vecs[i]))
+		if len(vecs[i]) != wd {
+			return 0, fmt.Errorf("cnn: vector %d (%q) has %d values, the model's embedding dimension is %d: use --dim %d or a matching vector file", i+1, w, len(vecs[i]), wd, len(vecs[i]))
 		}
 		if _, dup := index[w]; !dup {
 			index[w] = i
@@ -90,7 +99,7 @@ func (m *Model) SetVectors(words []string, vecs [][]float32) (int, error) {
 			continue
 		}
 		if i, ok := index[w]; ok {
-			copy(m.Emb[id*d:(id+1)*d], vecs[i])
+			copy(m.Emb[id*d:id*d+wd], vecs[i])
 			found++
 		}
 	}
@@ -116,6 +125,11 @@ func (m *Model) Clone() *Model {
 	if m.Masked != nil {
 		c.Masked = append([]bool(nil), m.Masked...)
 	}
+	if m.Config.Chars != nil {
+		cc := *m.Config.Chars
+		c.Config.Chars = &cc
+	}
+	c.Char = m.Char.clone()
 	c.cache = nil
 	return &c
 }
@@ -145,6 +159,17 @@ func (m *Model) checkShapes() error {
 		if c.Width != cfg.Widths[b] || len(c.W) != cfg.Filters*c.Width*d || len(c.B) != cfg.Filters {
 			return fmt.Errorf("cnn: filter bank %d (width %d) has the wrong shape", b, cfg.Widths[b])
 		}
+	}
+	if cc := cfg.Chars; cc != nil {
+		l := m.Char
+		if l == nil || len(l.Emb) != cc.Rows()*cc.Dim || len(l.W) != cc.Filters*cc.Width*cc.Dim || len(l.B) != cc.Filters {
+			return fmt.Errorf("cnn: the character layer is missing or has the wrong shape")
+		}
+		if len(m.Vocab) != cfg.VocabSize {
+			return fmt.Errorf("cnn: a model with a character layer needs its vocabulary")
+		}
+	} else if m.Char != nil {
+		return fmt.Errorf("cnn: a character layer without a character configuration")
 	}
 	return nil
 }

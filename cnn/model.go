@@ -17,6 +17,9 @@ type Config struct {
 	Classes   int     `json:"classes"`    // number of labels, at least 2
 	Dropout   float32 `json:"dropout"`    // dropout rate on the pooled layer during training
 	MaxNorm   float32 `json:"max_norm"`   // max L2 norm of each output-weight row; 0 turns it off
+	// Chars, when not nil, makes the last Chars.Filters of the Dim columns
+	// of every word vector its character part (charcnn.go); nil: none.
+	Chars *CharConfig `json:"chars,omitempty"`
 }
 
 // Validate reports the first problem with c, or nil.
@@ -41,6 +44,9 @@ func (c Config) Validate() error {
 		if w < 1 || w > 32 {
 			return fmt.Errorf("cnn: filter width %d: must be between 1 and 32", w)
 		}
+	}
+	if c.Chars != nil {
+		return c.Chars.validate(c.Dim)
 	}
 	return nil
 }
@@ -92,6 +98,9 @@ type Model struct {
 	Convs []Conv    // one per entry of Config.Widths
 	OutW  []float32 // Classes*NumFilters, row-major [class][filter]
 	OutB  []float32 // Classes
+
+	// Char is the character layer when Config.Chars is set, else nil.
+	Char *CharLayer
 
 	// Masked[g] true removes filter g: its pooled unit is held at zero.
 	// Nil means no filter is masked.

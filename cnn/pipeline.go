@@ -22,6 +22,13 @@ type Recipe struct {
 	// before training. Their dimension must equal Model.Dim, unless Model.Dim
 	// is 0 or DimFromVectors is set: then the embedding dimension is the
 	// file's.
+	//
+	// With Model.Chars (whose Alphabet TrainText fills from the
+	// vocabulary), Model.Dim is the whole word vector's width: the word
+	// table's Dim − Chars.Filters columns and the character part; a
+	// vectors file then gives the table's columns (DimFromVectors: Dim is
+	// the file's plus Chars.Filters). A trained model's Config is thus a
+	// recipe for the same architecture.
 	VectorsPath    string
 	DimFromVectors bool
 	// Members, when 2 or more, asks TrainText for that many models, trained
@@ -66,6 +73,9 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 	if train == nil || len(train.Examples) == 0 {
 		return nil, fmt.Errorf("cnn: the training split is empty: give a file with labeled texts")
 	}
+	if r.Model.Chars != nil && r.Members > 1 {
+		return nil, fmt.Errorf("cnn: models with a character layer cannot be merged into an ensemble: train one member")
+	}
 	enc, err := corpus.TrainEncoder(r.Tokenizer, train.Texts())
 	if err != nil {
 		return nil, err
@@ -90,7 +100,15 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 		}
 		if cfg.Dim == 0 || r.DimFromVectors {
 			cfg.Dim = vecs.Dim
+			if cfg.Chars != nil {
+				cfg.Dim += cfg.Chars.Filters
+			}
 		}
+	}
+	if cfg.Chars != nil {
+		cc := *cfg.Chars
+		cc.Alphabet = Alphabet(enc.Vocab.Words)
+		cfg.Chars = &cc
 	}
 	out := &Trained{Encoder: enc}
 	var members []*Model
@@ -262,8 +280,8 @@ func readVectorsFor(words []string, path string) (*corpus.Vectors, error) {
 
 // setVectors copies the vectors v (read from path) of m's words into m.
 func setVectors(m *Model, v *corpus.Vectors, path string) (int, error) {
-	if v.Dim != m.Config.Dim {
-		return 0, fmt.Errorf("cnn: %s holds %d-dimensional vectors but the model's embedding dimension is %d: set it to %d (--dim %d) or leave it to the file (--dim 0)", path, v.Dim, m.Config.Dim, v.Dim, v.Dim)
+	if wd := m.Config.WordDim(); v.Dim != wd {
+		return 0, fmt.Errorf("cnn: %s holds %d-dimensional vectors but the model's embedding dimension is %d: set it to %d (--dim %d) or leave it to the file (--dim 0)", path, v.Dim, wd, v.Dim, v.Dim)
 	}
 	vecs := make([][]float32, len(v.Words))
 	for i := range vecs {

@@ -98,6 +98,14 @@ func meanWeights(dst *Model, srcs []*Model) *Model {
 	}
 	mean(dst.OutW, func(s *Model) []float32 { return s.OutW })
 	mean(dst.OutB, func(s *Model) []float32 { return s.OutB })
+	if dst.Char != nil {
+		mean(dst.Char.Emb, func(s *Model) []float32 { return s.Char.Emb })
+		mean(dst.Char.W, func(s *Model) []float32 { return s.Char.W })
+		mean(dst.Char.B, func(s *Model) []float32 { return s.Char.B })
+		// The mean of character parts is not the character part of the
+		// mean layer (tanh, max): recompute it.
+		dst.FillChars()
+	}
 	dst.Invalidate()
 	return dst
 }

@@ -119,8 +119,16 @@ type trainer struct {
 	cur    *paramGroup
 	step_  int
 
+	// ch is the character layer's part (nil for a model without one).
+	ch *charTrain
+
 	fnGather, fnTable, fnText, fnReduce, fnScatter, fnUnscatter, fnOpt func(k, lo, hi int)
+	fnCharFwd, fnCharBwd                                               func(k, lo, hi int)
 }
+
+// embGrad reports whether the step needs the gradient of the batch's word
+// vectors: to train the word table, or the character layer behind them.
+func (tr *trainer) embGrad() bool { return !tr.tc.FreezeEmb || tr.ch != nil }
 
 func newTrainer(m *Model, tc TrainConfig) *trainer {
 	cfg := m.Config
@@ -163,6 +171,11 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 	}
 	add(m.OutW, g0.ow, true)
 	add(m.OutB, g0.ob, false)
+	if m.Char != nil {
+		tr.ch = newCharTrain(tr, add)
+		tr.fnCharFwd = tr.charForwardRows
+		tr.fnCharBwd = tr.charBackwardRows
+	}
 	tr.fnGather = tr.gather
 	tr.fnTable = tr.table
 	tr.fnText = tr.texts_
@@ -293,17 +306,25 @@ func (tr *trainer) forwardBackward() float64 {
 		clear(t.b)
 		clear(t.ow)
 		clear(t.ob)
-		if !tr.tc.FreezeEmb {
+		if tr.embGrad() {
 			t.emb = grow(t.emb, nw*d)
 			clear(t.emb)
 		}
 	}
 	tr.wk.run(nw, tr.fnGather)
+	if tr.ch != nil {
+		tr.charPrepare()
+		tr.wk.run(nw, tr.fnCharFwd)
+	}
 	tr.wk.run(nw, tr.fnTable)
 	tr.wk.run(n, tr.fnText)
 	// Reduce the per-thread gradients into thread 0's, in thread order.
 	if len(tr.th) > 1 {
 		tr.wk.run(len(tr.th[0].w), tr.fnReduce)
+	}
+	if tr.ch != nil {
+		tr.wk.run(nw, tr.fnCharBwd)
+		tr.charReduce()
 	}
 	if !tr.tc.FreezeEmb {
 		tr.wk.run(nw, tr.fnScatter)
@@ -329,7 +350,7 @@ func (tr *trainer) texts_(k, lo, hi int) {
 	maxW := cfg.MaxWidth()
 	t := &tr.th[k]
 	scale := 1 / float32(len(tr.texts))
-	freeze := tr.tc.FreezeEmb
+	freeze := !tr.embGrad()
 	for i := lo; i < hi; i++ {
 		ids := tr.texts[i]
 		loc := tr.loc[tr.locOff[i]:tr.locOff[i+1]]
@@ -437,18 +458,20 @@ func (tr *trainer) reduce(_, lo, hi int) {
 	sumInto(func(t *threadBuf) []float32 { return t.ow }, a, b)
 	a, b = part(len(tr.th[0].ob))
 	sumInto(func(t *threadBuf) []float32 { return t.ob }, a, b)
-	if !tr.tc.FreezeEmb {
+	if tr.embGrad() {
 		a, b = part(len(tr.th[0].emb))
 		sumInto(func(t *threadBuf) []float32 { return t.emb }, a, b)
 	}
 }
 
-// scatter copies the batch words' embedding gradients into gEmb.
+// scatter copies the batch words' embedding gradients into gEmb: their
+// word-table columns (a character part is trained through the character
+// layer and stays zero in gEmb).
 func (tr *trainer) scatter(_, lo, hi int) {
-	d := tr.m.Config.Dim
+	d, wd := tr.m.Config.Dim, tr.m.Config.WordDim()
 	for i := lo; i < hi; i++ {
 		id := int(tr.ws.words[i])
-		copy(tr.gEmb[id*d:(id+1)*d], tr.th[0].emb[i*d:(i+1)*d])
+		copy(tr.gEmb[id*d:id*d+wd], tr.th[0].emb[i*d:i*d+wd])
 	}
 }
 

@@ -272,6 +272,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 					Loss: sum / float64(done), ExamplesPerSec: float64(done) / time.Since(start).Seconds(), Phase: "train"})
 			}
 		}
+		m.FillChars()  // the vocabulary's character parts follow the character layer
 		m.Invalidate() // the weights changed: predictions rebuild their table
 		if res.Diverged == nil && !finiteWeights(m) {
 			res.Diverged = &Divergence{Epoch: epoch, Value: "weights"}
@@ -343,6 +344,9 @@ func finiteWeights(m *Model) bool {
 		return true
 	}
 	ok := finite(m.Emb) && finite(m.OutW) && finite(m.OutB)
+	if l := m.Char; l != nil {
+		ok = ok && finite(l.Emb) && finite(l.W) && finite(l.B)
+	}
 	for _, c := range m.Convs {
 		ok = ok && finite(c.W) && finite(c.B)
 	}
@@ -398,5 +402,10 @@ func copyWeights(dst, src *Model) *Model {
 	}
 	copy(dst.OutW, src.OutW)
 	copy(dst.OutB, src.OutB)
+	if src.Char != nil {
+		copy(dst.Char.Emb, src.Char.Emb)
+		copy(dst.Char.W, src.Char.W)
+		copy(dst.Char.B, src.Char.B)
+	}
 	return dst
 }

@@ -71,6 +71,15 @@ func StateDict(m *cnn.Model) []npy.Array {
 		npy.Array{Name: "output.bias", Shape: []int{cfg.Classes}, Data: m.OutB})
 }
 
+// CanExport reports why m cannot be exported, or nil. A model with a
+// character layer cannot: the module of the README has no character CNN.
+func CanExport(m *cnn.Model) error {
+	if m.Config.Chars != nil {
+		return fmt.Errorf("torchmodel: models trained with --chars cannot be exported: the exported PyTorch module has no character layer; train without --chars to export: %w", ErrLayout)
+	}
+	return nil
+}
+
 // Export writes m into the folder dir, which must exist: WeightsFile (the
 // StateDict as NumPy's .npz, read without pickle), VocabFile (one token per
 // line, id = line number from 0; line 0 is the padding token, line 1 the
@@ -79,6 +88,9 @@ func StateDict(m *cnn.Model) []npy.Array {
 // atomically. A model whose words or labels contain a line break cannot be
 // written one per line and is refused before anything is written.
 func Export(m *cnn.Model, dir string) error {
+	if err := CanExport(m); err != nil {
+		return err
+	}
 	if len(m.Vocab) != m.Config.VocabSize {
 		return fmt.Errorf("torchmodel: the model has no vocabulary to export: %w", ErrVocab)
 	}

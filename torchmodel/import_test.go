@@ -252,6 +252,25 @@ func TestExportRefusesLineBreaks(t *testing.T) {
 	}
 }
 
+// A model with a character layer (train --chars) is refused with an error
+// naming the option, before anything is written.
+func TestExportRefusesCharModels(t *testing.T) {
+	words := []string{"<pad>", "<unk>", "ab", "ba"}
+	cc := &cnn.CharConfig{Filters: 2, Width: 2, Dim: 3, MaxChars: 20, Alphabet: cnn.Alphabet(words)}
+	cfg := cnn.Config{VocabSize: 4, Dim: 4, Widths: []int{1}, Filters: 1, Classes: 2, Chars: cc}
+	m, err := cnn.New(cfg, words, []string{"x", "y"}, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	if err := Export(m, dir); !errors.Is(err, ErrLayout) || !strings.Contains(err.Error(), "models trained with --chars cannot be exported") {
+		t.Fatalf("%v, want ErrLayout naming --chars", err)
+	}
+	if entries, _ := os.ReadDir(dir); len(entries) != 0 {
+		t.Errorf("%d files written", len(entries))
+	}
+}
+
 // FuzzReadVocab reads arbitrary vocabulary files as JSON and as lines: the
 // result is an error or tokens that are non-empty and distinct.
 func FuzzReadVocab(f *testing.F) {

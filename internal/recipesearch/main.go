@@ -111,6 +111,23 @@ func measure(which, name string, r cnn.Recipe, sp splits) (string, error) {
 	loss := meanLoss(m, devData)
 	row := fmt.Sprintf("| %s | %s | %d | %.4f | %.4f | %.4f | %d/%d | %.0f | %.0f |", which, name, r.Train.Seed,
 		m.Info.Dev.Accuracy, m.Info.Dev.MacroF1, loss, tr.Result.BestEpoch, len(tr.Result.Epochs), tr.Result.ExamplesPerSec, secs)
+	if m.Config.Chars != nil {
+		// Early stopping saw the dev split's unseen words as UNK; this is
+		// the kept model with each unseen word's own character vector.
+		mu, encU, err := m.WithUnseen(enc, sp.dev.Texts())
+		if err != nil {
+			return "", err
+		}
+		du, err := cnn.EncodeDataset(encU, sp.dev, m.Labels, r.Train.Threads)
+		if err != nil {
+			return "", err
+		}
+		mt, _, err := cnn.Evaluate(mu, du, r.Train.Threads)
+		if err != nil {
+			return "", err
+		}
+		row += fmt.Sprintf(" unseen-word rows: dev %.4f / %.4f |", mt.Accuracy, mt.MacroF1)
+	}
 	if m.Baseline != nil {
 		best := 0.0
 		for _, d := range m.Baseline.Dev {

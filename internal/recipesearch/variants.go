@@ -6,11 +6,17 @@ import "telltale/cnn"
 var variants = map[string]func(r *cnn.Recipe){
 	"default": func(r *cnn.Recipe) {},
 	// vocabulary and unknown words
-	"min2":  func(r *cnn.Recipe) { r.Tokenizer.MinCount = 2 },
-	"min3":  func(r *cnn.Recipe) { r.Tokenizer.MinCount = 3 },
-	"wd":    func(r *cnn.Recipe) { r.Train.WordDropout = 0.25 },
-	"wd1":   func(r *cnn.Recipe) { r.Train.WordDropout = 1 },
-	"sub":   func(r *cnn.Recipe) { r.Tokenizer.Subword = true },
+	"min2": func(r *cnn.Recipe) { r.Tokenizer.MinCount = 2 },
+	"min3": func(r *cnn.Recipe) { r.Tokenizer.MinCount = 3 },
+	"wd":   func(r *cnn.Recipe) { r.Train.WordDropout = 0.25 },
+	"wd1":  func(r *cnn.Recipe) { r.Train.WordDropout = 1 },
+	"sub":  func(r *cnn.Recipe) { r.Tokenizer.Subword = true },
+	// character-aware word vectors (cnn.CharConfig) beside the word table
+	"chars": func(r *cnn.Recipe) {
+		r.Model.Chars = &cnn.CharConfig{Filters: cnn.DefaultCharFilters, Width: cnn.DefaultCharWidth,
+			Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
+		r.Model.Dim += cnn.DefaultCharFilters // the word table keeps its columns
+	},
 	"tok0":  func(r *cnn.Recipe) { r.Train.TokenDropout = 0 },
 	"tok10": func(r *cnn.Recipe) { r.Train.TokenDropout = 0.1 },
 	"tok25": func(r *cnn.Recipe) { r.Train.TokenDropout = 0.25 },
