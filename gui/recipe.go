@@ -20,6 +20,10 @@ type recipeForm struct {
 	tokenDropout, wordDropout, classWeight                  binding.String
 	// baseline: fit the linear baseline beside the CNN (cnn.Recipe.Baseline).
 	baseline binding.Bool
+	// chars: character-aware word vectors beside the word table's
+	// (cnn.Config.Chars, train --chars, with its default sizes); the
+	// embedding dimension stays the word table's, as on the command line.
+	chars binding.Bool
 }
 
 // The class weights the form offers, as `telltale train --class-weight`
@@ -38,6 +42,7 @@ func newRecipeForm() *recipeForm {
 		*p = binding.NewString()
 	}
 	r.baseline = binding.NewBool()
+	r.chars = binding.NewBool()
 	r.reset()
 	return r
 }
@@ -76,6 +81,7 @@ func (r *recipeForm) reset() {
 		_ = r.classWeight.Set(d.Train.ClassWeight)
 	}
 	_ = r.baseline.Set(d.Baseline != nil)
+	_ = r.chars.Set(d.Model.Chars != nil)
 }
 
 // fieldErrors collects the form's problems, each naming its field and the fix.
@@ -163,6 +169,11 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 	}
 	if on, _ := r.baseline.Get(); !on {
 		rec.Baseline = nil
+	}
+	if on, _ := r.chars.Get(); on {
+		rec.Model.Chars = &cnn.CharConfig{Filters: cnn.DefaultCharFilters, Width: cnn.DefaultCharWidth,
+			Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
+		rec.Model.Dim += rec.Model.Chars.Filters // Model.Dim is the whole word vector's width
 	}
 	plan := r.readPlan(&fe)
 	rec.Train.Seed = plan.Seed

@@ -1,0 +1,34 @@
+package gui
+
+import (
+	"reflect"
+	"testing"
+
+	"telltale/cnn"
+)
+
+// The training form's "Word vectors" check asks for the character layer
+// as `telltale train --chars` does with its default sizes: the embedding
+// dimension typed stays the word table's, the model's Dim is the whole
+// word vector's width.
+func TestRecipeFormChars(t *testing.T) {
+	r := newRecipeForm()
+	if on, _ := r.chars.Get(); on {
+		t.Fatal("the form starts with character vectors on; cnn.DefaultRecipe has none")
+	}
+	_ = r.chars.Set(true)
+	rec, _, err := r.parse(false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := cnn.DefaultRecipe()
+	want.Model.Chars = &cnn.CharConfig{Filters: cnn.DefaultCharFilters, Width: cnn.DefaultCharWidth, Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
+	want.Model.Dim += cnn.DefaultCharFilters
+	if !reflect.DeepEqual(rec, want) {
+		t.Errorf("with character vectors: %+v, want %+v", rec.Model, want.Model)
+	}
+	r.reset()
+	if rec, _, err = r.parse(false); err != nil || rec.Model.Chars != nil {
+		t.Errorf("after reset the form still asks for character vectors (%v)", err)
+	}
+}
