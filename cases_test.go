@@ -129,7 +129,11 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"test-frac 1", train("--test-frac", "1"), 2, []string{"--test-frac 1: give a share between 0 and 1"}},
 		{"shares that leave nothing", train("--dev-frac", "0.5", "--test-frac", "0.5"), 2, []string{"hold out 100% of --data: together they must stay below 1"}},
 		{"a file and a share", train("--dev", f.tiny, "--dev-frac", "0.2"), 2, []string{"give --dev FILE or --dev-frac, not both"}},
-		{"report onto a folder", []string{"report", "--model", f.model, "--data", f.data, "--out", f.dir}, 1, []string{"--out " + f.dir + " is a folder"}},
+		{"report onto a folder", []string{"report", "--model", f.model, "--data", f.data, "--out", f.dir}, 2, []string{"--out " + f.dir + " is a folder: give a file name"}},
+		{"report in a missing folder", []string{"report", "--model", f.model, "--data", f.data, "--out", filepath.Join(f.dir, "nodir", "r.html")}, 2,
+			[]string{"the folder " + filepath.Join(f.dir, "nodir") + " does not exist: create it or choose another --out"}},
+		{"mask in a missing folder", []string{"mask", "--model", f.model, "--filters", "0", "--out", filepath.Join("nodir", "m.tt")}, 2,
+			[]string{"--out nodir/m.tt: the folder nodir does not exist: create it or choose another --out"}},
 		{"bare regular expression", train("--mask-tokens", f.cues, "--quiet=false", "--out", filepath.Join(f.dir, "masked.tt")), 0, []string{
 			`the pattern "TKREF-[0-9]{5}" matches nothing: without slashes it is a plain token`, "write /TKREF-[0-9]{5}/"}},
 		{"Latin-1", []string{"data", "--data", filepath.Join("testdata", "bad", "latin1.csv")}, 0, []string{"iconv -f latin1 -t utf-8"}},

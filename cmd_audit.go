@@ -233,7 +233,7 @@ func (o *auditOptions) files() (outputs, inputs []outguard.File) {
 	}
 	// The marks file is the one file the audit both reads and writes: an
 	// output when the marks change, else an input.
-	marks := outguard.File{Name: "the marks file (--marks)", Path: o.marksPath()}
+	marks := outguard.File{Name: marksOption, Path: o.marksPath()}
 	if o.marking() {
 		outputs = append(outputs, marks)
 	} else {
