@@ -174,7 +174,9 @@ func TestOutputNotWritable(t *testing.T) {
 				want func(dir string) string
 			}{
 				{"a folder", func(dir string) string { return filepath.Join(dir, "folder"+ext) },
-					func(dir string) string { return out + " " + filepath.Join(dir, "folder"+ext) + " is a folder: give a file name" }},
+					func(dir string) string {
+						return out + " " + filepath.Join(dir, "folder"+ext) + " is a folder: give a file name"
+					}},
 				{"in a missing folder", func(dir string) string { return filepath.Join(dir, "nodir", "x"+ext) },
 					func(dir string) string {
 						return "the folder " + filepath.Join(dir, "nodir") + " does not exist: create it or choose another " + out
