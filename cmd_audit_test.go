@@ -353,6 +353,11 @@ func checkSeedsAndRetrain(t *testing.T, model string, base []string) {
 			t.Errorf("eval of %s: accuracy %v on %d texts; the audit says %v", c.model, ev.Accuracy, ev.N, c.want)
 		}
 	}
+	// The retrained model keeps the audited model's recipe, its linear
+	// baseline included.
+	if rm, err := cnn.Load(retrained); err != nil || rm.Baseline == nil {
+		t.Errorf("the retrained model %s carries no linear baseline (%v)", retrained, err)
+	}
 	if rt.Counterfactual.Before.Estimate <= rt.Original.Before.Estimate {
 		t.Errorf("the model without the planted cues scores %v, with them %v: taking the cues out should help it on the demo's test file",
 			rt.Counterfactual.Before.Estimate, rt.Original.Before.Estimate)
