@@ -231,3 +231,30 @@ func TestInterruptedExits130(t *testing.T) {
 		t.Error("an interrupted training run saved a model before its first epoch ended")
 	}
 }
+
+// TestReportOnSmallData: on a few hundred texts the test split is too small
+// for the cue audit; the report is still written, and the command line
+// says the audit was left out, why, and that --no-audit silences the note.
+func TestReportOnSmallData(t *testing.T) {
+	model := tinyModel(t) // trained on demoPart(…, 400)
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	out := filepath.Join(dir, "r.html")
+	code, _, stderr := tt(t, "report", "--model", model, "--data", data, "--out", out)
+	if code != 0 {
+		t.Fatalf("report: exit %d: %s", code, stderr)
+	}
+	for _, w := range []string{"the report leaves out the cue audit: the cue audit needs at least 60 test texts (30 in each of its two halves); this split has ",
+		"train the model again with a larger share of the data as its test split", "(--no-audit leaves it out without this note)"} {
+		if !strings.Contains(stderr, w) {
+			t.Errorf("stderr lacks %q:\n%s", w, stderr)
+		}
+	}
+	if b, err := os.ReadFile(out); err != nil || !strings.Contains(string(b), "The cue audit needs at least 60 test texts") {
+		t.Errorf("the report does not say why the audit is missing (%v)", err)
+	}
+	code, _, stderr = tt(t, "report", "--model", model, "--data", data, "--out", out, "--no-audit")
+	if code != 0 || strings.Contains(stderr, "leaves out the cue audit") {
+		t.Errorf("report --no-audit: exit %d: %s", code, stderr)
+	}
+}

@@ -20,6 +20,7 @@ type page struct {
 	Metrics                     *metricsView
 	Filters                     *filtersView
 	Audit                       *auditView
+	AuditNote                   string
 	Examples                    []exampleView
 	ExamplesNote                string
 	Notes                       []string
@@ -97,7 +98,7 @@ type legend struct {
 
 func layout(in Input) (*page, error) {
 	m := in.Model
-	p := &page{Title: in.Title, ModelPath: in.ModelPath, Notes: in.Notes, Labels: m.Labels}
+	p := &page{Title: in.Title, ModelPath: in.ModelPath, Notes: in.Notes, Labels: m.Labels, AuditNote: in.AuditNote}
 	if p.Title == "" {
 		p.Title = "telltale report"
 	}
