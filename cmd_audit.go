@@ -173,10 +173,10 @@ func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		return usagef("--seeds %d: give at most %d (each seed trains a whole model)", o.seeds, maxSeeds)
 	case o.seeds > 0 && len(o.others) > 0:
 		return usagef("give --seeds N or --models, not both")
-	case o.stableIn > audits:
-		return usagef("--stable-in %d: there are %d audits (the model and %d more)", o.stableIn, audits, audits-1)
 	case isSet(fs, "stable-in") && audits == 1:
 		return usagef("--stable-in needs --seeds or --models: the cues stable over several models")
+	case o.stableIn > audits:
+		return usagef("--stable-in %d: there are only %d audits (the model and %d more)", o.stableIn, audits, audits-1)
 	case o.retrainOut != "" && !o.retrain:
 		return usagef("--retrain-out needs --retrain")
 	case o.vectors != "" && !o.retrain && o.seeds == 0:
@@ -478,8 +478,8 @@ func (o *auditOptions) writeMarks(env *runEnv, marks *audit.Marks) error {
 		return fmt.Errorf("writing the marks: %w", err)
 	}
 	if !o.quiet {
-		fmt.Fprintf(env.Stderr, "marks written to %s: %d cues marked artifact, %d task\n", path,
-			len(marks.Cues(audit.MarkArtifact)), len(marks.Cues(audit.MarkTask)))
+		fmt.Fprintf(env.Stderr, "marks written to %s: %s marked artifact, %d task\n", path,
+			plural(len(marks.Cues(audit.MarkArtifact)), "cue", "cues"), len(marks.Cues(audit.MarkTask)))
 	}
 	return nil
 }

@@ -486,7 +486,7 @@ func TestAuditRefusals(t *testing.T) {
 		{a("--seeds", "30"), 2, "--seeds 30: give at most 20"},
 		{a("--seeds", "-1"), 2, "--seeds -1: give 0 or more"},
 		{a("--seeds", "2", "--models", f.model+"x"), 2, "give --seeds N or --models, not both"},
-		{a("--stable-in", "2"), 2, "--stable-in 2: there are 1 audits"},
+		{a("--stable-in", "2"), 2, "--stable-in needs --seeds or --models"},
 		{a("--retrain-out", filepath.Join(f.dir, "r.tt")), 2, "--retrain-out needs --retrain"},
 		{a("--vectors", "v.txt"), 2, "--vectors is for training"},
 		{a("--models", f.model), 2, "the model itself is always audited"},

@@ -126,7 +126,7 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 			again, stopAgain = stream()
 			return again, nil
 		},
-		Progress: func(done, _ int) { bar.note(fmt.Sprintf("profiling filters: %d texts", done)) },
+		Progress: func(done, _ int) { bar.note("profiling filters: " + texts(done)) },
 	})
 	bar.done()
 	if err != nil {
@@ -163,13 +163,13 @@ func writeProfiles(w io.Writer, p *explain.Profiles, top int) error {
 			sel++
 		}
 	}
-	ew.printf("%d filters profiled over %d texts: %d selective, %d not selective", len(p.Filters), p.Texts, sel, len(p.Filters)-sel-masked)
+	ew.printf("%s profiled over %s: %d selective, %d not selective", plural(len(p.Filters), "filter", "filters"), texts(p.Texts), sel, len(p.Filters)-sel-masked)
 	if masked > 0 {
 		ew.printf(", %d masked", masked)
 	}
-	ew.printf(".\nA filter's threshold is chosen on %d texts: above it, its winning windows come from texts assigned its class %.2f of the way\n"+
-		"from the class's base rate to all of them. On the other %d texts that share is measured and tested against the base rate\n"+
-		"(one-sided exact binomial test, Holm-corrected over the filters, α = %g).\n", p.Halves[0], p.Selective, p.Halves[1], p.Alpha)
+	ew.printf(".\nA filter's threshold is chosen on %s: above it, its winning windows come from texts assigned its class %.2f of the way\n"+
+		"from the class's base rate to all of them. On the other %s that share is measured and tested against the base rate\n"+
+		"(one-sided exact binomial test, Holm-corrected over the filters, α = %g).\n", texts(p.Halves[0]), p.Selective, texts(p.Halves[1]), p.Alpha)
 	for i := range p.Filters {
 		writeFilter(ew, p, &p.Filters[i], top)
 	}
@@ -188,8 +188,8 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 	for c, v := range f.CentredVotes {
 		votes[c] = fmt.Sprintf("%s %+.3f", p.Labels[c], v)
 	}
-	ew.printf("\nfilter %d  width %d  votes %s by %.3f (centred votes: %s)  fired in %d of %d texts, max %.3f%s\n",
-		f.Filter, f.Width, f.Label, f.Margin, strings.Join(votes, ", "), f.Fired, p.Texts, f.MaxActivation, state)
+	ew.printf("\nfilter %d  width %d  votes %s by %.3f (centred votes: %s)  fired in %d of %s, max %.3f%s\n",
+		f.Filter, f.Width, f.Label, f.Margin, strings.Join(votes, ", "), f.Fired, texts(p.Texts), f.MaxActivation, state)
 	ew.printf("  %s\n", selectivityLine(&f.Selectivity, f.Label))
 	if len(f.TopNgrams) > 0 {
 		ew.printf("  top n-grams (activation, texts it wins in, slot scores):\n")
@@ -199,20 +199,16 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 	}
 	writeNegatives(ew, f, top)
 	if len(f.Families) > 0 {
-		ew.printf("  families (from a sample of %d of the %d windows above the threshold; share of those windows, stability):\n",
-			f.FamilySample, f.Selectivity.Above)
+		ew.printf("  families (from a sample of %d of the %s above the threshold; share of those windows, stability):\n",
+			f.FamilySample, plural(f.Selectivity.Above, "window", "windows"))
 	}
 	for _, fam := range f.Families {
 		stab := "-"
 		if fam.Stability != nil {
 			stab = fmt.Sprintf("%.2f", *fam.Stability)
 		}
-		ngrams := "1 n-gram"
-		if fam.Ngrams != 1 {
-			ngrams = fmt.Sprintf("%d n-grams", fam.Ngrams)
-		}
-		ew.printf("    %-36s %3.0f%% [%.0f%%, %.0f%%]  stability %s  (%s, about %d texts)\n",
-			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, ngrams, fam.Count)
+		ew.printf("    %-36s %3.0f%% (%.0f–%.0f%%)  stability %s  (%s, about %s)\n",
+			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, plural(fam.Ngrams, "n-gram", "n-grams"), texts(fam.Count))
 	}
 	for _, s := range f.Slots {
 		ew.printf("  slot %d  on: %s\n          off: %s\n", s.Slot, scoreList(s.Triggers, top), scoreList(s.Suppressors, top))
@@ -239,7 +235,8 @@ func writeNegatives(ew *errWriter, f *explain.FilterProfile, top int) {
 	}
 }
 
-// selectivityLine describes a filter's threshold and its held-out test.
+// selectivityLine describes a filter's threshold and its test on the half
+// of the texts that took no part in choosing it.
 func selectivityLine(s *explain.Selectivity, label string) string {
 	verdict := "not selective"
 	if s.Selective {
@@ -253,10 +250,10 @@ func selectivityLine(s *explain.Selectivity, label string) string {
 		thr = "≈" + thr
 	}
 	if s.Windows == 0 {
-		return fmt.Sprintf("threshold %s (%d windows above): no held-out window above it: %s", thr, s.Above, verdict)
+		return fmt.Sprintf("threshold %s (%s above): no window of the other half above it: %s", thr, plural(s.Above, "window", "windows"), verdict)
 	}
-	return fmt.Sprintf("threshold %s (%d windows above); held out: %d of %d in %s = %.2f [%.2f, %.2f] against a base rate of %.2f, p = %.2g (Holm %.2g): %s",
-		thr, s.Above, s.InClass, s.Windows, label, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm, verdict)
+	return fmt.Sprintf("threshold %s (%s above); on the other half: %d of %d in %s = %.2f (%.2f–%.2f) against a base rate of %.2f, p = %.2g (Holm %.2g): %s",
+		thr, plural(s.Above, "window", "windows"), s.InClass, s.Windows, label, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm, verdict)
 }
 
 // slotString writes each token with its slot score, those at the slots in

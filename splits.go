@@ -143,19 +143,19 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 		if es.test, err = r.read(test, false, warn, quiet); err != nil {
 			return nil, err
 		}
-		es.note = fmt.Sprintf("evaluating on the test file %s (%d texts)", test, len(es.test.Examples))
+		es.note = fmt.Sprintf("evaluating on the test file %s (%s)", test, texts(len(es.test.Examples)))
 	case same && rec.TestFile != "":
 		if es.test, err = r.read(rec.TestFile, false, warn, quiet); err != nil {
 			return nil, fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
 		}
-		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%d texts)", rec.TestFile, len(es.test.Examples))
+		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%s)", rec.TestFile, texts(len(es.test.Examples)))
 	case same:
-		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%d texts), never used for training or to choose the epoch",
-			data, 100*rec.TestFrac, rec.Seed, len(es.test.Examples))
+		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%s), never used for training or to choose the epoch",
+			data, 100*rec.TestFrac, rec.Seed, texts(len(es.test.Examples)))
 	case rec == nil:
 		es.test, es.name = all, "all"
-		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %d texts of %s, which may include texts the model was trained on",
-			len(all.Examples), data)
+		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %s of %s, which may include texts the model was trained on",
+			texts(len(all.Examples)), data)
 	default:
 		es.test, es.name = all, "all"
 		es.note = fmt.Sprintf("%s is not the data the model was trained on (%s): evaluating on all %d of its texts, which may include texts the model was trained on",

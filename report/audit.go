@@ -34,9 +34,9 @@ type actionView struct {
 }
 
 func auditLayout(r *audit.Result, priors []float64, modelPath string) *auditView {
-	av := &auditView{Halves: fmt.Sprintf("Association is tested on the %s texts of the training split; reliance is measured on the %s held-out texts, "+
+	av := &auditView{Halves: fmt.Sprintf("Association is tested on the %s of the training split; reliance is measured on the %s of the test split, "+
 		"halved at random into %s that choose the cues and %s that confirm them: every figure below comes from the confirming half unless it says otherwise.",
-		count(r.TrainTexts), count(r.HeldoutTexts), count(r.SelectionTexts), count(r.ConfirmationTexts))}
+		plural(r.TrainTexts, "text"), plural(r.HeldoutTexts, "text"), count(r.SelectionTexts), count(r.ConfirmationTexts))}
 	for _, para := range strings.Split(r.Story(), "\n\n") {
 		av.Story = append(av.Story, strings.TrimRight(para, "\n"))
 	}

@@ -213,7 +213,7 @@ func maxLen(n int) string {
 	if n <= 0 {
 		return "whole text"
 	}
-	return fmt.Sprintf("%d tokens", n)
+	return plural(n, "token")
 }
 
 func yesNo(b bool) string {
