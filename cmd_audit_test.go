@@ -500,7 +500,7 @@ func TestAuditRefusals(t *testing.T) {
 		// Too few held-out texts: the test split held out of the model's own
 		// data, or a file.
 		{[]string{"audit", "--model", f.model, "--data", modelData(t, f.model)}, 1, "train the model again with a larger --test-frac"},
-		{a("--test", f.tiny), 1, "give a larger file of held-out texts (--test FILE)"},
+		{a("--test", f.tiny), 1, "give a larger test file (--test FILE)"},
 	} {
 		code, _, stderr := tt(t, c.args...)
 		noCrash(t, "audit", stderr)

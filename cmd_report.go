@@ -100,7 +100,7 @@ func runReport(ctx context.Context, env *runEnv, o *reportOptions) error {
 	in, err := report.Gather(ctx, m, es.train, es.test, report.Options{Title: o.title, ModelPath: o.model, HeldOut: name, HeldOutNote: es.note,
 		SkipAudit: o.noAudit, Threads: o.threads.N, Audit: audit.Options{Marks: marks, TrainFile: o.data, HeldoutFile: cmpOr(o.test, o.data),
 			HeldoutShare: src.heldoutShare(), RetrainCommands: src.retrainCommands}},
-		func(stage string, done, total int) { bar.show(done, total, stage, false) })
+		func(stage string, done, total int) { bar.show(done, total, auditStage(stage), false) })
 	bar.done()
 	if err != nil {
 		return err

@@ -1,6 +1,9 @@
 package main
 
-import "strconv"
+import (
+	"strconv"
+	"strings"
+)
 
 // plural is n with the noun in the form that goes with it: "1 text",
 // "3 texts". Many is the plural form (most nouns: one + "s").
@@ -24,4 +27,11 @@ func change(d float64) string {
 		return "rises by " + strconv.FormatFloat(-d, 'f', 3, 64)
 	}
 	return "does not change"
+}
+
+// auditStage is an audit progress stage as the progress bar shows it: the
+// audit's stage "held-out" (a name the window also keys on) is the pass
+// over the test split.
+func auditStage(stage string) string {
+	return strings.Replace(stage, "held-out", "test split", 1)
 }

@@ -126,7 +126,7 @@ func AuditMethod(r *audit.Result) []string {
 			"Associated words grow into the longest phrase they keep in 80%% of their occurrences (or, failing that, into the form they are written in, with no space, in most of them), and a bracket into the "+
 			"bracketed groups it opens or closes; a cue in at least %d training texts passes at p ≤ %s.",
 			AssociationTestName(r.Test), count(r.Tests), CorrectionName(r.Correction), r.Alpha, r.MinSupport, strings.TrimPrefix(pvalue(r.Cutoff), "= ")),
-		"Reliance: each held-out text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
+		"Reliance: each test text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
 			"kept with the same words put elsewhere; intervals are 95% bootstrap intervals over texts, sign tests are exact and one-sided. " +
 			"A cue is acted on when it is artifact-like, relied on in the choosing half and confirmed in the confirming half (Benjamini–Hochberg over the cues put to the test).",
 		"Artifact-likeness: 1 − Π (1 − weight × value) over the signals shown, each value in [0, 1]; " + num(audit.ArtifactThreshold) +

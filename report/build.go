@@ -107,7 +107,7 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	}
 	ho, err := audit.NewData(m, heldout, opt.Threads)
 	if err != nil {
-		return Input{}, fmt.Errorf("report: held-out split: %w", err)
+		return Input{}, fmt.Errorf("report: test split: %w", err)
 	}
 
 	progress("evaluate", 0, len(ho.IDs))
@@ -129,7 +129,7 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	in.Reliability = cnn.Reliability(conf, correct, cnn.DefaultBins)
 	if m.Baseline != nil {
 		if in.Baseline, err = cnn.CompareBaseline(m, heldout, opt.Threads); err != nil {
-			return Input{}, fmt.Errorf("report: the linear baseline on the held-out split: %w", err)
+			return Input{}, fmt.Errorf("report: the linear baseline on the test split: %w", err)
 		}
 	}
 	progress("evaluate", len(ho.IDs), len(ho.IDs))

@@ -116,7 +116,7 @@ func layout(in Input) (*page, error) {
 		}
 		p.Metrics = mv
 		p.Glance = append(p.Glance,
-			kv{"Held-out split", fmt.Sprintf("%s, %s texts", mv.Split, mv.N)},
+			kv{"Evaluated on", fmt.Sprintf("%s split, %s texts", mv.Split, mv.N)},
 			kv{"Accuracy", mv.Accuracy}, kv{"Macro-F1", mv.MacroF1}, kv{"ECE", mv.ECE})
 		if len(mv.Figures) > 1 {
 			p.Glance = append(p.Glance, kv{"Linear baseline accuracy", mv.Figures[1].Accuracy})
@@ -298,14 +298,14 @@ func metrics(in Input) (*metricsView, error) {
 	}
 	split := in.HeldOut
 	if split == "" {
-		split = "held-out"
+		split = "test"
 	}
 	note := in.HeldOutNote
 	if note == "" {
 		note = "none of them used for training"
 	}
 	if b := in.Baseline; b != nil && (b.CNN.N != mt.N || len(b.Baseline.Labels) != k || b.CNN.Accuracy != mt.Accuracy) {
-		return nil, fmt.Errorf("report: the baseline comparison is of %d texts (CNN accuracy %g), the metrics of %d (accuracy %g): give both of the same held-out split",
+		return nil, fmt.Errorf("report: the baseline comparison is of %d texts (CNN accuracy %g), the metrics of %d (accuracy %g): give both of the same test split",
 			b.CNN.N, b.CNN.Accuracy, mt.N, mt.Accuracy)
 	}
 	fig := cnn.FiguresOf(*mt, in.Baseline)

@@ -50,7 +50,7 @@ func TestDemoSections(t *testing.T) {
 		"Accuracy</span><span class=\"v\">" + head.Accuracy.String() + "<",
 		"Macro-F1</span><span class=\"v\">" + head.MacroF1.String() + "<",
 		"ECE</span><span class=\"v\">" + num(mt.ECE) + "<",
-		"test, 300 texts",
+		"Evaluated on", "test split, 300 texts",
 		"expected calibration error " + num(mt.ECE),
 		// the training record
 		"<th>Filter widths</th><td>2, 3</td>",
@@ -202,7 +202,7 @@ func TestAbsentPieces(t *testing.T) {
 	out := render(t, r)
 	for _, w := range []string{
 		"The dataset summary was not computed for this report.",
-		"The model was not evaluated on a held-out split for this report.",
+		"The model was not evaluated on a test split for this report.",
 		"Filter profiles were not computed for this report.",
 		"The cue audit (association, reliance and artifact-likeness of the cues that predict a label) was not run for this report",
 		"No examples were explained for this report.",
