@@ -8,6 +8,10 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/explain"
 )
 
 // caseFiles are the files the cases of TestRefusalsAndMessages read.
@@ -256,5 +260,44 @@ func TestReportOnSmallData(t *testing.T) {
 	code, _, stderr = tt(t, "report", "--model", model, "--data", data, "--out", out, "--no-audit")
 	if code != 0 || strings.Contains(stderr, "leaves out the cue audit") {
 		t.Errorf("report --no-audit: exit %d: %s", code, stderr)
+	}
+}
+
+// TestFiltersProfileTheTrainingSplit: given the data the model was trained
+// on, filters profiles the training split the model file records (its size
+// is the record's, as in the report) and says so; given other data, all of
+// it, with a note.
+func TestFiltersProfileTheTrainingSplit(t *testing.T) {
+	model := tinyModel(t)
+	data := filepath.Join(filepath.Dir(model), "part.csv") // tinyModel's training data
+	m, err := cnn.Load(model)
+	if err != nil || m.Info.Splits == nil {
+		t.Fatalf("the model records no splits (%v)", err)
+	}
+	rec := m.Info.Splits
+	profiled := func(path string) (int, string) {
+		t.Helper()
+		code, js, stderr := tt(t, "filters", "--model", model, "--data", path, "--top", "2", "--json")
+		var p explain.Profiles
+		if err := json.Unmarshal([]byte(js), &p); code != 0 || err != nil {
+			t.Fatalf("filters --data %s: exit %d, %v: %s", path, code, err, stderr)
+		}
+		return p.Texts, stderr
+	}
+	n, stderr := profiled(data)
+	if n != rec.Train || rec.Train >= rec.Examples {
+		t.Errorf("profiled %d texts; the model's training split has %d of %d", n, rec.Train, rec.Examples)
+	}
+	if want := fmt.Sprintf("note: profiling the training split of %s, as the report does: %d of its %d texts", data, rec.Train, rec.Examples); !strings.Contains(stderr, want) {
+		t.Errorf("stderr lacks %q:\n%s", want, stderr)
+	}
+	other := demoPart(t, t.TempDir(), 200)
+	all, _, err := corpus.Load(other, corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	n, stderr = profiled(other)
+	if n != len(all.Examples) || !strings.Contains(stderr, "is not the file the model was trained on") {
+		t.Errorf("other data: profiled %d of its %d texts; stderr %s", n, len(all.Examples), stderr)
 	}
 }

@@ -10,6 +10,7 @@ import (
 	"strings"
 	"sync"
 
+	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
 	"telltale/internal/outguard"
@@ -20,21 +21,24 @@ var cmdFilters = &command{
 	Name:      "filters",
 	UsageLine: "filters --model MODEL --data FILE [--top K] [--filters 3,17] [--json]",
 	Short:     "profile every filter over a corpus: selectivity, top and negative n-grams, families, slot words",
-	Long: `Filters runs the model over every text of --data and describes each filter:
-the class it votes for and by how much; its selectivity threshold, the lowest
-activation above which its winning windows come from texts the model assigns
-that class at least --selectivity of the way from the class's base rate to all
-of them (after Jacovi, Sar Shalom and Goldberg 2018), chosen on one half of the
-texts and tested on the other with a one-sided exact binomial test,
-Holm-corrected over the filters at --alpha (filters that fail are not
-selective); the n-grams that win its max pooling most strongly (with the score
-of every slot); its negative n-grams, windows whose positive slots would pass
-the threshold but whose negative slots hold them below it; the families its
-windows above the threshold fall into, with their share and stability; the
-words that switch each slot on (triggers) and off (suppressors); and its
-activation histogram (in --json). The file is read twice when a filter's
-negative n-grams need a second search. Filters are numbered from 0, as in every
-command; --filters shows only those listed.`,
+	Long: `Filters runs the model over the texts it was trained on and describes each
+filter. When --data is the data the model was trained on (by the split record
+in the model file), those are its training split, as in the report; otherwise
+all of --data, with a note. For each filter: the class it votes for and by how
+much; its selectivity threshold, the lowest activation above which its winning
+windows come from texts the model assigns that class at least --selectivity of
+the way from the class's base rate to all of them (after Jacovi, Sar Shalom and
+Goldberg 2018), chosen on one half of the texts and tested on the other with a
+one-sided exact binomial test, Holm-corrected over the filters at --alpha
+(filters that fail are not selective); the n-grams that win its max pooling
+most strongly (with the score of every slot); its negative n-grams, windows
+whose positive slots would pass the threshold but whose negative slots hold
+them below it; the families its windows above the threshold fall into, with
+their share and stability; the words that switch each slot on (triggers) and
+off (suppressors); and its activation histogram (in --json). All of other data
+is streamed, not held, and read twice when a filter's negative n-grams need a
+second search. Filters are numbered from 0, as in every command; --filters
+shows only those listed.`,
 	Options: func() options { return new(filtersOptions) },
 	Run:     runAs(runFilters),
 }
@@ -52,7 +56,7 @@ type filtersOptions struct {
 
 func (o *filtersOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.model, "model", "", "model file written by train")
-	fs.StringVar(&o.data, "data", "", "the corpus to profile the filters on (usually the training file)")
+	fs.StringVar(&o.data, "data", "", "the labeled data the model was trained on (its training split is profiled; other data: all of it)")
 	o.read.register(fs, true)
 	intVar(fs, &o.top, "top", 10, "n-grams, negative n-grams and slot words shown per filter (1 or more)")
 	fs.StringVar(&o.filters, "filters", "", "show only these filters: indexes from 0, comma-separated (default: all)")
@@ -76,7 +80,7 @@ func (o *filtersOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		return err
 	}
 	if o.data == "" {
-		return usagef("--data is required: the corpus to profile the filters on (usually the training file)")
+		return usagef("--data is required: the labeled data the model was trained on, whose training split is profiled")
 	}
 	for _, err := range []error{requireModel(o.model), checkExport(o.export), checkAtLeast("top", o.top, 1, "n-grams shown per filter"),
 		o.read.check(), o.threads.check(env.Stderr)} {
@@ -85,6 +89,44 @@ func (o *filtersOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		}
 	}
 	return nil
+}
+
+// source is what filters profiles, as the report does: the training split
+// of --data when it is the data the model was trained on (by the model's
+// split record), else all of --data, with a note that says which. Data
+// that cannot be the model's (no split record, another file) is streamed,
+// so only a few texts are held at once; the negative n-gram search may
+// read the source again.
+func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.Encoder, env *runEnv) (func() (explain.TextSource, func()), string, error) {
+	stream := func() (explain.TextSource, func()) {
+		return streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
+	}
+	rec := m.Info.Splits
+	switch {
+	case rec == nil:
+		return stream, "the model file does not record how its splits were made: profiling all texts of " + o.data, nil
+	case rec.DataAbs != "" && rec.DataAbs != absPath(o.data):
+		return stream, fmt.Sprintf("%s is not the file the model was trained on (%s): profiling all of its texts", o.data, rec.Data), nil
+	}
+	all, err := o.read.read(o.data, true, env.Stderr, o.quiet)
+	if err != nil {
+		return nil, "", err
+	}
+	train, note := trainingSplit(m, all, o.data)
+	ids, gold := make([][]int32, len(train.Examples)), make([]int, len(train.Examples))
+	class := map[string]int{}
+	for i, l := range m.Labels {
+		class[l] = i
+	}
+	for i, e := range train.Examples {
+		_, ids[i] = enc.Encode(e.Text)
+		if g, ok := class[e.Label]; ok {
+			gold[i] = g
+		} else {
+			gold[i] = -1
+		}
+	}
+	return func() (explain.TextSource, func()) { return explain.SliceSource(ids, gold), func() {} }, note, nil
 }
 
 func (o *filtersOptions) files() (outputs, inputs []outguard.File) {
@@ -104,11 +146,11 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 			}
 		}
 	}
-	// The corpus is streamed: only a few texts are held at once. The
-	// negative n-gram search may read it again (Reopen).
-	stream := func() (explain.TextSource, func()) {
-		return streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
+	stream, note, err := o.source(ctx, m, enc, env)
+	if err != nil {
+		return err
 	}
+	say(env.Stderr, o.quiet, "%s", note)
 	next, stop := stream()
 	defer stop()
 	var stopAgain func()

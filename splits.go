@@ -167,6 +167,23 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	return es, nil
 }
 
+// trainingSplit is the split model m was trained on out of all (the
+// labeled data at path), when all is the data it was trained on (the same
+// examples: cnn.SplitRecord.Fingerprint); else all of it. The note says
+// which, for the user.
+func trainingSplit(m *cnn.Model, all *corpus.Dataset, path string) (*corpus.Dataset, string) {
+	rec := m.Info.Splits
+	switch {
+	case rec == nil:
+		return all, fmt.Sprintf("the model file does not record how its splits were made: profiling all %s of %s", texts(len(all.Examples)), path)
+	case rec.Examples != len(all.Examples) || rec.Fingerprint != all.Fingerprint():
+		return all, fmt.Sprintf("%s is not the data the model was trained on (%s): profiling all %s of it", path, rec.Data, texts(len(all.Examples)))
+	}
+	train, _, _ := all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
+	return train, fmt.Sprintf("profiling the training split of %s, as the report does: %d of its %s, the dev and test splits left out",
+		path, len(train.Examples), texts(len(all.Examples)))
+}
+
 // say prints a note on w unless quiet.
 func say(w io.Writer, quiet bool, format string, args ...any) {
 	if !quiet {
