@@ -297,7 +297,7 @@ func TestFiltersProfileTheTrainingSplit(t *testing.T) {
 		t.Fatal(err)
 	}
 	n, stderr = profiled(other)
-	if n != len(all.Examples) || !strings.Contains(stderr, "is not the file the model was trained on") {
+	if n != len(all.Examples) || !strings.Contains(stderr, "is not the data the model was trained on") {
 		t.Errorf("other data: profiled %d of its %d texts; stderr %s", n, len(all.Examples), stderr)
 	}
 }

@@ -35,10 +35,10 @@ most strongly (with the score of every slot); its negative n-grams, windows
 whose positive slots would pass the threshold but whose negative slots hold
 them below it; the families its windows above the threshold fall into, with
 their share and stability; the words that switch each slot on (triggers) and
-off (suppressors); and its activation histogram (in --json). All of other data
-is streamed, not held, and read twice when a filter's negative n-grams need a
-second search. Filters are numbered from 0, as in every command; --filters
-shows only those listed.`,
+off (suppressors); and its activation histogram (in --json). For a model that
+records no splits, --data is streamed, not held, and read twice when a filter's
+negative n-grams need a second search. Filters are numbered from 0, as in every
+command; --filters shows only those listed.`,
 	Options: func() options { return new(filtersOptions) },
 	Run:     runAs(runFilters),
 }
@@ -93,20 +93,16 @@ func (o *filtersOptions) check(fs *flag.FlagSet, env *runEnv) error {
 
 // source is what filters profiles, as the report does: the training split
 // of --data when it is the data the model was trained on (by the model's
-// split record), else all of --data, with a note that says which. Data
-// that cannot be the model's (no split record, another file) is streamed,
-// so only a few texts are held at once; the negative n-gram search may
-// read the source again.
+// split record, which identifies the data by its examples, wherever the
+// file now lies), else all of --data, with a note that says which. Data of
+// a model that records no splits is streamed, so only a few texts are held
+// at once; the negative n-gram search may read the source again.
 func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.Encoder, env *runEnv) (func() (explain.TextSource, func()), string, error) {
 	stream := func() (explain.TextSource, func()) {
 		return streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
 	}
-	rec := m.Info.Splits
-	switch {
-	case rec == nil:
+	if m.Info.Splits == nil {
 		return stream, "the model file does not record how its splits were made: profiling all texts of " + o.data, nil
-	case rec.DataAbs != "" && rec.DataAbs != absPath(o.data):
-		return stream, fmt.Sprintf("%s is not the file the model was trained on (%s): profiling all of its texts", o.data, rec.Data), nil
 	}
 	all, err := o.read.read(o.data, true, env.Stderr, o.quiet)
 	if err != nil {
