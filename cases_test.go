@@ -8,6 +8,10 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/explain"
 )
 
 // caseFiles are the files the cases of TestRefusalsAndMessages read.
@@ -134,7 +138,11 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"test-frac 1", train("--test-frac", "1"), 2, []string{"--test-frac 1: give a share between 0 and 1"}},
 		{"shares that leave nothing", train("--dev-frac", "0.5", "--test-frac", "0.5"), 2, []string{"hold out 100% of --data: together they must stay below 1"}},
 		{"a file and a share", train("--dev", f.tiny, "--dev-frac", "0.2"), 2, []string{"give --dev FILE or --dev-frac, not both"}},
-		{"report onto a folder", []string{"report", "--model", f.model, "--data", f.data, "--out", f.dir}, 1, []string{"--out " + f.dir + " is a folder"}},
+		{"report onto a folder", []string{"report", "--model", f.model, "--data", f.data, "--out", f.dir}, 2, []string{"--out " + f.dir + " is a folder: give a file name"}},
+		{"report in a missing folder", []string{"report", "--model", f.model, "--data", f.data, "--out", filepath.Join(f.dir, "nodir", "r.html")}, 2,
+			[]string{"the folder " + filepath.Join(f.dir, "nodir") + " does not exist: create it or choose another --out"}},
+		{"mask in a missing folder", []string{"mask", "--model", f.model, "--filters", "0", "--out", filepath.Join("nodir", "m.tt")}, 2,
+			[]string{"--out nodir/m.tt: the folder nodir does not exist: create it or choose another --out"}},
 		{"bare regular expression", train("--mask-tokens", f.cues, "--quiet=false", "--out", filepath.Join(f.dir, "masked.tt")), 0, []string{
 			`the pattern "TKREF-[0-9]{5}" matches nothing: without slashes it is a plain token`, "write /TKREF-[0-9]{5}/"}},
 		{"Latin-1", []string{"data", "--data", filepath.Join("testdata", "bad", "latin1.csv")}, 0, []string{"iconv -f latin1 -t utf-8"}},
@@ -230,5 +238,71 @@ func TestInterruptedExits130(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(dir, "m.tt")); err == nil {
 		t.Error("an interrupted training run saved a model before its first epoch ended")
+	}
+}
+
+// TestReportOnSmallData: on a few hundred texts the test split is too small
+// for the cue audit; the report is still written, and the command line
+// says the audit was left out, why, and that --no-audit silences the note.
+func TestReportOnSmallData(t *testing.T) {
+	model := tinyModel(t) // trained on demoPart(…, 400)
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	out := filepath.Join(dir, "r.html")
+	code, _, stderr := tt(t, "report", "--model", model, "--data", data, "--out", out)
+	if code != 0 {
+		t.Fatalf("report: exit %d: %s", code, stderr)
+	}
+	for _, w := range []string{"the report leaves out the cue audit: the cue audit needs at least 60 test texts (30 in each of its two halves); this split has ",
+		"train the model again with a larger share of the data as its test split", "(--no-audit leaves it out without this note)"} {
+		if !strings.Contains(stderr, w) {
+			t.Errorf("stderr lacks %q:\n%s", w, stderr)
+		}
+	}
+	if b, err := os.ReadFile(out); err != nil || !strings.Contains(string(b), "The cue audit needs at least 60 test texts") {
+		t.Errorf("the report does not say why the audit is missing (%v)", err)
+	}
+	code, _, stderr = tt(t, "report", "--model", model, "--data", data, "--out", out, "--no-audit")
+	if code != 0 || strings.Contains(stderr, "leaves out the cue audit") {
+		t.Errorf("report --no-audit: exit %d: %s", code, stderr)
+	}
+}
+
+// TestFiltersProfileTheTrainingSplit: given the data the model was trained
+// on, filters profiles the training split the model file records (its size
+// is the record's, as in the report) and says so; given other data, all of
+// it, with a note.
+func TestFiltersProfileTheTrainingSplit(t *testing.T) {
+	model := tinyModel(t)
+	data := filepath.Join(filepath.Dir(model), "part.csv") // tinyModel's training data
+	m, err := cnn.Load(model)
+	if err != nil || m.Info.Splits == nil {
+		t.Fatalf("the model records no splits (%v)", err)
+	}
+	rec := m.Info.Splits
+	profiled := func(path string) (int, string) {
+		t.Helper()
+		code, js, stderr := tt(t, "filters", "--model", model, "--data", path, "--top", "2", "--json")
+		var p explain.Profiles
+		if err := json.Unmarshal([]byte(js), &p); code != 0 || err != nil {
+			t.Fatalf("filters --data %s: exit %d, %v: %s", path, code, err, stderr)
+		}
+		return p.Texts, stderr
+	}
+	n, stderr := profiled(data)
+	if n != rec.Train || rec.Train >= rec.Examples {
+		t.Errorf("profiled %d texts; the model's training split has %d of %d", n, rec.Train, rec.Examples)
+	}
+	if want := fmt.Sprintf("note: profiling the training split of %s, as the report does: %d of its %d texts", data, rec.Train, rec.Examples); !strings.Contains(stderr, want) {
+		t.Errorf("stderr lacks %q:\n%s", want, stderr)
+	}
+	other := demoPart(t, t.TempDir(), 200)
+	all, _, err := corpus.Load(other, corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	n, stderr = profiled(other)
+	if n != len(all.Examples) || !strings.Contains(stderr, "is not the data the model was trained on") {
+		t.Errorf("other data: profiled %d of its %d texts; stderr %s", n, len(all.Examples), stderr)
 	}
 }

@@ -33,7 +33,7 @@ the training split of --data, and tells in plain words what it found:
                      every word and label tested (Benjamini-Hochberg); a word
                      grows into the longest phrase it keeps (a footer line, a
                      stamp with its number).
-  reliance           Does this model depend on it? In held-out texts that hold
+  reliance           Does this model depend on it? In the test texts that hold
                      it, it is replaced by label-neutral words, against a
                      control that keeps it and puts the same words elsewhere:
                      how many predictions change and how much its label's
@@ -42,10 +42,10 @@ the training split of --data, and tells in plain words what it found:
                      like the task? Where it sits (a line of its own, the start
                      or end of the text), the same neighbours every time, its
                      shape (an identifier with digits, an address, markup), and
-                     a label share that differs in the held-out texts.
+                     a label share that differs in the test texts.
 
-The held-out texts are the test split: --test FILE, or the test split train
-held out of --data. They are halved at random (--seed): the cues are ranked and
+The test split is --test FILE, or the share train held out of --data as its
+test split. It is halved at random (--seed): the cues are ranked and
 chosen on one half, and every figure shown is measured on the other, which took
 no part in choosing them. The cues the model relies on that look like
 collection are ranked first; those that read like the task are listed apart,
@@ -116,7 +116,7 @@ func (*cueList) typeName() string { return "CUE" }
 func (o *auditOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.model, "model", "", "model file written by train")
 	fs.StringVar(&o.data, "data", "", "the labeled data the model was trained on")
-	fs.StringVar(&o.test, "test", "", "labeled test file: the held-out texts (default: the test split train held out of --data)")
+	fs.StringVar(&o.test, "test", "", "labeled test file (default: the test split train held out of --data)")
 	o.read.register(fs, true)
 	intVar(fs, &o.top, "top", 15, "cues listed in each list, 1 or more")
 	fs.StringVar(&o.marks, "marks", "", "the marks file (default: beside the model, its name ending in .marks)")
@@ -173,10 +173,10 @@ func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		return usagef("--seeds %d: give at most %d (each seed trains a whole model)", o.seeds, maxSeeds)
 	case o.seeds > 0 && len(o.others) > 0:
 		return usagef("give --seeds N or --models, not both")
-	case o.stableIn > audits:
-		return usagef("--stable-in %d: there are %d audits (the model and %d more)", o.stableIn, audits, audits-1)
 	case isSet(fs, "stable-in") && audits == 1:
 		return usagef("--stable-in needs --seeds or --models: the cues stable over several models")
+	case o.stableIn > audits:
+		return usagef("--stable-in %d: there are only %d audits (the model and %d more)", o.stableIn, audits, audits-1)
 	case o.retrainOut != "" && !o.retrain:
 		return usagef("--retrain-out needs --retrain")
 	case o.vectors != "" && !o.retrain && o.seeds == 0:
@@ -233,7 +233,7 @@ func (o *auditOptions) files() (outputs, inputs []outguard.File) {
 	}
 	// The marks file is the one file the audit both reads and writes: an
 	// output when the marks change, else an input.
-	marks := outguard.File{Name: "the marks file (--marks)", Path: o.marksPath()}
+	marks := outguard.File{Name: marksOption, Path: o.marksPath()}
 	if o.marking() {
 		outputs = append(outputs, marks)
 	} else {
@@ -379,7 +379,7 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 	}
 	held, err := audit.NewData(m, r.es.test, r.o.threads.N)
 	if err != nil {
-		return nil, fmt.Errorf("the held-out texts (%s): %w", cmpOr(r.o.test, r.o.data), err)
+		return nil, fmt.Errorf("the test texts (%s): %w", cmpOr(r.o.test, r.o.data), err)
 	}
 	if r.priors == nil {
 		r.priors = make([]float64, len(m.Labels))
@@ -390,7 +390,7 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.o.test, r.o.data),
 		HeldoutShare: r.src.heldoutShare(), RetrainCommands: r.src.retrainCommands, Seed: r.o.seed, Workers: r.o.threads.N}
 	return audit.Run(ctx, m, train, held, opt, func(stage string, done, total int) {
-		r.bar.show(done, total, what+"audit: "+stage, false)
+		r.bar.show(done, total, what+"audit: "+auditStage(stage), false)
 	})
 }
 
@@ -478,8 +478,8 @@ func (o *auditOptions) writeMarks(env *runEnv, marks *audit.Marks) error {
 		return fmt.Errorf("writing the marks: %w", err)
 	}
 	if !o.quiet {
-		fmt.Fprintf(env.Stderr, "marks written to %s: %d cues marked artifact, %d task\n", path,
-			len(marks.Cues(audit.MarkArtifact)), len(marks.Cues(audit.MarkTask)))
+		fmt.Fprintf(env.Stderr, "marks written to %s: %s marked artifact, %d task\n", path,
+			plural(len(marks.Cues(audit.MarkArtifact)), "cue", "cues"), len(marks.Cues(audit.MarkTask)))
 	}
 	return nil
 }
@@ -549,7 +549,7 @@ func (o *auditOptions) openOthers(m *cnn.Model) ([]*cnn.Model, error) {
 			return nil, usagef("--models %s has the labels %s but --model has %s: stability needs models of the same labels", p, listed(om.Labels), listed(m.Labels))
 		}
 		if m.Info.Splits == nil || !sameSplits(om.Info.Splits, m.Info.Splits) {
-			return nil, usagef("--models %s was not trained on the splits of --model: its training texts may be held-out texts of the audit; "+
+			return nil, usagef("--models %s was not trained on the splits of --model: its training texts may be test texts of the audit; "+
 				"train it with the same --data and split options (or use --seeds N)", p)
 		}
 		out = append(out, om)

@@ -353,6 +353,11 @@ func checkSeedsAndRetrain(t *testing.T, model string, base []string) {
 			t.Errorf("eval of %s: accuracy %v on %d texts; the audit says %v", c.model, ev.Accuracy, ev.N, c.want)
 		}
 	}
+	// The retrained model keeps the audited model's recipe, its linear
+	// baseline included.
+	if rm, err := cnn.Load(retrained); err != nil || rm.Baseline == nil {
+		t.Errorf("the retrained model %s carries no linear baseline (%v)", retrained, err)
+	}
 	if rt.Counterfactual.Before.Estimate <= rt.Original.Before.Estimate {
 		t.Errorf("the model without the planted cues scores %v, with them %v: taking the cues out should help it on the demo's test file",
 			rt.Counterfactual.Before.Estimate, rt.Original.Before.Estimate)
@@ -481,7 +486,7 @@ func TestAuditRefusals(t *testing.T) {
 		{a("--seeds", "30"), 2, "--seeds 30: give at most 20"},
 		{a("--seeds", "-1"), 2, "--seeds -1: give 0 or more"},
 		{a("--seeds", "2", "--models", f.model+"x"), 2, "give --seeds N or --models, not both"},
-		{a("--stable-in", "2"), 2, "--stable-in 2: there are 1 audits"},
+		{a("--stable-in", "2"), 2, "--stable-in needs --seeds or --models"},
 		{a("--retrain-out", filepath.Join(f.dir, "r.tt")), 2, "--retrain-out needs --retrain"},
 		{a("--vectors", "v.txt"), 2, "--vectors is for training"},
 		{a("--models", f.model), 2, "the model itself is always audited"},
@@ -495,7 +500,7 @@ func TestAuditRefusals(t *testing.T) {
 		// Too few held-out texts: the test split held out of the model's own
 		// data, or a file.
 		{[]string{"audit", "--model", f.model, "--data", modelData(t, f.model)}, 1, "train the model again with a larger --test-frac"},
-		{a("--test", f.tiny), 1, "give a larger file of held-out texts (--test FILE)"},
+		{a("--test", f.tiny), 1, "give a larger test file (--test FILE)"},
 	} {
 		code, _, stderr := tt(t, c.args...)
 		noCrash(t, "audit", stderr)

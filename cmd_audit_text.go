@@ -157,8 +157,8 @@ func (v *auditView) writeRetrained(w io.Writer) {
 	if rt == nil {
 		return
 	}
-	fmt.Fprintf(w, "\nRetrained without %d cues (%s matches taken out of the training split, %s out of the test texts):\n",
-		len(rt.Patterns), count(rt.Removed), count(rt.HeldoutRemoved))
+	fmt.Fprintf(w, "\nRetrained without %s (%s taken out of the training split, %s out of the test texts):\n",
+		plural(len(rt.Patterns), "cue", "cues"), count(rt.Removed)+map[bool]string{true: " match", false: " matches"}[rt.Removed == 1], count(rt.HeldoutRemoved))
 	for _, p := range []struct {
 		what string
 		mp   audit.ModelPair

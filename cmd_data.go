@@ -36,7 +36,7 @@ type dataOptions struct {
 
 func (o *dataOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.data, "data", "", "labeled data: a .csv, .tsv or .jsonl file, or a folder with one sub-folder per label")
-	o.split.register(fs, "random seed of the held-out shares")
+	o.split.register(fs, "random seed of the dev and test shares")
 	o.read.register(fs, true)
 	rec := cnn.DefaultRecipe()
 	fs.BoolVar(&o.lower, "lower", rec.Tokenizer.Lower, "lower-case tokens")

@@ -132,7 +132,8 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 			return writeExplanationJSON(env.Stdout, e, t, cut)
 		}
 		if cut > 0 {
-			fmt.Fprintf(env.Stdout, "(the model reads the first %d tokens; the last %d are not explained)\n", len(e.Tokens), cut)
+			fmt.Fprintf(env.Stdout, "(the model reads the first %s; the last %d %s not explained)\n", plural(len(e.Tokens), "token", "tokens"), cut,
+				map[bool]string{true: "is", false: "are"}[cut == 1])
 		}
 		return writeExplanation(env.Stdout, t.Text, e, o.method, cls, paint)
 	})
@@ -345,8 +346,8 @@ func writeKeptDown(w io.Writer, e *explain.Explanation) {
 	fmt.Fprintf(w, "windows kept down by the [tokens] in them (change of log p(%s)/p(%s) had the window won without them; measured without them):\n",
 		e.Label, e.Labels[e.RunnerUp])
 	for _, kd := range e.KeptDown {
-		fmt.Fprintf(w, "  filter %-4d width %d  %q  estimate %+.3f, measured %+.3f (p(%s) falls by %+.3f)\n", kd.Filter, kd.Width,
-			strings.Join(tokenTexts(e, kd.Start, kd.Width, kd.By), " "), kd.Effect, kd.LogOdds-e.LogOdds.Value, e.Label, kd.Drop)
+		fmt.Fprintf(w, "  filter %-4d width %d  %q  estimate %+.3f, measured %+.3f (p(%s) %s)\n", kd.Filter, kd.Width,
+			strings.Join(tokenTexts(e, kd.Start, kd.Width, kd.By), " "), kd.Effect, kd.LogOdds-e.LogOdds.Value, e.Label, change(kd.Drop))
 	}
 }
 

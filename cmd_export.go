@@ -128,7 +128,7 @@ func runExport(ctx context.Context, env *runEnv, o *exportOptions) error {
 	}
 	cut := "texts are kept whole"
 	if s.MaxTokens > 0 {
-		cut = fmt.Sprintf("texts are cut to %d tokens", s.MaxTokens)
+		cut = "texts are cut to " + plural(s.MaxTokens, "token", "tokens")
 	}
 	fmt.Fprintf(env.Stdout, "tokenizer: %s; %s; ids are the line numbers of %s (0 padding, 1 unknown)\n", s.Tokenizer, cut, torchmodel.VocabFile)
 	return nil

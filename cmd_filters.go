@@ -10,6 +10,7 @@ import (
 	"strings"
 	"sync"
 
+	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
 	"telltale/internal/outguard"
@@ -20,19 +21,22 @@ var cmdFilters = &command{
 	Name:      "filters",
 	UsageLine: "filters --model MODEL --data FILE [--top K] [--filters 3,17] [--json]",
 	Short:     "profile every filter over a corpus: selectivity, top and negative n-grams, families, slot words",
-	Long: `Filters runs the model over every text of --data and describes each filter:
-the class it votes for and by how much; its selectivity threshold, the lowest
-activation above which its winning windows come from texts the model assigns
-that class at least --selectivity of the way from the class's base rate to all
-of them (after Jacovi, Sar Shalom and Goldberg 2018), chosen on one half of the
-texts and tested on the other with a one-sided exact binomial test,
-Holm-corrected over the filters at --alpha (filters that fail are not
-selective); the n-grams that win its max pooling most strongly (with the score
-of every slot); its negative n-grams, windows whose positive slots would pass
-the threshold but whose negative slots hold them below it; the families its
-windows above the threshold fall into, with their share and stability; the
-words that switch each slot on (triggers) and off (suppressors); and its
-activation histogram (in --json). The file is read twice when a filter's
+	Long: `Filters runs the model over the texts it was trained on and describes each
+filter. When --data is the data the model was trained on (by the split record
+in the model file), those are its training split, as in the report; otherwise
+all of --data, with a note. For each filter: the class it votes for and by how
+much; its selectivity threshold, the lowest activation above which its winning
+windows come from texts the model assigns that class at least --selectivity of
+the way from the class's base rate to all of them (after Jacovi, Sar Shalom and
+Goldberg 2018), chosen on one half of the texts and tested on the other with a
+one-sided exact binomial test, Holm-corrected over the filters at --alpha
+(filters that fail are not selective); the n-grams that win its max pooling
+most strongly (with the score of every slot); its negative n-grams, windows
+whose positive slots would pass the threshold but whose negative slots hold
+them below it; the families its windows above the threshold fall into, with
+their share and stability; the words that switch each slot on (triggers) and
+off (suppressors); and its activation histogram (in --json). For a model that
+records no splits, --data is streamed, not held, and read twice when a filter's
 negative n-grams need a second search. Filters are numbered from 0, as in every
 command; --filters shows only those listed.`,
 	Options: func() options { return new(filtersOptions) },
@@ -52,7 +56,7 @@ type filtersOptions struct {
 
 func (o *filtersOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.model, "model", "", "model file written by train")
-	fs.StringVar(&o.data, "data", "", "the corpus to profile the filters on (usually the training file)")
+	fs.StringVar(&o.data, "data", "", "the labeled data the model was trained on (its training split is profiled; other data: all of it)")
 	o.read.register(fs, true)
 	intVar(fs, &o.top, "top", 10, "n-grams, negative n-grams and slot words shown per filter (1 or more)")
 	fs.StringVar(&o.filters, "filters", "", "show only these filters: indexes from 0, comma-separated (default: all)")
@@ -76,7 +80,7 @@ func (o *filtersOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		return err
 	}
 	if o.data == "" {
-		return usagef("--data is required: the corpus to profile the filters on (usually the training file)")
+		return usagef("--data is required: the labeled data the model was trained on, whose training split is profiled")
 	}
 	for _, err := range []error{requireModel(o.model), checkExport(o.export), checkAtLeast("top", o.top, 1, "n-grams shown per filter"),
 		o.read.check(), o.threads.check(env.Stderr)} {
@@ -85,6 +89,40 @@ func (o *filtersOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		}
 	}
 	return nil
+}
+
+// source is what filters profiles, as the report does: the training split
+// of --data when it is the data the model was trained on (by the model's
+// split record, which identifies the data by its examples, wherever the
+// file now lies), else all of --data, with a note that says which. Data of
+// a model that records no splits is streamed, so only a few texts are held
+// at once; the negative n-gram search may read the source again.
+func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.Encoder, env *runEnv) (func() (explain.TextSource, func()), string, error) {
+	stream := func() (explain.TextSource, func()) {
+		return streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
+	}
+	if m.Info.Splits == nil {
+		return stream, "the model file does not record how its splits were made: profiling all texts of " + o.data, nil
+	}
+	all, err := o.read.read(o.data, true, env.Stderr, o.quiet)
+	if err != nil {
+		return nil, "", err
+	}
+	train, note := trainingSplit(m, all, o.data)
+	ids, gold := make([][]int32, len(train.Examples)), make([]int, len(train.Examples))
+	class := map[string]int{}
+	for i, l := range m.Labels {
+		class[l] = i
+	}
+	for i, e := range train.Examples {
+		_, ids[i] = enc.Encode(e.Text)
+		if g, ok := class[e.Label]; ok {
+			gold[i] = g
+		} else {
+			gold[i] = -1
+		}
+	}
+	return func() (explain.TextSource, func()) { return explain.SliceSource(ids, gold), func() {} }, note, nil
 }
 
 func (o *filtersOptions) files() (outputs, inputs []outguard.File) {
@@ -104,11 +142,11 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 			}
 		}
 	}
-	// The corpus is streamed: only a few texts are held at once. The
-	// negative n-gram search may read it again (Reopen).
-	stream := func() (explain.TextSource, func()) {
-		return streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
+	stream, note, err := o.source(ctx, m, enc, env)
+	if err != nil {
+		return err
 	}
+	say(env.Stderr, o.quiet, "%s", note)
 	next, stop := stream()
 	defer stop()
 	var stopAgain func()
@@ -126,7 +164,7 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 			again, stopAgain = stream()
 			return again, nil
 		},
-		Progress: func(done, _ int) { bar.note(fmt.Sprintf("profiling filters: %d texts", done)) },
+		Progress: func(done, _ int) { bar.note("profiling filters: " + texts(done)) },
 	})
 	bar.done()
 	if err != nil {
@@ -163,13 +201,13 @@ func writeProfiles(w io.Writer, p *explain.Profiles, top int) error {
 			sel++
 		}
 	}
-	ew.printf("%d filters profiled over %d texts: %d selective, %d not selective", len(p.Filters), p.Texts, sel, len(p.Filters)-sel-masked)
+	ew.printf("%s profiled over %s: %d selective, %d not selective", plural(len(p.Filters), "filter", "filters"), texts(p.Texts), sel, len(p.Filters)-sel-masked)
 	if masked > 0 {
 		ew.printf(", %d masked", masked)
 	}
-	ew.printf(".\nA filter's threshold is chosen on %d texts: above it, its winning windows come from texts assigned its class %.2f of the way\n"+
-		"from the class's base rate to all of them. On the other %d texts that share is measured and tested against the base rate\n"+
-		"(one-sided exact binomial test, Holm-corrected over the filters, α = %g).\n", p.Halves[0], p.Selective, p.Halves[1], p.Alpha)
+	ew.printf(".\nA filter's threshold is chosen on %s: above it, its winning windows come from texts assigned its class %.2f of the way\n"+
+		"from the class's base rate to all of them. On the other %s that share is measured and tested against the base rate\n"+
+		"(one-sided exact binomial test, Holm-corrected over the filters, α = %g).\n", texts(p.Halves[0]), p.Selective, texts(p.Halves[1]), p.Alpha)
 	for i := range p.Filters {
 		writeFilter(ew, p, &p.Filters[i], top)
 	}
@@ -188,8 +226,8 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 	for c, v := range f.CentredVotes {
 		votes[c] = fmt.Sprintf("%s %+.3f", p.Labels[c], v)
 	}
-	ew.printf("\nfilter %d  width %d  votes %s by %.3f (centred votes: %s)  fired in %d of %d texts, max %.3f%s\n",
-		f.Filter, f.Width, f.Label, f.Margin, strings.Join(votes, ", "), f.Fired, p.Texts, f.MaxActivation, state)
+	ew.printf("\nfilter %d  width %d  votes %s by %.3f (centred votes: %s)  fired in %d of %s, max %.3f%s\n",
+		f.Filter, f.Width, f.Label, f.Margin, strings.Join(votes, ", "), f.Fired, texts(p.Texts), f.MaxActivation, state)
 	ew.printf("  %s\n", selectivityLine(&f.Selectivity, f.Label))
 	if len(f.TopNgrams) > 0 {
 		ew.printf("  top n-grams (activation, texts it wins in, slot scores):\n")
@@ -199,20 +237,16 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 	}
 	writeNegatives(ew, f, top)
 	if len(f.Families) > 0 {
-		ew.printf("  families (from a sample of %d of the %d windows above the threshold; share of those windows, stability):\n",
-			f.FamilySample, f.Selectivity.Above)
+		ew.printf("  families (from a sample of %d of the %s above the threshold; share of those windows, stability):\n",
+			f.FamilySample, plural(f.Selectivity.Above, "window", "windows"))
 	}
 	for _, fam := range f.Families {
 		stab := "-"
 		if fam.Stability != nil {
 			stab = fmt.Sprintf("%.2f", *fam.Stability)
 		}
-		ngrams := "1 n-gram"
-		if fam.Ngrams != 1 {
-			ngrams = fmt.Sprintf("%d n-grams", fam.Ngrams)
-		}
-		ew.printf("    %-36s %3.0f%% [%.0f%%, %.0f%%]  stability %s  (%s, about %d texts)\n",
-			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, ngrams, fam.Count)
+		ew.printf("    %-36s %3.0f%% (%.0f–%.0f%%)  stability %s  (%s, about %s)\n",
+			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, plural(fam.Ngrams, "n-gram", "n-grams"), texts(fam.Count))
 	}
 	for _, s := range f.Slots {
 		ew.printf("  slot %d  on: %s\n          off: %s\n", s.Slot, scoreList(s.Triggers, top), scoreList(s.Suppressors, top))
@@ -239,7 +273,8 @@ func writeNegatives(ew *errWriter, f *explain.FilterProfile, top int) {
 	}
 }
 
-// selectivityLine describes a filter's threshold and its held-out test.
+// selectivityLine describes a filter's threshold and its test on the half
+// of the texts that took no part in choosing it.
 func selectivityLine(s *explain.Selectivity, label string) string {
 	verdict := "not selective"
 	if s.Selective {
@@ -253,10 +288,10 @@ func selectivityLine(s *explain.Selectivity, label string) string {
 		thr = "≈" + thr
 	}
 	if s.Windows == 0 {
-		return fmt.Sprintf("threshold %s (%d windows above): no held-out window above it: %s", thr, s.Above, verdict)
+		return fmt.Sprintf("threshold %s (%s above): no window of the other half above it: %s", thr, plural(s.Above, "window", "windows"), verdict)
 	}
-	return fmt.Sprintf("threshold %s (%d windows above); held out: %d of %d in %s = %.2f [%.2f, %.2f] against a base rate of %.2f, p = %.2g (Holm %.2g): %s",
-		thr, s.Above, s.InClass, s.Windows, label, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm, verdict)
+	return fmt.Sprintf("threshold %s (%s above); on the other half: %d of %d in %s = %.2f (%.2f–%.2f) against a base rate of %.2f, p = %.2g (Holm %.2g): %s",
+		thr, plural(s.Above, "window", "windows"), s.InClass, s.Windows, label, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm, verdict)
 }
 
 // slotString writes each token with its slot score, those at the slots in

@@ -221,8 +221,8 @@ func runImport(ctx context.Context, env *runEnv, o *importOptions) error {
 	for _, w := range res.Warnings {
 		fmt.Fprintf(env.Stderr, "warning: %s\n", w)
 	}
-	fmt.Fprintf(env.Stdout, "model saved: %s\nfrom %s (%s)\nlayout: %s\n%d words of dimension %d; widths %v, %d maps each; labels %s\ntokenizer: %s\n",
-		s.Model, s.From, s.Format, s.Layout, s.Vocab, s.Dim, s.Widths, s.Maps, strings.Join(s.Labels, ", "), s.Tokenizer)
+	fmt.Fprintf(env.Stdout, "model saved: %s\nfrom %s (%s)\nlayout: %s\n%s of dimension %d; widths %v, %s each; labels %s\ntokenizer: %s\n",
+		s.Model, s.From, s.Format, s.Layout, plural(s.Vocab, "word", "words"), s.Dim, s.Widths, plural(s.Maps, "map", "maps"), strings.Join(s.Labels, ", "), s.Tokenizer)
 	if s.Check != "" {
 		fmt.Fprintf(env.Stdout, "checked: %s\n", s.Check)
 	}
@@ -262,7 +262,7 @@ func checkImported(m *cnn.Model, o *importOptions) error {
 	if err != nil {
 		return err
 	}
-	m.Info.Notes["origin_check"] = fmt.Sprintf("logits of %d texts (%s) agree with %s to %.2g (tolerance %g)", len(texts), absOrSame(o.CheckTexts), absOrSame(o.CheckLogits), worst, torchmodel.CheckTolerance)
+	m.Info.Notes["origin_check"] = fmt.Sprintf("logits of %s (%s) agree with %s to %.2g (tolerance %g)", plural(len(texts), "text", "texts"), absOrSame(o.CheckTexts), absOrSame(o.CheckLogits), worst, torchmodel.CheckTolerance)
 	return nil
 }
 

@@ -7,6 +7,9 @@ import (
 	"fmt"
 	"io/fs"
 	"path/filepath"
+	"strings"
+	"unicode"
+	"unicode/utf8"
 
 	"telltale/audit"
 	"telltale/internal/outguard"
@@ -24,7 +27,9 @@ catalogue, the spurious-cue audit with its evidence, and explained examples
 (correct, wrong and cue-conflicting) painted by exact attribution. --data is
 the data the model was trained on; the metrics are of the test split, found as
 eval finds it: --test FILE, or the test split train held out of --data, or,
-when --data is not the model's data, all of it with a note in the report.`,
+when --data is not the model's data, all of it with a note in the report.
+On a test split too small for the audit's tests (fewer than 60 texts) the
+report is still written without the audit, and says why.`,
 	Options: func() options { return new(reportOptions) },
 	Run:     runAs(runReport),
 }
@@ -92,11 +97,18 @@ func runReport(ctx context.Context, env *runEnv, o *reportOptions) error {
 	}
 	bar := newProgressBar(env.Stderr, o.quiet)
 	src := auditSource{model: o.model, data: o.data, test: o.test, read: &o.read, es: es, m: m}
-	r, err := report.Build(ctx, m, es.train, es.test, report.Options{Title: o.title, ModelPath: o.model, HeldOut: name, HeldOutNote: es.note,
+	in, err := report.Gather(ctx, m, es.train, es.test, report.Options{Title: o.title, ModelPath: o.model, HeldOut: name, HeldOutNote: es.note,
 		SkipAudit: o.noAudit, Threads: o.threads.N, Audit: audit.Options{Marks: marks, TrainFile: o.data, HeldoutFile: cmpOr(o.test, o.data),
 			HeldoutShare: src.heldoutShare(), RetrainCommands: src.retrainCommands}},
-		func(stage string, done, total int) { bar.show(done, total, stage, false) })
+		func(stage string, done, total int) { bar.show(done, total, auditStage(stage), false) })
 	bar.done()
+	if err != nil {
+		return err
+	}
+	if in.AuditNote != "" {
+		say(env.Stderr, o.quiet, "the report leaves out the cue audit: %s (--no-audit leaves it out without this note)", lowerFirst(strings.TrimSuffix(in.AuditNote, ".")))
+	}
+	r, err := report.New(in)
 	if err != nil {
 		return err
 	}
@@ -111,4 +123,11 @@ func runReport(ctx context.Context, env *runEnv, o *reportOptions) error {
 		fmt.Fprintf(env.Stderr, "report written to %s\n", abs)
 	}
 	return nil
+}
+
+// lowerFirst is s with its first letter in lower case, for a sentence
+// quoted inside another.
+func lowerFirst(s string) string {
+	r, n := utf8.DecodeRuneInString(s)
+	return string(unicode.ToLower(r)) + s[n:]
 }

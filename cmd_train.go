@@ -146,8 +146,8 @@ func runTrain(ctx context.Context, env *runEnv, o *trainOptions) error {
 func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.Trained, error) {
 	bar := newProgressBar(w, o.quiet)
 	if !o.quiet {
-		bar.line("training on %d texts (%d labels), dev %d texts, test %d texts", len(sp.train.Examples), len(sp.train.Labels),
-			len(sp.dev.Examples), len(sp.test.Examples))
+		bar.line("training on %s (%d labels), dev %s, test %s", texts(len(sp.train.Examples)), len(sp.train.Labels),
+			texts(len(sp.dev.Examples)), texts(len(sp.test.Examples)))
 	}
 	trained, err := cnn.TrainText(ctx, sp.train, sp.dev, o.recipe.recipe(o.split.Seed, o.threads.N), func(p cnn.Progress) {
 		if o.quiet {
@@ -253,9 +253,9 @@ func writeTrainSummary(w io.Writer, s trainSummary) {
 	fmt.Fprintf(w, "model saved: %s (best epoch %d of %d, %.0f training examples/s, %.1f s in all)\n",
 		s.Model, s.BestEpoch, s.Epochs, s.ExamplesPerSecond, s.Seconds)
 	if s.Dev != nil {
-		fmt.Fprintf(w, "dev:  accuracy %.4f  macro-F1 %.4f  ECE %.4f  (%d texts, used to choose the epoch)\n", s.Dev.Accuracy, s.Dev.MacroF1, s.Dev.ECE, s.Dev.N)
+		fmt.Fprintf(w, "dev:  accuracy %.4f  macro-F1 %.4f  ECE %.4f  (%s, used to choose the epoch)\n", s.Dev.Accuracy, s.Dev.MacroF1, s.Dev.ECE, texts(s.Dev.N))
 	}
 	if s.TestFigures != nil {
-		writeFigures(w, fmt.Sprintf("test split, %d texts, used for nothing else", s.TestFigures.CNN.N), *s.TestFigures, s.Baseline)
+		writeFigures(w, fmt.Sprintf("test split, %s, used for nothing else", texts(s.TestFigures.CNN.N)), *s.TestFigures, s.Baseline)
 	}
 }

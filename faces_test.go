@@ -55,7 +55,7 @@ func TestExplainTextShowsTheJSONNumbers(t *testing.T) {
 	}
 	for _, kd := range e.KeptDown {
 		want = append(want, fmt.Sprintf("filter %-4d width %d", kd.Filter, kd.Width),
-			fmt.Sprintf("estimate %+.3f, measured %+.3f (p(%s) falls by %+.3f)", kd.Effect, kd.LogOdds-lo.Value, e.Label, kd.Drop))
+			fmt.Sprintf("estimate %+.3f, measured %+.3f (p(%s) %s)", kd.Effect, kd.LogOdds-lo.Value, e.Label, change(kd.Drop)))
 	}
 	for _, w := range want {
 		if !strings.Contains(out, w) {

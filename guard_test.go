@@ -123,21 +123,8 @@ func checkGuard(t *testing.T, gc guardCommand, out, in string, alias func(*testi
 	if out == "--export" {
 		ext = ".csv"
 	}
-	args := []string{gc.name}
-	var target string
-	for _, opt := range gc.inputs {
-		p := filepath.Join(dir, strings.TrimPrefix(opt, "--")+ext)
-		if opt == "--data" && ext != ".csv" {
-			p += ".csv" // read by its extension
-		}
-		if err := os.WriteFile(p, contents[opt], 0o644); err != nil {
-			t.Fatal(err)
-		}
-		args = append(args, opt, p)
-		if opt == in {
-			target = p
-		}
-	}
+	args, paths := guardArgs(t, gc, dir, ext, contents)
+	target := paths[in]
 	before := sha256.Sum256(contents[in])
 	args = append(append(args, gc.extra...), out, alias(t, dir, target, ext))
 	code, _, stderr := tt(t, args...)
@@ -149,6 +136,123 @@ func checkGuard(t *testing.T, gc guardCommand, out, in string, alias func(*testi
 	after, err := os.ReadFile(target)
 	if err != nil || sha256.Sum256(after) != before {
 		t.Errorf("the input %s changed (%v)", in, err)
+	}
+}
+
+// guardArgs writes gc's input files into dir, named after their options
+// with extension ext, and returns the command line that names them and the
+// path of each.
+func guardArgs(t *testing.T, gc guardCommand, dir, ext string, contents map[string][]byte) (args []string, paths map[string]string) {
+	args, paths = []string{gc.name}, map[string]string{}
+	for _, opt := range gc.inputs {
+		p := filepath.Join(dir, strings.TrimPrefix(opt, "--")+ext)
+		if opt == "--data" && ext != ".csv" {
+			p += ".csv" // read by its extension
+		}
+		if err := os.WriteFile(p, contents[opt], 0o644); err != nil {
+			t.Fatal(err)
+		}
+		args = append(args, opt, p)
+		paths[opt] = p
+	}
+	return args, paths
+}
+
+// TestOutputNotWritable: for every command and every file it writes, an
+// output that is a folder, that lies in a missing folder or under a file is
+// refused with exit 2 before any work, the message naming the path the user
+// gave and what to do, never a temporary file. (export's --out is a folder
+// by design: there the case is an --out inside a missing folder.)
+func TestOutputNotWritable(t *testing.T) {
+	contents := guardInputs(t)
+	for _, gc := range guardCommands {
+		for _, out := range gc.outputs {
+			ext := map[bool]string{true: ".csv", false: ".in"}[out == "--export"]
+			cases := []struct {
+				name string
+				path func(dir string) string
+				want func(dir string) string
+			}{
+				{"a folder", func(dir string) string { return filepath.Join(dir, "folder"+ext) },
+					func(dir string) string {
+						return out + " " + filepath.Join(dir, "folder"+ext) + " is a folder: give a file name"
+					}},
+				{"in a missing folder", func(dir string) string { return filepath.Join(dir, "nodir", "x"+ext) },
+					func(dir string) string {
+						return "the folder " + filepath.Join(dir, "nodir") + " does not exist: create it or choose another " + out
+					}},
+				{"under a file", func(dir string) string { return filepath.Join(dir, "afile", "x"+ext) },
+					func(dir string) string {
+						return filepath.Join(dir, "afile") + " is a file, not a folder: choose another " + out
+					}},
+			}
+			for _, c := range cases {
+				if gc.name == "export" && c.name == "a folder" {
+					continue
+				}
+				t.Run(gc.name+" "+out+" "+c.name, func(t *testing.T) {
+					dir := t.TempDir()
+					os.WriteFile(filepath.Join(dir, "afile"), []byte("keep me\n"), 0o644)
+					os.Mkdir(filepath.Join(dir, "folder"+ext), 0o755)
+					args, _ := guardArgs(t, gc, dir, ext, contents)
+					args = append(append(args, gc.extra...), out, c.path(dir))
+					code, _, stderr := tt(t, args...)
+					noCrash(t, "guard", stderr)
+					if code != 2 || !strings.Contains(stderr, c.want(dir)) || strings.Contains(stderr, ".check") {
+						t.Errorf("%q: exit %d, stderr %q; want exit 2 and %q", args, code, stderr, c.want(dir))
+					}
+				})
+			}
+		}
+	}
+}
+
+// TestMarksAreInputs: the marks file beside an input model holds a person's
+// verdicts, so no output may land on it, and no output but the audit's
+// marks option may be a .marks file; the verdicts are unchanged after.
+func TestMarksAreInputs(t *testing.T) {
+	model := tinyModel(t)
+	dir := t.TempDir()
+	data := demoPart(t, dir, 300)
+	marks := filepath.Join(filepath.Dir(model), "m.marks")
+	verdicts := []byte("artifact\ttkref - <number>\n")
+	if err := os.WriteFile(marks, verdicts, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	link := filepath.Join(dir, "link.csv")
+	os.Symlink(marks, link)
+	other := filepath.Join(dir, "other.marks")
+	cases := []struct {
+		args []string
+		want string
+	}{
+		{[]string{"mask", "--model", model, "--filters", "0", "--out", marks}, "--out " + marks + ": a .marks file holds a person's marks"},
+		{[]string{"train", "--data", data, "--out", other}, "--out " + other + ": a .marks file"},
+		{[]string{"train", "--data", data, "--out", strings.TrimSuffix(other, ".marks") + ".MARKS"}, "a .marks file"},
+		{[]string{"eval", "--model", model, "--test", data, "--export", link}, "is a symbolic link to the marks file of --model " + marks},
+		{[]string{"predict", "--model", model, "--data", data, "--export", link}, "the marks file of --model"},
+		{[]string{"filters", "--model", model, "--data", data, "--export", link}, "the marks file of --model"},
+		{[]string{"audit", "--model", model, "--data", data, "--export", link}, "the marks file"},
+		{[]string{"audit", "--model", model, "--data", data, "--marks", other, "--mark-task", "ferry", "--export", link}, "the marks file of --model"},
+		{[]string{"report", "--model", model, "--data", data, "--out", link}, "marks file"},
+	}
+	for _, c := range cases {
+		code, _, stderr := tt(t, c.args...)
+		noCrash(t, "marks", stderr)
+		if code != 2 || !strings.Contains(stderr, c.want) {
+			t.Errorf("%q: exit %d, stderr %q; want exit 2 and %q", c.args, code, stderr, c.want)
+		}
+	}
+	if b, _ := os.ReadFile(marks); string(b) != string(verdicts) {
+		t.Errorf("the marks file changed: %q", b)
+	}
+	if _, err := os.Stat(other); err == nil {
+		t.Error("an output was written as a .marks file")
+	}
+	// The audit's own marks option still writes the file beside the model.
+	code, _, stderr := tt(t, "audit", "--model", model, "--mark-task", "ferry", "--quiet")
+	if b, _ := os.ReadFile(marks); code != 0 || !strings.Contains(string(b), "task\tferry") {
+		t.Errorf("audit --mark-task: exit %d (%s); the marks file holds %q", code, stderr, b)
 	}
 }
 
@@ -178,7 +282,7 @@ func TestOutputGuardFoldersAndSidecars(t *testing.T) {
 		{[]string{"eval", "--model", model, "--test", folder, "--export", filepath.Join(folder, "x.csv")}, "is inside the --test folder"},
 		{[]string{"audit", "--model", model, "--data", data, "--test", stability, "--seeds", "2", "--export", filepath.Join(dir, "sus.csv")}, "--export's stability table " + stability + " is --test"},
 		{[]string{"audit", "--model", model, "--data", data, "--export", filepath.Join(dir, "a.csv"), "--masked-out", filepath.Join(dir, "x", "..", "a.csv")}, "are one file"},
-		{[]string{"audit", "--model", model, "--data", data, "--mark-task", "ferry", "--masked-out", marks}, "are one file"},
+		{[]string{"audit", "--model", model, "--data", data, "--mark-task", "ferry", "--masked-out", marks}, "--masked-out " + marks + ": a .marks file holds a person's marks"},
 		{[]string{"audit", "--model", model, "--data", data, "--mark-task", "ferry", "--marks", data}, "the marks file (--marks) " + data + " is --data"},
 	}
 	for _, c := range cases {

@@ -189,11 +189,7 @@ func execute(ctx context.Context, c *command, args []string, env *runEnv) error 
 	if err := o.check(fs, env); err != nil {
 		return err
 	}
-	outs, ins := o.files()
-	if err := outguard.Check(outs, ins); err != nil {
-		if errors.Is(err, outguard.ErrOntoInput) {
-			return usageError{err.Error()}
-		}
+	if err := guardFiles(o.files()); err != nil {
 		return err
 	}
 	return c.Run(ctx, env, o)

@@ -343,8 +343,9 @@ func TestDamagedModelFiles(t *testing.T) {
 }
 
 // TestAtomicWriteFailures: an output path that cannot be written is
-// refused with a message naming it, before any training, and leaves no
-// partial or temporary file.
+// refused as a usage error (exit 2) with a message naming it and the fix,
+// never a temporary file, before any training, and leaves no partial or
+// temporary file.
 func TestAtomicWriteFailures(t *testing.T) {
 	model := tinyModel(t)
 	data := filepath.Join("testdata", "bad", "two-labels.csv")
@@ -357,15 +358,15 @@ func TestAtomicWriteFailures(t *testing.T) {
 	regular := filepath.Join(dir, "file")
 	os.WriteFile(regular, []byte("x"), 0o644)
 	outs := []struct{ name, out, want string }{
-		{"a folder", isDir, "is a folder"},
-		{"an empty folder", emptyDir, "is a folder"},
-		{"in a missing folder", filepath.Join(dir, "no", "such", "m.tt"), "no such file or directory"},
-		{"under a regular file", filepath.Join(regular, "m.tt"), "not a directory"},
+		{"a folder", isDir, "is a folder: give a file name"},
+		{"an empty folder", emptyDir, "is a folder: give a file name"},
+		{"in a missing folder", filepath.Join(dir, "no", "such", "m.tt"), "the folder " + filepath.Join(dir, "no", "such") + " does not exist: create it or choose another --out"},
+		{"under a regular file", filepath.Join(regular, "m.tt"), regular + " is a file, not a folder: choose another --out"},
 	}
 	if os.Geteuid() != 0 {
 		ro := filepath.Join(dir, "ro")
 		os.Mkdir(ro, 0o555)
-		outs = append(outs, struct{ name, out, want string }{"in a read-only folder", filepath.Join(ro, "m.tt"), "permission denied"})
+		outs = append(outs, struct{ name, out, want string }{"in a read-only folder", filepath.Join(ro, "m.tt"), "(permission denied): make the folder writable or choose another --out"})
 	} else {
 		t.Log("running as root: the read-only folder case is not checked (root may write there)")
 	}
@@ -377,8 +378,8 @@ func TestAtomicWriteFailures(t *testing.T) {
 		} {
 			code, _, stderr := tt(t, args...)
 			noCrash(t, o.name, stderr)
-			if code != 1 || !strings.Contains(stderr, o.out) || !strings.Contains(stderr, o.want) {
-				t.Errorf("%s --out %s: exit %d, stderr %q; want exit 1 naming the path and %q", args[0], o.name, code, stderr, o.want)
+			if code != 2 || !strings.Contains(stderr, o.out) || !strings.Contains(stderr, o.want) || strings.Contains(stderr, ".check") {
+				t.Errorf("%s --out %s: exit %d, stderr %q; want exit 2 naming the path and %q", args[0], o.name, code, stderr, o.want)
 			}
 			if args[0] == "train" && strings.Contains(stderr, "training on") {
 				t.Errorf("train --out %s: trained before finding that the output cannot be written", o.name)

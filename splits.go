@@ -143,19 +143,19 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 		if es.test, err = r.read(test, false, warn, quiet); err != nil {
 			return nil, err
 		}
-		es.note = fmt.Sprintf("evaluating on the test file %s (%d texts)", test, len(es.test.Examples))
+		es.note = fmt.Sprintf("evaluating on the test file %s (%s)", test, texts(len(es.test.Examples)))
 	case same && rec.TestFile != "":
 		if es.test, err = r.read(rec.TestFile, false, warn, quiet); err != nil {
 			return nil, fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
 		}
-		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%d texts)", rec.TestFile, len(es.test.Examples))
+		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%s)", rec.TestFile, texts(len(es.test.Examples)))
 	case same:
-		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%d texts), never used for training or to choose the epoch",
-			data, 100*rec.TestFrac, rec.Seed, len(es.test.Examples))
+		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%s), never used for training or to choose the epoch",
+			data, 100*rec.TestFrac, rec.Seed, texts(len(es.test.Examples)))
 	case rec == nil:
 		es.test, es.name = all, "all"
-		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %d texts of %s, which may include texts the model was trained on",
-			len(all.Examples), data)
+		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %s of %s, which may include texts the model was trained on",
+			texts(len(all.Examples)), data)
 	default:
 		es.test, es.name = all, "all"
 		es.note = fmt.Sprintf("%s is not the data the model was trained on (%s): evaluating on all %d of its texts, which may include texts the model was trained on",
@@ -165,6 +165,23 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 		es.train = all
 	}
 	return es, nil
+}
+
+// trainingSplit is the split model m was trained on out of all (the
+// labeled data at path), when all is the data it was trained on (the same
+// examples: cnn.SplitRecord.Fingerprint); else all of it. The note says
+// which, for the user.
+func trainingSplit(m *cnn.Model, all *corpus.Dataset, path string) (*corpus.Dataset, string) {
+	rec := m.Info.Splits
+	switch {
+	case rec == nil:
+		return all, fmt.Sprintf("the model file does not record how its splits were made: profiling all %s of %s", texts(len(all.Examples)), path)
+	case rec.Examples != len(all.Examples) || rec.Fingerprint != all.Fingerprint():
+		return all, fmt.Sprintf("%s is not the data the model was trained on (%s): profiling all %s of it", path, rec.Data, texts(len(all.Examples)))
+	}
+	train, _, _ := all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
+	return train, fmt.Sprintf("profiling the training split of %s, as the report does: %d of its %s, the dev and test splits left out",
+		path, len(train.Examples), texts(len(all.Examples)))
 }
 
 // say prints a note on w unless quiet.

@@ -62,8 +62,8 @@ func (o *trainOptions) checkVocabulary(sp *splits) error {
 		}
 	}
 	if words == 0 && !o.recipe.Subword {
-		return fmt.Errorf("the vocabulary is empty: no word occurs %d times in the training split (the most frequent occurs %d times): lower --min-count",
-			o.recipe.MinCount, top)
+		return fmt.Errorf("the vocabulary is empty: no word occurs %s in the training split (the most frequent occurs %s): lower --min-count",
+			plural(o.recipe.MinCount, "time", "times"), plural(top, "time", "times"))
 	}
 	vocab := 2 + words
 	if o.recipe.Subword {
@@ -93,7 +93,7 @@ func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet boo
 	if quiet {
 		return &out, nil
 	}
-	fmt.Fprintf(w, "mask-tokens: %d matches of the patterns in %s taken out of the training text\n", total, file)
+	fmt.Fprintf(w, "mask-tokens: %s of the patterns in %s taken out of the training text\n", plural(total, "match", "matches"), file)
 	for _, p := range cm.Patterns() {
 		if strings.HasPrefix(p, "/") || !strings.ContainsAny(p, `\[]{}()*+?|^$`) {
 			continue

@@ -22,7 +22,7 @@ const (
 	SignalMarkup  = "markup"  // markup, entities, encodings, bracketed tags or a separator run
 	SignalCasing  = "casing"  // always the same unusual casing
 	SignalPurity  = "purity"  // nearly always one label at high support
-	SignalShift   = "shift"   // its label share differs in the held-out split
+	SignalShift   = "shift"   // its label share differs in the test split
 )
 
 // signalWeights are the weights w of ArtifactFormula: how strongly each

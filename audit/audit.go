@@ -320,7 +320,7 @@ func Run(ctx context.Context, m *cnn.Model, train, heldout Data, opt Options, pr
 	if err := train.check(m, "training"); err != nil {
 		return nil, err
 	}
-	if err := heldout.check(m, "held-out"); err != nil {
+	if err := heldout.check(m, "test"); err != nil {
 		return nil, err
 	}
 	if train.Len() < 2*opt.MinSupport {
@@ -379,13 +379,13 @@ func (a *auditor) halves(heldout Data) error {
 	slices.Sort(sel)
 	slices.Sort(conf)
 	if len(sel) < a.opt.MinHalf || len(conf) < a.opt.MinHalf {
-		fix := "give a larger file of held-out texts (--test FILE)"
+		fix := "give a larger test file (--test FILE)"
 		if a.opt.HeldoutShare {
 			fix = "hold out a larger share of the data as the test split (train the model again with a larger --test-frac), " +
-				"or give a larger file of held-out texts (--test FILE)"
+				"or give a larger test file (--test FILE)"
 		}
 		return fmt.Errorf("audit: the %s has %d texts: too few for the tests, which need %d in each of its two halves; %s: %w",
-			heldout.name("held-out"), heldout.Len(), a.opt.MinHalf, fix, ErrInput)
+			heldout.name("test"), heldout.Len(), a.opt.MinHalf, fix, ErrInput)
 	}
 	a.sel, a.conf = heldout.subset(sel), heldout.subset(conf)
 	a.selIdx, a.confIdx = sel, conf
@@ -657,13 +657,13 @@ func (a *auditor) shift(c *Candidate) {
 		s.Present = s.P < 0.01 && s.HeldoutShare < s.TrainShare
 	}
 	c.Shift = s
-	v, says := 0.0, "its label share is the same in the held-out texts"
+	v, says := 0.0, "its label share is the same in the test texts"
 	switch {
 	case n == 0:
-		says = "it does not occur in the held-out texts"
+		says = "it does not occur in the test texts"
 	case s.Present:
 		v = min(1, (s.TrainShare-s.HeldoutShare)/max(1e-9, s.TrainShare-1/float64(a.m.Config.Classes)))
-		says = fmt.Sprintf("only %s of the held-out texts holding it are %s, against %s in training (Fisher p = %s)",
+		says = fmt.Sprintf("only %s of the test texts holding it are %s, against %s in training (Fisher p = %s)",
 			pct(s.HeldoutShare), c.Label, pct(s.TrainShare), pval(s.P))
 	}
 	c.Signals = append(c.Signals, Signal{Name: SignalShift, Value: max(0, v), Weight: signalWeights[SignalShift], Says: says})

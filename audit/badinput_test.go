@@ -47,13 +47,13 @@ func TestBadInput(t *testing.T) {
 	// they come from, a file of their own or a share of the data.
 	ten := held.subset([]int{0, 1, 2, 3, 4, 5, 6, 7, 8, 9})
 	_, err := Run(ctx, m, train, ten, Options{}, nil)
-	expect("ten held-out texts", err, "too few for the tests, which need 30 in each of its two halves; give a larger file of held-out texts (--test FILE)")
+	expect("ten held-out texts", err, "too few for the tests, which need 30 in each of its two halves; give a larger test file (--test FILE)")
 	if err != nil && strings.Contains(err.Error(), "--test-frac") {
 		t.Errorf("a held-out file too small: %v, which speaks of a share", err)
 	}
 	_, err = Run(ctx, m, train, ten, Options{HeldoutShare: true}, nil)
 	expect("ten held-out texts held out of the data", err, "hold out a larger share of the data as the test split "+
-		"(train the model again with a larger --test-frac), or give a larger file of held-out texts (--test FILE)")
+		"(train the model again with a larger --test-frac), or give a larger test file (--test FILE)")
 
 	// Too few training texts for a test of association.
 	_, err = Run(ctx, m, train.subset([]int{0, 1, 2}), held, Options{}, nil)
@@ -90,7 +90,7 @@ func TestBadInput(t *testing.T) {
 	mk = NewMarks()
 	_ = mk.Set([]string{"kioskmail"}, MarkArtifact)
 	_, err = Run(ctx, m, train, data(t, m, strip), Options{Marks: mk}, nil)
-	expect("a marked cue absent from the held-out split", err, "never occurs in the held-out split")
+	expect("a marked cue absent from the held-out split", err, "never occurs in the test split")
 
 	// A cancelled context stops the audit with the context's error.
 	cctx, cancel := context.WithCancel(ctx)

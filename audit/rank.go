@@ -17,8 +17,8 @@ func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate
 	eligible := func(c *Candidate) bool { return len(texts(c.selOcc)) >= minCueTexts }
 	for _, c := range cands {
 		if c.Mark != "" && len(c.selOcc)+len(c.confOcc) == 0 {
-			return nil, fmt.Errorf("audit: the marked cue %q never occurs in the %s: its reliance cannot be measured there; give a held-out split that holds it, or remove its mark: %w",
-				c.Text, a.sel.name("held-out"), ErrInput)
+			return nil, fmt.Errorf("audit: the marked cue %q never occurs in the %s: its reliance cannot be measured there; give a test split that holds it, or remove its mark: %w",
+				c.Text, a.sel.name("test"), ErrInput)
 		}
 	}
 	chosen := map[*Candidate]bool{}

@@ -3,6 +3,7 @@ package audit
 import (
 	"context"
 	"fmt"
+	"slices"
 
 	"telltale/cnn"
 	"telltale/corpus"
@@ -43,10 +44,22 @@ type ModelPair struct {
 // recipe r (cnn.TrainText; dev, which may be nil, is masked the same way
 // and used for early stopping) and compares it with m on heldout and on its
 // counterfactual. Nothing is written. Progress may be nil.
+//
+// When m carries a linear baseline and r asks for none (a recipe rebuilt
+// from a model file, whose record keeps the baseline's configuration in the
+// baseline itself), the retrained model gets one too, with m's baseline
+// configuration, fitted on the same masked training text: so it is shown
+// beside a baseline wherever m is.
 func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, heldout *corpus.Dataset, r cnn.Recipe,
 	progress func(cnn.Progress)) (*Retrained, error) {
 	if len(patterns) == 0 {
 		return nil, fmt.Errorf("audit: no cue to retrain without: the audit acted on none, and no cue is marked as artifact: %w", ErrInput)
+	}
+	if r.Baseline == nil && m.Baseline != nil {
+		cfg := m.Baseline.Config
+		cfg.Cs = slices.Clone(cfg.Cs)
+		cfg.Solver.Threads = 0 // the recipe's threads
+		r.Baseline = &cfg
 	}
 	cm, err := corpus.MaskTokens(patterns)
 	if err != nil {

@@ -154,7 +154,7 @@ func (r *Result) writeStory(w io.Writer) {
 		}
 	}
 	if len(acted) == 0 {
-		p("No cue that looks like how the data was collected changes this model's predictions measurably on held-out\n")
+		p("No cue that looks like how the data was collected changes this model's predictions measurably on test\n")
 		p("texts that took no part in choosing it: there is nothing to act on.\n")
 	} else {
 		p("The model depends on %s that look%s like how the data was collected rather than like the task:\n",
@@ -166,23 +166,23 @@ func (r *Result) writeStory(w io.Writer) {
 			if c.Position != "" {
 				at = "at the " + c.Position + " of"
 			}
-			p("\n  %d. %s, %s %s of the held-out texts (and of %d training texts, %s of them %s).\n",
+			p("\n  %d. %s, %s %s of the test texts (and of %d training texts, %s of them %s).\n",
 				n+1, c.name(), at, fmtPct(share), c.Association.Texts, fmtPct(c.Association.Share), c.Label)
 			p("     It looks like a collection artifact because %s.\n", c.why())
 			p("     Replacing it by neutral words changes %s of the predictions on the texts that hold it, against %s\n",
 				interval(cr.FlipRate), interval(cr.ControlFlipRate))
-			p("     when the same words are put elsewhere; it decides %s of all held-out predictions.\n", interval(cr.Decided))
+			p("     when the same words are put elsewhere; it decides %s of all predictions on the test texts.\n", interval(cr.Decided))
 			if cf := cr.Conflict; cf != nil && cf.Texts >= 5 {
 				p("     On the %d of those texts whose label is not %s, accuracy goes from %.2f to %.2f without it.\n",
 					cf.Texts, c.Label, cf.Accuracy, cf.AccuracyReplaced)
 			}
 			if s := c.Shift; s != nil && s.Present {
-				p("     The held-out texts confirm it is not the task: there %s of the texts holding it are %s, against %s in training.\n",
+				p("     The test texts confirm it is not the task: there %s of the texts holding it are %s, against %s in training.\n",
 					fmtPct(s.HeldoutShare), c.Label, fmtPct(s.TrainShare))
 			}
 		}
 		if cf := r.Action.Counterfactual; cf != nil {
-			p("\nWithout %s the model scores %s on the held-out texts, against %s as they are;\n",
+			p("\nWithout %s the model scores %s on the test texts, against %s as they are;\n",
 				map[bool]string{true: "it", false: "them"}[len(acted) == 1], accuracy(cf.AccuracyWithout), accuracy(cf.Accuracy))
 			p("on the %d texts that hold %s: %s, against %s (%d predictions fixed, %d broken, p = %s).\n",
 				cf.CueTexts, map[bool]string{true: "it", false: "one"}[len(acted) == 1], accuracy(cf.CueAccuracyWithout),
@@ -198,7 +198,7 @@ func (r *Result) writeStory(w io.Writer) {
 // whether a filter mask helps.
 func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 	it := map[bool]string{true: "it", false: "them"}[len(acted) == 1]
-	p("\nWhat to do: retrain without %s and compare both models on held-out texts with and without %s.\n", it, it)
+	p("\nWhat to do: retrain without %s and compare both models on the test texts with and without %s.\n", it, it)
 	if cmds := r.Action.Commands; len(cmds) > 0 {
 		p("These commands write the patterns that take %s out of the text to a file and train the model's recipe again\n", it)
 		p("on its own splits without %s:\n", it)
@@ -215,11 +215,11 @@ func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 	p("%s\n", markAdvice(acted))
 	if t := r.Action.Tried; t != nil {
 		if r.Action.Mask != nil {
-			p("Masking filters %s helps on held-out texts that took no part in choosing them: accuracy %.3f → %.3f\n",
+			p("Masking filters %s helps on test texts that took no part in choosing them: accuracy %.3f → %.3f\n",
 				ints(t.Filters), t.Accuracy, t.AccuracyMasked)
 			p("(%d fixed, %d broken, one-sided exact McNemar p = %s).\n", t.Fixed, t.Broken, pval(t.P))
 		} else {
-			p("Masking the filters that read %s does not help on held-out texts that took no part in choosing them\n",
+			p("Masking the filters that read %s does not help on test texts that took no part in choosing them\n",
 				map[bool]string{true: "it", false: "them"}[len(acted) == 1])
 			p("(accuracy %.3f → %.3f, p = %s): no filter mask is suggested.\n", t.Accuracy, t.AccuracyMasked, pval(t.P))
 		}
@@ -297,7 +297,7 @@ func ints(xs []int) string {
 func (r *Result) WriteText(w io.Writer) error {
 	bw := bufio.NewWriter(w)
 	p := func(format string, args ...any) { fmt.Fprintf(bw, format, args...) }
-	p("Cue audit: %d training texts; %d held-out texts, halved into %d for choosing and %d for confirming.\n\n",
+	p("Cue audit: %d training texts; %d test texts, halved into %d for choosing and %d for confirming.\n\n",
 		r.TrainTexts, r.HeldoutTexts, r.SelectionTexts, r.ConfirmationTexts)
 	r.writeStory(bw)
 	p("\nCues that look like how the data was collected (%d), by reliance × artifact-likeness:\n", len(r.Ranked))
@@ -337,7 +337,7 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	as := c.Association
 	p("   association: in %d training texts, %s %s; p = %s, corrected %s\n", as.Texts, fmtPct(as.Share), c.Label, pval(as.P), pval(as.Adjusted))
 	if cr := c.Confirmed; cr != nil {
-		p("   reliance: replacing it changes %s of %d held-out texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
+		p("   reliance: replacing it changes %s of %d test texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
 			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), interval(cr.NetFlipRate), pval(cr.FlipP))
 		p("     p(%s) drops %.3f (%.3f–%.3f), p(prediction) %.3f (%.3f–%.3f) (sign test p = %s)\n", c.Label,
 			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, pval(cr.P))

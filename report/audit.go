@@ -34,9 +34,9 @@ type actionView struct {
 }
 
 func auditLayout(r *audit.Result, priors []float64, modelPath string) *auditView {
-	av := &auditView{Halves: fmt.Sprintf("Association is tested on the %s texts of the training split; reliance is measured on the %s held-out texts, "+
+	av := &auditView{Halves: fmt.Sprintf("Association is tested on the %s of the training split; reliance is measured on the %s of the test split, "+
 		"halved at random into %s that choose the cues and %s that confirm them: every figure below comes from the confirming half unless it says otherwise.",
-		count(r.TrainTexts), count(r.HeldoutTexts), count(r.SelectionTexts), count(r.ConfirmationTexts))}
+		plural(r.TrainTexts, "text"), plural(r.HeldoutTexts, "text"), count(r.SelectionTexts), count(r.ConfirmationTexts))}
 	for _, para := range strings.Split(r.Story(), "\n\n") {
 		av.Story = append(av.Story, strings.TrimRight(para, "\n"))
 	}
@@ -126,7 +126,7 @@ func AuditMethod(r *audit.Result) []string {
 			"Associated words grow into the longest phrase they keep in 80%% of their occurrences (or, failing that, into the form they are written in, with no space, in most of them), and a bracket into the "+
 			"bracketed groups it opens or closes; a cue in at least %d training texts passes at p ≤ %s.",
 			AssociationTestName(r.Test), count(r.Tests), CorrectionName(r.Correction), r.Alpha, r.MinSupport, strings.TrimPrefix(pvalue(r.Cutoff), "= ")),
-		"Reliance: each held-out text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
+		"Reliance: each test text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
 			"kept with the same words put elsewhere; intervals are 95% bootstrap intervals over texts, sign tests are exact and one-sided. " +
 			"A cue is acted on when it is artifact-like, relied on in the choosing half and confirmed in the confirming half (Benjamini–Hochberg over the cues put to the test).",
 		"Artifact-likeness: 1 − Π (1 − weight × value) over the signals shown, each value in [0, 1]; " + num(audit.ArtifactThreshold) +

@@ -38,7 +38,7 @@ var verdictWords = map[string]string{
 	audit.VerdictNotRelied:   "not measurably relied on",
 	audit.VerdictTask:        "reads like the task",
 	audit.VerdictOther:       "associated, not measurably relied on",
-	audit.VerdictUnmeasured:  "too rare in the held-out texts to measure",
+	audit.VerdictUnmeasured:  "too rare in the test texts to measure",
 }
 
 // AssociationTestName names an audit's test of association in plain words.

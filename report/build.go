@@ -3,9 +3,11 @@ package report
 import (
 	"cmp"
 	"context"
+	"errors"
 	"fmt"
 	"path/filepath"
 	"slices"
+	"strings"
 	"time"
 
 	"telltale/audit"
@@ -72,7 +74,7 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		return Input{}, fmt.Errorf("report: no training examples: the report profiles filters on the split the model was trained on")
 	}
 	if heldout == nil || len(heldout.Examples) == 0 {
-		return Input{}, fmt.Errorf("report: no held-out examples: give a split the model was not trained on (e.g. --dev FILE)")
+		return Input{}, fmt.Errorf("report: no test examples: give a split the model was not trained on (e.g. --test FILE)")
 	}
 	if len(m.Vocab) != m.Config.VocabSize {
 		return Input{}, fmt.Errorf("report: the model holds %d vocabulary words for %d embedding rows: it cannot read text", len(m.Vocab), m.Config.VocabSize)
@@ -105,7 +107,7 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	}
 	ho, err := audit.NewData(m, heldout, opt.Threads)
 	if err != nil {
-		return Input{}, fmt.Errorf("report: held-out split: %w", err)
+		return Input{}, fmt.Errorf("report: test split: %w", err)
 	}
 
 	progress("evaluate", 0, len(ho.IDs))
@@ -127,7 +129,7 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	in.Reliability = cnn.Reliability(conf, correct, cnn.DefaultBins)
 	if m.Baseline != nil {
 		if in.Baseline, err = cnn.CompareBaseline(m, heldout, opt.Threads); err != nil {
-			return Input{}, fmt.Errorf("report: the linear baseline on the held-out split: %w", err)
+			return Input{}, fmt.Errorf("report: the linear baseline on the test split: %w", err)
 		}
 	}
 	progress("evaluate", len(ho.IDs), len(ho.IDs))
@@ -144,20 +146,46 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	in.Profiles = prof
 
 	if !opt.SkipAudit {
-		aopt := opt.Audit
-		aopt.ModelFile = cmp.Or(aopt.ModelFile, opt.ModelPath)
-		aopt.Workers = cmp.Or(aopt.Workers, opt.Threads)
-		aud, err := audit.Run(ctx, m, tr, ho, aopt, func(stage string, done, total int) { progress("audit "+stage, done, total) })
-		if err != nil {
-			return Input{}, fmt.Errorf("report: cue audit: %w", err)
+		if in.Audit, in.AuditNote, err = runAudit(ctx, m, tr, ho, opt, progress); err != nil {
+			return Input{}, err
 		}
-		in.Audit = aud
 	}
 
 	if err := explainExamples(ctx, &in, heldout, ho, pred, conf, opt.Examples, progress); err != nil {
 		return Input{}, err
 	}
 	return in, nil
+}
+
+// auditMinHalf is the fewest test texts each half of the cue audit's test
+// split must have (audit.Options.MinHalf), unless the options set it.
+const auditMinHalf = 30
+
+// runAudit runs the cue audit for the report. On a test split too small for
+// its tests, or data the audit cannot test for another reason of size
+// (audit.ErrInput), the report is still made: the audit is left out and
+// the note says why and what to do.
+func runAudit(ctx context.Context, m *cnn.Model, tr, ho audit.Data, opt Options, progress Progress) (*audit.Result, string, error) {
+	aopt := opt.Audit
+	aopt.ModelFile = cmp.Or(aopt.ModelFile, opt.ModelPath)
+	aopt.Workers = cmp.Or(aopt.Workers, opt.Threads)
+	aopt.MinHalf = cmp.Or(aopt.MinHalf, auditMinHalf)
+	fix := "give a larger test file"
+	if aopt.HeldoutShare {
+		fix = "train the model again with a larger share of the data as its test split, or give a larger test file"
+	}
+	if ho.Len() < 2*aopt.MinHalf {
+		return nil, fmt.Sprintf("The cue audit needs at least %s test texts (%d in each of its two halves); this split has %s: %s.",
+			count(2*aopt.MinHalf), aopt.MinHalf, count(ho.Len()), fix), nil
+	}
+	aud, err := audit.Run(ctx, m, tr, ho, aopt, func(stage string, done, total int) { progress("audit "+stage, done, total) })
+	switch {
+	case errors.Is(err, audit.ErrInput):
+		return nil, fmt.Sprintf("The cue audit could not run on this data: %s.", strings.TrimPrefix(err.Error(), "audit: ")), nil
+	case err != nil:
+		return nil, "", fmt.Errorf("report: cue audit: %w", err)
+	}
+	return aud, "", nil
 }
 
 // explainExamples explains the chosen held-out texts of ho (heldout as the

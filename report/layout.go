@@ -20,6 +20,7 @@ type page struct {
 	Metrics                     *metricsView
 	Filters                     *filtersView
 	Audit                       *auditView
+	AuditNote                   string
 	Examples                    []exampleView
 	ExamplesNote                string
 	Notes                       []string
@@ -97,7 +98,7 @@ type legend struct {
 
 func layout(in Input) (*page, error) {
 	m := in.Model
-	p := &page{Title: in.Title, ModelPath: in.ModelPath, Notes: in.Notes, Labels: m.Labels}
+	p := &page{Title: in.Title, ModelPath: in.ModelPath, Notes: in.Notes, Labels: m.Labels, AuditNote: in.AuditNote}
 	if p.Title == "" {
 		p.Title = "telltale report"
 	}
@@ -115,7 +116,7 @@ func layout(in Input) (*page, error) {
 		}
 		p.Metrics = mv
 		p.Glance = append(p.Glance,
-			kv{"Held-out split", fmt.Sprintf("%s, %s texts", mv.Split, mv.N)},
+			kv{"Evaluated on", fmt.Sprintf("%s split, %s texts", mv.Split, mv.N)},
 			kv{"Accuracy", mv.Accuracy}, kv{"Macro-F1", mv.MacroF1}, kv{"ECE", mv.ECE})
 		if len(mv.Figures) > 1 {
 			p.Glance = append(p.Glance, kv{"Linear baseline accuracy", mv.Figures[1].Accuracy})
@@ -212,7 +213,7 @@ func maxLen(n int) string {
 	if n <= 0 {
 		return "whole text"
 	}
-	return fmt.Sprintf("%d tokens", n)
+	return plural(n, "token")
 }
 
 func yesNo(b bool) string {
@@ -297,14 +298,14 @@ func metrics(in Input) (*metricsView, error) {
 	}
 	split := in.HeldOut
 	if split == "" {
-		split = "held-out"
+		split = "test"
 	}
 	note := in.HeldOutNote
 	if note == "" {
 		note = "none of them used for training"
 	}
 	if b := in.Baseline; b != nil && (b.CNN.N != mt.N || len(b.Baseline.Labels) != k || b.CNN.Accuracy != mt.Accuracy) {
-		return nil, fmt.Errorf("report: the baseline comparison is of %d texts (CNN accuracy %g), the metrics of %d (accuracy %g): give both of the same held-out split",
+		return nil, fmt.Errorf("report: the baseline comparison is of %d texts (CNN accuracy %g), the metrics of %d (accuracy %g): give both of the same test split",
 			b.CNN.N, b.CNN.Accuracy, mt.N, mt.Accuracy)
 	}
 	fig := cnn.FiguresOf(*mt, in.Baseline)

@@ -70,8 +70,10 @@ type Input struct {
 	FiltersPerClass int
 
 	// Audit is the cue audit of the model (association on the training
-	// split, reliance on the held-out split); nil says it was not run.
-	Audit *audit.Result
+	// split, reliance on the test split); nil says it was not run, and
+	// AuditNote, when set, says why and what to do.
+	Audit     *audit.Result
+	AuditNote string
 
 	Examples []Example
 	// ExamplesNote is shown below the examples (for example, why a kind

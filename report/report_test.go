@@ -50,7 +50,7 @@ func TestDemoSections(t *testing.T) {
 		"Accuracy</span><span class=\"v\">" + head.Accuracy.String() + "<",
 		"Macro-F1</span><span class=\"v\">" + head.MacroF1.String() + "<",
 		"ECE</span><span class=\"v\">" + num(mt.ECE) + "<",
-		"test, 300 texts",
+		"Evaluated on", "test split, 300 texts",
 		"expected calibration error " + num(mt.ECE),
 		// the training record
 		"<th>Filter widths</th><td>2, 3</td>",
@@ -202,7 +202,7 @@ func TestAbsentPieces(t *testing.T) {
 	out := render(t, r)
 	for _, w := range []string{
 		"The dataset summary was not computed for this report.",
-		"The model was not evaluated on a held-out split for this report.",
+		"The model was not evaluated on a test split for this report.",
 		"Filter profiles were not computed for this report.",
 		"The cue audit (association, reliance and artifact-likeness of the cues that predict a label) was not run for this report",
 		"No examples were explained for this report.",
@@ -226,8 +226,39 @@ func TestNewNeedsModel(t *testing.T) {
 
 func TestGatherNeedsHeldOut(t *testing.T) {
 	d := loadDemo(t)
-	if _, err := Gather(context.Background(), d.model, d.train, nil, Options{}, nil); err == nil || !strings.Contains(err.Error(), "--dev") {
-		t.Fatalf("Gather without held-out split: %v, want an error naming --dev", err)
+	if _, err := Gather(context.Background(), d.model, d.train, nil, Options{}, nil); err == nil || !strings.Contains(err.Error(), "--test FILE") {
+		t.Fatalf("Gather without a test split: %v, want an error naming --test", err)
+	}
+}
+
+// TestAuditLeftOutOnSmallTestSplit: on a test split too small for the cue
+// audit's two halves the report is still made, with every other section,
+// and the audit's section says why it is missing and how many texts it
+// needs (an identity of the audit's MinHalf, 30 a half).
+func TestAuditLeftOutOnSmallTestSplit(t *testing.T) {
+	d := loadDemo(t)
+	in, err := Gather(context.Background(), d.model, d.train, keep(d.test, 41), Options{Threads: 2}, nil)
+	if err != nil {
+		t.Fatalf("Gather on 41 test texts: %v", err)
+	}
+	want := "The cue audit needs at least 60 test texts (30 in each of its two halves); this split has 41: give a larger test file."
+	if in.Audit != nil || in.AuditNote != want {
+		t.Errorf("audit %v, note %q; want none and %q", in.Audit != nil, in.AuditNote, want)
+	}
+	if in.Metrics == nil || in.Metrics.N != 41 || in.Profiles == nil || len(in.Examples) == 0 {
+		t.Error("the other sections are missing")
+	}
+	r, err := New(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if out := render(t, r); !strings.Contains(out, "was not run for this report, so no cue is named here. "+want) {
+		t.Error("the audit section does not say why it is missing")
+	}
+	// With a share of the data as the test split, the fix is a larger share.
+	in, err = Gather(context.Background(), d.model, d.train, keep(d.test, 41), Options{Threads: 2, Audit: auditpkg.Options{HeldoutShare: true}}, nil)
+	if err != nil || !strings.Contains(in.AuditNote, "a larger share of the data as its test split") {
+		t.Errorf("note %q (%v)", in.AuditNote, err)
 	}
 }
 

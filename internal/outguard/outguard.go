@@ -3,8 +3,10 @@ package outguard
 import (
 	"errors"
 	"fmt"
+	"io/fs"
 	"os"
 	"path/filepath"
+	"strings"
 )
 
 // File is one path a run reads or writes, with the name the user gave it
@@ -153,16 +155,50 @@ func (r resolved) inside(dir os.FileInfo) bool {
 
 // writable returns the error for an output that cannot be written: a
 // folder, or a path whose folder is missing or refuses a new file (found by
-// creating and removing a probe file there).
+// creating and removing a probe file there). The message names the path
+// the user gave and the option to change, never the probe.
 func writable(f File) error {
 	if st, err := os.Stat(f.Path); err == nil && st.IsDir() {
-		return fail(ErrNotWritable, "%s %s is a folder: give a file name inside it", f.Name, f.Path)
+		return fail(ErrNotWritable, "%s %s is a folder: give a file name", f.Name, f.Path)
 	}
-	probe, err := os.CreateTemp(filepath.Dir(f.Path), "."+filepath.Base(f.Path)+".check*")
+	dir := filepath.Dir(f.Path)
+	opt := option(f.Name)
+	switch st, err := os.Stat(dir); {
+	case errors.Is(err, fs.ErrNotExist):
+		return fail(ErrNotWritable, "%s %s: the folder %s does not exist: create it or choose another %s", f.Name, f.Path, dir, opt)
+	case err == nil && !st.IsDir():
+		return fail(ErrNotWritable, "%s %s: %s is a file, not a folder: choose another %s", f.Name, f.Path, dir, opt)
+	}
+	probe, err := os.CreateTemp(dir, "."+filepath.Base(f.Path)+".check*")
 	if err != nil {
-		return fail(ErrNotWritable, "%s %s cannot be written (%v): check that its folder exists and is writable", f.Name, f.Path, err)
+		return fail(ErrNotWritable, "%s %s: a file cannot be made in the folder %s (%s): make the folder writable or choose another %s",
+			f.Name, f.Path, dir, reason(err), opt)
 	}
 	name := probe.Name()
 	probe.Close()
 	return os.Remove(name)
+}
+
+// option is the option in a file's name ("--export" of "--export's
+// stability table"), or the name itself when it holds none.
+func option(name string) string {
+	i := strings.Index(name, "--")
+	if i < 0 {
+		return name
+	}
+	end := i + 2
+	for end < len(name) && (name[end] == '-' || name[end] >= 'a' && name[end] <= 'z' || name[end] >= '0' && name[end] <= '9') {
+		end++
+	}
+	return name[i:end]
+}
+
+// reason is err without the path it names (a probe file's name means
+// nothing to the user).
+func reason(err error) string {
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		return pe.Err.Error()
+	}
+	return err.Error()
 }

@@ -50,9 +50,12 @@ func TestCheck(t *testing.T) {
 		{"a missing input", []File{{"--out", filepath.Join(dir, "missing.csv")}}, ErrOntoInput, "is --test"},
 		{"inside an input folder", []File{{"--out", filepath.Join(folder, "spam", "new.txt")}}, ErrOntoInput, "is inside the --corpus folder"},
 		{"two outputs one file", []File{{"--export", filepath.Join(dir, "a.csv")}, {"--masked-out", filepath.Join(dir, "sub", "..", "a.csv")}}, ErrOntoInput, "are one file"},
-		{"a folder", []File{{"--out", filepath.Join(dir, "sub")}}, ErrNotWritable, "is a folder"},
-		{"a missing folder", []File{{"--out", filepath.Join(dir, "no", "m.tt")}}, ErrNotWritable, "no such file or directory"},
-		{"under a file", []File{{"--out", filepath.Join(data, "m.tt")}}, ErrNotWritable, "not a directory"},
+		{"a folder", []File{{"--out", filepath.Join(dir, "sub")}}, ErrNotWritable, "--out " + filepath.Join(dir, "sub") + " is a folder: give a file name"},
+		{"a missing folder", []File{{"--out", filepath.Join(dir, "no", "m.tt")}}, ErrNotWritable,
+			"the folder " + filepath.Join(dir, "no") + " does not exist: create it or choose another --out"},
+		{"a missing folder of a side file", []File{{"--export's stability table", filepath.Join(dir, "no", "a.stability.csv")}}, ErrNotWritable,
+			"does not exist: create it or choose another --export"},
+		{"under a file", []File{{"--out", filepath.Join(data, "m.tt")}}, ErrNotWritable, data + " is a file, not a folder: choose another --out"},
 	}
 	before := list(t, dir)
 	for _, c := range cases {
@@ -65,6 +68,8 @@ func TestCheck(t *testing.T) {
 				t.Fatalf("got %v, want an error wrapping %v", err, c.kind)
 			case c.kind != nil && !strings.Contains(err.Error(), c.want):
 				t.Errorf("message %q lacks %q", err, c.want)
+			case c.kind != nil && strings.Contains(err.Error(), ".check"):
+				t.Errorf("message %q names the probe file", err)
 			}
 		})
 	}
@@ -106,4 +111,25 @@ func ExampleCheck() {
 	// Output:
 	// true
 	// --out DIR/x/../d.csv is --data DIR/d.csv: telltale never writes onto its inputs: give the output another file name
+}
+
+// TestCheckReadOnlyFolder: a folder that refuses new files is found before
+// any work, and the message names the user's path and the folder, not the
+// probe file. (Common practice, no source: a 0555 folder refuses new files
+// to everyone but the superuser.)
+func TestCheckReadOnlyFolder(t *testing.T) {
+	if os.Geteuid() == 0 {
+		t.Skip("the superuser may write into a read-only folder")
+	}
+	dir := filepath.Join(t.TempDir(), "ro")
+	if err := os.Mkdir(dir, 0o555); err != nil {
+		t.Fatal(err)
+	}
+	defer os.Chmod(dir, 0o755)
+	out := filepath.Join(dir, "m.tt")
+	err := Check([]File{{"--out", out}}, nil)
+	want := "--out " + out + ": a file cannot be made in the folder " + dir + " (permission denied): make the folder writable or choose another --out"
+	if !errors.Is(err, ErrNotWritable) || err.Error() != want {
+		t.Errorf("got %v, want %q", err, want)
+	}
 }
