@@ -82,8 +82,8 @@
 //
 // Memory does not grow with the corpus: per filter it keeps bounded top
 // lists, skylines and samples and a fine histogram. ProfileStream does the
-// same over a TextSource, for corpora too big to hold in memory;
-// Profiles.WriteText writes a readable summary.
+// same over a TextSource, for corpora too big to hold in memory. The
+// command line (telltale filters) writes them as text.
 //
 // # How much to trust an attribution
 //
