@@ -19,12 +19,13 @@ metrics side by side, e.g. a model against its masked copy, or against one
 retrained with --mask-tokens: accuracy with its 95% Wilson interval,
 macro-F1, weighted-F1, per-class F1 and the calibration error with their 95%
 bootstrap intervals over texts, and the share of predictions that differ
-from the first model's with its Wilson interval. A model whose file carries the linear baseline train fits beside
-the CNN is then shown beside it, with the exact McNemar test between the
-two, as train shows them. The texts are found as eval finds them for the
-first model: --test FILE, or the test split of its own --data, or all of other
-data; a note says when another model's splits were made otherwise. The models
-must share their labels; each uses its own tokenizer and vocabulary.`,
+from the first model's with its Wilson interval. A model whose file carries
+the linear baseline train fits beside the CNN is then shown beside it, with
+the exact McNemar test between the two, as train shows them. The texts are
+found as eval finds them for the first model: --test FILE, or the test
+split of its own --data, or all of other data; a note says when another
+model's splits were made otherwise. The models must share their labels;
+each uses its own tokenizer and vocabulary.`,
 	Options: func() options { return new(compareOptions) },
 	Run:     runAs(runCompare),
 }

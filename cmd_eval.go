@@ -21,10 +21,10 @@ Wilson interval, macro-F1 with its 95% bootstrap interval over texts,
 per-class precision and recall (Wilson intervals) and F1 (bootstrap
 interval) with support, weighted-F1, the confusion matrix (rows: gold
 label, columns: predicted) and the expected calibration error over
-equal-width confidence bins, both with bootstrap intervals. When the model file carries the
-linear baseline train fits beside the CNN, the baseline's accuracy and
-macro-F1 are shown beside the CNN's, with the exact McNemar test between
-the two, as train shows them.
+equal-width confidence bins, both with bootstrap intervals. When the model
+file carries the linear baseline train fits beside the CNN, the baseline's
+accuracy and macro-F1 are shown beside the CNN's, with the exact McNemar
+test between the two, as train shows them.
 
 The texts: with --test FILE, those. With --data FILE alone, when it holds the
 data the model was trained on, the test split train held out of it (or the test
