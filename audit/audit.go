@@ -140,8 +140,10 @@ const (
 	// VerdictNotRelied: artifact-like but the model does not measurably
 	// rely on it.
 	VerdictNotRelied = "not-relied-on"
-	// VerdictTask: relied on, reads like the task (or marked task): listed
-	// apart for a person to judge, never acted on.
+	// VerdictTask: reads like the task (or marked task) and relied on in
+	// the selection half: listed apart for a person to judge, never acted
+	// on, when the confirmation half confirms the reliance (Relied) or a
+	// person marked it.
 	VerdictTask = "reads-like-the-task"
 	// VerdictOther: associated with a label, not artifact-like, not
 	// measurably relied on.
