@@ -92,6 +92,13 @@ func weightedF1Of(flat []int, k int, f1 []float64) float64 {
 // interval of the tool draws them (Efron & Tibshirani 1993, ch. 13).
 // Preconditions: equal lengths, confidences in [0, 1], resamples ≥ 1,
 // 0 < level < 1; bins ≤ 0 means DefaultBins. With no text it is 0 in [0, 1].
+//
+// Caution: the binned ECE is biased upward on a finite sample (each bin's
+// |accuracy − confidence| is inflated by its noise; Kumar, Liang & Ma 2019,
+// "Verified Uncertainty Calibration", NeurIPS, recalled from memory), and
+// the percentile interval inherits the bias: for a model whose true ECE is
+// near 0 it falls short of its level, and for a perfectly calibrated one it
+// never reaches 0. It is checked against SciPy, not by coverage.
 func BootstrapECE(conf []float64, correct []bool, bins, resamples int, level float64, seed uint64) Interval {
 	if len(conf) != len(correct) {
 		panic("cnn: BootstrapECE: conf and correct differ in length")
