@@ -17,14 +17,15 @@ var cmdCompare = &command{
 	Long: `Compare evaluates each model on the same labeled texts and prints their
 metrics side by side, e.g. a model against its masked copy, or against one
 retrained with --mask-tokens: accuracy with its 95% Wilson interval,
-macro-F1 with its 95% bootstrap interval over texts, weighted-F1, the
-calibration error and the share of predictions that differ from the first
-model's. A model whose file carries the linear baseline train fits beside
-the CNN is then shown beside it, with the exact McNemar test between the
-two, as train shows them. The texts are found as eval finds them for the
-first model: --test FILE, or the test split of its own --data, or all of other
-data; a note says when another model's splits were made otherwise. The models
-must share their labels; each uses its own tokenizer and vocabulary.`,
+macro-F1, weighted-F1, per-class F1 and the calibration error with their 95%
+bootstrap intervals over texts, and the share of predictions that differ
+from the first model's with its Wilson interval. A model whose file carries
+the linear baseline train fits beside the CNN is then shown beside it, with
+the exact McNemar test between the two, as train shows them. The texts are
+found as eval finds them for the first model: --test FILE, or the test
+split of its own --data, or all of other data; a note says when another
+model's splits were made otherwise. The models must share their labels;
+each uses its own tokenizer and vocabulary.`,
 	Options: func() options { return new(compareOptions) },
 	Run:     runAs(runCompare),
 }
@@ -112,11 +113,11 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		if err != nil {
 			return fmt.Errorf("%s: %w", o.paths[i], err)
 		}
-		row := compareRow{Model: o.paths[i], Metrics: met, Figures: cnn.FiguresOf(met, c), Baseline: baselineOf(m, c)}
+		row := compareRow{Model: o.paths[i], Metrics: met, Figures: cnn.FiguresOf(met, c), Intervals: cnn.IntervalsOf(met), Baseline: baselineOf(m, c)}
 		if i == 0 {
 			first = pred
 		} else {
-			row.Flipped = flippedShare(first, pred)
+			row.setFlipped(first, pred)
 		}
 		rows = append(rows, row)
 	}
@@ -138,10 +139,28 @@ type compareRow struct {
 	Metrics cnn.Metrics `json:"metrics"`
 	// Figures are the model's accuracy and macro-F1 with their intervals,
 	// and its baseline's beside them when its file carries one (Baseline).
-	Figures  cnn.Figures   `json:"figures"`
-	Baseline *baselineJSON `json:"baseline,omitempty"`
-	// Flipped is the share of texts whose prediction differs from the first model's.
-	Flipped float64 `json:"flipped_vs_first"`
+	Figures cnn.Figures `json:"figures"`
+	// Intervals are those of the weighted F1, the ECE and every class's
+	// precision, recall and F1.
+	Intervals cnn.MetricIntervals `json:"intervals"`
+	Baseline  *baselineJSON       `json:"baseline,omitempty"`
+	// Flipped is the share of texts whose prediction differs from the first
+	// model's; FlippedInterval is its Wilson interval (nil for the first).
+	Flipped         float64       `json:"flipped_vs_first"`
+	FlippedInterval *cnn.Interval `json:"flipped_vs_first_interval,omitempty"`
+}
+
+// setFlipped sets the share of texts whose prediction pred differs from
+// first's (same length) and its Wilson interval.
+func (r *compareRow) setFlipped(first, pred []int) {
+	flips := 0
+	for j := range pred {
+		if pred[j] != first[j] {
+			flips++
+		}
+	}
+	iv := cnn.WilsonInterval(flips, len(pred), cnn.IntervalLevel)
+	r.Flipped, r.FlippedInterval = iv.Estimate, &iv
 }
 
 // compareModels evaluates models that share one encoder on data.
@@ -153,12 +172,12 @@ func compareModels(env *runEnv, data cnn.Data, names []string, ms []*cnn.Model, 
 		if err != nil {
 			return err
 		}
-		rows[i] = compareRow{Model: names[i], Metrics: met, Figures: cnn.FiguresOf(met, nil)}
+		rows[i] = compareRow{Model: names[i], Metrics: met, Figures: cnn.FiguresOf(met, nil), Intervals: cnn.IntervalsOf(met)}
 		if i == 0 {
 			first = pred
 			continue
 		}
-		rows[i].Flipped = flippedShare(first, pred)
+		rows[i].setFlipped(first, pred)
 	}
 	return writeComparison(env, rows, "", asJSON)
 }
@@ -171,32 +190,33 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 		return writeJSON(env.Stdout, rows)
 	}
 	w := env.Stdout
-	level := fmt.Sprintf("(%g%%)", 100*cnn.IntervalLevel)
-	fmt.Fprintf(w, "%-40s  %-19s  %-19s  %11s  %6s  %8s\n", "model", "accuracy "+level, "macro-F1 "+level, "weighted-F1", "ECE", "flipped")
+	fmt.Fprintf(w, "%g%% intervals: Wilson for accuracy and the flipped share, bootstrap over texts for F1s and ECE\n\n", 100*cnn.IntervalLevel)
+	fmt.Fprintf(w, "%-40s  %-19s  %-19s  %-19s  %-19s  %s\n", "model", "accuracy", "macro-F1", "weighted-F1", "ECE", "flipped")
 	for i, r := range rows {
 		flip := "-"
-		if i > 0 && r.Flipped >= 0 {
-			flip = fmt.Sprintf("%.1f%%", 100*r.Flipped)
+		if i > 0 && r.FlippedInterval != nil {
+			fi := r.FlippedInterval
+			flip = fmt.Sprintf("%.1f%% (%.1f–%.1f%%)", 100*fi.Estimate, 100*fi.Low, 100*fi.High)
 		}
-		fmt.Fprintf(w, "%-40s  %-19s  %-19s  %11.4f  %6.4f  %8s\n", oneLine(r.Model, 40), r.Figures.CNN.Accuracy, r.Figures.CNN.MacroF1,
-			r.Metrics.WeightedF1, r.Metrics.ECE, flip)
+		fmt.Fprintf(w, "%-40s  %-19s  %-19s  %-19s  %-19s  %s\n", oneLine(r.Model, 40), r.Figures.CNN.Accuracy, r.Figures.CNN.MacroF1,
+			r.Intervals.WeightedF1, eceText(r.Metrics.ECE, r.Intervals.ECE), flip)
 	}
 	if len(rows) == 0 {
 		return nil
 	}
-	fmt.Fprintf(w, "\nper-class F1\n%-20s", "label")
+	line := fmt.Sprintf("%-20s", "label")
 	for i := range rows {
-		fmt.Fprintf(w, "  %8s", fmt.Sprintf("model %d", i+1))
+		line += fmt.Sprintf("  %-19s", fmt.Sprintf("model %d", i+1))
 	}
-	fmt.Fprintln(w)
+	fmt.Fprintf(w, "\nper-class F1\n%s\n", strings.TrimRight(line, " "))
 	for c, pc := range rows[0].Metrics.PerClass {
-		fmt.Fprintf(w, "%-20s", pc.Label)
+		line = fmt.Sprintf("%-20s", pc.Label)
 		for _, r := range rows {
-			if c < len(r.Metrics.PerClass) {
-				fmt.Fprintf(w, "  %8.4f", r.Metrics.PerClass[c].F1)
+			if c < len(r.Intervals.PerClass) {
+				line += fmt.Sprintf("  %-19s", r.Intervals.PerClass[c].F1)
 			}
 		}
-		fmt.Fprintln(w)
+		fmt.Fprintln(w, strings.TrimRight(line, " "))
 	}
 	for i, r := range rows {
 		if r.Figures.Baseline != nil {
@@ -205,15 +225,4 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 		}
 	}
 	return nil
-}
-
-// flippedShare is the share of positions where b's prediction differs from a's.
-func flippedShare(a, b []int) float64 {
-	flips := 0
-	for j := range b {
-		if b[j] != a[j] {
-			flips++
-		}
-	}
-	return float64(flips) / float64(max(1, len(b)))
 }

@@ -18,12 +18,13 @@ var cmdEval = &command{
 	Short:     "evaluate a model on labeled data: accuracy, per-class F1, confusion matrix, calibration",
 	Long: `Eval runs a saved model on labeled texts and prints accuracy with its 95%
 Wilson interval, macro-F1 with its 95% bootstrap interval over texts,
-per-class precision, recall and F1 with support, weighted-F1, the confusion
-matrix (rows: gold label, columns: predicted) and the expected calibration
-error over equal-width confidence bins. When the model file carries the
-linear baseline train fits beside the CNN, the baseline's accuracy and
-macro-F1 are shown beside the CNN's, with the exact McNemar test between
-the two, as train shows them.
+per-class precision and recall (Wilson intervals) and F1 (bootstrap
+interval) with support, weighted-F1, the confusion matrix (rows: gold
+label, columns: predicted) and the expected calibration error over
+equal-width confidence bins, both with bootstrap intervals. When the model
+file carries the linear baseline train fits beside the CNN, the baseline's
+accuracy and macro-F1 are shown beside the CNN's, with the exact McNemar
+test between the two, as train shows them.
 
 The texts: with --test FILE, those. With --data FILE alone, when it holds the
 data the model was trained on, the test split train held out of it (or the test
@@ -79,10 +80,13 @@ func (o *evalOptions) files() (outputs, inputs []outguard.File) {
 // figures with their intervals and the baseline beside the CNN.
 type evalOutput struct {
 	cnn.Metrics
-	Split     string        `json:"split"` // "test", or "all" when all of --data
-	SplitNote string        `json:"split_note"`
-	Figures   cnn.Figures   `json:"figures"`
-	Baseline  *baselineJSON `json:"baseline,omitempty"`
+	Split     string      `json:"split"` // "test", or "all" when all of --data
+	SplitNote string      `json:"split_note"`
+	Figures   cnn.Figures `json:"figures"`
+	// Intervals are those of the weighted F1, the ECE and every class's
+	// precision, recall and F1 (the headline's are in Figures).
+	Intervals cnn.MetricIntervals `json:"intervals"`
+	Baseline  *baselineJSON       `json:"baseline,omitempty"`
 }
 
 func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
@@ -118,11 +122,12 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 		}
 	}
 	if o.asJSON {
-		return writeJSON(env.Stdout, evalOutput{Metrics: met, Split: es.name, SplitNote: es.note, Figures: figures, Baseline: baselineOf(m, cmp)})
+		return writeJSON(env.Stdout, evalOutput{Metrics: met, Split: es.name, SplitNote: es.note, Figures: figures,
+			Intervals: cnn.IntervalsOf(met), Baseline: baselineOf(m, cmp)})
 	}
 	writeFigures(env.Stdout, splitHeading(es.name, met.N), figures, baselineOf(m, cmp))
 	fmt.Fprintln(env.Stdout)
-	writeMetrics(env.Stdout, met, o.bins)
+	writeMetrics(env.Stdout, met, cnn.IntervalsOf(met), o.bins)
 	return nil
 }
 
@@ -197,16 +202,18 @@ func argmax(p []float32) int {
 }
 
 // writeMetrics prints an evaluation as readable tables, after the
-// figures writeFigures prints.
-func writeMetrics(w io.Writer, m cnn.Metrics, bins int) {
-	fmt.Fprintf(w, "weighted-F1 %.4f   ECE %.4f (%d bins)\n\n", m.WeightedF1, m.ECE, bins)
+// figures writeFigures prints, each measured figure with its interval iv.
+func writeMetrics(w io.Writer, m cnn.Metrics, iv cnn.MetricIntervals, bins int) {
+	fmt.Fprintf(w, "weighted-F1 %s   ECE %s (%d bins)   (%g%% intervals: Wilson for precision and recall, bootstrap over texts for F1 and ECE)\n\n",
+		iv.WeightedF1, eceText(m.ECE, iv.ECE), bins, 100*cnn.IntervalLevel)
 	width := 5
 	for i, l := range m.Labels {
 		width = max(width, len(fmt.Sprintf("[%d] %s", i, l)))
 	}
-	fmt.Fprintf(w, "%-*s  %9s  %6s  %6s  %7s\n", width, "label", "precision", "recall", "F1", "support")
-	for _, c := range m.PerClass {
-		fmt.Fprintf(w, "%-*s  %9.4f  %6.4f  %6.4f  %7d\n", width, c.Label, c.Precision, c.Recall, c.F1, c.Support)
+	fmt.Fprintf(w, "%-*s  %-19s  %-19s  %-19s  %7s\n", width, "label", "precision", "recall", "F1", "support")
+	for i, c := range m.PerClass {
+		ci := iv.PerClass[i]
+		fmt.Fprintf(w, "%-*s  %-19s  %-19s  %-19s  %7d\n", width, c.Label, ci.Precision, ci.Recall, ci.F1, c.Support)
 	}
 	fmt.Fprintf(w, "\nconfusion matrix (rows: gold, columns: predicted)\n%-*s", width, "")
 	for i := range m.Labels {
@@ -220,6 +227,15 @@ func writeMetrics(w io.Writer, m cnn.Metrics, bins int) {
 		}
 		fmt.Fprintln(w)
 	}
+}
+
+// eceText is the ECE with its interval, or the point value with why it has
+// none.
+func eceText(ece float64, iv *cnn.Interval) string {
+	if iv == nil {
+		return fmt.Sprintf("%.3f (no interval: the confidences are not known)", ece)
+	}
+	return iv.String()
 }
 
 // checkExport refuses an export path of an unknown format before any work.

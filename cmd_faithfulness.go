@@ -107,8 +107,8 @@ func runFaithfulness(ctx context.Context, env *runEnv, o *faithOptions) error {
 
 func writeFaith(w io.Writer, r *explain.FaithReport) {
 	acc := "no gold labels"
-	if !math.IsNaN(r.Accuracy) {
-		acc = fmt.Sprintf("model accuracy %.4f", r.Accuracy)
+	if r.AccuracyInterval != nil {
+		acc = fmt.Sprintf("model accuracy %s, 95%% Wilson interval", r.AccuracyInterval)
 	}
 	fmt.Fprintf(w, "faithfulness over %d texts (%s); 95%% bootstrap intervals over the texts (%d resamples); the random ranking averaged over %d draws\n",
 		r.Texts, acc, r.Resamples, r.Draws)
@@ -122,10 +122,13 @@ func writeFaith(w io.Writer, r *explain.FaithReport) {
 	for _, mf := range r.Methods {
 		fmt.Fprintf(w, "%-10s  %-26s  %s\n", mf.Method, withCI(mf.Top1Comp, mf.Top1CompCI), withCI(mf.Top1Suff, mf.Top1SuffCI))
 	}
-	fmt.Fprintf(w, "\nby share of tokens removed (%%): %v (texts where it is one token are left out)\n", r.Percents)
+	fmt.Fprintf(w, "\nby share of tokens removed (texts where it is one token are left out), with 95%% bootstrap intervals over those texts\n")
+	fmt.Fprintf(w, "%-10s  %6s  %6s  %-26s  %s\n", "method", "share", "texts", "compr.", "suff.")
 	for _, mf := range r.Methods {
-		fmt.Fprintf(w, "%-10s  compr. %s\n%-10s  suff.  %s\n%-10s  texts  %s\n", mf.Method, floats(mf.Comprehensiveness), "", floats(mf.Sufficiency),
-			"", intList(mf.PercentTexts))
+		for pi, pct := range r.Percents {
+			fmt.Fprintf(w, "%-10s  %5g%%  %6d  %-26s  %s\n", mf.Method, pct, mf.PercentTexts[pi],
+				withCI(mf.Comprehensiveness[pi], mf.ComprehensivenessCI[pi]), withCI(mf.Sufficiency[pi], mf.SufficiencyCI[pi]))
+		}
 	}
 	if len(r.Pairs) > 0 {
 		fmt.Fprintln(w, "\nmethods compared text by text: mean of A − B with its interval, Wilcoxon signed-rank p")
@@ -173,23 +176,4 @@ func pvalue(p float64) string {
 		return "< 1e-300"
 	}
 	return fmt.Sprintf("%.2g", p)
-}
-
-func floats(xs []float64) string {
-	parts := make([]string, len(xs))
-	for i, x := range xs {
-		parts[i] = fmt.Sprintf("%7.4f", x)
-		if math.IsNaN(x) {
-			parts[i] = fmt.Sprintf("%7s", "–")
-		}
-	}
-	return strings.Join(parts, " ")
-}
-
-func intList(xs []int) string {
-	parts := make([]string, len(xs))
-	for i, x := range xs {
-		parts[i] = fmt.Sprintf("%7d", x)
-	}
-	return strings.Join(parts, " ")
 }

@@ -293,11 +293,15 @@ func TestFaithfulnessText(t *testing.T) {
 		t.Errorf("--json holds NaN")
 	}
 	var r struct {
-		Methods []struct {
-			Method            string     `json:"method"`
-			Comp              *float64   `json:"comp"`
-			CompCI            ciJSON     `json:"comp_ci"`
-			Comprehensiveness []*float64 `json:"comprehensiveness"`
+		AccuracyInterval *struct{ Estimate, Low, High float64 } `json:"accuracy_interval"`
+		Percents         []float64                              `json:"percents"`
+		Methods          []struct {
+			Method              string     `json:"method"`
+			Comp                *float64   `json:"comp"`
+			CompCI              ciJSON     `json:"comp_ci"`
+			Comprehensiveness   []*float64 `json:"comprehensiveness"`
+			ComprehensivenessCI []ciJSON   `json:"comprehensiveness_ci"`
+			PercentTexts        []int      `json:"percent_texts"`
 		} `json:"methods"`
 		Pairs []struct {
 			A, B, Measure string
@@ -316,6 +320,20 @@ func TestFaithfulnessText(t *testing.T) {
 		if !strings.Contains(out, line) {
 			t.Errorf("the text lacks %q:\n%s", line, out)
 		}
+		// Each share's figure with its interval, as in --json.
+		for pi, c := range mf.Comprehensiveness {
+			if c == nil {
+				continue
+			}
+			ci := mf.ComprehensivenessCI[pi]
+			line := fmt.Sprintf("%-10s  %5g%%  %6d  %+.4f [%+.4f, %+.4f]", mf.Method, r.Percents[pi], mf.PercentTexts[pi], *c, *ci.Low, *ci.High)
+			if !strings.Contains(out, line) {
+				t.Errorf("the text lacks %q:\n%s", line, out)
+			}
+		}
+	}
+	if a := r.AccuracyInterval; a == nil || !strings.Contains(out, fmt.Sprintf("model accuracy %.3f (%.3f–%.3f)", a.Estimate, a.Low, a.High)) {
+		t.Errorf("the model's accuracy without its interval (JSON %+v):\n%s", a, out)
 	}
 	for _, part := range []string{"the top token alone", "methods compared text by text", "exact      − occlusion  comp"} {
 		if !strings.Contains(out, part) {

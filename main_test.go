@@ -9,6 +9,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"telltale/cnn"
 )
 
 // runCmd runs one command line in-process and returns its exit code and output.
@@ -122,6 +124,26 @@ func TestTourContract(t *testing.T) {
 	}
 	if conf := ev["confusion"].([]any); len(conf) != 5 {
 		t.Errorf("eval: confusion has %d rows, want 5 (the demo's teams)", len(conf))
+	}
+	checkEvalIntervals(t, out)
+
+	code, out, stderr = runCmd(t, "", "compare", "--models", model+","+model, "--data", "testdata/demo/test.csv", "--json")
+	if code != 0 {
+		t.Fatalf("compare: exit %d: %s", code, stderr)
+	}
+	var rows []struct {
+		Metrics         struct{ N int } `json:"metrics"`
+		Flipped         float64         `json:"flipped_vs_first"`
+		FlippedInterval *cnn.Interval   `json:"flipped_vs_first_interval"`
+		Intervals       map[string]any  `json:"intervals"`
+	}
+	if err := json.Unmarshal([]byte(out), &rows); err != nil {
+		t.Fatal(err)
+	}
+	// A model against itself flips nothing: the Wilson interval of 0 of n.
+	if len(rows) != 2 || rows[0].FlippedInterval != nil || rows[1].FlippedInterval == nil || rows[1].Flipped != 0 ||
+		*rows[1].FlippedInterval != cnn.WilsonInterval(0, rows[1].Metrics.N, cnn.IntervalLevel) || rows[1].Intervals["ece"] == nil {
+		t.Errorf("compare --json of a model against itself: %s", out)
 	}
 
 	code, out, stderr = runCmd(t, "first text\nsecond text about a lost bag\n", "predict", "--model", model, "--json")
@@ -265,5 +287,34 @@ func TestMisuseExitsTwo(t *testing.T) {
 	code, out, _ := runCmd(t, "refund please\n\n  \nlost my bag\n", "predict", "--model", model)
 	if code != 0 || len(strings.Split(strings.TrimSpace(out), "\n")) != 2 {
 		t.Errorf("predict over 2 texts and 2 blank lines: exit %d, output %q", code, out)
+	}
+}
+
+// checkEvalIntervals checks eval's JSON out for the intervals beside its
+// figures: each holds its figure, and the figure is the metrics' own.
+func checkEvalIntervals(t *testing.T, out string) {
+	t.Helper()
+	var ev struct {
+		cnn.Metrics
+		Intervals cnn.MetricIntervals `json:"intervals"`
+	}
+	if err := json.Unmarshal([]byte(out), &ev); err != nil {
+		t.Fatal(err)
+	}
+	iv := ev.Intervals
+	holds := func(name string, x cnn.Interval, v float64) {
+		if x.Estimate != v || !(x.Low <= x.Estimate && x.Estimate <= x.High) {
+			t.Errorf("eval --json: %s %+v, figure %v", name, x, v)
+		}
+	}
+	if iv.ECE == nil || len(iv.PerClass) != len(ev.PerClass) {
+		t.Fatalf("eval --json: intervals %+v", iv)
+	}
+	holds("weighted_f1", iv.WeightedF1, ev.WeightedF1)
+	holds("ece", *iv.ECE, ev.ECE)
+	for c, pc := range ev.PerClass {
+		holds(pc.Label+" precision", iv.PerClass[c].Precision, pc.Precision)
+		holds(pc.Label+" recall", iv.PerClass[c].Recall, pc.Recall)
+		holds(pc.Label+" F1", iv.PerClass[c].F1, pc.F1)
 	}
 }

@@ -150,8 +150,15 @@ func (a *auditor) counterfactual(ctx context.Context, acted []*Candidate) (*Coun
 	}
 	cf.Accuracy, cf.AccuracyWithout = wilsonInterval(right, cf.Texts), wilsonInterval(rightWithout, cf.Texts)
 	cf.CueAccuracy, cf.CueAccuracyWithout = wilsonInterval(cueRight, cf.CueTexts), wilsonInterval(cueWithout, cf.CueTexts)
-	cf.P = min(1, 2*min(SignTest(cf.Fixed, cf.Broken), SignTest(cf.Broken, cf.Fixed)))
+	cf.P = mcNemarTwoSided(cf.Fixed, cf.Broken)
 	return cf, nil
+}
+
+// mcNemarTwoSided is the two-sided exact McNemar test of the paired
+// predictions an edit fixes against those it breaks: twice the smaller
+// one-sided tail of SignTest, capped at 1.
+func mcNemarTwoSided(fixed, broken int) float64 {
+	return min(1, 2*min(SignTest(fixed, broken), SignTest(broken, fixed)))
 }
 
 // mask is each acted-on cue's best prefix of keyed filters on the

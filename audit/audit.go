@@ -140,8 +140,10 @@ const (
 	// VerdictNotRelied: artifact-like but the model does not measurably
 	// rely on it.
 	VerdictNotRelied = "not-relied-on"
-	// VerdictTask: relied on, reads like the task (or marked task): listed
-	// apart for a person to judge, never acted on.
+	// VerdictTask: reads like the task (or marked task) and relied on in
+	// the selection half: listed apart for a person to judge, never acted
+	// on, when the confirmation half confirms the reliance (Relied) or a
+	// person marked it.
 	VerdictTask = "reads-like-the-task"
 	// VerdictOther: associated with a label, not artifact-like, not
 	// measurably relied on.
@@ -181,6 +183,13 @@ type Candidate struct {
 	// RelianceQ is the Benjamini–Hochberg adjusted p-value of the
 	// selection half's sign test over the cues measured.
 	RelianceQ float64 `json:"reliance_q"`
+	// ConfirmedQ is the same of the confirmation half's sign test, over
+	// the cues of its list put to the test there (the artifact-like cues
+	// relied on in the selection half; the cues that read like the task);
+	// Relied says the confirmation half confirms the model relies on the
+	// cue (acted on, or listed as relied on and reading like the task).
+	ConfirmedQ float64 `json:"reliance_confirmed_q,omitempty"`
+	Relied     bool    `json:"relied_confirmed"`
 	// Shift is question 4: the cue's label share in the held-out split.
 	Shift *Shift `json:"shift,omitempty"`
 	// Filters keyed on it, with their ablation.

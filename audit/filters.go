@@ -27,6 +27,10 @@ type Ablation struct {
 	Texts          int     `json:"texts"`
 	Accuracy       float64 `json:"accuracy"`
 	AccuracyMasked float64 `json:"accuracy_masked"`
+	// Before and After are Accuracy and AccuracyMasked with their 95%
+	// Wilson intervals.
+	Before Interval `json:"accuracy_interval"`
+	After  Interval `json:"accuracy_masked_interval"`
 	// Fixed and Broken count the predictions masking turns right and
 	// wrong; P is the one-sided exact McNemar test of Fixed against Broken.
 	Fixed  int     `json:"fixed"`
@@ -152,8 +156,8 @@ func ablate(m *cnn.Model, b *basePass, gold []int, gs []int, cueTexts []int) *Ab
 			a.CueFlipped++
 		}
 	}
-	a.Accuracy = float64(right) / float64(max(1, len(gold)))
-	a.AccuracyMasked = float64(rightMasked) / float64(max(1, len(gold)))
+	a.Before, a.After = wilsonInterval(right, len(gold)), wilsonInterval(rightMasked, len(gold))
+	a.Accuracy, a.AccuracyMasked = a.Before.Estimate, a.After.Estimate
 	a.P = SignTest(a.Fixed, a.Broken)
 	return a
 }

@@ -73,7 +73,7 @@ func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate
 // half's texts to the held-out split's.
 func (a *auditor) job(c *Candidate, half Data, index []int, base *basePass, occ []span, which string) *relianceJob {
 	return &relianceJob{key: c.Text + "/" + which, class: c.Class, occ: occ, half: half, index: index, base: base, neutral: a.neutral,
-		draws: a.opt.Draws, maxTexts: a.opt.MaxTexts, boot: a.opt.Bootstrap, seed: a.opt.Seed, labels: a.labels,
+		draws: a.opt.Draws, maxTexts: a.opt.MaxTexts, minTexts: minCueTexts, boot: a.opt.Bootstrap, seed: a.opt.Seed, labels: a.labels,
 		vocab: a.vocab, examples: a.opt.Examples}
 }
 
@@ -141,6 +141,31 @@ func (a *auditor) result(cands, measured []*Candidate) *Result {
 	return res
 }
 
+// confirmedTask keeps the cues of task (measured on the confirmation half)
+// that the confirmation half confirms the model relies on, by the rule of
+// the cues acted on: the sign test significant after Benjamini–Hochberg
+// over task's cues, and the 95% intervals of the label's probability drop
+// and of the net flip rate above 0. A cue a person marked task stays
+// listed (a person's verdict is always shown), with Relied false when
+// unconfirmed.
+func (a *auditor) confirmedTask(task []Candidate) []Candidate {
+	ps := make([]float64, len(task))
+	for k := range task {
+		ps[k] = task[k].Confirmed.P
+	}
+	out := []Candidate{}
+	for k, q := range BenjaminiHochberg(ps) {
+		c := task[k]
+		cr := c.Confirmed
+		c.ConfirmedQ = q
+		c.Relied = cr.Measured > 0 && q <= a.opt.RelianceAlpha && cr.LabelDrop.Low > 0 && cr.NetFlipRate.Low > 0
+		if c.Relied || c.Mark != "" {
+			out = append(out, c)
+		}
+	}
+	return out
+}
+
 // firstAndMarked is the first top cues of cs and every marked cue after
 // them: a person's verdict is always shown.
 func firstAndMarked(cs []*Candidate, top int) []Candidate {
@@ -195,10 +220,12 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	}
 	for i, q := range BenjaminiHochberg(ps) {
 		c := &res.Ranked[put[i]]
+		c.ConfirmedQ = q
 		if q <= a.opt.RelianceAlpha && c.Confirmed.LabelDrop.Estimate > 0 && c.Confirmed.NetFlipRate.Low > 0 {
-			c.Verdict = VerdictActed
+			c.Verdict, c.Relied = VerdictActed, true
 		}
 	}
+	res.Task = a.confirmedTask(res.Task)
 	// The cues acted on first, then those relied on in choosing only, then
 	// the rest; by score within each.
 	order := map[string]int{VerdictActed: 0, VerdictUnconfirmed: 1, VerdictNotRelied: 2}

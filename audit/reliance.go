@@ -67,6 +67,16 @@ type Conflict struct {
 	// draws).
 	Accuracy         float64 `json:"accuracy"`
 	AccuracyReplaced float64 `json:"accuracy_replaced"`
+	// Before is Accuracy with its 95% Wilson interval; After the accuracy
+	// with the cue replaced in the first draw of each text (one edited copy
+	// a text, so that both count texts and pair them), with its Wilson
+	// interval. Fixed and Broken count the texts that edit turns right and
+	// wrong; P is the two-sided exact McNemar test of Fixed against Broken.
+	Before Interval `json:"accuracy_interval"`
+	After  Interval `json:"accuracy_replaced_interval"`
+	Fixed  int      `json:"fixed"`
+	Broken int      `json:"broken"`
+	P      float64  `json:"p"`
 }
 
 // Example is one quoted text behind a figure.
@@ -116,6 +126,7 @@ type relianceJob struct {
 	neutral  []int32
 	draws    int
 	maxTexts int
+	minTexts int // the fewest texts holding the cue it measures (minCueTexts)
 	boot     int
 	seed     uint64
 	labels   []string
@@ -139,10 +150,12 @@ func (j *relianceJob) measure(ctx context.Context, st *explain.SlotTable, worker
 		chosen = chosen[:j.maxTexts]
 		slices.Sort(chosen)
 	}
-	r.Measured = len(chosen)
-	if len(chosen) == 0 {
+	if len(chosen) < j.minTexts {
+		// Too few texts to measure: no interval over them (Measured 0).
+		r.P, r.FlipP = 1, 1
 		return r, nil
 	}
+	r.Measured = len(chosen)
 	D := j.draws
 	ids := make([][]int32, 0, 2*D*len(chosen))
 	want := make([]int, 0, cap(ids))
@@ -167,7 +180,7 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 	D := j.draws
 	n := len(chosen)
 	flip, ctlFlip, net, drop, ldrop := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
-	var conflictTexts int
+	var conflictTexts, firstRight, fixed, broken int
 	var conflictRight, conflictReplaced float64
 	for k, i := range chosen {
 		yhat := j.base.pred[i]
@@ -204,8 +217,18 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 		}
 		if g := j.half.Gold[i]; g != j.class {
 			conflictTexts++
-			if yhat == g {
+			before, after := yhat == g, res[2*k*D].pred == g // the first draw's edit
+			if before {
 				conflictRight++
+			}
+			if after {
+				firstRight++
+			}
+			switch {
+			case after && !before:
+				fixed++
+			case before && !after:
+				broken++
 			}
 		}
 	}
@@ -225,9 +248,11 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 	r.Decided = BootstrapMean(decided, j.boot, 0.95, seed+4)
 	r.FlipP = SignTest(r.More, r.Fewer)
 	r.P = SignTest(r.Lower, r.Higher)
-	if conflictTexts > 0 {
+	if conflictTexts >= j.minTexts {
 		r.Conflict = &Conflict{Texts: conflictTexts, Accuracy: conflictRight / float64(conflictTexts),
-			AccuracyReplaced: conflictReplaced / float64(conflictTexts*D)}
+			AccuracyReplaced: conflictReplaced / float64(conflictTexts*D),
+			Before:           wilsonInterval(int(conflictRight), conflictTexts), After: wilsonInterval(firstRight, conflictTexts),
+			Fixed: fixed, Broken: broken, P: mcNemarTwoSided(fixed, broken)}
 	}
 	for k, i := range chosen {
 		if len(r.Examples) == j.examples {

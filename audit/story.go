@@ -38,6 +38,23 @@ func interval(x Interval) string {
 	return fmtPct(x.Estimate) + " (" + strings.TrimSuffix(fmtPct(x.Low), "%") + "–" + fmtPct(x.High) + ")"
 }
 
+// tooFew says a reliance was not measured: the cue is in fewer texts of
+// the confirmation half than the audit measures a reliance on.
+func tooFew(r *Reliance) string {
+	return fmt.Sprintf("too few texts (%d) to measure in the confirming half (at least %d)", r.Texts, minCueTexts)
+}
+
+// drop writes a probability drop with its interval: "0.210 (0.180–0.240)".
+func drop(x Interval) string { return accuracy(x) }
+
+// signedDrop words a probability drop that may be a rise.
+func signedDrop(x Interval) string {
+	if x.Estimate < 0 {
+		return "rises by " + accuracy(Interval{Estimate: -x.Estimate, Low: -x.High, High: -x.Low})
+	}
+	return "drops by " + accuracy(x)
+}
+
 // accuracy writes an accuracy with its interval: "0.912 (0.890–0.931)".
 func accuracy(x Interval) string {
 	return fmt.Sprintf("%.3f (%.3f–%.3f)", x.Estimate, x.Low, x.High)
@@ -172,9 +189,10 @@ func (r *Result) writeStory(w io.Writer) {
 			p("     Replacing it by neutral words changes %s of the predictions on the texts that hold it, against %s\n",
 				interval(cr.FlipRate), interval(cr.ControlFlipRate))
 			p("     when the same words are put elsewhere; it decides %s of all predictions on the test texts.\n", interval(cr.Decided))
-			if cf := cr.Conflict; cf != nil && cf.Texts >= 5 {
-				p("     On the %d of those texts whose label is not %s, accuracy goes from %.2f to %.2f without it.\n",
-					cf.Texts, c.Label, cf.Accuracy, cf.AccuracyReplaced)
+			if cf := cr.Conflict; cf != nil {
+				p("     On the %d of those texts whose label is not %s, accuracy goes from %s to %s without it\n",
+					cf.Texts, c.Label, accuracy(cf.Before), accuracy(cf.After))
+				p("     (%d predictions fixed, %d broken, two-sided exact McNemar p = %s).\n", cf.Fixed, cf.Broken, pval(cf.P))
 			}
 			if s := c.Shift; s != nil && s.Present {
 				p("     The test texts confirm it is not the task: there %s of the texts holding it are %s, against %s in training.\n",
@@ -215,13 +233,14 @@ func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 	p("%s\n", markAdvice(acted))
 	if t := r.Action.Tried; t != nil {
 		if r.Action.Mask != nil {
-			p("Masking filters %s helps on test texts that took no part in choosing them: accuracy %.3f → %.3f\n",
-				ints(t.Filters), t.Accuracy, t.AccuracyMasked)
+			p("Masking filters %s helps on test texts that took no part in choosing them: accuracy %s → %s\n",
+				ints(t.Filters), accuracy(t.Before), accuracy(t.After))
 			p("(%d fixed, %d broken, one-sided exact McNemar p = %s).\n", t.Fixed, t.Broken, pval(t.P))
 		} else {
 			p("Masking the filters that read %s does not help on test texts that took no part in choosing them\n",
 				map[bool]string{true: "it", false: "them"}[len(acted) == 1])
-			p("(accuracy %.3f → %.3f, p = %s): no filter mask is suggested.\n", t.Accuracy, t.AccuracyMasked, pval(t.P))
+			p("(accuracy %s → %s, %d fixed, %d broken, one-sided exact McNemar p = %s): no filter mask is suggested.\n",
+				accuracy(t.Before), accuracy(t.After), t.Fixed, t.Broken, pval(t.P))
 		}
 	}
 }
@@ -240,11 +259,19 @@ func (r *Result) writeTask(p func(string, ...any)) {
 				cr = c.Reliance
 			}
 			marked := ""
-			if c.Mark == MarkTask {
-				marked = "; you marked it task"
+			if c.Mark != "" {
+				marked = "; you marked it " + c.Mark
 			}
-			p("  %s (%s%s): replacing it lowers the probability of %s by %.3f (%.3f–%.3f) on its texts and changes %s of the predictions.\n",
-				c.name(), c.Label, marked, c.Label, cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, fmtPct(cr.NetFlipRate.Estimate))
+			switch {
+			case cr.Measured == 0:
+				p("  %s (%s%s): %s.\n", c.name(), c.Label, marked, tooFew(cr))
+			case !c.Relied:
+				p("  %s (%s%s): the test texts do not confirm the model relies on it (probability of %s %s, predictions changed %s).\n",
+					c.name(), c.Label, marked, c.Label, signedDrop(cr.LabelDrop), interval(cr.NetFlipRate))
+			default:
+				p("  %s (%s%s): replacing it lowers the probability of %s by %s on its texts and changes %s of the predictions.\n",
+					c.name(), c.Label, marked, c.Label, drop(cr.LabelDrop), interval(cr.NetFlipRate))
+			}
 		}
 	}
 }
@@ -336,7 +363,9 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	p("\n%d. %s → %s (%s)\n", n, c.name(), c.Label, verdict)
 	as := c.Association
 	p("   association: in %d training texts, %s %s; p = %s, corrected %s\n", as.Texts, fmtPct(as.Share), c.Label, pval(as.P), pval(as.Adjusted))
-	if cr := c.Confirmed; cr != nil {
+	if cr := c.Confirmed; cr != nil && cr.Measured == 0 {
+		p("   reliance: %s\n", tooFew(cr))
+	} else if cr != nil {
 		p("   reliance: replacing it changes %s of %d test texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
 			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), interval(cr.NetFlipRate), pval(cr.FlipP))
 		p("     p(%s) drops %.3f (%.3f–%.3f), p(prediction) %.3f (%.3f–%.3f) (sign test p = %s)\n", c.Label,
@@ -354,7 +383,7 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	p("\n")
 	if f := c.Filters; f != nil && f.Ablation != nil {
 		ab := f.Ablation
-		p("   filters reading it: %s; masked: accuracy %.3f → %.3f, %d of its %d texts change\n",
-			ints(f.Keyed), ab.Accuracy, ab.AccuracyMasked, ab.CueFlipped, ab.CueTexts)
+		p("   filters reading it: %s; masked: accuracy %s → %s (%d fixed, %d broken, one-sided exact McNemar p = %s), %d of its %d texts change\n",
+			ints(f.Keyed), accuracy(ab.Before), accuracy(ab.After), ab.Fixed, ab.Broken, pval(ab.P), ab.CueFlipped, ab.CueTexts)
 	}
 }

@@ -84,3 +84,69 @@ func TestStoryTaskMarks(t *testing.T) {
 		t.Errorf("the story does not name the cue marked task:\n%s", story)
 	}
 }
+
+// The task list keeps a cue only when the confirmation half confirms the
+// model relies on it: the sign test significant after Benjamini–Hochberg
+// over the list, and the intervals of the label's probability drop and of
+// the net flip rate above 0; a cue too rare there to measure is not
+// confirmed; a cue a person marked stays listed, unconfirmed.
+func TestConfirmedTask(t *testing.T) {
+	a := &auditor{opt: Options{RelianceAlpha: 0.05}}
+	rel := func(p, dropLow, netLow float64, measured int) *Reliance {
+		return &Reliance{Texts: max(measured, 1), Measured: measured, P: p,
+			LabelDrop: Interval{Estimate: dropLow + 0.05, Low: dropLow, High: dropLow + 0.1}, NetFlipRate: Interval{Estimate: netLow + 0.05, Low: netLow, High: netLow + 0.1}}
+	}
+	task := []Candidate{
+		{Text: "confirmed", Confirmed: rel(0.001, 0.02, 0.01, 40)},
+		{Text: "drop interval at 0", Confirmed: rel(0.001, 0, 0.01, 40)},
+		{Text: "no prediction changes", Confirmed: rel(0.001, 0.02, 0, 40)},
+		{Text: "sign test p 0.12", Confirmed: rel(0.12, 0.02, 0.01, 40)},
+		{Text: "too few texts", Confirmed: &Reliance{Texts: 1, P: 1}},
+		{Text: "marked, unconfirmed", Mark: MarkTask, Confirmed: rel(0.5, -0.1, -0.1, 40)},
+	}
+	got := a.confirmedTask(task)
+	var names []string
+	for _, c := range got {
+		names = append(names, fmt.Sprintf("%s:%v", c.Text, c.Relied))
+	}
+	if want := "confirmed:true marked, unconfirmed:false"; strings.Join(names, " ") != want {
+		t.Errorf("task list %q, want %q", strings.Join(names, " "), want)
+	}
+	// Benjamini–Hochberg over the list: 0.001 among six p-values is
+	// 0.006 adjusted.
+	if q := got[0].ConfirmedQ; q <= 0.001 || q > 0.05 {
+		t.Errorf("adjusted p %g of the confirmed cue", q)
+	}
+}
+
+// Every measured figure of the story carries its interval or test: the
+// accuracies of a cue's conflicting texts and of the mask with their
+// Wilson intervals and the change's exact McNemar test; a cue too rare in
+// the confirming half is said to be, with no interval over its texts.
+func TestStoryFiguresCarryIntervals(t *testing.T) {
+	before, after := wilsonInterval(71, 132), wilsonInterval(119, 132)
+	cf := &Conflict{Texts: 132, Accuracy: before.Estimate, AccuracyReplaced: 0.9, Before: before, After: after, Fixed: 50, Broken: 2,
+		P: mcNemarTwoSided(50, 2)}
+	r := &Result{ConfirmationTexts: 400, Action: Action{Tried: &Ablation{Filters: []int{3}, Texts: 400,
+		Before: wilsonInterval(300, 400), After: wilsonInterval(347, 400), Fixed: 60, Broken: 13, P: SignTest(60, 13)}}}
+	r.Ranked = []Candidate{{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: VerdictActed, Relied: true,
+		Confirmed: &Reliance{Texts: 150, Measured: 150, Conflict: cf}, Association: CueAssociation{Texts: 20}}}
+	r.Task = []Candidate{{Words: []string{"refund"}, Text: "refund", Label: "ham", Verdict: VerdictTask, Mark: MarkTask,
+		Confirmed: &Reliance{Texts: 1, P: 1}}}
+	story := r.Story()
+	for _, want := range []string{
+		"accuracy goes from " + accuracy(before) + " to " + accuracy(after) + " without it",
+		fmt.Sprintf("(50 predictions fixed, 2 broken, two-sided exact McNemar p = %s)", pval(cf.P)),
+		"accuracy " + accuracy(wilsonInterval(300, 400)) + " → " + accuracy(wilsonInterval(347, 400)),
+		"too few texts (1) to measure",
+	} {
+		if !strings.Contains(story, want) {
+			t.Errorf("the story lacks %q:\n%s", want, story)
+		}
+	}
+	for _, line := range strings.Split(story, "\n") {
+		if strings.Contains(line, "'refund'") && strings.Contains(line, "–") {
+			t.Errorf("the story shows an interval over the one text of a cue: %s", line)
+		}
+	}
+}

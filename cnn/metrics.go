@@ -24,6 +24,14 @@ type Metrics struct {
 	ECE        float64        `json:"ece"`
 	PerClass   []ClassMetrics `json:"per_class"`
 	Confusion  [][]int        `json:"confusion"` // rows gold, columns predicted
+
+	// conf and correct are the confidence of every prediction and whether
+	// it was right, kept for the ECE's bootstrap interval (IntervalsOf);
+	// nil when ComputeMetrics had no confidences (or the metrics were read
+	// back from JSON).
+	conf    []float64
+	correct []bool
+	bins    int
 }
 
 // ClassMetrics is precision, recall and F1 of one class.
@@ -95,6 +103,7 @@ func ComputeMetrics(labels []string, gold, pred []int, conf []float64, bins int)
 			ok[i] = gold[i] == pred[i]
 		}
 		mt.ECE = expectedCalibrationError(conf, ok, bins)
+		mt.conf, mt.correct, mt.bins = append([]float64(nil), conf...), ok, bins
 	}
 	return mt
 }
@@ -291,43 +300,90 @@ func WilsonInterval(k, n int, level float64) Interval {
 // [0, 1].
 func BootstrapMacroF1(confusion [][]int, resamples int, level float64, seed uint64) Interval {
 	k := len(confusion)
-	if resamples < 1 || !(level > 0 && level < 1) {
-		panic(fmt.Sprintf("cnn: BootstrapMacroF1: %d resamples at level %g: need 1 or more and a level in (0, 1)", resamples, level))
+	checkBootstrap("BootstrapMacroF1", resamples, level)
+	cells := textCells(confusion, "BootstrapMacroF1")
+	if len(cells) == 0 {
+		return Interval{Low: 0, High: 1}
 	}
-	var cells []int // the cell g·k+p of every text
+	flat := make([]int, k*k)
+	ivs := bootstrapPercentiles(len(cells), 1, resamples, level, seed, func(w []int, out []float64) {
+		countCells(flat, cells, w)
+		out[0] = macroF1Of(flat, k)
+	})
+	countCells(flat, cells, nil)
+	ivs[0].Estimate = macroF1Of(flat, k)
+	return ivs[0]
+}
+
+// textCells lists the cell g·k+p of every text of a confusion matrix (rows
+// gold, columns predicted): a text is its (gold, predicted) pair. It panics
+// on a matrix that is not square or holds a negative count; caller names
+// the function for the message.
+func textCells(confusion [][]int, caller string) []int {
+	k := len(confusion)
+	var cells []int
 	for g, row := range confusion {
 		if len(row) != k {
-			panic(fmt.Sprintf("cnn: BootstrapMacroF1: row %d has %d cells, want %d", g, len(row), k))
+			panic(fmt.Sprintf("cnn: %s: row %d has %d cells, want %d", caller, g, len(row), k))
 		}
 		for p, n := range row {
 			if n < 0 {
-				panic(fmt.Sprintf("cnn: BootstrapMacroF1: count %d in cell (%d, %d)", n, g, p))
+				panic(fmt.Sprintf("cnn: %s: count %d in cell (%d, %d)", caller, n, g, p))
 			}
 			for range n {
 				cells = append(cells, g*k+p)
 			}
 		}
 	}
-	n := len(cells)
-	if n == 0 {
-		return Interval{Low: 0, High: 1}
-	}
-	flat := make([]int, k*k)
-	for _, c := range cells {
-		flat[c]++
-	}
-	est := macroF1Of(flat, k)
-	r := rand.New(rand.NewPCG(seed, 0x5851f42d4c957f2d))
-	stats := make([]float64, resamples)
-	for b := range stats {
-		clear(flat)
-		for range n {
-			flat[cells[r.IntN(n)]]++
+	return cells
+}
+
+// countCells sets flat to the confusion counts of the texts cells, text i
+// counted w[i] times (once each when w is nil).
+func countCells(flat, cells, w []int) {
+	clear(flat)
+	for i, c := range cells {
+		if w == nil {
+			flat[c]++
+		} else {
+			flat[c] += w[i]
 		}
-		stats[b] = macroF1Of(flat, k)
 	}
-	slices.Sort(stats)
-	return Interval{Estimate: est, Low: quantileSorted(stats, (1-level)/2), High: quantileSorted(stats, (1+level)/2)}
+}
+
+// bootstrapPercentiles is the percentile bootstrap over n texts (Efron &
+// Tibshirani 1993, ch. 13) of m statistics at once: resamples times it
+// draws n texts with replacement (seeded by seed), calls stat with the
+// number of times w[i] each text i was drawn, which writes the m statistics
+// of that resample into out, and returns the (1−level)/2 and (1+level)/2
+// quantiles of each statistic (quantileSorted) as Low and High; the caller
+// sets the Estimates. Every bootstrap interval of the tool goes through it,
+// so that one seed gives one set of resamples. Preconditions: n ≥ 1, m ≥ 1,
+// resamples ≥ 1, 0 < level < 1.
+func bootstrapPercentiles(n, m, resamples int, level float64, seed uint64, stat func(w []int, out []float64)) []Interval {
+	r := rand.New(rand.NewPCG(seed, 0x5851f42d4c957f2d))
+	w := make([]int, n)
+	vals := make([][]float64, m)
+	for j := range vals {
+		vals[j] = make([]float64, resamples)
+	}
+	out := make([]float64, m)
+	for b := range resamples {
+		clear(w)
+		for range n {
+			w[r.IntN(n)]++
+		}
+		stat(w, out)
+		for j, v := range out {
+			vals[j][b] = v
+		}
+	}
+	ivs := make([]Interval, m)
+	for j, v := range vals {
+		slices.Sort(v)
+		ivs[j] = Interval{Low: quantileSorted(v, (1-level)/2), High: quantileSorted(v, (1+level)/2)}
+	}
+	return ivs
 }
 
 // macroF1Of is the macro-F1 of the k×k confusion counts flat (row-major,

@@ -66,13 +66,16 @@ type Interval struct {
 // "An Introduction to the Bootstrap", ch. 13); Pairs compares the methods
 // text by text.
 type FaithReport struct {
-	Texts     int           `json:"texts"`    // texts scored (empty texts are skipped)
-	Accuracy  float64       `json:"accuracy"` // of the model on the scored texts (NaN → null without gold)
-	Percents  []float64     `json:"percents"`
-	Draws     int           `json:"draws"`     // random rankings per text for the random control
-	Resamples int           `json:"resamples"` // bootstrap resamples behind the intervals
-	Methods   []MethodFaith `json:"methods"`
-	Pairs     []MethodPair  `json:"pairs"`
+	Texts    int     `json:"texts"`    // texts scored (empty texts are skipped)
+	Accuracy float64 `json:"accuracy"` // of the model on the scored texts (NaN → null without gold)
+	// AccuracyInterval is Accuracy with its 95% Wilson interval (nil
+	// without gold).
+	AccuracyInterval *cnn.Interval `json:"accuracy_interval,omitempty"`
+	Percents         []float64     `json:"percents"`
+	Draws            int           `json:"draws"`     // random rankings per text for the random control
+	Resamples        int           `json:"resamples"` // bootstrap resamples behind the intervals
+	Methods          []MethodFaith `json:"methods"`
+	Pairs            []MethodPair  `json:"pairs"`
 }
 
 // MethodFaith holds one method's scores, averaged over texts. A figure with
@@ -88,6 +91,11 @@ type MethodFaith struct {
 	Comprehensiveness []float64 `json:"comprehensiveness"`
 	Sufficiency       []float64 `json:"sufficiency"`
 	PercentTexts      []int     `json:"percent_texts"`
+	// ComprehensivenessCI and SufficiencyCI are the 95% percentile
+	// bootstrap intervals over the texts of each percent's figure (NaN
+	// bounds, JSON null, where no text has it).
+	ComprehensivenessCI []Interval `json:"comprehensiveness_ci"`
+	SufficiencyCI       []Interval `json:"sufficiency_ci"`
 	// Comp and Suff average, over the texts with at least one percent of
 	// two or more tokens (AggregateTexts), each text's mean over those
 	// percents: ERASER's aggregate without single tokens.

@@ -102,6 +102,9 @@ func TestFaithfulnessBruteForce(t *testing.T) {
 	if rep.Texts != len(rows) || !near(rep.Accuracy, float64(correct)/float64(len(rows)), 1e-12, 0) {
 		t.Fatalf("texts %d accuracy %g, want %d %g", rep.Texts, rep.Accuracy, len(rows), float64(correct)/float64(len(rows)))
 	}
+	if rep.AccuracyInterval == nil || *rep.AccuracyInterval != cnn.WilsonInterval(correct, len(rows), cnn.IntervalLevel) {
+		t.Fatalf("accuracy interval %+v, want Wilson's of %d of %d", rep.AccuracyInterval, correct, len(rows))
+	}
 	same := func(what string, got, want float64) {
 		t.Helper()
 		if math.IsNaN(got) != math.IsNaN(want) || (!math.IsNaN(want) && !near(got, want, 1e-5, 1e-4)) {
@@ -124,6 +127,14 @@ func TestFaithfulnessBruteForce(t *testing.T) {
 			same(mf.Method+" sufficiency", mf.Sufficiency[pi], mean(col(func(f textFaith) float64 { return f.suff[pi] })))
 			if mf.PercentTexts[pi] != len(c) {
 				t.Fatalf("%s percent %g: %d texts, want %d", mf.Method, opt.Percents[pi], mf.PercentTexts[pi], len(c))
+			}
+			for _, iv := range []struct {
+				v  float64
+				ci Interval
+			}{{mf.Comprehensiveness[pi], mf.ComprehensivenessCI[pi]}, {mf.Sufficiency[pi], mf.SufficiencyCI[pi]}} {
+				if math.IsNaN(iv.v) != math.IsNaN(iv.ci.Low) || !math.IsNaN(iv.v) && !(iv.ci.Low <= iv.v && iv.v <= iv.ci.High) {
+					t.Fatalf("%s percent %g: %g and its interval %+v", mf.Method, opt.Percents[pi], iv.v, iv.ci)
+				}
 			}
 		}
 		same(mf.Method+" comp", mf.Comp, mean(col(func(f textFaith) float64 { return f.aggComp })))

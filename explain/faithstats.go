@@ -7,6 +7,8 @@ import (
 	"slices"
 
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"telltale/cnn"
 )
 
 // faithMeasures are the measures Pairs compares.
@@ -28,9 +30,13 @@ func faithReport(per [][]textFaith, correct []bool, haveGold bool, opt *FaithOpt
 	}
 	out.Texts = len(rows)
 	if haveGold && out.Texts > 0 {
-		out.Accuracy = float64(nCorrect) / float64(out.Texts)
+		acc := cnn.WilsonInterval(nCorrect, out.Texts, cnn.IntervalLevel)
+		out.Accuracy, out.AccuracyInterval = acc.Estimate, &acc
 	}
 	rng := rand.New(rand.NewPCG(opt.Seed, 0xfa17))
+	// The per-percent intervals draw from a stream of their own, so that the
+	// aggregates' intervals do not depend on how many percents there are.
+	binRng := rand.New(rand.NewPCG(opt.Seed, 0xfa18))
 	column := func(mi int, get func(textFaith) float64) []float64 {
 		var xs []float64
 		for _, r := range rows {
@@ -48,6 +54,8 @@ func faithReport(per [][]textFaith, correct []bool, haveGold bool, opt *FaithOpt
 			mf.Comprehensiveness = append(mf.Comprehensiveness, mean(c))
 			mf.Sufficiency = append(mf.Sufficiency, mean(s))
 			mf.PercentTexts = append(mf.PercentTexts, len(c))
+			mf.ComprehensivenessCI = append(mf.ComprehensivenessCI, bootstrapMean(c, opt.Resamples, binRng))
+			mf.SufficiencyCI = append(mf.SufficiencyCI, bootstrapMean(s, opt.Resamples, binRng))
 		}
 		comp := column(mi, func(f textFaith) float64 { return f.aggComp })
 		mf.AggregateTexts = len(comp)

@@ -75,8 +75,9 @@ func (v *resultsView) focusInput()                {}
 // it: the CNN's metrics, the figures with their intervals and the baseline.
 type resultsJSON struct {
 	cnn.Metrics
-	Figures  cnn.Figures      `json:"figures"`
-	Baseline *resultsBaseline `json:"baseline,omitempty"`
+	Figures   cnn.Figures         `json:"figures"`
+	Intervals cnn.MetricIntervals `json:"intervals"`
+	Baseline  *resultsBaseline    `json:"baseline,omitempty"`
 }
 
 type resultsBaseline struct {
@@ -89,7 +90,7 @@ func (v *resultsView) exportData() any {
 	if ms == nil || ms.Eval == nil {
 		return nil
 	}
-	out := resultsJSON{Metrics: ms.Eval.Metrics, Figures: ms.Eval.Figures}
+	out := resultsJSON{Metrics: ms.Eval.Metrics, Figures: ms.Eval.Figures, Intervals: cnn.IntervalsOf(ms.Eval.Metrics)}
 	if b := ms.Eval.Baseline; b != nil && ms.Model.Baseline != nil {
 		out.Baseline = &resultsBaseline{C: ms.Model.Baseline.Classifier.C, Metrics: b.Baseline}
 	}
@@ -140,15 +141,16 @@ func (v *resultsView) refresh() {
 	head, beside := figureLines(ms.Eval.Figures, ms.Model)
 	v.headline.SetText(fmt.Sprintf("Test split, %s: %s (%g%% intervals).", texts(m.N), head, 100*cnn.IntervalLevel))
 	v.beside.SetText(beside)
+	iv := cnn.IntervalsOf(m)
 	var rows [][]string
-	for _, c := range m.PerClass {
-		rows = append(rows, []string{c.Label, fmt.Sprintf("%.3f", c.Precision), fmt.Sprintf("%.3f", c.Recall),
-			fmt.Sprintf("%.3f", c.F1), fmt.Sprint(c.Support)})
+	for i, c := range m.PerClass {
+		ci := iv.PerClass[i]
+		rows = append(rows, []string{c.Label, ci.Precision.String(), ci.Recall.String(), ci.F1.String(), fmt.Sprint(c.Support)})
 	}
-	rows = append(rows, []string{"(weighted by support)", "", "", fmt.Sprintf("%.3f", m.WeightedF1), fmt.Sprint(m.N)})
+	rows = append(rows, []string{"(weighted by support)", "", "", iv.WeightedF1.String(), fmt.Sprint(m.N)})
 	v.classes.setRows(rows)
 	v.confusion.set(m)
-	v.reliability.set(reliabilityPlot(ms.Eval))
+	v.reliability.set(reliabilityPlot(ms.Eval, iv.ECE))
 	// Open on the most frequent confusion, so the list is not empty.
 	g, p := mostConfused(m)
 	v.showCell(g, p)
@@ -188,9 +190,14 @@ func mostConfused(m cnn.Metrics) (gold, pred int) {
 }
 
 // reliabilityPlot draws accuracy against confidence per equal-width bin,
-// with the diagonal of perfect calibration.
-func reliabilityPlot(ev *evaluation) *plot.Plot {
-	p := newPlot(fmt.Sprintf("Reliability (test split): ECE %.3f over %d bins", ev.Metrics.ECE, cnn.DefaultBins), "confidence of the predicted label", "accuracy")
+// with the diagonal of perfect calibration; the title gives the ECE with
+// its interval ece (nil when the confidences are not known).
+func reliabilityPlot(ev *evaluation, ece *cnn.Interval) *plot.Plot {
+	e := fmt.Sprintf("%.3f (no interval: the confidences are not known)", ev.Metrics.ECE)
+	if ece != nil {
+		e = fmt.Sprintf("%s, %g%% interval", ece, 100*cnn.IntervalLevel)
+	}
+	p := newPlot(fmt.Sprintf("Reliability (test split): ECE %s over %d bins", e, cnn.DefaultBins), "confidence of the predicted label", "accuracy")
 	bins := reliabilityBins(ev, cnn.DefaultBins)
 	diag, _ := plotter.NewLine(plotter.XYs{{X: 0, Y: 0}, {X: 1, Y: 1}})
 	if diag != nil {

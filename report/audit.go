@@ -93,7 +93,7 @@ func DescribeAction(r *audit.Result) *ActionEvidence {
 			verdict = "helps there"
 		}
 		ae.Mask = fmt.Sprintf("Masking filters %s, chosen on the choosing half, %s: accuracy on the confirming half %s → %s "+
-			"(%s fixed, %s broken, one-sided exact McNemar p %s).", ints(t.Filters), verdict, num(t.Accuracy), num(t.AccuracyMasked),
+			"(%s fixed, %s broken, one-sided exact McNemar p %s).", ints(t.Filters), verdict, accuracy(t.Before), accuracy(t.After),
 			count(t.Fixed), count(t.Broken), pvalue(t.P))
 	}
 	return ae

@@ -21,8 +21,11 @@ var cueSignals = []string{audit.SignalEdge, audit.SignalLine, audit.SignalSpan, 
 // p-value and the corrected one); artifact-likeness and every signal's
 // value; reliance on the confirming half ("half" says when only the
 // choosing half measured it), each rate with its 95% bootstrap interval
-// and the sign tests; the rank score; the keyed filters (space-separated)
-// and the accuracy on the confirming half before and with them masked.
+// and the sign tests (empty where the half holds the cue in too few texts
+// to measure); the rank score; the keyed filters (space-separated) and the
+// accuracy on the confirming half before and with them masked, then the
+// bounds of those accuracies' 95% Wilson intervals and the one-sided exact
+// McNemar p-value of masking.
 func CueTable(r *audit.Result) *Table {
 	cols := []string{"list", "rank", "cue", "surface", "label", "verdict", "mark", "pattern",
 		"train_texts", "in_label", "label_share", "label_share_low", "label_share_high", "p", "adjusted_p", "artifact_likeness"}
@@ -33,7 +36,8 @@ func CueTable(r *audit.Result) *Table {
 	for _, x := range []string{"flip_rate", "control_flip_rate", "label_drop", "prob_drop", "decided"} {
 		cols = append(cols, x, x+"_low", x+"_high")
 	}
-	cols = append(cols, "reliance_p", "flip_p", "score", "filters", "filters_accuracy", "filters_accuracy_masked")
+	cols = append(cols, "reliance_p", "flip_p", "score", "filters", "filters_accuracy", "filters_accuracy_masked",
+		"filters_accuracy_low", "filters_accuracy_high", "filters_accuracy_masked_low", "filters_accuracy_masked_high", "filters_p")
 	t := &Table{Columns: cols}
 	for _, l := range []struct {
 		name string
@@ -64,9 +68,13 @@ func cueRow(list string, rank int, c *audit.Candidate) []any {
 	if rl == nil {
 		rl, half = c.Reliance, "choosing"
 	}
-	if rl == nil {
+	switch {
+	case rl == nil:
 		row = append(row, make([]any, 3+5*3+2)...)
-	} else {
+	case rl.Measured == 0: // too few texts: no figure
+		row = append(row, half, rl.Texts, rl.Measured)
+		row = append(row, make([]any, 5*3+2)...)
+	default:
 		row = append(row, half, rl.Texts, rl.Measured)
 		for _, x := range []audit.Interval{rl.FlipRate, rl.ControlFlipRate, rl.LabelDrop, rl.ProbDrop, rl.Decided} {
 			row = append(row, x.Estimate, x.Low, x.High)
@@ -75,9 +83,10 @@ func cueRow(list string, rank int, c *audit.Candidate) []any {
 	}
 	row = append(row, c.Score)
 	if f := c.Filters; f != nil && f.Ablation != nil {
-		row = append(row, joinInts(f.Keyed), f.Ablation.Accuracy, f.Ablation.AccuracyMasked)
+		ab := f.Ablation
+		row = append(row, joinInts(f.Keyed), ab.Accuracy, ab.AccuracyMasked, ab.Before.Low, ab.Before.High, ab.After.Low, ab.After.High, ab.P)
 	} else {
-		row = append(row, "", nil, nil)
+		row = append(row, "", nil, nil, nil, nil, nil, nil, nil)
 	}
 	return row
 }

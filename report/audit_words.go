@@ -78,7 +78,7 @@ func DescribeCue(c *audit.Candidate, r *audit.Result, priors []float64) CueEvide
 		ab := f.Ablation
 		ev.Filters = fmt.Sprintf("%s read it (%s); masked together, the accuracy on the confirming half goes from %s to %s "+
 			"(%s fixed, %s broken, one-sided exact McNemar p %s) and %s of the %s texts there that hold it change their prediction",
-			plural(len(f.Keyed), "filter"), ints(f.Keyed), num(ab.Accuracy), num(ab.AccuracyMasked), count(ab.Fixed), count(ab.Broken),
+			plural(len(f.Keyed), "filter"), ints(f.Keyed), accuracy(ab.Before), accuracy(ab.After), count(ab.Fixed), count(ab.Broken),
 			pvalue(ab.P), count(ab.CueFlipped), count(ab.CueTexts))
 	}
 	if rl := shown(c); rl != nil {
@@ -115,8 +115,11 @@ func reliance(c *audit.Candidate) string {
 	if rl == nil {
 		rl, half = c.Reliance, "choosing"
 	}
-	if rl == nil || rl.Measured == 0 {
+	if rl == nil {
 		return ""
+	}
+	if rl.Measured == 0 {
+		return fmt.Sprintf("too few texts (%s) in the %s half to measure", count(rl.Texts), half)
 	}
 	edited := ""
 	if rl.Measured < rl.Texts {
@@ -130,9 +133,10 @@ func reliance(c *audit.Candidate) string {
 		"when the same words go elsewhere; the probability of %s falls by %s (sign test p %s); it decides %s of all predictions there",
 		texts, edited, interval(rl.FlipRate), interval(rl.ControlFlipRate), c.Label, drop(rl.LabelDrop), pvalue(rl.P),
 		interval(rl.Decided))
-	if cf := rl.Conflict; cf != nil && cf.Texts >= 5 {
-		s += fmt.Sprintf("; on the %s of them whose label is not %s, accuracy goes from %s to %s without it",
-			count(cf.Texts), c.Label, num(cf.Accuracy), num(cf.AccuracyReplaced))
+	if cf := rl.Conflict; cf != nil {
+		s += fmt.Sprintf("; on the %s of them whose label is not %s, accuracy goes from %s to %s without it "+
+			"(%s fixed, %s broken, two-sided exact McNemar p %s)",
+			count(cf.Texts), c.Label, accuracy(cf.Before), accuracy(cf.After), count(cf.Fixed), count(cf.Broken), pvalue(cf.P))
 	}
 	if half == "choosing" {
 		s += " (measured on the choosing half only)"

@@ -280,11 +280,16 @@ func ProfileTable(p *explain.Profiles) *Table {
 	return t
 }
 
-// MetricsTable has one row per class: precision, recall, F1 and support.
+// MetricsTable has one row per class: precision, recall, F1 and support,
+// then the bounds of their 95% intervals (cnn.IntervalsOf).
 func MetricsTable(m cnn.Metrics) *Table {
-	t := &Table{Columns: []string{"label", "precision", "recall", "f1", "support"}}
-	for _, c := range m.PerClass {
-		t.Add(c.Label, c.Precision, c.Recall, c.F1, c.Support)
+	t := &Table{Columns: []string{"label", "precision", "recall", "f1", "support",
+		"precision_low", "precision_high", "recall_low", "recall_high", "f1_low", "f1_high"}}
+	iv := cnn.IntervalsOf(m)
+	for i, c := range m.PerClass {
+		ci := iv.PerClass[i]
+		t.Add(c.Label, c.Precision, c.Recall, c.F1, c.Support,
+			ci.Precision.Low, ci.Precision.High, ci.Recall.Low, ci.Recall.High, ci.F1.Low, ci.F1.High)
 	}
 	return t
 }

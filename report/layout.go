@@ -309,8 +309,13 @@ func metrics(in Input) (*metricsView, error) {
 			b.CNN.N, b.CNN.Accuracy, mt.N, mt.Accuracy)
 	}
 	fig := cnn.FiguresOf(*mt, in.Baseline)
+	iv := cnn.IntervalsOf(*mt)
+	ece := num(mt.ECE) + " (no interval: the confidences are not known)"
+	if iv.ECE != nil {
+		ece = iv.ECE.String()
+	}
 	mv := &metricsView{Split: split, Note: note, N: count(mt.N), Accuracy: fig.CNN.Accuracy.String(), MacroF1: fig.CNN.MacroF1.String(),
-		WeightedF1: num(mt.WeightedF1), ECE: num(mt.ECE), Labels: mt.Labels, Level: fmt.Sprintf("%g%%", 100*cnn.IntervalLevel)}
+		WeightedF1: iv.WeightedF1.String(), ECE: ece, Labels: mt.Labels, Level: fmt.Sprintf("%g%%", 100*cnn.IntervalLevel)}
 	mv.Figures = []figureRow{{Model: "CNN", Accuracy: fig.CNN.Accuracy.String(), MacroF1: fig.CNN.MacroF1.String()}}
 	if fig.Baseline != nil {
 		mv.Figures = append(mv.Figures, figureRow{Model: "Linear baseline", Note: baselineNote(in.Model),
@@ -318,8 +323,9 @@ func metrics(in Input) (*metricsView, error) {
 		sentence := fig.McNemar.Sentence()
 		mv.McNemar = strings.ToUpper(sentence[:1]) + sentence[1:] + "."
 	}
-	for _, c := range mt.PerClass {
-		mv.Rows = append(mv.Rows, classRow{c.Label, num(c.Precision), num(c.Recall), num(c.F1), count(c.Support)})
+	for i, c := range mt.PerClass {
+		ci := iv.PerClass[i]
+		mv.Rows = append(mv.Rows, classRow{c.Label, ci.Precision.String(), ci.Recall.String(), ci.F1.String(), count(c.Support)})
 	}
 	most := 0
 	for _, row := range mt.Confusion {
@@ -357,10 +363,16 @@ func metrics(in Input) (*metricsView, error) {
 				continue
 			}
 			mv.Bins = append(mv.Bins, binRow{Range: fmt.Sprintf("(%.2f, %.2f]", b.Lo, b.Hi), Count: count(b.Count),
-				Confidence: num(b.Conf), Accuracy: num(b.Acc), Gap: signed(b.Acc - b.Conf)})
+				Confidence: num(b.Conf), Accuracy: binAccuracy(b).String(), Gap: signed(b.Acc - b.Conf)})
 		}
 	}
 	return mv, nil
+}
+
+// binAccuracy is the accuracy of a reliability bin with its Wilson
+// interval: a share of the bin's count.
+func binAccuracy(b cnn.ReliabilityBin) cnn.Interval {
+	return cnn.WilsonInterval(int(math.Round(b.Acc*float64(b.Count))), b.Count, cnn.IntervalLevel)
 }
 
 // baselineNote says what the baseline is and how its C was chosen (on the

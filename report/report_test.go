@@ -45,20 +45,29 @@ func TestDemoSections(t *testing.T) {
 	}
 	mt := d.input.Metrics
 	head := cnn.HeadlineOf(*mt)
+	iv := cnn.IntervalsOf(*mt)
+	if iv.ECE == nil {
+		t.Fatal("the demo's metrics carry no confidences: no ECE interval")
+	}
 	want := []string{
 		"<title>Ferry desk demo</title>",
 		"Accuracy</span><span class=\"v\">" + head.Accuracy.String() + "<",
 		"Macro-F1</span><span class=\"v\">" + head.MacroF1.String() + "<",
-		"ECE</span><span class=\"v\">" + num(mt.ECE) + "<",
+		"ECE</span><span class=\"v\">" + iv.ECE.String() + "<",
 		"Evaluated on", "test split, 300 texts",
-		"expected calibration error " + num(mt.ECE),
+		"expected calibration error " + iv.ECE.String(),
+		"weighted F1 " + iv.WeightedF1.String(),
 		// the training record
 		"<th>Filter widths</th><td>2, 3</td>",
 		"<th>Optimizer</th><td>adam</td>",
 		"Never use this model, or this report, as the only basis for a decision about a person.",
 	}
-	for _, c := range mt.PerClass {
-		want = append(want, "<td>"+c.Label+"</td><td class=\"num\">"+num(c.Precision)+"</td><td class=\"num\">"+num(c.Recall)+"</td><td class=\"num\">"+num(c.F1)+"</td><td class=\"num\">"+count(c.Support)+"</td>")
+	for i, c := range mt.PerClass {
+		ci := iv.PerClass[i]
+		if ci.Precision.Estimate != c.Precision || ci.Recall.Estimate != c.Recall || ci.F1.Estimate != c.F1 {
+			t.Errorf("class %s: intervals %+v of other figures than %+v", c.Label, ci, c)
+		}
+		want = append(want, "<td>"+c.Label+"</td><td class=\"num\">"+ci.Precision.String()+"</td><td class=\"num\">"+ci.Recall.String()+"</td><td class=\"num\">"+ci.F1.String()+"</td><td class=\"num\">"+count(c.Support)+"</td>")
 	}
 	for g, row := range mt.Confusion {
 		for p, v := range row {

@@ -1,0 +1,243 @@
+package cnn
+
+import (
+	"encoding/json"
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"telltale/internal/testref"
+)
+
+// randomPredictions draws n (gold, predicted, confidence) triples over k
+// classes, right about 70% of the time, more often the more confident.
+func randomPredictions(rng *rand.Rand, k, n int) (gold, pred []int, conf []float64) {
+	gold, pred, conf = make([]int, n), make([]int, n), make([]float64, n)
+	for i := range gold {
+		gold[i] = rng.IntN(k)
+		conf[i] = 1/float64(k) + (1-1/float64(k))*rng.Float64()
+		pred[i] = gold[i]
+		if rng.Float64() > conf[i]*0.9 {
+			pred[i] = rng.IntN(k)
+		}
+	}
+	return gold, pred, conf
+}
+
+// The F1s the bootstrap resamples are ComputeMetrics' own, bit for bit, and
+// its macro-F1 interval is BootstrapMacroF1's: one set of resamples.
+func TestBootstrapF1sIsComputeMetrics(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	for i := range 100 {
+		k := 2 + rng.IntN(4)
+		gold, pred, conf := randomPredictions(rng, k-i%2, 1+rng.IntN(80))
+		m := ComputeMetrics(make([]string, k), gold, pred, conf, 10)
+		f := BootstrapF1s(m.Confusion, 50, 0.95, uint64(i))
+		if f.Macro != BootstrapMacroF1(m.Confusion, 50, 0.95, uint64(i)) {
+			t.Fatalf("case %d: macro %+v, BootstrapMacroF1 %+v", i, f.Macro, BootstrapMacroF1(m.Confusion, 50, 0.95, uint64(i)))
+		}
+		if f.Weighted.Estimate != m.WeightedF1 || len(f.PerClass) != k {
+			t.Fatalf("case %d: weighted %+v, ComputeMetrics %v", i, f.Weighted, m.WeightedF1)
+		}
+		for c, iv := range f.PerClass {
+			if iv.Estimate != m.PerClass[c].F1 || !(0 <= iv.Low && iv.Low <= iv.High && iv.High <= 1) {
+				t.Fatalf("case %d class %d: %+v, ComputeMetrics %v", i, c, iv, m.PerClass[c].F1)
+			}
+		}
+		e := BootstrapECE(conf, correctOf(gold, pred), 10, 50, 0.95, uint64(i))
+		if e.Estimate != m.ECE || !(0 <= e.Low && e.Low <= e.High && e.High <= 1) {
+			t.Fatalf("case %d: ECE %+v, ComputeMetrics %v", i, e, m.ECE)
+		}
+	}
+	if e := BootstrapECE(nil, nil, 0, 10, 0.95, 1); e.Low != 0 || e.High != 1 {
+		t.Errorf("ECE of no text: %+v, want [0, 1]", e)
+	}
+}
+
+func correctOf(gold, pred []int) []bool {
+	ok := make([]bool, len(gold))
+	for i := range gold {
+		ok[i] = gold[i] == pred[i]
+	}
+	return ok
+}
+
+// IntervalsOf: Wilson on each class's precision (right of predicted) and
+// recall (right of gold), the bootstrap's F1s, and the ECE only when the
+// metrics carry confidences.
+func TestIntervalsOf(t *testing.T) {
+	gold := []int{0, 0, 0, 1, 1, 1, 1, 2, 2, 2}
+	pred := []int{0, 0, 1, 1, 1, 1, 2, 2, 2, 0}
+	conf := []float64{0.9, 0.8, 0.6, 0.7, 0.95, 0.5, 0.4, 0.85, 0.75, 0.55}
+	m := ComputeMetrics([]string{"a", "b", "c"}, gold, pred, conf, 5)
+	iv := IntervalsOf(m)
+	f := BootstrapF1s(m.Confusion, BootstrapResamples, IntervalLevel, BootstrapSeed)
+	// Class b: 3 right of 4 predicted b, 3 right of 4 gold b.
+	if iv.PerClass[1].Precision != WilsonInterval(3, 4, IntervalLevel) || iv.PerClass[1].Recall != WilsonInterval(3, 4, IntervalLevel) ||
+		iv.PerClass[1].F1 != f.PerClass[1] || iv.PerClass[1].Label != "b" || iv.WeightedF1 != f.Weighted {
+		t.Errorf("intervals %+v", iv)
+	}
+	// Class a: 2 right of 3 predicted a, 2 of 3 gold a.
+	if iv.PerClass[0].Precision != WilsonInterval(2, 3, IntervalLevel) || iv.PerClass[0].Precision.Estimate != m.PerClass[0].Precision {
+		t.Errorf("class a: %+v, metrics %+v", iv.PerClass[0], m.PerClass[0])
+	}
+	if iv.ECE == nil || *iv.ECE != BootstrapECE(conf, correctOf(gold, pred), 5, BootstrapResamples, IntervalLevel, BootstrapSeed) {
+		t.Errorf("ECE %+v", iv.ECE)
+	}
+	var back Metrics
+	js, _ := json.Marshal(m)
+	if err := json.Unmarshal(js, &back); err != nil {
+		t.Fatal(err)
+	}
+	if IntervalsOf(back).ECE != nil {
+		t.Errorf("metrics read back from JSON have no confidences, yet an ECE interval")
+	}
+}
+
+// The weighted-F1, per-class F1 and ECE intervals against SciPy's
+// scipy.stats.bootstrap (Debian's python3-scipy; paired resampling of the
+// texts, method="percentile"), live. The two draw different resamples, so
+// the endpoints agree only up to the Monte Carlo error of 20,000 resamples
+// each: about 0.001 here, tolerance 0.005.
+func TestBootstrapF1sAndECEAgainstSciPy(t *testing.T) {
+	testref.RequirePython(t, "scipy")
+	rng := rand.New(rand.NewPCG(31, 32))
+	type tc struct {
+		K    int       `json:"k"`
+		Gold []int     `json:"gold"`
+		Pred []int     `json:"pred"`
+		Conf []float64 `json:"conf"`
+	}
+	var cases []tc
+	for _, kn := range [][2]int{{2, 300}, {3, 400}} {
+		g, p, c := randomPredictions(rng, kn[0], kn[1])
+		cases = append(cases, tc{kn[0], g, p, c})
+	}
+	js, _ := json.Marshal(cases)
+	script := `
+import json, sys
+import numpy as np
+from scipy.stats import bootstrap
+def f1s(k):
+    def stat(g, p, axis=-1):
+        out, sup = [], []
+        for c in range(k):
+            tp = np.sum((g == c) & (p == c), axis=axis)
+            fp = np.sum((g != c) & (p == c), axis=axis)
+            fn = np.sum((g == c) & (p != c), axis=axis)
+            den = 2 * tp + fp + fn
+            out.append(np.where(den > 0, 2 * tp / np.maximum(den, 1), 0.0))
+            sup.append(tp + fn)
+        w = np.sum([f * s for f, s in zip(out, sup)], axis=0) / np.sum(sup, axis=0)
+        return np.stack([w] + out)
+    return stat
+def ece(conf, ok, axis=-1):
+    b = np.clip(np.ceil(conf * 15).astype(int) - 1, 0, 14)
+    gap = ok - conf
+    return sum(np.abs(np.sum(np.where(b == m, gap, 0.0), axis=axis)) for m in range(15)) / conf.shape[-1]
+out = []
+for c in json.load(sys.stdin):
+    g, p, conf = np.array(c["gold"]), np.array(c["pred"]), np.array(c["conf"])
+    rf = bootstrap((g, p), f1s(c["k"]), paired=True, vectorized=True, n_resamples=20000,
+                   confidence_level=0.95, method="percentile", random_state=np.random.default_rng(1))
+    ok = (g == p).astype(float)
+    re = bootstrap((conf, ok), ece, paired=True, vectorized=True, n_resamples=20000,
+                   confidence_level=0.95, method="percentile", random_state=np.random.default_rng(2))
+    out.append({"f1": [list(map(float, f1s(c["k"])(g, p))), list(map(float, rf.confidence_interval.low)), list(map(float, rf.confidence_interval.high))],
+                "ece": [float(ece(conf, ok)), float(re.confidence_interval.low), float(re.confidence_interval.high)]})
+print(json.dumps(out))
+`
+	var want []struct {
+		F1  [3][]float64 `json:"f1"`
+		ECE [3]float64   `json:"ece"`
+	}
+	runPython(t, script, js, &want)
+	for i, c := range cases {
+		f := BootstrapF1s(confusionOf(c.Gold, c.Pred, c.K), 20000, 0.95, 1)
+		ours := append([]Interval{f.Weighted}, f.PerClass...)
+		for j, iv := range ours {
+			w := [3]float64{want[i].F1[0][j], want[i].F1[1][j], want[i].F1[2][j]}
+			t.Logf("%d classes, figure %d: ours %.4f–%.4f, SciPy %.4f–%.4f", c.K, j, iv.Low, iv.High, w[1], w[2])
+			if !testref.Close(iv.Estimate, w[0], 1e-12, 0) || !testref.Close(iv.Low, w[1], 5e-3, 0) || !testref.Close(iv.High, w[2], 5e-3, 0) {
+				t.Errorf("%d classes, figure %d (0 weighted, then each class's F1): %+v; SciPy %v", c.K, j, iv, w)
+			}
+		}
+		e := BootstrapECE(c.Conf, correctOf(c.Gold, c.Pred), 15, 20000, 0.95, 1)
+		w := want[i].ECE
+		t.Logf("%d classes, ECE: ours %.4f–%.4f, SciPy %.4f–%.4f", c.K, e.Low, e.High, w[1], w[2])
+		if !testref.Close(e.Estimate, w[0], 1e-12, 0) || !testref.Close(e.Low, w[1], 5e-3, 0) || !testref.Close(e.High, w[2], 5e-3, 0) {
+			t.Errorf("%d classes, ECE %+v; SciPy %v", c.K, e, w)
+		}
+	}
+}
+
+// The coverage of the weighted-F1 and per-class F1 intervals, by
+// simulation (seeded), as TestBootstrapMacroF1Coverage: the share of
+// intervals holding the distribution's own figure must be within three
+// binomial standard errors of 95%.
+func TestBootstrapF1sCoverage(t *testing.T) {
+	sets := 300
+	if testing.Short() {
+		sets = 100
+	}
+	p := [][]float64{{0.27, 0.04, 0.02}, {0.03, 0.25, 0.05}, {0.02, 0.06, 0.26}}
+	n, k := 300, 3
+	truthClass := make([]float64, k)
+	truthW := 0.0
+	for c := range k {
+		tp, fp, fn := p[c][c], 0.0, 0.0
+		for o := range k {
+			if o != c {
+				fp += p[o][c]
+				fn += p[c][o]
+			}
+		}
+		truthClass[c] = 2 * tp / (2*tp + fp + fn)
+		truthW += truthClass[c] * (tp + fn)
+	}
+	var cum []float64
+	acc := 0.0
+	for _, row := range p {
+		for _, v := range row {
+			acc += v
+			cum = append(cum, acc)
+		}
+	}
+	rng := rand.New(rand.NewPCG(41, 42))
+	coveredW, coveredC := 0, make([]int, k)
+	for s := range sets {
+		conf := make([][]int, k)
+		for g := range conf {
+			conf[g] = make([]int, k)
+		}
+		for range n {
+			u := rng.Float64() * acc
+			cell := 0
+			for cell < len(cum)-1 && u >= cum[cell] {
+				cell++
+			}
+			conf[cell/k][cell%k]++
+		}
+		f := BootstrapF1s(conf, 1000, 0.95, uint64(s))
+		if f.Weighted.Low <= truthW && truthW <= f.Weighted.High {
+			coveredW++
+		}
+		for c, iv := range f.PerClass {
+			if iv.Low <= truthClass[c] && truthClass[c] <= iv.High {
+				coveredC[c]++
+			}
+		}
+	}
+	tol := 3 * math.Sqrt(0.05*0.95/float64(sets))
+	check := func(name string, covered int) {
+		share := float64(covered) / float64(sets)
+		t.Logf("%s: coverage %.3f over %d sets (tolerance ±%.3f)", name, share, sets, tol)
+		if share < 0.95-tol || share > 0.95+tol {
+			t.Errorf("%s: coverage %.3f of the 95%% interval over %d sets, outside 0.95 ± %.3f", name, share, sets, tol)
+		}
+	}
+	check("weighted F1", coveredW)
+	for c, n := range coveredC {
+		check("F1 of class "+string(rune('a'+c)), n)
+	}
+}
