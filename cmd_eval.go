@@ -231,7 +231,7 @@ func writeMetrics(w io.Writer, m cnn.Metrics, iv cnn.MetricIntervals, bins int) 
 
 // eceText is the ECE with its interval, or the point value with why it has
 // none.
-func eceText(ece float64, iv *cnn.Interval) string {
+func eceText(ece float64, iv *cnn.CalibrationFigure) string {
 	if iv == nil {
 		return fmt.Sprintf("%.3f (no interval: the confidences are not known)", ece)
 	}

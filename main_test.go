@@ -311,7 +311,10 @@ func checkEvalIntervals(t *testing.T, out string) {
 		t.Fatalf("eval --json: intervals %+v", iv)
 	}
 	holds("weighted_f1", iv.WeightedF1, ev.WeightedF1)
-	holds("ece", *iv.ECE, ev.ECE)
+	holds("ece", iv.ECE.Interval, ev.ECE)
+	if !(iv.ECE.P > 0 && iv.ECE.P <= 1) {
+		t.Errorf("eval --json: the calibration test's p-value %v", iv.ECE.P)
+	}
 	for c, pc := range ev.PerClass {
 		holds(pc.Label+" precision", iv.PerClass[c].Precision, pc.Precision)
 		holds(pc.Label+" recall", iv.PerClass[c].Recall, pc.Recall)

@@ -98,7 +98,8 @@ func weightedF1Of(flat []int, k int, f1 []float64) float64 {
 // "Verified Uncertainty Calibration", NeurIPS, recalled from memory), and
 // the percentile interval inherits the bias: for a model whose true ECE is
 // near 0 it falls short of its level, and for a perfectly calibrated one it
-// never reaches 0. It is checked against SciPy, not by coverage.
+// never reaches 0. It is checked against SciPy, not by coverage; the
+// tool shows it with CalibrationTest, which holds its level at any ECE.
 func BootstrapECE(conf []float64, correct []bool, bins, resamples int, level float64, seed uint64) Interval {
 	if len(conf) != len(correct) {
 		panic("cnn: BootstrapECE: conf and correct differ in length")
@@ -141,9 +142,10 @@ func BootstrapECE(conf []float64, correct []bool, bins, resamples int, level flo
 // class's precision, recall and F1, all at IntervalLevel.
 type MetricIntervals struct {
 	WeightedF1 Interval `json:"weighted_f1"` // percentile bootstrap over texts
-	// ECE is the percentile bootstrap over texts; nil when the metrics
-	// carry no confidences (read back from JSON, or computed without).
-	ECE      *Interval        `json:"ece,omitempty"`
+	// ECE is the percentile bootstrap over texts with the p-value of
+	// CalibrationTest; nil when the metrics carry no confidences (read
+	// back from JSON, or computed without).
+	ECE      *CalibrationFigure `json:"ece,omitempty"`
 	PerClass []ClassIntervals `json:"per_class"`
 }
 
@@ -159,8 +161,8 @@ type ClassIntervals struct {
 }
 
 // IntervalsOf is the intervals of m's figures: Wilson for each class's
-// precision and recall, BootstrapF1s for the F1s and BootstrapECE for the
-// ECE (with the bins m was computed with), each bootstrap with
+// precision and recall, BootstrapF1s for the F1s and BootstrapECE with
+// CalibrationTest for the ECE (with the bins m was computed with), each with
 // BootstrapResamples resamples seeded by BootstrapSeed, as HeadlineOf.
 // Each Estimate is m's own figure.
 func IntervalsOf(m Metrics) MetricIntervals {
@@ -181,7 +183,7 @@ func IntervalsOf(m Metrics) MetricIntervals {
 	}
 	if m.conf != nil {
 		e := BootstrapECE(m.conf, m.correct, m.bins, BootstrapResamples, IntervalLevel, BootstrapSeed)
-		out.ECE = &e
+		out.ECE = &CalibrationFigure{Interval: e, P: CalibrationTest(m.conf, m.correct, m.bins, CalibrationDraws, BootstrapSeed)}
 	}
 	return out
 }

@@ -81,7 +81,8 @@ func TestIntervalsOf(t *testing.T) {
 	if iv.PerClass[0].Precision != WilsonInterval(2, 3, IntervalLevel) || iv.PerClass[0].Precision.Estimate != m.PerClass[0].Precision {
 		t.Errorf("class a: %+v, metrics %+v", iv.PerClass[0], m.PerClass[0])
 	}
-	if iv.ECE == nil || *iv.ECE != BootstrapECE(conf, correctOf(gold, pred), 5, BootstrapResamples, IntervalLevel, BootstrapSeed) {
+	if iv.ECE == nil || iv.ECE.Interval != BootstrapECE(conf, correctOf(gold, pred), 5, BootstrapResamples, IntervalLevel, BootstrapSeed) ||
+		iv.ECE.P != CalibrationTest(conf, correctOf(gold, pred), 5, CalibrationDraws, BootstrapSeed) {
 		t.Errorf("ECE %+v", iv.ECE)
 	}
 	var back Metrics

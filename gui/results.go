@@ -192,7 +192,7 @@ func mostConfused(m cnn.Metrics) (gold, pred int) {
 // reliabilityPlot draws accuracy against confidence per equal-width bin,
 // with the diagonal of perfect calibration; the title gives the ECE with
 // its interval ece (nil when the confidences are not known).
-func reliabilityPlot(ev *evaluation, ece *cnn.Interval) *plot.Plot {
+func reliabilityPlot(ev *evaluation, ece *cnn.CalibrationFigure) *plot.Plot {
 	e := fmt.Sprintf("%.3f (no interval: the confidences are not known)", ev.Metrics.ECE)
 	if ece != nil {
 		e = fmt.Sprintf("%s, %g%% interval", ece, 100*cnn.IntervalLevel)

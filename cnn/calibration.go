@@ -1,0 +1,60 @@
+package cnn
+
+import (
+	"fmt"
+	"math/rand/v2"
+)
+
+// CalibrationDraws is the number of label sets CalibrationTest draws.
+const CalibrationDraws = 2000
+
+// CalibrationTest is the p-value of the consistency-resampling test of
+// Bröcker & Smith (2007, "Increasing the reliability of reliability
+// diagrams", Weather and Forecasting 22(3)): under the hypothesis that the
+// confidences are perfectly calibrated, prediction i is right with
+// probability conf[i]; draws sets of outcomes are drawn so (seeded by seed)
+// and the binned ECE of each (bins equal-width bins, as ComputeMetrics
+// computes it) is compared with the observed one. The p-value is
+// (1 + #{drawn ECE ≥ observed}) / (draws + 1). It answers what the ECE's
+// bootstrap interval cannot near 0 (see BootstrapECE): whether the
+// observed ECE is more than a calibrated model's would be on this many
+// texts. Preconditions: equal lengths, confidences in [0, 1], draws ≥ 1;
+// bins ≤ 0 means DefaultBins. With no text it is 1.
+func CalibrationTest(conf []float64, correct []bool, bins, draws int, seed uint64) float64 {
+	if len(conf) != len(correct) || draws < 1 {
+		panic("cnn: CalibrationTest: conf and correct differ in length, or draws < 1")
+	}
+	if len(conf) == 0 {
+		return 1
+	}
+	observed := expectedCalibrationError(conf, correct, bins)
+	r := rand.New(rand.NewPCG(seed, 0x2545f4914f6cdd1d))
+	drawn := make([]bool, len(conf))
+	atLeast := 0
+	for range draws {
+		for i, c := range conf {
+			drawn[i] = r.Float64() < c
+		}
+		// A tiny tolerance: a drawn set equal to the observed one counts.
+		if expectedCalibrationError(conf, drawn, bins) >= observed-1e-12 {
+			atLeast++
+		}
+	}
+	return float64(1+atLeast) / float64(draws+1)
+}
+
+// CalibrationFigure is the ECE with its percentile bootstrap interval and
+// the p-value of CalibrationTest: near 0 the interval falls short of its
+// level, and the test says whether the ECE is more than chance.
+type CalibrationFigure struct {
+	Interval
+	// P is CalibrationTest's p-value: small when the model is not
+	// calibrated.
+	P float64 `json:"calibration_p"`
+}
+
+// String writes the figure as the tool shows it:
+// "0.114 (0.090–0.140; test of perfect calibration p = 0.0005)".
+func (f CalibrationFigure) String() string {
+	return fmt.Sprintf("%.3f (%.3f–%.3f; test of perfect calibration p = %.2g)", f.Estimate, f.Low, f.High, f.P)
+}
