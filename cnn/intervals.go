@@ -146,7 +146,7 @@ type MetricIntervals struct {
 	// CalibrationTest; nil when the metrics carry no confidences (read
 	// back from JSON, or computed without).
 	ECE      *CalibrationFigure `json:"ece,omitempty"`
-	PerClass []ClassIntervals `json:"per_class"`
+	PerClass []ClassIntervals   `json:"per_class"`
 }
 
 // ClassIntervals are one class's precision and recall with their Wilson
