@@ -103,7 +103,7 @@ var Terms = []Term{
 		Formula: "artifact-like, relied on in the choosing half and confirmed in the confirming half (exact sign tests, Benjamini–Hochberg over the cues tested)",
 		Meaning: "the cues the audit tells you to remove; ranked first, then by reliance × artifact-likeness."},
 	{Name: "reads like the task", Topic: "cue audit",
-		Formula: "relied on, artifact-likeness below 0.5 (or marked task)",
+		Formula: "artifact-likeness below 0.5 (or marked task), relied on in the choosing half and confirmed in the confirming half (exact sign test after Benjamini–Hochberg, the intervals of the probability drop and of the net share of predictions changed above 0)",
 		Meaning: "listed apart for you to judge and never acted on; mark any that is an artifact."},
 	{Name: "without the cues", Topic: "cue audit",
 		Formula: "the confirming half with every occurrence of the cues acted on deleted",
