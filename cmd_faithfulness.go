@@ -163,7 +163,7 @@ func withCI(v float64, ci explain.Interval) string {
 	if math.IsNaN(v) {
 		return "–"
 	}
-	return fmt.Sprintf("%+.4f [%+.4f, %+.4f]", v, ci.Low, ci.High)
+	return fmt.Sprintf("%+.4f (%+.4f–%+.4f)", v, ci.Low, ci.High)
 }
 
 // pvalue writes a p-value with two significant digits; one that

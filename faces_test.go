@@ -316,7 +316,7 @@ func TestFaithfulnessText(t *testing.T) {
 		t.Fatalf("%d methods and %d pairs, want 4 and 18 (3 measures of 6 pairs)", len(r.Methods), len(r.Pairs))
 	}
 	for _, mf := range r.Methods {
-		line := fmt.Sprintf("%-10s  %+.4f [%+.4f, %+.4f]", mf.Method, *mf.Comp, *mf.CompCI.Low, *mf.CompCI.High)
+		line := fmt.Sprintf("%-10s  %+.4f (%+.4f–%+.4f)", mf.Method, *mf.Comp, *mf.CompCI.Low, *mf.CompCI.High)
 		if !strings.Contains(out, line) {
 			t.Errorf("the text lacks %q:\n%s", line, out)
 		}
@@ -326,7 +326,7 @@ func TestFaithfulnessText(t *testing.T) {
 				continue
 			}
 			ci := mf.ComprehensivenessCI[pi]
-			line := fmt.Sprintf("%-10s  %5g%%  %6d  %+.4f [%+.4f, %+.4f]", mf.Method, r.Percents[pi], mf.PercentTexts[pi], *c, *ci.Low, *ci.High)
+			line := fmt.Sprintf("%-10s  %5g%%  %6d  %+.4f (%+.4f–%+.4f)", mf.Method, r.Percents[pi], mf.PercentTexts[pi], *c, *ci.Low, *ci.High)
 			if !strings.Contains(out, line) {
 				t.Errorf("the text lacks %q:\n%s", line, out)
 			}
