@@ -177,11 +177,44 @@ func (j *relianceJob) measure(ctx context.Context, st *explain.SlotTable, worker
 // draw and text of chosen, counterfactual first); all are the texts holding
 // the cue.
 func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][]span, res []editResult) *Reliance {
+	n := len(chosen)
+	f := j.perText(r, chosen, res)
+	seed := seedOf(j.seed, j.key+"/boot")
+	r.FlipRate = BootstrapMean(f.flip, j.boot, 0.95, seed)
+	r.ControlFlipRate = BootstrapMean(f.ctlFlip, j.boot, 0.95, seed+1)
+	r.NetFlipRate = BootstrapMean(f.net, j.boot, 0.95, seed+2)
+	r.ProbDrop = BootstrapMean(f.drop, j.boot, 0.95, seed+3)
+	r.LabelDrop = BootstrapMean(f.ldrop, j.boot, 0.95, seed+5)
+	// Decided: the net flips of the measured texts scaled to every text
+	// holding the cue, over all texts of the half.
+	decided := make([]float64, j.half.Len())
+	scale := float64(len(all)) / float64(n)
+	for k, i := range chosen {
+		decided[i] = f.net[k] * scale
+	}
+	r.Decided = BootstrapMean(decided, j.boot, 0.95, seed+4)
+	r.FlipP = SignTest(r.More, r.Fewer)
+	r.P = SignTest(r.Lower, r.Higher)
+	r.Conflict = j.conflict(chosen, res)
+	j.addExamples(r, chosen, byText, res, f.ctlFlip)
+	return r
+}
+
+// textFigures are the per-text means over the draws, indexed like chosen:
+// the flip rates with the cue replaced and kept, their difference, and the
+// drops in the predicted class's and the cue label's probability.
+type textFigures struct {
+	flip, ctlFlip, net, drop, ldrop []float64
+}
+
+// perText computes the textFigures of the texts of chosen from their
+// edits' results res (as for summarize) and counts in r the texts whose
+// flips rose or fell (More, Fewer) and whose label probability fell or
+// rose (Lower, Higher).
+func (j *relianceJob) perText(r *Reliance, chosen []int, res []editResult) textFigures {
 	D := j.draws
 	n := len(chosen)
 	flip, ctlFlip, net, drop, ldrop := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
-	var conflictTexts, firstRight, fixed, broken int
-	var conflictRight, conflictReplaced float64
 	for k, i := range chosen {
 		yhat := j.base.pred[i]
 		for d := range D {
@@ -194,9 +227,6 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 			}
 			drop[k] += float64(ctl.prob - cf.prob)
 			ldrop[k] += float64(ctl.label - cf.label)
-			if j.half.Gold[i] != j.class && cf.pred == j.half.Gold[i] {
-				conflictReplaced++
-			}
 		}
 		flip[k] /= float64(D)
 		ctlFlip[k] /= float64(D)
@@ -215,45 +245,57 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 		case ldrop[k] < 0:
 			r.Higher++
 		}
-		if g := j.half.Gold[i]; g != j.class {
-			conflictTexts++
-			before, after := yhat == g, res[2*k*D].pred == g // the first draw's edit
-			if before {
-				conflictRight++
-			}
-			if after {
-				firstRight++
-			}
-			switch {
-			case after && !before:
-				fixed++
-			case before && !after:
-				broken++
+	}
+	return textFigures{flip: flip, ctlFlip: ctlFlip, net: net, drop: drop, ldrop: ldrop}
+}
+
+// conflict measures the texts of chosen whose gold class is not the cue's
+// label, from their edits' results res (as for summarize): accuracy before
+// and after the first draw's counterfactual, and over all counterfactuals.
+// It returns nil when fewer than j.minTexts such texts were measured.
+func (j *relianceJob) conflict(chosen []int, res []editResult) *Conflict {
+	D := j.draws
+	var texts, firstRight, fixed, broken int
+	var right, replaced float64
+	for k, i := range chosen {
+		g := j.half.Gold[i]
+		if g == j.class {
+			continue
+		}
+		for d := range D {
+			if res[2*(k*D+d)].pred == g {
+				replaced++
 			}
 		}
+		texts++
+		before, after := j.base.pred[i] == g, res[2*k*D].pred == g // the first draw's edit
+		if before {
+			right++
+		}
+		if after {
+			firstRight++
+		}
+		switch {
+		case after && !before:
+			fixed++
+		case before && !after:
+			broken++
+		}
 	}
-	seed := seedOf(j.seed, j.key+"/boot")
-	r.FlipRate = BootstrapMean(flip, j.boot, 0.95, seed)
-	r.ControlFlipRate = BootstrapMean(ctlFlip, j.boot, 0.95, seed+1)
-	r.NetFlipRate = BootstrapMean(net, j.boot, 0.95, seed+2)
-	r.ProbDrop = BootstrapMean(drop, j.boot, 0.95, seed+3)
-	r.LabelDrop = BootstrapMean(ldrop, j.boot, 0.95, seed+5)
-	// Decided: the net flips of the measured texts scaled to every text
-	// holding the cue, over all texts of the half.
-	decided := make([]float64, j.half.Len())
-	scale := float64(len(all)) / float64(n)
-	for k, i := range chosen {
-		decided[i] = net[k] * scale
+	if texts < j.minTexts {
+		return nil
 	}
-	r.Decided = BootstrapMean(decided, j.boot, 0.95, seed+4)
-	r.FlipP = SignTest(r.More, r.Fewer)
-	r.P = SignTest(r.Lower, r.Higher)
-	if conflictTexts >= j.minTexts {
-		r.Conflict = &Conflict{Texts: conflictTexts, Accuracy: conflictRight / float64(conflictTexts),
-			AccuracyReplaced: conflictReplaced / float64(conflictTexts*D),
-			Before:           wilsonInterval(int(conflictRight), conflictTexts), After: wilsonInterval(firstRight, conflictTexts),
-			Fixed: fixed, Broken: broken, P: mcNemarTwoSided(fixed, broken)}
-	}
+	return &Conflict{Texts: texts, Accuracy: right / float64(texts),
+		AccuracyReplaced: replaced / float64(texts*D),
+		Before:           wilsonInterval(int(right), texts), After: wilsonInterval(firstRight, texts),
+		Fixed: fixed, Broken: broken, P: mcNemarTwoSided(fixed, broken)}
+}
+
+// addExamples appends to r, up to j.examples of them in text order, the
+// texts of chosen whose first counterfactual changed the prediction while
+// no control edit did (ctlFlip as perText returns it).
+func (j *relianceJob) addExamples(r *Reliance, chosen []int, byText map[int][]span, res []editResult, ctlFlip []float64) {
+	D := j.draws
 	for k, i := range chosen {
 		if len(r.Examples) == j.examples {
 			break
@@ -264,7 +306,6 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 				Gold: j.labels[j.half.Gold[i]], Pred: j.labels[j.base.pred[i]], After: j.labels[cf.pred], Prob: float64(cf.prob)})
 		}
 	}
-	return r
 }
 
 // edit returns the two edits of one draw: cf has every span's tokens

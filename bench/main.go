@@ -138,31 +138,7 @@ func cmdTrain(args []string) error {
 	}
 	m.Tokenizer = p.meta.Tokenizer
 	if *inferOnly {
-		if m, err = cnn.Load(filepath.Join(*dir, "model.tt")); err != nil {
-			return err
-		}
-		start := time.Now()
-		texts := p.ids[:min(len(p.ids), *inferMax)]
-		for lo := 0; lo < len(texts); lo += 100 {
-			m.Probabilities(texts[lo:min(len(texts), lo+100)], *threads)
-		}
-		fmt.Printf("{\"infer_eps\": %.1f, \"loadavg\": %q}\n", float64(len(texts))/time.Since(start).Seconds(), loadavg())
-		if *inferProf == "" {
-			return nil
-		}
-		f, err := os.Create(*inferProf)
-		if err != nil {
-			return err
-		}
-		defer f.Close()
-		pprof.StartCPUProfile(f)
-		defer pprof.StopCPUProfile()
-		for range 5 {
-			for lo := 0; lo < len(texts); lo += 100 {
-				m.Probabilities(texts[lo:min(len(texts), lo+100)], *threads)
-			}
-		}
-		return nil
+		return inferSaved(filepath.Join(*dir, "model.tt"), p.ids[:min(len(p.ids), *inferMax)], *threads, *inferProf)
 	}
 	data := cnn.Data{IDs: p.ids, Labels: p.labels}
 	tc := cnn.TrainConfig{Epochs: *epochs, Seed: 1, Threads: *threads, Patience: -1}
@@ -173,16 +149,7 @@ func cmdTrain(args []string) error {
 	if err := m.Save(filepath.Join(*dir, "model.tt")); err != nil {
 		return err
 	}
-	r := result{Impl: "ours", Corpus: p.meta.Corpus, Threads: *threads, Texts: len(p.ids), Tokens: p.meta.Tokens,
-		Epochs: *epochs, SteadyEPS: res.ExamplesPerSec, E2ESeconds: sinceProcessStart(), PeakRSSMB: peakRSSMB(),
-		Kernel: cnn.KernelName()}
-	for _, e := range res.Epochs {
-		r.EpochSecs = append(r.EpochSecs, e.Seconds)
-		r.EpochTexts = append(r.EpochTexts, len(p.ids))
-		r.Loss = e.Loss
-	}
-	r.DenseGFLOPs = denseFlopsPerText(p.ids, cfg) * r.SteadyEPS / 1e9
-	r.ExecGFLOPs = execFlopsPerText(p.ids, cfg) * r.SteadyEPS / 1e9
+	r := trainingResult(p, cfg, res, *threads, *epochs)
 
 	// Inference in eval mode, batches of 100, the first inferMax texts.
 	texts := p.ids[:min(len(p.ids), *inferMax)]
@@ -199,9 +166,7 @@ func cmdTrain(args []string) error {
 	}
 	for pass := range 2 {
 		start := time.Now()
-		for lo := 0; lo < len(texts); lo += 100 {
-			m.Probabilities(texts[lo:min(len(texts), lo+100)], *threads)
-		}
+		inferBatches(m, texts, *threads)
 		eps := float64(len(texts)) / time.Since(start).Seconds()
 		if pass == 0 {
 			r.InferCold = eps
@@ -212,6 +177,56 @@ func cmdTrain(args []string) error {
 	r.InferTexts = len(texts)
 	r.Load = loadavg()
 	return emit(*out, r)
+}
+
+// inferBatches runs m in eval mode over texts in batches of 100.
+func inferBatches(m *cnn.Model, texts [][]int32, threads int) {
+	for lo := 0; lo < len(texts); lo += 100 {
+		m.Probabilities(texts[lo:min(len(texts), lo+100)], threads)
+	}
+}
+
+// inferSaved times one inference pass of the model saved at path over
+// texts and prints its rate; with profPath it then writes a CPU profile
+// of five more passes there.
+func inferSaved(path string, texts [][]int32, threads int, profPath string) error {
+	m, err := cnn.Load(path)
+	if err != nil {
+		return err
+	}
+	start := time.Now()
+	inferBatches(m, texts, threads)
+	fmt.Printf("{\"infer_eps\": %.1f, \"loadavg\": %q}\n", float64(len(texts))/time.Since(start).Seconds(), loadavg())
+	if profPath == "" {
+		return nil
+	}
+	f, err := os.Create(profPath)
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	pprof.StartCPUProfile(f)
+	defer pprof.StopCPUProfile()
+	for range 5 {
+		inferBatches(m, texts, threads)
+	}
+	return nil
+}
+
+// trainingResult is the record of our training run res on the prepared
+// corpus p with cfg, threads and epochs, before inference is timed.
+func trainingResult(p *prepared, cfg cnn.Config, res *cnn.TrainResult, threads, epochs int) result {
+	r := result{Impl: "ours", Corpus: p.meta.Corpus, Threads: threads, Texts: len(p.ids), Tokens: p.meta.Tokens,
+		Epochs: epochs, SteadyEPS: res.ExamplesPerSec, E2ESeconds: sinceProcessStart(), PeakRSSMB: peakRSSMB(),
+		Kernel: cnn.KernelName()}
+	for _, e := range res.Epochs {
+		r.EpochSecs = append(r.EpochSecs, e.Seconds)
+		r.EpochTexts = append(r.EpochTexts, len(p.ids))
+		r.Loss = e.Loss
+	}
+	r.DenseGFLOPs = denseFlopsPerText(p.ids, cfg) * r.SteadyEPS / 1e9
+	r.ExecGFLOPs = execFlopsPerText(p.ids, cfg) * r.SteadyEPS / 1e9
+	return r
 }
 
 // emit prints r and appends it to path when set.

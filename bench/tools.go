@@ -10,6 +10,7 @@ import (
 
 	"telltale/audit"
 	"telltale/cnn"
+	"telltale/corpus"
 	"telltale/explain"
 )
 
@@ -42,20 +43,9 @@ func cmdTools(args []string) error {
 	ctx := context.Background()
 	r := toolResult{Impl: "tools", Threads: *threads}
 	if *synthDir != "" {
-		p, err := readIDs(*synthDir)
-		if err != nil {
+		if err := r.timeProfiles(ctx, *synthDir); err != nil {
 			return err
 		}
-		m, err := cnn.Load(filepath.Join(*synthDir, "model.tt"))
-		if err != nil {
-			return err
-		}
-		start := time.Now()
-		if _, err := explain.Profile(ctx, m, p.ids, p.labels, explain.ProfileOptions{Workers: *threads}); err != nil {
-			return err
-		}
-		r.ProfileSeconds = time.Since(start).Seconds()
-		r.ProfileCorpus, r.ProfileTexts = p.meta.Corpus, len(p.ids)
 	}
 	if *spamDir != "" {
 		m, err := cnn.Load(filepath.Join(*spamDir, "model.tt"))
@@ -66,57 +56,90 @@ func cmdTools(args []string) error {
 		if err != nil {
 			return err
 		}
-		// One explanation of a 200-token text: exact shares and every
-		// single-token occlusion, the table built over the text's words.
-		enc, err := m.Encoder()
-		if err != nil {
+		if err := r.timeExplain(m, held); err != nil {
 			return err
 		}
-		enc.MaxTokens = 0
-		found := false
-		for _, e := range held.Examples {
-			toks, ids := enc.Encode(e.Text)
-			if len(ids) < 200 {
-				continue
-			}
-			toks, ids = toks[:200], ids[:200]
-			var ms []float64
-			for range 21 {
-				start := time.Now()
-				if _, err := explain.Explain(m, toks, ids, explain.ExplainOptions{Occlusion: true}); err != nil {
-					return err
-				}
-				ms = append(ms, float64(time.Since(start).Nanoseconds())/1e6)
-			}
-			r.ExplainTokens, r.ExplainMs, r.ExplainRuns = 200, median(ms), len(ms)
-			found = true
-			break
-		}
-		if !found {
-			return fmt.Errorf("tools: no held-out text of 200 tokens")
-		}
-		start := time.Now()
-		tr, err := audit.NewData(m, train, *threads)
-		if err != nil {
+		if err := r.timeAudit(ctx, m, train, held); err != nil {
 			return err
 		}
-		ho, err := audit.NewData(m, held, *threads)
-		if err != nil {
-			return err
-		}
-		cutTokens(&tr, spamMaxLen)
-		cutTokens(&ho, spamMaxLen)
-		r.AuditPrepSecond = time.Since(start).Seconds()
-		start = time.Now()
-		if _, err := audit.Run(ctx, m, tr, ho, audit.Options{Seed: 3, Workers: *threads}, nil); err != nil {
-			return err
-		}
-		r.AuditSeconds = time.Since(start).Seconds()
-		r.AuditTexts = tr.Len() + ho.Len()
 	}
 	r.PeakRSSMB = peakRSSMB()
 	r.Load = loadavg()
 	return emit(*out, r)
+}
+
+// timeProfiles times the filter profiles of the model saved in the
+// prepared corpus folder dir over the folder's texts, on r.Threads workers.
+func (r *toolResult) timeProfiles(ctx context.Context, dir string) error {
+	p, err := readIDs(dir)
+	if err != nil {
+		return err
+	}
+	m, err := cnn.Load(filepath.Join(dir, "model.tt"))
+	if err != nil {
+		return err
+	}
+	start := time.Now()
+	if _, err := explain.Profile(ctx, m, p.ids, p.labels, explain.ProfileOptions{Workers: r.Threads}); err != nil {
+		return err
+	}
+	r.ProfileSeconds = time.Since(start).Seconds()
+	r.ProfileCorpus, r.ProfileTexts = p.meta.Corpus, len(p.ids)
+	return nil
+}
+
+// timeExplain times, 21 times, one explanation of m of the first
+// 200 tokens of the first held-out text that has as many: exact shares
+// and every single-token occlusion, the table built over the text's words.
+func (r *toolResult) timeExplain(m *cnn.Model, held *corpus.Dataset) error {
+	enc, err := m.Encoder()
+	if err != nil {
+		return err
+	}
+	enc.MaxTokens = 0
+	for _, e := range held.Examples {
+		toks, ids := enc.Encode(e.Text)
+		if len(ids) < 200 {
+			continue
+		}
+		toks, ids = toks[:200], ids[:200]
+		var ms []float64
+		for range 21 {
+			start := time.Now()
+			if _, err := explain.Explain(m, toks, ids, explain.ExplainOptions{Occlusion: true}); err != nil {
+				return err
+			}
+			ms = append(ms, float64(time.Since(start).Nanoseconds())/1e6)
+		}
+		r.ExplainTokens, r.ExplainMs, r.ExplainRuns = 200, median(ms), len(ms)
+		return nil
+	}
+	return fmt.Errorf("tools: no held-out text of 200 tokens")
+}
+
+// timeAudit times the tokenizing of both splits for m (cut to spamMaxLen
+// tokens, as training cut them) and the cue audit over them, on r.Threads
+// workers.
+func (r *toolResult) timeAudit(ctx context.Context, m *cnn.Model, train, held *corpus.Dataset) error {
+	start := time.Now()
+	tr, err := audit.NewData(m, train, r.Threads)
+	if err != nil {
+		return err
+	}
+	ho, err := audit.NewData(m, held, r.Threads)
+	if err != nil {
+		return err
+	}
+	cutTokens(&tr, spamMaxLen)
+	cutTokens(&ho, spamMaxLen)
+	r.AuditPrepSecond = time.Since(start).Seconds()
+	start = time.Now()
+	if _, err := audit.Run(ctx, m, tr, ho, audit.Options{Seed: 3, Workers: r.Threads}, nil); err != nil {
+		return err
+	}
+	r.AuditSeconds = time.Since(start).Seconds()
+	r.AuditTexts = tr.Len() + ho.Len()
+	return nil
 }
 
 // cutTokens cuts every text of d to its first n tokens, as training cut

@@ -204,68 +204,127 @@ func Load(path string) (*Model, error) {
 }
 
 // decode parses a whole model file. It never allocates more than a small
-// multiple of len(data).
+// multiple of len(data). The checks run in a fixed order (framing and
+// checksum, header, sizes, weights, baseline), so a damaged file always
+// gets the same error.
 func decode(data []byte) (*Model, error) {
+	f, err := splitFile(data)
+	if err != nil {
+		return nil, err
+	}
+	var h fileHeader
+	dec := json.NewDecoder(bytes.NewReader(f.header))
+	if err := dec.Decode(&h); err != nil {
+		return nil, fmt.Errorf("header: %v: the file is corrupted", err)
+	}
+	if err := checkHeader(&h, f, len(data)); err != nil {
+		return nil, err
+	}
+	cfg := h.Config
+	m := &Model{Config: cfg, Labels: h.Labels, Vocab: h.Vocab, Tokenizer: h.Tokenizer, Info: h.Info}
+	if len(h.Masked) > 0 {
+		if m.Masked, err = maskedFilters(h.Masked, cfg.NumFilters()); err != nil {
+			return nil, err
+		}
+	}
+	if err := m.readWeights(f.weights); err != nil {
+		return nil, err
+	}
+	if err := setBaseline(m, h.Baseline, f.baseline); err != nil {
+		return nil, err
+	}
+	for _, v := range m.Emb[:cfg.Dim] {
+		if v != 0 {
+			return nil, fmt.Errorf("the PAD embedding is not zero: the file is damaged")
+		}
+	}
+	m.FillChars() // a token's vector is computed from the token, never read
+	return m, nil
+}
+
+// fileParts are the sections of a model file whose framing and checksum
+// splitFile has checked; each slice aliases the file's bytes.
+type fileParts struct {
+	version  uint32
+	header   []byte // the JSON header
+	nw       uint64 // float32 weights announced
+	weights  []byte // 4*nw bytes
+	baseline []byte // the baseline's float64 weights, 8 bytes each
+}
+
+// splitFile checks the magic bytes, the version, that every announced
+// length fits in data and that the checksum matches, and returns the
+// sections. Nothing in the header is read yet.
+func splitFile(data []byte) (fileParts, error) {
 	const fixed = 8 + 4 + 8
+	var f fileParts
 	if len(data) < len(fileMagic) || string(data[:len(fileMagic)]) != fileMagic {
-		return nil, fmt.Errorf("%w (wrong magic bytes): give a file written by telltale train", ErrNotModel)
+		return f, fmt.Errorf("%w (wrong magic bytes): give a file written by telltale train", ErrNotModel)
 	}
 	if len(data) < fixed {
-		return nil, fmt.Errorf("truncated after %d bytes: the file is incomplete, save or copy it again", len(data))
+		return f, fmt.Errorf("truncated after %d bytes: the file is incomplete, save or copy it again", len(data))
 	}
 	version := binary.LittleEndian.Uint32(data[8:])
 	if version > FormatVersion {
-		return nil, fmt.Errorf("format version %d is newer than this program reads (%d): update telltale", version, FormatVersion)
+		return f, fmt.Errorf("format version %d is newer than this program reads (%d): update telltale", version, FormatVersion)
 	} else if version == 0 {
-		return nil, fmt.Errorf("format version 0 is invalid: the file is damaged")
+		return f, fmt.Errorf("format version 0 is invalid: the file is damaged")
 	}
 	hl := binary.LittleEndian.Uint64(data[12:])
 	rest := uint64(len(data) - fixed)
 	if hl > rest || rest-hl < 8+4 {
-		return nil, fmt.Errorf("truncated (header of %d bytes, %d bytes left): the file is incomplete, save or copy it again", hl, rest)
+		return f, fmt.Errorf("truncated (header of %d bytes, %d bytes left): the file is incomplete, save or copy it again", hl, rest)
 	}
 	off := fixed + int(hl)
 	nw := binary.LittleEndian.Uint64(data[off:])
 	off += 8
 	end := len(data) - 4 // where the checksum starts
 	if left := uint64(end-off) / 4; nw > left {
-		return nil, fmt.Errorf("truncated (%d weights announced, room for %d): the file is incomplete, save or copy it again", nw, left)
+		return f, fmt.Errorf("truncated (%d weights announced, room for %d): the file is incomplete, save or copy it again", nw, left)
 	}
 	wEnd := off + 4*int(nw)
 	var nb uint64
 	bEnd := wEnd
 	if version >= 2 {
 		if end-wEnd < 8 {
-			return nil, fmt.Errorf("truncated (no baseline section after the weights): the file is incomplete, save or copy it again")
+			return f, fmt.Errorf("truncated (no baseline section after the weights): the file is incomplete, save or copy it again")
 		}
 		nb = binary.LittleEndian.Uint64(data[wEnd:])
 		if left := uint64(end-wEnd-8) / 8; nb > left {
 			// The count sits just before the checksum, where both a cut and
 			// a damaged byte land.
-			return nil, fmt.Errorf("truncated or corrupted (%d baseline weights announced, room for %d): the file is incomplete, save or copy it again", nb, left)
+			return f, fmt.Errorf("truncated or corrupted (%d baseline weights announced, room for %d): the file is incomplete, save or copy it again", nb, left)
 		}
 		bEnd = wEnd + 8 + 8*int(nb)
 	}
 	if bEnd != end {
-		return nil, fmt.Errorf("damaged: %d bytes after the weights: the file is corrupted", end-bEnd)
+		return f, fmt.Errorf("damaged: %d bytes after the weights: the file is corrupted", end-bEnd)
 	}
 	body := data[:len(data)-4]
 	if got, want := crc32.Checksum(body, crcTable), binary.LittleEndian.Uint32(data[len(data)-4:]); got != want {
-		return nil, fmt.Errorf("checksum mismatch (%08x, stored %08x): the file is corrupted, retrain or restore it", got, want)
+		return f, fmt.Errorf("checksum mismatch (%08x, stored %08x): the file is corrupted, retrain or restore it", got, want)
 	}
-	var h fileHeader
-	dec := json.NewDecoder(bytes.NewReader(data[fixed : fixed+int(hl)]))
-	if err := dec.Decode(&h); err != nil {
-		return nil, fmt.Errorf("header: %v: the file is corrupted", err)
-	}
+	return fileParts{
+		version:  version,
+		header:   data[fixed : fixed+int(hl)],
+		nw:       nw,
+		weights:  data[off:wEnd],
+		baseline: data[bEnd-8*int(nb) : bEnd],
+	}, nil
+}
+
+// checkHeader checks that the decoded header h is valid, that the weights
+// its sizes call for fit in a file of fileLen bytes and equal those f
+// announces, and that its vocabulary and labels match them.
+func checkHeader(h *fileHeader, f fileParts, fileLen int) error {
 	cfg := h.Config
 	if err := cfg.Validate(); err != nil {
-		return nil, fmt.Errorf("header: %v", err)
+		return fmt.Errorf("header: %v", err)
 	}
 	// The weights the header's sizes call for must fit in the file (four
 	// bytes each); each product is checked before it is formed, so none
 	// overflows and nothing is allocated for an impossible header.
-	limit := len(data) / 4
+	limit := fileLen / 4
 	fits := func(a, b int) (int, bool) {
 		if a != 0 && b > limit/a {
 			return 0, false
@@ -282,42 +341,51 @@ func decode(data []byte) (*Model, error) {
 	nf, ok4 := fits(cfg.Filters, len(cfg.Widths))
 	out, ok5 := fits(cfg.Classes, nf)
 	if !ok1 || !ok2 || !ok3 || !ok4 || !ok5 || emb > limit || conv > limit || out > limit || emb+conv+out > limit {
-		return nil, fmt.Errorf("header: sizes larger than the file: the file is corrupted")
+		return fmt.Errorf("header: sizes larger than the file: the file is corrupted")
 	}
 	if cfg.Chars != nil {
 		// Validate bounds the layer's sizes and the alphabet lies in the
 		// header, so its count cannot overflow.
-		if version < 3 {
-			return nil, fmt.Errorf("a character layer in a version %d file: the file is damaged", version)
+		if f.version < 3 {
+			return fmt.Errorf("a character layer in a version %d file: the file is damaged", f.version)
 		}
 		if cfg.Chars.numWeights() > limit {
-			return nil, fmt.Errorf("header: sizes larger than the file: the file is corrupted")
+			return fmt.Errorf("header: sizes larger than the file: the file is corrupted")
 		}
 	}
-	if want := numWeights(cfg); uint64(want) != nw {
-		return nil, fmt.Errorf("the configuration needs %d weights but the file has %d: the vocabulary or labels do not match the weights", want, nw)
+	if want := numWeights(cfg); uint64(want) != f.nw {
+		return fmt.Errorf("the configuration needs %d weights but the file has %d: the vocabulary or labels do not match the weights", want, f.nw)
 	}
 	if len(h.Vocab) != cfg.VocabSize {
-		return nil, fmt.Errorf("the vocabulary has %d words but the weights are for %d: the vocabulary does not match the weights", len(h.Vocab), cfg.VocabSize)
+		return fmt.Errorf("the vocabulary has %d words but the weights are for %d: the vocabulary does not match the weights", len(h.Vocab), cfg.VocabSize)
 	}
 	if len(h.Vocab) < 2 || h.Vocab[0] != corpus.PADWord || h.Vocab[1] != corpus.UNKWord {
-		return nil, fmt.Errorf("the vocabulary does not start with %s, %s: the file is damaged", corpus.PADWord, corpus.UNKWord)
+		return fmt.Errorf("the vocabulary does not start with %s, %s: the file is damaged", corpus.PADWord, corpus.UNKWord)
 	}
 	if len(h.Labels) != cfg.Classes {
-		return nil, fmt.Errorf("%d label names for %d classes: the labels do not match the weights", len(h.Labels), cfg.Classes)
+		return fmt.Errorf("%d label names for %d classes: the labels do not match the weights", len(h.Labels), cfg.Classes)
 	}
-	m := &Model{Config: cfg, Labels: h.Labels, Vocab: h.Vocab, Tokenizer: h.Tokenizer, Info: h.Info}
-	if len(h.Masked) > 0 {
-		nf := cfg.NumFilters()
-		m.Masked = make([]bool, nf)
-		for _, g := range h.Masked {
-			if g < 0 || g >= nf {
-				return nil, fmt.Errorf("masked filter %d outside 0..%d: the file is damaged", g, nf-1)
-			}
-			m.Masked[g] = true
+	return nil
+}
+
+// maskedFilters turns the header's list of masked filter indices into a
+// mask over nf filters, refusing an index outside 0..nf-1.
+func maskedFilters(masked []int, nf int) ([]bool, error) {
+	mask := make([]bool, nf)
+	for _, g := range masked {
+		if g < 0 || g >= nf {
+			return nil, fmt.Errorf("masked filter %d outside 0..%d: the file is damaged", g, nf-1)
 		}
+		mask[g] = true
 	}
-	w := data[off:wEnd]
+	return mask, nil
+}
+
+// readWeights fills m's weights from w, the weights section (4 bytes a
+// float32, in the file's order). m.Config has passed checkHeader, so w
+// holds exactly numWeights(m.Config) values.
+func (m *Model) readWeights(w []byte) error {
+	cfg := m.Config
 	take := func(n int) []float32 {
 		x := make([]float32, n)
 		for i := range x {
@@ -337,20 +405,11 @@ func decode(data []byte) (*Model, error) {
 		m.Char = &CharLayer{Emb: take(cc.Rows() * cc.Dim), W: take(cc.Filters * cc.Width * cc.Dim), B: take(cc.Filters)}
 		for _, v := range m.Char.Emb[:cc.Dim] {
 			if v != 0 {
-				return nil, fmt.Errorf("the zero character's vector is not zero: the file is damaged")
+				return fmt.Errorf("the zero character's vector is not zero: the file is damaged")
 			}
 		}
 	}
-	if err := setBaseline(m, h.Baseline, data[bEnd-8*int(nb):bEnd]); err != nil {
-		return nil, err
-	}
-	for _, v := range m.Emb[:cfg.Dim] {
-		if v != 0 {
-			return nil, fmt.Errorf("the PAD embedding is not zero: the file is damaged")
-		}
-	}
-	m.FillChars() // a token's vector is computed from the token, never read
-	return m, nil
+	return nil
 }
 
 // setBaseline gives m the baseline of the header with its weights decoded

@@ -91,24 +91,9 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 			return nil, fmt.Errorf("%w (every dev label must occur in the training data)", err)
 		}
 	}
-	cfg := r.Model
-	cfg.VocabSize, cfg.Classes = enc.Vocab.Len(), len(train.Labels)
-	var vecs *corpus.Vectors
-	if r.VectorsPath != "" {
-		if vecs, err = readVectorsFor(enc.Vocab.Words, r.VectorsPath); err != nil {
-			return nil, err
-		}
-		if cfg.Dim == 0 || r.DimFromVectors {
-			cfg.Dim = vecs.Dim
-			if cfg.Chars != nil {
-				cfg.Dim += cfg.Chars.Filters
-			}
-		}
-	}
-	if cfg.Chars != nil {
-		cc := *cfg.Chars
-		cc.Alphabet = Alphabet(enc.Vocab.Words)
-		cfg.Chars = &cc
+	cfg, vecs, err := modelConfig(r, enc, len(train.Labels))
+	if err != nil {
+		return nil, err
 	}
 	out := &Trained{Encoder: enc}
 	var members []*Model
@@ -151,6 +136,36 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 		}
 	}
 	return out, nil
+}
+
+// modelConfig is r.Model sized for enc's vocabulary and classes labels:
+// with r.VectorsPath it also reads the vectors of the vocabulary, whose
+// dimension sets the embedding's when r.Model leaves it 0 or
+// r.DimFromVectors asks (plus the character layer's filters), and a
+// character layer gets the alphabet of the vocabulary (a copy: r is not
+// changed).
+func modelConfig(r Recipe, enc *corpus.Encoder, classes int) (Config, *corpus.Vectors, error) {
+	cfg := r.Model
+	cfg.VocabSize, cfg.Classes = enc.Vocab.Len(), classes
+	var vecs *corpus.Vectors
+	if r.VectorsPath != "" {
+		var err error
+		if vecs, err = readVectorsFor(enc.Vocab.Words, r.VectorsPath); err != nil {
+			return Config{}, nil, err
+		}
+		if cfg.Dim == 0 || r.DimFromVectors {
+			cfg.Dim = vecs.Dim
+			if cfg.Chars != nil {
+				cfg.Dim += cfg.Chars.Filters
+			}
+		}
+	}
+	if cfg.Chars != nil {
+		cc := *cfg.Chars
+		cc.Alphabet = Alphabet(enc.Vocab.Words)
+		cfg.Chars = &cc
+	}
+	return cfg, vecs, nil
 }
 
 // memberSeedStride spaces the seeds of the members of one ensemble, so

@@ -243,35 +243,15 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	defer tr.close()
 	tr.prepare(train)
 	rng := rand.New(rand.NewPCG(tc.Seed, tc.Seed^0x5bd1e995))
-	res := &TrainResult{}
+	run := &trainRun{ctx: ctx, m: m, tr: tr, tc: tc, train: train, progress: progress, res: &TrainResult{}}
+	res := run.res
 	sel := newSelector(tc, dev)
-	var steadyN, firstN int
-	var steadyT, firstT time.Duration
-	n := train.Len()
-	order := make([]int, n)
+	order := make([]int, train.Len())
 	var batches [][]int
 	for epoch := 1; epoch <= tc.Epochs; epoch++ {
 		batches = makeBatches(rng, train.IDs, tc.Batch, order, batches)
 		start := time.Now()
-		var sum float64
-		done := 0
-		for bi, b := range batches {
-			if ctx.Err() != nil {
-				res.Cancelled = true
-				break
-			}
-			loss := tr.step(train, b)
-			if math.IsNaN(loss) || math.IsInf(loss, 0) {
-				res.Diverged = &Divergence{Epoch: epoch, Batch: bi + 1, Value: fmt.Sprint(loss)}
-				break
-			}
-			sum += loss * float64(len(b))
-			done += len(b)
-			if progress != nil && (bi+1)%progressEvery == 0 && bi+1 < len(batches) {
-				progress(Progress{Epoch: epoch, Epochs: tc.Epochs, Batch: bi + 1, Batches: len(batches),
-					Loss: sum / float64(done), ExamplesPerSec: float64(done) / time.Since(start).Seconds(), Phase: "train"})
-			}
-		}
+		sum, done := run.epoch(epoch, batches, start)
 		m.FillChars()  // the vocabulary's character parts follow the character layer
 		m.Invalidate() // the weights changed: predictions rebuild their table
 		if res.Diverged == nil && !finiteWeights(m) {
@@ -281,11 +261,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 			break
 		}
 		el := time.Since(start)
-		if epoch == 1 {
-			firstN, firstT = done, el
-		} else {
-			steadyN, steadyT = steadyN+done, steadyT+el
-		}
+		run.timed(epoch, done, el)
 		er := EpochResult{Epoch: epoch, Loss: sum / float64(done), ExamplesPerSec: float64(done) / el.Seconds(), Seconds: el.Seconds()}
 		var improved bool
 		if er.Dev, improved, err = sel.epochEnd(m); err != nil {
@@ -304,6 +280,63 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 			break
 		}
 	}
+	run.finish(sel)
+	return res, nil
+}
+
+// trainRun is the state of one Train call that outlives an epoch.
+type trainRun struct {
+	ctx      context.Context
+	m        *Model
+	tr       *trainer
+	tc       TrainConfig // with defaults
+	train    Data        // truncated to tc.MaxLen
+	progress func(Progress)
+	res      *TrainResult
+
+	// Training throughput: the first epoch apart, the later ones summed.
+	firstN, steadyN int
+	firstT, steadyT time.Duration
+}
+
+// epoch takes one step per batch of the epoch (1-based) that began at
+// start, and returns the summed loss (each batch's mean times its size) and
+// the number of examples stepped. It stops early, setting r.res.Cancelled
+// or r.res.Diverged, when the context ends or a batch's loss is not finite.
+func (r *trainRun) epoch(epoch int, batches [][]int, start time.Time) (sum float64, done int) {
+	for bi, b := range batches {
+		if r.ctx.Err() != nil {
+			r.res.Cancelled = true
+			break
+		}
+		loss := r.tr.step(r.train, b)
+		if math.IsNaN(loss) || math.IsInf(loss, 0) {
+			r.res.Diverged = &Divergence{Epoch: epoch, Batch: bi + 1, Value: fmt.Sprint(loss)}
+			break
+		}
+		sum += loss * float64(len(b))
+		done += len(b)
+		if r.progress != nil && (bi+1)%progressEvery == 0 && bi+1 < len(batches) {
+			r.progress(Progress{Epoch: epoch, Epochs: r.tc.Epochs, Batch: bi + 1, Batches: len(batches),
+				Loss: sum / float64(done), ExamplesPerSec: float64(done) / time.Since(start).Seconds(), Phase: "train"})
+		}
+	}
+	return sum, done
+}
+
+// timed records that the completed epoch (1-based) stepped n examples in el.
+func (r *trainRun) timed(epoch, n int, el time.Duration) {
+	if epoch == 1 {
+		r.firstN, r.firstT = n, el
+	} else {
+		r.steadyN, r.steadyT = r.steadyN+n, r.steadyT+el
+	}
+}
+
+// finish gives r.m the weights sel chose, records the run in r.m.Info and
+// r.res, and sends the "done" progress report.
+func (r *trainRun) finish(sel *selector) {
+	m, res, tc := r.m, r.res, r.tc
 	if sel.best != nil {
 		copyWeights(m, sel.best)
 		m.Invalidate()
@@ -315,22 +348,21 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		m.Info.Dev = res.Epochs[res.BestEpoch-1].Dev
 	}
 	switch {
-	case steadyN > 0:
-		res.ExamplesPerSec = float64(steadyN) / steadyT.Seconds()
-	case firstN > 0:
-		res.ExamplesPerSec = float64(firstN) / firstT.Seconds()
+	case r.steadyN > 0:
+		res.ExamplesPerSec = float64(r.steadyN) / r.steadyT.Seconds()
+	case r.firstN > 0:
+		res.ExamplesPerSec = float64(r.firstN) / r.firstT.Seconds()
 	}
 	m.Info.ExamplesPerSec = res.ExamplesPerSec
-	if progress != nil {
+	if r.progress != nil {
 		var last Progress
 		if k := len(res.Epochs); k > 0 {
 			e := res.Epochs[res.BestEpoch-1]
 			last = Progress{Epoch: k, Epochs: tc.Epochs, Loss: e.Loss, Dev: e.Dev, ExamplesPerSec: res.ExamplesPerSec}
 		}
 		last.Phase = "done"
-		progress(last)
+		r.progress(last)
 	}
-	return res, nil
 }
 
 // finiteWeights reports whether every trainable weight of m is a finite number.

@@ -374,80 +374,26 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 	if err := skipBOM(br, path); err != nil {
 		return err
 	}
-	limit := recordLimitFactor * opt.MaxTextBytes
-	lr := &limitReader{r: br, limit: limit}
-	cr := csv.NewReader(bufio.NewReaderSize(lr, 16<<10))
-	if format == "tsv" {
-		// TSV files are seldom quoted: a bare quote inside a text is text.
-		cr.Comma, cr.LazyQuotes = '\t', true
-	}
-	cr.ReuseRecord = true
-	cr.FieldsPerRecord = 0 // set from the header
-	wrap := func(err error, line int) error {
-		if errors.Is(err, errRecordLimit) {
-			return errAt(path, line, ErrTooLong, "record longer than %d bytes: the file may lack line breaks or have an unclosed quote; or raise --max-text-bytes (limit is %d × it)", limit, recordLimitFactor)
-		}
-		var pe *csv.ParseError
-		if errors.As(err, &pe) {
-			switch {
-			case errors.Is(pe.Err, csv.ErrFieldCount):
-				return errAt(path, pe.StartLine, ErrFormat, "record has a different number of fields than the header (%d): quote fields that contain the delimiter", cr.FieldsPerRecord)
-			case errors.Is(pe.Err, csv.ErrBareQuote), errors.Is(pe.Err, csv.ErrQuote):
-				return errAt(path, pe.StartLine, ErrFormat, "malformed quoting (%v at line %d, column %d): put quoted fields in double quotes and double any quote inside them", pe.Err, pe.Line, pe.Column)
-			}
-			return errAt(path, pe.StartLine, ErrFormat, "%v", pe.Err)
-		}
-		return fmt.Errorf("corpus: %s line %d: read error: %v: %w", path, line, err, ErrFormat)
-	}
-	header, err := cr.Read()
-	// The header is not checked for field counts: records must match it.
-	if err == io.EOF {
-		return errAt(path, 0, ErrEmpty, "file is empty: it needs a header row naming the text and label columns")
-	}
+	d := newDelimited(br, path, format, recordLimitFactor*opt.MaxTextBytes)
+	names, err := d.header(format, ws)
 	if err != nil {
-		return wrap(err, 1)
-	}
-	names := make([]string, len(header))
-	for i, h := range header {
-		if _, err := checkText(h, path, 1, Options{}, ws, "header"); err != nil {
-			return err
-		}
-		names[i] = strings.TrimSpace(h)
-	}
-	if len(names) == 1 {
-		h := names[0]
-		for _, d := range []struct{ sep, name, fix string }{{"\t", "tab", "tsv"}, {";", "semicolon", ""}, {"|", "bar", ""}, {",", "comma", "csv"}} {
-			if strings.Contains(h, d.sep) && (format != "csv" || d.sep != ",") && (format != "tsv" || d.sep != "\t") {
-				fix := "convert it to comma- or tab-separated"
-				if d.fix != "" {
-					fix = "name it ." + d.fix + " or pass the format " + d.fix
-				}
-				return errAt(path, 1, ErrFormat, "header has one column %s containing %ss: the file looks %s-separated, not %s; %s", quote(h), d.name, d.name, format, fix)
-			}
-		}
-	}
-	seen := map[string]bool{}
-	for _, n := range names {
-		k := strings.ToLower(n)
-		if seen[k] {
-			return errAt(path, 1, ErrColumn, "column %s appears twice in the header: rename one", quote(n))
-		}
-		seen[k] = true
+		return err
 	}
 	ti, li, err := pickColumns(names, opt, path, 1, true)
 	if err != nil {
 		return err
 	}
-	cr.FieldsPerRecord = len(header)
+	cr := d.cr
+	cr.FieldsPerRecord = len(names)
 	nextLine := 2 // line after the last record read (for errors without a position)
 	for {
-		lr.n = 0
+		d.lr.n = 0
 		rec, err := cr.Read()
 		if err == io.EOF {
 			return nil
 		}
 		if err != nil {
-			return wrap(err, nextLine)
+			return d.wrap(err, nextLine)
 		}
 		last := len(rec) - 1
 		endLine, _ := cr.FieldPos(last)
@@ -471,6 +417,94 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 			return err
 		}
 	}
+}
+
+// delimited is a CSV or TSV reader over the file path whose records are
+// each at most limit bytes.
+type delimited struct {
+	path  string
+	limit int
+	lr    *limitReader // its count n is reset before each record
+	cr    *csv.Reader
+}
+
+// newDelimited reads br (past any byte order mark) as format, "csv" or
+// "tsv", reusing each record's slice; the field count is left open for
+// the header.
+func newDelimited(br *bufio.Reader, path, format string, limit int) *delimited {
+	lr := &limitReader{r: br, limit: limit}
+	cr := csv.NewReader(bufio.NewReaderSize(lr, 16<<10))
+	if format == "tsv" {
+		// TSV files are seldom quoted: a bare quote inside a text is text.
+		cr.Comma, cr.LazyQuotes = '\t', true
+	}
+	cr.ReuseRecord = true
+	cr.FieldsPerRecord = 0 // set from the header
+	return &delimited{path: path, limit: limit, lr: lr, cr: cr}
+}
+
+// wrap turns a read error at line into an error naming the file, the line
+// and the fix.
+func (d *delimited) wrap(err error, line int) error {
+	path := d.path
+	if errors.Is(err, errRecordLimit) {
+		return errAt(path, line, ErrTooLong, "record longer than %d bytes: the file may lack line breaks or have an unclosed quote; or raise --max-text-bytes (limit is %d × it)", d.limit, recordLimitFactor)
+	}
+	var pe *csv.ParseError
+	if errors.As(err, &pe) {
+		switch {
+		case errors.Is(pe.Err, csv.ErrFieldCount):
+			return errAt(path, pe.StartLine, ErrFormat, "record has a different number of fields than the header (%d): quote fields that contain the delimiter", d.cr.FieldsPerRecord)
+		case errors.Is(pe.Err, csv.ErrBareQuote), errors.Is(pe.Err, csv.ErrQuote):
+			return errAt(path, pe.StartLine, ErrFormat, "malformed quoting (%v at line %d, column %d): put quoted fields in double quotes and double any quote inside them", pe.Err, pe.Line, pe.Column)
+		}
+		return errAt(path, pe.StartLine, ErrFormat, "%v", pe.Err)
+	}
+	return fmt.Errorf("corpus: %s line %d: read error: %v: %w", path, line, err, ErrFormat)
+}
+
+// header reads the header row, the first record, and returns its column
+// names, trimmed. It refuses an empty file, a header in the wrong encoding,
+// a single column that holds another format's delimiter and a name that
+// appears twice (letter case aside).
+func (d *delimited) header(format string, ws *warnings) ([]string, error) {
+	path := d.path
+	header, err := d.cr.Read()
+	// The header is not checked for field counts: records must match it.
+	if err == io.EOF {
+		return nil, errAt(path, 0, ErrEmpty, "file is empty: it needs a header row naming the text and label columns")
+	}
+	if err != nil {
+		return nil, d.wrap(err, 1)
+	}
+	names := make([]string, len(header))
+	for i, h := range header {
+		if _, err := checkText(h, path, 1, Options{}, ws, "header"); err != nil {
+			return nil, err
+		}
+		names[i] = strings.TrimSpace(h)
+	}
+	if len(names) == 1 {
+		h := names[0]
+		for _, alt := range []struct{ sep, name, fix string }{{"\t", "tab", "tsv"}, {";", "semicolon", ""}, {"|", "bar", ""}, {",", "comma", "csv"}} {
+			if strings.Contains(h, alt.sep) && (format != "csv" || alt.sep != ",") && (format != "tsv" || alt.sep != "\t") {
+				fix := "convert it to comma- or tab-separated"
+				if alt.fix != "" {
+					fix = "name it ." + alt.fix + " or pass the format " + alt.fix
+				}
+				return nil, errAt(path, 1, ErrFormat, "header has one column %s containing %ss: the file looks %s-separated, not %s; %s", quote(h), alt.name, alt.name, format, fix)
+			}
+		}
+	}
+	seen := map[string]bool{}
+	for _, n := range names {
+		k := strings.ToLower(n)
+		if seen[k] {
+			return nil, errAt(path, 1, ErrColumn, "column %s appears twice in the header: rename one", quote(n))
+		}
+		seen[k] = true
+	}
+	return names, nil
 }
 
 // readLine reads one line (without the line break and a trailing CR) into

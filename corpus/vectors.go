@@ -58,111 +58,168 @@ func ReadVectors(path string, keep func(word string) bool) (*Vectors, error) {
 		r = gz
 	}
 	br := bufio.NewReaderSize(r, maxVectorLine+1)
-
-	// The first line is either the header or the first vector.
-	first, err := br.ReadSlice('\n')
-	if errors.Is(err, bufio.ErrBufferFull) {
-		return nil, fmt.Errorf("corpus: %s line 1: line longer than %d bytes: is this a word-vector file?: %w", path, maxVectorLine, ErrVectors)
+	head, err := readVectorHead(path, br)
+	if err != nil {
+		return nil, err
 	}
-	if err != nil && err != io.EOF {
-		return nil, fmt.Errorf("corpus: %s: reading: %w", path, err)
-	}
-	if len(bytes.TrimSpace(first)) == 0 && err == io.EOF {
-		return nil, fmt.Errorf("corpus: %s: the vector file is empty: %w", path, ErrVectors)
-	}
-	first = append([]byte(nil), first...)
-	dim, count, startLine := 0, 0, 1
-	fields := strings.Fields(string(first))
-	switch {
-	case len(fields) == 2 && isCount(fields[0]) && isCount(fields[1]):
-		dim, _ = strconv.Atoi(fields[1])
-		count, _ = strconv.Atoi(fields[0])
-		first, startLine = nil, 2
-	case len(fields) < 2:
-		return nil, fmt.Errorf("corpus: %s line 1: expected a word followed by its numbers: %w", path, ErrVectors)
-	default:
-		dim = len(fields) - 1
-	}
-	if dim < 1 || dim > 100000 {
-		return nil, fmt.Errorf("corpus: %s line 1: dimension %d is out of range (1 to 100000): %w", path, dim, ErrVectors)
-	}
-
-	type block struct {
-		first int // line number of the block's first line
-		data  []byte
-		out   chan vectorPart
-	}
-	workers := runtime.GOMAXPROCS(0)
-	jobs := make(chan block, workers)
-	order := make(chan chan vectorPart, 2*workers)
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for b := range jobs {
-				b.out <- parseVectorBlock(path, b.data, b.first, dim, keep)
-			}
-		}()
-	}
-	// The reader cuts the stream into blocks of whole lines, in order.
-	readErr := make(chan error, 1)
-	go func() {
-		defer close(order)
-		defer close(jobs)
-		line := startLine
-		buf := first
-		send := func(data []byte) {
-			out := make(chan vectorPart, 1)
-			jobs <- block{first: line, data: data, out: out}
-			order <- out
-			line += bytes.Count(data, []byte{'\n'})
-		}
-		for {
-			// Each block is read in place after the carried-over partial line.
-			next := make([]byte, len(buf), len(buf)+vectorBlock)
-			copy(next, buf)
-			n, err := io.ReadFull(br, next[len(buf):cap(next)])
-			buf = next[:len(buf)+n]
-			if err == io.EOF || err == io.ErrUnexpectedEOF {
-				if len(buf) > 0 {
-					send(buf)
-				}
-				readErr <- nil
-				return
-			}
-			if err != nil {
-				readErr <- fmt.Errorf("corpus: %s: reading: %w", path, err)
-				return
-			}
-			cut := bytes.LastIndexByte(buf, '\n')
-			if cut < 0 {
-				if len(buf) > maxVectorLine {
-					readErr <- fmt.Errorf("corpus: %s line %d: line longer than %d bytes: is this a word-vector file?: %w", path, line, maxVectorLine, ErrVectors)
-					return
-				}
-				continue
-			}
-			rest := buf[cut+1:]
-			send(buf[:cut+1])
-			buf = rest
-		}
-	}()
-	v := &Vectors{Dim: dim}
-	if count > 0 {
+	order, wait := streamVectorBlocks(path, br, head, keep)
+	v := &Vectors{Dim: head.dim}
+	if head.count > 0 {
 		// Trust the header's count only as far as the file can hold it: a
 		// number takes at least two bytes (compressed files: 128M numbers).
 		most := 1 << 27
 		if st, err := f.Stat(); err == nil && r == io.Reader(f) {
 			most = int(st.Size() / 2)
 		}
-		n := most
-		if count <= most/dim {
-			n = count * dim
-		}
-		v.Words = make([]string, 0, n/dim)
-		v.Data = make([]float32, 0, n)
+		v.reserve(head.count, most)
 	}
+	firstErr := v.collect(order)
+	if err := wait(); err != nil && firstErr == nil {
+		firstErr = err
+	}
+	if firstErr != nil {
+		return nil, firstErr
+	}
+	return v, nil
+}
+
+// vectorHead is what the first line of a vector file tells.
+type vectorHead struct {
+	dim, count int
+	startLine  int    // line number of the first vector line
+	first      []byte // the first line when it is a vector (a copy), else nil
+}
+
+// readVectorHead reads the first line from br, which is at the start of the
+// file path: either the header "COUNT DIM" or the first vector, whose
+// number of fields gives the dimension.
+func readVectorHead(path string, br *bufio.Reader) (vectorHead, error) {
+	first, err := br.ReadSlice('\n')
+	if errors.Is(err, bufio.ErrBufferFull) {
+		return vectorHead{}, fmt.Errorf("corpus: %s line 1: line longer than %d bytes: is this a word-vector file?: %w", path, maxVectorLine, ErrVectors)
+	}
+	if err != nil && err != io.EOF {
+		return vectorHead{}, fmt.Errorf("corpus: %s: reading: %w", path, err)
+	}
+	if len(bytes.TrimSpace(first)) == 0 && err == io.EOF {
+		return vectorHead{}, fmt.Errorf("corpus: %s: the vector file is empty: %w", path, ErrVectors)
+	}
+	first = append([]byte(nil), first...)
+	h := vectorHead{startLine: 1}
+	fields := strings.Fields(string(first))
+	switch {
+	case len(fields) == 2 && isCount(fields[0]) && isCount(fields[1]):
+		h.dim, _ = strconv.Atoi(fields[1])
+		h.count, _ = strconv.Atoi(fields[0])
+		first, h.startLine = nil, 2
+	case len(fields) < 2:
+		return vectorHead{}, fmt.Errorf("corpus: %s line 1: expected a word followed by its numbers: %w", path, ErrVectors)
+	default:
+		h.dim = len(fields) - 1
+	}
+	if h.dim < 1 || h.dim > 100000 {
+		return vectorHead{}, fmt.Errorf("corpus: %s line 1: dimension %d is out of range (1 to 100000): %w", path, h.dim, ErrVectors)
+	}
+	h.first = first
+	return h, nil
+}
+
+// vectorJob is one block of whole lines for a parser.
+type vectorJob struct {
+	first int // line number of the block's first line
+	data  []byte
+	out   chan vectorPart
+}
+
+// streamVectorBlocks cuts the rest of br, after head's line, into blocks of
+// whole lines and parses them on GOMAXPROCS goroutines. It returns the
+// blocks' results in file order (order, closed after the last block) and
+// wait, which the caller calls once it has drained order: wait returns
+// when every goroutine has ended, with the reading error, if any.
+func streamVectorBlocks(path string, br *bufio.Reader, head vectorHead, keep func(string) bool) (order <-chan chan vectorPart, wait func() error) {
+	workers := runtime.GOMAXPROCS(0)
+	jobs := make(chan vectorJob, workers)
+	ord := make(chan chan vectorPart, 2*workers)
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for b := range jobs {
+				b.out <- parseVectorBlock(path, b.data, b.first, head.dim, keep)
+			}
+		}()
+	}
+	readErr := make(chan error, 1)
+	go func() {
+		defer close(ord)
+		defer close(jobs)
+		readErr <- cutVectorBlocks(path, br, head, jobs, ord)
+	}()
+	return ord, func() error {
+		wg.Wait()
+		return <-readErr
+	}
+}
+
+// cutVectorBlocks reads br to its end in blocks of about vectorBlock bytes,
+// each cut after its last newline (the partial line is carried into the
+// next block; head.first, when not nil, starts the first), and sends each
+// block to jobs and its result channel to order, in file order.
+func cutVectorBlocks(path string, br *bufio.Reader, head vectorHead, jobs chan<- vectorJob, order chan<- chan vectorPart) error {
+	line := head.startLine
+	buf := head.first
+	send := func(data []byte) {
+		out := make(chan vectorPart, 1)
+		jobs <- vectorJob{first: line, data: data, out: out}
+		order <- out
+		line += bytes.Count(data, []byte{'\n'})
+	}
+	for {
+		// Each block is read in place after the carried-over partial line.
+		next := make([]byte, len(buf), len(buf)+vectorBlock)
+		copy(next, buf)
+		n, err := io.ReadFull(br, next[len(buf):cap(next)])
+		buf = next[:len(buf)+n]
+		if err == io.EOF || err == io.ErrUnexpectedEOF {
+			if len(buf) > 0 {
+				send(buf)
+			}
+			return nil
+		}
+		if err != nil {
+			return fmt.Errorf("corpus: %s: reading: %w", path, err)
+		}
+		cut := bytes.LastIndexByte(buf, '\n')
+		if cut < 0 {
+			if len(buf) > maxVectorLine {
+				return fmt.Errorf("corpus: %s line %d: line longer than %d bytes: is this a word-vector file?: %w", path, line, maxVectorLine, ErrVectors)
+			}
+			continue
+		}
+		rest := buf[cut+1:]
+		send(buf[:cut+1])
+		buf = rest
+	}
+}
+
+// reserve sizes v for count vectors of v.Dim numbers, but for no more than
+// most numbers in all (v.Dim ≥ 1, count > 0).
+func (v *Vectors) reserve(count, most int) {
+	dim := v.Dim
+	n := most
+	if count <= most/dim {
+		n = count * dim
+	}
+	v.Words = make([]string, 0, n/dim)
+	v.Data = make([]float32, 0, n)
+}
+
+// collect appends the parsed blocks from order to v in file order, keeping
+// the first vector of each word, and returns the first block's error. It
+// drains order to its end, so the parsers never block.
+func (v *Vectors) collect(order <-chan chan vectorPart) error {
+	dim := v.Dim
 	seen := make(map[string]bool, cap(v.Words))
 	var firstErr error
 	for out := range order {
@@ -183,14 +240,7 @@ func ReadVectors(path string, keep func(word string) bool) (*Vectors, error) {
 			v.Data = append(v.Data, p.data[i*dim:(i+1)*dim]...)
 		}
 	}
-	wg.Wait()
-	if err := <-readErr; err != nil && firstErr == nil {
-		firstErr = err
-	}
-	if firstErr != nil {
-		return nil, firstErr
-	}
-	return v, nil
+	return firstErr
 }
 
 // vectorPart is what one block of lines parses to.

@@ -62,58 +62,8 @@ func scanStream(ctx context.Context, st *SlotTable, next TextSource, workers int
 		free <- &textBatch{}
 	}
 	work := make(chan *textBatch, 2*workers)
-	var readErr error
-	read := 0
-	go func() {
-		defer close(work)
-		for {
-			var b *textBatch
-			select {
-			case b = <-free:
-			case <-ctx.Done():
-				return
-			}
-			b.first, b.flat, b.ends, b.gold = read, b.flat[:0], b.ends[:0], b.gold[:0]
-			for len(b.ends) < batchTexts {
-				ids, gold, ok, err := next()
-				if err != nil {
-					readErr = err
-					break
-				}
-				if !ok {
-					break
-				}
-				for j, id := range ids {
-					if id < 0 || int(id) >= cfg.VocabSize {
-						readErr = fmt.Errorf("explain: text %d token %d: id %d outside the vocabulary of %d", read, j, id, cfg.VocabSize)
-						break
-					}
-					if counts != nil {
-						counts[id]++
-					}
-				}
-				if readErr == nil && (gold < -1 || gold >= cfg.Classes) {
-					readErr = fmt.Errorf("explain: text %d: gold class %d outside 0…%d", read, gold, cfg.Classes-1)
-				}
-				if readErr != nil {
-					break
-				}
-				b.flat = append(b.flat, ids...)
-				b.ends = append(b.ends, len(b.flat))
-				b.gold = append(b.gold, gold)
-				read++
-			}
-			if len(b.ends) > 0 && readErr == nil {
-				work <- b
-			}
-			if readErr != nil || len(b.ends) < batchTexts {
-				if readErr != nil {
-					cancel()
-				}
-				return
-			}
-		}
-	}()
+	rd := &streamReader{next: next, vocab: cfg.VocabSize, classes: cfg.Classes, counts: counts}
+	go rd.run(ctx, cancel, free, work)
 	var done atomic.Int64
 	var wg sync.WaitGroup
 	for wk := range workers {
@@ -142,8 +92,80 @@ func scanStream(ctx context.Context, st *SlotTable, next TextSource, workers int
 	}
 	wg.Wait()
 	// The reader has returned: work is closed only when it does.
-	if readErr != nil {
-		return read, readErr
+	if rd.err != nil {
+		return rd.read, rd.err
 	}
-	return read, ctx.Err()
+	return rd.read, ctx.Err()
+}
+
+// streamReader reads a TextSource into batches and checks each text against
+// a model of vocab words and classes classes. Its fields read and err are
+// only looked at once run has returned.
+type streamReader struct {
+	next           TextSource
+	vocab, classes int
+	counts         []int // when not nil, each word's occurrences so far
+	read           int   // texts read
+	err            error // the source's or a check's error
+}
+
+// run fills the batches taken from free and sends them on work until the
+// source ends, it fails, a text fails its check (then it calls cancel) or
+// ctx ends; it closes work when it returns.
+func (r *streamReader) run(ctx context.Context, cancel context.CancelFunc, free <-chan *textBatch, work chan<- *textBatch) {
+	defer close(work)
+	for {
+		var b *textBatch
+		select {
+		case b = <-free:
+		case <-ctx.Done():
+			return
+		}
+		r.fill(b)
+		if len(b.ends) > 0 && r.err == nil {
+			work <- b
+		}
+		if r.err != nil || len(b.ends) < batchTexts {
+			if r.err != nil {
+				cancel()
+			}
+			return
+		}
+	}
+}
+
+// fill empties b, reusing its slices, and reads up to batchTexts texts into
+// it. It stops early at the source's end or at an error, which it leaves in
+// r.err (b then holds the good texts before it).
+func (r *streamReader) fill(b *textBatch) {
+	b.first, b.flat, b.ends, b.gold = r.read, b.flat[:0], b.ends[:0], b.gold[:0]
+	for len(b.ends) < batchTexts {
+		ids, gold, ok, err := r.next()
+		if err != nil {
+			r.err = err
+			break
+		}
+		if !ok {
+			break
+		}
+		for j, id := range ids {
+			if id < 0 || int(id) >= r.vocab {
+				r.err = fmt.Errorf("explain: text %d token %d: id %d outside the vocabulary of %d", r.read, j, id, r.vocab)
+				break
+			}
+			if r.counts != nil {
+				r.counts[id]++
+			}
+		}
+		if r.err == nil && (gold < -1 || gold >= r.classes) {
+			r.err = fmt.Errorf("explain: text %d: gold class %d outside 0…%d", r.read, gold, r.classes-1)
+		}
+		if r.err != nil {
+			break
+		}
+		b.flat = append(b.flat, ids...)
+		b.ends = append(b.ends, len(b.flat))
+		b.gold = append(b.gold, gold)
+		r.read++
+	}
 }

@@ -67,17 +67,8 @@ func Build(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, op
 // Gather computes the pieces Build lays out and returns them as an Input,
 // for callers that want to add to them or replace some before New.
 func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, opt Options, progress Progress) (Input, error) {
-	if m == nil {
-		return Input{}, ErrNoModel
-	}
-	if train == nil || len(train.Examples) == 0 {
-		return Input{}, fmt.Errorf("report: no training examples: the report profiles filters on the split the model was trained on")
-	}
-	if heldout == nil || len(heldout.Examples) == 0 {
-		return Input{}, fmt.Errorf("report: no test examples: give a split the model was not trained on (e.g. --test FILE)")
-	}
-	if len(m.Vocab) != m.Config.VocabSize {
-		return Input{}, fmt.Errorf("report: the model holds %d vocabulary words for %d embedding rows: it cannot read text", len(m.Vocab), m.Config.VocabSize)
+	if err := checkGather(m, train, heldout); err != nil {
+		return Input{}, err
 	}
 	if progress == nil {
 		progress = func(string, int, int) {}
@@ -111,26 +102,9 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	}
 
 	progress("evaluate", 0, len(ho.IDs))
-	probs := m.Probabilities(ho.IDs, opt.Threads)
-	pred := make([]int, len(probs))
-	conf := make([]float64, len(probs))
-	correct := make([]bool, len(probs))
-	for i, p := range probs {
-		for c, v := range p {
-			if v > p[pred[i]] {
-				pred[i] = c
-			}
-		}
-		conf[i] = float64(p[pred[i]])
-		correct[i] = pred[i] == ho.Gold[i]
-	}
-	mt := cnn.ComputeMetrics(m.Labels, ho.Gold, pred, conf, cnn.DefaultBins)
-	in.Metrics = &mt
-	in.Reliability = cnn.Reliability(conf, correct, cnn.DefaultBins)
-	if m.Baseline != nil {
-		if in.Baseline, err = cnn.CompareBaseline(m, heldout, opt.Threads); err != nil {
-			return Input{}, fmt.Errorf("report: the linear baseline on the test split: %w", err)
-		}
+	pred, conf, err := evaluate(&in, heldout, &ho, opt.Threads)
+	if err != nil {
+		return Input{}, err
 	}
 	progress("evaluate", len(ho.IDs), len(ho.IDs))
 	if err := ctx.Err(); err != nil {
@@ -155,6 +129,54 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		return Input{}, err
 	}
 	return in, nil
+}
+
+// checkGather refuses a missing model, an empty split and a model without
+// its vocabulary, before any work starts.
+func checkGather(m *cnn.Model, train, heldout *corpus.Dataset) error {
+	if m == nil {
+		return ErrNoModel
+	}
+	if train == nil || len(train.Examples) == 0 {
+		return fmt.Errorf("report: no training examples: the report profiles filters on the split the model was trained on")
+	}
+	if heldout == nil || len(heldout.Examples) == 0 {
+		return fmt.Errorf("report: no test examples: give a split the model was not trained on (e.g. --test FILE)")
+	}
+	if len(m.Vocab) != m.Config.VocabSize {
+		return fmt.Errorf("report: the model holds %d vocabulary words for %d embedding rows: it cannot read text", len(m.Vocab), m.Config.VocabSize)
+	}
+	return nil
+}
+
+// evaluate runs in.Model on the held-out split (heldout, and ho, the same
+// split as the model reads it) and fills in.Metrics, in.Reliability and, for
+// a model with a linear baseline, in.Baseline. It returns each text's
+// predicted class (the first of equally likely ones) and its probability.
+func evaluate(in *Input, heldout *corpus.Dataset, ho *audit.Data, threads int) (pred []int, conf []float64, err error) {
+	m := in.Model
+	probs := m.Probabilities(ho.IDs, threads)
+	pred = make([]int, len(probs))
+	conf = make([]float64, len(probs))
+	correct := make([]bool, len(probs))
+	for i, p := range probs {
+		for c, v := range p {
+			if v > p[pred[i]] {
+				pred[i] = c
+			}
+		}
+		conf[i] = float64(p[pred[i]])
+		correct[i] = pred[i] == ho.Gold[i]
+	}
+	mt := cnn.ComputeMetrics(m.Labels, ho.Gold, pred, conf, cnn.DefaultBins)
+	in.Metrics = &mt
+	in.Reliability = cnn.Reliability(conf, correct, cnn.DefaultBins)
+	if m.Baseline != nil {
+		if in.Baseline, err = cnn.CompareBaseline(m, heldout, threads); err != nil {
+			return nil, nil, fmt.Errorf("report: the linear baseline on the test split: %w", err)
+		}
+	}
+	return pred, conf, nil
 }
 
 // auditMinHalf is the fewest test texts each half of the cue audit's test
