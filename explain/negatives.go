@@ -59,7 +59,6 @@ type NegativeNgram struct {
 type skyline struct {
 	k     int
 	keep  int // examples per n-gram
-	index map[string]*skyEntry
 	items []*skyEntry
 	// ps, as and doms hold the items' P, a and dominators seen (stops at
 	// k), in the same order, so that the scans of add read contiguous
@@ -82,7 +81,7 @@ type skyEntry struct {
 }
 
 func newSkyline(k, keep int) *skyline {
-	return &skyline{k: k, keep: keep, index: map[string]*skyEntry{}, lo: negInf, hi: posInf, floor: negInf}
+	return &skyline{k: k, keep: keep, lo: negInf, hi: posInf, floor: negInf}
 }
 
 // dmin is the HeldDown floor (−Inf while best holds fewer than k values).
@@ -153,24 +152,26 @@ func pushLargest(h []float32, v float32, k int) []float32 {
 // ascending a and ids, so that a window's dominators all come before its
 // place and the windows it dominates all after.
 //
-// A window holding down by less than dmin is dropped before its key is
-// looked up, even when kept: the same ids give the same (a, P), and dmin
-// only grows, so such a window can never be among the k (k band-wide
-// windows beat it for every threshold of the band), and its count is no
-// longer needed.
+// The same ids always give the same (a, P) (the slot scores are a table
+// by id, summed in slot order), so a kept window is found at its place in
+// that order, without an index. A window holding down by less than dmin
+// is dropped before it is looked for, even when kept: dmin only grows, so
+// such a window can never be among the k (k band-wide windows beat it for
+// every threshold of the band), and its count is no longer needed.
 func (s *skyline) add(kb []byte, a, p float32, text int) {
 	if p-a < s.dmin() {
 		return
 	}
 	key := unsafe.String(unsafe.SliceData(kb), len(kb))
-	if e, ok := s.index[key]; ok {
+	at := s.place(key, a, p)
+	if at < len(s.items) && s.ps[at] == p && s.as[at] == a && s.items[at].key == key {
+		e := s.items[at]
 		e.count++
 		if !slices.Contains(e.examples, text) {
 			e.examples = insertSmallest(e.examples, text, s.keep)
 		}
 		return
 	}
-	at := s.place(key, a, p)
 	// Every item before at comes first in the order, so it dominates the
 	// window exactly when its a is not larger.
 	d := countAtMost(s.as[:at], a, s.k)
@@ -183,7 +184,6 @@ func (s *skyline) add(kb []byte, a, p float32, text int) {
 	s.ps = slices.Insert(s.ps, at, p)
 	s.as = slices.Insert(s.as, at, a)
 	s.doms = slices.Insert(s.doms, at, int32(d))
-	s.index[x.key] = x
 	s.fresh++
 	// The window dominates exactly the items after it with a not smaller.
 	full := false
@@ -195,7 +195,7 @@ func (s *skyline) add(kb []byte, a, p float32, text int) {
 		}
 	}
 	if full {
-		s.retain(func(i int) bool { return s.doms[i] < int32(s.k) })
+		s.evictDominated(at + 1)
 	}
 }
 
@@ -222,17 +222,20 @@ func countAtMost(vs []float32, a float32, k int) int {
 	return d
 }
 
-// retain keeps the items i with ok(i), in order, and forgets the others.
-func (s *skyline) retain(ok func(i int) bool) {
-	n := 0
-	for i, e := range s.items {
-		if !ok(i) {
-			delete(s.index, e.key)
-			continue
+// evictDominated drops the items from i on that have k dominators.
+func (s *skyline) evictDominated(i int) {
+	n := i
+	for ; i < len(s.items); i++ {
+		if s.doms[i] < int32(s.k) {
+			s.items[n], s.ps[n], s.as[n], s.doms[n] = s.items[i], s.ps[i], s.as[i], s.doms[i]
+			n++
 		}
-		s.items[n], s.ps[n], s.as[n], s.doms[n] = e, s.ps[i], s.as[i], s.doms[i]
-		n++
 	}
+	s.truncate(n)
+}
+
+// truncate keeps the first n items.
+func (s *skyline) truncate(n int) {
 	clear(s.items[n:])
 	s.items, s.ps, s.as, s.doms = s.items[:n], s.ps[:n], s.as[:n], s.doms[:n]
 }
@@ -270,8 +273,14 @@ func (s *skyline) screen(sc *bankScreen, f int) {
 	s.fresh = 0
 	floor := s.dmin()
 	sc.dmin[f], s.floor = max(floor, minHeldDown), floor
-	s.retain(func(i int) bool { return s.ps[i]-s.as[i] >= floor })
-	n := len(s.items)
+	n := 0
+	for i, e := range s.items {
+		if s.ps[i]-s.as[i] >= floor {
+			s.items[n], s.ps[n], s.as[n], s.doms[n] = e, s.ps[i], s.as[i], s.doms[i]
+			n++
+		}
+	}
+	s.truncate(n)
 	if n < s.k {
 		return
 	}
