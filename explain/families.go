@@ -104,6 +104,7 @@ func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float
 		weights[i], vecs[i] = it.weight, it.slots
 	}
 	var scratch upgmaScratch
+	scratch.keepDistances(vecs)
 	labels := scratch.cut(vecs, weights, cut)
 	// Per stratum, the item of every sampled window (−1 below the
 	// threshold), for resampling.
@@ -185,6 +186,47 @@ type upgmaScratch struct {
 	alive         []bool
 	parent, chain []int
 	merges        []merge
+	// all, when set by keepDistances, holds the distances between every
+	// two of the n points (n×n), which resamples reuse: only the weights
+	// change.
+	all []float64
+	n   int
+}
+
+// keepDistances computes the distances between every two points of x once,
+// for the cuts that follow on the same points.
+func (u *upgmaScratch) keepDistances(x [][]float64) {
+	n := len(x)
+	u.all, u.n = grow(u.all, n*n), n
+	for a := 0; a < n; a++ {
+		u.all[a*n+a] = 0
+		for b := a + 1; b < n; b++ {
+			v := dist(x[a], x[b])
+			u.all[a*n+b], u.all[b*n+a] = v, v
+		}
+	}
+}
+
+// distances fills d (k×k) with the distances between the points idx of x.
+func (u *upgmaScratch) distances(d []float64, x [][]float64, idx []int) {
+	k := len(idx)
+	if u.all != nil && u.n == len(x) {
+		n := u.n
+		for a, i := range idx {
+			row, src := d[a*k:(a+1)*k], u.all[i*n:(i+1)*n]
+			for b, j := range idx {
+				row[b] = src[j]
+			}
+			row[a] = 0
+		}
+		return
+	}
+	for a := 0; a < k; a++ {
+		for b := a + 1; b < k; b++ {
+			v := dist(x[idx[a]], x[idx[b]])
+			d[a*k+b], d[b*k+a] = v, v
+		}
+	}
 }
 
 func (u *upgmaScratch) cut(x [][]float64, w []float64, cut float64) []int {
@@ -207,12 +249,7 @@ func (u *upgmaScratch) cut(x [][]float64, w []float64, cut float64) []int {
 	k := len(idx)
 	u.d = grow(u.d, k*k)
 	d := u.d
-	for a := 0; a < k; a++ {
-		for b := a + 1; b < k; b++ {
-			v := dist(x[idx[a]], x[idx[b]])
-			d[a*k+b], d[b*k+a] = v, v
-		}
-	}
+	u.distances(d, x, idx)
 	u.parent = grow(u.parent, k)
 	parent := u.parent
 	for i := range parent {
