@@ -278,11 +278,16 @@ type merge struct {
 
 // nnChain returns the merges of the average-linkage tree over k clusters
 // with distance matrix d (k×k, overwritten) and weights w[idx[i]].
+//
+// The diagonal and the columns of merged-away clusters hold +Inf, so that
+// the nearest-neighbour search is a plain scan of a row: +Inf never wins
+// (the comparison is strict), as a skipped entry would not.
 func (u *upgmaScratch) nnChain(d []float64, k int, w []float64, idx []int) []merge {
 	u.size, u.alive = grow(u.size, k), grow(u.alive, k)
 	size, alive := u.size, u.alive
 	for i := range size {
 		size[i], alive[i] = w[idx[i]], true
+		d[i*k+i] = math.Inf(1)
 	}
 	merges, chain := u.merges[:0], u.chain[:0]
 	for left := k; left > 1; {
@@ -300,9 +305,9 @@ func (u *upgmaScratch) nnChain(d []float64, k int, w []float64, idx []int) []mer
 		if prev >= 0 {
 			bd = d[a*k+prev]
 		}
-		for j := 0; j < k; j++ {
-			if alive[j] && j != a && d[a*k+j] < bd {
-				b, bd = j, d[a*k+j]
+		for j, v := range d[a*k : (a+1)*k] {
+			if v < bd {
+				b, bd = j, v
 			}
 		}
 		if b != prev {
@@ -320,6 +325,9 @@ func (u *upgmaScratch) nnChain(d []float64, k int, w []float64, idx []int) []mer
 		}
 		size[a] += nb
 		alive[b] = false
+		for j := 0; j < k; j++ {
+			d[j*k+b] = math.Inf(1)
+		}
 		left--
 	}
 	u.merges, u.chain = merges, chain
