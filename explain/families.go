@@ -494,34 +494,46 @@ func familyStability(fams []Family, labels []int, vecs [][]float64, weights []fl
 	together := make([]float64, n*n)
 	both := make([]float64, n*n)
 	rw := make([]float64, n)
+	// Only pairs within a family count: walk each family's members, in
+	// increasing order (so that the sums below add in the order of i, j).
+	members := make([][]int, len(fams))
+	for i, l := range labels {
+		if l >= 0 {
+			members[l] = append(members[l], i)
+		}
+	}
 	for range familyStabilityResamples {
 		resample(rw)
 		rl := scratch.cut(vecs, rw, cut)
-		for i := 0; i < n; i++ {
-			if rl[i] < 0 {
-				continue
-			}
-			for j := i + 1; j < n; j++ {
-				if rl[j] < 0 || labels[i] != labels[j] {
+		for _, ms := range members {
+			for x, i := range ms {
+				if rl[i] < 0 {
 					continue
 				}
-				both[i*n+j]++
-				if rl[i] == rl[j] {
-					together[i*n+j]++
+				for _, j := range ms[x+1:] {
+					if rl[j] < 0 {
+						continue
+					}
+					both[i*n+j]++
+					if rl[i] == rl[j] {
+						together[i*n+j]++
+					}
 				}
 			}
 		}
 	}
 	num := make([]float64, len(fams))
 	den := make([]float64, len(fams))
-	for i := 0; i < n; i++ {
-		for j := i + 1; j < n; j++ {
-			if labels[i] != labels[j] || both[i*n+j] == 0 {
-				continue
+	for l, ms := range members {
+		for x, i := range ms {
+			for _, j := range ms[x+1:] {
+				if both[i*n+j] == 0 {
+					continue
+				}
+				pw := weights[i] * weights[j]
+				num[l] += pw * together[i*n+j] / both[i*n+j]
+				den[l] += pw
 			}
-			pw := weights[i] * weights[j]
-			num[labels[i]] += pw * together[i*n+j] / both[i*n+j]
-			den[labels[i]] += pw
 		}
 	}
 	for l := range fams {
