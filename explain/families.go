@@ -104,6 +104,7 @@ func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float
 		weights[i], vecs[i] = it.weight, it.slots
 	}
 	var scratch upgmaScratch
+	scratch.keepDistances(vecs)
 	labels := scratch.cut(vecs, weights, cut)
 	// Per stratum, the item of every sampled window (−1 below the
 	// threshold), for resampling.
@@ -185,6 +186,47 @@ type upgmaScratch struct {
 	alive         []bool
 	parent, chain []int
 	merges        []merge
+	// all, when set by keepDistances, holds the distances between every
+	// two of the n points (n×n), which resamples reuse: only the weights
+	// change.
+	all []float64
+	n   int
+}
+
+// keepDistances computes the distances between every two points of x once,
+// for the cuts that follow on the same points.
+func (u *upgmaScratch) keepDistances(x [][]float64) {
+	n := len(x)
+	u.all, u.n = grow(u.all, n*n), n
+	for a := 0; a < n; a++ {
+		u.all[a*n+a] = 0
+		for b := a + 1; b < n; b++ {
+			v := dist(x[a], x[b])
+			u.all[a*n+b], u.all[b*n+a] = v, v
+		}
+	}
+}
+
+// distances fills d (k×k) with the distances between the points idx of x.
+func (u *upgmaScratch) distances(d []float64, x [][]float64, idx []int) {
+	k := len(idx)
+	if u.all != nil && u.n == len(x) {
+		n := u.n
+		for a, i := range idx {
+			row, src := d[a*k:(a+1)*k], u.all[i*n:(i+1)*n]
+			for b, j := range idx {
+				row[b] = src[j]
+			}
+			row[a] = 0
+		}
+		return
+	}
+	for a := 0; a < k; a++ {
+		for b := a + 1; b < k; b++ {
+			v := dist(x[idx[a]], x[idx[b]])
+			d[a*k+b], d[b*k+a] = v, v
+		}
+	}
 }
 
 func (u *upgmaScratch) cut(x [][]float64, w []float64, cut float64) []int {
@@ -207,12 +249,7 @@ func (u *upgmaScratch) cut(x [][]float64, w []float64, cut float64) []int {
 	k := len(idx)
 	u.d = grow(u.d, k*k)
 	d := u.d
-	for a := 0; a < k; a++ {
-		for b := a + 1; b < k; b++ {
-			v := dist(x[idx[a]], x[idx[b]])
-			d[a*k+b], d[b*k+a] = v, v
-		}
-	}
+	u.distances(d, x, idx)
 	u.parent = grow(u.parent, k)
 	parent := u.parent
 	for i := range parent {
@@ -241,11 +278,16 @@ type merge struct {
 
 // nnChain returns the merges of the average-linkage tree over k clusters
 // with distance matrix d (k×k, overwritten) and weights w[idx[i]].
+//
+// The diagonal and the columns of merged-away clusters hold +Inf, so that
+// the nearest-neighbour search is a plain scan of a row: +Inf never wins
+// (the comparison is strict), as a skipped entry would not.
 func (u *upgmaScratch) nnChain(d []float64, k int, w []float64, idx []int) []merge {
 	u.size, u.alive = grow(u.size, k), grow(u.alive, k)
 	size, alive := u.size, u.alive
 	for i := range size {
 		size[i], alive[i] = w[idx[i]], true
+		d[i*k+i] = math.Inf(1)
 	}
 	merges, chain := u.merges[:0], u.chain[:0]
 	for left := k; left > 1; {
@@ -263,9 +305,9 @@ func (u *upgmaScratch) nnChain(d []float64, k int, w []float64, idx []int) []mer
 		if prev >= 0 {
 			bd = d[a*k+prev]
 		}
-		for j := 0; j < k; j++ {
-			if alive[j] && j != a && d[a*k+j] < bd {
-				b, bd = j, d[a*k+j]
+		for j, v := range d[a*k : (a+1)*k] {
+			if v < bd {
+				b, bd = j, v
 			}
 		}
 		if b != prev {
@@ -283,6 +325,9 @@ func (u *upgmaScratch) nnChain(d []float64, k int, w []float64, idx []int) []mer
 		}
 		size[a] += nb
 		alive[b] = false
+		for j := 0; j < k; j++ {
+			d[j*k+b] = math.Inf(1)
+		}
 		left--
 	}
 	u.merges, u.chain = merges, chain
@@ -449,34 +494,46 @@ func familyStability(fams []Family, labels []int, vecs [][]float64, weights []fl
 	together := make([]float64, n*n)
 	both := make([]float64, n*n)
 	rw := make([]float64, n)
+	// Only pairs within a family count: walk each family's members, in
+	// increasing order (so that the sums below add in the order of i, j).
+	members := make([][]int, len(fams))
+	for i, l := range labels {
+		if l >= 0 {
+			members[l] = append(members[l], i)
+		}
+	}
 	for range familyStabilityResamples {
 		resample(rw)
 		rl := scratch.cut(vecs, rw, cut)
-		for i := 0; i < n; i++ {
-			if rl[i] < 0 {
-				continue
-			}
-			for j := i + 1; j < n; j++ {
-				if rl[j] < 0 || labels[i] != labels[j] {
+		for _, ms := range members {
+			for x, i := range ms {
+				if rl[i] < 0 {
 					continue
 				}
-				both[i*n+j]++
-				if rl[i] == rl[j] {
-					together[i*n+j]++
+				for _, j := range ms[x+1:] {
+					if rl[j] < 0 {
+						continue
+					}
+					both[i*n+j]++
+					if rl[i] == rl[j] {
+						together[i*n+j]++
+					}
 				}
 			}
 		}
 	}
 	num := make([]float64, len(fams))
 	den := make([]float64, len(fams))
-	for i := 0; i < n; i++ {
-		for j := i + 1; j < n; j++ {
-			if labels[i] != labels[j] || both[i*n+j] == 0 {
-				continue
+	for l, ms := range members {
+		for x, i := range ms {
+			for _, j := range ms[x+1:] {
+				if both[i*n+j] == 0 {
+					continue
+				}
+				pw := weights[i] * weights[j]
+				num[l] += pw * together[i*n+j] / both[i*n+j]
+				den[l] += pw
 			}
-			pw := weights[i] * weights[j]
-			num[labels[i]] += pw * together[i*n+j] / both[i*n+j]
-			den[labels[i]] += pw
 		}
 	}
 	for l := range fams {

@@ -3,6 +3,7 @@ package explain
 import (
 	"cmp"
 	"slices"
+	"strings"
 	"unsafe"
 )
 
@@ -45,7 +46,8 @@ type NegativeNgram struct {
 // exactly the windows seen with fewer than k dominators (the k-skyline): an
 // evicted window's dominators stay dominated by at least k kept ones, so
 // the count over the kept ones decides membership. A window once out stays
-// out; a kept window sees every occurrence, so its count is exact. For
+// out; a kept window sees every occurrence while it holds down by at least
+// dmin (below, and it cannot be among the k), so its count is exact. For
 // random points its size grows like k·ln(n).
 //
 // The search covers the thresholds of a band [lo, hi] (see bankScreen). A
@@ -57,8 +59,12 @@ type NegativeNgram struct {
 type skyline struct {
 	k     int
 	keep  int // examples per n-gram
-	index map[string]*skyEntry
 	items []*skyEntry
+	// ps, as and doms hold the items' P, a and dominators seen (stops at
+	// k), in the same order, so that the scans of add read contiguous
+	// memory.
+	ps, as []float32
+	doms   []int32
 	// fresh counts insertions since the screen was last updated.
 	fresh  int
 	lo, hi float32
@@ -69,14 +75,13 @@ type skyline struct {
 type skyEntry struct {
 	key      string // the window's ids, 4 bytes each
 	a, p     float32
-	dom      int // dominators seen (stops at k)
 	count    int
 	examples []int
 	inBest   bool // its HeldDown is in best
 }
 
 func newSkyline(k, keep int) *skyline {
-	return &skyline{k: k, keep: keep, index: map[string]*skyEntry{}, lo: negInf, hi: posInf, floor: negInf}
+	return &skyline{k: k, keep: keep, lo: negInf, hi: posInf, floor: negInf}
 }
 
 // dmin is the HeldDown floor (−Inf while best holds fewer than k values).
@@ -141,79 +146,123 @@ func pushLargest(h []float32, v float32, k int) []float32 {
 	}
 }
 
-// dominates reports whether y dominates x (see skyline).
-func dominates(y, x *skyEntry) bool {
-	if y.p < x.p || y.a > x.a {
-		return false
-	}
-	return y.p > x.p || y.a < x.a || y.key < x.key
-}
-
 // add records one occurrence in text of the window whose ids are encoded
 // in kb (4 bytes each, least significant first), with pre-activation a and
 // positive part p. Items are kept in the order of descending P, then
 // ascending a and ids, so that a window's dominators all come before its
 // place and the windows it dominates all after.
+//
+// The same ids always give the same (a, P) (the slot scores are a table
+// by id, summed in slot order), so a kept window is found at its place in
+// that order, without an index. A window holding down by less than dmin
+// is dropped before it is looked for, even when kept: dmin only grows, so
+// such a window can never be among the k (k band-wide windows beat it for
+// every threshold of the band), and its count is no longer needed.
 func (s *skyline) add(kb []byte, a, p float32, text int) {
+	if p-a < s.dmin() {
+		return
+	}
 	key := unsafe.String(unsafe.SliceData(kb), len(kb))
-	if e, ok := s.index[key]; ok {
+	at := s.place(key, a, p)
+	if at < len(s.items) && s.ps[at] == p && s.as[at] == a && s.items[at].key == key {
+		e := s.items[at]
 		e.count++
 		if !slices.Contains(e.examples, text) {
 			e.examples = insertSmallest(e.examples, text, s.keep)
 		}
 		return
 	}
-	if p-a < s.dmin() {
+	// Every item before at comes first in the order, so it dominates the
+	// window exactly when its a is not larger.
+	d := countAtMost(s.as[:at], a, s.k)
+	if d >= s.k {
 		return
 	}
-	at := s.place(key, a, p)
-	d := 0
-	for _, y := range s.items[:at] {
-		if y.a <= a && (y.p > p || y.a < a || y.key < key) {
-			if d++; d >= s.k {
-				return
-			}
-		}
-	}
-	x := &skyEntry{key: string(kb), a: a, p: p, dom: d, count: 1, examples: []int{text}} // kb is a reused buffer
+	x := &skyEntry{key: string(kb), a: a, p: p, count: 1, examples: []int{text}} // kb is a reused buffer
 	s.noteBest(x)
 	s.items = slices.Insert(s.items, at, x)
-	kept := s.items[:at+1]
-	for _, y := range s.items[at+1:] {
-		if y.a >= x.a && dominates(x, y) {
-			y.dom++
-		}
-		if y.dom < s.k {
-			kept = append(kept, y)
-		} else {
-			delete(s.index, y.key)
+	s.ps = slices.Insert(s.ps, at, p)
+	s.as = slices.Insert(s.as, at, a)
+	s.doms = slices.Insert(s.doms, at, int32(d))
+	s.fresh++
+	// The window dominates exactly the items after it with a not smaller.
+	full := false
+	for i, v := range s.as[at+1:] {
+		if v >= a {
+			j := at + 1 + i
+			s.doms[j]++
+			full = full || s.doms[j] >= int32(s.k)
 		}
 	}
-	clear(s.items[len(kept):])
-	s.items = kept
-	s.index[x.key] = x
-	s.fresh++
+	if full {
+		s.evictDominated(at + 1)
+	}
 }
 
-// place is where a window (key, a, p) goes in the order of skyOrder: after
-// every kept window y with skyOrder(y, window) < 0.
+// countAtMost counts the values of vs at or below a, stopping once the
+// count reaches k (then it returns at least k).
+func countAtMost(vs []float32, a float32, k int) int {
+	d := 0
+	for len(vs) >= 16 {
+		for _, v := range vs[:16] {
+			if v <= a {
+				d++
+			}
+		}
+		if d >= k {
+			return d
+		}
+		vs = vs[16:]
+	}
+	for _, v := range vs {
+		if v <= a {
+			d++
+		}
+	}
+	return d
+}
+
+// evictDominated drops the items from i on that have k dominators.
+func (s *skyline) evictDominated(i int) {
+	n := i
+	for ; i < len(s.items); i++ {
+		if s.doms[i] < int32(s.k) {
+			s.items[n], s.ps[n], s.as[n], s.doms[n] = s.items[i], s.ps[i], s.as[i], s.doms[i]
+			n++
+		}
+	}
+	s.truncate(n)
+}
+
+// truncate keeps the first n items.
+func (s *skyline) truncate(n int) {
+	clear(s.items[n:])
+	s.items, s.ps, s.as, s.doms = s.items[:n], s.ps[:n], s.as[:n], s.doms[:n]
+}
+
+// place is where a window (key, a, p) goes in the order of the items
+// (descending P, then ascending a, then ids): after every item that comes
+// first. The ids are compared only on a tie in P and a.
 func (s *skyline) place(key string, a, p float32) int {
 	lo, hi := 0, len(s.items)
 	for lo < hi {
 		mid := int(uint(lo+hi) >> 1)
-		y := s.items[mid]
-		if cmp.Or(cmp.Compare(p, y.p), cmp.Compare(y.a, a), cmp.Compare(y.key, key)) < 0 {
+		var before bool
+		switch yp, ya := s.ps[mid], s.as[mid]; {
+		case yp != p:
+			before = yp > p
+		case ya != a:
+			before = ya < a
+		default:
+			before = s.items[mid].key < key
+		}
+		if before {
 			lo = mid + 1
 		} else {
 			hi = mid
 		}
 	}
 	return lo
-}
-
-// skyOrder sorts by descending P, then ascending a, then ids.
-func skyOrder(x, y *skyEntry) int {
-	return cmp.Or(cmp.Compare(y.p, x.p), cmp.Compare(x.a, y.a), cmp.Compare(x.key, y.key))
 }
 
 // screen writes the skyline's staircase corners for filter f into sc: a
@@ -224,17 +273,14 @@ func (s *skyline) screen(sc *bankScreen, f int) {
 	s.fresh = 0
 	floor := s.dmin()
 	sc.dmin[f], s.floor = max(floor, minHeldDown), floor
-	kept := s.items[:0]
-	for _, e := range s.items {
-		if e.p-e.a >= floor {
-			kept = append(kept, e)
-		} else {
-			delete(s.index, e.key)
+	n := 0
+	for i, e := range s.items {
+		if s.ps[i]-s.as[i] >= floor {
+			s.items[n], s.ps[n], s.as[n], s.doms[n] = e, s.ps[i], s.as[i], s.doms[i]
+			n++
 		}
 	}
-	clear(s.items[len(kept):])
-	s.items = kept
-	n := len(s.items)
+	s.truncate(n)
 	if n < s.k {
 		return
 	}
@@ -325,7 +371,10 @@ func negativeNgrams(st *SlotTable, g int, skies []*skyline, theta float32, k, ke
 		all = append(all, e)
 	}
 	slices.SortFunc(all, func(x, y *skyEntry) int {
-		return cmp.Or(cmp.Compare(y.p-y.a, x.p-x.a), cmp.Compare(x.key, y.key))
+		if c := cmp.Compare(y.p-y.a, x.p-x.a); c != 0 {
+			return c
+		}
+		return strings.Compare(x.key, y.key)
 	})
 	out := make([]NegativeNgram, 0, min(k, len(all)))
 	for _, e := range all[:min(k, len(all))] {
