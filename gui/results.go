@@ -61,7 +61,7 @@ func (v *resultsView) layout() fyne.CanvasObject {
 	)
 	texts := container.NewBorder(v.cellNote, v.cellTexts.detail, nil, nil, v.cellTexts.view())
 	bottom := container.NewHSplit(v.lower, texts)
-	bottom.Offset = 0.4
+	bottom.Offset = 0.58 // room for the per-class table's five columns at 1366 wide
 	split := container.NewVSplit(matrix, bottom)
 	split.Offset = 0.58
 	return container.NewBorder(container.NewVBox(v.caption, v.headline, v.beside), nil, nil, nil, split)

@@ -44,7 +44,8 @@ func hostileExample(t *testing.T, m *cnn.Model) Example {
 
 // screenshotInput is the demo fixture's input with a hostile example added,
 // or, when $TELLTALE_REPORT_MODEL names a model file, a report of that model
-// on the whole demo corpus (for scripts/report-screenshot.sh).
+// on the demo corpus: the training split of train.csv the model records (all
+// of it when it records none) and test.csv (for scripts/report-screenshot.sh).
 func screenshotInput(t *testing.T) Input {
 	t.Helper()
 	if path := os.Getenv("TELLTALE_REPORT_MODEL"); path != "" {
@@ -56,6 +57,11 @@ func screenshotInput(t *testing.T) Input {
 		train, _, err := corpus.Load(filepath.Join(root, "testdata", "demo", "train.csv"), corpus.Options{})
 		if err != nil {
 			t.Fatal(err)
+		}
+		// As telltale report does: the training split the model file records,
+		// so the page shows the figures the command prints.
+		if rec := m.Info.Splits; rec != nil && rec.Examples == len(train.Examples) && rec.Fingerprint == train.Fingerprint() {
+			train, _, _ = train.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
 		}
 		test, _, err := corpus.Load(filepath.Join(root, "testdata", "demo", "test.csv"), corpus.Options{})
 		if err != nil {

@@ -16,7 +16,7 @@ step "Train the sentence CNN (the best epoch by dev macro-F1 is kept, then score
   "$tt" train --data testdata/demo/train.csv --test testdata/demo/test.csv --out "$out/ferry.tt" --epochs 8
 step "Evaluate on the test file, where the cues are spread evenly" \
   "$tt" eval --model "$out/ferry.tt" --test testdata/demo/test.csv
-step "Why does a message get its label? (exact shares of the predicted logit)" \
+step "Why does a message get its label? (exact shares of its log-odds against the runner-up)" \
   "$tt" explain --model "$out/ferry.tt" --text "The deckhand was not friendly at all and my refund never came."
 step "Audit for cues that look like how the data was collected, and retrain without those it acts on" \
   "$tt" audit --model "$out/ferry.tt" --data testdata/demo/train.csv --test testdata/demo/test.csv \
