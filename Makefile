@@ -32,8 +32,8 @@ corpora: deps-test
 build: deps-gui
 	$(GO) build -o $(BIN) .
 
-# The tour on the embedded demo corpus: summary, training, evaluation,
-# filters, an explanation, the audit and the report; then the window, when
+# The tour on the demo corpus: summary, training, evaluation, an
+# explanation, the audit and the report; then the window, when
 # there is a display.
 demo: build
 	@scripts/demo.sh $(BIN)
