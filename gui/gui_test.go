@@ -77,8 +77,9 @@ func (s *session) corpus() {
 // the reliability bins drawn reproduce cnn's calibration error.
 func (s *session) training() {
 	t, st, q, cs := s.t, s.st, s.q, s.cs
-	// A small recipe; three epochs.
+	// A small recipe; three epochs; the linear baseline beside it.
 	smallRecipe(st)
+	_ = st.recipe.baseline.Set(true)
 	tv := st.trainingView
 	test.Tap(tv.trainBtn)
 	if !tv.trainBtn.Disabled() || tv.stopBtn.Disabled() {

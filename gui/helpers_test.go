@@ -74,12 +74,18 @@ func demoBytes(t *testing.T) (train, testSplit []byte) {
 }
 
 // smallRecipe puts a recipe in the form that trains in seconds: widths
-// 3, 4, 5 with 10 maps each, 16 dimensions, three epochs.
+// 3, 4, 5 with 10 maps each, 16 dimensions, three epochs. The race pass
+// (-short) leaves out the linear baseline's fit: its optimizer runs ten
+// times slower under the race detector and takes no part in the window's
+// concurrency; the full run keeps it, and the whole-session test always.
 func smallRecipe(st *State) {
 	_ = st.recipe.widths.Set("3,4,5")
 	_ = st.recipe.maps.Set("10")
 	_ = st.recipe.dim.Set("16")
 	_ = st.recipe.epochs.Set("3")
+	if testing.Short() {
+		_ = st.recipe.baseline.Set(false)
+	}
 }
 
 // trainedWindow opens the demo corpus in a window of the given size,
@@ -94,12 +100,6 @@ func trainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	t.Cleanup(st.cancelAll)
 	q.waitFor(t, "the demo corpus", func() bool { return itemGet(st.data) != nil })
 	smallRecipe(st)
-	if testing.Short() {
-		// The race pass (-short) leaves out the linear baseline's fit: its
-		// optimizer runs ten times slower under the race detector and
-		// takes no part in the window's concurrency; the full run keeps it.
-		_ = st.recipe.baseline.Set(false)
-	}
 	st.trainNow()
 	q.waitFor(t, "the trained model and its profiles", func() bool { return itemGet(st.profiles) != nil })
 	return w, st, q
