@@ -64,8 +64,6 @@ func (o *occluder) span(lo, hi int) (drop, dropLog float64) {
 func (o *occluder) single(i int) {
 	r := o.r
 	st := r.st
-	m := st.m
-	nf := m.Config.NumFilters()
 	copy(o.z, o.e.logits)
 	copy(o.pooled, r.p.Pooled)
 	n := r.p.Len
@@ -74,31 +72,48 @@ func (o *occluder) single(i int) {
 		F, w := tb.filters, tb.width
 		nw := n - w + 1
 		t0, t1 := max(0, i-w+1), min(i, nw-1)
-		nm := o.newMax[:F]
-		if t0 > 0 {
-			copy(nm, o.pm[b][(t0-1)*F:t0*F])
-		} else {
-			for f := range nm {
-				nm[f] = negInf
-			}
-		}
-		if t1+1 < nw {
-			maxInto(nm, o.sm[b][(t1+1)*F:(t1+2)*F])
-		}
+		nm := o.outside(b, F, nw, t0, t1)
 		row := r.rows[b][i]
 		win := r.win[b]
 		for t := t0; t <= t1; t++ {
 			s := i - t
 			subMaxInto(nm, win[t*F:(t+1)*F], row[s*F:(s+1)*F])
 		}
-		for f, a := range nm {
-			g := b*F + f
-			h := max(a, 0)
-			if dh := float64(h) - float64(r.p.Pooled[g]); dh != 0 && !m.IsMasked(g) {
-				o.pooled[g] = h
-				for c := range o.z {
-					o.z[c] += float64(m.OutW[c*nf+g]) * dh
-				}
+		o.setBank(b, F, nm)
+	}
+}
+
+// outside is the running maximum of bank b's F filters over its windows
+// before t0 and after t1 (−∞ where there are none), in o.newMax; nw is
+// the text's number of windows of that width.
+func (o *occluder) outside(b, F, nw, t0, t1 int) []float32 {
+	nm := o.newMax[:F]
+	if t0 > 0 {
+		copy(nm, o.pm[b][(t0-1)*F:t0*F])
+	} else {
+		for f := range nm {
+			nm[f] = negInf
+		}
+	}
+	if t1+1 < nw {
+		maxInto(nm, o.sm[b][(t1+1)*F:(t1+2)*F])
+	}
+	return nm
+}
+
+// setBank makes nm (bank b's F new maxima before the ReLU) the pooled
+// units of the edited text and moves o.z by the change of every unmasked
+// one.
+func (o *occluder) setBank(b, F int, nm []float32) {
+	m := o.r.st.m
+	nf := m.Config.NumFilters()
+	for f, a := range nm {
+		g := b*F + f
+		h := max(a, 0)
+		if dh := float64(h) - float64(o.r.p.Pooled[g]); dh != 0 && !m.IsMasked(g) {
+			o.pooled[g] = h
+			for c := range o.z {
+				o.z[c] += float64(m.OutW[c*nf+g]) * dh
 			}
 		}
 	}
@@ -116,8 +131,6 @@ func (o *occluder) drops() (drop, dropLog float64) {
 func (o *occluder) apply(lo, hi int, keep func(i int) bool) {
 	r := o.r
 	st := r.st
-	m := st.m
-	nf := m.Config.NumFilters()
 	copy(o.z, o.e.logits)
 	copy(o.pooled, r.p.Pooled)
 	n := r.p.Len
@@ -126,19 +139,7 @@ func (o *occluder) apply(lo, hi int, keep func(i int) bool) {
 		F, w := tb.filters, tb.width
 		nw := n - w + 1
 		t0, t1 := max(0, lo-w+1), min(hi, nw-1)
-		nm := o.newMax
-		for f := range nm {
-			nm[f] = negInf
-		}
-		if t0 > 0 {
-			copy(nm, o.pm[b][(t0-1)*F:t0*F])
-		}
-		if t1+1 < nw {
-			sm := o.sm[b][(t1+1)*F : (t1+2)*F]
-			for f, v := range sm {
-				nm[f] = max(nm[f], v)
-			}
-		}
+		nm := o.outside(b, F, nw, t0, t1)
 		rows := r.rows[b]
 		for t := t0; t <= t1; t++ {
 			copy(o.acc, tb.bias)
@@ -151,18 +152,6 @@ func (o *occluder) apply(lo, hi int, keep func(i int) bool) {
 				nm[f] = max(nm[f], a)
 			}
 		}
-		for f, a := range nm {
-			g := b*F + f
-			if m.IsMasked(g) {
-				continue
-			}
-			h := max(a, 0)
-			o.pooled[g] = h
-			if dh := float64(h) - float64(r.p.Pooled[g]); dh != 0 {
-				for c := range o.z {
-					o.z[c] += float64(m.OutW[c*nf+g]) * dh
-				}
-			}
-		}
+		o.setBank(b, F, nm)
 	}
 }
