@@ -67,13 +67,7 @@ func BootstrapF1s(confusion [][]int, resamples int, level float64, seed uint64) 
 func weightedF1Of(flat []int, k int, f1 []float64) float64 {
 	n, sum := 0, 0.0
 	for c := range k {
-		tp, fp, fn := flat[c*k+c], 0, 0
-		for o := range k {
-			if o != c {
-				fp += flat[o*k+c]
-				fn += flat[c*k+o]
-			}
-		}
+		tp, fp, fn := classCounts(flat, k, c)
 		f1[c] = ratio(2*tp, 2*tp+fp+fn)
 		sum += f1[c] * float64(tp+fn)
 		n += tp + fn

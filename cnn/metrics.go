@@ -386,18 +386,25 @@ func bootstrapPercentiles(n, m, resamples int, level float64, seed uint64, stat 
 	return ivs
 }
 
+// classCounts is class c's true positives, false positives and false
+// negatives in the k×k confusion counts flat (row-major, rows gold).
+func classCounts(flat []int, k, c int) (tp, fp, fn int) {
+	tp = flat[c*k+c]
+	for o := range k {
+		if o != c {
+			fp += flat[o*k+c]
+			fn += flat[c*k+o]
+		}
+	}
+	return tp, fp, fn
+}
+
 // macroF1Of is the macro-F1 of the k×k confusion counts flat (row-major,
 // rows gold) as ComputeMetrics computes it.
 func macroF1Of(flat []int, k int) float64 {
 	present, sum := 0, 0.0
 	for c := range k {
-		tp, fp, fn := flat[c*k+c], 0, 0
-		for o := range k {
-			if o != c {
-				fp += flat[o*k+c]
-				fn += flat[c*k+o]
-			}
-		}
+		tp, fp, fn := classCounts(flat, k, c)
 		if tp+fp+fn > 0 {
 			present++
 			sum += ratio(2*tp, 2*tp+fp+fn)
