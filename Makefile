@@ -51,10 +51,10 @@ test-go:
 test-portable:
 	GOEXPERIMENT= CI=true $(GO) test -tags ci -count=1 -run 'Kernel|Predict|Forward|Table|MatMul|Dot' ./cnn ./explain ./internal/f32
 
-# The race detector over the training, profiling, audit and GUI-state packages
-# (short mode leaves out the long corpus-scale runs).
+# The race detector over the training, baseline, profiling, audit and
+# GUI-state packages (short mode leaves out the long corpus-scale runs).
 test-race:
-	CI=true $(GO) test -tags ci -race -short -count=1 -timeout 20m ./corpus ./cnn ./explain ./audit ./gui
+	CI=true $(GO) test -tags ci -race -short -count=1 -timeout 20m ./corpus ./cnn ./linear ./explain ./audit ./gui
 
 # Each fuzz target for a short, fixed run.
 # A fixed number of executions rather than seconds: a time budget can end in

@@ -52,6 +52,10 @@ func withBaseline(t *testing.T, m *cnn.Model, cs *corpusState) *cnn.Model {
 // McNemar test in the command line's words.
 func (s *session) results() {
 	t, w, st, q, ms, cs := s.t, s.w, s.st, s.q, s.ms, s.cs
+	if testing.Short() {
+		s.resultsWithoutBaseline()
+		return
+	}
 	if ms.Model.Baseline == nil || ms.Eval.Baseline == nil {
 		t.Fatalf("the default recipe's model carries no baseline (%v) or was not compared with it", ms.Model.Baseline == nil)
 	}
@@ -94,6 +98,44 @@ func (s *session) results() {
 	data, ok := st.resultsView.exportData().(resultsJSON)
 	if !ok || data.Baseline == nil || data.Baseline.Metrics.Accuracy != want.Baseline.Accuracy || data.Baseline.C != ms.Model.Baseline.Classifier.C {
 		t.Errorf("the view's export %+v", data)
+	}
+}
+
+// resultsWithoutBaseline: the race pass trains without the baseline (see
+// training); the Results view then shows cnn's figures of the test split
+// and says that there is no baseline to set beside them.
+func (s *session) resultsWithoutBaseline() {
+	t, st, q, ms, cs := s.t, s.st, s.q, s.ms, s.cs
+	if ms.Model.Baseline != nil || ms.Eval.Baseline != nil {
+		t.Fatalf("trained without the baseline, the model carries one (%v) or was compared with one", ms.Model.Baseline != nil)
+	}
+	enc, err := ms.Model.Encoder()
+	if err != nil {
+		t.Fatal(err)
+	}
+	data, err := cnn.EncodeDataset(enc, cs.Test, ms.Model.Labels, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m, _, err := cnn.Evaluate(ms.Model, data, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m.Accuracy != ms.Eval.Metrics.Accuracy || m.MacroF1 != ms.Eval.Metrics.MacroF1 {
+		t.Errorf("the window's metrics %+v, cnn's %+v", ms.Eval.Metrics, m)
+	}
+	f := cnn.FiguresOf(ms.Eval.Metrics, nil)
+	if !reflect.DeepEqual(ms.Eval.Figures, f) {
+		t.Errorf("the window's figures %+v, cnn's %+v", ms.Eval.Figures, f)
+	}
+	st.show(titleResults)
+	q.drain()
+	rv := st.resultsView
+	if want := "accuracy " + f.CNN.Accuracy.String() + ", macro-F1 " + f.CNN.MacroF1.String(); !strings.Contains(rv.headline.Text, want) {
+		t.Errorf("the Results view's headline %q lacks %q", rv.headline.Text, want)
+	}
+	if !strings.Contains(rv.beside.Text, "carries no linear baseline") {
+		t.Errorf("the Results view does not say the model has no baseline: %q", rv.beside.Text)
 	}
 }
 
