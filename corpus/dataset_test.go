@@ -113,6 +113,42 @@ func TestSummarize(t *testing.T) {
 	}
 }
 
+// A text in the dev and the test split but not in train is a duplicate
+// across splits, not a leak into training; a dev text also in train is one.
+func TestSummarizeThreeLeaks(t *testing.T) {
+	train := &Dataset{Path: "train.csv", Examples: []Example{
+		{Text: "Book two seats", Label: "booking", Line: 2},
+		{Text: "lost my bag on deck 3", Label: "lost", Line: 3},
+	}}
+	train.Labels = uniqueLabels(train.Examples)
+	dev := &Dataset{Path: "train.csv", Examples: []Example{
+		{Text: "Where is the ferry?", Label: "lost", Line: 4},
+		{Text: "book two seats!", Label: "booking", Line: 5},
+	}}
+	test := &Dataset{Path: "test.csv", Examples: []Example{
+		{Text: "Where is the ferry?", Label: "lost", Line: 2},
+	}}
+	tok, _ := NewTokenizer(TokenizerConfig{Lower: true})
+	s := SummarizeThree(train, dev, test, tok)
+	// Exact: the ferry question (dev and test). Near (groups that are not
+	// exact ones): the seats (train and dev).
+	if s.ExactGroups != 1 || !s.ExactDuplicates[0].CrossSplit || s.ExactDuplicates[0].Leak {
+		t.Errorf("exact %+v: want one group across dev and test, no leak", s.ExactDuplicates)
+	}
+	if s.NearGroups != 1 || s.Leaks != 1 {
+		t.Errorf("near %d leaks %d, want 1 and 1 (the dev text also in train): %+v", s.NearGroups, s.Leaks, s.NearDuplicates)
+	}
+	var b strings.Builder
+	if err := s.WriteText(&b); err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{"1 dev or test examples also in train", "exact DEV-AND-TEST \"Where is the ferry?\"", "near LEAK \"Book two seats\""} {
+		if !strings.Contains(b.String(), want) {
+			t.Errorf("text lacks %q:\n%s", want, b.String())
+		}
+	}
+}
+
 func ExampleSummary_WriteText() {
 	train := &Dataset{Path: "train.csv", Examples: []Example{
 		{Text: "Where is my bag?", Label: "lost", Line: 2},

@@ -50,7 +50,8 @@ type Percentiles struct {
 // digits and symbols removed, white space collapsed).
 type DuplicateGroup struct {
 	Members       []Location `json:"members"`
-	CrossSplit    bool       `json:"cross_split"`    // members in both train and test
+	CrossSplit    bool       `json:"cross_split"`    // members in more than one split
+	Leak          bool       `json:"leak"`           // members in train and in dev or test
 	LabelConflict bool       `json:"label_conflict"` // members carry different labels
 	Text          string     `json:"text"`           // the first member's text, cut to 80 bytes
 }
@@ -157,7 +158,8 @@ func (s *Summary) duplicates(sets []*Dataset, names []string) {
 		g.CrossSplit = len(splits) > 1
 		g.LabelConflict = len(labels) > 1
 		g.Text = truncate(sets[ms[0].split].Examples[ms[0].idx].Text, 80)
-		if g.CrossSplit {
+		g.Leak = g.CrossSplit && splits[0] // a dev or test text also in train
+		if g.Leak {
 			for _, m := range ms {
 				if m.split > 0 {
 					leaked[m] = true
@@ -312,8 +314,10 @@ func (s Summary) WriteText(out io.Writer) error {
 				locs = append(locs, fmt.Sprintf("%s %s (%s)", m.Split, where, m.Label))
 			}
 			flags := ""
-			if g.CrossSplit {
+			if g.Leak {
 				flags += " LEAK"
+			} else if g.CrossSplit {
+				flags += " DEV-AND-TEST"
 			}
 			if g.LabelConflict {
 				flags += " CONFLICTING-LABELS"

@@ -28,11 +28,9 @@ type corpusState struct {
 	// from), dev (early stopping) and test (the final evaluation).
 	Train, Dev, Test *corpus.Dataset
 	Warnings         []corpus.Warning
-	// Summary covers the training and test splits (duplicates, leaks);
-	// DevSplit the dev split alone.
-	Summary  corpus.Summary
-	DevSplit corpus.SplitSummary
-	Tok      *corpus.Tokenizer // the tokenizer the summary used
+	// Summary covers the training, dev and test splits (duplicates, leaks).
+	Summary corpus.Summary
+	Tok     *corpus.Tokenizer // the tokenizer the summary used
 	// Lengths is the histogram of the training texts' token counts, by
 	// the same tokenizer, for the length plot.
 	Lengths []corpus.LengthBin
@@ -189,11 +187,13 @@ func (cs *corpusState) resplit(ctx context.Context, plan splitPlan) (*corpusStat
 		return nil, err
 	}
 	n.Tok = tok
-	n.Summary = corpus.Summarize(n.Train, n.Test, tok)
+	// The three splits together, as telltale data summarizes them: a dev
+	// text also in the training split is a leak too.
 	if len(n.Dev.Examples) > 0 {
-		n.DevSplit = corpus.Summarize(n.Dev, nil, tok).Splits[0]
+		n.Summary = corpus.SummarizeThree(n.Train, n.Dev, n.Test, tok)
+	} else {
+		n.Summary = corpus.Summarize(n.Train, n.Test, tok)
 	}
-	n.DevSplit.Name = "dev"
 	n.Lengths = corpus.LengthHistogram(corpus.TokenLengths(n.Train, tok), lengthBins)
 	return &n, ctx.Err()
 }

@@ -170,7 +170,7 @@ func warningsText(ws []corpus.Warning) string {
 func summaryFacts(cs *corpusState) string {
 	s := cs.Summary
 	var b strings.Builder
-	for _, sp := range append(s.Splits, cs.DevSplit) {
+	for _, sp := range s.Splits {
 		if sp.Examples == 0 {
 			continue
 		}
@@ -178,7 +178,7 @@ func summaryFacts(cs *corpusState) string {
 			capitalize(splitName(sp.Name)), sp.TokenLength.P50, sp.TokenLength.P90, sp.TokenLength.Max)
 	}
 	fmt.Fprintf(&b, "\nVocabulary of the training split: %d words; %.1f%% of test tokens are not in it. "+
-		"Groups of exact duplicates %d, of near duplicates %d; %s of the test split also in the training split (leaks).",
+		"Groups of exact duplicates %d, of near duplicates %d; %s of the dev and test splits also in the training split (leaks).",
 		s.VocabSize, 100*s.TestOOVRate, s.ExactGroups, s.NearGroups, texts(s.Leaks))
 	return b.String()
 }
@@ -210,8 +210,7 @@ func duplicateRows(s corpus.Summary) [][]string {
 func balancePlot(cs *corpusState) *plot.Plot {
 	s := cs.Summary
 	p := newPlot("Class balance", "share of the split", "")
-	splits := []corpus.SplitSummary{s.Splits[0], cs.DevSplit}
-	splits = append(splits, s.Splits[1:]...)
+	splits := s.Splits
 	w := vg.Points(5)
 	top := 0.0
 	for i, sp := range splits {
