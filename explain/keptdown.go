@@ -57,59 +57,77 @@ func keptDown(r *Runner, e *Explanation, o *occluder, k int) []KeptDownWindow {
 	st := r.st
 	m := st.m
 	lo := logOddsContrast(m.Config.Classes, e.Class, e.RunnerUp)
-	var out []KeptDownWindow
-	for b := range st.banks {
-		tb := &st.banks[b]
-		F, w := tb.filters, tb.width
-		nw := r.p.Len - w + 1
-		rows := r.rows[b]
-		for f := 0; f < F; f++ {
-			g := b*F + f
-			if m.IsMasked(g) {
-				continue
-			}
-			h := r.p.Pooled[g]
-			won := int(r.p.Start[g])
-			best, bt := float32(0), -1
-			for t := 0; t < nw; t++ {
-				if h > 0 && t == won {
-					continue
-				}
-				p := tb.bias[f]
-				for s := 0; s < w; s++ {
-					p += max(rows[t+s][s*F+f], 0)
-				}
-				if p > h && (bt < 0 || p > best) {
-					best, bt = p, t
-				}
-			}
-			if bt < 0 {
-				continue
-			}
-			kd := KeptDownWindow{Filter: g, Width: w, Start: bt, Slots: make([]float64, w),
-				Activation: float64(tb.bias[f]), Positive: float64(tb.bias[f]), Winner: float64(h)}
-			for s := 0; s < w; s++ {
-				v := float64(rows[bt+s][s*F+f])
-				kd.Slots[s] = v
-				kd.Activation += v
-				if v > 0 {
-					kd.Positive += v
-				} else if v < 0 {
-					kd.By = append(kd.By, bt+s)
-				}
-			}
-			kd.Effect = lo.column(m, g) * (kd.Positive - kd.Winner)
-			out = append(out, kd)
+	nf := m.Config.NumFilters()
+	best := make([]float32, nf)
+	idx := make([]int32, 2*nf)
+	at, skip := idx[:nf], idx[nf:]
+	for g := range skip {
+		skip[g] = -1
+		if r.p.Pooled[g] > 0 {
+			skip[g] = r.p.Start[g]
 		}
 	}
-	slices.SortStableFunc(out, func(a, b KeptDownWindow) int {
-		return cmp.Compare(math.Abs(b.Effect), math.Abs(a.Effect))
+	var cands []keptCand
+	for b := range st.banks {
+		tb := &st.banks[b]
+		F := tb.filters
+		bestPositive(best[b*F:(b+1)*F], at[b*F:(b+1)*F], tb.bias, r.rows[b][:r.p.Len], tb.width, F, skip[b*F:(b+1)*F])
+		for g := b * F; g < (b+1)*F; g++ {
+			if !m.IsMasked(g) && at[g] >= 0 && best[g] > r.p.Pooled[g] {
+				kd := keptDownWindow(r, g, int(at[g]), false)
+				cands = append(cands, keptCand{g: g, effect: lo.column(m, g) * (kd.Positive - kd.Winner)})
+			}
+		}
+	}
+	slices.SortStableFunc(cands, func(a, b keptCand) int {
+		return cmp.Compare(math.Abs(b.effect), math.Abs(a.effect))
 	})
-	out = out[:min(k, len(out))]
+	if len(cands) == 0 {
+		return nil
+	}
+	out := make([]KeptDownWindow, min(k, len(cands)))
 	for i := range out {
+		g := cands[i].g
+		out[i] = keptDownWindow(r, g, int(at[g]), true)
+		out[i].Effect = cands[i].effect
 		measureKeptDown(o, lo, &out[i])
 	}
 	return out
+}
+
+// keptCand is a kept-down window while the k largest are chosen.
+type keptCand struct {
+	g      int
+	effect float64
+}
+
+// keptDownWindow describes filter g's window from token t0 (slot scores,
+// Activation, Positive, Winner; with full, Slots and By too).
+func keptDownWindow(r *Runner, g, t0 int, full bool) KeptDownWindow {
+	st := r.st
+	b, f := st.m.FilterConv(g)
+	tb := &st.banks[b]
+	F, w := tb.filters, tb.width
+	kd := KeptDownWindow{Filter: g, Width: w, Start: t0,
+		Activation: float64(tb.bias[f]), Positive: float64(tb.bias[f]), Winner: float64(r.p.Pooled[g])}
+	if full {
+		kd.Slots = make([]float64, w)
+	}
+	for s := 0; s < w; s++ {
+		v := float64(r.rows[b][t0+s][s*F+f])
+		kd.Activation += v
+		if v > 0 {
+			kd.Positive += v
+		}
+		if !full {
+			continue
+		}
+		kd.Slots[s] = v
+		if v < 0 {
+			kd.By = append(kd.By, t0+s)
+		}
+	}
+	return kd
 }
 
 // measureKeptDown re-runs the text with the window's By tokens replaced by
