@@ -118,7 +118,12 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	}
 	opt := explain.ExplainOptions{Occlusion: true, OcclusionWidths: o.widths, KeptDown: o.keptDown,
 		IG: o.method == explain.MethodIG || o.asJSON || o.export != ""}
-	tables := newSlotTables(m)
+	// One table filled text by text: each distinct word's slot scores are
+	// computed once, and only for the words the texts use.
+	tables, err := explain.NewGrowingTable(m, 0)
+	if err != nil {
+		return err
+	}
 	var all []*explain.Explanation
 	err = o.texts.each(ctx, env, func(t text) error {
 		e, cut, err := explainText(m, enc, t.Text, opt, tables)
@@ -143,52 +148,10 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	return report.WriteTableFile(o.export, report.AttributionTable(all))
 }
 
-// slotTables decides, text by text, when a slot table of the whole
-// vocabulary pays: each text explained without one tables its own words
-// (Explain's default), so once the words tabled that way add up to as many
-// as the whole table would hold, it is built once and every later text
-// uses it. Explaining n texts thus costs at most about twice what the
-// better of the two choices made in advance would have (the break-even
-// rule of renting against buying).
-type slotTables struct {
-	m      *cnn.Model
-	st     *explain.SlotTable
-	spent  int // words tabled text by text so far
-	budget int // words the whole table holds
-}
-
-func newSlotTables(m *cnn.Model) *slotTables {
-	perWord := 0
-	for _, w := range m.Config.Widths {
-		perWord += 4 * w * m.Config.Filters
-	}
-	return &slotTables{m: m, budget: min(m.Config.VocabSize, int(explain.DefaultTableBytes/max(perWord, 1)))}
-}
-
-// forText returns the table to explain ids with: nil (a table of the text's
-// own words) until the break-even point, then the whole vocabulary's.
-func (s *slotTables) forText(ids []int32) (*explain.SlotTable, error) {
-	if s.st != nil {
-		return s.st, nil
-	}
-	seen := make(map[int32]bool, len(ids))
-	for _, id := range ids {
-		seen[id] = true
-	}
-	if s.spent += len(seen); s.spent < s.budget {
-		return nil, nil
-	}
-	st, err := explain.NewSlotTable(s.m, explain.TableOptions{})
-	if err != nil {
-		return nil, err
-	}
-	s.st = st
-	return st, nil
-}
-
 // explainText explains one text and says how many of its tokens are past
-// the length the model reads.
-func explainText(m *cnn.Model, enc *corpus.Encoder, t string, opt explain.ExplainOptions, tables *slotTables) (*explain.Explanation, int, error) {
+// the length the model reads. Tables, when not nil, is filled with the
+// text's words and used.
+func explainText(m *cnn.Model, enc *corpus.Encoder, t string, opt explain.ExplainOptions, tables *explain.GrowingTable) (*explain.Explanation, int, error) {
 	if m.Config.Chars != nil {
 		// The text's unseen words get rows of their own
 		// (cnn.Model.WithUnseen), which the vocabulary's table does not hold.
@@ -200,17 +163,18 @@ func explainText(m *cnn.Model, enc *corpus.Encoder, t string, opt explain.Explai
 			m, enc, tables = mu, encU, nil
 		}
 	}
-	toks, ids := enc.Encode(t)
+	// Tokenized once, as enc.Encode would; the tokens past the limit are
+	// only counted.
+	toks := enc.Tok.TokenizeFor(enc.Vocab, t)
 	cut := 0
 	if enc.MaxTokens > 0 {
-		cut = max(0, len(enc.Tok.TokenizeFor(enc.Vocab, t))-len(toks))
+		cut = max(0, len(toks)-enc.MaxTokens)
+		toks = toks[: len(toks)-cut : len(toks)-cut]
 	}
+	ids := enc.Vocab.Encode(toks)
 	opt.Table = nil
 	if tables != nil {
-		var err error
-		if opt.Table, err = tables.forText(ids); err != nil {
-			return nil, 0, err
-		}
+		opt.Table = tables.Add(ids)
 	}
 	e, err := explain.Explain(m, toks, ids, opt)
 	return e, cut, err

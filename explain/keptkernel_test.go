@@ -30,7 +30,7 @@ func bestPositiveNaive(best []float32, at []int32, bias []float32, rows [][]floa
 // Every implementation of the kept-down search agrees bit for bit with the
 // naive search on random banks of odd sizes, with ties between windows and
 // skipped windows (the winning window of a fired filter).
-func TestBestPositiveAgrees(t *testing.T) {
+func TestKeptKernelsAgree(t *testing.T) {
 	rng := rand.New(rand.NewPCG(44, 44))
 	impls := append([]namedBestPositive{{"naive", bestPositiveNaive}}, bestPositiveSets()...)
 	for trial := 0; trial < 300; trial++ {
