@@ -328,6 +328,19 @@ func firedFilters(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
 	m := st.m
 	nf := m.Config.NumFilters()
 	p := &r.p
+	// One allocation for the list and one for every filter's slots.
+	fired, slots := 0, 0
+	for g, h := range p.Pooled {
+		if h != 0 {
+			fired++
+			slots += m.FilterWidth(g)
+		}
+	}
+	if fired == 0 {
+		return
+	}
+	e.Filters = make([]FiredFilter, 0, fired)
+	flat := make([]float64, slots)
 	for g := 0; g < nf; g++ {
 		h := p.Pooled[g]
 		if h == 0 {
@@ -339,8 +352,9 @@ func firedFilters(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
 		t0 := int(p.Start[g])
 		ff := FiredFilter{
 			Filter: g, Width: w, Start: t0, Activation: float64(h),
-			BiasTerm: float64(tb.bias[f]), Slots: make([]float64, w), Family: -1,
+			BiasTerm: float64(tb.bias[f]), Slots: flat[:w:w], Family: -1,
 		}
+		flat = flat[w:]
 		for s := 0; s < w; s++ {
 			ff.Slots[s] = float64(r.rows[b][t0+s][s*F+f])
 		}

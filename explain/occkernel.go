@@ -1,7 +1,7 @@
 package explain
 
 // Portable kernels of single-token occlusion. The dispatch functions
-// occludeToken and changedUnits (occkernel_generic.go, or
+// occludeToken, changedUnits and maxOf (occkernel_generic.go, or
 // occkernel_simd_amd64.go when built with GOEXPERIMENT=simd on amd64) call
 // these or their SIMD versions.
 
@@ -51,10 +51,20 @@ func changedUnitsGo(bits []uint64, nm, old []float32) {
 	}
 }
 
+// maxOfGo sets dst[f] = max(a[f], b[f]). Len(a) and len(b) must be at
+// least len(dst).
+func maxOfGo(dst, a, b []float32) {
+	a, b = a[:len(dst)], b[:len(dst)]
+	for f := range dst {
+		dst[f] = max(a[f], b[f])
+	}
+}
+
 // occKernels is one implementation of the occlusion kernels, for the tests
 // that compare every implementation with the portable one.
 type occKernels struct {
 	name         string
 	occludeToken func(nm, before, after, win, row []float32, F, t0, t1, i int)
 	changedUnits func(bits []uint64, nm, old []float32)
+	maxOf        func(dst, a, b []float32)
 }

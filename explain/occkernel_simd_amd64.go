@@ -39,15 +39,27 @@ func changedUnits(bits []uint64, nm, old []float32) {
 	}
 }
 
+// maxOf sets dst to the elementwise maximum of a and b (see maxOfGo).
+func maxOf(dst, a, b []float32) {
+	switch simdLevel {
+	case levelAVX512:
+		maxOf512(dst, a, b)
+	case levelAVX2:
+		maxOf256(dst, a, b)
+	default:
+		maxOfGo(dst, a, b)
+	}
+}
+
 // occKernelSets lists every implementation this build and CPU can run; the
 // first is the portable one.
 func occKernelSets() []occKernels {
-	s := []occKernels{{"go", occludeTokenGo, changedUnitsGo}}
+	s := []occKernels{{"go", occludeTokenGo, changedUnitsGo, maxOfGo}}
 	if simdLevel >= levelAVX2 {
-		s = append(s, occKernels{"avx2", occludeToken256, changedUnits256})
+		s = append(s, occKernels{"avx2", occludeToken256, changedUnits256, maxOf256})
 	}
 	if simdLevel >= levelAVX512 {
-		s = append(s, occKernels{"avx512", occludeToken512, changedUnits512})
+		s = append(s, occKernels{"avx512", occludeToken512, changedUnits512, maxOf512})
 	}
 	return s
 }
@@ -167,4 +179,32 @@ func orBits(bits []uint64, m uint64, c0 int) {
 	if o > 48 && m>>(64-o) != 0 {
 		bits[w+1] |= m >> (64 - o)
 	}
+}
+
+func maxOf512(dst, a, b []float32) {
+	n := len(dst)
+	if n < 16 {
+		maxOfGo(dst, a, b)
+		return
+	}
+	a, b = a[:n], b[:n]
+	for c0 := 0; c0 < n; c0 += 16 {
+		c0 = min(c0, n-16)
+		archsimd.LoadFloat32x16Slice(a[c0:]).Max(archsimd.LoadFloat32x16Slice(b[c0:])).StoreSlice(dst[c0:])
+	}
+	archsimd.ClearAVXUpperBits()
+}
+
+func maxOf256(dst, a, b []float32) {
+	n := len(dst)
+	if n < 8 {
+		maxOfGo(dst, a, b)
+		return
+	}
+	a, b = a[:n], b[:n]
+	for c0 := 0; c0 < n; c0 += 8 {
+		c0 = min(c0, n-8)
+		archsimd.LoadFloat32x8Slice(a[c0:]).Max(archsimd.LoadFloat32x8Slice(b[c0:])).StoreSlice(dst[c0:])
+	}
+	archsimd.ClearAVXUpperBits()
 }

@@ -79,6 +79,13 @@ func TestOccKernelsAgree(t *testing.T) {
 			if bits[len(bits)-1] != 7 {
 				t.Fatalf("%s changedUnits F=%d: wrote past its words", ks.name, F)
 			}
+			mx := make([]float32, F)
+			ks.maxOf(mx, win[:F], row[:F])
+			for f := range mx {
+				if mx[f] != max(win[f], row[f]) {
+					t.Fatalf("%s maxOf F=%d filter %d: %g, want max(%g, %g)", ks.name, F, f, mx[f], win[f], row[f])
+				}
+			}
 		}
 	}
 }

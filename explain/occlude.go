@@ -38,13 +38,15 @@ func newOccluder(r *Runner, e *Explanation) *occluder {
 		nw := len(win) / F
 		r.occPM[b], r.occSM[b] = grow(r.occPM[b], len(win)), grow(r.occSM[b], len(win))
 		pm, sm := r.occPM[b], r.occSM[b]
-		copy(pm, win)
-		for t := 1; t < nw; t++ {
-			maxInto(pm[t*F:(t+1)*F], pm[(t-1)*F:t*F])
+		if nw > 0 {
+			copy(pm[:F], win[:F])
+			copy(sm[(nw-1)*F:], win[(nw-1)*F:])
 		}
-		copy(sm, win)
+		for t := 1; t < nw; t++ {
+			maxOf(pm[t*F:(t+1)*F], win[t*F:(t+1)*F], pm[(t-1)*F:t*F])
+		}
 		for t := nw - 2; t >= 0; t-- {
-			maxInto(sm[t*F:(t+1)*F], sm[(t+1)*F:(t+2)*F])
+			maxOf(sm[t*F:(t+1)*F], win[t*F:(t+1)*F], sm[(t+1)*F:(t+2)*F])
 		}
 		o.pm = append(o.pm, pm)
 		o.sm = append(o.sm, sm)
