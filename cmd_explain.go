@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bufio"
 	"context"
 	"flag"
 	"fmt"
@@ -125,6 +126,7 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 		return err
 	}
 	var all []*explain.Explanation
+	out := bufio.NewWriterSize(env.Stdout, 64<<10)
 	err = o.texts.each(ctx, env, func(t text) error {
 		e, cut, err := explainText(m, enc, t.Text, opt, tables)
 		if err != nil {
@@ -136,11 +138,15 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 		if o.asJSON {
 			return writeExplanationJSON(env.Stdout, e, t, cut)
 		}
+		// One write per text: the lines gather in out.
 		if cut > 0 {
-			fmt.Fprintf(env.Stdout, "(the model reads the first %s; the last %d %s not explained)\n", plural(len(e.Tokens), "token", "tokens"), cut,
+			fmt.Fprintf(out, "(the model reads the first %s; the last %d %s not explained)\n", plural(len(e.Tokens), "token", "tokens"), cut,
 				map[bool]string{true: "is", false: "are"}[cut == 1])
 		}
-		return writeExplanation(env.Stdout, t.Text, e, o.method, cls, paint)
+		if err := writeExplanation(out, t.Text, e, o.method, cls, paint); err != nil {
+			return err
+		}
+		return out.Flush()
 	})
 	if err != nil || o.export == "" {
 		return err
