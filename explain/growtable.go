@@ -91,8 +91,11 @@ func (g *GrowingTable) tableRows(first int, words []int32) {
 		k := tb.width * tb.filters
 		lo := first * k
 		if need := lo + padded*k; need > cap(tb.t) {
-			// Doubling: the rows are copied about once in all.
-			t := make([]float32, lo, max(need, 2*cap(tb.t), 256*k))
+			// Doubling: the rows are copied about once in all. The first
+			// capacity, 4096 words, holds those of about a hundred mails
+			// of 200 tokens; a fresh allocation's pages are touched only
+			// as rows are written.
+			t := make([]float32, lo, max(need, 2*cap(tb.t), 4096*k))
 			copy(t, tb.t[:lo])
 			tb.t = t
 		}
