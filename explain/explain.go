@@ -139,7 +139,14 @@ func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOption
 	}
 	defer st.explainers.Put(r)
 	r.load(ids)
-	r.pool()
+	var top *keptTop
+	if opt.KeptDown > 0 {
+		// The kept-down search's positive parts come with the pooling.
+		top = newKeptTop(m.Config.NumFilters())
+		poolExplain(r, top)
+	} else {
+		r.pool()
+	}
 	e := newExplanation(m, tokens, ids, &r.p)
 	firedFilters(st, r, e, opt.Profiles)
 	identifiedShares(m, e)
@@ -171,7 +178,7 @@ func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOption
 		identifiedIG(r, e, perClass, opt.IGSteps)
 	}
 	if opt.KeptDown > 0 {
-		e.KeptDown = keptDown(r, e, o, opt.KeptDown)
+		e.KeptDown = keptDown(r, e, o, top, opt.KeptDown)
 	}
 	return e, nil
 }

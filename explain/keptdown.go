@@ -50,33 +50,23 @@ type KeptDownWindow struct {
 
 // keptDown finds, for every unmasked filter, the window with the largest
 // positive part among those whose positive part exceeds the filter's pooled
-// value (the winning window itself excluded when the filter fired), keeps
+// value (the winning window itself excluded when the filter fired; top, from
+// poolExplain, holds the two best of every filter), keeps
 // the k with the largest |Effect| (ties: lower filter first) and measures
 // each with the occluder.
-func keptDown(r *Runner, e *Explanation, o *occluder, k int) []KeptDownWindow {
+func keptDown(r *Runner, e *Explanation, o *occluder, top *keptTop, k int) []KeptDownWindow {
 	st := r.st
 	m := st.m
 	lo := logOddsContrast(m.Config.Classes, e.Class, e.RunnerUp)
-	nf := m.Config.NumFilters()
-	best := make([]float32, nf)
-	idx := make([]int32, 2*nf)
-	at, skip := idx[:nf], idx[nf:]
-	for g := range skip {
-		skip[g] = -1
-		if r.p.Pooled[g] > 0 {
-			skip[g] = r.p.Start[g]
-		}
-	}
 	var cands []keptCand
-	for b := range st.banks {
-		tb := &st.banks[b]
-		F := tb.filters
-		bestPositive(best[b*F:(b+1)*F], at[b*F:(b+1)*F], tb.bias, r.rows[b][:r.p.Len], tb.width, F, skip[b*F:(b+1)*F])
-		for g := b * F; g < (b+1)*F; g++ {
-			if !m.IsMasked(g) && at[g] >= 0 && best[g] > r.p.Pooled[g] {
-				kd := keptDownWindow(r, g, int(at[g]), false)
-				cands = append(cands, keptCand{g: g, effect: lo.column(m, g) * (kd.Positive - kd.Winner)})
-			}
+	for g, h := range r.p.Pooled {
+		skip := int32(-1)
+		if h > 0 {
+			skip = r.p.Start[g]
+		}
+		if best, at := top.best(g, skip); !m.IsMasked(g) && at >= 0 && best > h {
+			kd := keptDownWindow(r, g, int(at), false)
+			cands = append(cands, keptCand{g: g, at: int(at), effect: lo.column(m, g) * (kd.Positive - kd.Winner)})
 		}
 	}
 	slices.SortStableFunc(cands, func(a, b keptCand) int {
@@ -87,8 +77,7 @@ func keptDown(r *Runner, e *Explanation, o *occluder, k int) []KeptDownWindow {
 	}
 	out := make([]KeptDownWindow, min(k, len(cands)))
 	for i := range out {
-		g := cands[i].g
-		out[i] = keptDownWindow(r, g, int(at[g]), true)
+		out[i] = keptDownWindow(r, cands[i].g, cands[i].at, true)
 		out[i].Effect = cands[i].effect
 		measureKeptDown(o, lo, &out[i])
 	}
@@ -97,7 +86,7 @@ func keptDown(r *Runner, e *Explanation, o *occluder, k int) []KeptDownWindow {
 
 // keptCand is a kept-down window while the k largest are chosen.
 type keptCand struct {
-	g      int
+	g, at  int
 	effect float64
 }
 

@@ -2,14 +2,12 @@
 
 package explain
 
-// bestPositive is the kept-down windows search of one bank (see
-// bestPositiveGo); without SIMD kernels it is the portable version.
-func bestPositive(best []float32, at []int32, bias []float32, rows [][]float32, w, F int, skip []int32) {
-	bestPositiveGo(best, at, bias, rows, w, F, skip)
+// poolKept pools one bank and keeps its two best positive parts (see
+// poolKeptGo).
+func poolKept(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, win []float32, top *keptTop) {
+	poolKeptGo(pre, start, bias, rows, w, F, win, top)
 }
 
-// bestPositiveSets lists every implementation of bestPositive this build
-// and CPU can run; the first is the portable one.
-func bestPositiveSets() []namedBestPositive {
-	return []namedBestPositive{{"go", bestPositiveGo}}
-}
+// poolKeptSets lists every implementation of poolKept this build and CPU
+// can run; the first is the portable one.
+func poolKeptSets() []namedPoolKept { return []namedPoolKept{{"go", poolKeptGo}} }
