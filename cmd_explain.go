@@ -294,16 +294,30 @@ func writeFiredFilters(w io.Writer, e *explain.Explanation, class int) {
 	}
 	s := sharesOf(e, class)
 	fmt.Fprintf(w, "filters that fired, by their part of %s (of it, the filter's bias):\n", quantity(e, class))
-	order := make([]int, len(e.Filters))
-	for i := range order {
-		order[i] = i
-	}
-	sortBy(order, func(i int) float64 { return -math.Abs(s.Filters[i]) })
-	for _, i := range order[:min(8, len(order))] {
+	for _, i := range largestAbs(s.Filters, 8) {
 		f := e.Filters[i]
 		fmt.Fprintf(w, "  filter %-4d width %d  %+.3f (%+.3f)  window %q\n", f.Filter, f.Width, s.Filters[i], s.FilterBias[i],
 			strings.Join(tokenTexts(e, f.Start, f.Width, nil), " "))
 	}
+}
+
+// largestAbs returns the indices of the k values of v largest in absolute
+// value, largest first, the lower index first among equals (the order a
+// stable sort by −|v| gives), by insertion into the k kept.
+func largestAbs(v []float64, k int) []int {
+	out := make([]int, 0, min(k, len(v))+1)
+	for i, x := range v {
+		a := math.Abs(x)
+		j := len(out)
+		for j > 0 && math.Abs(v[out[j-1]]) < a {
+			j--
+		}
+		if j < k {
+			out = slices.Insert(out, j, i)
+			out = out[:min(len(out), k)]
+		}
+	}
+	return out
 }
 
 // writeKeptDown lists the windows that would have won their filter but for
