@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bufio"
 	"context"
 	"flag"
 	"fmt"
@@ -118,8 +119,14 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	}
 	opt := explain.ExplainOptions{Occlusion: true, OcclusionWidths: o.widths, KeptDown: o.keptDown,
 		IG: o.method == explain.MethodIG || o.asJSON || o.export != ""}
-	tables := newSlotTables(m)
+	// One table filled text by text: each distinct word's slot scores are
+	// computed once, and only for the words the texts use.
+	tables, err := explain.NewGrowingTable(m, 0)
+	if err != nil {
+		return err
+	}
 	var all []*explain.Explanation
+	out := bufio.NewWriterSize(env.Stdout, 64<<10)
 	err = o.texts.each(ctx, env, func(t text) error {
 		e, cut, err := explainText(m, enc, t.Text, opt, tables)
 		if err != nil {
@@ -131,11 +138,15 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 		if o.asJSON {
 			return writeExplanationJSON(env.Stdout, e, t, cut)
 		}
+		// One write per text: the lines gather in out.
 		if cut > 0 {
-			fmt.Fprintf(env.Stdout, "(the model reads the first %s; the last %d %s not explained)\n", plural(len(e.Tokens), "token", "tokens"), cut,
+			fmt.Fprintf(out, "(the model reads the first %s; the last %d %s not explained)\n", plural(len(e.Tokens), "token", "tokens"), cut,
 				map[bool]string{true: "is", false: "are"}[cut == 1])
 		}
-		return writeExplanation(env.Stdout, t.Text, e, o.method, cls, paint)
+		if err := writeExplanation(out, t.Text, e, o.method, cls, paint); err != nil {
+			return err
+		}
+		return out.Flush()
 	})
 	if err != nil || o.export == "" {
 		return err
@@ -143,52 +154,10 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	return report.WriteTableFile(o.export, report.AttributionTable(all))
 }
 
-// slotTables decides, text by text, when a slot table of the whole
-// vocabulary pays: each text explained without one tables its own words
-// (Explain's default), so once the words tabled that way add up to as many
-// as the whole table would hold, it is built once and every later text
-// uses it. Explaining n texts thus costs at most about twice what the
-// better of the two choices made in advance would have (the break-even
-// rule of renting against buying).
-type slotTables struct {
-	m      *cnn.Model
-	st     *explain.SlotTable
-	spent  int // words tabled text by text so far
-	budget int // words the whole table holds
-}
-
-func newSlotTables(m *cnn.Model) *slotTables {
-	perWord := 0
-	for _, w := range m.Config.Widths {
-		perWord += 4 * w * m.Config.Filters
-	}
-	return &slotTables{m: m, budget: min(m.Config.VocabSize, int(explain.DefaultTableBytes/max(perWord, 1)))}
-}
-
-// forText returns the table to explain ids with: nil (a table of the text's
-// own words) until the break-even point, then the whole vocabulary's.
-func (s *slotTables) forText(ids []int32) (*explain.SlotTable, error) {
-	if s.st != nil {
-		return s.st, nil
-	}
-	seen := make(map[int32]bool, len(ids))
-	for _, id := range ids {
-		seen[id] = true
-	}
-	if s.spent += len(seen); s.spent < s.budget {
-		return nil, nil
-	}
-	st, err := explain.NewSlotTable(s.m, explain.TableOptions{})
-	if err != nil {
-		return nil, err
-	}
-	s.st = st
-	return st, nil
-}
-
 // explainText explains one text and says how many of its tokens are past
-// the length the model reads.
-func explainText(m *cnn.Model, enc *corpus.Encoder, t string, opt explain.ExplainOptions, tables *slotTables) (*explain.Explanation, int, error) {
+// the length the model reads. Tables, when not nil, is filled with the
+// text's words and used.
+func explainText(m *cnn.Model, enc *corpus.Encoder, t string, opt explain.ExplainOptions, tables *explain.GrowingTable) (*explain.Explanation, int, error) {
 	if m.Config.Chars != nil {
 		// The text's unseen words get rows of their own
 		// (cnn.Model.WithUnseen), which the vocabulary's table does not hold.
@@ -200,17 +169,18 @@ func explainText(m *cnn.Model, enc *corpus.Encoder, t string, opt explain.Explai
 			m, enc, tables = mu, encU, nil
 		}
 	}
-	toks, ids := enc.Encode(t)
+	// Tokenized once, as enc.Encode would; the tokens past the limit are
+	// only counted.
+	toks := enc.Tok.TokenizeFor(enc.Vocab, t)
 	cut := 0
 	if enc.MaxTokens > 0 {
-		cut = max(0, len(enc.Tok.TokenizeFor(enc.Vocab, t))-len(toks))
+		cut = max(0, len(toks)-enc.MaxTokens)
+		toks = toks[: len(toks)-cut : len(toks)-cut]
 	}
+	ids := enc.Vocab.Encode(toks)
 	opt.Table = nil
 	if tables != nil {
-		var err error
-		if opt.Table, err = tables.forText(ids); err != nil {
-			return nil, 0, err
-		}
+		opt.Table = tables.Add(ids)
 	}
 	e, err := explain.Explain(m, toks, ids, opt)
 	return e, cut, err
@@ -324,16 +294,30 @@ func writeFiredFilters(w io.Writer, e *explain.Explanation, class int) {
 	}
 	s := sharesOf(e, class)
 	fmt.Fprintf(w, "filters that fired, by their part of %s (of it, the filter's bias):\n", quantity(e, class))
-	order := make([]int, len(e.Filters))
-	for i := range order {
-		order[i] = i
-	}
-	sortBy(order, func(i int) float64 { return -math.Abs(s.Filters[i]) })
-	for _, i := range order[:min(8, len(order))] {
+	for _, i := range largestAbs(s.Filters, 8) {
 		f := e.Filters[i]
 		fmt.Fprintf(w, "  filter %-4d width %d  %+.3f (%+.3f)  window %q\n", f.Filter, f.Width, s.Filters[i], s.FilterBias[i],
 			strings.Join(tokenTexts(e, f.Start, f.Width, nil), " "))
 	}
+}
+
+// largestAbs returns the indices of the k values of v largest in absolute
+// value, largest first, the lower index first among equals (the order a
+// stable sort by −|v| gives), by insertion into the k kept.
+func largestAbs(v []float64, k int) []int {
+	out := make([]int, 0, min(k, len(v))+1)
+	for i, x := range v {
+		a := math.Abs(x)
+		j := len(out)
+		for j > 0 && math.Abs(v[out[j-1]]) < a {
+			j--
+		}
+		if j < k {
+			out = slices.Insert(out, j, i)
+			out = out[:min(len(out), k)]
+		}
+	}
+	return out
 }
 
 // writeKeptDown lists the windows that would have won their filter but for

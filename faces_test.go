@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
-	"slices"
 	"strings"
 	"testing"
 
@@ -82,10 +81,11 @@ func TestExplainTextShowsTheJSONNumbers(t *testing.T) {
 	}
 }
 
-// TestSlotTablesBreakEven: explaining text after text builds one table of
-// the whole vocabulary once the words tabled text by text reach what it
-// holds, and the explanations with it are those without it.
-func TestSlotTablesBreakEven(t *testing.T) {
+// TestGrowingTableExplanations: explaining text after text with the one
+// table that the texts' words fill (explainText) gives the explanations
+// that a table of each text's own words gives, and the table ends holding
+// every distinct word of the texts once.
+func TestGrowingTableExplanations(t *testing.T) {
 	m, err := cnn.Load(tinyModel(t))
 	if err != nil {
 		t.Fatal(err)
@@ -94,54 +94,41 @@ func TestSlotTablesBreakEven(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	tables := newSlotTables(m)
-	if tables.budget != m.Config.VocabSize {
-		t.Fatalf("budget %d words, the tiny model's vocabulary of %d fits the default bound", tables.budget, m.Config.VocabSize)
+	tables, err := explain.NewGrowingTable(m, 0)
+	if err != nil {
+		t.Fatal(err)
 	}
 	ds, _, err := corpus.Load(filepath.Join("testdata", "demo", "test.csv"), corpus.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	spent, built := 0, -1
+	words := map[int32]bool{corpus.PAD: true, corpus.UNK: true}
+	opt := explain.ExplainOptions{Occlusion: true, KeptDown: 2}
 	for i, ex := range ds.Examples[:400] {
-		toks, ids := enc.Encode(ex.Text)
-		before := tables.st
-		st, err := tables.forText(ids)
+		with, _, err := explainText(m, enc, ex.Text, opt, tables)
 		if err != nil {
 			t.Fatal(err)
 		}
-		if before == nil {
-			spent += len(slices.Compact(slices.Sorted(slices.Values(ids))))
+		toks, ids := enc.Encode(ex.Text)
+		for _, id := range ids {
+			words[id] = true
 		}
-		switch {
-		case spent < tables.budget && st != nil:
-			t.Fatalf("text %d: a table built after %d of %d words", i, spent, tables.budget)
-		case spent >= tables.budget && st == nil:
-			t.Fatalf("text %d: no table after %d of %d words", i, spent, tables.budget)
-		case st != nil && built < 0:
-			built = i
+		if got := tables.Table().Tabled(); got != len(words) {
+			t.Fatalf("text %d: the table holds %d words, the texts so far %d", i, got, len(words))
 		}
-		if st == nil || i%20 != 0 {
+		if i%20 != 0 {
 			continue
 		}
-		with, err := explain.Explain(m, toks, ids, explain.ExplainOptions{Table: st, Occlusion: true, KeptDown: 2})
-		if err != nil {
-			t.Fatal(err)
-		}
-		without, err := explain.Explain(m, toks, ids, explain.ExplainOptions{Occlusion: true, KeptDown: 2})
+		without, err := explain.Explain(m, toks, ids, opt)
 		if err != nil {
 			t.Fatal(err)
 		}
 		a, _ := json.Marshal(with)
 		b, _ := json.Marshal(without)
 		if path, ok := jsonNumbersClose(a, b); !ok {
-			t.Errorf("text %d: the explanation with the vocabulary's table differs from the one with the text's own at %s", i, path)
+			t.Errorf("text %d: the explanation with the growing table differs from the one with the text's own at %s", i, path)
 		}
 	}
-	if built < 0 {
-		t.Fatalf("no table built over 400 texts (%d of %d words)", spent, tables.budget)
-	}
-	t.Logf("the table was built at text %d", built)
 }
 
 // jsonNumbersClose reports whether two JSON documents have the same

@@ -17,13 +17,22 @@ import (
 
 const hexDigits = "0123456789abcdef"
 
+// plainJSON marks the ASCII bytes that a JSON string holds as they are:
+// not control bytes, not " or \, and not <, > or & (HTML-safe).
+var plainJSON = func() (t [utf8.RuneSelf]bool) {
+	for b := 0x20; b < utf8.RuneSelf; b++ {
+		t[b] = b != '"' && b != '\\' && b != '<' && b != '>' && b != '&'
+	}
+	return t
+}()
+
 // appendJSONString appends s as a JSON string, as encoding/json writes it.
 func appendJSONString(dst []byte, s string) []byte {
 	dst = append(dst, '"')
 	start := 0
 	for i := 0; i < len(s); {
 		if b := s[i]; b < utf8.RuneSelf {
-			if b >= 0x20 && b != '"' && b != '\\' && b != '<' && b != '>' && b != '&' {
+			if plainJSON[b] {
 				i++
 				continue
 			}

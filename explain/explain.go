@@ -139,7 +139,14 @@ func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOption
 	}
 	defer st.explainers.Put(r)
 	r.load(ids)
-	r.pool()
+	var top *keptTop
+	if opt.KeptDown > 0 {
+		// The kept-down search's positive parts come with the pooling.
+		top = newKeptTop(m.Config.NumFilters())
+		poolExplain(r, top)
+	} else {
+		r.pool()
+	}
 	e := newExplanation(m, tokens, ids, &r.p)
 	firedFilters(st, r, e, opt.Profiles)
 	identifiedShares(m, e)
@@ -171,7 +178,7 @@ func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOption
 		identifiedIG(r, e, perClass, opt.IGSteps)
 	}
 	if opt.KeptDown > 0 {
-		e.KeptDown = keptDown(r, e, o, opt.KeptDown)
+		e.KeptDown = keptDown(r, e, o, top, opt.KeptDown)
 	}
 	return e, nil
 }
@@ -328,6 +335,19 @@ func firedFilters(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
 	m := st.m
 	nf := m.Config.NumFilters()
 	p := &r.p
+	// One allocation for the list and one for every filter's slots.
+	fired, slots := 0, 0
+	for g, h := range p.Pooled {
+		if h != 0 {
+			fired++
+			slots += m.FilterWidth(g)
+		}
+	}
+	if fired == 0 {
+		return
+	}
+	e.Filters = make([]FiredFilter, 0, fired)
+	flat := make([]float64, slots)
 	for g := 0; g < nf; g++ {
 		h := p.Pooled[g]
 		if h == 0 {
@@ -339,8 +359,9 @@ func firedFilters(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
 		t0 := int(p.Start[g])
 		ff := FiredFilter{
 			Filter: g, Width: w, Start: t0, Activation: float64(h),
-			BiasTerm: float64(tb.bias[f]), Slots: make([]float64, w), Family: -1,
+			BiasTerm: float64(tb.bias[f]), Slots: flat[:w:w], Family: -1,
 		}
+		flat = flat[w:]
 		for s := 0; s < w; s++ {
 			ff.Slots[s] = float64(r.rows[b][t0+s][s*F+f])
 		}

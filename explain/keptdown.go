@@ -50,66 +50,73 @@ type KeptDownWindow struct {
 
 // keptDown finds, for every unmasked filter, the window with the largest
 // positive part among those whose positive part exceeds the filter's pooled
-// value (the winning window itself excluded when the filter fired), keeps
+// value (the winning window itself excluded when the filter fired; top, from
+// poolExplain, holds the two best of every filter), keeps
 // the k with the largest |Effect| (ties: lower filter first) and measures
 // each with the occluder.
-func keptDown(r *Runner, e *Explanation, o *occluder, k int) []KeptDownWindow {
+func keptDown(r *Runner, e *Explanation, o *occluder, top *keptTop, k int) []KeptDownWindow {
 	st := r.st
 	m := st.m
 	lo := logOddsContrast(m.Config.Classes, e.Class, e.RunnerUp)
-	var out []KeptDownWindow
-	for b := range st.banks {
-		tb := &st.banks[b]
-		F, w := tb.filters, tb.width
-		nw := r.p.Len - w + 1
-		rows := r.rows[b]
-		for f := 0; f < F; f++ {
-			g := b*F + f
-			if m.IsMasked(g) {
-				continue
-			}
-			h := r.p.Pooled[g]
-			won := int(r.p.Start[g])
-			best, bt := float32(0), -1
-			for t := 0; t < nw; t++ {
-				if h > 0 && t == won {
-					continue
-				}
-				p := tb.bias[f]
-				for s := 0; s < w; s++ {
-					p += max(rows[t+s][s*F+f], 0)
-				}
-				if p > h && (bt < 0 || p > best) {
-					best, bt = p, t
-				}
-			}
-			if bt < 0 {
-				continue
-			}
-			kd := KeptDownWindow{Filter: g, Width: w, Start: bt, Slots: make([]float64, w),
-				Activation: float64(tb.bias[f]), Positive: float64(tb.bias[f]), Winner: float64(h)}
-			for s := 0; s < w; s++ {
-				v := float64(rows[bt+s][s*F+f])
-				kd.Slots[s] = v
-				kd.Activation += v
-				if v > 0 {
-					kd.Positive += v
-				} else if v < 0 {
-					kd.By = append(kd.By, bt+s)
-				}
-			}
-			kd.Effect = lo.column(m, g) * (kd.Positive - kd.Winner)
-			out = append(out, kd)
+	var cands []keptCand
+	for g, h := range r.p.Pooled {
+		skip := int32(-1)
+		if h > 0 {
+			skip = r.p.Start[g]
+		}
+		if best, at := top.best(g, skip); !m.IsMasked(g) && at >= 0 && best > h {
+			kd := keptDownWindow(r, g, int(at), false)
+			cands = append(cands, keptCand{g: g, at: int(at), effect: lo.column(m, g) * (kd.Positive - kd.Winner)})
 		}
 	}
-	slices.SortStableFunc(out, func(a, b KeptDownWindow) int {
-		return cmp.Compare(math.Abs(b.Effect), math.Abs(a.Effect))
+	slices.SortStableFunc(cands, func(a, b keptCand) int {
+		return cmp.Compare(math.Abs(b.effect), math.Abs(a.effect))
 	})
-	out = out[:min(k, len(out))]
+	if len(cands) == 0 {
+		return nil
+	}
+	out := make([]KeptDownWindow, min(k, len(cands)))
 	for i := range out {
+		out[i] = keptDownWindow(r, cands[i].g, cands[i].at, true)
+		out[i].Effect = cands[i].effect
 		measureKeptDown(o, lo, &out[i])
 	}
 	return out
+}
+
+// keptCand is a kept-down window while the k largest are chosen.
+type keptCand struct {
+	g, at  int
+	effect float64
+}
+
+// keptDownWindow describes filter g's window from token t0 (slot scores,
+// Activation, Positive, Winner; with full, Slots and By too).
+func keptDownWindow(r *Runner, g, t0 int, full bool) KeptDownWindow {
+	st := r.st
+	b, f := st.m.FilterConv(g)
+	tb := &st.banks[b]
+	F, w := tb.filters, tb.width
+	kd := KeptDownWindow{Filter: g, Width: w, Start: t0,
+		Activation: float64(tb.bias[f]), Positive: float64(tb.bias[f]), Winner: float64(r.p.Pooled[g])}
+	if full {
+		kd.Slots = make([]float64, w)
+	}
+	for s := 0; s < w; s++ {
+		v := float64(r.rows[b][t0+s][s*F+f])
+		kd.Activation += v
+		if v > 0 {
+			kd.Positive += v
+		}
+		if !full {
+			continue
+		}
+		kd.Slots[s] = v
+		if v < 0 {
+			kd.By = append(kd.By, t0+s)
+		}
+	}
+	return kd
 }
 
 // measureKeptDown re-runs the text with the window's By tokens replaced by

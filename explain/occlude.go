@@ -1,6 +1,9 @@
 package explain
 
-import "math"
+import (
+	"math"
+	"math/bits"
+)
 
 // occluder recomputes the pooled units after replacing some tokens of a
 // short stretch of the text with PAD, touching only the windows that contain
@@ -12,6 +15,7 @@ type occluder struct {
 	pm, sm [][]float32 // [bank] prefix / suffix maxima, windows × filters
 	acc    []float32
 	newMax []float32
+	bits   []uint64  // the filters of one bank whose pooled unit changed
 	pooled []float32 // NumFilters: the pooled units of the edited text
 	z      []float64 // the logits of the edited text
 	y      int
@@ -23,6 +27,7 @@ func newOccluder(r *Runner, e *Explanation) *occluder {
 	o := &occluder{r: r, e: e, y: e.Class,
 		acc:    make([]float32, st.m.Config.Filters),
 		newMax: make([]float32, st.m.Config.Filters),
+		bits:   make([]uint64, (st.m.Config.Filters+63)/64),
 		pooled: make([]float32, st.m.Config.NumFilters()),
 		z:      make([]float64, len(e.logits))}
 	o.logP = logSoftmax64(e.logits, e.Class)
@@ -33,13 +38,15 @@ func newOccluder(r *Runner, e *Explanation) *occluder {
 		nw := len(win) / F
 		r.occPM[b], r.occSM[b] = grow(r.occPM[b], len(win)), grow(r.occSM[b], len(win))
 		pm, sm := r.occPM[b], r.occSM[b]
-		copy(pm, win)
-		for t := 1; t < nw; t++ {
-			maxInto(pm[t*F:(t+1)*F], pm[(t-1)*F:t*F])
+		if nw > 0 {
+			copy(pm[:F], win[:F])
+			copy(sm[(nw-1)*F:], win[(nw-1)*F:])
 		}
-		copy(sm, win)
+		for t := 1; t < nw; t++ {
+			maxOf(pm[t*F:(t+1)*F], win[t*F:(t+1)*F], pm[(t-1)*F:t*F])
+		}
 		for t := nw - 2; t >= 0; t-- {
-			maxInto(sm[t*F:(t+1)*F], sm[(t+1)*F:(t+2)*F])
+			maxOf(sm[t*F:(t+1)*F], win[t*F:(t+1)*F], sm[(t+1)*F:(t+2)*F])
 		}
 		o.pm = append(o.pm, pm)
 		o.sm = append(o.sm, sm)
@@ -72,13 +79,15 @@ func (o *occluder) single(i int) {
 		F, w := tb.filters, tb.width
 		nw := n - w + 1
 		t0, t1 := max(0, i-w+1), min(i, nw-1)
-		nm := o.outside(b, F, nw, t0, t1)
-		row := r.rows[b][i]
-		win := r.win[b]
-		for t := t0; t <= t1; t++ {
-			s := i - t
-			subMaxInto(nm, win[t*F:(t+1)*F], row[s*F:(s+1)*F])
+		var before, after []float32
+		if t0 > 0 {
+			before = o.pm[b][(t0-1)*F : t0*F]
 		}
+		if t1+1 < nw {
+			after = o.sm[b][(t1+1)*F : (t1+2)*F]
+		}
+		nm := o.newMax[:F]
+		occludeToken(nm, before, after, r.win[b], r.rows[b][i], F, t0, t1, i)
 		o.setBank(b, F, nm)
 	}
 }
@@ -103,14 +112,22 @@ func (o *occluder) outside(b, F, nw, t0, t1 int) []float32 {
 
 // setBank makes nm (bank b's F new maxima before the ReLU) the pooled
 // units of the edited text and moves o.z by the change of every unmasked
-// one.
+// one, in the order of the filters.
 func (o *occluder) setBank(b, F int, nm []float32) {
 	m := o.r.st.m
 	nf := m.Config.NumFilters()
-	for f, a := range nm {
-		g := b*F + f
-		h := max(a, 0)
-		if dh := float64(h) - float64(o.r.p.Pooled[g]); dh != 0 && !m.IsMasked(g) {
+	old := o.r.p.Pooled[b*F : (b+1)*F]
+	changedUnits(o.bits, nm, old)
+	for k, word := range o.bits[:(F+63)/64] {
+		for word != 0 {
+			f := 64*k + bits.TrailingZeros64(word)
+			word &= word - 1
+			g := b*F + f
+			if m.IsMasked(g) {
+				continue
+			}
+			h := max(nm[f], 0)
+			dh := float64(h) - float64(old[f])
 			o.pooled[g] = h
 			for c := range o.z {
 				o.z[c] += float64(m.OutW[c*nf+g]) * dh

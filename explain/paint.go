@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strconv"
 )
 
 // diverging is ColorBrewer's 11-class PuOr scheme (Brewer 2003, "A
@@ -72,12 +73,15 @@ func paintScores(w io.Writer, text string, e *Explanation, scores []float64, leg
 		scale = 1
 	}
 	bw := bufio.NewWriter(w)
+	var num []byte
 	paint := func(i int, s string) {
 		if color {
 			bw.WriteString(ansi(scaleIndex(scores[i], scale), s))
-		} else {
-			fmt.Fprintf(bw, "%s[%+.2f]", s, scores[i])
+			return
 		}
+		num = append(num[:0], s...)
+		num = append(appendScore(append(num, '['), scores[i]), ']')
+		bw.Write(num)
 	}
 	if offsetsFit(text, e.Tokens) {
 		prev := 0
@@ -106,6 +110,15 @@ func paintScores(w io.Writer, text string, e *Explanation, scores []float64, leg
 		fmt.Fprintf(bw, "scores from %+.3g to %+.3g (negative against, positive for)\n", -scale, scale)
 	}
 	return bw.Flush()
+}
+
+// appendScore appends v as fmt's %+.2f writes it, without fmt's cost per
+// token.
+func appendScore(dst []byte, v float64) []byte {
+	if !math.Signbit(v) && !math.IsInf(v, 1) {
+		dst = append(dst, '+')
+	}
+	return strconv.AppendFloat(dst, v, 'f', 2, 64)
 }
 
 func offsetsFit(text string, toks []TokenSpan) bool {
