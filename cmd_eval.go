@@ -168,7 +168,17 @@ func requireEvalData(data, test string) error {
 
 // openModel loads a model file and rebuilds its encoder.
 func openModel(path string) (*cnn.Model, *corpus.Encoder, error) {
-	m, err := cnn.Load(path)
+	return openModelFrom(path, cnn.Load)
+}
+
+// openCNN loads a model file without the linear baseline it may carry, for
+// the commands that only run the CNN, and rebuilds its encoder.
+func openCNN(path string) (*cnn.Model, *corpus.Encoder, error) {
+	return openModelFrom(path, cnn.LoadWithoutBaseline)
+}
+
+func openModelFrom(path string, load func(string) (*cnn.Model, error)) (*cnn.Model, *corpus.Encoder, error) {
+	m, err := load(path)
 	if err != nil {
 		return nil, nil, err
 	}

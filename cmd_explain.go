@@ -98,7 +98,7 @@ func (o *explainOptions) files() (outputs, inputs []outguard.File) {
 }
 
 func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
-	m, enc, err := openModel(o.model)
+	m, enc, err := openCNN(o.model)
 	if err != nil {
 		return err
 	}

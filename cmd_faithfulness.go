@@ -73,7 +73,7 @@ func (o *faithOptions) files() (outputs, inputs []outguard.File) {
 }
 
 func runFaithfulness(ctx context.Context, env *runEnv, o *faithOptions) error {
-	m, enc, err := openModel(o.model)
+	m, enc, err := openCNN(o.model)
 	if err != nil {
 		return err
 	}

@@ -50,7 +50,7 @@ func (o *predictOptions) files() (outputs, inputs []outguard.File) {
 }
 
 func runPredict(ctx context.Context, env *runEnv, o *predictOptions) error {
-	m, enc, err := openModel(o.model)
+	m, enc, err := openCNN(o.model)
 	if err != nil {
 		return err
 	}

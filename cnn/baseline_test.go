@@ -108,13 +108,13 @@ func TestSaveLoadWithBaseline(t *testing.T) {
 	// truncated one is named as such.
 	data, _ := os.ReadFile(path)
 	for _, n := range []int{len(data) - 5, len(data) - 13} {
-		if _, err := decode(data[:n]); err == nil || !strings.Contains(err.Error(), "incomplete") {
+		if _, err := decode(data[:n], true); err == nil || !strings.Contains(err.Error(), "incomplete") {
 			t.Errorf("cut to %d of %d bytes: error %v", n, len(data), err)
 		}
 	}
 	bad := bytes.Clone(data)
 	bad[len(bad)-12] ^= 1
-	if _, err := decode(bad); err == nil || !strings.Contains(err.Error(), "corrupt") {
+	if _, err := decode(bad, true); err == nil || !strings.Contains(err.Error(), "corrupt") {
 		t.Errorf("baseline byte flipped: error %v", err)
 	}
 }
@@ -140,7 +140,7 @@ func encodeV1(t *testing.T, m *Model) []byte {
 
 func TestLoadVersion1(t *testing.T) {
 	m, _ := savedModel(t)
-	got, err := decode(encodeV1(t, m))
+	got, err := decode(encodeV1(t, m), true)
 	if err != nil {
 		t.Fatalf("a version 1 file: %v", err)
 	}

@@ -374,7 +374,7 @@ func TestCharModelFile(t *testing.T) {
 	if v := binary.LittleEndian.Uint32(data[8:]); v != 3 {
 		t.Errorf("a model with a character layer is written as version %d, want 3", v)
 	}
-	got, err := decode(data)
+	got, err := decode(data, true)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -395,7 +395,7 @@ func TestCharModelFile(t *testing.T) {
 		t.Errorf("a model without a character layer is written as version %d, want 2", v)
 	}
 	binary.LittleEndian.PutUint32(data[8:], 2)
-	if _, err := decode(reseal(data)); err == nil || !strings.Contains(err.Error(), "character layer in a version 2 file") {
+	if _, err := decode(reseal(data), true); err == nil || !strings.Contains(err.Error(), "character layer in a version 2 file") {
 		t.Errorf("a character layer in a version 2 file: %v", err)
 	}
 }

@@ -192,32 +192,59 @@ func (e *errWriter) floats64(x []float64) {
 // truncated or damaged, is from a newer format version, or whose vocabulary
 // and weights disagree gives an error naming the file and the problem.
 func Load(path string) (*Model, error) {
+	return load(path, true)
+}
+
+// LoadWithoutBaseline reads a model file as Load does, with every check of
+// the CNN's part, but leaves out the linear baseline the file may carry
+// (m.Baseline is nil): for commands that only run the CNN, which then do
+// not pay for parsing and indexing the baseline's n-grams. The baseline's
+// bytes are still covered by the file's checksum. Save on such a model
+// writes a file without the baseline.
+func LoadWithoutBaseline(path string) (*Model, error) {
+	return load(path, false)
+}
+
+func load(path string, withBaseline bool) (*Model, error) {
 	data, err := os.ReadFile(path)
 	if err != nil {
 		return nil, fmt.Errorf("cnn: loading model: %w", err)
 	}
-	m, err := decode(data)
+	m, err := decode(data, withBaseline)
 	if err != nil {
 		return nil, fmt.Errorf("cnn: model file %s: %w", path, err)
 	}
 	return m, nil
 }
 
+// headerIn is the header as decode reads it: the baseline's JSON is kept
+// as it is and parsed only when the caller wants the baseline.
+type headerIn struct {
+	fileHeader
+	Baseline json.RawMessage `json:"baseline,omitempty"`
+}
+
 // decode parses a whole model file. It never allocates more than a small
 // multiple of len(data). The checks run in a fixed order (framing and
 // checksum, header, sizes, weights, baseline), so a damaged file always
 // gets the same error.
-func decode(data []byte) (*Model, error) {
+func decode(data []byte, withBaseline bool) (*Model, error) {
 	f, err := splitFile(data)
 	if err != nil {
 		return nil, err
 	}
-	var h fileHeader
+	var hi headerIn
 	dec := json.NewDecoder(bytes.NewReader(f.header))
-	if err := dec.Decode(&h); err != nil {
+	if err := dec.Decode(&hi); err != nil {
 		return nil, fmt.Errorf("header: %v: the file is corrupted", err)
 	}
-	if err := checkHeader(&h, f, len(data)); err != nil {
+	h := &hi.fileHeader
+	if len(hi.Baseline) > 0 && !bytes.Equal(hi.Baseline, []byte("null")) && withBaseline {
+		if err := json.Unmarshal(hi.Baseline, &h.Baseline); err != nil {
+			return nil, fmt.Errorf("header: baseline: %v: the file is corrupted", err)
+		}
+	}
+	if err := checkHeader(h, f, len(data)); err != nil {
 		return nil, err
 	}
 	cfg := h.Config
@@ -230,8 +257,12 @@ func decode(data []byte) (*Model, error) {
 	if err := m.readWeights(f.weights); err != nil {
 		return nil, err
 	}
-	if err := setBaseline(m, h.Baseline, f.baseline); err != nil {
-		return nil, err
+	if withBaseline {
+		if err := setBaseline(m, h.Baseline, f.baseline); err != nil {
+			return nil, err
+		}
+	} else if (len(hi.Baseline) == 0 || bytes.Equal(hi.Baseline, []byte("null"))) && len(f.baseline) > 0 {
+		return nil, fmt.Errorf("%d baseline weights but no baseline in the header: the file is damaged", len(f.baseline)/8)
 	}
 	for _, v := range m.Emb[:cfg.Dim] {
 		if v != 0 {

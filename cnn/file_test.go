@@ -57,13 +57,13 @@ func TestSaveLoadRoundTrip(t *testing.T) {
 func TestLoadTruncated(t *testing.T) {
 	_, data := savedModel(t)
 	for n := 0; n < len(data); n += 1024 {
-		if _, err := decode(data[:n]); err == nil {
+		if _, err := decode(data[:n], true); err == nil {
 			t.Fatalf("truncated at %d of %d bytes: no error", n, len(data))
 		} else if n >= 20 && !strings.Contains(err.Error(), "truncated") && !strings.Contains(err.Error(), "incomplete") {
 			t.Errorf("truncated at %d: error %q does not say so", n, err)
 		}
 	}
-	if _, err := decode(data[:len(data)-1]); err == nil {
+	if _, err := decode(data[:len(data)-1], true); err == nil {
 		t.Fatal("last byte missing: no error")
 	}
 }
@@ -73,7 +73,7 @@ func TestLoadFlippedByte(t *testing.T) {
 	for _, at := range []int{30, len(data) / 2, len(data) - 10, len(data) - 2} {
 		bad := bytes.Clone(data)
 		bad[at] ^= 0x10
-		_, err := decode(bad)
+		_, err := decode(bad, true)
 		if err == nil || !strings.Contains(err.Error(), "corrupt") {
 			t.Errorf("byte %d flipped: error %v, want a corruption error", at, err)
 		}
@@ -90,7 +90,7 @@ func TestLoadNewerVersion(t *testing.T) {
 	_, data := savedModel(t)
 	bad := bytes.Clone(data)
 	binary.LittleEndian.PutUint32(bad[8:], FormatVersion+1)
-	_, err := decode(reseal(bad))
+	_, err := decode(reseal(bad), true)
 	if err == nil || !strings.Contains(err.Error(), "newer") {
 		t.Fatalf("newer version: error %v", err)
 	}
@@ -103,11 +103,11 @@ func TestLoadVocabMismatch(t *testing.T) {
 	if err := m.encode(&buf); err != nil {
 		t.Fatal(err)
 	}
-	_, err := decode(buf.Bytes())
+	_, err := decode(buf.Bytes(), true)
 	if err == nil || !strings.Contains(err.Error(), "vocabulary") {
 		t.Fatalf("vocabulary/weights mismatch: error %v", err)
 	}
-	if _, err := decode([]byte("PK\x03\x04 not a model")); err == nil || !strings.Contains(err.Error(), "not a telltale model") {
+	if _, err := decode([]byte("PK\x03\x04 not a model"), true); err == nil || !strings.Contains(err.Error(), "not a telltale model") {
 		t.Fatalf("foreign file: error %v", err)
 	}
 }
@@ -124,13 +124,51 @@ func FuzzLoad(f *testing.F) {
 	f.Add(withBaseline.Bytes())
 	f.Add([]byte(fileMagic))
 	f.Fuzz(func(t *testing.T, b []byte) {
-		m, err := decode(b)
-		if err == nil {
-			if err := m.checkShapes(); err != nil {
-				t.Fatalf("decode accepted a model with bad shapes: %v", err)
+		for _, withBaseline := range []bool{true, false} {
+			m, err := decode(b, withBaseline)
+			if err == nil {
+				if err := m.checkShapes(); err != nil {
+					t.Fatalf("decode (baseline %v) accepted a model with bad shapes: %v", withBaseline, err)
+				}
 			}
 		}
 	})
+}
+
+// LoadWithoutBaseline gives the CNN of the file, weights and all, without
+// its baseline; Load of the same file keeps the baseline.
+func TestLoadWithoutBaseline(t *testing.T) {
+	m, _ := savedModel(t)
+	m.Baseline = tinyBaseline(t, m.Labels)
+	path := filepath.Join(t.TempDir(), "m.tt")
+	if err := m.Save(path); err != nil {
+		t.Fatal(err)
+	}
+	full, err := Load(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cnnOnly, err := LoadWithoutBaseline(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if full.Baseline == nil || cnnOnly.Baseline != nil {
+		t.Fatalf("Load's baseline %v, LoadWithoutBaseline's %v: want one and none", full.Baseline != nil, cnnOnly.Baseline != nil)
+	}
+	full.Baseline = nil
+	if !reflect.DeepEqual(full, cnnOnly) {
+		t.Errorf("the CNN read without the baseline differs from the one read with it")
+	}
+	// A file whose header lost its baseline but kept the weights is still
+	// refused.
+	data, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	bad := bytes.Replace(data, []byte(`"baseline":`), []byte(`"baselinX":`), 1)
+	if _, err := decode(reseal(bad), false); err == nil || !strings.Contains(err.Error(), "no baseline in the header") {
+		t.Errorf("a header without its baseline: %v", err)
+	}
 }
 
 // TestSmallVocabularyRoundTrip: a model whose embedding table is small next
