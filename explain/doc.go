@@ -17,10 +17,14 @@
 // The table's memory is bounded (TableOptions.MaxBytes); words past the bound
 // are computed on the fly. A Runner runs texts through a table; Scan does so
 // for a whole corpus in parallel. Built with GOEXPERIMENT=simd on amd64, the
-// window sums with their running maximum, the negative-window screen and the
-// occluder's maxima run on AVX-512 or AVX2 kernels chosen at start-up
-// (kernel_simd_amd64.go); other builds use the portable kernels of
-// kernel.go, which give the same results bit for bit.
+// window sums with their running maximum, the negative-window screen, the
+// occluder's maxima, single-token occlusion and the kept-down search run on
+// AVX-512 or AVX2 kernels chosen at start-up (kernel_simd_amd64.go,
+// occkernel_simd_amd64.go, keptkernel_simd_amd64.go); other builds use the
+// portable kernels (kernel.go, occkernel.go, keptkernel.go), which give the
+// same results bit for bit. A GrowingTable is a SlotTable filled text by
+// text, each word's row computed alone, so the rows equal the
+// whole-vocabulary table's whichever texts came first.
 //
 // # Identified quantities
 //
