@@ -29,6 +29,7 @@ var variants = map[string]func(r *cnn.Recipe){
 	"f200":   func(r *cnn.Recipe) { r.Model.Filters = 200 },
 	"dim64":  func(r *cnn.Recipe) { r.Model.Dim = 64 },
 	"dim200": func(r *cnn.Recipe) { r.Model.Dim = 200 },
+	"dim300": func(r *cnn.Recipe) { r.Model.Dim = 300 },
 	"drop3":  func(r *cnn.Recipe) { r.Model.Dropout = 0.3 },
 	"drop6":  func(r *cnn.Recipe) { r.Model.Dropout = 0.6 },
 	"drop7":  func(r *cnn.Recipe) { r.Model.Dropout = 0.7 },
