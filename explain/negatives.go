@@ -246,14 +246,16 @@ func (s *skyline) stairFrom(from, to int) {
 }
 
 // kSmallest appends to h[:0] the k smallest values of vs as a max-heap
-// (see pushSmallest).
+// (see pushSmallest). It reads vs from the end: along the skyline a falls
+// with P, so from the end most values are larger than the heap's largest
+// and cost one comparison.
 func kSmallest(h, vs []float32, k int) []float32 {
-	for len(h) < k && len(vs) > 0 {
-		h = pushSmallest(h, vs[0], k)
-		vs = vs[1:]
+	i := len(vs) - 1
+	for ; len(h) < k && i >= 0; i-- {
+		h = pushSmallest(h, vs[i], k)
 	}
-	for _, v := range vs {
-		if v < h[0] {
+	for ; i >= 0; i-- {
+		if v := vs[i]; v < h[0] {
 			h = pushSmallest(h, v, k)
 		}
 	}
