@@ -342,18 +342,16 @@ func profile(ctx context.Context, m *cnn.Model, next TextSource, total int, reop
 			haveGold.Store(true)
 		}
 		hf := half(text)
-		a.count()
 		a.texts[hf]++
 		a.assigned[hf][p.Pred]++
-		for g := 0; g < nf; g++ {
-			a.filters[g].add(p, g, text, gd, hf, p.Pred == votes[g], cfg.Classes)
-		}
-		a.searchNegatives(st, p, text, votes, &opt)
+		a.hold(p, text, gd, hf, votes, cfg.Classes)
+		a.searchNegatives(st, p, text, votes, cfg.Classes, &opt)
 	})
 	if err != nil {
 		return nil, err
 	}
 	for _, a := range accs {
+		a.addHeld(votes, cfg.Classes)
 		a.flush()
 	}
 	sels := make([]Selectivity, nf)
