@@ -134,6 +134,9 @@ const corners = 10
 type bankScreen struct {
 	pc, ac [corners][]float32 // [corner][filter]
 	dmin   []float32          // [filter]
+	// skipIdle lets the SIMD kernels skip the groups of filters whose
+	// screen passes nothing, leaving their pre and start as they were.
+	skipIdle bool
 }
 
 // newBankScreen returns a screen that rejects every window.
@@ -195,7 +198,9 @@ func (sc *bankScreen) passes(f int, a, p float32) bool {
 //
 // summed left to right, and appends to cands every window that passes the
 // screen sc (see bankScreen.passes), in an order that depends on the
-// implementation. It returns cands.
+// implementation. It returns cands. With sc.skipIdle an implementation may
+// leave pre and start of the filters whose screen passes nothing as they
+// were.
 func poolBankNegGo(pre []float32, start []int32, bias []float32, rows [][]float32, w, F int, sc *bankScreen, cands []negCand) []negCand {
 	pre, start, bias = pre[:F], start[:F], bias[:F]
 	for f := range pre {

@@ -397,9 +397,11 @@ func finishNegatives(ctx context.Context, st *SlotTable, accs []*filterAccs, sel
 				continue
 			}
 			a.exactScreens(theta, nil)
+			a.runner.negativesOnly = true
 			a.firstTexts.each(func(ids []int32, text int) {
 				a.negatives(a.runner.Run(ids), text)
 			})
+			a.runner.negativesOnly = false
 		}
 	})
 	exact := make([]bool, nf)
@@ -432,6 +434,7 @@ func finishNegatives(ctx context.Context, st *SlotTable, accs []*filterAccs, sel
 		a := accs[wk]
 		a.attach(st, r)
 		a.exactScreens(theta, again)
+		r.negativesOnly = true
 	}
 	_, err = scanStream(ctx, st, next, len(accs), nil, 0, nil, prepare, func(wk, text, _ int, p *Pass) {
 		accs[wk].negatives(p, text)
