@@ -6,9 +6,11 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"runtime"
 	"slices"
 	"strings"
 	"sync"
+	"sync/atomic"
 
 	"telltale/cnn"
 	"telltale/corpus"
@@ -109,20 +111,61 @@ func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.E
 		return nil, "", err
 	}
 	train, note := trainingSplit(m, all, o.data)
-	ids, gold := make([][]int32, len(train.Examples)), make([]int, len(train.Examples))
-	class := map[string]int{}
-	for i, l := range m.Labels {
+	ids, gold := encodeExamples(enc, m.Labels, train.Examples, o.threads.N)
+	return func() (explain.TextSource, func()) { return explain.SliceSource(ids, gold), func() {} }, note, nil
+}
+
+// encodeExamples gives each example's ids (as enc.Encode) and gold class
+// (−1 for a label not in labels), the texts split into runs encoded by
+// threads goroutines (0: GOMAXPROCS), each run's ids in one array.
+func encodeExamples(enc *corpus.Encoder, labels []string, examples []corpus.Example, threads int) ([][]int32, []int) {
+	ids, gold := make([][]int32, len(examples)), make([]int, len(examples))
+	class := make(map[string]int, len(labels))
+	for i, l := range labels {
 		class[l] = i
 	}
-	for i, e := range train.Examples {
-		_, ids[i] = enc.Encode(e.Text)
-		if g, ok := class[e.Label]; ok {
-			gold[i] = g
-		} else {
-			gold[i] = -1
-		}
+	if threads <= 0 {
+		threads = runtime.GOMAXPROCS(0)
 	}
-	return func() (explain.TextSource, func()) { return explain.SliceSource(ids, gold), func() {} }, note, nil
+	const run = 4096
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for range threads {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			var flat []int32
+			for {
+				lo := int(next.Add(run)) - run
+				if lo >= len(examples) {
+					return
+				}
+				hi := min(lo+run, len(examples))
+				// A fresh array a run, so that no text's ids share one
+				// that is later reallocated.
+				flat = make([]int32, 0, max(cap(flat), 64*(hi-lo)))
+				ends := make([]int, 0, hi-lo)
+				for _, e := range examples[lo:hi] {
+					flat = enc.AppendIDs(flat, e.Text)
+					ends = append(ends, len(flat))
+				}
+				start := 0
+				for i, end := range ends {
+					ids[lo+i] = flat[start:end:end]
+					start = end
+				}
+				for i, e := range examples[lo:hi] {
+					if g, ok := class[e.Label]; ok {
+						gold[lo+i] = g
+					} else {
+						gold[lo+i] = -1
+					}
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	return ids, gold
 }
 
 func (o *filtersOptions) files() (outputs, inputs []outguard.File) {

@@ -11,6 +11,7 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"runtime"
 	"sort"
 	"strings"
 	"unicode/utf8"
@@ -533,72 +534,230 @@ func readLine(br *bufio.Reader, buf []byte, limit int) ([]byte, error) {
 	}
 }
 
+// readJSONL reads JSON lines. The first line that holds a record sets the
+// text and label keys; the lines after it are parsed by several
+// goroutines, a batch of lines each, and handed to fn in file order with
+// the same checks, warnings and first error as one line at a time.
 func readJSONL(r io.Reader, path string, opt Options, ws *warnings, fn func(Example) error) error {
 	br := bufio.NewReaderSize(r, 64<<10)
 	if err := skipBOM(br, path); err != nil {
 		return err
 	}
-	limit := recordLimitFactor * opt.MaxTextBytes
-	var buf []byte
-	var textKey, labelKey string
-	for line := 1; ; line++ {
-		b, err := readLine(br, buf, limit)
-		buf = b
+	lr := jsonlReader{br: br, path: path, limit: recordLimitFactor * opt.MaxTextBytes}
+	var keys jsonlKeys
+	for keys.text == "" {
+		b, err := lr.next()
 		if err == io.EOF {
-			if line == 1 {
+			if lr.line == 1 {
 				return errAt(path, 0, ErrEmpty, "file is empty: it needs one JSON object per line")
 			}
 			return nil
 		}
-		if err == errRecordLimit {
-			return errAt(path, line, ErrTooLong, "line longer than %d bytes: raise --max-text-bytes (limit is %d × it)", limit, recordLimitFactor)
-		}
 		if err != nil {
-			return fmt.Errorf("corpus: %s line %d: read error: %v: %w", path, line, err, ErrFormat)
+			return err
 		}
-		if len(bytes.TrimSpace(b)) == 0 {
-			continue
-		}
-		if i := bytes.IndexByte(b, 0); i >= 0 {
-			return errAt(path, line, ErrEncoding, "NUL byte: the file looks binary or UTF-16; save it as UTF-8 text")
-		}
-		var obj map[string]json.RawMessage
-		if err := json.Unmarshal(b, &obj); err != nil {
-			return errAt(path, line, ErrFormat, "not a JSON object (%v): write one object per line, like {\"text\": \"...\", \"label\": \"...\"}", err)
-		}
-		if textKey == "" {
-			keys := make([]string, 0, len(obj))
-			for k := range obj {
-				keys = append(keys, k)
-			}
-			sort.Strings(keys)
-			ti, li, err := pickColumns(keys, opt, path, line, false)
-			if err != nil {
-				return err
-			}
-			textKey = keys[ti]
-			if li >= 0 {
-				labelKey = keys[li]
-			}
-		}
-		text, err := jsonField(obj, textKey, true)
-		if err != nil {
-			return errAt(path, line, ErrColumn, "field %s: %v", quote(textKey), err)
-		}
-		var label string
-		if labelKey != "" {
-			if label, err = jsonField(obj, labelKey, false); err != nil {
-				return errAt(path, line, ErrColumn, "field %s: %v", quote(labelKey), err)
-			}
-		}
-		e, ok, err := makeExample(text, label, path, "", line, line, opt, ws)
+		text, label, ok, err := parseJSONLine(b, path, lr.line, opt, &keys)
 		if err != nil {
 			return err
 		}
 		if ok {
-			if err := fn(e); err != nil {
+			if err := emitJSONL(text, label, path, lr.line, opt, ws, fn); err != nil {
 				return err
 			}
+		}
+	}
+	return readJSONLParallel(&lr, opt, ws, keys, fn)
+}
+
+// jsonlKeys are the JSON keys of the text and the label ("" for none).
+type jsonlKeys struct{ text, label string }
+
+// jsonlReader reads the lines of a JSON-lines file; line is the number of
+// the line last read.
+type jsonlReader struct {
+	br    *bufio.Reader
+	path  string
+	limit int
+	buf   []byte
+	line  int
+}
+
+// next reads the next line into a buffer reused by the next call. It
+// returns io.EOF at the end, or an error naming the line.
+func (lr *jsonlReader) next() ([]byte, error) {
+	lr.line++
+	b, err := readLine(lr.br, lr.buf, lr.limit)
+	lr.buf = b
+	switch {
+	case err == nil, err == io.EOF:
+		return b, err
+	case err == errRecordLimit:
+		return nil, errAt(lr.path, lr.line, ErrTooLong, "line longer than %d bytes: raise --max-text-bytes (limit is %d × it)", lr.limit, recordLimitFactor)
+	default:
+		return nil, fmt.Errorf("corpus: %s line %d: read error: %v: %w", lr.path, lr.line, err, ErrFormat)
+	}
+}
+
+// parseJSONLine parses one line: ok is false for a blank line. When keys
+// holds no text key yet, the line's keys choose them.
+func parseJSONLine(b []byte, path string, line int, opt Options, keys *jsonlKeys) (text, label string, ok bool, err error) {
+	if len(bytes.TrimSpace(b)) == 0 {
+		return "", "", false, nil
+	}
+	if i := bytes.IndexByte(b, 0); i >= 0 {
+		return "", "", false, errAt(path, line, ErrEncoding, "NUL byte: the file looks binary or UTF-16; save it as UTF-8 text")
+	}
+	var obj map[string]json.RawMessage
+	if err := json.Unmarshal(b, &obj); err != nil {
+		return "", "", false, errAt(path, line, ErrFormat, "not a JSON object (%v): write one object per line, like {\"text\": \"...\", \"label\": \"...\"}", err)
+	}
+	if keys.text == "" {
+		names := make([]string, 0, len(obj))
+		for k := range obj {
+			names = append(names, k)
+		}
+		sort.Strings(names)
+		ti, li, err := pickColumns(names, opt, path, line, false)
+		if err != nil {
+			return "", "", false, err
+		}
+		keys.text = names[ti]
+		if li >= 0 {
+			keys.label = names[li]
+		}
+	}
+	if text, err = jsonField(obj, keys.text, true); err != nil {
+		return "", "", false, errAt(path, line, ErrColumn, "field %s: %v", quote(keys.text), err)
+	}
+	if keys.label != "" {
+		if label, err = jsonField(obj, keys.label, false); err != nil {
+			return "", "", false, errAt(path, line, ErrColumn, "field %s: %v", quote(keys.label), err)
+		}
+	}
+	return text, label, true, nil
+}
+
+// emitJSONL applies the shared checks to one record and hands it to fn.
+func emitJSONL(text, label, path string, line int, opt Options, ws *warnings, fn func(Example) error) error {
+	e, ok, err := makeExample(text, label, path, "", line, line, opt, ws)
+	if err != nil || !ok {
+		return err
+	}
+	return fn(e)
+}
+
+// jsonlBatch is a run of consecutive lines and, once parsed, their records.
+type jsonlBatch struct {
+	first int    // number of the first line
+	data  []byte // the lines one after the other
+	ends  []int
+	recs  []jsonlRecord
+	err   error // the reader's error after the last line; nil at the end
+	ready chan struct{}
+}
+
+type jsonlRecord struct {
+	text, label string
+	ok          bool
+	err         error
+}
+
+const jsonlBatchLines = 512
+
+// readJSONLParallel reads the lines after the one that set keys: one
+// goroutine reads batches of lines, GOMAXPROCS goroutines parse them, and
+// this one hands the records to fn in order, stopping at the first error.
+func readJSONLParallel(lr *jsonlReader, opt Options, ws *warnings, keys jsonlKeys, fn func(Example) error) error {
+	workers := runtime.GOMAXPROCS(0)
+	done := make(chan struct{})
+	defer close(done)
+	free := make(chan *jsonlBatch, 2*workers+2)
+	for range cap(free) {
+		free <- &jsonlBatch{ready: make(chan struct{}, 1)}
+	}
+	work := make(chan *jsonlBatch, cap(free))
+	order := make(chan *jsonlBatch, cap(free))
+	go func() {
+		defer close(order)
+		defer close(work)
+		for {
+			var b *jsonlBatch
+			select {
+			case <-done:
+				return
+			default:
+			}
+			select {
+			case b = <-free:
+			case <-done:
+				return
+			}
+			last := lr.fill(b)
+			work <- b
+			order <- b
+			if last {
+				return
+			}
+		}
+	}()
+	for range workers {
+		go func() {
+			for b := range work {
+				b.parse(lr.path, opt, keys)
+				b.ready <- struct{}{}
+			}
+		}()
+	}
+	for b := range order {
+		<-b.ready
+		for i, r := range b.recs {
+			if r.err != nil {
+				return r.err
+			}
+			if r.ok {
+				if err := emitJSONL(r.text, r.label, lr.path, b.first+i, opt, ws, fn); err != nil {
+					return err
+				}
+			}
+		}
+		if b.err != nil {
+			return b.err
+		}
+		free <- b
+	}
+	return nil
+}
+
+// fill reads up to jsonlBatchLines lines into b. Last is true when the
+// file ended or the read failed (the error is then in b.err).
+func (lr *jsonlReader) fill(b *jsonlBatch) (last bool) {
+	b.first, b.data, b.ends, b.err = lr.line+1, b.data[:0], b.ends[:0], nil
+	for len(b.ends) < jsonlBatchLines {
+		line, err := lr.next()
+		if err == io.EOF {
+			return true
+		}
+		if err != nil {
+			b.err = err
+			return true
+		}
+		b.data = append(b.data, line...)
+		b.ends = append(b.ends, len(b.data))
+	}
+	return false
+}
+
+// parse parses every line of b into b.recs.
+func (b *jsonlBatch) parse(path string, opt Options, keys jsonlKeys) {
+	b.recs = b.recs[:0]
+	lo := 0
+	for i, hi := range b.ends {
+		var r jsonlRecord
+		r.text, r.label, r.ok, r.err = parseJSONLine(b.data[lo:hi], path, b.first+i, opt, &keys)
+		b.recs = append(b.recs, r)
+		lo = hi
+		if r.err != nil {
+			return
 		}
 	}
 }

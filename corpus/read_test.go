@@ -2,9 +2,12 @@ package corpus
 
 import (
 	"errors"
+	"fmt"
 	"os"
 	"path/filepath"
 	"reflect"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -234,3 +237,69 @@ func TestLoadNothingModified(t *testing.T) {
 		t.Error("Load changed the folder")
 	}
 }
+
+// A JSON-lines file longer than a batch of the parallel reader is read in
+// file order with the warnings and the first error at the lines where
+// reading one line at a time meets them (common practice, no source: the
+// lines of the file are the reference).
+func TestLoadJSONLManyLines(t *testing.T) {
+	const n, bad = 2600, 2101
+	var sb strings.Builder
+	var wantTexts []string
+	var wantWarn []int
+	for line := 1; line <= n; line++ {
+		switch {
+		case line == bad:
+			sb.WriteString("{\"text\": \"cut\n")
+		case line%97 == 0:
+			sb.WriteString("\n") // blank: skipped
+		case line%89 == 0:
+			sb.WriteString(`{"text": "  ", "label": "a"}` + "\n") // empty text: a warning
+			if line < bad {
+				wantWarn = append(wantWarn, line)
+			}
+		default:
+			text := "text " + itoa(line)
+			fmt.Fprintf(&sb, "{\"label\": %q, \"text\": %q}\n", []string{"a", "b"}[line%2], text)
+			if line < bad {
+				wantTexts = append(wantTexts, text)
+			}
+		}
+	}
+	path := writeFile(t, t.TempDir(), "many.jsonl", sb.String())
+	var got []string
+	ws, err := Stream(path, Options{}, func(e Example) error {
+		if want := "text " + itoa(e.Line); e.Text != want {
+			t.Fatalf("line %d holds %q, want %q", e.Line, e.Text, want)
+		}
+		got = append(got, e.Text)
+		return nil
+	})
+	if err == nil || !errors.Is(err, ErrFormat) || !strings.Contains(err.Error(), "line "+itoa(bad)+":") {
+		t.Fatalf("error %v, want a format error at line %d", err, bad)
+	}
+	if !reflect.DeepEqual(got, wantTexts) {
+		t.Fatalf("%d texts before the bad line, want %d", len(got), len(wantTexts))
+	}
+	var warnLines []int
+	for _, w := range ws {
+		warnLines = append(warnLines, w.Line)
+	}
+	if !reflect.DeepEqual(warnLines, wantWarn[:min(len(wantWarn), maxWarnings)]) {
+		t.Fatalf("warnings at lines %v, want %v", warnLines, wantWarn)
+	}
+	// fn's error stops reading at its line.
+	stop := errors.New("stop")
+	count := 0
+	_, err = Stream(path, Options{}, func(e Example) error {
+		if count++; e.Line >= 1500 {
+			return stop
+		}
+		return nil
+	})
+	if err != stop || count != slices.Index(wantTexts, "text 1500")+1 {
+		t.Fatalf("fn's error: %v after %d texts", err, count)
+	}
+}
+
+func itoa(i int) string { return strconv.Itoa(i) }

@@ -35,6 +35,7 @@ type filterAccs struct {
 	key      []byte
 
 	recent     int          // texts counted in the small histogram counters
+	held       heldWindows  // texts not yet added to the accumulators
 	runner     *Runner      // the worker's runner, whose screens feed negatives
 	screens    []bankScreen // per bank
 	firstTexts textBuffer
@@ -114,13 +115,65 @@ func newFilterAccs(cfg cnn.Config, opt *ProfileOptions, ub []float32) *filterAcc
 	return a
 }
 
-// count notes one more text in the small histogram counters, and moves
-// them to the totals before a counter could overflow (a text adds at most
-// one to each filter's histogram).
-func (a *filterAccs) count() {
-	if a.recent++; a.recent == math.MaxUint16 {
+// heldTexts is the number of texts whose winning windows a worker holds
+// before it adds them to its filters' accumulators, one filter after the
+// other: each filter's histogram, top lists and samples then stay in the
+// cache for all of them, where text after text they would be fetched anew
+// for every filter. Each filter still sees its texts in the same order.
+const heldTexts = 128
+
+// heldWindows holds the winning windows of up to heldTexts texts.
+type heldWindows struct {
+	pre                    []float32 // [text][filter]
+	start                  []int32   // [text][filter]
+	ids                    []int32   // the texts' padded ids one after the other
+	ends                   []int     // end of each text in ids
+	pred, gold, text, half []int
+}
+
+// hold keeps the winning windows of one text (of the given gold class and
+// half) and adds the held texts to the accumulators once heldTexts are
+// held. Votes gives each filter's class.
+func (a *filterAccs) hold(p *Pass, text, gold, hf int, votes []int, classes int) {
+	h := &a.held
+	h.pre = append(h.pre, p.Pre...)
+	h.start = append(h.start, p.Start...)
+	h.ids = append(h.ids, p.IDs...)
+	h.ends = append(h.ends, len(h.ids))
+	h.pred = append(h.pred, p.Pred)
+	h.gold = append(h.gold, gold)
+	h.text = append(h.text, text)
+	h.half = append(h.half, hf)
+	if len(h.ends) == heldTexts {
+		a.addHeld(votes, classes)
+	}
+}
+
+// addHeld adds the held texts to every filter's accumulator, in the order
+// they were held, and empties the hold. The small histogram counters are
+// moved to the totals first when the held texts could make one overflow
+// (a text adds at most one to each filter's histogram).
+func (a *filterAccs) addHeld(votes []int, classes int) {
+	h := &a.held
+	n := len(h.ends)
+	if n == 0 {
+		return
+	}
+	if a.recent+n >= math.MaxUint16 {
 		a.flush()
 	}
+	a.recent += n
+	nf := len(a.filters)
+	for g := range a.filters {
+		fa := &a.filters[g]
+		lo := 0
+		for i, hi := range h.ends {
+			fa.add(h.pre[i*nf+g], int(h.start[i*nf+g]), h.ids[lo:hi], h.pred[i], g, h.text[i], h.gold[i], h.half[i], h.pred[i] == votes[g], classes)
+			lo = hi
+		}
+	}
+	h.pre, h.start, h.ids, h.ends = h.pre[:0], h.start[:0], h.ids[:0], h.ends[:0]
+	h.pred, h.gold, h.text, h.half = h.pred[:0], h.gold[:0], h.text[:0], h.half[:0]
 }
 
 // flush moves the small histogram counters to the totals.
@@ -153,22 +206,23 @@ func (a *filterAccs) attach(st *SlotTable, r *Runner) {
 
 // searchNegatives feeds one text to the negative n-gram search, or keeps it
 // aside while the band is not set.
-func (a *filterAccs) searchNegatives(st *SlotTable, p *Pass, text int, votes []int, opt *ProfileOptions) {
+func (a *filterAccs) searchNegatives(st *SlotTable, p *Pass, text int, votes []int, classes int, opt *ProfileOptions) {
 	if a.banded {
 		a.negatives(p, text)
 		return
 	}
 	a.firstTexts.add(p.IDs, text)
 	if len(a.firstTexts.ends) == phaseTexts {
-		a.setBands(st, votes, opt)
+		a.setBands(st, votes, classes, opt)
 	}
 }
 
 // setBands estimates each filter's selectivity threshold from the worker's
 // choosing half (at the bin edges of its fine histogram) and sets the band
 // [est/2, 2·est + 4 bins]; a filter without an estimate gets no band.
-func (a *filterAccs) setBands(st *SlotTable, votes []int, opt *ProfileOptions) {
+func (a *filterAccs) setBands(st *SlotTable, votes []int, classes int, opt *ProfileOptions) {
 	F := a.filtersF
+	a.addHeld(votes, classes)
 	a.flush()
 	a.lo, a.hi = make([]float32, len(a.filters)), make([]float32, len(a.filters))
 	for g := range a.filters {
@@ -277,9 +331,10 @@ func worse(a float32, ak string, b *ngramEntry) bool {
 	return ak > b.key
 }
 
-// add records filter g's winning window of one text (in half hf).
-func (fa *filterAcc) add(p *Pass, g, text, gold, hf int, inClass bool, classes int) {
-	a := p.Pre[g]
+// add records filter g's winning window of one text (in half hf): its
+// pre-activation a, its start t in the text's padded ids, and the text's
+// predicted class pred.
+func (fa *filterAcc) add(a float32, t int, ids []int32, pred, g, text, gold, hf int, inClass bool, classes int) {
 	if a <= 0 {
 		fa.notFired++
 		return
@@ -293,8 +348,7 @@ func (fa *filterAcc) add(p *Pass, g, text, gold, hf int, inClass bool, classes i
 	}
 	fa.hist[4*bin+2*hf+in]++
 	fa.top.push(actEntry{a: a, in: inClass, half: hf == 1}, fa.opt.ExactTop)
-	t := int(p.Start[g])
-	win := p.IDs[t : t+fa.width]
+	win := ids[t : t+fa.width]
 	j := stratum(bin)
 	prio := priority(fa.opt.Seed, text, g)
 	if b := fa.famBar[j]; b == 0 || prio < b {
@@ -307,7 +361,7 @@ func (fa *filterAcc) add(p *Pass, g, text, gold, hf int, inClass bool, classes i
 	}
 	fa.key = appendKey(fa.key[:0], win)
 	if e, ok := fa.index[string(fa.key)]; ok {
-		e.note(text, p.Pred, gold, fa.opt.Examples)
+		e.note(text, pred, gold, fa.opt.Examples)
 		return
 	}
 	var e *ngramEntry
@@ -328,7 +382,7 @@ func (fa *filterAcc) add(p *Pass, g, text, gold, hf int, inClass bool, classes i
 	// the entry left the index, so replacing an entry allocates nothing.
 	e.kb = append(e.kb[:0], fa.key...)
 	e.key, e.act = unsafe.String(unsafe.SliceData(e.kb), len(e.kb)), a
-	e.note(text, p.Pred, gold, fa.opt.Examples)
+	e.note(text, pred, gold, fa.opt.Examples)
 	fa.index[e.key] = e
 	pool.push(e)
 }

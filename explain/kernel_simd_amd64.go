@@ -277,8 +277,10 @@ func poolBankNeg512(pre []float32, start []int32, bias []float32, rows [][]float
 		bv := archsimd.LoadFloat32x16Slice(bias[c0:])
 		lo := archsimd.LoadFloat32x16Slice(sc.pc[0][c0:])
 		if lo.Less(pinf).ToBits()&lanes == 0 {
-			// No filter of the group searches: pool only.
-			poolGroup512(pre, start, bv, rows, w, nw, off, stride, c0)
+			// No filter of the group searches: pool only, or nothing.
+			if !sc.skipIdle {
+				poolGroup512(pre, start, bv, rows, w, nw, off, stride, c0)
+			}
 			continue
 		}
 		hi := archsimd.LoadFloat32x16Slice(sc.ac[1][c0:])
@@ -363,6 +365,9 @@ func poolBankNeg256(pre []float32, start []int32, bias []float32, rows [][]float
 		bv := archsimd.LoadFloat32x8Slice(bias[c0:])
 		lo := archsimd.LoadFloat32x8Slice(sc.pc[0][c0:])
 		searching := lo.Less(pinf).ToBits()&lanes != 0
+		if !searching && sc.skipIdle {
+			continue
+		}
 		best, arg := ninf, archsimd.Int32x8{}
 		tv := archsimd.Int32x8{}
 		for t := 0; t < nw; t++ {

@@ -65,6 +65,13 @@ type skyline struct {
 	// memory.
 	ps, as []float32
 	doms   []int32
+	// stair[i] is the k-th smallest a of items 0…i (+Inf while fewer
+	// than k): a window whose place comes after item i and whose a is
+	// at least stair[i] has k dominators. Evicting a window with k
+	// dominators leaves every value unchanged (its a is at least the
+	// k-th smallest of any prefix holding it).
+	stair []float32
+	heap  []float32 // scratch of restair
 	// fresh counts insertions since the screen was last updated.
 	fresh  int
 	lo, hi float32
@@ -162,8 +169,15 @@ func (s *skyline) add(kb []byte, a, p float32, text int) {
 	if p-a < s.dmin() {
 		return
 	}
+	// The items with a larger P all come first: when k of them have an a
+	// not larger, the window is dominated k times, and it is not kept
+	// (a kept window has fewer than k dominators).
+	above := countGreater(s.ps, p)
+	if above > 0 && s.stair[above-1] <= a {
+		return
+	}
 	key := unsafe.String(unsafe.SliceData(kb), len(kb))
-	at := s.place(key, a, p)
+	at := s.placeFrom(above, key, a, p)
 	if at < len(s.items) && s.ps[at] == p && s.as[at] == a && s.items[at].key == key {
 		e := s.items[at]
 		e.count++
@@ -174,16 +188,18 @@ func (s *skyline) add(kb []byte, a, p float32, text int) {
 	}
 	// Every item before at comes first in the order, so it dominates the
 	// window exactly when its a is not larger.
-	d := countAtMost(s.as[:at], a, s.k)
-	if d >= s.k {
+	if at > 0 && s.stair[at-1] <= a {
 		return
 	}
+	d := countAtMost(s.as[:at], a, s.k)
 	x := &skyEntry{key: string(kb), a: a, p: p, count: 1, examples: []int{text}} // kb is a reused buffer
 	s.noteBest(x)
 	s.items = slices.Insert(s.items, at, x)
 	s.ps = slices.Insert(s.ps, at, p)
 	s.as = slices.Insert(s.as, at, a)
 	s.doms = slices.Insert(s.doms, at, int32(d))
+	s.stair = slices.Insert(s.stair, at, 0)
+	s.restair(at)
 	s.fresh++
 	// The window dominates exactly the items after it with a not smaller.
 	full := false
@@ -197,6 +213,69 @@ func (s *skyline) add(kb []byte, a, p float32, text int) {
 	if full {
 		s.evictDominated(at + 1)
 	}
+}
+
+// restair updates stair after the window at item at, with a below
+// stair[at−1], was inserted. Only the values above a change: stair does
+// not grow along the items, so they end at the first old value at or
+// below a. There the k smallest a so far are rebuilt from the items
+// before at.
+func (s *skyline) restair(at int) {
+	a := s.as[at]
+	end := at + 1
+	for end < len(s.stair) && s.stair[end] > a {
+		end++
+	}
+	s.heap = kSmallest(s.heap[:0], s.as[:at], s.k)
+	s.stairFrom(at, end)
+}
+
+// stairFrom sets stair[from:to] with heap holding the k smallest a of the
+// items before from (all of them when fewer).
+func (s *skyline) stairFrom(from, to int) {
+	h := s.heap
+	for i := from; i < to; i++ {
+		h = pushSmallest(h, s.as[i], s.k)
+		if len(h) == s.k {
+			s.stair[i] = h[0]
+		} else {
+			s.stair[i] = posInf
+		}
+	}
+	s.heap = h
+}
+
+// kSmallest appends to h[:0] the k smallest values of vs as a max-heap
+// (see pushSmallest). It reads vs from the end: along the skyline a falls
+// with P, so from the end most values are larger than the heap's largest
+// and cost one comparison.
+func kSmallest(h, vs []float32, k int) []float32 {
+	i := len(vs) - 1
+	for ; len(h) < k && i >= 0; i-- {
+		h = pushSmallest(h, vs[i], k)
+	}
+	for ; i >= 0; i-- {
+		if v := vs[i]; v < h[0] {
+			h = pushSmallest(h, v, k)
+		}
+	}
+	return h
+}
+
+// countGreater is the number of values of the descending list ps above p
+// (a binary search without data-dependent branches).
+func countGreater(ps []float32, p float32) int {
+	lo, n := 0, len(ps)
+	for n > 0 {
+		half := n / 2
+		if ps[lo+half] > p {
+			lo += half + 1
+			n -= half + 1
+		} else {
+			n = half
+		}
+	}
+	return lo
 }
 
 // countAtMost counts the values of vs at or below a, stopping once the
@@ -227,7 +306,7 @@ func (s *skyline) evictDominated(i int) {
 	n := i
 	for ; i < len(s.items); i++ {
 		if s.doms[i] < int32(s.k) {
-			s.items[n], s.ps[n], s.as[n], s.doms[n] = s.items[i], s.ps[i], s.as[i], s.doms[i]
+			s.items[n], s.ps[n], s.as[n], s.doms[n], s.stair[n] = s.items[i], s.ps[i], s.as[i], s.doms[i], s.stair[i]
 			n++
 		}
 	}
@@ -237,23 +316,24 @@ func (s *skyline) evictDominated(i int) {
 // truncate keeps the first n items.
 func (s *skyline) truncate(n int) {
 	clear(s.items[n:])
-	s.items, s.ps, s.as, s.doms = s.items[:n], s.ps[:n], s.as[:n], s.doms[:n]
+	s.items, s.ps, s.as, s.doms, s.stair = s.items[:n], s.ps[:n], s.as[:n], s.doms[:n], s.stair[:n]
 }
 
-// place is where a window (key, a, p) goes in the order of the items
+// placeFrom is where a window (key, a, p) goes in the order of the items
 // (descending P, then ascending a, then ids): after every item that comes
-// first. The ids are compared only on a tie in P and a.
-func (s *skyline) place(key string, a, p float32) int {
-	lo, hi := 0, len(s.items)
+// first. The first lo items have a larger P. The ids are compared only on
+// a tie in P and a.
+func (s *skyline) placeFrom(lo int, key string, a, p float32) int {
+	hi := lo
+	for hi < len(s.ps) && s.ps[hi] == p {
+		hi++
+	}
 	for lo < hi {
 		mid := int(uint(lo+hi) >> 1)
 		var before bool
-		switch yp, ya := s.ps[mid], s.as[mid]; {
-		case yp != p:
-			before = yp > p
-		case ya != a:
+		if ya := s.as[mid]; ya != a {
 			before = ya < a
-		default:
+		} else {
 			before = s.items[mid].key < key
 		}
 		if before {
@@ -280,23 +360,19 @@ func (s *skyline) screen(sc *bankScreen, f int) {
 			n++
 		}
 	}
-	s.truncate(n)
+	if n < len(s.items) {
+		s.truncate(n)
+		s.heap = s.heap[:0]
+		s.stairFrom(0, n)
+	}
 	if n < s.k {
 		return
 	}
-	// Sweep down in P keeping the k smallest a seen (a max-heap).
-	heap := make([]float32, 0, s.k)
-	stair := make([][2]float32, 0, n-s.k+1)
-	for _, e := range s.items {
-		heap = pushSmallest(heap, e.a, s.k)
-		if len(heap) == s.k {
-			stair = append(stair, [2]float32{e.p, heap[0]})
-		}
-	}
+	// The staircase runs down in P from item k−1 on.
 	const k = corners - 2 // the first two corners hold the band
 	for i := range k {
-		c := stair[i*(len(stair)-1)/(k-1)]
-		sc.pc[2+i][f], sc.ac[2+i][f] = c[0], c[1]
+		j := s.k - 1 + i*(n-s.k)/(k-1)
+		sc.pc[2+i][f], sc.ac[2+i][f] = s.ps[j], s.stair[j]
 	}
 }
 

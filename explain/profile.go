@@ -342,18 +342,16 @@ func profile(ctx context.Context, m *cnn.Model, next TextSource, total int, reop
 			haveGold.Store(true)
 		}
 		hf := half(text)
-		a.count()
 		a.texts[hf]++
 		a.assigned[hf][p.Pred]++
-		for g := 0; g < nf; g++ {
-			a.filters[g].add(p, g, text, gd, hf, p.Pred == votes[g], cfg.Classes)
-		}
-		a.searchNegatives(st, p, text, votes, &opt)
+		a.hold(p, text, gd, hf, votes, cfg.Classes)
+		a.searchNegatives(st, p, text, votes, cfg.Classes, &opt)
 	})
 	if err != nil {
 		return nil, err
 	}
 	for _, a := range accs {
+		a.addHeld(votes, cfg.Classes)
 		a.flush()
 	}
 	sels := make([]Selectivity, nf)
@@ -399,9 +397,11 @@ func finishNegatives(ctx context.Context, st *SlotTable, accs []*filterAccs, sel
 				continue
 			}
 			a.exactScreens(theta, nil)
+			a.runner.negativesOnly = true
 			a.firstTexts.each(func(ids []int32, text int) {
 				a.negatives(a.runner.Run(ids), text)
 			})
+			a.runner.negativesOnly = false
 		}
 	})
 	exact := make([]bool, nf)
@@ -434,6 +434,7 @@ func finishNegatives(ctx context.Context, st *SlotTable, accs []*filterAccs, sel
 		a := accs[wk]
 		a.attach(st, r)
 		a.exactScreens(theta, again)
+		r.negativesOnly = true
 	}
 	_, err = scanStream(ctx, st, next, len(accs), nil, 0, nil, prepare, func(wk, text, _ int, p *Pass) {
 		accs[wk].negatives(p, text)

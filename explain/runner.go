@@ -38,9 +38,16 @@ type Runner struct {
 	// bank's negative-window screen into cands (see poolBankNegGo).
 	screen []bankScreen
 	cands  [][]negCand // [bank]
+	// negativesOnly, with screen, makes Run search only: banks and groups
+	// of filters whose screen passes nothing are skipped, and the Pass
+	// holds only the padded ids (the search again once the thresholds are
+	// known needs nothing else).
+	negativesOnly bool
 	// occPM and occSM are the occluder's prefix and suffix maxima, kept
 	// for the next explanation.
 	occPM, occSM [][]float32
+	// touched keeps touchRows's result, so that its reads are not dropped.
+	touched uint32
 }
 
 // NewRunner returns a Runner over st.
@@ -81,6 +88,9 @@ func (r *Runner) load(ids []int32) {
 	r.p.Len = n
 	r.p.IDs = r.x
 	for b := range st.banks {
+		if r.skipsBank(b) {
+			continue
+		}
 		tb := &st.banks[b]
 		k := tb.width * tb.filters
 		if cap(r.rows[b]) < n {
@@ -107,7 +117,38 @@ func (r *Runner) load(ids []int32) {
 			}
 		}
 		r.rows[b] = rows
+		r.touched ^= touchRows(rows)
 	}
+}
+
+// skipsBank reports whether Run leaves bank b out: in negativesOnly mode,
+// when its screen passes no window of any of its filters.
+func (r *Runner) skipsBank(b int) bool {
+	if !r.negativesOnly || r.screen == nil {
+		return false
+	}
+	for _, lo := range r.screen[b].pc[0] {
+		if lo != posInf {
+			return false
+		}
+	}
+	return true
+}
+
+// touchRows reads one value from every cache line of rows and returns
+// their bits combined. The reads are independent, so the processor has
+// many of the rows' cache misses under way at once, where the kernels,
+// which walk the rows a few lines at a time between their arithmetic,
+// would wait for most of them one after another: on a table much larger
+// than the cache this pass made the forward pass about a third faster.
+func touchRows(rows [][]float32) uint32 {
+	var x uint32
+	for _, row := range rows {
+		for i := 0; i < len(row); i += 16 { // 16 float32: a 64-byte line
+			x ^= math.Float32bits(row[i])
+		}
+	}
+	return x
 }
 
 // pool computes every window's pre-activation, max-pools and applies the head.
@@ -127,11 +168,19 @@ func (r *Runner) pool() {
 			r.win[b] = r.win[b][:nw*F]
 			win = r.win[b]
 		}
+		if r.skipsBank(b) {
+			r.cands[b] = r.cands[b][:0]
+			continue
+		}
 		if r.screen != nil {
+			r.screen[b].skipIdle = r.negativesOnly
 			r.cands[b] = poolBankNeg(r.p.Pre[b*F:(b+1)*F], r.p.Start[b*F:(b+1)*F], tb.bias, r.rows[b][:n], w, F, &r.screen[b], r.cands[b][:0])
 			continue
 		}
 		poolBank(r.p.Pre[b*F:(b+1)*F], r.p.Start[b*F:(b+1)*F], tb.bias, r.rows[b][:n], w, F, win)
+	}
+	if r.negativesOnly && r.screen != nil {
+		return
 	}
 	for g, a := range r.p.Pre {
 		if a > 0 && !m.IsMasked(g) {

@@ -135,7 +135,7 @@ func NewSlotTable(m *cnn.Model, opt TableOptions) (*SlotTable, error) {
 			return nil, fmt.Errorf("explain: bank %d does not match width %d", b, cfg.Widths[b])
 		}
 		F, w := cfg.Filters, c.Width
-		tb := tableBank{width: w, filters: F, bias: c.B, wt: make([]float32, w*F*d), t: make([]float32, n*w*F)}
+		tb := tableBank{width: w, filters: F, bias: c.B, wt: make([]float32, w*F*d), t: largeFloats(n * w * F)}
 		for f := 0; f < F; f++ {
 			for s := 0; s < w; s++ {
 				copy(tb.wt[(s*F+f)*d:(s*F+f+1)*d], c.W[(f*w+s)*d:(f*w+s+1)*d])
