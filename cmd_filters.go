@@ -174,7 +174,7 @@ func (o *filtersOptions) files() (outputs, inputs []outguard.File) {
 }
 
 func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
-	m, enc, err := openModel(o.model)
+	m, enc, err := openCNN(o.model)
 	if err != nil {
 		return err
 	}
