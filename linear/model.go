@@ -109,7 +109,7 @@ func Fit(ctx context.Context, train, dev Split, labels []string, cfg Config, sco
 	if err != nil {
 		return nil, err
 	}
-	X := vec.TransformAll(train.Docs)
+	d := newDesign(vec.TransformAll(train.Docs), len(vec.Features))
 	var cw []float64
 	if cfg.ClassWeight == "balanced" {
 		cw = BalancedWeights(train.Labels, k)
@@ -126,11 +126,11 @@ func Fit(ctx context.Context, train, dev Split, labels []string, cfg Config, sco
 		if progress != nil {
 			progress(Progress{C: C, Index: i, Total: len(cs)})
 		}
-		clf, err := fitC(ctx, X, train.Labels, k, len(vec.Features), cw, C, cfg.Solver, x0)
+		clf, x, err := fitC(ctx, d, train.Labels, k, cw, C, cfg.Solver, x0)
 		if err != nil {
 			return nil, err
 		}
-		x0 = clf.params()
+		x0 = x
 		if len(dev.Docs) == 0 {
 			m.Classifier = clf
 			break
