@@ -360,3 +360,23 @@ func TestObjectiveThreads(t *testing.T) {
 		}
 	}
 }
+
+// The rows that fitting computes from its own n-gram numbers equal
+// Transform's of the same texts, value for value (SpamAssassin mails,
+// 1- to 3-grams, raw and sublinear term frequencies, with a minimum
+// document frequency that drops n-grams).
+func TestFitRowsAreTransformRows(t *testing.T) {
+	docs, _ := spamDocs(t, 20)
+	for _, cfg := range []FeatureConfig{{MinN: 1, MaxN: 3, Sublinear: true}, {MinN: 2, MaxN: 3, MinDF: 2}} {
+		v, rows, err := fitVectorizer(docs, cfg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i, d := range docs {
+			want := v.Transform(d)
+			if !slices.Equal(rows[i].Index, want.Index) || !slices.Equal(rows[i].Value, want.Value) {
+				t.Fatalf("%+v: text %d: the fit's row differs from Transform's", cfg, i)
+			}
+		}
+	}
+}

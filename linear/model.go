@@ -105,11 +105,11 @@ func Fit(ctx context.Context, train, dev Split, labels []string, cfg Config, sco
 	if len(train.Docs) == 0 {
 		return nil, fmt.Errorf("linear: the training split is empty")
 	}
-	vec, err := FitVectorizer(train.Docs, cfg.Features)
+	vec, X, err := fitVectorizer(train.Docs, cfg.Features)
 	if err != nil {
 		return nil, err
 	}
-	d := newDesign(vec.TransformAll(train.Docs), len(vec.Features))
+	d := newDesign(X, len(vec.Features))
 	var cw []float64
 	if cfg.ClassWeight == "balanced" {
 		cw = BalancedWeights(train.Labels, k)
