@@ -53,8 +53,8 @@ type Trained struct {
 	VectorsFound int
 }
 
-// PhaseBaseline is the Progress phase reported once when TrainText, the CNN
-// trained, waits for the fit of the linear baseline.
+// PhaseBaseline is the Progress phase reported once before TrainText fits
+// the linear baseline.
 const PhaseBaseline = "baseline"
 
 // TrainText builds the vocabulary of train, encodes both splits, initialises
@@ -66,11 +66,9 @@ const PhaseBaseline = "baseline"
 // label of dev must occur in train. The command line and the window both
 // train through here, so they give the same model for the same recipe.
 //
-// With r.Baseline it also fits the linear baseline into Model.Baseline, on
-// a goroutine of its own while the CNN trains (its result does not depend
-// on the timing), and reports Phase PhaseBaseline once the CNN is trained,
-// before waiting for the fit to end; a cancellation during that wait keeps
-// the trained CNN and leaves Model.Baseline nil.
+// With r.Baseline it then fits the linear baseline into Model.Baseline
+// (reporting Phase PhaseBaseline first); a cancellation during that fit
+// keeps the trained CNN and leaves Model.Baseline nil.
 func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progress func(Progress)) (*Trained, error) {
 	if train == nil || len(train.Examples) == 0 {
 		return nil, fmt.Errorf("cnn: the training split is empty: give a file with labeled texts")
@@ -96,17 +94,6 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 	cfg, vecs, err := modelConfig(r, enc, len(train.Labels))
 	if err != nil {
 		return nil, err
-	}
-	var base *baselineFit
-	if r.Baseline != nil {
-		// The baseline needs only the splits and the tokenizer, so it is
-		// fitted beside the CNN, on the time its training leaves idle.
-		tc, err := r.Train.WithDefaults()
-		if err != nil {
-			return nil, err
-		}
-		base = startBaseline(ctx, enc.Tok, train, dev, *r.Baseline, tc)
-		defer base.stop()
 	}
 	out := &Trained{Encoder: enc}
 	var members []*Model
@@ -137,11 +124,11 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 	// Later texts are cut to the length the model was trained on, as the
 	// encoder of a loaded model (Model.Encoder) does.
 	out.Encoder.MaxTokens = m.Info.Recipe.MaxLen
-	if base != nil && !res.Cancelled {
+	if r.Baseline != nil && !res.Cancelled {
 		if progress != nil {
 			progress(Progress{Phase: PhaseBaseline})
 		}
-		if m.Baseline, err = base.wait(); err != nil {
+		if m.Baseline, err = fitBaseline(ctx, enc.Tok, train, dev, train.Labels, *r.Baseline, *m.Info.Recipe); err != nil {
 			if ctx.Err() != nil {
 				return out, nil // cancelled: the CNN is kept, the baseline left out
 			}
@@ -149,39 +136,6 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 		}
 	}
 	return out, nil
-}
-
-// baselineFit is a fit of the linear baseline running beside the CNN's
-// training.
-type baselineFit struct {
-	cancel context.CancelFunc
-	done   chan struct{}
-	model  *linear.Model
-	err    error
-}
-
-// startBaseline starts fitBaseline on its own goroutine, under a context
-// that ends with ctx or stop.
-func startBaseline(ctx context.Context, tok *corpus.Tokenizer, train, dev *corpus.Dataset, cfg linear.Config, tc TrainConfig) *baselineFit {
-	ctx, cancel := context.WithCancel(ctx)
-	b := &baselineFit{cancel: cancel, done: make(chan struct{})}
-	go func() {
-		defer close(b.done)
-		b.model, b.err = fitBaseline(ctx, tok, train, dev, train.Labels, cfg, tc)
-	}()
-	return b
-}
-
-// wait returns the fitted baseline once the fit ends.
-func (b *baselineFit) wait() (*linear.Model, error) {
-	<-b.done
-	return b.model, b.err
-}
-
-// stop ends the fit, if it still runs, and waits for it.
-func (b *baselineFit) stop() {
-	b.cancel()
-	<-b.done
 }
 
 // modelConfig is r.Model sized for enc's vocabulary and classes labels:
