@@ -174,13 +174,17 @@ func TestCLITableRatios(t *testing.T) {
 		{Impl: "torch-forward", Case: "predict a", Texts: 1000, Seconds: 5, Load: "1 1 1"}, // median 200/s
 		{Impl: "cli", Case: "train b", Texts: 10, Seconds: 4, PeakRSSMB: 100, Numbers: map[string]float64{"examples_per_second": 900}},
 		{Impl: "torch-text", Case: "train b", Texts: 10, Seconds: 30, PeakRSSMB: 250, Numbers: map[string]float64{"steady_eps": 100}},
+		{Impl: "cli", Case: "train b" + noBaseline, Texts: 10, Seconds: 3, PeakRSSMB: 90, Numbers: map[string]float64{"examples_per_second": 1000}},
 	}
 	var b bytes.Buffer
 	writeCLITable(&b, rs)
 	out := b.String()
 	for _, want := range []string{
 		"| predict a | texts/s (1000 texts; reference: eval forward alone, batches of 100) | 4000 | 200 | 20.00× |",
-		"| train b | wall seconds, 10 texts from text to saved model (tokenizing, dev evaluation each epoch) | 4.0 s | 30.0 s | 7.50× |",
+		"| train b | wall seconds, 10 texts from text to saved model (tokenizing, dev evaluation each epoch; the linear baseline's fit included) | 4.0 s | 30.0 s | 7.50× |",
+		// The run without the baseline is set beside the same reference.
+		"| train b, --baseline=false | wall seconds, 10 texts from text to saved model (tokenizing, dev evaluation each epoch; no linear baseline) | 3.0 s | 30.0 s | 10.00× |",
+		"| 1000 | 100 | 10.00× |",
 		"| 900 | 100 | 9.00× |",
 		"| train b | peak RSS MiB | 100 | 250 | 2.50× |",
 		"| 3/3 | 1.0,1.5,2.0 / 1,1,1 |",

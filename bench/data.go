@@ -10,7 +10,6 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
-	"strconv"
 	"strings"
 
 	"telltale/corpus"
@@ -252,27 +251,49 @@ func writeAtomic(path string, fill func(io.Writer) error) (err error) {
 // from a Zipf distribution (exponent 1.1, the order of the exponents
 // measured on English text; common practice, no source) over synthUniverse
 // word types, two classes, each text carrying one to three cue words of its
-// class so that the model has something to learn.
+// class so that the model has something to learn. The words are written in
+// letters only, so that the audit finds label-neutral words among the
+// common ones (it edits only words of letters in); and a collection
+// artifact is planted: the stamp synthStamp ends synthStampB of the texts
+// of label b and synthStampA of those of label a, a word of a fixed
+// position and an identifier's shape for the audit to find.
 const (
 	synthUniverse = 50000
 	synthMinLen   = 52
 	synthSpread   = 51
 	synthCues     = 20
+	synthStamp    = "tkt0417"
+	synthStampA   = 0.01
+	synthStampB   = 0.3
 )
+
+// synthWord is the name of word k of the universe: "w" followed by k in
+// bijective base 26 (a, …, z, aa, ab, …), so every name is distinct,
+// letters only and one token; word synthUniverse is the stamp.
+func synthWord(k int) string {
+	if k == synthUniverse {
+		return synthStamp
+	}
+	var b []byte
+	for k++; k > 0; k = (k - 1) / 26 {
+		b = append(b, byte('a'+(k-1)%26))
+	}
+	slices.Reverse(b)
+	return "w" + string(b)
+}
 
 // synthetic generates n seeded texts as ids, with the vocabulary built the
 // way corpus.BuildVocab orders it (most frequent first, ties by word; PAD
-// and UNK first). Word k of the universe is written "w<k>", a single token
-// for telltale's tokenizer.
+// and UNK first). Word k of the universe is written synthWord(k), a single
+// token for telltale's tokenizer.
 func synthetic(n int, seed uint64) *prepared {
 	rng := rand.New(rand.NewPCG(seed, seed^0x243f6a8885a308d3))
 	z := rand.NewZipf(rng, 1.1, 1, synthUniverse-1)
-	flat := make([]int32, 0, n*(synthMinLen+synthSpread/2+1))
+	flat := make([]int32, 0, n*(synthMinLen+synthSpread/2+2))
 	lens := make([]int, n)
 	labels := make([]int, n)
 	for i := range n {
 		l := synthMinLen + rng.IntN(synthSpread)
-		lens[i] = l
 		y := rng.IntN(2)
 		labels[i] = y
 		start := len(flat)
@@ -282,8 +303,12 @@ func synthetic(n int, seed uint64) *prepared {
 		for range 1 + rng.IntN(3) {
 			flat[start+rng.IntN(l)] = int32(1000 + y*synthCues + rng.IntN(synthCues))
 		}
+		if rng.Float64() < []float64{synthStampA, synthStampB}[y] {
+			flat = append(flat, synthUniverse)
+		}
+		lens[i] = len(flat) - start
 	}
-	counts := make([]int, synthUniverse)
+	counts := make([]int, synthUniverse+1)
 	for _, w := range flat {
 		counts[w]++
 	}
@@ -293,14 +318,14 @@ func synthetic(n int, seed uint64) *prepared {
 			seen = append(seen, int32(w))
 		}
 	}
-	name := func(w int32) string { return "w" + strconv.Itoa(int(w)) }
+	name := func(w int32) string { return synthWord(int(w)) }
 	slices.SortFunc(seen, func(a, b int32) int {
 		if counts[a] != counts[b] {
 			return counts[b] - counts[a]
 		}
 		return strings.Compare(name(a), name(b))
 	})
-	toID := make([]int32, synthUniverse)
+	toID := make([]int32, synthUniverse+1)
 	words := []string{corpus.PADWord, corpus.UNKWord}
 	for i, w := range seen {
 		toID[w] = int32(i + 2)

@@ -33,7 +33,8 @@
 // synthetic corpus, 20,000 texts and 1M lines for memory), train (the
 // whole SpamAssassin corpus, prepare -whole -texts, against reference.py
 // --text, the reference training script from the same text with its own
-// tokenizing), filters (1M synthetic texts), explain (texts of exactly 200
+// tokenizing; with the linear baseline and with --baseline=false, both set
+// beside the same reference runs), filters (1M synthetic texts), explain (texts of exactly 200
 // tokens written by explain-input; one text, then 100, so that the cost of
 // each explanation beyond the first is the difference) and audit
 // (SpamAssassin; 100k synthetic texts). Predict is set beside the

@@ -82,9 +82,13 @@ cli_part() {
     "$BIN" train --data "$s1/data.jsonl" --out "$s1/cli.tt" --epochs 2 --patience 0 --seed 1 --threads "$THREADS" --quiet
   fi
   head -n "$predict_n" "$sx/lines.txt" >"$sx/lines-$predict_n.txt"
+  # With and without the linear baseline (the reference has none), so the
+  # table shows what the baseline costs.
   for _ in $(seq "$reps"); do
     clirun "train SpamAssassin, epochs: $epochs" "$n_all" -stdout-json -- "$BIN" train --data "$sa/data.jsonl" \
       --out "$sa/cli.tt" --epochs "$epochs" --patience 0 --seed 1 --threads "$THREADS" --quiet --json
+    clirun "train SpamAssassin, epochs: $epochs, --baseline=false" "$n_all" -stdout-json -- "$BIN" train --data "$sa/data.jsonl" \
+      --out "$sa/cli-no-baseline.tt" --epochs "$epochs" --patience 0 --seed 1 --threads "$THREADS" --quiet --json --baseline=false
     clirun "train SpamAssassin, epochs: $epochs" "$n_all" -impl torch-text -stdout-json -- $PY bench/reference.py \
       --text "$sa/data.jsonl" --out "$sa/reference.pt" --epochs "$epochs" --threads "$THREADS"
   done

@@ -19,6 +19,10 @@ var cliGoals = map[string]string{
 	"predict-bytes": "bounded (streaming)",
 }
 
+// noBaseline ends the case of a train run with --baseline=false; its rows
+// are set beside the reference's runs of the case without it.
+const noBaseline = ", --baseline=false"
+
 // writeCLITable prints the "command line end to end" table of the results
 // of bench cli and of the reference's torch-forward and torch-text runs:
 // one group of rows per case (in the order first seen), medians of the runs,
@@ -38,12 +42,12 @@ func writeCLITable(w io.Writer, rs []cliResult) {
 	fmt.Fprintln(w, "|---|---|---|---|---|---|---|---|")
 	for _, c := range cases {
 		var ours, ref []cliResult
+		refCase := strings.TrimSuffix(c, noBaseline) // a train case without the baseline shares the reference's runs
 		for _, r := range rs {
 			switch {
-			case r.Case != c:
-			case r.Impl == "cli":
+			case r.Case == c && r.Impl == "cli":
 				ours = append(ours, r)
-			default:
+			case r.Case == refCase && r.Impl != "cli":
 				ref = append(ref, r)
 			}
 		}
@@ -73,8 +77,15 @@ func writeCLITable(w io.Writer, rs []cliResult) {
 			}
 			row("peak RSS MiB", num(cliMedian(ours, rss), ""), "", "", cliGoals["predict-bytes"], len(ours), 0, lo, "")
 		case "train":
+			if len(ours) == 0 {
+				continue // the reference's runs, shown with telltale's
+			}
 			o, r := cliMedian(ours, secs), cliMedian(ref, secs)
-			row(fmt.Sprintf("wall seconds, %d texts from text to saved model (tokenizing, dev evaluation each epoch)", texts), num(o, "s"), num(r, "s"), ratioText(r, o), cliGoals["train"], len(ours), len(ref), lo, lr)
+			what := "the linear baseline's fit included"
+			if strings.HasSuffix(c, noBaseline) {
+				what = "no linear baseline"
+			}
+			row(fmt.Sprintf("wall seconds, %d texts from text to saved model (tokenizing, dev evaluation each epoch; %s)", texts, what), num(o, "s"), num(r, "s"), ratioText(r, o), cliGoals["train"], len(ours), len(ref), lo, lr)
 			oe := cliMedian(ours, func(r cliResult) float64 { return r.Numbers["examples_per_second"] })
 			re := cliMedian(ref, func(r cliResult) float64 { return r.Numbers["steady_eps"] })
 			row("training examples/s, steady state (epochs after the first; the first alone with one epoch)", num(oe, ""), num(re, ""), ratioText(oe, re), cliGoals["train-eps"], len(ours), len(ref), lo, lr)

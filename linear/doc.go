@@ -24,9 +24,14 @@
 // of training texts of its class among k classes (scikit-learn's
 // class_weight="balanced"). The objective is minimised with gonum's L-BFGS
 // (Liu & Nocedal 1989, "On the limited memory BFGS method for large scale
-// optimization"). The regularisation strength C is chosen from a grid by a
-// score on the dev split (the caller's; the sentence CNN uses dev macro-F1,
-// as for its early stopping), the smallest C winning ties.
+// optimization") over an equivalent problem of fewer weights with the same
+// minimiser: features whose training columns are identical (the n-grams of
+// one training text alone) share one weight, and two classes take one
+// vector of weights w (class 1: w, class 0: −w). The regularisation
+// strength C is chosen from a grid by a score on the dev split (the
+// caller's; the sentence CNN uses dev macro-F1, as for its early
+// stopping), the smallest C winning ties, each C's fit starting from the
+// previous one's minimiser.
 //
 // Probabilities of the fitted model agree with scikit-learn's within 1e-3
 // on the same features (tested live against Debian's python3-sklearn).

@@ -192,24 +192,28 @@ func TestAgainstScikitLearn(t *testing.T) {
 func abs(x float64) float64 { return max(x, -x) }
 
 // The gradient of the objective against central finite differences
-// (gonum's diff/fd), with and without class weights.
+// (gonum's diff/fd), with and without class weights, for three classes
+// and for the two-class form (one column of weights).
 func TestObjectiveGradient(t *testing.T) {
 	rng := rand.New(rand.NewPCG(3, 4))
-	const k, p = 3, 7
-	X := make([]Row, 12)
-	y := make([]int, len(X))
-	for i := range X {
-		for j := int32(0); j < p; j++ {
-			if rng.IntN(2) == 0 {
-				X[i].Index = append(X[i].Index, j)
-				X[i].Value = append(X[i].Value, rng.NormFloat64())
+	const p = 7
+	for _, tc := range []struct {
+		k  int
+		cw []float64
+	}{{3, nil}, {3, []float64{0.5, 2, 1.25}}, {2, nil}, {2, []float64{0.5, 2}}} {
+		X := make([]Row, 12)
+		y := make([]int, len(X))
+		for i := range X {
+			for j := int32(0); j < p; j++ {
+				if rng.IntN(2) == 0 {
+					X[i].Index = append(X[i].Index, j)
+					X[i].Value = append(X[i].Value, rng.NormFloat64())
+				}
 			}
+			y[i] = i % tc.k
 		}
-		y[i] = i % k
-	}
-	for _, cw := range [][]float64{nil, {0.5, 2, 1.25}} {
-		o := newObjective(X, y, k, p, cw, 0.7, 1)
-		x := make([]float64, k*p+k)
+		o := newObjective(newDesign(X, p), y, tc.k, tc.cw, 0.7, 1)
+		x := make([]float64, o.dim())
 		for i := range x {
 			x[i] = rng.NormFloat64()
 		}
@@ -218,8 +222,61 @@ func TestObjectiveGradient(t *testing.T) {
 		want := fd.Gradient(nil, func(x []float64) float64 { o.eval(x); return o.f }, x, &fd.Settings{Formula: fd.Central, Step: 1e-5})
 		for i := range want {
 			if !testref.Close(got[i], want[i], 1e-7, 1e-6) {
-				t.Errorf("weights %v: gradient[%d] = %g, finite differences %g", cw, i, got[i], want[i])
+				t.Errorf("%d classes, weights %v: gradient[%d] = %g, finite differences %g", tc.k, tc.cw, i, got[i], want[i])
 			}
+		}
+	}
+}
+
+// The fit space (identical columns merged, two classes as one column of
+// weights) gives the objective of the k-class problem at the weights it
+// maps to, written out here from its definition (mean weighted
+// cross-entropy of the softmax plus ‖W‖²/(2·C·S)); features 1 and 2 copy
+// feature 0's column, feature 3 is in no text.
+func TestFitSpaceIsTheObjective(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	const p, C = 9, 0.3
+	for _, k := range []int{2, 3} {
+		X := make([]Row, 20)
+		y := make([]int, len(X))
+		cw := []float64{0.75, 1.5, 1}[:k]
+		for i := range X {
+			for j := int32(0); j < p; j++ {
+				if j == 0 && rng.IntN(2) == 0 {
+					v := rng.NormFloat64()
+					X[i].Index = append(X[i].Index, 0, 1, 2)
+					X[i].Value = append(X[i].Value, v, v, v)
+				}
+				if j > 3 && rng.IntN(3) == 0 {
+					X[i].Index = append(X[i].Index, j)
+					X[i].Value = append(X[i].Value, rng.NormFloat64())
+				}
+			}
+			y[i] = rng.IntN(k)
+		}
+		d := newDesign(X, p)
+		if d.p != p-2 {
+			t.Fatalf("%d classes: %d fit-space columns for %d features, 3 of them the same", k, d.p, p)
+		}
+		o := newObjective(d, y, k, cw, C, 1)
+		x := make([]float64, o.dim())
+		for i := range x {
+			x[i] = rng.NormFloat64()
+		}
+		o.eval(x)
+		clf := o.classifier(x)
+		var sum, s, pen float64
+		z := make([]float64, k)
+		for i, r := range X {
+			logits(clf.Coef, clf.Intercept, p, r, z)
+			sum += cw[y[i]] * (logSumExp(z) - z[y[i]])
+			s += cw[y[i]]
+		}
+		for _, v := range clf.Coef {
+			pen += v * v
+		}
+		if want := sum/s + pen/(2*C*s); !testref.Close(o.f, want, 0, 1e-12) {
+			t.Errorf("%d classes: fit-space objective %.15g, the k-class one at the same weights %.15g", k, o.f, want)
 		}
 	}
 }
@@ -271,39 +328,55 @@ func TestFitChoosesOnDevAndRoundTrips(t *testing.T) {
 	}
 }
 
-// Splitting the rows over threads changes the objective and its gradient
-// only by float64 rounding.
+// The objective and its gradient do not depend on the number of threads
+// evaluating them (every sum runs in an order fixed by the data).
 func TestObjectiveThreads(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 6))
-	const k, p, n = 3, 40, 1000
+	const k, p, n = 3, 5000, 1000
 	X := make([]Row, n)
 	y := make([]int, n)
 	for i := range X {
-		for j := int32(0); j < p; j++ {
-			if rng.IntN(4) == 0 {
-				X[i].Index = append(X[i].Index, j)
-				X[i].Value = append(X[i].Value, rng.NormFloat64())
-			}
+		for j := int32(0); j < p; j += int32(1 + rng.IntN(50)) {
+			X[i].Index = append(X[i].Index, j)
+			X[i].Value = append(X[i].Value, rng.NormFloat64())
 		}
 		y[i] = rng.IntN(k)
 	}
-	x := make([]float64, k*p+k)
+	d := newDesign(X, p)
+	one := newObjective(d, y, k, nil, 2, 1)
+	three := newObjective(d, y, k, nil, 2, 3)
+	x := make([]float64, one.dim())
 	for i := range x {
 		x[i] = rng.NormFloat64() / 4
 	}
-	one := newObjective(X, y, k, p, nil, 2, 1)
-	three := newObjective(X, y, k, p, nil, 2, 3)
-	if len(three.parts) != 3 {
-		t.Fatalf("%d parts for 3 threads and %d rows", len(three.parts), n)
-	}
 	one.eval(x)
 	three.eval(x)
-	if !testref.Close(one.f, three.f, 0, 1e-12) {
-		t.Errorf("objective %g on one thread, %g on three", one.f, three.f)
+	if one.f != three.f {
+		t.Errorf("objective %.17g on one thread, %.17g on three", one.f, three.f)
 	}
 	for i := range one.g {
-		if !testref.Close(one.g[i], three.g[i], 1e-15, 1e-10) {
-			t.Errorf("gradient[%d] %g on one thread, %g on three", i, one.g[i], three.g[i])
+		if one.g[i] != three.g[i] {
+			t.Fatalf("gradient[%d] %.17g on one thread, %.17g on three", i, one.g[i], three.g[i])
+		}
+	}
+}
+
+// The rows that fitting computes from its own n-gram numbers equal
+// Transform's of the same texts, value for value (SpamAssassin mails,
+// 1- to 3-grams, raw and sublinear term frequencies, with a minimum
+// document frequency that drops n-grams).
+func TestFitRowsAreTransformRows(t *testing.T) {
+	docs, _ := spamDocs(t, 20)
+	for _, cfg := range []FeatureConfig{{MinN: 1, MaxN: 3, Sublinear: true}, {MinN: 2, MaxN: 3, MinDF: 2}} {
+		v, rows, err := fitVectorizer(docs, cfg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i, d := range docs {
+			want := v.Transform(d)
+			if !slices.Equal(rows[i].Index, want.Index) || !slices.Equal(rows[i].Value, want.Value) {
+				t.Fatalf("%+v: text %d: the fit's row differs from Transform's", cfg, i)
+			}
 		}
 	}
 }

@@ -105,11 +105,11 @@ func Fit(ctx context.Context, train, dev Split, labels []string, cfg Config, sco
 	if len(train.Docs) == 0 {
 		return nil, fmt.Errorf("linear: the training split is empty")
 	}
-	vec, err := FitVectorizer(train.Docs, cfg.Features)
+	vec, X, err := fitVectorizer(train.Docs, cfg.Features)
 	if err != nil {
 		return nil, err
 	}
-	X := vec.TransformAll(train.Docs)
+	d := newDesign(X, len(vec.Features))
 	var cw []float64
 	if cfg.ClassWeight == "balanced" {
 		cw = BalancedWeights(train.Labels, k)
@@ -126,11 +126,11 @@ func Fit(ctx context.Context, train, dev Split, labels []string, cfg Config, sco
 		if progress != nil {
 			progress(Progress{C: C, Index: i, Total: len(cs)})
 		}
-		clf, err := fitC(ctx, X, train.Labels, k, len(vec.Features), cw, C, cfg.Solver, x0)
+		clf, x, err := fitC(ctx, d, train.Labels, k, cw, C, cfg.Solver, x0)
 		if err != nil {
 			return nil, err
 		}
-		x0 = clf.params()
+		x0 = x
 		if len(dev.Docs) == 0 {
 			m.Classifier = clf
 			break

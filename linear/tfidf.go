@@ -1,6 +1,7 @@
 package linear
 
 import (
+	"encoding/binary"
 	"fmt"
 	"math"
 	"slices"
@@ -47,41 +48,161 @@ type Vectorizer struct {
 // FitVectorizer builds the features of the training texts docs (each a list
 // of tokens).
 func FitVectorizer(docs [][]string, cfg FeatureConfig) (*Vectorizer, error) {
+	v, _, err := fitVectorizer(docs, cfg)
+	return v, err
+}
+
+// fitVectorizer builds the features of docs and returns, with the
+// vectorizer, the TF-IDF rows of docs (equal to Transform's).
+func fitVectorizer(docs [][]string, cfg FeatureConfig) (*Vectorizer, []Row, error) {
 	cfg, err := cfg.withDefaults()
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if len(docs) == 0 {
-		return nil, fmt.Errorf("linear: no training texts")
+		return nil, nil, fmt.Errorf("linear: no training texts")
 	}
-	df := map[string]int{}
-	seen := map[string]bool{}
-	for _, toks := range docs {
-		clear(seen)
-		eachNGram(toks, cfg.MinN, cfg.MaxN, func(g string) {
-			if !seen[g] {
-				seen[g] = true
-				df[g]++
-			}
-		})
+	gt := newGramTable()
+	docGrams := make([][]int32, len(docs))
+	for d, toks := range docs {
+		docGrams[d] = gt.add(toks, int32(d), cfg.MinN, cfg.MaxN)
 	}
 	v := &Vectorizer{Config: cfg}
-	for g, c := range df {
-		if c >= cfg.MinDF {
-			v.Features = append(v.Features, g)
+	var kept []int32 // grams kept as features
+	for g, df := range gt.df {
+		if int(df) >= cfg.MinDF {
+			kept = append(kept, int32(g))
 		}
 	}
-	if len(v.Features) == 0 {
-		return nil, fmt.Errorf("linear: no n-gram occurs in %d or more training texts: lower the minimum document frequency", cfg.MinDF)
+	if len(kept) == 0 {
+		return nil, nil, fmt.Errorf("linear: no n-gram occurs in %d or more training texts: lower the minimum document frequency", cfg.MinDF)
 	}
-	slices.Sort(v.Features)
+	texts := make([]string, gt.grams())
+	for _, g := range kept {
+		texts[g] = gt.text(g)
+	}
+	slices.SortFunc(kept, func(a, b int32) int { return strings.Compare(texts[a], texts[b]) })
+	feature := make([]int32, gt.grams())
+	for g := range feature {
+		feature[g] = -1
+	}
 	n := float64(len(docs))
-	v.IDF = make([]float64, len(v.Features))
-	for j, g := range v.Features {
-		v.IDF[j] = math.Log((1+n)/(1+float64(df[g]))) + 1
+	v.Features, v.IDF = make([]string, len(kept)), make([]float64, len(kept))
+	for j, g := range kept {
+		feature[g] = int32(j)
+		v.Features[j] = texts[g]
+		v.IDF[j] = math.Log((1+n)/(1+float64(gt.df[g]))) + 1
 	}
 	v.buildIndex()
-	return v, nil
+	rows := make([]Row, len(docs))
+	var ids []int32
+	for d, grams := range docGrams {
+		ids = ids[:0]
+		for _, g := range grams {
+			if j := feature[g]; j >= 0 {
+				ids = append(ids, j)
+			}
+		}
+		rows[d] = v.row(ids)
+	}
+	return v, rows, nil
+}
+
+// gramTable numbers the words and the n-grams of the training texts and
+// counts the texts each n-gram occurs in.
+type gramTable struct {
+	word      map[string]int32 // word → its number
+	words     []string
+	unigram   []int32          // word number → its 1-gram's number, or -1
+	multi     map[string]int32 // the word numbers of an n-gram (n ≥ 2), 4 bytes each → its number
+	gramWords []int32          // the word numbers of gram g: gramWords[start[g]:start[g+1]]
+	start     []int32
+	df        []int32 // by gram
+	lastDoc   []int32 // by gram: the last text it was counted in
+	ids       []int32
+	key       []byte
+}
+
+func newGramTable() *gramTable {
+	return &gramTable{word: map[string]int32{}, multi: map[string]int32{}, start: []int32{0}}
+}
+
+func (t *gramTable) grams() int { return len(t.df) }
+
+// add counts the n-grams (n in lo..hi) of text d, whose tokens are toks,
+// and returns their numbers, one per occurrence.
+func (t *gramTable) add(toks []string, d int32, lo, hi int) []int32 {
+	t.ids = t.ids[:0]
+	for _, w := range toks {
+		id, ok := t.word[w]
+		if !ok {
+			id = int32(len(t.words))
+			t.word[w] = id
+			t.words = append(t.words, w)
+			t.unigram = append(t.unigram, -1)
+		}
+		t.ids = append(t.ids, id)
+	}
+	var out []int32
+	for n := lo; n <= hi; n++ {
+		for i := 0; i+n <= len(t.ids); i++ {
+			g := t.gram(t.ids[i : i+n])
+			out = append(out, g)
+			if t.lastDoc[g] != d {
+				t.lastDoc[g] = d
+				t.df[g]++
+			}
+		}
+	}
+	return out
+}
+
+// gram returns the number of the n-gram of the words ids, numbering it if
+// it is new.
+func (t *gramTable) gram(ids []int32) int32 {
+	if len(ids) == 1 {
+		if g := t.unigram[ids[0]]; g >= 0 {
+			return g
+		}
+		g := t.newGram(ids)
+		t.unigram[ids[0]] = g
+		return g
+	}
+	t.key = t.key[:0]
+	for _, id := range ids {
+		t.key = binary.LittleEndian.AppendUint32(t.key, uint32(id))
+	}
+	if g, ok := t.multi[string(t.key)]; ok {
+		return g
+	}
+	g := t.newGram(ids)
+	t.multi[string(t.key)] = g
+	return g
+}
+
+func (t *gramTable) newGram(ids []int32) int32 {
+	g := int32(len(t.df))
+	t.gramWords = append(t.gramWords, ids...)
+	t.start = append(t.start, int32(len(t.gramWords)))
+	t.df = append(t.df, 0)
+	t.lastDoc = append(t.lastDoc, -1)
+	return g
+}
+
+// text is gram g's words joined by one space.
+func (t *gramTable) text(g int32) string {
+	ids := t.gramWords[t.start[g]:t.start[g+1]]
+	if len(ids) == 1 {
+		return t.words[ids[0]]
+	}
+	var b strings.Builder
+	for i, id := range ids {
+		if i > 0 {
+			b.WriteByte(' ')
+		}
+		b.WriteString(t.words[id])
+	}
+	return b.String()
 }
 
 func (v *Vectorizer) buildIndex() {
@@ -92,23 +213,17 @@ func (v *Vectorizer) buildIndex() {
 }
 
 // eachNGram calls fn with every n-gram of toks for n in lo..hi, the tokens
-// joined by one space, in text order for each n.
-func eachNGram(toks []string, lo, hi int, fn func(string)) {
-	var b strings.Builder
+// joined by one space, in text order for each n. The bytes passed to fn
+// are valid until it returns.
+func eachNGram(toks []string, lo, hi int, fn func([]byte)) {
+	var b []byte
 	for n := lo; n <= hi; n++ {
 		for i := 0; i+n <= len(toks); i++ {
-			if n == 1 {
-				fn(toks[i])
-				continue
+			b = append(b[:0], toks[i]...)
+			for k := i + 1; k < i+n; k++ {
+				b = append(append(b, ' '), toks[k]...)
 			}
-			b.Reset()
-			for k := i; k < i+n; k++ {
-				if k > i {
-					b.WriteByte(' ')
-				}
-				b.WriteString(toks[k])
-			}
-			fn(b.String())
+			fn(b)
 		}
 	}
 }
@@ -123,24 +238,39 @@ type Row struct {
 // Transform returns the TF-IDF row of one text's tokens; n-grams that are
 // not features are ignored, so a text of unseen n-grams gives an empty row.
 func (v *Vectorizer) Transform(toks []string) Row {
-	counts := map[int32]int{}
-	eachNGram(toks, v.Config.MinN, v.Config.MaxN, func(g string) {
-		if j, ok := v.index[g]; ok {
-			counts[j]++
+	var ids []int32
+	eachNGram(toks, v.Config.MinN, v.Config.MaxN, func(g []byte) {
+		if j, ok := v.index[string(g)]; ok {
+			ids = append(ids, j)
 		}
 	})
-	r := Row{Index: make([]int32, 0, len(counts)), Value: make([]float64, 0, len(counts))}
-	for j := range counts {
-		r.Index = append(r.Index, j)
+	return v.row(ids)
+}
+
+// row is the TF-IDF row of a text whose n-grams are the features ids (one
+// per occurrence, in any order; ids is sorted in place).
+func (v *Vectorizer) row(ids []int32) Row {
+	slices.Sort(ids)
+	distinct := 0
+	for i, j := range ids {
+		if i == 0 || j != ids[i-1] {
+			distinct++
+		}
 	}
-	slices.Sort(r.Index)
+	r := Row{Index: make([]int32, 0, distinct), Value: make([]float64, 0, distinct)}
 	var ss float64
-	for _, j := range r.Index {
-		tf := float64(counts[j])
+	for i := 0; i < len(ids); {
+		j, count := ids[i], 1
+		for i+count < len(ids) && ids[i+count] == j {
+			count++
+		}
+		i += count
+		tf := float64(count)
 		if v.Config.Sublinear {
 			tf = 1 + math.Log(tf)
 		}
 		x := tf * v.IDF[j]
+		r.Index = append(r.Index, j)
 		r.Value = append(r.Value, x)
 		ss += x * x
 	}
