@@ -51,63 +51,69 @@ func writeCLITable(w io.Writer, rs []cliResult) {
 				ref = append(ref, r)
 			}
 		}
-		row := func(measure, o, r, ratio, goal string, no, nr int, lo, lr string) {
-			fmt.Fprintf(w, "| %s | %s | %s | %s | %s | %s | %d/%d | %s / %s |\n", c, measure, o, r, ratio, goal, no, nr, lo, lr)
+		writeCLICase(w, c, ours, ref)
+	}
+}
+
+// writeCLICase prints the rows of case c from telltale's runs ours and the
+// reference's runs ref.
+func writeCLICase(w io.Writer, c string, ours, ref []cliResult) {
+	row := func(measure, o, r, ratio, goal string, no, nr int, lo, lr string) {
+		fmt.Fprintf(w, "| %s | %s | %s | %s | %s | %s | %d/%d | %s / %s |\n", c, measure, o, r, ratio, goal, no, nr, lo, lr)
+	}
+	lo, lr := cliLoads(ours), cliLoads(ref)
+	secs := func(r cliResult) float64 { return r.Seconds }
+	rate := func(r cliResult) float64 {
+		if r.Seconds <= 0 {
+			return 0
 		}
-		lo, lr := cliLoads(ours), cliLoads(ref)
-		secs := func(r cliResult) float64 { return r.Seconds }
-		rate := func(r cliResult) float64 {
-			if r.Seconds <= 0 {
-				return 0
-			}
-			return float64(r.Texts) / r.Seconds
+		return float64(r.Texts) / r.Seconds
+	}
+	rss := func(r cliResult) float64 { return r.PeakRSSMB }
+	texts := 0
+	if len(ours) > 0 {
+		texts = ours[0].Texts
+	}
+	switch cmd, _, _ := strings.Cut(c, " "); cmd {
+	case "predict":
+		o, r := cliMedian(ours, rate), cliMedian(ref, rate)
+		if len(ref) == 0 {
+			row(fmt.Sprintf("texts/s (%d texts)", texts), num(o, ""), "", "", "", len(ours), 0, lo, "")
+		} else {
+			row(fmt.Sprintf("texts/s (%d texts; reference: eval forward alone, batches of 100)", texts), num(o, ""), num(r, ""), ratioText(o, r), cliGoals["predict"], len(ours), len(ref), lo, lr)
 		}
-		rss := func(r cliResult) float64 { return r.PeakRSSMB }
-		texts := 0
-		if len(ours) > 0 {
-			texts = ours[0].Texts
+		row("peak RSS MiB", num(cliMedian(ours, rss), ""), "", "", cliGoals["predict-bytes"], len(ours), 0, lo, "")
+	case "train":
+		if len(ours) == 0 {
+			return // the reference's runs, shown with telltale's
 		}
-		switch cmd, _, _ := strings.Cut(c, " "); cmd {
-		case "predict":
-			o, r := cliMedian(ours, rate), cliMedian(ref, rate)
-			if len(ref) == 0 {
-				row(fmt.Sprintf("texts/s (%d texts)", texts), num(o, ""), "", "", "", len(ours), 0, lo, "")
-			} else {
-				row(fmt.Sprintf("texts/s (%d texts; reference: eval forward alone, batches of 100)", texts), num(o, ""), num(r, ""), ratioText(o, r), cliGoals["predict"], len(ours), len(ref), lo, lr)
-			}
-			row("peak RSS MiB", num(cliMedian(ours, rss), ""), "", "", cliGoals["predict-bytes"], len(ours), 0, lo, "")
-		case "train":
-			if len(ours) == 0 {
-				continue // the reference's runs, shown with telltale's
-			}
-			o, r := cliMedian(ours, secs), cliMedian(ref, secs)
-			what := "the linear baseline's fit included"
-			if strings.HasSuffix(c, noBaseline) {
-				what = "no linear baseline"
-			}
-			row(fmt.Sprintf("wall seconds, %d texts from text to saved model (tokenizing, dev evaluation each epoch; %s)", texts, what), num(o, "s"), num(r, "s"), ratioText(r, o), cliGoals["train"], len(ours), len(ref), lo, lr)
-			oe := cliMedian(ours, func(r cliResult) float64 { return r.Numbers["examples_per_second"] })
-			re := cliMedian(ref, func(r cliResult) float64 { return r.Numbers["steady_eps"] })
-			row("training examples/s, steady state (epochs after the first; the first alone with one epoch)", num(oe, ""), num(re, ""), ratioText(oe, re), cliGoals["train-eps"], len(ours), len(ref), lo, lr)
-			if t := cliMedian(ref, func(r cliResult) float64 { return r.Numbers["tokenize_seconds"] }); t > 0 {
-				row("reference's tokenizing and vocabulary, seconds", "", num(t, "s"), "", "", 0, len(ref), "", lr)
-			}
-			row("peak RSS MiB", num(cliMedian(ours, rss), ""), num(cliMedian(ref, rss), ""), ratioText(cliMedian(ref, rss), cliMedian(ours, rss)), "", len(ours), len(ref), lo, lr)
-		case "explain":
-			one, many := splitByTexts(ours)
-			so, sm := cliMedian(one, secs), cliMedian(many, secs)
-			row("one text: process wall ms (start and model load included)", num(1000*so, ""), "", "", "", len(one), 0, cliLoads(one), "")
-			if len(many) > 0 && len(one) > 0 {
-				k := many[0].Texts
-				row(fmt.Sprintf("ms per text beyond the first: (wall of %d texts − wall of 1) / %d", k, k-1),
-					num(1000*(sm-so)/float64(k-1), ""), "", "", cliGoals["explain"], len(many), 0, cliLoads(many), "")
-			}
-		default: // filters, audit
-			o := cliMedian(ours, secs)
-			row(fmt.Sprintf("wall seconds (%d texts)", texts), num(o, "s"), "", "", cliGoals[cmd], len(ours), 0, lo, "")
-			row("texts/s", num(cliMedian(ours, rate), ""), "", "", "", len(ours), 0, lo, "")
-			row("peak RSS MiB", num(cliMedian(ours, rss), ""), "", "", "", len(ours), 0, lo, "")
+		o, r := cliMedian(ours, secs), cliMedian(ref, secs)
+		what := "the linear baseline's fit included"
+		if strings.HasSuffix(c, noBaseline) {
+			what = "no linear baseline"
 		}
+		row(fmt.Sprintf("wall seconds, %d texts from text to saved model (tokenizing, dev evaluation each epoch; %s)", texts, what), num(o, "s"), num(r, "s"), ratioText(r, o), cliGoals["train"], len(ours), len(ref), lo, lr)
+		oe := cliMedian(ours, func(r cliResult) float64 { return r.Numbers["examples_per_second"] })
+		re := cliMedian(ref, func(r cliResult) float64 { return r.Numbers["steady_eps"] })
+		row("training examples/s, steady state (epochs after the first; the first alone with one epoch)", num(oe, ""), num(re, ""), ratioText(oe, re), cliGoals["train-eps"], len(ours), len(ref), lo, lr)
+		if t := cliMedian(ref, func(r cliResult) float64 { return r.Numbers["tokenize_seconds"] }); t > 0 {
+			row("reference's tokenizing and vocabulary, seconds", "", num(t, "s"), "", "", 0, len(ref), "", lr)
+		}
+		row("peak RSS MiB", num(cliMedian(ours, rss), ""), num(cliMedian(ref, rss), ""), ratioText(cliMedian(ref, rss), cliMedian(ours, rss)), "", len(ours), len(ref), lo, lr)
+	case "explain":
+		one, many := splitByTexts(ours)
+		so, sm := cliMedian(one, secs), cliMedian(many, secs)
+		row("one text: process wall ms (start and model load included)", num(1000*so, ""), "", "", "", len(one), 0, cliLoads(one), "")
+		if len(many) > 0 && len(one) > 0 {
+			k := many[0].Texts
+			row(fmt.Sprintf("ms per text beyond the first: (wall of %d texts − wall of 1) / %d", k, k-1),
+				num(1000*(sm-so)/float64(k-1), ""), "", "", cliGoals["explain"], len(many), 0, cliLoads(many), "")
+		}
+	default: // filters, audit
+		o := cliMedian(ours, secs)
+		row(fmt.Sprintf("wall seconds (%d texts)", texts), num(o, "s"), "", "", cliGoals[cmd], len(ours), 0, lo, "")
+		row("texts/s", num(cliMedian(ours, rate), ""), "", "", "", len(ours), 0, lo, "")
+		row("peak RSS MiB", num(cliMedian(ours, rss), ""), "", "", "", len(ours), 0, lo, "")
 	}
 }
 
