@@ -40,7 +40,7 @@ type filterAccs struct {
 	screens    []bankScreen // per bank
 	firstTexts textBuffer
 	banded     bool      // the band is set: texts go straight to the search
-	lo, hi     []float32 // per filter: the band (lo = +Inf: none)
+	lo, hi     []float32 // per filter: the band of thresholds searched
 }
 
 // phaseTexts is the number of texts a worker keeps aside before it sets
@@ -219,28 +219,46 @@ func (a *filterAccs) searchNegatives(st *SlotTable, p *Pass, text int, votes []i
 
 // setBands estimates each filter's selectivity threshold from the worker's
 // choosing half (at the bin edges of its fine histogram) and sets the band
-// [est/2, 2·est + 4 bins]; a filter without an estimate gets no band.
+// [est/2, 2·est + 4 bins]. A filter without an estimate (its fired
+// windows never reach the purity asked) gets the band of every threshold,
+// [0, +Inf), when at most one filter in widestBands lacks one: its
+// final threshold, an activation of a fired window or a bin edge, is
+// never negative, so it lies inside, where no band would make the whole
+// corpus be read again for it. Such a band lets more windows through and
+// keeps more of them, so with more such filters they get no band.
 func (a *filterAccs) setBands(st *SlotTable, votes []int, classes int, opt *ProfileOptions) {
 	F := a.filtersF
 	a.addHeld(votes, classes)
 	a.flush()
 	a.lo, a.hi = make([]float32, len(a.filters)), make([]float32, len(a.filters))
+	none := 0
 	for g := range a.filters {
 		fa := &a.filters[g]
-		lo, hi := posInf, negInf
+		a.lo[g], a.hi[g] = posInf, negInf
 		if a.texts[0] > 0 {
 			base := float64(a.assigned[0][votes[g]]) / float64(a.texts[0])
 			if est, ok := histThreshold(fa.total, 0, fa.scale, base+opt.Selective*(1-base)); ok {
-				lo, hi = est/2, 2*est+4/fa.scale
+				a.lo[g], a.hi[g] = est/2, 2*est+4/fa.scale
+				continue
 			}
 		}
-		a.lo[g], a.hi[g] = lo, hi
-		a.screens[g/F].band(g%F, lo, hi)
-		fa.sky.setBand(lo, hi)
+		none++
+	}
+	for g := range a.filters {
+		if a.lo[g] == posInf && none*widestBands <= len(a.filters) {
+			a.lo[g], a.hi[g] = 0, posInf
+		}
+		a.screens[g/F].band(g%F, a.lo[g], a.hi[g])
+		a.filters[g].sky.setBand(a.lo[g], a.hi[g])
 	}
 	a.banded = true
 	a.runner.screen = a.screens
 }
+
+// widestBands: filters get the band of every threshold only when at most
+// one in widestBands lacks an estimate (see setBands; a variable for the
+// tests).
+var widestBands = 32
 
 // histThreshold is the lowest bin edge of the fine histogram hist
 // ([bin][half][in-class]) at which the windows of half hf at or above it

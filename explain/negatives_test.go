@@ -110,16 +110,18 @@ func checkNegatives(t *testing.T, m *cnn.Model, ids [][]int32, pr *FilterProfile
 // Negative n-grams checked by brute-force re-scoring of every corpus window,
 // on random models and corpora, with one to three workers, few and many
 // n-grams kept, and bands set after a handful of texts so that the banded
-// search, the texts kept aside and the search over the corpus read again
-// all run.
+// search, the band of every threshold for filters without an estimate,
+// the texts kept aside and the search over the corpus read again all run.
 func TestNegativesBruteForce(t *testing.T) {
 	defer func(n int) { phaseTexts = n }(phaseTexts)
+	defer func(n int) { widestBands = n }(widestBands)
 	rng := rand.New(rand.NewPCG(50, 50))
 	found := 0
 	for trial := 0; trial < 30; trial++ {
 		m, _ := tableCase(rng, trial)
 		ids, gold := randomCorpus(rng, m, 100+rng.IntN(300), 14)
 		phaseTexts = []int{2048, 5, 20}[trial%3]
+		widestBands = []int{32, 1}[trial/3%2] // 1: every filter without an estimate
 		k := []int{1, 3, 10}[trial%3]
 		opt := ProfileOptions{Negatives: k, Workers: 1 + trial%3, Examples: 2}
 		prof, err := Profile(context.Background(), m, ids, gold, opt)
