@@ -1,7 +1,5 @@
 package explain
 
-import "telltale/cnn"
-
 // The forward pass of Explain when it lists kept-down windows: the pooling
 // of every bank (poolBank's results, bit for bit) and, in the same reading
 // of the table rows, each filter's two windows with the largest positive
@@ -40,7 +38,6 @@ func (k *keptTop) best(f int, skip int32) (float32, int32) {
 // screen) that also fills top with every filter's two best positive parts.
 func poolExplain(r *Runner, top *keptTop) {
 	st := r.st
-	m := st.m
 	n := r.p.Len
 	for b := range st.banks {
 		tb := &st.banks[b]
@@ -52,16 +49,7 @@ func poolExplain(r *Runner, top *keptTop) {
 		r.win[b] = r.win[b][:nw*F]
 		poolKept(r.p.Pre[b*F:(b+1)*F], r.p.Start[b*F:(b+1)*F], tb.bias, r.rows[b][:n], w, F, r.win[b], top.bank(b*F, (b+1)*F))
 	}
-	for g, a := range r.p.Pre {
-		if a > 0 && !m.IsMasked(g) {
-			r.p.Pooled[g] = a
-		} else {
-			r.p.Pooled[g] = 0
-		}
-	}
-	m.Head(r.p.Pooled, r.p.Logits)
-	cnn.Softmax(r.p.Logits, r.p.Probs)
-	r.p.Pred = argmax32(r.p.Logits)
+	r.head()
 }
 
 // poolKeptGo is poolBankGo (pre, start and the kept windows win, which must

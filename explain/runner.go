@@ -154,7 +154,6 @@ func touchRows(rows [][]float32) uint32 {
 // pool computes every window's pre-activation, max-pools and applies the head.
 func (r *Runner) pool() {
 	st := r.st
-	m := st.m
 	n := r.p.Len
 	for b := range st.banks {
 		tb := &st.banks[b]
@@ -182,6 +181,13 @@ func (r *Runner) pool() {
 	if r.negativesOnly && r.screen != nil {
 		return
 	}
+	r.head()
+}
+
+// head turns the pooled maxima in r.p.Pre into the pooled units (ReLU,
+// masked filters zero), the logits, the probabilities and the prediction.
+func (r *Runner) head() {
+	m := r.st.m
 	for g, a := range r.p.Pre {
 		if a > 0 && !m.IsMasked(g) {
 			r.p.Pooled[g] = a
