@@ -58,6 +58,15 @@ func TestClickingARowOpensItsView(t *testing.T) {
 	if fv.shown == nil || fv.shown.Filter != want || fv.list.selected != want {
 		t.Errorf("Filters shows filter %v with row %d selected, want filter %d in both", fv.shown, fv.list.selected, want)
 	}
+
+	// Back in Why this label, the same row (still selected) leads to
+	// Filters again.
+	st.show(titleWhy)
+	q.drain()
+	test.TapAt(tbl, fyne.NewPos(20, header+row/2+2))
+	if got := st.shownTitle(); got != titleFilters {
+		t.Errorf("a second click on the same row left the window on %s, want %s", got, titleFilters)
+	}
 }
 
 // Every view says what to do when there is nothing to show, and the buttons

@@ -95,9 +95,13 @@ type sheetTable struct {
 	after    []func()
 }
 
-// Tapped selects the clicked cell, then runs what was left for after.
+// Tapped selects the clicked cell, then runs what was left for after. The
+// selection is cleared first: the toolkit ignores a click on the cell already
+// selected, and a row that leads to another view must lead there again when
+// the user comes back and clicks it once more.
 func (t *sheetTable) Tapped(e *fyne.PointEvent) {
 	t.clicking = true
+	t.Table.UnselectAll()
 	t.Table.Tapped(e)
 	t.clicking = false
 	after := t.after

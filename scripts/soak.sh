@@ -45,18 +45,29 @@ probes=0
 expect() {
 	local took
 	if ! took=$(wait_title "telltale — $1" "$limit"); then
-		echo "soak: the window did not show $1 within ${limit} s (step: $step); it shows $(xdotool getwindowname "$window_id")" >&2
-		if [ -n "${SOAK_SHOT:-}" ] && command -v import >/dev/null; then
-			import -window "$window_id" "$SOAK_SHOT" && echo "soak: the window as it was: $SOAK_SHOT" >&2
-		fi
-		tail -20 "$log" >&2
-		exit 1
+		fail_view "$1"
 	fi
+	answered "$1" "$took"
+}
+
+# answered TITLE SECONDS records that view TITLE came after SECONDS.
+answered() {
 	probes=$((probes + 1))
-	worst=$(awk -v a="$worst" -v b="$took" 'BEGIN {print (b > a) ? b : a}')
-	if awk -v t="$took" 'BEGIN {exit !(t > 2)}'; then
-		echo "soak: $1 took ${took} s (step: $step)" >&2
+	worst=$(awk -v a="$worst" -v b="$2" 'BEGIN {print (b > a) ? b : a}')
+	if awk -v t="$2" 'BEGIN {exit !(t > 2)}'; then
+		echo "soak: $1 took ${2} s (step: $step)" >&2
 	fi
+}
+
+# fail_view TITLE reports that the window did not show view TITLE in time,
+# saves the window as it is (SOAK_SHOT) and stops the run.
+fail_view() {
+	echo "soak: the window did not show $1 within ${limit} s (step: $step); it shows $(xdotool getwindowname "$window_id")" >&2
+	if [ -n "${SOAK_SHOT:-}" ] && command -v import >/dev/null; then
+		import -window "$window_id" "$SOAK_SHOT" && echo "soak: the window as it was: $SOAK_SHOT" >&2
+	fi
+	tail -20 "$log" >&2
+	exit 1
 }
 
 # visit N: switch to view N (1-based) and check that the window answers.
@@ -81,16 +92,30 @@ click() {
 	xdotool click 1
 }
 
-# open_row X Y TITLE: click the table row at X, Y, which opens view TITLE;
-# a click that lands on the gap between two rows selects nothing, so a
-# second click goes 20 pixels lower.
+# open_row X Y TITLE: click the table row at X, Y, which opens view TITLE,
+# until the view shows or the limit has passed. Clicks go every 2 s: the
+# table fills only once the view's background work (an explanation) is
+# done, which on a loaded machine can take seconds after the view shows;
+# every second click goes 20 pixels lower, off the gap between two rows.
 open_row() {
-	click "$1" "$2"
-	if ! wait_title "telltale — $3" 3 >/dev/null; then
-		point "$1" "$(awk -v y="$2" -v h="${size#*x}" 'BEGIN {print y + 20 / h}')"
-		xdotool click 1
-	fi
-	expect "$3"
+	local t0 now y tries=0
+	t0=$(date +%s%N)
+	while :; do
+		y=$2
+		if [ $((tries % 2)) = 1 ]; then
+			y=$(awk -v y="$2" -v h="${size#*x}" 'BEGIN {print y + 20 / h}')
+		fi
+		click "$1" "$y"
+		if wait_title "telltale — $3" 2 >/dev/null; then
+			break
+		fi
+		tries=$((tries + 1))
+		now=$(date +%s%N)
+		if [ $(((now - t0) / 1000000000)) -ge "$limit" ]; then
+			fail_view "$3"
+		fi
+	done
+	answered "$3" "$(seconds_since "$t0")"
 }
 
 texts=("The deckhand was not friendly at all and my refund never came."
@@ -124,7 +149,7 @@ while [ "$(date +%s)" -lt "$end" ]; do
 	type_text "${texts[$((round % ${#texts[@]}))]}"
 	visit 3
 	step="click a text of a confusion cell"
-	open_row 0.70 0.75 "Why this label" # a row of the cell's texts
+	open_row 0.70 0.82 "Why this label" # a row of the cell's texts
 	visit 6
 	visit 5
 	step="click a filter that fired"

@@ -86,6 +86,14 @@ type_text() {
 	xdotool type --delay "${type_delay:-15}" "$1"
 }
 
+# seconds_since T0 prints the seconds (to the millisecond) since T0, a
+# time in nanoseconds from date +%s%N.
+seconds_since() {
+	local now
+	now=$(date +%s%N)
+	printf '%d.%03d\n' $(((now - $1) / 1000000000)) $((((now - $1) / 1000000) % 1000))
+}
+
 # wait_title TITLE SECONDS waits until the window's title is TITLE and
 # prints how long that took (seconds, to the millisecond); it fails after
 # SECONDS.
@@ -94,8 +102,7 @@ wait_title() {
 	t0=$(date +%s%N)
 	while :; do
 		if [ "$(xdotool getwindowname "$window_id" 2>/dev/null)" = "$want" ]; then
-			now=$(date +%s%N)
-			printf '%d.%03d\n' $(((now - t0) / 1000000000)) $((((now - t0) / 1000000) % 1000))
+			seconds_since "$t0"
 			return 0
 		fi
 		now=$(date +%s%N)
