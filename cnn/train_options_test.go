@@ -155,9 +155,9 @@ func TestHeadWarmupAndLRDecay(t *testing.T) {
 	}
 }
 
-// Off by default: a recipe without the three options trains to the same
-// weights as before they existed, which the golden tests check; with them,
-// training is still deterministic for a seed and learns the toy task.
+// With the three options on, training is still deterministic for a seed
+// and learns the toy task (with them off, the optimizer steps' checks
+// against PyTorch stand unchanged).
 func TestTrainOptionsDeterministicAndLearn(t *testing.T) {
 	run := func() (*Model, *TrainResult) {
 		m := randModel(1, 30, 8, []int{2, 3}, 4, 2)

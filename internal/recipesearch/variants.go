@@ -61,6 +61,7 @@ var variants = map[string]func(r *cnn.Recipe){
 	"edrop50": func(r *cnn.Recipe) { r.Train.EmbedDropout = 0.5 },
 	"warm1":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 1 },
 	"warm2":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 2 },
+	"warm3":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 3 },
 	"lrd8":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.8 },
 	"lrd6":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.6 },
 }
