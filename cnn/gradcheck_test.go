@@ -13,6 +13,13 @@ import (
 // difference across a kink (where the loss is not differentiable) can be
 // recognised and skipped.
 func ref64(m *Model, texts [][]int32, labels []int, drop []float32) (float64, []int) {
+	return ref64Scaled(m, texts, labels, drop, nil)
+}
+
+// ref64Scaled is ref64 with every word vector (as the convolutions read it)
+// multiplied elementwise by its word's row of scale, where it has one: the
+// embedding dropout of a batch.
+func ref64Scaled(m *Model, texts [][]int32, labels []int, drop []float32, scale map[int32][]float32) (float64, []int) {
 	cfg := m.Config
 	nf := cfg.NumFilters()
 	var loss float64
@@ -27,6 +34,12 @@ func ref64(m *Model, texts [][]int32, labels []int, drop []float32) (float64, []
 				a := float64(m.FilterBias(g))
 				for s := 0; s < w; s++ {
 					e := row(x[t+s])
+					if sc := scale[x[t+s]]; sc != nil {
+						e = slices.Clone(e)
+						for k := range e {
+							e[k] *= float64(sc[k])
+						}
+					}
 					for k, v := range m.FilterSlot(g, s) {
 						a += float64(v) * e[k]
 					}

@@ -77,10 +77,13 @@ type threadBuf struct {
 }
 
 // paramGroup is one trainable tensor with its gradient and optimizer state;
-// decay marks the weights that weight decay shrinks (not the biases).
+// decay marks the weights that weight decay shrinks (not the biases), head
+// the output layer's (trained alone in the head warm-up), and steps counts
+// the optimizer steps the group has taken (Adam's bias correction).
 type paramGroup struct {
 	p, g, s1, s2 []float32
-	decay        bool
+	decay, head  bool
+	steps        int
 }
 
 // trainer holds everything a training step needs, allocated once.
@@ -104,6 +107,17 @@ type trainer struct {
 	drop   []float32 // per text and filter: 0 or 1/(1−p); nil for no dropout
 	loss   []float64
 
+	// embDrop is the embedding-dropout scale of each value of the batch's
+	// word vectors (row i for ws.words[i]): 0 or 1/(1−p); empty for none.
+	// It is drawn from embRng.
+	embDrop []float32
+	embRng  *rand.Rand
+
+	// lr is the learning rate of the current epoch (TrainConfig.LRDecay);
+	// headOnly is set during the head warm-up (TrainConfig.HeadWarmup).
+	lr       float64
+	headOnly bool
+
 	// classW is the loss weight of each class (nil: all 1); unkP the
 	// word-dropout probability of each word id (nil: none), drawn from
 	// wdRng into the batch copy wdBuf.
@@ -117,13 +131,13 @@ type trainer struct {
 	gEmb   []float32 // full-size embedding gradient, zero outside the batch's rows
 	groups []paramGroup
 	cur    *paramGroup
-	step_  int
 
 	// ch is the character layer's part (nil for a model without one).
 	ch *charTrain
 
 	fnGather, fnTable, fnText, fnReduce, fnScatter, fnUnscatter, fnOpt func(k, lo, hi int)
 	fnCharFwd, fnCharBwd                                               func(k, lo, hi int)
+	fnEmbDrop, fnEmbDropGrad                                           func(k, lo, hi int)
 }
 
 // embGrad reports whether the step needs the gradient of the batch's word
@@ -133,8 +147,11 @@ func (tr *trainer) embGrad() bool { return !tr.tc.FreezeEmb || tr.ch != nil }
 func newTrainer(m *Model, tc TrainConfig) *trainer {
 	cfg := m.Config
 	d, nf := cfg.Dim, cfg.NumFilters()
-	tr := &trainer{m: m, tc: tc, wk: newWorkers(tc.Threads),
+	tr := &trainer{m: m, tc: tc, wk: newWorkers(tc.Threads), lr: tc.LR,
 		rng: rand.New(rand.NewPCG(tc.Seed^0xa0761d6478bd642f, tc.Seed))} // dropout masks
+	if tc.EmbedDropout > 0 {
+		tr.embRng = rand.New(rand.NewPCG(tc.Seed^0x9e3779b97f4a7c15, tc.Seed))
+	}
 	total := 0
 	for _, c := range m.Convs {
 		tr.wOff = append(tr.wOff, total)
@@ -171,6 +188,8 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 	}
 	add(m.OutW, g0.ow, true)
 	add(m.OutB, g0.ob, false)
+	tr.groups[len(tr.groups)-1].head = true
+	tr.groups[len(tr.groups)-2].head = true
 	if m.Char != nil {
 		tr.ch = newCharTrain(tr, add)
 		tr.fnCharFwd = tr.charForwardRows
@@ -183,6 +202,8 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 	tr.fnScatter = tr.scatter
 	tr.fnUnscatter = tr.unscatter
 	tr.fnOpt = tr.opt
+	tr.fnEmbDrop = func(_, lo, hi int) { scaleRows(tr.emb, tr.embDrop, lo*d, hi*d) }
+	tr.fnEmbDropGrad = func(_, lo, hi int) { scaleRows(tr.th[0].emb, tr.embDrop, lo*d, hi*d) }
 	tr.ws.init(cfg.VocabSize)
 	return tr
 }
@@ -316,11 +337,17 @@ func (tr *trainer) forwardBackward() float64 {
 		tr.charPrepare()
 		tr.wk.run(nw, tr.fnCharFwd)
 	}
+	tr.dropEmbeddings(nw * d)
 	tr.wk.run(nw, tr.fnTable)
 	tr.wk.run(n, tr.fnText)
 	// Reduce the per-thread gradients into thread 0's, in thread order.
 	if len(tr.th) > 1 {
 		tr.wk.run(len(tr.th[0].w), tr.fnReduce)
+	}
+	if len(tr.embDrop) > 0 && tr.embGrad() {
+		// The gradient of a raw word-vector value is its scale times that
+		// of the scaled value the convolutions saw.
+		tr.wk.run(nw, tr.fnEmbDropGrad)
 	}
 	if tr.ch != nil {
 		tr.wk.run(nw, tr.fnCharBwd)
@@ -337,6 +364,41 @@ func (tr *trainer) forwardBackward() float64 {
 }
 
 func (tr *trainer) gather(_, lo, hi int) { gatherRows(tr.m, tr.ws.words, tr.emb, lo, hi) }
+
+// dropEmbeddings draws the embedding-dropout scales of the batch's n
+// word-vector values and applies them to tr.emb (dropout on the input
+// layer, Srivastava et al. 2014, "Dropout: A Simple Way to Prevent Neural
+// Networks from Overfitting", JMLR, inverted: kept values are scaled by
+// 1/(1−p)). The mask belongs to a word of the batch, not to each of its
+// occurrences, as in the word-type dropout of Gal & Ghahramani (2016, "A
+// Theoretically Grounded Application of Dropout in Recurrent Neural
+// Networks", NeurIPS) but elementwise: it keeps the step's one slot-table
+// row per word. Without TrainConfig.EmbedDropout it draws nothing.
+func (tr *trainer) dropEmbeddings(n int) {
+	p := tr.tc.EmbedDropout
+	if p <= 0 {
+		tr.embDrop = tr.embDrop[:0]
+		return
+	}
+	tr.embDrop = grow(tr.embDrop, n)
+	keep := float32(1 / (1 - p))
+	for i := range tr.embDrop {
+		if tr.embRng.Float64() < p {
+			tr.embDrop[i] = 0
+		} else {
+			tr.embDrop[i] = keep
+		}
+	}
+	tr.wk.run(len(tr.ws.words), tr.fnEmbDrop)
+}
+
+// scaleRows multiplies x[lo:hi] by s[lo:hi] elementwise.
+func scaleRows(x, s []float32, lo, hi int) {
+	x, s = x[lo:hi], s[lo:hi]
+	for i := range x {
+		x[i] *= s[i]
+	}
+}
 
 func (tr *trainer) table(_, lo, hi int) {
 	tableRows(&tr.sw, tr.emb, tr.tab, tr.m.Config.Dim, lo, hi)
@@ -484,12 +546,15 @@ func (tr *trainer) unscatter(_, lo, hi int) {
 	}
 }
 
-// update applies one optimizer step to every group, then the max-norm
-// constraint.
+// update applies one optimizer step to every group (to the output layer's
+// alone during the head warm-up), then the max-norm constraint.
 func (tr *trainer) update() {
-	tr.step_++
 	for i := range tr.groups {
+		if tr.headOnly && !tr.groups[i].head {
+			continue
+		}
 		tr.cur = &tr.groups[i]
+		tr.cur.steps++
 		tr.wk.run(len(tr.cur.p), tr.fnOpt)
 	}
 	tr.cur = nil
@@ -507,20 +572,20 @@ func (tr *trainer) opt(_, lo, hi int) {
 	if tc.WeightDecay > 0 && g.decay {
 		// Decoupled weight decay (Loshchilov & Hutter 2019), before the step
 		// as torch.optim.AdamW does it.
-		k := float32(1 - tc.LR*tc.WeightDecay)
+		k := float32(1 - tr.lr*tc.WeightDecay)
 		for i := range g.p[lo:hi] {
 			g.p[lo+i] *= k
 		}
 	}
 	if tc.Optimizer == "adadelta" {
-		adadeltaUpdate(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi], float32(tc.LR), float32(tc.Rho), float32(tc.Eps))
+		adadeltaUpdate(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi], float32(tr.lr), float32(tc.Rho), float32(tc.Eps))
 		return
 	}
 	// Adam (Kingma & Ba 2015) in PyTorch's formulation; see adamStepGo.
-	bc1 := 1 - math.Pow(tc.Beta1, float64(tr.step_))
-	bc2 := 1 - math.Pow(tc.Beta2, float64(tr.step_))
+	bc1 := 1 - math.Pow(tc.Beta1, float64(g.steps))
+	bc2 := 1 - math.Pow(tc.Beta2, float64(g.steps))
 	adamStep(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi],
-		float32(tc.LR), float32(tc.Beta1), float32(tc.Beta2), float32(tc.Eps), float32(bc1), float32(bc2))
+		float32(tr.lr), float32(tc.Beta1), float32(tc.Beta2), float32(tc.Eps), float32(bc1), float32(bc2))
 }
 
 // maxNormRows rescales every row (of n values) of w whose L2 norm exceeds s

@@ -66,6 +66,26 @@ type TrainConfig struct {
 	// follow on the dev split: "macro-f1" ("" too: the highest) or
 	// "loss" (the lowest mean cross-entropy).
 	StopOn string `json:"stop_on,omitempty"`
+	// EmbedDropout is the dropout probability of the values of the word
+	// vectors the convolutions read (Srivastava et al. 2014; on the input
+	// layer of a sentence CNN as Zhang & Wallace 2015, "A Sensitivity
+	// Analysis of (and Practitioners' Guide to) Convolutional Neural
+	// Networks for Sentence Classification", discuss): in every training
+	// batch each value of each of the batch's word vectors is zeroed with
+	// this probability, the kept ones scaled by 1/(1−p), one mask per word
+	// of the batch. 0 turns it off; it must be below 1.
+	EmbedDropout float64 `json:"embed_dropout,omitempty"`
+	// HeadWarmup is how many first epochs train the output layer alone,
+	// the embeddings, filters and character layer kept as they started
+	// (the last layer first, as the gradual unfreezing of Howard & Ruder
+	// 2018, "Universal Language Model Fine-tuning for Text
+	// Classification", ACL). These epochs count among Epochs and are
+	// evaluated on dev like the others. 0 turns it off.
+	HeadWarmup int `json:"head_warmup,omitempty"`
+	// LRDecay γ, when set, makes the learning rate of epoch e (1-based)
+	// LR·γ^(e−1): an exponential schedule, common practice, no source. 0
+	// (or 1) keeps LR throughout; it must be in [0, 1].
+	LRDecay float64 `json:"lr_decay,omitempty"`
 }
 
 // WithDefaults returns tc with every zero field set to its default, or an
@@ -126,6 +146,12 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: average of the last %d epochs: must be 0 (off) or positive", tc.AverageLast)
 	case tc.StopOn != "" && tc.StopOn != StopMacroF1 && tc.StopOn != StopLoss:
 		return tc, fmt.Errorf("cnn: stop on %q: use %s or %s", tc.StopOn, StopMacroF1, StopLoss)
+	case !(tc.EmbedDropout >= 0 && tc.EmbedDropout < 1):
+		return tc, fmt.Errorf("cnn: embedding dropout %g: must be in [0, 1)", tc.EmbedDropout)
+	case tc.HeadWarmup < 0 || tc.HeadWarmup >= tc.Epochs:
+		return tc, fmt.Errorf("cnn: head warm-up of %d epochs: must be 0 (off) or fewer than the %d epochs", tc.HeadWarmup, tc.Epochs)
+	case !(tc.LRDecay >= 0 && tc.LRDecay <= 1):
+		return tc, fmt.Errorf("cnn: learning-rate decay %g: must be in [0, 1] (0: none)", tc.LRDecay)
 	}
 	return tc, nil
 }
@@ -214,7 +240,10 @@ const progressEvery = 10
 // max over time, dropout on the pooled layer (inverted: kept units are scaled
 // by 1/(1−p)), a linear layer, softmax cross-entropy averaged over the batch;
 // Adam (Kingma & Ba 2015, in PyTorch's formulation) or Adadelta (Zeiler 2012);
-// then the optional max-norm constraint on each row of OutW (Kim 2014). With
+// then the optional max-norm constraint on each row of OutW (Kim 2014).
+// EmbedDropout, HeadWarmup and LRDecay add dropout on the word vectors, a
+// first phase that trains the output layer alone, and a falling learning
+// rate; all three are off by default. With
 // ClassWeight each text's loss is weighted by its class's weight (the batch
 // mean of the weighted losses is minimised and reported); with WordDropout
 // the batch's words are replaced by UNK first (a copy: train is unchanged).
@@ -250,6 +279,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	var batches [][]int
 	for epoch := 1; epoch <= tc.Epochs; epoch++ {
 		batches = makeBatches(rng, train.IDs, tc.Batch, order, batches)
+		tr.setEpoch(epoch)
 		start := time.Now()
 		sum, done := run.epoch(epoch, batches, start)
 		m.FillChars()  // the vocabulary's character parts follow the character layer
@@ -282,6 +312,16 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	}
 	run.finish(sel)
 	return res, nil
+}
+
+// setEpoch sets the learning rate and the head warm-up of the epoch
+// (1-based).
+func (tr *trainer) setEpoch(epoch int) {
+	tr.lr = tr.tc.LR
+	if g := tr.tc.LRDecay; g > 0 && g < 1 {
+		tr.lr *= math.Pow(g, float64(epoch-1))
+	}
+	tr.headOnly = epoch <= tr.tc.HeadWarmup
 }
 
 // trainRun is the state of one Train call that outlives an epoch.

@@ -54,6 +54,16 @@ var variants = map[string]func(r *cnn.Recipe){
 	"avg5":     func(r *cnn.Recipe) { r.Train.AverageLast = 5 },
 	"stoploss": func(r *cnn.Recipe) { r.Train.StopOn = cnn.StopLoss },
 	"ppmi":     func(r *cnn.Recipe) { r.Train.EmbedInit = cnn.InitPPMI },
+	// the training loop: dropout on the word vectors, the output layer
+	// trained alone first, a falling learning rate
+	"edrop10": func(r *cnn.Recipe) { r.Train.EmbedDropout = 0.1 },
+	"edrop25": func(r *cnn.Recipe) { r.Train.EmbedDropout = 0.25 },
+	"edrop50": func(r *cnn.Recipe) { r.Train.EmbedDropout = 0.5 },
+	"warm1":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 1 },
+	"warm2":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 2 },
+	"warm3":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 3 },
+	"lrd8":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.8 },
+	"lrd6":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.6 },
 }
 
 func init() {

@@ -1,0 +1,204 @@
+package cnn
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"slices"
+	"strings"
+	"testing"
+)
+
+// With embedding dropout, the loss and the gradients of every parameter
+// (the character layer's included) agree with the float64 reference loss
+// and its central finite differences, the reference given the mask the
+// step drew, one row per word of the batch (common practice, no source;
+// the tolerance of TestGradientFiniteDifferences).
+func TestEmbedDropoutGradientFiniteDifferences(t *testing.T) {
+	const h, p = 1e-3, 0.4
+	for seed := uint64(1); seed <= 4; seed++ {
+		var m *Model
+		if seed%2 == 0 {
+			m = randCharModel(seed, 12, 3, []int{1, 2, 3}, 3, 3, CharConfig{Filters: 3, Width: 2, Dim: 3, MaxChars: 5})
+			for i := range m.Char.W {
+				m.Char.W[i] *= 2
+			}
+			m.FillChars()
+		} else {
+			m = randModel(seed, 12, 4, []int{1, 2, 3}, 3, 3)
+		}
+		for i := range m.OutW {
+			m.OutW[i] *= 3
+		}
+		rng := rand.New(rand.NewPCG(seed, 98))
+		texts := randTexts(rng, 5, 8, 12)
+		labels := make([]int, len(texts))
+		for i := range labels {
+			labels[i] = rng.IntN(3)
+		}
+		tr := newTrainer(m, TrainConfig{Threads: 1 + int(seed%2), EmbedDropout: p, Seed: seed})
+		tr.texts, tr.labels = texts, labels
+		loss := tr.forwardBackward()
+		tr.close()
+		d := m.Config.Dim
+		scale := map[int32][]float32{}
+		zeros := 0
+		for i, id := range tr.ws.words {
+			row := tr.embDrop[i*d : (i+1)*d]
+			for _, v := range row {
+				switch {
+				case v == 0:
+					zeros++
+				case math.Abs(float64(v)-1/(1-p)) > 1e-6:
+					t.Fatalf("seed %d: mask value %g, want 0 or 1/(1−p)", seed, v)
+				}
+			}
+			scale[id] = slices.Clone(row)
+		}
+		if n := len(tr.ws.words) * d; zeros == 0 || zeros == n {
+			t.Fatalf("seed %d: %d of %d values dropped: the check needs both kinds", seed, zeros, n)
+		}
+		ref, _ := ref64Scaled(m, texts, labels, nil, scale)
+		if math.Abs(loss-ref) > 1e-5*math.Abs(ref) {
+			t.Fatalf("seed %d: loss %g, float64 reference %g", seed, loss, ref)
+		}
+		wd := m.Config.WordDim()
+		checked, skipped := 0, 0
+		for _, pr := range gradParams(m, tr) {
+			for i := range pr.p {
+				if pr.name == "Emb" && (scale[int32(i/d)] == nil || i < d || i%d >= wd) {
+					continue // not in the batch, PAD, or a character column
+				}
+				if pr.name == "CharEmb" && i < m.Config.Chars.Dim {
+					continue // the zero character
+				}
+				p0 := pr.p[i]
+				pr.p[i] = float32(float64(p0) + h)
+				up := pr.p[i]
+				pu, patU := ref64Scaled(m, texts, labels, nil, scale)
+				pr.p[i] = float32(float64(p0) - h)
+				dn := pr.p[i]
+				pd, patD := ref64Scaled(m, texts, labels, nil, scale)
+				pr.p[i] = p0
+				if !slices.Equal(patU, patD) {
+					skipped++
+					continue
+				}
+				num := (pu - pd) / (float64(up) - float64(dn))
+				a := float64(pr.g[i])
+				if math.Abs(a-num) > 1e-4*math.Max(math.Abs(a), math.Abs(num))+1e-6 {
+					t.Errorf("seed %d %s[%d]: analytic %g, finite difference %g", seed, pr.name, i, a, num)
+				}
+				checked++
+			}
+		}
+		if skipped > checked/10 {
+			t.Errorf("seed %d: %d coordinates skipped at kinks, %d checked: too many to trust the check", seed, skipped, checked)
+		}
+	}
+}
+
+// firstAdamStep reports whether every value of after that moved moved by
+// lr (to 1% relative, room for ε beside small gradients and float32
+// rounding): Adam's first step of a parameter is lr·g/(|g|+ε) after bias
+// correction (Kingma & Ba 2015, Algorithm 1). A step that counted the
+// warm-up's steps too would be about 0.64·lr here (the third step's bias
+// corrections with a zero state). It also reports how many values moved.
+func firstAdamStep(before, after []float32, lr float64) (bool, int) {
+	moved := 0
+	for i := range before {
+		if d := math.Abs(float64(after[i]) - float64(before[i])); d != 0 {
+			moved++
+			if math.Abs(d-lr) > 1e-2*lr {
+				return false, moved
+			}
+		}
+	}
+	return true, moved
+}
+
+// During the head warm-up only the output layer moves; in the first epoch
+// after it the embeddings and filters take Adam's first step, of the full
+// learning rate; LRDecay makes epoch e's step LR·γ^(e−1).
+func TestHeadWarmupAndLRDecay(t *testing.T) {
+	const lr = 0.01
+	d := toyData(3, 40, 30)
+	idx := []int{0, 1, 2, 3, 4, 5, 6, 7}
+	m := randModel(2, 30, 6, []int{2, 3}, 4, 2)
+	tc, err := TrainConfig{LR: lr, Seed: 1, Threads: 2, HeadWarmup: 2, LRDecay: 0.5}.WithDefaults()
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr := newTrainer(m, tc)
+	defer tr.close()
+	tr.prepare(d)
+	emb, conv, outW := slices.Clone(m.Emb), slices.Clone(m.Convs[1].W), slices.Clone(m.OutW)
+	for epoch := 1; epoch <= 2; epoch++ {
+		tr.setEpoch(epoch)
+		tr.step(d, idx)
+	}
+	if !slices.Equal(emb, m.Emb) || !slices.Equal(conv, m.Convs[1].W) {
+		t.Fatal("the embeddings or filters moved during the head warm-up")
+	}
+	if slices.Equal(outW, m.OutW) {
+		t.Fatal("the output layer did not move during the head warm-up")
+	}
+	tr.setEpoch(3)
+	if want := lr * 0.25; math.Abs(tr.lr-want) > 1e-15 {
+		t.Fatalf("epoch 3 learning rate %g, want %g", tr.lr, want)
+	}
+	tr.step(d, idx)
+	for name, pair := range map[string][2][]float32{"filters": {conv, m.Convs[1].W}, "embeddings": {emb, m.Emb}} {
+		if ok, moved := firstAdamStep(pair[0], pair[1], tr.lr); !ok || moved == 0 {
+			t.Errorf("%s after the warm-up: %d values moved, first Adam step of %g each: %v", name, moved, tr.lr, ok)
+		}
+	}
+}
+
+// With the three options on, training is still deterministic for a seed
+// and learns the toy task (with them off, the optimizer steps' checks
+// against PyTorch stand unchanged).
+func TestTrainOptionsDeterministicAndLearn(t *testing.T) {
+	run := func() (*Model, *TrainResult) {
+		m := randModel(1, 30, 8, []int{2, 3}, 4, 2)
+		m.Config.Dropout = 0.3
+		train, dev := toyData(1, 300, 30), toyData(2, 100, 30)
+		res, err := Train(context.Background(), m, train, dev, TrainConfig{Epochs: 20, Batch: 10, Seed: 3, Threads: 2, Patience: 6,
+			EmbedDropout: 0.25, HeadWarmup: 1, LRDecay: 0.9}, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return m, res
+	}
+	a, res := run()
+	b, _ := run()
+	if !slices.Equal(a.Emb, b.Emb) || !slices.Equal(a.OutW, b.OutW) || !slices.Equal(a.Convs[0].W, b.Convs[0].W) {
+		t.Error("two runs with the same seed differ")
+	}
+	if acc := res.Epochs[res.BestEpoch-1].Dev.Accuracy; acc < 0.95 {
+		t.Errorf("dev accuracy %.3f, want ≥ 0.95 on a task a single filter solves", acc)
+	}
+}
+
+// Invalid settings of the three options are refused with their name.
+func TestTrainOptionsValidation(t *testing.T) {
+	for _, c := range []struct {
+		tc   TrainConfig
+		want string
+	}{
+		{TrainConfig{EmbedDropout: 1}, "embedding dropout"},
+		{TrainConfig{EmbedDropout: -0.1}, "embedding dropout"},
+		{TrainConfig{EmbedDropout: math.NaN()}, "embedding dropout"},
+		{TrainConfig{HeadWarmup: -1}, "head warm-up"},
+		{TrainConfig{Epochs: 3, HeadWarmup: 3}, "head warm-up"},
+		{TrainConfig{LRDecay: 1.5}, "learning-rate decay"},
+		{TrainConfig{LRDecay: -0.5}, "learning-rate decay"},
+	} {
+		if _, err := c.tc.WithDefaults(); err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%+v: error %v, want one naming the %s", c.tc, err, c.want)
+		}
+	}
+	if _, err := (TrainConfig{EmbedDropout: 0.5, HeadWarmup: 9, LRDecay: 1}).WithDefaults(); err != nil {
+		t.Errorf("valid settings refused: %v", err)
+	}
+}
