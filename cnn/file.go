@@ -11,6 +11,7 @@ import (
 	"math"
 	"os"
 	"slices"
+	"unsafe"
 
 	"telltale/corpus"
 	"telltale/internal/atomicfile"
@@ -233,10 +234,26 @@ func decode(data []byte, withBaseline bool) (*Model, error) {
 	if err != nil {
 		return nil, err
 	}
+	// The checksum runs beside the decoding; its error, when there is one,
+	// is the one returned, as if it had been checked first.
+	sum := make(chan error, 1)
+	go func() { sum <- checkSum(data) }()
+	m, err := decodeParts(f, len(data), withBaseline)
+	if sumErr := <-sum; sumErr != nil {
+		return nil, sumErr
+	}
+	return m, err
+}
+
+// decodeParts decodes the sections of a model file of fileLen bytes that
+// splitFile returned (see decode).
+func decodeParts(f fileParts, fileLen int, withBaseline bool) (*Model, error) {
 	var hi headerIn
-	dec := json.NewDecoder(bytes.NewReader(f.header))
-	if err := dec.Decode(&hi); err != nil {
-		return nil, fmt.Errorf("header: %v: the file is corrupted", err)
+	if !decodeHeaderFast(f.header, &hi) {
+		dec := json.NewDecoder(bytes.NewReader(f.header))
+		if err := dec.Decode(&hi); err != nil {
+			return nil, fmt.Errorf("header: %v: the file is corrupted", err)
+		}
 	}
 	h := &hi.fileHeader
 	if len(hi.Baseline) > 0 && !bytes.Equal(hi.Baseline, []byte("null")) && withBaseline {
@@ -244,12 +261,13 @@ func decode(data []byte, withBaseline bool) (*Model, error) {
 			return nil, fmt.Errorf("header: baseline: %v: the file is corrupted", err)
 		}
 	}
-	if err := checkHeader(h, f, len(data)); err != nil {
+	if err := checkHeader(h, f, fileLen); err != nil {
 		return nil, err
 	}
 	cfg := h.Config
 	m := &Model{Config: cfg, Labels: h.Labels, Vocab: h.Vocab, Tokenizer: h.Tokenizer, Info: h.Info}
 	if len(h.Masked) > 0 {
+		var err error
 		if m.Masked, err = maskedFilters(h.Masked, cfg.NumFilters()); err != nil {
 			return nil, err
 		}
@@ -283,9 +301,9 @@ type fileParts struct {
 	baseline []byte // the baseline's float64 weights, 8 bytes each
 }
 
-// splitFile checks the magic bytes, the version, that every announced
-// length fits in data and that the checksum matches, and returns the
-// sections. Nothing in the header is read yet.
+// splitFile checks the magic bytes, the version and that every announced
+// length fits in data, and returns the sections (checkSum checks the
+// checksum). Nothing in the header is read yet.
 func splitFile(data []byte) (fileParts, error) {
 	const fixed = 8 + 4 + 8
 	var f fileParts
@@ -331,10 +349,6 @@ func splitFile(data []byte) (fileParts, error) {
 	if bEnd != end {
 		return f, fmt.Errorf("damaged: %d bytes after the weights: the file is corrupted", end-bEnd)
 	}
-	body := data[:len(data)-4]
-	if got, want := crc32.Checksum(body, crcTable), binary.LittleEndian.Uint32(data[len(data)-4:]); got != want {
-		return f, fmt.Errorf("checksum mismatch (%08x, stored %08x): the file is corrupted, retrain or restore it", got, want)
-	}
 	return fileParts{
 		version:  version,
 		header:   data[fixed : fixed+int(hl)],
@@ -342,6 +356,16 @@ func splitFile(data []byte) (fileParts, error) {
 		weights:  data[off:wEnd],
 		baseline: data[bEnd-8*int(nb) : bEnd],
 	}, nil
+}
+
+// checkSum checks the checksum of a model file whose framing splitFile
+// has accepted.
+func checkSum(data []byte) error {
+	body := data[:len(data)-4]
+	if got, want := crc32.Checksum(body, crcTable), binary.LittleEndian.Uint32(data[len(data)-4:]); got != want {
+		return fmt.Errorf("checksum mismatch (%08x, stored %08x): the file is corrupted, retrain or restore it", got, want)
+	}
+	return nil
 }
 
 // checkHeader checks that the decoded header h is valid, that the weights
@@ -419,8 +443,13 @@ func (m *Model) readWeights(w []byte) error {
 	cfg := m.Config
 	take := func(n int) []float32 {
 		x := make([]float32, n)
-		for i := range x {
-			x[i] = math.Float32frombits(binary.LittleEndian.Uint32(w[4*i:]))
+		if nativeLittleEndian {
+			// The file's bytes are the values' memory as they are.
+			copy(unsafe.Slice((*byte)(unsafe.Pointer(unsafe.SliceData(x))), 4*n), w[:4*n])
+		} else {
+			for i := range x {
+				x[i] = math.Float32frombits(binary.LittleEndian.Uint32(w[4*i:]))
+			}
 		}
 		w = w[4*n:]
 		return x
@@ -442,6 +471,10 @@ func (m *Model) readWeights(w []byte) error {
 	}
 	return nil
 }
+
+// nativeLittleEndian says whether this machine stores a float32 in the
+// byte order of the model file.
+var nativeLittleEndian = binary.NativeEndian.Uint16([]byte{1, 0}) == 1
 
 // setBaseline gives m the baseline of the header with its weights decoded
 // from raw (8 bytes each), checking that the two agree with each other and

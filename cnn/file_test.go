@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/binary"
 	"hash/crc32"
+	"math"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -190,5 +191,39 @@ func TestSmallVocabularyRoundTrip(t *testing.T) {
 	}
 	if got.Config.VocabSize != 4 || len(got.Convs) != 3 || got.Convs[2].W[7] != m.Convs[2].W[7] {
 		t.Fatal("round trip changed the model")
+	}
+}
+
+// Loading copies the weights' bytes in one move on a little-endian
+// machine; the result must equal decoding every value from its four
+// little-endian bytes, NaN payloads and negative zeros included.
+func TestReadWeightsCopyMatchesDecoding(t *testing.T) {
+	m, _ := savedModel(t)
+	m.Emb[m.Config.Dim+1] = math.Float32frombits(0x7fc00123) // a NaN with a payload
+	m.Emb[m.Config.Dim+2] = float32(math.Copysign(0, -1))
+	var w []byte
+	for _, x := range [][]float32{m.Emb, m.Convs[0].W, m.Convs[0].B, m.Convs[1].W, m.Convs[1].B, m.Convs[2].W, m.Convs[2].B, m.OutW, m.OutB} {
+		for _, v := range x {
+			w = binary.LittleEndian.AppendUint32(w, math.Float32bits(v))
+		}
+	}
+	saved := nativeLittleEndian
+	defer func() { nativeLittleEndian = saved }()
+	var got [2]*Model
+	for i, native := range []bool{true, false} {
+		nativeLittleEndian = native
+		got[i] = &Model{Config: m.Config}
+		if err := got[i].readWeights(w); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for i, x := range got[1].Emb {
+		if math.Float32bits(got[0].Emb[i]) != math.Float32bits(x) || math.Float32bits(x) != math.Float32bits(m.Emb[i]) {
+			t.Fatalf("embedding value %d: copied %08x, decoded %08x, saved %08x", i,
+				math.Float32bits(got[0].Emb[i]), math.Float32bits(x), math.Float32bits(m.Emb[i]))
+		}
+	}
+	if !reflect.DeepEqual(got[0].Convs, got[1].Convs) || !reflect.DeepEqual(got[0].OutW, got[1].OutW) || !reflect.DeepEqual(got[0].OutB, got[1].OutB) {
+		t.Fatal("the copied weights differ from the decoded ones")
 	}
 }

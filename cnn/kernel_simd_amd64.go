@@ -275,8 +275,10 @@ func adamStep256(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 // lines instead of one line per 16 filters. The running maxima and their
 // arguments stay in registers, twelve vectors in all, which the compiler
 // keeps without spilling; there is no branch on whether a maximum changed
-// (such branches are unpredictable). The lanes past nf read the rows' slack
-// and are never returned to callers as results.
+// (such branches are unpredictable). A last run of 33 to 48 filters takes a
+// pass of three vectors (windowMax512x3), so that 100 filters cost 7
+// vectors a slot instead of 8. The lanes past nf read the rows' slack and
+// are never returned to callers as results.
 func windowMax512(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int) {
 	if t1 <= t0 {
 		return
@@ -284,57 +286,103 @@ func windowMax512(rows []*float32, w, nf, col int, bias, best []float32, arg []i
 	np := padLanes(nf)
 	_ = rows[t1-1+w-1]
 	bias, best, arg = bias[:np], best[:np], arg[:np]
-	stride := uintptr(4 * nf)
 	for j := 0; j < np; j += 64 {
-		bp := (*[64]float32)(bias[j : j+64])
-		mp := (*[64]float32)(best[j : j+64])
-		ap := (*[64]int32)(arg[j : j+64])
-		m0 := archsimd.LoadFloat32x16((*[16]float32)(mp[0:16]))
-		m1 := archsimd.LoadFloat32x16((*[16]float32)(mp[16:32]))
-		m2 := archsimd.LoadFloat32x16((*[16]float32)(mp[32:48]))
-		m3 := archsimd.LoadFloat32x16((*[16]float32)(mp[48:64]))
-		i0 := archsimd.LoadInt32x16((*[16]int32)(ap[0:16]))
-		i1 := archsimd.LoadInt32x16((*[16]int32)(ap[16:32]))
-		i2 := archsimd.LoadInt32x16((*[16]int32)(ap[32:48]))
-		i3 := archsimd.LoadInt32x16((*[16]int32)(ap[48:64]))
-		off := uintptr(4 * (col + j))
-		for t := t0; t < t1; t++ {
-			a0 := archsimd.LoadFloat32x16((*[16]float32)(bp[0:16]))
-			a1 := archsimd.LoadFloat32x16((*[16]float32)(bp[16:32]))
-			a2 := archsimd.LoadFloat32x16((*[16]float32)(bp[32:48]))
-			a3 := archsimd.LoadFloat32x16((*[16]float32)(bp[48:64]))
-			o := off
-			for _, r := range rows[t : t+w] {
-				p := unsafe.Add(unsafe.Pointer(r), o)
-				a0 = a0.Add(archsimd.LoadFloat32x16((*[16]float32)(p)))
-				a1 = a1.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 64))))
-				a2 = a2.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 128))))
-				a3 = a3.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 192))))
-				o += stride
-			}
-			tv := archsimd.BroadcastInt32x16(int32(t))
-			g := a0.Greater(m0)
-			m0, i0 = a0.Merge(m0, g), tv.Merge(i0, g)
-			g = a1.Greater(m1)
-			m1, i1 = a1.Merge(m1, g), tv.Merge(i1, g)
-			g = a2.Greater(m2)
-			m2, i2 = a2.Merge(m2, g), tv.Merge(i2, g)
-			g = a3.Greater(m3)
-			m3, i3 = a3.Merge(m3, g), tv.Merge(i3, g)
+		if rem := nf - j; rem > 32 && rem <= 48 {
+			windowMax512x3(rows[:t1-1+w], w, nf, col+j, (*[48]float32)(bias[j:j+48]), (*[48]float32)(best[j:j+48]), (*[48]int32)(arg[j:j+48]), t0, t1)
+			continue
 		}
-		m0.Store((*[16]float32)(mp[0:16]))
-		m1.Store((*[16]float32)(mp[16:32]))
-		m2.Store((*[16]float32)(mp[32:48]))
-		m3.Store((*[16]float32)(mp[48:64]))
-		i0.Store((*[16]int32)(ap[0:16]))
-		i1.Store((*[16]int32)(ap[16:32]))
-		i2.Store((*[16]int32)(ap[32:48]))
-		i3.Store((*[16]int32)(ap[48:64]))
+		windowMax512x4(rows[:t1-1+w], w, nf, col+j, (*[64]float32)(bias[j:j+64]), (*[64]float32)(best[j:j+64]), (*[64]int32)(arg[j:j+64]), t0, t1)
 	}
 	archsimd.ClearAVXUpperBits()
 }
 
-// windowMax256 is windowMax512 with two 8-lane halves per chunk.
+// windowMax512x4 is one pass of windowMax512 over 64 filters, those whose
+// slot-0 values start at column col of the rows.
+func windowMax512x4(rows []*float32, w, nf, col int, bp, mp *[64]float32, ap *[64]int32, t0, t1 int) {
+	stride := uintptr(4 * nf)
+	m0 := archsimd.LoadFloat32x16((*[16]float32)(mp[0:16]))
+	m1 := archsimd.LoadFloat32x16((*[16]float32)(mp[16:32]))
+	m2 := archsimd.LoadFloat32x16((*[16]float32)(mp[32:48]))
+	m3 := archsimd.LoadFloat32x16((*[16]float32)(mp[48:64]))
+	i0 := archsimd.LoadInt32x16((*[16]int32)(ap[0:16]))
+	i1 := archsimd.LoadInt32x16((*[16]int32)(ap[16:32]))
+	i2 := archsimd.LoadInt32x16((*[16]int32)(ap[32:48]))
+	i3 := archsimd.LoadInt32x16((*[16]int32)(ap[48:64]))
+	off := uintptr(4 * col)
+	for t := t0; t < t1; t++ {
+		a0 := archsimd.LoadFloat32x16((*[16]float32)(bp[0:16]))
+		a1 := archsimd.LoadFloat32x16((*[16]float32)(bp[16:32]))
+		a2 := archsimd.LoadFloat32x16((*[16]float32)(bp[32:48]))
+		a3 := archsimd.LoadFloat32x16((*[16]float32)(bp[48:64]))
+		o := off
+		for _, r := range rows[t : t+w] {
+			p := unsafe.Add(unsafe.Pointer(r), o)
+			a0 = a0.Add(archsimd.LoadFloat32x16((*[16]float32)(p)))
+			a1 = a1.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 64))))
+			a2 = a2.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 128))))
+			a3 = a3.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 192))))
+			o += stride
+		}
+		tv := archsimd.BroadcastInt32x16(int32(t))
+		g := a0.Greater(m0)
+		m0, i0 = a0.Merge(m0, g), tv.Merge(i0, g)
+		g = a1.Greater(m1)
+		m1, i1 = a1.Merge(m1, g), tv.Merge(i1, g)
+		g = a2.Greater(m2)
+		m2, i2 = a2.Merge(m2, g), tv.Merge(i2, g)
+		g = a3.Greater(m3)
+		m3, i3 = a3.Merge(m3, g), tv.Merge(i3, g)
+	}
+	m0.Store((*[16]float32)(mp[0:16]))
+	m1.Store((*[16]float32)(mp[16:32]))
+	m2.Store((*[16]float32)(mp[32:48]))
+	m3.Store((*[16]float32)(mp[48:64]))
+	i0.Store((*[16]int32)(ap[0:16]))
+	i1.Store((*[16]int32)(ap[16:32]))
+	i2.Store((*[16]int32)(ap[32:48]))
+	i3.Store((*[16]int32)(ap[48:64]))
+}
+
+// windowMax512x3 is windowMax512x4 over 48 filters.
+func windowMax512x3(rows []*float32, w, nf, col int, bp, mp *[48]float32, ap *[48]int32, t0, t1 int) {
+	stride := uintptr(4 * nf)
+	m0 := archsimd.LoadFloat32x16((*[16]float32)(mp[0:16]))
+	m1 := archsimd.LoadFloat32x16((*[16]float32)(mp[16:32]))
+	m2 := archsimd.LoadFloat32x16((*[16]float32)(mp[32:48]))
+	i0 := archsimd.LoadInt32x16((*[16]int32)(ap[0:16]))
+	i1 := archsimd.LoadInt32x16((*[16]int32)(ap[16:32]))
+	i2 := archsimd.LoadInt32x16((*[16]int32)(ap[32:48]))
+	off := uintptr(4 * col)
+	for t := t0; t < t1; t++ {
+		a0 := archsimd.LoadFloat32x16((*[16]float32)(bp[0:16]))
+		a1 := archsimd.LoadFloat32x16((*[16]float32)(bp[16:32]))
+		a2 := archsimd.LoadFloat32x16((*[16]float32)(bp[32:48]))
+		o := off
+		for _, r := range rows[t : t+w] {
+			p := unsafe.Add(unsafe.Pointer(r), o)
+			a0 = a0.Add(archsimd.LoadFloat32x16((*[16]float32)(p)))
+			a1 = a1.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 64))))
+			a2 = a2.Add(archsimd.LoadFloat32x16((*[16]float32)(unsafe.Add(p, 128))))
+			o += stride
+		}
+		tv := archsimd.BroadcastInt32x16(int32(t))
+		g := a0.Greater(m0)
+		m0, i0 = a0.Merge(m0, g), tv.Merge(i0, g)
+		g = a1.Greater(m1)
+		m1, i1 = a1.Merge(m1, g), tv.Merge(i1, g)
+		g = a2.Greater(m2)
+		m2, i2 = a2.Merge(m2, g), tv.Merge(i2, g)
+	}
+	m0.Store((*[16]float32)(mp[0:16]))
+	m1.Store((*[16]float32)(mp[16:32]))
+	m2.Store((*[16]float32)(mp[32:48]))
+	i0.Store((*[16]int32)(ap[0:16]))
+	i1.Store((*[16]int32)(ap[16:32]))
+	i2.Store((*[16]int32)(ap[32:48]))
+}
+
+// windowMax256 is windowMax512 with one 8-lane vector per pass, and as
+// many passes as nf needs (13 for 100 filters, not the 16 of padLanes).
 func windowMax256(rows []*float32, w, nf, col int, bias, best []float32, arg []int32, t0, t1 int) {
 	if t1 <= t0 {
 		return
@@ -342,7 +390,7 @@ func windowMax256(rows []*float32, w, nf, col int, bias, best []float32, arg []i
 	np := padLanes(nf)
 	_ = rows[t1-1+w-1]
 	bias, best, arg = bias[:np], best[:np], arg[:np]
-	for j := 0; j < np; j += 8 {
+	for j := 0; j < nf; j += 8 {
 		bv := archsimd.LoadFloat32x8Slice(bias[j:])
 		mx := archsimd.LoadFloat32x8Slice(best[j:])
 		ag := archsimd.LoadInt32x8Slice(arg[j:])
