@@ -305,7 +305,10 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 			progress(Progress{Epoch: epoch, Epochs: tc.Epochs, Batch: len(batches), Batches: len(batches),
 				Loss: er.Loss, Dev: er.Dev, ExamplesPerSec: er.ExamplesPerSec, Phase: "epoch"})
 		}
-		if tc.Patience > 0 && dev.Len() > 0 && epoch-res.BestEpoch >= tc.Patience && epoch < tc.Epochs {
+		// Patience counts from the end of the head warm-up at the
+		// earliest: the warm-up must not end a run whose lower layers have
+		// not trained yet.
+		if tc.Patience > 0 && dev.Len() > 0 && epoch-max(res.BestEpoch, tc.HeadWarmup) >= tc.Patience && epoch < tc.Epochs {
 			res.StoppedEarly = true
 			break
 		}

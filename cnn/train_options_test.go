@@ -202,3 +202,27 @@ func TestTrainOptionsValidation(t *testing.T) {
 		t.Errorf("valid settings refused: %v", err)
 	}
 }
+
+// Early stopping never ends a run inside the head warm-up: with a warm-up
+// longer than the patience, the whole network still trains for at least
+// the patience's epochs after it (common practice, no source).
+func TestHeadWarmupOutlastsPatience(t *testing.T) {
+	for seed := uint64(1); seed <= 4; seed++ {
+		m := randModel(seed, 30, 8, []int{2, 3}, 4, 2)
+		w0 := slices.Clone(m.Convs[0].W)
+		train, dev := toyData(1, 300, 30), toyData(2, 100, 30)
+		const warm, patience = 6, 2
+		res, err := Train(context.Background(), m, train, dev, TrainConfig{Epochs: 20, Batch: 10, Seed: seed, Threads: 2,
+			Patience: patience, HeadWarmup: warm}, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(res.Epochs) < warm+patience {
+			t.Errorf("seed %d: %d epochs run with a %d-epoch warm-up and patience %d, want at least %d",
+				seed, len(res.Epochs), warm, patience, warm+patience)
+		}
+		if slices.Equal(w0, m.Convs[0].W) {
+			t.Errorf("seed %d: the filters never trained", seed)
+		}
+	}
+}
