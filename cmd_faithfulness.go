@@ -87,6 +87,9 @@ func runFaithfulness(ctx context.Context, env *runEnv, o *faithOptions) error {
 		// A seeded, stratified sample, not the first texts of the file.
 		ds, _ = ds.Split(1-float64(o.limit)/float64(len(ds.Examples)), o.seed)
 	}
+	if m, enc, err = m.WithUnseen(enc, ds.Texts()); err != nil { // unseen words' own rows, with --chars
+		return err
+	}
 	data, err := encodeFor(m, enc, ds, o.threads.N)
 	if err != nil {
 		return err

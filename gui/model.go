@@ -91,28 +91,34 @@ func encode(enc *corpus.Encoder, d *corpus.Dataset, labels []string) (cnn.Data, 
 	return cnn.EncodeDataset(enc, d, labels, 0)
 }
 
-// evaluate runs ms on the test split of cs.
+// evaluate runs ms on the test split of cs, as telltale eval does: with
+// a character layer, the split's unseen words read with vectors of their
+// own (cnn.Model.WithUnseen), not as the unknown word.
 func evaluate(ms *modelState, cs *corpusState) (*evaluation, error) {
 	if cs == nil {
 		return nil, nil
 	}
-	d, err := encode(ms.Enc, cs.Test, ms.Model.Labels)
+	m, enc, err := ms.Model.WithUnseen(ms.Enc, cs.Test.Texts())
+	if err != nil {
+		return nil, err
+	}
+	d, err := encode(enc, cs.Test, m.Labels)
 	if err != nil {
 		return nil, fmt.Errorf("the test split does not fit this model: %w", err)
 	}
-	met, pred, err := cnn.Evaluate(ms.Model, d, 0)
+	met, pred, err := cnn.Evaluate(m, d, 0)
 	if err != nil {
 		return nil, err
 	}
 	var cmp *cnn.Comparison
-	if ms.Model.Baseline != nil {
-		if cmp, err = cnn.CompareBaseline(ms.Model, cs.Test, 0); err != nil {
+	if m.Baseline != nil {
+		if cmp, err = cnn.CompareBaseline(m, cs.Test, 0); err != nil {
 			return nil, fmt.Errorf("the linear baseline on the test split: %w", err)
 		}
 	}
 	return &evaluation{
 		Metrics: met, Gold: d.Labels, Pred: pred,
-		Probs: ms.Model.Probabilities(d.IDs, 0),
+		Probs: m.Probabilities(d.IDs, 0),
 		Texts: cs.Test.Texts(), Baseline: cmp, Figures: cnn.FiguresOf(met, cmp),
 	}, nil
 }

@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"strings"
 
+	"telltale/cnn"
+	"telltale/corpus"
 	"telltale/explain"
 )
 
@@ -27,18 +29,35 @@ func (st *State) runExplain(text string, done func(*explainState)) {
 		if ctx.Err() != nil {
 			return nil, ctx.Err()
 		}
-		toks, ids := ms.Enc.Encode(text)
+		m, enc, table, err := ms.reading(text)
+		if err != nil {
+			return nil, err
+		}
+		toks, ids := enc.Encode(text)
 		if len(toks) == 0 {
 			return func() { done(&explainState{Text: text}) }, nil
 		}
-		e, err := explain.Explain(ms.Model, toks, ids, explain.ExplainOptions{
-			Table: ms.Table, Profiles: prof, Occlusion: true, IG: true, KeptDown: keptDownShown,
+		e, err := explain.Explain(m, toks, ids, explain.ExplainOptions{
+			Table: table, Profiles: prof, Occlusion: true, IG: true, KeptDown: keptDownShown,
 		})
 		if err != nil {
 			return nil, err
 		}
-		return func() { done(&explainState{Text: text, E: e}) }, nil
+		return func() { done(&explainState{Text: text, E: e, Known: len(ms.Model.Vocab)}) }, nil
 	})
+}
+
+// reading is the model, encoder and word-slot table that read text as
+// telltale predict does: with a character layer, the text's unseen words
+// get vectors of their own (cnn.Model.WithUnseen), rows the vocabulary's
+// table does not hold, so the table is nil then (explain builds the
+// text's own). Other models and texts come back as ms holds them.
+func (ms *modelState) reading(text string) (*cnn.Model, *corpus.Encoder, *explain.SlotTable, error) {
+	m, enc, err := ms.Model.WithUnseen(ms.Enc, []string{text})
+	if err != nil || m == ms.Model {
+		return ms.Model, ms.Enc, ms.Table, err
+	}
+	return m, enc, nil, nil
 }
 
 // keptDownShown is the number of windows kept down the view lists.
@@ -81,12 +100,17 @@ func tokenValues(e *explain.Explanation, method string, class int) ([]float64, s
 }
 
 // tokenDetail lists every number of token i (tokens counted from 0) for
-// class (−1: the log-odds).
-func tokenDetail(e *explain.Explanation, i, class int) string {
+// class (−1: the log-odds); known is the size of the model's vocabulary
+// (explainState.Known).
+func tokenDetail(e *explain.Explanation, i, class, known int) string {
 	t := e.Tokens[i]
+	word := fmt.Sprintf("word %d of the vocabulary", t.ID)
+	if int(t.ID) >= known {
+		word = "not in the vocabulary: its vector is read from its characters"
+	}
 	var b strings.Builder
-	fmt.Fprintf(&b, "Token %d, %q (word %d of the vocabulary, bytes %d–%d of the text). Exact share of %s: %+.5f",
-		i, t.Text, t.ID, t.Start, t.End, quantityName(e, class), sharesFor(e, class).Tokens[i])
+	fmt.Fprintf(&b, "Token %d, %q (%s, bytes %d–%d of the text). Exact share of %s: %+.5f",
+		i, t.Text, word, t.Start, t.End, quantityName(e, class), sharesFor(e, class).Tokens[i])
 	if i < len(e.Attributions.Occlusion) {
 		fmt.Fprintf(&b, "; occlusion: p(%s) falls by %+.5f (log-probability by %+.5f)", e.Label, e.Attributions.Occlusion[i], e.Attributions.OcclusionLog[i])
 	}

@@ -57,6 +57,9 @@ const colFiredPart = 2
 type explainState struct {
 	Text string
 	E    *explain.Explanation // nil when no token of the text is known
+	// Known is the size of the model's vocabulary: a token id from it on
+	// is an unseen word read from its characters (cnn.Model.WithUnseen).
+	Known int
 }
 
 func newWhyView(st *State) *whyView {
@@ -219,7 +222,7 @@ func (v *whyView) paint() {
 		}
 		chip := newHeatCell(label, divergingColor(vals[i], scale), nil)
 		chip.value, chip.compact = vals[i], true
-		chip.onTap = func() { v.detail.SetText(tokenDetail(e, i, c)) }
+		chip.onTap = func() { v.detail.SetText(tokenDetail(e, i, c, v.shown.Known)) }
 		chip.onHover = chip.onTap
 		v.painted.Add(chip)
 	}

@@ -101,8 +101,16 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		return Input{}, fmt.Errorf("report: test split: %w", err)
 	}
 
+	// The held-out split as telltale eval and predict read it: with a
+	// character layer, its unseen words have vectors of their own
+	// (cnn.Model.WithUnseen); the evaluation and the explained texts use
+	// that reading, the audit m's own (it replaces words of the vocabulary).
+	read, hoRead, err := unseenReading(m, heldout, ho, opt.Threads)
+	if err != nil {
+		return Input{}, err
+	}
 	progress("evaluate", 0, len(ho.IDs))
-	pred, conf, err := evaluate(&in, heldout, &ho, opt.Threads)
+	pred, conf, err := evaluate(&in, read, heldout, &hoRead, opt.Threads)
 	if err != nil {
 		return Input{}, err
 	}
@@ -125,7 +133,7 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		}
 	}
 
-	if err := explainExamples(ctx, &in, heldout, ho, pred, conf, opt.Examples, progress); err != nil {
+	if err := explainExamples(ctx, &in, read, heldout, hoRead, pred, conf, opt.Examples, progress); err != nil {
 		return Input{}, err
 	}
 	return in, nil
@@ -149,12 +157,31 @@ func checkGather(m *cnn.Model, train, heldout *corpus.Dataset) error {
 	return nil
 }
 
-// evaluate runs in.Model on the held-out split (heldout, and ho, the same
-// split as the model reads it) and fills in.Metrics, in.Reliability and, for
-// a model with a linear baseline, in.Baseline. It returns each text's
+// unseenReading is m as it reads heldout and heldout so read: for a model
+// with a character layer, the model whose vocabulary also holds the
+// split's unseen words (cnn.Model.WithUnseen) and the split encoded by it;
+// otherwise m and ho (heldout as m reads it) themselves.
+func unseenReading(m *cnn.Model, heldout *corpus.Dataset, ho audit.Data, threads int) (*cnn.Model, audit.Data, error) {
+	mu, _, err := m.WithUnseen(nil, heldout.Texts())
+	if err != nil {
+		return nil, audit.Data{}, fmt.Errorf("report: the test split's unseen words: %w", err)
+	}
+	if mu == m {
+		return m, ho, nil
+	}
+	hoU, err := audit.NewData(mu, heldout, threads)
+	if err != nil {
+		return nil, audit.Data{}, fmt.Errorf("report: test split: %w", err)
+	}
+	return mu, hoU, nil
+}
+
+// evaluate runs m (in.Model, or the model that reads the split's unseen
+// words, unseenReading) on the held-out split (heldout, and ho, the same
+// split as m reads it) and fills in.Metrics, in.Reliability and, for a
+// model with a linear baseline, in.Baseline. It returns each text's
 // predicted class (the first of equally likely ones) and its probability.
-func evaluate(in *Input, heldout *corpus.Dataset, ho *audit.Data, threads int) (pred []int, conf []float64, err error) {
-	m := in.Model
+func evaluate(in *Input, m *cnn.Model, heldout *corpus.Dataset, ho *audit.Data, threads int) (pred []int, conf []float64, err error) {
 	probs := m.Probabilities(ho.IDs, threads)
 	pred = make([]int, len(probs))
 	conf = make([]float64, len(probs))
@@ -210,10 +237,11 @@ func runAudit(ctx context.Context, m *cnn.Model, tr, ho audit.Data, opt Options,
 	return aud, "", nil
 }
 
-// explainExamples explains the chosen held-out texts of ho (heldout as the
-// model reads it, pred and conf its predictions): n (default 2) correct,
-// wrong and cue-conflicting ones each.
-func explainExamples(ctx context.Context, in *Input, heldout *corpus.Dataset, ho audit.Data, pred []int, conf []float64, n int,
+// explainExamples explains with m (in.Model, or the model that reads the
+// split's unseen words, unseenReading) the chosen held-out texts of ho
+// (heldout as m reads it, pred and conf its predictions): n (default 2)
+// correct, wrong and cue-conflicting ones each.
+func explainExamples(ctx context.Context, in *Input, m *cnn.Model, heldout *corpus.Dataset, ho audit.Data, pred []int, conf []float64, n int,
 	progress Progress) error {
 	if n <= 0 {
 		n = 2
@@ -232,7 +260,7 @@ func explainExamples(ctx context.Context, in *Input, heldout *corpus.Dataset, ho
 			return err
 		}
 		progress("explain", i, len(picks))
-		e, err := explain.Explain(in.Model, ho.Tokens[pk.index], ho.IDs[pk.index], explain.ExplainOptions{Profiles: in.Profiles, Occlusion: true, KeptDown: 3})
+		e, err := explain.Explain(m, ho.Tokens[pk.index], ho.IDs[pk.index], explain.ExplainOptions{Profiles: in.Profiles, Occlusion: true, KeptDown: 3})
 		if err != nil {
 			return fmt.Errorf("report: explaining %s: %w", heldout.Where(heldout.Examples[pk.index]), err)
 		}
