@@ -41,6 +41,9 @@ func baselineOf(m *cnn.Model, c *cnn.Comparison) *baselineJSON {
 // m carries a baseline, the baseline on the same texts (c is nil
 // otherwise).
 func evaluateBeside(m *cnn.Model, enc *corpus.Encoder, ds *corpus.Dataset, threads int) (met cnn.Metrics, c *cnn.Comparison, err error) {
+	if m, enc, err = m.WithUnseen(enc, ds.Texts()); err != nil { // unseen words' own rows, with --chars, as eval reads them
+		return met, nil, err
+	}
 	if c, err = compareWithBaseline(m, ds, threads); err != nil || c != nil {
 		if c != nil {
 			met = c.CNN
