@@ -607,6 +607,11 @@ func parseJSONLine(b []byte, path string, line int, opt Options, keys *jsonlKeys
 	if i := bytes.IndexByte(b, 0); i >= 0 {
 		return "", "", false, errAt(path, line, ErrEncoding, "NUL byte: the file looks binary or UTF-16; save it as UTF-8 text")
 	}
+	if keys.text != "" {
+		if text, label, ok := parseFlatJSONLine(b, *keys); ok {
+			return text, label, true, nil
+		}
+	}
 	var obj map[string]json.RawMessage
 	if err := json.Unmarshal(b, &obj); err != nil {
 		return "", "", false, errAt(path, line, ErrFormat, "not a JSON object (%v): write one object per line, like {\"text\": \"...\", \"label\": \"...\"}", err)
@@ -635,6 +640,83 @@ func parseJSONLine(b []byte, path string, line int, opt Options, keys *jsonlKeys
 		}
 	}
 	return text, label, true, nil
+}
+
+// parseFlatJSONLine is parseJSONLine's path for the common line once the
+// keys are known: one object whose keys and values are all strings with
+// no escape and no control byte, the whole line valid UTF-8. For such a
+// line it returns what json.Unmarshal into a map gives (a repeated key:
+// its last value) and ok; for any other line, or one that lacks a key, ok
+// is false and the general path parses it, errors included.
+func parseFlatJSONLine(b []byte, keys jsonlKeys) (text, label string, ok bool) {
+	if !utf8.Valid(b) {
+		return "", "", false
+	}
+	i := skipJSONSpace(b, 0)
+	if i >= len(b) || b[i] != '{' {
+		return "", "", false
+	}
+	var tv, lv []byte
+	haveText, haveLabel := false, false
+	for {
+		k, j, ok := flatJSONString(b, skipJSONSpace(b, i+1))
+		if !ok {
+			return "", "", false
+		}
+		i = skipJSONSpace(b, j)
+		if i >= len(b) || b[i] != ':' {
+			return "", "", false
+		}
+		v, j, ok := flatJSONString(b, skipJSONSpace(b, i+1))
+		if !ok {
+			return "", "", false
+		}
+		if string(k) == keys.text {
+			tv, haveText = v, true
+		}
+		if keys.label != "" && string(k) == keys.label {
+			lv, haveLabel = v, true
+		}
+		i = skipJSONSpace(b, j)
+		if i < len(b) && b[i] == ',' {
+			continue
+		}
+		if i >= len(b) || b[i] != '}' || skipJSONSpace(b, i+1) != len(b) {
+			return "", "", false
+		}
+		break
+	}
+	if !haveText || (keys.label != "" && !haveLabel) {
+		return "", "", false
+	}
+	return string(tv), string(lv), true
+}
+
+// skipJSONSpace is the index of the first byte of b from i on that is not
+// JSON white space (RFC 8259: space, tab, line feed, carriage return).
+func skipJSONSpace(b []byte, i int) int {
+	for i < len(b) && (b[i] == ' ' || b[i] == '\t' || b[i] == '\n' || b[i] == '\r') {
+		i++
+	}
+	return i
+}
+
+// flatJSONString reads the JSON string that starts at b[i] when it holds
+// no escape and no control byte: its contents and the index after its
+// closing quote. Ok is false for any other value.
+func flatJSONString(b []byte, i int) (s []byte, end int, ok bool) {
+	if i >= len(b) || b[i] != '"' {
+		return nil, 0, false
+	}
+	for j := i + 1; j < len(b); j++ {
+		switch c := b[j]; {
+		case c == '"':
+			return b[i+1 : j], j + 1, true
+		case c == '\\' || c < 0x20:
+			return nil, 0, false
+		}
+	}
+	return nil, 0, false
 }
 
 // emitJSONL applies the shared checks to one record and hands it to fn.

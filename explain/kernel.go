@@ -128,6 +128,12 @@ const corners = 10
 // other corners reject windows that enough kept ones beat on both counts
 // (see skyline). Corners that reject nothing are (−Inf, +Inf).
 //
+// For each filter the staircase corners 2… run down: pc[i] and ac[i] do
+// not grow with i (skyline.screen writes them along its staircase, band
+// writes them all open). The corners whose P is above a window's P are
+// then the first ones, and the last of them has the smallest a, so the
+// SIMD kernels compare a with that corner's a alone.
+//
 // A window must also hold down by at least dmin[f] (P − a ≥ dmin[f], in
 // float32), which is positive: k windows negative for every threshold of
 // the band already hold down at least that far.

@@ -285,6 +285,13 @@ func poolBankNeg512(pre []float32, start []int32, bias []float32, rows [][]float
 		}
 		hi := archsimd.LoadFloat32x16Slice(sc.ac[1][c0:])
 		dmin := archsimd.LoadFloat32x16Slice(sc.dmin[c0:])
+		// The staircase corners, read once per group rather than for
+		// every window that passes the band.
+		var pcs, acs [corners - 2]archsimd.Float32x16
+		for i := range pcs {
+			pcs[i] = archsimd.LoadFloat32x16Slice(sc.pc[2+i][c0:])
+			acs[i] = archsimd.LoadFloat32x16Slice(sc.ac[2+i][c0:])
+		}
 		best, arg := ninf, archsimd.Int32x16{}
 		tv := archsimd.Int32x16{}
 		for t := 0; t < nw; t++ {
@@ -304,12 +311,14 @@ func poolBankNeg512(pre []float32, start []int32, bias []float32, rows [][]float
 			// windows they pass.
 			m := p.GreaterEqual(lo).And(s.Less(hi)).And(p.Sub(s).GreaterEqual(dmin))
 			if bits := m.ToBits() & lanes; bits != 0 {
-				for i := 2; i < corners; i++ {
-					pc := archsimd.LoadFloat32x16Slice(sc.pc[i][c0:])
-					ac := archsimd.LoadFloat32x16Slice(sc.ac[i][c0:])
-					m = m.And(p.GreaterEqual(pc).Or(s.Less(ac)))
+				// The staircase runs down (see bankScreen): the window
+				// passes when a is below the a of the last corner whose
+				// P is above p.
+				lim := pinf
+				for i := range pcs {
+					lim = acs[i].Merge(lim, p.Less(pcs[i]))
 				}
-				if bits = m.ToBits() & lanes; bits != 0 {
+				if bits = m.And(s.Less(lim)).ToBits() & lanes; bits != 0 {
 					s.Store(&av)
 					p.Store(&pv)
 					cands = appendLanes(cands, bits, c0, t, av[:], pv[:])
@@ -368,6 +377,13 @@ func poolBankNeg256(pre []float32, start []int32, bias []float32, rows [][]float
 		if !searching && sc.skipIdle {
 			continue
 		}
+		hi := archsimd.LoadFloat32x8Slice(sc.ac[1][c0:])
+		dmin := archsimd.LoadFloat32x8Slice(sc.dmin[c0:])
+		var pcs, acs [corners - 2]archsimd.Float32x8
+		for i := range pcs {
+			pcs[i] = archsimd.LoadFloat32x8Slice(sc.pc[2+i][c0:])
+			acs[i] = archsimd.LoadFloat32x8Slice(sc.ac[2+i][c0:])
+		}
 		best, arg := ninf, archsimd.Int32x8{}
 		tv := archsimd.Int32x8{}
 		for t := 0; t < nw; t++ {
@@ -388,16 +404,13 @@ func poolBankNeg256(pre []float32, start []int32, bias []float32, rows [][]float
 			if !searching {
 				continue
 			}
-			hi := archsimd.LoadFloat32x8Slice(sc.ac[1][c0:])
-			dmin := archsimd.LoadFloat32x8Slice(sc.dmin[c0:])
 			m := p.GreaterEqual(lo).And(s.Less(hi)).And(p.Sub(s).GreaterEqual(dmin))
 			if bits := m.ToBits() & lanes; bits != 0 {
-				for i := 2; i < corners; i++ {
-					pc := archsimd.LoadFloat32x8Slice(sc.pc[i][c0:])
-					ac := archsimd.LoadFloat32x8Slice(sc.ac[i][c0:])
-					m = m.And(p.GreaterEqual(pc).Or(s.Less(ac)))
+				lim := pinf // as in poolBankNeg512
+				for i := range pcs {
+					lim = acs[i].Merge(lim, p.Less(pcs[i]))
 				}
-				if bits = m.ToBits() & lanes; bits != 0 {
+				if bits = m.And(s.Less(lim)).ToBits() & lanes; bits != 0 {
 					s.Store(&av)
 					p.Store(&pv)
 					cands = appendLanes(cands, uint16(bits), c0, t, av[:], pv[:])

@@ -134,9 +134,18 @@ func TestKernelsNegAgree(t *testing.T) {
 					lo := float32(math.Abs(rng.NormFloat64())) + 1e-3
 					sc.band(f, lo, lo+float32(rng.Float64()))
 				}
-				for i := 2; i < corners; i++ {
-					if rng.IntN(2) == 0 {
-						sc.pc[i][f], sc.ac[i][f] = float32(rng.NormFloat64()), float32(rng.NormFloat64())
+				if rng.IntN(2) == 0 {
+					// A staircase that runs down, as bankScreen asks,
+					// with repeated values.
+					pc, ac := float32(2*rng.NormFloat64()), float32(2*rng.NormFloat64())
+					for i := 2; i < corners; i++ {
+						sc.pc[i][f], sc.ac[i][f] = pc, ac
+						if rng.IntN(3) > 0 {
+							pc -= float32(rng.Float64())
+						}
+						if rng.IntN(3) > 0 {
+							ac -= float32(rng.Float64())
+						}
 					}
 				}
 				if rng.IntN(2) == 0 {

@@ -348,7 +348,8 @@ func (s *skyline) placeFrom(lo int, key string, a, p float32) int {
 // screen writes the skyline's staircase corners for filter f into sc: a
 // corner (P, a) is such that k kept windows have P_y ≥ P and a_y ≤ a, so a
 // window with P_x < P and a_x ≥ a has k dominators. The corners are spread
-// over the staircase. It does nothing while fewer than k windows are kept.
+// over the staircase in its order, so they run down as bankScreen asks.
+// It does nothing while fewer than k windows are kept.
 func (s *skyline) screen(sc *bankScreen, f int) {
 	s.fresh = 0
 	floor := s.dmin()

@@ -175,3 +175,60 @@ func TestNegativesStream(t *testing.T) {
 	}
 	t.Logf("%d filters marked inexact without Reopen", inexact)
 }
+
+// The staircase corners a skyline gives its screen run down, and each is
+// backed by k kept windows with P ≥ its P and a ≤ its a: the two facts
+// that the screen and its SIMD kernels rely on (see bankScreen; from the
+// definitions, no outside source).
+func TestSkylineScreenRunsDown(t *testing.T) {
+	rng := rand.New(rand.NewPCG(44, 44))
+	for trial := 0; trial < 40; trial++ {
+		k := 1 + rng.IntN(10)
+		s := newSkyline(k, 3)
+		if trial%2 == 1 {
+			s.setBand(1.5, 2.5)
+		}
+		// A pool of distinct windows, each with its own fixed (a, P).
+		type window struct {
+			key  []byte
+			a, p float32
+		}
+		pool := make([]window, 50+rng.IntN(500))
+		for i := range pool {
+			p := float32(2 + rng.NormFloat64())
+			pool[i] = window{key: appendKey(nil, []int32{int32(i), int32(i >> 8)}), a: p - float32(rng.ExpFloat64()), p: p}
+		}
+		sc := newBankScreen(1)
+		screens := 0
+		for text := 0; text < 3000; text++ {
+			w := pool[rng.IntN(len(pool))]
+			s.add(w.key, w.a, w.p, text)
+			if !s.needsScreen() {
+				continue
+			}
+			s.screen(&sc, 0)
+			screens++
+			for i := 2; i < corners; i++ {
+				pc, ac := sc.pc[i][0], sc.ac[i][0]
+				if i > 2 && (pc > sc.pc[i-1][0] || ac > sc.ac[i-1][0]) {
+					t.Fatalf("trial %d: corner %d (%g, %g) above corner %d (%g, %g)", trial, i, pc, ac, i-1, sc.pc[i-1][0], sc.ac[i-1][0])
+				}
+				if pc == negInf {
+					continue
+				}
+				backing := 0
+				for j := range s.items {
+					if s.ps[j] >= pc && s.as[j] <= ac {
+						backing++
+					}
+				}
+				if backing < k {
+					t.Fatalf("trial %d: corner %d (%g, %g) backed by %d kept windows, want %d", trial, i, pc, ac, backing, k)
+				}
+			}
+		}
+		if screens == 0 {
+			t.Fatalf("trial %d: the screen was never updated", trial)
+		}
+	}
+}
