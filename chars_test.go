@@ -19,13 +19,7 @@ import (
 // before it creates the folder.
 func TestTrainWithChars(t *testing.T) {
 	dir := t.TempDir()
-	data := demoPart(t, dir, 400)
-	model := filepath.Join(dir, "m.tt")
-	args := []string{"train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet",
-		"--chars", "--char-maps", "6", "--char-width", "2"}
-	if code, _, stderr := tt(t, args...); code != 0 {
-		t.Fatalf("%q: exit %d: %s", args, code, stderr)
-	}
+	model, _ := trainCharModel(t, dir)
 	m, err := cnn.Load(model)
 	if err != nil {
 		t.Fatal(err)
@@ -66,4 +60,19 @@ func TestTrainWithChars(t *testing.T) {
 	if _, err := os.Stat(exp); !os.IsNotExist(err) {
 		t.Errorf("export made %s before refusing: %v", exp, err)
 	}
+}
+
+// trainCharModel trains a small model with the character layer (one epoch
+// on 400 demo texts) into dir with train's extra arguments and returns its
+// path and train's standard output.
+func trainCharModel(t *testing.T, dir string, extra ...string) (model, stdout string) {
+	t.Helper()
+	model = filepath.Join(dir, "m.tt")
+	args := append([]string{"train", "--data", demoPart(t, dir, 400), "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4",
+		"--quiet", "--chars", "--char-maps", "6", "--char-width", "2"}, extra...)
+	code, stdout, stderr := tt(t, args...)
+	if code != 0 {
+		t.Fatalf("%q: exit %d: %s", args, code, stderr)
+	}
+	return model, stdout
 }

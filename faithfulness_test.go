@@ -23,13 +23,7 @@ import (
 // of the vocabulary, gives the file its two labels.
 func TestFaithfulnessReadsUnseenWords(t *testing.T) {
 	dir := t.TempDir()
-	data := demoPart(t, dir, 400)
-	model := filepath.Join(dir, "m.tt")
-	args := []string{"train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet",
-		"--chars", "--char-maps", "6", "--char-width", "2"}
-	if code, _, stderr := tt(t, args...); code != 0 {
-		t.Fatalf("%q: exit %d: %s", args, code, stderr)
-	}
+	model, _ := trainCharModel(t, dir)
 	m, err := cnn.Load(model)
 	if err != nil {
 		t.Fatal(err)

@@ -15,23 +15,15 @@ import (
 // commands report the same accuracy and ECE for the same model and split,
 // which differ from the unknown-word reading (so the check can fail).
 func TestTrainTestFiguresReadUnseenWords(t *testing.T) {
-	dir := t.TempDir()
-	data := demoPart(t, dir, 400)
-	model := filepath.Join(dir, "m.tt")
 	test := filepath.Join("testdata", "demo", "test.csv")
-	args := []string{"train", "--data", data, "--test", test, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4",
-		"--json", "--quiet", "--chars", "--char-maps", "6", "--char-width", "2"}
-	code, out, stderr := tt(t, args...)
-	if code != 0 {
-		t.Fatalf("%q: exit %d: %s", args, code, stderr)
-	}
+	model, out := trainCharModel(t, t.TempDir(), "--test", test, "--json")
 	var trained struct {
 		Test *cnn.Metrics `json:"test"`
 	}
 	if err := json.Unmarshal([]byte(out), &trained); err != nil || trained.Test == nil {
 		t.Fatalf("train --json: no test figures (%v): %.300s", err, out)
 	}
-	code, out, stderr = tt(t, "eval", "--model", model, "--test", test, "--json", "--quiet")
+	code, out, stderr := tt(t, "eval", "--model", model, "--test", test, "--json", "--quiet")
 	if code != 0 {
 		t.Fatalf("eval: exit %d: %s", code, stderr)
 	}
