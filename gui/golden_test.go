@@ -102,13 +102,7 @@ func TestGoldenLoaded(t *testing.T) {
 	}
 	// One worker: the profiles' and the audit's ties are broken in one order.
 	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(1))
-	a := test.NewTempApp(t)
-	tr, te := demoBytes(t)
-	q := &queue{}
-	w, st := newWindow(a, Options{DemoTrain: tr, DemoTest: te}, q.post)
-	w.Resize(fyne.NewSize(smallScreen.Width, smallScreen.Height-menuBar))
-	t.Cleanup(st.cancelAll)
-	q.waitFor(t, "the demo corpus", func() bool { return itemGet(st.data) != nil })
+	w, st, q := demoWindow(t, fyne.NewSize(smallScreen.Width, smallScreen.Height-menuBar))
 	cs := itemGet(st.data)
 	ms, err := newModelState(withBaseline(t, exactModel(t, cs.Train.Texts(), cs.Train.Labels), cs), "exact.tt")
 	if err != nil {

@@ -88,17 +88,28 @@ func smallRecipe(st *State) {
 	}
 }
 
-// trainedWindow opens the demo corpus in a window of the given size,
-// trains the small recipe and waits for the filter profiles.
-func trainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
+// demoWindow opens a window of the given size (zero: the toolkit's own)
+// on the demo corpus and waits until the corpus is loaded; its tasks are
+// stopped when t ends.
+func demoWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	t.Helper()
 	a := test.NewTempApp(t)
 	tr, te := demoBytes(t)
 	q := &queue{}
 	w, st := newWindow(a, Options{DemoTrain: tr, DemoTest: te}, q.post)
-	w.Resize(size)
+	if size != (fyne.Size{}) {
+		w.Resize(size)
+	}
 	t.Cleanup(st.cancelAll)
 	q.waitFor(t, "the demo corpus", func() bool { return itemGet(st.data) != nil })
+	return w, st, q
+}
+
+// trainedWindow opens the demo corpus in a window of the given size,
+// trains the small recipe and waits for the filter profiles.
+func trainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
+	t.Helper()
+	w, st, q := demoWindow(t, size)
 	smallRecipe(st)
 	st.trainNow()
 	q.waitFor(t, "the trained model and its profiles", func() bool { return itemGet(st.profiles) != nil })

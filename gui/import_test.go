@@ -6,7 +6,7 @@ import (
 	"slices"
 	"testing"
 
-	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2"
 
 	"telltale/cnn"
 	"telltale/corpus"
@@ -18,12 +18,7 @@ import (
 // comes back as the open model with the same logits, unsaved, and its
 // weights and vocabulary files count as inputs no save may write onto.
 func TestImportOpensStateDict(t *testing.T) {
-	a := test.NewTempApp(t)
-	tr, te := demoBytes(t)
-	q := &queue{}
-	_, st := newWindow(a, Options{DemoTrain: tr, DemoTest: te}, q.post)
-	t.Cleanup(st.cancelAll)
-	q.waitFor(t, "the demo corpus", func() bool { return itemGet(st.data) != nil })
+	_, st, q := demoWindow(t, fyne.Size{})
 	labels := itemGet(st.data).Train.Labels
 	vocab := []string{corpus.PADWord, corpus.UNKWord, "ferry", "ticket", "refund", "late", "cabin", "deck", "bag", "lost", "thanks", "crew"}
 	m, err := cnn.New(cnn.Config{VocabSize: len(vocab), Dim: 4, Widths: []int{2, 3}, Filters: 3, Classes: len(labels)}, vocab, labels, 7)

@@ -6,7 +6,7 @@ import (
 	"sync/atomic"
 	"testing"
 
-	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2"
 )
 
 // A burst of tasks of one kind runs one goroutine at a time: the first runs,
@@ -83,12 +83,7 @@ func TestProgressDoesNotFloodTheUI(t *testing.T) {
 // however many progress reports it makes: the curves are redrawn from the
 // latest figures, not once per report.
 func TestTrainingDoesNotFloodTheUI(t *testing.T) {
-	a := test.NewTempApp(t)
-	tr, te := demoBytes(t)
-	q := &queue{}
-	_, st := newWindow(a, Options{DemoTrain: tr, DemoTest: te}, q.post)
-	t.Cleanup(st.cancelAll)
-	q.waitFor(t, "the demo corpus", func() bool { return itemGet(st.data) != nil })
+	_, st, q := demoWindow(t, fyne.Size{})
 	smallRecipe(st)
 	st.trainNow()
 	for !st.tasks.idle(taskTrain) {

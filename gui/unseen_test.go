@@ -7,7 +7,7 @@ import (
 	"strings"
 	"testing"
 
-	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2"
 
 	"telltale/cnn"
 	"telltale/corpus"
@@ -23,12 +23,7 @@ import (
 // reading is computed beside them, so the test fails when the window falls
 // back to it.
 func TestWindowReadsUnseenWords(t *testing.T) {
-	a := test.NewTempApp(t)
-	tr, te := demoBytes(t)
-	q := &queue{}
-	_, st := newWindow(a, Options{DemoTrain: tr, DemoTest: te}, q.post)
-	t.Cleanup(st.cancelAll)
-	q.waitFor(t, "the demo corpus", func() bool { return itemGet(st.data) != nil })
+	_, st, q := demoWindow(t, fyne.Size{})
 	cs := itemGet(st.data)
 	n := 0
 	train := cs.Train.Filter(func(corpus.Example) bool { n++; return n <= 600 })
