@@ -64,6 +64,10 @@ var variants = map[string]func(r *cnn.Recipe){
 	"warm3":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 3 },
 	"lrd8":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.8 },
 	"lrd6":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.6 },
+	// a word-weight path beside the pooled filters (cnn.Config.Wide), its
+	// learning rate as the others' or ten times it
+	"wide":     func(r *cnn.Recipe) { r.Model.Wide = true },
+	"widelr10": func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 10 },
 }
 
 func init() {
