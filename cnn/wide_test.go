@@ -156,3 +156,25 @@ func TestWideRefusedWhereUnsupported(t *testing.T) {
 		t.Error("a negative wide learning-rate factor was accepted")
 	}
 }
+
+// A training step with the wide path allocates nothing once its buffers
+// have grown, as without it (TestTrainStepNoAlloc).
+func TestWideStepNoAlloc(t *testing.T) {
+	m := withWide(randModel(6, 40, 8, []int{2, 3}, 4, 3), 6, 0)
+	d := toyData(9, 100, 40)
+	tc, err := TrainConfig{Seed: 1, Threads: 2, TokenDropout: 0.25, WideLR: 10}.WithDefaults()
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr := newTrainer(m, tc)
+	defer tr.close()
+	tr.prepare(d)
+	batches := makeBatches(rand.New(rand.NewPCG(1, 1)), d.IDs, 10, make([]int, d.Len()), nil)
+	for _, b := range batches {
+		tr.step(d, b)
+	}
+	i := 0
+	if a := testing.AllocsPerRun(20, func() { tr.step(d, batches[i%len(batches)]); i++ }); a != 0 {
+		t.Errorf("%v allocations per training step, want 0", a)
+	}
+}
