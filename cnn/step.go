@@ -466,9 +466,7 @@ func (tr *trainer) texts_(k, lo, hi int) {
 			t.dz[c] = t.p[c] * sc
 		}
 		t.dz[y] -= sc
-		if cfg.Wide {
-			wideGrad(ids, loc, t.dz, t.wide)
-		}
+		wideGrad(ids, loc, t.dz, t.wide)
 		// Output layer.
 		for c := 0; c < C; c++ {
 			axpy(t.dz[c], t.h, t.ow[c*nf:(c+1)*nf])
@@ -510,8 +508,12 @@ func (tr *trainer) texts_(k, lo, hi int) {
 
 // wideGrad adds the gradient of the wide term of one text (ids, with
 // their local indices loc) to wide, the rows of the batch's words: dz/N for
-// each non-PAD occurrence, N the number of non-PAD ids.
+// each non-PAD occurrence, N the number of non-PAD ids. An empty wide (no
+// wide path) is left alone.
 func wideGrad(ids, loc []int32, dz, wide []float32) {
+	if len(wide) == 0 {
+		return
+	}
 	n := 0
 	for _, id := range ids {
 		if id != corpus.PAD {
