@@ -90,6 +90,11 @@ func (m *Model) Save(path string) (err error) {
 	if err := m.checkShapes(); err != nil {
 		return err
 	}
+	if m.Config.Wide {
+		// The file format has no section for the word-weight table yet;
+		// saving without it would change the model's predictions.
+		return fmt.Errorf("cnn: saving %s: models with a wide word-weight path cannot be saved yet: train without it to keep a model", path)
+	}
 	if err := atomicfile.Write(path, m.encode); err != nil {
 		return fmt.Errorf("cnn: saving model: %w", err)
 	}

@@ -68,8 +68,38 @@ func (m *Model) Forward(ids []int32) Output {
 		}
 	}
 	m.Head(out.Pooled, out.Logits)
+	m.addWide(ids, out.Logits)
 	Softmax(out.Logits, out.Probs)
 	return out
+}
+
+// addWide adds the wide path's term to logits (len Classes) for the text
+// ids as given, before padding: each non-PAD token t adds Wide[x[t]][c]/N,
+// N the number of non-PAD ids. It does nothing without Config.Wide or when
+// N is 0.
+func (m *Model) addWide(ids []int32, logits []float32) {
+	if !m.Config.Wide {
+		return
+	}
+	n := 0
+	for _, id := range ids {
+		if id != corpus.PAD {
+			n++
+		}
+	}
+	if n == 0 {
+		return
+	}
+	inv, C := 1/float32(n), m.Config.Classes
+	for _, id := range ids {
+		if id == corpus.PAD {
+			continue
+		}
+		row := m.Wide[int(id)*C : int(id)*C+C]
+		for c, w := range row {
+			logits[c] += w * inv
+		}
+	}
 }
 
 // Head computes logits = OutB + OutW·pooled. Len(pooled) must be NumFilters

@@ -67,6 +67,7 @@ func ref64Scaled(m *Model, texts [][]int32, labels []int, drop []float32, scale 
 			for g := range h {
 				z[c] += float64(m.OutW[c*nf+g]) * h[g]
 			}
+			z[c] += wide64(m, ids, c)
 			mx = math.Max(mx, z[c])
 		}
 		var s float64
@@ -76,6 +77,27 @@ func ref64Scaled(m *Model, texts [][]int32, labels []int, drop []float32, scale 
 		loss += math.Log(s) + mx - z[labels[i]]
 	}
 	return loss / float64(len(texts)), pattern
+}
+
+// wide64 is the wide term of logit c for the text ids in float64, written
+// from its definition (model.go): the mean over the non-PAD ids of their
+// weights for class c; 0 without Config.Wide or non-PAD ids.
+func wide64(m *Model, ids []int32, c int) float64 {
+	if !m.Config.Wide {
+		return 0
+	}
+	var sum float64
+	n := 0
+	for _, id := range ids {
+		if id != 0 {
+			sum += float64(m.Wide[int(id)*m.Config.Classes+c])
+			n++
+		}
+	}
+	if n == 0 {
+		return 0
+	}
+	return sum / float64(n)
 }
 
 // analytic returns the trainer's loss and gradients for one batch without
@@ -107,7 +129,11 @@ func gradParams(m *Model, tr *trainer) []paramRef {
 		ps = append(ps, paramRef{"W" + string(rune('0'+c.Width)), c.W, g})
 		ps = append(ps, paramRef{"B" + string(rune('0'+c.Width)), c.B, tr.th[0].b[b*m.Config.Filters : (b+1)*m.Config.Filters]})
 	}
-	return append(ps, paramRef{"OutW", m.OutW, tr.th[0].ow}, paramRef{"OutB", m.OutB, tr.th[0].ob})
+	ps = append(ps, paramRef{"OutW", m.OutW, tr.th[0].ow}, paramRef{"OutB", m.OutB, tr.th[0].ob})
+	if m.Wide != nil {
+		ps = append(ps, paramRef{"Wide", m.Wide, tr.gWide})
+	}
+	return ps
 }
 
 // Gradients of the mean cross-entropy with respect to every parameter agree
@@ -115,78 +141,112 @@ func gradParams(m *Model, tr *trainer) []paramRef {
 // practice, no source; the tolerance allows float32 rounding in the analytic
 // path: 1e-4 relative plus 1e-6 absolute).
 func TestGradientFiniteDifferences(t *testing.T) {
-	const h = 1e-3
 	for seed := uint64(1); seed <= 6; seed++ {
-		m := randModel(seed, 12, 4, []int{1, 2, 3}, 3, 3)
-		// Larger weights than the default spread the activations.
-		for i := range m.OutW {
-			m.OutW[i] *= 3
+		gradCheck(t, seed, false)
+	}
+}
+
+// The same check with the wide word-weight path on (Config.Wide), its table
+// filled with random values so that its term is not zero; the PAD row and
+// the rows of words outside the batch must get no gradient.
+func TestWideGradientFiniteDifferences(t *testing.T) {
+	for seed := uint64(1); seed <= 6; seed++ {
+		gradCheck(t, seed, true)
+	}
+}
+
+// gradCheck compares the analytic gradients of one random batch with
+// finite differences (see TestGradientFiniteDifferences).
+func gradCheck(t *testing.T, seed uint64, wide bool) {
+	t.Helper()
+	const h = 1e-3
+	m := randModel(seed, 12, 4, []int{1, 2, 3}, 3, 3)
+	// Larger weights than the default spread the activations.
+	for i := range m.OutW {
+		m.OutW[i] *= 3
+	}
+	if wide {
+		m.Config.Wide = true
+		m.Wide = make([]float32, m.Config.VocabSize*m.Config.Classes)
+		wr := rand.New(rand.NewPCG(seed, 7))
+		for i := m.Config.Classes; i < len(m.Wide); i++ {
+			m.Wide[i] = float32(2*wr.Float64() - 1)
 		}
-		if seed%3 == 0 {
-			m.Masked = make([]bool, m.Config.NumFilters())
-			m.Masked[4] = true
-		}
-		rng := rand.New(rand.NewPCG(seed, 99))
-		texts := randTexts(rng, 5, 8, 12)
-		texts[0] = []int32{3} // shorter than the widest filter
-		labels := make([]int, len(texts))
-		for i := range labels {
-			labels[i] = rng.IntN(3)
-		}
-		var drop []float32
-		if seed%2 == 0 {
-			drop = make([]float32, len(texts)*m.Config.NumFilters())
-			for i := range drop {
-				if rng.IntN(3) > 0 {
-					drop[i] = 1.5
-				}
+	}
+	if seed%3 == 0 {
+		m.Masked = make([]bool, m.Config.NumFilters())
+		m.Masked[4] = true
+	}
+	rng := rand.New(rand.NewPCG(seed, 99))
+	texts := randTexts(rng, 5, 8, 12)
+	texts[0] = []int32{3} // shorter than the widest filter
+	if wide {
+		texts[1] = []int32{0, 5, 0, 7} // N counts the non-PAD ids alone
+		texts[2] = []int32{0, 0}       // no wide term at all
+	}
+	labels := make([]int, len(texts))
+	for i := range labels {
+		labels[i] = rng.IntN(3)
+	}
+	var drop []float32
+	if seed%2 == 0 {
+		drop = make([]float32, len(texts)*m.Config.NumFilters())
+		for i := range drop {
+			if rng.IntN(3) > 0 {
+				drop[i] = 1.5
 			}
 		}
-		loss, tr := analytic(m, texts, labels, drop, 1+int(seed%2))
-		ref, _ := ref64(m, texts, labels, drop)
-		if math.Abs(loss-ref) > 1e-5*math.Abs(ref) {
-			t.Fatalf("seed %d: loss %g, float64 reference %g", seed, loss, ref)
+	}
+	loss, tr := analytic(m, texts, labels, drop, 1+int(seed%2))
+	ref, _ := ref64(m, texts, labels, drop)
+	if math.Abs(loss-ref) > 1e-5*math.Abs(ref) {
+		t.Fatalf("seed %d: loss %g, float64 reference %g", seed, loss, ref)
+	}
+	used := map[int]bool{}
+	for _, ids := range texts {
+		for _, id := range ids {
+			used[int(id)] = true
 		}
-		used := map[int]bool{}
-		for _, ids := range texts {
-			for _, id := range ids {
-				used[int(id)] = true
+	}
+	checked, skipped := 0, 0
+	for _, pr := range gradParams(m, tr) {
+		for i := range pr.p {
+			if pr.name == "Emb" && (!used[i/m.Config.Dim] || i < m.Config.Dim) { // PAD is fixed at zero
+				if pr.g[i] != 0 {
+					t.Fatalf("seed %d: gradient %g for unused embedding entry %d", seed, pr.g[i], i)
+				}
+				continue
 			}
-		}
-		checked, skipped := 0, 0
-		for _, pr := range gradParams(m, tr) {
-			for i := range pr.p {
-				if pr.name == "Emb" && (!used[i/m.Config.Dim] || i < m.Config.Dim) { // PAD is fixed at zero
-					if pr.g[i] != 0 {
-						t.Fatalf("seed %d: gradient %g for unused embedding entry %d", seed, pr.g[i], i)
-					}
-					continue
+			if pr.name == "Wide" && (!used[i/m.Config.Classes] || i < m.Config.Classes) {
+				if pr.g[i] != 0 {
+					t.Fatalf("seed %d: gradient %g for unused or PAD wide entry %d", seed, pr.g[i], i)
 				}
-				p0 := pr.p[i]
-				pr.p[i] = float32(float64(p0) + h)
-				up := pr.p[i]
-				pu, patU := ref64(m, texts, labels, drop)
-				pr.p[i] = float32(float64(p0) - h)
-				dn := pr.p[i]
-				pd, patD := ref64(m, texts, labels, drop)
-				pr.p[i] = p0
-				if !slices.Equal(patU, patD) {
-					skipped++
-					continue
-				}
-				num := (pu - pd) / (float64(up) - float64(dn))
-				a := float64(pr.g[i])
-				if math.Abs(a-num) > 1e-4*math.Max(math.Abs(a), math.Abs(num))+1e-6 {
-					t.Errorf("seed %d %s[%d]: analytic %g, finite difference %g", seed, pr.name, i, a, num)
-				}
-				checked++
+				continue
 			}
+			p0 := pr.p[i]
+			pr.p[i] = float32(float64(p0) + h)
+			up := pr.p[i]
+			pu, patU := ref64(m, texts, labels, drop)
+			pr.p[i] = float32(float64(p0) - h)
+			dn := pr.p[i]
+			pd, patD := ref64(m, texts, labels, drop)
+			pr.p[i] = p0
+			if !slices.Equal(patU, patD) {
+				skipped++
+				continue
+			}
+			num := (pu - pd) / (float64(up) - float64(dn))
+			a := float64(pr.g[i])
+			if math.Abs(a-num) > 1e-4*math.Max(math.Abs(a), math.Abs(num))+1e-6 {
+				t.Errorf("seed %d %s[%d]: analytic %g, finite difference %g", seed, pr.name, i, a, num)
+			}
+			checked++
 		}
-		if pad := tr.gEmb[:m.Config.Dim]; slices.ContainsFunc(pad, func(v float32) bool { return v != 0 }) {
-			t.Errorf("seed %d: PAD row has a gradient", seed)
-		}
-		if skipped > checked/10 {
-			t.Errorf("seed %d: %d coordinates skipped at kinks, %d checked: too many to trust the check", seed, skipped, checked)
-		}
+	}
+	if pad := tr.gEmb[:m.Config.Dim]; slices.ContainsFunc(pad, func(v float32) bool { return v != 0 }) {
+		t.Errorf("seed %d: PAD row has a gradient", seed)
+	}
+	if skipped > checked/10 {
+		t.Errorf("seed %d: %d coordinates skipped at kinks, %d checked: too many to trust the check", seed, skipped, checked)
 	}
 }

@@ -17,7 +17,9 @@ import (
 // the PAD row zero; convolution and output weights and biases uniform in
 // [−1/√fan_in, 1/√fan_in], which is PyTorch's default for Conv1d and Linear
 // (kaiming_uniform with a=√5; fan_in = Dim·Width for a convolution, NumFilters
-// for the output layer). The same seed gives the same model.
+// for the output layer). The wide path's table (Config.Wide) starts at zero,
+// so a new model's predictions are its filters' alone. The same seed gives
+// the same model.
 func New(cfg Config, vocab []string, labels []string, seed uint64) (*Model, error) {
 	if err := cfg.Validate(); err != nil {
 		return nil, err
@@ -47,6 +49,9 @@ func New(cfg Config, vocab []string, labels []string, seed uint64) (*Model, erro
 	}
 	if vocab == nil {
 		m.Vocab = nil
+	}
+	if cfg.Wide {
+		m.Wide = make([]float32, cfg.VocabSize*cfg.Classes)
 	}
 	uni(m.Emb[d:], 0.25)
 	for b, w := range cfg.Widths {
@@ -122,6 +127,9 @@ func (m *Model) Clone() *Model {
 	}
 	c.OutW = append([]float32(nil), m.OutW...)
 	c.OutB = append([]float32(nil), m.OutB...)
+	if m.Wide != nil {
+		c.Wide = append([]float32(nil), m.Wide...)
+	}
 	if m.Masked != nil {
 		c.Masked = append([]bool(nil), m.Masked...)
 	}
@@ -148,6 +156,10 @@ func (m *Model) checkShapes() error {
 		return fmt.Errorf("cnn: %d filter banks for %d widths", len(m.Convs), len(cfg.Widths))
 	case len(m.OutW) != cfg.Classes*nf || len(m.OutB) != cfg.Classes:
 		return fmt.Errorf("cnn: output layer has %d+%d values, want %d×%d+%d", len(m.OutW), len(m.OutB), cfg.Classes, nf, cfg.Classes)
+	case cfg.Wide && len(m.Wide) != cfg.VocabSize*cfg.Classes:
+		return fmt.Errorf("cnn: wide word-weight table has %d values, want %d×%d", len(m.Wide), cfg.VocabSize, cfg.Classes)
+	case !cfg.Wide && m.Wide != nil:
+		return fmt.Errorf("cnn: a wide word-weight table without Config.Wide")
 	case m.Masked != nil && len(m.Masked) != nf:
 		return fmt.Errorf("cnn: mask has %d entries for %d filters", len(m.Masked), nf)
 	case len(m.Labels) != cfg.Classes:

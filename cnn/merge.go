@@ -38,6 +38,8 @@ func Merge(ms []*Model) (*Model, error) {
 			return nil, fmt.Errorf("cnn: model %d has other widths, classes or vocabulary size than model 0", i)
 		case !slices.Equal(m.Vocab, first.Vocab) || !slices.Equal(m.Labels, first.Labels):
 			return nil, fmt.Errorf("cnn: model %d has another vocabulary or other labels than model 0", i)
+		case c.Wide:
+			return nil, fmt.Errorf("cnn: model %d has a wide word-weight path: models with one cannot be merged yet, train one", i)
 		case c.Chars != nil:
 			return nil, fmt.Errorf("cnn: model %d has a character layer: models with character layers cannot be merged, train one", i)
 		case m.Masked != nil && slices.Contains(m.Masked, true):

@@ -20,6 +20,12 @@ type Config struct {
 	// Chars, when not nil, makes the last Chars.Filters of the Dim columns
 	// of every word vector its character part (charcnn.go); nil: none.
 	Chars *CharConfig `json:"chars,omitempty"`
+	// Wide adds a word-weight path beside the pooled filters (Model.Wide):
+	// the linear part of Wide & Deep (Cheng et al. 2016, "Wide & Deep
+	// Learning for Recommender Systems"), a mean of word weights as in
+	// Joulin et al. (2017, "Bag of Tricks for Efficient Text
+	// Classification"), trained jointly with the rest.
+	Wide bool `json:"wide,omitempty"`
 }
 
 // Validate reports the first problem with c, or nil.
@@ -86,6 +92,11 @@ type Conv struct {
 //	a[g][t] = B[f] + Σ_s Σ_d W[f][s][d]·Emb[x[t+s]][d]   for t = 0 … L'−w
 //	h[g]    = max_t relu(a[g][t])   (0 when filter g is masked)
 //	logit[c] = OutB[c] + Σ_g OutW[c][g]·h[g]
+//	         + (1/N) Σ_{t: x[t] ≠ PAD} Wide[x[t]][c]   (Config.Wide only)
+//
+// where N is the number of ids of the text, before padding, that are not
+// PAD (the wide term is left out when N is 0); so token t's share of logit
+// c is exactly Wide[x[t]][c]/N. Filter masking does not touch the wide term.
 //
 // Windows never reach past L', so a text's logits do not depend on how it was
 // batched.
@@ -98,6 +109,11 @@ type Model struct {
 	Convs []Conv    // one per entry of Config.Widths
 	OutW  []float32 // Classes*NumFilters, row-major [class][filter]
 	OutB  []float32 // Classes
+
+	// Wide is the word-weight table of the wide path, VocabSize*Classes
+	// laid out [word][class], when Config.Wide is set, else nil. Row 0
+	// (PAD) is always zero.
+	Wide []float32
 
 	// Char is the character layer when Config.Chars is set, else nil.
 	Char *CharLayer

@@ -76,6 +76,9 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 	if r.Model.Chars != nil && r.Members > 1 {
 		return nil, fmt.Errorf("cnn: models with a character layer cannot be merged into an ensemble: train one member")
 	}
+	if r.Model.Wide && r.Members > 1 {
+		return nil, fmt.Errorf("cnn: models with a wide word-weight path cannot be merged into an ensemble yet: train one member")
+	}
 	enc, err := corpus.TrainEncoder(r.Tokenizer, train.Texts())
 	if err != nil {
 		return nil, err

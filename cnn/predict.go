@@ -85,6 +85,7 @@ func (p *Predictor) Run(texts [][]int32, outs []Output) {
 		}
 		m.pool(o.Pre, o.Pooled)
 		m.Head(o.Pooled, o.Logits)
+		m.addWide(texts[i], o.Logits)
 		Softmax(o.Logits, o.Probs)
 	}
 }
@@ -103,6 +104,7 @@ func (p *Predictor) Probs(texts [][]int32, dst []float32) {
 	for i := range texts {
 		p.m.pool(p.best[i*nf:(i+1)*nf], h)
 		p.m.Head(h, z)
+		p.m.addWide(texts[i], z)
 		Softmax(z, dst[i*cfg.Classes:(i+1)*cfg.Classes])
 	}
 }

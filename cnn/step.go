@@ -69,6 +69,7 @@ func (w *workers) close() {
 // threadBuf is one worker's scratch and gradient accumulators.
 type threadBuf struct {
 	w, b, ow, ob, emb []float32 // gradients: conv W (all banks), conv B, OutW, OutB, embeddings of the batch's words
+	wide              []float32 // gradient of the batch's words' rows of Model.Wide (Config.Wide only)
 	h, z, p, dz       []float32
 	dh                []float32
 	rows              []*float32 // table rows of the current text's positions
@@ -79,11 +80,13 @@ type threadBuf struct {
 // paramGroup is one trainable tensor with its gradient and optimizer state;
 // decay marks the weights that weight decay shrinks (not the biases), head
 // the output layer's (trained alone in the head warm-up), and steps counts
-// the optimizer steps the group has taken (Adam's bias correction).
+// the optimizer steps the group has taken (Adam's bias correction);
+// lrMul multiplies the learning rate (0 means 1).
 type paramGroup struct {
 	p, g, s1, s2 []float32
 	decay, head  bool
 	steps        int
+	lrMul        float64
 }
 
 // trainer holds everything a training step needs, allocated once.
@@ -129,6 +132,7 @@ type trainer struct {
 	wOff   []int // offset of each bank in the flattened conv gradient
 	th     []threadBuf
 	gEmb   []float32 // full-size embedding gradient, zero outside the batch's rows
+	gWide  []float32 // full-size gradient of Model.Wide, zero outside the batch's rows
 	groups []paramGroup
 	cur    *paramGroup
 
@@ -190,6 +194,13 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 	add(m.OutB, g0.ob, false)
 	tr.groups[len(tr.groups)-1].head = true
 	tr.groups[len(tr.groups)-2].head = true
+	if cfg.Wide {
+		// A weight like the embeddings (weight decay shrinks it); not part
+		// of the head warm-up, and the PAD row is never trained.
+		tr.gWide = make([]float32, len(m.Wide))
+		add(m.Wide[cfg.Classes:], tr.gWide[cfg.Classes:], true)
+		tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
+	}
 	if m.Char != nil {
 		tr.ch = newCharTrain(tr, add)
 		tr.fnCharFwd = tr.charForwardRows
@@ -331,6 +342,10 @@ func (tr *trainer) forwardBackward() float64 {
 			t.emb = grow(t.emb, nw*d)
 			clear(t.emb)
 		}
+		if cfg.Wide {
+			t.wide = grow(t.wide, nw*cfg.Classes)
+			clear(t.wide)
+		}
 	}
 	tr.wk.run(nw, tr.fnGather)
 	if tr.ch != nil {
@@ -355,6 +370,9 @@ func (tr *trainer) forwardBackward() float64 {
 	}
 	if !tr.tc.FreezeEmb {
 		tr.wk.run(nw, tr.fnScatter)
+	}
+	if cfg.Wide {
+		tr.scatterWide()
 	}
 	var sum float64
 	for _, l := range tr.loss[:n] {
@@ -436,6 +454,7 @@ func (tr *trainer) texts_(k, lo, hi int) {
 			}
 		}
 		m.Head(t.h, t.z)
+		m.addWide(ids, t.z)
 		y := tr.labels[i]
 		tr.loss[i] = crossEntropy(t.z, t.p, y)
 		sc := scale
@@ -447,6 +466,7 @@ func (tr *trainer) texts_(k, lo, hi int) {
 			t.dz[c] = t.p[c] * sc
 		}
 		t.dz[y] -= sc
+		wideGrad(ids, loc, t.dz, t.wide)
 		// Output layer.
 		for c := 0; c < C; c++ {
 			axpy(t.dz[c], t.h, t.ow[c*nf:(c+1)*nf])
@@ -483,6 +503,33 @@ func (tr *trainer) texts_(k, lo, hi int) {
 				}
 			}
 		}
+	}
+}
+
+// wideGrad adds the gradient of the wide term of one text (ids, with
+// their local indices loc) to wide, the rows of the batch's words: dz/N for
+// each non-PAD occurrence, N the number of non-PAD ids. An empty wide (no
+// wide path) is left alone.
+func wideGrad(ids, loc []int32, dz, wide []float32) {
+	if len(wide) == 0 {
+		return
+	}
+	n := 0
+	for _, id := range ids {
+		if id != corpus.PAD {
+			n++
+		}
+	}
+	if n == 0 {
+		return
+	}
+	inv, C := 1/float32(n), len(dz)
+	for p, id := range ids {
+		if id == corpus.PAD {
+			continue
+		}
+		li := int(loc[p])
+		axpy(inv, dz, wide[li*C:li*C+C])
 	}
 }
 
@@ -524,6 +571,26 @@ func (tr *trainer) reduce(_, lo, hi int) {
 		a, b = part(len(tr.th[0].emb))
 		sumInto(func(t *threadBuf) []float32 { return t.emb }, a, b)
 	}
+	if tr.gWide != nil {
+		a, b = part(len(tr.th[0].wide))
+		sumInto(func(t *threadBuf) []float32 { return t.wide }, a, b)
+	}
+}
+
+// scatterWide copies the batch words' wide-table gradients into gWide.
+func (tr *trainer) scatterWide() {
+	C := tr.m.Config.Classes
+	for i, id := range tr.ws.words {
+		copy(tr.gWide[int(id)*C:int(id)*C+C], tr.th[0].wide[i*C:i*C+C])
+	}
+}
+
+// unscatterWide zeroes the batch words' rows of gWide again.
+func (tr *trainer) unscatterWide() {
+	C := tr.m.Config.Classes
+	for _, id := range tr.ws.words {
+		clear(tr.gWide[int(id)*C : int(id)*C+C])
+	}
 }
 
 // scatter copies the batch words' embedding gradients into gEmb: their
@@ -561,6 +628,9 @@ func (tr *trainer) update() {
 	if !tr.tc.FreezeEmb {
 		tr.wk.run(len(tr.ws.words), tr.fnUnscatter)
 	}
+	if tr.gWide != nil {
+		tr.unscatterWide()
+	}
 	if s := tr.m.Config.MaxNorm; s > 0 {
 		maxNormRows(tr.m.OutW, tr.m.Config.NumFilters(), s)
 	}
@@ -569,23 +639,27 @@ func (tr *trainer) update() {
 func (tr *trainer) opt(_, lo, hi int) {
 	g := tr.cur
 	tc := tr.tc
+	lr := tr.lr
+	if g.lrMul > 0 {
+		lr *= g.lrMul
+	}
 	if tc.WeightDecay > 0 && g.decay {
 		// Decoupled weight decay (Loshchilov & Hutter 2019), before the step
 		// as torch.optim.AdamW does it.
-		k := float32(1 - tr.lr*tc.WeightDecay)
+		k := float32(1 - lr*tc.WeightDecay)
 		for i := range g.p[lo:hi] {
 			g.p[lo+i] *= k
 		}
 	}
 	if tc.Optimizer == "adadelta" {
-		adadeltaUpdate(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi], float32(tr.lr), float32(tc.Rho), float32(tc.Eps))
+		adadeltaUpdate(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi], float32(lr), float32(tc.Rho), float32(tc.Eps))
 		return
 	}
 	// Adam (Kingma & Ba 2015) in PyTorch's formulation; see adamStepGo.
 	bc1 := 1 - math.Pow(tc.Beta1, float64(g.steps))
 	bc2 := 1 - math.Pow(tc.Beta2, float64(g.steps))
 	adamStep(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi],
-		float32(tr.lr), float32(tc.Beta1), float32(tc.Beta2), float32(tc.Eps), float32(bc1), float32(bc2))
+		float32(lr), float32(tc.Beta1), float32(tc.Beta2), float32(tc.Eps), float32(bc1), float32(bc2))
 }
 
 // maxNormRows rescales every row (of n values) of w whose L2 norm exceeds s

@@ -86,6 +86,9 @@ type TrainConfig struct {
 	// LR·γ^(e−1): an exponential schedule, common practice, no source. 0
 	// (or 1) keeps LR throughout; it must be in [0, 1].
 	LRDecay float64 `json:"lr_decay,omitempty"`
+	// WideLR multiplies the learning rate (and so the decoupled weight
+	// decay) of the wide word-weight table (Config.Wide); 0 means 1.
+	WideLR float64 `json:"wide_lr,omitempty"`
 }
 
 // WithDefaults returns tc with every zero field set to its default, or an
@@ -152,6 +155,8 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: head warm-up of %d epochs: must be 0 (off) or fewer than the %d epochs", tc.HeadWarmup, tc.Epochs)
 	case !(tc.LRDecay >= 0 && tc.LRDecay <= 1):
 		return tc, fmt.Errorf("cnn: learning-rate decay %g: must be in [0, 1] (0: none)", tc.LRDecay)
+	case !(tc.WideLR >= 0) || math.IsInf(tc.WideLR, 0) || tc.WeightDecay*tc.LR*tc.WideLR >= 1:
+		return tc, fmt.Errorf("cnn: wide learning-rate factor %g: must be 0 (1×) or positive, with decay × learning rate × factor below 1", tc.WideLR)
 	}
 	return tc, nil
 }
@@ -418,7 +423,7 @@ func finiteWeights(m *Model) bool {
 		}
 		return true
 	}
-	ok := finite(m.Emb) && finite(m.OutW) && finite(m.OutB)
+	ok := finite(m.Emb) && finite(m.OutW) && finite(m.OutB) && finite(m.Wide)
 	if l := m.Char; l != nil {
 		ok = ok && finite(l.Emb) && finite(l.W) && finite(l.B)
 	}
@@ -477,6 +482,7 @@ func copyWeights(dst, src *Model) *Model {
 	}
 	copy(dst.OutW, src.OutW)
 	copy(dst.OutB, src.OutB)
+	copy(dst.Wide, src.Wide)
 	if src.Char != nil {
 		copy(dst.Char.Emb, src.Char.Emb)
 		copy(dst.Char.W, src.Char.W)

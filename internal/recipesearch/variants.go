@@ -64,6 +64,14 @@ var variants = map[string]func(r *cnn.Recipe){
 	"warm3":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 3 },
 	"lrd8":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.8 },
 	"lrd6":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.6 },
+	// a word-weight path beside the pooled filters (cnn.Config.Wide), its
+	// learning rate as the others' or 10 to 1000 times it
+	"wide":       func(r *cnn.Recipe) { r.Model.Wide = true },
+	"widelr10":   func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 10 },
+	"widelr30":   func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 30 },
+	"widelr100":  func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 100 },
+	"widelr300":  func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 300 },
+	"widelr1000": func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 1000 },
 }
 
 func init() {
