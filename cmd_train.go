@@ -18,7 +18,7 @@ var cmdTrain = &command{
 		"               [--text-col C] [--label-col C] [--epochs N] [--batch N] [--dim N] [--widths 3,4,5] [--maps N]\n" +
 		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--vectors FILE] [--freeze]\n" +
 		"               [--min-count N] [--subword] [--class-weight none|balanced] [--word-dropout A] [--token-dropout P]\n" +
-		"               [--chars [--char-maps N] [--char-width W]]\n" +
+		"               [--chars [--char-maps N] [--char-width W]] [--wide [--wide-lr F]]\n" +
 		"               [--baseline=false] [--mask-tokens FILE] [--seed N] [--threads N] [--force] [--json]",
 	Short: "train a sentence CNN on labeled data and save the model",
 	Long: `Train builds a vocabulary from the training split, trains the convolutional
@@ -49,6 +49,12 @@ token by the unknown word with that probability in every batch (Bowman et
 al. 2016), --word-dropout α replaces a word seen #w times with probability
 α/(#w+α) (Kiperwasser & Goldberg 2016), so that the unknown word's vector
 is trained on what unknown words are like.
+
+--wide adds a word-weight path beside the filters: each vocabulary word has
+one weight per label, and the mean of those weights over the text's words
+is added to the logits (the linear part of Wide & Deep, Cheng et al. 2016;
+the averaged word features of Joulin et al. 2017), trained with the rest;
+--wide-lr F multiplies its learning rate. It combines with --chars.
 
 Before training it refuses data that would give a useless model: more
 distinct labels than half the examples (the text and label columns swapped,

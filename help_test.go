@@ -105,14 +105,19 @@ func TestTrainDefaultsAreTheRecipe(t *testing.T) {
 	if !reflect.DeepEqual(r, def) || o.split.DevFrac != cnn.DefaultDevFrac || o.split.TestFrac != cnn.DefaultTestFrac {
 		t.Errorf("train's defaults %+v / %+v differ from cnn.DefaultRecipe %+v", r, o.split, def)
 	}
-	_, r = parse("--class-weight", "balanced", "--word-dropout", "0.5", "--token-dropout", "0.125", "--baseline=false")
+	_, r = parse("--class-weight", "balanced", "--word-dropout", "0.5", "--token-dropout", "0.125", "--baseline=false",
+		"--wide", "--wide-lr", "4")
 	want := def
 	want.Train.ClassWeight, want.Train.WordDropout, want.Train.TokenDropout, want.Baseline = "balanced", 0.5, 0.125, nil
+	want.Model.Wide, want.Train.WideLR = true, 4
 	if !reflect.DeepEqual(r, want) {
 		t.Errorf("with the options set: %+v, want %+v", r, want)
 	}
 	if _, r = parse("--class-weight", "none"); r.Train.ClassWeight != "" {
 		t.Errorf("--class-weight none gave %q, want the recipe's \"\"", r.Train.ClassWeight)
+	}
+	if _, r = parse("--wide=false"); r.Model.Wide {
+		t.Error("--wide=false asks for the wide path")
 	}
 }
 

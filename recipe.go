@@ -22,7 +22,8 @@ type recipeOptions struct {
 	CharMaps, CharWidth                                  int
 	Widths, Optimizer, Vectors, Tokenizer, ClassWeight   string
 	Dropout, LR, MaxNorm, WordDropout, TokenDropout      float64
-	Freeze, Subword, Lower, Baseline, Chars              bool
+	WideLR                                               float64
+	Freeze, Subword, Lower, Baseline, Chars, Wide        bool
 
 	widths []int
 	// dimFromVectors: no --dim was given with --vectors, so the embedding
@@ -63,6 +64,10 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 		"character-aware word vectors: a character CNN per word, its output beside the word's table vector, so unseen and misspelled words get vectors of their own")
 	intVar(fs, &r.CharMaps, "char-maps", cnn.DefaultCharFilters, "with --chars: feature maps (filters) of the character layer, the numbers each word vector gains")
 	intVar(fs, &r.CharWidth, "char-width", cnn.DefaultCharWidth, "with --chars: characters per character filter window (1 to 32)")
+	fs.BoolVar(&r.Wide, "wide", def.Model.Wide,
+		"a word-weight path beside the filters: the mean over the text's words of a weight per word and label, added to the logits and trained with them")
+	floatVar(fs, &r.WideLR, "wide-lr", def.Train.WideLR,
+		"with --wide: factor on the learning rate of the word-weight table; 0 means 1, the rest's rate")
 	fs.BoolVar(&r.Baseline, "baseline", def.Baseline != nil,
 		"also fit the linear baseline (TF-IDF n-grams + logistic regression) and show it beside the CNN; --baseline=false leaves it out")
 }
@@ -134,6 +139,10 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 		return usagef("--char-maps %d: give at most 4096", r.CharMaps)
 	case !r.Chars && (isSet(fs, "char-maps") || isSet(fs, "char-width")):
 		return usagef("--char-maps and --char-width shape the character layer: add --chars")
+	case r.WideLR < 0:
+		return usagef("--wide-lr %g: give a positive factor, or 0 for the rest's learning rate", r.WideLR)
+	case !r.Wide && isSet(fs, "wide-lr"):
+		return usagef("--wide-lr sets the learning rate of the word-weight table: add --wide")
 	}
 	return nil
 }
@@ -194,6 +203,7 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 	tc.Epochs, tc.Batch, tc.Optimizer, tc.LR, tc.Seed = r.Epochs, r.Batch, r.Optimizer, r.LR, seed
 	tc.Threads, tc.Patience, tc.MaxLen, tc.FreezeEmb = threads, r.Patience, r.MaxLen, r.Freeze
 	tc.WordDropout, tc.TokenDropout, tc.ClassWeight = r.WordDropout, r.TokenDropout, r.ClassWeight
+	tc.WideLR = r.WideLR
 	if r.ClassWeight == classWeightNone {
 		tc.ClassWeight = ""
 	}
@@ -202,6 +212,7 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 	}
 	cfg := &rec.Model
 	cfg.Dim, cfg.Widths, cfg.Filters, cfg.Dropout, cfg.MaxNorm = r.Dim, r.widths, r.Maps, float32(r.Dropout), float32(r.MaxNorm)
+	cfg.Wide = r.Wide
 	if cfg.Chars = r.charConfig(); cfg.Chars != nil {
 		cfg.Dim += cfg.Chars.Filters // --dim is the word table's; the character part comes beside it
 	}
@@ -226,7 +237,7 @@ func (r *recipeOptions) checkSize(vocab, classes, longest, threads int) error {
 	if r.Chars {
 		dim += r.CharMaps // the word vectors' width with the character part
 	}
-	cfg := cnn.Config{VocabSize: vocab, Dim: dim, Widths: r.widths, Filters: r.Maps, Classes: classes}
+	cfg := cnn.Config{VocabSize: vocab, Dim: dim, Widths: r.widths, Filters: r.Maps, Classes: classes, Wide: r.Wide}
 	return checkMemory(cfg, r.Batch, maxLen, threads)
 }
 

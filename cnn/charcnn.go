@@ -328,8 +328,9 @@ func (m *Model) fillCharRows(lo, hi int) {
 
 // WithUnseen returns, for a model with a character layer, a model whose
 // vocabulary also holds every word of texts that enc (m's encoder; nil
-// builds it) maps to UNK, each with the vector [E[UNK] ; charvec(word)]:
-// the table knows nothing of the word, its characters do; and the encoder
+// builds it) maps to UNK, each with the vector [E[UNK] ; charvec(word)]
+// (and, with the wide path, UNK's word weights): the table knows nothing
+// of the word, its characters do; and the encoder
 // of that model (enc's tokenizer, the longer vocabulary). Since a token's
 // vector still depends on the token alone, everything computed from the
 // returned model (predictions, explanations and their exact token shares)
@@ -371,6 +372,14 @@ func (m *Model) WithUnseen(enc *corpus.Encoder, texts []string) (*Model, *corpus
 	unk := m.Row(corpus.UNK)[:m.Config.WordDim()]
 	for i := range add {
 		copy(x.Emb[(v+i)*d:], unk)
+	}
+	if m.Config.Wide { // the wide table knows nothing of the words either: UNK's weights
+		c := m.Config.Classes
+		x.Wide = make([]float32, (v+len(add))*c)
+		copy(x.Wide, m.Wide)
+		for i := range add {
+			copy(x.Wide[(v+i)*c:], m.Wide[int(corpus.UNK)*c:int(corpus.UNK)*c+c])
+		}
 	}
 	x.cache, x.version = nil, 0
 	x.fillCharRows(v, v+len(add))

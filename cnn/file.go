@@ -28,7 +28,9 @@ import (
 //	nWeights   uint64   number of float32 weights that follow
 //	weights    nWeights × float32: Emb, then W and B of each bank in order,
 //	           then OutW, OutB, then (version 3, a model with a character
-//	           layer) the layer's character vectors, filters and biases
+//	           layer) the layer's character vectors, filters and biases,
+//	           then (version 4, a model with the wide path) the word-weight
+//	           table Wide, VocabSize × Classes laid out [word][class]
 //	nBaseline  uint64   number of float64 baseline weights that follow (version 2)
 //	baseline   nBaseline × float64: the linear baseline's IDF, Coef,
 //	           Intercept (linear.Model.Weights); its other parts are in the
@@ -36,18 +38,24 @@ import (
 //	crc        uint32   CRC-32 (Castagnoli) of everything before it
 //
 // All integers and floats are little-endian. Version 1 files (no baseline
-// section) still load. A model without a character layer is written as
-// version 2, so older programs still read it; one with a character layer
-// as version 3, which they refuse with "update telltale". The character
-// parts of Emb are stored but recomputed from the layer on loading.
+// section) still load. A file is written as the oldest version that holds
+// the model, so older programs still read what they can: a model with
+// neither a character layer nor the wide path as version 2, one with a
+// character layer as version 3, one with the wide path as version 4; a
+// program older than the version refuses the file with "update telltale".
+// The character parts of Emb are stored but recomputed from the layer on
+// loading.
 
 // FormatVersion is the newest model file version this package writes and
 // reads.
-const FormatVersion = 3
+const FormatVersion = 4
 
 // fileVersion is the version m is written as.
 func fileVersion(m *Model) uint32 {
-	if m.Config.Chars != nil {
+	switch {
+	case m.Config.Wide:
+		return 4
+	case m.Config.Chars != nil:
 		return 3
 	}
 	return 2
@@ -79,6 +87,9 @@ func numWeights(cfg Config) int {
 	if cfg.Chars != nil {
 		n += cfg.Chars.numWeights()
 	}
+	if cfg.Wide {
+		n += cfg.VocabSize * cfg.Classes
+	}
 	return n
 }
 
@@ -89,11 +100,6 @@ func numWeights(cfg Config) int {
 func (m *Model) Save(path string) (err error) {
 	if err := m.checkShapes(); err != nil {
 		return err
-	}
-	if m.Config.Wide {
-		// The file format has no section for the word-weight table yet;
-		// saving without it would change the model's predictions.
-		return fmt.Errorf("cnn: saving %s: models with a wide word-weight path cannot be saved yet: train without it to keep a model", path)
 	}
 	if err := atomicfile.Write(path, m.encode); err != nil {
 		return fmt.Errorf("cnn: saving model: %w", err)
@@ -133,6 +139,7 @@ func (m *Model) encode(w io.Writer) error {
 		bw.floats(l.W)
 		bw.floats(l.B)
 	}
+	bw.floats(m.Wide) // nil without the wide path
 	var base []float64
 	if m.Baseline != nil {
 		base = m.Baseline.Weights()
@@ -413,6 +420,9 @@ func checkHeader(h *fileHeader, f fileParts, fileLen int) error {
 			return fmt.Errorf("header: sizes larger than the file: the file is corrupted")
 		}
 	}
+	if err := checkWideSize(cfg, f, limit); err != nil {
+		return err
+	}
 	if want := numWeights(cfg); uint64(want) != f.nw {
 		return fmt.Errorf("the configuration needs %d weights but the file has %d: the vocabulary or labels do not match the weights", want, f.nw)
 	}
@@ -424,6 +434,31 @@ func checkHeader(h *fileHeader, f fileParts, fileLen int) error {
 	}
 	if len(h.Labels) != cfg.Classes {
 		return fmt.Errorf("%d label names for %d classes: the labels do not match the weights", len(h.Labels), cfg.Classes)
+	}
+	return nil
+}
+
+// checkWideSize checks the wide word-weight table a header announces
+// (cfg.Wide) against the file's version and weights, limit being the most
+// float32 values the file can hold: a table missing from the weights, or
+// of another size than VocabSize × Classes, is named as such.
+func checkWideSize(cfg Config, f fileParts, limit int) error {
+	if !cfg.Wide {
+		return nil
+	}
+	if f.version < 4 {
+		return fmt.Errorf("a wide word-weight path in a version %d file: the file is damaged", f.version)
+	}
+	if cfg.Classes > limit/cfg.VocabSize {
+		return fmt.Errorf("header: sizes larger than the file: the file is corrupted")
+	}
+	table := cfg.VocabSize * cfg.Classes
+	want := uint64(numWeights(cfg))
+	switch rest := want - uint64(table); {
+	case f.nw == rest:
+		return fmt.Errorf("the configuration has a wide word-weight path but the file lacks its table (%d words × %d classes): the file is damaged, retrain or restore it", cfg.VocabSize, cfg.Classes)
+	case f.nw > rest && f.nw != want:
+		return fmt.Errorf("the wide word-weight table has %d values but the configuration needs %d words × %d classes: the file is damaged, retrain or restore it", f.nw-rest, cfg.VocabSize, cfg.Classes)
 	}
 	return nil
 }
@@ -471,6 +506,14 @@ func (m *Model) readWeights(w []byte) error {
 		for _, v := range m.Char.Emb[:cc.Dim] {
 			if v != 0 {
 				return fmt.Errorf("the zero character's vector is not zero: the file is damaged")
+			}
+		}
+	}
+	if cfg.Wide {
+		m.Wide = take(cfg.VocabSize * cfg.Classes)
+		for _, v := range m.Wide[:cfg.Classes] {
+			if v != 0 {
+				return fmt.Errorf("the PAD row of the wide word-weight table is not zero: the file is damaged")
 			}
 		}
 	}

@@ -123,6 +123,11 @@ func FuzzLoad(f *testing.F) {
 		f.Fatal(err)
 	}
 	f.Add(withBaseline.Bytes())
+	var wide bytes.Buffer
+	if err := withWide(m, 1, 1).encode(&wide); err != nil {
+		f.Fatal(err)
+	}
+	f.Add(wide.Bytes())
 	f.Add([]byte(fileMagic))
 	f.Fuzz(func(t *testing.T, b []byte) {
 		for _, withBaseline := range []bool{true, false} {

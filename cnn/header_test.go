@@ -46,6 +46,7 @@ func headerCases(t testing.TB) [][]byte {
 		[]byte(`{}`),
 		[]byte(`{"baseline":{"ngrams":["]","}","\"[",{"a":[1,2.5e-3,-4E+2,true,false,null]}]},"vocab":["w"]}`),
 		[]byte(`{"baseline":null,"vocab":["w"]}`),
+		[]byte(`{"config":{"vocab_size":3,"classes":2,"wide":true},"vocab":["<pad>","<unk>","x"]}`),
 	}
 }
 

@@ -24,6 +24,9 @@ type recipeForm struct {
 	// (cnn.Config.Chars, train --chars, with its default sizes); the
 	// embedding dimension stays the word table's, as on the command line.
 	chars binding.Bool
+	// wide: the word-weight path beside the filters (cnn.Config.Wide,
+	// train --wide, its learning rate the rest's).
+	wide binding.Bool
 }
 
 // The class weights the form offers, as `telltale train --class-weight`
@@ -43,6 +46,7 @@ func newRecipeForm() *recipeForm {
 	}
 	r.baseline = binding.NewBool()
 	r.chars = binding.NewBool()
+	r.wide = binding.NewBool()
 	r.reset()
 	return r
 }
@@ -82,6 +86,7 @@ func (r *recipeForm) reset() {
 	}
 	_ = r.baseline.Set(d.Baseline != nil)
 	_ = r.chars.Set(d.Model.Chars != nil)
+	_ = r.wide.Set(d.Model.Wide)
 }
 
 // fieldErrors collects the form's problems, each naming its field and the fix.
@@ -175,6 +180,7 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 			Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
 		rec.Model.Dim += rec.Model.Chars.Filters // Model.Dim is the whole word vector's width
 	}
+	rec.Model.Wide, _ = r.wide.Get()
 	plan := r.readPlan(&fe)
 	rec.Train.Seed = plan.Seed
 	if len(fe) == 0 {

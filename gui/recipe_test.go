@@ -32,3 +32,28 @@ func TestRecipeFormChars(t *testing.T) {
 		t.Errorf("after reset the form still asks for character vectors (%v)", err)
 	}
 }
+
+// The form's "Word weights" check asks for the wide path as `telltale
+// train --wide` does; the default recipe's setting is where it starts and
+// where Defaults puts it back.
+func TestRecipeFormWide(t *testing.T) {
+	r := newRecipeForm()
+	def := cnn.DefaultRecipe()
+	if on, _ := r.wide.Get(); on != def.Model.Wide {
+		t.Fatalf("the form starts with the wide path %v; cnn.DefaultRecipe has %v", on, def.Model.Wide)
+	}
+	_ = r.wide.Set(!def.Model.Wide)
+	rec, _, err := r.parse(false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := cnn.DefaultRecipe()
+	want.Model.Wide = !def.Model.Wide
+	if !reflect.DeepEqual(rec, want) {
+		t.Errorf("with the check flipped: %+v, want %+v", rec.Model, want.Model)
+	}
+	r.reset()
+	if rec, _, err = r.parse(false); err != nil || rec.Model.Wide != def.Model.Wide {
+		t.Errorf("after reset the form asks for the wide path %v (%v)", rec.Model.Wide, err)
+	}
+}

@@ -12,7 +12,10 @@
 // nn.Conv1d(d, m, k) or nn.Conv2d(1, m, (k, d)) (nn.Conv2d(2, m, (k, d))
 // over the two tables of the multichannel variant, which is one table of
 // dimension 2d with the channels' weights side by side); one nn.Linear
-// output layer, or a single sigmoid unit. Every key of the state_dict must
+// output layer, or a single sigmoid unit; and, beside them, the word-weight
+// table of the wide path under the key "wide.weight" (an
+// nn.EmbeddingBag(mode="mean", padding_idx=pad) whose output is added to
+// the logits). Every key of the state_dict must
 // be one of these parts: anything else (batch normalisation, a recurrent
 // layer, attention, a second linear layer, filters of different counts per
 // width) is refused naming the key and its shape. Import's documentation
@@ -25,7 +28,8 @@
 // module (the README's "Bring your own model" holds it), as NumPy's .npz
 // (package npy), which PyTorch users load without pickle, with the
 // vocabulary and the labels beside it. Masked filters are exported with
-// zero output weights, which gives exactly the masked model's logits.
+// zero output weights, which gives exactly the masked model's logits; the
+// wide path's table (cnn.Config.Wide) as "wide.weight".
 //
 // Both directions are checked against PyTorch itself (Debian's
 // python3-torch) on texts of the SpamAssassin corpus.

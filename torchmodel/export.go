@@ -36,8 +36,13 @@ func ExportFiles(m *cnn.Model, dir string) []string {
 //	convs.B.bias       [Filters]
 //	output.weight      [Classes, NumFilters]   nn.Linear
 //	output.bias        [Classes]
+//	wide.weight        [VocabSize, Classes]    nn.EmbeddingBag, mode="mean",
+//	                                           padding_idx=0 (Config.Wide only)
 //
-// A masked filter's column of output.weight is zero: its pooled value, which
+// wide.weight is the wide path's word-weight table (cnn.Model.Wide, laid
+// out [word][class] as the bag's rows): the module adds the mean of the
+// rows of a text's non-padding ids to the logits, which is telltale's wide
+// term. A masked filter's column of output.weight is zero: its pooled value, which
 // telltale holds at zero, then adds nothing to any logit, so the logits are
 // the same.
 func StateDict(m *cnn.Model) []npy.Array {
@@ -66,10 +71,18 @@ func StateDict(m *cnn.Model) []npy.Array {
 			}
 		}
 	}
-	return append(arrays,
+	arrays = append(arrays,
 		npy.Array{Name: "output.weight", Shape: []int{cfg.Classes, nf}, Data: out},
 		npy.Array{Name: "output.bias", Shape: []int{cfg.Classes}, Data: m.OutB})
+	if cfg.Wide {
+		arrays = append(arrays, npy.Array{Name: WideKey, Shape: []int{cfg.VocabSize, cfg.Classes}, Data: m.Wide})
+	}
+	return arrays
 }
+
+// WideKey is the state_dict key of the wide path's word-weight table, as
+// StateDict writes it and DetectLayout recognises it.
+const WideKey = "wide.weight"
 
 // CanExport reports why m cannot be exported, or nil. A model with a
 // character layer cannot: the module of the README has no character CNN.

@@ -80,9 +80,17 @@ type Imported struct {
 // the pooled outputs: these are assumed, and the channel and convolution
 // order is that of the file unless Layout says otherwise.
 //
+// A wide word-weight table (Layout.Wide) is read as the wide path of
+// cnn.Model: the mean of the table's rows over a text's non-padding ids is
+// added to the logits, as nn.EmbeddingBag(mode="mean", padding_idx=pad)
+// computes it. Its padding row must be zero like the embedding's (or is
+// zeroed with ZeroPad): a bag without padding_idx would count the padding
+// ids of a batch in the mean.
+//
 // The vocabulary is reordered so that the padding token has id 0 and the
 // unknown token id 1, as telltale's models require, moving their rows of the
-// embedding table with them; the other tokens keep their order. telltale
+// embedding table (and of the wide table) with them; the other tokens keep
+// their order. telltale
 // holds the padding row at zero. A state_dict whose padding row is not zero
 // (an nn.Embedding without padding_idx) is refused unless ZeroPad is set;
 // then the row is zeroed and a warning says which texts change: those
@@ -133,12 +141,15 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 	if err != nil {
 		return nil, err
 	}
-	cfg := cnn.Config{VocabSize: w.vocab, Dim: w.dim, Widths: w.widths, Filters: w.filters, Classes: w.classes}
+	if err := wideZeroPad(w, o, l, res, notes); err != nil {
+		return nil, err
+	}
+	cfg := cnn.Config{VocabSize: w.vocab, Dim: w.dim, Widths: w.widths, Filters: w.filters, Classes: w.classes, Wide: w.wide != nil}
 	if err := cfg.Validate(); err != nil {
 		return nil, fmt.Errorf("torchmodel: %s: %v: %w", o.StateDict, err, ErrLayout)
 	}
 	m := &cnn.Model{Config: cfg, Labels: append([]string(nil), o.Labels...), Vocab: words, Emb: emb,
-		OutW: w.outW, OutB: w.outB, Tokenizer: tok.Config()}
+		OutW: w.outW, OutB: w.outB, Wide: w.wide, Tokenizer: tok.Config()}
 	for b, width := range w.widths {
 		m.Convs = append(m.Convs, cnn.Conv{Width: width, W: w.convW[b], B: w.convB[b]})
 	}
@@ -234,10 +245,12 @@ func reorder(vocab []string, w *weights, o Options, l Layout, res *Imported) ([]
 	}
 	d := w.dim
 	words := make([]string, len(vocab))
-	emb := make([]float32, len(vocab)*d)
+	emb := permuteRows(w.emb, d, order)
+	if w.wide != nil {
+		w.wide = permuteRows(w.wide, w.classes, order)
+	}
 	for to, from := range order {
 		words[to] = vocab[from]
-		copy(emb[to*d:(to+1)*d], w.emb[from*d:(from+1)*d])
 		if to >= 2 && (words[to] == corpus.PADWord || words[to] == corpus.UNKWord) {
 			return nil, nil, nil, fmt.Errorf("torchmodel: %s: the token %q has id %d, but the %s token is id %d: telltale names its reserved tokens %s and %s; give the right --pad-id and --unk-id: %w",
 				o.Vocab, words[to], from, map[bool]string{true: "padding", false: "unknown"}[words[to] == corpus.PADWord],
@@ -267,6 +280,42 @@ func reorder(vocab []string, w *weights, o Options, l Layout, res *Imported) ([]
 		notes["origin_padding_row"] = msg
 	}
 	return words, emb, notes, nil
+}
+
+// permuteRows returns the rows (of width values each) of src in the
+// order given: row i of the result is row order[i] of src.
+func permuteRows(src []float32, width int, order []int) []float32 {
+	dst := make([]float32, len(order)*width)
+	for to, from := range order {
+		copy(dst[to*width:(to+1)*width], src[from*width:(from+1)*width])
+	}
+	return dst
+}
+
+// wideZeroPad checks the padding row (row 0 after reorder) of the wide
+// table, if any: a non-zero row is refused unless o.ZeroPad, which zeroes
+// it and says so.
+func wideZeroPad(w *weights, o Options, l Layout, res *Imported, notes map[string]string) error {
+	if w.wide == nil {
+		return nil
+	}
+	var big float64
+	for _, v := range w.wide[:w.classes] {
+		big = max(big, math.Abs(float64(v)))
+	}
+	switch {
+	case big == 0:
+		return nil
+	case !o.ZeroPad:
+		return fmt.Errorf("torchmodel: %s: the padding token's row of %s is not zero (largest |value| %.4g): telltale leaves padding out of the wide path's mean, PyTorch counts it unless the bag has padding_idx; train with nn.EmbeddingBag(..., mode=\"mean\", padding_idx=pad), or accept the change with --zero-pad: %w",
+			o.StateDict, l.Wide, big, ErrPadRow)
+	}
+	clear(w.wide[:w.classes])
+	msg := fmt.Sprintf("the padding row of %s was not zero (largest |value| %.4g) and is now zero: telltale leaves padding out of the wide path's mean, so texts PyTorch ran without padding ids get the same logits, texts it padded in a batch different ones",
+		l.Wide, big)
+	res.Warnings = append(res.Warnings, msg)
+	notes["origin_wide_padding_row"] = msg
+	return nil
 }
 
 // reservedIDs returns the given or detected ids of the padding and unknown

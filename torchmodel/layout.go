@@ -21,18 +21,28 @@ type Layout struct {
 	Convs []string
 	// Output is the output layer.
 	Output string
+	// Wide, when not empty, is the word-weight table of the wide path
+	// ([vocabulary size, outputs], an nn.EmbeddingBag(mode="mean") whose
+	// mean over a text's non-padding ids is added to the logits); optional.
+	Wide string
 }
 
 // IsZero reports whether no part is named.
-func (l Layout) IsZero() bool { return len(l.Embeddings) == 0 && len(l.Convs) == 0 && l.Output == "" }
+func (l Layout) IsZero() bool {
+	return len(l.Embeddings) == 0 && len(l.Convs) == 0 && l.Output == "" && l.Wide == ""
+}
 
-// Complete reports whether every part is named.
+// Complete reports whether every part but the optional wide table is named.
 func (l Layout) Complete() bool { return len(l.Embeddings) > 0 && len(l.Convs) > 0 && l.Output != "" }
 
 // String describes the layout in one line, as Info records it.
 func (l Layout) String() string {
-	return fmt.Sprintf("embedding %s; convolutions %s; output %s",
+	s := fmt.Sprintf("embedding %s; convolutions %s; output %s",
 		strings.Join(l.Embeddings, " + "), strings.Join(l.Convs, ", "), l.Output)
+	if l.Wide != "" {
+		s += "; wide " + l.Wide
+	}
+	return s
 }
 
 // biasKey is the key of the bias that goes with weight key w ("" when w
@@ -48,7 +58,10 @@ func biasKey(w string) string {
 // Keys are grouped by module (the key up to its last dot); every module
 // must hold a weight and at most a bias. A 2-D weight without a bias is an
 // embedding table, a 2-D weight with a bias the output layer, a 3-D weight
-// a Conv1d and a 4-D weight a Conv2d. Convolutions and tables are taken in
+// a Conv1d and a 4-D weight a Conv2d. The one exception is by name: the
+// 2-D weight WideKey ("wide.weight", as Export writes it), without a bias,
+// is the wide path's word-weight table, which shape alone cannot tell from
+// an embedding table. Convolutions and tables are taken in
 // the order of the file, which is the order the modules were created in
 // (for a ModuleList, its order). Anything else — another kind of parameter,
 // a second linear layer, a tensor of another rank, a buffer — is refused
@@ -71,6 +84,10 @@ func DetectLayout(sd *statedict.StateDict, file string) (Layout, error) {
 			return l, layoutErr(file, k, t, "a parameter a sentence CNN (embedding, convolutions, ReLU, max over time, one linear layer) does not have%s", hint(param))
 		}
 		_, hasBias := sd.Tensors[biasKey(k)]
+		if k == WideKey && len(t.Shape) == 2 && !hasBias {
+			l.Wide = k
+			continue
+		}
 		switch len(t.Shape) {
 		case 2:
 			if hasBias {
@@ -135,7 +152,8 @@ type weights struct {
 	convW, convB  [][]float32
 	classes       int
 	outW, outB    []float32
-	sigmoidOutput bool // one output unit, read as two classes (logits 0 and z)
+	sigmoidOutput bool      // one output unit, read as two classes (logits 0 and z)
+	wide          []float32 // the wide path's table [word][class] (vocab × classes), or nil
 }
 
 // mapWeights checks every shape of the layout against the others and
@@ -171,8 +189,15 @@ func mapWeights(sd *statedict.StateDict, l Layout, file string) (*weights, error
 		return t.Data, nil
 	}
 	named := map[string]bool{}
-	for _, k := range slices.Concat(l.Embeddings, l.Convs, []string{l.Output}) {
-		named[k], named[biasKey(k)] = true, true
+	parts := slices.Concat(l.Embeddings, l.Convs, []string{l.Output})
+	if l.Wide != "" {
+		parts = append(parts, l.Wide)
+	}
+	for _, k := range parts {
+		named[k] = true
+		if k != l.Wide { // the wide table has no bias
+			named[biasKey(k)] = true
+		}
 		if _, ok := sd.Tensors[k]; !ok {
 			return nil, fmt.Errorf("torchmodel: %s: no key %s (named in the layout); the file's keys are %s: %w", file, k, strings.Join(sd.Keys, ", "), ErrLayout)
 		}
@@ -190,6 +215,9 @@ func mapWeights(sd *statedict.StateDict, l Layout, file string) (*weights, error
 		return nil, err
 	}
 	if err := w.output(l, file, get, bias); err != nil {
+		return nil, err
+	}
+	if err := w.wideTable(l, file, get); err != nil {
 		return nil, err
 	}
 	return w, nil
@@ -316,5 +344,36 @@ func (w *weights) output(l Layout, file string, get func(string, string) (*state
 		return nil
 	}
 	w.classes, w.outW, w.outB = c, t.Data, b
+	return nil
+}
+
+// wideTable reads the wide path's table [vocabulary, outputs] when the
+// layout names one. It has no bias (a key for one is refused as not part
+// of the layout). With one sigmoid unit its single
+// column becomes class 1's, class 0's weights being zero, as for the
+// output layer.
+func (w *weights) wideTable(l Layout, file string, get func(string, string) (*statedict.Tensor, error)) error {
+	if l.Wide == "" {
+		return nil
+	}
+	t, err := get(l.Wide, "wide word-weight table")
+	if err != nil {
+		return err
+	}
+	outs := w.classes
+	if w.sigmoidOutput {
+		outs = 1
+	}
+	if len(t.Shape) != 2 || t.Shape[0] != w.vocab || t.Shape[1] != outs {
+		return layoutErr(file, l.Wide, t, "the wide word-weight table needs shape [%d, %d] (vocabulary × outputs of %s)", w.vocab, outs, l.Output)
+	}
+	if !w.sigmoidOutput {
+		w.wide = t.Data
+		return nil
+	}
+	w.wide = make([]float32, 2*w.vocab)
+	for r, v := range t.Data {
+		w.wide[2*r+1] = v
+	}
 	return nil
 }

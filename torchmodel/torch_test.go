@@ -230,12 +230,14 @@ func TestImportMatchesTorch(t *testing.T) {
 	}
 }
 
-// A model trained by telltale (with two filters masked) is exported and
-// loaded by the README's PyTorch module (testdata/telltale_cnn.py, run by
-// testdata/export_check.py with Debian's python3-torch). On SpamAssassin
-// texts, its logits equal telltale's to 1e-5: for telltale's token ids run
-// in padded batches, and for the ASCII texts encoded by the module's own
-// encode(), whose ids must be telltale's.
+// A model trained by telltale (with two filters masked), with and without
+// the wide path (train --wide), is exported and loaded by the README's
+// PyTorch module (testdata/telltale_cnn.py, run by testdata/export_check.py
+// with Debian's python3-torch; the wide table as nn.EmbeddingBag with
+// mode="mean" and padding_idx=0, which torch 1.13 leaves out of the mean).
+// On SpamAssassin texts, its logits equal telltale's to 1e-5: for
+// telltale's token ids run in padded batches, and for the ASCII texts
+// encoded by the module's own encode(), whose ids must be telltale's.
 func TestExportMatchesTorch(t *testing.T) {
 	testref.RequirePython(t, "torch")
 	ms := spamMails(t)
@@ -243,15 +245,30 @@ func TestExportMatchesTorch(t *testing.T) {
 	for i, s := range ms.train {
 		train.Examples = append(train.Examples, corpus.Example{Text: s, Label: ms.trainLab[i]})
 	}
-	r := cnn.DefaultRecipe()
-	r.Model.Dim, r.Model.Filters, r.Train.Epochs, r.Train.MaxLen, r.Train.Threads = 12, 6, 2, 150, 1
-	tr, err := cnn.TrainText(context.Background(), train, nil, r, nil)
-	if err != nil {
-		t.Fatal(err)
+	for _, wide := range []bool{false, true} {
+		t.Run(fmt.Sprintf("wide=%v", wide), func(t *testing.T) {
+			r := cnn.DefaultRecipe()
+			r.Model.Dim, r.Model.Filters, r.Train.Epochs, r.Train.MaxLen, r.Train.Threads = 12, 6, 2, 150, 1
+			r.Model.Wide = wide
+			tr, err := cnn.TrainText(context.Background(), train, nil, r, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			m := tr.Model
+			if wide && !slices.ContainsFunc(m.Wide, func(v float32) bool { return v != 0 }) {
+				t.Fatal("the wide table is all zero after training: the check would not test it")
+			}
+			m.Masked = make([]bool, m.Config.NumFilters())
+			m.Masked[0], m.Masked[7] = true, true
+			checkExportWithTorch(t, m, tr.Encoder, ms.eval)
+		})
 	}
-	m := tr.Model
-	m.Masked = make([]bool, m.Config.NumFilters())
-	m.Masked[0], m.Masked[7] = true, true
+}
+
+// checkExportWithTorch exports m, runs the README's module on texts and
+// compares its logits with m's (see TestExportMatchesTorch).
+func checkExportWithTorch(t *testing.T, m *cnn.Model, enc *corpus.Encoder, texts []string) {
+	t.Helper()
 	dir := t.TempDir()
 	if err := Export(m, dir); err != nil {
 		t.Fatal(err)
@@ -259,8 +276,8 @@ func TestExportMatchesTorch(t *testing.T) {
 	var ids [][]int32
 	var ascii []string
 	var asciiIDs [][]int32
-	for _, text := range ms.eval {
-		_, x := tr.Encoder.Encode(text)
+	for _, text := range texts {
+		_, x := enc.Encode(text)
 		ids = append(ids, x)
 		if isPlainASCII(text) {
 			ascii, asciiIDs = append(ascii, text), append(asciiIDs, x)
@@ -274,7 +291,7 @@ func TestExportMatchesTorch(t *testing.T) {
 		Torch  string      `json:"torch"`
 	}
 	runPython(t, "testdata/export_check.py", dir, map[string]any{"folder": dir, "ids": ids, "texts": ascii, "max_tokens": 150}, &out)
-	t.Logf("exported model loaded by torch %s; %d of %d texts are plain ASCII", out.Torch, len(ascii), len(ms.eval))
+	t.Logf("exported model loaded by torch %s; %d of %d texts are plain ASCII", out.Torch, len(ascii), len(texts))
 	if !slices.Equal(out.Labels, m.Labels) {
 		t.Errorf("labels.txt read as %v, want %v", out.Labels, m.Labels)
 	}

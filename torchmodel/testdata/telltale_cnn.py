@@ -13,13 +13,18 @@ class TelltaleCNN(nn.Module):
     token count. Windows reaching past a text's end are left out (a text
     shorter than the widest filter is padded to it with id 0, whose
     embedding is zero), so a text's logits do not depend on its batch.
+    A model trained with --wide adds the mean of its word weights over the
+    text's ids other than 0 (none for an empty text).
     """
 
-    def __init__(self, vocab_size, dim, widths, filters, classes):
+    def __init__(self, vocab_size, dim, widths, filters, classes, wide=False):
         super().__init__()
         self.embedding = nn.Embedding(vocab_size, dim, padding_idx=0)
         self.convs = nn.ModuleList(nn.Conv1d(dim, filters, w) for w in widths)
         self.output = nn.Linear(filters * len(widths), classes)
+        self.wide = None
+        if wide:
+            self.wide = nn.EmbeddingBag(vocab_size, classes, mode="mean", padding_idx=0)
 
     @classmethod
     def load(cls, folder):
@@ -29,7 +34,7 @@ class TelltaleCNN(nn.Module):
         n = sum(1 for k in state if k.startswith("convs.") and k.endswith(".weight"))
         widths = [state[f"convs.{i}.weight"].shape[2] for i in range(n)]
         classes, features = state["output.weight"].shape
-        model = cls(vocab_size, dim, widths, features // n, classes)
+        model = cls(vocab_size, dim, widths, features // n, classes, "wide.weight" in state)
         model.load_state_dict(state)
         with open(f"{folder}/vocab.txt", encoding="utf-8") as f:
             model.vocab = {w: i for i, w in enumerate(f.read().split("\n")[:-1])}
@@ -59,4 +64,7 @@ class TelltaleCNN(nn.Module):
             inside = start[None, :] + conv.kernel_size[0] <= end[:, None]
             a = a.masked_fill(~inside[:, None, :], float("-inf"))
             pooled.append(torch.relu(a.amax(dim=2)))
-        return self.output(torch.cat(pooled, dim=1))
+        logits = self.output(torch.cat(pooled, dim=1))
+        if self.wide is not None:
+            logits = logits + self.wide(ids)  # padding_idx leaves id 0 out of the mean
+        return logits
