@@ -108,7 +108,10 @@ type MethodFaith struct {
 	// et al. 2017, "Evaluating the Visualization of What a Deep Neural Network
 	// Has Learned", IEEE TNNLS): the mean of p(ŷ|x) − p(ŷ|x^(k_j)) over the
 	// points j = 0 … J, x^(k) with its k top-ranked tokens removed and
-	// k_j = ⌈j·L/J⌉, the points with k_j = 1 left out.
+	// k_j = ⌈j·L/J⌉, the points with k_j = 1 left out. For a model with
+	// the wide path its points with every token removed are not identified
+	// (see Explanation); they are the same for every method, so the
+	// differences between methods (Pairs) are.
 	AOPC   float64  `json:"aopc"`
 	AOPCCI Interval `json:"aopc_ci"`
 	// Top1Comp and Top1Suff are comprehensiveness and sufficiency for the
