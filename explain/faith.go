@@ -65,6 +65,12 @@ type Interval struct {
 // percentile bootstrap intervals over the texts (Efron & Tibshirani 1993,
 // "An Introduction to the Bootstrap", ch. 13); Pairs compares the methods
 // text by text.
+//
+// For a model with the wide path, p(ŷ) of a text with every token removed
+// is not identified (see Explanation): so neither are the figures with
+// such a removal (AOPC's last points, comprehensiveness at 100%, the
+// single-token figures of a one-token text), though they are the same for
+// every method.
 type FaithReport struct {
 	Texts    int     `json:"texts"`    // texts scored (empty texts are skipped)
 	Accuracy float64 `json:"accuracy"` // of the model on the scored texts (NaN → null without gold)
