@@ -113,7 +113,8 @@ func keyedFilters(m *cnn.Model, b *basePass, occ []span, class int) []int {
 
 // maskedPreds predicts every text of the half with the filters gs masked,
 // by the layout's identity: the pooled units of gs set to zero and the
-// output layer applied again (cnn.Model.Head).
+// output layer applied again (cnn.Model.Head), plus the text's wide-path
+// term (cnn.Model.AddWide), which masking does not touch.
 func maskedPreds(m *cnn.Model, b *basePass, gs []int) []int {
 	nf, C := m.Config.NumFilters(), m.Config.Classes
 	n := len(b.pred)
@@ -126,6 +127,7 @@ func maskedPreds(m *cnn.Model, b *basePass, gs []int) []int {
 			pooled[g] = 0
 		}
 		m.Head(pooled, logits)
+		m.AddWide(b.ids[i], logits)
 		out[i] = slices.Index(logits, slices.Max(logits))
 	}
 	return out

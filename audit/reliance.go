@@ -357,13 +357,16 @@ type basePass struct {
 	probs  []float32 // n × C
 	pooled []float32 // n × nf
 	start  []int32   // n × nf: start of each filter's winning window
+	// ids are the texts (not copied), for the wide path's term.
+	ids [][]int32
 }
 
 // runBase runs every text of d once, keeping what the filter evidence
 // needs.
 func runBase(ctx context.Context, st *explain.SlotTable, d Data, classes, nf, workers int) (*basePass, error) {
 	n := d.Len()
-	b := &basePass{pred: make([]int, n), probs: make([]float32, n*classes), pooled: make([]float32, n*nf), start: make([]int32, n*nf)}
+	b := &basePass{pred: make([]int, n), probs: make([]float32, n*classes), pooled: make([]float32, n*nf), start: make([]int32, n*nf),
+		ids: d.IDs}
 	err := explain.Scan(ctx, st, d.IDs, workers, nil, func(_, i int, p *explain.Pass) {
 		b.pred[i] = p.Pred
 		copy(b.probs[i*classes:], p.Probs)

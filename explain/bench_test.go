@@ -76,10 +76,24 @@ func BenchmarkScan(b *testing.B) {
 // a text, with integrated gradients in closed form ("ig") or without, with
 // a prebuilt table ("warm") and with the table built for the text's own
 // words ("cold"). The goal is under 2 ms for 200 tokens with IG, 1 ms
-// without (cpu-ms/op on one core).
+// without (cpu-ms/op on one core). "wide" is the same model with the wide
+// path on, its table random.
 func BenchmarkExplain(b *testing.B) {
 	m := benchModel(20000)
 	st, _ := NewSlotTable(m, TableOptions{})
+	wm := withWide(m.Clone(), 22)
+	wst, _ := NewSlotTable(wm, TableOptions{})
+	wids := benchTexts(wm, 1, 200)[0]
+	b.Run("len=200/warm/ig/wide", func(b *testing.B) {
+		b.ReportAllocs()
+		c0 := cpuTime()
+		for b.Loop() {
+			if _, err := Explain(wm, nil, wids, ExplainOptions{Occlusion: true, IG: true, Table: wst}); err != nil {
+				b.Fatal(err)
+			}
+		}
+		b.ReportMetric(float64((cpuTime()-c0).Microseconds())/1000/float64(b.N), "cpu-ms/op")
+	})
 	for _, n := range []int{50, 200} {
 		ids := benchTexts(m, 1, n)[0]
 		for _, warm := range []bool{true, false} {

@@ -41,11 +41,19 @@
 // logit and a filter's raw output-weight column are not given; a property
 // test asserts that every number given is invariant under such shifts.
 //
+// A model with the wide path (cnn.Config.Wide) adds the mean of its words'
+// class weights to the logits, and with it one more free direction: a
+// vector added to every word's weights but PAD's and taken from the output
+// biases moves no prediction of a text with a word. So a word's own wide
+// weights are not given either, only their difference from the unknown
+// word's (Shares.Words), the unknown word's going with the output bias;
+// a second property test asserts invariance under that shift too.
+//
 // # Why a text got its label
 //
 // Explain splits each identified quantity exactly (Shares): the output
 // bias, one part per fired filter's convolution bias, and one share per
-// token. The method is gradient × input at the word vectors with every
+// token (with a word part through the wide path, when the model has it). The method is gradient × input at the word vectors with every
 // filter's winning window held fixed, against the zero word vector (PAD):
 // with ReLU, max pooling and a linear head it is an exact decomposition.
 // It measures occlusion (each token, or each n-gram window, replaced by

@@ -19,6 +19,14 @@ import (
 // the same number to every class's output bias, or to every class's output
 // weight on one filter, changes no probability but shifts every logit and
 // every share of one class's logit (see Shares).
+//
+// A model with the wide path (cnn.Config.Wide) has one more such change:
+// a vector added to every word's wide row but PAD's and subtracted from
+// the output biases moves no prediction of a text with a word, and every
+// number here stays put under it too, with one exception the model's
+// definition makes: a text whose every word is replaced by PAD has no
+// wide term at all, so an occlusion drop (or a kept-down edit) that
+// removes every word of the text moves with that vector.
 type Explanation struct {
 	Tokens        []TokenSpan   `json:"tokens"`
 	Label         string        `json:"label"`
@@ -47,6 +55,8 @@ type Explanation struct {
 	// logits are the model's logits in float64, which the identified
 	// quantities are contrasts of.
 	logits []float64
+	// wide is the wide path's part of them (zero without the path).
+	wide wideText
 }
 
 // TokenSpan is one token of the explained text. Start and End are byte
@@ -149,7 +159,7 @@ func Explain(m *cnn.Model, tokens []corpus.Token, ids []int32, opt ExplainOption
 	}
 	e := newExplanation(m, tokens, ids, &r.p)
 	firedFilters(st, r, e, opt.Profiles)
-	identifiedShares(m, e)
+	identifiedShares(m, e, ids)
 	var o *occluder
 	if opt.Occlusion || len(opt.OcclusionWidths) > 0 || opt.KeptDown > 0 {
 		o = newOccluder(r, e)
@@ -224,8 +234,9 @@ func newExplanation(m *cnn.Model, tokens []corpus.Token, ids []int32, p *Pass) *
 	e := &Explanation{
 		Tokens: make([]TokenSpan, len(ids)),
 		Labels: labelNames(m),
-		logits: logits64(m, p.Pooled),
+		wide:   newWideText(m, ids),
 	}
+	e.logits = logits64(m, p.Pooled, e.wide)
 	for i, id := range ids {
 		ts := TokenSpan{ID: id}
 		if tokens != nil {
@@ -267,8 +278,9 @@ func wordOf(m *cnn.Model, id int32) string {
 	return fmt.Sprintf("#%d", id)
 }
 
-// logits64 is the head in float64: OutB[c] + Σ_g OutW[c][g]·pooled[g].
-func logits64(m *cnn.Model, pooled []float32) []float64 {
+// logits64 is the head in float64: OutB[c] + Σ_g OutW[c][g]·pooled[g],
+// plus the wide path's term of the text (wide).
+func logits64(m *cnn.Model, pooled []float32, wide wideText) []float64 {
 	nf := m.Config.NumFilters()
 	z := make([]float64, m.Config.Classes)
 	for c := range z {
@@ -280,6 +292,7 @@ func logits64(m *cnn.Model, pooled []float32) []float64 {
 		}
 		z[c] = s
 	}
+	wide.addTo(z)
 	return z
 }
 
@@ -326,10 +339,12 @@ func argmax64(v []float64) int {
 // scores. With ReLU, 1-max pooling and a linear head,
 //
 //	logit[c] = OutB[c] + Σ_{g fired} OutW[c][g]·(B_g + Σ_s W_g[s]·Emb[x[t*_g+s]])
+//	         + (1/N)·Σ_{t: x_t ≠ PAD} Wide[x_t][c]   (wide path only)
 //
 // where "fired" means pooled h_g > 0 and g not masked, so every contrast of
 // the logits splits exactly over the output biases, the fired filters'
-// biases and the slot scores of their winning windows (identifiedShares).
+// biases, the slot scores of their winning windows and the words' wide
+// rows (identifiedShares).
 // Slots on PAD positions past the text have zero embeddings and score zero.
 func firedFilters(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
 	m := st.m

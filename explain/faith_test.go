@@ -61,11 +61,20 @@ func bruteFaith(m *cnn.Model, text []int32, order []int, y int, percents []float
 
 // Every figure of every method recomputed by brute force with the reference
 // forward pass, the rankings drawn with the same seeds (ties and the random
-// control's draws included).
+// control's draws included), on a model without the wide path and one with
+// it.
 func TestFaithfulnessBruteForce(t *testing.T) {
 	rng := rand.New(rand.NewPCG(11, 11))
 	m := randomModel(rng, randomConfig(rng))
 	ids, gold := randomCorpus(rng, m, 40, 25)
+	checkFaithBrute(t, m, ids, gold)
+	wide := withWide(randomModel(rng, randomConfig(rng)), 11)
+	ids, gold = randomCorpus(rng, wide, 40, 25)
+	checkFaithBrute(t, wide, ids, gold)
+}
+
+func checkFaithBrute(t *testing.T, m *cnn.Model, ids [][]int32, gold []int) {
+	t.Helper()
 	opt := FaithOptions{Percents: []float64{5, 10, 50}, Methods: []string{MethodOcclusion, MethodExact, MethodRandom, MethodIG},
 		Workers: 2, Draws: 3, Seed: 9}
 	rep, err := Faithfulness(context.Background(), m, ids, gold, opt)

@@ -48,6 +48,20 @@ func randomModel(rng *rand.Rand, cfg cnn.Config) *cnn.Model {
 	return m
 }
 
+// withWide turns the wide path of m on with a table of seeded random
+// values (normal, sd 1, about the size of the filters' part of a logit;
+// PAD's row zero, as the model layout requires) and returns m.
+func withWide(m *cnn.Model, seed uint64) *cnn.Model {
+	rng := rand.New(rand.NewPCG(seed, 0x5eed))
+	C := m.Config.Classes
+	m.Config.Wide = true
+	m.Wide = make([]float32, m.Config.VocabSize*C)
+	for i := C; i < len(m.Wide); i++ {
+		m.Wide[i] = float32(rng.NormFloat64())
+	}
+	return m
+}
+
 // randomConfig draws a small architecture.
 func randomConfig(rng *rand.Rand) cnn.Config {
 	widths := []int{}

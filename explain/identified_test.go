@@ -43,6 +43,7 @@ func shownNumbers(e *Explanation) (names []string, vals []float64) {
 		add(name+".filter_bias", s.FilterBias...)
 		add(name+".filters", s.Filters...)
 		add(name+".tokens", s.Tokens...)
+		add(name+".words", s.Words...)
 	}
 	add("class", float64(e.Class), float64(e.RunnerUp))
 	add("probabilities", e.Probabilities...)
@@ -63,6 +64,7 @@ func shownNumbers(e *Explanation) (names []string, vals []float64) {
 		for j, s := range append([]IGShares{ig.LogOdds}, ig.Centred...) {
 			add(fmt.Sprint("ig", j), s.Value, s.Baseline)
 			add(fmt.Sprint("ig", j, ".tokens"), s.Tokens...)
+			add(fmt.Sprint("ig", j, ".words"), s.Words...)
 		}
 	}
 	for _, kd := range e.KeptDown {
@@ -90,7 +92,16 @@ func checkInvariant(t *testing.T, m *cnn.Model, ids []int32, opt ExplainOptions,
 	t.Helper()
 	g := rng.IntN(m.Config.NumFilters())
 	k, kb := float32(rng.NormFloat64()*3), float32(rng.NormFloat64()*3)
-	s := shifted(m, g, k, kb)
+	what := fmt.Sprintf("filter %d +%g, biases +%g", g, k, kb)
+	return sameShown(t, m, shifted(m, g, k, kb), ids, opt, what, 2e-5*(1+math.Abs(float64(k))))
+}
+
+// sameShown explains ids with m and with s, a copy that predicts the same,
+// and compares every shown number to tol (absolute, and 2e-5 relative).
+// It returns false, comparing nothing, when the two largest logits lie
+// within 1e-4.
+func sameShown(t *testing.T, m, s *cnn.Model, ids []int32, opt ExplainOptions, what string, tol float64) bool {
+	t.Helper()
 	e1, err := Explain(m, nil, ids, opt)
 	if err != nil {
 		t.Fatal(err)
@@ -109,14 +120,76 @@ func checkInvariant(t *testing.T, m *cnn.Model, ids []int32, opt ExplainOptions,
 	n1, v1 := shownNumbers(e1)
 	n2, v2 := shownNumbers(e2)
 	if !slices.Equal(n1, n2) {
-		t.Fatalf("filter %d +%g, biases +%g: the shown numbers change shape:\n%v\n%v", g, k, kb, n1, n2)
+		t.Fatalf("%s: the shown numbers change shape:\n%v\n%v", what, n1, n2)
 	}
 	for i := range v1 {
-		if !testref.Close(v1[i], v2[i], 2e-5*(1+math.Abs(float64(k))), 2e-5) {
-			t.Fatalf("text %v, filter %d +%g, biases +%g: %s = %.9g, shifted %.9g", ids, g, k, kb, n1[i], v1[i], v2[i])
+		if !testref.Close(v1[i], v2[i], tol, 2e-5) {
+			t.Fatalf("text %v, %s: %s = %.9g, shifted %.9g", ids, what, n1[i], v1[i], v2[i])
 		}
 	}
 	return true
+}
+
+// wideShifted returns a copy of m with the vector a added to every word's
+// row of the wide table but PAD's and subtracted from the output biases.
+// The wide term of a text with N ≥ 1 words is the mean of N rows, so it
+// gains exactly a and every logit stays put; nothing in the data pins a
+// down (training's texts have words), so an identified number must not
+// move.
+func wideShifted(m *cnn.Model, a []float32) *cnn.Model {
+	s := m.Clone()
+	C := m.Config.Classes
+	for i := C; i < len(s.Wide); i++ {
+		s.Wide[i] += a[i%C]
+	}
+	for c := range s.OutB {
+		s.OutB[c] -= a[c]
+	}
+	return s
+}
+
+// Every shown number of a model with the wide path is invariant under the
+// wide path's own shift (wideShifted), on random models and texts. The
+// texts hold six words or more: every edit measured here (one token, a
+// window of two, a kept-down window of at most five) then leaves a word,
+// and the shift is a symmetry only of texts with a word (see Explanation).
+func TestShownNumbersInvariantWideShift(t *testing.T) {
+	rng := rand.New(rand.NewPCG(34, 34))
+	checked, words := 0, 0.0
+	for trial := 0; trial < 40; trial++ {
+		m := withWide(randomModel(rng, randomConfig(rng)), uint64(100+trial))
+		var st *SlotTable
+		if trial%2 == 0 {
+			st = mustTable(t, m, TableOptions{})
+		}
+		a := make([]float32, m.Config.Classes)
+		amax := 0.0
+		for c := range a {
+			a[c] = float32(rng.NormFloat64() * 3)
+			amax = max(amax, math.Abs(float64(a[c])))
+		}
+		s := wideShifted(m, a)
+		for range 8 {
+			ids := randomText(rng, m.Config.VocabSize, 24)
+			for len(ids) < 6 {
+				ids = append(ids, int32(1+rng.IntN(m.Config.VocabSize-1)))
+			}
+			eo := ExplainOptions{Table: st, Occlusion: true, OcclusionWidths: []int{2}, IG: true, KeptDown: 4}
+			if sameShown(t, m, s, ids, eo, fmt.Sprintf("wide rows %+v, biases minus that", a), 2e-5*(1+amax)) {
+				checked++
+				e, _ := Explain(m, nil, ids, eo)
+				for _, v := range e.LogOdds.Words {
+					words += math.Abs(v)
+				}
+			}
+		}
+	}
+	if checked < 250 {
+		t.Fatalf("only %d of 320 texts checked: too many near-ties", checked)
+	}
+	if words == 0 {
+		t.Fatal("every word's wide part is zero: the check checked nothing of the wide path")
+	}
 }
 
 // Every shown number is invariant when a constant is added to one filter's
@@ -155,6 +228,7 @@ func checkIdentities(t *testing.T, m *cnn.Model, ids []int32, e *Explanation) {
 	t.Helper()
 	want := m.Forward(ids)
 	all := append([]Shares{e.LogOdds}, e.Centred...)
+	checkWideParts(t, m, ids, e, all)
 	for j, s := range all {
 		scale := math.Abs(s.OutputBias)
 		for _, v := range s.FilterBias {
@@ -207,6 +281,106 @@ func checkIdentities(t *testing.T, m *cnn.Model, ids []int32, e *Explanation) {
 			}
 		}
 	}
+}
+
+// checkWideParts checks the wide path's parts of every split quantity
+// against their definition, written out from the model layout: the output
+// bias holds Σ_c v_c·(OutB[c] + Wide[UNK][c]) for a text with a word, token
+// i's wide part is Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N (0 for PAD), it
+// is in the token's share next to what its slot scores give, and integrated
+// gradients carry the same parts (their baseline the unknown word's).
+func checkWideParts(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, all []Shares) {
+	t.Helper()
+	C := m.Config.Classes
+	n := 0
+	for _, id := range ids {
+		if id != 0 {
+			n++
+		}
+	}
+	var igs []IGShares
+	if e.Integrated != nil {
+		igs = append([]IGShares{e.Integrated.LogOdds}, e.Integrated.Centred...)
+	}
+	for j, s := range all {
+		if !m.Config.Wide {
+			if s.Words != nil || (igs != nil && igs[j].Words != nil) {
+				t.Fatalf("target %d: wide parts on a model without the wide path", j)
+			}
+			continue
+		}
+		v := weightsOf(C, s)
+		var bias, unk float64
+		for c := range C {
+			bias += v[c] * float64(m.OutB[c])
+			if n > 0 {
+				unk += v[c] * float64(m.Wide[C+c]) // row 1 is UNK
+			}
+		}
+		if !testref.Close(s.OutputBias, bias+unk, 1e-9, 1e-9) {
+			t.Fatalf("text %v target %d: output bias %.12g, want %.12g + %.12g", ids, j, s.OutputBias, bias, unk)
+		}
+		if len(s.Words) != len(ids) {
+			t.Fatalf("target %d: %d wide parts for %d tokens", j, len(s.Words), len(ids))
+		}
+		slotParts := make([]float64, len(ids))
+		for _, ff := range e.Filters {
+			col := columnOf(m, s, ff.Filter)
+			for sl, sc := range ff.Slots {
+				if i := ff.Start + sl; i < len(ids) {
+					slotParts[i] += col * sc
+				}
+			}
+		}
+		for i, id := range ids {
+			var want float64
+			if id != 0 {
+				for c := range C {
+					want += v[c] * (float64(m.Wide[int(id)*C+c]) - float64(m.Wide[C+c])) / float64(n)
+				}
+			}
+			if !testref.Close(s.Words[i], want, 1e-9, 1e-9) || !testref.Close(s.Tokens[i], slotParts[i]+want, 1e-9, 1e-9) {
+				t.Fatalf("text %v target %d token %d: wide part %.12g, want %.12g; share %.12g, want %.12g",
+					ids, j, i, s.Words[i], want, s.Tokens[i], slotParts[i]+want)
+			}
+			if igs != nil && igs[j].Words[i] != s.Words[i] {
+				t.Fatalf("target %d token %d: integrated gradients' wide part %g, the shares' %g", j, i, igs[j].Words[i], s.Words[i])
+			}
+		}
+		if igs != nil && !testref.Close(igs[j].Baseline-unk, baselineOf(m, v), 1e-9, 1e-9) {
+			t.Fatalf("text %v target %d: IG baseline %.12g, want %.12g + %.12g", ids, j, igs[j].Baseline, baselineOf(m, v), unk)
+		}
+	}
+}
+
+// weightsOf is the class weights v of the quantity s splits.
+func weightsOf(C int, s Shares) []float64 {
+	v := make([]float64, C)
+	if s.Against >= 0 {
+		v[s.Class], v[s.Against] = 1, -1
+		return v
+	}
+	for c := range v {
+		v[c] = -1 / float64(C)
+	}
+	v[s.Class]++
+	return v
+}
+
+// baselineOf is Σ_c v_c·logit[c] with every word vector zero, from the
+// layout: every unmasked filter pools relu(B_g).
+func baselineOf(m *cnn.Model, v []float64) float64 {
+	nf := m.Config.NumFilters()
+	var z float64
+	for c, vc := range v {
+		z += vc * float64(m.OutB[c])
+		for g := range nf {
+			if b := m.FilterBias(g); b > 0 && !m.IsMasked(g) {
+				z += vc * float64(m.OutW[c*nf+g]) * float64(b)
+			}
+		}
+	}
+	return z
 }
 
 // columnOf is Σ_c v_c·OutW[c][g] for the quantity s splits.

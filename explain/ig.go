@@ -8,12 +8,25 @@ package explain
 //	Σ_i Tokens[i] = Value − Baseline
 //
 // exactly for the closed form, approximately for a Riemann sum.
+//
+// The wide path of a model (cnn.Config.Wide) does not go through the word
+// vectors: its term is linear in which word each token is, so its exact
+// attribution is the split of Shares, against every word of the text being
+// the unknown word (the identified reference; see Shares): token i gets
+// Words[i] = Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N, and the Baseline
+// holds the rest, Σ_c v_c·Wide[UNK][c], for a text with a word.
 type IGShares struct {
-	Class    int       `json:"class"`
-	Against  int       `json:"against"`
-	Value    float64   `json:"value"`    // the quantity at the text
-	Baseline float64   `json:"baseline"` // the quantity with every word vector zero
-	Tokens   []float64 `json:"tokens"`
+	Class   int     `json:"class"`
+	Against int     `json:"against"`
+	Value   float64 `json:"value"` // the quantity at the text
+	// Baseline is the quantity with every word vector zero, plus the wide
+	// path's unknown-word weight (see above).
+	Baseline float64 `json:"baseline"`
+	// Tokens[i] is token i's attribution, Words[i] included.
+	Tokens []float64 `json:"tokens"`
+	// Words[i] is token i's part through the wide path (the same as in
+	// Shares); nil for a model without the wide path.
+	Words []float64 `json:"words,omitempty"`
 	// Gap = Σ Tokens − (Value − Baseline): float rounding for the closed
 	// form, the Riemann sum's error otherwise.
 	Gap float64 `json:"gap"`
@@ -199,7 +212,8 @@ func integratedGradients(r *Runner, e *Explanation, steps int) [][]float64 {
 
 // identifiedIG fills e.Integrated from the per-class attributions ig[i][c]
 // (steps 0 for the closed form): integrated gradients are linear in the
-// head, so the attribution of a contrast v is Σ_c v_c·ig[i][c].
+// head, so the attribution of a contrast v is Σ_c v_c·ig[i][c]. The wide
+// path's parts are taken from e's shares (identifiedShares must have run).
 func identifiedIG(r *Runner, e *Explanation, ig [][]float64, steps int) {
 	m := r.st.m
 	base := baselineLogits(r)
@@ -208,11 +222,20 @@ func identifiedIG(r *Runner, e *Explanation, ig [][]float64, steps int) {
 	L := len(e.Tokens)
 	flat := make([]float64, len(ts)*L)
 	for j, k := range ts {
-		s := IGShares{Class: k.class, Against: k.against, Value: k.dot(e.logits), Baseline: k.dot(base)}
+		s := IGShares{Class: k.class, Against: k.against, Value: k.dot(e.logits),
+			Baseline: k.dot(base) + k.unknownPart(m, e.wide)}
 		s.Tokens, flat = flat[:L:L], flat[L:]
+		if j == 0 {
+			s.Words = e.LogOdds.Words
+		} else {
+			s.Words = e.Centred[j-1].Words
+		}
 		var sum float64
 		for i, row := range ig {
 			s.Tokens[i] = k.dot(row)
+			if s.Words != nil {
+				s.Tokens[i] += s.Words[i]
+			}
 			sum += s.Tokens[i]
 		}
 		s.Gap = sum - (s.Value - s.Baseline)

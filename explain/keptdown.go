@@ -38,7 +38,9 @@ type KeptDownWindow struct {
 	// Effect = (OutW[ŷ][g] − OutW[r][g])·(Positive − Winner), ŷ the
 	// predicted class and r the runner-up: the change in their log-odds had
 	// this window won without its negative slots, every other filter
-	// unchanged.
+	// unchanged. With the wide path, replacing the By tokens also changes
+	// the wide term; that change is in the measured LogOdds and Drop, not
+	// in Effect, which is the filter's alone.
 	Effect float64 `json:"effect"`
 	// Pooled is the filter's pooled value, LogOdds the log-odds of ŷ
 	// against r and Drop = p(ŷ|x) − p(ŷ|x edited), measured on the text

@@ -3,12 +3,16 @@ package explain
 import (
 	"math"
 	"math/bits"
+
+	"telltale/corpus"
 )
 
 // occluder recomputes the pooled units after replacing some tokens of a
 // short stretch of the text with PAD, touching only the windows that contain
 // a replaced token: the maximum over the other windows comes from prefix and
-// suffix maxima of the kept window pre-activations.
+// suffix maxima of the kept window pre-activations. The wide path's term,
+// a mean over the text's words, is updated from the replaced words alone
+// (wideEdit).
 type occluder struct {
 	r      *Runner
 	e      *Explanation
@@ -20,6 +24,9 @@ type occluder struct {
 	z      []float64 // the logits of the edited text
 	y      int
 	logP   float64
+	// removed is the sum of the wide rows of the replaced words (the
+	// wide path only).
+	removed []float64
 }
 
 func newOccluder(r *Runner, e *Explanation) *occluder {
@@ -31,6 +38,9 @@ func newOccluder(r *Runner, e *Explanation) *occluder {
 		pooled: make([]float32, st.m.Config.NumFilters()),
 		z:      make([]float64, len(e.logits))}
 	o.logP = logSoftmax64(e.logits, e.Class)
+	if e.wide.sum != nil {
+		o.removed = make([]float64, len(e.logits))
+	}
 	r.occPM, r.occSM = grow(r.occPM, len(st.banks)), grow(r.occSM, len(st.banks))
 	for b := range st.banks {
 		F := st.banks[b].filters
@@ -73,6 +83,7 @@ func (o *occluder) single(i int) {
 	st := r.st
 	copy(o.z, o.e.logits)
 	copy(o.pooled, r.p.Pooled)
+	o.wideEdit(i, i, nil)
 	n := r.p.Len
 	for b := range st.banks {
 		tb := &st.banks[b]
@@ -150,6 +161,7 @@ func (o *occluder) apply(lo, hi int, keep func(i int) bool) {
 	st := r.st
 	copy(o.z, o.e.logits)
 	copy(o.pooled, r.p.Pooled)
+	o.wideEdit(lo, hi, keep)
 	n := r.p.Len
 	for b := range st.banks {
 		tb := &st.banks[b]
@@ -170,5 +182,40 @@ func (o *occluder) apply(lo, hi int, keep func(i int) bool) {
 			}
 		}
 		o.setBank(b, F, nm)
+	}
+}
+
+// wideEdit moves o.z by the change of the wide path's term when the tokens
+// i in lo … hi with keep(i) false (all of them when keep is nil) are
+// replaced by PAD: k of the text's N words leave, so the term S/N becomes
+// (S − R)/(N − k), R the sum of their rows, and nothing when no word is
+// left. It costs O(k·Classes), not a pass over the text.
+func (o *occluder) wideEdit(lo, hi int, keep func(i int) bool) {
+	w := o.e.wide
+	if w.n == 0 {
+		return
+	}
+	m := o.r.st.m
+	ids := o.r.x
+	clear(o.removed)
+	k := 0
+	for i := lo; i <= hi; i++ {
+		if ids[i] == corpus.PAD || (keep != nil && keep(i)) {
+			continue
+		}
+		k++
+		for c, v := range m.WideRow(ids[i]) {
+			o.removed[c] += float64(v)
+		}
+	}
+	if k == 0 {
+		return
+	}
+	left := w.n - k
+	for c, s := range w.sum {
+		o.z[c] -= s / float64(w.n)
+		if left > 0 {
+			o.z[c] += (s - o.removed[c]) / float64(left)
+		}
 	}
 }

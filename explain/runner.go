@@ -192,7 +192,9 @@ func (r *Runner) pool() {
 }
 
 // head turns the pooled maxima in r.p.Pre into the pooled units (ReLU,
-// masked filters zero), the logits, the probabilities and the prediction.
+// masked filters zero), the logits (with the wide path's term of the
+// text, whose padding counts for nothing), the probabilities and the
+// prediction.
 func (r *Runner) head() {
 	m := r.st.m
 	for g, a := range r.p.Pre {
@@ -203,6 +205,7 @@ func (r *Runner) head() {
 		}
 	}
 	m.Head(r.p.Pooled, r.p.Logits)
+	m.AddWide(r.x, r.p.Logits)
 	cnn.Softmax(r.p.Logits, r.p.Probs)
 	r.p.Pred = argmax32(r.p.Logits)
 }

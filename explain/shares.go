@@ -31,13 +31,24 @@ const (
 // window for every fired filter g,
 //
 //	Σ_c v_c·logit[c] = Σ_c v_c·OutB[c] + Σ_{g fired} (Σ_c v_c·OutW[c][g])·(B_g + Σ_s slot scores).
+//
+// A model with the wide path (cnn.Config.Wide) adds (1/N)·Σ_t
+// Σ_c v_c·Wide[x_t][c] over the text's N non-PAD tokens. Adding a vector a
+// to every word's row of the wide table but PAD's and subtracting a from
+// the output biases changes no prediction of a text with a word, so a row
+// alone is not identified, only its difference from the unknown word's
+// row: token i's wide part is Words[i] = Σ_c v_c·(Wide[x_i][c] −
+// Wide[UNK][c])/N (0 for PAD), and the constant Σ_c v_c·Wide[UNK][c] goes
+// with the output bias (for N ≥ 1; the model has no wide term when N is 0).
 type Shares struct {
 	Class   int `json:"class"`
 	Against int `json:"against"` // a class, or AgainstMean (−1)
 	// Value is the quantity itself: logit[Class] − logit[Against] (the
 	// log of p(Class)/p(Against)), or logit[Class] − mean logit.
 	Value float64 `json:"value"`
-	// OutputBias = Σ_c v_c·OutB[c].
+	// OutputBias is the output bias, Σ_c v_c·OutB[c], plus the wide path's
+	// unknown-word weight, Σ_c v_c·Wide[UNK][c], for a model with the wide
+	// path and a text with a word (see above).
 	OutputBias float64 `json:"output_bias"`
 	// FilterBias[k] = (Σ_c v_c·OutW[c][g])·B_g for the k-th fired filter g
 	// of Explanation.Filters: the part of Value its convolution bias carries.
@@ -46,8 +57,13 @@ type Shares struct {
 	// of Value: its FilterBias plus the shares it gives the tokens of its
 	// winning window.
 	Filters []float64 `json:"filters"`
-	// Tokens[i] is token i's share.
+	// Tokens[i] is token i's share: the shares its slot scores give
+	// through the fired filters, plus Words[i].
 	Tokens []float64 `json:"tokens"`
+	// Words[i] is token i's part through the wide path, Σ_c
+	// v_c·(Wide[x_i][c] − Wide[UNK][c])/N (already in Tokens[i]); nil for a
+	// model without the wide path.
+	Words []float64 `json:"words,omitempty"`
 }
 
 // Parts returns OutputBias + Σ FilterBias + Σ Tokens, which equals Value up
@@ -135,19 +151,29 @@ func runnerUp(z []float64, class int) int {
 }
 
 // identifiedShares fills e.LogOdds and e.Centred from the fired filters'
-// slot scores (e.Filters must be set).
-func identifiedShares(m *cnn.Model, e *Explanation) {
+// slot scores (e.Filters must be set) and the wide path's rows of the
+// text's words; ids are the text's ids.
+func identifiedShares(m *cnn.Model, e *Explanation, ids []int32) {
 	L := len(e.Tokens)
 	ts := targets(m.Config.Classes, e.Class, e.RunnerUp)
 	out := make([]Shares, len(ts))
 	nk := len(e.Filters)
-	flat := make([]float64, len(ts)*(L+2*nk))
+	per := L + 2*nk
+	if e.wide.sum != nil {
+		per += L
+	}
+	flat := make([]float64, len(ts)*per)
 	for j, k := range ts {
 		s := &out[j]
 		s.Class, s.Against = k.class, k.against
 		s.Value = k.dot(e.logits)
-		s.OutputBias = k.outputBias(m)
+		s.OutputBias = k.outputBias(m) + k.unknownPart(m, e.wide)
 		s.Tokens, flat = flat[:L:L], flat[L:]
+		if e.wide.sum != nil {
+			s.Words = k.wordShares(m, ids, e.wide, flat[:L:L])
+			flat = flat[L:]
+			copy(s.Tokens, s.Words)
+		}
 		s.FilterBias, flat = flat[:nk:nk], flat[nk:]
 		s.Filters, flat = flat[:nk:nk], flat[nk:]
 		for fi := range e.Filters {

@@ -8,10 +8,15 @@ import (
 )
 
 // tableCase builds a random model and a table for it: every third model has
-// masked filters and every second a table with room for about a third of the
-// words only (the others are computed on the fly).
+// masked filters, every second a table with room for about a third of the
+// words only (the others are computed on the fly), and two of every five
+// the wide path with a random table (drawn from its own generator, so the
+// other draws are those of the models without it).
 func tableCase(rng *rand.Rand, trial int) (*cnn.Model, TableOptions) {
 	m := randomModel(rng, randomConfig(rng))
+	if trial%5 == 1 || trial%5 == 3 {
+		withWide(m, uint64(trial))
+	}
 	if trial%3 == 0 {
 		m.Masked = make([]bool, m.Config.NumFilters())
 		for g := range m.Masked {

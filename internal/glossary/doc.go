@@ -15,5 +15,7 @@
 // activation, OutW[c][g] and OutB[c] the output layer, p(c) the predicted
 // probability of class c, ŷ the predicted class, r the runner-up (the class
 // with the next largest probability), C the number of classes and e_c the
-// unit vector of class c.
+// unit vector of class c. A model with the wide path adds Wide[w][c], word
+// w's weight for class c, averaged over the text's N words (ids other than
+// padding) x_t; UNK is the unknown word.
 package glossary
