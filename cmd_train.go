@@ -54,7 +54,8 @@ is trained on what unknown words are like.
 one weight per label, and the mean of those weights over the text's words
 is added to the logits (the linear part of Wide & Deep, Cheng et al. 2016;
 the averaged word features of Joulin et al. 2017), trained with the rest;
---wide-lr F multiplies its learning rate. It combines with --chars.
+--wide-lr F multiplies its learning rate (default 100: at the rest's rate the
+weights hardly move before early stopping). It combines with --chars.
 
 Before training it refuses data that would give a useless model: more
 distinct labels than half the examples (the text and label columns swapped,

@@ -119,6 +119,9 @@ func TestTrainDefaultsAreTheRecipe(t *testing.T) {
 	if _, r = parse("--wide=false"); r.Model.Wide {
 		t.Error("--wide=false asks for the wide path")
 	}
+	if _, r = parse("--wide"); !r.Model.Wide || r.Train.WideLR != cnn.DefaultWideLR {
+		t.Errorf("--wide alone: wide %v, learning-rate factor %g, want true and %d", r.Model.Wide, r.Train.WideLR, cnn.DefaultWideLR)
+	}
 }
 
 func TestVersion(t *testing.T) {

@@ -66,7 +66,7 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 	intVar(fs, &r.CharWidth, "char-width", cnn.DefaultCharWidth, "with --chars: characters per character filter window (1 to 32)")
 	fs.BoolVar(&r.Wide, "wide", def.Model.Wide,
 		"a word-weight path beside the filters: the mean over the text's words of a weight per word and label, added to the logits and trained with them")
-	floatVar(fs, &r.WideLR, "wide-lr", def.Train.WideLR,
+	floatVar(fs, &r.WideLR, "wide-lr", cnn.DefaultWideLR,
 		"with --wide: factor on the learning rate of the word-weight table; 0 means 1, the rest's rate")
 	fs.BoolVar(&r.Baseline, "baseline", def.Baseline != nil,
 		"also fit the linear baseline (TF-IDF n-grams + logistic regression) and show it beside the CNN; --baseline=false leaves it out")
@@ -203,7 +203,9 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 	tc.Epochs, tc.Batch, tc.Optimizer, tc.LR, tc.Seed = r.Epochs, r.Batch, r.Optimizer, r.LR, seed
 	tc.Threads, tc.Patience, tc.MaxLen, tc.FreezeEmb = threads, r.Patience, r.MaxLen, r.Freeze
 	tc.WordDropout, tc.TokenDropout, tc.ClassWeight = r.WordDropout, r.TokenDropout, r.ClassWeight
-	tc.WideLR = r.WideLR
+	if r.Wide {
+		tc.WideLR = r.WideLR
+	}
 	if r.ClassWeight == classWeightNone {
 		tc.ClassWeight = ""
 	}

@@ -25,7 +25,7 @@ type recipeForm struct {
 	// embedding dimension stays the word table's, as on the command line.
 	chars binding.Bool
 	// wide: the word-weight path beside the filters (cnn.Config.Wide,
-	// train --wide, its learning rate the rest's).
+	// train --wide, its learning rate cnn.DefaultWideLR times the rest's).
 	wide binding.Bool
 }
 
@@ -180,7 +180,9 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 			Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
 		rec.Model.Dim += rec.Model.Chars.Filters // Model.Dim is the whole word vector's width
 	}
-	rec.Model.Wide, _ = r.wide.Get()
+	if rec.Model.Wide, _ = r.wide.Get(); rec.Model.Wide {
+		rec.Train.WideLR = cnn.DefaultWideLR
+	}
 	plan := r.readPlan(&fe)
 	rec.Train.Seed = plan.Seed
 	if len(fe) == 0 {

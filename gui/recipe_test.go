@@ -49,6 +49,9 @@ func TestRecipeFormWide(t *testing.T) {
 	}
 	want := cnn.DefaultRecipe()
 	want.Model.Wide = !def.Model.Wide
+	if want.Model.Wide {
+		want.Train.WideLR = cnn.DefaultWideLR // as train --wide
+	}
 	if !reflect.DeepEqual(rec, want) {
 		t.Errorf("with the check flipped: %+v, want %+v", rec.Model, want.Model)
 	}
