@@ -20,7 +20,9 @@ import (
 // rearranged by slot, one slot table of Σwidths × maps values per distinct
 // word of a batch for training and one for the dev evaluation, the
 // embedding rows of a batch's words once plus once per thread, and the
-// persistent inference table (at most 2²⁵ values). It is an upper bound:
+// persistent inference table (at most 2²⁵ values), and with the
+// word-weight path its table like a tensor and a batch's rows of it per
+// thread. It is an upper bound:
 // a batch seldom holds as many distinct words as the estimate allows
 // (3.5 times the peak heap measured on the demo corpus, TestTrainingMemoryEstimate),
 // so only a model that cannot fit is refused.
@@ -43,6 +45,9 @@ func trainingBytes(cfg cnn.Config, batch, maxLen, threads int) float64 {
 		2*words*slotRow + // the batch's slot table and the dev evaluation's
 		(t+1)*words*d + // the batch's embedding rows
 		min(v*slotRow, 1<<25) // the persistent inference table
+	if cfg.Wide {
+		floats += 4*v*classes + t*words*classes // the word-weight table as a tensor, and its rows of a batch per thread
+	}
 	return 4 * floats
 }
 
