@@ -243,7 +243,9 @@ func sharesOf(e *explain.Explanation, class int) *explain.Shares {
 }
 
 // writeIdentity writes what the painted numbers add up to: the exact
-// split, or integrated gradients' completeness.
+// split, or integrated gradients' completeness; on a model with the wide
+// path it names the unknown word's weight in the output bias (the
+// baseline) and the word weights in the token shares (scores).
 func writeIdentity(w io.Writer, e *explain.Explanation, method string, class int) {
 	switch method {
 	case explain.MethodExact:
@@ -255,16 +257,33 @@ func writeIdentity(w io.Writer, e *explain.Explanation, method string, class int
 		for _, v := range s.Tokens {
 			tok += v
 		}
-		fmt.Fprintf(w, "%s = %+.3f = output bias %+.3f + filter biases %+.3f + token shares %+.3f\n",
-			quantity(e, class), s.Value, s.OutputBias, fb, tok)
+		bias, words := "output bias", ""
+		if s.Words != nil {
+			bias, words = "output bias with the unknown word's weight", fmt.Sprintf(" (word weights %+.3f)", sumOf(s.Words))
+		}
+		fmt.Fprintf(w, "%s = %+.3f = %s %+.3f + filter biases %+.3f + token shares %+.3f%s\n",
+			quantity(e, class), s.Value, bias, s.OutputBias, fb, tok, words)
 	case explain.MethodIG:
 		ig := e.Integrated.LogOdds
 		if class >= 0 {
 			ig = e.Integrated.Centred[class]
 		}
-		fmt.Fprintf(w, "%s = %+.3f, with every word vector zero %+.3f: the token scores add up to the difference (gap %.1g)\n",
-			quantity(e, class), ig.Value, ig.Baseline, ig.Gap)
+		base, words := "with every word vector zero", ""
+		if ig.Words != nil {
+			base, words = "with every word vector zero and the unknown word's weight", fmt.Sprintf(" (word weights %+.3f)", sumOf(ig.Words))
+		}
+		fmt.Fprintf(w, "%s = %+.3f, %s %+.3f: the token scores%s add up to the difference (gap %.1g)\n",
+			quantity(e, class), ig.Value, base, ig.Baseline, words, ig.Gap)
 	}
+}
+
+// sumOf is the sum of v.
+func sumOf(v []float64) float64 {
+	var s float64
+	for _, x := range v {
+		s += x
+	}
+	return s
 }
 
 // writeWindows lists the n-gram windows whose removal lowers the predicted

@@ -6,6 +6,8 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"regexp"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -332,4 +334,150 @@ func TestFaithfulnessText(t *testing.T) {
 type ciJSON struct {
 	Low  *float64 `json:"low"`
 	High *float64 `json:"high"`
+}
+
+// wideLine reads back the exact split explain writes for a model with the
+// wide path: the value, the output bias with the unknown word's weight, the
+// filter biases, the token shares and the word weights of them.
+var wideLine = regexp.MustCompile(`= ([+-][0-9.]+) = output bias with the unknown word's weight ([+-][0-9.]+) \+ filter biases ([+-][0-9.]+) \+ token shares ([+-][0-9.]+) \(word weights ([+-][0-9.]+)\)\n`)
+
+// wideIGLine reads back integrated gradients' completeness line for a
+// model with the wide path: the value, the baseline and the word weights.
+var wideIGLine = regexp.MustCompile(`= ([+-][0-9.]+), with every word vector zero and the unknown word's weight ([+-][0-9.]+): the token scores \(word weights ([+-][0-9.]+)\) add up to the difference`)
+
+// parseFloats parses the submatches of m after the whole match.
+func parseFloats(t *testing.T, m []string) []float64 {
+	t.Helper()
+	out := make([]float64, len(m)-1)
+	for i, s := range m[1:] {
+		v, err := strconv.ParseFloat(s, 64)
+		if err != nil {
+			t.Fatalf("%q: %v", m[0], err)
+		}
+		out[i] = v
+	}
+	return out
+}
+
+// TestExplainTextWideModel: on a model trained with --wide, explain's text
+// names the unknown word's weight in the output bias and the word weights
+// in the token shares, for the log-odds, a label's centred logit and
+// integrated gradients. The numbers written are read back: they add up to
+// the value written, and the output bias and word weights are those
+// computed here from the model file's weights (Σ_c v_c·(OutB[c] +
+// Wide[UNK][c]) and Σ_i Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N, the split
+// documented in explain.Shares). Rounding: every number is written to 3
+// decimals, so each is off by at most 5e-4.
+func TestExplainTextWideModel(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 1500)
+	model := filepath.Join(dir, "wide.tt")
+	if code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "5", "--dim", "8", "--maps", "4", "--wide", "--quiet"); code != 0 {
+		t.Fatalf("train --wide: exit %d: %s", code, stderr)
+	}
+	m, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	enc, err := m.Encoder()
+	if err != nil {
+		t.Fatal(err)
+	}
+	text := "The deckhand was not friendly at all and my refund never came."
+	_, ids := enc.Encode(text)
+	code, js, stderr := tt(t, "explain", "--model", model, "--text", text, "--json")
+	if code != 0 {
+		t.Fatalf("explain --json: exit %d: %s", code, stderr)
+	}
+	var e explain.Explanation
+	if err := json.Unmarshal([]byte(js), &e); err != nil {
+		t.Fatal(err)
+	}
+	C := m.Config.Classes
+	// parts returns the output bias and the word weights of the contrast v.
+	parts := func(v []float64) (bias, words float64) {
+		unk := int(corpus.UNK) * C
+		n := 0
+		for _, id := range ids {
+			if id != corpus.PAD {
+				n++
+			}
+		}
+		for c := range C {
+			bias += v[c] * (float64(m.OutB[c]) + float64(m.Wide[unk+c]))
+			for _, id := range ids {
+				if id != corpus.PAD {
+					words += v[c] * (float64(m.Wide[int(id)*C+c]) - float64(m.Wide[unk+c])) / float64(n)
+				}
+			}
+		}
+		return bias, words
+	}
+	logOdds := make([]float64, C)
+	logOdds[e.Class], logOdds[e.RunnerUp] = 1, -1
+	other := (e.Class + 1) % C
+	centred := make([]float64, C)
+	for c := range centred {
+		centred[c] = -1 / float64(C)
+	}
+	centred[other]++
+	const half = 5e-4
+	for _, tc := range []struct {
+		name string
+		args []string
+		v    []float64
+	}{
+		{"log-odds", nil, logOdds},
+		{"centred logit of " + e.Labels[other], []string{"--class", e.Labels[other]}, centred},
+	} {
+		code, out, stderr := tt(t, append([]string{"explain", "--model", model, "--text", text, "--color", "never"}, tc.args...)...)
+		if code != 0 {
+			t.Fatalf("explain (%s): exit %d: %s", tc.name, code, stderr)
+		}
+		mt := wideLine.FindStringSubmatch(out)
+		if mt == nil {
+			t.Fatalf("%s: no split naming the wide path's parts:\n%s", tc.name, out)
+		}
+		got := parseFloats(t, mt) // value, bias, filter biases, tokens, words
+		if !testref.Close(got[0], got[1]+got[2]+got[3], 4*half, 0) {
+			t.Errorf("%s: %q does not add up (%g)", tc.name, mt[0], got[1]+got[2]+got[3])
+		}
+		bias, words := parts(tc.v)
+		if !testref.Close(got[1], bias, half+1e-6, 0) || !testref.Close(got[4], words, half+1e-6, 0) {
+			t.Errorf("%s: %q: output bias %+.5f and word weights %+.5f from the model's weights", tc.name, mt[0], bias, words)
+		}
+		if math.Abs(words) < 10*half {
+			t.Errorf("%s: word weights %+.5f too small to tell apart from zero: the check checks little", tc.name, words)
+		}
+	}
+	code, out, stderr := tt(t, "explain", "--model", model, "--text", text, "--color", "never", "--method", "ig")
+	if code != 0 {
+		t.Fatalf("explain --method ig: exit %d: %s", code, stderr)
+	}
+	mt := wideIGLine.FindStringSubmatch(out)
+	if mt == nil {
+		t.Fatalf("integrated gradients: no baseline naming the unknown word's weight:\n%s", out)
+	}
+	got := parseFloats(t, mt) // value, baseline, words
+	_, words := parts(logOdds)
+	if !testref.Close(got[2], words, half+1e-6, 0) {
+		t.Errorf("%q: word weights %+.5f from the model's weights", mt[0], words)
+	}
+	// The baseline: the value with every word vector zero and every word
+	// the unknown word, by a forward pass of the model so changed on a text
+	// of as many unknown words.
+	zero := m.Clone()
+	clear(zero.Emb)
+	unknown := make([]int32, len(ids))
+	for i := range unknown {
+		unknown[i] = corpus.UNK
+	}
+	lg := zero.Forward(unknown).Logits
+	baseline := float64(lg[e.Class]) - float64(lg[e.RunnerUp])
+	if !testref.Close(got[1], baseline, half+1e-5, 0) {
+		t.Errorf("%q: the baseline is %+.5f by a forward pass with zero word vectors on unknown words", mt[0], baseline)
+	}
+	if !testref.Close(got[0], e.LogOdds.Value, half, 0) {
+		t.Errorf("%q: the value is %+.5f in --json", mt[0], e.LogOdds.Value)
+	}
 }

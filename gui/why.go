@@ -109,8 +109,12 @@ func tokenDetail(e *explain.Explanation, i, class, known int) string {
 		word = "not in the vocabulary: its vector is read from its characters"
 	}
 	var b strings.Builder
+	sh := sharesFor(e, class)
 	fmt.Fprintf(&b, "Token %d, %q (%s, bytes %d–%d of the text). Exact share of %s: %+.5f",
-		i, t.Text, word, t.Start, t.End, quantityName(e, class), sharesFor(e, class).Tokens[i])
+		i, t.Text, word, t.Start, t.End, quantityName(e, class), sh.Tokens[i])
+	if i < len(sh.Words) { // the wide path's part, already in the share
+		fmt.Fprintf(&b, " (of which word weight %+.5f)", sh.Words[i])
+	}
 	if i < len(e.Attributions.Occlusion) {
 		fmt.Fprintf(&b, "; occlusion: p(%s) falls by %+.5f (log-probability by %+.5f)", e.Label, e.Attributions.Occlusion[i], e.Attributions.OcclusionLog[i])
 	}

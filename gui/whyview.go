@@ -255,7 +255,9 @@ func (v *whyView) paintNothing() {
 }
 
 // verdict is the line under the text box: the prediction, the runner-up,
-// and the exact split of the quantity painted (class −1: the log-odds).
+// and the exact split of the quantity painted (class −1: the log-odds); on
+// a model with the wide path it names the unknown word's weight in the
+// output bias and the word weights in the token shares.
 func verdict(e *explain.Explanation, class int) string {
 	sh := sharesFor(e, class)
 	var fb, tok float64
@@ -269,9 +271,17 @@ func verdict(e *explain.Explanation, class int) string {
 	if class >= 0 {
 		name = "Centred logit of " + e.Labels[class]
 	}
-	return fmt.Sprintf("Predicted: %s, p = %.3f; runner-up %s, p = %.3f.   %s = %.4f = output bias %s + filter biases %s + token shares %s.",
+	bias, words := "output bias", ""
+	if sh.Words != nil { // a model with the wide path: its parts named
+		var ww float64
+		for _, x := range sh.Words {
+			ww += x
+		}
+		bias, words = "output bias with the unknown word's weight", " (word weights "+signed4(ww)+")"
+	}
+	return fmt.Sprintf("Predicted: %s, p = %.3f; runner-up %s, p = %.3f.   %s = %.4f = %s %s + filter biases %s + token shares %s%s.",
 		e.Label, e.Probabilities[e.Class], e.Labels[e.RunnerUp], e.Probabilities[e.RunnerUp],
-		name, sh.Value, signed4(sh.OutputBias), signed4(fb), signed4(tok))
+		name, sh.Value, bias, signed4(sh.OutputBias), signed4(fb), signed4(tok), words)
 }
 
 // signed4 writes x with its sign and four decimals, zero without a minus.

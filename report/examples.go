@@ -62,8 +62,7 @@ func example(in Input, ex Example) (exampleView, error) {
 		filterBias += v
 	}
 	ev.Legend = newLegend(scale, "toward "+ev.RunnerUp+" "+signed(-scale), "toward "+e.Label+" "+signed(scale))
-	ev.Identity = fmt.Sprintf("log p(%s)/p(%s) %s = output bias %s + filter biases %s + token shares %s",
-		e.Label, ev.RunnerUp, signed(lo.Value), signed(lo.OutputBias), signed(filterBias), signed(sum))
+	ev.Identity = identity(e, ev.RunnerUp, filterBias, sum)
 	ev.Segments = paint(ex.Text, e.Tokens, share, scale, e.Label, ev.RunnerUp)
 	for k, l := range e.Labels {
 		ev.Probs = append(ev.Probs, probCell{l, pct(e.Probabilities[k]), k == c})
@@ -91,6 +90,24 @@ func example(in Input, ex Example) (exampleView, error) {
 			Effect: signed(kd.Effect), LogOdds: signed(kd.LogOdds - lo.Value), Drop: signed(kd.Drop)})
 	}
 	return ev, nil
+}
+
+// identity writes the exact split of the log-odds of e: its value, the
+// output bias, the filter biases' sum fb and the token shares' sum tok. On
+// a model with the wide path (LogOdds.Words set) the output bias holds the
+// unknown word's weight and the token shares the word weights, named so.
+func identity(e *explain.Explanation, runnerUp string, fb, tok float64) string {
+	lo := &e.LogOdds
+	bias, words := "output bias", ""
+	if lo.Words != nil {
+		var ww float64
+		for _, v := range lo.Words {
+			ww += v
+		}
+		bias, words = "output bias with the unknown word's weight", " (word weights "+signed(ww)+")"
+	}
+	return fmt.Sprintf("log p(%s)/p(%s) %s = %s %s + filter biases %s + token shares %s%s",
+		e.Label, runnerUp, signed(lo.Value), bias, signed(lo.OutputBias), signed(fb), signed(tok), words)
 }
 
 // checkExplanation checks the shapes the layout relies on.

@@ -1,0 +1,117 @@
+package report
+
+import (
+	"bytes"
+	"html"
+	"math"
+	"math/rand/v2"
+	"regexp"
+	"strconv"
+	"strings"
+	"testing"
+
+	"telltale/corpus"
+	"telltale/explain"
+	"telltale/internal/testref"
+)
+
+// wideIdentity reads back the identity line of an explained text of a model
+// with the wide path: the log-odds, the output bias with the unknown word's
+// weight, the filter biases, the token shares and the word weights of them.
+var wideIdentity = regexp.MustCompile(`^log p\(.+\)/p\(.+\) (-?[0-9.]+|\+[0-9.]+) = output bias with the unknown word's weight (\S+) \+ filter biases (\S+) \+ token shares (\S+) \(word weights (\S+)\)$`)
+
+// TestExampleIdentityWide: the identity line of an explained text of a
+// model with the wide path (the demo fixture's model given a wide table of
+// seeded weights, PAD's row zero) names the unknown word's weight in the
+// output bias and the word weights in the token shares. Its numbers, read
+// back, add up to the log-odds written, and the output bias and the word
+// weights are those computed here from the weights, Σ_c v_c·(OutB[c] +
+// Wide[UNK][c]) and Σ_i Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N with v =
+// e_label − e_runner-up (the split documented in explain.Shares). The page
+// shows the line. Every number is written to 3 decimals: off by 5e-4 at
+// most.
+func TestExampleIdentityWide(t *testing.T) {
+	d := loadDemo(t)
+	m := d.model.Clone()
+	C := m.Config.Classes
+	m.Config.Wide = true
+	m.Wide = make([]float32, m.Config.VocabSize*C)
+	rng := rand.New(rand.NewPCG(5, 11))
+	for i := C; i < len(m.Wide); i++ {
+		m.Wide[i] = float32(rng.NormFloat64())
+	}
+	tok, err := corpus.NewTokenizer(m.Tokenizer)
+	if err != nil {
+		t.Fatal(err)
+	}
+	v := corpus.NewVocab(m.Vocab, nil)
+	text := "My ticket was lost and the ferry left without me, a zqxj refund please."
+	toks := tok.TokenizeFor(v, text)
+	ids := v.Encode(toks)
+	e, err := explain.Explain(m, toks, ids, explain.ExplainOptions{Occlusion: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ev, err := example(Input{Model: m}, Example{Kind: KindCorrect, Text: text, Gold: e.Label, Explanation: e})
+	if err != nil {
+		t.Fatal(err)
+	}
+	mt := wideIdentity.FindStringSubmatch(ev.Identity)
+	if mt == nil {
+		t.Fatalf("identity line %q does not name the wide path's parts", ev.Identity)
+	}
+	got := make([]float64, 5) // log-odds, bias, filter biases, tokens, words
+	for i, s := range mt[1:] {
+		if got[i], err = strconv.ParseFloat(s, 64); err != nil {
+			t.Fatalf("%q: %v", ev.Identity, err)
+		}
+	}
+	const half = 5e-4
+	if !testref.Close(got[0], got[1]+got[2]+got[3], 4*half, 0) {
+		t.Errorf("%q does not add up (%g)", ev.Identity, got[1]+got[2]+got[3])
+	}
+	unk := int(corpus.UNK) * C
+	var bias, words float64
+	n := 0
+	for _, id := range ids {
+		if id != corpus.PAD {
+			n++
+		}
+	}
+	for c := range C {
+		vc := 0.0
+		switch c {
+		case e.Class:
+			vc = 1
+		case e.RunnerUp:
+			vc = -1
+		}
+		bias += vc * (float64(m.OutB[c]) + float64(m.Wide[unk+c]))
+		for _, id := range ids {
+			if id != corpus.PAD {
+				words += vc * (float64(m.Wide[int(id)*C+c]) - float64(m.Wide[unk+c])) / float64(n)
+			}
+		}
+	}
+	if !testref.Close(got[1], bias, half+1e-6, 0) || !testref.Close(got[4], words, half+1e-6, 0) {
+		t.Errorf("%q: output bias %+.5f and word weights %+.5f from the weights", ev.Identity, bias, words)
+	}
+	if math.Abs(words) < 10*half {
+		t.Errorf("word weights %+.5f too small to tell apart from zero: the check checks little", words)
+	}
+	// The page shows the line.
+	in := d.input
+	in.Model = m
+	in.Examples = []Example{{Kind: KindCorrect, Text: text, Gold: e.Label, Explanation: e}}
+	r, err := New(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := r.WriteHTML(&buf); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(html.UnescapeString(buf.String()), `<div class="identity">`+ev.Identity+`</div>`) {
+		t.Errorf("the page does not show %q", ev.Identity)
+	}
+}
