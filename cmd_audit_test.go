@@ -469,6 +469,36 @@ func TestRetrainArgs(t *testing.T) {
 	if got := recipeArgs(dm); len(got) != 0 {
 		t.Errorf("the default recipe gives %q", got)
 	}
+	// What train's own options would set: the word weights with train's
+	// factor and with the rest's rate (recorded as 0), the character layer
+	// (its columns are not --dim's), the dropouts and class weights.
+	for _, c := range []struct {
+		edit func(m *cnn.Model)
+		want string
+	}{
+		{func(m *cnn.Model) { m.Config.Wide, m.Info.Recipe.WideLR = true, cnn.DefaultWideLR }, "--wide=true"},
+		{func(m *cnn.Model) { m.Config.Wide, m.Info.Recipe.WideLR = true, 0 }, "--wide=true --wide-lr 1"},
+		{func(m *cnn.Model) {
+			m.Config.Chars = &cnn.CharConfig{Filters: cnn.DefaultCharFilters, Width: cnn.DefaultCharWidth}
+			m.Config.Dim += cnn.DefaultCharFilters
+		}, "--chars"},
+		{func(m *cnn.Model) {
+			m.Config.Chars = &cnn.CharConfig{Filters: 20, Width: 4}
+			m.Config.Dim = 84
+		}, "--chars --char-maps 20 --char-width 4 --dim 64"},
+		{func(m *cnn.Model) {
+			m.Info.Recipe.TokenDropout, m.Info.Recipe.WordDropout, m.Info.Recipe.ClassWeight = 0, 0.5, "balanced"
+		}, "--token-dropout 0 --word-dropout 0.5 --class-weight balanced"},
+	} {
+		m := &cnn.Model{Config: def.Model, Tokenizer: def.Tokenizer}
+		m.Config.Widths = slices.Clone(def.Model.Widths)
+		r := dt
+		m.Info.Recipe = &r
+		c.edit(m)
+		if got := strings.Join(recipeArgs(m), " "); got != c.want {
+			t.Errorf("recipeArgs gives %q, want %q", got, c.want)
+		}
+	}
 }
 
 // TestAuditRefusals: options that cannot work are refused before any work

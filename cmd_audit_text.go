@@ -2,6 +2,7 @@ package main
 
 import (
 	"bufio"
+	"cmp"
 	"fmt"
 	"io"
 	"strconv"
@@ -305,7 +306,15 @@ func recipeArgs(m *cnn.Model) []string {
 	}
 	def := cnn.DefaultRecipe()
 	c, dc := m.Config, def.Model
-	opt(c.Dim != dc.Dim, "dim", strconv.Itoa(c.Dim))
+	dim := c.Dim
+	if ch := c.Chars; ch != nil {
+		// --dim is the word table's; the character part comes beside it.
+		dim -= ch.Filters
+		args = append(args, "--chars")
+		opt(ch.Filters != cnn.DefaultCharFilters, "char-maps", strconv.Itoa(ch.Filters))
+		opt(ch.Width != cnn.DefaultCharWidth, "char-width", strconv.Itoa(ch.Width))
+	}
+	opt(dim != dc.Dim, "dim", strconv.Itoa(dim))
 	opt(joinInts(c.Widths) != joinInts(dc.Widths), "widths", joinInts(c.Widths))
 	opt(c.Filters != dc.Filters, "maps", strconv.Itoa(c.Filters))
 	opt(c.Dropout != dc.Dropout, "dropout", strconv.FormatFloat(float64(c.Dropout), 'g', -1, 32))
@@ -328,6 +337,14 @@ func recipeArgs(m *cnn.Model) []string {
 		opt(r.MaxLen != dt.MaxLen, "max-len", strconv.Itoa(r.MaxLen))
 		opt(r.Patience != dt.Patience, "patience", strconv.Itoa(max(0, r.Patience))) // negative: never stops, train's 0
 		boolOpt(r.FreezeEmb != dt.FreezeEmb, "freeze", r.FreezeEmb)
+		opt(r.TokenDropout != dt.TokenDropout, "token-dropout", fmtFloat(r.TokenDropout))
+		opt(r.WordDropout != dt.WordDropout, "word-dropout", fmtFloat(r.WordDropout))
+		opt(r.ClassWeight != dt.ClassWeight, "class-weight", cmp.Or(r.ClassWeight, classWeightNone))
+	}
+	boolOpt(c.Wide != dc.Wide, "wide", c.Wide)
+	if r := m.Info.Recipe; c.Wide && r != nil && r.WideLR != cnn.DefaultWideLR {
+		// The recipe's 0 means the rest's rate, which train writes as 1.
+		opt(true, "wide-lr", fmtFloat(cmp.Or(r.WideLR, 1)))
 	}
 	return args
 }
