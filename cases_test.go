@@ -123,6 +123,8 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"selectivity NaN", []string{"filters", "--model", f.model, "--data", f.data, "--selectivity", "NaN"}, 2, []string{"--selectivity NaN: not a finite number"}},
 		{"a diverging run", train("--lr", "1e30", "--epochs", "3"), 1,
 			[]string{"training diverged in epoch 1", "nothing saved to " + out, "lower --lr (it was 1e+30)"}},
+		{"a diverging run with word weights", train("--wide", "--wide-lr", "1e300", "--optimizer", "adadelta", "--epochs", "1"), 1,
+			[]string{"training diverged in epoch 1", "nothing saved to " + out, "or --wide-lr (it was 1e+300)"}},
 		// Data that would give a useless model.
 		{"swapped columns", []string{"train", "--data", f.swapped, "--text-col", "label", "--label-col", "text", "--out", out}, 1,
 			[]string{"40 distinct labels among 40 examples", "check that --text-col and --label-col name the right columns", "--force"}},

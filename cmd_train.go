@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"context"
 	"flag"
 	"fmt"
@@ -177,6 +178,16 @@ func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.T
 	return trained, err
 }
 
+// lowerRates names the learning rates a diverged run can lower: --lr, and
+// --wide-lr when the word-weight table trained at its own multiple.
+func lowerRates(m *cnn.Model) string {
+	r := m.Info.Recipe
+	if m.Config.Wide {
+		return fmt.Sprintf("lower --lr (it was %g) or --wide-lr (it was %g)", r.LR, cmp.Or(r.WideLR, 1))
+	}
+	return fmt.Sprintf("lower --lr (it was %g)", r.LR)
+}
+
 // keep saves the trained model (its test evaluation and split record with
 // it) unless no epoch completed, prints the summary, and returns the error
 // of a run that was interrupted or diverged.
@@ -188,8 +199,8 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 	if res.BestEpoch == 0 {
 		what := "training stopped before the first epoch ended"
 		if d := res.Diverged; d != nil {
-			return fmt.Errorf("training diverged in epoch %d before it ended (%s): nothing saved to %s; lower --lr (it was %g)",
-				d.Epoch, divergedWhere(d), o.out, m.Info.Recipe.LR)
+			return fmt.Errorf("training diverged in epoch %d before it ended (%s): nothing saved to %s; %s",
+				d.Epoch, divergedWhere(d), o.out, lowerRates(m))
 		}
 		return interrupted(what + "; nothing saved to " + o.out)
 	}
@@ -222,8 +233,8 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 	}
 	switch {
 	case res.Diverged != nil:
-		return fmt.Errorf("training diverged in epoch %d (%s) and stopped; the best model so far (epoch %d) is saved in %s; lower --lr (it was %g) to train on",
-			res.Diverged.Epoch, divergedWhere(res.Diverged), res.BestEpoch, abs, m.Info.Recipe.LR)
+		return fmt.Errorf("training diverged in epoch %d (%s) and stopped; the best model so far (epoch %d) is saved in %s; %s to train on",
+			res.Diverged.Epoch, divergedWhere(res.Diverged), res.BestEpoch, abs, lowerRates(m))
 	case res.Cancelled:
 		return interrupted(fmt.Sprintf("training stopped after epoch %d; the best model so far (epoch %d) is saved in %s", len(res.Epochs), res.BestEpoch, abs))
 	case ctx.Err() != nil && o.recipe.Baseline && m.Baseline == nil:
