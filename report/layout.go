@@ -1,6 +1,7 @@
 package report
 
 import (
+	"cmp"
 	"fmt"
 	"html/template"
 	"math"
@@ -55,6 +56,9 @@ type recipeView struct {
 	Arch, Train []kv
 	Epochs      []epochRow
 	Created     string
+	// Chars and Wide say whether the word vectors have a character part
+	// and the logits a word-weight term, for the lead sentence.
+	Chars, Wide bool
 }
 
 type epochRow struct {
@@ -160,6 +164,14 @@ func recipe(in Input) recipeView {
 		{"Dropout", num(float64(c.Dropout))},
 		{"Max norm of output rows", maxNorm(c.MaxNorm)},
 	}}
+	if ch := c.Chars; ch != nil {
+		rv.Chars = true
+		rv.Arch = append(rv.Arch, kv{"Character layer", fmt.Sprintf("%d maps over windows of %d characters (the word vectors' last %d numbers)", ch.Filters, ch.Width, ch.Filters)})
+	}
+	if c.Wide {
+		rv.Wide = true
+		rv.Arch = append(rv.Arch, kv{"Word weights beside the filters", "yes: the mean over the text's words of one weight per word and label, added to the logits"})
+	}
 	if masked := maskedCount(m.Masked); masked > 0 {
 		rv.Arch = append(rv.Arch, kv{"Masked filters", fmt.Sprint(masked)})
 	}
@@ -175,6 +187,9 @@ func recipe(in Input) recipeView {
 			{"Longest text kept", maxLen(r.MaxLen)},
 			{"Embeddings frozen", yesNo(r.FreezeEmb)},
 			{"Seed", fmt.Sprint(r.Seed)},
+		}
+		if c.Wide {
+			rv.Train = append(rv.Train, kv{"Learning rate of the word weights", fmt.Sprintf("%g × the rest's", cmp.Or(r.WideLR, 1))})
 		}
 	}
 	if info.BestEpoch > 0 {

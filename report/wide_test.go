@@ -111,7 +111,17 @@ func TestExampleIdentityWide(t *testing.T) {
 	if err := r.WriteHTML(&buf); err != nil {
 		t.Fatal(err)
 	}
-	if !strings.Contains(html.UnescapeString(buf.String()), `<div class="identity">`+ev.Identity+`</div>`) {
+	page := html.UnescapeString(buf.String())
+	if !strings.Contains(page, `<div class="identity">`+ev.Identity+`</div>`) {
 		t.Errorf("the page does not show %q", ev.Identity)
+	}
+	// The training recipe names the word weights (and, for the model
+	// without them, does not).
+	const lead, row = "a weight per word and label, averaged over the text, adds to the logits", "Word weights beside the filters"
+	if !strings.Contains(page, lead) || !strings.Contains(page, row) {
+		t.Errorf("the page's recipe does not name the word weights (%q, %q)", lead, row)
+	}
+	if p := recipe(d.input); p.Wide || len(p.Arch) != len(recipe(Input{Model: m}).Arch)-1 {
+		t.Errorf("the model without word weights: wide %v, %d architecture rows", p.Wide, len(p.Arch))
 	}
 }
