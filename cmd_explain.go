@@ -346,8 +346,12 @@ func writeKeptDown(w io.Writer, e *explain.Explanation) {
 	if len(e.KeptDown) == 0 {
 		return
 	}
-	fmt.Fprintf(w, "windows kept down by the [tokens] in them (change of log p(%s)/p(%s) had the window won without them; measured without them):\n",
-		e.Label, e.Labels[e.RunnerUp])
+	also := ""
+	if e.LogOdds.Words != nil {
+		also = ", their word weights removed too"
+	}
+	fmt.Fprintf(w, "windows kept down by the [tokens] in them (change of log p(%s)/p(%s) had the window won without them; measured without them%s):\n",
+		e.Label, e.Labels[e.RunnerUp], also)
 	for _, kd := range e.KeptDown {
 		fmt.Fprintf(w, "  filter %-4d width %d  %q  estimate %+.3f, measured %+.3f (p(%s) %s)\n", kd.Filter, kd.Width,
 			strings.Join(tokenTexts(e, kd.Start, kd.Width, kd.By), " "), kd.Effect, kd.LogOdds-e.LogOdds.Value, e.Label, change(kd.Drop))

@@ -35,6 +35,7 @@ type whyView struct {
 	st *State
 
 	caution, caption, verdict, what, detail *widget.Label
+	keptNote                                *widget.Label // what the kept-down table's columns mean for the model
 	entry                                   *widget.Entry
 	method, class                           *choice
 	next                                    *widget.Button
@@ -103,14 +104,24 @@ func newWhyView(st *State) *whyView {
 	return v
 }
 
+// keptCaption explains the kept-down table; with word weights (wide) the
+// measured change also holds the removed words' weights, the estimate not.
+func keptCaption(wide bool) string {
+	s := "Each window would have won its filter but for the [tokens] in brackets: " +
+		"the change of the log-odds estimated had it won, and measured with them replaced by padding."
+	if wide {
+		s += " The measured change also holds those tokens' word weights; the estimate is the filter's alone."
+	}
+	return s
+}
+
 func (v *whyView) layout() fyne.CanvasObject {
 	controls := container.NewHBox(widget.NewLabel("Paint by"), v.method.box, widget.NewLabel("for"), v.class.box, layout.NewSpacer(), v.next)
 	top := container.NewVBox(v.caution, v.caption, v.entry, container.NewHScroll(controls), v.verdict, v.strip)
 	left := container.NewBorder(nil, container.NewVBox(v.legend, v.what, v.detail), nil, nil, container.NewVScroll(v.painted))
 	firedTab := container.NewBorder(wrapped("Click a filter to see it in Filters."), v.fired.detail, nil, nil, v.fired.view())
-	keptTab := container.NewBorder(wrapped("Each window would have won its filter but for the [tokens] in brackets: "+
-		"the change of the log-odds estimated had it won, and measured with them replaced by padding."),
-		v.kept.detail, nil, nil, v.kept.view())
+	v.keptNote = wrapped(keptCaption(false))
+	keptTab := container.NewBorder(v.keptNote, v.kept.detail, nil, nil, v.kept.view())
 	right := container.NewAppTabs(container.NewTabItem("Filters that fired", firedTab), container.NewTabItem("Windows kept down", keptTab))
 	split := container.NewHSplit(left, right)
 	split.Offset = 0.55
@@ -150,6 +161,9 @@ func (v *whyView) nextTestText() {
 func (v *whyView) modelChanged() {
 	ms := itemGet(v.st.model)
 	v.caption.SetText(ms.caption())
+	if v.keptNote != nil {
+		v.keptNote.SetText(keptCaption(ms != nil && ms.Model.Config.Wide))
+	}
 	if ms == nil {
 		v.next.Disable()
 		v.paint()

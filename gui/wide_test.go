@@ -142,6 +142,12 @@ func TestWhyThisLabelWide(t *testing.T) {
 			}
 		}
 	}
+	if note := st.whyView.keptNote.Text; !strings.Contains(note, "word weights") {
+		t.Errorf("the kept-down table's note does not say the measured change holds word weights: %q", note)
+	}
+	if strings.Contains(keptCaption(false), "word") {
+		t.Errorf("the kept-down note without word weights names them: %q", keptCaption(false))
+	}
 	// Without the path the verdict is as it was: no word weights named.
 	bare := *e
 	bare.LogOdds.Words = nil

@@ -118,6 +118,9 @@ func TestExampleIdentityWide(t *testing.T) {
 	// The training recipe names the word weights (and, for the model
 	// without them, does not).
 	const lead, row = "a weight per word and label, averaged over the text, adds to the logits", "Word weights beside the filters"
+	if !strings.Contains(page, "the measured change also holds those words' word weights") {
+		t.Error("the page does not say that a kept-down window's measured change holds word weights")
+	}
 	if !strings.Contains(page, lead) || !strings.Contains(page, row) {
 		t.Errorf("the page's recipe does not name the word weights (%q, %q)", lead, row)
 	}
