@@ -170,9 +170,11 @@ func PredictionTable(labels, texts []string, gold []int, probs [][]float32) *Tab
 // centred logit (the logit minus the mean over classes); occlusion and
 // occlusion_log, the drop of p(predicted) and of its log when the token is
 // replaced by padding; ig_log_odds and ig_centred_<label>, the same
-// quantities by integrated gradients. A score the explanation lacks is
-// empty. Labels are those of the first explanation; every explanation must
-// be of the same model.
+// quantities by integrated gradients. For a model with word weights
+// (explain.Shares.Words) two more columns follow, word_log_odds and
+// word_centred_<label>: the part of the token's share that its word weight
+// gives. A score the explanation lacks is empty. Labels are those of the
+// first explanation; every explanation must be of the same model.
 func AttributionTable(es []*explain.Explanation) *Table {
 	t := &Table{Columns: []string{"text_index", "token_index", "token", "start", "end", "predicted", "runner_up", "share_log_odds"}}
 	if len(es) == 0 {
@@ -185,6 +187,13 @@ func AttributionTable(es []*explain.Explanation) *Table {
 	t.Columns = append(t.Columns, "occlusion", "occlusion_log", "ig_log_odds")
 	for _, l := range labels {
 		t.Columns = append(t.Columns, "ig_centred_"+l)
+	}
+	words := es[0].LogOdds.Words != nil
+	if words {
+		t.Columns = append(t.Columns, "word_log_odds")
+		for _, l := range labels {
+			t.Columns = append(t.Columns, "word_centred_"+l)
+		}
 	}
 	for ti, e := range es {
 		for i, tok := range e.Tokens {
@@ -204,6 +213,16 @@ func AttributionTable(es []*explain.Explanation) *Table {
 				}
 			} else {
 				row = append(row, make([]any, 1+len(labels))...)
+			}
+			if words {
+				row = append(row, at(e.LogOdds.Words, i))
+				for c := range labels {
+					var v any
+					if c < len(e.Centred) {
+						v = at(e.Centred[c].Words, i)
+					}
+					row = append(row, v)
+				}
 			}
 			t.Add(row...)
 		}

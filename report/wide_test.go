@@ -10,6 +10,7 @@ import (
 	"strings"
 	"testing"
 
+	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
 	"telltale/internal/testref"
@@ -32,26 +33,8 @@ var wideIdentity = regexp.MustCompile(`^log p\(.+\)/p\(.+\) (-?[0-9.]+|\+[0-9.]+
 // most.
 func TestExampleIdentityWide(t *testing.T) {
 	d := loadDemo(t)
-	m := d.model.Clone()
+	m, text, ids, e := wideExplained(t, d)
 	C := m.Config.Classes
-	m.Config.Wide = true
-	m.Wide = make([]float32, m.Config.VocabSize*C)
-	rng := rand.New(rand.NewPCG(5, 11))
-	for i := C; i < len(m.Wide); i++ {
-		m.Wide[i] = float32(rng.NormFloat64())
-	}
-	tok, err := corpus.NewTokenizer(m.Tokenizer)
-	if err != nil {
-		t.Fatal(err)
-	}
-	v := corpus.NewVocab(m.Vocab, nil)
-	text := "My ticket was lost and the ferry left without me, a zqxj refund please."
-	toks := tok.TokenizeFor(v, text)
-	ids := v.Encode(toks)
-	e, err := explain.Explain(m, toks, ids, explain.ExplainOptions{Occlusion: true})
-	if err != nil {
-		t.Fatal(err)
-	}
 	ev, err := example(Input{Model: m}, Example{Kind: KindCorrect, Text: text, Gold: e.Label, Explanation: e})
 	if err != nil {
 		t.Fatal(err)
@@ -126,5 +109,73 @@ func TestExampleIdentityWide(t *testing.T) {
 	}
 	if p := recipe(d.input); p.Wide || len(p.Arch) != len(recipe(Input{Model: m}).Arch)-1 {
 		t.Errorf("the model without word weights: wide %v, %d architecture rows", p.Wide, len(p.Arch))
+	}
+}
+
+// wideExplained gives the demo fixture's model a wide table of seeded
+// weights (PAD's row zero) and explains one text with it.
+func wideExplained(t *testing.T, d demoFixture) (m *cnn.Model, text string, ids []int32, e *explain.Explanation) {
+	t.Helper()
+	m = d.model.Clone()
+	C := m.Config.Classes
+	m.Config.Wide = true
+	m.Wide = make([]float32, m.Config.VocabSize*C)
+	rng := rand.New(rand.NewPCG(5, 11))
+	for i := C; i < len(m.Wide); i++ {
+		m.Wide[i] = float32(rng.NormFloat64())
+	}
+	tok, err := corpus.NewTokenizer(m.Tokenizer)
+	if err != nil {
+		t.Fatal(err)
+	}
+	v := corpus.NewVocab(m.Vocab, nil)
+	text = "My ticket was lost and the ferry left without me, a zqxj refund please."
+	toks := tok.TokenizeFor(v, text)
+	ids = v.Encode(toks)
+	if e, err = explain.Explain(m, toks, ids, explain.ExplainOptions{Occlusion: true}); err != nil {
+		t.Fatal(err)
+	}
+	return m, text, ids, e
+}
+
+// TestAttributionTableWordWeights: for a model with word weights the
+// attribution table adds word_log_odds and word_centred_<label>, the
+// explanation's word parts of the token shares; for one without, it has
+// no such columns.
+func TestAttributionTableWordWeights(t *testing.T) {
+	d := loadDemo(t)
+	m, _, _, e := wideExplained(t, d)
+	tb := AttributionTable([]*explain.Explanation{e})
+	col := map[string]int{}
+	for i, c := range tb.Columns {
+		col[c] = i
+	}
+	last := m.Labels[len(m.Labels)-1]
+	for _, name := range []string{"word_log_odds", "word_centred_" + last} {
+		if _, ok := col[name]; !ok {
+			t.Fatalf("column %q missing from %v", name, tb.Columns)
+		}
+	}
+	nonzero := 0
+	for i, row := range tb.Rows {
+		w := row[col["word_log_odds"]].(float64)
+		if w != e.LogOdds.Words[i] || row[col["word_centred_"+last]].(float64) != e.Centred[len(m.Labels)-1].Words[i] {
+			t.Errorf("token %d: row %v, explanation word parts %v, %v", i, row, e.LogOdds.Words[i], e.Centred[len(m.Labels)-1].Words[i])
+		}
+		if w != 0 {
+			nonzero++
+		}
+	}
+	if nonzero == 0 {
+		t.Error("every word part is zero: the check checks little")
+	}
+	var es []*explain.Explanation
+	for _, ex := range d.input.Examples {
+		es = append(es, ex.Explanation)
+	}
+	for _, c := range AttributionTable(es).Columns {
+		if strings.HasPrefix(c, "word_") {
+			t.Errorf("a model without word weights exports column %q", c)
+		}
 	}
 }
