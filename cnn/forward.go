@@ -75,8 +75,10 @@ func (m *Model) Forward(ids []int32) Output {
 
 // addWide adds the wide path's term to logits (len Classes) for the text
 // ids as given, before padding: each non-PAD token t adds Wide[x[t]][c]/N,
-// N the number of non-PAD ids. It does nothing without Config.Wide or when
-// N is 0.
+// N the number of non-PAD ids; a text with N = 0 adds UNK's row, so that
+// the term is Wide[UNK][c] + Σ_t (Wide[x[t]][c] − Wide[UNK][c])/N for every
+// N (the sum empty at 0) and shifting every row but PAD's by one vector is
+// undone by shifting OutB. It does nothing without Config.Wide.
 func (m *Model) addWide(ids []int32, logits []float32) {
 	if !m.Config.Wide {
 		return
@@ -87,10 +89,15 @@ func (m *Model) addWide(ids []int32, logits []float32) {
 			n++
 		}
 	}
+	C := m.Config.Classes
 	if n == 0 {
+		unk := int(corpus.UNK) * C
+		for c, w := range m.Wide[unk : unk+C] {
+			logits[c] += w
+		}
 		return
 	}
-	inv, C := 1/float32(n), m.Config.Classes
+	inv := 1 / float32(n)
 	for _, id := range ids {
 		if id == corpus.PAD {
 			continue

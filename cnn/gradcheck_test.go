@@ -1,6 +1,7 @@
 package cnn
 
 import (
+	"maps"
 	"math"
 	"math/rand/v2"
 	"slices"
@@ -81,7 +82,8 @@ func ref64Scaled(m *Model, texts [][]int32, labels []int, drop []float32, scale 
 
 // wide64 is the wide term of logit c for the text ids in float64, written
 // from its definition (model.go): the mean over the non-PAD ids of their
-// weights for class c; 0 without Config.Wide or non-PAD ids.
+// weights for class c; the unknown word's (id 1) weight when no id is
+// non-PAD; 0 without Config.Wide.
 func wide64(m *Model, ids []int32, c int) float64 {
 	if !m.Config.Wide {
 		return 0
@@ -95,7 +97,7 @@ func wide64(m *Model, ids []int32, c int) float64 {
 		}
 	}
 	if n == 0 {
-		return 0
+		return float64(m.Wide[1*m.Config.Classes+c])
 	}
 	return sum / float64(n)
 }
@@ -148,7 +150,9 @@ func TestGradientFiniteDifferences(t *testing.T) {
 
 // The same check with the wide word-weight path on (Config.Wide), its table
 // filled with random values so that its term is not zero; the PAD row and
-// the rows of words outside the batch must get no gradient.
+// the rows of words outside the batch must get no gradient. UNK appears
+// only through texts with no non-PAD id, whose wide term is UNK's row, so
+// UNK's row gradient checks that case alone.
 func TestWideGradientFiniteDifferences(t *testing.T) {
 	for seed := uint64(1); seed <= 6; seed++ {
 		gradCheck(t, seed, true)
@@ -181,8 +185,15 @@ func gradCheck(t *testing.T, seed uint64, wide bool) {
 	texts := randTexts(rng, 5, 8, 12)
 	texts[0] = []int32{3} // shorter than the widest filter
 	if wide {
+		for _, ids := range texts {
+			for j, id := range ids {
+				if id == 1 { // UNK is left to the PAD-only text
+					ids[j] = 2
+				}
+			}
+		}
 		texts[1] = []int32{0, 5, 0, 7} // N counts the non-PAD ids alone
-		texts[2] = []int32{0, 0}       // no wide term at all
+		texts[2] = []int32{0, 0}       // no non-PAD id: UNK's wide row
 	}
 	labels := make([]int, len(texts))
 	for i := range labels {
@@ -208,6 +219,10 @@ func gradCheck(t *testing.T, seed uint64, wide bool) {
 			used[int(id)] = true
 		}
 	}
+	usedWide := maps.Clone(used)
+	if wide {
+		usedWide[1] = true // texts[2] is scored by UNK's wide row
+	}
 	checked, skipped := 0, 0
 	for _, pr := range gradParams(m, tr) {
 		for i := range pr.p {
@@ -217,7 +232,7 @@ func gradCheck(t *testing.T, seed uint64, wide bool) {
 				}
 				continue
 			}
-			if pr.name == "Wide" && (!used[i/m.Config.Classes] || i < m.Config.Classes) {
+			if pr.name == "Wide" && (!usedWide[i/m.Config.Classes] || i < m.Config.Classes) {
 				if pr.g[i] != 0 {
 					t.Fatalf("seed %d: gradient %g for unused or PAD wide entry %d", seed, pr.g[i], i)
 				}

@@ -92,11 +92,16 @@ type Conv struct {
 //	a[g][t] = B[f] + Σ_s Σ_d W[f][s][d]·Emb[x[t+s]][d]   for t = 0 … L'−w
 //	h[g]    = max_t relu(a[g][t])   (0 when filter g is masked)
 //	logit[c] = OutB[c] + Σ_g OutW[c][g]·h[g]
-//	         + (1/N) Σ_{t: x[t] ≠ PAD} Wide[x[t]][c]   (Config.Wide only)
+//	         + (1/N) Σ_{t: x[t] ≠ PAD} Wide[x[t]][c]   (Config.Wide only; N > 0)
+//	         + Wide[UNK][c]                             (Config.Wide only; N = 0)
 //
 // where N is the number of ids of the text, before padding, that are not
-// PAD (the wide term is left out when N is 0); so token t's share of logit
-// c is exactly Wide[x[t]][c]/N. Filter masking does not touch the wide term.
+// PAD; so token t's share of logit c is exactly Wide[x[t]][c]/N. Both cases
+// are one formula, Wide[UNK][c] + Σ_t (Wide[x[t]][c] − Wide[UNK][c])/N, the
+// sum empty when N is 0: adding a vector to every row of Wide but PAD's
+// and subtracting it from OutB changes no logit of any text, so a text with
+// no word left is scored by the unknown word's row, not by OutB alone.
+// Filter masking does not touch the wide term.
 //
 // Windows never reach past L', so a text's logits do not depend on how it was
 // batched.

@@ -70,6 +70,7 @@ func (w *workers) close() {
 type threadBuf struct {
 	w, b, ow, ob, emb []float32 // gradients: conv W (all banks), conv B, OutW, OutB, embeddings of the batch's words
 	wide              []float32 // gradient of the batch's words' rows of Model.Wide (Config.Wide only)
+	wideUNK           []float32 // gradient of UNK's row of Model.Wide from texts with no non-PAD id
 	h, z, p, dz       []float32
 	dh                []float32
 	rows              []*float32 // table rows of the current text's positions
@@ -345,6 +346,8 @@ func (tr *trainer) forwardBackward() float64 {
 		if cfg.Wide {
 			t.wide = grow(t.wide, nw*cfg.Classes)
 			clear(t.wide)
+			t.wideUNK = grow(t.wideUNK, cfg.Classes)
+			clear(t.wideUNK)
 		}
 	}
 	tr.wk.run(nw, tr.fnGather)
@@ -466,7 +469,7 @@ func (tr *trainer) texts_(k, lo, hi int) {
 			t.dz[c] = t.p[c] * sc
 		}
 		t.dz[y] -= sc
-		wideGrad(ids, loc, t.dz, t.wide)
+		wideGrad(ids, loc, t.dz, t.wide, t.wideUNK)
 		// Output layer.
 		for c := 0; c < C; c++ {
 			axpy(t.dz[c], t.h, t.ow[c*nf:(c+1)*nf])
@@ -508,10 +511,12 @@ func (tr *trainer) texts_(k, lo, hi int) {
 
 // wideGrad adds the gradient of the wide term of one text (ids, with
 // their local indices loc) to wide, the rows of the batch's words: dz/N for
-// each non-PAD occurrence, N the number of non-PAD ids. An empty wide (no
-// wide path) is left alone.
-func wideGrad(ids, loc []int32, dz, wide []float32) {
-	if len(wide) == 0 {
+// each non-PAD occurrence, N the number of non-PAD ids. A text with N = 0
+// is scored by UNK's row (Model.addWide), so its whole dz goes to unk
+// instead, UNK's row gradient kept apart because UNK need not be one of the
+// batch's words. An empty wide (no wide path) is left alone.
+func wideGrad(ids, loc []int32, dz, wide, unk []float32) {
+	if len(wide) == 0 && len(unk) == 0 {
 		return
 	}
 	n := 0
@@ -521,6 +526,7 @@ func wideGrad(ids, loc []int32, dz, wide []float32) {
 		}
 	}
 	if n == 0 {
+		addTo(unk, dz)
 		return
 	}
 	inv, C := 1/float32(n), len(dz)
@@ -577,20 +583,26 @@ func (tr *trainer) reduce(_, lo, hi int) {
 	}
 }
 
-// scatterWide copies the batch words' wide-table gradients into gWide.
+// scatterWide copies the batch words' wide-table gradients into gWide and
+// adds UNK's share from texts with no non-PAD id, summed in thread order.
 func (tr *trainer) scatterWide() {
 	C := tr.m.Config.Classes
 	for i, id := range tr.ws.words {
 		copy(tr.gWide[int(id)*C:int(id)*C+C], tr.th[0].wide[i*C:i*C+C])
 	}
+	unk := tr.gWide[int(corpus.UNK)*C : int(corpus.UNK)*C+C]
+	for k := range tr.th {
+		addTo(unk, tr.th[k].wideUNK)
+	}
 }
 
-// unscatterWide zeroes the batch words' rows of gWide again.
+// unscatterWide zeroes the batch words' rows and UNK's row of gWide again.
 func (tr *trainer) unscatterWide() {
 	C := tr.m.Config.Classes
 	for _, id := range tr.ws.words {
 		clear(tr.gWide[int(id)*C : int(id)*C+C])
 	}
+	clear(tr.gWide[int(corpus.UNK)*C : int(corpus.UNK)*C+C])
 }
 
 // scatter copies the batch words' embedding gradients into gEmb: their

@@ -44,7 +44,8 @@
 // A model with the wide path (cnn.Config.Wide) adds the mean of its words'
 // class weights to the logits, and with it one more free direction: a
 // vector added to every word's weights but PAD's and taken from the output
-// biases moves no prediction of a text with a word. So a word's own wide
+// biases moves no logit of any text (a text with no word left is scored by
+// the unknown word's weights). So a word's own wide
 // weights are not given either, only their difference from the unknown
 // word's (Shares.Words), the unknown word's going with the output bias;
 // a second property test asserts invariance under that shift too.

@@ -22,11 +22,11 @@ import (
 //
 // A model with the wide path (cnn.Config.Wide) has one more such change:
 // a vector added to every word's wide row but PAD's and subtracted from
-// the output biases moves no prediction of a text with a word, and every
-// number here stays put under it too, with one exception the model's
-// definition makes: a text whose every word is replaced by PAD has no
-// wide term at all, so an occlusion drop (or a kept-down edit) that
-// removes every word of the text moves with that vector.
+// the output biases moves no logit of any text, and every number here
+// stays put under it too, the occlusion drops and kept-down edits that
+// remove every word of the text included: a text with no word left is
+// scored by the unknown word's wide row, which that change moves with the
+// output biases (cnn.Model.AddWide).
 type Explanation struct {
 	Tokens        []TokenSpan   `json:"tokens"`
 	Label         string        `json:"label"`

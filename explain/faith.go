@@ -67,10 +67,9 @@ type Interval struct {
 // text by text.
 //
 // For a model with the wide path, p(ŷ) of a text with every token removed
-// is not identified (see Explanation): so neither are the figures with
+// is identified like every other (see Explanation), so the figures with
 // such a removal (AOPC's last points, comprehensiveness at 100%, the
-// single-token figures of a one-token text), though they are the same for
-// every method.
+// single-token figures of a one-token text) are too.
 type FaithReport struct {
 	Texts    int     `json:"texts"`    // texts scored (empty texts are skipped)
 	Accuracy float64 `json:"accuracy"` // of the model on the scored texts (NaN → null without gold)
@@ -114,10 +113,7 @@ type MethodFaith struct {
 	// et al. 2017, "Evaluating the Visualization of What a Deep Neural Network
 	// Has Learned", IEEE TNNLS): the mean of p(ŷ|x) − p(ŷ|x^(k_j)) over the
 	// points j = 0 … J, x^(k) with its k top-ranked tokens removed and
-	// k_j = ⌈j·L/J⌉, the points with k_j = 1 left out. For a model with
-	// the wide path its points with every token removed are not identified
-	// (see Explanation); they are the same for every method, so the
-	// differences between methods (Pairs) are.
+	// k_j = ⌈j·L/J⌉, the points with k_j = 1 left out.
 	AOPC   float64  `json:"aopc"`
 	AOPCCI Interval `json:"aopc_ci"`
 	// Top1Comp and Top1Suff are comprehensiveness and sufficiency for the

@@ -132,9 +132,9 @@ func sameShown(t *testing.T, m, s *cnn.Model, ids []int32, opt ExplainOptions, w
 
 // wideShifted returns a copy of m with the vector a added to every word's
 // row of the wide table but PAD's and subtracted from the output biases.
-// The wide term of a text with N ≥ 1 words is the mean of N rows, so it
-// gains exactly a and every logit stays put; nothing in the data pins a
-// down (training's texts have words), so an identified number must not
+// The wide term of a text with N ≥ 1 words is the mean of N rows, that of
+// a text with none UNK's row, so it gains exactly a and every logit stays
+// put; nothing in the data pins a down, so an identified number must not
 // move.
 func wideShifted(m *cnn.Model, a []float32) *cnn.Model {
 	s := m.Clone()
@@ -149,10 +149,12 @@ func wideShifted(m *cnn.Model, a []float32) *cnn.Model {
 }
 
 // Every shown number of a model with the wide path is invariant under the
-// wide path's own shift (wideShifted), on random models and texts. The
-// texts hold six words or more: every edit measured here (one token, a
-// window of two, a kept-down window of at most five) then leaves a word,
-// and the shift is a symmetry only of texts with a word (see Explanation).
+// wide path's own shift (wideShifted), on random models and texts. Among
+// the texts are ones of PAD only, of one word (its occlusion removes every
+// word), of two words (so does the window of two) and of six words or more
+// (every edit leaves a word): a text with no word left is scored by the
+// unknown word's row, which the shift moves with the output biases (see
+// Explanation).
 func TestShownNumbersInvariantWideShift(t *testing.T) {
 	rng := rand.New(rand.NewPCG(34, 34))
 	checked, words := 0, 0.0
@@ -169,10 +171,13 @@ func TestShownNumbersInvariantWideShift(t *testing.T) {
 			amax = max(amax, math.Abs(float64(a[c])))
 		}
 		s := wideShifted(m, a)
-		for range 8 {
-			ids := randomText(rng, m.Config.VocabSize, 24)
-			for len(ids) < 6 {
-				ids = append(ids, int32(1+rng.IntN(m.Config.VocabSize-1)))
+		for k := range 8 {
+			ids := fewWords(rng, m.Config.VocabSize, k%4)
+			if k%4 == 3 {
+				ids = randomText(rng, m.Config.VocabSize, 24)
+				for len(ids) < 6 {
+					ids = append(ids, int32(1+rng.IntN(m.Config.VocabSize-1)))
+				}
 			}
 			eo := ExplainOptions{Table: st, Occlusion: true, OcclusionWidths: []int{2}, IG: true, KeptDown: 4}
 			if sameShown(t, m, s, ids, eo, fmt.Sprintf("wide rows %+v, biases minus that", a), 2e-5*(1+amax)) {
@@ -285,7 +290,7 @@ func checkIdentities(t *testing.T, m *cnn.Model, ids []int32, e *Explanation) {
 
 // checkWideParts checks the wide path's parts of every split quantity
 // against their definition, written out from the model layout: the output
-// bias holds Σ_c v_c·(OutB[c] + Wide[UNK][c]) for a text with a word, token
+// bias holds Σ_c v_c·(OutB[c] + Wide[UNK][c]) for every text, token
 // i's wide part is Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N (0 for PAD), it
 // is in the token's share next to what its slot scores give, and integrated
 // gradients carry the same parts (their baseline the unknown word's).
@@ -313,9 +318,7 @@ func checkWideParts(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, all
 		var bias, unk float64
 		for c := range C {
 			bias += v[c] * float64(m.OutB[c])
-			if n > 0 {
-				unk += v[c] * float64(m.Wide[C+c]) // row 1 is UNK
-			}
+			unk += v[c] * float64(m.Wide[C+c]) // row 1 is UNK
 		}
 		if !testref.Close(s.OutputBias, bias+unk, 1e-9, 1e-9) {
 			t.Fatalf("text %v target %d: output bias %.12g, want %.12g + %.12g", ids, j, s.OutputBias, bias, unk)
@@ -630,4 +633,19 @@ func TestProfileShownNumbersInvariant(t *testing.T) {
 			t.Fatalf("trial %d: a shown number of the profiles changes under a shift of filter %d's output weights, at %s", trial, g, path)
 		}
 	}
+}
+
+// fewWords returns a text of n words (ids ≥ 1) with up to two PAD ids
+// among them: n = 0 gives a text of PAD only, one to three long.
+func fewWords(rng *rand.Rand, vocab, n int) []int32 {
+	pads := rng.IntN(3)
+	if n == 0 {
+		pads++
+	}
+	ids := make([]int32, n+pads)
+	for i := range n {
+		ids[i] = int32(1 + rng.IntN(vocab-1))
+	}
+	rng.Shuffle(len(ids), func(i, j int) { ids[i], ids[j] = ids[j], ids[i] })
+	return ids
 }

@@ -14,7 +14,8 @@ package explain
 // attribution is the split of Shares, against every word of the text being
 // the unknown word (the identified reference; see Shares): token i gets
 // Words[i] = Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N, and the Baseline
-// holds the rest, Σ_c v_c·Wide[UNK][c], for a text with a word.
+// holds the rest, Σ_c v_c·Wide[UNK][c], for every text (one whose every
+// token is PAD has that term alone).
 type IGShares struct {
 	Class   int     `json:"class"`
 	Against int     `json:"against"`
@@ -223,7 +224,7 @@ func identifiedIG(r *Runner, e *Explanation, ig [][]float64, steps int) {
 	flat := make([]float64, len(ts)*L)
 	for j, k := range ts {
 		s := IGShares{Class: k.class, Against: k.against, Value: k.dot(e.logits),
-			Baseline: k.dot(base) + k.unknownPart(m, e.wide)}
+			Baseline: k.dot(base) + k.unknownPart(e.wide)}
 		s.Tokens, flat = flat[:L:L], flat[L:]
 		if j == 0 {
 			s.Words = e.LogOdds.Words

@@ -188,8 +188,8 @@ func (o *occluder) apply(lo, hi int, keep func(i int) bool) {
 // wideEdit moves o.z by the change of the wide path's term when the tokens
 // i in lo … hi with keep(i) false (all of them when keep is nil) are
 // replaced by PAD: k of the text's N words leave, so the term S/N becomes
-// (S − R)/(N − k), R the sum of their rows, and nothing when no word is
-// left. It costs O(k·Classes), not a pass over the text.
+// (S − R)/(N − k), R the sum of their rows, or the unknown word's row when
+// no word is left. It costs O(k·Classes), not a pass over the text.
 func (o *occluder) wideEdit(lo, hi int, keep func(i int) bool) {
 	w := o.e.wide
 	if w.n == 0 {
@@ -211,11 +211,9 @@ func (o *occluder) wideEdit(lo, hi int, keep func(i int) bool) {
 	if k == 0 {
 		return
 	}
-	left := w.n - k
 	for c, s := range w.sum {
 		o.z[c] -= s / float64(w.n)
-		if left > 0 {
-			o.z[c] += (s - o.removed[c]) / float64(left)
-		}
+		o.removed[c] = s - o.removed[c] // now the left words' sum
 	}
+	w.addLeft(o.z, o.removed, w.n-k)
 }

@@ -33,13 +33,13 @@ const (
 //	Σ_c v_c·logit[c] = Σ_c v_c·OutB[c] + Σ_{g fired} (Σ_c v_c·OutW[c][g])·(B_g + Σ_s slot scores).
 //
 // A model with the wide path (cnn.Config.Wide) adds (1/N)·Σ_t
-// Σ_c v_c·Wide[x_t][c] over the text's N non-PAD tokens. Adding a vector a
-// to every word's row of the wide table but PAD's and subtracting a from
-// the output biases changes no prediction of a text with a word, so a row
-// alone is not identified, only its difference from the unknown word's
-// row: token i's wide part is Words[i] = Σ_c v_c·(Wide[x_i][c] −
-// Wide[UNK][c])/N (0 for PAD), and the constant Σ_c v_c·Wide[UNK][c] goes
-// with the output bias (for N ≥ 1; the model has no wide term when N is 0).
+// Σ_c v_c·Wide[x_t][c] over the text's N non-PAD tokens, or
+// Σ_c v_c·Wide[UNK][c] when N is 0. Adding a vector a to every word's row
+// of the wide table but PAD's and subtracting a from the output biases
+// changes no logit of any text, so a row alone is not identified, only
+// its difference from the unknown word's row: token i's wide part is
+// Words[i] = Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N (0 for PAD), and the
+// constant Σ_c v_c·Wide[UNK][c] goes with the output bias, for every N.
 type Shares struct {
 	Class   int `json:"class"`
 	Against int `json:"against"` // a class, or AgainstMean (−1)
@@ -48,7 +48,7 @@ type Shares struct {
 	Value float64 `json:"value"`
 	// OutputBias is the output bias, Σ_c v_c·OutB[c], plus the wide path's
 	// unknown-word weight, Σ_c v_c·Wide[UNK][c], for a model with the wide
-	// path and a text with a word (see above).
+	// path (see above).
 	OutputBias float64 `json:"output_bias"`
 	// FilterBias[k] = (Σ_c v_c·OutW[c][g])·B_g for the k-th fired filter g
 	// of Explanation.Filters: the part of Value its convolution bias carries.
@@ -167,7 +167,7 @@ func identifiedShares(m *cnn.Model, e *Explanation, ids []int32) {
 		s := &out[j]
 		s.Class, s.Against = k.class, k.against
 		s.Value = k.dot(e.logits)
-		s.OutputBias = k.outputBias(m) + k.unknownPart(m, e.wide)
+		s.OutputBias = k.outputBias(m) + k.unknownPart(e.wide)
 		s.Tokens, flat = flat[:L:L], flat[L:]
 		if e.wide.sum != nil {
 			s.Words = k.wordShares(m, ids, e.wide, flat[:L:L])

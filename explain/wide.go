@@ -7,11 +7,12 @@ import (
 
 // wideText is the wide path's part of one text's logits, kept in float64:
 // sum[c] = Σ_{t: x_t ≠ PAD} Wide[x_t][c] over the text's n non-PAD ids,
-// whose mean sum/n the model adds to the logits (none when n is 0). The
-// zero value (sum nil) stands for a model without the wide path.
+// whose mean sum/n the model adds to the logits, or unk[c] = Wide[UNK][c]
+// when n is 0 (cnn.Model.AddWide). The zero value (sum nil) stands for a
+// model without the wide path.
 type wideText struct {
-	sum []float64
-	n   int
+	sum, unk []float64
+	n        int
 }
 
 // newWideText sums the wide rows of ids (PAD ids skipped).
@@ -19,7 +20,10 @@ func newWideText(m *cnn.Model, ids []int32) wideText {
 	if !m.Config.Wide {
 		return wideText{}
 	}
-	w := wideText{sum: make([]float64, m.Config.Classes)}
+	w := wideText{sum: make([]float64, m.Config.Classes), unk: make([]float64, m.Config.Classes)}
+	for c, v := range m.WideRow(corpus.UNK) {
+		w.unk[c] = float64(v)
+	}
 	for _, id := range ids {
 		if id == corpus.PAD {
 			continue
@@ -32,27 +36,42 @@ func newWideText(m *cnn.Model, ids []int32) wideText {
 	return w
 }
 
-// addTo adds the wide term sum/n to the logits z.
+// addTo adds the wide term to the logits z: sum/n, or unk when n is 0.
 func (w wideText) addTo(z []float64) {
-	if w.n == 0 {
+	w.addLeft(z, w.sum, w.n)
+}
+
+// addLeft adds the wide term of the left words to z: rows, the sum of
+// their rows, over n, their number; unk when n is 0. It does nothing
+// without the wide path.
+func (w wideText) addLeft(z, rows []float64, n int) {
+	if w.sum == nil {
 		return
 	}
-	for c, s := range w.sum {
-		z[c] += s / float64(w.n)
+	if n == 0 {
+		for c, u := range w.unk {
+			z[c] += u
+		}
+		return
+	}
+	for c, s := range rows {
+		z[c] += s / float64(n)
 	}
 }
 
 // unknownPart is Σ_c v_c·Wide[UNK][c], the constant of contrast k that
-// the wide path carries whatever the words of a text (n ≥ 1): adding a
-// vector a to every word's row but PAD's and −a to the output biases
-// changes no prediction, so only the rows' differences from the unknown
-// word's are identified, and this constant goes with the output bias.
-// It is 0 without the wide path or for a text without words.
-func (k contrast) unknownPart(m *cnn.Model, w wideText) float64 {
-	if w.n == 0 {
-		return 0
+// the wide path carries whatever the words of a text, none included: the
+// term is Wide[UNK] + Σ_t (Wide[x_t] − Wide[UNK])/n, the sum empty when n
+// is 0. Adding a vector a to every word's row but PAD's and −a to the
+// output biases changes no logit, so only the rows' differences from the
+// unknown word's are identified, and this constant goes with the output
+// bias. It is 0 without the wide path.
+func (k contrast) unknownPart(w wideText) float64 {
+	var s float64
+	for c, u := range w.unk {
+		s += k.v[c] * u
 	}
-	return k.dot32(m.WideRow(corpus.UNK))
+	return s
 }
 
 // wordShares returns token i's wide part of contrast k for every token of
@@ -62,11 +81,11 @@ func (k contrast) wordShares(m *cnn.Model, ids []int32, w wideText, out []float6
 	if w.sum == nil {
 		return nil
 	}
-	if w.n == 0 {
+	if w.n == 0 { // every token is PAD
 		clear(out)
 		return out
 	}
-	unk := k.unknownPart(m, w)
+	unk := k.unknownPart(w)
 	for i, id := range ids {
 		if id == corpus.PAD {
 			out[i] = 0

@@ -41,8 +41,8 @@ func ExportFiles(m *cnn.Model, dir string) []string {
 //
 // wide.weight is the wide path's word-weight table (cnn.Model.Wide, laid
 // out [word][class] as the bag's rows): the module adds the mean of the
-// rows of a text's non-padding ids to the logits, which is telltale's wide
-// term. A masked filter's column of output.weight is zero: its pooled value, which
+// rows of a text's non-padding ids to the logits, or the unknown word's row
+// (id 1) for a text with none, which is telltale's wide term. A masked filter's column of output.weight is zero: its pooled value, which
 // telltale holds at zero, then adds nothing to any logit, so the logits are
 // the same.
 func StateDict(m *cnn.Model) []npy.Array {

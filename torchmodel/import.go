@@ -83,9 +83,11 @@ type Imported struct {
 // A wide word-weight table (Layout.Wide) is read as the wide path of
 // cnn.Model: the mean of the table's rows over a text's non-padding ids is
 // added to the logits, as nn.EmbeddingBag(mode="mean", padding_idx=pad)
-// computes it. Its padding row must be zero like the embedding's (or is
-// zeroed with ZeroPad): a bag without padding_idx would count the padding
-// ids of a batch in the mean.
+// computes it; a text with no non-padding id gets the unknown token's row,
+// where the bag alone gives zero, so a module's logits for such texts agree
+// only if it does the same. Its padding row must be zero like the
+// embedding's (or is zeroed with ZeroPad): a bag without padding_idx would
+// count the padding ids of a batch in the mean.
 //
 // The vocabulary is reordered so that the padding token has id 0 and the
 // unknown token id 1, as telltale's models require, moving their rows of the

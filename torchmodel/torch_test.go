@@ -237,7 +237,9 @@ func TestImportMatchesTorch(t *testing.T) {
 // mode="mean" and padding_idx=0, which torch 1.13 leaves out of the mean).
 // On SpamAssassin texts, its logits equal telltale's to 1e-5: for
 // telltale's token ids run in padded batches, and for the ASCII texts
-// encoded by the module's own encode(), whose ids must be telltale's.
+// encoded by the module's own encode(), whose ids must be telltale's. The
+// batches also hold an empty and an all-padding text, which the wide path
+// scores by the unknown word's row.
 func TestExportMatchesTorch(t *testing.T) {
 	testref.RequirePython(t, "torch")
 	ms := spamMails(t)
@@ -290,6 +292,8 @@ func checkExportWithTorch(t *testing.T, m *cnn.Model, enc *corpus.Encoder, texts
 		IDs    [][]int32   `json:"text_ids"`
 		Torch  string      `json:"torch"`
 	}
+	// Texts with no word, batched with longer ones.
+	ids = append([][]int32{{}, {corpus.PAD, corpus.PAD, corpus.PAD}}, ids...)
 	runPython(t, "testdata/export_check.py", dir, map[string]any{"folder": dir, "ids": ids, "texts": ascii, "max_tokens": 150}, &out)
 	t.Logf("exported model loaded by torch %s; %d of %d texts are plain ASCII", out.Torch, len(ascii), len(texts))
 	if !slices.Equal(out.Labels, m.Labels) {

@@ -67,7 +67,7 @@ var Terms = []Term{
 		Formula: "logit[c] − mean over classes of logit = log p(c) − mean over classes of log p",
 		Meaning: "the per-label view: how much the text favours label c over the average label."},
 	{Name: "bias parts", Topic: "explanations",
-		Formula: "output bias = Σ_c v_c·OutB[c], plus the wide path's unknown-word weight Σ_c v_c·Wide[UNK][c] (models with the wide path, texts with a word); bias part of fired filter g = (Σ_c v_c·OutW[c][g])·B_g",
+		Formula: "output bias = Σ_c v_c·OutB[c], plus the wide path's unknown-word weight Σ_c v_c·Wide[UNK][c] (models with the wide path); bias part of fired filter g = (Σ_c v_c·OutW[c][g])·B_g",
 		Meaning: "the parts of the split that no token carries."},
 	{Name: "occlusion", Topic: "explanations",
 		Formula: "p(ŷ) − p(ŷ | token i replaced by padding)",

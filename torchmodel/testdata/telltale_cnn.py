@@ -14,7 +14,8 @@ class TelltaleCNN(nn.Module):
     shorter than the widest filter is padded to it with id 0, whose
     embedding is zero), so a text's logits do not depend on its batch.
     A model trained with --wide adds the mean of its word weights over the
-    text's ids other than 0 (none for an empty text).
+    text's ids other than 0, or the unknown word's (id 1) for a text with
+    none.
     """
 
     def __init__(self, vocab_size, dim, widths, filters, classes, wide=False):
@@ -66,5 +67,6 @@ class TelltaleCNN(nn.Module):
             pooled.append(torch.relu(a.amax(dim=2)))
         logits = self.output(torch.cat(pooled, dim=1))
         if self.wide is not None:
-            logits = logits + self.wide(ids)  # padding_idx leaves id 0 out of the mean
+            none = (ids == 0).all(dim=1, keepdim=True)  # padding_idx leaves id 0 out of the mean
+            logits = logits + torch.where(none, self.wide.weight[1], self.wide(ids))
         return logits
