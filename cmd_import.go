@@ -43,9 +43,10 @@ Supported: one embedding table (two for the multichannel variant), one
 Conv1d(d, m, k) or Conv2d(1, m, (k, d)) per filter width with the same m,
 ReLU, max over time, dropout, one linear layer or one sigmoid unit, and
 optionally word weights beside the filters: an nn.EmbeddingBag(vocab,
-classes, mode="mean", padding_idx=PAD) whose output adds to the logits, found
-by its key "wide.weight" (as export writes it; rename the key to that in
-your state_dict otherwise). The parts
+classes, mode="mean", padding_idx=PAD) whose output adds to the logits (for a
+text without words telltale adds the unknown word's row, where a plain bag
+gives zero), found by its key "wide.weight" (as export writes it; rename the
+key to that in your state_dict otherwise). The parts
 are found by shape and file order; --embedding-keys, --conv-keys and
 --output-key name them when that is ambiguous. Any other parameter is refused
 naming its key and shape. A state_dict does not record the activation, the
