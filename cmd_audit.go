@@ -70,8 +70,10 @@ not.
 (taken out of the training text as train's --mask-tokens does) and compares
 both models on the test split as it is and with the cues taken out;
 --retrain-out keeps the new model. --masked-out writes a copy of the model with
-the filters masked that helped on the confirming half; when none did, nothing
-is written and the command fails.`,
+the filters masked that helped on the confirming half; on a model with word
+weights (train --wide) the copy also reads the cues' own words as the unknown
+word by the word weights, as the audit measured it. When no mask helped,
+nothing is written and the command fails.`,
 	Options: func() options { return new(auditOptions) },
 	Run:     runAs(runAudit),
 }
@@ -609,14 +611,18 @@ func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, marks *audit.Marks,
 		say(env.Stderr, o.quiet, "the retrained model is written to %s", o.retrainOut)
 	}
 	if o.maskedOut != "" && out.Action.Mask != nil {
-		masked, err := m.MaskedCopy(out.Action.Mask)
+		masked, err := out.Action.Remedy(m)
 		if err != nil {
 			return err
 		}
 		if err := masked.Save(o.maskedOut); err != nil {
 			return err
 		}
-		say(env.Stderr, o.quiet, "the model with filters %s masked is written to %s", joinInts(out.Action.Mask), o.maskedOut)
+		words := ""
+		if ws := out.Action.MaskWords; len(ws) > 0 {
+			words = " and " + strings.Join(ws, ", ") + " read as the unknown word by the word weights"
+		}
+		say(env.Stderr, o.quiet, "the model with filters %s masked%s is written to %s", joinInts(out.Action.Mask), words, o.maskedOut)
 	}
 	return nil
 }

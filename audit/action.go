@@ -2,7 +2,11 @@ package audit
 
 import (
 	"context"
+	"errors"
+	"fmt"
 	"slices"
+
+	"telltale/cnn"
 )
 
 // Action is what the audit suggests, for the cues it acts on (the Ranked
@@ -21,9 +25,13 @@ type Action struct {
 	Counterfactual *Counterfactual `json:"counterfactual,omitempty"`
 	// Mask is the suggested filter mask (nil when none helps); Tried is the
 	// mask chosen on the selection half and tested on the confirmation
-	// half, suggested or not.
-	Mask  []int     `json:"mask,omitempty"`
-	Tried *Ablation `json:"mask_tried,omitempty"`
+	// half, suggested or not. On a model with the word-weight path the
+	// mask also reads the cues' words as the unknown word by that path:
+	// MaskWords are those words when the mask is suggested (Tried.Words
+	// when tested), and Remedy writes the model with both.
+	Mask      []int     `json:"mask,omitempty"`
+	MaskWords []string  `json:"mask_words,omitempty"`
+	Tried     *Ablation `json:"mask_tried,omitempty"`
 	// Commands are the command lines that retrain without the cues
 	// (Options.RetrainCommands; nil without it). The story shows them.
 	Commands []string `json:"-"`
@@ -74,6 +82,9 @@ func (a *auditor) act(ctx context.Context, res *Result) error {
 	}
 	res.Action.Counterfactual = cf
 	res.Action.Tried, res.Action.Mask = a.mask(acted)
+	if res.Action.Mask != nil {
+		res.Action.MaskWords = res.Action.Tried.Words
+	}
 	if a.opt.RetrainCommands != nil {
 		res.Action.Commands = a.opt.RetrainCommands(res.Action.Patterns)
 	}
@@ -162,16 +173,25 @@ func mcNemarTwoSided(fixed, broken int) float64 {
 }
 
 // mask is each acted-on cue's best prefix of keyed filters on the
-// selection half, tested together on the confirmation half: the test, and
-// the mask when it helps there (one-sided exact McNemar p < 0.05).
+// selection half (with the cue's words read as the unknown word by the
+// word-weight path, on a model with one), tested together on the
+// confirmation half: the test, and the mask when it helps there
+// (one-sided exact McNemar p < 0.05).
 func (a *auditor) mask(acted []*Candidate) (*Ablation, []int) {
 	var mask []int
+	var words []int32
 	for _, c := range acted {
 		if c.Filters == nil || len(c.Filters.Keyed) == 0 {
 			continue
 		}
-		if pre, better := bestPrefix(a.m, a.selBase, a.sel.Gold, c.Filters.Keyed); better {
+		cw := a.cueWords(c)
+		if pre, better := bestPrefix(a.m, a.selBase, a.sel.Gold, c.Filters.Keyed, cw); better {
 			mask = append(mask, pre...)
+			for _, id := range cw {
+				if !slices.Contains(words, id) {
+					words = append(words, id)
+				}
+			}
 		}
 	}
 	slices.Sort(mask)
@@ -182,11 +202,31 @@ func (a *auditor) mask(acted []*Candidate) (*Ablation, []int) {
 			cue = append(cue, texts(c.confOcc)...)
 		}
 		slices.Sort(cue)
-		t := ablate(a.m, a.confBase, a.conf.Gold, mask, slices.Compact(cue))
+		t := ablate(a.m, a.confBase, a.conf.Gold, mask, words, slices.Compact(cue))
 		if t.P < 0.05 && t.AccuracyMasked > t.Accuracy {
 			return t, mask
 		}
 		return t, nil
 	}
 	return nil, nil
+}
+
+// Remedy returns a copy of m, the audited model, with the suggested mask:
+// the filters of Mask masked and the words of MaskWords read as the
+// unknown word by the word-weight path (cnn.Model.MaskedWordsCopy). It is
+// an error when no mask is suggested or a word is not in m's vocabulary
+// (m is not the model audited).
+func (act *Action) Remedy(m *cnn.Model) (*cnn.Model, error) {
+	if act.Mask == nil {
+		return nil, errors.New("audit: no filter mask is suggested")
+	}
+	ids := make([]int32, 0, len(act.MaskWords))
+	for _, w := range act.MaskWords {
+		id := slices.Index(m.Vocab[min(len(m.Vocab), 2):], w) + 2 // not PAD or UNK
+		if id < 2 {
+			return nil, fmt.Errorf("audit: the mask's word %q is not in the model's vocabulary: give the model the audit read", w)
+		}
+		ids = append(ids, int32(id))
+	}
+	return m.MaskedWordsCopy(act.Mask, ids)
 }

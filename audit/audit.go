@@ -298,7 +298,9 @@ type auditor struct {
 	selBase  *basePass
 	confBase *basePass
 	neutral  []int32
-	progress Progress
+	// wordCount counts each word id in the training split (cueWords).
+	wordCount []int
+	progress  Progress
 }
 
 // Run audits model m: train is the split it was trained on, heldout a

@@ -5,6 +5,7 @@ import (
 	"slices"
 
 	"telltale/cnn"
+	"telltale/corpus"
 )
 
 // Filters are the model's filters keyed on a cue and what masking them
@@ -17,16 +18,36 @@ import (
 type Filters struct {
 	Keyed    []int     `json:"keyed"`
 	Ablation *Ablation `json:"ablation,omitempty"`
+	// Words and WordPart are the word-weight path's part of the cue, on a
+	// model with that path (else nil): Words are the cue's words the
+	// remedy reads as the unknown word (cueWords), WordPart the mean over
+	// the confirmation half's texts holding the cue of those words' word
+	// part of the centred logit of the cue's label, Σ_t Σ_c v_c
+	// (Wide[x_t][c] − Wide[UNK][c])/N over the text's tokens t of those
+	// words, v_c = [c = label] − 1/C, N its non-PAD tokens (the split of
+	// explain.Shares), with its 95% bootstrap interval over texts. Reading
+	// the words as the unknown word lowers that logit by exactly this part
+	// on each text.
+	Words    []string  `json:"words,omitempty"`
+	WordPart *Interval `json:"word_part,omitempty"`
 }
 
 // Ablation is the model with some filters masked (model surgery,
 // cnn.Model.MaskedCopy: their pooled units held at zero) on a half of the
-// held-out split.
+// held-out split. On a model with the word-weight path (cnn.Config.Wide)
+// the cue's words are also read as the unknown word by that path
+// (cnn.Model.MaskedWordsCopy), so the remedy measured takes the cue out of
+// the word weights too.
 type Ablation struct {
-	Filters        []int   `json:"filters"`
-	Texts          int     `json:"texts"`
-	Accuracy       float64 `json:"accuracy"`
-	AccuracyMasked float64 `json:"accuracy_masked"`
+	Filters []int `json:"filters"`
+	// Words are the words the word-weight path reads as the unknown word
+	// (nil on a model without it): the cue's words that occur mostly in
+	// it (cueWords), less any number (NumberWord matches numbers the
+	// remedy leaves as they are).
+	Words          []string `json:"words,omitempty"`
+	Texts          int      `json:"texts"`
+	Accuracy       float64  `json:"accuracy"`
+	AccuracyMasked float64  `json:"accuracy_masked"`
 	// Before and After are Accuracy and AccuracyMasked with their 95%
 	// Wilson intervals.
 	Before Interval `json:"accuracy_interval"`
@@ -111,11 +132,103 @@ func keyedFilters(m *cnn.Model, b *basePass, occ []span, class int) []int {
 	return gs
 }
 
+// cueWords are the ids of the cue's words the word-weight path reads as
+// the unknown word in the audit's remedy: nil on a model without that
+// path, else the phrase's words (less any number, PAD and UNK) at least
+// half of whose training occurrences lie in the cue's, in order of first
+// appearance. The word weights are per word, not per occurrence: a word
+// the cue shares with the rest of the text ("the", "at") keeps its row.
+func (a *auditor) cueWords(c *Candidate) []int32 {
+	if !a.m.Config.Wide {
+		return nil
+	}
+	if a.wordCount == nil {
+		a.wordCount = make([]int, a.m.Config.VocabSize)
+		for _, ids := range a.train.IDs {
+			for _, id := range ids {
+				a.wordCount[id]++
+			}
+		}
+	}
+	inCue := map[int32]int{}
+	for _, s := range c.trainOcc {
+		for _, id := range a.train.IDs[s.text][s.start:s.end] {
+			inCue[id]++
+		}
+	}
+	var ids []int32
+	for _, id := range c.phrase {
+		if id > corpus.UNK && !slices.Contains(ids, id) && 2*inCue[id] >= a.wordCount[id] {
+			ids = append(ids, id)
+		}
+	}
+	return ids
+}
+
+// wordPart is Filters.WordPart of cue c with words ws (cueWords, not
+// empty) on the confirmation half.
+func (a *auditor) wordPart(c *Candidate, ws []int32) *Interval {
+	C := a.m.Config.Classes
+	unk := a.m.WideRow(corpus.UNK)
+	var parts []float64
+	for _, i := range texts(c.confOcc) {
+		n, sum := 0, 0.0
+		for _, id := range a.conf.IDs[i] {
+			if id == corpus.PAD {
+				continue
+			}
+			n++
+			if !slices.Contains(ws, id) {
+				continue
+			}
+			row := a.m.WideRow(id)
+			for k := range C {
+				v := -1 / float64(C)
+				if k == c.Class {
+					v++
+				}
+				sum += v * (float64(row[k]) - float64(unk[k]))
+			}
+		}
+		parts = append(parts, sum/float64(max(1, n)))
+	}
+	iv := BootstrapMean(parts, a.opt.Bootstrap, 0.95, seedOf(a.opt.Seed, "word part "+c.Text))
+	return &iv
+}
+
+// wordNames writes word ids as m's vocabulary writes them (nil for none).
+func wordNames(m *cnn.Model, ids []int32) []string {
+	if len(ids) == 0 {
+		return nil
+	}
+	out := make([]string, len(ids))
+	for i, id := range ids {
+		out[i] = m.Vocab[id]
+	}
+	return out
+}
+
+// remedied is m with words read as the unknown word by the word-weight
+// path (cnn.Model.MaskedWordsCopy), or m itself when that changes nothing.
+// Its filters are m's: maskedPreds masks them itself. Words must be valid
+// ids of m other than PAD.
+func remedied(m *cnn.Model, words []int32) *cnn.Model {
+	if !m.Config.Wide || len(words) == 0 {
+		return m
+	}
+	w, err := m.MaskedWordsCopy(nil, words)
+	if err != nil {
+		panic(err) // the audit's own ids: a bug
+	}
+	return w
+}
+
 // maskedPreds predicts every text of the half with the filters gs masked,
 // by the layout's identity: the pooled units of gs set to zero and the
 // output layer applied again (cnn.Model.Head), plus the text's wide-path
-// term (cnn.Model.AddWide), which masking does not touch.
-func maskedPreds(m *cnn.Model, b *basePass, gs []int) []int {
+// term (cnn.Model.AddWide) of w, which is m or m with the cue's words read
+// as the unknown word by that path (remedied).
+func maskedPreds(m, w *cnn.Model, b *basePass, gs []int) []int {
 	nf, C := m.Config.NumFilters(), m.Config.Classes
 	n := len(b.pred)
 	out := make([]int, n)
@@ -127,17 +240,18 @@ func maskedPreds(m *cnn.Model, b *basePass, gs []int) []int {
 			pooled[g] = 0
 		}
 		m.Head(pooled, logits)
-		m.AddWide(b.ids[i], logits)
+		w.AddWide(b.ids[i], logits)
 		out[i] = slices.Index(logits, slices.Max(logits))
 	}
 	return out
 }
 
-// ablate measures masking gs on a half with gold labels gold; cueTexts
-// are the texts holding the cue (may be nil).
-func ablate(m *cnn.Model, b *basePass, gold []int, gs []int, cueTexts []int) *Ablation {
-	after := maskedPreds(m, b, gs)
-	a := &Ablation{Filters: slices.Clone(gs), Texts: len(gold), CueTexts: len(cueTexts)}
+// ablate measures masking gs, and reading words as the unknown word by the
+// word-weight path, on a half with gold labels gold; cueTexts are the
+// texts holding the cue (may be nil).
+func ablate(m *cnn.Model, b *basePass, gold []int, gs []int, words []int32, cueTexts []int) *Ablation {
+	after := maskedPreds(m, remedied(m, words), b, gs)
+	a := &Ablation{Filters: slices.Clone(gs), Words: wordNames(m, words), Texts: len(gold), CueTexts: len(cueTexts)}
 	var right, rightMasked int
 	for i, g := range gold {
 		if b.pred[i] == g {
@@ -164,10 +278,11 @@ func ablate(m *cnn.Model, b *basePass, gold []int, gs []int, cueTexts []int) *Ab
 	return a
 }
 
-// bestPrefix returns the shortest prefix of gs whose masking gives the
-// best accuracy on the half (b, gold), and whether it beats the model as
-// it is.
-func bestPrefix(m *cnn.Model, b *basePass, gold []int, gs []int) ([]int, bool) {
+// bestPrefix returns the shortest prefix of gs whose masking, with words
+// read as the unknown word by the word-weight path, gives the best
+// accuracy on the half (b, gold), and whether it beats the model as it is.
+func bestPrefix(m *cnn.Model, b *basePass, gold []int, gs []int, words []int32) ([]int, bool) {
+	w := remedied(m, words)
 	base := 0
 	for i, g := range gold {
 		if b.pred[i] == g {
@@ -177,7 +292,7 @@ func bestPrefix(m *cnn.Model, b *basePass, gold []int, gs []int) ([]int, bool) {
 	best, bestK := base, 0
 	for k := 1; k <= len(gs); k++ {
 		right := 0
-		for i, p := range maskedPreds(m, b, gs[:k]) {
+		for i, p := range maskedPreds(m, w, b, gs[:k]) {
 			if p == gold[i] {
 				right++
 			}

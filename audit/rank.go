@@ -241,8 +241,11 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 			continue
 		}
 		c.Filters = &Filters{Keyed: keyedFilters(a.m, a.selBase, c.selOcc, c.Class)}
+		if ws := a.cueWords(c); len(ws) > 0 {
+			c.Filters.Words, c.Filters.WordPart = wordNames(a.m, ws), a.wordPart(c, ws)
+		}
 		if len(c.Filters.Keyed) > 0 {
-			c.Filters.Ablation = ablate(a.m, a.confBase, a.conf.Gold, c.Filters.Keyed, texts(c.confOcc))
+			c.Filters.Ablation = ablate(a.m, a.confBase, a.conf.Gold, c.Filters.Keyed, a.cueWords(c), texts(c.confOcc))
 		}
 	}
 	return nil

@@ -233,12 +233,12 @@ func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 	p("%s\n", markAdvice(acted))
 	if t := r.Action.Tried; t != nil {
 		if r.Action.Mask != nil {
-			p("Masking filters %s helps on test texts that took no part in choosing them: accuracy %s → %s\n",
-				ints(t.Filters), accuracy(t.Before), accuracy(t.After))
+			p("Masking filters %s%s helps on test texts that took no part in choosing them: accuracy %s → %s\n",
+				ints(t.Filters), wideWords(t.Words), accuracy(t.Before), accuracy(t.After))
 			p("(%d fixed, %d broken, one-sided exact McNemar p = %s).\n", t.Fixed, t.Broken, pval(t.P))
 		} else {
-			p("Masking the filters that read %s does not help on test texts that took no part in choosing them\n",
-				map[bool]string{true: "it", false: "them"}[len(acted) == 1])
+			p("Masking the filters that read %s%s does not help on test texts that took no part in choosing them\n",
+				map[bool]string{true: "it", false: "them"}[len(acted) == 1], wideWords(t.Words))
 			p("(accuracy %s → %s, %d fixed, %d broken, one-sided exact McNemar p = %s): no filter mask is suggested.\n",
 				accuracy(t.Before), accuracy(t.After), t.Fixed, t.Broken, pval(t.P))
 		}
@@ -309,6 +309,30 @@ func cueNumbers(ns []int) string {
 		s[i] = fmt.Sprint(n)
 	}
 	return "cues " + strings.Join(s[:len(s)-1], ", ") + " and " + s[len(s)-1]
+}
+
+// wordPart writes a word-weight part with its interval: "0.412 (0.390–0.433)".
+func wordPart(x Interval) string {
+	return fmt.Sprintf("%.3f (%.3f–%.3f)", x.Estimate, x.Low, x.High)
+}
+
+// quoted writes words in quotes, comma-separated.
+func quoted(words []string) string {
+	q := make([]string, len(words))
+	for i, w := range words {
+		q[i] = "'" + w + "'"
+	}
+	return strings.Join(q, ", ")
+}
+
+// wideWords says, after a filter mask, that the mask also reads words as
+// the unknown word by the word-weight path: "" for none, else
+// " with 'a', 'b' read as the unknown word by the word weights".
+func wideWords(words []string) string {
+	if len(words) == 0 {
+		return ""
+	}
+	return " with " + quoted(words) + " read as the unknown word by the word weights"
 }
 
 func ints(xs []int) string {
@@ -383,7 +407,12 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	p("\n")
 	if f := c.Filters; f != nil && f.Ablation != nil {
 		ab := f.Ablation
-		p("   filters reading it: %s; masked: accuracy %s → %s (%d fixed, %d broken, one-sided exact McNemar p = %s), %d of its %d texts change\n",
-			ints(f.Keyed), accuracy(ab.Before), accuracy(ab.After), ab.Fixed, ab.Broken, pval(ab.P), ab.CueFlipped, ab.CueTexts)
+		p("   filters reading it: %s; masked%s: accuracy %s → %s (%d fixed, %d broken, one-sided exact McNemar p = %s), %d of its %d texts change\n",
+			ints(f.Keyed), wideWords(ab.Words), accuracy(ab.Before), accuracy(ab.After), ab.Fixed, ab.Broken, pval(ab.P), ab.CueFlipped, ab.CueTexts)
+	}
+	if f := c.Filters; f != nil && f.WordPart != nil {
+		p("   word weights: its words %s add %s to the centred logit of %s on its test texts, against the unknown word's\n",
+			quoted(f.Words), wordPart(*f.WordPart), c.Label)
+		p("     (mean over the texts, 95%% bootstrap interval); read as the unknown word, as the mask reads them, they add nothing\n")
 	}
 }

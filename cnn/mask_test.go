@@ -1,6 +1,8 @@
 package cnn
 
 import (
+	"math"
+	"math/rand/v2"
 	"slices"
 	"strings"
 	"testing"
@@ -55,6 +57,76 @@ func TestMaskedCopyLogits(t *testing.T) {
 			if d := got.Logits[k] - want; d > 1e-5 || d < -1e-5 {
 				t.Errorf("filter %d class %d: logit %v, want %v", g, k, got.Logits[k], want)
 			}
+		}
+	}
+}
+
+// Reading words as the unknown word in the word weights takes exactly
+// (Wide[x][c] − Wide[UNK][c])/N off logit c for each of their tokens, on
+// top of the masked filters' OutW[c][g]·h[g] (the layout's identity, Model's
+// doc comment), checked on the direct forward pass of a random wide model;
+// on a model without the wide path the words change nothing.
+func TestMaskedWordsCopyWide(t *testing.T) {
+	rng := rand.New(rand.NewPCG(4, 4))
+	cfg := Config{VocabSize: 20, Dim: 6, Widths: []int{2, 3}, Filters: 4, Classes: 3, Wide: true}
+	m, err := New(cfg, nil, []string{"a", "b", "c"}, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := cfg.Classes; i < len(m.Wide); i++ {
+		m.Wide[i] = float32(rng.NormFloat64())
+	}
+	orig := slices.Clone(m.Wide)
+	ids := []int32{3, 7, 0, 2, 9, 7, 1, 4, 5, 0}
+	words := []int32{7, 4, 12, 1}
+	gs := []int{1, 6}
+	c, err := m.MaskedWordsCopy(gs, words)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(m.Wide, orig) {
+		t.Fatal("the original's word weights changed")
+	}
+	base, got := m.Forward(ids), c.Forward(ids)
+	nf, n := cfg.NumFilters(), 8 // 8 non-PAD tokens
+	changed := 0.0
+	for k := range cfg.Classes {
+		want := base.Logits[k]
+		for _, g := range gs {
+			want -= m.OutW[k*nf+g] * base.Pooled[g]
+		}
+		for _, id := range ids {
+			if slices.Contains(words, id) {
+				want -= (m.WideRow(id)[k] - m.WideRow(1)[k]) / float32(n)
+			}
+		}
+		if d := got.Logits[k] - want; d > 1e-5 || d < -1e-5 {
+			t.Errorf("class %d: logit %v, want %v", k, got.Logits[k], want)
+		}
+		changed += math.Abs(float64(got.Logits[k] - base.Logits[k]))
+	}
+	if changed < 0.1 {
+		t.Fatalf("logits moved by %v in all: the check checked little", changed)
+	}
+	for _, id := range words {
+		if !slices.Equal(c.WideRow(id), c.WideRow(1)) {
+			t.Errorf("word %d: row %v, unknown word's %v", id, c.WideRow(id), c.WideRow(1))
+		}
+	}
+
+	bare := m.Clone()
+	bare.Config.Wide, bare.Wide = false, nil
+	a, _ := bare.MaskedCopy(gs)
+	b, err := bare.MaskedWordsCopy(gs, words)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(a.Forward(ids).Logits, b.Forward(ids).Logits) {
+		t.Error("without the wide path the words changed the logits")
+	}
+	for _, bad := range []int32{0, -1, 20} {
+		if _, err := m.MaskedWordsCopy(nil, []int32{bad}); err == nil || !strings.Contains(err.Error(), "1 … 19") {
+			t.Errorf("word %d: %v", bad, err)
 		}
 	}
 }

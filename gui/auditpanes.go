@@ -347,13 +347,14 @@ func (p *actionPane) saveRetrained() {
 }
 
 // saveMasked asks where to save a copy of the model with the suggested
-// filters masked.
+// filters masked (and, on a model with word weights, the cues' words read
+// as the unknown word by them: audit.Action.Remedy).
 func (p *actionPane) saveMasked() {
 	a := itemGet(p.v.st.audit)
 	if a == nil || a.R.Action.Mask == nil {
 		return
 	}
-	m, err := a.ms.Model.MaskedCopy(a.R.Action.Mask)
+	m, err := a.R.Action.Remedy(a.ms.Model)
 	if err != nil {
 		p.v.st.showError(err)
 		return

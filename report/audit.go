@@ -92,11 +92,30 @@ func DescribeAction(r *audit.Result) *ActionEvidence {
 		if a.Mask != nil {
 			verdict = "helps there"
 		}
-		ae.Mask = fmt.Sprintf("Masking filters %s, chosen on the choosing half, %s: accuracy on the confirming half %s → %s "+
-			"(%s fixed, %s broken, one-sided exact McNemar p %s).", ints(t.Filters), verdict, accuracy(t.Before), accuracy(t.After),
+		ae.Mask = fmt.Sprintf("Masking filters %s%s, chosen on the choosing half, %s: accuracy on the confirming half %s → %s "+
+			"(%s fixed, %s broken, one-sided exact McNemar p %s).", ints(t.Filters), wideWords(t.Words), verdict, accuracy(t.Before), accuracy(t.After),
 			count(t.Fixed), count(t.Broken), pvalue(t.P))
 	}
 	return ae
+}
+
+// wideWords says, after a filter mask, that the mask also reads words as
+// the unknown word by the word-weight path (audit.Ablation.Words): "" for
+// none.
+func wideWords(words []string) string {
+	if len(words) == 0 {
+		return ""
+	}
+	return " with " + quotedWords(words) + " read as the unknown word by the word weights"
+}
+
+// quotedWords writes words in quotes, comma-separated.
+func quotedWords(words []string) string {
+	q := make([]string, len(words))
+	for i, w := range words {
+		q[i] = "'" + w + "'"
+	}
+	return strings.Join(q, ", ")
 }
 
 // actionLayout lays out the action, or nil when the audit acts on nothing.
@@ -110,7 +129,10 @@ func actionLayout(r *audit.Result, modelPath string) *actionView {
 	for _, f := range ae.Counterfactual {
 		av.Counterfactual = append(av.Counterfactual, kv{f[0], f[1]})
 	}
-	if a.Mask != nil {
+	if a.Mask != nil && len(a.MaskWords) > 0 {
+		av.Mask += " telltale mask masks filters only: telltale audit --masked-out and the window's audit pane write the model with the word weights set too."
+	}
+	if a.Mask != nil && len(a.MaskWords) == 0 {
 		model := cmpOr(modelPath, "MODEL")
 		av.MaskCommand = fmt.Sprintf("telltale mask --model %s --filters %s --out %s-masked.tt",
 			model, strings.ReplaceAll(ints(a.Mask), " ", ""), strings.TrimSuffix(model, ".tt"))

@@ -21,8 +21,9 @@ type CueEvidence struct {
 	Association, Reliance, Artifact string
 	// Signals are the artifact-likeness signals that hold, in plain words.
 	Signals []string
-	// Filters are the filters keyed on the cue and what masking them does
-	// ("" when none were looked for or found).
+	// Filters are the filters keyed on the cue and what masking them does,
+	// then, on a model with word weights, the cue words' part there ("" when
+	// none were looked for or found).
 	Filters string
 	// Examples quote texts whose prediction replacing the cue changed.
 	Examples []string
@@ -76,10 +77,21 @@ func DescribeCue(c *audit.Candidate, r *audit.Result, priors []float64) CueEvide
 	}
 	if f := c.Filters; f != nil && f.Ablation != nil {
 		ab := f.Ablation
-		ev.Filters = fmt.Sprintf("%s read it (%s); masked together, the accuracy on the confirming half goes from %s to %s "+
+		ev.Filters = fmt.Sprintf("%s read it (%s); masked together%s, the accuracy on the confirming half goes from %s to %s "+
 			"(%s fixed, %s broken, one-sided exact McNemar p %s) and %s of the %s texts there that hold it change their prediction",
-			plural(len(f.Keyed), "filter"), ints(f.Keyed), accuracy(ab.Before), accuracy(ab.After), count(ab.Fixed), count(ab.Broken),
+			plural(len(f.Keyed), "filter"), ints(f.Keyed), wideWords(ab.Words), accuracy(ab.Before), accuracy(ab.After), count(ab.Fixed), count(ab.Broken),
 			pvalue(ab.P), count(ab.CueFlipped), count(ab.CueTexts))
+	}
+	if f := c.Filters; f != nil && f.WordPart != nil {
+		wp := f.WordPart
+		words := fmt.Sprintf("In the word weights its words %s add %s (%s–%s) to the centred logit of %s on its confirming texts, "+
+			"against the unknown word's (mean over the texts, 95%% bootstrap interval); read as the unknown word, as the mask reads them, they add nothing",
+			quotedWords(f.Words), num(wp.Estimate), num(wp.Low), num(wp.High), c.Label)
+		if ev.Filters != "" {
+			ev.Filters += ". " + words
+		} else {
+			ev.Filters = words
+		}
 	}
 	if rl := shown(c); rl != nil {
 		for _, e := range rl.Examples {

@@ -10,6 +10,7 @@ import (
 	"strings"
 	"testing"
 
+	"telltale/audit"
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
@@ -176,6 +177,35 @@ func TestAttributionTableWordWeights(t *testing.T) {
 	for _, c := range AttributionTable(es).Columns {
 		if strings.HasPrefix(c, "word_") {
 			t.Errorf("a model without word weights exports column %q", c)
+		}
+	}
+}
+
+// TestAuditWordWeights: on an audit of a model with word weights, the
+// report's action and cue evidence name the words the mask reads as the
+// unknown word and the cue words' part of the label's centred logit with
+// its interval, and no `telltale mask` command is offered (it masks filters
+// only); without word weights neither appears and the command is offered.
+// Invented figures: only the wording is checked.
+func TestAuditWordWeights(t *testing.T) {
+	iv := audit.Interval{Estimate: 0.8, Low: 0.7, High: 0.9}
+	tried := &audit.Ablation{Filters: []int{3, 5}, Words: []string{"kioskmail", "quayside"}, Texts: 100, Before: iv, After: iv}
+	cue := audit.Candidate{Words: []string{"kioskmail", "quayside"}, Text: "kioskmail quayside", Label: "lost", Verdict: audit.VerdictActed,
+		Filters: &audit.Filters{Keyed: []int{3, 5}, Ablation: tried, Words: []string{"kioskmail", "quayside"},
+			WordPart: &audit.Interval{Estimate: 0.876, Low: 0.846, High: 0.904}}}
+	r := &audit.Result{Labels: []string{"lost", "other"}, Ranked: []audit.Candidate{cue},
+		Action: audit.Action{Cues: []string{cue.Text}, Patterns: []string{"kioskmail"}, Mask: []int{3, 5}, MaskWords: tried.Words, Tried: tried}}
+	for _, wide := range []bool{true, false} {
+		if !wide {
+			r.Action.MaskWords, tried.Words = nil, nil
+			r.Ranked[0].Filters.Words, r.Ranked[0].Filters.WordPart = nil, nil
+		}
+		av := actionLayout(r, "m.tt")
+		ev := DescribeCue(&r.Ranked[0], r, []float64{0.5, 0.5})
+		named := strings.Contains(av.Mask, "'kioskmail', 'quayside' read as the unknown word by the word weights")
+		part := strings.Contains(ev.Filters, "add 0.876 (0.846–0.904) to the centred logit of lost")
+		if named != wide || part != wide || (av.MaskCommand == "") != wide {
+			t.Errorf("word weights %v: action %q, command %q, cue %q", wide, av.Mask, av.MaskCommand, ev.Filters)
 		}
 	}
 }
