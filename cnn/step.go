@@ -429,7 +429,7 @@ func (tr *trainer) table(_, lo, hi int) {
 func (tr *trainer) texts_(k, lo, hi int) {
 	m := tr.m
 	cfg := m.Config
-	d, nf, F, C := cfg.Dim, cfg.NumFilters(), cfg.Filters, cfg.Classes
+	nf, C := cfg.NumFilters(), cfg.Classes
 	maxW := cfg.MaxWidth()
 	t := &tr.th[k]
 	scale := 1 / float32(len(tr.texts))
@@ -479,31 +479,39 @@ func (tr *trainer) texts_(k, lo, hi int) {
 		for c := 0; c < C; c++ {
 			axpy(t.dz[c], m.OutW[c*nf:(c+1)*nf], t.dh)
 		}
-		// Through dropout, ReLU and the max: only the winning window of each
-		// filter gets gradient.
-		for g := 0; g < nf; g++ {
-			gd := t.dh[g]
-			if drop != nil {
-				gd *= drop[g]
-			}
-			if gd == 0 || !(best[g] > 0) || m.IsMasked(g) {
+		tr.windowGrads(t, ids, loc, best, arg, drop, freeze)
+	}
+}
+
+// windowGrads takes the pooled units' gradient t.dh of one text back
+// through dropout (drop, nil for none), ReLU and the max: only the winning
+// window (arg) of each filter that fired (best > 0) gets gradient, into the
+// filter's weights and bias and, unless freeze, the word vectors it read.
+func (tr *trainer) windowGrads(t *threadBuf, ids, loc []int32, best []float32, arg []int32, drop []float32, freeze bool) {
+	m := tr.m
+	d, F := m.Config.Dim, m.Config.Filters
+	for g := range t.dh {
+		gd := t.dh[g]
+		if drop != nil {
+			gd *= drop[g]
+		}
+		if gd == 0 || !(best[g] > 0) || m.IsMasked(g) {
+			continue
+		}
+		b, f := g/F, g%F
+		c := &m.Convs[b]
+		w := c.Width
+		t.b[g] += gd
+		t0 := int(arg[g])
+		for s := 0; s < w && t0+s < len(ids); s++ {
+			li := loc[t0+s]
+			if li < 0 {
 				continue
 			}
-			b, f := g/F, g%F
-			c := &m.Convs[b]
-			w := c.Width
-			t.b[g] += gd
-			t0 := int(arg[g])
-			for s := 0; s < w && t0+s < len(ids); s++ {
-				li := loc[t0+s]
-				if li < 0 {
-					continue
-				}
-				wo := (f*w + s) * d
-				axpy(gd, tr.emb[int(li)*d:int(li+1)*d], t.w[tr.wOff[b]+wo:tr.wOff[b]+wo+d])
-				if !freeze {
-					axpy(gd, c.W[wo:wo+d], t.emb[int(li)*d:int(li+1)*d])
-				}
+			wo := (f*w + s) * d
+			axpy(gd, tr.emb[int(li)*d:int(li+1)*d], t.w[tr.wOff[b]+wo:tr.wOff[b]+wo+d])
+			if !freeze {
+				axpy(gd, c.W[wo:wo+d], t.emb[int(li)*d:int(li+1)*d])
 			}
 		}
 	}
