@@ -7,7 +7,6 @@ import (
 	"math"
 	"path/filepath"
 	"regexp"
-	"strconv"
 	"strings"
 	"testing"
 
@@ -345,20 +344,6 @@ var wideLine = regexp.MustCompile(`= ([+-][0-9.]+) = output bias with the unknow
 // model with the wide path: the value, the baseline and the word weights.
 var wideIGLine = regexp.MustCompile(`= ([+-][0-9.]+), with every word vector zero and the unknown word's weight ([+-][0-9.]+): the token scores \(word weights ([+-][0-9.]+)\) add up to the difference`)
 
-// parseFloats parses the submatches of m after the whole match.
-func parseFloats(t *testing.T, m []string) []float64 {
-	t.Helper()
-	out := make([]float64, len(m)-1)
-	for i, s := range m[1:] {
-		v, err := strconv.ParseFloat(s, 64)
-		if err != nil {
-			t.Fatalf("%q: %v", m[0], err)
-		}
-		out[i] = v
-	}
-	return out
-}
-
 // TestExplainTextWideModel: on a model trained with --wide, explain's text
 // names the unknown word's weight in the output bias and the word weights
 // in the token shares, for the log-odds, a label's centred logit and
@@ -438,7 +423,7 @@ func TestExplainTextWideModel(t *testing.T) {
 		if mt == nil {
 			t.Fatalf("%s: no split naming the wide path's parts:\n%s", tc.name, out)
 		}
-		got := parseFloats(t, mt) // value, bias, filter biases, tokens, words
+		got := testref.Floats(t, mt) // value, bias, filter biases, tokens, words
 		if !testref.Close(got[0], got[1]+got[2]+got[3], 4*half, 0) {
 			t.Errorf("%s: %q does not add up (%g)", tc.name, mt[0], got[1]+got[2]+got[3])
 		}
@@ -458,7 +443,7 @@ func TestExplainTextWideModel(t *testing.T) {
 	if mt == nil {
 		t.Fatalf("integrated gradients: no baseline naming the unknown word's weight:\n%s", out)
 	}
-	got := parseFloats(t, mt) // value, baseline, words
+	got := testref.Floats(t, mt) // value, baseline, words
 	_, words := parts(logOdds)
 	if !testref.Close(got[2], words, half+1e-6, 0) {
 		t.Errorf("%q: word weights %+.5f from the model's weights", mt[0], words)

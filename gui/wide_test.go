@@ -5,7 +5,6 @@ import (
 	"math"
 	"path/filepath"
 	"regexp"
-	"strconv"
 	"strings"
 	"testing"
 
@@ -23,20 +22,6 @@ var wideVerdict = regexp.MustCompile(` = (-?[0-9.]+) = output bias with the unkn
 
 // wideDetail reads back a token's exact share and its word weight.
 var wideDetail = regexp.MustCompile(`Exact share of .+: ([+-][0-9.]+) \(of which word weight ([+-][0-9.]+)\)`)
-
-// floats parses the submatches of m after the whole match.
-func floats(t *testing.T, m []string) []float64 {
-	t.Helper()
-	out := make([]float64, len(m)-1)
-	for i, s := range m[1:] {
-		v, err := strconv.ParseFloat(s, 64)
-		if err != nil {
-			t.Fatalf("%q: %v", m[0], err)
-		}
-		out[i] = v
-	}
-	return out
-}
 
 // TestWhyThisLabelWide: for a model trained with the wide path, opened in
 // the window, Why this label's verdict names the unknown word's weight in
@@ -111,7 +96,7 @@ func TestWhyThisLabelWide(t *testing.T) {
 		if mt == nil {
 			t.Fatalf("%s: the verdict does not name the wide path's parts: %q", tc.class, line)
 		}
-		got := floats(t, mt) // value, bias, filter biases, tokens, words
+		got := testref.Floats(t, mt) // value, bias, filter biases, tokens, words
 		const half = 5e-5
 		if !testref.Close(got[0], got[1]+got[2]+got[3], 4*half, 0) {
 			t.Errorf("%s: %q does not add up (%g)", tc.class, mt[0], got[1]+got[2]+got[3])
@@ -137,7 +122,7 @@ func TestWhyThisLabelWide(t *testing.T) {
 			if md == nil {
 				t.Fatalf("%s, token %d: the detail gives no word weight: %q", tc.class, i, d)
 			}
-			if got := floats(t, md); !testref.Close(got[1], wordWeight(tc.v, i), 5e-6+1e-7, 0) {
+			if got := testref.Floats(t, md); !testref.Close(got[1], wordWeight(tc.v, i), 5e-6+1e-7, 0) {
 				t.Errorf("%s, token %d: %q: word weight %+.7f from the model's weights", tc.class, i, md[0], wordWeight(tc.v, i))
 			}
 		}

@@ -6,7 +6,6 @@ import (
 	"math"
 	"math/rand/v2"
 	"regexp"
-	"strconv"
 	"strings"
 	"testing"
 
@@ -44,12 +43,7 @@ func TestExampleIdentityWide(t *testing.T) {
 	if mt == nil {
 		t.Fatalf("identity line %q does not name the wide path's parts", ev.Identity)
 	}
-	got := make([]float64, 5) // log-odds, bias, filter biases, tokens, words
-	for i, s := range mt[1:] {
-		if got[i], err = strconv.ParseFloat(s, 64); err != nil {
-			t.Fatalf("%q: %v", ev.Identity, err)
-		}
-	}
+	got := testref.Floats(t, mt) // log-odds, bias, filter biases, tokens, words
 	const half = 5e-4
 	if !testref.Close(got[0], got[1]+got[2]+got[3], 4*half, 0) {
 		t.Errorf("%q does not add up (%g)", ev.Identity, got[1]+got[2]+got[3])

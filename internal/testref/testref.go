@@ -11,6 +11,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"runtime"
+	"strconv"
 	"testing"
 
 	"gonum.org/v1/gonum/floats/scalar"
@@ -66,3 +67,19 @@ func Corpus(t testing.TB, name, probe string) string {
 // the relative tolerance rel (gonum's floats/scalar.EqualWithinAbsOrRel),
 // the one tolerance test of the project.
 func Close(a, b, abs, rel float64) bool { return scalar.EqualWithinAbsOrRel(a, b, abs, rel) }
+
+// Floats parses the submatches of a regular-expression match m (as
+// FindStringSubmatch returns it) after the whole match, failing t on one
+// that is not a number: for tests that read printed figures back.
+func Floats(t testing.TB, m []string) []float64 {
+	t.Helper()
+	out := make([]float64, len(m)-1)
+	for i, s := range m[1:] {
+		v, err := strconv.ParseFloat(s, 64)
+		if err != nil {
+			t.Fatalf("%q: %v", m[0], err)
+		}
+		out[i] = v
+	}
+	return out
+}
