@@ -166,21 +166,13 @@ func TestCharGradientFiniteDifferences(t *testing.T) {
 					}
 					continue
 				}
-				p0 := pr.p[i]
-				pr.p[i] = float32(float64(p0) + h)
-				up := pr.p[i]
-				pu, patU := ref64(m, texts, labels, drop)
-				pr.p[i] = float32(float64(p0) - h)
-				dn := pr.p[i]
-				pd, patD := ref64(m, texts, labels, drop)
-				pr.p[i] = p0
-				if !slices.Equal(patU, patD) {
+				num, ok := centralDiff(pr.p, i, h, func() (float64, []int) { return ref64(m, texts, labels, drop) })
+				if !ok {
 					skipped++
 					continue
 				}
-				num := (pu - pd) / (float64(up) - float64(dn))
 				a := float64(pr.g[i])
-				if math.Abs(a-num) > 1e-4*math.Max(math.Abs(a), math.Abs(num))+1e-6 {
+				if !gradAgrees(a, num) {
 					t.Errorf("seed %d %s[%d]: analytic %g, finite difference %g", seed, pr.name, i, a, num)
 				}
 				checked++
