@@ -99,14 +99,7 @@ func rebuildFile(version uint32, header, weights, baseline []byte) []byte {
 // or have a non-zero PAD row is refused, naming the problem.
 func TestWideFileDamaged(t *testing.T) {
 	m := wideSavedModel(t)
-	var buf bytes.Buffer
-	if err := m.encode(&buf); err != nil {
-		t.Fatal(err)
-	}
-	f, err := splitFile(buf.Bytes())
-	if err != nil {
-		t.Fatal(err)
-	}
+	f := encodedParts(t, m)
 	table := 4 * len(m.Wide)
 	noTable := f.weights[:len(f.weights)-table]
 	padRow := bytes.Clone(f.weights)
@@ -152,14 +145,7 @@ func TestWideFileDamaged(t *testing.T) {
 // encoding/json does (FuzzDecodeHeaderFast has this header as a seed).
 func TestDecodeHeaderFastWide(t *testing.T) {
 	m := wideSavedModel(t)
-	var buf bytes.Buffer
-	if err := m.encode(&buf); err != nil {
-		t.Fatal(err)
-	}
-	f, err := splitFile(buf.Bytes())
-	if err != nil {
-		t.Fatal(err)
-	}
+	f := encodedParts(t, m)
 	var got headerIn
 	if !decodeHeaderFast(f.header, &got) {
 		t.Fatal("the fast decoding gave up on a wide model's header")
@@ -174,4 +160,19 @@ func TestDecodeHeaderFastWide(t *testing.T) {
 	if !slices.Equal(got.Vocab, m.Vocab) {
 		t.Error("the vocabulary read differs from the one written")
 	}
+}
+
+// encodedParts encodes m as a model file in memory and splits it into its
+// parts.
+func encodedParts(t *testing.T, m *Model) fileParts {
+	t.Helper()
+	var buf bytes.Buffer
+	if err := m.encode(&buf); err != nil {
+		t.Fatal(err)
+	}
+	f, err := splitFile(buf.Bytes())
+	if err != nil {
+		t.Fatal(err)
+	}
+	return f
 }
