@@ -5,6 +5,7 @@ import (
 	_ "embed"
 	"flag"
 	"fmt"
+	"io"
 	"os"
 	"runtime"
 	"strings"
@@ -81,16 +82,35 @@ func runGUI(ctx context.Context, env *runEnv, o *guiOptions) error {
 	o.OnReady = func() { fmt.Fprintln(env.Stderr, "telltale: window ready") }
 	a := app.NewWithID("org.telltale.app")
 	w := gui.NewWindow(a, o.Options)
-	// Ctrl-C and SIGTERM close the window cleanly.
+	// Ctrl-C and SIGTERM close the window cleanly, or end the process if
+	// the window has not closed within quitGrace.
 	go func() {
 		<-ctx.Done()
 		fyne.Do(a.Quit)
+		time.AfterFunc(quitGrace, func() { forceQuit(ctx, env.Stderr) })
 	}()
 	if o.quitAfter > 0 {
 		time.AfterFunc(o.quitAfter, func() { fyne.Do(a.Quit) })
 	}
 	w.ShowAndRun()
 	return nil
+}
+
+// quitGrace is how long the window may take to close after a signal
+// before forceQuit ends the process.
+const quitGrace = 15 * time.Second
+
+// forceQuit ends a process whose window did not close after a signal: a
+// signal must end it. It writes every goroutine's stack first, so that
+// whatever held the window open can be found, and exits with the signal's
+// code (128 + its number). Files are written atomically (a temporary file
+// renamed), so none is left half-written.
+func forceQuit(ctx context.Context, stderr io.Writer) {
+	buf := make([]byte, 1<<20)
+	buf = buf[:runtime.Stack(buf, true)]
+	fmt.Fprintf(stderr, "telltale gui: the window did not close within %v of the signal; ending the process. Its goroutines:\n%s\n", quitGrace, buf)
+	code, _ := signalCode(ctx, nil)
+	os.Exit(code)
 }
 
 // checkDisplay fails plainly when there is no screen to open a window on.
