@@ -65,13 +65,7 @@ func ReadVectors(path string, keep func(word string) bool) (*Vectors, error) {
 	order, wait := streamVectorBlocks(path, br, head, keep)
 	v := &Vectors{Dim: head.dim}
 	if head.count > 0 {
-		// Trust the header's count only as far as the file can hold it: a
-		// number takes at least two bytes (compressed files: 128M numbers).
-		most := 1 << 27
-		if st, err := f.Stat(); err == nil && r == io.Reader(f) {
-			most = int(st.Size() / 2)
-		}
-		v.reserve(head.count, most)
+		v.reserve(head.count, reservable(f, r != io.Reader(f)))
 	}
 	firstErr := v.collect(order)
 	if err := wait(); err != nil && firstErr == nil {
@@ -201,6 +195,25 @@ func cutVectorBlocks(path string, br *bufio.Reader, head vectorHead, jobs chan<-
 		send(buf[:cut+1])
 		buf = rest
 	}
+}
+
+// reservable is how many numbers a vector file f may be trusted to hold
+// before it is read: a number takes at least two bytes of text, and
+// compressed text is taken to shrink at most 16 times (floats written as
+// text compress far less), so a small file whose header claims millions of
+// vectors reserves little; the rest grows as the vectors arrive. At most
+// 2²⁷ numbers either way.
+func reservable(f *os.File, compressed bool) int {
+	most := 1 << 27
+	st, err := f.Stat()
+	if err != nil {
+		return 1 << 20
+	}
+	size := int(st.Size())
+	if compressed {
+		size *= 16
+	}
+	return min(most, size/2)
 }
 
 // reserve sizes v for count vectors of v.Dim numbers, but for no more than

@@ -1,6 +1,7 @@
 package corpus
 
 import (
+	"bytes"
 	"compress/gzip"
 	"errors"
 	"fmt"
@@ -171,6 +172,43 @@ func TestParseFloat32MatchesStrconv(t *testing.T) {
 	for _, s := range []string{"", "-", ".", "1..2", "1e", "NaN", "inf", "-Inf", "0x1p3x", "1,5", "1e39"} {
 		if _, ok := parseFloat32([]byte(s)); ok {
 			t.Errorf("parseFloat32(%q) accepted", s)
+		}
+	}
+}
+
+// TestVectorsHeaderReservesWhatTheFileCanHold: a header's count is trusted
+// only as far as the file can hold it. A compressed file of a few bytes
+// that claims 123,407,025 vectors of 6 numbers (found by FuzzReadVectors:
+// it made the reader reserve 2²⁷ numbers and a map as large, gigabytes per
+// call) reserves room for at most 16 times its size in text, 2 bytes a
+// number.
+func TestVectorsHeaderReservesWhatTheFileCanHold(t *testing.T) {
+	dir := t.TempDir()
+	for _, gz := range []bool{false, true} {
+		p := filepath.Join(dir, "v.txt")
+		data := []byte("123407025 6\nferry 1 2 3 4 5 6\n")
+		if gz {
+			p += ".gz"
+			var b bytes.Buffer
+			w := gzip.NewWriter(&b)
+			w.Write(data)
+			w.Close()
+			data = b.Bytes()
+		}
+		if err := os.WriteFile(p, data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		v, err := ReadVectors(p, nil)
+		if err != nil {
+			t.Fatalf("gz %v: %v", gz, err)
+		}
+		most := len(data) / 2
+		if gz {
+			most = 16 * len(data) / 2
+		}
+		if cap(v.Data) > most || len(v.Words) != 1 || v.Dim != 6 {
+			t.Errorf("gz %v: %d words, dimension %d, room for %d numbers reserved; want 1, 6 and at most %d",
+				gz, len(v.Words), v.Dim, cap(v.Data), most)
 		}
 	}
 }
