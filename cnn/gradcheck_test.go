@@ -1,6 +1,7 @@
 package cnn
 
 import (
+	"fmt"
 	"maps"
 	"math"
 	"math/rand/v2"
@@ -223,7 +224,7 @@ func gradCheck(t *testing.T, seed uint64, wide bool) {
 	if wide {
 		usedWide[1] = true // texts[2] is scored by UNK's wide row
 	}
-	checked, skipped := 0, 0
+	var fd fdTally
 	for _, pr := range gradParams(m, tr) {
 		for i := range pr.p {
 			if pr.name == "Emb" && (!used[i/m.Config.Dim] || i < m.Config.Dim) { // PAD is fixed at zero
@@ -238,24 +239,14 @@ func gradCheck(t *testing.T, seed uint64, wide bool) {
 				}
 				continue
 			}
-			num, ok := centralDiff(pr.p, i, h, func() (float64, []int) { return ref64(m, texts, labels, drop) })
-			if !ok {
-				skipped++
-				continue
-			}
-			a := float64(pr.g[i])
-			if !gradAgrees(a, num) {
-				t.Errorf("seed %d %s[%d]: analytic %g, finite difference %g", seed, pr.name, i, a, num)
-			}
-			checked++
+			fd.compare(t, fmt.Sprintf("seed %d %s[%d]", seed, pr.name, i), pr.p, pr.g, i, h,
+				func() (float64, []int) { return ref64(m, texts, labels, drop) })
 		}
 	}
 	if pad := tr.gEmb[:m.Config.Dim]; slices.ContainsFunc(pad, func(v float32) bool { return v != 0 }) {
 		t.Errorf("seed %d: PAD row has a gradient", seed)
 	}
-	if skipped > checked/10 {
-		t.Errorf("seed %d: %d coordinates skipped at kinks, %d checked: too many to trust the check", seed, skipped, checked)
-	}
+	fd.enough(t, seed)
 }
 
 // centralDiff is the central finite difference of the loss eval gives with
@@ -283,4 +274,35 @@ func centralDiff(p []float32, i int, h float64, eval func() (float64, []int)) (n
 // weights, float64 reference loss; common practice, no source).
 func gradAgrees(a, num float64) bool {
 	return math.Abs(a-num) <= 1e-4*math.Max(math.Abs(a), math.Abs(num))+1e-6
+}
+
+// fdTally counts the coordinates a finite-difference check compared and
+// those it skipped at kinks.
+type fdTally struct{ checked, skipped int }
+
+// compare checks the analytic gradient g[i] of the weight p[i] against the
+// central difference of eval (centralDiff, step h), failing t, naming what,
+// when they disagree (gradAgrees). It returns false for a coordinate
+// skipped at a kink.
+func (c *fdTally) compare(t *testing.T, what string, p, g []float32, i int, h float64, eval func() (float64, []int)) bool {
+	t.Helper()
+	num, ok := centralDiff(p, i, h, eval)
+	if !ok {
+		c.skipped++
+		return false
+	}
+	if a := float64(g[i]); !gradAgrees(a, num) {
+		t.Errorf("%s: analytic %g, finite difference %g", what, a, num)
+	}
+	c.checked++
+	return true
+}
+
+// enough fails t when more than a tenth of the coordinates were skipped at
+// kinks: too few compared to trust the check.
+func (c *fdTally) enough(t *testing.T, seed uint64) {
+	t.Helper()
+	if c.skipped > c.checked/10 {
+		t.Errorf("seed %d: %d coordinates skipped at kinks, %d checked: too many to trust the check", seed, c.skipped, c.checked)
+	}
 }
