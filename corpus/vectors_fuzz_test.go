@@ -1,11 +1,7 @@
 package corpus
 
 import (
-	"bytes"
-	"compress/gzip"
 	"math"
-	"os"
-	"path/filepath"
 	"strings"
 	"testing"
 )
@@ -24,20 +20,12 @@ func FuzzReadVectors(f *testing.F) {
 	f.Add([]byte("ferry 1 2\ncrew 1\n"), true)
 	f.Add([]byte(strings.Repeat("x", 1<<12)), false)
 	f.Fuzz(func(t *testing.T, data []byte, gz bool) {
-		dir := t.TempDir()
-		p := filepath.Join(dir, "v.txt")
 		plain := len(data)
+		name := "v.txt"
 		if gz {
-			p += ".gz"
-			var b bytes.Buffer
-			w := gzip.NewWriter(&b)
-			w.Write(data)
-			w.Close()
-			data = b.Bytes()
+			name += ".gz"
 		}
-		if err := os.WriteFile(p, data, 0o644); err != nil {
-			t.Fatal(err)
-		}
+		p := writeVectorFile(t, name, string(data))
 		for _, keep := range []func(string) bool{nil, func(w string) bool { return len(w)%2 == 0 }} {
 			v, err := ReadVectors(p, keep)
 			if err != nil {
