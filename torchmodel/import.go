@@ -119,6 +119,9 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 	case !l.Complete():
 		return nil, fmt.Errorf("torchmodel: the layout names only some parts (%s): name the embedding table(s), the convolutions and the output layer: %w", l, ErrLayout)
 	}
+	if _, ok := sd.Tensors[charsConv]; ok && l.Chars == "" {
+		l.Chars = CharsPrefix // found by name, as DetectLayout finds it
+	}
 	w, err := mapWeights(sd, l, o.StateDict)
 	if err != nil {
 		return nil, err
@@ -147,6 +150,9 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 		return nil, err
 	}
 	cfg := cnn.Config{VocabSize: w.vocab, Dim: w.dim, Widths: w.widths, Filters: w.filters, Classes: w.classes, Wide: w.wide != nil}
+	if w.chars != nil {
+		cfg.Chars = &w.chars.cfg
+	}
 	if err := cfg.Validate(); err != nil {
 		return nil, fmt.Errorf("torchmodel: %s: %v: %w", o.StateDict, err, ErrLayout)
 	}
@@ -154,6 +160,13 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 		OutW: w.outW, OutB: w.outB, Wide: w.wide, Tokenizer: tok.Config()}
 	for b, width := range w.widths {
 		m.Convs = append(m.Convs, cnn.Conv{Width: width, W: w.convW[b], B: w.convB[b]})
+	}
+	if w.chars != nil {
+		m.Char = &w.chars.layer
+		if err := checkWordChars(m, vocab, w.chars, o); err != nil {
+			return nil, err
+		}
+		m.FillChars() // the character part of each row, from the layer, as cnn.Load does
 	}
 	sum, err := fileSHA256(o.StateDict)
 	if err != nil {
@@ -207,7 +220,11 @@ func readWeights(ctx context.Context, o Options) (*statedict.StateDict, error) {
 	sd := &statedict.StateDict{Tensors: map[string]*statedict.Tensor{}, Format: "npz"}
 	for _, a := range arrays {
 		sd.Keys = append(sd.Keys, a.Name)
-		sd.Tensors[a.Name] = &statedict.Tensor{Shape: a.Shape, Dtype: statedict.Float32, Data: a.Data}
+		t := &statedict.Tensor{Shape: a.Shape, Dtype: statedict.Float32, Data: a.Data}
+		if a.Ints != nil {
+			t.Dtype, t.Ints = statedict.Int64, a.Ints
+		}
+		sd.Tensors[a.Name] = t
 	}
 	return sd, nil
 }
