@@ -180,6 +180,21 @@ func fromConv1d(src []float32, filters, width, dim int) []float32 {
 	return w
 }
 
+// setChars gives m the character layer cw (nothing when nil), checks the
+// file's character ids against vocab (in the file's order) and computes
+// the character part of every row, as cnn.Load does.
+func setChars(m *cnn.Model, vocab []string, cw *charWeights, o Options) error {
+	if cw == nil {
+		return nil
+	}
+	m.Char = &cw.layer
+	if err := checkWordChars(m, vocab, cw, o); err != nil {
+		return err
+	}
+	m.FillChars()
+	return nil
+}
+
 // checkWordChars checks the words' character ids of the file against the
 // ones m's layer gives the words of vocab (in the file's order): they
 // differ when the vocabulary is not the one the layer was exported with.

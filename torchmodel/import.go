@@ -99,6 +99,12 @@ type Imported struct {
 // shorter than the widest filter, the only ones telltale pads. Longer texts
 // get exactly the logits they had.
 //
+// A character layer (Layout.Chars) is read as cnn.Model's: the table holds
+// the words' own columns, the character part of every word is computed
+// from the layer (cnn.Model.FillChars), and the words' character ids of the
+// file must be the ones the layer gives the vocabulary's words, or the
+// vocabulary is refused as not the model's.
+//
 // A model with one output unit (a sigmoid classifier) becomes a model of
 // two classes whose logits are 0 and the unit's value; their softmax is
 // the sigmoid's probabilities. Labels then names the class of probability
@@ -161,12 +167,8 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 	for b, width := range w.widths {
 		m.Convs = append(m.Convs, cnn.Conv{Width: width, W: w.convW[b], B: w.convB[b]})
 	}
-	if w.chars != nil {
-		m.Char = &w.chars.layer
-		if err := checkWordChars(m, vocab, w.chars, o); err != nil {
-			return nil, err
-		}
-		m.FillChars() // the character part of each row, from the layer, as cnn.Load does
+	if err := setChars(m, vocab, w.chars, o); err != nil {
+		return nil, err
 	}
 	sum, err := fileSHA256(o.StateDict)
 	if err != nil {
