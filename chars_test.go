@@ -53,8 +53,9 @@ func TestTrainWithChars(t *testing.T) {
 		t.Errorf("explain: exit %d: %s", code, stderr)
 	}
 	exp := filepath.Join(dir, "exported")
-	if code, _, stderr = tt(t, "export", "--model", model, "--out", exp); code != 0 {
-		t.Errorf("export of a character model: exit %d: %s", code, stderr)
+	code, out, stderr = tt(t, "export", "--model", model, "--out", exp)
+	if code != 0 || !strings.Contains(out, "character layer exported") {
+		t.Errorf("export of a character model: exit %d: %s%s", code, out, stderr)
 	}
 	if _, err := os.Stat(filepath.Join(exp, "state_dict.npz")); err != nil {
 		t.Errorf("export of a character model: %v", err)

@@ -129,6 +129,9 @@ func runExport(ctx context.Context, env *runEnv, o *exportOptions) error {
 	if s.Masked > 0 {
 		fmt.Fprintf(env.Stdout, "%d masked filters exported with zero output weights (same logits)\n", s.Masked)
 	}
+	if m.Config.Chars != nil {
+		fmt.Fprintf(env.Stdout, "character layer exported (keys %s.*): words outside %s get their own character part when the module is given the tokens' characters (encode(..., chars=True))\n", torchmodel.CharsPrefix, torchmodel.VocabFile)
+	}
 	cut := "texts are kept whole"
 	if s.MaxTokens > 0 {
 		cut = "texts are cut to " + plural(s.MaxTokens, "token", "tokens")

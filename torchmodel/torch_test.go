@@ -348,7 +348,28 @@ func checkExportWithTorch(t *testing.T, m *cnn.Model, enc *corpus.Encoder, texts
 		}
 		check("ASCII text", i, mu, asciiU[i], out.Text[i])
 	}
+	checkSavedModule(t, m, filepath.Join(dir, "module.pt"), filepath.Join(dir, VocabFile), ids)
 	return worst
+}
+
+// checkSavedModule imports the module's state_dict as torch.save wrote it
+// (its int64 buffers read from the pickle's storages) and checks that it
+// gives m's logits on ids exactly: the same float32 weights, the masked
+// filters' output weights zero.
+func checkSavedModule(t *testing.T, m *cnn.Model, path, vocab string, ids [][]int32) {
+	t.Helper()
+	res, err := Import(context.Background(), Options{StateDict: path, Vocab: vocab, PadID: -1, UnkID: -1, Labels: m.Labels, Tokenizer: m.Tokenizer})
+	if err != nil {
+		t.Fatalf("the module's state_dict saved by torch: %v", err)
+	}
+	if (m.Config.Chars != nil) != (res.Layout.Chars != "") || (m.Config.Wide) != (res.Layout.Wide != "") {
+		t.Fatalf("the module's state_dict saved by torch: layout %s", res.Layout)
+	}
+	for i, x := range ids {
+		if got, want := res.Model.Forward(x).Logits, m.Forward(x).Logits; !slices.Equal(got, want) {
+			t.Fatalf("text %d: logits %v from the state_dict saved by torch, %v from the model", i, got, want)
+		}
+	}
 }
 
 func head(x []int32) []int32 { return x[:min(len(x), 12)] }

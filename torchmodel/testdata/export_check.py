@@ -11,7 +11,8 @@ run in padded batches of 16 (so that each batch holds texts of different
 lengths); for a model with a character layer also the logits of the ids
 with the tokens' character ids (the module's spell()); and the logits of
 the raw texts as the module's own encode() reads them (with their
-characters for a model with a character layer).
+characters for a model with a character layer). The module's state_dict,
+as loaded, is saved with torch.save as DIR/module.pt.
 """
 import json
 import os
@@ -25,7 +26,9 @@ from telltale_cnn import TelltaleCNN  # noqa: E402
 d = sys.argv[1]
 with open(os.path.join(d, "in.json")) as f:
     cfg = json.load(f)
-model = TelltaleCNN.load(cfg["folder"]).double()
+model = TelltaleCNN.load(cfg["folder"])
+torch.save(model.state_dict(), os.path.join(d, "module.pt"))
+model = model.double()
 
 
 def run(texts, spellings=None):
