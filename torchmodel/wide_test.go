@@ -256,6 +256,10 @@ func TestWideByShapeCases(t *testing.T) {
 		}
 		return sd
 	}
+	withChars := func(arrays []npy.Array) []npy.Array {
+		arrays[0] = table("embedding.weight", 5, 2)
+		return append(arrays, npy.Array{Name: charsConv, Shape: []int{2, 3, 3}, Data: make([]float32, 18)})
+	}
 	// A two-channel model: convolutions over 2·2 components.
 	two := kimArrays(5, 4, 2)
 	two[0] = table("static.weight", 5, 2)
@@ -271,6 +275,8 @@ func TestWideByShapeCases(t *testing.T) {
 		{"two channels of the labels' width", second(two, table("embedding.weight", 5, 2)), "", 2, nil},
 		{"two channels and a table", second(two, table("embedding.weight", 5, 2), table("bag.weight", 5, 2)), "", 0,
 			[]string{"static.weight", "embedding.weight", "bag.weight", WideKey}},
+		// With a character layer of 2 filters, the convolutions read 2 + 2 components.
+		{"a table beside a character layer", second(withChars(kimArrays(5, 4, 3)), table("bag.weight", 5, 3)), "bag.weight", 1, nil},
 		// Not the wide table; the shapes of the two tables are refused later.
 		{"a table of other rows", second(kimArrays(5, 4, 2), table("bag.weight", 6, 2)), "", 2, nil},
 	} {
