@@ -289,9 +289,9 @@ func runAudit(ctx context.Context, env *runEnv, o *auditOptions) error {
 	if err != nil {
 		return err
 	}
-	if o.maskedOut != "" && out.Action.Mask == nil {
-		return fmt.Errorf("%s was not written: masking the filters that read the cues acted on did not help on the confirming half "+
-			"(or no cue was acted on), so the audit suggests no filter mask; retrain without the cues instead (--retrain)", o.maskedOut)
+	if o.maskedOut != "" && !out.Action.Suggested() {
+		return fmt.Errorf("%s was not written: masking the filters that read the cues acted on (or their words' word weights) did not help on the confirming half "+
+			"(or no cue was acted on), so the audit suggests no mask; retrain without the cues instead (--retrain)", o.maskedOut)
 	}
 	return nil
 }
@@ -367,7 +367,7 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 			out.RetrainedModel = r.o.retrainOut
 		}
 	}
-	if r.o.maskedOut != "" && res.Action.Mask != nil {
+	if r.o.maskedOut != "" && res.Action.Suggested() {
 		out.MaskedModel = r.o.maskedOut
 	}
 	return out, nil
@@ -610,7 +610,7 @@ func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, marks *audit.Marks,
 		}
 		say(env.Stderr, o.quiet, "the retrained model is written to %s", o.retrainOut)
 	}
-	if o.maskedOut != "" && out.Action.Mask != nil {
+	if o.maskedOut != "" && out.Action.Suggested() {
 		masked, err := out.Action.Remedy(m)
 		if err != nil {
 			return err
@@ -618,11 +618,7 @@ func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, marks *audit.Marks,
 		if err := masked.Save(o.maskedOut); err != nil {
 			return err
 		}
-		words := ""
-		if ws := out.Action.MaskWords; len(ws) > 0 {
-			words = " and " + strings.Join(ws, ", ") + " read as the unknown word by the word weights"
-		}
-		say(env.Stderr, o.quiet, "the model with filters %s masked%s is written to %s", joinInts(out.Action.Mask), words, o.maskedOut)
+		say(env.Stderr, o.quiet, "the model with %s is written to %s", maskedWhatAudit(&out.Action), o.maskedOut)
 	}
 	return nil
 }

@@ -303,7 +303,7 @@ func checkMaskedOut(t *testing.T, base []string, res *auditOut) {
 	out := filepath.Join(t.TempDir(), "masked.tt")
 	code, _, stderr := tt(t, append(base, "--masked-out", out, "--quiet")...)
 	_, statErr := os.Stat(out)
-	if res.Action.Mask == nil {
+	if !res.Action.Suggested() {
 		if code != 1 || statErr == nil || !strings.Contains(stderr, "was not written") {
 			t.Errorf("no mask suggested: exit %d, file written %v, stderr %q; want exit 1 and no file", code, statErr == nil, stderr)
 		}

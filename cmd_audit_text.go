@@ -90,8 +90,8 @@ func (v *auditView) writeActions(w io.Writer) {
 		steps = append(steps, step{"retrain without the cues and compare both models on the test texts with and without them",
 			shellJoin([]string{"--retrain", "--retrain-out", base + "-without.tt"})})
 	}
-	if m := v.Action.Mask; m != nil && v.MaskedModel == "" {
-		steps = append(steps, step{"write a copy with filters " + joinInts(m) + " masked, which helped on the confirming half",
+	if v.Action.Suggested() && v.MaskedModel == "" {
+		steps = append(steps, step{"write a copy with " + maskedWhatAudit(&v.Action) + ", which helped on the confirming half",
 			shellJoin([]string{"--masked-out", base + "-masked.tt"})})
 	}
 	if len(steps) == 0 {
@@ -351,3 +351,17 @@ func recipeArgs(m *cnn.Model) []string {
 
 // fmtFloat writes x in the fewest digits that read back as x.
 func fmtFloat(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
+
+// maskedWhatAudit says what the audit's suggested mask does: "filters 3, 7
+// masked", "kioskmail, tkref read as the unknown word by the word
+// weights", or both joined by "and".
+func maskedWhatAudit(act *audit.Action) string {
+	var what []string
+	if len(act.Mask) > 0 {
+		what = append(what, "filters "+joinInts(act.Mask)+" masked")
+	}
+	if len(act.MaskWords) > 0 {
+		what = append(what, strings.Join(act.MaskWords, ", ")+" read as the unknown word by the word weights")
+	}
+	return strings.Join(what, " and ")
+}

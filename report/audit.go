@@ -130,7 +130,7 @@ func actionLayout(r *audit.Result, modelPath string) *actionView {
 		av.Counterfactual = append(av.Counterfactual, kv{f[0], f[1]})
 	}
 	if a.Mask != nil && len(a.MaskWords) > 0 {
-		av.Mask += " telltale mask masks filters only: telltale audit --masked-out and the window's audit pane write the model with the word weights set too."
+		av.Mask += " telltale mask --words with the words above (and --filters with any filters above) writes it, as do telltale audit --masked-out and the window's audit pane."
 	}
 	if a.Mask != nil && len(a.MaskWords) == 0 {
 		model := cmpOr(modelPath, "MODEL")
