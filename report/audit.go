@@ -88,25 +88,29 @@ func DescribeAction(r *audit.Result) *ActionEvidence {
 		}
 	}
 	if t := a.Tried; t != nil {
-		verdict := "does not help there, so no filter mask is suggested"
-		if a.Mask != nil {
+		verdict := "does not help there, so no mask is suggested"
+		if a.Suggested() {
 			verdict = "helps there"
 		}
-		ae.Mask = fmt.Sprintf("Masking filters %s%s, chosen on the choosing half, %s: accuracy on the confirming half %s → %s "+
-			"(%s fixed, %s broken, one-sided exact McNemar p %s).", ints(t.Filters), wideWords(t.Words), verdict, accuracy(t.Before), accuracy(t.After),
+		ae.Mask = fmt.Sprintf("%s, chosen on the choosing half, %s: accuracy on the confirming half %s → %s "+
+			"(%s fixed, %s broken, one-sided exact McNemar p %s).", maskEdit(t.Filters, t.Words), verdict, accuracy(t.Before), accuracy(t.After),
 			count(t.Fixed), count(t.Broken), pvalue(t.P))
 	}
 	return ae
 }
 
-// wideWords says, after a filter mask, that the mask also reads words as
-// the unknown word by the word-weight path (audit.Ablation.Words): "" for
-// none.
-func wideWords(words []string) string {
-	if len(words) == 0 {
-		return ""
+// maskEdit names what a mask changes: its filters, and the words it reads
+// as the unknown word by the word-weight path (audit.Ablation.Words); a
+// mask may hold either or both.
+func maskEdit(filters []int, words []string) string {
+	read := quotedWords(words) + " read as the unknown word by the word weights"
+	switch {
+	case len(words) == 0:
+		return "Masking filters " + ints(filters)
+	case len(filters) == 0:
+		return "Having " + read
 	}
-	return " with " + quotedWords(words) + " read as the unknown word by the word weights"
+	return "Masking filters " + ints(filters) + " with " + read
 }
 
 // quotedWords writes words in quotes, comma-separated.
@@ -179,4 +183,14 @@ func cmpOr(s, def string) string {
 		return def
 	}
 	return s
+}
+
+// wideWords says, after a filter mask, that the mask also reads words as
+// the unknown word by the word-weight path (audit.Ablation.Words): "" for
+// none.
+func wideWords(words []string) string {
+	if len(words) == 0 {
+		return ""
+	}
+	return " with " + quotedWords(words) + " read as the unknown word by the word weights"
 }
