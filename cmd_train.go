@@ -221,7 +221,7 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 	}
 	abs, _ := filepath.Abs(o.out)
 	summary := trainSummary{Model: abs, BestEpoch: res.BestEpoch, Epochs: len(res.Epochs), Cancelled: res.Cancelled,
-		StoppedEarly: res.StoppedEarly, Diverged: res.Diverged, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Test: m.Info.Test,
+		StoppedEarly: res.StoppedEarly, Diverged: res.Diverged != nil, Divergence: res.Diverged, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Test: m.Info.Test,
 		Splits: m.Info.Splits, Seconds: time.Since(start).Seconds()}
 	summary.TestFigures, summary.Baseline = figures, baselineOf(m, cmp)
 	if o.asJSON {
@@ -257,7 +257,8 @@ type trainSummary struct {
 	Epochs            int              `json:"epochs"`
 	Cancelled         bool             `json:"cancelled"`
 	StoppedEarly      bool             `json:"stopped_early"`
-	Diverged          *cnn.Divergence  `json:"diverged,omitempty"`
+	Diverged          bool             `json:"diverged"`
+	Divergence        *cnn.Divergence  `json:"divergence,omitempty"`
 	ExamplesPerSecond float64          `json:"examples_per_second"`
 	Seconds           float64          `json:"seconds"`
 	Dev               *cnn.Metrics     `json:"dev,omitempty"`
