@@ -2,6 +2,7 @@ package main
 
 import (
 	"encoding/csv"
+	"fmt"
 	"os"
 	"path/filepath"
 	"slices"
@@ -165,5 +166,67 @@ func TestEvalSplitRefusesAnEmptyTestSplit(t *testing.T) {
 			!strings.Contains(stderr, "--test-frac") || strings.Contains(out, "accuracy") {
 			t.Errorf("%s on an empty test split: exit %d, stdout %q, stderr %q", args[0], code, out, stderr)
 		}
+	}
+}
+
+// TestEvalSplitWarnsOfAChangedDevFile: the model records the fingerprint
+// of its dev file too; the commands that find the model's splits warn
+// when it changed since training.
+func TestEvalSplitWarnsOfAChangedDevFile(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	dev := filepath.Join(dir, "dev.csv")
+	heldout := loadExamples(t, filepath.Join("testdata", "demo", "test.csv"))
+	writeExamples(t, dev, heldout.Examples[:100])
+	model := filepath.Join(dir, "m.tt")
+	m := trainSmall(t, data, model, "--dev", dev)
+	if rec := m.Info.Splits; rec.DevFingerprint != loadExamples(t, dev).Fingerprint() || rec.TestFingerprint != "" {
+		t.Fatalf("record %+v: want the dev file's fingerprint and no test fingerprint", rec)
+	}
+	var ev evalOutput
+	jsonOf(t, &ev, "eval", "--model", model, "--data", data, "--json")
+	if len(ev.Warnings) != 0 {
+		t.Errorf("the unchanged dev file gives warnings %q", ev.Warnings)
+	}
+	writeExamples(t, dev, heldout.Examples[100:150])
+	ev = evalOutput{}
+	stderr := jsonOf(t, &ev, "eval", "--model", model, "--data", data, "--json")
+	if len(ev.Warnings) != 1 || !strings.Contains(ev.Warnings[0], dev+", the dev file the model was trained with, has changed since training") ||
+		!strings.Contains(stderr, "warning: ") {
+		t.Errorf("eval after the dev file changed: warnings %q, stderr %q", ev.Warnings, stderr)
+	}
+}
+
+// TestReportShowsTheDevSplit: the report's Data section shows the dev
+// split beside the training and test splits, with the sizes train
+// recorded, and counts dev leaks with test leaks, as telltale data does.
+func TestReportShowsTheDevSplit(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	model := filepath.Join(dir, "m.tt")
+	m := trainSmall(t, data, model)
+	out := filepath.Join(dir, "r.html")
+	if code, _, stderr := tt(t, "report", "--model", model, "--data", data, "--out", out, "--no-audit", "--quiet"); code != 0 {
+		t.Fatalf("report: exit %d: %s", code, stderr)
+	}
+	b, err := os.ReadFile(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	page := string(b)
+	rec := m.Info.Splits
+	for _, sp := range []struct {
+		name string
+		n    int
+	}{{"train", rec.Train}, {"dev", rec.Dev}, {"test", rec.Test}} {
+		row := fmt.Sprintf(`<tr><td>%s<div class="small">%s</div></td><td class="num">%d</td>`, sp.name, data, sp.n)
+		if !strings.Contains(page, row) {
+			t.Errorf("the Data section lacks the row %q", row)
+		}
+	}
+	var sum corpus.Summary
+	jsonOf(t, &sum, "data", "--data", data, "--json")
+	if leaks := fmt.Sprintf(`<tr><th>Dev or test texts also in training (leaks)</th><td class="num">%d</td></tr>`, sum.Leaks); !strings.Contains(page, leaks) {
+		t.Errorf("the Data section lacks %q (telltale data's count)", leaks)
 	}
 }

@@ -116,7 +116,7 @@ func absPath(path string) string {
 type evalSet struct {
 	train *corpus.Dataset // the training split of --data (all of it when the model's split is not found); nil without --data
 	test  *corpus.Dataset // the texts to evaluate on
-	dev   *corpus.Dataset // the dev share of --data when it is the model's data (empty when the model had a dev file); else nil
+	dev   *corpus.Dataset // the model's dev split (its share of --data, or its dev file) when --data is the model's data; else nil
 	name  string          // "test", or "all" when that is all of --data
 	note  string          // where the texts come from, for the user
 	// warnings say why the figures may not be held-out figures, or not the
@@ -153,6 +153,7 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	same := all != nil && rec != nil && rec.Examples == len(all.Examples) && rec.Fingerprint == all.Fingerprint()
 	if same {
 		es.train, es.dev, es.test = all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
+		es.readDevFile(rec, r)
 	}
 	switch {
 	case test != "":
@@ -200,6 +201,24 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	return es, nil
 }
 
+// readDevFile makes the dev file the model was trained with (rec.DevFile)
+// the dev split, warning when it changed since training; when it cannot be
+// read, the dev split stays empty, with a warning (no evaluation needs it).
+func (es *evalSet) readDevFile(rec *cnn.SplitRecord, r *readOptions) {
+	if rec.DevFile == "" {
+		return
+	}
+	dev, err := r.read(rec.DevFile, false, io.Discard, true)
+	if err != nil {
+		es.warnings = append(es.warnings, fmt.Sprintf("the dev file the model was trained with cannot be read (%v): its dev split is left out", err))
+		return
+	}
+	es.dev = dev
+	if w := changedSince("dev", rec.DevFile, rec.DevFingerprint, dev); w != "" {
+		es.warnings = append(es.warnings, w)
+	}
+}
+
 // warnTraining adds a warning when the test file at path is the data
 // model's split record rec says it was trained on (the same examples), or,
 // when the training split is known (same), holds some of its texts.
@@ -244,8 +263,12 @@ func changedSince(which, path, want string, ds *corpus.Dataset) string {
 	if want == "" || ds.Fingerprint() == want {
 		return ""
 	}
-	return fmt.Sprintf("%s, the %s file the model was trained with, has changed since training (its texts or labels are not those train read): "+
-		"its figures are not the ones train reported; give the original file with --%s, or retrain", path, which, which)
+	fix := "its figures are not the ones train reported; give the original file with --test, or retrain"
+	if which == "dev" {
+		fix = "it is not the dev split train chose the epoch on; put the original file back, or retrain"
+	}
+	return fmt.Sprintf("%s, the %s file the model was trained with, has changed since training (its texts or labels are not those train read): %s",
+		path, which, fix)
 }
 
 // checkNotEmpty refuses an evaluation on no texts, saying where they were
