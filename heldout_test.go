@@ -199,7 +199,8 @@ func TestEvalSplitWarnsOfAChangedDevFile(t *testing.T) {
 
 // TestReportShowsTheDevSplit: the report's Data section shows the dev
 // split beside the training and test splits, with the sizes train
-// recorded, and counts dev leaks with test leaks, as telltale data does.
+// recorded, and counts dev leaks with test leaks, as telltale data does;
+// its Evaluation section says where the texts come from once.
 func TestReportShowsTheDevSplit(t *testing.T) {
 	dir := t.TempDir()
 	data := demoPart(t, dir, 400)
@@ -223,6 +224,13 @@ func TestReportShowsTheDevSplit(t *testing.T) {
 		if !strings.Contains(page, row) {
 			t.Errorf("the Data section lacks the row %q", row)
 		}
+	}
+	// The evaluation's lead gives the count once; where the texts come
+	// from is a sentence of its own.
+	lead := fmt.Sprintf("On the test split (%d texts): accuracy", rec.Test)
+	from := "The texts: evaluating on the test split that train held out of " + data
+	if !strings.Contains(page, lead) || !strings.Contains(page, from) || strings.Contains(page, "texts, evaluating on") {
+		t.Errorf("the Evaluation section lacks %q or %q, or nests the note in the lead", lead, from)
 	}
 	var sum corpus.Summary
 	jsonOf(t, &sum, "data", "--data", data, "--json")

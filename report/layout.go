@@ -334,10 +334,10 @@ func metrics(in Input) (*metricsView, error) {
 	if split == "" {
 		split = "test"
 	}
-	note := in.HeldOutNote
-	if note == "" {
-		note = "none of them used for training"
-	}
+	// The note is a sentence of its own, as it may give the count too
+	// ("evaluating on the test file … (800 texts)"); it may start with a
+	// file name, so it is led in rather than capitalised.
+	note := "The texts: " + strings.TrimSuffix(cmp.Or(in.HeldOutNote, "none of them used for training"), ".") + "."
 	if b := in.Baseline; b != nil && (b.CNN.N != mt.N || len(b.Baseline.Labels) != k || b.CNN.Accuracy != mt.Accuracy) {
 		return nil, fmt.Errorf("report: the baseline comparison is of %d texts (CNN accuracy %g), the metrics of %d (accuracy %g): give both of the same test split",
 			b.CNN.N, b.CNN.Accuracy, mt.N, mt.Accuracy)
