@@ -131,7 +131,7 @@ func TestEvalSplitWarnsOfTrainingTexts(t *testing.T) {
 	if n := inTraining(&corpus.Dataset{Examples: reversed}, train); n < len(train.Examples) {
 		t.Fatalf("%d texts of the file counted as training texts, fewer than the %d of the training split", n, len(train.Examples))
 	}
-	if len(ev.Warnings) != 1 || !strings.Contains(ev.Warnings[0], "also texts of the model's training split") ||
+	if len(ev.Warnings) != 1 || !strings.Contains(ev.Warnings[0], "are texts of the model's training split") ||
 		!strings.Contains(stderr, mayHoldTraining) {
 		t.Errorf("eval --test on reordered training data: warnings %q, stderr %q", ev.Warnings, stderr)
 	}

@@ -227,16 +227,20 @@ func (es *evalSet) warnTraining(rec *cnn.SplitRecord, path string, same bool) {
 		return
 	}
 	if rec.Examples == len(es.test.Examples) && rec.Fingerprint == es.test.Fingerprint() {
-		es.warnings = append(es.warnings, fmt.Sprintf("%s is the data the model was trained on (%s): its figures %s, not held-out texts",
-			path, rec.Data, mayHoldTraining))
+		as := ""
+		if absPath(path) != rec.DataAbs {
+			as = fmt.Sprintf(" (as %s)", rec.Data)
+		}
+		es.warnings = append(es.warnings, fmt.Sprintf("%s is the data the model was trained on%s: it %s, so its figures are not held-out figures",
+			path, as, mayHoldTraining))
 		return
 	}
 	if !same {
 		return
 	}
 	if n := inTraining(es.test, es.train); n > 0 {
-		es.warnings = append(es.warnings, fmt.Sprintf("%d of the %s of %s are also texts of the model's training split: its figures %s",
-			n, texts(len(es.test.Examples)), path, mayHoldTraining))
+		es.warnings = append(es.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the model's training split, so its figures are not all held-out figures",
+			path, mayHoldTraining, n, texts(len(es.test.Examples))))
 	}
 }
 
