@@ -38,7 +38,7 @@ func auditLayout(r *audit.Result, priors []float64, modelPath string) *auditView
 		"halved at random into %s that choose the cues and %s that confirm them: every figure below comes from the confirming half unless it says otherwise.",
 		plural(r.TrainTexts, "text"), plural(r.HeldoutTexts, "text"), count(r.SelectionTexts), count(r.ConfirmationTexts))}
 	for _, para := range strings.Split(r.Story(), "\n\n") {
-		av.Story = append(av.Story, strings.TrimRight(para, "\n"))
+		av.Story = append(av.Story, reflow(para))
 	}
 	av.Action = actionLayout(r, modelPath)
 	for i := range r.Ranked {
@@ -49,6 +49,31 @@ func auditLayout(r *audit.Result, priors []float64, modelPath string) *auditView
 	}
 	av.Method = AuditMethod(r)
 	return av
+}
+
+// reflow undoes the line breaks a paragraph of the audit's story has for
+// the terminal, so that the page wraps it to its own width: a line
+// indented by none or by more than four spaces continues the one before;
+// an item (indented by two: "  1. …") starts a line, and a command or
+// pattern (indented by four) stands on a line of its own, as does what
+// follows it. The lines kept are trimmed and joined by "\n".
+func reflow(para string) string {
+	var out []string
+	join := false
+	for _, line := range strings.Split(para, "\n") {
+		text := strings.TrimSpace(line)
+		if text == "" {
+			continue
+		}
+		indent := len(line) - len(strings.TrimLeft(line, " "))
+		if join && len(out) > 0 && (indent == 0 || indent > 4) {
+			out[len(out)-1] += " " + text
+		} else {
+			out = append(out, text)
+		}
+		join = indent != 4
+	}
+	return strings.Join(out, "\n")
 }
 
 // ActionEvidence is the action of a cue audit in plain words, every figure
