@@ -70,6 +70,11 @@ func LoadCueMasker(path string) (*CueMasker, error) {
 // name is used in messages.
 func ParseCueMasker(name string, data []byte) (*CueMasker, error) {
 	cm := &CueMasker{}
+	// A byte order mark would otherwise become part of the first pattern.
+	data = bytes.TrimPrefix(data, []byte("\xef\xbb\xbf"))
+	if bytes.HasPrefix(data, []byte("\xff\xfe")) || bytes.HasPrefix(data, []byte("\xfe\xff")) {
+		return nil, fmt.Errorf("corpus: %s line 1: the file is UTF-16: save it as UTF-8: %w", name, ErrCuePattern)
+	}
 	sc := bufio.NewScanner(bytes.NewReader(data))
 	sc.Buffer(make([]byte, 64<<10), 1<<20)
 	line := 0

@@ -58,6 +58,10 @@ func ReadVectors(path string, keep func(word string) bool) (*Vectors, error) {
 		r = gz
 	}
 	br := bufio.NewReaderSize(r, maxVectorLine+1)
+	// A byte order mark would otherwise become part of the first word.
+	if err := skipBOM(br, path); err != nil {
+		return nil, err
+	}
 	head, err := readVectorHead(path, br)
 	if err != nil {
 		return nil, err
