@@ -107,7 +107,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 	}
 	st, err := os.Stat(path)
 	if err != nil {
-		return nil, fmt.Errorf("corpus: %s: cannot open: %v: check the path: %w", path, err, ErrEmpty)
+		return nil, kindError(ErrEmpty, "corpus: %s: cannot open: %v: check the path", path, err)
 	}
 	format := opt.Format
 	if format == "" {
@@ -136,7 +136,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 		var f *os.File
 		f, err = os.Open(path)
 		if err != nil {
-			return nil, fmt.Errorf("corpus: %s: cannot open: %v: %w", path, err, ErrEmpty)
+			return nil, kindError(ErrEmpty, "corpus: %s: cannot open: %v", path, err)
 		}
 		defer f.Close()
 		if format == "jsonl" {
@@ -461,7 +461,7 @@ func (d *delimited) wrap(err error, line int) error {
 		}
 		return errAt(path, pe.StartLine, ErrFormat, "%v", pe.Err)
 	}
-	return fmt.Errorf("corpus: %s line %d: read error: %v: %w", path, line, err, ErrFormat)
+	return kindError(ErrFormat, "corpus: %s line %d: read error: %v", path, line, err)
 }
 
 // header reads the header row, the first record, and returns its column
@@ -594,7 +594,7 @@ func (lr *jsonlReader) next() ([]byte, error) {
 	case err == errRecordLimit:
 		return nil, errAt(lr.path, lr.line, ErrTooLong, "line longer than %d bytes: raise --max-text-bytes (limit is %d × it)", lr.limit, recordLimitFactor)
 	default:
-		return nil, fmt.Errorf("corpus: %s line %d: read error: %v: %w", lr.path, lr.line, err, ErrFormat)
+		return nil, kindError(ErrFormat, "corpus: %s line %d: read error: %v", lr.path, lr.line, err)
 	}
 }
 
@@ -884,7 +884,7 @@ func jsonField(obj map[string]json.RawMessage, key string, text bool) (string, e
 func readDir(root string, opt Options, ws *warnings, fn func(Example) error) error {
 	entries, err := os.ReadDir(root)
 	if err != nil {
-		return fmt.Errorf("corpus: %s: cannot read folder: %v: %w", root, err, ErrEmpty)
+		return kindError(ErrEmpty, "corpus: %s: cannot read folder: %v", root, err)
 	}
 	ignored := 0
 	for _, de := range entries {
@@ -927,7 +927,7 @@ func readLabelDir(root, name, label string, opt Options, ws *warnings, fn func(E
 	sub := filepath.Join(root, name)
 	files, err := os.ReadDir(sub)
 	if err != nil {
-		return fmt.Errorf("corpus: %s: cannot read folder: %v: %w", sub, err, ErrEmpty)
+		return kindError(ErrEmpty, "corpus: %s: cannot read folder: %v", sub, err)
 	}
 	skipped, nested, kept := 0, 0, 0
 	for _, fe := range files {
@@ -968,7 +968,7 @@ func readExampleFile(root, rel, label string, opt Options, ws *warnings, fn func
 	full := filepath.Join(root, rel)
 	text, long, err := readFileLimited(full, opt.MaxTextBytes)
 	if err != nil {
-		return false, fmt.Errorf("corpus: %s: cannot read: %v: %w", full, err, ErrEmpty)
+		return false, kindError(ErrEmpty, "corpus: %s: cannot read: %v", full, err)
 	}
 	if long {
 		ws.add(full, 0, "text longer than %d bytes truncated (raise --max-text-bytes to keep more)", opt.MaxTextBytes)
