@@ -95,7 +95,7 @@ func readColumns(r io.Reader, path, format string, opt Options) ([]string, error
 			return keys, nil
 		}
 	case "":
-		return nil, errAt(path, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or pass the format (csv, tsv, jsonl, dir)")
+		return nil, errAt(path, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or give the format (--format csv, tsv, jsonl or dir)")
 	}
 	return nil, errAt(path, 0, ErrFormat, "unknown format %q: use csv, tsv, jsonl or dir", format)
 }
@@ -133,7 +133,7 @@ func LoadBytes(name string, data []byte, opt Options) (*Dataset, []Warning, erro
 	case "dir":
 		return nil, nil, errAt(name, 0, ErrFormat, "a folder cannot be read from memory: use Load with the folder's path")
 	case "":
-		return nil, nil, errAt(name, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or pass the format (csv, tsv, jsonl)")
+		return nil, nil, errAt(name, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or give the format (--format csv, tsv or jsonl)")
 	default:
 		return nil, nil, errAt(name, 0, ErrFormat, "unknown format %q: use csv, tsv or jsonl", format)
 	}

@@ -145,7 +145,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 			err = readDelimited(f, path, format, opt, ws, count)
 		}
 	case "":
-		return nil, errAt(path, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or pass the format (csv, tsv, jsonl, dir)")
+		return nil, errAt(path, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or give the format (--format csv, tsv, jsonl or dir)")
 	default:
 		return nil, errAt(path, 0, ErrFormat, "unknown format %q: use csv, tsv, jsonl or dir", format)
 	}
@@ -491,7 +491,7 @@ func (d *delimited) header(format string, ws *warnings) ([]string, error) {
 			if strings.Contains(h, alt.sep) && (format != "csv" || alt.sep != ",") && (format != "tsv" || alt.sep != "\t") {
 				fix := "convert it to comma- or tab-separated"
 				if alt.fix != "" {
-					fix = "name it ." + alt.fix + " or pass the format " + alt.fix
+					fix = "name it ." + alt.fix + " or read it as " + alt.fix + " (--format " + alt.fix + ")"
 				}
 				return nil, errAt(path, 1, ErrFormat, "header has one column %s containing %ss: the file looks %s-separated, not %s; %s", quote(h), alt.name, alt.name, format, fix)
 			}
