@@ -262,6 +262,24 @@ func pickColumns(names []string, opt Options, path string, line int, header bool
 	return ti, li, nil
 }
 
+// columnNote says which text and label columns (what: "column" or
+// "field") were taken when either was found by a name other than the
+// default one (text, label) rather than named by an option, so that a
+// wrong guess is seen; "" when none was. label is "" for no label column.
+func columnNote(opt Options, text, label, what string) string {
+	var taken, opts []string
+	if opt.TextCol == "" && !strings.EqualFold(strings.TrimSpace(text), "text") {
+		taken, opts = append(taken, fmt.Sprintf("the text %s %s", what, quote(text))), append(opts, "--text-col")
+	}
+	if opt.LabelCol == "" && label != "" && !strings.EqualFold(strings.TrimSpace(label), "label") {
+		taken, opts = append(taken, fmt.Sprintf("the label %s %s", what, quote(label))), append(opts, "--label-col")
+	}
+	if len(taken) == 0 {
+		return ""
+	}
+	return fmt.Sprintf("took %s, chosen by name: give %s to choose another", strings.Join(taken, " and "), strings.Join(opts, " or "))
+}
+
 // columnsHint names the columns found and the fixes for an unrecognised
 // text or label column (what). A header row whose names are not column
 // names is most often a missing header: the first record was taken for it.
@@ -383,6 +401,13 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 	ti, li, err := pickColumns(names, opt, path, 1, true)
 	if err != nil {
 		return err
+	}
+	label := ""
+	if li >= 0 {
+		label = names[li]
+	}
+	if note := columnNote(opt, names[ti], label, "column"); note != "" {
+		ws.add(path, 1, "%s", note)
 	}
 	cr := d.cr
 	cr.FieldsPerRecord = len(names)
@@ -559,6 +584,9 @@ func readJSONL(r io.Reader, path string, opt Options, ws *warnings, fn func(Exam
 		text, label, ok, err := parseJSONLine(b, path, lr.line, opt, &keys)
 		if err != nil {
 			return err
+		}
+		if note := columnNote(opt, keys.text, keys.label, "field"); keys.text != "" && note != "" {
+			ws.add(path, lr.line, "%s", note)
 		}
 		if ok {
 			if err := emitJSONL(text, label, path, lr.line, opt, ws, fn); err != nil {
