@@ -285,9 +285,11 @@ func TestMisuseExitsTwo(t *testing.T) {
 			t.Errorf("%q: exit %d, stderr %q; want exit 2 and %q", c.args, code, stderr, c.want)
 		}
 	}
-	// Blank lines of standard input get no label.
+	// Blank lines of standard input get no label, but an empty output line
+	// each, so that outputs pair with input lines.
 	code, out, _ := runCmd(t, "refund please\n\n  \nlost my bag\n", "predict", "--model", model)
-	if code != 0 || len(strings.Split(strings.TrimSpace(out), "\n")) != 2 {
+	lines := strings.Split(strings.TrimSuffix(out, "\n"), "\n")
+	if code != 0 || len(lines) != 4 || lines[1] != "" || lines[2] != "" || !strings.HasSuffix(lines[3], "\tlost my bag") {
 		t.Errorf("predict over 2 texts and 2 blank lines: exit %d, output %q", code, out)
 	}
 }
