@@ -17,9 +17,9 @@ import (
 const marksOption = "the marks file (--marks)"
 
 // guardFiles checks, before any work, that every input given can be read
-// (checkInputs) and a command's outputs against its inputs (outguard.Check),
-// with the marks file beside every input model counted as
-// an input: a person's verdicts on cues are data too. An output named
+// (checkInputs), then a command's outputs against its inputs
+// (outguard.Check), with the marks file beside every input model counted
+// as an input: a person's verdicts on cues are data too. An output named
 // *.marks is refused unless it is the marks option itself. Every problem is
 // a usage error (exit 2).
 func guardFiles(outputs, inputs []outguard.File) error {
