@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"os"
@@ -145,20 +144,9 @@ func (o *importOptions) check(*flag.FlagSet, *runEnv) error {
 	return requireInputs(inputs)
 }
 
-// requireInputs fails, naming the option, when a given input file is
-// missing or unreadable, so that nothing starts with an input that is not
-// there.
-func requireInputs(inputs []outguard.File) error {
-	for _, in := range inputs {
-		if in.Path == "" {
-			continue
-		}
-		if _, err := os.Stat(in.Path); err != nil {
-			return fmt.Errorf("%s %s: %w", in.Name, in.Path, errors.Unwrap(err))
-		}
-	}
-	return nil
-}
+// requireInputs fails (exit 2), naming the option, when a given input
+// file cannot be read, so that nothing starts without it (checkInputs).
+func requireInputs(inputs []outguard.File) error { return checkInputs(inputs) }
 
 func (o *importOptions) files() (outputs, inputs []outguard.File) {
 	return []outguard.File{{Name: "--out", Path: o.Out}},
