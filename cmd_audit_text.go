@@ -24,13 +24,16 @@ type auditView struct {
 	command string    // this audit's command line, to extend with one option
 }
 
-func newAuditView(o *auditOptions, es *evalSet, priors []float64, out *auditJSON) *auditView {
+func newAuditView(o *auditOptions, src auditSource, priors []float64, out *auditJSON) *auditView {
+	es := src.es
 	v := &auditView{auditJSON: out, o: o, priors: priors}
 	switch {
 	case es.name == "all":
 		v.heldout = "texts of all of " + o.data + " (they may include texts the model was trained on)"
 	case o.test != "":
 		v.heldout = "texts of the test file " + o.test
+	case src.heldoutFile() != "":
+		v.heldout = "texts of the test file the model was trained with, " + src.heldoutFile()
 	default:
 		v.heldout = "texts of the test split train held out of " + o.data
 	}
@@ -217,6 +220,19 @@ type auditSource struct {
 // sameData reports whether --data is the data the model was trained on (its
 // split record matches), so that its splits can be made again.
 func (s auditSource) sameData() bool { return s.es.dev != nil && s.m.Info.Splits != nil }
+
+// heldoutFile is the file the held-out texts were read from: --test, or
+// the test file the model was trained with when --data is its data; ""
+// when they are a share of --data.
+func (s auditSource) heldoutFile() string {
+	switch {
+	case s.test != "":
+		return s.test
+	case s.sameData() && s.es.name == "test":
+		return s.m.Info.Splits.TestFile
+	}
+	return ""
+}
 
 // heldoutShare reports whether the held-out texts are the test split held
 // out of --data (not a file of their own).

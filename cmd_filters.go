@@ -226,6 +226,13 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 		},
 	})
 	bar.done()
+	if err != nil && ctx.Err() != nil {
+		kept := "nothing was printed"
+		if o.export != "" {
+			kept += " and nothing written to " + o.export
+		}
+		return interrupted("the filters' profiles were stopped before the texts were all read: " + kept)
+	}
 	if err != nil {
 		return err
 	}

@@ -104,6 +104,9 @@ func runReport(ctx context.Context, env *runEnv, o *reportOptions) error {
 			HeldoutShare: src.heldoutShare(), RetrainCommands: src.retrainCommands}},
 		func(stage string, done, total int) { bar.show(done, total, auditStage(stage), false) })
 	bar.done()
+	if err != nil && ctx.Err() != nil {
+		return interrupted("the report was stopped before its figures were all measured: nothing was written to " + o.out)
+	}
 	if err != nil {
 		return err
 	}

@@ -385,7 +385,7 @@ func (r *Result) WriteText(w io.Writer) error {
 	p("  words are grown into the longest phrase they keep in 80%% of their occurrences (or, failing that, into the form\n")
 	p("  they are written in, with no space, in most of them), brackets into the bracketed groups they open or close;\n")
 	p("  a cue passes when its p ≤ %s.\n", pval(r.Cutoff))
-	p("  Reliance: each text edited %s; intervals are 95%% bootstrap intervals over texts; the sign test is one-sided.\n",
+	p("  Reliance: each text edited %s; intervals are 95%% bootstrap intervals over texts (exact Clopper–Pearson bounds where every text gives the same value); the sign test is one-sided.\n",
 		"several times (the cue replaced by neutral words, or the same words put elsewhere)")
 	p("  %s.\n  %s.\n", r.ArtifactFormula, r.ScoreFormula)
 	return bw.Flush()
@@ -406,8 +406,8 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	} else if cr != nil {
 		p("   reliance: replacing it changes %s of %d test texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
 			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), interval(cr.NetFlipRate), pval(cr.FlipP))
-		p("     p(%s) drops %.3f (%.3f–%.3f), p(prediction) %.3f (%.3f–%.3f) (sign test p = %s)\n", c.Label,
-			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, pval(cr.P))
+		p("     p(%s) drops %.3f (%.3f–%.3f) on average, p(prediction) %.3f (%.3f–%.3f); p(%s) falls in %d texts, rises in %d (sign test p = %s)\n", c.Label,
+			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, c.Label, cr.Lower, cr.Higher, pval(cr.P))
 		for _, ex := range cr.Examples {
 			p("     %s → %s (gold %s): %s\n", ex.Pred, ex.After, ex.Gold, ex.Snippet)
 		}
