@@ -18,7 +18,8 @@ import (
 // records its fingerprint; the window, opening the model on that data and
 // that test file, evaluates it on the file and, when the file has changed
 // since training, gives the command line's warning (heldout.Changed), in
-// the evaluation and the status bar; an unchanged file gives none. Fact of
+// the evaluation and the model's caption above the views; an unchanged
+// file gives none. Fact of
 // the trade, no outside source: figures on another file are not the ones
 // train reported.
 func TestOpenModelWarnsOfAChangedTestFile(t *testing.T) {
@@ -68,8 +69,8 @@ func TestOpenModelWarnsOfAChangedTestFile(t *testing.T) {
 	}
 
 	st := open(model)
-	if ws := itemGet(st.model).Eval.Warnings; len(ws) != 0 || strings.Contains(st.statusText(), "Warning") {
-		t.Errorf("the unchanged test file gives warnings %q, status %q", ws, st.statusText())
+	if ms := itemGet(st.model); len(ms.Eval.Warnings) != 0 || strings.Contains(ms.caption(), "Warning") {
+		t.Errorf("the unchanged test file gives warnings %q, caption %q", ms.Eval.Warnings, ms.caption())
 	}
 
 	// The test file overwritten with half its texts.
@@ -93,9 +94,10 @@ func TestOpenModelWarnsOfAChangedTestFile(t *testing.T) {
 
 	st = open(model)
 	want := testFile + ", the test file the model was trained with, has changed since training"
-	ev := itemGet(st.model).Eval
+	ms := itemGet(st.model)
+	ev := ms.Eval
 	if ev.Metrics.N != len(held.Examples)/2 || len(ev.Warnings) != 1 || !strings.HasPrefix(ev.Warnings[0], want) ||
-		!strings.Contains(st.statusText(), "Warning: "+want) {
-		t.Errorf("after the test file changed: %d texts evaluated, warnings %q, status %q", ev.Metrics.N, ev.Warnings, st.statusText())
+		!strings.Contains(ms.caption(), "Warning: "+want) {
+		t.Errorf("after the test file changed: %d texts evaluated, warnings %q, caption %q", ev.Metrics.N, ev.Warnings, ms.caption())
 	}
 }

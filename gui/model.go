@@ -99,7 +99,7 @@ func (ms *modelState) caption() string {
 	if m := ms.masked(); len(m) > 0 {
 		s += fmt.Sprintf(" A masked model: %s switched off (%s).", plural(len(m), "filter is", "filters are"), shortList(m, 12))
 	}
-	return s
+	return s + ms.warned() // kept in view: the status bar moves on
 }
 
 // encode is a split as the model sees it, encoded as the command line
