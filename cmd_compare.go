@@ -122,6 +122,7 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		} else {
 			row.setVsFirst(data.Labels, first, pred)
 		}
+		row.Warnings = es.warnings
 		rows = append(rows, row)
 	}
 	return writeComparison(env, rows, splitHeading(es.name, len(es.test.Examples)), o.asJSON)
@@ -155,6 +156,10 @@ type compareRow struct {
 	// the same texts: OnlyA counts those only the first labels right, OnlyB
 	// those only this one does (nil for the first).
 	VsFirst *cnn.McNemar `json:"mcnemar_vs_first,omitempty"`
+	// Warnings are those on the texts every model was evaluated on, as
+	// eval's (findTestSplit: why they may not be held-out texts), the same
+	// in every row; absent when there are none.
+	Warnings []string `json:"warnings,omitempty"`
 }
 
 // setVsFirst sets the share of texts whose prediction pred differs from
@@ -173,8 +178,9 @@ func (r *compareRow) setVsFirst(gold, first, pred []int) {
 	r.VsFirst = &mc
 }
 
-// compareModels evaluates models that share one encoder on data.
-func compareModels(env *runEnv, data cnn.Data, names []string, ms []*cnn.Model, asJSON bool) error {
+// compareModels evaluates models that share one encoder on data; warnings
+// are those on data's texts (evalSet.warnings), written into every row.
+func compareModels(env *runEnv, data cnn.Data, names []string, ms []*cnn.Model, warnings []string, asJSON bool) error {
 	rows := make([]compareRow, len(ms))
 	var first []int
 	for i, m := range ms {
@@ -182,7 +188,7 @@ func compareModels(env *runEnv, data cnn.Data, names []string, ms []*cnn.Model, 
 		if err != nil {
 			return err
 		}
-		rows[i] = compareRow{Model: names[i], Metrics: met, Figures: cnn.FiguresOf(met, nil), Intervals: cnn.IntervalsOf(met)}
+		rows[i] = compareRow{Model: names[i], Metrics: met, Figures: cnn.FiguresOf(met, nil), Intervals: cnn.IntervalsOf(met), Warnings: warnings}
 		if i == 0 {
 			first = pred
 			continue

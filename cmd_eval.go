@@ -123,7 +123,7 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 	}
 	figures := cnn.FiguresOf(met, cmp)
 	if o.export != "" {
-		if err := report.WriteTableFile(o.export, report.PredictionTable(m.Labels, es.test.Texts(), data.Labels, probs)); err != nil {
+		if err := report.WriteTableFile(o.export, predictionTable(m.Labels, labeledTexts(es.test), probs)); err != nil {
 			return err
 		}
 	}
@@ -263,4 +263,15 @@ func checkExport(path string) error {
 		return usagef("--export %s: the file must end in .csv or .jsonl", path)
 	}
 	return nil
+}
+
+// labeledTexts are ds's examples as predict's export takes them (its
+// predictionTable): each with the line of its file where it starts (or its
+// file, for a folder of texts) and its label as the gold label.
+func labeledTexts(ds *corpus.Dataset) []text {
+	texts := make([]text, len(ds.Examples))
+	for i, e := range ds.Examples {
+		texts[i] = text{Text: e.Text, Line: e.Line, File: e.File, Gold: e.Label}
+	}
+	return texts
 }

@@ -1,7 +1,9 @@
 package main
 
 import (
+	"bytes"
 	"context"
+	"encoding/json"
 	"flag"
 	"fmt"
 	"io"
@@ -102,10 +104,41 @@ func runFaithfulness(ctx context.Context, env *runEnv, o *faithOptions) error {
 		return err
 	}
 	if o.asJSON {
-		return writeJSON(env.Stdout, r)
+		return writeJSON(env.Stdout, faithOutput{r, es.warnings})
 	}
 	writeFaith(env.Stdout, r)
 	return nil
+}
+
+// faithOutput is faithfulness --json: the report's object with, when there
+// are any, the warnings on its texts (evalSet.warnings) as "warnings", as
+// eval writes them.
+type faithOutput struct {
+	report   *explain.FaithReport
+	warnings []string
+}
+
+// MarshalJSON writes the report's own object (explain.FaithReport's
+// MarshalJSON) with "warnings" added as its last key.
+func (f faithOutput) MarshalJSON() ([]byte, error) {
+	b, err := json.Marshal(f.report)
+	if err != nil || len(f.warnings) == 0 {
+		return b, err
+	}
+	w, err := json.Marshal(f.warnings)
+	if err != nil {
+		return nil, err
+	}
+	b = bytes.TrimSpace(b)
+	if len(b) < 2 || b[len(b)-1] != '}' {
+		return nil, fmt.Errorf("faithfulness report: not a JSON object")
+	}
+	sep := `,"warnings":`
+	if len(bytes.TrimSpace(b[1:len(b)-1])) == 0 {
+		sep = sep[1:]
+	}
+	out := append(b[:len(b)-1:len(b)-1], sep...)
+	return append(append(out, w...), '}'), nil
 }
 
 func writeFaith(w io.Writer, r *explain.FaithReport) {

@@ -53,7 +53,12 @@ are found by shape and file order; --embedding-keys, --conv-keys and
 naming its key and shape. A state_dict does not record the activation, the
 pooling or the padding: with --check-texts and --check-logits (your model's
 logits on those texts) the import is checked against your model and stops,
-writing nothing, unless they agree to 1e-4.
+writing nothing, unless they agree to 1e-4. The check runs the imported
+model on vocabulary ids only: a word outside the vocabulary is read as the
+unknown word, whose character part is zero (the other commands give such a
+word the character part of its own spelling). For a model with a character
+layer, give check texts whose words are all in the vocabulary, or logits
+your model computed on the unknown word's id in their place.
 
 The padding and unknown tokens are found by name or given with --pad-id and
 --unk-id; the padding row must be zero unless --zero-pad sets it to zero

@@ -117,13 +117,21 @@ func runMask(ctx context.Context, env *runEnv, o *maskOptions) error {
 	if err != nil {
 		return usageError{err.Error()}
 	}
+	// The held-out texts are found (and an empty split refused) before the
+	// masked model is written, so a refusal leaves no file behind.
+	var es *evalSet
+	if o.data != "" || o.test != "" {
+		if es, err = findTestSplit(m, o.data, o.test, &o.read, env.Stderr, o.quiet); err != nil {
+			return err
+		}
+	}
 	if err := masked.Save(o.out); err != nil {
 		return err
 	}
 	if !o.quiet {
 		fmt.Fprintf(env.Stderr, "%s; model written to %s (%s unchanged)\n", maskedWhat(o.indexes, o.names), o.out, o.model)
 	}
-	if o.data == "" && o.test == "" {
+	if es == nil {
 		if o.asJSON {
 			out := map[string]any{"model": o.out, "masked": o.indexes}
 			if len(o.names) > 0 {
@@ -133,16 +141,12 @@ func runMask(ctx context.Context, env *runEnv, o *maskOptions) error {
 		}
 		return nil
 	}
-	es, err := findTestSplit(m, o.data, o.test, &o.read, env.Stderr, o.quiet)
-	if err != nil {
-		return err
-	}
 	say(env.Stderr, o.quiet, "%s", es.note)
 	data, err := encodeFor(m, enc, es.test, 0)
 	if err != nil {
 		return err
 	}
-	return compareModels(env, data, []string{o.model, o.out}, []*cnn.Model{m, masked}, o.asJSON)
+	return compareModels(env, data, []string{o.model, o.out}, []*cnn.Model{m, masked}, es.warnings, o.asJSON)
 }
 
 // maskedWhat says what mask did: "masked filters [3 7]", "words 'a', 'b'

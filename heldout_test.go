@@ -2,6 +2,7 @@ package main
 
 import (
 	"encoding/csv"
+	"encoding/json"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -236,5 +237,83 @@ func TestReportShowsTheDevSplit(t *testing.T) {
 	jsonOf(t, &sum, "data", "--data", data, "--json")
 	if leaks := fmt.Sprintf(`<tr><th>Dev or test texts also in training (leaks)</th><td class="num">%d</td></tr>`, sum.Leaks); !strings.Contains(page, leaks) {
 		t.Errorf("the Data section lacks %q (telltale data's count)", leaks)
+	}
+}
+
+// TestMaskRefusalWritesNoModel: mask finds the held-out texts before it
+// writes the masked model, so that when it refuses them (an empty test
+// split, exit 2) no model file is left at --out.
+func TestMaskRefusalWritesNoModel(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 200)
+	model := filepath.Join(dir, "m.tt")
+	trainSmall(t, data, model, "--test-frac", "0.001")
+	out := filepath.Join(dir, "masked.tt")
+	code, _, stderr := tt(t, "mask", "--model", model, "--filters", "1", "--out", out, "--data", data)
+	if code != 2 || !strings.Contains(stderr, "is empty") {
+		t.Fatalf("mask on an empty test split: exit %d, stderr %q", code, stderr)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Errorf("mask refused the texts but left %s behind (stat: %v)", out, err)
+	}
+}
+
+// TestHeldOutWarningsInJSON: the warnings eval writes into its JSON (here:
+// the model's test file changed since training) are in the JSON of
+// compare (every row), mask (every row) and faithfulness too, under the
+// key eval uses and README names; with an unchanged file there are none.
+func TestHeldOutWarningsInJSON(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	test := filepath.Join(dir, "test.csv")
+	heldout := loadExamples(t, filepath.Join("testdata", "demo", "test.csv"))
+	writeExamples(t, test, heldout.Examples[:60])
+	model := filepath.Join(dir, "m.tt")
+	trainSmall(t, data, model, "--test", test)
+	runs := [][]string{
+		{"compare", "--models", model + "," + model, "--data", data, "--json"},
+		{"mask", "--model", model, "--filters", "1", "--out", filepath.Join(dir, "masked.tt"), "--data", data, "--json"},
+		{"faithfulness", "--model", model, "--data", data, "--limit", "10", "--json"},
+	}
+	// rowsOf decodes a command's JSON into its objects: the rows of
+	// compare and mask, faithfulness's one object.
+	rowsOf := func(args []string) ([]map[string]any, string) {
+		code, out, stderr := tt(t, args...)
+		if code != 0 {
+			t.Fatalf("%q: exit %d: %s", args, code, stderr)
+		}
+		var rows []map[string]any
+		if args[0] == "faithfulness" {
+			rows = make([]map[string]any, 1)
+			if err := json.Unmarshal([]byte(out), &rows[0]); err != nil {
+				t.Fatalf("%s: %v", args[0], err)
+			}
+			checkKeysDocumented(t, args[0], []byte(out), "### The JSON of the other commands")
+		} else if err := json.Unmarshal([]byte(out), &rows); err != nil || len(rows) != 2 {
+			t.Fatalf("%s: %d rows, %v", args[0], len(rows), err)
+		}
+		if args[0] == "compare" {
+			checkKeysDocumented(t, args[0], []byte(out), "### The JSON of train, eval and compare", "probabilities")
+		}
+		return rows, stderr
+	}
+	for _, args := range runs {
+		rows, _ := rowsOf(args)
+		for _, r := range rows {
+			if w, ok := r["warnings"]; ok {
+				t.Errorf("%s on the unchanged test file: warnings %v", args[0], w)
+			}
+		}
+	}
+	writeExamples(t, test, heldout.Examples[60:100])
+	const changed = "has changed since training"
+	for _, args := range runs {
+		rows, stderr := rowsOf(args)
+		for i, r := range rows {
+			ws, _ := r["warnings"].([]any)
+			if len(ws) != 1 || !strings.Contains(fmt.Sprint(ws[0]), test+", the test file the model was trained with, "+changed) {
+				t.Errorf("%s, object %d, after the test file changed: warnings %v (stderr %q)", args[0], i, r["warnings"], stderr)
+			}
+		}
 	}
 }

@@ -8,6 +8,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/heldout"
 )
 
 // The three splits, one word each everywhere: training, dev (early
@@ -262,17 +263,14 @@ func inTraining(test, train *corpus.Dataset) int {
 // changedSince is a warning when ds, read from the model's recorded dev or
 // test file at path (which says which), is not what train read there (its
 // fingerprint is not want); "" when it is, or when the model file records
-// no fingerprint (written before they were recorded).
+// no fingerprint (written before they were recorded). The window gives the
+// same warning (heldout.Changed) with its own fix.
 func changedSince(which, path, want string, ds *corpus.Dataset) string {
-	if want == "" || ds.Fingerprint() == want {
-		return ""
-	}
 	fix := "its figures are not the ones train reported; give the original file with --test, or retrain"
 	if which == "dev" {
 		fix = "it is not the dev split train chose the epoch on; put the original file back, or retrain"
 	}
-	return fmt.Sprintf("%s, the %s file the model was trained with, has changed since training (its texts or labels are not those train read): %s",
-		path, which, fix)
+	return heldout.Changed(which, path, want, ds.Fingerprint(), fix)
 }
 
 // checkNotEmpty refuses an evaluation on no texts, saying where they were

@@ -160,7 +160,7 @@ func (st *State) runAudit(then func()) {
 		return func() {
 			if itemGet(st.model) == ms && itemGet(st.data) == cs {
 				st.audit.Set(as)
-				st.setStatus(auditDone(as.R))
+				st.setStatus(auditDone(as.R) + ms.warned())
 			}
 			if then != nil {
 				then()

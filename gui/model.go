@@ -9,6 +9,7 @@ import (
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
+	"telltale/internal/heldout"
 )
 
 // modelState is the open model and what the window knows about it.
@@ -45,6 +46,22 @@ type evaluation struct {
 	// are the accuracy and macro-F1 of both with their intervals.
 	Baseline *cnn.Comparison
 	Figures  cnn.Figures
+	// Warnings say why the texts may not be the held-out texts train
+	// reported on (heldOutWarnings), as the command line warns.
+	Warnings []string
+}
+
+// warned is the warnings on the texts ms was evaluated on, for the status
+// bar: " Warning: …" for each; "" when there are none.
+func (ms *modelState) warned() string {
+	if ms.Eval == nil {
+		return ""
+	}
+	var b strings.Builder
+	for _, w := range ms.Eval.Warnings {
+		b.WriteString(" Warning: " + w + ".")
+	}
+	return b.String()
 }
 
 // masked lists the model's masked filters, ascending.
@@ -82,7 +99,7 @@ func (ms *modelState) caption() string {
 	if m := ms.masked(); len(m) > 0 {
 		s += fmt.Sprintf(" A masked model: %s switched off (%s).", plural(len(m), "filter is", "filters are"), shortList(m, 12))
 	}
-	return s
+	return s + ms.warned() // kept in view: the status bar moves on
 }
 
 // encode is a split as the model sees it, encoded as the command line
@@ -120,6 +137,7 @@ func evaluate(ms *modelState, cs *corpusState) (*evaluation, error) {
 		Metrics: met, Gold: d.Labels, Pred: pred,
 		Probs: m.Probabilities(d.IDs, 0),
 		Texts: cs.Test.Texts(), Baseline: cmp, Figures: cnn.FiguresOf(met, cmp),
+		Warnings: heldOutWarnings(ms.Model, cs),
 	}, nil
 }
 
@@ -172,6 +190,24 @@ func planOf(m *cnn.Model, cs *corpusState) (splitPlan, bool) {
 	return p, true
 }
 
+// heldOutWarnings are the warnings the command line gives (splits.go) when
+// the window evaluates model m on the test file of cs as its own: when
+// that file, the test file m was trained with, has changed since training
+// (cnn.SplitRecord.TestFingerprint). The window reads no dev file: it
+// never uses m's recorded dev file.
+func heldOutWarnings(m *cnn.Model, cs *corpusState) []string {
+	r := m.Info.Splits
+	if _, ok := planOf(m, cs); !ok || r.TestFile == "" || r.TestFile != cs.Record.TestFile {
+		return nil
+	}
+	w := heldout.Changed("test", r.TestFile, r.TestFingerprint, cs.Record.TestFingerprint,
+		"its figures are not the ones train reported; open the original test file, or retrain")
+	if w == "" {
+		return nil
+	}
+	return []string{w}
+}
+
 // openModel loads a model file in the background and evaluates it on the
 // open corpus's test split; a model trained on the open data is evaluated
 // on the test split it records.
@@ -215,8 +251,8 @@ func (st *State) loadModel(source, path string, load func(context.Context) (*cnn
 			if path == "" {
 				saved = " Not saved yet: File › Save model writes it as a telltale model."
 			}
-			st.setStatus(fmt.Sprintf("Opened model %s: %d filters, labels %s.%s", source, ms.Model.Config.NumFilters(),
-				strings.Join(ms.Model.Labels, ", "), saved))
+			st.setStatus(fmt.Sprintf("Opened model %s: %d filters, labels %s.%s%s", source, ms.Model.Config.NumFilters(),
+				strings.Join(ms.Model.Labels, ", "), saved, ms.warned()))
 			if then != nil {
 				then()
 			}

@@ -133,34 +133,6 @@ func WriteTableFile(path string, t *Table) error {
 	return nil
 }
 
-// PredictionTable has one row per text: its index, the text, the gold label
-// (empty when unknown), the predicted label, and p_<label> for every class.
-// Gold may be nil.
-func PredictionTable(labels, texts []string, gold []int, probs [][]float32) *Table {
-	t := &Table{Columns: []string{"index", "text", "gold", "predicted"}}
-	for _, l := range labels {
-		t.Columns = append(t.Columns, "p_"+l)
-	}
-	for i, p := range probs {
-		best := 0
-		for c := range p {
-			if p[c] > p[best] {
-				best = c
-			}
-		}
-		g := ""
-		if gold != nil && gold[i] >= 0 {
-			g = labels[gold[i]]
-		}
-		row := []any{i, texts[i], g, labels[best]}
-		for _, v := range p {
-			row = append(row, float64(v))
-		}
-		t.Add(row...)
-	}
-	return t
-}
-
 // AttributionTable has one row per token of each explained text: the
 // text's index, the token's position, text and byte offsets, the predicted
 // label and the runner-up (the class with the next largest probability),

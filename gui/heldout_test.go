@@ -1,0 +1,103 @@
+package gui
+
+import (
+	"context"
+	"encoding/csv"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"fyne.io/fyne/v2/test"
+
+	"telltale/cnn"
+	"telltale/corpus"
+)
+
+// TestOpenModelWarnsOfAChangedTestFile: a model trained with a test file
+// records its fingerprint; the window, opening the model on that data and
+// that test file, evaluates it on the file and, when the file has changed
+// since training, gives the command line's warning (heldout.Changed), in
+// the evaluation and the model's caption above the views; an unchanged
+// file gives none. Fact of
+// the trade, no outside source: figures on another file are not the ones
+// train reported.
+func TestOpenModelWarnsOfAChangedTestFile(t *testing.T) {
+	dir := t.TempDir()
+	tr, te := demoBytes(t)
+	data, testFile := filepath.Join(dir, "train.csv"), filepath.Join(dir, "test.csv")
+	for path, b := range map[string][]byte{data: tr, testFile: te} {
+		if err := os.WriteFile(path, b, 0o600); err != nil {
+			t.Fatal(err)
+		}
+	}
+	// open opens a window on the data and the test file, and in it the
+	// model at path; it returns the window's state once the model is
+	// evaluated.
+	open := func(path string) *State {
+		a := test.NewTempApp(t)
+		q := &queue{}
+		_, st := newWindow(a, Options{DataPath: data, TestPath: testFile}, q.post)
+		t.Cleanup(st.cancelAll)
+		q.waitFor(t, "the data", func() bool { return itemGet(st.data) != nil })
+		if path != "" {
+			st.openModel(path, nil)
+			q.waitFor(t, "the opened model", func() bool { ms := itemGet(st.model); return ms != nil && ms.Eval != nil })
+		}
+		return st
+	}
+
+	// A small model with the record train writes for these splits.
+	cs := itemGet(open("").data)
+	r := cnn.DefaultRecipe()
+	r.Baseline = nil
+	r.Model.Dim, r.Model.Widths, r.Model.Filters = 8, []int{2, 3}, 4
+	r.Train.Epochs, r.Train.Threads, r.Train.Patience = 1, 2, -1
+	trained, err := cnn.TrainText(context.Background(), cs.Train, nil, r, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := trained.Model
+	rec := cs.Record
+	if rec.TestFile != testFile || rec.TestFingerprint == "" {
+		t.Fatalf("the window's record %+v does not name the test file %s with its fingerprint", rec, testFile)
+	}
+	m.Info.Splits = &rec
+	model := filepath.Join(dir, "m.tt")
+	if err := m.Save(model); err != nil {
+		t.Fatal(err)
+	}
+
+	st := open(model)
+	if ms := itemGet(st.model); len(ms.Eval.Warnings) != 0 || strings.Contains(ms.caption(), "Warning") {
+		t.Errorf("the unchanged test file gives warnings %q, caption %q", ms.Eval.Warnings, ms.caption())
+	}
+
+	// The test file overwritten with half its texts.
+	held, _, err := corpus.Load(testFile, corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	f, err := os.Create(testFile)
+	if err != nil {
+		t.Fatal(err)
+	}
+	w := csv.NewWriter(f)
+	w.Write([]string{"text", "label"})
+	for _, e := range held.Examples[:len(held.Examples)/2] {
+		w.Write([]string{e.Text, e.Label})
+	}
+	w.Flush()
+	if err := f.Close(); err != nil || w.Error() != nil {
+		t.Fatal(err, w.Error())
+	}
+
+	st = open(model)
+	want := testFile + ", the test file the model was trained with, has changed since training"
+	ms := itemGet(st.model)
+	ev := ms.Eval
+	if ev.Metrics.N != len(held.Examples)/2 || len(ev.Warnings) != 1 || !strings.HasPrefix(ev.Warnings[0], want) ||
+		!strings.Contains(ms.caption(), "Warning: "+want) {
+		t.Errorf("after the test file changed: %d texts evaluated, warnings %q, caption %q", ev.Metrics.N, ev.Warnings, ms.caption())
+	}
+}
