@@ -9,6 +9,7 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"reflect"
 	"slices"
 	"strings"
 
@@ -275,25 +276,56 @@ func runAudit(ctx context.Context, env *runEnv, o *auditOptions) error {
 		src: auditSource{model: o.model, data: o.data, test: o.test, read: &o.read, vectors: o.vectors, es: es, m: m}}
 	out, err := run.all(ctx, m, others, recipe)
 	run.bar.done()
+	if err != nil && ctx.Err() != nil {
+		return run.stopped(out)
+	}
 	if err != nil {
 		return err
 	}
 	if err := o.writeFiles(env, m, marks, out); err != nil {
 		return err
 	}
-	if o.asJSON {
-		err = writeJSON(env.Stdout, out)
-	} else {
-		err = writeAuditText(env.Stdout, newAuditView(o, es, run.priors, out))
-	}
-	if err != nil {
+	if err := run.print(out); err != nil {
 		return err
 	}
-	if o.maskedOut != "" && out.Action.Mask == nil {
-		return fmt.Errorf("%s was not written: masking the filters that read the cues acted on did not help on the confirming half "+
-			"(or no cue was acted on), so the audit suggests no filter mask; retrain without the cues instead (--retrain)", o.maskedOut)
+	if o.maskedOut != "" && !out.Action.Suggested() {
+		return fmt.Errorf("%s was not written: masking the filters that read the cues acted on (or their words' word weights) did not help on the confirming half "+
+			"(or no cue was acted on), so the audit suggests no mask; retrain without the cues instead (--retrain)", o.maskedOut)
 	}
 	return nil
+}
+
+// print writes the audit to standard output, as --json asks.
+func (r *auditRun) print(out *auditJSON) error {
+	if r.o.asJSON {
+		return writeJSON(r.env.Stdout, out)
+	}
+	return writeAuditText(r.env.Stdout, newAuditView(r.o, r.src, r.priors, out))
+}
+
+// stopped is the error of a run interrupted by a signal, saying what was
+// kept: when the model's own audit had finished (out not nil), it is
+// printed first, and the message names the work that was stopped. No file
+// is written either way.
+func (r *auditRun) stopped(out *auditJSON) error {
+	var unwritten []string
+	outputs, _ := r.o.files()
+	for _, f := range outputs {
+		if f.Path != "" {
+			unwritten = append(unwritten, f.Path)
+		}
+	}
+	kept := "nothing was written"
+	if len(unwritten) > 0 {
+		kept = "nothing was written (not " + strings.Join(unwritten, ", ") + ")"
+	}
+	if out == nil {
+		return interrupted("the audit was stopped before it ended: nothing was printed and " + kept)
+	}
+	if err := r.print(out); err != nil {
+		return err
+	}
+	return interrupted(fmt.Sprintf("the audit of %s is complete and printed above, but %s was stopped; %s", r.o.model, r.stage, kept))
 }
 
 // auditJSON is what --json prints: the audit of the model (its fields at
@@ -326,10 +358,12 @@ type auditRun struct {
 	bar    *progressBar
 	src    auditSource // the files, for the story's commands and the messages
 	priors []float64   // each label's share of the training split
+	stage  string      // the work after the model's own audit under way, for the message of an interrupt
 }
 
 // all audits m (and the other models), merges the audits and retrains as
-// the options ask.
+// the options ask. When a later step fails, the audit of m is returned
+// with the error (nil when m's own audit failed).
 func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, recipe *cnn.Recipe) (*auditJSON, error) {
 	res, err := r.one(ctx, m, r.marks, "")
 	if err != nil {
@@ -337,18 +371,23 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 	}
 	out := &auditJSON{Result: res, Story: res.Story(), HeldoutSplit: r.es.name, MarksFile: r.o.marksPath()}
 	results := []*audit.Result{res}
+	if r.o.seeds > 0 {
+		say(r.env.Stderr, r.o.quiet, "the audit of %s is done; training %s with its recipe (--seeds)", r.o.model, plural(r.o.seeds, "more model", "more models"))
+	}
 	for k := range r.o.seeds {
 		seed := recipe.Train.Seed + uint64(k) + 1
+		r.stage = fmt.Sprintf("training model %d of the %d of --seeds", k+1, r.o.seeds)
 		sm, err := r.train(ctx, *recipe, seed, fmt.Sprintf("model %d of %d (seed %d)", k+1, r.o.seeds, seed))
 		if err != nil {
-			return nil, err
+			return out, err
 		}
 		others = append(others, sm)
 	}
 	for k, om := range others {
+		r.stage = fmt.Sprintf("the audit of model %d of %d (for the cues' stability)", k+2, len(others)+1)
 		or, err := r.one(ctx, om, knownMarks(r.marks, om), fmt.Sprintf("model %d of %d: ", k+2, len(others)+1))
 		if err != nil {
-			return nil, err
+			return out, err
 		}
 		results = append(results, or)
 	}
@@ -360,14 +399,16 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 		out.Stability = audit.Stability(results, out.StableIn)
 	}
 	if r.o.retrain {
+		r.stage = "the retraining without the cues (--retrain)"
+		say(r.env.Stderr, r.o.quiet, "the audit of %s is done; retraining without the cues (--retrain)", r.o.model)
 		if out.Retrained, err = r.retrain(ctx, m, res, *recipe); err != nil {
-			return nil, err
+			return out, err
 		}
 		if r.o.retrainOut != "" {
 			out.RetrainedModel = r.o.retrainOut
 		}
 	}
-	if r.o.maskedOut != "" && res.Action.Mask != nil {
+	if r.o.maskedOut != "" && res.Action.Suggested() {
 		out.MaskedModel = r.o.maskedOut
 	}
 	return out, nil
@@ -381,7 +422,7 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 	}
 	held, err := audit.NewData(m, r.es.test, r.o.threads.N)
 	if err != nil {
-		return nil, fmt.Errorf("the test texts (%s): %w", cmpOr(r.o.test, r.o.data), err)
+		return nil, fmt.Errorf("the test texts (%s): %w", cmpOr(r.src.heldoutFile(), r.o.data), err)
 	}
 	if r.priors == nil {
 		r.priors = make([]float64, len(m.Labels))
@@ -389,7 +430,7 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 			r.priors[g] += 1 / float64(len(train.Gold))
 		}
 	}
-	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.o.test, r.o.data),
+	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.src.heldoutFile(), r.o.data),
 		HeldoutShare: r.src.heldoutShare(), RetrainCommands: r.src.retrainCommands, Seed: r.o.seed, Workers: r.o.threads.N}
 	return audit.Run(ctx, m, train, held, opt, func(stage string, done, total int) {
 		r.bar.show(done, total, what+"audit: "+auditStage(stage), false)
@@ -437,7 +478,15 @@ func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result,
 	if err == nil {
 		err = ctx.Err()
 	}
-	return rt, err
+	if err != nil {
+		return nil, err
+	}
+	// The new model was trained on m's training and dev splits of the same
+	// data (trainingRecipe refuses other data), so m's split record is its
+	// own: eval, report, filters and audit then find its test split again.
+	rec := *m.Info.Splits
+	rt.Model.Info.Splits = &rec
+	return rt, nil
 }
 
 // loadMarks reads the marks file (none yet is no marks, unless --marks
@@ -445,6 +494,7 @@ func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result,
 func (o *auditOptions) loadMarks(m *cnn.Model) (*audit.Marks, error) {
 	path := o.marksPath()
 	marks, err := audit.ReadMarks(path, m)
+	readErr := err
 	switch {
 	case errors.Is(err, fs.ErrNotExist) && (o.marks == "" || o.marking()):
 		marks = audit.NewMarks()
@@ -462,12 +512,33 @@ func (o *auditOptions) loadMarks(m *cnn.Model) (*audit.Marks, error) {
 			if err != nil {
 				return nil, err
 			}
+			if l.kind == "" && marks.Get(words) == "" {
+				have := markedCues(marks)
+				if errors.Is(readErr, fs.ErrNotExist) {
+					have = "it does not exist yet"
+				}
+				return nil, usagef("--unmark %q: no cue of that name is marked in %s (%s); nothing was written", clip(c), path, have)
+			}
 			if err := marks.Set(words, l.kind); err != nil {
 				return nil, err
 			}
 		}
 	}
 	return marks, nil
+}
+
+// markedCues lists the cues marked in marks, for a message.
+func markedCues(marks *audit.Marks) string {
+	var out []string
+	for _, kind := range []string{audit.MarkArtifact, audit.MarkTask} {
+		for _, ws := range marks.Cues(kind) {
+			out = append(out, fmt.Sprintf("%q (%s)", strings.Join(ws, " "), kind))
+		}
+	}
+	if len(out) == 0 {
+		return "it marks no cue"
+	}
+	return "the marked cues: " + strings.Join(out, ", ")
 }
 
 // writeMarks writes the marks file when the marks changed, and says so.
@@ -554,9 +625,72 @@ func (o *auditOptions) openOthers(m *cnn.Model) ([]*cnn.Model, error) {
 			return nil, usagef("--models %s was not trained on the splits of --model: its training texts may be test texts of the audit; "+
 				"train it with the same --data and split options (or use --seeds N)", p)
 		}
+		if d := recipeDifference(m, om); d != "" {
+			return nil, usagef("--models %s was not trained with the recipe of --model (%s): stability compares models that differ only "+
+				"in their seed; train it with the same options (or use --seeds N)", p, d)
+		}
 		out = append(out, om)
 	}
 	return out, nil
+}
+
+// recipeDifference names the first setting in which model b was made
+// differently from model a ("" when none): the network (Config), the
+// tokenizer and its vocabulary, the masked filters, and the training
+// settings the models record, all but the seed and the thread count, which
+// change only the weights.
+func recipeDifference(a, b *cnn.Model) string {
+	ta, tb := a.Tokenizer, b.Tokenizer
+	ta.SubwordPieces, tb.SubwordPieces = nil, nil // compared as the vocabulary
+	var ra, rb cnn.TrainConfig
+	switch {
+	case (a.Info.Recipe == nil) != (b.Info.Recipe == nil):
+		return fmt.Sprintf("training recipe recorded: %v for --model, %v for it", a.Info.Recipe != nil, b.Info.Recipe != nil)
+	case a.Info.Recipe != nil:
+		ra, rb = *a.Info.Recipe, *b.Info.Recipe
+		ra.Seed, rb.Seed, ra.Threads, rb.Threads = 0, 0, 0, 0
+	}
+	for _, c := range []struct {
+		what string
+		a, b any
+	}{{"", a.Config, b.Config}, {"tokenizer ", ta, tb}, {"", ra, rb}} {
+		if d := fieldDifference(c.what, reflect.ValueOf(c.a), reflect.ValueOf(c.b)); d != "" {
+			return d
+		}
+	}
+	switch {
+	case !slices.Equal(a.Vocab, b.Vocab):
+		return fmt.Sprintf("vocabulary: %d words for --model, %d for it, or other words", len(a.Vocab), len(b.Vocab))
+	case !slices.Equal(a.Masked, b.Masked):
+		return "masked filters: the two models mask different filters"
+	}
+	return ""
+}
+
+// fieldDifference names the first field of the structs a and b (of one
+// type) whose values differ, by its JSON name after prefix, with both
+// values: "epochs 8 for --model, 4 for it".
+func fieldDifference(prefix string, a, b reflect.Value) string {
+	for i := range a.NumField() {
+		fa, fb := a.Field(i), b.Field(i)
+		if reflect.DeepEqual(fa.Interface(), fb.Interface()) {
+			continue
+		}
+		f := a.Type().Field(i)
+		name, _, _ := strings.Cut(f.Tag.Get("json"), ",")
+		name = cmpOr(name, strings.ToLower(f.Name))
+		show := func(v reflect.Value) string {
+			if v.Kind() == reflect.Pointer {
+				if v.IsNil() {
+					return "none"
+				}
+				v = v.Elem()
+			}
+			return clip(fmt.Sprintf("%v", v.Interface()))
+		}
+		return fmt.Sprintf("%s%s %s for --model, %s for it", prefix, name, show(fa), show(fb))
+	}
+	return ""
 }
 
 // trainingRecipe is the recipe that trained m, for --seeds and --retrain,
@@ -610,7 +744,7 @@ func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, marks *audit.Marks,
 		}
 		say(env.Stderr, o.quiet, "the retrained model is written to %s", o.retrainOut)
 	}
-	if o.maskedOut != "" && out.Action.Mask != nil {
+	if o.maskedOut != "" && out.Action.Suggested() {
 		masked, err := out.Action.Remedy(m)
 		if err != nil {
 			return err
@@ -618,11 +752,7 @@ func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, marks *audit.Marks,
 		if err := masked.Save(o.maskedOut); err != nil {
 			return err
 		}
-		words := ""
-		if ws := out.Action.MaskWords; len(ws) > 0 {
-			words = " and " + strings.Join(ws, ", ") + " read as the unknown word by the word weights"
-		}
-		say(env.Stderr, o.quiet, "the model with filters %s masked%s is written to %s", joinInts(out.Action.Mask), words, o.maskedOut)
+		say(env.Stderr, o.quiet, "the model with %s is written to %s", maskedWhatAudit(&out.Action), o.maskedOut)
 	}
 	return nil
 }

@@ -303,7 +303,7 @@ func checkMaskedOut(t *testing.T, base []string, res *auditOut) {
 	out := filepath.Join(t.TempDir(), "masked.tt")
 	code, _, stderr := tt(t, append(base, "--masked-out", out, "--quiet")...)
 	_, statErr := os.Stat(out)
-	if res.Action.Mask == nil {
+	if !res.Action.Suggested() {
 		if code != 1 || statErr == nil || !strings.Contains(stderr, "was not written") {
 			t.Errorf("no mask suggested: exit %d, file written %v, stderr %q; want exit 1 and no file", code, statErr == nil, stderr)
 		}
@@ -524,7 +524,7 @@ func TestAuditRefusals(t *testing.T) {
 		{a("--mark-task", " "), 2, "give the cue's words, in quotes"},
 		{[]string{"audit", "--model", f.model, "--mark-task", "ferry", "--export", filepath.Join(f.dir, "x.csv")}, 2, "--export needs --data"},
 		{[]string{"audit", "--model", f.model}, 2, "--data is required"},
-		{a("--marks", filepath.Join(f.dir, "none.marks")), 1, "none.marks does not exist"},
+		{a("--marks", filepath.Join(f.dir, "none.marks")), 2, "none.marks: no such file: check the path"},
 		{a("--models", tinyModelOther(t)), 2, "was not trained on the splits of --model"},
 		{a("--retrain"), 1, "is not the data " + f.model + " was trained on"},
 		// Too few held-out texts: the test split held out of the model's own

@@ -24,13 +24,16 @@ type auditView struct {
 	command string    // this audit's command line, to extend with one option
 }
 
-func newAuditView(o *auditOptions, es *evalSet, priors []float64, out *auditJSON) *auditView {
+func newAuditView(o *auditOptions, src auditSource, priors []float64, out *auditJSON) *auditView {
+	es := src.es
 	v := &auditView{auditJSON: out, o: o, priors: priors}
 	switch {
 	case es.name == "all":
 		v.heldout = "texts of all of " + o.data + " (they may include texts the model was trained on)"
 	case o.test != "":
 		v.heldout = "texts of the test file " + o.test
+	case src.heldoutFile() != "":
+		v.heldout = "texts of the test file the model was trained with, " + src.heldoutFile()
 	default:
 		v.heldout = "texts of the test split train held out of " + o.data
 	}
@@ -90,8 +93,8 @@ func (v *auditView) writeActions(w io.Writer) {
 		steps = append(steps, step{"retrain without the cues and compare both models on the test texts with and without them",
 			shellJoin([]string{"--retrain", "--retrain-out", base + "-without.tt"})})
 	}
-	if m := v.Action.Mask; m != nil && v.MaskedModel == "" {
-		steps = append(steps, step{"write a copy with filters " + joinInts(m) + " masked, which helped on the confirming half",
+	if v.Action.Suggested() && v.MaskedModel == "" {
+		steps = append(steps, step{"write a copy with " + maskedWhatAudit(&v.Action) + ", which helped on the confirming half",
 			shellJoin([]string{"--masked-out", base + "-masked.tt"})})
 	}
 	if len(steps) == 0 {
@@ -217,6 +220,19 @@ type auditSource struct {
 // sameData reports whether --data is the data the model was trained on (its
 // split record matches), so that its splits can be made again.
 func (s auditSource) sameData() bool { return s.es.dev != nil && s.m.Info.Splits != nil }
+
+// heldoutFile is the file the held-out texts were read from: --test, or
+// the test file the model was trained with when --data is its data; ""
+// when they are a share of --data.
+func (s auditSource) heldoutFile() string {
+	switch {
+	case s.test != "":
+		return s.test
+	case s.sameData() && s.es.name == "test":
+		return s.m.Info.Splits.TestFile
+	}
+	return ""
+}
 
 // heldoutShare reports whether the held-out texts are the test split held
 // out of --data (not a file of their own).
@@ -351,3 +367,17 @@ func recipeArgs(m *cnn.Model) []string {
 
 // fmtFloat writes x in the fewest digits that read back as x.
 func fmtFloat(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
+
+// maskedWhatAudit says what the audit's suggested mask does: "filters 3, 7
+// masked", "kioskmail, tkref read as the unknown word by the word
+// weights", or both joined by "and".
+func maskedWhatAudit(act *audit.Action) string {
+	var what []string
+	if len(act.Mask) > 0 {
+		what = append(what, "filters "+joinInts(act.Mask)+" masked")
+	}
+	if len(act.MaskWords) > 0 {
+		what = append(what, strings.Join(act.MaskWords, ", ")+" read as the unknown word by the word weights")
+	}
+	return strings.Join(what, " and ")
+}

@@ -4,7 +4,9 @@ import (
 	"context"
 	"flag"
 	"fmt"
+	"io"
 	"strings"
+	"unicode/utf8"
 
 	"telltale/cnn"
 	"telltale/internal/outguard"
@@ -18,14 +20,15 @@ var cmdCompare = &command{
 metrics side by side, e.g. a model against its masked copy, or against one
 retrained with --mask-tokens: accuracy with its 95% Wilson interval,
 macro-F1, weighted-F1, per-class F1 and the calibration error with their 95%
-bootstrap intervals over texts, and the share of predictions that differ
-from the first model's with its Wilson interval. A model whose file carries
-the linear baseline train fits beside the CNN is then shown beside it, with
-the exact McNemar test between the two, as train shows them. The texts are
-found as eval finds them for the first model: --test FILE, or the test
-split of its own --data, or all of other data; a note says when another
-model's splits were made otherwise. The models must share their labels;
-each uses its own tokenizer and vocabulary.`,
+bootstrap intervals over texts, the share of predictions that differ from
+the first model's with its Wilson interval, and the exact McNemar test of
+each model against the first (the texts only one of the two labels right).
+A model whose file carries the linear baseline train fits beside the CNN is
+then shown beside it, with the exact McNemar test between the two, as train
+shows them. The texts are found as eval finds them for the first model:
+--test FILE, or the test split of its own --data, or all of other data; a
+note says when another model's splits were made otherwise. The models must
+share their labels; each uses its own tokenizer and vocabulary.`,
 	Options: func() options { return new(compareOptions) },
 	Run:     runAs(runCompare),
 }
@@ -117,7 +120,7 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		if i == 0 {
 			first = pred
 		} else {
-			row.setFlipped(first, pred)
+			row.setVsFirst(data.Labels, first, pred)
 		}
 		rows = append(rows, row)
 	}
@@ -148,11 +151,16 @@ type compareRow struct {
 	// model's; FlippedInterval is its Wilson interval (nil for the first).
 	Flipped         float64       `json:"flipped_vs_first"`
 	FlippedInterval *cnn.Interval `json:"flipped_vs_first_interval,omitempty"`
+	// VsFirst is the exact McNemar test of this model against the first on
+	// the same texts: OnlyA counts those only the first labels right, OnlyB
+	// those only this one does (nil for the first).
+	VsFirst *cnn.McNemar `json:"mcnemar_vs_first,omitempty"`
 }
 
-// setFlipped sets the share of texts whose prediction pred differs from
-// first's (same length) and its Wilson interval.
-func (r *compareRow) setFlipped(first, pred []int) {
+// setVsFirst sets the share of texts whose prediction pred differs from
+// first's, its Wilson interval, and the exact McNemar test of pred against
+// first on the gold labels (all the same length).
+func (r *compareRow) setVsFirst(gold, first, pred []int) {
 	flips := 0
 	for j := range pred {
 		if pred[j] != first[j] {
@@ -161,6 +169,8 @@ func (r *compareRow) setFlipped(first, pred []int) {
 	}
 	iv := cnn.WilsonInterval(flips, len(pred), cnn.IntervalLevel)
 	r.Flipped, r.FlippedInterval = iv.Estimate, &iv
+	mc := cnn.McNemarExact(gold, first, pred)
+	r.VsFirst = &mc
 }
 
 // compareModels evaluates models that share one encoder on data.
@@ -177,7 +187,7 @@ func compareModels(env *runEnv, data cnn.Data, names []string, ms []*cnn.Model, 
 			first = pred
 			continue
 		}
-		rows[i].setFlipped(first, pred)
+		rows[i].setVsFirst(data.Labels, first, pred)
 	}
 	return writeComparison(env, rows, "", asJSON)
 }
@@ -191,16 +201,18 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 	}
 	w := env.Stdout
 	fmt.Fprintf(w, "%g%% intervals: Wilson for accuracy and the flipped share, bootstrap over texts for F1s and ECE\n\n", 100*cnn.IntervalLevel)
-	fmt.Fprintf(w, "%-40s  %-19s  %-19s  %-19s  %-19s  %s\n", "model", "accuracy", "macro-F1", "weighted-F1", "ECE", "flipped")
+	table := [][]string{{"model", "accuracy", "macro-F1", "weighted-F1", "ECE", "flipped"}}
 	for i, r := range rows {
 		flip := "-"
 		if i > 0 && r.FlippedInterval != nil {
 			fi := r.FlippedInterval
 			flip = fmt.Sprintf("%.1f%% (%.1f–%.1f%%)", 100*fi.Estimate, 100*fi.Low, 100*fi.High)
 		}
-		fmt.Fprintf(w, "%-40s  %-19s  %-19s  %-19s  %-19s  %s\n", oneLine(r.Model, 40), r.Figures.CNN.Accuracy, r.Figures.CNN.MacroF1,
-			r.Intervals.WeightedF1, eceText(r.Metrics.ECE, r.Intervals.ECE), flip)
+		table = append(table, []string{oneLine(r.Model, 40), r.Figures.CNN.Accuracy.String(), r.Figures.CNN.MacroF1.String(),
+			r.Intervals.WeightedF1.String(), eceText(r.Metrics.ECE, r.Intervals.ECE), flip})
 	}
+	writeAligned(w, table)
+	writePairedTests(w, rows)
 	if len(rows) == 0 {
 		return nil
 	}
@@ -225,4 +237,45 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 		}
 	}
 	return nil
+}
+
+// writeAligned writes a table whose columns are as wide as their widest
+// cell (in characters), two spaces apart, with no trailing space.
+func writeAligned(w io.Writer, table [][]string) {
+	var widths []int
+	for _, row := range table {
+		for c, cell := range row {
+			if c == len(widths) {
+				widths = append(widths, 0)
+			}
+			widths[c] = max(widths[c], utf8.RuneCountInString(cell))
+		}
+	}
+	for _, row := range table {
+		var b strings.Builder
+		for c, cell := range row {
+			if c > 0 {
+				b.WriteString("  ")
+			}
+			b.WriteString(cell)
+			b.WriteString(strings.Repeat(" ", widths[c]-utf8.RuneCountInString(cell)))
+		}
+		fmt.Fprintln(w, strings.TrimRight(b.String(), " "))
+	}
+}
+
+// writePairedTests writes the exact McNemar test of every model after the
+// first against the first on the same texts.
+func writePairedTests(w io.Writer, rows []compareRow) {
+	if len(rows) < 2 {
+		return
+	}
+	fmt.Fprintln(w, "\nagainst model 1 on the same texts (exact McNemar test)")
+	for i, r := range rows[1:] {
+		if r.VsFirst == nil {
+			continue
+		}
+		fmt.Fprintf(w, "model %d: %d right only with model 1, %d only with model %d; two-sided p = %s\n",
+			i+2, r.VsFirst.OnlyA, r.VsFirst.OnlyB, i+2, cnn.PValue(r.VsFirst.P))
+	}
 }

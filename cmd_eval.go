@@ -29,7 +29,10 @@ test between the two, as train shows them.
 The texts: with --test FILE, those. With --data FILE alone, when it holds the
 data the model was trained on, the test split train held out of it (or the test
 file train was given); with other data, all of it, with a note that it may hold
-texts the model was trained on.`,
+texts the model was trained on. A warning says when the texts are the model's
+training data or hold some of its training texts, and when the test file the
+model was trained with has changed since; no texts to evaluate on (an empty
+test split) is refused.`,
 	Options: func() options { return new(evalOptions) },
 	Run:     runAs(runEval),
 }
@@ -80,9 +83,12 @@ func (o *evalOptions) files() (outputs, inputs []outguard.File) {
 // figures with their intervals and the baseline beside the CNN.
 type evalOutput struct {
 	cnn.Metrics
-	Split     string      `json:"split"` // "test", or "all" when all of --data
-	SplitNote string      `json:"split_note"`
-	Figures   cnn.Figures `json:"figures"`
+	Split     string `json:"split"` // "test", or "all" when all of --data
+	SplitNote string `json:"split_note"`
+	// Warnings say why the texts may not be held out, or not those train
+	// evaluated on (a test file that changed since training).
+	Warnings []string    `json:"warnings,omitempty"`
+	Figures  cnn.Figures `json:"figures"`
 	// Intervals are those of the weighted F1, the ECE and every class's
 	// precision, recall and F1 (the headline's are in Figures).
 	Intervals cnn.MetricIntervals `json:"intervals"`
@@ -122,7 +128,7 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 		}
 	}
 	if o.asJSON {
-		return writeJSON(env.Stdout, evalOutput{Metrics: met, Split: es.name, SplitNote: es.note, Figures: figures,
+		return writeJSON(env.Stdout, evalOutput{Metrics: met, Split: es.name, SplitNote: es.note, Warnings: es.warnings, Figures: figures,
 			Intervals: cnn.IntervalsOf(met), Baseline: baselineOf(m, cmp)})
 	}
 	writeFigures(env.Stdout, splitHeading(es.name, met.N), figures, baselineOf(m, cmp))

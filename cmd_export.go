@@ -32,7 +32,10 @@ line, id = line number; 0 is padding, 1 unknown), labels.txt (the class names
 in output order) and, for a model with a tokenizer file, tokenizer.json. The
 PyTorch module in the README ("Bring your own model") loads the folder and
 gives telltale's logits. A masked filter's output weights are exported as
-zero, which gives the masked model's logits exactly.`
+zero, which gives the masked model's logits exactly. A model trained with
+--chars is exported with its character layer (keys chars.*), from which the
+module computes each word's character part, for words outside the
+vocabulary too when given the tokens' characters.`
 )
 
 // exportOptions are the options of `telltale export`.
@@ -125,6 +128,9 @@ func runExport(ctx context.Context, env *runEnv, o *exportOptions) error {
 	fmt.Fprintf(env.Stdout, "exported: %s\n", strings.Join(s.Files, ", "))
 	if s.Masked > 0 {
 		fmt.Fprintf(env.Stdout, "%d masked filters exported with zero output weights (same logits)\n", s.Masked)
+	}
+	if m.Config.Chars != nil {
+		fmt.Fprintf(env.Stdout, "character layer exported (keys %s.*): words outside %s get their own character part when the module is given the tokens' characters (encode(..., chars=True))\n", torchmodel.CharsPrefix, torchmodel.VocabFile)
 	}
 	cut := "texts are kept whole"
 	if s.MaxTokens > 0 {

@@ -169,8 +169,8 @@ func withCI(v float64, ci explain.Interval) string {
 	return fmt.Sprintf("%+.4f (%+.4f–%+.4f)", v, ci.Low, ci.High)
 }
 
-// pvalue writes a p-value with two significant digits; one that
-// underflows the normal approximation's float64 tail is written as a bound.
+// pvalue writes a p-value with two significant digits; one below float64's
+// range (the normal tail beyond |z| ≈ 38) is written as a bound.
 func pvalue(p float64) string {
 	switch {
 	case math.IsNaN(p):

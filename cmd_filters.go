@@ -98,21 +98,31 @@ func (o *filtersOptions) check(fs *flag.FlagSet, env *runEnv) error {
 // split record, which identifies the data by its examples, wherever the
 // file now lies), else all of --data, with a note that says which. Data of
 // a model that records no splits is streamed, so only a few texts are held
-// at once; the negative n-gram search may read the source again.
-func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.Encoder, env *runEnv) (func() (explain.TextSource, func()), string, error) {
+// at once; the negative n-gram search may read the source again. Total is
+// the number of texts, 0 when streamed (not known in advance).
+func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.Encoder, env *runEnv) (open func() (explain.TextSource, func()), note string, total int, err error) {
 	stream := func() (explain.TextSource, func()) {
 		return streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
 	}
 	if m.Info.Splits == nil {
-		return stream, "the model file does not record how its splits were made: profiling all texts of " + o.data, nil
+		return stream, "the model file does not record how its splits were made: profiling all texts of " + o.data, 0, nil
 	}
 	all, err := o.read.read(o.data, true, env.Stderr, o.quiet)
 	if err != nil {
-		return nil, "", err
+		return nil, "", 0, err
 	}
 	train, note := trainingSplit(m, all, o.data)
 	ids, gold := encodeExamples(enc, m.Labels, train.Examples, o.threads.N)
-	return func() (explain.TextSource, func()) { return explain.SliceSource(ids, gold), func() {} }, note, nil
+	return func() (explain.TextSource, func()) { return explain.SliceSource(ids, gold), func() {} }, note, len(ids), nil
+}
+
+// profilingNote is the progress line of filters after done of total texts
+// (total 0: not known, the texts being streamed).
+func profilingNote(done, total int) string {
+	if total <= 0 {
+		return "profiling filters: " + texts(done) + " so far"
+	}
+	return fmt.Sprintf("profiling filters: %d of %s", done, texts(total))
 }
 
 // encodeExamples gives each example's ids (as enc.Encode) and gold class
@@ -185,7 +195,7 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 			}
 		}
 	}
-	stream, note, err := o.source(ctx, m, enc, env)
+	stream, note, total, err := o.source(ctx, m, enc, env)
 	if err != nil {
 		return err
 	}
@@ -207,9 +217,22 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 			again, stopAgain = stream()
 			return again, nil
 		},
-		Progress: func(done, _ int) { bar.note("profiling filters: " + texts(done)) },
+		Progress: func(done, _ int) {
+			if total > 0 {
+				bar.show(done, total, profilingNote(done, total), false)
+			} else {
+				bar.note(profilingNote(done, 0))
+			}
+		},
 	})
 	bar.done()
+	if err != nil && ctx.Err() != nil {
+		kept := "nothing was printed"
+		if o.export != "" {
+			kept += " and nothing written to " + o.export
+		}
+		return interrupted("the filters' profiles were stopped before the texts were all read: " + kept)
+	}
 	if err != nil {
 		return err
 	}
@@ -226,9 +249,20 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 		}
 	}
 	if o.asJSON {
-		return writeJSON(env.Stdout, prof)
+		return writeJSON(env.Stdout, profilesJSON{Profiles: prof, SelectivityShare: prof.Selective})
 	}
 	return writeProfiles(env.Stdout, prof, o.top)
+}
+
+// profilesJSON is the JSON of filters: the profiles, with the --selectivity
+// setting (Profiles.Selective, every filter's selectivity.share) written as
+// selectivity_share, not as "selective", which is every filter's verdict.
+type profilesJSON struct {
+	*explain.Profiles
+	// Hidden is never set: as a shallower field of the same name it keeps
+	// the embedded Selective out of the JSON.
+	Hidden           *float64 `json:"selective,omitempty"`
+	SelectivityShare float64  `json:"selectivity_share"`
 }
 
 // writeProfiles writes the profiles for a reader: a header, then every

@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"os"
@@ -45,8 +44,10 @@ ReLU, max over time, dropout, one linear layer or one sigmoid unit, and
 optionally word weights beside the filters: an nn.EmbeddingBag(vocab,
 classes, mode="mean", padding_idx=PAD) whose output adds to the logits (for a
 text without words telltale adds the unknown word's row, where a plain bag
-gives zero), found by its key "wide.weight" (as export writes it; rename the
-key to that in your state_dict otherwise). The parts
+gives zero), under the key "wide.weight" or found by its shape (vocabulary
+× outputs, no bias, not the embedding; when two tables fit, the error names
+both: rename the word weights' key to wide.weight); and the character layer
+that export writes for a model trained with --chars (keys chars.*). The parts
 are found by shape and file order; --embedding-keys, --conv-keys and
 --output-key name them when that is ambiguous. Any other parameter is refused
 naming its key and shape. A state_dict does not record the activation, the
@@ -143,20 +144,9 @@ func (o *importOptions) check(*flag.FlagSet, *runEnv) error {
 	return requireInputs(inputs)
 }
 
-// requireInputs fails, naming the option, when a given input file is
-// missing or unreadable, so that nothing starts with an input that is not
-// there.
-func requireInputs(inputs []outguard.File) error {
-	for _, in := range inputs {
-		if in.Path == "" {
-			continue
-		}
-		if _, err := os.Stat(in.Path); err != nil {
-			return fmt.Errorf("%s %s: %w", in.Name, in.Path, errors.Unwrap(err))
-		}
-	}
-	return nil
-}
+// requireInputs fails (exit 2), naming the option, when a given input
+// file cannot be read, so that nothing starts without it (checkInputs).
+func requireInputs(inputs []outguard.File) error { return checkInputs(inputs) }
 
 func (o *importOptions) files() (outputs, inputs []outguard.File) {
 	return []outguard.File{{Name: "--out", Path: o.Out}},

@@ -113,7 +113,7 @@ func TestImportCommandWritesNothingOnBadInput(t *testing.T) {
 		{"labels", func(o *importOptions) { o.Labels = "a,b,c" }, 1, []string{"3 labels", "output.weight"}},
 		{"out is the vocabulary", func(o *importOptions) { o.Out = vocab }, 2, []string{"--out", "--vocab", "never writes onto its inputs"}},
 		{"out links to the vocabulary", func(o *importOptions) { o.Out = link }, 2, []string{"link.tt", "symbolic link to --vocab"}},
-		{"missing state_dict", func(o *importOptions) { o.StateDict = filepath.Join(dir, "none.pt") }, 1, []string{"--state-dict", "none.pt"}},
+		{"missing state_dict", func(o *importOptions) { o.StateDict = filepath.Join(dir, "none.pt") }, 2, []string{"--state-dict", "none.pt", "check the path"}},
 	}
 	for _, c := range cases {
 		o := good

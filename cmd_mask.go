@@ -4,17 +4,24 @@ import (
 	"context"
 	"flag"
 	"fmt"
+	"slices"
+	"strings"
 
 	"telltale/cnn"
+	"telltale/corpus"
 	"telltale/internal/outguard"
 )
 
 var cmdMask = &command{
 	Name:      "mask",
-	UsageLine: "mask --model MODEL --filters 12,40,77 --out MODEL2 [--data FILE | --test FILE] [--json]",
-	Short:     "write a copy of a model with some filters masked (the original is kept)",
+	UsageLine: "mask --model MODEL [--filters 12,40,77] [--words w1,w2] --out MODEL2 [--data FILE | --test FILE] [--json]",
+	Short:     "write a copy of a model with some filters or word weights masked (the original is kept)",
 	Long: `Mask writes a new model file in which the listed filters (indexes from 0)
-are switched off: their pooled units held at zero. The original model file is
+are switched off: their pooled units held at zero. On a model with word
+weights (train --wide), --words makes the word-weight path read the listed
+words of the model's vocabulary as the unknown word: their rows become the
+unknown word's, so their word part is exactly 0, while the filters still
+read them. Give --filters, --words or both. The original model file is
 never overwritten. With --data or --test, both models are evaluated side by
 side on the texts eval would use.`,
 	Options: func() options { return new(maskOptions) },
@@ -22,16 +29,18 @@ side on the texts eval would use.`,
 }
 
 type maskOptions struct {
-	model, filters, out, data, test string
-	read                            readOptions
-	asJSON, quiet                   bool
+	model, filters, words, out, data, test string
+	read                                   readOptions
+	asJSON, quiet                          bool
 
 	indexes []int
+	names   []string
 }
 
 func (o *maskOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.model, "model", "", "model file written by train")
 	fs.StringVar(&o.filters, "filters", "", "the filters to mask: indexes from 0, comma-separated")
+	fs.StringVar(&o.words, "words", "", "words of the model's vocabulary its word weights read as the unknown word, comma-separated (a model trained with --wide)")
 	fs.StringVar(&o.out, "out", "", "where to write the masked model (never --model itself)")
 	registerEvalData(fs, &o.data, &o.test)
 	o.read.register(fs, true)
@@ -47,8 +56,12 @@ func (o *maskOptions) check(fs *flag.FlagSet, env *runEnv) error {
 	if o.indexes, err = listInts("filters", o.filters, 0, "a filter index (0 or more)"); err != nil {
 		return err
 	}
-	if len(o.indexes) == 0 {
-		return usagef("--filters is required: e.g. --filters 12,40 (the indexes shown by 'telltale audit' or 'telltale filters')")
+	if o.names, err = listItems("words", o.words); err != nil {
+		return err
+	}
+	if len(o.indexes) == 0 && len(o.names) == 0 {
+		return usagef("--filters or --words is required: e.g. --filters 12,40 (the indexes shown by 'telltale audit' or 'telltale filters'), " +
+			"or --words on a model with word weights (the words the audit's mask names)")
 	}
 	if err := requireModel(o.model); err != nil {
 		return err
@@ -61,12 +74,46 @@ func (o *maskOptions) files() (outputs, inputs []outguard.File) {
 		[]outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.data}, {Name: "--test", Path: o.test}}
 }
 
+// maskWordIDs are the ids in m's vocabulary of the words given to --words
+// (nil for none). Each must be a word of the vocabulary other than the
+// padding and the unknown word, on a model with word weights: masking
+// words of a model without them would change nothing.
+func maskWordIDs(m *cnn.Model, path string, words []string) ([]int32, error) {
+	if len(words) == 0 {
+		return nil, nil
+	}
+	if !m.Config.Wide {
+		return nil, usagef("--words: %s has no word weights (it was trained without --wide), so reading words as the unknown word there "+
+			"would change nothing; mask filters with --filters, or train with --wide", path)
+	}
+	var ids []int32
+	for _, w := range words {
+		id := slices.Index(m.Vocab, w)
+		switch {
+		case w == corpus.PADWord || w == corpus.UNKWord:
+			return nil, usagef("--words %q: %s is the %s itself, which has no word weights of its own to mask: give words of the text",
+				clip(strings.Join(words, ",")), w, map[bool]string{true: "padding", false: "unknown word"}[w == corpus.PADWord])
+		case id < 0:
+			return nil, usagef("--words %q: %s's vocabulary does not contain %q; 'telltale export --model %s --out DIR' writes the vocabulary "+
+				"to DIR/vocab.txt, one word a line, written as the model's tokenizer writes them", clip(strings.Join(words, ",")), path, clip(w), path)
+		}
+		if !slices.Contains(ids, int32(id)) {
+			ids = append(ids, int32(id))
+		}
+	}
+	return ids, nil
+}
+
 func runMask(ctx context.Context, env *runEnv, o *maskOptions) error {
 	m, enc, err := openModel(o.model)
 	if err != nil {
 		return err
 	}
-	masked, err := m.MaskedCopy(o.indexes)
+	words, err := maskWordIDs(m, o.model, o.names)
+	if err != nil {
+		return err
+	}
+	masked, err := m.MaskedWordsCopy(o.indexes, words)
 	if err != nil {
 		return usageError{err.Error()}
 	}
@@ -74,11 +121,15 @@ func runMask(ctx context.Context, env *runEnv, o *maskOptions) error {
 		return err
 	}
 	if !o.quiet {
-		fmt.Fprintf(env.Stderr, "masked filters %v; model written to %s (%s unchanged)\n", o.indexes, o.out, o.model)
+		fmt.Fprintf(env.Stderr, "%s; model written to %s (%s unchanged)\n", maskedWhat(o.indexes, o.names), o.out, o.model)
 	}
 	if o.data == "" && o.test == "" {
 		if o.asJSON {
-			return writeJSON(env.Stdout, map[string]any{"model": o.out, "masked": o.indexes})
+			out := map[string]any{"model": o.out, "masked": o.indexes}
+			if len(o.names) > 0 {
+				out["masked_words"] = o.names
+			}
+			return writeJSON(env.Stdout, out)
 		}
 		return nil
 	}
@@ -92,4 +143,21 @@ func runMask(ctx context.Context, env *runEnv, o *maskOptions) error {
 		return err
 	}
 	return compareModels(env, data, []string{o.model, o.out}, []*cnn.Model{m, masked}, o.asJSON)
+}
+
+// maskedWhat says what mask did: "masked filters [3 7]", "words 'a', 'b'
+// read as the unknown word by the word weights", or both.
+func maskedWhat(filters []int, words []string) string {
+	var parts []string
+	if len(filters) > 0 {
+		parts = append(parts, fmt.Sprintf("masked filters %v", filters))
+	}
+	if len(words) > 0 {
+		q := make([]string, len(words))
+		for i, w := range words {
+			q[i] = "'" + w + "'"
+		}
+		parts = append(parts, "words "+strings.Join(q, ", ")+" read as the unknown word by the word weights")
+	}
+	return strings.Join(parts, " and ")
 }

@@ -3,6 +3,8 @@ package main
 import (
 	"context"
 	"flag"
+	"slices"
+	"strconv"
 	"strings"
 
 	"telltale/internal/outguard"
@@ -15,8 +17,15 @@ var cmdPredict = &command{
 	Short:     "label new text with a saved model",
 	Long: `Predict labels --text, the texts of --data (a .csv, .tsv or .jsonl file with
 a text column, or a folder of .txt files: one text per record or file, line
-breaks and all), or else every line of standard input (blank lines are
-skipped), and prints the label and the probability of each class.`,
+breaks and all), or else every line of standard input, and prints the label
+and the probability of each class.
+
+On standard input every line gets one output line, in order, so outputs
+pair with input lines: a blank line gives an empty line (with --json,
+{"line":N,"blank":true}). --json gives each text's line: the line of --data
+where its record starts, or of standard input. --export writes the same
+line, the label --data gives a text (gold; empty where it has none), the
+predicted label and p_<label> for each class.`,
 	Options: func() options { return new(predictOptions) },
 	Run:     runAs(runPredict),
 }
@@ -58,24 +67,82 @@ func runPredict(ctx context.Context, env *runEnv, o *predictOptions) error {
 	if err != nil {
 		return err
 	}
-	var texts []string
+	var kept []text
 	var probs [][]float32
 	var keep func(text, []float32)
 	if o.export != "" {
 		keep = func(t text, p []float32) {
-			texts, probs = append(texts, t.Text), append(probs, append([]float32(nil), p...))
+			kept, probs = append(kept, t), append(probs, append([]float32(nil), p...))
 		}
 	}
-	format := func(dst []byte, t text, p []float32) ([]byte, error) {
-		return appendTextLine(dst, m.Labels, t, p), nil
-	}
-	if o.asJSON {
-		format = newPredictionJSON(m.Labels).appendLine
-	}
-	if err := predictStream(ctx, next, m, enc, env.Stdout, format, keep); err != nil || o.export == "" {
+	if err := predictStream(ctx, next, m, enc, env.Stdout, predictFormat(m.Labels, o.asJSON), keep); err != nil || o.export == "" {
 		return err
 	}
-	return report.WriteTableFile(o.export, report.PredictionTable(m.Labels, texts, nil, probs))
+	return report.WriteTableFile(o.export, predictionTable(m.Labels, kept, probs))
+}
+
+// predictFormat appends predict's output line for one text (see
+// predictStream): the plain line, or with asJSON one JSON object. A blank
+// line of standard input gives an empty line, or {"line":N,"blank":true}.
+func predictFormat(labels []string, asJSON bool) func(dst []byte, t text, probs []float32) ([]byte, error) {
+	if !asJSON {
+		return func(dst []byte, t text, p []float32) ([]byte, error) {
+			if t.Blank {
+				return append(dst, '\n'), nil
+			}
+			return appendTextLine(dst, labels, t, p), nil
+		}
+	}
+	line := newPredictionJSON(labels).appendLine
+	return func(dst []byte, t text, p []float32) ([]byte, error) {
+		if t.Blank {
+			return append(strconv.AppendInt(append(dst, `{"line":`...), int64(t.Line), 10), `,"blank":true}`+"\n"...), nil
+		}
+		return line(dst, t, p)
+	}
+}
+
+// predictionTable is what predict's --export writes, one row per text:
+// line (as --json's line: the line of --data or standard input where the
+// text starts; empty for --text), file (only for a folder of texts), the
+// text, gold (the label --data gives it, else empty), the predicted label
+// and p_<label> for every class. A blank line of standard input has a row
+// with no prediction.
+func predictionTable(labels []string, texts []text, probs [][]float32) *report.Table {
+	files := slices.ContainsFunc(texts, func(t text) bool { return t.File != "" })
+	t := &report.Table{Columns: []string{"line"}}
+	if files {
+		t.Columns = append(t.Columns, "file")
+	}
+	t.Columns = append(t.Columns, "text", "gold", "predicted")
+	for _, l := range labels {
+		t.Columns = append(t.Columns, "p_"+l)
+	}
+	for i, x := range texts {
+		var row []any
+		if x.Line > 0 {
+			row = append(row, x.Line)
+		} else {
+			row = append(row, nil)
+		}
+		if files {
+			row = append(row, x.File)
+		}
+		row = append(row, x.Text, x.Gold)
+		if x.Blank {
+			row = append(row, nil)
+			for range labels {
+				row = append(row, nil)
+			}
+		} else {
+			row = append(row, labels[argmax(probs[i])])
+			for _, v := range probs[i] {
+				row = append(row, float64(v))
+			}
+		}
+		t.Add(row...)
+	}
+	return t
 }
 
 // textSource is where predict and explain take their texts from: --text,
@@ -106,12 +173,17 @@ func (s *textSource) check(fs *flag.FlagSet) error {
 	return s.read.check()
 }
 
-// text is one text to label and where it came from (Line and File are
-// those of --data; both are empty for --text and standard input).
+// text is one text to label and where it came from: Line is the line of
+// --data or of standard input where it starts, File the file of a folder
+// of texts (both empty for --text); Gold is its label where --data has
+// one. Blank marks a line of standard input with nothing but white space,
+// which gets an output line of its own so that outputs pair with lines.
 type text struct {
-	Text string
-	Line int
-	File string
+	Text  string
+	Line  int
+	File  string
+	Gold  string
+	Blank bool
 }
 
 // batches returns the texts of the source in batches (see predictStream);
@@ -127,11 +199,11 @@ func (s *textSource) batches(env *runEnv) (batchSource, error) {
 		}
 		texts := make([]text, len(ds.Examples))
 		for i, e := range ds.Examples {
-			texts[i] = text{Text: e.Text, Line: e.Line, File: e.File}
+			texts[i] = text{Text: e.Text, Line: e.Line, File: e.File, Gold: e.Label}
 		}
 		return sliceBatches(texts), nil
 	}
-	return lineBatches(env.Stdin), nil
+	return lineBatches(env.Stdin, warnTo(env.Stderr, s.quiet)), nil
 }
 
 // each calls fn with every text of the source.
@@ -154,5 +226,5 @@ func (s *textSource) each(ctx context.Context, env *runEnv, fn func(text) error)
 		}
 		return nil
 	}
-	return eachLine(ctx, env.Stdin, func(t string) error { return fn(text{Text: t}) })
+	return eachLine(ctx, env.Stdin, warnTo(env.Stderr, s.quiet), func(t text) error { return fn(text{Text: t.Text}) })
 }

@@ -221,7 +221,7 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 	}
 	abs, _ := filepath.Abs(o.out)
 	summary := trainSummary{Model: abs, BestEpoch: res.BestEpoch, Epochs: len(res.Epochs), Cancelled: res.Cancelled,
-		StoppedEarly: res.StoppedEarly, Diverged: res.Diverged, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Test: m.Info.Test,
+		StoppedEarly: res.StoppedEarly, Diverged: res.Diverged != nil, Divergence: res.Diverged, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Test: m.Info.Test,
 		Splits: m.Info.Splits, Seconds: time.Since(start).Seconds()}
 	summary.TestFigures, summary.Baseline = figures, baselineOf(m, cmp)
 	if o.asJSON {
@@ -257,7 +257,8 @@ type trainSummary struct {
 	Epochs            int              `json:"epochs"`
 	Cancelled         bool             `json:"cancelled"`
 	StoppedEarly      bool             `json:"stopped_early"`
-	Diverged          *cnn.Divergence  `json:"diverged,omitempty"`
+	Diverged          bool             `json:"diverged"`
+	Divergence        *cnn.Divergence  `json:"divergence,omitempty"`
 	ExamplesPerSecond float64          `json:"examples_per_second"`
 	Seconds           float64          `json:"seconds"`
 	Dev               *cnn.Metrics     `json:"dev,omitempty"`
@@ -271,9 +272,20 @@ func writeTrainSummary(w io.Writer, s trainSummary) {
 	fmt.Fprintf(w, "model saved: %s (best epoch %d of %d, %.0f training examples/s, %.1f s in all)\n",
 		s.Model, s.BestEpoch, s.Epochs, s.ExamplesPerSecond, s.Seconds)
 	if s.Dev != nil {
-		fmt.Fprintf(w, "dev:  accuracy %.4f  macro-F1 %.4f  ECE %.4f  (%s, used to choose the epoch)\n", s.Dev.Accuracy, s.Dev.MacroF1, s.Dev.ECE, texts(s.Dev.N))
+		writeDevFigures(w, *s.Dev)
 	}
 	if s.TestFigures != nil {
 		writeFigures(w, fmt.Sprintf("test split, %s, used for nothing else", texts(s.TestFigures.CNN.N)), *s.TestFigures, s.Baseline)
+	}
+}
+
+// writeDevFigures prints the dev split's figures as the test split's, with
+// the same intervals, and its ECE with its interval and calibration test
+// when the confidences are known (left out otherwise: no interval). They
+// chose the epoch, so they flatter the model.
+func writeDevFigures(w io.Writer, dev cnn.Metrics) {
+	writeFigures(w, fmt.Sprintf("dev split, %s, used to choose the epoch", texts(dev.N)), cnn.Figures{CNN: cnn.HeadlineOf(dev)}, nil)
+	if ece := cnn.IntervalsOf(dev).ECE; ece != nil {
+		fmt.Fprintf(w, "  %-15s  ECE %s\n", "", ece)
 	}
 }

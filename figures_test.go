@@ -252,3 +252,31 @@ func TestTrainOptionsReachTheModel(t *testing.T) {
 		}
 	}
 }
+
+// train's dev figures are written as the test figures are, with the same
+// intervals (cnn.HeadlineOf of the dev metrics the model file records) at
+// the same precision, and the dev ECE with its interval and calibration
+// test.
+func TestTrainDevFigures(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	model := filepath.Join(dir, "m.tt")
+	code, out, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--baseline=false")
+	if code != 0 {
+		t.Fatalf("train: exit %d: %s", code, stderr)
+	}
+	m, err := cnn.Load(model)
+	if err != nil || m.Info.Dev == nil {
+		t.Fatalf("the model file: %v, dev %v", err, m != nil && m.Info.Dev != nil)
+	}
+	h := cnn.HeadlineOf(*m.Info.Dev)
+	block := figuresBlock(t, out, fmt.Sprintf("dev split, %d texts, used to choose the epoch", h.N))
+	want := fmt.Sprintf("  CNN              accuracy %s  macro-F1 %s", h.Accuracy, h.MacroF1)
+	if len(block) < 2 || block[0] != want || !strings.HasPrefix(strings.TrimSpace(block[1]), "ECE ") ||
+		!strings.Contains(block[1], "test of perfect calibration p ") {
+		t.Errorf("dev figures:\n%s\nwant the line %q and the ECE with its interval", strings.Join(block, "\n"), want)
+	}
+	if test := figuresBlock(t, out, "test split"); len(test) == 0 || len(strings.Fields(test[0])[2]) != len(strings.Fields(block[0])[2]) {
+		t.Errorf("dev and test figures differ in precision:\n%s", out)
+	}
+}

@@ -1,8 +1,11 @@
 package main
 
 import (
+	"errors"
+	"io/fs"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 
 	"telltale/audit"
@@ -13,9 +16,10 @@ import (
 // output allowed to be a .marks file.
 const marksOption = "the marks file (--marks)"
 
-// guardFiles checks a command's outputs against its inputs before any work
-// (outguard.Check), with the marks file beside every input model counted as
-// an input: a person's verdicts on cues are data too. An output named
+// guardFiles checks, before any work, that every input given can be read
+// (checkInputs), then a command's outputs against its inputs
+// (outguard.Check), with the marks file beside every input model counted
+// as an input: a person's verdicts on cues are data too. An output named
 // *.marks is refused unless it is the marks option itself. Every problem is
 // a usage error (exit 2).
 func guardFiles(outputs, inputs []outguard.File) error {
@@ -25,11 +29,57 @@ func guardFiles(outputs, inputs []outguard.File) error {
 				out.Name, out.Path)
 		}
 	}
+	if err := checkInputs(inputs); err != nil {
+		return err
+	}
 	inputs = append(inputs, besideModels(outputs, inputs)...)
 	if err := outguard.Check(outputs, inputs); err != nil {
 		return usageError{err.Error()}
 	}
 	return nil
+}
+
+// corpusOptions are the inputs that may be a folder (one sub-folder per
+// label) as well as a file.
+var corpusOptions = []string{"--data", "--dev", "--test"}
+
+// checkInputs refuses (exit 2) an input that cannot be read
+// (outguard.CheckInput). Inputs a person named on the command line
+// (--name) must exist; a file the command only looks for, such as a
+// model's marks file at its usual place, may be missing.
+func checkInputs(inputs []outguard.File) error {
+	for _, in := range inputs {
+		if in.Path == "" {
+			continue
+		}
+		if !named(in, inputs) {
+			if _, err := os.Lstat(in.Path); errors.Is(err, fs.ErrNotExist) {
+				continue
+			}
+		}
+		if err := outguard.CheckInput(in, slices.Contains(corpusOptions, in.Name)); err != nil {
+			return usageError{err.Error()}
+		}
+	}
+	return nil
+}
+
+// named reports whether the input in was given on the command line: an
+// option (--name), or the marks option at another place than beside the
+// model.
+func named(in outguard.File, inputs []outguard.File) bool {
+	if strings.HasPrefix(in.Name, "--") {
+		return true
+	}
+	if in.Name != marksOption {
+		return false
+	}
+	for _, m := range inputs {
+		if m.Name == "--model" && m.Path != "" && sameFile(in.Path, audit.MarksPath(m.Path)) {
+			return false
+		}
+	}
+	return true
 }
 
 // besideModels are the marks files beside the models among inputs that

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -296,5 +297,41 @@ func TestOutputGuardFoldersAndSidecars(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(folder, "ham", "4.txt")); err == nil {
 		t.Error("train wrote into its data folder")
+	}
+}
+
+// TestInputsCheckedFirst: for every command and every file it reads, an
+// input that does not exist, or a folder where only a file will do, is
+// refused with exit 2 before any work, the message naming the option, the
+// path and the fix (the data options read a folder of sub-folders too).
+func TestInputsCheckedFirst(t *testing.T) {
+	contents := guardInputs(t)
+	for _, gc := range guardCommands {
+		for _, in := range gc.inputs {
+			for _, c := range []struct{ name, file, want string }{
+				{"missing", "missing.in", ": no such file"},
+				{"a folder", "folder", " is a folder: give a file in it, not the folder"},
+			} {
+				if c.name == "a folder" && slices.Contains(corpusOptions, in) {
+					continue
+				}
+				t.Run(gc.name+" "+in+" "+c.name, func(t *testing.T) {
+					dir := t.TempDir()
+					os.Mkdir(filepath.Join(dir, "folder"), 0o755)
+					args, paths := guardArgs(t, gc, dir, ".in", contents)
+					bad := filepath.Join(dir, c.file)
+					args[slices.Index(args, paths[in])] = bad
+					for _, out := range gc.outputs {
+						args = append(args, out, filepath.Join(dir, "out-"+strings.TrimPrefix(out, "--")+".csv"))
+					}
+					code, stdout, stderr := tt(t, append(args, gc.extra...)...)
+					noCrash(t, "input check", stderr)
+					want := bad + c.want
+					if code != 2 || !strings.Contains(stderr, in) || !strings.Contains(stderr, want) || stdout != "" {
+						t.Errorf("%q: exit %d, stdout %q, stderr %q; want exit 2, nothing on stdout and %q", args, code, stdout, stderr, want)
+					}
+				})
+			}
+		}
 	}
 }

@@ -133,4 +133,14 @@ func TestVersion(t *testing.T) {
 	if code, out, _ = tt(t, "version", "--json"); code != 0 || json.Unmarshal([]byte(out), &v) != nil || v["version"] != version.String() {
 		t.Errorf("version --json: exit %d, %q", code, out)
 	}
+	// --version, as most programs accept it, is the version command.
+	_, want, _ := tt(t, "version")
+	for _, args := range [][]string{{"--version"}, {"-version"}} {
+		if code, out, stderr := tt(t, args...); code != 0 || out != want {
+			t.Errorf("%q: exit %d, %q (stderr %q), want %q", args, code, out, stderr, want)
+		}
+	}
+	if code, out, _ := tt(t, "--version", "--json"); code != 0 || json.Unmarshal([]byte(out), &v) != nil || v["version"] != version.String() {
+		t.Errorf("--version --json: exit %d, %q", code, out)
+	}
 }

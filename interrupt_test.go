@@ -222,4 +222,113 @@ func TestInterruptAudit(t *testing.T) {
 	if code != 130 || !strings.Contains(stderr, "telltale audit: interrupted") || strings.Contains(stderr, "context canceled") {
 		t.Errorf("exit %d, stderr:\n%s\nwant exit 130 and \"telltale audit: interrupted\"", code, stderr)
 	}
+	if !strings.Contains(stderr, "the audit was stopped before it ended: nothing was printed and nothing was written") {
+		t.Errorf("stderr does not say what was kept:\n%s", stderr)
+	}
+}
+
+// TestInterruptAuditRetrain: SIGINT while --retrain trains, after the
+// audit itself finished, still prints the audit, says the retraining was
+// stopped, and writes no file (not the marks the command line changed).
+func TestInterruptAuditRetrain(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds the binary, trains and audits in a child process; skipped with -short")
+	}
+	bin := buildBinary(t)
+	dir := t.TempDir()
+	m, err := cnn.Load(smallTestFileModel(t, dir, "m.tt"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	// A recipe of many epochs without early stopping, so that the
+	// retraining is still running when the signal comes.
+	m.Info.Recipe.Epochs, m.Info.Recipe.Patience = 1000, -1
+	model := filepath.Join(dir, "long.tt")
+	if err := m.Save(model); err != nil {
+		t.Fatal(err)
+	}
+	marks, out := filepath.Join(dir, "long.marks"), filepath.Join(dir, "without.tt")
+	var stdout bytes.Buffer
+	cmd, waitLine, finish := startCommand(t, bin, &stdout, "audit", "--model", model, "--data", "testdata/demo/train.csv",
+		"--marks", marks, "--mark-artifact", "tkref - <number>", "--retrain", "--retrain-out", out, "--threads", "1")
+	if !waitLine("retraining without the cues") {
+		_, stderr := finish()
+		t.Fatalf("the retraining did not start:\n%s", stderr)
+	}
+	if err := cmd.Process.Signal(syscall.SIGINT); err != nil {
+		t.Fatal(err)
+	}
+	code, stderr := finish()
+	noCrash(t, "interrupted audit", stderr)
+	want := "telltale audit: interrupted: the audit of " + model + " is complete and printed above, but the retraining without the cues " +
+		"(--retrain) was stopped; nothing was written (not " + out + ", " + marks + ")"
+	if code != 130 || !strings.Contains(stderr, want) {
+		t.Errorf("exit %d, stderr:\n%s\nwant exit 130 and %q", code, stderr, want)
+	}
+	if !strings.HasPrefix(stdout.String(), "Cue audit of "+model) || !strings.Contains(stdout.String(), "How the numbers are made.") {
+		t.Errorf("the finished audit is not printed:\n%s", stdout.String())
+	}
+	for _, p := range []string{marks, out} {
+		if _, err := os.Stat(p); !os.IsNotExist(err) {
+			t.Errorf("%s was written (%v)", p, err)
+		}
+	}
+}
+
+// TestInterruptFiltersAndReport: SIGINT while filters or report works says
+// what was kept: nothing printed, nothing written.
+func TestInterruptFiltersAndReport(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds the binary and runs commands in child processes; skipped with -short")
+	}
+	bin := buildBinary(t)
+	model := tinyModel(t)
+	dir := t.TempDir()
+	src, err := os.ReadFile("testdata/demo/train.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Ten copies of the demo corpus keep the filters' profiles busy.
+	header, body, _ := bytes.Cut(src, []byte("\n"))
+	big := append(append([]byte(nil), header...), '\n')
+	for range 10 {
+		big = append(big, body...)
+	}
+	data := filepath.Join(dir, "big.csv")
+	if err := os.WriteFile(data, big, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	html, export := filepath.Join(dir, "r.html"), filepath.Join(dir, "f.csv")
+	for _, c := range []struct {
+		args []string
+		want string
+		file string
+	}{
+		{[]string{"filters", "--model", model, "--data", data, "--export", export, "--threads", "1"},
+			"telltale filters: interrupted: the filters' profiles were stopped before the texts were all read: nothing was printed and nothing written to " + export, export},
+		{[]string{"report", "--model", model, "--data", data, "--out", html, "--threads", "1"},
+			"telltale report: interrupted: the report was stopped before its figures were all measured: nothing was written to " + html, html},
+	} {
+		var stdout bytes.Buffer
+		cmd, waitLine, finish := startCommand(t, bin, &stdout, c.args...)
+		if !waitLine("note: ") {
+			_, stderr := finish()
+			t.Fatalf("%s did not start:\n%s", c.args[0], stderr)
+		}
+		if err := cmd.Process.Signal(syscall.SIGINT); err != nil {
+			t.Fatal(err)
+		}
+		code, stderr := finish()
+		noCrash(t, c.args[0], stderr)
+		if code == 0 {
+			t.Logf("%s ended before the interrupt arrived; nothing to check:\n%s", c.args[0], stderr)
+			continue
+		}
+		if code != 130 || !strings.Contains(stderr, c.want) || stdout.Len() > 0 {
+			t.Errorf("%s: exit %d, stdout %q, stderr:\n%s\nwant exit 130 and %q", c.args[0], code, stdout.String(), stderr, c.want)
+		}
+		if _, err := os.Stat(c.file); !os.IsNotExist(err) {
+			t.Errorf("%s: %s was written (%v)", c.args[0], c.file, err)
+		}
+	}
 }

@@ -130,9 +130,10 @@ func FuzzLineReader(f *testing.F) {
 }
 
 // TestPredictStreamOrder runs the batch pipeline on many lines with every
-// core and checks that its output is the texts' lines in input order, each
-// the line that labeling the text alone gives; standard-input batching
-// (blank lines, line ends, a last line without end) included.
+// core and checks that its output is one line per input line in input
+// order, each the line that labeling the text alone gives, with its line
+// number; standard-input batching (blank lines, line ends, a last line
+// without end) included: a blank line gives a blank object of its own.
 func TestPredictStreamOrder(t *testing.T) {
 	model := tinyModel(t)
 	m, enc, err := openModel(model)
@@ -140,20 +141,27 @@ func TestPredictStreamOrder(t *testing.T) {
 		t.Fatal(err)
 	}
 	var in strings.Builder
-	var texts []string
+	var lines []string // every input line, blank ones as ""
 	for i := range 3000 {
 		s := fmt.Sprintf("text %d about a lost bag %s refund", i, strings.Repeat("ferry late ", i%37))
-		texts = append(texts, s)
+		lines = append(lines, s)
 		in.WriteString(s)
 		in.WriteString([]string{"\n", "\r\n", "\n  \n", "\n\t\n"}[i%4])
+		if i%4 >= 2 {
+			lines = append(lines, "")
+		}
 	}
 	in.WriteString("the last line")
-	texts = append(texts, "the last line")
+	lines = append(lines, "the last line")
 	var want bytes.Buffer
-	format := newPredictionJSON(m.Labels).appendLine
-	for _, s := range texts {
+	format := predictFormat(m.Labels, true)
+	for n, s := range lines {
+		if s == "" {
+			fmt.Fprintf(&want, "{\"line\":%d,\"blank\":true}\n", n+1)
+			continue
+		}
 		_, ids := enc.Encode(s)
-		b, err := format(nil, text{Text: s}, m.Predict(ids).Probs)
+		b, err := format(nil, text{Text: s, Line: n + 1}, m.Predict(ids).Probs)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -162,7 +170,7 @@ func TestPredictStreamOrder(t *testing.T) {
 	var got bytes.Buffer
 	var kept []string
 	keep := func(tx text, _ []float32) { kept = append(kept, tx.Text) }
-	if err := predictStream(t.Context(), lineBatches(strings.NewReader(in.String())), m, enc, &got, format, keep); err != nil {
+	if err := predictStream(t.Context(), lineBatches(strings.NewReader(in.String()), nil), m, enc, &got, format, keep); err != nil {
 		t.Fatal(err)
 	}
 	if got.String() != want.String() {
@@ -174,7 +182,7 @@ func TestPredictStreamOrder(t *testing.T) {
 		}
 		t.Fatalf("%d lines, want %d", len(g), len(w))
 	}
-	if fmt.Sprint(kept) != fmt.Sprint(texts) {
-		t.Errorf("keep got %d texts, not the %d texts in input order", len(kept), len(texts))
+	if fmt.Sprint(kept) != fmt.Sprint(lines) {
+		t.Errorf("keep got %d texts, not the %d lines in input order", len(kept), len(lines))
 	}
 }

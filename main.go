@@ -149,6 +149,8 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 	switch args[0] {
 	case "help", "-h", "-help", "--help":
 		return runHelp(args[1:], stdout, stderr)
+	case "--version", "-version":
+		args = append([]string{cmdVersion.Name}, args[1:]...) // as most programs accept it
 	}
 	c := lookup(args[0])
 	if c == nil {

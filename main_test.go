@@ -74,19 +74,21 @@ func TestRuntimeErrorsExitOneAndNameTheFile(t *testing.T) {
 	os.WriteFile(bad, []byte("text,label\n\"unclosed,spam\n"), 0o644)
 	junk := filepath.Join(dir, "junk.tt")
 	os.WriteFile(junk, []byte("not a model at all"), 0o644)
+	// A missing input is found before any work, a usage error (exit 2).
 	cases := []struct {
 		args []string
+		code int
 		want string
 	}{
-		{[]string{"data", "--data", bad}, "bad.csv"},
-		{[]string{"data", "--data", filepath.Join(dir, "missing.csv")}, "missing.csv"},
-		{[]string{"eval", "--model", junk, "--data", "testdata/demo/test.csv"}, "junk.tt"},
-		{[]string{"predict", "--model", filepath.Join(dir, "none.tt"), "--text", "hello"}, "none.tt"},
+		{[]string{"data", "--data", bad}, 1, "bad.csv"},
+		{[]string{"data", "--data", filepath.Join(dir, "missing.csv")}, 2, "missing.csv"},
+		{[]string{"eval", "--model", junk, "--data", "testdata/demo/test.csv"}, 1, "junk.tt"},
+		{[]string{"predict", "--model", filepath.Join(dir, "none.tt"), "--text", "hello"}, 2, "none.tt"},
 	}
 	for _, c := range cases {
 		code, _, stderr := runCmd(t, "", c.args...)
-		if code != 1 || !strings.Contains(stderr, c.want) {
-			t.Errorf("%q: exit %d, stderr %q; want exit 1 naming %q", c.args, code, stderr, c.want)
+		if code != c.code || !strings.Contains(stderr, c.want) {
+			t.Errorf("%q: exit %d, stderr %q; want exit %d naming %q", c.args, code, stderr, c.code, c.want)
 		}
 	}
 }
@@ -283,9 +285,11 @@ func TestMisuseExitsTwo(t *testing.T) {
 			t.Errorf("%q: exit %d, stderr %q; want exit 2 and %q", c.args, code, stderr, c.want)
 		}
 	}
-	// Blank lines of standard input get no label.
+	// Blank lines of standard input get no label, but an empty output line
+	// each, so that outputs pair with input lines.
 	code, out, _ := runCmd(t, "refund please\n\n  \nlost my bag\n", "predict", "--model", model)
-	if code != 0 || len(strings.Split(strings.TrimSpace(out), "\n")) != 2 {
+	lines := strings.Split(strings.TrimSuffix(out, "\n"), "\n")
+	if code != 0 || len(lines) != 4 || lines[1] != "" || lines[2] != "" || !strings.HasSuffix(lines[3], "\tlost my bag") {
 		t.Errorf("predict over 2 texts and 2 blank lines: exit %d, output %q", code, out)
 	}
 }

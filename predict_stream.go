@@ -9,6 +9,7 @@ import (
 	"runtime"
 	"strconv"
 	"sync"
+	"unicode/utf8"
 
 	"telltale/cnn"
 	"telltale/corpus"
@@ -35,6 +36,7 @@ type textBatch struct {
 	view  [][]int32 // each text's ids, slices of ids
 	probs []float32 // Classes per text
 	ends  []int     // where each text's ids end in ids
+	lines []int     // the line number of each standard-input line in buf
 	out   []byte    // the batch's output lines
 	err   error     // from formatting the output
 	done  chan struct{}
@@ -224,16 +226,21 @@ func sliceBatches(texts []text) batchSource {
 	}
 }
 
-// lineBatches is a batchSource over the lines of r that hold more than
-// white space (a line ends at "\n", and a "\r" before it is dropped, as
-// bufio.ScanLines does). A batch ends early when the lines read so far are
-// all r has delivered, so that lines typed or piped one by one are labeled
-// as they come. Each batch's lines are copied once into its buffer and
-// become one string, which the batch's texts are substrings of.
-func lineBatches(r io.Reader) batchSource {
+// lineBatches is a batchSource over the lines of r (a line ends at "\n",
+// and a "\r" before it is dropped, as bufio.ScanLines does), one text per
+// line so that outputs pair with input lines: each text has its line
+// number, and a line of white space only is a Blank text. A UTF-8 byte
+// order mark at the start is dropped; invalid UTF-8 is replaced by U+FFFD,
+// the first time with a warning on warn (when not nil) naming the line. A
+// batch ends early when the lines read so far are all r has delivered, so
+// that lines typed or piped one by one are labeled as they come. Each
+// batch's lines are copied once into its buffer and become one string,
+// which the batch's texts are substrings of.
+func lineBatches(r io.Reader, warn io.Writer) batchSource {
 	lr := &lineReader{r: bufio.NewReaderSize(r, 256<<10)}
+	warned := false
 	return func(b *textBatch) (bool, error) {
-		b.ends = b.ends[:0]
+		b.ends, b.lines = b.ends[:0], b.lines[:0]
 		for len(b.ends) < batchTexts && len(b.buf) < batchBytes {
 			line, err := lr.next()
 			if err == io.EOF {
@@ -241,13 +248,25 @@ func lineBatches(r io.Reader) batchSource {
 				return false, nil
 			}
 			if err != nil {
-				return false, fmt.Errorf("reading standard input: %w (lines are limited to 16 MiB)", err)
+				return false, fmt.Errorf("reading standard input line %d: %w (lines are limited to 16 MiB)", lr.n+1, err)
+			}
+			if lr.n == 1 {
+				line = bytes.TrimPrefix(line, []byte("\xef\xbb\xbf"))
+			}
+			if !utf8.Valid(line) {
+				line = bytes.ToValidUTF8(line, []byte("\uFFFD"))
+				if !warned && warn != nil {
+					warned = true
+					fmt.Fprintf(warn, "warning: standard input line %d: invalid UTF-8 replaced by U+FFFD (later lines are not reported; "+
+						"if the input is Latin-1, convert it to UTF-8 first: iconv -f latin1 -t utf-8)\n", lr.n)
+				}
 			}
 			if len(bytes.TrimSpace(line)) > 0 {
 				b.buf = append(b.buf, line...)
-				b.ends = append(b.ends, len(b.buf))
 			}
-			if lr.r.Buffered() == 0 && len(b.ends) > 0 {
+			b.ends = append(b.ends, len(b.buf))
+			b.lines = append(b.lines, lr.n)
+			if lr.r.Buffered() == 0 {
 				break // the next read may wait for more input
 			}
 		}
@@ -256,12 +275,13 @@ func lineBatches(r io.Reader) batchSource {
 	}
 }
 
-// addLines makes b's texts of the lines in b.buf that end at b.ends.
+// addLines makes b's texts of the lines in b.buf that end at b.ends, with
+// their line numbers b.lines; an empty one is a blank line.
 func (b *textBatch) addLines() {
 	all := string(b.buf)
 	lo := 0
-	for _, hi := range b.ends {
-		b.texts = append(b.texts, text{Text: all[lo:hi]})
+	for i, hi := range b.ends {
+		b.texts = append(b.texts, text{Text: all[lo:hi], Line: b.lines[i], Blank: lo == hi})
 		lo = hi
 	}
 }
@@ -270,6 +290,7 @@ func (b *textBatch) addLines() {
 type lineReader struct {
 	r    *bufio.Reader
 	long []byte
+	n    int // lines returned so far
 }
 
 // next returns the next line without its end, valid until the next call;
@@ -294,6 +315,7 @@ func (lr *lineReader) next() ([]byte, error) {
 	if len(line) > maxStdinLine {
 		return nil, bufio.ErrTooLong
 	}
+	lr.n++
 	line = bytes.TrimSuffix(line, []byte{'\n'})
 	return bytes.TrimSuffix(line, []byte{'\r'}), nil
 }

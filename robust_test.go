@@ -108,7 +108,7 @@ func TestBadInputMessages(t *testing.T) {
 		want []string // substrings of stderr, all required
 	}{
 		{"tab-separated .csv", []string{"data", "--data", bad("tab-in.csv")}, 1,
-			[]string{"tab-in.csv line 1", "tab-separated", "name it .tsv or pass the format tsv"}},
+			[]string{"tab-in.csv line 1", "tab-separated", "name it .tsv or read it as tsv (--format tsv)"}},
 		{"semicolon-separated .csv", []string{"data", "--data", bad("semicolon.csv")}, 1,
 			[]string{"semicolon.csv line 1", "semicolon-separated", "convert it to comma- or tab-separated"}},
 		{"tab-separated .csv read as tsv", []string{"data", "--data", bad("tab-in.csv"), "--format", "tsv"}, 0, nil},
@@ -132,6 +132,8 @@ func TestBadInputMessages(t *testing.T) {
 			[]string{"two-labels.csv line 1", `label column "team" not found`, "--label-col"}},
 		{"broken JSON line", []string{"data", "--data", bad("broken.jsonl")}, 1,
 			[]string{"broken.jsonl line 2", "not a JSON object", "one object per line"}},
+		{"unknown extension", []string{"data", "--data", bad("tokenizer.json")}, 1,
+			[]string{"tokenizer.json", "cannot tell the format from the name", "(--format csv, tsv, jsonl or dir)"}},
 		{"label only in the dev split", []string{"train", "--data", train, "--dev", bad("dev-new-label.csv"), "--out", "unused.tt"}, 1,
 			[]string{"dev-new-label.csv line 3", `label "lost-property" is not among the training labels`, "add training examples for it"}},
 		{"vectors of the wrong dimension", append([]string{"train", "--data", train, "--vectors", bad("vectors-dim.txt")}, tiny...), 1,
@@ -142,8 +144,8 @@ func TestBadInputMessages(t *testing.T) {
 			[]string{"vectors-4d.txt holds 4-dimensional vectors", "(--dim 4)"}},
 		{"tokenizer file that is not JSON", append([]string{"train", "--data", train, "--tokenizer", bad("tokenizer.json")}, tiny...), 1,
 			[]string{"tokenizer.json", "not a tokenizer file"}},
-		{"missing tokenizer file", append([]string{"train", "--data", train, "--tokenizer", bad("none.json")}, tiny...), 1,
-			[]string{"none.json", "cannot read tokenizer file"}},
+		{"missing tokenizer file", append([]string{"train", "--data", train, "--tokenizer", bad("none.json")}, tiny...), 2,
+			[]string{"--tokenizer " + bad("none.json") + ": no such file: check the path"}},
 		{"empty model file", []string{"eval", "--model", bad("empty.csv"), "--data", train}, 1,
 			[]string{"empty.csv", "not a telltale model file", "give a file written by telltale train"}},
 	}

@@ -92,6 +92,12 @@ func (s *splitOptions) load(data string, r *readOptions, warn io.Writer, quiet b
 	sp.record = cnn.SplitRecord{Data: data, DataAbs: absPath(data), DevFile: absPath(s.Dev), TestFile: absPath(s.Test),
 		DevFrac: devFrac, TestFrac: testFrac, Seed: s.Seed, Examples: len(all.Examples), Fingerprint: all.Fingerprint(),
 		Train: len(sp.train.Examples), Dev: len(sp.dev.Examples), Test: len(sp.test.Examples)}
+	if s.Dev != "" {
+		sp.record.DevFingerprint = sp.dev.Fingerprint()
+	}
+	if s.Test != "" {
+		sp.record.TestFingerprint = sp.test.Fingerprint()
+	}
 	return sp, nil
 }
 
@@ -110,17 +116,27 @@ func absPath(path string) string {
 type evalSet struct {
 	train *corpus.Dataset // the training split of --data (all of it when the model's split is not found); nil without --data
 	test  *corpus.Dataset // the texts to evaluate on
-	dev   *corpus.Dataset // the dev share of --data when it is the model's data (empty when the model had a dev file); else nil
+	dev   *corpus.Dataset // the model's dev split (its share of --data, or its dev file) when --data is the model's data; else nil
 	name  string          // "test", or "all" when that is all of --data
 	note  string          // where the texts come from, for the user
+	// warnings say why the figures may not be held-out figures, or not the
+	// ones train reported (findTestSplit has printed them).
+	warnings []string
 }
+
+// mayHoldTraining is the phrase every command uses for texts that may
+// include the model's training texts.
+const mayHoldTraining = "may include texts the model was trained on"
 
 // findTestSplit finds the texts to evaluate model m on. With test (a file),
 // those. Else, when data is the data the model was trained on (the same
 // examples: cnn.SplitRecord.Fingerprint), the test split train held out of
 // it or the test file train was given; with other data, or a model that
 // does not record its splits, all of data, with a note that it may include
-// texts the model was trained on.
+// texts the model was trained on. It warns (on warn unless quiet) when the
+// texts are the model's training data or hold its training texts, and when
+// the recorded test file changed since training; it refuses (a usage error)
+// an empty set of texts.
 func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writer, quiet bool) (*evalSet, error) {
 	if data == "" && test == "" {
 		return nil, usagef("--data or --test is required: labeled texts to evaluate the model on")
@@ -137,6 +153,7 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	same := all != nil && rec != nil && rec.Examples == len(all.Examples) && rec.Fingerprint == all.Fingerprint()
 	if same {
 		es.train, es.dev, es.test = all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
+		es.readDevFile(rec, r)
 	}
 	switch {
 	case test != "":
@@ -144,27 +161,137 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 			return nil, err
 		}
 		es.note = fmt.Sprintf("evaluating on the test file %s (%s)", test, texts(len(es.test.Examples)))
+		es.warnTraining(rec, test, same)
+		if rec != nil && absPath(test) == rec.TestFile {
+			if w := changedSince("test", test, rec.TestFingerprint, es.test); w != "" {
+				es.warnings = append(es.warnings, w)
+			}
+		}
 	case same && rec.TestFile != "":
 		if es.test, err = r.read(rec.TestFile, false, warn, quiet); err != nil {
 			return nil, fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
 		}
 		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%s)", rec.TestFile, texts(len(es.test.Examples)))
+		if w := changedSince("test", rec.TestFile, rec.TestFingerprint, es.test); w != "" {
+			es.warnings = append(es.warnings, w)
+		}
 	case same:
 		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%s), never used for training or to choose the epoch",
 			data, 100*rec.TestFrac, rec.Seed, texts(len(es.test.Examples)))
 	case rec == nil:
 		es.test, es.name = all, "all"
-		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %s of %s, which may include texts the model was trained on",
-			texts(len(all.Examples)), data)
+		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %s of %s, which %s",
+			texts(len(all.Examples)), data, mayHoldTraining)
 	default:
 		es.test, es.name = all, "all"
-		es.note = fmt.Sprintf("%s is not the data the model was trained on (%s): evaluating on all %d of its texts, which may include texts the model was trained on",
-			data, rec.Data, len(all.Examples))
+		es.note = fmt.Sprintf("%s is not the data the model was trained on (%s): evaluating on all %d of its texts, which %s",
+			data, rec.Data, len(all.Examples), mayHoldTraining)
+	}
+	if err := es.checkNotEmpty(rec, data, test, same); err != nil {
+		return nil, err
 	}
 	if es.train == nil {
 		es.train = all
 	}
+	if !quiet {
+		for _, w := range es.warnings {
+			fmt.Fprintf(warn, "warning: %s\n", w)
+		}
+	}
 	return es, nil
+}
+
+// readDevFile makes the dev file the model was trained with (rec.DevFile)
+// the dev split, warning when it changed since training; when it cannot be
+// read, the dev split stays empty, with a warning (no evaluation needs it).
+func (es *evalSet) readDevFile(rec *cnn.SplitRecord, r *readOptions) {
+	if rec.DevFile == "" {
+		return
+	}
+	dev, err := r.read(rec.DevFile, false, io.Discard, true)
+	if err != nil {
+		es.warnings = append(es.warnings, fmt.Sprintf("the dev file the model was trained with cannot be read (%v): its dev split is left out", err))
+		return
+	}
+	es.dev = dev
+	if w := changedSince("dev", rec.DevFile, rec.DevFingerprint, dev); w != "" {
+		es.warnings = append(es.warnings, w)
+	}
+}
+
+// warnTraining adds a warning when the test file at path is the data
+// model's split record rec says it was trained on (the same examples), or,
+// when the training split is known (same), holds some of its texts.
+func (es *evalSet) warnTraining(rec *cnn.SplitRecord, path string, same bool) {
+	if rec == nil {
+		return
+	}
+	if rec.Examples == len(es.test.Examples) && rec.Fingerprint == es.test.Fingerprint() {
+		as := ""
+		if absPath(path) != rec.DataAbs {
+			as = fmt.Sprintf(" (as %s)", rec.Data)
+		}
+		es.warnings = append(es.warnings, fmt.Sprintf("%s is the data the model was trained on%s: it %s, so its figures are not held-out figures",
+			path, as, mayHoldTraining))
+		return
+	}
+	if !same {
+		return
+	}
+	if n := inTraining(es.test, es.train); n > 0 {
+		es.warnings = append(es.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the model's training split, so its figures are not all held-out figures",
+			path, mayHoldTraining, n, texts(len(es.test.Examples))))
+	}
+}
+
+// inTraining counts the texts of test that are also texts of train.
+func inTraining(test, train *corpus.Dataset) int {
+	seen := make(map[string]bool, len(train.Examples))
+	for _, e := range train.Examples {
+		seen[e.Text] = true
+	}
+	n := 0
+	for _, e := range test.Examples {
+		if seen[e.Text] {
+			n++
+		}
+	}
+	return n
+}
+
+// changedSince is a warning when ds, read from the model's recorded dev or
+// test file at path (which says which), is not what train read there (its
+// fingerprint is not want); "" when it is, or when the model file records
+// no fingerprint (written before they were recorded).
+func changedSince(which, path, want string, ds *corpus.Dataset) string {
+	if want == "" || ds.Fingerprint() == want {
+		return ""
+	}
+	fix := "its figures are not the ones train reported; give the original file with --test, or retrain"
+	if which == "dev" {
+		fix = "it is not the dev split train chose the epoch on; put the original file back, or retrain"
+	}
+	return fmt.Sprintf("%s, the %s file the model was trained with, has changed since training (its texts or labels are not those train read): %s",
+		path, which, fix)
+}
+
+// checkNotEmpty refuses an evaluation on no texts, saying where they were
+// to come from and the fix.
+func (es *evalSet) checkNotEmpty(rec *cnn.SplitRecord, data, test string, same bool) error {
+	if len(es.test.Examples) > 0 {
+		return nil
+	}
+	switch {
+	case test != "":
+		return usagef("--test %s holds no texts to evaluate on: give a labeled test file", test)
+	case same && rec.TestFile == "":
+		return usagef("the test split train held out of %s is empty (--test-frac %g of its %s held out none): "+
+			"give a labeled test file with --test, or retrain with a larger --test-frac", data, rec.TestFrac, texts(rec.Examples))
+	case same:
+		return usagef("%s, the test file the model was trained with, holds no texts: give a labeled test file with --test", rec.TestFile)
+	default:
+		return usagef("--data %s holds no texts to evaluate on: give labeled texts with --data or --test", data)
+	}
 }
 
 // trainingSplit is the split model m was trained on out of all (the

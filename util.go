@@ -39,11 +39,11 @@ func sortBy(idx []int, key func(int) float64) {
 // maxStdinLine is the longest line read from standard input.
 const maxStdinLine = 16 << 20
 
-// eachLine calls fn with every line of r that holds more than white space.
-// The lines are read on a goroutine of their own (see lineBatches), so that
+// eachLine calls fn with every line of r that holds more than white space
+// (read as lineBatches reads them, warnings on warn). The lines are read on a goroutine of their own (see lineBatches), so that
 // a cancelled ctx ends the loop even while r blocks (a terminal waiting for
 // input); that goroutine then ends with r.
-func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
+func eachLine(ctx context.Context, r io.Reader, warn io.Writer, fn func(text) error) error {
 	type batch struct {
 		texts []text
 		err   error
@@ -53,7 +53,7 @@ func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
 	defer close(done)
 	go func() {
 		defer close(batches)
-		next := lineBatches(r)
+		next := lineBatches(r, warn)
 		for {
 			var b textBatch
 			more, err := next(&b)
@@ -79,7 +79,10 @@ func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
 				if err := ctx.Err(); err != nil {
 					return err
 				}
-				if err := fn(t.Text); err != nil {
+				if t.Blank {
+					continue
+				}
+				if err := fn(t); err != nil {
 					return err
 				}
 			}
@@ -88,4 +91,12 @@ func eachLine(ctx context.Context, r io.Reader, fn func(string) error) error {
 			}
 		}
 	}
+}
+
+// warnTo is w, or nil (no warnings) with quiet.
+func warnTo(w io.Writer, quiet bool) io.Writer {
+	if quiet {
+		return nil
+	}
+	return w
 }

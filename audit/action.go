@@ -28,7 +28,10 @@ type Action struct {
 	// half, suggested or not. On a model with the word-weight path the
 	// mask also reads the cues' words as the unknown word by that path:
 	// MaskWords are those words when the mask is suggested (Tried.Words
-	// when tested), and Remedy writes the model with both.
+	// when tested), and Remedy writes the model with both. A cue no filter
+	// reads but the word weights carry adds its words alone, so a mask may
+	// be words only: Mask is then empty but not nil (absent in JSON), and
+	// Suggested tells whether a mask is suggested.
 	Mask      []int     `json:"mask,omitempty"`
 	MaskWords []string  `json:"mask_words,omitempty"`
 	Tried     *Ablation `json:"mask_tried,omitempty"`
@@ -176,15 +179,21 @@ func mcNemarTwoSided(fixed, broken int) float64 {
 // selection half (with the cue's words read as the unknown word by the
 // word-weight path, on a model with one), tested together on the
 // confirmation half: the test, and the mask when it helps there
-// (one-sided exact McNemar p < 0.05).
+// (one-sided exact McNemar p < 0.05). A cue no filter is keyed on whose
+// words carry it in the word weights (wordsCarry) adds its words alone,
+// when reading them as the unknown word beats the model on the selection
+// half; a mask of such words only is an empty, non-nil filter list.
 func (a *auditor) mask(acted []*Candidate) (*Ablation, []int) {
-	var mask []int
+	mask := []int{}
 	var words []int32
 	for _, c := range acted {
-		if c.Filters == nil || len(c.Filters.Keyed) == 0 {
+		if c.Filters == nil {
 			continue
 		}
 		cw := a.cueWords(c)
+		if len(c.Filters.Keyed) == 0 && !a.wordsCarry(c, cw) {
+			continue
+		}
 		if pre, better := bestPrefix(a.m, a.selBase, a.sel.Gold, c.Filters.Keyed, cw); better {
 			mask = append(mask, pre...)
 			for _, id := range cw {
@@ -196,19 +205,39 @@ func (a *auditor) mask(acted []*Candidate) (*Ablation, []int) {
 	}
 	slices.Sort(mask)
 	mask = slices.Compact(mask)
-	if len(mask) > 0 {
-		var cue []int
-		for _, c := range acted {
-			cue = append(cue, texts(c.confOcc)...)
-		}
-		slices.Sort(cue)
-		t := ablate(a.m, a.confBase, a.conf.Gold, mask, words, slices.Compact(cue))
-		if t.P < 0.05 && t.AccuracyMasked > t.Accuracy {
-			return t, mask
-		}
-		return t, nil
+	if len(mask) == 0 && len(words) == 0 {
+		return nil, nil
 	}
-	return nil, nil
+	var cue []int
+	for _, c := range acted {
+		cue = append(cue, texts(c.confOcc)...)
+	}
+	slices.Sort(cue)
+	t := ablate(a.m, a.confBase, a.conf.Gold, mask, words, slices.Compact(cue))
+	if t.P < 0.05 && t.AccuracyMasked > t.Accuracy {
+		return t, mask
+	}
+	return t, nil
+}
+
+// wordsCarry reports whether the word weights carry cue c by its words ws
+// (cueWords) on the selection half, which took no part in confirming it:
+// the 95% interval of their word part of the centred logit of c's label
+// (as Filters.WordPart, over the selection half's texts holding c) lies
+// above 0. A part below 0 pushes away from the label: reading those words
+// as the unknown word would not take the cue out.
+func (a *auditor) wordsCarry(c *Candidate, ws []int32) bool {
+	if len(ws) == 0 {
+		return false
+	}
+	return a.wordPartOn(a.sel, c.selOcc, c, ws, "word part/selection "+c.Text).Low > 0
+}
+
+// Suggested reports whether a mask is suggested: filters (Mask), words
+// read as the unknown word by the word-weight path (MaskWords), or both.
+// In JSON a mask of words only has mask_words and no mask.
+func (act *Action) Suggested() bool {
+	return act.Mask != nil || len(act.MaskWords) > 0
 }
 
 // Remedy returns a copy of m, the audited model, with the suggested mask:
@@ -217,8 +246,8 @@ func (a *auditor) mask(acted []*Candidate) (*Ablation, []int) {
 // an error when no mask is suggested or a word is not in m's vocabulary
 // (m is not the model audited).
 func (act *Action) Remedy(m *cnn.Model) (*cnn.Model, error) {
-	if act.Mask == nil {
-		return nil, errors.New("audit: no filter mask is suggested")
+	if !act.Suggested() {
+		return nil, errors.New("audit: no mask is suggested")
 	}
 	ids := make([]int32, 0, len(act.MaskWords))
 	for _, w := range act.MaskWords {

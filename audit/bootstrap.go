@@ -58,3 +58,22 @@ func quantileSorted(xs []float64, q float64) float64 {
 	}
 	return xs[i] + (h-float64(i))*(xs[i+1]-xs[i])
 }
+
+// BootstrapMeanIn is BootstrapMean for values known to lie in [lo, hi]
+// (shares of edits, probability drops), with an interval that does not
+// collapse when every value is the same v, where every resample's mean is
+// v. The texts behind the values are then n draws none of which fell
+// elsewhere; the share q of texts whose value is not v lies below u, the
+// Clopper–Pearson upper bound for 0 of n (ClopperPearson), and the mean
+// below v + q·(hi − v) and above v − q·(v − lo): the interval is
+// [v − u·(v − lo), v + u·(hi − v)]. For shares that are all 0 it is
+// [0, u], for 12 texts about [0, 0.26] at 95%. Preconditions: as
+// BootstrapMean, lo ≤ every x ≤ hi.
+func BootstrapMeanIn(x []float64, lo, hi float64, B int, conf float64, seed uint64) Interval {
+	if len(x) == 0 || slices.ContainsFunc(x, func(v float64) bool { return v != x[0] }) {
+		return BootstrapMean(x, B, conf, seed)
+	}
+	v := x[0]
+	_, u := ClopperPearson(0, len(x), conf)
+	return Interval{Estimate: v, Low: v - u*(v-lo), High: v + u*(hi-v)}
+}

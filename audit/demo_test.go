@@ -37,6 +37,7 @@ func TestDemoPlantedCues(t *testing.T) {
 				results = append(results, d.res)
 				checkDemo(t, d.res)
 				checkExamples(t, d.res, d.held)
+				checkIntervalWidths(t, d.res)
 			})
 		}
 		st := Stability(results, 2)
@@ -50,6 +51,29 @@ func TestDemoPlantedCues(t *testing.T) {
 			}
 			if !found {
 				t.Errorf("%s: the cue holding %q is not stable over the seeds: %+v", variant, word, st)
+			}
+		}
+	}
+}
+
+// checkIntervalWidths: every reliance interval of every listed cue holds
+// its estimate and has a width, also where every text gives the same value
+// (a control that never flips a prediction: 0 of n is no proof of a rate
+// of 0; Clopper & Pearson 1934).
+func checkIntervalWidths(t *testing.T, res *Result) {
+	t.Helper()
+	for _, list := range [][]Candidate{res.Ranked, res.Task} {
+		for _, c := range list {
+			for _, r := range []*Reliance{c.Reliance, c.Confirmed} {
+				if r == nil || r.Measured == 0 {
+					continue
+				}
+				for name, x := range map[string]Interval{"flip_rate": r.FlipRate, "control_flip_rate": r.ControlFlipRate,
+					"net_flip_rate": r.NetFlipRate, "prob_drop": r.ProbDrop, "label_drop": r.LabelDrop, "decided": r.Decided} {
+					if !(x.Low <= x.Estimate && x.Estimate <= x.High && x.Low < x.High) {
+						t.Errorf("%q: %s %+v over %d texts: no width, or the estimate outside", c.Text, name, x, r.Measured)
+					}
+				}
 			}
 		}
 	}

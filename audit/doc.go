@@ -69,7 +69,11 @@
 // take them out of raw text (for corpus.MaskTokens and retraining, see
 // Retrain), the counterfactual split (the confirmation half without them)
 // with the model's accuracy there, and a filter mask only when it helps on
-// the confirmation half. Stability merges the audits of models trained
+// the confirmation half. On a model with word weights the mask also reads
+// the cues' own words as the unknown word there, and a cue no filter reads
+// but the word weights carry (its words' part of its label's logit above 0
+// on the selection half) is masked by its words alone; Action.Suggested
+// tells whether any mask is suggested. Stability merges the audits of models trained
 // with several seeds.
 //
 // # JSON

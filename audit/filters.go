@@ -168,12 +168,19 @@ func (a *auditor) cueWords(c *Candidate) []int32 {
 // wordPart is Filters.WordPart of cue c with words ws (cueWords, not
 // empty) on the confirmation half.
 func (a *auditor) wordPart(c *Candidate, ws []int32) *Interval {
+	return a.wordPartOn(a.conf, c.confOcc, c, ws, "word part "+c.Text)
+}
+
+// wordPartOn is the word part of cue c with words ws (as for
+// Filters.WordPart) over the texts of half d holding its occurrences occ,
+// with its 95% bootstrap interval seeded by key.
+func (a *auditor) wordPartOn(d Data, occ []span, c *Candidate, ws []int32, key string) *Interval {
 	C := a.m.Config.Classes
 	unk := a.m.WideRow(corpus.UNK)
 	var parts []float64
-	for _, i := range texts(c.confOcc) {
+	for _, i := range texts(occ) {
 		n, sum := 0, 0.0
-		for _, id := range a.conf.IDs[i] {
+		for _, id := range d.IDs[i] {
 			if id == corpus.PAD {
 				continue
 			}
@@ -192,7 +199,7 @@ func (a *auditor) wordPart(c *Candidate, ws []int32) *Interval {
 		}
 		parts = append(parts, sum/float64(max(1, n)))
 	}
-	iv := BootstrapMean(parts, a.opt.Bootstrap, 0.95, seedOf(a.opt.Seed, "word part "+c.Text))
+	iv := BootstrapMean(parts, a.opt.Bootstrap, 0.95, seedOf(a.opt.Seed, key))
 	return &iv
 }
 
@@ -281,25 +288,30 @@ func ablate(m *cnn.Model, b *basePass, gold []int, gs []int, words []int32, cueT
 // bestPrefix returns the shortest prefix of gs whose masking, with words
 // read as the unknown word by the word-weight path, gives the best
 // accuracy on the half (b, gold), and whether it beats the model as it is.
+// With no filters (gs empty) the words alone are the one mask tried, and
+// the prefix returned is empty.
 func bestPrefix(m *cnn.Model, b *basePass, gold []int, gs []int, words []int32) ([]int, bool) {
 	w := remedied(m, words)
-	base := 0
+	best, bestK, better := correct(b.pred, gold), 0, false
+	first := 1
+	if len(gs) == 0 && w != m {
+		first = 0 // a word-only mask
+	}
+	for k := first; k <= len(gs); k++ {
+		if right := correct(maskedPreds(m, w, b, gs[:k]), gold); right > best {
+			best, bestK, better = right, k, true
+		}
+	}
+	return slices.Clone(gs[:bestK]), better
+}
+
+// correct counts the predictions pred that match gold.
+func correct(pred, gold []int) int {
+	n := 0
 	for i, g := range gold {
-		if b.pred[i] == g {
-			base++
+		if pred[i] == g {
+			n++
 		}
 	}
-	best, bestK := base, 0
-	for k := 1; k <= len(gs); k++ {
-		right := 0
-		for i, p := range maskedPreds(m, w, b, gs[:k]) {
-			if p == gold[i] {
-				right++
-			}
-		}
-		if right > best {
-			best, bestK = right, k
-		}
-	}
-	return slices.Clone(gs[:bestK]), bestK > 0
+	return n
 }

@@ -99,9 +99,22 @@ var demoRuns = struct {
 // returned again.
 func demoAudit(t *testing.T, variant string, seed uint64) *demoRun {
 	t.Helper()
+	return demoAuditWith(t, variant, seed, false)
+}
+
+// wideDemoAudit is demoAudit of the demo corpus with seed 1 and the
+// word-weight path (train --wide: cnn.Config.Wide, WideLR
+// cnn.DefaultWideLR).
+func wideDemoAudit(t *testing.T) *demoRun {
+	t.Helper()
+	return demoAuditWith(t, "demo", 1, true)
+}
+
+func demoAuditWith(t *testing.T, variant string, seed uint64, wide bool) *demoRun {
+	t.Helper()
 	demoRuns.Lock()
 	defer demoRuns.Unlock()
-	key := fmt.Sprint(variant, "/", seed)
+	key := fmt.Sprint(variant, "/", seed, "/", wide)
 	if d, ok := demoRuns.m[key]; ok {
 		return d
 	}
@@ -110,6 +123,9 @@ func demoAudit(t *testing.T, variant string, seed uint64) *demoRun {
 	d.train, d.dev = all.Split(cnn.DefaultDevFrac, seed)
 	d.recipe.Train.Epochs = 8
 	d.recipe.Train.Seed = seed
+	if wide {
+		d.recipe.Model.Wide, d.recipe.Train.WideLR = true, cnn.DefaultWideLR
+	}
 	d.m = trainText(t, d.train, d.dev, d.recipe, seed)
 	d.held = data(t, d.m, d.test)
 	d.res = run(t, d.m, data(t, d.m, d.train), d.held, Options{Seed: seed})

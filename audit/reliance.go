@@ -16,7 +16,8 @@ import (
 // cue kept with the same neutral words inserted at random places (the
 // control). Both add the same words, so the difference between them is the
 // cue's own doing. Intervals are 95% percentile bootstrap intervals over
-// texts.
+// texts (BootstrapMeanIn: an exact bound where every text gives the same
+// value).
 type Reliance struct {
 	// Texts is the number of texts of the half holding the cue; Measured
 	// how many were edited (a seeded sample of at most Options.MaxTexts).
@@ -180,11 +181,11 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 	n := len(chosen)
 	f := j.perText(r, chosen, res)
 	seed := seedOf(j.seed, j.key+"/boot")
-	r.FlipRate = BootstrapMean(f.flip, j.boot, 0.95, seed)
-	r.ControlFlipRate = BootstrapMean(f.ctlFlip, j.boot, 0.95, seed+1)
-	r.NetFlipRate = BootstrapMean(f.net, j.boot, 0.95, seed+2)
-	r.ProbDrop = BootstrapMean(f.drop, j.boot, 0.95, seed+3)
-	r.LabelDrop = BootstrapMean(f.ldrop, j.boot, 0.95, seed+5)
+	r.FlipRate = BootstrapMeanIn(f.flip, 0, 1, j.boot, 0.95, seed)
+	r.ControlFlipRate = BootstrapMeanIn(f.ctlFlip, 0, 1, j.boot, 0.95, seed+1)
+	r.NetFlipRate = BootstrapMeanIn(f.net, -1, 1, j.boot, 0.95, seed+2)
+	r.ProbDrop = BootstrapMeanIn(f.drop, -1, 1, j.boot, 0.95, seed+3)
+	r.LabelDrop = BootstrapMeanIn(f.ldrop, -1, 1, j.boot, 0.95, seed+5)
 	// Decided: the net flips of the measured texts scaled to every text
 	// holding the cue, over all texts of the half.
 	decided := make([]float64, j.half.Len())
@@ -192,7 +193,7 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 	for k, i := range chosen {
 		decided[i] = f.net[k] * scale
 	}
-	r.Decided = BootstrapMean(decided, j.boot, 0.95, seed+4)
+	r.Decided = BootstrapMeanIn(decided, -scale, scale, j.boot, 0.95, seed+4)
 	r.FlipP = SignTest(r.More, r.Fewer)
 	r.P = SignTest(r.Lower, r.Higher)
 	r.Conflict = j.conflict(chosen, res)

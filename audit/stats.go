@@ -155,3 +155,26 @@ func Wilson(k, n int, conf float64) (lo, hi float64) {
 	half := z / den * math.Sqrt(p*(1-p)/nn+z*z/(4*nn*nn))
 	return max(0, mid-half), min(1, mid+half)
 }
+
+// ClopperPearson is the exact binomial interval (Clopper & Pearson 1934,
+// "The use of confidence or fiducial limits illustrated in the case of the
+// binomial", Biometrika 26:404–413) for k successes in n trials at the
+// two-sided level conf: the (1−conf)/2 quantile of Beta(k, n−k+1) and the
+// (1+conf)/2 quantile of Beta(k+1, n−k), with 0 for k = 0 and 1 for k = n.
+// Unlike a bootstrap it does not shrink to a point for 0 or n successes
+// (0 of 36 gives [0, 0.097]). It returns [0, 1] when n = 0.
+// Preconditions: 0 ≤ k ≤ n, 0 < conf < 1.
+func ClopperPearson(k, n int, conf float64) (lo, hi float64) {
+	if n <= 0 {
+		return 0, 1
+	}
+	a := (1 - conf) / 2
+	lo, hi = 0, 1
+	if k > 0 {
+		lo = distuv.Beta{Alpha: float64(k), Beta: float64(n - k + 1)}.Quantile(a)
+	}
+	if k < n {
+		hi = distuv.Beta{Alpha: float64(k + 1), Beta: float64(n - k)}.Quantile(1 - a)
+	}
+	return lo, hi
+}

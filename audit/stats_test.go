@@ -140,6 +140,62 @@ func TestWilsonSciPy(t *testing.T) {
 	}
 }
 
+// The Clopper–Pearson interval against SciPy's binomtest(k, n).
+// proportion_ci(0.95, method="exact"), run live; relative tolerance 1e-9
+// (both invert the regularized incomplete beta function in float64). The
+// cases hold 0 and all successes, where a bootstrap collapses to a point:
+// 0 of 36 (a cue in 12 texts, 3 draws each) must reach about 10%.
+func TestClopperPearsonSciPy(t *testing.T) {
+	cases := [][2]int{{0, 36}, {0, 12}, {12, 12}, {1, 1}, {0, 1}, {3, 10}, {512, 800}, {1, 1000}, {799, 800}}
+	var ref []refCase
+	for _, c := range cases {
+		ref = append(ref, refCase{"exact", []any{c[0], c[1]}})
+	}
+	want := scipyRef(t, ref)
+	for i, c := range cases {
+		var w [2]float64
+		if err := json.Unmarshal(want[i], &w); err != nil {
+			t.Fatal(err)
+		}
+		lo, hi := ClopperPearson(c[0], c[1], 0.95)
+		if !testref.Close(lo, w[0], 1e-12, 1e-9) || !testref.Close(hi, w[1], 1e-12, 1e-9) {
+			t.Errorf("ClopperPearson(%d, %d) = [%.12g, %.12g], SciPy [%.12g, %.12g]", c[0], c[1], lo, hi, w[0], w[1])
+		}
+	}
+	if _, hi := ClopperPearson(0, 36, 0.95); hi < 0.09 {
+		t.Errorf("0 of 36: upper bound %v, want about 0.097", hi)
+	}
+}
+
+// BootstrapMeanIn: values that are all the same give the Clopper–Pearson
+// bound for 0 of n texts scaled to the room left in [lo, hi], never a
+// point; other values give BootstrapMean's interval unchanged.
+func TestBootstrapMeanIn(t *testing.T) {
+	_, u := ClopperPearson(0, 12, 0.95)
+	for _, c := range []struct {
+		name           string
+		x              []float64
+		lo, hi         float64
+		wantLo, wantHi float64
+	}{
+		{"shares all 0", make([]float64, 12), 0, 1, 0, u},
+		{"shares all 1", []float64{1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1}, 0, 1, 1 - u, 1},
+		{"differences all 0", make([]float64, 12), -1, 1, -u, u},
+	} {
+		got := BootstrapMeanIn(c.x, c.lo, c.hi, 1000, 0.95, 1)
+		if got.Estimate != c.x[0] || !testref.Close(got.Low, c.wantLo, 1e-15, 1e-12) || !testref.Close(got.High, c.wantHi, 1e-15, 1e-12) {
+			t.Errorf("%s: %+v, want [%v, %v]", c.name, got, c.wantLo, c.wantHi)
+		}
+		if got.High-got.Low < 0.2 {
+			t.Errorf("%s: interval %+v of width below 0.2 for 12 texts", c.name, got)
+		}
+	}
+	x := []float64{0, 0, 1, 0.5, 0, 1, 0, 0, 0.25, 0}
+	if a, b := BootstrapMeanIn(x, 0, 1, 500, 0.95, 7), BootstrapMean(x, 500, 0.95, 7); a != b {
+		t.Errorf("mixed values: %+v, BootstrapMean %+v", a, b)
+	}
+}
+
 // Benjamini & Hochberg (1995), section 4.2 (from memory): the 15 p-values
 // of a study of myocardial infarction treatment (Neuhaus et al. 1992). At
 // q = 0.05 the step-up procedure rejects the four smallest, where the

@@ -213,7 +213,7 @@ func (r *Result) writeStory(w io.Writer) {
 
 // writeWhatToDo writes what to do about the cues acted on: retrain without
 // them (the commands, or the patterns), keep the verdict with marks, and
-// whether a filter mask helps.
+// whether a mask (filters, word weights or both) helps.
 func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 	it := map[bool]string{true: "it", false: "them"}[len(acted) == 1]
 	p("\nWhat to do: retrain without %s and compare both models on the test texts with and without %s.\n", it, it)
@@ -232,17 +232,31 @@ func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 	}
 	p("%s\n", markAdvice(acted))
 	if t := r.Action.Tried; t != nil {
-		if r.Action.Mask != nil {
-			p("Masking filters %s%s helps on test texts that took no part in choosing them: accuracy %s → %s\n",
-				ints(t.Filters), wideWords(t.Words), accuracy(t.Before), accuracy(t.After))
+		if r.Action.Suggested() {
+			p("%s helps on test texts that took no part in choosing %s: accuracy %s → %s\n",
+				maskTried(t), map[bool]string{true: "them", false: "it"}[len(t.Filters) > 0], accuracy(t.Before), accuracy(t.After))
 			p("(%d fixed, %d broken, one-sided exact McNemar p = %s).\n", t.Fixed, t.Broken, pval(t.P))
 		} else {
-			p("Masking the filters that read %s%s does not help on test texts that took no part in choosing them\n",
-				map[bool]string{true: "it", false: "them"}[len(acted) == 1], wideWords(t.Words))
-			p("(accuracy %s → %s, %d fixed, %d broken, one-sided exact McNemar p = %s): no filter mask is suggested.\n",
-				accuracy(t.Before), accuracy(t.After), t.Fixed, t.Broken, pval(t.P))
+			what := fmt.Sprintf("Masking the filters that read %s%s", it, wideWords(t.Words))
+			if len(t.Filters) == 0 {
+				what = fmt.Sprintf("Reading the words of %s, %s, as the unknown word by the word weights", it, quoted(t.Words))
+			}
+			p("%s does not help on test texts that took no part in choosing %s\n", what,
+				map[bool]string{true: "them", false: "it"}[len(t.Filters) > 0])
+			p("(accuracy %s → %s, %d fixed, %d broken, one-sided exact McNemar p = %s): no %s is suggested.\n",
+				accuracy(t.Before), accuracy(t.After), t.Fixed, t.Broken, pval(t.P), map[bool]string{true: "filter mask", false: "mask"}[len(t.Filters) > 0])
 		}
 	}
+}
+
+// maskTried names the mask t: "Masking filters 3, 7" with the words it
+// reads as the unknown word by the word weights (wideWords), or, for a mask
+// of words only, "Reading 'a', 'b' as the unknown word by the word weights".
+func maskTried(t *Ablation) string {
+	if len(t.Filters) == 0 {
+		return "Reading " + quoted(t.Words) + " as the unknown word by the word weights"
+	}
+	return "Masking filters " + ints(t.Filters) + wideWords(t.Words)
 }
 
 // writeTask writes the first cues relied on that read like the task, and
@@ -371,7 +385,7 @@ func (r *Result) WriteText(w io.Writer) error {
 	p("  words are grown into the longest phrase they keep in 80%% of their occurrences (or, failing that, into the form\n")
 	p("  they are written in, with no space, in most of them), brackets into the bracketed groups they open or close;\n")
 	p("  a cue passes when its p ≤ %s.\n", pval(r.Cutoff))
-	p("  Reliance: each text edited %s; intervals are 95%% bootstrap intervals over texts; the sign test is one-sided.\n",
+	p("  Reliance: each text edited %s; intervals are 95%% bootstrap intervals over texts (exact Clopper–Pearson bounds where every text gives the same value); the sign test is one-sided.\n",
 		"several times (the cue replaced by neutral words, or the same words put elsewhere)")
 	p("  %s.\n  %s.\n", r.ArtifactFormula, r.ScoreFormula)
 	return bw.Flush()
@@ -392,8 +406,8 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	} else if cr != nil {
 		p("   reliance: replacing it changes %s of %d test texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
 			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), interval(cr.NetFlipRate), pval(cr.FlipP))
-		p("     p(%s) drops %.3f (%.3f–%.3f), p(prediction) %.3f (%.3f–%.3f) (sign test p = %s)\n", c.Label,
-			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, pval(cr.P))
+		p("     p(%s) drops %.3f (%.3f–%.3f) on average, p(prediction) %.3f (%.3f–%.3f); p(%s) falls in %d texts, rises in %d (sign test p = %s)\n", c.Label,
+			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, c.Label, cr.Lower, cr.Higher, pval(cr.P))
 		for _, ex := range cr.Examples {
 			p("     %s → %s (gold %s): %s\n", ex.Pred, ex.After, ex.Gold, ex.Snippet)
 		}

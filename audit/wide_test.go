@@ -106,15 +106,8 @@ func TestWideRemedyDemo(t *testing.T) {
 	if testing.Short() {
 		t.Skip("trains a model; skipped with -short")
 	}
-	all := loadCSV(t, "demo", "train.csv")
-	test := loadCSV(t, "demo", "test.csv")
-	train, dev := all.Split(cnn.DefaultDevFrac, 1)
-	r := cnn.DefaultRecipe()
-	r.Train.Epochs = 8
-	r.Model.Wide, r.Train.WideLR = true, cnn.DefaultWideLR
-	m := trainText(t, train, dev, r, 1)
-	held := data(t, m, test)
-	res := run(t, m, data(t, m, train), held, Options{Seed: 1})
+	d := wideDemoAudit(t)
+	m, held, res := d.m, d.held, d.res
 	ablations := 0
 	for _, c := range res.Ranked {
 		if c.Filters == nil || c.Filters.Ablation == nil {
@@ -158,29 +151,8 @@ func TestWideRemedyDemo(t *testing.T) {
 	}
 	act := res.Action
 	act.Mask, act.MaskWords = tried.Filters, tried.Words // tried, suggested or not
-	rem, err := act.Remedy(m)
-	if err != nil {
-		t.Fatal(err)
-	}
-	right, fixed, broken := 0, 0, 0
-	for _, i := range res.Confirmation {
-		g := held.Gold[i]
-		before, after := argmaxOf(m.Forward(held.IDs[i]).Logits), argmaxOf(rem.Forward(held.IDs[i]).Logits)
-		if after == g {
-			right++
-		}
-		switch {
-		case after == g && before != g:
-			fixed++
-		case after != g && before == g:
-			broken++
-		}
-	}
+	checkRemedy(t, m, held, res, &act)
 	n := len(res.Confirmation)
-	if got := float64(right) / float64(n); got != tried.AccuracyMasked || fixed != tried.Fixed || broken != tried.Broken {
-		t.Errorf("remedied model on the %d confirming texts: accuracy %v, %d fixed, %d broken; the story: %v, %d, %d",
-			n, got, fixed, broken, tried.AccuracyMasked, tried.Fixed, tried.Broken)
-	}
 	bare, err := m.MaskedCopy(tried.Filters)
 	if err != nil {
 		t.Fatal(err)
@@ -194,6 +166,43 @@ func TestWideRemedyDemo(t *testing.T) {
 	t.Logf("mask %v with words %q: accuracy %.3f → %.3f (%d fixed, %d broken, p = %.2g), suggested %v; the filters alone: %.3f",
 		tried.Filters, tried.Words, tried.Accuracy, tried.AccuracyMasked, tried.Fixed, tried.Broken, tried.P, res.Action.Mask != nil,
 		float64(filtersOnly)/float64(n))
+}
+
+// checkRemedy: the model act.Remedy writes from m (what audit
+// --masked-out writes; cnn.Model.MaskedWordsCopy, reference forward pass
+// cnn.Model.Forward) scores on the confirmation half exactly the accuracy
+// before and after, and the fixed and broken counts, that res.Action.Tried
+// gives (the story's figures), with act's mask.
+func checkRemedy(t *testing.T, m *cnn.Model, held Data, res *Result, act *Action) {
+	t.Helper()
+	tried := res.Action.Tried
+	rem, err := act.Remedy(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	right, rightBefore, fixed, broken := 0, 0, 0, 0
+	for _, i := range res.Confirmation {
+		g := held.Gold[i]
+		before, after := argmaxOf(m.Forward(held.IDs[i]).Logits), argmaxOf(rem.Forward(held.IDs[i]).Logits)
+		if before == g {
+			rightBefore++
+		}
+		if after == g {
+			right++
+		}
+		switch {
+		case after == g && before != g:
+			fixed++
+		case after != g && before == g:
+			broken++
+		}
+	}
+	n := len(res.Confirmation)
+	got, gotBefore := float64(right)/float64(n), float64(rightBefore)/float64(n)
+	if got != tried.AccuracyMasked || gotBefore != tried.Accuracy || fixed != tried.Fixed || broken != tried.Broken {
+		t.Errorf("remedied model on the %d confirming texts: accuracy %v → %v, %d fixed, %d broken; the story: %v → %v, %d, %d",
+			n, gotBefore, got, fixed, broken, tried.Accuracy, tried.AccuracyMasked, tried.Fixed, tried.Broken)
+	}
 }
 
 // checkWordPart: on every confirming text holding cue c, the centred logit

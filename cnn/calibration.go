@@ -2,6 +2,7 @@ package cnn
 
 import (
 	"fmt"
+	"math"
 	"math/rand/v2"
 )
 
@@ -51,10 +52,40 @@ type CalibrationFigure struct {
 	// P is CalibrationTest's p-value: small when the model is not
 	// calibrated.
 	P float64 `json:"calibration_p"`
+	// Draws is the number of label sets behind P; P cannot fall below
+	// 1/(Draws+1).
+	Draws int `json:"calibration_draws"`
+	// AtFloor is true when no drawn label set reached the observed ECE:
+	// P is then 1/(Draws+1), a bound (the true p is at most that), not
+	// an estimate.
+	AtFloor bool `json:"calibration_p_at_floor"`
+}
+
+// NewCalibrationFigure joins the ECE's interval with CalibrationTest's
+// p-value over draws label sets. Precondition: draws ≥ 1.
+func NewCalibrationFigure(ece Interval, p float64, draws int) CalibrationFigure {
+	if draws < 1 {
+		panic("cnn: NewCalibrationFigure: draws < 1")
+	}
+	// CalibrationTest computes the floor with this very expression.
+	floor := float64(1) / float64(draws+1)
+	return CalibrationFigure{Interval: ece, P: p, Draws: draws, AtFloor: p <= floor}
 }
 
 // String writes the figure as the tool shows it:
-// "0.114 (0.090–0.140; test of perfect calibration p = 0.0005)".
+// "0.114 (0.090–0.140; test of perfect calibration p = 0.012)", or
+// "p ≤ 0.0005" when P is at its floor (the bound rounded up).
 func (f CalibrationFigure) String() string {
-	return fmt.Sprintf("%.3f (%.3f–%.3f; test of perfect calibration p = %.2g)", f.Estimate, f.Low, f.High, f.P)
+	p := fmt.Sprintf("= %.2g", f.P)
+	if f.AtFloor {
+		p = "≤ " + roundUp2(f.P)
+	}
+	return fmt.Sprintf("%.3f (%.3f–%.3f; test of perfect calibration p %s)", f.Estimate, f.Low, f.High, p)
+}
+
+// roundUp2 writes x > 0 with two significant digits, rounded up, so that
+// it stays a true upper bound.
+func roundUp2(x float64) string {
+	scale := math.Pow(10, 1-math.Floor(math.Log10(x)))
+	return fmt.Sprintf("%.2g", math.Ceil(x*scale-1e-9)/scale)
 }

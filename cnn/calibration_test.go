@@ -1,7 +1,9 @@
 package cnn
 
 import (
+	"encoding/json"
 	"math/rand/v2"
+	"strings"
 	"testing"
 )
 
@@ -55,5 +57,42 @@ func TestCalibrationTestEdges(t *testing.T) {
 	wrong := make([]bool, len(conf))
 	if p := CalibrationTest(conf, wrong, 0, 99, 1); p != 0.01 {
 		t.Errorf("8 wrong predictions at confidence 0.99: p = %v, want 1/100", p)
+	}
+}
+
+// A p-value at CalibrationTest's floor reads as a bound, "p ≤", rounded up
+// so that it stays true (1/2001 = 0.00049975… reads "≤ 0.0005"), and the
+// JSON says it is one; a p-value above the floor reads "p =".
+func TestCalibrationFigureFloor(t *testing.T) {
+	conf := []float64{0.99, 0.99, 0.99, 0.99, 0.99, 0.99, 0.99, 0.99}
+	wrong := make([]bool, len(conf))
+	iv := Interval{Estimate: 0.99, Low: 0.9, High: 0.99}
+	for _, tc := range []struct {
+		draws int
+		right []bool
+		floor bool
+		text  string
+	}{
+		{CalibrationDraws, wrong, true, "p ≤ 0.0005)"},
+		{99, wrong, true, "p ≤ 0.01)"},
+		{2999, wrong, true, "p ≤ 0.00034)"}, // 1/3000 = 0.000333…
+		{99, []bool{true, true, true, true, true, true, true, true}, false, "p = 1)"},
+	} {
+		p := CalibrationTest(conf, tc.right, 0, tc.draws, 1)
+		f := NewCalibrationFigure(iv, p, tc.draws)
+		if f.AtFloor != tc.floor || !strings.HasSuffix(f.String(), tc.text) {
+			t.Errorf("%d draws, p %g: at floor %v, %q; want %v, ending %q", tc.draws, p, f.AtFloor, f.String(), tc.floor, tc.text)
+		}
+		b, err := json.Marshal(f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var back map[string]any
+		if err := json.Unmarshal(b, &back); err != nil {
+			t.Fatal(err)
+		}
+		if back["calibration_p_at_floor"] != tc.floor || back["calibration_draws"] != float64(tc.draws) || back["calibration_p"] != p {
+			t.Errorf("%d draws: JSON %s", tc.draws, b)
+		}
 	}
 }

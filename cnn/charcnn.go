@@ -186,6 +186,12 @@ func (m *Model) charIDs(dst []int32, word string) []int32 {
 	return dst
 }
 
+// CharIDs returns the character ids of word as the layer reads them (see
+// charIDs): 1 begins, 2 ends, 3 is a rune outside the alphabet, 4 on the
+// alphabet's runes in order, 0 pads to Width. The model must have a
+// character layer.
+func (m *Model) CharIDs(word string) []int32 { return m.charIDs(nil, word) }
+
 // charTable fills tab (grown as needed) with every character's dot
 // products with every filter slot, tab[(c·Width + s)·Filters + f] =
 // W[f][s]·C[c], and returns it: a window's pre-activations are then the

@@ -23,7 +23,7 @@ func savedModel(t testing.TB) (*Model, []byte) {
 	m.Info = Info{Created: "2025-01-01T00:00:00Z", BestEpoch: 3, Notes: map[string]string{"data": "demo.csv"},
 		Dev: &Metrics{Accuracy: 0.9, MacroF1: 0.8},
 		Splits: &SplitRecord{Data: "demo.csv", DataAbs: "/data/demo.csv", DevFrac: 0.1, TestFrac: 0.1, Seed: 1,
-			Examples: 10, Fingerprint: "00000000000000ff", Train: 8, Dev: 1, Test: 1}}
+			Examples: 10, Fingerprint: "00000000000000ff", TestFile: "/data/test.csv", TestFingerprint: "00000000000000ee", Train: 8, Dev: 1, Test: 1}}
 	var buf bytes.Buffer
 	if err := m.encode(&buf); err != nil {
 		t.Fatal(err)

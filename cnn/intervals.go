@@ -177,7 +177,8 @@ func IntervalsOf(m Metrics) MetricIntervals {
 	}
 	if m.conf != nil {
 		e := BootstrapECE(m.conf, m.correct, m.bins, BootstrapResamples, IntervalLevel, BootstrapSeed)
-		out.ECE = &CalibrationFigure{Interval: e, P: CalibrationTest(m.conf, m.correct, m.bins, CalibrationDraws, BootstrapSeed)}
+		cal := NewCalibrationFigure(e, CalibrationTest(m.conf, m.correct, m.bins, CalibrationDraws, BootstrapSeed), CalibrationDraws)
+		out.ECE = &cal
 	}
 	return out
 }

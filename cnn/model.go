@@ -182,6 +182,12 @@ type SplitRecord struct {
 	// relabeling): corpus.Dataset.Fingerprint.
 	Examples    int    `json:"examples"`
 	Fingerprint string `json:"fingerprint"`
+	// DevFingerprint and TestFingerprint identify the examples of DevFile
+	// and TestFile as read, the same way, so that a later command can tell
+	// a file that changed since training; empty without such a file, and
+	// in model files written before they were recorded.
+	DevFingerprint  string `json:"dev_fingerprint,omitempty"`
+	TestFingerprint string `json:"test_fingerprint,omitempty"`
 	// Train, Dev and Test are the sizes of the three splits.
 	Train int `json:"train"`
 	Dev   int `json:"dev"`

@@ -5,7 +5,6 @@ import (
 	"bytes"
 	"encoding/csv"
 	"encoding/json"
-	"fmt"
 	"io"
 	"os"
 	"sort"
@@ -20,7 +19,7 @@ import (
 func Columns(path string, opt Options) ([]string, error) {
 	st, err := os.Stat(path)
 	if err != nil {
-		return nil, fmt.Errorf("corpus: %s: cannot open: %v: check the path: %w", path, err, ErrEmpty)
+		return nil, kindError(ErrEmpty, "corpus: %s: cannot open: %v: check the path", path, err)
 	}
 	format := opt.Format
 	if format == "" {
@@ -34,7 +33,7 @@ func Columns(path string, opt Options) ([]string, error) {
 	}
 	f, err := os.Open(path)
 	if err != nil {
-		return nil, fmt.Errorf("corpus: %s: cannot open: %v: %w", path, err, ErrEmpty)
+		return nil, kindError(ErrEmpty, "corpus: %s: cannot open: %v", path, err)
 	}
 	defer f.Close()
 	return readColumns(f, path, format, opt)
@@ -79,7 +78,7 @@ func readColumns(r io.Reader, path, format string, opt Options) ([]string, error
 				return nil, errAt(path, line, ErrTooLong, "line longer than %d bytes: raise --max-text-bytes (limit is %d × it)", limit, recordLimitFactor)
 			}
 			if err != nil {
-				return nil, fmt.Errorf("corpus: %s line %d: read error: %v: %w", path, line, err, ErrFormat)
+				return nil, kindError(ErrFormat, "corpus: %s line %d: read error: %v", path, line, err)
 			}
 			if len(bytes.TrimSpace(b)) == 0 {
 				continue
@@ -96,7 +95,7 @@ func readColumns(r io.Reader, path, format string, opt Options) ([]string, error
 			return keys, nil
 		}
 	case "":
-		return nil, errAt(path, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or pass the format (csv, tsv, jsonl, dir)")
+		return nil, errAt(path, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or give the format (--format csv, tsv, jsonl or dir)")
 	}
 	return nil, errAt(path, 0, ErrFormat, "unknown format %q: use csv, tsv, jsonl or dir", format)
 }
@@ -134,7 +133,7 @@ func LoadBytes(name string, data []byte, opt Options) (*Dataset, []Warning, erro
 	case "dir":
 		return nil, nil, errAt(name, 0, ErrFormat, "a folder cannot be read from memory: use Load with the folder's path")
 	case "":
-		return nil, nil, errAt(name, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or pass the format (csv, tsv, jsonl)")
+		return nil, nil, errAt(name, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or give the format (--format csv, tsv or jsonl)")
 	default:
 		return nil, nil, errAt(name, 0, ErrFormat, "unknown format %q: use csv, tsv or jsonl", format)
 	}

@@ -48,7 +48,7 @@ func MaskTokens(patterns []string) (*CueMasker, error) {
 	cm := &CueMasker{}
 	for i, p := range patterns {
 		if err := cm.add(p); err != nil {
-			return nil, fmt.Errorf("corpus: pattern %d %q: %v; fix the expression or write a plain token without slashes: %w", i+1, p, err, ErrCuePattern)
+			return nil, kindError(ErrCuePattern, "corpus: pattern %d %q: %v; fix the expression or write a plain token without slashes", i+1, p, err)
 		}
 	}
 	return cm, nil
@@ -70,6 +70,11 @@ func LoadCueMasker(path string) (*CueMasker, error) {
 // name is used in messages.
 func ParseCueMasker(name string, data []byte) (*CueMasker, error) {
 	cm := &CueMasker{}
+	// A byte order mark would otherwise become part of the first pattern.
+	data = bytes.TrimPrefix(data, []byte("\xef\xbb\xbf"))
+	if bytes.HasPrefix(data, []byte("\xff\xfe")) || bytes.HasPrefix(data, []byte("\xfe\xff")) {
+		return nil, kindError(ErrCuePattern, "corpus: %s line 1: the file is UTF-16: save it as UTF-8", name)
+	}
 	sc := bufio.NewScanner(bytes.NewReader(data))
 	sc.Buffer(make([]byte, 64<<10), 1<<20)
 	line := 0
@@ -80,14 +85,14 @@ func ParseCueMasker(name string, data []byte) (*CueMasker, error) {
 			continue
 		}
 		if !utf8.ValidString(s) {
-			return nil, fmt.Errorf("corpus: %s line %d: not UTF-8 text: save the file as UTF-8: %w", name, line, ErrCuePattern)
+			return nil, kindError(ErrCuePattern, "corpus: %s line %d: not UTF-8 text: save the file as UTF-8", name, line)
 		}
 		if err := cm.add(s); err != nil {
-			return nil, fmt.Errorf("corpus: %s line %d: bad regular expression %s: %v; fix it, or write a plain token without the slashes: %w", name, line, s, err, ErrCuePattern)
+			return nil, kindError(ErrCuePattern, "corpus: %s line %d: bad regular expression %s: %v; fix it, or write a plain token without the slashes", name, line, s, err)
 		}
 	}
 	if err := sc.Err(); err != nil {
-		return nil, fmt.Errorf("corpus: %s line %d: %v: keep lines under 1 MiB: %w", name, line+1, err, ErrCuePattern)
+		return nil, kindError(ErrCuePattern, "corpus: %s line %d: %v: keep lines under 1 MiB", name, line+1, err)
 	}
 	return cm, nil
 }

@@ -99,3 +99,22 @@ func FuzzCueMasker(f *testing.F) {
 		}
 	})
 }
+
+// A byte order mark at the start of a pattern file (as some editors save
+// UTF-8) is not part of the first pattern, as for data files (common
+// practice, no source: the Unicode standard allows a UTF-8 BOM).
+func TestParseCueMaskerByteOrderMark(t *testing.T) {
+	cm, err := ParseCueMasker("bom.txt", []byte("\xef\xbb\xbftkref\nkioskmail\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(cm.Patterns(), []string{"tkref", "kioskmail"}) {
+		t.Errorf("patterns %q, want [tkref kioskmail]", cm.Patterns())
+	}
+	if got, n := cm.Mask("a tkref here"); n != 1 || strings.Contains(got, "tkref") {
+		t.Errorf("first pattern after the mark: masked %q, %d matches, want 1", got, n)
+	}
+	if _, err := ParseCueMasker("utf16.txt", []byte("\xff\xfet\x00k\x00\n\x00")); !errors.Is(err, ErrCuePattern) || !strings.Contains(err.Error(), "UTF-16") {
+		t.Errorf("UTF-16 file: %v, want an error saying UTF-16", err)
+	}
+}

@@ -84,9 +84,9 @@ func (ws *warnings) result() []Warning {
 func errAt(path string, line int, sentinel error, format string, args ...any) error {
 	msg := fmt.Sprintf(format, args...)
 	if line > 0 {
-		return fmt.Errorf("corpus: %s line %d: %s: %w", path, line, msg, sentinel)
+		return kindError(sentinel, "corpus: %s line %d: %s", path, line, msg)
 	}
-	return fmt.Errorf("corpus: %s: %s: %w", path, msg, sentinel)
+	return kindError(sentinel, "corpus: %s: %s", path, msg)
 }
 
 // maxQuoted is the most bytes of one value of the input (a column name, a
@@ -123,4 +123,20 @@ func quoteList(ss []string) string {
 	}
 	b.WriteByte(']')
 	return b.String()
+}
+
+// kindedError is a bad-input message that wraps its sentinel without
+// repeating the sentinel's text, so that the message ends with its fix
+// ("… check the path") rather than a tag.
+type kindedError struct {
+	msg  string
+	kind error
+}
+
+func (e *kindedError) Error() string { return e.msg }
+func (e *kindedError) Unwrap() error { return e.kind }
+
+// kindError formats a message that errors.Is matches to kind.
+func kindError(kind error, format string, args ...any) error {
+	return &kindedError{msg: fmt.Sprintf(format, args...), kind: kind}
 }

@@ -155,3 +155,33 @@ func TestFolderSymlinks(t *testing.T) {
 		t.Errorf("the warning does not say the link is not followed: %s", symlinkSkipped)
 	}
 }
+
+// A bad-input message ends with its fix, not with the text of the sentinel
+// it wraps ("… check the path: corpus: no examples" read as two messages),
+// while errors.Is still tells its kind.
+func TestMessagesEndWithTheirFix(t *testing.T) {
+	dir := t.TempDir()
+	one := filepath.Join(dir, "one.csv")
+	if err := os.WriteFile(one, []byte("text,label\na ferry,ham\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	vec := filepath.Join(dir, "v.txt")
+	if err := os.WriteFile(vec, []byte("ferry 1 2\nquay 1\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	_, _, missing := Load(filepath.Join(dir, "missing.csv"), Options{})
+	_, _, single := Load(one, Options{})
+	_, vectors := ReadVectors(vec, nil)
+	_, pattern := ParseCueMasker("p.txt", []byte("/[0-9/\n"))
+	for _, c := range []struct {
+		err, kind error
+	}{{missing, ErrEmpty}, {single, ErrLabel}, {vectors, ErrVectors}, {pattern, ErrCuePattern}} {
+		if !errors.Is(c.err, c.kind) {
+			t.Errorf("%v: not of kind %v", c.err, c.kind)
+			continue
+		}
+		if strings.Contains(c.err.Error(), c.kind.Error()) {
+			t.Errorf("%q repeats its kind's text %q", c.err, c.kind)
+		}
+	}
+}

@@ -107,7 +107,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 	}
 	st, err := os.Stat(path)
 	if err != nil {
-		return nil, fmt.Errorf("corpus: %s: cannot open: %v: check the path: %w", path, err, ErrEmpty)
+		return nil, kindError(ErrEmpty, "corpus: %s: cannot open: %v: check the path", path, err)
 	}
 	format := opt.Format
 	if format == "" {
@@ -136,7 +136,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 		var f *os.File
 		f, err = os.Open(path)
 		if err != nil {
-			return nil, fmt.Errorf("corpus: %s: cannot open: %v: %w", path, err, ErrEmpty)
+			return nil, kindError(ErrEmpty, "corpus: %s: cannot open: %v", path, err)
 		}
 		defer f.Close()
 		if format == "jsonl" {
@@ -145,7 +145,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 			err = readDelimited(f, path, format, opt, ws, count)
 		}
 	case "":
-		return nil, errAt(path, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or pass the format (csv, tsv, jsonl, dir)")
+		return nil, errAt(path, 0, ErrFormat, "cannot tell the format from the name: use a .csv, .tsv or .jsonl extension, or give the format (--format csv, tsv, jsonl or dir)")
 	default:
 		return nil, errAt(path, 0, ErrFormat, "unknown format %q: use csv, tsv, jsonl or dir", format)
 	}
@@ -260,6 +260,24 @@ func pickColumns(names []string, opt Options, path string, line int, header bool
 		return 0, 0, errAt(path, line, ErrColumn, "text and label are the same column %s: pass different --text-col and --label-col", quote(names[ti]))
 	}
 	return ti, li, nil
+}
+
+// columnNote says which text and label columns (what: "column" or
+// "field") were taken when either was found by a name other than the
+// default one (text, label) rather than named by an option, so that a
+// wrong guess is seen; "" when none was. label is "" for no label column.
+func columnNote(opt Options, text, label, what string) string {
+	var taken, opts []string
+	if opt.TextCol == "" && !strings.EqualFold(strings.TrimSpace(text), "text") {
+		taken, opts = append(taken, fmt.Sprintf("the text %s %s", what, quote(text))), append(opts, "--text-col")
+	}
+	if opt.LabelCol == "" && label != "" && !strings.EqualFold(strings.TrimSpace(label), "label") {
+		taken, opts = append(taken, fmt.Sprintf("the label %s %s", what, quote(label))), append(opts, "--label-col")
+	}
+	if len(taken) == 0 {
+		return ""
+	}
+	return fmt.Sprintf("took %s, chosen by name: give %s to choose another", strings.Join(taken, " and "), strings.Join(opts, " or "))
 }
 
 // columnsHint names the columns found and the fixes for an unrecognised
@@ -384,6 +402,13 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 	if err != nil {
 		return err
 	}
+	label := ""
+	if li >= 0 {
+		label = names[li]
+	}
+	if note := columnNote(opt, names[ti], label, "column"); note != "" {
+		ws.add(path, 1, "%s", note)
+	}
 	cr := d.cr
 	cr.FieldsPerRecord = len(names)
 	nextLine := 2 // line after the last record read (for errors without a position)
@@ -461,7 +486,7 @@ func (d *delimited) wrap(err error, line int) error {
 		}
 		return errAt(path, pe.StartLine, ErrFormat, "%v", pe.Err)
 	}
-	return fmt.Errorf("corpus: %s line %d: read error: %v: %w", path, line, err, ErrFormat)
+	return kindError(ErrFormat, "corpus: %s line %d: read error: %v", path, line, err)
 }
 
 // header reads the header row, the first record, and returns its column
@@ -491,7 +516,7 @@ func (d *delimited) header(format string, ws *warnings) ([]string, error) {
 			if strings.Contains(h, alt.sep) && (format != "csv" || alt.sep != ",") && (format != "tsv" || alt.sep != "\t") {
 				fix := "convert it to comma- or tab-separated"
 				if alt.fix != "" {
-					fix = "name it ." + alt.fix + " or pass the format " + alt.fix
+					fix = "name it ." + alt.fix + " or read it as " + alt.fix + " (--format " + alt.fix + ")"
 				}
 				return nil, errAt(path, 1, ErrFormat, "header has one column %s containing %ss: the file looks %s-separated, not %s; %s", quote(h), alt.name, alt.name, format, fix)
 			}
@@ -560,6 +585,9 @@ func readJSONL(r io.Reader, path string, opt Options, ws *warnings, fn func(Exam
 		if err != nil {
 			return err
 		}
+		if note := columnNote(opt, keys.text, keys.label, "field"); keys.text != "" && note != "" {
+			ws.add(path, lr.line, "%s", note)
+		}
 		if ok {
 			if err := emitJSONL(text, label, path, lr.line, opt, ws, fn); err != nil {
 				return err
@@ -594,7 +622,7 @@ func (lr *jsonlReader) next() ([]byte, error) {
 	case err == errRecordLimit:
 		return nil, errAt(lr.path, lr.line, ErrTooLong, "line longer than %d bytes: raise --max-text-bytes (limit is %d × it)", lr.limit, recordLimitFactor)
 	default:
-		return nil, fmt.Errorf("corpus: %s line %d: read error: %v: %w", lr.path, lr.line, err, ErrFormat)
+		return nil, kindError(ErrFormat, "corpus: %s line %d: read error: %v", lr.path, lr.line, err)
 	}
 }
 
@@ -884,7 +912,7 @@ func jsonField(obj map[string]json.RawMessage, key string, text bool) (string, e
 func readDir(root string, opt Options, ws *warnings, fn func(Example) error) error {
 	entries, err := os.ReadDir(root)
 	if err != nil {
-		return fmt.Errorf("corpus: %s: cannot read folder: %v: %w", root, err, ErrEmpty)
+		return kindError(ErrEmpty, "corpus: %s: cannot read folder: %v", root, err)
 	}
 	ignored := 0
 	for _, de := range entries {
@@ -927,7 +955,7 @@ func readLabelDir(root, name, label string, opt Options, ws *warnings, fn func(E
 	sub := filepath.Join(root, name)
 	files, err := os.ReadDir(sub)
 	if err != nil {
-		return fmt.Errorf("corpus: %s: cannot read folder: %v: %w", sub, err, ErrEmpty)
+		return kindError(ErrEmpty, "corpus: %s: cannot read folder: %v", sub, err)
 	}
 	skipped, nested, kept := 0, 0, 0
 	for _, fe := range files {
@@ -968,7 +996,7 @@ func readExampleFile(root, rel, label string, opt Options, ws *warnings, fn func
 	full := filepath.Join(root, rel)
 	text, long, err := readFileLimited(full, opt.MaxTextBytes)
 	if err != nil {
-		return false, fmt.Errorf("corpus: %s: cannot read: %v: %w", full, err, ErrEmpty)
+		return false, kindError(ErrEmpty, "corpus: %s: cannot read: %v", full, err)
 	}
 	if long {
 		ws.add(full, 0, "text longer than %d bytes truncated (raise --max-text-bytes to keep more)", opt.MaxTextBytes)

@@ -303,3 +303,48 @@ func TestLoadJSONLManyLines(t *testing.T) {
 }
 
 func itoa(i int) string { return strconv.Itoa(i) }
+
+// A text or label column found by a name other than text and label is
+// named in a warning, so that a wrong guess is seen; a column named by an
+// option, or the default names, give none.
+func TestGuessedColumnsAreNamed(t *testing.T) {
+	dir := t.TempDir()
+	write := func(name, body string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte(body), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	guessed := write("g.csv", "text,category\nthe ferry was late,complaint\nlovely crew,praise\n")
+	jsonl := write("g.jsonl", "\n{\"review\":\"the ferry was late\",\"label\":\"complaint\"}\n{\"review\":\"lovely crew\",\"label\":\"praise\"}\n")
+	plain := write("p.csv", "text,label\nthe ferry was late,complaint\nlovely crew,praise\n")
+	cases := []struct {
+		name, path string
+		opt        Options
+		want       string // "" for no note
+	}{
+		{"label by name", guessed, Options{}, `line 1: took the label column "category", chosen by name: give --label-col to choose another`},
+		{"text by name in JSON lines", jsonl, Options{}, `line 2: took the text field "review", chosen by name: give --text-col to choose another`},
+		{"label named by the option", guessed, Options{LabelCol: "category"}, ""},
+		{"default names", plain, Options{}, ""},
+	}
+	for _, c := range cases {
+		_, ws, err := Load(c.path, c.opt)
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		var notes []string
+		for _, w := range ws {
+			if strings.Contains(w.Message, "chosen by name") {
+				notes = append(notes, w.String())
+			}
+		}
+		switch {
+		case c.want == "" && len(notes) > 0:
+			t.Errorf("%s: notes %q, want none", c.name, notes)
+		case c.want != "" && (len(notes) != 1 || !strings.HasSuffix(notes[0], c.want)):
+			t.Errorf("%s: notes %q, want one ending %q", c.name, notes, c.want)
+		}
+	}
+}

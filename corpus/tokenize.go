@@ -89,7 +89,7 @@ func NewTokenizer(cfg TokenizerConfig) (*Tokenizer, error) {
 	if cfg.File != "" && len(cfg.FileJSON) == 0 {
 		b, err := os.ReadFile(cfg.File)
 		if err != nil {
-			return nil, fmt.Errorf("corpus: %s: cannot read tokenizer file: %v: %w", cfg.File, err, ErrFormat)
+			return nil, kindError(ErrFormat, "corpus: %s: cannot read tokenizer file: %v", cfg.File, err)
 		}
 		t.cfg.FileJSON = b
 	}
@@ -100,7 +100,7 @@ func NewTokenizer(cfg TokenizerConfig) (*Tokenizer, error) {
 		}
 		u, err := loadUserTokenizer(t.cfg.FileJSON)
 		if err != nil {
-			return nil, fmt.Errorf("corpus: %s: not a tokenizer file in the library's JSON format: %v: %w", name, err, ErrFormat)
+			return nil, kindError(ErrFormat, "corpus: %s: not a tokenizer file in the library's JSON format: %v", name, err)
 		}
 		t.user = u
 	}
@@ -168,11 +168,11 @@ func (t *Tokenizer) TrainSubword(texts []string, size int) (err error) {
 		}
 	}
 	if len(counts) == 0 {
-		return fmt.Errorf("corpus: subword training: no words in the training texts: %w", ErrEmpty)
+		return kindError(ErrEmpty, "corpus: subword training: no words in the training texts")
 	}
 	defer func() {
 		if r := recover(); r != nil {
-			err = fmt.Errorf("corpus: subword training failed in the tokenizer library: %v: %w", r, ErrFormat)
+			err = kindError(ErrFormat, "corpus: subword training failed in the tokenizer library: %v", r)
 		}
 	}()
 	// The library's WordPiece trainer mangles its "##" prefix (v0.3.0), so

@@ -52,12 +52,16 @@ func ReadVectors(path string, keep func(word string) bool) (*Vectors, error) {
 	if strings.HasSuffix(path, ".gz") {
 		gz, err := gzip.NewReader(f)
 		if err != nil {
-			return nil, fmt.Errorf("corpus: %s: not a gzip file (%v): decompress it or drop the .gz ending: %w", path, err, ErrVectors)
+			return nil, kindError(ErrVectors, "corpus: %s: not a gzip file (%v): decompress it or drop the .gz ending", path, err)
 		}
 		defer gz.Close()
 		r = gz
 	}
 	br := bufio.NewReaderSize(r, maxVectorLine+1)
+	// A byte order mark would otherwise become part of the first word.
+	if err := skipBOM(br, path); err != nil {
+		return nil, err
+	}
 	head, err := readVectorHead(path, br)
 	if err != nil {
 		return nil, err
@@ -90,13 +94,13 @@ type vectorHead struct {
 func readVectorHead(path string, br *bufio.Reader) (vectorHead, error) {
 	first, err := br.ReadSlice('\n')
 	if errors.Is(err, bufio.ErrBufferFull) {
-		return vectorHead{}, fmt.Errorf("corpus: %s line 1: line longer than %d bytes: is this a word-vector file?: %w", path, maxVectorLine, ErrVectors)
+		return vectorHead{}, kindError(ErrVectors, "corpus: %s line 1: line longer than %d bytes: is this a word-vector file?", path, maxVectorLine)
 	}
 	if err != nil && err != io.EOF {
 		return vectorHead{}, fmt.Errorf("corpus: %s: reading: %w", path, err)
 	}
 	if len(bytes.TrimSpace(first)) == 0 && err == io.EOF {
-		return vectorHead{}, fmt.Errorf("corpus: %s: the vector file is empty: %w", path, ErrVectors)
+		return vectorHead{}, kindError(ErrVectors, "corpus: %s: the vector file is empty", path)
 	}
 	first = append([]byte(nil), first...)
 	h := vectorHead{startLine: 1}
@@ -107,12 +111,12 @@ func readVectorHead(path string, br *bufio.Reader) (vectorHead, error) {
 		h.count, _ = strconv.Atoi(fields[0])
 		first, h.startLine = nil, 2
 	case len(fields) < 2:
-		return vectorHead{}, fmt.Errorf("corpus: %s line 1: expected a word followed by its numbers: %w", path, ErrVectors)
+		return vectorHead{}, kindError(ErrVectors, "corpus: %s line 1: expected a word followed by its numbers", path)
 	default:
 		h.dim = len(fields) - 1
 	}
 	if h.dim < 1 || h.dim > 100000 {
-		return vectorHead{}, fmt.Errorf("corpus: %s line 1: dimension %d is out of range (1 to 100000): %w", path, h.dim, ErrVectors)
+		return vectorHead{}, kindError(ErrVectors, "corpus: %s line 1: dimension %d is out of range (1 to 100000)", path, h.dim)
 	}
 	h.first = first
 	return h, nil
@@ -187,7 +191,7 @@ func cutVectorBlocks(path string, br *bufio.Reader, head vectorHead, jobs chan<-
 		cut := bytes.LastIndexByte(buf, '\n')
 		if cut < 0 {
 			if len(buf) > maxVectorLine {
-				return fmt.Errorf("corpus: %s line %d: line longer than %d bytes: is this a word-vector file?: %w", path, line, maxVectorLine, ErrVectors)
+				return kindError(ErrVectors, "corpus: %s line %d: line longer than %d bytes: is this a word-vector file?", path, line, maxVectorLine)
 			}
 			continue
 		}
@@ -280,7 +284,7 @@ func parseVectorBlock(path string, data []byte, first, dim int, keep func(string
 			line, data = data, nil
 		}
 		if len(line) > maxVectorLine {
-			p.err = fmt.Errorf("corpus: %s line %d: line longer than %d bytes: is this a word-vector file?: %w", path, n, maxVectorLine, ErrVectors)
+			p.err = kindError(ErrVectors, "corpus: %s line %d: line longer than %d bytes: is this a word-vector file?", path, n, maxVectorLine)
 			return p
 		}
 		line = bytes.TrimSpace(line)
@@ -289,7 +293,7 @@ func parseVectorBlock(path string, data []byte, first, dim int, keep func(string
 		}
 		sp := bytes.IndexFunc(line, func(r rune) bool { return r == ' ' || r == '\t' })
 		if sp < 0 {
-			p.err = fmt.Errorf("corpus: %s line %d: a word without numbers; each line must be a word and %d numbers: %w", path, n, dim, ErrVectors)
+			p.err = kindError(ErrVectors, "corpus: %s line %d: a word without numbers; each line must be a word and %d numbers", path, n, dim)
 			return p
 		}
 		word := string(line[:sp])
@@ -311,14 +315,14 @@ func parseVectorBlock(path string, data []byte, first, dim int, keep func(string
 			}
 			x, ok := parseFloat32(rest[:end])
 			if !ok {
-				p.err = fmt.Errorf("corpus: %s line %d: %s is not a finite number: %w", path, n, quote(string(rest[:end])), ErrVectors)
+				p.err = kindError(ErrVectors, "corpus: %s line %d: %s is not a finite number", path, n, quote(string(rest[:end])))
 				return p
 			}
 			p.data = append(p.data, x)
 			rest = rest[end:]
 		}
 		if got := len(p.data) - start; got != dim {
-			p.err = fmt.Errorf("corpus: %s line %d: %d numbers for %s, but the file's dimension is %d: %w", path, n, got, quote(word), dim, ErrVectors)
+			p.err = kindError(ErrVectors, "corpus: %s line %d: %d numbers for %s, but the file's dimension is %d", path, n, got, quote(word), dim)
 			return p
 		}
 		p.words = append(p.words, word)

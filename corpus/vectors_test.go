@@ -207,3 +207,19 @@ func TestVectorsHeaderReservesWhatTheFileCanHold(t *testing.T) {
 		}
 	}
 }
+
+// A byte order mark at the start of a vector file is not part of the first
+// word or the header, as for data files (common practice, no source).
+func TestReadVectorsByteOrderMark(t *testing.T) {
+	for _, body := range []string{"\xef\xbb\xbf2 2\nferry 1 2\nquay 3 4\n", "\xef\xbb\xbfferry 1 2\nquay 3 4\n"} {
+		for _, name := range []string{"bom.txt", "bom.txt.gz"} {
+			v, err := ReadVectors(writeVectorFile(t, name, body), nil)
+			if err != nil {
+				t.Fatalf("%s %q: %v", name, body, err)
+			}
+			if strings.Join(v.Words, " ") != "ferry quay" || fmt.Sprint(v.Vector(0)) != "[1 2]" {
+				t.Errorf("%s %q: words %q, first vector %v", name, body, v.Words, v.Vector(0))
+			}
+		}
+	}
+}

@@ -129,8 +129,9 @@ type MethodFaith struct {
 // defined of A's value minus B's, with a bootstrap interval, and P the
 // two-sided p-value of the Wilcoxon signed-rank test of those differences
 // (Wilcoxon 1945, "Individual Comparisons by Ranking Methods", Biometrics
-// Bulletin; zero differences dropped, normal approximation with the tie
-// correction, no continuity correction).
+// Bulletin; zero differences dropped; the exact distribution for at most
+// 50 differences with no zero or tie, else the normal approximation with
+// the tie correction and no continuity correction: see WilcoxonSignedRank).
 type MethodPair struct {
 	A       string   `json:"a"`
 	B       string   `json:"b"`

@@ -6,8 +6,6 @@ import (
 	"math/rand/v2"
 	"slices"
 
-	"gonum.org/v1/gonum/stat/distuv"
-
 	"telltale/cnn"
 )
 
@@ -138,14 +136,20 @@ func bootstrapMean(xs []float64, b int, rng *rand.Rand) Interval {
 // test that the differences d are symmetric about zero (Wilcoxon 1945):
 // zero differences are dropped, the others ranked by absolute value with
 // average ranks for ties, and W+ (the sum of the ranks of the positive
-// ones) compared with its normal approximation, mean n(n+1)/4 and variance
-// n(n+1)(2n+1)/24 − Σ(t³−t)/48 over the groups of t tied values, with no
-// continuity correction. It also returns n; the p-value is NaN when n = 0
-// and 1 when every rank ties.
+// ones) compared with its distribution under the null. As SciPy's
+// scipy.stats.wilcoxon does by default, that distribution is the exact one
+// when there are at most wilcoxonExactMax differences and none is zero;
+// unlike SciPy 1.10, which then truncates a W+ of average ranks, ties
+// also send the test to the normal approximation: mean n(n+1)/4, variance
+// n(n+1)(2n+1)/24 − Σ(t³−t)/48 over the groups of t tied values, no
+// continuity correction, its tail taken with erfc so that it does not
+// underflow before about 1e-300. It also returns n; the p-value is NaN
+// when n = 0 and 1 when every rank ties.
 func WilcoxonSignedRank(d []float64) (p float64, n int) {
-	var abs []float64
+	var nz, abs []float64
 	for _, v := range d {
 		if v != 0 {
+			nz = append(nz, v)
 			abs = append(abs, math.Abs(v))
 		}
 	}
@@ -158,12 +162,6 @@ func WilcoxonSignedRank(d []float64) (p float64, n int) {
 		order[i] = i
 	}
 	slices.SortFunc(order, func(a, b int) int { return cmp.Compare(abs[a], abs[b]) })
-	var nz []float64
-	for _, v := range d {
-		if v != 0 {
-			nz = append(nz, v)
-		}
-	}
 	var wPlus, ties float64
 	for i := 0; i < n; {
 		j := i
@@ -180,6 +178,9 @@ func WilcoxonSignedRank(d []float64) (p float64, n int) {
 		ties += t*t*t - t
 		i = j + 1
 	}
+	if ties == 0 && n == len(d) && n <= wilcoxonExactMax {
+		return wilcoxonExact(n, int(wPlus)), n
+	}
 	fn := float64(n)
 	mu := fn * (fn + 1) / 4
 	v := fn*(fn+1)*(2*fn+1)/24 - ties/48
@@ -187,7 +188,44 @@ func WilcoxonSignedRank(d []float64) (p float64, n int) {
 		return 1, n
 	}
 	z := (wPlus - mu) / math.Sqrt(v)
-	return 2 * distuv.UnitNormal.Survival(math.Abs(z)), n
+	// 2·(1 − Φ(|z|)) = erfc(|z|/√2); 1 − erf would reach 0 near |z| = 8.
+	return math.Erfc(math.Abs(z) / math.Sqrt2), n
+}
+
+// wilcoxonExactMax is the most differences for which WilcoxonSignedRank
+// uses the exact distribution, SciPy's threshold.
+const wilcoxonExactMax = 50
+
+// wilcoxonExact is the exact two-sided p-value of W+ = w among n untied
+// nonzero differences: twice the smaller tail of the number of subsets of
+// {1…n} with rank sum ≤ w or ≥ w over 2ⁿ, capped at 1, and 1 at the
+// centre, as SciPy computes it. The counts are below 2⁵⁰ for n ≤ 50, exact
+// in float64. Precondition: 0 ≤ w ≤ n(n+1)/2.
+func wilcoxonExact(n, w int) float64 {
+	top := n * (n + 1) / 2
+	if w < 0 || w > top {
+		panic("explain: wilcoxonExact: rank sum out of range")
+	}
+	counts := make([]float64, top+1)
+	counts[0] = 1
+	for r := 1; r <= n; r++ {
+		for s := r * (r + 1) / 2; s >= r; s-- {
+			counts[s] += counts[s-r]
+		}
+	}
+	if 2*w == top {
+		return 1
+	}
+	var below, above float64
+	for s, c := range counts {
+		if s <= w {
+			below += c
+		}
+		if s >= w {
+			above += c
+		}
+	}
+	return min(1, 2*min(below, above)/math.Exp2(float64(n)))
 }
 
 // MarshalJSON writes NaN figures (nothing to average) as null.

@@ -207,13 +207,17 @@ const (
 
 // record is how split n of cs was made, in the form telltale train writes
 // (cnn.SplitRecord): the data file as opened and its absolute path, the test
-// file's absolute path, the shares held out, the seed, and the data's size
-// and fingerprint, by which a later command finds the same splits again.
+// file's absolute path and fingerprint, the shares held out, the seed, and
+// the data's size and fingerprint, by which a later command finds the same
+// splits again (and tells a test file that changed since).
 // The demo corpus is named by the files it is made from.
 func (cs *corpusState) record(devFrac, testFrac float64, seed uint64, n *corpusState) cnn.SplitRecord {
 	r := cnn.SplitRecord{Data: cs.Path, DataAbs: absPath(cs.Path), TestFile: absPath(cs.TestPath), DevFrac: devFrac, TestFrac: testFrac,
 		Seed: seed, Examples: len(cs.All.Examples), Fingerprint: cs.All.Fingerprint(),
 		Train: len(n.Train.Examples), Dev: len(n.Dev.Examples), Test: len(n.Test.Examples)}
+	if cs.TestFile != nil {
+		r.TestFingerprint = cs.TestFile.Fingerprint()
+	}
 	if cs.Path == "" {
 		// The built-in copies of files of the repository: named relative
 		// to it, as they have no place on this machine.

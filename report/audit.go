@@ -38,7 +38,7 @@ func auditLayout(r *audit.Result, priors []float64, modelPath string) *auditView
 		"halved at random into %s that choose the cues and %s that confirm them: every figure below comes from the confirming half unless it says otherwise.",
 		plural(r.TrainTexts, "text"), plural(r.HeldoutTexts, "text"), count(r.SelectionTexts), count(r.ConfirmationTexts))}
 	for _, para := range strings.Split(r.Story(), "\n\n") {
-		av.Story = append(av.Story, strings.TrimRight(para, "\n"))
+		av.Story = append(av.Story, reflow(para))
 	}
 	av.Action = actionLayout(r, modelPath)
 	for i := range r.Ranked {
@@ -49,6 +49,31 @@ func auditLayout(r *audit.Result, priors []float64, modelPath string) *auditView
 	}
 	av.Method = AuditMethod(r)
 	return av
+}
+
+// reflow undoes the line breaks a paragraph of the audit's story has for
+// the terminal, so that the page wraps it to its own width: a line
+// indented by none or by more than four spaces continues the one before;
+// an item (indented by two: "  1. …") starts a line, and a command or
+// pattern (indented by four) stands on a line of its own, as does what
+// follows it. The lines kept are trimmed and joined by "\n".
+func reflow(para string) string {
+	var out []string
+	join := false
+	for _, line := range strings.Split(para, "\n") {
+		text := strings.TrimSpace(line)
+		if text == "" {
+			continue
+		}
+		indent := len(line) - len(strings.TrimLeft(line, " "))
+		if join && len(out) > 0 && (indent == 0 || indent > 4) {
+			out[len(out)-1] += " " + text
+		} else {
+			out = append(out, text)
+		}
+		join = indent != 4
+	}
+	return strings.Join(out, "\n")
 }
 
 // ActionEvidence is the action of a cue audit in plain words, every figure
@@ -88,25 +113,29 @@ func DescribeAction(r *audit.Result) *ActionEvidence {
 		}
 	}
 	if t := a.Tried; t != nil {
-		verdict := "does not help there, so no filter mask is suggested"
-		if a.Mask != nil {
+		verdict := "does not help there, so no mask is suggested"
+		if a.Suggested() {
 			verdict = "helps there"
 		}
-		ae.Mask = fmt.Sprintf("Masking filters %s%s, chosen on the choosing half, %s: accuracy on the confirming half %s → %s "+
-			"(%s fixed, %s broken, one-sided exact McNemar p %s).", ints(t.Filters), wideWords(t.Words), verdict, accuracy(t.Before), accuracy(t.After),
+		ae.Mask = fmt.Sprintf("%s, chosen on the choosing half, %s: accuracy on the confirming half %s → %s "+
+			"(%s fixed, %s broken, one-sided exact McNemar p %s).", maskEdit(t.Filters, t.Words), verdict, accuracy(t.Before), accuracy(t.After),
 			count(t.Fixed), count(t.Broken), pvalue(t.P))
 	}
 	return ae
 }
 
-// wideWords says, after a filter mask, that the mask also reads words as
-// the unknown word by the word-weight path (audit.Ablation.Words): "" for
-// none.
-func wideWords(words []string) string {
-	if len(words) == 0 {
-		return ""
+// maskEdit names what a mask changes: its filters, and the words it reads
+// as the unknown word by the word-weight path (audit.Ablation.Words); a
+// mask may hold either or both.
+func maskEdit(filters []int, words []string) string {
+	read := quotedWords(words) + " read as the unknown word by the word weights"
+	switch {
+	case len(words) == 0:
+		return "Masking filters " + ints(filters)
+	case len(filters) == 0:
+		return "Having " + read
 	}
-	return " with " + quotedWords(words) + " read as the unknown word by the word weights"
+	return "Masking filters " + ints(filters) + " with " + read
 }
 
 // quotedWords writes words in quotes, comma-separated.
@@ -130,7 +159,7 @@ func actionLayout(r *audit.Result, modelPath string) *actionView {
 		av.Counterfactual = append(av.Counterfactual, kv{f[0], f[1]})
 	}
 	if a.Mask != nil && len(a.MaskWords) > 0 {
-		av.Mask += " telltale mask masks filters only: telltale audit --masked-out and the window's audit pane write the model with the word weights set too."
+		av.Mask += " telltale mask --words with the words above (and --filters with any filters above) writes it, as do telltale audit --masked-out and the window's audit pane."
 	}
 	if a.Mask != nil && len(a.MaskWords) == 0 {
 		model := cmpOr(modelPath, "MODEL")
@@ -149,8 +178,9 @@ func AuditMethod(r *audit.Result) []string {
 			"bracketed groups it opens or closes; a cue in at least %d training texts passes at p ≤ %s.",
 			AssociationTestName(r.Test), count(r.Tests), CorrectionName(r.Correction), r.Alpha, r.MinSupport, strings.TrimPrefix(pvalue(r.Cutoff), "= ")),
 		"Reliance: each test text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
-			"kept with the same words put elsewhere; intervals are 95% bootstrap intervals over texts, sign tests are exact and one-sided. " +
-			"A cue is acted on when it is artifact-like, relied on in the choosing half and confirmed in the confirming half (Benjamini–Hochberg over the cues put to the test).",
+			"kept with the same words put elsewhere; intervals are 95% bootstrap intervals over texts (exact Clopper–Pearson bounds where every text gives the same value), sign tests are exact and one-sided. " +
+			"A cue is acted on when it is artifact-like, relied on in the choosing half and confirmed in the confirming half: there its label's probability falls in more texts than it rises " +
+			"(the sign test, Benjamini–Hochberg over the cues put to the test) and the predictions change beyond the control (the interval of the net change above 0); a small fall in most texts passes the sign test alone.",
 		"Artifact-likeness: 1 − Π (1 − weight × value) over the signals shown, each value in [0, 1]; " + num(audit.ArtifactThreshold) +
 			" or more reads like how the data was collected. Rank: reliance (the fall of the cue's label's probability beyond the control, choosing half) × artifact-likeness, the cues acted on first.",
 	}
@@ -179,4 +209,14 @@ func cmpOr(s, def string) string {
 		return def
 	}
 	return s
+}
+
+// wideWords says, after a filter mask, that the mask also reads words as
+// the unknown word by the word-weight path (audit.Ablation.Words): "" for
+// none.
+func wideWords(words []string) string {
+	if len(words) == 0 {
+		return ""
+	}
+	return " with " + quotedWords(words) + " read as the unknown word by the word weights"
 }

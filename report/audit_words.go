@@ -142,9 +142,10 @@ func reliance(c *audit.Candidate) string {
 		texts = "the one " + half + " text that holds it"
 	}
 	s := fmt.Sprintf("in %s%s, replacing it by neutral words changes %s of the predictions, against %s "+
-		"when the same words go elsewhere; the probability of %s falls by %s (sign test p %s); it decides %s of all predictions there",
-		texts, edited, interval(rl.FlipRate), interval(rl.ControlFlipRate), c.Label, drop(rl.LabelDrop), pvalue(rl.P),
-		interval(rl.Decided))
+		"when the same words go elsewhere; the probability of %s falls by %s on average, and falls in %s of the texts, rises in %s "+
+		"(one-sided sign test p %s: it tells whether it falls more often than it rises, not by how much); it decides %s of all predictions there",
+		texts, edited, interval(rl.FlipRate), interval(rl.ControlFlipRate), c.Label, drop(rl.LabelDrop), count(rl.Lower), count(rl.Higher),
+		pvalue(rl.P), interval(rl.Decided))
 	if cf := rl.Conflict; cf != nil {
 		s += fmt.Sprintf("; on the %s of them whose label is not %s, accuracy goes from %s to %s without it "+
 			"(%s fixed, %s broken, two-sided exact McNemar p %s)",

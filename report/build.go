@@ -26,6 +26,10 @@ type Options struct {
 	// model saw them (default: "none of them used for training", true of a
 	// separate file).
 	HeldOutNote string
+	// Dev is the model's dev split, shown in the Data section beside the
+	// training and held-out splits (its leaks counted with theirs); nil or
+	// empty when it is not known.
+	Dev *corpus.Dataset
 	// Examples is the number of explained examples of each kind (default 2).
 	Examples int
 	// FiltersPerClass is how many filters of each class the catalogue shows
@@ -84,7 +88,11 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 	}
 
 	progress("summary", 0, 1)
-	sum := corpus.Summarize(train, heldout, tok)
+	var dev *corpus.Dataset
+	if opt.Dev != nil && len(opt.Dev.Examples) > 0 {
+		dev = opt.Dev
+	}
+	sum := corpus.SummarizeThree(train, dev, heldout, tok)
 	in.Summary = &sum
 	progress("summary", 1, 1)
 	if err := ctx.Err(); err != nil {

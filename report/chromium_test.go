@@ -127,11 +127,20 @@ type domFacts struct {
 	Height   float64  `json:"height"`
 	// Tops maps each section id to its top edge in page pixels.
 	Tops map[string]float64 `json:"tops"`
+	// Probe is the value of the probe expression chromiumProbe was given.
+	Probe json.RawMessage `json:"probe"`
 }
 
 // chromiumLoad opens file in headless Chromium at 1280 px wide and reports
 // what happened; print selects the print media type.
 func chromiumLoad(t *testing.T, file string, print bool) pageRun {
+	t.Helper()
+	return chromiumProbe(t, file, print, "null")
+}
+
+// chromiumProbe is chromiumLoad that also evaluates the JavaScript
+// expression probe on the settled page, its value in DOM.Probe.
+func chromiumProbe(t *testing.T, file string, print bool, probe string) pageRun {
 	t.Helper()
 	ctx, cancel := context.WithTimeout(context.Background(), 90*time.Second)
 	defer cancel()
@@ -268,14 +277,15 @@ func chromiumLoad(t *testing.T, file string, print bool) pageRun {
 			Value string `json:"value"`
 		} `json:"result"`
 	}
-	const facts = `new Promise(done => requestAnimationFrame(() => requestAnimationFrame(() => done(JSON.stringify({
+	facts := `new Promise(done => requestAnimationFrame(() => requestAnimationFrame(() => done(JSON.stringify({
 		scripts: document.scripts.length,
 		sections: [...document.querySelectorAll('section')].map(s => s.id),
 		images: [...document.images].map(i => i.complete && i.naturalWidth > 0),
 		painted: document.querySelectorAll('.painted mark').length,
 		text: document.body.innerText,
 		tops: Object.fromEntries([...document.querySelectorAll('section')].map(s => [s.id, s.getBoundingClientRect().top + window.scrollY])),
-		height: document.documentElement.scrollHeight})))))`
+		height: document.documentElement.scrollHeight,
+		probe: (` + probe + `)})))))`
 	if err := c.call(ctx, s, "Runtime.evaluate", map[string]any{"expression": facts, "awaitPromise": true, "returnByValue": true}, &ev); err != nil {
 		fail(err)
 	}

@@ -5,7 +5,8 @@
 // # What the page holds
 //
 // In order: the dataset summary (corpus.Summary: sizes, class balance,
-// token lengths, duplicates and leaks); the architecture and training
+// token lengths of the training, dev (when Options.Dev gives it) and test
+// splits, duplicates and leaks); the architecture and training
 // record of the model (cnn.Config, cnn.Info); its evaluation on a held-out
 // split (cnn.Metrics: per-class table, accuracy and macro-F1 with their 95%
 // intervals, ECE) beside the linear baseline the model file carries

@@ -36,6 +36,7 @@ type summaryView struct {
 	Vocab, OOV          string
 	HasTest             bool
 	Exact, Near, Leaks  string
+	Leaked              string // the splits a leak is of: "Test", or "Dev or test"
 	Duplicates          []dupRow
 	MoreDuplicates      int
 	ExactShown, NearAll int
@@ -250,7 +251,7 @@ func maskedCount(m []bool) int {
 
 func summary(s *corpus.Summary) *summaryView {
 	sv := &summaryView{Labels: s.Labels, Vocab: count(s.VocabSize), OOV: pct(s.TestOOVRate),
-		Exact: count(s.ExactGroups), Near: count(s.NearGroups), Leaks: count(s.Leaks)}
+		Exact: count(s.ExactGroups), Near: count(s.NearGroups), Leaks: count(s.Leaks), Leaked: "Test"}
 	for _, sp := range s.Splits {
 		row := splitRow{Name: sp.Name, Path: sp.Path, Examples: count(sp.Examples),
 			P50: fmt.Sprint(sp.TokenLength.P50), P90: fmt.Sprint(sp.TokenLength.P90),
@@ -258,7 +259,10 @@ func summary(s *corpus.Summary) *summaryView {
 		for _, l := range s.Labels {
 			row.PerLabel = append(row.PerLabel, fmt.Sprintf("%s (%s)", count(sp.PerLabel[l]), pct(sp.Balance[l])))
 		}
-		if sp.Name != "train" {
+		switch sp.Name {
+		case "dev":
+			sv.Leaked = "Dev or test"
+		case "test":
 			sv.HasTest = true
 		}
 		sv.Splits = append(sv.Splits, row)
@@ -272,7 +276,7 @@ func summary(s *corpus.Summary) *summaryView {
 			}
 			row := dupRow{Kind: kind, Text: g.Text, Members: locations(g.Members)}
 			if g.CrossSplit {
-				row.Flags = append(row.Flags, "in train and test")
+				row.Flags = append(row.Flags, "in "+splitsOf(g.Members))
 			}
 			if g.LabelConflict {
 				row.Flags = append(row.Flags, "labels differ")
@@ -283,6 +287,21 @@ func summary(s *corpus.Summary) *summaryView {
 	add("exact", s.ExactDuplicates)
 	add("near", s.NearDuplicates)
 	return sv
+}
+
+// splitsOf names the splits of a group's members, in the order first
+// met: "train and test".
+func splitsOf(ls []corpus.Location) string {
+	var names []string
+	for _, l := range ls {
+		if !slices.Contains(names, l.Split) {
+			names = append(names, l.Split)
+		}
+	}
+	if len(names) < 2 {
+		return strings.Join(names, "")
+	}
+	return strings.Join(names[:len(names)-1], ", ") + " and " + names[len(names)-1]
 }
 
 func locations(ls []corpus.Location) string {
@@ -315,10 +334,10 @@ func metrics(in Input) (*metricsView, error) {
 	if split == "" {
 		split = "test"
 	}
-	note := in.HeldOutNote
-	if note == "" {
-		note = "none of them used for training"
-	}
+	// The note is a sentence of its own, as it may give the count too
+	// ("evaluating on the test file … (800 texts)"); it may start with a
+	// file name, so it is led in rather than capitalised.
+	note := "The texts: " + strings.TrimSuffix(cmp.Or(in.HeldOutNote, "none of them used for training"), ".") + "."
 	if b := in.Baseline; b != nil && (b.CNN.N != mt.N || len(b.Baseline.Labels) != k || b.CNN.Accuracy != mt.Accuracy) {
 		return nil, fmt.Errorf("report: the baseline comparison is of %d texts (CNN accuracy %g), the metrics of %d (accuracy %g): give both of the same test split",
 			b.CNN.N, b.CNN.Accuracy, mt.N, mt.Accuracy)

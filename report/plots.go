@@ -59,7 +59,10 @@ func svgURL(p *plot.Plot, w, h vg.Length) (template.URL, error) {
 	if _, err := c.WriteTo(&buf); err != nil {
 		return "", fmt.Errorf("report: rendering plot %q: %w", p.Title.Text, err)
 	}
-	return template.URL("data:image/svg+xml;base64," + base64.StdEncoding.EncodeToString(buf.Bytes())), nil
+	// The fonts metric-compatible with the one gonum measured the text in
+	// come first, where the browser has one of them.
+	svg := bytes.ReplaceAll(buf.Bytes(), []byte("font-family:Liberation Sans;"), []byte("font-family:'Liberation Sans',Arimo,Arial,Helvetica,sans-serif;"))
+	return template.URL("data:image/svg+xml;base64," + base64.StdEncoding.EncodeToString(svg)), nil
 }
 
 // confusionGrid exposes a confusion matrix (rows gold, columns predicted)
@@ -126,12 +129,23 @@ func confusionPlot(labels []string, conf [][]int) (template.URL, error) {
 	p.Add(cells)
 	p.X.Tick.Marker = plot.ConstantTicks(xt)
 	p.Y.Tick.Marker = plot.ConstantTicks(yt)
-	p.X.Tick.Length, p.Y.Tick.Length = 0, 0
 	p.X.Padding, p.Y.Padding = 0, 0
 	if long {
 		p.X.Tick.Label.Rotation = math.Pi / 6
 		p.X.Tick.Label.XAlign = draw.XRight
 		p.X.Tick.Label.YAlign = draw.YCenter
+	}
+	// gonum measures the labels in Liberation Sans; a browser without it
+	// draws them in another sans-serif, up to a fifth wider (DejaVu Sans),
+	// and the labels are placed by their measured ends, next to the cells.
+	// Invisible ticks keep that much room between labels and cells.
+	widest := vg.Length(0)
+	for _, l := range labels {
+		widest = max(widest, p.Y.Tick.Label.Width(l))
+	}
+	for _, a := range []*plot.Axis{&p.X, &p.Y} {
+		a.Tick.Length = widest/5 + vg.Points(4)
+		a.Tick.Color = color.Transparent
 	}
 	side := vg.Points(float64(140 + 46*k))
 	return svgURL(p, side+vg.Points(40), side)

@@ -93,9 +93,13 @@ func TestDemoSections(t *testing.T) {
 	audit := out[strings.Index(out, `<section id="audit">`):strings.Index(out, `<section id="examples">`)]
 	at := 0
 	for _, para := range strings.Split(a.Story(), "\n\n") {
-		k := strings.Index(audit[at:], "<p>"+strings.TrimRight(para, "\n")+"</p>")
+		flowed := reflow(para)
+		if got, want := strings.Join(strings.Fields(flowed), " "), strings.Join(strings.Fields(para), " "); got != want {
+			t.Errorf("story paragraph reflowed to other words:\n%s\nwant\n%s", got, want)
+		}
+		k := strings.Index(audit[at:], "<p>"+flowed+"</p>")
 		if k < 0 {
-			t.Fatalf("story paragraph %q missing or out of order", para)
+			t.Fatalf("story paragraph %q missing or out of order", flowed)
 		}
 		at += k
 	}

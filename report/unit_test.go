@@ -169,3 +169,24 @@ func TestCueName(t *testing.T) {
 		}
 	}
 }
+
+// TestReflowStory: the story's paragraphs, broken for the terminal, flow
+// as one line each on the page, but for its numbered cues, its listed cues
+// and its commands, which start lines of their own (the layouts of
+// audit.Result.Story).
+func TestReflowStory(t *testing.T) {
+	for _, c := range []struct{ name, in, want string }{
+		{"prose", "No cue changes this model's predictions measurably on test\ntexts that took no part in choosing it.",
+			"No cue changes this model's predictions measurably on test texts that took no part in choosing it."},
+		{"numbered cue", "  1. \"kioskmail\", in 8% of the test texts.\n     It looks like a collection artifact.\n     Replacing it changes 40% of the predictions, against 2%\n     when the same words are put elsewhere.",
+			"1. \"kioskmail\", in 8% of the test texts. It looks like a collection artifact. Replacing it changes 40% of the predictions, against 2% when the same words are put elsewhere."},
+		{"commands", "What to do: retrain without it.\nThese commands write the patterns to a file and train again\non its own splits without it:\n    telltale train --data a.csv\n    telltale eval --model b.tt\n(Mark it as artifact to keep this judgement with the model.)",
+			"What to do: retrain without it. These commands write the patterns to a file and train again on its own splits without it:\ntelltale train --data a.csv\ntelltale eval --model b.tt\n(Mark it as artifact to keep this judgement with the model.)"},
+		{"listed cues", "The model also relies on these, which read like the task:\n  \"refund\" (complaints): replacing it lowers the probability.\n  \"lost\" (lost-property): too few texts.",
+			"The model also relies on these, which read like the task:\n\"refund\" (complaints): replacing it lowers the probability.\n\"lost\" (lost-property): too few texts."},
+	} {
+		if got := reflow(c.in); got != c.want {
+			t.Errorf("%s:\n%s\nwant\n%s", c.name, got, c.want)
+		}
+	}
+}

@@ -12,10 +12,11 @@
 // nn.Conv1d(d, m, k) or nn.Conv2d(1, m, (k, d)) (nn.Conv2d(2, m, (k, d))
 // over the two tables of the multichannel variant, which is one table of
 // dimension 2d with the channels' weights side by side); one nn.Linear
-// output layer, or a single sigmoid unit; and, beside them, the word-weight
-// table of the wide path under the key "wide.weight" (an
-// nn.EmbeddingBag(mode="mean", padding_idx=pad) whose output is added to
-// the logits). Every key of the state_dict must
+// output layer, or a single sigmoid unit; beside them, the word-weight
+// table of the wide path (an nn.EmbeddingBag(mode="mean", padding_idx=pad)
+// whose output is added to the logits) under the key "wide.weight" or found
+// by its shape; and the character layer Export writes (keys chars.…, see
+// chars.go). Every key of the state_dict must
 // be one of these parts: anything else (batch normalisation, a recurrent
 // layer, attention, a second linear layer, filters of different counts per
 // width) is refused naming the key and its shape. Import's documentation
@@ -29,7 +30,10 @@
 // (package npy), which PyTorch users load without pickle, with the
 // vocabulary and the labels beside it. Masked filters are exported with
 // zero output weights, which gives exactly the masked model's logits; the
-// wide path's table (cnn.Config.Wide) as "wide.weight".
+// wide path's table (cnn.Config.Wide) as "wide.weight"; a character layer
+// (cnn.Config.Chars) as its weights, its alphabet and each word's character
+// ids, from which the module computes the character part of word vectors
+// as telltale does, for words outside the vocabulary too.
 //
 // Both directions are checked against PyTorch itself (Debian's
 // python3-torch) on texts of the SpamAssassin corpus.

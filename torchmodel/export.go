@@ -31,7 +31,8 @@ func ExportFiles(m *cnn.Model, dir string) []string {
 // StateDict returns m's weights as the state_dict of the PyTorch module in
 // the README ("Bring your own model"), in that module's order:
 //
-//	embedding.weight   [VocabSize, Dim]        nn.Embedding, padding_idx=0
+//	embedding.weight   [VocabSize, WordDim]    nn.Embedding, padding_idx=0
+//	chars.…                                    the character layer (Config.Chars only)
 //	convs.B.weight     [Filters, Dim, Width]   nn.Conv1d, one per width B
 //	convs.B.bias       [Filters]
 //	output.weight      [Classes, NumFilters]   nn.Linear
@@ -45,22 +46,30 @@ func ExportFiles(m *cnn.Model, dir string) []string {
 // (id 1) for a text with none, which is telltale's wide term. A masked filter's column of output.weight is zero: its pooled value, which
 // telltale holds at zero, then adds nothing to any logit, so the logits are
 // the same.
+//
+// WordDim is Dim less the character filters of a model with a character
+// layer (train --chars), whose word vector is the table's row followed by
+// the character part; the module computes that part with the layer
+// (charStateDict) rather than reading it from the table, so that words
+// outside the vocabulary get theirs as telltale gives it
+// (cnn.Model.WithUnseen). Without a character layer WordDim is Dim.
 func StateDict(m *cnn.Model) []npy.Array {
 	cfg := m.Config
-	d, nf := cfg.Dim, cfg.NumFilters()
-	arrays := []npy.Array{{Name: "embedding.weight", Shape: []int{cfg.VocabSize, d}, Data: m.Emb}}
-	for b, c := range m.Convs {
-		// telltale's [filter][slot][dim] becomes Conv1d's [filter][dim][slot].
-		w := make([]float32, len(c.W))
-		for f := 0; f < cfg.Filters; f++ {
-			for s := 0; s < c.Width; s++ {
-				for j := 0; j < d; j++ {
-					w[(f*d+j)*c.Width+s] = c.W[(f*c.Width+s)*d+j]
-				}
-			}
+	d, wd, nf := cfg.Dim, cfg.WordDim(), cfg.NumFilters()
+	table := m.Emb
+	if wd != d {
+		table = make([]float32, cfg.VocabSize*wd)
+		for r := range cfg.VocabSize {
+			copy(table[r*wd:(r+1)*wd], m.Row(int32(r))[:wd])
 		}
+	}
+	arrays := []npy.Array{{Name: "embedding.weight", Shape: []int{cfg.VocabSize, wd}, Data: table}}
+	if cfg.Chars != nil {
+		arrays = append(arrays, charStateDict(m)...)
+	}
+	for b, c := range m.Convs {
 		arrays = append(arrays,
-			npy.Array{Name: fmt.Sprintf("convs.%d.weight", b), Shape: []int{cfg.Filters, d, c.Width}, Data: w},
+			npy.Array{Name: fmt.Sprintf("convs.%d.weight", b), Shape: []int{cfg.Filters, d, c.Width}, Data: toConv1d(c.W, cfg.Filters, c.Width, d)},
 			npy.Array{Name: fmt.Sprintf("convs.%d.bias", b), Shape: []int{cfg.Filters}, Data: c.B})
 	}
 	out := append([]float32(nil), m.OutW...)
@@ -80,15 +89,31 @@ func StateDict(m *cnn.Model) []npy.Array {
 	return arrays
 }
 
+// toConv1d turns telltale's filter layout [filter][slot][dim] into
+// nn.Conv1d's [filter][dim][slot].
+func toConv1d(src []float32, filters, width, dim int) []float32 {
+	w := make([]float32, len(src))
+	for f := 0; f < filters; f++ {
+		for s := 0; s < width; s++ {
+			for j := 0; j < dim; j++ {
+				w[(f*dim+j)*width+s] = src[(f*width+s)*dim+j]
+			}
+		}
+	}
+	return w
+}
+
 // WideKey is the state_dict key of the wide path's word-weight table, as
 // StateDict writes it and DetectLayout recognises it.
 const WideKey = "wide.weight"
 
-// CanExport reports why m cannot be exported, or nil. A model with a
-// character layer cannot: the module of the README has no character CNN.
+// CanExport reports why m cannot be exported, or nil. Every model that
+// cnn.Load accepts can be; a character layer (Config.Chars) needs the
+// layer's weights (Model.Char) and the model's vocabulary, which a loaded
+// model has.
 func CanExport(m *cnn.Model) error {
-	if m.Config.Chars != nil {
-		return fmt.Errorf("torchmodel: models trained with --chars cannot be exported: the exported PyTorch module has no character layer; train without --chars to export: %w", ErrLayout)
+	if m.Config.Chars != nil && (m.Char == nil || len(m.Vocab) != m.Config.VocabSize) {
+		return fmt.Errorf("torchmodel: the model's character layer has no weights or no vocabulary to spell its words from: load it from its model file (cnn.Load): %w", ErrLayout)
 	}
 	return nil
 }

@@ -99,6 +99,12 @@ type Imported struct {
 // shorter than the widest filter, the only ones telltale pads. Longer texts
 // get exactly the logits they had.
 //
+// A character layer (Layout.Chars) is read as cnn.Model's: the table holds
+// the words' own columns, the character part of every word is computed
+// from the layer (cnn.Model.FillChars), and the words' character ids of the
+// file must be the ones the layer gives the vocabulary's words, or the
+// vocabulary is refused as not the model's.
+//
 // A model with one output unit (a sigmoid classifier) becomes a model of
 // two classes whose logits are 0 and the unit's value; their softmax is
 // the sigmoid's probabilities. Labels then names the class of probability
@@ -118,6 +124,9 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 		}
 	case !l.Complete():
 		return nil, fmt.Errorf("torchmodel: the layout names only some parts (%s): name the embedding table(s), the convolutions and the output layer: %w", l, ErrLayout)
+	}
+	if _, ok := sd.Tensors[charsConv]; ok && l.Chars == "" {
+		l.Chars = CharsPrefix // found by name, as DetectLayout finds it
 	}
 	w, err := mapWeights(sd, l, o.StateDict)
 	if err != nil {
@@ -147,6 +156,9 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 		return nil, err
 	}
 	cfg := cnn.Config{VocabSize: w.vocab, Dim: w.dim, Widths: w.widths, Filters: w.filters, Classes: w.classes, Wide: w.wide != nil}
+	if w.chars != nil {
+		cfg.Chars = &w.chars.cfg
+	}
 	if err := cfg.Validate(); err != nil {
 		return nil, fmt.Errorf("torchmodel: %s: %v: %w", o.StateDict, err, ErrLayout)
 	}
@@ -154,6 +166,9 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 		OutW: w.outW, OutB: w.outB, Wide: w.wide, Tokenizer: tok.Config()}
 	for b, width := range w.widths {
 		m.Convs = append(m.Convs, cnn.Conv{Width: width, W: w.convW[b], B: w.convB[b]})
+	}
+	if err := setChars(m, vocab, w.chars, o); err != nil {
+		return nil, err
 	}
 	sum, err := fileSHA256(o.StateDict)
 	if err != nil {
@@ -207,7 +222,11 @@ func readWeights(ctx context.Context, o Options) (*statedict.StateDict, error) {
 	sd := &statedict.StateDict{Tensors: map[string]*statedict.Tensor{}, Format: "npz"}
 	for _, a := range arrays {
 		sd.Keys = append(sd.Keys, a.Name)
-		sd.Tensors[a.Name] = &statedict.Tensor{Shape: a.Shape, Dtype: statedict.Float32, Data: a.Data}
+		t := &statedict.Tensor{Shape: a.Shape, Dtype: statedict.Float32, Data: a.Data}
+		if a.Ints != nil {
+			t.Dtype, t.Ints = statedict.Int64, a.Ints
+		}
+		sd.Tensors[a.Name] = t
 	}
 	return sd, nil
 }

@@ -25,11 +25,15 @@ type Layout struct {
 	// ([vocabulary size, outputs], an nn.EmbeddingBag(mode="mean") whose
 	// mean over a text's non-padding ids is added to the logits); optional.
 	Wide string
+	// Chars, when not empty, is the module prefix of a character layer
+	// (CharsPrefix, as StateDict writes it; see chars.go for its keys);
+	// optional. It needs exactly one embedding table.
+	Chars string
 }
 
 // IsZero reports whether no part is named.
 func (l Layout) IsZero() bool {
-	return len(l.Embeddings) == 0 && len(l.Convs) == 0 && l.Output == "" && l.Wide == ""
+	return len(l.Embeddings) == 0 && len(l.Convs) == 0 && l.Output == "" && l.Wide == "" && l.Chars == ""
 }
 
 // Complete reports whether every part but the optional wide table is named.
@@ -41,6 +45,9 @@ func (l Layout) String() string {
 		strings.Join(l.Embeddings, " + "), strings.Join(l.Convs, ", "), l.Output)
 	if l.Wide != "" {
 		s += "; wide " + l.Wide
+	}
+	if l.Chars != "" {
+		s += "; characters " + l.Chars
 	}
 	return s
 }
@@ -58,19 +65,29 @@ func biasKey(w string) string {
 // Keys are grouped by module (the key up to its last dot); every module
 // must hold a weight and at most a bias. A 2-D weight without a bias is an
 // embedding table, a 2-D weight with a bias the output layer, a 3-D weight
-// a Conv1d and a 4-D weight a Conv2d. The one exception is by name: the
-// 2-D weight WideKey ("wide.weight", as Export writes it), without a bias,
-// is the wide path's word-weight table, which shape alone cannot tell from
-// an embedding table. Convolutions and tables are taken in
+// a Conv1d and a 4-D weight a Conv2d. The wide path's word-weight table
+// is the 2-D weight WideKey ("wide.weight", as Export writes it) without a
+// bias, or else found by shape (wideByShape). The keys of a character layer
+// are found by name (CharsPrefix and the keys of chars.go, as Export writes
+// them). Convolutions and tables are taken in
 // the order of the file, which is the order the modules were created in
 // (for a ModuleList, its order). Anything else — another kind of parameter,
-// a second linear layer, a tensor of another rank, a buffer — is refused
-// naming its key and shape.
+// a second linear layer, a tensor of another rank, another buffer — is
+// refused naming its key and shape.
 func DetectLayout(sd *statedict.StateDict, file string) (Layout, error) {
 	var l Layout
 	var outputs []string
+	if _, ok := sd.Tensors[charsConv]; ok {
+		l.Chars = CharsPrefix
+	}
 	for _, k := range sd.Keys {
 		t := sd.Tensors[k]
+		if strings.HasPrefix(k, CharsPrefix+".") {
+			if l.Chars == "" {
+				return l, layoutErr(file, k, t, "part of a character layer without its filters %s: the layer needs the keys %s", charsConv, strings.Join(charsKeys, ", "))
+			}
+			continue
+		}
 		dot := strings.LastIndexByte(k, '.')
 		param := k[dot+1:]
 		switch {
@@ -108,14 +125,81 @@ func DetectLayout(sd *statedict.StateDict, file string) (Layout, error) {
 		return l, fmt.Errorf("torchmodel: %s: no linear layer (a 2-D weight with a bias): if the output layer has no bias, name the parts with the layout option (embedding, convolutions, output keys): %w", file, ErrLayout)
 	case len(l.Convs) == 0:
 		return l, fmt.Errorf("torchmodel: %s: no convolution (a 3-D or 4-D weight): not a sentence CNN: %w", file, ErrLayout)
+	}
+	l.Output = outputs[0]
+	if l.Wide == "" {
+		var err error
+		if l, err = wideByShape(sd, l, file); err != nil {
+			return l, err
+		}
+	}
+	switch {
 	case len(l.Embeddings) == 0:
 		return l, fmt.Errorf("torchmodel: %s: no embedding table (a 2-D weight without a bias): %w", file, ErrLayout)
 	case len(l.Embeddings) > 2:
 		return l, fmt.Errorf("torchmodel: %s: %d tables (%s): a sentence CNN has one, or two in the multichannel variant; name them with the layout option: %w",
 			file, len(l.Embeddings), strings.Join(l.Embeddings, ", "), ErrLayout)
 	}
-	l.Output = outputs[0]
 	return l, nil
+}
+
+// wideByShape finds the wide path's table among l's embedding tables when
+// no key is named WideKey: a table of shape [rows, outputs of l.Output]
+// whose removal leaves tables that fit the first convolution (one table,
+// or two of equal shape for the multichannel variant, of the rows of the
+// candidate and of the dimension the convolution reads, less the
+// character filters). One such table becomes l.Wide; with several, which
+// is which cannot be told from shapes, and the error names them.
+func wideByShape(sd *statedict.StateDict, l Layout, file string) (Layout, error) {
+	outs := sd.Tensors[l.Output].Shape[0]
+	var fits []string
+	for i, k := range l.Embeddings {
+		t := sd.Tensors[k]
+		if t.Data == nil || t.Shape[1] != outs {
+			continue
+		}
+		rest := slices.Concat(l.Embeddings[:i], l.Embeddings[i+1:])
+		if tablesFit(sd, rest, t.Shape[0], sd.Tensors[l.Convs[0]], l.Chars != "") {
+			fits = append(fits, k)
+		}
+	}
+	switch len(fits) {
+	case 0:
+		return l, nil
+	case 1:
+		l.Wide = fits[0]
+		l.Embeddings = slices.DeleteFunc(slices.Clone(l.Embeddings), func(k string) bool { return k == fits[0] })
+		return l, nil
+	}
+	return l, fmt.Errorf("torchmodel: %s: keys %s are each 2-D without a bias, of shape [vocabulary, %d outputs], and each could be the wide word-weight table beside the embedding: rename the wide table's key to %s in your state_dict: %w",
+		file, strings.Join(fits, " and "), outs, WideKey, ErrLayout)
+}
+
+// tablesFit reports whether the tables keys are the embedding of conv: one
+// table, or two of the same shape, each of the given rows, whose
+// dimensions (with a character layer's filters, when chars) are the
+// convolution's input.
+func tablesFit(sd *statedict.StateDict, keys []string, rows int, conv *statedict.Tensor, chars bool) bool {
+	if len(keys) < 1 || len(keys) > 2 || (chars && len(keys) != 1) {
+		return false
+	}
+	first := sd.Tensors[keys[0]].Shape
+	for _, k := range keys {
+		if sh := sd.Tensors[k].Shape; !slices.Equal(sh, first) || sh[0] != rows {
+			return false
+		}
+	}
+	extra := 0
+	if chars {
+		extra = sd.Tensors[charsConv].Shape[0]
+	}
+	switch len(conv.Shape) {
+	case 3:
+		return len(keys)*first[1]+extra == conv.Shape[1]
+	case 4:
+		return len(keys) == conv.Shape[1] && first[1]+extra == conv.Shape[3]
+	}
+	return false
 }
 
 // hint names the module a parameter name usually comes from.
@@ -154,6 +238,7 @@ type weights struct {
 	outW, outB    []float32
 	sigmoidOutput bool      // one output unit, read as two classes (logits 0 and z)
 	wide          []float32 // the wide path's table [word][class] (vocab × classes), or nil
+	chars         *charWeights
 }
 
 // mapWeights checks every shape of the layout against the others and
@@ -193,6 +278,11 @@ func mapWeights(sd *statedict.StateDict, l Layout, file string) (*weights, error
 	if l.Wide != "" {
 		parts = append(parts, l.Wide)
 	}
+	if l.Chars != "" {
+		for _, k := range charsKeys {
+			named[k] = true
+		}
+	}
 	for _, k := range parts {
 		named[k] = true
 		if k != l.Wide { // the wide table has no bias
@@ -210,6 +300,11 @@ func mapWeights(sd *statedict.StateDict, l Layout, file string) (*weights, error
 	w := &weights{}
 	if err := w.tables(sd, l, file, get); err != nil {
 		return nil, err
+	}
+	if l.Chars != "" {
+		if err := w.charLayer(sd, l, file, get, used); err != nil {
+			return nil, err
+		}
 	}
 	if err := w.convolutions(l, file, get, bias); err != nil {
 		return nil, err

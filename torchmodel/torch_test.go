@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"os"
 	"os/exec"
@@ -262,46 +263,65 @@ func TestExportMatchesTorch(t *testing.T) {
 			}
 			m.Masked = make([]bool, m.Config.NumFilters())
 			m.Masked[0], m.Masked[7] = true, true
-			checkExportWithTorch(t, m, tr.Encoder, ms.eval)
+			worst := checkExportWithTorch(t, m, tr.Encoder, ms.eval)
+			t.Logf("largest |logit difference| %.2g", worst)
 		})
 	}
 }
 
 // checkExportWithTorch exports m, runs the README's module on texts and
-// compares its logits with m's (see TestExportMatchesTorch).
-func checkExportWithTorch(t *testing.T, m *cnn.Model, enc *corpus.Encoder, texts []string) {
+// compares its logits with m's (see TestExportMatchesTorch) and returns the
+// largest absolute difference. For a model with a character layer, the
+// module also runs with the tokens' character ids (its spell()), which
+// must give the logits telltale gives texts with words outside the
+// vocabulary (cnn.Model.WithUnseen, as predict and eval read them); ids
+// alone must give m's logits with the unknown word's row.
+func checkExportWithTorch(t *testing.T, m *cnn.Model, enc *corpus.Encoder, texts []string) float64 {
 	t.Helper()
 	dir := t.TempDir()
 	if err := Export(m, dir); err != nil {
 		t.Fatal(err)
 	}
-	var ids [][]int32
+	mu, encU, err := m.WithUnseen(enc, texts) // m and enc themselves without a character layer
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Texts with no word, batched with longer ones.
+	ids := [][]int32{{}, {corpus.PAD, corpus.PAD, corpus.PAD}}
+	idsU := slices.Clone(ids)
+	tokens := [][]string{{}, {corpus.PADWord, corpus.PADWord, corpus.PADWord}}
 	var ascii []string
-	var asciiIDs [][]int32
+	var asciiIDs, asciiU [][]int32
 	for _, text := range texts {
-		_, x := enc.Encode(text)
-		ids = append(ids, x)
+		toks, x := enc.Encode(text)
+		_, xu := encU.Encode(text)
+		words := make([]string, len(toks))
+		for i, tk := range toks {
+			words[i] = tk.Text
+		}
+		ids, idsU, tokens = append(ids, x), append(idsU, xu), append(tokens, words)
 		if isPlainASCII(text) {
-			ascii, asciiIDs = append(ascii, text), append(asciiIDs, x)
+			ascii, asciiIDs, asciiU = append(ascii, text), append(asciiIDs, x), append(asciiU, xu)
 		}
 	}
 	var out struct {
 		Batch  [][]float64 `json:"batch_logits"`
+		Chars  [][]float64 `json:"char_logits"`
 		Text   [][]float64 `json:"text_logits"`
 		Labels []string    `json:"labels"`
 		IDs    [][]int32   `json:"text_ids"`
 		Torch  string      `json:"torch"`
 	}
-	// Texts with no word, batched with longer ones.
-	ids = append([][]int32{{}, {corpus.PAD, corpus.PAD, corpus.PAD}}, ids...)
-	runPython(t, "testdata/export_check.py", dir, map[string]any{"folder": dir, "ids": ids, "texts": ascii, "max_tokens": 150}, &out)
+	runPython(t, "testdata/export_check.py", dir, map[string]any{"folder": dir, "ids": ids, "tokens": tokens, "texts": ascii, "max_tokens": 150}, &out)
 	t.Logf("exported model loaded by torch %s; %d of %d texts are plain ASCII", out.Torch, len(ascii), len(texts))
 	if !slices.Equal(out.Labels, m.Labels) {
 		t.Errorf("labels.txt read as %v, want %v", out.Labels, m.Labels)
 	}
-	check := func(what string, i int, x []int32, ref []float64) {
-		got := m.Forward(x).Logits
+	worst := 0.0
+	check := func(what string, i int, model *cnn.Model, x []int32, ref []float64) {
+		got := model.Forward(x).Logits
 		for k := range ref {
+			worst = max(worst, math.Abs(float64(got[k])-ref[k]))
 			if !testref.Close(float64(got[k]), ref[k], 1e-5, 1e-5) {
 				t.Errorf("%s %d (%d tokens): logits %v, torch %v", what, i, len(x), got, ref)
 				return
@@ -309,7 +329,15 @@ func checkExportWithTorch(t *testing.T, m *cnn.Model, enc *corpus.Encoder, texts
 		}
 	}
 	for i, x := range ids {
-		check("text", i, x, out.Batch[i])
+		check("text", i, m, x, out.Batch[i])
+	}
+	if m.Config.Chars != nil {
+		if len(out.Chars) != len(idsU) {
+			t.Fatalf("%d rows of logits with characters for %d texts", len(out.Chars), len(idsU))
+		}
+		for i, x := range idsU {
+			check("text with its characters", i, mu, x, out.Chars[i])
+		}
 	}
 	if len(ascii) < 20 {
 		t.Fatalf("only %d plain ASCII texts", len(ascii))
@@ -318,7 +346,29 @@ func checkExportWithTorch(t *testing.T, m *cnn.Model, enc *corpus.Encoder, texts
 		if !slices.Equal(out.IDs[i], x) {
 			t.Errorf("ASCII text %d: the module's encode gives ids %v…, telltale %v…", i, head(out.IDs[i]), head(x))
 		}
-		check("ASCII text", i, x, out.Text[i])
+		check("ASCII text", i, mu, asciiU[i], out.Text[i])
+	}
+	checkSavedModule(t, m, filepath.Join(dir, "module.pt"), filepath.Join(dir, VocabFile), ids)
+	return worst
+}
+
+// checkSavedModule imports the module's state_dict as torch.save wrote it
+// (its int64 buffers read from the pickle's storages) and checks that it
+// gives m's logits on ids exactly: the same float32 weights, the masked
+// filters' output weights zero.
+func checkSavedModule(t *testing.T, m *cnn.Model, path, vocab string, ids [][]int32) {
+	t.Helper()
+	res, err := Import(context.Background(), Options{StateDict: path, Vocab: vocab, PadID: -1, UnkID: -1, Labels: m.Labels, Tokenizer: m.Tokenizer})
+	if err != nil {
+		t.Fatalf("the module's state_dict saved by torch: %v", err)
+	}
+	if (m.Config.Chars != nil) != (res.Layout.Chars != "") || (m.Config.Wide) != (res.Layout.Wide != "") {
+		t.Fatalf("the module's state_dict saved by torch: layout %s", res.Layout)
+	}
+	for i, x := range ids {
+		if got, want := res.Model.Forward(x).Logits, m.Forward(x).Logits; !slices.Equal(got, want) {
+			t.Fatalf("text %d: logits %v from the state_dict saved by torch, %v from the model", i, got, want)
+		}
 	}
 }
 

@@ -3,6 +3,7 @@ package torchmodel
 import (
 	"context"
 	"errors"
+	"math"
 	"math/rand/v2"
 	"path/filepath"
 	"slices"
@@ -13,6 +14,7 @@ import (
 	"telltale/corpus"
 	"telltale/internal/testref"
 	"telltale/torchmodel/npy"
+	"telltale/torchmodel/statedict"
 )
 
 // wideModel is a small model with the wide path on and a random table
@@ -154,5 +156,148 @@ func TestWideImportRefusals(t *testing.T) {
 	}
 	if res.Model.Wide[0] != 0 || len(res.Warnings) != 1 || !strings.Contains(res.Warnings[0], WideKey) {
 		t.Errorf("with ZeroPad: padding row %v, warnings %q", res.Model.Wide[:2], res.Warnings)
+	}
+}
+
+// The wide path's table is found by shape when its key is not wide.weight:
+// models trained by telltale with --wide are exported, loaded by the
+// README's module and saved by torch.save with the table under
+// "bag.weight" (testdata/wide_rename.py, Debian's python3-torch). Import
+// takes that key as the wide table, and the logits on SpamAssassin texts
+// equal PyTorch's to 1e-5 (absolute or relative, as the other import
+// checks). With an embedding of dimension 2 beside 2 labels, both tables
+// fit and the error names both keys and the fix; the same model under
+// wide.weight still imports.
+func TestWideFoundByShape(t *testing.T) {
+	testref.RequirePython(t, "torch")
+	ms := spamMails(t)
+	train := &corpus.Dataset{Labels: []string{"ham", "spam"}}
+	for i, s := range ms.train {
+		train.Examples = append(train.Examples, corpus.Example{Text: s, Label: ms.trainLab[i]})
+	}
+	var models []*cnn.Model
+	var folders []string
+	var enc *corpus.Encoder
+	for _, dim := range []int{12, 2} {
+		r := cnn.DefaultRecipe()
+		r.Model.Dim, r.Model.Filters, r.Train.Epochs, r.Train.MaxLen, r.Train.Threads = dim, 6, 2, 150, 1
+		r.Model.Wide = true
+		tr, err := cnn.TrainText(context.Background(), train, nil, r, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		dir := t.TempDir()
+		if err := Export(tr.Model, dir); err != nil {
+			t.Fatal(err)
+		}
+		models, folders, enc = append(models, tr.Model), append(folders, dir), tr.Encoder
+	}
+	ids := [][]int32{{}}
+	for _, text := range ms.eval {
+		_, x := enc.Encode(text)
+		ids = append(ids, x)
+	}
+	var out struct {
+		Logits [][][]float64 `json:"logits"`
+		Torch  string        `json:"torch"`
+	}
+	runPython(t, "testdata/wide_rename.py", t.TempDir(), map[string]any{"folders": folders, "key": "bag.weight", "ids": ids}, &out)
+	t.Logf("saved by torch %s", out.Torch)
+	m := models[0]
+	o := Options{StateDict: filepath.Join(folders[0], "renamed.pt"), Vocab: filepath.Join(folders[0], VocabFile),
+		PadID: -1, UnkID: -1, Labels: m.Labels, Tokenizer: m.Tokenizer}
+	res, err := Import(context.Background(), o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Layout.Wide != "bag.weight" || !slices.Equal(res.Model.Wide, m.Wide) || len(res.Layout.Embeddings) != 1 {
+		t.Fatalf("layout %s; wide table equal to the exported one: %v", res.Layout, slices.Equal(res.Model.Wide, m.Wide))
+	}
+	worst := 0.0
+	for i, x := range ids {
+		got := res.Model.Forward(x).Logits
+		for k, ref := range out.Logits[0][i] {
+			worst = max(worst, math.Abs(float64(got[k])-ref))
+			if !testref.Close(float64(got[k]), ref, 1e-5, 1e-5) {
+				t.Fatalf("text %d: logits %v, torch %v", i, got, out.Logits[0][i])
+			}
+		}
+	}
+	t.Logf("largest |logit difference| %.2g", worst)
+
+	o.StateDict, o.Vocab = filepath.Join(folders[1], "renamed.pt"), filepath.Join(folders[1], VocabFile)
+	_, err = Import(context.Background(), o)
+	if !errors.Is(err, ErrLayout) {
+		t.Fatalf("two tables of shape [vocabulary, 2]: %v, want ErrLayout", err)
+	}
+	for _, s := range []string{"embedding.weight", "bag.weight", "rename", WideKey} {
+		if !strings.Contains(err.Error(), s) {
+			t.Errorf("%v\ndoes not say %q", err, s)
+		}
+	}
+	o.StateDict = filepath.Join(folders[1], WeightsFile)
+	if res, err := Import(context.Background(), o); err != nil || res.Layout.Wide != WideKey {
+		t.Errorf("the same model under %s: %v (layout %v)", WideKey, err, res)
+	}
+}
+
+// Detection by shape takes a table as the wide one only when the other
+// tables still make the embedding the convolutions read (common practice,
+// no source: the layouts of Kim 2014's one- and two-channel models).
+func TestWideByShapeCases(t *testing.T) {
+	table := func(name string, rows, cols int) npy.Array {
+		return npy.Array{Name: name, Shape: []int{rows, cols}, Data: make([]float32, rows*cols)}
+	}
+	second := func(arrays []npy.Array, extra ...npy.Array) *statedict.StateDict {
+		sd := &statedict.StateDict{Tensors: map[string]*statedict.Tensor{}}
+		for _, a := range slices.Concat(arrays[:1], extra, arrays[1:]) {
+			sd.Keys = append(sd.Keys, a.Name)
+			sd.Tensors[a.Name] = &statedict.Tensor{Shape: a.Shape, Dtype: statedict.Float32, Data: a.Data}
+		}
+		return sd
+	}
+	withChars := func(arrays []npy.Array) []npy.Array {
+		arrays[0] = table("embedding.weight", 5, 2)
+		return append(arrays, npy.Array{Name: charsConv, Shape: []int{2, 3, 3}, Data: make([]float32, 18)})
+	}
+	// A two-channel model: convolutions over 2·2 components.
+	two := kimArrays(5, 4, 2)
+	two[0] = table("static.weight", 5, 2)
+	for _, c := range []struct {
+		name       string
+		sd         *statedict.StateDict
+		wide       string
+		embeddings int
+		err        []string
+	}{
+		{"one table of the labels' width", second(kimArrays(5, 2, 2)), "", 1, nil},
+		{"a table beside it", second(kimArrays(5, 4, 2), table("bag.weight", 5, 2)), "bag.weight", 1, nil},
+		{"two channels of the labels' width", second(two, table("embedding.weight", 5, 2)), "", 2, nil},
+		{"two channels and a table", second(two, table("embedding.weight", 5, 2), table("bag.weight", 5, 2)), "", 0,
+			[]string{"static.weight", "embedding.weight", "bag.weight", WideKey}},
+		// With a character layer of 2 filters, the convolutions read 2 + 2 components.
+		{"a table beside a character layer", second(withChars(kimArrays(5, 4, 3)), table("bag.weight", 5, 3)), "bag.weight", 1, nil},
+		// Not the wide table; the shapes of the two tables are refused later.
+		{"a table of other rows", second(kimArrays(5, 4, 2), table("bag.weight", 6, 2)), "", 2, nil},
+	} {
+		l, err := DetectLayout(c.sd, "x.pt")
+		if c.err != nil {
+			if !errors.Is(err, ErrLayout) {
+				t.Errorf("%s: %v, want ErrLayout", c.name, err)
+			}
+			for _, s := range c.err {
+				if err != nil && !strings.Contains(err.Error(), s) {
+					t.Errorf("%s: %v\ndoes not say %q", c.name, err, s)
+				}
+			}
+			continue
+		}
+		if err != nil {
+			t.Errorf("%s: %v", c.name, err)
+			continue
+		}
+		if l.Wide != c.wide || len(l.Embeddings) != c.embeddings {
+			t.Errorf("%s: layout %s, want wide %q and %d tables", c.name, l, c.wide, c.embeddings)
+		}
 	}
 }

@@ -7,6 +7,7 @@ and writes one JSON list of p-values or [low, high] intervals:
   fisher-two   [a, b, c, d]  scipy.stats.fisher_exact(alternative="two-sided")
   sign         [pos, neg]    scipy.stats.binomtest(pos, pos+neg, 0.5, alternative="greater")
   wilson       [k, n]        scipy.stats.binomtest(k, n).proportion_ci(0.95, "wilson")
+  exact        [k, n]        scipy.stats.binomtest(k, n).proportion_ci(0.95, "exact") (Clopper-Pearson)
 """
 import json
 import sys
@@ -26,6 +27,9 @@ for case in json.load(sys.stdin):
         out.append(float(stats.binomtest(a[0], a[0] + a[1], 0.5, alternative="greater").pvalue))
     elif kind == "wilson":
         ci = stats.binomtest(a[0], a[1]).proportion_ci(confidence_level=0.95, method="wilson")
+        out.append([float(ci.low), float(ci.high)])
+    elif kind == "exact":
+        ci = stats.binomtest(a[0], a[1]).proportion_ci(confidence_level=0.95, method="exact")
         out.append([float(ci.low), float(ci.high)])
     else:
         raise SystemExit("unknown kind " + kind)

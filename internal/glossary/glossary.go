@@ -115,7 +115,7 @@ var Terms = []Term{
 		Formula: "acted on in at least K of the audits of models trained with the same recipe and other seeds",
 		Meaning: "a cue that is a fact of the data and the recipe rather than of one seed."},
 	{Name: "suggested mask", Topic: "cue audit",
-		Formula: "the filters that read the cues acted on, chosen on the choosing half; suggested only when masking them raises accuracy on the confirming half (one-sided exact McNemar p < 0.05)",
+		Formula: "the filters that read the cues acted on (and, in a model with word weights, the cues' own words, read as the unknown word), chosen on the choosing half; suggested only when the edit raises accuracy on the confirming half (one-sided exact McNemar p < 0.05)",
 		Meaning: "a model edit without retraining, offered only when data that took no part in choosing it supports it."},
 }
 

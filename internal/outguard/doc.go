@@ -4,7 +4,9 @@
 // written another way (./x/../d.csv), a symbolic link to an input, a hard
 // link to it, or a file inside an input folder are all the input. It also
 // finds outputs that cannot be written (a folder, a missing or read-only
-// folder) and two outputs that name one file.
+// folder) and two outputs that name one file. CheckInput finds, as early,
+// an input that cannot be read: missing, a folder where a file is
+// expected, or not readable.
 //
 // The command line and the window use it for every file they write, so
 // that no run ever replaces the data it was given.

@@ -3,6 +3,7 @@ package outguard
 import (
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"os"
 	"path/filepath"
@@ -177,6 +178,48 @@ func writable(f File) error {
 	name := probe.Name()
 	probe.Close()
 	return os.Remove(name)
+}
+
+// ErrInput marks an input that cannot be read: missing, a folder where a
+// file is expected, or not readable.
+var ErrInput = errors.New("outguard: input cannot be read")
+
+// CheckInput reports, before any work, why the input in cannot be read: its
+// path does not exist, it is a folder and folder is false (only a file will
+// do), or it cannot be opened (and, for a folder, listed). The message
+// names the option, the path and the fix. An input with an empty path is
+// not checked.
+func CheckInput(in File, folder bool) error {
+	if in.Path == "" {
+		return nil
+	}
+	what := "file"
+	if folder {
+		what = "file or folder"
+	}
+	st, err := os.Stat(in.Path)
+	switch {
+	case errors.Is(err, fs.ErrNotExist):
+		return fail(ErrInput, "%s %s: no such %s: check the path", in.Name, in.Path, what)
+	case err != nil:
+		return fail(ErrInput, "%s %s cannot be read (%s): check the path", in.Name, in.Path, reason(err))
+	case st.IsDir() && !folder:
+		return fail(ErrInput, "%s %s is a folder: give a file in it, not the folder", in.Name, in.Path)
+	}
+	f, err := os.Open(in.Path)
+	if err == nil && st.IsDir() {
+		_, err = f.Readdirnames(1)
+		if errors.Is(err, io.EOF) {
+			err = nil // an empty folder is for the reader to refuse
+		}
+	}
+	if f != nil {
+		f.Close()
+	}
+	if err != nil {
+		return fail(ErrInput, "%s %s cannot be read (%s): make it readable or give another %s", in.Name, in.Path, reason(err), option(in.Name))
+	}
+	return nil
 }
 
 // option is the option in a file's name ("--export" of "--export's

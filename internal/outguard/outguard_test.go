@@ -133,3 +133,47 @@ func TestCheckReadOnlyFolder(t *testing.T) {
 		t.Errorf("got %v, want %q", err, want)
 	}
 }
+
+func TestCheckInput(t *testing.T) {
+	dir := t.TempDir()
+	data := filepath.Join(dir, "d.csv")
+	os.WriteFile(data, []byte("text,label\n"), 0o644)
+	missing := filepath.Join(dir, "missing.vec")
+	cases := []struct {
+		name   string
+		in     File
+		folder bool
+		want   string // "" when accepted
+	}{
+		{"a file", File{"--vectors", data}, false, ""},
+		{"no path", File{"--vectors", ""}, false, ""},
+		{"a folder where a folder will do", File{"--data", dir}, true, ""},
+		{"missing", File{"--vectors", missing}, false, "--vectors " + missing + ": no such file: check the path"},
+		{"missing, folder or file", File{"--data", missing}, true, "--data " + missing + ": no such file or folder: check the path"},
+		{"a folder", File{"--model", dir}, false, "--model " + dir + " is a folder: give a file in it, not the folder"},
+		{"under a file", File{"--model", filepath.Join(data, "m.tt")}, false, "--model " + filepath.Join(data, "m.tt") + " cannot be read (not a directory): check the path"},
+	}
+	for _, c := range cases {
+		err := CheckInput(c.in, c.folder)
+		switch {
+		case c.want == "" && err != nil:
+			t.Errorf("%s: refused: %v", c.name, err)
+		case c.want != "" && (!errors.Is(err, ErrInput) || err.Error() != c.want):
+			t.Errorf("%s: got %v, want %q", c.name, err, c.want)
+		}
+	}
+}
+
+func TestCheckInputUnreadable(t *testing.T) {
+	if os.Geteuid() == 0 {
+		t.Skip("the superuser may read a file without read permission")
+	}
+	p := filepath.Join(t.TempDir(), "m.tt")
+	if err := os.WriteFile(p, []byte("model"), 0o000); err != nil {
+		t.Fatal(err)
+	}
+	want := "--model " + p + " cannot be read (permission denied): make it readable or give another --model"
+	if err := CheckInput(File{"--model", p}, false); !errors.Is(err, ErrInput) || err.Error() != want {
+		t.Errorf("got %v, want %q", err, want)
+	}
+}

@@ -4,7 +4,8 @@
 // .npy files, as numpy.savez writes it). The format is specified in NumPy's
 // documentation, numpy.lib.format.
 //
-// It writes float32 arrays in C order and reads C-order float32 and float64
-// arrays, which is what handing weights to and from PyTorch needs: NumPy
+// It writes float32 and int64 arrays in C order and reads C-order float32,
+// float64 and int64 arrays, which is what handing weights (and integer
+// buffers) to and from PyTorch needs: NumPy
 // reads the files without pickle (numpy.load(..., allow_pickle=False)).
 package npy

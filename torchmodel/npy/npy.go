@@ -17,11 +17,21 @@ import (
 // .npz file of the supported kinds.
 var ErrFormat = errors.New("npy: not a supported NumPy file")
 
-// Array is one named array: float32 values in row-major (C) order.
+// Array is one named array in row-major (C) order: float32 values in
+// Data, or, for an array of integers, int64 values in Ints (Data nil).
 type Array struct {
 	Name  string
 	Shape []int
 	Data  []float32
+	Ints  []int64
+}
+
+// values is the number of values a holds.
+func (a Array) values() int {
+	if a.Ints != nil {
+		return len(a.Ints)
+	}
+	return len(a.Data)
 }
 
 func (a Array) numel() int {
@@ -41,11 +51,15 @@ const align = 64
 // WriteNPY writes a as one .npy file, format version 1.0: the magic string,
 // the version, the header length (uint16, little-endian), the header (a
 // Python dict literal padded with spaces and a newline) and the values as
-// little-endian float32 ('<f4'). len(a.Data) must be the product of
-// a.Shape.
+// little-endian float32 ('<f4'), or int64 ('<i8') for an array of Ints.
+// The number of values must be the product of a.Shape.
 func WriteNPY(w io.Writer, a Array) error {
-	if a.numel() != len(a.Data) {
-		panic(fmt.Sprintf("npy: WriteNPY: %d values for shape %v", len(a.Data), a.Shape))
+	if a.numel() != a.values() {
+		panic(fmt.Sprintf("npy: WriteNPY: %d values for shape %v", a.values(), a.Shape))
+	}
+	descr := "<f4"
+	if a.Ints != nil {
+		descr = "<i8"
 	}
 	dims := make([]string, len(a.Shape))
 	for i, s := range a.Shape {
@@ -56,7 +70,7 @@ func WriteNPY(w io.Writer, a Array) error {
 		shape += ","
 	}
 	shape += ")"
-	header := "{'descr': '<f4', 'fortran_order': False, 'shape': " + shape + ", }"
+	header := "{'descr': '" + descr + "', 'fortran_order': False, 'shape': " + shape + ", }"
 	pad := align - (len(magic)+4+len(header)+1)%align
 	if pad == align {
 		pad = 0
@@ -76,12 +90,29 @@ func WriteNPY(w io.Writer, a Array) error {
 		return err
 	}
 	buf := make([]byte, 1<<16)
+	if a.Ints != nil {
+		return writeInts(w, buf, a.Ints)
+	}
 	for x := a.Data; len(x) > 0; {
 		n := min(len(x), len(buf)/4)
 		for i, v := range x[:n] {
 			binary.LittleEndian.PutUint32(buf[4*i:], math.Float32bits(v))
 		}
 		if _, err := w.Write(buf[:4*n]); err != nil {
+			return err
+		}
+		x = x[n:]
+	}
+	return nil
+}
+
+func writeInts(w io.Writer, buf []byte, x []int64) error {
+	for len(x) > 0 {
+		n := min(len(x), len(buf)/8)
+		for i, v := range x[:n] {
+			binary.LittleEndian.PutUint64(buf[8*i:], uint64(v))
+		}
+		if _, err := w.Write(buf[:8*n]); err != nil {
 			return err
 		}
 		x = x[n:]
@@ -113,8 +144,9 @@ func WriteNPZ(w io.Writer, arrays []Array) error {
 
 // ReadNPZ reads the arrays of an .npz file (as numpy.savez writes it,
 // compressed or not) of size bytes, in archive order. Only C-order arrays of
-// float32 or float64 (converted to float32, rounded to nearest),
-// little-endian, are supported; name is used in messages.
+// float32 or float64 (converted to float32, rounded to nearest), or of
+// int64 (into Ints), little-endian, are supported; name is used in
+// messages.
 func ReadNPZ(r io.ReaderAt, size int64, name string) ([]Array, error) {
 	zr, err := zip.NewReader(r, size)
 	if err != nil {
@@ -198,10 +230,10 @@ func ReadNPY(r io.Reader, size int64) (Array, error) {
 	switch descr {
 	case "<f4":
 		width = 4
-	case "<f8":
+	case "<f8", "<i8":
 		width = 8
 	default:
-		return Array{}, fmt.Errorf("element type %s: only little-endian float32 and float64 (<f4, <f8) are read: %w", descr, ErrFormat)
+		return Array{}, fmt.Errorf("element type %s: only little-endian float32, float64 and int64 (<f4, <f8, <i8) are read: %w", descr, ErrFormat)
 	}
 	if n*width > size {
 		return Array{}, fmt.Errorf("shape %v needs %d bytes, the file has at most %d: %w", a.Shape, n*width, size, ErrFormat)
@@ -209,6 +241,13 @@ func ReadNPY(r io.Reader, size int64) (Array, error) {
 	raw := make([]byte, n*width)
 	if _, err := io.ReadFull(r, raw); err != nil {
 		return Array{}, fmt.Errorf("truncated data (%v): %w", err, ErrFormat)
+	}
+	if descr == "<i8" {
+		a.Ints = make([]int64, n)
+		for i := range a.Ints {
+			a.Ints[i] = int64(binary.LittleEndian.Uint64(raw[8*i:]))
+		}
+		return a, nil
 	}
 	a.Data = make([]float32, n)
 	for i := range a.Data {

@@ -134,3 +134,48 @@ func TestReadBack(t *testing.T) {
 		}
 	}
 }
+
+// int64 arrays (integer buffers of a module) go both ways with NumPy
+// (Debian's python3-numpy): NumPy reads ours as int64 with the same values,
+// including ones beyond float32's exact integers, and ReadNPZ reads
+// numpy.savez's int64 array into Ints.
+func TestNumPyInt64(t *testing.T) {
+	testref.RequirePython(t, "numpy")
+	dir := t.TempDir()
+	a := Array{Name: "ids", Shape: []int{2, 3}, Ints: []int64{0, 1, -2, 1 << 40, 16777217, 7}}
+	var buf bytes.Buffer
+	if err := WriteNPZ(&buf, []Array{a}); err != nil {
+		t.Fatal(err)
+	}
+	ours, theirs := filepath.Join(dir, "ours.npz"), filepath.Join(dir, "theirs.npz")
+	if err := os.WriteFile(ours, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	script := `
+import sys, numpy as np
+a = np.load(sys.argv[1], allow_pickle=False)["ids"]
+assert a.dtype == np.int64 and a.shape == (2, 3), (a.dtype, a.shape)
+print(",".join(str(int(x)) for x in a.ravel()))
+np.savez(sys.argv[2], ids=np.array([[3, -1], [1 << 50, 0]], dtype=np.int64))
+`
+	out, err := exec.Command(testref.Python, "-c", script, ours, theirs).CombinedOutput()
+	if err != nil {
+		t.Fatalf("numpy: %v\n%s", err, out)
+	}
+	if got := strings.TrimSpace(string(out)); got != "0,1,-2,1099511627776,16777217,7" {
+		t.Errorf("numpy read %s", got)
+	}
+	f, err := os.Open(theirs)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	st, _ := f.Stat()
+	got, err := ReadNPZ(f, st.Size(), theirs)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(got) != 1 || got[0].Data != nil || !slices.Equal(got[0].Shape, []int{2, 2}) || !slices.Equal(got[0].Ints, []int64{3, -1, 1 << 50, 0}) {
+		t.Errorf("read %+v", got)
+	}
+}

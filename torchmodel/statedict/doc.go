@@ -36,8 +36,9 @@
 // # Result
 //
 // Read returns the named tensors in file order, converted to float32
-// row-major (float64 rounded to nearest; float16 and bfloat16 exact), strided
-// views made contiguous. A checkpoint dictionary ({"epoch": …,
+// row-major (float64 rounded to nearest; float16 and bfloat16 exact), int64
+// tensors (a module's integer buffers) as int64, strided views made
+// contiguous; tensors of other integer types and booleans by shape only. A checkpoint dictionary ({"epoch": …,
 // "model_state_dict": …}) is accepted when exactly one of its entries is a
 // dictionary of tensors, or when Options.Entry names it.
 package statedict

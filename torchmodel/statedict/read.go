@@ -327,8 +327,8 @@ func fill(ctx context.Context, sd *StateDict, refs []*tensorRef, load func(*stor
 			t.Shape[k] = int(s)
 		}
 		sd.Tensors[sd.Keys[i]] = t
-		if !r.storage.dtype.IsFloat() {
-			continue // kept by name only: never a weight of a sentence CNN
+		if !r.storage.dtype.IsFloat() && r.storage.dtype != Int64 {
+			continue // kept by name only: never part of a sentence CNN
 		}
 		b, ok := loaded[r.storage]
 		if !ok {
@@ -342,7 +342,11 @@ func fill(ctx context.Context, sd *StateDict, refs []*tensorRef, load func(*stor
 				progress(done, total)
 			}
 		}
-		t.Data = materialize(r, b, order)
+		if r.storage.dtype == Int64 {
+			t.Ints = materializeInts(r, b, order)
+		} else {
+			t.Data = materialize(r, b, order)
+		}
 		if uses[r.storage]--; uses[r.storage] == 0 {
 			delete(loaded, r.storage)
 		}

@@ -49,6 +49,7 @@ type expectedTensor struct {
 	Shape  []int     `json:"shape"`
 	Dtype  string    `json:"dtype"`
 	Values []float32 `json:"values"`
+	Ints   []int64   `json:"ints"`
 }
 
 func savedByTorch(t *testing.T) (string, map[string][]expectedTensor) {
@@ -75,8 +76,8 @@ func savedByTorch(t *testing.T) (string, map[string][]expectedTensor) {
 
 // Every tensor of files written by torch.save (zip and legacy formats, a
 // checkpoint dictionary, parameters, strided views, shared storages,
-// float64, float16, bfloat16 and int64 tensors) has the keys, order, shapes
-// and values PyTorch itself reads back (Debian's python3-torch, script
+// float64, float16, bfloat16 and int64 tensors, a strided int64 view) has
+// the keys, order, shapes and values PyTorch itself reads back (Debian's python3-torch, script
 // testdata/save_files.py). Float32, float16 and bfloat16 values convert
 // exactly and float64 ones are rounded to nearest by both sides, so the
 // comparison is exact.
@@ -107,8 +108,8 @@ func TestReadMatchesTorch(t *testing.T) {
 					t.Errorf("%s: shape %v %s, torch %v %s", w.Key, got.Shape, got.Dtype, w.Shape, w.Dtype)
 					continue
 				}
-				if !slices.Equal(got.Data, w.Values) {
-					t.Errorf("%s: values %v, torch %v", w.Key, got.Data, w.Values)
+				if !slices.Equal(got.Data, w.Values) || !slices.Equal(got.Ints, w.Ints) {
+					t.Errorf("%s: values %v %v, torch %v %v", w.Key, got.Data, got.Ints, w.Values, w.Ints)
 				}
 			}
 		})

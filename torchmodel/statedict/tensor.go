@@ -50,8 +50,11 @@ type Tensor struct {
 	// Data holds the values as float32, row-major: float64 values are
 	// rounded to the nearest float32, float16 and bfloat16 ones are exact.
 	// It is nil for tensors of integers or booleans, which a sentence CNN
-	// does not have (their presence is reported by name).
+	// does not have as weights (their presence is reported by name).
 	Data []float32
+	// Ints holds the values of an int64 tensor (a module's integer
+	// buffer), row-major; nil for every other type.
+	Ints []int64
 }
 
 // Numel is the number of elements.
@@ -119,11 +122,30 @@ func materialize(t *tensorRef, b []byte, order binary.ByteOrder) []float32 {
 		return out
 	}
 	dec := decoder(t.storage.dtype, order)
+	gather(t, out, func(pos int64) float32 { return dec(b, pos) })
+	return out
+}
+
+// materializeInts copies the strided view t of an int64 storage's bytes b
+// into a new row-major slice.
+func materializeInts(t *tensorRef, b []byte, order binary.ByteOrder) []int64 {
+	n := int64(1)
+	for _, s := range t.shape {
+		n *= s
+	}
+	out := make([]int64, n)
+	gather(t, out, func(pos int64) int64 { return int64(order.Uint64(b[8*pos:])) })
+	return out
+}
+
+// gather fills out with the elements of the strided view t, row-major,
+// element at storage position pos being at(pos).
+func gather[T any](t *tensorRef, out []T, at func(pos int64) T) {
 	rank := len(t.shape)
 	idx := make([]int64, rank)
 	pos := t.offset
 	for i := range out {
-		out[i] = dec(b, pos)
+		out[i] = at(pos)
 		// advance the multi-index, last dimension fastest
 		for k := rank - 1; k >= 0; k-- {
 			idx[k]++
@@ -135,7 +157,6 @@ func materialize(t *tensorRef, b []byte, order binary.ByteOrder) []float32 {
 			idx[k] = 0
 		}
 	}
-	return out
 }
 
 // contiguous reports whether stride is the row-major stride of shape

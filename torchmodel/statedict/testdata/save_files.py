@@ -41,6 +41,7 @@ mixed = {
     "shared_a": base[0],  # two views of one storage
     "shared_b": base[2, 1:4],
     "count": torch.tensor(5),  # an int64 tensor (as BatchNorm's num_batches_tracked)
+    "ids": (torch.arange(12).reshape(3, 4) * (1 << 33)).t()[1:],  # a strided int64 view beyond 32 bits
 }
 files = {
     "zip.pt": (sd, {}),
@@ -59,7 +60,9 @@ for name, (obj, kw) in files.items():
     for k, t in sdict.items():
         t = t.detach()
         vals = t.float().flatten().tolist() if t.is_floating_point() else None
-        exp.append({"key": k, "shape": list(t.shape), "dtype": str(t.dtype).replace("torch.", ""), "values": vals})
+        ints = t.flatten().tolist() if t.dtype == torch.int64 else None
+        exp.append({"key": k, "shape": list(t.shape), "dtype": str(t.dtype).replace("torch.", ""), "values": vals,
+                    "ints": ints})
     expected[name] = exp
 torch.save(m, os.path.join(out, "whole_module.pt"))
 torch.save({"weights": sd["fc.weight"], "payload": Evil()}, os.path.join(out, "evil.pt"))

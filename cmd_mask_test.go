@@ -1,0 +1,176 @@
+package main
+
+import (
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+	"testing"
+
+	"telltale/cnn"
+	"telltale/corpus"
+	"telltale/internal/testref"
+)
+
+// wideTinyModel trains a small model with word weights (train --wide) on
+// part of the demo corpus and returns the path of its file.
+func wideTinyModel(t *testing.T) string {
+	t.Helper()
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	model := filepath.Join(dir, "wide.tt")
+	if code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--wide", "--quiet"); code != 0 {
+		t.Fatalf("train: exit %d: %s", code, stderr)
+	}
+	return model
+}
+
+// TestMaskWords: mask --words on a model with word weights writes the copy
+// cnn.Model.MaskedWordsCopy writes, checked by the identity of the
+// word-weight path (README "Word weights beside the filters"): on every
+// text of the demo's test file, each logit of the copy is the original's
+// less the listed words' part, Σ_t (Wide[x_t][c] − Wide[UNK][c])/N over
+// their tokens t, N the text's non-PAD tokens (float32 logits: within
+// 1e-5, common practice, no source); no filter is masked; and the
+// comparison it prints scores the copy as its own forward pass does on
+// those texts.
+func TestMaskWords(t *testing.T) {
+	model := wideTinyModel(t)
+	out := filepath.Join(t.TempDir(), "masked.tt")
+	words := []string{"kioskmail", "tkref"}
+	code, stdout, stderr := tt(t, "mask", "--model", model, "--words", strings.Join(words, ","), "--out", out,
+		"--test", "testdata/demo/test.csv", "--json")
+	if code != 0 {
+		t.Fatalf("mask --words: exit %d: %s", code, stderr)
+	}
+	if !strings.Contains(stderr, "words 'kioskmail', 'tkref' read as the unknown word by the word weights") {
+		t.Errorf("mask --words does not say what it did: %s", stderr)
+	}
+	m, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	masked, err := cnn.Load(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ids := make([]int32, len(words))
+	for i, w := range words {
+		if ids[i] = int32(slices.Index(m.Vocab, w)); ids[i] < 2 {
+			t.Fatalf("%q is not in the model's vocabulary: the case tests nothing", w)
+		}
+	}
+	for g := range m.Config.NumFilters() {
+		if masked.IsMasked(g) {
+			t.Errorf("filter %d masked by --words alone", g)
+		}
+	}
+	ds, _, err := corpus.Load("testdata/demo/test.csv", corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	enc, err := m.Encoder()
+	if err != nil {
+		t.Fatal(err)
+	}
+	data, err := cnn.EncodeDataset(enc, ds, m.Labels, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	right, touched := 0, 0
+	for i, x := range data.IDs {
+		want := wordsRemoved(m, x, ids)
+		got := masked.Forward(x).Logits
+		for c := range got {
+			if !testref.Close(float64(got[c]), want[c], 1e-5, 0) {
+				t.Fatalf("text %d, logit %d: masked %v, the original less the words' part %v", i, c, got[c], want[c])
+			}
+		}
+		if slices.ContainsFunc(x, func(id int32) bool { return slices.Contains(ids, id) }) {
+			touched++
+		}
+		if argmax(got) == data.Labels[i] {
+			right++
+		}
+	}
+	if touched < 50 {
+		t.Fatalf("only %d test texts hold the words: the check checked little", touched)
+	}
+	var rows []struct {
+		Model   string `json:"model"`
+		Metrics struct {
+			Accuracy float64 `json:"accuracy"`
+		} `json:"metrics"`
+	}
+	if err := json.Unmarshal([]byte(stdout), &rows); err != nil {
+		t.Fatalf("mask --json: %v\n%s", err, stdout)
+	}
+	if len(rows) != 2 || rows[0].Model != model || rows[1].Model != out {
+		t.Fatalf("mask --json compares %+v, want %s and %s", rows, model, out)
+	}
+	if want := float64(right) / float64(data.Len()); rows[1].Metrics.Accuracy != want {
+		t.Errorf("the masked model's accuracy: %v printed, %v by its forward pass", rows[1].Metrics.Accuracy, want)
+	}
+}
+
+// wordsRemoved is m's logits on x less the word part of the words ids:
+// Σ_t (Wide[x_t][c] − Wide[UNK][c])/N over the tokens t of those words.
+func wordsRemoved(m *cnn.Model, x []int32, ids []int32) []float64 {
+	z := m.Forward(x).Logits
+	n := 0
+	for _, id := range x {
+		if id != corpus.PAD {
+			n++
+		}
+	}
+	out := make([]float64, len(z))
+	unk := m.WideRow(corpus.UNK)
+	for c := range z {
+		out[c] = float64(z[c])
+		for _, id := range x {
+			if slices.Contains(ids, id) {
+				out[c] -= (float64(m.WideRow(id)[c]) - float64(unk[c])) / float64(n)
+			}
+		}
+	}
+	return out
+}
+
+// TestMaskRefusals: mask refuses, before writing anything, a command line
+// with neither --filters nor --words, --words on a model without word
+// weights, a word the model's vocabulary lacks, the padding or unknown
+// word, and an empty item; each message names the fix.
+func TestMaskRefusals(t *testing.T) {
+	wide, plain := wideTinyModel(t), tinyModel(t)
+	dir := t.TempDir()
+	out := filepath.Join(dir, "masked.tt")
+	for _, c := range []struct {
+		name string
+		args []string
+		want []string
+	}{
+		{"neither", []string{"--model", wide}, []string{"--filters or --words is required"}},
+		{"no word weights", []string{"--model", plain, "--words", "kioskmail"}, []string{plain + " has no word weights", "would change nothing", "--filters"}},
+		{"unknown word", []string{"--model", wide, "--words", "kioskmail,zqxjv"}, []string{"vocabulary does not contain \"zqxjv\"", "telltale export --model " + wide, "vocab.txt"}},
+		{"unknown-word token", []string{"--model", wide, "--words", corpus.UNKWord}, []string{"is the unknown word itself"}},
+		{"padding", []string{"--model", wide, "--words", corpus.PADWord}, []string{"is the padding itself"}},
+		{"empty item", []string{"--model", wide, "--words", "kioskmail,,tkref"}, []string{"--words", "item 2 of 3 is empty"}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, stderr := tt(t, append(append([]string{"mask"}, c.args...), "--out", out)...)
+			noCrash(t, c.name, stderr)
+			if code != 2 {
+				t.Errorf("exit %d, want 2: %s", code, stderr)
+			}
+			for _, w := range c.want {
+				if !strings.Contains(stderr, w) {
+					t.Errorf("message lacks %q: %s", w, stderr)
+				}
+			}
+			if _, err := os.Stat(out); err == nil {
+				t.Errorf("%s written despite the error", out)
+			}
+		})
+	}
+}
