@@ -15,6 +15,10 @@
 // The test splits are read only with -test, for the check made after the
 // choice: then each row also holds the test accuracy and macro-F1 (and the
 // baseline's, with -baseline).
+//
+// With -baseline -stack each row also scores the CNN and the baseline
+// joined by stacking (stack.go). -dump-text DIR writes a corpus's splits
+// as JSON lines for the PyTorch pooling prototype (pooling.py) and stops.
 package main
 
 import (
