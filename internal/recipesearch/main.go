@@ -15,6 +15,10 @@
 // The test splits are read only with -test, for the check made after the
 // choice: then each row also holds the test accuracy and macro-F1 (and the
 // baseline's, with -baseline).
+//
+// With -baseline -stack each row also scores the CNN and the baseline
+// joined by stacking (stack.go). -dump-text DIR writes a corpus's splits
+// as JSON lines for the PyTorch pooling prototype (pooling.py) and stops.
 package main
 
 import (
@@ -43,10 +47,18 @@ func main() {
 	threads := flag.Int("threads", 0, "worker goroutines (0: all cores)")
 	baseline := flag.Bool("baseline", false, "fit the linear baseline too")
 	withTest := flag.Bool("test", false, "also evaluate on the test split (only to check a choice already made)")
+	stack := flag.Bool("stack", false, "with -baseline: also score the CNN and the baseline joined by stacking (stack.go)")
+	dumpText := flag.String("dump-text", "", "write the splits as JSON lines (text, label) into this folder and stop, for pooling.py")
 	flag.Parse()
 	sp, err := load(root(), *which, *withTest)
 	if err != nil {
 		log.Fatal(err)
+	}
+	if *dumpText != "" {
+		if err := dumpSplits(sp, *which, *dumpText); err != nil {
+			log.Fatal(err)
+		}
+		return
 	}
 	log.Printf("%s: training %d, dev %d texts", *which, len(sp.train.Examples), len(sp.dev.Examples))
 	for _, name := range strings.Split(*recipes, ",") {
@@ -66,7 +78,7 @@ func main() {
 				c := linear.DefaultConfig()
 				r.Baseline = &c
 			}
-			row, err := measure(*which, strings.Trim(*base+"+"+name, "+"), r, sp)
+			row, err := measure(*which, strings.Trim(*base+"+"+name, "+"), r, sp, *stack)
 			if err != nil {
 				log.Fatal(err)
 			}
@@ -92,7 +104,7 @@ func candidate(base, name string) (cnn.Recipe, error) {
 }
 
 // measure trains r on the splits and returns the table row.
-func measure(which, name string, r cnn.Recipe, sp splits) (string, error) {
+func measure(which, name string, r cnn.Recipe, sp splits, stack bool) (string, error) {
 	start := time.Now()
 	tr, err := cnn.TrainText(context.Background(), sp.train, sp.dev, r, nil)
 	if err != nil {
@@ -134,6 +146,13 @@ func measure(which, name string, r cnn.Recipe, sp splits) (string, error) {
 			best = max(best, d.Score)
 		}
 		row += fmt.Sprintf(" %.4f (C=%g) |", best, m.Baseline.Classifier.C)
+	}
+	if stack && m.Baseline != nil {
+		cells, err := stackCells(m, enc, sp, r.Train.MaxLen, r.Train.Threads)
+		if err != nil {
+			return "", err
+		}
+		row += cells
 	}
 	if sp.test != nil {
 		if m.Baseline != nil {
