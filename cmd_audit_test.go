@@ -1,11 +1,9 @@
 package main
 
 import (
-	"bytes"
 	"crypto/sha256"
 	"encoding/csv"
 	"encoding/json"
-	"maps"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -566,48 +564,7 @@ func tinyModelOther(t *testing.T) string {
 // depth, is in the README's documentation of it.
 func checkJSONDocumented(t *testing.T, raw []byte) {
 	t.Helper()
-	checkJSONDocumentedIn(t, raw, "### The audit's JSON")
-}
-
-// checkJSONDocumentedIn: every key of the JSON raw, at any depth, is in
-// the README's section headed heading.
-func checkJSONDocumentedIn(t *testing.T, raw []byte, heading string) {
-	t.Helper()
-	b, err := os.ReadFile("README.md")
-	if err != nil {
-		t.Fatal(err)
-	}
-	_, doc, ok := bytes.Cut(b, []byte(heading))
-	if !ok {
-		t.Fatalf("README.md has no section %q", heading)
-	}
-	doc, _, _ = bytes.Cut(doc, []byte("\n## "))
-	doc, _, _ = bytes.Cut(doc, []byte("\n### "))
-	var v any
-	if err := json.Unmarshal(raw, &v); err != nil {
-		t.Fatal(err)
-	}
-	missing := map[string]bool{}
-	var walk func(v any)
-	walk = func(v any) {
-		switch x := v.(type) {
-		case map[string]any:
-			for k, e := range x {
-				if !bytes.Contains(doc, []byte(k)) {
-					missing[k] = true
-				}
-				walk(e)
-			}
-		case []any:
-			for _, e := range x {
-				walk(e)
-			}
-		}
-	}
-	walk(v)
-	if len(missing) > 0 {
-		t.Errorf("JSON keys not documented in the README: %v", slices.Sorted(maps.Keys(missing)))
-	}
+	checkKeysDocumented(t, "audit", raw, "### The audit's JSON")
 }
 
 // TestShellQuote: the commands the audit prints give each argument back

@@ -120,7 +120,7 @@ func TestTrainEvalCompareShowTheBaseline(t *testing.T) {
 		t.Fatalf("eval --json: baseline %+v, the model's C %g", ev.Baseline, m.Baseline.Classifier.C)
 	}
 	checkFigures(t, "eval --json", ev.Figures, ev.Metrics, ev.Baseline.Metrics)
-	checkJSONDocumentedIn(t, []byte(js), "### The JSON of train, eval and compare")
+	checkKeysDocumented(t, "eval", []byte(js), "### The JSON of train, eval and compare")
 	if ev.Accuracy != m.Info.Test.Accuracy {
 		t.Errorf("eval's accuracy %g, train's %g", ev.Accuracy, m.Info.Test.Accuracy)
 	}
@@ -143,7 +143,7 @@ func TestTrainEvalCompareShowTheBaseline(t *testing.T) {
 		t.Fatalf("train --json lacks the figures or the baseline: %s", js)
 	}
 	checkFigures(t, "train --json", *ts.TestFigures, *ts.Test, ts.Baseline.Metrics)
-	checkJSONDocumentedIn(t, []byte(js), "### The JSON of train, eval and compare")
+	checkKeysDocumented(t, "train", []byte(js), "### The JSON of train, eval and compare")
 
 	// compare: every row carries its figures and its baseline.
 	code, js, stderr = tt(t, "compare", "--models", model+","+model, "--data", data, "--json")
@@ -154,7 +154,7 @@ func TestTrainEvalCompareShowTheBaseline(t *testing.T) {
 	if err := json.Unmarshal([]byte(js), &rows); err != nil {
 		t.Fatal(err)
 	}
-	checkJSONDocumentedIn(t, []byte(js), "### The JSON of train, eval and compare")
+	checkKeysDocumented(t, "compare", []byte(js), "### The JSON of train, eval and compare")
 	for i, r := range rows {
 		if r.Baseline == nil || r.Baseline.Metrics == nil {
 			t.Fatalf("compare row %d: no baseline", i)

@@ -80,6 +80,7 @@ func checkKeysDocumented(t *testing.T, what string, raw []byte, heading string, 
 	if !ok {
 		t.Fatalf("README.md has no section %q", heading)
 	}
+	doc, _, _ = bytes.Cut(doc, []byte("\n## "))
 	doc, _, _ = bytes.Cut(doc, []byte("\n### "))
 	var v any
 	if err := json.Unmarshal(raw, &v); err != nil {

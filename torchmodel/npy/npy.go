@@ -174,36 +174,46 @@ func ReadNPZ(r io.ReaderAt, size int64, name string) ([]Array, error) {
 
 var headerRE = regexp.MustCompile(`^\{\s*'descr':\s*'([<>|=]?[a-z]\d+)',\s*'fortran_order':\s*(True|False),\s*'shape':\s*\(([\d,\s]*)\),?\s*\}\s*$`)
 
-// ReadNPY reads one .npy file of at most size bytes (see ReadNPZ for the
-// kinds supported).
-func ReadNPY(r io.Reader, size int64) (Array, error) {
+// readHeader reads a .npy file's magic string, version and header
+// dictionary (at most size bytes) and returns the dictionary's text.
+func readHeader(r io.Reader, size int64) ([]byte, error) {
 	var pre [len(magic) + 2]byte
 	if _, err := io.ReadFull(r, pre[:]); err != nil || string(pre[:len(magic)]) != magic {
-		return Array{}, fmt.Errorf("no .npy magic string: %w", ErrFormat)
+		return nil, fmt.Errorf("no .npy magic string: %w", ErrFormat)
 	}
 	var hlen int64
 	switch pre[6] {
 	case 1:
 		var b [2]byte
 		if _, err := io.ReadFull(r, b[:]); err != nil {
-			return Array{}, fmt.Errorf("truncated header: %w", ErrFormat)
+			return nil, fmt.Errorf("truncated header: %w", ErrFormat)
 		}
 		hlen = int64(binary.LittleEndian.Uint16(b[:]))
 	case 2, 3:
 		var b [4]byte
 		if _, err := io.ReadFull(r, b[:]); err != nil {
-			return Array{}, fmt.Errorf("truncated header: %w", ErrFormat)
+			return nil, fmt.Errorf("truncated header: %w", ErrFormat)
 		}
 		hlen = int64(binary.LittleEndian.Uint32(b[:]))
 	default:
-		return Array{}, fmt.Errorf("format version %d.%d: %w", pre[6], pre[7], ErrFormat)
+		return nil, fmt.Errorf("format version %d.%d: %w", pre[6], pre[7], ErrFormat)
 	}
 	if hlen > size || hlen > 1<<20 {
-		return Array{}, fmt.Errorf("header of %d bytes in a file of %d: %w", hlen, size, ErrFormat)
+		return nil, fmt.Errorf("header of %d bytes in a file of %d: %w", hlen, size, ErrFormat)
 	}
 	h := make([]byte, hlen)
 	if _, err := io.ReadFull(r, h); err != nil {
-		return Array{}, fmt.Errorf("truncated header: %w", ErrFormat)
+		return nil, fmt.Errorf("truncated header: %w", ErrFormat)
+	}
+	return h, nil
+}
+
+// ReadNPY reads one .npy file of at most size bytes (see ReadNPZ for the
+// kinds supported).
+func ReadNPY(r io.Reader, size int64) (Array, error) {
+	h, err := readHeader(r, size)
+	if err != nil {
+		return Array{}, err
 	}
 	m := headerRE.FindSubmatch(h)
 	if m == nil {
