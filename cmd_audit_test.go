@@ -268,6 +268,13 @@ func checkMarks(t *testing.T, model string, base []string) {
 	if !slices.ContainsFunc(res.Ranked, func(c audit.Candidate) bool { return c.Mark == audit.MarkArtifact && c.Verdict == audit.VerdictActed }) {
 		t.Error("the stamp, marked artifact, is not acted on")
 	}
+	// The mark never stands in for the measured figure: no signal weighs
+	// 1, so a measured artifact-likeness stays below 1.
+	for _, c := range res.Ranked {
+		if c.Mark == audit.MarkArtifact && !(c.ArtifactLikeness > 0 && c.ArtifactLikeness < 1) {
+			t.Errorf("the stamp, marked artifact, shows artifact-likeness %v, not its measured figure", c.ArtifactLikeness)
+		}
+	}
 	// A word the model does not know, or an audit that fails, writes nothing.
 	kept := sha(t, marks)
 	for _, c := range []struct {

@@ -172,7 +172,9 @@ type Candidate struct {
 	Position string `json:"position,omitempty"`
 	// Association is question 1, on the training split.
 	Association CueAssociation `json:"association"`
-	// ArtifactLikeness (question 3, ArtifactFormula) and its signals.
+	// ArtifactLikeness (question 3, ArtifactFormula) and its signals, as
+	// measured: a mark changes the cue's weight in the ranking
+	// (artifactWeight), never this figure.
 	ArtifactLikeness float64  `json:"artifact_likeness"`
 	Signals          []Signal `json:"signals"`
 	// Reliance is question 2 on the selection half (it ranks the cue);
@@ -277,7 +279,7 @@ type Result struct {
 }
 
 // ScoreFormula states how a cue is ranked.
-const ScoreFormula = "score = reliance × artifact-likeness, for cues that pass the association gate; reliance is the " +
+const ScoreFormula = "score = reliance × artifact-likeness (1 for a cue marked artifact), for cues that pass the association gate; reliance is the " +
 	"mean drop of the probability of the cue's label when the cue is replaced by label-neutral words, " +
 	"less the drop when the same words are put elsewhere (selection half, at least 0); the cues acted on are listed " +
 	"first, then those relied on only in the selection half, then the rest"
@@ -637,9 +639,6 @@ func (a *auditor) heldoutPasses(ctx context.Context, cands []*Candidate) error {
 		c.selOcc, c.confOcc = selOcc[k], confOcc[k]
 		a.shift(c)
 		c.ArtifactLikeness = artifactScore(c.Signals)
-		if c.Mark == MarkArtifact {
-			c.ArtifactLikeness = 1
-		}
 	}
 	a.progress("held-out", 2, 2)
 	return nil

@@ -37,7 +37,7 @@ func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate
 	byP := slices.Clone(cands)
 	slices.SortStableFunc(byP, func(x, y *Candidate) int { return cmp.Compare(x.Association.P, y.Association.P) })
 	byA := slices.Clone(cands)
-	slices.SortStableFunc(byA, func(x, y *Candidate) int { return cmp.Compare(y.ArtifactLikeness, x.ArtifactLikeness) })
+	slices.SortStableFunc(byA, func(x, y *Candidate) int { return cmp.Compare(artifactWeight(y), artifactWeight(x)) })
 	for k := 0; len(list) < a.opt.Measured && (k < len(byP) || k < len(byA)); k++ {
 		if k < len(byA) {
 			take(byA[k])
@@ -82,8 +82,20 @@ func (a *auditor) relied(c *Candidate) bool {
 	return c.Reliance != nil && c.RelianceQ <= a.opt.RelianceAlpha && c.Reliance.LabelDrop.Estimate > 0
 }
 
-func artifactLike(c *Candidate) bool {
+// ArtifactLike reports whether the cue is treated as how the data was
+// collected: marked artifact, or unmarked with its measured
+// artifact-likeness at the threshold or above.
+func (c *Candidate) ArtifactLike() bool {
 	return c.Mark == MarkArtifact || c.Mark != MarkTask && c.ArtifactLikeness >= ArtifactThreshold
+}
+
+// artifactWeight is the cue's artifact-likeness in the ranking: 1 for a
+// cue the user marked artifact, else the measured figure.
+func artifactWeight(c *Candidate) float64 {
+	if c.Mark == MarkArtifact {
+		return 1
+	}
+	return c.ArtifactLikeness
 }
 
 // result scores the cues and sorts them into the three lists.
@@ -97,10 +109,10 @@ func (a *auditor) result(cands, measured []*Candidate) *Result {
 	var ranked, task, others []*Candidate
 	for _, c := range cands {
 		if c.Reliance != nil {
-			c.Score = max(0, c.Reliance.LabelDrop.Estimate) * c.ArtifactLikeness
+			c.Score = max(0, c.Reliance.LabelDrop.Estimate) * artifactWeight(c)
 		}
 		switch {
-		case c.Reliance != nil && artifactLike(c):
+		case c.Reliance != nil && c.ArtifactLike():
 			c.Verdict = VerdictNotRelied
 			if a.relied(c) {
 				c.Verdict = VerdictUnconfirmed // until the confirmation half confirms it
@@ -121,8 +133,8 @@ func (a *auditor) result(cands, measured []*Candidate) *Result {
 		if x.Score != y.Score {
 			return cmp.Compare(y.Score, x.Score)
 		}
-		if x.ArtifactLikeness != y.ArtifactLikeness {
-			return cmp.Compare(y.ArtifactLikeness, x.ArtifactLikeness)
+		if wx, wy := artifactWeight(x), artifactWeight(y); wx != wy {
+			return cmp.Compare(wy, wx)
 		}
 		return cmp.Compare(x.Association.P, y.Association.P)
 	})

@@ -120,12 +120,24 @@ func (c *Candidate) name() string {
 	return "the words " + show
 }
 
-// why lists the signals that make a cue artifact-like, strongest
-// contribution first, in plain words.
+// why says in plain words why the cue counts as artifact-like: the
+// user's mark, the measured signals (measuredWhy), or both.
 func (c *Candidate) why() string {
-	if c.Mark == MarkArtifact {
+	measured := c.measuredWhy()
+	switch {
+	case c.Mark == MarkArtifact && measured == "":
 		return "you marked it as an artifact"
+	case c.Mark == MarkArtifact:
+		return "you marked it as an artifact, and " + measured
+	case measured == "":
+		return "its signals together pass the threshold"
 	}
+	return measured
+}
+
+// measuredWhy lists the measured signals that make the cue artifact-like,
+// strongest contribution first, at most three; "" when none contributes.
+func (c *Candidate) measuredWhy() string {
 	type part struct {
 		v    float64
 		says string
@@ -146,9 +158,6 @@ func (c *Candidate) why() string {
 	var says []string
 	for _, p := range ps[:min(3, len(ps))] {
 		says = append(says, p.says)
-	}
-	if len(says) == 0 {
-		return "its signals together pass the threshold"
 	}
 	return strings.Join(says, "; ")
 }

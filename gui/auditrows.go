@@ -78,7 +78,7 @@ func associationRows(a *auditState) [][]string {
 			as := c.Association
 			lo, hi := audit.Wilson(as.InLabel, as.Texts, 0.95)
 			reads := l.reads
-			if c.ArtifactLikeness >= audit.ArtifactThreshold {
+			if c.ArtifactLike() {
 				reads = "collection"
 			}
 			rows = append(rows, []string{cueShown(c), c.Label, fmt.Sprint(as.Texts),
