@@ -65,22 +65,36 @@ func trainSmall(t *testing.T, data, model string, extra ...string) *cnn.Model {
 	return m
 }
 
+// trainWithSplitFile trains a small model on 400 demo training rows with
+// the first n rows of the demo's test file as its --dev or --test file
+// (which), and checks that the model records that file's fingerprint and
+// no other. It returns the training data, that file, the model file and
+// the demo's test rows.
+func trainWithSplitFile(t *testing.T, which string, n int) (data, file, model string, heldout *corpus.Dataset) {
+	t.Helper()
+	dir := t.TempDir()
+	data = demoPart(t, dir, 400)
+	file = filepath.Join(dir, which+".csv")
+	heldout = loadExamples(t, filepath.Join("testdata", "demo", "test.csv"))
+	writeExamples(t, file, heldout.Examples[:n])
+	model = filepath.Join(dir, "m.tt")
+	rec := trainSmall(t, data, model, "--"+which, file).Info.Splits
+	got, other := rec.TestFingerprint, rec.DevFingerprint
+	if which == "dev" {
+		got, other = other, got
+	}
+	if got != loadExamples(t, file).Fingerprint() || other != "" {
+		t.Fatalf("record %+v: want the %s file's fingerprint and no other", rec, which)
+	}
+	return data, file, model, heldout
+}
+
 // TestEvalSplitWarnsOfAChangedTestFile: the model records the fingerprint
 // of its test file; when the file is overwritten (here with training
 // rows), eval given the same --data still reads it but warns that it
 // changed since training, as text and in its JSON.
 func TestEvalSplitWarnsOfAChangedTestFile(t *testing.T) {
-	dir := t.TempDir()
-	data := demoPart(t, dir, 400)
-	test := filepath.Join(dir, "test.csv")
-	heldout := loadExamples(t, filepath.Join("testdata", "demo", "test.csv"))
-	writeExamples(t, test, heldout.Examples[:200])
-	model := filepath.Join(dir, "m.tt")
-	m := trainSmall(t, data, model, "--test", test)
-	if rec := m.Info.Splits; rec.TestFingerprint != loadExamples(t, test).Fingerprint() || rec.DevFingerprint != "" {
-		t.Fatalf("record %+v: want the test file's fingerprint and no dev fingerprint", rec)
-	}
-
+	data, test, model, _ := trainWithSplitFile(t, "test", 200)
 	var ev evalOutput
 	stderr := jsonOf(t, &ev, "eval", "--model", model, "--data", data, "--json")
 	if len(ev.Warnings) != 0 || strings.Contains(stderr, "warning:") {
@@ -174,16 +188,7 @@ func TestEvalSplitRefusesAnEmptyTestSplit(t *testing.T) {
 // of its dev file too; the commands that find the model's splits warn
 // when it changed since training.
 func TestEvalSplitWarnsOfAChangedDevFile(t *testing.T) {
-	dir := t.TempDir()
-	data := demoPart(t, dir, 400)
-	dev := filepath.Join(dir, "dev.csv")
-	heldout := loadExamples(t, filepath.Join("testdata", "demo", "test.csv"))
-	writeExamples(t, dev, heldout.Examples[:100])
-	model := filepath.Join(dir, "m.tt")
-	m := trainSmall(t, data, model, "--dev", dev)
-	if rec := m.Info.Splits; rec.DevFingerprint != loadExamples(t, dev).Fingerprint() || rec.TestFingerprint != "" {
-		t.Fatalf("record %+v: want the dev file's fingerprint and no test fingerprint", rec)
-	}
+	data, dev, model, heldout := trainWithSplitFile(t, "dev", 100)
 	var ev evalOutput
 	jsonOf(t, &ev, "eval", "--model", model, "--data", data, "--json")
 	if len(ev.Warnings) != 0 {
