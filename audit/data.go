@@ -137,3 +137,26 @@ func (d Data) subset(idx []int) Data {
 	}
 	return out
 }
+
+// NewHeldout reads the held-out split as every other reading of the model
+// does (eval, predict, explain, the report): for a model with a character
+// layer, the words of its texts that are not in the vocabulary get vectors
+// of their own from their characters (cnn.Model.WithUnseen), not the
+// unknown word's. It returns the model to audit (m itself when m has no
+// character layer or the texts no unseen word; else a copy whose
+// vocabulary extends m's, sharing its weights, which must not be saved in
+// m's place) and the split read for it (NewData). The training split is
+// read with NewData(m, …): m's own vocabulary, as the model was trained
+// on it, so that every cue is a word m knows; its ids are valid for the
+// returned model too. Preconditions are those of NewData.
+func NewHeldout(m *cnn.Model, heldout *corpus.Dataset, workers int) (*cnn.Model, Data, error) {
+	mu, _, err := m.WithUnseen(nil, heldout.Texts())
+	if err != nil {
+		return nil, Data{}, fmt.Errorf("audit: %w", err)
+	}
+	held, err := NewData(mu, heldout, workers)
+	if err != nil {
+		return nil, Data{}, err
+	}
+	return mu, held, nil
+}
