@@ -416,15 +416,16 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 
 // one audits model m on the splits with marks; what prefixes the progress.
 func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, what string) (*audit.Result, error) {
+	// The errors of NewData and NewHeldout name the file and the line.
 	train, err := audit.NewData(m, r.es.train, r.o.threads.N)
 	if err != nil {
-		return nil, fmt.Errorf("the training split of %s: %w", r.o.data, err)
+		return nil, err
 	}
 	// The test texts as eval reads them: with --chars, unseen words have
 	// vectors of their own, read by mu, the model audited.
 	mu, held, err := audit.NewHeldout(m, r.es.test, r.o.threads.N)
 	if err != nil {
-		return nil, fmt.Errorf("the test texts (%s): %w", cmpOr(r.src.heldoutFile(), r.o.data), err)
+		return nil, err
 	}
 	if r.priors == nil {
 		r.priors = make([]float64, len(m.Labels))
