@@ -259,20 +259,9 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 		}
 	}
 	if o.asJSON {
-		return writeJSON(env.Stdout, profilesJSON{Profiles: prof, SelectivityShare: prof.Selective})
+		return writeJSON(env.Stdout, prof)
 	}
 	return writeProfiles(env.Stdout, prof, o.top)
-}
-
-// profilesJSON is the JSON of filters: the profiles, with the --selectivity
-// setting (Profiles.Selective, every filter's selectivity.share) written as
-// selectivity_share, not as "selective", which is every filter's verdict.
-type profilesJSON struct {
-	*explain.Profiles
-	// Hidden is never set: as a shallower field of the same name it keeps
-	// the embedded Selective out of the JSON.
-	Hidden           *float64 `json:"selective,omitempty"`
-	SelectivityShare float64  `json:"selectivity_share"`
 }
 
 // writeProfiles writes the profiles for a reader: a header, then every
