@@ -416,13 +416,16 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 
 // one audits model m on the splits with marks; what prefixes the progress.
 func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, what string) (*audit.Result, error) {
+	// The errors of NewData and NewHeldout name the file and the line.
 	train, err := audit.NewData(m, r.es.train, r.o.threads.N)
 	if err != nil {
-		return nil, fmt.Errorf("the training split of %s: %w", r.o.data, err)
+		return nil, err
 	}
-	held, err := audit.NewData(m, r.es.test, r.o.threads.N)
+	// The test texts as eval reads them: with --chars, unseen words have
+	// vectors of their own, read by mu, the model audited.
+	mu, held, err := audit.NewHeldout(m, r.es.test, r.o.threads.N)
 	if err != nil {
-		return nil, fmt.Errorf("the test texts (%s): %w", cmpOr(r.src.heldoutFile(), r.o.data), err)
+		return nil, err
 	}
 	if r.priors == nil {
 		r.priors = make([]float64, len(m.Labels))
@@ -432,7 +435,7 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 	}
 	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.src.heldoutFile(), r.o.data),
 		HeldoutShare: r.src.heldoutShare(), RetrainCommands: r.src.retrainCommands, Seed: r.o.seed, Workers: r.o.threads.N}
-	return audit.Run(ctx, m, train, held, opt, func(stage string, done, total int) {
+	return audit.Run(ctx, mu, train, held, opt, func(stage string, done, total int) {
 		r.bar.show(done, total, what+"audit: "+auditStage(stage), false)
 	})
 }

@@ -4,6 +4,7 @@ import (
 	"crypto/sha256"
 	"encoding/csv"
 	"encoding/json"
+	"fmt"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -593,5 +594,75 @@ func TestShellQuote(t *testing.T) {
 		if got := count(c.n); got != c.want {
 			t.Errorf("count(%d) = %q, want %q", c.n, got, c.want)
 		}
+	}
+}
+
+// TestAuditBadInputMessages: each bad input of the audit gives one message
+// that says its cause once, naming the file, the line where there is one,
+// and the fix: no sentinel's text ("bad input") as a tail, no package name
+// repeating the command's ("telltale audit: audit:"), each of the cause's
+// words once.
+func TestAuditBadInputMessages(t *testing.T) {
+	f := makeCaseFiles(t)
+	bad := func(name string) string { return filepath.Join("testdata", "bad", name) }
+	write := func(name, content string) string {
+		p := filepath.Join(f.dir, name)
+		if err := os.WriteFile(p, []byte(content), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	garbage := write("garbage.marks", "garbage\n")
+	unknown := write("unknown.marks", "# a word the model never saw\nartifact zzqqxx\n")
+	var odd strings.Builder
+	odd.WriteString("text,label\n")
+	for i := range 70 {
+		fmt.Fprintf(&odd, "message number %d about the ferry,%s\n", i, []string{"bookings", "weird"}[min(i, 1)])
+	}
+	oddLabel := write("odd.csv", odd.String())
+	a := func(args ...string) []string {
+		return append([]string{"audit", "--model", f.model, "--data", f.data, "--quiet"}, args...)
+	}
+	for _, c := range []struct {
+		name string
+		args []string
+		code int
+		want []string // each once in stderr
+	}{
+		{"missing file", []string{"audit", "--model", f.model, "--data", filepath.Join(f.dir, "none.csv")}, 2,
+			[]string{"none.csv: no such file", "check the path"}},
+		{"wrong columns", []string{"audit", "--model", f.model, "--data", bad("no-text-column.csv")}, 1,
+			[]string{"no-text-column.csv line 1", "which column holds the text", "--text-col"}},
+		{"empty file", []string{"audit", "--model", f.model, "--data", bad("empty.csv")}, 1,
+			[]string{"empty.csv", "file is empty", "header row"}},
+		{"empty test file", a("--test", bad("empty.csv")), 1, []string{"empty.csv", "file is empty", "header row"}},
+		{"test label the model does not know", a("--test", oddLabel), 1,
+			[]string{"odd.csv", "odd.csv line 3", `label "weird"`, "relabel"}},
+		{"too few test texts", a("--test", f.tiny), 1, []string{"two-labels.csv", "too few for the tests", "give a larger test file (--test FILE)"}},
+		{"bad marks line", a("--marks", garbage), 1, []string{"garbage.marks line 1", `"garbage"`, "a line starts with artifact or task"}},
+		{"marked word unknown", a("--marks", unknown), 1, []string{"unknown.marks line 2", `"zzqqxx"`, "remove the line"}},
+		{"missing --models", a("--models", filepath.Join(f.dir, "none.tt")), 2, []string{"--models " + filepath.Join(f.dir, "none.tt") + ": no such file", "check the path"}},
+		{"--models not a model", a("--models", f.data), 1, []string{"part.csv", "not a telltale model file", "give a file written by telltale train"}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, stderr := tt(t, c.args...)
+			noCrash(t, "audit", stderr)
+			if code != c.code {
+				t.Errorf("exit %d, want %d; stderr:\n%s", code, c.code, stderr)
+			}
+			for _, w := range c.want {
+				if n := strings.Count(stderr, w); n != 1 {
+					t.Errorf("stderr holds %q %d times, want once:\n%s", w, n, stderr)
+				}
+			}
+			if n := strings.Count(stderr, "telltale audit:"); n != 1 {
+				t.Errorf("%d messages, want one:\n%s", n, stderr)
+			}
+			for _, repeat := range []string{"bad input", "telltale audit: audit:"} {
+				if strings.Contains(stderr, repeat) {
+					t.Errorf("stderr holds %q:\n%s", repeat, stderr)
+				}
+			}
+		})
 	}
 }

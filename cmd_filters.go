@@ -39,8 +39,10 @@ them below it; the families its windows above the threshold fall into, with
 their share and stability; the words that switch each slot on (triggers) and
 off (suppressors); and its activation histogram (in --json). For a model that
 records no splits, --data is streamed, not held, and read twice when a filter's
-negative n-grams need a second search. Filters are numbered from 0, as in every
-command; --filters shows only those listed.`,
+negative n-grams need a second search. A model with a character layer (train
+--chars) reads the words outside its vocabulary from their characters, as eval
+does, so its texts are held. Filters are numbered from 0, as in every command;
+--filters shows only those listed.`,
 	Options: func() options { return new(filtersOptions) },
 	Run:     runAs(runFilters),
 }
@@ -99,21 +101,29 @@ func (o *filtersOptions) check(fs *flag.FlagSet, env *runEnv) error {
 // file now lies), else all of --data, with a note that says which. Data of
 // a model that records no splits is streamed, so only a few texts are held
 // at once; the negative n-gram search may read the source again. Total is
-// the number of texts, 0 when streamed (not known in advance).
-func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.Encoder, env *runEnv) (open func() (explain.TextSource, func()), note string, total int, err error) {
+// the number of texts, 0 when streamed (not known in advance). The texts
+// are read as eval reads them: for a model with a character layer, their
+// unseen words have vectors of their own, read by the returned model mu
+// (cnn.Model.WithUnseen; m itself otherwise), so such a model's texts are
+// held, not streamed.
+func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.Encoder, env *runEnv) (
+	mu *cnn.Model, open func() (explain.TextSource, func()), note string, total int, err error) {
 	stream := func() (explain.TextSource, func()) {
 		return streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
 	}
-	if m.Info.Splits == nil {
-		return stream, "the model file does not record how its splits were made: profiling all texts of " + o.data, 0, nil
+	if m.Info.Splits == nil && m.Config.Chars == nil {
+		return m, stream, "the model file does not record how its splits were made: profiling all texts of " + o.data, 0, nil
 	}
 	all, err := o.read.read(o.data, true, env.Stderr, o.quiet)
 	if err != nil {
-		return nil, "", 0, err
+		return nil, nil, "", 0, err
 	}
 	train, note := trainingSplit(m, all, o.data)
-	ids, gold := encodeExamples(enc, m.Labels, train.Examples, o.threads.N)
-	return func() (explain.TextSource, func()) { return explain.SliceSource(ids, gold), func() {} }, note, len(ids), nil
+	if mu, enc, err = m.WithUnseen(enc, train.Texts()); err != nil { // unseen words' own rows, with --chars, as eval reads them
+		return nil, nil, "", 0, err
+	}
+	ids, gold := encodeExamples(enc, mu.Labels, train.Examples, o.threads.N)
+	return mu, func() (explain.TextSource, func()) { return explain.SliceSource(ids, gold), func() {} }, note, len(ids), nil
 }
 
 // profilingNote is the progress line of filters after done of total texts
@@ -195,7 +205,7 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 			}
 		}
 	}
-	stream, note, total, err := o.source(ctx, m, enc, env)
+	m, stream, note, total, err := o.source(ctx, m, enc, env)
 	if err != nil {
 		return err
 	}
@@ -249,20 +259,9 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 		}
 	}
 	if o.asJSON {
-		return writeJSON(env.Stdout, profilesJSON{Profiles: prof, SelectivityShare: prof.Selective})
+		return writeJSON(env.Stdout, prof)
 	}
 	return writeProfiles(env.Stdout, prof, o.top)
-}
-
-// profilesJSON is the JSON of filters: the profiles, with the --selectivity
-// setting (Profiles.Selective, every filter's selectivity.share) written as
-// selectivity_share, not as "selective", which is every filter's verdict.
-type profilesJSON struct {
-	*explain.Profiles
-	// Hidden is never set: as a shallower field of the same name it keeps
-	// the embedded Selective out of the JSON.
-	Hidden           *float64 `json:"selective,omitempty"`
-	SelectivityShare float64  `json:"selectivity_share"`
 }
 
 // writeProfiles writes the profiles for a reader: a header, then every

@@ -150,7 +150,7 @@ func TestMaskRefusals(t *testing.T) {
 		args []string
 		want []string
 	}{
-		{"neither", []string{"--model", wide}, []string{"--filters or --words is required"}},
+		{"neither", []string{"--model", wide}, []string{"--filters, --words or --words-file is required"}},
 		{"no word weights", []string{"--model", plain, "--words", "kioskmail"}, []string{plain + " has no word weights", "would change nothing", "--filters"}},
 		{"unknown word", []string{"--model", wide, "--words", "kioskmail,zqxjv"}, []string{"vocabulary does not contain \"zqxjv\"", "telltale export --model " + wide, "vocab.txt"}},
 		{"unknown-word token", []string{"--model", wide, "--words", corpus.UNKWord}, []string{"is the unknown word itself"}},
@@ -162,6 +162,130 @@ func TestMaskRefusals(t *testing.T) {
 			noCrash(t, c.name, stderr)
 			if code != 2 {
 				t.Errorf("exit %d, want 2: %s", code, stderr)
+			}
+			for _, w := range c.want {
+				if !strings.Contains(stderr, w) {
+					t.Errorf("message lacks %q: %s", w, stderr)
+				}
+			}
+			if _, err := os.Stat(out); err == nil {
+				t.Errorf("%s written despite the error", out)
+			}
+		})
+	}
+}
+
+// TestMaskWordsFile: --words-file gives the words to mask one a line, read
+// as --mask-tokens files are (byte order mark, blank lines, # comments,
+// Windows line ends), so a word holding a comma can be masked: its row of
+// word weights in the copy becomes the unknown word's (README "Word
+// weights beside the filters": a masked word's part is then exactly 0),
+// and every other row is kept. The words of a file give the copy that
+// --words gives for the same words.
+func TestMaskWordsFile(t *testing.T) {
+	model := wideTinyModel(t)
+	dir := t.TempDir()
+	m, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// A model whose vocabulary holds a word with a comma: "tkref" renamed.
+	k := slices.Index(m.Vocab, "tkref")
+	if k < 2 {
+		t.Fatal(`"tkref" is not in the model's vocabulary: the case tests nothing`)
+	}
+	m.Vocab[k] = "tk,ref"
+	commaModel := filepath.Join(dir, "comma.tt")
+	if err := m.Save(commaModel); err != nil {
+		t.Fatal(err)
+	}
+	list := filepath.Join(dir, "words.txt")
+	if err := os.WriteFile(list, []byte("\xef\xbb\xbf# the cues\r\nkioskmail\r\n\r\n  tk,ref \r\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "masked.tt")
+	code, _, stderr := tt(t, "mask", "--model", commaModel, "--words-file", list, "--out", out)
+	if code != 0 {
+		t.Fatalf("mask --words-file: exit %d: %s", code, stderr)
+	}
+	if !strings.Contains(stderr, "words 'kioskmail', 'tk,ref' read as the unknown word by the word weights") {
+		t.Errorf("mask --words-file does not say what it did: %s", stderr)
+	}
+	masked, err := cnn.Load(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := m.Config.Classes
+	row := func(x *cnn.Model, id int) []float32 { return x.Wide[id*c : id*c+c] }
+	kiosk := slices.Index(m.Vocab, "kioskmail")
+	for id := range m.Vocab {
+		want := row(m, id)
+		if id == k || id == kiosk {
+			want = row(m, int(corpus.UNK))
+		}
+		if !slices.Equal(row(masked, id), want) {
+			t.Errorf("word %d (%q): word weights %v, want %v", id, m.Vocab[id], row(masked, id), want)
+		}
+	}
+	if slices.Equal(row(m, k), row(m, int(corpus.UNK))) {
+		t.Fatal(`"tk,ref" already had the unknown word's weights: the check cannot fail`)
+	}
+
+	// The same words by --words (without the comma word) and by a file.
+	byFlag, byFile := filepath.Join(dir, "flag.tt"), filepath.Join(dir, "file.tt")
+	plain := filepath.Join(dir, "plain.txt")
+	if err := os.WriteFile(plain, []byte("kioskmail\ntkref\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for _, args := range [][]string{{"--words", "kioskmail,tkref", "--out", byFlag}, {"--words-file", plain, "--out", byFile}} {
+		if code, _, stderr := tt(t, append([]string{"mask", "--model", model, "--quiet"}, args...)...); code != 0 {
+			t.Fatalf("mask %q: exit %d: %s", args, code, stderr)
+		}
+	}
+	a, errA := cnn.Load(byFlag)
+	b, errB := cnn.Load(byFile)
+	if errA != nil || errB != nil {
+		t.Fatal(errA, errB)
+	}
+	if !slices.Equal(a.Wide, b.Wide) {
+		t.Errorf("--words-file and --words mask different word weights")
+	}
+}
+
+// TestMaskWordsFileRefusals: a --words-file that is missing, holds no
+// word, names a word the vocabulary lacks (by its line) or is UTF-16 is
+// refused before anything is written, the message naming the fix.
+func TestMaskWordsFileRefusals(t *testing.T) {
+	wide := wideTinyModel(t)
+	dir := t.TempDir()
+	out := filepath.Join(dir, "masked.tt")
+	write := func(name, content string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte(content), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	none := filepath.Join(dir, "none.txt")
+	empty := write("empty.txt", "# nothing here\n\n")
+	unknown := write("unknown.txt", "# cues\nkioskmail\nzqxjv\n")
+	utf16 := write("utf16.txt", "\xff\xfek\x00")
+	for _, c := range []struct {
+		name string
+		file string
+		code int
+		want []string
+	}{
+		{"missing", none, 2, []string{"--words-file " + none + ": no such file: check the path"}},
+		{"no word", empty, 2, []string{"--words-file " + empty + " holds no word", "one word a line"}},
+		{"unknown word", unknown, 2, []string{"--words-file " + unknown + " line 3", `does not contain "zqxjv"`, "vocab.txt"}},
+		{"UTF-16", utf16, 1, []string{"utf16.txt line 1", "save it as UTF-8"}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, stderr := tt(t, "mask", "--model", wide, "--words-file", c.file, "--out", out)
+			noCrash(t, c.name, stderr)
+			if code != c.code {
+				t.Errorf("exit %d, want %d: %s", code, c.code, stderr)
 			}
 			for _, w := range c.want {
 				if !strings.Contains(stderr, w) {

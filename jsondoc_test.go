@@ -5,9 +5,12 @@ import (
 	"encoding/json"
 	"os"
 	"path/filepath"
+	"reflect"
 	"slices"
 	"strings"
 	"testing"
+
+	"telltale/explain"
 )
 
 // The JSON of data, predict, explain, filters, faithfulness, mask and
@@ -108,5 +111,52 @@ func checkKeysDocumented(t *testing.T, what string, raw []byte, heading string, 
 	walk(v)
 	for k := range missing {
 		t.Errorf("%s --json: key %q is not in README's %q", what, k, heading)
+	}
+}
+
+// TestFiltersJSONIsTheLibrarys: filters --json writes explain.Profiles as
+// the library's own JSON tags name its fields, so the --selectivity
+// setting has one key, selectivity_share (README "The JSON of the other
+// commands"), in the command and in the library: reading the command's
+// JSON into explain.Profiles and writing it again gives the same keys and
+// values.
+func TestFiltersJSONIsTheLibrarys(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 300)
+	model := filepath.Join(dir, "m.tt")
+	if code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"); code != 0 {
+		t.Fatalf("train: exit %d: %s", code, stderr)
+	}
+	code, js, stderr := tt(t, "filters", "--model", model, "--data", data, "--top", "3", "--selectivity", "0.6", "--json", "--quiet")
+	if code != 0 {
+		t.Fatalf("filters --json: exit %d: %s", code, stderr)
+	}
+	var p explain.Profiles
+	if err := json.Unmarshal([]byte(js), &p); err != nil {
+		t.Fatal(err)
+	}
+	if p.Selective != 0.6 {
+		t.Errorf("the library reads the --selectivity setting 0.6 from filters --json as %g", p.Selective)
+	}
+	again, err := json.Marshal(&p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var cmd, lib map[string]any
+	if err := json.Unmarshal([]byte(js), &cmd); err != nil {
+		t.Fatal(err)
+	}
+	if err := json.Unmarshal(again, &lib); err != nil {
+		t.Fatal(err)
+	}
+	for k, v := range cmd {
+		if k != "filters" && !reflect.DeepEqual(lib[k], v) {
+			t.Errorf("key %q: %v in filters --json, %v in the library's JSON", k, v, lib[k])
+		}
+	}
+	for k := range lib {
+		if _, ok := cmd[k]; !ok {
+			t.Errorf("the library's JSON has the key %q, filters --json does not", k)
+		}
 	}
 }

@@ -213,11 +213,17 @@ func exitCode(ctx context.Context, c *command, err error, stderr io.Writer) int 
 	case err == nil, errors.Is(err, errHelpShown):
 		return 0
 	case errors.As(err, &ue):
-		fmt.Fprintf(stderr, "telltale %s: %v\nusage: telltale %s\n", c.Name, err, c.UsageLine)
+		fmt.Fprintf(stderr, "telltale %s: %s\nusage: telltale %s\n", c.Name, errorText(c, err), c.UsageLine)
 		return 2
 	}
-	fmt.Fprintf(stderr, "telltale %s: %v\n", c.Name, err)
+	fmt.Fprintf(stderr, "telltale %s: %s\n", c.Name, errorText(c, err))
 	return 1
+}
+
+// errorText is err's message after "telltale NAME: ", without the prefix
+// of the package of the same name ("audit: "), which would say it twice.
+func errorText(c *command, err error) string {
+	return strings.TrimPrefix(err.Error(), c.Name+": ")
 }
 
 // signalCode reports whether the run was stopped by a signal (or its

@@ -114,10 +114,10 @@ func (o *Options) defaults() {
 // check reports an option that cannot be used.
 func (o *Options) check() error {
 	if o.Test != TestFisher && o.Test != TestBinomial {
-		return fmt.Errorf("audit: test %q: use %s or %s: %w", o.Test, TestFisher, TestBinomial, ErrInput)
+		return inputErrorf("audit: test %q: use %s or %s", o.Test, TestFisher, TestBinomial)
 	}
 	if o.Correction != CorrectBH && o.Correction != CorrectBonferroni {
-		return fmt.Errorf("audit: correction %q: use %s or %s: %w", o.Correction, CorrectBH, CorrectBonferroni, ErrInput)
+		return inputErrorf("audit: correction %q: use %s or %s", o.Correction, CorrectBH, CorrectBonferroni)
 	}
 	return nil
 }
@@ -327,8 +327,8 @@ func Run(ctx context.Context, m *cnn.Model, train, heldout Data, opt Options, pr
 		return nil, fmt.Errorf("audit: %w", err)
 	}
 	if len(m.Vocab) != m.Config.VocabSize {
-		return nil, fmt.Errorf("audit: the model holds %d vocabulary words for %d embedding rows: the audit needs its words; retrain it with telltale train: %w",
-			len(m.Vocab), m.Config.VocabSize, ErrInput)
+		return nil, inputErrorf("audit: the model holds %d vocabulary words for %d embedding rows: the audit needs its words; retrain it with telltale train",
+			len(m.Vocab), m.Config.VocabSize)
 	}
 	if err := train.check(m, "training"); err != nil {
 		return nil, err
@@ -337,8 +337,8 @@ func Run(ctx context.Context, m *cnn.Model, train, heldout Data, opt Options, pr
 		return nil, err
 	}
 	if train.Len() < 2*opt.MinSupport {
-		return nil, fmt.Errorf("audit: the %s has %d texts: too few for a test of association (at least %d): %w",
-			train.name("training"), train.Len(), 2*opt.MinSupport, ErrInput)
+		return nil, inputErrorf("audit: the %s has %d texts: too few for a test of association (at least %d)",
+			train.name("training"), train.Len(), 2*opt.MinSupport)
 	}
 	a := &auditor{m: m, opt: opt, train: train, vocab: m.Vocab, labels: m.Labels, progress: progress}
 	if err := a.halves(heldout); err != nil {
@@ -397,8 +397,8 @@ func (a *auditor) halves(heldout Data) error {
 			fix = "hold out a larger share of the data as the test split (train the model again with a larger --test-frac), " +
 				"or give a larger test file (--test FILE)"
 		}
-		return fmt.Errorf("audit: the %s has %d texts: too few for the tests, which need %d in each of its two halves; %s: %w",
-			heldout.name("test"), heldout.Len(), a.opt.MinHalf, fix, ErrInput)
+		return inputErrorf("audit: the %s has %d texts: too few for the tests, which need %d in each of its two halves; %s",
+			heldout.name("test"), heldout.Len(), a.opt.MinHalf, fix)
 	}
 	a.sel, a.conf = heldout.subset(sel), heldout.subset(conf)
 	a.selIdx, a.confIdx = sel, conf
@@ -520,8 +520,8 @@ func (a *auditor) markedPhrases(ps *phraseSet) error {
 				}
 				id, ok := wordID[w]
 				if !ok {
-					return fmt.Errorf("audit: the marked cue %q holds %q, which is not a word of the model's vocabulary: mark the cue as the audit shows it: %w",
-						strings.Join(ws, " "), w, ErrInput)
+					return inputErrorf("audit: the marked cue %q holds %q, which is not a word of the model's vocabulary: mark the cue as the audit shows it",
+						strings.Join(ws, " "), w)
 				}
 				p[i] = id
 			}

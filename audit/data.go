@@ -10,9 +10,24 @@ import (
 	"telltale/corpus"
 )
 
-// ErrInput is wrapped by every error about the audit's input: a model and
-// data that do not match, a split too small for a test, a bad marks file.
+// ErrInput is matched (errors.Is) by every error about the audit's input:
+// a model and data that do not match, a split too small for a test, a bad
+// marks file. Its own text is never part of those errors' messages, which
+// say their cause once.
 var ErrInput = errors.New("audit: bad input")
+
+// inputError is an error about the audit's input: its message, which says
+// the cause and the fix, and a match for ErrInput.
+type inputError struct{ msg string }
+
+func (e *inputError) Error() string        { return e.msg }
+func (e *inputError) Is(target error) bool { return target == ErrInput }
+
+// inputErrorf formats an error about the audit's input (inputError). The
+// arguments are formatted as by fmt.Sprintf; %w is not allowed.
+func inputErrorf(format string, args ...any) error {
+	return &inputError{msg: fmt.Sprintf(format, args...)}
+}
 
 // Data is a labeled split as the audit reads it. IDs and Gold are required.
 // Texts and Tokens are optional: with them the audit reads positions, lines
@@ -38,8 +53,8 @@ func (d Data) Len() int { return len(d.IDs) }
 // model must carry its vocabulary.
 func NewData(m *cnn.Model, ds *corpus.Dataset, workers int) (Data, error) {
 	if len(m.Vocab) != m.Config.VocabSize {
-		return Data{}, fmt.Errorf("audit: the model holds %d vocabulary words for %d embedding rows: it cannot read text; retrain it with telltale train: %w",
-			len(m.Vocab), m.Config.VocabSize, ErrInput)
+		return Data{}, inputErrorf("audit: the model holds %d vocabulary words for %d embedding rows: it cannot read text; retrain it with telltale train",
+			len(m.Vocab), m.Config.VocabSize)
 	}
 	tok, err := corpus.NewTokenizer(m.Tokenizer)
 	if err != nil {
@@ -47,7 +62,7 @@ func NewData(m *cnn.Model, ds *corpus.Dataset, workers int) (Data, error) {
 	}
 	gold, err := ds.LabelIndex(m.Labels)
 	if err != nil {
-		return Data{}, fmt.Errorf("audit: %w (the model knows the labels %v)", err, m.Labels)
+		return Data{}, err // it names the file, the line, the label and the labels known
 	}
 	maxLen := 0
 	if m.Info.Recipe != nil {
@@ -90,7 +105,7 @@ func (d Data) name(what string) string {
 func (d Data) check(m *cnn.Model, what string) error {
 	cfg := m.Config
 	bad := func(format string, args ...any) error {
-		return fmt.Errorf("audit: %s: %s: %w", d.name(what), fmt.Sprintf(format, args...), ErrInput)
+		return inputErrorf("audit: %s: %s", d.name(what), fmt.Sprintf(format, args...))
 	}
 	if len(d.Gold) != len(d.IDs) {
 		return bad("%d gold labels for %d texts", len(d.Gold), len(d.IDs))
@@ -136,4 +151,27 @@ func (d Data) subset(idx []int) Data {
 		}
 	}
 	return out
+}
+
+// NewHeldout reads the held-out split as every other reading of the model
+// does (eval, predict, explain, the report): for a model with a character
+// layer, the words of its texts that are not in the vocabulary get vectors
+// of their own from their characters (cnn.Model.WithUnseen), not the
+// unknown word's. It returns the model to audit (m itself when m has no
+// character layer or the texts no unseen word; else a copy whose
+// vocabulary extends m's, sharing its weights, which must not be saved in
+// m's place) and the split read for it (NewData). The training split is
+// read with NewData(m, …): m's own vocabulary, as the model was trained
+// on it, so that every cue is a word m knows; its ids are valid for the
+// returned model too. Preconditions are those of NewData.
+func NewHeldout(m *cnn.Model, heldout *corpus.Dataset, workers int) (*cnn.Model, Data, error) {
+	mu, _, err := m.WithUnseen(nil, heldout.Texts())
+	if err != nil {
+		return nil, Data{}, fmt.Errorf("audit: %w", err)
+	}
+	held, err := NewData(mu, heldout, workers)
+	if err != nil {
+		return nil, Data{}, err
+	}
+	return mu, held, nil
 }

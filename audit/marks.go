@@ -65,10 +65,10 @@ func (mk *Marks) Get(words []string) string {
 // Words must be the cue's words as the audit writes them.
 func (mk *Marks) Set(words []string, kind string) error {
 	if kind != "" && kind != MarkArtifact && kind != MarkTask {
-		return fmt.Errorf("audit: mark %q: use %s or %s: %w", kind, MarkArtifact, MarkTask, ErrInput)
+		return inputErrorf("audit: mark %q: use %s or %s", kind, MarkArtifact, MarkTask)
 	}
 	if len(words) == 0 {
-		return fmt.Errorf("audit: a mark needs the cue's words: %w", ErrInput)
+		return inputErrorf("audit: a mark needs the cue's words")
 	}
 	key := strings.Join(words, " ")
 	if kind == "" {
@@ -143,7 +143,7 @@ func ParseMarks(name string, data []byte, m *cnn.Model) (*Marks, error) {
 	sc.Buffer(make([]byte, 64<<10), 1<<20)
 	line := 0
 	bad := func(format string, args ...any) error {
-		return fmt.Errorf("audit: %s line %d: %s: %w", name, line, fmt.Sprintf(format, args...), ErrInput)
+		return inputErrorf("audit: %s line %d: %s", name, line, fmt.Sprintf(format, args...))
 	}
 	for sc.Scan() {
 		line++
@@ -177,7 +177,7 @@ func ParseMarks(name string, data []byte, m *cnn.Model) (*Marks, error) {
 		mk.byCue[key] = kind
 	}
 	if err := sc.Err(); err != nil {
-		return nil, fmt.Errorf("audit: %s line %d: %v: keep lines under 1 MiB: %w", name, line+1, err, ErrInput)
+		return nil, inputErrorf("audit: %s line %d: %v: keep lines under 1 MiB", name, line+1, err)
 	}
 	return mk, nil
 }

@@ -3,7 +3,6 @@ package audit
 import (
 	"cmp"
 	"context"
-	"fmt"
 	"slices"
 )
 
@@ -17,8 +16,8 @@ func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate
 	eligible := func(c *Candidate) bool { return len(texts(c.selOcc)) >= minCueTexts }
 	for _, c := range cands {
 		if c.Mark != "" && len(c.selOcc)+len(c.confOcc) == 0 {
-			return nil, fmt.Errorf("audit: the marked cue %q never occurs in the %s: its reliance cannot be measured there; give a test split that holds it, or remove its mark: %w",
-				c.Text, a.sel.name("test"), ErrInput)
+			return nil, inputErrorf("audit: the marked cue %q never occurs in the %s: its reliance cannot be measured there; give a test split that holds it, or remove its mark",
+				c.Text, a.sel.name("test"))
 		}
 	}
 	chosen := map[*Candidate]bool{}
@@ -47,8 +46,8 @@ func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate
 		}
 	}
 	if len(list) > 0 && len(a.neutral) == 0 {
-		return nil, fmt.Errorf("audit: no word of the %s is equally common in every label (in 20 texts or more): the audit has no neutral words to edit in; give more training texts: %w",
-			a.train.name("training"), ErrInput)
+		return nil, inputErrorf("audit: no word of the %s is equally common in every label (in 20 texts or more): the audit has no neutral words to edit in; give more training texts",
+			a.train.name("training"))
 	}
 	for k, c := range list {
 		a.progress("reliance", k, len(list))

@@ -2,7 +2,6 @@ package audit
 
 import (
 	"context"
-	"fmt"
 	"slices"
 
 	"telltale/cnn"
@@ -53,7 +52,7 @@ type ModelPair struct {
 func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, heldout *corpus.Dataset, r cnn.Recipe,
 	progress func(cnn.Progress)) (*Retrained, error) {
 	if len(patterns) == 0 {
-		return nil, fmt.Errorf("audit: no cue to retrain without: the audit acted on none, and no cue is marked as artifact: %w", ErrInput)
+		return nil, inputErrorf("audit: no cue to retrain without: the audit acted on none, and no cue is marked as artifact")
 	}
 	if r.Baseline == nil && m.Baseline != nil {
 		cfg := m.Baseline.Config

@@ -1,8 +1,6 @@
 package corpus
 
 import (
-	"bufio"
-	"bytes"
 	"errors"
 	"fmt"
 	"os"
@@ -70,29 +68,14 @@ func LoadCueMasker(path string) (*CueMasker, error) {
 // name is used in messages.
 func ParseCueMasker(name string, data []byte) (*CueMasker, error) {
 	cm := &CueMasker{}
-	// A byte order mark would otherwise become part of the first pattern.
-	data = bytes.TrimPrefix(data, []byte("\xef\xbb\xbf"))
-	if bytes.HasPrefix(data, []byte("\xff\xfe")) || bytes.HasPrefix(data, []byte("\xfe\xff")) {
-		return nil, kindError(ErrCuePattern, "corpus: %s line 1: the file is UTF-16: save it as UTF-8", name)
-	}
-	sc := bufio.NewScanner(bytes.NewReader(data))
-	sc.Buffer(make([]byte, 64<<10), 1<<20)
-	line := 0
-	for sc.Scan() {
-		line++
-		s := strings.TrimSpace(sc.Text())
-		if s == "" || strings.HasPrefix(s, "#") {
-			continue
+	err := eachListLine(name, data, func(e ListEntry) error {
+		if err := cm.add(e.Text); err != nil {
+			return kindError(ErrCuePattern, "corpus: %s line %d: bad regular expression %s: %v; fix it, or write a plain token without the slashes", name, e.Line, e.Text, err)
 		}
-		if !utf8.ValidString(s) {
-			return nil, kindError(ErrCuePattern, "corpus: %s line %d: not UTF-8 text: save the file as UTF-8", name, line)
-		}
-		if err := cm.add(s); err != nil {
-			return nil, kindError(ErrCuePattern, "corpus: %s line %d: bad regular expression %s: %v; fix it, or write a plain token without the slashes", name, line, s, err)
-		}
-	}
-	if err := sc.Err(); err != nil {
-		return nil, kindError(ErrCuePattern, "corpus: %s line %d: %v: keep lines under 1 MiB", name, line+1, err)
+		return nil
+	}, ErrCuePattern)
+	if err != nil {
+		return nil, err
 	}
 	return cm, nil
 }

@@ -109,8 +109,9 @@ type Profiles struct {
 	// Selectivity).
 	Halves [2]int `json:"halves"`
 	// Selective and Alpha are the Share and level of every filter's
-	// Selectivity.
-	Selective float64         `json:"selective"`
+	// Selectivity. Selective's JSON key is selectivity_share, as the
+	// filters command writes it: "selective" is every filter's verdict.
+	Selective float64         `json:"selectivity_share"`
 	Alpha     float64         `json:"alpha"`
 	Filters   []FilterProfile `json:"filters"`
 }

@@ -183,7 +183,9 @@ func auditWork(ctx context.Context, ms *modelState, cs *corpusState, marks *audi
 	if err != nil {
 		return nil, fmt.Errorf("the training split does not fit this model: %w", err)
 	}
-	held, err := audit.NewData(ms.Model, cs.Test, 0)
+	// The test split as eval reads it: with a character layer, unseen
+	// words have vectors of their own, read by mu, the model audited.
+	mu, held, err := audit.NewHeldout(ms.Model, cs.Test, 0)
 	if err != nil {
 		return nil, fmt.Errorf("the test split does not fit this model: %w", err)
 	}
@@ -192,7 +194,7 @@ func auditWork(ctx context.Context, ms *modelState, cs *corpusState, marks *audi
 		heldFile = cs.Record.Data
 	}
 	opt := audit.Options{Marks: marks, ModelFile: ms.Path, TrainFile: cs.Record.Data, HeldoutFile: heldFile, Seed: auditSeed}
-	r, err := audit.Run(ctx, ms.Model, train, held, opt, auditProgress(report))
+	r, err := audit.Run(ctx, mu, train, held, opt, auditProgress(report))
 	if err != nil {
 		return nil, err
 	}

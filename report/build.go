@@ -111,8 +111,8 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 
 	// The held-out split as telltale eval and predict read it: with a
 	// character layer, its unseen words have vectors of their own
-	// (cnn.Model.WithUnseen); the evaluation and the explained texts use
-	// that reading, the audit m's own (it replaces words of the vocabulary).
+	// (cnn.Model.WithUnseen); the evaluation, the audit and the explained
+	// texts use that reading (audit.NewHeldout reads it so too).
 	read, hoRead, err := unseenReading(m, heldout, ho, opt.Threads)
 	if err != nil {
 		return Input{}, err
@@ -127,16 +127,25 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		return Input{}, err
 	}
 
+	// The training split as telltale filters reads it: with a character
+	// layer, a word the vocabulary lacks (under the minimum count) has a
+	// vector of its own.
 	popt := opt.Profile
 	popt.Progress = func(done, total int) { progress("profile", done, total) }
-	prof, err := explain.Profile(ctx, m, tr.IDs, tr.Gold, popt)
+	pm, trRead := m, tr
+	if popt.Table == nil {
+		if pm, trRead, err = unseenReading(m, train, tr, opt.Threads); err != nil {
+			return Input{}, err
+		}
+	}
+	prof, err := explain.Profile(ctx, pm, trRead.IDs, trRead.Gold, popt)
 	if err != nil {
 		return Input{}, err
 	}
 	in.Profiles = prof
 
 	if !opt.SkipAudit {
-		if in.Audit, in.AuditNote, err = runAudit(ctx, m, tr, ho, opt, progress); err != nil {
+		if in.Audit, in.AuditNote, err = runAudit(ctx, read, tr, hoRead, opt, progress); err != nil {
 			return Input{}, err
 		}
 	}
@@ -165,21 +174,21 @@ func checkGather(m *cnn.Model, train, heldout *corpus.Dataset) error {
 	return nil
 }
 
-// unseenReading is m as it reads heldout and heldout so read: for a model
-// with a character layer, the model whose vocabulary also holds the
-// split's unseen words (cnn.Model.WithUnseen) and the split encoded by it;
-// otherwise m and ho (heldout as m reads it) themselves.
+// unseenReading is m as it reads heldout (any split) and heldout so read:
+// for a model with a character layer, the model whose vocabulary also
+// holds the split's unseen words (cnn.Model.WithUnseen) and the split
+// encoded by it; otherwise m and ho (heldout as m reads it) themselves.
 func unseenReading(m *cnn.Model, heldout *corpus.Dataset, ho audit.Data, threads int) (*cnn.Model, audit.Data, error) {
 	mu, _, err := m.WithUnseen(nil, heldout.Texts())
 	if err != nil {
-		return nil, audit.Data{}, fmt.Errorf("report: the test split's unseen words: %w", err)
+		return nil, audit.Data{}, fmt.Errorf("report: the unseen words of a split: %w", err)
 	}
 	if mu == m {
 		return m, ho, nil
 	}
 	hoU, err := audit.NewData(mu, heldout, threads)
 	if err != nil {
-		return nil, audit.Data{}, fmt.Errorf("report: test split: %w", err)
+		return nil, audit.Data{}, fmt.Errorf("report: a split read with its unseen words: %w", err)
 	}
 	return mu, hoU, nil
 }
