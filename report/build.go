@@ -127,22 +127,9 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		return Input{}, err
 	}
 
-	// The training split as telltale filters reads it: with a character
-	// layer, a word the vocabulary lacks (under the minimum count) has a
-	// vector of its own.
-	popt := opt.Profile
-	popt.Progress = func(done, total int) { progress("profile", done, total) }
-	pm, trRead := m, tr
-	if popt.Table == nil {
-		if pm, trRead, err = unseenReading(m, train, tr, opt.Threads); err != nil {
-			return Input{}, err
-		}
-	}
-	prof, err := explain.Profile(ctx, pm, trRead.IDs, trRead.Gold, popt)
-	if err != nil {
+	if in.Profiles, err = profileTraining(ctx, m, train, tr, opt, progress); err != nil {
 		return Input{}, err
 	}
-	in.Profiles = prof
 
 	if !opt.SkipAudit {
 		if in.Audit, in.AuditNote, err = runAudit(ctx, read, tr, hoRead, opt, progress); err != nil {
@@ -154,6 +141,23 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		return Input{}, err
 	}
 	return in, nil
+}
+
+// profileTraining profiles m's filters on the training split train (tr, as
+// audit.NewData reads it) as telltale filters does: with a character layer,
+// a word the vocabulary lacks (under the minimum count) has a vector of its
+// own, unless opt.Profile gives a table of its own.
+func profileTraining(ctx context.Context, m *cnn.Model, train *corpus.Dataset, tr audit.Data, opt Options, progress Progress) (*explain.Profiles, error) {
+	popt := opt.Profile
+	popt.Progress = func(done, total int) { progress("profile", done, total) }
+	pm, trRead := m, tr
+	if popt.Table == nil {
+		var err error
+		if pm, trRead, err = unseenReading(m, train, tr, opt.Threads); err != nil {
+			return nil, err
+		}
+	}
+	return explain.Profile(ctx, pm, trRead.IDs, trRead.Gold, popt)
 }
 
 // checkGather refuses a missing model, an empty split and a model without
