@@ -1,16 +1,15 @@
 package audit
 
 import (
-	"bufio"
 	"bytes"
 	"fmt"
 	"io"
 	"os"
 	"slices"
 	"strings"
-	"unicode/utf8"
 
 	"telltale/cnn"
+	"telltale/corpus"
 	"telltale/internal/atomicfile"
 )
 
@@ -138,23 +137,16 @@ func ParseMarks(name string, data []byte, m *cnn.Model) (*Marks, error) {
 			known[w] = true
 		}
 	}
-	mk := NewMarks()
-	sc := bufio.NewScanner(bytes.NewReader(data))
-	sc.Buffer(make([]byte, 64<<10), 1<<20)
-	line := 0
-	bad := func(format string, args ...any) error {
-		return inputErrorf("audit: %s line %d: %s", name, line, fmt.Sprintf(format, args...))
+	entries, err := corpus.ParseList(name, data)
+	if err != nil { // the list reader's message names the file, the line and the fix
+		return nil, inputErrorf("audit: %s", strings.TrimPrefix(err.Error(), "corpus: "))
 	}
-	for sc.Scan() {
-		line++
-		s := strings.TrimSpace(sc.Text())
-		if s == "" || strings.HasPrefix(s, "#") {
-			continue
+	mk := NewMarks()
+	for _, e := range entries {
+		bad := func(format string, args ...any) error {
+			return inputErrorf("audit: %s line %d: %s", name, e.Line, fmt.Sprintf(format, args...))
 		}
-		if !utf8.ValidString(s) {
-			return nil, bad("not UTF-8 text: save the file as UTF-8")
-		}
-		f := strings.Fields(s)
+		f := strings.Fields(e.Text)
 		kind := f[0]
 		if kind != MarkArtifact && kind != MarkTask {
 			return nil, bad("%q: a line starts with %s or %s, then the cue's words", kind, MarkArtifact, MarkTask)
@@ -175,9 +167,6 @@ func ParseMarks(name string, data []byte, m *cnn.Model) (*Marks, error) {
 			return nil, bad("the cue %q is marked twice (%s and %s): keep one line", key, prev, kind)
 		}
 		mk.byCue[key] = kind
-	}
-	if err := sc.Err(); err != nil {
-		return nil, inputErrorf("audit: %s line %d: %v: keep lines under 1 MiB", name, line+1, err)
 	}
 	return mk, nil
 }

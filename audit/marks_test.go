@@ -72,11 +72,18 @@ func TestMarksErrors(t *testing.T) {
 		{"\n\ntask\n", "m.marks line 3: task with no words"},
 		{"task not\nartifact not\n", "m.marks line 2: the cue \"not\" is marked twice"},
 		{"task caf\xe9\n", "m.marks line 1: not UTF-8"},
+		{"\xff\xfet\x00a\x00s\x00k\x00", "m.marks line 1: the file is UTF-16: save it as UTF-8"},
+		{"task not\n" + strings.Repeat("x", 1<<20) + "\n", "m.marks line 2:"},
 	} {
 		_, err := ParseMarks("m.marks", []byte(c.file), m)
 		if err == nil || !errors.Is(err, ErrInput) || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%q: %v, want an error with %q", c.file, err, c.want)
 		}
+	}
+	// A byte order mark, as editors on some systems write one, and CRLF
+	// line ends are read as plain UTF-8 lines (common practice, no source).
+	if mk, err := ParseMarks("m.marks", []byte("\xef\xbb\xbfartifact sent via\r\ntask not\r\n"), m); err != nil || mk.Get([]string{"sent", "via"}) != MarkArtifact || mk.Get([]string{"not"}) != MarkTask {
+		t.Errorf("byte order mark and CRLF: %v", err)
 	}
 	if _, err := ReadMarks(filepath.Join(t.TempDir(), "none.marks"), m); !errors.Is(err, os.ErrNotExist) {
 		t.Errorf("missing file: %v", err)

@@ -27,8 +27,14 @@ func ReadListFile(path string) ([]ListEntry, error) {
 	if err != nil {
 		return nil, fmt.Errorf("corpus: %w", err)
 	}
+	return ParseList(path, data)
+}
+
+// ParseList reads the contents data of a list file as ReadListFile reads
+// the file; name names it in messages.
+func ParseList(name string, data []byte) ([]ListEntry, error) {
 	var out []ListEntry
-	err = eachListLine(path, data, func(e ListEntry) error {
+	err := eachListLine(name, data, func(e ListEntry) error {
 		out = append(out, e)
 		return nil
 	}, nil)
