@@ -122,7 +122,7 @@ func (o *trainOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		}
 	}
 	// The sizes the options alone set (the vocabulary is not known yet).
-	return o.recipe.checkSize(2, 2, max(o.recipe.MaxLen, 1), o.threads.N)
+	return o.recipe.checkSize(2, 2, max(o.recipe.MaxLen, 1), o.threads.N, 0)
 }
 
 func (o *trainOptions) files() (outputs, inputs []outguard.File) {

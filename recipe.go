@@ -231,8 +231,9 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 }
 
 // checkSize refuses a model whose training would not fit in memory, with
-// vocab words, classes labels and texts of up to longest tokens.
-func (r *recipeOptions) checkSize(vocab, classes, longest, threads int) error {
+// vocab words, classes labels, texts of up to longest tokens and, with
+// --wide-bigrams, at most pairs bigrams.
+func (r *recipeOptions) checkSize(vocab, classes, longest, threads, pairs int) error {
 	if threads == 0 {
 		threads = runtime.GOMAXPROCS(0)
 	}
@@ -244,8 +245,8 @@ func (r *recipeOptions) checkSize(vocab, classes, longest, threads int) error {
 	if r.Chars {
 		dim += r.CharMaps // the word vectors' width with the character part
 	}
-	cfg := cnn.Config{VocabSize: vocab, Dim: dim, Widths: r.widths, Filters: r.Maps, Classes: classes, Wide: r.Wide}
-	return checkMemory(cfg, r.Batch, maxLen, threads)
+	cfg := cnn.Config{VocabSize: vocab, Dim: dim, Widths: r.widths, Filters: r.Maps, Classes: classes, Wide: r.Wide, WideBigrams: r.WideBigrams}
+	return checkMemory(cfg, r.Batch, maxLen, threads, pairs)
 }
 
 func joinInts(xs []int) string {
