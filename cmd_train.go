@@ -60,8 +60,8 @@ weights hardly move before early stopping). It combines with --chars.
 --wide-bigrams (with --wide) gives every pair of adjacent words of the
 training split weights too, the mean running over the text's words and its
 pairs seen in training (the bigram features of Joulin et al. 2017); in
-every batch a training pair is left out with the --token-dropout
-probability, as its words are.
+every batch each pair of a training text is left out with the
+--token-dropout probability, by a draw of its own.
 
 Before training it refuses data that would give a useless model: more
 distinct labels than half the examples (the text and label columns swapped,

@@ -241,3 +241,67 @@ func rebuildBigramFile(f fileParts, version uint32, keys []byte) []byte {
 	b = append(b, f.baseline...)
 	return binary.LittleEndian.AppendUint32(b, crc32.Checksum(b, crcTable))
 }
+
+// Bigram dropout is the prototype's (internal/recipesearch/pooling.py,
+// variant wide2): a training step finds a text's pairs in the text as it
+// was before token dropout and leaves each out by a draw of its own with
+// the TokenDropout probability, so about 1 − p of the pairs are kept
+// (within four binomial standard deviations over the batches), pairs one
+// of whose words became UNK among them, and every kept pair is a pair of
+// adjacent ids of the text.
+func TestBigramDropoutAsPrototype(t *testing.T) {
+	d := toyData(5, 400, 30)
+	m := withWide(randModel(5, 30, 6, []int{2}, 2, 2), 5, 0)
+	if err := m.SetBigrams(CollectBigrams(d.IDs)); err != nil {
+		t.Fatal(err)
+	}
+	const p = 0.25
+	tc, err := TrainConfig{Seed: 2, Threads: 1, TokenDropout: p, Batch: 40}.WithDefaults()
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr := newTrainer(m, tc)
+	defer tr.close()
+	tr.prepare(d)
+	total, kept, withUNK := 0, 0, 0
+	for b := 0; b+40 <= d.Len(); b += 40 {
+		idx := make([]int, 40)
+		for i := range idx {
+			idx[i] = b + i
+		}
+		tr.step(d, idx)
+		for i, j := range idx {
+			orig := d.IDs[j]
+			total += len(orig) - 1
+			for _, li := range tr.textPairs(i) {
+				a, c := BigramIDs(m.Bigrams[tr.bs.rows[li]])
+				at := -1
+				for s := 0; s+1 < len(orig); s++ {
+					if orig[s] == a && orig[s+1] == c {
+						at = s
+						break
+					}
+				}
+				if at < 0 {
+					t.Fatalf("text %v: kept pair (%d, %d) is not in it", orig, a, c)
+				}
+				kept++
+			}
+			for s := 0; s+1 < len(orig); s++ {
+				if x := tr.texts[i]; x[s] == 1 || x[s+1] == 1 {
+					// a word of the pair was dropped: count the pair if kept
+					for _, li := range tr.textPairs(i) {
+						if m.Bigrams[tr.bs.rows[li]] == BigramKey(orig[s], orig[s+1]) {
+							withUNK++
+							break
+						}
+					}
+				}
+			}
+		}
+	}
+	want, sd := (1-p)*float64(total), math.Sqrt(p*(1-p)*float64(total))
+	if math.Abs(float64(kept)-want) > 4*sd || withUNK == 0 {
+		t.Errorf("%d of %d pairs kept (want %.0f ± %.0f), %d of them with a word dropped to UNK", kept, total, want, 4*sd, withUNK)
+	}
+}

@@ -36,17 +36,24 @@ func (rs *rowSet) reset() {
 	rs.rows = rs.rows[:0]
 }
 
-// collectPairs finds the bigrams of the batch's texts (tr.texts, after
-// word dropout): every pair of adjacent ids in the model's set, each left
-// out with probability tr.bigramDrop (the bigram dropout of the wide
-// path: a pair whose word was dropped to UNK is not in the set anyway).
-// It fills tr.bs, tr.pairs and tr.pairOff.
+// collectPairs finds the bigrams of the batch's texts as they were before
+// word dropout (tr.orig; tr.texts when tr.orig does not hold the batch):
+// every pair of adjacent ids in the model's set, each left out with
+// probability tr.bigramDrop, independently of its words. This is the
+// bigram dropout of the prototype (internal/recipesearch/pooling.py,
+// variant wide2): a pair is kept or left out by its own draw, also when
+// one of its words was replaced by UNK. It fills tr.bs, tr.pairs and
+// tr.pairOff.
 func (tr *trainer) collectPairs() {
 	m := tr.m
 	tr.bs.reset()
 	tr.pairs = tr.pairs[:0]
 	tr.pairOff = append(tr.pairOff[:0], 0)
-	for _, ids := range tr.texts {
+	texts := tr.texts
+	if len(tr.orig) == len(tr.texts) {
+		texts = tr.orig
+	}
+	for _, ids := range texts {
 		for t := 0; t+1 < len(ids); t++ {
 			r := m.bigramRow(ids[t], ids[t+1])
 			if r < 0 || (tr.bdRng != nil && tr.bdRng.Float64() < tr.bigramDrop) {

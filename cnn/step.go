@@ -139,8 +139,11 @@ type trainer struct {
 
 	// The batch's bigrams (Config.WideBigrams): bs holds their rows of
 	// Model.WideBigram, pairs the local index in bs of each found pair of
-	// text i at pairs[pairOff[i]:pairOff[i+1]]. Pairs are left out with
-	// probability bigramDrop, drawn from bdRng (nil: none left out).
+	// text i at pairs[pairOff[i]:pairOff[i+1]]. Pairs are found in orig,
+	// the batch's texts before word dropout (when it has as many texts as
+	// texts), and left out with probability bigramDrop, drawn from bdRng
+	// (nil: none left out).
+	orig       [][]int32
 	bs         rowSet
 	pairs      []int32
 	pairOff    []int
@@ -310,6 +313,7 @@ func (tr *trainer) step(d Data, idx []int) float64 {
 		tr.texts = append(tr.texts, d.IDs[i])
 		tr.labels = append(tr.labels, d.Labels[i])
 	}
+	tr.orig = append(tr.orig[:0], tr.texts...)
 	if tr.unkP != nil {
 		tr.dropWords()
 	}
