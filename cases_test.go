@@ -115,6 +115,7 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"wide-lr negative", train("--wide", "--wide-lr", "-2"), 2, []string{"--wide-lr -2: give a positive factor, or 0 for the rest's learning rate"}},
 		{"wide-lr NaN", train("--wide", "--wide-lr", "NaN"), 2, []string{"--wide-lr NaN: not a finite number"}},
 		{"wide-lr without --wide", train("--wide-lr", "2"), 2, []string{"--wide-lr sets the learning rate of the word-weight table: add --wide"}},
+		{"wide-bigrams without --wide", train("--wide-bigrams"), 2, []string{"--wide-bigrams gives bigrams weights in the word-weight path: add --wide"}},
 		{"class-weight unknown", train("--class-weight", "heavy"), 2, []string{`--class-weight "heavy": use none or balanced`}},
 		{"class-weight empty", train("--class-weight", ""), 2, []string{`--class-weight "": use none or balanced`}},
 		{"baseline not a switch value", train("--baseline=sometimes"), 2, []string{"--baseline sometimes: give true or false"}},

@@ -485,6 +485,9 @@ func TestRetrainArgs(t *testing.T) {
 		{func(m *cnn.Model) { m.Config.Wide, m.Info.Recipe.WideLR = true, cnn.DefaultWideLR }, "--wide=true"},
 		{func(m *cnn.Model) { m.Config.Wide, m.Info.Recipe.WideLR = true, 0 }, "--wide=true --wide-lr 1"},
 		{func(m *cnn.Model) {
+			m.Config.Wide, m.Config.WideBigrams, m.Info.Recipe.WideLR = true, true, cnn.DefaultWideLR
+		}, "--wide=true --wide-bigrams=true"},
+		{func(m *cnn.Model) {
 			m.Config.Chars = &cnn.CharConfig{Filters: cnn.DefaultCharFilters, Width: cnn.DefaultCharWidth}
 			m.Config.Dim += cnn.DefaultCharFilters
 		}, "--chars"},

@@ -46,8 +46,10 @@ classes, mode="mean", padding_idx=PAD) whose output adds to the logits (for a
 text without words telltale adds the unknown word's row, where a plain bag
 gives zero), under the key "wide.weight" or found by its shape (vocabulary
 × outputs, no bias, not the embedding; when two tables fit, the error names
-both: rename the word weights' key to wide.weight); and the character layer
-that export writes for a model trained with --chars (keys chars.*). The parts
+both: rename the word weights' key to wide.weight), with the bigram weights
+export writes for a model trained with --wide-bigrams (keys
+wide_bigram.weight and bigram_keys); and the character layer that export
+writes for a model trained with --chars (keys chars.*). The parts
 are found by shape and file order; --embedding-keys, --conv-keys and
 --output-key name them when that is ambiguous. Any other parameter is refused
 naming its key and shape. A state_dict does not record the activation, the

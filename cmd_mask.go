@@ -21,12 +21,14 @@ are switched off: their pooled units held at zero. On a model with word
 weights (train --wide), --words makes the word-weight path read the listed
 words of the model's vocabulary as the unknown word: their rows become the
 unknown word's, so their word part is exactly 0, while the filters still
-read them. --words-file FILE gives such words one a line, read as train's
---mask-tokens files are (a UTF-8 byte order mark, blank lines and lines
-starting with # skipped, white space around a word trimmed): the way to
-give a word that holds a comma. Give --filters, --words, --words-file or
-several. The original model file is never overwritten. With --data or
---test, both models are evaluated side by side on the texts eval would use.`,
+read them; on a model with bigram weights (train --wide-bigrams) so do the
+rows of the word pairs that hold them. --words-file FILE gives such words
+one a line, read as train's --mask-tokens files are (a UTF-8 byte order
+mark, blank lines and lines starting with # skipped, white space around a
+word trimmed): the way to give a word that holds a comma. Give --filters,
+--words, --words-file or several. The original model file is never
+overwritten. With --data or --test, both models are evaluated side by side
+on the texts eval would use.`,
 	Options: func() options { return new(maskOptions) },
 	Run:     runAs(runMask),
 }

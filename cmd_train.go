@@ -19,7 +19,7 @@ var cmdTrain = &command{
 		"               [--text-col C] [--label-col C] [--epochs N] [--batch N] [--dim N] [--widths 3,4,5] [--maps N]\n" +
 		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--vectors FILE] [--freeze]\n" +
 		"               [--min-count N] [--subword] [--class-weight none|balanced] [--word-dropout A] [--token-dropout P]\n" +
-		"               [--chars [--char-maps N] [--char-width W]] [--wide [--wide-lr F]]\n" +
+		"               [--chars [--char-maps N] [--char-width W]] [--wide [--wide-lr F] [--wide-bigrams]]\n" +
 		"               [--baseline=false] [--mask-tokens FILE] [--seed N] [--threads N] [--force] [--json]",
 	Short: "train a sentence CNN on labeled data and save the model",
 	Long: `Train builds a vocabulary from the training split, trains the convolutional
@@ -57,6 +57,11 @@ is added to the logits (the linear part of Wide & Deep, Cheng et al. 2016;
 the averaged word features of Joulin et al. 2017), trained with the rest;
 --wide-lr F multiplies its learning rate (default 100: at the rest's rate the
 weights hardly move before early stopping). It combines with --chars.
+--wide-bigrams (with --wide) gives every pair of adjacent words of the
+training split weights too, the mean running over the text's words and its
+pairs seen in training (the bigram features of Joulin et al. 2017); in
+every batch each pair of a training text is left out with the
+--token-dropout probability, by a draw of its own.
 
 Before training it refuses data that would give a useless model: more
 distinct labels than half the examples (the text and label columns swapped,
@@ -117,7 +122,7 @@ func (o *trainOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		}
 	}
 	// The sizes the options alone set (the vocabulary is not known yet).
-	return o.recipe.checkSize(2, 2, max(o.recipe.MaxLen, 1), o.threads.N)
+	return o.recipe.checkSize(2, 2, max(o.recipe.MaxLen, 1), o.threads.N, 0)
 }
 
 func (o *trainOptions) files() (outputs, inputs []outguard.File) {

@@ -119,7 +119,10 @@ func TestTrainDefaultsAreTheRecipe(t *testing.T) {
 	if _, r = parse("--wide=false"); r.Model.Wide {
 		t.Error("--wide=false asks for the wide path")
 	}
-	if _, r = parse("--wide"); !r.Model.Wide || r.Train.WideLR != cnn.DefaultWideLR {
+	if _, r = parse("--wide", "--wide-bigrams"); !r.Model.Wide || !r.Model.WideBigrams {
+		t.Errorf("--wide --wide-bigrams: wide %v, bigrams %v, want both", r.Model.Wide, r.Model.WideBigrams)
+	}
+	if _, r = parse("--wide"); !r.Model.Wide || r.Model.WideBigrams || r.Train.WideLR != cnn.DefaultWideLR {
 		t.Errorf("--wide alone: wide %v, learning-rate factor %g, want true and %d", r.Model.Wide, r.Train.WideLR, cnn.DefaultWideLR)
 	}
 }

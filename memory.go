@@ -22,11 +22,14 @@ import (
 // embedding rows of a batch's words once plus once per thread, and the
 // persistent inference table (at most 2²⁵ values), and with the
 // word-weight path its table like a tensor and a batch's rows of it per
-// thread. It is an upper bound:
+// thread; with bigram weights (cfg.WideBigrams) at most pairs bigrams
+// (the training split's adjacent pairs, counted with repeats), each with
+// its table row as a tensor, its key, two slots of its index and its
+// place in a batch's row set. It is an upper bound:
 // a batch seldom holds as many distinct words as the estimate allows
 // (3.5 times the peak heap measured on the demo corpus, TestTrainingMemoryEstimate),
 // so only a model that cannot fit is refused.
-func trainingBytes(cfg cnn.Config, batch, maxLen, threads int) float64 {
+func trainingBytes(cfg cnn.Config, batch, maxLen, threads, pairs int) float64 {
 	v, d := float64(cfg.VocabSize), float64(cfg.Dim)
 	maps, classes := float64(cfg.Filters), float64(cfg.Classes)
 	sumW := 0.0
@@ -47,6 +50,10 @@ func trainingBytes(cfg cnn.Config, batch, maxLen, threads int) float64 {
 		min(v*slotRow, 1<<25) // the persistent inference table
 	if cfg.Wide {
 		floats += 4*v*classes + t*words*classes // the word-weight table as a tensor, and its rows of a batch per thread
+	}
+	if cfg.WideBigrams {
+		p := float64(pairs)
+		floats += p*(4*classes+2+2+1) + t*min(p, float64(batch)*float64(maxLen))*classes // table, key, index, row set; a batch's rows per thread
 	}
 	return 4 * floats
 }
@@ -81,8 +88,8 @@ func machineMemory() float64 {
 // checkMemory refuses a training run whose estimate exceeds the machine's
 // memory, naming the options that set the size. A VocabSize of 2 (the
 // reserved words alone) stands for a vocabulary not yet counted.
-func checkMemory(cfg cnn.Config, batch, maxLen, threads int) error {
-	need, have := trainingBytes(cfg, batch, maxLen, threads), machineMemory()
+func checkMemory(cfg cnn.Config, batch, maxLen, threads, pairs int) error {
+	need, have := trainingBytes(cfg, batch, maxLen, threads, pairs), machineMemory()
 	if have == 0 || need <= have {
 		return nil
 	}
@@ -90,9 +97,14 @@ func checkMemory(cfg cnn.Config, batch, maxLen, threads int) error {
 	if cfg.VocabSize <= 2 {
 		vocab = "before any vocabulary"
 	}
+	fix := "lower --maps, --dim, --batch, --max-len or --threads, or raise --min-count"
+	if cfg.WideBigrams {
+		vocab += fmt.Sprintf(", up to %d bigrams", pairs)
+		fix += ", or leave out --wide-bigrams"
+	}
 	return usagef("training this model would take up to about %s of memory (--maps %d × widths %v × --dim %d, %s, "+
-		"batches of %d texts of up to %d tokens, %d threads) but this machine has %s: lower --maps, --dim, --batch, --max-len or --threads, or raise --min-count",
-		gib(need), cfg.Filters, cfg.Widths, cfg.Dim, vocab, batch, maxLen, threads, gib(have))
+		"batches of %d texts of up to %d tokens, %d threads) but this machine has %s: %s",
+		gib(need), cfg.Filters, cfg.Widths, cfg.Dim, vocab, batch, maxLen, threads, gib(have), fix)
 }
 
 func gib(b float64) string { return fmt.Sprintf("%.1f GiB", b/(1<<30)) }

@@ -39,7 +39,7 @@ func TestTrainingMemoryEstimate(t *testing.T) {
 	}
 	cfg := r.Model
 	cfg.VocabSize, cfg.Classes = enc.Vocab.Len(), len(train.Labels)
-	estimate := trainingBytes(cfg, r.Train.Batch, min(longest, r.Train.MaxLen), r.Train.Threads)
+	estimate := trainingBytes(cfg, r.Train.Batch, min(longest, r.Train.MaxLen), r.Train.Threads, 0)
 
 	runtime.GC()
 	var base runtime.MemStats

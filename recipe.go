@@ -24,6 +24,7 @@ type recipeOptions struct {
 	Dropout, LR, MaxNorm, WordDropout, TokenDropout      float64
 	WideLR                                               float64
 	Freeze, Subword, Lower, Baseline, Chars, Wide        bool
+	WideBigrams                                          bool
 
 	widths []int
 	// dimFromVectors: no --dim was given with --vectors, so the embedding
@@ -66,6 +67,8 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 	intVar(fs, &r.CharWidth, "char-width", cnn.DefaultCharWidth, "with --chars: characters per character filter window (1 to 32)")
 	fs.BoolVar(&r.Wide, "wide", def.Model.Wide,
 		"a word-weight path beside the filters: the mean over the text's words of a weight per word and label, added to the logits and trained with them")
+	fs.BoolVar(&r.WideBigrams, "wide-bigrams", def.Model.WideBigrams,
+		"with --wide: the training split's pairs of adjacent words get weights too, the mean running over the text's words and its pairs seen in training")
 	floatVar(fs, &r.WideLR, "wide-lr", cnn.DefaultWideLR,
 		"with --wide: factor on the learning rate of the word-weight table; 0 means 1, the rest's rate")
 	fs.BoolVar(&r.Baseline, "baseline", def.Baseline != nil,
@@ -143,6 +146,8 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 		return usagef("--wide-lr %g: give a positive factor, or 0 for the rest's learning rate", r.WideLR)
 	case !r.Wide && isSet(fs, "wide-lr"):
 		return usagef("--wide-lr sets the learning rate of the word-weight table: add --wide")
+	case r.WideBigrams && !r.Wide:
+		return usagef("--wide-bigrams gives bigrams weights in the word-weight path: add --wide")
 	}
 	return nil
 }
@@ -214,7 +219,7 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 	}
 	cfg := &rec.Model
 	cfg.Dim, cfg.Widths, cfg.Filters, cfg.Dropout, cfg.MaxNorm = r.Dim, r.widths, r.Maps, float32(r.Dropout), float32(r.MaxNorm)
-	cfg.Wide = r.Wide
+	cfg.Wide, cfg.WideBigrams = r.Wide, r.WideBigrams
 	if cfg.Chars = r.charConfig(); cfg.Chars != nil {
 		cfg.Dim += cfg.Chars.Filters // --dim is the word table's; the character part comes beside it
 	}
@@ -226,8 +231,9 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 }
 
 // checkSize refuses a model whose training would not fit in memory, with
-// vocab words, classes labels and texts of up to longest tokens.
-func (r *recipeOptions) checkSize(vocab, classes, longest, threads int) error {
+// vocab words, classes labels, texts of up to longest tokens and, with
+// --wide-bigrams, at most pairs bigrams.
+func (r *recipeOptions) checkSize(vocab, classes, longest, threads, pairs int) error {
 	if threads == 0 {
 		threads = runtime.GOMAXPROCS(0)
 	}
@@ -239,8 +245,8 @@ func (r *recipeOptions) checkSize(vocab, classes, longest, threads int) error {
 	if r.Chars {
 		dim += r.CharMaps // the word vectors' width with the character part
 	}
-	cfg := cnn.Config{VocabSize: vocab, Dim: dim, Widths: r.widths, Filters: r.Maps, Classes: classes, Wide: r.Wide}
-	return checkMemory(cfg, r.Batch, maxLen, threads)
+	cfg := cnn.Config{VocabSize: vocab, Dim: dim, Widths: r.widths, Filters: r.Maps, Classes: classes, Wide: r.Wide, WideBigrams: r.WideBigrams}
+	return checkMemory(cfg, r.Batch, maxLen, threads, pairs)
 }
 
 func joinInts(xs []int) string {

@@ -46,12 +46,17 @@ func (o *trainOptions) checkVocabulary(sp *splits) error {
 		return err
 	}
 	counts := map[string]int{}
-	longest := 1
+	longest, pairs := 1, 0
 	for _, e := range sp.train.Examples {
 		toks := tok.Tokenize(e.Text)
 		longest = max(longest, len(toks))
 		for _, t := range toks {
 			counts[t.Text]++
+		}
+		if n := len(toks); o.recipe.MaxLen > 0 && n > o.recipe.MaxLen {
+			pairs += o.recipe.MaxLen - 1
+		} else if n > 1 {
+			pairs += n - 1
 		}
 	}
 	words, top := 0, 0
@@ -69,7 +74,7 @@ func (o *trainOptions) checkVocabulary(sp *splits) error {
 	if o.recipe.Subword {
 		vocab += 2000 // the default number of subword pieces (corpus.TokenizerConfig.SubwordSize)
 	}
-	return o.recipe.checkSize(vocab, len(sp.train.Labels), longest, o.threads.N)
+	return o.recipe.checkSize(vocab, len(sp.train.Labels), longest, o.threads.N, pairs)
 }
 
 // maskTrainingText takes the cue tokens or patterns listed in file out of

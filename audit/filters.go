@@ -25,9 +25,13 @@ type Filters struct {
 	// part of the centred logit of the cue's label, Σ_t Σ_c v_c
 	// (Wide[x_t][c] − Wide[UNK][c])/N over the text's tokens t of those
 	// words, v_c = [c = label] − 1/C, N its non-PAD tokens (the split of
-	// explain.Shares), with its 95% bootstrap interval over texts. Reading
-	// the words as the unknown word lowers that logit by exactly this part
-	// on each text.
+	// explain.Shares), with its 95% bootstrap interval over texts; with
+	// bigram weights (cnn.Config.WideBigrams) N counts the text's found
+	// pairs too, and every found pair holding one of the words adds its
+	// whole part Σ_c v_c (WideBigram[p][c] − Wide[UNK][c])/N, as the
+	// remedy sets its row to the unknown word's (cnn.Model.MaskedWordsCopy).
+	// Reading the words as the unknown word lowers that logit by exactly
+	// this part on each text.
 	Words    []string  `json:"words,omitempty"`
 	WordPart *Interval `json:"word_part,omitempty"`
 }
@@ -177,24 +181,36 @@ func (a *auditor) wordPart(c *Candidate, ws []int32) *Interval {
 func (a *auditor) wordPartOn(d Data, occ []span, c *Candidate, ws []int32, key string) *Interval {
 	C := a.m.Config.Classes
 	unk := a.m.WideRow(corpus.UNK)
+	part := func(row []float32) float64 {
+		var s float64
+		for k := range C {
+			v := -1 / float64(C)
+			if k == c.Class {
+				v++
+			}
+			s += v * (float64(row[k]) - float64(unk[k]))
+		}
+		return s
+	}
 	var parts []float64
 	for _, i := range texts(occ) {
+		ids := d.IDs[i]
 		n, sum := 0, 0.0
-		for _, id := range d.IDs[i] {
+		for t, id := range ids {
+			if t+1 < len(ids) {
+				if row := a.m.BigramRow(id, ids[t+1]); row != nil {
+					n++
+					if slices.Contains(ws, id) || slices.Contains(ws, ids[t+1]) {
+						sum += part(row)
+					}
+				}
+			}
 			if id == corpus.PAD {
 				continue
 			}
 			n++
-			if !slices.Contains(ws, id) {
-				continue
-			}
-			row := a.m.WideRow(id)
-			for k := range C {
-				v := -1 / float64(C)
-				if k == c.Class {
-					v++
-				}
-				sum += v * (float64(row[k]) - float64(unk[k]))
+			if slices.Contains(ws, id) {
+				sum += part(a.m.WideRow(id))
 			}
 		}
 		parts = append(parts, sum/float64(max(1, n)))

@@ -30,7 +30,11 @@ import (
 //	           then OutW, OutB, then (version 3, a model with a character
 //	           layer) the layer's character vectors, filters and biases,
 //	           then (version 4, a model with the wide path) the word-weight
-//	           table Wide, VocabSize × Classes laid out [word][class]
+//	           table Wide, VocabSize × Classes laid out [word][class], then
+//	           (version 5, a model with bigram weights) the bigram table
+//	           WideBigram, nBigrams × Classes laid out [bigram][class]
+//	nBigrams   uint64   number of bigram keys that follow (version 5)
+//	bigrams    nBigrams × uint64: Model.Bigrams, sorted (version 5)
 //	nBaseline  uint64   number of float64 baseline weights that follow (version 2)
 //	baseline   nBaseline × float64: the linear baseline's IDF, Coef,
 //	           Intercept (linear.Model.Weights); its other parts are in the
@@ -41,18 +45,21 @@ import (
 // section) still load. A file is written as the oldest version that holds
 // the model, so older programs still read what they can: a model with
 // neither a character layer nor the wide path as version 2, one with a
-// character layer as version 3, one with the wide path as version 4; a
+// character layer as version 3, one with the wide path as version 4, one
+// with bigram weights in it as version 5; a
 // program older than the version refuses the file with "update telltale".
 // The character parts of Emb are stored but recomputed from the layer on
 // loading.
 
 // FormatVersion is the newest model file version this package writes and
 // reads.
-const FormatVersion = 4
+const FormatVersion = 5
 
 // fileVersion is the version m is written as.
 func fileVersion(m *Model) uint32 {
 	switch {
+	case m.Config.WideBigrams:
+		return 5
 	case m.Config.Wide:
 		return 4
 	case m.Config.Chars != nil:
@@ -78,8 +85,9 @@ type fileHeader struct {
 	Baseline  *linear.Model          `json:"baseline,omitempty"`
 }
 
-// numWeights is the number of float32 values the model file stores for cfg.
-func numWeights(cfg Config) int {
+// numWeights is the number of float32 values the model file stores for
+// cfg with nBigrams bigram keys (0 without Config.WideBigrams).
+func numWeights(cfg Config, nBigrams int) int {
 	n := cfg.VocabSize*cfg.Dim + cfg.Classes*cfg.NumFilters() + cfg.Classes
 	for _, w := range cfg.Widths {
 		n += cfg.Filters*w*cfg.Dim + cfg.Filters
@@ -89,6 +97,9 @@ func numWeights(cfg Config) int {
 	}
 	if cfg.Wide {
 		n += cfg.VocabSize * cfg.Classes
+	}
+	if cfg.WideBigrams {
+		n += nBigrams * cfg.Classes
 	}
 	return n
 }
@@ -126,7 +137,7 @@ func (m *Model) encode(w io.Writer) error {
 	bw.u32(fileVersion(m))
 	bw.u64(uint64(len(js)))
 	bw.write(js)
-	bw.u64(uint64(numWeights(m.Config)))
+	bw.u64(uint64(numWeights(m.Config, len(m.Bigrams))))
 	bw.floats(m.Emb)
 	for _, c := range m.Convs {
 		bw.floats(c.W)
@@ -139,7 +150,12 @@ func (m *Model) encode(w io.Writer) error {
 		bw.floats(l.W)
 		bw.floats(l.B)
 	}
-	bw.floats(m.Wide) // nil without the wide path
+	bw.floats(m.Wide)       // nil without the wide path
+	bw.floats(m.WideBigram) // nil without bigram weights
+	if fileVersion(m) >= 5 {
+		bw.u64(uint64(len(m.Bigrams)))
+		bw.uint64s(m.Bigrams)
+	}
 	var base []float64
 	if m.Baseline != nil {
 		base = m.Baseline.Weights()
@@ -186,6 +202,17 @@ func (e *errWriter) floats(x []float32) {
 			binary.LittleEndian.PutUint32(e.buf[4*i:], math.Float32bits(v))
 		}
 		e.write(e.buf[:4*n])
+		x = x[n:]
+	}
+}
+
+func (e *errWriter) uint64s(x []uint64) {
+	for len(x) > 0 {
+		n := min(len(x), len(e.buf)/8)
+		for i, v := range x[:n] {
+			binary.LittleEndian.PutUint64(e.buf[8*i:], v)
+		}
+		e.write(e.buf[:8*n])
 		x = x[n:]
 	}
 }
@@ -284,7 +311,7 @@ func decodeParts(f fileParts, fileLen int, withBaseline bool) (*Model, error) {
 			return nil, err
 		}
 	}
-	if err := m.readWeights(f.weights); err != nil {
+	if err := m.readWeights(f.weights, f.bigrams); err != nil {
 		return nil, err
 	}
 	if withBaseline {
@@ -310,6 +337,7 @@ type fileParts struct {
 	header   []byte // the JSON header
 	nw       uint64 // float32 weights announced
 	weights  []byte // 4*nw bytes
+	bigrams  []byte // the bigram keys, 8 bytes each (version 5)
 	baseline []byte // the baseline's float64 weights, 8 bytes each
 }
 
@@ -344,6 +372,18 @@ func splitFile(data []byte) (fileParts, error) {
 		return f, fmt.Errorf("truncated (%d weights announced, room for %d): the file is incomplete, save or copy it again", nw, left)
 	}
 	wEnd := off + 4*int(nw)
+	keys := wEnd // where the bigram keys start
+	if version >= 5 {
+		if end-wEnd < 8 {
+			return f, fmt.Errorf("truncated (no bigram section after the weights): the file is incomplete, save or copy it again")
+		}
+		nk := binary.LittleEndian.Uint64(data[wEnd:])
+		if left := uint64(end-wEnd-8) / 8; nk > left {
+			return f, fmt.Errorf("truncated or corrupted (%d bigrams announced, room for %d): the file is incomplete, save or copy it again", nk, left)
+		}
+		keys = wEnd + 8
+		wEnd = keys + 8*int(nk)
+	}
 	var nb uint64
 	bEnd := wEnd
 	if version >= 2 {
@@ -365,7 +405,8 @@ func splitFile(data []byte) (fileParts, error) {
 		version:  version,
 		header:   data[fixed : fixed+int(hl)],
 		nw:       nw,
-		weights:  data[off:wEnd],
+		weights:  data[off : off+4*int(nw)],
+		bigrams:  data[keys:wEnd],
 		baseline: data[bEnd-8*int(nb) : bEnd],
 	}, nil
 }
@@ -423,7 +464,10 @@ func checkHeader(h *fileHeader, f fileParts, fileLen int) error {
 	if err := checkWideSize(cfg, f, limit); err != nil {
 		return err
 	}
-	if want := numWeights(cfg); uint64(want) != f.nw {
+	if err := checkBigramSize(cfg, f, limit); err != nil {
+		return err
+	}
+	if want := numWeights(cfg, len(f.bigrams)/8); uint64(want) != f.nw {
 		return fmt.Errorf("the configuration needs %d weights but the file has %d: the vocabulary or labels do not match the weights", want, f.nw)
 	}
 	if len(h.Vocab) != cfg.VocabSize {
@@ -453,12 +497,28 @@ func checkWideSize(cfg Config, f fileParts, limit int) error {
 		return fmt.Errorf("header: sizes larger than the file: the file is corrupted")
 	}
 	table := cfg.VocabSize * cfg.Classes
-	want := uint64(numWeights(cfg))
+	want := uint64(numWeights(cfg, len(f.bigrams)/8))
 	switch rest := want - uint64(table); {
 	case f.nw == rest:
 		return fmt.Errorf("the configuration has a wide word-weight path but the file lacks its table (%d words × %d classes): the file is damaged, retrain or restore it", cfg.VocabSize, cfg.Classes)
 	case f.nw > rest && f.nw != want:
 		return fmt.Errorf("the wide word-weight table has %d values but the configuration needs %d words × %d classes: the file is damaged, retrain or restore it", f.nw-rest, cfg.VocabSize, cfg.Classes)
+	}
+	return nil
+}
+
+// checkBigramSize checks the bigram weights a header announces
+// (cfg.WideBigrams) against the file's version and sections: the keys come
+// only in version 5 files, and only with bigram weights; their table must
+// fit in limit float32 values.
+func checkBigramSize(cfg Config, f fileParts, limit int) error {
+	switch n := len(f.bigrams) / 8; {
+	case cfg.WideBigrams && n > 0 && cfg.Classes > limit/n:
+		return fmt.Errorf("header: sizes larger than the file: the file is corrupted")
+	case cfg.WideBigrams && f.version < 5:
+		return fmt.Errorf("bigram weights in a version %d file: the file is damaged", f.version)
+	case !cfg.WideBigrams && len(f.bigrams) > 0:
+		return fmt.Errorf("%d bigram keys but no bigram weights in the header: the file is damaged", len(f.bigrams)/8)
 	}
 	return nil
 }
@@ -477,9 +537,10 @@ func maskedFilters(masked []int, nf int) ([]bool, error) {
 }
 
 // readWeights fills m's weights from w, the weights section (4 bytes a
-// float32, in the file's order). m.Config has passed checkHeader, so w
-// holds exactly numWeights(m.Config) values.
-func (m *Model) readWeights(w []byte) error {
+// float32, in the file's order), and its bigram keys from keys (8 bytes
+// each). m.Config has passed checkHeader, so w holds exactly
+// numWeights(m.Config, len(keys)/8) values.
+func (m *Model) readWeights(w, keys []byte) error {
 	cfg := m.Config
 	take := func(n int) []float32 {
 		x := make([]float32, n)
@@ -516,6 +577,20 @@ func (m *Model) readWeights(w []byte) error {
 				return fmt.Errorf("the PAD row of the wide word-weight table is not zero: the file is damaged")
 			}
 		}
+	}
+	if cfg.WideBigrams {
+		table := take(len(keys) / 8 * cfg.Classes)
+		bigrams := make([]uint64, len(keys)/8)
+		for i := range bigrams {
+			bigrams[i] = binary.LittleEndian.Uint64(keys[8*i:])
+		}
+		if err := checkBigrams(bigrams, cfg.VocabSize); err != nil {
+			return fmt.Errorf("%v: the file is damaged", err)
+		}
+		if err := m.SetBigrams(bigrams); err != nil {
+			return err
+		}
+		m.WideBigram = table
 	}
 	return nil
 }

@@ -218,7 +218,7 @@ func TestReadWeightsCopyMatchesDecoding(t *testing.T) {
 	for i, native := range []bool{true, false} {
 		nativeLittleEndian = native
 		got[i] = &Model{Config: m.Config}
-		if err := got[i].readWeights(w); err != nil {
+		if err := got[i].readWeights(w, nil); err != nil {
 			t.Fatal(err)
 		}
 	}

@@ -78,17 +78,14 @@ func (m *Model) Forward(ids []int32) Output {
 // N the number of non-PAD ids; a text with N = 0 adds UNK's row, so that
 // the term is Wide[UNK][c] + Σ_t (Wide[x[t]][c] − Wide[UNK][c])/N for every
 // N (the sum empty at 0) and shifting every row but PAD's by one vector is
-// undone by shifting OutB. It does nothing without Config.Wide.
+// undone by shifting OutB. With Config.WideBigrams each of the M pairs of
+// adjacent ids found in Bigrams adds its WideBigram row too, and the
+// divisor is N+M (Model's doc). It does nothing without Config.Wide.
 func (m *Model) addWide(ids []int32, logits []float32) {
 	if !m.Config.Wide {
 		return
 	}
-	n := 0
-	for _, id := range ids {
-		if id != corpus.PAD {
-			n++
-		}
-	}
+	n, pairs := m.wideCounts(ids)
 	C := m.Config.Classes
 	if n == 0 {
 		unk := int(corpus.UNK) * C
@@ -97,8 +94,8 @@ func (m *Model) addWide(ids []int32, logits []float32) {
 		}
 		return
 	}
-	inv := 1 / float32(n)
-	for _, id := range ids {
+	inv := 1 / float32(n+pairs)
+	for t, id := range ids {
 		if id == corpus.PAD {
 			continue
 		}
@@ -106,7 +103,31 @@ func (m *Model) addWide(ids []int32, logits []float32) {
 		for c, w := range row {
 			logits[c] += w * inv
 		}
+		if pairs > 0 && t+1 < len(ids) {
+			if r := m.bigramRow(id, ids[t+1]); r >= 0 {
+				for c, w := range m.WideBigram[r*C : r*C+C] {
+					logits[c] += w * inv
+				}
+			}
+		}
 	}
+}
+
+// wideCounts returns the number n of non-PAD ids of the text ids and the
+// number of its pairs of adjacent ids found in the model's bigram set (0
+// without Config.WideBigrams).
+func (m *Model) wideCounts(ids []int32) (n, pairs int) {
+	bigrams := m.Config.WideBigrams
+	for t, id := range ids {
+		if id == corpus.PAD {
+			continue
+		}
+		n++
+		if bigrams && t+1 < len(ids) && m.bigramRow(id, ids[t+1]) >= 0 {
+			pairs++
+		}
+	}
+	return n, pairs
 }
 
 // Head computes logits = OutB + OutW·pooled. Len(pooled) must be NumFilters

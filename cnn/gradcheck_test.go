@@ -83,18 +83,29 @@ func ref64Scaled(m *Model, texts [][]int32, labels []int, drop []float32, scale 
 
 // wide64 is the wide term of logit c for the text ids in float64, written
 // from its definition (model.go): the mean over the non-PAD ids of their
-// weights for class c; the unknown word's (id 1) weight when no id is
-// non-PAD; 0 without Config.Wide.
+// weights for class c, and with Config.WideBigrams over the pairs of
+// adjacent ids listed in m.Bigrams too (found by a linear scan of the
+// keys, not the model's index); the unknown word's (id 1) weight when no
+// id is non-PAD; 0 without Config.Wide.
 func wide64(m *Model, ids []int32, c int) float64 {
 	if !m.Config.Wide {
 		return 0
 	}
 	var sum float64
 	n := 0
-	for _, id := range ids {
+	for t, id := range ids {
 		if id != 0 {
 			sum += float64(m.Wide[int(id)*m.Config.Classes+c])
 			n++
+		}
+		if !m.Config.WideBigrams || t+1 == len(ids) {
+			continue
+		}
+		for r, k := range m.Bigrams {
+			if k == uint64(id)<<32|uint64(ids[t+1]) {
+				sum += float64(m.WideBigram[r*m.Config.Classes+c])
+				n++
+			}
 		}
 	}
 	if n == 0 {
@@ -136,6 +147,9 @@ func gradParams(m *Model, tr *trainer) []paramRef {
 	if m.Wide != nil {
 		ps = append(ps, paramRef{"Wide", m.Wide, tr.gWide})
 	}
+	if m.WideBigram != nil {
+		ps = append(ps, paramRef{"WideBigram", m.WideBigram, tr.gBig})
+	}
 	return ps
 }
 
@@ -145,7 +159,7 @@ func gradParams(m *Model, tr *trainer) []paramRef {
 // path: 1e-4 relative plus 1e-6 absolute).
 func TestGradientFiniteDifferences(t *testing.T) {
 	for seed := uint64(1); seed <= 6; seed++ {
-		gradCheck(t, seed, false)
+		gradCheck(t, seed, false, false)
 	}
 }
 
@@ -156,13 +170,52 @@ func TestGradientFiniteDifferences(t *testing.T) {
 // UNK's row gradient checks that case alone.
 func TestWideGradientFiniteDifferences(t *testing.T) {
 	for seed := uint64(1); seed <= 6; seed++ {
-		gradCheck(t, seed, true)
+		gradCheck(t, seed, true, false)
+	}
+}
+
+// The same check with bigram weights in the wide path
+// (Config.WideBigrams): the set holds half of the batch's pairs of word
+// ids and pairs the batch lacks, its table random; a pair is counted with
+// the words (the divisor N+M), pairs with PAD or UNK never, and the rows
+// of pairs outside the batch get no gradient.
+func TestWideBigramGradientFiniteDifferences(t *testing.T) {
+	for seed := uint64(1); seed <= 6; seed++ {
+		gradCheck(t, seed, true, true)
+	}
+}
+
+// withTestBigrams gives m (with the wide path) bigram weights: every
+// other pair of word ids of texts, in order of appearance, and two pairs
+// that may be absent, with random weights.
+func withTestBigrams(t *testing.T, m *Model, texts [][]int32, seed uint64) {
+	t.Helper()
+	var pairs [][]int32
+	k := 0
+	for _, ids := range texts {
+		for j := 0; j+1 < len(ids); j++ {
+			if ids[j] > 1 && ids[j+1] > 1 {
+				if k%2 == 0 {
+					pairs = append(pairs, ids[j:j+2])
+				}
+				k++
+			}
+		}
+	}
+	pairs = append(pairs, []int32{2, 3}, []int32{int32(m.Config.VocabSize - 1), 2})
+	keys := CollectBigrams(pairs)
+	if err := m.SetBigrams(keys); err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(seed, 13))
+	for i := range m.WideBigram {
+		m.WideBigram[i] = float32(2*rng.Float64() - 1)
 	}
 }
 
 // gradCheck compares the analytic gradients of one random batch with
 // finite differences (see TestGradientFiniteDifferences).
-func gradCheck(t *testing.T, seed uint64, wide bool) {
+func gradCheck(t *testing.T, seed uint64, wide, bigrams bool) {
 	t.Helper()
 	const h = 1e-3
 	m := randModel(seed, 12, 4, []int{1, 2, 3}, 3, 3)
@@ -195,6 +248,10 @@ func gradCheck(t *testing.T, seed uint64, wide bool) {
 		}
 		texts[1] = []int32{0, 5, 0, 7} // N counts the non-PAD ids alone
 		texts[2] = []int32{0, 0}       // no non-PAD id: UNK's wide row
+	}
+	if bigrams {
+		texts[3] = append(texts[3], 1, 4, 4, 0, 4) // pairs with UNK and PAD are never found
+		withTestBigrams(t, m, texts, seed)
 	}
 	labels := make([]int, len(texts))
 	for i := range labels {
@@ -239,6 +296,12 @@ func gradCheck(t *testing.T, seed uint64, wide bool) {
 				}
 				continue
 			}
+			if pr.name == "WideBigram" && !usedPair(texts, m.Bigrams[i/m.Config.Classes]) {
+				if pr.g[i] != 0 {
+					t.Fatalf("seed %d: gradient %g for the bigram entry %d outside the batch", seed, pr.g[i], i)
+				}
+				continue
+			}
 			fd.compare(t, fmt.Sprintf("seed %d %s[%d]", seed, pr.name, i), pr.p, pr.g, i, h,
 				func() (float64, []int) { return ref64(m, texts, labels, drop) })
 		}
@@ -247,6 +310,18 @@ func gradCheck(t *testing.T, seed uint64, wide bool) {
 		t.Errorf("seed %d: PAD row has a gradient", seed)
 	}
 	fd.enough(t, seed)
+}
+
+// usedPair reports whether the pair of key k occurs in texts.
+func usedPair(texts [][]int32, k uint64) bool {
+	for _, ids := range texts {
+		for j := 0; j+1 < len(ids); j++ {
+			if BigramKey(ids[j], ids[j+1]) == k {
+				return true
+			}
+		}
+	}
+	return false
 }
 
 // centralDiff is the central finite difference of the loss eval gives with

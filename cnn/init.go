@@ -18,8 +18,9 @@ import (
 // [−1/√fan_in, 1/√fan_in], which is PyTorch's default for Conv1d and Linear
 // (kaiming_uniform with a=√5; fan_in = Dim·Width for a convolution, NumFilters
 // for the output layer). The wide path's table (Config.Wide) starts at zero,
-// so a new model's predictions are its filters' alone. The same seed gives
-// the same model.
+// so a new model's predictions are its filters' alone; with
+// Config.WideBigrams its bigram set starts empty (SetBigrams gives it the
+// training split's). The same seed gives the same model.
 func New(cfg Config, vocab []string, labels []string, seed uint64) (*Model, error) {
 	if err := cfg.Validate(); err != nil {
 		return nil, err
@@ -52,6 +53,11 @@ func New(cfg Config, vocab []string, labels []string, seed uint64) (*Model, erro
 	}
 	if cfg.Wide {
 		m.Wide = make([]float32, cfg.VocabSize*cfg.Classes)
+	}
+	if cfg.WideBigrams {
+		if err := m.SetBigrams([]uint64{}); err != nil {
+			return nil, err
+		}
 	}
 	uni(m.Emb[d:], 0.25)
 	for b, w := range cfg.Widths {
@@ -130,6 +136,10 @@ func (m *Model) Clone() *Model {
 	if m.Wide != nil {
 		c.Wide = append([]float32(nil), m.Wide...)
 	}
+	if m.Bigrams != nil { // the index only reads the keys, which are equal: shared
+		c.Bigrams = append([]uint64{}, m.Bigrams...)
+		c.WideBigram = append([]float32{}, m.WideBigram...)
+	}
 	if m.Masked != nil {
 		c.Masked = append([]bool(nil), m.Masked...)
 	}
@@ -160,6 +170,10 @@ func (m *Model) checkShapes() error {
 		return fmt.Errorf("cnn: wide word-weight table has %d values, want %d×%d", len(m.Wide), cfg.VocabSize, cfg.Classes)
 	case !cfg.Wide && m.Wide != nil:
 		return fmt.Errorf("cnn: a wide word-weight table without Config.Wide")
+	case cfg.WideBigrams && (m.Bigrams == nil || m.bigramIx == nil || len(m.WideBigram) != len(m.Bigrams)*cfg.Classes):
+		return fmt.Errorf("cnn: bigram weight table has %d values for %d bigrams × %d classes (give the set with SetBigrams)", len(m.WideBigram), len(m.Bigrams), cfg.Classes)
+	case !cfg.WideBigrams && (m.Bigrams != nil || m.WideBigram != nil):
+		return fmt.Errorf("cnn: bigram weights without Config.WideBigrams")
 	case m.Masked != nil && len(m.Masked) != nf:
 		return fmt.Errorf("cnn: mask has %d entries for %d filters", len(m.Masked), nf)
 	case len(m.Labels) != cfg.Classes:

@@ -2,6 +2,7 @@ package cnn
 
 import (
 	"fmt"
+	"slices"
 
 	"telltale/corpus"
 )
@@ -21,7 +22,11 @@ func (m *Model) MaskedCopy(filters []int) (*Model, error) {
 // Wide[UNK]'s, so each of their tokens adds Wide[UNK][c]/N to logit c
 // instead of Wide[x][c]/N (its word part, relative to the unknown word, is
 // exactly 0) and nothing else changes; the filters still read the words
-// as before. On a model without the wide path the words change nothing.
+// as before. With bigram weights (Config.WideBigrams) the rows of the
+// pairs that hold one of the words are set to Wide[UNK]'s too, so each
+// such pair found in a text adds Wide[UNK][c]/N (its part is exactly 0;
+// the pair still counts in N, so no other token's part changes). On a
+// model without the wide path the words change nothing.
 // Word ids must be 1 … VocabSize−1 (PAD has no row to change; UNK's row
 // is left as it is); anything else is an error naming the valid range.
 func (m *Model) MaskedWordsCopy(filters []int, words []int32) (*Model, error) {
@@ -47,6 +52,12 @@ func (m *Model) MaskedWordsCopy(filters []int, words []int32) (*Model, error) {
 		unk := c.WideRow(corpus.UNK)
 		for _, id := range words {
 			copy(c.WideRow(id), unk)
+		}
+		C := c.Config.Classes
+		for r, k := range c.Bigrams {
+			if a, b := BigramIDs(k); slices.Contains(words, a) || slices.Contains(words, b) {
+				copy(c.WideBigram[r*C:r*C+C], unk)
+			}
 		}
 	}
 	return c, nil

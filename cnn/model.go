@@ -26,6 +26,11 @@ type Config struct {
 	// Joulin et al. (2017, "Bag of Tricks for Efficient Text
 	// Classification"), trained jointly with the rest.
 	Wide bool `json:"wide,omitempty"`
+	// WideBigrams, only with Wide, gives the training split's pairs of
+	// adjacent words weights beside the words' (Model.Bigrams,
+	// Model.WideBigram; bigram.go): the wide term is the mean over a
+	// text's words and its pairs found in the set.
+	WideBigrams bool `json:"wide_bigrams,omitempty"`
 }
 
 // Validate reports the first problem with c, or nil.
@@ -45,6 +50,8 @@ func (c Config) Validate() error {
 		return fmt.Errorf("cnn: dropout %g: must be in [0, 1)", c.Dropout)
 	case c.MaxNorm < 0:
 		return fmt.Errorf("cnn: max-norm %g: must be 0 (off) or positive", c.MaxNorm)
+	case c.WideBigrams && !c.Wide:
+		return fmt.Errorf("cnn: bigram weights belong to the wide word-weight path: turn Wide on too (train --wide --wide-bigrams)")
 	}
 	for _, w := range c.Widths {
 		if w < 1 || w > 32 {
@@ -103,6 +110,15 @@ type Conv struct {
 // no word left is scored by the unknown word's row, not by OutB alone.
 // Filter masking does not touch the wide term.
 //
+// With Config.WideBigrams the mean also runs over the M pairs p of
+// adjacent ids (x[t], x[t+1]) of the text found in Bigrams:
+//
+//	Wide[UNK][c] + (Σ_t (Wide[x[t]][c] − Wide[UNK][c]) + Σ_p (WideBigram[p][c] − Wide[UNK][c]))/(N+M)
+//
+// that is (Σ_t Wide[x[t]][c] + Σ_p WideBigram[p][c])/(N+M) when N > 0;
+// the shift of every word row by a vector is then undone by shifting every
+// bigram row by it too and OutB by its opposite.
+//
 // Windows never reach past L', so a text's logits do not depend on how it was
 // batched.
 type Model struct {
@@ -119,6 +135,15 @@ type Model struct {
 	// laid out [word][class], when Config.Wide is set, else nil. Row 0
 	// (PAD) is always zero.
 	Wide []float32
+
+	// Bigrams are the keys (BigramKey) of the pairs of adjacent word ids
+	// that have bigram weights, sorted and distinct, when
+	// Config.WideBigrams is set, else nil; WideBigram is their weight
+	// table, len(Bigrams)*Classes laid out [bigram][class]. bigramIx finds
+	// a pair's row (bigram.go); it is built once and shared by clones.
+	Bigrams    []uint64
+	WideBigram []float32
+	bigramIx   *bigramIndex
 
 	// Char is the character layer when Config.Chars is set, else nil.
 	Char *CharLayer

@@ -184,6 +184,12 @@ func trainOne(ctx context.Context, cfg Config, enc *corpus.Encoder, labels []str
 		return nil, nil, 0, err
 	}
 	m.Tokenizer = enc.Tok.Config()
+	if cfg.WideBigrams {
+		// The pairs of the training split as Train cuts it.
+		if err := m.SetBigrams(CollectBigrams(train.Truncate(tc.MaxLen).IDs)); err != nil {
+			return nil, nil, 0, err
+		}
+	}
 	if tc.EmbedInit == InitPPMI {
 		// Cut as Train cuts them, so the statistics are of what it sees.
 		m.InitCooccurrence(train.Truncate(tc.MaxLen).IDs, tc.Seed, tc.Threads)

@@ -99,6 +99,7 @@ func meanWeights(dst *Model, srcs []*Model) *Model {
 	mean(dst.OutW, func(s *Model) []float32 { return s.OutW })
 	mean(dst.OutB, func(s *Model) []float32 { return s.OutB })
 	mean(dst.Wide, func(s *Model) []float32 { return s.Wide })
+	mean(dst.WideBigram, func(s *Model) []float32 { return s.WideBigram })
 	if dst.Char != nil {
 		mean(dst.Char.Emb, func(s *Model) []float32 { return s.Char.Emb })
 		mean(dst.Char.W, func(s *Model) []float32 { return s.Char.W })

@@ -71,6 +71,7 @@ type threadBuf struct {
 	w, b, ow, ob, emb []float32 // gradients: conv W (all banks), conv B, OutW, OutB, embeddings of the batch's words
 	wide              []float32 // gradient of the batch's words' rows of Model.Wide (Config.Wide only)
 	wideUNK           []float32 // gradient of UNK's row of Model.Wide from texts with no non-PAD id
+	bigram            []float32 // gradient of the batch's bigrams' rows of Model.WideBigram (Config.WideBigrams only)
 	h, z, p, dz       []float32
 	dh                []float32
 	rows              []*float32 // table rows of the current text's positions
@@ -130,12 +131,26 @@ type trainer struct {
 	wdRng  *rand.Rand
 	wdBuf  []int32
 
-	wOff   []int // offset of each bank in the flattened conv gradient
-	th     []threadBuf
-	gEmb   []float32 // full-size embedding gradient, zero outside the batch's rows
-	gWide  []float32 // full-size gradient of Model.Wide, zero outside the batch's rows
-	groups []paramGroup
-	cur    *paramGroup
+	wOff  []int // offset of each bank in the flattened conv gradient
+	th    []threadBuf
+	gEmb  []float32 // full-size embedding gradient, zero outside the batch's rows
+	gWide []float32 // full-size gradient of Model.Wide, zero outside the batch's rows
+	gBig  []float32 // full-size gradient of Model.WideBigram, zero outside the batch's rows
+
+	// The batch's bigrams (Config.WideBigrams): bs holds their rows of
+	// Model.WideBigram, pairs the local index in bs of each found pair of
+	// text i at pairs[pairOff[i]:pairOff[i+1]]. Pairs are found in orig,
+	// the batch's texts before word dropout (when it has as many texts as
+	// texts), and left out with probability bigramDrop, drawn from bdRng
+	// (nil: none left out).
+	orig       [][]int32
+	bs         rowSet
+	pairs      []int32
+	pairOff    []int
+	bigramDrop float64
+	bdRng      *rand.Rand
+	groups     []paramGroup
+	cur        *paramGroup
 
 	// ch is the character layer's part (nil for a model without one).
 	ch *charTrain
@@ -201,6 +216,17 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 		tr.gWide = make([]float32, len(m.Wide))
 		add(m.Wide[cfg.Classes:], tr.gWide[cfg.Classes:], true)
 		tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
+	}
+	if cfg.WideBigrams {
+		// As the word weights: weight decay, the same factor on the rate.
+		tr.gBig = make([]float32, len(m.WideBigram))
+		add(m.WideBigram, tr.gBig, true)
+		tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
+		tr.bs.init(len(m.Bigrams))
+		if tc.TokenDropout > 0 {
+			tr.bigramDrop = tc.TokenDropout
+			tr.bdRng = rand.New(rand.NewPCG(tc.Seed^0x452821e638d01377, tc.Seed))
+		}
 	}
 	if m.Char != nil {
 		tr.ch = newCharTrain(tr, add)
@@ -287,6 +313,7 @@ func (tr *trainer) step(d Data, idx []int) float64 {
 		tr.texts = append(tr.texts, d.IDs[i])
 		tr.labels = append(tr.labels, d.Labels[i])
 	}
+	tr.orig = append(tr.orig[:0], tr.texts...)
 	if tr.unkP != nil {
 		tr.dropWords()
 	}
@@ -328,6 +355,9 @@ func (tr *trainer) forwardBackward() float64 {
 		tr.locOff = append(tr.locOff, len(tr.loc))
 	}
 	nw := len(tr.ws.words)
+	if cfg.WideBigrams {
+		tr.collectPairs()
+	}
 	tr.emb = grow(tr.emb, nw*d)
 	tr.tab = grow(tr.tab, tableLen(&tr.sw, nw))
 	tr.pre = grow(tr.pre, n*nf)
@@ -342,6 +372,10 @@ func (tr *trainer) forwardBackward() float64 {
 		if tr.embGrad() {
 			t.emb = grow(t.emb, nw*d)
 			clear(t.emb)
+		}
+		if cfg.WideBigrams {
+			t.bigram = grow(t.bigram, len(tr.bs.rows)*cfg.Classes)
+			clear(t.bigram)
 		}
 		if cfg.Wide {
 			t.wide = grow(t.wide, nw*cfg.Classes)
@@ -376,6 +410,9 @@ func (tr *trainer) forwardBackward() float64 {
 	}
 	if cfg.Wide {
 		tr.scatterWide()
+	}
+	if cfg.WideBigrams {
+		tr.scatterBigrams()
 	}
 	var sum float64
 	for _, l := range tr.loss[:n] {
@@ -457,7 +494,7 @@ func (tr *trainer) texts_(k, lo, hi int) {
 			}
 		}
 		m.Head(t.h, t.z)
-		m.addWide(ids, t.z)
+		tr.addWide(i, ids, t.z)
 		y := tr.labels[i]
 		tr.loss[i] = crossEntropy(t.z, t.p, y)
 		sc := scale
@@ -469,7 +506,7 @@ func (tr *trainer) texts_(k, lo, hi int) {
 			t.dz[c] = t.p[c] * sc
 		}
 		t.dz[y] -= sc
-		wideGrad(ids, loc, t.dz, t.wide, t.wideUNK)
+		wideGrad(ids, loc, tr.textPairs(i), t.dz, t.wide, t.wideUNK, t.bigram)
 		// Output layer.
 		for c := 0; c < C; c++ {
 			axpy(t.dz[c], t.h, t.ow[c*nf:(c+1)*nf])
@@ -518,12 +555,14 @@ func (tr *trainer) windowGrads(t *threadBuf, ids, loc []int32, best []float32, a
 }
 
 // wideGrad adds the gradient of the wide term of one text (ids, with
-// their local indices loc) to wide, the rows of the batch's words: dz/N for
-// each non-PAD occurrence, N the number of non-PAD ids. A text with N = 0
-// is scored by UNK's row (Model.addWide), so its whole dz goes to unk
-// instead, UNK's row gradient kept apart because UNK need not be one of the
-// batch's words. An empty wide (no wide path) is left alone.
-func wideGrad(ids, loc []int32, dz, wide, unk []float32) {
+// their local indices loc, and the local indices pairs of its found
+// bigrams) to wide, the rows of the batch's words, and big, the rows of
+// the batch's bigrams: dz/(N+M) for each non-PAD occurrence and each of
+// the M found pairs, N the number of non-PAD ids. A text with N = 0 is
+// scored by UNK's row (Model.addWide), so its whole dz goes to unk
+// instead, UNK's row gradient kept apart because UNK need not be one of
+// the batch's words. An empty wide (no wide path) is left alone.
+func wideGrad(ids, loc, pairs []int32, dz, wide, unk, big []float32) {
 	if len(wide) == 0 && len(unk) == 0 {
 		return
 	}
@@ -537,13 +576,16 @@ func wideGrad(ids, loc []int32, dz, wide, unk []float32) {
 		addTo(unk, dz)
 		return
 	}
-	inv, C := 1/float32(n), len(dz)
+	inv, C := 1/float32(n+len(pairs)), len(dz)
 	for p, id := range ids {
 		if id == corpus.PAD {
 			continue
 		}
 		li := int(loc[p])
 		axpy(inv, dz, wide[li*C:li*C+C])
+	}
+	for _, li := range pairs {
+		axpy(inv, dz, big[int(li)*C:int(li)*C+C])
 	}
 }
 
@@ -588,6 +630,10 @@ func (tr *trainer) reduce(_, lo, hi int) {
 	if tr.gWide != nil {
 		a, b = part(len(tr.th[0].wide))
 		sumInto(func(t *threadBuf) []float32 { return t.wide }, a, b)
+	}
+	if tr.gBig != nil {
+		a, b = part(len(tr.th[0].bigram))
+		sumInto(func(t *threadBuf) []float32 { return t.bigram }, a, b)
 	}
 }
 
@@ -650,6 +696,9 @@ func (tr *trainer) update() {
 	}
 	if tr.gWide != nil {
 		tr.unscatterWide()
+	}
+	if tr.gBig != nil {
+		tr.unscatterBigrams()
 	}
 	if s := tr.m.Config.MaxNorm; s > 0 {
 		maxNormRows(tr.m.OutW, tr.m.Config.NumFilters(), s)

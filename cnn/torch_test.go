@@ -37,6 +37,10 @@ type torchIn struct {
 	Labels  []int       `json:"labels"`
 	Drop    []float32   `json:"drop"`
 	Masked  []bool      `json:"masked"`
+	// The wide path with bigram weights (cases with Config.WideBigrams).
+	Wide       []float32 `json:"wide,omitempty"`
+	WideBigram []float32 `json:"wide_bigram,omitempty"`
+	BigramKeys []uint64  `json:"bigram_keys,omitempty"`
 }
 
 type torchOut struct {
@@ -48,13 +52,20 @@ type torchOut struct {
 	OutW   []float64   `json:"out_w"`
 	OutB   []float64   `json:"out_b"`
 	Torch  string      `json:"torch"`
+	Wide   []float64   `json:"wide"`
+	Bigram []float64   `json:"wide_bigram"`
 }
 
 // Logits, loss and every gradient of a batch agree with PyTorch (Debian's
 // python3-torch, float64, script cnn/testdata/torch_check.py) within 1e-4
 // relative with an absolute floor of 1e-6, on texts of different lengths in
 // one padded batch, including texts shorter than the widest filter, with
-// dropout scales and a masked filter.
+// dropout scales and a masked filter. Seeds 4 and 5 add the wide path with
+// bigram weights (Config.WideBigrams), which the script computes as the
+// prototype internal/recipesearch/pooling.py's wide2 variant does (a mean
+// over the words and the pairs found), with PAD and UNK inside texts and
+// an empty text (the unknown word's row); their tables' gradients agree
+// too.
 func TestTorchCrossCheck(t *testing.T) {
 	requirePython(t, "torch")
 	type tcase struct {
@@ -65,7 +76,7 @@ func TestTorchCrossCheck(t *testing.T) {
 	}
 	var cases []tcase
 	var ins []torchIn
-	for seed := uint64(1); seed <= 3; seed++ {
+	for seed := uint64(1); seed <= 5; seed++ {
 		m := randModel(seed, 25, 10, []int{2, 3, 5}, 4, 3)
 		m.Masked = make([]bool, m.Config.NumFilters())
 		m.Masked[int(seed)] = true
@@ -87,6 +98,10 @@ func TestTorchCrossCheck(t *testing.T) {
 		}
 		in := torchIn{Vocab: 25, Dim: 10, Filters: 4, Classes: 3, Widths: m.Config.Widths, Emb: m.Emb,
 			OutW: m.OutW, OutB: m.OutB, Texts: texts, Labels: labels, Drop: drop, Masked: m.Masked}
+		if seed >= 4 {
+			withBigrams(t, m, texts[3:], seed, 1) // texts[2]'s pairs may lie outside the set
+			in.Wide, in.WideBigram, in.BigramKeys = m.Wide, m.WideBigram, m.Bigrams
+		}
 		for _, c := range m.Convs {
 			in.ConvW = append(in.ConvW, c.W)
 			in.ConvB = append(in.ConvB, c.B)
@@ -139,6 +154,7 @@ func TestTorchCrossCheck(t *testing.T) {
 				}
 			}
 			m.Head(h, logits[i*3:(i+1)*3])
+			m.addWide(texts[i], logits[i*3:(i+1)*3])
 		}
 		cmp("logits", logits, ref.Logits)
 		cmp("grad Emb", tr.gEmb, ref.Emb)
@@ -148,6 +164,13 @@ func TestTorchCrossCheck(t *testing.T) {
 		}
 		cmp("grad OutW", tr.th[0].ow, ref.OutW)
 		cmp("grad OutB", tr.th[0].ob, ref.OutB)
+		if m.Config.WideBigrams {
+			if len(m.Bigrams) < 5 {
+				t.Fatalf("seed %d: %d bigrams: too few to check their table", seed, len(m.Bigrams))
+			}
+			cmp("grad Wide", tr.gWide, ref.Wide)
+			cmp("grad WideBigram", tr.gBig, ref.Bigram)
+		}
 		if ci == 0 {
 			t.Logf("compared with torch %s", ref.Torch)
 		}

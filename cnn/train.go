@@ -423,7 +423,7 @@ func finiteWeights(m *Model) bool {
 		}
 		return true
 	}
-	ok := finite(m.Emb) && finite(m.OutW) && finite(m.OutB) && finite(m.Wide)
+	ok := finite(m.Emb) && finite(m.OutW) && finite(m.OutB) && finite(m.Wide) && finite(m.WideBigram)
 	if l := m.Char; l != nil {
 		ok = ok && finite(l.Emb) && finite(l.W) && finite(l.B)
 	}
@@ -483,6 +483,7 @@ func copyWeights(dst, src *Model) *Model {
 	copy(dst.OutW, src.OutW)
 	copy(dst.OutB, src.OutB)
 	copy(dst.Wide, src.Wide)
+	copy(dst.WideBigram, src.WideBigram)
 	if src.Char != nil {
 		copy(dst.Char.Emb, src.Char.Emb)
 		copy(dst.Char.W, src.Char.W)

@@ -74,7 +74,7 @@ func TestNoWideFileUnchanged(t *testing.T) {
 	if bytes.Contains(f.header, []byte(`"wide"`)) {
 		t.Error(`the header of a model without the wide path has a "wide" member`)
 	}
-	if want := numWeights(m.Config); f.nw != uint64(want) || m.Wide != nil {
+	if want := numWeights(m.Config, 0); f.nw != uint64(want) || m.Wide != nil {
 		t.Errorf("%d weights stored, want %d", f.nw, want)
 	}
 }

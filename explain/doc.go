@@ -48,7 +48,11 @@
 // the unknown word's weights). So a word's own wide
 // weights are not given either, only their difference from the unknown
 // word's (Shares.Words), the unknown word's going with the output bias;
-// a second property test asserts invariance under that shift too.
+// a second property test asserts invariance under that shift too. With
+// bigram weights (cnn.Config.WideBigrams) the mean also runs over the
+// text's pairs of adjacent words found in the model's set, the shift moves
+// every pair's weights too, and each found pair's part (its difference
+// from the unknown word's weights) is split evenly between its two tokens.
 //
 // # Why a text got its label
 //

@@ -26,7 +26,9 @@ import (
 // stays put under it too, the occlusion drops and kept-down edits that
 // remove every word of the text included: a text with no word left is
 // scored by the unknown word's wide row, which that change moves with the
-// output biases (cnn.Model.AddWide).
+// output biases (cnn.Model.AddWide). With bigram weights the change moves
+// every bigram row too, and an edit that replaces a word by PAD takes its
+// found pairs out of the mean with it.
 type Explanation struct {
 	Tokens        []TokenSpan   `json:"tokens"`
 	Label         string        `json:"label"`

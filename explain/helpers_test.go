@@ -62,6 +62,31 @@ func withWide(m *cnn.Model, seed uint64) *cnn.Model {
 	return m
 }
 
+// withBigrams turns the wide path of m on (withWide) with bigram weights:
+// each pair of word ids (neither PAD nor UNK) is in the set with
+// probability 0.3, so random texts hold some, and the table is seeded
+// random like the word rows. It returns m.
+func withBigrams(t testing.TB, m *cnn.Model, seed uint64) *cnn.Model {
+	t.Helper()
+	m = withWide(m, seed)
+	rng := rand.New(rand.NewPCG(seed, 0xb16))
+	var keys []uint64
+	for a := int32(2); int(a) < m.Config.VocabSize; a++ {
+		for b := int32(2); int(b) < m.Config.VocabSize; b++ {
+			if rng.Float64() < 0.3 {
+				keys = append(keys, cnn.BigramKey(a, b))
+			}
+		}
+	}
+	if err := m.SetBigrams(keys); err != nil {
+		t.Fatal(err)
+	}
+	for i := range m.WideBigram {
+		m.WideBigram[i] = float32(rng.NormFloat64())
+	}
+	return m
+}
+
 // randomConfig draws a small architecture.
 func randomConfig(rng *rand.Rand) cnn.Config {
 	widths := []int{}

@@ -131,16 +131,20 @@ func sameShown(t *testing.T, m, s *cnn.Model, ids []int32, opt ExplainOptions, w
 }
 
 // wideShifted returns a copy of m with the vector a added to every word's
-// row of the wide table but PAD's and subtracted from the output biases.
-// The wide term of a text with N ≥ 1 words is the mean of N rows, that of
-// a text with none UNK's row, so it gains exactly a and every logit stays
-// put; nothing in the data pins a down, so an identified number must not
-// move.
+// row of the wide table but PAD's, and to every bigram row
+// (cnn.Config.WideBigrams), and subtracted from the output biases. The
+// wide term of a text with N ≥ 1 words and M found pairs is the mean of
+// N+M rows, that of a text with none UNK's row, so it gains exactly a and
+// every logit stays put; nothing in the data pins a down, so an
+// identified number must not move.
 func wideShifted(m *cnn.Model, a []float32) *cnn.Model {
 	s := m.Clone()
 	C := m.Config.Classes
 	for i := C; i < len(s.Wide); i++ {
 		s.Wide[i] += a[i%C]
+	}
+	for i := range s.WideBigram {
+		s.WideBigram[i] += a[i%C]
 	}
 	for c := range s.OutB {
 		s.OutB[c] -= a[c]
@@ -154,12 +158,16 @@ func wideShifted(m *cnn.Model, a []float32) *cnn.Model {
 // word), of two words (so does the window of two) and of six words or more
 // (every edit leaves a word): a text with no word left is scored by the
 // unknown word's row, which the shift moves with the output biases (see
-// Explanation).
+// Explanation). Every other model has bigram weights, whose rows the
+// shift moves too.
 func TestShownNumbersInvariantWideShift(t *testing.T) {
 	rng := rand.New(rand.NewPCG(34, 34))
-	checked, words := 0, 0.0
+	checked, words, pairs := 0, 0.0, 0
 	for trial := 0; trial < 40; trial++ {
 		m := withWide(randomModel(rng, randomConfig(rng)), uint64(100+trial))
+		if trial%4 >= 2 {
+			m = withBigrams(t, m, uint64(100+trial))
+		}
 		var st *SlotTable
 		if trial%2 == 0 {
 			st = mustTable(t, m, TableOptions{})
@@ -186,6 +194,7 @@ func TestShownNumbersInvariantWideShift(t *testing.T) {
 				for _, v := range e.LogOdds.Words {
 					words += math.Abs(v)
 				}
+				pairs += len(foundPairs(m, ids))
 			}
 		}
 	}
@@ -195,6 +204,22 @@ func TestShownNumbersInvariantWideShift(t *testing.T) {
 	if words == 0 {
 		t.Fatal("every word's wide part is zero: the check checked nothing of the wide path")
 	}
+	if pairs < 100 {
+		t.Fatalf("only %d bigrams found in the texts checked: too few to check their rows", pairs)
+	}
+}
+
+// foundPairs lists the positions t of the pairs (ids[t], ids[t+1]) found
+// in m's bigram keys, by binary search in the sorted keys (not the
+// model's index); nil without bigram weights.
+func foundPairs(m *cnn.Model, ids []int32) []int {
+	var out []int
+	for t := 0; t+1 < len(ids) && m.Config.WideBigrams; t++ {
+		if _, ok := slices.BinarySearch(m.Bigrams, uint64(ids[t])<<32|uint64(ids[t+1])); ok {
+			out = append(out, t)
+		}
+	}
+	return out
 }
 
 // Every shown number is invariant when a constant is added to one filter's
@@ -291,13 +316,17 @@ func checkIdentities(t *testing.T, m *cnn.Model, ids []int32, e *Explanation) {
 // checkWideParts checks the wide path's parts of every split quantity
 // against their definition, written out from the model layout: the output
 // bias holds Σ_c v_c·(OutB[c] + Wide[UNK][c]) for every text, token
-// i's wide part is Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N (0 for PAD), it
-// is in the token's share next to what its slot scores give, and integrated
-// gradients carry the same parts (their baseline the unknown word's).
+// i's wide part is Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N (0 for PAD),
+// plus, with bigram weights, half of Σ_c v_c·(WideBigram[p][c] −
+// Wide[UNK][c])/N for each found pair p holding token i (N then counting
+// the words and the found pairs), it is in the token's share next to what
+// its slot scores give, and integrated gradients carry the same parts
+// (their baseline the unknown word's).
 func checkWideParts(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, all []Shares) {
 	t.Helper()
 	C := m.Config.Classes
-	n := 0
+	found := foundPairs(m, ids)
+	n := len(found)
 	for _, id := range ids {
 		if id != 0 {
 			n++
@@ -340,6 +369,14 @@ func checkWideParts(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, all
 			if id != 0 {
 				for c := range C {
 					want += v[c] * (float64(m.Wide[int(id)*C+c]) - float64(m.Wide[C+c])) / float64(n)
+				}
+			}
+			for _, p := range found {
+				if p == i || p+1 == i {
+					row := m.BigramRow(ids[p], ids[p+1])
+					for c := range C {
+						want += v[c] * (float64(row[c]) - float64(m.Wide[C+c])) / float64(2*n)
+					}
 				}
 			}
 			if !testref.Close(s.Words[i], want, 1e-9, 1e-9) || !testref.Close(s.Tokens[i], slotParts[i]+want, 1e-9, 1e-9) {

@@ -15,7 +15,8 @@ package explain
 // the unknown word (the identified reference; see Shares): token i gets
 // Words[i] = Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N, and the Baseline
 // holds the rest, Σ_c v_c·Wide[UNK][c], for every text (one whose every
-// token is PAD has that term alone).
+// token is PAD has that term alone); bigram weights are split as in
+// Shares.
 type IGShares struct {
 	Class   int     `json:"class"`
 	Against int     `json:"against"`

@@ -187,9 +187,11 @@ func (o *occluder) apply(lo, hi int, keep func(i int) bool) {
 
 // wideEdit moves o.z by the change of the wide path's term when the tokens
 // i in lo … hi with keep(i) false (all of them when keep is nil) are
-// replaced by PAD: k of the text's N words leave, so the term S/N becomes
-// (S − R)/(N − k), R the sum of their rows, or the unknown word's row when
-// no word is left. It costs O(k·Classes), not a pass over the text.
+// replaced by PAD: k of the text's N words and pairs leave (a found pair
+// leaves with either of its words: PAD pairs with nothing), so the term
+// S/N becomes (S − R)/(N − k), R the sum of their rows, or the unknown
+// word's row when no word is left. It costs O(k·Classes), not a pass over
+// the text.
 func (o *occluder) wideEdit(lo, hi int, keep func(i int) bool) {
 	w := o.e.wide
 	if w.n == 0 {
@@ -198,14 +200,25 @@ func (o *occluder) wideEdit(lo, hi int, keep func(i int) bool) {
 	m := o.r.st.m
 	ids := o.r.x
 	clear(o.removed)
+	gone := func(i int) bool {
+		return i >= lo && i <= hi && ids[i] != corpus.PAD && (keep == nil || !keep(i))
+	}
 	k := 0
 	for i := lo; i <= hi; i++ {
-		if ids[i] == corpus.PAD || (keep != nil && keep(i)) {
+		if !gone(i) {
 			continue
 		}
 		k++
 		for c, v := range m.WideRow(ids[i]) {
 			o.removed[c] += float64(v)
+		}
+	}
+	for t := max(lo-1, 0); t <= hi && t < len(w.pair); t++ {
+		if w.pair[t] >= 0 && (gone(t) || gone(t+1)) {
+			k++
+			for c, v := range m.BigramRow(ids[t], ids[t+1]) {
+				o.removed[c] += float64(v)
+			}
 		}
 	}
 	if k == 0 {

@@ -40,6 +40,11 @@ const (
 // its difference from the unknown word's row: token i's wide part is
 // Words[i] = Σ_c v_c·(Wide[x_i][c] − Wide[UNK][c])/N (0 for PAD), and the
 // constant Σ_c v_c·Wide[UNK][c] goes with the output bias, for every N.
+// With bigram weights (cnn.Config.WideBigrams) N counts the text's M found
+// pairs of adjacent ids too, the same shift moves every bigram row, and
+// the part Σ_c v_c·(WideBigram[p][c] − Wide[UNK][c])/N of each found pair
+// p goes half to each of its two tokens' Words, so the shares still sum to
+// Value exactly.
 type Shares struct {
 	Class   int `json:"class"`
 	Against int `json:"against"` // a class, or AgainstMean (−1)

@@ -3,6 +3,7 @@ package explain
 import (
 	"context"
 	"encoding/json"
+	"fmt"
 	"math/rand/v2"
 	"testing"
 
@@ -15,15 +16,21 @@ import (
 // the wide term's mean), texts of one word, texts of PAD only, and windows
 // that replace every word. Those leave the unknown word's row as the wide
 // term: the window of the text's length is also checked against the model
-// written out from that definition (noWordLeft).
+// written out from that definition (noWordLeft). Every other model has
+// bigram weights: an edit takes out the found pairs of the words it
+// replaces, and leaves no pair behind the PAD it puts in.
 func TestWideOcclusionBruteForce(t *testing.T) {
 	rng := rand.New(rand.NewPCG(35, 35))
-	allGone := 0
+	allGone, pairs := 0, 0
 	for trial := 0; trial < 40; trial++ {
 		m := withWide(randomModel(rng, randomConfig(rng)), uint64(200+trial))
+		if trial%2 == 1 {
+			m = withBigrams(t, m, uint64(200+trial))
+		}
 		st := mustTable(t, m, TableOptions{})
 		plain := m.Clone()
 		plain.Config.Wide, plain.Wide = false, nil
+		plain.Config.WideBigrams, plain.Bigrams, plain.WideBigram = false, nil, nil
 		for range 12 {
 			ids := make([]int32, rng.IntN(13))
 			for i := range ids {
@@ -40,6 +47,7 @@ func TestWideOcclusionBruteForce(t *testing.T) {
 			checkOcclusion(t, m, ids, e)
 			checkKeptDown(t, m, ids, e, 3)
 			checkIdentities(t, m, ids, e)
+			pairs += len(foundPairs(m, ids))
 			if words(ids) > 0 {
 				allGone++ // the window of the text's length replaces every word
 				checkNoWordLeft(t, m, plain, ids, e)
@@ -48,6 +56,9 @@ func TestWideOcclusionBruteForce(t *testing.T) {
 	}
 	if allGone < 300 {
 		t.Fatalf("only %d texts with a word", allGone)
+	}
+	if pairs < 100 {
+		t.Fatalf("only %d bigrams found in the texts: too few to check their edits", pairs)
 	}
 }
 
@@ -93,10 +104,20 @@ func words(ids []int32) int {
 // output biases (see Explanation). Texts hold no word twice: removing one
 // or the other copy of a word gives the same probability up to float
 // rounding, and the Wilcoxon test's p then counts such a difference as
-// zero or not by that rounding alone.
+// zero or not by that rounding alone. With bigram weights too, their rows
+// shifted with the words'.
 func TestFaithfulnessWideShift(t *testing.T) {
+	for _, bigrams := range []bool{false, true} {
+		t.Run(fmt.Sprint("bigrams=", bigrams), func(t *testing.T) { faithfulnessWideShift(t, bigrams) })
+	}
+}
+
+func faithfulnessWideShift(t *testing.T, bigrams bool) {
 	rng := rand.New(rand.NewPCG(36, 36))
 	m := withWide(randomModel(rng, randomConfig(rng)), 36)
+	if bigrams {
+		m = withBigrams(t, m, 36)
+	}
 	ids := make([][]int32, 40)
 	gold := make([]int, len(ids))
 	for i := range ids {

@@ -27,6 +27,9 @@ type recipeForm struct {
 	// wide: the word-weight path beside the filters (cnn.Config.Wide,
 	// train --wide, its learning rate cnn.DefaultWideLR times the rest's).
 	wide binding.Bool
+	// wideBigrams: bigram weights in the word-weight path
+	// (cnn.Config.WideBigrams, train --wide-bigrams); only with wide.
+	wideBigrams binding.Bool
 }
 
 // The class weights the form offers, as `telltale train --class-weight`
@@ -47,6 +50,7 @@ func newRecipeForm() *recipeForm {
 	r.baseline = binding.NewBool()
 	r.chars = binding.NewBool()
 	r.wide = binding.NewBool()
+	r.wideBigrams = binding.NewBool()
 	r.reset()
 	return r
 }
@@ -87,6 +91,7 @@ func (r *recipeForm) reset() {
 	_ = r.baseline.Set(d.Baseline != nil)
 	_ = r.chars.Set(d.Model.Chars != nil)
 	_ = r.wide.Set(d.Model.Wide)
+	_ = r.wideBigrams.Set(d.Model.WideBigrams)
 }
 
 // fieldErrors collects the form's problems, each naming its field and the fix.
@@ -182,6 +187,9 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 	}
 	if rec.Model.Wide, _ = r.wide.Get(); rec.Model.Wide {
 		rec.Train.WideLR = cnn.DefaultWideLR
+	}
+	if rec.Model.WideBigrams, _ = r.wideBigrams.Get(); rec.Model.WideBigrams && !rec.Model.Wide {
+		fe = append(fe, fmt.Errorf("word pairs get weights in the word-weight path: check Word weights too, or uncheck Word pairs"))
 	}
 	plan := r.readPlan(&fe)
 	rec.Train.Seed = plan.Seed

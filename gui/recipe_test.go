@@ -2,6 +2,7 @@ package gui
 
 import (
 	"reflect"
+	"strings"
 	"testing"
 
 	"telltale/cnn"
@@ -58,5 +59,34 @@ func TestRecipeFormWide(t *testing.T) {
 	r.reset()
 	if rec, _, err = r.parse(false); err != nil || rec.Model.Wide != def.Model.Wide {
 		t.Errorf("after reset the form asks for the wide path %v (%v)", rec.Model.Wide, err)
+	}
+}
+
+// The form's "Word pairs" check asks for bigram weights as `telltale train
+// --wide --wide-bigrams` does, and, as train refuses --wide-bigrams without
+// --wide, is refused without "Word weights", naming both checks.
+func TestRecipeFormWideBigrams(t *testing.T) {
+	r := newRecipeForm()
+	if on, _ := r.wideBigrams.Get(); on != cnn.DefaultRecipe().Model.WideBigrams {
+		t.Fatalf("the form starts with bigram weights %v", on)
+	}
+	_ = r.wideBigrams.Set(true)
+	_ = r.wide.Set(false)
+	if _, _, err := r.parse(false); err == nil || !strings.Contains(err.Error(), "Word weights") || !strings.Contains(err.Error(), "Word pairs") {
+		t.Errorf("word pairs without word weights: error %v, want one naming both checks", err)
+	}
+	_ = r.wide.Set(true)
+	rec, _, err := r.parse(false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := cnn.DefaultRecipe()
+	want.Model.Wide, want.Model.WideBigrams, want.Train.WideLR = true, true, cnn.DefaultWideLR
+	if !reflect.DeepEqual(rec, want) {
+		t.Errorf("with both checks: %+v, want %+v", rec.Model, want.Model)
+	}
+	r.reset()
+	if on, _ := r.wideBigrams.Get(); on {
+		t.Error("Defaults leave the word pairs checked")
 	}
 }

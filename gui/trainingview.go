@@ -57,6 +57,7 @@ func (v *trainingView) recipeForm() *widget.Form {
 	baseline := widget.NewCheckWithData("fit beside the CNN", r.baseline)
 	chars := widget.NewCheckWithData("and characters", r.chars)
 	wide := widget.NewCheckWithData("beside the filters", r.wide)
+	pairs := widget.NewCheckWithData("with word weights", r.wideBigrams)
 	items := []*widget.FormItem{
 		entry(r.widths, ""), entry(r.maps, ""), entry(r.dim, ""), entry(r.epochs, ""),
 		entry(r.patience, "0 never stops early"), entry(r.dropout, ""), entry(r.maxNorm, "0 is off"),
@@ -66,12 +67,14 @@ func (v *trainingView) recipeForm() *widget.Form {
 		{Widget: weight, HintText: "balanced: imbalanced labels"}, {Widget: baseline, HintText: "TF-IDF + logistic regression"},
 		{Widget: chars, HintText: "slower; unseen words"},
 		{Widget: wide, HintText: "a weight per word and label"},
+		{Widget: pairs, HintText: "a weight per word pair and label"},
 		entry(r.seed, "splits, initialisation, shuffling"),
 		entry(r.devFrac, "share of the data"), entry(r.testFrac, "share of the data"),
 	}
 	names := []string{"Filter widths", "Feature maps per width", "Embedding dimension", "Epochs (at most)",
 		"Patience (epochs)", "Dropout", "Max-norm of output rows", "Optimizer", "Learning rate", "Batch size",
-		"Least word count", "Token dropout", "Word dropout", "Class weight", "Linear baseline", "Word vectors", "Word weights", "Seed", "Dev share", "Test share"}
+		"Least word count", "Token dropout", "Word dropout", "Class weight", "Linear baseline", "Word vectors", "Word weights",
+		"Word pairs", "Seed", "Dev share", "Test share"}
 	for i, it := range items {
 		it.Text = names[i]
 	}

@@ -58,8 +58,9 @@ type recipeView struct {
 	Epochs      []epochRow
 	Created     string
 	// Chars and Wide say whether the word vectors have a character part
-	// and the logits a word-weight term, for the lead sentence.
-	Chars, Wide bool
+	// and the logits a word-weight term, Bigrams whether that term has
+	// weights for pairs of adjacent words too, for the lead sentence.
+	Chars, Wide, Bigrams bool
 }
 
 type epochRow struct {
@@ -172,6 +173,10 @@ func recipe(in Input) recipeView {
 	if c.Wide {
 		rv.Wide = true
 		rv.Arch = append(rv.Arch, kv{"Word weights beside the filters", "yes: the mean over the text's words of one weight per word and label, added to the logits"})
+	}
+	if c.WideBigrams {
+		rv.Bigrams = true
+		rv.Arch = append(rv.Arch, kv{"Word-pair weights", fmt.Sprintf("yes: %s pairs of adjacent words of the training split, each with one weight per label, in the same mean", count(len(m.Bigrams)))})
 	}
 	if masked := maskedCount(m.Masked); masked > 0 {
 		rv.Arch = append(rv.Arch, kv{"Masked filters", fmt.Sprint(masked)})

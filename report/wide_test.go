@@ -2,6 +2,7 @@ package report
 
 import (
 	"bytes"
+	"fmt"
 	"html"
 	"math"
 	"math/rand/v2"
@@ -201,5 +202,44 @@ func TestAuditWordWeights(t *testing.T) {
 		if named != wide || part != wide || (av.MaskCommand == "") != wide {
 			t.Errorf("word weights %v: action %q, command %q, cue %q", wide, av.Mask, av.MaskCommand, ev.Filters)
 		}
+	}
+}
+
+// TestRecipeWideBigrams: the recipe of a model with bigram weights (the
+// demo fixture's model with a wide table and the bigram set of one text)
+// names them with the number of pairs, and the page's lead sentence says
+// that the mean runs over word pairs too; a model without them has
+// neither.
+func TestRecipeWideBigrams(t *testing.T) {
+	d := loadDemo(t)
+	m, _, ids, _ := wideExplained(t, d)
+	if p := recipe(Input{Model: m}); p.Bigrams {
+		t.Error("a model without bigram weights: the recipe says it has them")
+	}
+	keys := cnn.CollectBigrams([][]int32{ids})
+	if err := m.SetBigrams(keys); err != nil {
+		t.Fatal(err)
+	}
+	p := recipe(Input{Model: m})
+	want := fmt.Sprintf("yes: %d pairs of adjacent words of the training split", len(keys))
+	found := false
+	for _, r := range p.Arch {
+		found = found || (r.Key == "Word-pair weights" && strings.HasPrefix(r.Value, want))
+	}
+	if !p.Bigrams || !found || len(keys) == 0 {
+		t.Errorf("recipe of a model with %d bigrams: bigrams %v, architecture %v", len(keys), p.Bigrams, p.Arch)
+	}
+	in := d.input
+	in.Model = m
+	r, err := New(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := r.WriteHTML(&buf); err != nil {
+		t.Fatal(err)
+	}
+	if page := html.UnescapeString(buf.String()); !strings.Contains(page, "a weight per word and label and per pair of adjacent words seen in training, averaged over the text") {
+		t.Error("the page's lead does not name the word-pair weights")
 	}
 }

@@ -30,7 +30,9 @@
 // (package npy), which PyTorch users load without pickle, with the
 // vocabulary and the labels beside it. Masked filters are exported with
 // zero output weights, which gives exactly the masked model's logits; the
-// wide path's table (cnn.Config.Wide) as "wide.weight"; a character layer
+// wide path's table (cnn.Config.Wide) as "wide.weight", its bigram
+// weights (cnn.Config.WideBigrams) as "wide_bigram.weight" with their
+// pairs' keys "bigram_keys", which Import reads back; a character layer
 // (cnn.Config.Chars) as its weights, its alphabet and each word's character
 // ids, from which the module computes the character part of word vectors
 // as telltale does, for words outside the vocabulary too.

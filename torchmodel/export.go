@@ -39,11 +39,19 @@ func ExportFiles(m *cnn.Model, dir string) []string {
 //	output.bias        [Classes]
 //	wide.weight        [VocabSize, Classes]    nn.EmbeddingBag, mode="mean",
 //	                                           padding_idx=0 (Config.Wide only)
+//	wide_bigram.weight [Bigrams, Classes]      nn.Embedding (Config.WideBigrams only)
+//	bigram_keys        [Bigrams] int64         a buffer: the pairs' keys
 //
 // wide.weight is the wide path's word-weight table (cnn.Model.Wide, laid
 // out [word][class] as the bag's rows): the module adds the mean of the
 // rows of a text's non-padding ids to the logits, or the unknown word's row
-// (id 1) for a text with none, which is telltale's wide term. A masked filter's column of output.weight is zero: its pooled value, which
+// (id 1) for a text with none, which is telltale's wide term. With bigram
+// weights, wide_bigram.weight is cnn.Model.WideBigram and bigram_keys its
+// sorted keys a·2³²+b (cnn.BigramKey) of the pairs of adjacent ids (a, b):
+// the module's mean then runs over the text's non-padding ids and its
+// pairs found among the keys. A model whose bigram set is empty is
+// exported as one without bigram weights, whose logits are the same.
+// A masked filter's column of output.weight is zero: its pooled value, which
 // telltale holds at zero, then adds nothing to any logit, so the logits are
 // the same.
 //
@@ -86,6 +94,14 @@ func StateDict(m *cnn.Model) []npy.Array {
 	if cfg.Wide {
 		arrays = append(arrays, npy.Array{Name: WideKey, Shape: []int{cfg.VocabSize, cfg.Classes}, Data: m.Wide})
 	}
+	if n := len(m.Bigrams); cfg.WideBigrams && n > 0 {
+		keys := make([]int64, n)
+		for i, k := range m.Bigrams {
+			keys[i] = int64(k) // both ids are below 2³¹
+		}
+		arrays = append(arrays, npy.Array{Name: WideBigramKey, Shape: []int{n, cfg.Classes}, Data: m.WideBigram},
+			npy.Array{Name: BigramKeysKey, Shape: []int{n}, Ints: keys})
+	}
 	return arrays
 }
 
@@ -106,6 +122,14 @@ func toConv1d(src []float32, filters, width, dim int) []float32 {
 // WideKey is the state_dict key of the wide path's word-weight table, as
 // StateDict writes it and DetectLayout recognises it.
 const WideKey = "wide.weight"
+
+// WideBigramKey and BigramKeysKey are the state_dict keys of the bigram
+// weights of the wide path and of their pairs' keys, as StateDict writes
+// them.
+const (
+	WideBigramKey = "wide_bigram.weight"
+	BigramKeysKey = "bigram_keys"
+)
 
 // CanExport reports why m cannot be exported, or nil. Every model that
 // cnn.Load accepts can be; a character layer (Config.Chars) needs the

@@ -99,6 +99,12 @@ type Imported struct {
 // shorter than the widest filter, the only ones telltale pads. Longer texts
 // get exactly the logits they had.
 //
+// Bigram weights of the wide path (Layout.Bigrams, WideBigramKey with its
+// int64 keys BigramKeysKey, as Export writes them) are read as cnn.Model's
+// (cnn.Config.WideBigrams): the keys' ids move with the vocabulary's
+// reordering and the pairs are sorted again with their rows; a key holding
+// the padding or unknown token is refused.
+//
 // A character layer (Layout.Chars) is read as cnn.Model's: the table holds
 // the words' own columns, the character part of every word is computed
 // from the layer (cnn.Model.FillChars), and the words' character ids of the
@@ -127,6 +133,9 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 	}
 	if _, ok := sd.Tensors[charsConv]; ok && l.Chars == "" {
 		l.Chars = CharsPrefix // found by name, as DetectLayout finds it
+	}
+	if _, ok := sd.Tensors[WideBigramKey]; ok && l.Bigrams == "" {
+		l.Bigrams = WideBigramKey
 	}
 	w, err := mapWeights(sd, l, o.StateDict)
 	if err != nil {
@@ -169,6 +178,12 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 	}
 	if err := setChars(m, vocab, w.chars, o); err != nil {
 		return nil, err
+	}
+	if w.bigrams != nil {
+		pad, unk, _ := reservedIDs(vocab, o) // as reorder found them
+		if err := setBigrams(m, w.bigrams, newIDs(len(vocab), pad, unk), o.StateDict); err != nil {
+			return nil, err
+		}
 	}
 	sum, err := fileSHA256(o.StateDict)
 	if err != nil {

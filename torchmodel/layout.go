@@ -29,11 +29,15 @@ type Layout struct {
 	// (CharsPrefix, as StateDict writes it; see chars.go for its keys);
 	// optional. It needs exactly one embedding table.
 	Chars string
+	// Bigrams, when not empty, is the bigram weight table of the wide path
+	// (WideBigramKey, found by name as StateDict writes it, with its keys
+	// BigramKeysKey); optional, only with Wide.
+	Bigrams string
 }
 
 // IsZero reports whether no part is named.
 func (l Layout) IsZero() bool {
-	return len(l.Embeddings) == 0 && len(l.Convs) == 0 && l.Output == "" && l.Wide == "" && l.Chars == ""
+	return len(l.Embeddings) == 0 && len(l.Convs) == 0 && l.Output == "" && l.Wide == "" && l.Chars == "" && l.Bigrams == ""
 }
 
 // Complete reports whether every part but the optional wide table is named.
@@ -48,6 +52,9 @@ func (l Layout) String() string {
 	}
 	if l.Chars != "" {
 		s += "; characters " + l.Chars
+	}
+	if l.Bigrams != "" {
+		s += "; bigrams " + l.Bigrams
 	}
 	return s
 }
@@ -80,8 +87,14 @@ func DetectLayout(sd *statedict.StateDict, file string) (Layout, error) {
 	if _, ok := sd.Tensors[charsConv]; ok {
 		l.Chars = CharsPrefix
 	}
+	if _, ok := sd.Tensors[WideBigramKey]; ok {
+		l.Bigrams = WideBigramKey
+	}
 	for _, k := range sd.Keys {
 		t := sd.Tensors[k]
+		if l.Bigrams != "" && (k == WideBigramKey || k == BigramKeysKey) {
+			continue
+		}
 		if strings.HasPrefix(k, CharsPrefix+".") {
 			if l.Chars == "" {
 				return l, layoutErr(file, k, t, "part of a character layer without its filters %s: the layer needs the keys %s", charsConv, strings.Join(charsKeys, ", "))
@@ -238,6 +251,7 @@ type weights struct {
 	outW, outB    []float32
 	sigmoidOutput bool      // one output unit, read as two classes (logits 0 and z)
 	wide          []float32 // the wide path's table [word][class] (vocab × classes), or nil
+	bigrams       *bigramWeights
 	chars         *charWeights
 }
 
@@ -283,6 +297,9 @@ func mapWeights(sd *statedict.StateDict, l Layout, file string) (*weights, error
 			named[k] = true
 		}
 	}
+	if l.Bigrams != "" {
+		named[l.Bigrams], named[BigramKeysKey] = true, true
+	}
 	for _, k := range parts {
 		named[k] = true
 		if k != l.Wide { // the wide table has no bias
@@ -313,6 +330,9 @@ func mapWeights(sd *statedict.StateDict, l Layout, file string) (*weights, error
 		return nil, err
 	}
 	if err := w.wideTable(l, file, get); err != nil {
+		return nil, err
+	}
+	if err := w.bigramTable(sd, l, file, get); err != nil {
 		return nil, err
 	}
 	return w, nil

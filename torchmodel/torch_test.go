@@ -235,8 +235,10 @@ func TestImportMatchesTorch(t *testing.T) {
 // the wide path (train --wide), is exported and loaded by the README's
 // PyTorch module (testdata/telltale_cnn.py, run by testdata/export_check.py
 // with Debian's python3-torch; the wide table as nn.EmbeddingBag with
-// mode="mean" and padding_idx=0, which torch 1.13 leaves out of the mean).
-// On SpamAssassin texts, its logits equal telltale's to 1e-5: for
+// mode="mean" and padding_idx=0, which torch 1.13 leaves out of the mean),
+// and with bigram weights (train --wide-bigrams: the module finds a text's
+// pairs among bigram_keys by torch.searchsorted and takes the mean over
+// words and pairs). On SpamAssassin texts, its logits equal telltale's to 1e-5: for
 // telltale's token ids run in padded batches, and for the ASCII texts
 // encoded by the module's own encode(), whose ids must be telltale's. The
 // batches also hold an empty and an all-padding text, which the wide path
@@ -248,11 +250,12 @@ func TestExportMatchesTorch(t *testing.T) {
 	for i, s := range ms.train {
 		train.Examples = append(train.Examples, corpus.Example{Text: s, Label: ms.trainLab[i]})
 	}
-	for _, wide := range []bool{false, true} {
-		t.Run(fmt.Sprintf("wide=%v", wide), func(t *testing.T) {
+	for _, c := range []struct{ wide, bigrams bool }{{false, false}, {true, false}, {true, true}} {
+		wide := c.wide
+		t.Run(fmt.Sprintf("wide=%v,bigrams=%v", wide, c.bigrams), func(t *testing.T) {
 			r := cnn.DefaultRecipe()
 			r.Model.Dim, r.Model.Filters, r.Train.Epochs, r.Train.MaxLen, r.Train.Threads = 12, 6, 2, 150, 1
-			r.Model.Wide = wide
+			r.Model.Wide, r.Model.WideBigrams = wide, c.bigrams
 			tr, err := cnn.TrainText(context.Background(), train, nil, r, nil)
 			if err != nil {
 				t.Fatal(err)
@@ -260,6 +263,9 @@ func TestExportMatchesTorch(t *testing.T) {
 			m := tr.Model
 			if wide && !slices.ContainsFunc(m.Wide, func(v float32) bool { return v != 0 }) {
 				t.Fatal("the wide table is all zero after training: the check would not test it")
+			}
+			if c.bigrams && (len(m.Bigrams) < 1000 || !slices.ContainsFunc(m.WideBigram, func(v float32) bool { return v != 0 })) {
+				t.Fatalf("%d bigrams, their table all zero after training: the check would not test them", len(m.Bigrams))
 			}
 			m.Masked = make([]bool, m.Config.NumFilters())
 			m.Masked[0], m.Masked[7] = true, true
@@ -362,7 +368,8 @@ func checkSavedModule(t *testing.T, m *cnn.Model, path, vocab string, ids [][]in
 	if err != nil {
 		t.Fatalf("the module's state_dict saved by torch: %v", err)
 	}
-	if (m.Config.Chars != nil) != (res.Layout.Chars != "") || (m.Config.Wide) != (res.Layout.Wide != "") {
+	if (m.Config.Chars != nil) != (res.Layout.Chars != "") || (m.Config.Wide) != (res.Layout.Wide != "") ||
+		m.Config.WideBigrams != (res.Layout.Bigrams != "") {
 		t.Fatalf("the module's state_dict saved by torch: layout %s", res.Layout)
 	}
 	for i, x := range ids {

@@ -9,6 +9,12 @@ padded length L' = max(L, max width) masked with -inf before the max over
 time, ReLU, masked filters zeroed, fixed dropout scales, linear layer,
 cross_entropy averaged over the batch), and writes the logits, the loss and
 the gradient of every parameter of each case to DIR/out.json.
+
+A case with "wide" adds the wide path as internal/recipesearch/pooling.py's
+wide2 variant computes it: the word weights of the ids other than PAD and
+the weights of the pairs of adjacent ids found in "bigram_keys" (a * 2**32
++ b; neither id PAD or UNK), summed and divided by their number; a text
+with neither gets the unknown word's (id 1) weights, as telltale scores it.
 """
 import json
 import sys
@@ -48,6 +54,18 @@ def case(inp):
     if inp["drop"]:
         h = h * torch.tensor(inp["drop"], dtype=dt).reshape(h.shape)
     logits = F.linear(h, outW, outB)
+    wide = big = None
+    if inp.get("wide"):
+        wide = torch.tensor(inp["wide"], dtype=dt).reshape(V, C).requires_grad_()
+        keys = {k: r for r, k in enumerate(inp.get("bigram_keys") or [])}
+        if keys:
+            big = torch.tensor(inp["wide_bigram"], dtype=dt).reshape(len(keys), C).requires_grad_()
+        terms = []
+        for t in texts:
+            rows = [wide[x] for x in t if x != 0]
+            rows += [big[keys[a * 2**32 + b]] for a, b in zip(t, t[1:]) if a > 1 and b > 1 and a * 2**32 + b in keys]
+            terms.append(torch.stack(rows).mean(dim=0) if rows else wide[1])
+        logits = logits + torch.stack(terms)
     loss = F.cross_entropy(logits, torch.tensor(labels))
     loss.backward()
     out = {
@@ -60,6 +78,10 @@ def case(inp):
         "out_b": outB.grad.tolist(),
         "torch": torch.__version__,
     }
+    if wide is not None:
+        out["wide"] = wide.grad.flatten().tolist()
+    if big is not None:
+        out["wide_bigram"] = big.grad.flatten().tolist()
     return out
 
 

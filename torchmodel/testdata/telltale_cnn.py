@@ -50,13 +50,15 @@ class TelltaleCNN(nn.Module):
     embedding is zero), so a text's logits do not depend on its batch.
     A model trained with --wide adds the mean of its word weights over the
     text's ids other than 0, or the unknown word's (id 1) for a text with
-    none. A model trained with --chars appends to each word's row its
+    none; with --wide-bigrams the mean also runs over the weights of the
+    text's pairs of adjacent ids found in bigram_keys (a * 2**32 + b,
+    sorted). A model trained with --chars appends to each word's row its
     character part; forward(ids, lengths, chars) takes the tokens'
     character ids (batch, length, row), as encode(..., chars=True) gives
     them, so that unknown words get theirs rather than none.
     """
 
-    def __init__(self, vocab_size, dim, widths, filters, classes, wide=False, chars=None):
+    def __init__(self, vocab_size, dim, widths, filters, classes, wide=False, chars=None, bigrams=0):
         super().__init__()
         self.embedding = nn.Embedding(vocab_size, dim, padding_idx=0)
         self.chars = None
@@ -68,6 +70,10 @@ class TelltaleCNN(nn.Module):
         self.wide = None
         if wide:
             self.wide = nn.EmbeddingBag(vocab_size, classes, mode="mean", padding_idx=0)
+        self.wide_bigram = None
+        if bigrams:
+            self.wide_bigram = nn.Embedding(bigrams, classes)
+            self.register_buffer("bigram_keys", torch.zeros(bigrams, dtype=torch.long))
 
     @classmethod
     def load(cls, folder):
@@ -81,7 +87,8 @@ class TelltaleCNN(nn.Module):
         if "chars.conv.weight" in state:
             filters, char_dim, width = state["chars.conv.weight"].shape
             chars = (len(state["chars.alphabet"]), state["chars.word_chars"].shape[1], char_dim, filters, width)
-        model = cls(vocab_size, dim, widths, features // n, classes, "wide.weight" in state, chars)
+        bigrams = state["wide_bigram.weight"].shape[0] if "wide_bigram.weight" in state else 0
+        model = cls(vocab_size, dim, widths, features // n, classes, "wide.weight" in state, chars, bigrams)
         model.load_state_dict(state)
         with open(f"{folder}/vocab.txt", encoding="utf-8") as f:
             model.vocab = {w: i for i, w in enumerate(f.read().split("\n")[:-1])}
@@ -131,5 +138,18 @@ class TelltaleCNN(nn.Module):
         logits = self.output(torch.cat(pooled, dim=1))
         if self.wide is not None:
             none = (ids == 0).all(dim=1, keepdim=True)  # padding_idx leaves id 0 out of the mean
-            logits = logits + torch.where(none, self.wide.weight[1], self.wide(ids))
+            mean = self.wide(ids) if self.wide_bigram is None else self.bigram_mean(ids)
+            logits = logits + torch.where(none, self.wide.weight[1], mean)
         return logits
+
+    def bigram_mean(self, ids):
+        """The mean of the word weights of ids other than 0 and the weights
+        of their pairs of adjacent ids found in bigram_keys (neither id 0
+        nor 1)."""
+        words = (ids != 0).sum(dim=1, keepdim=True)
+        a, b = ids[:, :-1], ids[:, 1:]
+        key = a * 2**32 + b
+        row = torch.searchsorted(self.bigram_keys, key).clamp(max=len(self.bigram_keys) - 1)
+        found = (a > 1) & (b > 1) & (self.bigram_keys[row] == key)
+        total = self.wide(ids) * words + (self.wide_bigram(row) * found[..., None]).sum(dim=1)
+        return total / (words + found.sum(dim=1, keepdim=True)).clamp(min=1)
