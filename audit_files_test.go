@@ -102,10 +102,10 @@ func TestAuditHeldoutFilesAndMarks(t *testing.T) {
 	})
 
 	t.Run("models of another recipe", func(t *testing.T) {
-		other := smallTestFileModel(t, t.TempDir(), "wide.tt", "--wide")
+		other := smallTestFileModel(t, t.TempDir(), "kim.tt", "--wide=false")
 		code, _, stderr := tt(t, append(base, "--models", other)...)
 		noCrash(t, "audit", stderr)
-		if code != 2 || !strings.Contains(stderr, "--models "+other+" was not trained with the recipe of --model (wide false for --model, true for it)") {
+		if code != 2 || !strings.Contains(stderr, "--models "+other+" was not trained with the recipe of --model (wide true for --model, false for it)") {
 			t.Errorf("exit %d, stderr %q", code, stderr)
 		}
 	})

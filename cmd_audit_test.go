@@ -458,7 +458,7 @@ func TestRetrainArgs(t *testing.T) {
 	got := src.retrainCommands([]string{"/(?i)\\btkref\\b/", "it's"})
 	want := []string{`printf '%s\n' '/(?i)\btkref\b/' 'it'\''s' > out/m.cues`,
 		"telltale train --data 'my data.csv' --dev-frac 0.2 --seed 7 --text-col body --mail subject-body --relabel spam-1=spam,easy-ham-1=ham " +
-			"--dim 64 --widths 2,3 --dropout 0.3 --max-norm 3 --lower=false --min-count 2 --epochs 5 --patience 0 --mask-tokens out/m.cues --out out/m-without.tt"}
+			"--dim 64 --widths 2,3 --dropout 0.3 --max-norm 3 --lower=false --min-count 2 --epochs 5 --patience 0 --wide=false --mask-tokens out/m.cues --out out/m-without.tt"}
 	if !slices.Equal(got, want) {
 		t.Errorf("commands\n%q\nwant\n%q", got, want)
 	}
@@ -475,18 +475,17 @@ func TestRetrainArgs(t *testing.T) {
 	if got := recipeArgs(dm); len(got) != 0 {
 		t.Errorf("the default recipe gives %q", got)
 	}
-	// What train's own options would set: the word weights with train's
-	// factor and with the rest's rate (recorded as 0), the character layer
-	// (its columns are not --dim's), the dropouts and class weights.
+	// What train's own options would set: no word weights (and so no
+	// bigram weights), the word weights at the rest's rate (recorded as 0),
+	// the words' weights alone, the character layer (its columns are not
+	// --dim's), the dropouts and class weights.
 	for _, c := range []struct {
 		edit func(m *cnn.Model)
 		want string
 	}{
-		{func(m *cnn.Model) { m.Config.Wide, m.Info.Recipe.WideLR = true, cnn.DefaultWideLR }, "--wide=true"},
-		{func(m *cnn.Model) { m.Config.Wide, m.Info.Recipe.WideLR = true, 0 }, "--wide=true --wide-lr 1"},
-		{func(m *cnn.Model) {
-			m.Config.Wide, m.Config.WideBigrams, m.Info.Recipe.WideLR = true, true, cnn.DefaultWideLR
-		}, "--wide=true --wide-bigrams=true"},
+		{func(m *cnn.Model) { m.Config.Wide, m.Config.WideBigrams, m.Info.Recipe.WideLR = false, false, 0 }, "--wide=false"},
+		{func(m *cnn.Model) { m.Info.Recipe.WideLR = 0 }, "--wide-lr 1"},
+		{func(m *cnn.Model) { m.Config.WideBigrams = false }, "--wide-bigrams=false"},
 		{func(m *cnn.Model) {
 			m.Config.Chars = &cnn.CharConfig{Filters: cnn.DefaultCharFilters, Width: cnn.DefaultCharWidth}
 			m.Config.Dim += cnn.DefaultCharFilters

@@ -362,7 +362,9 @@ func recipeArgs(m *cnn.Model) []string {
 		// The recipe's 0 means the rest's rate, which train writes as 1.
 		opt(true, "wide-lr", fmtFloat(cmp.Or(r.WideLR, 1)))
 	}
-	boolOpt(c.WideBigrams != dc.WideBigrams, "wide-bigrams", c.WideBigrams)
+	if c.Wide { // --wide=false turns the bigram weights off too
+		boolOpt(c.WideBigrams != dc.WideBigrams, "wide-bigrams", c.WideBigrams)
+	}
 	return args
 }
 

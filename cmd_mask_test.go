@@ -13,14 +13,15 @@ import (
 	"telltale/internal/testref"
 )
 
-// wideTinyModel trains a small model with word weights (train --wide) on
+// wideTinyModel trains a small model with word weights alone (train
+// --wide-bigrams=false) on
 // part of the demo corpus and returns the path of its file.
 func wideTinyModel(t *testing.T) string {
 	t.Helper()
 	dir := t.TempDir()
 	data := demoPart(t, dir, 400)
 	model := filepath.Join(dir, "wide.tt")
-	if code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--wide", "--quiet"); code != 0 {
+	if code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--wide-bigrams=false", "--quiet"); code != 0 {
 		t.Fatalf("train: exit %d: %s", code, stderr)
 	}
 	return model

@@ -19,7 +19,7 @@ var cmdTrain = &command{
 		"               [--text-col C] [--label-col C] [--epochs N] [--batch N] [--dim N] [--widths 3,4,5] [--maps N]\n" +
 		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--vectors FILE] [--freeze]\n" +
 		"               [--min-count N] [--subword] [--class-weight none|balanced] [--word-dropout A] [--token-dropout P]\n" +
-		"               [--chars [--char-maps N] [--char-width W]] [--wide [--wide-lr F] [--wide-bigrams]]\n" +
+		"               [--chars [--char-maps N] [--char-width W]] [--wide=false | --wide-bigrams=false] [--wide-lr F]\n" +
 		"               [--baseline=false] [--mask-tokens FILE] [--seed N] [--threads N] [--force] [--json]",
 	Short: "train a sentence CNN on labeled data and save the model",
 	Long: `Train builds a vocabulary from the training split, trains the convolutional
@@ -51,17 +51,17 @@ al. 2016), --word-dropout α replaces a word seen #w times with probability
 α/(#w+α) (Kiperwasser & Goldberg 2016), so that the unknown word's vector
 is trained on what unknown words are like.
 
---wide adds a word-weight path beside the filters: each vocabulary word has
+The default recipe has a word-weight path beside the filters: each
+vocabulary word and each pair of adjacent words of the training split has
 one weight per label, and the mean of those weights over the text's words
-is added to the logits (the linear part of Wide & Deep, Cheng et al. 2016;
-the averaged word features of Joulin et al. 2017), trained with the rest;
---wide-lr F multiplies its learning rate (default 100: at the rest's rate the
-weights hardly move before early stopping). It combines with --chars.
---wide-bigrams (with --wide) gives every pair of adjacent words of the
-training split weights too, the mean running over the text's words and its
-pairs seen in training (the bigram features of Joulin et al. 2017); in
-every batch each pair of a training text is left out with the
---token-dropout probability, by a draw of its own.
+and its pairs seen in training is added to the logits (the linear part of
+Wide & Deep, Cheng et al. 2016; the averaged word and bigram features of
+Joulin et al. 2017), trained with the rest; in every batch each pair of a
+training text is left out with the --token-dropout probability, by a draw
+of its own. --wide-lr F multiplies the path's learning rate (default 100:
+at the rest's rate the weights hardly move before early stopping).
+--wide-bigrams=false keeps the words' weights alone; --wide=false leaves
+the path out (Kim's model alone). It combines with --chars.
 
 Before training it refuses data that would give a useless model: more
 distinct labels than half the examples (the text and label columns swapped,

@@ -344,7 +344,8 @@ var wideLine = regexp.MustCompile(`= ([+-][0-9.]+) = output bias with the unknow
 // model with the wide path: the value, the baseline and the word weights.
 var wideIGLine = regexp.MustCompile(`= ([+-][0-9.]+), with every word vector zero and the unknown word's weight ([+-][0-9.]+): the token scores \(word weights ([+-][0-9.]+)\) add up to the difference`)
 
-// TestExplainTextWideModel: on a model trained with --wide, explain's text
+// TestExplainTextWideModel: on a model with word weights alone (train
+// --wide-bigrams=false), explain's text
 // names the unknown word's weight in the output bias and the word weights
 // in the token shares, for the log-odds, a label's centred logit and
 // integrated gradients. The numbers written are read back: they add up to
@@ -357,8 +358,8 @@ func TestExplainTextWideModel(t *testing.T) {
 	dir := t.TempDir()
 	data := demoPart(t, dir, 1500)
 	model := filepath.Join(dir, "wide.tt")
-	if code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "5", "--dim", "8", "--maps", "4", "--wide", "--quiet"); code != 0 {
-		t.Fatalf("train --wide: exit %d: %s", code, stderr)
+	if code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "5", "--dim", "8", "--maps", "4", "--wide-bigrams=false", "--quiet"); code != 0 {
+		t.Fatalf("train --wide-bigrams=false: exit %d: %s", code, stderr)
 	}
 	m, err := cnn.Load(model)
 	if err != nil {

@@ -116,14 +116,24 @@ func TestTrainDefaultsAreTheRecipe(t *testing.T) {
 	if _, r = parse("--class-weight", "none"); r.Train.ClassWeight != "" {
 		t.Errorf("--class-weight none gave %q, want the recipe's \"\"", r.Train.ClassWeight)
 	}
-	if _, r = parse("--wide=false"); r.Model.Wide {
-		t.Error("--wide=false asks for the wide path")
+	if _, r = parse("--wide=false"); r.Model.Wide || r.Model.WideBigrams {
+		t.Errorf("--wide=false: wide %v, bigrams %v, want neither (the whole word-weight path off)", r.Model.Wide, r.Model.WideBigrams)
 	}
-	if _, r = parse("--wide", "--wide-bigrams"); !r.Model.Wide || !r.Model.WideBigrams {
-		t.Errorf("--wide --wide-bigrams: wide %v, bigrams %v, want both", r.Model.Wide, r.Model.WideBigrams)
+	if _, r = parse("--wide-bigrams=false"); !r.Model.Wide || r.Model.WideBigrams || r.Train.WideLR != cnn.DefaultWideLR {
+		t.Errorf("--wide-bigrams=false: wide %v, bigrams %v, learning-rate factor %g, want the words' weights alone at %d", r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR, cnn.DefaultWideLR)
 	}
-	if _, r = parse("--wide"); !r.Model.Wide || r.Model.WideBigrams || r.Train.WideLR != cnn.DefaultWideLR {
-		t.Errorf("--wide alone: wide %v, learning-rate factor %g, want true and %d", r.Model.Wide, r.Train.WideLR, cnn.DefaultWideLR)
+	if _, r = parse("--wide"); !r.Model.Wide || !r.Model.WideBigrams || r.Train.WideLR != cnn.DefaultWideLR {
+		t.Errorf("--wide alone: wide %v, bigrams %v, learning-rate factor %g, want the default's: true, true and %d", r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR, cnn.DefaultWideLR)
+	}
+	if o := new(trainOptions); true {
+		fs := flag.NewFlagSet("train", flag.ContinueOnError)
+		o.register(fs)
+		if err := fs.Parse([]string{"--wide=false", "--wide-bigrams"}); err != nil {
+			t.Fatal(err)
+		}
+		if err := o.recipe.check(fs); err == nil || !strings.Contains(err.Error(), "add --wide") {
+			t.Errorf("--wide=false --wide-bigrams: %v, want a usage error asking for --wide", err)
+		}
 	}
 }
 

@@ -78,6 +78,9 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 // check refuses every value that cannot train, naming the option; fs tells
 // whether --dim was given.
 func (r *recipeOptions) check(fs *flag.FlagSet) error {
+	if !r.Wide && !isSet(fs, "wide-bigrams") {
+		r.WideBigrams = false // --wide=false turns the whole word-weight path off
+	}
 	if r.Vectors != "" && (!isSet(fs, "dim") || r.Dim == 0) {
 		r.dimFromVectors = true
 		if d := vectorsDim(r.Vectors); d > 0 {

@@ -62,7 +62,8 @@ func demoPart(t *testing.T, dir string, n int) string {
 	return p
 }
 
-// tinyModel trains a small model on part of the demo corpus and returns the
+// tinyModel trains a small model of Kim's kind alone (--wide=false: no word
+// weights) on part of the demo corpus and returns the
 // path of its file.
 func tinyModel(t *testing.T) string {
 	t.Helper()
@@ -70,7 +71,7 @@ func tinyModel(t *testing.T) string {
 	data := demoPart(t, dir, 400)
 	model := filepath.Join(dir, "m.tt")
 	code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8",
-		"--maps", "4", "--quiet")
+		"--maps", "4", "--wide=false", "--quiet")
 	if code != 0 {
 		t.Fatalf("train: exit %d: %s", code, stderr)
 	}

@@ -102,9 +102,9 @@ func demoAudit(t *testing.T, variant string, seed uint64) *demoRun {
 	return demoAuditWith(t, variant, seed, false)
 }
 
-// wideDemoAudit is demoAudit of the demo corpus with seed 1 and the
-// word-weight path (train --wide: cnn.Config.Wide, WideLR
-// cnn.DefaultWideLR).
+// wideDemoAudit is demoAudit of the demo corpus with seed 1 and word
+// weights alone in the word-weight path (train --wide-bigrams=false:
+// cnn.Config.Wide, WideLR cnn.DefaultWideLR).
 func wideDemoAudit(t *testing.T) *demoRun {
 	t.Helper()
 	return demoAuditWith(t, "demo", 1, true)
@@ -124,7 +124,7 @@ func demoAuditWith(t *testing.T, variant string, seed uint64, wide bool) *demoRu
 	d.recipe.Train.Epochs = 8
 	d.recipe.Train.Seed = seed
 	if wide {
-		d.recipe.Model.Wide, d.recipe.Train.WideLR = true, cnn.DefaultWideLR
+		d.recipe.Model.Wide, d.recipe.Model.WideBigrams, d.recipe.Train.WideLR = true, false, cnn.DefaultWideLR
 	}
 	d.m = trainText(t, d.train, d.dev, d.recipe, seed)
 	d.held = data(t, d.m, d.test)

@@ -201,6 +201,12 @@ func plant(d *corpus.Dataset, r *rand.Rand, rates map[string]float64, add func(t
 // significant); the control line must be neither listed nor acted on; any
 // cue acted on must be planted or the corpus's own list boilerplate.
 //
+// The model is Kim's alone (train --wide=false, token dropout 0.25), the
+// premise of the control: the control line passes the association gate in
+// this seeded split, and the default recipe's bigram weights learn that
+// association (relied on in the selection half, not confirmed, never acted
+// on), so with them the audit rightly lists it.
+//
 // Acting is not asserted: mail is an easy task (98% accuracy) and this
 // model leans on the planted lines without letting them decide many
 // predictions (replacing the footer changes 0.5% of its held-out texts'
@@ -209,7 +215,7 @@ func plant(d *corpus.Dataset, r *rand.Rand, rates map[string]float64, add func(t
 // demo's tests, where the cues decide predictions, assert the action.
 func TestSpamAssassinPlanted(t *testing.T) {
 	if testing.Short() {
-		t.Skip("trains the default recipe on SpamAssassin; skipped with -short")
+		t.Skip("trains Kim's model on SpamAssassin; skipped with -short")
 	}
 	train, dev, test := spamSplits(t)
 	r := rand.New(rand.NewPCG(5, 5))
@@ -223,7 +229,9 @@ func TestSpamAssassinPlanted(t *testing.T) {
 		*d = plant(*d, r, map[string]float64{"ham": 0.8, "spam": 0.05}, footer)
 		*d = plant(*d, r, map[string]float64{"ham": 0.05, "spam": 0.75}, stamp)
 	}
-	m := trainText(t, train, dev, cnn.DefaultRecipe(), 1)
+	kim := cnn.DefaultRecipe()
+	kim.Model.Wide, kim.Model.WideBigrams, kim.Train.TokenDropout = false, false, 0.25
+	m := trainText(t, train, dev, kim, 1)
 	res := run(t, m, data(t, m, train), data(t, m, test), Options{Seed: 1})
 	logLists(t, res)
 	planted := func(c Candidate) string {

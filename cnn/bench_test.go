@@ -25,14 +25,26 @@ func benchCorpus(n, vocab int) Data {
 }
 
 // benchModel is the default recipe's model (DefaultRecipe: 128-d
-// embeddings, widths 3, 4, 5 with 100 feature maps each, dropout 0.5) for
-// two classes.
-func benchModel(b *testing.B, vocab int) *Model {
-	cfg := DefaultRecipe().Model
+// embeddings, widths 3, 4, 5 with 100 feature maps each, dropout 0.5, word
+// and bigram weights beside the filters, its bigrams those of d) over a
+// vocabulary of vocab words and two labels.
+func benchModel(b *testing.B, d Data, vocab int) *Model {
+	return benchModelOf(b, DefaultRecipe().Model, d, vocab)
+}
+
+// benchModelOf is benchModel with the model configuration cfg.
+func benchModelOf(b *testing.B, cfg Config, d Data, vocab int) *Model {
 	cfg.VocabSize, cfg.Classes = vocab, 2
+	bigrams := cfg.WideBigrams
+	cfg.WideBigrams = false // SetBigrams turns it on with the set
 	m, err := New(cfg, nil, []string{"a", "b"}, 1)
 	if err != nil {
 		b.Fatal(err)
+	}
+	if bigrams {
+		if err := m.SetBigrams(CollectBigrams(d.IDs)); err != nil {
+			b.Fatal(err)
+		}
 	}
 	return m
 }
@@ -42,9 +54,22 @@ func benchModel(b *testing.B, vocab int) *Model {
 // and class weights when it has them); it reports training examples per
 // second.
 func BenchmarkTrainStep(b *testing.B) {
+	benchTrainStep(b, DefaultRecipe().Model)
+}
+
+// BenchmarkTrainStepKim is BenchmarkTrainStep with Kim's model alone (train
+// --wide=false: no word or bigram weights), the cost the default recipe's
+// weights beside the filters are measured against.
+func BenchmarkTrainStepKim(b *testing.B) {
+	cfg := DefaultRecipe().Model
+	cfg.Wide, cfg.WideBigrams = false, false
+	benchTrainStep(b, cfg)
+}
+
+func benchTrainStep(b *testing.B, cfg Config) {
 	const vocab = 20000
 	d := benchCorpus(1000, vocab)
-	m := benchModel(b, vocab)
+	m := benchModelOf(b, cfg, d, vocab)
 	tc, _ := DefaultRecipe().Train.WithDefaults()
 	tr := newTrainer(m, tc)
 	defer tr.close()
@@ -70,7 +95,7 @@ func BenchmarkTrain(b *testing.B) {
 	b.ReportAllocs()
 	var eps float64
 	for i := 0; i < b.N; i++ {
-		m := benchModel(b, vocab)
+		m := benchModel(b, d, vocab)
 		tc := DefaultRecipe().Train
 		tc.Epochs, tc.Patience = 2, -1
 		res, err := Train(context.Background(), m, d, dev, tc, nil)
@@ -86,7 +111,7 @@ func BenchmarkTrain(b *testing.B) {
 func BenchmarkPredict(b *testing.B) {
 	const vocab = 20000
 	d := benchCorpus(1000, vocab)
-	m := benchModel(b, vocab)
+	m := benchModel(b, d, vocab)
 	p := m.NewPredictor()
 	probs := make([]float32, 100*2)
 	p.Probs(d.IDs[:100], probs)

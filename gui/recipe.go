@@ -185,11 +185,12 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 			Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
 		rec.Model.Dim += rec.Model.Chars.Filters // Model.Dim is the whole word vector's width
 	}
+	rec.Model.WideBigrams = false
 	if rec.Model.Wide, _ = r.wide.Get(); rec.Model.Wide {
 		rec.Train.WideLR = cnn.DefaultWideLR
-	}
-	if rec.Model.WideBigrams, _ = r.wideBigrams.Get(); rec.Model.WideBigrams && !rec.Model.Wide {
-		fe = append(fe, fmt.Errorf("word pairs get weights in the word-weight path: check Word weights too, or uncheck Word pairs"))
+		// Word pairs count only with word weights, as train's --wide=false
+		// turns both off; the view disables the check meanwhile.
+		rec.Model.WideBigrams, _ = r.wideBigrams.Get()
 	}
 	plan := r.readPlan(&fe)
 	rec.Train.Seed = plan.Seed

@@ -2,7 +2,6 @@ package gui
 
 import (
 	"reflect"
-	"strings"
 	"testing"
 
 	"telltale/cnn"
@@ -52,6 +51,8 @@ func TestRecipeFormWide(t *testing.T) {
 	want.Model.Wide = !def.Model.Wide
 	if want.Model.Wide {
 		want.Train.WideLR = cnn.DefaultWideLR // as train --wide
+	} else {
+		want.Model.WideBigrams = false // as train --wide=false
 	}
 	if !reflect.DeepEqual(rec, want) {
 		t.Errorf("with the check flipped: %+v, want %+v", rec.Model, want.Model)
@@ -63,20 +64,28 @@ func TestRecipeFormWide(t *testing.T) {
 }
 
 // The form's "Word pairs" check asks for bigram weights as `telltale train
-// --wide --wide-bigrams` does, and, as train refuses --wide-bigrams without
-// --wide, is refused without "Word weights", naming both checks.
+// --wide-bigrams` does; it starts as the default recipe has it, counts
+// only with "Word weights" (as train's --wide=false turns both off), and
+// Defaults puts it back.
 func TestRecipeFormWideBigrams(t *testing.T) {
 	r := newRecipeForm()
-	if on, _ := r.wideBigrams.Get(); on != cnn.DefaultRecipe().Model.WideBigrams {
-		t.Fatalf("the form starts with bigram weights %v", on)
+	def := cnn.DefaultRecipe()
+	if on, _ := r.wideBigrams.Get(); on != def.Model.WideBigrams {
+		t.Fatalf("the form starts with bigram weights %v; cnn.DefaultRecipe has %v", on, def.Model.WideBigrams)
 	}
 	_ = r.wideBigrams.Set(true)
 	_ = r.wide.Set(false)
-	if _, _, err := r.parse(false); err == nil || !strings.Contains(err.Error(), "Word weights") || !strings.Contains(err.Error(), "Word pairs") {
-		t.Errorf("word pairs without word weights: error %v, want one naming both checks", err)
+	rec, _, err := r.parse(false)
+	if err != nil || rec.Model.Wide || rec.Model.WideBigrams {
+		t.Errorf("word pairs checked without word weights: wide %v, bigrams %v (%v), want neither", rec.Model.Wide, rec.Model.WideBigrams, err)
 	}
 	_ = r.wide.Set(true)
-	rec, _, err := r.parse(false)
+	_ = r.wideBigrams.Set(false)
+	if rec, _, err = r.parse(false); err != nil || !rec.Model.Wide || rec.Model.WideBigrams {
+		t.Errorf("word weights without pairs: wide %v, bigrams %v (%v)", rec.Model.Wide, rec.Model.WideBigrams, err)
+	}
+	_ = r.wideBigrams.Set(true)
+	rec, _, err = r.parse(false)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -85,8 +94,9 @@ func TestRecipeFormWideBigrams(t *testing.T) {
 	if !reflect.DeepEqual(rec, want) {
 		t.Errorf("with both checks: %+v, want %+v", rec.Model, want.Model)
 	}
+	_ = r.wideBigrams.Set(!def.Model.WideBigrams)
 	r.reset()
-	if on, _ := r.wideBigrams.Get(); on {
-		t.Error("Defaults leave the word pairs checked")
+	if on, _ := r.wideBigrams.Get(); on != def.Model.WideBigrams {
+		t.Errorf("Defaults leave the word pairs at %v, want %v", on, def.Model.WideBigrams)
 	}
 }

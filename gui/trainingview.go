@@ -58,6 +58,13 @@ func (v *trainingView) recipeForm() *widget.Form {
 	chars := widget.NewCheckWithData("and characters", r.chars)
 	wide := widget.NewCheckWithData("beside the filters", r.wide)
 	pairs := widget.NewCheckWithData("with word weights", r.wideBigrams)
+	r.wide.AddListener(binding.NewDataListener(func() {
+		if on, _ := r.wide.Get(); on {
+			pairs.Enable()
+		} else {
+			pairs.Disable()
+		}
+	}))
 	items := []*widget.FormItem{
 		entry(r.widths, ""), entry(r.maps, ""), entry(r.dim, ""), entry(r.epochs, ""),
 		entry(r.patience, "0 never stops early"), entry(r.dropout, ""), entry(r.maxNorm, "0 is off"),

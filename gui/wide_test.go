@@ -23,7 +23,7 @@ var wideVerdict = regexp.MustCompile(` = (-?[0-9.]+) = output bias with the unkn
 // wideDetail reads back a token's exact share and its word weight.
 var wideDetail = regexp.MustCompile(`Exact share of .+: ([+-][0-9.]+) \(of which word weight ([+-][0-9.]+)\)`)
 
-// TestWhyThisLabelWide: for a model trained with the wide path, opened in
+// TestWhyThisLabelWide: for a model with word weights alone, opened in
 // the window, Why this label's verdict names the unknown word's weight in
 // the output bias and the word weights in the token shares, for the
 // log-odds and for a label's centred logit, and a token's detail gives its
@@ -40,7 +40,7 @@ func TestWhyThisLabelWide(t *testing.T) {
 	train := cs.Train.Filter(func(corpus.Example) bool { n++; return n <= 1500 })
 	r := cnn.DefaultRecipe()
 	r.Baseline = nil
-	r.Model.Wide = true
+	r.Model.Wide, r.Model.WideBigrams = true, false // the words' weights alone: the sums below
 	r.Model.Dim, r.Model.Widths, r.Model.Filters = 16, []int{2, 3}, 8
 	r.Train.Epochs, r.Train.Threads, r.Train.Patience = 3, 2, -1
 	trained, err := cnn.TrainText(context.Background(), train, nil, r, nil)
