@@ -185,9 +185,21 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 			return nil, err
 		}
 	}
+	if err := originNotes(notes, sd, l, w, o); err != nil {
+		return nil, err
+	}
+	m.Info.Notes = notes
+	res.Model = m
+	return res, nil
+}
+
+// originNotes records in notes where an imported model came from: the
+// state dict's file, format, checksum and entry, the layout, the
+// vocabulary file, the time of the import and a sigmoid output's reading.
+func originNotes(notes map[string]string, sd *statedict.StateDict, l Layout, w *weights, o Options) error {
 	sum, err := fileSHA256(o.StateDict)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	notes["origin"] = "imported from PyTorch (" + formatName(sd.Format) + ")"
 	notes["origin_file"] = absPath(o.StateDict)
@@ -201,9 +213,7 @@ func Import(ctx context.Context, o Options) (*Imported, error) {
 	if w.sigmoidOutput {
 		notes["origin_output"] = fmt.Sprintf("one sigmoid unit (%s), held as two classes with logits 0 and its value", l.Output)
 	}
-	m.Info.Notes = notes
-	res.Model = m
-	return res, nil
+	return nil
 }
 
 func formatName(f string) string {
