@@ -103,7 +103,16 @@ func isMarkupFragment(c Candidate) bool {
 	return true
 }
 
-// TestSpamAssassinBoilerplate audits the default recipe trained on the
+// kimRecipe is the default recipe without the word and bigram weights and
+// with token dropout 0.25 (train --wide=false --token-dropout 0.25): Kim's
+// model as the default recipe had it before the weights.
+func kimRecipe() cnn.Recipe {
+	r := cnn.DefaultRecipe()
+	r.Model.Wide, r.Model.WideBigrams, r.Train.TokenDropout = false, false, 0.25
+	return r
+}
+
+// TestSpamAssassinBoilerplate audits Kim's model trained on the
 // SpamAssassin corpus (subject and body). The ham was collected from
 // mailing lists and a feed gateway, whose footers and tags are collection
 // artifacts: the first three artifact-like cues must be such boilerplate.
@@ -114,12 +123,19 @@ func isMarkupFragment(c Candidate) bool {
 // listed as reading like the task. What the audit ranks as artifact-like,
 // lists apart as task language and acts on is logged; any cue it acts on
 // must be list boilerplate or markup.
+//
+// The model is Kim's alone (train --wide=false, token dropout 0.25), which
+// relies on the lists' boilerplate measurably. The default recipe's model
+// relies on one piece of it (the feed gateway's URL line, a drop of 0.07
+// in p(ham)); every other cue it lists scores below 0.005 (reliance ×
+// artifact-likeness) and none is confirmed, so the order of its ranks
+// after the first is noise and tests nothing.
 func TestSpamAssassinBoilerplate(t *testing.T) {
 	if testing.Short() {
-		t.Skip("trains the default recipe on SpamAssassin; skipped with -short")
+		t.Skip("trains Kim's model on SpamAssassin; skipped with -short")
 	}
 	train, dev, test := spamSplits(t)
-	m := trainText(t, train, dev, cnn.DefaultRecipe(), 1)
+	m := trainText(t, train, dev, kimRecipe(), 1)
 	res := run(t, m, data(t, m, train), data(t, m, test), Options{Seed: 1})
 	logLists(t, res)
 	if len(res.Ranked) < 3 {
@@ -229,9 +245,7 @@ func TestSpamAssassinPlanted(t *testing.T) {
 		*d = plant(*d, r, map[string]float64{"ham": 0.8, "spam": 0.05}, footer)
 		*d = plant(*d, r, map[string]float64{"ham": 0.05, "spam": 0.75}, stamp)
 	}
-	kim := cnn.DefaultRecipe()
-	kim.Model.Wide, kim.Model.WideBigrams, kim.Train.TokenDropout = false, false, 0.25
-	m := trainText(t, train, dev, kim, 1)
+	m := trainText(t, train, dev, kimRecipe(), 1)
 	res := run(t, m, data(t, m, train), data(t, m, test), Options{Seed: 1})
 	logLists(t, res)
 	planted := func(c Candidate) string {
