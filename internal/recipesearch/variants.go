@@ -48,7 +48,6 @@ var variants = map[string]func(r *cnn.Recipe){
 	// regularisation, averaging and the start of the embeddings
 	"decay01":  func(r *cnn.Recipe) { r.Train.WeightDecay = 0.1 },
 	"decay1":   func(r *cnn.Recipe) { r.Train.WeightDecay = 1 },
-	"decay10":  func(r *cnn.Recipe) { r.Train.WeightDecay = 10 },
 	"avg2":     func(r *cnn.Recipe) { r.Train.AverageLast = 2 },
 	"avg3":     func(r *cnn.Recipe) { r.Train.AverageLast = 3 },
 	"avg5":     func(r *cnn.Recipe) { r.Train.AverageLast = 5 },
@@ -64,21 +63,30 @@ var variants = map[string]func(r *cnn.Recipe){
 	"warm3":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 3 },
 	"lrd8":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.8 },
 	"lrd6":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.6 },
-	// a word-weight path beside the pooled filters (cnn.Config.Wide), its
-	// learning rate as the others' or 10 to 1000 times it
-	"wide":       func(r *cnn.Recipe) { r.Model.Wide = true },
-	"widelr10":   func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 10 },
-	"widelr30":   func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 30 },
-	"widelr100":  func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 100 },
-	"widelr300":  func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 300 },
-	"widelr1000": func(r *cnn.Recipe) { r.Model.Wide, r.Train.WideLR = true, 1000 },
+	// Kim's model as the default had it before the word and bigram weights
+	"kim": kim,
+	// the words' weights alone beside the pooled filters (cnn.Config.Wide
+	// without WideBigrams), their learning rate as the others' or 10 to
+	// 1000 times it
+	"wide":       func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 0 },
+	"widelr10":   func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 10 },
+	"widelr30":   func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 30 },
+	"widelr100":  func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 100 },
+	"widelr300":  func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 300 },
+	"widelr1000": func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 1000 },
+}
+
+// kim turns the word and bigram weights off and token dropout back to 0.25.
+func kim(r *cnn.Recipe) {
+	r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR, r.Train.TokenDropout = false, false, 0, 0.25
 }
 
 func init() {
-	// ensembles merged into one model (cnn.Merge); "thin" members share the
-	// default's width between them, so the merged model has its shape
-	variants["ens2"] = func(r *cnn.Recipe) { r.Members = 2 }
-	variants["ens3"] = func(r *cnn.Recipe) { r.Members = 3 }
-	variants["ens2thin"] = func(r *cnn.Recipe) { r.Members, r.Model.Dim, r.Model.Filters = 2, 64, 50 }
-	variants["ens4thin"] = func(r *cnn.Recipe) { r.Members, r.Model.Dim, r.Model.Filters = 4, 32, 25 }
+	// ensembles of Kim's model merged into one model (cnn.Merge, which
+	// refuses word weights); "thin" members share the default's width
+	// between them, so the merged model has its shape
+	variants["ens2"] = func(r *cnn.Recipe) { kim(r); r.Members = 2 }
+	variants["ens3"] = func(r *cnn.Recipe) { kim(r); r.Members = 3 }
+	variants["ens2thin"] = func(r *cnn.Recipe) { kim(r); r.Members, r.Model.Dim, r.Model.Filters = 2, 64, 50 }
+	variants["ens4thin"] = func(r *cnn.Recipe) { kim(r); r.Members, r.Model.Dim, r.Model.Filters = 4, 32, 25 }
 }
