@@ -131,8 +131,8 @@ func TestTrainDefaultsAreTheRecipe(t *testing.T) {
 		if err := fs.Parse([]string{"--wide=false", "--wide-bigrams"}); err != nil {
 			t.Fatal(err)
 		}
-		if err := o.recipe.check(fs); err == nil || !strings.Contains(err.Error(), "add --wide") {
-			t.Errorf("--wide=false --wide-bigrams: %v, want a usage error asking for --wide", err)
+		if err := o.recipe.check(fs); err == nil || !strings.Contains(err.Error(), "which --wide=false leaves out") {
+			t.Errorf("--wide=false --wide-bigrams: %v, want a usage error naming the conflict", err)
 		}
 	}
 }

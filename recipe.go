@@ -148,9 +148,9 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 	case r.WideLR < 0:
 		return usagef("--wide-lr %g: give a positive factor, or 0 for the rest's learning rate", r.WideLR)
 	case !r.Wide && isSet(fs, "wide-lr"):
-		return usagef("--wide-lr sets the learning rate of the word-weight table: add --wide")
+		return usagef("--wide-lr sets the learning rate of the word-weight table, which --wide=false leaves out: drop one of the two")
 	case r.WideBigrams && !r.Wide:
-		return usagef("--wide-bigrams gives bigrams weights in the word-weight path: add --wide")
+		return usagef("--wide-bigrams gives bigrams weights in the word-weight path, which --wide=false leaves out: drop one of the two")
 	}
 	return nil
 }
