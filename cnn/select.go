@@ -16,10 +16,11 @@ type selector struct {
 
 	best      *Model
 	bestScore float64 // higher is better
+	bestLoss  float64 // the kept epoch's dev loss (StopMacroF1Loss's tie-break)
 }
 
 func newSelector(tc TrainConfig, dev Data) *selector {
-	return &selector{tc: tc, dev: dev, bestScore: math.Inf(-1)}
+	return &selector{tc: tc, dev: dev, bestScore: math.Inf(-1), bestLoss: math.Inf(1)}
 }
 
 // epochEnd forms the model of the epoch that just ended on m, returns its
@@ -48,10 +49,14 @@ func (s *selector) epochEnd(m *Model) (*Metrics, bool, error) {
 	if s.tc.StopOn == StopLoss {
 		score = -loss
 	}
-	if score <= s.bestScore {
+	better := score > s.bestScore
+	if s.tc.StopOn == StopMacroF1Loss && score == s.bestScore {
+		better = loss < s.bestLoss
+	}
+	if !better {
 		return &mt, false, nil
 	}
-	s.bestScore = score
+	s.bestScore, s.bestLoss = score, loss
 	s.best = copyWeights(s.best, cand)
 	return &mt, true, nil
 }

@@ -120,6 +120,51 @@ func TestTrainStopOnLoss(t *testing.T) {
 	}
 }
 
+// StopOn "macro-f1,loss" keeps the epoch of the highest dev macro-F1 and,
+// of the epochs tied on it, the one of the lowest dev cross-entropy,
+// computed here from the model's probabilities at each epoch's end. The
+// toy task is easy, so several epochs score a dev macro-F1 of 1.
+func TestTrainStopOnMacroF1ThenLoss(t *testing.T) {
+	m := randModel(6, 30, 6, []int{2, 3}, 3, 2)
+	train, dev := toyData(9, 100, 30), toyData(10, 60, 30)
+	var f1s, losses []float64
+	res, err := Train(context.Background(), m, train, dev,
+		TrainConfig{Epochs: 12, Batch: 10, Seed: 4, LR: 0.03, Patience: -1, StopOn: StopMacroF1Loss},
+		func(p Progress) {
+			if p.Phase != "epoch" {
+				return
+			}
+			var s float64
+			for i, pr := range m.Probabilities(dev.IDs, 1) {
+				s -= math.Log(float64(pr[dev.Labels[i]]))
+			}
+			mt, _, err := Evaluate(m, dev, 1)
+			if err != nil {
+				t.Fatal(err)
+			}
+			losses = append(losses, s/float64(dev.Len()))
+			f1s = append(f1s, mt.MacroF1)
+		})
+	if err != nil {
+		t.Fatal(err)
+	}
+	best, firstBest := 0, 0
+	for e := range f1s {
+		if f1s[e] > f1s[best] || f1s[e] == f1s[best] && losses[e] < losses[best] {
+			best = e
+		}
+		if f1s[e] > f1s[firstBest] {
+			firstBest = e
+		}
+	}
+	if res.BestEpoch != best+1 {
+		t.Errorf("kept epoch %d; best by macro-F1 then loss is epoch %d (macro-F1 %.4f, losses %.4f)", res.BestEpoch, best+1, f1s, losses)
+	}
+	if firstBest == best {
+		t.Errorf("no tie on macro-F1 that the loss breaks (macro-F1 %.4f, losses %.4f): the test cannot tell the rule from macro-F1 alone", f1s, losses)
+	}
+}
+
 func TestTrainConfigNewChecks(t *testing.T) {
 	for _, tc := range []TrainConfig{
 		{EmbedInit: "glove"}, {WeightDecay: -1}, {WeightDecay: 2000}, {AverageLast: -1}, {StopOn: "accuracy"},
@@ -128,7 +173,7 @@ func TestTrainConfigNewChecks(t *testing.T) {
 			t.Errorf("%+v accepted", tc)
 		}
 	}
-	for _, tc := range []TrainConfig{{EmbedInit: InitPPMI}, {WeightDecay: 0.1}, {AverageLast: 3}, {StopOn: StopLoss}, {StopOn: StopMacroF1}} {
+	for _, tc := range []TrainConfig{{EmbedInit: InitPPMI}, {WeightDecay: 0.1}, {AverageLast: 3}, {StopOn: StopLoss}, {StopOn: StopMacroF1}, {StopOn: StopMacroF1Loss}} {
 		if _, err := tc.WithDefaults(); err != nil {
 			t.Errorf("%+v: %v", tc, err)
 		}

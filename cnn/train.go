@@ -63,8 +63,10 @@ type TrainConfig struct {
 	// continues from the latest weights. 0 or 1 keeps each epoch's own.
 	AverageLast int `json:"average_last,omitempty"`
 	// StopOn is what early stopping and the choice of the kept epoch
-	// follow on the dev split: "macro-f1" ("" too: the highest) or
-	// "loss" (the lowest mean cross-entropy).
+	// follow on the dev split: "macro-f1" ("" too: the highest), "loss"
+	// (the lowest mean cross-entropy) or "macro-f1,loss" (the highest
+	// macro-F1, and of epochs tied on it the lowest loss: a small or easy
+	// dev split often scores several epochs the same).
 	StopOn string `json:"stop_on,omitempty"`
 	// EmbedDropout is the dropout probability of the values of the word
 	// vectors the convolutions read (Srivastava et al. 2014; on the input
@@ -147,8 +149,8 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: weight decay %g: must be 0 (off) or positive with decay × learning rate below 1", tc.WeightDecay)
 	case tc.AverageLast < 0:
 		return tc, fmt.Errorf("cnn: average of the last %d epochs: must be 0 (off) or positive", tc.AverageLast)
-	case tc.StopOn != "" && tc.StopOn != StopMacroF1 && tc.StopOn != StopLoss:
-		return tc, fmt.Errorf("cnn: stop on %q: use %s or %s", tc.StopOn, StopMacroF1, StopLoss)
+	case tc.StopOn != "" && tc.StopOn != StopMacroF1 && tc.StopOn != StopLoss && tc.StopOn != StopMacroF1Loss:
+		return tc, fmt.Errorf("cnn: stop on %q: use %s, %s or %s", tc.StopOn, StopMacroF1, StopLoss, StopMacroF1Loss)
 	case !(tc.EmbedDropout >= 0 && tc.EmbedDropout < 1):
 		return tc, fmt.Errorf("cnn: embedding dropout %g: must be in [0, 1)", tc.EmbedDropout)
 	case tc.HeadWarmup < 0 || tc.HeadWarmup >= tc.Epochs:
@@ -166,6 +168,8 @@ const (
 	InitPPMI    = "ppmi"
 	StopMacroF1 = "macro-f1"
 	StopLoss    = "loss"
+	// StopMacroF1Loss is macro-F1 with ties broken by the lower dev loss.
+	StopMacroF1Loss = "macro-f1,loss"
 )
 
 func or(v, def float64) float64 {

@@ -52,6 +52,7 @@ var variants = map[string]func(r *cnn.Recipe){
 	"avg3":     func(r *cnn.Recipe) { r.Train.AverageLast = 3 },
 	"avg5":     func(r *cnn.Recipe) { r.Train.AverageLast = 5 },
 	"stoploss": func(r *cnn.Recipe) { r.Train.StopOn = cnn.StopLoss },
+	"tieloss":  func(r *cnn.Recipe) { r.Train.StopOn = cnn.StopMacroF1Loss },
 	"ppmi":     func(r *cnn.Recipe) { r.Train.EmbedInit = cnn.InitPPMI },
 	// the training loop: dropout on the word vectors, the output layer
 	// trained alone first, a falling learning rate
