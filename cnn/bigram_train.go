@@ -46,24 +46,19 @@ type pairIndex struct {
 
 // build looks up the pairs of texts in m's bigram set.
 func (px *pairIndex) build(m *Model, texts [][]int32) {
-	n := 0
-	for _, ids := range texts {
-		for t := 0; t+1 < len(ids); t++ {
-			if m.bigramRow(ids[t], ids[t+1]) >= 0 {
-				n++
-			}
-		}
-	}
-	flat := make([]int32, 0, n)
-	px.rows = make([][]int32, len(texts))
+	var flat []int32
+	off := make([]int, len(texts)+1)
 	for i, ids := range texts {
-		lo := len(flat)
 		for t := 0; t+1 < len(ids); t++ {
 			if r := m.bigramRow(ids[t], ids[t+1]); r >= 0 {
 				flat = append(flat, int32(r))
 			}
 		}
-		px.rows[i] = flat[lo:len(flat):len(flat)]
+		off[i+1] = len(flat)
+	}
+	px.rows = make([][]int32, len(texts))
+	for i := range texts {
+		px.rows[i] = flat[off[i]:off[i+1]:off[i+1]]
 	}
 	px.texts = texts
 }
@@ -162,12 +157,12 @@ func (tr *trainer) addWide(i int, ids []int32, logits []float32) {
 	inv := 1 / float32(n+len(pairs))
 	for _, id := range ids {
 		if id != corpus.PAD {
-			axpy(inv, m.Wide[int(id)*C:int(id)*C+C], logits)
+			axpyRow(inv, m.Wide[int(id)*C:int(id)*C+C], logits)
 		}
 	}
 	for _, li := range pairs {
 		r := int(tr.bs.rows[li])
-		axpy(inv, m.WideBigram[r*C:r*C+C], logits)
+		axpyRow(inv, m.WideBigram[r*C:r*C+C], logits)
 	}
 }
 

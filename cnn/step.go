@@ -595,10 +595,10 @@ func wideGrad(ids, loc, pairs []int32, dz, wide, unk, big []float32) {
 			continue
 		}
 		li := int(loc[p])
-		axpy(inv, dz, wide[li*C:li*C+C])
+		axpyRow(inv, dz, wide[li*C:li*C+C])
 	}
 	for _, li := range pairs {
-		axpy(inv, dz, big[int(li)*C:int(li)*C+C])
+		axpyRow(inv, dz, big[int(li)*C:int(li)*C+C])
 	}
 }
 
