@@ -70,6 +70,38 @@ func TestWideBigramForwardMatchesDefinition(t *testing.T) {
 				}
 			}
 		}
+		// Texts at and past the longest whose pairs the wide term looks up
+		// once: float32 sums of hundreds of terms, held to the bound of
+		// recursive summation (Higham 2002, "Accuracy and Stability of
+		// Numerical Algorithms", section 4.2), (k+1)·2⁻²⁴ times the sum of
+		// the k terms' magnitudes, one more for the scaling.
+		var long []int32
+		for len(long) < widePairsOnStack+9 {
+			long = append(long, texts[len(long)%15]...)
+		}
+		for _, ids := range [][]int32{long[:widePairsOnStack], long} {
+			z := make([]float32, m.Config.Classes)
+			m.AddWide(ids, z)
+			for c := range z {
+				k, mag := 0, 0.0
+				for t, id := range ids {
+					if id != 0 {
+						k++
+						mag += math.Abs(float64(m.Wide[int(id)*m.Config.Classes+c]))
+					}
+					if t+1 < len(ids) {
+						if r, in := slices.BinarySearch(m.Bigrams, BigramKey(id, ids[t+1])); in {
+							k++
+							mag += math.Abs(float64(m.WideBigram[r*m.Config.Classes+c]))
+						}
+					}
+				}
+				w := wide64(m, ids, c)
+				if bound := float64(k+2) * 0x1p-24 * mag / float64(k); math.Abs(float64(z[c])-w) > bound {
+					t.Fatalf("seed %d text of %d ids class %d: wide term %g, definition %g, beyond the bound %g", seed, len(ids), c, z[c], w, bound)
+				}
+			}
+		}
 		for a := int32(0); a < 40; a++ {
 			for b := int32(0); b < 40; b++ {
 				_, in := slices.BinarySearch(m.Bigrams, BigramKey(a, b))
