@@ -107,11 +107,25 @@ func BenchmarkTrain(b *testing.B) {
 	b.ReportMetric(eps/float64(b.N), "examples/s")
 }
 
-// BenchmarkPredict is inference on batches of 100 texts of 77 tokens.
+// BenchmarkPredict is inference on batches of 100 texts of 77 tokens with
+// the default recipe's model (benchModel).
 func BenchmarkPredict(b *testing.B) {
+	benchPredict(b, DefaultRecipe().Model)
+}
+
+// BenchmarkPredictKim is BenchmarkPredict with Kim's model alone (no word
+// or bigram weights), the cost of the default's wide term measured
+// against it.
+func BenchmarkPredictKim(b *testing.B) {
+	cfg := DefaultRecipe().Model
+	cfg.Wide, cfg.WideBigrams = false, false
+	benchPredict(b, cfg)
+}
+
+func benchPredict(b *testing.B, cfg Config) {
 	const vocab = 20000
 	d := benchCorpus(1000, vocab)
-	m := benchModel(b, d, vocab)
+	m := benchModelOf(b, cfg, d, vocab)
 	p := m.NewPredictor()
 	probs := make([]float32, 100*2)
 	p.Probs(d.IDs[:100], probs)

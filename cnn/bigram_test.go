@@ -70,6 +70,38 @@ func TestWideBigramForwardMatchesDefinition(t *testing.T) {
 				}
 			}
 		}
+		// Texts at and past the longest whose pairs the wide term looks up
+		// once: float32 sums of hundreds of terms, held to the bound of
+		// recursive summation (Higham 2002, "Accuracy and Stability of
+		// Numerical Algorithms", section 4.2), (k+1)·2⁻²⁴ times the sum of
+		// the k terms' magnitudes, one more for the scaling.
+		var long []int32
+		for len(long) < widePairsOnStack+9 {
+			long = append(long, texts[len(long)%15]...)
+		}
+		for _, ids := range [][]int32{long[:widePairsOnStack], long} {
+			z := make([]float32, m.Config.Classes)
+			m.AddWide(ids, z)
+			for c := range z {
+				k, mag := 0, 0.0
+				for t, id := range ids {
+					if id != 0 {
+						k++
+						mag += math.Abs(float64(m.Wide[int(id)*m.Config.Classes+c]))
+					}
+					if t+1 < len(ids) {
+						if r, in := slices.BinarySearch(m.Bigrams, BigramKey(id, ids[t+1])); in {
+							k++
+							mag += math.Abs(float64(m.WideBigram[r*m.Config.Classes+c]))
+						}
+					}
+				}
+				w := wide64(m, ids, c)
+				if bound := float64(k+2) * 0x1p-24 * mag / float64(k); math.Abs(float64(z[c])-w) > bound {
+					t.Fatalf("seed %d text of %d ids class %d: wide term %g, definition %g, beyond the bound %g", seed, len(ids), c, z[c], w, bound)
+				}
+			}
+		}
 		for a := int32(0); a < 40; a++ {
 			for b := int32(0); b < 40; b++ {
 				_, in := slices.BinarySearch(m.Bigrams, BigramKey(a, b))
@@ -303,5 +335,85 @@ func TestBigramDropoutAsPrototype(t *testing.T) {
 	want, sd := (1-p)*float64(total), math.Sqrt(p*(1-p)*float64(total))
 	if math.Abs(float64(kept)-want) > 4*sd || withUNK == 0 {
 		t.Errorf("%d of %d pairs kept (want %.0f ± %.0f), %d of them with a word dropped to UNK", kept, total, want, 4*sd, withUNK)
+	}
+}
+
+// Training on pairs looked up once per text (prepare) trains the same
+// weights, bit for bit, as looking every pair up in the model's bigram set
+// (Model.BigramIndex, the set's definition) at each step: the same rows in
+// the same order, so the same bigram-dropout draws. The texts carry PAD,
+// UNK and pairs outside the set (the set is that of half the split), and
+// word dropout replaces words by UNK after the pairs are found.
+func TestPreparedPairsTrainAsLookedUp(t *testing.T) {
+	rng := rand.New(rand.NewPCG(12, 12))
+	d := Data{IDs: randTexts(rng, 120, 14, 25), Labels: make([]int, 120)}
+	for i := range d.Labels {
+		d.Labels[i] = rng.IntN(3)
+	}
+	base := withWide(randModel(12, 25, 6, []int{2, 3}, 3, 3), 12, 0.1)
+	if err := base.SetBigrams(CollectBigrams(d.IDs[:60])); err != nil {
+		t.Fatal(err)
+	}
+	tc, err := TrainConfig{Seed: 4, Threads: 2, TokenDropout: 0.3, WordDropout: 0.5, Batch: 16, WideLR: 10}.WithDefaults()
+	if err != nil {
+		t.Fatal(err)
+	}
+	run := func(prepared bool) (*Model, []float64) {
+		m := base.Clone()
+		tr := newTrainer(m, tc)
+		defer tr.close()
+		tr.prepare(d)
+		if !prepared {
+			tr.prep = pairIndex{}
+		}
+		var losses []float64
+		batches := makeBatches(rand.New(rand.NewPCG(2, 2)), d.IDs, 16, make([]int, d.Len()), nil)
+		for epoch := 0; epoch < 3; epoch++ {
+			for _, b := range batches {
+				rows := tr.prep.batch(d.IDs, b, nil)
+				if prepared != (len(rows) == len(b)) {
+					t.Fatalf("prepared %v: %d prepared texts for a batch of %d", prepared, len(rows), len(b))
+				}
+				for k, i := range b {
+					if !prepared {
+						break
+					}
+					var want []int32
+					for s := 0; s+1 < len(d.IDs[i]); s++ {
+						if r := m.BigramIndex(d.IDs[i][s], d.IDs[i][s+1]); r >= 0 {
+							want = append(want, int32(r))
+						}
+					}
+					if !slices.Equal(rows[k], want) {
+						t.Fatalf("text %v: prepared rows %v, the set has %v", d.IDs[i], rows[k], want)
+					}
+				}
+				losses = append(losses, tr.step(d, b))
+			}
+		}
+		return m, losses
+	}
+	a, la := run(true)
+	b, lb := run(false)
+	if !slices.Equal(la, lb) {
+		t.Errorf("losses differ:\n prepared %v\n looked up %v", la, lb)
+	}
+	same := func(name string, x, y []float32) {
+		for i := range x {
+			if math.Float32bits(x[i]) != math.Float32bits(y[i]) {
+				t.Errorf("%s[%d]: %g prepared, %g looked up", name, i, x[i], y[i])
+				return
+			}
+		}
+	}
+	same("Emb", a.Emb, b.Emb)
+	same("Wide", a.Wide, b.Wide)
+	same("WideBigram", a.WideBigram, b.WideBigram)
+	same("OutW", a.OutW, b.OutW)
+	for i := range a.Convs {
+		same("Conv.W", a.Convs[i].W, b.Convs[i].W)
+	}
+	if slices.Equal(a.WideBigram, base.WideBigram) {
+		t.Error("the bigram table did not train")
 	}
 }

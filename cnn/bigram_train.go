@@ -36,6 +36,46 @@ func (rs *rowSet) reset() {
 	rs.rows = rs.rows[:0]
 }
 
+// pairIndex holds the rows in Model.WideBigram of the found pairs of
+// adjacent ids of every text of a split, in the order of the pairs in the
+// text, so that a training step need not look them up again.
+type pairIndex struct {
+	texts [][]int32 // the split's texts, to recognise it
+	rows  [][]int32 // by text: the rows of its found pairs
+}
+
+// build looks up the pairs of texts in m's bigram set.
+func (px *pairIndex) build(m *Model, texts [][]int32) {
+	var flat []int32
+	off := make([]int, len(texts)+1)
+	for i, ids := range texts {
+		for t := 0; t+1 < len(ids); t++ {
+			if r := m.bigramRow(ids[t], ids[t+1]); r >= 0 {
+				flat = append(flat, int32(r))
+			}
+		}
+		off[i+1] = len(flat)
+	}
+	px.rows = make([][]int32, len(texts))
+	for i := range texts {
+		px.rows[i] = flat[off[i]:off[i+1]:off[i+1]]
+	}
+	px.texts = texts
+}
+
+// batch appends to dst the rows of the texts idx of the split texts and
+// returns it, or returns dst unchanged when texts is not the split px was
+// built on (the same slice of the same texts).
+func (px *pairIndex) batch(texts [][]int32, idx []int, dst [][]int32) [][]int32 {
+	if len(texts) == 0 || len(texts) != len(px.texts) || &texts[0] != &px.texts[0] {
+		return dst
+	}
+	for _, i := range idx {
+		dst = append(dst, px.rows[i])
+	}
+	return dst
+}
+
 // collectPairs finds the bigrams of the batch's texts as they were before
 // word dropout (tr.orig; tr.texts when tr.orig does not hold the batch):
 // every pair of adjacent ids in the model's set, each left out with
@@ -43,7 +83,9 @@ func (rs *rowSet) reset() {
 // bigram dropout of the prototype (internal/recipesearch/pooling.py,
 // variant wide2): a pair is kept or left out by its own draw, also when
 // one of its words was replaced by UNK. It fills tr.bs, tr.pairs and
-// tr.pairOff.
+// tr.pairOff. The pairs come from tr.batchRows when step filled it for
+// the batch (looked up once by prepare), else they are looked up here:
+// the same rows in the same order, so the same draws.
 func (tr *trainer) collectPairs() {
 	m := tr.m
 	tr.bs.reset()
@@ -53,16 +95,31 @@ func (tr *trainer) collectPairs() {
 	if len(tr.orig) == len(tr.texts) {
 		texts = tr.orig
 	}
-	for _, ids := range texts {
-		for t := 0; t+1 < len(ids); t++ {
-			r := m.bigramRow(ids[t], ids[t+1])
-			if r < 0 || (tr.bdRng != nil && tr.bdRng.Float64() < tr.bigramDrop) {
-				continue
+	prepared := len(tr.batchRows) == len(texts) && len(tr.orig) == len(tr.texts)
+	for i, ids := range texts {
+		if prepared {
+			for _, r := range tr.batchRows[i] {
+				tr.keepPair(r)
 			}
-			tr.pairs = append(tr.pairs, tr.bs.add(int32(r)))
+		} else {
+			for t := 0; t+1 < len(ids); t++ {
+				if r := m.bigramRow(ids[t], ids[t+1]); r >= 0 {
+					tr.keepPair(int32(r))
+				}
+			}
 		}
 		tr.pairOff = append(tr.pairOff, len(tr.pairs))
 	}
+	tr.batchRows = tr.batchRows[:0]
+}
+
+// keepPair adds the found pair of row r to the batch's pairs unless the
+// bigram dropout leaves it out.
+func (tr *trainer) keepPair(r int32) {
+	if tr.bdRng != nil && tr.bdRng.Float64() < tr.bigramDrop {
+		return
+	}
+	tr.pairs = append(tr.pairs, tr.bs.add(r))
 }
 
 // textPairs returns the local indices (in tr.bs) of the found pairs of the
@@ -100,12 +157,12 @@ func (tr *trainer) addWide(i int, ids []int32, logits []float32) {
 	inv := 1 / float32(n+len(pairs))
 	for _, id := range ids {
 		if id != corpus.PAD {
-			axpy(inv, m.Wide[int(id)*C:int(id)*C+C], logits)
+			axpyRow(inv, m.Wide[int(id)*C:int(id)*C+C], logits)
 		}
 	}
 	for _, li := range pairs {
 		r := int(tr.bs.rows[li])
-		axpy(inv, m.WideBigram[r*C:r*C+C], logits)
+		axpyRow(inv, m.WideBigram[r*C:r*C+C], logits)
 	}
 }
 

@@ -85,7 +85,14 @@ func (m *Model) addWide(ids []int32, logits []float32) {
 	if !m.Config.Wide {
 		return
 	}
-	n, pairs := m.wideCounts(ids)
+	// The rows of the found pairs, looked up once for counting and summing
+	// (on the stack; a longer text's pairs are looked up twice).
+	var buf [widePairsOnStack]int32
+	var rows []int32
+	if m.Config.WideBigrams && len(ids) <= len(buf) {
+		rows = buf[:len(ids)]
+	}
+	n, pairs := m.wideCounts(ids, rows)
 	C := m.Config.Classes
 	if n == 0 {
 		unk := int(corpus.UNK) * C
@@ -104,7 +111,13 @@ func (m *Model) addWide(ids []int32, logits []float32) {
 			logits[c] += w * inv
 		}
 		if pairs > 0 && t+1 < len(ids) {
-			if r := m.bigramRow(id, ids[t+1]); r >= 0 {
+			r := -1
+			if rows != nil {
+				r = int(rows[t])
+			} else {
+				r = m.bigramRow(id, ids[t+1])
+			}
+			if r >= 0 {
 				for c, w := range m.WideBigram[r*C : r*C+C] {
 					logits[c] += w * inv
 				}
@@ -113,18 +126,32 @@ func (m *Model) addWide(ids []int32, logits []float32) {
 	}
 }
 
+// widePairsOnStack is the length of the longest text whose pairs addWide
+// looks up once.
+const widePairsOnStack = 512
+
 // wideCounts returns the number n of non-PAD ids of the text ids and the
 // number of its pairs of adjacent ids found in the model's bigram set (0
-// without Config.WideBigrams).
-func (m *Model) wideCounts(ids []int32) (n, pairs int) {
+// without Config.WideBigrams). Rows, when not nil (len(ids) values), gets
+// the row in WideBigram of the pair at each position t of a non-PAD id,
+// −1 where there is none.
+func (m *Model) wideCounts(ids []int32, rows []int32) (n, pairs int) {
 	bigrams := m.Config.WideBigrams
 	for t, id := range ids {
+		if rows != nil {
+			rows[t] = -1
+		}
 		if id == corpus.PAD {
 			continue
 		}
 		n++
-		if bigrams && t+1 < len(ids) && m.bigramRow(id, ids[t+1]) >= 0 {
-			pairs++
+		if bigrams && t+1 < len(ids) {
+			if r := m.bigramRow(id, ids[t+1]); r >= 0 {
+				pairs++
+				if rows != nil {
+					rows[t] = int32(r)
+				}
+			}
 		}
 	}
 	return n, pairs

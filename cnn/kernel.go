@@ -51,6 +51,18 @@ func axpyGo(alpha float32, x, y []float32) {
 	}
 }
 
+// axpyRow is axpy for the short rows of the wide tables (a weight per
+// label): below eight values, shorter than a vector of any SIMD version,
+// where every version of axpy is axpyGo, it runs that loop inline, saving
+// the dispatch; a longer row goes to axpy. Len(y) must be at least len(x).
+func axpyRow(alpha float32, x, y []float32) {
+	if len(x) < 8 {
+		axpyGo(alpha, x, y)
+		return
+	}
+	axpy(alpha, x, y)
+}
+
 // addToGo adds x to dst elementwise. Len(dst) must be at least len(x).
 func addToGo(dst, x []float32) {
 	dst = dst[:len(x)]

@@ -124,6 +124,12 @@ func windowMax(rows []*float32, w, nf, col int, bias, best []float32, arg []int3
 // ---- AVX-512 ----
 
 func axpy512(alpha float32, x, y []float32) {
+	if len(x) < 16 {
+		// No vector to run: the scalar loop alone, without touching the
+		// vector registers (a wide row of a few labels takes this path).
+		axpyGo(alpha, x, y)
+		return
+	}
 	y = y[:len(x)]
 	// The scalar tail goes first, so that no scalar is needed after the
 	// vector loop (see adamStep512).
@@ -139,6 +145,10 @@ func axpy512(alpha float32, x, y []float32) {
 }
 
 func addTo512(dst, x []float32) {
+	if len(x) < 16 {
+		addToGo(dst, x)
+		return
+	}
 	dst = dst[:len(x)]
 	n := len(x) &^ (16 - 1)
 	addToGo(dst[n:], x[n:])
@@ -198,6 +208,12 @@ func adamStep512(p, g, m, v []float32, lr, b1, b2, eps, bc1, bc2 float32) {
 // ---- AVX2 + FMA ----
 
 func axpy256(alpha float32, x, y []float32) {
+	if len(x) < 8 {
+		// No vector to run: the scalar loop alone, without touching the
+		// vector registers (a wide row of a few labels takes this path).
+		axpyGo(alpha, x, y)
+		return
+	}
 	y = y[:len(x)]
 	// The scalar tail goes first, so that no scalar is needed after the
 	// vector loop (see adamStep256).
@@ -213,6 +229,10 @@ func axpy256(alpha float32, x, y []float32) {
 }
 
 func addTo256(dst, x []float32) {
+	if len(x) < 8 {
+		addToGo(dst, x)
+		return
+	}
 	dst = dst[:len(x)]
 	n := len(x) &^ (8 - 1)
 	addToGo(dst[n:], x[n:])

@@ -149,8 +149,16 @@ type trainer struct {
 	pairOff    []int
 	bigramDrop float64
 	bdRng      *rand.Rand
-	groups     []paramGroup
-	cur        *paramGroup
+
+	// prep holds the found pairs of every text of the split prepare was
+	// given, looked up once; batchRows those of the current batch's texts
+	// (step fills it when the batch comes from that split, collectPairs
+	// consumes it; empty: collectPairs looks the pairs up).
+	prep      pairIndex
+	batchRows [][]int32
+
+	groups []paramGroup
+	cur    *paramGroup
 
 	// ch is the character layer's part (nil for a model without one).
 	ch *charTrain
@@ -249,9 +257,13 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 func (tr *trainer) close() { tr.wk.close() }
 
 // prepare sets the class weights and word-dropout probabilities that the
-// training split d calls for.
+// training split d calls for, and looks up the bigrams of its texts once
+// (Config.WideBigrams). D must not change while steps are taken on it.
 func (tr *trainer) prepare(d Data) {
 	cfg := tr.m.Config
+	if cfg.WideBigrams {
+		tr.prep.build(tr.m, d.IDs)
+	}
 	if tr.tc.ClassWeight == "balanced" {
 		n := make([]int, cfg.Classes)
 		for _, y := range d.Labels {
@@ -314,6 +326,7 @@ func (tr *trainer) step(d Data, idx []int) float64 {
 		tr.labels = append(tr.labels, d.Labels[i])
 	}
 	tr.orig = append(tr.orig[:0], tr.texts...)
+	tr.batchRows = tr.prep.batch(d.IDs, idx, tr.batchRows[:0])
 	if tr.unkP != nil {
 		tr.dropWords()
 	}
@@ -582,10 +595,10 @@ func wideGrad(ids, loc, pairs []int32, dz, wide, unk, big []float32) {
 			continue
 		}
 		li := int(loc[p])
-		axpy(inv, dz, wide[li*C:li*C+C])
+		axpyRow(inv, dz, wide[li*C:li*C+C])
 	}
 	for _, li := range pairs {
-		axpy(inv, dz, big[int(li)*C:int(li)*C+C])
+		axpyRow(inv, dz, big[int(li)*C:int(li)*C+C])
 	}
 }
 

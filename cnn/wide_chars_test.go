@@ -74,7 +74,7 @@ func TestWithUnseenWideBigrams(t *testing.T) {
 	}
 	_, ids := xenc.Encode(text)
 	_, unkIDs := enc.Encode(text)
-	if n, pairs := x.wideCounts(ids); n != 8 || pairs != 3 {
+	if n, pairs := x.wideCounts(ids, nil); n != 8 || pairs != 3 {
 		t.Fatalf("%d words and %d pairs found in %v, want 8 and 3 ((5,9), (9,5), (9,9))", n, pairs, ids)
 	}
 	C := m.Config.Classes
