@@ -343,7 +343,9 @@ func TestBigramDropoutAsPrototype(t *testing.T) {
 // (Model.BigramIndex, the set's definition) at each step: the same rows in
 // the same order, so the same bigram-dropout draws. The texts carry PAD,
 // UNK and pairs outside the set (the set is that of half the split), and
-// word dropout replaces words by UNK after the pairs are found.
+// word dropout replaces words by UNK after the pairs are found. A third run
+// whose prepared rows are emptied must train otherwise: the steps do read
+// the prepared rows.
 func TestPreparedPairsTrainAsLookedUp(t *testing.T) {
 	rng := rand.New(rand.NewPCG(12, 12))
 	d := Data{IDs: randTexts(rng, 120, 14, 25), Labels: make([]int, 120)}
@@ -358,13 +360,18 @@ func TestPreparedPairsTrainAsLookedUp(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	run := func(prepared bool) (*Model, []float64) {
+	run := func(prepared, emptied bool) (*Model, []float64) {
 		m := base.Clone()
 		tr := newTrainer(m, tc)
 		defer tr.close()
 		tr.prepare(d)
 		if !prepared {
 			tr.prep = pairIndex{}
+		}
+		if emptied {
+			for i := range tr.prep.rows {
+				tr.prep.rows[i] = nil
+			}
 		}
 		var losses []float64
 		batches := makeBatches(rand.New(rand.NewPCG(2, 2)), d.IDs, 16, make([]int, d.Len()), nil)
@@ -375,7 +382,7 @@ func TestPreparedPairsTrainAsLookedUp(t *testing.T) {
 					t.Fatalf("prepared %v: %d prepared texts for a batch of %d", prepared, len(rows), len(b))
 				}
 				for k, i := range b {
-					if !prepared {
+					if !prepared || emptied {
 						break
 					}
 					var want []int32
@@ -393,10 +400,13 @@ func TestPreparedPairsTrainAsLookedUp(t *testing.T) {
 		}
 		return m, losses
 	}
-	a, la := run(true)
-	b, lb := run(false)
+	a, la := run(true, false)
+	b, lb := run(false, false)
 	if !slices.Equal(la, lb) {
 		t.Errorf("losses differ:\n prepared %v\n looked up %v", la, lb)
+	}
+	if _, le := run(true, true); slices.Equal(le, lb) {
+		t.Error("emptying the prepared rows changed no loss: the steps do not read them")
 	}
 	same := func(name string, x, y []float32) {
 		for i := range x {

@@ -258,7 +258,8 @@ func (tr *trainer) close() { tr.wk.close() }
 
 // prepare sets the class weights and word-dropout probabilities that the
 // training split d calls for, and looks up the bigrams of its texts once
-// (Config.WideBigrams). D must not change while steps are taken on it.
+// (Config.WideBigrams). Neither d nor the model's bigram set (SetBigrams)
+// may change while steps are taken on d: the prepared rows index both.
 func (tr *trainer) prepare(d Data) {
 	cfg := tr.m.Config
 	if cfg.WideBigrams {

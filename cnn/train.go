@@ -231,9 +231,10 @@ const progressEvery = 10
 // training record. After each epoch the epoch's model (its weights, or with
 // AverageLast the mean of the last epochs' weights) is evaluated on dev
 // (which may be empty); the model of the epoch with the best dev macro-F1
-// (or lowest dev loss, StopOn; the earlier one on ties; with no dev split,
-// the last epoch) is kept, and training stops when Patience epochs pass
-// without improvement. On return m holds those
+// (or lowest dev loss, or with StopMacroF1Loss the lower dev loss of epochs
+// tied on macro-F1: StopOn; otherwise the earlier one on ties; with no dev
+// split, the last epoch) is kept, and training stops when Patience epochs
+// pass without such an improvement. On return m holds those
 // weights, also when ctx is cancelled (then Cancelled is set and the error is
 // nil; if no epoch completed, m holds the weights reached so far). A batch
 // whose loss is NaN or infinite, or a weight that is not finite at the end
