@@ -61,12 +61,28 @@ func loadedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	w, st, q := trainedWindow(t, size)
 	st.auditNow()
 	q.waitFor(t, "the audit", func() bool { return itemGet(st.audit) != nil })
+	explainDeckhand(t, st, q)
+	return w, st, q
+}
+
+// explainedWindow is trainedWindow with a text explained (loadedWindow
+// without the audit).
+func explainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
+	t.Helper()
+	w, st, q := trainedWindow(t, size)
+	explainDeckhand(t, st, q)
+	return w, st, q
+}
+
+// explainDeckhand types a complaint with the planted stamp into Why this
+// label and waits for its explanation.
+func explainDeckhand(t *testing.T, st *State, q *queue) {
+	t.Helper()
 	_ = st.explainText.Set("The deckhand was not friendly at all and my refund never came. TKREF-12345")
 	q.waitFor(t, "the explanation", func() bool {
 		e := st.whyView.shown
 		return e != nil && e.E != nil && strings.HasPrefix(e.Text, "The deckhand")
 	})
-	return w, st, q
 }
 
 // TestEveryViewFits: at 1024×700 and 1366×900 every view fits the window
