@@ -53,8 +53,10 @@ test-portable:
 
 # The race detector over the training, baseline, profiling, audit and
 # GUI-state packages (short mode leaves out the long corpus-scale runs).
+# The longest first (go test schedules the packages in the order given,
+# two at a time), so that the GUI's run does not start last and end alone.
 test-race:
-	CI=true $(GO) test -tags ci -race -short -count=1 -timeout 20m ./corpus ./cnn ./linear ./explain ./audit ./gui
+	CI=true $(GO) test -tags ci -race -short -count=1 -timeout 20m ./gui ./explain ./cnn ./audit ./corpus ./linear
 
 # Each fuzz target for a short, fixed run, from one instrumented test
 # binary per package (scripts/fuzz.sh).
