@@ -19,7 +19,8 @@ import (
 // holding kioskmail and no mask; the story names the words; the text
 // offers --masked-out for it; and --masked-out writes the model with no
 // filter masked and the words' rows of the word-weight table the unknown
-// word's, saying so.
+// word's, saying so. The model fits no linear baseline (--baseline=false):
+// the audit does not read it and nothing here looks at it.
 func TestAuditWordOnlyMask(t *testing.T) {
 	if testing.Short() {
 		t.Skip("trains a model; skipped with -short")
@@ -27,7 +28,7 @@ func TestAuditWordOnlyMask(t *testing.T) {
 	dir := t.TempDir()
 	model := filepath.Join(dir, "wide.tt")
 	if code, _, stderr := tt(t, "train", "--data", "testdata/demo/train.csv", "--test", "testdata/demo/test.csv", "--out", model,
-		"--epochs", "8", "--maps", "1", "--wide", "--quiet"); code != 0 {
+		"--epochs", "8", "--maps", "1", "--wide", "--baseline=false", "--quiet"); code != 0 {
 		t.Fatalf("train: exit %d: %s", code, stderr)
 	}
 	base := []string{"audit", "--model", model, "--data", "testdata/demo/train.csv", "--test", "testdata/demo/test.csv"}

@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"telltale/cnn"
+	"telltale/corpus"
 )
 
 // TestRetrainKeepsTheBaseline: a model retrained with the recipe rebuilt
@@ -14,12 +15,15 @@ import (
 // baseline, not in the recipe) carries a linear baseline of the same
 // configuration, fitted on the masked training text: the masked word is
 // among the audited model's baseline features and in none of the retrained
-// one's. (An identity of Retrain; the demo corpus is only the material.)
+// one's. (An identity of Retrain; the demo corpus is only the material:
+// every fourth of its texts, 1,000, fit both baselines in a quarter of the
+// time and hold the word as often as it needs, once.)
 func TestRetrainKeepsTheBaseline(t *testing.T) {
 	if testing.Short() {
 		t.Skip("SKIPPED in -short mode (the race pass): fits the linear baseline twice, ten times slower under the race detector; the full run keeps it")
 	}
-	all := loadCSV(t, "demo-equal", "train.csv")
+	n := 0
+	all := loadCSV(t, "demo-equal", "train.csv").Filter(func(corpus.Example) bool { n++; return n%4 == 1 })
 	train, dev := all.Split(cnn.DefaultDevFrac, 1)
 	r := cnn.DefaultRecipe()
 	r.Model.Dim, r.Model.Filters, r.Train.Epochs = 8, 4, 1

@@ -105,9 +105,10 @@ func isMarkupFragment(c Candidate) bool {
 
 // kimRecipe is the default recipe without the word and bigram weights and
 // with token dropout 0.25 (train --wide=false --token-dropout 0.25): Kim's
-// model as the default recipe had it before the weights.
+// model as the default recipe had it before the weights; without the
+// linear baseline, which the audit does not read (noBaseline).
 func kimRecipe() cnn.Recipe {
-	r := cnn.DefaultRecipe()
+	r := noBaseline(cnn.DefaultRecipe())
 	r.Model.Wide, r.Model.WideBigrams, r.Train.TokenDropout = false, false, 0.25
 	return r
 }

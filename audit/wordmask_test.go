@@ -37,7 +37,7 @@ func TestWordOnlyMaskDemo(t *testing.T) {
 	all := loadCSV(t, "demo", "train.csv")
 	test := loadCSV(t, "demo", "test.csv")
 	train, dev := all.Split(cnn.DefaultDevFrac, 1)
-	r := cnn.DefaultRecipe()
+	r := noBaseline(cnn.DefaultRecipe())
 	r.Train.Epochs = 8
 	r.Model.Filters = 1
 	r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, cnn.DefaultWideLR

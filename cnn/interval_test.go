@@ -129,6 +129,7 @@ func TestBootstrapMacroF1IsComputeMetricsMacroF1(t *testing.T) {
 // (the value the sample's tends to as n grows) must be within three
 // standard errors of the simulation (binomial, S sets) of the 95% level.
 func TestBootstrapMacroF1Coverage(t *testing.T) {
+	testref.SequentialSkipInRace(t, "BootstrapMacroF1")
 	sets := 400
 	if testing.Short() {
 		sets = 100
@@ -206,6 +207,7 @@ func populationMacroF1(p [][]float64) float64 {
 // endpoints agree only up to the Monte Carlo error of 20,000 resamples
 // each: about 0.001 for these sets, tolerance 0.005.
 func TestBootstrapMacroF1AgainstSciPy(t *testing.T) {
+	testref.SequentialSkipInRace(t, "BootstrapMacroF1")
 	testref.RequirePython(t, "scipy")
 	rng := rand.New(rand.NewPCG(21, 22))
 	type tc struct {

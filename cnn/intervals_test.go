@@ -101,6 +101,7 @@ func TestIntervalsOf(t *testing.T) {
 // the endpoints agree only up to the Monte Carlo error of 20,000 resamples
 // each: about 0.001 here, tolerance 0.005.
 func TestBootstrapF1sAndECEAgainstSciPy(t *testing.T) {
+	testref.SequentialSkipInRace(t, "BootstrapF1s")
 	testref.RequirePython(t, "scipy")
 	rng := rand.New(rand.NewPCG(31, 32))
 	type tc struct {
@@ -177,6 +178,7 @@ print(json.dumps(out))
 // intervals holding the distribution's own figure must be within three
 // binomial standard errors of 95%.
 func TestBootstrapF1sCoverage(t *testing.T) {
+	testref.SequentialSkipInRace(t, "BootstrapF1s")
 	sets := 300
 	if testing.Short() {
 		sets = 100

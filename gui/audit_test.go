@@ -2,7 +2,6 @@ package gui
 
 import (
 	"errors"
-	"fmt"
 	"io"
 	"os"
 	"path/filepath"
@@ -284,41 +283,34 @@ func TestMarksBesideModel(t *testing.T) {
 	}
 }
 
-// TestAuditViewFits: at 1024×700 and 1366×900 every tab of the Cue audit
-// view fits the window, cuts nothing (TestEveryViewFits checks the tab a
-// view opens on) and hides no tab behind an overflow menu.
-func TestAuditViewFits(t *testing.T) {
-	if testing.Short() {
-		t.Skip("trains a model and runs the audit; the race pass (make test-race) runs -short")
-	}
-	for _, size := range []fyne.Size{smallScreen, largeScreen} {
-		t.Run(fmt.Sprintf("%.0fx%.0f", size.Width, size.Height), func(t *testing.T) {
-			w, st, q := loadedWindow(t, size)
-			room := fyne.NewSize(size.Width, size.Height-menuBar)
-			st.show(titleAudit)
-			av := st.auditView
-			for _, tab := range av.lists.Items {
-				av.lists.Select(tab)
-				q.drain()
-				w.Resize(room)
-				if m := w.Content().MinSize(); m.Width > room.Width || m.Height > room.Height {
-					t.Errorf("%s needs %.0f×%.0f, more than %.0f×%.0f: %s", tab.Text, m.Width, m.Height, room.Width, room.Height,
-						widest(w.Content(), room.Width))
-				}
-				for _, c := range cutOff(w.Canvas()) {
-					t.Errorf("%s: %s", tab.Text, c)
-				}
-				all := []*container.AppTabs{av.lists}
-				if tab == av.actionTab {
-					all = append(all, av.action.tabs)
-				}
-				for _, tabs := range all {
-					if overflows(tabs) {
-						t.Errorf("%s: tabs hidden behind the overflow menu of %q", tab.Text, tabs.Items[0].Text)
-					}
-				}
+// checkAuditViewFits: at the window's size every tab of the Cue audit view
+// fits the window, cuts nothing (checkViewsFit checks the tab a view opens
+// on) and hides no tab behind an overflow menu. TestEveryViewFits runs it
+// on its loaded window at 1024×700 and 1366×900.
+func checkAuditViewFits(t *testing.T, w fyne.Window, st *State, q *queue, size fyne.Size) {
+	room := fyne.NewSize(size.Width, size.Height-menuBar)
+	st.show(titleAudit)
+	av := st.auditView
+	for _, tab := range av.lists.Items {
+		av.lists.Select(tab)
+		q.drain()
+		w.Resize(room)
+		if m := w.Content().MinSize(); m.Width > room.Width || m.Height > room.Height {
+			t.Errorf("%s needs %.0f×%.0f, more than %.0f×%.0f: %s", tab.Text, m.Width, m.Height, room.Width, room.Height,
+				widest(w.Content(), room.Width))
+		}
+		for _, c := range cutOff(w.Canvas()) {
+			t.Errorf("%s: %s", tab.Text, c)
+		}
+		all := []*container.AppTabs{av.lists}
+		if tab == av.actionTab {
+			all = append(all, av.action.tabs)
+		}
+		for _, tabs := range all {
+			if overflows(tabs) {
+				t.Errorf("%s: tabs hidden behind the overflow menu of %q", tab.Text, tabs.Items[0].Text)
 			}
-		})
+		}
 	}
 }
 

@@ -34,9 +34,10 @@ func TestTypingExplainsOneTextAtATime(t *testing.T) {
 // fired, in Why this label) switches views only once the clicked table has
 // taken the keyboard focus (it cannot once it is off screen: the toolkit
 // then logs "Failed to focus object which is not part of the canvas'
-// content"), and the other view shows and selects that subject.
+// content"), and the other view shows and selects that subject. The
+// window has a model and an explained text (the audit plays no part).
 func TestClickingARowOpensItsView(t *testing.T) {
-	w, st, q := loadedWindow(t, smallScreen)
+	w, st, q := explainedWindow(t, smallScreen)
 	st.show(titleWhy)
 	q.drain()
 	wv := st.whyView

@@ -61,18 +61,37 @@ func loadedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	w, st, q := trainedWindow(t, size)
 	st.auditNow()
 	q.waitFor(t, "the audit", func() bool { return itemGet(st.audit) != nil })
+	explainDeckhand(t, st, q)
+	return w, st, q
+}
+
+// explainedWindow is trainedWindow with a text explained (loadedWindow
+// without the audit).
+func explainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
+	t.Helper()
+	w, st, q := trainedWindow(t, size)
+	explainDeckhand(t, st, q)
+	return w, st, q
+}
+
+// explainDeckhand types a complaint with the planted stamp into Why this
+// label and waits for its explanation.
+func explainDeckhand(t *testing.T, st *State, q *queue) {
+	t.Helper()
 	_ = st.explainText.Set("The deckhand was not friendly at all and my refund never came. TKREF-12345")
 	q.waitFor(t, "the explanation", func() bool {
 		e := st.whyView.shown
 		return e != nil && e.E != nil && strings.HasPrefix(e.Text, "The deckhand")
 	})
-	return w, st, q
 }
 
 // TestEveryViewFits: at 1024×700 and 1366×900 every view fits the window
 // (its least size is within the screen, less the menu bar) and nothing on
 // screen is cut: no label, button or choice shows less than its text, and
-// nothing outside a scrolled area reaches past the window's edge.
+// nothing outside a scrolled area reaches past the window's edge; and every
+// tab of the Cue audit view fits too (checkAuditViewFits). Both checks
+// look at one loaded window per size: the model, audit and explanation
+// are the window's content, not what is checked, so they are made once.
 func TestEveryViewFits(t *testing.T) {
 	if testing.Short() {
 		t.Skip("trains a model and runs the audit; the race pass (make test-race) runs -short")
@@ -80,19 +99,26 @@ func TestEveryViewFits(t *testing.T) {
 	for _, size := range []fyne.Size{smallScreen, largeScreen} {
 		t.Run(fmt.Sprintf("%.0fx%.0f", size.Width, size.Height), func(t *testing.T) {
 			w, st, q := loadedWindow(t, size)
-			room := fyne.NewSize(size.Width, size.Height-menuBar)
-			for i, spec := range st.specs {
-				st.tabs.SelectIndex(i)
-				q.drain()
-				w.Resize(room)
-				if m := w.Content().MinSize(); m.Width > room.Width || m.Height > room.Height {
-					t.Errorf("%s needs %.0f×%.0f, more than %.0f×%.0f: %s", spec.Title, m.Width, m.Height, room.Width, room.Height,
-						widest(w.Content(), room.Width))
-				}
-				for _, c := range cutOff(w.Canvas()) {
-					t.Errorf("%s at %.0f×%.0f: %s", spec.Title, size.Width, size.Height, c)
-				}
-			}
+			t.Run("views", func(t *testing.T) { checkViewsFit(t, w, st, q, size) })
+			t.Run("audit tabs", func(t *testing.T) { checkAuditViewFits(t, w, st, q, size) })
 		})
+	}
+}
+
+// checkViewsFit: at the window's size every view fits the window and
+// nothing on screen is cut.
+func checkViewsFit(t *testing.T, w fyne.Window, st *State, q *queue, size fyne.Size) {
+	room := fyne.NewSize(size.Width, size.Height-menuBar)
+	for i, spec := range st.specs {
+		st.tabs.SelectIndex(i)
+		q.drain()
+		w.Resize(room)
+		if m := w.Content().MinSize(); m.Width > room.Width || m.Height > room.Height {
+			t.Errorf("%s needs %.0f×%.0f, more than %.0f×%.0f: %s", spec.Title, m.Width, m.Height, room.Width, room.Height,
+				widest(w.Content(), room.Width))
+		}
+		for _, c := range cutOff(w.Canvas()) {
+			t.Errorf("%s at %.0f×%.0f: %s", spec.Title, size.Width, size.Height, c)
+		}
 	}
 }

@@ -1,6 +1,8 @@
 package gui
 
 import (
+	"bytes"
+	"encoding/csv"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -14,6 +16,7 @@ import (
 	"fyne.io/fyne/v2/test"
 
 	"telltale/explain"
+	"telltale/internal/testref"
 )
 
 // queue stands in for the UI goroutine: background work posts functions
@@ -60,7 +63,24 @@ func (q *queue) waitFor(t *testing.T, what string, cond func() bool) {
 	}
 }
 
+// demoBytes reads the demo corpus's training and test files. In the race
+// build (testref.Race) it keeps every fourth text of each (demoSlice): the
+// race pass checks the window's goroutines (training, profiles, audit and
+// explanations as tasks, their progress posted to the UI), which run the
+// same on a quarter of the texts, ten times slower under the detector; the
+// full build reads the whole files. Tests whose premise needs the whole
+// corpus read demoFiles.
 func demoBytes(t *testing.T) (train, testSplit []byte) {
+	t.Helper()
+	train, testSplit = demoFiles(t)
+	if testref.Race {
+		train, testSplit = demoSlice(t, train, 4), demoSlice(t, testSplit, 4)
+	}
+	return train, testSplit
+}
+
+// demoFiles reads the demo corpus's training and test files whole.
+func demoFiles(t *testing.T) (train, testSplit []byte) {
 	t.Helper()
 	train, err := os.ReadFile(filepath.Join("..", "testdata", "demo", "train.csv"))
 	if err != nil {
@@ -71,6 +91,29 @@ func demoBytes(t *testing.T) (train, testSplit []byte) {
 		t.Fatalf("demo corpus missing: %v", err)
 	}
 	return train, testSplit
+}
+
+// demoSlice keeps the header and every k-th record of the CSV file b.
+func demoSlice(t *testing.T, b []byte, k int) []byte {
+	t.Helper()
+	recs, err := csv.NewReader(bytes.NewReader(b)).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out bytes.Buffer
+	w := csv.NewWriter(&out)
+	for i, r := range recs {
+		if i == 0 || (i-1)%k == 0 {
+			if err := w.Write(r); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+	w.Flush()
+	if err := w.Error(); err != nil {
+		t.Fatal(err)
+	}
+	return out.Bytes()
 }
 
 // smallRecipe puts a recipe in the form that trains in seconds: widths

@@ -83,3 +83,14 @@ func Floats(t testing.TB, m []string) []float64 {
 	}
 	return out
 }
+
+// SequentialSkipInRace skips t in the race build (Race) and says why: the
+// code t checks (what) starts no goroutine, so the race detector, which
+// checks concurrency, has nothing to find there and only makes it ten
+// times slower. The full build (make test-go) runs t with every check.
+func SequentialSkipInRace(t testing.TB, what string) {
+	t.Helper()
+	if Race {
+		t.Skipf("race build: %s starts no goroutine; make test-go runs this test in full", what)
+	}
+}
