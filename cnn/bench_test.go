@@ -61,9 +61,15 @@ func BenchmarkTrainStep(b *testing.B) {
 // --wide=false: no word or bigram weights), the cost the default recipe's
 // weights beside the filters are measured against.
 func BenchmarkTrainStepKim(b *testing.B) {
+	benchTrainStep(b, kimModel())
+}
+
+// kimModel is the default recipe's model without the word and bigram
+// weights (train --wide=false).
+func kimModel() Config {
 	cfg := DefaultRecipe().Model
 	cfg.Wide, cfg.WideBigrams = false, false
-	benchTrainStep(b, cfg)
+	return cfg
 }
 
 func benchTrainStep(b *testing.B, cfg Config) {
@@ -117,9 +123,7 @@ func BenchmarkPredict(b *testing.B) {
 // or bigram weights), the cost of the default's wide term measured
 // against it.
 func BenchmarkPredictKim(b *testing.B) {
-	cfg := DefaultRecipe().Model
-	cfg.Wide, cfg.WideBigrams = false, false
-	benchPredict(b, cfg)
+	benchPredict(b, kimModel())
 }
 
 func benchPredict(b *testing.B, cfg Config) {

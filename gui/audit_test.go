@@ -288,20 +288,11 @@ func TestMarksBesideModel(t *testing.T) {
 // on) and hides no tab behind an overflow menu. TestEveryViewFits runs it
 // on its loaded window at 1024×700 and 1366×900.
 func checkAuditViewFits(t *testing.T, w fyne.Window, st *State, q *queue, size fyne.Size) {
-	room := fyne.NewSize(size.Width, size.Height-menuBar)
 	st.show(titleAudit)
 	av := st.auditView
 	for _, tab := range av.lists.Items {
 		av.lists.Select(tab)
-		q.drain()
-		w.Resize(room)
-		if m := w.Content().MinSize(); m.Width > room.Width || m.Height > room.Height {
-			t.Errorf("%s needs %.0f×%.0f, more than %.0f×%.0f: %s", tab.Text, m.Width, m.Height, room.Width, room.Height,
-				widest(w.Content(), room.Width))
-		}
-		for _, c := range cutOff(w.Canvas()) {
-			t.Errorf("%s: %s", tab.Text, c)
-		}
+		checkFits(t, w, q, size, tab.Text)
 		all := []*container.AppTabs{av.lists}
 		if tab == av.actionTab {
 			all = append(all, av.action.tabs)

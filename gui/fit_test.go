@@ -108,17 +108,25 @@ func TestEveryViewFits(t *testing.T) {
 // checkViewsFit: at the window's size every view fits the window and
 // nothing on screen is cut.
 func checkViewsFit(t *testing.T, w fyne.Window, st *State, q *queue, size fyne.Size) {
-	room := fyne.NewSize(size.Width, size.Height-menuBar)
 	for i, spec := range st.specs {
 		st.tabs.SelectIndex(i)
-		q.drain()
-		w.Resize(room)
-		if m := w.Content().MinSize(); m.Width > room.Width || m.Height > room.Height {
-			t.Errorf("%s needs %.0f×%.0f, more than %.0f×%.0f: %s", spec.Title, m.Width, m.Height, room.Width, room.Height,
-				widest(w.Content(), room.Width))
-		}
-		for _, c := range cutOff(w.Canvas()) {
-			t.Errorf("%s at %.0f×%.0f: %s", spec.Title, size.Width, size.Height, c)
-		}
+		checkFits(t, w, q, size, spec.Title)
+	}
+}
+
+// checkFits drains the queue, then checks that what the window shows (named
+// what) fits a window of the given size, below the menu bar, and that
+// nothing on screen is cut.
+func checkFits(t *testing.T, w fyne.Window, q *queue, size fyne.Size, what string) {
+	t.Helper()
+	room := fyne.NewSize(size.Width, size.Height-menuBar)
+	q.drain()
+	w.Resize(room)
+	if m := w.Content().MinSize(); m.Width > room.Width || m.Height > room.Height {
+		t.Errorf("%s needs %.0f×%.0f, more than %.0f×%.0f: %s", what, m.Width, m.Height, room.Width, room.Height,
+			widest(w.Content(), room.Width))
+	}
+	for _, c := range cutOff(w.Canvas()) {
+		t.Errorf("%s at %.0f×%.0f: %s", what, size.Width, size.Height, c)
 	}
 }
