@@ -35,7 +35,7 @@
 // --text, the reference training script from the same text with its own
 // tokenizing; with the linear baseline and with --baseline=false, both set
 // beside the same reference runs), filters (1M synthetic texts), explain (texts of exactly 200
-// tokens written by explain-input; one text, then 100, so that the cost of
+// tokens written by explain-input; one text, then 1,000, so that the cost of
 // each explanation beyond the first is the difference) and audit
 // (SpamAssassin; 100k synthetic texts). Predict is set beside the
 // reference's eval-mode forward alone on the same texts (reference.py
