@@ -75,6 +75,10 @@ var variants = map[string]func(r *cnn.Recipe){
 	"widelr100":  func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 100 },
 	"widelr300":  func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 300 },
 	"widelr1000": func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 1000 },
+	// the word and bigram weights trained by a row-sparse ("lazy") Adam:
+	// rows the batch does not touch keep their values and moments
+	// (cnn.TrainConfig.WideSparse)
+	"lazywide": func(r *cnn.Recipe) { r.Train.WideSparse = true },
 }
 
 // kim turns the word and bigram weights off and token dropout back to 0.25.
