@@ -789,8 +789,10 @@ func (tr *trainer) opt(_, lo, hi int) {
 // torch/optim/_functional.py, sparse_adam: "a lazy version of Adam") to
 // the rows of group g with gradient in this step, *g.rows; the other rows
 // keep their values and moments. g.steps counts every step of the group,
-// as SparseAdam's one step count per parameter tensor. Each row is listed
-// once (SparseAdam coalesces its gradient first).
+// as SparseAdam's one step count per parameter tensor (SparseAdam skips a
+// tensor without gradient, so the counts part only after a batch that
+// touches none of the table's rows, as one without a found pair). Each
+// row must be listed once (SparseAdam coalesces its gradient first).
 func (tr *trainer) lazyAdam(g *paramGroup) {
 	tc := tr.tc
 	lr := tr.lr
