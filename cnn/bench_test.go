@@ -72,11 +72,29 @@ func kimModel() Config {
 	return cfg
 }
 
+// BenchmarkTrainStepWideSparse is BenchmarkTrainStep with the word and
+// bigram weights trained by the row-sparse Adam (TrainConfig.WideSparse):
+// the step updates the batch's rows of the two tables, not all of them.
+func BenchmarkTrainStepWideSparse(b *testing.B) {
+	tc := DefaultRecipe().Train
+	tc.WideSparse = true
+	benchTrainStepWith(b, DefaultRecipe().Model, tc)
+}
+
 func benchTrainStep(b *testing.B, cfg Config) {
+	benchTrainStepWith(b, cfg, DefaultRecipe().Train)
+}
+
+// benchTrainStepWith is one training step of the model cfg with the
+// training settings tc on the benchmark corpus.
+func benchTrainStepWith(b *testing.B, cfg Config, tc TrainConfig) {
 	const vocab = 20000
 	d := benchCorpus(1000, vocab)
 	m := benchModelOf(b, cfg, d, vocab)
-	tc, _ := DefaultRecipe().Train.WithDefaults()
+	tc, err := tc.WithDefaults()
+	if err != nil {
+		b.Fatal(err)
+	}
 	tr := newTrainer(m, tc)
 	defer tr.close()
 	tr.prepare(d)
@@ -178,4 +196,40 @@ func BenchmarkTrainStepChars(b *testing.B) {
 		tr.step(d, batches[i%len(batches)])
 	}
 	b.ReportMetric(float64(50*b.N)/b.Elapsed().Seconds(), "examples/s")
+}
+
+// BenchmarkWideUpdate is the optimizer step alone (trainer.update, every
+// weight) after one batch of the benchmark corpus with the default recipe,
+// the word and bigram weights updated densely and row-sparse
+// (TrainConfig.WideSparse); it reports the values of the two tables the
+// step updates.
+func BenchmarkWideUpdate(b *testing.B) {
+	for _, sparse := range []bool{false, true} {
+		name := map[bool]string{false: "dense", true: "sparse"}[sparse]
+		b.Run(name, func(b *testing.B) {
+			const vocab = 20000
+			d := benchCorpus(1000, vocab)
+			m := benchModel(b, d, vocab)
+			tc := DefaultRecipe().Train
+			tc.WideSparse = sparse
+			tc, err := tc.WithDefaults()
+			if err != nil {
+				b.Fatal(err)
+			}
+			tr := newTrainer(m, tc)
+			defer tr.close()
+			tr.prepare(d)
+			batch := makeBatches(rand.New(rand.NewPCG(1, 1)), d.IDs, 50, make([]int, d.Len()), nil)[0]
+			tr.step(d, batch)                                       // fills the batch's rows
+			n := len(m.Wide) - m.Config.Classes + len(m.WideBigram) // the PAD row is never trained
+			if sparse {
+				n = (len(tr.wideRows) + len(tr.bs.rows)) * m.Config.Classes
+			}
+			b.ResetTimer()
+			for i := 0; i < b.N; i++ {
+				tr.update()
+			}
+			b.ReportMetric(float64(n), "table-values/step")
+		})
+	}
 }

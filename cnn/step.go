@@ -3,6 +3,7 @@ package cnn
 import (
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sync"
 
 	"telltale/corpus"
@@ -83,12 +84,18 @@ type threadBuf struct {
 // decay marks the weights that weight decay shrinks (not the biases), head
 // the output layer's (trained alone in the head warm-up), and steps counts
 // the optimizer steps the group has taken (Adam's bias correction);
-// lrMul multiplies the learning rate (0 means 1).
+// lrMul multiplies the learning rate (0 means 1). A group with rows set
+// is a table trained row-sparse (TrainConfig.WideSparse): *rows lists the
+// table rows with gradient in the current step, row r being
+// p[(r−first)·width:(r−first+1)·width] (first: the table rows left out of
+// p in front, as the PAD row).
 type paramGroup struct {
 	p, g, s1, s2 []float32
 	decay, head  bool
 	steps        int
 	lrMul        float64
+	rows         *[]int32
+	first, width int
 }
 
 // trainer holds everything a training step needs, allocated once.
@@ -136,6 +143,11 @@ type trainer struct {
 	gEmb  []float32 // full-size embedding gradient, zero outside the batch's rows
 	gWide []float32 // full-size gradient of Model.Wide, zero outside the batch's rows
 	gBig  []float32 // full-size gradient of Model.WideBigram, zero outside the batch's rows
+
+	// wideRows are the rows of Model.Wide with gradient in the current
+	// step: the batch's words, and UNK when a text has no word
+	// (scatterWide fills it).
+	wideRows []int32
 
 	// The batch's bigrams (Config.WideBigrams): bs holds their rows of
 	// Model.WideBigram, pairs the local index in bs of each found pair of
@@ -224,12 +236,20 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 		tr.gWide = make([]float32, len(m.Wide))
 		add(m.Wide[cfg.Classes:], tr.gWide[cfg.Classes:], true)
 		tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
+		if tc.WideSparse {
+			g := &tr.groups[len(tr.groups)-1]
+			g.rows, g.first, g.width = &tr.wideRows, 1, cfg.Classes
+		}
 	}
 	if cfg.WideBigrams {
 		// As the word weights: weight decay, the same factor on the rate.
 		tr.gBig = make([]float32, len(m.WideBigram))
 		add(m.WideBigram, tr.gBig, true)
 		tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
+		if tc.WideSparse {
+			g := &tr.groups[len(tr.groups)-1]
+			g.rows, g.width = &tr.bs.rows, cfg.Classes
+		}
 		tr.bs.init(len(m.Bigrams))
 		if tc.TokenDropout > 0 {
 			tr.bigramDrop = tc.TokenDropout
@@ -653,6 +673,8 @@ func (tr *trainer) reduce(_, lo, hi int) {
 
 // scatterWide copies the batch words' wide-table gradients into gWide and
 // adds UNK's share from texts with no non-PAD id, summed in thread order.
+// It lists the rows with gradient in tr.wideRows: the batch's words, and
+// UNK when a text has no non-PAD id and UNK is not one of the words.
 func (tr *trainer) scatterWide() {
 	C := tr.m.Config.Classes
 	for i, id := range tr.ws.words {
@@ -662,6 +684,20 @@ func (tr *trainer) scatterWide() {
 	for k := range tr.th {
 		addTo(unk, tr.th[k].wideUNK)
 	}
+	tr.wideRows = append(tr.wideRows[:0], tr.ws.words...)
+	if tr.ws.local[corpus.UNK] < 0 && tr.hasWordless() {
+		tr.wideRows = append(tr.wideRows, corpus.UNK)
+	}
+}
+
+// hasWordless reports whether a text of the batch has no non-PAD id.
+func (tr *trainer) hasWordless() bool {
+	for _, ids := range tr.texts {
+		if !slices.ContainsFunc(ids, func(id int32) bool { return id != corpus.PAD }) {
+			return true
+		}
+	}
+	return false
 }
 
 // unscatterWide zeroes the batch words' rows and UNK's row of gWide again.
@@ -702,6 +738,10 @@ func (tr *trainer) update() {
 		}
 		tr.cur = &tr.groups[i]
 		tr.cur.steps++
+		if tr.cur.rows != nil {
+			tr.lazyAdam(tr.cur)
+			continue
+		}
 		tr.wk.run(len(tr.cur.p), tr.fnOpt)
 	}
 	tr.cur = nil
@@ -743,6 +783,31 @@ func (tr *trainer) opt(_, lo, hi int) {
 	bc2 := 1 - math.Pow(tc.Beta2, float64(g.steps))
 	adamStep(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi],
 		float32(lr), float32(tc.Beta1), float32(tc.Beta2), float32(tc.Eps), float32(bc1), float32(bc2))
+}
+
+// lazyAdam applies torch.optim.SparseAdam's step (PyTorch,
+// torch/optim/_functional.py, sparse_adam: "a lazy version of Adam") to
+// the rows of group g with gradient in this step, *g.rows; the other rows
+// keep their values and moments. g.steps counts every step of the group,
+// as SparseAdam's one step count per parameter tensor (SparseAdam skips a
+// tensor without gradient, so the counts part only after a batch that
+// touches none of the table's rows, as one without a found pair). Each
+// row must be listed once (SparseAdam coalesces its gradient first).
+func (tr *trainer) lazyAdam(g *paramGroup) {
+	tc := tr.tc
+	lr := tr.lr
+	if g.lrMul > 0 {
+		lr *= g.lrMul
+	}
+	bc1 := 1 - math.Pow(tc.Beta1, float64(g.steps))
+	bc2 := 1 - math.Pow(tc.Beta2, float64(g.steps))
+	step := float32(lr * math.Sqrt(bc2) / bc1)
+	w := g.width
+	for _, r := range *g.rows {
+		o := (int(r) - g.first) * w
+		sparseAdamRow(g.p[o:o+w], g.g[o:o+w], g.s1[o:o+w], g.s2[o:o+w],
+			float32(1-tc.Beta1), float32(1-tc.Beta2), float32(tc.Eps), step)
+	}
 }
 
 // maxNormRows rescales every row (of n values) of w whose L2 norm exceeds s

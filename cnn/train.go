@@ -91,6 +91,18 @@ type TrainConfig struct {
 	// WideLR multiplies the learning rate (and so the decoupled weight
 	// decay) of the wide word-weight table (Config.Wide); 0 means 1.
 	WideLR float64 `json:"wide_lr,omitempty"`
+	// WideSparse trains the word and bigram weight tables (Config.Wide,
+	// WideBigrams) with a row-sparse ("lazy") Adam, as
+	// torch.optim.SparseAdam does: in each step only the rows the batch
+	// touches (its words after word dropout, UNK's row when a text has no
+	// word, its kept pairs) get the Adam update, with their own moments;
+	// every other row keeps its value and moments, instead of moving on
+	// its momentum. The step count of the bias correction is one per table,
+	// counted every step, as SparseAdam keeps one per parameter tensor. The
+	// step costs the batch's rows, not the whole tables. It needs the Adam
+	// optimizer and refuses WeightDecay (SparseAdam has none); without wide
+	// tables it changes nothing.
+	WideSparse bool `json:"wide_sparse,omitempty"`
 }
 
 // WithDefaults returns tc with every zero field set to its default, or an
@@ -159,6 +171,10 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: learning-rate decay %g: must be in [0, 1] (0: none)", tc.LRDecay)
 	case !(tc.WideLR >= 0) || math.IsInf(tc.WideLR, 0) || tc.WeightDecay*tc.LR*tc.WideLR >= 1:
 		return tc, fmt.Errorf("cnn: wide learning-rate factor %g: must be 0 (1×) or positive, with decay × learning rate × factor below 1", tc.WideLR)
+	case tc.WideSparse && tc.Optimizer != "adam":
+		return tc, fmt.Errorf("cnn: sparse word weights need the adam optimizer, not %s: choose adam or turn the sparse update off", tc.Optimizer)
+	case tc.WideSparse && tc.WeightDecay > 0:
+		return tc, fmt.Errorf("cnn: sparse word weights with weight decay %g: the sparse update has no weight decay; set weight decay 0 or turn the sparse update off", tc.WeightDecay)
 	}
 	return tc, nil
 }

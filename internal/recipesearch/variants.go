@@ -75,6 +75,14 @@ var variants = map[string]func(r *cnn.Recipe){
 	"widelr100":  func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 100 },
 	"widelr300":  func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 300 },
 	"widelr1000": func(r *cnn.Recipe) { r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR = true, false, 1000 },
+	// the word and bigram weights trained by a row-sparse ("lazy") Adam:
+	// rows the batch does not touch keep their values and moments
+	// (cnn.TrainConfig.WideSparse)
+	"lazywide": func(r *cnn.Recipe) { r.Train.WideSparse = true },
+	// the factor on the word and bigram weights' rate alone, the bigram
+	// weights kept (to pair with lazywide, whose rare rows move less)
+	"wlr300":  func(r *cnn.Recipe) { r.Train.WideLR = 300 },
+	"wlr1000": func(r *cnn.Recipe) { r.Train.WideLR = 1000 },
 }
 
 // kim turns the word and bigram weights off and token dropout back to 0.25.
