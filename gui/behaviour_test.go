@@ -10,6 +10,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/internal/glossary"
+	"telltale/internal/testref"
 	"telltale/internal/version"
 )
 
@@ -160,6 +161,7 @@ func walkObjects(o fyne.CanvasObject, fn func(fyne.CanvasObject)) {
 // Help › About names the version and the three cautions; Help › Glossary
 // lists every term of internal/glossary.
 func TestHelp(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the Help menu's About text and Glossary dialog (no task, the UI run in place)")
 	a := test.NewTempApp(t)
 	st := newState(a, Options{}, func(f func()) { f() })
 	st.win = a.NewWindow("help")

@@ -17,6 +17,7 @@ import (
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/internal/atomicfile"
+	"telltale/internal/testref"
 )
 
 // saveState is a State with its views on a window (nothing opened), the
@@ -259,6 +260,7 @@ func TestValidFileName(t *testing.T) {
 // the path itself, one through "..", a symbolic link, a hard link — and
 // keeps its bytes.
 func TestSaveRefusesTheWindowsInputs(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the save dialog's check of the window's inputs (no task, the UI run in place)")
 	dir := t.TempDir()
 	inputs := map[string]string{"data": "data.csv", "test": "test.csv", "model": "model.tt"}
 	for _, name := range inputs {
