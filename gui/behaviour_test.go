@@ -17,7 +17,7 @@ import (
 // Typing a text explains one text at a time: however fast the keys come,
 // at most one explanation runs, and the last text typed is the one shown.
 func TestTypingExplainsOneTextAtATime(t *testing.T) {
-	_, st, q := trainedWindow(t, smallScreen)
+	_, st, q := leanWindow(t, smallScreen)
 	wv := st.whyView
 	wv.entry.SetText("")
 	q.drain()
@@ -106,7 +106,7 @@ func TestEmptyStates(t *testing.T) {
 // Training view has no progress figure of its own: the status bar's bar is
 // the window's one progress figure.
 func TestNewRunStartsClean(t *testing.T) {
-	_, st, q := trainedWindow(t, smallScreen)
+	_, st, q := leanWindow(t, smallScreen)
 	tv := st.trainingView
 	if len(tv.epochs.rows) == 0 {
 		t.Fatal("the finished run shows no epochs")

@@ -65,11 +65,11 @@ func loadedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	return w, st, q
 }
 
-// explainedWindow is trainedWindow with a text explained (loadedWindow
-// without the audit).
+// explainedWindow is leanWindow with a text explained (loadedWindow
+// without the audit and the linear baseline).
 func explainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	t.Helper()
-	w, st, q := trainedWindow(t, size)
+	w, st, q := leanWindow(t, size)
 	explainDeckhand(t, st, q)
 	return w, st, q
 }
