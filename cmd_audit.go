@@ -440,9 +440,12 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 	})
 }
 
-// train trains one more model with recipe and seed on the model's splits.
+// train trains one more model with recipe and seed on the model's splits,
+// for --seeds: without the recipe's linear baseline, which the audit never
+// reads and which is not kept (the model is audited, then dropped).
 func (r *auditRun) train(ctx context.Context, recipe cnn.Recipe, seed uint64, what string) (*cnn.Model, error) {
 	recipe.Train.Seed = seed
+	recipe.Baseline = nil
 	tr, err := cnn.TrainText(ctx, r.es.train, r.es.dev, recipe, func(p cnn.Progress) {
 		if p.Phase == "train" {
 			r.bar.show(p.Batch, p.Batches, fmt.Sprintf("%s: epoch %d/%d", what, p.Epoch, p.Epochs), false)

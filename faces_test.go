@@ -186,8 +186,9 @@ func jsonNumbersClose(a, b []byte) (string, bool) {
 // words at the negative slots of each negative n-gram.
 func TestFiltersTextAndReopen(t *testing.T) {
 	model := filepath.Join(t.TempDir(), "m.tt")
+	// filters reads no linear baseline: none is fitted.
 	if code, _, stderr := tt(t, "train", "--data", demoPart(t, t.TempDir(), 1000), "--out", model, "--epochs", "1", "--dim", "16",
-		"--maps", "60", "--threads", "1", "--quiet"); code != 0 {
+		"--maps", "60", "--threads", "1", "--baseline=false", "--quiet"); code != 0 {
 		t.Fatalf("train: exit %d: %s", code, stderr)
 	}
 	data := filepath.Join("testdata", "demo", "train.csv")

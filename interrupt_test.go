@@ -19,15 +19,46 @@ import (
 	"telltale/cnn"
 )
 
-// buildBinary builds the command with the ci tag into a temporary folder.
+// built is the binary buildBinary makes once for the package's tests, in a
+// folder of its own that TestMain removes at the end.
+var built struct {
+	once sync.Once
+	dir  string
+	bin  string
+	err  error
+}
+
+// buildBinary builds the command with the ci tag into a temporary folder,
+// once for all the tests of the package (each go build links the whole
+// program again), and returns its path. Callers only run the binary; the
+// folder holds nothing else.
 func buildBinary(t *testing.T) string {
 	t.Helper()
-	bin := filepath.Join(t.TempDir(), "telltale")
-	cmd := exec.Command("go", "build", "-tags", "ci", "-o", bin, ".")
-	if out, err := cmd.CombinedOutput(); err != nil {
-		t.Fatalf("go build: %v\n%s", err, out)
+	built.once.Do(func() {
+		if built.dir, built.err = os.MkdirTemp("", "telltale-test-bin-"); built.err != nil {
+			return
+		}
+		bin := filepath.Join(built.dir, "telltale")
+		cmd := exec.Command("go", "build", "-tags", "ci", "-o", bin, ".")
+		if out, err := cmd.CombinedOutput(); err != nil {
+			built.err = fmt.Errorf("go build: %v\n%s", err, out)
+			return
+		}
+		built.bin = bin
+	})
+	if built.err != nil {
+		t.Fatal(built.err)
 	}
-	return bin
+	return built.bin
+}
+
+// TestMain runs the tests, then removes the binary buildBinary made.
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if built.dir != "" {
+		os.RemoveAll(built.dir)
+	}
+	os.Exit(code)
 }
 
 // startTrain starts `telltale train` with args (see startCommand).

@@ -5,6 +5,8 @@ import (
 	"path/filepath"
 	"reflect"
 	"testing"
+
+	"telltale/internal/testref"
 )
 
 // The fast paths of the tokenizer (TokenizeN, TokenizeForN, Encode's cut,
@@ -47,6 +49,7 @@ func encodeTexts(t *testing.T) []string {
 }
 
 func TestTokenizeNIsPrefix(t *testing.T) {
+	testref.SequentialSkipInRace(t, "TokenizeN against Tokenize")
 	texts := encodeTexts(t)
 	for _, cfg := range []TokenizerConfig{{Lower: true}, {}, {KeepForm: true, Lower: true}} {
 		tok, _ := NewTokenizer(cfg)
@@ -75,6 +78,10 @@ func demoEncoder(t *testing.T, cfg TokenizerConfig) (*Encoder, []string) {
 }
 
 func TestAppendIDsMatchesReference(t *testing.T) {
+	// TrainEncoder's goroutines (countWords) stay in the race pass with
+	// TestCountWordsMatchesTokenize, TestAppendIDsAllocations and
+	// TestTrainEncoderSplitsRareWords.
+	testref.SequentialSkipInRace(t, "AppendIDs and Encode against Vocab.Encode")
 	texts := encodeTexts(t)
 	cases := []struct {
 		name string

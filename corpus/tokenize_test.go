@@ -11,6 +11,8 @@ import (
 	"unicode/utf8"
 
 	"golang.org/x/text/unicode/norm"
+
+	"telltale/internal/testref"
 )
 
 // offsetCases are texts whose tokens must map back onto their exact
@@ -342,6 +344,7 @@ func isASCII(s string) bool {
 // U+FFFD or not in NFKC form (its defects, see libraryFailures), normalize
 // must return NFKC-normal text without removed characters instead.
 func TestNormalizeMatchesLibrary(t *testing.T) {
+	testref.SequentialSkipInRace(t, "normalize against the library")
 	seen := map[string]bool{}
 	words := append([]string(nil), nonASCIIWords...)
 	for _, w := range words {
@@ -444,6 +447,7 @@ func compareSplit(t *testing.T, tok *Tokenizer, what string, texts []string) {
 }
 
 func TestSplitMatchesReference(t *testing.T) {
+	testref.SequentialSkipInRace(t, "split against splitReference")
 	extra := append(append([]string(nil), offsetCases...),
 		"ABC def, GHI!", "a\x01b\x7fc", "\x01\x02", "<html><BR>x=\"+1\">", "!\u0301", "A\u0300B",
 		"Ŀǰ Ǳΰ", "tab\vvt\fff\u0085nel\u2028ls", "\xff\xfe", "😀x😀", "\u200b\u00ad", "\ufffd\ufffdab",

@@ -24,12 +24,13 @@ type bruteNeg struct {
 func bruteWindows(m *cnn.Model, ids [][]int32, g int) map[string]*bruteNeg {
 	out := map[string]*bruteNeg{}
 	w := m.FilterWidth(g)
+	var key []byte
 	for i, text := range ids {
 		x := cnn.Padded(text, m.Config.MaxWidth())
 		for t := 0; t+w <= len(x); t++ {
 			win := x[t : t+w]
-			k := ngramKey(win)
-			b, ok := out[k]
+			key = appendNgramKey(key[:0], win)
+			b, ok := out[string(key)]
 			if !ok {
 				b = &bruteNeg{a: float64(m.FilterBias(g)), p: float64(m.FilterBias(g)), ids: slices.Clone(win)}
 				for s := 0; s < w; s++ {
@@ -37,7 +38,7 @@ func bruteWindows(m *cnn.Model, ids [][]int32, g int) map[string]*bruteNeg {
 					b.a += v
 					b.p += math.Max(v, 0)
 				}
-				out[k] = b
+				out[string(key)] = b
 			}
 			b.count++
 			if !slices.Contains(b.examples, i) {

@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"slices"
 	"sort"
+	"strconv"
 	"sync/atomic"
 	"testing"
 
@@ -32,10 +33,7 @@ func bruteWinners(m *cnn.Model, ids [][]int32, votes []int) [][]bruteWin {
 		pred := argmax32(o.Logits)
 		for g := 0; g < nf; g++ {
 			w := m.FilterWidth(g)
-			key := ""
-			for _, id := range x[o.Argmax[g] : o.Argmax[g]+w] {
-				key += itoa(int(id)) + " "
-			}
+			key := ngramKey(x[o.Argmax[g] : o.Argmax[g]+w])
 			out[g] = append(out[g], bruteWin{float64(o.Pre[g]), pred == votes[g], key, i})
 		}
 	}
@@ -84,12 +82,16 @@ func randomCorpus(rng *rand.Rand, m *cnn.Model, n, maxLen int) ([][]int32, []int
 	return ids, gold
 }
 
-func ngramKey(ids []int32) string {
-	key := ""
+func ngramKey(ids []int32) string { return string(appendNgramKey(nil, ids)) }
+
+// appendNgramKey appends ngramKey(ids) to b (a reused buffer spares the
+// brute-force loops an allocation per window).
+func appendNgramKey(b []byte, ids []int32) []byte {
 	for _, id := range ids {
-		key += itoa(int(id)) + " "
+		b = strconv.AppendInt(b, int64(id), 10)
+		b = append(b, ' ')
 	}
-	return key
+	return b
 }
 
 // Profiles checked against a brute-force pass with the reference forward:

@@ -25,6 +25,7 @@ func TestSaveMaskedWide(t *testing.T) {
 	_, st, q := demoWindow(t, fyne.Size{})
 	smallRecipe(st)
 	_ = st.recipe.wide.Set(true)
+	_ = st.recipe.baseline.Set(false) // the audit and the saved mask never read it
 	st.trainNow()
 	q.waitFor(t, "the trained model and its profiles", func() bool { return itemGet(st.profiles) != nil })
 	ms := itemGet(st.model)

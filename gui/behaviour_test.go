@@ -10,13 +10,14 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/internal/glossary"
+	"telltale/internal/testref"
 	"telltale/internal/version"
 )
 
 // Typing a text explains one text at a time: however fast the keys come,
 // at most one explanation runs, and the last text typed is the one shown.
 func TestTypingExplainsOneTextAtATime(t *testing.T) {
-	_, st, q := trainedWindow(t, smallScreen)
+	_, st, q := leanWindow(t, smallScreen)
 	wv := st.whyView
 	wv.entry.SetText("")
 	q.drain()
@@ -105,7 +106,7 @@ func TestEmptyStates(t *testing.T) {
 // Training view has no progress figure of its own: the status bar's bar is
 // the window's one progress figure.
 func TestNewRunStartsClean(t *testing.T) {
-	_, st, q := trainedWindow(t, smallScreen)
+	_, st, q := leanWindow(t, smallScreen)
 	tv := st.trainingView
 	if len(tv.epochs.rows) == 0 {
 		t.Fatal("the finished run shows no epochs")
@@ -160,6 +161,7 @@ func walkObjects(o fyne.CanvasObject, fn func(fyne.CanvasObject)) {
 // Help › About names the version and the three cautions; Help › Glossary
 // lists every term of internal/glossary.
 func TestHelp(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the Help menu's About text and Glossary dialog (no task, the UI run in place)")
 	a := test.NewTempApp(t)
 	st := newState(a, Options{}, func(f func()) { f() })
 	st.win = a.NewWindow("help")

@@ -17,6 +17,7 @@ import (
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/internal/atomicfile"
+	"telltale/internal/testref"
 )
 
 // saveState is a State with its views on a window (nothing opened), the
@@ -95,6 +96,7 @@ func oldExport(t *testing.T) (st *State, tbl *sheet, dir, path string, keepsOld 
 // Saving over an existing file asks first; the file keeps its bytes while
 // the dialog is open, while asking, and when the user declines.
 func TestSaveAsksBeforeReplacing(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the save dialog (no task, the UI run in place)")
 	st, _, dir, _, keepsOld, calls := oldExport(t)
 	// The dialog suggests the view's name and the chosen folder.
 	st.exportCSVDialog()
@@ -122,6 +124,7 @@ func TestSaveAsksBeforeReplacing(t *testing.T) {
 // A confirmed save whose writer fails after writing the content leaves the
 // old bytes as they were, no temporary file, and says so.
 func TestSaveFailedWriteKeepsTheOldFile(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the save dialog (no task, the UI run in place)")
 	st, _, dir, path, keepsOld, calls := oldExport(t)
 	st.exportCSVDialog()
 	sf := shownSave(t, st)
@@ -146,6 +149,7 @@ func TestSaveFailedWriteKeepsTheOldFile(t *testing.T) {
 // A working writer replaces the file with the table, a new name is written
 // without a question, and a name with a folder part is refused.
 func TestSaveWritesTheTable(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the save dialog (no task, the UI run in place)")
 	st, tbl, dir, path, _, _ := oldExport(t)
 	// encoding/csv (Go's standard library, RFC 4180) reads back the
 	// header and rows.
@@ -259,6 +263,7 @@ func TestValidFileName(t *testing.T) {
 // the path itself, one through "..", a symbolic link, a hard link — and
 // keeps its bytes.
 func TestSaveRefusesTheWindowsInputs(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the save dialog's check of the window's inputs (no task, the UI run in place)")
 	dir := t.TempDir()
 	inputs := map[string]string{"data": "data.csv", "test": "test.csv", "model": "model.tt"}
 	for _, name := range inputs {

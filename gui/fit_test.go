@@ -65,11 +65,11 @@ func loadedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	return w, st, q
 }
 
-// explainedWindow is trainedWindow with a text explained (loadedWindow
-// without the audit).
+// explainedWindow is leanWindow with a text explained (loadedWindow
+// without the audit and the linear baseline).
 func explainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	t.Helper()
-	w, st, q := trainedWindow(t, size)
+	w, st, q := leanWindow(t, size)
 	explainDeckhand(t, st, q)
 	return w, st, q
 }
@@ -89,16 +89,18 @@ func explainDeckhand(t *testing.T, st *State, q *queue) {
 // (its least size is within the screen, less the menu bar) and nothing on
 // screen is cut: no label, button or choice shows less than its text, and
 // nothing outside a scrolled area reaches past the window's edge; and every
-// tab of the Cue audit view fits too (checkAuditViewFits). Both checks
-// look at one loaded window per size: the model, audit and explanation
-// are the window's content, not what is checked, so they are made once.
+// tab of the Cue audit view fits too (checkAuditViewFits). All the checks
+// look at one loaded window, opened at the smaller size and resized to
+// each size before every check (checkFits), as a person resizes it: the
+// model, audit and explanation are the window's content, not what is
+// checked, so they are made once.
 func TestEveryViewFits(t *testing.T) {
 	if testing.Short() {
 		t.Skip("trains a model and runs the audit; the race pass (make test-race) runs -short")
 	}
+	w, st, q := loadedWindow(t, smallScreen)
 	for _, size := range []fyne.Size{smallScreen, largeScreen} {
 		t.Run(fmt.Sprintf("%.0fx%.0f", size.Width, size.Height), func(t *testing.T) {
-			w, st, q := loadedWindow(t, size)
 			t.Run("views", func(t *testing.T) { checkViewsFit(t, w, st, q, size) })
 			t.Run("audit tabs", func(t *testing.T) { checkAuditViewFits(t, w, st, q, size) })
 		})

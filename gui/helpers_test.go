@@ -152,8 +152,25 @@ func demoWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 // trains the small recipe and waits for the filter profiles.
 func trainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	t.Helper()
+	return trainedWindowOf(t, size, true)
+}
+
+// leanWindow is trainedWindow without the linear baseline, for tests that
+// never read it (the fit is most of the training's cost on the demo).
+func leanWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
+	t.Helper()
+	return trainedWindowOf(t, size, false)
+}
+
+// trainedWindowOf is trainedWindow, with the form's linear baseline
+// (smallRecipe's choice) or without any.
+func trainedWindowOf(t *testing.T, size fyne.Size, baseline bool) (fyne.Window, *State, *queue) {
+	t.Helper()
 	w, st, q := demoWindow(t, size)
 	smallRecipe(st)
+	if !baseline {
+		_ = st.recipe.baseline.Set(false)
+	}
 	st.trainNow()
 	q.waitFor(t, "the trained model and its profiles", func() bool { return itemGet(st.profiles) != nil })
 	return w, st, q

@@ -78,6 +78,9 @@ func TestSplitsAsTrainMakesThem(t *testing.T) {
 
 			smallRecipe(st)
 			_ = st.recipe.epochs.Set("1")
+			// The model's split record is read here, never its linear
+			// baseline: none is fitted.
+			_ = st.recipe.baseline.Set(false)
 			st.trainNow()
 			q.waitFor(t, "the trained model", func() bool { return itemGet(st.model) != nil })
 			m := itemGet(st.model).Model
