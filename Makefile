@@ -51,12 +51,13 @@ test-go:
 test-portable:
 	GOEXPERIMENT= CI=true $(GO) test -tags ci -count=1 -run 'Kernel|Predict|Forward|Table|MatMul|Dot' ./cnn ./explain ./internal/f32
 
-# The race detector over the training, baseline, profiling, audit and
-# GUI-state packages (short mode leaves out the long corpus-scale runs).
+# The race detector over the training, baseline, profiling, audit,
+# GUI-state and ordered-worker packages (short mode leaves out the long
+# corpus-scale runs).
 # The longest first (go test schedules the packages in the order given,
 # two at a time), so that the GUI's run does not start last and end alone.
 test-race:
-	CI=true $(GO) test -tags ci -race -short -count=1 -timeout 20m ./gui ./explain ./cnn ./audit ./corpus ./linear
+	CI=true $(GO) test -tags ci -race -short -count=1 -timeout 20m ./gui ./explain ./cnn ./audit ./corpus ./linear ./internal/inorder
 
 # Each fuzz target for a short, fixed run, from one instrumented test
 # binary per package (scripts/fuzz.sh).
