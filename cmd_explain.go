@@ -2,12 +2,15 @@ package main
 
 import (
 	"bufio"
+	"bytes"
+	"cmp"
 	"context"
 	"flag"
 	"fmt"
 	"io"
 	"math"
 	"os"
+	"runtime"
 	"slices"
 	"strings"
 
@@ -16,6 +19,7 @@ import (
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
+	"telltale/internal/inorder"
 	"telltale/internal/outguard"
 	"telltale/report"
 )
@@ -48,6 +52,7 @@ type explainOptions struct {
 	model, method, class, windows, color, export string
 	texts                                        textSource
 	keptDown                                     int
+	threads                                      threadsOption
 	asJSON                                       bool
 
 	widths []int
@@ -63,6 +68,7 @@ func (o *explainOptions) register(fs *flag.FlagSet) {
 	fs.BoolVar(&o.asJSON, "json", false, "print one JSON object per text")
 	fs.StringVar(&o.color, "color", "auto", "paint with colours: auto (when standard output is a terminal), always or never")
 	fs.StringVar(&o.export, "export", "", "also write every token's attributions to this .csv or .jsonl file")
+	o.threads.register(fs)
 }
 
 func (o *explainOptions) check(fs *flag.FlagSet, env *runEnv) error {
@@ -84,7 +90,7 @@ func (o *explainOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		return err
 	}
 	for _, err := range []error{requireModel(o.model), checkExport(o.export), o.texts.check(fs),
-		checkAtLeast("kept-down", o.keptDown, 0, "windows kept down to list")} {
+		checkAtLeast("kept-down", o.keptDown, 0, "windows kept down to list"), o.threads.check(env.Stderr)} {
 		if err != nil {
 			return err
 		}
@@ -119,39 +125,59 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	}
 	opt := explain.ExplainOptions{Occlusion: true, OcclusionWidths: o.widths, KeptDown: o.keptDown,
 		IG: o.method == explain.MethodIG || o.asJSON || o.export != ""}
-	// One table filled text by text: each distinct word's slot scores are
-	// computed once, and only for the words the texts use.
-	tables, err := explain.NewGrowingTable(m, 0)
-	if err != nil {
-		return err
+	// The texts are explained on several goroutines and written in their
+	// order. Each worker has a table of its own, filled text by text: each
+	// distinct word's slot scores are computed once per worker, and only
+	// for the words the texts use; the workers share the memory bound.
+	workers := cmp.Or(o.threads.N, runtime.GOMAXPROCS(0))
+	tables := make([]*explain.GrowingTable, workers)
+	for w := range tables {
+		if tables[w], err = explain.NewGrowingTable(m, explain.DefaultTableBytes/int64(workers)); err != nil {
+			return err
+		}
 	}
 	var all []*explain.Explanation
 	out := bufio.NewWriterSize(env.Stdout, 64<<10)
-	err = o.texts.each(ctx, env, func(t text) error {
-		e, cut, err := explainText(m, enc, t.Text, opt, tables)
+	feed := func(put func(text) error) error { return o.texts.each(ctx, env, put) }
+	work := func(w int, t text) (explainedText, error) {
+		e, cut, err := explainText(m, enc, t.Text, opt, tables[w])
 		if err != nil {
-			return err
+			return explainedText{}, err
 		}
+		var b bytes.Buffer
+		switch {
+		case o.asJSON:
+			err = writeExplanationJSON(&b, e, t, cut)
+		default:
+			if cut > 0 {
+				fmt.Fprintf(&b, "(the model reads the first %s; the last %d %s not explained)\n", plural(len(e.Tokens), "token", "tokens"), cut,
+					map[bool]string{true: "is", false: "are"}[cut == 1])
+			}
+			err = writeExplanation(&b, t.Text, e, o.method, cls, paint)
+		}
+		return explainedText{e, b.Bytes()}, err
+	}
+	emit := func(_ text, x explainedText) error {
 		if o.export != "" {
-			all = append(all, e)
+			all = append(all, x.e)
 		}
-		if o.asJSON {
-			return writeExplanationJSON(env.Stdout, e, t, cut)
-		}
-		// One write per text: the lines gather in out.
-		if cut > 0 {
-			fmt.Fprintf(out, "(the model reads the first %s; the last %d %s not explained)\n", plural(len(e.Tokens), "token", "tokens"), cut,
-				map[bool]string{true: "is", false: "are"}[cut == 1])
-		}
-		if err := writeExplanation(out, t.Text, e, o.method, cls, paint); err != nil {
+		// One write per text: a reader of the output sees whole texts.
+		if _, err := out.Write(x.out); err != nil {
 			return err
 		}
 		return out.Flush()
-	})
-	if err != nil || o.export == "" {
+	}
+	if err := inorder.Run(ctx, workers, feed, work, emit); err != nil || o.export == "" {
 		return err
 	}
 	return report.WriteTableFile(o.export, report.AttributionTable(all))
+}
+
+// explainedText is one text's explanation and its output, written by a
+// worker of runExplain.
+type explainedText struct {
+	e   *explain.Explanation
+	out []byte
 }
 
 // explainText explains one text and says how many of its tokens are past
