@@ -138,7 +138,9 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	}
 	var all []*explain.Explanation
 	out := bufio.NewWriterSize(env.Stdout, 64<<10)
-	feed := func(put func(text) error) error { return o.texts.each(ctx, env, put) }
+	// The feed stops with the pool's context, which ends at the first error,
+	// even while it waits for a line of standard input.
+	feed := func(ctx context.Context, put func(text) error) error { return o.texts.each(ctx, env, put) }
 	work := func(w int, t text) (explainedText, error) {
 		e, cut, err := explainText(m, enc, t.Text, opt, tables[w])
 		if err != nil {

@@ -36,13 +36,14 @@ var errStopped = errors.New("inorder: stopped after an earlier error")
 // error in item order (work's error for an item, emit's, or, after every
 // item put, feed's own), after emitting the results of all earlier items
 // and none of the later ones. Once an error or ctx's end is known, put
-// returns an error so that feed stops (ctx's error when ctx ended); work
+// returns an error and the context given to feed ends, so that feed stops
+// even while it waits for its next item (ctx's error when ctx ended); work
 // already started is finished and dropped. At most 4·workers items are in
 // flight at any time.
 //
 // Work must be safe to call from several goroutines at once for different
 // items; emit and feed are each called from one goroutine.
-func Run[T, R any](ctx context.Context, workers int, feed func(put func(T) error) error,
+func Run[T, R any](ctx context.Context, workers int, feed func(ctx context.Context, put func(T) error) error,
 	work func(w int, item T) (R, error), emit func(item T, r R) error) error {
 	workers = max(1, workers)
 	ctx, stop := context.WithCancelCause(ctx)
@@ -62,7 +63,7 @@ func Run[T, R any](ctx context.Context, workers int, feed func(put func(T) error
 	fed := make(chan fedAll, 1)
 	go func() {
 		n := 0
-		err := feed(func(item T) error {
+		err := feed(ctx, func(item T) error {
 			select {
 			case slots <- struct{}{}:
 			case <-ctx.Done():

@@ -12,8 +12,8 @@ import (
 )
 
 // feedN puts 0, 1, …, n−1 and then returns end.
-func feedN(n int, end error) func(put func(int) error) error {
-	return func(put func(int) error) error {
+func feedN(n int, end error) func(context.Context, func(int) error) error {
+	return func(_ context.Context, put func(int) error) error {
 		for i := range n {
 			if err := put(i); err != nil {
 				return err
@@ -65,7 +65,7 @@ func TestRunErrorsAsALoop(t *testing.T) {
 	feedBad := errors.New("bad line")
 	cases := []struct {
 		name      string
-		feed      func(func(int) error) error
+		feed      func(context.Context, func(int) error) error
 		work      func(int, int) (int, error)
 		emitFails int // item at which emit fails; −1: never
 		want      error
@@ -114,7 +114,7 @@ func TestRunStopsOnCancel(t *testing.T) {
 	before := runtime.NumGoroutine()
 	ctx, cancel := context.WithCancel(t.Context())
 	var put atomic.Int64
-	endless := func(p func(int) error) error {
+	endless := func(_ context.Context, p func(int) error) error {
 		for i := 0; ; i++ {
 			if err := p(i); err != nil {
 				return err
@@ -142,7 +142,7 @@ func TestRunStopsOnCancel(t *testing.T) {
 func TestRunBoundsItemsInFlight(t *testing.T) {
 	var put, emitted atomic.Int64
 	most := int64(0)
-	feed := func(p func(int) error) error {
+	feed := func(_ context.Context, p func(int) error) error {
 		for i := range 100 {
 			if err := p(i); err != nil {
 				return err
