@@ -64,6 +64,9 @@ func Run[T, R any](ctx context.Context, workers int, feed func(ctx context.Conte
 	go func() {
 		n := 0
 		err := feed(ctx, func(item T) error {
+			if ctx.Err() != nil { // select picks at random among ready cases
+				return context.Cause(ctx)
+			}
 			select {
 			case slots <- struct{}{}:
 			case <-ctx.Done():
@@ -112,6 +115,9 @@ func collect[T, R any](ctx context.Context, results <-chan result[T, R], fed <-c
 		}
 		for r, ok := pending[next]; ok; r, ok = pending[next] {
 			delete(pending, next)
+			if ctx.Err() != nil { // as a loop's next turn would see it
+				return context.Cause(ctx)
+			}
 			if r.err != nil {
 				return r.err
 			}

@@ -122,12 +122,19 @@ func TestRunStopsOnCancel(t *testing.T) {
 			put.Add(1)
 		}
 	}
+	after := 0 // items emitted after the cancel
 	err := Run(ctx, 2, endless, jittered, func(i, _ int) error {
+		if i > 25 {
+			after++
+		}
 		if i == 25 {
 			cancel()
 		}
 		return nil
 	})
+	if after > 0 {
+		t.Errorf("%d items emitted after the cancel, want none (a loop stops at its next turn)", after)
+	}
 	if !errors.Is(err, context.Canceled) {
 		t.Fatalf("error %v, want context.Canceled", err)
 	}
