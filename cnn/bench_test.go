@@ -88,17 +88,8 @@ func benchTrainStep(b *testing.B, cfg Config) {
 // benchTrainStepWith is one training step of the model cfg with the
 // training settings tc on the benchmark corpus.
 func benchTrainStepWith(b *testing.B, cfg Config, tc TrainConfig) {
-	const vocab = 20000
-	d := benchCorpus(1000, vocab)
-	m := benchModelOf(b, cfg, d, vocab)
-	tc, err := tc.WithDefaults()
-	if err != nil {
-		b.Fatal(err)
-	}
-	tr := newTrainer(m, tc)
+	tr, d, batches := benchTrainer(b, cfg, tc)
 	defer tr.close()
-	tr.prepare(d)
-	batches := makeBatches(rand.New(rand.NewPCG(1, 1)), d.IDs, 50, make([]int, d.Len()), nil)
 	for _, bt := range batches { // warm up the scratch buffers
 		tr.step(d, bt)
 	}
@@ -108,6 +99,22 @@ func benchTrainStepWith(b *testing.B, cfg Config, tc TrainConfig) {
 		tr.step(d, batches[i%len(batches)])
 	}
 	b.ReportMetric(float64(50*b.N)/b.Elapsed().Seconds(), "examples/s")
+}
+
+// benchTrainer is a trainer of the model cfg with the training settings tc
+// on the benchmark corpus, prepared, with its batches of 50; the caller
+// closes it.
+func benchTrainer(b *testing.B, cfg Config, tc TrainConfig) (*trainer, Data, [][]int) {
+	const vocab = 20000
+	d := benchCorpus(1000, vocab)
+	m := benchModelOf(b, cfg, d, vocab)
+	tc, err := tc.WithDefaults()
+	if err != nil {
+		b.Fatal(err)
+	}
+	tr := newTrainer(m, tc)
+	tr.prepare(d)
+	return tr, d, makeBatches(rand.New(rand.NewPCG(1, 1)), d.IDs, 50, make([]int, d.Len()), nil)
 }
 
 // BenchmarkTrain is whole epochs through Train (with a dev evaluation each
@@ -207,19 +214,11 @@ func BenchmarkWideUpdate(b *testing.B) {
 	for _, sparse := range []bool{false, true} {
 		name := map[bool]string{false: "dense", true: "sparse"}[sparse]
 		b.Run(name, func(b *testing.B) {
-			const vocab = 20000
-			d := benchCorpus(1000, vocab)
-			m := benchModel(b, d, vocab)
 			tc := DefaultRecipe().Train
 			tc.WideSparse = sparse
-			tc, err := tc.WithDefaults()
-			if err != nil {
-				b.Fatal(err)
-			}
-			tr := newTrainer(m, tc)
+			tr, d, batches := benchTrainer(b, DefaultRecipe().Model, tc)
 			defer tr.close()
-			tr.prepare(d)
-			batch := makeBatches(rand.New(rand.NewPCG(1, 1)), d.IDs, 50, make([]int, d.Len()), nil)[0]
+			m, batch := tr.m, batches[0]
 			tr.step(d, batch)                                       // fills the batch's rows
 			n := len(m.Wide) - m.Config.Classes + len(m.WideBigram) // the PAD row is never trained
 			if sparse {
