@@ -230,6 +230,29 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 	add(m.OutB, g0.ob, false)
 	tr.groups[len(tr.groups)-1].head = true
 	tr.groups[len(tr.groups)-2].head = true
+	tr.addWideGroups(add)
+	if m.Char != nil {
+		tr.ch = newCharTrain(tr, add)
+		tr.fnCharFwd = tr.charForwardRows
+		tr.fnCharBwd = tr.charBackwardRows
+	}
+	tr.fnGather = tr.gather
+	tr.fnTable = tr.table
+	tr.fnText = tr.texts_
+	tr.fnReduce = tr.reduce
+	tr.fnScatter = tr.scatter
+	tr.fnUnscatter = tr.unscatter
+	tr.fnOpt = tr.opt
+	tr.fnEmbDrop = func(_, lo, hi int) { scaleRows(tr.emb, tr.embDrop, lo*d, hi*d) }
+	tr.fnEmbDropGrad = func(_, lo, hi int) { scaleRows(tr.th[0].emb, tr.embDrop, lo*d, hi*d) }
+	tr.ws.init(cfg.VocabSize)
+	return tr
+}
+
+// addWideGroups adds the optimizer groups of the word and bigram weights
+// (Config.Wide, WideBigrams) through add, and sets up the bigrams' dropout.
+func (tr *trainer) addWideGroups(add func(p, g []float32, decay bool)) {
+	m, tc, cfg := tr.m, tr.tc, tr.m.Config
 	if cfg.Wide {
 		// A weight like the embeddings (weight decay shrinks it); not part
 		// of the head warm-up, and the PAD row is never trained.
@@ -256,22 +279,6 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 			tr.bdRng = rand.New(rand.NewPCG(tc.Seed^0x452821e638d01377, tc.Seed))
 		}
 	}
-	if m.Char != nil {
-		tr.ch = newCharTrain(tr, add)
-		tr.fnCharFwd = tr.charForwardRows
-		tr.fnCharBwd = tr.charBackwardRows
-	}
-	tr.fnGather = tr.gather
-	tr.fnTable = tr.table
-	tr.fnText = tr.texts_
-	tr.fnReduce = tr.reduce
-	tr.fnScatter = tr.scatter
-	tr.fnUnscatter = tr.unscatter
-	tr.fnOpt = tr.opt
-	tr.fnEmbDrop = func(_, lo, hi int) { scaleRows(tr.emb, tr.embDrop, lo*d, hi*d) }
-	tr.fnEmbDropGrad = func(_, lo, hi int) { scaleRows(tr.th[0].emb, tr.embDrop, lo*d, hi*d) }
-	tr.ws.init(cfg.VocabSize)
-	return tr
 }
 
 func (tr *trainer) close() { tr.wk.close() }
