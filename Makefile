@@ -53,11 +53,12 @@ test-portable:
 
 # The race detector over the training, baseline, profiling, audit,
 # GUI-state and ordered-worker packages (short mode leaves out the long
-# corpus-scale runs).
+# corpus-scale runs), then the command line's explain on several workers.
 # The longest first (go test schedules the packages in the order given,
 # two at a time), so that the GUI's run does not start last and end alone.
 test-race:
 	CI=true $(GO) test -tags ci -race -short -count=1 -timeout 20m ./gui ./explain ./cnn ./audit ./corpus ./linear ./internal/inorder
+	CI=true $(GO) test -tags ci -race -count=1 -run 'TestExplainThreadsSameOutput|TestExplainStopsAtWriteError' .
 
 # Each fuzz target for a short, fixed run, from one instrumented test
 # binary per package (scripts/fuzz.sh).
