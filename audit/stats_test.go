@@ -1,13 +1,10 @@
 package audit
 
 import (
-	"bytes"
 	"encoding/json"
 	"fmt"
 	"math"
 	"math/rand/v2"
-	"os/exec"
-	"path/filepath"
 	"testing"
 
 	"telltale/internal/testref"
@@ -27,14 +24,7 @@ func scipyRef(t *testing.T, cases []refCase) []json.RawMessage {
 	if err != nil {
 		t.Fatal(err)
 	}
-	cmd := exec.Command(testref.Python, filepath.Join("testdata", "scipy_stats.py"))
-	cmd.Stdin = bytes.NewReader(in)
-	var stderr bytes.Buffer
-	cmd.Stderr = &stderr
-	out, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("scipy_stats.py: %v\n%s", err, stderr.String())
-	}
+	out := testref.RunScript(t, "scipy_stats.py", in)
 	var res []json.RawMessage
 	if err := json.Unmarshal(out, &res); err != nil || len(res) != len(cases) {
 		t.Fatalf("scipy_stats.py answered %d values for %d cases (%v): %s", len(res), len(cases), err, out)

@@ -4,10 +4,7 @@ import (
 	"encoding/json"
 	"math"
 	"math/rand/v2"
-	"os/exec"
-	"path/filepath"
 	"slices"
-	"strings"
 	"testing"
 
 	"telltale/internal/testref"
@@ -48,14 +45,7 @@ func numpyPPMI(t *testing.T, texts [][]int32, vocab int) ppmiRef {
 	if err != nil {
 		t.Fatal(err)
 	}
-	cmd := exec.Command(testref.Python, filepath.Join("testdata", "ppmi_check.py"))
-	cmd.Stdin = strings.NewReader(string(in))
-	var stderr strings.Builder
-	cmd.Stderr = &stderr
-	out, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("ppmi_check.py: %v\n%s", err, stderr.String())
-	}
+	out := testref.RunScript(t, "ppmi_check.py", in)
 	var ref ppmiRef
 	if err := json.Unmarshal(out, &ref); err != nil {
 		t.Fatal(err)

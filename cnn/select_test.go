@@ -5,9 +5,6 @@ import (
 	"encoding/json"
 	"math"
 	"math/rand/v2"
-	"os/exec"
-	"path/filepath"
-	"strings"
 	"testing"
 
 	"telltale/internal/testref"
@@ -224,14 +221,7 @@ func TestWeightDecayAgainstAdamW(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	cmd := exec.Command(testref.Python, filepath.Join("testdata", "adamw_check.py"))
-	cmd.Stdin = strings.NewReader(string(js))
-	var stderr strings.Builder
-	cmd.Stderr = &stderr
-	out, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("adamw_check.py: %v\n%s", err, stderr.String())
-	}
+	out := testref.RunScript(t, "adamw_check.py", js)
 	var ref struct {
 		Params [][]float64 `json:"params"`
 		Torch  string      `json:"torch"`

@@ -4,7 +4,6 @@ import (
 	"encoding/json"
 	"fmt"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -213,13 +212,7 @@ func sklearnBaseline(t *testing.T, tr *Trained, train, test *corpus.Dataset) skl
 	maxLen := tr.Model.Info.Recipe.MaxLen
 	writeTokens(t, filepath.Join(dir, "train.jsonl"), baselineDocs(tr.Encoder.Tok, train.Texts(), maxLen, 0), train)
 	writeTokens(t, filepath.Join(dir, "test.jsonl"), baselineDocs(tr.Encoder.Tok, test.Texts(), maxLen, 0), test)
-	cmd := exec.Command(testref.Python, filepath.Join("testdata", "tfidf_baseline.py"), dir, fmt.Sprint(tr.Model.Baseline.Classifier.C))
-	var stderr strings.Builder
-	cmd.Stderr = &stderr
-	out, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("tfidf_baseline.py: %v\n%s", err, stderr.String())
-	}
+	out := testref.RunScript(t, "tfidf_baseline.py", nil, dir, fmt.Sprint(tr.Model.Baseline.Classifier.C))
 	var ref sklearnResult
 	if err := json.Unmarshal(out, &ref); err != nil {
 		t.Fatalf("tfidf_baseline.py printed %.200q: %v", out, err)

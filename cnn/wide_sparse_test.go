@@ -2,8 +2,6 @@ package cnn
 
 import (
 	"encoding/json"
-	"os/exec"
-	"path/filepath"
 	"slices"
 	"strings"
 	"testing"
@@ -78,14 +76,7 @@ func TestWideSparseAgainstTorch(t *testing.T) {
 	for _, b := range batches {
 		tr.step(d, b)
 	}
-	cmd := exec.Command(testref.Python, filepath.Join("testdata", "sparse_adam_check.py"))
-	cmd.Stdin = strings.NewReader(string(js))
-	var stderr strings.Builder
-	cmd.Stderr = &stderr
-	out, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("sparse_adam_check.py: %v\n%s", err, stderr.String())
-	}
+	out := testref.RunScript(t, "sparse_adam_check.py", js)
 	var ref struct {
 		Emb, OutW, OutB, Wide, Big []float64
 		ConvW, ConvB               [][]float64

@@ -4,10 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"math/rand/v2"
-	"os/exec"
-	"path/filepath"
 	"slices"
-	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/diff/fd"
@@ -75,14 +72,7 @@ func runSklearn(t *testing.T, c sklearnCase) sklearnResult {
 	if err != nil {
 		t.Fatal(err)
 	}
-	cmd := exec.Command(testref.Python, filepath.Join("testdata", "sklearn_logreg.py"))
-	cmd.Stdin = strings.NewReader(string(in))
-	var stderr strings.Builder
-	cmd.Stderr = &stderr
-	out, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("sklearn_logreg.py: %v\n%s", err, stderr.String())
-	}
+	out := testref.RunScript(t, "sklearn_logreg.py", in)
 	var r sklearnResult
 	if err := json.Unmarshal(out, &r); err != nil {
 		t.Fatalf("sklearn_logreg.py printed %.200q: %v", out, err)

@@ -7,6 +7,7 @@
 package testref
 
 import (
+	"bytes"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -93,4 +94,23 @@ func SequentialSkipInRace(t testing.TB, what string) {
 	if Race {
 		t.Skipf("race build: %s starts no goroutine; make test-go runs this test in full", what)
 	}
+}
+
+// RunScript runs the Python script testdata/NAME of the calling package's
+// folder with args, stdin (nil: none) as its standard input, and returns
+// what it printed; the test fails with the script's error output when it
+// does not exit 0.
+func RunScript(t testing.TB, name string, stdin []byte, args ...string) []byte {
+	t.Helper()
+	cmd := exec.Command(Python, append([]string{filepath.Join("testdata", name)}, args...)...)
+	if stdin != nil {
+		cmd.Stdin = bytes.NewReader(stdin)
+	}
+	var stderr bytes.Buffer
+	cmd.Stderr = &stderr
+	out, err := cmd.Output()
+	if err != nil {
+		t.Fatalf("%s: %v\n%s", name, err, stderr.String())
+	}
+	return out
 }
