@@ -94,6 +94,7 @@ type paramGroup struct {
 	decay, head  bool
 	steps        int
 	lrMul        float64
+	extraDecay   float64 // TrainConfig.WideDecay on the wide tables, else 0
 	rows         *[]int32
 	first, width int
 }
@@ -259,6 +260,7 @@ func (tr *trainer) addWideGroups(add func(p, g []float32, decay bool)) {
 		tr.gWide = make([]float32, len(m.Wide))
 		add(m.Wide[cfg.Classes:], tr.gWide[cfg.Classes:], true)
 		tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
+		tr.groups[len(tr.groups)-1].extraDecay = tc.WideDecay
 		if tc.WideSparse {
 			g := &tr.groups[len(tr.groups)-1]
 			g.rows, g.first, g.width = &tr.wideRows, 1, cfg.Classes
@@ -269,6 +271,7 @@ func (tr *trainer) addWideGroups(add func(p, g []float32, decay bool)) {
 		tr.gBig = make([]float32, len(m.WideBigram))
 		add(m.WideBigram, tr.gBig, true)
 		tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
+		tr.groups[len(tr.groups)-1].extraDecay = tc.WideDecay
 		if tc.WideSparse {
 			g := &tr.groups[len(tr.groups)-1]
 			g.rows, g.width = &tr.bs.rows, cfg.Classes
@@ -773,10 +776,15 @@ func (tr *trainer) opt(_, lo, hi int) {
 	if g.lrMul > 0 {
 		lr *= g.lrMul
 	}
-	if tc.WeightDecay > 0 && g.decay {
+	decay := g.extraDecay
+	if g.decay {
+		decay += tc.WeightDecay
+	}
+	if decay > 0 {
 		// Decoupled weight decay (Loshchilov & Hutter 2019), before the step
-		// as torch.optim.AdamW does it.
-		k := float32(1 - lr*tc.WeightDecay)
+		// as torch.optim.AdamW does it; the wide tables' own (WideDecay)
+		// adds to WeightDecay in the one factor.
+		k := float32(1 - lr*decay)
 		for i := range g.p[lo:hi] {
 			g.p[lo+i] *= k
 		}

@@ -103,6 +103,15 @@ type TrainConfig struct {
 	// optimizer and refuses WeightDecay (SparseAdam has none); without wide
 	// tables it changes nothing.
 	WideSparse bool `json:"wide_sparse,omitempty"`
+	// WideDecay is a decoupled weight decay (Loshchilov & Hutter 2019) on
+	// the word and bigram weight tables alone (Config.Wide, WideBigrams):
+	// every step multiplies every row of both, before the optimizer's step
+	// as torch.optim.AdamW does, by 1 − LR·WideLR·WideDecay, on top of
+	// WeightDecay's shrink: together 1 − LR·WideLR·(WeightDecay+WideDecay),
+	// which must stay above 0. 0 turns it off. It must be finite and not
+	// negative; Train refuses it with WideSparse (the sparse update has no
+	// weight decay) and for a model without word or bigram weights.
+	WideDecay float64 `json:"wide_decay,omitempty"`
 }
 
 // WithDefaults returns tc with every zero field set to its default, or an
@@ -176,7 +185,22 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 	case tc.WideSparse && tc.WeightDecay > 0:
 		return tc, fmt.Errorf("cnn: sparse word weights with weight decay %g: the sparse update has no weight decay; set weight decay 0 or turn the sparse update off", tc.WeightDecay)
 	}
-	return tc, nil
+	return tc, tc.checkWideDecay()
+}
+
+// checkWideDecay returns an error if WideDecay is negative, not finite,
+// shrinks the wide tables to zero or below in a step together with
+// WeightDecay, or is set with WideSparse. tc must have its defaults (LR).
+func (tc TrainConfig) checkWideDecay() error {
+	switch k := tc.LR * or(tc.WideLR, 1) * (tc.WeightDecay + tc.WideDecay); {
+	case !(tc.WideDecay >= 0) || math.IsInf(tc.WideDecay, 0):
+		return fmt.Errorf("cnn: wide weight decay %g: must be 0 (off) or a finite positive number", tc.WideDecay)
+	case k >= 1:
+		return fmt.Errorf("cnn: wide weight decay %g: learning rate %g × wide factor %g × (weight decay %g + wide decay %g) = %g must be below 1; lower the wide decay", tc.WideDecay, tc.LR, or(tc.WideLR, 1), tc.WeightDecay, tc.WideDecay, k)
+	case tc.WideSparse && tc.WideDecay > 0:
+		return fmt.Errorf("cnn: sparse word weights with wide weight decay %g: the sparse update has no weight decay; set wide decay 0 or turn the sparse update off", tc.WideDecay)
+	}
+	return nil
 }
 
 // Values of TrainConfig.EmbedInit and StopOn.
@@ -283,6 +307,9 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	}
 	if err := m.checkShapes(); err != nil {
 		return nil, err
+	}
+	if tc.WideDecay > 0 && !m.Config.Wide && !m.Config.WideBigrams {
+		return nil, fmt.Errorf("cnn: wide weight decay %g on a model without word or bigram weights: set wide decay 0 or turn the word weights on", tc.WideDecay)
 	}
 	if train.Len() == 0 {
 		return nil, fmt.Errorf("cnn: the training split is empty")

@@ -57,6 +57,21 @@ func TestWideSparseAgainstTorch(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	js := torchStepInput(t, m, d, batches, tc, nil) // the starting weights, before the steps change them
+	tr := newTrainer(m, tc)
+	defer tr.close()
+	for _, b := range batches {
+		tr.step(d, b)
+	}
+	compareWithTorch(t, m, "sparse_adam_check.py", js)
+}
+
+// torchStepInput returns the JSON input of sparse_adam_check.py and
+// wide_decay_check.py: m's weights, d, the batches, tc's learning rate and
+// wide factor, and the members of extra. m must have word and bigram
+// weights.
+func torchStepInput(t *testing.T, m *Model, d Data, batches [][]int, tc TrainConfig, extra map[string]any) []byte {
+	t.Helper()
 	cfg := m.Config
 	in := map[string]any{"vocab": cfg.VocabSize, "dim": cfg.Dim, "filters": cfg.Filters, "classes": cfg.Classes,
 		"widths": cfg.Widths, "emb": m.Emb, "out_w": m.OutW, "out_b": m.OutB, "wide": m.Wide,
@@ -67,16 +82,22 @@ func TestWideSparseAgainstTorch(t *testing.T) {
 		convW, convB = append(convW, c.W), append(convB, c.B)
 	}
 	in["conv_w"], in["conv_b"] = convW, convB
-	js, err := json.Marshal(in) // the starting weights, before the steps change them
+	for k, v := range extra {
+		in[k] = v
+	}
+	js, err := json.Marshal(in)
 	if err != nil {
 		t.Fatal(err)
 	}
-	tr := newTrainer(m, tc)
-	defer tr.close()
-	for _, b := range batches {
-		tr.step(d, b)
-	}
-	out := testref.RunScript(t, "sparse_adam_check.py", js)
+	return js
+}
+
+// compareWithTorch runs script on the input js and compares every weight
+// of m (trained by the same steps) with the script's, within 2e-6 absolute
+// plus 1e-4 relative (see TestWideSparseAgainstTorch).
+func compareWithTorch(t *testing.T, m *Model, script string, js []byte) {
+	t.Helper()
+	out := testref.RunScript(t, script, js)
 	var ref struct {
 		Emb, OutW, OutB, Wide, Big []float64
 		ConvW, ConvB               [][]float64
@@ -89,7 +110,7 @@ func TestWideSparseAgainstTorch(t *testing.T) {
 	for k, v := range map[string]any{"emb": &ref.Emb, "out_w": &ref.OutW, "out_b": &ref.OutB, "wide": &ref.Wide,
 		"wide_bigram": &ref.Big, "conv_w": &ref.ConvW, "conv_b": &ref.ConvB, "torch": &ref.Torch} {
 		if err := json.Unmarshal(raw[k], v); err != nil {
-			t.Fatalf("sparse_adam_check.py's %s: %v", k, err)
+			t.Fatalf("%s's %s: %v", script, k, err)
 		}
 	}
 	cmp := func(what string, got []float32, want []float64) {

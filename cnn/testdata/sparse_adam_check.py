@@ -19,7 +19,8 @@ averaged over the batch. The wide term is the mean of the rows of the ids
 other than PAD and of the pairs of adjacent ids found in "bigram_keys"
 (a * 2**32 + b), or the unknown word's row (id 1) for a text with neither;
 those rows are looked up with F.embedding(sparse=True), so the tables'
-gradients are sparse tensors holding exactly the rows the batch touched.
+gradients are sparse tensors holding exactly the rows the batch touched
+(forward's sparse=False gives dense ones, for wide_decay_check.py).
 The embeddings, filters and output layer train with torch.optim.Adam at
 "lr"; the two tables with torch.optim.SparseAdam at lr * wide_lr; betas
 (0.9, 0.999), eps 1e-8. Prints every weight after the last step and the
@@ -36,7 +37,7 @@ def tensor(v, *shape):
     return torch.tensor(v, dtype=torch.float32).reshape(*shape).requires_grad_()
 
 
-def forward(p, texts, keys, widths):
+def forward(p, texts, keys, widths, sparse=True):
     maxw = max(widths)
     lens = [max(len(t), maxw) for t in texts]
     ids = torch.zeros(len(texts), max(lens), dtype=torch.long)  # PAD = 0
@@ -57,13 +58,13 @@ def forward(p, texts, keys, widths):
         pairs = [keys[a * 2**32 + b] for a, b in zip(t, t[1:]) if a > 1 and b > 1 and a * 2**32 + b in keys]
         rows = []
         if words:
-            rows.append(F.embedding(torch.tensor(words), p["wide"], sparse=True))
+            rows.append(F.embedding(torch.tensor(words), p["wide"], sparse=sparse))
         if pairs:
-            rows.append(F.embedding(torch.tensor(pairs), p["wide_bigram"], sparse=True))
+            rows.append(F.embedding(torch.tensor(pairs), p["wide_bigram"], sparse=sparse))
         if rows:
             terms.append(torch.cat(rows).mean(dim=0))
         else:
-            terms.append(F.embedding(torch.tensor([1]), p["wide"], sparse=True)[0])
+            terms.append(F.embedding(torch.tensor([1]), p["wide"], sparse=sparse)[0])
     return logits + torch.stack(terms)
 
 

@@ -83,6 +83,11 @@ var variants = map[string]func(r *cnn.Recipe){
 	// weights kept (to pair with lazywide, whose rare rows move less)
 	"wlr300":  func(r *cnn.Recipe) { r.Train.WideLR = 300 },
 	"wlr1000": func(r *cnn.Recipe) { r.Train.WideLR = 1000 },
+	// a decoupled weight decay on the word and bigram weights alone, as the
+	// linear baseline's L2 penalty (cnn.TrainConfig.WideDecay)
+	"wdec01": func(r *cnn.Recipe) { r.Train.WideDecay = 0.01 },
+	"wdec03": func(r *cnn.Recipe) { r.Train.WideDecay = 0.03 },
+	"wdec10": func(r *cnn.Recipe) { r.Train.WideDecay = 0.1 },
 }
 
 // kim turns the word and bigram weights off and token dropout back to 0.25.
