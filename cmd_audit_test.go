@@ -475,6 +475,20 @@ func TestRetrainArgs(t *testing.T) {
 	if got := recipeArgs(dm); len(got) != 0 {
 		t.Errorf("the default recipe gives %q", got)
 	}
+	if got := unflaggedSettings(dm); len(got) != 0 {
+		t.Errorf("the default recipe has settings train cannot give: %q", got)
+	}
+	// Settings only the Go API sets are named in a comment line after the
+	// command, so it is not taken for the model's whole recipe.
+	lib := dt
+	lib.WideDecay, lib.EmbedDropout, lib.StopOn = 0.01, 0.1, cnn.StopLoss
+	dm.Info.Recipe = &lib
+	src.m = dm
+	cmds := src.retrainCommands([]string{"tkref"})
+	const note = "# train has no option for this model's stop_on loss, embed_dropout 0.1, wide_decay 0.01: the line above trains without them"
+	if len(cmds) != 3 || cmds[2] != note {
+		t.Errorf("commands for a recipe with library-only settings:\n%q\nwant a third line %q", cmds, note)
+	}
 	// What train's own options would set: no word weights (and so no
 	// bigram weights), the word weights at the rest's rate (recorded as 0),
 	// the words' weights alone, the character layer (its columns are not

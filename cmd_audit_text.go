@@ -249,7 +249,53 @@ func (s auditSource) retrainCommands(patterns []string) []string {
 	base := strings.TrimSuffix(s.model, ".tt")
 	cues, out := base+".cues", base+"-without.tt"
 	args := append(s.trainArgs(), "--mask-tokens", cues, "--out", out)
-	return []string{"printf '%s\\n' " + shellJoin(patterns) + " > " + shellQuote(cues), shellJoin(args)}
+	cmds := []string{"printf '%s\\n' " + shellJoin(patterns) + " > " + shellQuote(cues), shellJoin(args)}
+	if extra := unflaggedSettings(s.m); len(extra) > 0 {
+		// A shell comment, so the lines still run as they are, and nobody
+		// takes the command for the model's whole recipe.
+		cmds = append(cmds, "# train has no option for this model's "+strings.Join(extra, ", ")+
+			": the line above trains without them")
+	}
+	return cmds
+}
+
+// unflaggedSettings names the settings of m's recipe that differ from
+// train's default and that no option of train gives (settings only the
+// Go API sets), each as its JSON name and value.
+func unflaggedSettings(m *cnn.Model) []string {
+	var out []string
+	add := func(differs bool, name string, value any) {
+		if differs {
+			out = append(out, fmt.Sprintf("%s %v", name, value))
+		}
+	}
+	if ch := m.Config.Chars; ch != nil {
+		add(ch.Dim != cnn.DefaultCharDim, "char_dim", ch.Dim)
+		add(ch.MaxChars != cnn.DefaultMaxChars, "max_chars", ch.MaxChars)
+	}
+	r := m.Info.Recipe
+	if r == nil {
+		return out
+	}
+	// As recipeArgs: the recorded recipe has the optimizer's defaults
+	// filled in.
+	dt := cnn.DefaultRecipe().Train
+	dt.Optimizer, dt.LR = r.Optimizer, 0
+	dt, _ = dt.WithDefaults()
+	add(r.Beta1 != dt.Beta1, "beta1", r.Beta1)
+	add(r.Beta2 != dt.Beta2, "beta2", r.Beta2)
+	add(r.Rho != dt.Rho, "rho", r.Rho)
+	add(r.Eps != dt.Eps, "eps", r.Eps)
+	add(r.EmbedInit != dt.EmbedInit, "embed_init", r.EmbedInit)
+	add(r.WeightDecay != dt.WeightDecay, "weight_decay", r.WeightDecay)
+	add(r.AverageLast != dt.AverageLast, "average_last", r.AverageLast)
+	add(r.StopOn != dt.StopOn, "stop_on", r.StopOn)
+	add(r.EmbedDropout != dt.EmbedDropout, "embed_dropout", r.EmbedDropout)
+	add(r.HeadWarmup != dt.HeadWarmup, "head_warmup", r.HeadWarmup)
+	add(r.LRDecay != dt.LRDecay, "lr_decay", r.LRDecay)
+	add(r.WideSparse != dt.WideSparse, "wide_sparse", r.WideSparse)
+	add(r.WideDecay != dt.WideDecay, "wide_decay", r.WideDecay)
+	return out
 }
 
 // trainArgs is the train command line that makes the model's splits of
