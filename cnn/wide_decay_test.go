@@ -145,18 +145,10 @@ func TestWideDecayModelFile(t *testing.T) {
 	for _, wdec := range []float64{0.03, 0} {
 		m, _ := savedModel(t)
 		m.Info.Recipe = &TrainConfig{Epochs: 10, LR: 1e-3, WideLR: 100, WeightDecay: 0.01, WideDecay: wdec}
-		var buf bytes.Buffer
-		if err := m.encode(&buf); err != nil {
-			t.Fatal(err)
-		}
-		f, err := splitFile(buf.Bytes())
-		if err != nil {
-			t.Fatal(err)
-		}
-		if has := bytes.Contains(f.header, []byte(`"wide_decay"`)); has != (wdec != 0) {
+		if has := bytes.Contains(encodedParts(t, m).header, []byte(`"wide_decay"`)); has != (wdec != 0) {
 			t.Errorf("wide decay %g: the header has a \"wide_decay\" member: %v", wdec, has)
 		}
-		got, err := decode(buf.Bytes(), true)
+		got, err := decode(encodedFile(t, m), true)
 		if err != nil {
 			t.Fatal(err)
 		}

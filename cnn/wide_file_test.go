@@ -166,13 +166,19 @@ func TestDecodeHeaderFastWide(t *testing.T) {
 // parts.
 func encodedParts(t *testing.T, m *Model) fileParts {
 	t.Helper()
-	var buf bytes.Buffer
-	if err := m.encode(&buf); err != nil {
-		t.Fatal(err)
-	}
-	f, err := splitFile(buf.Bytes())
+	f, err := splitFile(encodedFile(t, m))
 	if err != nil {
 		t.Fatal(err)
 	}
 	return f
+}
+
+// encodedFile encodes m as a model file in memory.
+func encodedFile(t *testing.T, m *Model) []byte {
+	t.Helper()
+	var buf bytes.Buffer
+	if err := m.encode(&buf); err != nil {
+		t.Fatal(err)
+	}
+	return buf.Bytes()
 }

@@ -68,8 +68,9 @@ def forward(p, texts, keys, widths, sparse=True):
     return logits + torch.stack(terms)
 
 
-def main():
-    inp = json.load(sys.stdin)
+def params(inp):
+    """The model's weights as tensors that take gradients, and the bigram
+    keys' rows."""
     V, D, Fn, C = inp["vocab"], inp["dim"], inp["filters"], inp["classes"]
     widths = inp["widths"]
     keys = {k: r for r, k in enumerate(inp["bigram_keys"])}
@@ -82,6 +83,21 @@ def main():
         "wide": tensor(inp["wide"], V, C),
         "wide_bigram": tensor(inp["wide_bigram"], len(keys), C),
     }
+    return p, keys
+
+
+def print_weights(p):
+    """Writes the weights, flattened, and torch's version as JSON."""
+    out = {k: ([t.detach().flatten().tolist() for t in v] if isinstance(v, list) else v.detach().flatten().tolist())
+           for k, v in p.items()}
+    out["torch"] = torch.__version__
+    print(json.dumps(out))
+
+
+def main():
+    inp = json.load(sys.stdin)
+    widths = inp["widths"]
+    p, keys = params(inp)
     dense = [p["emb"], *p["conv_w"], *p["conv_b"], p["out_w"], p["out_b"]]
     adam = torch.optim.Adam(dense, lr=inp["lr"], betas=(0.9, 0.999), eps=1e-8)
     sparse = torch.optim.SparseAdam([p["wide"], p["wide_bigram"]], lr=inp["lr"] * inp["wide_lr"],
@@ -94,10 +110,7 @@ def main():
         F.cross_entropy(forward(p, texts, keys, widths), labels).backward()
         adam.step()
         sparse.step()
-    out = {k: ([t.detach().flatten().tolist() for t in v] if isinstance(v, list) else v.detach().flatten().tolist())
-           for k, v in p.items()}
-    out["torch"] = torch.__version__
-    print(json.dumps(out))
+    print_weights(p)
 
 
 if __name__ == "__main__":

@@ -22,23 +22,13 @@ import sys
 import torch
 import torch.nn.functional as F
 
-from sparse_adam_check import forward, tensor
+from sparse_adam_check import forward, params, print_weights
 
 
 def main():
     inp = json.load(sys.stdin)
-    V, D, Fn, C = inp["vocab"], inp["dim"], inp["filters"], inp["classes"]
     widths = inp["widths"]
-    keys = {k: r for r, k in enumerate(inp["bigram_keys"])}
-    p = {
-        "emb": tensor(inp["emb"], V, D),
-        "conv_w": [tensor(w, Fn, wd, D) for w, wd in zip(inp["conv_w"], widths)],
-        "conv_b": [tensor(b, Fn) for b in inp["conv_b"]],
-        "out_w": tensor(inp["out_w"], C, Fn * len(widths)),
-        "out_b": tensor(inp["out_b"], C),
-        "wide": tensor(inp["wide"], V, C),
-        "wide_bigram": tensor(inp["wide_bigram"], len(keys), C),
-    }
+    p, keys = params(inp)
     lr, wd = inp["lr"], inp["weight_decay"]
     opt = torch.optim.AdamW([
         {"params": [p["emb"], *p["conv_w"], p["out_w"]], "weight_decay": wd},
@@ -52,10 +42,7 @@ def main():
         labels = torch.tensor([inp["labels"][i] for i in batch])
         F.cross_entropy(forward(p, texts, keys, widths, sparse=False), labels).backward()
         opt.step()
-    out = {k: ([t.detach().flatten().tolist() for t in v] if isinstance(v, list) else v.detach().flatten().tolist())
-           for k, v in p.items()}
-    out["torch"] = torch.__version__
-    print(json.dumps(out))
+    print_weights(p)
 
 
 if __name__ == "__main__":
