@@ -46,6 +46,9 @@ type sheet struct {
 	box    *fyne.Container // the table in a layout that widens its last column
 	// shownLast is the last column's width on screen.
 	shownLast float32
+	// cellUpdates counts the cells written on screen (each costs the
+	// toolkit a text layout on the UI goroutine), for tests.
+	cellUpdates int
 }
 
 // Column width caps.
@@ -180,6 +183,7 @@ func (s *sheet) createCell() fyne.CanvasObject {
 }
 
 func (s *sheet) updateCell(id widget.TableCellID, o fyne.CanvasObject) {
+	s.cellUpdates++
 	l := o.(*widget.Label)
 	if id.Row < len(s.order) && id.Col < len(s.cols) {
 		// One line per cell: a text's line breaks would spill over the
