@@ -79,3 +79,48 @@ func TestShowingAFilterRedrawsTheListFewTimes(t *testing.T) {
 			g, fv.query.Text, len(fv.list.order), len(fv.list.rows), fv.shown.Filter, fv.list.selected)
 	}
 }
+
+// A notice that the text changed, when it did not (the text box's queued
+// notices arrive after the text has settled, each reading the latest
+// text), neither restarts the explanation in progress nor explains the
+// text on screen again: the restarts made a text sent from another view
+// wait for several explanations before its own.
+func TestRepeatedNoticesExplainOnce(t *testing.T) {
+	_, st, q := explainedWindow(t, smallScreen)
+	wv := st.whyView
+	before := st.tasks.started(taskExplain)
+	for range 3 {
+		wv.update() // the text on screen, already explained
+	}
+	q.drain()
+	if got := st.tasks.started(taskExplain) - before; got != 0 {
+		t.Errorf("three notices for the text already explained started %d explanations, want 0", got)
+	}
+
+	text := "Is the 15:55 from Carrowmere still running on Sundays in winter?"
+	before = st.tasks.started(taskExplain)
+	_ = st.explainText.Set(text)
+	for range 3 {
+		wv.update() // notices arriving while its explanation runs
+	}
+	q.waitFor(t, "the new text's explanation", func() bool {
+		return wv.shown != nil && wv.shown.Text == text && wv.shown.E != nil
+	})
+	if got := st.tasks.started(taskExplain) - before; got != 1 {
+		t.Errorf("a new text and its repeated notices started %d explanations, want 1", got)
+	}
+
+	// Words typed and taken back before their explanation came: the
+	// explanation on screen stays, and is not made again.
+	shown := wv.shown
+	before = st.tasks.started(taskExplain)
+	_ = st.explainText.Set(text + " And in summer?")
+	_ = st.explainText.Set(text)
+	q.waitFor(t, "the explanations to end", func() bool { return st.tasks.idle(taskExplain) })
+	if got := st.tasks.started(taskExplain) - before; got != 1 {
+		t.Errorf("typing and taking back started %d explanations, want 1 (of the text typed)", got)
+	}
+	if wv.shown != shown {
+		t.Errorf("after the words were taken back the view shows an explanation of %q, want the one it showed", wv.shown.Text)
+	}
+}

@@ -81,10 +81,12 @@ type taskRunner struct {
 	// maxRunning is the most goroutines of one kind seen at once, for tests.
 	maxRunning map[string]int
 	running    map[string]int
+	// starts counts the tasks started of each kind, for tests.
+	starts map[string]int
 }
 
 func newTaskRunner(ui func(func())) *taskRunner {
-	return &taskRunner{ui: ui, slots: map[string]*slot{}, maxRunning: map[string]int{}, running: map[string]int{},
+	return &taskRunner{ui: ui, slots: map[string]*slot{}, maxRunning: map[string]int{}, running: map[string]int{}, starts: map[string]int{},
 		onBusy: func(bool) {}, onNote: func(float64, string) {}, onError: func(error) {}}
 }
 
@@ -100,6 +102,7 @@ func (r *taskRunner) start(kind string, inBar bool, w work) {
 	ctx, cancel := context.WithCancel(context.Background())
 	r.mu.Lock()
 	r.gen++
+	r.starts[kind]++
 	t := &task{kind: kind, gen: r.gen, inBar: inBar, ctx: ctx, cancel: cancel, work: w}
 	s := r.slots[kind]
 	if s == nil {
@@ -299,4 +302,11 @@ func (r *taskRunner) most(kind string) int {
 	r.mu.Lock()
 	defer r.mu.Unlock()
 	return r.maxRunning[kind]
+}
+
+// started returns how many tasks of kind were started.
+func (r *taskRunner) started(kind string) int {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	return r.starts[kind]
 }
