@@ -2,6 +2,7 @@ package gui
 
 import (
 	"testing"
+	"time"
 )
 
 // Switching views redraws nothing of the views left hidden: the toolkit's
@@ -108,6 +109,24 @@ func TestRepeatedNoticesExplainOnce(t *testing.T) {
 	})
 	if got := st.tasks.started(taskExplain) - before; got != 1 {
 		t.Errorf("a new text and its repeated notices started %d explanations, want 1", got)
+	}
+
+	// Notices arriving once the explanation is done but still waits on the
+	// UI goroutine's queue to be shown.
+	text = "I left a blue rucksack on the upper deck"
+	before = st.tasks.started(taskExplain)
+	_ = st.explainText.Set(text)
+	for !st.tasks.idle(taskExplain) { // its goroutine ends; nothing drained
+		time.Sleep(5 * time.Millisecond)
+	}
+	for range 3 {
+		wv.update()
+	}
+	q.waitFor(t, "the queued explanation", func() bool {
+		return wv.shown != nil && wv.shown.Text == text && st.tasks.idle(taskExplain)
+	})
+	if got := st.tasks.started(taskExplain) - before; got != 1 {
+		t.Errorf("notices for a text whose explanation was done and queued started %d explanations, want 1", got)
 	}
 
 	// Words typed and taken back before their explanation came: the

@@ -54,6 +54,7 @@ type progressNote struct {
 type slot struct {
 	running, pending *task
 	latest           int // generation of the newest task started
+	settled          int // generation of the newest task whose outcome reached the UI goroutine
 }
 
 // taskRunner runs background work so that the window stays responsive:
@@ -171,6 +172,11 @@ func (r *taskRunner) run(t *task) {
 // its kind was started meanwhile.
 func (r *taskRunner) finish(t *task, apply func(), err error) {
 	cur := r.current(t)
+	if cur {
+		r.mu.Lock()
+		r.slots[t.kind].settled = t.gen
+		r.mu.Unlock()
+	}
 	if t.inBar {
 		r.onBusy(r.anyBarTask())
 	}
@@ -259,6 +265,17 @@ func (r *taskRunner) busy(kind string) bool {
 		}
 	}
 	return false
+}
+
+// settled reports whether the newest task of kind, if any, has ended and
+// its outcome has been handed to the UI goroutine (applied, or dropped as
+// an error). A task that has ended may still wait for that on the UI
+// goroutine's queue.
+func (r *taskRunner) settled(kind string) bool {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	s := r.slots[kind]
+	return s == nil || s.settled == s.latest
 }
 
 // idle reports whether no goroutine of kind runs.

@@ -192,10 +192,11 @@ type explainAsk struct {
 
 // update explains the box's text in the background (one explanation at a
 // time; typing fast skips the texts typed meanwhile). A notice for what is
-// on screen, or for what is being explained, does nothing: the box's
-// notices wait their turn on the UI goroutine and each reads the latest
-// text, so typing leaves a trail of notices for one text, and each restart
-// would make that text wait for one more explanation.
+// on screen, or for what is being explained or waits to be shown, does
+// nothing: the box's notices wait their turn on the UI goroutine and each
+// reads the latest text, so typing leaves a trail of notices for one text,
+// and each restart would make that text wait for one more explanation (or
+// drop one that is done and queued to be shown).
 func (v *whyView) update() {
 	text := stringGet(v.st.explainText)
 	ask := explainAsk{text, itemGet(v.st.model), itemGet(v.st.profiles)}
@@ -205,7 +206,7 @@ func (v *whyView) update() {
 			v.asked = ask
 			return
 		}
-		if ask == v.asked && v.st.tasks.busy(taskExplain) {
+		if ask == v.asked && !v.st.tasks.settled(taskExplain) {
 			return
 		}
 	}
