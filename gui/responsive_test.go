@@ -143,3 +143,30 @@ func TestRepeatedNoticesExplainOnce(t *testing.T) {
 		t.Errorf("after the words were taken back the view shows an explanation of %q, want the one it showed", wv.shown.Text)
 	}
 }
+
+// Filling a table with new rows draws its cells once: the toolkit redraws a
+// table on every column width set and every scroll, and a new set of rows
+// sets the widths of all its columns and scrolls it to the top left (the
+// filter list, emptied and filled again, was drawn four times over).
+func TestNewRowsAreDrawnOnce(t *testing.T) {
+	_, st, q := explainedWindow(t, smallScreen)
+	list := st.filtersView.list
+	st.show(titleFilters)
+	q.drain()
+	list.cellUpdates = 0
+	list.table.Refresh()
+	onScreen := list.cellUpdates // the cells one redraw updates
+	if onScreen == 0 {
+		t.Fatal("a redraw of the filter list updated no cell")
+	}
+	rows := list.rows
+	list.cellUpdates = 0
+	list.setRows(nil) // no rows: no cell to draw
+	list.setRows(rows)
+	if got := list.cellUpdates; got != onScreen {
+		t.Errorf("emptying and filling the filter list updated %d cells, want one redraw's %d", got, onScreen)
+	}
+	if len(list.order) != len(rows) || list.selected != -1 {
+		t.Errorf("after new rows the list shows %d of %d rows with row %d selected, want all and none", len(list.order), len(rows), list.selected)
+	}
+}
