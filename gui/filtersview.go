@@ -108,11 +108,17 @@ func (v *filtersView) exportData() any {
 }
 
 // showFilter shows filter g in the Filters view, selected in the list,
-// from a row of sheet from (nil: from elsewhere).
+// from a row of sheet from (nil: from elsewhere). A search of the list is
+// cleared first, if there is one: clearing none would re-sort and redraw
+// the list for nothing, on the UI goroutine, before the view switches.
 func (st *State) showFilter(g int, from *sheet) {
 	v := st.filtersView
-	v.query.SetText("")
-	v.list.setQuery("")
+	if v.query.Text != "" {
+		v.query.SetText("") // its OnChanged clears the list's search
+	}
+	if v.list.query != "" {
+		v.list.setQuery("")
+	}
 	v.list.selectRow(g)
 	st.showFrom(from, titleFilters)
 }

@@ -46,6 +46,13 @@ type sheet struct {
 	box    *fyne.Container // the table in a layout that widens its last column
 	// shownLast is the last column's width on screen.
 	shownLast float32
+	// cellUpdates counts the cells written on screen (each costs the
+	// toolkit a text layout on the UI goroutine), for tests.
+	cellUpdates int
+	// held: the table shows no rows while setRows rebuilds it, so that the
+	// redraw the toolkit makes on every column width set and every scroll
+	// writes no cell; the rows are drawn once at the end.
+	held bool
 }
 
 // Column width caps.
@@ -171,7 +178,12 @@ func (s *sheet) wide(c int, w float32) *sheet {
 	return s
 }
 
-func (s *sheet) size() (int, int) { return len(s.order), len(s.cols) }
+func (s *sheet) size() (int, int) {
+	if s.held {
+		return 0, len(s.cols)
+	}
+	return len(s.order), len(s.cols)
+}
 
 func (s *sheet) createCell() fyne.CanvasObject {
 	l := widget.NewLabel("")
@@ -180,6 +192,7 @@ func (s *sheet) createCell() fyne.CanvasObject {
 }
 
 func (s *sheet) updateCell(id widget.TableCellID, o fyne.CanvasObject) {
+	s.cellUpdates++
 	l := o.(*widget.Label)
 	if id.Row < len(s.order) && id.Col < len(s.cols) {
 		// One line per cell: a text's line breaks would spill over the
@@ -319,15 +332,19 @@ func (s *sheet) showDetail() {
 }
 
 // setRows replaces the data, keeping the sort column and filter; the
-// table opens scrolled to the top left with nothing selected.
+// table opens scrolled to the top left with nothing selected. Its cells are
+// drawn once (held), not once for each column whose width changes.
 func (s *sheet) setRows(rows [][]string) {
 	s.rows = rows
 	s.selected = -1
+	s.held = true
 	s.table.UnselectAll()
 	s.reorder()
 	s.fitColumns()
 	s.table.ScrollToTop()
 	s.table.ScrollToLeading()
+	s.held = false
+	s.table.Refresh()
 	s.showDetail()
 }
 

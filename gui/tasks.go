@@ -54,6 +54,7 @@ type progressNote struct {
 type slot struct {
 	running, pending *task
 	latest           int // generation of the newest task started
+	settled          int // generation of the newest task whose outcome reached the UI goroutine
 }
 
 // taskRunner runs background work so that the window stays responsive:
@@ -81,10 +82,12 @@ type taskRunner struct {
 	// maxRunning is the most goroutines of one kind seen at once, for tests.
 	maxRunning map[string]int
 	running    map[string]int
+	// starts counts the tasks started of each kind, for tests.
+	starts map[string]int
 }
 
 func newTaskRunner(ui func(func())) *taskRunner {
-	return &taskRunner{ui: ui, slots: map[string]*slot{}, maxRunning: map[string]int{}, running: map[string]int{},
+	return &taskRunner{ui: ui, slots: map[string]*slot{}, maxRunning: map[string]int{}, running: map[string]int{}, starts: map[string]int{},
 		onBusy: func(bool) {}, onNote: func(float64, string) {}, onError: func(error) {}}
 }
 
@@ -100,6 +103,7 @@ func (r *taskRunner) start(kind string, inBar bool, w work) {
 	ctx, cancel := context.WithCancel(context.Background())
 	r.mu.Lock()
 	r.gen++
+	r.starts[kind]++
 	t := &task{kind: kind, gen: r.gen, inBar: inBar, ctx: ctx, cancel: cancel, work: w}
 	s := r.slots[kind]
 	if s == nil {
@@ -168,6 +172,11 @@ func (r *taskRunner) run(t *task) {
 // its kind was started meanwhile.
 func (r *taskRunner) finish(t *task, apply func(), err error) {
 	cur := r.current(t)
+	if cur {
+		r.mu.Lock()
+		r.slots[t.kind].settled = t.gen
+		r.mu.Unlock()
+	}
 	if t.inBar {
 		r.onBusy(r.anyBarTask())
 	}
@@ -258,6 +267,17 @@ func (r *taskRunner) busy(kind string) bool {
 	return false
 }
 
+// settled reports whether the newest task of kind, if any, has ended and
+// its outcome has been handed to the UI goroutine (applied, or dropped as
+// an error). A task that has ended may still wait for that on the UI
+// goroutine's queue.
+func (r *taskRunner) settled(kind string) bool {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	s := r.slots[kind]
+	return s == nil || s.settled == s.latest
+}
+
 // idle reports whether no goroutine of kind runs.
 func (r *taskRunner) idle(kind string) bool {
 	r.mu.Lock()
@@ -299,4 +319,11 @@ func (r *taskRunner) most(kind string) int {
 	r.mu.Lock()
 	defer r.mu.Unlock()
 	return r.maxRunning[kind]
+}
+
+// started returns how many tasks of kind were started.
+func (r *taskRunner) started(kind string) int {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	return r.starts[kind]
 }

@@ -45,6 +45,7 @@ type whyView struct {
 	firedRows                               []explain.FiredFilter
 	keptRows                                []explain.KeptDownWindow
 	shown                                   *explainState // the explanation on screen
+	asked, answered                         explainAsk    // the explanation last started, and the one on screen
 	nextText                                int           // the test text Next shows
 	body                                    fyne.CanvasObject
 }
@@ -181,15 +182,40 @@ func (v *whyView) modelChanged() {
 	v.update()
 }
 
+// explainAsk is what an explanation is of: a text, read by a model with
+// its filter profiles.
+type explainAsk struct {
+	text     string
+	model    *modelState
+	profiles *profileState
+}
+
 // update explains the box's text in the background (one explanation at a
-// time; typing fast skips the texts typed meanwhile).
+// time; typing fast skips the texts typed meanwhile). A notice for what is
+// on screen, or for what is being explained or waits to be shown, does
+// nothing: the box's notices wait their turn on the UI goroutine and each
+// reads the latest text, so typing leaves a trail of notices for one text,
+// and each restart would make that text wait for one more explanation (or
+// drop one that is done and queued to be shown).
 func (v *whyView) update() {
 	text := stringGet(v.st.explainText)
+	ask := explainAsk{text, itemGet(v.st.model), itemGet(v.st.profiles)}
+	if ask.model != nil && strings.TrimSpace(text) != "" {
+		if ask == v.answered {
+			v.st.cancel(taskExplain) // a text typed since, and taken back
+			v.asked = ask
+			return
+		}
+		if ask == v.asked && !v.st.tasks.settled(taskExplain) {
+			return
+		}
+	}
+	v.asked = ask
 	v.st.runExplain(text, func(es *explainState) {
 		if stringGet(v.st.explainText) != text {
 			return
 		}
-		v.shown = es
+		v.shown, v.answered = es, ask
 		v.detail.SetText("Click a token for its numbers.")
 		v.paint()
 	})

@@ -68,7 +68,8 @@ func newWindow(a fyne.App, opts Options, ui func(func())) (fyne.Window, *State) 
 }
 
 // build makes the window content from the views table: views on leading
-// tabs, each under its one-line intro, and the status bar.
+// tabs, each under its one-line intro in a frame that keeps the tabs'
+// refresh on every switch away from it (viewFrame), and the status bar.
 func (st *State) build() fyne.CanvasObject {
 	st.specs = viewTable()
 	tabs := container.NewAppTabs()
@@ -76,7 +77,7 @@ func (st *State) build() fyne.CanvasObject {
 		v := spec.make(st)
 		intro := widget.NewLabelWithStyle(spec.Intro, fyne.TextAlignLeading, fyne.TextStyle{Italic: true})
 		intro.Wrapping = fyne.TextWrapWord
-		tabs.Append(container.NewTabItem(spec.Title, container.NewBorder(intro, nil, nil, nil, v.content())))
+		tabs.Append(container.NewTabItem(spec.Title, newViewFrame(container.NewBorder(intro, nil, nil, nil, v.content()))))
 	}
 	tabs.SetTabLocation(container.TabLocationLeading)
 	tabs.OnSelected = func(*container.TabItem) { st.win.SetTitle(appName + " — " + st.shownTitle()) }
