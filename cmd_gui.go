@@ -11,7 +11,6 @@ import (
 	"strings"
 	"time"
 
-	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/app"
 
 	"telltale/gui"
@@ -81,16 +80,17 @@ func runGUI(ctx context.Context, env *runEnv, o *guiOptions) error {
 	o.DemoTrain, o.DemoTest = demoTrain, demoTest
 	o.OnReady = func() { fmt.Fprintln(env.Stderr, "telltale: window ready") }
 	a := app.NewWithID("org.telltale.app")
-	w := gui.NewWindow(a, o.Options)
-	// Ctrl-C and SIGTERM close the window cleanly, or end the process if
-	// the window has not closed within quitGrace.
+	w, quit := gui.NewWindow(a, o.Options)
+	// Ctrl-C and SIGTERM close the window cleanly, its background work
+	// stopped first, or end the process if the window has not closed
+	// within quitGrace.
 	go func() {
 		<-ctx.Done()
-		fyne.Do(a.Quit)
+		quit()
 		time.AfterFunc(quitGrace, func() { forceQuit(ctx, env.Stderr) })
 	}()
 	if o.quitAfter > 0 {
-		time.AfterFunc(o.quitAfter, func() { fyne.Do(a.Quit) })
+		time.AfterFunc(o.quitAfter, quit)
 	}
 	w.ShowAndRun()
 	return nil

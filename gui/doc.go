@@ -38,7 +38,8 @@
 // Only the main package imports fyne.io/fyne/v2/app:
 //
 //	a := app.NewWithID("telltale")
-//	w := gui.NewWindow(a, gui.Options{DemoTrain: train, DemoTest: test})
+//	w, quit := gui.NewWindow(a, gui.Options{DemoTrain: train, DemoTest: test})
+//	// quit() on a signal closes it cleanly
 //	w.ShowAndRun()
 //
 // The window's title names the view on screen ("telltale — Results"), which

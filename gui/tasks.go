@@ -84,6 +84,9 @@ type taskRunner struct {
 	running    map[string]int
 	// starts counts the tasks started of each kind, for tests.
 	starts map[string]int
+	// closed is set when the window closes (close): nothing more is handed
+	// to the UI goroutine.
+	closed bool
 }
 
 func newTaskRunner(ui func(func())) *taskRunner {
@@ -160,7 +163,7 @@ func (r *taskRunner) run(t *task) {
 		}
 	}
 	r.mu.Unlock()
-	r.ui(func() {
+	r.toUI(func() {
 		r.finish(t, apply, err)
 		if skipped != nil {
 			r.finish(skipped, nil, errCanceled)
@@ -214,7 +217,7 @@ func (r *taskRunner) report(t *task, done, total int, what string) {
 	if !post {
 		return
 	}
-	r.ui(func() {
+	r.toUI(func() {
 		r.mu.Lock()
 		t.posted = false
 		p := t.progress
@@ -299,6 +302,27 @@ func (r *taskRunner) cancel(kind string) {
 			}
 		}
 	}
+}
+
+// toUI hands fn to the UI goroutine, unless the window has closed: once the
+// toolkit's loop has ended, fn would run on the calling goroutine and
+// reach widgets from there.
+func (r *taskRunner) toUI(fn func()) {
+	r.mu.Lock()
+	closed := r.closed
+	r.mu.Unlock()
+	if !closed {
+		r.ui(fn)
+	}
+}
+
+// close stops every task for good, as the window closes: their outcomes
+// and progress are no longer shown. Safe on any goroutine.
+func (r *taskRunner) close() {
+	r.mu.Lock()
+	r.closed = true
+	r.mu.Unlock()
+	r.cancelAll()
 }
 
 // cancelAll stops every task.

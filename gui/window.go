@@ -44,10 +44,19 @@ var defaultSize = fyne.NewSize(1180, 760)
 
 // NewWindow builds the telltale window on a: views, menus, shortcuts and
 // the status bar, and starts loading opts.DataPath (or the demo corpus) and
-// opts.ModelPath in the background. The caller shows and runs it.
-func NewWindow(a fyne.App, opts Options) fyne.Window {
-	w, _ := newWindow(a, opts, fyne.Do)
-	return w
+// opts.ModelPath in the background. The caller shows and runs it. quit,
+// safe on any goroutine and at any time (before the toolkit runs, or after
+// it stopped), stops the background work and then the toolkit's loop;
+// use it for signals and timers.
+func NewWindow(a fyne.App, opts Options) (w fyne.Window, quit func()) {
+	w, st := newWindow(a, opts, fyne.Do)
+	return w, func() {
+		st.tasks.close()
+		// The driver's Quit, as the toolkit's own signal handler calls it:
+		// once the loop has ended, fyne.Do runs it at once and it does
+		// nothing, where the app's Quit would close windows already gone.
+		fyne.Do(a.Driver().Quit)
+	}
 }
 
 // newWindow builds the window with ui as the UI runner (fyne.Do, or a
@@ -59,10 +68,10 @@ func newWindow(a fyne.App, opts Options, ui func(func())) (fyne.Window, *State) 
 	w.SetContent(st.build())
 	st.installMenus()
 	w.Resize(defaultSize)
-	w.SetCloseIntercept(func() {
-		st.cancelAll()
-		w.Close()
-	})
+	// When the window closes, the background work stops and shows nothing
+	// more: after the toolkit's loop has ended, its outcomes and progress
+	// would reach widgets off the UI goroutine.
+	w.SetOnClosed(st.tasks.close)
 	st.startup()
 	return w, st
 }

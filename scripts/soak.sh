@@ -171,9 +171,22 @@ if ! kill -0 "$window_pid" 2>/dev/null; then
 	cat "$log" >&2
 	exit 1
 fi
-if grep -q "Fyne error" "$log"; then
+# SIGTERM, as a session ending sends it, closes the window cleanly: the
+# signal's exit status (128 + 15), no panic.
+kill -TERM "$window_pid"
+status=0
+wait "$window_pid" || status=$?
+window_pid=""
+if [ "$status" -ne 143 ] || grep -q "^panic:" "$log"; then
+	echo "soak: the window did not close cleanly on SIGTERM (exit status $status); its output:" >&2
+	cat "$log" >&2
+	exit 1
+fi
+# Neither errors of the toolkit nor calls to it from a goroutine other
+# than its own, during the run or on the way out.
+if grep -q -e "Fyne error" -e "Error in Fyne call thread" "$log"; then
 	echo "soak: the toolkit reported errors:" >&2
-	grep -A2 "Fyne error" "$log" >&2
+	grep -A2 -e "Fyne error" -e "Error in Fyne call thread" "$log" >&2
 	exit 1
 fi
 echo "soak: $round rounds, $probes view switches in $(($(date +%s) - start)) s; slowest answer ${worst} s (limit ${limit} s)" >&2
