@@ -14,6 +14,7 @@ import (
 	"runtime"
 	"sort"
 	"strings"
+	"unicode"
 	"unicode/utf8"
 )
 
@@ -341,6 +342,11 @@ func makeExample(text, label, path, file string, line, labelLine int, opt Option
 	label = strings.TrimSpace(label)
 	if label == "" && !opt.Unlabeled {
 		return Example{}, false, errAt(path, labelLine, ErrLabel, "empty label: give every example a label, or remove the record")
+	}
+	if strings.IndexFunc(label, unicode.IsControl) >= 0 {
+		return Example{}, false, errAt(path, labelLine, ErrLabel,
+			"label %s holds a line break, a tab or another control character: a label is one line of plain text (it names the class in every output); "+
+				"the label column may hold text here: check --label-col, or fix the record", quote(label))
 	}
 	if strings.TrimSpace(text) == "" {
 		ws.add(path, line, "empty text skipped")
