@@ -153,6 +153,10 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 	if err != nil {
 		return ws.result(), err
 	}
+	if n == 0 && format == "dir" {
+		return ws.result(), errAt(path, 0, ErrEmpty, "no examples found in the folder: a data folder holds one sub-folder per label, each with one .txt file per example; "+
+			"to read a CSV, TSV or JSON Lines file in it, give the file's path instead")
+	}
 	if n == 0 {
 		return ws.result(), errAt(path, 0, ErrEmpty, "no examples found: the file needs a header row and at least one record with a non-empty text")
 	}

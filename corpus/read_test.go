@@ -211,6 +211,32 @@ func TestLoadDir(t *testing.T) {
 	}
 }
 
+// TestLoadDirWithoutExamples: a folder that yields no example (empty, or
+// holding data files instead of one sub-folder per label, as a folder of
+// train.csv and test.csv does) is refused as a folder, with the folder
+// layout and the file alternative, not with the advice for a file.
+func TestLoadDirWithoutExamples(t *testing.T) {
+	cases := []struct {
+		name  string
+		files map[string]string
+	}{
+		{"empty folder", nil},
+		{"data files at the top level", map[string]string{"train.csv": "text,label\nok,a\nfine,b\n", "test.jsonl": `{"text":"a","label":"b"}`}},
+		{"data files in label folders", map[string]string{"ham/part.csv": "text,label\nok,a\n"}},
+	}
+	for _, c := range cases {
+		dir := t.TempDir()
+		for name, content := range c.files {
+			writeFile(t, dir, name, content)
+		}
+		_, _, err := Load(dir, Options{})
+		want := "corpus: " + dir + ": no examples found in the folder: a data folder holds one sub-folder per label"
+		if !errors.Is(err, ErrEmpty) || !strings.HasPrefix(err.Error(), want) || !strings.Contains(err.Error(), "give the file's path instead") {
+			t.Errorf("%s: got %v, want %q…", c.name, err, want)
+		}
+	}
+}
+
 func TestLoadDirBadFile(t *testing.T) {
 	dir := t.TempDir()
 	writeFile(t, dir, "a/1.txt", "fine")
