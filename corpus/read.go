@@ -965,7 +965,7 @@ func readLabelDir(root, name, label string, opt Options, ws *warnings, fn func(E
 	sub := filepath.Join(root, name)
 	files, err := os.ReadDir(sub)
 	if err != nil {
-		return kindError(ErrEmpty, "corpus: %s: cannot read folder: %v", sub, err)
+		return kindError(ErrEmpty, "corpus: %s: the label folder cannot be read (%v): make it readable, or move it out of the data folder", sub, pathless(err))
 	}
 	skipped, nested, kept := 0, 0, 0
 	for _, fe := range files {
@@ -1000,13 +1000,23 @@ func readLabelDir(root, name, label string, opt Options, ws *warnings, fn func(E
 	return nil
 }
 
+// pathless is err without the path an *fs.PathError repeats (the message
+// names the file already).
+func pathless(err error) error {
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		return pe.Err
+	}
+	return err
+}
+
 // readExampleFile reads the example file root/rel with label and hands it
 // to fn; ok is false for a file skipped with a warning (an empty text).
 func readExampleFile(root, rel, label string, opt Options, ws *warnings, fn func(Example) error) (ok bool, err error) {
 	full := filepath.Join(root, rel)
 	text, long, err := readFileLimited(full, opt.MaxTextBytes)
 	if err != nil {
-		return false, kindError(ErrEmpty, "corpus: %s: cannot read: %v", full, err)
+		return false, kindError(ErrEmpty, "corpus: %s: the example file cannot be read (%v): make it readable, or move it out of the data folder", full, pathless(err))
 	}
 	if long {
 		ws.add(full, 0, "text longer than %d bytes truncated (raise --max-text-bytes to keep more)", opt.MaxTextBytes)

@@ -237,6 +237,34 @@ func TestLoadDirWithoutExamples(t *testing.T) {
 	}
 }
 
+// TestLoadDirUnreadable: a label folder or an example file without read
+// permission (EACCES, open(2)) is refused naming it once, with the fix.
+func TestLoadDirUnreadable(t *testing.T) {
+	if os.Geteuid() == 0 {
+		t.Skip("the superuser reads files without read permission")
+	}
+	cases := []struct {
+		name, unreadable, want string
+	}{
+		{"an example file", "b/2.txt", "the example file cannot be read (permission denied): make it readable, or move it out of the data folder"},
+		{"a label folder", "b", "the label folder cannot be read (permission denied): make it readable, or move it out of the data folder"},
+	}
+	for _, c := range cases {
+		dir := t.TempDir()
+		writeFile(t, dir, "a/1.txt", "fine")
+		writeFile(t, dir, "b/2.txt", "fine too")
+		p := filepath.Join(dir, c.unreadable)
+		if err := os.Chmod(p, 0); err != nil {
+			t.Fatal(err)
+		}
+		_, _, err := Load(dir, Options{})
+		if want := "corpus: " + p + ": " + c.want; err == nil || err.Error() != want {
+			t.Errorf("%s: got %v, want %q", c.name, err, want)
+		}
+		os.Chmod(p, 0o755)
+	}
+}
+
 func TestLoadDirBadFile(t *testing.T) {
 	dir := t.TempDir()
 	writeFile(t, dir, "a/1.txt", "fine")
