@@ -347,7 +347,7 @@ func makeExample(text, label, path, file string, line, labelLine int, opt Option
 	if label == "" && !opt.Unlabeled {
 		return Example{}, false, errAt(path, labelLine, ErrLabel, "empty label: give every example a label, or remove the record")
 	}
-	if strings.IndexFunc(label, unicode.IsControl) >= 0 {
+	if !opt.Unlabeled && strings.IndexFunc(label, unicode.IsControl) >= 0 {
 		return Example{}, false, errAt(path, labelLine, ErrLabel,
 			"label %s holds a line break, a tab or another control character: a label is one line of plain text (it names the class in every output); "+
 				"the label column may hold text here: check --label-col, or fix the record", quote(label))

@@ -265,6 +265,17 @@ func TestLoadDirUnreadable(t *testing.T) {
 	}
 }
 
+// TestUnlabeledKeepsOddLabels: texts read to be labeled (predict's
+// Unlabeled reading) keep a gold label holding a line break as it is, where
+// labeled reading refuses it (TestLoadBadInput): the model never learns it.
+func TestUnlabeledKeepsOddLabels(t *testing.T) {
+	p := writeFile(t, t.TempDir(), "a.csv", "text,label\nok,a\n\"fine\",\"b\nc\"\n")
+	d, _, err := Load(p, Options{Unlabeled: true})
+	if err != nil || len(d.Examples) != 2 || d.Examples[1].Label != "b\nc" {
+		t.Fatalf("got %v, %v", d, err)
+	}
+}
+
 func TestLoadDirBadFile(t *testing.T) {
 	dir := t.TempDir()
 	writeFile(t, dir, "a/1.txt", "fine")
