@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"bytes"
 	"context"
+	"errors"
 	"fmt"
 	"io"
 	"runtime"
@@ -247,8 +248,12 @@ func lineBatches(r io.Reader, warn io.Writer) batchSource {
 				b.addLines()
 				return false, nil
 			}
+			if errors.Is(err, bufio.ErrTooLong) {
+				return false, fmt.Errorf("standard input line %d is longer than 16 MiB, the limit of a line: cut the lines shorter, "+
+					"e.g. with cut -b1-1000000 (the model reads no more of a text than the --max-len tokens it was trained with, 400 by default)", lr.n+1)
+			}
 			if err != nil {
-				return false, fmt.Errorf("reading standard input line %d: %w (lines are limited to 16 MiB)", lr.n+1, err)
+				return false, fmt.Errorf("reading standard input line %d: %w", lr.n+1, err)
 			}
 			if lr.n == 1 {
 				line = bytes.TrimPrefix(line, []byte("\xef\xbb\xbf"))

@@ -137,7 +137,11 @@ func parseRelabel(s string) (map[string]string, error) {
 		if !ok || strings.TrimSpace(from) == "" {
 			return nil, usagef("--relabel %q: each entry is FROM=TO, separated by commas", clip(s))
 		}
-		m[strings.TrimSpace(from)] = strings.TrimSpace(to)
+		from, to = strings.TrimSpace(from), strings.TrimSpace(to)
+		if prev, seen := m[from]; seen && prev != to {
+			return nil, usagef("--relabel %q: label %q is mapped twice, to %q and to %q: map each label once", clip(s), clip(from), clip(prev), clip(to))
+		}
+		m[from] = to
 	}
 	return m, nil
 }

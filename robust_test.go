@@ -620,7 +620,7 @@ func TestLineLimits(t *testing.T) {
 	in := strings.Repeat("ferry ", (16<<20)/6+10) + "\nlate ferry\n"
 	code = run(context.Background(), []string{"predict", "--model", model}, strings.NewReader(in), &out, &errb)
 	noCrash(t, "long stdin line", errb.String())
-	if code != 1 || !strings.Contains(errb.String(), "lines are limited to 16 MiB") {
+	if code != 1 || !strings.Contains(errb.String(), "standard input line 1 is longer than 16 MiB") || !strings.Contains(errb.String(), "cut the lines shorter") {
 		t.Errorf("stdin line over 16 MiB: exit %d, stderr %q", code, errb.String())
 	}
 }

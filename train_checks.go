@@ -13,7 +13,8 @@ import (
 // examples, as when the text and label columns are swapped) and an empty
 // dev split, unless --force; dev or test labels the training split lacks;
 // an empty vocabulary; and a model too large for the machine's memory. It
-// warns of an empty test split.
+// warns of an empty test split, and of a dev or test file that holds
+// texts of the training split.
 func (o *trainOptions) checkData(sp *splits, w io.Writer) error {
 	all := sp.all
 	if n, k := len(all.Examples), len(all.Labels); k > 2 && 2*k > n && !o.force {
@@ -33,7 +34,38 @@ func (o *trainOptions) checkData(sp *splits, w io.Writer) error {
 			return err
 		}
 	}
+	if !o.quiet {
+		for _, msg := range o.heldFilesInTraining(sp) {
+			fmt.Fprintf(w, "warning: %s\n", msg)
+		}
+	}
 	return o.checkVocabulary(sp)
+}
+
+// heldFilesInTraining says, for the dev file (--dev) and the test file
+// (--test) when given, how many of their texts are also texts of the
+// training split (inTraining): such a test file's figures are not
+// held-out figures, and such a dev file chooses the epoch on texts the
+// model learned. Nothing is said of a held-out share of --data.
+func (o *trainOptions) heldFilesInTraining(sp *splits) []string {
+	var msgs []string
+	for _, f := range []struct {
+		opt, path, use string
+		ds             *corpus.Dataset
+	}{
+		{"--dev", o.split.Dev, "the epoch it chooses is chosen on texts the model learned", sp.dev},
+		{"--test", o.split.Test, "its figures are not held-out figures", sp.test},
+	} {
+		if f.path == "" {
+			continue
+		}
+		if n := inTraining(f.ds, sp.train); n > 0 {
+			msgs = append(msgs, fmt.Sprintf("%s %s: %d of its %s are texts of the training split of %s: %s; "+
+				"take them out of one of the files ('telltale data --data %s %s %s' lists them)",
+				f.opt, f.path, n, texts(len(f.ds.Examples)), o.data, f.use, o.data, f.opt, f.path))
+		}
+	}
+	return msgs
 }
 
 // checkVocabulary tokenizes the training split as training will and

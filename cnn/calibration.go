@@ -28,7 +28,8 @@ func CalibrationTest(conf []float64, correct []bool, bins, draws int, seed uint6
 	if len(conf) == 0 {
 		return 1
 	}
-	observed := expectedCalibrationError(conf, correct, bins)
+	bin, k := occupiedBins(conf, bins)
+	observed := binnedECE(conf, correct, bin, k)
 	r := rand.New(rand.NewPCG(seed, 0x2545f4914f6cdd1d))
 	drawn := make([]bool, len(conf))
 	atLeast := 0
@@ -37,7 +38,7 @@ func CalibrationTest(conf []float64, correct []bool, bins, draws int, seed uint6
 			drawn[i] = r.Float64() < c
 		}
 		// A tiny tolerance: a drawn set equal to the observed one counts.
-		if expectedCalibrationError(conf, drawn, bins) >= observed-1e-12 {
+		if binnedECE(conf, drawn, bin, k) >= observed-1e-12 {
 			atLeast++
 		}
 	}

@@ -99,17 +99,11 @@ func BootstrapECE(conf []float64, correct []bool, bins, resamples int, level flo
 		panic("cnn: BootstrapECE: conf and correct differ in length")
 	}
 	checkBootstrap("BootstrapECE", resamples, level)
-	if bins <= 0 {
-		bins = DefaultBins
-	}
 	if len(conf) == 0 {
 		return Interval{High: 1}
 	}
-	bin := make([]int, len(conf))
-	for i, c := range conf {
-		bin[i] = max(0, min(bins-1, int(math.Ceil(c*float64(bins)))-1))
-	}
-	gap := make([]float64, bins) // Σ (right − conf) of each bin
+	bin, k := occupiedBins(conf, bins)
+	gap := make([]float64, k) // Σ (right − conf) of each occupied bin
 	ivs := bootstrapPercentiles(len(conf), 1, resamples, level, seed, func(w []int, out []float64) {
 		clear(gap)
 		for i, n := range w {
@@ -127,7 +121,7 @@ func BootstrapECE(conf []float64, correct []bool, bins, resamples int, level flo
 		}
 		out[0] = e / float64(len(conf))
 	})
-	ivs[0].Estimate = expectedCalibrationError(conf, correct, bins)
+	ivs[0].Estimate = binnedECE(conf, correct, bin, k)
 	return ivs[0]
 }
 

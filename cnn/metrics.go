@@ -118,31 +118,59 @@ func ratio(a, b int) float64 {
 // expectedCalibrationError is ECE = Σ_m |B_m|/n · |acc(B_m) − conf(B_m)| over
 // equal-width bins B_m = ((m−1)/M, m/M] (Guo et al. 2017, "On Calibration of
 // Modern Neural Networks", ICML); a confidence of exactly 0 goes to the first
-// bin.
+// bin. bins ≤ 0 means DefaultBins.
 func expectedCalibrationError(conf []float64, correct []bool, bins int) float64 {
+	bin, k := occupiedBins(conf, bins)
+	return binnedECE(conf, correct, bin, k)
+}
+
+// occupiedBins returns the equal-width bin of each confidence (as
+// expectedCalibrationError bins them; bins ≤ 0 means DefaultBins),
+// numbered 0 … k−1 in the order of the bins among the k that hold a
+// confidence: the work and memory of the ECE grow with the texts, not with
+// bins, so that any count of bins is cheap.
+func occupiedBins(conf []float64, bins int) (bin []int, k int) {
 	if bins <= 0 {
 		bins = DefaultBins
 	}
+	bin = make([]int, len(conf))
+	for i, c := range conf {
+		f := math.Ceil(c * float64(bins))
+		switch {
+		case f >= float64(bins): // no int conversion past the range
+			bin[i] = bins - 1
+		case f >= 1:
+			bin[i] = int(f) - 1
+		default:
+			bin[i] = 0
+		}
+	}
+	keys := slices.Clone(bin)
+	slices.Sort(keys)
+	keys = slices.Compact(keys)
+	for i, b := range bin {
+		bin[i], _ = slices.BinarySearch(keys, b)
+	}
+	return bin, len(keys)
+}
+
+// binnedECE is the ECE of the confidences in the k bins occupiedBins
+// gave, summed over the bins in their order.
+func binnedECE(conf []float64, correct []bool, bin []int, k int) float64 {
 	if len(conf) == 0 {
 		return 0
 	}
-	cnt := make([]int, bins)
-	sumC := make([]float64, bins)
-	sumA := make([]float64, bins)
+	sumC := make([]float64, k)
+	sumA := make([]float64, k)
 	for i, c := range conf {
-		b := int(math.Ceil(c*float64(bins))) - 1
-		b = max(0, min(bins-1, b))
-		cnt[b]++
-		sumC[b] += c
+		sumC[bin[i]] += c
 		if correct[i] {
-			sumA[b]++
+			sumA[bin[i]]++
 		}
 	}
 	var e float64
-	for b := range cnt {
-		if cnt[b] > 0 {
-			e += math.Abs(sumA[b]-sumC[b]) / float64(len(conf))
-		}
+	for b := range sumC {
+		e += math.Abs(sumA[b]-sumC[b]) / float64(len(conf))
 	}
 	return e
 }

@@ -171,3 +171,46 @@ func TestEvaluateMatchesForward(t *testing.T) {
 		t.Error("out-of-vocabulary id accepted")
 	}
 }
+
+// TestECEManyBins: with more bins than texts the ECE costs no more than
+// with few, and its value is the definition's (Guo et al. 2017): with
+// bins so fine that each distinct confidence sits in a bin of its own,
+// Σ over the distinct confidences of |Σ (right − conf)| / n, worked by hand
+// below; with one bin, |accuracy − mean confidence|. The bootstrap interval
+// and the calibration test take the same bins.
+func TestECEManyBins(t *testing.T) {
+	conf := []float64{0.2, 0.2, 0.7, 0.9, 1, 0}
+	right := []bool{true, false, true, false, true, false}
+	// Distinct confidences: 0.2 → |1 − 0.4| = 0.6; 0.7 → 0.3; 0.9 → 0.9;
+	// 1 → 0; 0 → 0. Sum 1.8 over 6 texts.
+	fine := 1.8 / 6
+	// One bin: accuracy 3/6 against mean confidence 3/6.
+	cases := []struct {
+		name string
+		bins int
+		want float64
+	}{
+		{"one bin", 1, 0},
+		{"a million bins", 1_000_000, fine},
+		{"2^40 bins", 1 << 40, fine},
+		{"the largest int", math.MaxInt, fine},
+	}
+	for _, c := range cases {
+		func() {
+			defer func() {
+				if r := recover(); r != nil {
+					t.Errorf("%s: panic %v", c.name, r)
+				}
+			}()
+			if e := expectedCalibrationError(conf, right, c.bins); !near(e, c.want, 1e-12) {
+				t.Errorf("%s: ECE %g, want %g", c.name, e, c.want)
+			}
+			if e := BootstrapECE(conf, right, c.bins, 20, 0.95, 1); !near(e.Estimate, c.want, 1e-12) || e.Low > e.High {
+				t.Errorf("%s: bootstrap %+v, want its estimate %g", c.name, e, c.want)
+			}
+			if p := CalibrationTest(conf, right, c.bins, 20, 1); p <= 0 || p > 1 {
+				t.Errorf("%s: calibration p %g", c.name, p)
+			}
+		}()
+	}
+}

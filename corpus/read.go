@@ -14,6 +14,7 @@ import (
 	"runtime"
 	"sort"
 	"strings"
+	"unicode"
 	"unicode/utf8"
 )
 
@@ -151,6 +152,10 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 	}
 	if err != nil {
 		return ws.result(), err
+	}
+	if n == 0 && format == "dir" {
+		return ws.result(), errAt(path, 0, ErrEmpty, "no examples found in the folder: a data folder holds one sub-folder per label, each with one .txt file per example; "+
+			"to read a CSV, TSV or JSON Lines file in it, give the file's path instead")
 	}
 	if n == 0 {
 		return ws.result(), errAt(path, 0, ErrEmpty, "no examples found: the file needs a header row and at least one record with a non-empty text")
@@ -341,6 +346,11 @@ func makeExample(text, label, path, file string, line, labelLine int, opt Option
 	label = strings.TrimSpace(label)
 	if label == "" && !opt.Unlabeled {
 		return Example{}, false, errAt(path, labelLine, ErrLabel, "empty label: give every example a label, or remove the record")
+	}
+	if !opt.Unlabeled && strings.IndexFunc(label, unicode.IsControl) >= 0 {
+		return Example{}, false, errAt(path, labelLine, ErrLabel,
+			"label %s holds a line break, a tab or another control character: a label is one line of plain text (it names the class in every output); "+
+				"the label column may hold text here: check --label-col, or fix the record", quote(label))
 	}
 	if strings.TrimSpace(text) == "" {
 		ws.add(path, line, "empty text skipped")
@@ -955,7 +965,7 @@ func readLabelDir(root, name, label string, opt Options, ws *warnings, fn func(E
 	sub := filepath.Join(root, name)
 	files, err := os.ReadDir(sub)
 	if err != nil {
-		return kindError(ErrEmpty, "corpus: %s: cannot read folder: %v", sub, err)
+		return kindError(ErrEmpty, "corpus: %s: the label folder cannot be read (%v): make it readable, or move it out of the data folder", sub, pathless(err))
 	}
 	skipped, nested, kept := 0, 0, 0
 	for _, fe := range files {
@@ -990,13 +1000,23 @@ func readLabelDir(root, name, label string, opt Options, ws *warnings, fn func(E
 	return nil
 }
 
+// pathless is err without the path an *fs.PathError repeats (the message
+// names the file already).
+func pathless(err error) error {
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		return pe.Err
+	}
+	return err
+}
+
 // readExampleFile reads the example file root/rel with label and hands it
 // to fn; ok is false for a file skipped with a warning (an empty text).
 func readExampleFile(root, rel, label string, opt Options, ws *warnings, fn func(Example) error) (ok bool, err error) {
 	full := filepath.Join(root, rel)
 	text, long, err := readFileLimited(full, opt.MaxTextBytes)
 	if err != nil {
-		return false, kindError(ErrEmpty, "corpus: %s: cannot read: %v", full, err)
+		return false, kindError(ErrEmpty, "corpus: %s: the example file cannot be read (%v): make it readable, or move it out of the data folder", full, pathless(err))
 	}
 	if long {
 		ws.add(full, 0, "text longer than %d bytes truncated (raise --max-text-bytes to keep more)", opt.MaxTextBytes)

@@ -102,6 +102,9 @@ func TestLoadBadInput(t *testing.T) {
 		{"invalid utf8", "a.csv", "text,label\nok,a\n\"two\nlines caf\xe9\",b\n", Options{}, ErrEncoding, "line 4", "invalid UTF-8 byte 0xe9"},
 		{"utf16", "a.csv", "\xff\xfet\x00e\x00", Options{}, ErrEncoding, "line 1", "UTF-16"},
 		{"empty label", "a.csv", "text,label\nok,a\nfine, \n", Options{}, ErrLabel, "line 3", "empty label"},
+		{"label with a line break", "a.csv", "text,label\nok,a\n\"fine\",\"b\nc\"\n", Options{}, ErrLabel, "line 3", `label "b\nc" holds a line break`},
+		{"label with a tab after blank lines", "a.csv", "text,label\nok,a\nfine,\" \n\nb\tc\"\n", Options{}, ErrLabel, "line 3", `label "b\tc" holds a line break, a tab`},
+		{"jsonl label with a tab", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\":\"b\",\"label\":\"y\\tz\"}\n", Options{}, ErrLabel, "line 2", `label "y\tz" holds`},
 		{"one label only", "a.csv", "text,label\nok,a\nfine,a\n", Options{}, ErrLabel, "", `only one label "a" in 2 examples`},
 		{"only empty texts", "a.csv", "text,label\n ,a\n,b\n", Options{}, ErrEmpty, "", "no examples"},
 		{"10 MB single line csv", "a.csv", "text,label\n" + long + ",a\n", Options{}, ErrTooLong, "line 2", "record longer than"},
@@ -205,6 +208,71 @@ func TestLoadDir(t *testing.T) {
 	}
 	if !reflect.DeepEqual(msgs, wantW) {
 		t.Errorf("warnings %q\nwant %q", msgs, wantW)
+	}
+}
+
+// TestLoadDirWithoutExamples: a folder that yields no example (empty, or
+// holding data files instead of one sub-folder per label, as a folder of
+// train.csv and test.csv does) is refused as a folder, with the folder
+// layout and the file alternative, not with the advice for a file.
+func TestLoadDirWithoutExamples(t *testing.T) {
+	cases := []struct {
+		name  string
+		files map[string]string
+	}{
+		{"empty folder", nil},
+		{"data files at the top level", map[string]string{"train.csv": "text,label\nok,a\nfine,b\n", "test.jsonl": `{"text":"a","label":"b"}`}},
+		{"data files in label folders", map[string]string{"ham/part.csv": "text,label\nok,a\n"}},
+	}
+	for _, c := range cases {
+		dir := t.TempDir()
+		for name, content := range c.files {
+			writeFile(t, dir, name, content)
+		}
+		_, _, err := Load(dir, Options{})
+		want := "corpus: " + dir + ": no examples found in the folder: a data folder holds one sub-folder per label"
+		if !errors.Is(err, ErrEmpty) || !strings.HasPrefix(err.Error(), want) || !strings.Contains(err.Error(), "give the file's path instead") {
+			t.Errorf("%s: got %v, want %q…", c.name, err, want)
+		}
+	}
+}
+
+// TestLoadDirUnreadable: a label folder or an example file without read
+// permission (EACCES, open(2)) is refused naming it once, with the fix.
+func TestLoadDirUnreadable(t *testing.T) {
+	if os.Geteuid() == 0 {
+		t.Skip("the superuser reads files without read permission")
+	}
+	cases := []struct {
+		name, unreadable, want string
+	}{
+		{"an example file", "b/2.txt", "the example file cannot be read (permission denied): make it readable, or move it out of the data folder"},
+		{"a label folder", "b", "the label folder cannot be read (permission denied): make it readable, or move it out of the data folder"},
+	}
+	for _, c := range cases {
+		dir := t.TempDir()
+		writeFile(t, dir, "a/1.txt", "fine")
+		writeFile(t, dir, "b/2.txt", "fine too")
+		p := filepath.Join(dir, c.unreadable)
+		if err := os.Chmod(p, 0); err != nil {
+			t.Fatal(err)
+		}
+		_, _, err := Load(dir, Options{})
+		if want := "corpus: " + p + ": " + c.want; err == nil || err.Error() != want {
+			t.Errorf("%s: got %v, want %q", c.name, err, want)
+		}
+		os.Chmod(p, 0o755)
+	}
+}
+
+// TestUnlabeledKeepsOddLabels: texts read to be labeled (predict's
+// Unlabeled reading) keep a gold label holding a line break as it is, where
+// labeled reading refuses it (TestLoadBadInput): the model never learns it.
+func TestUnlabeledKeepsOddLabels(t *testing.T) {
+	p := writeFile(t, t.TempDir(), "a.csv", "text,label\nok,a\n\"fine\",\"b\nc\"\n")
+	d, _, err := Load(p, Options{Unlabeled: true})
+	if err != nil || len(d.Examples) != 2 || d.Examples[1].Label != "b\nc" {
+		t.Fatalf("got %v, %v", d, err)
 	}
 }
 

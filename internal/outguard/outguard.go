@@ -186,7 +186,10 @@ var ErrInput = errors.New("outguard: input cannot be read")
 
 // CheckInput reports, before any work, why the input in cannot be read: its
 // path does not exist, it is a folder and folder is false (only a file will
-// do), or it cannot be opened (and, for a folder, listed). The message
+// do), or it cannot be opened (and, for a folder, listed; a named pipe,
+// such as a shell's process substitution, is not opened: its permission
+// alone is checked, so that its writer's stream reaches the command whole
+// and no writer is waited for here). The message
 // names the option, the path and the fix. An input with an empty path is
 // not checked.
 func CheckInput(in File, folder bool) error {
@@ -205,6 +208,14 @@ func CheckInput(in File, folder bool) error {
 		return fail(ErrInput, "%s %s cannot be read (%s): check the path", in.Name, in.Path, reason(err))
 	case st.IsDir() && !folder:
 		return fail(ErrInput, "%s %s is a folder: give a file in it, not the folder", in.Name, in.Path)
+	case st.Mode()&fs.ModeNamedPipe != 0:
+		// Opening a named pipe waits for its writer, and closing it again
+		// ends the writer's stream before the command reads it: only the
+		// permission is checked; the command opens the pipe once.
+		if err := readable(in.Path); err != nil {
+			return fail(ErrInput, "%s %s cannot be read (%s): make it readable or give another %s", in.Name, in.Path, reason(err), option(in.Name))
+		}
+		return nil
 	}
 	f, err := os.Open(in.Path)
 	if err == nil && st.IsDir() {
