@@ -2,7 +2,6 @@ package main
 
 import (
 	"crypto/sha256"
-	"encoding/csv"
 	"encoding/json"
 	"fmt"
 	"os"
@@ -181,15 +180,7 @@ func checkAuditExport(t *testing.T, base []string, res *auditOut) {
 	if code, _, stderr := tt(t, append(base, "--export", path, "--quiet")...); code != 0 {
 		t.Fatalf("audit --export: exit %d: %s", code, stderr)
 	}
-	f, err := os.Open(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer f.Close()
-	recs, err := csv.NewReader(f).ReadAll()
-	if err != nil {
-		t.Fatal(err)
-	}
+	recs := readRecords(t, path)
 	if want := readmeColumns(t, "cues"); !slices.Equal(recs[0], want) {
 		t.Errorf("columns %q, README lists %q", recs[0], want)
 	}
