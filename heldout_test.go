@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/csv"
 	"encoding/json"
 	"fmt"
 	"os"
@@ -23,22 +22,11 @@ import (
 // writeExamples writes exs as a text,label CSV file at path.
 func writeExamples(t *testing.T, path string, exs []corpus.Example) {
 	t.Helper()
-	f, err := os.Create(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	w := csv.NewWriter(f)
-	w.Write([]string{"text", "label"})
+	recs := [][]string{{"text", "label"}}
 	for _, e := range exs {
-		w.Write([]string{e.Text, e.Label})
+		recs = append(recs, []string{e.Text, e.Label})
 	}
-	w.Flush()
-	if err := w.Error(); err != nil {
-		t.Fatal(err)
-	}
-	if err := f.Close(); err != nil {
-		t.Fatal(err)
-	}
+	writeRecords(t, path, recs)
 }
 
 // loadExamples reads a labeled file as the commands read it.

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/csv"
 	"encoding/json"
 	"os"
 	"path/filepath"
@@ -78,15 +77,7 @@ func TestPredictExportLineAndGold(t *testing.T) {
 		}
 		jsonLines = append(jsonLines, v.Line)
 	}
-	f, err := os.Open(export)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer f.Close()
-	rows, err := csv.NewReader(f).ReadAll()
-	if err != nil {
-		t.Fatal(err)
-	}
+	rows := readRecords(t, export)
 	if strings.Join(rows[0][:4], ",") != "line,text,gold,predicted" {
 		t.Fatalf("header %q", rows[0])
 	}
