@@ -88,13 +88,13 @@ func weightedF1Of(flat []int, k int, f1 []float64) float64 {
 // binned ECE of the texts (ComputeMetrics' ECE) and q(p) the p-quantile of
 // its resampled values θ*, the interval is [2θ̂ − q((1+level)/2),
 // 2θ̂ − q((1−level)/2)] and the Estimate is 2θ̂ − q(1/2), all clipped to
-// [0, 1]: the Estimate is the interval's own centre (the interval at level
-// 0), so it always lies in it.
+// [0, 1]: the Estimate is the interval at level 0, so it always lies in
+// it.
 //
 // Why not the percentile interval: the binned ECE is biased upward on a
 // finite sample (each bin's |accuracy − confidence| is inflated by its
 // noise; Kumar, Liang & Ma 2019, "Verified Uncertainty Calibration",
-// NeurIPS), and a resample's ECE is inflated again over θ̂, so the
+// NeurIPS, recalled from memory), and a resample's ECE is inflated again over θ̂, so the
 // percentile interval [q((1−level)/2), q((1+level)/2)] sits above θ̂ and
 // may leave it out: for a well-calibrated model it never reaches 0. The
 // basic interval reads θ* − θ̂ as the error of θ̂ and takes it off θ̂,
@@ -104,9 +104,12 @@ func weightedF1Of(flat []int, k int, f1 []float64) float64 {
 // so it can never reach below the smallest resampled ECE. The Estimate is
 // not θ̂ (ComputeMetrics' ECE, which CalibrationFigure shows beside it):
 // an interval that corrects θ̂'s bias may lie below θ̂. Near an ECE
-// of 0, where |·| is not smooth, the correction is partial; the tool
-// shows the interval with CalibrationTest, which holds its level at any
-// ECE. Preconditions: equal lengths, confidences in [0, 1], resamples ≥ 1,
+// of 0, where |·| is not smooth, the correction is partial: on simulated
+// sets of 400 texts mostly confident (TestBootstrapECEHoldsEstimate) the
+// 95% interval covers a true ECE of 0.1 in 92% of them (the percentile
+// interval in 81%) and a true ECE of 0 in 43% (the percentile interval in
+// none). The tool shows it with CalibrationTest, which holds its level at
+// any ECE. Preconditions: equal lengths, confidences in [0, 1], resamples ≥ 1,
 // 0 < level < 1; bins ≤ 0 means DefaultBins. With no text it is 0 in
 // [0, 1].
 func BootstrapECE(conf []float64, correct []bool, bins, resamples int, level float64, seed uint64) Interval {
