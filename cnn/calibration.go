@@ -17,9 +17,9 @@ const CalibrationDraws = 2000
 // and the binned ECE of each (bins equal-width bins, as ComputeMetrics
 // computes it) is compared with the observed one. The p-value is
 // (1 + #{drawn ECE ≥ observed}) / (draws + 1). It answers what the ECE's
-// bootstrap interval cannot near 0 (see BootstrapECE): whether the
-// observed ECE is more than a calibrated model's would be on this many
-// texts. Preconditions: equal lengths, confidences in [0, 1], draws ≥ 1;
+// bootstrap interval answers only in part near 0 (see BootstrapECE):
+// whether the observed ECE is more than a calibrated model's would be on
+// this many texts. Preconditions: equal lengths, confidences in [0, 1], draws ≥ 1;
 // bins ≤ 0 means DefaultBins. With no text it is 1.
 func CalibrationTest(conf []float64, correct []bool, bins, draws int, seed uint64) float64 {
 	if len(conf) != len(correct) || draws < 1 {
@@ -45,11 +45,16 @@ func CalibrationTest(conf []float64, correct []bool, bins, draws int, seed uint6
 	return float64(1+atLeast) / float64(draws+1)
 }
 
-// CalibrationFigure is the ECE with its percentile bootstrap interval and
-// the p-value of CalibrationTest: near 0 the interval falls short of its
-// level, and the test says whether the ECE is more than chance.
+// CalibrationFigure is the ECE of the texts (Observed) beside its
+// bias-corrected estimate with its basic bootstrap interval (the
+// embedded Interval, from BootstrapECE) and the p-value of
+// CalibrationTest: near 0 the interval's correction is partial, and the
+// test says whether the ECE is more than chance.
 type CalibrationFigure struct {
 	Interval
+	// Observed is the binned ECE of the texts, ComputeMetrics' ECE; the
+	// Interval's Estimate is it corrected for its bias.
+	Observed float64 `json:"observed"`
 	// P is CalibrationTest's p-value: small when the model is not
 	// calibrated.
 	P float64 `json:"calibration_p"`
@@ -62,26 +67,27 @@ type CalibrationFigure struct {
 	AtFloor bool `json:"calibration_p_at_floor"`
 }
 
-// NewCalibrationFigure joins the ECE's interval with CalibrationTest's
-// p-value over draws label sets. Precondition: draws ≥ 1.
-func NewCalibrationFigure(ece Interval, p float64, draws int) CalibrationFigure {
+// NewCalibrationFigure joins the observed ECE, its bias-corrected interval
+// ece and CalibrationTest's p-value over draws label sets. Precondition:
+// draws ≥ 1.
+func NewCalibrationFigure(observed float64, ece Interval, p float64, draws int) CalibrationFigure {
 	if draws < 1 {
 		panic("cnn: NewCalibrationFigure: draws < 1")
 	}
 	// CalibrationTest computes the floor with this very expression.
 	floor := float64(1) / float64(draws+1)
-	return CalibrationFigure{Interval: ece, P: p, Draws: draws, AtFloor: p <= floor}
+	return CalibrationFigure{Interval: ece, Observed: observed, P: p, Draws: draws, AtFloor: p <= floor}
 }
 
-// String writes the figure as the tool shows it:
-// "0.114 (0.090–0.140; test of perfect calibration p = 0.012)", or
+// String writes the figure as the tool shows it: "0.114, bias-corrected
+// 0.101 (0.078–0.126; test of perfect calibration p = 0.012)", or
 // "p ≤ 0.0005" when P is at its floor (the bound rounded up).
 func (f CalibrationFigure) String() string {
 	p := fmt.Sprintf("= %.2g", f.P)
 	if f.AtFloor {
 		p = "≤ " + roundUp2(f.P)
 	}
-	return fmt.Sprintf("%.3f (%.3f–%.3f; test of perfect calibration p %s)", f.Estimate, f.Low, f.High, p)
+	return fmt.Sprintf("%.3f, bias-corrected %.3f (%.3f–%.3f; test of perfect calibration p %s)", f.Observed, f.Estimate, f.Low, f.High, p)
 }
 
 // roundUp2 writes x > 0 with two significant digits, rounded up, so that

@@ -11,9 +11,9 @@ import (
 // Bröcker & Smith (2007) by simulation (common practice, no source): on
 // 400 sets of 300 predictions whose outcomes are drawn from their own
 // confidences (perfect calibration) it rejects at 5% in about 5% of the
-// sets, where the ECE's bootstrap interval never reaches 0 (BootstrapECE's
-// caution); on sets whose accuracy is 0.15 below the confidence it rejects
-// nearly always.
+// sets, where the ECE's bootstrap interval reaches 0 in only part of them
+// (BootstrapECE); on sets whose accuracy is 0.15 below the confidence it
+// rejects nearly always.
 func TestCalibrationTestLevel(t *testing.T) {
 	if testing.Short() {
 		t.Skip("SKIPPED in -short mode: 800 tests of 200 draws each")
@@ -79,7 +79,7 @@ func TestCalibrationFigureFloor(t *testing.T) {
 		{99, []bool{true, true, true, true, true, true, true, true}, false, "p = 1)"},
 	} {
 		p := CalibrationTest(conf, tc.right, 0, tc.draws, 1)
-		f := NewCalibrationFigure(iv, p, tc.draws)
+		f := NewCalibrationFigure(0.95, iv, p, tc.draws)
 		if f.AtFloor != tc.floor || !strings.HasSuffix(f.String(), tc.text) {
 			t.Errorf("%d draws, p %g: at floor %v, %q; want %v, ending %q", tc.draws, p, f.AtFloor, f.String(), tc.floor, tc.text)
 		}
@@ -91,7 +91,7 @@ func TestCalibrationFigureFloor(t *testing.T) {
 		if err := json.Unmarshal(b, &back); err != nil {
 			t.Fatal(err)
 		}
-		if back["calibration_p_at_floor"] != tc.floor || back["calibration_draws"] != float64(tc.draws) || back["calibration_p"] != p {
+		if back["calibration_p_at_floor"] != tc.floor || back["calibration_draws"] != float64(tc.draws) || back["calibration_p"] != p || back["observed"] != 0.95 {
 			t.Errorf("%d draws: JSON %s", tc.draws, b)
 		}
 	}

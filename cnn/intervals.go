@@ -80,20 +80,38 @@ func weightedF1Of(flat []int, k int, f1 []float64) float64 {
 
 // BootstrapECE is the expected calibration error of the predictions (conf[i]
 // the confidence of prediction i, correct[i] whether it was right) over bins
-// equal-width bins, as ComputeMetrics computes it, with its percentile
-// bootstrap interval over texts at the two-sided level: resamples sets of
-// len(conf) texts drawn with replacement, seeded by seed, as every bootstrap
-// interval of the tool draws them (Efron & Tibshirani 1993, ch. 13).
-// Preconditions: equal lengths, confidences in [0, 1], resamples ≥ 1,
-// 0 < level < 1; bins ≤ 0 means DefaultBins. With no text it is 0 in [0, 1].
+// equal-width bins, corrected for its bias, with its basic (reverse
+// percentile) bootstrap interval over texts at the two-sided level
+// (Davison & Hinkley 1997, "Bootstrap Methods and their Application",
+// §5.2): resamples sets of len(conf) texts drawn with replacement, seeded
+// by seed, as every bootstrap interval of the tool draws them. With θ̂ the
+// binned ECE of the texts (ComputeMetrics' ECE) and q(p) the p-quantile of
+// its resampled values θ*, the interval is [2θ̂ − q((1+level)/2),
+// 2θ̂ − q((1−level)/2)] and the Estimate is 2θ̂ − q(1/2), all clipped to
+// [0, 1]: the Estimate is the interval at level 0, so it always lies in
+// it.
 //
-// Caution: the binned ECE is biased upward on a finite sample (each bin's
-// |accuracy − confidence| is inflated by its noise; Kumar, Liang & Ma 2019,
-// "Verified Uncertainty Calibration", NeurIPS, recalled from memory), and
-// the percentile interval inherits the bias: for a model whose true ECE is
-// near 0 it falls short of its level, and for a perfectly calibrated one it
-// never reaches 0. It is checked against SciPy, not by coverage; the
-// tool shows it with CalibrationTest, which holds its level at any ECE.
+// Why not the percentile interval: the binned ECE is biased upward on a
+// finite sample (each bin's |accuracy − confidence| is inflated by its
+// noise; Kumar, Liang & Ma 2019, "Verified Uncertainty Calibration",
+// NeurIPS, recalled from memory), and a resample's ECE is inflated again over θ̂, so the
+// percentile interval [q((1−level)/2), q((1+level)/2)] sits above θ̂ and
+// may leave it out: for a well-calibrated model it never reaches 0. The
+// basic interval reads θ* − θ̂ as the error of θ̂ and takes it off θ̂,
+// which corrects the bias to first order, and reaches 0 when 2θ̂ is below
+// the upper quantile. The bias-corrected and accelerated interval (Efron
+// 1987) was not chosen: its endpoints are quantiles of the θ* themselves,
+// so it can never reach below the smallest resampled ECE. The Estimate is
+// not θ̂ (ComputeMetrics' ECE, which CalibrationFigure shows beside it):
+// an interval that corrects θ̂'s bias may lie below θ̂. Near an ECE
+// of 0, where |·| is not smooth, the correction is partial: on simulated
+// sets of 400 texts mostly confident (TestBootstrapECEHoldsEstimate) the
+// 95% interval covers a true ECE of 0.1 in 92% of them (the percentile
+// interval in 81%) and a true ECE of 0 in 43% (the percentile interval in
+// none). The tool shows it with CalibrationTest, which holds its level at
+// any ECE. Preconditions: equal lengths, confidences in [0, 1], resamples ≥ 1,
+// 0 < level < 1; bins ≤ 0 means DefaultBins. With no text it is 0 in
+// [0, 1].
 func BootstrapECE(conf []float64, correct []bool, bins, resamples int, level float64, seed uint64) Interval {
 	if len(conf) != len(correct) {
 		panic("cnn: BootstrapECE: conf and correct differ in length")
@@ -102,9 +120,18 @@ func BootstrapECE(conf []float64, correct []bool, bins, resamples int, level flo
 	if len(conf) == 0 {
 		return Interval{High: 1}
 	}
+	est, sorted := eceDraws(conf, correct, bins, resamples, seed)
+	return basicInterval(est, sorted, level)
+}
+
+// eceDraws is the binned ECE of the texts as ComputeMetrics computes it and
+// its values over resamples resamples of them (bootstrapDraws, seeded by
+// seed), sorted. Preconditions: those of BootstrapECE, and at least one
+// text.
+func eceDraws(conf []float64, correct []bool, bins, resamples int, seed uint64) (est float64, sorted []float64) {
 	bin, k := occupiedBins(conf, bins)
 	gap := make([]float64, k) // Σ (right − conf) of each occupied bin
-	ivs := bootstrapPercentiles(len(conf), 1, resamples, level, seed, func(w []int, out []float64) {
+	vals := bootstrapDraws(len(conf), 1, resamples, seed, func(w []int, out []float64) {
 		clear(gap)
 		for i, n := range w {
 			if n > 0 {
@@ -121,8 +148,20 @@ func BootstrapECE(conf []float64, correct []bool, bins, resamples int, level flo
 		}
 		out[0] = e / float64(len(conf))
 	})
-	ivs[0].Estimate = binnedECE(conf, correct, bin, k)
-	return ivs[0]
+	return binnedECE(conf, correct, bin, k), vals[0]
+}
+
+// basicInterval is the basic bootstrap interval of a figure est in [0, 1]
+// from its sorted resampled values at the two-sided level, with the
+// figure corrected by the resamples' median as Estimate, all clipped to
+// [0, 1] (see BootstrapECE). Precondition: sorted is not empty.
+func basicInterval(est float64, sorted []float64, level float64) Interval {
+	clip := func(x float64) float64 { return min(max(x, 0), 1) }
+	return Interval{
+		Estimate: clip(2*est - quantileSorted(sorted, 0.5)),
+		Low:      clip(2*est - quantileSorted(sorted, (1+level)/2)),
+		High:     clip(2*est - quantileSorted(sorted, (1-level)/2)),
+	}
 }
 
 // MetricIntervals are the intervals of the figures of Metrics beside the
@@ -130,9 +169,10 @@ func BootstrapECE(conf []float64, correct []bool, bins, resamples int, level flo
 // class's precision, recall and F1, all at IntervalLevel.
 type MetricIntervals struct {
 	WeightedF1 Interval `json:"weighted_f1"` // percentile bootstrap over texts
-	// ECE is the percentile bootstrap over texts with the p-value of
-	// CalibrationTest; nil when the metrics carry no confidences (read
-	// back from JSON, or computed without).
+	// ECE is BootstrapECE (the bias-corrected ECE with its basic
+	// bootstrap interval over texts) beside the ECE of the texts, with the
+	// p-value of CalibrationTest; nil when the metrics carry no
+	// confidences (read back from JSON, or computed without).
 	ECE      *CalibrationFigure `json:"ece,omitempty"`
 	PerClass []ClassIntervals   `json:"per_class"`
 }
@@ -152,7 +192,8 @@ type ClassIntervals struct {
 // precision and recall, BootstrapF1s for the F1s and BootstrapECE with
 // CalibrationTest for the ECE (with the bins m was computed with), each with
 // BootstrapResamples resamples seeded by BootstrapSeed, as HeadlineOf.
-// Each Estimate is m's own figure.
+// Each Estimate is m's own figure, but the ECE's, which is corrected for
+// its bias (BootstrapECE; m's ECE is its Observed).
 func IntervalsOf(m Metrics) MetricIntervals {
 	f1 := BootstrapF1s(m.Confusion, BootstrapResamples, IntervalLevel, BootstrapSeed)
 	out := MetricIntervals{WeightedF1: f1.Weighted}
@@ -171,7 +212,7 @@ func IntervalsOf(m Metrics) MetricIntervals {
 	}
 	if m.conf != nil {
 		e := BootstrapECE(m.conf, m.correct, m.bins, BootstrapResamples, IntervalLevel, BootstrapSeed)
-		cal := NewCalibrationFigure(e, CalibrationTest(m.conf, m.correct, m.bins, CalibrationDraws, BootstrapSeed), CalibrationDraws)
+		cal := NewCalibrationFigure(m.ECE, e, CalibrationTest(m.conf, m.correct, m.bins, CalibrationDraws, BootstrapSeed), CalibrationDraws)
 		out.ECE = &cal
 	}
 	return out

@@ -380,15 +380,27 @@ func countCells(flat, cells, w []int) {
 }
 
 // bootstrapPercentiles is the percentile bootstrap over n texts (Efron &
-// Tibshirani 1993, ch. 13) of m statistics at once: resamples times it
-// draws n texts with replacement (seeded by seed), calls stat with the
-// number of times w[i] each text i was drawn, which writes the m statistics
-// of that resample into out, and returns the (1−level)/2 and (1+level)/2
+// Tibshirani 1993, ch. 13) of m statistics at once: it draws the resamples
+// as bootstrapDraws does and returns the (1−level)/2 and (1+level)/2
 // quantiles of each statistic (quantileSorted) as Low and High; the caller
-// sets the Estimates. Every bootstrap interval of the tool goes through it,
-// so that one seed gives one set of resamples. Preconditions: n ≥ 1, m ≥ 1,
-// resamples ≥ 1, 0 < level < 1.
+// sets the Estimates. Preconditions: those of bootstrapDraws, and
+// 0 < level < 1.
 func bootstrapPercentiles(n, m, resamples int, level float64, seed uint64, stat func(w []int, out []float64)) []Interval {
+	vals := bootstrapDraws(n, m, resamples, seed, stat)
+	ivs := make([]Interval, m)
+	for j, v := range vals {
+		ivs[j] = Interval{Low: quantileSorted(v, (1-level)/2), High: quantileSorted(v, (1+level)/2)}
+	}
+	return ivs
+}
+
+// bootstrapDraws resamples n texts resamples times with replacement
+// (seeded by seed), calls stat with the number of times w[i] each text i
+// was drawn, which writes the m statistics of that resample into out, and
+// returns each statistic's values over the resamples, sorted. Every
+// bootstrap interval of the tool goes through it, so that one seed gives
+// one set of resamples. Preconditions: n ≥ 1, m ≥ 1, resamples ≥ 1.
+func bootstrapDraws(n, m, resamples int, seed uint64, stat func(w []int, out []float64)) [][]float64 {
 	r := rand.New(rand.NewPCG(seed, 0x5851f42d4c957f2d))
 	w := make([]int, n)
 	vals := make([][]float64, m)
@@ -406,12 +418,10 @@ func bootstrapPercentiles(n, m, resamples int, level float64, seed uint64, stat 
 			vals[j][b] = v
 		}
 	}
-	ivs := make([]Interval, m)
-	for j, v := range vals {
+	for _, v := range vals {
 		slices.Sort(v)
-		ivs[j] = Interval{Low: quantileSorted(v, (1-level)/2), High: quantileSorted(v, (1+level)/2)}
 	}
-	return ivs
+	return vals
 }
 
 // classCounts is class c's true positives, false positives and false

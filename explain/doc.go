@@ -94,8 +94,9 @@
 //   - Families: a stratified random sample of all winning windows above the
 //     threshold, each weighted by the windows it stands for
 //     (Horvitz–Thompson), clustered by slot-score vector with weighted
-//     average linkage (Sokal & Michener 1958), with share intervals and a
-//     bootstrap stability figure.
+//     average linkage (Sokal & Michener 1958), clusters that read the same
+//     pattern joined into one family, with share intervals and a bootstrap
+//     stability figure.
 //
 // Memory does not grow with the corpus: per filter it keeps bounded top
 // lists, skylines and samples and a fine histogram. ProfileStream does the

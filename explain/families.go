@@ -12,7 +12,9 @@ import (
 // threshold whose slot-score vectors are close: one of the things the
 // filter means. Families are built from the stratified sample of the
 // windows above the threshold (see FilterProfile.FamilySample), each
-// distinct n-gram weighted by the number of windows it stands for.
+// distinct n-gram weighted by the number of windows it stands for; the
+// clusters whose patterns are equal are one family, so that no two
+// families of a filter share a pattern.
 type Family struct {
 	Ngrams int `json:"ngrams"` // distinct n-grams sampled in the family
 	// Count is Weight rounded: the estimated number of texts whose winning
@@ -41,7 +43,7 @@ type Family struct {
 	ShareHigh float64 `json:"share_high"`
 	// Stability is how often two of the family's n-grams fall in the same
 	// family again when the windows are resampled with replacement and
-	// clustered anew: the mean over its pairs of n-grams, each pair
+	// clustered anew (clusters of one pattern joined, as here): the mean over its pairs of n-grams, each pair
 	// weighted by the product of their weights, of the share of resamples
 	// holding both that put them together (a pairwise form of the
 	// bootstrap cluster stability of Hennig 2007, "Cluster-wise assessment
@@ -80,7 +82,8 @@ type familyItem struct {
 }
 
 // buildFamilies clusters the sampled windows of filter g at or above theta
-// (see famSample) and describes each family.
+// (see famSample), joins the clusters that read the same
+// (mergeSamePattern) and describes each family.
 func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float64, seed uint64) []Family {
 	ws, m := fs.above(theta)
 	if len(ws) == 0 {
@@ -105,7 +108,7 @@ func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float
 	}
 	var scratch upgmaScratch
 	scratch.keepDistances(vecs)
-	labels := scratch.cut(vecs, weights, cut)
+	labels := mergeSamePattern(items, weights, scratch.cut(vecs, weights, cut))
 	// Per stratum, the item of every sampled window (−1 below the
 	// threshold), for resampling.
 	var strata [famStrata][]int
@@ -146,7 +149,7 @@ func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float
 	}
 	fams := describeFamilies(items, labels)
 	familyShares(fams, labels, weights, func(dst []float64) { resample(dst, true) })
-	familyStability(fams, labels, vecs, weights, cut, func(dst []float64) { resample(dst, false) }, &scratch)
+	familyStability(fams, items, labels, vecs, weights, cut, func(dst []float64) { resample(dst, false) }, &scratch)
 	slices.SortStableFunc(fams, func(x, y Family) int { return cmp.Compare(y.Weight, x.Weight) })
 	return fams
 }
@@ -378,72 +381,146 @@ func dist(a, b []float64) float64 {
 
 // describeFamilies makes one Family per label.
 func describeFamilies(items []familyItem, labels []int) []Family {
+	w := make([]float64, len(items))
+	for i, it := range items {
+		w[i] = it.weight
+	}
+	groups := groupsOf(labels)
+	out := make([]Family, len(groups))
+	for l, ms := range groups {
+		out[l] = describeFamily(items, w, ms)
+	}
+	return out
+}
+
+// groupsOf is the members of each label (labels 0, 1, …; −1 is no label).
+func groupsOf(labels []int) [][]int {
 	nf := 0
 	for _, l := range labels {
 		nf = max(nf, l+1)
 	}
 	groups := make([][]int, nf)
 	for i, l := range labels {
-		groups[l] = append(groups[l], i)
-	}
-	out := make([]Family, nf)
-	for l, ms := range groups {
-		out[l] = describeFamily(items, ms)
-	}
-	return out
-}
-
-func describeFamily(items []familyItem, ms []int) Family {
-	slices.SortStableFunc(ms, func(a, b int) int { return cmp.Compare(items[b].weight, items[a].weight) })
-	w := len(items[ms[0]].slots)
-	f := Family{Ngrams: len(ms), Centroid: make([]float64, w), Slots: make([]FamilySlot, w)}
-	for _, i := range ms {
-		f.Weight += items[i].weight
-		f.Sampled += items[i].sampled
-	}
-	f.Count = int(math.Round(f.Weight))
-	for _, i := range ms {
-		for s, v := range items[i].slots {
-			f.Centroid[s] += v * items[i].weight / f.Weight
+		if l >= 0 {
+			groups[l] = append(groups[l], i)
 		}
 	}
-	order := make([]int, w)
+	return groups
+}
+
+// familyLook is how a group of n-grams reads: its weighted centroid, its
+// dominant slots (see FamilySlot), the most frequent words at each and
+// the pattern they make.
+type familyLook struct {
+	weight   float64
+	centroid []float64
+	dominant []bool
+	words    [][]string // at the dominant slots, nil elsewhere
+	pattern  string
+}
+
+// lookOf is how the members ms of items read with item weights w; it sorts
+// ms by weight, largest first (stable). Preconditions: ms is not empty and
+// its weights add up to more than 0.
+func lookOf(items []familyItem, w []float64, ms []int) familyLook {
+	slices.SortStableFunc(ms, func(a, b int) int { return cmp.Compare(w[b], w[a]) })
+	n := len(items[ms[0]].slots)
+	lk := familyLook{centroid: make([]float64, n), dominant: make([]bool, n), words: make([][]string, n)}
+	for _, i := range ms {
+		lk.weight += w[i]
+	}
+	for _, i := range ms {
+		for s, v := range items[i].slots {
+			lk.centroid[s] += v * w[i] / lk.weight
+		}
+	}
+	order := make([]int, n)
 	var pos float64
 	for s := range order {
 		order[s] = s
-		pos += max(f.Centroid[s], 0)
+		pos += max(lk.centroid[s], 0)
 	}
-	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(f.Centroid[b], f.Centroid[a]) })
-	dominant := make([]bool, w)
+	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(lk.centroid[b], lk.centroid[a]) })
 	var acc float64
 	for _, s := range order {
-		if f.Centroid[s] <= 0 || (pos > 0 && acc >= DominantShare*pos) {
+		if lk.centroid[s] <= 0 || (pos > 0 && acc >= DominantShare*pos) {
 			break
 		}
-		dominant[s] = true
-		acc += f.Centroid[s]
+		lk.dominant[s] = true
+		acc += lk.centroid[s]
 	}
-	parts := make([]string, w)
-	for s := 0; s < w; s++ {
-		fs := FamilySlot{Slot: s, Wildcard: !dominant[s], Mean: f.Centroid[s]}
-		if dominant[s] {
-			fs.Words = topWordsAt(items, ms, s, 3)
-			parts[s] = strings.Join(fs.Words, "|")
-		} else {
-			parts[s] = "*"
+	parts := make([]string, n)
+	for s := range n {
+		parts[s] = "*"
+		if lk.dominant[s] {
+			lk.words[s] = topWordsAt(items, w, ms, s, 3)
+			parts[s] = strings.Join(lk.words[s], "|")
 		}
-		f.Slots[s] = fs
 	}
-	f.Pattern = strings.Join(parts, " ")
+	lk.pattern = strings.Join(parts, " ")
+	return lk
+}
+
+// mergeSamePattern joins the clusters of labels (labels 0, 1, …; −1 for
+// an item left out) that read the same: whose patterns (lookOf, with item
+// weights w) are equal. A pattern is all a reader is shown of a family,
+// and two clusters apart only at their wildcard slots (slots that carry
+// little of their score) would be the same family listed twice, with its
+// share split between them; joined, the family reads as it is again, and
+// the check is repeated until every pattern differs. It returns the new
+// labels, 0, 1, … in order of first item; it leaves labels as it is.
+func mergeSamePattern(items []familyItem, w []float64, labels []int) []int {
+	out := slices.Clone(labels)
+	for {
+		groups := groupsOf(out)
+		first := map[string]int{}
+		to := make([]int, len(groups))
+		joined := false
+		for l, ms := range groups {
+			p := lookOf(items, w, slices.Clone(ms)).pattern
+			if f, ok := first[p]; ok {
+				to[l], joined = f, true
+				continue
+			}
+			first[p], to[l] = l, l
+		}
+		if !joined {
+			return out
+		}
+		next := map[int]int{}
+		for i, l := range out {
+			if l < 0 {
+				continue
+			}
+			r := to[l]
+			if _, ok := next[r]; !ok {
+				next[r] = len(next)
+			}
+			out[i] = next[r]
+		}
+	}
+}
+
+func describeFamily(items []familyItem, w []float64, ms []int) Family {
+	lk := lookOf(items, w, ms)
+	f := Family{Ngrams: len(ms), Centroid: lk.centroid, Slots: make([]FamilySlot, len(lk.centroid)),
+		Weight: lk.weight, Pattern: lk.pattern}
+	for _, i := range ms {
+		f.Sampled += items[i].sampled
+	}
+	f.Count = int(math.Round(f.Weight))
+	for s := range f.Slots {
+		f.Slots[s] = FamilySlot{Slot: s, Wildcard: !lk.dominant[s], Mean: lk.centroid[s], Words: lk.words[s]}
+	}
 	for _, i := range ms[:min(5, len(ms))] {
 		f.Members = append(f.Members, items[i].tokens)
 	}
 	return f
 }
 
-// topWordsAt returns the k words of largest weight at slot s among the
-// members; ties keep the order of first appearance.
-func topWordsAt(items []familyItem, ms []int, s, k int) []string {
+// topWordsAt returns the k words of largest weight (item weights w) at
+// slot s among the members; ties keep the order of first appearance.
+func topWordsAt(items []familyItem, w []float64, ms []int, s, k int) []string {
 	weight := map[string]float64{}
 	var order []string
 	for _, i := range ms {
@@ -451,7 +528,7 @@ func topWordsAt(items []familyItem, ms []int, s, k int) []string {
 		if _, ok := weight[t]; !ok {
 			order = append(order, t)
 		}
-		weight[t] += items[i].weight
+		weight[t] += w[i]
 	}
 	slices.SortStableFunc(order, func(a, b string) int { return cmp.Compare(weight[b], weight[a]) })
 	return order[:min(k, len(order))]
@@ -485,11 +562,12 @@ func familyShares(fams []Family, labels []int, weights []float64, resample func(
 	}
 }
 
-// familyStability clusters resampled weights anew and counts, for every
-// pair of n-grams of a family both present in a resample, how often they
-// share a family there; a family's figure weights its pairs by the product
-// of their weights.
-func familyStability(fams []Family, labels []int, vecs [][]float64, weights []float64, cut float64, resample func([]float64), scratch *upgmaScratch) {
+// familyStability clusters resampled weights anew (vecs are the items'
+// slot scores), joins the clusters that read the same as buildFamilies
+// does (mergeSamePattern), and counts, for every pair of n-grams of a
+// family both present in a resample, how often they share a family there;
+// a family's figure weights its pairs by the product of their weights.
+func familyStability(fams []Family, items []familyItem, labels []int, vecs [][]float64, weights []float64, cut float64, resample func([]float64), scratch *upgmaScratch) {
 	n := len(labels)
 	together := make([]float64, n*n)
 	both := make([]float64, n*n)
@@ -504,7 +582,7 @@ func familyStability(fams []Family, labels []int, vecs [][]float64, weights []fl
 	}
 	for range familyStabilityResamples {
 		resample(rw)
-		rl := scratch.cut(vecs, rw, cut)
+		rl := mergeSamePattern(items, rw, scratch.cut(vecs, rw, cut))
 		for _, ms := range members {
 			for x, i := range ms {
 				if rl[i] < 0 {

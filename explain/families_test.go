@@ -3,12 +3,14 @@ package explain
 import (
 	"bytes"
 	"context"
+	"encoding/binary"
 	"encoding/json"
 	"math"
 	"math/rand/v2"
 	"os/exec"
 	"testing"
 
+	"telltale/cnn"
 	"telltale/internal/testref"
 )
 
@@ -131,7 +133,7 @@ func TestFamiliesExactWhenAllSampled(t *testing.T) {
 	labels := upgmaCut(vecs, w, 0.3)
 	fams := describeFamilies(items, labels)
 	rs := rand.New(rand.NewPCG(1, 1))
-	familyStability(fams, labels, vecs, w, 0.3, func(dst []float64) {
+	familyStability(fams, items, labels, vecs, w, 0.3, func(dst []float64) {
 		for i := range dst {
 			dst[i] = w[i] * float64(1+rs.IntN(2))
 		}
@@ -186,5 +188,99 @@ func TestFamilyWeightsUnbiased(t *testing.T) {
 	}
 	if checked == 0 {
 		t.Fatal("no filter with a threshold")
+	}
+}
+
+// Two clusters that differ only at a wildcard slot read the same, and a
+// reader told "* * ps" twice, each with part of the share, would take one
+// thing the filter means for two: they are one family. Constructed by
+// hand (no outside source; the figures are worked out here): one-hot
+// embeddings make each slot score a weight of the filter, "ps" scores 1 at
+// the last slot, "in" −0.4 and "of" +0.2 at the middle one, "the" 0 and
+// "same" 0.02 at the first. The windows with "in" and with "of" are 0.6
+// apart, beyond the cut (0.5 × their mean norm, about 0.52), so average
+// linkage puts them in two clusters; in every group of these windows "ps"
+// carries at least DominantShare of the positive mass (at worst 1 of
+// 1.22), so both patterns are "* * ps". All four windows are sampled (weight 1
+// each): the one family weighs 4, holds the whole share and, as the four
+// windows stay one family in every resample, has stability 1.
+func TestFamiliesOfOnePatternJoined(t *testing.T) {
+	vocab := []string{"<pad>", "<unk>", "the", "same", "in", "of", "ps"}
+	d := len(vocab)
+	m := &cnn.Model{Config: cnn.Config{VocabSize: d, Dim: d, Widths: []int{3}, Filters: 1, Classes: 2},
+		Vocab: vocab, Labels: []string{"a", "b"}, Emb: make([]float32, d*d),
+		OutW: []float32{1, -1}, OutB: make([]float32, 2)}
+	for id := 2; id < d; id++ {
+		m.Emb[id*d+id] = 1
+	}
+	conv := cnn.Conv{Width: 3, W: make([]float32, 3*d), B: make([]float32, 1)}
+	score := map[[2]int]float32{{0, 3}: 0.02, {1, 4}: -0.4, {1, 5}: 0.2, {2, 6}: 1}
+	for k, v := range score {
+		conv.W[k[0]*d+k[1]] = v // filter 0, slot k[0], dimension k[1]
+	}
+	m.Convs = []cnn.Conv{conv}
+	st, err := NewSlotTable(m, TableOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var fs famSample
+	for _, w := range [][3]int32{{2, 4, 6}, {3, 4, 6}, {2, 5, 6}, {3, 5, 6}} {
+		key := make([]byte, 0, 12)
+		for _, id := range w {
+			key = binary.LittleEndian.AppendUint32(key, uint32(id))
+		}
+		fs.items[0] = append(fs.items[0], famItem{act: 1, key: string(key)})
+	}
+	fs.n[0] = len(fs.items[0])
+	// The premise: average linkage alone makes two clusters.
+	var items []familyItem
+	var vecs [][]float64
+	for _, it := range fs.items[0] {
+		fi := newFamilyItem(st, 0, it.key)
+		items, vecs = append(items, fi), append(vecs, fi.slots)
+	}
+	if labels := upgmaCut(vecs, []float64{1, 1, 1, 1}, 0.5); !samePartition(labels, []int{0, 0, 1, 1}) {
+		t.Fatalf("clusters %v of slot scores %v, want the windows with \"in\" apart from those with \"of\"", labels, vecs)
+	}
+	fams := buildFamilies(st, 0, &fs, 0, 0.5, 1)
+	if len(fams) != 1 {
+		var ps []string
+		for _, f := range fams {
+			ps = append(ps, f.Pattern)
+		}
+		t.Fatalf("%d families %q, want one", len(fams), ps)
+	}
+	f := fams[0]
+	if f.Pattern != "* * ps" || f.Weight != 4 || f.Ngrams != 4 || f.Share != 1 || f.Stability == nil || *f.Stability != 1 {
+		t.Errorf("family %+v, want \"* * ps\" of weight 4, 4 n-grams, share 1 and stability 1", f)
+	}
+}
+
+// On a model of the demo corpus, no filter shows two families with the
+// same pattern (without joining the clusters of one pattern, 18 patterns
+// repeat on this model, 21 on the tour's).
+func TestDemoFamilyPatternsDiffer(t *testing.T) {
+	if testing.Short() {
+		t.Skip("trains a model on the demo corpus")
+	}
+	m, enc, _, data := trainDemo(t)
+	prof, err := Profile(context.Background(), m, data.IDs, data.Labels, ProfileOptions{Counts: enc.Vocab.Counts})
+	if err != nil {
+		t.Fatal(err)
+	}
+	families := 0
+	for _, pr := range prof.Filters {
+		seen := map[string]bool{}
+		for _, f := range pr.Families {
+			if seen[f.Pattern] {
+				t.Errorf("filter %d: two families read %q", pr.Filter, f.Pattern)
+			}
+			seen[f.Pattern] = true
+			families++
+		}
+	}
+	t.Logf("%d families over %d filters", families, len(prof.Filters))
+	if families < len(prof.Filters) {
+		t.Fatalf("only %d families over %d filters: the check has nothing to look at", families, len(prof.Filters))
 	}
 }
