@@ -43,8 +43,9 @@
 //     code, a tag in square brackets, marks only markup is written with
 //     such as "=" — or a separator run, the same unusual casing every
 //     time), a label share implausibly high at high support; and, when the
-//     held-out split has one, a shift of the cue's label share (question 4
-//     of the design: strong extra evidence, one signal among the others).
+//     selection half of the held-out split has one, a shift of the cue's
+//     label share (question 4 of the design: strong extra evidence, one
+//     signal among the others; the confirmation half takes no part in it).
 //
 // # Two halves
 //
@@ -89,7 +90,9 @@
 //	            reliance {texts, measured, draws, flip_rate, control_flip_rate,
 //	            net_flip_rate, prob_drop, label_drop, decided, p, flip_p, …}
 //	            (confirmation half; reliance_selection: the same on the
-//	            selection half), shift, filters {keyed, ablation}, score, mark,
+//	            selection half), shift {heldout_texts, heldout_share,
+//	            train_share, p, present} (selection half), filters {keyed,
+//	            ablation}, score, mark,
 //	            verdict, pattern
 //	relied_on_reads_like_the_task[]   the same fields
 //	action      cues, patterns, counterfactual {accuracy, accuracy_without,
