@@ -69,8 +69,9 @@ not.
 
 --retrain trains a model without the cues acted on and those marked artifact
 (taken out of the training text as train's --mask-tokens does) and compares
-both models on the test split as it is and with the cues taken out;
---retrain-out keeps the new model. --masked-out writes a copy of the model with
+both models on the confirming half of the test texts (the choosing half chose
+the cues) as it is and with the cues taken out; --retrain-out keeps the new
+model. --masked-out writes a copy of the model with
 the filters masked that helped on the confirming half; on a model with word
 weights (train --wide) the copy also reads the cues' own words as the unknown
 word by the word weights, as the audit measured it. When no mask helped,
@@ -464,7 +465,8 @@ func (r *auditRun) train(ctx context.Context, recipe cnn.Recipe, seed uint64, wh
 }
 
 // retrain trains without the cues acted on and those marked artifact and
-// compares the two models on the test split with and without them.
+// compares the two models, with and without them, on the audit's
+// confirming half (the choosing half chose them).
 func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result, recipe cnn.Recipe) (*audit.Retrained, error) {
 	patterns := slices.Clone(res.Action.Patterns)
 	for _, p := range r.marks.Patterns() {
@@ -476,7 +478,7 @@ func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result,
 		return nil, errors.New("--retrain: the audit acted on no cue and no cue is marked artifact, so there is nothing to retrain without; " +
 			"mark a cue with --mark-artifact CUE if you judge it an artifact")
 	}
-	rt, err := audit.Retrain(ctx, m, patterns, r.es.train, r.es.dev, r.es.test, recipe, func(p cnn.Progress) {
+	rt, err := audit.Retrain(ctx, m, patterns, r.es.train, r.es.dev, r.es.test, res.Confirmation, recipe, func(p cnn.Progress) {
 		if p.Phase == "train" {
 			r.bar.show(p.Batch, p.Batches, fmt.Sprintf("retraining without the cues: epoch %d/%d", p.Epoch, p.Epochs), false)
 		}

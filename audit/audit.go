@@ -675,7 +675,7 @@ func (a *auditor) shift(c *Candidate) {
 		says = "it does not occur in the choosing half of the test texts"
 	case s.Present:
 		v = min(1, (s.TrainShare-s.HeldoutShare)/max(1e-9, s.TrainShare-1/float64(a.m.Config.Classes)))
-		says = fmt.Sprintf("only %s of the test texts of the choosing half holding it are %s, against %s in training (Fisher p = %s)",
+		says = fmt.Sprintf("in the choosing half of the test texts only %s of those holding it are %s, against %s in training (Fisher p = %s)",
 			pct(s.HeldoutShare), c.Label, pct(s.TrainShare), pval(s.P))
 	}
 	c.Signals = append(c.Signals, Signal{Name: SignalShift, Value: max(0, v), Weight: signalWeights[SignalShift], Says: says})

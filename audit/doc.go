@@ -51,12 +51,16 @@
 //
 // The held-out split is halved once, stratified by label and seeded. On
 // the selection half the cues are measured, ranked (reliance ×
-// artifact-likeness among the associated cues, ScoreFormula) and chosen,
-// and their filters found. On the confirmation half, which took no part in
-// any choice, the listed cues are measured again: the figures the story
-// tells, the decision to act (its reliance confirmed there), the accuracy
-// without the cues and the test of a filter mask all come from there, so
-// every printed p-value and interval is valid for what it describes.
+// artifact-likeness among the associated cues, ScoreFormula; the shift
+// signal too is measured there) and chosen, and their filters found. On
+// the confirmation half, which took no part in choosing or ranking them,
+// the listed cues are measured again: its tests decide which are acted on
+// (their reliance confirmed there), and the figures the story tells, the
+// accuracy without the cues, the test of a filter mask and Retrain's
+// comparison come from there too. So every printed p-value and interval
+// is valid for the test it describes; for a cue acted on, its figures are
+// those that passed the confirmation test (a new held-out file measures
+// them afresh).
 //
 // # Lists, marks and the action
 //
