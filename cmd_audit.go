@@ -43,12 +43,14 @@ the training split of --data, and tells in plain words what it found:
                      like the task? Where it sits (a line of its own, the start
                      or end of the text), the same neighbours every time, its
                      shape (an identifier with digits, an address, markup), and
-                     a label share that differs in the test texts.
+                     a label share that differs in the choosing half of the
+                     test texts: a rule's score, its weights set by hand.
 
 The test split is --test FILE, or the share train held out of --data as its
-test split. It is halved at random (--seed): the cues are ranked and
-chosen on one half, and every figure shown is measured on the other, which took
-no part in choosing them. The cues the model relies on that look like
+test split. It is halved at random (--seed): the cues are ranked and chosen on
+one half, and every figure shown is measured on the other, which took no part
+in choosing them; its tests decide which cues are acted on, so for those the
+figures are what passed that test. The cues the model relies on that look like
 collection are ranked first; those that read like the task are listed apart,
 for you to judge. The output opens with the story; the commands that act on it
 and how the numbers are made close it.
@@ -71,11 +73,11 @@ not.
 (taken out of the training text as train's --mask-tokens does) and compares
 both models on the confirming half of the test texts (the choosing half chose
 the cues) as it is and with the cues taken out; --retrain-out keeps the new
-model. --masked-out writes a copy of the model with
-the filters masked that helped on the confirming half; on a model with word
-weights (train --wide) the copy also reads the cues' own words as the unknown
-word by the word weights, as the audit measured it. When no mask helped,
-nothing is written and the command fails.`,
+model. --masked-out writes a copy of the model with the filters masked that
+helped on the confirming half; on a model with word weights (train --wide) the
+copy also reads the cues' own words as the unknown word by the word weights,
+as the audit measured it. When no mask helped, nothing is written and the
+command fails.`,
 	Options: func() options { return new(auditOptions) },
 	Run:     runAs(runAudit),
 }
