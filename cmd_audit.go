@@ -43,12 +43,14 @@ the training split of --data, and tells in plain words what it found:
                      like the task? Where it sits (a line of its own, the start
                      or end of the text), the same neighbours every time, its
                      shape (an identifier with digits, an address, markup), and
-                     a label share that differs in the test texts.
+                     a label share that differs in the choosing half of the
+                     test texts: a rule's score, its weights set by hand.
 
 The test split is --test FILE, or the share train held out of --data as its
-test split. It is halved at random (--seed): the cues are ranked and
-chosen on one half, and every figure shown is measured on the other, which took
-no part in choosing them. The cues the model relies on that look like
+test split. It is halved at random (--seed): the cues are ranked and chosen on
+one half, and every figure shown is measured on the other, which took no part
+in choosing them; its tests decide which cues are acted on, so for those the
+figures are what passed that test. The cues the model relies on that look like
 collection are ranked first; those that read like the task are listed apart,
 for you to judge. The output opens with the story; the commands that act on it
 and how the numbers are made close it.
@@ -69,12 +71,13 @@ not.
 
 --retrain trains a model without the cues acted on and those marked artifact
 (taken out of the training text as train's --mask-tokens does) and compares
-both models on the test split as it is and with the cues taken out;
---retrain-out keeps the new model. --masked-out writes a copy of the model with
-the filters masked that helped on the confirming half; on a model with word
-weights (train --wide) the copy also reads the cues' own words as the unknown
-word by the word weights, as the audit measured it. When no mask helped,
-nothing is written and the command fails.`,
+both models on the confirming half of the test texts (the choosing half chose
+the cues) as it is and with the cues taken out; --retrain-out keeps the new
+model. --masked-out writes a copy of the model with the filters masked that
+helped on the confirming half; on a model with word weights (train --wide) the
+copy also reads the cues' own words as the unknown word by the word weights,
+as the audit measured it. When no mask helped, nothing is written and the
+command fails.`,
 	Options: func() options { return new(auditOptions) },
 	Run:     runAs(runAudit),
 }
@@ -464,7 +467,8 @@ func (r *auditRun) train(ctx context.Context, recipe cnn.Recipe, seed uint64, wh
 }
 
 // retrain trains without the cues acted on and those marked artifact and
-// compares the two models on the test split with and without them.
+// compares the two models, with and without them, on the audit's
+// confirming half (the choosing half chose them).
 func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result, recipe cnn.Recipe) (*audit.Retrained, error) {
 	patterns := slices.Clone(res.Action.Patterns)
 	for _, p := range r.marks.Patterns() {
@@ -476,7 +480,7 @@ func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result,
 		return nil, errors.New("--retrain: the audit acted on no cue and no cue is marked artifact, so there is nothing to retrain without; " +
 			"mark a cue with --mark-artifact CUE if you judge it an artifact")
 	}
-	rt, err := audit.Retrain(ctx, m, patterns, r.es.train, r.es.dev, r.es.test, recipe, func(p cnn.Progress) {
+	rt, err := audit.Retrain(ctx, m, patterns, r.es.train, r.es.dev, r.es.test, res.Confirmation, recipe, func(p cnn.Progress) {
 		if p.Phase == "train" {
 			r.bar.show(p.Batch, p.Batches, fmt.Sprintf("retraining without the cues: epoch %d/%d", p.Epoch, p.Epochs), false)
 		}

@@ -56,7 +56,7 @@ func writeAuditText(w io.Writer, v *auditView) error {
 	bw := bufio.NewWriter(w)
 	r := v.Result
 	fmt.Fprintf(bw, "Cue audit of %s: association on the %s training texts of %s; reliance on the %s %s, halved at random (seed %d) "+
-		"into %s that choose the cues and %s that confirm them.\n\n", v.o.model, count(r.TrainTexts), v.o.data, count(r.HeldoutTexts), v.heldout,
+		"into %s that choose the cues and %s that confirm them: every figure below comes from the confirming half unless it says otherwise.\n\n", v.o.model, count(r.TrainTexts), v.o.data, count(r.HeldoutTexts), v.heldout,
 		v.o.seed, count(r.SelectionTexts), count(r.ConfirmationTexts))
 	fmt.Fprintf(bw, "%s\n", v.Story)
 	v.writeList(bw, fmt.Sprintf("Cues that look like how the data was collected (%d), those acted on first, then by reliance × artifact-likeness", len(r.Ranked)), r.Ranked)
@@ -90,7 +90,7 @@ func (v *auditView) writeActions(w io.Writer) {
 		steps = append(steps, step{"keep the verdict with the model (in " + v.MarksFile + ")", shellJoin(unmarked)})
 	}
 	if len(acted) > 0 && v.Retrained == nil {
-		steps = append(steps, step{"retrain without the cues and compare both models on the test texts with and without them",
+		steps = append(steps, step{"retrain without the cues and compare both models, with and without them, on the confirming half, which took no part in choosing them",
 			shellJoin([]string{"--retrain", "--retrain-out", base + "-without.tt"})})
 	}
 	if v.Action.Suggested() && v.MaskedModel == "" {
@@ -155,24 +155,30 @@ func (v *auditView) writeStability(w io.Writer) {
 	}
 }
 
-// writeRetrained writes --retrain's comparison.
+// writeRetrained writes --retrain's comparison, on the confirming half.
 func (v *auditView) writeRetrained(w io.Writer) {
 	rt := v.Retrained
 	if rt == nil {
 		return
 	}
-	fmt.Fprintf(w, "\nRetrained without %s (%s taken out of the training split, %s out of the test texts):\n",
-		plural(len(rt.Patterns), "cue", "cues"), count(rt.Removed)+map[bool]string{true: " match", false: " matches"}[rt.Removed == 1], count(rt.HeldoutRemoved))
+	fmt.Fprintf(w, "\nRetrained without %s (%s taken out of the training split); both models compared on the %s confirming test texts, "+
+		"which took no part in choosing the cues (%s taken out of them):\n",
+		plural(len(rt.Patterns), "cue", "cues"), matches(rt.Removed), count(rt.Texts), matches(rt.HeldoutRemoved))
 	for _, p := range []struct {
 		what string
 		mp   audit.ModelPair
 	}{{"as they are", rt.Original}, {"without the cues", rt.Counterfactual}} {
-		fmt.Fprintf(w, "  on the %s test texts %s: accuracy %s with this model, %s retrained; %d right only before, %d only after (two-sided exact McNemar p = %.2g)\n",
-			count(rt.Texts), p.what, accInterval(p.mp.Before), accInterval(p.mp.After), p.mp.OnlyBefore, p.mp.OnlyAfter, p.mp.P)
+		fmt.Fprintf(w, "  %s: accuracy %s with this model, %s retrained; %d right only before, %d only after (two-sided exact McNemar p = %.2g)\n",
+			p.what, accInterval(p.mp.Before), accInterval(p.mp.After), p.mp.OnlyBefore, p.mp.OnlyAfter, p.mp.P)
 	}
 	if v.RetrainedModel != "" {
 		fmt.Fprintf(w, "  The retrained model is in %s.\n", v.RetrainedModel)
 	}
+}
+
+// matches writes a count of pattern matches: "1 match", "1,234 matches".
+func matches(n int) string {
+	return count(n) + map[bool]string{true: " match", false: " matches"}[n == 1]
 }
 
 func accInterval(x audit.Interval) string {

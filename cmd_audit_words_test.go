@@ -38,7 +38,7 @@ func TestAuditWordOnlyMask(t *testing.T) {
 	if act.Mask != nil || !slices.Contains(act.MaskWords, "kioskmail") || !act.Suggested() {
 		t.Fatalf("want a mask of words only holding kioskmail: mask %v, words %q, tried %+v\n%s", act.Mask, act.MaskWords, act.Tried, res.Story)
 	}
-	if !strings.Contains(res.Story, "as the unknown word by the word weights helps on test texts") {
+	if !strings.Contains(res.Story, "as the unknown word by the word weights, chosen on the choosing half, helps on the confirming half") {
 		t.Errorf("the story does not name the mask of words:\n%s", res.Story)
 	}
 	code, text, stderr := tt(t, base...)

@@ -22,11 +22,13 @@ const (
 	SignalMarkup  = "markup"  // markup, entities, encodings, bracketed tags or a separator run
 	SignalCasing  = "casing"  // always the same unusual casing
 	SignalPurity  = "purity"  // nearly always one label at high support
-	SignalShift   = "shift"   // its label share differs in the test split
+	SignalShift   = "shift"   // its label share differs in the choosing half of the test split
 )
 
-// signalWeights are the weights w of ArtifactFormula: how strongly each
-// signal, when it holds for every occurrence, says "collection artifact".
+// signalWeights are the weights w of ArtifactFormula, set by hand (not
+// fitted to data, so the score is a rule's, not a probability): how
+// strongly each signal, when it holds for every occurrence, says
+// "collection artifact".
 // Position, lines, identifiers and addresses are what footers, stamps,
 // signatures and list tags are made of; a long span and fixed neighbours
 // also fit templates of the task, so they weigh less; a shift between the
@@ -41,9 +43,9 @@ var signalOrder = []string{SignalEdge, SignalLine, SignalSpan, SignalContext, Si
 	SignalAddress, SignalMarkup, SignalCasing, SignalPurity, SignalShift}
 
 // ArtifactFormula states how Candidate.ArtifactLikeness is made.
-const ArtifactFormula = "artifact-likeness = 1 − Π (1 − weight × value) over the signals, each value in [0, 1] " +
-	"(the share of the cue's training occurrences that show it, or a graded measure), weights: edge 0.6, line 0.6, " +
-	"span 0.25, context 0.15, code 0.8, number 0.3, address 0.7, markup 0.6, casing 0.5, purity 0.4, shift 0.8"
+const ArtifactFormula = "artifact-likeness, a rule's score (not a probability) = 1 − Π (1 − weight × value) over the signals, each value in [0, 1] " +
+	"(the share of the cue's training occurrences that show it, or a graded measure; shift on the choosing half of the test texts), " +
+	"weights set by hand: edge 0.6, line 0.6, span 0.25, context 0.15, code 0.8, number 0.3, address 0.7, markup 0.6, casing 0.5, purity 0.4, shift 0.8"
 
 // ArtifactThreshold is the artifact-likeness at or above which a cue reads
 // like how the data was collected rather than like the task.

@@ -192,7 +192,8 @@ type Candidate struct {
 	// cue (acted on, or listed as relied on and reading like the task).
 	ConfirmedQ float64 `json:"reliance_confirmed_q,omitempty"`
 	Relied     bool    `json:"relied_confirmed"`
-	// Shift is question 4: the cue's label share in the held-out split.
+	// Shift is question 4: the cue's label share in the selection half of
+	// the held-out split.
 	Shift *Shift `json:"shift,omitempty"`
 	// Filters keyed on it, with their ablation.
 	Filters *Filters `json:"filters,omitempty"`
@@ -223,7 +224,10 @@ type CueAssociation struct {
 	Adjusted float64 `json:"adjusted_p"`
 }
 
-// Shift compares a cue's label share in the held-out split with training.
+// Shift compares a cue's label share in the selection half of the
+// held-out split with training (the confirmation half takes no part: it
+// decides the verdict). HeldoutTexts are the selection half's texts
+// holding the cue, HeldoutShare the share of them in its label.
 type Shift struct {
 	HeldoutTexts int     `json:"heldout_texts"`
 	HeldoutShare float64 `json:"heldout_share"`
@@ -595,7 +599,8 @@ func surface(d Data, vocab []string, p phrase, occ []span) string {
 }
 
 // heldoutPasses builds the slot table, runs both halves once, finds every
-// candidate's occurrences there and measures the shift.
+// candidate's occurrences there and measures the shift (on the selection
+// half).
 func (a *auditor) heldoutPasses(ctx context.Context, cands []*Candidate) error {
 	a.progress("held-out", 0, 2)
 	count := make([]int, a.m.Config.VocabSize)
@@ -644,19 +649,16 @@ func (a *auditor) heldoutPasses(ctx context.Context, cands []*Candidate) error {
 	return nil
 }
 
-// shift compares the cue's label share in both halves together with
-// training and adds the shift signal.
+// shift compares the cue's label share in the selection half with
+// training and adds the shift signal. The confirmation half takes no part:
+// its tests decide the verdict and give every figure shown, so nothing it
+// holds may choose or rank a cue.
 func (a *auditor) shift(c *Candidate) {
 	in, n := 0, 0
-	for _, part := range []struct {
-		d   Data
-		occ []span
-	}{{a.sel, c.selOcc}, {a.conf, c.confOcc}} {
-		for _, i := range texts(part.occ) {
-			n++
-			if part.d.Gold[i] == c.Class {
-				in++
-			}
+	for _, i := range texts(c.selOcc) {
+		n++
+		if a.sel.Gold[i] == c.Class {
+			in++
 		}
 	}
 	s := &Shift{HeldoutTexts: n, TrainShare: c.Association.Share}
@@ -667,13 +669,13 @@ func (a *auditor) shift(c *Candidate) {
 		s.Present = s.P < 0.01 && s.HeldoutShare < s.TrainShare
 	}
 	c.Shift = s
-	v, says := 0.0, "its label share is the same in the test texts"
+	v, says := 0.0, "its label share is the same in the choosing half of the test texts"
 	switch {
 	case n == 0:
-		says = "it does not occur in the test texts"
+		says = "it does not occur in the choosing half of the test texts"
 	case s.Present:
 		v = min(1, (s.TrainShare-s.HeldoutShare)/max(1e-9, s.TrainShare-1/float64(a.m.Config.Classes)))
-		says = fmt.Sprintf("only %s of the test texts holding it are %s, against %s in training (Fisher p = %s)",
+		says = fmt.Sprintf("in the choosing half of the test texts only %s of those holding it are %s, against %s in training (Fisher p = %s)",
 			pct(s.HeldoutShare), c.Label, pct(s.TrainShare), pval(s.P))
 	}
 	c.Signals = append(c.Signals, Signal{Name: SignalShift, Value: max(0, v), Weight: signalWeights[SignalShift], Says: says})

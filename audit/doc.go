@@ -43,19 +43,24 @@
 //     code, a tag in square brackets, marks only markup is written with
 //     such as "=" — or a separator run, the same unusual casing every
 //     time), a label share implausibly high at high support; and, when the
-//     held-out split has one, a shift of the cue's label share (question 4
-//     of the design: strong extra evidence, one signal among the others).
+//     selection half of the held-out split has one, a shift of the cue's
+//     label share (question 4 of the design: strong extra evidence, one
+//     signal among the others; the confirmation half takes no part in it).
 //
 // # Two halves
 //
 // The held-out split is halved once, stratified by label and seeded. On
 // the selection half the cues are measured, ranked (reliance ×
-// artifact-likeness among the associated cues, ScoreFormula) and chosen,
-// and their filters found. On the confirmation half, which took no part in
-// any choice, the listed cues are measured again: the figures the story
-// tells, the decision to act (its reliance confirmed there), the accuracy
-// without the cues and the test of a filter mask all come from there, so
-// every printed p-value and interval is valid for what it describes.
+// artifact-likeness among the associated cues, ScoreFormula; the shift
+// signal too is measured there) and chosen, and their filters found. On
+// the confirmation half, which took no part in choosing or ranking them,
+// the listed cues are measured again: its tests decide which are acted on
+// (their reliance confirmed there), and the figures the story tells, the
+// accuracy without the cues, the test of a filter mask and Retrain's
+// comparison come from there too. So every printed p-value and interval
+// is valid for the test it describes; for a cue acted on, its figures are
+// those that passed the confirmation test (a new held-out file measures
+// them afresh).
 //
 // # Lists, marks and the action
 //
@@ -89,7 +94,9 @@
 //	            reliance {texts, measured, draws, flip_rate, control_flip_rate,
 //	            net_flip_rate, prob_drop, label_drop, decided, p, flip_p, …}
 //	            (confirmation half; reliance_selection: the same on the
-//	            selection half), shift, filters {keyed, ablation}, score, mark,
+//	            selection half), shift {heldout_texts, heldout_share,
+//	            train_share, p, present} (selection half), filters {keyed,
+//	            ablation}, score, mark,
 //	            verdict, pattern
 //	relied_on_reads_like_the_task[]   the same fields
 //	action      cues, patterns, counterfactual {accuracy, accuracy_without,

@@ -2,6 +2,7 @@ package audit
 
 import (
 	"context"
+	"fmt"
 	"slices"
 
 	"telltale/cnn"
@@ -9,18 +10,20 @@ import (
 )
 
 // Retrained compares the audited model with a model retrained without the
-// acted-on cues, on the held-out split as it is and on its counterfactual
-// (the same texts with the cues taken out by the same patterns). Every
-// accuracy carries its 95% Wilson interval; the P fields are two-sided
-// exact McNemar tests of the two models' paired predictions on each split.
+// acted-on cues, on the confirmation half of the held-out split (which took
+// no part in choosing the cues) as it is and on its counterfactual (the
+// same texts with the cues taken out by the same patterns). Every accuracy
+// carries its 95% Wilson interval; the P fields are two-sided exact
+// McNemar tests of the two models' paired predictions on each.
 type Retrained struct {
 	Patterns []string `json:"patterns"`
 	// Removed is how many matches the patterns took out of the training
-	// split, HeldoutRemoved out of the held-out split.
+	// split, HeldoutRemoved out of the texts compared.
 	Removed        int `json:"removed"`
 	HeldoutRemoved int `json:"heldout_removed"`
-	Texts          int `json:"texts"`
-	// Original and Counterfactual are the held-out split as it is and
+	// Texts are the texts compared: the confirmation half's.
+	Texts int `json:"texts"`
+	// Original and Counterfactual are the texts compared as they are and
 	// without the cues; Before is the audited model, After the retrained.
 	Original       ModelPair `json:"original"`
 	Counterfactual ModelPair `json:"counterfactual"`
@@ -41,15 +44,21 @@ type ModelPair struct {
 // Retrain takes the patterns (Action.Patterns, or Marks.Patterns) out of
 // the training texts (corpus.MaskTokens), trains a model on them with
 // recipe r (cnn.TrainText; dev, which may be nil, is masked the same way
-// and used for early stopping) and compares it with m on heldout and on its
-// counterfactual. Nothing is written. Progress may be nil.
+// and used for early stopping) and compares it with m on the texts of
+// heldout at the indexes scored, as they are and without the cues. scored
+// are the audit's confirmation half (Result.Confirmation, indexes of the
+// heldout it was given), which took no part in choosing the cues: the
+// selection half chose them, and a comparison there would favour the
+// model that never saw them. Nil scored compares on every text of heldout,
+// for a held-out split that took no part in the audit. Nothing is written.
+// Progress may be nil.
 //
 // When m carries a linear baseline and r asks for none (a recipe rebuilt
 // from a model file, whose record keeps the baseline's configuration in the
 // baseline itself), the retrained model gets one too, with m's baseline
 // configuration, fitted on the same masked training text: so it is shown
 // beside a baseline wherever m is.
-func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, heldout *corpus.Dataset, r cnn.Recipe,
+func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, heldout *corpus.Dataset, scored []int, r cnn.Recipe,
 	progress func(cnn.Progress)) (*Retrained, error) {
 	if len(patterns) == 0 {
 		return nil, inputErrorf("audit: no cue to retrain without: the audit acted on none, and no cue is marked as artifact")
@@ -62,6 +71,9 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 	}
 	cm, err := corpus.MaskTokens(patterns)
 	if err != nil {
+		return nil, err
+	}
+	if heldout, err = pick(heldout, scored); err != nil {
 		return nil, err
 	}
 	out := &Retrained{Patterns: patterns}
@@ -100,6 +112,22 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 			return nil, err
 		}
 		*c.to = pair(before, after, gold)
+	}
+	return out, nil
+}
+
+// pick is the texts of d at the indexes idx, in their order (d itself for
+// nil idx); an index out of d is an error (idx is not of d).
+func pick(d *corpus.Dataset, idx []int) (*corpus.Dataset, error) {
+	if idx == nil {
+		return d, nil
+	}
+	out := &corpus.Dataset{Path: d.Path, Labels: d.Labels, Examples: make([]corpus.Example, len(idx))}
+	for k, i := range idx {
+		if i < 0 || i >= len(d.Examples) {
+			return nil, fmt.Errorf("audit: text %d to compare on is not in %s, which has %d: give the held-out split the audit read", i, d.Path, len(d.Examples))
+		}
+		out.Examples[k] = d.Examples[i]
 	}
 	return out, nil
 }

@@ -38,7 +38,7 @@ func TestRetrainKeepsTheBaseline(t *testing.T) {
 	fromFile := cnn.Recipe{Tokenizer: m.Tokenizer, Model: m.Config, Train: *m.Info.Recipe}
 	fromFile.Tokenizer.SubwordPieces = nil
 	fromFile.Model.VocabSize, fromFile.Model.Classes = 0, 0
-	rt, err := Retrain(context.Background(), m, []string{word}, train, dev, dev, fromFile, nil)
+	rt, err := Retrain(context.Background(), m, []string{word}, train, dev, dev, nil, fromFile, nil)
 	if err != nil {
 		t.Fatal(err)
 	}

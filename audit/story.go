@@ -180,8 +180,8 @@ func (r *Result) writeStory(w io.Writer) {
 		}
 	}
 	if len(acted) == 0 {
-		p("No cue that looks like how the data was collected changes this model's predictions measurably on test\n")
-		p("texts that took no part in choosing it: there is nothing to act on.\n")
+		p("No cue that looks like how the data was collected changes this model's predictions measurably on the\n")
+		p("confirming half of the test texts, which took no part in choosing it: there is nothing to act on.\n")
 	} else {
 		p("The model depends on %s that look%s like how the data was collected rather than like the task:\n",
 			plural(len(acted), "cue"), map[bool]string{true: "s", false: ""}[len(acted) == 1])
@@ -192,29 +192,30 @@ func (r *Result) writeStory(w io.Writer) {
 			if c.Position != "" {
 				at = "at the " + c.Position + " of"
 			}
-			p("\n  %d. %s, %s %s of the test texts (and of %d training texts, %s of them %s).\n",
+			p("\n  %d. %s, %s %s of the confirming test texts (and of %d training texts, %s of them %s).\n",
 				n+1, c.name(), at, fmtPct(share), c.Association.Texts, fmtPct(c.Association.Share), c.Label)
 			p("     It looks like a collection artifact because %s.\n", c.why())
 			p("     Replacing it by neutral words changes %s of the predictions on the texts that hold it, against %s\n",
 				interval(cr.FlipRate), interval(cr.ControlFlipRate))
-			p("     when the same words are put elsewhere; it decides %s of all predictions on the test texts.\n", interval(cr.Decided))
+			p("     when the same words are put elsewhere; it decides %s of all predictions on the confirming half.\n", interval(cr.Decided))
 			if cf := cr.Conflict; cf != nil {
 				p("     On the %d of those texts whose label is not %s, accuracy goes from %s to %s without it\n",
 					cf.Texts, c.Label, accuracy(cf.Before), accuracy(cf.After))
 				p("     (%d predictions fixed, %d broken, two-sided exact McNemar p = %s).\n", cf.Fixed, cf.Broken, pval(cf.P))
 			}
 			if s := c.Shift; s != nil && s.Present {
-				p("     The test texts confirm it is not the task: there %s of the texts holding it are %s, against %s in training.\n",
+				p("     The choosing half shows it is not the task: there %s of the texts holding it are %s, against %s in training.\n",
 					fmtPct(s.HeldoutShare), c.Label, fmtPct(s.TrainShare))
 			}
 		}
 		if cf := r.Action.Counterfactual; cf != nil {
-			p("\nWithout %s the model scores %s on the test texts, against %s as they are;\n",
-				map[bool]string{true: "it", false: "them"}[len(acted) == 1], accuracy(cf.AccuracyWithout), accuracy(cf.Accuracy))
-			p("on the %d texts that hold %s: %s, against %s (%d predictions fixed, %d broken, p = %s).\n",
+			p("\nWithout %s the model scores %s on the %d confirming test texts, against %s as they are;\n",
+				map[bool]string{true: "it", false: "them"}[len(acted) == 1], accuracy(cf.AccuracyWithout), cf.Texts, accuracy(cf.Accuracy))
+			p("on the %d of them that hold %s: %s, against %s (%d predictions fixed, %d broken, p = %s).\n",
 				cf.CueTexts, map[bool]string{true: "it", false: "one"}[len(acted) == 1], accuracy(cf.CueAccuracyWithout),
 				accuracy(cf.CueAccuracy), cf.Fixed, cf.Broken, pval(cf.P))
 		}
+		p("\n%s\n", provenance(len(acted) == 1))
 		r.writeWhatToDo(p, acted)
 	}
 	r.writeTask(p)
@@ -225,7 +226,8 @@ func (r *Result) writeStory(w io.Writer) {
 // whether a mask (filters, word weights or both) helps.
 func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 	it := map[bool]string{true: "it", false: "them"}[len(acted) == 1]
-	p("\nWhat to do: retrain without %s and compare both models on the test texts with and without %s.\n", it, it)
+	p("\nWhat to do: retrain without %s and compare both models, with and without %s, on texts that took no part in\n", it, it)
+	p("choosing %s: the confirming half (as telltale audit --retrain does) or a new test file.\n", it)
 	if cmds := r.Action.Commands; len(cmds) > 0 {
 		p("These commands write the patterns that take %s out of the text to a file and train the model's recipe again\n", it)
 		p("on its own splits without %s:\n", it)
@@ -242,16 +244,15 @@ func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 	p("%s\n", markAdvice(acted))
 	if t := r.Action.Tried; t != nil {
 		if r.Action.Suggested() {
-			p("%s helps on test texts that took no part in choosing %s: accuracy %s → %s\n",
-				maskTried(t), map[bool]string{true: "them", false: "it"}[len(t.Filters) > 0], accuracy(t.Before), accuracy(t.After))
+			p("%s, chosen on the choosing half, helps on the confirming half: accuracy %s → %s\n",
+				maskTried(t), accuracy(t.Before), accuracy(t.After))
 			p("(%d fixed, %d broken, one-sided exact McNemar p = %s).\n", t.Fixed, t.Broken, pval(t.P))
 		} else {
 			what := fmt.Sprintf("Masking the filters that read %s%s", it, wideWords(t.Words))
 			if len(t.Filters) == 0 {
 				what = fmt.Sprintf("Reading the words of %s, %s, as the unknown word by the word weights", it, quoted(t.Words))
 			}
-			p("%s does not help on test texts that took no part in choosing %s\n", what,
-				map[bool]string{true: "them", false: "it"}[len(t.Filters) > 0])
+			p("%s, chosen on the choosing half, does not help on the confirming half\n", what)
 			p("(accuracy %s → %s, %d fixed, %d broken, one-sided exact McNemar p = %s): no %s is suggested.\n",
 				accuracy(t.Before), accuracy(t.After), t.Fixed, t.Broken, pval(t.P), map[bool]string{true: "filter mask", false: "mask"}[len(t.Filters) > 0])
 		}
@@ -289,14 +290,32 @@ func (r *Result) writeTask(p func(string, ...any)) {
 			case cr.Measured == 0:
 				p("  %s (%s%s): %s.\n", c.name(), c.Label, marked, tooFew(cr))
 			case !c.Relied:
-				p("  %s (%s%s): the test texts do not confirm the model relies on it (probability of %s %s, predictions changed %s).\n",
-					c.name(), c.Label, marked, c.Label, signedDrop(cr.LabelDrop), interval(cr.NetFlipRate))
+				p("  %s (%s%s): the confirming half does not confirm the model relies on it (replacing it, the probability of %s %s;\n",
+					c.name(), c.Label, marked, c.Label, signedDrop(cr.LabelDrop))
+				p("     it changes %s of the predictions on the texts that hold it, against %s when the same words are put elsewhere).\n",
+					interval(cr.FlipRate), interval(cr.ControlFlipRate))
 			default:
-				p("  %s (%s%s): replacing it lowers the probability of %s by %s on its texts and changes %s of the predictions.\n",
-					c.name(), c.Label, marked, c.Label, drop(cr.LabelDrop), interval(cr.NetFlipRate))
+				p("  %s (%s%s): replacing it lowers the probability of %s by %s on its confirming texts and changes %s\n",
+					c.name(), c.Label, marked, c.Label, drop(cr.LabelDrop), interval(cr.FlipRate))
+				p("     of the predictions on the texts that hold it, against %s when the same words are put elsewhere.\n",
+					interval(cr.ControlFlipRate))
 			}
 		}
 	}
+}
+
+// provenance says where the story's figures come from: the cues were
+// chosen on the choosing half; the confirming half's tests decided which
+// are acted on, and its figures are those shown, so for a cue acted on
+// they are the figures that passed that test.
+func provenance(one bool) string {
+	it, they := "them", "they"
+	if one {
+		it, they = "it", "it"
+	}
+	return fmt.Sprintf("The choosing half of the test texts chose %s; the tests on the confirming half decided that %s %s acted on,\n"+
+		"and every figure above comes from that half: what passed those tests (a new test file measures them afresh).",
+		it, they, map[bool]string{true: "is", false: "are"}[one])
 }
 
 // markAdvice says which of the cues acted on (numbered from 1 as the story
@@ -413,7 +432,7 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	if cr := c.Confirmed; cr != nil && cr.Measured == 0 {
 		p("   reliance: %s\n", tooFew(cr))
 	} else if cr != nil {
-		p("   reliance: replacing it changes %s of %d test texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
+		p("   reliance: replacing it changes %s of %d confirming texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
 			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), interval(cr.NetFlipRate), pval(cr.FlipP))
 		p("     p(%s) drops %.3f (%.3f–%.3f) on average, p(prediction) %.3f (%.3f–%.3f); p(%s) falls in %d texts, rises in %d (sign test p = %s)\n", c.Label,
 			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, c.Label, cr.Lower, cr.Higher, pval(cr.P))
@@ -421,7 +440,7 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 			p("     %s → %s (gold %s): %s\n", ex.Pred, ex.After, ex.Gold, ex.Snippet)
 		}
 	}
-	p("   artifact-likeness %.2f:", c.ArtifactLikeness)
+	p("   artifact-likeness (rule score) %.2f:", c.ArtifactLikeness)
 	for _, s := range c.Signals {
 		if s.Value > 0 {
 			p(" %s %.2f;", s.Name, s.Value)

@@ -2,6 +2,7 @@ package audit
 
 import (
 	"fmt"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -147,6 +148,82 @@ func TestStoryFiguresCarryIntervals(t *testing.T) {
 	for _, line := range strings.Split(story, "\n") {
 		if strings.Contains(line, "'refund'") && strings.Contains(line, "–") {
 			t.Errorf("the story shows an interval over the one text of a cue: %s", line)
+		}
+	}
+}
+
+// storyOfHalves is the story of an audit that acts on one cue and lists one
+// cue relied on that reads like the task and one it does not confirm,
+// every rate with a net rate (less the control) unlike the rate itself.
+func storyOfHalves() (*Result, string) {
+	rel := func(flip, control, net Interval) *Reliance {
+		return &Reliance{Texts: 25, Measured: 25, FlipRate: flip, ControlFlipRate: control, NetFlipRate: net,
+			LabelDrop: Interval{Estimate: 0.148, Low: 0.102, High: 0.201}, Decided: Interval{Estimate: 0.011, Low: 0.002, High: 0.022}}
+	}
+	r := &Result{ConfirmationTexts: 400, SelectionTexts: 400, HeldoutTexts: 800}
+	r.Ranked = []Candidate{{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: VerdictActed, Relied: true,
+		Association: CueAssociation{Texts: 20},
+		Confirmed:   rel(Interval{0.241, 0.181, 0.307}, Interval{0.084, 0.051, 0.119}, Interval{0.157, 0.1, 0.2})}}
+	r.Task = []Candidate{
+		{Words: []string{"book"}, Text: "book", Label: "bookings", Verdict: VerdictTask, Relied: true,
+			Confirmed: rel(Interval{0.187, 0.067, 0.347}, Interval{0.013, 0, 0.053}, Interval{0.17, 0.04, 0.32})},
+		{Words: []string{"ferry"}, Text: "ferry", Label: "timetable", Verdict: VerdictTask, Mark: MarkTask,
+			Confirmed: rel(Interval{0.052, 0.01, 0.1}, Interval{0.031, 0, 0.07}, Interval{0.021, -0.02, 0.06})},
+	}
+	r.Action = Action{Cues: []string{"stamp"}, Patterns: []string{pattern([]string{"stamp"})},
+		Counterfactual: &Counterfactual{Texts: 400, CueTexts: 25, Accuracy: wilsonInterval(333, 400), AccuracyWithout: wilsonInterval(361, 400),
+			CueAccuracy: wilsonInterval(10, 25), CueAccuracyWithout: wilsonInterval(20, 25), Fixed: 12, Broken: 2, P: mcNemarTwoSided(12, 2)},
+		Tried: &Ablation{Filters: []int{3}, Texts: 400, Before: wilsonInterval(333, 400), After: wilsonInterval(358, 400), Fixed: 30, Broken: 5,
+			P: SignTest(30, 5)}}
+	r.Action.Mask = []int{3}
+	return r, r.Story()
+}
+
+// The story names the half each figure comes from: the cue's share, what
+// it decides and the accuracy without it are the confirming half's (the
+// eval of the whole test file scores other texts); the cues were chosen on
+// the choosing half, the confirming half's tests decided to act, so its
+// effects are what passed that test; the mask was chosen on the choosing
+// half and tested on the confirming one; and the models are to be compared
+// on texts that took no part in choosing the cues.
+func TestStoryNamesTheHalves(t *testing.T) {
+	_, story := storyOfHalves()
+	for _, want := range []string{
+		"of the confirming test texts (and of 20 training texts",
+		"of all predictions on the confirming half.",
+		"on the 400 confirming test texts, against " + accuracy(wilsonInterval(333, 400)) + " as they are",
+		"on the 25 of them that hold it:",
+		"The choosing half of the test texts chose it; the tests on the confirming half decided that it is acted on,\n" +
+			"and every figure above comes from that half: what passed those tests",
+		"Masking filters 3, chosen on the choosing half, helps on the confirming half",
+		"on texts that took no part in\nchoosing it: the confirming half (as telltale audit --retrain does) or a new test file.",
+	} {
+		if !strings.Contains(story, want) {
+			t.Errorf("the story lacks %q:\n%s", want, story)
+		}
+	}
+	for _, bad := range []string{"on the test texts", "helps on test texts that took no part"} {
+		if strings.Contains(story, bad) {
+			t.Errorf("the story says %q, which does not name the half:\n%s", bad, story)
+		}
+	}
+}
+
+// "changes X% of the predictions" has one meaning throughout the story, the
+// one its label says: the share of predictions replacing the cue changes on
+// the texts that hold it, with the control (the same words put elsewhere)
+// beside it, for the cues acted on and for those that read like the task;
+// the net rate (the two's difference) is never shown under that label.
+func TestStoryOneFlipRate(t *testing.T) {
+	r, story := storyOfHalves()
+	for _, c := range append(slices.Clone(r.Ranked), r.Task...) {
+		cr := c.Confirmed
+		want := interval(cr.FlipRate) + " of the predictions on the texts that hold it, against " + interval(cr.ControlFlipRate)
+		if !strings.Contains(strings.Join(strings.Fields(story), " "), want) {
+			t.Errorf("%s: the story lacks %q:\n%s", c.Text, want, story)
+		}
+		if strings.Contains(story, interval(cr.NetFlipRate)) {
+			t.Errorf("%s: the story shows the net rate %s:\n%s", c.Text, interval(cr.NetFlipRate), story)
 		}
 	}
 }

@@ -55,7 +55,7 @@ func TestWordOnlyMaskDemo(t *testing.T) {
 		t.Errorf("suggested words %q, tried %q: want the same, holding kioskmail", act.MaskWords, tried.Words)
 	}
 	story := res.Story()
-	if want := "Reading " + quoted(tried.Words) + " as the unknown word by the word weights helps on test texts"; !strings.Contains(story, want) {
+	if want := "Reading " + quoted(tried.Words) + " as the unknown word by the word weights, chosen on the choosing half, helps on the confirming half"; !strings.Contains(story, want) {
 		t.Errorf("the story does not say %q:\n%s", want, story)
 	}
 	checkRemedy(t, m, held, res, &act)

@@ -374,7 +374,7 @@ type retrained struct {
 
 // retrainNow trains a model with the audited model's recipe on the
 // training split with the cues taken out (audit.Retrain) and compares both
-// on the test split as it is and without the cues; done gets the result on
+// on the audit's confirming half as it is and without the cues; done gets the result on
 // the UI goroutine.
 func (st *State) retrainNow(as *auditState, done func(*retrained)) {
 	if st.isRunning(taskRetrain) {
@@ -392,7 +392,7 @@ func (st *State) retrainNow(as *auditState, done func(*retrained)) {
 	}
 	st.setStatus("Retraining without the cues…")
 	st.start(taskRetrain, true, func(ctx context.Context, report reporter) (func(), error) {
-		rt, err := audit.Retrain(ctx, as.ms.Model, patterns, as.cs.Train, as.cs.Dev, as.cs.Test, rec, func(p cnn.Progress) {
+		rt, err := audit.Retrain(ctx, as.ms.Model, patterns, as.cs.Train, as.cs.Dev, as.cs.Test, as.R.Confirmation, rec, func(p cnn.Progress) {
 			if p.Phase == "train" {
 				total := p.Epochs * max(p.Batches, 1)
 				report((p.Epoch-1)*max(p.Batches, 1)+p.Batch, total,
@@ -406,7 +406,7 @@ func (st *State) retrainNow(as *auditState, done func(*retrained)) {
 			return nil, err
 		}
 		return func() {
-			st.setStatus(fmt.Sprintf("Retrained without %s: test accuracy %.3f, against %.3f for the model audited.",
+			st.setStatus(fmt.Sprintf("Retrained without %s: accuracy %.3f on the confirming half of the test split, against %.3f for the model audited.",
 				plural(len(rt.Patterns), "cue", "cues"), rt.Original.After.Estimate, rt.Original.Before.Estimate))
 			done(&retrained{of: as, rt: rt})
 		}, nil

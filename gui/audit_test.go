@@ -56,8 +56,8 @@ func TestWindowStory(t *testing.T) {
 			t.Errorf("the story shows %q:\n%s", bad, got)
 		}
 	}
-	for _, want := range []string{"of the test texts", "against 0% (0–0%) when the same words are put elsewhere",
-		"What to do here: retrain without it and compare both models on the test split with and without it"} {
+	for _, want := range []string{"of the confirming test texts", "against 0% (0–0%) when the same words are put elsewhere",
+		"What to do here: retrain without it and compare both models on the confirming half of the test split with and without it"} {
 		if !strings.Contains(got, want) {
 			t.Errorf("the story lacks %q:\n%s", want, got)
 		}
@@ -87,7 +87,7 @@ func TestCueRow(t *testing.T) {
 	row := cueRow(r, &r.Ranked[0], 1)
 	lo, hi := audit.Wilson(515, 603, 0.95)
 	want := []string{"1", "sent via KioskMail", "lost-property", "acted on", "603",
-		pct(515.0/603) + " (" + strings.TrimSuffix(pct(lo), "%") + "–" + pct(hi) + ")", "0.996",
+		pct(515.0/603) + " (" + strings.TrimSuffix(pct(lo), "%") + "–" + pct(hi) + ")", "1.00",
 		"99.4% (98.1–100.0%)", "0.0% (0.0–0.0%)", "40.2% (35.2–45.0%)"}
 	if !slices.Equal(row, want) {
 		t.Errorf("row\n %q\nwant\n %q", row, want)
@@ -131,7 +131,7 @@ func TestExamplesOf(t *testing.T) {
 	}
 }
 
-// The two models are compared on the test split as it is and without the
+// The two models are compared on the confirming half as it is and without the
 // cues, with the audit's intervals and tests.
 func TestRetrainRows(t *testing.T) {
 	rt := &audit.Retrained{Texts: 800,

@@ -329,7 +329,7 @@ func (p *actionPane) retrain() {
 		p.result = r
 		rt := r.rt
 		p.compareNote.SetText(fmt.Sprintf("Retrained with the model's recipe without %s: %d matches taken out of the training split, %d out of "+
-			"the test split. Accuracies with 95%% Wilson intervals. Word vectors the model may have been trained with are not used: model files do not record them.",
+			"the confirming half of the test split, where both models are compared (the choosing half chose the cues). Accuracies with 95%% Wilson intervals. Word vectors the model may have been trained with are not used: model files do not record them.",
 			plural(len(rt.Patterns), "cue", "cues"), rt.Removed, rt.HeldoutRemoved))
 		p.compare.setRows(retrainRows(rt))
 		p.buttons()

@@ -27,7 +27,7 @@ func accInterval(x audit.Interval) string {
 }
 
 // cueCols are the columns of the two lists of cues.
-var cueCols = []string{"#", "cue", "label", "verdict", "training texts", "share in its label", "artifact-likeness",
+var cueCols = []string{"#", "cue", "label", "verdict", "training texts", "share in its label", "artifact-likeness (rule score)",
 	"predictions changed", "same words elsewhere", "decides"}
 
 // cueRow is cue c, ranked rank (from 1) in its list, as a row. The
@@ -38,7 +38,7 @@ func cueRow(r *audit.Result, c *audit.Candidate, rank int) []string {
 	lo, hi := audit.Wilson(as.InLabel, as.Texts, 0.95)
 	verdict := report.DescribeCue(c, r, nil).Verdict
 	row := []string{fmt.Sprint(rank), cueShown(c), c.Label, verdict, fmt.Sprint(as.Texts),
-		pctInterval(audit.Interval{Estimate: as.Share, Low: lo, High: hi}), fmt.Sprintf("%.3f", c.ArtifactLikeness)}
+		pctInterval(audit.Interval{Estimate: as.Share, Low: lo, High: hi}), fmt.Sprintf("%.2f", c.ArtifactLikeness)}
 	rl, half := c.Confirmed, ""
 	if rl == nil {
 		rl, half = c.Reliance, " (choosing half)"
@@ -115,11 +115,11 @@ func exampleRows(exs []auditExample) [][]string {
 }
 
 // retrainCols are the columns of retrainRows.
-var retrainCols = []string{"test split", "texts", "this model", "retrained", "right only with this model", "right only retrained",
+var retrainCols = []string{"confirming half", "texts", "this model", "retrained", "right only with this model", "right only retrained",
 	"two-sided exact McNemar p"}
 
-// retrainRows are the two models on the test split as it is and without
-// the cues.
+// retrainRows are the two models on the confirming half of the test split
+// as it is and without the cues.
 func retrainRows(rt *audit.Retrained) [][]string {
 	row := func(what string, mp audit.ModelPair) []string {
 		return []string{what, fmt.Sprint(rt.Texts), accInterval(mp.Before), accInterval(mp.After), fmt.Sprint(mp.OnlyBefore),
@@ -137,7 +137,7 @@ func windowStory(r *audit.Result) string {
 	var paras []string
 	for _, p := range strings.Split(r.Story(), "\n\n") {
 		if strings.HasPrefix(p, "What to do:") {
-			p = fmt.Sprintf("What to do here: retrain without %s and compare both models on the test split with and without %s "+
+			p = fmt.Sprintf("What to do here: retrain without %s and compare both models on the confirming half of the test split with and without %s "+
 				"(What to do), and mark each cue as an artifact or as the task to keep your verdict with the model.", it, it)
 		}
 		paras = append(paras, reflow(p))

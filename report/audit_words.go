@@ -66,7 +66,7 @@ func DescribeCue(c *audit.Candidate, r *audit.Result, priors []float64) CueEvide
 	if c.Mark != "" {
 		ev.Verdict += ", marked " + c.Mark
 	}
-	ev.Artifact = fmt.Sprintf("%s (%s or more reads like how the data was collected)", num(c.ArtifactLikeness), num(audit.ArtifactThreshold))
+	ev.Artifact = ArtifactScore(c.ArtifactLikeness)
 	if c.Mark == audit.MarkArtifact {
 		ev.Artifact += "; you marked it as an artifact"
 	}
@@ -99,6 +99,14 @@ func DescribeCue(c *audit.Candidate, r *audit.Result, priors []float64) CueEvide
 		}
 	}
 	return ev
+}
+
+// ArtifactScore words a cue's artifact-likeness as what it is: the score
+// of a rule whose weights are set by hand (audit.ArtifactFormula), not a
+// measurement or a probability, so two digits: "rule score 0.99 (…)".
+func ArtifactScore(x float64) string {
+	return fmt.Sprintf("rule score %.2f (by hand-set weights, not a probability; %.2f or more reads like how the data was collected)",
+		x, audit.ArtifactThreshold)
 }
 
 // shown is the reliance a person reads: the confirming half's, else the

@@ -190,3 +190,20 @@ func TestReflowStory(t *testing.T) {
 		}
 	}
 }
+
+// The artifact-likeness is a rule's score whose weights are set by hand
+// (auditpkg.ArtifactFormula), not a measurement: it is shown with two digits,
+// named a rule's score and said not to be a probability, wherever the cue's
+// evidence is worded (the report, the command line, the window), and the
+// method says the weights are set by hand.
+func TestArtifactScoreWords(t *testing.T) {
+	c := auditpkg.Candidate{Words: []string{"stamp"}, Text: "stamp", Label: "spam", ArtifactLikeness: 0.996}
+	ev := DescribeCue(&c, &auditpkg.Result{}, nil)
+	if want := "rule score 1.00 (by hand-set weights, not a probability; 0.50 or more reads like how the data was collected)"; ev.Artifact != want {
+		t.Errorf("artifact-likeness worded %q, want %q", ev.Artifact, want)
+	}
+	method := strings.Join(AuditMethod(&auditpkg.Result{}), " ")
+	if !strings.Contains(method, "each weight set by hand") || !strings.Contains(method, "not a probability") {
+		t.Errorf("the method does not say the artifact-likeness weights are set by hand: %s", method)
+	}
+}
