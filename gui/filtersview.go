@@ -327,6 +327,19 @@ func wordScores(ws []explain.WordScore) string {
 	return strings.Join(parts, ", ")
 }
 
+// filterRow is filter fp's row of the list (filterCols); au may be nil.
+func filterRow(fp *explain.FilterProfile, au *auditState) []string {
+	var top []string
+	for _, n := range fp.TopNgrams {
+		top = append(top, strings.Join(n.Tokens, " "))
+	}
+	sel := &fp.Selectivity
+	return []string{fmt.Sprint(fp.Filter), fmt.Sprint(fp.Width), fp.Label, fmt.Sprintf("%.3f", fp.MarginLogOdds),
+		au.cueRankOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thresholdText(sel.ThresholdLogOdds),
+		rateText(sel.Purity), rateText(sel.BaseRate), pText(sel.PHolm), yesNo(sel.Selective), fmt.Sprint(len(fp.Families)),
+		strings.Join(top, " / ")}
+}
+
 // refresh lists the profiled filters, ranked by vote margin (by the rank
 // of the cue they read once an audit ran), the first one selected.
 func (v *filtersView) refresh() {
@@ -340,16 +353,8 @@ func (v *filtersView) refresh() {
 	}
 	au := itemGet(v.st.audit)
 	rows := make([][]string, len(ps.P.Filters))
-	for i, fp := range ps.P.Filters {
-		var top []string
-		for _, n := range fp.TopNgrams {
-			top = append(top, strings.Join(n.Tokens, " "))
-		}
-		sel := &fp.Selectivity
-		rows[i] = []string{fmt.Sprint(fp.Filter), fmt.Sprint(fp.Width), fp.Label, fmt.Sprintf("%.3f", fp.MarginLogOdds),
-			au.cueRankOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thresholdText(sel.ThresholdLogOdds),
-			rateText(sel.Purity), rateText(sel.BaseRate), pText(sel.PHolm), yesNo(sel.Selective), fmt.Sprint(len(fp.Families)),
-			strings.Join(top, " / ")}
+	for i := range ps.P.Filters {
+		rows[i] = filterRow(&ps.P.Filters[i], au)
 	}
 	v.list.setRows(rows)
 	if au != nil {
