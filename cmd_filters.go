@@ -322,7 +322,8 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 	}
 	writeNegatives(ew, f, top)
 	if len(f.Families) > 0 {
-		ew.printf("  families (from a sample of %d of the %s above the threshold; share of those windows, stability):\n",
+		ew.printf("  families (from a sample of %d of the %s above the threshold; share of those windows with its 95%% interval\n"+
+			"  over resampling that sample, which is the share itself when every window was sampled; stability):\n",
 			f.FamilySample, plural(f.Selectivity.Above, "window", "windows"))
 	}
 	for _, fam := range f.Families {
@@ -330,7 +331,7 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 		if fam.Stability != nil {
 			stab = fmt.Sprintf("%.2f", *fam.Stability)
 		}
-		ew.printf("    %-36s %3.0f%% (%.0f–%.0f%%)  stability %s  (%s, about %s)\n",
+		ew.printf("    %-36s %5.1f%% (%.1f–%.1f%%)  stability %s  (%s, about %s)\n",
 			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, plural(fam.Ngrams, "n-gram", "n-grams"), texts(fam.Count))
 	}
 	for _, s := range f.Slots {
@@ -388,7 +389,7 @@ func slotString(tokens []string, slots []float64, marked []int) string {
 		if slices.Contains(marked, s) {
 			t = "[" + t + "]"
 		}
-		parts[s] = fmt.Sprintf("%s(%+.2f)", t, slots[s])
+		parts[s] = fmt.Sprintf("%s(%+.3f)", t, slots[s])
 	}
 	return strings.Join(parts, " ")
 }
@@ -399,7 +400,7 @@ func scoreList(ws []explain.WordScore, n int) string {
 	}
 	parts := make([]string, 0, min(n, len(ws)))
 	for _, x := range ws[:min(n, len(ws))] {
-		parts = append(parts, fmt.Sprintf("%s %+.2f", x.Word, x.ScoreLogOdds))
+		parts = append(parts, fmt.Sprintf("%s %+.3f", x.Word, x.ScoreLogOdds))
 	}
 	return strings.Join(parts, ", ")
 }
