@@ -105,7 +105,7 @@ type Profiles struct {
 	//
 	// Deprecated: see FilterProfile.Threshold.
 	Purity float64 `json:"-"`
-	// Halves counts the texts of the choosing and the held-out half (see
+	// Halves counts the texts of the choosing and the other half (see
 	// Selectivity).
 	Halves [2]int `json:"halves"`
 	// Selective and Alpha are the Share and level of every filter's

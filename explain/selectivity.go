@@ -23,8 +23,9 @@ import (
 // with the purity measured from the base rate up (Share 0.5 asks for half
 // the way from chance to pure), so that in balanced binary data a filter
 // whose fired texts are half its class does not get its lowest activation
-// as threshold. On the held-out half, which took no part in choosing it,
-// the windows at or above the threshold are counted and their purity
+// as threshold. On the other half, which took no part in choosing it
+// (though the model's filters were trained on both halves when the corpus
+// is the training split), the windows at or above the threshold are counted and their purity
 // tested against that half's base rate with the one-sided exact binomial
 // test; a filter is Selective when the test, corrected by Holm's method over
 // all filters with a threshold (Holm 1979, "A Simple Sequentially
@@ -46,7 +47,7 @@ type Selectivity struct {
 	// all texts; Families describe them.
 	Above int `json:"above"`
 
-	// Measured on the held-out half:
+	// Measured on the other half (see above):
 	BaseRate float64 `json:"base_rate"` // share of its texts assigned the class
 	Windows  int     `json:"windows"`   // winning windows ≥ Threshold
 	InClass  int     `json:"in_class"`  // of those, from texts assigned the class

@@ -117,7 +117,7 @@ func filterCardOf(f explain.FilterProfile, labels []string) filterCard {
 		Threshold: num(s.ThresholdLogOdds), Above: count(s.Above), HeldOut: heldOut(&s, f.Label),
 		Fired: count(f.Fired), MaxAct: num(f.MaxLogOdds), FamilyCount: len(f.Families),
 		FamilySample: count(f.FamilySample), FamilyTotal: count(s.Above)}
-	if !s.ThresholdExact && !math.IsInf(s.Threshold, 0) {
+	if !s.ThresholdExact && !math.IsInf(s.ThresholdLogOdds, 0) {
 		card.ThresholdNote = "at a histogram bin edge"
 	}
 	const shown, negShown = 5, 3
