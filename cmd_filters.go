@@ -26,23 +26,28 @@ var cmdFilters = &command{
 	Long: `Filters runs the model over the texts it was trained on and describes each
 filter. When --data is the data the model was trained on (by the split record
 in the model file), those are its training split, as in the report; otherwise
-all of --data, with a note. For each filter: the class it votes for and by how
-much; its selectivity threshold, the lowest activation above which its winning
+all of --data, with a note. Every activation and score is shown in log-odds
+units: times the filter's vote scale, the range of its output weights over the
+labels, so that it is the most it moves the log-odds between two labels (the
+raw activation is not shown: rescaling a filter changes it but no prediction).
+For each filter: the class it votes for and by how much at its highest window;
+its selectivity threshold, the lowest activation above which its winning
 windows come from texts the model assigns that class at least --selectivity of
 the way from the class's base rate to all of them (after Jacovi, Sar Shalom and
-Goldberg 2018), chosen on one half of the texts and tested on the other with a
-one-sided exact binomial test, Holm-corrected over the filters at --alpha
-(filters that fail are not selective); the n-grams that win its max pooling
-most strongly (with the score of every slot); its negative n-grams, windows
-whose positive slots would pass the threshold but whose negative slots hold
-them below it; the families its windows above the threshold fall into, with
-their share and stability; the words that switch each slot on (triggers) and
-off (suppressors); and its activation histogram (in --json). For a model that
-records no splits, --data is streamed, not held, and read twice when a filter's
-negative n-grams need a second search. A model with a character layer (train
---chars) reads the words outside its vocabulary from their characters, as eval
-does, so its texts are held. Filters are numbered from 0, as in every command;
---filters shows only those listed.`,
+Goldberg 2018), chosen on one half of the texts and tested on the other half,
+which took no part in choosing it (the filter itself was trained on both
+halves), with a one-sided exact binomial test, Holm-corrected over the filters
+at --alpha (filters that fail are not selective); the n-grams that win its max
+pooling most strongly (with the score of every slot); its negative n-grams,
+windows whose positive slots would pass the threshold but whose negative slots
+hold them below it; the families its windows above the threshold fall into,
+with their share and stability; the words that switch each slot on (triggers)
+and off (suppressors); and its activation histogram (in --json). For a model
+that records no splits, --data is streamed, not held, and read twice when a
+filter's negative n-grams need a second search. A model with a character layer
+(train --chars) reads the words outside its vocabulary from their characters,
+as eval does, so its texts are held. Filters are numbered from 0, as in every
+command; --filters shows only those listed.`,
 	Options: func() options { return new(filtersOptions) },
 	Run:     runAs(runFilters),
 }
@@ -282,8 +287,12 @@ func writeProfiles(w io.Writer, p *explain.Profiles, top int) error {
 		ew.printf(", %d masked", masked)
 	}
 	ew.printf(".\nA filter's threshold is chosen on %s: above it, its winning windows come from texts assigned its class %.2f of the way\n"+
-		"from the class's base rate to all of them. On the other %s that share is measured and tested against the base rate\n"+
-		"(one-sided exact binomial test, Holm-corrected over the filters, α = %g).\n", texts(p.Halves[0]), p.Selective, texts(p.Halves[1]), p.Alpha)
+		"from the class's base rate to all of them. On the other %s, which took no part in choosing the threshold (the filter itself\n"+
+		"was trained on both halves), that share is measured and tested against the base rate (one-sided exact binomial test,\n"+
+		"Holm-corrected over the filters, α = %g). Activations and slot scores are in log-odds units: times the filter's vote scale,\n"+
+		"the range of its output weights over the labels; a filter votes for its class by how far its highest window raises\n"+
+		"that class's logit over the next one's (centred votes: how far it moves each label's centred logit).\n",
+		texts(p.Halves[0]), p.Selective, texts(p.Halves[1]), p.Alpha)
 	for i := range p.Filters {
 		writeFilter(ew, p, &p.Filters[i], top)
 	}
@@ -298,22 +307,23 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 	case !f.Selectivity.Selective:
 		state = "  [not selective]"
 	}
-	votes := make([]string, len(f.CentredVotes))
-	for c, v := range f.CentredVotes {
+	votes := make([]string, len(f.CentredVotesLogOdds))
+	for c, v := range f.CentredVotesLogOdds {
 		votes[c] = fmt.Sprintf("%s %+.3f", p.Labels[c], v)
 	}
 	ew.printf("\nfilter %d  width %d  votes %s by %.3f (centred votes: %s)  fired in %d of %s, max %.3f%s\n",
-		f.Filter, f.Width, f.Label, f.Margin, strings.Join(votes, ", "), f.Fired, texts(p.Texts), f.MaxActivation, state)
+		f.Filter, f.Width, f.Label, f.MarginLogOdds, strings.Join(votes, ", "), f.Fired, texts(p.Texts), f.MaxLogOdds, state)
 	ew.printf("  %s\n", selectivityLine(&f.Selectivity, f.Label))
 	if len(f.TopNgrams) > 0 {
 		ew.printf("  top n-grams (activation, texts it wins in, slot scores):\n")
 	}
 	for _, n := range f.TopNgrams[:min(top, len(f.TopNgrams))] {
-		ew.printf("    %8.3f  ×%-5d %s\n", n.Activation, n.Count, slotString(n.Tokens, n.Slots, nil))
+		ew.printf("    %8.3f  ×%-5d %s\n", n.ActivationLogOdds, n.Count, slotString(n.Tokens, n.SlotsLogOdds, nil))
 	}
 	writeNegatives(ew, f, top)
 	if len(f.Families) > 0 {
-		ew.printf("  families (from a sample of %d of the %s above the threshold; share of those windows, stability):\n",
+		ew.printf("  families (from a sample of %d of the %s above the threshold; share of those windows with its 95%% interval\n"+
+			"  over resampling that sample, which is the share itself when every window was sampled; stability):\n",
 			f.FamilySample, plural(f.Selectivity.Above, "window", "windows"))
 	}
 	for _, fam := range f.Families {
@@ -321,7 +331,7 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 		if fam.Stability != nil {
 			stab = fmt.Sprintf("%.2f", *fam.Stability)
 		}
-		ew.printf("    %-36s %3.0f%% (%.0f–%.0f%%)  stability %s  (%s, about %s)\n",
+		ew.printf("    %-36s %5.1f%% (%.1f–%.1f%%)  stability %s  (%s, about %s)\n",
 			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, plural(fam.Ngrams, "n-gram", "n-grams"), texts(fam.Count))
 	}
 	for _, s := range f.Slots {
@@ -332,7 +342,7 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 // writeNegatives lists a filter's negative n-grams, the tokens at their
 // negative slots in brackets.
 func writeNegatives(ew *errWriter, f *explain.FilterProfile, top int) {
-	if math.IsInf(f.Selectivity.Threshold, 1) {
+	if math.IsInf(f.Selectivity.ThresholdLogOdds, 1) {
 		return
 	}
 	note := ""
@@ -345,7 +355,8 @@ func writeNegatives(ew *errWriter, f *explain.FilterProfile, top int) {
 	}
 	ew.printf("  negative n-grams, kept below the threshold by the [words] at their negative slots (held down by, score without them → with, windows%s):\n", note)
 	for _, n := range f.Negatives[:min(top, len(f.Negatives))] {
-		ew.printf("    %8.3f  %.3f → %.3f  ×%-5d %s\n", n.HeldDown, n.Positive, n.Activation, n.Count, slotString(n.Tokens, n.Slots, n.NegativeSlots))
+		ew.printf("    %8.3f  %.3f → %.3f  ×%-5d %s\n", n.HeldDownLogOdds, n.PositiveLogOdds, n.ActivationLogOdds, n.Count,
+			slotString(n.Tokens, n.SlotsLogOdds, n.NegativeSlots))
 	}
 }
 
@@ -356,10 +367,10 @@ func selectivityLine(s *explain.Selectivity, label string) string {
 	if s.Selective {
 		verdict = "selective"
 	}
-	if math.IsInf(s.Threshold, 0) {
+	if math.IsInf(s.ThresholdLogOdds, 0) {
 		return fmt.Sprintf("no threshold: no activation reaches purity %.2f for %s on the choosing half: not selective", s.Target, label)
 	}
-	thr := fmt.Sprintf("%.3f", s.Threshold)
+	thr := fmt.Sprintf("%.3f", s.ThresholdLogOdds)
 	if !s.ThresholdExact {
 		thr = "≈" + thr
 	}
@@ -378,7 +389,7 @@ func slotString(tokens []string, slots []float64, marked []int) string {
 		if slices.Contains(marked, s) {
 			t = "[" + t + "]"
 		}
-		parts[s] = fmt.Sprintf("%s(%+.2f)", t, slots[s])
+		parts[s] = fmt.Sprintf("%s(%+.3f)", t, slots[s])
 	}
 	return strings.Join(parts, " ")
 }
@@ -389,7 +400,7 @@ func scoreList(ws []explain.WordScore, n int) string {
 	}
 	parts := make([]string, 0, min(n, len(ws)))
 	for _, x := range ws[:min(n, len(ws))] {
-		parts = append(parts, fmt.Sprintf("%s %+.2f", x.Word, x.Score))
+		parts = append(parts, fmt.Sprintf("%s %+.3f", x.Word, x.ScoreLogOdds))
 	}
 	return strings.Join(parts, ", ")
 }

@@ -247,13 +247,13 @@ func TestFiltersTextAndReopen(t *testing.T) {
 		}
 		for _, n := range f.Negatives {
 			negatives++
-			if !strings.Contains(b, fmt.Sprintf("%8.3f  %.3f → %.3f  ×%-5d %s", n.HeldDown, n.Positive, n.Activation, n.Count,
-				slotString(n.Tokens, n.Slots, n.NegativeSlots))) {
+			if !strings.Contains(b, fmt.Sprintf("%8.3f  %.3f → %.3f  ×%-5d %s", n.HeldDownLogOdds, n.PositiveLogOdds, n.ActivationLogOdds, n.Count,
+				slotString(n.Tokens, n.SlotsLogOdds, n.NegativeSlots))) {
 				t.Errorf("filter %d: negative n-gram %q not written", f.Filter, n.Tokens)
 			}
 			for _, s := range n.NegativeSlots {
-				if !(n.Slots[s] < 0) || !strings.Contains(slotString(n.Tokens, n.Slots, n.NegativeSlots), "["+n.Tokens[s]+"]") {
-					t.Errorf("filter %d: negative slot %d of %q (score %g) not bracketed", f.Filter, s, n.Tokens, n.Slots[s])
+				if !(n.SlotsLogOdds[s] < 0) || !strings.Contains(slotString(n.Tokens, n.SlotsLogOdds, n.NegativeSlots), "["+n.Tokens[s]+"]") {
+					t.Errorf("filter %d: negative slot %d of %q (score %g) not bracketed", f.Filter, s, n.Tokens, n.SlotsLogOdds[s])
 				}
 			}
 		}

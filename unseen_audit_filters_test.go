@@ -169,7 +169,7 @@ func profileFigures(t *testing.T, m *cnn.Model, ids [][]int32, gold []int) []str
 func figuresOf(p *explain.Profiles) []string {
 	var out []string
 	for _, f := range p.Filters {
-		b, _ := json.Marshal([]any{f.Filter, f.Fired, f.MaxActivation, f.Selectivity.InClass, f.Selectivity.Windows, f.Selectivity.BaseRate, f.TopNgrams})
+		b, _ := json.Marshal([]any{f.Filter, f.Fired, f.MaxLogOdds, f.Selectivity.InClass, f.Selectivity.Windows, f.Selectivity.BaseRate, f.TopNgrams})
 		out = append(out, string(b))
 	}
 	return out

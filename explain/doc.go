@@ -54,6 +54,15 @@
 // every pair's weights too, and each found pair's part (its difference
 // from the unknown word's weights) is split evenly between its two tokens.
 //
+// ReLU and max pooling are positively homogeneous, so multiplying one
+// filter's convolution weights and bias by k > 0 and dividing its
+// output-weight column by k changes no prediction either, but multiplies
+// its activation, slot scores, thresholds and histogram by k. Such numbers
+// are given in log-odds units, times the filter's vote scale (VoteScale,
+// the range of its output-weight column, which the rescaling divides by
+// k), in the fields named …LogOdds; the raw ones are kept for computing
+// and left out of JSON. The property tests rescale filters too.
+//
 // # Why a text got its label
 //
 // Explain splits each identified quantity exactly (Shares): the output
@@ -81,8 +90,10 @@
 //
 //   - Selectivity: a purity threshold (Jacovi, Sar Shalom & Goldberg 2018)
 //     measured from the class's base rate up, chosen on one half of the
-//     corpus and tested on the other with a one-sided exact binomial test,
-//     Holm-corrected over the filters; filters that fail are not selective.
+//     corpus and tested on the other (which took no part in choosing it,
+//     though the filter was trained on it too) with a one-sided exact
+//     binomial test, Holm-corrected over the filters; filters that fail
+//     are not selective.
 //   - Negative n-grams (Jacovi et al. 2018): corpus windows whose positive
 //     slots would pass the threshold but whose negative slots hold them
 //     below it, ranked by how far they were held down. The threshold is

@@ -13,12 +13,17 @@ import (
 // Centred) up to float rounding, and the occlusion values are what
 // re-predicting the edited text gives.
 //
-// Every number in it is identified: Probabilities, LogOdds, Centred,
-// Integrated, the occlusion drops, KeptDown and, per fired filter, its
-// activation and slot scores. The logits themselves are not given: adding
-// the same number to every class's output bias, or to every class's output
-// weight on one filter, changes no probability but shifts every logit and
-// every share of one class's logit (see Shares).
+// Every number it shows (its JSON) is identified: Probabilities, LogOdds,
+// Centred, Integrated, the occlusion drops, KeptDown's log-odds fields,
+// Effect, LogOdds and Drop and, per fired filter, its activation, bias and
+// slot scores in log-odds units (FiredFilter). The logits themselves are
+// not given: adding the same number to every class's output bias, or to
+// every class's output weight on one filter, changes no probability but
+// shifts every logit and every share of one class's logit (see Shares).
+// Nor are a filter's raw activation, bias and slot scores: rescaling the
+// filter (its convolution weights and bias times k > 0, its output-weight
+// column divided by k) changes no prediction but multiplies them by k (see
+// VoteScale); they are kept for computing and left out of JSON.
 //
 // A model with the wide path (cnn.Config.Wide) has one more such change:
 // a vector added to every word's wide row but PAD's and subtracted from
@@ -94,12 +99,25 @@ type SpanOcclusion struct {
 
 // FiredFilter is a filter whose pooled unit is positive for the text.
 type FiredFilter struct {
-	Filter     int       `json:"filter"`
-	Width      int       `json:"width"`
-	Start      int       `json:"start"` // first token of the winning window
-	Activation float64   `json:"activation"`
-	BiasTerm   float64   `json:"bias"`
-	Slots      []float64 `json:"slots"` // slot scores: BiasTerm + Σ Slots = Activation
+	Filter int `json:"filter"`
+	Width  int `json:"width"`
+	Start  int `json:"start"` // first token of the winning window
+	// Activation, BiasTerm and Slots are the raw pooled value, filter bias
+	// and slot scores (BiasTerm + Σ Slots = Activation): not identified
+	// (see Explanation), never shown.
+	Activation float64   `json:"-"`
+	BiasTerm   float64   `json:"-"`
+	Slots      []float64 `json:"-"`
+	// ActivationLogOdds, BiasLogOdds and SlotsLogOdds are the same in
+	// log-odds units, times the filter's VoteScale r (BiasLogOdds + Σ
+	// SlotsLogOdds = ActivationLogOdds): the most the window moves the
+	// log-odds between two classes. With two classes ActivationLogOdds is
+	// the size of the filter's part of LogOdds; in general the filter's
+	// part of the log-odds of c against d is ActivationLogOdds·(OutW[c][g]
+	// − OutW[d][g])/r.
+	ActivationLogOdds float64   `json:"activation_log_odds"`
+	BiasLogOdds       float64   `json:"bias_log_odds"`
+	SlotsLogOdds      []float64 `json:"slots_log_odds"`
 	// Family is the index of the filter's family (in its Profile) whose
 	// centroid is nearest to Slots, or −1 without profiles or when the
 	// activation is below the filter's selectivity threshold. Its part of
@@ -382,6 +400,9 @@ func firedFilters(st *SlotTable, r *Runner, e *Explanation, prof *Profiles) {
 		for s := 0; s < w; s++ {
 			ff.Slots[s] = float64(r.rows[b][t0+s][s*F+f])
 		}
+		r := VoteScale(m, g)
+		ff.ActivationLogOdds, ff.BiasLogOdds = inLogOdds(ff.Activation, r), inLogOdds(ff.BiasTerm, r)
+		ff.SlotsLogOdds = allInLogOdds(ff.Slots, r)
 		if prof != nil {
 			ff.Family = prof.familyOf(g, ff.Slots, ff.Activation)
 		}

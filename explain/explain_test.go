@@ -3,6 +3,7 @@ package explain
 import (
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
 
 	"telltale/cnn"
@@ -45,7 +46,27 @@ func checkExact(t *testing.T, m *cnn.Model, ids []int32, e *Explanation) {
 		if !near(ff.Activation, float64(want.Pooled[ff.Filter]), 1e-5, 1e-5) {
 			t.Fatalf("filter %d: activation %g, forward %g", ff.Filter, ff.Activation, want.Pooled[ff.Filter])
 		}
+		// In log-odds units: times the range of the filter's output-weight
+		// column, from the model layout; bias + slots still add up.
+		r := columnRange(m, ff.Filter)
+		sum = ff.BiasLogOdds
+		for _, s := range ff.SlotsLogOdds {
+			sum += s
+		}
+		if !near(ff.ActivationLogOdds, r*float64(want.Pooled[ff.Filter]), 1e-5, 1e-5) || !near(sum, ff.ActivationLogOdds, 1e-5, 1e-5) {
+			t.Fatalf("filter %d: activation %g log-odds, bias + slots %g, forward %g × range %g", ff.Filter, ff.ActivationLogOdds, sum, want.Pooled[ff.Filter], r)
+		}
 	}
+}
+
+// columnRange is max_c OutW[c][g] − min_c OutW[c][g] from the layout.
+func columnRange(m *cnn.Model, g int) float64 {
+	nf := m.Config.NumFilters()
+	var ws []float64
+	for c := 0; c < m.Config.Classes; c++ {
+		ws = append(ws, float64(m.OutW[c*nf+g]))
+	}
+	return slices.Max(ws) - slices.Min(ws)
 }
 
 // checkOcclusion re-predicts every edited text with cnn.Model.Forward.

@@ -22,8 +22,11 @@ type Family struct {
 	Count   int          `json:"count"`
 	Pattern string       `json:"pattern"` // e.g. "good|great * service"; "*" marks a wildcard slot
 	Slots   []FamilySlot `json:"slots"`
-	// Centroid is the weighted mean slot-score vector.
-	Centroid []float64 `json:"centroid"`
+	// Centroid is the weighted mean slot-score vector, raw, never shown;
+	// CentroidLogOdds is it in log-odds units (times the filter's
+	// VoteScale).
+	Centroid        []float64 `json:"-"`
+	CentroidLogOdds []float64 `json:"centroid_log_odds"`
 	// Members holds the tokens of up to five members, largest weight first.
 	Members [][]string `json:"members"`
 
@@ -54,12 +57,15 @@ type Family struct {
 
 // FamilySlot describes one slot of a family. A slot is dominant when it is
 // among the fewest slots whose positive mean scores add up to at least
-// DominantShare of the positive total; the other slots are wildcards.
+// DominantShare of the positive total; the other slots are wildcards. Mean
+// is the slot's mean score, raw, never shown; MeanLogOdds is it in
+// log-odds units (times the filter's VoteScale).
 type FamilySlot struct {
-	Slot     int      `json:"slot"`
-	Wildcard bool     `json:"wildcard"`
-	Mean     float64  `json:"mean"`
-	Words    []string `json:"words,omitempty"` // most frequent words at a dominant slot
+	Slot        int      `json:"slot"`
+	Wildcard    bool     `json:"wildcard"`
+	Mean        float64  `json:"-"`
+	MeanLogOdds float64  `json:"mean_log_odds"`
+	Words       []string `json:"words,omitempty"` // most frequent words at a dominant slot
 }
 
 // DominantShare is the share of a family's positive slot mass its dominant

@@ -70,7 +70,44 @@ func finishProfile(st *SlotTable, g, class int, accs []*filterAccs, counts []int
 		pr.FamilySample = len(ws)
 		pr.Families = buildFamilies(st, g, &sample, float32(theta), opt.FamilyCut, opt.Seed)
 	}
+	pr.setLogOdds(VoteScale(m, g))
 	return pr
+}
+
+// setLogOdds fills the shown, identified figures of pr (the fields named
+// …LogOdds) from the raw ones, r being the filter's VoteScale.
+func (pr *FilterProfile) setLogOdds(r float64) {
+	pr.CentredVotesLogOdds = make([]float64, len(pr.CentredVotes))
+	for c, v := range pr.CentredVotes {
+		pr.CentredVotesLogOdds[c] = v * pr.MaxActivation
+	}
+	pr.MarginLogOdds = pr.Margin * pr.MaxActivation
+	pr.MaxLogOdds = inLogOdds(pr.MaxActivation, r)
+	pr.Selectivity.ThresholdLogOdds = inLogOdds(pr.Selectivity.Threshold, r)
+	pr.Hist.EdgesLogOdds = allInLogOdds(pr.Hist.Edges, r)
+	for i := range pr.TopNgrams {
+		n := &pr.TopNgrams[i]
+		n.SlotsLogOdds, n.ActivationLogOdds = allInLogOdds(n.Slots, r), inLogOdds(n.Activation, r)
+	}
+	for i := range pr.Negatives {
+		n := &pr.Negatives[i]
+		n.SlotsLogOdds, n.ActivationLogOdds = allInLogOdds(n.Slots, r), inLogOdds(n.Activation, r)
+		n.PositiveLogOdds, n.HeldDownLogOdds = inLogOdds(n.Positive, r), inLogOdds(n.HeldDown, r)
+	}
+	for i := range pr.Slots {
+		for _, ws := range [][]WordScore{pr.Slots[i].Triggers, pr.Slots[i].Suppressors} {
+			for j := range ws {
+				ws[j].ScoreLogOdds = inLogOdds(ws[j].Score, r)
+			}
+		}
+	}
+	for i := range pr.Families {
+		f := &pr.Families[i]
+		f.CentroidLogOdds = allInLogOdds(f.Centroid, r)
+		for j := range f.Slots {
+			f.Slots[j].MeanLogOdds = inLogOdds(f.Slots[j].Mean, r)
+		}
+	}
 }
 
 // filterVotes returns filter g's output-weight column minus its mean, and

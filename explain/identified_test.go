@@ -28,6 +28,44 @@ func shifted(m *cnn.Model, g int, k, kb float32) *cnn.Model {
 	return s
 }
 
+// rescaled returns a copy of m with each filter g of ks multiplied by
+// ks[g] > 0: its convolution weights and bias times ks[g], its
+// output-weight column divided by it. ReLU and max pooling are positively
+// homogeneous (relu(k·a) = k·relu(a), max_t k·a_t = k·max_t a_t), so the
+// pooled unit is ks[g] times the original and its product with the column
+// is unchanged: no prediction moves (up to float32 rounding), and nothing
+// in the data pins the filter's scale down.
+func rescaled(m *cnn.Model, ks map[int]float32) *cnn.Model {
+	s := m.Clone()
+	nf := m.Config.NumFilters()
+	for g, k := range ks {
+		b, f := m.FilterConv(g)
+		cv := &s.Convs[b]
+		per := len(cv.W) / m.Config.Filters
+		for i := f * per; i < (f+1)*per; i++ {
+			cv.W[i] *= k
+		}
+		cv.B[f] *= k
+		for c := 0; c < m.Config.Classes; c++ {
+			s.OutW[c*nf+g] /= k
+		}
+	}
+	return s
+}
+
+// randomScales draws a positive scale for up to three filters of m, far
+// from 1 in both directions (from 1/300 to 300).
+func randomScales(rng *rand.Rand, m *cnn.Model) (map[int]float32, string) {
+	ks := map[int]float32{}
+	nf := m.Config.NumFilters()
+	for range min(3, nf) {
+		e := rng.NormFloat64() * 2.5
+		e = math.Copysign(math.Max(math.Abs(e), 1), e) // |ln k| ≥ 1
+		ks[rng.IntN(nf)] = float32(math.Exp(math.Max(-5.7, math.Min(5.7, e))))
+	}
+	return ks, fmt.Sprintf("filters rescaled by %v", ks)
+}
+
 // shownNumbers lists every number of an explanation that is meant to be
 // shown (the identified ones; see Explanation), with a name for messages.
 func shownNumbers(e *Explanation) (names []string, vals []float64) {
@@ -57,8 +95,8 @@ func shownNumbers(e *Explanation) (names []string, vals []float64) {
 		add("window", float64(w.Start), float64(w.End), w.Drop, w.DropLog)
 	}
 	for _, f := range e.Filters {
-		add("filter", float64(f.Filter), float64(f.Start), f.Activation, f.BiasTerm, float64(f.Family))
-		add("filter.slots", f.Slots...)
+		add("filter", float64(f.Filter), float64(f.Start), f.ActivationLogOdds, f.BiasLogOdds, float64(f.Family))
+		add("filter.slots", f.SlotsLogOdds...)
 	}
 	if ig := e.Integrated; ig != nil {
 		for j, s := range append([]IGShares{ig.LogOdds}, ig.Centred...) {
@@ -68,8 +106,9 @@ func shownNumbers(e *Explanation) (names []string, vals []float64) {
 		}
 	}
 	for _, kd := range e.KeptDown {
-		add("kept_down", float64(kd.Filter), float64(kd.Start), kd.Activation, kd.Positive, kd.Winner,
-			kd.Effect, kd.Pooled, kd.LogOdds, kd.Drop)
+		add("kept_down", float64(kd.Filter), float64(kd.Start), kd.ActivationLogOdds, kd.PositiveLogOdds, kd.WinnerLogOdds,
+			kd.Effect, kd.PooledLogOdds, kd.LogOdds, kd.Drop)
+		add("kept_down.slots", kd.SlotsLogOdds...)
 		add("kept_down.by", intsToFloats(kd.By)...)
 	}
 	return names, vals
@@ -93,7 +132,11 @@ func checkInvariant(t *testing.T, m *cnn.Model, ids []int32, opt ExplainOptions,
 	g := rng.IntN(m.Config.NumFilters())
 	k, kb := float32(rng.NormFloat64()*3), float32(rng.NormFloat64()*3)
 	what := fmt.Sprintf("filter %d +%g, biases +%g", g, k, kb)
-	return sameShown(t, m, shifted(m, g, k, kb), ids, opt, what, 2e-5*(1+math.Abs(float64(k))))
+	if !sameShown(t, m, shifted(m, g, k, kb), ids, opt, what, 2e-5*(1+math.Abs(float64(k)))) {
+		return false
+	}
+	ks, what := randomScales(rng, m)
+	return sameShown(t, m, rescaled(m, ks), ids, opt, what, 2e-5)
 }
 
 // sameShown explains ids with m and with s, a copy that predicts the same,
@@ -124,7 +167,7 @@ func sameShown(t *testing.T, m, s *cnn.Model, ids []int32, opt ExplainOptions, w
 	}
 	for i := range v1 {
 		if !testref.Close(v1[i], v2[i], tol, 2e-5) {
-			t.Fatalf("text %v, %s: %s = %.9g, shifted %.9g", ids, what, n1[i], v1[i], v2[i])
+			t.Fatalf("text %v, %s: %s = %.9g, changed model %.9g", ids, what, n1[i], v1[i], v2[i])
 		}
 	}
 	return true
@@ -223,8 +266,8 @@ func foundPairs(m *cnn.Model, ids []int32) []int {
 }
 
 // Every shown number is invariant when a constant is added to one filter's
-// output-weight column and another to every class's output bias, on many
-// random models and texts.
+// output-weight column and another to every class's output bias, and when
+// filters are rescaled (rescaled), on many random models and texts.
 func TestShownNumbersInvariant(t *testing.T) {
 	rng := rand.New(rand.NewPCG(30, 30))
 	checked := 0
@@ -648,26 +691,35 @@ func checkKeptDown(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, k in
 
 // Every number of the filter profiles (all that JSON holds) is invariant
 // when a constant is added to one filter's output-weight column and to all
-// classes' biases, on random models and corpora.
+// classes' biases, and when filters are rescaled (rescaled), on random
+// models and corpora.
 func TestProfileShownNumbersInvariant(t *testing.T) {
 	rng := rand.New(rand.NewPCG(34, 34))
 	for trial := 0; trial < 12; trial++ {
 		m, _ := tableCase(rng, trial)
 		ids, gold := randomCorpus(rng, m, 200, 14)
 		g := rng.IntN(m.Config.NumFilters())
-		s := shifted(m, g, float32(rng.NormFloat64()*3), float32(rng.NormFloat64()*3))
-		var docs [2][]byte
-		for i, mm := range []*cnn.Model{m, s} {
-			prof, err := Profile(context.Background(), mm, ids, gold, ProfileOptions{Workers: 2})
-			if err != nil {
-				t.Fatal(err)
+		ks, what := randomScales(rng, m)
+		for _, c := range []struct {
+			s    *cnn.Model
+			what string
+		}{
+			{shifted(m, g, float32(rng.NormFloat64()*3), float32(rng.NormFloat64()*3)), fmt.Sprintf("a shift of filter %d's output weights", g)},
+			{rescaled(m, ks), what},
+		} {
+			var docs [2][]byte
+			for i, mm := range []*cnn.Model{m, c.s} {
+				prof, err := Profile(context.Background(), mm, ids, gold, ProfileOptions{Workers: 2})
+				if err != nil {
+					t.Fatal(err)
+				}
+				if docs[i], err = json.Marshal(prof); err != nil {
+					t.Fatal(err)
+				}
 			}
-			if docs[i], err = json.Marshal(prof); err != nil {
-				t.Fatal(err)
+			if path, ok := jsonClose(docs[0], docs[1], 1e-5, 1e-5); !ok {
+				t.Fatalf("trial %d: a shown number of the profiles changes under %s, at %s", trial, c.what, path)
 			}
-		}
-		if path, ok := jsonClose(docs[0], docs[1], 1e-5, 1e-5); !ok {
-			t.Fatalf("trial %d: a shown number of the profiles changes under a shift of filter %d's output weights, at %s", trial, g, path)
 		}
 	}
 }

@@ -19,19 +19,24 @@ import (
 // sets their slot scores to zero, so the window then scores Positive and
 // the filter's pooled value becomes at least Positive: Pooled, LogOdds and
 // Drop measure that edit by re-running the model, the check of Effect.
+//
+// Slots, Activation, Positive, Winner and Pooled are on the scale of the
+// filter's activation, which is not identified (see Explanation): they are
+// never shown; the fields named …LogOdds are them times the filter's
+// VoteScale, in log-odds units, and are identified.
 type KeptDownWindow struct {
 	Filter int       `json:"filter"`
 	Width  int       `json:"width"`
 	Start  int       `json:"start"` // first token of the window
-	Slots  []float64 `json:"slots"` // slot scores; bias + Σ Slots = Activation
+	Slots  []float64 `json:"-"`     // slot scores; bias + Σ Slots = Activation
 	// Activation is the window's pre-activation, bias + Σ Slots.
-	Activation float64 `json:"activation"`
+	Activation float64 `json:"-"`
 	// Positive is bias + Σ of the positive slot scores: the window's
 	// pre-activation without its negative slots.
-	Positive float64 `json:"positive"`
+	Positive float64 `json:"-"`
 	// Winner is the filter's pooled value on the text (0 when it did not
 	// fire).
-	Winner float64 `json:"winner"`
+	Winner float64 `json:"-"`
 	// By lists the positions of the tokens at the negative slots, the
 	// tokens that kept the window down.
 	By []int `json:"by"`
@@ -45,9 +50,23 @@ type KeptDownWindow struct {
 	// Pooled is the filter's pooled value, LogOdds the log-odds of ŷ
 	// against r and Drop = p(ŷ|x) − p(ŷ|x edited), measured on the text
 	// with the By tokens replaced by PAD.
-	Pooled  float64 `json:"pooled"`
+	Pooled  float64 `json:"-"`
 	LogOdds float64 `json:"log_odds"`
 	Drop    float64 `json:"drop"`
+
+	SlotsLogOdds      []float64 `json:"slots_log_odds"`
+	ActivationLogOdds float64   `json:"activation_log_odds"`
+	PositiveLogOdds   float64   `json:"positive_log_odds"`
+	WinnerLogOdds     float64   `json:"winner_log_odds"`
+	PooledLogOdds     float64   `json:"pooled_log_odds"`
+}
+
+// setLogOdds fills the log-odds fields of kd from the raw ones, r being the
+// filter's VoteScale.
+func (kd *KeptDownWindow) setLogOdds(r float64) {
+	kd.SlotsLogOdds = allInLogOdds(kd.Slots, r)
+	kd.ActivationLogOdds, kd.PositiveLogOdds = inLogOdds(kd.Activation, r), inLogOdds(kd.Positive, r)
+	kd.WinnerLogOdds, kd.PooledLogOdds = inLogOdds(kd.Winner, r), inLogOdds(kd.Pooled, r)
 }
 
 // keptDown finds, for every unmasked filter, the window with the largest
@@ -82,6 +101,7 @@ func keptDown(r *Runner, e *Explanation, o *occluder, top *keptTop, k int) []Kep
 		out[i] = keptDownWindow(r, cands[i].g, cands[i].at, true)
 		out[i].Effect = cands[i].effect
 		measureKeptDown(o, lo, &out[i])
+		out[i].setLogOdds(VoteScale(m, out[i].Filter))
 	}
 	return out
 }

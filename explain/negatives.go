@@ -13,19 +13,28 @@ import (
 // Goldberg (2018, "Understanding Convolutional Neural Networks for Text
 // Classification", BlackboxNLP, §5) show that filters are defined by such
 // n-grams too: a negation in one slot keeping a praise filter quiet.
+//
+// Slots, Activation, Positive and HeldDown are raw, never shown; the
+// fields named …LogOdds are them in log-odds units (times the filter's
+// VoteScale).
 type NegativeNgram struct {
 	IDs    []int32   `json:"ids"`
 	Tokens []string  `json:"tokens"`
-	Slots  []float64 `json:"slots"` // slot scores; bias + Σ Slots = Activation
+	Slots  []float64 `json:"-"` // slot scores; bias + Σ Slots = Activation
 	// Activation is the window's pre-activation, below the threshold.
-	Activation float64 `json:"activation"`
+	Activation float64 `json:"-"`
 	// Positive is bias + Σ of the positive slot scores, at or above the
 	// threshold.
-	Positive float64 `json:"positive"`
+	Positive float64 `json:"-"`
 	// HeldDown = Positive − Activation, minus the sum of the negative slot
-	// scores: how far the negative slots held the window down (the
-	// ranking).
-	HeldDown float64 `json:"held_down"`
+	// scores (summed in float64, see heldDown): how far the negative slots
+	// held the window down (the ranking).
+	HeldDown float64 `json:"-"`
+
+	SlotsLogOdds      []float64 `json:"slots_log_odds"`
+	ActivationLogOdds float64   `json:"activation_log_odds"`
+	PositiveLogOdds   float64   `json:"positive_log_odds"`
+	HeldDownLogOdds   float64   `json:"held_down_log_odds"`
 	// NegativeSlots lists the slots with negative scores and Words their
 	// words.
 	NegativeSlots []int    `json:"negative_slots"`
@@ -444,11 +453,13 @@ func negativeNgrams(st *SlotTable, g int, skies []*skyline, theta float32, k, ke
 		}
 	}
 	all := make([]*skyEntry, 0, len(merged))
+	held := make(map[*skyEntry]float64, len(merged))
 	for _, e := range merged {
 		all = append(all, e)
+		held[e] = heldDown(st, g, e.key)
 	}
 	slices.SortFunc(all, func(x, y *skyEntry) int {
-		if c := cmp.Compare(y.p-y.a, x.p-x.a); c != 0 {
+		if c := cmp.Compare(held[y], held[x]); c != 0 {
 			return c
 		}
 		return strings.Compare(x.key, y.key)
@@ -460,11 +471,32 @@ func negativeNgrams(st *SlotTable, g int, skies []*skyline, theta float32, k, ke
 	return out
 }
 
+// heldDown is −Σ of the negative slot scores of filter g's window key,
+// summed in float64 in slot order: windows that share their negative
+// slots and words tie exactly, whatever their other slots (the float32
+// difference of the kernels' sums P − a would split such ties by
+// rounding, differently when the filter is rescaled).
+func heldDown(st *SlotTable, g int, key string) float64 {
+	var d float64
+	for s := 0; s < len(key)/4; s++ {
+		if v := float64(st.SlotScore(g, s, keyID(key, s))); v < 0 {
+			d -= v
+		}
+	}
+	return d
+}
+
+// keyID is the id at slot s of a window key.
+func keyID(key string, s int) int32 {
+	k := key[4*s:]
+	return int32(uint32(k[0]) | uint32(k[1])<<8 | uint32(k[2])<<16 | uint32(k[3])<<24)
+}
+
 func makeNegative(st *SlotTable, g int, e *skyEntry) NegativeNgram {
 	m := st.m
 	w := len(e.key) / 4
 	n := NegativeNgram{IDs: make([]int32, w), Tokens: make([]string, w), Slots: make([]float64, w),
-		Activation: float64(e.a), Positive: float64(e.p), HeldDown: float64(e.p) - float64(e.a),
+		Activation: float64(e.a), Positive: float64(e.p), HeldDown: heldDown(st, g, e.key),
 		Count: e.count, Examples: e.examples}
 	for s := 0; s < w; s++ {
 		k := e.key[4*s:]

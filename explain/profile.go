@@ -105,7 +105,7 @@ type Profiles struct {
 	//
 	// Deprecated: see FilterProfile.Threshold.
 	Purity float64 `json:"-"`
-	// Halves counts the texts of the choosing and the held-out half (see
+	// Halves counts the texts of the choosing and the other half (see
 	// Selectivity).
 	Halves [2]int `json:"halves"`
 	// Selective and Alpha are the Share and level of every filter's
@@ -127,13 +127,30 @@ type FilterProfile struct {
 	Class  int    `json:"class"` // the class the filter votes for: argmax_c OutW[c][g]
 	Label  string `json:"label"`
 	// CentredVotes[c] = OutW[c][g] − the column's mean: how much a unit of
-	// the filter's activation moves class c's centred logit.
-	CentredVotes []float64 `json:"centred_votes"`
-	// Margin is the filter's vote for Class minus the next largest vote.
-	Margin float64 `json:"margin"`
+	// the filter's activation moves class c's centred logit. Margin is the
+	// filter's vote for Class minus the next largest vote. MaxActivation
+	// is the largest winning-window activation. None is identified (a
+	// rescaling of the filter by k > 0 divides the first two by k and
+	// multiplies the last by k; see VoteScale): they are never shown.
+	CentredVotes  []float64 `json:"-"`
+	Margin        float64   `json:"-"`
+	MaxActivation float64   `json:"-"`
 
-	Fired         int     `json:"fired"` // texts whose winning window has a positive activation
-	MaxActivation float64 `json:"max_activation"`
+	// The shown figures of the filter's scale, in log-odds units, are
+	// identified. CentredVotesLogOdds[c] = CentredVotes[c]·MaxActivation
+	// is how much the filter's highest winning window moves class c's
+	// centred logit; MarginLogOdds = Margin·MaxActivation, the vote margin
+	// shown, is how far that window raises Class's logit above the next
+	// largest class's (both 0 when the filter never fired); MaxLogOdds =
+	// MaxActivation·VoteScale is the highest winning window in log-odds
+	// units, as every other activation-scale number of the profile is
+	// (fields named …LogOdds), the most it moves the log-odds between two
+	// classes. With two classes MarginLogOdds = MaxLogOdds.
+	CentredVotesLogOdds []float64 `json:"centred_votes_log_odds"`
+	MarginLogOdds       float64   `json:"margin_log_odds"`
+	MaxLogOdds          float64   `json:"max_log_odds"`
+
+	Fired int `json:"fired"` // texts whose winning window has a positive activation
 
 	// Threshold, ThresholdExact, Above, AbovePurity and Idle are the purity
 	// threshold of Jacovi, Sar Shalom & Goldberg (2018, "Understanding
@@ -177,31 +194,40 @@ type FilterProfile struct {
 
 // Histogram counts winning-window activations of fired texts in fixed bins
 // [Edges[j], Edges[j+1]); the last bin also holds everything above.
+// Edges are raw activations, never shown; EdgesLogOdds are them in
+// log-odds units (times the filter's VoteScale).
 type Histogram struct {
-	Edges    []float64 `json:"edges"`
-	Counts   []int     `json:"counts"`
-	InClass  []int     `json:"in_class"`  // of Counts, texts assigned the filter's class
-	NotFired int       `json:"not_fired"` // texts whose winning activation is ≤ 0
+	Edges        []float64 `json:"-"`
+	EdgesLogOdds []float64 `json:"edges_log_odds"`
+	Counts       []int     `json:"counts"`
+	InClass      []int     `json:"in_class"`  // of Counts, texts assigned the filter's class
+	NotFired     int       `json:"not_fired"` // texts whose winning activation is ≤ 0
 }
 
-// Ngram is a distinct winning window.
+// Ngram is a distinct winning window. Slots and Activation are raw, never
+// shown; SlotsLogOdds and ActivationLogOdds are them in log-odds units
+// (times the filter's VoteScale).
 type Ngram struct {
-	IDs        []int32   `json:"ids"`
-	Tokens     []string  `json:"tokens"`
-	Slots      []float64 `json:"slots"` // slot scores; bias + Σ Slots = Activation
-	Activation float64   `json:"activation"`
-	Count      int       `json:"count"`    // texts in which it wins
-	Examples   []int     `json:"examples"` // smallest indices of those texts
-	ByPred     []int     `json:"by_pred"`  // those texts per predicted class
-	ByGold     []int     `json:"by_gold,omitempty"`
+	IDs               []int32   `json:"ids"`
+	Tokens            []string  `json:"tokens"`
+	Slots             []float64 `json:"-"` // slot scores; bias + Σ Slots = Activation
+	Activation        float64   `json:"-"`
+	SlotsLogOdds      []float64 `json:"slots_log_odds"`
+	ActivationLogOdds float64   `json:"activation_log_odds"`
+	Count             int       `json:"count"`    // texts in which it wins
+	Examples          []int     `json:"examples"` // smallest indices of those texts
+	ByPred            []int     `json:"by_pred"`  // those texts per predicted class
+	ByGold            []int     `json:"by_gold,omitempty"`
 }
 
-// WordScore is a word's slot score.
+// WordScore is a word's slot score: raw (Score, never shown) and in
+// log-odds units (ScoreLogOdds, times the filter's VoteScale).
 type WordScore struct {
-	Word  string  `json:"word"`
-	ID    int32   `json:"id"`
-	Score float64 `json:"score"`
-	Count int     `json:"count"`
+	Word         string  `json:"word"`
+	ID           int32   `json:"id"`
+	Score        float64 `json:"-"`
+	ScoreLogOdds float64 `json:"score_log_odds"`
+	Count        int     `json:"count"`
 }
 
 // SlotWords lists, for one slot of a filter, the words with the largest

@@ -161,6 +161,12 @@ func TestProfileBruteForce(t *testing.T) {
 				if !near(sum, n.Activation, 1e-5, 1e-5) {
 					t.Fatalf("filter %d: bias + slots %g, activation %g", g, sum, n.Activation)
 				}
+				// Shown in log-odds units: times the column's range.
+				r := columnRange(m, g)
+				if !near(n.ActivationLogOdds, r*actOf[keys[i]], 1e-5, 1e-5) || len(n.SlotsLogOdds) != len(n.Slots) ||
+					!near(n.SlotsLogOdds[0], r*n.Slots[0], 1e-5, 1e-5) || !near(pr.MaxLogOdds, r*pr.MaxActivation, 1e-5, 1e-5) {
+					t.Fatalf("filter %d rank %d: log-odds activation %g, brute force %g × range %g; slots %v, %v", g, i, n.ActivationLogOdds, actOf[keys[i]], r, n.SlotsLogOdds, n.Slots)
+				}
 				for _, ex := range n.Examples {
 					if bw[g][ex].key != k {
 						t.Fatalf("filter %d n-gram %v: example text %d wins with %q", g, n.Tokens, ex, bw[g][ex].key)

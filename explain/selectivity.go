@@ -23,8 +23,9 @@ import (
 // with the purity measured from the base rate up (Share 0.5 asks for half
 // the way from chance to pure), so that in balanced binary data a filter
 // whose fired texts are half its class does not get its lowest activation
-// as threshold. On the held-out half, which took no part in choosing it,
-// the windows at or above the threshold are counted and their purity
+// as threshold. On the other half, which took no part in choosing it
+// (though the model's filters were trained on both halves when the corpus
+// is the training split), the windows at or above the threshold are counted and their purity
 // tested against that half's base rate with the one-sided exact binomial
 // test; a filter is Selective when the test, corrected by Holm's method over
 // all filters with a threshold (Holm 1979, "A Simple Sequentially
@@ -34,16 +35,19 @@ import (
 type Selectivity struct {
 	Share  float64 `json:"share"`
 	Target float64 `json:"target"` // the purity required on the choosing half
-	// Threshold is +Inf (JSON null) when no activation reaches Target.
+	// Threshold is +Inf when no activation reaches Target. It is a raw
+	// activation, never shown; ThresholdLogOdds is it in log-odds units
+	// (times the filter's VoteScale; JSON null without a threshold).
 	// ThresholdExact is false when it was taken at a bin edge of the
 	// activation histogram (beyond the exactly kept largest activations).
-	Threshold      float64 `json:"threshold"`
-	ThresholdExact bool    `json:"threshold_exact"`
+	Threshold        float64 `json:"-"`
+	ThresholdLogOdds float64 `json:"threshold_log_odds"`
+	ThresholdExact   bool    `json:"threshold_exact"`
 	// Above is the number of winning windows at or above Threshold over
 	// all texts; Families describe them.
 	Above int `json:"above"`
 
-	// Measured on the held-out half:
+	// Measured on the other half (see above):
 	BaseRate float64 `json:"base_rate"` // share of its texts assigned the class
 	Windows  int     `json:"windows"`   // winning windows ≥ Threshold
 	InClass  int     `json:"in_class"`  // of those, from texts assigned the class
@@ -61,13 +65,13 @@ type Selectivity struct {
 	Selective bool    `json:"selective"`
 }
 
-// MarshalJSON writes an infinite threshold and NaN figures (no held-out
+// MarshalJSON writes an infinite threshold_log_odds and NaN figures (no held-out
 // texts or windows, no test) as null.
 func (s Selectivity) MarshalJSON() ([]byte, error) {
 	type plain Selectivity
 	q := struct {
 		plain
-		Threshold  *float64 `json:"threshold"`
+		Threshold  *float64 `json:"threshold_log_odds"`
 		BaseRate   *float64 `json:"base_rate"`
 		Purity     *float64 `json:"purity"`
 		PurityLow  *float64 `json:"purity_low"`
@@ -75,7 +79,7 @@ func (s Selectivity) MarshalJSON() ([]byte, error) {
 		P          *float64 `json:"p"`
 		PHolm      *float64 `json:"p_holm"`
 	}{plain: plain(s)}
-	q.Threshold, q.BaseRate = finite(s.Threshold), finite(s.BaseRate)
+	q.Threshold, q.BaseRate = finite(s.ThresholdLogOdds), finite(s.BaseRate)
 	q.Purity, q.PurityLow, q.PurityHigh = finite(s.Purity), finite(s.PurityLow), finite(s.PurityHigh)
 	q.P, q.PHolm = finite(s.P), finite(s.PHolm)
 	return jsonMarshal(q)

@@ -17,7 +17,7 @@ import (
 // filtersView is the list of the model's filters and the selected filter's
 // profile: its selectivity, top and negative n-grams painted by slot
 // score, families, trigger and suppressor words, and the activation
-// histogram.
+// histogram, every score in log-odds units (explain.VoteScale).
 type filtersView struct {
 	st *State
 
@@ -36,8 +36,8 @@ type filtersView struct {
 
 // Columns of the filter list; the last cell of each row (its top n-grams)
 // is searched but not shown.
-var filterCols = []string{"filter", "width", "votes for", "vote margin", "cue rank", "cue it reads",
-	"fired in", "threshold", "held-out purity", "base rate", "Holm p", "selective", "families"}
+var filterCols = []string{"filter", "width", "votes for", "vote margin (log-odds)", "cue rank", "cue it reads",
+	"fired in", "threshold (log-odds)", "other-half purity", "base rate", "Holm p", "selective", "families"}
 
 const (
 	colFilterMargin  = 3
@@ -160,26 +160,29 @@ func filterTitle(fp *explain.FilterProfile, texts int) string {
 	case fp.Masked:
 		state = " It is masked (switched off) in this model."
 	case !sel.Selective:
-		state = " It is not selective: its strong windows do not tell its class apart better than chance on the held-out half."
+		state = " It is not selective: its strong windows do not tell its class apart better than chance on the other half."
 	}
-	return fmt.Sprintf("Filter %d (width %d) votes for %s with a margin of %.3f. It fired in %d of %d training texts; highest activation %.3f. %s%s",
-		fp.Filter, fp.Width, fp.Label, fp.Margin, fp.Fired, texts, fp.MaxActivation, selectivityText(sel, fp.Label), state)
+	return fmt.Sprintf("Filter %d (width %d) votes for %s: its highest window moves the log-odds of %s over the next label by %.3f. "+
+		"It fired in %d of %d training texts; highest activation %.3f log-odds. %s%s",
+		fp.Filter, fp.Width, fp.Label, fp.Label, fp.MarginLogOdds, fp.Fired, texts, fp.MaxLogOdds, selectivityText(sel, fp.Label), state)
 }
 
 // selectivityText says where the filter's selectivity threshold lies and
-// what the held-out half measured there.
+// what the other half of the training texts, which took no part in
+// choosing it, measured there.
 func selectivityText(s *explain.Selectivity, label string) string {
-	if math.IsInf(s.Threshold, 0) {
+	if math.IsInf(s.ThresholdLogOdds, 0) {
 		return fmt.Sprintf("No activation reaches purity %.2f for %s on the choosing half: no selectivity threshold.", s.Target, label)
 	}
-	thr := thresholdText(s.Threshold)
+	thr := thresholdText(s.ThresholdLogOdds) + " log-odds"
 	if !s.ThresholdExact {
 		thr += " (at a histogram bin edge)"
 	}
 	if s.Windows == 0 {
-		return fmt.Sprintf("Selectivity threshold %s, %d windows at or above it; none of them in the held-out half.", thr, s.Above)
+		return fmt.Sprintf("Selectivity threshold %s, %d windows at or above it; none of them in the other half.", thr, s.Above)
 	}
-	return fmt.Sprintf("Selectivity threshold %s, %d windows at or above it. Held out: %d of %d from texts assigned %s, purity %.3f (95%% interval %.3f–%.3f) "+
+	return fmt.Sprintf("Selectivity threshold %s, %d windows at or above it. On the other half of the training texts, which took no part in choosing "+
+		"the threshold (the filter itself was trained on both halves): %d of %d from texts assigned %s, purity %.3f (95%% interval %.3f–%.3f) "+
 		"against a base rate of %.3f; one-sided binomial p = %.2g, Holm-corrected %.2g.",
 		thr, s.Above, s.InClass, s.Windows, label, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm)
 }
@@ -189,7 +192,7 @@ func (v *filtersView) paintNgrams(fp *explain.FilterProfile) {
 	v.ngrams.Objects = nil
 	scale := 0.0
 	for _, n := range fp.TopNgrams {
-		for _, s := range n.Slots {
+		for _, s := range n.SlotsLogOdds {
 			scale = math.Max(scale, math.Abs(s))
 		}
 	}
@@ -197,17 +200,17 @@ func (v *filtersView) paintNgrams(fp *explain.FilterProfile) {
 		row := container.New(layout.NewRowWrapLayoutWithCustomPadding(2, 2))
 		for s, t := range n.Tokens {
 			val := 0.0
-			if s < len(n.Slots) {
-				val = n.Slots[s]
+			if s < len(n.SlotsLogOdds) {
+				val = n.SlotsLogOdds[s]
 			}
 			chip := newHeatCell(t, divergingColor(val, scale), nil)
 			chip.value, chip.compact = val, true
 			row.Add(chip)
 		}
-		row.Add(widget.NewLabel(fmt.Sprintf("activation %.3f · wins in %s", n.Activation, texts(n.Count))))
+		row.Add(widget.NewLabel(fmt.Sprintf("activation %.3f log-odds · wins in %s", n.ActivationLogOdds, texts(n.Count))))
 		v.ngrams.Add(row)
 	}
-	v.ngrams.Add(heatLegend(scale, "slot score", "slot score"))
+	v.ngrams.Add(heatLegend(scale, "slot score (log-odds)", "slot score (log-odds)"))
 	v.ngrams.Refresh()
 }
 
@@ -215,13 +218,13 @@ func (v *filtersView) paintNgrams(fp *explain.FilterProfile) {
 // slot score, each with how far it was held down and by which words.
 func (v *filtersView) paintNegatives(fp *explain.FilterProfile) {
 	v.negs.Objects = nil
-	if math.IsInf(fp.Selectivity.Threshold, 0) {
+	if math.IsInf(fp.Selectivity.ThresholdLogOdds, 0) {
 		v.negs.Add(wrapped("Negative n-grams are found relative to the selectivity threshold; this filter has none."))
 		v.negs.Refresh()
 		return
 	}
 	head := fmt.Sprintf("Windows of the corpus whose positive slots alone would reach the threshold %s but whose negative slots hold them below it, held down furthest first.",
-		thresholdText(fp.Selectivity.Threshold))
+		thresholdText(fp.Selectivity.ThresholdLogOdds)+" log-odds")
 	if !fp.NegativesExact {
 		head += " The search could not be completed: others may be missing and the counts short."
 	}
@@ -231,27 +234,27 @@ func (v *filtersView) paintNegatives(fp *explain.FilterProfile) {
 	v.negs.Add(wrapped(head))
 	scale := 0.0
 	for _, n := range fp.Negatives {
-		for _, s := range n.Slots {
+		for _, s := range n.SlotsLogOdds {
 			scale = math.Max(scale, math.Abs(s))
 		}
 	}
 	for _, n := range fp.Negatives {
 		row := container.New(layout.NewRowWrapLayoutWithCustomPadding(2, 2))
 		for s, t := range n.Tokens {
-			chip := newHeatCell(t, divergingColor(n.Slots[s], scale), nil)
-			chip.value, chip.compact = n.Slots[s], true
+			chip := newHeatCell(t, divergingColor(n.SlotsLogOdds[s], scale), nil)
+			chip.value, chip.compact = n.SlotsLogOdds[s], true
 			row.Add(chip)
 		}
 		by := make([]string, len(n.Words))
 		for i, w := range n.Words {
 			by[i] = strconv.Quote(w)
 		}
-		row.Add(widget.NewLabel(fmt.Sprintf("held down %.3f (%.3f → %.3f) by %s · %s", n.HeldDown, n.Positive, n.Activation,
+		row.Add(widget.NewLabel(fmt.Sprintf("held down %.3f log-odds (%.3f → %.3f) by %s · %s", n.HeldDownLogOdds, n.PositiveLogOdds, n.ActivationLogOdds,
 			strings.Join(by, ", "), windows(n.Count))))
 		v.negs.Add(row)
 	}
 	if len(fp.Negatives) > 0 {
-		v.negs.Add(heatLegend(scale, "slot score", "slot score"))
+		v.negs.Add(heatLegend(scale, "slot score (log-odds)", "slot score (log-odds)"))
 	}
 	v.negs.Refresh()
 }
@@ -293,7 +296,7 @@ func familyRows(fp *explain.FilterProfile) [][]string {
 			if sl.Wildcard {
 				dom = append(dom, fmt.Sprintf("%d:*", sl.Slot))
 			} else {
-				dom = append(dom, fmt.Sprintf("%d:%s (%.3f)", sl.Slot, strings.Join(sl.Words, "|"), sl.Mean))
+				dom = append(dom, fmt.Sprintf("%d:%s (%.3f)", sl.Slot, strings.Join(sl.Words, "|"), sl.MeanLogOdds))
 			}
 		}
 		stab := "—"
@@ -308,7 +311,7 @@ func familyRows(fp *explain.FilterProfile) [][]string {
 
 // familyNote says what the families were built from.
 func familyNote(fp *explain.FilterProfile) string {
-	if math.IsInf(fp.Selectivity.Threshold, 0) {
+	if math.IsInf(fp.Selectivity.ThresholdLogOdds, 0) {
 		return "Families group the windows above the selectivity threshold; this filter has none."
 	}
 	return fmt.Sprintf("Built from a sample of %d of the %d windows at or above the threshold, each weighted by the windows it stands for. "+
@@ -319,9 +322,22 @@ func familyNote(fp *explain.FilterProfile) string {
 func wordScores(ws []explain.WordScore) string {
 	var parts []string
 	for _, w := range ws {
-		parts = append(parts, fmt.Sprintf("%s %+.3f", w.Word, w.Score))
+		parts = append(parts, fmt.Sprintf("%s %+.3f", w.Word, w.ScoreLogOdds))
 	}
 	return strings.Join(parts, ", ")
+}
+
+// filterRow is filter fp's row of the list (filterCols); au may be nil.
+func filterRow(fp *explain.FilterProfile, au *auditState) []string {
+	var top []string
+	for _, n := range fp.TopNgrams {
+		top = append(top, strings.Join(n.Tokens, " "))
+	}
+	sel := &fp.Selectivity
+	return []string{fmt.Sprint(fp.Filter), fmt.Sprint(fp.Width), fp.Label, fmt.Sprintf("%.3f", fp.MarginLogOdds),
+		au.cueRankOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thresholdText(sel.ThresholdLogOdds),
+		rateText(sel.Purity), rateText(sel.BaseRate), pText(sel.PHolm), yesNo(sel.Selective), fmt.Sprint(len(fp.Families)),
+		strings.Join(top, " / ")}
 }
 
 // refresh lists the profiled filters, ranked by vote margin (by the rank
@@ -337,16 +353,8 @@ func (v *filtersView) refresh() {
 	}
 	au := itemGet(v.st.audit)
 	rows := make([][]string, len(ps.P.Filters))
-	for i, fp := range ps.P.Filters {
-		var top []string
-		for _, n := range fp.TopNgrams {
-			top = append(top, strings.Join(n.Tokens, " "))
-		}
-		sel := &fp.Selectivity
-		rows[i] = []string{fmt.Sprint(fp.Filter), fmt.Sprint(fp.Width), fp.Label, fmt.Sprintf("%.3f", fp.Margin),
-			au.cueRankOf(fp.Filter), au.cuesOf(fp.Filter), fmt.Sprint(fp.Fired), thresholdText(sel.Threshold),
-			rateText(sel.Purity), rateText(sel.BaseRate), pText(sel.PHolm), yesNo(sel.Selective), fmt.Sprint(len(fp.Families)),
-			strings.Join(top, " / ")}
+	for i := range ps.P.Filters {
+		rows[i] = filterRow(&ps.P.Filters[i], au)
 	}
 	v.list.setRows(rows)
 	if au != nil {

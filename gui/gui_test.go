@@ -122,7 +122,7 @@ func (s *session) training() {
 func (s *session) filter() {
 	t, st, q := s.t, s.st, s.q
 	// Select a filter: the painted n-gram tokens carry the profile's slot
-	// scores.
+	// scores in log-odds units.
 	st.showFilter(3, nil)
 	q.drain()
 	fp := st.filtersView.shown
@@ -131,7 +131,7 @@ func (s *session) filter() {
 	}
 	var want []float64
 	for _, n := range fp.TopNgrams {
-		want = append(want, n.Slots...)
+		want = append(want, n.SlotsLogOdds...)
 	}
 	chips := st.filtersView.ngramChips()
 	if len(chips) != len(want) {
@@ -145,7 +145,7 @@ func (s *session) filter() {
 	// So do its negative n-grams.
 	want = want[:0]
 	for _, n := range fp.Negatives {
-		want = append(want, n.Slots...)
+		want = append(want, n.SlotsLogOdds...)
 	}
 	chips = st.filtersView.negativeChips()
 	if len(chips) != len(want) {

@@ -93,18 +93,20 @@ func pText(p float64) string {
 // histogramPlot draws the filter's winning-window activations over the
 // fired texts (the profile's own bins), the part from texts assigned the
 // filter's class in front, with the selectivity threshold as a vertical
-// line.
+// line, in log-odds units.
 func histogramPlot(fp *explain.FilterProfile) *plot.Plot {
-	p := newPlot(fmt.Sprintf("Filter %d: winning-window activations", fp.Filter), "activation", "texts")
+	p := newPlot(fmt.Sprintf("Filter %d: winning-window activations", fp.Filter), "activation (log-odds)", "texts")
 	h := fp.Hist
-	if len(h.Counts) == 0 || len(h.Edges) < len(h.Counts)+1 {
+	edges := h.EdgesLogOdds
+	// A dead filter's edges are all 0 in log-odds units: nothing to draw.
+	if len(h.Counts) == 0 || len(edges) < len(h.Counts)+1 || !(edges[len(h.Counts)] > edges[0]) {
 		return p
 	}
 	all := &plotter.Histogram{FillColor: seriesColors[3]}
 	cls := &plotter.Histogram{FillColor: seriesColors[0]}
 	top := 0.0
 	for j, c := range h.Counts {
-		lo, hi := h.Edges[j], h.Edges[j+1]
+		lo, hi := edges[j], edges[j+1]
 		all.Bins = append(all.Bins, plotter.HistogramBin{Min: lo, Max: hi, Weight: float64(c)})
 		ic := 0
 		if j < len(h.InClass) {
@@ -113,12 +115,12 @@ func histogramPlot(fp *explain.FilterProfile) *plot.Plot {
 		cls.Bins = append(cls.Bins, plotter.HistogramBin{Min: lo, Max: hi, Weight: float64(ic)})
 		top = math.Max(top, float64(c))
 	}
-	all.Width, cls.Width = h.Edges[1]-h.Edges[0], h.Edges[1]-h.Edges[0]
+	all.Width, cls.Width = edges[1]-edges[0], edges[1]-edges[0]
 	all.LineStyle.Width, cls.LineStyle.Width = 0, 0
 	p.Add(all, cls)
 	p.Legend.Add("all fired texts", all)
 	p.Legend.Add("assigned "+fp.Label, cls)
-	if thr := fp.Selectivity.Threshold; !math.IsInf(thr, 0) && !math.IsNaN(thr) {
+	if thr := fp.Selectivity.ThresholdLogOdds; !math.IsInf(thr, 0) && !math.IsNaN(thr) {
 		l, err := plotter.NewLine(plotter.XYs{{X: thr, Y: 0}, {X: thr, Y: top * 1.05}})
 		if err == nil {
 			l.Color = seriesColors[1]

@@ -51,7 +51,7 @@ type whyView struct {
 }
 
 // Columns of the fired-filter sheet; the second names the quantity split.
-var firedCols = []string{"filter", "window", "part of the log-odds", "of it, bias", "activation", "width", "family"}
+var firedCols = []string{"filter", "window", "part of the log-odds", "of it, bias", "activation (log-odds)", "width", "family"}
 
 const colFiredPart = 2
 
@@ -350,7 +350,7 @@ func (v *whyView) fillFired(e *explain.Explanation, c int) {
 			fam = fmt.Sprint(f.Family)
 		}
 		rows = append(rows, []string{fmt.Sprint(f.Filter), windowText(e, f.Start, f.Width, nil), signed4(sh.Filters[k]), signed4(sh.FilterBias[k]),
-			fmt.Sprintf("%.4f", f.Activation), fmt.Sprint(f.Width), fam})
+			fmt.Sprintf("%.4f", f.ActivationLogOdds), fmt.Sprint(f.Width), fam})
 	}
 	v.fired.setRows(rows)
 	v.fired.sortOn(colFiredPart, true)

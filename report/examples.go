@@ -147,7 +147,7 @@ func firedRows(in Input, e *explain.Explanation) []firedRow {
 	for _, k := range order[:min(5, len(order))] {
 		f := e.Filters[k]
 		fr := firedRow{Filter: fmt.Sprintf("%d (width %d)", f.Filter, f.Width), Window: strings.Join(windowTokens(e, f.Start, f.Width), " "),
-			Activation: num(f.Activation), Part: signed(parts[k]), BiasPart: signed(e.LogOdds.FilterBias[k]), Family: "–"}
+			Activation: num(f.ActivationLogOdds), Part: signed(parts[k]), BiasPart: signed(e.LogOdds.FilterBias[k]), Family: "–"}
 		if in.Profiles != nil && f.Family >= 0 && f.Filter < len(in.Profiles.Filters) {
 			if fams := in.Profiles.Filters[f.Filter].Families; f.Family < len(fams) {
 				fr.Family = fams[f.Family].Pattern

@@ -218,12 +218,16 @@ func at(xs []float64, i int) any {
 
 // ProfileTable has one row per n-gram and family of every filter. Each row
 // starts with the filter: its number, width, the label it votes for, its
-// vote margin, centred_vote_<label> for every class (its output weight for
-// the class minus the mean over classes), its selectivity (selective, the
+// vote margin at its highest winning window (margin_log_odds),
+// centred_vote_log_odds_<label> for every class (how much that window
+// moves the class's centred logit), its selectivity (selective, the
 // threshold, the held-out purity with its 95% interval, the held-out base
 // rate, the one-sided binomial p and its Holm-corrected value), whether its
 // negative n-grams are complete (negatives_exact) and the number of
-// sampled windows its families were built from (family_sample). Then the
+// sampled windows its families were built from (family_sample). Every
+// activation-scale number (threshold, activation, slot scores, held_down,
+// positive) is in log-odds units, times the filter's vote scale
+// (explain.VoteScale), its column named …_log_odds. Then the
 // row's kind and rank within it: "top", a top n-gram, with its tokens
 // (space-separated), activation, the number of texts it wins in and its
 // slot scores (space-separated, in slot order); "negative", a negative
@@ -235,29 +239,29 @@ func at(xs []float64, i int) any {
 // its 95% interval, and stability (empty for a family of one n-gram). A
 // missing number is empty.
 func ProfileTable(p *explain.Profiles) *Table {
-	t := &Table{Columns: []string{"filter", "width", "votes_for", "margin"}}
+	t := &Table{Columns: []string{"filter", "width", "votes_for", "margin_log_odds"}}
 	for _, l := range p.Labels {
-		t.Columns = append(t.Columns, "centred_vote_"+l)
+		t.Columns = append(t.Columns, "centred_vote_log_odds_"+l)
 	}
-	t.Columns = append(t.Columns, "selective", "threshold", "purity", "purity_low", "purity_high", "base_rate", "p", "p_holm",
-		"negatives_exact", "family_sample", "kind", "rank", "ngram", "activation", "count", "slot_scores",
-		"held_down", "positive", "negative_slots", "share", "share_low", "share_high", "stability")
+	t.Columns = append(t.Columns, "selective", "threshold_log_odds", "purity", "purity_low", "purity_high", "base_rate", "p", "p_holm",
+		"negatives_exact", "family_sample", "kind", "rank", "ngram", "activation_log_odds", "count", "slot_scores_log_odds",
+		"held_down_log_odds", "positive_log_odds", "negative_slots", "share", "share_low", "share_high", "stability")
 	for _, f := range p.Filters {
 		s := f.Selectivity
-		head := []any{f.Filter, f.Width, f.Label, f.Margin}
+		head := []any{f.Filter, f.Width, f.Label, f.MarginLogOdds}
 		for c := range p.Labels {
-			head = append(head, at(f.CentredVotes, c))
+			head = append(head, at(f.CentredVotesLogOdds, c))
 		}
-		head = append(head, s.Selective, s.Threshold, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm,
+		head = append(head, s.Selective, s.ThresholdLogOdds, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm,
 			f.NegativesExact, f.FamilySample)
 		add := func(cells ...any) { t.Add(append(slices.Clone(head), cells...)...) }
 		for r, n := range f.TopNgrams {
-			add("top", r+1, strings.Join(n.Tokens, " "), n.Activation, n.Count, joinFloats(n.Slots),
+			add("top", r+1, strings.Join(n.Tokens, " "), n.ActivationLogOdds, n.Count, joinFloats(n.SlotsLogOdds),
 				nil, nil, nil, nil, nil, nil, nil)
 		}
 		for r, n := range f.Negatives {
-			add("negative", r+1, strings.Join(n.Tokens, " "), n.Activation, n.Count, joinFloats(n.Slots),
-				n.HeldDown, n.Positive, joinInts(n.NegativeSlots), nil, nil, nil, nil)
+			add("negative", r+1, strings.Join(n.Tokens, " "), n.ActivationLogOdds, n.Count, joinFloats(n.SlotsLogOdds),
+				n.HeldDownLogOdds, n.PositiveLogOdds, joinInts(n.NegativeSlots), nil, nil, nil, nil)
 		}
 		for r, fam := range f.Families {
 			var stab any

@@ -192,12 +192,12 @@ func TestProfileTableRows(t *testing.T) {
 		f := p.Filters[row[col["filter"]].(int)]
 		kind := row[col["kind"]].(string)
 		got[kind]++
-		if row[col["selective"]] != f.Selectivity.Selective || !same(row[col["threshold"]].(float64), f.Selectivity.Threshold) ||
+		if row[col["selective"]] != f.Selectivity.Selective || !same(row[col["threshold_log_odds"]].(float64), f.Selectivity.ThresholdLogOdds) ||
 			!same(row[col["p_holm"]].(float64), f.Selectivity.PHolm) {
 			t.Errorf("filter %d %s row %v: selectivity differs from %+v", f.Filter, kind, row, f.Selectivity)
 		}
-		if r := row[col["rank"]].(int); kind == "negative" && row[col["held_down"]] != f.Negatives[r-1].HeldDown {
-			t.Errorf("filter %d negative n-gram %d: held down %v, profile %v", f.Filter, r, row[col["held_down"]], f.Negatives[r-1].HeldDown)
+		if r := row[col["rank"]].(int); kind == "negative" && row[col["held_down_log_odds"]] != f.Negatives[r-1].HeldDownLogOdds {
+			t.Errorf("filter %d negative n-gram %d: held down %v, profile %v", f.Filter, r, row[col["held_down_log_odds"]], f.Negatives[r-1].HeldDownLogOdds)
 		}
 	}
 	if fmt.Sprint(got) != fmt.Sprint(want) {

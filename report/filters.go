@@ -108,15 +108,16 @@ func filters(in Input) (*filtersView, error) {
 	return fv, nil
 }
 
-// filterCardOf lays out one filter; the largest absolute slot score shown
-// (top and negative n-grams) sets the card's colour scale.
+// filterCardOf lays out one filter, every score in log-odds units (see
+// explain.VoteScale); the largest absolute slot score shown (top and
+// negative n-grams) sets the card's colour scale.
 func filterCardOf(f explain.FilterProfile, labels []string) filterCard {
 	s := f.Selectivity
-	card := filterCard{ID: f.Filter, Width: f.Width, Label: f.Label, Margin: signed(f.Margin), Votes: centredVotes(f.CentredVotes, labels),
-		Threshold: num(s.Threshold), Above: count(s.Above), HeldOut: heldOut(&s, f.Label),
-		Fired: count(f.Fired), MaxAct: num(f.MaxActivation), FamilyCount: len(f.Families),
+	card := filterCard{ID: f.Filter, Width: f.Width, Label: f.Label, Margin: signed(f.MarginLogOdds), Votes: centredVotes(f.CentredVotesLogOdds, labels),
+		Threshold: num(s.ThresholdLogOdds), Above: count(s.Above), HeldOut: heldOut(&s, f.Label),
+		Fired: count(f.Fired), MaxAct: num(f.MaxLogOdds), FamilyCount: len(f.Families),
 		FamilySample: count(f.FamilySample), FamilyTotal: count(s.Above)}
-	if !s.ThresholdExact && !math.IsInf(s.Threshold, 0) {
+	if !s.ThresholdExact && !math.IsInf(s.ThresholdLogOdds, 0) {
 		card.ThresholdNote = "at a histogram bin edge"
 	}
 	const shown, negShown = 5, 3
@@ -124,13 +125,13 @@ func filterCardOf(f explain.FilterProfile, labels []string) filterCard {
 	negs := f.Negatives[:min(negShown, len(f.Negatives))]
 	var scale float64
 	for _, ng := range ngrams {
-		scale = max(scale, maxAbs(ng.Slots))
+		scale = max(scale, maxAbs(ng.SlotsLogOdds))
 	}
 	for _, ng := range negs {
-		scale = max(scale, maxAbs(ng.Slots))
+		scale = max(scale, maxAbs(ng.SlotsLogOdds))
 	}
 	for _, ng := range ngrams {
-		row := ngramRow{Cells: slotCells(ng.Tokens, ng.Slots, scale), Activation: num(ng.Activation), Count: count(ng.Count), Pred: ints(ng.ByPred)}
+		row := ngramRow{Cells: slotCells(ng.Tokens, ng.SlotsLogOdds, scale), Activation: num(ng.ActivationLogOdds), Count: count(ng.Count), Pred: ints(ng.ByPred)}
 		card.Ngrams = append(card.Ngrams, row)
 	}
 	for _, ng := range negs {
@@ -138,8 +139,8 @@ func filterCardOf(f explain.FilterProfile, labels []string) filterCard {
 		for i, w := range ng.Words {
 			by[i] = "“" + w + "”"
 		}
-		card.Negatives = append(card.Negatives, ngramRow{Cells: slotCells(ng.Tokens, ng.Slots, scale), Activation: num(ng.Activation),
-			Count: count(ng.Count), HeldDown: num(ng.HeldDown), Positive: num(ng.Positive), By: strings.Join(by, ", ")})
+		card.Negatives = append(card.Negatives, ngramRow{Cells: slotCells(ng.Tokens, ng.SlotsLogOdds, scale), Activation: num(ng.ActivationLogOdds),
+			Count: count(ng.Count), HeldDown: num(ng.HeldDownLogOdds), Positive: num(ng.PositiveLogOdds), By: strings.Join(by, ", ")})
 	}
 	if !f.NegativesExact {
 		card.NegativesNote = "The search for negative n-grams could not be completed: others may be missing and the counts short."
@@ -164,12 +165,13 @@ func filterCardOf(f explain.FilterProfile, labels []string) filterCard {
 	return card
 }
 
-// heldOut says what the held-out half measured at the threshold.
+// heldOut says what the other half, which took no part in choosing the
+// threshold (though the filter was trained on it too), measured at it.
 func heldOut(s *explain.Selectivity, label string) string {
 	if s.Windows == 0 {
-		return "no held-out window reaches the threshold"
+		return "no window of the other half, which took no part in choosing the threshold, reaches it"
 	}
-	return fmt.Sprintf("held out: %s of %s windows above it from texts assigned %s, %s (95%% interval %s–%s) against a base rate of %s; one-sided binomial p = %s, Holm-corrected %s",
+	return fmt.Sprintf("on the other half (no part in choosing the threshold; the filter was trained on both): %s of %s windows above it from texts assigned %s, %s (95%% interval %s–%s) against a base rate of %s; one-sided binomial p = %s, Holm-corrected %s",
 		count(s.InClass), count(s.Windows), label, pct(s.Purity), pct(s.PurityLow), pct(s.PurityHigh), pct(s.BaseRate), pval(s.P), pval(s.PHolm))
 }
 
@@ -218,7 +220,7 @@ func words(ws []explain.WordScore) string {
 	const most = 3
 	parts := make([]string, 0, most)
 	for _, w := range ws[:min(most, len(ws))] {
-		parts = append(parts, w.Word+" "+signed(w.Score))
+		parts = append(parts, w.Word+" "+signed(w.ScoreLogOdds))
 	}
 	if len(parts) == 0 {
 		return "–"

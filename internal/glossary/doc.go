@@ -1,6 +1,6 @@
 // Package glossary defines, one line each with its formula, the terms that
 // telltale names itself: the words a reader cannot look up elsewhere (slot
-// score, centred votes, vote margin, selectivity threshold, selective,
+// score, log-odds units, centred votes, vote margin, selectivity threshold, selective,
 // negative n-gram, family, stability, trigger and suppressor words,
 // identified shares, centred logit, bias parts, kept-down window, occlusion
 // as telltale measures it, and the cue audit's terms). Terms of the trade (filter, n-gram, attribution, F1,

@@ -1,0 +1,91 @@
+package report
+
+import (
+	"context"
+	"fmt"
+	"testing"
+
+	"telltale/cnn"
+	"telltale/explain"
+)
+
+// rescaled returns a copy of m with each filter g of ks multiplied by
+// ks[g] > 0: its convolution weights and bias times ks[g], its
+// output-weight column divided by it. ReLU and max pooling are positively
+// homogeneous, so no prediction moves (up to float32 rounding).
+func rescaled(m *cnn.Model, ks map[int]float32) *cnn.Model {
+	s := m.Clone()
+	nf := m.Config.NumFilters()
+	for g, k := range ks {
+		b, f := m.FilterConv(g)
+		cv := &s.Convs[b]
+		per := len(cv.W) / m.Config.Filters
+		for i := f * per; i < (f+1)*per; i++ {
+			cv.W[i] *= k
+		}
+		cv.B[f] *= k
+		for c := 0; c < m.Config.Classes; c++ {
+			s.OutW[c*nf+g] /= k
+		}
+	}
+	return s
+}
+
+// The filter cards and the explained examples' fired-filter rows show the
+// same text when filters of the demo model are rescaled (rescaled), which
+// changes no prediction: every number they show is identified. The raw
+// activations do move, so the check would catch a raw number shown.
+func TestShownNumbersInvariantUnderRescale(t *testing.T) {
+	d := loadDemo(t)
+	m := d.model
+	ks := map[int]float32{0: 37, 3: 0.02, 9: 5.5, 12: 0.3}
+	s := rescaled(m, ks)
+	enc, err := m.Encoder()
+	if err != nil {
+		t.Fatal(err)
+	}
+	class := map[string]int{}
+	for c, l := range m.Labels {
+		class[l] = c
+	}
+	var ids [][]int32
+	var gold []int
+	for _, e := range d.train.Examples[:600] {
+		_, x := enc.Encode(e.Text)
+		ids = append(ids, x)
+		gold = append(gold, class[e.Label])
+	}
+	var shown [2][]string
+	var raw [2][]float64
+	for i, mm := range []*cnn.Model{m, s} {
+		prof, err := explain.Profile(context.Background(), mm, ids, gold, explain.ProfileOptions{Workers: 2})
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, f := range prof.Filters {
+			shown[i] = append(shown[i], fmt.Sprintf("%+v", filterCardOf(f, prof.Labels)))
+			raw[i] = append(raw[i], f.MaxActivation)
+		}
+		for _, x := range ids[:40] {
+			e, err := explain.Explain(mm, nil, x, explain.ExplainOptions{Profiles: prof})
+			if err != nil {
+				t.Fatal(err)
+			}
+			shown[i] = append(shown[i], fmt.Sprintf("%+v", firedRows(Input{Profiles: prof}, e)))
+		}
+	}
+	for j := range shown[0] {
+		if shown[0][j] != shown[1][j] {
+			t.Errorf("filters rescaled by %v: shown\n%s\nbecomes\n%s", ks, shown[0][j], shown[1][j])
+		}
+	}
+	moved := 0
+	for g := range raw[0] {
+		if raw[0][g] != raw[1][g] {
+			moved++
+		}
+	}
+	if moved < len(ks) {
+		t.Fatalf("only %d raw highest activations moved under the rescaling: the check checks little", moved)
+	}
+}
