@@ -11,6 +11,7 @@ import (
 	"telltale/audit"
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -162,7 +163,7 @@ func (v *auditView) writeRetrained(w io.Writer) {
 		return
 	}
 	fmt.Fprintf(w, "\nRetrained without %s (%s taken out of the training split, %s out of the test texts):\n",
-		plural(len(rt.Patterns), "cue", "cues"), count(rt.Removed)+map[bool]string{true: " match", false: " matches"}[rt.Removed == 1], count(rt.HeldoutRemoved))
+		wording.Count(len(rt.Patterns), "cue", "cues"), count(rt.Removed)+map[bool]string{true: " match", false: " matches"}[rt.Removed == 1], count(rt.HeldoutRemoved))
 	for _, p := range []struct {
 		what string
 		mp   audit.ModelPair

@@ -16,6 +16,8 @@ import (
 	"strings"
 	"unicode"
 	"unicode/utf8"
+
+	"telltale/internal/wording"
 )
 
 // DefaultMaxTextBytes is the text length limit used when Options.MaxTextBytes is 0.
@@ -944,7 +946,7 @@ func readDir(root string, opt Options, ws *warnings, fn func(Example) error) err
 		}
 	}
 	if ignored > 0 {
-		ws.add(root, 0, "%d files at the top level ignored: examples belong in one sub-folder per label", ignored)
+		ws.add(root, 0, "%s at the top level ignored: examples belong in one sub-folder per label", wording.Count(ignored, "file", "files"))
 	}
 	return nil
 }
@@ -989,10 +991,10 @@ func readLabelDir(root, name, label string, opt Options, ws *warnings, fn func(E
 		}
 	}
 	if skipped > 0 {
-		ws.add(sub, 0, "%d files skipped: only .txt files and files without extension are examples", skipped)
+		ws.add(sub, 0, "%s skipped: only .txt files and files without extension are examples", wording.Count(skipped, "file", "files"))
 	}
 	if nested > 0 {
-		ws.add(sub, 0, "%d sub-folders ignored: put example files directly in the label folder", nested)
+		ws.add(sub, 0, "%s ignored: put example files directly in the label folder", wording.Count(nested, "sub-folder", "sub-folders"))
 	}
 	if kept == 0 {
 		ws.add(sub, 0, "label folder holds no examples")

@@ -12,6 +12,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/explain"
+	"telltale/internal/wording"
 )
 
 // filtersView is the list of the model's filters and the selected filter's
@@ -204,7 +205,7 @@ func (v *filtersView) paintNgrams(fp *explain.FilterProfile) {
 			chip.value, chip.compact = val, true
 			row.Add(chip)
 		}
-		row.Add(widget.NewLabel(fmt.Sprintf("activation %.3f · wins in %s", n.Activation, texts(n.Count))))
+		row.Add(widget.NewLabel(fmt.Sprintf("activation %.3f · wins in %s", n.Activation, wording.Texts(n.Count))))
 		v.ngrams.Add(row)
 	}
 	v.ngrams.Add(heatLegend(scale, "slot score", "slot score"))
