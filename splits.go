@@ -138,7 +138,8 @@ const mayHoldTraining = "may include texts the model was trained on"
 // texts the model was trained on. It warns (on warn unless quiet) when the
 // texts are the model's training data or hold its training texts, and when
 // the recorded test file changed since training; it refuses (a usage error)
-// an empty set of texts.
+// an empty set of texts, and a --relabel label that the one file it is
+// applied to lacks (data, or test when data is "").
 func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writer, quiet bool) (*evalSet, error) {
 	if data == "" && test == "" {
 		return nil, usagef("--data or --test is required: labeled texts to evaluate the model on")
@@ -159,7 +160,9 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	}
 	switch {
 	case test != "":
-		if es.test, err = r.read(test, false, warn, quiet); err != nil {
+		// Without --data the test file is the one file --relabel applies
+		// to: every label it maps must occur there, as in --data for train.
+		if es.test, err = r.read(test, data == "", warn, quiet); err != nil {
 			return nil, err
 		}
 		es.note = fmt.Sprintf("evaluating on the test file %s (%s)", test, wording.Texts(len(es.test.Examples)))
