@@ -4,12 +4,12 @@ import (
 	"context"
 	"flag"
 	"fmt"
-	"os"
 	"path/filepath"
 	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/inputfile"
 	"telltale/internal/outguard"
 	"telltale/internal/wording"
 	"telltale/torchmodel"
@@ -236,12 +236,12 @@ func runImport(ctx context.Context, env *runEnv, o *importOptions) error {
 // model's on the texts of --check-texts and records the result in the
 // model's notes; a mismatch is an error (nothing is written).
 func checkImported(m *cnn.Model, o *importOptions) error {
-	raw, err := os.ReadFile(o.CheckTexts)
+	raw, err := inputfile.ReadFile(o.CheckTexts)
 	if err != nil {
 		return fmt.Errorf("--check-texts: %w", err)
 	}
 	texts := strings.Split(strings.TrimSuffix(strings.ReplaceAll(string(raw), "\r\n", "\n"), "\n"), "\n")
-	f, err := os.Open(o.CheckLogits)
+	f, err := inputfile.Open(o.CheckLogits)
 	if err != nil {
 		return fmt.Errorf("--check-logits: %w", err)
 	}

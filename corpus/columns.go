@@ -9,6 +9,8 @@ import (
 	"os"
 	"sort"
 	"strings"
+
+	"telltale/internal/inputfile"
 )
 
 // Columns returns the column names of the corpus file at path, for a
@@ -31,7 +33,7 @@ func Columns(path string, opt Options) ([]string, error) {
 	if st.IsDir() {
 		return nil, errAt(path, 0, ErrFormat, "is a folder: a folder is read as one sub-folder per label (format dir)")
 	}
-	f, err := os.Open(path)
+	f, err := inputfile.Open(path)
 	if err != nil {
 		return nil, kindError(ErrEmpty, "corpus: %s: cannot open: %v", path, err)
 	}

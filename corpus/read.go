@@ -17,6 +17,7 @@ import (
 	"unicode"
 	"unicode/utf8"
 
+	"telltale/internal/inputfile"
 	"telltale/internal/wording"
 )
 
@@ -137,7 +138,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 			return nil, errAt(path, 0, ErrFormat, "is a folder: a folder is read as one sub-folder per label (format dir)")
 		}
 		var f *os.File
-		f, err = os.Open(path)
+		f, err = inputfile.Open(path)
 		if err != nil {
 			return nil, kindError(ErrEmpty, "corpus: %s: cannot open: %v", path, err)
 		}
