@@ -247,6 +247,9 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 	if err != nil {
 		return err
 	}
+	if w := o.read.unknownRelabel(o.data); w != "" && !o.quiet { // streamed: checked now that every text was read
+		fmt.Fprintf(env.Stderr, "warning: %s\n", w)
+	}
 	if len(o.only) > 0 {
 		kept := make([]explain.FilterProfile, 0, len(o.only))
 		for _, g := range o.only {

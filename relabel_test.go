@@ -5,6 +5,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"telltale/cnn"
 )
 
 // TestRelabelUnknownOnTestFile: a --relabel source label that occurs in no
@@ -47,5 +49,36 @@ func TestRelabelUnknownOnTestFile(t *testing.T) {
 	code, _, stderr := runCmd(t, "", "eval", "--model", model, "--data", data, "--test", test, "--relabel", "bookings=bookings", "--quiet")
 	if code != 0 {
 		t.Errorf("eval with --data holding the relabeled label: exit %d, %s", code, stderr)
+	}
+}
+
+// TestRelabelUnknownStreamed: filters streams the texts of a model that
+// records no splits, so a --relabel label the file lacks is only known
+// once every text was read: it is named then, in a warning with the
+// file's labels (the demo's five, from its README), and a label the file
+// has draws none.
+func TestRelabelUnknownStreamed(t *testing.T) {
+	data := smallDemo(t, 300)
+	dir := t.TempDir()
+	model := filepath.Join(dir, "m.tt")
+	if code, _, stderr := runCmd(t, "", "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"); code != 0 {
+		t.Fatalf("train: %s", stderr)
+	}
+	m, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m.Info.Splits = nil
+	if err := m.Save(model); err != nil {
+		t.Fatal(err)
+	}
+	want := `warning: --relabel: ` + data + ` has no label "complaint"; its labels are bookings, complaints, lost-property, praise, timetable`
+	code, _, stderr := runCmd(t, "", "filters", "--model", model, "--data", data, "--relabel", "complaint=complaints", "--top", "2")
+	if code != 0 || !strings.Contains(stderr, "profiling all texts of") || !strings.Contains(stderr, want) {
+		t.Errorf("filters, streamed, with an unknown --relabel label: exit %d, stderr %q; want exit 0 and %q", code, stderr, want)
+	}
+	code, _, stderr = runCmd(t, "", "filters", "--model", model, "--data", data, "--relabel", "complaints=complaints", "--top", "2")
+	if code != 0 || strings.Contains(stderr, "--relabel") {
+		t.Errorf("filters, streamed, with a known --relabel label: exit %d, stderr %q; want exit 0 and no warning", code, stderr)
 	}
 }
