@@ -11,6 +11,7 @@ import (
 	"strings"
 
 	"telltale/internal/inputfile"
+	"telltale/internal/wording"
 )
 
 // Columns returns the column names of the corpus file at path, for a
@@ -147,7 +148,8 @@ func LoadBytes(name string, data []byte, opt Options) (*Dataset, []Warning, erro
 		return nil, ws.result(), errAt(name, 0, ErrEmpty, "no examples found: the file needs a header row and at least one record with a non-empty text")
 	}
 	if len(d.Labels) < 2 {
-		return nil, ws.result(), errAt(name, 0, ErrLabel, "only one label %s in %d examples: a classifier needs at least two labels; check the label column", quote(d.Labels[0]), len(d.Examples))
+		return nil, ws.result(), errAt(name, 0, ErrLabel, "only one label %s in %s: a classifier needs at least two labels; check the label column",
+			quote(d.Labels[0]), wording.Count(len(d.Examples), "example", "examples"))
 	}
 	sort.Strings(d.Labels)
 	return d, ws.result(), nil

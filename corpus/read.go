@@ -172,7 +172,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 		if format == "dir" {
 			fix = "put the examples of each label in one sub-folder per label"
 		}
-		return ws.result(), errAt(path, 0, ErrLabel, "only one label %s in %d examples: a classifier needs at least two labels; %s", quote(only), n, fix)
+		return ws.result(), errAt(path, 0, ErrLabel, "only one label %s in %s: a classifier needs at least two labels; %s", quote(only), wording.Count(n, "example", "examples"), fix)
 	}
 	return ws.result(), nil
 }

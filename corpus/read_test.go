@@ -106,6 +106,7 @@ func TestLoadBadInput(t *testing.T) {
 		{"label with a tab after blank lines", "a.csv", "text,label\nok,a\nfine,\" \n\nb\tc\"\n", Options{}, ErrLabel, "line 3", `label "b\tc" holds a line break, a tab`},
 		{"jsonl label with a tab", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\":\"b\",\"label\":\"y\\tz\"}\n", Options{}, ErrLabel, "line 2", `label "y\tz" holds`},
 		{"one label only", "a.csv", "text,label\nok,a\nfine,a\n", Options{}, ErrLabel, "", `only one label "a" in 2 examples`},
+		{"one example only", "a.csv", "text,label\nok,a\n", Options{}, ErrLabel, "", `only one label "a" in 1 example:`},
 		{"only empty texts", "a.csv", "text,label\n ,a\n,b\n", Options{}, ErrEmpty, "", "no examples"},
 		{"10 MB single line csv", "a.csv", "text,label\n" + long + ",a\n", Options{}, ErrTooLong, "line 2", "record longer than"},
 		{"10 MB single line jsonl", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\":\"" + long + "\",\"label\":\"y\"}\n", Options{}, ErrTooLong, "line 2", "line longer than"},
