@@ -17,6 +17,7 @@ import (
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/internal/outguard"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -375,7 +376,7 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 	out := &auditJSON{Result: res, Story: res.Story(), HeldoutSplit: r.es.name, MarksFile: r.o.marksPath()}
 	results := []*audit.Result{res}
 	if r.o.seeds > 0 {
-		say(r.env.Stderr, r.o.quiet, "the audit of %s is done; training %s with its recipe (--seeds)", r.o.model, plural(r.o.seeds, "more model", "more models"))
+		say(r.env.Stderr, r.o.quiet, "the audit of %s is done; training %s with its recipe (--seeds)", r.o.model, wording.Count(r.o.seeds, "more model", "more models"))
 	}
 	for k := range r.o.seeds {
 		seed := recipe.Train.Seed + uint64(k) + 1
@@ -562,7 +563,7 @@ func (o *auditOptions) writeMarks(env *runEnv, marks *audit.Marks) error {
 	}
 	if !o.quiet {
 		fmt.Fprintf(env.Stderr, "marks written to %s: %s marked artifact, %d task\n", path,
-			plural(len(marks.Cues(audit.MarkArtifact)), "cue", "cues"), len(marks.Cues(audit.MarkTask)))
+			wording.Count(len(marks.Cues(audit.MarkArtifact)), "cue", "cues"), len(marks.Cues(audit.MarkTask)))
 	}
 	return nil
 }

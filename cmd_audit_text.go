@@ -11,6 +11,7 @@ import (
 	"telltale/audit"
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -163,7 +164,7 @@ func (v *auditView) writeRetrained(w io.Writer) {
 	}
 	fmt.Fprintf(w, "\nRetrained without %s (%s taken out of the training split); both models compared on the %s confirming test texts, "+
 		"which took no part in choosing the cues (%s taken out of them):\n",
-		plural(len(rt.Patterns), "cue", "cues"), matches(rt.Removed), count(rt.Texts), matches(rt.HeldoutRemoved))
+		wording.Count(len(rt.Patterns), "cue", "cues"), matches(rt.Removed), count(rt.Texts), matches(rt.HeldoutRemoved))
 	for _, p := range []struct {
 		what string
 		mp   audit.ModelPair

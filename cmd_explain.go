@@ -21,6 +21,7 @@ import (
 	"telltale/explain"
 	"telltale/internal/inorder"
 	"telltale/internal/outguard"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -152,7 +153,7 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 			err = writeExplanationJSON(&b, e, t, cut)
 		default:
 			if cut > 0 {
-				fmt.Fprintf(&b, "(the model reads the first %s; the last %d %s not explained)\n", plural(len(e.Tokens), "token", "tokens"), cut,
+				fmt.Fprintf(&b, "(the model reads the first %s; the last %d %s not explained)\n", wording.Count(len(e.Tokens), "token", "tokens"), cut,
 					map[bool]string{true: "is", false: "are"}[cut == 1])
 			}
 			err = writeExplanation(&b, t.Text, e, o.method, cls, paint)

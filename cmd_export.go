@@ -10,6 +10,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/internal/outguard"
+	"telltale/internal/wording"
 	"telltale/torchmodel"
 )
 
@@ -134,7 +135,7 @@ func runExport(ctx context.Context, env *runEnv, o *exportOptions) error {
 	}
 	cut := "texts are kept whole"
 	if s.MaxTokens > 0 {
-		cut = "texts are cut to " + plural(s.MaxTokens, "token", "tokens")
+		cut = "texts are cut to " + wording.Count(s.MaxTokens, "token", "tokens")
 	}
 	fmt.Fprintf(env.Stdout, "tokenizer: %s; %s; ids are the line numbers of %s (0 padding, 1 unknown)\n", s.Tokenizer, cut, torchmodel.VocabFile)
 	return nil

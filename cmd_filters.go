@@ -16,6 +16,7 @@ import (
 	"telltale/corpus"
 	"telltale/explain"
 	"telltale/internal/outguard"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -135,9 +136,9 @@ func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.E
 // (total 0: not known, the texts being streamed).
 func profilingNote(done, total int) string {
 	if total <= 0 {
-		return "profiling filters: " + texts(done) + " so far"
+		return "profiling filters: " + wording.Texts(done) + " so far"
 	}
-	return fmt.Sprintf("profiling filters: %d of %s", done, texts(total))
+	return fmt.Sprintf("profiling filters: %d of %s", done, wording.Texts(total))
 }
 
 // encodeExamples gives each example's ids (as enc.Encode) and gold class
@@ -251,6 +252,9 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 	if err != nil {
 		return err
 	}
+	if w := o.read.unknownRelabel(o.data); w != "" && !o.quiet { // streamed: checked now that every text was read
+		fmt.Fprintf(env.Stderr, "warning: %s\n", w)
+	}
 	if len(o.only) > 0 {
 		kept := make([]explain.FilterProfile, 0, len(o.only))
 		for _, g := range o.only {
@@ -282,7 +286,7 @@ func writeProfiles(w io.Writer, p *explain.Profiles, top int) error {
 			sel++
 		}
 	}
-	ew.printf("%s profiled over %s: %d selective, %d not selective", plural(len(p.Filters), "filter", "filters"), texts(p.Texts), sel, len(p.Filters)-sel-masked)
+	ew.printf("%s profiled over %s: %d selective, %d not selective", wording.Count(len(p.Filters), "filter", "filters"), wording.Texts(p.Texts), sel, len(p.Filters)-sel-masked)
 	if masked > 0 {
 		ew.printf(", %d masked", masked)
 	}
@@ -292,7 +296,7 @@ func writeProfiles(w io.Writer, p *explain.Profiles, top int) error {
 		"Holm-corrected over the filters, α = %g). Activations and slot scores are in log-odds units: times the filter's vote scale,\n"+
 		"the range of its output weights over the labels; a filter votes for its class by how far its highest window raises\n"+
 		"that class's logit over the next one's (centred votes: how far it moves each label's centred logit).\n",
-		texts(p.Halves[0]), p.Selective, texts(p.Halves[1]), p.Alpha)
+		wording.Texts(p.Halves[0]), p.Selective, wording.Texts(p.Halves[1]), p.Alpha)
 	for i := range p.Filters {
 		writeFilter(ew, p, &p.Filters[i], top)
 	}
@@ -312,7 +316,7 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 		votes[c] = fmt.Sprintf("%s %+.3f", p.Labels[c], v)
 	}
 	ew.printf("\nfilter %d  width %d  votes %s by %.3f (centred votes: %s)  fired in %d of %s, max %.3f%s\n",
-		f.Filter, f.Width, f.Label, f.MarginLogOdds, strings.Join(votes, ", "), f.Fired, texts(p.Texts), f.MaxLogOdds, state)
+		f.Filter, f.Width, f.Label, f.MarginLogOdds, strings.Join(votes, ", "), f.Fired, wording.Texts(p.Texts), f.MaxLogOdds, state)
 	ew.printf("  %s\n", selectivityLine(&f.Selectivity, f.Label))
 	if len(f.TopNgrams) > 0 {
 		ew.printf("  top n-grams (activation, texts it wins in, slot scores):\n")
@@ -324,7 +328,7 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 	if len(f.Families) > 0 {
 		ew.printf("  families (from a sample of %d of the %s above the threshold; share of those windows with its 95%% interval\n"+
 			"  over resampling that sample, which is the share itself when every window was sampled; stability):\n",
-			f.FamilySample, plural(f.Selectivity.Above, "window", "windows"))
+			f.FamilySample, wording.Count(f.Selectivity.Above, "window", "windows"))
 	}
 	for _, fam := range f.Families {
 		stab := "-"
@@ -332,7 +336,7 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 			stab = fmt.Sprintf("%.2f", *fam.Stability)
 		}
 		ew.printf("    %-36s %5.1f%% (%.1f–%.1f%%)  stability %s  (%s, about %s)\n",
-			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, plural(fam.Ngrams, "n-gram", "n-grams"), texts(fam.Count))
+			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, wording.Count(fam.Ngrams, "n-gram", "n-grams"), wording.Texts(fam.Count))
 	}
 	for _, s := range f.Slots {
 		ew.printf("  slot %d  on: %s\n          off: %s\n", s.Slot, scoreList(s.Triggers, top), scoreList(s.Suppressors, top))
@@ -375,10 +379,10 @@ func selectivityLine(s *explain.Selectivity, label string) string {
 		thr = "≈" + thr
 	}
 	if s.Windows == 0 {
-		return fmt.Sprintf("threshold %s (%s above): no window of the other half above it: %s", thr, plural(s.Above, "window", "windows"), verdict)
+		return fmt.Sprintf("threshold %s (%s above): no window of the other half above it: %s", thr, wording.Count(s.Above, "window", "windows"), verdict)
 	}
 	return fmt.Sprintf("threshold %s (%s above); on the other half: %d of %d in %s = %.2f (%.2f–%.2f) against a base rate of %.2f, p = %.2g (Holm %.2g): %s",
-		thr, plural(s.Above, "window", "windows"), s.InClass, s.Windows, label, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm, verdict)
+		thr, wording.Count(s.Above, "window", "windows"), s.InClass, s.Windows, label, s.Purity, s.PurityLow, s.PurityHigh, s.BaseRate, s.P, s.PHolm, verdict)
 }
 
 // slotString writes each token with its slot score, those at the slots in

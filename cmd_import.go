@@ -4,13 +4,14 @@ import (
 	"context"
 	"flag"
 	"fmt"
-	"os"
 	"path/filepath"
 	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/inputfile"
 	"telltale/internal/outguard"
+	"telltale/internal/wording"
 	"telltale/torchmodel"
 	"telltale/torchmodel/npy"
 )
@@ -224,7 +225,7 @@ func runImport(ctx context.Context, env *runEnv, o *importOptions) error {
 		fmt.Fprintf(env.Stderr, "warning: %s\n", w)
 	}
 	fmt.Fprintf(env.Stdout, "model saved: %s\nfrom %s (%s)\nlayout: %s\n%s of dimension %d; widths %v, %s each; labels %s\ntokenizer: %s\n",
-		s.Model, s.From, s.Format, s.Layout, plural(s.Vocab, "word", "words"), s.Dim, s.Widths, plural(s.Maps, "map", "maps"), strings.Join(s.Labels, ", "), s.Tokenizer)
+		s.Model, s.From, s.Format, s.Layout, wording.Count(s.Vocab, "word", "words"), s.Dim, s.Widths, wording.Count(s.Maps, "map", "maps"), strings.Join(s.Labels, ", "), s.Tokenizer)
 	if s.Check != "" {
 		fmt.Fprintf(env.Stdout, "checked: %s\n", s.Check)
 	}
@@ -235,12 +236,12 @@ func runImport(ctx context.Context, env *runEnv, o *importOptions) error {
 // model's on the texts of --check-texts and records the result in the
 // model's notes; a mismatch is an error (nothing is written).
 func checkImported(m *cnn.Model, o *importOptions) error {
-	raw, err := os.ReadFile(o.CheckTexts)
+	raw, err := inputfile.ReadFile(o.CheckTexts)
 	if err != nil {
 		return fmt.Errorf("--check-texts: %w", err)
 	}
 	texts := strings.Split(strings.TrimSuffix(strings.ReplaceAll(string(raw), "\r\n", "\n"), "\n"), "\n")
-	f, err := os.Open(o.CheckLogits)
+	f, err := inputfile.Open(o.CheckLogits)
 	if err != nil {
 		return fmt.Errorf("--check-logits: %w", err)
 	}
@@ -264,7 +265,7 @@ func checkImported(m *cnn.Model, o *importOptions) error {
 	if err != nil {
 		return err
 	}
-	m.Info.Notes["origin_check"] = fmt.Sprintf("logits of %s (%s) agree with %s to %.2g (tolerance %g)", plural(len(texts), "text", "texts"), absOrSame(o.CheckTexts), absOrSame(o.CheckLogits), worst, torchmodel.CheckTolerance)
+	m.Info.Notes["origin_check"] = fmt.Sprintf("logits of %s (%s) agree with %s to %.2g (tolerance %g)", wording.Count(len(texts), "text", "texts"), absOrSame(o.CheckTexts), absOrSame(o.CheckLogits), worst, torchmodel.CheckTolerance)
 	return nil
 }
 

@@ -11,6 +11,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/internal/outguard"
+	"telltale/internal/wording"
 )
 
 var cmdTrain = &command{
@@ -159,8 +160,8 @@ func runTrain(ctx context.Context, env *runEnv, o *trainOptions) error {
 func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.Trained, error) {
 	bar := newProgressBar(w, o.quiet)
 	if !o.quiet {
-		bar.line("training on %s (%d labels), dev %s, test %s", texts(len(sp.train.Examples)), len(sp.train.Labels),
-			texts(len(sp.dev.Examples)), texts(len(sp.test.Examples)))
+		bar.line("training on %s (%d labels), dev %s, test %s", wording.Texts(len(sp.train.Examples)), len(sp.train.Labels),
+			wording.Texts(len(sp.dev.Examples)), wording.Texts(len(sp.test.Examples)))
 	}
 	trained, err := cnn.TrainText(ctx, sp.train, sp.dev, o.recipe.recipe(o.split.Seed, o.threads.N), func(p cnn.Progress) {
 		if o.quiet {
@@ -280,7 +281,7 @@ func writeTrainSummary(w io.Writer, s trainSummary) {
 		writeDevFigures(w, *s.Dev)
 	}
 	if s.TestFigures != nil {
-		writeFigures(w, fmt.Sprintf("test split, %s, used for nothing else", texts(s.TestFigures.CNN.N)), *s.TestFigures, s.Baseline)
+		writeFigures(w, fmt.Sprintf("test split, %s, used for nothing else", wording.Texts(s.TestFigures.CNN.N)), *s.TestFigures, s.Baseline)
 	}
 }
 
@@ -289,7 +290,7 @@ func writeTrainSummary(w io.Writer, s trainSummary) {
 // when the confidences are known (left out otherwise: no interval). They
 // chose the epoch, so they flatter the model.
 func writeDevFigures(w io.Writer, dev cnn.Metrics) {
-	writeFigures(w, fmt.Sprintf("dev split, %s, used to choose the epoch", texts(dev.N)), cnn.Figures{CNN: cnn.HeadlineOf(dev)}, nil)
+	writeFigures(w, fmt.Sprintf("dev split, %s, used to choose the epoch", wording.Texts(dev.N)), cnn.Figures{CNN: cnn.HeadlineOf(dev)}, nil)
 	if ece := cnn.IntervalsOf(dev).ECE; ece != nil {
 		fmt.Fprintf(w, "  %-15s  ECE %s\n", "", ece)
 	}

@@ -25,6 +25,7 @@ import (
 	"strings"
 	"syscall"
 
+	"telltale/internal/inputfile"
 	"telltale/internal/localeenv"
 	"telltale/internal/outguard"
 )
@@ -125,7 +126,8 @@ func main() {
 
 // signalContext returns a context cancelled, with a signalled cause, by
 // the first SIGINT or SIGTERM; later ones are ignored while the command
-// finishes (saving what it keeps).
+// finishes (saving what it keeps). The signal also ends an input's wait for
+// a named pipe's writer (inputfile.Interrupt), which no context reaches.
 func signalContext() (context.Context, func()) {
 	ctx, cancel := context.WithCancelCause(context.Background())
 	ch := make(chan os.Signal, 2)
@@ -133,6 +135,7 @@ func signalContext() (context.Context, func()) {
 	go func() {
 		if s, ok := (<-ch).(syscall.Signal); ok {
 			cancel(signalled{s})
+			inputfile.Interrupt() // an input's open that waits for a pipe's writer gives way too
 		}
 	}()
 	return ctx, func() { signal.Stop(ch); cancel(nil) }

@@ -6,6 +6,7 @@ import (
 	"io"
 	"slices"
 	"strings"
+	"sync"
 
 	"telltale/corpus"
 )
@@ -26,6 +27,12 @@ type readOptions struct {
 	Relabel           string
 
 	relabel map[string]string
+	// streamed holds the labels of the examples example has seen, for
+	// unknownRelabel.
+	streamed struct {
+		sync.Mutex
+		labels map[string]bool
+	}
 }
 
 // register adds the reading options; labeled adds --label-col and
@@ -97,10 +104,8 @@ func (r *readOptions) readTexts(path string, warn io.Writer, quiet bool) (*corpu
 func (r *readOptions) prepare(ds *corpus.Dataset, strict bool) (*corpus.Dataset, error) {
 	if r.relabel != nil {
 		if strict {
-			for from := range r.relabel {
-				if !slices.Contains(ds.Labels, from) {
-					return nil, usagef("--relabel: %s has no label %q; its labels are %s", ds.Path, clip(from), listed(ds.Labels))
-				}
+			if msg := relabelMissing(r.relabel, ds.Path, ds.Labels); msg != "" {
+				return nil, usageError{msg}
 			}
 		}
 		ds = ds.Relabel(r.relabel)
@@ -114,6 +119,14 @@ func (r *readOptions) prepare(ds *corpus.Dataset, strict bool) (*corpus.Dataset,
 // example applies --relabel and --mail to one streamed example; keep is
 // false for an example whose label --relabel drops.
 func (r *readOptions) example(e corpus.Example) (out corpus.Example, keep bool) {
+	if r.relabel != nil {
+		r.streamed.Lock()
+		if r.streamed.labels == nil {
+			r.streamed.labels = map[string]bool{}
+		}
+		r.streamed.labels[e.Label] = true
+		r.streamed.Unlock()
+	}
 	if to, ok := r.relabel[e.Label]; ok {
 		if to == "" {
 			return e, false
@@ -124,6 +137,40 @@ func (r *readOptions) example(e corpus.Example) (out corpus.Example, keep bool) 
 		e.Text = corpus.SubjectAndBody(e.Text)
 	}
 	return e, true
+}
+
+// unknownRelabel is the warning for a --relabel label that none of the
+// examples example has seen from the file at path had (checked once the
+// whole file has been streamed), or "" (also when example saw nothing).
+func (r *readOptions) unknownRelabel(path string) string {
+	r.streamed.Lock()
+	defer r.streamed.Unlock()
+	if r.streamed.labels == nil {
+		return ""
+	}
+	labels := make([]string, 0, len(r.streamed.labels))
+	for l := range r.streamed.labels {
+		labels = append(labels, l)
+	}
+	slices.Sort(labels)
+	return relabelMissing(r.relabel, path, labels)
+}
+
+// relabelMissing says which label of relabel the file at path, with the
+// labels given, does not have, or "" when it has them all. Of several,
+// the first in order is named.
+func relabelMissing(relabel map[string]string, path string, labels []string) string {
+	from := make([]string, 0, len(relabel))
+	for l := range relabel {
+		from = append(from, l)
+	}
+	slices.Sort(from)
+	for _, l := range from {
+		if !slices.Contains(labels, l) {
+			return fmt.Sprintf("--relabel: %s has no label %q; its labels are %s", path, clip(l), listed(labels))
+		}
+	}
+	return ""
 }
 
 func parseRelabel(s string) (map[string]string, error) {

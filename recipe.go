@@ -6,13 +6,13 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"os"
 	"runtime"
 	"strconv"
 	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/inputfile"
 )
 
 // recipeOptions are train's model and training options; their defaults
@@ -170,7 +170,7 @@ func (r *recipeOptions) charConfig() *cnn.CharConfig {
 // check before training uses it; training takes the dimension from
 // corpus.ReadVectors itself (cnn.Recipe.DimFromVectors).
 func vectorsDim(path string) int {
-	f, err := os.Open(path)
+	f, err := inputfile.Open(path)
 	if err != nil {
 		return 0
 	}

@@ -9,6 +9,7 @@ import (
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/internal/heldout"
+	"telltale/internal/wording"
 )
 
 // The three splits, one word each everywhere: training, dev (early
@@ -137,7 +138,8 @@ const mayHoldTraining = "may include texts the model was trained on"
 // texts the model was trained on. It warns (on warn unless quiet) when the
 // texts are the model's training data or hold its training texts, and when
 // the recorded test file changed since training; it refuses (a usage error)
-// an empty set of texts.
+// an empty set of texts, and a --relabel label that the one file it is
+// applied to lacks (data, or test when data is "").
 func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writer, quiet bool) (*evalSet, error) {
 	if data == "" && test == "" {
 		return nil, usagef("--data or --test is required: labeled texts to evaluate the model on")
@@ -158,10 +160,12 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	}
 	switch {
 	case test != "":
-		if es.test, err = r.read(test, false, warn, quiet); err != nil {
+		// Without --data the test file is the one file --relabel applies
+		// to: every label it maps must occur there, as in --data for train.
+		if es.test, err = r.read(test, data == "", warn, quiet); err != nil {
 			return nil, err
 		}
-		es.note = fmt.Sprintf("evaluating on the test file %s (%s)", test, texts(len(es.test.Examples)))
+		es.note = fmt.Sprintf("evaluating on the test file %s (%s)", test, wording.Texts(len(es.test.Examples)))
 		es.warnTraining(rec, test, same)
 		if rec != nil && absPath(test) == rec.TestFile {
 			if w := changedSince("test", test, rec.TestFingerprint, es.test); w != "" {
@@ -172,17 +176,17 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 		if es.test, err = r.read(rec.TestFile, false, warn, quiet); err != nil {
 			return nil, fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
 		}
-		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%s)", rec.TestFile, texts(len(es.test.Examples)))
+		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%s)", rec.TestFile, wording.Texts(len(es.test.Examples)))
 		if w := changedSince("test", rec.TestFile, rec.TestFingerprint, es.test); w != "" {
 			es.warnings = append(es.warnings, w)
 		}
 	case same:
 		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%s), never used for training or to choose the epoch",
-			data, 100*rec.TestFrac, rec.Seed, texts(len(es.test.Examples)))
+			data, 100*rec.TestFrac, rec.Seed, wording.Texts(len(es.test.Examples)))
 	case rec == nil:
 		es.test, es.name = all, "all"
 		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %s of %s, which %s",
-			texts(len(all.Examples)), data, mayHoldTraining)
+			wording.Texts(len(all.Examples)), data, mayHoldTraining)
 	default:
 		es.test, es.name = all, "all"
 		es.note = fmt.Sprintf("%s is not the data the model was trained on (%s): evaluating on all %d of its texts, which %s",
@@ -241,7 +245,7 @@ func (es *evalSet) warnTraining(rec *cnn.SplitRecord, path string, same bool) {
 	}
 	if n := inTraining(es.test, es.train); n > 0 {
 		es.warnings = append(es.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the model's training split, so its figures are not all held-out figures",
-			path, mayHoldTraining, n, texts(len(es.test.Examples))))
+			path, mayHoldTraining, n, wording.Texts(len(es.test.Examples))))
 	}
 }
 
@@ -284,7 +288,7 @@ func (es *evalSet) checkNotEmpty(rec *cnn.SplitRecord, data, test string, same b
 		return usagef("--test %s holds no texts to evaluate on: give a labeled test file", test)
 	case same && rec.TestFile == "":
 		return usagef("the test split train held out of %s is empty (--test-frac %g of its %s held out none): "+
-			"give a labeled test file with --test, or retrain with a larger --test-frac", data, rec.TestFrac, texts(rec.Examples))
+			"give a labeled test file with --test, or retrain with a larger --test-frac", data, rec.TestFrac, wording.Texts(rec.Examples))
 	case same:
 		return usagef("%s, the test file the model was trained with, holds no texts: give a labeled test file with --test", rec.TestFile)
 	default:
@@ -300,13 +304,13 @@ func trainingSplit(m *cnn.Model, all *corpus.Dataset, path string) (*corpus.Data
 	rec := m.Info.Splits
 	switch {
 	case rec == nil:
-		return all, fmt.Sprintf("the model file does not record how its splits were made: profiling all %s of %s", texts(len(all.Examples)), path)
+		return all, fmt.Sprintf("the model file does not record how its splits were made: profiling all %s of %s", wording.Texts(len(all.Examples)), path)
 	case rec.Examples != len(all.Examples) || rec.Fingerprint != all.Fingerprint():
-		return all, fmt.Sprintf("%s is not the data the model was trained on (%s): profiling all %s of it", path, rec.Data, texts(len(all.Examples)))
+		return all, fmt.Sprintf("%s is not the data the model was trained on (%s): profiling all %s of it", path, rec.Data, wording.Texts(len(all.Examples)))
 	}
 	train, _, _ := all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
 	return train, fmt.Sprintf("profiling the training split of %s, as the report does: %d of its %s, the dev and test splits left out",
-		path, len(train.Examples), texts(len(all.Examples)))
+		path, len(train.Examples), wording.Texts(len(all.Examples)))
 }
 
 // say prints a note on w unless quiet.

@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	"telltale/corpus"
+	"telltale/internal/wording"
 )
 
 // checkData refuses, before training, data that would give a useless
@@ -62,7 +63,7 @@ func (o *trainOptions) heldFilesInTraining(sp *splits) []string {
 		if n := inTraining(f.ds, sp.train); n > 0 {
 			msgs = append(msgs, fmt.Sprintf("%s %s: %d of its %s are texts of the training split of %s: %s; "+
 				"take them out of one of the files ('telltale data --data %s %s %s' lists them)",
-				f.opt, f.path, n, texts(len(f.ds.Examples)), o.data, f.use, o.data, f.opt, f.path))
+				f.opt, f.path, n, wording.Texts(len(f.ds.Examples)), o.data, f.use, o.data, f.opt, f.path))
 		}
 	}
 	return msgs
@@ -100,7 +101,7 @@ func (o *trainOptions) checkVocabulary(sp *splits) error {
 	}
 	if words == 0 && !o.recipe.Subword {
 		return fmt.Errorf("the vocabulary is empty: no word occurs %s in the training split (the most frequent occurs %s): lower --min-count",
-			plural(o.recipe.MinCount, "time", "times"), plural(top, "time", "times"))
+			wording.Count(o.recipe.MinCount, "time", "times"), wording.Count(top, "time", "times"))
 	}
 	vocab := 2 + words
 	if o.recipe.Subword {
@@ -130,7 +131,7 @@ func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet boo
 	if quiet {
 		return &out, nil
 	}
-	fmt.Fprintf(w, "mask-tokens: %s of the patterns in %s taken out of the training text\n", plural(total, "match", "matches"), file)
+	fmt.Fprintf(w, "mask-tokens: %s of the patterns in %s taken out of the training text\n", wording.Count(total, "match", "matches"), file)
 	for _, p := range cm.Patterns() {
 		if strings.HasPrefix(p, "/") || !strings.ContainsAny(p, `\[]{}()*+?|^$`) {
 			continue

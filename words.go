@@ -5,18 +5,6 @@ import (
 	"strings"
 )
 
-// plural is n with the noun in the form that goes with it: "1 text",
-// "3 texts". Many is the plural form (most nouns: one + "s").
-func plural(n int, one, many string) string {
-	if n == 1 || n == -1 {
-		return strconv.Itoa(n) + " " + one
-	}
-	return strconv.Itoa(n) + " " + many
-}
-
-// texts is plural(n, "text", "texts"), the count the command line says most.
-func texts(n int) string { return plural(n, "text", "texts") }
-
 // change says how a probability moves by a drop d (positive: it falls):
 // "falls by 0.029", "rises by 0.029", never a fall by a negative amount.
 func change(d float64) string {

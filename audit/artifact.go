@@ -6,6 +6,8 @@ import (
 	"slices"
 	"strings"
 	"unicode"
+
+	"telltale/internal/wording"
 )
 
 // The artifact-likeness signals, by the name the JSON gives them. Each is a
@@ -376,7 +378,7 @@ func trainingSignals(d Data, vocab []string, occ []span, length int, inLabel, te
 	sig := []Signal{
 		{Name: SignalEdge, Value: overHalf(edge), Says: "it sits at the very " + where + " of the text in " + pct(edge) + " of its occurrences"},
 		{Name: SignalLine, Value: overHalf(share(line)), Says: "it is a whole line of its own in " + pct(share(line)) + " of its occurrences"},
-		{Name: SignalSpan, Value: min(1, float64(length-1)/9), Says: "its " + plural(length, "word") + " always come together"},
+		{Name: SignalSpan, Value: min(1, float64(length-1)/9), Says: "its " + wording.Count(length, "word", "words") + " always come together"},
 		{Name: SignalContext, Value: fixed, Says: "the words next to it are " + sameness(fixed)},
 		{Name: SignalCode, Value: share(code), Says: "it is an identifier with digits in " + pct(share(code)) + " of its occurrences"},
 		{Name: SignalNumber, Value: share(number), Says: "it is only numbers or dates in " + pct(share(number)) + " of its occurrences"},
@@ -384,7 +386,7 @@ func trainingSignals(d Data, vocab []string, occ []span, length int, inLabel, te
 		{Name: SignalMarkup, Value: share(markup), Says: "it is or holds markup (an HTML tag, a quoted-printable code, a header line, a tag in brackets) or a run of the same mark in " +
 			pct(share(markup)) + " of its occurrences"},
 		{Name: SignalCasing, Value: casing, Says: casingSays(top, casing)},
-		{Name: SignalPurity, Value: purity, Says: "it is in one label in " + pct(float64(inLabel)/float64(max(1, texts))) + " of its " + plural(texts, "training text") +
+		{Name: SignalPurity, Value: purity, Says: "it is in one label in " + pct(float64(inLabel)/float64(max(1, texts))) + " of its " + wording.Count(texts, "training text", "training texts") +
 			" (at least " + pct(lo) + " with 95% confidence)"},
 	}
 	for i := range sig {

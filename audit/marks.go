@@ -4,13 +4,13 @@ import (
 	"bytes"
 	"fmt"
 	"io"
-	"os"
 	"slices"
 	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/internal/atomicfile"
+	"telltale/internal/inputfile"
 )
 
 // The two marks a person can give a cue.
@@ -121,7 +121,7 @@ func (mk *Marks) Patterns() []string {
 // caller may start from NewMarks). Every other problem is an error naming
 // the file, the line and the fix, wrapping ErrInput.
 func ReadMarks(path string, m *cnn.Model) (*Marks, error) {
-	data, err := os.ReadFile(path)
+	data, err := inputfile.ReadFile(path)
 	if err != nil {
 		return nil, fmt.Errorf("audit: marks file: %w", err)
 	}

@@ -6,6 +6,8 @@ import (
 	"io"
 	"math"
 	"strings"
+
+	"telltale/internal/wording"
 )
 
 // fmtPct writes a share as a percentage: whole numbers from 10%, one
@@ -24,13 +26,6 @@ func pval(p float64) string {
 		return "< 1e-300"
 	}
 	return fmt.Sprintf("%.2g", p)
-}
-
-func plural(n int, what string) string {
-	if n == 1 {
-		return "1 " + what
-	}
-	return fmt.Sprintf("%d %ss", n, what)
 }
 
 // interval writes a share with its interval: "37% (30–44%)".
@@ -184,7 +179,7 @@ func (r *Result) writeStory(w io.Writer) {
 		p("confirming half of the test texts, which took no part in choosing it: there is nothing to act on.\n")
 	} else {
 		p("The model depends on %s that look%s like how the data was collected rather than like the task:\n",
-			plural(len(acted), "cue"), map[bool]string{true: "s", false: ""}[len(acted) == 1])
+			wording.Count(len(acted), "cue", "cues"), map[bool]string{true: "s", false: ""}[len(acted) == 1])
 		for n, c := range acted {
 			cr := c.Confirmed
 			share := float64(cr.Texts) / float64(max(1, r.ConfirmationTexts))

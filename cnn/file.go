@@ -9,12 +9,12 @@ import (
 	"hash/crc32"
 	"io"
 	"math"
-	"os"
 	"slices"
 	"unsafe"
 
 	"telltale/corpus"
 	"telltale/internal/atomicfile"
+	"telltale/internal/inputfile"
 	"telltale/internal/version"
 	"telltale/linear"
 )
@@ -246,7 +246,7 @@ func LoadWithoutBaseline(path string) (*Model, error) {
 }
 
 func load(path string, withBaseline bool) (*Model, error) {
-	data, err := os.ReadFile(path)
+	data, err := inputfile.ReadFile(path)
 	if err != nil {
 		return nil, fmt.Errorf("cnn: loading model: %w", err)
 	}

@@ -9,6 +9,9 @@ import (
 	"os"
 	"sort"
 	"strings"
+
+	"telltale/internal/inputfile"
+	"telltale/internal/wording"
 )
 
 // Columns returns the column names of the corpus file at path, for a
@@ -31,7 +34,7 @@ func Columns(path string, opt Options) ([]string, error) {
 	if st.IsDir() {
 		return nil, errAt(path, 0, ErrFormat, "is a folder: a folder is read as one sub-folder per label (format dir)")
 	}
-	f, err := os.Open(path)
+	f, err := inputfile.Open(path)
 	if err != nil {
 		return nil, kindError(ErrEmpty, "corpus: %s: cannot open: %v", path, err)
 	}
@@ -145,7 +148,8 @@ func LoadBytes(name string, data []byte, opt Options) (*Dataset, []Warning, erro
 		return nil, ws.result(), errAt(name, 0, ErrEmpty, "no examples found: the file needs a header row and at least one record with a non-empty text")
 	}
 	if len(d.Labels) < 2 {
-		return nil, ws.result(), errAt(name, 0, ErrLabel, "only one label %s in %d examples: a classifier needs at least two labels; check the label column", quote(d.Labels[0]), len(d.Examples))
+		return nil, ws.result(), errAt(name, 0, ErrLabel, "only one label %s in %s: a classifier needs at least two labels; check the label column",
+			quote(d.Labels[0]), wording.Count(len(d.Examples), "example", "examples"))
 	}
 	sort.Strings(d.Labels)
 	return d, ws.result(), nil

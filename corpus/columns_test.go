@@ -64,6 +64,7 @@ func TestLoadBytesMatchesLoad(t *testing.T) {
 		{"a.tsv", "label\ttext\nx\tone\ny\ttwo\n"},
 		{"a.jsonl", "{\"text\":\"one\",\"label\":1}\n\n{\"text\":\"two\",\"label\":2}\n"},
 		{"one-label.csv", "text,label\na,x\nb,x\n"},
+		{"one-example.csv", "text,label\na,x\n"},
 		{"bad-quote.csv", "text,label\n\"a,x\nb,y\n"},
 		{"no-label.csv", "text,team\nhi,a\n"},
 		{"invalid.csv", "text,label\nbad \xff byte,a\nok,b\n"},

@@ -3,11 +3,12 @@ package corpus
 import (
 	"errors"
 	"fmt"
-	"os"
 	"regexp"
 	"strings"
 	"unicode"
 	"unicode/utf8"
+
+	"telltale/internal/inputfile"
 )
 
 // ErrCuePattern is wrapped by every error about a bad cue-pattern list.
@@ -57,7 +58,7 @@ func MaskTokens(patterns []string) (*CueMasker, error) {
 // are skipped; surrounding white space is trimmed. A bad regular expression
 // is an error naming the file and line.
 func LoadCueMasker(path string) (*CueMasker, error) {
-	data, err := os.ReadFile(path)
+	data, err := inputfile.ReadFile(path)
 	if err != nil {
 		return nil, fmt.Errorf("corpus: cue pattern file: %w", err)
 	}

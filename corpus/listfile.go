@@ -4,9 +4,10 @@ import (
 	"bufio"
 	"bytes"
 	"fmt"
-	"os"
 	"strings"
 	"unicode/utf8"
+
+	"telltale/internal/inputfile"
 )
 
 // ListEntry is one entry of a list file: its text and its line (from 1).
@@ -23,7 +24,7 @@ type ListEntry struct {
 // wrapping ErrEncoding or ErrTooLong; a file that cannot be read is an
 // error wrapping the os error.
 func ReadListFile(path string) ([]ListEntry, error) {
-	data, err := os.ReadFile(path)
+	data, err := inputfile.ReadFile(path)
 	if err != nil {
 		return nil, fmt.Errorf("corpus: %w", err)
 	}

@@ -16,6 +16,9 @@ import (
 	"strings"
 	"unicode"
 	"unicode/utf8"
+
+	"telltale/internal/inputfile"
+	"telltale/internal/wording"
 )
 
 // DefaultMaxTextBytes is the text length limit used when Options.MaxTextBytes is 0.
@@ -135,7 +138,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 			return nil, errAt(path, 0, ErrFormat, "is a folder: a folder is read as one sub-folder per label (format dir)")
 		}
 		var f *os.File
-		f, err = os.Open(path)
+		f, err = inputfile.Open(path)
 		if err != nil {
 			return nil, kindError(ErrEmpty, "corpus: %s: cannot open: %v", path, err)
 		}
@@ -169,7 +172,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 		if format == "dir" {
 			fix = "put the examples of each label in one sub-folder per label"
 		}
-		return ws.result(), errAt(path, 0, ErrLabel, "only one label %s in %d examples: a classifier needs at least two labels; %s", quote(only), n, fix)
+		return ws.result(), errAt(path, 0, ErrLabel, "only one label %s in %s: a classifier needs at least two labels; %s", quote(only), wording.Count(n, "example", "examples"), fix)
 	}
 	return ws.result(), nil
 }
@@ -944,7 +947,7 @@ func readDir(root string, opt Options, ws *warnings, fn func(Example) error) err
 		}
 	}
 	if ignored > 0 {
-		ws.add(root, 0, "%d files at the top level ignored: examples belong in one sub-folder per label", ignored)
+		ws.add(root, 0, "%s at the top level ignored: examples belong in one sub-folder per label", wording.Count(ignored, "file", "files"))
 	}
 	return nil
 }
@@ -989,10 +992,10 @@ func readLabelDir(root, name, label string, opt Options, ws *warnings, fn func(E
 		}
 	}
 	if skipped > 0 {
-		ws.add(sub, 0, "%d files skipped: only .txt files and files without extension are examples", skipped)
+		ws.add(sub, 0, "%s skipped: only .txt files and files without extension are examples", wording.Count(skipped, "file", "files"))
 	}
 	if nested > 0 {
-		ws.add(sub, 0, "%d sub-folders ignored: put example files directly in the label folder", nested)
+		ws.add(sub, 0, "%s ignored: put example files directly in the label folder", wording.Count(nested, "sub-folder", "sub-folders"))
 	}
 	if kept == 0 {
 		ws.add(sub, 0, "label folder holds no examples")

@@ -106,6 +106,7 @@ func TestLoadBadInput(t *testing.T) {
 		{"label with a tab after blank lines", "a.csv", "text,label\nok,a\nfine,\" \n\nb\tc\"\n", Options{}, ErrLabel, "line 3", `label "b\tc" holds a line break, a tab`},
 		{"jsonl label with a tab", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\":\"b\",\"label\":\"y\\tz\"}\n", Options{}, ErrLabel, "line 2", `label "y\tz" holds`},
 		{"one label only", "a.csv", "text,label\nok,a\nfine,a\n", Options{}, ErrLabel, "", `only one label "a" in 2 examples`},
+		{"one example only", "a.csv", "text,label\nok,a\n", Options{}, ErrLabel, "", `only one label "a" in 1 example:`},
 		{"only empty texts", "a.csv", "text,label\n ,a\n,b\n", Options{}, ErrEmpty, "", "no examples"},
 		{"10 MB single line csv", "a.csv", "text,label\n" + long + ",a\n", Options{}, ErrTooLong, "line 2", "record longer than"},
 		{"10 MB single line jsonl", "a.jsonl", "{\"text\":\"a\",\"label\":\"x\"}\n{\"text\":\"" + long + "\",\"label\":\"y\"}\n", Options{}, ErrTooLong, "line 2", "line longer than"},
@@ -202,9 +203,39 @@ func TestLoadDir(t *testing.T) {
 		msgs = append(msgs, w.String())
 	}
 	wantW := []string{
-		"corpus: " + filepath.Join(dir, "ham") + ": 1 files skipped: only .txt files and files without extension are examples",
-		"corpus: " + filepath.Join(dir, "spam") + ": 1 sub-folders ignored: put example files directly in the label folder",
-		"corpus: " + dir + ": 1 files at the top level ignored: examples belong in one sub-folder per label",
+		"corpus: " + filepath.Join(dir, "ham") + ": 1 file skipped: only .txt files and files without extension are examples",
+		"corpus: " + filepath.Join(dir, "spam") + ": 1 sub-folder ignored: put example files directly in the label folder",
+		"corpus: " + dir + ": 1 file at the top level ignored: examples belong in one sub-folder per label",
+	}
+	if !reflect.DeepEqual(msgs, wantW) {
+		t.Errorf("warnings %q\nwant %q", msgs, wantW)
+	}
+}
+
+// TestLoadDirCountsTwo: with two of each, the folder warnings count in the
+// plural (English number agreement, as TestLoadDir for one).
+func TestLoadDirCountsTwo(t *testing.T) {
+	dir := t.TempDir()
+	writeFile(t, dir, "ham/1.txt", "hello")
+	writeFile(t, dir, "ham/1.json", `{"text":"hello"}`)
+	writeFile(t, dir, "ham/1.html", "<p>hello</p>")
+	writeFile(t, dir, "ham/deeper/x.txt", "nested")
+	writeFile(t, dir, "ham/deepest/y.txt", "nested")
+	writeFile(t, dir, "spam/1.txt", "buy now")
+	writeFile(t, dir, "README.md", "top level")
+	writeFile(t, dir, "LICENSE.md", "top level")
+	_, ws, err := Load(dir, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var msgs []string
+	for _, w := range ws {
+		msgs = append(msgs, w.String())
+	}
+	wantW := []string{
+		"corpus: " + filepath.Join(dir, "ham") + ": 2 files skipped: only .txt files and files without extension are examples",
+		"corpus: " + filepath.Join(dir, "ham") + ": 2 sub-folders ignored: put example files directly in the label folder",
+		"corpus: " + dir + ": 2 files at the top level ignored: examples belong in one sub-folder per label",
 	}
 	if !reflect.DeepEqual(msgs, wantW) {
 		t.Errorf("warnings %q\nwant %q", msgs, wantW)

@@ -19,6 +19,8 @@ import (
 	"github.com/sugarme/tokenizer/normalizer"
 	"github.com/sugarme/tokenizer/pretrained"
 	"golang.org/x/text/unicode/norm"
+
+	"telltale/internal/inputfile"
 )
 
 // TokenizerConfig describes a tokenizer completely; it round-trips through
@@ -87,7 +89,7 @@ func NewTokenizer(cfg TokenizerConfig) (*Tokenizer, error) {
 	}
 	t.norm = normalizer.NewSequence(ns)
 	if cfg.File != "" && len(cfg.FileJSON) == 0 {
-		b, err := os.ReadFile(cfg.File)
+		b, err := inputfile.ReadFile(cfg.File)
 		if err != nil {
 			return nil, kindError(ErrFormat, "corpus: %s: cannot read tokenizer file: %v", cfg.File, err)
 		}

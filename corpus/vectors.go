@@ -13,6 +13,8 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+
+	"telltale/internal/inputfile"
 )
 
 // ErrVectors marks a malformed word-vector file.
@@ -43,7 +45,7 @@ const vectorBlock = 4 << 20
 // fast); keep is called from several goroutines at once. Later duplicates of
 // a word are ignored. Blocks of lines are parsed in parallel.
 func ReadVectors(path string, keep func(word string) bool) (*Vectors, error) {
-	f, err := os.Open(path)
+	f, err := inputfile.Open(path)
 	if err != nil {
 		return nil, fmt.Errorf("corpus: %s: cannot open the vector file: %w", path, err)
 	}

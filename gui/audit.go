@@ -10,6 +10,7 @@ import (
 	"telltale/audit"
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/wording"
 )
 
 // auditState is one cue audit of the open model (audit.Run) with what the
@@ -172,7 +173,7 @@ func (st *State) runAudit(then func()) {
 // auditDone says in the status bar what the audit found.
 func auditDone(r *audit.Result) string {
 	return fmt.Sprintf("Cue audit done: %s acted on, %s artifact-like, %s relied on that read like the task.",
-		plural(len(r.Action.Cues), "cue", "cues"), plural(len(r.Ranked), "cue", "cues"), plural(len(r.Task), "cue", "cues"))
+		wording.Count(len(r.Action.Cues), "cue", "cues"), wording.Count(len(r.Ranked), "cue", "cues"), wording.Count(len(r.Task), "cue", "cues"))
 }
 
 // auditWork runs audit.Run on the training split (association) and the
@@ -407,7 +408,7 @@ func (st *State) retrainNow(as *auditState, done func(*retrained)) {
 		}
 		return func() {
 			st.setStatus(fmt.Sprintf("Retrained without %s: accuracy %.3f on the confirming half of the test split, against %.3f for the model audited.",
-				plural(len(rt.Patterns), "cue", "cues"), rt.Original.After.Estimate, rt.Original.Before.Estimate))
+				wording.Count(len(rt.Patterns), "cue", "cues"), rt.Original.After.Estimate, rt.Original.Before.Estimate))
 			done(&retrained{of: as, rt: rt})
 		}, nil
 	})

@@ -8,6 +8,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/audit"
+	"telltale/internal/wording"
 )
 
 // auditView shows the cue audit (package audit) of the open model: the
@@ -182,7 +183,7 @@ func (v *auditView) auditChanged() {
 	r := a.R
 	v.summary.SetText(fmt.Sprintf("Association is tested on the %s of the training split; reliance is measured on the %s of the test split, "+
 		"halved at random into %d that choose the cues and %d that confirm them: every figure comes from the confirming half unless it says otherwise.",
-		texts(r.TrainTexts), texts(r.HeldoutTexts), r.SelectionTexts, r.ConfirmationTexts))
+		wording.Texts(r.TrainTexts), wording.Texts(r.HeldoutTexts), r.SelectionTexts, r.ConfirmationTexts))
 	v.story.SetText(windowStory(r))
 	v.ranked.setRows(cueRows(r, r.Ranked))
 	v.task.setRows(cueRows(r, r.Task))

@@ -13,6 +13,7 @@ import (
 	"gonum.org/v1/plot/vg"
 
 	"telltale/corpus"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -108,7 +109,7 @@ func (v *corpusView) refresh() {
 	if cs == nil {
 		return
 	}
-	v.source.SetText(fmt.Sprintf("Open: %s — %s, labels %s.", cs.Source, texts(len(cs.All.Examples)), strings.Join(cs.Train.Labels, ", ")))
+	v.source.SetText(fmt.Sprintf("Open: %s — %s, labels %s.", cs.Source, wording.Texts(len(cs.All.Examples)), strings.Join(cs.Train.Labels, ", ")))
 	v.splits.SetText(splitsLine(cs))
 	v.textCol.SetOptions(cs.Columns)
 	v.labelCol.SetOptions(cs.Columns)
@@ -137,7 +138,7 @@ func (v *corpusView) refreshCues() {
 		v.cuesNote.SetText(noCuesYet)
 		return
 	}
-	found := plural(a.R.Associated, "word or phrase predicts", "words and phrases predict")
+	found := wording.Count(a.R.Associated, "word or phrase predicts", "words and phrases predict")
 	v.cuesNote.SetText(fmt.Sprintf("%s a label in the training split (%s, corrected over the %d word × label tests by %s); "+
 		"listed here: the %d the Cue audit view lists, then the most associated of the others.", found,
 		report.AssociationTestName(a.R.Test), a.R.Tests, report.CorrectionName(a.R.Correction), len(rows)))
@@ -146,12 +147,12 @@ func (v *corpusView) refreshCues() {
 // splitsLine says how the three splits were made and how big they are.
 func splitsLine(cs *corpusState) string {
 	p := cs.Plan
-	test := fmt.Sprintf("test %s (%.0f%% of the data)", texts(len(cs.Test.Examples)), 100*p.TestFrac)
+	test := fmt.Sprintf("test %s (%.0f%% of the data)", wording.Texts(len(cs.Test.Examples)), 100*p.TestFrac)
 	if cs.TestFile != nil {
-		test = fmt.Sprintf("test %s (its own file)", texts(len(cs.Test.Examples)))
+		test = fmt.Sprintf("test %s (its own file)", wording.Texts(len(cs.Test.Examples)))
 	}
 	return fmt.Sprintf("Splits, stratified by label with seed %d: training %s, dev %s (%.0f%% of the data, for early stopping), %s.",
-		p.Seed, texts(len(cs.Train.Examples)), texts(len(cs.Dev.Examples)), 100*p.DevFrac, test)
+		p.Seed, wording.Texts(len(cs.Train.Examples)), wording.Texts(len(cs.Dev.Examples)), 100*p.DevFrac, test)
 }
 
 // warningsText lists the reader's warnings, or says there are none.
@@ -179,7 +180,7 @@ func summaryFacts(cs *corpusState) string {
 	}
 	fmt.Fprintf(&b, "\nVocabulary of the training split: %d words; %.1f%% of test tokens are not in it. "+
 		"Groups of exact duplicates %d, of near duplicates %d; %s of the dev and test splits also in the training split (leaks).",
-		s.VocabSize, 100*s.TestOOVRate, s.ExactGroups, s.NearGroups, texts(s.Leaks))
+		s.VocabSize, 100*s.TestOOVRate, s.ExactGroups, s.NearGroups, wording.Texts(s.Leaks))
 	return b.String()
 }
 

@@ -12,6 +12,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/explain"
+	"telltale/internal/wording"
 )
 
 // filtersView is the list of the model's filters and the selected filter's
@@ -207,7 +208,7 @@ func (v *filtersView) paintNgrams(fp *explain.FilterProfile) {
 			chip.value, chip.compact = val, true
 			row.Add(chip)
 		}
-		row.Add(widget.NewLabel(fmt.Sprintf("activation %.3f log-odds · wins in %s", n.ActivationLogOdds, texts(n.Count))))
+		row.Add(widget.NewLabel(fmt.Sprintf("activation %.3f log-odds · wins in %s", n.ActivationLogOdds, wording.Texts(n.Count))))
 		v.ngrams.Add(row)
 	}
 	v.ngrams.Add(heatLegend(scale, "slot score (log-odds)", "slot score (log-odds)"))

@@ -23,18 +23,6 @@ func shortList(gs []int, n int) string {
 	return fmt.Sprintf("%s and %d more", intList(gs[:n]), len(gs)-n)
 }
 
-// plural writes a count with the singular or plural form: "1 text",
-// "2 texts".
-func plural(n int, one, many string) string {
-	if n == 1 {
-		return "1 " + one
-	}
-	return fmt.Sprintf("%d %s", n, many)
-}
-
-// texts is plural for texts, the most counted thing on screen.
-func texts(n int) string { return plural(n, "text", "texts") }
-
 func yesNo(b bool) string {
 	if b {
 		return "yes"

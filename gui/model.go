@@ -10,6 +10,7 @@ import (
 	"telltale/corpus"
 	"telltale/explain"
 	"telltale/internal/heldout"
+	"telltale/internal/wording"
 )
 
 // modelState is the open model and what the window knows about it.
@@ -97,7 +98,7 @@ func (ms *modelState) caption() string {
 	s := fmt.Sprintf("Model: %s — %d filters (widths %s × %d maps), %d labels.", name, c.NumFilters(),
 		intList(c.Widths), c.Filters, len(ms.Model.Labels))
 	if m := ms.masked(); len(m) > 0 {
-		s += fmt.Sprintf(" A masked model: %s switched off (%s).", plural(len(m), "filter is", "filters are"), shortList(m, 12))
+		s += fmt.Sprintf(" A masked model: %s switched off (%s).", wording.Count(len(m), "filter is", "filters are"), shortList(m, 12))
 	}
 	return s + ms.warned() // kept in view: the status bar moves on
 }

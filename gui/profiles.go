@@ -10,6 +10,7 @@ import (
 	"gonum.org/v1/plot/vg"
 
 	"telltale/explain"
+	"telltale/internal/wording"
 )
 
 // profileState holds the filter profiles of the open model over the
@@ -46,7 +47,7 @@ func (st *State) profileNow(then func()) {
 		p, err := explain.Profile(ctx, ms.Model, d.IDs, d.Labels, explain.ProfileOptions{
 			Table: ms.Table,
 			Progress: func(done, total int) {
-				report(done, total, fmt.Sprintf("Profiling the filters: %d of %s", done, texts(total)))
+				report(done, total, fmt.Sprintf("Profiling the filters: %d of %s", done, wording.Texts(total)))
 			},
 		})
 		if err != nil {
@@ -58,7 +59,7 @@ func (st *State) profileNow(then func()) {
 				return
 			}
 			st.profiles.Set(ps)
-			st.setStatus(fmt.Sprintf("Profiled %d filters over %s.", len(p.Filters), texts(p.Texts)))
+			st.setStatus(fmt.Sprintf("Profiled %d filters over %s.", len(p.Filters), wording.Texts(p.Texts)))
 			then()
 		}, nil
 	})

@@ -12,6 +12,7 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 
 	"telltale/cnn"
+	"telltale/internal/wording"
 )
 
 // resultsView shows the model on the test split: the headline figures with
@@ -126,7 +127,7 @@ func (v *resultsView) showCell(gold, pred int) {
 	v.cellTexts.setRows(rows)
 	v.confusion.selectCell(gold, pred)
 	v.cellNote.SetText(fmt.Sprintf("%s of the test split with gold label %s predicted as %s (# is the text's index in the test split, from 0). Click one to explain it.",
-		capitalize(texts(len(rows))), ev.Metrics.Labels[gold], ev.Metrics.Labels[pred]))
+		capitalize(wording.Texts(len(rows))), ev.Metrics.Labels[gold], ev.Metrics.Labels[pred]))
 }
 
 func (v *resultsView) refresh() {
@@ -139,7 +140,7 @@ func (v *resultsView) refresh() {
 	v.caption.SetText(ms.caption())
 	m := ms.Eval.Metrics
 	head, beside := figureLines(ms.Eval.Figures, ms.Model)
-	v.headline.SetText(fmt.Sprintf("Test split, %s: %s (%g%% intervals).", texts(m.N), head, 100*cnn.IntervalLevel))
+	v.headline.SetText(fmt.Sprintf("Test split, %s: %s (%g%% intervals).", wording.Texts(m.N), head, 100*cnn.IntervalLevel))
 	v.beside.SetText(beside)
 	iv := cnn.IntervalsOf(m)
 	var rows [][]string

@@ -6,6 +6,7 @@ import (
 
 	"telltale/audit"
 	"telltale/corpus"
+	"telltale/internal/wording"
 )
 
 // auditView is the cue audit, formatted: the story first, then what to do,
@@ -36,7 +37,7 @@ type actionView struct {
 func auditLayout(r *audit.Result, priors []float64, modelPath string) *auditView {
 	av := &auditView{Halves: fmt.Sprintf("Association is tested on the %s of the training split; reliance is measured on the %s of the test split, "+
 		"halved at random into %s that choose the cues and %s that confirm them: every figure below comes from the confirming half unless it says otherwise.",
-		plural(r.TrainTexts, "text"), plural(r.HeldoutTexts, "text"), count(r.SelectionTexts), count(r.ConfirmationTexts))}
+		wording.Grouped(r.TrainTexts, "text", "texts"), wording.Grouped(r.HeldoutTexts, "text", "texts"), count(r.SelectionTexts), count(r.ConfirmationTexts))}
 	for _, para := range strings.Split(r.Story(), "\n\n") {
 		av.Story = append(av.Story, reflow(para))
 	}

@@ -5,6 +5,7 @@ import (
 	"strings"
 
 	"telltale/audit"
+	"telltale/internal/wording"
 )
 
 // CueEvidence is one cue of a cue audit in plain words, every figure with
@@ -79,7 +80,7 @@ func DescribeCue(c *audit.Candidate, r *audit.Result, priors []float64) CueEvide
 		ab := f.Ablation
 		ev.Filters = fmt.Sprintf("%s read it (%s); masked together%s, the accuracy on the confirming half goes from %s to %s "+
 			"(%s fixed, %s broken, one-sided exact McNemar p %s) and %s of the %s texts there that hold it change their prediction",
-			plural(len(f.Keyed), "filter"), ints(f.Keyed), wideWords(ab.Words), accuracy(ab.Before), accuracy(ab.After), count(ab.Fixed), count(ab.Broken),
+			wording.Grouped(len(f.Keyed), "filter", "filters"), ints(f.Keyed), wideWords(ab.Words), accuracy(ab.Before), accuracy(ab.After), count(ab.Fixed), count(ab.Broken),
 			pvalue(ab.P), count(ab.CueFlipped), count(ab.CueTexts))
 	}
 	if f := c.Filters; f != nil && f.WordPart != nil {
@@ -121,7 +122,7 @@ func shown(c *audit.Candidate) *audit.Reliance {
 func association(c *audit.Candidate, r *audit.Result, priors []float64) string {
 	as := c.Association
 	lo, hi := audit.Wilson(as.InLabel, as.Texts, 0.95)
-	s := fmt.Sprintf("%s hold it, %s of them %s", plural(as.Texts, "training text"),
+	s := fmt.Sprintf("%s hold it, %s of them %s", wording.Grouped(as.Texts, "training text", "training texts"),
 		interval(audit.Interval{Estimate: as.Share, Low: lo, High: hi}), c.Label)
 	if c.Class < len(priors) {
 		s += fmt.Sprintf(", against %s of all training texts", pct(priors[c.Class]))
@@ -205,11 +206,4 @@ func pvalue(p float64) string {
 		return "< 1e-300"
 	}
 	return "= " + fmt.Sprintf("%.2g", p)
-}
-
-func plural(n int, what string) string {
-	if n == 1 {
-		return "1 " + what
-	}
-	return count(n) + " " + what + "s"
 }

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"strconv"
+
+	"telltale/internal/wording"
 )
 
 // Number formats used throughout the page (common practice, no source):
@@ -43,25 +45,8 @@ func signed(x float64) string {
 	return s
 }
 
-func count(n int) string {
-	s := strconv.Itoa(n)
-	neg := n < 0
-	if neg {
-		s = s[1:]
-	}
-	// Thin grouping with a comma every three digits.
-	var out []byte
-	for i := range len(s) {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			out = append(out, ',')
-		}
-		out = append(out, s[i])
-	}
-	if neg {
-		return "-" + string(out)
-	}
-	return string(out)
-}
+// count writes n grouped by thousands: "1,200".
+func count(n int) string { return wording.Thousands(n) }
 
 func ints(v []int) string {
 	s := ""

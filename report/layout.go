@@ -10,6 +10,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/wording"
 )
 
 // page is everything the template shows, already formatted.
@@ -234,7 +235,7 @@ func maxLen(n int) string {
 	if n <= 0 {
 		return "whole text"
 	}
-	return plural(n, "token")
+	return wording.Grouped(n, "token", "tokens")
 }
 
 func yesNo(b bool) string {

@@ -40,8 +40,6 @@ func TestFormats(t *testing.T) {
 		{interval(auditpkg.Interval{Estimate: 0.14, Low: 0.086, High: 0.191}), "14.0% (8.6–19.1%)"},
 		{drop(auditpkg.Interval{Estimate: 0.001, Low: -0.046, High: 0.052}), "0.001 (-0.046 to 0.052)"},
 		{accuracy(auditpkg.Interval{Estimate: 0.9, Low: 0.867, High: 0.926}), "0.900 (0.867–0.926)"},
-		{plural(1, "filter"), "1 filter"},
-		{plural(1200, "training text"), "1,200 training texts"},
 		{AssociationTestName(auditpkg.TestBinomial), "exact binomial test"},
 		{CorrectionName(auditpkg.CorrectBonferroni), "Bonferroni"},
 	} {

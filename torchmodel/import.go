@@ -8,13 +8,13 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"path/filepath"
 	"strings"
 	"time"
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/inputfile"
 	"telltale/torchmodel/npy"
 	"telltale/torchmodel/statedict"
 )
@@ -231,7 +231,7 @@ func readWeights(ctx context.Context, o Options) (*statedict.StateDict, error) {
 	if !strings.EqualFold(filepath.Ext(o.StateDict), ".npz") {
 		return statedict.Read(ctx, o.StateDict, statedict.Options{Entry: o.Entry, Progress: o.Progress})
 	}
-	f, err := os.Open(o.StateDict)
+	f, err := inputfile.Open(o.StateDict)
 	if err != nil {
 		return nil, fmt.Errorf("torchmodel: %w", err)
 	}
@@ -411,7 +411,7 @@ func absPath(p string) string {
 }
 
 func fileSHA256(path string) (string, error) {
-	f, err := os.Open(path)
+	f, err := inputfile.Open(path)
 	if err != nil {
 		return "", fmt.Errorf("torchmodel: %w", err)
 	}

@@ -5,10 +5,11 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
-	"os"
 	"path/filepath"
 	"strings"
 	"unicode/utf8"
+
+	"telltale/internal/inputfile"
 )
 
 // maxListFile bounds the size of a vocabulary or labels file read into memory.
@@ -43,7 +44,7 @@ func ReadLabels(path string) ([]string, error) {
 }
 
 func readSmall(path string) ([]byte, error) {
-	f, err := os.Open(path)
+	f, err := inputfile.Open(path)
 	if err != nil {
 		return nil, fmt.Errorf("torchmodel: %w", err)
 	}

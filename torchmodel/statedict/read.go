@@ -12,6 +12,8 @@ import (
 	"path"
 	"sort"
 	"strings"
+
+	"telltale/internal/inputfile"
 )
 
 // Sentinel errors; every error of Read wraps exactly one and names the file.
@@ -64,7 +66,7 @@ const maxPickle = 256 << 20
 // naming what it asked for. Tensors of float32, float64, float16 and
 // bfloat16 are converted to float32 (float64 rounded to nearest).
 func Read(ctx context.Context, file string, opt Options) (*StateDict, error) {
-	f, err := os.Open(file)
+	f, err := inputfile.Open(file)
 	if err != nil {
 		return nil, fmt.Errorf("statedict: %w", err)
 	}

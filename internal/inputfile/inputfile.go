@@ -1,0 +1,95 @@
+package inputfile
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"io/fs"
+	"os"
+	"sync"
+)
+
+// ErrInterrupted is the error (inside an *fs.PathError) of an open that
+// was waiting for a named pipe's writer when Interrupt was called. It
+// matches context.Canceled under errors.Is, as the command's other work
+// stopped by the same signal does.
+var ErrInterrupted = fmt.Errorf("the wait for the named pipe's writer was interrupted: %w", context.Canceled)
+
+// opener opens files until it is interrupted. The zero value is not
+// usable: make one with newOpener.
+type opener struct {
+	stop chan struct{}
+	once sync.Once
+}
+
+func newOpener() *opener { return &opener{stop: make(chan struct{})} }
+
+// process is the opener of this process, the one Interrupt stops.
+var process = newOpener()
+
+// Interrupt makes every open that waits for a named pipe's writer, now or
+// later in this process, return ErrInterrupted. It is safe to call more
+// than once and from any goroutine (a signal handler's).
+func Interrupt() { process.interrupt() }
+
+// Open opens the file at path for reading, as os.Open does, except that
+// the wait for a named pipe's writer ends with ErrInterrupted once
+// Interrupt is called. The caller closes the file.
+func Open(path string) (*os.File, error) { return process.open(path) }
+
+// ReadFile reads the whole file at path, as os.ReadFile does, except that
+// the wait for a named pipe's writer ends with ErrInterrupted once
+// Interrupt is called.
+func ReadFile(path string) ([]byte, error) {
+	if !isPipe(path) {
+		return os.ReadFile(path) // reads a regular file in one buffer of its size
+	}
+	f, err := Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	return io.ReadAll(f)
+}
+
+// isPipe reports whether path names a named pipe (after links).
+func isPipe(path string) bool {
+	st, err := os.Stat(path)
+	return err == nil && st.Mode()&fs.ModeNamedPipe != 0
+}
+
+func (o *opener) interrupt() { o.once.Do(func() { close(o.stop) }) }
+
+// open opens path; a named pipe is opened on a goroutine that is left to
+// finish on its own when o is interrupted first (it closes the file it
+// gets, should a writer come after all).
+func (o *opener) open(path string) (*os.File, error) {
+	if !isPipe(path) {
+		return os.Open(path) // not a pipe: os.Open says what is wrong, if anything
+	}
+	select {
+	case <-o.stop:
+		return nil, &fs.PathError{Op: "open", Path: path, Err: ErrInterrupted}
+	default:
+	}
+	type opened struct {
+		f   *os.File
+		err error
+	}
+	done := make(chan opened, 1)
+	go func() {
+		f, err := os.Open(path)
+		done <- opened{f, err}
+	}()
+	select {
+	case r := <-done:
+		return r.f, r.err
+	case <-o.stop:
+		go func() {
+			if r := <-done; r.f != nil {
+				r.f.Close()
+			}
+		}()
+		return nil, &fs.PathError{Op: "open", Path: path, Err: ErrInterrupted}
+	}
+}

@@ -1,0 +1,128 @@
+//go:build unix
+
+package inputfile
+
+import (
+	"context"
+	"errors"
+	"io"
+	"os"
+	"path/filepath"
+	"syscall"
+	"testing"
+	"time"
+)
+
+// fifo makes a named pipe in a temporary folder, or skips the test where
+// the system cannot.
+func fifo(t *testing.T) string {
+	t.Helper()
+	p := filepath.Join(t.TempDir(), "in.csv")
+	if err := syscall.Mkfifo(p, 0o600); err != nil {
+		t.Skipf("mkfifo: %v", err)
+	}
+	return p
+}
+
+// openWithin runs o.open(p) and fails the test when it has not returned
+// within 5 s.
+func openWithin(t *testing.T, o *opener, p string) (*os.File, error) {
+	t.Helper()
+	type opened struct {
+		f   *os.File
+		err error
+	}
+	done := make(chan opened, 1)
+	go func() {
+		f, err := o.open(p)
+		done <- opened{f, err}
+	}()
+	select {
+	case r := <-done:
+		return r.f, r.err
+	case <-time.After(5 * time.Second):
+		t.Fatalf("open of %s still waits after 5 s", p)
+		return nil, nil
+	}
+}
+
+// TestOpenPipeInterrupted: opening a named pipe for reading blocks until a
+// writer opens it (fifo(7)); with no writer, an interrupt ends the wait
+// with ErrInterrupted, which matches context.Canceled, and so does every
+// later open of a pipe. A regular file still opens after it.
+func TestOpenPipeInterrupted(t *testing.T) {
+	o := newOpener()
+	p := fifo(t)
+	go func() {
+		time.Sleep(200 * time.Millisecond)
+		o.interrupt()
+	}()
+	start := time.Now()
+	f, err := openWithin(t, o, p)
+	if f != nil || !errors.Is(err, ErrInterrupted) || !errors.Is(err, context.Canceled) {
+		t.Fatalf("open of a pipe with no writer, interrupted: %v, %v; want ErrInterrupted", f, err)
+	}
+	if waited := time.Since(start); waited < 150*time.Millisecond {
+		t.Errorf("open returned after %v, before the interrupt", waited)
+	}
+	if _, err := openWithin(t, o, p); !errors.Is(err, ErrInterrupted) {
+		t.Errorf("open of a pipe after the interrupt: %v; want ErrInterrupted", err)
+	}
+	o.interrupt() // a second signal
+	reg := filepath.Join(t.TempDir(), "plain.csv")
+	if err := os.WriteFile(reg, []byte("text,label\n"), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	if f, err := openWithin(t, o, reg); err != nil {
+		t.Errorf("open of a regular file after the interrupt: %v", err)
+	} else {
+		f.Close()
+	}
+}
+
+// TestOpenPipeLateWriter: a writer that opens the pipe after the reader
+// started waiting (as a shell's process substitution may) reaches it
+// whole, as pipe(7) delivers a stream to its one reader.
+func TestOpenPipeLateWriter(t *testing.T) {
+	o := newOpener()
+	p := fifo(t)
+	want := "text,label\nlost bag,lost-property\nlate ferry,complaints\n"
+	wrote := make(chan error, 1)
+	go func() {
+		time.Sleep(200 * time.Millisecond)
+		w, err := os.OpenFile(p, os.O_WRONLY, 0)
+		if err == nil {
+			_, err = io.WriteString(w, want)
+			w.Close()
+		}
+		wrote <- err
+	}()
+	f, err := openWithin(t, o, p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	got, err := io.ReadAll(f)
+	if err != nil || string(got) != want {
+		t.Errorf("read %q, %v; want %q", got, err, want)
+	}
+	if err := <-wrote; err != nil {
+		t.Errorf("writer: %v", err)
+	}
+}
+
+// TestReadFile: ReadFile reads a regular file as os.ReadFile does, and
+// says a missing one is missing (fs.ErrNotExist).
+func TestReadFile(t *testing.T) {
+	p := filepath.Join(t.TempDir(), "words.txt")
+	if err := os.WriteFile(p, []byte("refund\nferry\n"), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	want, _ := os.ReadFile(p)
+	if got, err := ReadFile(p); err != nil || string(got) != string(want) {
+		t.Errorf("ReadFile: %q, %v; want %q", got, err, want)
+	}
+	if _, err := ReadFile(p + ".missing"); !errors.Is(err, os.ErrNotExist) {
+		t.Errorf("ReadFile of a missing file: %v; want ErrNotExist", err)
+	}
+}
