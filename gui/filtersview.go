@@ -37,8 +37,8 @@ type filtersView struct {
 
 // Columns of the filter list; the last cell of each row (its top n-grams)
 // is searched but not shown.
-var filterCols = []string{"filter", "width", "votes for", "vote margin (log-odds)", "cue rank", "cue it reads",
-	"fired in", "threshold (log-odds)", "other-half purity", "base rate", "Holm p", "selective", "families"}
+var filterCols = []string{"filter", "width", "votes for", "vote margin", "cue rank", "cue it reads",
+	"fired in", "threshold", "other-half purity", "base rate", "Holm p", "selective", "families"}
 
 const (
 	colFilterMargin  = 3

@@ -50,7 +50,7 @@ func viewTable() []viewSpec {
 			func(st *State) view { st.trainingView = newTrainingView(st); return st.trainingView }},
 		{titleResults, "How the model does on the test split, which took no part in training.",
 			func(st *State) view { st.resultsView = newResultsView(st); return st.resultsView }},
-		{titleFilters, "What each filter of the model responds to, over the training split.",
+		{titleFilters, "What each filter of the model responds to, over the training split. Margins, thresholds and activations are in log-odds.",
 			func(st *State) view { st.filtersView = newFiltersView(st); return st.filtersView }},
 		{titleWhy, "Why one text gets its label, token by token.",
 			func(st *State) view { st.whyView = newWhyView(st); return st.whyView }},
