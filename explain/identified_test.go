@@ -28,31 +28,6 @@ func shifted(m *cnn.Model, g int, k, kb float32) *cnn.Model {
 	return s
 }
 
-// rescaled returns a copy of m with each filter g of ks multiplied by
-// ks[g] > 0: its convolution weights and bias times ks[g], its
-// output-weight column divided by it. ReLU and max pooling are positively
-// homogeneous (relu(k·a) = k·relu(a), max_t k·a_t = k·max_t a_t), so the
-// pooled unit is ks[g] times the original and its product with the column
-// is unchanged: no prediction moves (up to float32 rounding), and nothing
-// in the data pins the filter's scale down.
-func rescaled(m *cnn.Model, ks map[int]float32) *cnn.Model {
-	s := m.Clone()
-	nf := m.Config.NumFilters()
-	for g, k := range ks {
-		b, f := m.FilterConv(g)
-		cv := &s.Convs[b]
-		per := len(cv.W) / m.Config.Filters
-		for i := f * per; i < (f+1)*per; i++ {
-			cv.W[i] *= k
-		}
-		cv.B[f] *= k
-		for c := 0; c < m.Config.Classes; c++ {
-			s.OutW[c*nf+g] /= k
-		}
-	}
-	return s
-}
-
 // randomScales draws a positive scale for up to three filters of m, far
 // from 1 in both directions (from 1/300 to 300).
 func randomScales(rng *rand.Rand, m *cnn.Model) (map[int]float32, string) {
@@ -136,7 +111,7 @@ func checkInvariant(t *testing.T, m *cnn.Model, ids []int32, opt ExplainOptions,
 		return false
 	}
 	ks, what := randomScales(rng, m)
-	return sameShown(t, m, rescaled(m, ks), ids, opt, what, 2e-5)
+	return sameShown(t, m, m.WithFiltersRescaled(ks), ids, opt, what, 2e-5)
 }
 
 // sameShown explains ids with m and with s, a copy that predicts the same,
@@ -267,7 +242,7 @@ func foundPairs(m *cnn.Model, ids []int32) []int {
 
 // Every shown number is invariant when a constant is added to one filter's
 // output-weight column and another to every class's output bias, and when
-// filters are rescaled (rescaled), on many random models and texts.
+// filters are rescaled (cnn.Model.WithFiltersRescaled), on many random models and texts.
 func TestShownNumbersInvariant(t *testing.T) {
 	rng := rand.New(rand.NewPCG(30, 30))
 	checked := 0
@@ -691,7 +666,7 @@ func checkKeptDown(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, k in
 
 // Every number of the filter profiles (all that JSON holds) is invariant
 // when a constant is added to one filter's output-weight column and to all
-// classes' biases, and when filters are rescaled (rescaled), on random
+// classes' biases, and when filters are rescaled (cnn.Model.WithFiltersRescaled), on random
 // models and corpora.
 func TestProfileShownNumbersInvariant(t *testing.T) {
 	rng := rand.New(rand.NewPCG(34, 34))
@@ -705,7 +680,7 @@ func TestProfileShownNumbersInvariant(t *testing.T) {
 			what string
 		}{
 			{shifted(m, g, float32(rng.NormFloat64()*3), float32(rng.NormFloat64()*3)), fmt.Sprintf("a shift of filter %d's output weights", g)},
-			{rescaled(m, ks), what},
+			{m.WithFiltersRescaled(ks), what},
 		} {
 			var docs [2][]byte
 			for i, mm := range []*cnn.Model{m, c.s} {

@@ -10,30 +10,8 @@ import (
 	"telltale/explain"
 )
 
-// rescaled returns a copy of m with each filter g of ks multiplied by
-// ks[g] > 0: its convolution weights and bias times ks[g], its
-// output-weight column divided by it. ReLU and max pooling are positively
-// homogeneous, so no prediction moves (up to float32 rounding).
-func rescaled(m *cnn.Model, ks map[int]float32) *cnn.Model {
-	s := m.Clone()
-	nf := m.Config.NumFilters()
-	for g, k := range ks {
-		b, f := m.FilterConv(g)
-		cv := &s.Convs[b]
-		per := len(cv.W) / m.Config.Filters
-		for i := f * per; i < (f+1)*per; i++ {
-			cv.W[i] *= k
-		}
-		cv.B[f] *= k
-		for c := 0; c < m.Config.Classes; c++ {
-			s.OutW[c*nf+g] /= k
-		}
-	}
-	return s
-}
-
 // The Filters view's list rows, headings, families and slot words say the
-// same when filters of a model are rescaled (rescaled), which changes no
+// same when filters of a model are rescaled (cnn.Model.WithFiltersRescaled), which changes no
 // prediction: every number they show is identified. The raw highest
 // activations do move, so the check would catch a raw number shown.
 func TestFilterTextsInvariantUnderRescale(t *testing.T) {
@@ -59,7 +37,7 @@ func TestFilterTextsInvariantUnderRescale(t *testing.T) {
 	ks := map[int]float32{0: 40, 4: 0.03, 7: 6.5, 11: 0.2}
 	var shown [2][]string
 	var raw [2][]float64
-	for i, mm := range []*cnn.Model{m, rescaled(m, ks)} {
+	for i, mm := range []*cnn.Model{m, m.WithFiltersRescaled(ks)} {
 		prof, err := explain.Profile(context.Background(), mm, ids, gold, explain.ProfileOptions{Workers: 2})
 		if err != nil {
 			t.Fatal(err)

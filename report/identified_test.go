@@ -9,37 +9,15 @@ import (
 	"telltale/explain"
 )
 
-// rescaled returns a copy of m with each filter g of ks multiplied by
-// ks[g] > 0: its convolution weights and bias times ks[g], its
-// output-weight column divided by it. ReLU and max pooling are positively
-// homogeneous, so no prediction moves (up to float32 rounding).
-func rescaled(m *cnn.Model, ks map[int]float32) *cnn.Model {
-	s := m.Clone()
-	nf := m.Config.NumFilters()
-	for g, k := range ks {
-		b, f := m.FilterConv(g)
-		cv := &s.Convs[b]
-		per := len(cv.W) / m.Config.Filters
-		for i := f * per; i < (f+1)*per; i++ {
-			cv.W[i] *= k
-		}
-		cv.B[f] *= k
-		for c := 0; c < m.Config.Classes; c++ {
-			s.OutW[c*nf+g] /= k
-		}
-	}
-	return s
-}
-
 // The filter cards and the explained examples' fired-filter rows show the
-// same text when filters of the demo model are rescaled (rescaled), which
+// same text when filters of the demo model are rescaled (cnn.Model.WithFiltersRescaled), which
 // changes no prediction: every number they show is identified. The raw
 // activations do move, so the check would catch a raw number shown.
 func TestShownNumbersInvariantUnderRescale(t *testing.T) {
 	d := loadDemo(t)
 	m := d.model
 	ks := map[int]float32{0: 37, 3: 0.02, 9: 5.5, 12: 0.3}
-	s := rescaled(m, ks)
+	s := m.WithFiltersRescaled(ks)
 	enc, err := m.Encoder()
 	if err != nil {
 		t.Fatal(err)
