@@ -1,0 +1,50 @@
+package cnn
+
+import (
+	"math/rand/v2"
+	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
+)
+
+// A positive rescale of filters moves no prediction and no winning window,
+// while the rescaled filters' pooled values move by their factor: the
+// filters' scale is not pinned down by the data (common practice, no
+// source: positive homogeneity of ReLU and max pooling).
+func TestWithFiltersRescaled(t *testing.T) {
+	vocab := []string{"<pad>", "<unk>", "a", "b", "c", "d", "e", "f", "g", "h"}
+	m, err := New(Config{VocabSize: len(vocab), Dim: 6, Widths: []int{2, 3}, Filters: 4, Classes: 3}, vocab, []string{"x", "y", "z"}, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ks := map[int]float32{0: 250, 3: 0.004, 6: 7}
+	s := m.WithFiltersRescaled(ks)
+	rng := rand.New(rand.NewPCG(3, 3))
+	for range 200 {
+		ids := make([]int32, 1+rng.IntN(12))
+		for i := range ids {
+			ids[i] = int32(1 + rng.IntN(len(vocab)-1))
+		}
+		a, b := m.Forward(ids), s.Forward(ids)
+		for c := range a.Probs {
+			if !scalar.EqualWithinAbsOrRel(float64(a.Probs[c]), float64(b.Probs[c]), 1e-5, 1e-4) {
+				t.Fatalf("%v: p[%d] %g becomes %g", ids, c, a.Probs[c], b.Probs[c])
+			}
+		}
+		for g := range a.Pooled {
+			k := float32(1)
+			if v, ok := ks[g]; ok {
+				k = v
+			}
+			if a.Argmax[g] != b.Argmax[g] {
+				t.Fatalf("%v: filter %d wins at %d, then at %d", ids, g, a.Argmax[g], b.Argmax[g])
+			}
+			if !scalar.EqualWithinAbsOrRel(float64(k*a.Pooled[g]), float64(b.Pooled[g]), 1e-6, 1e-4) {
+				t.Fatalf("%v: filter %d pooled %g, rescaled by %g gives %g", ids, g, a.Pooled[g], k, b.Pooled[g])
+			}
+		}
+	}
+	if &m.OutW[0] == &s.OutW[0] || m.OutW[0] == s.OutW[0] {
+		t.Fatal("the copy shares or keeps filter 0's output weights")
+	}
+}
