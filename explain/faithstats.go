@@ -74,9 +74,9 @@ func faithReport(per [][]textFaith, correct []bool, haveGold bool, opt *FaithOpt
 // the p-values adjusted by Holm's method across all the comparisons (Holm
 // 1979, "A Simple Sequentially Rejective Multiple Test Procedure", Scand.
 // J. Statist. 6:65–70; see Holm), which holds the family-wise error rate
-// under any dependence between them. The
-// sign flips draw from a stream of their own (seeded by opt.Seed), so that
-// the intervals do not depend on how many the tests draw.
+// under any dependence between them. The sign flips draw from a stream of
+// their own (seeded by opt.Seed), so that the intervals do not depend on
+// how many the tests draw.
 func methodPairs(rows [][]textFaith, opt *FaithOptions, rng *rand.Rand) []MethodPair {
 	flipRng := rand.New(rand.NewPCG(opt.Seed, 0xfa19))
 	var pairs []MethodPair
