@@ -29,7 +29,10 @@ exact share or integrated gradients of the log-odds of the predicted label
 against the runner-up, or occlusion), ties broken at random. Higher
 comprehensiveness and AOPC and lower sufficiency mean a method you can trust
 more on this model. Every figure has a 95% bootstrap interval over the texts,
-and every two methods are compared text by text (Wilcoxon signed-rank test).
+and every two methods are compared text by text: the mean difference with
+its bootstrap interval and a sign-flip permutation test of that mean (Good
+2005), its p-values adjusted by Holm's method across the comparisons (Holm
+1979).
 Removing one token is what occlusion measures, so it is best there by
 construction: those removals are reported apart and left out of the
 aggregates. The texts are found as eval finds them: --test FILE, or the test
@@ -167,10 +170,17 @@ func writeFaith(w io.Writer, r *explain.FaithReport) {
 		}
 	}
 	if len(r.Pairs) > 0 {
-		fmt.Fprintln(w, "\nmethods compared text by text: mean of A − B with its interval, Wilcoxon signed-rank p")
+		fmt.Fprintf(w, "\nmethods compared text by text: mean of A − B with its 95%% bootstrap interval over the texts; p of the sign-flip\n"+
+			"permutation test of that mean (Good 2005), and Holm p, adjusted by Holm's method across the %d comparisons\n"+
+			"shown (Holm 1979); each interval is 95%% on its own, not adjusted; p ≤ %.2g: no sign pattern of the %d drawn\n"+
+			"reached the observed mean\n", len(r.Pairs), 1/float64(explain.SignFlipDraws+1), explain.SignFlipDraws)
 	}
 	for _, pr := range r.Pairs {
-		fmt.Fprintf(w, "%-10s − %-10s %-5s %-26s p %s  (%d texts)\n", pr.A, pr.B, pr.Measure, withCI(pr.Diff, pr.DiffCI), pEquals(pr.P), pr.Texts)
+		p, holm := pEquals(pr.P), pEquals(pr.PHolm)
+		if pr.PAtFloor() {
+			p, holm = "≤ "+pvalue(pr.P), "≤ "+pvalue(pr.PHolm)
+		}
+		fmt.Fprintf(w, "%-10s − %-10s %-5s %-26s p %s  Holm p %s  (%d texts)\n", pr.A, pr.B, pr.Measure, withCI(pr.Diff, pr.DiffCI), p, holm, pr.Texts)
 	}
 }
 

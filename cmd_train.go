@@ -230,6 +230,14 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 		StoppedEarly: res.StoppedEarly, Diverged: res.Diverged != nil, Divergence: res.Diverged, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Test: m.Info.Test,
 		Splits: m.Info.Splits, Seconds: time.Since(start).Seconds()}
 	summary.TestFigures, summary.Baseline = figures, baselineOf(m, cmp)
+	if m.Info.Dev != nil {
+		iv := cnn.IntervalsOf(*m.Info.Dev)
+		summary.DevIntervals, summary.DevNote = &iv, devNote
+	}
+	if m.Info.Test != nil {
+		iv := cnn.IntervalsOf(*m.Info.Test)
+		summary.TestIntervals = &iv
+	}
 	if o.asJSON {
 		if err := writeJSON(env.Stdout, summary); err != nil {
 			return err
@@ -258,40 +266,54 @@ func divergedWhere(d *cnn.Divergence) string {
 }
 
 type trainSummary struct {
-	Model             string           `json:"model"`
-	BestEpoch         int              `json:"best_epoch"`
-	Epochs            int              `json:"epochs"`
-	Cancelled         bool             `json:"cancelled"`
-	StoppedEarly      bool             `json:"stopped_early"`
-	Diverged          bool             `json:"diverged"`
-	Divergence        *cnn.Divergence  `json:"divergence,omitempty"`
-	ExamplesPerSecond float64          `json:"examples_per_second"`
-	Seconds           float64          `json:"seconds"`
-	Dev               *cnn.Metrics     `json:"dev,omitempty"`
-	Test              *cnn.Metrics     `json:"test,omitempty"`
-	TestFigures       *cnn.Figures     `json:"test_figures,omitempty"`
-	Baseline          *baselineJSON    `json:"baseline,omitempty"`
-	Splits            *cnn.SplitRecord `json:"splits,omitempty"`
+	Model             string          `json:"model"`
+	BestEpoch         int             `json:"best_epoch"`
+	Epochs            int             `json:"epochs"`
+	Cancelled         bool            `json:"cancelled"`
+	StoppedEarly      bool            `json:"stopped_early"`
+	Diverged          bool            `json:"diverged"`
+	Divergence        *cnn.Divergence `json:"divergence,omitempty"`
+	ExamplesPerSecond float64         `json:"examples_per_second"`
+	Seconds           float64         `json:"seconds"`
+	Dev               *cnn.Metrics    `json:"dev,omitempty"`
+	// DevIntervals are those of Dev's figures (cnn.IntervalsOf); DevNote
+	// says that the dev split chose the epoch and the baseline's C, so
+	// that its figures flatter the model.
+	DevIntervals *cnn.MetricIntervals `json:"dev_intervals,omitempty"`
+	DevNote      string               `json:"dev_note,omitempty"`
+	Test         *cnn.Metrics         `json:"test,omitempty"`
+	// TestIntervals are those of Test's figures beside the headline's
+	// (TestFigures): weighted F1, ECE with the calibration test, and every
+	// class's precision, recall and F1.
+	TestIntervals *cnn.MetricIntervals `json:"test_intervals,omitempty"`
+	TestFigures   *cnn.Figures         `json:"test_figures,omitempty"`
+	Baseline      *baselineJSON        `json:"baseline,omitempty"`
+	Splits        *cnn.SplitRecord     `json:"splits,omitempty"`
 }
+
+// devNote is train --json's dev_note.
+const devNote = "the dev split chose the epoch (and the baseline's C): its figures flatter the model; the test split's do not"
 
 func writeTrainSummary(w io.Writer, s trainSummary) {
 	fmt.Fprintf(w, "model saved: %s (best epoch %d of %d, %.0f training examples/s, %.1f s in all)\n",
 		s.Model, s.BestEpoch, s.Epochs, s.ExamplesPerSecond, s.Seconds)
 	if s.Dev != nil {
-		writeDevFigures(w, *s.Dev)
+		writeFigures(w, fmt.Sprintf("dev split, %s, used to choose the epoch", wording.Texts(s.Dev.N)), cnn.Figures{CNN: cnn.HeadlineOf(*s.Dev)}, nil)
+		writeECE(w, "", s.DevIntervals)
 	}
 	if s.TestFigures != nil {
 		writeFigures(w, fmt.Sprintf("test split, %s, used for nothing else", wording.Texts(s.TestFigures.CNN.N)), *s.TestFigures, s.Baseline)
+		writeECE(w, "CNN", s.TestIntervals)
 	}
 }
 
-// writeDevFigures prints the dev split's figures as the test split's, with
-// the same intervals, and its ECE with its interval and calibration test
-// when the confidences are known (left out otherwise: no interval). They
-// chose the epoch, so they flatter the model.
-func writeDevFigures(w io.Writer, dev cnn.Metrics) {
-	writeFigures(w, fmt.Sprintf("dev split, %s, used to choose the epoch", wording.Texts(dev.N)), cnn.Figures{CNN: cnn.HeadlineOf(dev)}, nil)
-	if ece := cnn.IntervalsOf(dev).ECE; ece != nil {
-		fmt.Fprintf(w, "  %-15s  ECE %s\n", "", ece)
+// writeECE prints the ECE of iv with its interval and calibration test as
+// a line of the figures block above it, under name; nothing when the
+// confidences are not known (no interval). The dev split's figures, printed
+// as the test split's with the same intervals, chose the epoch, so they
+// flatter the model.
+func writeECE(w io.Writer, name string, iv *cnn.MetricIntervals) {
+	if iv != nil && iv.ECE != nil {
+		fmt.Fprintf(w, "  %-15s  ECE %s\n", name, iv.ECE)
 	}
 }

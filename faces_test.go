@@ -264,8 +264,10 @@ func TestFiltersTextAndReopen(t *testing.T) {
 }
 
 // TestFaithfulnessText: the text gives each method's aggregates with their
-// intervals, the single-token figures apart and the paired tests, as in
-// --json, where figures without a text are null.
+// intervals, the single-token figures apart and the paired tests (each
+// mean difference with its interval, its p and its Holm p, which is
+// explain.Holm of the 18 p-values), as in --json, where figures without a
+// text are null.
 func TestFaithfulnessText(t *testing.T) {
 	model := tinyModel(t)
 	data := demoPart(t, t.TempDir(), 200)
@@ -294,8 +296,12 @@ func TestFaithfulnessText(t *testing.T) {
 		} `json:"methods"`
 		Pairs []struct {
 			A, B, Measure string
+			Texts         int      `json:"texts"`
 			Diff          *float64 `json:"diff"`
+			DiffCI        ciJSON   `json:"diff_ci"`
 			P             *float64 `json:"p"`
+			PHolm         *float64 `json:"p_holm"`
+			SignFlips     int      `json:"sign_flips"`
 		} `json:"pairs"`
 	}
 	if err := json.Unmarshal([]byte(js), &r); err != nil {
@@ -324,7 +330,31 @@ func TestFaithfulnessText(t *testing.T) {
 	if a := r.AccuracyInterval; a == nil || !strings.Contains(out, fmt.Sprintf("model accuracy %.3f (%.3f–%.3f)", a.Estimate, a.Low, a.High)) {
 		t.Errorf("the model's accuracy without its interval (JSON %+v):\n%s", a, out)
 	}
-	for _, part := range []string{"the top token alone", "methods compared text by text", "exact      − occlusion  comp"} {
+	// Each pair with its interval, its p and its Holm p across the 18 (at
+	// least its p), as in --json.
+	var ps []float64
+	for _, pr := range r.Pairs {
+		if pr.P == nil || pr.PHolm == nil || pr.Diff == nil || pr.SignFlips < 2 {
+			t.Fatalf("pair %s − %s %s: p %v, Holm p %v, diff %v over %d sign patterns", pr.A, pr.B, pr.Measure, pr.P, pr.PHolm, pr.Diff, pr.SignFlips)
+		}
+		ps = append(ps, *pr.P)
+		p, holm := pEquals(*pr.P), pEquals(*pr.PHolm)
+		if pr.SignFlips == explain.SignFlipDraws && *pr.P == 1/float64(pr.SignFlips+1) { // the drawn test's floor: bounds
+			p, holm = "≤ "+pvalue(*pr.P), "≤ "+pvalue(*pr.PHolm)
+		}
+		line := fmt.Sprintf("%-10s − %-10s %-5s %+.4f (%+.4f–%+.4f)  p %s  Holm p %s  (%d texts)", pr.A, pr.B, pr.Measure, *pr.Diff,
+			*pr.DiffCI.Low, *pr.DiffCI.High, p, holm, pr.Texts)
+		if !strings.Contains(out, line) {
+			t.Errorf("the text lacks %q:\n%s", line, out)
+		}
+	}
+	for i, adj := range explain.Holm(ps) {
+		if *r.Pairs[i].PHolm != adj {
+			t.Errorf("pair %d: Holm p %g, Holm's adjustment of the 18 p-values %g", i, *r.Pairs[i].PHolm, adj)
+		}
+	}
+	for _, part := range []string{"the top token alone", "methods compared text by text", "exact      − occlusion  comp",
+		"adjusted by Holm's method across the 18 comparisons"} {
 		if !strings.Contains(out, part) {
 			t.Errorf("the text lacks %q", part)
 		}

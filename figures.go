@@ -22,17 +22,22 @@ type baselineJSON struct {
 	// no dev split (then C is the grid's middle value).
 	Dev     []linear.DevScore `json:"dev,omitempty"`
 	Metrics *cnn.Metrics      `json:"metrics,omitempty"`
+	// Intervals are those of Metrics' figures beside the headline's (in
+	// the figures' baseline): weighted F1, ECE with the calibration test,
+	// and every class's precision, recall and F1 (cnn.IntervalsOf).
+	Intervals *cnn.MetricIntervals `json:"intervals,omitempty"`
 }
 
 // baselineOf is m's baseline for the JSON, with its metrics from c (which
-// may be nil); nil when m carries none.
+// may be nil) and their intervals; nil when m carries none.
 func baselineOf(m *cnn.Model, c *cnn.Comparison) *baselineJSON {
 	if m.Baseline == nil {
 		return nil
 	}
 	b := &baselineJSON{C: m.Baseline.Classifier.C, Dev: m.Baseline.Dev}
 	if c != nil {
-		b.Metrics = &c.Baseline
+		iv := cnn.IntervalsOf(c.Baseline)
+		b.Metrics, b.Intervals = &c.Baseline, &iv
 	}
 	return b
 }

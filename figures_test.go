@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 
@@ -68,11 +69,44 @@ func checkFigures(t *testing.T, what string, f cnn.Figures, cnnM cnn.Metrics, ba
 	}
 }
 
+// checkIntervals checks that iv holds an interval of every measured figure
+// of m that has one (weighted F1, ECE with its calibration test, each
+// class's precision, recall and F1), each about m's own figure: its
+// estimate is m's (an identity) and lies within its bounds.
+func checkIntervals(t *testing.T, what string, iv *cnn.MetricIntervals, m cnn.Metrics) {
+	t.Helper()
+	if iv == nil || iv.ECE == nil || len(iv.PerClass) != len(m.PerClass) {
+		t.Fatalf("%s: intervals %+v for %d classes (want the ECE's too)", what, iv, len(m.PerClass))
+	}
+	check := func(name string, got cnn.Interval, want float64) {
+		if got.Estimate != want || !(got.Low <= got.Estimate && got.Estimate <= got.High) {
+			t.Errorf("%s: %s interval %+v of the figure %g", what, name, got, want)
+		}
+	}
+	check("weighted F1", iv.WeightedF1, m.WeightedF1)
+	check("ECE", iv.ECE.Interval, m.ECE)
+	if !(iv.ECE.P > 0 && iv.ECE.P <= 1) || iv.ECE.Draws != cnn.CalibrationDraws {
+		t.Errorf("%s: calibration test p = %g over %d draws", what, iv.ECE.P, iv.ECE.Draws)
+	}
+	for c, pc := range m.PerClass {
+		ci := iv.PerClass[c]
+		if ci.Label != pc.Label {
+			t.Errorf("%s: class %d intervals of %q, metrics of %q", what, c, ci.Label, pc.Label)
+		}
+		check(pc.Label+" precision", ci.Precision, pc.Precision)
+		check(pc.Label+" recall", ci.Recall, pc.Recall)
+		check(pc.Label+" F1", ci.F1, pc.F1)
+	}
+}
+
 // TestTrainEvalCompareShowTheBaseline: train fits the baseline beside the
 // CNN (the default recipe's), saves it in the model file, and prints and
 // writes in its JSON both on the test split with their intervals and the
 // McNemar test; eval and compare, given the same data, print the same
-// lines and write the same figures.
+// lines and write the same figures. Every measured figure of the JSON has
+// its interval (the dev split's, the test split's, the baseline's), the
+// dev split is said to have chosen the epoch, and train prints the test
+// split's ECE with its interval and calibration test as eval finds them.
 func TestTrainEvalCompareShowTheBaseline(t *testing.T) {
 	dir := t.TempDir()
 	data := demoPart(t, dir, 700)
@@ -93,10 +127,12 @@ func TestTrainEvalCompareShowTheBaseline(t *testing.T) {
 		t.Fatalf("the model file carries no baseline (%v) or no test figures", m.Baseline == nil)
 	}
 	trainBlock := figuresBlock(t, trainOut, fmt.Sprintf("test split, %d texts, used for nothing else", m.Info.Test.N))
-	if len(trainBlock) != 3 || !strings.HasPrefix(trainBlock[0], "  CNN  ") || !strings.HasPrefix(trainBlock[1], "  linear baseline  ") ||
-		!strings.HasPrefix(trainBlock[2], "  the CNN is right on ") {
-		t.Fatalf("train's figures:\n%s", strings.Join(trainBlock, "\n"))
+	if len(trainBlock) != 4 || !strings.HasPrefix(trainBlock[0], "  CNN  ") || !strings.HasPrefix(trainBlock[1], "  linear baseline  ") ||
+		!strings.HasPrefix(trainBlock[2], "  the CNN is right on ") || !strings.HasPrefix(trainBlock[3], "  CNN              ECE ") {
+		t.Fatalf("train's figures (want the CNN's test ECE last):\n%s", strings.Join(trainBlock, "\n"))
 	}
+	trainECE := trainBlock[3]
+	trainBlock = trainBlock[:3]
 
 	// eval on the same data finds the same test split and prints the same lines.
 	code, evalOut, stderr := tt(t, "eval", "--model", model, "--data", data)
@@ -120,6 +156,11 @@ func TestTrainEvalCompareShowTheBaseline(t *testing.T) {
 		t.Fatalf("eval --json: baseline %+v, the model's C %g", ev.Baseline, m.Baseline.Classifier.C)
 	}
 	checkFigures(t, "eval --json", ev.Figures, ev.Metrics, ev.Baseline.Metrics)
+	checkIntervals(t, "eval --json", &ev.Intervals, ev.Metrics)
+	checkIntervals(t, "eval --json baseline", ev.Baseline.Intervals, *ev.Baseline.Metrics)
+	if ev.Intervals.ECE == nil || trainECE != "  CNN              ECE "+ev.Intervals.ECE.String() {
+		t.Errorf("train prints the test ECE\n%s\neval's --json has %+v", trainECE, ev.Intervals.ECE)
+	}
 	checkKeysDocumented(t, "eval", []byte(js), "### The JSON of train, eval and compare")
 	if ev.Accuracy != m.Info.Test.Accuracy {
 		t.Errorf("eval's accuracy %g, train's %g", ev.Accuracy, m.Info.Test.Accuracy)
@@ -143,6 +184,16 @@ func TestTrainEvalCompareShowTheBaseline(t *testing.T) {
 		t.Fatalf("train --json lacks the figures or the baseline: %s", js)
 	}
 	checkFigures(t, "train --json", *ts.TestFigures, *ts.Test, ts.Baseline.Metrics)
+	if ts.Dev == nil || ts.DevIntervals == nil || ts.TestIntervals == nil || !strings.Contains(ts.DevNote, "chose the epoch") {
+		t.Fatalf("train --json: dev %v, dev intervals %v, test intervals %v, dev note %q", ts.Dev != nil, ts.DevIntervals != nil, ts.TestIntervals != nil, ts.DevNote)
+	}
+	checkIntervals(t, "train --json dev", ts.DevIntervals, *ts.Dev)
+	checkIntervals(t, "train --json test", ts.TestIntervals, *ts.Test)
+	checkIntervals(t, "train --json baseline", ts.Baseline.Intervals, *ts.Baseline.Metrics)
+	// The same seeded intervals of the same test split, whichever command.
+	if !reflect.DeepEqual(*ts.TestIntervals, ev.Intervals) || !reflect.DeepEqual(ts.Baseline.Intervals, ev.Baseline.Intervals) {
+		t.Errorf("train --json test intervals %+v, baseline's %+v; eval's %+v, %+v", *ts.TestIntervals, ts.Baseline.Intervals, ev.Intervals, ev.Baseline.Intervals)
+	}
 	checkKeysDocumented(t, "train", []byte(js), "### The JSON of train, eval and compare")
 
 	// compare: every row carries its figures and its baseline.
@@ -160,6 +211,9 @@ func TestTrainEvalCompareShowTheBaseline(t *testing.T) {
 			t.Fatalf("compare row %d: no baseline", i)
 		}
 		checkFigures(t, fmt.Sprintf("compare row %d", i), r.Figures, r.Metrics, r.Baseline.Metrics)
+		if !reflect.DeepEqual(r.Baseline.Intervals, ev.Baseline.Intervals) {
+			t.Errorf("compare row %d: baseline intervals %+v, eval's %+v", i, r.Baseline.Intervals, ev.Baseline.Intervals)
+		}
 		if r.Figures.Baseline.Accuracy != ev.Figures.Baseline.Accuracy || r.Figures.CNN.Accuracy != ev.Figures.CNN.Accuracy {
 			t.Errorf("compare row %d: figures %+v, eval's %+v", i, r.Figures, ev.Figures)
 		}

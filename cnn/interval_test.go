@@ -33,6 +33,23 @@ func TestWilsonNewcombeExamples(t *testing.T) {
 	}
 }
 
+// The Wilson interval holds its estimate: at k = 0 its lower bound is 0 and
+// at k = n its upper bound 1, exactly (an identity of Wilson's formula: at
+// p̂ = 1 the centre plus the half-width is (1 + z²/n)/(1 + z²/n)), so that
+// a recall of 1 never lies above its interval by a rounding.
+func TestWilsonHoldsItsEstimate(t *testing.T) {
+	for _, level := range []float64{0.9, 0.95, 0.99} {
+		for n := 1; n <= 2000; n++ {
+			for _, k := range []int{0, n / 3, n} {
+				iv := WilsonInterval(k, n, level)
+				if !(iv.Low <= iv.Estimate && iv.Estimate <= iv.High) || (k == 0 && iv.Low != 0) || (k == n && iv.High != 1) {
+					t.Fatalf("Wilson(%d, %d, %g) = %.17g in [%.17g, %.17g]", k, n, level, iv.Estimate, iv.Low, iv.High)
+				}
+			}
+		}
+	}
+}
+
 // The Wilson interval against SciPy's binomtest(k, n).proportion_ci(level,
 // method="wilson") (Debian's python3-scipy), live, at three levels;
 // relative tolerance 1e-9 (both invert the normal distribution in double

@@ -311,7 +311,16 @@ func WilsonInterval(k, n int, level float64) Interval {
 	den := 1 + z*z/nn
 	mid := (p + z*z/(2*nn)) / den
 	half := z / den * math.Sqrt(p*(1-p)/nn+z*z/(4*nn*nn))
-	return Interval{Estimate: p, Low: max(0, mid-half), High: min(1, mid+half)}
+	iv := Interval{Estimate: p, Low: max(0, mid-half), High: min(1, mid+half)}
+	// At k = 0 the lower bound is 0 and at k = n the upper 1 exactly, which
+	// the floating point above can miss by a rounding.
+	if k == 0 {
+		iv.Low = 0
+	}
+	if k == n {
+		iv.High = 1
+	}
+	return iv
 }
 
 // BootstrapMacroF1 is the macro-F1 of the confusion matrix (rows gold,

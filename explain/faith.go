@@ -126,20 +126,23 @@ type MethodFaith struct {
 
 // MethodPair compares two methods text by text on one measure ("comp",
 // "suff" or "aopc"): Diff is the mean over the texts where both are
-// defined of A's value minus B's, with a bootstrap interval, and P the
-// two-sided p-value of the Wilcoxon signed-rank test of those differences
-// (Wilcoxon 1945, "Individual Comparisons by Ranking Methods", Biometrics
-// Bulletin; zero differences dropped; the exact distribution for at most
-// 50 differences with no zero or tie, else the normal approximation with
-// the tie correction and no continuity correction: see WilcoxonSignedRank).
+// defined of A's value minus B's, with its paired bootstrap interval (the
+// texts resampled), and P the two-sided p-value of the paired sign-flip
+// permutation test of that mean (see signFlipTest), so that the interval
+// and the test are of the same quantity. SignFlips is the number of sign
+// patterns behind P (all 2ⁿ up to 16 texts, else SignFlipDraws drawn).
+// PHolm is P adjusted by Holm's method across all the pairs of the report
+// (see Holm); the intervals are each 95%, not simultaneous.
 type MethodPair struct {
-	A       string   `json:"a"`
-	B       string   `json:"b"`
-	Measure string   `json:"measure"`
-	Texts   int      `json:"texts"`
-	Diff    float64  `json:"diff"`
-	DiffCI  Interval `json:"diff_ci"`
-	P       float64  `json:"p"`
+	A         string   `json:"a"`
+	B         string   `json:"b"`
+	Measure   string   `json:"measure"`
+	Texts     int      `json:"texts"`
+	Diff      float64  `json:"diff"`
+	DiffCI    Interval `json:"diff_ci"`
+	P         float64  `json:"p"`
+	PHolm     float64  `json:"p_holm"`
+	SignFlips int      `json:"sign_flips"`
 }
 
 func (o *FaithOptions) defaults() {

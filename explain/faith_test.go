@@ -1,14 +1,12 @@
 package explain
 
 import (
-	"bytes"
 	"context"
 	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
-	"os/exec"
 	"testing"
 
 	"telltale/cnn"
@@ -275,99 +273,6 @@ func jsonClose(a, b []byte, abs, rel float64) (string, bool) {
 		return path, x == y
 	}
 	return walk("", x, y)
-}
-
-// The Wilcoxon signed-rank test against SciPy run live: without zeros
-// or ties scipy.stats.wilcoxon(d, zero_method="wilcox", correction=False)
-// with its default method (exact up to 50 differences, the normal
-// approximation above); with zeros or ties its method="approx" (SciPy
-// 1.10's exact method truncates a rank sum of average ranks). Among the
-// cases: 200 and 60 all-positive differences, whose normal tail (about
-// 1e-34 and 1e-11) once underflowed to 0, and the exact floor 2·2⁻ⁿ at
-// n = 20 and 50.
-func TestWilcoxonSciPy(t *testing.T) {
-	testref.RequirePython(t, "scipy")
-	rng := rand.New(rand.NewPCG(15, 15))
-	var cases [][]float64
-	for c := range 45 {
-		n := 3 + rng.IntN(80)
-		if c%3 == 2 {
-			n = 3 + rng.IntN(48) // the exact distribution
-		}
-		d := make([]float64, n)
-		for i := range d {
-			if c%3 == 0 {
-				d[i] = float64(rng.IntN(7) - 3) // many ties and zeros
-			} else {
-				d[i] = rng.NormFloat64() + 0.2
-			}
-		}
-		cases = append(cases, d)
-	}
-	for _, n := range []int{200, 60, 50, 20} {
-		d := make([]float64, n)
-		for i := range d {
-			d[i] = 0.5 + rng.Float64()
-		}
-		cases = append(cases, d)
-	}
-	in, _ := json.Marshal(cases)
-	cmd := exec.Command(testref.Python, "-c", `
-import sys, json, warnings
-import numpy as np
-from scipy.stats import wilcoxon
-warnings.simplefilter("ignore")
-out = []
-for d in json.load(sys.stdin):
-    d = np.array(d)
-    nz = np.abs(d[d != 0])
-    if len(nz) == 0:
-        out.append(None)
-        continue
-    plain = len(nz) == len(d) and len(np.unique(nz)) == len(nz)
-    method = "auto" if plain else "approx"
-    out.append(wilcoxon(d, zero_method="wilcox", correction=False, method=method).pvalue)
-print(json.dumps(out))
-`)
-	cmd.Stdin = bytes.NewReader(in)
-	b, err := cmd.Output()
-	if err != nil {
-		t.Fatalf("scipy: %v", err)
-	}
-	var want []*float64
-	if err := json.Unmarshal(b, &want); err != nil {
-		t.Fatal(err)
-	}
-	for i, d := range cases {
-		got, _ := WilcoxonSignedRank(d)
-		if want[i] == nil {
-			if !math.IsNaN(got) {
-				t.Errorf("case %d: p %g for all-zero differences, want NaN", i, got)
-			}
-			continue
-		}
-		// Relative tolerance alone: the tails reach 1e-34.
-		if !testref.Close(got, *want[i], 0, 1e-9) {
-			t.Errorf("case %d (n %d): p %.15g, SciPy %.15g", i, len(d), got, *want[i])
-		}
-	}
-}
-
-// The exact floor: n positive untied differences give W+ = n(n+1)/2, whose
-// two-sided p is 2·2⁻ⁿ (common practice, no source: one of the 2ⁿ sign
-// patterns in each tail).
-func TestWilcoxonExactFloor(t *testing.T) {
-	for _, n := range []int{1, 5, 20, 50} {
-		d := make([]float64, n)
-		for i := range d {
-			d[i] = float64(i + 1)
-		}
-		got, m := WilcoxonSignedRank(d)
-		want := min(1, 2*math.Exp2(-float64(n)))
-		if m != n || got != want {
-			t.Errorf("n %d: p %g (n %d), want %g", n, got, m, want)
-		}
-	}
 }
 
 func TestFaithfulnessErrors(t *testing.T) {

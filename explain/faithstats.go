@@ -1,10 +1,8 @@
 package explain
 
 import (
-	"cmp"
 	"math"
 	"math/rand/v2"
-	"slices"
 
 	"telltale/cnn"
 )
@@ -68,14 +66,35 @@ func faithReport(per [][]textFaith, correct []bool, haveGold bool, opt *FaithOpt
 		mf.Top1Suff, mf.Top1SuffCI = mean(t1s), bootstrapMean(t1s, opt.Resamples, rng)
 		out.Methods = append(out.Methods, mf)
 	}
+	out.Pairs = methodPairs(rows, opt, rng)
+	return out
+}
+
+// methodPairs compares every two methods on every measure of faithMeasures,
+// the p-values adjusted by Holm's method across all the comparisons (Holm
+// 1979, "A Simple Sequentially Rejective Multiple Test Procedure", Scand.
+// J. Statist. 6:65–70; see Holm), which holds the family-wise error rate
+// under any dependence between them. The sign flips draw from a stream of
+// their own (seeded by opt.Seed), so that the intervals do not depend on
+// how many the tests draw.
+func methodPairs(rows [][]textFaith, opt *FaithOptions, rng *rand.Rand) []MethodPair {
+	flipRng := rand.New(rand.NewPCG(opt.Seed, 0xfa19))
+	var pairs []MethodPair
 	for a := range opt.Methods {
 		for b := a + 1; b < len(opt.Methods); b++ {
 			for _, meas := range faithMeasures {
-				out.Pairs = append(out.Pairs, methodPair(rows, a, b, meas, opt, rng))
+				pairs = append(pairs, methodPair(rows, a, b, meas, opt, rng, flipRng))
 			}
 		}
 	}
-	return out
+	ps := make([]float64, len(pairs))
+	for i, pr := range pairs {
+		ps[i] = pr.P
+	}
+	for i, adj := range Holm(ps) {
+		pairs[i].PHolm = adj
+	}
+	return pairs
 }
 
 // measureOf picks one aggregate measure of a text's figures.
@@ -89,7 +108,10 @@ func measureOf(f textFaith, meas string) float64 {
 	return f.aopc
 }
 
-func methodPair(rows [][]textFaith, a, b int, meas string, opt *FaithOptions, rng *rand.Rand) MethodPair {
+// methodPair compares methods a and b on measure meas over the texts where
+// both are defined: the mean of A − B with its paired bootstrap interval
+// (rng) and the sign-flip test of that mean (flipRng).
+func methodPair(rows [][]textFaith, a, b int, meas string, opt *FaithOptions, rng, flipRng *rand.Rand) MethodPair {
 	var d []float64
 	for _, r := range rows {
 		x, y := measureOf(r[a], meas), measureOf(r[b], meas)
@@ -97,9 +119,9 @@ func methodPair(rows [][]textFaith, a, b int, meas string, opt *FaithOptions, rn
 			d = append(d, x-y)
 		}
 	}
-	p, _ := WilcoxonSignedRank(d)
+	p, patterns := signFlipTest(d, SignFlipDraws, flipRng)
 	return MethodPair{A: opt.Methods[a], B: opt.Methods[b], Measure: meas, Texts: len(d),
-		Diff: mean(d), DiffCI: bootstrapMean(d, opt.Resamples, rng), P: p}
+		Diff: mean(d), DiffCI: bootstrapMean(d, opt.Resamples, rng), P: p, SignFlips: patterns}
 }
 
 // mean is the mean of xs, NaN when empty.
@@ -132,100 +154,99 @@ func bootstrapMean(xs []float64, b int, rng *rand.Rand) Interval {
 	return Interval{lo, hi}
 }
 
-// WilcoxonSignedRank is the two-sided p-value of the Wilcoxon signed-rank
-// test that the differences d are symmetric about zero (Wilcoxon 1945):
-// zero differences are dropped, the others ranked by absolute value with
-// average ranks for ties, and W+ (the sum of the ranks of the positive
-// ones) compared with its distribution under the null. As SciPy's
-// scipy.stats.wilcoxon does by default, that distribution is the exact one
-// when there are at most wilcoxonExactMax differences and none is zero;
-// unlike SciPy 1.10, which then truncates a W+ of average ranks, ties
-// also send the test to the normal approximation: mean n(n+1)/4, variance
-// n(n+1)(2n+1)/24 − Σ(t³−t)/48 over the groups of t tied values, no
-// continuity correction, its tail taken with erfc so that it does not
-// underflow before about 1e-300. It also returns n; the p-value is NaN
-// when n = 0 and 1 when every rank ties.
-func WilcoxonSignedRank(d []float64) (p float64, n int) {
-	var nz, abs []float64
-	for _, v := range d {
-		if v != 0 {
-			nz = append(nz, v)
-			abs = append(abs, math.Abs(v))
-		}
-	}
-	n = len(abs)
+// SignFlipDraws is the number of random sign patterns signFlipTest draws
+// for more than signFlipExactMax differences: its p-value is then at least
+// 1/(SignFlipDraws+1).
+const SignFlipDraws = 9999
+
+// signFlipExactMax is the most differences for which signFlipTest
+// enumerates all 2ⁿ sign patterns.
+const signFlipExactMax = 16
+
+// signFlipTest is the two-sided p-value of the paired sign-flip permutation
+// test that the mean of the paired differences d is zero (Good 2005,
+// "Permutation, Parametric, and Bootstrap Tests of Hypotheses", 3rd ed.,
+// Springer, the one-sample and matched-pairs permutation test; recalled
+// from memory): under the null each difference is as likely to have
+// either sign, so every pattern of signs s gives an equally likely sample,
+// and p is the share of patterns whose mean |Σ sᵢdᵢ|/n reaches the observed
+// |Σ dᵢ|/n. A mean reaches it within SciPy's tolerance max(10⁻¹⁴, 10⁻¹⁴·|t|)
+// (scipy.stats.permutation_test, 1.10), so that sums equal but for their
+// rounding count as equal. With at most signFlipExactMax differences every
+// pattern is enumerated (the exact p, as permutation_test with
+// permutation_type="samples" and n_resamples=inf gives it); with more,
+// draws patterns are drawn from rng and p = (1 + #reaching)/(draws + 1),
+// never 0 (Phipson & Smyth 2010, "Permutation P-values Should Never Be
+// Zero", SAGMB 9(1)). It also returns the number of patterns behind p.
+// Preconditions: finite d, draws ≥ 1. With no difference p is NaN (0
+// patterns); with every difference 0 it is 1.
+func signFlipTest(d []float64, draws int, rng *rand.Rand) (p float64, patterns int) {
+	n := len(d)
 	if n == 0 {
 		return math.NaN(), 0
 	}
-	order := make([]int, n)
-	for i := range order {
-		order[i] = i
+	if draws < 1 {
+		panic("explain: signFlipTest: draws < 1")
 	}
-	slices.SortFunc(order, func(a, b int) int { return cmp.Compare(abs[a], abs[b]) })
-	var wPlus, ties float64
-	for i := 0; i < n; {
-		j := i
-		for j+1 < n && abs[order[j+1]] == abs[order[i]] {
-			j++
+	if n <= signFlipExactMax {
+		return signFlipExact(d), 1 << n
+	}
+	fn, reach := float64(n), reachOf(d)
+	count := 0
+	signs := make([]uint64, (n+63)/64)
+	for range draws {
+		for w := range signs {
+			signs[w] = rng.Uint64()
 		}
-		rank := float64(i+j)/2 + 1 // average of ranks i+1 … j+1
-		for k := i; k <= j; k++ {
-			if nz[order[k]] > 0 {
-				wPlus += rank
+		var sum float64
+		for i, v := range d {
+			if signs[i/64]>>(i%64)&1 == 1 {
+				v = -v
 			}
+			sum += v
 		}
-		t := float64(j - i + 1)
-		ties += t*t*t - t
-		i = j + 1
+		if math.Abs(sum)/fn >= reach {
+			count++
+		}
 	}
-	if ties == 0 && n == len(d) && n <= wilcoxonExactMax {
-		return wilcoxonExact(n, int(wPlus)), n
-	}
-	fn := float64(n)
-	mu := fn * (fn + 1) / 4
-	v := fn*(fn+1)*(2*fn+1)/24 - ties/48
-	if v <= 0 {
-		return 1, n
-	}
-	z := (wPlus - mu) / math.Sqrt(v)
-	// 2·(1 − Φ(|z|)) = erfc(|z|/√2); 1 − erf would reach 0 near |z| = 8.
-	return math.Erfc(math.Abs(z) / math.Sqrt2), n
+	return float64(1+count) / float64(draws+1), draws
 }
 
-// wilcoxonExactMax is the most differences for which WilcoxonSignedRank
-// uses the exact distribution, SciPy's threshold.
-const wilcoxonExactMax = 50
+// reachOf is the least |mean| of a sign pattern of d that reaches d's own:
+// |mean(d)| less SciPy's tolerance max(10⁻¹⁴, 10⁻¹⁴·|mean(d)|).
+func reachOf(d []float64) float64 {
+	t := math.Abs(mean(d))
+	return t - max(1e-14, 1e-14*t)
+}
 
-// wilcoxonExact is the exact two-sided p-value of W+ = w among n untied
-// nonzero differences: twice the smaller tail of the number of subsets of
-// {1…n} with rank sum ≤ w or ≥ w over 2ⁿ, capped at 1, and 1 at the
-// centre, as SciPy computes it. The counts are below 2⁵⁰ for n ≤ 50, exact
-// in float64. Precondition: 0 ≤ w ≤ n(n+1)/2.
-func wilcoxonExact(n, w int) float64 {
-	top := n * (n + 1) / 2
-	if w < 0 || w > top {
-		panic("explain: wilcoxonExact: rank sum out of range")
+// signFlipExact is signFlipTest's p-value over all 2ⁿ sign patterns of d.
+// Preconditions: 1 ≤ len(d) ≤ 62, finite d; it takes time n·2ⁿ.
+func signFlipExact(d []float64) float64 {
+	n := len(d)
+	if n < 1 || n > 62 {
+		panic("explain: signFlipExact: need 1 to 62 differences")
 	}
-	counts := make([]float64, top+1)
-	counts[0] = 1
-	for r := 1; r <= n; r++ {
-		for s := r * (r + 1) / 2; s >= r; s-- {
-			counts[s] += counts[s-r]
+	fn, reach := float64(n), reachOf(d)
+	count := 0
+	for s := range uint64(1) << n {
+		if math.Abs(flippedSum(d, s))/fn >= reach {
+			count++
 		}
 	}
-	if 2*w == top {
-		return 1
-	}
-	var below, above float64
-	for s, c := range counts {
-		if s <= w {
-			below += c
+	return float64(count) / math.Exp2(fn)
+}
+
+// flippedSum is Σ sᵢdᵢ with sᵢ = −1 where bit i of signs is set, +1
+// elsewhere. Precondition: len(d) ≤ 64.
+func flippedSum(d []float64, signs uint64) float64 {
+	var sum float64
+	for i, v := range d {
+		if signs>>i&1 == 1 {
+			v = -v
 		}
-		if s >= w {
-			above += c
-		}
+		sum += v
 	}
-	return min(1, 2*min(below, above)/math.Exp2(float64(n)))
+	return sum
 }
 
 // MarshalJSON writes NaN figures (nothing to average) as null.
@@ -257,14 +278,22 @@ func (iv Interval) MarshalJSON() ([]byte, error) {
 	}{finite(iv.Low), finite(iv.High)})
 }
 
+// PAtFloor reports whether P is the floor 1/(SignFlipDraws+1) of the drawn
+// sign-flip test: no drawn pattern reached the observed mean, so that P, and
+// PHolm with it, are bounds (the exact p is at most that), not estimates.
+func (mp MethodPair) PAtFloor() bool {
+	return mp.SignFlips == SignFlipDraws && mp.P <= 1/float64(SignFlipDraws+1)
+}
+
 // MarshalJSON writes a NaN difference or p-value (no text) as null.
 func (mp MethodPair) MarshalJSON() ([]byte, error) {
 	type plain MethodPair
 	return jsonMarshal(struct {
 		plain
-		Diff *float64 `json:"diff"`
-		P    *float64 `json:"p"`
-	}{plain: plain(mp), Diff: finite(mp.Diff), P: finite(mp.P)})
+		Diff  *float64 `json:"diff"`
+		P     *float64 `json:"p"`
+		PHolm *float64 `json:"p_holm"`
+	}{plain: plain(mp), Diff: finite(mp.Diff), P: finite(mp.P), PHolm: finite(mp.PHolm)})
 }
 
 // MarshalJSON writes a NaN accuracy as null.

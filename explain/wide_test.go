@@ -103,7 +103,7 @@ func words(ids []int32) int {
 // left is scored by the unknown word's row, which the shift moves with the
 // output biases (see Explanation). Texts hold no word twice: removing one
 // or the other copy of a word gives the same probability up to float
-// rounding, and the Wilcoxon test's p then counts such a difference as
+// rounding, and a paired test could then count such a difference as
 // zero or not by that rounding alone. With bigram weights too, their rows
 // shifted with the words'.
 func TestFaithfulnessWideShift(t *testing.T) {
