@@ -43,14 +43,21 @@ type KeptDownWindow struct {
 	// Effect = (OutW[ŷ][g] − OutW[r][g])·(Positive − Winner), ŷ the
 	// predicted class and r the runner-up: the change in their log-odds had
 	// this window won without its negative slots, every other filter
-	// unchanged. With the wide path, replacing the By tokens also changes
-	// the wide term; that change is in the measured LogOdds and Drop, not
-	// in Effect, which is the filter's alone.
+	// unchanged. It estimates FilterLogOdds − the text's log-odds, the
+	// filter path's change; with the wide path, replacing the By tokens
+	// also changes the wide term, a change in LogOdds and Drop only.
 	Effect float64 `json:"effect"`
-	// Pooled is the filter's pooled value, LogOdds the log-odds of ŷ
-	// against r and Drop = p(ŷ|x) − p(ŷ|x edited), measured on the text
-	// with the By tokens replaced by PAD.
-	Pooled  float64 `json:"-"`
+	// Pooled is the filter's pooled value and FilterLogOdds the log-odds
+	// of ŷ against r measured on the text with the By tokens replaced by
+	// PAD in the filters' windows only, the wide path's term held at its
+	// value on the text: the change Effect estimates (every filter whose
+	// windows hold a By token may move, not g alone). Without the wide path
+	// it equals LogOdds.
+	Pooled        float64 `json:"-"`
+	FilterLogOdds float64 `json:"filter_log_odds"`
+	// LogOdds and Drop = p(ŷ|x) − p(ŷ|x edited) are measured on the text
+	// with the By tokens replaced by PAD everywhere: with the wide path,
+	// their word and bigram weights leave the wide term too.
 	LogOdds float64 `json:"log_odds"`
 	Drop    float64 `json:"drop"`
 
@@ -142,17 +149,24 @@ func keptDownWindow(r *Runner, g, t0 int, full bool) KeptDownWindow {
 }
 
 // measureKeptDown re-runs the text with the window's By tokens replaced by
-// PAD.
+// PAD, first with the wide path's term held (FilterLogOdds, Pooled), then
+// with it moved too (LogOdds, Drop).
 func measureKeptDown(o *occluder, lo contrast, kd *KeptDownWindow) {
 	if len(kd.By) == 0 {
 		// A window can pass its filter's pooled value with no negative
 		// slot only through float rounding; nothing to replace.
 		kd.Pooled, kd.LogOdds = kd.Winner, lo.dot(o.e.logits)
+		kd.FilterLogOdds = kd.LogOdds
 		return
 	}
 	by := kd.By
-	o.apply(by[0], by[len(by)-1], func(i int) bool { return !slices.Contains(by, i) })
+	keep := func(i int) bool { return !slices.Contains(by, i) }
+	o.holdWide = true
+	o.apply(by[0], by[len(by)-1], keep)
+	o.holdWide = false
 	kd.Pooled = float64(o.pooled[kd.Filter])
+	kd.FilterLogOdds = lo.dot(o.z)
+	o.apply(by[0], by[len(by)-1], keep)
 	kd.LogOdds = lo.dot(o.z)
 	kd.Drop, _ = o.drops()
 }
