@@ -107,7 +107,7 @@ func shownNumbers(e *Explanation) (names []string, vals []float64) {
 	}
 	for _, kd := range e.KeptDown {
 		add("kept_down", float64(kd.Filter), float64(kd.Start), kd.ActivationLogOdds, kd.PositiveLogOdds, kd.WinnerLogOdds,
-			kd.Effect, kd.PooledLogOdds, kd.FilterLogOdds, kd.LogOdds, kd.Drop)
+			kd.Effect, kd.PooledLogOdds, kd.Own, kd.WordsHeld, kd.LogOdds, kd.Drop)
 		add("kept_down.slots", kd.SlotsLogOdds...)
 		add("kept_down.by", intsToFloats(kd.By)...)
 	}
@@ -674,6 +674,11 @@ func checkKeptDown(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, k in
 		if !testref.Close(kd.Pooled, float64(f.Pooled[kd.Filter]), 1e-5, 1e-5) || kd.Pooled < kd.Positive-1e-5 {
 			t.Fatalf("filter %d: pooled after the edit %g, forward %g, positive part %g", kd.Filter, kd.Pooled, f.Pooled[kd.Filter], kd.Positive)
 		}
+		nf := m.Config.NumFilters()
+		col := float64(m.OutW[e.Class*nf+kd.Filter]) - float64(m.OutW[e.RunnerUp*nf+kd.Filter])
+		if own := col * (float64(f.Pooled[kd.Filter]) - b.winner); !testref.Close(kd.Own, own, 1e-4, 1e-5) {
+			t.Fatalf("filter %d: own change %g after the edit, forward %g", kd.Filter, kd.Own, own)
+		}
 		lo := float64(f.Logits[e.Class]) - float64(f.Logits[e.RunnerUp])
 		checkKeptFilterPath(t, m, ids, edited, e, kd, lo)
 		if !testref.Close(kd.LogOdds, lo, 1e-4, 1e-5) || !testref.Close(kd.Drop, e.Probabilities[e.Class]-float64(f.Probs[e.Class]), 2e-6, 1e-4) {
@@ -690,7 +695,7 @@ func checkKeptDown(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, k in
 	}
 }
 
-// checkKeptFilterPath checks kd.FilterLogOdds, the edit with the wide
+// checkKeptFilterPath checks kd.WordsHeld, the edit with the wide
 // path's term held, against the reference forward pass (cnn.Model.Forward)
 // of m without its wide path on the edited text plus m's wide term of the
 // text itself, as cnn.Model.AddWide adds it: the log-odds with only the
@@ -706,8 +711,8 @@ func checkKeptFilterPath(t *testing.T, m *cnn.Model, ids, edited []int32, e *Exp
 		m.AddWide(ids, z)
 		want = float64(z[e.Class]) - float64(z[e.RunnerUp])
 	}
-	if !testref.Close(kd.FilterLogOdds, want, 1e-4, 1e-5) {
-		t.Fatalf("text %v filter %d: log-odds %g after the edit with the wide term held, forward %g (whole edit %g)", ids, kd.Filter, kd.FilterLogOdds, want, lo)
+	if !testref.Close(kd.WordsHeld, want, 1e-4, 1e-5) {
+		t.Fatalf("text %v filter %d: log-odds %g after the edit with the wide term held, forward %g (whole edit %g)", ids, kd.Filter, kd.WordsHeld, want, lo)
 	}
 }
 
