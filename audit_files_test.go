@@ -1,9 +1,11 @@
 package main
 
 import (
+	"encoding/csv"
 	"os"
 	"path/filepath"
 	"reflect"
+	"slices"
 	"strings"
 	"testing"
 
@@ -58,12 +60,21 @@ func TestAuditHeldoutFilesAndMarks(t *testing.T) {
 	})
 
 	t.Run("retrained model keeps the splits", func(t *testing.T) {
-		retrained := filepath.Join(dir, "without.tt")
+		// The file the story would suggest training into without
+		// --retrain-out: with it, the story must not suggest replacing it.
+		retrained := filepath.Join(dir, "m-without.tt")
 		marks := filepath.Join(dir, "retrain.marks")
-		code, _, stderr := tt(t, append(base, "--marks", marks, "--mark-artifact", "tkref - <number>", "--retrain", "--retrain-out", retrained, "--quiet")...)
-		if code != 0 {
-			t.Fatalf("audit --retrain: exit %d: %s", code, stderr)
+		confirming := filepath.Join(dir, "confirming.csv")
+		var res auditOut
+		jsonOf(t, &res, append(base, "--marks", marks, "--mark-artifact", "tkref - <number>", "--retrain", "--retrain-out", retrained,
+			"--confirming-out", confirming, "--json", "--quiet")...)
+		if !strings.Contains(res.Story, "What to do:") {
+			t.Fatalf("the story has no advice to check:\n%s", res.Story)
 		}
+		if strings.Contains(res.Story, "--out "+retrained) || !strings.Contains(res.Story, "into "+retrained+" (--retrain-out)") {
+			t.Errorf("the story suggests training into %s, which --retrain-out wrote, or does not name it:\n%s", retrained, res.Story)
+		}
+		checkConfirmingFile(t, confirming, res.ConfirmationTexts)
 		before, err := cnn.Load(model)
 		if err != nil {
 			t.Fatal(err)
@@ -149,5 +160,44 @@ func TestRecipeDifference(t *testing.T) {
 		if (c.want == "") != (got == "") || !strings.Contains(got, c.want) {
 			t.Errorf("%s: %q, want %q", c.name, got, c.want)
 		}
+	}
+}
+
+// checkConfirmingFile checks the file --confirming-out wrote: n records
+// (the audit's confirming half), each a text of the demo's test file with
+// its label there, none twice more often than there; both files read with
+// encoding/csv, RFC 4180, not the project's reader.
+func checkConfirmingFile(t *testing.T, path string, n int) {
+	t.Helper()
+	read := func(p string) [][]string {
+		f, err := os.Open(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer f.Close()
+		recs, err := csv.NewReader(f).ReadAll()
+		if err != nil {
+			t.Fatalf("%s: %v", p, err)
+		}
+		return recs
+	}
+	test, got := read("testdata/demo/test.csv"), read(path)
+	ti, li := slices.Index(test[0], "text"), slices.Index(test[0], "label")
+	if ti < 0 || li < 0 || !slices.Equal(got[0], []string{"text", "label"}) {
+		t.Fatalf("headers %q (test file) and %q (%s)", test[0], got[0], path)
+	}
+	left := map[[2]string]int{}
+	for _, r := range test[1:] {
+		left[[2]string{r[ti], r[li]}]++
+	}
+	if len(got)-1 != n || n < len(test[1:])/3 {
+		t.Fatalf("%s holds %d texts; the confirming half has %d of the test file's %d", path, len(got)-1, n, len(test)-1)
+	}
+	for _, r := range got[1:] {
+		k := [2]string{r[0], r[1]}
+		if left[k] == 0 {
+			t.Fatalf("%s: %q labelled %q is not a text of the test file (or is there fewer times)", path, r[0], r[1])
+		}
+		left[k]--
 	}
 }

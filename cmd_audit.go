@@ -25,7 +25,8 @@ var cmdAudit = &command{
 	Name: "audit",
 	UsageLine: "audit --model MODEL --data FILE [--test FILE] [--top K] [--export FILE] [--json]\n" +
 		"               [--marks FILE] [--mark-artifact CUE]... [--mark-task CUE]... [--unmark CUE]...\n" +
-		"               [--seeds N | --models M2,M3,...] [--stable-in K] [--retrain [--retrain-out MODEL2]] [--masked-out MODEL2]",
+		"               [--seeds N | --models M2,M3,...] [--stable-in K] [--retrain [--retrain-out MODEL2]] [--masked-out MODEL2]\n" +
+		"               [--confirming-out FILE]",
 	Short: "find the cues the model relies on that look like how its data was collected, and what to do",
 	Long: `Audit asks three questions of every word and phrase that predicts a label in
 the training split of --data, and tells in plain words what it found:
@@ -78,7 +79,9 @@ model. --masked-out writes a copy of the model with the filters masked that
 helped on the confirming half; on a model with word weights (train --wide) the
 copy also reads the cues' own words as the unknown word by the word weights,
 as the audit measured it. When no mask helped, nothing is written and the
-command fails.`,
+command fails. --confirming-out writes the confirming half's texts and labels
+(as read) to a .csv, .tsv or .jsonl file, for comparing models on texts that
+took no part in choosing the cues (telltale compare --test FILE).`,
 	Options: func() options { return new(auditOptions) },
 	Run:     runAs(runAudit),
 }
@@ -98,6 +101,7 @@ type auditOptions struct {
 	retrain                      bool
 	retrainOut, vectors          string
 	maskedOut, export            string
+	confirmingOut                string
 	seed                         uint64
 	threads                      threadsOption
 	asJSON, quiet                bool
@@ -137,6 +141,7 @@ func (o *auditOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.retrainOut, "retrain-out", "", "with --retrain: write the retrained model to this file")
 	fs.StringVar(&o.vectors, "vectors", "", "with --seeds or --retrain: the word vectors the model was trained with (model files do not record them)")
 	fs.StringVar(&o.maskedOut, "masked-out", "", "write a copy of the model with the filters masked that helped on the confirming half")
+	fs.StringVar(&o.confirmingOut, "confirming-out", "", "write the confirming half of the test texts to this .csv, .tsv or .jsonl file")
 	fs.StringVar(&o.export, "export", "", "write the listed cues to this .csv or .jsonl file (with --seeds or --models, the stability table beside it, NAME.stability.csv)")
 	seedVar(fs, &o.seed, "seed", cnn.DefaultRecipe().Train.Seed, "random seed of the halves, the edits and the bootstrap")
 	o.threads.register(fs)
@@ -157,7 +162,7 @@ func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		if !o.marking() {
 			return usagef("--data is required: the labeled data the model was trained on")
 		}
-		for _, name := range []string{"test", "seeds", "models", "retrain", "retrain-out", "masked-out", "export", "json"} {
+		for _, name := range []string{"test", "seeds", "models", "retrain", "retrain-out", "masked-out", "confirming-out", "export", "json"} {
 			if isSet(fs, name) {
 				return usagef("--%s needs --data: without it the audit only writes the marks", name)
 			}
@@ -184,6 +189,8 @@ func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		return usagef("--stable-in needs --seeds or --models: the cues stable over several models")
 	case o.stableIn > audits:
 		return usagef("--stable-in %d: there are only %d audits (the model and %d more)", o.stableIn, audits, audits-1)
+	case o.confirmingOut != "" && corpus.FormatOf(o.confirmingOut) == "":
+		return usagef("--confirming-out %s: the file must end in .csv, .tsv or .jsonl (its format)", clip(o.confirmingOut))
 	case o.retrainOut != "" && !o.retrain:
 		return usagef("--retrain-out needs --retrain")
 	case o.vectors != "" && !o.retrain && o.seeds == 0:
@@ -232,7 +239,7 @@ func (o *auditOptions) stabilityPath() string {
 
 func (o *auditOptions) files() (outputs, inputs []outguard.File) {
 	outputs = []outguard.File{{Name: "--export", Path: o.export}, {Name: "--export's stability table", Path: o.stabilityPath()},
-		{Name: "--masked-out", Path: o.maskedOut}, {Name: "--retrain-out", Path: o.retrainOut}}
+		{Name: "--masked-out", Path: o.maskedOut}, {Name: "--retrain-out", Path: o.retrainOut}, {Name: "--confirming-out", Path: o.confirmingOut}}
 	inputs = []outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.data}, {Name: "--test", Path: o.test},
 		{Name: "--vectors", Path: o.vectors}}
 	for _, p := range o.others {
@@ -286,7 +293,7 @@ func runAudit(ctx context.Context, env *runEnv, o *auditOptions) error {
 	if err != nil {
 		return err
 	}
-	if err := o.writeFiles(env, m, marks, out); err != nil {
+	if err := o.writeFiles(env, m, es, marks, out); err != nil {
 		return err
 	}
 	if err := run.print(out); err != nil {
@@ -438,7 +445,7 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 		}
 	}
 	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.src.heldoutFile(), r.o.data),
-		HeldoutShare: r.src.heldoutShare(), RetrainCommands: r.src.retrainCommands, Seed: r.o.seed, Workers: r.o.threads.N}
+		HeldoutShare: r.src.heldoutShare(), RetrainCommands: r.src.retrainCommands, RetrainedModel: r.o.retrainOut, Seed: r.o.seed, Workers: r.o.threads.N}
 	return audit.Run(ctx, mu, train, held, opt, func(stage string, done, total int) {
 		r.bar.show(done, total, what+"audit: "+auditStage(stage), false)
 	})
@@ -735,7 +742,7 @@ func (o *auditOptions) trainingRecipe(m *cnn.Model, es *evalSet) (*cnn.Recipe, e
 
 // writeFiles writes the exports, the marks and the models the options ask
 // for.
-func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, marks *audit.Marks, out *auditJSON) error {
+func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, es *evalSet, marks *audit.Marks, out *auditJSON) error {
 	if o.export != "" {
 		if err := report.WriteTableFile(o.export, report.CueTable(out.Result)); err != nil {
 			return err
@@ -748,6 +755,12 @@ func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, marks *audit.Marks,
 	}
 	if err := o.writeMarks(env, marks); err != nil {
 		return err
+	}
+	if o.confirmingOut != "" {
+		if err := writeConfirming(o.confirmingOut, es, out.Confirmation); err != nil {
+			return err
+		}
+		say(env.Stderr, o.quiet, "the confirming half's %d texts are written to %s", len(out.Confirmation), o.confirmingOut)
 	}
 	if o.retrainOut != "" {
 		if err := out.Retrained.Model.Save(o.retrainOut); err != nil {

@@ -532,6 +532,8 @@ func TestAuditRefusals(t *testing.T) {
 		{a("--seeds", "2", "--models", f.model+"x"), 2, "give --seeds N or --models, not both"},
 		{a("--stable-in", "2"), 2, "--stable-in needs --seeds or --models"},
 		{a("--retrain-out", filepath.Join(f.dir, "r.tt")), 2, "--retrain-out needs --retrain"},
+		{a("--confirming-out", filepath.Join(f.dir, "c.txt")), 2, "c.txt: the file must end in .csv, .tsv or .jsonl"},
+		{[]string{"audit", "--model", f.model, "--mark-task", "ferry", "--confirming-out", filepath.Join(f.dir, "c.csv")}, 2, "--confirming-out needs --data"},
 		{a("--vectors", "v.txt"), 2, "--vectors is for training"},
 		{a("--models", f.model), 2, "the model itself is always audited"},
 		{a("--mark-task", "ferry", "--unmark", " ferry "), 2, `the cue "ferry" is given to --mark-task and --unmark`},

@@ -369,21 +369,26 @@ func largestAbs(v []float64, k int) []int {
 }
 
 // writeKeptDown lists the windows that would have won their filter but for
-// the tokens in brackets, with the estimated and the measured change of the
-// log-odds when those tokens are replaced by padding.
+// the tokens in brackets: the estimated change of the log-odds had the
+// window won without them, then the change measured with those tokens
+// replaced by padding, split exactly (explain.KeptDownWindow.Parts) into
+// the filter's own part (the estimate's quantity), the other filters' and,
+// on a model with word weights, the word weights'.
 func writeKeptDown(w io.Writer, e *explain.Explanation) {
 	if len(e.KeptDown) == 0 {
 		return
 	}
-	also := ""
-	if e.LogOdds.Words != nil {
-		also = ", their word weights removed too"
-	}
-	fmt.Fprintf(w, "windows kept down by the [tokens] in them (change of log p(%s)/p(%s) had the window won without them; measured without them%s):\n",
-		e.Label, e.Labels[e.RunnerUp], also)
+	wide := e.LogOdds.Words != nil
+	fmt.Fprintf(w, "windows kept down by the [tokens] in them (change of log p(%s)/p(%s): estimated had the window won without them; measured with them replaced by padding, split exactly):\n",
+		e.Label, e.Labels[e.RunnerUp])
 	for _, kd := range e.KeptDown {
-		fmt.Fprintf(w, "  filter %-4d width %d  %q  estimate %+.3f, measured %+.3f (p(%s) %s)\n", kd.Filter, kd.Width,
-			strings.Join(tokenTexts(e, kd.Start, kd.Width, kd.By), " "), kd.Effect, kd.LogOdds-e.LogOdds.Value, e.Label, change(kd.Drop))
+		own, others, words, whole := kd.Parts(e.LogOdds.Value)
+		split := fmt.Sprintf("this filter %+.3f, other filters %+.3f", own, others)
+		if wide {
+			split += fmt.Sprintf(", word weights %+.3f", words)
+		}
+		fmt.Fprintf(w, "  filter %-4d width %d  %q  estimated %+.3f; measured: %s, whole %+.3f (p(%s) %s)\n", kd.Filter, kd.Width,
+			strings.Join(tokenTexts(e, kd.Start, kd.Width, kd.By), " "), kd.Effect, split, whole, e.Label, change(kd.Drop))
 	}
 }
 

@@ -35,27 +35,27 @@ func TestLargestAbs(t *testing.T) {
 	}
 }
 
-// TestKeptDownNamesWordWeights: the kept-down list's header says, for a
-// model with word weights, that the measured change also removes the
-// bracketed tokens' word weights (the estimate is the filter's alone, see
-// explain.KeptDownWindow.Effect); without them the header is as before.
+// TestKeptDownNamesWordWeights: each kept-down window shows the estimate
+// beside the measured change split into its parts (explain's
+// KeptDownWindow.Parts: this filter, the other filters and, on a model
+// with word weights only, the word weights) and the whole.
 func TestKeptDownNamesWordWeights(t *testing.T) {
 	e := &explain.Explanation{Label: "a", Labels: []string{"a", "b"}, RunnerUp: 1,
-		Tokens:   []explain.TokenSpan{{Text: "no"}, {Text: "ferry"}, {Text: "today"}},
-		KeptDown: []explain.KeptDownWindow{{Filter: 3, Width: 2, Start: 0, By: []int{0}, Effect: 0.5, LogOdds: 1.25, Drop: 0.1}}}
+		Tokens: []explain.TokenSpan{{Text: "no"}, {Text: "ferry"}, {Text: "today"}},
+		KeptDown: []explain.KeptDownWindow{{Filter: 3, Width: 2, Start: 0, By: []int{0}, Effect: 0.5, Own: 0.5,
+			WordsHeld: 1.75, LogOdds: 1.75, Drop: 0.1}}}
 	e.LogOdds.Value = 1
 	for _, wide := range []bool{false, true} {
+		line := `"[no] ferry"  estimated +0.500; measured: this filter +0.500, other filters +0.250, whole +0.750 (p(a) falls by 0.100)`
 		if wide {
 			e.LogOdds.Words = []float64{0.1, 0.2, 0.3}
+			e.KeptDown[0].WordsHeld = 1.25
+			line = `"[no] ferry"  estimated +0.500; measured: this filter +0.500, other filters -0.250, word weights +0.500, whole +0.750 (p(a) falls by 0.100)`
 		}
 		var b strings.Builder
 		writeKeptDown(&b, e)
-		out := b.String()
-		if !strings.Contains(out, `"[no] ferry"  estimate +0.500, measured +0.250`) {
-			t.Errorf("wide %v: the window's line is missing:\n%s", wide, out)
-		}
-		if got := strings.Contains(out, "their word weights removed too"); got != wide {
-			t.Errorf("wide %v: the header names the word weights: %v\n%s", wide, got, out)
+		if out := b.String(); !strings.Contains(out, line) {
+			t.Errorf("wide %v: the window's line %s is missing:\n%s", wide, line, out)
 		}
 	}
 }

@@ -55,7 +55,8 @@ func TestExplainTextShowsTheJSONNumbers(t *testing.T) {
 	}
 	for _, kd := range e.KeptDown {
 		want = append(want, fmt.Sprintf("filter %-4d width %d", kd.Filter, kd.Width),
-			fmt.Sprintf("estimate %+.3f, measured %+.3f (p(%s) %s)", kd.Effect, kd.LogOdds-lo.Value, e.Label, change(kd.Drop)))
+			fmt.Sprintf("estimated %+.3f; measured: this filter %+.3f, other filters %+.3f", kd.Effect, kd.Own, kd.WordsHeld-lo.Value-kd.Own),
+			fmt.Sprintf("whole %+.3f (p(%s) %s)", kd.LogOdds-lo.Value, e.Label, change(kd.Drop)))
 	}
 	for _, w := range want {
 		if !strings.Contains(out, w) {

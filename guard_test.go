@@ -26,7 +26,7 @@ var guardCommands = []guardCommand{
 	{"predict", []string{"--export"}, []string{"--model", "--data"}, nil},
 	{"explain", []string{"--export"}, []string{"--model", "--data"}, nil},
 	{"filters", []string{"--export"}, []string{"--model", "--data"}, nil},
-	{"audit", []string{"--export", "--masked-out", "--retrain-out"}, []string{"--model", "--data", "--test", "--models", "--vectors", "--marks"}, []string{"--retrain"}},
+	{"audit", []string{"--export", "--masked-out", "--retrain-out", "--confirming-out"}, []string{"--model", "--data", "--test", "--models", "--vectors", "--marks"}, []string{"--retrain"}},
 	{"mask", []string{"--out"}, []string{"--model", "--data", "--test"}, []string{"--filters", "0"}},
 	{"report", []string{"--out"}, []string{"--model", "--data", "--test"}, nil},
 	{"import", []string{"--out"}, []string{"--state-dict", "--vocab", "--labels-file", "--tokenizer", "--check-texts", "--check-logits"}, nil},
@@ -118,10 +118,11 @@ func TestOutputNeverOverwritesInput(t *testing.T) {
 
 func checkGuard(t *testing.T, gc guardCommand, out, in string, alias func(*testing.T, string, string, string) string, contents map[string][]byte) {
 	dir := t.TempDir()
-	// An --export must end in .csv, so the inputs are named that way too:
-	// the guard, not the extension check, must be what refuses.
+	// An --export or --confirming-out must end in .csv, so the inputs are
+	// named that way too: the guard, not the extension check, must be what
+	// refuses.
 	ext := ".in"
-	if out == "--export" {
+	if out == "--export" || out == "--confirming-out" {
 		ext = ".csv"
 	}
 	args, paths := guardArgs(t, gc, dir, ext, contents)

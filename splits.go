@@ -5,9 +5,11 @@ import (
 	"fmt"
 	"io"
 	"path/filepath"
+	"slices"
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/atomicfile"
 	"telltale/internal/heldout"
 	"telltale/internal/wording"
 )
@@ -318,4 +320,17 @@ func say(w io.Writer, quiet bool, format string, args ...any) {
 	if !quiet {
 		fmt.Fprintf(w, "note: "+format+"\n", args...)
 	}
+}
+
+// writeConfirming writes the test texts of es at idx (indexes into
+// es.test.Examples: the audit's confirming half, audit.Result.Confirmation),
+// in the file's order, to path in the format its name gives (corpus.FormatOf,
+// checked before the audit ran), through a temporary file renamed over
+// path, so no half-written file is left.
+func writeConfirming(path string, es *evalSet, idx []int) error {
+	exs := make([]corpus.Example, len(idx))
+	for k, i := range slices.Sorted(slices.Values(idx)) {
+		exs[k] = es.test.Examples[i]
+	}
+	return atomicfile.Write(path, func(w io.Writer) error { return corpus.Write(w, corpus.FormatOf(path), exs) })
 }

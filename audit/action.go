@@ -36,8 +36,12 @@ type Action struct {
 	MaskWords []string  `json:"mask_words,omitempty"`
 	Tried     *Ablation `json:"mask_tried,omitempty"`
 	// Commands are the command lines that retrain without the cues
-	// (Options.RetrainCommands; nil without it). The story shows them.
+	// (Options.RetrainCommands; nil without it, or with RetrainedModel).
+	// The story shows them.
 	Commands []string `json:"-"`
+	// RetrainedModel is Options.RetrainedModel, the file the model
+	// retrained without the cues goes to; the story names it.
+	RetrainedModel string `json:"-"`
 }
 
 // Counterfactual is the model on the confirmation half as it is and with
@@ -88,7 +92,8 @@ func (a *auditor) act(ctx context.Context, res *Result) error {
 	if res.Action.Mask != nil {
 		res.Action.MaskWords = res.Action.Tried.Words
 	}
-	if a.opt.RetrainCommands != nil {
+	res.Action.RetrainedModel = a.opt.RetrainedModel
+	if a.opt.RetrainCommands != nil && a.opt.RetrainedModel == "" {
 		res.Action.Commands = a.opt.RetrainCommands(res.Action.Patterns)
 	}
 	a.progress("action", 1, 1)

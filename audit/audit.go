@@ -68,6 +68,11 @@ type Options struct {
 	// on its own splits. Nil: the story lists the patterns and says what to
 	// do in words.
 	RetrainCommands func(patterns []string) []string
+	// RetrainedModel is the file the caller writes the model retrained
+	// without the cues to (telltale audit --retrain-out), "" for none: the
+	// story then names it for the comparison and suggests no command that
+	// trains into a file (it would replace that one).
+	RetrainedModel string
 	// Seed seeds the halves, the edits and the bootstrap.
 	Seed uint64
 	// Workers is the number of goroutines (0: GOMAXPROCS); TableBytes

@@ -221,8 +221,14 @@ func (r *Result) writeStory(w io.Writer) {
 // whether a mask (filters, word weights or both) helps.
 func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 	it := map[bool]string{true: "it", false: "them"}[len(acted) == 1]
-	p("\nWhat to do: retrain without %s and compare both models, with and without %s, on texts that took no part in\n", it, it)
-	p("choosing %s: the confirming half (as telltale audit --retrain does) or a new test file.\n", it)
+	if m := r.Action.RetrainedModel; m != "" {
+		p("\nWhat to do: this audit retrains the model's recipe without %s into %s (--retrain-out); compare both\n", it, m)
+		p("models, with and without %s, on texts that took no part in choosing %s: the confirming half, as this audit does\n", it, it)
+		p("(--confirming-out writes it to a file for telltale compare), or a new test file.\n")
+	} else {
+		p("\nWhat to do: retrain without %s and compare both models, with and without %s, on texts that took no part in\n", it, it)
+		p("choosing %s: the confirming half (as telltale audit --retrain does) or a new test file.\n", it)
+	}
 	if cmds := r.Action.Commands; len(cmds) > 0 {
 		p("These commands write the patterns that take %s out of the text to a file and train the model's recipe again\n", it)
 		p("on its own splits without %s:\n", it)
@@ -234,7 +240,9 @@ func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 		for _, pat := range r.Action.Patterns {
 			p("    %s\n", pat)
 		}
-		p("Train the model's recipe again on its own splits with that file.\n")
+		if r.Action.RetrainedModel == "" {
+			p("Train the model's recipe again on its own splits with that file.\n")
+		}
 	}
 	p("%s\n", markAdvice(acted))
 	if t := r.Action.Tried; t != nil {

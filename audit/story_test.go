@@ -65,6 +65,24 @@ func TestStoryCommands(t *testing.T) {
 	}
 }
 
+// With the retrained model written by the audit (Options.RetrainedModel),
+// the story names its file for the comparison and lists the patterns, and
+// suggests no retraining into a file.
+func TestStoryRetrainedModel(t *testing.T) {
+	r := &Result{ConfirmationTexts: 100, Action: Action{RetrainedModel: "m-without.tt"}}
+	r.Ranked = append(r.Ranked, Candidate{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: VerdictActed,
+		Confirmed: &Reliance{Texts: 10}, Association: CueAssociation{Texts: 20}})
+	r.Action.Cues, r.Action.Patterns = []string{"stamp"}, []string{pattern([]string{"stamp"})}
+	story := r.Story()
+	if !strings.Contains(story, "retrains the model's recipe without it into m-without.tt (--retrain-out)") ||
+		!strings.Contains(story, "    "+pattern([]string{"stamp"})+"\n") {
+		t.Errorf("the story does not name the retrained model's file or lacks the patterns:\n%s", story)
+	}
+	if strings.Contains(story, "Train the model's recipe again") || strings.Contains(story, "--out") {
+		t.Errorf("the story suggests retraining into a file though the audit writes the retrained model:\n%s", story)
+	}
+}
+
 // The story names the first eight cues that read like the task, and every
 // one marked task after them, saying so.
 func TestStoryTaskMarks(t *testing.T) {

@@ -19,6 +19,9 @@
 // (default 1 MiB) are truncated, each with a Warning. A UTF-8 byte order
 // mark and CRLF line ends are accepted. Nothing on disk is modified.
 //
+// Write writes examples as a CSV, TSV or JSON Lines file with the columns
+// text and label, which Load reads back to the same texts and labels.
+//
 // # Splitting and checking
 //
 // Dataset.Split makes a stratified, seeded split; LabelIndex maps labels to

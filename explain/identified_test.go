@@ -82,7 +82,7 @@ func shownNumbers(e *Explanation) (names []string, vals []float64) {
 	}
 	for _, kd := range e.KeptDown {
 		add("kept_down", float64(kd.Filter), float64(kd.Start), kd.ActivationLogOdds, kd.PositiveLogOdds, kd.WinnerLogOdds,
-			kd.Effect, kd.PooledLogOdds, kd.LogOdds, kd.Drop)
+			kd.Effect, kd.PooledLogOdds, kd.Own, kd.WordsHeld, kd.LogOdds, kd.Drop)
 		add("kept_down.slots", kd.SlotsLogOdds...)
 		add("kept_down.by", intsToFloats(kd.By)...)
 	}
@@ -649,7 +649,13 @@ func checkKeptDown(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, k in
 		if !testref.Close(kd.Pooled, float64(f.Pooled[kd.Filter]), 1e-5, 1e-5) || kd.Pooled < kd.Positive-1e-5 {
 			t.Fatalf("filter %d: pooled after the edit %g, forward %g, positive part %g", kd.Filter, kd.Pooled, f.Pooled[kd.Filter], kd.Positive)
 		}
+		nf := m.Config.NumFilters()
+		col := float64(m.OutW[e.Class*nf+kd.Filter]) - float64(m.OutW[e.RunnerUp*nf+kd.Filter])
+		if own := col * (float64(f.Pooled[kd.Filter]) - b.winner); !testref.Close(kd.Own, own, 1e-4, 1e-5) {
+			t.Fatalf("filter %d: own change %g after the edit, forward %g", kd.Filter, kd.Own, own)
+		}
 		lo := float64(f.Logits[e.Class]) - float64(f.Logits[e.RunnerUp])
+		checkKeptFilterPath(t, m, ids, edited, e, kd, lo)
 		if !testref.Close(kd.LogOdds, lo, 1e-4, 1e-5) || !testref.Close(kd.Drop, e.Probabilities[e.Class]-float64(f.Probs[e.Class]), 2e-6, 1e-4) {
 			t.Fatalf("filter %d: log-odds %g drop %g after the edit, forward %g %g", kd.Filter, kd.LogOdds, kd.Drop, lo, e.Probabilities[e.Class]-float64(f.Probs[e.Class]))
 		}
@@ -661,6 +667,27 @@ func checkKeptDown(t *testing.T, m *cnn.Model, ids []int32, e *Explanation, k in
 		if !reported[g] && len(e.KeptDown) == k && math.Abs(b.effect) > smallest+1e-5 {
 			t.Fatalf("text %v: filter %d left out with |effect| %g above the smallest reported %g", ids, g, math.Abs(b.effect), smallest)
 		}
+	}
+}
+
+// checkKeptFilterPath checks kd.WordsHeld, the edit with the wide
+// path's term held, against the reference forward pass (cnn.Model.Forward)
+// of m without its wide path on the edited text plus m's wide term of the
+// text itself, as cnn.Model.AddWide adds it: the log-odds with only the
+// filters' windows edited. Without the wide path it is lo, the whole edit's.
+func checkKeptFilterPath(t *testing.T, m *cnn.Model, ids, edited []int32, e *Explanation, kd KeptDownWindow, lo float64) {
+	t.Helper()
+	want := lo
+	if m.Config.Wide {
+		plain := m.Clone()
+		plain.Config.Wide, plain.Wide = false, nil
+		plain.Config.WideBigrams, plain.Bigrams, plain.WideBigram = false, nil, nil
+		z := plain.Forward(edited).Logits
+		m.AddWide(ids, z)
+		want = float64(z[e.Class]) - float64(z[e.RunnerUp])
+	}
+	if !testref.Close(kd.WordsHeld, want, 1e-4, 1e-5) {
+		t.Fatalf("text %v filter %d: log-odds %g after the edit with the wide term held, forward %g (whole edit %g)", ids, kd.Filter, kd.WordsHeld, want, lo)
 	}
 }
 

@@ -43,14 +43,26 @@ type KeptDownWindow struct {
 	// Effect = (OutW[ŷ][g] − OutW[r][g])·(Positive − Winner), ŷ the
 	// predicted class and r the runner-up: the change in their log-odds had
 	// this window won without its negative slots, every other filter
-	// unchanged. With the wide path, replacing the By tokens also changes
-	// the wide term; that change is in the measured LogOdds and Drop, not
-	// in Effect, which is the filter's alone.
+	// unchanged. Own measures that change, the other fields the rest of
+	// the edit's.
 	Effect float64 `json:"effect"`
-	// Pooled is the filter's pooled value, LogOdds the log-odds of ŷ
-	// against r and Drop = p(ŷ|x) − p(ŷ|x edited), measured on the text
-	// with the By tokens replaced by PAD.
-	Pooled  float64 `json:"-"`
+	// Pooled is the filter's pooled value on the text with the By tokens
+	// replaced by PAD, and Own = (OutW[ŷ][g] − OutW[r][g])·(Pooled −
+	// Winner) the change of the log-odds from it: Effect's quantity
+	// measured (equal to Effect unless another window of g then passes
+	// Positive).
+	Pooled float64 `json:"-"`
+	Own    float64 `json:"own_change"`
+	// WordsHeld is the log-odds of ŷ against r measured on the text with
+	// the By tokens replaced by PAD in the filters' windows only, the wide
+	// path's term held at its value on the text: WordsHeld − the text's
+	// log-odds − Own is the change from the other filters whose windows
+	// hold a By token. Without the wide path it equals LogOdds.
+	WordsHeld float64 `json:"log_odds_words_held"`
+	// LogOdds and Drop = p(ŷ|x) − p(ŷ|x edited) are measured on the text
+	// with the By tokens replaced by PAD everywhere: with the wide path,
+	// their word and bigram weights leave the wide term too, a change of
+	// LogOdds − WordsHeld.
 	LogOdds float64 `json:"log_odds"`
 	Drop    float64 `json:"drop"`
 
@@ -59,6 +71,16 @@ type KeptDownWindow struct {
 	PositiveLogOdds   float64   `json:"positive_log_odds"`
 	WinnerLogOdds     float64   `json:"winner_log_odds"`
 	PooledLogOdds     float64   `json:"pooled_log_odds"`
+}
+
+// Parts splits the whole measured change of the log-odds, LogOdds − text
+// (text the log-odds of the text as it is, Explanation.LogOdds.Value),
+// into the change from filter g's own pooled value (Own), from the other
+// filters (WordsHeld − text − Own) and from the word and bigram weights
+// (LogOdds − WordsHeld, 0 without the wide path): own + others + words =
+// whole.
+func (kd *KeptDownWindow) Parts(text float64) (own, others, words, whole float64) {
+	return kd.Own, kd.WordsHeld - text - kd.Own, kd.LogOdds - kd.WordsHeld, kd.LogOdds - text
 }
 
 // setLogOdds fills the log-odds fields of kd from the raw ones, r being the
@@ -101,6 +123,7 @@ func keptDown(r *Runner, e *Explanation, o *occluder, top *keptTop, k int) []Kep
 		out[i] = keptDownWindow(r, cands[i].g, cands[i].at, true)
 		out[i].Effect = cands[i].effect
 		measureKeptDown(o, lo, &out[i])
+		out[i].Own = lo.column(m, out[i].Filter) * (out[i].Pooled - out[i].Winner)
 		out[i].setLogOdds(VoteScale(m, out[i].Filter))
 	}
 	return out
@@ -142,17 +165,24 @@ func keptDownWindow(r *Runner, g, t0 int, full bool) KeptDownWindow {
 }
 
 // measureKeptDown re-runs the text with the window's By tokens replaced by
-// PAD.
+// PAD, first with the wide path's term held (WordsHeld, Pooled), then
+// with it moved too (LogOdds, Drop).
 func measureKeptDown(o *occluder, lo contrast, kd *KeptDownWindow) {
 	if len(kd.By) == 0 {
 		// A window can pass its filter's pooled value with no negative
 		// slot only through float rounding; nothing to replace.
 		kd.Pooled, kd.LogOdds = kd.Winner, lo.dot(o.e.logits)
+		kd.WordsHeld = kd.LogOdds
 		return
 	}
 	by := kd.By
-	o.apply(by[0], by[len(by)-1], func(i int) bool { return !slices.Contains(by, i) })
+	keep := func(i int) bool { return !slices.Contains(by, i) }
+	o.holdWide = true
+	o.apply(by[0], by[len(by)-1], keep)
+	o.holdWide = false
 	kd.Pooled = float64(o.pooled[kd.Filter])
+	kd.WordsHeld = lo.dot(o.z)
+	o.apply(by[0], by[len(by)-1], keep)
 	kd.LogOdds = lo.dot(o.z)
 	kd.Drop, _ = o.drops()
 }

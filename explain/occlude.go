@@ -27,6 +27,9 @@ type occluder struct {
 	// removed is the sum of the wide rows of the replaced words (the
 	// wide path only).
 	removed []float64
+	// holdWide keeps the wide path's term at its value on the text: an
+	// edit then replaces tokens in the filters' windows only.
+	holdWide bool
 }
 
 func newOccluder(r *Runner, e *Explanation) *occluder {
@@ -191,10 +194,10 @@ func (o *occluder) apply(lo, hi int, keep func(i int) bool) {
 // leaves with either of its words: PAD pairs with nothing), so the term
 // S/N becomes (S − R)/(N − k), R the sum of their rows, or the unknown
 // word's row when no word is left. It costs O(k·Classes), not a pass over
-// the text.
+// the text. With o.holdWide it does nothing.
 func (o *occluder) wideEdit(lo, hi int, keep func(i int) bool) {
 	w := o.e.wide
-	if w.n == 0 {
+	if w.n == 0 || o.holdWide {
 		return
 	}
 	m := o.r.st.m

@@ -197,6 +197,19 @@ func (s *session) explanation() {
 	if len(wv.kept.rows) != len(e.KeptDown) {
 		t.Errorf("%d windows kept down listed, the explanation has %d", len(wv.kept.rows), len(e.KeptDown))
 	}
+	// Each carries the estimate and the measured change's parts, which add
+	// up to the whole change.
+	for i, row := range wv.kept.rows {
+		kd := e.KeptDown[min(i, len(e.KeptDown)-1)]
+		own, others, words, whole := kd.Parts(e.LogOdds.Value)
+		ww := "–" // a model without word weights
+		if e.LogOdds.Words != nil {
+			ww = signed4(words)
+		}
+		if want := []string{signed4(kd.Effect), signed4(own), signed4(others), ww, signed4(whole)}; !slices.Equal(row[2:7], want) {
+			t.Errorf("kept-down row %q: want %q", row, want)
+		}
+	}
 	// A label chosen: the shares of its centred logit, then integrated
 	// gradients of it.
 	c := (e.Class + 1) % len(e.Labels)

@@ -92,7 +92,7 @@ func newWhyView(st *State) *whyView {
 			st.showFilter(v.firedRows[row].Filter, v.fired)
 		}
 	}
-	v.kept = newSheet("filter", "window", "estimate", "measured", "p falls by", "width")
+	v.kept = newSheet("filter", "window", "estimate", "this filter", "other filters", "word weights", "whole", "p falls by", "width")
 	v.kept.onSelect = func(row int) {
 		if row < len(v.keptRows) {
 			st.showFilter(v.keptRows[row].Filter, v.kept)
@@ -106,14 +106,15 @@ func newWhyView(st *State) *whyView {
 }
 
 // keptCaption explains the kept-down table; with word weights (wide) the
-// measured change also holds the removed words' weights, the estimate not.
+// measured change has a part from the removed words' weights too.
 func keptCaption(wide bool) string {
 	s := "Each window would have won its filter but for the [tokens] in brackets: " +
-		"the change of the log-odds estimated had it won, and measured with them replaced by padding."
+		"the change of the log-odds estimated had it won, then measured with them replaced by padding, " +
+		"the whole change split exactly into this filter's part (the estimate's quantity), the other filters'"
 	if wide {
-		s += " The measured change also holds those tokens' word weights; the estimate is the filter's alone."
+		return s + " and those tokens' word weights'."
 	}
-	return s
+	return s + "."
 }
 
 func (v *whyView) layout() fyne.CanvasObject {
@@ -357,13 +358,19 @@ func (v *whyView) fillFired(e *explain.Explanation, c int) {
 }
 
 // fillKept lists the windows kept down, largest estimated effect first (as
-// explain orders them).
+// explain orders them), each with its measured change split into parts
+// (explain.KeptDownWindow.Parts).
 func (v *whyView) fillKept(e *explain.Explanation) {
 	v.keptRows = e.KeptDown
 	var rows [][]string
 	for _, kd := range e.KeptDown {
+		own, others, words, whole := kd.Parts(e.LogOdds.Value)
+		ww := "–" // no word weights
+		if e.LogOdds.Words != nil {
+			ww = signed4(words)
+		}
 		rows = append(rows, []string{fmt.Sprint(kd.Filter), windowText(e, kd.Start, kd.Width, kd.By), signed4(kd.Effect),
-			signed4(kd.LogOdds - e.LogOdds.Value), signed4(kd.Drop), fmt.Sprint(kd.Width)})
+			signed4(own), signed4(others), ww, signed4(whole), signed4(kd.Drop), fmt.Sprint(kd.Width)})
 	}
 	v.kept.setRows(rows)
 }

@@ -36,9 +36,12 @@ type firedRow struct{ Filter, Window, Activation, Part, BiasPart, Family string 
 
 // keptRow is a window that would have won its filter but for its negative
 // slots: Effect estimates the change of the log-odds had it won without
-// them, LogOdds and Drop measure the change of the log-odds and the drop of
-// p(predicted) when the words that kept it down are replaced by padding.
-type keptRow struct{ Filter, Window, By, Effect, LogOdds, Drop string }
+// them; Whole and Drop measure the change of the log-odds and the drop of
+// p(predicted) when the words that kept it down are replaced by padding,
+// and Own, Others and Words split Whole exactly
+// (explain.KeptDownWindow.Parts; the page shows Words on a model with word
+// weights only, where it is not 0).
+type keptRow struct{ Filter, Window, By, Effect, Own, Others, Words, Whole, Drop string }
 
 // example lays out one explained text: painted by the shares of the
 // log-odds of the predicted label against the runner-up.
@@ -85,9 +88,10 @@ func example(in Input, ex Example) (exampleView, error) {
 		for i, p := range kd.By {
 			by[i] = e.Tokens[p].Text
 		}
+		own, others, words, whole := kd.Parts(lo.Value)
 		ev.Kept = append(ev.Kept, keptRow{Filter: fmt.Sprintf("%d (width %d)", kd.Filter, kd.Width),
-			Window: strings.Join(windowTokens(e, kd.Start, kd.Width), " "), By: strings.Join(by, " "),
-			Effect: signed(kd.Effect), LogOdds: signed(kd.LogOdds - lo.Value), Drop: signed(kd.Drop)})
+			Window: strings.Join(windowTokens(e, kd.Start, kd.Width), " "), By: strings.Join(by, " "), Effect: signed(kd.Effect),
+			Own: signed(own), Others: signed(others), Words: signed(words), Whole: signed(whole), Drop: signed(kd.Drop)})
 	}
 	return ev, nil
 }

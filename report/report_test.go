@@ -162,7 +162,9 @@ func TestDemoSections(t *testing.T) {
 		// Every kept-down window is shown with its measured check.
 		for _, kd := range e.KeptDown {
 			row := "<td>" + fmt.Sprintf("%d (width %d)", kd.Filter, kd.Width) + "</td>"
-			if !strings.Contains(out, row) || !strings.Contains(out, `<td class="num">`+signed(kd.LogOdds-lo.Value)+`</td><td class="num">`+signed(kd.Drop)+`</td>`) {
+			own, others, _, whole := kd.Parts(lo.Value)
+			cells := `<td class="num">` + strings.Join([]string{signed(kd.Effect), signed(own), signed(others), signed(whole), signed(kd.Drop)}, `</td><td class="num">`) + `</td>`
+			if !strings.Contains(out, row) || !strings.Contains(out, cells) {
 				t.Errorf("kept-down window of filter %d at %d not shown with its measured change", kd.Filter, kd.Start)
 			}
 		}

@@ -97,8 +97,18 @@ func TestExampleIdentityWide(t *testing.T) {
 	// The training recipe names the word weights (and, for the model
 	// without them, does not).
 	const lead, row = "a weight per word and label, averaged over the text, adds to the logits", "Word weights beside the filters"
-	if !strings.Contains(page, "the measured change also holds those words' word weights") {
-		t.Error("the page does not say that a kept-down window's measured change holds word weights")
+	if !strings.Contains(page, "the part from those words' word weights") {
+		t.Error("the page does not say that a kept-down window's measured change has a part from the word weights")
+	}
+	if len(e.KeptDown) == 0 {
+		t.Fatal("no window kept down in the example: the table is not checked")
+	}
+	for _, kd := range e.KeptDown {
+		own, others, words, whole := kd.Parts(e.LogOdds.Value)
+		cells := `<td class="num">` + strings.Join([]string{signed(kd.Effect), signed(own), signed(others), signed(words), signed(whole), signed(kd.Drop)}, `</td><td class="num">`) + `</td>`
+		if !strings.Contains(page, cells) {
+			t.Errorf("kept-down window of filter %d: the page has no row %s", kd.Filter, cells)
+		}
 	}
 	if !strings.Contains(page, lead) || !strings.Contains(page, row) {
 		t.Errorf("the page's recipe does not name the word weights (%q, %q)", lead, row)
@@ -128,7 +138,7 @@ func wideExplained(t *testing.T, d demoFixture) (m *cnn.Model, text string, ids 
 	text = "My ticket was lost and the ferry left without me, a zqxj refund please."
 	toks := tok.TokenizeFor(v, text)
 	ids = v.Encode(toks)
-	if e, err = explain.Explain(m, toks, ids, explain.ExplainOptions{Occlusion: true}); err != nil {
+	if e, err = explain.Explain(m, toks, ids, explain.ExplainOptions{Occlusion: true, KeptDown: 3}); err != nil {
 		t.Fatal(err)
 	}
 	return m, text, ids, e

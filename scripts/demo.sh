@@ -20,11 +20,11 @@ step "Why does a message get its label? (exact shares of its log-odds against th
   "$tt" explain --model "$out/ferry.tt" --text "The deckhand was not friendly at all and my refund never came."
 step "Audit for cues that look like how the data was collected, and retrain without those it acts on" \
   "$tt" audit --model "$out/ferry.tt" --data testdata/demo/train.csv --test testdata/demo/test.csv \
-  --export "$out/cues.csv" --retrain --retrain-out "$out/ferry-without.tt"
+  --export "$out/cues.csv" --retrain --retrain-out "$out/ferry-without.tt" --confirming-out "$out/confirming.csv"
 step "Keep the verdicts with the model (the marks file beside it; every later audit and the report honour it)" \
   "$tt" audit --model "$out/ferry.tt" --mark-artifact '- - sent via kioskmail at the quayside terminal - -' --mark-artifact 'tkref - <number>'
-step "The model and the one retrained without the cues, side by side" \
-  "$tt" compare --models "$out/ferry.tt,$out/ferry-without.tt" --test testdata/demo/test.csv
+step "The model and the one retrained without the cues, side by side on the confirming half (texts that took no part in choosing the cues)" \
+  "$tt" compare --models "$out/ferry.tt,$out/ferry-without.tt" --test "$out/confirming.csv"
 step "The same cues at the training rates in the test split too (no shift): the audit finds them all the same" \
   "$tt" train --data testdata/demo-equal/train.csv --test testdata/demo-equal/test.csv --out "$out/ferry-equal.tt" --epochs 8 --quiet
 "$tt" audit --model "$out/ferry-equal.tt" --data testdata/demo-equal/train.csv --test testdata/demo-equal/test.csv

@@ -77,7 +77,7 @@ var Terms = []Term{
 		Meaning: "how much the predicted label's probability falls without the token, measured by re-running the model."},
 	{Name: "kept-down window", Topic: "explanations",
 		Formula: "a window of filter g with B_g + Σ positive slot scores > h_g; estimate = (OutW[ŷ][g] − OutW[r][g]) · (B_g + Σ positive slot scores − h_g)",
-		Meaning: "a window that would have won its filter but for the tokens at its negative slots; replacing those tokens by padding and re-running the model checks it."},
+		Meaning: "a window that would have won its filter but for the tokens at its negative slots; replacing those tokens by padding and re-running the model measures the change, split exactly into this filter's part (the estimate's quantity), the other filters' and the word weights'."},
 	{Name: "cue", Topic: "cue audit",
 		Formula: "",
 		Meaning: "a word or phrase that predicts a label in the training split: a footer line, a ticket stamp, a mailing-list tag, or a word of the task; <number> in a cue matches any number."},
