@@ -112,24 +112,34 @@ func (o *filtersOptions) check(fs *flag.FlagSet, env *runEnv) error {
 // unseen words have vectors of their own, read by the returned model mu
 // (cnn.Model.WithUnseen; m itself otherwise), so such a model's texts are
 // held, not streamed.
-func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.Encoder, env *runEnv) (
-	mu *cnn.Model, open func() (explain.TextSource, func()), note string, total int, err error) {
+func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.Encoder, env *runEnv) (profileSource, error) {
 	stream := func() (explain.TextSource, func()) {
 		return streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
 	}
 	if m.Info.Splits == nil && m.Config.Chars == nil {
-		return m, stream, "the model file does not record how its splits were made: profiling all texts of " + o.data, 0, nil
+		return profileSource{model: m, open: stream, note: "the model file does not record how its splits were made: profiling all texts of " + o.data}, nil
 	}
 	all, err := o.read.read(o.data, true, env.Stderr, o.quiet)
 	if err != nil {
-		return nil, nil, "", 0, err
+		return profileSource{}, err
 	}
-	train, note := trainingSplit(m, all, o.data)
-	if mu, enc, err = m.WithUnseen(enc, train.Texts()); err != nil { // unseen words' own rows, with --chars, as eval reads them
-		return nil, nil, "", 0, err
+	train, note, isTraining := trainingSplit(m, all, o.data)
+	mu, enc, err := m.WithUnseen(enc, train.Texts()) // unseen words' own rows, with --chars, as eval reads them
+	if err != nil {
+		return profileSource{}, err
 	}
 	ids, gold := encodeExamples(enc, mu.Labels, train.Examples, o.threads.N)
-	return mu, func() (explain.TextSource, func()) { return explain.SliceSource(ids, gold), func() {} }, note, len(ids), nil
+	open := func() (explain.TextSource, func()) { return explain.SliceSource(ids, gold), func() {} }
+	return profileSource{model: mu, open: open, note: note, total: len(ids), training: isTraining}, nil
+}
+
+// profileSource is what filters profiles (filtersOptions.source).
+type profileSource struct {
+	model    *cnn.Model                          // the model that reads the texts (its unseen words' rows, with --chars)
+	open     func() (explain.TextSource, func()) // a pass over the texts, and its stop
+	note     string                              // which texts, for the user
+	total    int                                 // the number of texts; 0 when streamed (not known in advance)
+	training bool                                // the texts are the model's training split
 }
 
 // profilingNote is the progress line of filters after done of total texts
@@ -211,11 +221,12 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 			}
 		}
 	}
-	m, stream, note, total, err := o.source(ctx, m, enc, env)
+	src, err := o.source(ctx, m, enc, env)
 	if err != nil {
 		return err
 	}
-	say(env.Stderr, o.quiet, "%s", note)
+	m, stream, total := src.model, src.open, src.total
+	say(env.Stderr, o.quiet, "%s", src.note)
 	next, stop := stream()
 	defer stop()
 	var stopAgain func()
@@ -270,12 +281,14 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 	if o.asJSON {
 		return writeJSON(env.Stdout, prof)
 	}
-	return writeProfiles(env.Stdout, prof, o.top)
+	return writeProfiles(env.Stdout, prof, o.top, src.training)
 }
 
 // writeProfiles writes the profiles for a reader: a header, then every
-// filter with at most top n-grams, negative n-grams and slot words.
-func writeProfiles(w io.Writer, p *explain.Profiles, top int) error {
+// filter with at most top n-grams, negative n-grams and slot words;
+// training says whether the texts profiled are the training split, which
+// trained the filters (both halves of it).
+func writeProfiles(w io.Writer, p *explain.Profiles, top int, training bool) error {
 	ew := &errWriter{w: w}
 	sel, masked := 0, 0
 	for i := range p.Filters {
@@ -291,12 +304,12 @@ func writeProfiles(w io.Writer, p *explain.Profiles, top int) error {
 		ew.printf(", %d masked", masked)
 	}
 	ew.printf(".\nA filter's threshold is chosen on %s: above it, its winning windows come from texts assigned its class %.2f of the way\n"+
-		"from the class's base rate to all of them. On the other %s, which took no part in choosing the threshold (the filter itself\n"+
-		"was trained on both halves), that share is measured and tested against the base rate (one-sided exact binomial test,\n"+
-		"Holm-corrected over the filters, α = %g). Activations and slot scores are in log-odds units: times the filter's vote scale,\n"+
-		"the range of its output weights over the labels; a filter votes for its class by how far its highest window raises\n"+
-		"that class's logit over the next one's (centred votes: how far it moves each label's centred logit).\n",
-		wording.Texts(p.Halves[0]), p.Selective, wording.Texts(p.Halves[1]), p.Alpha)
+		"from the class's base rate to all of them. On the other %s, which took no part in choosing the threshold%s,\n"+
+		"that share is measured and tested against the base rate (one-sided exact binomial test, Holm-corrected over the filters,\n"+
+		"α = %g). Activations and slot scores are in log-odds units: times the filter's vote scale, the range of its output weights\n"+
+		"over the labels; a filter votes for its class by how far its highest window raises that class's logit over the next\n"+
+		"one's (centred votes: how far it moves each label's centred logit).\n",
+		wording.Texts(p.Halves[0]), p.Selective, wording.Texts(p.Halves[1]), map[bool]string{true: " (the filter itself was trained on both halves)"}[training], p.Alpha)
 	for i := range p.Filters {
 		writeFilter(ew, p, &p.Filters[i], top)
 	}
@@ -327,7 +340,8 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 	writeNegatives(ew, f, top)
 	if len(f.Families) > 0 {
 		ew.printf("  families (from a sample of %d of the %s above the threshold; share of those windows with its 95%% interval\n"+
-			"  over resampling that sample, which is the share itself when every window was sampled; stability):\n",
+			"  over resampling that sample, which is the share itself when every window of the sample's strata that hold the family\n"+
+			"  was sampled; stability):\n",
 			f.FamilySample, wording.Count(f.Selectivity.Above, "window", "windows"))
 	}
 	for _, fam := range f.Families {

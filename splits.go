@@ -301,18 +301,19 @@ func (es *evalSet) checkNotEmpty(rec *cnn.SplitRecord, data, test string, same b
 // trainingSplit is the split model m was trained on out of all (the
 // labeled data at path), when all is the data it was trained on (the same
 // examples: cnn.SplitRecord.Fingerprint); else all of it. The note says
-// which, for the user.
-func trainingSplit(m *cnn.Model, all *corpus.Dataset, path string) (*corpus.Dataset, string) {
+// which, for the user; isTraining says whether the split is the training
+// split.
+func trainingSplit(m *cnn.Model, all *corpus.Dataset, path string) (split *corpus.Dataset, note string, isTraining bool) {
 	rec := m.Info.Splits
 	switch {
 	case rec == nil:
-		return all, fmt.Sprintf("the model file does not record how its splits were made: profiling all %s of %s", wording.Texts(len(all.Examples)), path)
+		return all, fmt.Sprintf("the model file does not record how its splits were made: profiling all %s of %s", wording.Texts(len(all.Examples)), path), false
 	case rec.Examples != len(all.Examples) || rec.Fingerprint != all.Fingerprint():
-		return all, fmt.Sprintf("%s is not the data the model was trained on (%s): profiling all %s of it", path, rec.Data, wording.Texts(len(all.Examples)))
+		return all, fmt.Sprintf("%s is not the data the model was trained on (%s): profiling all %s of it", path, rec.Data, wording.Texts(len(all.Examples))), false
 	}
 	train, _, _ := all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
 	return train, fmt.Sprintf("profiling the training split of %s, as the report does: %d of its %s, the dev and test splits left out",
-		path, len(train.Examples), wording.Texts(len(all.Examples)))
+		path, len(train.Examples), wording.Texts(len(all.Examples))), true
 }
 
 // say prints a note on w unless quiet.

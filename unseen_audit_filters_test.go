@@ -104,7 +104,7 @@ func TestAuditAndFiltersReadUnseenWords(t *testing.T) {
 			t.Fatal(err)
 		}
 		trainDS := loadExamples(t, filepath.Join(dir, "part.csv"))
-		trainSplit, _ := trainingSplit(m, trainDS, "part.csv")
+		trainSplit, _, _ := trainingSplit(m, trainDS, "part.csv")
 		tr, err := audit.NewData(m, trainSplit, 1)
 		if err != nil {
 			t.Fatal(err)

@@ -189,16 +189,20 @@ func (r *Result) writeStory(w io.Writer) {
 			}
 			p("\n  %d. %s, %s %s of the confirming test texts (and of %d training texts, %s of them %s).\n",
 				n+1, c.name(), at, fmtPct(share), c.Association.Texts, fmtPct(c.Association.Share), c.Label)
-			p("     It looks like a collection artifact because %s.\n", c.why())
+			why := c.why()
+			p("     It looks like a collection artifact because %s.\n", why)
 			p("     Replacing it by neutral words changes %s of the predictions on the texts that hold it, against %s\n",
 				interval(cr.FlipRate), interval(cr.ControlFlipRate))
 			p("     when the same words are put elsewhere; it decides %s of all predictions on the confirming half.\n", interval(cr.Decided))
 			if cf := cr.Conflict; cf != nil {
 				p("     On the %d of those texts whose label is not %s, accuracy goes from %s to %s without it\n",
 					cf.Texts, c.Label, accuracy(cf.Before), accuracy(cf.After))
-				p("     (%d predictions fixed, %d broken, two-sided exact McNemar p = %s).\n", cf.Fixed, cf.Broken, pval(cf.P))
+				p("     (%s fixed, %d broken, two-sided exact McNemar p = %s).\n",
+					wording.Count(cf.Fixed, "prediction", "predictions"), cf.Broken, pval(cf.P))
 			}
-			if s := c.Shift; s != nil && s.Present {
+			// The shift is said once: in the reasons above when it is among
+			// the strongest signals, else here.
+			if s := c.Shift; s != nil && s.Present && !strings.Contains(why, shiftSays) {
 				p("     The choosing half shows it is not the task: there %s of the texts holding it are %s, against %s in training.\n",
 					fmtPct(s.HeldoutShare), c.Label, fmtPct(s.TrainShare))
 			}
@@ -206,9 +210,9 @@ func (r *Result) writeStory(w io.Writer) {
 		if cf := r.Action.Counterfactual; cf != nil {
 			p("\nWithout %s the model scores %s on the %d confirming test texts, against %s as they are;\n",
 				map[bool]string{true: "it", false: "them"}[len(acted) == 1], accuracy(cf.AccuracyWithout), cf.Texts, accuracy(cf.Accuracy))
-			p("on the %d of them that hold %s: %s, against %s (%d predictions fixed, %d broken, p = %s).\n",
+			p("on the %d of them that hold %s: %s, against %s (%s fixed, %d broken, p = %s).\n",
 				cf.CueTexts, map[bool]string{true: "it", false: "one"}[len(acted) == 1], accuracy(cf.CueAccuracyWithout),
-				accuracy(cf.CueAccuracy), cf.Fixed, cf.Broken, pval(cf.P))
+				accuracy(cf.CueAccuracy), wording.Count(cf.Fixed, "prediction", "predictions"), cf.Broken, pval(cf.P))
 		}
 		p("\n%s\n", provenance(len(acted) == 1))
 		r.writeWhatToDo(p, acted)
@@ -317,7 +321,8 @@ func provenance(one bool) string {
 		it, they = "it", "it"
 	}
 	return fmt.Sprintf("The choosing half of the test texts chose %s; the tests on the confirming half decided that %s %s acted on,\n"+
-		"and every figure above comes from that half: what passed those tests (a new test file measures them afresh).",
+		"and every reliance and accuracy figure above comes from that half: what passed those tests (a new test file measures\n"+
+		"them afresh); the association figures come from the training split and the label shift from the choosing half.",
 		it, they, map[bool]string{true: "is", false: "are"}[one])
 }
 
@@ -437,8 +442,9 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	} else if cr != nil {
 		p("   reliance: replacing it changes %s of %d confirming texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
 			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), interval(cr.NetFlipRate), pval(cr.FlipP))
-		p("     p(%s) drops %.3f (%.3f–%.3f) on average, p(prediction) %.3f (%.3f–%.3f); p(%s) falls in %d texts, rises in %d (sign test p = %s)\n", c.Label,
-			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, c.Label, cr.Lower, cr.Higher, pval(cr.P))
+		p("     p(%s) drops %.3f (%.3f–%.3f) on average, p(prediction) %.3f (%.3f–%.3f); p(%s) falls in %s, rises in %d (sign test p = %s)\n", c.Label,
+			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, c.Label,
+			wording.Texts(cr.Lower), cr.Higher, pval(cr.P))
 		for _, ex := range cr.Examples {
 			p("     %s → %s (gold %s): %s\n", ex.Pred, ex.After, ex.Gold, ex.Snippet)
 		}

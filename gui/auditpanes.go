@@ -329,9 +329,9 @@ func (p *actionPane) retrain() {
 		}
 		p.result = r
 		rt := r.rt
-		p.compareNote.SetText(fmt.Sprintf("Retrained with the model's recipe without %s: %d matches taken out of the training split, %d out of "+
+		p.compareNote.SetText(fmt.Sprintf("Retrained with the model's recipe without %s: %s taken out of the training split, %d out of "+
 			"the confirming half of the test split, where both models are compared (the choosing half chose the cues). Accuracies with 95%% Wilson intervals. Word vectors the model may have been trained with are not used: model files do not record them.",
-			wording.Count(len(rt.Patterns), "cue", "cues"), rt.Removed, rt.HeldoutRemoved))
+			wording.Count(len(rt.Patterns), "cue", "cues"), wording.Count(rt.Removed, "match", "matches"), rt.HeldoutRemoved))
 		p.compare.setRows(retrainRows(rt))
 		p.buttons()
 	})

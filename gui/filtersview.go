@@ -251,21 +251,13 @@ func (v *filtersView) paintNegatives(fp *explain.FilterProfile) {
 			by[i] = strconv.Quote(w)
 		}
 		row.Add(widget.NewLabel(fmt.Sprintf("held down %.3f log-odds (%.3f → %.3f) by %s · %s", n.HeldDownLogOdds, n.PositiveLogOdds, n.ActivationLogOdds,
-			strings.Join(by, ", "), windows(n.Count))))
+			strings.Join(by, ", "), wording.Count(n.Count, "window", "windows"))))
 		v.negs.Add(row)
 	}
 	if len(fp.Negatives) > 0 {
 		v.negs.Add(heatLegend(scale, "slot score (log-odds)", "slot score (log-odds)"))
 	}
 	v.negs.Refresh()
-}
-
-// windows writes a count of windows.
-func windows(n int) string {
-	if n == 1 {
-		return "1 window"
-	}
-	return fmt.Sprintf("%d windows", n)
 }
 
 // ngramChips returns the painted top n-gram tokens, in order.
