@@ -72,7 +72,8 @@ func checkFigures(t *testing.T, what string, f cnn.Figures, cnnM cnn.Metrics, ba
 // checkIntervals checks that iv holds an interval of every measured figure
 // of m that has one (weighted F1, ECE with its calibration test, each
 // class's precision, recall and F1), each about m's own figure: its
-// estimate is m's (an identity) and lies within its bounds.
+// estimate is m's (an identity) and lies within its bounds; the ECE's is
+// the bias-corrected one, with m's beside it as the observed ECE.
 func checkIntervals(t *testing.T, what string, iv *cnn.MetricIntervals, m cnn.Metrics) {
 	t.Helper()
 	if iv == nil || iv.ECE == nil || len(iv.PerClass) != len(m.PerClass) {
@@ -84,7 +85,11 @@ func checkIntervals(t *testing.T, what string, iv *cnn.MetricIntervals, m cnn.Me
 		}
 	}
 	check("weighted F1", iv.WeightedF1, m.WeightedF1)
-	check("ECE", iv.ECE.Interval, m.ECE)
+	// The ECE's interval is about the ECE corrected for its bias
+	// (cnn.BootstrapECE); the observed ECE beside it is m's.
+	if e := iv.ECE; e.Observed != m.ECE || !(e.Low <= e.Estimate && e.Estimate <= e.High) {
+		t.Errorf("%s: ECE observed %g, interval %+v, of the figure %g", what, e.Observed, e.Interval, m.ECE)
+	}
 	if !(iv.ECE.P > 0 && iv.ECE.P <= 1) || iv.ECE.Draws != cnn.CalibrationDraws {
 		t.Errorf("%s: calibration test p = %g over %d draws", what, iv.ECE.P, iv.ECE.Draws)
 	}
