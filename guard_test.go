@@ -278,12 +278,14 @@ func guardArgs(t *testing.T, gc guardCommand, dir, ext string, contents map[stri
 // output that is a folder, that lies in a missing folder or under a file is
 // refused with exit 2 before any work, the message naming the path the user
 // gave and what to do, never a temporary file. (export's --out is a folder
-// by design: there the case is an --out inside a missing folder.)
+// by design: there the case is an --out inside a missing folder. An
+// --export or --confirming-out ends in .csv, so that the guard, not the
+// extension check, is what refuses.)
 func TestOutputNotWritable(t *testing.T) {
 	contents := guardInputs(t)
 	for _, gc := range guardCommands {
 		for _, out := range gc.outputs {
-			ext := map[bool]string{true: ".csv", false: ".in"}[out == "--export"]
+			ext := map[bool]string{true: ".csv", false: ".in"}[out == "--export" || out == "--confirming-out"]
 			cases := []struct {
 				name string
 				path func(dir string) string
