@@ -128,7 +128,7 @@ func recordedSplits(inputs []outguard.File) []outguard.File {
 			if s.path == "" || holds(inputs, s.path) || holds(files, s.path) {
 				continue
 			}
-			files = append(files, outguard.File{Name: "the " + s.which + " file recorded in " + in.Name + " " + in.Path + ",", Path: s.path})
+			files = append(files, outguard.File{Name: in.Name + " " + in.Path + "'s recorded " + s.which + " split", Path: s.path})
 		}
 	}
 	return files

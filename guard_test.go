@@ -129,6 +129,42 @@ func TestOutputNeverOverwritesInput(t *testing.T) {
 			}
 		}
 	}
+	t.Run("eval --export inside the model's recorded test folder", checkRecordedFolderGuard)
+}
+
+// checkRecordedFolderGuard: an output inside the test folder (one
+// sub-folder per label) a model was trained with is refused before any
+// work, and the folder holds the same files after.
+func checkRecordedFolderGuard(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	folder := filepath.Join(dir, "test")
+	for i, l := range []string{"bookings", "complaints", "bookings", "complaints"} {
+		os.MkdirAll(filepath.Join(folder, l), 0o755)
+		text := fmt.Sprintf("text %d about the ferry %s", i, l)
+		if err := os.WriteFile(filepath.Join(folder, l, fmt.Sprintf("%d.txt", i)), []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	model := filepath.Join(dir, "m.tt")
+	if code, _, stderr := tt(t, "train", "--data", data, "--test", folder, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"); code != 0 {
+		t.Fatalf("train: exit %d: %s", code, stderr)
+	}
+	listing := func() []string {
+		var names []string
+		filepath.WalkDir(folder, func(p string, _ os.DirEntry, _ error) error { names = append(names, p); return nil })
+		return names
+	}
+	before := listing()
+	out := filepath.Join(folder, "complaints", "scores.csv")
+	code, _, stderr := tt(t, "eval", "--model", model, "--data", data, "--export", out)
+	noCrash(t, "guard", stderr)
+	if code != 2 || !strings.Contains(stderr, "telltale never writes onto its inputs") || !strings.Contains(stderr, "'s recorded test split folder") {
+		t.Errorf("eval --export %s: exit %d, stderr %q; want exit 2 naming the model's recorded test split", out, code, stderr)
+	}
+	if after := listing(); !slices.Equal(after, before) {
+		t.Errorf("the test folder changed: %q, was %q", after, before)
+	}
 }
 
 // recordedCases are the commands that take a model and write a file, each
@@ -220,7 +256,7 @@ func checkRecordedGuard(t *testing.T, rs splitsModel, rc struct {
 	args = append(append(args, rc.extra...), rc.out, alias(t, rs.dir, target, ".csv"))
 	code, _, stderr := tt(t, args...)
 	noCrash(t, "guard", stderr)
-	want := "the " + which + " file recorded in "
+	want := "'s recorded " + which + " split "
 	if code != 2 || !strings.Contains(stderr, "telltale never writes onto its inputs") ||
 		!strings.Contains(stderr, rc.out+" ") || !strings.Contains(stderr, want) {
 		t.Errorf("%q: exit %d, stderr %q; want exit 2 naming %s and %s…", args, code, stderr, rc.out, want)
