@@ -172,8 +172,12 @@ func writeFaith(w io.Writer, r *explain.FaithReport) {
 	if len(r.Pairs) > 0 {
 		fmt.Fprintf(w, "\nmethods compared text by text: mean of A − B with its 95%% bootstrap interval over the texts; p of the sign-flip\n"+
 			"permutation test of that mean (Good 2005), and Holm p, adjusted by Holm's method across the %d comparisons\n"+
-			"shown (Holm 1979); each interval is 95%% on its own, not adjusted; p ≤ %.2g: no sign pattern of the %d drawn\n"+
-			"reached the observed mean\n", len(r.Pairs), 1/float64(explain.SignFlipDraws+1), explain.SignFlipDraws)
+			"with a p (Holm 1979); each interval is 95%% on its own, not adjusted", r.Compared())
+		if r.AnyPAtFloor() {
+			fmt.Fprintf(w, "; p ≤ %.2g: no sign pattern of the %d drawn\nreached the observed mean",
+				1/float64(explain.SignFlipDraws+1), explain.SignFlipDraws)
+		}
+		fmt.Fprintln(w)
 	}
 	for _, pr := range r.Pairs {
 		p, holm := pEquals(pr.P), pEquals(pr.PHolm)

@@ -2,13 +2,17 @@ package main
 
 import (
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
+	"strings"
 	"testing"
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/explain"
 	"telltale/internal/testref"
 )
 
@@ -72,6 +76,81 @@ func TestFaithfulnessReadsUnseenWords(t *testing.T) {
 		// the gap to the unknown word's reading asserted above.
 		if !testref.Close(mf.Top1Comp, want, 1e-6, 1e-6) {
 			t.Errorf("%s: top1_comp %g, want %g as predict reads the text (%g as the unknown word)", mf.Method, mf.Top1Comp, want, asUnknown)
+		}
+	}
+}
+
+// floorNote is the header's note on p-values at the floor of the drawn
+// sign-flip test.
+const floorNote = "no sign pattern of the"
+
+// TestFaithfulnessFloorNoteOnlyWhenDrawn: with --limit 12 every pair's
+// sign-flip p is exact, over all 2¹² sign patterns (Good 2005: an exact
+// permutation test enumerates them all; its least p is 2/2ⁿ, the observed
+// pattern and its negation), so the header says nothing of a floor of
+// drawn patterns, and no p is shown as a bound.
+func TestFaithfulnessFloorNoteOnlyWhenDrawn(t *testing.T) {
+	model := tinyModel(t)
+	code, out, stderr := tt(t, "faithfulness", "--model", model, "--test", filepath.Join("testdata", "demo", "test.csv"), "--limit", "12", "--quiet")
+	if code != 0 {
+		t.Fatalf("faithfulness: exit %d: %s", code, stderr)
+	}
+	if !strings.Contains(out, "Holm p") {
+		t.Fatalf("no comparison of methods in the output:\n%s", out)
+	}
+	if strings.Contains(out, floorNote) || strings.Contains(out, "p ≤") {
+		t.Errorf("12 texts, every p exact over 2¹² sign patterns, yet the output speaks of a floor of drawn patterns:\n%s", out)
+	}
+}
+
+// TestFaithHeader: the header of the methods' comparisons counts the
+// comparisons Holm's method adjusted across, those with a p (a pair with
+// no text has none): by Holm's first step (Holm 1979) the least p times
+// that count is its adjusted p, checked against explain.Holm. The note on
+// the drawn test's floor is there exactly when some p is at that floor,
+// not when every p is exact (n ≤ 16 texts: all 2ⁿ sign patterns, least p
+// 2/2ⁿ).
+func TestFaithHeader(t *testing.T) {
+	const n = 12
+	exact := explain.MethodPair{A: "exact", B: "random", Measure: "comp", Texts: n, P: 2.0 / (1 << n), SignFlips: 1 << n}
+	drawn := explain.MethodPair{A: "exact", B: "random", Measure: "suff", Texts: 40, P: 1.0 / (explain.SignFlipDraws + 1), SignFlips: explain.SignFlipDraws}
+	none := explain.MethodPair{A: "ig", B: "random", Measure: "aopc", P: math.NaN()}
+	other := explain.MethodPair{A: "ig", B: "random", Measure: "comp", Texts: n, P: 0.25, SignFlips: 1 << n}
+	for _, c := range []struct {
+		name  string
+		pairs []explain.MethodPair
+		count int
+		note  bool
+	}{
+		{"all exact, one without texts", []explain.MethodPair{exact, none, other}, 2, false},
+		{"one at the drawn floor", []explain.MethodPair{exact, drawn, other}, 3, true},
+	} {
+		ps := make([]float64, len(c.pairs))
+		for i, pr := range c.pairs {
+			ps[i] = pr.P
+		}
+		adj := explain.Holm(ps)
+		for i := range c.pairs {
+			c.pairs[i].PHolm = adj[i]
+		}
+		least := slices.IndexFunc(ps, func(p float64) bool { return !math.IsNaN(p) })
+		for i, p := range ps {
+			if p < ps[least] {
+				least = i
+			}
+		}
+		if !testref.Close(adj[least], float64(c.count)*ps[least], 1e-12, 0) {
+			t.Fatalf("%s: Holm p of the least p %g is %g, want %d × it", c.name, ps[least], adj[least], c.count)
+		}
+		r := &explain.FaithReport{Texts: 40, Resamples: 10, Draws: 5, Pairs: c.pairs}
+		var b strings.Builder
+		writeFaith(&b, r)
+		out := b.String()
+		if want := fmt.Sprintf("across the %d comparisons", c.count); !strings.Contains(out, want) {
+			t.Errorf("%s: the header does not say %q:\n%s", c.name, want, out)
+		}
+		if strings.Contains(out, floorNote) != c.note {
+			t.Errorf("%s: the note on the drawn floor shown %v, want %v:\n%s", c.name, !c.note, c.note, out)
 		}
 	}
 }

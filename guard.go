@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"telltale/audit"
+	"telltale/cnn"
 	"telltale/internal/outguard"
 )
 
@@ -19,7 +20,10 @@ const marksOption = "the marks file (--marks)"
 // guardFiles checks, before any work, that every input given can be read
 // (checkInputs), then a command's outputs against its inputs
 // (outguard.Check), with the marks file beside every input model counted
-// as an input: a person's verdicts on cues are data too. An output named
+// as an input: a person's verdicts on cues are data too, and so are the dev
+// and test files every input model recorded at training (recordedSplits),
+// which the commands that evaluate a model read in place of --test. An
+// output named
 // *.marks is refused unless it is the marks option itself. Every problem is
 // a usage error (exit 2).
 func guardFiles(outputs, inputs []outguard.File) error {
@@ -33,6 +37,7 @@ func guardFiles(outputs, inputs []outguard.File) error {
 		return err
 	}
 	inputs = append(inputs, besideModels(outputs, inputs)...)
+	inputs = append(inputs, recordedSplits(inputs)...)
 	if err := outguard.Check(outputs, inputs); err != nil {
 		return usageError{err.Error()}
 	}
@@ -97,6 +102,36 @@ func besideModels(outputs, inputs []outguard.File) []outguard.File {
 		marks = append(marks, outguard.File{Name: "the marks file of " + in.Name, Path: p})
 	}
 	return marks
+}
+
+// recordedSplits are the dev and test files that the models among inputs
+// (--model, --models) recorded at training (cnn.SplitRecord.DevFile and
+// TestFile, absolute paths), that are not among inputs already. They are
+// not checked as inputs: a command reads them only when --data is the
+// model's data, and says itself when they cannot be read. A model that is
+// not a regular file (a named pipe is read once, by the command) or whose
+// header cannot be read adds none: loading it gives the error.
+func recordedSplits(inputs []outguard.File) []outguard.File {
+	var files []outguard.File
+	for _, in := range inputs {
+		if in.Path == "" || in.Name != "--model" && in.Name != "--models" {
+			continue
+		}
+		if st, err := os.Stat(in.Path); err != nil || !st.Mode().IsRegular() {
+			continue
+		}
+		rec, err := cnn.ReadSplitRecord(in.Path)
+		if err != nil || rec == nil {
+			continue
+		}
+		for _, s := range []struct{ which, path string }{{"dev", rec.DevFile}, {"test", rec.TestFile}} {
+			if s.path == "" || holds(inputs, s.path) || holds(files, s.path) {
+				continue
+			}
+			files = append(files, outguard.File{Name: in.Name + " " + in.Path + "'s recorded " + s.which + " split", Path: s.path})
+		}
+	}
+	return files
 }
 
 // writesMarks reports whether outputs hold the marks option at path p.

@@ -1,7 +1,9 @@
 package main
 
 import (
+	"bytes"
 	"crypto/sha256"
+	"encoding/csv"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -101,7 +103,11 @@ var aliases = []struct {
 // and every file it reads, an output that is the input (the same path, a
 // path through "..", a symbolic link to it or a hard link of it) is refused
 // with exit 2 before any work, the message naming both options, and the
-// input's bytes are unchanged (SHA-256 before and after).
+// input's bytes are unchanged (SHA-256 before and after). The dev and test
+// files a model recorded at training are inputs too, read when --test is
+// absent (and the dev file by audit's --retrain): an output onto one of
+// them is refused the same way, whether the model is --model or one of
+// audit's --models, and the file is unchanged byte for byte.
 func TestOutputNeverOverwritesInput(t *testing.T) {
 	contents := guardInputs(t)
 	for _, gc := range guardCommands {
@@ -113,6 +119,150 @@ func TestOutputNeverOverwritesInput(t *testing.T) {
 				}
 			}
 		}
+	}
+	rs := recordedSplitsModel(t)
+	for _, rc := range recordedCases {
+		for _, which := range []string{"dev", "test"} {
+			for _, al := range aliases {
+				name := fmt.Sprintf("%s %s %s onto the model's recorded %s file by %s", rc.name, strings.Join(rc.extra, " "), rc.out, which, al.name)
+				t.Run(name, func(t *testing.T) { checkRecordedGuard(t, rs, rc, which, al.make) })
+			}
+		}
+	}
+	t.Run("eval --export inside the model's recorded test folder", checkRecordedFolderGuard)
+}
+
+// checkRecordedFolderGuard: an output inside the test folder (one
+// sub-folder per label) a model was trained with is refused before any
+// work, and the folder holds the same files after.
+func checkRecordedFolderGuard(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	folder := filepath.Join(dir, "test")
+	for i, l := range []string{"bookings", "complaints", "bookings", "complaints"} {
+		os.MkdirAll(filepath.Join(folder, l), 0o755)
+		text := fmt.Sprintf("text %d about the ferry %s", i, l)
+		if err := os.WriteFile(filepath.Join(folder, l, fmt.Sprintf("%d.txt", i)), []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	model := filepath.Join(dir, "m.tt")
+	if code, _, stderr := tt(t, "train", "--data", data, "--test", folder, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"); code != 0 {
+		t.Fatalf("train: exit %d: %s", code, stderr)
+	}
+	listing := func() []string {
+		var names []string
+		filepath.WalkDir(folder, func(p string, _ os.DirEntry, _ error) error { names = append(names, p); return nil })
+		return names
+	}
+	before := listing()
+	out := filepath.Join(folder, "complaints", "scores.csv")
+	code, _, stderr := tt(t, "eval", "--model", model, "--data", data, "--export", out)
+	noCrash(t, "guard", stderr)
+	if code != 2 || !strings.Contains(stderr, "telltale never writes onto its inputs") || !strings.Contains(stderr, "'s recorded test split folder") {
+		t.Errorf("eval --export %s: exit %d, stderr %q; want exit 2 naming the model's recorded test split", out, code, stderr)
+	}
+	if after := listing(); !slices.Equal(after, before) {
+		t.Errorf("the test folder changed: %q, was %q", after, before)
+	}
+}
+
+// recordedCases are the commands that take a model and write a file, each
+// with the output option checked against the model's recorded dev and test
+// files and the arguments it needs besides --model and --data; byModels
+// names the model with audit's --models instead, beside a model that
+// records no files.
+var recordedCases = []struct {
+	name, out string
+	extra     []string
+	byModels  bool
+}{
+	{"eval", "--export", nil, false},
+	{"predict", "--export", nil, false},
+	{"explain", "--export", nil, false},
+	{"filters", "--export", nil, false},
+	{"report", "--out", nil, false},
+	{"mask", "--out", []string{"--filters", "0"}, false},
+	{"audit", "--export", nil, false},
+	{"audit", "--confirming-out", nil, false},
+	{"audit", "--confirming-out", []string{"--retrain"}, false},
+	{"audit", "--export", []string{"--retrain"}, false},
+	{"audit", "--export", nil, true},
+}
+
+// splitsModel is a model trained with a dev and a test file of their
+// own, which its file records (cnn.SplitRecord), and the files' contents.
+type splitsModel struct {
+	dir, model, other, data string
+	contents                map[string][]byte // by "dev" and "test"
+}
+
+// recordedSplitsModel trains a small model on part of the demo corpus with
+// halves of the demo test file as its dev and test files, in a folder of
+// its own.
+func recordedSplitsModel(t *testing.T) splitsModel {
+	t.Helper()
+	dir := t.TempDir()
+	rs := splitsModel{dir: dir, data: demoPart(t, dir, 400), model: filepath.Join(dir, "m2.tt"), other: tinyModel(t),
+		contents: map[string][]byte{}}
+	f, err := os.Open(filepath.Join("testdata", "demo", "test.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows, err := csv.NewReader(f).ReadAll()
+	f.Close()
+	if err != nil || len(rows) < 3 {
+		t.Fatalf("the demo test file: %d rows (%v)", len(rows), err)
+	}
+	half := 1 + (len(rows)-1)/2
+	for which, part := range map[string][][]string{"dev": rows[1:half], "test": rows[half:]} {
+		var buf bytes.Buffer
+		w := csv.NewWriter(&buf)
+		w.WriteAll(append([][]string{rows[0]}, part...))
+		rs.contents[which] = buf.Bytes()
+	}
+	for _, which := range []string{"dev", "test"} {
+		if err := os.WriteFile(filepath.Join(dir, which+".csv"), rs.contents[which], 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	code, _, stderr := tt(t, "train", "--data", rs.data, "--dev", filepath.Join(dir, "dev.csv"), "--test", filepath.Join(dir, "test.csv"),
+		"--out", rs.model, "--epochs", "1", "--dim", "8", "--maps", "4", "--wide=false", "--quiet")
+	if code != 0 {
+		t.Fatalf("train: exit %d: %s", code, stderr)
+	}
+	return rs
+}
+
+// checkRecordedGuard runs the case rc with its output onto the model's
+// recorded dev or test file (which), named by alias, and checks the refusal
+// and that the file is unchanged; a file that changed is put back, so that
+// the other cases start from it.
+func checkRecordedGuard(t *testing.T, rs splitsModel, rc struct {
+	name, out string
+	extra     []string
+	byModels  bool
+}, which string, alias func(*testing.T, string, string, string) string) {
+	target := filepath.Join(rs.dir, which+".csv")
+	t.Cleanup(func() {
+		os.Remove(filepath.Join(rs.dir, "link.csv"))
+		os.Remove(filepath.Join(rs.dir, "hard.csv"))
+		os.WriteFile(target, rs.contents[which], 0o644)
+	})
+	args := []string{rc.name, "--model", rs.model, "--data", rs.data}
+	if rc.byModels {
+		args = []string{rc.name, "--model", rs.other, "--models", rs.model, "--data", rs.data}
+	}
+	args = append(append(args, rc.extra...), rc.out, alias(t, rs.dir, target, ".csv"))
+	code, _, stderr := tt(t, args...)
+	noCrash(t, "guard", stderr)
+	want := "'s recorded " + which + " split "
+	if code != 2 || !strings.Contains(stderr, "telltale never writes onto its inputs") ||
+		!strings.Contains(stderr, rc.out+" ") || !strings.Contains(stderr, want) {
+		t.Errorf("%q: exit %d, stderr %q; want exit 2 naming %s and %s…", args, code, stderr, rc.out, want)
+	}
+	if after, err := os.ReadFile(target); err != nil || !bytes.Equal(after, rs.contents[which]) {
+		t.Errorf("the model's recorded %s file %s changed (%v)", which, target, err)
 	}
 }
 
@@ -164,8 +314,9 @@ func guardArgs(t *testing.T, gc guardCommand, dir, ext string, contents map[stri
 // output that is a folder, that lies in a missing folder or under a file is
 // refused with exit 2 before any work, the message naming the path the user
 // gave and what to do, never a temporary file. (export's --out is a folder
-// by design: there the case is an --out inside a missing folder. --export
-// and --confirming-out take their format from the name: theirs end in .csv.)
+// by design: there the case is an --out inside a missing folder. An
+// --export or --confirming-out ends in .csv, so that the guard, not the
+// extension check, is what refuses.)
 func TestOutputNotWritable(t *testing.T) {
 	contents := guardInputs(t)
 	for _, gc := range guardCommands {

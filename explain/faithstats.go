@@ -3,6 +3,7 @@ package explain
 import (
 	"math"
 	"math/rand/v2"
+	"slices"
 
 	"telltale/cnn"
 )
@@ -283,6 +284,25 @@ func (iv Interval) MarshalJSON() ([]byte, error) {
 // PHolm with it, are bounds (the exact p is at most that), not estimates.
 func (mp MethodPair) PAtFloor() bool {
 	return mp.SignFlips == SignFlipDraws && mp.P <= 1/float64(SignFlipDraws+1)
+}
+
+// Compared is the number of pairs with a p-value, the family Holm's method
+// adjusted across (methodPairs; Holm leaves NaN p-values, pairs with no
+// text, out of it).
+func (f FaithReport) Compared() int {
+	n := 0
+	for _, pr := range f.Pairs {
+		if !math.IsNaN(pr.P) {
+			n++
+		}
+	}
+	return n
+}
+
+// AnyPAtFloor reports whether some pair's p is a bound at the floor of the
+// drawn sign-flip test (MethodPair.PAtFloor), not an exact or drawn value.
+func (f FaithReport) AnyPAtFloor() bool {
+	return slices.ContainsFunc(f.Pairs, MethodPair.PAtFloor)
 }
 
 // MarshalJSON writes a NaN difference or p-value (no text) as null.
