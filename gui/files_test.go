@@ -363,3 +363,33 @@ func TestSaveModelAgain(t *testing.T) {
 		t.Errorf("saving onto the file the model was opened from was not refused (status %q)", st.statusText())
 	}
 }
+
+// A save onto the dev or test file the open model recorded at training is
+// refused, as the command line refuses it (guard.go's recordedSplits):
+// the window reads them again to evaluate the model.
+func TestSaveRefusedOnRecordedSplits(t *testing.T) {
+	dir := t.TempDir()
+	st, _ := saveState(t, dir)
+	vocab := []string{corpus.PADWord, corpus.UNKWord, "ferry", "ticket"}
+	m, err := cnn.New(cnn.Config{VocabSize: len(vocab), Dim: 4, Widths: []int{2}, Filters: 2, Classes: 2}, vocab, []string{"a", "b"}, 7)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dev, test, other := filepath.Join(dir, "dev.csv"), filepath.Join(dir, "test.csv"), filepath.Join(dir, "other.csv")
+	for _, p := range []string{dev, test, other} {
+		if err := os.WriteFile(p, []byte("text,label\nferry,a\n"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	m.Info.Splits = &cnn.SplitRecord{DevFile: dev, TestFile: test}
+	st.model.Set(&modelState{Model: m})
+	for _, p := range []string{dev, test, filepath.Join(dir, ".", "test.csv")} {
+		err := st.notAnInput(p)
+		if err == nil || !strings.Contains(err.Error(), "the open model recorded at training") {
+			t.Errorf("saving onto %s: %v, want it refused as a file the model recorded", p, err)
+		}
+	}
+	if err := st.notAnInput(other); err != nil {
+		t.Errorf("saving onto %s, no input: %v", other, err)
+	}
+}

@@ -7,8 +7,9 @@ import (
 	"path/filepath"
 )
 
-// inputs lists the files the window reads from: the data, the test file
-// and the model's file.
+// inputs lists the files the window reads from: the data, the test file,
+// the model's file and the separate dev and test files the model recorded
+// at training (read again to evaluate it).
 func (st *State) inputs() []string {
 	var ps []string
 	if cs := itemGet(st.data); cs != nil {
@@ -18,8 +19,20 @@ func (st *State) inputs() []string {
 	if ms := itemGet(st.model); ms != nil {
 		ps = append(ps, ms.Source)
 		ps = append(ps, ms.SideFiles...)
+		ps = append(ps, recordedFiles(ms)...)
 	}
 	return ps
+}
+
+// recordedFiles are the separate dev and test files ms's model recorded at
+// training (cnn.SplitRecord), in that order ("" for one it did not use),
+// nil when it records none.
+func recordedFiles(ms *modelState) []string {
+	if ms.Model == nil || ms.Model.Info.Splits == nil {
+		return nil
+	}
+	rec := ms.Model.Info.Splits
+	return []string{rec.DevFile, rec.TestFile}
 }
 
 // notAnInput refuses path when it is one of the window's inputs: the same
@@ -72,8 +85,14 @@ func describeInput(st *State, in string) string {
 			return "the open test file (" + in + ")"
 		}
 	}
-	if ms := itemGet(st.model); ms != nil && in == ms.Source {
-		return "the open model's file (" + in + ")"
+	if ms := itemGet(st.model); ms != nil {
+		if in == ms.Source {
+			return "the open model's file (" + in + ")"
+		}
+		if rf := recordedFiles(ms); rf != nil && (in == rf[0] || in == rf[1]) {
+			which := map[bool]string{true: "dev", false: "test"}[in == rf[0]]
+			return "the " + which + " file the open model recorded at training (" + in + ")"
+		}
 	}
 	return "an input of this window (" + in + ")"
 }
