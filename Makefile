@@ -89,4 +89,4 @@ screenshots:
 	@scripts/report-screenshot.sh
 
 clean:
-	rm -rf bin testdata/spamassassin testdata/afinn testdata/sotu bench/out
+	rm -rf bin testdata/spamassassin testdata/afinn testdata/sotu testdata/reviews bench/out

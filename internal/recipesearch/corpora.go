@@ -10,6 +10,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/reviewset"
 )
 
 // load returns the splits of a corpus under the module root, made as the
@@ -51,7 +52,30 @@ func load(root, which string, withTest bool) (splits, error) {
 	case "sotu":
 		return loadSOTU(filepath.Join(td, "sotu"), withTest)
 	}
-	return sp, fmt.Errorf("corpus %q: use demo, spam or sotu", which)
+	return sp, fmt.Errorf("corpus %q: use demo, spam, sotu or reviews", which)
+}
+
+// loadRotations returns the corpus's one rotation, or for the reviews
+// (internal/reviewset) its ten cross-validation rotations: every text is
+// in one rotation's dev split and in another's test split.
+func loadRotations(root, which string, withTest bool) ([]rotation, error) {
+	if which != "reviews" {
+		sp, err := load(root, which, withTest)
+		return []rotation{{which, sp}}, err
+	}
+	d, err := reviewset.LoadUnder(root)
+	if err != nil {
+		return nil, err
+	}
+	var out []rotation
+	for k := range reviewset.Folds {
+		tr, dev, te := reviewset.Splits(d, k)
+		if !withTest {
+			te = nil
+		}
+		out = append(out, rotation{fmt.Sprintf("reviews/%d", k), splits{tr, dev, te}})
+	}
+	return out, nil
 }
 
 // loadSOTU reads the State of the Union addresses of Democratic and

@@ -40,7 +40,7 @@ import (
 func main() {
 	log.SetFlags(0)
 	log.SetPrefix("recipesearch: ")
-	which := flag.String("corpus", "demo", "demo, spam or sotu")
+	which := flag.String("corpus", "demo", "demo, spam, sotu or reviews (ten cross-validation rotations, one row each)")
 	recipes := flag.String("recipes", "default", "comma-separated candidates, each a '+'-joined list of: "+names())
 	seeds := flag.String("seeds", "1", "comma-separated training seeds")
 	base := flag.String("base", "", "changes applied first to every candidate, '+'-joined")
@@ -50,17 +50,22 @@ func main() {
 	stack := flag.Bool("stack", false, "with -baseline: also score the CNN and the baseline joined by stacking (stack.go)")
 	dumpText := flag.String("dump-text", "", "write the splits as JSON lines (text, label) into this folder and stop, for pooling.py")
 	flag.Parse()
-	sp, err := load(root(), *which, *withTest)
+	rotations, err := loadRotations(root(), *which, *withTest)
 	if err != nil {
 		log.Fatal(err)
 	}
 	if *dumpText != "" {
-		if err := dumpSplits(sp, *which, *dumpText); err != nil {
+		if len(rotations) != 1 {
+			log.Fatalf("-dump-text: %s has %d rotations; dump the others", *which, len(rotations))
+		}
+		if err := dumpSplits(rotations[0].splits, *which, *dumpText); err != nil {
 			log.Fatal(err)
 		}
 		return
 	}
-	log.Printf("%s: training %d, dev %d texts", *which, len(sp.train.Examples), len(sp.dev.Examples))
+	for _, rot := range rotations {
+		log.Printf("%s: training %d, dev %d texts", rot.name, len(rot.train.Examples), len(rot.dev.Examples))
+	}
 	for _, name := range strings.Split(*recipes, ",") {
 		for _, s := range strings.Split(*seeds, ",") {
 			var seed uint64
@@ -78,11 +83,13 @@ func main() {
 				c := linear.DefaultConfig()
 				r.Baseline = &c
 			}
-			row, err := measure(*which, strings.Trim(*base+"+"+name, "+"), r, sp, *stack)
-			if err != nil {
-				log.Fatal(err)
+			for _, rot := range rotations {
+				row, err := measure(rot.name, strings.Trim(*base+"+"+name, "+"), r, rot.splits, *stack)
+				if err != nil {
+					log.Fatal(err)
+				}
+				fmt.Println(row)
 			}
-			fmt.Println(row)
 		}
 	}
 }
@@ -205,6 +212,14 @@ func root() string {
 		}
 	}
 	return dir
+}
+
+// rotation is one way of splitting a corpus, named for its rows: the
+// corpus itself, or for the reviews "reviews/K", fold K being its test
+// split.
+type rotation struct {
+	name string
+	splits
 }
 
 // splits are the three splits of a corpus; test is nil unless asked for.
