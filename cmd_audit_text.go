@@ -397,7 +397,10 @@ func recipeArgs(m *cnn.Model) []string {
 		// The model records its recipe with the optimizer's defaults filled
 		// in: compare with train's default filled in the same way.
 		dt := def.Train
-		dt.Optimizer, dt.LR = r.Optimizer, 0
+		if r.Optimizer != def.Train.Optimizer {
+			// Another optimizer's default rate, not the default recipe's.
+			dt.Optimizer, dt.LR = r.Optimizer, 0
+		}
 		dt, _ = dt.WithDefaults()
 		opt(r.Epochs != dt.Epochs, "epochs", strconv.Itoa(r.Epochs))
 		opt(r.Batch != dt.Batch, "batch", strconv.Itoa(r.Batch))

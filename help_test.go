@@ -125,6 +125,18 @@ func TestTrainDefaultsAreTheRecipe(t *testing.T) {
 	if _, r = parse("--wide"); !r.Model.Wide || !r.Model.WideBigrams || r.Train.WideLR != cnn.DefaultWideLR {
 		t.Errorf("--wide alone: wide %v, bigrams %v, learning-rate factor %g, want the default's: true, true and %d", r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR, cnn.DefaultWideLR)
 	}
+	// The default recipe's rate is Adam's: Adadelta without --lr gets its
+	// own usual default (0 in the recipe, 1.0 in training), with --lr the
+	// rate given.
+	if _, r = parse("--optimizer", "adadelta"); r.Train.Optimizer != "adadelta" || r.Train.LR != 0 {
+		t.Errorf("--optimizer adadelta: %s at %g, want adadelta at 0 (its default)", r.Train.Optimizer, r.Train.LR)
+	}
+	if _, r = parse("--optimizer", "adadelta", "--lr", "0.5"); r.Train.LR != 0.5 {
+		t.Errorf("--optimizer adadelta --lr 0.5: rate %g, want 0.5", r.Train.LR)
+	}
+	if _, r = parse("--lr", "0.001"); r.Train.Optimizer != "adam" || r.Train.LR != 0.001 {
+		t.Errorf("--lr 0.001: %s at %g, want adam at 0.001", r.Train.Optimizer, r.Train.LR)
+	}
 	if o := new(trainOptions); true {
 		fs := flag.NewFlagSet("train", flag.ContinueOnError)
 		o.register(fs)

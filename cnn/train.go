@@ -15,7 +15,7 @@ type TrainConfig struct {
 	Epochs    int     `json:"epochs"`    // passes over the training split; default 10
 	Batch     int     `json:"batch"`     // mini-batch size; default 50 (Kim 2014)
 	Optimizer string  `json:"optimizer"` // "adam" (default) or "adadelta"
-	LR        float64 `json:"lr"`        // learning rate; default 1e-3 for Adam, 1.0 for Adadelta
+	LR        float64 `json:"lr"`        // learning rate; 0: 1e-3 for Adam, 1.0 for Adadelta (DefaultRecipe sets 2e-3)
 	Beta1     float64 `json:"beta1"`     // Adam; default 0.9
 	Beta2     float64 `json:"beta2"`     // Adam; default 0.999
 	Rho       float64 `json:"rho"`       // Adadelta decay; default 0.95 (Kim 2014; Zeiler 2012)

@@ -159,8 +159,14 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 	rec.Train.Epochs = fe.whole(r.epochs, "epochs", "e.g. 10")
 	rec.Train.Batch = fe.whole(r.batch, "batch size", "e.g. 50")
 	rec.Train.Optimizer = stringGet(r.optimizer)
+	rec.Train.LR = 0 // empty: the optimizer's usual default
 	if s := strings.TrimSpace(stringGet(r.lr)); s != "" {
 		rec.Train.LR = fe.real(r.lr, "learning rate", "a positive number, or empty for the optimizer's default")
+	}
+	if def := cnn.DefaultRecipe().Train; rec.Train.Optimizer != def.Optimizer && rec.Train.LR == def.LR {
+		// The default recipe's rate is Adam's; as on the command line,
+		// another optimizer left at it gets its own usual default.
+		rec.Train.LR = 0
 	}
 	// As on the command line: 0 (or less) never stops early.
 	if rec.Train.Patience = fe.whole(r.patience, "patience", "epochs without a better dev macro-F1 before stopping; 0 never stops"); rec.Train.Patience <= 0 {

@@ -100,3 +100,33 @@ func TestRecipeFormWideBigrams(t *testing.T) {
 		t.Errorf("Defaults leave the word pairs at %v, want %v", on, def.Model.WideBigrams)
 	}
 }
+
+// The form's learning rate follows the command line's rule: the default
+// recipe's rate is Adam's, so Adadelta left at it trains at its own usual
+// default, an emptied field is the optimizer's usual default, and a rate
+// typed is the rate used.
+func TestRecipeFormOptimizerRate(t *testing.T) {
+	def := cnn.DefaultRecipe().Train
+	cases := []struct {
+		optimizer, lr string
+		want          float64
+	}{
+		{"adam", formatFloat(def.LR), def.LR},
+		{"adadelta", formatFloat(def.LR), 0},
+		{"adadelta", "0.5", 0.5},
+		{"adam", "", 0},
+		{"adadelta", "", 0},
+	}
+	for _, c := range cases {
+		r := newRecipeForm()
+		_ = r.optimizer.Set(c.optimizer)
+		_ = r.lr.Set(c.lr)
+		rec, _, err := r.parse(false)
+		if err != nil {
+			t.Fatalf("%s at %q: %v", c.optimizer, c.lr, err)
+		}
+		if rec.Train.Optimizer != c.optimizer || rec.Train.LR != c.want {
+			t.Errorf("%s at %q: %s at %g, want %g", c.optimizer, c.lr, rec.Train.Optimizer, rec.Train.LR, c.want)
+		}
+	}
+}
