@@ -123,15 +123,7 @@ func (d *Dataset) SplitThree(devFrac, testFrac float64, seed uint64) (train, dev
 			panic("corpus: SplitThree: shares must be in [0, 1)")
 		}
 	}
-	byLabel := map[string][]int{}
-	for i, e := range d.Examples {
-		byLabel[e.Label] = append(byLabel[e.Label], i)
-	}
-	labels := make([]string, 0, len(byLabel))
-	for l := range byLabel {
-		labels = append(labels, l)
-	}
-	sort.Strings(labels)
+	byLabel, labels := d.indexByLabel()
 	rng := rand.New(rand.NewPCG(seed, seed))
 	const inTrain, inDev, inTest = 0, 1, 2
 	where := make([]int8, len(d.Examples))
@@ -157,6 +149,22 @@ func (d *Dataset) SplitThree(devFrac, testFrac float64, seed uint64) (train, dev
 		p.Labels = uniqueLabels(p.Examples)
 	}
 	return parts[inTrain], parts[inDev], parts[inTest]
+}
+
+// indexByLabel returns the indexes of d's examples of each label, in
+// example order, and the labels sorted: the draw order of the stratified
+// splits (SplitThree, Folds).
+func (d *Dataset) indexByLabel() (map[string][]int, []string) {
+	byLabel := map[string][]int{}
+	for i, e := range d.Examples {
+		byLabel[e.Label] = append(byLabel[e.Label], i)
+	}
+	labels := make([]string, 0, len(byLabel))
+	for l := range byLabel {
+		labels = append(labels, l)
+	}
+	sort.Strings(labels)
+	return byLabel, labels
 }
 
 // Fingerprint identifies the examples of d, their order, texts and labels

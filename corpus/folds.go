@@ -1,9 +1,6 @@
 package corpus
 
-import (
-	"math/rand/v2"
-	"sort"
-)
+import "math/rand/v2"
 
 // Folds divides d into k folds for k-fold cross-validation, stratified by
 // label: the examples of each label are shuffled with a seeded generator
@@ -16,15 +13,7 @@ func (d *Dataset) Folds(k int, seed uint64) []*Dataset {
 	if k < 2 {
 		panic("corpus: Folds: k must be at least 2")
 	}
-	byLabel := map[string][]int{}
-	for i, e := range d.Examples {
-		byLabel[e.Label] = append(byLabel[e.Label], i)
-	}
-	labels := make([]string, 0, len(byLabel))
-	for l := range byLabel {
-		labels = append(labels, l)
-	}
-	sort.Strings(labels)
+	byLabel, labels := d.indexByLabel()
 	rng := rand.New(rand.NewPCG(seed, seed))
 	fold := make([]int, len(d.Examples))
 	next := 0
