@@ -503,6 +503,13 @@ func TestRetrainArgs(t *testing.T) {
 		{func(m *cnn.Model) {
 			m.Info.Recipe.TokenDropout, m.Info.Recipe.WordDropout, m.Info.Recipe.ClassWeight = 0, 0.5, "balanced"
 		}, "--token-dropout 0 --word-dropout 0.5 --class-weight balanced"},
+		// The rate: the default recipe's is Adam's (no option), Adadelta
+		// recorded at its own default 1.0 needs none, another rate its own.
+		{func(m *cnn.Model) { m.Info.Recipe.LR = 0.001 }, "--lr 0.001"},
+		{func(m *cnn.Model) { m.Info.Recipe.Optimizer, m.Info.Recipe.LR, m.Info.Recipe.Eps = "adadelta", 1, 1e-6 }, "--optimizer adadelta"},
+		{func(m *cnn.Model) {
+			m.Info.Recipe.Optimizer, m.Info.Recipe.LR, m.Info.Recipe.Eps = "adadelta", 0.002, 1e-6
+		}, "--optimizer adadelta --lr 0.002"},
 	} {
 		m := &cnn.Model{Config: def.Model, Tokenizer: def.Tokenizer}
 		m.Config.Widths = slices.Clone(def.Model.Widths)

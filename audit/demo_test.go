@@ -200,9 +200,11 @@ func checkDemo(t *testing.T, res *Result) {
 // measured through the slot table, not cnn.Evaluate); and on the
 // counterfactual split the retrained model, which never saw the cues, is
 // not significantly less accurate than the audited model, which relied on
-// them (two-sided exact McNemar, 5%). A point comparison there would test
+// them (one-sided exact McNemar, 5%: the paired test of two classifiers
+// on one test set, Dietterich 1998). A point comparison there would test
 // the seed: the two models' accuracies on those 400 texts lie within a few
-// texts of each other (0.902 against 0.897 at Adam 0.002, p = 0.85).
+// texts of each other (0.902 against 0.897 at Adam 0.002, two-sided
+// p = 0.85; 0.902 against 0.915 at Adam 0.001).
 func TestRetrainWithoutCues(t *testing.T) {
 	if testing.Short() {
 		t.Skip("trains up to two models; skipped with -short")
@@ -237,9 +239,11 @@ func TestRetrainWithoutCues(t *testing.T) {
 	if cf := d.res.Action.Counterfactual; rt.Original.Before != cf.Accuracy {
 		t.Errorf("the audited model scores %v on the texts compared, the audit %v on its confirming half", rt.Original.Before, cf.Accuracy)
 	}
-	if cf := rt.Counterfactual; cf.OnlyBefore > cf.OnlyAfter && cf.P < 0.05 {
-		t.Errorf("without the cues the retrained model scores %.3f, significantly below the audited model's %.3f (only the audited model right on %d texts, only the retrained on %d, p = %.2g)",
-			cf.After.Estimate, cf.Before.Estimate, cf.OnlyBefore, cf.OnlyAfter, cf.P)
+	// The two-sided exact p halves into the one-sided one when the
+	// audited model is ahead.
+	if cf := rt.Counterfactual; cf.OnlyBefore > cf.OnlyAfter && cf.P/2 < 0.05 {
+		t.Errorf("without the cues the retrained model scores %.3f, significantly below the audited model's %.3f (only the audited model right on %d texts, only the retrained on %d, one-sided p = %.2g)",
+			cf.After.Estimate, cf.Before.Estimate, cf.OnlyBefore, cf.OnlyAfter, cf.P/2)
 	}
 }
 

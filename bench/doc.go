@@ -15,8 +15,8 @@
 // prepare encodes the texts once with telltale's tokenizer and vocabulary and
 // writes DIR/ids.bin (see writeIDs for the layout), which both this command
 // and the reference read, so tokenization, vocabulary and labels are
-// identical on both sides. train trains the default recipe (128-d
-// embeddings, widths 3, 4, 5 × 100 feature maps, dropout 0.5, Adam 1e-3,
+// identical on both sides. train trains Kim's recipe as the reference has
+// it (128-d embeddings, widths 3, 4, 5 × 100 feature maps, dropout 0.5, Adam 1e-3,
 // batch 50, length-bucketed batches, no early stopping) and then times
 // inference in batches of 100; it writes one JSON result per run. tools times
 // the explanation work of the tool alone: filter profiles of a corpus, one

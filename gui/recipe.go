@@ -69,10 +69,9 @@ func (r *recipeForm) reset() {
 	for _, w := range d.Model.Widths {
 		ws = append(ws, strconv.Itoa(w))
 	}
+	// The rate field starts empty: the default recipe's rate for its
+	// optimizer, the optimizer's own for the other (parse).
 	lr := ""
-	if d.Train.LR > 0 {
-		lr = formatFloat(d.Train.LR)
-	}
 	for b, v := range map[binding.String]string{
 		r.widths: strings.Join(ws, ","), r.maps: strconv.Itoa(d.Model.Filters), r.dim: strconv.Itoa(d.Model.Dim),
 		r.epochs: strconv.Itoa(d.Train.Epochs), r.patience: strconv.Itoa(d.Train.Patience),
@@ -159,13 +158,12 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 	rec.Train.Epochs = fe.whole(r.epochs, "epochs", "e.g. 10")
 	rec.Train.Batch = fe.whole(r.batch, "batch size", "e.g. 50")
 	rec.Train.Optimizer = stringGet(r.optimizer)
-	rec.Train.LR = 0 // empty: the optimizer's usual default
 	if s := strings.TrimSpace(stringGet(r.lr)); s != "" {
-		rec.Train.LR = fe.real(r.lr, "learning rate", "a positive number, or empty for the optimizer's default")
-	}
-	if def := cnn.DefaultRecipe().Train; rec.Train.Optimizer != def.Optimizer && rec.Train.LR == def.LR {
-		// The default recipe's rate is Adam's; as on the command line,
-		// another optimizer left at it gets its own usual default.
+		rec.Train.LR = fe.real(r.lr, "learning rate", "a positive number, or empty for the default")
+	} else if rec.Train.Optimizer != cnn.DefaultRecipe().Train.Optimizer {
+		// Empty: the default recipe's rate is its optimizer's (Adam);
+		// another optimizer gets its own usual default, as on the command
+		// line without --lr.
 		rec.Train.LR = 0
 	}
 	// As on the command line: 0 (or less) never stops early.

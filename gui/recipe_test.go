@@ -101,21 +101,24 @@ func TestRecipeFormWideBigrams(t *testing.T) {
 	}
 }
 
-// The form's learning rate follows the command line's rule: the default
-// recipe's rate is Adam's, so Adadelta left at it trains at its own usual
-// default, an emptied field is the optimizer's usual default, and a rate
-// typed is the rate used.
+// The form's learning rate follows the command line's rule: the field
+// starts empty, which is the default recipe's rate with its optimizer
+// (Adam) and Adadelta's own default (0 in the recipe: 1.0) with Adadelta,
+// as train without --lr; a rate typed is the rate used, with either.
 func TestRecipeFormOptimizerRate(t *testing.T) {
 	def := cnn.DefaultRecipe().Train
+	if got := stringGet(newRecipeForm().lr); got != "" {
+		t.Errorf("the rate field starts at %q, want empty", got)
+	}
 	cases := []struct {
 		optimizer, lr string
 		want          float64
 	}{
-		{"adam", formatFloat(def.LR), def.LR},
-		{"adadelta", formatFloat(def.LR), 0},
-		{"adadelta", "0.5", 0.5},
-		{"adam", "", 0},
+		{"adam", "", def.LR},
 		{"adadelta", "", 0},
+		{"adam", "0.001", 0.001},
+		{"adadelta", formatFloat(def.LR), def.LR},
+		{"adadelta", "0.5", 0.5},
 	}
 	for _, c := range cases {
 		r := newRecipeForm()

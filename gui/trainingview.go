@@ -68,7 +68,7 @@ func (v *trainingView) recipeForm() *widget.Form {
 	items := []*widget.FormItem{
 		entry(r.widths, ""), entry(r.maps, ""), entry(r.dim, ""), entry(r.epochs, ""),
 		entry(r.patience, "0 never stops early"), entry(r.dropout, ""), entry(r.maxNorm, "0 is off"),
-		{Widget: opt}, entry(r.lr, "empty: the optimizer's default"), entry(r.batch, ""),
+		{Widget: opt}, entry(r.lr, "empty: adam 0.002, adadelta 1"), entry(r.batch, ""),
 		entry(r.minCount, ""), entry(r.tokenDropout, "any token to unknown; 0 is off"),
 		entry(r.wordDropout, "α, rare words to unknown; 0 is off"),
 		{Widget: weight, HintText: "balanced: imbalanced labels"}, {Widget: baseline, HintText: "TF-IDF + logistic regression"},

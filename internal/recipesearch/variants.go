@@ -43,7 +43,7 @@ var variants = map[string]func(r *cnn.Recipe){
 	"batch25":  func(r *cnn.Recipe) { r.Train.Batch = 25 },
 	"batch100": func(r *cnn.Recipe) { r.Train.Batch = 100 },
 	"maxnorm3": func(r *cnn.Recipe) { r.Model.MaxNorm = 3 },
-	"adadelta": func(r *cnn.Recipe) { r.Train.Optimizer = "adadelta"; r.Model.MaxNorm = 3 },
+	"adadelta": func(r *cnn.Recipe) { r.Train.Optimizer, r.Train.LR, r.Model.MaxNorm = "adadelta", 0, 3 }, // Adadelta's own rate, 1.0
 	"len200":   func(r *cnn.Recipe) { r.Train.MaxLen = 200 },
 	"len800":   func(r *cnn.Recipe) { r.Train.MaxLen = 800 },
 	// regularisation, averaging and the start of the embeddings

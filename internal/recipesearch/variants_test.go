@@ -35,6 +35,19 @@ func TestVariantsGiveValidRecipes(t *testing.T) {
 	}
 }
 
+// TestAdadeltaKeepsItsRate: the default recipe's rate is Adam's; the
+// adadelta candidate trains at Adadelta's own default, 1.0 (Zeiler 2012).
+func TestAdadeltaKeepsItsRate(t *testing.T) {
+	r, err := candidate("", "adadelta")
+	if err != nil {
+		t.Fatal(err)
+	}
+	tc, err := r.Train.WithDefaults()
+	if err != nil || tc.Optimizer != "adadelta" || tc.LR != 1 {
+		t.Errorf("adadelta candidate: %s at %g (%v), want adadelta at 1", tc.Optimizer, tc.LR, err)
+	}
+}
+
 // TestCandidateAppliesChangesInOrder checks that a '+'-joined candidate
 // makes each of its changes and -base's before them.
 func TestCandidateAppliesChangesInOrder(t *testing.T) {

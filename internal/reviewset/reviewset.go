@@ -60,7 +60,11 @@ func Load(path string) (*corpus.Dataset, error) {
 		default:
 			return nil, fmt.Errorf("%s:%d: label %q: want 0 or 1", path, line, s[cut+1:])
 		}
-		d.Examples = append(d.Examples, corpus.Example{Text: strings.TrimSpace(s[:cut]), Label: label, Line: line})
+		text := strings.TrimSpace(s[:cut])
+		if text == "" {
+			return nil, fmt.Errorf("%s:%d: no sentence before the tab: each line is a sentence, a tab and 0 or 1", path, line)
+		}
+		d.Examples = append(d.Examples, corpus.Example{Text: text, Label: label, Line: line})
 	}
 	if err := sc.Err(); err != nil {
 		return nil, fmt.Errorf("%s: %w", path, err)

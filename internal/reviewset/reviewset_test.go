@@ -45,6 +45,7 @@ func TestLoadRejects(t *testing.T) {
 	for _, c := range []struct{ body, want string }{
 		{"good phone\t1\nno label here\n", ":2: no tab"},
 		{"good phone\t1\nbad phone\tneg\n", `:2: label "neg"`},
+		{"good phone\t1\n \t0\n", ":2: no sentence"},
 	} {
 		p := filepath.Join(t.TempDir(), "s.txt")
 		if err := os.WriteFile(p, []byte(c.body), 0o644); err != nil {
