@@ -262,16 +262,10 @@ func McNemarExact(gold, predA, predB []int) McNemar {
 			t.OnlyB++
 		}
 	}
-	return mcnemarCounts(t.OnlyA, t.OnlyB)
-}
-
-// mcnemarCounts is the exact McNemar test of onlyA texts only A labels
-// right against onlyB only B does.
-func mcnemarCounts(onlyA, onlyB int) McNemar {
-	t := McNemar{OnlyA: onlyA, OnlyB: onlyB, P: 1}
-	if n := onlyA + onlyB; n > 0 {
+	t.P = 1
+	if n := t.OnlyA + t.OnlyB; n > 0 {
 		bin := distuv.Binomial{N: float64(n), P: 0.5}
-		t.P = min(1, 2*bin.CDF(float64(min(onlyA, onlyB))))
+		t.P = min(1, 2*bin.CDF(float64(min(t.OnlyA, t.OnlyB))))
 	}
 	return t
 }
