@@ -56,7 +56,7 @@ func main() {
 	}
 	if *dumpText != "" {
 		if len(rotations) != 1 {
-			log.Fatalf("-dump-text: %s has %d rotations; dump the others", *which, len(rotations))
+			log.Fatalf("-dump-text writes one set of splits; %s has %d rotations: dump demo, spam or sotu", *which, len(rotations))
 		}
 		if err := dumpSplits(rotations[0].splits, *which, *dumpText); err != nil {
 			log.Fatal(err)
