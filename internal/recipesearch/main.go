@@ -18,7 +18,8 @@
 //
 // With -baseline -stack each row also scores the CNN and the baseline
 // joined by stacking (stack.go). -dump-text DIR writes a corpus's splits
-// as JSON lines for the PyTorch pooling prototype (pooling.py) and stops.
+// as JSON lines for the PyTorch pooling prototype (pooling.py) or for
+// telltale train, one set per rotation (reviews-K-dev.jsonl), and stops.
 package main
 
 import (
@@ -48,18 +49,18 @@ func main() {
 	baseline := flag.Bool("baseline", false, "fit the linear baseline too")
 	withTest := flag.Bool("test", false, "also evaluate on the test split (only to check a choice already made)")
 	stack := flag.Bool("stack", false, "with -baseline: also score the CNN and the baseline joined by stacking (stack.go)")
-	dumpText := flag.String("dump-text", "", "write the splits as JSON lines (text, label) into this folder and stop, for pooling.py")
+	dumpText := flag.String("dump-text", "", "write the splits as JSON lines (text, label) into this folder and stop, for pooling.py (the reviews: one set per rotation)")
 	flag.Parse()
 	rotations, err := loadRotations(root(), *which, *withTest)
 	if err != nil {
 		log.Fatal(err)
 	}
 	if *dumpText != "" {
-		if len(rotations) != 1 {
-			log.Fatalf("-dump-text writes one set of splits; %s has %d rotations: dump demo, spam or sotu", *which, len(rotations))
-		}
-		if err := dumpSplits(rotations[0].splits, *which, *dumpText); err != nil {
-			log.Fatal(err)
+		// One set of files per rotation, named after it ("reviews/3" → reviews-3-dev.jsonl).
+		for _, rot := range rotations {
+			if err := dumpSplits(rot.splits, strings.ReplaceAll(rot.name, "/", "-"), *dumpText); err != nil {
+				log.Fatal(err)
+			}
 		}
 		return
 	}
