@@ -168,8 +168,10 @@ func measure(which, name string, r cnn.Recipe, sp splits, stack bool) (string, e
 			if err != nil {
 				return "", err
 			}
-			row += fmt.Sprintf(" test %.4f / %.4f | baseline %.4f / %.4f | McNemar p %.3g |",
-				cmp.CNN.Accuracy, cmp.CNN.MacroF1, cmp.Baseline.Accuracy, cmp.Baseline.MacroF1, cmp.McNemar.P)
+			// The discordant counts let rotations be pooled into one exact McNemar test.
+			row += fmt.Sprintf(" test %.4f / %.4f | baseline %.4f / %.4f | McNemar p %.3g (only CNN %d, only baseline %d) |",
+				cmp.CNN.Accuracy, cmp.CNN.MacroF1, cmp.Baseline.Accuracy, cmp.Baseline.MacroF1, cmp.McNemar.P,
+				cmp.McNemar.OnlyA, cmp.McNemar.OnlyB)
 		} else {
 			td, err := cnn.EncodeDataset(enc, sp.test, m.Labels, r.Train.Threads)
 			if err != nil {
