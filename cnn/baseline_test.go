@@ -25,6 +25,7 @@ import (
 // python3-scipy, scipy.stats.binomtest(k, n, 0.5), two-sided), live: for
 // p = 1/2 the two-sided binomial test is the exact McNemar test.
 func TestMcNemarAgainstSciPy(t *testing.T) {
+	testref.SequentialSkipInRace(t, "McNemarExact against SciPy")
 	testref.RequirePython(t, "scipy")
 	pairs := [][2]int{{0, 0}, {0, 1}, {1, 0}, {3, 3}, {2, 9}, {9, 2}, {10, 25}, {40, 41}, {0, 12}, {150, 190}, {5, 60}}
 	js, _ := json.Marshal(pairs)

@@ -55,6 +55,7 @@ func TestWilsonHoldsItsEstimate(t *testing.T) {
 // relative tolerance 1e-9 (both invert the normal distribution in double
 // precision, the only approximation).
 func TestWilsonAgainstSciPy(t *testing.T) {
+	testref.SequentialSkipInRace(t, "WilsonInterval against SciPy")
 	testref.RequirePython(t, "scipy")
 	type tc struct {
 		K, N  int

@@ -7,6 +7,8 @@ import (
 	"os/exec"
 	"slices"
 	"testing"
+
+	"telltale/internal/testref"
 )
 
 func near(a, b, tol float64) bool { return math.Abs(a-b) <= tol }
@@ -68,6 +70,7 @@ func TestECETorchmetricsExamples(t *testing.T) {
 // Against Debian's scikit-learn on random labels: accuracy, per-class
 // precision/recall/F1/support, macro and weighted F1 and the confusion matrix.
 func TestMetricsAgainstScikitLearn(t *testing.T) {
+	testref.SequentialSkipInRace(t, "ComputeMetrics against scikit-learn")
 	requirePython(t, "sklearn")
 	type tc struct {
 		K int   `json:"k"`

@@ -210,18 +210,49 @@ type sklearnResult struct {
 // tok gives, cut to maxLen.
 func sklearnBaseline(t *testing.T, tok *corpus.Tokenizer, maxLen int, c float64, train, test *corpus.Dataset) sklearnResult {
 	t.Helper()
-	dir := t.TempDir()
-	writeTokens(t, filepath.Join(dir, "train.jsonl"), baselineDocs(tok, train.Texts(), maxLen, 0), train)
-	writeTokens(t, filepath.Join(dir, "test.jsonl"), baselineDocs(tok, test.Texts(), maxLen, 0), test)
-	out := testref.RunScript(t, "tfidf_baseline.py", nil, dir, fmt.Sprint(c))
-	var ref sklearnResult
-	if err := json.Unmarshal(out, &ref); err != nil {
-		t.Fatalf("tfidf_baseline.py printed %.200q: %v", out, err)
+	return sklearnBaselines(t, []sklearnFit{{tok, maxLen, c, train, test}})[0]
+}
+
+// sklearnFit is one fit of cnn/testdata/tfidf_baseline.py: the words tok
+// gives train and test, cut to maxLen, and the baseline's C.
+type sklearnFit struct {
+	tok         *corpus.Tokenizer
+	maxLen      int
+	c           float64
+	train, test *corpus.Dataset
+}
+
+// sklearnBaselines runs cnn/testdata/tfidf_baseline.py once for all fits
+// (scikit-learn imported once; each fit as if run alone) and returns their
+// results in order.
+func sklearnBaselines(t *testing.T, fits []sklearnFit) []sklearnResult {
+	t.Helper()
+	var args []string
+	for i, f := range fits {
+		dir := filepath.Join(t.TempDir(), fmt.Sprint(i))
+		if err := os.Mkdir(dir, 0o755); err != nil {
+			t.Fatal(err)
+		}
+		writeTokens(t, filepath.Join(dir, "train.jsonl"), baselineDocs(f.tok, f.train.Texts(), f.maxLen, 0), f.train)
+		writeTokens(t, filepath.Join(dir, "test.jsonl"), baselineDocs(f.tok, f.test.Texts(), f.maxLen, 0), f.test)
+		args = append(args, dir, fmt.Sprint(f.c))
 	}
-	if ref.Train != len(train.Examples) || ref.Test != len(test.Examples) {
-		t.Fatalf("scikit-learn read %d training and %d test texts, want %d and %d", ref.Train, ref.Test, len(train.Examples), len(test.Examples))
+	out := testref.RunScript(t, "tfidf_baseline.py", nil, args...)
+	lines := strings.Split(strings.TrimSuffix(string(out), "\n"), "\n")
+	if len(lines) != len(fits) {
+		t.Fatalf("tfidf_baseline.py printed %d lines for %d fits: %.200q", len(lines), len(fits), out)
 	}
-	return ref
+	refs := make([]sklearnResult, len(fits))
+	for i, f := range fits {
+		if err := json.Unmarshal([]byte(lines[i]), &refs[i]); err != nil {
+			t.Fatalf("tfidf_baseline.py printed %.200q for fit %d: %v", lines[i], i+1, err)
+		}
+		if refs[i].Train != len(f.train.Examples) || refs[i].Test != len(f.test.Examples) {
+			t.Fatalf("scikit-learn read %d training and %d test texts in fit %d, want %d and %d", refs[i].Train, refs[i].Test, i+1,
+				len(f.train.Examples), len(f.test.Examples))
+		}
+	}
+	return refs
 }
 
 // writeTokens writes one {"tokens", "label"} object a line.

@@ -44,6 +44,7 @@ func runSciPy(t *testing.T, script string, in, out any) {
 // takes no sample of one: one difference d has two patterns, ±d, of the
 // same |mean|, so p = 1 (an identity).
 func TestSignFlipExactSciPy(t *testing.T) {
+	testref.SequentialSkipInRace(t, "signFlipTest against SciPy")
 	rng := rand.New(rand.NewPCG(19, 19))
 	var cases [][]float64
 	for c := range 40 {
@@ -95,6 +96,7 @@ print(json.dumps(out))
 // draw reaches the observed mean (2 of 2⁶⁰ patterns do), so p is its floor
 // 1/(SignFlipDraws+1).
 func TestSignFlipDrawn(t *testing.T) {
+	testref.SequentialSkipInRace(t, "signFlipTest against signFlipExact")
 	rng := rand.New(rand.NewPCG(20, 20))
 	for i, shift := range []float64{0, 0.01, 0.02, 0.03} {
 		d := make([]float64, 20)

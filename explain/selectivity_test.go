@@ -18,6 +18,7 @@ import (
 // against SciPy (scipy.stats.binomtest(k, n, p, alternative="greater") and
 // its proportion_ci(method="exact")), run live on Debian's Python.
 func TestBinomialSciPy(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the binomial test and interval against SciPy")
 	testref.RequirePython(t, "scipy")
 	rng := rand.New(rand.NewPCG(60, 60))
 	type tc struct {

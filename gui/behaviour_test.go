@@ -17,7 +17,7 @@ import (
 // Typing a text explains one text at a time: however fast the keys come,
 // at most one explanation runs, and the last text typed is the one shown.
 func TestTypingExplainsOneTextAtATime(t *testing.T) {
-	_, st, q := leanWindow(t, smallScreen)
+	_, st, q := sharedLeanWindow(t, smallScreen)
 	wv := st.whyView
 	wv.entry.SetText("")
 	q.drain()

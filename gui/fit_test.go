@@ -65,11 +65,11 @@ func loadedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	return w, st, q
 }
 
-// explainedWindow is leanWindow with a text explained (loadedWindow
+// explainedWindow is sharedLeanWindow with a text explained (loadedWindow
 // without the audit and the linear baseline).
 func explainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	t.Helper()
-	w, st, q := leanWindow(t, size)
+	w, st, q := sharedLeanWindow(t, size)
 	explainDeckhand(t, st, q)
 	return w, st, q
 }

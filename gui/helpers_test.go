@@ -15,6 +15,7 @@ import (
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
 
+	"telltale/cnn"
 	"telltale/explain"
 	"telltale/internal/testref"
 )
@@ -160,6 +161,47 @@ func trainedWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 func leanWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
 	t.Helper()
 	return trainedWindowOf(t, size, false)
+}
+
+// leanModel is the model the first sharedLeanWindow trained, with its run.
+var leanModel struct {
+	sync.Mutex
+	m   *cnn.Model
+	run *cnn.TrainResult
+}
+
+// sharedLeanWindow is leanWindow for tests that read the trained model and
+// what the window shows of it (profiles, explanations, tables), not the
+// run that trained it. The first call trains in its window as leanWindow
+// does; later calls open the demo corpus and give the window a copy of
+// that model as the window gives itself a model it trained (trainWork:
+// evaluated on the test split, set, then profiled), rather than training
+// the same recipe on the same splits again. TestWholeSession and
+// TestNewRunStartsClean still train in their windows, in the race pass
+// too.
+func sharedLeanWindow(t *testing.T, size fyne.Size) (fyne.Window, *State, *queue) {
+	t.Helper()
+	leanModel.Lock()
+	defer leanModel.Unlock()
+	if leanModel.m == nil {
+		w, st, q := leanWindow(t, size)
+		ms := itemGet(st.model)
+		leanModel.m, leanModel.run = ms.Model.Clone(), ms.Run
+		return w, st, q
+	}
+	w, st, q := demoWindow(t, size)
+	ms, err := newModelState(leanModel.m.Clone(), "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ms.Run = leanModel.run
+	if ms.Eval, err = evaluate(ms, itemGet(st.data)); err != nil {
+		t.Fatal(err)
+	}
+	ms.Model.Info.Test = &ms.Eval.Metrics
+	st.setModel(ms)
+	q.waitFor(t, "the profiles", func() bool { return itemGet(st.profiles) != nil })
+	return w, st, q
 }
 
 // trainedWindowOf is trainedWindow, with the form's linear baseline

@@ -3,17 +3,20 @@
 
 Run with Debian's Python and python3-sklearn:
 
-    /usr/bin/python3 cnn/testdata/tfidf_baseline.py DIR C
+    /usr/bin/python3 cnn/testdata/tfidf_baseline.py DIR C [DIR C ...]
 
-DIR holds train.jsonl and test.jsonl, one {"tokens": [...], "label": ...}
-object a line, written by the corpus-scale tests (cnn/spamassassin_test.go):
-the words the built-in linear baseline saw. The script fits scikit-learn's
+Each DIR holds train.jsonl and test.jsonl, one {"tokens": [...], "label": ...}
+object a line, written by the corpus-scale tests (cnn/spamassassin_test.go,
+cnn/reviews_test.go): the words the built-in linear baseline saw. Several
+DIR C pairs are fitted one after the other in one process (scikit-learn is
+imported once), each as if run alone. The script fits scikit-learn's
 TfidfVectorizer on those tokens as given (unigrams and bigrams, sublinear
 term frequency, smoothed idf, L2-normalised rows: the baseline's default
 features) and the multinomial LogisticRegression with inverse
 regularisation C (the C the baseline chose on its dev split) on the training
-texts, run to a tight tolerance, and prints one JSON object with the test
-accuracy, macro-F1, predictions and the scikit-learn version.
+texts, run to a tight tolerance, and prints one JSON object a line, a line
+for each pair in the order given, with the test accuracy, macro-F1,
+predictions and the scikit-learn version.
 """
 
 import json
@@ -40,10 +43,7 @@ def ident(x):
     return x
 
 
-def main():
-    if len(sys.argv) != 3:
-        sys.exit("usage: tfidf_baseline.py DIR C (DIR holding train.jsonl and test.jsonl)")
-    d, c = sys.argv[1], float(sys.argv[2])
+def fit(d, c):
     xtr, ytr = read(os.path.join(d, "train.jsonl"))
     xte, yte = read(os.path.join(d, "test.jsonl"))
     vec = TfidfVectorizer(tokenizer=ident, preprocessor=ident, lowercase=False, token_pattern=None,
@@ -51,14 +51,22 @@ def main():
     clf = LogisticRegression(C=c, multi_class="multinomial", solver="lbfgs", tol=1e-10, max_iter=20000)
     clf.fit(vec.fit_transform(xtr), ytr)
     pred = clf.predict(vec.transform(xte))
-    print(json.dumps({
+    return {
         "accuracy": accuracy_score(yte, pred),
         "macro_f1": f1_score(yte, pred, average="macro"),
         "pred": [str(p) for p in pred],
         "train": len(xtr),
         "test": len(xte),
         "sklearn": sklearn.__version__,
-    }))
+    }
+
+
+def main():
+    args = sys.argv[1:]
+    if not args or len(args) % 2 != 0:
+        sys.exit("usage: tfidf_baseline.py DIR C [DIR C ...] (each DIR holding train.jsonl and test.jsonl)")
+    for i in range(0, len(args), 2):
+        print(json.dumps(fit(args[i], float(args[i + 1]))), flush=True)
 
 
 if __name__ == "__main__":
