@@ -179,12 +179,16 @@ func execute(ctx context.Context, c *command, args []string, env *runEnv) error 
 	fs := flag.NewFlagSet(c.Name, flag.ContinueOnError)
 	fs.SetOutput(io.Discard)
 	o.register(fs)
+	repeated := countUses(fs)
 	if err := fs.Parse(args); err != nil {
 		if errors.Is(err, flag.ErrHelp) {
 			printCommandHelp(env.Stdout, c)
 			return errHelpShown
 		}
 		return usageError{flagMessage(err)}
+	}
+	if err := repeated(); err != nil {
+		return err
 	}
 	// A stray word would make the flag package stop, silently dropping
 	// every option after it.
