@@ -438,7 +438,7 @@ func checkRetrainCommand(t *testing.T, model string, res *auditOut) {
 // recipe setting that differs from train's default (a boolean as
 // --name=value).
 func TestRetrainArgs(t *testing.T) {
-	m := &cnn.Model{Config: cnn.Config{Dim: 64, Widths: []int{2, 3}, Filters: 100, Dropout: 0.3, MaxNorm: 3},
+	m := &cnn.Model{Config: cnn.Config{Dim: 64, Widths: []int{2, 3}, Filters: 100, Dropout: 0.4, MaxNorm: 3},
 		Tokenizer: corpus.TokenizerConfig{Lower: false, MinCount: 2}}
 	tc := cnn.DefaultRecipe().Train
 	tc.Epochs, tc.Patience, tc.Seed = 5, -1, 7
@@ -450,7 +450,7 @@ func TestRetrainArgs(t *testing.T) {
 	got := src.retrainCommands([]string{"/(?i)\\btkref\\b/", "it's"})
 	want := []string{`printf '%s\n' '/(?i)\btkref\b/' 'it'\''s' > out/m.cues`,
 		"telltale train --data 'my data.csv' --dev-frac 0.2 --seed 7 --text-col body --mail subject-body --relabel spam-1=spam,easy-ham-1=ham " +
-			"--dim 64 --widths 2,3 --dropout 0.3 --max-norm 3 --lower=false --min-count 2 --epochs 5 --patience 0 --wide=false --mask-tokens out/m.cues --out out/m-without.tt"}
+			"--dim 64 --widths 2,3 --dropout 0.4 --max-norm 3 --lower=false --min-count 2 --epochs 5 --patience 0 --wide=false --mask-tokens out/m.cues --out out/m-without.tt"}
 	if !slices.Equal(got, want) {
 		t.Errorf("commands\n%q\nwant\n%q", got, want)
 	}

@@ -33,6 +33,14 @@ type recipeOptions struct {
 	dimFromVectors bool
 }
 
+// decimal32 is the float64 of x's shortest decimal form, so that a
+// float32 default such as 0.3 shows as 0.3 in the help text, not as
+// 0.30000001192092896; converted back to float32 it is x again.
+func decimal32(x float32) float64 {
+	v, _ := strconv.ParseFloat(strconv.FormatFloat(float64(x), 'g', -1, 32), 64)
+	return v
+}
+
 // classWeightNone is --class-weight's word for cnn.TrainConfig's "".
 const classWeightNone = "none"
 
@@ -43,8 +51,8 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 	intVar(fs, &r.Dim, "dim", def.Model.Dim, "embedding dimension; with --vectors and no --dim (or --dim 0), the file's")
 	fs.StringVar(&r.Widths, "widths", joinInts(def.Model.Widths), "filter widths, comma-separated (1 to 32 each)")
 	intVar(fs, &r.Maps, "maps", def.Model.Filters, "feature maps (filters) per width")
-	floatVar(fs, &r.Dropout, "dropout", float64(def.Model.Dropout), "dropout rate on the pooled layer, in [0, 1)")
-	floatVar(fs, &r.MaxNorm, "max-norm", float64(def.Model.MaxNorm), "max L2 norm of each output-weight row (Kim used 3); 0 is off")
+	floatVar(fs, &r.Dropout, "dropout", decimal32(def.Model.Dropout), "dropout rate on the pooled layer, in [0, 1)")
+	floatVar(fs, &r.MaxNorm, "max-norm", decimal32(def.Model.MaxNorm), "max L2 norm of each output-weight row (Kim used 3); 0 is off")
 	fs.StringVar(&r.Optimizer, "optimizer", def.Train.Optimizer, "adam or adadelta")
 	floatVar(fs, &r.LR, "lr", def.Train.LR, "learning rate; 0 is the optimizer's usual default (0.001 for adam, 1.0 for adadelta, which --optimizer adadelta without --lr also gets)")
 	intVar(fs, &r.MaxLen, "max-len", def.Train.MaxLen, "cut texts to this many tokens (0 keeps them whole)")

@@ -23,7 +23,8 @@ const DefaultWideLR = 100
 
 // DefaultRecipe is the one recipe the command line, the window, the
 // benchmark and the tests start from: the architecture of Kim (2014) with
-// Adam at a learning rate of 0.002, word and bigram weights beside the filters (Config.Wide and
+// dropout 0.3 and Adam at a learning rate of 0.002 for at most 20 epochs
+// with patience 5, word and bigram weights beside the filters (Config.Wide and
 // WideBigrams, at DefaultWideLR times the learning rate; Joulin et al.
 // 2017), a tenth of the training tokens replaced by UNK in every batch
 // (TokenDropout), and the linear baseline fitted beside the CNN. VocabSize
@@ -44,13 +45,17 @@ const DefaultWideLR = 100
 // (internal/reviewset; +0.0049, 1.9 standard errors), the thirteenth
 // round: a mean gain of +0.0032 over the four corpora, below the earlier
 // rounds' rule of two standard errors, taken as the one candidate carried
-// forward (README, "The default recipe").
+// forward (README, "The default recipe"). The fourteenth round took 20
+// epochs with patience 5 and dropout 0.3 (Kim's 0.5 before): on fresh
+// seeds of the reviews' dev folds +0.0081 (3.9 standard errors of the 50
+// paired runs), and no loss beyond 0.005 on the other three corpora's dev
+// splits, the rule fixed before the round.
 func DefaultRecipe() Recipe {
 	base := linear.DefaultConfig()
 	return Recipe{
 		Tokenizer: corpus.TokenizerConfig{Lower: true, MinCount: 1},
-		Model:     Config{Dim: 128, Widths: []int{3, 4, 5}, Filters: 100, Dropout: 0.5, Wide: true, WideBigrams: true},
-		Train: TrainConfig{Epochs: 10, Batch: 50, Optimizer: "adam", Seed: 1, Patience: 3, MaxLen: 400,
+		Model:     Config{Dim: 128, Widths: []int{3, 4, 5}, Filters: 100, Dropout: 0.3, Wide: true, WideBigrams: true},
+		Train: TrainConfig{Epochs: 20, Batch: 50, Optimizer: "adam", Seed: 1, Patience: 5, MaxLen: 400,
 			TokenDropout: 0.1, WideLR: DefaultWideLR, LR: 2e-3},
 		Baseline: &base,
 	}

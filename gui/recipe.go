@@ -42,6 +42,10 @@ const (
 // formatFloat writes a recipe number as the user would type it.
 func formatFloat(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
 
+// formatFloat32 writes v in its shortest float32 form: 0.3, not the
+// 0.30000001192092896 of its float64 conversion.
+func formatFloat32(v float32) string { return strconv.FormatFloat(float64(v), 'g', -1, 32) }
+
 func newRecipeForm() *recipeForm {
 	r := &recipeForm{}
 	for _, p := range r.fields() {
@@ -75,7 +79,7 @@ func (r *recipeForm) reset() {
 	for b, v := range map[binding.String]string{
 		r.widths: strings.Join(ws, ","), r.maps: strconv.Itoa(d.Model.Filters), r.dim: strconv.Itoa(d.Model.Dim),
 		r.epochs: strconv.Itoa(d.Train.Epochs), r.patience: strconv.Itoa(d.Train.Patience),
-		r.dropout: formatFloat(float64(d.Model.Dropout)), r.maxNorm: formatFloat(float64(d.Model.MaxNorm)),
+		r.dropout: formatFloat32(d.Model.Dropout), r.maxNorm: formatFloat32(d.Model.MaxNorm),
 		r.optimizer: d.Train.Optimizer, r.lr: lr, r.batch: strconv.Itoa(d.Train.Batch),
 		r.minCount: strconv.Itoa(d.Tokenizer.MinCount), r.seed: strconv.FormatUint(d.Train.Seed, 10),
 		r.devFrac: formatFloat(cnn.DefaultDevFrac), r.testFrac: formatFloat(cnn.DefaultTestFrac),
