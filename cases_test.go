@@ -67,7 +67,7 @@ func TestRefusalsAndMessages(t *testing.T) {
 	f := makeCaseFiles(t)
 	out := filepath.Join(f.dir, "m.tt")
 	train := func(args ...string) []string {
-		return append([]string{"train", "--data", f.data, "--out", out, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"}, args...)
+		return overriding([]string{"train", "--data", f.data, "--out", out, "--epochs", "1", "--dim", "8", "--maps", "4", "--quiet"}, args...)
 	}
 	cases := []struct {
 		name string

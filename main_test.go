@@ -329,3 +329,29 @@ func checkEvalIntervals(t *testing.T, out string) {
 		holds(pc.Label+" F1", iv.PerClass[c].F1, pc.F1)
 	}
 }
+
+// overriding returns the command line base with the options of extra
+// appended, after taking out of base every option extra gives again (an
+// option given twice is refused). Options in base are "--name" or
+// "--name value"; a value never starts with "--".
+func overriding(base []string, extra ...string) []string {
+	again := map[string]bool{}
+	for _, tok := range extra {
+		if strings.HasPrefix(tok, "--") {
+			again[strings.SplitN(strings.TrimPrefix(tok, "--"), "=", 2)[0]] = true
+		}
+	}
+	var out []string
+	for i := 0; i < len(base); i++ {
+		tok := base[i]
+		name := strings.SplitN(strings.TrimPrefix(tok, "--"), "=", 2)[0]
+		if !strings.HasPrefix(tok, "--") || !again[name] {
+			out = append(out, tok)
+			continue
+		}
+		if !strings.Contains(tok, "=") && i+1 < len(base) && !strings.HasPrefix(base[i+1], "--") {
+			i++ // its value goes with it
+		}
+	}
+	return append(out, extra...)
+}

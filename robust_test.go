@@ -141,7 +141,7 @@ func TestBadInputMessages(t *testing.T) {
 			[]string{"vectors-dim.txt line 3", `3 numbers for "late"`, "dimension is 4"}},
 		{"vectors with NaN", append([]string{"train", "--data", train, "--vectors", bad("vectors-nan.txt")}, tiny...), 1,
 			[]string{"vectors-nan.txt line 2", `"NaN" is not a finite number`}},
-		{"vectors of another dimension than --dim", append(append([]string{"train", "--data", train, "--vectors", bad("vectors-4d.txt")}, tiny...), "--dim", "3"), 1,
+		{"vectors of another dimension than --dim", overriding(append([]string{"train", "--data", train, "--vectors", bad("vectors-4d.txt")}, tiny...), "--dim", "3"), 1,
 			[]string{"vectors-4d.txt holds 4-dimensional vectors", "(--dim 4)"}},
 		{"tokenizer file that is not JSON", append([]string{"train", "--data", train, "--tokenizer", bad("tokenizer.json")}, tiny...), 1,
 			[]string{"tokenizer.json", "not a tokenizer file"}},
