@@ -134,10 +134,11 @@ func kimRecipe() cnn.Recipe {
 //
 // The model is Kim's alone (train --wide=false, token dropout 0.25), which
 // relies on the lists' boilerplate measurably. The default recipe's model
-// relies on one piece of it (the feed gateway's URL line, a drop of 0.07
-// in p(ham)); every other cue it lists scores below 0.005 (reliance ×
-// artifact-likeness) and none is confirmed, so the order of its ranks
-// after the first is noise and tests nothing.
+// of the time this case was written relies on one piece of it (the feed
+// gateway's URL line, a drop of 0.07 in p(ham)); every other cue it lists
+// scores below 0.005 (reliance × artifact-likeness) and none is
+// confirmed, so the order of its ranks after the first is noise and tests
+// nothing.
 func TestSpamAssassinBoilerplate(t *testing.T) {
 	if testing.Short() {
 		t.Skip("trains Kim's model on SpamAssassin; skipped with -short")

@@ -25,7 +25,7 @@ func benchCorpus(n, vocab int) Data {
 }
 
 // benchModel is the default recipe's model (DefaultRecipe: 128-d
-// embeddings, widths 3, 4, 5 with 100 feature maps each, dropout 0.5, word
+// embeddings, widths 3, 4, 5 with 100 feature maps each, dropout 0.3, word
 // and bigram weights beside the filters, its bigrams those of d) over a
 // vocabulary of vocab words and two labels.
 func benchModel(b *testing.B, d Data, vocab int) *Model {

@@ -24,7 +24,7 @@ import (
 // there the CNN is still behind, which is why no test asserts it.
 func TestReviewsBaseline(t *testing.T) {
 	if testing.Short() {
-		t.Skip("SKIPPED in -short mode: fits ten baselines and runs scikit-learn ten times")
+		t.Skip("SKIPPED in -short mode: fits ten baselines and scikit-learn's for each")
 	}
 	testref.Corpus(t, "reviews", "amazon_cells_labelled.txt")
 	testref.RequirePython(t, "sklearn")

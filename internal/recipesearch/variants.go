@@ -67,6 +67,8 @@ var variants = map[string]func(r *cnn.Recipe){
 	"lrd6":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.6 },
 	// Kim's model as the default had it before the word and bigram weights
 	"kim": kim,
+	// the default before the fourteenth round
+	"r13": r13,
 	// the words' weights alone beside the pooled filters (cnn.Config.Wide
 	// without WideBigrams), their learning rate as the others' or 10 to
 	// 1000 times it
@@ -91,9 +93,19 @@ var variants = map[string]func(r *cnn.Recipe){
 	"wdec10": func(r *cnn.Recipe) { r.Train.WideDecay = 0.1 },
 }
 
-// kim turns the word and bigram weights off and token dropout back to 0.25.
+// kim turns the word and bigram weights off and the rest back to the
+// default of that time: token dropout 0.25, Adam 0.001, dropout 0.5, at
+// most 10 epochs with patience 3.
 func kim(r *cnn.Recipe) {
-	r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR, r.Train.TokenDropout = false, false, 0, 0.25
+	r13(r)
+	r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR, r.Train.TokenDropout, r.Train.LR = false, false, 0, 0.25, 1e-3
+}
+
+// r13 is the default of the thirteenth round, before the fourteenth took
+// 20 epochs with patience 5 and dropout 0.3 (ep20, pat5 and drop3 change
+// nothing since).
+func r13(r *cnn.Recipe) {
+	r.Model.Dropout, r.Train.Epochs, r.Train.Patience = 0.5, 10, 3
 }
 
 func init() {
