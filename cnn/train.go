@@ -112,6 +112,12 @@ type TrainConfig struct {
 	// negative; Train refuses it with WideSparse (the sparse update has no
 	// weight decay) and for a model without word or bigram weights.
 	WideDecay float64 `json:"wide_decay,omitempty"`
+	// WideFit starts the word and bigram weights (Config.Wide,
+	// WideBigrams) at the logistic regression fitted on the wide path's
+	// features, C chosen on dev like the baseline's, and the filters'
+	// output weights at zero (widefit.go), so training starts from that
+	// linear model. It needs the word weights.
+	WideFit bool `json:"wide_fit,omitempty"`
 }
 
 // WithDefaults returns tc with every zero field set to its default, or an
@@ -299,7 +305,9 @@ const progressEvery = 10
 // the batch's words are replaced by UNK first (a copy: train is unchanged).
 // Batches are length-bucketed: the shuffled split is cut into chunks of 100
 // batches, each chunk sorted by length and cut into batches, and the batch
-// order shuffled.
+// order shuffled. With WideFit the word and bigram weights first start at
+// the logistic regression fitted on them (widefit.go); a cancel during
+// that fit ends the run before its first epoch, m unchanged.
 func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progress func(Progress)) (*TrainResult, error) {
 	tc, err := tc.WithDefaults()
 	if err != nil {
@@ -321,16 +329,26 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		return nil, err
 	}
 	train, dev = train.Truncate(tc.MaxLen), dev.Truncate(tc.MaxLen)
+	var cancelled bool
+	if tc.WideFit {
+		if err := m.fitWideStart(ctx, train, dev, tc); err != nil {
+			if ctx.Err() == nil {
+				return nil, err
+			}
+			cancelled = true // no epoch runs; m keeps the weights it came with
+		}
+	}
 	tr := newTrainer(m, tc)
 	defer tr.close()
 	tr.prepare(train)
 	rng := rand.New(rand.NewPCG(tc.Seed, tc.Seed^0x5bd1e995))
 	run := &trainRun{ctx: ctx, m: m, tr: tr, tc: tc, train: train, progress: progress, res: &TrainResult{}}
 	res := run.res
+	res.Cancelled = cancelled
 	sel := newSelector(tc, dev)
 	order := make([]int, train.Len())
 	var batches [][]int
-	for epoch := 1; epoch <= tc.Epochs; epoch++ {
+	for epoch := 1; epoch <= tc.Epochs && !res.Cancelled; epoch++ {
 		batches = makeBatches(rng, train.IDs, tc.Batch, order, batches)
 		tr.setEpoch(epoch)
 		start := time.Now()

@@ -75,6 +75,63 @@ type Model struct {
 	Dev        []DevScore  `json:"dev,omitempty"` // the grid's dev scores; empty without a dev split
 }
 
+// RowsFit is a multinomial logistic regression on rows of any features,
+// its C chosen on a dev split: the fit behind Fit, for callers with
+// features of their own.
+type RowsFit struct {
+	Features, Classes int
+	ClassWeight       []float64 // per class; nil weighs every text 1
+	// Cs is the grid of inverse regularisation strengths (each positive
+	// and finite); without dev rows only the middle one is fitted.
+	Cs     []float64
+	Solver SolverConfig
+	// Score rates a C by its dev predictions (higher is better).
+	Score    func(gold, pred []int) float64
+	Progress func(Progress) // before each C; may be nil
+}
+
+// Fit fits the classifier on the rows X with labels y (each below
+// Classes; every row index below Features) for every C of the grid,
+// warm-started from the previous C, and returns the one whose dev
+// predictions get the highest Score (ties: the smaller C) with the
+// grid's dev scores. ctx cancels the fit (the error is then ctx's).
+func (f RowsFit) Fit(ctx context.Context, X []Row, y []int, devX []Row, devY []int) (*Classifier, []DevScore, error) {
+	d := newDesign(X, f.Features)
+	cs := f.Cs
+	if len(devX) == 0 {
+		cs = cs[len(cs)/2 : len(cs)/2+1]
+	}
+	var x0 []float64
+	var best *Classifier
+	var scores []DevScore
+	bestScore := math.Inf(-1)
+	for i, C := range cs {
+		if f.Progress != nil {
+			f.Progress(Progress{C: C, Index: i, Total: len(cs)})
+		}
+		clf, x, err := fitC(ctx, d, y, f.Classes, f.ClassWeight, C, f.Solver, x0)
+		if err != nil {
+			return nil, nil, err
+		}
+		x0 = x
+		if len(devX) == 0 {
+			return clf, nil, nil
+		}
+		pred := make([]int, len(devX))
+		p := make([]float64, f.Classes)
+		for j, r := range devX {
+			clf.Probs(r, p)
+			pred[j] = argmax(p)
+		}
+		s := f.Score(devY, pred)
+		scores = append(scores, DevScore{C: C, Score: s})
+		if s > bestScore {
+			bestScore, best = s, clf
+		}
+	}
+	return best, scores, nil
+}
+
 // Progress reports the C being fitted (Index of Total, 0-based).
 type Progress struct {
 	C            float64
@@ -109,43 +166,15 @@ func Fit(ctx context.Context, train, dev Split, labels []string, cfg Config, sco
 	if err != nil {
 		return nil, err
 	}
-	d := newDesign(X, len(vec.Features))
 	var cw []float64
 	if cfg.ClassWeight == "balanced" {
 		cw = BalancedWeights(train.Labels, k)
 	}
 	m := &Model{Config: cfg, Labels: slices.Clone(labels), Vectorizer: vec}
-	cs := cfg.Cs
-	if len(dev.Docs) == 0 {
-		cs = cs[len(cs)/2 : len(cs)/2+1]
-	}
-	devX := vec.TransformAll(dev.Docs)
-	var x0 []float64
-	bestScore := math.Inf(-1)
-	for i, C := range cs {
-		if progress != nil {
-			progress(Progress{C: C, Index: i, Total: len(cs)})
-		}
-		clf, x, err := fitC(ctx, d, train.Labels, k, cw, C, cfg.Solver, x0)
-		if err != nil {
-			return nil, err
-		}
-		x0 = x
-		if len(dev.Docs) == 0 {
-			m.Classifier = clf
-			break
-		}
-		pred := make([]int, len(devX))
-		p := make([]float64, k)
-		for j, r := range devX {
-			clf.Probs(r, p)
-			pred[j] = argmax(p)
-		}
-		s := score(dev.Labels, pred)
-		m.Dev = append(m.Dev, DevScore{C: C, Score: s})
-		if s > bestScore {
-			bestScore, m.Classifier = s, clf
-		}
+	fit := RowsFit{Features: len(vec.Features), Classes: k, ClassWeight: cw, Cs: cfg.Cs, Solver: cfg.Solver, Score: score, Progress: progress}
+	m.Classifier, m.Dev, err = fit.Fit(ctx, X, train.Labels, vec.TransformAll(dev.Docs), dev.Labels)
+	if err != nil {
+		return nil, err
 	}
 	return m, nil
 }

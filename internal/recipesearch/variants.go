@@ -82,6 +82,11 @@ var variants = map[string]func(r *cnn.Recipe){
 	// rows the batch does not touch keep their values and moments
 	// (cnn.TrainConfig.WideSparse)
 	"lazywide": func(r *cnn.Recipe) { r.Train.WideSparse = true },
+	// The wide path started at its own fitted logistic regression
+	// (TrainConfig.WideFit), at the default's ×100 rate, at ×10 and at ×1.
+	"wfit":   func(r *cnn.Recipe) { r.Train.WideFit = true },
+	"wfit10": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR = true, 10 },
+	"wfit1":  func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR = true, 1 },
 	// the factor on the word and bigram weights' rate alone, the bigram
 	// weights kept (to pair with lazywide, whose rare rows move less)
 	"wlr300":  func(r *cnn.Recipe) { r.Train.WideLR = 300 },

@@ -1,0 +1,108 @@
+package cnn
+
+import (
+	"context"
+	"fmt"
+	"slices"
+
+	"telltale/corpus"
+	"telltale/linear"
+)
+
+// The fitted start of the wide path (TrainConfig.WideFit): before the
+// first step the word and bigram weights are set to the L2-regularised
+// multinomial logistic regression on the wide path's own features, its C
+// chosen on the dev split as the baseline's is, and the filters' output
+// weights to zero, so training starts from that linear model and the
+// filters learn what it leaves (the wide and deep parts of Cheng et al.
+// 2016 trained jointly, the wide one started where it fits alone; a
+// linear start for a residual as in gradient boosting, Friedman 2001,
+// "Greedy Function Approximation: A Gradient Boosting Machine").
+
+// wideFeatures is the number of columns of wideRows: one per word id, then
+// one per bigram of the model's set.
+func (m *Model) wideFeatures() int { return m.Config.VocabSize + len(m.Bigrams) }
+
+// wideRows returns each text's wide-path features: word id w's column holds
+// its count over N+M and bigram row r's (column VocabSize+r) its count over
+// N+M, N the text's non-PAD ids and M its pairs found in the bigram set, so
+// that a row's dot product with the model's wide weights is the wide term
+// addWide adds. A text without a word gives an empty row. M must have the
+// wide path; ids must be below VocabSize.
+func (m *Model) wideRows(d Data) []linear.Row {
+	rows := make([]linear.Row, d.Len())
+	pairRows := make([]int32, 0, 64)
+	for i, ids := range d.IDs {
+		if cap(pairRows) < len(ids) {
+			pairRows = make([]int32, len(ids))
+		}
+		pr := pairRows[:len(ids)]
+		if !m.Config.WideBigrams {
+			pr = nil
+		}
+		n, pairs := m.wideCounts(ids, pr)
+		if n == 0 {
+			continue
+		}
+		counts := make(map[int32]float64, n+pairs)
+		for t, id := range ids {
+			if id == corpus.PAD {
+				continue
+			}
+			counts[id]++
+			if pr != nil && pr[t] >= 0 {
+				counts[int32(m.Config.VocabSize)+pr[t]]++
+			}
+		}
+		rows[i] = sparseRow(counts, 1/float64(n+pairs))
+	}
+	return rows
+}
+
+// sparseRow is counts as a row with ascending columns, each value scaled.
+func sparseRow(counts map[int32]float64, scale float64) linear.Row {
+	r := linear.Row{Index: make([]int32, 0, len(counts)), Value: make([]float64, 0, len(counts))}
+	for j := range counts {
+		r.Index = append(r.Index, j)
+	}
+	slices.Sort(r.Index)
+	for _, j := range r.Index {
+		r.Value = append(r.Value, counts[j]*scale)
+	}
+	return r
+}
+
+// fitWideStart sets m's word and bigram weights and OutB to the logistic
+// regression fitted on train's wide features (C of the baseline's grid,
+// the best dev macro-F1; the middle one without a dev split) and OutW to
+// zero. M must have the wide path; train and dev must have passed check.
+func (m *Model) fitWideStart(ctx context.Context, train, dev Data, tc TrainConfig) error {
+	if !m.Config.Wide {
+		return fmt.Errorf("cnn: a fitted start of the wide path needs the word weights: turn Wide on (train --wide) or the fitted start off")
+	}
+	C, p := m.Config.Classes, m.wideFeatures()
+	fit := linear.RowsFit{Features: p, Classes: C, Cs: linear.DefaultConfig().Cs,
+		Solver: linear.SolverConfig{Threads: tc.Threads},
+		Score:  func(gold, pred []int) float64 { return ComputeMetrics(m.Labels, gold, pred, nil, 0).MacroF1 }}
+	if tc.ClassWeight == "balanced" {
+		fit.ClassWeight = linear.BalancedWeights(train.Labels, C)
+	}
+	clf, _, err := fit.Fit(ctx, m.wideRows(train), train.Labels, m.wideRows(dev), dev.Labels)
+	if err != nil {
+		return fmt.Errorf("cnn: fitted start of the wide path: %w", err)
+	}
+	V := m.Config.VocabSize
+	for c := range C {
+		coef := clf.Coef[c*p : (c+1)*p]
+		for w := range V {
+			m.Wide[w*C+c] = float32(coef[w])
+		}
+		for r := range len(m.Bigrams) {
+			m.WideBigram[r*C+c] = float32(coef[V+r])
+		}
+		m.OutB[c] = float32(clf.Intercept[c])
+	}
+	clear(m.OutW)
+	m.Invalidate()
+	return nil
+}
