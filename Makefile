@@ -16,7 +16,7 @@ TEST_PKGS := gcc libc6-dev python3 python3-torch python3-sklearn python3-scipy p
              chromium xvfb xdotool ca-certificates
 SHOT_PKGS := $(GUI_PKGS) xvfb xdotool imagemagick fonts-dejavu-core
 
-.PHONY: all build demo test test-go test-portable test-race fuzz soak vet bench screenshots deps-gui deps-test corpora clean
+.PHONY: all build demo test test-go test-portable test-race fuzz soak fuzz-soak vet bench screenshots deps-gui deps-test corpora clean
 
 all: build
 
@@ -38,7 +38,7 @@ build: deps-gui
 demo: build
 	@scripts/demo.sh $(BIN)
 
-test: corpora vet test-go test-portable test-race fuzz soak
+test: corpora vet test-go test-portable test-race fuzz-soak
 
 vet:
 	$(GO) vet -tags ci ./...
@@ -68,6 +68,15 @@ test-race:
 FUZZTIME ?= 4000x
 fuzz:
 	@GO=$(GO) scripts/fuzz.sh $(FUZZTIME)
+
+# The fuzz targets and the soak at the same time (scripts/together.sh):
+# the soak keeps about one core busy, the fuzzers take the rest, and the
+# window must keep answering under their load. Each
+# one's output comes as a block when it ends; either failing fails the
+# target and stops the other.
+fuzz-soak: build
+	@scripts/ensure-debian-packages.sh xvfb xdotool
+	@scripts/together.sh fuzz 'GO=$(GO) scripts/fuzz.sh $(FUZZTIME)' soak 'scripts/soak.sh $(BIN)'
 
 # The real window under Xvfb for about two and a half minutes, driven with
 # xdotool (train, retrain, search and scroll the filter list, the audit,

@@ -1,0 +1,105 @@
+#!/usr/bin/env bash
+# together.sh — run several commands at the same time; succeed only when
+# every one of them succeeds. Used by `make test` to run the fuzz targets
+# while the soak drives the window: the soak keeps about one of two cores
+# busy (the window's training and software rendering, the waits between
+# actions), the fuzzers take what it leaves, and the window must keep
+# answering under their load.
+#
+# Usage: scripts/together.sh NAME 'COMMAND' [NAME 'COMMAND']…
+# Each COMMAND is a bash command line run from the repository root in its
+# own process group, with its output (stdout and stderr) kept in a file and
+# printed as one block under "== NAME" when it ends, so outputs do not
+# interleave. When one command fails, the others' process groups (with
+# every process they started) are stopped with SIGTERM, then SIGKILL after
+# 10 s; the exit status is that of the first command to fail (0 if none).
+# On SIGINT or SIGTERM every group is stopped the same way.
+set -uo pipefail
+cd "$(dirname "$0")/.."
+
+[ $# -ge 2 ] && [ $(($# % 2)) = 0 ] || {
+	echo "usage: scripts/together.sh NAME 'COMMAND' [NAME 'COMMAND']…" >&2
+	exit 2
+}
+tmp=$(mktemp -d)
+names=()
+pids=()
+ended=() # a job's exit status once it has ended
+
+# live lists the pids of the jobs not yet ended.
+live() {
+	local i
+	for i in "${!pids[@]}"; do
+		[ -n "${ended[$i]}" ] || printf '%s\n' "${pids[$i]}"
+	done
+}
+
+# stop_all PID… sends SIGTERM to the process groups of the jobs PID…
+# (a job's group id is its pid), waits up to 10 s for every process in them
+# to end and then sends SIGKILL to what is left.
+stop_all() {
+	local pid left
+	for pid in "$@"; do
+		kill -TERM -- "-$pid" 2>/dev/null
+	done
+	for _ in $(seq 1 100); do
+		left=""
+		for pid in "$@"; do
+			kill -0 -- "-$pid" 2>/dev/null && left=1
+		done
+		[ -z "$left" ] && return
+		sleep 0.1
+	done
+	for pid in "$@"; do
+		kill -KILL -- "-$pid" 2>/dev/null
+	done
+}
+trap 'stop_all $(live); rm -rf "$tmp"' EXIT
+trap 'exit 130' INT
+trap 'exit 143' TERM
+
+set -m # each background job in its own process group (its id the job's pid)
+while [ $# -gt 0 ]; do
+	names+=("$1")
+	n=${#pids[@]}
+	(
+		bash -c "$2"
+		echo $? >"$tmp/$n.rc-new" && mv "$tmp/$n.rc-new" "$tmp/$n.rc"
+	) >"$tmp/$n.log" 2>&1 &
+	pids+=($!)
+	ended+=("")
+	shift 2
+done
+set +m
+
+# report I STATUS prints job I's output under a line with its name.
+report() {
+	echo "== ${names[$1]} ($2)"
+	cat "$tmp/$1.log"
+}
+
+# Every 0.2 s, look for jobs that have ended (they leave their exit status
+# in a file); when one has failed, stop the others and report them.
+status=0
+while [ -n "$(live)" ] && [ "$status" = 0 ]; do
+	sleep 0.2
+	for i in "${!pids[@]}"; do
+		[ -z "${ended[$i]}" ] && [ -e "$tmp/$i.rc" ] || continue
+		ended[i]=$(<"$tmp/$i.rc")
+		wait "${pids[$i]}" 2>/dev/null
+		report "$i" "exit status ${ended[$i]}"
+		if [ "${ended[$i]}" != 0 ] && [ "$status" = 0 ]; then
+			status=${ended[$i]}
+			failed=${names[$i]}
+			echo "== ${names[$i]} failed: stopping the others"
+			stop_all "${pids[$i]}" $(live) # with what the failed one left
+		fi
+	done
+done
+for i in "${!pids[@]}"; do
+	[ -z "${ended[$i]}" ] || continue
+	wait "${pids[$i]}" 2>/dev/null
+	ended[i]=stopped
+	report "$i" "stopped: $failed failed"
+done
+exit "$status"
