@@ -1,10 +1,11 @@
 #!/usr/bin/env bash
 # together.sh — run several commands at the same time; succeed only when
-# every one of them succeeds. Used by `make test` to run the fuzz targets
-# while the soak drives the window: the soak keeps about one of two cores
-# busy (the window's training and software rendering, the waits between
-# actions), the fuzzers take what it leaves, and the window must keep
-# answering under their load.
+# every one of them succeeds. Used by `make soak-checks` (part of `make
+# test`) to run the fuzz targets and other short checks while the soak
+# drives the window: the soak keeps about one of two cores busy for its
+# fixed time (the window's training and software rendering, the waits
+# between actions), the checks take what it leaves, and the window must
+# keep answering under their load.
 #
 # Usage: scripts/together.sh NAME 'COMMAND' [NAME 'COMMAND']…
 # Each COMMAND is a bash command line run from the repository root in its
