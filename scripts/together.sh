@@ -79,21 +79,45 @@ report() {
 	cat "$tmp/$1.log"
 }
 
-# Every 0.2 s, look for jobs that have ended (they leave their exit status
-# in a file); when one has failed, stop the others and report them.
+# running PID reports whether process PID runs (neither gone nor a zombie).
+running() {
+	local state
+	state=$(ps -o stat= -p "$1" 2>/dev/null)
+	[ -n "$state" ] && [ "${state:0:1}" != Z ]
+}
+
+# ended_status I sets code to job I's exit status and reaps the job, when
+# it has ended: the status it left in its file, or, when something outside
+# killed the job before it could write one, its wait status (128 + the
+# signal). It fails while the job runs.
+ended_status() {
+	local pid=${pids[$1]} rc=$tmp/$1.rc
+	if [ ! -e "$rc" ] && running "$pid"; then
+		return 1
+	fi
+	wait "$pid" 2>/dev/null
+	code=$?
+	if [ -e "$rc" ]; then # written just before the job ended
+		code=$(<"$rc")
+	fi
+}
+
+# Every 0.2 s, look for jobs that have ended; when one has failed, stop
+# the others and report them.
 status=0
 while [ -n "$(live)" ] && [ "$status" = 0 ]; do
 	sleep 0.2
 	for i in "${!pids[@]}"; do
-		[ -z "${ended[$i]}" ] && [ -e "$tmp/$i.rc" ] || continue
-		ended[i]=$(<"$tmp/$i.rc")
-		wait "${pids[$i]}" 2>/dev/null
+		[ -z "${ended[$i]}" ] || continue
+		ended_status "$i" || continue
+		ended[i]=$code
 		report "$i" "exit status ${ended[$i]}"
 		if [ "${ended[$i]}" != 0 ] && [ "$status" = 0 ]; then
 			status=${ended[$i]}
 			failed=${names[$i]}
 			echo "== ${names[$i]} failed: stopping the others"
 			stop_all "${pids[$i]}" $(live) # with what the failed one left
+			break
 		fi
 	done
 done
