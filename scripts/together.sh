@@ -79,11 +79,13 @@ report() {
 	cat "$tmp/$1.log"
 }
 
-# running PID reports whether process PID runs (neither gone nor a zombie).
+# running PID reports whether process PID runs (neither gone nor a zombie),
+# from its state in /proc/PID/stat (the field after the command's name).
 running() {
-	local state
-	state=$(ps -o stat= -p "$1" 2>/dev/null)
-	[ -n "$state" ] && [ "${state:0:1}" != Z ]
+	local stat
+	stat=$(cat "/proc/$1/stat" 2>/dev/null) || return 1
+	stat=${stat##*) }
+	[ "${stat%% *}" != Z ]
 }
 
 # ended_status I sets code to job I's exit status and reaps the job, when
