@@ -16,7 +16,7 @@ TEST_PKGS := gcc libc6-dev python3 python3-torch python3-sklearn python3-scipy p
              chromium xvfb xdotool ca-certificates
 SHOT_PKGS := $(GUI_PKGS) xvfb xdotool imagemagick fonts-dejavu-core
 
-.PHONY: all build demo test test-go test-portable test-race fuzz soak vet bench screenshots deps-gui deps-test corpora clean
+.PHONY: all build demo test test-go test-portable test-race test-race-pkgs test-race-cli fuzz soak soak-checks vet bench screenshots deps-gui deps-test corpora clean
 
 all: build
 
@@ -38,7 +38,7 @@ build: deps-gui
 demo: build
 	@scripts/demo.sh $(BIN)
 
-test: corpora vet test-go test-portable test-race fuzz soak
+test: corpora vet test-go test-race-pkgs soak-checks
 
 vet:
 	$(GO) vet -tags ci ./...
@@ -52,12 +52,17 @@ test-portable:
 	GOEXPERIMENT= CI=true $(GO) test -tags ci -count=1 -run 'Kernel|Predict|Forward|Table|MatMul|Dot' ./cnn ./explain ./internal/f32
 
 # The race detector over the training, baseline, profiling, audit,
-# GUI-state and ordered-worker packages (short mode leaves out the long
-# corpus-scale runs), then the command line's explain on several workers.
-# The longest first (go test schedules the packages in the order given,
-# two at a time), so that the GUI's run does not start last and end alone.
-test-race:
+# GUI-state and ordered-worker packages (test-race-pkgs; short mode leaves
+# out the long corpus-scale runs), then the command line's explain on
+# several workers (test-race-cli). The longest package first (go test
+# schedules the packages in the order given, two at a time), so that the
+# GUI's run does not start last and end alone.
+test-race: test-race-pkgs test-race-cli
+
+test-race-pkgs:
 	CI=true $(GO) test -tags ci -race -short -count=1 -timeout 20m ./gui ./explain ./cnn ./audit ./corpus ./linear ./internal/inorder
+
+test-race-cli:
 	CI=true $(GO) test -tags ci -race -count=1 -run 'TestExplainThreadsSameOutput|TestExplainStopsAtWriteError' .
 
 # Each fuzz target for a short, fixed run, from one instrumented test
@@ -68,6 +73,20 @@ test-race:
 FUZZTIME ?= 4000x
 fuzz:
 	@GO=$(GO) scripts/fuzz.sh $(FUZZTIME)
+
+# The soak with the last checks beside it (scripts/together.sh): the soak
+# keeps about one core busy for its fixed time, so the fuzz targets, the
+# portable kernels and the race detector's run of the command line go one
+# after another on what it leaves (at a lower priority, nice 10: the window
+# comes first, as when the soak runs alone, but it must keep answering with
+# them running). Each side's output comes as a block when it ends; either
+# failing fails the target and stops the other. `make test` runs this.
+# (The checks' side is a recursive make, so `make -n soak-checks` runs the
+# soak.)
+soak-checks: build
+	@scripts/ensure-debian-packages.sh xvfb xdotool
+	@scripts/together.sh 'fuzz, portable kernels, race on the command line' \
+		'nice -n 10 $(MAKE) --no-print-directory fuzz test-portable test-race-cli' soak 'scripts/soak.sh $(BIN)'
 
 # The real window under Xvfb for about two and a half minutes, driven with
 # xdotool (train, retrain, search and scroll the filter list, the audit,
