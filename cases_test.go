@@ -116,6 +116,7 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"wide-lr NaN", train("--wide", "--wide-lr", "NaN"), 2, []string{"--wide-lr NaN: not a finite number"}},
 		{"wide-lr without --wide", train("--wide=false", "--wide-lr", "2"), 2, []string{"--wide-lr sets the learning rate of the word-weight table, which --wide=false leaves out: drop one of the two"}},
 		{"wide-bigrams without --wide", train("--wide=false", "--wide-bigrams"), 2, []string{"--wide-bigrams gives bigrams weights in the word-weight path, which --wide=false leaves out: drop one of the two"}},
+		{"wide-fit without --wide", train("--wide=false", "--wide-fit"), 2, []string{"--wide-fit starts the word-weight path at a fitted linear model, and --wide=false leaves the path out: drop one of the two"}},
 		{"class-weight unknown", train("--class-weight", "heavy"), 2, []string{`--class-weight "heavy": use none or balanced`}},
 		{"class-weight empty", train("--class-weight", ""), 2, []string{`--class-weight "": use none or balanced`}},
 		{"baseline not a switch value", train("--baseline=sometimes"), 2, []string{"--baseline sometimes: give true or false"}},

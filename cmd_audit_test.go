@@ -492,6 +492,8 @@ func TestRetrainArgs(t *testing.T) {
 		{func(m *cnn.Model) { m.Config.Wide, m.Config.WideBigrams, m.Info.Recipe.WideLR = false, false, 0 }, "--wide=false"},
 		{func(m *cnn.Model) { m.Info.Recipe.WideLR = 0 }, "--wide-lr 1"},
 		{func(m *cnn.Model) { m.Config.WideBigrams = false }, "--wide-bigrams=false"},
+		{func(m *cnn.Model) { m.Info.Recipe.WideFit = true }, "--wide-fit=true"},
+		{func(m *cnn.Model) { m.Config.Wide, m.Config.WideBigrams, m.Info.Recipe.WideFit = false, false, true }, "--wide=false"},
 		{func(m *cnn.Model) {
 			m.Config.Chars = &cnn.CharConfig{Filters: cnn.DefaultCharFilters, Width: cnn.DefaultCharWidth}
 			m.Config.Dim += cnn.DefaultCharFilters

@@ -418,8 +418,11 @@ func recipeArgs(m *cnn.Model) []string {
 		// The recipe's 0 means the rest's rate, which train writes as 1.
 		opt(true, "wide-lr", fmtFloat(cmp.Or(r.WideLR, 1)))
 	}
-	if c.Wide { // --wide=false turns the bigram weights off too
+	if c.Wide { // --wide=false turns the bigram weights and the fitted start off too
 		boolOpt(c.WideBigrams != dc.WideBigrams, "wide-bigrams", c.WideBigrams)
+		if r := m.Info.Recipe; r != nil {
+			boolOpt(r.WideFit != def.Train.WideFit, "wide-fit", r.WideFit)
+		}
 	}
 	return args
 }

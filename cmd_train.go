@@ -178,6 +178,8 @@ func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.T
 			bar.line("epoch %d/%d  loss %.4f%s  %.0f examples/s", p.Epoch, p.Epochs, p.Loss, dev, p.ExamplesPerSec)
 		case cnn.PhaseBaseline:
 			bar.line("fitting the linear baseline (TF-IDF n-grams + logistic regression, its C chosen on the dev split)…")
+		case cnn.PhaseWideFit:
+			bar.line("fitting the start of the word weights (logistic regression on them alone, its C chosen on the dev split)…")
 		}
 	})
 	bar.done()

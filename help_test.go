@@ -122,6 +122,12 @@ func TestTrainDefaultsAreTheRecipe(t *testing.T) {
 	if _, r = parse("--wide-bigrams=false"); !r.Model.Wide || r.Model.WideBigrams || r.Train.WideLR != cnn.DefaultWideLR {
 		t.Errorf("--wide-bigrams=false: wide %v, bigrams %v, learning-rate factor %g, want the words' weights alone at %d", r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR, cnn.DefaultWideLR)
 	}
+	if _, r = parse("--wide-fit"); !r.Model.Wide || !r.Train.WideFit {
+		t.Errorf("--wide-fit: wide %v, fitted start %v, want both", r.Model.Wide, r.Train.WideFit)
+	}
+	if _, r = parse("--wide=false"); r.Train.WideFit {
+		t.Errorf("--wide=false leaves the fitted start of the word weights on")
+	}
 	if _, r = parse("--wide"); !r.Model.Wide || !r.Model.WideBigrams || r.Train.WideLR != cnn.DefaultWideLR {
 		t.Errorf("--wide alone: wide %v, bigrams %v, learning-rate factor %g, want the default's: true, true and %d", r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR, cnn.DefaultWideLR)
 	}

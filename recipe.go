@@ -24,7 +24,7 @@ type recipeOptions struct {
 	Dropout, LR, MaxNorm, WordDropout, TokenDropout      float64
 	WideLR                                               float64
 	Freeze, Subword, Lower, Baseline, Chars, Wide        bool
-	WideBigrams                                          bool
+	WideBigrams, WideFit                                 bool
 
 	widths []int
 	// dimFromVectors: no --dim was given with --vectors, so the embedding
@@ -77,6 +77,8 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 		"a word-weight path beside the filters: the mean over the text's words of a weight per word and label, added to the logits and trained with them")
 	fs.BoolVar(&r.WideBigrams, "wide-bigrams", def.Model.WideBigrams,
 		"with --wide: the training split's pairs of adjacent words get weights too, the mean running over the text's words and its pairs seen in training")
+	fs.BoolVar(&r.WideFit, "wide-fit", def.Train.WideFit,
+		"with --wide: start the word (and bigram) weights at the logistic regression fitted on them alone, its C chosen on dev, and the filters' output weights at zero")
 	floatVar(fs, &r.WideLR, "wide-lr", cnn.DefaultWideLR,
 		"with --wide: factor on the learning rate of the word-weight table; 0 means 1, the rest's rate")
 	fs.BoolVar(&r.Baseline, "baseline", def.Baseline != nil,
@@ -91,6 +93,9 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 	}
 	if !r.Wide && !isSet(fs, "wide-bigrams") {
 		r.WideBigrams = false // --wide=false turns the whole word-weight path off
+	}
+	if !r.Wide && !isSet(fs, "wide-fit") {
+		r.WideFit = false
 	}
 	if r.Vectors != "" && (!isSet(fs, "dim") || r.Dim == 0) {
 		r.dimFromVectors = true
@@ -162,6 +167,8 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 		return usagef("--wide-lr sets the learning rate of the word-weight table, which --wide=false leaves out: drop one of the two")
 	case r.WideBigrams && !r.Wide:
 		return usagef("--wide-bigrams gives bigrams weights in the word-weight path, which --wide=false leaves out: drop one of the two")
+	case r.WideFit && !r.Wide:
+		return usagef("--wide-fit starts the word-weight path at a fitted linear model, and --wide=false leaves the path out: drop one of the two")
 	}
 	return nil
 }
@@ -222,6 +229,7 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 	tc.Epochs, tc.Batch, tc.Optimizer, tc.LR, tc.Seed = r.Epochs, r.Batch, r.Optimizer, r.LR, seed
 	tc.Threads, tc.Patience, tc.MaxLen, tc.FreezeEmb = threads, r.Patience, r.MaxLen, r.Freeze
 	tc.WordDropout, tc.TokenDropout, tc.ClassWeight = r.WordDropout, r.TokenDropout, r.ClassWeight
+	tc.WideFit = r.WideFit // false with --wide=false
 	if r.Wide {
 		tc.WideLR = r.WideLR
 	}

@@ -57,6 +57,10 @@ type Trained struct {
 // the linear baseline.
 const PhaseBaseline = "baseline"
 
+// PhaseWideFit is the Progress phase Train reports once before it fits the
+// start of the word and bigram weights (TrainConfig.WideFit).
+const PhaseWideFit = "wide-fit"
+
 // TrainText builds the vocabulary of train, encodes both splits, initialises
 // a model with r.Train.Seed and trains it with early stopping on dev (which
 // may be nil or empty: then every epoch counts as the best so far). With

@@ -331,6 +331,9 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	train, dev = train.Truncate(tc.MaxLen), dev.Truncate(tc.MaxLen)
 	var cancelled bool
 	if tc.WideFit {
+		if progress != nil {
+			progress(Progress{Phase: PhaseWideFit})
+		}
 		if err := m.fitWideStart(ctx, train, dev, tc); err != nil {
 			if ctx.Err() == nil {
 				return nil, err

@@ -82,7 +82,7 @@ func (m *Model) fitWideStart(ctx context.Context, train, dev Data, tc TrainConfi
 	}
 	C, p := m.Config.Classes, m.wideFeatures()
 	fit := linear.RowsFit{Features: p, Classes: C, Cs: linear.DefaultConfig().Cs,
-		Solver: linear.SolverConfig{Threads: tc.Threads},
+		Solver: linear.SolverConfig{Threads: tc.Threads, GradTol: 1e-6},
 		Score:  func(gold, pred []int) float64 { return ComputeMetrics(m.Labels, gold, pred, nil, 0).MacroF1 }}
 	if tc.ClassWeight == "balanced" {
 		fit.ClassWeight = linear.BalancedWeights(train.Labels, C)

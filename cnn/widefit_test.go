@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"math"
+	"slices"
 	"testing"
 
 	"telltale/corpus"
@@ -94,4 +95,50 @@ func TestWideFitAgainstScikitLearn(t *testing.T) {
 		}
 	}
 	t.Logf("%d test sentences, largest probability difference from scikit-learn %s: %.2g", len(got), ref.Sklearn, worst)
+}
+
+// Train with WideFit reports PhaseWideFit once, before its first epoch;
+// the fitted start alone already labels a task a word decides (toyData:
+// the cue word marks class 1) as the logistic regression does, nearly
+// without error; and a cancel before or during the fit ends the run before
+// its first epoch, without an error and with the model as it came.
+func TestWideFitPhaseAndCancel(t *testing.T) {
+	cfg := Config{VocabSize: 30, Dim: 6, Widths: []int{2}, Filters: 3, Classes: 2, Wide: true}
+	m, err := New(cfg, nil, []string{"no cue", "cue"}, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	train, dev := toyData(5, 200, 30), toyData(6, 200, 30)
+	start := m.Clone()
+	if err := start.fitWideStart(context.Background(), train, dev, TrainConfig{Threads: 1}); err != nil {
+		t.Fatal(err)
+	}
+	if mt, _, _ := Evaluate(start, dev, 1); mt.Accuracy < 0.95 {
+		t.Errorf("the fitted start alone labels %.3f of the dev texts right, want at least 0.95", mt.Accuracy)
+	}
+	var phases []string
+	tc := TrainConfig{Epochs: 2, Batch: 10, Seed: 1, Threads: 1, WideFit: true}
+	res, err := Train(context.Background(), m.Clone(), train, dev, tc, func(p Progress) {
+		if p.Phase != "train" {
+			phases = append(phases, p.Phase)
+		}
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if want := []string{PhaseWideFit, "epoch", "epoch", "done"}; !slices.Equal(phases, want) || len(res.Epochs) != 2 {
+		t.Errorf("progress phases %q over %d epochs, want %q", phases, len(res.Epochs), want)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	got := m.Clone()
+	if res, err = Train(ctx, got, train, dev, tc, nil); err != nil {
+		t.Fatalf("cancelled before the fit: %v, want no error", err)
+	}
+	if !res.Cancelled || len(res.Epochs) != 0 || res.BestEpoch != 0 {
+		t.Errorf("cancelled before the fit: cancelled %v, %d epochs, best %d; want cancelled and none", res.Cancelled, len(res.Epochs), res.BestEpoch)
+	}
+	if !slices.Equal(got.Wide, m.Wide) || !slices.Equal(got.OutW, m.OutW) || !slices.Equal(got.OutB, m.OutB) {
+		t.Errorf("a run cancelled before its fitted start changed the model's weights")
+	}
 }

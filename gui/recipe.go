@@ -30,6 +30,9 @@ type recipeForm struct {
 	// wideBigrams: bigram weights in the word-weight path
 	// (cnn.Config.WideBigrams, train --wide-bigrams); only with wide.
 	wideBigrams binding.Bool
+	// wideFit: the word weights start at the logistic regression fitted on
+	// them (cnn.TrainConfig.WideFit, train --wide-fit); only with wide.
+	wideFit binding.Bool
 }
 
 // The class weights the form offers, as `telltale train --class-weight`
@@ -55,6 +58,7 @@ func newRecipeForm() *recipeForm {
 	r.chars = binding.NewBool()
 	r.wide = binding.NewBool()
 	r.wideBigrams = binding.NewBool()
+	r.wideFit = binding.NewBool()
 	r.reset()
 	return r
 }
@@ -95,6 +99,7 @@ func (r *recipeForm) reset() {
 	_ = r.chars.Set(d.Model.Chars != nil)
 	_ = r.wide.Set(d.Model.Wide)
 	_ = r.wideBigrams.Set(d.Model.WideBigrams)
+	_ = r.wideFit.Set(d.Train.WideFit)
 }
 
 // fieldErrors collects the form's problems, each naming its field and the fix.
@@ -193,12 +198,14 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 			Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
 		rec.Model.Dim += rec.Model.Chars.Filters // Model.Dim is the whole word vector's width
 	}
-	rec.Model.WideBigrams = false
+	rec.Model.WideBigrams, rec.Train.WideFit = false, false
 	if rec.Model.Wide, _ = r.wide.Get(); rec.Model.Wide {
 		rec.Train.WideLR = cnn.DefaultWideLR
-		// Word pairs count only with word weights, as train's --wide=false
-		// turns both off; the view disables the check meanwhile.
+		// Word pairs and the fitted start count only with word weights, as
+		// train's --wide=false turns them off; the view disables the
+		// checks meanwhile.
 		rec.Model.WideBigrams, _ = r.wideBigrams.Get()
+		rec.Train.WideFit, _ = r.wideFit.Get()
 	}
 	plan := r.readPlan(&fe)
 	rec.Train.Seed = plan.Seed

@@ -101,6 +101,32 @@ func TestRecipeFormWideBigrams(t *testing.T) {
 	}
 }
 
+// The form's "Word weights' start" check asks for the fitted start as
+// `telltale train --wide-fit` does; it starts as the default recipe has
+// it, counts only with "Word weights" (as train's --wide=false turns it
+// off), and Defaults puts it back.
+func TestRecipeFormWideFit(t *testing.T) {
+	r := newRecipeForm()
+	def := cnn.DefaultRecipe()
+	if on, _ := r.wideFit.Get(); on != def.Train.WideFit {
+		t.Fatalf("the form starts with the fitted start %v; cnn.DefaultRecipe has %v", on, def.Train.WideFit)
+	}
+	_ = r.wideFit.Set(true)
+	_ = r.wide.Set(false)
+	if rec, _, err := r.parse(false); err != nil || rec.Model.Wide || rec.Train.WideFit {
+		t.Errorf("fitted start checked without word weights: wide %v, fitted start %v (%v), want neither", rec.Model.Wide, rec.Train.WideFit, err)
+	}
+	_ = r.wide.Set(true)
+	rec, _, err := r.parse(false)
+	if err != nil || !rec.Model.Wide || !rec.Train.WideFit {
+		t.Errorf("with both checks: wide %v, fitted start %v (%v), want both", rec.Model.Wide, rec.Train.WideFit, err)
+	}
+	r.reset()
+	if on, _ := r.wideFit.Get(); on != def.Train.WideFit {
+		t.Errorf("Defaults leave the fitted start at %v, want %v", on, def.Train.WideFit)
+	}
+}
+
 // The form's learning rate follows the command line's rule: the field
 // starts empty, which is the default recipe's rate with its optimizer
 // (Adam) and Adadelta's own default (0 in the recipe: 1.0) with Adadelta,

@@ -58,11 +58,14 @@ func (v *trainingView) recipeForm() *widget.Form {
 	chars := widget.NewCheckWithData("and characters", r.chars)
 	wide := widget.NewCheckWithData("beside the filters", r.wide)
 	pairs := widget.NewCheckWithData("with word weights", r.wideBigrams)
+	fitted := widget.NewCheckWithData("fitted linear model", r.wideFit)
 	r.wide.AddListener(binding.NewDataListener(func() {
 		if on, _ := r.wide.Get(); on {
 			pairs.Enable()
+			fitted.Enable()
 		} else {
 			pairs.Disable()
+			fitted.Disable()
 		}
 	}))
 	items := []*widget.FormItem{
@@ -75,13 +78,14 @@ func (v *trainingView) recipeForm() *widget.Form {
 		{Widget: chars, HintText: "slower; unseen words"},
 		{Widget: wide, HintText: "a weight per word and label"},
 		{Widget: pairs, HintText: "a weight per word pair and label"},
+		{Widget: fitted, HintText: "C chosen on dev; filters join from zero"},
 		entry(r.seed, "splits, initialisation, shuffling"),
 		entry(r.devFrac, "share of the data"), entry(r.testFrac, "share of the data"),
 	}
 	names := []string{"Filter widths", "Feature maps per width", "Embedding dimension", "Epochs (at most)",
 		"Patience (epochs)", "Dropout", "Max-norm of output rows", "Optimizer", "Learning rate", "Batch size",
 		"Least word count", "Token dropout", "Word dropout", "Class weight", "Linear baseline", "Word vectors", "Word weights",
-		"Word pairs", "Seed", "Dev share", "Test share"}
+		"Word pairs", "Word weights' start", "Seed", "Dev share", "Test share"}
 	for i, it := range items {
 		it.Text = names[i]
 	}
@@ -173,9 +177,13 @@ func (v *trainingView) redraw(run *trainRun) {
 	d := run.snapshot()
 	v.drawCurves(d.LossX, d.LossY, d.DevX, d.DevAcc, d.DevF1)
 	v.epochs.setRows(epochRows(d.Epochs))
-	if d.Last.Phase == cnn.PhaseBaseline && v.st.isRunning(taskTrain) {
+	switch running := v.st.isRunning(taskTrain); {
+	case d.Last.Phase == cnn.PhaseBaseline && running:
 		v.line.SetText("Fitting the linear baseline (TF-IDF n-grams + logistic regression, its C chosen on the dev split)…")
-	} else if pr := d.Last; pr.Epochs > 0 && v.st.isRunning(taskTrain) {
+	case d.Last.Phase == cnn.PhaseWideFit && running:
+		v.line.SetText("Fitting the start of the word weights (logistic regression on them alone, its C chosen on the dev split)…")
+	case d.Last.Epochs > 0 && running:
+		pr := d.Last
 		v.line.SetText(fmt.Sprintf("Epoch %d of %d, batch %d of %d — loss %.4f — %.0f examples/s",
 			pr.Epoch, pr.Epochs, pr.Batch, pr.Batches, pr.Loss, pr.ExamplesPerSec))
 	}
