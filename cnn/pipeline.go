@@ -80,6 +80,9 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 	if r.Model.Chars != nil && r.Members > 1 {
 		return nil, fmt.Errorf("cnn: models with a character layer cannot be merged into an ensemble: train one member")
 	}
+	if err := checkWideFit(r.Model, r.Train); err != nil {
+		return nil, err
+	}
 	if r.Model.Wide && r.Members > 1 {
 		return nil, fmt.Errorf("cnn: models with a wide word-weight path cannot be merged into an ensemble yet: train one member")
 	}

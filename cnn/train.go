@@ -316,6 +316,9 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	if err := m.checkShapes(); err != nil {
 		return nil, err
 	}
+	if err := checkWideFit(m.Config, tc); err != nil {
+		return nil, err
+	}
 	if tc.WideDecay > 0 && !m.Config.Wide && !m.Config.WideBigrams {
 		return nil, fmt.Errorf("cnn: wide weight decay %g on a model without word or bigram weights: set wide decay 0 or turn the word weights on", tc.WideDecay)
 	}
@@ -329,17 +332,9 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		return nil, err
 	}
 	train, dev = train.Truncate(tc.MaxLen), dev.Truncate(tc.MaxLen)
-	var cancelled bool
-	if tc.WideFit {
-		if progress != nil {
-			progress(Progress{Phase: PhaseWideFit})
-		}
-		if err := m.fitWideStart(ctx, train, dev, tc); err != nil {
-			if ctx.Err() == nil {
-				return nil, err
-			}
-			cancelled = true // no epoch runs; m keeps the weights it came with
-		}
+	cancelled, err := startWide(ctx, m, train, dev, tc, progress) // cancelled: no epoch runs
+	if err != nil {
+		return nil, err
 	}
 	tr := newTrainer(m, tc)
 	defer tr.close()

@@ -27,8 +27,9 @@ func (m *Model) wideFeatures() int { return m.Config.VocabSize + len(m.Bigrams) 
 // its count over N+M and bigram row r's (column VocabSize+r) its count over
 // N+M, N the text's non-PAD ids and M its pairs found in the bigram set, so
 // that a row's dot product with the model's wide weights is the wide term
-// addWide adds. A text without a word gives an empty row. M must have the
-// wide path; ids must be below VocabSize.
+// addWide adds; a text without a non-PAD id gets UNK's column at 1, as
+// addWide adds UNK's row for it. M must have the wide path; ids must be
+// below VocabSize.
 func (m *Model) wideRows(d Data) []linear.Row {
 	rows := make([]linear.Row, d.Len())
 	pairRows := make([]int32, 0, 64)
@@ -42,6 +43,7 @@ func (m *Model) wideRows(d Data) []linear.Row {
 		}
 		n, pairs := m.wideCounts(ids, pr)
 		if n == 0 {
+			rows[i] = linear.Row{Index: []int32{corpus.UNK}, Value: []float64{1}}
 			continue
 		}
 		counts := make(map[int32]float64, n+pairs)
@@ -72,13 +74,40 @@ func sparseRow(counts map[int32]float64, scale float64) linear.Row {
 	return r
 }
 
+// checkWideFit refuses a fitted start (tc.WideFit) for a model without the
+// word weights.
+func checkWideFit(cfg Config, tc TrainConfig) error {
+	if tc.WideFit && !cfg.Wide {
+		return fmt.Errorf("cnn: a fitted start of the word weights needs the word weights: turn Config.Wide on or TrainConfig.WideFit off")
+	}
+	return nil
+}
+
+// startWide reports PhaseWideFit and fits m's start when tc.WideFit is set
+// (fitWideStart); cancelled says that ctx ended the fit, m unchanged.
+func startWide(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progress func(Progress)) (cancelled bool, err error) {
+	if !tc.WideFit {
+		return false, nil
+	}
+	if progress != nil {
+		progress(Progress{Phase: PhaseWideFit})
+	}
+	if err := m.fitWideStart(ctx, train, dev, tc); err != nil {
+		if ctx.Err() == nil {
+			return false, err
+		}
+		return true, nil
+	}
+	return false, nil
+}
+
 // fitWideStart sets m's word and bigram weights and OutB to the logistic
 // regression fitted on train's wide features (C of the baseline's grid,
 // the best dev macro-F1; the middle one without a dev split) and OutW to
 // zero. M must have the wide path; train and dev must have passed check.
 func (m *Model) fitWideStart(ctx context.Context, train, dev Data, tc TrainConfig) error {
-	if !m.Config.Wide {
-		return fmt.Errorf("cnn: a fitted start of the wide path needs the word weights: turn Wide on (train --wide) or the fitted start off")
+	if err := checkWideFit(m.Config, tc); err != nil {
+		return err
 	}
 	C, p := m.Config.Classes, m.wideFeatures()
 	fit := linear.RowsFit{Features: p, Classes: C, Cs: linear.DefaultConfig().Cs,

@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"math"
+	"math/rand/v2"
 	"slices"
 	"testing"
 
@@ -70,6 +71,9 @@ func TestWideFitAgainstScikitLearn(t *testing.T) {
 			t.Fatalf("output weight %d is %g after the fitted start, want 0", i, w)
 		}
 	}
+	// A text without a word and one of padding alone: the unknown word's
+	// weights, as the wide term has them.
+	testData.IDs = append(testData.IDs, []int32{}, []int32{corpus.PAD, corpus.PAD})
 	in, err := json.Marshal(wideFitCase{Train: trainData.IDs, Test: testData.IDs, Y: trainData.Labels, C: 10, Vocab: cfg.VocabSize})
 	if err != nil {
 		t.Fatal(err)
@@ -140,5 +144,64 @@ func TestWideFitPhaseAndCancel(t *testing.T) {
 	}
 	if !slices.Equal(got.Wide, m.Wide) || !slices.Equal(got.OutW, m.OutW) || !slices.Equal(got.OutB, m.OutB) {
 		t.Errorf("a run cancelled before its fitted start changed the model's weights")
+	}
+	// Cancelled while the start is fitted: the report comes just before.
+	ctx, cancel = context.WithCancel(context.Background())
+	defer cancel()
+	got = m.Clone()
+	res, err = Train(ctx, got, train, dev, tc, func(p Progress) {
+		if p.Phase == PhaseWideFit {
+			cancel()
+		}
+	})
+	if err != nil || !res.Cancelled || len(res.Epochs) != 0 {
+		t.Errorf("cancelled during the fit: error %v, cancelled %v, %d epochs; want no error, cancelled, none", err, res != nil && res.Cancelled, len(res.Epochs))
+	}
+	if !slices.Equal(got.Wide, m.Wide) || !slices.Equal(got.OutW, m.OutW) {
+		t.Errorf("a run cancelled during its fitted start changed the model's weights")
+	}
+}
+
+// The rows the start is fitted on are the wide term (an identity of the
+// model, Model.AddWide): for every text, with words, pairs in and out of
+// the bigram set, padding inside and around, none at all or padding alone,
+// a row's dot product with the word and bigram weights is what AddWide
+// adds, for three classes.
+func TestWideRowsAreTheWideTerm(t *testing.T) {
+	cfg := Config{VocabSize: 12, Dim: 4, Widths: []int{2}, Filters: 2, Classes: 3, Wide: true}
+	m, err := New(cfg, nil, []string{"a", "b", "c"}, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	texts := [][]int32{{2, 3, 4, 2, 3}, {5, corpus.PAD, 6, 7}, {corpus.UNK, 8, 9}, {}, {corpus.PAD, corpus.PAD}, {corpus.UNK}, {11}}
+	if err := m.SetBigrams(CollectBigrams(texts[:3])); err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(3, 4))
+	for i := range m.Wide {
+		m.Wide[i] = float32(rng.NormFloat64())
+	}
+	for i := range m.WideBigram {
+		m.WideBigram[i] = float32(rng.NormFloat64())
+	}
+	V, C := cfg.VocabSize, cfg.Classes
+	for i, r := range m.wideRows(Data{IDs: texts, Labels: make([]int, len(texts))}) {
+		want := make([]float32, C)
+		m.AddWide(texts[i], want)
+		for c := range C {
+			var got float64
+			for k, j := range r.Index {
+				var w float32
+				if int(j) < V {
+					w = m.Wide[int(j)*C+c]
+				} else {
+					w = m.WideBigram[(int(j)-V)*C+c]
+				}
+				got += r.Value[k] * float64(w)
+			}
+			if !testref.Close(got, float64(want[c]), 1e-6, 1e-6) {
+				t.Errorf("text %v, class %d: the row gives %.6f, the wide term is %.6f", texts[i], c, got, want[c])
+			}
+		}
 	}
 }

@@ -34,7 +34,8 @@ type runData struct {
 const minRedrawGap = 500 * time.Millisecond
 
 // add records pr and reports whether a redraw should be posted: none is
-// waiting and the last one is old enough (the end of an epoch always is).
+// waiting and, for a report within an epoch, the last one is old enough
+// (every other report, an epoch's end or a fit beside it, always is).
 func (r *trainRun) add(pr cnn.Progress) bool {
 	r.mu.Lock()
 	defer r.mu.Unlock()
@@ -53,7 +54,7 @@ func (r *trainRun) add(pr cnn.Progress) bool {
 			d.DevF1 = append(d.DevF1, pr.Dev.MacroF1)
 		}
 	}
-	if r.posted || (pr.Phase != "epoch" && time.Since(r.drawn) < minRedrawGap) {
+	if r.posted || (pr.Phase == "train" && time.Since(r.drawn) < minRedrawGap) {
 		return false
 	}
 	r.posted = true
@@ -114,10 +115,17 @@ func (st *State) trainWork(ctx context.Context, report reporter, run *trainRun, 
 		}
 	}
 	ms, res, err := trainModel(ctx, cs, rec, func(pr cnn.Progress) {
-		total := pr.Epochs * max(pr.Batches, 1)
-		done := (pr.Epoch-1)*max(pr.Batches, 1) + pr.Batch
-		report(done, total, fmt.Sprintf("Training: epoch %d of %d, batch %d of %d, loss %.4f, %.0f examples/s",
-			pr.Epoch, pr.Epochs, pr.Batch, pr.Batches, pr.Loss, pr.ExamplesPerSec))
+		switch pr.Phase {
+		case cnn.PhaseWideFit:
+			report(0, 1, "Fitting the start of the word weights…")
+		case cnn.PhaseBaseline:
+			report(0, 1, "Fitting the linear baseline…")
+		default:
+			total := pr.Epochs * max(pr.Batches, 1)
+			done := (pr.Epoch-1)*max(pr.Batches, 1) + pr.Batch
+			report(done, total, fmt.Sprintf("Training: epoch %d of %d, batch %d of %d, loss %.4f, %.0f examples/s",
+				pr.Epoch, pr.Epochs, pr.Batch, pr.Batches, pr.Loss, pr.ExamplesPerSec))
+		}
 		if run.add(pr) {
 			st.ui(func() { st.trainingView.redraw(run) })
 		}

@@ -96,8 +96,12 @@ type RowsFit struct {
 // predictions get the highest Score (ties: the smaller C) with the
 // grid's dev scores. ctx cancels the fit (the error is then ctx's).
 func (f RowsFit) Fit(ctx context.Context, X []Row, y []int, devX []Row, devY []int) (*Classifier, []DevScore, error) {
+	if len(f.Cs) == 0 {
+		return nil, nil, fmt.Errorf("linear: no C to fit: give a grid of at least one")
+	}
+	cs := slices.Clone(f.Cs)
+	slices.Sort(cs)
 	d := newDesign(X, f.Features)
-	cs := f.Cs
 	if len(devX) == 0 {
 		cs = cs[len(cs)/2 : len(cs)/2+1]
 	}

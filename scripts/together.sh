@@ -55,7 +55,24 @@ stop_all() {
 		kill -KILL -- "-$pid" 2>/dev/null
 	done
 }
-trap 'stop_all $(live); rm -rf "$tmp"' EXIT
+
+# report I STATUS prints job I's output under a line with its name.
+report() {
+	echo "== ${names[$1]} ($2)"
+	cat "$tmp/$1.log"
+}
+
+# On any exit, jobs still running are stopped and their output so far is
+# printed (after an interrupt or a timeout too, for the diagnosis).
+on_exit() {
+	local i
+	stop_all $(live)
+	for i in "${!pids[@]}"; do
+		[ -z "${ended[$i]}" ] && report "$i" "stopped: interrupted"
+	done
+	rm -rf "$tmp"
+}
+trap on_exit EXIT
 trap 'exit 130' INT
 trap 'exit 143' TERM
 
@@ -64,7 +81,7 @@ while [ $# -gt 0 ]; do
 	names+=("$1")
 	n=${#pids[@]}
 	(
-		bash -c "$2"
+		bash -c "$2" </dev/null # a background job must not read the terminal
 		echo $? >"$tmp/$n.rc-new" && mv "$tmp/$n.rc-new" "$tmp/$n.rc"
 	) >"$tmp/$n.log" 2>&1 &
 	pids+=($!)
@@ -72,12 +89,6 @@ while [ $# -gt 0 ]; do
 	shift 2
 done
 set +m
-
-# report I STATUS prints job I's output under a line with its name.
-report() {
-	echo "== ${names[$1]} ($2)"
-	cat "$tmp/$1.log"
-}
 
 # running PID reports whether process PID runs (neither gone nor a zombie),
 # from its state in /proc/PID/stat (the field after the command's name).
