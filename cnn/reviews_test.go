@@ -26,12 +26,7 @@ func TestReviewsBaseline(t *testing.T) {
 	if testing.Short() {
 		t.Skip("SKIPPED in -short mode: fits ten baselines and scikit-learn's for each")
 	}
-	testref.Corpus(t, "reviews", "amazon_cells_labelled.txt")
-	testref.RequirePython(t, "sklearn")
-	d, err := reviewset.LoadUnder(testref.Root())
-	if err != nil {
-		t.Fatal(err)
-	}
+	d := loadReviews(t)
 	r := DefaultRecipe()
 	// The ten baselines are fitted first, then scikit-learn fits the ten
 	// rotations in one process (imported once rather than ten times).
@@ -70,4 +65,18 @@ func TestReviewsBaseline(t *testing.T) {
 		t.Errorf("%d test sentences over the rotations, want each of the 1,000 once", total)
 	}
 	t.Logf("the same label on %d of %d test sentences", agree, total)
+}
+
+// loadReviews is the reviews set (internal/reviewset) for a check against
+// scikit-learn; the test fails in CI (skips elsewhere) when the corpus or
+// scikit-learn is missing.
+func loadReviews(t *testing.T) *corpus.Dataset {
+	t.Helper()
+	testref.Corpus(t, "reviews", "amazon_cells_labelled.txt")
+	testref.RequirePython(t, "sklearn")
+	d, err := reviewset.LoadUnder(testref.Root())
+	if err != nil {
+		t.Fatal(err)
+	}
+	return d
 }

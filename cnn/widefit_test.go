@@ -33,12 +33,7 @@ type wideFitCase struct {
 // baseline's bar; the weights are float32). Also: the start puts every
 // filter's output weight at zero.
 func TestWideFitAgainstScikitLearn(t *testing.T) {
-	testref.Corpus(t, "reviews", "amazon_cells_labelled.txt")
-	testref.RequirePython(t, "sklearn")
-	d, err := reviewset.LoadUnder(testref.Root())
-	if err != nil {
-		t.Fatal(err)
-	}
+	d := loadReviews(t)
 	r := DefaultRecipe()
 	train, _, test := reviewset.Splits(d, 0)
 	enc, err := corpus.TrainEncoder(r.Tokenizer, train.Texts())
