@@ -91,12 +91,6 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 	if r.Optimizer != cnn.DefaultRecipe().Train.Optimizer && !isSet(fs, "lr") {
 		r.LR = 0 // the default recipe's rate is Adam's: another optimizer gets its own default
 	}
-	if !r.Wide && !isSet(fs, "wide-bigrams") {
-		r.WideBigrams = false // --wide=false turns the whole word-weight path off
-	}
-	if !r.Wide && !isSet(fs, "wide-fit") {
-		r.WideFit = false
-	}
 	if r.Vectors != "" && (!isSet(fs, "dim") || r.Dim == 0) {
 		r.dimFromVectors = true
 		if d := vectorsDim(r.Vectors); d > 0 {
@@ -161,6 +155,20 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 		return usagef("--char-maps %d: give at most 4096", r.CharMaps)
 	case !r.Chars && (isSet(fs, "char-maps") || isSet(fs, "char-width")):
 		return usagef("--char-maps and --char-width shape the character layer: add --chars")
+	}
+	return r.checkWide(fs)
+}
+
+// checkWide refuses word-weight options that --wide=false contradicts,
+// and turns the path's parts off with it when they were not given.
+func (r *recipeOptions) checkWide(fs *flag.FlagSet) error {
+	if !r.Wide && !isSet(fs, "wide-bigrams") {
+		r.WideBigrams = false // --wide=false turns the whole word-weight path off
+	}
+	if !r.Wide && !isSet(fs, "wide-fit") {
+		r.WideFit = false
+	}
+	switch {
 	case r.WideLR < 0:
 		return usagef("--wide-lr %g: give a positive factor, or 0 for the rest's learning rate", r.WideLR)
 	case !r.Wide && isSet(fs, "wide-lr"):
