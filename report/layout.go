@@ -198,6 +198,9 @@ func recipe(in Input) recipeView {
 		if c.Wide {
 			rv.Train = append(rv.Train, kv{"Learning rate of the word weights", fmt.Sprintf("%g × the rest's", cmp.Or(r.WideLR, 1))})
 		}
+		if c.Wide && r.WideFit {
+			rv.Train = append(rv.Train, kv{"Start of the word weights", "the logistic regression fitted on them alone, its C chosen on the dev split; the filters joined from zero"})
+		}
 	}
 	if info.BestEpoch > 0 {
 		rv.Train = append(rv.Train, kv{"Weights kept from epoch", fmt.Sprint(info.BestEpoch)})

@@ -253,3 +253,23 @@ func TestRecipeWideBigrams(t *testing.T) {
 		t.Error("the page's lead does not name the word-pair weights")
 	}
 }
+
+// TestRecipeWideFit: the recipe of a model whose word weights started at
+// their fitted logistic regression (cnn.TrainConfig.WideFit) says so among
+// the training settings; one trained without it, or without word weights,
+// has no such row.
+func TestRecipeWideFit(t *testing.T) {
+	hasRow := func(wide, fit bool) bool {
+		m := &cnn.Model{Config: cnn.Config{Widths: []int{3}, Wide: wide}, Info: cnn.Info{Recipe: &cnn.TrainConfig{WideFit: fit}}}
+		for _, r := range recipe(Input{Model: m}).Train {
+			if r.Key == "Start of the word weights" && strings.Contains(r.Value, "logistic regression") {
+				return true
+			}
+		}
+		return false
+	}
+	if !hasRow(true, true) || hasRow(true, false) || hasRow(false, true) {
+		t.Errorf("the fitted start's row: with it %v, without it %v, without word weights %v; want true, false, false",
+			hasRow(true, true), hasRow(true, false), hasRow(false, true))
+	}
+}
