@@ -78,7 +78,7 @@ func (v *trainingView) recipeForm() *widget.Form {
 		{Widget: chars, HintText: "slower; unseen words"},
 		{Widget: wide, HintText: "a weight per word and label"},
 		{Widget: pairs, HintText: "a weight per word pair and label"},
-		{Widget: fitted, HintText: "C chosen on dev; filters join from zero"},
+		{Widget: fitted, HintText: "logistic regression, C on dev"},
 		entry(r.seed, "splits, initialisation, shuffling"),
 		entry(r.devFrac, "share of the data"), entry(r.testFrac, "share of the data"),
 	}
