@@ -77,7 +77,7 @@ func (v *trainingView) recipeForm() *widget.Form {
 		{Widget: weight, HintText: "balanced: imbalanced labels"}, {Widget: baseline, HintText: "TF-IDF + logistic regression"},
 		{Widget: chars, HintText: "slower; unseen words"},
 		{Widget: wide, HintText: "a weight per word and label"},
-		{Widget: pairs, HintText: "a weight per word pair and label"},
+		{Widget: pairs, HintText: "a weight per pair and label"},
 		{Widget: fitted, HintText: "logistic regression, C on dev"},
 		entry(r.seed, "splits, initialisation, shuffling"),
 		entry(r.devFrac, "share of the data"), entry(r.testFrac, "share of the data"),
@@ -148,7 +148,7 @@ func (v *trainingView) buttons() {
 func (v *trainingView) dataChanged() {
 	if cs := itemGet(v.st.data); cs != nil && cs.TestFile != nil {
 		v.testShare.Disable()
-		v.form.Items[len(v.form.Items)-1].HintText = "unused: the test file is the test split"
+		v.form.Items[len(v.form.Items)-1].HintText = "unused: a test file is given"
 	} else {
 		v.testShare.Enable()
 		v.form.Items[len(v.form.Items)-1].HintText = "share of the data"
