@@ -118,6 +118,12 @@ type TrainConfig struct {
 	// output weights at zero (widefit.go), so training starts from that
 	// linear model. It needs the word weights.
 	WideFit bool `json:"wide_fit,omitempty"`
+	// WideFitC fixes the fitted start's inverse regularisation strength
+	// (WideFit); 0 chooses it on dev from the baseline's grid. It must be
+	// finite and not negative. A C chosen on dev follows whatever predicts
+	// dev, artifacts of the collection included (README, "The default
+	// recipe").
+	WideFitC float64 `json:"wide_fit_c,omitempty"`
 }
 
 // WithDefaults returns tc with every zero field set to its default, or an
@@ -186,6 +192,8 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: learning-rate decay %g: must be in [0, 1] (0: none)", tc.LRDecay)
 	case !(tc.WideLR >= 0) || math.IsInf(tc.WideLR, 0) || tc.WeightDecay*tc.LR*tc.WideLR >= 1:
 		return tc, fmt.Errorf("cnn: wide learning-rate factor %g: must be 0 (1×) or positive, with decay × learning rate × factor below 1", tc.WideLR)
+	case !(tc.WideFitC >= 0) || math.IsInf(tc.WideFitC, 0):
+		return tc, fmt.Errorf("cnn: C %g of the fitted start: must be 0 (chosen on dev) or a finite positive number", tc.WideFitC)
 	case tc.WideSparse && tc.Optimizer != "adam":
 		return tc, fmt.Errorf("cnn: sparse word weights need the adam optimizer, not %s: choose adam or turn the sparse update off", tc.Optimizer)
 	case tc.WideSparse && tc.WeightDecay > 0:

@@ -116,7 +116,11 @@ func (m *Model) fitWideStart(ctx context.Context, train, dev Data, tc TrainConfi
 		return err
 	}
 	C, p := m.Config.Classes, m.wideFeatures()
-	fit := linear.RowsFit{Features: p, Classes: C, Cs: linear.DefaultConfig().Cs,
+	cs := linear.DefaultConfig().Cs
+	if tc.WideFitC > 0 {
+		cs = []float64{tc.WideFitC}
+	}
+	fit := linear.RowsFit{Features: p, Classes: C, Cs: cs,
 		Solver: linear.SolverConfig{Threads: tc.Threads, GradTol: wideFitGradTol},
 		Score:  func(gold, pred []int) float64 { return ComputeMetrics(m.Labels, gold, pred, nil, 0).MacroF1 }}
 	if tc.ClassWeight == "balanced" {

@@ -200,3 +200,53 @@ func TestWideRowsAreTheWideTerm(t *testing.T) {
 		}
 	}
 }
+
+// A fixed C of the fitted start (TrainConfig.WideFitC) is used as given,
+// whatever the dev split says: with a dev split and WideFitC 10 the start
+// is the one fitted without a dev split, which takes the grid's middle C,
+// 10, bit for bit; WideFitC 1 gives another start. Negative, infinite and
+// NaN values are refused (common practice, no source: C > 0).
+func TestWideFitFixedC(t *testing.T) {
+	d := loadReviews(t)
+	r := DefaultRecipe()
+	train, dev, _ := reviewset.Splits(d, 0)
+	enc, err := corpus.TrainEncoder(r.Tokenizer, train.Texts())
+	if err != nil {
+		t.Fatal(err)
+	}
+	encode := func(ds *corpus.Dataset) Data {
+		data, err := EncodeDataset(enc, ds, train.Labels, 1)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return data
+	}
+	trainData, devData := encode(train), encode(dev)
+	start := func(dev Data, c float64) *Model {
+		cfg := r.Model
+		cfg.VocabSize, cfg.Classes, cfg.WideBigrams = enc.Vocab.Len(), len(train.Labels), false
+		m, err := New(cfg, nil, train.Labels, 1)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := m.SetBigrams(CollectBigrams(trainData.IDs)); err != nil {
+			t.Fatal(err)
+		}
+		if err := m.fitWideStart(context.Background(), trainData, dev, TrainConfig{Threads: 1, WideFit: true, WideFitC: c}); err != nil {
+			t.Fatal(err)
+		}
+		return m
+	}
+	middle, fixed, other := start(Data{}, 0), start(devData, 10), start(devData, 1)
+	if !slices.Equal(middle.Wide, fixed.Wide) || !slices.Equal(middle.WideBigram, fixed.WideBigram) || !slices.Equal(middle.OutB, fixed.OutB) {
+		t.Error("WideFitC 10 with a dev split did not give the start fitted at the grid's middle C, 10")
+	}
+	if slices.Equal(fixed.Wide, other.Wide) {
+		t.Error("WideFitC 1 gave the same word weights as WideFitC 10")
+	}
+	for _, c := range []float64{-1, math.Inf(1), math.NaN()} {
+		if _, err := (TrainConfig{WideFit: true, WideFitC: c}).WithDefaults(); err == nil {
+			t.Errorf("WideFitC %g was accepted", c)
+		}
+	}
+}

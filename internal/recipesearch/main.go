@@ -155,6 +155,13 @@ func measure(which, name string, r cnn.Recipe, sp splits, stack bool) (string, e
 		}
 		row += fmt.Sprintf(" %.4f (C=%g) |", best, m.Baseline.Classifier.C)
 	}
+	if which == "demo" {
+		cells, err := spreadCells(m, sp.dev, r.Train.Threads)
+		if err != nil {
+			return "", err
+		}
+		row += cells
+	}
 	if stack && m.Baseline != nil {
 		cells, err := stackCells(m, enc, sp, r.Train.MaxLen, r.Train.Threads)
 		if err != nil {

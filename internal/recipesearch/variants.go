@@ -87,6 +87,10 @@ var variants = map[string]func(r *cnn.Recipe){
 	"wfit":   func(r *cnn.Recipe) { r.Train.WideFit = true },
 	"wfit10": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR = true, 10 },
 	"wfit1":  func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR = true, 1 },
+	// the fitted start with its C fixed instead of chosen on dev
+	"wfitC1":   func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitC = true, 1 },
+	"wfitC10":  func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitC = true, 10 },
+	"wfitC100": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitC = true, 100 },
 	// the factor on the word and bigram weights' rate alone, the bigram
 	// weights kept (to pair with lazywide, whose rare rows move less)
 	"wlr300":  func(r *cnn.Recipe) { r.Train.WideLR = 300 },
