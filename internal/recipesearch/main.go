@@ -41,7 +41,7 @@ import (
 func main() {
 	log.SetFlags(0)
 	log.SetPrefix("recipesearch: ")
-	which := flag.String("corpus", "demo", "demo, spam, sotu or reviews (ten cross-validation rotations, one row each)")
+	which := flag.String("corpus", "demo", "demo, spam, sotu, reviews (ten cross-validation rotations, one row each) or reviews-skew (the same with two in five negative reviews kept)")
 	recipes := flag.String("recipes", "default", "comma-separated candidates, each a '+'-joined list of: "+names())
 	seeds := flag.String("seeds", "1", "comma-separated training seeds")
 	base := flag.String("base", "", "changes applied first to every candidate, '+'-joined")

@@ -21,6 +21,8 @@ var variants = map[string]func(r *cnn.Recipe){
 	"tok10": func(r *cnn.Recipe) { r.Train.TokenDropout = 0.1 },
 	"tok25": func(r *cnn.Recipe) { r.Train.TokenDropout = 0.25 },
 	"tok40": func(r *cnn.Recipe) { r.Train.TokenDropout = 0.4 },
+	// each class weighed by n/(k·n_c) in the loss (train --class-weight balanced)
+	"cwbal": func(r *cnn.Recipe) { r.Train.ClassWeight = "balanced" },
 	// architecture
 	"w123":   func(r *cnn.Recipe) { r.Model.Widths = []int{1, 2, 3} },
 	"w12":    func(r *cnn.Recipe) { r.Model.Widths = []int{1, 2} },
