@@ -59,6 +59,7 @@ func (v *trainingView) recipeForm() *widget.Form {
 	wide := widget.NewCheckWithData("beside the filters", r.wide)
 	pairs := widget.NewCheckWithData("with word weights", r.wideBigrams)
 	fitted := widget.NewCheckWithData("fitted linear model", r.wideFit)
+	fitC := widget.NewEntryWithData(r.wideFitC)
 	r.wide.AddListener(binding.NewDataListener(func() {
 		if on, _ := r.wide.Get(); on {
 			pairs.Enable()
@@ -68,6 +69,18 @@ func (v *trainingView) recipeForm() *widget.Form {
 			fitted.Disable()
 		}
 	}))
+	// The C counts only with the fitted start, which counts only with the
+	// word weights (parse).
+	fitCListener := binding.NewDataListener(func() {
+		wide, _ := r.wide.Get()
+		if fit, _ := r.wideFit.Get(); wide && fit {
+			fitC.Enable()
+		} else {
+			fitC.Disable()
+		}
+	})
+	r.wide.AddListener(fitCListener)
+	r.wideFit.AddListener(fitCListener)
 	items := []*widget.FormItem{
 		entry(r.widths, ""), entry(r.maps, ""), entry(r.dim, ""), entry(r.epochs, ""),
 		entry(r.patience, "0 never stops early"), entry(r.dropout, ""), entry(r.maxNorm, "0 is off"),
@@ -78,14 +91,15 @@ func (v *trainingView) recipeForm() *widget.Form {
 		{Widget: chars, HintText: "slower; unseen words"},
 		{Widget: wide, HintText: "a weight per word and label"},
 		{Widget: pairs, HintText: "a weight per pair and label"},
-		{Widget: fitted, HintText: "logistic regression, C on dev"},
+		{Widget: fitted, HintText: "logistic regression"},
+		{Widget: fitC, HintText: "0 chooses it on dev"},
 		entry(r.seed, "splits, initialisation, shuffling"),
 		entry(r.devFrac, "share of the data"), entry(r.testFrac, "share of the data"),
 	}
 	names := []string{"Filter widths", "Feature maps per width", "Embedding dimension", "Epochs (at most)",
 		"Patience (epochs)", "Dropout", "Max-norm of output rows", "Optimizer", "Learning rate", "Batch size",
 		"Least word count", "Token dropout", "Word dropout", "Class weight", "Linear baseline", "Word vectors", "Word weights",
-		"Word pairs", "Word weights' start", "Seed", "Dev share", "Test share"}
+		"Word pairs", "Word weights' start", "Fitted start's C", "Seed", "Dev share", "Test share"}
 	for i, it := range items {
 		it.Text = names[i]
 	}
