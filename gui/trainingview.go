@@ -60,27 +60,28 @@ func (v *trainingView) recipeForm() *widget.Form {
 	pairs := widget.NewCheckWithData("with word weights", r.wideBigrams)
 	fitted := widget.NewCheckWithData("fitted linear model", r.wideFit)
 	fitC := widget.NewEntryWithData(r.wideFitC)
-	r.wide.AddListener(binding.NewDataListener(func() {
-		if on, _ := r.wide.Get(); on {
-			pairs.Enable()
-			fitted.Enable()
+	// Word pairs and the fitted start count only with the word weights, the
+	// C only with the fitted start too (parse); the form greys the labels
+	// of what is disabled when it refreshes.
+	enable := func(w fyne.Disableable, on bool) {
+		if on {
+			w.Enable()
 		} else {
-			pairs.Disable()
-			fitted.Disable()
+			w.Disable()
 		}
-	}))
-	// The C counts only with the fitted start, which counts only with the
-	// word weights (parse).
-	fitCListener := binding.NewDataListener(func() {
+	}
+	follow := binding.NewDataListener(func() {
 		wide, _ := r.wide.Get()
-		if fit, _ := r.wideFit.Get(); wide && fit {
-			fitC.Enable()
-		} else {
-			fitC.Disable()
+		fit, _ := r.wideFit.Get()
+		enable(pairs, wide)
+		enable(fitted, wide)
+		enable(fitC, wide && fit)
+		if v.form != nil {
+			v.form.Refresh()
 		}
 	})
-	r.wide.AddListener(fitCListener)
-	r.wideFit.AddListener(fitCListener)
+	r.wide.AddListener(follow)
+	r.wideFit.AddListener(follow)
 	items := []*widget.FormItem{
 		entry(r.widths, ""), entry(r.maps, ""), entry(r.dim, ""), entry(r.epochs, ""),
 		entry(r.patience, "0 never stops early"), entry(r.dropout, ""), entry(r.maxNorm, "0 is off"),
