@@ -221,6 +221,28 @@ func TestPatienceZeroNeverStopsEarly(t *testing.T) {
 	}
 }
 
+// TestWideFitCReachesTheModel: train --wide-fit --wide-fit-c 3 fits the
+// start at C 3, says so while it fits, and the model file records it.
+func TestWideFitCReachesTheModel(t *testing.T) {
+	data := demoPart(t, t.TempDir(), 300)
+	model := filepath.Join(t.TempDir(), "m.tt")
+	code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "4", "--maps", "2",
+		"--wide-fit", "--wide-fit-c", "3")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	if !strings.Contains(stderr, "fitting the start of the word weights (logistic regression on them alone, at C 3 (--wide-fit-c))") {
+		t.Errorf("train does not say it fits the start at C 3:\n%s", stderr)
+	}
+	m, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r := m.Info.Recipe; r == nil || !r.WideFit || r.WideFitC != 3 {
+		t.Errorf("the model records the recipe %+v, want the fitted start at C 3", r)
+	}
+}
+
 // TestInterruptedExits130: a run whose context is cancelled, as a SIGINT
 // cancels it, ends with exit 130 and "interrupted" for every command that
 // does work (the window needs a display and is left out).

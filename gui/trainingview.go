@@ -109,6 +109,15 @@ func (v *trainingView) recipeForm() *widget.Form {
 	return widget.NewForm(items...)
 }
 
+// fitCWords says how the fitted start's C is set: fixed (c > 0) or
+// chosen on the dev split.
+func fitCWords(c float64) string {
+	if c > 0 {
+		return "at C " + formatFloat(c)
+	}
+	return "its C chosen on the dev split"
+}
+
 // selectFor is a choice among options bound to b: it shows b's value and
 // sets b (Defaults included, which sets b).
 func selectFor(b binding.String, options ...string) *widget.Select {
@@ -196,7 +205,7 @@ func (v *trainingView) redraw(run *trainRun) {
 	case d.Last.Phase == cnn.PhaseBaseline && running:
 		v.line.SetText("Fitting the linear baseline (TF-IDF n-grams + logistic regression, its C chosen on the dev split)…")
 	case d.Last.Phase == cnn.PhaseWideFit && running:
-		v.line.SetText("Fitting the start of the word weights (logistic regression on them alone, its C chosen on the dev split)…")
+		v.line.SetText("Fitting the start of the word weights (logistic regression on them alone, " + fitCWords(run.fitC) + ")…")
 	case d.Last.Epochs > 0 && running:
 		pr := d.Last
 		v.line.SetText(fmt.Sprintf("Epoch %d of %d, batch %d of %d — loss %.4f — %.0f examples/s",
