@@ -199,7 +199,7 @@ func recipe(in Input) recipeView {
 			rv.Train = append(rv.Train, kv{"Learning rate of the word weights", fmt.Sprintf("%g × the rest's", cmp.Or(r.WideLR, 1))})
 		}
 		if c.Wide && r.WideFit {
-			rv.Train = append(rv.Train, kv{"Start of the word weights", "the logistic regression fitted on them alone, " + fitC(r.WideFitC) + "; the filters joined from zero"})
+			rv.Train = append(rv.Train, kv{"Start of the word weights", "the logistic regression fitted on them alone (" + fitC(r.WideFitC) + "); the filters joined from zero"})
 		}
 	}
 	if info.BestEpoch > 0 {

@@ -277,7 +277,7 @@ func TestRecipeWideFit(t *testing.T) {
 	for _, c := range []struct {
 		c    float64
 		want string
-	}{{10, "C 10, fixed"}, {0.25, "C 0.25, fixed"}, {0, "C chosen on the dev split"}} {
+	}{{10, "(C 10, fixed)"}, {0.25, "(C 0.25, fixed)"}, {0, "(C chosen on the dev split)"}} {
 		m := &cnn.Model{Config: cnn.Config{Widths: []int{3}, Wide: true}, Info: cnn.Info{Recipe: &cnn.TrainConfig{WideFit: true, WideFitC: c.c}}}
 		found := false
 		for _, r := range recipe(Input{Model: m}).Train {
