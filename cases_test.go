@@ -117,6 +117,11 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"wide-lr without --wide", train("--wide=false", "--wide-lr", "2"), 2, []string{"--wide-lr sets the learning rate of the word-weight table, which --wide=false leaves out: drop one of the two"}},
 		{"wide-bigrams without --wide", train("--wide=false", "--wide-bigrams"), 2, []string{"--wide-bigrams gives bigrams weights in the word-weight path, which --wide=false leaves out: drop one of the two"}},
 		{"wide-fit without --wide", train("--wide=false", "--wide-fit"), 2, []string{"--wide-fit starts the word-weight path at a fitted linear model, and --wide=false leaves the path out: drop one of the two"}},
+		{"wide-fit-c negative", train("--wide-fit", "--wide-fit-c", "-1"), 2, []string{"--wide-fit-c -1: give a positive C, or 0 to choose it on dev"}},
+		{"wide-fit-c NaN", train("--wide-fit", "--wide-fit-c", "NaN"), 2, []string{"--wide-fit-c NaN: not a finite number"}},
+		{"wide-fit-c Inf", train("--wide-fit", "--wide-fit-c", "+Inf"), 2, []string{"--wide-fit-c +Inf: not a finite number"}},
+		{"wide-fit-c without --wide-fit", train("--wide-fit=false", "--wide-fit-c", "10"), 2, []string{"--wide-fit-c sets the C of the fitted start: add --wide-fit"}},
+		{"wide-fit-c without --wide", train("--wide=false", "--wide-fit-c", "10"), 2, []string{"--wide-fit-c sets the C of the word-weight path's fitted start, which --wide=false leaves out: drop one of the two"}},
 		{"class-weight unknown", train("--class-weight", "heavy"), 2, []string{`--class-weight "heavy": use none or balanced`}},
 		{"class-weight empty", train("--class-weight", ""), 2, []string{`--class-weight "": use none or balanced`}},
 		{"baseline not a switch value", train("--baseline=sometimes"), 2, []string{"--baseline sometimes: give true or false"}},
@@ -213,6 +218,28 @@ func TestPatienceZeroNeverStopsEarly(t *testing.T) {
 	_, help, _ := tt(t, "help", "train")
 	if !strings.Contains(help, "0 never stops early") {
 		t.Errorf("help train does not say what --patience 0 means:\n%s", help)
+	}
+}
+
+// TestWideFitCReachesTheModel: train --wide-fit --wide-fit-c 3 fits the
+// start at C 3, says so while it fits, and the model file records it.
+func TestWideFitCReachesTheModel(t *testing.T) {
+	data := demoPart(t, t.TempDir(), 300)
+	model := filepath.Join(t.TempDir(), "m.tt")
+	code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "4", "--maps", "2",
+		"--wide-fit", "--wide-fit-c", "3")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	if !strings.Contains(stderr, "fitting the start of the word weights (logistic regression on them alone, at C 3 (--wide-fit-c))") {
+		t.Errorf("train does not say it fits the start at C 3:\n%s", stderr)
+	}
+	m, err := cnn.Load(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r := m.Info.Recipe; r == nil || !r.WideFit || r.WideFitC != 3 {
+		t.Errorf("the model records the recipe %+v, want the fitted start at C 3", r)
 	}
 }
 

@@ -3,6 +3,7 @@ package main
 import (
 	"crypto/sha256"
 	"encoding/json"
+	"flag"
 	"fmt"
 	"os"
 	"os/exec"
@@ -493,7 +494,12 @@ func TestRetrainArgs(t *testing.T) {
 		{func(m *cnn.Model) { m.Info.Recipe.WideLR = 0 }, "--wide-lr 1"},
 		{func(m *cnn.Model) { m.Config.WideBigrams = false }, "--wide-bigrams=false"},
 		{func(m *cnn.Model) { m.Info.Recipe.WideFit = true }, "--wide-fit=true"},
+		{func(m *cnn.Model) { m.Info.Recipe.WideFit, m.Info.Recipe.WideFitC = true, 0.25 }, "--wide-fit=true --wide-fit-c 0.25"},
+		{func(m *cnn.Model) { m.Info.Recipe.WideFit, m.Info.Recipe.WideFitC = true, 0 }, "--wide-fit=true"},
 		{func(m *cnn.Model) { m.Config.Wide, m.Config.WideBigrams, m.Info.Recipe.WideFit = false, false, true }, "--wide=false"},
+		{func(m *cnn.Model) {
+			m.Config.Wide, m.Config.WideBigrams, m.Info.Recipe.WideFit, m.Info.Recipe.WideFitC = false, false, true, 3
+		}, "--wide=false"},
 		{func(m *cnn.Model) {
 			m.Config.Chars = &cnn.CharConfig{Filters: cnn.DefaultCharFilters, Width: cnn.DefaultCharWidth}
 			m.Config.Dim += cnn.DefaultCharFilters
@@ -520,6 +526,41 @@ func TestRetrainArgs(t *testing.T) {
 		c.edit(m)
 		if got := strings.Join(recipeArgs(m), " "); got != c.want {
 			t.Errorf("recipeArgs gives %q, want %q", got, c.want)
+		}
+	}
+}
+
+// TestRetrainArgsWideFit: the retrain line's recipe options, read back by
+// train, give the model's fitted start and its C (none without the
+// start), whatever the default recipe has.
+func TestRetrainArgsWideFit(t *testing.T) {
+	def := cnn.DefaultRecipe()
+	dt, _ := def.Train.WithDefaults()
+	for _, fit := range []bool{false, true} {
+		for _, c := range []float64{0, 0.25, 10, def.Train.WideFitC} {
+			m := &cnn.Model{Config: def.Model, Tokenizer: def.Tokenizer}
+			m.Config.Wide = true
+			r := dt
+			r.WideFit, r.WideFitC = fit, c
+			m.Info.Recipe = &r
+			args := recipeArgs(m)
+			o := new(recipeOptions)
+			fs := flag.NewFlagSet("train", flag.ContinueOnError)
+			o.register(fs)
+			if err := fs.Parse(args); err != nil {
+				t.Fatalf("%q: %v", args, err)
+			}
+			if err := o.check(fs); err != nil {
+				t.Fatalf("%q: %v", args, err)
+			}
+			got := o.recipe(r.Seed, 1).Train
+			wantC := c
+			if !fit {
+				wantC = 0 // train records no C without a fitted start
+			}
+			if got.WideFit != fit || got.WideFitC != wantC {
+				t.Errorf("fitted start %v at C %g: train %q gives %v at C %g, want %v at %g", fit, c, args, got.WideFit, got.WideFitC, fit, wantC)
+			}
 		}
 	}
 }

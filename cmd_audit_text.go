@@ -422,6 +422,9 @@ func recipeArgs(m *cnn.Model) []string {
 		boolOpt(c.WideBigrams != dc.WideBigrams, "wide-bigrams", c.WideBigrams)
 		if r := m.Info.Recipe; r != nil {
 			boolOpt(r.WideFit != def.Train.WideFit, "wide-fit", r.WideFit)
+			// Without a fitted start train records no C (--wide-fit-c is
+			// refused without --wide-fit).
+			opt(r.WideFit && r.WideFitC != def.Train.WideFitC, "wide-fit-c", fmtFloat(r.WideFitC))
 		}
 	}
 	return args

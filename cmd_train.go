@@ -179,11 +179,20 @@ func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.T
 		case cnn.PhaseBaseline:
 			bar.line("fitting the linear baseline (TF-IDF n-grams + logistic regression, its C chosen on the dev split)…")
 		case cnn.PhaseWideFit:
-			bar.line("fitting the start of the word weights (logistic regression on them alone, its C chosen on the dev split)…")
+			bar.line("fitting the start of the word weights (logistic regression on them alone, %s)…", o.fitCWords())
 		}
 	})
 	bar.done()
 	return trained, err
+}
+
+// fitCWords says how the fitted start's C is set: --wide-fit-c's, or
+// chosen on the dev split.
+func (o *trainOptions) fitCWords() string {
+	if c := o.recipe.WideFitC; c > 0 {
+		return "at C " + fmtFloat(c) + " (--wide-fit-c)"
+	}
+	return "its C chosen on the dev split"
 }
 
 // lowerRates names the learning rates a diverged run can lower: --lr, and

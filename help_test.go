@@ -125,8 +125,17 @@ func TestTrainDefaultsAreTheRecipe(t *testing.T) {
 	if _, r = parse("--wide-fit"); !r.Model.Wide || !r.Train.WideFit {
 		t.Errorf("--wide-fit: wide %v, fitted start %v, want both", r.Model.Wide, r.Train.WideFit)
 	}
-	if _, r = parse("--wide=false"); r.Train.WideFit {
-		t.Errorf("--wide=false leaves the fitted start of the word weights on")
+	if _, r = parse("--wide=false"); r.Train.WideFit || r.Train.WideFitC != 0 {
+		t.Errorf("--wide=false leaves the fitted start of the word weights on (%v) or its C set (%g)", r.Train.WideFit, r.Train.WideFitC)
+	}
+	if _, r = parse("--wide-fit", "--wide-fit-c", "3"); !r.Train.WideFit || r.Train.WideFitC != 3 {
+		t.Errorf("--wide-fit --wide-fit-c 3: fitted start %v at C %g, want on at 3", r.Train.WideFit, r.Train.WideFitC)
+	}
+	if _, r = parse("--wide-fit", "--wide-fit-c", "0"); !r.Train.WideFit || r.Train.WideFitC != 0 {
+		t.Errorf("--wide-fit --wide-fit-c 0: fitted start %v at C %g, want on, C chosen on dev (0)", r.Train.WideFit, r.Train.WideFitC)
+	}
+	if _, r = parse("--wide-fit=false"); r.Train.WideFit || r.Train.WideFitC != 0 {
+		t.Errorf("--wide-fit=false: fitted start %v at C %g, want off with no C", r.Train.WideFit, r.Train.WideFitC)
 	}
 	if _, r = parse("--wide"); !r.Model.Wide || !r.Model.WideBigrams || r.Train.WideLR != cnn.DefaultWideLR {
 		t.Errorf("--wide alone: wide %v, bigrams %v, learning-rate factor %g, want the default's: true, true and %d", r.Model.Wide, r.Model.WideBigrams, r.Train.WideLR, cnn.DefaultWideLR)

@@ -22,7 +22,7 @@ type recipeOptions struct {
 	CharMaps, CharWidth                                  int
 	Widths, Optimizer, Vectors, Tokenizer, ClassWeight   string
 	Dropout, LR, MaxNorm, WordDropout, TokenDropout      float64
-	WideLR                                               float64
+	WideLR, WideFitC                                     float64
 	Freeze, Subword, Lower, Baseline, Chars, Wide        bool
 	WideBigrams, WideFit                                 bool
 
@@ -78,7 +78,9 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 	fs.BoolVar(&r.WideBigrams, "wide-bigrams", def.Model.WideBigrams,
 		"with --wide: the training split's pairs of adjacent words get weights too, the mean running over the text's words and its pairs seen in training")
 	fs.BoolVar(&r.WideFit, "wide-fit", def.Train.WideFit,
-		"with --wide: start the word (and bigram) weights at the logistic regression fitted on them alone, its C chosen on dev, and the filters' output weights at zero")
+		"with --wide: start the word (and bigram) weights at the logistic regression fitted on them alone, its C chosen on dev (or --wide-fit-c's), and the filters' output weights at zero")
+	floatVar(fs, &r.WideFitC, "wide-fit-c", def.Train.WideFitC,
+		"with --wide-fit: the fitted start's C (inverse regularisation strength); 0 chooses it on dev")
 	floatVar(fs, &r.WideLR, "wide-lr", cnn.DefaultWideLR,
 		"with --wide: factor on the learning rate of the word-weight table; 0 means 1, the rest's rate")
 	fs.BoolVar(&r.Baseline, "baseline", def.Baseline != nil,
@@ -168,6 +170,9 @@ func (r *recipeOptions) checkWide(fs *flag.FlagSet) error {
 	if !r.Wide && !isSet(fs, "wide-fit") {
 		r.WideFit = false
 	}
+	if !r.WideFit && !isSet(fs, "wide-fit-c") {
+		r.WideFitC = 0 // no fitted start, so no C of one
+	}
 	switch {
 	case r.WideLR < 0:
 		return usagef("--wide-lr %g: give a positive factor, or 0 for the rest's learning rate", r.WideLR)
@@ -177,6 +182,12 @@ func (r *recipeOptions) checkWide(fs *flag.FlagSet) error {
 		return usagef("--wide-bigrams gives bigrams weights in the word-weight path, which --wide=false leaves out: drop one of the two")
 	case r.WideFit && !r.Wide:
 		return usagef("--wide-fit starts the word-weight path at a fitted linear model, and --wide=false leaves the path out: drop one of the two")
+	case r.WideFitC < 0:
+		return usagef("--wide-fit-c %g: give a positive C, or 0 to choose it on dev", r.WideFitC)
+	case !r.Wide && isSet(fs, "wide-fit-c"):
+		return usagef("--wide-fit-c sets the C of the word-weight path's fitted start, which --wide=false leaves out: drop one of the two")
+	case !r.WideFit && isSet(fs, "wide-fit-c"):
+		return usagef("--wide-fit-c sets the C of the fitted start: add --wide-fit")
 	}
 	return nil
 }
@@ -237,7 +248,7 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 	tc.Epochs, tc.Batch, tc.Optimizer, tc.LR, tc.Seed = r.Epochs, r.Batch, r.Optimizer, r.LR, seed
 	tc.Threads, tc.Patience, tc.MaxLen, tc.FreezeEmb = threads, r.Patience, r.MaxLen, r.Freeze
 	tc.WordDropout, tc.TokenDropout, tc.ClassWeight = r.WordDropout, r.TokenDropout, r.ClassWeight
-	tc.WideFit = r.WideFit // false with --wide=false
+	tc.WideFit, tc.WideFitC = r.WideFit, r.WideFitC // false and 0 with --wide=false
 	if r.Wide {
 		tc.WideLR = r.WideLR
 	}

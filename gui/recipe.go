@@ -33,6 +33,9 @@ type recipeForm struct {
 	// wideFit: the word weights start at the logistic regression fitted on
 	// them (cnn.TrainConfig.WideFit, train --wide-fit); only with wide.
 	wideFit binding.Bool
+	// wideFitC: the fitted start's C (cnn.TrainConfig.WideFitC, train
+	// --wide-fit-c); 0 chooses it on dev. Only with wide and wideFit.
+	wideFitC binding.String
 }
 
 // The class weights the form offers, as `telltale train --class-weight`
@@ -67,7 +70,7 @@ func newRecipeForm() *recipeForm {
 func (r *recipeForm) fields() []*binding.String {
 	return []*binding.String{&r.widths, &r.maps, &r.dim, &r.epochs, &r.patience, &r.dropout, &r.maxNorm,
 		&r.optimizer, &r.lr, &r.batch, &r.minCount, &r.seed, &r.devFrac, &r.testFrac,
-		&r.tokenDropout, &r.wordDropout, &r.classWeight}
+		&r.tokenDropout, &r.wordDropout, &r.classWeight, &r.wideFitC}
 }
 
 // reset puts cnn.DefaultRecipe and the default split shares in the form.
@@ -88,7 +91,7 @@ func (r *recipeForm) reset() {
 		r.minCount: strconv.Itoa(d.Tokenizer.MinCount), r.seed: strconv.FormatUint(d.Train.Seed, 10),
 		r.devFrac: formatFloat(cnn.DefaultDevFrac), r.testFrac: formatFloat(cnn.DefaultTestFrac),
 		r.tokenDropout: formatFloat(d.Train.TokenDropout), r.wordDropout: formatFloat(d.Train.WordDropout),
-		r.classWeight: classWeightNone,
+		r.classWeight: classWeightNone, r.wideFitC: formatFloat(d.Train.WideFitC),
 	} {
 		_ = b.Set(v)
 	}
@@ -198,7 +201,7 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 			Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
 		rec.Model.Dim += rec.Model.Chars.Filters // Model.Dim is the whole word vector's width
 	}
-	rec.Model.WideBigrams, rec.Train.WideFit = false, false
+	rec.Model.WideBigrams, rec.Train.WideFit, rec.Train.WideFitC = false, false, 0
 	if rec.Model.Wide, _ = r.wide.Get(); rec.Model.Wide {
 		rec.Train.WideLR = cnn.DefaultWideLR
 		// Word pairs and the fitted start count only with word weights, as
@@ -206,6 +209,12 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 		// checks meanwhile.
 		rec.Model.WideBigrams, _ = r.wideBigrams.Get()
 		rec.Train.WideFit, _ = r.wideFit.Get()
+		if rec.Train.WideFit { // the C counts only with the fitted start, as train's --wide-fit-c
+			rec.Train.WideFitC = fe.real(r.wideFitC, "fitted start's C", "0 chooses it on dev, or a positive number, e.g. 10")
+			if rec.Train.WideFitC < 0 {
+				fe = append(fe, fmt.Errorf("fitted start's C %g: give a positive number, or 0 to choose it on dev", rec.Train.WideFitC))
+			}
+		}
 	}
 	plan := r.readPlan(&fe)
 	rec.Train.Seed = plan.Seed

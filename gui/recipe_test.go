@@ -1,8 +1,13 @@
 package gui
 
 import (
+	"fmt"
 	"reflect"
+	"strings"
 	"testing"
+
+	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/widget"
 
 	"telltale/cnn"
 )
@@ -52,7 +57,8 @@ func TestRecipeFormWide(t *testing.T) {
 	if want.Model.Wide {
 		want.Train.WideLR = cnn.DefaultWideLR // as train --wide
 	} else {
-		want.Model.WideBigrams = false // as train --wide=false
+		// As train --wide=false: no bigram weights, no fitted start, no C.
+		want.Model.WideBigrams, want.Train.WideFit, want.Train.WideFitC = false, false, 0
 	}
 	if !reflect.DeepEqual(rec, want) {
 		t.Errorf("with the check flipped: %+v, want %+v", rec.Model, want.Model)
@@ -124,6 +130,85 @@ func TestRecipeFormWideFit(t *testing.T) {
 	r.reset()
 	if on, _ := r.wideFit.Get(); on != def.Train.WideFit {
 		t.Errorf("Defaults leave the fitted start at %v, want %v", on, def.Train.WideFit)
+	}
+}
+
+// The form's "Fitted start's C" asks for the fitted start's C as `telltale
+// train --wide-fit-c` does: it starts at the default recipe's, counts only
+// with the fitted start and the word weights (ignored otherwise, as train
+// records no C without the start), refuses what is not a finite number of
+// 0 or more naming the field, and Defaults puts it back.
+func TestRecipeFormWideFitC(t *testing.T) {
+	r := newRecipeForm()
+	def := cnn.DefaultRecipe()
+	if got := stringGet(r.wideFitC); got != formatFloat(def.Train.WideFitC) {
+		t.Fatalf("the form starts with the fitted start's C %q; cnn.DefaultRecipe has %g", got, def.Train.WideFitC)
+	}
+	_ = r.wide.Set(true)
+	_ = r.wideFit.Set(true)
+	for _, c := range []struct {
+		typed string
+		want  float64
+	}{{"3", 3}, {" 0.25 ", 0.25}, {"0", 0}} {
+		_ = r.wideFitC.Set(c.typed)
+		if rec, _, err := r.parse(false); err != nil || !rec.Train.WideFit || rec.Train.WideFitC != c.want {
+			t.Errorf("C %q: fitted start %v at C %g (%v), want on at %g", c.typed, rec.Train.WideFit, rec.Train.WideFitC, err, c.want)
+		}
+	}
+	for _, c := range []struct{ typed, want string }{
+		{"-1", "fitted start's C -1: give a positive number, or 0 to choose it on dev"},
+		{"NaN", `fitted start's C "NaN" is not a finite number`},
+		{"Inf", `fitted start's C "Inf" is not a finite number`},
+		{"ten", `fitted start's C "ten" is not a finite number`},
+	} {
+		_ = r.wideFitC.Set(c.typed)
+		if _, _, err := r.parse(false); err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("C %q: error %v, want it to say %q", c.typed, err, c.want)
+		}
+		// Without the fitted start, or without word weights, the field
+		// counts for nothing, whatever it holds.
+		for _, off := range []struct{ wide, fit bool }{{true, false}, {false, true}} {
+			_ = r.wide.Set(off.wide)
+			_ = r.wideFit.Set(off.fit)
+			if rec, _, err := r.parse(false); err != nil || rec.Train.WideFit || rec.Train.WideFitC != 0 {
+				t.Errorf("C %q with word weights %v, fitted start %v: fitted start %v at C %g (%v), want off with no C",
+					c.typed, off.wide, off.fit, rec.Train.WideFit, rec.Train.WideFitC, err)
+			}
+		}
+		_ = r.wide.Set(true)
+		_ = r.wideFit.Set(true)
+	}
+	r.reset()
+	if got := stringGet(r.wideFitC); got != formatFloat(def.Train.WideFitC) {
+		t.Errorf("Defaults leave the fitted start's C at %q, want %g", got, def.Train.WideFitC)
+	}
+}
+
+// In the window, the fitted start's C can be typed only while the fitted
+// start and the word weights are both checked.
+func TestRecipeFormWideFitCEnabled(t *testing.T) {
+	a := test.NewTempApp(t)
+	q := &queue{}
+	w, st := newWindow(a, Options{}, q.post)
+	w.Resize(smallScreen)
+	t.Cleanup(st.cancelAll)
+	q.waitFor(t, "the failed start", func() bool { return st.tasks.idle(taskLoad) })
+	q.drain()
+	var entry *widget.Entry
+	for _, it := range st.trainingView.form.Items {
+		if it.Text == "Fitted start's C" {
+			entry, _ = it.Widget.(*widget.Entry)
+		}
+	}
+	if entry == nil {
+		t.Fatal("the form has no entry for the fitted start's C")
+	}
+	r := st.recipe
+	for _, c := range []struct{ wide, fit bool }{{true, true}, {true, false}, {false, true}, {false, false}, {true, true}} {
+		_ = r.wide.Set(c.wide)
+		_ = r.wideFit.Set(c.fit)
+		q.waitFor(t, fmt.Sprintf("the C's entry to follow word weights %v, fitted start %v", c.wide, c.fit),
+			func() bool { return entry.Disabled() == !(c.wide && c.fit) })
 	}
 }
 

@@ -13,6 +13,10 @@ import (
 // trainRun is the live record of a training run, written by the training
 // goroutine and read by the Training view.
 type trainRun struct {
+	// fitC is the recipe's fixed C of the word weights' fitted start
+	// (cnn.TrainConfig.WideFitC; 0: chosen on dev), for the line the
+	// view shows while it is fitted. Set before the run starts.
+	fitC float64
 	mu   sync.Mutex
 	data runData
 	// posted: a redraw waits on the UI goroutine; drawn: when the last one ran.
@@ -89,7 +93,7 @@ func (st *State) trainNow() {
 		st.showError(err)
 		return
 	}
-	run := &trainRun{}
+	run := &trainRun{fitC: rec.Train.WideFitC}
 	st.trainingView.startRun(run)
 	st.setStatus("Training…")
 	st.start(taskTrain, true, func(ctx context.Context, report reporter) (func(), error) {

@@ -59,15 +59,29 @@ func (v *trainingView) recipeForm() *widget.Form {
 	wide := widget.NewCheckWithData("beside the filters", r.wide)
 	pairs := widget.NewCheckWithData("with word weights", r.wideBigrams)
 	fitted := widget.NewCheckWithData("fitted linear model", r.wideFit)
-	r.wide.AddListener(binding.NewDataListener(func() {
-		if on, _ := r.wide.Get(); on {
-			pairs.Enable()
-			fitted.Enable()
+	fitC := widget.NewEntryWithData(r.wideFitC)
+	// Word pairs and the fitted start count only with the word weights, the
+	// C only with the fitted start too (parse); the form greys the labels
+	// of what is disabled when it refreshes.
+	enable := func(w fyne.Disableable, on bool) {
+		if on {
+			w.Enable()
 		} else {
-			pairs.Disable()
-			fitted.Disable()
+			w.Disable()
 		}
-	}))
+	}
+	follow := binding.NewDataListener(func() {
+		wide, _ := r.wide.Get()
+		fit, _ := r.wideFit.Get()
+		enable(pairs, wide)
+		enable(fitted, wide)
+		enable(fitC, wide && fit)
+		if v.form != nil {
+			v.form.Refresh()
+		}
+	})
+	r.wide.AddListener(follow)
+	r.wideFit.AddListener(follow)
 	items := []*widget.FormItem{
 		entry(r.widths, ""), entry(r.maps, ""), entry(r.dim, ""), entry(r.epochs, ""),
 		entry(r.patience, "0 never stops early"), entry(r.dropout, ""), entry(r.maxNorm, "0 is off"),
@@ -78,20 +92,30 @@ func (v *trainingView) recipeForm() *widget.Form {
 		{Widget: chars, HintText: "slower; unseen words"},
 		{Widget: wide, HintText: "a weight per word and label"},
 		{Widget: pairs, HintText: "a weight per pair and label"},
-		{Widget: fitted, HintText: "logistic regression, C on dev"},
+		{Widget: fitted, HintText: "logistic regression"},
+		{Widget: fitC, HintText: "0 chooses it on dev"},
 		entry(r.seed, "splits, initialisation, shuffling"),
 		entry(r.devFrac, "share of the data"), entry(r.testFrac, "share of the data"),
 	}
 	names := []string{"Filter widths", "Feature maps per width", "Embedding dimension", "Epochs (at most)",
 		"Patience (epochs)", "Dropout", "Max-norm of output rows", "Optimizer", "Learning rate", "Batch size",
 		"Least word count", "Token dropout", "Word dropout", "Class weight", "Linear baseline", "Word vectors", "Word weights",
-		"Word pairs", "Word weights' start", "Seed", "Dev share", "Test share"}
+		"Word pairs", "Word weights' start", "Fitted start's C", "Seed", "Dev share", "Test share"}
 	for i, it := range items {
 		it.Text = names[i]
 	}
 	v.firstEntry = items[0].Widget.(*widget.Entry)
 	v.testShare = items[len(items)-1].Widget.(*widget.Entry)
 	return widget.NewForm(items...)
+}
+
+// fitCWords says how the fitted start's C is set: fixed (c > 0) or
+// chosen on the dev split.
+func fitCWords(c float64) string {
+	if c > 0 {
+		return "at C " + formatFloat(c)
+	}
+	return "its C chosen on the dev split"
 }
 
 // selectFor is a choice among options bound to b: it shows b's value and
@@ -181,7 +205,7 @@ func (v *trainingView) redraw(run *trainRun) {
 	case d.Last.Phase == cnn.PhaseBaseline && running:
 		v.line.SetText("Fitting the linear baseline (TF-IDF n-grams + logistic regression, its C chosen on the dev split)…")
 	case d.Last.Phase == cnn.PhaseWideFit && running:
-		v.line.SetText("Fitting the start of the word weights (logistic regression on them alone, its C chosen on the dev split)…")
+		v.line.SetText("Fitting the start of the word weights (logistic regression on them alone, " + fitCWords(run.fitC) + ")…")
 	case d.Last.Epochs > 0 && running:
 		pr := d.Last
 		v.line.SetText(fmt.Sprintf("Epoch %d of %d, batch %d of %d — loss %.4f — %.0f examples/s",

@@ -199,7 +199,7 @@ func recipe(in Input) recipeView {
 			rv.Train = append(rv.Train, kv{"Learning rate of the word weights", fmt.Sprintf("%g × the rest's", cmp.Or(r.WideLR, 1))})
 		}
 		if c.Wide && r.WideFit {
-			rv.Train = append(rv.Train, kv{"Start of the word weights", "the logistic regression fitted on them alone, its C chosen on the dev split; the filters joined from zero"})
+			rv.Train = append(rv.Train, kv{"Start of the word weights", "the logistic regression fitted on them alone (" + fitC(r.WideFitC) + "); the filters joined from zero"})
 		}
 	}
 	if info.BestEpoch > 0 {
@@ -225,6 +225,15 @@ func recipe(in Input) recipeView {
 		rv.Epochs = append(rv.Epochs, row)
 	}
 	return rv
+}
+
+// fitC says how the fitted start's C (cnn.TrainConfig.WideFitC) was set:
+// fixed in the recipe, or chosen on the dev split (0).
+func fitC(c float64) string {
+	if c > 0 {
+		return fmt.Sprintf("C %g, fixed", c)
+	}
+	return "C chosen on the dev split"
 }
 
 func maxNorm(v float32) string {

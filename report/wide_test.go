@@ -256,8 +256,8 @@ func TestRecipeWideBigrams(t *testing.T) {
 
 // TestRecipeWideFit: the recipe of a model whose word weights started at
 // their fitted logistic regression (cnn.TrainConfig.WideFit) says so among
-// the training settings; one trained without it, or without word weights,
-// has no such row.
+// the training settings, with its C fixed or chosen on dev; one trained
+// without it, or without word weights, has no such row.
 func TestRecipeWideFit(t *testing.T) {
 	hasRow := func(wide, fit bool) bool {
 		m := &cnn.Model{Config: cnn.Config{Widths: []int{3}, Wide: wide}, Info: cnn.Info{Recipe: &cnn.TrainConfig{WideFit: fit}}}
@@ -271,5 +271,25 @@ func TestRecipeWideFit(t *testing.T) {
 	if !hasRow(true, true) || hasRow(true, false) || hasRow(false, true) {
 		t.Errorf("the fitted start's row: with it %v, without it %v, without word weights %v; want true, false, false",
 			hasRow(true, true), hasRow(true, false), hasRow(false, true))
+	}
+	// Its C: fixed in the recipe (cnn.TrainConfig.WideFitC), or chosen on
+	// dev (0).
+	for _, c := range []struct {
+		c    float64
+		want string
+	}{{10, "(C 10, fixed)"}, {0.25, "(C 0.25, fixed)"}, {0, "(C chosen on the dev split)"}} {
+		m := &cnn.Model{Config: cnn.Config{Widths: []int{3}, Wide: true}, Info: cnn.Info{Recipe: &cnn.TrainConfig{WideFit: true, WideFitC: c.c}}}
+		found := false
+		for _, r := range recipe(Input{Model: m}).Train {
+			if r.Key == "Start of the word weights" {
+				found = true
+				if !strings.Contains(r.Value, c.want) {
+					t.Errorf("C %g: the row says %q, want it to say %q", c.c, r.Value, c.want)
+				}
+			}
+		}
+		if !found {
+			t.Errorf("C %g: no row for the fitted start", c.c)
+		}
 	}
 }
