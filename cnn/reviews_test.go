@@ -42,7 +42,7 @@ func TestReviewsBaseline(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		fits = append(fits, sklearnFit{enc.Tok, r.Train.MaxLen, b.Classifier.C, train, test})
+		fits = append(fits, sklearnFit{enc.Tok, r.Train.MaxLen, b.Classifier.C, b.Config.ClassWeight, train, test})
 		preds = append(preds, b.Predict(baselineDocs(enc.Tok, test.Texts(), r.Train.MaxLen, 0)))
 	}
 	var agree, total int

@@ -1,6 +1,7 @@
 package cnn
 
 import (
+	"cmp"
 	"encoding/json"
 	"fmt"
 	"os"
@@ -11,6 +12,7 @@ import (
 
 	"telltale/corpus"
 	"telltale/internal/testref"
+	"telltale/linear"
 )
 
 // spamGroupLabels maps the folders of the SpamAssassin corpus to two labels.
@@ -164,8 +166,8 @@ func compareWithBaseline(t *testing.T, name string, train, dev, test *corpus.Dat
 			first = tr
 		}
 	}
-	ref := sklearnBaseline(t, first.Encoder.Tok, first.Model.Info.Recipe.MaxLen, first.Model.Baseline.Classifier.C, train, test)
-	t.Logf("%s test, mean of %d seeds: CNN accuracy %.4f macro-F1 %.4f; built-in baseline %.4f / %.4f; scikit-learn %s on the same tokens and C %.4f / %.4f",
+	ref := sklearnBaseline(t, first.Encoder.Tok, first.Model.Info.Recipe.MaxLen, first.Model.Baseline, train, test)
+	t.Logf("%s test, mean of %d seeds: CNN accuracy %.4f macro-F1 %.4f; built-in baseline %.4f / %.4f; scikit-learn %s on the same tokens, C and class weight %.4f / %.4f",
 		name, seeds, runs.cnnAcc, runs.cnnF1, runs.baseAcc, runs.baseF1, ref.Sklearn, ref.Accuracy, ref.MacroF1)
 	if !testref.Close(ref.Accuracy, runs.baseAcc, 1e-12, 0) {
 		t.Errorf("%s: the built-in baseline's test accuracy %.4f differs from scikit-learn's %.4f on the same features", name, runs.baseAcc, ref.Accuracy)
@@ -206,19 +208,21 @@ type sklearnResult struct {
 }
 
 // sklearnBaseline runs cnn/testdata/tfidf_baseline.py on the words a
-// baseline saw (training split) and sees (test split) with its C: those
-// tok gives, cut to maxLen.
-func sklearnBaseline(t *testing.T, tok *corpus.Tokenizer, maxLen int, c float64, train, test *corpus.Dataset) sklearnResult {
+// baseline saw (training split) and sees (test split) with its C and class
+// weight: those tok gives, cut to maxLen.
+func sklearnBaseline(t *testing.T, tok *corpus.Tokenizer, maxLen int, b *linear.Model, train, test *corpus.Dataset) sklearnResult {
 	t.Helper()
-	return sklearnBaselines(t, []sklearnFit{{tok, maxLen, c, train, test}})[0]
+	return sklearnBaselines(t, []sklearnFit{{tok, maxLen, b.Classifier.C, b.Config.ClassWeight, train, test}})[0]
 }
 
 // sklearnFit is one fit of cnn/testdata/tfidf_baseline.py: the words tok
-// gives train and test, cut to maxLen, and the baseline's C.
+// gives train and test, cut to maxLen, and the baseline's C and class
+// weight ("" or "balanced").
 type sklearnFit struct {
 	tok         *corpus.Tokenizer
 	maxLen      int
 	c           float64
+	classWeight string
 	train, test *corpus.Dataset
 }
 
@@ -235,7 +239,7 @@ func sklearnBaselines(t *testing.T, fits []sklearnFit) []sklearnResult {
 		}
 		writeTokens(t, filepath.Join(dir, "train.jsonl"), baselineDocs(f.tok, f.train.Texts(), f.maxLen, 0), f.train)
 		writeTokens(t, filepath.Join(dir, "test.jsonl"), baselineDocs(f.tok, f.test.Texts(), f.maxLen, 0), f.test)
-		args = append(args, dir, fmt.Sprint(f.c))
+		args = append(args, dir, fmt.Sprint(f.c), cmp.Or(f.classWeight, "none"))
 	}
 	out := testref.RunScript(t, "tfidf_baseline.py", nil, args...)
 	lines := strings.Split(strings.TrimSuffix(string(out), "\n"), "\n")
