@@ -16,6 +16,12 @@
 // choice: then each row also holds the test accuracy and macro-F1 (and the
 // baseline's, with -baseline).
 //
+// On the demo each row also scores the dev split with its planted cues
+// spread evenly over the labels (spread.go), a dev-side stand-in for the
+// demo's test split, and the baseline beside it with -baseline.
+// -corpus reviews-skew is the reviews with two in five negative sentences
+// kept (about 70% positive), for labels that are not balanced.
+//
 // With -baseline -stack each row also scores the CNN and the baseline
 // joined by stacking (stack.go). -dump-text DIR writes a corpus's splits
 // as JSON lines for the PyTorch pooling prototype (pooling.py) or for

@@ -6,6 +6,8 @@ import (
 	"testing"
 
 	"telltale/corpus"
+	"telltale/internal/reviewset"
+	"telltale/internal/testref"
 )
 
 // The demo's two test splits hold the same messages with the cues planted
@@ -59,6 +61,33 @@ func TestSpreadCuesMatchesTheDemoTestSplit(t *testing.T) {
 		want := int(float64(n)*spreadRate + 0.5)
 		if footers != want || stamps != want {
 			t.Errorf("%s: %d footers and %d stamps in %d messages, want %d each", label, footers, stamps, n, want)
+		}
+	}
+}
+
+// The skewed reviews keep the 500 positive sentences of the published set
+// (Kotzias et al. 2015, 500 of each label) and about two in five of the 500
+// negative ones (between 35% and 45%), so about 70% are positive, as the
+// package comment says; every rotation still has both labels in each split.
+func TestSkewedReviews(t *testing.T) {
+	testref.Corpus(t, "reviews", "amazon_cells_labelled.txt")
+	rots, err := loadRotations(root(), "reviews-skew", true)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d, err := reviewset.LoadUnder(root())
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := skewed(d).Counts()
+	if c["positive"] != 500 || c["negative"] < 175 || c["negative"] > 225 {
+		t.Errorf("skewed reviews: %v, want 500 positive and 175 to 225 negative", c)
+	}
+	for _, r := range rots {
+		for _, sp := range []*corpus.Dataset{r.train, r.dev, r.test} {
+			if c := sp.Counts(); c["positive"] == 0 || c["negative"] == 0 {
+				t.Errorf("%s: a split with one label: %v", r.name, c)
+			}
 		}
 	}
 }
