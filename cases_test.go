@@ -120,7 +120,9 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"wide-fit-c negative", train("--wide-fit", "--wide-fit-c", "-1"), 2, []string{"--wide-fit-c -1: give a positive C, or 0 to choose it on dev"}},
 		{"wide-fit-c NaN", train("--wide-fit", "--wide-fit-c", "NaN"), 2, []string{"--wide-fit-c NaN: not a finite number"}},
 		{"wide-fit-c Inf", train("--wide-fit", "--wide-fit-c", "+Inf"), 2, []string{"--wide-fit-c +Inf: not a finite number"}},
-		{"wide-fit-c without --wide-fit", train("--wide-fit=false", "--wide-fit-c", "10"), 2, []string{"--wide-fit-c sets the C of the fitted start: add --wide-fit"}},
+		{"wide-fit-c with --wide-fit=false", train("--wide-fit=false", "--wide-fit-c", "10"), 2, []string{"--wide-fit-c sets the C of the fitted start, which --wide-fit=false leaves out: drop one of the two"}},
+		// Without --wide-fit given: the default recipe has no fitted start.
+		{"wide-fit-c without --wide-fit", train("--wide-fit-c", "10"), 2, []string{"--wide-fit-c sets the C of the fitted start: add --wide-fit"}},
 		{"wide-fit-c without --wide", train("--wide=false", "--wide-fit-c", "10"), 2, []string{"--wide-fit-c sets the C of the word-weight path's fitted start, which --wide=false leaves out: drop one of the two"}},
 		{"class-weight unknown", train("--class-weight", "heavy"), 2, []string{`--class-weight "heavy": use none or balanced`}},
 		{"class-weight empty", train("--class-weight", ""), 2, []string{`--class-weight "": use none or balanced`}},

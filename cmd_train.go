@@ -21,6 +21,7 @@ var cmdTrain = &command{
 		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--vectors FILE] [--freeze]\n" +
 		"               [--min-count N] [--subword] [--class-weight none|balanced] [--word-dropout A] [--token-dropout P]\n" +
 		"               [--chars [--char-maps N] [--char-width W]] [--wide=false | --wide-bigrams=false] [--wide-lr F]\n" +
+		"               [--wide-fit [--wide-fit-c C]]\n" +
 		"               [--baseline=false] [--mask-tokens FILE] [--seed N] [--threads N] [--force] [--json]",
 	Short: "train a sentence CNN on labeled data and save the model",
 	Long: `Train builds a vocabulary from the training split, trains the convolutional

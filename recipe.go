@@ -186,6 +186,8 @@ func (r *recipeOptions) checkWide(fs *flag.FlagSet) error {
 		return usagef("--wide-fit-c %g: give a positive C, or 0 to choose it on dev", r.WideFitC)
 	case !r.Wide && isSet(fs, "wide-fit-c"):
 		return usagef("--wide-fit-c sets the C of the word-weight path's fitted start, which --wide=false leaves out: drop one of the two")
+	case !r.WideFit && isSet(fs, "wide-fit-c") && isSet(fs, "wide-fit"):
+		return usagef("--wide-fit-c sets the C of the fitted start, which --wide-fit=false leaves out: drop one of the two")
 	case !r.WideFit && isSet(fs, "wide-fit-c"):
 		return usagef("--wide-fit-c sets the C of the fitted start: add --wide-fit")
 	}

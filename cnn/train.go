@@ -114,13 +114,13 @@ type TrainConfig struct {
 	WideDecay float64 `json:"wide_decay,omitempty"`
 	// WideFit starts the word and bigram weights (Config.Wide,
 	// WideBigrams) at the logistic regression fitted on the wide path's
-	// features, C chosen on dev like the baseline's, and the filters'
-	// output weights at zero (widefit.go), so training starts from that
-	// linear model. It needs the word weights.
+	// features, C chosen on dev like the baseline's unless WideFitC fixes
+	// it, and the filters' output weights at zero (widefit.go), so training
+	// starts from that linear model. It needs the word weights.
 	WideFit bool `json:"wide_fit,omitempty"`
 	// WideFitC fixes the fitted start's inverse regularisation strength
 	// (WideFit); 0 chooses it on dev from the baseline's grid. It must be
-	// finite and not negative. A C chosen on dev follows whatever predicts
+	// finite and not negative, and 0 without WideFit. A C chosen on dev follows whatever predicts
 	// dev, artifacts of the collection included (README, "The default
 	// recipe").
 	WideFitC float64 `json:"wide_fit_c,omitempty"`
@@ -194,6 +194,8 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: wide learning-rate factor %g: must be 0 (1×) or positive, with decay × learning rate × factor below 1", tc.WideLR)
 	case !(tc.WideFitC >= 0) || math.IsInf(tc.WideFitC, 0):
 		return tc, fmt.Errorf("cnn: C %g of the fitted start: must be 0 (chosen on dev) or a finite positive number", tc.WideFitC)
+	case tc.WideFitC > 0 && !tc.WideFit:
+		return tc, fmt.Errorf("cnn: C %g of the fitted start, but no fitted start: turn WideFit on or set WideFitC to 0", tc.WideFitC)
 	case tc.WideSparse && tc.Optimizer != "adam":
 		return tc, fmt.Errorf("cnn: sparse word weights need the adam optimizer, not %s: choose adam or turn the sparse update off", tc.Optimizer)
 	case tc.WideSparse && tc.WeightDecay > 0:

@@ -12,7 +12,8 @@ import (
 // The fitted start of the wide path (TrainConfig.WideFit): before the
 // first step the word and bigram weights are set to the L2-regularised
 // multinomial logistic regression on the wide path's own features, its C
-// chosen on the dev split as the baseline's is, and the filters' output
+// chosen on the dev split as the baseline's is (or fixed by
+// TrainConfig.WideFitC), and the filters' output
 // weights to zero, so training starts from that linear model and the
 // filters learn what it leaves (the wide and deep parts of Cheng et al.
 // 2016 trained jointly, the wide one started where it fits alone; a
@@ -108,8 +109,9 @@ func startWide(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, p
 }
 
 // fitWideStart sets m's word and bigram weights and OutB to the logistic
-// regression fitted on train's wide features (C of the baseline's grid,
-// the best dev macro-F1; the middle one without a dev split) and OutW to
+// regression fitted on train's wide features (C tc.WideFitC when it is
+// positive; else of the baseline's grid, the best dev macro-F1, the middle
+// one without a dev split) and OutW to
 // zero. M must have the wide path; train and dev must have passed check.
 func (m *Model) fitWideStart(ctx context.Context, train, dev Data, tc TrainConfig) error {
 	if err := checkWideFit(m.Config, tc); err != nil {

@@ -207,7 +207,11 @@ func TestWideRowsAreTheWideTerm(t *testing.T) {
 // 10, bit for bit; WideFitC 1 gives another start. Negative, infinite and
 // NaN values are refused (common practice, no source: C > 0).
 func TestWideFitFixedC(t *testing.T) {
-	d := loadReviews(t)
+	testref.Corpus(t, "reviews", "amazon_cells_labelled.txt")
+	d, err := reviewset.LoadUnder(testref.Root())
+	if err != nil {
+		t.Fatal(err)
+	}
 	r := DefaultRecipe()
 	train, dev, _ := reviewset.Splits(d, 0)
 	enc, err := corpus.TrainEncoder(r.Tokenizer, train.Texts())
@@ -248,5 +252,11 @@ func TestWideFitFixedC(t *testing.T) {
 		if _, err := (TrainConfig{WideFit: true, WideFitC: c}).WithDefaults(); err == nil {
 			t.Errorf("WideFitC %g was accepted", c)
 		}
+	}
+	if _, err := (TrainConfig{WideFitC: 10}).WithDefaults(); err == nil {
+		t.Error("WideFitC 10 without a fitted start was accepted")
+	}
+	if _, err := (TrainConfig{WideFit: true, WideFitC: 10}).WithDefaults(); err != nil {
+		t.Errorf("WideFitC 10 with a fitted start was refused: %v", err)
 	}
 }
