@@ -299,6 +299,7 @@ func unflaggedSettings(m *cnn.Model) []string {
 	add(r.StopOn != dt.StopOn, "stop_on", r.StopOn)
 	add(r.EmbedDropout != dt.EmbedDropout, "embed_dropout", r.EmbedDropout)
 	add(r.HeadWarmup != dt.HeadWarmup, "head_warmup", r.HeadWarmup)
+	add(r.KeepFrom != dt.KeepFrom, "keep_from", r.KeepFrom)
 	add(r.LRDecay != dt.LRDecay, "lr_decay", r.LRDecay)
 	add(r.WideSparse != dt.WideSparse, "wide_sparse", r.WideSparse)
 	add(r.WideDecay != dt.WideDecay, "wide_decay", r.WideDecay)

@@ -23,6 +23,12 @@ func newSelector(tc TrainConfig, dev Data) *selector {
 	return &selector{tc: tc, dev: dev, bestScore: math.Inf(-1), bestLoss: math.Inf(1)}
 }
 
+// restart forgets the best score so far, so that the next epochEnd keeps
+// its epoch and the choice goes on from there (TrainConfig.KeepFrom).
+func (s *selector) restart() {
+	s.bestScore, s.bestLoss = math.Inf(-1), math.Inf(1)
+}
+
 // epochEnd forms the model of the epoch that just ended on m, returns its
 // dev metrics (nil without a dev split) and whether it is the best so far
 // (always, without a dev split); the best is kept in s.best.

@@ -84,6 +84,15 @@ type TrainConfig struct {
 	// Classification", ACL). These epochs count among Epochs and are
 	// evaluated on dev like the others. 0 turns it off.
 	HeadWarmup int `json:"head_warmup,omitempty"`
+	// KeepFrom is the first epoch (1-based) the run may keep: the choice
+	// of the kept epoch starts again there, so an earlier epoch is kept
+	// only when the run ends before it (cancelled or diverged), and
+	// patience counts from it at the earliest. The first epochs are where
+	// the word weights, at their higher rate, have learned the easiest
+	// tokens and little else, artifacts of the collection among them
+	// (README, "The default recipe"). 0 or 1 may keep any epoch; it must
+	// not exceed Epochs.
+	KeepFrom int `json:"keep_from,omitempty"`
 	// LRDecay γ, when set, makes the learning rate of epoch e (1-based)
 	// LR·γ^(e−1): an exponential schedule, common practice, no source. 0
 	// (or 1) keeps LR throughout; it must be in [0, 1].
@@ -188,6 +197,8 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: embedding dropout %g: must be in [0, 1)", tc.EmbedDropout)
 	case tc.HeadWarmup < 0 || tc.HeadWarmup >= tc.Epochs:
 		return tc, fmt.Errorf("cnn: head warm-up of %d epochs: must be 0 (off) or fewer than the %d epochs", tc.HeadWarmup, tc.Epochs)
+	case tc.KeepFrom < 0 || tc.KeepFrom > tc.Epochs:
+		return tc, fmt.Errorf("cnn: keep from epoch %d: must be 0 (any epoch) or at most the %d epochs", tc.KeepFrom, tc.Epochs)
 	case !(tc.LRDecay >= 0 && tc.LRDecay <= 1):
 		return tc, fmt.Errorf("cnn: learning-rate decay %g: must be in [0, 1] (0: none)", tc.LRDecay)
 	case !(tc.WideLR >= 0) || math.IsInf(tc.WideLR, 0) || tc.WeightDecay*tc.LR*tc.WideLR >= 1:
@@ -372,6 +383,9 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		el := time.Since(start)
 		run.timed(epoch, done, el)
 		er := EpochResult{Epoch: epoch, Loss: sum / float64(done), ExamplesPerSec: float64(done) / el.Seconds(), Seconds: el.Seconds()}
+		if epoch == tc.KeepFrom {
+			sel.restart() // no earlier epoch is kept once this one has ended
+		}
 		var improved bool
 		if er.Dev, improved, err = sel.epochEnd(m); err != nil {
 			return nil, err
@@ -384,10 +398,11 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 			progress(Progress{Epoch: epoch, Epochs: tc.Epochs, Batch: len(batches), Batches: len(batches),
 				Loss: er.Loss, Dev: er.Dev, ExamplesPerSec: er.ExamplesPerSec, Phase: "epoch"})
 		}
-		// Patience counts from the end of the head warm-up at the
-		// earliest: the warm-up must not end a run whose lower layers have
-		// not trained yet.
-		if tc.Patience > 0 && dev.Len() > 0 && epoch-max(res.BestEpoch, tc.HeadWarmup) >= tc.Patience && epoch < tc.Epochs {
+		// Patience counts from the end of the head warm-up and from
+		// KeepFrom at the earliest: the warm-up must not end a run whose
+		// lower layers have not trained yet, nor a run end before it may
+		// keep an epoch.
+		if tc.Patience > 0 && dev.Len() > 0 && epoch-max(res.BestEpoch, tc.HeadWarmup, tc.KeepFrom-1) >= tc.Patience && epoch < tc.Epochs {
 			res.StoppedEarly = true
 			break
 		}

@@ -175,6 +175,8 @@ func TestTrainOptionsValidation(t *testing.T) {
 		{TrainConfig{HeadWarmup: -1}, "head warm-up"},
 		{TrainConfig{Epochs: 3, HeadWarmup: 3}, "head warm-up"},
 		{TrainConfig{LRDecay: 1.5}, "learning-rate decay"},
+		{TrainConfig{KeepFrom: -1}, "keep from"},
+		{TrainConfig{Epochs: 3, KeepFrom: 4}, "keep from"},
 		{TrainConfig{LRDecay: -0.5}, "learning-rate decay"},
 	} {
 		if _, err := c.tc.WithDefaults(); err == nil || !strings.Contains(err.Error(), c.want) {
@@ -206,6 +208,67 @@ func TestHeadWarmupOutlastsPatience(t *testing.T) {
 		}
 		if slices.Equal(w0, m.Convs[0].W) {
 			t.Errorf("seed %d: the filters never trained", seed)
+		}
+	}
+}
+
+// KeepFrom: the kept epoch is the first best dev macro-F1 among the epochs
+// from KeepFrom on, and the run goes on at least until KeepFrom plus the
+// patience (or its last epoch); the training itself is that of the run
+// without it, epoch for epoch, as only the choice of the kept epoch
+// changes (an identity). A run cancelled before KeepFrom still keeps its
+// best epoch so far. The dev split's labels are the task's swapped, so
+// that the more the model learns the worse it scores there and a run
+// without KeepFrom keeps an early epoch.
+func TestKeepFrom(t *testing.T) {
+	const keepFrom, patience, epochs = 5, 2, 12
+	train, dev := toyData(1, 300, 30), toyData(2, 100, 30)
+	for i, y := range dev.Labels {
+		dev.Labels[i] = 1 - y
+	}
+	for seed := uint64(1); seed <= 3; seed++ {
+		run := func(ctx context.Context, keep int, progress func(Progress)) *TrainResult {
+			m := randModel(seed, 30, 8, []int{2, 3}, 4, 2)
+			res, err := Train(ctx, m, train, dev, TrainConfig{Epochs: epochs, Batch: 10, Seed: seed, Threads: 2,
+				Patience: patience, KeepFrom: keep}, progress)
+			if err != nil {
+				t.Fatal(err)
+			}
+			return res
+		}
+		free, kept := run(t.Context(), 0, nil), run(t.Context(), keepFrom, nil)
+		if free.BestEpoch >= keepFrom {
+			t.Fatalf("seed %d: without KeepFrom the run kept epoch %d: the test needs an earlier one", seed, free.BestEpoch)
+		}
+		if kept.BestEpoch < keepFrom {
+			t.Fatalf("seed %d: kept epoch %d, before KeepFrom %d", seed, kept.BestEpoch, keepFrom)
+		}
+		best := keepFrom
+		for e := keepFrom; e <= len(kept.Epochs); e++ {
+			if kept.Epochs[e-1].Dev.MacroF1 > kept.Epochs[best-1].Dev.MacroF1 {
+				best = e
+			}
+		}
+		if kept.BestEpoch != best {
+			t.Errorf("seed %d: kept epoch %d, want %d (the first best dev macro-F1 from epoch %d)", seed, kept.BestEpoch, best, keepFrom)
+		}
+		if len(kept.Epochs) < min(epochs, keepFrom+patience) {
+			t.Errorf("seed %d: stopped after %d epochs, before KeepFrom %d plus patience %d", seed, len(kept.Epochs), keepFrom, patience)
+		}
+		for e := range min(len(free.Epochs), len(kept.Epochs)) {
+			if free.Epochs[e].Loss != kept.Epochs[e].Loss {
+				t.Fatalf("seed %d, epoch %d: training loss %g with KeepFrom, %g without", seed, e+1, kept.Epochs[e].Loss, free.Epochs[e].Loss)
+			}
+		}
+		ctx, cancel := context.WithCancel(t.Context())
+		early := run(ctx, keepFrom, func(p Progress) {
+			if p.Phase == "epoch" && p.Epoch == 2 {
+				cancel()
+			}
+		})
+		cancel()
+		if !early.Cancelled || early.BestEpoch < 1 || early.BestEpoch > 2 {
+			t.Errorf("seed %d: cancelled after epoch 2: cancelled %v, kept epoch %d, want one of the first two", seed, early.Cancelled, early.BestEpoch)
 		}
 	}
 }

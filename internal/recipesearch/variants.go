@@ -66,7 +66,10 @@ var variants = map[string]func(r *cnn.Recipe){
 	"warm2":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 2 },
 	"warm3":   func(r *cnn.Recipe) { r.Train.HeadWarmup = 3 },
 	"lrd8":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.8 },
-	"lrd6":    func(r *cnn.Recipe) { r.Train.LRDecay = 0.6 },
+	// no epoch kept before the third or the fifth (TrainConfig.KeepFrom)
+	"keep3": func(r *cnn.Recipe) { r.Train.KeepFrom = 3 },
+	"keep5": func(r *cnn.Recipe) { r.Train.KeepFrom = 5 },
+	"lrd6":  func(r *cnn.Recipe) { r.Train.LRDecay = 0.6 },
 	// Kim's model as the default had it before the word and bigram weights
 	"kim": kim,
 	// the default before the fourteenth round
