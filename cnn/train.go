@@ -129,9 +129,9 @@ type TrainConfig struct {
 	WideFit bool `json:"wide_fit,omitempty"`
 	// WideFitC fixes the fitted start's inverse regularisation strength
 	// (WideFit); 0 chooses it on dev from the baseline's grid. It must be
-	// finite and not negative, and 0 without WideFit. A C chosen on dev follows whatever predicts
-	// dev, artifacts of the collection included (README, "The default
-	// recipe").
+	// finite and not negative, and 0 without WideFit. A C chosen on dev
+	// follows whatever predicts dev, artifacts of the collection included
+	// (README, "The default recipe").
 	WideFitC float64 `json:"wide_fit_c,omitempty"`
 }
 
