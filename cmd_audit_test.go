@@ -514,6 +514,7 @@ func TestRetrainArgs(t *testing.T) {
 		// The rate: the default recipe's is Adam's (no option), Adadelta
 		// recorded at its own default 1.0 needs none, another rate its own.
 		{func(m *cnn.Model) { m.Info.Recipe.LR = 0.001 }, "--lr 0.001"},
+		{func(m *cnn.Model) { m.Info.Recipe.KeepFrom = 5 }, "--keep-from 5"},
 		{func(m *cnn.Model) { m.Info.Recipe.Optimizer, m.Info.Recipe.LR, m.Info.Recipe.Eps = "adadelta", 1, 1e-6 }, "--optimizer adadelta"},
 		{func(m *cnn.Model) {
 			m.Info.Recipe.Optimizer, m.Info.Recipe.LR, m.Info.Recipe.Eps = "adadelta", 0.002, 1e-6

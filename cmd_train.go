@@ -18,7 +18,8 @@ var cmdTrain = &command{
 	Name: "train",
 	UsageLine: "train --data FILE --out MODEL [--dev FILE | --dev-frac X] [--test FILE | --test-frac X]\n" +
 		"               [--text-col C] [--label-col C] [--epochs N] [--batch N] [--dim N] [--widths 3,4,5] [--maps N]\n" +
-		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--vectors FILE] [--freeze]\n" +
+		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--patience N] [--keep-from N]\n" +
+		"               [--vectors FILE] [--freeze]\n" +
 		"               [--min-count N] [--subword] [--class-weight none|balanced] [--word-dropout A] [--token-dropout P]\n" +
 		"               [--chars [--char-maps N] [--char-width W]] [--wide=false | --wide-bigrams=false] [--wide-lr F]\n" +
 		"               [--wide-fit [--wide-fit-c C]]\n" +
@@ -64,6 +65,12 @@ of its own. --wide-lr F multiplies the path's learning rate (default 100:
 at the rest's rate the weights hardly move before early stopping).
 --wide-bigrams=false keeps the words' weights alone; --wide=false leaves
 the path out (Kim's model alone). It combines with --chars.
+
+--keep-from N keeps no epoch before the Nth: the one with the best dev
+macro-F1 from the Nth on, patience counting from there (one beyond
+--epochs means the last). The first epochs are where the word weights, at
+their higher rate, have learned the easiest tokens and little else,
+artifacts of the collection among them (README, "The default recipe").
 
 Before training it refuses data that would give a useless model: more
 distinct labels than half the examples (the text and label columns swapped,
