@@ -83,7 +83,8 @@ fuzz:
 # failing fails the target and stops the other. `make test` runs this.
 # The checks' side is a make of its own, named through SUBMAKE: a recipe
 # line that names $(MAKE) itself is run even by `make -n`, and this one
-# would start the soak.
+# would start the soak. (Under make -j the checks' make then runs one job at
+# a time, saying so, as it does under plain `make test`.)
 SUBMAKE = $(MAKE)
 soak-checks: build
 	@scripts/ensure-debian-packages.sh xvfb xdotool

@@ -118,7 +118,6 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"wide-bigrams without --wide", train("--wide=false", "--wide-bigrams"), 2, []string{"--wide-bigrams gives bigrams weights in the word-weight path, which --wide=false leaves out: drop one of the two"}},
 		{"wide-fit without --wide", train("--wide=false", "--wide-fit"), 2, []string{"--wide-fit starts the word-weight path at a fitted linear model, and --wide=false leaves the path out: drop one of the two"}},
 		{"keep-from negative", train("--keep-from", "-1"), 2, []string{"--keep-from -1: give 0 or more (the first epoch training may keep; 0 keeps any)"}},
-		{"keep-from beyond epochs", train("--epochs", "3", "--keep-from", "4"), 2, []string{"--keep-from 4 is beyond --epochs 3: no epoch that late is trained; lower --keep-from or raise --epochs"}},
 		{"wide-fit-c negative", train("--wide-fit", "--wide-fit-c", "-1"), 2, []string{"--wide-fit-c -1: give a positive C, or 0 to choose it on dev"}},
 		{"wide-fit-c NaN", train("--wide-fit", "--wide-fit-c", "NaN"), 2, []string{"--wide-fit-c NaN: not a finite number"}},
 		{"wide-fit-c Inf", train("--wide-fit", "--wide-fit-c", "+Inf"), 2, []string{"--wide-fit-c +Inf: not a finite number"}},

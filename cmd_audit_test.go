@@ -566,6 +566,33 @@ func TestRetrainArgsWideFit(t *testing.T) {
 	}
 }
 
+// TestRetrainArgsKeepFrom: the retrain line's recipe options, read back
+// by train, give the model's epochs and first epoch kept, one beyond the
+// epochs included (cnn.TrainConfig.KeepFrom then means the last).
+func TestRetrainArgsKeepFrom(t *testing.T) {
+	def := cnn.DefaultRecipe()
+	dt, _ := def.Train.WithDefaults()
+	for _, c := range []struct{ epochs, keep int }{{20, 0}, {20, 5}, {3, 5}, {3, 3}, {def.Train.Epochs, def.Train.KeepFrom}} {
+		m := &cnn.Model{Config: def.Model, Tokenizer: def.Tokenizer}
+		r := dt
+		r.Epochs, r.KeepFrom = c.epochs, c.keep
+		m.Info.Recipe = &r
+		args := recipeArgs(m)
+		o := new(recipeOptions)
+		fs := flag.NewFlagSet("train", flag.ContinueOnError)
+		o.register(fs)
+		if err := fs.Parse(args); err != nil {
+			t.Fatalf("%q: %v", args, err)
+		}
+		if err := o.check(fs); err != nil {
+			t.Fatalf("%q: %v", args, err)
+		}
+		if got := o.recipe(r.Seed, 1).Train; got.Epochs != c.epochs || got.KeepFrom != c.keep {
+			t.Errorf("epochs %d, keep from %d: train %q gives %d, %d", c.epochs, c.keep, args, got.Epochs, got.KeepFrom)
+		}
+	}
+}
+
 // TestAuditRefusals: options that cannot work are refused before any work
 // with a message naming them.
 func TestAuditRefusals(t *testing.T) {

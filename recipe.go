@@ -141,8 +141,6 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 		}
 	}
 	switch {
-	case isSet(fs, "keep-from") && isSet(fs, "epochs") && r.KeepFrom > r.Epochs:
-		return usagef("--keep-from %d is beyond --epochs %d: no epoch that late is trained; lower --keep-from or raise --epochs", r.KeepFrom, r.Epochs)
 	case r.Dropout < 0 || r.Dropout >= 1:
 		return usagef("--dropout %g: give a rate from 0 up to (not including) 1", r.Dropout)
 	case r.MaxNorm < 0:

@@ -92,7 +92,7 @@ type TrainConfig struct {
 	// tokens and little else, artifacts of the collection among them
 	// (README, "The default recipe"). 0 or 1 may keep any epoch; one
 	// beyond Epochs counts as Epochs (the run keeps its last epoch), so that
-	// the default's KeepFrom leaves a short run of a few epochs possible.
+	// a recipe with a KeepFrom still allows a short run of a few epochs.
 	KeepFrom int `json:"keep_from,omitempty"`
 	// LRDecay γ, when set, makes the learning rate of epoch e (1-based)
 	// LR·γ^(e−1): an exponential schedule, common practice, no source. 0
