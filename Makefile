@@ -81,12 +81,15 @@ fuzz:
 # comes first, as when the soak runs alone, but it must keep answering with
 # them running). Each side's output comes as a block when it ends; either
 # failing fails the target and stops the other. `make test` runs this.
-# (The checks' side is a recursive make, so `make -n soak-checks` runs the
-# soak.)
+# The checks' side is a make of its own, named through SUBMAKE: a recipe
+# line that names $(MAKE) itself is run even by `make -n`, and this one
+# would start the soak. (Under make -j the checks' make then runs one job at
+# a time, saying so, as it does under plain `make test`.)
+SUBMAKE = $(MAKE)
 soak-checks: build
 	@scripts/ensure-debian-packages.sh xvfb xdotool
 	@scripts/together.sh 'fuzz, portable kernels, race on the command line' \
-		'nice -n 10 $(MAKE) --no-print-directory fuzz test-portable test-race-cli' soak 'scripts/soak.sh $(BIN)'
+		'nice -n 10 $(SUBMAKE) --no-print-directory fuzz test-portable test-race-cli' soak 'scripts/soak.sh $(BIN)'
 
 # The real window under Xvfb for about two and a half minutes, driven with
 # xdotool (train, retrain, search and scroll the filter list, the audit,

@@ -117,6 +117,7 @@ func TestRefusalsAndMessages(t *testing.T) {
 		{"wide-lr without --wide", train("--wide=false", "--wide-lr", "2"), 2, []string{"--wide-lr sets the learning rate of the word-weight table, which --wide=false leaves out: drop one of the two"}},
 		{"wide-bigrams without --wide", train("--wide=false", "--wide-bigrams"), 2, []string{"--wide-bigrams gives bigrams weights in the word-weight path, which --wide=false leaves out: drop one of the two"}},
 		{"wide-fit without --wide", train("--wide=false", "--wide-fit"), 2, []string{"--wide-fit starts the word-weight path at a fitted linear model, and --wide=false leaves the path out: drop one of the two"}},
+		{"keep-from negative", train("--keep-from", "-1"), 2, []string{"--keep-from -1: give 0 or more (the first epoch training may keep; 0 keeps any)"}},
 		{"wide-fit-c negative", train("--wide-fit", "--wide-fit-c", "-1"), 2, []string{"--wide-fit-c -1: give a positive C, or 0 to choose it on dev"}},
 		{"wide-fit-c NaN", train("--wide-fit", "--wide-fit-c", "NaN"), 2, []string{"--wide-fit-c NaN: not a finite number"}},
 		{"wide-fit-c Inf", train("--wide-fit", "--wide-fit-c", "+Inf"), 2, []string{"--wide-fit-c +Inf: not a finite number"}},

@@ -514,6 +514,7 @@ func TestRetrainArgs(t *testing.T) {
 		// The rate: the default recipe's is Adam's (no option), Adadelta
 		// recorded at its own default 1.0 needs none, another rate its own.
 		{func(m *cnn.Model) { m.Info.Recipe.LR = 0.001 }, "--lr 0.001"},
+		{func(m *cnn.Model) { m.Info.Recipe.KeepFrom = 5 }, "--keep-from 5"},
 		{func(m *cnn.Model) { m.Info.Recipe.Optimizer, m.Info.Recipe.LR, m.Info.Recipe.Eps = "adadelta", 1, 1e-6 }, "--optimizer adadelta"},
 		{func(m *cnn.Model) {
 			m.Info.Recipe.Optimizer, m.Info.Recipe.LR, m.Info.Recipe.Eps = "adadelta", 0.002, 1e-6
@@ -561,6 +562,33 @@ func TestRetrainArgsWideFit(t *testing.T) {
 			if got.WideFit != fit || got.WideFitC != wantC {
 				t.Errorf("fitted start %v at C %g: train %q gives %v at C %g, want %v at %g", fit, c, args, got.WideFit, got.WideFitC, fit, wantC)
 			}
+		}
+	}
+}
+
+// TestRetrainArgsKeepFrom: the retrain line's recipe options, read back
+// by train, give the model's epochs and first epoch kept, one beyond the
+// epochs included (cnn.TrainConfig.KeepFrom then means the last).
+func TestRetrainArgsKeepFrom(t *testing.T) {
+	def := cnn.DefaultRecipe()
+	dt, _ := def.Train.WithDefaults()
+	for _, c := range []struct{ epochs, keep int }{{20, 0}, {20, 5}, {3, 5}, {3, 3}, {def.Train.Epochs, def.Train.KeepFrom}} {
+		m := &cnn.Model{Config: def.Model, Tokenizer: def.Tokenizer}
+		r := dt
+		r.Epochs, r.KeepFrom = c.epochs, c.keep
+		m.Info.Recipe = &r
+		args := recipeArgs(m)
+		o := new(recipeOptions)
+		fs := flag.NewFlagSet("train", flag.ContinueOnError)
+		o.register(fs)
+		if err := fs.Parse(args); err != nil {
+			t.Fatalf("%q: %v", args, err)
+		}
+		if err := o.check(fs); err != nil {
+			t.Fatalf("%q: %v", args, err)
+		}
+		if got := o.recipe(r.Seed, 1).Train; got.Epochs != c.epochs || got.KeepFrom != c.keep {
+			t.Errorf("epochs %d, keep from %d: train %q gives %d, %d", c.epochs, c.keep, args, got.Epochs, got.KeepFrom)
 		}
 	}
 }

@@ -299,7 +299,6 @@ func unflaggedSettings(m *cnn.Model) []string {
 	add(r.StopOn != dt.StopOn, "stop_on", r.StopOn)
 	add(r.EmbedDropout != dt.EmbedDropout, "embed_dropout", r.EmbedDropout)
 	add(r.HeadWarmup != dt.HeadWarmup, "head_warmup", r.HeadWarmup)
-	add(r.KeepFrom != dt.KeepFrom, "keep_from", r.KeepFrom)
 	add(r.LRDecay != dt.LRDecay, "lr_decay", r.LRDecay)
 	add(r.WideSparse != dt.WideSparse, "wide_sparse", r.WideSparse)
 	add(r.WideDecay != dt.WideDecay, "wide_decay", r.WideDecay)
@@ -409,6 +408,7 @@ func recipeArgs(m *cnn.Model) []string {
 		opt(r.LR != dt.LR, "lr", fmtFloat(r.LR))
 		opt(r.MaxLen != dt.MaxLen, "max-len", strconv.Itoa(r.MaxLen))
 		opt(r.Patience != dt.Patience, "patience", strconv.Itoa(max(0, r.Patience))) // negative: never stops, train's 0
+		opt(r.KeepFrom != dt.KeepFrom, "keep-from", strconv.Itoa(r.KeepFrom))
 		boolOpt(r.FreezeEmb != dt.FreezeEmb, "freeze", r.FreezeEmb)
 		opt(r.TokenDropout != dt.TokenDropout, "token-dropout", fmtFloat(r.TokenDropout))
 		opt(r.WordDropout != dt.WordDropout, "word-dropout", fmtFloat(r.WordDropout))

@@ -18,15 +18,16 @@ var cmdTrain = &command{
 	Name: "train",
 	UsageLine: "train --data FILE --out MODEL [--dev FILE | --dev-frac X] [--test FILE | --test-frac X]\n" +
 		"               [--text-col C] [--label-col C] [--epochs N] [--batch N] [--dim N] [--widths 3,4,5] [--maps N]\n" +
-		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--vectors FILE] [--freeze]\n" +
+		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--patience N] [--keep-from N]\n" +
+		"               [--vectors FILE] [--freeze]\n" +
 		"               [--min-count N] [--subword] [--class-weight none|balanced] [--word-dropout A] [--token-dropout P]\n" +
 		"               [--chars [--char-maps N] [--char-width W]] [--wide=false | --wide-bigrams=false] [--wide-lr F]\n" +
 		"               [--wide-fit [--wide-fit-c C]]\n" +
 		"               [--baseline=false] [--mask-tokens FILE] [--seed N] [--threads N] [--force] [--json]",
 	Short: "train a sentence CNN on labeled data and save the model",
 	Long: `Train builds a vocabulary from the training split, trains the convolutional
-classifier of Kim (2014) and saves the weights of the best epoch by macro-F1 on
-the dev split to --out. Without --dev and --test, --dev-frac and --test-frac of
+classifier of Kim (2014) and saves the weights of the epoch with the best
+macro-F1 on the dev split (none before --keep-from's) to --out. Without --dev and --test, --dev-frac and --test-frac of
 --data are held out as the dev and test splits, stratified by label and seeded
 by --seed; the kept model is evaluated on the test split at the end, and the
 model file records how the splits were made, so that eval, audit, report,
@@ -64,6 +65,12 @@ of its own. --wide-lr F multiplies the path's learning rate (default 100:
 at the rest's rate the weights hardly move before early stopping).
 --wide-bigrams=false keeps the words' weights alone; --wide=false leaves
 the path out (Kim's model alone). It combines with --chars.
+
+--keep-from N keeps no epoch before the Nth: the one with the best dev
+macro-F1 from the Nth on, patience counting from there (beyond --epochs
+it means the last). The first epochs are where the word weights, at
+their higher rate, have learned the easiest tokens and little else,
+artifacts of the collection among them (README, "The default recipe").
 
 Before training it refuses data that would give a useless model: more
 distinct labels than half the examples (the text and label columns swapped,
@@ -264,7 +271,7 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 	case res.Cancelled:
 		return interrupted(fmt.Sprintf("training stopped after epoch %d; the best model so far (epoch %d) is saved in %s", len(res.Epochs), res.BestEpoch, abs))
 	case ctx.Err() != nil && o.recipe.Baseline && m.Baseline == nil:
-		return interrupted(fmt.Sprintf("the linear baseline's fit was stopped; the CNN (best epoch %d) is saved in %s without it and without test figures", res.BestEpoch, abs))
+		return interrupted(fmt.Sprintf("the linear baseline's fit was stopped; the CNN (kept epoch %d) is saved in %s without it and without test figures", res.BestEpoch, abs))
 	}
 	return nil
 }
@@ -307,7 +314,7 @@ type trainSummary struct {
 const devNote = "the dev split chose the epoch (and the baseline's C): its figures flatter the model; the test split's do not"
 
 func writeTrainSummary(w io.Writer, s trainSummary) {
-	fmt.Fprintf(w, "model saved: %s (best epoch %d of %d, %.0f training examples/s, %.1f s in all)\n",
+	fmt.Fprintf(w, "model saved: %s (kept epoch %d of %d, %.0f training examples/s, %.1f s in all)\n",
 		s.Model, s.BestEpoch, s.Epochs, s.ExamplesPerSecond, s.Seconds)
 	if s.Dev != nil {
 		writeFigures(w, fmt.Sprintf("dev split, %s, used to choose the epoch", wording.Texts(s.Dev.N)), cnn.Figures{CNN: cnn.HeadlineOf(*s.Dev)}, nil)

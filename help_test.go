@@ -113,6 +113,9 @@ func TestTrainDefaultsAreTheRecipe(t *testing.T) {
 	if !reflect.DeepEqual(r, want) {
 		t.Errorf("with the options set: %+v, want %+v", r, want)
 	}
+	if _, r = parse("--keep-from", "4"); r.Train.KeepFrom != 4 {
+		t.Errorf("--keep-from 4 gave KeepFrom %d", r.Train.KeepFrom)
+	}
 	if _, r = parse("--class-weight", "none"); r.Train.ClassWeight != "" {
 		t.Errorf("--class-weight none gave %q, want the recipe's \"\"", r.Train.ClassWeight)
 	}

@@ -19,6 +19,7 @@ import (
 // are cnn.DefaultRecipe's.
 type recipeOptions struct {
 	Epochs, Batch, Dim, Maps, MaxLen, Patience, MinCount int
+	KeepFrom                                             int
 	CharMaps, CharWidth                                  int
 	Widths, Optimizer, Vectors, Tokenizer, ClassWeight   string
 	Dropout, LR, MaxNorm, WordDropout, TokenDropout      float64
@@ -57,6 +58,8 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 	floatVar(fs, &r.LR, "lr", def.Train.LR, "learning rate; 0 is the optimizer's usual default (0.001 for adam, 1.0 for adadelta, which --optimizer adadelta without --lr also gets)")
 	intVar(fs, &r.MaxLen, "max-len", def.Train.MaxLen, "cut texts to this many tokens (0 keeps them whole)")
 	intVar(fs, &r.Patience, "patience", def.Train.Patience, "stop after this many epochs without a better dev macro-F1; 0 never stops early")
+	intVar(fs, &r.KeepFrom, "keep-from", def.Train.KeepFrom,
+		"keep no epoch before this one (the best dev macro-F1 from it on; patience counts from it); 0 keeps any, and beyond --epochs means the last")
 	fs.StringVar(&r.Vectors, "vectors", def.VectorsPath, "pretrained word vectors: one word and its numbers per line (.gz accepted)")
 	fs.BoolVar(&r.Freeze, "freeze", def.Train.FreezeEmb, "keep the embeddings fixed during training")
 	intVar(fs, &r.MinCount, "min-count", def.Tokenizer.MinCount, "minimum training count for a word to enter the vocabulary")
@@ -116,6 +119,7 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 		{"maps", r.Maps, 1, "feature maps per width"},
 		{"max-len", r.MaxLen, 0, "0 keeps texts whole"},
 		{"patience", r.Patience, 0, "epochs without a better dev macro-F1 before stopping; 0 never stops early"},
+		{"keep-from", r.KeepFrom, 0, "the first epoch training may keep; 0 keeps any"},
 		{"min-count", r.MinCount, 1, "a word enters the vocabulary once it occurs this often"},
 		{"char-maps", r.CharMaps, 1, "feature maps of the character layer (with --chars)"},
 		{"char-width", r.CharWidth, 1, "characters per character filter window (with --chars)"},
@@ -249,6 +253,7 @@ func (r *recipeOptions) recipe(seed uint64, threads int) cnn.Recipe {
 	tc := &rec.Train
 	tc.Epochs, tc.Batch, tc.Optimizer, tc.LR, tc.Seed = r.Epochs, r.Batch, r.Optimizer, r.LR, seed
 	tc.Threads, tc.Patience, tc.MaxLen, tc.FreezeEmb = threads, r.Patience, r.MaxLen, r.Freeze
+	tc.KeepFrom = r.KeepFrom
 	tc.WordDropout, tc.TokenDropout, tc.ClassWeight = r.WordDropout, r.TokenDropout, r.ClassWeight
 	tc.WideFit, tc.WideFitC = r.WideFit, r.WideFitC // false and 0 with --wide=false
 	if r.Wide {

@@ -90,8 +90,9 @@ type TrainConfig struct {
 	// patience counts from it at the earliest. The first epochs are where
 	// the word weights, at their higher rate, have learned the easiest
 	// tokens and little else, artifacts of the collection among them
-	// (README, "The default recipe"). 0 or 1 may keep any epoch; it must
-	// not exceed Epochs.
+	// (README, "The default recipe"). 0 or 1 may keep any epoch; one
+	// beyond Epochs counts as Epochs (the run keeps its last epoch), so that
+	// a recipe with a KeepFrom still allows a short run of a few epochs.
 	KeepFrom int `json:"keep_from,omitempty"`
 	// LRDecay γ, when set, makes the learning rate of epoch e (1-based)
 	// LR·γ^(e−1): an exponential schedule, common practice, no source. 0
@@ -197,8 +198,8 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: embedding dropout %g: must be in [0, 1)", tc.EmbedDropout)
 	case tc.HeadWarmup < 0 || tc.HeadWarmup >= tc.Epochs:
 		return tc, fmt.Errorf("cnn: head warm-up of %d epochs: must be 0 (off) or fewer than the %d epochs", tc.HeadWarmup, tc.Epochs)
-	case tc.KeepFrom < 0 || tc.KeepFrom > tc.Epochs:
-		return tc, fmt.Errorf("cnn: keep from epoch %d: must be 0 (any epoch) or at most the %d epochs", tc.KeepFrom, tc.Epochs)
+	case tc.KeepFrom < 0:
+		return tc, fmt.Errorf("cnn: keep from epoch %d: must be 0 (any epoch) or positive", tc.KeepFrom)
 	case !(tc.LRDecay >= 0 && tc.LRDecay <= 1):
 		return tc, fmt.Errorf("cnn: learning-rate decay %g: must be in [0, 1] (0: none)", tc.LRDecay)
 	case !(tc.WideLR >= 0) || math.IsInf(tc.WideLR, 0) || tc.WeightDecay*tc.LR*tc.WideLR >= 1:
@@ -367,6 +368,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	sel := newSelector(tc, dev)
 	order := make([]int, train.Len())
 	var batches [][]int
+	keepFrom := min(tc.KeepFrom, tc.Epochs)
 	for epoch := 1; epoch <= tc.Epochs && !res.Cancelled; epoch++ {
 		batches = makeBatches(rng, train.IDs, tc.Batch, order, batches)
 		tr.setEpoch(epoch)
@@ -383,7 +385,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		el := time.Since(start)
 		run.timed(epoch, done, el)
 		er := EpochResult{Epoch: epoch, Loss: sum / float64(done), ExamplesPerSec: float64(done) / el.Seconds(), Seconds: el.Seconds()}
-		if epoch == tc.KeepFrom {
+		if epoch == keepFrom {
 			sel.restart() // no earlier epoch is kept once this one has ended
 		}
 		var improved bool
@@ -402,7 +404,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		// KeepFrom at the earliest: the warm-up must not end a run whose
 		// lower layers have not trained yet, nor a run end before it may
 		// keep an epoch.
-		if tc.Patience > 0 && dev.Len() > 0 && epoch-max(res.BestEpoch, tc.HeadWarmup, tc.KeepFrom-1) >= tc.Patience && epoch < tc.Epochs {
+		if tc.Patience > 0 && dev.Len() > 0 && epoch-max(res.BestEpoch, tc.HeadWarmup, keepFrom-1) >= tc.Patience && epoch < tc.Epochs {
 			res.StoppedEarly = true
 			break
 		}

@@ -176,7 +176,6 @@ func TestTrainOptionsValidation(t *testing.T) {
 		{TrainConfig{Epochs: 3, HeadWarmup: 3}, "head warm-up"},
 		{TrainConfig{LRDecay: 1.5}, "learning-rate decay"},
 		{TrainConfig{KeepFrom: -1}, "keep from"},
-		{TrainConfig{Epochs: 3, KeepFrom: 4}, "keep from"},
 		{TrainConfig{LRDecay: -0.5}, "learning-rate decay"},
 	} {
 		if _, err := c.tc.WithDefaults(); err == nil || !strings.Contains(err.Error(), c.want) {
@@ -217,7 +216,8 @@ func TestHeadWarmupOutlastsPatience(t *testing.T) {
 // patience (or its last epoch); the training itself is that of the run
 // without it, epoch for epoch, as only the choice of the kept epoch
 // changes (an identity). A run cancelled before KeepFrom still keeps its
-// best epoch so far. The dev split's labels are the task's swapped, so
+// best epoch so far, and a run of fewer epochs than KeepFrom keeps its
+// last. The dev split's labels are the task's swapped, so
 // that the more the model learns the worse it scores there and a run
 // without KeepFrom keeps an early epoch.
 func TestKeepFrom(t *testing.T) {
@@ -227,7 +227,7 @@ func TestKeepFrom(t *testing.T) {
 		dev.Labels[i] = 1 - y
 	}
 	for seed := uint64(1); seed <= 3; seed++ {
-		run := func(ctx context.Context, keep int, progress func(Progress)) *TrainResult {
+		run := func(ctx context.Context, keep, epochs int, progress func(Progress)) *TrainResult {
 			m := randModel(seed, 30, 8, []int{2, 3}, 4, 2)
 			res, err := Train(ctx, m, train, dev, TrainConfig{Epochs: epochs, Batch: 10, Seed: seed, Threads: 2,
 				Patience: patience, KeepFrom: keep}, progress)
@@ -236,7 +236,7 @@ func TestKeepFrom(t *testing.T) {
 			}
 			return res
 		}
-		free, kept := run(t.Context(), 0, nil), run(t.Context(), keepFrom, nil)
+		free, kept := run(t.Context(), 0, epochs, nil), run(t.Context(), keepFrom, epochs, nil)
 		if free.BestEpoch >= keepFrom {
 			t.Fatalf("seed %d: without KeepFrom the run kept epoch %d: the test needs an earlier one", seed, free.BestEpoch)
 		}
@@ -261,7 +261,7 @@ func TestKeepFrom(t *testing.T) {
 			}
 		}
 		ctx, cancel := context.WithCancel(t.Context())
-		early := run(ctx, keepFrom, func(p Progress) {
+		early := run(ctx, keepFrom, epochs, func(p Progress) {
 			if p.Phase == "epoch" && p.Epoch == 2 {
 				cancel()
 			}
@@ -269,6 +269,9 @@ func TestKeepFrom(t *testing.T) {
 		cancel()
 		if !early.Cancelled || early.BestEpoch < 1 || early.BestEpoch > 2 {
 			t.Errorf("seed %d: cancelled after epoch 2: cancelled %v, kept epoch %d, want one of the first two", seed, early.Cancelled, early.BestEpoch)
+		}
+		if short := run(t.Context(), keepFrom, keepFrom-1, nil); short.BestEpoch != keepFrom-1 {
+			t.Errorf("seed %d: %d epochs with KeepFrom %d kept epoch %d, want the last", seed, keepFrom-1, keepFrom, short.BestEpoch)
 		}
 	}
 }

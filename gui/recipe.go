@@ -16,6 +16,7 @@ import (
 // starts from cnn.DefaultRecipe and offers what `telltale train` offers.
 type recipeForm struct {
 	widths, maps, dim, epochs, patience, dropout, maxNorm   binding.String
+	keepFrom                                                binding.String
 	optimizer, lr, batch, minCount, seed, devFrac, testFrac binding.String
 	tokenDropout, wordDropout, classWeight                  binding.String
 	// baseline: fit the linear baseline beside the CNN (cnn.Recipe.Baseline).
@@ -68,7 +69,7 @@ func newRecipeForm() *recipeForm {
 
 // fields lists the form's values.
 func (r *recipeForm) fields() []*binding.String {
-	return []*binding.String{&r.widths, &r.maps, &r.dim, &r.epochs, &r.patience, &r.dropout, &r.maxNorm,
+	return []*binding.String{&r.widths, &r.maps, &r.dim, &r.epochs, &r.patience, &r.keepFrom, &r.dropout, &r.maxNorm,
 		&r.optimizer, &r.lr, &r.batch, &r.minCount, &r.seed, &r.devFrac, &r.testFrac,
 		&r.tokenDropout, &r.wordDropout, &r.classWeight, &r.wideFitC}
 }
@@ -86,7 +87,8 @@ func (r *recipeForm) reset() {
 	for b, v := range map[binding.String]string{
 		r.widths: strings.Join(ws, ","), r.maps: strconv.Itoa(d.Model.Filters), r.dim: strconv.Itoa(d.Model.Dim),
 		r.epochs: strconv.Itoa(d.Train.Epochs), r.patience: strconv.Itoa(d.Train.Patience),
-		r.dropout: formatFloat32(d.Model.Dropout), r.maxNorm: formatFloat32(d.Model.MaxNorm),
+		r.keepFrom: strconv.Itoa(d.Train.KeepFrom),
+		r.dropout:  formatFloat32(d.Model.Dropout), r.maxNorm: formatFloat32(d.Model.MaxNorm),
 		r.optimizer: d.Train.Optimizer, r.lr: lr, r.batch: strconv.Itoa(d.Train.Batch),
 		r.minCount: strconv.Itoa(d.Tokenizer.MinCount), r.seed: strconv.FormatUint(d.Train.Seed, 10),
 		r.devFrac: formatFloat(cnn.DefaultDevFrac), r.testFrac: formatFloat(cnn.DefaultTestFrac),
@@ -181,6 +183,11 @@ func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 	// As on the command line: 0 (or less) never stops early.
 	if rec.Train.Patience = fe.whole(r.patience, "patience", "epochs without a better dev macro-F1 before stopping; 0 never stops"); rec.Train.Patience <= 0 {
 		rec.Train.Patience = -1
+	}
+	// As train's --keep-from: 0 keeps any epoch, and one beyond the epochs
+	// means the last (cnn.TrainConfig.KeepFrom).
+	if rec.Train.KeepFrom = fe.whole(r.keepFrom, "first epoch kept", "0 keeps any, e.g. 5"); rec.Train.KeepFrom < 0 {
+		fe = append(fe, fmt.Errorf("first epoch kept %d: give 0 (any epoch) or a later one, e.g. 5", rec.Train.KeepFrom))
 	}
 	rec.Tokenizer.MinCount = fe.whole(r.minCount, "minimum word count", "e.g. 1 or 2")
 	rec.Train.TokenDropout = fe.real(r.tokenDropout, "token dropout", "a probability in [0, 1); 0 is off")

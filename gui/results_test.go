@@ -167,7 +167,7 @@ func TestRecipeForm(t *testing.T) {
 	for _, it := range st.trainingView.form.Items {
 		names = append(names, it.Text)
 	}
-	for _, n := range []string{"Token dropout", "Word dropout", "Class weight", "Linear baseline"} {
+	for _, n := range []string{"Token dropout", "Word dropout", "Class weight", "Linear baseline", "First epoch kept"} {
 		if !strings.Contains(strings.Join(names, "|"), n) {
 			t.Errorf("the form lacks %q: %q", n, names)
 		}
@@ -181,9 +181,11 @@ func TestRecipeForm(t *testing.T) {
 	_ = r.wordDropout.Set("0.5")
 	_ = r.classWeight.Set("balanced")
 	_ = r.baseline.Set(false)
+	_ = r.keepFrom.Set("4")
 	rec, _, err = r.parse(false)
 	want := cnn.DefaultRecipe()
 	want.Train.TokenDropout, want.Train.WordDropout, want.Train.ClassWeight, want.Baseline = 0.125, 0.5, "balanced", nil
+	want.Train.KeepFrom = 4
 	if err != nil || !reflect.DeepEqual(rec, want) {
 		t.Errorf("with the new options set: %+v (%v), want %+v", rec, err, want)
 	}
@@ -201,6 +203,8 @@ func TestRecipeForm(t *testing.T) {
 		{func() { _ = r.wordDropout.Set("Inf") }, `word dropout α "Inf" is not a finite number`},
 		{func() { _ = r.wordDropout.Set("-1") }, "word dropout -1: must be 0 (off) or positive"},
 		{func() { _ = r.classWeight.Set("heavy") }, `class weight "heavy": choose none or balanced`},
+		{func() { _ = r.keepFrom.Set("-2") }, "first epoch kept -2: give 0 (any epoch) or a later one, e.g. 5"},
+		{func() { _ = r.keepFrom.Set("two") }, `first epoch kept "two" is not a whole number: 0 keeps any, e.g. 5`},
 	} {
 		r.reset()
 		c.set()

@@ -191,6 +191,8 @@ func recipe(in Input) recipeView {
 			{"Epochs (at most)", fmt.Sprint(r.Epochs)},
 			{"Batch size", fmt.Sprint(r.Batch)},
 			{"Early-stopping patience", fmt.Sprint(r.Patience)},
+			{"First epoch it could keep", keepFrom(r.KeepFrom, r.Epochs)},
+			{"Class weight", cmp.Or(r.ClassWeight, "none")},
 			{"Longest text kept", maxLen(r.MaxLen)},
 			{"Embeddings frozen", yesNo(r.FreezeEmb)},
 			{"Seed", fmt.Sprint(r.Seed)},
@@ -225,6 +227,15 @@ func recipe(in Input) recipeView {
 		rv.Epochs = append(rv.Epochs, row)
 	}
 	return rv
+}
+
+// keepFrom says which epochs the run could keep (cnn.TrainConfig.KeepFrom,
+// one beyond the epochs meaning the last).
+func keepFrom(k, epochs int) string {
+	if k <= 1 {
+		return "any"
+	}
+	return fmt.Sprintf("%d (no earlier epoch)", min(k, epochs))
 }
 
 // fitC says how the fitted start's C (cnn.TrainConfig.WideFitC) was set:

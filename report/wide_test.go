@@ -293,3 +293,27 @@ func TestRecipeWideFit(t *testing.T) {
 		}
 	}
 }
+
+// TestRecipeKeepFromAndClassWeight: the training settings name the first
+// epoch the run could keep (cnn.TrainConfig.KeepFrom, one beyond the
+// epochs meaning the last) and the class weight.
+func TestRecipeKeepFromAndClassWeight(t *testing.T) {
+	for _, c := range []struct {
+		tc       cnn.TrainConfig
+		keep, cw string
+	}{
+		{cnn.TrainConfig{Epochs: 20}, "any", "none"},
+		{cnn.TrainConfig{Epochs: 20, KeepFrom: 1}, "any", "none"},
+		{cnn.TrainConfig{Epochs: 20, KeepFrom: 5, ClassWeight: "balanced"}, "5 (no earlier epoch)", "balanced"},
+		{cnn.TrainConfig{Epochs: 3, KeepFrom: 5}, "3 (no earlier epoch)", "none"},
+	} {
+		m := &cnn.Model{Config: cnn.Config{Widths: []int{3}}, Info: cnn.Info{Recipe: &c.tc}}
+		got := map[string]string{}
+		for _, r := range recipe(Input{Model: m}).Train {
+			got[r.Key] = r.Value
+		}
+		if got["First epoch it could keep"] != c.keep || got["Class weight"] != c.cw {
+			t.Errorf("%+v: first epoch %q, class weight %q; want %q, %q", c.tc, got["First epoch it could keep"], got["Class weight"], c.keep, c.cw)
+		}
+	}
+}
