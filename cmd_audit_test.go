@@ -545,16 +545,7 @@ func TestRetrainArgsWideFit(t *testing.T) {
 			r.WideFit, r.WideFitC = fit, c
 			m.Info.Recipe = &r
 			args := recipeArgs(m)
-			o := new(recipeOptions)
-			fs := flag.NewFlagSet("train", flag.ContinueOnError)
-			o.register(fs)
-			if err := fs.Parse(args); err != nil {
-				t.Fatalf("%q: %v", args, err)
-			}
-			if err := o.check(fs); err != nil {
-				t.Fatalf("%q: %v", args, err)
-			}
-			got := o.recipe(r.Seed, 1).Train
+			got := trainReads(t, args, r.Seed)
 			wantC := c
 			if !fit {
 				wantC = 0 // train records no C without a fitted start
@@ -564,6 +555,22 @@ func TestRetrainArgsWideFit(t *testing.T) {
 			}
 		}
 	}
+}
+
+// trainReads is the training configuration train's recipe options give
+// for args (a retrain line's), failing t when train refuses them.
+func trainReads(t *testing.T, args []string, seed uint64) cnn.TrainConfig {
+	t.Helper()
+	o := new(recipeOptions)
+	fs := flag.NewFlagSet("train", flag.ContinueOnError)
+	o.register(fs)
+	if err := fs.Parse(args); err != nil {
+		t.Fatalf("%q: %v", args, err)
+	}
+	if err := o.check(fs); err != nil {
+		t.Fatalf("%q: %v", args, err)
+	}
+	return o.recipe(seed, 1).Train
 }
 
 // TestRetrainArgsKeepFrom: the retrain line's recipe options, read back
@@ -578,16 +585,7 @@ func TestRetrainArgsKeepFrom(t *testing.T) {
 		r.Epochs, r.KeepFrom = c.epochs, c.keep
 		m.Info.Recipe = &r
 		args := recipeArgs(m)
-		o := new(recipeOptions)
-		fs := flag.NewFlagSet("train", flag.ContinueOnError)
-		o.register(fs)
-		if err := fs.Parse(args); err != nil {
-			t.Fatalf("%q: %v", args, err)
-		}
-		if err := o.check(fs); err != nil {
-			t.Fatalf("%q: %v", args, err)
-		}
-		if got := o.recipe(r.Seed, 1).Train; got.Epochs != c.epochs || got.KeepFrom != c.keep {
+		if got := trainReads(t, args, r.Seed); got.Epochs != c.epochs || got.KeepFrom != c.keep {
 			t.Errorf("epochs %d, keep from %d: train %q gives %d, %d", c.epochs, c.keep, args, got.Epochs, got.KeepFrom)
 		}
 	}
