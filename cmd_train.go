@@ -19,10 +19,9 @@ var cmdTrain = &command{
 	UsageLine: "train --data FILE --out MODEL [--dev FILE | --dev-frac X] [--test FILE | --test-frac X]\n" +
 		"               [--text-col C] [--label-col C] [--epochs N] [--batch N] [--dim N] [--widths 3,4,5] [--maps N]\n" +
 		"               [--dropout P] [--optimizer adam|adadelta] [--lr X] [--max-len N] [--patience N] [--keep-from N]\n" +
-		"               [--vectors FILE] [--freeze]\n" +
-		"               [--min-count N] [--subword] [--class-weight none|balanced] [--word-dropout A] [--token-dropout P]\n" +
-		"               [--chars [--char-maps N] [--char-width W]] [--wide=false | --wide-bigrams=false] [--wide-lr F]\n" +
-		"               [--wide-fit [--wide-fit-c C]]\n" +
+		"               [--vectors FILE] [--freeze] [--min-count N] [--subword] [--class-weight none|balanced]\n" +
+		"               [--word-dropout A] [--token-dropout P] [--chars [--char-maps N] [--char-width W]]\n" +
+		"               [--wide=false | --wide-bigrams=false] [--wide-lr F] [--wide-fit [--wide-fit-c C]]\n" +
 		"               [--baseline=false] [--mask-tokens FILE] [--seed N] [--threads N] [--force] [--json]",
 	Short: "train a sentence CNN on labeled data and save the model",
 	Long: `Train builds a vocabulary from the training split, trains the convolutional
