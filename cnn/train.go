@@ -368,7 +368,6 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	sel := newSelector(tc, dev)
 	order := make([]int, train.Len())
 	var batches [][]int
-	keepFrom := min(tc.KeepFrom, tc.Epochs)
 	for epoch := 1; epoch <= tc.Epochs && !res.Cancelled; epoch++ {
 		batches = makeBatches(rng, train.IDs, tc.Batch, order, batches)
 		tr.setEpoch(epoch)
@@ -385,7 +384,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		el := time.Since(start)
 		run.timed(epoch, done, el)
 		er := EpochResult{Epoch: epoch, Loss: sum / float64(done), ExamplesPerSec: float64(done) / el.Seconds(), Seconds: el.Seconds()}
-		if epoch == keepFrom {
+		if epoch == tc.firstKept() {
 			sel.restart() // no earlier epoch is kept once this one has ended
 		}
 		var improved bool
@@ -404,7 +403,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		// KeepFrom at the earliest: the warm-up must not end a run whose
 		// lower layers have not trained yet, nor a run end before it may
 		// keep an epoch.
-		if tc.Patience > 0 && dev.Len() > 0 && epoch-max(res.BestEpoch, tc.HeadWarmup, keepFrom-1) >= tc.Patience && epoch < tc.Epochs {
+		if tc.Patience > 0 && dev.Len() > 0 && epoch-max(res.BestEpoch, tc.HeadWarmup, tc.firstKept()-1) >= tc.Patience && epoch < tc.Epochs {
 			res.StoppedEarly = true
 			break
 		}
@@ -412,6 +411,10 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	run.finish(sel)
 	return res, nil
 }
+
+// firstKept is the first epoch the run may keep: KeepFrom, or the last
+// epoch when KeepFrom is beyond it (0: any).
+func (tc TrainConfig) firstKept() int { return min(tc.KeepFrom, tc.Epochs) }
 
 // setEpoch sets the learning rate and the head warm-up of the epoch
 // (1-based).
