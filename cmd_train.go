@@ -25,14 +25,14 @@ var cmdTrain = &command{
 		"               [--baseline=false] [--mask-tokens FILE] [--seed N] [--threads N] [--force] [--json]",
 	Short: "train a sentence CNN on labeled data and save the model",
 	Long: `Train builds a vocabulary from the training split, trains the convolutional
-classifier of Kim (2014) and saves the weights of the epoch with the best
-macro-F1 on the dev split (none before --keep-from's) to --out. Without --dev and --test, --dev-frac and --test-frac of
---data are held out as the dev and test splits, stratified by label and seeded
-by --seed; the kept model is evaluated on the test split at the end, and the
-model file records how the splits were made, so that eval, audit, report,
-faithfulness, compare and mask, given the same --data, evaluate on the same
-test split. The defaults are those of the one default recipe
-(cnn.DefaultRecipe).
+classifier of Kim (2014) and saves to --out the weights of the epoch with the
+best macro-F1 on the dev split (from --keep-from's epoch on). Without --dev
+and --test, --dev-frac and --test-frac of --data are held out as the dev
+and test splits, stratified by label and seeded by --seed; the kept model
+is evaluated on the test split at the end, and the model file records how
+the splits were made, so that eval, audit, report, faithfulness, compare
+and mask, given the same --data, evaluate on the same test split. The
+defaults are those of the one default recipe (cnn.DefaultRecipe).
 
 Unless --baseline=false, train also fits the linear baseline every CNN is
 measured against on the same training split: TF-IDF features of the

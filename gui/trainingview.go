@@ -84,7 +84,8 @@ func (v *trainingView) recipeForm() *widget.Form {
 	r.wideFit.AddListener(follow)
 	items := []*widget.FormItem{
 		entry(r.widths, ""), entry(r.maps, ""), entry(r.dim, ""), entry(r.epochs, ""),
-		entry(r.patience, "0 never stops early"), entry(r.keepFrom, "none before it; 0 keeps any"), entry(r.dropout, ""), entry(r.maxNorm, "0 is off"),
+		entry(r.patience, "0 never stops early"), entry(r.keepFrom, "none before it; 0 keeps any"),
+		entry(r.dropout, ""), entry(r.maxNorm, "0 is off"),
 		{Widget: opt}, entry(r.lr, "empty: adam 0.002, adadelta 1"), entry(r.batch, ""),
 		entry(r.minCount, ""), entry(r.tokenDropout, "any token to unknown; 0 is off"),
 		entry(r.wordDropout, "α, rare words to unknown; 0 is off"),
@@ -98,8 +99,8 @@ func (v *trainingView) recipeForm() *widget.Form {
 		entry(r.devFrac, "share of the data"), entry(r.testFrac, "share of the data"),
 	}
 	names := []string{"Filter widths", "Feature maps per width", "Embedding dimension", "Epochs (at most)",
-		"Patience (epochs)", "First epoch kept", "Dropout", "Max-norm of output rows", "Optimizer", "Learning rate", "Batch size",
-		"Least word count", "Token dropout", "Word dropout", "Class weight", "Linear baseline", "Word vectors", "Word weights",
+		"Patience (epochs)", "First epoch kept", "Dropout", "Max-norm of output rows", "Optimizer", "Learning rate",
+		"Batch size", "Least word count", "Token dropout", "Word dropout", "Class weight", "Linear baseline", "Word vectors", "Word weights",
 		"Word pairs", "Word weights' start", "Fitted start's C", "Seed", "Dev share", "Test share"}
 	for i, it := range items {
 		it.Text = names[i]
