@@ -51,13 +51,7 @@ func TestSpamAssassinAccuracy(t *testing.T) {
 	if testing.Short() {
 		t.Skip("SKIPPED in -short mode: trains three models on the SpamAssassin corpus")
 	}
-	root := testref.Corpus(t, "spamassassin", "easy-ham-1")
-	testref.RequirePython(t, "sklearn")
-	d, _, err := corpus.Load(root, corpus.Options{ReplaceInvalidUTF8: true})
-	if err != nil {
-		t.Fatal(err)
-	}
-	all := d.MapTexts(corpus.SubjectAndBody).Relabel(spamGroupLabels)
+	all := loadSpamMails(t).Relabel(spamGroupLabels)
 	// 4150 ham and 1896 spam: the group sizes of the package's README.
 	if c := all.Counts(); c["ham"] != 4150 || c["spam"] != 1896 || len(all.Labels) != 2 {
 		t.Fatalf("corpus counts %v, want ham 4150 spam 1896", c)
@@ -68,6 +62,20 @@ func TestSpamAssassinAccuracy(t *testing.T) {
 	runs := compareWithBaseline(t, "SpamAssassin", train, dev, test)
 	runs.notSignificantlyWorse(t)
 	runs.atLeastOnAverage(t)
+}
+
+// loadSpamMails reads the SpamAssassin corpus (testdata/spamassassin, see
+// TestSpamAssassinAccuracy) as each mail's subject and body, labeled by its
+// folder, and needs scikit-learn (the tests that read it compare with it).
+func loadSpamMails(t *testing.T) *corpus.Dataset {
+	t.Helper()
+	root := testref.Corpus(t, "spamassassin", "easy-ham-1")
+	testref.RequirePython(t, "sklearn")
+	d, _, err := corpus.Load(root, corpus.Options{ReplaceInvalidUTF8: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return d.MapTexts(corpus.SubjectAndBody)
 }
 
 // TestDemoAccuracy is TestSpamAssassinAccuracy on the demo corpus

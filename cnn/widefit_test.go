@@ -48,15 +48,9 @@ func TestWideFitAgainstScikitLearnThreeClasses(t *testing.T) {
 	if testing.Short() {
 		t.Skip("SKIPPED in -short mode: fits scikit-learn on mails")
 	}
-	root := testref.Corpus(t, "spamassassin", "easy-ham-1")
-	testref.RequirePython(t, "sklearn")
-	d, _, err := corpus.Load(root, corpus.Options{ReplaceInvalidUTF8: true})
-	if err != nil {
-		t.Fatal(err)
-	}
 	groups := map[string]string{"easy-ham-1": "easy-ham", "easy-ham-2": "easy-ham", "hard-ham-1": "hard-ham",
 		"spam-1": "spam", "spam-2": "spam"}
-	all := d.MapTexts(corpus.SubjectAndBody).Relabel(groups)
+	all := loadSpamMails(t).Relabel(groups)
 	_, some := all.Split(0.15, 1)
 	train, test := some.Split(0.3, 2)
 	if len(train.Labels) != 3 {
