@@ -7,10 +7,13 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"path/filepath"
 	"runtime"
 	"strings"
+	"sync"
 	"time"
 
+	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/app"
 
 	"telltale/gui"
@@ -79,7 +82,7 @@ func runGUI(ctx context.Context, env *runEnv, o *guiOptions) error {
 	localeenv.Fix() // the window's own locale lookups read the same variables
 	o.DemoTrain, o.DemoTest = demoTrain, demoTest
 	o.OnReady = func() { fmt.Fprintln(env.Stderr, "telltale: window ready") }
-	a := app.NewWithID("org.telltale.app")
+	a := newWindowApp(env.Stderr)
 	w, quit := gui.NewWindow(a, o.Options)
 	// Ctrl-C and SIGTERM close the window cleanly, its background work
 	// stopped first, or end the process if the window has not closed
@@ -94,6 +97,31 @@ func runGUI(ctx context.Context, env *runEnv, o *guiOptions) error {
 	}
 	w.ShowAndRun()
 	return nil
+}
+
+// windowAppID is the UniqueID the toolkit's dialogs read from the app.
+const windowAppID = "org.telltale.app"
+
+// newWindowApp makes the toolkit's app with the window's preferences in
+// telltale/preferences.json under the user's config folder
+// (gui.WithStoredPreferences says why not the toolkit's own file). Problems
+// with that file are told once on stderr and never stop the window.
+func newWindowApp(stderr io.Writer) fyne.App {
+	var once sync.Once
+	tell := func(err error) {
+		once.Do(func() { fmt.Fprintf(stderr, "telltale gui: %v\n", err) })
+	}
+	path := ""
+	if dir, err := os.UserConfigDir(); err == nil {
+		path = filepath.Join(dir, "telltale", "preferences.json")
+	}
+	a, err := gui.WithStoredPreferences(app.NewWithID(""), windowAppID, path, func(err error) {
+		tell(fmt.Errorf("could not save the window's preferences (%v); they last until it closes", err))
+	})
+	if err != nil {
+		tell(err)
+	}
+	return a
 }
 
 // quitGrace is how long the window may take to close after a signal

@@ -37,7 +37,8 @@
 //
 // Only the main package imports fyne.io/fyne/v2/app:
 //
-//	a := app.NewWithID("telltale")
+//	// no ID: the toolkit keeps no preferences file; WithStoredPreferences does
+//	a, err := gui.WithStoredPreferences(app.NewWithID(""), "org.telltale.app", path, onSaveError)
 //	w, quit := gui.NewWindow(a, gui.Options{DemoTrain: train, DemoTest: test})
 //	// quit() on a signal closes it cleanly
 //	w.ShowAndRun()
