@@ -92,6 +92,9 @@ var variants = map[string]func(r *cnn.Recipe){
 	"wfit":   func(r *cnn.Recipe) { r.Train.WideFit = true },
 	"wfit10": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR = true, 10 },
 	"wfit1":  func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR = true, 1 },
+	// the fitted start held where the fit put it (a rate of 1e-6 times the
+	// rest's): the filters learn what the logistic regression leaves
+	"wfitfrz": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR = true, 1e-6 },
 	// the fitted start with its C fixed instead of chosen on dev
 	"wfitC1":   func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitC = true, 1 },
 	"wfitC10":  func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitC = true, 10 },
