@@ -99,27 +99,33 @@ func runGUI(ctx context.Context, env *runEnv, o *guiOptions) error {
 	return nil
 }
 
-// windowAppID is the UniqueID the toolkit's dialogs read from the app.
+// windowAppID is what the window's app reports as its UniqueID.
 const windowAppID = "org.telltale.app"
 
 // newWindowApp makes the toolkit's app with the window's preferences in
 // telltale/preferences.json under the user's config folder
-// (gui.WithStoredPreferences says why not the toolkit's own file). Problems
-// with that file are told once on stderr and never stop the window.
+// (gui.WithStoredPreferences says why not the toolkit's own file). A file
+// that cannot be read, and the first failure to save, are told on stderr;
+// neither stops the window.
 func newWindowApp(stderr io.Writer) fyne.App {
-	var once sync.Once
-	tell := func(err error) {
-		once.Do(func() { fmt.Fprintf(stderr, "telltale gui: %v\n", err) })
+	dir, err := os.UserConfigDir()
+	if err != nil {
+		fmt.Fprintf(stderr, "telltale gui: %v; the file dialogs' last folder is kept until the window closes\n", err)
 	}
 	path := ""
-	if dir, err := os.UserConfigDir(); err == nil {
+	if dir != "" {
 		path = filepath.Join(dir, "telltale", "preferences.json")
 	}
+	var saveFailed sync.Once
 	a, err := gui.WithStoredPreferences(app.NewWithID(""), windowAppID, path, func(err error) {
-		tell(fmt.Errorf("could not save the window's preferences (%v); they last until it closes", err))
+		saveFailed.Do(func() {
+			fmt.Fprintf(stderr, "telltale gui: could not save the window's preferences to %s (%v); "+
+				"the file dialogs' last folder and layout are kept until the window closes; make %s writable to keep them\n",
+				path, err, filepath.Dir(path))
+		})
 	})
 	if err != nil {
-		tell(err)
+		fmt.Fprintf(stderr, "telltale gui: %v\n", err)
 	}
 	return a
 }

@@ -8,6 +8,7 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"reflect"
 	"sync"
 
 	"fyne.io/fyne/v2"
@@ -39,13 +40,16 @@ func (a *appWithPreferences) UniqueID() string              { return a.id }
 
 // WithStoredPreferences returns a with its preferences kept in the JSON file
 // at path, and makes it the toolkit's current app, which its dialogs read.
-// Precondition: a was made without an ID (app.NewWithID("")), so the
-// toolkit keeps and watches no preferences file of its own; id is what the
-// returned app's UniqueID reports. Path "" keeps them in memory alone. A
+// Precondition: a was made without an ID (app.NewWithID(""), and no ID in
+// its metadata, which `fyne package` would add), so the toolkit keeps and
+// watches no preferences file of its own; id is what the returned app's
+// UniqueID reports. The toolkit's calls that would still need the inner
+// app's ID (notifications with an icon, its document storage) are not used
+// by the window, and the returned app hides the system-tray methods. Path "" keeps them in memory alone. A
 // missing file is an empty store. A file that cannot be read also starts an
 // empty store, and the error is returned beside the app, which is usable
 // either way. onError hears each later failure to save (nil: they are
-// dropped); the values stay in memory.
+// dropped), and must not set a preference; the values stay in memory.
 func WithStoredPreferences(a fyne.App, id, path string, onError func(error)) (fyne.App, error) {
 	p, err := loadPreferences(path)
 	p.onError = onError
@@ -76,11 +80,15 @@ func loadPreferences(path string) (*storedPreferences, error) {
 		return p, nil
 	}
 	if err == nil {
-		err = json.Unmarshal(data, &p.values)
+		if err = json.Unmarshal(data, &p.values); err != nil {
+			err = fmt.Errorf("%s: %w", path, err)
+		}
+	}
+	if p.values == nil || err != nil { // a file holding null unmarshals to a nil map
+		p.values = map[string]any{}
 	}
 	if err != nil {
-		p.values = map[string]any{}
-		return p, fmt.Errorf("the window's preferences %s could not be read (%v); it starts without them, and the next change replaces the file", path, err)
+		return p, fmt.Errorf("the window's preferences could not be read (%v); it starts without them, and the next change replaces the file", err)
 	}
 	return p, nil
 }
@@ -109,9 +117,15 @@ func (p *storedPreferences) save() {
 	}
 }
 
-// set stores v (nil: removes key), saves and tells the listeners.
+// set stores v (nil: removes key), saves and tells the listeners; a value
+// equal to the one stored changes nothing (the file dialogs set their folder
+// each time they show one).
 func (p *storedPreferences) set(key string, v any) {
 	p.mu.Lock()
+	if old, ok := p.values[key]; ok == (v != nil) && reflect.DeepEqual(old, v) {
+		p.mu.Unlock()
+		return
+	}
 	if v == nil {
 		delete(p.values, key)
 	} else {
@@ -144,11 +158,11 @@ func number(v any) (float64, bool) {
 	return 0, false
 }
 
-// listOf reads v as a list of T, each item converted by conv: lists read
-// back from JSON are []any.
+// listOf reads v as a new list of T, each item converted by conv: lists
+// read back from JSON are []any.
 func listOf[T any](v any, conv func(any) (T, bool)) ([]T, bool) {
 	if l, ok := v.([]T); ok {
-		return l, true
+		return append([]T{}, l...), true
 	}
 	items, ok := v.([]any)
 	if !ok {

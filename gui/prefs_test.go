@@ -32,8 +32,10 @@ func TestStoredPreferencesRoundTrip(t *testing.T) {
 	p.SetStringList("sl", []string{"a", "b"})
 	p.SetString("gone", "x")
 	p.RemoveValue("gone")
+	p.RemoveValue("gone")
+	p.SetInt("i", 3)
 	if changes != 10 {
-		t.Errorf("the listener heard %d changes, want 10", changes)
+		t.Errorf("the listener heard %d changes, want 10 (a value set again, or removed again, is no change)", changes)
 	}
 	q, err := loadPreferences(path)
 	if err != nil {
@@ -69,23 +71,61 @@ func TestStoredPreferencesRoundTrip(t *testing.T) {
 }
 
 // A file that cannot be read starts an empty store and says which file and
-// what happens; the next change replaces it with one that reads.
+// what happens; the next change replaces it with one that reads. A file
+// holding null is an empty store.
 func TestStoredPreferencesUnreadableFile(t *testing.T) {
+	for _, c := range []struct {
+		name, content string
+		fails         bool
+	}{
+		{"cut short", `{"s": "x"`, true},
+		{"a list", `["s"]`, true},
+		{"null", `null`, false},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			path := filepath.Join(t.TempDir(), "preferences.json")
+			if err := os.WriteFile(path, []byte(c.content), 0o644); err != nil {
+				t.Fatal(err)
+			}
+			p, err := loadPreferences(path)
+			if c.fails && (err == nil || !strings.Contains(err.Error(), path) || !strings.Contains(err.Error(), "starts without them")) {
+				t.Fatalf("error %v: want one naming %s and what happens", err, path)
+			}
+			if !c.fails && err != nil {
+				t.Fatal(err)
+			}
+			if got := p.String("s"); got != "" {
+				t.Errorf("value %q from an unreadable file", got)
+			}
+			p.SetString("s", "y")
+			q, err := loadPreferences(path)
+			if err != nil || q.String("s") != "y" {
+				t.Errorf("after a change: %q, %v; want y and no error", q.String("s"), err)
+			}
+		})
+	}
+}
+
+// A value set again writes nothing (the file dialogs set their folder each
+// time they show one).
+func TestStoredPreferencesSameValueWritesNothing(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "preferences.json")
-	if err := os.WriteFile(path, []byte(`{"s": "x"`), 0o644); err != nil {
+	p, err := loadPreferences(path)
+	if err != nil {
 		t.Fatal(err)
 	}
-	p, err := loadPreferences(path)
-	if err == nil || !strings.Contains(err.Error(), path) || !strings.Contains(err.Error(), "starts without them") {
-		t.Fatalf("error %v: want one naming %s and what happens", err, path)
+	p.SetStringList("sl", []string{"a"})
+	if err := os.Remove(path); err != nil {
+		t.Fatal(err)
 	}
-	if got := p.String("s"); got != "" {
-		t.Errorf("value %q from an unreadable file", got)
+	p.SetStringList("sl", []string{"a"})
+	if _, err := os.Stat(path); err == nil {
+		t.Error("the same value was written again")
 	}
-	p.SetString("s", "y")
-	q, err := loadPreferences(path)
-	if err != nil || q.String("s") != "y" {
-		t.Errorf("after a change: %q, %v; want y and no error", q.String("s"), err)
+	got := p.StringList("sl")
+	got[0] = "changed"
+	if p.StringList("sl")[0] != "a" {
+		t.Error("a list read from the store changed the stored list")
 	}
 }
 
@@ -101,8 +141,8 @@ func TestStoredPreferencesSaveFailure(t *testing.T) {
 	var told []error
 	p.onError = func(err error) { told = append(told, err) }
 	p.SetInt("i", 2)
-	if len(told) != 1 || p.Int("i") != 2 {
-		t.Errorf("told %v, value %d: want one error and the value kept", told, p.Int("i"))
+	if len(told) != 1 || !strings.Contains(told[0].Error(), blocker) || p.Int("i") != 2 {
+		t.Errorf("told %v, value %d: want one error naming %s and the value kept", told, p.Int("i"), blocker)
 	}
 
 	mem, err := loadPreferences("")
@@ -118,8 +158,7 @@ func TestStoredPreferencesSaveFailure(t *testing.T) {
 
 // The toolkit's dialogs reach the store through the current app.
 func TestWithStoredPreferencesIsCurrent(t *testing.T) {
-	a := test.NewApp()
-	defer a.Quit()
+	a := test.NewTempApp(t)
 	path := filepath.Join(t.TempDir(), "preferences.json")
 	w, err := WithStoredPreferences(a, "org.example.window", path, nil)
 	if err != nil {
