@@ -45,11 +45,13 @@ func (a *appWithPreferences) UniqueID() string              { return a.id }
 // watches no preferences file of its own; id is what the returned app's
 // UniqueID reports. The toolkit's calls that would still need the inner
 // app's ID (notifications with an icon, its document storage) are not used
-// by the window, and the returned app hides the system-tray methods. Path "" keeps them in memory alone. A
-// missing file is an empty store. A file that cannot be read also starts an
-// empty store, and the error is returned beside the app, which is usable
-// either way. onError hears each later failure to save (nil: they are
-// dropped), and must not set a preference; the values stay in memory.
+// by the window, and the returned app hides the system-tray methods.
+//
+// Path "" keeps the preferences in memory alone. A missing file is an empty
+// store. A file that cannot be read also starts an empty store, and the
+// error is returned beside the app, which is usable either way. onError
+// hears each later failure to save (nil: they are dropped), and must not set
+// a preference; the values stay in memory.
 func WithStoredPreferences(a fyne.App, id, path string, onError func(error)) (fyne.App, error) {
 	p, err := loadPreferences(path)
 	p.onError = onError
