@@ -61,8 +61,8 @@ const DefaultWideLR = 100
 // with the cues spread, but the fitted start lost 0.0082 on the demo's dev
 // split and the balanced weight 0.0128 on the addresses', so KeepFrom stays
 // an option (train --keep-from). Screens of the fitted start held at the
-// fit or at ×1 or ×10 the rate kept the demo but lost 0.005–0.008 on the
-// addresses' dev split, so none went on to a round.
+// fit, or at ×1 or ×10 the rate, lost 0.005–0.008 on the addresses' dev
+// split (held at C 1: 0.03), so none went on to a round.
 func DefaultRecipe() Recipe {
 	base := linear.DefaultConfig()
 	return Recipe{
