@@ -103,6 +103,17 @@ func readColumns(r io.Reader, path, format string, opt Options) ([]string, error
 	return nil, errAt(path, 0, ErrFormat, "unknown format %q: use csv, tsv, jsonl or dir", format)
 }
 
+// ColumnsBytes is Columns for a file's content held in memory (a named
+// pipe's, which can be read only once): name stands in for its path, in
+// messages and for the format, as in LoadBytes.
+func ColumnsBytes(name string, data []byte, opt Options) ([]string, error) {
+	format := opt.Format
+	if format == "" {
+		format = detectFormat(name, false)
+	}
+	return readColumns(bytes.NewReader(data), name, format, opt)
+}
+
 // LoadBytes reads a corpus held in memory, as Load reads a file: data is
 // the content of a CSV, TSV or JSON Lines file and name stands in for its
 // path (in messages, Dataset.Path, and for the format when opt.Format is

@@ -36,14 +36,19 @@ func TestColumns(t *testing.T) {
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			got, err := Columns(write(c.file, c.content), Options{})
+			// The same content held in memory (a named pipe's) gives the same.
+			fromBytes, errBytes := ColumnsBytes(c.file, []byte(c.content), Options{})
 			if c.err != nil {
-				if !errors.Is(err, c.err) {
-					t.Fatalf("error %v, want one wrapping %v", err, c.err)
+				if !errors.Is(err, c.err) || !errors.Is(errBytes, c.err) {
+					t.Fatalf("errors %v and (from bytes) %v, want both wrapping %v", err, errBytes, c.err)
 				}
 				return
 			}
 			if err != nil || !reflect.DeepEqual(got, c.want) {
 				t.Fatalf("Columns = %q, %v; want %q", got, err, c.want)
+			}
+			if errBytes != nil || !reflect.DeepEqual(fromBytes, c.want) {
+				t.Fatalf("ColumnsBytes = %q, %v; want %q", fromBytes, errBytes, c.want)
 			}
 		})
 	}

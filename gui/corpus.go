@@ -7,6 +7,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/inputfile"
 )
 
 // corpusState is an opened corpus: the labeled data as read, and the
@@ -17,6 +18,9 @@ type corpusState struct {
 	TestPath string // the test file, "" when the test split is a share of the data
 	Opts     corpus.Options
 	Columns  []string // columns or keys of the file, when it has any
+	// pipeData and pipeTest are the content of Path and TestPath when
+	// they are named pipes (see dataSource), nil for other files.
+	pipeData, pipeTest []byte
 	// All is the labeled data; TestFile the test file (nil without one).
 	All, TestFile *corpus.Dataset
 	Plan          splitPlan
@@ -63,7 +67,11 @@ func (p splitPlan) check(withTestFile bool) error {
 type dataSource struct {
 	path, testPath      string
 	demoTrain, demoTest []byte
-	opts                corpus.Options
+	// pipeData and pipeTest are what was read before from path and
+	// testPath when they are named pipes, which can be read only once, so
+	// that the data can be read again with other columns.
+	pipeData, pipeTest []byte
+	opts               corpus.Options
 }
 
 // openData loads src in the background and makes it the open corpus, split
@@ -137,25 +145,59 @@ func (cs *corpusState) readDemo(src dataSource) error {
 	return nil
 }
 
-// readFiles reads the data file and the test file, if any.
+// readFiles reads the data file and the test file, if any. A named pipe
+// (a shell's process substitution, say) is read once into memory, for the
+// column pickers and the data alike.
 func (cs *corpusState) readFiles(src dataSource) error {
 	cs.Source = filepath.Base(src.path)
-	// The column pickers; a file whose header cannot be read is reported
-	// by Load below.
-	cs.Columns, _ = corpus.Columns(src.path, src.opts)
-	var warns []corpus.Warning
 	var err error
-	if cs.All, warns, err = corpus.Load(src.path, src.opts); err != nil {
+	if cs.pipeData, err = readPipe(src.path, src.pipeData); err != nil {
+		return err
+	}
+	if cs.pipeTest, err = readPipe(src.testPath, src.pipeTest); err != nil {
+		return err
+	}
+	// The column pickers; a file whose header cannot be read is reported
+	// by the load below.
+	if cs.pipeData != nil {
+		cs.Columns, _ = corpus.ColumnsBytes(src.path, cs.pipeData, src.opts)
+	} else {
+		cs.Columns, _ = corpus.Columns(src.path, src.opts)
+	}
+	var warns []corpus.Warning
+	if cs.All, warns, err = loadFile(src.path, cs.pipeData, src.opts); err != nil {
 		return err
 	}
 	cs.Warnings = warns
 	if src.testPath != "" {
-		if cs.TestFile, warns, err = corpus.Load(src.testPath, src.opts); err != nil {
+		if cs.TestFile, warns, err = loadFile(src.testPath, cs.pipeTest, src.opts); err != nil {
 			return err
 		}
 		cs.Warnings = append(cs.Warnings, warns...)
 	}
 	return nil
+}
+
+// readPipe returns kept if it is not nil, else the content of path when it
+// names a named pipe, and nil for any other file, which is read where it
+// lies.
+func readPipe(path string, kept []byte) ([]byte, error) {
+	if kept != nil || path == "" || !inputfile.IsPipe(path) {
+		return kept, nil
+	}
+	data, err := inputfile.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("corpus: %s: cannot read: %w", path, err)
+	}
+	return append([]byte{}, data...), nil // not nil, even when empty
+}
+
+// loadFile reads the corpus at path, from data when it is not nil.
+func loadFile(path string, data []byte, opts corpus.Options) (*corpus.Dataset, []corpus.Warning, error) {
+	if data != nil {
+		return corpus.LoadBytes(path, data, opts)
+	}
+	return corpus.Load(path, opts)
 }
 
 // resplit returns a copy of cs split by plan, with its summary and the

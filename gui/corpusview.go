@@ -101,7 +101,7 @@ func (v *corpusView) readAgain() {
 	}
 	opts := cs.Opts
 	opts.TextCol, opts.LabelCol = v.textCol.Selected, v.labelCol.Selected
-	v.st.openData(dataSource{path: cs.Path, testPath: cs.TestPath, opts: opts}, nil)
+	v.st.openData(dataSource{path: cs.Path, testPath: cs.TestPath, pipeData: cs.pipeData, pipeTest: cs.pipeTest, opts: opts}, nil)
 }
 
 func (v *corpusView) refresh() {

@@ -41,7 +41,7 @@ func Open(path string) (*os.File, error) { return process.open(path) }
 // the wait for a named pipe's writer ends with ErrInterrupted once
 // Interrupt is called.
 func ReadFile(path string) ([]byte, error) {
-	if !isPipe(path) {
+	if !IsPipe(path) {
 		return os.ReadFile(path) // reads a regular file in one buffer of its size
 	}
 	f, err := Open(path)
@@ -52,8 +52,9 @@ func ReadFile(path string) ([]byte, error) {
 	return io.ReadAll(f)
 }
 
-// isPipe reports whether path names a named pipe (after links).
-func isPipe(path string) bool {
+// IsPipe reports whether path names a named pipe (after links): one that
+// can be read only once.
+func IsPipe(path string) bool {
 	st, err := os.Stat(path)
 	return err == nil && st.Mode()&fs.ModeNamedPipe != 0
 }
@@ -64,7 +65,7 @@ func (o *opener) interrupt() { o.once.Do(func() { close(o.stop) }) }
 // finish on its own when o is interrupted first (it closes the file it
 // gets, should a writer come after all).
 func (o *opener) open(path string) (*os.File, error) {
-	if !isPipe(path) {
+	if !IsPipe(path) {
 		return os.Open(path) // not a pipe: os.Open says what is wrong, if anything
 	}
 	select {

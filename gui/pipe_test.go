@@ -1,0 +1,95 @@
+//go:build unix
+
+package gui
+
+import (
+	"context"
+	"os"
+	"path/filepath"
+	"reflect"
+	"syscall"
+	"testing"
+	"time"
+
+	"telltale/cnn"
+	"telltale/corpus"
+)
+
+// A named pipe given as the data file (a shell's process substitution, say)
+// is read once: its columns and examples are those of the same file read
+// from disk, and reading it again with other columns takes them from memory,
+// with no writer. Reading it twice from the pipe, as before, gave the data
+// from where the column list had stopped, or waited for a second writer
+// (common practice, no source: a pipe's content can be read only once).
+func TestLoadCorpusFromNamedPipe(t *testing.T) {
+	train, _ := demoBytes(t)
+	fifo := filepath.Join(t.TempDir(), "data.csv")
+	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
+		t.Fatal(err)
+	}
+	go func() {
+		f, err := os.OpenFile(fifo, os.O_WRONLY, 0)
+		if err != nil {
+			return
+		}
+		defer f.Close()
+		f.Write(train)
+	}()
+	plan := splitPlan{DevFrac: cnn.DefaultDevFrac, TestFrac: cnn.DefaultTestFrac, Seed: 1}
+	load := func(src dataSource) *corpusState {
+		t.Helper()
+		type result struct {
+			cs  *corpusState
+			err error
+		}
+		done := make(chan result, 1)
+		go func() {
+			cs, err := loadCorpus(context.Background(), src, plan)
+			done <- result{cs, err}
+		}()
+		select {
+		case r := <-done:
+			if r.err != nil {
+				t.Fatal(r.err)
+			}
+			return r.cs
+		case <-time.After(60 * time.Second):
+			t.Fatal("the window still reads the pipe after 60 s: it waits for a second writer")
+		}
+		return nil
+	}
+	cs := load(dataSource{path: fifo})
+
+	onDisk := filepath.Join(t.TempDir(), "data.csv")
+	if err := os.WriteFile(onDisk, train, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	want, _, err := corpus.Load(onDisk, corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	wantColumns, err := corpus.Columns(onDisk, corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	check := func(what string, cs *corpusState) {
+		t.Helper()
+		if !reflect.DeepEqual(cs.Columns, wantColumns) {
+			t.Errorf("%s: columns %v, want %v", what, cs.Columns, wantColumns)
+		}
+		if len(cs.All.Examples) != len(want.Examples) || !reflect.DeepEqual(cs.All.Labels, want.Labels) {
+			t.Fatalf("%s: %d examples, labels %v; want %d, %v", what, len(cs.All.Examples), cs.All.Labels, len(want.Examples), want.Labels)
+		}
+		for i, e := range cs.All.Examples {
+			if e.Text != want.Examples[i].Text || e.Label != want.Examples[i].Label {
+				t.Fatalf("%s: example %d is %q (%s), want %q (%s)", what, i, e.Text, e.Label, want.Examples[i].Text, want.Examples[i].Label)
+			}
+		}
+	}
+	check("read from the pipe", cs)
+
+	// Again, as "Read again with these columns" does: the pipe has no
+	// writer now.
+	again := load(dataSource{path: cs.Path, pipeData: cs.pipeData, opts: corpus.Options{TextCol: wantColumns[0], LabelCol: wantColumns[1]}})
+	check("read again", again)
+}
