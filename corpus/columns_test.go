@@ -64,23 +64,29 @@ func TestColumns(t *testing.T) {
 // gives for the file, examples, labels, warnings and errors alike.
 func TestLoadBytesMatchesLoad(t *testing.T) {
 	dir := t.TempDir()
-	for _, c := range []struct{ file, content string }{
-		{"a.csv", "text,label\nhello there,b\n\"two\nlines\",a\n,a\nbye,b\n"},
-		{"a.tsv", "label\ttext\nx\tone\ny\ttwo\n"},
-		{"a.jsonl", "{\"text\":\"one\",\"label\":1}\n\n{\"text\":\"two\",\"label\":2}\n"},
-		{"one-label.csv", "text,label\na,x\nb,x\n"},
-		{"one-example.csv", "text,label\na,x\n"},
-		{"bad-quote.csv", "text,label\n\"a,x\nb,y\n"},
-		{"no-label.csv", "text,team\nhi,a\n"},
-		{"invalid.csv", "text,label\nbad \xff byte,a\nok,b\n"},
+	for _, c := range []struct {
+		file, content string
+		unlabeled     bool
+	}{
+		{"a.csv", "text,label\nhello there,b\n\"two\nlines\",a\n,a\nbye,b\n", false},
+		{"a.tsv", "label\ttext\nx\tone\ny\ttwo\n", false},
+		{"a.jsonl", "{\"text\":\"one\",\"label\":1}\n\n{\"text\":\"two\",\"label\":2}\n", false},
+		{"one-label.csv", "text,label\na,x\nb,x\n", false},
+		{"one-label-unlabeled.csv", "text,label\na,x\nb,x\n", true},
+		{"one-example.csv", "text,label\na,x\n", false},
+		{"bad-quote.csv", "text,label\n\"a,x\nb,y\n", false},
+		{"no-label.csv", "text,team\nhi,a\n", false},
+		{"invalid.csv", "text,label\nbad \xff byte,a\nok,b\n", false},
+		{"bom-crlf.csv", "\ufefftext,label\r\nhi,a\r\nyo,b\r\n", false},
 	} {
 		t.Run(c.file, func(t *testing.T) {
 			p := filepath.Join(dir, c.file)
 			if err := os.WriteFile(p, []byte(c.content), 0o600); err != nil {
 				t.Fatal(err)
 			}
-			want, wantW, wantErr := Load(p, Options{ReplaceInvalidUTF8: true})
-			got, gotW, gotErr := LoadBytes(p, []byte(c.content), Options{ReplaceInvalidUTF8: true})
+			opt := Options{ReplaceInvalidUTF8: true, Unlabeled: c.unlabeled}
+			want, wantW, wantErr := Load(p, opt)
+			got, gotW, gotErr := LoadBytes(p, []byte(c.content), opt)
 			if (wantErr == nil) != (gotErr == nil) || (wantErr != nil && wantErr.Error() != gotErr.Error()) {
 				t.Fatalf("errors differ: Load %v, LoadBytes %v", wantErr, gotErr)
 			}

@@ -146,8 +146,8 @@ func (cs *corpusState) readDemo(src dataSource) error {
 }
 
 // readFiles reads the data file and the test file, if any. A named pipe
-// (a shell's process substitution, say) is read once into memory, for the
-// column pickers and the data alike.
+// (mkfifo) is read once into memory, for the column pickers and the data
+// alike, and kept there while the corpus is open.
 func (cs *corpusState) readFiles(src dataSource) error {
 	cs.Source = filepath.Base(src.path)
 	var err error
@@ -179,8 +179,9 @@ func (cs *corpusState) readFiles(src dataSource) error {
 }
 
 // readPipe returns kept if it is not nil, else the content of path when it
-// names a named pipe, and nil for any other file, which is read where it
-// lies.
+// is a named pipe, and nil for any other file, which is read where it lies.
+// The pipe is read whole, without the per-record bound that reading it as a
+// stream would set.
 func readPipe(path string, kept []byte) ([]byte, error) {
 	if kept != nil || path == "" || !inputfile.IsPipe(path) {
 		return kept, nil
@@ -189,7 +190,10 @@ func readPipe(path string, kept []byte) ([]byte, error) {
 	if err != nil {
 		return nil, fmt.Errorf("corpus: %s: cannot read: %w", path, err)
 	}
-	return append([]byte{}, data...), nil // not nil, even when empty
+	if data == nil {
+		data = []byte{} // not nil: a pipe that gave nothing was still read
+	}
+	return data, nil
 }
 
 // loadFile reads the corpus at path, from data when it is not nil.

@@ -15,8 +15,7 @@ import (
 	"telltale/corpus"
 )
 
-// A named pipe given as the data file (a shell's process substitution, say)
-// is read once: its columns and examples are those of the same file read
+// A named pipe given as the data file (mkfifo) is read once: its columns and examples are those of the same file read
 // from disk, and reading it again with other columns takes them from memory,
 // with no writer. Reading it twice from the pipe, as before, gave the data
 // from where the column list had stopped, or waited for a second writer
@@ -25,8 +24,15 @@ func TestLoadCorpusFromNamedPipe(t *testing.T) {
 	train, _ := demoBytes(t)
 	fifo := filepath.Join(t.TempDir(), "data.csv")
 	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
-		t.Fatal(err)
+		t.Skipf("no named pipe here: %v", err)
 	}
+	// Should the load never open the pipe, a reader that does not wait
+	// releases the writer below before the folder goes.
+	t.Cleanup(func() {
+		if f, err := os.OpenFile(fifo, os.O_RDONLY|syscall.O_NONBLOCK, 0); err == nil {
+			f.Close()
+		}
+	})
 	go func() {
 		f, err := os.OpenFile(fifo, os.O_WRONLY, 0)
 		if err != nil {
