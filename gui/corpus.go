@@ -109,7 +109,7 @@ func loadCorpus(ctx context.Context, src dataSource, plan splitPlan) (*corpusSta
 	if src.path == "" {
 		err = cs.readDemo(src)
 	} else {
-		err = cs.readFiles(src)
+		err = cs.readFiles(ctx, src)
 	}
 	if err != nil {
 		return nil, err
@@ -148,13 +148,13 @@ func (cs *corpusState) readDemo(src dataSource) error {
 // readFiles reads the data file and the test file, if any. A named pipe
 // (mkfifo) is read once into memory, for the column pickers and the data
 // alike, and kept there while the corpus is open.
-func (cs *corpusState) readFiles(src dataSource) error {
+func (cs *corpusState) readFiles(ctx context.Context, src dataSource) error {
 	cs.Source = filepath.Base(src.path)
 	var err error
-	if cs.pipeData, err = readPipe(src.path, src.pipeData); err != nil {
+	if cs.pipeData, err = readPipe(ctx, src.path, src.pipeData); err != nil {
 		return err
 	}
-	if cs.pipeTest, err = readPipe(src.testPath, src.pipeTest); err != nil {
+	if cs.pipeTest, err = readPipe(ctx, src.testPath, src.pipeTest); err != nil {
 		return err
 	}
 	// The column pickers; a file whose header cannot be read is reported
@@ -181,12 +181,13 @@ func (cs *corpusState) readFiles(src dataSource) error {
 // readPipe returns kept if it is not nil, else the content of path when it
 // is a named pipe, and nil for any other file, which is read where it lies.
 // The pipe is read whole, without the per-record bound that reading it as a
-// stream would set.
-func readPipe(path string, kept []byte) ([]byte, error) {
+// stream would set; the wait for its writer, or for more from it, ends when
+// ctx is done (the status bar's Stop).
+func readPipe(ctx context.Context, path string, kept []byte) ([]byte, error) {
 	if kept != nil || path == "" || !inputfile.IsPipe(path) {
 		return kept, nil
 	}
-	data, err := inputfile.ReadFile(path)
+	data, err := inputfile.ReadFileContext(ctx, path)
 	if err != nil {
 		return nil, fmt.Errorf("corpus: %s: cannot read: %w", path, err)
 	}

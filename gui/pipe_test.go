@@ -4,6 +4,7 @@ package gui
 
 import (
 	"context"
+	"errors"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -98,4 +99,33 @@ func TestLoadCorpusFromNamedPipe(t *testing.T) {
 	// writer now.
 	again := load(dataSource{path: cs.Path, pipeData: cs.pipeData, opts: corpus.Options{TextCol: wantColumns[0], LabelCol: wantColumns[1]}})
 	check("read again", again)
+}
+
+// The status bar's Stop (the task's context) ends the wait for a named
+// pipe's writer; the load ends as cancelled.
+func TestLoadCorpusFromNamedPipeStops(t *testing.T) {
+	fifo := filepath.Join(t.TempDir(), "data.csv")
+	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
+		t.Skipf("no named pipe here: %v", err)
+	}
+	t.Cleanup(func() { // releases an open still waiting for a writer
+		if w, err := os.OpenFile(fifo, os.O_WRONLY|syscall.O_NONBLOCK, 0); err == nil {
+			w.Close()
+		}
+	})
+	ctx, cancel := context.WithCancel(context.Background())
+	time.AfterFunc(200*time.Millisecond, cancel)
+	done := make(chan error, 1)
+	go func() {
+		_, err := loadCorpus(ctx, dataSource{path: fifo}, splitPlan{DevFrac: cnn.DefaultDevFrac, TestFrac: cnn.DefaultTestFrac, Seed: 1})
+		done <- err
+	}()
+	select {
+	case err := <-done:
+		if !errors.Is(err, context.Canceled) {
+			t.Fatalf("load of a pipe with no writer, stopped: %v; want a cancellation", err)
+		}
+	case <-time.After(10 * time.Second):
+		t.Fatal("the load still waits for the pipe's writer 10 s after Stop")
+	}
 }

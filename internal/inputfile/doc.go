@@ -9,5 +9,7 @@
 // when Interrupt is called (the command line calls it on SIGINT and
 // SIGTERM); other files are opened directly. A writer that comes later
 // still reaches a command that was not interrupted, whole: the pipe is
-// opened once, by the reader that reads it.
+// opened once, by the reader that reads it. ReadFileContext also gives way
+// when its context is done, while it waits for the writer or for more from
+// it (the window's Stop, which must not end later reads as Interrupt does).
 package inputfile

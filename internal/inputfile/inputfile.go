@@ -64,13 +64,20 @@ func (o *opener) interrupt() { o.once.Do(func() { close(o.stop) }) }
 // open opens path; a named pipe is opened on a goroutine that is left to
 // finish on its own when o is interrupted first (it closes the file it
 // gets, should a writer come after all).
-func (o *opener) open(path string) (*os.File, error) {
+func (o *opener) open(path string) (*os.File, error) { return o.openUntil(path, nil) }
+
+// openUntil is open that also stops waiting for a pipe's writer when
+// cancel is closed (nil: never).
+func (o *opener) openUntil(path string, cancel <-chan struct{}) (*os.File, error) {
 	if !IsPipe(path) {
 		return os.Open(path) // not a pipe: os.Open says what is wrong, if anything
 	}
+	interrupted := &fs.PathError{Op: "open", Path: path, Err: ErrInterrupted}
 	select {
 	case <-o.stop:
-		return nil, &fs.PathError{Op: "open", Path: path, Err: ErrInterrupted}
+		return nil, interrupted
+	case <-cancel:
+		return nil, interrupted
 	default:
 	}
 	type opened struct {
@@ -86,11 +93,36 @@ func (o *opener) open(path string) (*os.File, error) {
 	case r := <-done:
 		return r.f, r.err
 	case <-o.stop:
-		go func() {
-			if r := <-done; r.f != nil {
-				r.f.Close()
-			}
-		}()
-		return nil, &fs.PathError{Op: "open", Path: path, Err: ErrInterrupted}
+	case <-cancel:
 	}
+	go func() {
+		if r := <-done; r.f != nil {
+			r.f.Close()
+		}
+	}()
+	return nil, interrupted
+}
+
+// ReadFileContext reads the whole file at path as ReadFile does, and also
+// ends with ErrInterrupted when ctx is done while a named pipe is waited
+// for: for its writer to open it, or for the writer to write more or close
+// it. (The window's Stop reaches a pipe this way; Interrupt reaches it too.)
+func ReadFileContext(ctx context.Context, path string) ([]byte, error) {
+	if !IsPipe(path) {
+		return os.ReadFile(path)
+	}
+	f, err := process.openUntil(path, ctx.Done())
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	// Closing the file ends a read that waits on the pipe: the runtime
+	// polls pipes, and a close wakes the poller.
+	stop := context.AfterFunc(ctx, func() { f.Close() })
+	defer stop()
+	data, err := io.ReadAll(f)
+	if err != nil && ctx.Err() != nil {
+		return nil, &fs.PathError{Op: "read", Path: path, Err: ErrInterrupted}
+	}
+	return data, err
 }

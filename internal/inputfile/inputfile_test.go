@@ -21,6 +21,12 @@ func fifo(t *testing.T) string {
 	if err := syscall.Mkfifo(p, 0o600); err != nil {
 		t.Skipf("mkfifo: %v", err)
 	}
+	// A writer that does not wait releases an open left waiting for one.
+	t.Cleanup(func() {
+		if w, err := os.OpenFile(p, os.O_WRONLY|syscall.O_NONBLOCK, 0); err == nil {
+			w.Close()
+		}
+	})
 	return p
 }
 
@@ -125,4 +131,74 @@ func TestReadFile(t *testing.T) {
 	if _, err := ReadFile(p + ".missing"); !errors.Is(err, os.ErrNotExist) {
 		t.Errorf("ReadFile of a missing file: %v; want ErrNotExist", err)
 	}
+}
+
+// readWithin runs ReadFileContext(ctx, p) and fails the test when it has
+// not returned within 5 s.
+func readWithin(t *testing.T, ctx context.Context, p string) ([]byte, error) {
+	t.Helper()
+	type read struct {
+		data []byte
+		err  error
+	}
+	done := make(chan read, 1)
+	go func() {
+		data, err := ReadFileContext(ctx, p)
+		done <- read{data, err}
+	}()
+	select {
+	case r := <-done:
+		return r.data, r.err
+	case <-time.After(5 * time.Second):
+		t.Fatalf("read of %s still waits 5 s after it was cancelled", p)
+		return nil, nil
+	}
+}
+
+// TestReadFileContext: a cancelled context ends the wait for a pipe's
+// writer, and the wait for more from a writer that keeps the pipe open,
+// with ErrInterrupted (matching context.Canceled); it stops nothing else,
+// so a later read of a pipe whose writer comes gets it whole.
+func TestReadFileContext(t *testing.T) {
+	t.Run("no writer", func(t *testing.T) {
+		p := fifo(t)
+		ctx, cancel := context.WithCancel(context.Background())
+		time.AfterFunc(200*time.Millisecond, cancel)
+		if data, err := readWithin(t, ctx, p); data != nil || !errors.Is(err, ErrInterrupted) || !errors.Is(err, context.Canceled) {
+			t.Fatalf("read of a pipe with no writer, cancelled: %q, %v; want ErrInterrupted", data, err)
+		}
+	})
+	t.Run("writer that stalls", func(t *testing.T) {
+		p := fifo(t)
+		release := make(chan struct{})
+		defer close(release)
+		go func() {
+			w, err := os.OpenFile(p, os.O_WRONLY, 0)
+			if err != nil {
+				return
+			}
+			defer w.Close()
+			io.WriteString(w, "text,label\n")
+			<-release // holds the pipe open, writing nothing more
+		}()
+		ctx, cancel := context.WithCancel(context.Background())
+		time.AfterFunc(300*time.Millisecond, cancel)
+		if data, err := readWithin(t, ctx, p); data != nil || !errors.Is(err, ErrInterrupted) {
+			t.Fatalf("read of a stalled pipe, cancelled: %q, %v; want ErrInterrupted", data, err)
+		}
+	})
+	t.Run("writer that comes", func(t *testing.T) {
+		p := fifo(t)
+		want := "text,label\nlost bag,lost-property\n"
+		go func() {
+			w, err := os.OpenFile(p, os.O_WRONLY, 0)
+			if err == nil {
+				io.WriteString(w, want)
+				w.Close()
+			}
+		}()
+		if data, err := readWithin(t, context.Background(), p); err != nil || string(data) != want {
+			t.Fatalf("read %q, %v; want %q", data, err, want)
+		}
+	})
 }
