@@ -30,26 +30,33 @@ func fifo(t *testing.T) string {
 	return p
 }
 
-// openWithin runs o.open(p) and fails the test when it has not returned
-// within 5 s.
-func openWithin(t *testing.T, o *opener, p string) (*os.File, error) {
+// within runs f and fails the test when it has not returned within 5 s;
+// what names the wait in the message.
+func within[T any](t *testing.T, what string, f func() (T, error)) (T, error) {
 	t.Helper()
-	type opened struct {
-		f   *os.File
+	type result struct {
+		v   T
 		err error
 	}
-	done := make(chan opened, 1)
+	done := make(chan result, 1)
 	go func() {
-		f, err := o.open(p)
-		done <- opened{f, err}
+		v, err := f()
+		done <- result{v, err}
 	}()
 	select {
 	case r := <-done:
-		return r.f, r.err
+		return r.v, r.err
 	case <-time.After(5 * time.Second):
-		t.Fatalf("open of %s still waits after 5 s", p)
-		return nil, nil
+		t.Fatalf("%s still waits after 5 s", what)
+		var zero T
+		return zero, nil
 	}
+}
+
+// openWithin runs o.open(p) within 5 s.
+func openWithin(t *testing.T, o *opener, p string) (*os.File, error) {
+	t.Helper()
+	return within(t, "open of "+p, func() (*os.File, error) { return o.open(p) })
 }
 
 // TestOpenPipeInterrupted: opening a named pipe for reading blocks until a
@@ -133,26 +140,10 @@ func TestReadFile(t *testing.T) {
 	}
 }
 
-// readWithin runs ReadFileContext(ctx, p) and fails the test when it has
-// not returned within 5 s.
+// readWithin runs ReadFileContext(ctx, p) within 5 s.
 func readWithin(t *testing.T, ctx context.Context, p string) ([]byte, error) {
 	t.Helper()
-	type read struct {
-		data []byte
-		err  error
-	}
-	done := make(chan read, 1)
-	go func() {
-		data, err := ReadFileContext(ctx, p)
-		done <- read{data, err}
-	}()
-	select {
-	case r := <-done:
-		return r.data, r.err
-	case <-time.After(5 * time.Second):
-		t.Fatalf("read of %s still waits 5 s after it was cancelled", p)
-		return nil, nil
-	}
+	return within(t, "read of "+p, func() ([]byte, error) { return ReadFileContext(ctx, p) })
 }
 
 // TestReadFileContext: a cancelled context ends the wait for a pipe's
