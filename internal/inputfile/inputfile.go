@@ -41,15 +41,7 @@ func Open(path string) (*os.File, error) { return process.open(path) }
 // the wait for a named pipe's writer ends with ErrInterrupted once
 // Interrupt is called.
 func ReadFile(path string) ([]byte, error) {
-	if !IsPipe(path) {
-		return os.ReadFile(path) // reads a regular file in one buffer of its size
-	}
-	f, err := Open(path)
-	if err != nil {
-		return nil, err
-	}
-	defer f.Close()
-	return io.ReadAll(f)
+	return ReadFileContext(context.Background(), path) // a context never done
 }
 
 // IsPipe reports whether path names a named pipe (after links): one that
@@ -109,7 +101,7 @@ func (o *opener) openUntil(path string, cancel <-chan struct{}) (*os.File, error
 // it. (The window's Stop reaches a pipe this way; Interrupt reaches it too.)
 func ReadFileContext(ctx context.Context, path string) ([]byte, error) {
 	if !IsPipe(path) {
-		return os.ReadFile(path)
+		return os.ReadFile(path) // reads a regular file in one buffer of its size
 	}
 	f, err := process.openUntil(path, ctx.Done())
 	if err != nil {
