@@ -15,6 +15,7 @@ import (
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/explain"
+	"telltale/internal/inputfile"
 	"telltale/internal/outguard"
 	"telltale/internal/wording"
 	"telltale/report"
@@ -117,7 +118,12 @@ func (o *filtersOptions) source(ctx context.Context, m *cnn.Model, enc *corpus.E
 		return streamTexts(ctx, o.data, o.read.corpusOptions(false), o.read.example, enc, m.Labels)
 	}
 	if m.Info.Splits == nil && m.Config.Chars == nil {
-		return profileSource{model: m, open: stream, note: "the model file does not record how its splits were made: profiling all texts of " + o.data}, nil
+		note := "the model file does not record how its splits were made: profiling all texts of " + o.data
+		once := inputfile.IsPipe(o.data)
+		if once {
+			note += " (a pipe, read once: a filter whose negative n-grams need a second reading has them marked inexact; give a file to have every one exact)"
+		}
+		return profileSource{model: m, open: stream, note: note, once: once}, nil
 	}
 	all, err := o.read.read(o.data, true, env.Stderr, o.quiet)
 	if err != nil {
@@ -140,6 +146,7 @@ type profileSource struct {
 	note     string                              // which texts, for the user
 	total    int                                 // the number of texts; 0 when streamed (not known in advance)
 	training bool                                // the texts are the model's training split
+	once     bool                                // the texts can be read only once (a pipe): no second pass
 }
 
 // profilingNote is the progress line of filters after done of total texts
@@ -236,14 +243,18 @@ func runFilters(ctx context.Context, env *runEnv, o *filtersOptions) error {
 		}
 	}()
 	bar := newProgressBar(env.Stderr, o.quiet)
+	reopen := func() (explain.TextSource, error) {
+		bar.note("reading the texts again for the negative n-grams")
+		var again explain.TextSource
+		again, stopAgain = stream()
+		return again, nil
+	}
+	if src.once {
+		reopen = nil // a pipe's texts are gone after one reading
+	}
 	prof, err := explain.ProfileStream(ctx, m, next, explain.ProfileOptions{
 		TopK: o.top, Negatives: o.top, Selective: o.selective, Alpha: o.alpha, Workers: o.threads.N,
-		Reopen: func() (explain.TextSource, error) {
-			bar.note("reading the texts again for the negative n-grams")
-			var again explain.TextSource
-			again, stopAgain = stream()
-			return again, nil
-		},
+		Reopen: reopen,
 		Progress: func(done, _ int) {
 			if total > 0 {
 				bar.show(done, total, profilingNote(done, total), false)
