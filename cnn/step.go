@@ -145,6 +145,14 @@ type trainer struct {
 	gWide []float32 // full-size gradient of Model.Wide, zero outside the batch's rows
 	gBig  []float32 // full-size gradient of Model.WideBigram, zero outside the batch's rows
 
+	// wideOOF, when set (TrainConfig.WideFitFolds), holds each training
+	// text's out-of-fold wide term (row i×Classes for text i of the split
+	// prepared), which a step adds in place of the model's wide term;
+	// batchIdx is the current batch's texts in that split. The word and
+	// bigram weights then take no update (gWide and gBig stay nil).
+	wideOOF  []float32
+	batchIdx []int
+
 	// wideRows are the rows of Model.Wide with gradient in the current
 	// step: the batch's words, and UNK when a text has no word
 	// (scatterWide fills it).
@@ -254,7 +262,8 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 // (Config.Wide, WideBigrams) through add, and sets up the bigrams' dropout.
 func (tr *trainer) addWideGroups(add func(p, g []float32, decay bool)) {
 	m, tc, cfg := tr.m, tr.tc, tr.m.Config
-	if cfg.Wide {
+	held := tc.WideFit && tc.WideFitFolds >= 2
+	if cfg.Wide && !held {
 		// A weight like the embeddings (weight decay shrinks it); not part
 		// of the head warm-up, and the PAD row is never trained.
 		tr.gWide = make([]float32, len(m.Wide))
@@ -267,14 +276,16 @@ func (tr *trainer) addWideGroups(add func(p, g []float32, decay bool)) {
 		}
 	}
 	if cfg.WideBigrams {
-		// As the word weights: weight decay, the same factor on the rate.
-		tr.gBig = make([]float32, len(m.WideBigram))
-		add(m.WideBigram, tr.gBig, true)
-		tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
-		tr.groups[len(tr.groups)-1].extraDecay = tc.WideDecay
-		if tc.WideSparse {
-			g := &tr.groups[len(tr.groups)-1]
-			g.rows, g.width = &tr.bs.rows, cfg.Classes
+		if !held {
+			// As the word weights: weight decay, the same factor on the rate.
+			tr.gBig = make([]float32, len(m.WideBigram))
+			add(m.WideBigram, tr.gBig, true)
+			tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
+			tr.groups[len(tr.groups)-1].extraDecay = tc.WideDecay
+			if tc.WideSparse {
+				g := &tr.groups[len(tr.groups)-1]
+				g.rows, g.width = &tr.bs.rows, cfg.Classes
+			}
 		}
 		tr.bs.init(len(m.Bigrams))
 		if tc.TokenDropout > 0 {
@@ -357,6 +368,7 @@ func (tr *trainer) step(d Data, idx []int) float64 {
 		tr.labels = append(tr.labels, d.Labels[i])
 	}
 	tr.orig = append(tr.orig[:0], tr.texts...)
+	tr.batchIdx = idx
 	tr.batchRows = tr.prep.batch(d.IDs, idx, tr.batchRows[:0])
 	if tr.unkP != nil {
 		tr.dropWords()
@@ -452,10 +464,10 @@ func (tr *trainer) forwardBackward() float64 {
 	if !tr.tc.FreezeEmb {
 		tr.wk.run(nw, tr.fnScatter)
 	}
-	if cfg.Wide {
+	if tr.gWide != nil {
 		tr.scatterWide()
 	}
-	if cfg.WideBigrams {
+	if tr.gBig != nil {
 		tr.scatterBigrams()
 	}
 	var sum float64
@@ -538,7 +550,12 @@ func (tr *trainer) texts_(k, lo, hi int) {
 			}
 		}
 		m.Head(t.h, t.z)
-		tr.addWide(i, ids, t.z)
+		if tr.wideOOF != nil {
+			j := tr.batchIdx[i] * C
+			addTo(t.z, tr.wideOOF[j:j+C])
+		} else {
+			tr.addWide(i, ids, t.z)
+		}
 		y := tr.labels[i]
 		tr.loss[i] = crossEntropy(t.z, t.p, y)
 		sc := scale
@@ -550,7 +567,9 @@ func (tr *trainer) texts_(k, lo, hi int) {
 			t.dz[c] = t.p[c] * sc
 		}
 		t.dz[y] -= sc
-		wideGrad(ids, loc, tr.textPairs(i), t.dz, t.wide, t.wideUNK, t.bigram)
+		if tr.wideOOF == nil {
+			wideGrad(ids, loc, tr.textPairs(i), t.dz, t.wide, t.wideUNK, t.bigram)
+		}
 		// Output layer.
 		for c := 0; c < C; c++ {
 			axpy(t.dz[c], t.h, t.ow[c*nf:(c+1)*nf])

@@ -128,6 +128,17 @@ type TrainConfig struct {
 	// it, and the filters' output weights at zero (widefit.go), so training
 	// starts from that linear model. It needs the word weights.
 	WideFit bool `json:"wide_fit,omitempty"`
+	// WideFitFolds, 2 or more, holds the fitted start (WideFit) where the
+	// fit put it (the word and bigram weights take no update) and trains
+	// the rest beside out-of-fold wide terms: the training split is cut
+	// into that many folds (by Seed), the logistic regression refitted at
+	// the chosen C on all folds but one, and each training text's wide
+	// term in a step is that of the fit that did not see it
+	// (cross-fitting, as in stacked generalization, Wolpert 1992,
+	// "Stacked generalization"). Dev evaluation and the trained model use
+	// the full fit. 0 trains the fitted start like any weight; it needs
+	// WideFit.
+	WideFitFolds int `json:"wide_fit_folds,omitempty"`
 	// WideFitC fixes the fitted start's inverse regularisation strength
 	// (WideFit); 0 chooses it on dev from the baseline's grid. It must be
 	// finite and not negative, and 0 without WideFit. A C chosen on dev
@@ -208,6 +219,10 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: C %g of the fitted start: must be 0 (chosen on dev) or a finite positive number", tc.WideFitC)
 	case tc.WideFitC > 0 && !tc.WideFit:
 		return tc, fmt.Errorf("cnn: C %g of the fitted start, but no fitted start: turn WideFit on or set WideFitC to 0", tc.WideFitC)
+	case tc.WideFitFolds < 0 || tc.WideFitFolds == 1:
+		return tc, fmt.Errorf("cnn: %d folds for the fitted start's out-of-fold terms: must be 0 (none) or 2 or more", tc.WideFitFolds)
+	case tc.WideFitFolds > 0 && !tc.WideFit:
+		return tc, fmt.Errorf("cnn: %d folds for the fitted start, but no fitted start: turn WideFit on or set WideFitFolds to 0", tc.WideFitFolds)
 	case tc.WideSparse && tc.Optimizer != "adam":
 		return tc, fmt.Errorf("cnn: sparse word weights need the adam optimizer, not %s: choose adam or turn the sparse update off", tc.Optimizer)
 	case tc.WideSparse && tc.WeightDecay > 0:
@@ -354,13 +369,14 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		return nil, err
 	}
 	train, dev = train.Truncate(tc.MaxLen), dev.Truncate(tc.MaxLen)
-	cancelled, err := startWide(ctx, m, train, dev, tc, progress) // cancelled: no epoch runs
+	oof, cancelled, err := startWide(ctx, m, train, dev, tc, progress) // cancelled: no epoch runs
 	if err != nil {
 		return nil, err
 	}
 	tr := newTrainer(m, tc)
 	defer tr.close()
 	tr.prepare(train)
+	tr.wideOOF = oof
 	rng := rand.New(rand.NewPCG(tc.Seed, tc.Seed^0x5bd1e995))
 	run := &trainRun{ctx: ctx, m: m, tr: tr, tc: tc, train: train, progress: progress, res: &TrainResult{}}
 	res := run.res

@@ -3,6 +3,7 @@ package cnn
 import (
 	"context"
 	"fmt"
+	"math/rand/v2"
 	"slices"
 
 	"telltale/corpus"
@@ -91,46 +92,63 @@ func checkWideFit(cfg Config, tc TrainConfig) error {
 }
 
 // startWide reports PhaseWideFit and fits m's start when tc.WideFit is set
-// (fitWideStart); cancelled says that ctx ended the fit, m unchanged.
-func startWide(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progress func(Progress)) (cancelled bool, err error) {
+// (fitWideStart), and with tc.WideFitFolds the out-of-fold wide terms of
+// train (wideOutOfFold; nil otherwise); cancelled says that ctx ended the
+// fit, m unchanged.
+func startWide(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progress func(Progress)) (oof []float32, cancelled bool, err error) {
 	if !tc.WideFit {
-		return false, nil
+		return nil, false, nil
 	}
 	if progress != nil {
 		progress(Progress{Phase: PhaseWideFit})
 	}
-	if err := m.fitWideStart(ctx, train, dev, tc); err != nil {
-		if ctx.Err() == nil {
-			return false, err
+	fit := func() error {
+		clf, err := m.fitWideStart(ctx, train, dev, tc)
+		if err != nil || tc.WideFitFolds < 2 {
+			return err
 		}
-		return true, nil
+		oof, err = m.wideOutOfFold(ctx, train, tc, clf)
+		return err
 	}
-	return false, nil
+	if err := fit(); err != nil {
+		if ctx.Err() == nil {
+			return nil, false, err
+		}
+		return nil, true, nil
+	}
+	return oof, false, nil
+}
+
+// wideFit is the logistic regression of m's wide features that the fitted
+// start uses, over the grid cs (the one C of tc.WideFitC when it is
+// positive).
+func (m *Model) wideFit(tc TrainConfig, cs []float64) linear.RowsFit {
+	if tc.WideFitC > 0 {
+		cs = []float64{tc.WideFitC}
+	}
+	return linear.RowsFit{Features: m.wideFeatures(), Classes: m.Config.Classes, Cs: cs,
+		Solver: linear.SolverConfig{Threads: tc.Threads, GradTol: wideFitGradTol},
+		Score:  func(gold, pred []int) float64 { return ComputeMetrics(m.Labels, gold, pred, nil, 0).MacroF1 }}
 }
 
 // fitWideStart sets m's word and bigram weights and OutB to the logistic
 // regression fitted on train's wide features (C tc.WideFitC when it is
 // positive; else of the baseline's grid, the best dev macro-F1, the middle
 // one without a dev split) and OutW to
-// zero. M must have the wide path; train and dev must have passed check.
-func (m *Model) fitWideStart(ctx context.Context, train, dev Data, tc TrainConfig) error {
+// zero, and returns that fit. M must have the wide path; train and dev
+// must have passed check.
+func (m *Model) fitWideStart(ctx context.Context, train, dev Data, tc TrainConfig) (*linear.Classifier, error) {
 	if err := checkWideFit(m.Config, tc); err != nil {
-		return err
+		return nil, err
 	}
 	C, p := m.Config.Classes, m.wideFeatures()
-	cs := linear.DefaultConfig().Cs
-	if tc.WideFitC > 0 {
-		cs = []float64{tc.WideFitC}
-	}
-	fit := linear.RowsFit{Features: p, Classes: C, Cs: cs,
-		Solver: linear.SolverConfig{Threads: tc.Threads, GradTol: wideFitGradTol},
-		Score:  func(gold, pred []int) float64 { return ComputeMetrics(m.Labels, gold, pred, nil, 0).MacroF1 }}
+	fit := m.wideFit(tc, linear.DefaultConfig().Cs)
 	if tc.ClassWeight == "balanced" {
 		fit.ClassWeight = linear.BalancedWeights(train.Labels, C)
 	}
 	clf, _, err := fit.Fit(ctx, m.wideRows(train), train.Labels, m.wideRows(dev), dev.Labels)
 	if err != nil {
-		return fmt.Errorf("cnn: fitted start of the wide path: %w", err)
+		return nil, fmt.Errorf("cnn: fitted start of the wide path: %w", err)
 	}
 	V := m.Config.VocabSize
 	for c := range C {
@@ -145,5 +163,59 @@ func (m *Model) fitWideStart(ctx context.Context, train, dev Data, tc TrainConfi
 	}
 	clear(m.OutW)
 	m.Invalidate()
-	return nil
+	return clf, nil
+}
+
+// wideOutOfFold cuts train into tc.WideFitFolds folds (a permutation drawn
+// from tc.Seed), refits the logistic regression of full (the fitted start)
+// at full's C on all folds but one, and returns, for each training text
+// i, row i×Classes of the result: the wide term plus intercept of the fit
+// that did not see it, less full's intercept (which OutB holds). The
+// trainer adds it in place of the model's wide term (Model.addWide), so a
+// step sees logits OutW·h + OutB + that row. Train must have at least
+// tc.WideFitFolds texts.
+func (m *Model) wideOutOfFold(ctx context.Context, train Data, tc TrainConfig, full *linear.Classifier) ([]float32, error) {
+	k, n, C, p := tc.WideFitFolds, train.Len(), m.Config.Classes, m.wideFeatures()
+	if n < k {
+		return nil, fmt.Errorf("cnn: %d training texts for %d folds of the fitted start: lower the folds", n, k)
+	}
+	rows := m.wideRows(train)
+	fold := make([]int, n)
+	for j, i := range rand.New(rand.NewPCG(tc.Seed^0x13198a2e03707344, tc.Seed)).Perm(n) {
+		fold[i] = j % k
+	}
+	out := make([]float32, n*C)
+	for f := range k {
+		var X []linear.Row
+		var y []int
+		for i := range n {
+			if fold[i] != f {
+				X, y = append(X, rows[i]), append(y, train.Labels[i])
+			}
+		}
+		fc := m.wideFit(tc, nil)
+		fc.Cs = []float64{full.C} // the C the full fit was chosen with
+		if tc.ClassWeight == "balanced" {
+			fc.ClassWeight = linear.BalancedWeights(y, C)
+		}
+		clf, _, err := fc.Fit(ctx, X, y, nil, nil)
+		if err != nil {
+			return nil, fmt.Errorf("cnn: fold %d of the fitted start: %w", f+1, err)
+		}
+		for i := range n {
+			if fold[i] != f {
+				continue
+			}
+			r := rows[i]
+			for c := range C {
+				z := clf.Intercept[c] - full.Intercept[c]
+				coef := clf.Coef[c*p : (c+1)*p]
+				for j, col := range r.Index {
+					z += coef[col] * r.Value[j]
+				}
+				out[i*C+c] = float32(z)
+			}
+		}
+	}
+	return out, nil
 }

@@ -94,7 +94,7 @@ func wideFitAgainstSklearn(t *testing.T, train, test *corpus.Dataset, maxLen int
 	if err := m.SetBigrams(CollectBigrams(trainData.IDs)); err != nil {
 		t.Fatal(err)
 	}
-	if err := m.fitWideStart(context.Background(), trainData, Data{}, TrainConfig{Threads: 1}); err != nil {
+	if _, err := m.fitWideStart(context.Background(), trainData, Data{}, TrainConfig{Threads: 1}); err != nil {
 		t.Fatal(err)
 	}
 	for i, w := range m.OutW {
@@ -145,7 +145,7 @@ func TestWideFitPhaseAndCancel(t *testing.T) {
 	}
 	train, dev := toyData(5, 200, 30), toyData(6, 200, 30)
 	start := m.Clone()
-	if err := start.fitWideStart(context.Background(), train, dev, TrainConfig{Threads: 1}); err != nil {
+	if _, err := start.fitWideStart(context.Background(), train, dev, TrainConfig{Threads: 1}); err != nil {
 		t.Fatal(err)
 	}
 	if mt, _, _ := Evaluate(start, dev, 1); mt.Accuracy < 0.95 {
@@ -272,7 +272,7 @@ func TestWideFitFixedC(t *testing.T) {
 		if err := m.SetBigrams(CollectBigrams(trainData.IDs)); err != nil {
 			t.Fatal(err)
 		}
-		if err := m.fitWideStart(context.Background(), trainData, dev, TrainConfig{Threads: 1, WideFit: true, WideFitC: c}); err != nil {
+		if _, err := m.fitWideStart(context.Background(), trainData, dev, TrainConfig{Threads: 1, WideFit: true, WideFitC: c}); err != nil {
 			t.Fatal(err)
 		}
 		return m
@@ -294,5 +294,87 @@ func TestWideFitFixedC(t *testing.T) {
 	}
 	if _, err := (TrainConfig{WideFit: true, WideFitC: 10}).WithDefaults(); err != nil {
 		t.Errorf("WideFitC 10 with a fitted start was refused: %v", err)
+	}
+}
+
+// TestWideOutOfFold checks that each training text's out-of-fold wide term
+// comes from a fit that did not see it. Each text is one word of its own,
+// so the full fit's word weights separate the labels, while a fit that
+// never saw a word leaves that word's weight at zero (the L2 penalty alone
+// pulls on it: common practice, no source): the out-of-fold terms are then
+// the folds' intercepts less the full fit's, one vector per fold, whatever
+// the text's label.
+func TestWideOutOfFold(t *testing.T) {
+	const n, folds = 40, 4
+	m := randModel(1, n+2, 4, []int{1}, 2, 2)
+	m = withWide(m, 1, 0)
+	d := Data{IDs: make([][]int32, n), Labels: make([]int, n)}
+	for i := range n {
+		d.IDs[i], d.Labels[i] = []int32{int32(i + 2)}, i%2
+	}
+	tc := TrainConfig{Threads: 1, Seed: 5, WideFit: true, WideFitC: 1, WideFitFolds: folds}
+	full, err := m.fitWideStart(context.Background(), d, Data{}, tc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range n { // the full fit saw every word
+		w := m.Wide[(i+2)*2 : (i+2)*2+2]
+		if (w[1] > w[0]) != (d.Labels[i] == 1) {
+			t.Fatalf("full fit: word of text %d (label %d) has weights %v", i, d.Labels[i], w)
+		}
+	}
+	oof, err := m.wideOutOfFold(context.Background(), d, tc, full)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(oof) != n*2 {
+		t.Fatalf("%d out-of-fold values, want %d", len(oof), n*2)
+	}
+	distinct := map[[2]float32]int{}
+	for i := range n {
+		distinct[[2]float32{oof[2*i], oof[2*i+1]}]++
+	}
+	if len(distinct) > folds {
+		t.Errorf("%d distinct out-of-fold terms, want at most one per fold (%d): a fit saw its own texts", len(distinct), folds)
+	}
+	// Folds whose other texts hold the labels unequally have intercepts
+	// of their own (with this seed some do): a term that is the same for
+	// every text would be no fit at all.
+	if len(distinct) < 2 {
+		t.Errorf("every text has the out-of-fold term %v, want the folds' own intercepts", distinct)
+	}
+	if _, err := m.wideOutOfFold(context.Background(), Data{IDs: d.IDs[:3], Labels: d.Labels[:3]}, tc, full); err == nil {
+		t.Error("4 folds of 3 texts were accepted")
+	}
+}
+
+// TestWideFitFoldsHoldsTheStart trains with out-of-fold terms: the word
+// weights stay where the fit put them (bit for bit), the filters' output
+// weights move off zero, and the model learns the toy task; WithDefaults
+// refuses 1 fold, a negative count, and folds without a fitted start.
+func TestWideFitFoldsHoldsTheStart(t *testing.T) {
+	m := withWide(randModel(1, 30, 8, []int{2, 3}, 4, 2), 1, 0)
+	train, dev := toyData(1, 300, 30), toyData(2, 100, 30)
+	tc := TrainConfig{Epochs: 4, Batch: 10, Seed: 3, Threads: 2, WideFit: true, WideFitFolds: 3}
+	start := m.Clone()
+	if _, err := start.fitWideStart(context.Background(), train, dev, tc); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Train(context.Background(), m, train, dev, tc, nil); err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(m.Wide, start.Wide) {
+		t.Error("the word weights moved off the fitted start")
+	}
+	if !slices.ContainsFunc(m.OutW, func(v float32) bool { return v != 0 }) {
+		t.Error("the filters' output weights stayed at zero")
+	}
+	if mt, _, err := Evaluate(m, dev, 1); err != nil || mt.Accuracy < 0.95 {
+		t.Errorf("dev accuracy %v (%v), want ≥ 0.95 on a task one word decides", mt, err)
+	}
+	for _, bad := range []TrainConfig{{WideFit: true, WideFitFolds: 1}, {WideFit: true, WideFitFolds: -2}, {WideFitFolds: 5}} {
+		if _, err := bad.WithDefaults(); err == nil {
+			t.Errorf("%+v was accepted", bad)
+		}
 	}
 }

@@ -95,6 +95,9 @@ var variants = map[string]func(r *cnn.Recipe){
 	// the fitted start held where the fit put it (a rate of 1e-6 times the
 	// rest's): the filters learn what the logistic regression leaves
 	"wfitfrz": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR = true, 1e-6 },
+	// held, the filters trained beside 5-fold out-of-fold wide terms
+	// (TrainConfig.WideFitFolds)
+	"wfitxf": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitFolds = true, 5 },
 	// the fitted start with its C fixed instead of chosen on dev
 	"wfitC1":   func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitC = true, 1 },
 	"wfitC10":  func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitC = true, 10 },
