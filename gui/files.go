@@ -15,6 +15,8 @@ import (
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/storage"
 	"fyne.io/fyne/v2/widget"
+
+	"telltale/internal/inputfile"
 )
 
 // openDataDialog asks for a labeled file and opens it.
@@ -31,13 +33,38 @@ func (st *State) openDataDialog() {
 		_ = r.Close()
 		st.openData(dataSource{path: path}, nil)
 	}, st.win)
-	d.SetFilter(storage.NewExtensionFileFilter([]string{".csv", ".tsv", ".tab", ".jsonl", ".ndjson"}))
+	d.SetFilter(notPipes{storage.NewExtensionFileFilter([]string{".csv", ".tsv", ".tab", ".jsonl", ".ndjson"})})
+	d.Show()
+}
+
+// notPipes lists in a file dialog the files its inner filter (nil: every
+// file) matches, less named pipes. The toolkit's dialog opens the chosen
+// file itself, on the UI goroutine, and the window then reads it again:
+// a pipe would freeze the window until a writer came, then need a second
+// one. A pipe is given with --data or --test instead, which read it once
+// (README, "Input formats").
+type notPipes struct{ inner storage.FileFilter }
+
+// Matches reports whether u is not a named pipe and the inner filter
+// matches it.
+func (f notPipes) Matches(u fyne.URI) bool {
+	if u.Scheme() == "file" && inputfile.IsPipe(u.Path()) {
+		return false
+	}
+	return f.inner == nil || f.inner.Matches(u)
+}
+
+// showFileOpen shows the toolkit's file dialog without named pipes
+// (notPipes) and calls done as dialog.ShowFileOpen does.
+func (st *State) showFileOpen(done func(fyne.URIReadCloser, error)) {
+	d := dialog.NewFileOpen(done, st.win)
+	d.SetFilter(notPipes{})
 	d.Show()
 }
 
 // openModelDialog asks for a model file and opens it.
 func (st *State) openModelDialog() {
-	dialog.ShowFileOpen(func(r fyne.URIReadCloser, err error) {
+	st.showFileOpen(func(r fyne.URIReadCloser, err error) {
 		if err != nil {
 			st.showErrorf(err, "could not open the file dialog")
 			return
@@ -52,7 +79,7 @@ func (st *State) openModelDialog() {
 			return
 		}
 		st.openModel(path, nil)
-	}, st.win)
+	})
 }
 
 // saveModelDialog asks where to save the open model.

@@ -135,7 +135,7 @@ func (st *State) importModel(f *importForm) {
 
 // pickFile asks for a file and gives its path to done.
 func (st *State) pickFile(done func(path string)) {
-	dialog.ShowFileOpen(func(r fyne.URIReadCloser, err error) {
+	st.showFileOpen(func(r fyne.URIReadCloser, err error) {
 		if err != nil {
 			st.showError(fmt.Errorf("could not open the file dialog: %w", err))
 			return
@@ -146,7 +146,7 @@ func (st *State) pickFile(done func(path string)) {
 		path := r.URI().Path()
 		_ = r.Close()
 		done(path)
-	}, st.win)
+	})
 }
 
 // fileExists reports whether path names a regular file.

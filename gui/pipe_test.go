@@ -12,6 +12,8 @@ import (
 	"testing"
 	"time"
 
+	"fyne.io/fyne/v2/storage"
+
 	"telltale/cnn"
 	"telltale/corpus"
 )
@@ -127,5 +129,34 @@ func TestLoadCorpusFromNamedPipeStops(t *testing.T) {
 		}
 	case <-time.After(10 * time.Second):
 		t.Fatal("the load still waits for the pipe's writer 10 s after Stop")
+	}
+}
+
+// The file dialogs list no named pipe: the toolkit's dialog would open one
+// on the UI goroutine, waiting for a writer, and the window would then
+// need a second writer. Regular files pass as the inner filter says.
+func TestFileDialogsListNoPipes(t *testing.T) {
+	dir := t.TempDir()
+	fifo, file, other := filepath.Join(dir, "p.csv"), filepath.Join(dir, "d.csv"), filepath.Join(dir, "m.tt")
+	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
+		t.Skipf("mkfifo: %v", err)
+	}
+	for _, p := range []string{file, other} {
+		if err := os.WriteFile(p, []byte("text,label\n"), 0o600); err != nil {
+			t.Fatal(err)
+		}
+	}
+	data := notPipes{storage.NewExtensionFileFilter([]string{".csv"})}
+	for _, c := range []struct {
+		f    storage.FileFilter
+		path string
+		want bool
+	}{
+		{data, fifo, false}, {data, file, true}, {data, other, false},
+		{notPipes{}, fifo, false}, {notPipes{}, file, true}, {notPipes{}, other, true},
+	} {
+		if got := c.f.Matches(storage.NewFileURI(c.path)); got != c.want {
+			t.Errorf("%#v matches %s: %v, want %v", c.f, filepath.Base(c.path), got, c.want)
+		}
 	}
 }
