@@ -381,3 +381,46 @@ func (c *fdTally) enough(t *testing.T, seed uint64) {
 		t.Errorf("seed %d: %d coordinates skipped at kinks, %d checked: too many to trust the check", seed, c.skipped, c.checked)
 	}
 }
+
+// The gradient of the learned scale of a held fitted start
+// (TrainConfig.WideFitScale; the batch's wide term times the scale s)
+// agrees with the central finite difference of the float64 reference loss
+// of the model whose word weights are multiplied by s: the same function
+// (common practice, no source; gradAgrees' tolerance). The step is 1e-2,
+// not the other checks' 1e-3: the scaled weights are rounded to float32,
+// and over a step of 1e-3 that rounding alone moves the difference of a
+// gradient this small (a sum over the batch) by about 5e-6.
+func TestWideScaleGradientFiniteDifferences(t *testing.T) {
+	const h = 1e-2
+	for seed := uint64(1); seed <= 4; seed++ {
+		m := withWide(randModel(seed, 12, 4, []int{1, 2, 3}, 3, 3), seed, 1)
+		rng := rand.New(rand.NewPCG(seed, 99))
+		texts := randTexts(rng, 6, 8, 12)
+		texts[1] = []int32{} // a text with no word: UNK's row
+		labels := make([]int, len(texts))
+		for i := range labels {
+			labels[i] = rng.IntN(3)
+		}
+		const s = 1.3
+		tr := newTrainer(m, TrainConfig{Threads: 2, WideFit: true, WideFitScale: true})
+		tr.scale[0] = s
+		tr.texts, tr.labels = texts, labels
+		tr.forwardBackward()
+		tr.close()
+		if tr.gWide != nil {
+			t.Fatal("the held start's word weights have a gradient buffer: they would be trained")
+		}
+		loss := func(scale float64) float64 {
+			c := m.Clone()
+			for j := range c.Wide {
+				c.Wide[j] = float32(float64(c.Wide[j]) * scale)
+			}
+			l, _ := ref64(c, texts, labels, nil)
+			return l
+		}
+		num := (loss(s+h) - loss(s-h)) / (2 * h)
+		if a := float64(tr.gScale[0]); !gradAgrees(a, num) {
+			t.Errorf("seed %d: scale gradient %g, finite difference %g", seed, a, num)
+		}
+	}
+}

@@ -75,6 +75,8 @@ type threadBuf struct {
 	bigram            []float32 // gradient of the batch's bigrams' rows of Model.WideBigram (Config.WideBigrams only)
 	h, z, p, dz       []float32
 	dh                []float32
+	wz                []float32  // the current text's wide term (TrainConfig.WideFitScale)
+	dScale            float32    // gradient of the wide term's scale (TrainConfig.WideFitScale)
 	rows              []*float32 // table rows of the current text's positions
 	bestP             []float32  // windowMax scratch
 	argP              []int32
@@ -152,6 +154,10 @@ type trainer struct {
 	// bigram weights then take no update (gWide and gBig stay nil).
 	wideOOF  []float32
 	batchIdx []int
+	// scale (one value) multiplies the wide term in training when
+	// TrainConfig.WideFitScale is set (nil otherwise); gScale is its
+	// gradient. foldWideScale moves it into the word and bigram weights.
+	scale, gScale []float32
 
 	// wideRows are the rows of Model.Wide with gradient in the current
 	// step: the batch's words, and UNK when a text has no word
@@ -262,7 +268,11 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 // (Config.Wide, WideBigrams) through add, and sets up the bigrams' dropout.
 func (tr *trainer) addWideGroups(add func(p, g []float32, decay bool)) {
 	m, tc, cfg := tr.m, tr.tc, tr.m.Config
-	held := tc.WideFit && tc.WideFitFolds >= 2
+	held := tc.WideFit && (tc.WideFitFolds >= 2 || tc.WideFitScale)
+	if held && tc.WideFitScale {
+		tr.scale, tr.gScale = []float32{1}, []float32{0}
+		add(tr.scale, tr.gScale, false)
+	}
 	if cfg.Wide && !held {
 		// A weight like the embeddings (weight decay shrinks it); not part
 		// of the head warm-up, and the PAD row is never trained.
@@ -467,6 +477,9 @@ func (tr *trainer) forwardBackward() float64 {
 	if tr.gWide != nil {
 		tr.scatterWide()
 	}
+	if tr.scale != nil {
+		tr.sumScaleGrad()
+	}
 	if tr.gBig != nil {
 		tr.scatterBigrams()
 	}
@@ -550,12 +563,7 @@ func (tr *trainer) texts_(k, lo, hi int) {
 			}
 		}
 		m.Head(t.h, t.z)
-		if tr.wideOOF != nil {
-			j := tr.batchIdx[i] * C
-			addTo(t.z, tr.wideOOF[j:j+C])
-		} else {
-			tr.addWide(i, ids, t.z)
-		}
+		tr.wideTerm(t, i, ids)
 		y := tr.labels[i]
 		tr.loss[i] = crossEntropy(t.z, t.p, y)
 		sc := scale
@@ -567,7 +575,12 @@ func (tr *trainer) texts_(k, lo, hi int) {
 			t.dz[c] = t.p[c] * sc
 		}
 		t.dz[y] -= sc
-		if tr.wideOOF == nil {
+		switch {
+		case tr.scale != nil:
+			for c, g := range t.dz[:C] {
+				t.dScale += g * t.wz[c]
+			}
+		case tr.wideOOF == nil:
 			wideGrad(ids, loc, tr.textPairs(i), t.dz, t.wide, t.wideUNK, t.bigram)
 		}
 		// Output layer.

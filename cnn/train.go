@@ -139,6 +139,12 @@ type TrainConfig struct {
 	// the full fit. 0 trains the fitted start like any weight; it needs
 	// WideFit.
 	WideFitFolds int `json:"wide_fit_folds,omitempty"`
+	// WideFitScale holds the fitted start (WideFit) where the fit put it,
+	// as WideFitFolds does, and multiplies its whole wide term by one
+	// scale that training learns (started at 1, with the rest's optimizer
+	// and rate), folded into the word and bigram weights at the end of
+	// every epoch, so the model keeps its shape. It needs WideFit.
+	WideFitScale bool `json:"wide_fit_scale,omitempty"`
 	// WideFitC fixes the fitted start's inverse regularisation strength
 	// (WideFit); 0 chooses it on dev from the baseline's grid. It must be
 	// finite and not negative, and 0 without WideFit. A C chosen on dev
@@ -221,6 +227,8 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: C %g of the fitted start, but no fitted start: turn WideFit on or set WideFitC to 0", tc.WideFitC)
 	case tc.WideFitFolds < 0 || tc.WideFitFolds == 1:
 		return tc, fmt.Errorf("cnn: %d folds for the fitted start's out-of-fold terms: must be 0 (none) or 2 or more", tc.WideFitFolds)
+	case tc.WideFitScale && !tc.WideFit:
+		return tc, fmt.Errorf("cnn: a learned scale of the fitted start, but no fitted start: turn WideFit on or WideFitScale off")
 	case tc.WideFitFolds > 0 && !tc.WideFit:
 		return tc, fmt.Errorf("cnn: %d folds for the fitted start, but no fitted start: turn WideFit on or set WideFitFolds to 0", tc.WideFitFolds)
 	case tc.WideSparse && tc.Optimizer != "adam":
@@ -389,7 +397,8 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		tr.setEpoch(epoch)
 		start := time.Now()
 		sum, done := run.epoch(epoch, batches, start)
-		m.FillChars()  // the vocabulary's character parts follow the character layer
+		m.FillChars() // the vocabulary's character parts follow the character layer
+		tr.foldWideScale()
 		m.Invalidate() // the weights changed: predictions rebuild their table
 		if res.Diverged == nil && !finiteWeights(m) {
 			res.Diverged = &Divergence{Epoch: epoch, Value: "weights"}

@@ -219,3 +219,53 @@ func (m *Model) wideOutOfFold(ctx context.Context, train Data, tc TrainConfig, f
 	}
 	return out, nil
 }
+
+// wideTerm adds text i's wide term in training to t.z: the model's
+// (trainer.addWide), or its out-of-fold one (wideOOF), times the learned
+// scale when there is one, keeping the unscaled term in t.wz for the
+// scale's gradient.
+func (tr *trainer) wideTerm(t *threadBuf, i int, ids []int32) {
+	C := tr.m.Config.Classes
+	z := t.z
+	if tr.scale != nil {
+		t.wz = grow(t.wz, C)
+		clear(t.wz)
+		z = t.wz
+	}
+	if tr.wideOOF != nil {
+		j := tr.batchIdx[i] * C
+		addTo(z, tr.wideOOF[j:j+C])
+	} else {
+		tr.addWide(i, ids, z)
+	}
+	if tr.scale != nil {
+		axpy(tr.scale[0], t.wz, t.z)
+	}
+}
+
+// sumScaleGrad sums the threads' gradients of the learned scale into
+// gScale, in thread order.
+func (tr *trainer) sumScaleGrad() {
+	var g float32
+	for k := range tr.th {
+		g += tr.th[k].dScale
+		tr.th[k].dScale = 0
+	}
+	tr.gScale[0] = g
+}
+
+// foldWideScale moves the learned scale (TrainConfig.WideFitScale) into
+// the word and bigram weights and the out-of-fold terms, and sets it to 1:
+// the model's wide term is then the one training used.
+func (tr *trainer) foldWideScale() {
+	if tr.scale == nil || tr.scale[0] == 1 {
+		return
+	}
+	s := tr.scale[0]
+	for _, w := range [][]float32{tr.m.Wide, tr.m.WideBigram, tr.wideOOF} {
+		for j := range w {
+			w[j] *= s
+		}
+	}
+	tr.scale[0] = 1
+}

@@ -378,3 +378,43 @@ func TestWideFitFoldsHoldsTheStart(t *testing.T) {
 		}
 	}
 }
+
+// TestWideFitScaleScalesTheStart trains with a learned scale of the held
+// start: every word and bigram weight ends as the fitted start's times one
+// common factor (one scale, folded in at each epoch's end), that factor is
+// not 1 (the scale learned), and the model learns the toy task.
+func TestWideFitScaleScalesTheStart(t *testing.T) {
+	m := withWide(randModel(1, 30, 8, []int{2, 3}, 4, 2), 1, 0)
+	train, dev := toyData(1, 300, 30), toyData(2, 100, 30)
+	tc := TrainConfig{Epochs: 4, Batch: 10, Seed: 3, Threads: 2, WideFit: true, WideFitScale: true}
+	start := m.Clone()
+	if _, err := start.fitWideStart(context.Background(), train, dev, tc); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Train(context.Background(), m, train, dev, tc, nil); err != nil {
+		t.Fatal(err)
+	}
+	ratio, set := 0.0, false
+	for j, w := range start.Wide {
+		if math.Abs(float64(w)) < 1e-3 {
+			continue
+		}
+		r := float64(m.Wide[j]) / float64(w)
+		if !set {
+			ratio, set = r, true
+		}
+		if !testref.Close(r, ratio, 1e-5, 1e-4) {
+			t.Fatalf("word weight %d: %g of the start's, others %g: not one common scale", j, r, ratio)
+		}
+	}
+	if !set || testref.Close(ratio, 1, 1e-6, 0) {
+		t.Errorf("the learned scale is %g (set %v), want one that moved off 1", ratio, set)
+	}
+	t.Logf("learned scale %.4f", ratio)
+	if mt, _, err := Evaluate(m, dev, 1); err != nil || mt.Accuracy < 0.95 {
+		t.Errorf("dev accuracy %v (%v), want ≥ 0.95 on a task one word decides", mt, err)
+	}
+	if _, err := (TrainConfig{WideFitScale: true}).WithDefaults(); err == nil {
+		t.Error("a learned scale without a fitted start was accepted")
+	}
+}

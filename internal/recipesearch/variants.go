@@ -98,6 +98,9 @@ var variants = map[string]func(r *cnn.Recipe){
 	// held, the filters trained beside 5-fold out-of-fold wide terms
 	// (TrainConfig.WideFitFolds)
 	"wfitxf": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitFolds = true, 5 },
+	// held, its whole term times one scale that training learns
+	// (TrainConfig.WideFitScale)
+	"wfitsc": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitScale = true, true },
 	// the fitted start with its C fixed instead of chosen on dev
 	"wfitC1":   func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitC = true, 1 },
 	"wfitC10":  func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitC = true, 10 },
