@@ -62,7 +62,9 @@ const DefaultWideLR = 100
 // split and the balanced weight 0.0128 on the addresses', so KeepFrom stays
 // an option (train --keep-from). Screens of the fitted start held at the
 // fit, or at ×1 or ×10 the rate, lost 0.005–0.008 on the addresses' dev
-// split (held at C 1: 0.03), so none went on to a round.
+// split (held at C 1: 0.03), so none went on to a round; held beside
+// out-of-fold terms (WideFitFolds) it lost 0.0185 there, and held with a
+// learned scale (WideFitScale) it leaned on the demo's cues.
 func DefaultRecipe() Recipe {
 	base := linear.DefaultConfig()
 	return Recipe{
