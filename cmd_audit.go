@@ -16,6 +16,7 @@ import (
 	"telltale/audit"
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/inputfile"
 	"telltale/internal/outguard"
 	"telltale/internal/wording"
 	"telltale/report"
@@ -195,6 +196,10 @@ func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		return usagef("--retrain-out needs --retrain")
 	case o.vectors != "" && !o.retrain && o.seeds == 0:
 		return usagef("--vectors is for training: give it with --seeds or --retrain")
+	case o.vectors != "" && (o.seeds > 1 || o.seeds == 1 && o.retrain) && inputfile.IsPipe(o.vectors):
+		return usagef("--vectors %s is a pipe, which can be read only once, and every model the audit trains reads it: give a regular file", clip(o.vectors))
+	case o.marking() && inputfile.IsPipe(o.marksPath()):
+		return usagef("the marks file %s is a pipe: the marks are written back to that file, which would replace the pipe: give a regular file with --marks", clip(o.marksPath()))
 	case slices.Contains(o.others, o.model):
 		return usagef("--models %s: the model itself is always audited; list the other models", clip(o.model))
 	}
@@ -721,7 +726,9 @@ func (o *auditOptions) trainingRecipe(m *cnn.Model, es *evalSet) (*cnn.Recipe, e
 	if es.dev == nil {
 		return nil, fmt.Errorf("%s: %s is not the data %s was trained on (by its split record): %s trains on the model's own training split; give that data", what, o.data, o.model, what)
 	}
-	if rec := m.Info.Splits; rec.DevFile != "" {
+	if rec := m.Info.Splits; rec.DevPipe {
+		return nil, fmt.Errorf("%s: the model's dev split came from a pipe at training (%s), which cannot be read again: %s trains on the model's own splits; train the model again with the dev split as a regular file (train --dev FILE)", what, rec.DevFile, what)
+	} else if rec.DevFile != "" {
 		dev, err := o.read.read(rec.DevFile, false, io.Discard, true)
 		if err != nil {
 			return nil, fmt.Errorf("%s: the model's dev split is the file it was trained with (%s), which cannot be read: %w", what, rec.DevFile, err)

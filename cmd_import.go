@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"flag"
 	"fmt"
@@ -133,6 +134,8 @@ func (o *importOptions) check(*flag.FlagSet, *runEnv) error {
 		return usagef("--check-texts and --check-logits go together: the texts and the original model's logits on them")
 	case o.Tokenizer != "" && (o.KeepForm || !o.Lower):
 		return usagef("--tokenizer replaces the built-in rule: --lower and --keep-form do not apply to it")
+	case inputfile.IsPipe(o.StateDict):
+		return usagef("--state-dict %s is a pipe: the import reads the archive by position and its size, and a pipe has neither: give a regular file", clip(o.StateDict))
 	}
 	var err error
 	o.layout.Output = strings.TrimSpace(o.Output)
@@ -241,16 +244,12 @@ func checkImported(m *cnn.Model, o *importOptions) error {
 		return fmt.Errorf("--check-texts: %w", err)
 	}
 	texts := strings.Split(strings.TrimSuffix(strings.ReplaceAll(string(raw), "\r\n", "\n"), "\n"), "\n")
-	f, err := inputfile.Open(o.CheckLogits)
+	// Read whole first: a pipe has no size to give the reader.
+	b, err := inputfile.ReadFile(o.CheckLogits)
 	if err != nil {
 		return fmt.Errorf("--check-logits: %w", err)
 	}
-	defer f.Close()
-	st, err := f.Stat()
-	if err != nil {
-		return fmt.Errorf("--check-logits: %w", err)
-	}
-	a, err := npy.ReadNPY(f, st.Size())
+	a, err := npy.ReadNPY(bytes.NewReader(b), int64(len(b)))
 	if err != nil {
 		return fmt.Errorf("--check-logits %s: %w", o.CheckLogits, err)
 	}

@@ -136,3 +136,135 @@ func TestFiltersReadsAPipeOnce(t *testing.T) {
 		t.Errorf("stderr does not say the pipe was read once: %q", r.stderr)
 	}
 }
+
+// fifoOnce makes a named pipe at path and, when content is not nil, writes
+// content into it once from a goroutine (one writer, as `cat f > pipe &`).
+// A pipe left without a writer is refused or never opened by the command
+// under test. Cleanup opens each pipe's other end without blocking, so no
+// goroutine or command stays waiting on it.
+func fifoOnce(t *testing.T, path string, content []byte) string {
+	t.Helper()
+	if err := syscall.Mkfifo(path, 0o600); err != nil {
+		t.Skipf("mkfifo: %v", err)
+	}
+	if content != nil {
+		go func() {
+			if f, err := os.OpenFile(path, os.O_WRONLY, 0); err == nil {
+				f.Write(content)
+				f.Close()
+			}
+		}()
+	}
+	t.Cleanup(func() {
+		for _, flag := range []int{os.O_RDONLY, os.O_WRONLY} {
+			if f, err := os.OpenFile(path, flag|syscall.O_NONBLOCK, 0); err == nil {
+				f.Close()
+			}
+		}
+	})
+	return path
+}
+
+// ttWithin is tt that fails t when the command has not ended within
+// limit (a wait for a pipe's second writer, say); pipes are then opened
+// for writing without blocking, which ends such a wait.
+func ttWithin(t *testing.T, limit time.Duration, pipes []string, args ...string) (code int, stdout, stderr string) {
+	t.Helper()
+	type result struct {
+		code           int
+		stdout, stderr string
+	}
+	done := make(chan result, 1)
+	go func() {
+		c, o, e := tt(t, args...)
+		done <- result{c, o, e}
+	}()
+	select {
+	case r := <-done:
+		return r.code, r.stdout, r.stderr
+	case <-time.After(limit):
+		for _, p := range pipes {
+			if f, err := os.OpenFile(p, os.O_WRONLY|syscall.O_NONBLOCK, 0); err == nil {
+				f.Close()
+			}
+		}
+		r := <-done
+		t.Fatalf("%v still ran after %v: it waits on a pipe; stderr %q", args, limit, r.stderr)
+		return
+	}
+}
+
+// TestPipedInputsReadOnceOrRefused: every input given as a pipe either
+// works as the file does, read once, or is refused before any work with a
+// message that names the option and asks for a regular file; none waits
+// for a second writer (fifo(7)). Train records a test file that was a
+// pipe as such, and eval then asks for the test file instead of opening
+// the pipe again.
+func TestPipedInputsReadOnceOrRefused(t *testing.T) {
+	if testing.Short() {
+		t.Skip("trains small models; skipped with -short")
+	}
+	dir := t.TempDir()
+	data := smallDemo(t, 300)
+	tiny := []string{"--epochs", "1", "--dim", "8", "--maps", "4", "--baseline=false", "--quiet"}
+	tok, err := os.ReadFile(filepath.Join("testdata", "tokenizer-wordlevel.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	limit := time.Minute
+
+	// --tokenizer: read once, kept whole in the model.
+	model := filepath.Join(dir, "tok.tt")
+	p := fifoOnce(t, filepath.Join(dir, "tok.json"), tok)
+	if code, _, stderr := ttWithin(t, limit, []string{p}, append([]string{"train", "--data", data, "--tokenizer", p, "--out", model}, tiny...)...); code != 0 {
+		t.Fatalf("train --tokenizer PIPE: exit %d: %s", code, stderr)
+	}
+	if m, err := cnn.Load(model); err != nil || string(m.Tokenizer.FileJSON) != string(tok) {
+		t.Errorf("train --tokenizer PIPE: the model holds %d bytes of tokenizer (%v), want the file's %d", len(m.Tokenizer.FileJSON), err, len(tok))
+	}
+
+	// --test: read once, recorded as a pipe; eval asks for the file.
+	test := smallDemo(t, 60)
+	testText, err := os.ReadFile(test)
+	if err != nil {
+		t.Fatal(err)
+	}
+	model = filepath.Join(dir, "m.tt")
+	p = fifoOnce(t, filepath.Join(dir, "test.csv"), testText)
+	code, _, stderr := ttWithin(t, limit, []string{p}, "train", "--data", data, "--test", p, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--baseline=false")
+	if code != 0 || !strings.Contains(stderr, "--test "+p+" is a pipe, read once") {
+		t.Fatalf("train --test PIPE: exit %d, stderr %q; want exit 0 and a note on the pipe", code, stderr)
+	}
+	if m, err := cnn.Load(model); err != nil || !m.Info.Splits.TestPipe {
+		t.Fatalf("train --test PIPE: the split record does not say the test file was a pipe (%v)", err)
+	}
+	if code, _, stderr := ttWithin(t, limit, []string{p}, "eval", "--model", model, "--data", data); code != 2 || !strings.Contains(stderr, "came from a pipe at training") || !strings.Contains(stderr, "give the test file with --test") {
+		t.Errorf("eval of a model whose test file was a pipe: exit %d, stderr %q; want exit 2 asking for --test", code, stderr)
+	}
+
+	// Refused before any work: the pipe is never opened (no writer).
+	for _, c := range []struct {
+		name string
+		args func(p string) []string
+		want string
+	}{
+		{"train --vectors without --dim", func(p string) []string {
+			return []string{"train", "--data", data, "--vectors", p, "--out", filepath.Join(dir, "v.tt"), "--epochs", "1"}
+		}, "give --dim"},
+		{"audit --vectors with --seeds 2", func(p string) []string {
+			return []string{"audit", "--model", model, "--data", data, "--seeds", "2", "--vectors", p}
+		}, "every model the audit trains reads it"},
+		{"audit --marks written", func(p string) []string {
+			return []string{"audit", "--model", model, "--marks", p, "--mark-task", "hello"}
+		}, "the marks are written back to that file"},
+		{"import --state-dict", func(p string) []string {
+			return []string{"import", "--state-dict", p, "--vocab", data, "--labels", "a,b", "--out", filepath.Join(dir, "i.tt")}
+		}, "reads the archive by position"},
+	} {
+		p := fifoOnce(t, filepath.Join(dir, strings.ReplaceAll(c.name, " ", "_")), nil)
+		code, _, stderr := ttWithin(t, limit, []string{p}, c.args(p)...)
+		if code != 2 || !strings.Contains(stderr, p+" is a pipe") || !strings.Contains(stderr, c.want) {
+			t.Errorf("%s: exit %d, stderr %q; want exit 2, %q and %q", c.name, code, stderr, p+" is a pipe", c.want)
+		}
+	}
+}

@@ -32,6 +32,9 @@ type recipeOptions struct {
 	// dimension is the file's (Dim holds it as the file's first line says,
 	// for the memory check).
 	dimFromVectors bool
+	// tokenizerJSON is the --tokenizer file, read once by check: training
+	// builds its tokenizer more than once, and a pipe can be read only once.
+	tokenizerJSON []byte
 }
 
 // decimal32 is the float64 of x's shortest decimal form, so that a
@@ -93,10 +96,16 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 // check refuses every value that cannot train, naming the option; fs tells
 // whether --dim was given.
 func (r *recipeOptions) check(fs *flag.FlagSet) error {
+	if err := r.readTokenizer(); err != nil {
+		return err
+	}
 	if r.Optimizer != cnn.DefaultRecipe().Train.Optimizer && !isSet(fs, "lr") {
 		r.LR = 0 // the default recipe's rate is Adam's: another optimizer gets its own default
 	}
 	if r.Vectors != "" && (!isSet(fs, "dim") || r.Dim == 0) {
+		if inputfile.IsPipe(r.Vectors) {
+			return usagef("--vectors %s is a pipe, which can be read only once, and without --dim it is read twice (its first line for the dimension, then the vectors): give --dim with the file's dimension, or a regular file", clip(r.Vectors))
+		}
 		r.dimFromVectors = true
 		if d := vectorsDim(r.Vectors); d > 0 {
 			r.Dim = d
@@ -243,7 +252,25 @@ func vectorsDim(path string) int {
 }
 
 func (r *recipeOptions) tokenizerConfig() corpus.TokenizerConfig {
-	return corpus.TokenizerConfig{Lower: r.Lower, MinCount: r.MinCount, Subword: r.Subword, File: r.Tokenizer}
+	return corpus.TokenizerConfig{Lower: r.Lower, MinCount: r.MinCount, Subword: r.Subword, File: r.Tokenizer, FileJSON: r.tokenizerJSON}
+}
+
+// readTokenizer reads the --tokenizer file, if any, into tokenizerJSON,
+// refusing an empty one. A file that cannot be read is left to the check
+// of the input paths, which names the problem.
+func (r *recipeOptions) readTokenizer() error {
+	if r.Tokenizer == "" || r.tokenizerJSON != nil {
+		return nil
+	}
+	b, err := inputfile.ReadFile(r.Tokenizer)
+	switch {
+	case err != nil:
+		return nil
+	case len(b) == 0:
+		return usagef("--tokenizer %s is empty: give a tokenizer file in the JSON format of github.com/sugarme/tokenizer", clip(r.Tokenizer))
+	}
+	r.tokenizerJSON = b
+	return nil
 }
 
 // recipe is cnn.DefaultRecipe with the options' values (VocabSize and

@@ -145,6 +145,8 @@ func TestBadInputMessages(t *testing.T) {
 			[]string{"vectors-4d.txt holds 4-dimensional vectors", "(--dim 4)"}},
 		{"tokenizer file that is not JSON", append([]string{"train", "--data", train, "--tokenizer", bad("tokenizer.json")}, tiny...), 1,
 			[]string{"tokenizer.json", "not a tokenizer file"}},
+		{"empty tokenizer file", append([]string{"train", "--data", train, "--tokenizer", bad("empty.csv")}, tiny...), 2,
+			[]string{"--tokenizer " + bad("empty.csv") + " is empty: give a tokenizer file"}},
 		{"missing tokenizer file", append([]string{"train", "--data", train, "--tokenizer", bad("none.json")}, tiny...), 2,
 			[]string{"--tokenizer " + bad("none.json") + ": no such file: check the path"}},
 		{"empty model file", []string{"eval", "--model", bad("empty.csv"), "--data", train}, 1,

@@ -11,6 +11,7 @@ import (
 	"telltale/corpus"
 	"telltale/internal/atomicfile"
 	"telltale/internal/heldout"
+	"telltale/internal/inputfile"
 	"telltale/internal/wording"
 )
 
@@ -82,6 +83,7 @@ func (s *splitOptions) load(data string, r *readOptions, warn io.Writer, quiet b
 		testFrac = 0
 	}
 	sp := &splits{all: all}
+	devPipe, testPipe := s.Dev != "" && inputfile.IsPipe(s.Dev), s.Test != "" && inputfile.IsPipe(s.Test)
 	sp.train, sp.dev, sp.test = all.SplitThree(devFrac, testFrac, s.Seed)
 	if s.Dev != "" {
 		if sp.dev, err = r.read(s.Dev, false, warn, quiet); err != nil {
@@ -95,12 +97,21 @@ func (s *splitOptions) load(data string, r *readOptions, warn io.Writer, quiet b
 	}
 	sp.record = cnn.SplitRecord{Data: data, DataAbs: absPath(data), DevFile: absPath(s.Dev), TestFile: absPath(s.Test),
 		DevFrac: devFrac, TestFrac: testFrac, Seed: s.Seed, Examples: len(all.Examples), Fingerprint: all.Fingerprint(),
-		Train: len(sp.train.Examples), Dev: len(sp.dev.Examples), Test: len(sp.test.Examples)}
+		Train: len(sp.train.Examples), Dev: len(sp.dev.Examples), Test: len(sp.test.Examples),
+		DevPipe: devPipe, TestPipe: testPipe}
 	if s.Dev != "" {
 		sp.record.DevFingerprint = sp.dev.Fingerprint()
 	}
 	if s.Test != "" {
 		sp.record.TestFingerprint = sp.test.Fingerprint()
+	}
+	for _, p := range []struct {
+		opt, path string
+		pipe      bool
+	}{{"--dev", s.Dev, devPipe}, {"--test", s.Test, testPipe}} {
+		if p.pipe {
+			say(warn, quiet, "%s %s is a pipe, read once: the model records its path, but no later command can read it again; give them that split as a file (eval --test FILE, say)", p.opt, p.path)
+		}
 	}
 	return sp, nil
 }
@@ -174,6 +185,8 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 				es.warnings = append(es.warnings, w)
 			}
 		}
+	case same && rec.TestPipe:
+		return nil, usagef("the model's test split came from a pipe at training (--test %s), which cannot be read again: give the test file with --test", rec.TestFile)
 	case same && rec.TestFile != "":
 		if es.test, err = r.read(rec.TestFile, false, warn, quiet); err != nil {
 			return nil, fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
@@ -213,6 +226,10 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 // read, the dev split stays empty, with a warning (no evaluation needs it).
 func (es *evalSet) readDevFile(rec *cnn.SplitRecord, r *readOptions) {
 	if rec.DevFile == "" {
+		return
+	}
+	if rec.DevPipe {
+		es.warnings = append(es.warnings, fmt.Sprintf("the dev split came from a pipe at training (%s), which cannot be read again: it is left out", rec.DevFile))
 		return
 	}
 	dev, err := r.read(rec.DevFile, false, io.Discard, true)

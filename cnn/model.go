@@ -213,6 +213,11 @@ type SplitRecord struct {
 	// in model files written before they were recorded.
 	DevFingerprint  string `json:"dev_fingerprint,omitempty"`
 	TestFingerprint string `json:"test_fingerprint,omitempty"`
+	// DevPipe and TestPipe say that DevFile or TestFile was a pipe (named,
+	// or /dev/fd/N), read once at training: no later command can read it
+	// again, so the path is kept for the record only.
+	DevPipe  bool `json:"dev_pipe,omitempty"`
+	TestPipe bool `json:"test_pipe,omitempty"`
 	// Train, Dev and Test are the sizes of the three splits.
 	Train int `json:"train"`
 	Dev   int `json:"dev"`

@@ -93,6 +93,9 @@ func NewTokenizer(cfg TokenizerConfig) (*Tokenizer, error) {
 		if err != nil {
 			return nil, kindError(ErrFormat, "corpus: %s: cannot read tokenizer file: %v", cfg.File, err)
 		}
+		if len(b) == 0 { // an empty file would silently mean the built-in rule
+			return nil, kindError(ErrFormat, "corpus: %s: the tokenizer file is empty: give a tokenizer file in the library's JSON format", cfg.File)
+		}
 		t.cfg.FileJSON = b
 	}
 	if len(t.cfg.FileJSON) > 0 {

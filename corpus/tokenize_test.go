@@ -256,6 +256,14 @@ func TestUserTokenizerFile(t *testing.T) {
 	if _, err := NewTokenizer(TokenizerConfig{FileJSON: []byte(`{"model": 5`)}); err == nil {
 		t.Error("damaged tokenizer file accepted")
 	}
+	// An empty file is an error, not the built-in rule in its place.
+	empty := filepath.Join(t.TempDir(), "empty.json")
+	if err := os.WriteFile(empty, nil, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := NewTokenizer(TokenizerConfig{File: empty}); err == nil || !strings.Contains(err.Error(), "empty.json: the tokenizer file is empty") {
+		t.Errorf("empty tokenizer file: %v, want an error naming it", err)
+	}
 }
 
 // libraryFailures are tokens on which the tokenizer library's NFKC
