@@ -129,12 +129,15 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 }
 
 // sameSplits reports whether two models' splits were made the same way
-// from the same data.
+// from the same data. The seed counts only where a split was drawn from
+// the data (a share held out); with both splits given as files it draws
+// nothing.
 func sameSplits(a, b *cnn.SplitRecord) bool {
 	if a == nil || b == nil {
 		return a == b
 	}
-	return a.Fingerprint == b.Fingerprint && a.DevFrac == b.DevFrac && a.TestFrac == b.TestFrac && a.Seed == b.Seed &&
+	drawn := a.DevFrac > 0 || a.TestFrac > 0
+	return a.Fingerprint == b.Fingerprint && a.DevFrac == b.DevFrac && a.TestFrac == b.TestFrac && (a.Seed == b.Seed || !drawn) &&
 		a.DevFile == b.DevFile && a.TestFile == b.TestFile
 }
 
