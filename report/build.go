@@ -296,13 +296,19 @@ func explainExamples(ctx context.Context, in *Input, m *cnn.Model, heldout *corp
 	return nil
 }
 
-// where names a held-out example by file base name and line.
+// where names a held-out example by file base name and line; a file
+// whose name is a number alone (/dev/fd/63, a shell's <(…)) by its whole
+// path, which says what it is.
 func where(d *corpus.Dataset, i int) string {
 	e := d.Examples[i]
 	if e.File != "" {
 		return e.File
 	}
-	return fmt.Sprintf("%s line %d", filepath.Base(d.Path), e.Line)
+	name := filepath.Base(d.Path)
+	if strings.Trim(name, "0123456789") == "" {
+		name = d.Path
+	}
+	return fmt.Sprintf("%s line %d", name, e.Line)
 }
 
 type pick struct {
