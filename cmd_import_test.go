@@ -158,35 +158,43 @@ func TestExportCommandRefusesOverwritingTheModel(t *testing.T) {
 	}
 }
 
-// With --check-texts and --check-logits, import compares its logits with
-// the original model's (here the exported model itself, run by telltale)
-// and records the agreement; logits that differ stop the import before
-// anything is written.
-func TestImportCommandCheck(t *testing.T) {
+// checkedImport is the import of exportedModel's export with three check
+// texts written to dir and, in logits, the original model's logits on
+// them; writeLogits writes such logits as a .npy file into dir.
+func checkedImport(t *testing.T, dir string) (o importOptions, logits []float32, writeLogits func(name string, x []float32) string) {
+	t.Helper()
 	model, exp := exportedModel(t)
 	orig, err := cnn.Load(model)
 	if err != nil {
 		t.Fatal(err)
 	}
-	dir := t.TempDir()
 	texts := []string{"Free money today", "meeting", "today meeting free free money"}
 	os.WriteFile(filepath.Join(dir, "texts.txt"), []byte(strings.Join(texts, "\n")+"\n"), 0o644)
 	enc, _ := orig.Encoder()
-	var logits []float32
 	for _, s := range texts {
 		_, ids := enc.Encode(s)
 		logits = append(logits, orig.Forward(ids).Logits...)
 	}
-	writeLogits := func(name string, x []float32) string {
+	writeLogits = func(name string, x []float32) string {
 		var b bytes.Buffer
 		npy.WriteNPY(&b, npy.Array{Shape: []int{len(texts), 2}, Data: x})
 		p := filepath.Join(dir, name)
 		os.WriteFile(p, b.Bytes(), 0o644)
 		return p
 	}
-	o := importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
+	o = importOptions{StateDict: filepath.Join(exp, torchmodel.WeightsFile), Vocab: filepath.Join(exp, torchmodel.VocabFile),
 		Labels: "ham,spam", PadID: -1, UnkID: -1, Lower: true, CheckTexts: filepath.Join(dir, "texts.txt"),
 		CheckLogits: writeLogits("good.npy", logits), Out: filepath.Join(dir, "checked.tt")}
+	return o, logits, writeLogits
+}
+
+// With --check-texts and --check-logits, import compares its logits with
+// the original model's (here the exported model itself, run by telltale)
+// and records the agreement; logits that differ stop the import before
+// anything is written.
+func TestImportCommandCheck(t *testing.T) {
+	o, logits, writeLogits := checkedImport(t, t.TempDir())
+	dir := filepath.Dir(o.Out)
 	if code, _, stderr := runCmd(t, "", importArgs(o)...); code != 0 {
 		t.Fatalf("import: exit %d\n%s", code, stderr)
 	}

@@ -219,8 +219,10 @@ func TestPipedInputsReadOnceOrRefused(t *testing.T) {
 	if code, _, stderr := ttWithin(t, limit, []string{p}, append([]string{"train", "--data", data, "--tokenizer", p, "--out", model}, tiny...)...); code != 0 {
 		t.Fatalf("train --tokenizer PIPE: exit %d: %s", code, stderr)
 	}
-	if m, err := cnn.Load(model); err != nil || string(m.Tokenizer.FileJSON) != string(tok) {
-		t.Errorf("train --tokenizer PIPE: the model holds %d bytes of tokenizer (%v), want the file's %d", len(m.Tokenizer.FileJSON), err, len(tok))
+	if m, err := cnn.Load(model); err != nil {
+		t.Fatal(err)
+	} else if string(m.Tokenizer.FileJSON) != string(tok) {
+		t.Errorf("train --tokenizer PIPE: the model holds %d bytes of tokenizer, want the file's %d", len(m.Tokenizer.FileJSON), len(tok))
 	}
 
 	// --test: read once, recorded as a pipe; eval asks for the file.
@@ -266,5 +268,29 @@ func TestPipedInputsReadOnceOrRefused(t *testing.T) {
 		if code != 2 || !strings.Contains(stderr, p+" is a pipe") || !strings.Contains(stderr, c.want) {
 			t.Errorf("%s: exit %d, stderr %q; want exit 2, %q and %q", c.name, code, stderr, p+" is a pipe", c.want)
 		}
+	}
+}
+
+// TestImportCheckLogitsFromAPipe: --check-logits given as a pipe is read
+// whole once (a NumPy file's reader needs its size, which a pipe does not
+// have), and the check passes as with the file (TestImportCommandCheck).
+func TestImportCheckLogitsFromAPipe(t *testing.T) {
+	dir := t.TempDir()
+	o, _, _ := checkedImport(t, dir)
+	b, err := os.ReadFile(o.CheckLogits)
+	if err != nil {
+		t.Fatal(err)
+	}
+	o.CheckLogits = fifoOnce(t, filepath.Join(dir, "logits.npy"), b)
+	code, _, stderr := ttWithin(t, time.Minute, []string{o.CheckLogits}, importArgs(o)...)
+	if code != 0 {
+		t.Fatalf("import --check-logits PIPE: exit %d: %s", code, stderr)
+	}
+	m, err := cnn.Load(o.Out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(m.Info.Notes["origin_check"], "logits of 3 texts") {
+		t.Errorf("import --check-logits PIPE: notes %v; want the check recorded", m.Info.Notes)
 	}
 }
