@@ -244,7 +244,16 @@ func TestPipedInputsReadOnceOrRefused(t *testing.T) {
 		t.Errorf("eval of a model whose test file was a pipe: exit %d, stderr %q; want exit 2 asking for --test", code, stderr)
 	}
 
-	// Refused before any work: the pipe is never opened (no writer).
+	refusedPipes(t, data, model)
+}
+
+// refusedPipes checks the inputs that are refused as pipes before any work
+// (TestPipedInputsReadOnceOrRefused): each pipe is left without a writer,
+// so a command that opened it would wait. Model is a trained model of
+// data.
+func refusedPipes(t *testing.T, data, model string) {
+	t.Helper()
+	dir := t.TempDir()
 	for _, c := range []struct {
 		name string
 		args func(p string) []string
@@ -264,7 +273,7 @@ func TestPipedInputsReadOnceOrRefused(t *testing.T) {
 		}, "reads the archive by position"},
 	} {
 		p := fifoOnce(t, filepath.Join(dir, strings.ReplaceAll(c.name, " ", "_")), nil)
-		code, _, stderr := ttWithin(t, limit, []string{p}, c.args(p)...)
+		code, _, stderr := ttWithin(t, time.Minute, []string{p}, c.args(p)...)
 		if code != 2 || !strings.Contains(stderr, p+" is a pipe") || !strings.Contains(stderr, c.want) {
 			t.Errorf("%s: exit %d, stderr %q; want exit 2, %q and %q", c.name, code, stderr, p+" is a pipe", c.want)
 		}
