@@ -261,7 +261,8 @@ const (
 func (cs *corpusState) record(devFrac, testFrac float64, seed uint64, n *corpusState) cnn.SplitRecord {
 	r := cnn.SplitRecord{Data: cs.Path, DataAbs: absPath(cs.Path), TestFile: absPath(cs.TestPath), DevFrac: devFrac, TestFrac: testFrac,
 		Seed: seed, Examples: len(cs.All.Examples), Fingerprint: cs.All.Fingerprint(),
-		Train: len(n.Train.Examples), Dev: len(n.Dev.Examples), Test: len(n.Test.Examples)}
+		Train: len(n.Train.Examples), Dev: len(n.Dev.Examples), Test: len(n.Test.Examples),
+		TestPipe: cs.pipeTest != nil} // read once: later commands must not open it again
 	if cs.TestFile != nil {
 		r.TestFingerprint = cs.TestFile.Fingerprint()
 	}

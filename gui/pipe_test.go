@@ -160,3 +160,19 @@ func TestFileDialogsListNoPipes(t *testing.T) {
 		}
 	}
 }
+
+// The split record of a test file read from a pipe says so
+// (cnn.SplitRecord.TestPipe), so that no later command opens the pipe
+// again; a test file on disk is recorded as a file.
+func TestSplitRecordOfAPipedTestFile(t *testing.T) {
+	d := &corpus.Dataset{Path: "/data/d.csv", Examples: []corpus.Example{{Text: "a", Label: "x"}}}
+	for _, piped := range []bool{false, true} {
+		cs := &corpusState{Path: d.Path, TestPath: "/data/test.csv", All: d, TestFile: d, Train: d, Dev: d, Test: d}
+		if piped {
+			cs.pipeTest = []byte("text,label\na,x\n")
+		}
+		if r := cs.record(0.1, 0, 1, cs); r.TestPipe != piped || r.TestFile != "/data/test.csv" {
+			t.Errorf("test file piped %v: record says pipe %v, file %q", piped, r.TestPipe, r.TestFile)
+		}
+	}
+}
