@@ -92,39 +92,13 @@ func TestFiltersReadsAPipeOnce(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	fifo := filepath.Join(dir, "data.csv")
-	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
-		t.Skipf("mkfifo: %v", err)
-	}
-	go func() { // one writer, once
-		if f, err := os.OpenFile(fifo, os.O_WRONLY, 0); err == nil {
-			f.Write(text)
-			f.Close()
-		}
-	}()
-	type result struct {
-		code           int
-		stdout, stderr string
-	}
-	done := make(chan result, 1)
-	go func() {
-		code, stdout, stderr := tt(t, "filters", "--model", model, "--data", fifo, "--threads", "1", "--top", "3", "--json")
-		done <- result{code, stdout, stderr}
-	}()
-	var r result
-	select {
-	case r = <-done:
-	case <-time.After(2 * time.Minute):
-		if f, err := os.OpenFile(fifo, os.O_WRONLY, 0); err == nil { // a second writer with nothing: ends the wait
-			f.Close()
-		}
-		t.Fatalf("filters on a pipe still runs after 2 minutes: it waits for a second writer; stderr %q", (<-done).stderr)
-	}
-	if r.code != 0 {
-		t.Fatalf("filters on a pipe: exit %d: %s", r.code, r.stderr)
+	fifo := fifoOnce(t, filepath.Join(dir, "data.csv"), text)
+	code, stdout, stderr := ttWithin(t, 2*time.Minute, []string{fifo}, "filters", "--model", model, "--data", fifo, "--threads", "1", "--top", "3", "--json")
+	if code != 0 {
+		t.Fatalf("filters on a pipe: exit %d: %s", code, stderr)
 	}
 	var p explain.Profiles
-	if err := json.Unmarshal([]byte(r.stdout), &p); err != nil {
+	if err := json.Unmarshal([]byte(stdout), &p); err != nil {
 		t.Fatal(err)
 	}
 	// On one thread the demo corpus leaves some filters' negative n-grams
@@ -132,8 +106,8 @@ func TestFiltersReadsAPipeOnce(t *testing.T) {
 	if inexactNegatives(&p) == 0 {
 		t.Errorf("read once from a pipe, every filter's negative n-grams are marked exact")
 	}
-	if !strings.Contains(r.stderr, "a pipe, read once") {
-		t.Errorf("stderr does not say the pipe was read once: %q", r.stderr)
+	if !strings.Contains(stderr, "a pipe, read once") {
+		t.Errorf("stderr does not say the pipe was read once: %q", stderr)
 	}
 }
 
