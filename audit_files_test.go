@@ -152,6 +152,8 @@ func TestRecipeDifference(t *testing.T) {
 		{"widths", func(o *cnn.Model) { o.Config.Widths[0]++ }, "widths"},
 		{"chars", func(o *cnn.Model) { o.Config.Chars = &cnn.CharConfig{Filters: 4, Width: 3} }, "chars none for --model"},
 		{"lower", func(o *cnn.Model) { o.Tokenizer.Lower = !o.Tokenizer.Lower }, "tokenizer lower"},
+		{"tokenizer file read from elsewhere", func(o *cnn.Model) { o.Tokenizer.File = "/dev/fd/63" }, ""},
+		{"another tokenizer file", func(o *cnn.Model) { o.Tokenizer.FileJSON = []byte(`{"model": {}}`) }, "tokenizer"},
 		{"vocabulary", func(o *cnn.Model) { o.Vocab[len(o.Vocab)-1] += "x" }, "vocabulary"},
 		{"no recipe", func(o *cnn.Model) { o.Info.Recipe = nil }, "training recipe recorded: true for --model, false for it"},
 		{"masked", func(o *cnn.Model) { o.Masked = make([]bool, o.Config.NumFilters()); o.Masked[0] = true }, "masked filters"},

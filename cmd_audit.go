@@ -665,6 +665,7 @@ func (o *auditOptions) openOthers(m *cnn.Model) ([]*cnn.Model, error) {
 func recipeDifference(a, b *cnn.Model) string {
 	ta, tb := a.Tokenizer, b.Tokenizer
 	ta.SubwordPieces, tb.SubwordPieces = nil, nil // compared as the vocabulary
+	ta.File, tb.File = "", ""                     // where it was read from: FileJSON holds the file itself
 	var ra, rb cnn.TrainConfig
 	switch {
 	case (a.Info.Recipe == nil) != (b.Info.Recipe == nil):
@@ -726,8 +727,8 @@ func (o *auditOptions) trainingRecipe(m *cnn.Model, es *evalSet) (*cnn.Recipe, e
 	if es.dev == nil {
 		return nil, fmt.Errorf("%s: %s is not the data %s was trained on (by its split record): %s trains on the model's own training split; give that data", what, o.data, o.model, what)
 	}
-	if rec := m.Info.Splits; rec.DevPipe {
-		return nil, fmt.Errorf("%s: the model's dev split came from a pipe at training (%s), which cannot be read again: %s trains on the model's own splits; train the model again with the dev split as a regular file (train --dev FILE)", what, rec.DevFile, what)
+	if rec := m.Info.Splits; readOnce(rec.DevFile, rec.DevPipe) {
+		return nil, fmt.Errorf("%s: the model's dev split was read once at training (%s, a pipe or a per-process file), and cannot be read again: %s trains on the model's own splits; train the model again with the dev split as a regular file (train --dev FILE)", what, rec.DevFile, what)
 	} else if rec.DevFile != "" {
 		dev, err := o.read.read(rec.DevFile, false, io.Discard, true)
 		if err != nil {

@@ -460,6 +460,17 @@ func TestRetrainArgs(t *testing.T) {
 	if got := src.trainArgs(); !slices.Contains(got, "--test") || slices.Contains(got, "--dev-frac") || !slices.Contains(got, "7") {
 		t.Errorf("on other data: %q", got)
 	}
+	// Split files read once at training (pipes): placeholders, or the
+	// --test given now, never the dead paths.
+	m.Info.Splits = &cnn.SplitRecord{Data: "d.csv", DevFile: "/dev/fd/62", DevPipe: true, TestFile: "/dev/fd/63", TestPipe: true, Seed: 7}
+	src.es, src.test = &evalSet{dev: &corpus.Dataset{}}, ""
+	if got := strings.Join(src.trainArgs(), " "); !strings.Contains(got, "--dev DEV-FILE --test TEST-FILE") || strings.Contains(got, "/dev/fd") {
+		t.Errorf("splits read once, no --test: %q", got)
+	}
+	src.test = "t.csv"
+	if got := strings.Join(src.trainArgs(), " "); !strings.Contains(got, "--dev DEV-FILE --test t.csv") || strings.Contains(got, "/dev/fd") {
+		t.Errorf("splits read once, --test t.csv: %q", got)
+	}
 	// The default recipe adds no recipe option.
 	def := cnn.DefaultRecipe()
 	dm := &cnn.Model{Config: def.Model, Tokenizer: def.Tokenizer}

@@ -321,14 +321,18 @@ func (s auditSource) trainArgs() []string {
 	if rec := s.m.Info.Splits; s.sameData() {
 		seed = rec.Seed
 		switch {
+		case readOnce(rec.DevFile, rec.DevPipe):
+			opt("dev", "DEV-FILE") // read once at training: the user has the file
 		case rec.DevFile != "":
 			opt("dev", rec.DevFile)
 		case rec.DevFrac != cnn.DefaultDevFrac:
 			opt("dev-frac", fmtFloat(rec.DevFrac))
 		}
 		switch {
-		case rec.TestFile != "" && s.test != "" && absPath(s.test) == rec.TestFile:
+		case rec.TestFile != "" && s.test != "" && (absPath(s.test) == rec.TestFile || readOnce(rec.TestFile, rec.TestPipe)):
 			opt("test", s.test)
+		case readOnce(rec.TestFile, rec.TestPipe):
+			opt("test", "TEST-FILE")
 		case rec.TestFile != "":
 			opt("test", rec.TestFile)
 		case rec.TestFrac != cnn.DefaultTestFrac:

@@ -138,7 +138,18 @@ func sameSplits(a, b *cnn.SplitRecord) bool {
 	}
 	drawn := a.DevFrac > 0 || a.TestFrac > 0
 	return a.Fingerprint == b.Fingerprint && a.DevFrac == b.DevFrac && a.TestFrac == b.TestFrac && (a.Seed == b.Seed || !drawn) &&
-		a.DevFile == b.DevFile && a.TestFile == b.TestFile
+		sameFileSplit(a.DevFile, b.DevFile, a.DevFingerprint, b.DevFingerprint) &&
+		sameFileSplit(a.TestFile, b.TestFile, a.TestFingerprint, b.TestFingerprint)
+}
+
+// sameFileSplit reports whether two recorded split files are the same
+// split: by their examples' fingerprints when both records have them (a
+// pipe's path, /dev/fd/63, says nothing of what it held), else by path.
+func sameFileSplit(pathA, pathB, printA, printB string) bool {
+	if printA != "" && printB != "" {
+		return printA == printB
+	}
+	return pathA == pathB
 }
 
 type compareRow struct {

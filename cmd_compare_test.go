@@ -28,6 +28,12 @@ func TestSameSplits(t *testing.T) {
 		{"another test file", &files, with(files, func(r *cnn.SplitRecord) { r.TestFile = "/u.csv" }), false},
 		{"other data", &files, with(files, func(r *cnn.SplitRecord) { r.Fingerprint = "g" }), false},
 		{"one without a record", &files, nil, false},
+		{"pipes: other paths, the same examples", with(files, func(r *cnn.SplitRecord) { r.DevFingerprint, r.TestFingerprint = "d", "t" }),
+			with(files, func(r *cnn.SplitRecord) {
+				r.DevFile, r.TestFile, r.DevFingerprint, r.TestFingerprint = "/dev/fd/63", "/dev/fd/62", "d", "t"
+			}), true},
+		{"pipes: the same path, other examples", with(files, func(r *cnn.SplitRecord) { r.DevFingerprint, r.TestFingerprint = "d", "t" }),
+			with(files, func(r *cnn.SplitRecord) { r.DevFingerprint, r.TestFingerprint = "d", "u" }), false},
 	} {
 		if got := sameSplits(c.a, c.b); got != c.want {
 			t.Errorf("%s: %v, want %v", c.name, got, c.want)

@@ -141,9 +141,21 @@ func (o *trainOptions) files() (outputs, inputs []outguard.File) {
 
 func runTrain(ctx context.Context, env *runEnv, o *trainOptions) error {
 	start := time.Now()
+	if err := o.recipe.readTokenizer(); err != nil {
+		return err
+	}
 	sp, err := o.split.load(o.data, &o.read, env.Stderr, o.quiet)
 	if err != nil {
 		return err
+	}
+	for _, p := range []struct {
+		opt, path, later string
+		once             bool
+	}{{"--dev", o.split.Dev, "audit --seeds and --retrain, which train on the model's splits, will need the model trained with --dev FILE", sp.record.DevPipe},
+		{"--test", o.split.Test, "give later commands the test file with --test", sp.record.TestPipe}} {
+		if p.once {
+			say(env.Stderr, o.quiet, "%s %s can be read only once (a pipe or a per-process file): the model records its path, but no later command reads it again; %s", p.opt, p.path, p.later)
+		}
 	}
 	if !o.quiet {
 		printWarnings(env.Stderr, sp.all.LabelWarnings())

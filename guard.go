@@ -124,8 +124,11 @@ func recordedSplits(inputs []outguard.File) []outguard.File {
 		if err != nil || rec == nil {
 			continue
 		}
-		for _, s := range []struct{ which, path string }{{"dev", rec.DevFile}, {"test", rec.TestFile}} {
-			if s.path == "" || holds(inputs, s.path) || holds(files, s.path) {
+		for _, s := range []struct {
+			which, path string
+			once        bool
+		}{{"dev", rec.DevFile, rec.DevPipe}, {"test", rec.TestFile, rec.TestPipe}} {
+			if s.path == "" || s.once || holds(inputs, s.path) || holds(files, s.path) {
 				continue
 			}
 			files = append(files, outguard.File{Name: in.Name + " " + in.Path + "'s recorded " + s.which + " split", Path: s.path})

@@ -199,23 +199,38 @@ func TestPipedInputsReadOnceOrRefused(t *testing.T) {
 		t.Errorf("train --tokenizer PIPE: the model holds %d bytes of tokenizer, want the file's %d", len(m.Tokenizer.FileJSON), len(tok))
 	}
 
-	// --test: read once, recorded as a pipe; eval asks for the file.
-	test := smallDemo(t, 60)
-	testText, err := os.ReadFile(test)
+	// --dev and --test: read once, recorded as such; eval asks for the
+	// test file and leaves the dev split out without a word; audit
+	// --retrain, which needs the dev split, says why it cannot.
+	lines, err := os.ReadFile(filepath.Join("testdata", "demo", "test.csv"))
 	if err != nil {
 		t.Fatal(err)
 	}
+	rows := strings.SplitAfter(string(lines), "\n")
 	model = filepath.Join(dir, "m.tt")
-	p = fifoOnce(t, filepath.Join(dir, "test.csv"), testText)
-	code, _, stderr := ttWithin(t, limit, []string{p}, "train", "--data", data, "--test", p, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--baseline=false")
-	if code != 0 || !strings.Contains(stderr, "--test "+p+" is a pipe, read once") {
-		t.Fatalf("train --test PIPE: exit %d, stderr %q; want exit 0 and a note on the pipe", code, stderr)
+	dev := fifoOnce(t, filepath.Join(dir, "dev.csv"), []byte(rows[0]+strings.Join(rows[61:121], "")))
+	test := fifoOnce(t, filepath.Join(dir, "test.csv"), []byte(strings.Join(rows[:61], "")))
+	code, _, stderr := ttWithin(t, limit, []string{dev, test}, "train", "--data", data, "--dev", dev, "--test", test, "--out", model,
+		"--epochs", "1", "--dim", "8", "--maps", "4", "--baseline=false")
+	for _, p := range []string{"--dev " + dev, "--test " + test} {
+		if code != 0 || !strings.Contains(stderr, p+" can be read only once") {
+			t.Fatalf("train --dev PIPE --test PIPE: exit %d, stderr %q; want exit 0 and a note on %s", code, stderr, p)
+		}
 	}
-	if m, err := cnn.Load(model); err != nil || !m.Info.Splits.TestPipe {
-		t.Fatalf("train --test PIPE: the split record does not say the test file was a pipe (%v)", err)
+	if m, err := cnn.Load(model); err != nil || !m.Info.Splits.DevPipe || !m.Info.Splits.TestPipe {
+		t.Fatalf("train --dev PIPE --test PIPE: the split record does not say both were read once (%v)", err)
 	}
-	if code, _, stderr := ttWithin(t, limit, []string{p}, "eval", "--model", model, "--data", data); code != 2 || !strings.Contains(stderr, "came from a pipe at training") || !strings.Contains(stderr, "give the test file with --test") {
-		t.Errorf("eval of a model whose test file was a pipe: exit %d, stderr %q; want exit 2 asking for --test", code, stderr)
+	code, _, stderr = ttWithin(t, limit, []string{dev, test}, "eval", "--model", model, "--data", data)
+	if code != 2 || !strings.Contains(stderr, "test split was read once at training") || !strings.Contains(stderr, "give the test file with --test") || strings.Contains(stderr, "dev") {
+		t.Errorf("eval of a model whose test file was a pipe: exit %d, stderr %q; want exit 2 asking for --test, and nothing of the dev split", code, stderr)
+	}
+	testFile := filepath.Join(dir, "test-file.csv")
+	if err := os.WriteFile(testFile, []byte(strings.Join(rows[:61], "")), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	code, _, stderr = ttWithin(t, limit, []string{dev, test}, "audit", "--model", model, "--data", data, "--test", testFile, "--retrain")
+	if code == 0 || !strings.Contains(stderr, "dev split was read once at training") || !strings.Contains(stderr, "train --dev FILE") {
+		t.Errorf("audit --retrain of a model whose dev file was a pipe: exit %d, stderr %q; want a refusal naming train --dev FILE", code, stderr)
 	}
 
 	refusedPipes(t, data, model)

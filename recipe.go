@@ -96,9 +96,6 @@ func (r *recipeOptions) register(fs *flag.FlagSet) {
 // check refuses every value that cannot train, naming the option; fs tells
 // whether --dim was given.
 func (r *recipeOptions) check(fs *flag.FlagSet) error {
-	if err := r.readTokenizer(); err != nil {
-		return err
-	}
 	if r.Optimizer != cnn.DefaultRecipe().Train.Optimizer && !isSet(fs, "lr") {
 		r.LR = 0 // the default recipe's rate is Adam's: another optimizer gets its own default
 	}
@@ -256,8 +253,9 @@ func (r *recipeOptions) tokenizerConfig() corpus.TokenizerConfig {
 }
 
 // readTokenizer reads the --tokenizer file, if any, into tokenizerJSON,
-// refusing an empty one. A file that cannot be read is left to the check
-// of the input paths, which names the problem.
+// refusing an empty one. A file that cannot be read is left to the
+// tokenizer, which names the problem. It runs after the options and paths
+// are checked: a pipe waits for its writer.
 func (r *recipeOptions) readTokenizer() error {
 	if r.Tokenizer == "" || r.tokenizerJSON != nil {
 		return nil

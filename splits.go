@@ -83,7 +83,7 @@ func (s *splitOptions) load(data string, r *readOptions, warn io.Writer, quiet b
 		testFrac = 0
 	}
 	sp := &splits{all: all}
-	devPipe, testPipe := s.Dev != "" && inputfile.IsPipe(s.Dev), s.Test != "" && inputfile.IsPipe(s.Test)
+	devPipe, testPipe := s.Dev != "" && inputfile.ReadOnce(s.Dev), s.Test != "" && inputfile.ReadOnce(s.Test)
 	sp.train, sp.dev, sp.test = all.SplitThree(devFrac, testFrac, s.Seed)
 	if s.Dev != "" {
 		if sp.dev, err = r.read(s.Dev, false, warn, quiet); err != nil {
@@ -104,14 +104,6 @@ func (s *splitOptions) load(data string, r *readOptions, warn io.Writer, quiet b
 	}
 	if s.Test != "" {
 		sp.record.TestFingerprint = sp.test.Fingerprint()
-	}
-	for _, p := range []struct {
-		opt, path string
-		pipe      bool
-	}{{"--dev", s.Dev, devPipe}, {"--test", s.Test, testPipe}} {
-		if p.pipe {
-			say(warn, quiet, "%s %s is a pipe, read once: the model records its path, but no later command can read it again; give them that split as a file (eval --test FILE, say)", p.opt, p.path)
-		}
 	}
 	return sp, nil
 }
@@ -185,8 +177,8 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 				es.warnings = append(es.warnings, w)
 			}
 		}
-	case same && rec.TestPipe:
-		return nil, usagef("the model's test split came from a pipe at training (--test %s), which cannot be read again: give the test file with --test", rec.TestFile)
+	case same && readOnce(rec.TestFile, rec.TestPipe):
+		return nil, usagef("the model's test split was read once at training (--test %s, a pipe or a per-process file), and cannot be read again: give the test file with --test", rec.TestFile)
 	case same && rec.TestFile != "":
 		if es.test, err = r.read(rec.TestFile, false, warn, quiet); err != nil {
 			return nil, fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
@@ -221,6 +213,14 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	return es, nil
 }
 
+// readOnce reports whether a split file a model recorded (path, "" for
+// none) cannot be read again: recorded as read once (pipe, from
+// cnn.SplitRecord's DevPipe or TestPipe), or such a path now, for a model
+// written before those were recorded (inputfile.ReadOnce).
+func readOnce(path string, pipe bool) bool {
+	return path != "" && (pipe || inputfile.ReadOnce(path))
+}
+
 // readDevFile makes the dev file the model was trained with (rec.DevFile)
 // the dev split, warning when it changed since training; when it cannot be
 // read, the dev split stays empty, with a warning (no evaluation needs it).
@@ -228,9 +228,8 @@ func (es *evalSet) readDevFile(rec *cnn.SplitRecord, r *readOptions) {
 	if rec.DevFile == "" {
 		return
 	}
-	if rec.DevPipe {
-		es.warnings = append(es.warnings, fmt.Sprintf("the dev split came from a pipe at training (%s), which cannot be read again: it is left out", rec.DevFile))
-		return
+	if readOnce(rec.DevFile, rec.DevPipe) {
+		return // no evaluation needs it; audit --seeds and --retrain say so (trainingRecipe)
 	}
 	dev, err := r.read(rec.DevFile, false, io.Discard, true)
 	if err != nil {

@@ -213,9 +213,10 @@ type SplitRecord struct {
 	// in model files written before they were recorded.
 	DevFingerprint  string `json:"dev_fingerprint,omitempty"`
 	TestFingerprint string `json:"test_fingerprint,omitempty"`
-	// DevPipe and TestPipe say that DevFile or TestFile was a pipe (named,
-	// or /dev/fd/N), read once at training: no later command can read it
-	// again, so the path is kept for the record only.
+	// DevPipe and TestPipe say that DevFile or TestFile could be read only
+	// once at training: a pipe (named, or /dev/fd/N) or a per-process name
+	// such as /dev/stdin. No later command reads it again; the path is
+	// kept to say where the split came from.
 	DevPipe  bool `json:"dev_pipe,omitempty"`
 	TestPipe bool `json:"test_pipe,omitempty"`
 	// Train, Dev and Test are the sizes of the three splits.

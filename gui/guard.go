@@ -25,14 +25,21 @@ func (st *State) inputs() []string {
 }
 
 // recordedFiles are the separate dev and test files ms's model recorded at
-// training (cnn.SplitRecord), in that order ("" for one it did not use),
-// nil when it records none.
+// training (cnn.SplitRecord), in that order ("" for one it did not use or
+// read once, a pipe: its path names nothing now), nil when it records
+// none.
 func recordedFiles(ms *modelState) []string {
 	if ms.Model == nil || ms.Model.Info.Splits == nil {
 		return nil
 	}
 	rec := ms.Model.Info.Splits
-	return []string{rec.DevFile, rec.TestFile}
+	files := []string{rec.DevFile, rec.TestFile}
+	for i, once := range []bool{rec.DevPipe, rec.TestPipe} {
+		if once {
+			files[i] = ""
+		}
+	}
+	return files
 }
 
 // notAnInput refuses path when it is one of the window's inputs: the same

@@ -6,6 +6,8 @@ import (
 	"io"
 	"io/fs"
 	"os"
+	"path/filepath"
+	"strings"
 	"sync"
 )
 
@@ -49,6 +51,18 @@ func ReadFile(path string) ([]byte, error) {
 func IsPipe(path string) bool {
 	st, err := os.Stat(path)
 	return err == nil && st.Mode()&fs.ModeNamedPipe != 0
+}
+
+// ReadOnce reports whether path can be read only once or names another
+// file in every process: a pipe (named, or the anonymous one behind a
+// shell's <(…)), or a per-process name (/dev/stdin, /dev/fd/N,
+// /proc/self/fd/N). A later command cannot read such a path again.
+func ReadOnce(path string) bool {
+	if IsPipe(path) {
+		return true
+	}
+	p := filepath.Clean(path)
+	return p == "/dev/stdin" || strings.HasPrefix(p, "/dev/fd/") || strings.HasPrefix(p, "/proc/self/fd/")
 }
 
 func (o *opener) interrupt() { o.once.Do(func() { close(o.stop) }) }
