@@ -128,7 +128,7 @@ func recordedSplits(inputs []outguard.File) []outguard.File {
 			which, path string
 			once        bool
 		}{{"dev", rec.DevFile, rec.DevPipe}, {"test", rec.TestFile, rec.TestPipe}} {
-			if s.path == "" || s.once || holds(inputs, s.path) || holds(files, s.path) {
+			if s.path == "" || readOnce(s.path, s.once) || holds(inputs, s.path) || holds(files, s.path) {
 				continue
 			}
 			files = append(files, outguard.File{Name: in.Name + " " + in.Path + "'s recorded " + s.which + " split", Path: s.path})

@@ -32,8 +32,9 @@ type recipeOptions struct {
 	// dimension is the file's (Dim holds it as the file's first line says,
 	// for the memory check).
 	dimFromVectors bool
-	// tokenizerJSON is the --tokenizer file, read once by check: training
-	// builds its tokenizer more than once, and a pipe can be read only once.
+	// tokenizerJSON is the --tokenizer file, read once (readTokenizer):
+	// training builds its tokenizer more than once, and a pipe can be read
+	// only once.
 	tokenizerJSON []byte
 }
 
