@@ -474,15 +474,7 @@ func (tr *trainer) forwardBackward() float64 {
 	if !tr.tc.FreezeEmb {
 		tr.wk.run(nw, tr.fnScatter)
 	}
-	if tr.gWide != nil {
-		tr.scatterWide()
-	}
-	if tr.scale != nil {
-		tr.sumScaleGrad()
-	}
-	if tr.gBig != nil {
-		tr.scatterBigrams()
-	}
+	tr.scatterWideGrads()
 	var sum float64
 	for _, l := range tr.loss[:n] {
 		sum += l

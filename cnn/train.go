@@ -221,22 +221,34 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: learning-rate decay %g: must be in [0, 1] (0: none)", tc.LRDecay)
 	case !(tc.WideLR >= 0) || math.IsInf(tc.WideLR, 0) || tc.WeightDecay*tc.LR*tc.WideLR >= 1:
 		return tc, fmt.Errorf("cnn: wide learning-rate factor %g: must be 0 (1×) or positive, with decay × learning rate × factor below 1", tc.WideLR)
-	case !(tc.WideFitC >= 0) || math.IsInf(tc.WideFitC, 0):
-		return tc, fmt.Errorf("cnn: C %g of the fitted start: must be 0 (chosen on dev) or a finite positive number", tc.WideFitC)
-	case tc.WideFitC > 0 && !tc.WideFit:
-		return tc, fmt.Errorf("cnn: C %g of the fitted start, but no fitted start: turn WideFit on or set WideFitC to 0", tc.WideFitC)
-	case tc.WideFitFolds < 0 || tc.WideFitFolds == 1:
-		return tc, fmt.Errorf("cnn: %d folds for the fitted start's out-of-fold terms: must be 0 (none) or 2 or more", tc.WideFitFolds)
-	case tc.WideFitScale && !tc.WideFit:
-		return tc, fmt.Errorf("cnn: a learned scale of the fitted start, but no fitted start: turn WideFit on or WideFitScale off")
-	case tc.WideFitFolds > 0 && !tc.WideFit:
-		return tc, fmt.Errorf("cnn: %d folds for the fitted start, but no fitted start: turn WideFit on or set WideFitFolds to 0", tc.WideFitFolds)
 	case tc.WideSparse && tc.Optimizer != "adam":
 		return tc, fmt.Errorf("cnn: sparse word weights need the adam optimizer, not %s: choose adam or turn the sparse update off", tc.Optimizer)
 	case tc.WideSparse && tc.WeightDecay > 0:
 		return tc, fmt.Errorf("cnn: sparse word weights with weight decay %g: the sparse update has no weight decay; set weight decay 0 or turn the sparse update off", tc.WeightDecay)
 	}
+	if err := tc.checkWideFitSettings(); err != nil {
+		return tc, err
+	}
 	return tc, tc.checkWideDecay()
+}
+
+// checkWideFitSettings returns an error if a setting of the fitted start
+// (WideFitC, WideFitFolds, WideFitScale) is out of range or set without
+// WideFit.
+func (tc TrainConfig) checkWideFitSettings() error {
+	switch {
+	case !(tc.WideFitC >= 0) || math.IsInf(tc.WideFitC, 0):
+		return fmt.Errorf("cnn: C %g of the fitted start: must be 0 (chosen on dev) or a finite positive number", tc.WideFitC)
+	case tc.WideFitC > 0 && !tc.WideFit:
+		return fmt.Errorf("cnn: C %g of the fitted start, but no fitted start: turn WideFit on or set WideFitC to 0", tc.WideFitC)
+	case tc.WideFitFolds < 0 || tc.WideFitFolds == 1:
+		return fmt.Errorf("cnn: %d folds for the fitted start's out-of-fold terms: must be 0 (none) or 2 or more", tc.WideFitFolds)
+	case tc.WideFitFolds > 0 && !tc.WideFit:
+		return fmt.Errorf("cnn: %d folds for the fitted start, but no fitted start: turn WideFit on or set WideFitFolds to 0", tc.WideFitFolds)
+	case tc.WideFitScale && !tc.WideFit:
+		return fmt.Errorf("cnn: a learned scale of the fitted start, but no fitted start: turn WideFit on or WideFitScale off")
+	}
+	return nil
 }
 
 // checkWideDecay returns an error if WideDecay is negative, not finite,
@@ -397,9 +409,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		tr.setEpoch(epoch)
 		start := time.Now()
 		sum, done := run.epoch(epoch, batches, start)
-		m.FillChars() // the vocabulary's character parts follow the character layer
-		tr.foldWideScale()
-		m.Invalidate() // the weights changed: predictions rebuild their table
+		tr.endEpoch()
 		if res.Diverged == nil && !finiteWeights(m) {
 			res.Diverged = &Divergence{Epoch: epoch, Value: "weights"}
 		}
@@ -435,6 +445,16 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	}
 	run.finish(sel)
 	return res, nil
+}
+
+// endEpoch brings the model up to date with the epoch's training: the
+// vocabulary's character parts follow the character layer, the learned
+// scale of the wide term moves into its weights (foldWideScale), and
+// predictions rebuild their table, the weights having changed.
+func (tr *trainer) endEpoch() {
+	tr.m.FillChars()
+	tr.foldWideScale()
+	tr.m.Invalidate()
 }
 
 // firstKept is the first epoch the run may keep: KeepFrom, or the last

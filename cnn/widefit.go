@@ -243,6 +243,21 @@ func (tr *trainer) wideTerm(t *threadBuf, i int, ids []int32) {
 	}
 }
 
+// scatterWideGrads moves the step's gradients of the wide path where the
+// optimizer reads them: the word and bigram tables' (when they train)
+// and the learned scale's.
+func (tr *trainer) scatterWideGrads() {
+	if tr.gWide != nil {
+		tr.scatterWide()
+	}
+	if tr.gBig != nil {
+		tr.scatterBigrams()
+	}
+	if tr.scale != nil {
+		tr.sumScaleGrad()
+	}
+}
+
 // sumScaleGrad sums the threads' gradients of the learned scale into
 // gScale, in thread order.
 func (tr *trainer) sumScaleGrad() {
