@@ -10,6 +10,9 @@ import (
 	"slices"
 	"strings"
 	"testing"
+
+	"telltale/cnn"
+	"telltale/internal/outguard"
 )
 
 // guardCommand is one command's outputs and inputs, for the output guard's
@@ -486,5 +489,24 @@ func TestInputsCheckedFirst(t *testing.T) {
 				})
 			}
 		}
+	}
+}
+
+// recordedSplits lists a model's recorded dev and test files as inputs to
+// protect, but not one recorded as read once (a pipe, /dev/fd/N): its path
+// names another file, or nothing, in a later process.
+func TestRecordedSplitsLeaveReadOnceFiles(t *testing.T) {
+	m, err := cnn.New(cnn.Config{VocabSize: 4, Dim: 2, Widths: []int{1}, Filters: 1, Classes: 2}, nil, []string{"a", "b"}, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m.Info.Splits = &cnn.SplitRecord{Data: "d.csv", DevFile: "/data/dev.csv", TestFile: "/dev/fd/63", TestPipe: true}
+	path := filepath.Join(t.TempDir(), "m.tt")
+	if err := m.Save(path); err != nil {
+		t.Fatal(err)
+	}
+	got := recordedSplits([]outguard.File{{Name: "--model", Path: path}})
+	if len(got) != 1 || got[0].Path != "/data/dev.csv" {
+		t.Errorf("recorded splits %+v, want the dev file alone", got)
 	}
 }
