@@ -69,7 +69,7 @@ the path out (Kim's model alone). It combines with --chars.
 macro-F1 from the Nth on, patience counting from there (beyond --epochs
 it means the last). The first epochs are where the word weights, at
 their higher rate, have learned the easiest tokens and little else,
-artifacts of the collection among them (README, "The default recipe").
+artifacts of the collection among them (docs/default-recipe.md).
 
 Before training it refuses data that would give a useless model: more
 distinct labels than half the examples (the text and label columns swapped,

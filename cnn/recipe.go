@@ -16,7 +16,7 @@ const (
 // DefaultWideLR is the factor on the learning rate of the word-weight
 // table (TrainConfig.WideLR) that `train --wide` and the window use: of
 // 1, 10, 30, 100, 300 and 1000, the best mean dev macro-F1 on the State of
-// the Union addresses over seeds 1–3 (README, "The default recipe"). At the
+// the Union addresses over seeds 1–3 (docs/default-recipe.md). At the
 // rest's rate the table barely moves from zero before early stopping ends
 // the run.
 const DefaultWideLR = 100
@@ -32,7 +32,7 @@ const DefaultWideLR = 100
 //
 // It was chosen on the dev splits of the demo, SpamAssassin and State of
 // the Union corpora, never on a test split, as the candidate with the best
-// mean dev macro-F1 over seeds 1–3 (README, "The default recipe";
+// mean dev macro-F1 over seeds 1–3 (docs/default-recipe.md;
 // internal/recipesearch measures the candidates): the word and bigram
 // weights gained +0.035 on the State of the Union dev split and lost
 // nothing beyond noise on the other two. Earlier searches (more filters,
@@ -45,7 +45,7 @@ const DefaultWideLR = 100
 // (internal/reviewset; +0.0049, 1.9 standard errors), the thirteenth
 // round: a mean gain of +0.0032 over the four corpora, below the earlier
 // rounds' rule of two standard errors, taken as the one candidate carried
-// forward (README, "The default recipe"). The fourteenth round took 20
+// forward (docs/default-recipe.md). The fourteenth round took 20
 // epochs with patience 5 and dropout 0.3 (Kim's 0.5 before): on fresh
 // seeds of the reviews' dev folds +0.0081 (3.9 standard errors of the 50
 // paired runs), and no loss beyond 0.005 on the other three corpora's dev

@@ -20,7 +20,7 @@ import (
 //
 // How the default recipe's CNN compares with this baseline on the same
 // rotations is measured by `go run ./internal/recipesearch -corpus
-// reviews -test -baseline` and told in the README ("The default recipe"):
+// reviews -test -baseline` and told in docs/default-recipe.md:
 // there the CNN is still behind, which is why no test asserts it.
 func TestReviewsBaseline(t *testing.T) {
 	if testing.Short() {

@@ -33,8 +33,8 @@ var spamGroupLabels = map[string]string{"easy-ham-1": "ham", "easy-ham-2": "ham"
 // The two models differ on 5 to 13 of the 1,209 test mails, so the mean
 // comparison is close: at the time of writing 0.9870 and 0.9850 against
 // 0.9859 and 0.9837, about one mail per seed (the settings of the default
-// recipe were chosen on dev splits before this figure was read; README,
-// "The default recipe").
+// recipe were chosen on dev splits before this figure was read;
+// docs/default-recipe.md).
 //
 // What the model sees: each mail's Subject header and its body (everything
 // after the header block, MIME parts and markup left as they are); all other

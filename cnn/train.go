@@ -90,7 +90,7 @@ type TrainConfig struct {
 	// patience counts from it at the earliest. The first epochs are where
 	// the word weights, at their higher rate, have learned the easiest
 	// tokens and little else, artifacts of the collection among them
-	// (README, "The default recipe"). 0 or 1 may keep any epoch; one
+	// (docs/default-recipe.md, the eighteenth round). 0 or 1 may keep any epoch; one
 	// beyond Epochs counts as Epochs (the run keeps its last epoch), so that
 	// a recipe with a KeepFrom still allows a short run of a few epochs.
 	KeepFrom int `json:"keep_from,omitempty"`
@@ -149,7 +149,7 @@ type TrainConfig struct {
 	// (WideFit); 0 chooses it on dev from the baseline's grid. It must be
 	// finite and not negative, and 0 without WideFit. A C chosen on dev
 	// follows whatever predicts dev, artifacts of the collection included
-	// (README, "The default recipe").
+	// (docs/default-recipe.md, the seventeenth round).
 	WideFitC float64 `json:"wide_fit_c,omitempty"`
 }
 
