@@ -193,3 +193,29 @@ func TestReadFileContext(t *testing.T) {
 		}
 	})
 }
+
+// ReadOnce: a named pipe and the per-process names of a shell's <(…) and
+// of standard input can be read only once, or name another file in the
+// next process; a regular file, a missing one and a folder can be read
+// again.
+func TestReadOnce(t *testing.T) {
+	dir := t.TempDir()
+	fifo, file := filepath.Join(dir, "p.csv"), filepath.Join(dir, "d.csv")
+	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
+		t.Skipf("mkfifo: %v", err)
+	}
+	if err := os.WriteFile(file, []byte("text,label\n"), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		path string
+		want bool
+	}{
+		{fifo, true}, {"/dev/stdin", true}, {"/dev/fd/63", true}, {"/proc/self/fd/0", true}, {"/dev/fd/../fd/5", true},
+		{file, false}, {filepath.Join(dir, "none.csv"), false}, {dir, false},
+	} {
+		if got := ReadOnce(c.path); got != c.want {
+			t.Errorf("ReadOnce(%s) = %v, want %v", c.path, got, c.want)
+		}
+	}
+}
