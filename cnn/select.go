@@ -3,8 +3,8 @@ package cnn
 import "math"
 
 // selector is Train's choice of the model to keep: at the end of each epoch
-// it forms the epoch's model (the current weights, or the mean of the last
-// AverageLast epochs' weights), scores it on the dev split and keeps a copy
+// it forms the epoch's model (the current weights, their moving average
+// over the steps, or the mean of the last AverageLast epochs' weights), scores it on the dev split and keeps a copy
 // of the best.
 type selector struct {
 	tc  TrainConfig
@@ -13,6 +13,8 @@ type selector struct {
 	ring []*Model // the weights at the ends of the last AverageLast epochs
 	next int      // ring slot of the next epoch
 	avg  *Model   // their mean
+
+	avgSteps *weightAverage // the weights' moving average (WeightAverage); nil when off
 
 	best      *Model
 	bestScore float64 // higher is better
@@ -34,6 +36,9 @@ func (s *selector) restart() {
 // (always, without a dev split); the best is kept in s.best.
 func (s *selector) epochEnd(m *Model) (*Metrics, bool, error) {
 	cand := m
+	if s.avgSteps != nil {
+		cand = s.avgSteps.current(m)
+	}
 	if k := s.tc.AverageLast; k >= 2 {
 		if len(s.ring) < k {
 			s.ring = append(s.ring, nil)

@@ -62,6 +62,14 @@ type TrainConfig struct {
 	// model of the same shape; dev chooses among these means, and training
 	// continues from the latest weights. 0 or 1 keeps each epoch's own.
 	AverageLast int `json:"average_last,omitempty"`
+	// WeightAverage, when set (in (0, 1)), makes the model of each epoch
+	// the exponential moving average of the weights over the training
+	// steps so far, at this decay per step (average.go: averaged iterates,
+	// Polyak & Juditsky 1992, bias-corrected so the random start carries
+	// no weight). Dev chooses among these averages and the run keeps one;
+	// training continues from the latest weights. 0 turns it off. It
+	// excludes AverageLast and WideFitScale.
+	WeightAverage float64 `json:"weight_average,omitempty"`
 	// StopOn is what early stopping and the choice of the kept epoch
 	// follow on the dev split: "macro-f1" ("" too: the highest), "loss"
 	// (the lowest mean cross-entropy) or "macro-f1,loss" (the highest
@@ -209,6 +217,12 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: weight decay %g: must be 0 (off) or positive with decay × learning rate below 1", tc.WeightDecay)
 	case tc.AverageLast < 0:
 		return tc, fmt.Errorf("cnn: average of the last %d epochs: must be 0 (off) or positive", tc.AverageLast)
+	case !(tc.WeightAverage >= 0 && tc.WeightAverage < 1):
+		return tc, fmt.Errorf("cnn: weight average decay %g: must be in [0, 1) (0: off)", tc.WeightAverage)
+	case tc.WeightAverage > 0 && tc.AverageLast >= 2:
+		return tc, fmt.Errorf("cnn: a moving average of the weights and an average of the last %d epochs: choose one", tc.AverageLast)
+	case tc.WeightAverage > 0 && tc.WideFitScale:
+		return tc, fmt.Errorf("cnn: a moving average of the weights with a learned scale of the fitted start: the scale lives outside the weights until an epoch ends; turn one off")
 	case tc.StopOn != "" && tc.StopOn != StopMacroF1 && tc.StopOn != StopLoss && tc.StopOn != StopMacroF1Loss:
 		return tc, fmt.Errorf("cnn: stop on %q: use %s, %s or %s", tc.StopOn, StopMacroF1, StopLoss, StopMacroF1Loss)
 	case !(tc.EmbedDropout >= 0 && tc.EmbedDropout < 1):
@@ -402,6 +416,8 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	res := run.res
 	res.Cancelled = cancelled
 	sel := newSelector(tc, dev)
+	sel.avgSteps = newWeightAverage(m, tc.WeightAverage)
+	run.avg = sel.avgSteps
 	order := make([]int, train.Len())
 	var batches [][]int
 	for epoch := 1; epoch <= tc.Epochs && !res.Cancelled; epoch++ {
@@ -480,6 +496,7 @@ type trainRun struct {
 	train    Data        // truncated to tc.MaxLen
 	progress func(Progress)
 	res      *TrainResult
+	avg      *weightAverage // nil without TrainConfig.WeightAverage
 
 	// Training throughput: the first epoch apart, the later ones summed.
 	firstN, steadyN int
@@ -500,6 +517,9 @@ func (r *trainRun) epoch(epoch int, batches [][]int, start time.Time) (sum float
 		if math.IsNaN(loss) || math.IsInf(loss, 0) {
 			r.res.Diverged = &Divergence{Epoch: epoch, Batch: bi + 1, Value: fmt.Sprint(loss)}
 			break
+		}
+		if r.avg != nil {
+			r.avg.step(r.m)
 		}
 		sum += loss * float64(len(b))
 		done += len(b)

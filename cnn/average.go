@@ -1,0 +1,90 @@
+package cnn
+
+import "math"
+
+// averageEvery is how many training steps pass between two samples of the
+// weights' moving average (TrainConfig.WeightAverage): a sample costs a
+// pass over every weight, as much as a dense optimizer step, so it is taken
+// every few steps at the decay those steps would have had together.
+const averageEvery = 4
+
+// weightAverage is the exponential moving average of a model's weights over
+// the training steps: averaged iterates as in Polyak & Juditsky (1992,
+// "Acceleration of Stochastic Approximation by Averaging", SIAM J. Control
+// Optim.), in the exponential form, started at zero and divided by
+// 1 − decayⁿ after n samples as Adam's moments are (Kingma & Ba 2015), so
+// that the random start carries no weight. sum holds the running sums;
+// model is the corrected average, formed when asked for.
+type weightAverage struct {
+	decay   float64 // per sample: the per-step decay to the power averageEvery
+	steps   int     // training steps seen
+	samples int     // samples taken
+	sum     *Model
+	model   *Model
+}
+
+// newWeightAverage returns the average of m's weights over the steps to
+// come, at perStep decay (in (0, 1)); nil when perStep is 0 (off).
+func newWeightAverage(m *Model, perStep float64) *weightAverage {
+	if perStep == 0 {
+		return nil
+	}
+	a := &weightAverage{decay: math.Pow(perStep, averageEvery), sum: m.Clone()}
+	for _, s := range trainableSlices(a.sum) {
+		clear(s)
+	}
+	return a
+}
+
+// step records that one training step has changed m; every averageEvery
+// steps it samples m's weights into the sums.
+func (a *weightAverage) step(m *Model) {
+	a.steps++
+	if a.steps%averageEvery != 0 {
+		return
+	}
+	a.samples++
+	k := float32(1 - a.decay)
+	dst, src := trainableSlices(a.sum), trainableSlices(m)
+	for i, s := range dst {
+		for j, x := range src[i] {
+			s[j] += k * (x - s[j])
+		}
+	}
+}
+
+// current returns the bias-corrected average of the samples so far (m's
+// own weights before the first sample), a model of m's shape that the
+// next step's sample leaves alone until current is called again.
+func (a *weightAverage) current(m *Model) *Model {
+	a.model = copyWeights(a.model, m)
+	if a.samples > 0 {
+		inv := float32(1 / (1 - math.Pow(a.decay, float64(a.samples))))
+		dst, src := trainableSlices(a.model), trainableSlices(a.sum)
+		for i, s := range dst {
+			for j, x := range src[i] {
+				s[j] = x * inv
+			}
+		}
+	}
+	if a.model.Char != nil {
+		a.model.FillChars() // the character parts follow the averaged layer
+	}
+	a.model.Invalidate()
+	return a.model
+}
+
+// trainableSlices returns every trainable weight slice of m, in a fixed
+// order: the embeddings, each convolution's weights and biases, the output
+// layer, the word and bigram weights, and the character layer's.
+func trainableSlices(m *Model) [][]float32 {
+	out := [][]float32{m.Emb}
+	for _, c := range m.Convs {
+		out = append(out, c.W, c.B)
+	}
+	out = append(out, m.OutW, m.OutB, m.Wide, m.WideBigram)
+	if l := m.Char; l != nil {
+		out = append(out, l.Emb, l.W, l.B)
+	}
+	return out
+}

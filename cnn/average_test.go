@@ -1,0 +1,116 @@
+package cnn
+
+import (
+	"context"
+	"math"
+	"slices"
+	"strings"
+	"testing"
+)
+
+// The moving average of the weights is, after n samples, the mean of the
+// sampled iterates weighted by b^(n−j) (b the decay per sample), each
+// weight divided by their sum: the bias-corrected exponential average, an
+// identity of the definition (Polyak & Juditsky 1992 in the exponential
+// form; the correction as Adam's, Kingma & Ba 2015). The sample is taken
+// every averageEvery steps, here over a real training run's iterates.
+func TestWeightAverageIsTheWeightedMeanOfIterates(t *testing.T) {
+	const perStep = 0.9
+	d := toyData(3, 60, 30)
+	m := randModel(7, 30, 6, []int{2, 3}, 4, 2)
+	m.Config.Dropout = 0.3
+	tc, err := TrainConfig{Seed: 1, Threads: 2, WeightAverage: perStep}.WithDefaults()
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr := newTrainer(m, tc)
+	defer tr.close()
+	tr.prepare(d)
+	avg := newWeightAverage(m, perStep)
+	if got, want := flatWeights(avg.current(m)), flatWeights(m); !slices.Equal(got, want) {
+		t.Fatal("before any sample the average is not the model's own weights")
+	}
+	var samples [][]float32
+	for s := 1; s <= 4*averageEvery+2; s++ {
+		tr.step(d, []int{s % 60, (s + 7) % 60, (s + 19) % 60, (s + 31) % 60})
+		avg.step(m)
+		if s%averageEvery == 0 {
+			samples = append(samples, flatWeights(m))
+		}
+	}
+	b := math.Pow(perStep, averageEvery)
+	got := flatWeights(avg.current(m))
+	var moved bool
+	for i := range got {
+		var num, den float64
+		for j, s := range samples {
+			w := math.Pow(b, float64(len(samples)-1-j))
+			num += w * float64(s[i])
+			den += w
+		}
+		want := num / den
+		if !close32(got[i], float32(want), 1e-5, 1e-6) {
+			t.Fatalf("weight %d: average %g, weighted mean of the %d samples %g", i, got[i], len(samples), want)
+		}
+		moved = moved || !close32(got[i], flatWeights(m)[i], 1e-4, 0)
+	}
+	if !moved {
+		t.Error("the average equals the latest weights: nothing was averaged")
+	}
+}
+
+// With a dev split and WeightAverage, each epoch's dev metrics are those of
+// the averaged model, and the kept model is the best of them; training
+// goes on from the raw weights, so a run is deterministic for its seed.
+func TestTrainWeightAverageDev(t *testing.T) {
+	run := func() (*Model, *TrainResult) {
+		m := randModel(5, 30, 6, []int{2}, 3, 2)
+		train, dev := toyData(5, 120, 30), toyData(6, 60, 30)
+		res, err := Train(context.Background(), m, train, dev,
+			TrainConfig{Epochs: 4, Batch: 10, Seed: 1, Patience: -1, WeightAverage: 0.95}, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return m, res
+	}
+	m, res := run()
+	mt, _, err := Evaluate(m, toyData(6, 60, 30), 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if kept := res.Epochs[res.BestEpoch-1].Dev; kept.MacroF1 != mt.MacroF1 || kept.Accuracy != mt.Accuracy {
+		t.Errorf("kept model: macro-F1 %g accuracy %g; epoch %d recorded %g and %g", mt.MacroF1, mt.Accuracy, res.BestEpoch, kept.MacroF1, kept.Accuracy)
+	}
+	for _, e := range res.Epochs {
+		if e.Dev.MacroF1 > mt.MacroF1 {
+			t.Errorf("epoch %d (%g) beat the kept epoch %d (%g)", e.Epoch, e.Dev.MacroF1, res.BestEpoch, mt.MacroF1)
+		}
+	}
+	again, _ := run()
+	if !slices.Equal(flatWeights(m), flatWeights(again)) {
+		t.Error("two runs with the same seed differ")
+	}
+	if m.Info.Recipe == nil || m.Info.Recipe.WeightAverage != 0.95 {
+		t.Error("the model's recipe does not record the moving average")
+	}
+}
+
+func TestWeightAverageSettings(t *testing.T) {
+	for _, c := range []struct {
+		tc   TrainConfig
+		want string
+	}{
+		{TrainConfig{WeightAverage: 1}, "weight average decay"},
+		{TrainConfig{WeightAverage: -0.5}, "weight average decay"},
+		{TrainConfig{WeightAverage: math.NaN()}, "weight average decay"},
+		{TrainConfig{WeightAverage: 0.99, AverageLast: 3}, "choose one"},
+		{TrainConfig{WeightAverage: 0.99, WideFit: true, WideFitScale: true}, "learned scale"},
+	} {
+		if _, err := c.tc.WithDefaults(); err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%+v: error %v, want one with %q", c.tc, err, c.want)
+		}
+	}
+	if _, err := (TrainConfig{WeightAverage: 0.99, AverageLast: 1}).WithDefaults(); err != nil {
+		t.Errorf("valid settings refused: %v", err)
+	}
+}
