@@ -2,12 +2,6 @@ package cnn
 
 import "math"
 
-// averageEvery is how many training steps pass between two samples of the
-// weights' moving average (TrainConfig.WeightAverage): a sample costs a
-// pass over every weight, as much as a dense optimizer step, so it is taken
-// every few steps at the decay those steps would have had together.
-const averageEvery = 4
-
 // weightAverage is the exponential moving average of a model's weights over
 // the training steps: averaged iterates as in Polyak & Juditsky (1992,
 // "Acceleration of Stochastic Approximation by Averaging", SIAM J. Control
@@ -16,7 +10,8 @@ const averageEvery = 4
 // that the random start carries no weight. sum holds the running sums;
 // model is the corrected average, formed when asked for.
 type weightAverage struct {
-	decay   float64 // per sample: the per-step decay to the power averageEvery
+	every   int     // steps between two samples
+	decay   float64 // per sample: the per-step decay to the power every
 	steps   int     // training steps seen
 	samples int     // samples taken
 	sum     *Model
@@ -24,23 +19,31 @@ type weightAverage struct {
 }
 
 // newWeightAverage returns the average of m's weights over the steps to
-// come, at perStep decay (in (0, 1)); nil when perStep is 0 (off).
-func newWeightAverage(m *Model, perStep float64) *weightAverage {
-	if perStep == 0 {
+// come, with a horizon of epochs epochs of stepsPerEpoch steps each: the
+// decay per step is 1 − 1/(epochs·stepsPerEpoch) (0, the latest weights
+// alone, when that is below 0), so the mean age of the averaged weights is
+// about epochs epochs on a split of any size. A sample costs a pass over
+// every weight, as much as a dense optimizer step, so it is taken every few
+// steps (at most 4, at least 8 samples an epoch) at the decay those steps
+// have together. It returns nil when epochs is 0 (off).
+func newWeightAverage(m *Model, epochs float64, stepsPerEpoch int) *weightAverage {
+	if epochs == 0 {
 		return nil
 	}
-	a := &weightAverage{decay: math.Pow(perStep, averageEvery), sum: m.Clone()}
+	perStep := max(0, 1-1/(epochs*float64(stepsPerEpoch)))
+	every := min(4, max(1, stepsPerEpoch/8))
+	a := &weightAverage{every: every, decay: math.Pow(perStep, float64(every)), sum: m.Clone()}
 	for _, s := range trainableSlices(a.sum) {
 		clear(s)
 	}
 	return a
 }
 
-// step records that one training step has changed m; every averageEvery
-// steps it samples m's weights into the sums.
+// step records that one training step has changed m; every a.every steps
+// it samples m's weights into the sums.
 func (a *weightAverage) step(m *Model) {
 	a.steps++
-	if a.steps%averageEvery != 0 {
+	if a.steps%a.every != 0 {
 		return
 	}
 	a.samples++

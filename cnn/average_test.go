@@ -12,10 +12,12 @@ import (
 // sampled iterates weighted by b^(n−j) (b the decay per sample), each
 // weight divided by their sum: the bias-corrected exponential average, an
 // identity of the definition (Polyak & Juditsky 1992 in the exponential
-// form; the correction as Adam's, Kingma & Ba 2015). The sample is taken
-// every averageEvery steps, here over a real training run's iterates.
+// form; the correction as Adam's, Kingma & Ba 2015). A horizon of a
+// quarter epoch of 40 steps is a decay of 1 − 1/10 per step, sampled every
+// 4 steps (at least 8 samples an epoch), here over a real training run's
+// iterates.
 func TestWeightAverageIsTheWeightedMeanOfIterates(t *testing.T) {
-	const perStep = 0.9
+	const horizon, stepsPerEpoch, perStep, every = 0.25, 40, 0.9, 4
 	d := toyData(3, 60, 30)
 	m := randModel(7, 30, 6, []int{2, 3}, 4, 2)
 	m.Config.Dropout = 0.3
@@ -26,19 +28,22 @@ func TestWeightAverageIsTheWeightedMeanOfIterates(t *testing.T) {
 	tr := newTrainer(m, tc)
 	defer tr.close()
 	tr.prepare(d)
-	avg := newWeightAverage(m, perStep)
+	avg := newWeightAverage(m, horizon, stepsPerEpoch)
+	if avg.every != every {
+		t.Fatalf("a sample every %d steps, want %d", avg.every, every)
+	}
 	if got, want := flatWeights(avg.current(m)), flatWeights(m); !slices.Equal(got, want) {
 		t.Fatal("before any sample the average is not the model's own weights")
 	}
 	var samples [][]float32
-	for s := 1; s <= 4*averageEvery+2; s++ {
+	for s := 1; s <= 4*every+2; s++ {
 		tr.step(d, []int{s % 60, (s + 7) % 60, (s + 19) % 60, (s + 31) % 60})
 		avg.step(m)
-		if s%averageEvery == 0 {
+		if s%every == 0 {
 			samples = append(samples, flatWeights(m))
 		}
 	}
-	b := math.Pow(perStep, averageEvery)
+	b := math.Pow(perStep, every)
 	got := flatWeights(avg.current(m))
 	var moved bool
 	for i := range got {
@@ -67,7 +72,7 @@ func TestTrainWeightAverageDev(t *testing.T) {
 		m := randModel(5, 30, 6, []int{2}, 3, 2)
 		train, dev := toyData(5, 120, 30), toyData(6, 60, 30)
 		res, err := Train(context.Background(), m, train, dev,
-			TrainConfig{Epochs: 4, Batch: 10, Seed: 1, Patience: -1, WeightAverage: 0.95}, nil)
+			TrainConfig{Epochs: 4, Batch: 10, Seed: 1, Patience: -1, WeightAverage: 0.5}, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -90,7 +95,7 @@ func TestTrainWeightAverageDev(t *testing.T) {
 	if !slices.Equal(flatWeights(m), flatWeights(again)) {
 		t.Error("two runs with the same seed differ")
 	}
-	if m.Info.Recipe == nil || m.Info.Recipe.WeightAverage != 0.95 {
+	if m.Info.Recipe == nil || m.Info.Recipe.WeightAverage != 0.5 {
 		t.Error("the model's recipe does not record the moving average")
 	}
 }
@@ -100,9 +105,9 @@ func TestWeightAverageSettings(t *testing.T) {
 		tc   TrainConfig
 		want string
 	}{
-		{TrainConfig{WeightAverage: 1}, "weight average decay"},
-		{TrainConfig{WeightAverage: -0.5}, "weight average decay"},
-		{TrainConfig{WeightAverage: math.NaN()}, "weight average decay"},
+		{TrainConfig{WeightAverage: math.Inf(1)}, "moving average over"},
+		{TrainConfig{WeightAverage: -0.5}, "moving average over"},
+		{TrainConfig{WeightAverage: math.NaN()}, "moving average over"},
 		{TrainConfig{WeightAverage: 0.99, AverageLast: 3}, "choose one"},
 		{TrainConfig{WeightAverage: 0.99, WideFit: true, WideFitScale: true}, "learned scale"},
 	} {
@@ -110,7 +115,7 @@ func TestWeightAverageSettings(t *testing.T) {
 			t.Errorf("%+v: error %v, want one with %q", c.tc, err, c.want)
 		}
 	}
-	if _, err := (TrainConfig{WeightAverage: 0.99, AverageLast: 1}).WithDefaults(); err != nil {
+	if _, err := (TrainConfig{WeightAverage: 3, AverageLast: 1}).WithDefaults(); err != nil {
 		t.Errorf("valid settings refused: %v", err)
 	}
 }

@@ -62,13 +62,14 @@ type TrainConfig struct {
 	// model of the same shape; dev chooses among these means, and training
 	// continues from the latest weights. 0 or 1 keeps each epoch's own.
 	AverageLast int `json:"average_last,omitempty"`
-	// WeightAverage, when set (in (0, 1)), makes the model of each epoch
-	// the exponential moving average of the weights over the training
-	// steps so far, at this decay per step (average.go: averaged iterates,
-	// Polyak & Juditsky 1992, bias-corrected so the random start carries
-	// no weight). Dev chooses among these averages and the run keeps one;
-	// training continues from the latest weights. 0 turns it off. It
-	// excludes AverageLast and WideFitScale.
+	// WeightAverage, when set, makes the model of each epoch the
+	// exponential moving average of the weights over the training steps so
+	// far, with a horizon of this many epochs: the decay per step is
+	// 1 − 1/(WeightAverage·S), S the batches of an epoch (average.go:
+	// averaged iterates, Polyak & Juditsky 1992, bias-corrected so the
+	// random start carries no weight). Dev chooses among these averages
+	// and the run keeps one; training continues from the latest weights.
+	// 0 turns it off. It excludes AverageLast and WideFitScale.
 	WeightAverage float64 `json:"weight_average,omitempty"`
 	// StopOn is what early stopping and the choice of the kept epoch
 	// follow on the dev split: "macro-f1" ("" too: the highest), "loss"
@@ -217,8 +218,8 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: weight decay %g: must be 0 (off) or positive with decay × learning rate below 1", tc.WeightDecay)
 	case tc.AverageLast < 0:
 		return tc, fmt.Errorf("cnn: average of the last %d epochs: must be 0 (off) or positive", tc.AverageLast)
-	case !(tc.WeightAverage >= 0 && tc.WeightAverage < 1):
-		return tc, fmt.Errorf("cnn: weight average decay %g: must be in [0, 1) (0: off)", tc.WeightAverage)
+	case !(tc.WeightAverage >= 0) || math.IsInf(tc.WeightAverage, 0):
+		return tc, fmt.Errorf("cnn: moving average over %g epochs: must be 0 (off) or a finite positive number", tc.WeightAverage)
 	case tc.WeightAverage > 0 && tc.AverageLast >= 2:
 		return tc, fmt.Errorf("cnn: a moving average of the weights and an average of the last %d epochs: choose one", tc.AverageLast)
 	case tc.WeightAverage > 0 && tc.WideFitScale:
@@ -416,7 +417,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	res := run.res
 	res.Cancelled = cancelled
 	sel := newSelector(tc, dev)
-	sel.avgSteps = newWeightAverage(m, tc.WeightAverage)
+	sel.avgSteps = newWeightAverage(m, tc.WeightAverage, (train.Len()+tc.Batch-1)/tc.Batch)
 	run.avg = sel.avgSteps
 	order := make([]int, train.Len())
 	var batches [][]int

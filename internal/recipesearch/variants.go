@@ -54,9 +54,11 @@ var variants = map[string]func(r *cnn.Recipe){
 	"avg2":    func(r *cnn.Recipe) { r.Train.AverageLast = 2 },
 	"avg3":    func(r *cnn.Recipe) { r.Train.AverageLast = 3 },
 	"avg5":    func(r *cnn.Recipe) { r.Train.AverageLast = 5 },
-	// the weights' moving average over the steps (TrainConfig.WeightAverage)
-	"ema99":    func(r *cnn.Recipe) { r.Train.WeightAverage = 0.99 },
-	"ema995":   func(r *cnn.Recipe) { r.Train.WeightAverage = 0.995 },
+	// the weights' moving average over the steps, its horizon in epochs
+	// (TrainConfig.WeightAverage; the 22nd round's first try, ema99 and
+	// ema995, set the decay per step instead: commit f2becff)
+	"emah05":   func(r *cnn.Recipe) { r.Train.WeightAverage = 0.5 },
+	"emah1":    func(r *cnn.Recipe) { r.Train.WeightAverage = 1 },
 	"stoploss": func(r *cnn.Recipe) { r.Train.StopOn = cnn.StopLoss },
 	"tieloss":  func(r *cnn.Recipe) { r.Train.StopOn = cnn.StopMacroF1Loss },
 	"ppmi":     func(r *cnn.Recipe) { r.Train.EmbedInit = cnn.InitPPMI },
