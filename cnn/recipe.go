@@ -64,7 +64,10 @@ const DefaultWideLR = 100
 // fit, or at ×1 or ×10 the rate, lost 0.005–0.008 on the addresses' dev
 // split (held at C 1: 0.03), so none went on to a round; held beside
 // out-of-fold terms (WideFitFolds) it lost 0.0185 there, and held with a
-// learned scale (WideFitScale) it leaned on the demo's cues.
+// learned scale (WideFitScale) it leaned on the demo's cues. A moving
+// average of the weights over the steps (WeightAverage), the twenty-second
+// round's screen, lost on the skewed review sentences at every horizon
+// tried.
 func DefaultRecipe() Recipe {
 	base := linear.DefaultConfig()
 	return Recipe{
