@@ -79,18 +79,7 @@ func TestTrainWeightAverageDev(t *testing.T) {
 		return m, res
 	}
 	m, res := run()
-	mt, _, err := Evaluate(m, toyData(6, 60, 30), 1)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if kept := res.Epochs[res.BestEpoch-1].Dev; kept.MacroF1 != mt.MacroF1 || kept.Accuracy != mt.Accuracy {
-		t.Errorf("kept model: macro-F1 %g accuracy %g; epoch %d recorded %g and %g", mt.MacroF1, mt.Accuracy, res.BestEpoch, kept.MacroF1, kept.Accuracy)
-	}
-	for _, e := range res.Epochs {
-		if e.Dev.MacroF1 > mt.MacroF1 {
-			t.Errorf("epoch %d (%g) beat the kept epoch %d (%g)", e.Epoch, e.Dev.MacroF1, res.BestEpoch, mt.MacroF1)
-		}
-	}
+	checkKeptIsBest(t, m, toyData(6, 60, 30), res)
 	again, _ := run()
 	if !slices.Equal(flatWeights(m), flatWeights(again)) {
 		t.Error("two runs with the same seed differ")

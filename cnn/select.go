@@ -21,8 +21,10 @@ type selector struct {
 	bestLoss  float64 // the kept epoch's dev loss (StopMacroF1Loss's tie-break)
 }
 
-func newSelector(tc TrainConfig, dev Data) *selector {
-	return &selector{tc: tc, dev: dev, bestScore: math.Inf(-1), bestLoss: math.Inf(1)}
+// newSelector returns the selector of a run; avg is the weights' moving
+// average the run keeps (TrainConfig.WeightAverage), nil when off.
+func newSelector(tc TrainConfig, dev Data, avg *weightAverage) *selector {
+	return &selector{tc: tc, dev: dev, avgSteps: avg, bestScore: math.Inf(-1), bestLoss: math.Inf(1)}
 }
 
 // restart forgets the best score so far, so that the next epochEnd keeps

@@ -63,6 +63,13 @@ func TestTrainAverageLastDev(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	checkKeptIsBest(t, m, dev, res)
+}
+
+// checkKeptIsBest checks that m, the model a run kept, scores on dev what
+// its kept epoch recorded, and that no epoch recorded a higher macro-F1.
+func checkKeptIsBest(t *testing.T, m *Model, dev Data, res *TrainResult) {
+	t.Helper()
 	mt, _, err := Evaluate(m, dev, 1)
 	if err != nil {
 		t.Fatal(err)

@@ -133,6 +133,10 @@ type trainer struct {
 	lr       float64
 	headOnly bool
 
+	// avg is the weights' moving average (TrainConfig.WeightAverage),
+	// sampled after steps; nil when off.
+	avg *weightAverage
+
 	// classW is the loss weight of each class (nil: all 1); unkP the
 	// word-dropout probability of each word id (nil: none), drawn from
 	// wdRng into the batch copy wdBuf.
@@ -399,6 +403,9 @@ func (tr *trainer) step(d Data, idx []int) float64 {
 	}
 	loss := tr.forwardBackward()
 	tr.update()
+	if tr.avg != nil {
+		tr.avg.step(tr.m)
+	}
 	return loss
 }
 

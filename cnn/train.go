@@ -218,12 +218,6 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 		return tc, fmt.Errorf("cnn: weight decay %g: must be 0 (off) or positive with decay × learning rate below 1", tc.WeightDecay)
 	case tc.AverageLast < 0:
 		return tc, fmt.Errorf("cnn: average of the last %d epochs: must be 0 (off) or positive", tc.AverageLast)
-	case !(tc.WeightAverage >= 0) || math.IsInf(tc.WeightAverage, 0):
-		return tc, fmt.Errorf("cnn: moving average over %g epochs: must be 0 (off) or a finite positive number", tc.WeightAverage)
-	case tc.WeightAverage > 0 && tc.AverageLast >= 2:
-		return tc, fmt.Errorf("cnn: a moving average of the weights and an average of the last %d epochs: choose one", tc.AverageLast)
-	case tc.WeightAverage > 0 && tc.WideFitScale:
-		return tc, fmt.Errorf("cnn: a moving average of the weights with a learned scale of the fitted start: the scale lives outside the weights until an epoch ends; turn one off")
 	case tc.StopOn != "" && tc.StopOn != StopMacroF1 && tc.StopOn != StopLoss && tc.StopOn != StopMacroF1Loss:
 		return tc, fmt.Errorf("cnn: stop on %q: use %s, %s or %s", tc.StopOn, StopMacroF1, StopLoss, StopMacroF1Loss)
 	case !(tc.EmbedDropout >= 0 && tc.EmbedDropout < 1):
@@ -244,7 +238,24 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 	if err := tc.checkWideFitSettings(); err != nil {
 		return tc, err
 	}
+	if err := tc.checkWeightAverage(); err != nil {
+		return tc, err
+	}
 	return tc, tc.checkWideDecay()
+}
+
+// checkWeightAverage returns an error if WeightAverage is negative or not
+// finite, or set with AverageLast or WideFitScale.
+func (tc TrainConfig) checkWeightAverage() error {
+	switch {
+	case !(tc.WeightAverage >= 0) || math.IsInf(tc.WeightAverage, 0):
+		return fmt.Errorf("cnn: moving average over %g epochs: must be 0 (off) or a finite positive number", tc.WeightAverage)
+	case tc.WeightAverage > 0 && tc.AverageLast >= 2:
+		return fmt.Errorf("cnn: a moving average of the weights and an average of the last %d epochs: choose one", tc.AverageLast)
+	case tc.WeightAverage > 0 && tc.WideFitScale:
+		return fmt.Errorf("cnn: a moving average of the weights with a learned scale of the fitted start: the scale lives outside the weights until an epoch ends; turn one off")
+	}
+	return nil
 }
 
 // checkWideFitSettings returns an error if a setting of the fitted start
@@ -413,12 +424,10 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	tr.prepare(train)
 	tr.wideOOF = oof
 	rng := rand.New(rand.NewPCG(tc.Seed, tc.Seed^0x5bd1e995))
-	run := &trainRun{ctx: ctx, m: m, tr: tr, tc: tc, train: train, progress: progress, res: &TrainResult{}}
+	tr.avg = newWeightAverage(m, tc.WeightAverage, (train.Len()+tc.Batch-1)/tc.Batch)
+	run := &trainRun{ctx: ctx, m: m, tr: tr, tc: tc, train: train, progress: progress, res: &TrainResult{Cancelled: cancelled}}
 	res := run.res
-	res.Cancelled = cancelled
-	sel := newSelector(tc, dev)
-	sel.avgSteps = newWeightAverage(m, tc.WeightAverage, (train.Len()+tc.Batch-1)/tc.Batch)
-	run.avg = sel.avgSteps
+	sel := newSelector(tc, dev, tr.avg)
 	order := make([]int, train.Len())
 	var batches [][]int
 	for epoch := 1; epoch <= tc.Epochs && !res.Cancelled; epoch++ {
@@ -497,7 +506,6 @@ type trainRun struct {
 	train    Data        // truncated to tc.MaxLen
 	progress func(Progress)
 	res      *TrainResult
-	avg      *weightAverage // nil without TrainConfig.WeightAverage
 
 	// Training throughput: the first epoch apart, the later ones summed.
 	firstN, steadyN int
@@ -518,9 +526,6 @@ func (r *trainRun) epoch(epoch int, batches [][]int, start time.Time) (sum float
 		if math.IsNaN(loss) || math.IsInf(loss, 0) {
 			r.res.Diverged = &Divergence{Epoch: epoch, Batch: bi + 1, Value: fmt.Sprint(loss)}
 			break
-		}
-		if r.avg != nil {
-			r.avg.step(r.m)
 		}
 		sum += loss * float64(len(b))
 		done += len(b)
