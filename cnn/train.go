@@ -154,6 +154,14 @@ type TrainConfig struct {
 	// and rate), folded into the word and bigram weights at the end of
 	// every epoch, so the model keeps its shape. It needs WideFit.
 	WideFitScale bool `json:"wide_fit_scale,omitempty"`
+	// WideFitShrink multiplies the fitted start (WideFit: the word and
+	// bigram weights and the intercepts) by this factor before the first
+	// step: the first stage of a boosting with shrinkage (Friedman 2001,
+	// "Greedy Function Approximation: A Gradient Boosting Machine", Ann.
+	// Statist. 29(5), section 5), so that the filters fit what that part of
+	// the linear model leaves. 0 means 1 (no shrink); it must be in [0, 1],
+	// and 0 without WideFit or with WideFitFolds.
+	WideFitShrink float64 `json:"wide_fit_shrink,omitempty"`
 	// WideFitC fixes the fitted start's inverse regularisation strength
 	// (WideFit); 0 chooses it on dev from the baseline's grid. It must be
 	// finite and not negative, and 0 without WideFit. A C chosen on dev
@@ -259,7 +267,7 @@ func (tc TrainConfig) checkWeightAverage() error {
 }
 
 // checkWideFitSettings returns an error if a setting of the fitted start
-// (WideFitC, WideFitFolds, WideFitScale) is out of range or set without
+// (WideFitC, WideFitFolds, WideFitScale, WideFitShrink) is out of range or set without
 // WideFit.
 func (tc TrainConfig) checkWideFitSettings() error {
 	switch {
@@ -273,6 +281,10 @@ func (tc TrainConfig) checkWideFitSettings() error {
 		return fmt.Errorf("cnn: %d folds for the fitted start, but no fitted start: turn WideFit on or set WideFitFolds to 0", tc.WideFitFolds)
 	case tc.WideFitScale && !tc.WideFit:
 		return fmt.Errorf("cnn: a learned scale of the fitted start, but no fitted start: turn WideFit on or WideFitScale off")
+	case !(tc.WideFitShrink >= 0 && tc.WideFitShrink <= 1):
+		return fmt.Errorf("cnn: shrink %g of the fitted start: must be in [0, 1] (0: none)", tc.WideFitShrink)
+	case tc.WideFitShrink > 0 && (!tc.WideFit || tc.WideFitFolds > 0):
+		return fmt.Errorf("cnn: shrink %g of the fitted start needs a fitted start without out-of-fold terms: turn WideFit on and WideFitFolds off, or set the shrink to 0", tc.WideFitShrink)
 	}
 	return nil
 }

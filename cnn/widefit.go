@@ -132,7 +132,8 @@ func (m *Model) wideFit(tc TrainConfig, cs []float64) linear.RowsFit {
 }
 
 // fitWideStart sets m's word and bigram weights and OutB to the logistic
-// regression fitted on train's wide features (C tc.WideFitC when it is
+// regression fitted on train's wide features (times tc.WideFitShrink when
+// it is positive) (C tc.WideFitC when it is
 // positive; else of the baseline's grid, the best dev macro-F1, the middle
 // one without a dev split) and OutW to
 // zero, and returns that fit. M must have the wide path; train and dev
@@ -150,16 +151,16 @@ func (m *Model) fitWideStart(ctx context.Context, train, dev Data, tc TrainConfi
 	if err != nil {
 		return nil, fmt.Errorf("cnn: fitted start of the wide path: %w", err)
 	}
-	V := m.Config.VocabSize
+	V, nu := m.Config.VocabSize, or(tc.WideFitShrink, 1)
 	for c := range C {
 		coef := clf.Coef[c*p : (c+1)*p]
 		for w := range V {
-			m.Wide[w*C+c] = float32(coef[w])
+			m.Wide[w*C+c] = float32(nu * coef[w])
 		}
 		for r := range len(m.Bigrams) {
-			m.WideBigram[r*C+c] = float32(coef[V+r])
+			m.WideBigram[r*C+c] = float32(nu * coef[V+r])
 		}
-		m.OutB[c] = float32(clf.Intercept[c])
+		m.OutB[c] = float32(nu * clf.Intercept[c])
 	}
 	clear(m.OutW)
 	m.Invalidate()

@@ -6,6 +6,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"slices"
+	"strings"
 	"testing"
 
 	"telltale/corpus"
@@ -416,5 +417,43 @@ func TestWideFitScaleScalesTheStart(t *testing.T) {
 	}
 	if _, err := (TrainConfig{WideFitScale: true}).WithDefaults(); err == nil {
 		t.Error("a learned scale without a fitted start was accepted")
+	}
+}
+
+// WideFitShrink ν multiplies the whole fitted start, word and bigram
+// weights and intercepts, by ν: an identity against the start without it
+// (the same fit, so equal within float32 rounding of the product).
+func TestWideFitShrinkScalesTheStart(t *testing.T) {
+	const nu = 0.5
+	train, dev := toyData(1, 300, 30), toyData(2, 100, 30)
+	tc := TrainConfig{Seed: 3, Threads: 2, WideFit: true}
+	full := withWide(randModel(1, 30, 8, []int{2, 3}, 4, 2), 1, 0)
+	shrunk := full.Clone()
+	if _, err := full.fitWideStart(context.Background(), train, dev, tc); err != nil {
+		t.Fatal(err)
+	}
+	tc.WideFitShrink = nu
+	if _, err := shrunk.fitWideStart(context.Background(), train, dev, tc); err != nil {
+		t.Fatal(err)
+	}
+	var moved int
+	for name, pair := range map[string][2][]float32{"word weights": {full.Wide, shrunk.Wide}, "intercepts": {full.OutB, shrunk.OutB}} {
+		for j, w := range pair[0] {
+			if !testref.Close(float64(pair[1][j]), nu*float64(w), 1e-6, 0) {
+				t.Fatalf("%s %d: %g, want %g × %g", name, j, pair[1][j], nu, w)
+			}
+			if w != 0 {
+				moved++
+			}
+		}
+	}
+	if moved == 0 {
+		t.Fatal("the fitted start is all zero: the test sees nothing")
+	}
+	for _, bad := range []TrainConfig{{WideFit: true, WideFitShrink: 1.5}, {WideFit: true, WideFitShrink: -0.1},
+		{WideFitShrink: 0.5}, {WideFit: true, WideFitFolds: 5, WideFitShrink: 0.5}} {
+		if _, err := bad.WithDefaults(); err == nil || !strings.Contains(err.Error(), "shrink") {
+			t.Errorf("%+v: error %v, want one naming the shrink", bad, err)
+		}
 	}
 }

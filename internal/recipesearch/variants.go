@@ -100,6 +100,8 @@ var variants = map[string]func(r *cnn.Recipe){
 	// the fitted start held where the fit put it (a rate of 1e-6 times the
 	// rest's): the filters learn what the logistic regression leaves
 	"wfitfrz": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR = true, 1e-6 },
+	// the same, the start shrunk by half (TrainConfig.WideFitShrink; the 23rd round)
+	"wfitfrz5": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR, r.Train.WideFitShrink = true, 1e-6, 0.5 },
 	// held, the filters trained beside 5-fold out-of-fold wide terms
 	// (TrainConfig.WideFitFolds)
 	"wfitxf": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideFitFolds = true, 5 },
