@@ -51,20 +51,20 @@ func faithReport(per [][]textFaith, correct []bool, haveGold bool, opt *FaithOpt
 			mf.Comprehensiveness = append(mf.Comprehensiveness, mean(c))
 			mf.Sufficiency = append(mf.Sufficiency, mean(s))
 			mf.PercentTexts = append(mf.PercentTexts, len(c))
-			mf.ComprehensivenessCI = append(mf.ComprehensivenessCI, bootstrapMean(c, opt.Resamples, binRng))
-			mf.SufficiencyCI = append(mf.SufficiencyCI, bootstrapMean(s, opt.Resamples, binRng))
+			mf.ComprehensivenessCI = append(mf.ComprehensivenessCI, bootstrapMean(c, opt.Resamples, estimateLevel, binRng))
+			mf.SufficiencyCI = append(mf.SufficiencyCI, bootstrapMean(s, opt.Resamples, estimateLevel, binRng))
 		}
 		comp := column(mi, func(f textFaith) float64 { return f.aggComp })
 		mf.AggregateTexts = len(comp)
-		mf.Comp, mf.CompCI = mean(comp), bootstrapMean(comp, opt.Resamples, rng)
+		mf.Comp, mf.CompCI = mean(comp), bootstrapMean(comp, opt.Resamples, estimateLevel, rng)
 		suff := column(mi, func(f textFaith) float64 { return f.aggSuff })
-		mf.Suff, mf.SuffCI = mean(suff), bootstrapMean(suff, opt.Resamples, rng)
+		mf.Suff, mf.SuffCI = mean(suff), bootstrapMean(suff, opt.Resamples, estimateLevel, rng)
 		aopc := column(mi, func(f textFaith) float64 { return f.aopc })
-		mf.AOPC, mf.AOPCCI = mean(aopc), bootstrapMean(aopc, opt.Resamples, rng)
+		mf.AOPC, mf.AOPCCI = mean(aopc), bootstrapMean(aopc, opt.Resamples, estimateLevel, rng)
 		t1c := column(mi, func(f textFaith) float64 { return f.top1Comp })
-		mf.Top1Comp, mf.Top1CompCI = mean(t1c), bootstrapMean(t1c, opt.Resamples, rng)
+		mf.Top1Comp, mf.Top1CompCI = mean(t1c), bootstrapMean(t1c, opt.Resamples, estimateLevel, rng)
 		t1s := column(mi, func(f textFaith) float64 { return f.top1Suff })
-		mf.Top1Suff, mf.Top1SuffCI = mean(t1s), bootstrapMean(t1s, opt.Resamples, rng)
+		mf.Top1Suff, mf.Top1SuffCI = mean(t1s), bootstrapMean(t1s, opt.Resamples, estimateLevel, rng)
 		out.Methods = append(out.Methods, mf)
 	}
 	out.Pairs = methodPairs(rows, opt, rng)
@@ -122,7 +122,7 @@ func methodPair(rows [][]textFaith, a, b int, meas string, opt *FaithOptions, rn
 	}
 	p, patterns := signFlipTest(d, SignFlipDraws, flipRng)
 	return MethodPair{A: opt.Methods[a], B: opt.Methods[b], Measure: meas, Texts: len(d),
-		Diff: mean(d), DiffCI: bootstrapMean(d, opt.Resamples, rng), P: p, SignFlips: patterns}
+		Diff: mean(d), DiffCI: bootstrapMean(d, opt.Resamples, estimateLevel, rng), P: p, SignFlips: patterns}
 }
 
 // mean is the mean of xs, NaN when empty.
@@ -137,12 +137,25 @@ func mean(xs []float64) float64 {
 	return s / float64(len(xs))
 }
 
-// bootstrapMean is the 95% percentile interval of the mean of xs over b
-// resamples with replacement (NaN, NaN when xs is empty).
-func bootstrapMean(xs []float64, b int, rng *rand.Rand) Interval {
+// estimateLevel is the level of the intervals of the methods' own figures,
+// each an estimate on its own.
+const estimateLevel = 0.95
+
+// bootstrapMean is the percentile interval at level of the mean of xs over
+// b resamples with replacement (Efron & Tibshirani 1993, ch. 13): the
+// (1−level)/2 and (1+level)/2 quantiles of bootstrapMeans (NaN, NaN when xs
+// is empty).
+func bootstrapMean(xs []float64, b int, level float64, rng *rand.Rand) Interval {
 	if len(xs) == 0 {
 		return Interval{math.NaN(), math.NaN()}
 	}
+	lo, hi := percentileInterval(bootstrapMeans(xs, b, rng), level)
+	return Interval{lo, hi}
+}
+
+// bootstrapMeans is the means of b resamples of xs with replacement, each
+// of len(xs) draws from rng. Precondition: xs not empty.
+func bootstrapMeans(xs []float64, b int, rng *rand.Rand) []float64 {
 	means := make([]float64, b)
 	for r := range means {
 		var s float64
@@ -151,8 +164,7 @@ func bootstrapMean(xs []float64, b int, rng *rand.Rand) Interval {
 		}
 		means[r] = s / float64(len(xs))
 	}
-	lo, hi := percentileInterval(means, 0.95)
-	return Interval{lo, hi}
+	return means
 }
 
 // SignFlipDraws is the number of random sign patterns signFlipTest draws

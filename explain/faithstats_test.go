@@ -228,3 +228,64 @@ func TestFaithPairsTestTheMean(t *testing.T) {
 		}
 	}
 }
+
+// bootstrapMean at a level is the nearest-rank percentile interval
+// (Hyndman & Fan 1996, "Sample Quantiles in Statistical Packages", Amer.
+// Statist. 50:361–365, definition 1, the inverse of the empirical
+// distribution function) of the bootstrap means drawn from the same
+// stream: its low bound is a mean with fewer than ⌈q·b⌉ means below it and
+// at least ⌈q·b⌉ at or below it, q = (1−level)/2, and its high bound the
+// same with q = (1+level)/2. The level only chooses which quantiles are
+// read: the draws, and the stream's state after them, are the same at
+// every level, so a higher level's interval holds a lower one's.
+func TestBootstrapMeanAtLevel(t *testing.T) {
+	data := rand.New(rand.NewPCG(23, 23))
+	xs := make([]float64, 37)
+	for i := range xs {
+		xs[i] = data.NormFloat64() + 0.1*float64(i%3)
+	}
+	for _, c := range []struct {
+		level float64
+		b     int
+	}{
+		{0.95, 1000}, {0.99, 4000}, {1 - 0.05/18, 14400}, {1 - 0.05/7, 1000}, {0.5, 101},
+	} {
+		got := bootstrapMean(xs, c.b, c.level, rand.New(rand.NewPCG(24, 24)))
+		drawn := rand.New(rand.NewPCG(24, 24))
+		means := bootstrapMeans(xs, c.b, drawn)
+		for _, bound := range []struct {
+			name string
+			v, q float64
+		}{{"low", got.Low, (1 - c.level) / 2}, {"high", got.High, (1 + c.level) / 2}} {
+			below, atOrBelow := 0, 0
+			for _, m := range means {
+				if m < bound.v {
+					below++
+				}
+				if m <= bound.v {
+					atOrBelow++
+				}
+			}
+			rank := int(math.Ceil(bound.q * float64(c.b)))
+			if !slices.Contains(means, bound.v) || below >= rank || atOrBelow < rank {
+				t.Errorf("level %g, %d resamples: %s bound %g has %d means below and %d at or below, want the mean of rank %d",
+					c.level, c.b, bound.name, bound.v, below, atOrBelow, rank)
+			}
+		}
+		after := rand.New(rand.NewPCG(24, 24))
+		at95 := bootstrapMean(xs, c.b, 0.95, after)
+		if after.Uint64() != drawn.Uint64() {
+			t.Errorf("level %g: the draws depend on the level", c.level)
+		}
+		wide, narrow := got, at95
+		if c.level < 0.95 {
+			wide, narrow = at95, got
+		}
+		if !(wide.Low <= narrow.Low && narrow.High <= wide.High) {
+			t.Errorf("level %g: interval %+v, at 95%% %+v from the same draws", c.level, got, at95)
+		}
+	}
+	if iv := bootstrapMean(nil, 100, 0.99, rand.New(rand.NewPCG(1, 1))); !math.IsNaN(iv.Low) || !math.IsNaN(iv.High) {
+		t.Errorf("no value: %+v, want NaN bounds", iv)
+	}
+}
