@@ -289,3 +289,90 @@ func TestBootstrapMeanAtLevel(t *testing.T) {
 		t.Errorf("no value: %+v, want NaN bounds", iv)
 	}
 }
+
+// The pairs' intervals are simultaneous over the k comparisons with a p,
+// the family Holm's method adjusts across (FaithReport.Compared; a pair
+// with no text has none): by Bonferroni's inequality (Dunn 1961) each is
+// the percentile interval at level 1 − 0.05/k, here read from the means of
+// the same draws (the pairs' resamples, in order, from the stream the
+// methods' intervals leave), and it holds the 95% interval of those draws,
+// strictly wider for k > 1. The resamples are max(Resamples, ⌈40·k/0.05⌉),
+// so that each tail holds about 20 means. The cases: three methods whose
+// third has no AOPC (k = 7 of 9 pairs), with the default 1000 resamples
+// and with more than the tail needs; two methods (k = 3); and two with one
+// measure only (k = 1: the plain 95% interval).
+func TestFaithPairsSimultaneous(t *testing.T) {
+	data := rand.New(rand.NewPCG(25, 25))
+	f := func(shift float64) float64 { return data.NormFloat64()*0.1 + shift }
+	rows := make([][]textFaith, 90)
+	for i := range rows {
+		rows[i] = []textFaith{
+			{aggComp: f(0.3), aggSuff: f(0.1), aopc: f(0.2)},
+			{aggComp: f(0.25), aggSuff: f(0.12), aopc: f(0.2)},
+			{aggComp: f(0.2), aggSuff: f(0.1), aopc: math.NaN()},
+		}
+	}
+	oneMeasure := make([][]textFaith, len(rows))
+	for i, r := range rows {
+		oneMeasure[i] = []textFaith{r[0], {aggComp: r[1].aggComp, aggSuff: math.NaN(), aopc: math.NaN()}}
+	}
+	methods := []string{MethodExact, MethodOcclusion, MethodIG}
+	for _, c := range []struct {
+		name      string
+		rows      [][]textFaith
+		methods   int
+		resamples int // FaithOptions.Resamples, 0 for the default
+		pairs, k  int
+		wantLevel float64
+		wantDrawn int
+	}{
+		{"three methods, one without AOPC", rows, 3, 0, 9, 7, 1 - 0.05/7, 5600},
+		{"more resamples asked for", rows, 3, 6000, 9, 7, 1 - 0.05/7, 6000},
+		{"two methods", rows, 2, 0, 3, 3, 1 - 0.05/3, 2400},
+		{"one measure with texts", oneMeasure, 2, 0, 3, 1, 0.95, 1000},
+	} {
+		opt := &FaithOptions{Methods: methods[:c.methods], Seed: 6, Resamples: c.resamples}
+		opt.defaults()
+		pairs := methodPairs(c.rows, opt, rand.New(rand.NewPCG(26, 26)))
+		if len(pairs) != c.pairs || (FaithReport{Pairs: pairs}).Compared() != c.k {
+			t.Fatalf("%s: %d pairs, %d with a p, want %d and %d", c.name, len(pairs), FaithReport{Pairs: pairs}.Compared(), c.pairs, c.k)
+		}
+		same := rand.New(rand.NewPCG(26, 26))
+		for _, pr := range pairs {
+			if pr.DiffCILevel != c.wantLevel || pr.DiffCIResamples != c.wantDrawn {
+				t.Errorf("%s: %s − %s %s: level %g over %d resamples, want %g over %d", c.name, pr.A, pr.B, pr.Measure,
+					pr.DiffCILevel, pr.DiffCIResamples, c.wantLevel, c.wantDrawn)
+			}
+			a, b := slices.Index(opt.Methods, pr.A), slices.Index(opt.Methods, pr.B)
+			var d []float64
+			for _, r := range c.rows {
+				if x, y := measureOf(r[a], pr.Measure), measureOf(r[b], pr.Measure); !math.IsNaN(x) && !math.IsNaN(y) {
+					d = append(d, x-y)
+				}
+			}
+			if len(d) == 0 {
+				if !math.IsNaN(pr.P) || !math.IsNaN(pr.DiffCI.Low) || !math.IsNaN(pr.DiffCI.High) {
+					t.Errorf("%s: %s − %s %s has no text, yet p %g and interval %+v", c.name, pr.A, pr.B, pr.Measure, pr.P, pr.DiffCI)
+				}
+				continue
+			}
+			means := bootstrapMeans(d, c.wantDrawn, same)
+			lo, hi := percentileInterval(means, c.wantLevel)
+			lo95, hi95 := percentileInterval(means, 0.95)
+			wider := lo < lo95 && hi95 < hi
+			if pr.DiffCI != (Interval{lo, hi}) || !(lo <= lo95 && hi95 <= hi) || wider != (c.k > 1) {
+				t.Errorf("%s: %s − %s %s: interval %+v, want %g–%g at level %g, holding %g–%g at 95%% (strictly for k > 1)",
+					c.name, pr.A, pr.B, pr.Measure, pr.DiffCI, lo, hi, c.wantLevel, lo95, hi95)
+			}
+			beyond := 0
+			for _, m := range means {
+				if m < lo {
+					beyond++
+				}
+			}
+			if beyond < pairTailResamples-1 {
+				t.Errorf("%s: %d means below the low bound, want about %d", c.name, beyond, pairTailResamples)
+			}
+		}
+	}
+}
