@@ -120,10 +120,10 @@ const pairTailResamples = 20
 
 // pairLevel is the level of each pair's interval and the resamples behind
 // it, for k comparisons with a p. By Bonferroni's inequality, k intervals
-// each at level 1 − α/k, α = pairAlpha, cover their means all
-// together with probability at least 1 − α (Dunn 1961, "Multiple
-// Comparisons Among Means", JASA 56:52–64), as far as each covers at its
-// own level (the bootstrap's approximation). An interval that leaves out 0
+// each at level 1 − α/k, α = pairAlpha, cover their means all together
+// with probability at least 1 − α (Dunn 1961, "Multiple Comparisons Among
+// Means", JASA 56:52–64), as far as each covers at its own level (the
+// bootstrap's approximation). An interval that leaves out 0
 // is then a test of that mean at level α/k, Bonferroni's adjusted test, and
 // Holm's method rejects whatever Bonferroni's does: an interval without 0
 // goes with a Holm p below α but for the difference between the bootstrap
