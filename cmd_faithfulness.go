@@ -32,7 +32,7 @@ more on this model. Every figure has a 95% bootstrap interval over the texts,
 and every two methods are compared text by text: the mean difference with
 its bootstrap interval and a sign-flip permutation test of that mean (Good
 2005), its p-values adjusted by Holm's method across the comparisons (Holm
-1979).
+1979) and its intervals simultaneous over them, 95% together (Bonferroni).
 Removing one token is what occlusion measures, so it is best there by
 construction: those removals are reported apart and left out of the
 aggregates. The texts are found as eval finds them: --test FILE, or the test
@@ -170,9 +170,10 @@ func writeFaith(w io.Writer, r *explain.FaithReport) {
 		}
 	}
 	if len(r.Pairs) > 0 {
-		fmt.Fprintf(w, "\nmethods compared text by text: mean of A − B with its 95%% bootstrap interval over the texts; p of the sign-flip\n"+
+		fmt.Fprintf(w, "\nmethods compared text by text: mean of A − B with its bootstrap interval over the texts; p of the sign-flip\n"+
 			"permutation test of that mean (Good 2005), and Holm p, adjusted by Holm's method across the %d comparisons\n"+
-			"with a p (Holm 1979); each interval is 95%% on its own, not adjusted", r.Compared())
+			"with a p (Holm 1979); the intervals are simultaneous over those comparisons, 95%% together (Bonferroni:\n"+
+			"each at %.4g%%, from %d resamples)", r.Compared(), 100*r.Pairs[0].DiffCILevel, r.Pairs[0].DiffCIResamples)
 		if r.AnyPAtFloor() {
 			fmt.Fprintf(w, "; p ≤ %.2g: no sign pattern of the %d drawn\nreached the observed mean",
 				1/float64(explain.SignFlipDraws+1), explain.SignFlipDraws)

@@ -273,9 +273,9 @@ func TestFiltersTextAndReopen(t *testing.T) {
 
 // TestFaithfulnessText: the text gives each method's aggregates with their
 // intervals, the single-token figures apart and the paired tests (each
-// mean difference with its interval, its p and its Holm p, which is
-// explain.Holm of the 18 p-values), as in --json, where figures without a
-// text are null.
+// mean difference with its interval, simultaneous over the 18, its p and
+// its Holm p, which is explain.Holm of the 18 p-values), as in --json,
+// where figures without a text are null.
 func TestFaithfulnessText(t *testing.T) {
 	model := tinyModel(t)
 	data := demoPart(t, t.TempDir(), 200)
@@ -307,6 +307,8 @@ func TestFaithfulnessText(t *testing.T) {
 			Texts         int      `json:"texts"`
 			Diff          *float64 `json:"diff"`
 			DiffCI        ciJSON   `json:"diff_ci"`
+			DiffCILevel   float64  `json:"diff_ci_level"`
+			DiffCIDrawn   int      `json:"diff_ci_resamples"`
 			P             *float64 `json:"p"`
 			PHolm         *float64 `json:"p_holm"`
 			SignFlips     int      `json:"sign_flips"`
@@ -346,6 +348,11 @@ func TestFaithfulnessText(t *testing.T) {
 			t.Fatalf("pair %s − %s %s: p %v, Holm p %v, diff %v over %d sign patterns", pr.A, pr.B, pr.Measure, pr.P, pr.PHolm, pr.Diff, pr.SignFlips)
 		}
 		ps = append(ps, *pr.P)
+		// Simultaneous over the 18 (Bonferroni): each at 1 − 0.05/18, from
+		// ⌈40·18/0.05⌉ = 14,400 resamples, 20 expected in each tail.
+		if pr.DiffCILevel != 1-0.05/18 || pr.DiffCIDrawn != 14400 {
+			t.Errorf("pair %s − %s %s: interval at level %g from %d resamples, want 1 − 0.05/18 from 14400", pr.A, pr.B, pr.Measure, pr.DiffCILevel, pr.DiffCIDrawn)
+		}
 		p, holm := pEquals(*pr.P), pEquals(*pr.PHolm)
 		if pr.SignFlips == explain.SignFlipDraws && *pr.P == 1/float64(pr.SignFlips+1) { // the drawn test's floor: bounds
 			p, holm = "≤ "+pvalue(*pr.P), "≤ "+pvalue(*pr.PHolm)
@@ -362,7 +369,7 @@ func TestFaithfulnessText(t *testing.T) {
 		}
 	}
 	for _, part := range []string{"the top token alone", "methods compared text by text", "exact      − occlusion  comp",
-		"adjusted by Holm's method across the 18 comparisons"} {
+		"adjusted by Holm's method across the 18 comparisons", "simultaneous over those comparisons, 95% together (Bonferroni:\neach at 99.72%, from 14400 resamples)"} {
 		if !strings.Contains(out, part) {
 			t.Errorf("the text lacks %q", part)
 		}

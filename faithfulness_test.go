@@ -106,7 +106,9 @@ func TestFaithfulnessFloorNoteOnlyWhenDrawn(t *testing.T) {
 // TestFaithHeader: the header of the methods' comparisons counts the
 // comparisons Holm's method adjusted across, those with a p (a pair with
 // no text has none): by Holm's first step (Holm 1979) the least p times
-// that count is its adjusted p, checked against explain.Holm. The note on
+// that count is its adjusted p, checked against explain.Holm. It gives the
+// level of each pair's interval, simultaneous over those comparisons, and
+// the resamples behind it (Bonferroni over k: 1 − 0.05/k). The note on
 // the drawn test's floor is there exactly when some p is at that floor,
 // not when every p is exact (n ≤ 16 texts: all 2ⁿ sign patterns, least p
 // 2/2ⁿ).
@@ -121,9 +123,10 @@ func TestFaithHeader(t *testing.T) {
 		pairs []explain.MethodPair
 		count int
 		note  bool
+		level string // the level of each interval, 1 − 0.05/count, and its resamples
 	}{
-		{"all exact, one without texts", []explain.MethodPair{exact, none, other}, 2, false},
-		{"one at the drawn floor", []explain.MethodPair{exact, drawn, other}, 3, true},
+		{"all exact, one without texts", []explain.MethodPair{exact, none, other}, 2, false, "each at 97.5%, from 1600 resamples"},
+		{"one at the drawn floor", []explain.MethodPair{exact, drawn, other}, 3, true, "each at 98.33%, from 2400 resamples"},
 	} {
 		ps := make([]float64, len(c.pairs))
 		for i, pr := range c.pairs {
@@ -132,6 +135,7 @@ func TestFaithHeader(t *testing.T) {
 		adj := explain.Holm(ps)
 		for i := range c.pairs {
 			c.pairs[i].PHolm = adj[i]
+			c.pairs[i].DiffCILevel, c.pairs[i].DiffCIResamples = 1-0.05/float64(c.count), 800*c.count
 		}
 		least := slices.IndexFunc(ps, func(p float64) bool { return !math.IsNaN(p) })
 		for i, p := range ps {
@@ -148,6 +152,9 @@ func TestFaithHeader(t *testing.T) {
 		out := b.String()
 		if want := fmt.Sprintf("across the %d comparisons", c.count); !strings.Contains(out, want) {
 			t.Errorf("%s: the header does not say %q:\n%s", c.name, want, out)
+		}
+		if !strings.Contains(out, c.level) {
+			t.Errorf("%s: the header does not say %q:\n%s", c.name, c.level, out)
 		}
 		if strings.Contains(out, floorNote) != c.note {
 			t.Errorf("%s: the note on the drawn floor shown %v, want %v:\n%s", c.name, !c.note, c.note, out)

@@ -119,9 +119,10 @@
 // Faithfulness measures comprehensiveness and sufficiency (DeYoung et al.
 // 2020) and the deletion AOPC (Samek et al. 2017) of each method's ranking
 // of identified scores against a random ranking averaged over several
-// draws, with bootstrap intervals and, between methods, sign-flip tests of
-// the mean difference with Holm's adjustment; single-token removals, where
-// occlusion is best by construction, are reported apart. Paint paints a text on ColorBrewer's PuOr scale.
+// draws, with bootstrap intervals and, between methods, the mean
+// difference with an interval simultaneous over the comparisons
+// (Bonferroni) and a sign-flip test with Holm's adjustment; single-token
+// removals, where occlusion is best by construction, are reported apart. Paint paints a text on ColorBrewer's PuOr scale.
 //
 //	st, _ := explain.NewSlotTable(model, explain.TableOptions{})
 //	e, _ := explain.Explain(model, tokens, ids, explain.ExplainOptions{Table: st, Occlusion: true, IG: true})

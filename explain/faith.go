@@ -35,7 +35,8 @@ type FaithOptions struct {
 	// random control (default 5).
 	Draws int
 	// Resamples is the number of bootstrap resamples of the texts behind
-	// every interval (default 1000).
+	// every interval (default 1000); the pairs' intervals take more where
+	// their level needs it (MethodPair.DiffCIResamples).
 	Resamples int
 	Seed      uint64 // seeds the random rankings, the tie-breaks and the resamples
 	Table     *SlotTable
@@ -43,7 +44,8 @@ type FaithOptions struct {
 	Progress  Progress
 }
 
-// Interval is a two-sided 95% interval.
+// Interval is a two-sided interval: 95% but for a MethodPair's DiffCI,
+// whose level is its DiffCILevel.
 type Interval struct {
 	Low  float64 `json:"low"`
 	High float64 `json:"high"`
@@ -64,7 +66,7 @@ type Interval struct {
 // and Top1Suff, and left out of the aggregates. Intervals are 95%
 // percentile bootstrap intervals over the texts (Efron & Tibshirani 1993,
 // "An Introduction to the Bootstrap", ch. 13); Pairs compares the methods
-// text by text.
+// text by text, with intervals simultaneous over the comparisons.
 //
 // For a model with the wide path, p(ŷ) of a text with every token removed
 // is identified like every other (see Explanation), so the figures with
@@ -131,18 +133,25 @@ type MethodFaith struct {
 // permutation test of that mean (see signFlipTest), so that the interval
 // and the test are of the same quantity. SignFlips is the number of sign
 // patterns behind P (all 2ⁿ up to 16 texts, else SignFlipDraws drawn).
-// PHolm is P adjusted by Holm's method across all the pairs of the report
-// (see Holm); the intervals are each 95%, not simultaneous.
+// PHolm is P adjusted by Holm's method across the pairs of the report with
+// a P (see Holm, FaithReport.Compared). The intervals are simultaneous over
+// those same k comparisons (Bonferroni): each is at level DiffCILevel = 1 −
+// 0.05/k, from DiffCIResamples resamples, so that all k cover their means
+// together with probability at least 95% (see pairLevel).
 type MethodPair struct {
-	A         string   `json:"a"`
-	B         string   `json:"b"`
-	Measure   string   `json:"measure"`
-	Texts     int      `json:"texts"`
-	Diff      float64  `json:"diff"`
-	DiffCI    Interval `json:"diff_ci"`
-	P         float64  `json:"p"`
-	PHolm     float64  `json:"p_holm"`
-	SignFlips int      `json:"sign_flips"`
+	A       string   `json:"a"`
+	B       string   `json:"b"`
+	Measure string   `json:"measure"`
+	Texts   int      `json:"texts"`
+	Diff    float64  `json:"diff"`
+	DiffCI  Interval `json:"diff_ci"`
+	// DiffCILevel is the level of DiffCI on its own; DiffCIResamples the
+	// bootstrap resamples behind it (at least FaithOptions.Resamples).
+	DiffCILevel     float64 `json:"diff_ci_level"`
+	DiffCIResamples int     `json:"diff_ci_resamples"`
+	P               float64 `json:"p"`
+	PHolm           float64 `json:"p_holm"`
+	SignFlips       int     `json:"sign_flips"`
 }
 
 func (o *FaithOptions) defaults() {

@@ -51,20 +51,20 @@ func faithReport(per [][]textFaith, correct []bool, haveGold bool, opt *FaithOpt
 			mf.Comprehensiveness = append(mf.Comprehensiveness, mean(c))
 			mf.Sufficiency = append(mf.Sufficiency, mean(s))
 			mf.PercentTexts = append(mf.PercentTexts, len(c))
-			mf.ComprehensivenessCI = append(mf.ComprehensivenessCI, bootstrapMean(c, opt.Resamples, binRng))
-			mf.SufficiencyCI = append(mf.SufficiencyCI, bootstrapMean(s, opt.Resamples, binRng))
+			mf.ComprehensivenessCI = append(mf.ComprehensivenessCI, bootstrapMean(c, opt.Resamples, estimateLevel, binRng))
+			mf.SufficiencyCI = append(mf.SufficiencyCI, bootstrapMean(s, opt.Resamples, estimateLevel, binRng))
 		}
 		comp := column(mi, func(f textFaith) float64 { return f.aggComp })
 		mf.AggregateTexts = len(comp)
-		mf.Comp, mf.CompCI = mean(comp), bootstrapMean(comp, opt.Resamples, rng)
+		mf.Comp, mf.CompCI = mean(comp), bootstrapMean(comp, opt.Resamples, estimateLevel, rng)
 		suff := column(mi, func(f textFaith) float64 { return f.aggSuff })
-		mf.Suff, mf.SuffCI = mean(suff), bootstrapMean(suff, opt.Resamples, rng)
+		mf.Suff, mf.SuffCI = mean(suff), bootstrapMean(suff, opt.Resamples, estimateLevel, rng)
 		aopc := column(mi, func(f textFaith) float64 { return f.aopc })
-		mf.AOPC, mf.AOPCCI = mean(aopc), bootstrapMean(aopc, opt.Resamples, rng)
+		mf.AOPC, mf.AOPCCI = mean(aopc), bootstrapMean(aopc, opt.Resamples, estimateLevel, rng)
 		t1c := column(mi, func(f textFaith) float64 { return f.top1Comp })
-		mf.Top1Comp, mf.Top1CompCI = mean(t1c), bootstrapMean(t1c, opt.Resamples, rng)
+		mf.Top1Comp, mf.Top1CompCI = mean(t1c), bootstrapMean(t1c, opt.Resamples, estimateLevel, rng)
 		t1s := column(mi, func(f textFaith) float64 { return f.top1Suff })
-		mf.Top1Suff, mf.Top1SuffCI = mean(t1s), bootstrapMean(t1s, opt.Resamples, rng)
+		mf.Top1Suff, mf.Top1SuffCI = mean(t1s), bootstrapMean(t1s, opt.Resamples, estimateLevel, rng)
 		out.Methods = append(out.Methods, mf)
 	}
 	out.Pairs = methodPairs(rows, opt, rng)
@@ -75,16 +75,22 @@ func faithReport(per [][]textFaith, correct []bool, haveGold bool, opt *FaithOpt
 // the p-values adjusted by Holm's method across all the comparisons (Holm
 // 1979, "A Simple Sequentially Rejective Multiple Test Procedure", Scand.
 // J. Statist. 6:65–70; see Holm), which holds the family-wise error rate
-// under any dependence between them. The sign flips draw from a stream of
-// their own (seeded by opt.Seed), so that the intervals do not depend on
-// how many the tests draw.
+// under any dependence between them. The intervals of the differences are
+// simultaneous over the same comparisons, those with a p (pairLevel). The
+// sign flips draw from a stream of their own (seeded by opt.Seed), so that
+// the intervals do not depend on how many the tests draw.
 func methodPairs(rows [][]textFaith, opt *FaithOptions, rng *rand.Rand) []MethodPair {
 	flipRng := rand.New(rand.NewPCG(opt.Seed, 0xfa19))
 	var pairs []MethodPair
+	var diffs [][]float64
 	for a := range opt.Methods {
 		for b := a + 1; b < len(opt.Methods); b++ {
 			for _, meas := range faithMeasures {
-				pairs = append(pairs, methodPair(rows, a, b, meas, opt, rng, flipRng))
+				d := pairDiffs(rows, a, b, meas)
+				p, patterns := signFlipTest(d, SignFlipDraws, flipRng)
+				pairs = append(pairs, MethodPair{A: opt.Methods[a], B: opt.Methods[b], Measure: meas, Texts: len(d),
+					Diff: mean(d), P: p, SignFlips: patterns})
+				diffs = append(diffs, d)
 			}
 		}
 	}
@@ -95,7 +101,52 @@ func methodPairs(rows [][]textFaith, opt *FaithOptions, rng *rand.Rand) []Method
 	for i, adj := range Holm(ps) {
 		pairs[i].PHolm = adj
 	}
+	level, resamples := pairLevel(FaithReport{Pairs: pairs}.Compared(), opt.Resamples)
+	for i := range pairs {
+		pairs[i].DiffCI = bootstrapMean(diffs[i], resamples, level, rng)
+		pairs[i].DiffCILevel, pairs[i].DiffCIResamples = level, resamples
+	}
 	return pairs
+}
+
+// pairAlpha is the family-wise error rate of a report's comparisons: the
+// pairs' intervals cover their means all together with probability at
+// least 1 − pairAlpha, as Holm's adjusted p-values are read at 0.05.
+const pairAlpha = 0.05
+
+// pairTailResamples is the least number of bootstrap means expected beyond
+// each bound of a pair's interval.
+const pairTailResamples = 20
+
+// pairLevel is the level of each pair's interval and the resamples behind
+// it, for k comparisons with a p. By Bonferroni's inequality, k intervals
+// each at level 1 − α/k, α = pairAlpha, cover their means all together
+// with probability at least 1 − α (Dunn 1961, "Multiple Comparisons Among
+// Means", JASA 56:52–64), as far as each covers at its own level (the
+// bootstrap's approximation). An interval that leaves out 0
+// is then a test of that mean at level α/k, Bonferroni's adjusted test, and
+// Holm's method rejects whatever Bonferroni's does: an interval without 0
+// goes with a Holm p below α but for the difference between the bootstrap
+// and the sign-flip test. Each tail of the interval holds α/(2k) of the
+// bootstrap means, so there are at least opt's resamples and enough for
+// pairTailResamples in each tail: max(resamples, ⌈2·pairTailResamples·k/α⌉).
+// With no comparison (k = 0) it is as with one.
+func pairLevel(k, resamples int) (level float64, b int) {
+	k = max(k, 1)
+	return 1 - pairAlpha/float64(k), max(resamples, int(math.Ceil(2*pairTailResamples*float64(k)/pairAlpha)))
+}
+
+// pairDiffs is A − B on measure meas over the texts where methods a and b
+// both have it.
+func pairDiffs(rows [][]textFaith, a, b int, meas string) []float64 {
+	var d []float64
+	for _, r := range rows {
+		x, y := measureOf(r[a], meas), measureOf(r[b], meas)
+		if !math.IsNaN(x) && !math.IsNaN(y) {
+			d = append(d, x-y)
+		}
+	}
+	return d
 }
 
 // measureOf picks one aggregate measure of a text's figures.
@@ -107,22 +158,6 @@ func measureOf(f textFaith, meas string) float64 {
 		return f.aggSuff
 	}
 	return f.aopc
-}
-
-// methodPair compares methods a and b on measure meas over the texts where
-// both are defined: the mean of A − B with its paired bootstrap interval
-// (rng) and the sign-flip test of that mean (flipRng).
-func methodPair(rows [][]textFaith, a, b int, meas string, opt *FaithOptions, rng, flipRng *rand.Rand) MethodPair {
-	var d []float64
-	for _, r := range rows {
-		x, y := measureOf(r[a], meas), measureOf(r[b], meas)
-		if !math.IsNaN(x) && !math.IsNaN(y) {
-			d = append(d, x-y)
-		}
-	}
-	p, patterns := signFlipTest(d, SignFlipDraws, flipRng)
-	return MethodPair{A: opt.Methods[a], B: opt.Methods[b], Measure: meas, Texts: len(d),
-		Diff: mean(d), DiffCI: bootstrapMean(d, opt.Resamples, rng), P: p, SignFlips: patterns}
 }
 
 // mean is the mean of xs, NaN when empty.
@@ -137,12 +172,25 @@ func mean(xs []float64) float64 {
 	return s / float64(len(xs))
 }
 
-// bootstrapMean is the 95% percentile interval of the mean of xs over b
-// resamples with replacement (NaN, NaN when xs is empty).
-func bootstrapMean(xs []float64, b int, rng *rand.Rand) Interval {
+// estimateLevel is the level of the intervals of the methods' own figures,
+// each an estimate on its own.
+const estimateLevel = 0.95
+
+// bootstrapMean is the percentile interval at level of the mean of xs over
+// b resamples with replacement (Efron & Tibshirani 1993, ch. 13): the
+// (1−level)/2 and (1+level)/2 quantiles of bootstrapMeans (NaN, NaN when xs
+// is empty).
+func bootstrapMean(xs []float64, b int, level float64, rng *rand.Rand) Interval {
 	if len(xs) == 0 {
 		return Interval{math.NaN(), math.NaN()}
 	}
+	lo, hi := percentileInterval(bootstrapMeans(xs, b, rng), level)
+	return Interval{lo, hi}
+}
+
+// bootstrapMeans is the means of b resamples of xs with replacement, each
+// of len(xs) draws from rng. Precondition: xs not empty.
+func bootstrapMeans(xs []float64, b int, rng *rand.Rand) []float64 {
 	means := make([]float64, b)
 	for r := range means {
 		var s float64
@@ -151,8 +199,7 @@ func bootstrapMean(xs []float64, b int, rng *rand.Rand) Interval {
 		}
 		means[r] = s / float64(len(xs))
 	}
-	lo, hi := percentileInterval(means, 0.95)
-	return Interval{lo, hi}
+	return means
 }
 
 // SignFlipDraws is the number of random sign patterns signFlipTest draws

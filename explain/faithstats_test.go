@@ -228,3 +228,151 @@ func TestFaithPairsTestTheMean(t *testing.T) {
 		}
 	}
 }
+
+// bootstrapMean at a level is the nearest-rank percentile interval
+// (Hyndman & Fan 1996, "Sample Quantiles in Statistical Packages", Amer.
+// Statist. 50:361–365, definition 1, the inverse of the empirical
+// distribution function) of the bootstrap means drawn from the same
+// stream: its low bound is a mean with fewer than ⌈q·b⌉ means below it and
+// at least ⌈q·b⌉ at or below it, q = (1−level)/2, and its high bound the
+// same with q = (1+level)/2. The level only chooses which quantiles are
+// read: the draws, and the stream's state after them, are the same at
+// every level, so a higher level's interval holds a lower one's.
+func TestBootstrapMeanAtLevel(t *testing.T) {
+	data := rand.New(rand.NewPCG(23, 23))
+	xs := make([]float64, 37)
+	for i := range xs {
+		xs[i] = data.NormFloat64() + 0.1*float64(i%3)
+	}
+	for _, c := range []struct {
+		level float64
+		b     int
+	}{
+		{0.95, 1000}, {0.99, 4000}, {1 - 0.05/18, 14400}, {1 - 0.05/7, 1000}, {0.5, 101},
+	} {
+		got := bootstrapMean(xs, c.b, c.level, rand.New(rand.NewPCG(24, 24)))
+		drawn := rand.New(rand.NewPCG(24, 24))
+		means := bootstrapMeans(xs, c.b, drawn)
+		for _, bound := range []struct {
+			name string
+			v, q float64
+		}{{"low", got.Low, (1 - c.level) / 2}, {"high", got.High, (1 + c.level) / 2}} {
+			below, atOrBelow := 0, 0
+			for _, m := range means {
+				if m < bound.v {
+					below++
+				}
+				if m <= bound.v {
+					atOrBelow++
+				}
+			}
+			rank := int(math.Ceil(bound.q * float64(c.b)))
+			if !slices.Contains(means, bound.v) || below >= rank || atOrBelow < rank {
+				t.Errorf("level %g, %d resamples: %s bound %g has %d means below and %d at or below, want the mean of rank %d",
+					c.level, c.b, bound.name, bound.v, below, atOrBelow, rank)
+			}
+		}
+		after := rand.New(rand.NewPCG(24, 24))
+		at95 := bootstrapMean(xs, c.b, 0.95, after)
+		if after.Uint64() != drawn.Uint64() {
+			t.Errorf("level %g: the draws depend on the level", c.level)
+		}
+		wide, narrow := got, at95
+		if c.level < 0.95 {
+			wide, narrow = at95, got
+		}
+		if !(wide.Low <= narrow.Low && narrow.High <= wide.High) {
+			t.Errorf("level %g: interval %+v, at 95%% %+v from the same draws", c.level, got, at95)
+		}
+	}
+	if iv := bootstrapMean(nil, 100, 0.99, rand.New(rand.NewPCG(1, 1))); !math.IsNaN(iv.Low) || !math.IsNaN(iv.High) {
+		t.Errorf("no value: %+v, want NaN bounds", iv)
+	}
+}
+
+// The pairs' intervals are simultaneous over the k comparisons with a p,
+// the family Holm's method adjusts across (FaithReport.Compared; a pair
+// with no text has none): by Bonferroni's inequality (Dunn 1961) each is
+// the percentile interval at level 1 − 0.05/k, here read from the means of
+// the same draws (the pairs' resamples, in order, from the stream the
+// methods' intervals leave), and it holds the 95% interval of those draws,
+// strictly wider for k > 1. The resamples are max(Resamples, ⌈40·k/0.05⌉),
+// so that each tail holds about 20 means. The cases: three methods whose
+// third has no AOPC (k = 7 of 9 pairs), with the default 1000 resamples
+// and with more than the tail needs; two methods (k = 3); and two with one
+// measure only (k = 1: the plain 95% interval).
+func TestFaithPairsSimultaneous(t *testing.T) {
+	data := rand.New(rand.NewPCG(25, 25))
+	f := func(shift float64) float64 { return data.NormFloat64()*0.1 + shift }
+	rows := make([][]textFaith, 90)
+	for i := range rows {
+		rows[i] = []textFaith{
+			{aggComp: f(0.3), aggSuff: f(0.1), aopc: f(0.2)},
+			{aggComp: f(0.25), aggSuff: f(0.12), aopc: f(0.2)},
+			{aggComp: f(0.2), aggSuff: f(0.1), aopc: math.NaN()},
+		}
+	}
+	oneMeasure := make([][]textFaith, len(rows))
+	for i, r := range rows {
+		oneMeasure[i] = []textFaith{r[0], {aggComp: r[1].aggComp, aggSuff: math.NaN(), aopc: math.NaN()}}
+	}
+	methods := []string{MethodExact, MethodOcclusion, MethodIG}
+	for _, c := range []struct {
+		name      string
+		rows      [][]textFaith
+		methods   int
+		resamples int // FaithOptions.Resamples, 0 for the default
+		pairs, k  int
+		wantLevel float64
+		wantDrawn int
+	}{
+		{"three methods, one without AOPC", rows, 3, 0, 9, 7, 1 - 0.05/7, 5600},
+		{"more resamples asked for", rows, 3, 6000, 9, 7, 1 - 0.05/7, 6000},
+		{"two methods", rows, 2, 0, 3, 3, 1 - 0.05/3, 2400},
+		{"one measure with texts", oneMeasure, 2, 0, 3, 1, 0.95, 1000},
+	} {
+		opt := &FaithOptions{Methods: methods[:c.methods], Seed: 6, Resamples: c.resamples}
+		opt.defaults()
+		pairs := methodPairs(c.rows, opt, rand.New(rand.NewPCG(26, 26)))
+		if len(pairs) != c.pairs || (FaithReport{Pairs: pairs}).Compared() != c.k {
+			t.Fatalf("%s: %d pairs, %d with a p, want %d and %d", c.name, len(pairs), FaithReport{Pairs: pairs}.Compared(), c.pairs, c.k)
+		}
+		same := rand.New(rand.NewPCG(26, 26))
+		for _, pr := range pairs {
+			if pr.DiffCILevel != c.wantLevel || pr.DiffCIResamples != c.wantDrawn {
+				t.Errorf("%s: %s − %s %s: level %g over %d resamples, want %g over %d", c.name, pr.A, pr.B, pr.Measure,
+					pr.DiffCILevel, pr.DiffCIResamples, c.wantLevel, c.wantDrawn)
+			}
+			a, b := slices.Index(opt.Methods, pr.A), slices.Index(opt.Methods, pr.B)
+			var d []float64
+			for _, r := range c.rows {
+				if x, y := measureOf(r[a], pr.Measure), measureOf(r[b], pr.Measure); !math.IsNaN(x) && !math.IsNaN(y) {
+					d = append(d, x-y)
+				}
+			}
+			if len(d) == 0 {
+				if !math.IsNaN(pr.P) || !math.IsNaN(pr.DiffCI.Low) || !math.IsNaN(pr.DiffCI.High) {
+					t.Errorf("%s: %s − %s %s has no text, yet p %g and interval %+v", c.name, pr.A, pr.B, pr.Measure, pr.P, pr.DiffCI)
+				}
+				continue
+			}
+			means := bootstrapMeans(d, c.wantDrawn, same)
+			lo, hi := percentileInterval(means, c.wantLevel)
+			lo95, hi95 := percentileInterval(means, 0.95)
+			wider := lo < lo95 && hi95 < hi
+			if pr.DiffCI != (Interval{lo, hi}) || !(lo <= lo95 && hi95 <= hi) || wider != (c.k > 1) {
+				t.Errorf("%s: %s − %s %s: interval %+v, want %g–%g at level %g, holding %g–%g at 95%% (strictly for k > 1)",
+					c.name, pr.A, pr.B, pr.Measure, pr.DiffCI, lo, hi, c.wantLevel, lo95, hi95)
+			}
+			beyond := 0
+			for _, m := range means {
+				if m < lo {
+					beyond++
+				}
+			}
+			if beyond < pairTailResamples-1 {
+				t.Errorf("%s: %d means below the low bound, want about %d", c.name, beyond, pairTailResamples)
+			}
+		}
+	}
+}
