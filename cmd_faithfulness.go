@@ -149,7 +149,8 @@ func writeFaith(w io.Writer, r *explain.FaithReport) {
 	if r.AccuracyInterval != nil {
 		acc = fmt.Sprintf("model accuracy %s, 95%% Wilson interval", r.AccuracyInterval)
 	}
-	fmt.Fprintf(w, "faithfulness over %d texts (%s); 95%% bootstrap intervals over the texts (%d resamples); the random ranking averaged over %d draws\n",
+	fmt.Fprintf(w, "faithfulness over %d texts (%s); 95%% bootstrap intervals of each method's figures over the texts (%d resamples;\n"+
+		"the comparisons' at the end are simultaneous); the random ranking averaged over %d draws\n",
 		r.Texts, acc, r.Resamples, r.Draws)
 	fmt.Fprintln(w, "higher comprehensiveness and AOPC, lower sufficiency: the more faithful method")
 	fmt.Fprintf(w, "\nremovals of two or more tokens (texts: %s)\n", aggregateTexts(r))
