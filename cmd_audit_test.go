@@ -8,6 +8,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"reflect"
 	"regexp"
 	"slices"
 	"strconv"
@@ -767,5 +768,59 @@ func TestAuditBadInputMessages(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// Every setting of the training recipe reaches the retrain command: a
+// recipe that differs from the default in any one field of
+// cnn.TrainConfig gives other train options (recipeArgs) or names the
+// setting in the comment line (unflaggedSettings). Seed is --seed, which
+// trainArgs writes from the split record, and Threads is how a run is
+// spread over cores, not part of what it learns. The fields are walked by
+// reflection, so a new setting that neither covers fails here.
+func TestRetrainCoversEveryTrainSetting(t *testing.T) {
+	def := cnn.DefaultRecipe()
+	tcType := reflect.TypeFor[cnn.TrainConfig]()
+	described := func(tc cnn.TrainConfig) string {
+		tc, err := tc.WithDefaults()
+		if err != nil {
+			t.Fatalf("%+v: %v", tc, err)
+		}
+		m := &cnn.Model{Config: def.Model, Tokenizer: def.Tokenizer}
+		m.Info.Recipe = &tc
+		return strings.Join(recipeArgs(m), " ") + " # " + strings.Join(unflaggedSettings(m), ", ")
+	}
+	// Values train's checks accept, where the zero value's change would not.
+	valid := map[string]string{"Optimizer": "adadelta", "ClassWeight": "balanced", "EmbedInit": cnn.InitPPMI, "StopOn": cnn.StopLoss}
+	for i := range tcType.NumField() {
+		f := tcType.Field(i)
+		if f.Name == "Seed" || f.Name == "Threads" {
+			continue
+		}
+		base := def.Train
+		if strings.HasPrefix(f.Name, "WideFit") {
+			base.WideFit = true // the fitted start's own settings need it
+		}
+		changed := base
+		v := reflect.ValueOf(&changed).Elem().Field(i)
+		switch v.Kind() {
+		case reflect.Bool:
+			v.SetBool(!v.Bool())
+		case reflect.Int:
+			v.SetInt(v.Int() + 2)
+		case reflect.Float64:
+			if x := v.Float(); x == 0 {
+				v.SetFloat(0.5)
+			} else {
+				v.SetFloat(x / 2)
+			}
+		case reflect.String:
+			v.SetString(valid[f.Name])
+		default:
+			t.Fatalf("field %s of kind %s: teach the test a value", f.Name, v.Kind())
+		}
+		if a, b := described(base), described(changed); a == b {
+			t.Errorf("%s changed: the retrain command stays %q", f.Name, a)
+		}
 	}
 }
