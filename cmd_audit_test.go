@@ -776,25 +776,27 @@ func TestAuditBadInputMessages(t *testing.T) {
 // cnn.TrainConfig gives other train options (recipeArgs) or names the
 // setting in the comment line (unflaggedSettings). Seed is --seed, which
 // trainArgs writes from the split record, and Threads is how a run is
-// spread over cores, not part of what it learns. The fields are walked by
-// reflection, so a new setting that neither covers fails here.
+// spread over cores, not part of what it learns. The same holds for the
+// tokenizer's settings but the pieces WordPiece learns and the file's
+// bytes (--tokenizer names the file). The fields are walked by reflection,
+// so a new setting that neither covers fails here.
 func TestRetrainCoversEveryTrainSetting(t *testing.T) {
 	def := cnn.DefaultRecipe()
-	tcType := reflect.TypeFor[cnn.TrainConfig]()
-	described := func(tc cnn.TrainConfig) string {
+	described := func(k corpus.TokenizerConfig, tc cnn.TrainConfig) string {
 		tc, err := tc.WithDefaults()
 		if err != nil {
 			t.Fatalf("%+v: %v", tc, err)
 		}
-		m := &cnn.Model{Config: def.Model, Tokenizer: def.Tokenizer}
+		m := &cnn.Model{Config: def.Model, Tokenizer: k}
 		m.Info.Recipe = &tc
 		return strings.Join(recipeArgs(m), " ") + " # " + strings.Join(unflaggedSettings(m), ", ")
 	}
 	// Values train's checks accept, where the zero value's change would not.
-	valid := map[string]string{"Optimizer": "adadelta", "ClassWeight": "balanced", "EmbedInit": cnn.InitPPMI, "StopOn": cnn.StopLoss}
-	for i := range tcType.NumField() {
-		f := tcType.Field(i)
-		if f.Name == "Seed" || f.Name == "Threads" {
+	valid := map[string]string{"Optimizer": "adadelta", "ClassWeight": "balanced", "EmbedInit": cnn.InitPPMI,
+		"StopOn": cnn.StopLoss, "File": "t.json"}
+	skip := map[string]bool{"Seed": true, "Threads": true, "SubwordPieces": true, "FileJSON": true}
+	for i, f := range reflect.VisibleFields(reflect.TypeFor[cnn.TrainConfig]()) {
+		if skip[f.Name] {
 			continue
 		}
 		base := def.Train
@@ -802,25 +804,44 @@ func TestRetrainCoversEveryTrainSetting(t *testing.T) {
 			base.WideFit = true // the fitted start's own settings need it
 		}
 		changed := base
-		v := reflect.ValueOf(&changed).Elem().Field(i)
-		switch v.Kind() {
-		case reflect.Bool:
-			v.SetBool(!v.Bool())
-		case reflect.Int:
-			v.SetInt(v.Int() + 2)
-		case reflect.Float64:
-			if x := v.Float(); x == 0 {
-				v.SetFloat(0.5)
-			} else {
-				v.SetFloat(x / 2)
-			}
-		case reflect.String:
-			v.SetString(valid[f.Name])
-		default:
-			t.Fatalf("field %s of kind %s: teach the test a value", f.Name, v.Kind())
-		}
-		if a, b := described(base), described(changed); a == b {
+		changeField(t, reflect.ValueOf(&changed).Elem().Field(i), f.Name, valid)
+		if a, b := described(def.Tokenizer, base), described(def.Tokenizer, changed); a == b {
 			t.Errorf("%s changed: the retrain command stays %q", f.Name, a)
 		}
+	}
+	for i, f := range reflect.VisibleFields(reflect.TypeFor[corpus.TokenizerConfig]()) {
+		if skip[f.Name] {
+			continue
+		}
+		base := def.Tokenizer
+		base.Subword = strings.HasPrefix(f.Name, "Subword") // its size needs it
+		changed := base
+		changeField(t, reflect.ValueOf(&changed).Elem().Field(i), f.Name, valid)
+		if a, b := described(base, def.Train), described(changed, def.Train); a == b {
+			t.Errorf("tokenizer %s changed: the retrain command stays %q", f.Name, a)
+		}
+	}
+}
+
+// changeField sets v, the field name of a settings struct, to a value
+// other than its own: a boolean negated, a number moved, a string from
+// valid.
+func changeField(t *testing.T, v reflect.Value, name string, valid map[string]string) {
+	t.Helper()
+	switch v.Kind() {
+	case reflect.Bool:
+		v.SetBool(!v.Bool())
+	case reflect.Int:
+		v.SetInt(v.Int() + 2)
+	case reflect.Float64:
+		if x := v.Float(); x == 0 {
+			v.SetFloat(0.5)
+		} else {
+			v.SetFloat(x / 2)
+		}
+	case reflect.String:
+		v.SetString(valid[name])
+	default:
+		t.Fatalf("field %s of kind %s: teach the test a value", name, v.Kind())
 	}
 }

@@ -280,6 +280,10 @@ func unflaggedSettings(m *cnn.Model) []string {
 		add(ch.Dim != cnn.DefaultCharDim, "char_dim", ch.Dim)
 		add(ch.MaxChars != cnn.DefaultMaxChars, "max_chars", ch.MaxChars)
 	}
+	k, dk := m.Tokenizer, cnn.DefaultRecipe().Tokenizer
+	add(k.KeepForm != dk.KeepForm, "keep_form", k.KeepForm)
+	add(k.MaxVocab != dk.MaxVocab, "max_vocab", k.MaxVocab)
+	add(k.Subword && k.SubwordSize != dk.SubwordSize, "subword_size", k.SubwordSize)
 	r := m.Info.Recipe
 	if r == nil {
 		return out
