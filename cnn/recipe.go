@@ -65,10 +65,10 @@ const DefaultWideLR = 100
 // split (held at C 1: 0.03), so none went on to a round; held beside
 // out-of-fold terms (WideFitFolds) it lost 0.0185 there, and held with a
 // learned scale (WideFitScale) it leaned on the demo's cues. A moving
-// average of the weights over the steps (WeightAverage), the twenty-second
-// round's screen, lost on the skewed review sentences at every horizon
-// tried; the held start shrunk by half (WideFitShrink), the twenty-third
-// round's, lost 0.0161 on the addresses' dev split.
+// average of the weights over the steps (WeightAverage) lost on the
+// skewed review sentences at every horizon tried, and the held start
+// shrunk by half (WideFitShrink) lost 0.0161 on the addresses' dev split
+// (the seventh and eighth screens after the nineteenth round).
 func DefaultRecipe() Recipe {
 	base := linear.DefaultConfig()
 	return Recipe{

@@ -55,7 +55,7 @@ var variants = map[string]func(r *cnn.Recipe){
 	"avg3":    func(r *cnn.Recipe) { r.Train.AverageLast = 3 },
 	"avg5":    func(r *cnn.Recipe) { r.Train.AverageLast = 5 },
 	// the weights' moving average over the steps, its horizon in epochs
-	// (TrainConfig.WeightAverage; the 22nd round's first try, ema99 and
+	// (TrainConfig.WeightAverage; the seventh screen's first try, ema99 and
 	// ema995, set the decay per step instead: commit f2becff)
 	"emah05":   func(r *cnn.Recipe) { r.Train.WeightAverage = 0.5 },
 	"emah1":    func(r *cnn.Recipe) { r.Train.WeightAverage = 1 },
@@ -100,7 +100,7 @@ var variants = map[string]func(r *cnn.Recipe){
 	// the fitted start held where the fit put it (a rate of 1e-6 times the
 	// rest's): the filters learn what the logistic regression leaves
 	"wfitfrz": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR = true, 1e-6 },
-	// the same, the start shrunk by half (TrainConfig.WideFitShrink; the 23rd round)
+	// the same, the start shrunk by half (TrainConfig.WideFitShrink; the eighth screen)
 	"wfitfrz5": func(r *cnn.Recipe) { r.Train.WideFit, r.Train.WideLR, r.Train.WideFitShrink = true, 1e-6, 0.5 },
 	// held, the filters trained beside 5-fold out-of-fold wide terms
 	// (TrainConfig.WideFitFolds)
