@@ -795,7 +795,7 @@ func TestRetrainCoversEveryTrainSetting(t *testing.T) {
 	valid := map[string]string{"Optimizer": "adadelta", "ClassWeight": "balanced", "EmbedInit": cnn.InitPPMI,
 		"StopOn": cnn.StopLoss, "File": "t.json"}
 	skip := map[string]bool{"Seed": true, "Threads": true, "SubwordPieces": true, "FileJSON": true}
-	for i, f := range reflect.VisibleFields(reflect.TypeFor[cnn.TrainConfig]()) {
+	for _, f := range reflect.VisibleFields(reflect.TypeFor[cnn.TrainConfig]()) {
 		if skip[f.Name] {
 			continue
 		}
@@ -804,22 +804,33 @@ func TestRetrainCoversEveryTrainSetting(t *testing.T) {
 			base.WideFit = true // the fitted start's own settings need it
 		}
 		changed := base
-		changeField(t, reflect.ValueOf(&changed).Elem().Field(i), f.Name, valid)
+		changeField(t, reflect.ValueOf(&changed).Elem().FieldByIndex(f.Index), f.Name, valid)
 		if a, b := described(def.Tokenizer, base), described(def.Tokenizer, changed); a == b {
 			t.Errorf("%s changed: the retrain command stays %q", f.Name, a)
 		}
 	}
-	for i, f := range reflect.VisibleFields(reflect.TypeFor[corpus.TokenizerConfig]()) {
+	for _, f := range reflect.VisibleFields(reflect.TypeFor[corpus.TokenizerConfig]()) {
 		if skip[f.Name] {
 			continue
 		}
 		base := def.Tokenizer
 		base.Subword = strings.HasPrefix(f.Name, "Subword") // its size needs it
 		changed := base
-		changeField(t, reflect.ValueOf(&changed).Elem().Field(i), f.Name, valid)
+		changeField(t, reflect.ValueOf(&changed).Elem().FieldByIndex(f.Index), f.Name, valid)
 		if a, b := described(base, def.Train), described(changed, def.Train); a == b {
 			t.Errorf("tokenizer %s changed: the retrain command stays %q", f.Name, a)
 		}
+	}
+	// What train --subword records (the size it trained, DefaultSubwordSize
+	// for none given) is what --subword gives again: no comment line.
+	enc, err := corpus.TrainEncoder(corpus.TokenizerConfig{Lower: true, MinCount: 1, Subword: true},
+		[]string{"the quayside kiosk", "a kiosk by the quay", "ferries at the quayside"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := &cnn.Model{Config: def.Model, Tokenizer: enc.Tok.Config()}
+	if got := unflaggedSettings(m); len(got) != 0 {
+		t.Errorf("a model trained with --subword: %q, want no setting train cannot give", got)
 	}
 }
 

@@ -283,7 +283,9 @@ func unflaggedSettings(m *cnn.Model) []string {
 	k, dk := m.Tokenizer, cnn.DefaultRecipe().Tokenizer
 	add(k.KeepForm != dk.KeepForm, "keep_form", k.KeepForm)
 	add(k.MaxVocab != dk.MaxVocab, "max_vocab", k.MaxVocab)
-	add(k.Subword && k.SubwordSize != dk.SubwordSize, "subword_size", k.SubwordSize)
+	// A trained tokenizer records the size it used: 0 reads as the default.
+	subwordSize := func(n int) int { return cmp.Or(n, corpus.DefaultSubwordSize) }
+	add(k.Subword && subwordSize(k.SubwordSize) != subwordSize(dk.SubwordSize), "subword_size", k.SubwordSize)
 	r := m.Info.Recipe
 	if r == nil {
 		return out

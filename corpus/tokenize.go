@@ -42,7 +42,7 @@ type TokenizerConfig struct {
 	// than SubwordMinCount times, so that they are split in training too
 	// and the pieces' vectors learn.
 	Subword bool `json:"subword,omitempty"`
-	// SubwordSize is the WordPiece vocabulary size (0 = 2000).
+	// SubwordSize is the WordPiece vocabulary size (0 = DefaultSubwordSize).
 	SubwordSize int `json:"subword_size,omitempty"`
 	// SubwordPieces is the trained WordPiece vocabulary (continuation
 	// pieces start with "##"), filled by TrainSubword.
@@ -150,11 +150,15 @@ func (t *Tokenizer) setPieces(pieces []string) {
 	t.cfg.SubwordPieces = pieces
 }
 
+// DefaultSubwordSize is the WordPiece vocabulary size TrainSubword takes
+// when neither its argument nor the config gives one.
+const DefaultSubwordSize = 2000
+
 // HasSubword reports whether a subword vocabulary is present.
 func (t *Tokenizer) HasSubword() bool { return t.wp != nil }
 
 // TrainSubword trains a subword vocabulary of about size pieces (0 = the
-// config's SubwordSize, else 2000) on the words of texts (the training
+// config's SubwordSize, else DefaultSubwordSize) on the words of texts (the training
 // split) with the library's WordPiece trainer, and keeps it in the
 // tokenizer and its Config. It must not run concurrently with other
 // methods. Segmentation as in WordPiece (Schuster & Nakajima 2012,
@@ -164,7 +168,7 @@ func (t *Tokenizer) TrainSubword(texts []string, size int) (err error) {
 		size = t.cfg.SubwordSize
 	}
 	if size <= 0 {
-		size = 2000
+		size = DefaultSubwordSize
 	}
 	counts := map[string]int{}
 	for _, s := range texts {
