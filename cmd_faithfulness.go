@@ -170,16 +170,18 @@ func writeFaith(w io.Writer, r *explain.FaithReport) {
 				withCI(mf.Comprehensiveness[pi], mf.ComprehensivenessCI[pi]), withCI(mf.Sufficiency[pi], mf.SufficiencyCI[pi]))
 		}
 	}
-	if len(r.Pairs) > 0 {
+	if i := slices.IndexFunc(r.Pairs, func(pr explain.MethodPair) bool { return pr.Texts > 0 }); i >= 0 {
 		fmt.Fprintf(w, "\nmethods compared text by text: mean of A − B with its bootstrap interval over the texts; p of the sign-flip\n"+
 			"permutation test of that mean (Good 2005), and Holm p, adjusted by Holm's method across the %d comparisons\n"+
 			"with a p (Holm 1979); the intervals are simultaneous over those comparisons, 95%% together (Bonferroni:\n"+
-			"each at %.4g%%, from %d resamples)", r.Compared(), 100*r.Pairs[0].DiffCILevel, r.Pairs[0].DiffCIResamples)
+			"each at %.4g%%, from %d resamples)", r.Compared(), 100*r.Pairs[i].DiffCILevel, r.Pairs[i].DiffCIResamples)
 		if r.AnyPAtFloor() {
 			fmt.Fprintf(w, "; p ≤ %.2g: no sign pattern of the %d drawn\nreached the observed mean",
 				1/float64(explain.SignFlipDraws+1), explain.SignFlipDraws)
 		}
 		fmt.Fprintln(w)
+	} else if len(r.Pairs) > 0 {
+		fmt.Fprintln(w, "\nmethods compared text by text: no text has a figure of both methods of any pair")
 	}
 	for _, pr := range r.Pairs {
 		p, holm := pEquals(pr.P), pEquals(pr.PHolm)

@@ -2,6 +2,11 @@ package cnn
 
 import "math"
 
+// maxAverageEpochs is the longest horizon TrainConfig.WeightAverage takes:
+// far beyond any run, and short enough that the decay per step stays below
+// 1 in float64 for any split (a decay of 1 would leave the average empty).
+const maxAverageEpochs = 1e6
+
 // weightAverage is the exponential moving average of a model's weights over
 // the training steps: averaged iterates as in Polyak & Juditsky (1992,
 // "Acceleration of Stochastic Approximation by Averaging", SIAM J. Control
@@ -20,12 +25,15 @@ type weightAverage struct {
 
 // newWeightAverage returns the average of m's weights over the steps to
 // come, with a horizon of epochs epochs of stepsPerEpoch steps each: the
-// decay per step is 1 − 1/(epochs·stepsPerEpoch) (0, the latest weights
+// decay per step is 1 − 1/(epochs·stepsPerEpoch) (0, the latest sample
 // alone, when that is below 0), so the mean age of the averaged weights is
 // about epochs epochs on a split of any size. A sample costs a pass over
 // every weight, as much as a dense optimizer step, so it is taken every few
-// steps (at most 4, at least 8 samples an epoch) at the decay those steps
-// have together. It returns nil when epochs is 0 (off).
+// steps, at the decay those steps have together: every stepsPerEpoch/8
+// steps, but at least every 4th step and at most every step. The average
+// holds the samples taken so far, so an epoch's model leaves out the steps
+// after its last sample (fewer than 4). It returns nil when epochs is 0
+// (off).
 func newWeightAverage(m *Model, epochs float64, stepsPerEpoch int) *weightAverage {
 	if epochs == 0 {
 		return nil

@@ -21,7 +21,7 @@ func TestWeightAverageIsTheWeightedMeanOfIterates(t *testing.T) {
 	d := toyData(3, 60, 30)
 	m := randModel(7, 30, 6, []int{2, 3}, 4, 2)
 	m.Config.Dropout = 0.3
-	tc, err := TrainConfig{Seed: 1, Threads: 2, WeightAverage: perStep}.WithDefaults()
+	tc, err := TrainConfig{Seed: 1, Threads: 2}.WithDefaults()
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -89,12 +89,57 @@ func TestTrainWeightAverageDev(t *testing.T) {
 	}
 }
 
+// The model Train keeps is the moving average, not the latest weights.
+// Without a dev split the last epoch is kept. The raw weights follow the
+// same path with and without the average (it only reads them), so the two
+// runs' kept weights must differ, and the averaged run's, a mean over about
+// the last two epochs, must lie nearer the previous epoch's end than the
+// last weights do (summed over the weights).
+func TestTrainKeepsTheWeightAverage(t *testing.T) {
+	train := toyData(3, 120, 30)
+	run := func(h float64) (*Model, [][]float32) {
+		m := randModel(4, 30, 6, []int{2, 3}, 3, 2)
+		var ends [][]float32
+		_, err := Train(context.Background(), m, train, Data{},
+			TrainConfig{Epochs: 4, Batch: 10, Seed: 2, Threads: 2, WeightAverage: h},
+			func(p Progress) {
+				if p.Phase == "epoch" {
+					ends = append(ends, flatWeights(m)) // the raw weights here
+				}
+			})
+		if err != nil {
+			t.Fatal(err)
+		}
+		return m, ends
+	}
+	raw, rawEnds := run(0)
+	avg, avgEnds := run(2)
+	for e := range rawEnds {
+		if !slices.Equal(rawEnds[e], avgEnds[e]) {
+			t.Fatalf("epoch %d: the raw weights differ with the average on: it must only read them", e+1)
+		}
+	}
+	got, last, prev := flatWeights(avg), flatWeights(raw), rawEnds[len(rawEnds)-2]
+	if slices.Equal(got, last) {
+		t.Fatal("the kept weights are the last epoch's: the average is not what Train keeps")
+	}
+	var toPrev, lastToPrev float64
+	for i := range got {
+		toPrev += math.Abs(float64(got[i] - prev[i]))
+		lastToPrev += math.Abs(float64(last[i] - prev[i]))
+	}
+	if toPrev >= lastToPrev {
+		t.Errorf("the kept weights are %.4g from the previous epoch's end, the last epoch's own %.4g: no pull back", toPrev, lastToPrev)
+	}
+}
+
 func TestWeightAverageSettings(t *testing.T) {
 	for _, c := range []struct {
 		tc   TrainConfig
 		want string
 	}{
 		{TrainConfig{WeightAverage: math.Inf(1)}, "moving average over"},
+		{TrainConfig{WeightAverage: 1e18}, "at most"},
 		{TrainConfig{WeightAverage: -0.5}, "moving average over"},
 		{TrainConfig{WeightAverage: math.NaN()}, "moving average over"},
 		{TrainConfig{WeightAverage: 0.99, AverageLast: 3}, "choose one"},

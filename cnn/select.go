@@ -4,8 +4,8 @@ import "math"
 
 // selector is Train's choice of the model to keep: at the end of each epoch
 // it forms the epoch's model (the current weights, their moving average
-// over the steps, or the mean of the last AverageLast epochs' weights), scores it on the dev split and keeps a copy
-// of the best.
+// over the steps, or the mean of the last AverageLast epochs' weights),
+// scores it on the dev split and keeps a copy of the best.
 type selector struct {
 	tc  TrainConfig
 	dev Data

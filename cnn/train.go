@@ -64,7 +64,8 @@ type TrainConfig struct {
 	AverageLast int `json:"average_last,omitempty"`
 	// WeightAverage, when set, makes the model of each epoch the
 	// exponential moving average of the weights over the training steps so
-	// far, with a horizon of this many epochs: the decay per step is
+	// far (sampled every few steps), with a horizon of this many epochs (at
+	// most 1e6): the decay per step is
 	// 1 − 1/(WeightAverage·S), S the batches of an epoch (average.go:
 	// averaged iterates, Polyak & Juditsky 1992, bias-corrected so the
 	// random start carries no weight). Dev chooses among these averages
@@ -135,7 +136,8 @@ type TrainConfig struct {
 	// WideBigrams) at the logistic regression fitted on the wide path's
 	// features, C chosen on dev like the baseline's unless WideFitC fixes
 	// it, and the filters' output weights at zero (widefit.go), so training
-	// starts from that linear model. It needs the word weights.
+	// starts from that linear model (or a part of it: WideFitShrink). It
+	// needs the word weights.
 	WideFit bool `json:"wide_fit,omitempty"`
 	// WideFitFolds, 2 or more, holds the fitted start (WideFit) where the
 	// fit put it (the word and bigram weights take no update) and trains
@@ -158,8 +160,9 @@ type TrainConfig struct {
 	// bigram weights and the intercepts) by this factor before the first
 	// step: the first stage of a boosting with shrinkage (Friedman 2001,
 	// "Greedy Function Approximation: A Gradient Boosting Machine", Ann.
-	// Statist. 29(5), section 5), so that the filters fit what that part of
-	// the linear model leaves. 0 means 1 (no shrink); it must be in [0, 1],
+	// Statist. 29(5), section 5; the intercepts are shrunk too, where
+	// Friedman's first stage, a constant, is not), so that the filters fit
+	// what that part of the linear model leaves. 0 means 1 (no shrink); it must be in [0, 1],
 	// and 0 without WideFit or with WideFitFolds.
 	WideFitShrink float64 `json:"wide_fit_shrink,omitempty"`
 	// WideFitC fixes the fitted start's inverse regularisation strength
@@ -256,8 +259,8 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 // finite, or set with AverageLast or WideFitScale.
 func (tc TrainConfig) checkWeightAverage() error {
 	switch {
-	case !(tc.WeightAverage >= 0) || math.IsInf(tc.WeightAverage, 0):
-		return fmt.Errorf("cnn: moving average over %g epochs: must be 0 (off) or a finite positive number", tc.WeightAverage)
+	case !(tc.WeightAverage >= 0 && tc.WeightAverage <= maxAverageEpochs):
+		return fmt.Errorf("cnn: moving average over %g epochs: must be 0 (off) or positive, at most %g epochs", tc.WeightAverage, float64(maxAverageEpochs))
 	case tc.WeightAverage > 0 && tc.AverageLast >= 2:
 		return fmt.Errorf("cnn: a moving average of the weights and an average of the last %d epochs: choose one", tc.AverageLast)
 	case tc.WeightAverage > 0 && tc.WideFitScale:
@@ -267,8 +270,8 @@ func (tc TrainConfig) checkWeightAverage() error {
 }
 
 // checkWideFitSettings returns an error if a setting of the fitted start
-// (WideFitC, WideFitFolds, WideFitScale, WideFitShrink) is out of range or set without
-// WideFit.
+// (WideFitC, WideFitFolds, WideFitScale, WideFitShrink) is out of range or
+// set without WideFit.
 func (tc TrainConfig) checkWideFitSettings() error {
 	switch {
 	case !(tc.WideFitC >= 0) || math.IsInf(tc.WideFitC, 0):
@@ -369,8 +372,9 @@ type Progress struct {
 const progressEvery = 10
 
 // Train fits m to train by mini-batch gradient descent and returns the
-// training record. After each epoch the epoch's model (its weights, or with
-// AverageLast the mean of the last epochs' weights) is evaluated on dev
+// training record. After each epoch the epoch's model (its weights, with
+// WeightAverage their moving average over the steps, or with AverageLast
+// the mean of the last epochs' weights) is evaluated on dev
 // (which may be empty); the model of the epoch with the best dev macro-F1
 // (or lowest dev loss, or with StopMacroF1Loss the lower dev loss of epochs
 // tied on macro-F1: StopOn; otherwise the earlier one on ties; with no dev
@@ -401,7 +405,8 @@ const progressEvery = 10
 // Batches are length-bucketed: the shuffled split is cut into chunks of 100
 // batches, each chunk sorted by length and cut into batches, and the batch
 // order shuffled. With WideFit the word and bigram weights first start at
-// the logistic regression fitted on them (widefit.go); a cancel during
+// the logistic regression fitted on them (widefit.go; times WideFitShrink
+// when it is set); a cancel during
 // that fit ends the run before its first epoch, m unchanged.
 func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progress func(Progress)) (*TrainResult, error) {
 	tc, err := tc.WithDefaults()

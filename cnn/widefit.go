@@ -132,11 +132,10 @@ func (m *Model) wideFit(tc TrainConfig, cs []float64) linear.RowsFit {
 }
 
 // fitWideStart sets m's word and bigram weights and OutB to the logistic
-// regression fitted on train's wide features (times tc.WideFitShrink when
-// it is positive) (C tc.WideFitC when it is
-// positive; else of the baseline's grid, the best dev macro-F1, the middle
-// one without a dev split) and OutW to
-// zero, and returns that fit. M must have the wide path; train and dev
+// regression fitted on train's wide features, times tc.WideFitShrink when
+// it is positive (C tc.WideFitC when it is positive; else of the
+// baseline's grid, the best dev macro-F1, the middle one without a dev
+// split), and OutW to zero, and returns that fit (unshrunk). M must have the wide path; train and dev
 // must have passed check.
 func (m *Model) fitWideStart(ctx context.Context, train, dev Data, tc TrainConfig) (*linear.Classifier, error) {
 	if err := checkWideFit(m.Config, tc); err != nil {

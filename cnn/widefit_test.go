@@ -427,7 +427,7 @@ func TestWideFitShrinkScalesTheStart(t *testing.T) {
 	const nu = 0.5
 	train, dev := toyData(1, 300, 30), toyData(2, 100, 30)
 	tc := TrainConfig{Seed: 3, Threads: 2, WideFit: true}
-	full := withWide(randModel(1, 30, 8, []int{2, 3}, 4, 2), 1, 0)
+	full := withBigrams(t, randModel(1, 30, 8, []int{2, 3}, 4, 2), train.IDs, 1, 0)
 	shrunk := full.Clone()
 	if _, err := full.fitWideStart(context.Background(), train, dev, tc); err != nil {
 		t.Fatal(err)
@@ -437,7 +437,8 @@ func TestWideFitShrinkScalesTheStart(t *testing.T) {
 		t.Fatal(err)
 	}
 	var moved int
-	for name, pair := range map[string][2][]float32{"word weights": {full.Wide, shrunk.Wide}, "intercepts": {full.OutB, shrunk.OutB}} {
+	for name, pair := range map[string][2][]float32{"word weights": {full.Wide, shrunk.Wide},
+		"bigram weights": {full.WideBigram, shrunk.WideBigram}, "intercepts": {full.OutB, shrunk.OutB}} {
 		for j, w := range pair[0] {
 			if !testref.Close(float64(pair[1][j]), nu*float64(w), 1e-6, 0) {
 				t.Fatalf("%s %d: %g, want %g × %g", name, j, pair[1][j], nu, w)

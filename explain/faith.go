@@ -146,9 +146,11 @@ type MethodPair struct {
 	Diff    float64  `json:"diff"`
 	DiffCI  Interval `json:"diff_ci"`
 	// DiffCILevel is the level of DiffCI on its own; DiffCIResamples the
-	// bootstrap resamples behind it (at least FaithOptions.Resamples).
-	DiffCILevel     float64 `json:"diff_ci_level"`
-	DiffCIResamples int     `json:"diff_ci_resamples"`
+	// bootstrap resamples behind it (at least FaithOptions.Resamples). Both
+	// are 0 (left out of the JSON) for a pair without a text, whose DiffCI
+	// and P are NaN.
+	DiffCILevel     float64 `json:"diff_ci_level,omitempty"`
+	DiffCIResamples int     `json:"diff_ci_resamples,omitempty"`
 	P               float64 `json:"p"`
 	PHolm           float64 `json:"p_holm"`
 	SignFlips       int     `json:"sign_flips"`

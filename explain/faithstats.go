@@ -104,7 +104,9 @@ func methodPairs(rows [][]textFaith, opt *FaithOptions, rng *rand.Rand) []Method
 	level, resamples := pairLevel(FaithReport{Pairs: pairs}.Compared(), opt.Resamples)
 	for i := range pairs {
 		pairs[i].DiffCI = bootstrapMean(diffs[i], resamples, level, rng)
-		pairs[i].DiffCILevel, pairs[i].DiffCIResamples = level, resamples
+		if len(diffs[i]) > 0 {
+			pairs[i].DiffCILevel, pairs[i].DiffCIResamples = level, resamples
+		}
 	}
 	return pairs
 }

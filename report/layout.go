@@ -201,11 +201,11 @@ func recipe(in Input) recipeView {
 			rv.Train = append(rv.Train, kv{"Learning rate of the word weights", fmt.Sprintf("%g × the rest's", cmp.Or(r.WideLR, 1))})
 		}
 		if c.Wide && r.WideFit {
-			rv.Train = append(rv.Train, kv{"Start of the word weights", "the logistic regression fitted on them alone (" + fitC(r.WideFitC) + "); the filters joined from zero"})
+			rv.Train = append(rv.Train, kv{"Start of the word weights", shrunk(r.WideFitShrink) + "the logistic regression fitted on them alone (" + fitC(r.WideFitC) + "); the filters joined from zero"})
 		}
 	}
 	if info.BestEpoch > 0 {
-		rv.Train = append(rv.Train, kv{"Weights kept from epoch", fmt.Sprint(info.BestEpoch)})
+		rv.Train = append(rv.Train, kv{"Weights kept from epoch", fmt.Sprint(info.BestEpoch) + averaged(info.Recipe)})
 	}
 	if info.ExamplesPerSec > 0 {
 		rv.Train = append(rv.Train, kv{"Training speed (steady state)", count(int(math.Round(info.ExamplesPerSec))) + " texts/s"})
@@ -240,6 +240,28 @@ func keepFrom(k, epochs int) string {
 
 // fitC says how the fitted start's C (cnn.TrainConfig.WideFitC) was set:
 // fixed in the recipe, or chosen on the dev split (0).
+// shrunk names the factor of a shrunk fitted start (TrainConfig.WideFitShrink).
+func shrunk(nu float64) string {
+	if nu > 0 && nu < 1 {
+		return fmt.Sprintf("%g × ", nu)
+	}
+	return ""
+}
+
+// averaged says when the kept weights are an average (TrainConfig.WeightAverage,
+// AverageLast) rather than the epoch's own.
+func averaged(r *cnn.TrainConfig) string {
+	switch {
+	case r == nil:
+		return ""
+	case r.WeightAverage > 0:
+		return fmt.Sprintf(" (their moving average over the steps, a horizon of %g epochs)", r.WeightAverage)
+	case r.AverageLast >= 2:
+		return fmt.Sprintf(" (the mean of the weights at the ends of the last %d epochs)", r.AverageLast)
+	}
+	return ""
+}
+
 func fitC(c float64) string {
 	if c > 0 {
 		return fmt.Sprintf("C %g, fixed", c)

@@ -317,3 +317,30 @@ func TestRecipeKeepFromAndClassWeight(t *testing.T) {
 		}
 	}
 }
+
+// TestRecipeShrinkAndAverages: a shrunk fitted start names its factor, and
+// the kept epoch's row says when the kept weights are an average of
+// iterates (cnn.TrainConfig.WeightAverage) or of epoch ends (AverageLast).
+func TestRecipeShrinkAndAverages(t *testing.T) {
+	for _, c := range []struct {
+		tc          cnn.TrainConfig
+		start, kept string
+	}{
+		{cnn.TrainConfig{WideFit: true}, "the logistic regression", "4"},
+		{cnn.TrainConfig{WideFit: true, WideFitShrink: 0.5}, "0.5 × the logistic regression", "4"},
+		{cnn.TrainConfig{WeightAverage: 2}, "", "4 (their moving average over the steps, a horizon of 2 epochs)"},
+		{cnn.TrainConfig{AverageLast: 3}, "", "4 (the mean of the weights at the ends of the last 3 epochs)"},
+	} {
+		m := &cnn.Model{Config: cnn.Config{Widths: []int{3}, Wide: true}, Info: cnn.Info{Recipe: &c.tc, BestEpoch: 4}}
+		got := map[string]string{}
+		for _, r := range recipe(Input{Model: m}).Train {
+			got[r.Key] = r.Value
+		}
+		if start := got["Start of the word weights"]; !strings.HasPrefix(start, c.start) || (c.start == "") != (start == "") {
+			t.Errorf("%+v: start %q, want it to begin %q", c.tc, start, c.start)
+		}
+		if got["Weights kept from epoch"] != c.kept {
+			t.Errorf("%+v: kept %q, want %q", c.tc, got["Weights kept from epoch"], c.kept)
+		}
+	}
+}
