@@ -339,3 +339,25 @@ func TestTrainDevFigures(t *testing.T) {
 		t.Errorf("dev and test figures differ in precision:\n%s", out)
 	}
 }
+
+// The figures block says what to try where the baseline is significantly
+// ahead of the CNN (cnn.BaselineTest.BaselineAhead), and only there.
+func TestFiguresBaselineAheadAdvice(t *testing.T) {
+	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
+	for _, c := range []struct {
+		test cnn.BaselineTest
+		want bool
+	}{
+		{cnn.BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041}, true},
+		{cnn.BaselineTest{CNNOnly: 17, BaselineOnly: 29, P: 0.1}, false},
+		{cnn.BaselineTest{CNNOnly: 20, BaselineOnly: 5, P: 0.0041}, false},
+	} {
+		f := cnn.FiguresOf(m, nil)
+		f.Baseline, f.McNemar = &f.CNN, &c.test
+		var b strings.Builder
+		writeFigures(&b, "test split", f, nil)
+		if got := strings.Contains(b.String(), "the baseline is ahead here: try train --wide-fit"); got != c.want {
+			t.Errorf("%+v: advice %v, want %v:\n%s", c.test, got, c.want, b.String())
+		}
+	}
+}

@@ -537,5 +537,14 @@ func (t BaselineTest) Sentence() string {
 		t.CNNOnly, texts, t.BaselineOnly, PValue(t.P))
 }
 
+// BaselineAhead reports whether the baseline is significantly ahead of the
+// CNN on these texts: right alone more often than the CNN, at exact
+// McNemar p < 0.05 (common practice, no source). Where it is, the README's
+// section "The default recipe" names what to try (the fitted start, the
+// balanced class weight), and each face says so beside the figures.
+func (t BaselineTest) BaselineAhead() bool {
+	return t.BaselineOnly > t.CNNOnly && t.P < 0.05
+}
+
 // PValue writes a p-value with two significant digits: 0.054, 1.5e-07, 1.
 func PValue(p float64) string { return strconv.FormatFloat(p, 'g', 2, 64) }

@@ -220,3 +220,37 @@ func TestECEManyBins(t *testing.T) {
 		}()
 	}
 }
+
+// BaselineAhead: the baseline right alone more often than the CNN, at exact
+// McNemar p < 0.05 (common practice, no source); p from McNemarExact.
+func TestBaselineAhead(t *testing.T) {
+	for _, c := range []struct {
+		cnnOnly, baselineOnly int
+		want                  bool
+	}{
+		{17, 29, false}, // p = 0.1: not significant
+		{5, 20, true},   // p = 0.004
+		{20, 5, false},  // the CNN ahead
+		{0, 6, true},    // p = 0.031
+		{0, 5, false},   // p = 0.0625
+		{0, 0, false},
+	} {
+		// Texts of label 0: the CNN right alone on the first cnnOnly, the
+		// baseline on the next baselineOnly, both right on one more.
+		n := c.cnnOnly + c.baselineOnly + 1
+		gold, cnnPred, basePred := make([]int, n), make([]int, n), make([]int, n)
+		for i := range n {
+			switch {
+			case i < c.cnnOnly:
+				basePred[i] = 1
+			case i < c.cnnOnly+c.baselineOnly:
+				cnnPred[i] = 1
+			}
+		}
+		mc := McNemarExact(gold, cnnPred, basePred)
+		bt := BaselineTest{CNNOnly: mc.OnlyA, BaselineOnly: mc.OnlyB, P: mc.P}
+		if got := bt.BaselineAhead(); got != c.want {
+			t.Errorf("CNN alone %d, baseline alone %d (p = %.3g): ahead %v, want %v", c.cnnOnly, c.baselineOnly, bt.P, got, c.want)
+		}
+	}
+}

@@ -172,9 +172,19 @@ func figureLines(f cnn.Figures, m *cnn.Model) (head, beside string) {
 	if len(m.Baseline.Dev) == 0 {
 		c = fmt.Sprintf("C = %g, no dev split", m.Baseline.Classifier.C)
 	}
-	return head, fmt.Sprintf("Linear baseline (%s): accuracy %s, macro-F1 %s. %s.",
+	beside = fmt.Sprintf("Linear baseline (%s): accuracy %s, macro-F1 %s. %s.",
 		c, f.Baseline.Accuracy, f.Baseline.MacroF1, capitalize(f.McNemar.Sentence()))
+	if f.McNemar.BaselineAhead() {
+		beside += " " + baselineAheadAdvice
+	}
+	return head, beside
 }
+
+// baselineAheadAdvice is what the Results view says where the linear
+// baseline is significantly ahead of the CNN (cnn.BaselineTest.BaselineAhead),
+// in the words of the Training view's form.
+const baselineAheadAdvice = "The baseline is ahead here: in Training, try Word weights' start \"fitted linear model\" or, " +
+	"with unbalanced labels, Class weight \"balanced\", and read the cue audit beside the result."
 
 // mostConfused is the off-diagonal cell with the most texts (the first
 // diagonal cell when there is none).

@@ -152,6 +152,28 @@ func TestFigureLinesWithoutBaseline(t *testing.T) {
 	}
 }
 
+// The line beside the headline says what to try, in the form's words,
+// where the baseline is significantly ahead (cnn.BaselineTest.BaselineAhead),
+// and only there.
+func TestFigureLinesBaselineAhead(t *testing.T) {
+	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
+	model := &cnn.Model{Baseline: &linear.Model{Classifier: &linear.Classifier{C: 10}}}
+	for _, c := range []struct {
+		test cnn.BaselineTest
+		want bool
+	}{
+		{cnn.BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041}, true},
+		{cnn.BaselineTest{CNNOnly: 17, BaselineOnly: 29, P: 0.1}, false},
+	} {
+		f := cnn.FiguresOf(m, nil)
+		f.Baseline, f.McNemar = &f.CNN, &c.test
+		_, beside := figureLines(f, model)
+		if got := strings.Contains(beside, `Word weights' start "fitted linear model"`); got != c.want {
+			t.Errorf("%+v: advice %v, want %v: %q", c.test, got, c.want, beside)
+		}
+	}
+}
+
 // The training form starts from cnn.DefaultRecipe, field for field, offers
 // what `telltale train` offers (class weight, token and word dropout, the
 // baseline on or off), and refuses their bad values naming the field.

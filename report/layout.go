@@ -240,6 +240,18 @@ func keepFrom(k, epochs int) string {
 
 // fitC says how the fitted start's C (cnn.TrainConfig.WideFitC) was set:
 // fixed in the recipe, or chosen on the dev split (0).
+// mcnemarLine words the test between the CNN and the baseline, and where
+// the baseline is significantly ahead, what to try.
+func mcnemarLine(t cnn.BaselineTest) string {
+	sentence := t.Sentence()
+	line := strings.ToUpper(sentence[:1]) + sentence[1:] + "."
+	if t.BaselineAhead() {
+		line += " The baseline is ahead here: retraining with telltale train --wide-fit (the word weights start at a fitted linear model) or, " +
+			"with unbalanced labels, --class-weight balanced may close the gap; read the cue audit beside the result."
+	}
+	return line
+}
+
 // shrunk names the factor of a shrunk fitted start (TrainConfig.WideFitShrink).
 func shrunk(nu float64) string {
 	if nu > 0 && nu < 1 {
@@ -405,8 +417,7 @@ func metrics(in Input) (*metricsView, error) {
 	if fig.Baseline != nil {
 		mv.Figures = append(mv.Figures, figureRow{Model: "Linear baseline", Note: baselineNote(in.Model),
 			Accuracy: fig.Baseline.Accuracy.String(), MacroF1: fig.Baseline.MacroF1.String()})
-		sentence := fig.McNemar.Sentence()
-		mv.McNemar = strings.ToUpper(sentence[:1]) + sentence[1:] + "."
+		mv.McNemar = mcnemarLine(*fig.McNemar)
 	}
 	for i, c := range mt.PerClass {
 		ci := iv.PerClass[i]

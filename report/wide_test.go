@@ -344,3 +344,17 @@ func TestRecipeShrinkAndAverages(t *testing.T) {
 		}
 	}
 }
+
+// The report's McNemar line says what to try where the baseline is
+// significantly ahead (cnn.BaselineTest.BaselineAhead), and only there.
+func TestMcNemarLineBaselineAhead(t *testing.T) {
+	ahead := mcnemarLine(cnn.BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041})
+	level := mcnemarLine(cnn.BaselineTest{CNNOnly: 17, BaselineOnly: 29, P: 0.1})
+	const advice = "The baseline is ahead here: retraining with telltale train --wide-fit"
+	if !strings.Contains(ahead, advice) || strings.Contains(level, advice) {
+		t.Errorf("ahead: %q\nnot significant: %q", ahead, level)
+	}
+	if !strings.HasPrefix(level, "The CNN is right on 17 texts") {
+		t.Errorf("the line does not open with the test: %q", level)
+	}
+}
