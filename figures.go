@@ -104,5 +104,6 @@ func writeFigures(w io.Writer, heading string, f cnn.Figures, b *baselineJSON) {
 
 // baselineAheadAdvice is what the command line says where the linear
 // baseline is significantly ahead of the CNN (cnn.BaselineTest.BaselineAhead).
-const baselineAheadAdvice = "the baseline is ahead here: try train --wide-fit (the word weights start at a fitted linear model) or, " +
-	"with unbalanced labels, --class-weight balanced, and read the cue audit beside the result (README, \"The default recipe\")"
+const baselineAheadAdvice = "the baseline is ahead here; where the default recipe trails it, try train --wide-fit (the word weights start " +
+	"at a fitted linear model) or, with unbalanced labels, --class-weight balanced, and read the cue audit beside the result " +
+	"(README, \"The default recipe\")"

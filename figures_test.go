@@ -356,7 +356,7 @@ func TestFiguresBaselineAheadAdvice(t *testing.T) {
 		f.Baseline, f.McNemar = &f.CNN, &c.test
 		var b strings.Builder
 		writeFigures(&b, "test split", f, nil)
-		if got := strings.Contains(b.String(), "the baseline is ahead here: try train --wide-fit"); got != c.want {
+		if got := strings.Contains(b.String(), "the baseline is ahead here; where the default recipe trails it, try train --wide-fit"); got != c.want {
 			t.Errorf("%+v: advice %v, want %v:\n%s", c.test, got, c.want, b.String())
 		}
 	}

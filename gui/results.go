@@ -183,8 +183,8 @@ func figureLines(f cnn.Figures, m *cnn.Model) (head, beside string) {
 // baselineAheadAdvice is what the Results view says where the linear
 // baseline is significantly ahead of the CNN (cnn.BaselineTest.BaselineAhead),
 // in the words of the Training view's form.
-const baselineAheadAdvice = "The baseline is ahead here: in Training, try Word weights' start \"fitted linear model\" or, " +
-	"with unbalanced labels, Class weight \"balanced\", and read the cue audit beside the result."
+const baselineAheadAdvice = "The baseline is ahead here. Where the default recipe trails it, try Word weights' start " +
+	"\"fitted linear model\" in Training or, with unbalanced labels, Class weight \"balanced\", and read the cue audit beside the result."
 
 // mostConfused is the off-diagonal cell with the most texts (the first
 // diagonal cell when there is none).

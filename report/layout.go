@@ -246,8 +246,8 @@ func mcnemarLine(t cnn.BaselineTest) string {
 	sentence := t.Sentence()
 	line := strings.ToUpper(sentence[:1]) + sentence[1:] + "."
 	if t.BaselineAhead() {
-		line += " The baseline is ahead here: retraining with telltale train --wide-fit (the word weights start at a fitted linear model) or, " +
-			"with unbalanced labels, --class-weight balanced may close the gap; read the cue audit beside the result."
+		line += " The baseline is ahead here. Where the default recipe trails it, retraining with telltale train --wide-fit (the word " +
+			"weights start at a fitted linear model) or, with unbalanced labels, --class-weight balanced may close the gap; read the cue audit beside the result."
 	}
 	return line
 }
