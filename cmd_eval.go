@@ -132,6 +132,7 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 			Intervals: cnn.IntervalsOf(met), Baseline: baselineOf(m, cmp)})
 	}
 	writeFigures(env.Stdout, splitHeading(es.name, met.N), figures, baselineOf(m, cmp))
+	fmt.Fprint(env.Stdout, baselineAdvice(m, figures.McNemar))
 	fmt.Fprintln(env.Stdout)
 	writeMetrics(env.Stdout, met, cnn.IntervalsOf(met), o.bins)
 	return nil

@@ -260,6 +260,9 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 		StoppedEarly: res.StoppedEarly, Diverged: res.Diverged != nil, Divergence: res.Diverged, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Test: m.Info.Test,
 		Splits: m.Info.Splits, Seconds: time.Since(start).Seconds()}
 	summary.TestFigures, summary.Baseline = figures, baselineOf(m, cmp)
+	if figures != nil {
+		summary.advice = baselineAdvice(m, figures.McNemar)
+	}
 	if m.Info.Dev != nil {
 		iv := cnn.IntervalsOf(*m.Info.Dev)
 		summary.DevIntervals, summary.DevNote = &iv, devNote
@@ -319,6 +322,7 @@ type trainSummary struct {
 	TestFigures   *cnn.Figures         `json:"test_figures,omitempty"`
 	Baseline      *baselineJSON        `json:"baseline,omitempty"`
 	Splits        *cnn.SplitRecord     `json:"splits,omitempty"`
+	advice        string               // baselineAdvice, printed after the test split's figures
 }
 
 // devNote is train --json's dev_note.
@@ -334,6 +338,7 @@ func writeTrainSummary(w io.Writer, s trainSummary) {
 	if s.TestFigures != nil {
 		writeFigures(w, fmt.Sprintf("test split, %s, used for nothing else", wording.Texts(s.TestFigures.CNN.N)), *s.TestFigures, s.Baseline)
 		writeECE(w, "CNN", s.TestIntervals)
+		fmt.Fprint(w, s.advice)
 	}
 }
 

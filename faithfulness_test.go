@@ -161,3 +161,18 @@ func TestFaithHeader(t *testing.T) {
 		}
 	}
 }
+
+// With no pair of methods sharing a text, the text says so in place of
+// the paragraph on the tests and the intervals (there is no level to
+// name), and still lists the pairs.
+func TestFaithNoPairWithTexts(t *testing.T) {
+	none := explain.MethodPair{A: "ig", B: "random", Measure: "aopc", P: math.NaN(), PHolm: math.NaN()}
+	r := &explain.FaithReport{Texts: 3, Resamples: 10, Draws: 5, Pairs: []explain.MethodPair{none}}
+	var b strings.Builder
+	writeFaith(&b, r)
+	out := b.String()
+	if !strings.Contains(out, "no text has a figure of both methods of any pair") || strings.Contains(out, "each at") ||
+		!strings.Contains(out, "ig         − random") {
+		t.Errorf("the text:\n%s", out)
+	}
+}

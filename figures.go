@@ -3,10 +3,12 @@ package main
 import (
 	"fmt"
 	"io"
+	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/linear"
+	"telltale/report"
 )
 
 // The CNN beside the linear baseline its model file carries, as train,
@@ -97,13 +99,19 @@ func writeFigures(w io.Writer, heading string, f cnn.Figures, b *baselineJSON) {
 	}
 	row("linear baseline", *f.Baseline, tail)
 	fmt.Fprintf(w, "  %s\n", f.McNemar.Sentence())
-	if f.McNemar.BaselineAhead() {
-		fmt.Fprintf(w, "  %s\n", baselineAheadAdvice)
-	}
 }
 
-// baselineAheadAdvice is what the command line says where the linear
-// baseline is significantly ahead of the CNN (cnn.BaselineTest.BaselineAhead).
-const baselineAheadAdvice = "the baseline is ahead here; where the default recipe trails it, try train --wide-fit (the word weights start " +
-	"at a fitted linear model) or, with unbalanced labels, --class-weight balanced, and read the cue audit beside the result " +
-	"(README, \"The default recipe\")"
+// baselineAdvice is report.BaselineAdvice for the command line: the line
+// train and eval print after the test split's figures where the linear
+// baseline is significantly ahead of the CNN, broken before "and read", or
+// "" (also when t is nil: no baseline).
+func baselineAdvice(m *cnn.Model, t *cnn.BaselineTest) string {
+	if t == nil {
+		return ""
+	}
+	advice := report.BaselineAdvice(m, *t)
+	if advice == "" {
+		return ""
+	}
+	return strings.Replace(advice, ", and read", ",\nand read", 1) + " (README, \"The default recipe\")\n"
+}

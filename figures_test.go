@@ -171,6 +171,10 @@ func TestTrainEvalCompareShowTheBaseline(t *testing.T) {
 		t.Errorf("eval's accuracy %g, train's %g", ev.Accuracy, m.Info.Test.Accuracy)
 	}
 	mc := ev.Figures.McNemar
+	// Where the baseline is ahead both say what to try, after the figures.
+	if advice := baselineAdvice(m, mc); advice != "" != mc.BaselineAhead() || !strings.Contains(trainOut, advice) || !strings.Contains(evalOut, advice) {
+		t.Errorf("the baseline ahead: %v; the advice %q is not in both outputs:\n%s\n---\n%s", mc.BaselineAhead(), advice, trainOut, evalOut)
+	}
 	sentence := fmt.Sprintf("the CNN is right on %d text", mc.CNNOnly)
 	if !strings.Contains(evalOut, sentence) || !strings.Contains(evalOut, fmt.Sprintf("and the baseline on %d where the CNN is wrong; exact McNemar p = %s", mc.BaselineOnly, cnn.PValue(mc.P))) {
 		t.Errorf("eval's text lacks the test of its JSON %+v:\n%s", *mc, evalOut)
@@ -340,24 +344,38 @@ func TestTrainDevFigures(t *testing.T) {
 	}
 }
 
-// The figures block says what to try where the baseline is significantly
-// ahead of the CNN (cnn.BaselineTest.BaselineAhead), and only there.
-func TestFiguresBaselineAheadAdvice(t *testing.T) {
-	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
+// train and eval say what to try where the baseline is significantly
+// ahead of the CNN (cnn.BaselineRemedies), in train's options, and only
+// there: nothing when the CNN is ahead or the test is not significant, no
+// fitted start for a model that has it, --wide with it for a model
+// without word weights.
+func TestBaselineAdviceLine(t *testing.T) {
+	ahead := &cnn.BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041}
 	for _, c := range []struct {
-		test cnn.BaselineTest
-		want bool
+		name        string
+		wide        bool
+		recipe      cnn.TrainConfig
+		test        *cnn.BaselineTest
+		want, want2 string // "" for no line
 	}{
-		{cnn.BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041}, true},
-		{cnn.BaselineTest{CNNOnly: 17, BaselineOnly: 29, P: 0.1}, false},
-		{cnn.BaselineTest{CNNOnly: 20, BaselineOnly: 5, P: 0.0041}, false},
+		{"ahead", true, cnn.TrainConfig{}, ahead, "retrain with telltale train --wide-fit (", "--class-weight balanced"},
+		{"not significant", true, cnn.TrainConfig{}, &cnn.BaselineTest{CNNOnly: 17, BaselineOnly: 29, P: 0.1}, "", ""},
+		{"the CNN ahead", true, cnn.TrainConfig{}, &cnn.BaselineTest{CNNOnly: 20, BaselineOnly: 5, P: 0.0041}, "", ""},
+		{"no baseline", true, cnn.TrainConfig{}, nil, "", ""},
+		{"fitted start already", true, cnn.TrainConfig{WideFit: true}, ahead, "retrain with telltale train --class-weight balanced (", ""},
+		{"no word weights", false, cnn.TrainConfig{}, ahead, "retrain with telltale train --wide --wide-fit (", ""},
 	} {
-		f := cnn.FiguresOf(m, nil)
-		f.Baseline, f.McNemar = &f.CNN, &c.test
-		var b strings.Builder
-		writeFigures(&b, "test split", f, nil)
-		if got := strings.Contains(b.String(), "the baseline is ahead here; where the default recipe trails it, try train --wide-fit"); got != c.want {
-			t.Errorf("%+v: advice %v, want %v:\n%s", c.test, got, c.want, b.String())
+		m := &cnn.Model{Config: cnn.Config{Wide: c.wide}, Info: cnn.Info{Recipe: &c.recipe}}
+		got := baselineAdvice(m, c.test)
+		if c.want == "" {
+			if got != "" {
+				t.Errorf("%s: %q, want no line", c.name, got)
+			}
+			continue
+		}
+		if !strings.HasPrefix(got, "the baseline is ahead here: ") || !strings.Contains(got, c.want) || !strings.Contains(got, c.want2) ||
+			!strings.HasSuffix(got, "and read the cue audit beside the result (README, \"The default recipe\")\n") {
+			t.Errorf("%s: %q, want it to hold %q and %q", c.name, got, c.want, c.want2)
 		}
 	}
 }

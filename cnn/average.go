@@ -2,9 +2,10 @@ package cnn
 
 import "math"
 
-// maxAverageEpochs is the longest horizon TrainConfig.WeightAverage takes:
-// far beyond any run, and short enough that the decay per step stays below
-// 1 in float64 for any split (a decay of 1 would leave the average empty).
+// maxAverageEpochs is the longest horizon TrainConfig.WeightAverage takes
+// (a million epochs): far beyond any run, and short enough that the decay
+// per step stays below 1 in float64 for any split (at a decay of 1 the bias
+// correction divides by zero and every averaged weight is NaN).
 const maxAverageEpochs = 1e6
 
 // weightAverage is the exponential moving average of a model's weights over

@@ -254,3 +254,31 @@ func TestBaselineAhead(t *testing.T) {
 		}
 	}
 }
+
+// BaselineRemedies: nothing where the baseline is not ahead; otherwise the
+// fitted start and the balanced class weight, less what the recorded
+// recipe already has; both for a model without a recipe.
+func TestBaselineRemedies(t *testing.T) {
+	ahead := BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041}
+	cnnAhead := BaselineTest{CNNOnly: 20, BaselineOnly: 5, P: 0.0041}
+	for _, c := range []struct {
+		name string
+		wide bool
+		r    *TrainConfig
+		t    BaselineTest
+		want []Remedy
+	}{
+		{"default recipe", true, &TrainConfig{}, ahead, []Remedy{RemedyWideFit, RemedyClassWeight}},
+		{"no recipe recorded", true, nil, ahead, []Remedy{RemedyWideFit, RemedyClassWeight}},
+		{"the fitted start already", true, &TrainConfig{WideFit: true}, ahead, []Remedy{RemedyClassWeight}},
+		{"balanced already", true, &TrainConfig{ClassWeight: "balanced"}, ahead, []Remedy{RemedyWideFit}},
+		{"both already", true, &TrainConfig{WideFit: true, ClassWeight: "balanced"}, ahead, nil},
+		{"no word weights", false, &TrainConfig{}, ahead, []Remedy{RemedyWideFit, RemedyClassWeight}},
+		{"the CNN ahead", true, &TrainConfig{}, cnnAhead, nil},
+	} {
+		m := &Model{Config: Config{Wide: c.wide}, Info: Info{Recipe: c.r}}
+		if got := BaselineRemedies(m, c.t); !slices.Equal(got, c.want) {
+			t.Errorf("%s: %v, want %v", c.name, got, c.want)
+		}
+	}
+}

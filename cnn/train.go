@@ -260,7 +260,7 @@ func (tc TrainConfig) WithDefaults() (TrainConfig, error) {
 func (tc TrainConfig) checkWeightAverage() error {
 	switch {
 	case !(tc.WeightAverage >= 0 && tc.WeightAverage <= maxAverageEpochs):
-		return fmt.Errorf("cnn: moving average over %g epochs: must be 0 (off) or positive, at most %g epochs", tc.WeightAverage, float64(maxAverageEpochs))
+		return fmt.Errorf("cnn: moving average over %g epochs: must be 0 (off) or positive, at most a million epochs", tc.WeightAverage)
 	case tc.WeightAverage > 0 && tc.AverageLast >= 2:
 		return fmt.Errorf("cnn: a moving average of the weights and an average of the last %d epochs: choose one", tc.AverageLast)
 	case tc.WeightAverage > 0 && tc.WideFitScale:

@@ -2,6 +2,7 @@ package gui
 
 import (
 	"fmt"
+	"strings"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
@@ -174,17 +175,30 @@ func figureLines(f cnn.Figures, m *cnn.Model) (head, beside string) {
 	}
 	beside = fmt.Sprintf("Linear baseline (%s): accuracy %s, macro-F1 %s. %s.",
 		c, f.Baseline.Accuracy, f.Baseline.MacroF1, capitalize(f.McNemar.Sentence()))
-	if f.McNemar.BaselineAhead() {
-		beside += " " + baselineAheadAdvice
-	}
-	return head, beside
+	return head, beside + baselineAdvice(m, *f.McNemar)
 }
 
-// baselineAheadAdvice is what the Results view says where the linear
-// baseline is significantly ahead of the CNN (cnn.BaselineTest.BaselineAhead),
-// in the words of the Training view's form.
-const baselineAheadAdvice = "The baseline is ahead here. Where the default recipe trails it, try Word weights' start " +
-	"\"fitted linear model\" in Training or, with unbalanced labels, Class weight \"balanced\", and read the cue audit beside the result."
+// baselineAdvice words cnn.BaselineRemedies of m in the Training form's
+// words, as a sentence that follows the McNemar test, or "" when the
+// baseline is not ahead or nothing is left to try.
+func baselineAdvice(m *cnn.Model, t cnn.BaselineTest) string {
+	var tries []string
+	for _, r := range cnn.BaselineRemedies(m, t) {
+		switch {
+		case r == cnn.RemedyWideFit && m.Config.Wide:
+			tries = append(tries, `Word weights' start "fitted linear model"`)
+		case r == cnn.RemedyWideFit:
+			tries = append(tries, `Word weights on and Word weights' start "fitted linear model"`)
+		case r == cnn.RemedyClassWeight:
+			tries = append(tries, `Class weight "balanced" (with unbalanced labels)`)
+		}
+	}
+	if len(tries) == 0 {
+		return ""
+	}
+	return " The baseline is ahead here: in Training, retrain with " + strings.Join(tries, " or ") +
+		", and read the cue audit beside the result."
+}
 
 // mostConfused is the off-diagonal cell with the most texts (the first
 // diagonal cell when there is none).

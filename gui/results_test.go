@@ -153,23 +153,31 @@ func TestFigureLinesWithoutBaseline(t *testing.T) {
 }
 
 // The line beside the headline says what to try, in the form's words,
-// where the baseline is significantly ahead (cnn.BaselineTest.BaselineAhead),
-// and only there.
+// where the baseline is significantly ahead (cnn.BaselineRemedies), and
+// only there; not the fitted start for a model that has it.
 func TestFigureLinesBaselineAhead(t *testing.T) {
 	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
-	model := &cnn.Model{Baseline: &linear.Model{Classifier: &linear.Classifier{C: 10}}}
+	ahead := cnn.BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041}
+	const fit, cw = `Word weights' start "fitted linear model"`, `Class weight "balanced"`
 	for _, c := range []struct {
-		test cnn.BaselineTest
-		want bool
+		name            string
+		recipe          cnn.TrainConfig
+		test            cnn.BaselineTest
+		wantFit, wantCW bool
 	}{
-		{cnn.BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041}, true},
-		{cnn.BaselineTest{CNNOnly: 17, BaselineOnly: 29, P: 0.1}, false},
+		{"ahead", cnn.TrainConfig{}, ahead, true, true},
+		{"not significant", cnn.TrainConfig{}, cnn.BaselineTest{CNNOnly: 17, BaselineOnly: 29, P: 0.1}, false, false},
+		{"the CNN ahead", cnn.TrainConfig{}, cnn.BaselineTest{CNNOnly: 20, BaselineOnly: 5, P: 0.0041}, false, false},
+		{"fitted start already", cnn.TrainConfig{WideFit: true}, ahead, false, true},
 	} {
+		model := &cnn.Model{Config: cnn.Config{Wide: true}, Info: cnn.Info{Recipe: &c.recipe},
+			Baseline: &linear.Model{Classifier: &linear.Classifier{C: 10}}}
 		f := cnn.FiguresOf(m, nil)
 		f.Baseline, f.McNemar = &f.CNN, &c.test
 		_, beside := figureLines(f, model)
-		if got := strings.Contains(beside, `Word weights' start "fitted linear model"`); got != c.want {
-			t.Errorf("%+v: advice %v, want %v: %q", c.test, got, c.want, beside)
+		if strings.Contains(beside, fit) != c.wantFit || strings.Contains(beside, cw) != c.wantCW ||
+			strings.Contains(beside, "The baseline is ahead here") != (c.wantFit || c.wantCW) {
+			t.Errorf("%s: %q; want the fitted start %v, the class weight %v", c.name, beside, c.wantFit, c.wantCW)
 		}
 	}
 }

@@ -238,18 +238,39 @@ func keepFrom(k, epochs int) string {
 	return fmt.Sprintf("%d (no earlier epoch)", min(k, epochs))
 }
 
-// fitC says how the fitted start's C (cnn.TrainConfig.WideFitC) was set:
-// fixed in the recipe, or chosen on the dev split (0).
 // mcnemarLine words the test between the CNN and the baseline, and where
-// the baseline is significantly ahead, what to try.
-func mcnemarLine(t cnn.BaselineTest) string {
+// the baseline is significantly ahead, what to try for m (BaselineAdvice).
+func mcnemarLine(m *cnn.Model, t cnn.BaselineTest) string {
 	sentence := t.Sentence()
 	line := strings.ToUpper(sentence[:1]) + sentence[1:] + "."
-	if t.BaselineAhead() {
-		line += " The baseline is ahead here. Where the default recipe trails it, retraining with telltale train --wide-fit (the word " +
-			"weights start at a fitted linear model) or, with unbalanced labels, --class-weight balanced may close the gap; read the cue audit beside the result."
+	if advice := BaselineAdvice(m, t); advice != "" {
+		line += " " + strings.ToUpper(advice[:1]) + advice[1:] + "."
 	}
 	return line
+}
+
+// BaselineAdvice words cnn.BaselineRemedies of m in telltale train's
+// options: "the baseline is ahead here: retrain with telltale train
+// --wide-fit (…) or --class-weight balanced (…), and read the cue audit
+// beside the result", or "" when the baseline is not ahead or nothing is
+// left to try. The report and the command line say it.
+func BaselineAdvice(m *cnn.Model, t cnn.BaselineTest) string {
+	var tries []string
+	for _, r := range cnn.BaselineRemedies(m, t) {
+		switch {
+		case r == cnn.RemedyWideFit && m.Config.Wide:
+			tries = append(tries, "--wide-fit (the word weights start at a fitted linear model)")
+		case r == cnn.RemedyWideFit:
+			tries = append(tries, "--wide --wide-fit (word weights, started at a fitted linear model)")
+		case r == cnn.RemedyClassWeight:
+			tries = append(tries, "--class-weight balanced (with unbalanced labels)")
+		}
+	}
+	if len(tries) == 0 {
+		return ""
+	}
+	return "the baseline is ahead here: retrain with telltale train " + strings.Join(tries, " or ") +
+		", and read the cue audit beside the result"
 }
 
 // shrunk names the factor of a shrunk fitted start (TrainConfig.WideFitShrink).
@@ -267,13 +288,19 @@ func averaged(r *cnn.TrainConfig) string {
 	case r == nil:
 		return ""
 	case r.WeightAverage > 0:
-		return fmt.Sprintf(" (their moving average over the steps, a horizon of %g epochs)", r.WeightAverage)
+		unit := "epochs"
+		if r.WeightAverage == 1 {
+			unit = "epoch"
+		}
+		return fmt.Sprintf(" (their moving average over the steps, a horizon of %g %s)", r.WeightAverage, unit)
 	case r.AverageLast >= 2:
 		return fmt.Sprintf(" (the mean of the weights at the ends of the last %d epochs)", r.AverageLast)
 	}
 	return ""
 }
 
+// fitC says how the fitted start's C (cnn.TrainConfig.WideFitC) was set:
+// fixed in the recipe, or chosen on the dev split (0).
 func fitC(c float64) string {
 	if c > 0 {
 		return fmt.Sprintf("C %g, fixed", c)
@@ -417,7 +444,7 @@ func metrics(in Input) (*metricsView, error) {
 	if fig.Baseline != nil {
 		mv.Figures = append(mv.Figures, figureRow{Model: "Linear baseline", Note: baselineNote(in.Model),
 			Accuracy: fig.Baseline.Accuracy.String(), MacroF1: fig.Baseline.MacroF1.String()})
-		mv.McNemar = mcnemarLine(*fig.McNemar)
+		mv.McNemar = mcnemarLine(in.Model, *fig.McNemar)
 	}
 	for i, c := range mt.PerClass {
 		ci := iv.PerClass[i]

@@ -337,7 +337,8 @@ func TestBaselineBesideTheCNN(t *testing.T) {
 		`<tr><td>Linear baseline<div class="small">TF-IDF n-grams + logistic regression, C = ` + strconv.FormatFloat(d.model.Baseline.Classifier.C, 'g', -1, 64) +
 			`, the middle of the grid: there was no dev split</div></td><td class="num">` +
 			f.Baseline.Accuracy.String() + `</td><td class="num">` + f.Baseline.MacroF1.String() + `</td></tr>`,
-		"<p class=\"mcnemar\">T" + sentence[1:] + ".</p>",
+		"<p class=\"mcnemar\">T" + sentence[1:] + ".",
+		"<p class=\"mcnemar\">" + mcnemarLine(d.model, *f.McNemar) + "</p>",
 		"Accuracy (95% interval)",
 	} {
 		if !strings.Contains(sec, w) {

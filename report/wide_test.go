@@ -329,6 +329,7 @@ func TestRecipeShrinkAndAverages(t *testing.T) {
 		{cnn.TrainConfig{WideFit: true}, "the logistic regression", "4"},
 		{cnn.TrainConfig{WideFit: true, WideFitShrink: 0.5}, "0.5 × the logistic regression", "4"},
 		{cnn.TrainConfig{WeightAverage: 2}, "", "4 (their moving average over the steps, a horizon of 2 epochs)"},
+		{cnn.TrainConfig{WeightAverage: 1}, "", "4 (their moving average over the steps, a horizon of 1 epoch)"},
 		{cnn.TrainConfig{AverageLast: 3}, "", "4 (the mean of the weights at the ends of the last 3 epochs)"},
 	} {
 		m := &cnn.Model{Config: cnn.Config{Widths: []int{3}, Wide: true}, Info: cnn.Info{Recipe: &c.tc, BestEpoch: 4}}
@@ -346,13 +347,18 @@ func TestRecipeShrinkAndAverages(t *testing.T) {
 }
 
 // The report's McNemar line says what to try where the baseline is
-// significantly ahead (cnn.BaselineTest.BaselineAhead), and only there.
+// significantly ahead (cnn.BaselineRemedies), and only there.
 func TestMcNemarLineBaselineAhead(t *testing.T) {
-	ahead := mcnemarLine(cnn.BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041})
-	level := mcnemarLine(cnn.BaselineTest{CNNOnly: 17, BaselineOnly: 29, P: 0.1})
-	const advice = "The baseline is ahead here. Where the default recipe trails it, retraining with telltale train --wide-fit"
-	if !strings.Contains(ahead, advice) || strings.Contains(level, advice) {
-		t.Errorf("ahead: %q\nnot significant: %q", ahead, level)
+	m := &cnn.Model{Config: cnn.Config{Wide: true}, Info: cnn.Info{Recipe: &cnn.TrainConfig{}}}
+	ahead := mcnemarLine(m, cnn.BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041})
+	level := mcnemarLine(m, cnn.BaselineTest{CNNOnly: 17, BaselineOnly: 29, P: 0.1})
+	cnnAhead := mcnemarLine(m, cnn.BaselineTest{CNNOnly: 20, BaselineOnly: 5, P: 0.0041})
+	const advice = "The baseline is ahead here: retrain with telltale train --wide-fit ("
+	if !strings.Contains(ahead, advice) || !strings.Contains(ahead, "--class-weight balanced") || !strings.HasSuffix(ahead, "beside the result.") {
+		t.Errorf("ahead: %q", ahead)
+	}
+	if strings.Contains(level, "ahead here") || strings.Contains(cnnAhead, "ahead here") {
+		t.Errorf("not significant: %q\nthe CNN ahead: %q", level, cnnAhead)
 	}
 	if !strings.HasPrefix(level, "The CNN is right on 17 texts") {
 		t.Errorf("the line does not open with the test: %q", level)
