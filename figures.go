@@ -101,10 +101,10 @@ func writeFigures(w io.Writer, heading string, f cnn.Figures, b *baselineJSON) {
 	fmt.Fprintf(w, "  %s\n", f.McNemar.Sentence())
 }
 
-// baselineAdvice is report.BaselineAdvice for the command line: the line
+// baselineAdvice is report.BaselineAdvice for the command line: the lines
 // train and eval print after the test split's figures where the linear
-// baseline is significantly ahead of the CNN, broken before "and read", or
-// "" (also when t is nil: no baseline).
+// baseline is significantly ahead of the CNN, broken after "or" and before
+// "and read", or "" (also when t is nil: no baseline).
 func baselineAdvice(m *cnn.Model, t *cnn.BaselineTest) string {
 	if t == nil {
 		return ""
@@ -113,5 +113,6 @@ func baselineAdvice(m *cnn.Model, t *cnn.BaselineTest) string {
 	if advice == "" {
 		return ""
 	}
+	advice = strings.Replace(advice, ") or --", ") or\n--", 1)
 	return strings.Replace(advice, ", and read", ",\nand read", 1) + " (README, \"The default recipe\")\n"
 }
