@@ -24,7 +24,8 @@ label, columns: predicted) and the expected calibration error over
 equal-width confidence bins, both with bootstrap intervals. When the model
 file carries the linear baseline train fits beside the CNN, the baseline's
 accuracy and macro-F1 are shown beside the CNN's, with the exact McNemar
-test between the two, as train shows them.
+test between the two, and what to try where the baseline is significantly
+ahead, as train shows them.
 
 The texts: with --test FILE, those. With --data FILE alone, when it holds the
 data the model was trained on, the test split train held out of it (or the test

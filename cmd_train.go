@@ -41,8 +41,10 @@ regression, its regularisation C chosen by macro-F1 on the dev split. The
 model file keeps it, and the test split shows both: accuracy with its 95%
 Wilson interval, macro-F1 with its 95% bootstrap interval over texts, and
 the exact McNemar test between the two (how many texts only the CNN labels
-right, how many only the baseline). eval, compare, report and the window
-show the same figures of a model file that carries a baseline.
+right, how many only the baseline). Where the baseline is significantly
+ahead (p < 0.05), a line after the figures says what to try (--wide-fit,
+--class-weight balanced). eval, compare, report and the window show the
+same figures of a model file that carries a baseline.
 
 With --vectors and no --dim the embedding dimension is the file's.
 --class-weight balanced weights each training text's loss by n/(k·n_c) (n
