@@ -97,23 +97,29 @@ func TestTrainWeightAverageDev(t *testing.T) {
 // last weights do (summed over the weights).
 func TestTrainKeepsTheWeightAverage(t *testing.T) {
 	train := toyData(3, 120, 30)
-	run := func(h float64) (*Model, [][]float32) {
+	run := func(h float64) (*Model, [][]float32, []float32) {
 		m := randModel(4, 30, 6, []int{2, 3}, 3, 2)
 		var ends [][]float32
+		var reported []float32 // Progress.Model of the last epoch
 		_, err := Train(context.Background(), m, train, Data{},
 			TrainConfig{Epochs: 4, Batch: 10, Seed: 2, Threads: 2, WeightAverage: h},
 			func(p Progress) {
 				if p.Phase == "epoch" {
 					ends = append(ends, flatWeights(m)) // the raw weights here
+					reported = flatWeights(p.Model)
 				}
 			})
 		if err != nil {
 			t.Fatal(err)
 		}
-		return m, ends
+		return m, ends, reported
 	}
-	raw, rawEnds := run(0)
-	avg, avgEnds := run(2)
+	raw, rawEnds, rawReported := run(0)
+	avg, avgEnds, avgReported := run(2)
+	// The epoch's model the progress reports is the one kept (no dev: the last).
+	if !slices.Equal(rawReported, flatWeights(raw)) || !slices.Equal(avgReported, flatWeights(avg)) {
+		t.Error("Progress.Model of the last epoch is not the model Train kept")
+	}
 	for e := range rawEnds {
 		if !slices.Equal(rawEnds[e], avgEnds[e]) {
 			t.Fatalf("epoch %d: the raw weights differ with the average on: it must only read them", e+1)

@@ -16,6 +16,7 @@ type selector struct {
 
 	avgSteps *weightAverage // the weights' moving average (WeightAverage); nil when off
 
+	cand      *Model // the model of the epoch that ended last
 	best      *Model
 	bestScore float64 // higher is better
 	bestLoss  float64 // the kept epoch's dev loss (StopMacroF1Loss's tie-break)
@@ -50,6 +51,7 @@ func (s *selector) epochEnd(m *Model) (*Metrics, bool, error) {
 		s.avg = meanWeights(s.avg, s.ring)
 		cand = s.avg
 	}
+	s.cand = cand
 	if s.dev.Len() == 0 {
 		s.best = copyWeights(s.best, cand)
 		return nil, true, nil

@@ -366,6 +366,11 @@ type Progress struct {
 	Dev            *Metrics // set on the report at the end of an epoch when there is a dev split
 	ExamplesPerSec float64  // throughput of the epoch so far
 	Phase          string   // "train" during an epoch, "epoch" at its end, "done" at the very end
+	// Model, on the "epoch" report, is the epoch's model: the one the dev
+	// split scored (with WeightAverage or AverageLast an average). It is
+	// valid only during the call and must not be changed or kept; nil on
+	// the other reports.
+	Model *Model
 }
 
 // progressEvery is how many batches pass between progress reports.
@@ -475,7 +480,7 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 		}
 		if progress != nil {
 			progress(Progress{Epoch: epoch, Epochs: tc.Epochs, Batch: len(batches), Batches: len(batches),
-				Loss: er.Loss, Dev: er.Dev, ExamplesPerSec: er.ExamplesPerSec, Phase: "epoch"})
+				Loss: er.Loss, Dev: er.Dev, ExamplesPerSec: er.ExamplesPerSec, Phase: "epoch", Model: sel.cand})
 		}
 		// Patience counts from the end of the head warm-up and from
 		// KeepFrom at the earliest: the warm-up must not end a run whose

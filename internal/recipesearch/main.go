@@ -22,6 +22,10 @@
 // -corpus reviews-skew is the reviews with two in five negative sentences
 // kept (about 70% positive), for labels that are not balanced.
 //
+// With -halves each row also scores the CNN's choice of epoch (and with
+// -baseline the baseline's choice of C) cross-fitted over two halves of the
+// dev split (halves.go).
+//
 // With -baseline -stack each row also scores the CNN and the baseline
 // joined by stacking (stack.go). -dump-text DIR writes a corpus's splits
 // as JSON lines for the PyTorch pooling prototype (pooling.py) or for
@@ -55,6 +59,7 @@ func main() {
 	baseline := flag.Bool("baseline", false, "fit the linear baseline too")
 	withTest := flag.Bool("test", false, "also evaluate on the test split (only to check a choice already made)")
 	stack := flag.Bool("stack", false, "with -baseline: also score the CNN and the baseline joined by stacking (stack.go)")
+	halvesFlag := flag.Bool("halves", false, "also score the CNN's epoch choice (and with -baseline the baseline's C) cross-fitted over two halves of the dev split (halves.go)")
 	dumpText := flag.String("dump-text", "", "write the splits as JSON lines (text, label) into this folder and stop, for pooling.py (the reviews: one set per rotation)")
 	flag.Parse()
 	rotations, err := loadRotations(root(), *which, *withTest)
@@ -91,7 +96,7 @@ func main() {
 				r.Baseline = &c
 			}
 			for _, rot := range rotations {
-				row, err := measure(rot.name, strings.Trim(*base+"+"+name, "+"), r, rot.splits, *stack)
+				row, err := measure(rot.name, strings.Trim(*base+"+"+name, "+"), r, rot.splits, *stack, *halvesFlag)
 				if err != nil {
 					log.Fatal(err)
 				}
@@ -118,9 +123,13 @@ func candidate(base, name string) (cnn.Recipe, error) {
 }
 
 // measure trains r on the splits and returns the table row.
-func measure(which, name string, r cnn.Recipe, sp splits, stack bool) (string, error) {
+func measure(which, name string, r cnn.Recipe, sp splits, stack, halved bool) (string, error) {
 	start := time.Now()
-	tr, err := cnn.TrainText(context.Background(), sp.train, sp.dev, r, nil)
+	ep, err := newEpochPredictions(halved, r, sp)
+	if err != nil {
+		return "", err
+	}
+	tr, err := cnn.TrainText(context.Background(), sp.train, sp.dev, r, ep.progressFunc())
 	if err != nil {
 		return "", err
 	}
@@ -168,6 +177,13 @@ func measure(which, name string, r cnn.Recipe, sp splits, stack bool) (string, e
 		}
 		row += cells
 	}
+	if halved {
+		cells, err := halvesCells(context.Background(), r, m, sp, ep)
+		if err != nil {
+			return "", err
+		}
+		row += cells
+	}
 	if stack && m.Baseline != nil {
 		cells, err := stackCells(m, enc, sp, r.Train.MaxLen, r.Train.Threads)
 		if err != nil {
@@ -176,28 +192,38 @@ func measure(which, name string, r cnn.Recipe, sp splits, stack bool) (string, e
 		row += cells
 	}
 	if sp.test != nil {
-		if m.Baseline != nil {
-			cmp, err := cnn.CompareBaseline(m, sp.test, r.Train.Threads)
-			if err != nil {
-				return "", err
-			}
-			// The discordant counts let rotations be pooled into one exact McNemar test.
-			row += fmt.Sprintf(" test %.4f / %.4f | baseline %.4f / %.4f | McNemar p %.3g (only CNN %d, only baseline %d) |",
-				cmp.CNN.Accuracy, cmp.CNN.MacroF1, cmp.Baseline.Accuracy, cmp.Baseline.MacroF1, cmp.McNemar.P,
-				cmp.McNemar.OnlyA, cmp.McNemar.OnlyB)
-		} else {
-			td, err := cnn.EncodeDataset(enc, sp.test, m.Labels, r.Train.Threads)
-			if err != nil {
-				return "", err
-			}
-			mt, _, err := cnn.Evaluate(m, td, r.Train.Threads)
-			if err != nil {
-				return "", err
-			}
-			row += fmt.Sprintf(" test %.4f / %.4f |", mt.Accuracy, mt.MacroF1)
+		cells, err := testCells(m, enc, sp.test, r.Train.Threads)
+		if err != nil {
+			return "", err
 		}
+		row += cells
 	}
 	return row, nil
+}
+
+// testCells is the row's cells of the test split (read only with -test):
+// the CNN's accuracy and macro-F1 and, when m carries a baseline, the
+// baseline's and the exact McNemar test between the two.
+func testCells(m *cnn.Model, enc *corpus.Encoder, test *corpus.Dataset, threads int) (string, error) {
+	if m.Baseline != nil {
+		cmp, err := cnn.CompareBaseline(m, test, threads)
+		if err != nil {
+			return "", err
+		}
+		// The discordant counts let rotations be pooled into one exact McNemar test.
+		return fmt.Sprintf(" test %.4f / %.4f | baseline %.4f / %.4f | McNemar p %.3g (only CNN %d, only baseline %d) |",
+			cmp.CNN.Accuracy, cmp.CNN.MacroF1, cmp.Baseline.Accuracy, cmp.Baseline.MacroF1, cmp.McNemar.P,
+			cmp.McNemar.OnlyA, cmp.McNemar.OnlyB), nil
+	}
+	td, err := cnn.EncodeDataset(enc, test, m.Labels, threads)
+	if err != nil {
+		return "", err
+	}
+	mt, _, err := cnn.Evaluate(m, td, threads)
+	if err != nil {
+		return "", err
+	}
+	return fmt.Sprintf(" test %.4f / %.4f |", mt.Accuracy, mt.MacroF1), nil
 }
 
 // meanLoss is the mean cross-entropy of m on d.
