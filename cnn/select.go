@@ -102,28 +102,17 @@ func meanWeights(dst *Model, srcs []*Model) *Model {
 		dst = srcs[0].Clone()
 	}
 	inv := 1 / float32(len(srcs))
-	mean := func(out []float32, get func(*Model) []float32) {
-		clear(out)
+	out := trainableSlices(dst)
+	for i, o := range out {
+		clear(o)
 		for _, s := range srcs {
-			addTo(out, get(s))
+			addTo(o, trainableSlices(s)[i])
 		}
-		for i := range out {
-			out[i] *= inv
+		for j := range o {
+			o[j] *= inv
 		}
 	}
-	mean(dst.Emb, func(s *Model) []float32 { return s.Emb })
-	for b := range dst.Convs {
-		mean(dst.Convs[b].W, func(s *Model) []float32 { return s.Convs[b].W })
-		mean(dst.Convs[b].B, func(s *Model) []float32 { return s.Convs[b].B })
-	}
-	mean(dst.OutW, func(s *Model) []float32 { return s.OutW })
-	mean(dst.OutB, func(s *Model) []float32 { return s.OutB })
-	mean(dst.Wide, func(s *Model) []float32 { return s.Wide })
-	mean(dst.WideBigram, func(s *Model) []float32 { return s.WideBigram })
 	if dst.Char != nil {
-		mean(dst.Char.Emb, func(s *Model) []float32 { return s.Char.Emb })
-		mean(dst.Char.W, func(s *Model) []float32 { return s.Char.W })
-		mean(dst.Char.B, func(s *Model) []float32 { return s.Char.B })
 		// The mean of character parts is not the character part of the
 		// mean layer (tanh, max): recompute it.
 		dst.FillChars()

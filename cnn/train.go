@@ -602,22 +602,14 @@ func (r *trainRun) finish(sel *selector) {
 
 // finiteWeights reports whether every trainable weight of m is a finite number.
 func finiteWeights(m *Model) bool {
-	finite := func(xs []float32) bool {
+	for _, xs := range trainableSlices(m) {
 		for _, x := range xs {
 			if f := float64(x); math.IsNaN(f) || math.IsInf(f, 0) {
 				return false
 			}
 		}
-		return true
 	}
-	ok := finite(m.Emb) && finite(m.OutW) && finite(m.OutB) && finite(m.Wide) && finite(m.WideBigram)
-	if l := m.Char; l != nil {
-		ok = ok && finite(l.Emb) && finite(l.W) && finite(l.B)
-	}
-	for _, c := range m.Convs {
-		ok = ok && finite(c.W) && finite(c.B)
-	}
-	return ok
+	return true
 }
 
 // Truncate returns d with every text cut to at most n tokens (n ≤ 0 keeps
@@ -662,19 +654,9 @@ func copyWeights(dst, src *Model) *Model {
 	if dst == nil {
 		return src.Clone()
 	}
-	copy(dst.Emb, src.Emb)
-	for b := range src.Convs {
-		copy(dst.Convs[b].W, src.Convs[b].W)
-		copy(dst.Convs[b].B, src.Convs[b].B)
-	}
-	copy(dst.OutW, src.OutW)
-	copy(dst.OutB, src.OutB)
-	copy(dst.Wide, src.Wide)
-	copy(dst.WideBigram, src.WideBigram)
-	if src.Char != nil {
-		copy(dst.Char.Emb, src.Char.Emb)
-		copy(dst.Char.W, src.Char.W)
-		copy(dst.Char.B, src.Char.B)
+	to := trainableSlices(dst)
+	for i, s := range trainableSlices(src) {
+		copy(to[i], s)
 	}
 	return dst
 }

@@ -30,6 +30,7 @@ const halvesSeed = 20261205
 // dev split (Progress.Model), encoded and cut as TrainText encodes and
 // Train cuts it.
 type epochPredictions struct {
+	enc     *corpus.Encoder // TrainText's, built the same way
 	dev     cnn.Data
 	threads int
 	preds   [][]int // per epoch, per dev text
@@ -52,7 +53,7 @@ func newEpochPredictions(on bool, r cnn.Recipe, sp splits) (*epochPredictions, e
 	if err != nil {
 		return nil, err
 	}
-	return &epochPredictions{dev: dev.Truncate(r.Train.MaxLen), threads: r.Train.Threads}, nil
+	return &epochPredictions{enc: enc, dev: dev.Truncate(r.Train.MaxLen), threads: r.Train.Threads}, nil
 }
 
 // progressFunc is TrainText's progress function: nil for a nil e (no
@@ -113,13 +114,9 @@ func crossFitted(labels []string, gold []int, preds [][]int) float64 {
 
 // baselinePredictions fits the baseline of r on sp's training split at
 // each C of its grid and returns each fit's predictions on the dev split,
-// the tokens as the pipeline gives them (the tokenizer's words, cut to the
-// training length).
-func baselinePredictions(ctx context.Context, r cnn.Recipe, sp splits) ([][]int, error) {
-	enc, err := corpus.TrainEncoder(r.Tokenizer, sp.train.Texts())
-	if err != nil {
-		return nil, err
-	}
+// the tokens as the pipeline gives them (enc's words, cut to the training
+// length).
+func baselinePredictions(ctx context.Context, r cnn.Recipe, sp splits, enc *corpus.Encoder) ([][]int, error) {
 	docs := func(ds *corpus.Dataset) [][]string {
 		out := make([][]string, len(ds.Examples))
 		for i, text := range ds.Texts() {
@@ -171,7 +168,7 @@ func halvesCells(ctx context.Context, r cnn.Recipe, m *cnn.Model, sp splits, e *
 	}
 	cell := fmt.Sprintf(" halves: CNN %.4f", crossFitted(labels, gold, e.preds))
 	if r.Baseline != nil && m.Baseline != nil {
-		bp, err := baselinePredictions(ctx, r, sp)
+		bp, err := baselinePredictions(ctx, r, sp, e.enc)
 		if err != nil {
 			return "", err
 		}
