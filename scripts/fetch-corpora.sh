@@ -12,7 +12,11 @@
 #   testdata/reviews/       1,000 product-review sentences labeled 0/1, the Amazon
 #                           part of "Sentiment Labelled Sentences" (Kotzias et al.
 #                           2015), as wink-sentiment 5.0.2 ships it in
-#                           test/data/amazon_cells_labelled.txt
+#                           test/data/amazon_cells_labelled.txt; and the set's
+#                           other two sources, Yelp and IMDb sentences, as the
+#                           package sentiment 5.0.2 ships them in
+#                           test/fixtures/yelp.json and imdb.json (JSON arrays of
+#                           {"text", "class"}; their Amazon part is the same)
 set -euo pipefail
 cd "$(dirname "$0")/.."
 # npm may come with Node.js from elsewhere; install Debian's only when absent.
@@ -49,4 +53,15 @@ if [ ! -f testdata/reviews/amazon_cells_labelled.txt ]; then
   tar -xzf "$tmp"/wink-sentiment-5.0.2.tgz -C "$tmp" package/test/data/amazon_cells_labelled.txt
   cp "$tmp"/package/test/data/amazon_cells_labelled.txt testdata/reviews/amazon_cells_labelled.txt.part
   mv testdata/reviews/amazon_cells_labelled.txt.part testdata/reviews/amazon_cells_labelled.txt
+fi
+if [ ! -f testdata/reviews/imdb.json ]; then
+  (cd "$tmp" && npm pack --silent sentiment@5.0.2 >/dev/null)
+  mkdir -p testdata/reviews
+  tar -xzf "$tmp"/sentiment-5.0.2.tgz -C "$tmp" package/test/fixtures/yelp.json package/test/fixtures/imdb.json
+  for f in yelp imdb; do
+    cp "$tmp"/package/test/fixtures/$f.json testdata/reviews/$f.json.part
+  done
+  # imdb.json last: its presence says both are complete.
+  mv testdata/reviews/yelp.json.part testdata/reviews/yelp.json
+  mv testdata/reviews/imdb.json.part testdata/reviews/imdb.json
 fi

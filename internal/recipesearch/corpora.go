@@ -52,27 +52,39 @@ func load(root, which string, withTest bool) (splits, error) {
 	case "sotu":
 		return loadSOTU(filepath.Join(td, "sotu"), withTest)
 	}
-	return sp, fmt.Errorf("corpus %q: use demo, spam, sotu or reviews", which)
+	return sp, fmt.Errorf("corpus %q: use demo, spam, sotu, reviews, reviews-skew, reviews3 or reviews3-skew", which)
 }
 
 // loadRotations returns the corpus's one rotation, or for the reviews
 // (internal/reviewset) its ten cross-validation rotations: every text is
-// in one rotation's dev split and in another's test split.
+// in one rotation's dev split and in another's test split. "reviews" is
+// the Amazon sentences, "reviews3" the Amazon, Yelp and IMDb sentences
+// cut source by source; "-skew" keeps two in five negative ones (skewed).
 func loadRotations(root, which string, withTest bool) ([]rotation, error) {
-	if which != "reviews" && which != "reviews-skew" {
+	var srcs []*corpus.Dataset
+	var err error
+	switch strings.TrimSuffix(which, "-skew") {
+	case "reviews":
+		var d *corpus.Dataset
+		d, err = reviewset.LoadUnder(root)
+		srcs = []*corpus.Dataset{d}
+	case "reviews3":
+		srcs, err = reviewset.LoadThreeUnder(root)
+	default:
 		sp, err := load(root, which, withTest)
 		return []rotation{{which, sp}}, err
 	}
-	d, err := reviewset.LoadUnder(root)
 	if err != nil {
 		return nil, err
 	}
-	if which == "reviews-skew" {
-		d = skewed(d)
+	if strings.HasSuffix(which, "-skew") {
+		for i, d := range srcs {
+			srcs[i] = skewed(d)
+		}
 	}
 	var out []rotation
 	for k := range reviewset.Folds {
-		tr, dev, te := reviewset.Splits(d, k)
+		tr, dev, te := reviewset.SplitsOfSources(srcs, k)
 		if !withTest {
 			te = nil
 		}

@@ -3,6 +3,7 @@ package reviewset
 import (
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -65,4 +66,80 @@ func lines(es []corpus.Example) []int {
 		out[i] = e.Line
 	}
 	return out
+}
+
+// TestLoadThree reads the three sources as published: 500 sentences of
+// each label in each (the counts the UCI page gives, from memory), and
+// every rotation of the joined set partitions them into 2,400 / 300 / 300
+// with each source in its share (800 / 100 / 100).
+func TestLoadThree(t *testing.T) {
+	testref.Corpus(t, "reviews", "imdb.json")
+	srcs, err := LoadThreeUnder(testref.Root())
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i, d := range srcs {
+		if c := d.Counts(); c["negative"] != 500 || c["positive"] != 500 {
+			t.Fatalf("source %d: counts %v, want 500 of each label", i, c)
+		}
+	}
+	for k := range Folds {
+		tr, dev, te := SplitsOfSources(srcs, k)
+		if len(tr.Examples) != 2400 || len(dev.Examples) != 300 || len(te.Examples) != 300 {
+			t.Errorf("rotation %d: %d / %d / %d texts, want 2,400 / 300 / 300", k, len(tr.Examples), len(dev.Examples), len(te.Examples))
+		}
+		// Each joined split is the sources' own splits, one after the
+		// other, each 800 / 100 / 100 and disjoint (as TestLoad checks).
+		var wantTr, wantDev, wantTe []corpus.Example
+		for i, d := range srcs {
+			str, sdev, ste := Splits(d, k)
+			if len(str.Examples) != 800 || len(sdev.Examples) != 100 || len(ste.Examples) != 100 {
+				t.Errorf("rotation %d, source %d: %d / %d / %d texts, want 800 / 100 / 100", k, i, len(str.Examples), len(sdev.Examples), len(ste.Examples))
+			}
+			seen := map[int]bool{}
+			for _, part := range [][]int{lines(str.Examples), lines(sdev.Examples), lines(ste.Examples)} {
+				for _, l := range part {
+					if seen[l] {
+						t.Fatalf("rotation %d, source %d: record %d in two splits", k, i, l)
+					}
+					seen[l] = true
+				}
+			}
+			wantTr, wantDev, wantTe = append(wantTr, str.Examples...), append(wantDev, sdev.Examples...), append(wantTe, ste.Examples...)
+		}
+		if !slices.Equal(tr.Examples, wantTr) || !slices.Equal(dev.Examples, wantDev) || !slices.Equal(te.Examples, wantTe) {
+			t.Errorf("rotation %d: the joined splits are not the sources' splits in order", k)
+		}
+	}
+}
+
+// TestLoadJSONRejects: a record without text, or with a class other than
+// 0 or 1, is refused, naming the file and the record; an empty record is
+// skipped.
+func TestLoadJSONRejects(t *testing.T) {
+	for _, c := range []struct {
+		body, want string
+		n          int
+	}{
+		{`[{"text":"good phone","class":1},{"text":"","class":null}]`, "", 1},
+		{`[{"text":"good phone","class":1},{"text":" ","class":0}]`, ": record 2: no text", 0},
+		{`[{"text":"good phone","class":2}]`, ": record 1: class must be 0 or 1", 0},
+		{`[{"text":"good phone"}]`, ": record 1: class must be 0 or 1", 0},
+		{`{"text":"good phone"}`, ": json: cannot unmarshal", 0},
+	} {
+		p := filepath.Join(t.TempDir(), "s.json")
+		if err := os.WriteFile(p, []byte(c.body), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		d, err := LoadJSON(p)
+		if c.want == "" {
+			if err != nil || len(d.Examples) != c.n {
+				t.Errorf("%s: %v, want %d texts", c.body, err, c.n)
+			}
+			continue
+		}
+		if err == nil || !strings.Contains(err.Error(), p+c.want) {
+			t.Errorf("%s: error %v, want %q", c.body, err, p+c.want)
+		}
+	}
 }
