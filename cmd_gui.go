@@ -99,6 +99,16 @@ func runGUI(ctx context.Context, env *runEnv, o *guiOptions) error {
 	return nil
 }
 
+// declareUIRunner tells the toolkit, before the app is made, that the
+// window changes its widgets only on the UI goroutine (gui.State's UI
+// runner is fyne.Do), so the toolkit need not check the calling goroutine
+// on every refresh; that check parses a goroutine stack each time. The
+// name keeps the toolkit from reading a FyneApp.toml found beside the
+// binary, which would replace this metadata.
+func declareUIRunner() {
+	app.SetMetadata(fyne.AppMetadata{Name: "telltale", Migrations: map[string]bool{"fyneDo": true}})
+}
+
 // windowAppID is what the window's app reports as its UniqueID.
 const windowAppID = "org.telltale.app"
 
@@ -117,6 +127,7 @@ func newWindowApp(stderr io.Writer) fyne.App {
 		path = filepath.Join(dir, "telltale", "preferences.json")
 	}
 	var saveFailed sync.Once
+	declareUIRunner()
 	a, err := gui.WithStoredPreferences(app.NewWithID(""), windowAppID, path, func(err error) {
 		saveFailed.Do(func() {
 			fmt.Fprintf(stderr, "telltale gui: could not save the window's preferences to %s (%v); "+
