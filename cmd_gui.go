@@ -104,10 +104,19 @@ func runGUI(ctx context.Context, env *runEnv, o *guiOptions) error {
 // runner is fyne.Do), so the toolkit need not check the calling goroutine
 // on every refresh; that check parses a goroutine stack each time. The
 // name keeps the toolkit from reading a FyneApp.toml found beside the
-// binary, which would replace this metadata.
+// binary, which would replace this metadata. With threadChecksEnv set
+// (scripts/soak.sh sets it) the checks stay on, and the toolkit logs any
+// call from another goroutine.
 func declareUIRunner() {
+	if os.Getenv(threadChecksEnv) != "" {
+		return
+	}
 	app.SetMetadata(fyne.AppMetadata{Name: "telltale", Migrations: map[string]bool{"fyneDo": true}})
 }
+
+// threadChecksEnv names the variable that keeps the toolkit's thread
+// checks on (declareUIRunner).
+const threadChecksEnv = "TELLTALE_FYNE_THREAD_CHECKS"
 
 // windowAppID is what the window's app reports as its UniqueID.
 const windowAppID = "org.telltale.app"

@@ -131,7 +131,8 @@ func (st *State) trainWork(ctx context.Context, report reporter, run *trainRun, 
 				pr.Epoch, pr.Epochs, pr.Batch, pr.Batches, pr.Loss, pr.ExamplesPerSec))
 		}
 		if run.add(pr) {
-			st.ui(func() { st.trainingView.redraw(run) })
+			// toUI, not ui: once the window has closed nothing is redrawn.
+			st.tasks.toUI(func() { st.trainingView.redraw(run) })
 		}
 	})
 	if err != nil {

@@ -54,14 +54,13 @@ if [ ! -f testdata/reviews/amazon_cells_labelled.txt ]; then
   cp "$tmp"/package/test/data/amazon_cells_labelled.txt testdata/reviews/amazon_cells_labelled.txt.part
   mv testdata/reviews/amazon_cells_labelled.txt.part testdata/reviews/amazon_cells_labelled.txt
 fi
-if [ ! -f testdata/reviews/imdb.json ]; then
+if [ ! -f testdata/reviews/yelp.json ] || [ ! -f testdata/reviews/imdb.json ]; then
   (cd "$tmp" && npm pack --silent sentiment@5.0.2 >/dev/null)
   mkdir -p testdata/reviews
   tar -xzf "$tmp"/sentiment-5.0.2.tgz -C "$tmp" package/test/fixtures/yelp.json package/test/fixtures/imdb.json
   for f in yelp imdb; do
     cp "$tmp"/package/test/fixtures/$f.json testdata/reviews/$f.json.part
   done
-  # imdb.json last: its presence says both are complete.
   mv testdata/reviews/yelp.json.part testdata/reviews/yelp.json
   mv testdata/reviews/imdb.json.part testdata/reviews/imdb.json
 fi

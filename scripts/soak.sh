@@ -33,6 +33,10 @@ limit=${SOAK_LIMIT:-15}
 size=1366x900
 export LANG=en_US.UTF-8
 export XDG_CONFIG_HOME=$tmp/config
+# The toolkit's thread checks on (off in the window otherwise, cmd_gui.go's
+# declareUIRunner), so that a call to it from another goroutine is logged
+# and fails the check below.
+export TELLTALE_FYNE_THREAD_CHECKS=1
 # The user's folders, as a desktop session defines them: without them the
 # toolkit's file dialog logs an error about the machine ("does not define a
 # VIDEOS folder", fyne v2.7.1 dialog/file_xdg.go), which is not the window's.

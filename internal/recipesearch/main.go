@@ -21,8 +21,9 @@
 // demo's test split, and the baseline beside it with -baseline.
 // -corpus reviews-skew is the reviews with two in five negative sentences
 // kept (about 70% positive), for labels that are not balanced.
-// -corpus reviews3 (and reviews3-skew) adds the set's Yelp and IMDb
-// sentences: 2,400 training, 300 dev and 300 test texts per rotation.
+// -corpus reviews3 adds the set's Yelp and IMDb sentences (2,400
+// training, 300 dev and 300 test texts per rotation); reviews3-skew skews
+// each source the same way (about 1,696 / 212 / 212).
 //
 // With -halves each row also scores the CNN's choice of epoch (and with
 // -baseline the baseline's choice of C) cross-fitted over two halves of the

@@ -89,33 +89,43 @@ const (
 )
 
 // LoadJSON reads one source shipped as a JSON array of {"text", "class"}
-// records, class 0 (negative) or 1 (positive). A record with neither text
-// nor class (the files end with one) is skipped. Line is the record's
-// number in the array, from 1.
+// records, class 0 (negative) or 1 (positive). The files end with a record
+// with neither text nor class, which is skipped; anywhere else such a
+// record is an error. Line is the record's number in the array, from 1.
 func LoadJSON(path string) (*corpus.Dataset, error) {
 	b, err := os.ReadFile(path)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w (run `make corpora`)", path, err)
 	}
-	var recs []struct {
-		Text  string `json:"text"`
-		Class *int   `json:"class"`
-	}
+	const fix = "delete it and run `make corpora` to fetch it as sentiment 5.0.2 ships it"
+	var recs []json.RawMessage
 	if err := json.Unmarshal(b, &recs); err != nil {
-		return nil, fmt.Errorf("%s: %w: want a JSON array of {\"text\", \"class\"} records", path, err)
+		return nil, fmt.Errorf("%s: %w: want a JSON array of {\"text\", \"class\"} records; %s", path, err, fix)
 	}
 	d := &corpus.Dataset{Path: path, Labels: []string{"negative", "positive"}}
-	for i, r := range recs {
+	for i, raw := range recs {
+		var r struct {
+			Text  string `json:"text"`
+			Class *int   `json:"class"`
+		}
+		if err := json.Unmarshal(raw, &r); err != nil {
+			return nil, fmt.Errorf("%s: record %d: %w; %s", path, i+1, err, fix)
+		}
 		text := strings.TrimSpace(r.Text)
 		switch {
-		case text == "" && r.Class == nil:
+		case text == "" && r.Class == nil && i == len(recs)-1:
 			continue
 		case text == "":
-			return nil, fmt.Errorf("%s: record %d: no text", path, i+1)
-		case r.Class == nil || (*r.Class != 0 && *r.Class != 1):
-			return nil, fmt.Errorf("%s: record %d: class must be 0 or 1", path, i+1)
+			return nil, fmt.Errorf("%s: record %d: no text; %s", path, i+1, fix)
+		case r.Class == nil:
+			return nil, fmt.Errorf("%s: record %d: no class; want 0 or 1; %s", path, i+1, fix)
+		case *r.Class != 0 && *r.Class != 1:
+			return nil, fmt.Errorf("%s: record %d: class %d; want 0 or 1; %s", path, i+1, *r.Class, fix)
 		}
 		d.Examples = append(d.Examples, corpus.Example{Text: text, Label: d.Labels[*r.Class], Line: i + 1})
+	}
+	if len(d.Examples) == 0 {
+		return nil, fmt.Errorf("%s: no record with text and class; %s", path, fix)
 	}
 	return d, nil
 }
@@ -140,12 +150,19 @@ func LoadThreeUnder(root string) ([]*corpus.Dataset, error) {
 
 // SplitsOfSources returns rotation k (0 ≤ k < Folds) of a set made of
 // several sources: each source's rotation k (Splits), joined in the order
-// given, so that every split holds each source in its share.
+// given, so that every split holds each source in its share. With one
+// source it is Splits; with several, each split's Path is the first
+// source's folder, since its lines come from several files.
 func SplitsOfSources(srcs []*corpus.Dataset, k int) (train, dev, test *corpus.Dataset) {
 	var trs, devs, tes []*corpus.Dataset
 	for _, s := range srcs {
 		tr, dv, te := Splits(s, k)
 		trs, devs, tes = append(trs, tr), append(devs, dv), append(tes, te)
 	}
-	return corpus.Join(trs...), corpus.Join(devs...), corpus.Join(tes...)
+	train, dev, test = corpus.Join(trs...), corpus.Join(devs...), corpus.Join(tes...)
+	if len(srcs) > 1 {
+		dir := filepath.Dir(srcs[0].Path)
+		train.Path, dev.Path, test.Path = dir, dir, dir
+	}
+	return train, dev, test
 }

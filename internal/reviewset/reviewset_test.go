@@ -78,9 +78,20 @@ func TestLoadThree(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// The first sentence of each source as the set publishes it (its
+	// three files, amazon_cells_labelled.txt, yelp_labelled.txt and
+	// imdb_labelled.txt), so that no source was fetched twice.
+	first := []corpus.Example{
+		{Text: "So there is no way for me to plug it in here in the US unless I go by a converter.", Label: "negative", Line: 1},
+		{Text: "Wow... Loved this place.", Label: "positive", Line: 1},
+		{Text: "A very, very, very slow-moving, aimless movie about a distressed, drifting young man.", Label: "negative", Line: 1},
+	}
 	for i, d := range srcs {
 		if c := d.Counts(); c["negative"] != 500 || c["positive"] != 500 {
 			t.Fatalf("source %d: counts %v, want 500 of each label", i, c)
+		}
+		if d.Examples[0] != first[i] {
+			t.Errorf("%s: first sentence %+v, want %+v", d.Path, d.Examples[0], first[i])
 		}
 	}
 	for k := range Folds {
@@ -113,18 +124,24 @@ func TestLoadThree(t *testing.T) {
 	}
 }
 
-// TestLoadJSONRejects: a record without text, or with a class other than
-// 0 or 1, is refused, naming the file and the record; an empty record is
-// skipped.
+// TestLoadJSONRejects: a record without text or class, with a class
+// other than 0 or 1, or of the wrong shape is refused, naming the file and
+// the record; so is a file without a record to read. An empty last record
+// is skipped.
 func TestLoadJSONRejects(t *testing.T) {
 	for _, c := range []struct {
 		body, want string
 		n          int
 	}{
 		{`[{"text":"good phone","class":1},{"text":"","class":null}]`, "", 1},
+		{`[{"text":"","class":null},{"text":"good phone","class":1}]`, ": record 1: no text", 0},
 		{`[{"text":"good phone","class":1},{"text":" ","class":0}]`, ": record 2: no text", 0},
-		{`[{"text":"good phone","class":2}]`, ": record 1: class must be 0 or 1", 0},
-		{`[{"text":"good phone"}]`, ": record 1: class must be 0 or 1", 0},
+		{`[{"text":"good phone","class":2}]`, ": record 1: class 2; want 0 or 1", 0},
+		{`[{"text":"good phone"}]`, ": record 1: no class", 0},
+		{`[{"text":"good phone","class":"1"}]`, ": record 1: json: cannot unmarshal", 0},
+		{`[{"words":"good phone","label":1},{"words":"bad phone","label":0}]`, ": record 1: no text", 0},
+		{`[{"words":"good phone","label":1}]`, ": no record with text and class", 0},
+		{`[]`, ": no record with text and class", 0},
 		{`{"text":"good phone"}`, ": json: cannot unmarshal", 0},
 	} {
 		p := filepath.Join(t.TempDir(), "s.json")
@@ -138,8 +155,8 @@ func TestLoadJSONRejects(t *testing.T) {
 			}
 			continue
 		}
-		if err == nil || !strings.Contains(err.Error(), p+c.want) {
-			t.Errorf("%s: error %v, want %q", c.body, err, p+c.want)
+		if err == nil || !strings.Contains(err.Error(), p+c.want) || !strings.Contains(err.Error(), "make corpora") {
+			t.Errorf("%s: error %v, want %q and the fix", c.body, err, p+c.want)
 		}
 	}
 }
