@@ -78,9 +78,10 @@ func TestLoadThree(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// The first sentence of each source as the set publishes it (its
-	// three files, amazon_cells_labelled.txt, yelp_labelled.txt and
-	// imdb_labelled.txt), so that no source was fetched twice.
+	// The first sentence of each source as the set publishes it (the
+	// first lines of its three files, amazon_cells_labelled.txt,
+	// yelp_labelled.txt and imdb_labelled.txt, from memory), so that no
+	// source was fetched twice or in place of another.
 	first := []corpus.Example{
 		{Text: "So there is no way for me to plug it in here in the US unless I go by a converter.", Label: "negative", Line: 1},
 		{Text: "Wow... Loved this place.", Label: "positive", Line: 1},
