@@ -55,6 +55,20 @@ func load(root, which string, withTest bool) (splits, error) {
 	return sp, fmt.Errorf("corpus %q: use demo, spam, sotu, reviews, reviews-skew, reviews3 or reviews3-skew", which)
 }
 
+// trainShare returns the share of d kept for a learning curve: of each
+// label's n texts, n − round((1−share)·n), drawn by corpus.Dataset.Split
+// with seed 1 whatever the training seed, so that every candidate and seed
+// trains on the same texts and a smaller share's texts lie inside a larger
+// one's (Split keeps the tail of one seeded shuffle per label). share 1
+// returns d itself.
+func trainShare(d *corpus.Dataset, share float64) *corpus.Dataset {
+	if share >= 1 {
+		return d
+	}
+	kept, _ := d.Split(1-share, 1)
+	return kept
+}
+
 // loadRotations returns the corpus's one rotation, or for the reviews
 // (internal/reviewset) its ten cross-validation rotations: every text is
 // in one rotation's dev split and in another's test split. "reviews" is

@@ -63,11 +63,18 @@ func main() {
 	withTest := flag.Bool("test", false, "also evaluate on the test split (only to check a choice already made)")
 	stack := flag.Bool("stack", false, "with -baseline: also score the CNN and the baseline joined by stacking (stack.go)")
 	halvesFlag := flag.Bool("halves", false, "also score the CNN's epoch choice (and with -baseline the baseline's C) cross-fitted over two halves of the dev split (halves.go)")
+	share := flag.Float64("train-share", 1, "keep this share of each training split, stratified by label and seeded (trainShare), for a learning curve on the same dev and test splits")
 	dumpText := flag.String("dump-text", "", "write the splits as JSON lines (text, label) into this folder and stop, for pooling.py (the reviews: one set per rotation)")
 	flag.Parse()
 	rotations, err := loadRotations(root(), *which, *withTest)
 	if err != nil {
 		log.Fatal(err)
+	}
+	if *share <= 0 || *share > 1 {
+		log.Fatalf("-train-share %g: give a share in (0, 1]", *share)
+	}
+	for i := range rotations {
+		rotations[i].train = trainShare(rotations[i].train, *share)
 	}
 	if *dumpText != "" {
 		// One set of files per rotation, named after it ("reviews/3" → reviews-3-dev.jsonl).

@@ -131,3 +131,39 @@ func TestReviewRotations(t *testing.T) {
 		t.Errorf("reviews3-skew: %v, want 1,500 positive and 620 negative", c)
 	}
 }
+
+// A learning curve's training shares are stratified and nested: a third of
+// reviews3's first training split (2,400 sentences, 1,200 of each label in
+// the published set, Kotzias et al. 2015) keeps 400 of each label, all of
+// them inside the two thirds (800 of each), and share 1 is the split itself.
+func TestTrainShareNested(t *testing.T) {
+	testref.Corpus(t, "reviews", "imdb.json")
+	rots, err := loadRotations(root(), "reviews3", false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr := rots[0].train
+	if trainShare(tr, 1) != tr {
+		t.Error("share 1 is not the split itself")
+	}
+	third, twoThirds := trainShare(tr, 1.0/3), trainShare(tr, 2.0/3)
+	for _, c := range []struct {
+		d    *corpus.Dataset
+		want int
+	}{{tr, 1200}, {third, 400}, {twoThirds, 800}} {
+		if n := c.d.Counts(); n["positive"] != c.want || n["negative"] != c.want {
+			t.Errorf("%v, want %d of each label", n, c.want)
+		}
+	}
+	in := map[string]int{}
+	for _, e := range twoThirds.Examples {
+		in[e.Text+"\x00"+e.Label]++
+	}
+	for _, e := range third.Examples {
+		k := e.Text + "\x00" + e.Label
+		if in[k] == 0 {
+			t.Fatalf("%q of the third is not in the two thirds", e.Text)
+		}
+		in[k]--
+	}
+}
