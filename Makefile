@@ -26,7 +26,7 @@ deps-gui:
 deps-test:
 	@scripts/ensure-debian-packages.sh $(TEST_PKGS)
 
-corpora: deps-test
+corpora:
 	@scripts/fetch-corpora.sh
 
 build: deps-gui
@@ -38,7 +38,7 @@ build: deps-gui
 demo: build
 	@scripts/demo.sh $(BIN)
 
-test: corpora vet test-go test-race-pkgs soak-checks
+test: deps-test corpora vet test-go test-race-pkgs soak-checks
 
 vet:
 	$(GO) vet -tags ci ./...
@@ -102,7 +102,7 @@ soak: build
 # API, against the PyTorch reference (bench/RESULTS.md). BENCH_QUICK=1 is a
 # smoke run of a few minutes; BENCH_PART=cli or api runs one part; REPS sets
 # the repetitions (default 3).
-bench: corpora build
+bench: deps-test corpora build
 	@bench/run.sh $(BIN)
 
 screenshots:
