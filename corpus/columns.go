@@ -3,8 +3,10 @@ package corpus
 import (
 	"bufio"
 	"bytes"
+	"context"
 	"encoding/csv"
 	"encoding/json"
+	"errors"
 	"io"
 	"os"
 	"sort"
@@ -112,6 +114,24 @@ func ColumnsBytes(name string, data []byte, opt Options) ([]string, error) {
 		format = detectFormat(name, false)
 	}
 	return readColumns(bytes.NewReader(data), name, format, opt)
+}
+
+// ReadPipe reads the named pipe at path whole, for ColumnsBytes and
+// LoadBytes, since a pipe can be read only once; the wait for its writer,
+// or for more from it, ends when ctx is done. A line longer than any
+// record the readers accept (opt.MaxTextBytes, recordLimitFactor times)
+// stops the read at once with their error, ErrTooLong, so that a pipe
+// without line breaks is not held in memory whole before it is refused.
+func ReadPipe(ctx context.Context, path string, opt Options) ([]byte, error) {
+	if opt.MaxTextBytes <= 0 {
+		opt.MaxTextBytes = DefaultMaxTextBytes
+	}
+	limit := recordLimitFactor * opt.MaxTextBytes
+	data, err := inputfile.ReadFileBounded(ctx, path, limit)
+	if long, ok := errors.AsType[*inputfile.LineTooLongError](err); ok {
+		return nil, errAt(path, long.Line, ErrTooLong, "line longer than %d bytes: the file may lack line breaks; or raise --max-text-bytes (limit is %d × it)", limit, recordLimitFactor)
+	}
+	return data, err
 }
 
 // LoadBytes reads a corpus held in memory, as Load reads a file: data is

@@ -2,6 +2,7 @@ package gui
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"path/filepath"
 
@@ -151,10 +152,10 @@ func (cs *corpusState) readDemo(src dataSource) error {
 func (cs *corpusState) readFiles(ctx context.Context, src dataSource) error {
 	cs.Source = filepath.Base(src.path)
 	var err error
-	if cs.pipeData, err = readPipe(ctx, src.path, src.pipeData); err != nil {
+	if cs.pipeData, err = readPipe(ctx, src.path, src.pipeData, src.opts); err != nil {
 		return err
 	}
-	if cs.pipeTest, err = readPipe(ctx, src.testPath, src.pipeTest); err != nil {
+	if cs.pipeTest, err = readPipe(ctx, src.testPath, src.pipeTest, src.opts); err != nil {
 		return err
 	}
 	// The column pickers; a file whose header cannot be read is reported
@@ -180,14 +181,17 @@ func (cs *corpusState) readFiles(ctx context.Context, src dataSource) error {
 
 // readPipe returns kept if it is not nil, else the content of path when it
 // is a named pipe, and nil for any other file, which is read where it lies.
-// The pipe is read whole, without the per-record bound that reading it as a
-// stream would set; the wait for its writer, or for more from it, ends when
+// The pipe is read whole, each line within the readers' record limit
+// (corpus.ReadPipe); the wait for its writer, or for more from it, ends when
 // ctx is done (the status bar's Stop).
-func readPipe(ctx context.Context, path string, kept []byte) ([]byte, error) {
+func readPipe(ctx context.Context, path string, kept []byte, opts corpus.Options) ([]byte, error) {
 	if kept != nil || path == "" || !inputfile.IsPipe(path) {
 		return kept, nil
 	}
-	data, err := inputfile.ReadFileContext(ctx, path)
+	data, err := corpus.ReadPipe(ctx, path, opts)
+	if errors.Is(err, corpus.ErrTooLong) {
+		return nil, err
+	}
 	if err != nil {
 		return nil, fmt.Errorf("corpus: %s: cannot read: %w", path, err)
 	}

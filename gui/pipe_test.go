@@ -8,6 +8,7 @@ import (
 	"os"
 	"path/filepath"
 	"reflect"
+	"strings"
 	"syscall"
 	"testing"
 	"time"
@@ -129,6 +130,46 @@ func TestLoadCorpusFromNamedPipeStops(t *testing.T) {
 		}
 	case <-time.After(10 * time.Second):
 		t.Fatal("the load still waits for the pipe's writer 10 s after Stop")
+	}
+}
+
+// A named pipe whose line grows beyond the readers' record limit (8 ×
+// MaxTextBytes) is refused at that line with the readers' error, while its
+// writer still writes: the window does not hold it in memory whole first.
+func TestLoadCorpusFromNamedPipeBoundsALine(t *testing.T) {
+	fifo := filepath.Join(t.TempDir(), "data.csv")
+	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
+		t.Skipf("no named pipe here: %v", err)
+	}
+	release := make(chan struct{})
+	defer close(release)
+	go func() {
+		f, err := os.OpenFile(fifo, os.O_WRONLY, 0)
+		if err != nil {
+			return
+		}
+		defer f.Close()
+		f.Write([]byte("text,label\nlost bag,lost-property\n"))
+		for range 64 { // 4 MiB with no line break, then the pipe held open
+			if _, err := f.Write(make([]byte, 64<<10)); err != nil {
+				return
+			}
+		}
+		<-release
+	}()
+	done := make(chan error, 1)
+	go func() {
+		src := dataSource{path: fifo, opts: corpus.Options{MaxTextBytes: 64 << 10}}
+		_, err := loadCorpus(context.Background(), src, splitPlan{DevFrac: cnn.DefaultDevFrac, TestFrac: cnn.DefaultTestFrac, Seed: 1})
+		done <- err
+	}()
+	select {
+	case err := <-done:
+		if !errors.Is(err, corpus.ErrTooLong) || !strings.Contains(err.Error(), fifo+" line 3:") {
+			t.Fatalf("load of a pipe with a 4 MiB line: %v; want ErrTooLong at line 3", err)
+		}
+	case <-time.After(10 * time.Second):
+		t.Fatal("the load waited for the writer to finish")
 	}
 }
 

@@ -114,6 +114,26 @@ func (o *opener) openUntil(path string, cancel <-chan struct{}) (*os.File, error
 // for: for its writer to open it, or for the writer to write more or close
 // it. (The window's Stop reaches a pipe this way; Interrupt reaches it too.)
 func ReadFileContext(ctx context.Context, path string) ([]byte, error) {
+	return ReadFileBounded(ctx, path, 0)
+}
+
+// LineTooLongError is the error of ReadFileBounded at the first line
+// longer than its bound; Line counts from 1.
+type LineTooLongError struct {
+	Path        string
+	Line, Limit int
+}
+
+func (e *LineTooLongError) Error() string {
+	return fmt.Sprintf("%s line %d: longer than %d bytes", e.Path, e.Line, e.Limit)
+}
+
+// ReadFileBounded is ReadFileContext that, for a named pipe, stops with a
+// *LineTooLongError as soon as a line grows beyond maxLine bytes (no bound
+// when maxLine ≤ 0), so that a pipe without line breaks is not read whole
+// before a reader would refuse its first record. A regular file is read
+// as ReadFileContext reads it: its size is known before the read.
+func ReadFileBounded(ctx context.Context, path string, maxLine int) ([]byte, error) {
 	if !IsPipe(path) {
 		return os.ReadFile(path) // reads a regular file in one buffer of its size
 	}
@@ -126,9 +146,39 @@ func ReadFileContext(ctx context.Context, path string) ([]byte, error) {
 	// polls pipes, and a close wakes the poller.
 	stop := context.AfterFunc(ctx, func() { f.Close() })
 	defer stop()
-	data, err := io.ReadAll(f)
+	data, err := readBounded(f, path, maxLine)
 	if err != nil && ctx.Err() != nil {
 		return nil, &fs.PathError{Op: "read", Path: path, Err: ErrInterrupted}
 	}
 	return data, err
+}
+
+// readBounded reads r to its end as io.ReadAll does, checking the length
+// of each line as it arrives when maxLine > 0.
+func readBounded(r io.Reader, path string, maxLine int) ([]byte, error) {
+	if maxLine <= 0 {
+		return io.ReadAll(r)
+	}
+	data := make([]byte, 0, 64<<10)
+	line, run := 1, 0 // the current line's number and its bytes so far
+	for {
+		if len(data) == cap(data) {
+			data = append(data, 0)[:len(data)]
+		}
+		n, err := r.Read(data[len(data):cap(data)])
+		for _, b := range data[len(data) : len(data)+n] {
+			if b == '\n' {
+				line, run = line+1, 0
+			} else if run++; run > maxLine {
+				return nil, &LineTooLongError{Path: path, Line: line, Limit: maxLine}
+			}
+		}
+		data = data[:len(data)+n]
+		if err == io.EOF {
+			return data, nil
+		}
+		if err != nil {
+			return data, err
+		}
+	}
 }

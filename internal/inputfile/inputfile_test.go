@@ -219,3 +219,53 @@ func TestReadOnce(t *testing.T) {
 		}
 	}
 }
+
+// ReadFileBounded stops at the first line beyond its bound, naming that
+// line, without waiting for the writer to finish; within the bound it reads
+// what ReadFileContext reads.
+func TestReadFileBounded(t *testing.T) {
+	t.Run("within", func(t *testing.T) {
+		p := fifo(t)
+		want := "text,label\nlost bag,lost-property\n"
+		go func() {
+			if w, err := os.OpenFile(p, os.O_WRONLY, 0); err == nil {
+				io.WriteString(w, want)
+				w.Close()
+			}
+		}()
+		data, err := ReadFileBounded(context.Background(), p, len("lost bag,lost-property"))
+		if err != nil || string(data) != want {
+			t.Fatalf("read %q, %v; want %q", data, err, want)
+		}
+	})
+	t.Run("a line beyond", func(t *testing.T) {
+		p := fifo(t)
+		release := make(chan struct{})
+		defer close(release)
+		go func() {
+			w, err := os.OpenFile(p, os.O_WRONLY, 0)
+			if err != nil {
+				return
+			}
+			defer w.Close()
+			io.WriteString(w, "text,label\n")
+			for range 64 { // 4 MiB with no line break, then the pipe held open
+				if _, err := w.Write(make([]byte, 64<<10)); err != nil {
+					return
+				}
+			}
+			<-release
+		}()
+		done := make(chan error, 1)
+		go func() { _, err := ReadFileBounded(context.Background(), p, 1<<20); done <- err }()
+		select {
+		case err := <-done:
+			long, ok := errors.AsType[*LineTooLongError](err)
+			if !ok || long.Line != 2 || long.Limit != 1<<20 || long.Path != p {
+				t.Fatalf("error %v; want line 2 beyond 1 MiB of %s", err, p)
+			}
+		case <-time.After(10 * time.Second):
+			t.Fatal("the read waited for the writer to finish")
+		}
+	})
+}
