@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"io/fs"
+	"os"
 	"path/filepath"
 	"slices"
 
@@ -309,10 +310,10 @@ func recordedTraining(rec *cnn.SplitRecord, all *corpus.Dataset, r *readOptions)
 		if rec.DataAbs == "" || readOnce(rec.DataAbs, false) {
 			return nil, fmt.Sprintf("the data the model was trained on (%s) cannot be read again", rec.Data)
 		}
-		ds, err := r.read(rec.DataAbs, false, io.Discard, true)
-		if errors.Is(err, fs.ErrNotExist) {
+		if _, err := os.Stat(rec.DataAbs); errors.Is(err, fs.ErrNotExist) {
 			return nil, fmt.Sprintf("%s, the data the model was trained on, is not there any more", rec.DataAbs)
 		}
+		ds, err := r.read(rec.DataAbs, false, io.Discard, true)
 		if err != nil {
 			return nil, fmt.Sprintf("%s, the data the model was trained on, cannot be read (%v)", rec.DataAbs, err)
 		}
