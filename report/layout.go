@@ -87,6 +87,15 @@ type metricsView struct {
 	Bins                         []binRow
 }
 
+// sentences are ws, each ending in a full stop.
+func sentences(ws []string) []string {
+	out := make([]string, len(ws))
+	for i, w := range ws {
+		out[i] = strings.TrimSuffix(w, ".") + "."
+	}
+	return out
+}
+
 type classRow struct{ Label, Precision, Recall, F1, Support string }
 
 type figureRow struct{ Model, Note, Accuracy, MacroF1 string }
@@ -442,9 +451,7 @@ func metrics(in Input) (*metricsView, error) {
 	}
 	mv := &metricsView{Split: split, Note: note, N: count(mt.N), Accuracy: fig.CNN.Accuracy.String(), MacroF1: fig.CNN.MacroF1.String(),
 		WeightedF1: iv.WeightedF1.String(), ECE: ece, Labels: mt.Labels, Level: fmt.Sprintf("%g%%", 100*cnn.IntervalLevel)}
-	for _, w := range in.Warnings {
-		mv.Warnings = append(mv.Warnings, strings.TrimSuffix(w, ".")+".")
-	}
+	mv.Warnings = sentences(in.Warnings)
 	mv.Figures = []figureRow{{Model: "CNN", Accuracy: fig.CNN.Accuracy.String(), MacroF1: fig.CNN.MacroF1.String()}}
 	if fig.Baseline != nil {
 		mv.Figures = append(mv.Figures, figureRow{Model: "Linear baseline", Note: baselineNote(in.Model),
