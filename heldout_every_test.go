@@ -185,6 +185,9 @@ func TestWarningsReachEveryOutput(t *testing.T) {
 		t.Fatal(err)
 	}
 	page := string(b)
+	if top, glance := strings.Index(page, `<p class="warning" role="alert">`), strings.Index(page, `<ul class="glance">`); top < glance || glance < 0 {
+		t.Errorf("the report's figures at a glance are not followed by a warning (glance at %d, warning at %d)", glance, top)
+	}
 	warn, figures := strings.Index(page, `<div class="warning"`), strings.Index(page, `<table class="figures">`)
 	if warn < 0 || figures < 0 || warn > figures || !strings.Contains(page[warn:figures], evalWarn) {
 		t.Errorf("the report does not warn %q above its figures (warning at %d, figures at %d)", evalWarn, warn, figures)
