@@ -177,6 +177,8 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	if es.train == nil {
 		es.train = es.all
 	}
+	// A test split train drew out of --data is the model's own held-out
+	// split; any other texts are checked.
 	switch {
 	case test != "":
 		es.checkTraining(rec, test, same, r)
@@ -184,7 +186,7 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 		es.checkTraining(rec, rec.TestFile, same, r)
 	case !same:
 		es.checkTraining(rec, data, same, r)
-	} // a test split train drew out of --data is the model's own held-out split
+	}
 	if !quiet {
 		for _, w := range es.warnings {
 			fmt.Fprintf(warn, "warning: %s\n", w)
