@@ -88,7 +88,7 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		}
 		models[i] = m
 	}
-	es, err := findTestSplit(models[0], o.data, o.test, &o.read, env.Stderr, o.quiet)
+	es, err := findTestSplitOf(models[0], o.paths[0], o.data, o.test, &o.read, env.Stderr, o.quiet)
 	if err != nil {
 		return err
 	}
@@ -101,11 +101,7 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		if note != "" {
 			say(env.Stderr, o.quiet, "%s", note)
 		}
-		if !o.quiet {
-			for _, w := range warnings[i+1] {
-				fmt.Fprintf(env.Stderr, "warning: %s: %s\n", o.paths[i+1], w)
-			}
-		}
+		printHeldOut(env.Stderr, o.quiet, o.paths[i+1], warnings[i+1])
 	}
 	rows := make([]compareRow, 0, len(models))
 	var first []int

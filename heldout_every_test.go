@@ -83,7 +83,7 @@ func TestCompareChecksEveryModel(t *testing.T) {
 			if len(ws) != 1 || !strings.HasPrefix(ws[0], want) {
 				t.Errorf("%s: model %d: warnings %q, want one starting %q", tc.name, i+1, ws, want)
 			}
-			if !strings.Contains(stderr, "warning: ") || !strings.Contains(stderr, want) {
+			if !strings.Contains(stderr, "warning: "+tc.models[i]+": "+want) {
 				t.Errorf("%s: model %d: the warning %q is not on stderr:\n%s", tc.name, i+1, want, stderr)
 			}
 		}

@@ -152,6 +152,12 @@ const mayHoldTraining = "may include texts the model was trained on"
 // texts, and a --relabel label that the one file it is applied to lacks
 // (data, or test when data is "").
 func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writer, quiet bool) (*evalSet, error) {
+	return findTestSplitOf(m, "", data, test, r, warn, quiet)
+}
+
+// findTestSplitOf is findTestSplit for the model at path (printed before
+// each of its warnings; "" for none), for a command of several models.
+func findTestSplitOf(m *cnn.Model, path, data, test string, r *readOptions, warn io.Writer, quiet bool) (*evalSet, error) {
 	if data == "" && test == "" {
 		return nil, usagef("--data or --test is required: labeled texts to evaluate the model on")
 	}
@@ -187,12 +193,22 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	case !same:
 		es.checkTraining(rec, data, same, r)
 	}
-	if !quiet {
-		for _, w := range es.warnings {
-			fmt.Fprintf(warn, "warning: %s\n", w)
-		}
-	}
+	printHeldOut(warn, quiet, path, es.warnings)
 	return es, nil
+}
+
+// printHeldOut prints warnings on w unless quiet, each after the model
+// path it is of ("" when there is one model).
+func printHeldOut(w io.Writer, quiet bool, path string, warnings []string) {
+	if quiet {
+		return
+	}
+	for _, msg := range warnings {
+		if path != "" {
+			msg = path + ": " + msg
+		}
+		fmt.Fprintf(w, "warning: %s\n", msg)
+	}
 }
 
 // findTexts sets the texts to evaluate on and the note that says where
