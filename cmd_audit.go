@@ -362,6 +362,9 @@ type auditJSON struct {
 	Retrained      *audit.Retrained `json:"retrained,omitempty"`
 	RetrainedModel string           `json:"retrained_model,omitempty"`
 	MaskedModel    string           `json:"masked_model,omitempty"`
+	// Warnings are those on the held-out texts, as eval's (findTestSplit:
+	// why they may not be held-out texts); absent when there are none.
+	Warnings []string `json:"warnings,omitempty"`
 }
 
 // auditRun is one run of the command: the audits of the model and of the
@@ -385,7 +388,7 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 	if err != nil {
 		return nil, err
 	}
-	out := &auditJSON{Result: res, Story: res.Story(), HeldoutSplit: r.es.name, MarksFile: r.o.marksPath()}
+	out := &auditJSON{Result: res, Story: res.Story(), HeldoutSplit: r.es.name, MarksFile: r.o.marksPath(), Warnings: r.es.warnings}
 	results := []*audit.Result{res}
 	if r.o.seeds > 0 {
 		say(r.env.Stderr, r.o.quiet, "the audit of %s is done; training %s with its recipe (--seeds)", r.o.model, wording.Count(r.o.seeds, "more model", "more models"))

@@ -38,6 +38,9 @@ func newAuditView(o *auditOptions, src auditSource, priors []float64, out *audit
 	default:
 		v.heldout = "texts of the test split train held out of " + o.data
 	}
+	if len(out.Warnings) > 0 {
+		v.heldout += " (read the warnings below)"
+	}
 	args := []string{"telltale", "audit", "--model", o.model, "--data", o.data}
 	for _, opt := range []struct{ name, value string }{{"test", o.test}, {"text-col", o.read.TextCol}, {"label-col", o.read.LabelCol},
 		{"format", o.read.Format}, {"mail", o.read.Mail}, {"relabel", o.read.Relabel}, {"marks", o.marks}} {
@@ -59,6 +62,9 @@ func writeAuditText(w io.Writer, v *auditView) error {
 	fmt.Fprintf(bw, "Cue audit of %s: association on the %s training texts of %s; reliance on the %s %s, halved at random (seed %d) "+
 		"into %s that choose the cues and %s that confirm them: every figure below comes from the confirming half unless it says otherwise.\n\n", v.o.model, count(r.TrainTexts), v.o.data, count(r.HeldoutTexts), v.heldout,
 		v.o.seed, count(r.SelectionTexts), count(r.ConfirmationTexts))
+	for _, w := range v.Warnings {
+		fmt.Fprintf(bw, "Warning: %s.\n\n", strings.TrimSuffix(w, "."))
+	}
 	fmt.Fprintf(bw, "%s\n", v.Story)
 	v.writeList(bw, fmt.Sprintf("Cues that look like how the data was collected (%d), those acted on first, then by reliance × artifact-likeness", len(r.Ranked)), r.Ranked)
 	v.writeList(bw, fmt.Sprintf("Relied on, reads like the task (%d): judge these yourself and mark any that is an artifact", len(r.Task)), r.Task)

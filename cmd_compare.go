@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"context"
 	"flag"
 	"fmt"
@@ -26,9 +27,12 @@ each model against the first (the texts only one of the two labels right).
 A model whose file carries the linear baseline train fits beside the CNN is
 then shown beside it, with the exact McNemar test between the two, as train
 shows them. The texts are found as eval finds them for the first model:
---test FILE, or the test split of its own --data, or all of other data; a
-note says when another model's splits were made otherwise. The models must
-share their labels; each uses its own tokenizer and vocabulary.`,
+--test FILE, or the test split of its own --data, or all of other data.
+Every model gets eval's checks of them, with warnings of its own: when they
+are its training data or hold texts of its training split (found in --data,
+or in the data file the model records), and when they are its test file
+changed since training; a note says when that cannot be checked. The models
+must share their labels; each uses its own tokenizer and vocabulary.`,
 	Options: func() options { return new(compareOptions) },
 	Run:     runAs(runCompare),
 }
@@ -84,15 +88,20 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		}
 		models[i] = m
 	}
-	es, err := findTestSplit(models[0], o.data, o.test, &o.read, env.Stderr, o.quiet)
+	es, err := findTestSplitOf(models[0], o.paths[0], o.data, o.test, &o.read, env.Stderr, o.quiet)
 	if err != nil {
 		return err
 	}
 	say(env.Stderr, o.quiet, "%s", es.note)
+	warnings := make([][]string, len(models))
+	warnings[0] = es.warnings
 	for i, m := range models[1:] {
-		if o.test == "" && !sameSplits(m.Info.Splits, models[0].Info.Splits) {
-			say(env.Stderr, o.quiet, "%s was not trained with the splits of %s: its figures may include texts it was trained on", o.paths[i+1], o.paths[0])
+		var note string
+		warnings[i+1], note = o.checksFor(m, o.paths[i+1], models[0], es)
+		if note != "" {
+			say(env.Stderr, o.quiet, "%s", note)
 		}
+		printHeldOut(env.Stderr, o.quiet, o.paths[i+1], warnings[i+1])
 	}
 	rows := make([]compareRow, 0, len(models))
 	var first []int
@@ -122,10 +131,43 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		} else {
 			row.setVsFirst(data.Labels, first, pred)
 		}
-		row.Warnings = es.warnings
+		row.Warnings = warnings[i]
 		rows = append(rows, row)
 	}
 	return writeComparison(env, rows, splitHeading(es.name, len(es.test.Examples)), o.asJSON)
+}
+
+// checksFor makes for model m (at path), not the first (first), the
+// checks findTestSplit made for the first on the texts it found (es): with
+// --test, whether the file is m's training data or holds texts of its
+// training split, and whether it is m's recorded test file changed since
+// training; with --data, es's warnings when m was trained with first's
+// splits, else whether the texts hold texts of m's training split. The
+// training split is found in --data or in the data file m records
+// (recordedTraining); when it cannot be, note says so.
+func (o *compareOptions) checksFor(m *cnn.Model, path string, first *cnn.Model, es *evalSet) (warnings []string, note string) {
+	rec := m.Info.Splits
+	if o.test == "" && sameSplits(rec, first.Info.Splits) {
+		return es.warnings, ""
+	}
+	name := cmp.Or(o.test, o.data)
+	if o.test == "" && es.name == "test" {
+		name = fmt.Sprintf("the test split of %s (that of %s)", o.data, o.paths[0])
+	}
+	train, why := recordedTraining(rec, es.all, &o.read)
+	if w := trainingWarning(rec, es.test, name, train); w != "" {
+		warnings = append(warnings, w)
+	}
+	if rec != nil && o.test != "" && absPath(o.test) == rec.TestFile {
+		if w := changedSince("test", o.test, rec.TestFingerprint, es.test); w != "" {
+			warnings = append(warnings, w)
+		}
+	}
+	if len(warnings) == 0 && train == nil {
+		note = fmt.Sprintf("whether the texts hold texts of the training split of %s cannot be checked (%s): its figures %s",
+			path, lowerFirst(why), mayHoldTraining)
+	}
+	return warnings, note
 }
 
 // sameSplits reports whether two models' splits were made the same way
@@ -170,9 +212,9 @@ type compareRow struct {
 	// the same texts: OnlyA counts those only the first labels right, OnlyB
 	// those only this one does (nil for the first).
 	VsFirst *cnn.McNemar `json:"mcnemar_vs_first,omitempty"`
-	// Warnings are those on the texts every model was evaluated on, as
-	// eval's (findTestSplit: why they may not be held-out texts), the same
-	// in every row; absent when there are none.
+	// Warnings say why the texts may not be held-out texts for this model,
+	// as eval's (findTestSplit) for the first and compareOptions.checksFor
+	// for every other; absent when there are none.
 	Warnings []string `json:"warnings,omitempty"`
 }
 

@@ -30,10 +30,12 @@ ahead, as train shows them.
 The texts: with --test FILE, those. With --data FILE alone, when it holds the
 data the model was trained on, the test split train held out of it (or the test
 file train was given); with other data, all of it, with a note that it may hold
-texts the model was trained on. A warning says when the texts are the model's
-training data or hold some of its training texts, and when the test file the
-model was trained with has changed since; no texts to evaluate on (an empty
-test split) is refused.`,
+texts the model was trained on. A warning (in --json too, even with --quiet)
+says when the texts are the model's training data or hold some of its
+training texts, found in --data or, without it, in the data file the model
+records (a note says when that cannot be checked), and when the test file
+the model was trained with has changed since; no texts to evaluate on (an
+empty test split) is refused.`,
 	Options: func() options { return new(evalOptions) },
 	Run:     runAs(runEval),
 }

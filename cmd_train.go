@@ -162,19 +162,20 @@ func runTrain(ctx context.Context, env *runEnv, o *trainOptions) error {
 	if !o.quiet {
 		printWarnings(env.Stderr, sp.all.LabelWarnings())
 	}
+	held := o.heldFilesInTraining(sp) // before --mask-tokens changes the training texts
 	if o.maskTokens != "" {
 		if sp.train, err = maskTrainingText(sp.train, o.maskTokens, env.Stderr, o.quiet); err != nil {
 			return err
 		}
 	}
-	if err := o.checkData(sp, env.Stderr); err != nil {
+	if err := o.checkData(sp, held, env.Stderr); err != nil {
 		return err
 	}
 	trained, err := o.fit(ctx, sp, env.Stderr)
 	if err != nil {
 		return err
 	}
-	return o.keep(ctx, env, trained, sp, start)
+	return o.keep(ctx, env, trained, sp, held, start)
 }
 
 // fit trains the model on the splits, showing progress.
@@ -227,9 +228,10 @@ func lowerRates(m *cnn.Model) string {
 }
 
 // keep saves the trained model (its test evaluation and split record with
-// it) unless no epoch completed, prints the summary, and returns the error
+// it) unless no epoch completed, prints the summary (with the warnings of
+// held: dev or test files that hold training texts), and returns the error
 // of a run that was interrupted or diverged.
-func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Trained, sp *splits, start time.Time) error {
+func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Trained, sp *splits, held heldInTraining, start time.Time) error {
 	m, res := trained.Model, trained.Result
 	if o.recipe.Vectors != "" && !o.quiet {
 		fmt.Fprintf(env.Stderr, "vectors: %d of %d vocabulary words found in %s\n", trained.VectorsFound, len(m.Vocab)-2, o.recipe.Vectors)
@@ -262,12 +264,16 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 		StoppedEarly: res.StoppedEarly, Diverged: res.Diverged != nil, Divergence: res.Diverged, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Test: m.Info.Test,
 		Splits: m.Info.Splits, Seconds: time.Since(start).Seconds()}
 	summary.TestFigures, summary.Baseline = figures, baselineOf(m, cmp)
+	summary.Warnings, summary.testInTraining = held.warnings, held.test
 	if figures != nil {
 		summary.advice = baselineAdvice(m, figures.McNemar)
+		if held.test > 0 && summary.advice != "" {
+			summary.advice += "this rests on a test split that holds texts of the training split, which both models learned: judge the baseline's lead on held-out texts\n"
+		}
 	}
 	if m.Info.Dev != nil {
 		iv := cnn.IntervalsOf(*m.Info.Dev)
-		summary.DevIntervals, summary.DevNote = &iv, devNote
+		summary.DevIntervals, summary.DevNote = &iv, devNoteOf(held)
 	}
 	if m.Info.Test != nil {
 		iv := cnn.IntervalsOf(*m.Info.Test)
@@ -324,11 +330,28 @@ type trainSummary struct {
 	TestFigures   *cnn.Figures         `json:"test_figures,omitempty"`
 	Baseline      *baselineJSON        `json:"baseline,omitempty"`
 	Splits        *cnn.SplitRecord     `json:"splits,omitempty"`
-	advice        string               // baselineAdvice, printed after the test split's figures
+	// Warnings say which of the dev and test files hold texts of the
+	// training split, and how many (heldFilesInTraining): such test figures
+	// are not held-out figures. Absent when there are none; given with
+	// --quiet too.
+	Warnings       []string `json:"warnings,omitempty"`
+	advice         string   // baselineAdvice, printed after the test split's figures
+	testInTraining int      // the texts of the test file that are training texts
 }
 
-// devNote is train --json's dev_note.
+// devNote is train --json's dev_note, when the test split holds no
+// training text.
 const devNote = "the dev split chose the epoch (and the baseline's C): its figures flatter the model; the test split's do not"
+
+// devNoteOf is train --json's dev_note: devNote, unless the test file
+// holds training texts (held.test), whose figures flatter the model too.
+func devNoteOf(held heldInTraining) string {
+	if held.test == 0 {
+		return devNote
+	}
+	return fmt.Sprintf("the dev split chose the epoch (and the baseline's C): its figures flatter the model; "+
+		"so do the test split's, as %s of it are texts of the training split", wording.Texts(held.test))
+}
 
 func writeTrainSummary(w io.Writer, s trainSummary) {
 	fmt.Fprintf(w, "model saved: %s (kept epoch %d of %d, %.0f training examples/s, %.1f s in all)\n",
@@ -338,10 +361,20 @@ func writeTrainSummary(w io.Writer, s trainSummary) {
 		writeECE(w, "", s.DevIntervals)
 	}
 	if s.TestFigures != nil {
-		writeFigures(w, fmt.Sprintf("test split, %s, used for nothing else", wording.Texts(s.TestFigures.CNN.N)), *s.TestFigures, s.Baseline)
+		writeFigures(w, testHeading(s.TestFigures.CNN.N, s.testInTraining), *s.TestFigures, s.Baseline)
 		writeECE(w, "CNN", s.TestIntervals)
 		fmt.Fprint(w, s.advice)
 	}
+}
+
+// testHeading names the test split train evaluated on (n texts, inTrain
+// of them texts of the training split): used for nothing else, unless it
+// holds training texts, whose figures are not held-out figures.
+func testHeading(n, inTrain int) string {
+	if inTrain > 0 {
+		return fmt.Sprintf("test split, %s, %d of them texts of the training split: not held-out figures", wording.Texts(n), inTrain)
+	}
+	return fmt.Sprintf("test split, %s, used for nothing else", wording.Texts(n))
 }
 
 // writeECE prints the ECE of iv with its interval and calibration test as

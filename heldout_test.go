@@ -89,19 +89,36 @@ func TestEvalSplitWarnsOfAChangedTestFile(t *testing.T) {
 		t.Errorf("the unchanged test file gives warnings %q, stderr %q", ev.Warnings, stderr)
 	}
 
-	writeExamples(t, test, loadExamples(t, data).Examples[:100])
+	all := loadExamples(t, data)
+	writeExamples(t, test, all.Examples[:100])
 	ev = evalOutput{}
 	stderr = jsonOf(t, &ev, "eval", "--model", model, "--data", data, "--json")
 	const changed = "has changed since training"
-	if ev.N != 100 || !strings.Contains(stderr, "warning: "+test) || !strings.Contains(stderr, changed) ||
-		len(ev.Warnings) != 1 || !strings.Contains(ev.Warnings[0], changed) {
-		t.Errorf("eval on the overwritten test file: %d texts, warnings %q, stderr %q", ev.N, ev.Warnings, stderr)
+	// The rows written over it are rows of --data: those of the training
+	// split are warned of too, with their count.
+	rec := loadModelFile(t, model).Info.Splits
+	train, _, _ := all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
+	n := inTraining(&corpus.Dataset{Examples: all.Examples[:100]}, train)
+	inTrain := fmt.Sprintf("%s %s: %d of its 100 texts are texts of the model's training split", test, mayHoldTraining, n)
+	if n == 0 || ev.N != 100 || !strings.Contains(stderr, "warning: "+test) || !strings.Contains(stderr, changed) ||
+		len(ev.Warnings) != 2 || !strings.Contains(ev.Warnings[0], changed) || !strings.HasPrefix(ev.Warnings[1], inTrain) {
+		t.Errorf("eval on the overwritten test file: %d texts, warnings %q (want %q), stderr %q", ev.N, ev.Warnings, inTrain, stderr)
 	}
 	// Named with --test, the recorded file is checked too.
 	stderr = jsonOf(t, &ev, "eval", "--model", model, "--test", test, "--json")
 	if !strings.Contains(stderr, changed) {
 		t.Errorf("eval --test on the overwritten test file: stderr %q", stderr)
 	}
+}
+
+// loadModelFile loads the model file at path.
+func loadModelFile(t *testing.T, path string) *cnn.Model {
+	t.Helper()
+	m, err := cnn.Load(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return m
 }
 
 // TestEvalSplitWarnsOfTrainingTexts: --test pointed at the model's own

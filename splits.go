@@ -1,9 +1,12 @@
 package main
 
 import (
+	"errors"
 	"flag"
 	"fmt"
 	"io"
+	"io/fs"
+	"os"
 	"path/filepath"
 	"slices"
 
@@ -121,6 +124,7 @@ func absPath(path string) string {
 
 // evalSet is what a command that evaluates a saved model works on.
 type evalSet struct {
+	all   *corpus.Dataset // all of --data; nil without --data
 	train *corpus.Dataset // the training split of --data (all of it when the model's split is not found); nil without --data
 	test  *corpus.Dataset // the texts to evaluate on
 	dev   *corpus.Dataset // the model's dev split (its share of --data, or its dev file) when --data is the model's data; else nil
@@ -140,77 +144,124 @@ const mayHoldTraining = "may include texts the model was trained on"
 // examples: cnn.SplitRecord.Fingerprint), the test split train held out of
 // it or the test file train was given; with other data, or a model that
 // does not record its splits, all of data, with a note that it may include
-// texts the model was trained on. It warns (on warn unless quiet) when the
-// texts are the model's training data or hold its training texts, and when
-// the recorded test file changed since training; it refuses (a usage error)
-// an empty set of texts, and a --relabel label that the one file it is
-// applied to lacks (data, or test when data is "").
+// texts the model was trained on. It warns (on warn unless quiet; always in
+// the evalSet's warnings) when the texts are the model's training data or
+// hold texts of its training split (found in data, or without it in the
+// data file the model records: checkTraining), and when the recorded test
+// file changed since training; it refuses (a usage error) an empty set of
+// texts, and a --relabel label that the one file it is applied to lacks
+// (data, or test when data is "").
 func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writer, quiet bool) (*evalSet, error) {
+	return findTestSplitOf(m, "", data, test, r, warn, quiet)
+}
+
+// findTestSplitOf is findTestSplit for the model at path (printed before
+// each of its warnings; "" for none), for a command of several models.
+func findTestSplitOf(m *cnn.Model, path, data, test string, r *readOptions, warn io.Writer, quiet bool) (*evalSet, error) {
 	if data == "" && test == "" {
 		return nil, usagef("--data or --test is required: labeled texts to evaluate the model on")
 	}
 	es := &evalSet{name: "test"}
-	var all *corpus.Dataset
 	var err error
 	if data != "" {
-		if all, err = r.read(data, true, warn, quiet); err != nil {
+		if es.all, err = r.read(data, true, warn, quiet); err != nil {
 			return nil, err
 		}
 	}
 	rec := m.Info.Splits
-	same := all != nil && rec != nil && rec.Examples == len(all.Examples) && rec.Fingerprint == all.Fingerprint()
+	same := es.all != nil && isModelData(rec, es.all)
 	if same {
-		es.train, es.dev, es.test = all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
+		es.train, es.dev, es.test = es.all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
 		es.readDevFile(rec, r)
 	}
-	switch {
-	case test != "":
-		// Without --data the test file is the one file --relabel applies
-		// to: every label it maps must occur there, as in --data for train.
-		if es.test, err = r.read(test, data == "", warn, quiet); err != nil {
-			return nil, err
-		}
-		es.note = fmt.Sprintf("evaluating on the test file %s (%s)", test, wording.Texts(len(es.test.Examples)))
-		es.warnTraining(rec, test, same)
-		if rec != nil && absPath(test) == rec.TestFile {
-			if w := changedSince("test", test, rec.TestFingerprint, es.test); w != "" {
-				es.warnings = append(es.warnings, w)
-			}
-		}
-	case same && readOnce(rec.TestFile, rec.TestPipe):
-		return nil, usagef("the model's test split was read once at training (--test %s, a pipe or a per-process file), and cannot be read again: give the test file with --test", rec.TestFile)
-	case same && rec.TestFile != "":
-		if es.test, err = r.read(rec.TestFile, false, warn, quiet); err != nil {
-			return nil, fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
-		}
-		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%s)", rec.TestFile, wording.Texts(len(es.test.Examples)))
-		if w := changedSince("test", rec.TestFile, rec.TestFingerprint, es.test); w != "" {
-			es.warnings = append(es.warnings, w)
-		}
-	case same:
-		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%s), never used for training or to choose the epoch",
-			data, 100*rec.TestFrac, rec.Seed, wording.Texts(len(es.test.Examples)))
-	case rec == nil:
-		es.test, es.name = all, "all"
-		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %s of %s, which %s",
-			wording.Texts(len(all.Examples)), data, mayHoldTraining)
-	default:
-		es.test, es.name = all, "all"
-		es.note = fmt.Sprintf("%s is not the data the model was trained on (%s): evaluating on all %d of its texts, which %s",
-			data, rec.Data, len(all.Examples), mayHoldTraining)
+	if err := es.findTexts(rec, data, test, same, r, warn, quiet); err != nil {
+		return nil, err
 	}
 	if err := es.checkNotEmpty(rec, data, test, same); err != nil {
 		return nil, err
 	}
 	if es.train == nil {
-		es.train = all
+		es.train = es.all
 	}
-	if !quiet {
-		for _, w := range es.warnings {
-			fmt.Fprintf(warn, "warning: %s\n", w)
-		}
+	// A test split train drew out of --data is the model's own held-out
+	// split; any other texts are checked.
+	switch {
+	case test != "":
+		es.checkTraining(rec, test, same, r)
+	case same && rec.TestFile != "":
+		es.checkTraining(rec, rec.TestFile, same, r)
+	case !same:
+		es.checkTraining(rec, data, same, r)
 	}
+	printHeldOut(warn, quiet, path, es.warnings)
 	return es, nil
+}
+
+// printHeldOut prints warnings on w unless quiet, each after the model
+// path it is of ("" when there is one model).
+func printHeldOut(w io.Writer, quiet bool, path string, warnings []string) {
+	if quiet {
+		return
+	}
+	for _, msg := range warnings {
+		if path != "" {
+			msg = path + ": " + msg
+		}
+		fmt.Fprintf(w, "warning: %s\n", msg)
+	}
+}
+
+// findTexts sets the texts to evaluate on and the note that says where
+// they come from (findTestSplit), warning of a recorded test file that
+// changed since training.
+func (es *evalSet) findTexts(rec *cnn.SplitRecord, data, test string, same bool, r *readOptions, warn io.Writer, quiet bool) error {
+	var err error
+	switch {
+	case test != "":
+		// Without --data the test file is the one file --relabel applies
+		// to: every label it maps must occur there, as in --data for train.
+		if es.test, err = r.read(test, data == "", warn, quiet); err != nil {
+			return err
+		}
+		es.note = fmt.Sprintf("evaluating on the test file %s (%s)", test, wording.Texts(len(es.test.Examples)))
+		if rec != nil && absPath(test) == rec.TestFile {
+			es.warnChanged(rec, test)
+		}
+	case same && readOnce(rec.TestFile, rec.TestPipe):
+		return usagef("the model's test split was read once at training (--test %s, a pipe or a per-process file), and cannot be read again: give the test file with --test", rec.TestFile)
+	case same && rec.TestFile != "":
+		if es.test, err = r.read(rec.TestFile, false, warn, quiet); err != nil {
+			return fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
+		}
+		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%s)", rec.TestFile, wording.Texts(len(es.test.Examples)))
+		es.warnChanged(rec, rec.TestFile)
+	case same:
+		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%s), never used for training or to choose the epoch",
+			data, 100*rec.TestFrac, rec.Seed, wording.Texts(len(es.test.Examples)))
+	case rec == nil:
+		es.test, es.name = es.all, "all"
+		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %s of %s, which %s",
+			wording.Texts(len(es.all.Examples)), data, mayHoldTraining)
+	default:
+		es.test, es.name = es.all, "all"
+		es.note = fmt.Sprintf("%s is not the data the model was trained on (%s): evaluating on all %d of its texts, which %s",
+			data, rec.Data, len(es.all.Examples), mayHoldTraining)
+	}
+	return nil
+}
+
+// warnChanged warns when the test texts, read from the test file the model
+// recorded (at path), changed since training.
+func (es *evalSet) warnChanged(rec *cnn.SplitRecord, path string) {
+	if w := changedSince("test", path, rec.TestFingerprint, es.test); w != "" {
+		es.warnings = append(es.warnings, w)
+	}
+}
+
+// isModelData reports whether ds holds the examples the model whose split
+// record is rec was trained on (all of its --data: rec.Fingerprint).
+func isModelData(rec *cnn.SplitRecord, ds *corpus.Dataset) bool {
+	return rec != nil && ds != nil && rec.Examples == len(ds.Examples) && rec.Fingerprint == ds.Fingerprint()
 }
 
 // readOnce reports whether a split file a model recorded (path, "" for
@@ -242,29 +293,78 @@ func (es *evalSet) readDevFile(rec *cnn.SplitRecord, r *readOptions) {
 	}
 }
 
-// warnTraining adds a warning when the test file at path is the data
-// model's split record rec says it was trained on (the same examples), or,
-// when the training split is known (same), holds some of its texts.
-func (es *evalSet) warnTraining(rec *cnn.SplitRecord, path string, same bool) {
+// checkTraining warns when the texts to evaluate on (named name: their
+// file, or --data) are the model's training data, or hold texts of its
+// training split: the split of --data when that is the model's data
+// (same), else the one found in the data file the model records
+// (recordedTraining). When the split cannot be found, the note says that
+// this could not be checked, and why.
+func (es *evalSet) checkTraining(rec *cnn.SplitRecord, name string, same bool, r *readOptions) {
 	if rec == nil {
-		return
+		return // the note says that the texts may include training texts
 	}
-	if rec.Examples == len(es.test.Examples) && rec.Fingerprint == es.test.Fingerprint() {
+	train, why := es.train, ""
+	if !same {
+		train, why = recordedTraining(rec, es.all, r)
+	}
+	if w := trainingWarning(rec, es.test, name, train); w != "" {
+		es.warnings = append(es.warnings, w)
+	} else if train == nil {
+		es.note += "; whether they hold texts of the model's training split cannot be checked: " + why
+	}
+}
+
+// recordedTraining is the training split of the model whose split record
+// is rec: made from all (the texts of --data; nil without it) when they are
+// the model's data, else from the data file the model records
+// (rec.DataAbs) when it can be read again and still holds what train read
+// there. Else it is nil, and why says why, for the user.
+func recordedTraining(rec *cnn.SplitRecord, all *corpus.Dataset, r *readOptions) (train *corpus.Dataset, why string) {
+	if rec == nil {
+		return nil, "the model file does not record how its splits were made"
+	}
+	data := all
+	if !isModelData(rec, all) {
+		if rec.DataAbs == "" || readOnce(rec.DataAbs, false) {
+			return nil, fmt.Sprintf("the data the model was trained on (%s) cannot be read again", rec.Data)
+		}
+		if _, err := os.Stat(rec.DataAbs); errors.Is(err, fs.ErrNotExist) {
+			return nil, fmt.Sprintf("%s, the data the model was trained on, is not there any more", rec.DataAbs)
+		}
+		ds, err := r.read(rec.DataAbs, false, io.Discard, true)
+		if err != nil {
+			return nil, fmt.Sprintf("%s, the data the model was trained on, cannot be read (%v)", rec.DataAbs, err)
+		}
+		if !isModelData(rec, ds) {
+			return nil, fmt.Sprintf("%s, the data the model was trained on, no longer holds what train read there "+
+				"(it changed since training, or is read here with other column options)", rec.DataAbs)
+		}
+		data = ds
+	}
+	train, _, _ = data.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
+	return train, ""
+}
+
+// trainingWarning is the warning ("" for none) that texts (named name: a
+// file, or --data) evaluated by the model whose split record is rec are the
+// data it was trained on (the same examples), or hold some of the texts of
+// its training split train (nil when it is not known).
+func trainingWarning(rec *cnn.SplitRecord, texts *corpus.Dataset, name string, train *corpus.Dataset) string {
+	if isModelData(rec, texts) {
 		as := ""
-		if absPath(path) != rec.DataAbs {
+		if absPath(name) != rec.DataAbs {
 			as = fmt.Sprintf(" (as %s)", rec.Data)
 		}
-		es.warnings = append(es.warnings, fmt.Sprintf("%s is the data the model was trained on%s: it %s, so its figures are not held-out figures",
-			path, as, mayHoldTraining))
-		return
+		return fmt.Sprintf("%s is the data the model was trained on%s: it %s, so its figures are not held-out figures", name, as, mayHoldTraining)
 	}
-	if !same {
-		return
+	if train == nil {
+		return ""
 	}
-	if n := inTraining(es.test, es.train); n > 0 {
-		es.warnings = append(es.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the model's training split, so its figures are not all held-out figures",
-			path, mayHoldTraining, n, wording.Texts(len(es.test.Examples))))
+	if n := inTraining(texts, train); n > 0 {
+		return fmt.Sprintf("%s %s: %d of its %s are texts of the model's training split, so its figures are not all held-out figures",
+			name, mayHoldTraining, n, wording.Texts(len(texts.Examples)))
 	}
+	return ""
 }
 
 // inTraining counts the texts of test that are also texts of train.

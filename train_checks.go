@@ -15,8 +15,8 @@ import (
 // dev split, unless --force; dev or test labels the training split lacks;
 // an empty vocabulary; and a model too large for the machine's memory. It
 // warns of an empty test split, and of a dev or test file that holds
-// texts of the training split.
-func (o *trainOptions) checkData(sp *splits, w io.Writer) error {
+// texts of the training split (held).
+func (o *trainOptions) checkData(sp *splits, held heldInTraining, w io.Writer) error {
 	all := sp.all
 	if n, k := len(all.Examples), len(all.Labels); k > 2 && 2*k > n && !o.force {
 		return fmt.Errorf("%s: %d distinct labels among %d examples, fewer than two examples per label: the label column looks like text; "+
@@ -36,11 +36,18 @@ func (o *trainOptions) checkData(sp *splits, w io.Writer) error {
 		}
 	}
 	if !o.quiet {
-		for _, msg := range o.heldFilesInTraining(sp) {
+		for _, msg := range held.warnings {
 			fmt.Fprintf(w, "warning: %s\n", msg)
 		}
 	}
 	return o.checkVocabulary(sp)
+}
+
+// heldInTraining is what heldFilesInTraining found: the warnings, and how
+// many texts of the dev and test files are texts of the training split.
+type heldInTraining struct {
+	warnings  []string
+	dev, test int
 }
 
 // heldFilesInTraining says, for the dev file (--dev) and the test file
@@ -48,25 +55,26 @@ func (o *trainOptions) checkData(sp *splits, w io.Writer) error {
 // training split (inTraining): such a test file's figures are not
 // held-out figures, and such a dev file chooses the epoch on texts the
 // model learned. Nothing is said of a held-out share of --data.
-func (o *trainOptions) heldFilesInTraining(sp *splits) []string {
-	var msgs []string
+func (o *trainOptions) heldFilesInTraining(sp *splits) heldInTraining {
+	var h heldInTraining
 	for _, f := range []struct {
 		opt, path, use string
 		ds             *corpus.Dataset
+		n              *int
 	}{
-		{"--dev", o.split.Dev, "the epoch it chooses is chosen on texts the model learned", sp.dev},
-		{"--test", o.split.Test, "its figures are not held-out figures", sp.test},
+		{"--dev", o.split.Dev, "the epoch it chooses is chosen on texts the model learned", sp.dev, &h.dev},
+		{"--test", o.split.Test, "its figures are not held-out figures", sp.test, &h.test},
 	} {
 		if f.path == "" {
 			continue
 		}
-		if n := inTraining(f.ds, sp.train); n > 0 {
-			msgs = append(msgs, fmt.Sprintf("%s %s: %d of its %s are texts of the training split of %s: %s; "+
+		if *f.n = inTraining(f.ds, sp.train); *f.n > 0 {
+			h.warnings = append(h.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the training split of %s: %s; "+
 				"take them out of one of the files ('telltale data --data %s %s %s' lists them)",
-				f.opt, f.path, n, wording.Texts(len(f.ds.Examples)), o.data, f.use, o.data, f.opt, f.path))
+				f.opt, f.path, *f.n, wording.Texts(len(f.ds.Examples)), o.data, f.use, o.data, f.opt, f.path))
 		}
 	}
-	return msgs
+	return h
 }
 
 // checkVocabulary tokenizes the training split as training will and

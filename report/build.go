@@ -26,6 +26,10 @@ type Options struct {
 	// model saw them (default: "none of them used for training", true of a
 	// separate file).
 	HeldOutNote string
+	// Warnings say why the held-out texts may not be held-out texts, or not
+	// those train evaluated on (a test file that is or holds training
+	// texts, one changed since training); shown beside the figures.
+	Warnings []string
 	// Dev is the model's dev split, shown in the Data section beside the
 	// training and held-out splits (its leaks counted with theirs); nil or
 	// empty when it is not known.
@@ -78,7 +82,7 @@ func Gather(ctx context.Context, m *cnn.Model, train, heldout *corpus.Dataset, o
 		progress = func(string, int, int) {}
 	}
 	in := Input{Title: opt.Title, ModelPath: opt.ModelPath, Generated: opt.Generated, Model: m,
-		HeldOut: cmp.Or(opt.HeldOut, "test"), HeldOutNote: cmp.Or(opt.HeldOutNote, "none of them used for training"), ProfiledOn: "the training split", FiltersPerClass: opt.FiltersPerClass}
+		HeldOut: cmp.Or(opt.HeldOut, "test"), HeldOutNote: cmp.Or(opt.HeldOutNote, "none of them used for training"), Warnings: opt.Warnings, ProfiledOn: "the training split", FiltersPerClass: opt.FiltersPerClass}
 	if in.Generated.IsZero() {
 		in.Generated = time.Now()
 	}

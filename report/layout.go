@@ -71,6 +71,8 @@ type epochRow struct {
 
 type metricsView struct {
 	Split, Note, N, Accuracy, MacroF1, WeightedF1, ECE string
+	// Warnings are Input.Warnings, each a sentence ending in a full stop.
+	Warnings []string
 	// Figures: the CNN and, when the model carries one, its linear
 	// baseline, each with accuracy and macro-F1 and their intervals;
 	// McNemar says the test between the two ("" without a baseline).
@@ -83,6 +85,15 @@ type metricsView struct {
 	ConfusionImg, ReliabilityImg template.URL
 	ConfusionAlt, ReliabilityAlt string
 	Bins                         []binRow
+}
+
+// sentences are ws, each ending in a full stop.
+func sentences(ws []string) []string {
+	out := make([]string, len(ws))
+	for i, w := range ws {
+		out[i] = strings.TrimSuffix(w, ".") + "."
+	}
+	return out
 }
 
 type classRow struct{ Label, Precision, Recall, F1, Support string }
@@ -440,6 +451,7 @@ func metrics(in Input) (*metricsView, error) {
 	}
 	mv := &metricsView{Split: split, Note: note, N: count(mt.N), Accuracy: fig.CNN.Accuracy.String(), MacroF1: fig.CNN.MacroF1.String(),
 		WeightedF1: iv.WeightedF1.String(), ECE: ece, Labels: mt.Labels, Level: fmt.Sprintf("%g%%", 100*cnn.IntervalLevel)}
+	mv.Warnings = sentences(in.Warnings)
 	mv.Figures = []figureRow{{Model: "CNN", Accuracy: fig.CNN.Accuracy.String(), MacroF1: fig.CNN.MacroF1.String()}}
 	if fig.Baseline != nil {
 		mv.Figures = append(mv.Figures, figureRow{Model: "Linear baseline", Note: baselineNote(in.Model),

@@ -54,6 +54,9 @@ type Input struct {
 	// Reliability), computed from the same predictions.
 	HeldOut     string
 	HeldOutNote string // where the held-out texts come from, e.g. "none of them used for training"
+	// Warnings say why the figures may not be held-out figures (Options.Warnings);
+	// the Evaluation section shows them above the figures.
+	Warnings    []string
 	Metrics     *cnn.Metrics
 	Reliability []cnn.ReliabilityBin
 	// Baseline is the CNN beside the linear baseline its file carries, on
