@@ -63,7 +63,7 @@ func (o *maskOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		return usagef("--out is required: where to write the masked model")
 	}
 	var err error
-	if o.indexes, err = listInts("filters", o.filters, 0, "a filter index (0 or more)"); err != nil {
+	if o.indexes, err = filterIndexes(o.filters); err != nil {
 		return err
 	}
 	names, err := listItems("words", o.words)

@@ -141,7 +141,7 @@ func wordsRemoved(m *cnn.Model, x []int32, ids []int32) []float64 {
 // TestMaskRefusals: mask refuses, before writing anything, a command line
 // with neither --filters nor --words, --words on a model without word
 // weights, a word the model's vocabulary lacks, the padding or unknown
-// word, and an empty item; each message names the fix.
+// word, an empty item and a filter index given twice; each message names the fix.
 func TestMaskRefusals(t *testing.T) {
 	wide, plain := wideTinyModel(t), tinyModel(t)
 	dir := t.TempDir()
@@ -157,6 +157,7 @@ func TestMaskRefusals(t *testing.T) {
 		{"unknown-word token", []string{"--model", wide, "--words", corpus.UNKWord}, []string{"is the unknown word itself"}},
 		{"padding", []string{"--model", wide, "--words", corpus.PADWord}, []string{"is the padding itself"}},
 		{"empty item", []string{"--model", wide, "--words", "kioskmail,,tkref"}, []string{"--words", "item 2 of 3 is empty"}},
+		{"repeated filter", []string{"--model", plain, "--filters", "1,0,1"}, []string{`--filters "1,0,1": filter 1 is given twice: give each index once`}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			code, _, stderr := tt(t, append(append([]string{"mask"}, c.args...), "--out", out)...)
