@@ -25,7 +25,10 @@ pair with input lines: a blank line gives an empty line (with --json,
 {"line":N,"blank":true}). --json gives each text's line: the line of --data
 where its record starts, or of standard input. --export writes the same
 line, the label --data gives a text (gold; empty where it has none), the
-predicted label and p_<label> for each class.`,
+predicted label and p_<label> for each class.
+
+A prediction describes the model, not the world: check it before you act
+on it, and never use a classifier alone for decisions about people.`,
 	Options: func() options { return new(predictOptions) },
 	Run:     runAs(runPredict),
 }
