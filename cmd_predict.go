@@ -229,5 +229,5 @@ func (s *textSource) each(ctx context.Context, env *runEnv, fn func(text) error)
 		}
 		return nil
 	}
-	return eachLine(ctx, env.Stdin, warnTo(env.Stderr, s.quiet), func(t text) error { return fn(text{Text: t.Text}) })
+	return eachLine(ctx, env.Stdin, warnTo(env.Stderr, s.quiet), func(t text) error { return fn(text{Text: t.Text, Line: t.Line}) })
 }
