@@ -2,6 +2,7 @@ package main
 
 import (
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -85,5 +86,31 @@ func TestUsageErrorsBeforeWork(t *testing.T) {
 				t.Errorf("%s written", out)
 			}
 		})
+	}
+}
+
+// TestOutputUnreplaceable: train's --out naming an existing model file
+// that is marked immutable (chattr +i) is refused with exit 2 before any
+// training, the message naming the mark and the fix, and the old model is
+// kept; without the check the rename at the end failed and the trained
+// model was lost. Skipped where chattr cannot set the mark.
+func TestOutputUnreplaceable(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 200)
+	out := filepath.Join(dir, "m.tt")
+	if err := os.WriteFile(out, []byte("old model\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if b, err := exec.Command("chattr", "+i", out).CombinedOutput(); err != nil {
+		t.Skipf("chattr +i cannot run here (it needs the superuser and a file system with the flag): %v: %s", err, b)
+	}
+	defer exec.Command("chattr", "-i", out).Run()
+	code, stdout, stderr := tt(t, "train", "--data", data, "--out", out, "--epochs", "1", "--dim", "4", "--maps", "2")
+	want := "--out " + out + " exists and cannot be replaced: it is marked immutable (chattr +i): clear the mark (chattr -i " + out + "), or choose another --out"
+	if code != 2 || !strings.Contains(stderr, want) || stdout != "" || strings.Contains(stderr, "training") {
+		t.Errorf("exit %d, stdout %q, stderr %s; want exit 2 before training and %q", code, stdout, stderr, want)
+	}
+	if b, _ := os.ReadFile(out); string(b) != "old model\n" {
+		t.Errorf("the old model now holds %q", b)
 	}
 }
