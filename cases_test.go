@@ -148,7 +148,7 @@ func TestRefusalsAndMessages(t *testing.T) {
 			filepath.Join(f.folder, "eggs") + ": symbolic link skipped: links in a data folder are not followed",
 			filepath.Join(f.folder, "ham", "9.txt") + ": symbolic link skipped"}},
 		// Messages.
-		{"headerless CSV", []string{"data", "--data", f.headerless}, 1, []string{"the file lacks its header row", "e.g. text,label"}},
+		{"headerless CSV", []string{"data", "--data", f.headerless}, 2, []string{"the file lacks its header row", "e.g. text,label"}},
 		{"dev-frac 0", train("--dev-frac", "0"), 2, []string{"--dev-frac 0: give a share between 0 and 1 (exclusive) of --data to hold out for early stopping"}},
 		{"test-frac 1", train("--test-frac", "1"), 2, []string{"--test-frac 1: give a share between 0 and 1"}},
 		{"shares that leave nothing", train("--dev-frac", "0.5", "--test-frac", "0.5"), 2, []string{"hold out 100% of --data: together they must stay below 1"}},

@@ -234,26 +234,6 @@ func (r *compareRow) setVsFirst(gold, first, pred []int) {
 	r.VsFirst = &mc
 }
 
-// compareModels evaluates models that share one encoder on data; warnings
-// are those on data's texts (evalSet.warnings), written into every row.
-func compareModels(env *runEnv, data cnn.Data, names []string, ms []*cnn.Model, warnings []string, asJSON bool) error {
-	rows := make([]compareRow, len(ms))
-	var first []int
-	for i, m := range ms {
-		met, pred, err := cnn.Evaluate(m, data, 0)
-		if err != nil {
-			return err
-		}
-		rows[i] = compareRow{Model: names[i], Metrics: met, Figures: cnn.FiguresOf(met, nil), Intervals: cnn.IntervalsOf(met), Warnings: warnings}
-		if i == 0 {
-			first = pred
-			continue
-		}
-		rows[i].setVsFirst(data.Labels, first, pred)
-	}
-	return writeComparison(env, rows, "", asJSON)
-}
-
 // writeComparison prints rows as tables (or JSON) and, for every model
 // whose file carries a baseline, the model beside it on the texts named by
 // heading.

@@ -138,6 +138,7 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 		}
 	}
 	var all []*explain.Explanation
+	var origins []text
 	out := bufio.NewWriterSize(env.Stdout, 64<<10)
 	// The feed stops with the pool's context, which ends at the first error,
 	// even while it waits for a line of standard input.
@@ -160,9 +161,10 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 		}
 		return explainedText{e, b.Bytes()}, err
 	}
-	emit := func(_ text, x explainedText) error {
+	emit := func(t text, x explainedText) error {
 		if o.export != "" {
 			all = append(all, x.e)
+			origins = append(origins, text{Line: t.Line, File: t.File})
 		}
 		// One write per text: a reader of the output sees whole texts.
 		if _, err := out.Write(x.out); err != nil {
@@ -173,7 +175,35 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	if err := inorder.Run(ctx, workers, feed, work, emit); err != nil || o.export == "" {
 		return err
 	}
-	return report.WriteTableFile(o.export, report.AttributionTable(all))
+	return report.WriteTableFile(o.export, withOrigins(report.AttributionTable(all), origins))
+}
+
+// withOrigins puts after the attribution table's text_index the line each
+// text came from (of --data, where its record starts, or of standard
+// input; empty for --text) and, when a text came from a folder, its file,
+// as predict's --export does, so that a row can be traced back to its
+// input. origins[i] is the origin of text_index i.
+func withOrigins(t *report.Table, origins []text) *report.Table {
+	files := slices.ContainsFunc(origins, func(o text) bool { return o.File != "" })
+	cols := []string{"line"}
+	if files {
+		cols = append(cols, "file")
+	}
+	t.Columns = slices.Insert(t.Columns, 1, cols...)
+	for r, row := range t.Rows {
+		o := origins[row[0].(int)]
+		var cells []any
+		if o.Line > 0 {
+			cells = append(cells, o.Line)
+		} else {
+			cells = append(cells, nil)
+		}
+		if files {
+			cells = append(cells, o.File)
+		}
+		t.Rows[r] = slices.Insert(row, 1, cells...)
+	}
+	return t
 }
 
 // explainedText is one text's explanation and its output, written by a

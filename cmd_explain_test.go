@@ -1,9 +1,14 @@
 package main
 
 import (
+	"encoding/csv"
+	"encoding/json"
 	"math"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -56,6 +61,54 @@ func TestKeptDownNamesWordWeights(t *testing.T) {
 		writeKeptDown(&b, e)
 		if out := b.String(); !strings.Contains(out, line) {
 			t.Errorf("wide %v: the window's line %s is missing:\n%s", wide, line, out)
+		}
+	}
+}
+
+// TestExplainStdinLines: texts read from standard input keep the number of
+// their input line, blank lines counted (as predict's): --json gives it as
+// line, and --export's rows carry it in the line column after text_index,
+// so a row is traced back to its input. Reference: the input written
+// here, whose texts are on lines 1, 3 and 4.
+func TestExplainStdinLines(t *testing.T) {
+	model := tinyModel(t)
+	in := "the ferry was late\n\nthanks to the crew\nthe cafe was closed\n"
+	want := []int{1, 3, 4}
+	code, stdout, stderr := runCmd(t, in, "explain", "--model", model, "--json")
+	if code != 0 {
+		t.Fatalf("explain --json: exit %d: %s", code, stderr)
+	}
+	var got []int
+	for _, l := range strings.Split(strings.TrimSpace(stdout), "\n") {
+		var e struct{ Line int }
+		if err := json.Unmarshal([]byte(l), &e); err != nil {
+			t.Fatal(err)
+		}
+		got = append(got, e.Line)
+	}
+	if !slices.Equal(got, want) {
+		t.Errorf("--json lines %v, want %v", got, want)
+	}
+	exp := filepath.Join(t.TempDir(), "attr.csv")
+	if code, _, stderr := runCmd(t, in, "explain", "--model", model, "--export", exp, "--quiet"); code != 0 {
+		t.Fatalf("explain --export: exit %d: %s", code, stderr)
+	}
+	f, err := os.Open(exp)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := csv.NewReader(f).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(rows) < 4 || !slices.Equal(rows[0][:3], []string{"text_index", "line", "token_index"}) {
+		t.Fatalf("export header %v (of %d rows)", rows[0], len(rows))
+	}
+	for _, r := range rows[1:] {
+		ti, _ := strconv.Atoi(r[0])
+		if r[1] != strconv.Itoa(want[ti]) {
+			t.Errorf("row %v: line %s, want %d", r[:4], r[1], want[ti])
 		}
 	}
 }

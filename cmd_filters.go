@@ -87,7 +87,7 @@ func (o *filtersOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		return usagef("--alpha %g: a level between 0 and 1 (both exclusive)", o.alpha)
 	}
 	var err error
-	if o.only, err = listInts("filters", o.filters, 0, "a filter index (0 or more)"); err != nil {
+	if o.only, err = filterIndexes(o.filters); err != nil {
 		return err
 	}
 	if o.data == "" {

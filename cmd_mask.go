@@ -28,7 +28,10 @@ mark, blank lines and lines starting with # skipped, white space around a
 word trimmed): the way to give a word that holds a comma. Give --filters,
 --words, --words-file or several. The original model file is never
 overwritten. With --data or --test, both models are evaluated side by side
-on the texts eval would use.`,
+on the texts eval would use, as compare does: each beside the linear
+baseline its file carries (the masked copy keeps the original's, since
+masking changes the CNN alone), with the exact McNemar tests of the two
+models and of each against its baseline.`,
 	Options: func() options { return new(maskOptions) },
 	Run:     runAs(runMask),
 }
@@ -63,7 +66,7 @@ func (o *maskOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		return usagef("--out is required: where to write the masked model")
 	}
 	var err error
-	if o.indexes, err = listInts("filters", o.filters, 0, "a filter index (0 or more)"); err != nil {
+	if o.indexes, err = filterIndexes(o.filters); err != nil {
 		return err
 	}
 	names, err := listItems("words", o.words)
@@ -183,7 +186,35 @@ func runMask(ctx context.Context, env *runEnv, o *maskOptions) error {
 	if err != nil {
 		return err
 	}
-	return compareModels(env, data, []string{o.model, o.out}, []*cnn.Model{m, masked}, es.warnings, o.asJSON)
+	return compareMasked(env, data, es, []string{o.model, o.out}, []*cnn.Model{m, masked}, o.asJSON)
+}
+
+// compareMasked evaluates the model and its masked copy, which share one
+// encoder, on data, the test texts of es, each beside the linear baseline
+// its file carries (the masked copy keeps the original's: masking changes
+// the CNN alone), as compare does: the rows of compare --json, and its
+// tables and figures; es.warnings go into every row.
+func compareMasked(env *runEnv, data cnn.Data, es *evalSet, names []string, ms []*cnn.Model, asJSON bool) error {
+	rows := make([]compareRow, len(ms))
+	var first []int
+	for i, m := range ms {
+		met, pred, err := cnn.Evaluate(m, data, 0)
+		if err != nil {
+			return err
+		}
+		c, err := compareWithBaseline(m, es.test, 0)
+		if err != nil {
+			return fmt.Errorf("%s: %w", names[i], err)
+		}
+		rows[i] = compareRow{Model: names[i], Metrics: met, Figures: cnn.FiguresOf(met, c), Intervals: cnn.IntervalsOf(met),
+			Baseline: baselineOf(m, c), Warnings: es.warnings}
+		if i == 0 {
+			first = pred
+			continue
+		}
+		rows[i].setVsFirst(data.Labels, first, pred)
+	}
+	return writeComparison(env, rows, splitHeading(es.name, len(es.test.Examples)), asJSON)
 }
 
 // wordList is the words to mask, as given.

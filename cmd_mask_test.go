@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"encoding/json"
 	"os"
 	"path/filepath"
@@ -141,7 +142,7 @@ func wordsRemoved(m *cnn.Model, x []int32, ids []int32) []float64 {
 // TestMaskRefusals: mask refuses, before writing anything, a command line
 // with neither --filters nor --words, --words on a model without word
 // weights, a word the model's vocabulary lacks, the padding or unknown
-// word, and an empty item; each message names the fix.
+// word, an empty item and a filter index given twice; each message names the fix.
 func TestMaskRefusals(t *testing.T) {
 	wide, plain := wideTinyModel(t), tinyModel(t)
 	dir := t.TempDir()
@@ -157,6 +158,7 @@ func TestMaskRefusals(t *testing.T) {
 		{"unknown-word token", []string{"--model", wide, "--words", corpus.UNKWord}, []string{"is the unknown word itself"}},
 		{"padding", []string{"--model", wide, "--words", corpus.PADWord}, []string{"is the padding itself"}},
 		{"empty item", []string{"--model", wide, "--words", "kioskmail,,tkref"}, []string{"--words", "item 2 of 3 is empty"}},
+		{"repeated filter", []string{"--model", plain, "--filters", "1,0,1"}, []string{`--filters "1,0,1": filter 1 is given twice: give each index once`}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			code, _, stderr := tt(t, append(append([]string{"mask"}, c.args...), "--out", out)...)
@@ -298,4 +300,80 @@ func TestMaskWordsFileRefusals(t *testing.T) {
 			}
 		})
 	}
+}
+
+// TestMaskShowsTheBaseline: the masked copy keeps the linear baseline of
+// the original's file (masking changes the CNN alone), and mask with
+// --test shows both models beside it as compare does: in --json every row
+// has baseline and figures.baseline, the baseline's figures those eval
+// gives the original on the same texts (the reference); in text, a block
+// "model N beside its linear baseline" for each.
+func TestMaskShowsTheBaseline(t *testing.T) {
+	model := tinyModel(t)
+	dir := t.TempDir()
+	out := filepath.Join(dir, "masked.tt")
+	test := filepath.Join("testdata", "demo", "test.csv")
+	code, stdout, stderr := tt(t, "mask", "--model", model, "--filters", "0,1", "--out", out, "--test", test, "--json", "--quiet")
+	if code != 0 {
+		t.Fatalf("mask --json: exit %d: %s", code, stderr)
+	}
+	masked, err := cnn.Load(out)
+	if err != nil || masked.Baseline == nil {
+		t.Fatalf("the masked copy carries no baseline (%v)", err)
+	}
+	type figures struct {
+		Baseline *struct {
+			Accuracy struct{ Estimate float64 } `json:"accuracy"`
+		} `json:"baseline"`
+	}
+	var rows []struct {
+		Model    string          `json:"model"`
+		Figures  figures         `json:"figures"`
+		Baseline json.RawMessage `json:"baseline"`
+	}
+	if err := json.Unmarshal([]byte(stdout), &rows); err != nil {
+		t.Fatalf("mask --json: %v\n%s", err, stdout)
+	}
+	code, evalOut, stderr := tt(t, "eval", "--model", model, "--test", test, "--json")
+	if code != 0 {
+		t.Fatalf("eval: exit %d: %s", code, stderr)
+	}
+	var ev struct {
+		Figures  figures         `json:"figures"`
+		Baseline json.RawMessage `json:"baseline"`
+	}
+	if err := json.Unmarshal([]byte(evalOut), &ev); err != nil || ev.Figures.Baseline == nil {
+		t.Fatalf("eval --json: %v, baseline figures %v", err, ev.Figures.Baseline)
+	}
+	if len(rows) != 2 {
+		t.Fatalf("%d rows", len(rows))
+	}
+	for _, r := range rows {
+		if r.Figures.Baseline == nil || len(r.Baseline) == 0 {
+			t.Errorf("%s: no baseline in the row: %s", r.Model, stdout)
+			continue
+		}
+		if r.Figures.Baseline.Accuracy != ev.Figures.Baseline.Accuracy || compact(t, r.Baseline) != compact(t, ev.Baseline) {
+			t.Errorf("%s: baseline %s, eval gives %s", r.Model, r.Baseline, ev.Baseline)
+		}
+	}
+	code, text, stderr := tt(t, "mask", "--model", model, "--filters", "0,1", "--out", out, "--test", test, "--quiet")
+	if code != 0 {
+		t.Fatalf("mask: exit %d: %s", code, stderr)
+	}
+	for _, w := range []string{"model 1 beside its linear baseline, ", "model 2 beside its linear baseline, ", "linear baseline"} {
+		if !strings.Contains(text, w) {
+			t.Errorf("mask's text lacks %q:\n%s", w, text)
+		}
+	}
+}
+
+// compact is the JSON raw without its white space.
+func compact(t *testing.T, raw []byte) string {
+	t.Helper()
+	var b bytes.Buffer
+	if err := json.Compact(&b, raw); err != nil {
+		t.Fatal(err)
+	}
+	return b.String()
 }

@@ -25,7 +25,10 @@ pair with input lines: a blank line gives an empty line (with --json,
 {"line":N,"blank":true}). --json gives each text's line: the line of --data
 where its record starts, or of standard input. --export writes the same
 line, the label --data gives a text (gold; empty where it has none), the
-predicted label and p_<label> for each class.`,
+predicted label and p_<label> for each class.
+
+A prediction describes the model, not the world: check it before you act
+on it, and never use a classifier alone for decisions about people.`,
 	Options: func() options { return new(predictOptions) },
 	Run:     runAs(runPredict),
 }
@@ -226,5 +229,5 @@ func (s *textSource) each(ctx context.Context, env *runEnv, fn func(text) error)
 		}
 		return nil
 	}
-	return eachLine(ctx, env.Stdin, warnTo(env.Stderr, s.quiet), func(t text) error { return fn(text{Text: t.Text}) })
+	return eachLine(ctx, env.Stdin, warnTo(env.Stderr, s.quiet), func(t text) error { return fn(text{Text: t.Text, Line: t.Line}) })
 }

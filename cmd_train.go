@@ -88,7 +88,11 @@ regard to case (tkref matches in "TKREF-48213" but not in "tkrefs"), or a
 regular expression between slashes in Go's RE2 syntax (/TKREF-[0-9]{5}/),
 matched anywhere. Blank lines and lines starting with # are skipped. A line
 that looks like a regular expression but lacks the slashes is a plain token
-and usually matches nothing: train warns of it.`,
+and usually matches nothing: train warns of it.
+
+A model describes its training data, not the world: check what it learned
+(telltale audit) before you act on its labels, and never use a classifier
+alone for decisions about people.`,
 	Options: func() options { return new(trainOptions) },
 	Run:     runAs(runTrain),
 }

@@ -310,7 +310,7 @@ func TestTrainOptionsReachTheModel(t *testing.T) {
 			t.Errorf("%s with --dim 0: dimension %d, want the file's 6", v, m.Config.Dim)
 		}
 		code, _, stderr := tt(t, "train", "--data", data, "--out", model, "--epochs", "1", "--maps", "4", "--quiet", "--vectors", v, "--dim", "8")
-		if code != 1 || !strings.Contains(stderr, "holds 6-dimensional vectors but the model's embedding dimension is 8") {
+		if code != 2 || !strings.Contains(stderr, "--vectors "+v+" line 1: the file's vectors have 6 numbers each, but --dim is 8: give --dim 6, or leave --dim out to take the file's") {
 			t.Errorf("%s with --dim 8: exit %d, %s", v, code, stderr)
 		}
 	}

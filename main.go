@@ -198,8 +198,17 @@ func execute(ctx context.Context, c *command, args []string, env *runEnv) error 
 	if err := o.check(fs, env); err != nil {
 		return err
 	}
-	if err := guardFiles(o.files()); err != nil {
+	outputs, inputs := o.files()
+	if err := guardFiles(outputs, inputs); err != nil {
 		return err
+	}
+	if err := checkCorpora(o, inputs); err != nil {
+		return err
+	}
+	if p, ok := o.(preflighter); ok {
+		if err := p.preflight(); err != nil {
+			return err
+		}
 	}
 	return c.Run(ctx, env, o)
 }

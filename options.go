@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"runtime"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -138,6 +139,21 @@ func listInts(option, value string, lo int, what string) ([]int, error) {
 			return nil, usagef("--%s %q: %d is not %s", option, clip(value), n, what)
 		}
 		out[i] = n
+	}
+	return out, nil
+}
+
+// filterIndexes is --filters: a comma-separated list of filter indexes
+// (0 or more), each given once.
+func filterIndexes(value string) ([]int, error) {
+	out, err := listInts("filters", value, 0, "a filter index (0 or more)")
+	if err != nil {
+		return nil, err
+	}
+	for i, n := range out {
+		if slices.Contains(out[:i], n) {
+			return nil, usagef("--filters %q: filter %d is given twice: give each index once", clip(value), n)
+		}
 	}
 	return out, nil
 }

@@ -111,6 +111,9 @@ func (r *recipeOptions) check(fs *flag.FlagSet) error {
 			r.Dim = cnn.DefaultRecipe().Model.Dim // for the memory check; training reads the file and says what is wrong
 		}
 	}
+	if err := r.checkVectorsDim(fs); err != nil {
+		return err
+	}
 	dimWhat := "numbers per word embedding"
 	if r.Vectors == "" {
 		dimWhat += "; 0 only with --vectors, for the file's"
@@ -211,6 +214,22 @@ func (r *recipeOptions) charConfig() *cnn.CharConfig {
 		return nil
 	}
 	return &cnn.CharConfig{Filters: r.CharMaps, Width: r.CharWidth, Dim: cnn.DefaultCharDim, MaxChars: cnn.DefaultMaxChars}
+}
+
+// checkVectorsDim refuses a --dim that the first line of --vectors
+// contradicts, before any work (training would find it only after
+// reading the data). A pipe is not read here (it can be read only once),
+// and a first line that cannot be read is left to training, which says
+// what is wrong with the file.
+func (r *recipeOptions) checkVectorsDim(fs *flag.FlagSet) error {
+	if r.Vectors == "" || r.dimFromVectors || !isSet(fs, "dim") || inputfile.IsPipe(r.Vectors) {
+		return nil
+	}
+	if d := vectorsDim(r.Vectors); d > 0 && d != r.Dim {
+		return usagef("--vectors %s line 1: the file's vectors have %d numbers each, but --dim is %d: give --dim %d, or leave --dim out to take the file's",
+			clip(r.Vectors), d, r.Dim, d)
+	}
+	return nil
 }
 
 // vectorsDim is the dimension the first line of the word-vector file at

@@ -7,14 +7,26 @@ import (
 
 // change says how a probability moves by a drop d (positive: it falls):
 // "falls by 0.029", "rises by 0.029", never a fall by a negative amount.
+// A move that three decimals would show as 0.000 is given to two
+// significant digits ("rises by 0.00012"), so that a move is never said to
+// be none.
 func change(d float64) string {
 	switch {
 	case d > 0:
-		return "falls by " + strconv.FormatFloat(d, 'f', 3, 64)
+		return "falls by " + amount(d)
 	case d < 0:
-		return "rises by " + strconv.FormatFloat(-d, 'f', 3, 64)
+		return "rises by " + amount(-d)
 	}
 	return "does not change"
+}
+
+// amount writes a positive probability change: three decimals, or two
+// significant digits below 0.0005.
+func amount(x float64) string {
+	if x < 0.0005 {
+		return strconv.FormatFloat(x, 'g', 2, 64)
+	}
+	return strconv.FormatFloat(x, 'f', 3, 64)
 }
 
 // auditStage is an audit progress stage as the progress bar shows it: the

@@ -48,3 +48,35 @@ func TestReadSplitRecord(t *testing.T) {
 		t.Errorf("a model file cut inside its header: no error")
 	}
 }
+
+// TestRecordsRecipe: whether a model records its training recipe, read
+// from the header alone, agrees with Load's Info.Recipe (the reference),
+// for a model that has one and for the same model without it.
+func TestRecordsRecipe(t *testing.T) {
+	dir := t.TempDir()
+	m, _ := savedModel(t)
+	if m.Info.Recipe == nil {
+		m.Info.Recipe = &TrainConfig{Epochs: 1}
+	}
+	for _, c := range []struct {
+		name   string
+		recipe *TrainConfig
+	}{{"with", m.Info.Recipe}, {"without", nil}} {
+		m.Info.Recipe = c.recipe
+		p := filepath.Join(dir, c.name+".tt")
+		if err := m.Save(p); err != nil {
+			t.Fatal(err)
+		}
+		loaded, err := Load(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		got, err := RecordsRecipe(p)
+		if err != nil || got != (loaded.Info.Recipe != nil) {
+			t.Errorf("%s a recipe: RecordsRecipe = %v, %v; Load's recipe %v", c.name, got, err, loaded.Info.Recipe)
+		}
+	}
+	if _, err := RecordsRecipe(filepath.Join(dir, "missing.tt")); err == nil {
+		t.Error("a missing file: no error")
+	}
+}

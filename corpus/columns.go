@@ -61,7 +61,7 @@ func readColumns(r io.Reader, path, format string, opt Options) ([]string, error
 		}
 		header, err := cr.Read()
 		if err == io.EOF {
-			return nil, errAt(path, 0, ErrEmpty, "file is empty: it needs a header row naming the text and label columns")
+			return nil, errAt(path, 0, ErrEmpty, "file is empty: %s", needsHeader(opt.Unlabeled))
 		}
 		if err != nil {
 			return nil, errAt(path, 1, ErrFormat, "cannot read the header row (%v): the first line must name the columns, separated by %s", err, map[string]string{"csv": "commas", "tsv": "tabs"}[format])
@@ -90,7 +90,7 @@ func readColumns(r io.Reader, path, format string, opt Options) ([]string, error
 			}
 			var obj map[string]json.RawMessage
 			if err := json.Unmarshal(b, &obj); err != nil {
-				return nil, errAt(path, line, ErrFormat, "not a JSON object (%v): write one object per line, like {\"text\": \"...\", \"label\": \"...\"}", err)
+				return nil, notObject(b, path, line, err)
 			}
 			keys := make([]string, 0, len(obj))
 			for k := range obj {

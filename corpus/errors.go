@@ -84,7 +84,7 @@ func (ws *warnings) result() []Warning {
 func errAt(path string, line int, sentinel error, format string, args ...any) error {
 	msg := fmt.Sprintf(format, args...)
 	if line > 0 {
-		return kindError(sentinel, "corpus: %s line %d: %s", path, line, msg)
+		return &kindedError{msg: fmt.Sprintf("corpus: %s line %d: %s", path, line, msg), kind: sentinel, line: line}
 	}
 	return kindError(sentinel, "corpus: %s: %s", path, msg)
 }
@@ -131,6 +131,7 @@ func quoteList(ss []string) string {
 type kindedError struct {
 	msg  string
 	kind error
+	line int // the line errAt named; 0 for the whole file
 }
 
 func (e *kindedError) Error() string { return e.msg }

@@ -57,6 +57,12 @@ func TestHeaderlessHint(t *testing.T) {
 			t.Errorf("%q lacks %q", err, want)
 		}
 	}
+	// A TSV file is told to add a header in its own delimiter.
+	p = writeFile(t, t.TempDir(), "a.tsv", "the ferry was late\tcomplaints\nthanks to the crew\tpraise\n")
+	_, _, err = Load(p, Options{})
+	if !errors.Is(err, ErrColumn) || !strings.Contains(err.Error(), "e.g. text, a tab, label (text<TAB>label)") || strings.Contains(err.Error(), "text,label") {
+		t.Errorf("TSV without a header: %v", err)
+	}
 	p = writeFile(t, t.TempDir(), "a.jsonl", `{"words":"a","tag":"b","id":1}`+"\n")
 	_, _, err = Load(p, Options{})
 	if err == nil || strings.Contains(err.Error(), "header") || !strings.Contains(err.Error(), `the fields are ["id" "tag" "words"]: pass --text-col`) {

@@ -201,9 +201,10 @@ var (
 
 // pickColumns resolves the text and label column indexes in names; li is
 // −1 when opt.Unlabeled and no label column is named or recognised. header
-// says the names come from a header row (CSV, TSV), whose absence is the
-// usual reason why no name is recognised.
-func pickColumns(names []string, opt Options, path string, line int, header bool) (ti, li int, err error) {
+// is the format ("csv", "tsv") when the names come from a header row,
+// whose absence is the usual reason why no name is recognised, and ""
+// otherwise.
+func pickColumns(names []string, opt Options, path string, line int, header string) (ti, li int, err error) {
 	find := func(want string) int {
 		for i, n := range names {
 			if strings.EqualFold(strings.TrimSpace(n), want) {
@@ -289,14 +290,20 @@ func columnNote(opt Options, text, label, what string) string {
 }
 
 // columnsHint names the columns found and the fixes for an unrecognised
-// text or label column (what). A header row whose names are not column
-// names is most often a missing header: the first record was taken for it.
-func columnsHint(list, what string, header bool) string {
-	if !header {
+// text or label column (what). A header row (header is its format, "csv"
+// or "tsv"; "" for none) whose names are not column names is most often a
+// missing header: the first record was taken for it. The header suggested
+// is in the file's own delimiter.
+func columnsHint(list, what, header string) string {
+	if header == "" {
 		return fmt.Sprintf("the fields are %s: pass --%s-col with the name of the %s field", list, what, what)
 	}
+	example := "text,label"
+	if header == "tsv" {
+		example = "text, a tab, label (text<TAB>label)"
+	}
 	return fmt.Sprintf("the columns are %s (the first line): if that line is an example rather than a header, the file lacks its header row: "+
-		"add a first line naming the columns, e.g. text,label; otherwise pass --%s-col with the name of the %s column", list, what, what)
+		"add a first line naming the columns, e.g. %s; otherwise pass --%s-col with the name of the %s column", list, example, what, what)
 }
 
 // checkText validates the bytes of a field: no NUL, valid UTF-8 (or
@@ -407,11 +414,11 @@ func readDelimited(r io.Reader, path, format string, opt Options, ws *warnings, 
 		return err
 	}
 	d := newDelimited(br, path, format, recordLimitFactor*opt.MaxTextBytes)
-	names, err := d.header(format, ws)
+	names, err := d.header(format, opt.Unlabeled, ws)
 	if err != nil {
 		return err
 	}
-	ti, li, err := pickColumns(names, opt, path, 1, true)
+	ti, li, err := pickColumns(names, opt, path, 1, format)
 	if err != nil {
 		return err
 	}
@@ -503,15 +510,15 @@ func (d *delimited) wrap(err error, line int) error {
 }
 
 // header reads the header row, the first record, and returns its column
-// names, trimmed. It refuses an empty file, a header in the wrong encoding,
+// names, trimmed (unlabeled: texts to label, which need no label column). It refuses an empty file, a header in the wrong encoding,
 // a single column that holds another format's delimiter and a name that
 // appears twice (letter case aside).
-func (d *delimited) header(format string, ws *warnings) ([]string, error) {
+func (d *delimited) header(format string, unlabeled bool, ws *warnings) ([]string, error) {
 	path := d.path
 	header, err := d.cr.Read()
 	// The header is not checked for field counts: records must match it.
 	if err == io.EOF {
-		return nil, errAt(path, 0, ErrEmpty, "file is empty: it needs a header row naming the text and label columns")
+		return nil, errAt(path, 0, ErrEmpty, "file is empty: %s", needsHeader(unlabeled))
 	}
 	if err != nil {
 		return nil, d.wrap(err, 1)
@@ -655,7 +662,7 @@ func parseJSONLine(b []byte, path string, line int, opt Options, keys *jsonlKeys
 	}
 	var obj map[string]json.RawMessage
 	if err := json.Unmarshal(b, &obj); err != nil {
-		return "", "", false, errAt(path, line, ErrFormat, "not a JSON object (%v): write one object per line, like {\"text\": \"...\", \"label\": \"...\"}", err)
+		return "", "", false, notObject(b, path, line, err)
 	}
 	if keys.text == "" {
 		names := make([]string, 0, len(obj))
@@ -663,7 +670,7 @@ func parseJSONLine(b []byte, path string, line int, opt Options, keys *jsonlKeys
 			names = append(names, k)
 		}
 		sort.Strings(names)
-		ti, li, err := pickColumns(names, opt, path, line, false)
+		ti, li, err := pickColumns(names, opt, path, line, "")
 		if err != nil {
 			return "", "", false, err
 		}
@@ -1046,4 +1053,33 @@ func readFileLimited(path string, max int) (string, bool, error) {
 		return "", false, err
 	}
 	return string(b), len(b) > max, nil
+}
+
+// needsHeader says what the header row of a CSV or TSV file names: the
+// text and label columns, or for texts to label (unlabeled) the text
+// column alone.
+func needsHeader(unlabeled bool) string {
+	if unlabeled {
+		return "it needs a header row naming the text column (and the label column, if the file has labels)"
+	}
+	return "it needs a header row naming the text and label columns"
+}
+
+// notObject is the error for a JSON Lines line that json.Unmarshal could
+// not read as an object (err): it names what the line holds instead, in
+// JSON's words rather than Go's, and the fix. A line that starts a JSON
+// array is most often the first line of a JSON file (one array of
+// objects), which is not JSON Lines.
+func notObject(b []byte, path string, line int, err error) error {
+	const fix = `write one object per line, like {"text": "...", "label": "..."}`
+	t := bytes.TrimSpace(b)
+	var te *json.UnmarshalTypeError
+	switch {
+	case len(t) > 0 && t[0] == '[':
+		return errAt(path, line, ErrFormat, "the line holds a JSON array, not an object: the file looks like one JSON array rather than JSON Lines; "+
+			"convert it to one object per line, e.g. jq -c '.[]' FILE > FILE.jsonl")
+	case errors.As(err, &te):
+		return errAt(path, line, ErrFormat, "the line holds a JSON %s, not an object: %s", te.Value, fix)
+	}
+	return errAt(path, line, ErrFormat, "not a JSON object (%v): %s", err, fix)
 }

@@ -18,7 +18,8 @@ var cueSignals = []string{audit.SignalEdge, audit.SignalLine, audit.SignalSpan, 
 // most common form in the text, the pattern that takes it out of text),
 // its label, verdict and mark; association in the training split (texts,
 // those in the label, the share with its 95% Wilson interval, the exact
-// p-value and the corrected one); artifact-likeness and every signal's
+// p-value and the corrected one, each with its bound where it is below
+// audit.PFloor: p_below, adjusted_p_below); artifact-likeness and every signal's
 // value; reliance on the confirming half ("half" says when only the
 // choosing half measured it), each rate with its 95% bootstrap interval
 // and the sign tests (empty where the half holds the cue in too few texts
@@ -28,7 +29,7 @@ var cueSignals = []string{audit.SignalEdge, audit.SignalLine, audit.SignalSpan, 
 // McNemar p-value of masking.
 func CueTable(r *audit.Result) *Table {
 	cols := []string{"list", "rank", "cue", "surface", "label", "verdict", "mark", "pattern",
-		"train_texts", "in_label", "label_share", "label_share_low", "label_share_high", "p", "adjusted_p", "artifact_likeness"}
+		"train_texts", "in_label", "label_share", "label_share_low", "label_share_high", "p", "adjusted_p", "p_below", "adjusted_p_below", "artifact_likeness"}
 	for _, s := range cueSignals {
 		cols = append(cols, "signal_"+s)
 	}
@@ -54,7 +55,7 @@ func cueRow(list string, rank int, c *audit.Candidate) []any {
 	as := c.Association
 	lo, hi := audit.Wilson(as.InLabel, as.Texts, 0.95)
 	row := []any{list, rank, c.Text, c.Surface, c.Label, c.Verdict, c.Mark, c.Pattern,
-		as.Texts, as.InLabel, as.Share, lo, hi, as.P, as.Adjusted, c.ArtifactLikeness}
+		as.Texts, as.InLabel, as.Share, lo, hi, as.P, as.Adjusted, below(as.P), below(as.Adjusted), c.ArtifactLikeness}
 	for _, name := range cueSignals {
 		var v any
 		for _, s := range c.Signals {
@@ -105,4 +106,12 @@ func StabilityTable(st []audit.Stable) *Table {
 		t.Add(s.Text, s.Label, s.Found, s.Models, strings.Join(ranks, " "), s.Stable)
 	}
 	return t
+}
+
+// below is audit.Below(p) for a cell: the bound, or empty when p is above it.
+func below(p float64) any {
+	if b := audit.Below(p); b > 0 {
+		return b
+	}
+	return nil
 }

@@ -137,7 +137,7 @@ const (
 // model has.
 func CanExport(m *cnn.Model) error {
 	if m.Config.Chars != nil && (m.Char == nil || len(m.Vocab) != m.Config.VocabSize) {
-		return fmt.Errorf("torchmodel: the model's character layer has no weights or no vocabulary to spell its words from: load it from its model file (cnn.Load): %w", ErrLayout)
+		return plain(fmt.Errorf("torchmodel: the model's character layer has no weights or no vocabulary to spell its words from: load it from its model file (cnn.Load): %w", ErrLayout))
 	}
 	return nil
 }
@@ -149,7 +149,8 @@ func CanExport(m *cnn.Model) error {
 // model with a tokenizer file, TokenizerFile. Each file is written
 // atomically. A model whose words or labels contain a line break cannot be
 // written one per line and is refused before anything is written.
-func Export(m *cnn.Model, dir string) error {
+func Export(m *cnn.Model, dir string) (err error) {
+	defer func() { err = plain(err) }()
 	if err := CanExport(m); err != nil {
 		return err
 	}

@@ -117,7 +117,8 @@ type Imported struct {
 // 1−σ first.
 //
 // Nothing is written. Errors name the file and the key, line or token.
-func Import(ctx context.Context, o Options) (*Imported, error) {
+func Import(ctx context.Context, o Options) (_ *Imported, err error) {
+	defer func() { err = plain(err) }()
 	sd, err := readWeights(ctx, o)
 	if err != nil {
 		return nil, err

@@ -22,7 +22,8 @@ const maxListFile = 1 << 30
 // ends are accepted). Empty tokens, duplicate tokens and, in JSON, missing,
 // repeated or non-integer ids are errors naming the file, the line and
 // the token.
-func ReadVocab(path string) ([]string, error) {
+func ReadVocab(path string) (_ []string, err error) {
+	defer func() { err = plain(err) }()
 	b, err := readSmall(path)
 	if err != nil {
 		return nil, err
@@ -38,9 +39,10 @@ func ReadVocab(path string) ([]string, error) {
 func ReadLabels(path string) ([]string, error) {
 	b, err := readSmall(path)
 	if err != nil {
-		return nil, err
+		return nil, plain(err)
 	}
-	return lines(path, b, "label")
+	words, err := lines(path, b, "label")
+	return words, plain(err)
 }
 
 func readSmall(path string) ([]byte, error) {

@@ -23,7 +23,8 @@ type File struct {
 var ErrOntoInput = errors.New("outguard: output would overwrite an input")
 
 // ErrNotWritable is wrapped by the error of an output that cannot be
-// written: it is a folder, or its folder is missing or not writable.
+// written: it is a folder, its folder is missing or not writable, or it
+// exists and cannot be replaced.
 var ErrNotWritable = errors.New("outguard: output cannot be written")
 
 // Error is a problem Check found. It wraps ErrOntoInput or ErrNotWritable.
@@ -177,7 +178,33 @@ func writable(f File) error {
 	}
 	name := probe.Name()
 	probe.Close()
-	return os.Remove(name)
+	if err := os.Remove(name); err != nil {
+		return err
+	}
+	return replaceable(f, dir, opt)
+}
+
+// replaceable returns the error for an output that exists as a regular
+// file which a rename over it, as every file is written, would be refused
+// for: a file marked immutable or append-only (chattr +i, +a), or another
+// user's file in a sticky folder. Found before the work, so that nothing
+// is lost at the end. Other outputs (a link, which the rename replaces
+// itself, or a named pipe, which is not opened here) are left alone.
+func replaceable(f File, dir, opt string) error {
+	fi, err := os.Lstat(f.Path)
+	if err != nil || !fi.Mode().IsRegular() {
+		return nil
+	}
+	why, fix := inodeFlags(f.Path)
+	if why == "" {
+		if di, err := os.Stat(dir); err == nil {
+			why, fix = stickyOwner(fi, di), "ask its owner to remove it"
+		}
+	}
+	if why == "" {
+		return nil
+	}
+	return fail(ErrNotWritable, "%s %s exists and cannot be replaced: %s: %s, or choose another %s", f.Name, f.Path, why, fix, opt)
 }
 
 // ErrInput marks an input that cannot be read: missing, a folder where a
