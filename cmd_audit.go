@@ -507,9 +507,25 @@ func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result,
 	// The new model was trained on m's training and dev splits of the same
 	// data (trainingRecipe refuses other data), so m's split record is its
 	// own: eval, report, filters and audit then find its test split again.
+	// It records too that the choosing half of the held-out texts chose
+	// the cues, so that a later command warns of figures on those texts.
 	rec := *m.Info.Splits
 	rt.Model.Info.Splits = &rec
+	rt.Model.Info.CuesChosenOn = m.Info.CuesChosenOn
+	rt.Model.Info.ChoseCues(cnn.CueChoice{Half: "selection", Heldout: r.heldoutName(&rec), Of: len(r.es.test.Examples),
+		Fingerprint: r.es.test.Fingerprint(), Seed: r.o.seed, Texts: res.Selection})
 	return rt, nil
+}
+
+// heldoutName names the audit's held-out texts for a cnn.CueChoice:
+// "test" when they are the test split that rec, the audited model's split
+// record, records (the share of --data, or its test file), else the
+// absolute path of --test.
+func (r *auditRun) heldoutName(rec *cnn.SplitRecord) string {
+	if t := r.o.test; t != "" && absPath(t) != rec.TestFile {
+		return absPath(t)
+	}
+	return "test"
 }
 
 // loadMarks reads the marks file (none yet is no marks, unless --marks

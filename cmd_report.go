@@ -98,7 +98,7 @@ func runReport(ctx context.Context, env *runEnv, o *reportOptions) error {
 	}
 	bar := newProgressBar(env.Stderr, o.quiet)
 	src := auditSource{model: o.model, data: o.data, test: o.test, read: &o.read, es: es, m: m}
-	in, err := report.Gather(ctx, m, es.train, es.test, report.Options{Title: o.title, ModelPath: o.model, HeldOut: name, HeldOutNote: es.note, Dev: es.dev,
+	in, err := report.Gather(ctx, m, es.train, es.test, report.Options{Title: o.title, ModelPath: o.model, HeldOut: name, HeldOutNote: es.noteWithWarnings(), Dev: es.dev,
 		SkipAudit: o.noAudit, Threads: o.threads.N, Audit: audit.Options{Seed: cnn.DefaultRecipe().Train.Seed, // as telltale audit's default --seed: the same halves
 			Marks: marks, TrainFile: o.data, HeldoutFile: cmpOr(o.test, o.data),
 			HeldoutShare: src.heldoutShare(), RetrainCommands: src.retrainCommands}},

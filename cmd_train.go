@@ -101,9 +101,12 @@ type trainOptions struct {
 	threads    threadsOption
 	out        string
 	maskTokens string
-	force      bool
-	asJSON     bool
-	quiet      bool
+	// maskPatterns are the patterns of the --mask-tokens file, as the
+	// recipe takes them out and the model records them.
+	maskPatterns []string
+	force        bool
+	asJSON       bool
+	quiet        bool
 }
 
 func (o *trainOptions) register(fs *flag.FlagSet) {
@@ -162,12 +165,20 @@ func runTrain(ctx context.Context, env *runEnv, o *trainOptions) error {
 	if !o.quiet {
 		printWarnings(env.Stderr, sp.all.LabelWarnings())
 	}
+	// The checks read the training split as it will be learned: with the
+	// --mask-tokens patterns taken out. TrainText takes them out itself
+	// (the recipe's MaskTokens, which the model file records).
+	checked := sp
 	if o.maskTokens != "" {
-		if sp.train, err = maskTrainingText(sp.train, o.maskTokens, env.Stderr, o.quiet); err != nil {
+		masked, patterns, err := maskTrainingText(sp.train, o.maskTokens, env.Stderr, o.quiet)
+		if err != nil {
 			return err
 		}
+		o.maskPatterns = patterns
+		c := *sp
+		c.train, checked = masked, &c
 	}
-	if err := o.checkData(sp, env.Stderr); err != nil {
+	if err := o.checkData(checked, env.Stderr); err != nil {
 		return err
 	}
 	trained, err := o.fit(ctx, sp, env.Stderr)
@@ -184,7 +195,9 @@ func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.T
 		bar.line("training on %s (%d labels), dev %s, test %s", wording.Texts(len(sp.train.Examples)), len(sp.train.Labels),
 			wording.Texts(len(sp.dev.Examples)), wording.Texts(len(sp.test.Examples)))
 	}
-	trained, err := cnn.TrainText(ctx, sp.train, sp.dev, o.recipe.recipe(o.split.Seed, o.threads.N), func(p cnn.Progress) {
+	rec := o.recipe.recipe(o.split.Seed, o.threads.N)
+	rec.Train.MaskTokens = o.maskPatterns
+	trained, err := cnn.TrainText(ctx, sp.train, sp.dev, rec, func(p cnn.Progress) {
 		if o.quiet {
 			return
 		}
@@ -262,6 +275,9 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 		StoppedEarly: res.StoppedEarly, Diverged: res.Diverged != nil, Divergence: res.Diverged, ExamplesPerSecond: res.ExamplesPerSec, Dev: m.Info.Dev, Test: m.Info.Test,
 		Splits: m.Info.Splits, Seconds: time.Since(start).Seconds()}
 	summary.TestFigures, summary.Baseline = figures, baselineOf(m, cmp)
+	if m.Info.Recipe != nil {
+		summary.MaskTokens = m.Info.Recipe.MaskTokens
+	}
 	if figures != nil {
 		summary.advice = baselineAdvice(m, figures.McNemar)
 	}
@@ -324,7 +340,10 @@ type trainSummary struct {
 	TestFigures   *cnn.Figures         `json:"test_figures,omitempty"`
 	Baseline      *baselineJSON        `json:"baseline,omitempty"`
 	Splits        *cnn.SplitRecord     `json:"splits,omitempty"`
-	advice        string               // baselineAdvice, printed after the test split's figures
+	// MaskTokens are the patterns --mask-tokens took out of the training
+	// text, as the model's recipe records them (info.recipe.mask_tokens).
+	MaskTokens []string `json:"mask_tokens,omitempty"`
+	advice     string   // baselineAdvice, printed after the test split's figures
 }
 
 // devNote is train --json's dev_note.

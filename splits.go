@@ -6,6 +6,7 @@ import (
 	"io"
 	"path/filepath"
 	"slices"
+	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
@@ -202,6 +203,7 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	if err := es.checkNotEmpty(rec, data, test, same); err != nil {
 		return nil, err
 	}
+	es.warnCuesChosen(&m.Info)
 	if es.train == nil {
 		es.train = all
 	}
@@ -211,6 +213,37 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 		}
 	}
 	return es, nil
+}
+
+// warnCuesChosen adds cuesChosen's warning, if any.
+func (es *evalSet) warnCuesChosen(info *cnn.Info) {
+	if w := cuesChosen(info, es.test); w != "" {
+		es.warnings = append(es.warnings, w)
+	}
+}
+
+// cuesChosen is the warning that the texts of test hold the half of
+// held-out texts that chose the cues the model of info was retrained
+// without (cnn.Info.CuesChosenOn), known by their fingerprint under any
+// name: the recorded test split, its file, or --test; "" when they do not.
+func cuesChosen(info *cnn.Info, test *corpus.Dataset) string {
+	c := info.CuesChosenIn(len(test.Examples), test.Fingerprint())
+	if c == nil {
+		return ""
+	}
+	fix := fmt.Sprintf("for figures on texts that took no part, give the other half, the confirming half, with --test "+
+		"(telltale audit of the model it was retrained from, with --seed %d and --confirming-out FILE, writes it)", c.Seed)
+	return heldout.CuesChosen(len(c.Texts), len(test.Examples), fix)
+}
+
+// noteWithWarnings is the note followed by the warnings, each a sentence
+// of its own, for the report, which shows them with its figures.
+func (es *evalSet) noteWithWarnings() string {
+	out := strings.TrimSuffix(es.note, ".")
+	for _, w := range es.warnings {
+		out += ". Warning: " + strings.TrimSuffix(w, ".")
+	}
+	return out
 }
 
 // readOnce reports whether a split file a model recorded (path, "" for

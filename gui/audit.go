@@ -367,6 +367,24 @@ func retrainPatterns(r *audit.Result, marks *audit.Marks) []string {
 	return ps
 }
 
+// recordRetrained gives m, a model retrained on the splits of the model
+// the audit as audits (retrainRecipe checked that they are the open
+// corpus's), that model's split record, and records the audit's choosing
+// half as texts that chose the cues (cnn.Info.ChoseCues), as audit
+// --retrain-out does: eval, compare and report then find its test split
+// and warn of the figures on those texts.
+func recordRetrained(m *cnn.Model, as *auditState) {
+	rec := *as.ms.Model.Info.Splits
+	heldout := "test"
+	if f := as.cs.Record.TestFile; f != rec.TestFile {
+		heldout = f
+	}
+	m.Info.Splits = &rec
+	m.Info.CuesChosenOn = as.ms.Model.Info.CuesChosenOn
+	m.Info.ChoseCues(cnn.CueChoice{Half: "selection", Heldout: heldout, Of: len(as.cs.Test.Examples),
+		Fingerprint: as.cs.Test.Fingerprint(), Seed: auditSeed, Texts: as.R.Selection})
+}
+
 // retrained is a model retrained without the cues, beside the one audited.
 type retrained struct {
 	of *auditState // the audit it acts on
@@ -406,6 +424,7 @@ func (st *State) retrainNow(as *auditState, done func(*retrained)) {
 		if err != nil {
 			return nil, err
 		}
+		recordRetrained(rt.Model, as)
 		return func() {
 			st.setStatus(fmt.Sprintf("Retrained without %s: accuracy %.3f on the confirming half of the test split, against %.3f for the model audited.",
 				wording.Count(len(rt.Patterns), "cue", "cues"), rt.Original.After.Estimate, rt.Original.Before.Estimate))

@@ -19,3 +19,22 @@ func TestChanged(t *testing.T) {
 		}
 	}
 }
+
+// TestCuesChosen: the warning counts the texts that chose the cues among
+// those evaluated on, and ends with the caller's fix; none, no warning.
+// DEVELOPERS.md: the test split is never used for a choice, so texts that
+// chose something are not held-out texts.
+func TestCuesChosen(t *testing.T) {
+	for _, c := range []struct {
+		n, total int
+		out      string
+	}{
+		{0, 800, ""},
+		{400, 800, "400 of these 800 texts are the audit's choosing half, which chose the cues this model was retrained without " +
+			"(audit --retrain): they took part in a choice about the model, so its figures on them are not all held-out figures; use the other half"},
+	} {
+		if got := CuesChosen(c.n, c.total, "use the other half"); got != c.out {
+			t.Errorf("%d of %d: %q, want %q", c.n, c.total, got, c.out)
+		}
+	}
+}
