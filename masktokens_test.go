@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"encoding/json"
 	"html"
 	"io"
 	"os"
@@ -44,7 +45,11 @@ func TestMaskTokensRecorded(t *testing.T) {
 	var tr struct {
 		MaskTokens []string `json:"mask_tokens"`
 	}
-	jsonOf(t, &tr, "train", "--data", data, "--test", test, "--out", model, "--epochs", "3", "--mask-tokens", mt, "--json", "--quiet")
+	code, js, stderr := tt(t, "train", "--data", data, "--test", test, "--out", model, "--epochs", "3", "--mask-tokens", mt, "--json", "--quiet")
+	if err := json.Unmarshal([]byte(js), &tr); code != 0 || err != nil {
+		t.Fatalf("train --mask-tokens: exit %d, %v: %s", code, err, stderr)
+	}
+	checkKeysDocumented(t, "train", []byte(js), "### The JSON of train, eval and compare")
 	if !slices.Equal(tr.MaskTokens, []string{stampPattern}) {
 		t.Errorf("train --json: mask_tokens %q, want %q", tr.MaskTokens, stampPattern)
 	}
@@ -93,7 +98,11 @@ func checkSeedsMask(t *testing.T, m *cnn.Model, model, data, test string) {
 func checkRetrainMask(t *testing.T, dir, model, data, test string) (string, *auditOut) {
 	retrained := filepath.Join(dir, "mk-re.tt")
 	var res auditOut
-	jsonOf(t, &res, "audit", "--model", model, "--data", data, "--test", test, "--retrain", "--retrain-out", retrained, "--json", "--quiet")
+	code, raw, stderr := tt(t, "audit", "--model", model, "--data", data, "--test", test, "--retrain", "--retrain-out", retrained, "--json", "--quiet")
+	if err := json.Unmarshal([]byte(raw), &res); code != 0 || err != nil {
+		t.Fatalf("audit --retrain: exit %d, %v: %s", code, err, stderr)
+	}
+	checkJSONDocumented(t, []byte(raw))
 	rt := res.Retrained
 	if rt == nil || !slices.Equal(rt.RecipeMask, []string{stampPattern}) || !slices.Equal(res.Action.RecipeMask, []string{stampPattern}) {
 		t.Fatalf("audit --retrain --json: retrained %+v, action's recipe_mask_tokens %q; want the recorded %q", rt, res.Action.RecipeMask, stampPattern)
