@@ -73,16 +73,19 @@ majority) is stable. Filter numbers differ from model to model; cue words do
 not.
 
 --retrain trains a model without the cues acted on and those marked artifact
-(taken out of the training text as train's --mask-tokens does) and compares
-both models on the confirming half of the test texts (the choosing half chose
-the cues) as it is and with the cues taken out; --retrain-out keeps the new
-model. --masked-out writes a copy of the model with the filters masked that
-helped on the confirming half; on a model with word weights (train --wide) the
-copy also reads the cues' own words as the unknown word by the word weights,
-as the audit measured it. When no mask helped, nothing is written and the
-command fails. --confirming-out writes the confirming half's texts and labels
-(as read) to a .csv, .tsv or .jsonl file, for comparing models on texts that
-took no part in choosing the cues (telltale compare --test FILE).`,
+(taken out of the training text as train's --mask-tokens does, with the
+patterns the model's own --mask-tokens took out) and compares both models on
+the confirming half of the test texts (the choosing half chose the cues) as
+it is and with the cues taken out; --retrain-out keeps the new model, which
+records the choosing half: eval, compare and report warn when its figures
+include those texts. --masked-out writes a copy of the model with the
+filters masked that helped on the confirming half; on a model with word
+weights (train --wide) the copy also reads the cues' own words as the
+unknown word by the word weights, as the audit measured it. When no mask
+helped, nothing is written and the command fails. --confirming-out writes
+the confirming half's texts and labels (as read) to a .csv, .tsv or .jsonl
+file, for comparing models on texts that took no part in choosing the cues
+(telltale compare --test FILE).`,
 	Options: func() options { return new(auditOptions) },
 	Run:     runAs(runAudit),
 }

@@ -88,7 +88,10 @@ regard to case (tkref matches in "TKREF-48213" but not in "tkrefs"), or a
 regular expression between slashes in Go's RE2 syntax (/TKREF-[0-9]{5}/),
 matched anywhere. Blank lines and lines starting with # are skipped. A line
 that looks like a regular expression but lacks the slashes is a plain token
-and usually matches nothing: train warns of it.`,
+and usually matches nothing: train warns of it. The model file records the
+patterns, so that audit --seeds and --retrain take them out again when they
+train the model's recipe; predict, eval and explain read texts as they are
+(a masked token is a word the model never saw).`,
 	Options: func() options { return new(trainOptions) },
 	Run:     runAs(runTrain),
 }
