@@ -515,20 +515,22 @@ func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result,
 	rec := *m.Info.Splits
 	rt.Model.Info.Splits = &rec
 	rt.Model.Info.CuesChosenOn = m.Info.CuesChosenOn
-	rt.Model.Info.ChoseCues(cnn.CueChoice{Half: "selection", Heldout: r.heldoutName(&rec), Of: len(r.es.test.Examples),
-		Fingerprint: r.es.test.Fingerprint(), Seed: r.o.seed, Texts: res.Selection})
+	rt.Model.Info.ChoseCues(r.o.choice(m, r.es, res, cnn.ChoseRetrain))
 	return rt, nil
 }
 
-// heldoutName names the audit's held-out texts for a cnn.CueChoice:
-// "test" when they are the test split that rec, the audited model's split
-// record, records (the share of --data, or its test file), else the
-// absolute path of --test.
-func (r *auditRun) heldoutName(rec *cnn.SplitRecord) string {
-	if t := r.o.test; t != "" && absPath(t) != rec.TestFile {
-		return absPath(t)
+// choice is the record (cnn.Info.ChoseCues) that the audit res of model m
+// chose what (cnn.ChoseRetrain or ChoseMask) on its choosing half of the
+// held-out texts of es: "test" when they are the test split m records
+// (the share of --data, or its test file), else named by the absolute
+// path of --test.
+func (o *auditOptions) choice(m *cnn.Model, es *evalSet, res *audit.Result, what string) cnn.CueChoice {
+	heldout := "test"
+	if t := o.test; t != "" && (m.Info.Splits == nil || absPath(t) != m.Info.Splits.TestFile) {
+		heldout = absPath(t)
 	}
-	return "test"
+	return cnn.CueChoice{Half: "selection", For: what, Heldout: heldout, Of: len(es.test.Examples),
+		Fingerprint: es.test.Fingerprint(), Seed: o.seed, Texts: res.Selection}
 }
 
 // loadMarks reads the marks file (none yet is no marks, unless --marks
@@ -800,6 +802,7 @@ func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, es *evalSet, marks 
 		if err != nil {
 			return err
 		}
+		masked.Info.ChoseCues(o.choice(m, es, out.Result, cnn.ChoseMask))
 		if err := masked.Save(o.maskedOut); err != nil {
 			return err
 		}

@@ -124,10 +124,12 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 			row.setVsFirst(data.Labels, first, pred)
 		}
 		row.Warnings = es.warnings
-		if w := cuesChosen(&m.Info, es.test); i > 0 && w != "" { // the first model's is among es.warnings
-			row.Warnings = append(slices.Clip(es.warnings), w)
-			if !o.quiet {
-				fmt.Fprintf(env.Stderr, "warning: %s: %s\n", o.paths[i], w)
+		if ws := cuesChosen(&m.Info, es.test); i > 0 && len(ws) > 0 { // the first model's are among es.warnings
+			row.Warnings = append(slices.Clip(es.warnings), ws...)
+			for _, w := range ws {
+				if !o.quiet {
+					fmt.Fprintf(env.Stderr, "warning: %s: %s\n", o.paths[i], w)
+				}
 			}
 		}
 		rows = append(rows, row)

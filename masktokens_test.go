@@ -129,13 +129,14 @@ func checkRetrainMask(t *testing.T, dir, model, data, test string) (string, *aud
 // checkCuesChosen: the retrained model records the audit's choosing half
 // of test.csv; eval (text and --json), compare and report on test.csv warn
 // that those texts chose the cues, and eval on the confirming half alone
-// does not.
+// does not. The model audit --masked-out writes warns the same way of the
+// half that chose its mask.
 func checkCuesChosen(t *testing.T, dir, model, retrained, data, test string, res *auditOut) {
 	rm, err := cnn.Load(retrained)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if cc := rm.Info.CuesChosenOn; len(cc) != 1 || cc[0].Half != "selection" || cc[0].Heldout != "test" || cc[0].Of != 800 ||
+	if cc := rm.Info.CuesChosenOn; len(cc) != 1 || cc[0].Half != "selection" || cc[0].For != cnn.ChoseRetrain || cc[0].Heldout != "test" || cc[0].Of != 800 ||
 		len(cc[0].Texts) != res.SelectionTexts {
 		t.Fatalf("the retrained model records the cues chosen on %+v; want the %d texts of test.csv's choosing half", cc, res.SelectionTexts)
 	}
@@ -177,5 +178,16 @@ func checkCuesChosen(t *testing.T, dir, model, retrained, data, test string, res
 	jsonOf(t, &ev, "eval", "--model", retrained, "--data", data, "--test", conf, "--json", "--quiet")
 	if slices.ContainsFunc(ev.Warnings, func(w string) bool { return strings.Contains(w, "choosing half") }) {
 		t.Errorf("eval on the confirming half warns %q", ev.Warnings)
+	}
+	// The mask --masked-out writes was chosen on the same half.
+	masked := filepath.Join(dir, "mk-masked.tt")
+	if code, _, stderr := tt(t, "audit", "--model", model, "--data", data, "--test", test, "--masked-out", masked, "--quiet"); code != 0 {
+		t.Fatalf("audit --masked-out: exit %d: %s", code, stderr)
+	}
+	ev.Warnings = nil
+	jsonOf(t, &ev, "eval", "--model", masked, "--data", data, "--json", "--quiet")
+	want := strconv.Itoa(res.SelectionTexts) + " of these 800 texts are the audit's choosing half, which chose the filters and words masked in this model"
+	if !slices.ContainsFunc(ev.Warnings, func(w string) bool { return strings.HasPrefix(w, want) }) {
+		t.Errorf("eval --json of the masked model: warnings %q, want one starting %q", ev.Warnings, want)
 	}
 }

@@ -215,25 +215,24 @@ func findTestSplit(m *cnn.Model, data, test string, r *readOptions, warn io.Writ
 	return es, nil
 }
 
-// warnCuesChosen adds cuesChosen's warning, if any.
+// warnCuesChosen adds cuesChosen's warnings.
 func (es *evalSet) warnCuesChosen(info *cnn.Info) {
-	if w := cuesChosen(info, es.test); w != "" {
-		es.warnings = append(es.warnings, w)
-	}
+	es.warnings = append(es.warnings, cuesChosen(info, es.test)...)
 }
 
-// cuesChosen is the warning that the texts of test hold the half of
+// cuesChosen are the warnings that the texts of test hold the half of
 // held-out texts that chose the cues the model of info was retrained
-// without (cnn.Info.CuesChosenOn), known by their fingerprint under any
-// name: the recorded test split, its file, or --test; "" when they do not.
-func cuesChosen(info *cnn.Info, test *corpus.Dataset) string {
-	c := info.CuesChosenIn(len(test.Examples), test.Fingerprint())
-	if c == nil {
-		return ""
+// without, or its mask (cnn.Info.CuesChosenOn), known by their
+// fingerprint under any name: the recorded test split, its file, or
+// --test; none when they do not.
+func cuesChosen(info *cnn.Info, test *corpus.Dataset) []string {
+	var out []string
+	for _, c := range info.CuesChosenIn(len(test.Examples), test.Fingerprint()) {
+		fix := fmt.Sprintf("for figures on texts that took no part, give the other half, the confirming half, with --test "+
+			"(telltale audit of the model it was made from, with --seed %d and --confirming-out FILE, writes it)", c.Seed)
+		out = append(out, heldout.CuesChosen(len(c.Texts), len(test.Examples), c.For == cnn.ChoseMask, fix))
 	}
-	fix := fmt.Sprintf("for figures on texts that took no part, give the other half, the confirming half, with --test "+
-		"(telltale audit of the model it was retrained from, with --seed %d and --confirming-out FILE, writes it)", c.Seed)
-	return heldout.CuesChosen(len(c.Texts), len(test.Examples), fix)
+	return out
 }
 
 // noteWithWarnings is the note followed by the warnings, each a sentence

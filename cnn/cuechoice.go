@@ -2,14 +2,23 @@ package cnn
 
 import "slices"
 
+// What the choosing half of an audit chose for a model (CueChoice.For).
+const (
+	ChoseRetrain = "retrain"
+	ChoseMask    = "mask"
+)
+
 // CueChoice is the half of a set of held-out texts on which an audit
-// chose the cues a model was retrained without (audit.Result.Selection):
-// texts that took part in a choice about the model, so that its figures
-// on them are not held-out figures. The other half (the confirming half)
-// took no part.
+// chose the cues a model was retrained without, or the mask written into
+// it (audit.Result.Selection): texts that took part in a choice about the
+// model, so that its figures on them are not held-out figures. The other
+// half (the confirming half) took no part.
 type CueChoice struct {
 	// Half is "selection", the audit's choosing half.
 	Half string `json:"half"`
+	// For is what the half chose: ChoseRetrain (the cues the model was
+	// retrained without) or ChoseMask (its filter and word mask).
+	For string `json:"for"`
 	// Heldout is "test" when the audit's held-out texts were the audited
 	// model's test split (the one the retrained model records), else the
 	// absolute path of the file they were read from (audit --test FILE).
@@ -27,13 +36,13 @@ type CueChoice struct {
 
 // ChoseCues records that an audit of the model chose cues on choice's half
 // of its held-out texts (Info.CuesChosenOn): merged into the record of the
-// same held-out texts (the same Of and Fingerprint: the indexes of both
-// halves), else added. The other records are kept, and the slice is not
+// same held-out texts and the same choice (the same Of, Fingerprint and
+// For: the indexes of both halves), else added. The other records are kept, and the slice is not
 // shared with a copy's.
 func (info *Info) ChoseCues(choice CueChoice) {
 	out := slices.Clone(info.CuesChosenOn)
 	for i, c := range out {
-		if c.Of == choice.Of && c.Fingerprint == choice.Fingerprint {
+		if c.Of == choice.Of && c.Fingerprint == choice.Fingerprint && c.For == choice.For {
 			texts := append(slices.Clone(c.Texts), choice.Texts...)
 			slices.Sort(texts)
 			out[i].Texts = slices.Compact(texts)
@@ -45,17 +54,18 @@ func (info *Info) ChoseCues(choice CueChoice) {
 	info.CuesChosenOn = append(out, choice)
 }
 
-// CuesChosenIn is the record of the cues chosen on texts held out as
-// (n texts of fingerprint fp, corpus.Dataset.Fingerprint), or nil when no
-// audit of the model's lineage chose cues on them.
-func (info *Info) CuesChosenIn(n int, fp string) *CueChoice {
+// CuesChosenIn are the records of the choices made on the held-out texts
+// n texts of fingerprint fp (corpus.Dataset.Fingerprint): none when no
+// audit of the model's lineage chose anything on them.
+func (info *Info) CuesChosenIn(n int, fp string) []CueChoice {
 	if info == nil {
 		return nil
 	}
-	for i, c := range info.CuesChosenOn {
+	var out []CueChoice
+	for _, c := range info.CuesChosenOn {
 		if c.Of == n && c.Fingerprint == fp {
-			return &info.CuesChosenOn[i]
+			out = append(out, c)
 		}
 	}
-	return nil
+	return out
 }

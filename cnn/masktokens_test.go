@@ -44,7 +44,7 @@ func TestTrainTextMaskTokens(t *testing.T) {
 			t.Errorf("mask %q: tkref in the vocabulary %v, kioskmail %v; want %v, %v", c.mask,
 				slices.Contains(m.Vocab, "tkref"), slices.Contains(m.Vocab, "kioskmail"), c.tkref, c.kiosk)
 		}
-		m.Info.ChoseCues(CueChoice{Half: "selection", Heldout: "test", Of: 10, Fingerprint: "f", Seed: 1, Texts: []int{7, 2}})
+		m.Info.ChoseCues(CueChoice{Half: "selection", Heldout: "test", Of: 10, Fingerprint: "f", Seed: 1, For: ChoseRetrain, Texts: []int{7, 2}})
 		path := filepath.Join(t.TempDir(), "m.tt")
 		if err := m.Save(path); err != nil {
 			t.Fatal(err)
@@ -62,27 +62,32 @@ func TestTrainTextMaskTokens(t *testing.T) {
 	}
 }
 
-// TestChoseCues: the halves that chose cues on the same held-out texts
-// (the same count and fingerprint) are merged, their indexes sorted and
-// distinct; on other texts they are kept apart; CuesChosenIn finds a
-// record by the texts alone. A copy's records are not changed.
+// TestChoseCues: the halves that chose the same thing (For) on the same
+// held-out texts (the same count and fingerprint) are merged, their
+// indexes sorted and distinct; another choice, or other texts, are kept
+// apart; CuesChosenIn finds the records of the texts alone. A copy's
+// records are not changed.
 func TestChoseCues(t *testing.T) {
 	var info Info
-	info.ChoseCues(CueChoice{Half: "selection", Heldout: "test", Of: 10, Fingerprint: "a", Seed: 1, Texts: []int{5, 1}})
+	info.ChoseCues(CueChoice{Half: "selection", For: ChoseRetrain, Heldout: "test", Of: 10, Fingerprint: "a", Seed: 1, Texts: []int{5, 1}})
 	kept := info
-	info.ChoseCues(CueChoice{Half: "selection", Heldout: "test", Of: 10, Fingerprint: "a", Seed: 2, Texts: []int{1, 3}})
-	info.ChoseCues(CueChoice{Half: "selection", Heldout: "/t.csv", Of: 4, Fingerprint: "b", Seed: 1, Texts: []int{0}})
+	info.ChoseCues(CueChoice{Half: "selection", For: ChoseRetrain, Heldout: "test", Of: 10, Fingerprint: "a", Seed: 2, Texts: []int{1, 3}})
+	info.ChoseCues(CueChoice{Half: "selection", For: ChoseMask, Heldout: "test", Of: 10, Fingerprint: "a", Seed: 1, Texts: []int{4}})
+	info.ChoseCues(CueChoice{Half: "selection", For: ChoseRetrain, Heldout: "/t.csv", Of: 4, Fingerprint: "b", Seed: 1, Texts: []int{0}})
 	for _, c := range []struct {
 		n     int
 		fp    string
-		texts []int
-	}{{10, "a", []int{1, 3, 5}}, {4, "b", []int{0}}, {10, "b", nil}, {4, "a", nil}} {
-		got := info.CuesChosenIn(c.n, c.fp)
-		if (got == nil) != (c.texts == nil) || got != nil && !slices.Equal(got.Texts, c.texts) {
-			t.Errorf("%d texts of %s: %+v, want the indexes %v", c.n, c.fp, got, c.texts)
+		texts [][]int // of each record found, in the order recorded
+	}{{10, "a", [][]int{{1, 3, 5}, {4}}}, {4, "b", [][]int{{0}}}, {10, "b", nil}, {4, "a", nil}} {
+		var got [][]int
+		for _, r := range info.CuesChosenIn(c.n, c.fp) {
+			got = append(got, r.Texts)
+		}
+		if !reflect.DeepEqual(got, c.texts) {
+			t.Errorf("%d texts of %s: the records' indexes %v, want %v", c.n, c.fp, got, c.texts)
 		}
 	}
-	if got := kept.CuesChosenIn(10, "a"); got == nil || !slices.Equal(got.Texts, []int{1, 5}) {
+	if got := kept.CuesChosenIn(10, "a"); len(got) != 1 || !slices.Equal(got[0].Texts, []int{1, 5}) {
 		t.Errorf("the copy's record changed: %+v", got)
 	}
 	var none *Info

@@ -187,8 +187,9 @@ type Info struct {
 	// Notes holds free-form facts callers want kept with the model.
 	Notes map[string]string `json:"notes,omitempty"`
 	// CuesChosenOn, on a model retrained without cues (audit
-	// --retrain-out, the window's retraining), are the halves of held-out
-	// texts whose audits chose those cues (one for each set of held-out
+	// --retrain-out, the window's retraining) or masked as an audit
+	// suggested (audit --masked-out, the window's masked copy), are the
+	// halves of held-out texts whose audits chose those cues or that mask (one for each set of held-out
 	// texts: a model retrained from a retrained model keeps its
 	// predecessor's); nil on any other model, and in model files written
 	// before they were recorded. Kept beside Splits, not in it, so that a

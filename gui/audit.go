@@ -1,6 +1,7 @@
 package gui
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"fmt"
@@ -375,14 +376,22 @@ func retrainPatterns(r *audit.Result, marks *audit.Marks) []string {
 // and warn of the figures on those texts.
 func recordRetrained(m *cnn.Model, as *auditState) {
 	rec := *as.ms.Model.Info.Splits
-	heldout := "test"
-	if f := as.cs.Record.TestFile; f != rec.TestFile {
-		heldout = f
-	}
 	m.Info.Splits = &rec
 	m.Info.CuesChosenOn = as.ms.Model.Info.CuesChosenOn
-	m.Info.ChoseCues(cnn.CueChoice{Half: "selection", Heldout: heldout, Of: len(as.cs.Test.Examples),
-		Fingerprint: as.cs.Test.Fingerprint(), Seed: auditSeed, Texts: as.R.Selection})
+	m.Info.ChoseCues(as.choice(cnn.ChoseRetrain))
+}
+
+// choice is the record (cnn.Info.ChoseCues) that the audit chose what
+// (cnn.ChoseRetrain or ChoseMask) on its choosing half of the open
+// corpus's test split: "test" when that is the test split the audited
+// model records, else named by the corpus's test file.
+func (a *auditState) choice(what string) cnn.CueChoice {
+	heldout := "test"
+	if rec := a.ms.Model.Info.Splits; rec == nil || a.cs.Record.TestFile != rec.TestFile {
+		heldout = cmp.Or(a.cs.Record.TestFile, a.cs.Record.DataAbs)
+	}
+	return cnn.CueChoice{Half: "selection", For: what, Heldout: heldout, Of: len(a.cs.Test.Examples),
+		Fingerprint: a.cs.Test.Fingerprint(), Seed: auditSeed, Texts: a.R.Selection}
 }
 
 // retrained is a model retrained without the cues, beside the one audited.

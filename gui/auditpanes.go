@@ -10,6 +10,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/audit"
+	"telltale/cnn"
 	"telltale/internal/wording"
 	"telltale/report"
 )
@@ -360,6 +361,7 @@ func (p *actionPane) saveMasked() {
 		p.v.st.showError(err)
 		return
 	}
+	m.Info.ChoseCues(a.choice(cnn.ChoseMask)) // the choosing half chose the mask
 	p.v.st.saveDialog("Save the masked model", stem(a.ms)+"-masked.tt", func(path string) error { return m.Save(path) })
 }
 

@@ -489,7 +489,8 @@ func (s *session) retrain() {
 	// --retrain-out does; the window warns of them on that test split.
 	info := rt.Model.Info
 	if r := info.Splits; r == nil || *r != *a.ms.Model.Info.Splits || len(info.CuesChosenOn) != 1 ||
-		len(info.CuesChosenOn[0].Texts) != a.R.SelectionTexts || info.CuesChosenOn[0].Of != len(a.cs.Test.Examples) {
+		len(info.CuesChosenOn[0].Texts) != a.R.SelectionTexts || info.CuesChosenOn[0].Of != len(a.cs.Test.Examples) ||
+		info.CuesChosenOn[0].For != cnn.ChoseRetrain {
 		t.Errorf("the retrained model records the splits %+v and the cues chosen on %+v; want %+v and the %d texts of the choosing half",
 			info.Splits, info.CuesChosenOn, a.ms.Model.Info.Splits, a.R.SelectionTexts)
 	}

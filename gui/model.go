@@ -212,8 +212,8 @@ func heldOutWarnings(m *cnn.Model, cs *corpusState) []string {
 	if cs == nil || cs.Test == nil {
 		return out
 	}
-	if c := m.Info.CuesChosenIn(len(cs.Test.Examples), cs.Test.Fingerprint()); c != nil {
-		out = append(out, heldout.CuesChosen(len(c.Texts), len(cs.Test.Examples),
+	for _, c := range m.Info.CuesChosenIn(len(cs.Test.Examples), cs.Test.Fingerprint()) {
+		out = append(out, heldout.CuesChosen(len(c.Texts), len(cs.Test.Examples), c.For == cnn.ChoseMask,
 			"for figures on texts that took no part, compare the models on the confirming half (telltale audit --confirming-out FILE writes it; telltale compare --test FILE)"))
 	}
 	return out
