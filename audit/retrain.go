@@ -51,10 +51,11 @@ type ModelPair struct {
 // recipe r (cnn.TrainText; dev, which may be nil, is masked the same way
 // and used for early stopping; the patterns r records already,
 // r.Train.MaskTokens, are taken out of the training texts too, and the
-// retrained model records them with the cues' patterns after them) and compares it with m on the texts of
-// heldout at the indexes scored, as they are and without the cues. scored
-// are the audit's confirmation half (Result.Confirmation, indexes of the
-// heldout it was given), which took no part in choosing the cues: the
+// retrained model records them with the cues' patterns after them) and
+// compares it with m on the texts of heldout at the indexes scored, as
+// they are and without the cues. scored are the audit's confirmation half
+// (Result.Confirmation, indexes of the heldout it was given), which took
+// no part in choosing the cues: the
 // selection half chose them, and a comparison there would favour the
 // model that never saw them. Nil scored compares on every text of heldout,
 // for a held-out split that took no part in the audit. Nothing is written.
