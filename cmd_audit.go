@@ -73,16 +73,19 @@ majority) is stable. Filter numbers differ from model to model; cue words do
 not.
 
 --retrain trains a model without the cues acted on and those marked artifact
-(taken out of the training text as train's --mask-tokens does) and compares
-both models on the confirming half of the test texts (the choosing half chose
-the cues) as it is and with the cues taken out; --retrain-out keeps the new
-model. --masked-out writes a copy of the model with the filters masked that
-helped on the confirming half; on a model with word weights (train --wide) the
-copy also reads the cues' own words as the unknown word by the word weights,
-as the audit measured it. When no mask helped, nothing is written and the
-command fails. --confirming-out writes the confirming half's texts and labels
-(as read) to a .csv, .tsv or .jsonl file, for comparing models on texts that
-took no part in choosing the cues (telltale compare --test FILE).`,
+(taken out of the training text as train's --mask-tokens does, with the
+patterns the model's own --mask-tokens took out) and compares both models on
+the confirming half of the test texts (the choosing half chose the cues) as
+it is and with the cues taken out; --retrain-out keeps the new model, which
+records the choosing half: eval, compare and report warn when its figures
+include those texts. --masked-out writes a copy of the model with the
+filters masked that helped on the confirming half; on a model with word
+weights (train --wide) the copy also reads the cues' own words as the
+unknown word by the word weights, as the audit measured it. When no mask
+helped, nothing is written and the command fails. --confirming-out writes
+the confirming half's texts and labels (as read) to a .csv, .tsv or .jsonl
+file, for comparing models on texts that took no part in choosing the cues
+(telltale compare --test FILE).`,
 	Options: func() options { return new(auditOptions) },
 	Run:     runAs(runAudit),
 }
@@ -510,9 +513,27 @@ func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result,
 	// The new model was trained on m's training and dev splits of the same
 	// data (trainingRecipe refuses other data), so m's split record is its
 	// own: eval, report, filters and audit then find its test split again.
+	// It records too that the choosing half of the held-out texts chose
+	// the cues, so that a later command warns of figures on those texts.
 	rec := *m.Info.Splits
 	rt.Model.Info.Splits = &rec
+	rt.Model.Info.CuesChosenOn = m.Info.CuesChosenOn
+	rt.Model.Info.ChoseCues(r.o.choice(m, r.es, res, cnn.ChoseRetrain))
 	return rt, nil
+}
+
+// choice is the record (cnn.Info.ChoseCues) that the audit res of model m
+// chose what (cnn.ChoseRetrain or ChoseMask) on its choosing half of the
+// held-out texts of es: "test" when they are the test split m records
+// (the share of --data, or its test file), else named by the absolute
+// path of --test.
+func (o *auditOptions) choice(m *cnn.Model, es *evalSet, res *audit.Result, what string) cnn.CueChoice {
+	heldout := "test"
+	if t := o.test; t != "" && (m.Info.Splits == nil || absPath(t) != m.Info.Splits.TestFile) {
+		heldout = absPath(t)
+	}
+	return cnn.CueChoice{Half: "selection", For: what, Heldout: heldout, Of: len(es.test.Examples),
+		Fingerprint: es.test.Fingerprint(), Seed: o.seed, Texts: res.Selection}
 }
 
 // loadMarks reads the marks file (none yet is no marks, unless --marks
@@ -784,6 +805,7 @@ func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, es *evalSet, marks 
 		if err != nil {
 			return err
 		}
+		masked.Info.ChoseCues(o.choice(m, es, out.Result, cnn.ChoseMask))
 		if err := masked.Save(o.maskedOut); err != nil {
 			return err
 		}

@@ -774,7 +774,9 @@ func TestAuditBadInputMessages(t *testing.T) {
 // Every setting of the training recipe reaches the retrain command: a
 // recipe that differs from the default in any one field of
 // cnn.TrainConfig gives other train options (recipeArgs) or names the
-// setting in the comment line (unflaggedSettings). Seed is --seed, which
+// setting in the comment line (unflaggedSettings), or, for the patterns
+// the recipe takes out (MaskTokens), adds them to the patterns file the
+// first line writes (retrainCommands). Seed is --seed, which
 // trainArgs writes from the split record, and Threads is how a run is
 // spread over cores, not part of what it learns. The same holds for the
 // tokenizer's settings but the pieces WordPiece learns and the file's
@@ -789,11 +791,14 @@ func TestRetrainCoversEveryTrainSetting(t *testing.T) {
 		}
 		m := &cnn.Model{Config: def.Model, Tokenizer: k}
 		m.Info.Recipe = &tc
-		return strings.Join(recipeArgs(m), " ") + " # " + strings.Join(unflaggedSettings(m), ", ")
+		// MaskTokens reach the patterns file the story's first line writes
+		// (retrainCommands), not an option of their own.
+		cmds := auditSource{model: "m.tt", data: "d.csv", read: &readOptions{MaxTextBytes: corpus.DefaultMaxTextBytes}, es: &evalSet{}, m: m}.retrainCommands([]string{"tkref"})
+		return strings.Join(recipeArgs(m), " ") + " # " + strings.Join(unflaggedSettings(m), ", ") + " | " + cmds[0]
 	}
 	// Values train's checks accept, where the zero value's change would not.
 	valid := map[string]string{"Optimizer": "adadelta", "ClassWeight": "balanced", "EmbedInit": cnn.InitPPMI,
-		"StopOn": cnn.StopLoss, "File": "t.json"}
+		"StopOn": cnn.StopLoss, "File": "t.json", "MaskTokens": `/(?i)\bkioskmail\b/`}
 	skip := map[string]bool{"Seed": true, "Threads": true, "SubwordPieces": true, "FileJSON": true}
 	for _, f := range reflect.VisibleFields(reflect.TypeFor[cnn.TrainConfig]()) {
 		if skip[f.Name] {
@@ -852,6 +857,11 @@ func changeField(t *testing.T, v reflect.Value, name string, valid map[string]st
 		}
 	case reflect.String:
 		v.SetString(valid[name])
+	case reflect.Slice:
+		if v.Type().Elem().Kind() != reflect.String {
+			t.Fatalf("field %s of kind %s: teach the test a value", name, v.Type())
+		}
+		v.Set(reflect.ValueOf([]string{valid[name]}))
 	default:
 		t.Fatalf("field %s of kind %s: teach the test a value", name, v.Kind())
 	}

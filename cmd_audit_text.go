@@ -5,6 +5,7 @@ import (
 	"cmp"
 	"fmt"
 	"io"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -171,6 +172,9 @@ func (v *auditView) writeRetrained(w io.Writer) {
 	fmt.Fprintf(w, "\nRetrained without %s (%s taken out of the training split); both models compared on the %s confirming test texts, "+
 		"which took no part in choosing the cues (%s taken out of them):\n",
 		wording.Count(len(rt.Patterns), "cue", "cues"), matches(rt.Removed), count(rt.Texts), matches(rt.HeldoutRemoved))
+	if words := report.RecipeMaskWords(rt); words != "" {
+		fmt.Fprintf(w, "  %s\n", words)
+	}
 	for _, p := range []struct {
 		what string
 		mp   audit.ModelPair
@@ -257,8 +261,17 @@ func (s auditSource) heldoutShare() bool {
 // retrain without the cues: printf writes the patterns to MODEL.cues, one a
 // line, and telltale train trains the model's recipe again on its own
 // splits of --data with them taken out, into MODEL-without.tt (MODEL the
-// model file's name without .tt).
+// model file's name without .tt). The patterns the model's recipe took out
+// already (train --mask-tokens, cnn.TrainConfig.MaskTokens) follow the
+// cues' in the file, so that the line trains the model's whole recipe.
 func (s auditSource) retrainCommands(patterns []string) []string {
+	if r := s.m.Info.Recipe; r != nil {
+		for _, p := range r.MaskTokens {
+			if !slices.Contains(patterns, p) {
+				patterns = append(slices.Clip(patterns), p)
+			}
+		}
+	}
 	base := strings.TrimSuffix(s.model, ".tt")
 	cues, out := base+".cues", base+"-without.tt"
 	args := append(s.trainArgs(), "--mask-tokens", cues, "--out", out)

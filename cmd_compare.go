@@ -147,9 +147,11 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 // (recordedTraining); when it cannot be, note says so.
 func (o *compareOptions) checksFor(m *cnn.Model, path string, first *cnn.Model, es *evalSet) (warnings []string, note string) {
 	rec := m.Info.Splits
+	own := cuesChosen(&m.Info, es.test) // m's own retraining's choosing half, if any
 	if o.test == "" && sameSplits(rec, first.Info.Splits) {
-		return es.warnings, ""
+		return append(es.splitWarnings(), own...), ""
 	}
+	defer func() { warnings = append(warnings, own...) }()
 	name := cmp.Or(o.test, o.data)
 	if o.test == "" && es.name == "test" {
 		name = fmt.Sprintf("the test split of %s (that of %s)", o.data, o.paths[0])

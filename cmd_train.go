@@ -88,7 +88,10 @@ regard to case (tkref matches in "TKREF-48213" but not in "tkrefs"), or a
 regular expression between slashes in Go's RE2 syntax (/TKREF-[0-9]{5}/),
 matched anywhere. Blank lines and lines starting with # are skipped. A line
 that looks like a regular expression but lacks the slashes is a plain token
-and usually matches nothing: train warns of it.
+and usually matches nothing: train warns of it. The model file records the
+patterns, so that audit --seeds and --retrain take them out again when they
+train the model's recipe; predict, eval and explain read texts as they are
+(a masked token is a word the model never saw).
 
 A model describes its training data, not the world: check what it learned
 (telltale audit) before you act on its labels, and never use a classifier
@@ -105,9 +108,12 @@ type trainOptions struct {
 	threads    threadsOption
 	out        string
 	maskTokens string
-	force      bool
-	asJSON     bool
-	quiet      bool
+	// maskPatterns are the patterns of the --mask-tokens file, as the
+	// recipe takes them out and the model records them.
+	maskPatterns []string
+	force        bool
+	asJSON       bool
+	quiet        bool
 }
 
 func (o *trainOptions) register(fs *flag.FlagSet) {
@@ -167,12 +173,20 @@ func runTrain(ctx context.Context, env *runEnv, o *trainOptions) error {
 		printWarnings(env.Stderr, sp.all.LabelWarnings())
 	}
 	held := o.heldFilesInTraining(sp) // before --mask-tokens changes the training texts
+	// The checks read the training split as it will be learned: with the
+	// --mask-tokens patterns taken out. TrainText takes them out itself
+	// (the recipe's MaskTokens, which the model file records).
+	checked := sp
 	if o.maskTokens != "" {
-		if sp.train, err = maskTrainingText(sp.train, o.maskTokens, env.Stderr, o.quiet); err != nil {
+		masked, patterns, err := maskTrainingText(sp.train, o.maskTokens, env.Stderr, o.quiet)
+		if err != nil {
 			return err
 		}
+		o.maskPatterns = patterns
+		c := *sp
+		c.train, checked = masked, &c
 	}
-	if err := o.checkData(sp, held, env.Stderr); err != nil {
+	if err := o.checkData(checked, held, env.Stderr); err != nil {
 		return err
 	}
 	trained, err := o.fit(ctx, sp, env.Stderr)
@@ -189,7 +203,9 @@ func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.T
 		bar.line("training on %s (%d labels), dev %s, test %s", wording.Texts(len(sp.train.Examples)), len(sp.train.Labels),
 			wording.Texts(len(sp.dev.Examples)), wording.Texts(len(sp.test.Examples)))
 	}
-	trained, err := cnn.TrainText(ctx, sp.train, sp.dev, o.recipe.recipe(o.split.Seed, o.threads.N), func(p cnn.Progress) {
+	rec := o.recipe.recipe(o.split.Seed, o.threads.N)
+	rec.Train.MaskTokens = o.maskPatterns
+	trained, err := cnn.TrainText(ctx, sp.train, sp.dev, rec, func(p cnn.Progress) {
 		if o.quiet {
 			return
 		}
@@ -269,6 +285,9 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 		Splits: m.Info.Splits, Seconds: time.Since(start).Seconds()}
 	summary.TestFigures, summary.Baseline = figures, baselineOf(m, cmp)
 	summary.Warnings, summary.testInTraining = held.warnings, held.test
+	if m.Info.Recipe != nil {
+		summary.MaskTokens = m.Info.Recipe.MaskTokens
+	}
 	if figures != nil {
 		summary.advice = baselineAdvice(m, figures.McNemar)
 		if held.test > 0 && summary.advice != "" {
@@ -338,7 +357,10 @@ type trainSummary struct {
 	// training split, and how many (heldFilesInTraining): such test figures
 	// are not held-out figures. Absent when there are none; given with
 	// --quiet too.
-	Warnings       []string `json:"warnings,omitempty"`
+	Warnings []string `json:"warnings,omitempty"`
+	// MaskTokens are the patterns --mask-tokens took out of the training
+	// text, as the model's recipe records them (info.recipe.mask_tokens).
+	MaskTokens     []string `json:"mask_tokens,omitempty"`
 	advice         string   // baselineAdvice, printed after the test split's figures
 	testInTraining int      // the texts of the test file that are training texts
 }

@@ -133,6 +133,9 @@ type evalSet struct {
 	// warnings say why the figures may not be held-out figures, or not the
 	// ones train reported (findTestSplit has printed them).
 	warnings []string
+	// cueWarnings is the number of warnings, last in warnings, about texts
+	// that chose the cues the model was retrained without (warnCuesChosen).
+	cueWarnings int
 }
 
 // mayHoldTraining is the phrase every command uses for texts that may
@@ -193,6 +196,7 @@ func findTestSplitOf(m *cnn.Model, path, data, test string, r *readOptions, warn
 	case !same:
 		es.checkTraining(rec, data, same, r)
 	}
+	es.warnCuesChosen(&m.Info) // last: compare gives the other models their own (cueWarnings)
 	printHeldOut(warn, quiet, path, es.warnings)
 	return es, nil
 }
@@ -262,6 +266,35 @@ func (es *evalSet) warnChanged(rec *cnn.SplitRecord, path string) {
 // record is rec was trained on (all of its --data: rec.Fingerprint).
 func isModelData(rec *cnn.SplitRecord, ds *corpus.Dataset) bool {
 	return rec != nil && ds != nil && rec.Examples == len(ds.Examples) && rec.Fingerprint == ds.Fingerprint()
+}
+
+// warnCuesChosen adds cuesChosen's warnings, after all others, and counts
+// them (cueWarnings).
+func (es *evalSet) warnCuesChosen(info *cnn.Info) {
+	ws := cuesChosen(info, es.test)
+	es.warnings, es.cueWarnings = append(es.warnings, ws...), len(ws)
+}
+
+// splitWarnings are es's warnings about the texts and the model's splits,
+// without those of the cues the model itself was retrained without
+// (warnCuesChosen), for another model trained with the same splits.
+func (es *evalSet) splitWarnings() []string {
+	return slices.Clip(es.warnings[:len(es.warnings)-es.cueWarnings])
+}
+
+// cuesChosen are the warnings that the texts of test hold the half of
+// held-out texts that chose the cues the model of info was retrained
+// without, or its mask (cnn.Info.CuesChosenOn), known by their
+// fingerprint under any name: the recorded test split, its file, or
+// --test; none when they do not.
+func cuesChosen(info *cnn.Info, test *corpus.Dataset) []string {
+	var out []string
+	for _, c := range info.CuesChosenIn(len(test.Examples), test.Fingerprint()) {
+		fix := fmt.Sprintf("for figures on texts that took no part, give the other half, the confirming half, with --test "+
+			"(telltale audit of the model it was made from, with --seed %d and --confirming-out FILE, writes it)", c.Seed)
+		out = append(out, heldout.CuesChosen(len(c.Texts), len(test.Examples), c.For == cnn.ChoseMask, fix))
+	}
+	return out
 }
 
 // readOnce reports whether a split file a model recorded (path, "" for

@@ -119,13 +119,14 @@ func (o *trainOptions) checkVocabulary(sp *splits) error {
 }
 
 // maskTrainingText takes the cue tokens or patterns listed in file out of
-// every training text and returns the masked copy. It says how many
+// every training text and returns the masked copy and the patterns (as
+// the recipe records them, cnn.TrainConfig.MaskTokens). It says how many
 // matches were taken out, and warns of a plain-token line that looks like
 // a regular expression and matches nothing (the slashes were forgotten).
-func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet bool) (*corpus.Dataset, error) {
+func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet bool) (*corpus.Dataset, []string, error) {
 	cm, err := corpus.LoadCueMasker(file)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	out := *train
 	out.Examples = make([]corpus.Example, len(train.Examples))
@@ -137,7 +138,7 @@ func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet boo
 		out.Examples[i] = e
 	}
 	if quiet {
-		return &out, nil
+		return &out, cm.Patterns(), nil
 	}
 	fmt.Fprintf(w, "mask-tokens: %s of the patterns in %s taken out of the training text\n", wording.Count(total, "match", "matches"), file)
 	for _, p := range cm.Patterns() {
@@ -149,7 +150,7 @@ func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet boo
 				file, clip(p), clip(p))
 		}
 	}
-	return &out, nil
+	return &out, cm.Patterns(), nil
 }
 
 // matchesAny reports whether cm matches in any text of d.

@@ -42,6 +42,11 @@ type Action struct {
 	// RetrainedModel is Options.RetrainedModel, the file the model
 	// retrained without the cues goes to; the story names it.
 	RetrainedModel string `json:"-"`
+	// RecipeMask are the patterns the model's recipe takes out of the
+	// training text already (cnn.TrainConfig.MaskTokens, train
+	// --mask-tokens): retraining the recipe takes them out too, and the
+	// story says so.
+	RecipeMask []string `json:"recipe_mask_tokens,omitempty"`
 }
 
 // Counterfactual is the model on the confirmation half as it is and with
@@ -93,6 +98,9 @@ func (a *auditor) act(ctx context.Context, res *Result) error {
 		res.Action.MaskWords = res.Action.Tried.Words
 	}
 	res.Action.RetrainedModel = a.opt.RetrainedModel
+	if r := a.m.Info.Recipe; r != nil {
+		res.Action.RecipeMask = r.MaskTokens
+	}
 	if a.opt.RetrainCommands != nil && a.opt.RetrainedModel == "" {
 		res.Action.Commands = a.opt.RetrainCommands(res.Action.Patterns)
 	}

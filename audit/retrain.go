@@ -17,6 +17,11 @@ import (
 // McNemar tests of the two models' paired predictions on each.
 type Retrained struct {
 	Patterns []string `json:"patterns"`
+	// RecipeMask are the patterns the model's recipe took out of the
+	// training text already (cnn.TrainConfig.MaskTokens: train
+	// --mask-tokens), which the retraining takes out too; the retrained
+	// model records both, these first.
+	RecipeMask []string `json:"recipe_mask_tokens,omitempty"`
 	// Removed is how many matches the patterns took out of the training
 	// split, HeldoutRemoved out of the texts compared.
 	Removed        int `json:"removed"`
@@ -44,10 +49,13 @@ type ModelPair struct {
 // Retrain takes the patterns (Action.Patterns, or Marks.Patterns) out of
 // the training texts (corpus.MaskTokens), trains a model on them with
 // recipe r (cnn.TrainText; dev, which may be nil, is masked the same way
-// and used for early stopping) and compares it with m on the texts of
-// heldout at the indexes scored, as they are and without the cues. scored
-// are the audit's confirmation half (Result.Confirmation, indexes of the
-// heldout it was given), which took no part in choosing the cues: the
+// and used for early stopping; the patterns r records already,
+// r.Train.MaskTokens, are taken out of the training texts too, and the
+// retrained model records them with the cues' patterns after them) and
+// compares it with m on the texts of heldout at the indexes scored, as
+// they are and without the cues. scored are the audit's confirmation half
+// (Result.Confirmation, indexes of the heldout it was given), which took
+// no part in choosing the cues: the
 // selection half chose them, and a comparison there would favour the
 // model that never saw them. Nil scored compares on every text of heldout,
 // for a held-out split that took no part in the audit. Nothing is written.
@@ -76,7 +84,8 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 	if heldout, err = pick(heldout, scored); err != nil {
 		return nil, err
 	}
-	out := &Retrained{Patterns: patterns}
+	out := &Retrained{Patterns: patterns, RecipeMask: r.Train.MaskTokens}
+	r.Train.MaskTokens = joinPatterns(r.Train.MaskTokens, patterns)
 	mask := func(d *corpus.Dataset) (*corpus.Dataset, int) {
 		if d == nil {
 			return nil, 0
@@ -88,12 +97,11 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 			return s
 		}), n
 	}
-	mtrain, n := mask(train)
-	out.Removed = n
+	_, out.Removed = mask(train) // TrainText takes them out, with the recipe's own
 	mdev, _ := mask(dev)
 	cf, n := mask(heldout)
 	out.HeldoutRemoved = n
-	tr, err := cnn.TrainText(ctx, mtrain, mdev, r, progress)
+	tr, err := cnn.TrainText(ctx, train, mdev, r, progress)
 	if err != nil {
 		return nil, err
 	}
@@ -114,6 +122,17 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 		*c.to = pair(before, after, gold)
 	}
 	return out, nil
+}
+
+// joinPatterns is a followed by the patterns of b not in a, a new slice.
+func joinPatterns(a, b []string) []string {
+	out := slices.Clone(a)
+	for _, p := range b {
+		if !slices.Contains(out, p) {
+			out = append(out, p)
+		}
+	}
+	return out
 }
 
 // pick is the texts of d at the indexes idx, in their order (d itself for

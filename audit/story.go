@@ -220,6 +220,28 @@ func (r *Result) writeStory(w io.Writer) {
 	r.writeTask(p)
 }
 
+// writeRecipeMask says, for a model trained with train --mask-tokens, that
+// retraining its recipe takes those patterns out too (the retraining of
+// audit --retrain and of the window does; a --mask-tokens file given to
+// train by hand must list them).
+func (r *Result) writeRecipeMask(p func(string, ...any)) {
+	rm := r.Action.RecipeMask
+	if len(rm) == 0 {
+		return
+	}
+	p("The model's recipe takes %s out of the training text already (train --mask-tokens, recorded in the model file):\n",
+		wording.Count(len(rm), "pattern", "patterns"))
+	for _, pat := range rm {
+		p("    %s\n", pat)
+	}
+	them := map[bool]string{true: "it", false: "them"}[len(rm) == 1]
+	if len(r.Action.Commands) > 0 {
+		p("retraining the recipe takes %s out too, and the file above lists %s after the cues.\n", them, them)
+	} else {
+		p("retraining the recipe takes %s out too: a --mask-tokens file for telltale train lists %s beside the cues.\n", them, them)
+	}
+}
+
 // writeWhatToDo writes what to do about the cues acted on: retrain without
 // them (the commands, or the patterns), keep the verdict with marks, and
 // whether a mask (filters, word weights or both) helps.
@@ -248,6 +270,7 @@ func (r *Result) writeWhatToDo(p func(string, ...any), acted []*Candidate) {
 			p("Train the model's recipe again on its own splits with that file.\n")
 		}
 	}
+	r.writeRecipeMask(p)
 	p("%s\n", markAdvice(acted))
 	if t := r.Action.Tried; t != nil {
 		if r.Action.Suggested() {

@@ -186,6 +186,15 @@ type Info struct {
 	Version string `json:"version,omitempty"`
 	// Notes holds free-form facts callers want kept with the model.
 	Notes map[string]string `json:"notes,omitempty"`
+	// CuesChosenOn, on a model retrained without cues (audit
+	// --retrain-out, the window's retraining) or masked as an audit
+	// suggested (audit --masked-out, the window's masked copy), are the
+	// halves of held-out texts whose audits chose those cues or that mask (one for each set of held-out
+	// texts: a model retrained from a retrained model keeps its
+	// predecessor's); nil on any other model, and in model files written
+	// before they were recorded. Kept beside Splits, not in it, so that a
+	// SplitRecord stays a comparable value.
+	CuesChosenOn []CueChoice `json:"cues_chosen_on,omitempty"`
 }
 
 // SplitRecord is how a model's three splits were made from its labeled

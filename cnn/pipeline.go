@@ -73,18 +73,17 @@ const PhaseWideFit = "wide-fit"
 // With r.Baseline it then fits the linear baseline into Model.Baseline
 // (reporting Phase PhaseBaseline first); a cancellation during that fit
 // keeps the trained CNN and leaves Model.Baseline nil.
+//
+// The patterns of r.Train.MaskTokens are taken out of the training texts
+// first (the CNN and the baseline learn from the masked copy; dev is read
+// as given), as train --mask-tokens asks, and the model records them.
 func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progress func(Progress)) (*Trained, error) {
-	if train == nil || len(train.Examples) == 0 {
-		return nil, fmt.Errorf("cnn: the training split is empty: give a file with labeled texts")
-	}
-	if r.Model.Chars != nil && r.Members > 1 {
-		return nil, fmt.Errorf("cnn: models with a character layer cannot be merged into an ensemble: train one member")
-	}
-	if err := checkWideFit(r.Model, r.Train); err != nil {
+	if err := checkTrainText(train, r); err != nil {
 		return nil, err
 	}
-	if r.Model.Wide && r.Members > 1 {
-		return nil, fmt.Errorf("cnn: models with a wide word-weight path cannot be merged into an ensemble yet: train one member")
+	train, err := maskTraining(train, r.Train.MaskTokens)
+	if err != nil {
+		return nil, err
 	}
 	enc, err := corpus.TrainEncoder(r.Tokenizer, train.Texts())
 	if err != nil {
@@ -146,6 +145,42 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 		}
 	}
 	return out, nil
+}
+
+// checkTrainText refuses what TrainText cannot train: no training texts,
+// an ensemble of models with a character layer or word weights, a fitted
+// start of the word weights that the recipe cannot have.
+func checkTrainText(train *corpus.Dataset, r Recipe) error {
+	if train == nil || len(train.Examples) == 0 {
+		return fmt.Errorf("cnn: the training split is empty: give a file with labeled texts")
+	}
+	if r.Model.Chars != nil && r.Members > 1 {
+		return fmt.Errorf("cnn: models with a character layer cannot be merged into an ensemble: train one member")
+	}
+	if err := checkWideFit(r.Model, r.Train); err != nil {
+		return err
+	}
+	if r.Model.Wide && r.Members > 1 {
+		return fmt.Errorf("cnn: models with a wide word-weight path cannot be merged into an ensemble yet: train one member")
+	}
+	return nil
+}
+
+// maskTraining is train with the patterns (TrainConfig.MaskTokens) taken
+// out of every text (corpus.CueMasker.Mask), a copy; train itself when
+// there are none.
+func maskTraining(train *corpus.Dataset, patterns []string) (*corpus.Dataset, error) {
+	if len(patterns) == 0 {
+		return train, nil
+	}
+	cm, err := corpus.MaskTokens(patterns)
+	if err != nil {
+		return nil, fmt.Errorf("cnn: the recipe's tokens to take out: %w", err)
+	}
+	return train.MapTexts(func(s string) string {
+		s, _ = cm.Mask(s)
+		return s
+	}), nil
 }
 
 // modelConfig is r.Model sized for enc's vocabulary and classes labels:

@@ -171,6 +171,16 @@ type TrainConfig struct {
 	// follows whatever predicts dev, artifacts of the collection included
 	// (docs/default-recipe.md, the seventeenth round).
 	WideFitC float64 `json:"wide_fit_c,omitempty"`
+	// MaskTokens are the patterns (corpus.MaskTokens: plain tokens, or
+	// regular expressions between slashes) that TrainText takes out of
+	// every training text before it builds the vocabulary: train's
+	// --mask-tokens, and the cues a model was retrained without (audit
+	// --retrain). The model file records them, so that training the
+	// model's recipe again (audit --seeds and --retrain, the window's
+	// retraining) takes the same tokens out. Train, which is given encoded
+	// texts, ignores them; nil (every model file written before they were
+	// recorded) takes nothing out.
+	MaskTokens []string `json:"mask_tokens,omitempty"`
 }
 
 // WithDefaults returns tc with every zero field set to its default, or an

@@ -1,6 +1,7 @@
 package gui
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"fmt"
@@ -367,6 +368,32 @@ func retrainPatterns(r *audit.Result, marks *audit.Marks) []string {
 	return ps
 }
 
+// recordRetrained gives m, a model retrained on the splits of the model
+// the audit as audits (retrainRecipe checked that they are the open
+// corpus's), that model's split record, and records the audit's choosing
+// half as texts that chose the cues (cnn.Info.ChoseCues), as audit
+// --retrain-out does: eval, compare and report then find its test split
+// and warn of the figures on those texts.
+func recordRetrained(m *cnn.Model, as *auditState) {
+	rec := *as.ms.Model.Info.Splits
+	m.Info.Splits = &rec
+	m.Info.CuesChosenOn = as.ms.Model.Info.CuesChosenOn
+	m.Info.ChoseCues(as.choice(cnn.ChoseRetrain))
+}
+
+// choice is the record (cnn.Info.ChoseCues) that the audit chose what
+// (cnn.ChoseRetrain or ChoseMask) on its choosing half of the open
+// corpus's test split: "test" when that is the test split the audited
+// model records, else named by the corpus's test file.
+func (a *auditState) choice(what string) cnn.CueChoice {
+	heldout := "test"
+	if rec := a.ms.Model.Info.Splits; rec == nil || a.cs.Record.TestFile != rec.TestFile {
+		heldout = cmp.Or(a.cs.Record.TestFile, a.cs.Record.DataAbs)
+	}
+	return cnn.CueChoice{Half: "selection", For: what, Heldout: heldout, Of: len(a.cs.Test.Examples),
+		Fingerprint: a.cs.Test.Fingerprint(), Seed: auditSeed, Texts: a.R.Selection}
+}
+
 // retrained is a model retrained without the cues, beside the one audited.
 type retrained struct {
 	of *auditState // the audit it acts on
@@ -406,6 +433,7 @@ func (st *State) retrainNow(as *auditState, done func(*retrained)) {
 		if err != nil {
 			return nil, err
 		}
+		recordRetrained(rt.Model, as)
 		return func() {
 			st.setStatus(fmt.Sprintf("Retrained without %s: accuracy %.3f on the confirming half of the test split, against %.3f for the model audited.",
 				wording.Count(len(rt.Patterns), "cue", "cues"), rt.Original.After.Estimate, rt.Original.Before.Estimate))

@@ -184,6 +184,12 @@ func TestRetrainRecipe(t *testing.T) {
 	if err != nil || r.Train.Seed != tc.Seed || r.Model.VocabSize != 0 || r.Model.Widths[0] != 3 {
 		t.Errorf("recipe %+v, %v", r, err)
 	}
+	// The patterns train --mask-tokens took out are part of the recipe:
+	// cnn.TrainText takes them out again.
+	tc.MaskTokens = []string{`/(?i)\btkref\s*-\s*[0-9]+\b/`}
+	if r, err := retrainRecipe(m, cs); err != nil || !slices.Equal(r.Train.MaskTokens, tc.MaskTokens) {
+		t.Errorf("a recipe with a mask: retrained with %q (%v), want %q", r.Train.MaskTokens, err, tc.MaskTokens)
+	}
 }
 
 // The status bar's figure grows through the audit's stages.

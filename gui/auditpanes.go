@@ -10,6 +10,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/audit"
+	"telltale/cnn"
 	"telltale/internal/wording"
 	"telltale/report"
 )
@@ -331,7 +332,7 @@ func (p *actionPane) retrain() {
 		rt := r.rt
 		p.compareNote.SetText(fmt.Sprintf("Retrained with the model's recipe without %s: %s taken out of the training split, %d out of "+
 			"the confirming half of the test split, where both models are compared (the choosing half chose the cues). Accuracies with 95%% Wilson intervals. Word vectors the model may have been trained with are not used: model files do not record them.",
-			wording.Count(len(rt.Patterns), "cue", "cues"), wording.Count(rt.Removed, "match", "matches"), rt.HeldoutRemoved))
+			wording.Count(len(rt.Patterns), "cue", "cues"), wording.Count(rt.Removed, "match", "matches"), rt.HeldoutRemoved) + recipeMaskNote(rt))
 		p.compare.setRows(retrainRows(rt))
 		p.buttons()
 	})
@@ -360,6 +361,7 @@ func (p *actionPane) saveMasked() {
 		p.v.st.showError(err)
 		return
 	}
+	m.Info.ChoseCues(a.choice(cnn.ChoseMask)) // the choosing half chose the mask
 	p.v.st.saveDialog("Save the masked model", stem(a.ms)+"-masked.tt", func(path string) error { return m.Save(path) })
 }
 
@@ -371,4 +373,14 @@ func stem(ms *modelState) string {
 	}
 	b := filepath.Base(ms.Path)
 	return strings.TrimSuffix(b, filepath.Ext(b))
+}
+
+// recipeMaskNote is the sentence that says the retraining took out the
+// patterns the model's recipe took out already (train --mask-tokens), with
+// a space before it; "" when there were none.
+func recipeMaskNote(rt *audit.Retrained) string {
+	if w := report.RecipeMaskWords(rt); w != "" {
+		return " " + w
+	}
+	return ""
 }

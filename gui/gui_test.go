@@ -484,6 +484,19 @@ func (s *session) retrain() {
 	if !reflect.DeepEqual(p.compare.rows, retrainRows(rt)) || p.saveRetrain.Disabled() {
 		t.Errorf("the comparison shows %q, want %q, and the retrained model can be saved", p.compare.rows, retrainRows(rt))
 	}
+	// The retrained model records the audited model's splits and the
+	// choosing half as the texts that chose its cues, as audit
+	// --retrain-out does; the window warns of them on that test split.
+	info := rt.Model.Info
+	if r := info.Splits; r == nil || *r != *a.ms.Model.Info.Splits || len(info.CuesChosenOn) != 1 ||
+		len(info.CuesChosenOn[0].Texts) != a.R.SelectionTexts || info.CuesChosenOn[0].Of != len(a.cs.Test.Examples) ||
+		info.CuesChosenOn[0].For != cnn.ChoseRetrain {
+		t.Errorf("the retrained model records the splits %+v and the cues chosen on %+v; want %+v and the %d texts of the choosing half",
+			info.Splits, info.CuesChosenOn, a.ms.Model.Info.Splits, a.R.SelectionTexts)
+	}
+	if ws := heldOutWarnings(rt.Model, a.cs); !slices.ContainsFunc(ws, func(w string) bool { return strings.Contains(w, "the audit's choosing half") }) {
+		t.Errorf("the retrained model on the audit's test split: warnings %q", ws)
+	}
 }
 
 // TestBadDataShowsDialog: a file without the label column gives a dialog

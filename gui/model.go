@@ -196,17 +196,27 @@ func planOf(m *cnn.Model, cs *corpusState) (splitPlan, bool) {
 // that file, the test file m was trained with, has changed since training
 // (cnn.SplitRecord.TestFingerprint). The window reads no dev file: it
 // never uses m's recorded dev file.
+//
+// It warns too, as the command line does, when the test split holds the
+// texts that chose the cues a retrained m was retrained without
+// (cnn.Info.CuesChosenOn).
 func heldOutWarnings(m *cnn.Model, cs *corpusState) []string {
+	var out []string
 	r := m.Info.Splits
-	if _, ok := planOf(m, cs); !ok || r.TestFile == "" || r.TestFile != cs.Record.TestFile {
-		return nil
+	if _, ok := planOf(m, cs); ok && r.TestFile != "" && r.TestFile == cs.Record.TestFile {
+		if w := heldout.Changed("test", r.TestFile, r.TestFingerprint, cs.Record.TestFingerprint,
+			"its figures are not the ones train reported; open the original test file, or retrain"); w != "" {
+			out = append(out, w)
+		}
 	}
-	w := heldout.Changed("test", r.TestFile, r.TestFingerprint, cs.Record.TestFingerprint,
-		"its figures are not the ones train reported; open the original test file, or retrain")
-	if w == "" {
-		return nil
+	if cs == nil || cs.Test == nil {
+		return out
 	}
-	return []string{w}
+	for _, c := range m.Info.CuesChosenIn(len(cs.Test.Examples), cs.Test.Fingerprint()) {
+		out = append(out, heldout.CuesChosen(len(c.Texts), len(cs.Test.Examples), c.For == cnn.ChoseMask,
+			"for figures on texts that took no part, compare the models on the confirming half (telltale audit --confirming-out FILE writes it; telltale compare --test FILE)"))
+	}
+	return out
 }
 
 // openModel loads a model file in the background and evaluates it on the

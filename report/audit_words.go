@@ -207,3 +207,16 @@ func pvalue(p float64) string {
 	}
 	return "= " + fmt.Sprintf("%.2g", p)
 }
+
+// RecipeMaskWords is the sentence that says a retraining took out, beside
+// the cues, the patterns the model's recipe took out already
+// (audit.Retrained.RecipeMask: train --mask-tokens), for the command
+// line's and the window's account of it: "" when there were none.
+func RecipeMaskWords(rt *audit.Retrained) string {
+	if rt == nil || len(rt.RecipeMask) == 0 {
+		return ""
+	}
+	n := len(rt.RecipeMask)
+	return fmt.Sprintf("The retraining also took out the %s the model's recipe takes out of the training text (train --mask-tokens): %s.",
+		map[bool]string{true: "pattern", false: fmt.Sprintf("%d patterns", n)}[n == 1], strings.Join(rt.RecipeMask, " "))
+}

@@ -162,6 +162,23 @@ func layout(in Input) (*page, error) {
 	return p, nil
 }
 
+// recipeExtras are the rows of the training table for the settings only
+// some recipes have: the word weights' rate and start, and the patterns
+// taken out of the training text (train --mask-tokens).
+func recipeExtras(r *cnn.TrainConfig, c cnn.Config) []kv {
+	var rows []kv
+	if c.Wide {
+		rows = append(rows, kv{"Learning rate of the word weights", fmt.Sprintf("%g × the rest's", cmp.Or(r.WideLR, 1))})
+	}
+	if c.Wide && r.WideFit {
+		rows = append(rows, kv{"Start of the word weights", shrunk(r.WideFitShrink) + "the logistic regression fitted on them alone (" + fitC(r.WideFitC) + "); the filters joined from zero"})
+	}
+	if len(r.MaskTokens) > 0 {
+		rows = append(rows, kv{"Taken out of the training text (--mask-tokens)", strings.Join(r.MaskTokens, "   ")})
+	}
+	return rows
+}
+
 func recipe(in Input) recipeView {
 	m := in.Model
 	c := m.Config
@@ -208,12 +225,7 @@ func recipe(in Input) recipeView {
 			{"Embeddings frozen", yesNo(r.FreezeEmb)},
 			{"Seed", fmt.Sprint(r.Seed)},
 		}
-		if c.Wide {
-			rv.Train = append(rv.Train, kv{"Learning rate of the word weights", fmt.Sprintf("%g × the rest's", cmp.Or(r.WideLR, 1))})
-		}
-		if c.Wide && r.WideFit {
-			rv.Train = append(rv.Train, kv{"Start of the word weights", shrunk(r.WideFitShrink) + "the logistic regression fitted on them alone (" + fitC(r.WideFitC) + "); the filters joined from zero"})
-		}
+		rv.Train = append(rv.Train, recipeExtras(r, c)...)
 	}
 	if info.BestEpoch > 0 {
 		rv.Train = append(rv.Train, kv{"Weights kept from epoch", fmt.Sprint(info.BestEpoch) + averaged(info.Recipe)})

@@ -16,3 +16,22 @@ func Changed(which, path, want, got, fix string) string {
 	return fmt.Sprintf("%s, the %s file the model was trained with, has changed since training (its texts or labels are not those train read): %s",
 		path, which, fix)
 }
+
+// CuesChosen is the warning that n texts of the total evaluated on are
+// the choosing half of an audit's held-out texts (cnn.Info.CuesChosenOn),
+// which chose the cues the model was retrained without, or, masked, the
+// mask written into it: its figures on them are not held-out figures, and
+// the model may look better there than on texts that took no part. fix
+// says what to do, in the caller's terms. It is "" when n is 0.
+func CuesChosen(n, total int, masked bool, fix string) string {
+	if n == 0 {
+		return ""
+	}
+	what := "the cues this model was retrained without (audit --retrain)"
+	if masked {
+		what = "the filters and words masked in this model (audit --masked-out)"
+	}
+	return fmt.Sprintf("%d of these %d texts are the audit's choosing half, which chose %s: "+
+		"they took part in a choice about the model, so its figures on them are not all held-out figures; %s",
+		n, total, what, fix)
+}

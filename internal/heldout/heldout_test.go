@@ -19,3 +19,25 @@ func TestChanged(t *testing.T) {
 		}
 	}
 }
+
+// TestCuesChosen: the warning counts the texts that chose the cues among
+// those evaluated on, and ends with the caller's fix; none, no warning.
+// DEVELOPERS.md: the test split is never used for a choice, so texts that
+// chose something are not held-out texts.
+func TestCuesChosen(t *testing.T) {
+	for _, c := range []struct {
+		n, total int
+		masked   bool
+		out      string
+	}{
+		{0, 800, false, ""},
+		{400, 800, false, "400 of these 800 texts are the audit's choosing half, which chose the cues this model was retrained without " +
+			"(audit --retrain): they took part in a choice about the model, so its figures on them are not all held-out figures; use the other half"},
+		{400, 800, true, "400 of these 800 texts are the audit's choosing half, which chose the filters and words masked in this model " +
+			"(audit --masked-out): they took part in a choice about the model, so its figures on them are not all held-out figures; use the other half"},
+	} {
+		if got := CuesChosen(c.n, c.total, c.masked, "use the other half"); got != c.out {
+			t.Errorf("%d of %d: %q, want %q", c.n, c.total, got, c.out)
+		}
+	}
+}

@@ -1,0 +1,97 @@
+package cnn
+
+import (
+	"context"
+	"path/filepath"
+	"reflect"
+	"slices"
+	"testing"
+
+	"telltale/corpus"
+)
+
+// TestTrainTextMaskTokens: TrainText takes the recipe's MaskTokens out of
+// the training texts before it builds the vocabulary, and the model file
+// keeps them (info.recipe.mask_tokens) with the halves that chose cues
+// (Info.CuesChosenOn); no patterns, no change. The demo corpus's README
+// (testdata/demo/README.md) documents the two planted cues the patterns
+// take out: the ticket stamp ("TKREF-" and five digits) and the kiosk
+// footer line ("kioskmail").
+func TestTrainTextMaskTokens(t *testing.T) {
+	d, _, err := corpus.Load(filepath.Join("..", "testdata", "demo", "train.csv"), corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	d.Examples = d.Examples[:600]
+	for _, c := range []struct {
+		mask         []string
+		tkref, kiosk bool // in the vocabulary
+	}{
+		{nil, true, true},
+		{[]string{"/(?i)\\btkref\\s*-\\s*[0-9]+\\b/"}, false, true},
+		{[]string{"tkref", "kioskmail"}, false, false},
+	} {
+		r := DefaultRecipe()
+		r.Baseline = nil
+		r.Model.Dim, r.Model.Widths, r.Model.Filters = 8, []int{2}, 4
+		r.Train.Epochs, r.Train.Threads, r.Train.MaskTokens = 1, 2, c.mask
+		tr, err := TrainText(context.Background(), d, nil, r, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		m := tr.Model
+		if slices.Contains(m.Vocab, "tkref") != c.tkref || slices.Contains(m.Vocab, "kioskmail") != c.kiosk {
+			t.Errorf("mask %q: tkref in the vocabulary %v, kioskmail %v; want %v, %v", c.mask,
+				slices.Contains(m.Vocab, "tkref"), slices.Contains(m.Vocab, "kioskmail"), c.tkref, c.kiosk)
+		}
+		m.Info.ChoseCues(CueChoice{Half: "selection", Heldout: "test", Of: 10, Fingerprint: "f", Seed: 1, For: ChoseRetrain, Texts: []int{7, 2}})
+		path := filepath.Join(t.TempDir(), "m.tt")
+		if err := m.Save(path); err != nil {
+			t.Fatal(err)
+		}
+		back, err := Load(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !slices.Equal(back.Info.Recipe.MaskTokens, c.mask) || !reflect.DeepEqual(back.Info.CuesChosenOn, m.Info.CuesChosenOn) {
+			t.Errorf("mask %q: the file keeps %q and %+v", c.mask, back.Info.Recipe.MaskTokens, back.Info.CuesChosenOn)
+		}
+	}
+	if _, err := TrainText(context.Background(), d, nil, Recipe{Train: TrainConfig{MaskTokens: []string{"/[/"}}}, nil); err == nil {
+		t.Error("a bad pattern in the recipe trained")
+	}
+}
+
+// TestChoseCues: the halves that chose the same thing (For) on the same
+// held-out texts (the same count and fingerprint) are merged, their
+// indexes sorted and distinct; another choice, or other texts, are kept
+// apart; CuesChosenIn finds the records of the texts alone. A copy's
+// records are not changed.
+func TestChoseCues(t *testing.T) {
+	var info Info
+	info.ChoseCues(CueChoice{Half: "selection", For: ChoseRetrain, Heldout: "test", Of: 10, Fingerprint: "a", Seed: 1, Texts: []int{5, 1}})
+	kept := info
+	info.ChoseCues(CueChoice{Half: "selection", For: ChoseRetrain, Heldout: "test", Of: 10, Fingerprint: "a", Seed: 2, Texts: []int{1, 3}})
+	info.ChoseCues(CueChoice{Half: "selection", For: ChoseMask, Heldout: "test", Of: 10, Fingerprint: "a", Seed: 1, Texts: []int{4}})
+	info.ChoseCues(CueChoice{Half: "selection", For: ChoseRetrain, Heldout: "/t.csv", Of: 4, Fingerprint: "b", Seed: 1, Texts: []int{0}})
+	for _, c := range []struct {
+		n     int
+		fp    string
+		texts [][]int // of each record found, in the order recorded
+	}{{10, "a", [][]int{{1, 3, 5}, {4}}}, {4, "b", [][]int{{0}}}, {10, "b", nil}, {4, "a", nil}} {
+		var got [][]int
+		for _, r := range info.CuesChosenIn(c.n, c.fp) {
+			got = append(got, r.Texts)
+		}
+		if !reflect.DeepEqual(got, c.texts) {
+			t.Errorf("%d texts of %s: the records' indexes %v, want %v", c.n, c.fp, got, c.texts)
+		}
+	}
+	if got := kept.CuesChosenIn(10, "a"); len(got) != 1 || !slices.Equal(got[0].Texts, []int{1, 5}) {
+		t.Errorf("the copy's record changed: %+v", got)
+	}
+	var none *Info
+	if none.CuesChosenIn(10, "a") != nil {
+		t.Error("a nil Info has a record")
+	}
+}
