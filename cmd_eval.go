@@ -9,6 +9,7 @@ import (
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/internal/outguard"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -233,6 +234,7 @@ func writeMetrics(w io.Writer, m cnn.Metrics, iv cnn.MetricIntervals, bins int) 
 		ci := iv.PerClass[i]
 		fmt.Fprintf(w, "%-*s  %-19s  %-19s  %-19s  %7d\n", width, c.Label, ci.Precision, ci.Recall, ci.F1, c.Support)
 	}
+	fmt.Fprint(w, undefinedNote(m))
 	fmt.Fprintf(w, "\nconfusion matrix (rows: gold, columns: predicted)\n%-*s", width, "")
 	for i := range m.Labels {
 		fmt.Fprintf(w, "  %6s", fmt.Sprintf("[%d]", i))
@@ -245,6 +247,29 @@ func writeMetrics(w io.Writer, m cnn.Metrics, iv cnn.MetricIntervals, bins int) 
 		}
 		fmt.Fprintln(w)
 	}
+}
+
+// undefinedNote says, when some label of m has no text or no prediction,
+// what "–" means and how the macro-F1 counts the labels without a text
+// (scikit-learn's convention, cnn.ComputeMetrics); "" when every figure is
+// defined.
+func undefinedNote(m cnn.Metrics) string {
+	predicted, absent := m.WithoutSupport()
+	if len(predicted)+len(absent)+len(m.NeverPredicted()) == 0 {
+		return ""
+	}
+	note := "– : nothing to measure (precision: no text predicted as the label; recall and F1: no text of the label here)\n"
+	if len(predicted)+len(absent) == 0 {
+		return note
+	}
+	note += "macro-F1 is scikit-learn's (f1_score, average='macro'): the mean F1 of the labels among the gold or predicted labels"
+	if len(predicted) > 0 {
+		note += fmt.Sprintf("; %s, predicted but with no text here, %s with F1 0", listed(predicted), wording.Noun(len(predicted), "counts", "count"))
+	}
+	if len(absent) > 0 {
+		note += fmt.Sprintf("; %s, neither here nor predicted, %s left out", listed(absent), wording.Noun(len(absent), "is", "are"))
+	}
+	return note + "\n"
 }
 
 // eceText is the ECE with its interval, or the point value with why it has
