@@ -5,11 +5,11 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/internal/outguard"
-	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -34,7 +34,14 @@ file train was given); with other data, all of it, with a note that it may hold
 texts the model was trained on. A warning says when the texts are the model's
 training data or hold some of its training texts, and when the test file the
 model was trained with has changed since; no texts to evaluate on (an empty
-test split) is refused.`,
+test split) is refused.
+
+The texts may hold fewer labels than the model knows (one label measures its
+recall; a label the model does not know is an error): a label with no text
+has no recall or F1, and a label no text was predicted as no precision
+(shown "–", null in JSON, without an interval). Macro-F1 is scikit-learn's
+(f1_score, average='macro'): the mean F1 of the labels among the gold or
+predicted ones, a label predicted but with no text counting with F1 0.`,
 	Options: func() options { return new(evalOptions) },
 	Run:     runAs(runEval),
 }
@@ -234,7 +241,9 @@ func writeMetrics(w io.Writer, m cnn.Metrics, iv cnn.MetricIntervals, bins int) 
 		ci := iv.PerClass[i]
 		fmt.Fprintf(w, "%-*s  %-19s  %-19s  %-19s  %7d\n", width, c.Label, ci.Precision, ci.Recall, ci.F1, c.Support)
 	}
-	fmt.Fprint(w, undefinedNote(m))
+	if note := report.DescribeUndefined(m); note != "" {
+		fmt.Fprintln(w, strings.Replace(note, ". Macro-F1", ".\nMacro-F1", 1)) // a line each
+	}
 	fmt.Fprintf(w, "\nconfusion matrix (rows: gold, columns: predicted)\n%-*s", width, "")
 	for i := range m.Labels {
 		fmt.Fprintf(w, "  %6s", fmt.Sprintf("[%d]", i))
@@ -247,29 +256,6 @@ func writeMetrics(w io.Writer, m cnn.Metrics, iv cnn.MetricIntervals, bins int) 
 		}
 		fmt.Fprintln(w)
 	}
-}
-
-// undefinedNote says, when some label of m has no text or no prediction,
-// what "–" means and how the macro-F1 counts the labels without a text
-// (scikit-learn's convention, cnn.ComputeMetrics); "" when every figure is
-// defined.
-func undefinedNote(m cnn.Metrics) string {
-	predicted, absent := m.WithoutSupport()
-	if len(predicted)+len(absent)+len(m.NeverPredicted()) == 0 {
-		return ""
-	}
-	note := "– : nothing to measure (precision: no text predicted as the label; recall and F1: no text of the label here)\n"
-	if len(predicted)+len(absent) == 0 {
-		return note
-	}
-	note += "macro-F1 is scikit-learn's (f1_score, average='macro'): the mean F1 of the labels among the gold or predicted labels"
-	if len(predicted) > 0 {
-		note += fmt.Sprintf("; %s, predicted but with no text here, %s with F1 0", listed(predicted), wording.Noun(len(predicted), "counts", "count"))
-	}
-	if len(absent) > 0 {
-		note += fmt.Sprintf("; %s, neither here nor predicted, %s left out", listed(absent), wording.Noun(len(absent), "is", "are"))
-	}
-	return note + "\n"
 }
 
 // eceText is the ECE with its interval, or the point value with why it has

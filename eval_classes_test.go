@@ -107,7 +107,7 @@ func TestEvalOneLabelTestFile(t *testing.T) {
 		t.Errorf("macro-F1 %v, want praise's F1 %v over the %d labels present (scikit-learn)", ev.MacroF1, *pp.F1, present)
 	}
 	code, stdout, _ = tt(t, "eval", "--model", model, "--test", praise, "--quiet")
-	if code != 0 || !strings.Contains(stdout, "– : nothing to measure") || !strings.Contains(stdout, "macro-F1 is scikit-learn's") {
+	if code != 0 || !strings.Contains(stdout, "– : nothing to measure") || !strings.Contains(stdout, "\nMacro-F1 is scikit-learn's") {
 		t.Errorf("eval's text (exit %d) does not say what – means and how macro-F1 counts:\n%s", code, stdout)
 	}
 }
