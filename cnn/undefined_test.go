@@ -3,6 +3,7 @@ package cnn
 import (
 	"encoding/json"
 	"math"
+	"path/filepath"
 	"strings"
 	"testing"
 )
@@ -62,5 +63,27 @@ func TestUndefinedFiguresJSON(t *testing.T) {
 	}
 	if p, a := m.WithoutSupport(); len(p) != 1 || p[0] != "c" || len(a) != 1 || a[0] != "d" {
 		t.Errorf("WithoutSupport: %q, %q; want [c], [d]", p, a)
+	}
+}
+
+// A model file keeps metrics with undefined figures (a dev or test split
+// without some label: null in its header) and gives them back as NaN.
+func TestModelFileKeepsUndefinedFigures(t *testing.T) {
+	m, _ := savedModel(t)
+	labels := make([]string, m.Config.Classes)
+	gold := make([]int, 4) // every text of class 0, every prediction too
+	mt := ComputeMetrics(labels, gold, make([]int, 4), nil, 0)
+	m.Info.Test = &mt
+	path := filepath.Join(t.TempDir(), "m.ttm")
+	if err := m.Save(path); err != nil {
+		t.Fatal(err)
+	}
+	got, err := Load(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	last := got.Info.Test.PerClass[len(labels)-1]
+	if !math.IsNaN(last.Precision) || !math.IsNaN(last.Recall) || !math.IsNaN(last.F1) || got.Info.Test.PerClass[0].F1 != 1 {
+		t.Errorf("read back %+v; want class 0's F1 1 and the others' figures NaN", got.Info.Test.PerClass)
 	}
 }
