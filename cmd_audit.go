@@ -754,7 +754,7 @@ func (o *auditOptions) trainingRecipe(m *cnn.Model, es *evalSet) (*cnn.Recipe, e
 	if rec := m.Info.Splits; readOnce(rec.DevFile, rec.DevPipe) {
 		return nil, fmt.Errorf("%s: the model's dev split was read once at training (%s, a pipe or a per-process file), and cannot be read again: %s trains on the model's own splits; train the model again with the dev split as a regular file (train --dev FILE)", what, rec.DevFile, what)
 	} else if rec.DevFile != "" {
-		dev, err := o.read.read(rec.DevFile, false, io.Discard, true)
+		dev, err := o.read.readHeldOut(rec.DevFile, false, io.Discard, true)
 		if err != nil {
 			return nil, fmt.Errorf("%s: the model's dev split is the file it was trained with (%s), which cannot be read: %w", what, rec.DevFile, err)
 		}

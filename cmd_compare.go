@@ -274,6 +274,10 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 		}
 		fmt.Fprintln(w, strings.TrimRight(line, " "))
 	}
+	if predicted, absent := rows[0].Metrics.WithoutSupport(); len(predicted)+len(absent) > 0 {
+		fmt.Fprintf(w, "– : no text of the label here, so no F1; macro-F1 is scikit-learn's (f1_score, average='macro'): "+
+			"a label with no text here counts with F1 0 for a model that predicts it, and is left out for one that does not\n")
+	}
 	for i, r := range rows {
 		if r.Figures.Baseline != nil {
 			fmt.Fprintln(w)

@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"strings"
 
 	"telltale/cnn"
 	"telltale/corpus"
@@ -35,7 +36,14 @@ says when the texts are the model's training data or hold some of its
 training texts, found in --data or, without it, in the data file the model
 records (a note says when that cannot be checked), and when the test file
 the model was trained with has changed since; no texts to evaluate on (an
-empty test split) is refused.`,
+empty test split) is refused.
+
+The texts may hold fewer labels than the model knows (one label measures its
+recall; a label the model does not know is an error): a label with no text
+has no recall or F1, and a label no text was predicted as no precision
+(shown "–", null in JSON, without an interval). Macro-F1 is scikit-learn's
+(f1_score, average='macro'): the mean F1 of the labels among the gold or
+predicted ones, a label predicted but with no text counting with F1 0.`,
 	Options: func() options { return new(evalOptions) },
 	Run:     runAs(runEval),
 }
@@ -234,6 +242,9 @@ func writeMetrics(w io.Writer, m cnn.Metrics, iv cnn.MetricIntervals, bins int) 
 	for i, c := range m.PerClass {
 		ci := iv.PerClass[i]
 		fmt.Fprintf(w, "%-*s  %-19s  %-19s  %-19s  %7d\n", width, c.Label, ci.Precision, ci.Recall, ci.F1, c.Support)
+	}
+	if note := report.DescribeUndefined(m); note != "" {
+		fmt.Fprintln(w, strings.Replace(note, ". Macro-F1", ".\nMacro-F1", 1)) // a line each
 	}
 	fmt.Fprintf(w, "\nconfusion matrix (rows: gold, columns: predicted)\n%-*s", width, "")
 	for i := range m.Labels {

@@ -87,6 +87,24 @@ func (r *readOptions) read(path string, strict bool, warn io.Writer, quiet bool)
 	return r.prepare(ds, strict)
 }
 
+// readHeldOut reads a labeled dev or test file at path like read, but one
+// label is enough: the file is evaluated against the labels of a model or
+// of --data (a label outside them is refused where they are matched,
+// naming the file, the line and the fix). A command that needs two labels
+// among its held-out texts says so itself.
+func (r *readOptions) readHeldOut(path string, strict bool, warn io.Writer, quiet bool) (*corpus.Dataset, error) {
+	opt := r.corpusOptions(false)
+	opt.HeldOut = true
+	ds, warnings, err := corpus.Load(path, opt)
+	if !quiet {
+		printWarnings(warn, warnings)
+	}
+	if err != nil {
+		return nil, err
+	}
+	return r.prepare(ds, strict)
+}
+
 // readTexts reads the texts to label at path (labels are kept where the
 // file has them), with --mail applied.
 func (r *readOptions) readTexts(path string, warn io.Writer, quiet bool) (*corpus.Dataset, error) {

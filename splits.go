@@ -89,12 +89,12 @@ func (s *splitOptions) load(data string, r *readOptions, warn io.Writer, quiet b
 	devPipe, testPipe := s.Dev != "" && inputfile.ReadOnce(s.Dev), s.Test != "" && inputfile.ReadOnce(s.Test)
 	sp.train, sp.dev, sp.test = all.SplitThree(devFrac, testFrac, s.Seed)
 	if s.Dev != "" {
-		if sp.dev, err = r.read(s.Dev, false, warn, quiet); err != nil {
+		if sp.dev, err = r.readHeldOut(s.Dev, false, warn, quiet); err != nil {
 			return nil, err
 		}
 	}
 	if s.Test != "" {
-		if sp.test, err = r.read(s.Test, false, warn, quiet); err != nil {
+		if sp.test, err = r.readHeldOut(s.Test, false, warn, quiet); err != nil {
 			return nil, err
 		}
 	}
@@ -224,7 +224,7 @@ func (es *evalSet) findTexts(rec *cnn.SplitRecord, data, test string, same bool,
 	case test != "":
 		// Without --data the test file is the one file --relabel applies
 		// to: every label it maps must occur there, as in --data for train.
-		if es.test, err = r.read(test, data == "", warn, quiet); err != nil {
+		if es.test, err = r.readHeldOut(test, data == "", warn, quiet); err != nil {
 			return err
 		}
 		es.note = fmt.Sprintf("evaluating on the test file %s (%s)", test, wording.Texts(len(es.test.Examples)))
@@ -234,7 +234,7 @@ func (es *evalSet) findTexts(rec *cnn.SplitRecord, data, test string, same bool,
 	case same && readOnce(rec.TestFile, rec.TestPipe):
 		return usagef("the model's test split was read once at training (--test %s, a pipe or a per-process file), and cannot be read again: give the test file with --test", rec.TestFile)
 	case same && rec.TestFile != "":
-		if es.test, err = r.read(rec.TestFile, false, warn, quiet); err != nil {
+		if es.test, err = r.readHeldOut(rec.TestFile, false, warn, quiet); err != nil {
 			return fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
 		}
 		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%s)", rec.TestFile, wording.Texts(len(es.test.Examples)))
@@ -315,7 +315,7 @@ func (es *evalSet) readDevFile(rec *cnn.SplitRecord, r *readOptions) {
 	if readOnce(rec.DevFile, rec.DevPipe) {
 		return // no evaluation needs it; audit --seeds and --retrain say so (trainingRecipe)
 	}
-	dev, err := r.read(rec.DevFile, false, io.Discard, true)
+	dev, err := r.readHeldOut(rec.DevFile, false, io.Discard, true)
 	if err != nil {
 		es.warnings = append(es.warnings, fmt.Sprintf("the dev file the model was trained with cannot be read (%v): its dev split is left out", err))
 		return

@@ -345,6 +345,9 @@ func Run(ctx context.Context, m *cnn.Model, train, heldout Data, opt Options, pr
 	if err := heldout.check(m, "test"); err != nil {
 		return nil, err
 	}
+	if err := heldout.checkTwoLabels(m.Labels); err != nil {
+		return nil, err
+	}
 	if train.Len() < 2*opt.MinSupport {
 		return nil, inputErrorf("audit: the %s has %d texts: too few for a test of association (at least %d)",
 			train.name("training"), train.Len(), 2*opt.MinSupport)

@@ -132,6 +132,24 @@ func (d Data) check(m *cnn.Model, what string) error {
 	return nil
 }
 
+// checkTwoLabels refuses held-out texts of fewer than two labels: the
+// shift signal compares each cue's label share in them with training, and
+// texts of one label would show a shift for every cue of another label.
+// labels are the model's.
+func (d Data) checkTwoLabels(labels []string) error {
+	if len(d.Gold) == 0 {
+		return nil // no texts: refused where the halves are made
+	}
+	for _, g := range d.Gold {
+		if g != d.Gold[0] {
+			return nil
+		}
+	}
+	return inputErrorf("audit: the %s holds one label, %q: the audit compares each cue's label share in the test texts with training, "+
+		"and texts of one label would show every cue of another label as shifted; give test texts of at least two of the model's labels "+
+		"(a test file of one label suits eval, which measures its recall)", d.name("test"), labels[d.Gold[0]])
+}
+
 // subset returns the texts idx of d (shared, not copied).
 func (d Data) subset(idx []int) Data {
 	out := Data{Name: d.Name, IDs: make([][]int32, len(idx)), Gold: make([]int, len(idx))}

@@ -26,10 +26,14 @@ type F1Intervals struct {
 // Metrics.Confusion) with their percentile bootstrap intervals over texts,
 // drawn as BootstrapMacroF1 draws them (so Macro is BootstrapMacroF1's
 // interval for the same arguments). Each figure follows ComputeMetrics in
-// every resample: a class's F1 with no gold and no predicted text is 0, and
-// the weighted F1 weights each class by its gold count in the resample.
-// Preconditions as BootstrapMacroF1's. With no text every interval is 0 in
-// [0, 1].
+// every resample: the macro-F1 averages the classes present in the
+// resample's gold or predicted labels, the weighted F1 weights each class
+// by its gold count in the resample, and a class's F1 is undefined in a
+// resample that drew none of its gold texts, so its interval is of the
+// resamples that drew some. A class with no gold text has an undefined F1
+// (UndefinedInterval). Preconditions as BootstrapMacroF1's. With no text
+// the macro and weighted intervals are 0 in [0, 1], and every class's
+// undefined.
 func BootstrapF1s(confusion [][]int, resamples int, level float64, seed uint64) F1Intervals {
 	k := len(confusion)
 	checkBootstrap("BootstrapF1s", resamples, level)
@@ -37,7 +41,7 @@ func BootstrapF1s(confusion [][]int, resamples int, level float64, seed uint64) 
 	if len(cells) == 0 {
 		out := F1Intervals{Macro: Interval{High: 1}, Weighted: Interval{High: 1}, PerClass: make([]Interval, k)}
 		for c := range out.PerClass {
-			out.PerClass[c].High = 1
+			out.PerClass[c] = UndefinedInterval()
 		}
 		return out
 	}
@@ -57,20 +61,25 @@ func BootstrapF1s(confusion [][]int, resamples int, level float64, seed uint64) 
 	figures(est)
 	for j := range ivs {
 		ivs[j].Estimate = est[j]
+		if math.IsNaN(est[j]) || math.IsNaN(ivs[j].Low) || math.IsNaN(ivs[j].High) {
+			ivs[j] = UndefinedInterval()
+		}
 	}
 	return F1Intervals{Macro: ivs[0], Weighted: ivs[1], PerClass: ivs[2:]}
 }
 
 // weightedF1Of is the support-weighted F1 of the k×k confusion counts flat
 // (row-major, rows gold) as ComputeMetrics computes it; it writes each
-// class's F1 into f1 (length k).
+// class's F1 into f1 (length k), NaN for a class with no gold text.
 func weightedF1Of(flat []int, k int, f1 []float64) float64 {
 	n, sum := 0, 0.0
 	for c := range k {
 		tp, fp, fn := classCounts(flat, k, c)
-		f1[c] = ratio(2*tp, 2*tp+fp+fn)
-		sum += f1[c] * float64(tp+fn)
-		n += tp + fn
+		f1[c] = classF1(tp, fp, fn)
+		if tp+fn > 0 {
+			sum += f1[c] * float64(tp+fn)
+			n += tp + fn
+		}
 	}
 	if n == 0 {
 		return 0
@@ -180,12 +189,22 @@ type MetricIntervals struct {
 // ClassIntervals are one class's precision and recall with their Wilson
 // intervals (shares of a count: right predictions of the predicted texts,
 // of the gold texts) and its F1 with the percentile bootstrap interval
-// over texts.
+// over texts. A figure with nothing to measure (ClassMetrics) has
+// UndefinedInterval, null in JSON.
 type ClassIntervals struct {
 	Label     string   `json:"label"`
 	Precision Interval `json:"precision"`
 	Recall    Interval `json:"recall"`
 	F1        Interval `json:"f1"`
+}
+
+// shareInterval is k of n with its Wilson interval at IntervalLevel, or
+// UndefinedInterval when n is 0.
+func shareInterval(k, n int) Interval {
+	if n == 0 {
+		return UndefinedInterval()
+	}
+	return WilsonInterval(k, n, IntervalLevel)
 }
 
 // IntervalsOf is the intervals of m's figures: Wilson for each class's
@@ -207,8 +226,7 @@ func IntervalsOf(m Metrics) MetricIntervals {
 			support += n
 		}
 		out.PerClass = append(out.PerClass, ClassIntervals{Label: m.Labels[c],
-			Precision: WilsonInterval(row[c], predicted, IntervalLevel),
-			Recall:    WilsonInterval(row[c], support, IntervalLevel), F1: f1.PerClass[c]})
+			Precision: shareInterval(row[c], predicted), Recall: shareInterval(row[c], support), F1: f1.PerClass[c]})
 	}
 	if m.conf != nil {
 		e := BootstrapECE(m.conf, m.correct, m.bins, BootstrapResamples, IntervalLevel, BootstrapSeed)

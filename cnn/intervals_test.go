@@ -40,6 +40,12 @@ func TestBootstrapF1sIsComputeMetrics(t *testing.T) {
 			t.Fatalf("case %d: weighted %+v, ComputeMetrics %v", i, f.Weighted, m.WeightedF1)
 		}
 		for c, iv := range f.PerClass {
+			if m.PerClass[c].Support == 0 { // no gold text: F1 undefined, no interval
+				if !math.IsNaN(m.PerClass[c].F1) || !iv.Undefined() {
+					t.Fatalf("case %d class %d, no gold text: %+v, ComputeMetrics %v; want both undefined", i, c, iv, m.PerClass[c].F1)
+				}
+				continue
+			}
 			if iv.Estimate != m.PerClass[c].F1 || !(0 <= iv.Low && iv.Low <= iv.High && iv.High <= 1) {
 				t.Fatalf("case %d class %d: %+v, ComputeMetrics %v", i, c, iv, m.PerClass[c].F1)
 			}
@@ -105,7 +111,10 @@ func TestIntervalsOf(t *testing.T) {
 // bootstrap_distribution, all three clipped to [0, 1] as BootstrapECE
 // clips them. The two draw different resamples, so the endpoints agree
 // only up to the Monte Carlo error of 20,000 resamples each: about 0.001
-// here, tolerance 0.005.
+// here, tolerance 0.005. A class's F1 is undefined (NaN) in a resample
+// that drew none of its gold texts, and its percentiles are numpy's
+// nanpercentile of SciPy's bootstrap_distribution: the third case has a
+// class of 3 texts in 300, absent from about 5% of the resamples.
 func TestBootstrapF1sAndECEAgainstSciPy(t *testing.T) {
 	testref.SequentialSkipInRace(t, "BootstrapF1s")
 	testref.RequirePython(t, "scipy")
@@ -121,6 +130,12 @@ func TestBootstrapF1sAndECEAgainstSciPy(t *testing.T) {
 		g, p, c := randomPredictions(rng, kn[0], kn[1])
 		cases = append(cases, tc{kn[0], g, p, c})
 	}
+	g, p, c := randomPredictions(rng, 2, 300)
+	for i := range 3 { // a rare third class, predicted right
+		g[i], p[i] = 2, 2
+	}
+	p[3] = 2 // and once wrongly: counting undrawn resamples as F1 0 would put its lower bound at 0
+	cases = append(cases, tc{3, g, p, c})
 	js, _ := json.Marshal(cases)
 	script := `
 import json, sys
@@ -134,9 +149,9 @@ def f1s(k):
             fp = np.sum((g != c) & (p == c), axis=axis)
             fn = np.sum((g == c) & (p != c), axis=axis)
             den = 2 * tp + fp + fn
-            out.append(np.where(den > 0, 2 * tp / np.maximum(den, 1), 0.0))
+            out.append(np.where(tp + fn > 0, 2 * tp / np.maximum(den, 1), np.nan))
             sup.append(tp + fn)
-        w = np.sum([f * s for f, s in zip(out, sup)], axis=0) / np.sum(sup, axis=0)
+        w = np.sum([np.nan_to_num(f) * s for f, s in zip(out, sup)], axis=0) / np.sum(sup, axis=0)
         return np.stack([w] + out)
     return stat
 def ece(conf, ok, axis=-1):
@@ -153,7 +168,9 @@ for c in json.load(sys.stdin):
                    confidence_level=0.95, method="basic", random_state=np.random.default_rng(2))
     e = float(ece(conf, ok))
     ew = [float(np.clip(x, 0, 1)) for x in (2 * e - np.median(re.bootstrap_distribution), re.confidence_interval.low, re.confidence_interval.high)]
-    out.append({"f1": [list(map(float, f1s(c["k"])(g, p))), list(map(float, rf.confidence_interval.low)), list(map(float, rf.confidence_interval.high))],
+    dist = rf.bootstrap_distribution
+    out.append({"f1": [list(map(float, f1s(c["k"])(g, p))), list(map(float, np.nanpercentile(dist, 2.5, axis=-1))), list(map(float, np.nanpercentile(dist, 97.5, axis=-1)))],
+                "undrawn": float(np.mean(np.isnan(dist[-1]))),
                 "ece": ew, "ece_observed": e})
 print(json.dumps(out))
 `
@@ -161,8 +178,12 @@ print(json.dumps(out))
 		F1       [3][]float64 `json:"f1"`
 		ECE      [3]float64   `json:"ece"`
 		Observed float64      `json:"ece_observed"`
+		Undrawn  float64      `json:"undrawn"` // share of resamples without the last class
 	}
 	runPython(t, script, js, &want)
+	if u := want[2].Undrawn; u < 0.02 {
+		t.Fatalf("the rare class is missing from %.3f of SciPy's resamples: the case tests nothing", u)
+	}
 	for i, c := range cases {
 		f := BootstrapF1s(confusionOf(c.Gold, c.Pred, c.K), 20000, 0.95, 1)
 		ours := append([]Interval{f.Weighted}, f.PerClass...)

@@ -34,7 +34,10 @@ type Metrics struct {
 	bins    int
 }
 
-// ClassMetrics is precision, recall and F1 of one class.
+// ClassMetrics is precision, recall and F1 of one class. A figure with
+// nothing to measure is NaN (null in JSON): precision when no text was
+// predicted as the class, recall and F1 when no text has it as its gold
+// label (support 0).
 type ClassMetrics struct {
 	Label     string  `json:"label"`
 	Precision float64 `json:"precision"`
@@ -48,10 +51,16 @@ type ClassMetrics struct {
 // probability), used for the expected calibration error with bins
 // equal-width bins (0 means DefaultBins); conf may be nil, giving ECE 0.
 //
-// Conventions follow scikit-learn's precision_recall_fscore_support: a
-// precision, recall or F1 whose denominator is zero is 0; the macro average
-// is over the classes that occur in gold or pred (scikit-learn's default
-// labels=None); the weighted average weights each class by its support.
+// Conventions follow scikit-learn's precision_recall_fscore_support and
+// f1_score, but for what scikit-learn calls ill-defined: a precision with
+// no text predicted as the class, and a recall with no text of the class,
+// are undefined (NaN) where scikit-learn sets them to zero_division and
+// warns; so is the F1 of a class with no text of its own. The macro-F1 is
+// scikit-learn's f1_score(average='macro') with labels=None: the mean F1
+// over the classes that occur in gold or pred, a class predicted but absent
+// from gold counting with F1 0 (scikit-learn warns there), a class absent
+// from both left out. The weighted average weights each class by its
+// support, so the classes without support take no part.
 func ComputeMetrics(labels []string, gold, pred []int, conf []float64, bins int) Metrics {
 	if len(gold) != len(pred) || (conf != nil && len(conf) != len(gold)) {
 		panic("cnn: ComputeMetrics: gold, pred and conf differ in length")
@@ -81,14 +90,16 @@ func ComputeMetrics(labels []string, gold, pred []int, conf []float64, bins int)
 			}
 		}
 		cm := ClassMetrics{Label: labels[c], Support: tp + fn}
-		cm.Precision = ratio(tp, tp+fp)
-		cm.Recall = ratio(tp, tp+fn)
-		cm.F1 = ratio(2*tp, 2*tp+fp+fn)
+		cm.Precision = defined(tp, tp+fp)
+		cm.Recall = defined(tp, tp+fn)
+		cm.F1 = classF1(tp, fp, fn)
 		if tp+fp+fn > 0 {
 			present++
-			sumF1 += cm.F1
+			sumF1 += ratio(2*tp, 2*tp+fp+fn) // 0 for a class predicted but never gold
 		}
-		sumW += cm.F1 * float64(cm.Support)
+		if cm.Support > 0 {
+			sumW += cm.F1 * float64(cm.Support)
+		}
 		mt.PerClass = append(mt.PerClass, cm)
 	}
 	if present > 0 {
@@ -113,6 +124,24 @@ func ratio(a, b int) float64 {
 		return 0
 	}
 	return float64(a) / float64(b)
+}
+
+// defined is a/b, NaN when b is 0: a share of nothing is undefined.
+func defined(a, b int) float64 {
+	if b == 0 {
+		return math.NaN()
+	}
+	return float64(a) / float64(b)
+}
+
+// classF1 is the F1 of a class with tp true positives, fp false positives
+// and fn false negatives, 2tp/(2tp+fp+fn), NaN when the class has no gold
+// text (tp+fn = 0; see ComputeMetrics).
+func classF1(tp, fp, fn int) float64 {
+	if tp+fn == 0 {
+		return math.NaN()
+	}
+	return ratio(2*tp, 2*tp+fp+fn)
 }
 
 // expectedCalibrationError is ECE = Σ_m |B_m|/n · |acc(B_m) − conf(B_m)| over
@@ -289,8 +318,12 @@ type Interval struct {
 	High     float64 `json:"high"`
 }
 
-// String writes the interval as the tool shows it: "0.834 (0.806–0.859)".
+// String writes the interval as the tool shows it: "0.834 (0.806–0.859)",
+// and "–" for a figure with nothing to measure (Undefined).
 func (iv Interval) String() string {
+	if iv.Undefined() {
+		return "–"
+	}
 	return fmt.Sprintf("%.3f (%.3f–%.3f)", iv.Estimate, iv.Low, iv.High)
 }
 
@@ -392,15 +425,35 @@ func countCells(flat, cells, w []int) {
 // Tibshirani 1993, ch. 13) of m statistics at once: it draws the resamples
 // as bootstrapDraws does and returns the (1−level)/2 and (1+level)/2
 // quantiles of each statistic (quantileSorted) as Low and High; the caller
-// sets the Estimates. Preconditions: those of bootstrapDraws, and
+// sets the Estimates. A statistic may be NaN in a resample (undefined
+// there): its quantiles are of the resamples where it is defined, and NaN
+// when it is defined in none. Preconditions: those of bootstrapDraws, and
 // 0 < level < 1.
 func bootstrapPercentiles(n, m, resamples int, level float64, seed uint64, stat func(w []int, out []float64)) []Interval {
 	vals := bootstrapDraws(n, m, resamples, seed, stat)
 	ivs := make([]Interval, m)
 	for j, v := range vals {
+		// NaN sorts first: a resample where the statistic is undefined
+		// (a class's F1 with none of its texts drawn) is left out, so the
+		// interval is of the statistic where it is defined.
+		v = v[countNaN(v):]
+		if len(v) == 0 {
+			ivs[j] = Interval{Low: math.NaN(), High: math.NaN()}
+			continue
+		}
 		ivs[j] = Interval{Low: quantileSorted(v, (1-level)/2), High: quantileSorted(v, (1+level)/2)}
 	}
 	return ivs
+}
+
+// countNaN is the number of NaNs at the start of sorted xs (slices.Sort
+// puts them first).
+func countNaN(sorted []float64) int {
+	n := 0
+	for n < len(sorted) && math.IsNaN(sorted[n]) {
+		n++
+	}
+	return n
 }
 
 // bootstrapDraws resamples n texts resamples times with replacement

@@ -68,7 +68,13 @@ func TestECETorchmetricsExamples(t *testing.T) {
 }
 
 // Against Debian's scikit-learn on random labels: accuracy, per-class
-// precision/recall/F1/support, macro and weighted F1 and the confusion matrix.
+// precision/recall/F1/support, macro and weighted F1 and the confusion
+// matrix. Some cases leave a class out of the gold labels, predicted in
+// some (macro-F1 counts it with F1 0) and not in others (left out), or
+// never predict a class. A figure scikit-learn calls ill-defined (it
+// differs between zero_division=0 and 1) must be NaN here; so must the F1
+// of a class with no gold text, which scikit-learn sets to 0 without a
+// warning when the class is predicted (ComputeMetrics).
 func TestMetricsAgainstScikitLearn(t *testing.T) {
 	testref.SequentialSkipInRace(t, "ComputeMetrics against scikit-learn")
 	requirePython(t, "sklearn")
@@ -85,6 +91,10 @@ func TestMetricsAgainstScikitLearn(t *testing.T) {
 		if i%4 == 3 {
 			used = k - 1 // the last class never occurs: excluded from the macro average
 		}
+		predUsed := used
+		if i%4 == 1 {
+			used = k - 1 // the last class has no gold text but may be predicted
+		}
 		n := 1 + rng.IntN(80)
 		c := tc{K: k, G: make([]int, n), P: make([]int, n)}
 		for j := range c.G {
@@ -92,11 +102,18 @@ func TestMetricsAgainstScikitLearn(t *testing.T) {
 			if rng.IntN(3) == 0 {
 				c.P[j] = c.G[j]
 			} else {
-				c.P[j] = rng.IntN(used)
+				c.P[j] = rng.IntN(predUsed)
+			}
+			if i%4 == 2 && c.P[j] == 0 {
+				c.P[j] = 1 // class 0 is never predicted
 			}
 		}
 		cases = append(cases, c)
 	}
+	// Gold has only classes 0 and 1; class 2 is predicted, class 3 not
+	// (the walkthrough's test file of two of the model's labels).
+	cases = append(cases, tc{K: 4, G: []int{0, 0, 0, 1, 1, 1, 1, 0}, P: []int{0, 0, 2, 1, 1, 2, 1, 1}},
+		tc{K: 3, G: []int{1, 1, 1, 1}, P: []int{1, 0, 1, 1}}) // one gold label only
 	js, _ := json.Marshal(cases)
 	script := `
 import json, sys, warnings
@@ -106,7 +123,9 @@ out = []
 for c in json.load(sys.stdin):
     g, p, labels = c["gold"], c["pred"], list(range(c["k"]))
     pr, rc, f1, sup = precision_recall_fscore_support(g, p, labels=labels, zero_division=0)
+    pr1, rc1, f11, _ = precision_recall_fscore_support(g, p, labels=labels, zero_division=1)
     out.append({"accuracy": accuracy_score(g, p),
+                "ill": [[bool(a != b) for a, b in zip(x, y)] for x, y in ((pr, pr1), (rc, rc1), (f1, f11))],
                 "macro": f1_score(g, p, average="macro", zero_division=0),
                 "weighted": f1_score(g, p, average="weighted", zero_division=0),
                 "precision": pr.tolist(), "recall": rc.tolist(), "f1": f1.tolist(), "support": sup.tolist(),
@@ -124,6 +143,7 @@ print(json.dumps(out))
 		Precision, Recall, F1     []float64
 		Support                   []int
 		Confusion                 [][]int
+		Ill                       [3][]bool // precision, recall, F1 ill-defined
 	}
 	if err := json.Unmarshal(raw, &refs); err != nil {
 		t.Fatal(err)
@@ -136,14 +156,24 @@ print(json.dumps(out))
 			t.Errorf("case %d: accuracy %g macro %g weighted %g; scikit-learn %g %g %g", i, mt.Accuracy, mt.MacroF1, mt.WeightedF1, r.Accuracy, r.Macro, r.Weighted)
 		}
 		for k, pc := range mt.PerClass {
-			if !near(pc.Precision, r.Precision[k], 1e-12) || !near(pc.Recall, r.Recall[k], 1e-12) || !near(pc.F1, r.F1[k], 1e-12) || pc.Support != r.Support[k] {
-				t.Errorf("case %d class %d: %+v; scikit-learn P %g R %g F1 %g n %d", i, k, pc, r.Precision[k], r.Recall[k], r.F1[k], r.Support[k])
+			if !sameOrUndefined(pc.Precision, r.Precision[k], r.Ill[0][k]) || !sameOrUndefined(pc.Recall, r.Recall[k], r.Ill[1][k]) ||
+				!sameOrUndefined(pc.F1, r.F1[k], r.Ill[2][k] || r.Support[k] == 0) || pc.Support != r.Support[k] {
+				t.Errorf("case %d class %d: %+v; scikit-learn P %g R %g F1 %g n %d, ill-defined %v %v %v",
+					i, k, pc, r.Precision[k], r.Recall[k], r.F1[k], r.Support[k], r.Ill[0][k], r.Ill[1][k], r.Ill[2][k])
 			}
 			if !slices.Equal(mt.Confusion[k], r.Confusion[k]) {
 				t.Errorf("case %d: confusion row %d %v, scikit-learn %v", i, k, mt.Confusion[k], r.Confusion[k])
 			}
 		}
 	}
+}
+
+// sameOrUndefined: ours is NaN when undefined, else want.
+func sameOrUndefined(ours, want float64, undefined bool) bool {
+	if undefined {
+		return math.IsNaN(ours)
+	}
+	return near(ours, want, 1e-12)
 }
 
 func TestEvaluateMatchesForward(t *testing.T) {

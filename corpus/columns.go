@@ -178,7 +178,7 @@ func LoadBytes(name string, data []byte, opt Options) (*Dataset, []Warning, erro
 	if len(d.Examples) == 0 {
 		return nil, ws.result(), errAt(name, 0, ErrEmpty, "no examples found: the file needs a header row and at least one record with a non-empty text")
 	}
-	if len(d.Labels) < 2 && !opt.Unlabeled {
+	if len(d.Labels) < 2 && !opt.Unlabeled && !opt.HeldOut {
 		return nil, ws.result(), errAt(name, 0, ErrLabel, "only one label %s in %s: a classifier needs at least two labels; check the label column",
 			quote(d.Labels[0]), wording.Count(len(d.Examples), "example", "examples"))
 	}

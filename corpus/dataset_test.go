@@ -1,6 +1,7 @@
 package corpus
 
 import (
+	"encoding/json"
 	"errors"
 	"fmt"
 	"os"
@@ -173,4 +174,54 @@ func ExampleSummary_WriteText() {
 	// duplicates: 1 exact groups, 1 near-exact groups; 1 test examples also in train
 	//   exact LEAK "Where is my bag?": train line 2 (lost), test line 2 (lost)
 	//   near "Two tickets to Arrow Isle, please": train line 3 (booking), train line 4 (booking)
+}
+
+// Figures of no text are undefined: an empty dev or test split has no
+// label shares and no length percentiles, and without test tokens there is
+// no out-of-vocabulary rate; null in JSON, "–" in text (README: "a figure
+// with nothing to measure is null"). A split with texts keeps its figures.
+func TestSummarizeEmptySplits(t *testing.T) {
+	train := &Dataset{Path: "train.csv", Examples: []Example{
+		{Text: "Book two seats", Label: "booking", Line: 2},
+		{Text: "lost my bag", Label: "lost", Line: 3},
+	}}
+	empty := &Dataset{Path: "train.csv"}
+	tok, _ := NewTokenizer(TokenizerConfig{Lower: true})
+	cases := []struct {
+		name      string
+		dev, test *Dataset
+		json      []string // substrings of the JSON
+		text      []string // substrings of the text
+	}{
+		{"empty dev and test", empty, empty,
+			[]string{`"test_oov_rate":null`, `"name":"dev","path":"train.csv","examples":0,"per_label":{},"balance":{},"token_length":{"p50":null,"p90":null,"p99":null,"max":null}`},
+			[]string{"all      2      100.0  0    –  0     –", "test tokens not in it: – (no test token)", "dev   p50 –  p90 –  p99 –  max –  (no text)"}},
+		{"no test split", nil, nil, []string{`"test_oov_rate":null`, `"token_length":{"p50":3,"p90":3,"p99":3,"max":3}`}, []string{"vocabulary: "}},
+		{"a test text", nil, &Dataset{Path: "test.csv", Examples: []Example{{Text: "lost my hat", Label: "lost", Line: 2}}},
+			[]string{`"test_oov_rate":0.3333333333333333`}, // hat of lost my hat
+			[]string{"test tokens not in it: 33.3%", "test  p50 3"}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			s := SummarizeThree(train, c.dev, c.test, tok)
+			js, err := json.Marshal(s)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var b strings.Builder
+			if err := s.WriteText(&b); err != nil {
+				t.Fatal(err)
+			}
+			for _, w := range c.json {
+				if !strings.Contains(string(js), w) {
+					t.Errorf("JSON lacks %s:\n%s", w, js)
+				}
+			}
+			for _, w := range c.text {
+				if !strings.Contains(b.String(), w) {
+					t.Errorf("text lacks %q:\n%s", w, b.String())
+				}
+			}
+		})
+	}
 }

@@ -53,6 +53,12 @@ type Options struct {
 	// is all text, a folder's files count at its top level as well as in
 	// label folders, and one label (or none) is not an error.
 	Unlabeled bool
+	// HeldOut reads a labeled dev or test file, evaluated against the
+	// labels of a model or of training data: one label is enough (a test
+	// file of one class measures its recall). Whether each label is one
+	// they know is checked where the labels are matched
+	// (Dataset.LabelIndex).
+	HeldOut bool
 }
 
 // Example is one labeled text.
@@ -102,9 +108,10 @@ func Load(path string, opt Options) (*Dataset, []Warning, error) {
 // Stream reads the corpus at path like Load but hands each example to fn
 // instead of keeping it, so memory does not grow with the corpus. An error
 // returned by fn stops reading and is returned as is. After the last
-// example Stream checks that there were examples and at least two labels
-// (a classifier needs two), so fn may have seen examples of a corpus that
-// is finally rejected.
+// example Stream checks that there were examples and, unless
+// opt.Unlabeled or opt.HeldOut, at least two labels (a classifier needs
+// two), so fn may have seen examples of a corpus that is finally
+// rejected.
 func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error) {
 	if opt.MaxTextBytes <= 0 {
 		opt.MaxTextBytes = DefaultMaxTextBytes
@@ -163,7 +170,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 	if n == 0 {
 		return ws.result(), errAt(path, 0, ErrEmpty, "no examples found: the file needs a header row and at least one record with a non-empty text")
 	}
-	if len(labels) < 2 && !opt.Unlabeled {
+	if len(labels) < 2 && !opt.Unlabeled && !opt.HeldOut {
 		var only string
 		for l := range labels {
 			only = l

@@ -452,3 +452,54 @@ func TestGuessedColumnsAreNamed(t *testing.T) {
 		}
 	}
 }
+
+// A held-out file (Options.HeldOut) may hold one label, read by Load, by
+// LoadBytes and from a folder alike; every other check stays: no
+// examples, an empty label. Without HeldOut one label is refused.
+func TestHeldOutOneLabel(t *testing.T) {
+	dir := t.TempDir()
+	csvPath := writeFile(t, dir, "praise.csv", "text,label\nlovely crew,praise\nthank you,praise\n")
+	folder := filepath.Join(dir, "folder")
+	writeFile(t, filepath.Join(folder, "praise"), "a.txt", "lovely crew")
+	cases := []struct {
+		name, path string
+		load       func(string, Options) (*Dataset, []Warning, error)
+		n          int
+		msg        string // "" = read; else the error's substring
+	}{
+		{"csv", csvPath, Load, 2, ""},
+		{"csv from memory", csvPath, loadBytesOf(t), 2, ""},
+		{"folder", folder, Load, 1, ""},
+		{"header only", writeFile(t, dir, "empty.csv", "text,label\n"), Load, 0, "no examples"},
+		{"empty label", writeFile(t, dir, "blank.csv", "text,label\nok,praise\nfine, \n"), Load, 0, "line 3: empty label"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			d, _, err := c.load(c.path, Options{HeldOut: true})
+			switch {
+			case c.msg != "" && (err == nil || !strings.Contains(err.Error(), c.msg)):
+				t.Fatalf("error %v, want one with %q", err, c.msg)
+			case c.msg == "" && err != nil:
+				t.Fatal(err)
+			case c.msg == "" && (len(d.Examples) != c.n || !slices.Equal(d.Labels, []string{"praise"})):
+				t.Fatalf("%d examples, labels %q; want %d of praise", len(d.Examples), d.Labels, c.n)
+			}
+			if c.msg == "" {
+				if _, _, err := c.load(c.path, Options{}); err == nil || !strings.Contains(err.Error(), `only one label "praise"`) {
+					t.Errorf("without HeldOut: %v, want the one-label error", err)
+				}
+			}
+		})
+	}
+}
+
+// loadBytesOf reads a file and hands it to LoadBytes.
+func loadBytesOf(t *testing.T) func(string, Options) (*Dataset, []Warning, error) {
+	return func(path string, opt Options) (*Dataset, []Warning, error) {
+		b, err := os.ReadFile(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return LoadBytes(path, b, opt)
+	}
+}

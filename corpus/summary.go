@@ -1,6 +1,7 @@
 package corpus
 
 import (
+	"encoding/json"
 	"fmt"
 	"hash/fnv"
 	"io"
@@ -15,9 +16,11 @@ import (
 // vocabulary, token lengths, and duplicate texts within and across the
 // splits (a text in both splits is a train/test leak).
 type Summary struct {
-	Labels          []string         `json:"labels"`
-	Splits          []SplitSummary   `json:"splits"`
-	VocabSize       int              `json:"vocab_size"` // word vocabulary of the training split, PAD and UNK included
+	Labels    []string       `json:"labels"`
+	Splits    []SplitSummary `json:"splits"`
+	VocabSize int            `json:"vocab_size"` // word vocabulary of the training split, PAD and UNK included
+	// TestOOVRate is the share of the test split's tokens outside the
+	// vocabulary; NaN (null in JSON) without a test token to count.
 	TestOOVRate     float64          `json:"test_oov_rate"`
 	ExactDuplicates []DuplicateGroup `json:"exact_duplicates"`
 	NearDuplicates  []DuplicateGroup `json:"near_duplicates"`
@@ -37,12 +40,40 @@ type SplitSummary struct {
 }
 
 // Percentiles of token counts per text, by the nearest-rank method
-// (common practice, no source).
+// (common practice, no source). Those of no text are undefined
+// (Undefined; null in JSON, "–" in text).
 type Percentiles struct {
 	P50 int `json:"p50"`
 	P90 int `json:"p90"`
 	P99 int `json:"p99"`
 	Max int `json:"max"`
+
+	none bool // of no text
+}
+
+// Undefined reports whether the percentiles are of no text.
+func (p Percentiles) Undefined() bool { return p.none }
+
+// MarshalJSON writes the percentiles of no text as nulls.
+func (p Percentiles) MarshalJSON() ([]byte, error) {
+	if p.none {
+		return []byte(`{"p50":null,"p90":null,"p99":null,"max":null}`), nil
+	}
+	type plain Percentiles
+	return json.Marshal(plain(p))
+}
+
+// MarshalJSON writes an undefined TestOOVRate (NaN) as null.
+func (s Summary) MarshalJSON() ([]byte, error) {
+	type plain Summary
+	q := struct {
+		plain
+		TestOOVRate *float64 `json:"test_oov_rate"`
+	}{plain: plain(s)}
+	if !math.IsNaN(s.TestOOVRate) {
+		q.TestOOVRate = &s.TestOOVRate
+	}
+	return json.Marshal(q)
 }
 
 // DuplicateGroup is a set of examples with the same text (exact) or the
@@ -110,6 +141,7 @@ func SummarizeThree(train, dev, test *Dataset, tok *Tokenizer) Summary {
 	cfg := tok.Config()
 	v := BuildVocab(tok, train.Texts(), cfg.MinCount, cfg.MaxVocab)
 	s.VocabSize = v.Len()
+	s.TestOOVRate = math.NaN()
 	if test != nil {
 		n, unk := 0, 0
 		for _, e := range test.Examples {
@@ -244,10 +276,10 @@ func nearKey(s string) string {
 	return b.String()
 }
 
-// percentiles returns nearest-rank percentiles of xs (zero for none).
+// percentiles returns nearest-rank percentiles of xs (undefined for none).
 func percentiles(xs []int) Percentiles {
 	if len(xs) == 0 {
-		return Percentiles{}
+		return Percentiles{none: true}
 	}
 	s := append([]int(nil), xs...)
 	sort.Ints(s)
@@ -256,6 +288,15 @@ func percentiles(xs []int) Percentiles {
 		return s[max(k, 0)]
 	}
 	return Percentiles{P50: rank(50), P90: rank(90), P99: rank(99), Max: s[len(s)-1]}
+}
+
+// share writes a percentage with one decimal, "–" for a split of no
+// examples (a share of nothing).
+func share(percent float64, examples int) string {
+	if examples == 0 {
+		return "–"
+	}
+	return fmt.Sprintf("%.1f", percent)
 }
 
 // WriteText writes the summary as readable tables.
@@ -271,13 +312,13 @@ func (s Summary) WriteText(out io.Writer) error {
 	for _, l := range s.Labels {
 		cells := []string{l}
 		for _, sp := range s.Splits {
-			cells = append(cells, fmt.Sprint(sp.PerLabel[l]), fmt.Sprintf("%.1f", 100*sp.Balance[l]))
+			cells = append(cells, fmt.Sprint(sp.PerLabel[l]), share(100*sp.Balance[l], sp.Examples))
 		}
 		row(cells...)
 	}
 	all := []string{"all"}
 	for _, sp := range s.Splits {
-		all = append(all, fmt.Sprint(sp.Examples), "100.0")
+		all = append(all, fmt.Sprint(sp.Examples), share(100, sp.Examples))
 	}
 	row(all...)
 	tw.Flush()
@@ -286,13 +327,20 @@ func (s Summary) WriteText(out io.Writer) error {
 	for _, sp := range s.Splits[1:] {
 		held[sp.Name] = true
 	}
-	if held["test"] {
+	switch {
+	case held["test"] && math.IsNaN(s.TestOOVRate):
+		fmt.Fprint(w, "; test tokens not in it: – (no test token)")
+	case held["test"]:
 		fmt.Fprintf(w, "; test tokens not in it: %.1f%%", 100*s.TestOOVRate)
 	}
 	fmt.Fprintln(w)
 	fmt.Fprintln(w, "tokens per text:")
 	for _, sp := range s.Splits {
 		p := sp.TokenLength
+		if p.Undefined() {
+			fmt.Fprintf(w, "  %-5s p50 –  p90 –  p99 –  max –  (no text)\n", sp.Name)
+			continue
+		}
 		fmt.Fprintf(w, "  %-5s p50 %d  p90 %d  p99 %d  max %d\n", sp.Name, p.P50, p.P90, p.P99, p.Max)
 	}
 	leaked := "test"

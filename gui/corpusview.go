@@ -2,6 +2,7 @@ package gui
 
 import (
 	"fmt"
+	"math"
 	"sort"
 	"strings"
 
@@ -178,9 +179,13 @@ func summaryFacts(cs *corpusState) string {
 		fmt.Fprintf(&b, "%s: tokens per text median %d, 90th percentile %d, longest %d.  ",
 			capitalize(splitName(sp.Name)), sp.TokenLength.P50, sp.TokenLength.P90, sp.TokenLength.Max)
 	}
-	fmt.Fprintf(&b, "\nVocabulary of the training split: %d words; %.1f%% of test tokens are not in it. "+
+	oov := fmt.Sprintf("%.1f%% of test tokens are not in it", 100*s.TestOOVRate)
+	if math.IsNaN(s.TestOOVRate) {
+		oov = "no test token to compare with it" // no test split, or one of empty texts
+	}
+	fmt.Fprintf(&b, "\nVocabulary of the training split: %d words; %s. "+
 		"Groups of exact duplicates %d, of near duplicates %d; %s of the dev and test splits also in the training split (leaks).",
-		s.VocabSize, 100*s.TestOOVRate, s.ExactGroups, s.NearGroups, wording.Texts(s.Leaks))
+		s.VocabSize, oov, s.ExactGroups, s.NearGroups, wording.Texts(s.Leaks))
 	return b.String()
 }
 

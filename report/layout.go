@@ -80,6 +80,7 @@ type metricsView struct {
 	Level                        string
 	McNemar                      string
 	Rows                         []classRow
+	Undefined                    string // DescribeUndefined: what "–" stands for and how macro-F1 counts the labels without a text
 	Labels                       []string
 	Confusion                    [][]heatCell
 	ConfusionImg, ReliabilityImg template.URL
@@ -362,15 +363,28 @@ func maskedCount(m []bool) int {
 	return n
 }
 
+// tokens writes a token count of the percentiles p, "–" when they are of
+// no text.
+func tokens(n int, p corpus.Percentiles) string {
+	if p.Undefined() {
+		return "–"
+	}
+	return fmt.Sprint(n)
+}
+
 func summary(s *corpus.Summary) *summaryView {
 	sv := &summaryView{Labels: s.Labels, Vocab: count(s.VocabSize), OOV: pct(s.TestOOVRate),
 		Exact: count(s.ExactGroups), Near: count(s.NearGroups), Leaks: count(s.Leaks), Leaked: "Test"}
 	for _, sp := range s.Splits {
+		tl := sp.TokenLength
 		row := splitRow{Name: sp.Name, Path: sp.Path, Examples: count(sp.Examples),
-			P50: fmt.Sprint(sp.TokenLength.P50), P90: fmt.Sprint(sp.TokenLength.P90),
-			P99: fmt.Sprint(sp.TokenLength.P99), Max: fmt.Sprint(sp.TokenLength.Max)}
+			P50: tokens(tl.P50, tl), P90: tokens(tl.P90, tl), P99: tokens(tl.P99, tl), Max: tokens(tl.Max, tl)}
 		for _, l := range s.Labels {
-			row.PerLabel = append(row.PerLabel, fmt.Sprintf("%s (%s)", count(sp.PerLabel[l]), pct(sp.Balance[l])))
+			share := math.NaN() // of no example
+			if sp.Examples > 0 {
+				share = sp.Balance[l]
+			}
+			row.PerLabel = append(row.PerLabel, fmt.Sprintf("%s (%s)", count(sp.PerLabel[l]), pct(share)))
 		}
 		switch sp.Name {
 		case "dev":
@@ -474,6 +488,7 @@ func metrics(in Input) (*metricsView, error) {
 		ci := iv.PerClass[i]
 		mv.Rows = append(mv.Rows, classRow{c.Label, ci.Precision.String(), ci.Recall.String(), ci.F1.String(), count(c.Support)})
 	}
+	mv.Undefined = DescribeUndefined(*mt)
 	most := 0
 	for _, row := range mt.Confusion {
 		if len(row) != k {
