@@ -104,13 +104,15 @@ func besideModels(outputs, inputs []outguard.File) []outguard.File {
 	return marks
 }
 
-// recordedSplits are the dev and test files that the models among inputs
-// (--model, --models) recorded at training (cnn.SplitRecord.DevFile and
-// TestFile, absolute paths), that are not among inputs already. They are
-// not checked as inputs: a command reads them only when --data is the
-// model's data, and says itself when they cannot be read. A model that is
-// not a regular file (a named pipe is read once, by the command) or whose
-// header cannot be read adds none: loading it gives the error.
+// recordedSplits are the data, dev and test files that the models among
+// inputs (--model, --models) recorded at training (cnn.SplitRecord.DataAbs,
+// DevFile and TestFile, absolute paths), that are not among inputs already.
+// They are not checked as inputs: a command reads the dev and test files
+// when --data is the model's data, and the data file to find the model's
+// training split when it is not given (with --test alone, or other
+// --data), and says itself when they cannot be read. A model that is not a
+// regular file (a named pipe is read once, by the command) or whose header
+// cannot be read adds none: loading it gives the error.
 func recordedSplits(inputs []outguard.File) []outguard.File {
 	var files []outguard.File
 	for _, in := range inputs {
@@ -127,11 +129,15 @@ func recordedSplits(inputs []outguard.File) []outguard.File {
 		for _, s := range []struct {
 			which, path string
 			once        bool
-		}{{"dev", rec.DevFile, rec.DevPipe}, {"test", rec.TestFile, rec.TestPipe}} {
+		}{{"data", rec.DataAbs, false}, {"dev", rec.DevFile, rec.DevPipe}, {"test", rec.TestFile, rec.TestPipe}} {
 			if s.path == "" || readOnce(s.path, s.once) || holds(inputs, s.path) || holds(files, s.path) {
 				continue
 			}
-			files = append(files, outguard.File{Name: in.Name + " " + in.Path + "'s recorded " + s.which + " split", Path: s.path})
+			what := "recorded " + s.which + " split"
+			if s.which == "data" {
+				what = "recorded training data"
+			}
+			files = append(files, outguard.File{Name: in.Name + " " + in.Path + "'s " + what, Path: s.path})
 		}
 	}
 	return files

@@ -510,3 +510,33 @@ func TestRecordedSplitsLeaveReadOnceFiles(t *testing.T) {
 		t.Errorf("recorded splits %+v, want the dev file alone", got)
 	}
 }
+
+// A command given the model's texts by --test alone, or other --data,
+// reads the data file the model records to find its training split
+// (findTestSplitOf), so an output onto that file is refused before any
+// work, and the file is unchanged after.
+func TestRecordedDataGuarded(t *testing.T) {
+	rs := recordedSplitsModel(t)
+	before, err := os.ReadFile(rs.data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	test := filepath.Join(rs.dir, "test.csv")
+	for _, c := range [][]string{
+		{"eval", "--model", rs.model, "--test", test, "--export", rs.data},
+		{"eval", "--model", rs.model, "--data", test, "--export", rs.data},
+		{"report", "--model", rs.model, "--data", test, "--out", rs.data},
+		{"mask", "--model", rs.model, "--test", test, "--filters", "0", "--out", rs.data},
+		{"audit", "--model", rs.model, "--data", test, "--export", rs.data},
+		{"audit", "--model", rs.model, "--data", test, "--confirming-out", rs.data},
+	} {
+		code, _, stderr := tt(t, c...)
+		noCrash(t, "guard", stderr)
+		if code != 2 || !strings.Contains(stderr, "telltale never writes onto its inputs") || !strings.Contains(stderr, "'s recorded training data") {
+			t.Errorf("%q: exit %d, stderr %q; want exit 2 naming the model's recorded training data", c, code, stderr)
+		}
+		if after, err := os.ReadFile(rs.data); err != nil || !bytes.Equal(after, before) {
+			t.Fatalf("%q changed the model's training data (%v)", c, err)
+		}
+	}
+}
