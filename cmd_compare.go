@@ -138,11 +138,12 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 }
 
 // checksFor makes for model m (at path), not the first (first), the
-// checks findTestSplit made for the first on the texts it found (es): with
-// --test, whether the file is m's training data or holds texts of its
-// training split, and whether it is m's recorded test file changed since
-// training; with --data, es's warnings when m was trained with first's
-// splits, else whether the texts hold texts of m's training split. The
+// checks findTestSplit made for the first on the texts it found (es):
+// with --data alone, es's warnings when m was trained with first's splits;
+// else whether the texts are m's training data or hold texts of its
+// training split, and, when they are a file's (--test, or the test file
+// the first recorded), whether that file is m's recorded test file changed
+// since training. m's own choosing-half warnings (cuesChosen) follow. The
 // training split is found in --data or in the data file m records
 // (recordedTraining); when it cannot be, note says so.
 func (o *compareOptions) checksFor(m *cnn.Model, path string, first *cnn.Model, es *evalSet) (warnings []string, note string) {
@@ -152,16 +153,16 @@ func (o *compareOptions) checksFor(m *cnn.Model, path string, first *cnn.Model, 
 		return append(es.splitWarnings(), own...), ""
 	}
 	defer func() { warnings = append(warnings, own...) }()
-	name := cmp.Or(o.test, o.data)
-	if o.test == "" && es.name == "test" {
+	name := cmp.Or(es.file, o.data)
+	if es.file == "" && es.name == "test" {
 		name = fmt.Sprintf("the test split of %s (that of %s)", o.data, o.paths[0])
 	}
 	train, why := recordedTraining(rec, es.all, &o.read)
 	if w := trainingWarning(rec, es.test, name, train); w != "" {
 		warnings = append(warnings, w)
 	}
-	if rec != nil && o.test != "" && absPath(o.test) == rec.TestFile {
-		if w := changedSince("test", o.test, rec.TestFingerprint, es.test); w != "" {
+	if rec != nil && es.file != "" && absPath(es.file) == rec.TestFile {
+		if w := changedSince("test", es.file, rec.TestFingerprint, es.test); w != "" {
 			warnings = append(warnings, w)
 		}
 	}

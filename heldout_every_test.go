@@ -5,9 +5,11 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
+	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/internal/wording"
 )
@@ -206,4 +208,55 @@ func mustMarshal(t *testing.T, v any) []byte {
 		t.Fatal(err)
 	}
 	return b
+}
+
+// TestCompareChangedRecordedTestFile: with --data alone, compare reads the
+// test file the first model recorded; a second model recorded with the same
+// file, on other splits (another seed), is warned that it changed since
+// training too, and its warnings name that file, whichever model is first.
+func TestCompareChangedRecordedTestFile(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	test := filepath.Join(dir, "t.csv")
+	held := loadExamples(t, filepath.Join("testdata", "demo", "test.csv")).Examples
+	writeExamples(t, test, held[:300])
+	a, _ := trainedOn(t, dir, "a.tt", data, "--test", test)
+	b, _ := trainedOn(t, dir, "b.tt", data, "--test", test, "--seed", "7")
+	writeExamples(t, test, held[:200]) // changed since training
+	for _, models := range [][]string{{a, b}, {b, a}} {
+		var rows []compareRow
+		jsonOf(t, &rows, "compare", "--models", strings.Join(models, ","), "--data", data, "--json", "--quiet")
+		if len(rows) != 2 {
+			t.Fatalf("compare %q: %d rows", models, len(rows))
+		}
+		for i, r := range rows {
+			if !slices.ContainsFunc(r.Warnings, func(w string) bool { return strings.Contains(w, test) && strings.Contains(w, "changed since training") }) {
+				t.Errorf("compare %q: model %d warnings %q, want one that %s changed since training", models, i+1, r.Warnings, test)
+			}
+		}
+	}
+}
+
+// TestEvalNotesAnUncheckableTestFile: a model file that records no splits
+// (as import writes) cannot say which texts it was trained on; eval on a
+// --test file says so in its note, as it does for --data.
+func TestEvalNotesAnUncheckableTestFile(t *testing.T) {
+	dir := t.TempDir()
+	m, err := cnn.New(cnn.Config{VocabSize: 4, Dim: 2, Widths: []int{1}, Filters: 1, Classes: 2}, []string{"<pad>", "<unk>", "lost", "bag"}, []string{"lost-property", "praise"}, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	model := filepath.Join(dir, "m.tt")
+	if err := m.Save(model); err != nil {
+		t.Fatal(err)
+	}
+	test := filepath.Join(dir, "t.csv")
+	writeExamples(t, test, []corpus.Example{{Text: "lost bag", Label: "lost-property"}, {Text: "bag", Label: "praise"}})
+	var ev struct {
+		Note string `json:"split_note"`
+	}
+	jsonOf(t, &ev, "eval", "--model", model, "--test", test, "--json", "--quiet")
+	if !strings.Contains(ev.Note, "does not record how its splits were made") {
+		t.Errorf("eval --test on a model without splits: note %q, want that it cannot be checked", ev.Note)
+	}
 }

@@ -151,10 +151,27 @@ func checkCuesChosen(t *testing.T, dir, model, retrained, data, test string, res
 	if code, _, stderr := tt(t, "eval", "--model", retrained, "--data", data); code != 0 || !strings.Contains(stderr, "warning: "+warning) {
 		t.Errorf("eval: exit %d, no warning %q:\n%s", code, warning, stderr)
 	}
-	var rows []compareRow
-	jsonOf(t, &rows, "compare", "--models", model+","+retrained, "--data", data, "--test", test, "--json", "--quiet")
-	if len(rows) != 2 || !slices.ContainsFunc(rows[1].Warnings, func(w string) bool { return strings.HasPrefix(w, warning) }) {
-		t.Errorf("compare --json: rows %+v, want the warning %q", rows, warning)
+	// compare gives the warning to the retrained model alone, first or
+	// second, on a --test file and on the splits of --data both share.
+	has := func(ws []string) bool { return slices.ContainsFunc(ws, func(w string) bool { return strings.HasPrefix(w, warning) }) }
+	for _, c := range []struct {
+		models         string
+		texts          []string
+		retrainedFirst bool
+	}{
+		{model + "," + retrained, []string{"--data", data, "--test", test}, false},
+		{retrained + "," + model, []string{"--data", data}, true},
+		{model + "," + retrained, []string{"--data", data}, false},
+	} {
+		var rows []compareRow
+		jsonOf(t, &rows, append(append([]string{"compare", "--models", c.models}, c.texts...), "--json", "--quiet")...)
+		r, o := 1, 0
+		if c.retrainedFirst {
+			r, o = 0, 1
+		}
+		if len(rows) != 2 || !has(rows[r].Warnings) || has(rows[o].Warnings) {
+			t.Errorf("compare --models %s %q --json: rows %+v, want the warning %q for the retrained model alone", c.models, c.texts, rows, warning)
+		}
 	}
 	page := filepath.Join(dir, "r.html")
 	if code, _, stderr := tt(t, "report", "--model", retrained, "--data", data, "--out", page, "--no-audit", "--quiet"); code != 0 {

@@ -130,6 +130,10 @@ type evalSet struct {
 	dev   *corpus.Dataset // the model's dev split (its share of --data, or its dev file) when --data is the model's data; else nil
 	name  string          // "test", or "all" when that is all of --data
 	note  string          // where the texts come from, for the user
+	// file is the file the texts were read from when they are a file's:
+	// --test, or the test file the model recorded; "" for a split drawn
+	// out of --data, or all of it.
+	file string
 	// warnings say why the figures may not be held-out figures, or not the
 	// ones train reported (findTestSplit has printed them).
 	warnings []string
@@ -227,7 +231,7 @@ func (es *evalSet) findTexts(rec *cnn.SplitRecord, data, test string, same bool,
 		if es.test, err = r.readHeldOut(test, data == "", warn, quiet); err != nil {
 			return err
 		}
-		es.note = fmt.Sprintf("evaluating on the test file %s (%s)", test, wording.Texts(len(es.test.Examples)))
+		es.note, es.file = fmt.Sprintf("evaluating on the test file %s (%s)", test, wording.Texts(len(es.test.Examples))), test
 		if rec != nil && absPath(test) == rec.TestFile {
 			es.warnChanged(rec, test)
 		}
@@ -238,6 +242,7 @@ func (es *evalSet) findTexts(rec *cnn.SplitRecord, data, test string, same bool,
 			return fmt.Errorf("the model's test split is the file it was trained with (--test %s), which cannot be read: %w; give the test file with --test", rec.TestFile, err)
 		}
 		es.note = fmt.Sprintf("evaluating on %s, the test file the model was trained with (%s)", rec.TestFile, wording.Texts(len(es.test.Examples)))
+		es.file = rec.TestFile
 		es.warnChanged(rec, rec.TestFile)
 	case same:
 		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%s), never used for training or to choose the epoch",
@@ -334,7 +339,10 @@ func (es *evalSet) readDevFile(rec *cnn.SplitRecord, r *readOptions) {
 // this could not be checked, and why.
 func (es *evalSet) checkTraining(rec *cnn.SplitRecord, name string, same bool, r *readOptions) {
 	if rec == nil {
-		return // the note says that the texts may include training texts
+		if es.file != "" { // other texts' notes say they may include training texts
+			es.note += "; the model file does not record how its splits were made, so whether they hold texts it was trained on cannot be checked"
+		}
+		return
 	}
 	train, why := es.train, ""
 	if !same {
