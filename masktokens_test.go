@@ -153,7 +153,9 @@ func checkCuesChosen(t *testing.T, dir, model, retrained, data, test string, res
 	}
 	// compare gives the warning to the retrained model alone, first or
 	// second, on a --test file and on the splits of --data both share.
-	has := func(ws []string) bool { return slices.ContainsFunc(ws, func(w string) bool { return strings.HasPrefix(w, warning) }) }
+	has := func(ws []string) bool {
+		return slices.ContainsFunc(ws, func(w string) bool { return strings.HasPrefix(w, warning) })
+	}
 	for _, c := range []struct {
 		models         string
 		texts          []string
