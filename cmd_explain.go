@@ -192,12 +192,7 @@ func withOrigins(t *report.Table, origins []text) *report.Table {
 	t.Columns = slices.Insert(t.Columns, 1, cols...)
 	for r, row := range t.Rows {
 		o := origins[row[0].(int)]
-		var cells []any
-		if o.Line > 0 {
-			cells = append(cells, o.Line)
-		} else {
-			cells = append(cells, nil)
-		}
+		cells := []any{lineCell(o.Line)}
 		if files {
 			cells = append(cells, o.File)
 		}

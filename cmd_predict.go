@@ -122,12 +122,7 @@ func predictionTable(labels []string, texts []text, probs [][]float32) *report.T
 		t.Columns = append(t.Columns, "p_"+l)
 	}
 	for i, x := range texts {
-		var row []any
-		if x.Line > 0 {
-			row = append(row, x.Line)
-		} else {
-			row = append(row, nil)
-		}
+		row := []any{lineCell(x.Line)}
 		if files {
 			row = append(row, x.File)
 		}

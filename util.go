@@ -100,3 +100,12 @@ func warnTo(w io.Writer, quiet bool) io.Writer {
 	}
 	return w
 }
+
+// lineCell is an input line number as an export table's cell: nil (an
+// empty cell) for a text without one (0).
+func lineCell(line int) any {
+	if line > 0 {
+		return line
+	}
+	return nil
+}
