@@ -685,7 +685,8 @@ func (o *auditOptions) openOthers(m *cnn.Model) ([]*cnn.Model, error) {
 // differently from model a ("" when none): the network (Config), the
 // tokenizer and its vocabulary, the masked filters, and the training
 // settings the models record, all but the seed and the thread count, which
-// change only the weights.
+// change only the weights; the token mask's patterns are compared as a set
+// (patternSet).
 func recipeDifference(a, b *cnn.Model) string {
 	ta, tb := a.Tokenizer, b.Tokenizer
 	ta.SubwordPieces, tb.SubwordPieces = nil, nil // compared as the vocabulary
@@ -697,6 +698,7 @@ func recipeDifference(a, b *cnn.Model) string {
 	case a.Info.Recipe != nil:
 		ra, rb = *a.Info.Recipe, *b.Info.Recipe
 		ra.Seed, rb.Seed, ra.Threads, rb.Threads = 0, 0, 0, 0
+		ra.MaskTokens, rb.MaskTokens = patternSet(ra.MaskTokens), patternSet(rb.MaskTokens)
 	}
 	for _, c := range []struct {
 		what string
@@ -713,6 +715,16 @@ func recipeDifference(a, b *cnn.Model) string {
 		return "masked filters: the two models mask different filters"
 	}
 	return ""
+}
+
+// patternSet is the token mask's patterns sorted and distinct, a new
+// slice: training takes out every match of any of them, whatever their
+// order, so two masks of the same patterns are one mask.
+func patternSet(patterns []string) []string {
+	if len(patterns) == 0 {
+		return patterns
+	}
+	return slices.Compact(slices.Sorted(slices.Values(patterns)))
 }
 
 // fieldDifference names the first field of the structs a and b (of one

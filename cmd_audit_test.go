@@ -866,3 +866,19 @@ func changeField(t *testing.T, v reflect.Value, name string, valid map[string]st
 		t.Fatalf("field %s of kind %s: teach the test a value", name, v.Kind())
 	}
 }
+
+// TestRetrainCommandsMaskOrder: the story's MODEL.cues holds the model's
+// own token mask first, then the cues not in it: the order audit --retrain
+// records (audit.Retrain), so that the two ways of retraining make models
+// of one recipe.
+func TestRetrainCommandsMaskOrder(t *testing.T) {
+	tc, _ := cnn.DefaultRecipe().Train.WithDefaults()
+	tc.MaskTokens = []string{"/x/", "tkref"}
+	m := &cnn.Model{Config: cnn.DefaultRecipe().Model, Tokenizer: cnn.DefaultRecipe().Tokenizer}
+	m.Info.Recipe = &tc
+	src := auditSource{model: "m.tt", data: "d.csv", read: &readOptions{MaxTextBytes: corpus.DefaultMaxTextBytes}, es: &evalSet{}, m: m}
+	cmds := src.retrainCommands([]string{"cue", "tkref"})
+	if want := `printf '%s\n' /x/ tkref cue > m.cues`; len(cmds) == 0 || cmds[0] != want {
+		t.Errorf("commands %q, want first %q", cmds, want)
+	}
+}

@@ -85,7 +85,7 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 		return nil, err
 	}
 	out := &Retrained{Patterns: patterns, RecipeMask: r.Train.MaskTokens}
-	r.Train.MaskTokens = joinPatterns(r.Train.MaskTokens, patterns)
+	r.Train.MaskTokens = JoinPatterns(r.Train.MaskTokens, patterns)
 	mask := func(d *corpus.Dataset) (*corpus.Dataset, int) {
 		if d == nil {
 			return nil, 0
@@ -124,8 +124,11 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 	return out, nil
 }
 
-// joinPatterns is a followed by the patterns of b not in a, a new slice.
-func joinPatterns(a, b []string) []string {
+// JoinPatterns is a followed by the patterns of b not in a, a new slice:
+// the one order of a retrained model's mask, the recipe's own patterns
+// (a) then the cues (b), that audit --retrain records and the story's
+// train --mask-tokens line writes.
+func JoinPatterns(a, b []string) []string {
 	out := slices.Clone(a)
 	for _, p := range b {
 		if !slices.Contains(out, p) {
