@@ -526,10 +526,15 @@ func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result,
 // chose what (cnn.ChoseRetrain or ChoseMask) on its choosing half of the
 // held-out texts of es: "test" when they are the test split m records
 // (the share of --data, or its test file), else named by the absolute
-// path of --test.
+// path of the file read: --test, or --data when all of it was held out
+// (es.name "all": data that is not the model's, or a model with no split
+// record).
 func (o *auditOptions) choice(m *cnn.Model, es *evalSet, res *audit.Result, what string) cnn.CueChoice {
 	heldout := "test"
-	if t := o.test; t != "" && (m.Info.Splits == nil || absPath(t) != m.Info.Splits.TestFile) {
+	switch t := o.test; {
+	case es.name == "all":
+		heldout = absPath(o.data)
+	case t != "" && (m.Info.Splits == nil || absPath(t) != m.Info.Splits.TestFile):
 		heldout = absPath(t)
 	}
 	return cnn.CueChoice{Half: "selection", For: what, Heldout: heldout, Of: len(es.test.Examples),

@@ -21,7 +21,9 @@ type CueChoice struct {
 	For string `json:"for"`
 	// Heldout is "test" when the audit's held-out texts were the audited
 	// model's test split (the one the retrained model records), else the
-	// absolute path of the file they were read from (audit --test FILE).
+	// absolute path of the file they were read from: audit --test FILE, or
+	// --data when the audit held out all of it (data not the model's), or,
+	// in the window, the open corpus's test file or data file.
 	Heldout string `json:"heldout"`
 	// Of and Fingerprint identify those held-out texts as the audit read
 	// them (corpus.Dataset.Fingerprint), so that a later command knows
