@@ -893,7 +893,7 @@ func TestCueChoiceHeldout(t *testing.T) {
 	ds := &corpus.Dataset{Examples: []corpus.Example{{Text: "a", Label: "x"}, {Text: "b", Label: "y"}}}
 	res := &audit.Result{Selection: []int{1}}
 	for _, c := range []struct {
-		name string
+		name       string
 		data, test string
 		es         evalSet
 		want       string
