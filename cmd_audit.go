@@ -457,9 +457,15 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 	}
 	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.src.heldoutFile(), r.o.data),
 		HeldoutShare: r.src.heldoutShare(), RetrainCommands: r.src.retrainCommands, RetrainedModel: r.o.retrainOut, Seed: r.o.seed, Workers: r.o.threads.N}
-	return audit.Run(ctx, mu, train, held, opt, func(stage string, done, total int) {
+	res, err := audit.Run(ctx, mu, train, held, opt, func(stage string, done, total int) {
 		r.bar.show(done, total, what+"audit: "+auditStage(stage), false)
 	})
+	if errors.Is(err, audit.ErrOneLabel) {
+		// Test texts that do not suit the audit, which the command line
+		// chose: a usage error (exit 2), with the same message.
+		return nil, usagef("%s", err)
+	}
+	return res, err
 }
 
 // train trains one more model with recipe and seed on the model's splits,
