@@ -128,6 +128,9 @@ func TestAuditHeldoutFilesAndMarks(t *testing.T) {
 // TestRecipeDifference: models that differ only in their seed and thread
 // count are of one recipe; a difference in the network, the tokenizer, the
 // vocabulary, the masked filters or a recorded training setting is named.
+// A token mask of the same patterns in another order is the same mask
+// (training takes out every match of any pattern): audit --retrain and the
+// story's train --mask-tokens line made models with one mask.
 func TestRecipeDifference(t *testing.T) {
 	m, err := cnn.Load(tinyModel(t))
 	if err != nil {
@@ -157,11 +160,20 @@ func TestRecipeDifference(t *testing.T) {
 		{"vocabulary", func(o *cnn.Model) { o.Vocab[len(o.Vocab)-1] += "x" }, "vocabulary"},
 		{"no recipe", func(o *cnn.Model) { o.Info.Recipe = nil }, "training recipe recorded: true for --model, false for it"},
 		{"masked", func(o *cnn.Model) { o.Masked = make([]bool, o.Config.NumFilters()); o.Masked[0] = true }, "masked filters"},
+		{"token mask", func(o *cnn.Model) { o.Info.Recipe.MaskTokens = []string{"tkref"} }, "mask_tokens"},
 	} {
 		got := recipeDifference(m, vary(c.change))
 		if (c.want == "") != (got == "") || !strings.Contains(got, c.want) {
 			t.Errorf("%s: %q, want %q", c.name, got, c.want)
 		}
+	}
+	a := vary(func(o *cnn.Model) { o.Info.Recipe.MaskTokens = []string{"/x/", "tkref", "/x/"} })
+	b := vary(func(o *cnn.Model) { o.Info.Recipe.MaskTokens = []string{"tkref", "/x/"} })
+	if got := recipeDifference(a, b); got != "" {
+		t.Errorf("one mask in two orders: %q", got)
+	}
+	if a.Info.Recipe.MaskTokens[0] != "/x/" || b.Info.Recipe.MaskTokens[0] != "tkref" {
+		t.Errorf("the comparison reordered the models' masks: %q, %q", a.Info.Recipe.MaskTokens, b.Info.Recipe.MaskTokens)
 	}
 }
 

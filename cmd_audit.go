@@ -457,9 +457,15 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 	}
 	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.src.heldoutFile(), r.o.data),
 		HeldoutShare: r.src.heldoutShare(), RetrainCommands: r.src.retrainCommands, RetrainedModel: r.o.retrainOut, Seed: r.o.seed, Workers: r.o.threads.N}
-	return audit.Run(ctx, mu, train, held, opt, func(stage string, done, total int) {
+	res, err := audit.Run(ctx, mu, train, held, opt, func(stage string, done, total int) {
 		r.bar.show(done, total, what+"audit: "+auditStage(stage), false)
 	})
+	if errors.Is(err, audit.ErrOneLabel) {
+		// Test texts that do not suit the audit, which the command line
+		// chose: a usage error (exit 2), with the same message.
+		return nil, usagef("%s", err)
+	}
+	return res, err
 }
 
 // train trains one more model with recipe and seed on the model's splits,
@@ -526,10 +532,15 @@ func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result,
 // chose what (cnn.ChoseRetrain or ChoseMask) on its choosing half of the
 // held-out texts of es: "test" when they are the test split m records
 // (the share of --data, or its test file), else named by the absolute
-// path of --test.
+// path of the file read: --test, or --data when all of it was held out
+// (es.name "all": data that is not the model's, or a model with no split
+// record).
 func (o *auditOptions) choice(m *cnn.Model, es *evalSet, res *audit.Result, what string) cnn.CueChoice {
 	heldout := "test"
-	if t := o.test; t != "" && (m.Info.Splits == nil || absPath(t) != m.Info.Splits.TestFile) {
+	switch t := o.test; {
+	case es.name == "all":
+		heldout = absPath(o.data)
+	case t != "" && (m.Info.Splits == nil || absPath(t) != m.Info.Splits.TestFile):
 		heldout = absPath(t)
 	}
 	return cnn.CueChoice{Half: "selection", For: what, Heldout: heldout, Of: len(es.test.Examples),
@@ -685,7 +696,8 @@ func (o *auditOptions) openOthers(m *cnn.Model) ([]*cnn.Model, error) {
 // differently from model a ("" when none): the network (Config), the
 // tokenizer and its vocabulary, the masked filters, and the training
 // settings the models record, all but the seed and the thread count, which
-// change only the weights.
+// change only the weights; the token mask's patterns are compared as a set
+// (patternSet).
 func recipeDifference(a, b *cnn.Model) string {
 	ta, tb := a.Tokenizer, b.Tokenizer
 	ta.SubwordPieces, tb.SubwordPieces = nil, nil // compared as the vocabulary
@@ -697,6 +709,7 @@ func recipeDifference(a, b *cnn.Model) string {
 	case a.Info.Recipe != nil:
 		ra, rb = *a.Info.Recipe, *b.Info.Recipe
 		ra.Seed, rb.Seed, ra.Threads, rb.Threads = 0, 0, 0, 0
+		ra.MaskTokens, rb.MaskTokens = patternSet(ra.MaskTokens), patternSet(rb.MaskTokens)
 	}
 	for _, c := range []struct {
 		what string
@@ -713,6 +726,16 @@ func recipeDifference(a, b *cnn.Model) string {
 		return "masked filters: the two models mask different filters"
 	}
 	return ""
+}
+
+// patternSet is the token mask's patterns sorted and distinct, a new
+// slice: training takes out every match of any of them, whatever their
+// order, so two masks of the same patterns are one mask.
+func patternSet(patterns []string) []string {
+	if len(patterns) == 0 {
+		return patterns
+	}
+	return slices.Compact(slices.Sorted(slices.Values(patterns)))
 }
 
 // fieldDifference names the first field of the structs a and b (of one

@@ -866,3 +866,46 @@ func changeField(t *testing.T, v reflect.Value, name string, valid map[string]st
 		t.Fatalf("field %s of kind %s: teach the test a value", name, v.Kind())
 	}
 }
+
+// TestRetrainCommandsMaskOrder: the story's MODEL.cues holds the model's
+// own token mask first, then the cues not in it: the order audit --retrain
+// records (audit.Retrain), so that the two ways of retraining make models
+// of one recipe.
+func TestRetrainCommandsMaskOrder(t *testing.T) {
+	tc, _ := cnn.DefaultRecipe().Train.WithDefaults()
+	tc.MaskTokens = []string{"/x/", "tkref"}
+	m := &cnn.Model{Config: cnn.DefaultRecipe().Model, Tokenizer: cnn.DefaultRecipe().Tokenizer}
+	m.Info.Recipe = &tc
+	src := auditSource{model: "m.tt", data: "d.csv", read: &readOptions{MaxTextBytes: corpus.DefaultMaxTextBytes}, es: &evalSet{}, m: m}
+	cmds := src.retrainCommands([]string{"cue", "tkref"})
+	if want := `printf '%s\n' /x/ tkref cue > m.cues`; len(cmds) == 0 || cmds[0] != want {
+		t.Errorf("commands %q, want first %q", cmds, want)
+	}
+}
+
+// TestCueChoiceHeldout: the record of the texts that chose names what was
+// held out: "test" for the model's own test split, the absolute path of
+// --test for another test file, and of --data when all of it was held out
+// (data that is not the model's).
+func TestCueChoiceHeldout(t *testing.T) {
+	m := &cnn.Model{}
+	m.Info.Splits = &cnn.SplitRecord{Data: "d.csv", DataAbs: absPath("d.csv"), TestFrac: 0.1, Seed: 1}
+	ds := &corpus.Dataset{Examples: []corpus.Example{{Text: "a", Label: "x"}, {Text: "b", Label: "y"}}}
+	res := &audit.Result{Selection: []int{1}}
+	for _, c := range []struct {
+		name       string
+		data, test string
+		es         evalSet
+		want       string
+	}{
+		{"the model's test split", "d.csv", "", evalSet{test: ds, name: "test"}, "test"},
+		{"another test file", "d.csv", "t.csv", evalSet{test: ds, name: "test"}, absPath("t.csv")},
+		{"other data, all of it", "other.csv", "", evalSet{test: ds, all: ds, name: "all"}, absPath("other.csv")},
+	} {
+		o := &auditOptions{data: c.data, test: c.test, seed: 3}
+		got := o.choice(m, &c.es, res, cnn.ChoseMask)
+		if got.Heldout != c.want || got.Of != 2 || got.Seed != 3 || !slices.Equal(got.Texts, []int{1}) {
+			t.Errorf("%s: %+v, want heldout %q", c.name, got, c.want)
+		}
+	}
+}

@@ -5,7 +5,6 @@ import (
 	"cmp"
 	"fmt"
 	"io"
-	"slices"
 	"strconv"
 	"strings"
 
@@ -262,15 +261,13 @@ func (s auditSource) heldoutShare() bool {
 // line, and telltale train trains the model's recipe again on its own
 // splits of --data with them taken out, into MODEL-without.tt (MODEL the
 // model file's name without .tt). The patterns the model's recipe took out
-// already (train --mask-tokens, cnn.TrainConfig.MaskTokens) follow the
-// cues' in the file, so that the line trains the model's whole recipe.
+// already (train --mask-tokens, cnn.TrainConfig.MaskTokens) come first in
+// the file, then the cues not among them, so that the line trains the
+// model's whole recipe with the mask audit --retrain records
+// (audit.Retrain: the recipe's patterns, then the cues).
 func (s auditSource) retrainCommands(patterns []string) []string {
 	if r := s.m.Info.Recipe; r != nil {
-		for _, p := range r.MaskTokens {
-			if !slices.Contains(patterns, p) {
-				patterns = append(slices.Clip(patterns), p)
-			}
-		}
+		patterns = audit.JoinPatterns(r.MaskTokens, patterns)
 	}
 	base := strings.TrimSuffix(s.model, ".tt")
 	cues, out := base+".cues", base+"-without.tt"

@@ -30,8 +30,10 @@ shows them. The texts are found as eval finds them for the first model:
 --test FILE, or the test split of its own --data, or all of other data.
 Every model gets eval's checks of them, with warnings of its own: when they
 are its training data or hold texts of its training split (found in --data,
-or in the data file the model records), and when they are its test file
-changed since training; a note says when that cannot be checked. The models
+or in the data file the model records), when they are its test file
+changed since training, and when they hold the choosing half of an
+audit's held-out texts, which chose its cues (retrained or masked); a note
+says when that cannot be checked. The models
 must share their labels; each uses its own tokenizer and vocabulary.`,
 	Options: func() options { return new(compareOptions) },
 	Run:     runAs(runCompare),

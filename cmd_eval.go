@@ -34,9 +34,11 @@ file train was given); with other data, all of it, with a note that it may hold
 texts the model was trained on. A warning (in --json too, even with --quiet)
 says when the texts are the model's training data or hold some of its
 training texts, found in --data or, without it, in the data file the model
-records (a note says when that cannot be checked), and when the test file
-the model was trained with has changed since; no texts to evaluate on (an
-empty test split) is refused.
+records (a note says when that cannot be checked), when the test file
+the model was trained with has changed since, and when they hold the
+choosing half of an audit's held-out texts, which chose a retrained or
+masked model's cues; no texts to evaluate on (an empty test split) is
+refused.
 
 The texts may hold fewer labels than the model knows (one label measures its
 recall; a label the model does not know is an error): a label with no text

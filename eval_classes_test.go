@@ -113,7 +113,8 @@ func TestEvalOneLabelTestFile(t *testing.T) {
 }
 
 // compare and report take a test file of one label; the audit refuses it,
-// saying why; a label the model does not know stays an error naming the
+// saying why, as a usage error (exit 2: the command line chose test texts
+// that do not suit it); a label the model does not know stays an error naming the
 // file, the line and the fix.
 func TestOneLabelTestFileAcrossCommands(t *testing.T) {
 	dir := t.TempDir()
@@ -133,8 +134,8 @@ func TestOneLabelTestFileAcrossCommands(t *testing.T) {
 		{"report", []string{"report", "--model", model, "--data", data, "--test", praise, "--out", filepath.Join(dir, "r.html")}, 0, nil},
 		{"train with a test file of one label", []string{"train", "--data", data, "--test", praise, "--out", filepath.Join(dir, "m2.tt"),
 			"--epochs", "1", "--dim", "8", "--maps", "4"}, 0, nil},
-		{"audit", []string{"audit", "--model", model, "--data", data, "--test", praise}, 1,
-			[]string{`holds one label, "praise"`, "label share", "at least two of the model's labels"}},
+		{"audit", []string{"audit", "--model", model, "--data", data, "--test", praise}, 2,
+			[]string{`holds one label, "praise"`, "label share", "at least two of the model's labels", "usage: telltale audit"}},
 		{"eval, unknown label", []string{"eval", "--model", model, "--test", unknown}, 1,
 			[]string{"unknown.csv line 3", `label "hats" is not among the training labels`, "relabel"}},
 	}

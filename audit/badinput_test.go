@@ -103,3 +103,20 @@ func TestBadInput(t *testing.T) {
 	_, err = Run(ctx, m, train, held, Options{Test: "chi-square"}, nil)
 	expect("an unknown test", err, "use fisher or binomial")
 }
+
+// TestOneLabelKind: held-out texts of one label are refused with an error
+// that matches ErrInput and ErrOneLabel (by which the command line makes it
+// a usage error); texts of two labels pass. Other input errors are not of
+// that kind.
+func TestOneLabelKind(t *testing.T) {
+	err := Data{Name: "t.csv", Gold: []int{1, 1, 1}}.checkTwoLabels([]string{"a", "b"})
+	if !errors.Is(err, ErrInput) || !errors.Is(err, ErrOneLabel) || !strings.Contains(err.Error(), `holds one label, "b"`) {
+		t.Errorf("one label: %v", err)
+	}
+	if err := (Data{Gold: []int{0, 1}}).checkTwoLabels([]string{"a", "b"}); err != nil {
+		t.Errorf("two labels: %v", err)
+	}
+	if errors.Is(inputErrorf("audit: other"), ErrOneLabel) {
+		t.Error("another input error is of the one-label kind")
+	}
+}

@@ -16,12 +16,22 @@ import (
 // say their cause once.
 var ErrInput = errors.New("audit: bad input")
 
-// inputError is an error about the audit's input: its message, which says
-// the cause and the fix, and a match for ErrInput.
-type inputError struct{ msg string }
+// ErrOneLabel is matched, beside ErrInput, by the error refusing held-out
+// texts of one label (Run): a choice of test texts the command line can
+// call a usage error, as it calls other test texts that do not suit.
+var ErrOneLabel = errors.New("audit: held-out texts of one label")
 
-func (e *inputError) Error() string        { return e.msg }
-func (e *inputError) Is(target error) bool { return target == ErrInput }
+// inputError is an error about the audit's input: its message, which says
+// the cause and the fix, and a match for ErrInput and for kind, when set.
+type inputError struct {
+	msg  string
+	kind error
+}
+
+func (e *inputError) Error() string { return e.msg }
+func (e *inputError) Is(target error) bool {
+	return target == ErrInput || e.kind != nil && target == e.kind
+}
 
 // inputErrorf formats an error about the audit's input (inputError). The
 // arguments are formatted as by fmt.Sprintf; %w is not allowed.
@@ -132,7 +142,8 @@ func (d Data) check(m *cnn.Model, what string) error {
 	return nil
 }
 
-// checkTwoLabels refuses held-out texts of fewer than two labels: the
+// checkTwoLabels refuses held-out texts of fewer than two labels (an
+// error matching ErrInput and ErrOneLabel): the
 // shift signal compares each cue's label share in them with training, and
 // texts of one label would show a shift for every cue of another label.
 // labels are the model's.
@@ -145,9 +156,11 @@ func (d Data) checkTwoLabels(labels []string) error {
 			return nil
 		}
 	}
-	return inputErrorf("audit: the %s holds one label, %q: the audit compares each cue's label share in the test texts with training, "+
+	err := inputErrorf("audit: the %s holds one label, %q: the audit compares each cue's label share in the test texts with training, "+
 		"and texts of one label would show every cue of another label as shifted; give test texts of at least two of the model's labels "+
 		"(a test file of one label suits eval, which measures its recall)", d.name("test"), labels[d.Gold[0]])
+	err.(*inputError).kind = ErrOneLabel
+	return err
 }
 
 // subset returns the texts idx of d (shared, not copied).

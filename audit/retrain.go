@@ -23,7 +23,9 @@ type Retrained struct {
 	// model records both, these first.
 	RecipeMask []string `json:"recipe_mask_tokens,omitempty"`
 	// Removed is how many matches the patterns took out of the training
-	// split, HeldoutRemoved out of the texts compared.
+	// split beyond the recipe's own (cueMatches: those RecipeMask took out
+	// first are not counted again), HeldoutRemoved out of the texts
+	// compared.
 	Removed        int `json:"removed"`
 	HeldoutRemoved int `json:"heldout_removed"`
 	// Texts are the texts compared: the confirmation half's.
@@ -85,7 +87,10 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 		return nil, err
 	}
 	out := &Retrained{Patterns: patterns, RecipeMask: r.Train.MaskTokens}
-	r.Train.MaskTokens = joinPatterns(r.Train.MaskTokens, patterns)
+	if out.Removed, err = cueMatches(train, r.Train.MaskTokens, patterns); err != nil {
+		return nil, err
+	}
+	r.Train.MaskTokens = JoinPatterns(r.Train.MaskTokens, patterns)
 	mask := func(d *corpus.Dataset) (*corpus.Dataset, int) {
 		if d == nil {
 			return nil, 0
@@ -97,7 +102,6 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 			return s
 		}), n
 	}
-	_, out.Removed = mask(train) // TrainText takes them out, with the recipe's own
 	mdev, _ := mask(dev)
 	cf, n := mask(heldout)
 	out.HeldoutRemoved = n
@@ -124,8 +128,37 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 	return out, nil
 }
 
-// joinPatterns is a followed by the patterns of b not in a, a new slice.
-func joinPatterns(a, b []string) []string {
+// cueMatches counts the matches the cues take out of train's texts as
+// training takes them out (cnn.TrainText, with JoinPatterns(recipe,
+// cues)): after the recipe's own patterns, by the cues not among them, so
+// that a cue that overlaps a recipe pattern counts only what is left of it
+// to take out. train is not changed.
+func cueMatches(train *corpus.Dataset, recipe, cues []string) (int, error) {
+	if train == nil {
+		return 0, nil
+	}
+	rm, err := corpus.MaskTokens(recipe)
+	if err != nil {
+		return 0, err
+	}
+	cm, err := corpus.MaskTokens(JoinPatterns(recipe, cues)[len(recipe):])
+	if err != nil {
+		return 0, err
+	}
+	n := 0
+	for _, e := range train.Examples {
+		s, _ := rm.Mask(e.Text)
+		_, k := cm.Mask(s)
+		n += k
+	}
+	return n, nil
+}
+
+// JoinPatterns is a followed by the patterns of b not in a, a new slice:
+// the one order of a retrained model's mask, the recipe's own patterns
+// (a) then the cues (b), that audit --retrain records and the story's
+// train --mask-tokens line writes.
+func JoinPatterns(a, b []string) []string {
 	out := slices.Clone(a)
 	for _, p := range b {
 		if !slices.Contains(out, p) {

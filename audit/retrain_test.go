@@ -59,3 +59,41 @@ func TestRetrainKeepsTheBaseline(t *testing.T) {
 		t.Error("the pattern took nothing out of the training text")
 	}
 }
+
+// TestRetrainCountsWhatTheCuesRemoved: when the recipe's own pattern takes
+// out a span a cue would match too ("/tkref-[0-9]+/" and "tkref" in
+// "tkref-12 … tkref"), Removed counts what the cue took out of the training
+// text left by the recipe's pattern, as training removes them (the
+// recipe's patterns first): one match a text here, not the two the cue
+// finds in the unmasked text. An identity of Retrain and corpus.CueMasker.
+func TestRetrainCountsWhatTheCuesRemoved(t *testing.T) {
+	ds := &corpus.Dataset{Path: "tiny.csv", Labels: []string{"a", "b"}}
+	withCue := 0
+	for i := range 40 {
+		e := corpus.Example{Label: "b", Text: "beta words over there now", Line: i + 2}
+		if i%2 == 0 {
+			e.Label, e.Text = "a", "tkref-12 alpha words tkref here"
+		}
+		ds.Examples = append(ds.Examples, e)
+	}
+	train, dev := ds.Split(0.25, 1)
+	for _, e := range train.Examples {
+		if e.Label == "a" {
+			withCue++
+		}
+	}
+	r := cnn.DefaultRecipe()
+	r.Model.Dim, r.Model.Filters, r.Train.Epochs, r.Baseline = 8, 4, 1, nil
+	r.Train.MaskTokens = []string{"/tkref-[0-9]+/"}
+	m := trainText(t, train, dev, r, 1)
+	rt, err := Retrain(context.Background(), m, []string{"tkref"}, train, dev, dev, nil, r, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if withCue == 0 || rt.Removed != withCue {
+		t.Errorf("removed %d matches, want %d (one a text that holds the cue)", rt.Removed, withCue)
+	}
+	if !slices.Equal(rt.Model.Info.Recipe.MaskTokens, []string{"/tkref-[0-9]+/", "tkref"}) {
+		t.Errorf("the retrained model's mask %q", rt.Model.Info.Recipe.MaskTokens)
+	}
+}

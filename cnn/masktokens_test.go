@@ -95,3 +95,39 @@ func TestChoseCues(t *testing.T) {
 		t.Error("a nil Info has a record")
 	}
 }
+
+// TestConfirmingSeed: audits of one lineage that chose on the halves of
+// one seed leave that seed's confirming half clean; a later audit with
+// another seed (audit r.tt --seed 2 --retrain-out r2.tt, r.tt itself
+// retrained with seed 1) joins a half that overlaps both of seed 1's, so
+// the record says so (OtherSeeds) and no confirming half is clean, also
+// when the other seed chose something else (a mask).
+func TestConfirmingSeed(t *testing.T) {
+	one := CueChoice{Half: "selection", For: ChoseRetrain, Heldout: "test", Of: 10, Fingerprint: "a", Seed: 1, Texts: []int{1, 5}}
+	var same Info
+	same.ChoseCues(one)
+	same.ChoseCues(one)
+	if seed, _, ok := ConfirmingSeed(same.CuesChosenIn(10, "a")); !ok || seed != 1 || same.CuesChosenOn[0].OtherSeeds != nil {
+		t.Errorf("one seed: seed %d ok %v, record %+v", seed, ok, same.CuesChosenOn)
+	}
+	var joined Info
+	joined.ChoseCues(one)
+	joined.ChoseCues(CueChoice{Half: "selection", For: ChoseRetrain, Heldout: "test", Of: 10, Fingerprint: "a", Seed: 2, Texts: []int{3}})
+	joined.ChoseCues(CueChoice{Half: "selection", For: ChoseRetrain, Heldout: "test", Of: 10, Fingerprint: "a", Seed: 2, Texts: []int{4}})
+	rec := joined.CuesChosenOn
+	if len(rec) != 1 || rec[0].Seed != 1 || !slices.Equal(rec[0].OtherSeeds, []uint64{2}) || !slices.Equal(rec[0].Texts, []int{1, 3, 4, 5}) {
+		t.Errorf("joined: %+v", rec)
+	}
+	if _, seeds, ok := ConfirmingSeed(joined.CuesChosenIn(10, "a")); ok || !slices.Equal(seeds, []uint64{1, 2}) {
+		t.Errorf("joined: ok %v seeds %v, want not ok, seeds [1 2]", ok, seeds)
+	}
+	var apart Info
+	apart.ChoseCues(one)
+	apart.ChoseCues(CueChoice{Half: "selection", For: ChoseMask, Heldout: "test", Of: 10, Fingerprint: "a", Seed: 7, Texts: []int{2}})
+	if _, seeds, ok := ConfirmingSeed(apart.CuesChosenIn(10, "a")); ok || !slices.Equal(seeds, []uint64{1, 7}) {
+		t.Errorf("a mask of another seed: ok %v seeds %v, want not ok, seeds [1 7]", ok, seeds)
+	}
+	if _, _, ok := ConfirmingSeed(nil); ok {
+		t.Error("no choice has a confirming seed")
+	}
+}

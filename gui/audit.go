@@ -384,14 +384,26 @@ func recordRetrained(m *cnn.Model, as *auditState) {
 // choice is the record (cnn.Info.ChoseCues) that the audit chose what
 // (cnn.ChoseRetrain or ChoseMask) on its choosing half of the open
 // corpus's test split: "test" when that is the test split the audited
-// model records, else named by the corpus's test file.
+// model records (isModelTest), else named by the corpus's test file, or
+// its data file when the split is a share of it.
 func (a *auditState) choice(what string) cnn.CueChoice {
 	heldout := "test"
-	if rec := a.ms.Model.Info.Splits; rec == nil || a.cs.Record.TestFile != rec.TestFile {
-		heldout = cmp.Or(a.cs.Record.TestFile, a.cs.Record.DataAbs)
+	if !isModelTest(a.ms.Model.Info.Splits, a.cs.Record) {
+		heldout = cmp.Or(a.cs.Record.TestFile, a.cs.Record.DataAbs, a.cs.Record.Data)
 	}
 	return cnn.CueChoice{Half: "selection", For: what, Heldout: heldout, Of: len(a.cs.Test.Examples),
 		Fingerprint: a.cs.Test.Fingerprint(), Seed: auditSeed, Texts: a.R.Selection}
+}
+
+// isModelTest reports whether the corpus whose splits cr records holds the
+// test split that rec, a model's record, names: the same data (its size
+// and fingerprint) and the same test file, or, without one, the same share
+// and seed.
+func isModelTest(rec *cnn.SplitRecord, cr cnn.SplitRecord) bool {
+	if rec == nil || rec.Examples != cr.Examples || rec.Fingerprint != cr.Fingerprint || rec.TestFile != cr.TestFile {
+		return false
+	}
+	return rec.TestFile != "" || rec.TestFrac == cr.TestFrac && rec.Seed == cr.Seed
 }
 
 // retrained is a model retrained without the cues, beside the one audited.

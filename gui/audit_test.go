@@ -326,3 +326,32 @@ func overflows(tabs *container.AppTabs) bool {
 	}
 	return slices.ContainsFunc(test.WidgetRenderer(tabs).Objects(), walk)
 }
+
+// TestAuditChoiceHeldout: the window's record of the texts that chose
+// names what was held out: "test" only when the open corpus's test split
+// is the one the audited model records (its data, and its test file or its
+// share and seed); another corpus's split is named by its test file, or by
+// its data file when the split is a share of it.
+func TestAuditChoiceHeldout(t *testing.T) {
+	rec := cnn.SplitRecord{Data: "d.csv", DataAbs: "/d.csv", TestFrac: 0.1, Seed: 1, Examples: 20, Fingerprint: "f"}
+	test := &corpus.Dataset{Examples: []corpus.Example{{Text: "a", Label: "x"}}}
+	for _, c := range []struct {
+		name string
+		edit func(r *cnn.SplitRecord)
+		want string
+	}{
+		{"the model's split", func(*cnn.SplitRecord) {}, "test"},
+		{"other data, no test file", func(r *cnn.SplitRecord) { r.Data, r.DataAbs, r.Fingerprint = "o.csv", "/o.csv", "g" }, "/o.csv"},
+		{"another share", func(r *cnn.SplitRecord) { r.TestFrac = 0.2 }, "/d.csv"},
+		{"a test file", func(r *cnn.SplitRecord) { r.TestFile = "/t.csv" }, "/t.csv"},
+	} {
+		cr := rec
+		c.edit(&cr)
+		m := &cnn.Model{}
+		m.Info.Splits = &rec
+		a := &auditState{R: &audit.Result{Selection: []int{0}}, ms: &modelState{Model: m}, cs: &corpusState{Record: cr, Test: test}}
+		if got := a.choice(cnn.ChoseRetrain); got.Heldout != c.want {
+			t.Errorf("%s: heldout %q, want %q", c.name, got.Heldout, c.want)
+		}
+	}
+}

@@ -101,3 +101,37 @@ func TestOpenModelWarnsOfAChangedTestFile(t *testing.T) {
 		t.Errorf("after the test file changed: %d texts evaluated, warnings %q, caption %q", ev.Metrics.N, ev.Warnings, ms.caption())
 	}
 }
+
+// TestHeldOutWarningsSeedsJoined: the window's warning of texts that chose
+// a model's cues sends its reader to the confirming half when one seed
+// chose on them, and, when audits with different seeds did (a retrained
+// model audited again with another --seed), to a test file no audit chose
+// on instead: each seed's confirming half holds texts the other chose on.
+func TestHeldOutWarningsSeedsJoined(t *testing.T) {
+	test := &corpus.Dataset{Path: "t.csv", Labels: []string{"a", "b"}}
+	for i := range 10 {
+		test.Examples = append(test.Examples, corpus.Example{Text: strings.Repeat("w ", i+1), Label: []string{"a", "b"}[i%2], Line: i + 2})
+	}
+	cs := &corpusState{Test: test}
+	choice := func(seed uint64, texts ...int) cnn.CueChoice {
+		return cnn.CueChoice{Half: "selection", For: cnn.ChoseRetrain, Heldout: "test", Of: 10, Fingerprint: test.Fingerprint(), Seed: seed, Texts: texts}
+	}
+	for _, c := range []struct {
+		name      string
+		seeds     []uint64
+		want, not string
+	}{
+		{"one seed", []uint64{1, 1}, "compare the models on the confirming half", "no confirming half"},
+		{"two seeds", []uint64{1, 2}, "audits run with --seed 1 and --seed 2 chose on different halves of these texts, so no confirming half took no part: " +
+			"for held-out figures, open a test file that no audit chose on", "compare the models on the confirming half"},
+	} {
+		m := &cnn.Model{}
+		for i, s := range c.seeds {
+			m.Info.ChoseCues(choice(s, i, i+4))
+		}
+		ws := heldOutWarnings(m, cs)
+		if len(ws) != 1 || !strings.Contains(ws[0], c.want) || strings.Contains(ws[0], c.not) {
+			t.Errorf("%s: %q, want one warning with %q and without %q", c.name, ws, c.want, c.not)
+		}
+	}
+}

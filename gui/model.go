@@ -199,7 +199,8 @@ func planOf(m *cnn.Model, cs *corpusState) (splitPlan, bool) {
 //
 // It warns too, as the command line does, when the test split holds the
 // texts that chose the cues a retrained m was retrained without
-// (cnn.Info.CuesChosenOn).
+// (cnn.Info.CuesChosenOn); when audits with different seeds chose on them,
+// no confirming half is clean, and the fix asks for another test file.
 func heldOutWarnings(m *cnn.Model, cs *corpusState) []string {
 	var out []string
 	r := m.Info.Splits
@@ -212,9 +213,13 @@ func heldOutWarnings(m *cnn.Model, cs *corpusState) []string {
 	if cs == nil || cs.Test == nil {
 		return out
 	}
-	for _, c := range m.Info.CuesChosenIn(len(cs.Test.Examples), cs.Test.Fingerprint()) {
-		out = append(out, heldout.CuesChosen(len(c.Texts), len(cs.Test.Examples), c.For == cnn.ChoseMask,
-			"for figures on texts that took no part, compare the models on the confirming half (telltale audit --confirming-out FILE writes it; telltale compare --test FILE)"))
+	choices := m.Info.CuesChosenIn(len(cs.Test.Examples), cs.Test.Fingerprint())
+	fix := "for figures on texts that took no part, compare the models on the confirming half (telltale audit --confirming-out FILE writes it; telltale compare --test FILE)"
+	if _, seeds, ok := cnn.ConfirmingSeed(choices); !ok {
+		fix = heldout.SeedsJoined(seeds, "for held-out figures, open a test file that no audit chose on")
+	}
+	for _, c := range choices {
+		out = append(out, heldout.CuesChosen(len(c.Texts), len(cs.Test.Examples), c.For == cnn.ChoseMask, fix))
 	}
 	return out
 }

@@ -3,9 +3,12 @@ package torchmodel
 import (
 	"context"
 	"errors"
+	"fmt"
+	"io/fs"
 	"os"
 	"path/filepath"
 	"strings"
+	"syscall"
 	"testing"
 
 	"telltale/torchmodel/statedict"
@@ -44,5 +47,38 @@ func TestErrorsSayTheirKindOnce(t *testing.T) {
 		if !strings.Contains(msg, c.want) || strings.HasSuffix(msg, c.sentinel.Error()) {
 			t.Errorf("%s: %q: want %q in it and not ending with %q", c.name, msg, c.want, c.sentinel.Error())
 		}
+	}
+}
+
+// TestPlainKeepsTheCause: plain cuts only the package's own sentinels; an
+// innermost error that is the cause (no space left, no such file) stays in
+// the message, whose text is then unchanged.
+func TestPlainKeepsTheCause(t *testing.T) {
+	_, openErr := os.Open(filepath.Join(t.TempDir(), "missing.txt"))
+	if openErr == nil {
+		t.Fatal("opening a missing file did not fail")
+	}
+	for _, c := range []struct {
+		name string
+		err  error
+		want string
+	}{
+		{"no space", fmt.Errorf("torchmodel: %w", &fs.PathError{Op: "open", Path: "/out/weights.npz", Err: syscall.ENOSPC}),
+			"torchmodel: open /out/weights.npz: no space left on device"},
+		{"not found", fmt.Errorf("torchmodel: vocabulary: %w", openErr),
+			"torchmodel: vocabulary: " + openErr.Error()},
+		{"sentinel", fmt.Errorf("torchmodel: v.txt: no tokens: give one token per line: %w", ErrVocab),
+			"torchmodel: v.txt: no tokens: give one token per line"},
+	} {
+		got := plain(c.err)
+		if got.Error() != c.want {
+			t.Errorf("%s: %q, want %q", c.name, got.Error(), c.want)
+		}
+		if !errors.Is(got, errors.Unwrap(c.err)) {
+			t.Errorf("%s: %v no longer wraps its cause", c.name, got)
+		}
+	}
+	if !strings.Contains(plain(fmt.Errorf("x: %w", openErr)).Error(), "no such file or directory") {
+		t.Error("an os.Open not-found error lost its cause")
 	}
 }

@@ -1,6 +1,9 @@
 package heldout
 
-import "fmt"
+import (
+	"fmt"
+	"strings"
+)
 
 // Changed is the warning that the dev or test file at path (which says
 // which: "dev" or "test"), a file the model was trained with, is not what
@@ -34,4 +37,22 @@ func CuesChosen(n, total int, masked bool, fix string) string {
 	return fmt.Sprintf("%d of these %d texts are the audit's choosing half, which chose %s: "+
 		"they took part in a choice about the model, so its figures on them are not all held-out figures; %s",
 		n, total, what, fix)
+}
+
+// SeedsJoined is the fix of CuesChosen's warning when audits run with
+// different --seed values (seeds, ascending: cnn.ConfirmingSeed) chose on
+// the texts: each seed drew its own two halves, so every confirming half
+// holds texts another audit chose on, and none gives held-out figures.
+// fix says what to do instead, in the caller's terms (a test file no audit
+// chose on).
+func SeedsJoined(seeds []uint64, fix string) string {
+	flags := make([]string, len(seeds))
+	for i, s := range seeds {
+		flags[i] = fmt.Sprintf("--seed %d", s)
+	}
+	list := strings.Join(flags, " and ")
+	if len(flags) > 2 {
+		list = strings.Join(flags[:len(flags)-1], ", ") + " and " + flags[len(flags)-1]
+	}
+	return fmt.Sprintf("audits run with %s chose on different halves of these texts, so no confirming half took no part: %s", list, fix)
 }

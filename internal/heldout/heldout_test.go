@@ -41,3 +41,20 @@ func TestCuesChosen(t *testing.T) {
 		}
 	}
 }
+
+// TestSeedsJoined: the fix names each seed whose audit chose on the texts
+// and ends with the caller's fix. Two halves drawn with different seeds
+// overlap (audit's halves are a seeded shuffle), so no half is clean.
+func TestSeedsJoined(t *testing.T) {
+	for _, c := range []struct {
+		seeds []uint64
+		out   string
+	}{
+		{[]uint64{1, 2}, "audits run with --seed 1 and --seed 2 chose on different halves of these texts, so no confirming half took no part: give a new test file"},
+		{[]uint64{1, 2, 9}, "audits run with --seed 1, --seed 2 and --seed 9 chose on different halves of these texts, so no confirming half took no part: give a new test file"},
+	} {
+		if got := SeedsJoined(c.seeds, "give a new test file"); got != c.out {
+			t.Errorf("%v: %q, want %q", c.seeds, got, c.out)
+		}
+	}
+}

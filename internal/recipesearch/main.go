@@ -66,12 +66,13 @@ func main() {
 	share := flag.Float64("train-share", 1, "keep this share of each training split, stratified by label and seeded (trainShare), for a learning curve on the same dev and test splits")
 	dumpText := flag.String("dump-text", "", "write the splits as JSON lines (text, label) into this folder and stop, for pooling.py (the reviews: one set per rotation)")
 	flag.Parse()
+	// The options first, before any corpus is read.
+	if *share <= 0 || *share > 1 {
+		log.Fatalf("-train-share %g: give a share in (0, 1]", *share)
+	}
 	rotations, err := loadRotations(root(), *which, *withTest)
 	if err != nil {
 		log.Fatal(err)
-	}
-	if *share <= 0 || *share > 1 {
-		log.Fatalf("-train-share %g: give a share in (0, 1]", *share)
 	}
 	for i := range rotations {
 		rotations[i].train = trainShare(rotations[i].train, *share)
