@@ -294,9 +294,14 @@ func (es *evalSet) splitWarnings() []string {
 // --test; none when they do not.
 func cuesChosen(info *cnn.Info, test *corpus.Dataset) []string {
 	var out []string
-	for _, c := range info.CuesChosenIn(len(test.Examples), test.Fingerprint()) {
-		fix := fmt.Sprintf("for figures on texts that took no part, give the other half, the confirming half, with --test "+
-			"(telltale audit of the model it was made from, with --seed %d and --confirming-out FILE, writes it)", c.Seed)
+	choices := info.CuesChosenIn(len(test.Examples), test.Fingerprint())
+	seed, seeds, clean := cnn.ConfirmingSeed(choices)
+	fix := fmt.Sprintf("for figures on texts that took no part, give the other half, the confirming half, with --test "+
+		"(telltale audit of the model it was made from, with --seed %d and --confirming-out FILE, writes it)", seed)
+	if !clean {
+		fix = heldout.SeedsJoined(seeds, "for held-out figures, give a test file no audit chose on with --test")
+	}
+	for _, c := range choices {
 		out = append(out, heldout.CuesChosen(len(c.Texts), len(test.Examples), c.For == cnn.ChoseMask, fix))
 	}
 	return out
