@@ -145,7 +145,11 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 			Intervals: cnn.IntervalsOf(met), Baseline: baselineOf(m, cmp)})
 	}
 	writeFigures(env.Stdout, splitHeading(es.name, met.N), figures, baselineOf(m, cmp))
-	fmt.Fprint(env.Stdout, baselineAdvice(m, figures.McNemar))
+	var why string
+	if len(es.warnings) > 0 {
+		why = "texts that the warnings say are not all held-out texts"
+	}
+	fmt.Fprint(env.Stdout, adviceOnHeldOut(baselineAdvice(m, figures.McNemar), why))
 	fmt.Fprintln(env.Stdout)
 	writeMetrics(env.Stdout, met, cnn.IntervalsOf(met), o.bins)
 	return nil

@@ -290,8 +290,8 @@ func (o *trainOptions) keep(ctx context.Context, env *runEnv, trained *cnn.Train
 	}
 	if figures != nil {
 		summary.advice = baselineAdvice(m, figures.McNemar)
-		if held.test > 0 && summary.advice != "" {
-			summary.advice += "this rests on a test split that holds texts of the training split, which both models learned: judge the baseline's lead on held-out texts\n"
+		if held.test > 0 {
+			summary.advice = adviceOnHeldOut(summary.advice, "a test split that holds texts of the training split, which both models learned")
 		}
 	}
 	if m.Info.Dev != nil {

@@ -116,3 +116,14 @@ func baselineAdvice(m *cnn.Model, t *cnn.BaselineTest) string {
 	advice = strings.Replace(advice, ") or --", ") or\n--", 1)
 	return strings.Replace(advice, ", and read", ",\nand read", 1) + " (README, \"The default recipe\")\n"
 }
+
+// adviceOnHeldOut is baselineAdvice's advice (advice) followed, when the
+// figures it rests on are not all held-out figures (why is the reason,
+// "" when they are), by a line that says so: the baseline's lead is then
+// to be judged on held-out texts.
+func adviceOnHeldOut(advice, why string) string {
+	if advice == "" || why == "" {
+		return advice
+	}
+	return advice + "this rests on " + why + ": judge the baseline's lead on held-out texts\n"
+}

@@ -379,3 +379,22 @@ func TestBaselineAdviceLine(t *testing.T) {
 		}
 	}
 }
+
+// The advice where the baseline is ahead says, when the figures are not
+// all held-out figures, that it rests on them; nothing is added to no
+// advice, or to advice on held-out figures.
+func TestAdviceOnHeldOut(t *testing.T) {
+	m := &cnn.Model{Config: cnn.Config{Wide: true}, Info: cnn.Info{Recipe: &cnn.TrainConfig{}}}
+	advice := baselineAdvice(m, &cnn.BaselineTest{CNNOnly: 5, BaselineOnly: 20, P: 0.0041})
+	for _, c := range []struct {
+		advice, why, want string
+	}{
+		{advice, "", advice},
+		{"", "texts it learned", ""},
+		{advice, "texts it learned", advice + "this rests on texts it learned: judge the baseline's lead on held-out texts\n"},
+	} {
+		if got := adviceOnHeldOut(c.advice, c.why); got != c.want {
+			t.Errorf("adviceOnHeldOut(%q, %q) = %q, want %q", c.advice, c.why, got, c.want)
+		}
+	}
+}
