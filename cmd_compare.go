@@ -95,13 +95,12 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		return err
 	}
 	say(env.Stderr, o.quiet, "%s", es.note)
-	warnings := make([][]string, len(models))
+	warnings, notes := make([][]string, len(models)), make([]string, len(models))
 	warnings[0] = es.warnings
 	for i, m := range models[1:] {
-		var note string
-		warnings[i+1], note = o.checksFor(m, o.paths[i+1], models[0], es)
-		if note != "" {
-			say(env.Stderr, o.quiet, "%s", note)
+		warnings[i+1], notes[i+1] = o.checksFor(m, o.paths[i+1], models[0], es)
+		if notes[i+1] != "" {
+			say(env.Stderr, o.quiet, "%s", notes[i+1])
 		}
 		printHeldOut(env.Stderr, o.quiet, o.paths[i+1], warnings[i+1])
 	}
@@ -133,7 +132,7 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		} else {
 			row.setVsFirst(data.Labels, first, pred)
 		}
-		row.Warnings = warnings[i]
+		row.Warnings, row.Note = warnings[i], notes[i]
 		rows = append(rows, row)
 	}
 	return writeComparison(env, rows, splitHeading(es.name, len(es.test.Examples)), o.asJSON)
@@ -221,6 +220,11 @@ type compareRow struct {
 	// as eval's (findTestSplit) for the first and compareOptions.checksFor
 	// for every other; absent when there are none.
 	Warnings []string `json:"warnings,omitempty"`
+	// Note says, for a model after the first, that whether the texts hold
+	// texts of its training split cannot be checked, and why
+	// (compareOptions.checksFor); absent when it could be. The first
+	// model's is the split note eval gives, on stderr.
+	Note string `json:"note,omitempty"`
 }
 
 // setVsFirst sets the share of texts whose prediction pred differs from

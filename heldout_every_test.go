@@ -239,7 +239,8 @@ func TestCompareChangedRecordedTestFile(t *testing.T) {
 
 // TestEvalNotesAnUncheckableTestFile: a model file that records no splits
 // (as import writes) cannot say which texts it was trained on; eval on a
-// --test file says so in its note, as it does for --data.
+// --test file says so in its note, as it does for --data, and compare
+// --json in the note of each model after the first.
 func TestEvalNotesAnUncheckableTestFile(t *testing.T) {
 	dir := t.TempDir()
 	m, err := cnn.New(cnn.Config{VocabSize: 4, Dim: 2, Widths: []int{1}, Filters: 1, Classes: 2}, []string{"<pad>", "<unk>", "lost", "bag"}, []string{"lost-property", "praise"}, 1)
@@ -258,5 +259,11 @@ func TestEvalNotesAnUncheckableTestFile(t *testing.T) {
 	jsonOf(t, &ev, "eval", "--model", model, "--test", test, "--json", "--quiet")
 	if !strings.Contains(ev.Note, "does not record how its splits were made") {
 		t.Errorf("eval --test on a model without splits: note %q, want that it cannot be checked", ev.Note)
+	}
+	// compare --json gives a model after the first its own note.
+	var rows []compareRow
+	jsonOf(t, &rows, "compare", "--models", model+","+model, "--test", test, "--json", "--quiet")
+	if len(rows) != 2 || rows[0].Note != "" || !strings.Contains(rows[1].Note, "cannot be checked") {
+		t.Errorf("compare --json: rows %+v, want the second model's note that it cannot be checked", rows)
 	}
 }
