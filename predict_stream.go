@@ -98,13 +98,13 @@ func (s *stream) read(ctx context.Context, next batchSource) {
 		}
 		b.texts, b.buf, b.err, b.done = b.texts[:0], b.buf[:0], nil, make(chan struct{})
 		more, err := next(b)
+		if len(b.texts) > 0 { // the lines before a read error are labeled and written too
+			s.work <- b
+			s.order <- b
+		}
 		if err != nil {
 			s.readErr = err
 			return
-		}
-		if len(b.texts) > 0 {
-			s.work <- b
-			s.order <- b
 		}
 		if !more {
 			return
@@ -247,6 +247,9 @@ func lineBatches(r io.Reader, warn io.Writer) batchSource {
 			if err == io.EOF {
 				b.addLines()
 				return false, nil
+			}
+			if err != nil {
+				b.addLines() // the lines read before it
 			}
 			if errors.Is(err, bufio.ErrTooLong) {
 				return false, fmt.Errorf("standard input line %d is longer than 16 MiB, the limit of a line: cut the lines shorter, "+

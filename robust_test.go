@@ -625,4 +625,11 @@ func TestLineLimits(t *testing.T) {
 	if code != 1 || !strings.Contains(errb.String(), "standard input line 1 is longer than 16 MiB") || !strings.Contains(errb.String(), "cut the lines shorter") {
 		t.Errorf("stdin line over 16 MiB: exit %d, stderr %q", code, errb.String())
 	}
+	// The lines before it are labeled and written, one output line each.
+	out.Reset()
+	errb.Reset()
+	code = run(context.Background(), []string{"predict", "--model", model}, strings.NewReader("late ferry\n\n"+in), &out, &errb)
+	if code != 1 || !strings.Contains(errb.String(), "standard input line 3 is longer than 16 MiB") || strings.Count(out.String(), "\n") != 2 {
+		t.Errorf("two lines, then one over 16 MiB: exit %d, stdout %q, stderr %q; want the two lines' output", code, out.String(), errb.String())
+	}
 }
