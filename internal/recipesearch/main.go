@@ -64,6 +64,7 @@ func main() {
 	stack := flag.Bool("stack", false, "with -baseline: also score the CNN and the baseline joined by stacking (stack.go)")
 	halvesFlag := flag.Bool("halves", false, "also score the CNN's epoch choice (and with -baseline the baseline's C) cross-fitted over two halves of the dev split (halves.go)")
 	share := flag.Float64("train-share", 1, "keep this share of each training split, stratified by label and seeded (trainShare), for a learning curve on the same dev and test splits")
+	refit := flag.Bool("refit", false, "score a first fit and its refit with the choices fixed (refit.go): nested on the dev split, or with -test on the test split")
 	dumpText := flag.String("dump-text", "", "write the splits as JSON lines (text, label) into this folder and stop, for pooling.py (the reviews: one set per rotation)")
 	flag.Parse()
 	// The options first, before any corpus is read.
@@ -107,7 +108,15 @@ func main() {
 				r.Baseline = &c
 			}
 			for _, rot := range rotations {
-				row, err := measure(rot.name, strings.Trim(*base+"+"+name, "+"), r, rot.splits, *stack, *halvesFlag)
+				measureRot := func() (string, error) {
+					return measure(rot.name, strings.Trim(*base+"+"+name, "+"), r, rot.splits, *stack, *halvesFlag)
+				}
+				if *refit {
+					measureRot = func() (string, error) {
+						return measureRefit(rot.name, strings.Trim(*base+"+"+name, "+"), r, rot.splits)
+					}
+				}
+				row, err := measureRot()
 				if err != nil {
 					log.Fatal(err)
 				}
@@ -203,7 +212,7 @@ func measure(which, name string, r cnn.Recipe, sp splits, stack, halved bool) (s
 		row += cells
 	}
 	if sp.test != nil {
-		cells, err := testCells(m, enc, sp.test, r.Train.Threads)
+		cells, err := testCells(m, enc, sp.test, "test", r.Train.Threads)
 		if err != nil {
 			return "", err
 		}
@@ -212,17 +221,18 @@ func measure(which, name string, r cnn.Recipe, sp splits, stack, halved bool) (s
 	return row, nil
 }
 
-// testCells is the row's cells of the test split (read only with -test):
-// the CNN's accuracy and macro-F1 and, when m carries a baseline, the
-// baseline's and the exact McNemar test between the two.
-func testCells(m *cnn.Model, enc *corpus.Encoder, test *corpus.Dataset, threads int) (string, error) {
+// testCells is the row's cells of the test split (read only with -test),
+// or of another split named what: the CNN's accuracy and macro-F1 and,
+// when m carries a baseline, the baseline's and the exact McNemar test
+// between the two.
+func testCells(m *cnn.Model, enc *corpus.Encoder, test *corpus.Dataset, what string, threads int) (string, error) {
 	if m.Baseline != nil {
 		cmp, err := cnn.CompareBaseline(m, test, threads)
 		if err != nil {
 			return "", err
 		}
 		// The discordant counts let rotations be pooled into one exact McNemar test.
-		return fmt.Sprintf(" test %.4f / %.4f | baseline %.4f / %.4f | McNemar p %.3g (only CNN %d, only baseline %d) |",
+		return fmt.Sprintf(" %s %.4f / %.4f | baseline %.4f / %.4f | McNemar p %.3g (only CNN %d, only baseline %d) |", what,
 			cmp.CNN.Accuracy, cmp.CNN.MacroF1, cmp.Baseline.Accuracy, cmp.Baseline.MacroF1, cmp.McNemar.P,
 			cmp.McNemar.OnlyA, cmp.McNemar.OnlyB), nil
 	}
@@ -234,7 +244,7 @@ func testCells(m *cnn.Model, enc *corpus.Encoder, test *corpus.Dataset, threads 
 	if err != nil {
 		return "", err
 	}
-	return fmt.Sprintf(" test %.4f / %.4f |", mt.Accuracy, mt.MacroF1), nil
+	return fmt.Sprintf(" %s %.4f / %.4f |", what, mt.Accuracy, mt.MacroF1), nil
 }
 
 // meanLoss is the mean cross-entropy of m on d.
