@@ -284,7 +284,6 @@ func runAudit(ctx context.Context, env *runEnv, o *auditOptions) error {
 	if err != nil {
 		return err
 	}
-	say(env.Stderr, o.quiet, "%s", es.note)
 	var recipe *cnn.Recipe
 	if o.retrain || o.seeds > 0 {
 		if recipe, err = o.trainingRecipe(m, es); err != nil {

@@ -94,7 +94,6 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 	if err != nil {
 		return err
 	}
-	say(env.Stderr, o.quiet, "%s", es.note)
 	warnings, notes := make([][]string, len(models)), make([]string, len(models))
 	warnings[0] = es.warnings
 	for i, m := range models[1:] {

@@ -117,7 +117,6 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 	if err != nil {
 		return err
 	}
-	say(env.Stderr, o.quiet, "%s", es.note)
 	if m, enc, err = m.WithUnseen(enc, es.test.Texts()); err != nil { // unseen words' own rows, with --chars
 		return err
 	}

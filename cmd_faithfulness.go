@@ -86,7 +86,6 @@ func runFaithfulness(ctx context.Context, env *runEnv, o *faithOptions) error {
 	if err != nil {
 		return err
 	}
-	say(env.Stderr, o.quiet, "%s", es.note)
 	ds := es.test
 	if o.limit > 0 && len(ds.Examples) > o.limit {
 		// A seeded, stratified sample, not the first texts of the file.

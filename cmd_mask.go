@@ -181,7 +181,6 @@ func runMask(ctx context.Context, env *runEnv, o *maskOptions) error {
 		}
 		return nil
 	}
-	say(env.Stderr, o.quiet, "%s", es.note)
 	data, err := encodeFor(m, enc, es.test, 0)
 	if err != nil {
 		return err

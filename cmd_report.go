@@ -86,7 +86,6 @@ func runReport(ctx context.Context, env *runEnv, o *reportOptions) error {
 	if err != nil {
 		return err
 	}
-	say(env.Stderr, o.quiet, "%s", es.note)
 	// The audit honours the marks kept beside the model (telltale audit --mark-…).
 	marks, err := audit.ReadMarks(audit.MarksPath(o.model), m)
 	if err != nil && !errors.Is(err, fs.ErrNotExist) {

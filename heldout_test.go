@@ -124,7 +124,7 @@ func loadModelFile(t *testing.T, path string) *cnn.Model {
 // TestEvalSplitWarnsOfTrainingTexts: --test pointed at the model's own
 // training data, or at a file holding texts of its training split, gets
 // the "may include texts the model was trained on" warning that other
-// --data gets.
+// --data gets, after the note that names those texts.
 func TestEvalSplitWarnsOfTrainingTexts(t *testing.T) {
 	dir := t.TempDir()
 	data := demoPart(t, dir, 400)
@@ -136,6 +136,10 @@ func TestEvalSplitWarnsOfTrainingTexts(t *testing.T) {
 	if !strings.Contains(stderr, "warning: "+data+" is the data the model was trained on") ||
 		len(ev.Warnings) != 1 || !strings.Contains(ev.Warnings[0], mayHoldTraining) {
 		t.Errorf("eval --test on the training data: warnings %q, stderr %q", ev.Warnings, stderr)
+	}
+	// The note that names the texts comes before the warnings about them.
+	if note, warn := strings.Index(stderr, "note: evaluating on the test file "+data), strings.Index(stderr, "warning: "); note < 0 || note > warn {
+		t.Errorf("eval --test on the training data: the note should precede the warning, stderr %q", stderr)
 	}
 
 	// The same texts in reverse order: another fingerprint, but every text

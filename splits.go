@@ -151,8 +151,9 @@ const mayHoldTraining = "may include texts the model was trained on"
 // examples: cnn.SplitRecord.Fingerprint), the test split train held out of
 // it or the test file train was given; with other data, or a model that
 // does not record its splits, all of data, with a note that it may include
-// texts the model was trained on. It warns (on warn unless quiet; always in
-// the evalSet's warnings) when the texts are the model's training data or
+// texts the model was trained on. It prints the note that says which texts
+// those are (on warn unless quiet), then warns (the same; always in the
+// evalSet's warnings) when the texts are the model's training data or
 // hold texts of its training split (found in data, or without it in the
 // data file the model records: checkTraining), and when the recorded test
 // file changed since training; it refuses (a usage error) an empty set of
@@ -201,6 +202,8 @@ func findTestSplitOf(m *cnn.Model, path, data, test string, r *readOptions, warn
 		es.checkTraining(rec, data, same, r)
 	}
 	es.warnCuesChosen(&m.Info) // last: compare gives the other models their own (cueWarnings)
+	// The note first: the warnings are about the texts it names.
+	say(warn, quiet, "%s", es.note)
 	printHeldOut(warn, quiet, path, es.warnings)
 	return es, nil
 }
