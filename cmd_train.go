@@ -82,7 +82,8 @@ epoch so far and says to lower --lr. Press Ctrl-C to stop early: the best
 model so far is saved. When --out names an existing file it is replaced
 whole at the end (written beside it, then renamed), never in part.
 
---mask-tokens FILE takes cue tokens out of the training text first. The file
+--mask-tokens FILE takes cue tokens out of the training text first, and out
+of the dev text the epoch is chosen on, so no choice follows them. The file
 holds one pattern per line: a plain token, matched as a whole word without
 regard to case (tkref matches in "TKREF-48213" but not in "tkrefs"), or a
 regular expression between slashes in Go's RE2 syntax (/TKREF-[0-9]{5}/),
@@ -178,7 +179,7 @@ func runTrain(ctx context.Context, env *runEnv, o *trainOptions) error {
 	// (the recipe's MaskTokens, which the model file records).
 	checked := sp
 	if o.maskTokens != "" {
-		masked, patterns, err := maskTrainingText(sp.train, o.maskTokens, env.Stderr, o.quiet)
+		masked, patterns, err := maskTrainingText(sp.train, sp.dev, o.maskTokens, env.Stderr, o.quiet)
 		if err != nil {
 			return err
 		}

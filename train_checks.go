@@ -121,9 +121,10 @@ func (o *trainOptions) checkVocabulary(sp *splits) error {
 // maskTrainingText takes the cue tokens or patterns listed in file out of
 // every training text and returns the masked copy and the patterns (as
 // the recipe records them, cnn.TrainConfig.MaskTokens). It says how many
-// matches were taken out, and warns of a plain-token line that looks like
+// matches were taken out, and how many cnn.TrainText will take out of dev
+// (which may be nil) too, and warns of a plain-token line that looks like
 // a regular expression and matches nothing (the slashes were forgotten).
-func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet bool) (*corpus.Dataset, []string, error) {
+func maskTrainingText(train, dev *corpus.Dataset, file string, w io.Writer, quiet bool) (*corpus.Dataset, []string, error) {
 	cm, err := corpus.LoadCueMasker(file)
 	if err != nil {
 		return nil, nil, err
@@ -140,7 +141,16 @@ func maskTrainingText(train *corpus.Dataset, file string, w io.Writer, quiet boo
 	if quiet {
 		return &out, cm.Patterns(), nil
 	}
-	fmt.Fprintf(w, "mask-tokens: %s of the patterns in %s taken out of the training text\n", wording.Count(total, "match", "matches"), file)
+	fromDev := ""
+	if dev != nil && len(dev.Examples) > 0 {
+		n := 0
+		for _, e := range dev.Examples {
+			_, k := cm.Mask(e.Text)
+			n += k
+		}
+		fromDev = fmt.Sprintf(" and %s out of the dev text, on which the epoch is chosen", wording.Count(n, "match", "matches"))
+	}
+	fmt.Fprintf(w, "mask-tokens: %s of the patterns in %s taken out of the training text%s\n", wording.Count(total, "match", "matches"), file, fromDev)
 	for _, p := range cm.Patterns() {
 		if strings.HasPrefix(p, "/") || !strings.ContainsAny(p, `\[]{}()*+?|^$`) {
 			continue

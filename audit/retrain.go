@@ -50,10 +50,10 @@ type ModelPair struct {
 
 // Retrain takes the patterns (Action.Patterns, or Marks.Patterns) out of
 // the training texts (corpus.MaskTokens), trains a model on them with
-// recipe r (cnn.TrainText; dev, which may be nil, is masked the same way
-// and used for early stopping; the patterns r records already,
-// r.Train.MaskTokens, are taken out of the training texts too, and the
-// retrained model records them with the cues' patterns after them) and
+// recipe r (cnn.TrainText, which takes the patterns r records already,
+// r.Train.MaskTokens, and the cues' after them out of the training texts
+// and of dev, which may be nil and serves early stopping, as every
+// retraining of the recipe does; the retrained model records them) and
 // compares it with m on the texts of heldout at the indexes scored, as
 // they are and without the cues. scored are the audit's confirmation half
 // (Result.Confirmation, indexes of the heldout it was given), which took
@@ -102,10 +102,9 @@ func Retrain(ctx context.Context, m *cnn.Model, patterns []string, train, dev, h
 			return s
 		}), n
 	}
-	mdev, _ := mask(dev)
 	cf, n := mask(heldout)
 	out.HeldoutRemoved = n
-	tr, err := cnn.TrainText(ctx, train, mdev, r, progress)
+	tr, err := cnn.TrainText(ctx, train, dev, r, progress)
 	if err != nil {
 		return nil, err
 	}

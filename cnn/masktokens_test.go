@@ -7,6 +7,8 @@ import (
 	"slices"
 	"testing"
 
+	"gonum.org/v1/gonum/floats/scalar"
+
 	"telltale/corpus"
 )
 
@@ -59,6 +61,65 @@ func TestTrainTextMaskTokens(t *testing.T) {
 	}
 	if _, err := TrainText(context.Background(), d, nil, Recipe{Train: TrainConfig{MaskTokens: []string{"/[/"}}}, nil); err == nil {
 		t.Error("a bad pattern in the recipe trained")
+	}
+}
+
+// TestTrainTextMasksTheDev: TrainText takes the recipe's MaskTokens out of
+// the dev texts too, so the kept epoch's dev figures (Info.Dev) are those
+// of the model on the masked dev text, not on the text as given: the ECE,
+// a continuous figure, tells the two apart. The demo corpus's README
+// documents the planted ticket stamp the pattern takes out; its training
+// file holds it in the dev share too.
+func TestTrainTextMasksTheDev(t *testing.T) {
+	d, _, err := corpus.Load(filepath.Join("..", "testdata", "demo", "train.csv"), corpus.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	d.Examples = d.Examples[:800]
+	train, dev := d.Split(0.25, 1)
+	mask := []string{"/(?i)\\btkref\\s*-\\s*[0-9]+\\b/"}
+	cm, err := corpus.MaskTokens(mask)
+	if err != nil {
+		t.Fatal(err)
+	}
+	stamped := 0
+	masked := dev.MapTexts(func(s string) string {
+		s, n := cm.Mask(s)
+		stamped += min(n, 1)
+		return s
+	})
+	if stamped == 0 {
+		t.Fatal("no dev text holds the stamp: choose other texts")
+	}
+	r := DefaultRecipe()
+	r.Baseline = nil
+	r.Model.Dim, r.Model.Widths, r.Model.Filters = 8, []int{2}, 4
+	r.Train.Epochs, r.Train.Threads, r.Train.MaskTokens = 2, 2, mask
+	tr, err := TrainText(context.Background(), train, dev, r, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := tr.Model
+	ece := func(ds *corpus.Dataset) float64 {
+		data, err := EncodeDataset(tr.Encoder, ds, m.Labels, 2)
+		if err != nil {
+			t.Fatal(err)
+		}
+		mt, _, err := Evaluate(m, data, 2)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return mt.ECE
+	}
+	onMasked, asGiven := ece(masked), ece(dev)
+	if onMasked == asGiven {
+		t.Fatalf("the stamp on %d dev texts changes no confidence (ECE %g both): the test cannot tell the two apart", stamped, onMasked)
+	}
+	if m.Info.Dev == nil {
+		t.Fatal("no dev figures recorded")
+	}
+	if !scalar.EqualWithinAbsOrRel(m.Info.Dev.ECE, onMasked, 1e-12, 1e-12) {
+		t.Errorf("dev ECE %g, want %g (the masked dev text), not %g (the text as given)", m.Info.Dev.ECE, onMasked, asGiven)
 	}
 }
 

@@ -74,14 +74,18 @@ const PhaseWideFit = "wide-fit"
 // (reporting Phase PhaseBaseline first); a cancellation during that fit
 // keeps the trained CNN and leaves Model.Baseline nil.
 //
-// The patterns of r.Train.MaskTokens are taken out of the training texts
-// first (the CNN and the baseline learn from the masked copy; dev is read
-// as given), as train --mask-tokens asks, and the model records them.
+// The patterns of r.Train.MaskTokens are taken out of the training and
+// dev texts first (the CNN and the baseline learn from the masked copy, and
+// the epoch and the baseline's C are chosen on the masked dev copy, so
+// that no choice follows the tokens taken out), as train --mask-tokens
+// asks, and the model records them. Every caller that retrains without
+// cues (audit.Retrain, a recipe rebuilt from a model file) masks through
+// here, so all of them choose on the same dev text.
 func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progress func(Progress)) (*Trained, error) {
 	if err := checkTrainText(train, r); err != nil {
 		return nil, err
 	}
-	train, err := maskTraining(train, r.Train.MaskTokens)
+	train, dev, err := maskSplits(train, dev, r.Train.MaskTokens)
 	if err != nil {
 		return nil, err
 	}
@@ -166,21 +170,25 @@ func checkTrainText(train *corpus.Dataset, r Recipe) error {
 	return nil
 }
 
-// maskTraining is train with the patterns (TrainConfig.MaskTokens) taken
-// out of every text (corpus.CueMasker.Mask), a copy; train itself when
-// there are none.
-func maskTraining(train *corpus.Dataset, patterns []string) (*corpus.Dataset, error) {
+// maskSplits is train and dev with the patterns (TrainConfig.MaskTokens)
+// taken out of every text (corpus.CueMasker.Mask), copies; the splits
+// themselves when there are none. dev may be nil.
+func maskSplits(train, dev *corpus.Dataset, patterns []string) (*corpus.Dataset, *corpus.Dataset, error) {
 	if len(patterns) == 0 {
-		return train, nil
+		return train, dev, nil
 	}
 	cm, err := corpus.MaskTokens(patterns)
 	if err != nil {
-		return nil, fmt.Errorf("cnn: the recipe's tokens to take out: %w", err)
+		return nil, nil, fmt.Errorf("cnn: the recipe's tokens to take out: %w", err)
 	}
-	return train.MapTexts(func(s string) string {
+	mask := func(s string) string {
 		s, _ = cm.Mask(s)
 		return s
-	}), nil
+	}
+	if dev != nil {
+		dev = dev.MapTexts(mask)
+	}
+	return train.MapTexts(mask), dev, nil
 }
 
 // modelConfig is r.Model sized for enc's vocabulary and classes labels:

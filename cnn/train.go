@@ -173,7 +173,7 @@ type TrainConfig struct {
 	WideFitC float64 `json:"wide_fit_c,omitempty"`
 	// MaskTokens are the patterns (corpus.MaskTokens: plain tokens, or
 	// regular expressions between slashes) that TrainText takes out of
-	// every training text before it builds the vocabulary: train's
+	// every training and dev text before it builds the vocabulary: train's
 	// --mask-tokens, and the cues a model was retrained without (audit
 	// --retrain). The model file records them, so that training the
 	// model's recipe again (audit --seeds and --retrain, the window's
