@@ -177,7 +177,7 @@ func basicInterval(est float64, sorted []float64, level float64) Interval {
 // headline's (accuracy and macro-F1, in Figures): weighted F1, ECE and every
 // class's precision, recall and F1, all at IntervalLevel.
 type MetricIntervals struct {
-	WeightedF1 Interval `json:"weighted_f1"` // percentile bootstrap over texts
+	WeightedF1 Interval `json:"weighted_f1"` // percentile bootstrap over texts; exact bound where no text or every text is an error (F1IntervalsOf)
 	// ECE is BootstrapECE (the bias-corrected ECE with its basic
 	// bootstrap interval over texts) beside the ECE of the texts, with the
 	// p-value of CalibrationTest; nil when the metrics carry no
@@ -189,7 +189,8 @@ type MetricIntervals struct {
 // ClassIntervals are one class's precision and recall with their Wilson
 // intervals (shares of a count: right predictions of the predicted texts,
 // of the gold texts) and its F1 with the percentile bootstrap interval
-// over texts. A figure with nothing to measure (ClassMetrics) has
+// over texts, or the exact interval where none of its texts is an error or
+// none is right (F1IntervalsOf). A figure with nothing to measure (ClassMetrics) has
 // UndefinedInterval, null in JSON.
 type ClassIntervals struct {
 	Label     string   `json:"label"`
@@ -208,13 +209,14 @@ func shareInterval(k, n int) Interval {
 }
 
 // IntervalsOf is the intervals of m's figures: Wilson for each class's
-// precision and recall, BootstrapF1s for the F1s and BootstrapECE with
+// precision and recall, F1IntervalsOf for the F1s (BootstrapF1s, with
+// exact intervals where the texts pin a figure) and BootstrapECE with
 // CalibrationTest for the ECE (with the bins m was computed with), each with
 // BootstrapResamples resamples seeded by BootstrapSeed, as HeadlineOf.
 // Each Estimate is m's own figure, but the ECE's, which is corrected for
 // its bias (BootstrapECE; m's ECE is its Observed).
 func IntervalsOf(m Metrics) MetricIntervals {
-	f1 := BootstrapF1s(m.Confusion, BootstrapResamples, IntervalLevel, BootstrapSeed)
+	f1 := F1IntervalsOf(m.Confusion, BootstrapResamples, IntervalLevel, BootstrapSeed)
 	out := MetricIntervals{WeightedF1: f1.Weighted}
 	for c, row := range m.Confusion {
 		predicted := 0

@@ -530,7 +530,8 @@ func quantileSorted(xs []float64, q float64) float64 {
 
 // Headline is what a user acts on of a classifier on a labeled split: its
 // accuracy with the Wilson interval and its macro-F1 with the bootstrap
-// interval over texts, both at IntervalLevel.
+// interval over texts, or its exact bound where the texts pin it
+// (MacroF1IntervalOf), both at IntervalLevel.
 type Headline struct {
 	N        int      `json:"n"`
 	Accuracy Interval `json:"accuracy"`
@@ -538,15 +539,16 @@ type Headline struct {
 }
 
 // HeadlineOf is the headline of m: the Wilson interval of its accuracy and
-// BootstrapMacroF1 of its confusion matrix with BootstrapResamples
-// resamples seeded by BootstrapSeed.
+// MacroF1IntervalOf its confusion matrix (BootstrapMacroF1, or the exact
+// bound where every class present has no error or nothing right) with
+// BootstrapResamples resamples seeded by BootstrapSeed.
 func HeadlineOf(m Metrics) Headline {
 	right := 0
 	for c, row := range m.Confusion {
 		right += row[c]
 	}
 	return Headline{N: m.N, Accuracy: WilsonInterval(right, m.N, IntervalLevel),
-		MacroF1: BootstrapMacroF1(m.Confusion, BootstrapResamples, IntervalLevel, BootstrapSeed)}
+		MacroF1: MacroF1IntervalOf(m.Confusion, BootstrapResamples, IntervalLevel, BootstrapSeed)}
 }
 
 // Figures are the headlines of the CNN and, when the model carries one, of
