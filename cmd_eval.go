@@ -20,7 +20,8 @@ var cmdEval = &command{
 	Long: `Eval runs a saved model on labeled texts and prints accuracy with its 95%
 Wilson interval, macro-F1 with its 95% bootstrap interval over texts,
 per-class precision and recall (Wilson intervals) and F1 (bootstrap
-interval) with support, weighted-F1, the confusion matrix (rows: gold
+interval; an exact Clopper–Pearson interval where the texts pin an F1, a
+class with no error or nothing right) with support, weighted-F1, the confusion matrix (rows: gold
 label, columns: predicted) and the expected calibration error over
 equal-width confidence bins, both with bootstrap intervals. When the model
 file carries the linear baseline train fits beside the CNN, the baseline's
@@ -237,7 +238,7 @@ func argmax(p []float32) int {
 // writeMetrics prints an evaluation as readable tables, after the
 // figures writeFigures prints, each measured figure with its interval iv.
 func writeMetrics(w io.Writer, m cnn.Metrics, iv cnn.MetricIntervals, bins int) {
-	fmt.Fprintf(w, "weighted-F1 %s   ECE %s (%d bins)   (%g%% intervals: Wilson for precision and recall, bootstrap over texts for F1 and ECE)\n\n",
+	fmt.Fprintf(w, "weighted-F1 %s   ECE %s (%d bins)   (%g%% intervals: Wilson for precision and recall, bootstrap over texts for F1 and ECE, exact for an F1 the texts pin)\n\n",
 		iv.WeightedF1, eceText(m.ECE, iv.ECE), bins, 100*cnn.IntervalLevel)
 	width := 5
 	for i, l := range m.Labels {
