@@ -217,3 +217,67 @@ func TestF1IntervalsOfKeepsTheBootstrap(t *testing.T) {
 		t.Fatal("no pinned class in the random cases: the test tests nothing")
 	}
 }
+
+// The coverage of the F1 intervals shown (F1IntervalsOf) where errors are
+// rare, by simulation (seeded; the truth is the simulation's own): sets of
+// 390 texts, two classes 2:1, each text an error with probability eps, so
+// that many sets have no error (SpamAssassin's test split). The share of
+// intervals holding each class's F1 and the macro-F1 of the distribution
+// must not fall short of 95% by more than three binomial standard errors;
+// the bootstrap's alone (BootstrapF1s) must, at eps = 0.001, to show that
+// the check can fail. With a few errors in every set (eps = 0.01, about 4
+// of 390) the bootstrap, kept there, covers about 91% (not checked here).
+func TestF1IntervalsOfCoverageWithRareErrors(t *testing.T) {
+	testref.SequentialSkipInRace(t, "F1IntervalsOf")
+	const n, sets, pa = 390, 300, 2.0 / 3
+	tol := 3 * math.Sqrt(0.05*0.95/sets)
+	for _, eps := range []float64{0.001, 0.003} {
+		rng := rand.New(rand.NewPCG(71, 72))
+		// Class a: TP pa(1−eps), and eps of errors among its texts'
+		// share (its false negatives pa·eps and false positives
+		// (1−pa)·eps); class b alike.
+		truth := []float64{2 * pa * (1 - eps) / (2*pa*(1-eps) + eps), 2 * (1 - pa) * (1 - eps) / (2*(1-pa)*(1-eps) + eps)}
+		truthMacro := (truth[0] + truth[1]) / 2
+		covered, bootCovered, macroCovered, noError := make([]int, 2), 0, 0, 0
+		for s := range sets {
+			c := [][]int{{0, 0}, {0, 0}}
+			for range n {
+				g := 0
+				if rng.Float64() > pa {
+					g = 1
+				}
+				p := g
+				if rng.Float64() < eps {
+					p = 1 - g
+				}
+				c[g][p]++
+			}
+			if c[0][1]+c[1][0] == 0 {
+				noError++
+			}
+			f := F1IntervalsOf(c, 1000, 0.95, uint64(s))
+			for k := range 2 {
+				if f.PerClass[k].Low <= truth[k] && truth[k] <= f.PerClass[k].High {
+					covered[k]++
+				}
+			}
+			if f.Macro.Low <= truthMacro && truthMacro <= f.Macro.High {
+				macroCovered++
+			}
+			if b := BootstrapF1s(c, 1000, 0.95, uint64(s)).PerClass[0]; b.Low <= truth[0] && truth[0] <= b.High {
+				bootCovered++
+			}
+		}
+		share := func(k int) float64 { return float64(k) / sets }
+		t.Logf("eps %g: %d of %d sets without error; coverage: class a %.3f (bootstrap alone %.3f), class b %.3f, macro-F1 %.3f",
+			eps, noError, sets, share(covered[0]), share(bootCovered), share(covered[1]), share(macroCovered))
+		for name, k := range map[string]int{"class a": covered[0], "class b": covered[1], "macro-F1": macroCovered} {
+			if share(k) < 0.95-tol {
+				t.Errorf("eps %g, %s: coverage %.3f over %d sets, below 0.95 − %.3f", eps, name, share(k), sets, tol)
+			}
+		}
+		if eps == 0.001 && share(bootCovered) >= 0.95-tol {
+			t.Errorf("eps %g: the bootstrap alone covers class a's F1 in %.3f of the sets: the check above cannot fail here", eps, share(bootCovered))
+		}
+	}
+}
