@@ -52,8 +52,11 @@ import (
 // percentile bootstrap interval, which follows the sample's dependence
 // between the classes that these bounds give up (and is checked against
 // SciPy's and by its coverage). With a handful of errors the bootstrap is
-// unreliable too (its resamples see only the errors seen), yet it keeps
-// the bootstrap: no rule here yet says how few are too few.
+// too narrow (its resamples see only the errors seen: with about 4 errors
+// in 390 texts it covers about 91%), yet the figure keeps it, since no
+// rule here yet says how few are too few; where errors are so rare that
+// many sets have none, the intervals shown cover at least 95%
+// (TestF1IntervalsOfCoverageWithRareErrors).
 
 // ClopperPearsonInterval is the proportion k/n with its exact
 // Clopper–Pearson interval at the two-sided level: the (1−level)/2
