@@ -146,7 +146,12 @@ func (v *auditView) writeStability(w io.Writer) {
 	}
 	fmt.Fprintf(w, "\nOver %d models (this one and %d more of its recipe): a cue is stable when acted on in at least %d of the audits.\n",
 		v.Stability[0].Models, v.Stability[0].Models-1, v.StableIn)
+	shown := 0
 	for _, s := range v.Stability {
+		if s.Found == 0 {
+			continue // listed, acted on in none: counted below
+		}
+		shown++
 		ranks := make([]string, len(s.Ranks))
 		for i, r := range s.Ranks {
 			ranks[i] = fmt.Sprint(r)
@@ -159,6 +164,17 @@ func (v *auditView) writeStability(w io.Writer) {
 			stable = ", stable"
 		}
 		fmt.Fprintf(w, "  acted on in %d of %d (ranks %s)%s: %s → %s\n", s.Found, s.Models, strings.Join(ranks, " "), stable, shellQuote(s.Text), s.Label)
+	}
+	if shown == 0 {
+		fmt.Fprintf(w, "  No cue was acted on in any of the %d audits.\n", v.Stability[0].Models)
+	}
+	if none := len(v.Stability) - shown; none > 0 {
+		where := "the JSON's stability lists them"
+		if v.o.stabilityPath() != "" {
+			where = "the JSON's stability and " + v.o.stabilityPath() + " list them"
+		}
+		fmt.Fprintf(w, "  Not shown: %s listed as artifact-like in an audit but acted on in none (%s).\n",
+			wording.Count(none, "more cue", "more cues"), where)
 	}
 }
 
