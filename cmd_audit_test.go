@@ -76,6 +76,62 @@ func TestAuditCommand(t *testing.T) {
 	t.Run("marks", func(t *testing.T) { checkMarks(t, model, base) })
 	t.Run("masked-out", func(t *testing.T) { checkMaskedOut(t, base, &res) })
 	t.Run("seeds and retrain", func(t *testing.T) { checkSeedsAndRetrain(t, model, base) })
+	t.Run("nothing to retrain without", func(t *testing.T) { checkNothingToRetrain(t, base, &res) })
+}
+
+// checkNothingToRetrain: with the cues acted on marked task (so none is
+// acted on and none is marked artifact), --retrain has nothing to retrain
+// without: the audit is still printed and --export written, as when
+// --masked-out finds no mask, nothing is trained or written by
+// --retrain-out, and the command fails (exit 1) saying why and what to do.
+// --masked-out's message then does not send the user to --retrain, which
+// would refuse too.
+func checkNothingToRetrain(t *testing.T, base []string, res *auditOut) {
+	dir := t.TempDir()
+	marks := filepath.Join(dir, "task.marks")
+	args := append(slices.Clone(base), "--marks", marks, "--quiet")
+	var clean auditOut
+	for _, c := range res.Action.Cues {
+		args = append(args, "--mark-task", c)
+	}
+	jsonOf(t, &clean, append(args, "--json")...)
+	if len(clean.Action.Cues) > 0 {
+		t.Fatalf("with the cues acted on marked task, the audit still acts on %q: the case needs none", clean.Action.Cues)
+	}
+	args = append(slices.Clone(base), "--marks", marks, "--quiet")
+	for _, asJSON := range []bool{false, true} {
+		export, retrained := filepath.Join(dir, fmt.Sprintf("cues%v.csv", asJSON)), filepath.Join(dir, "without.tt")
+		run := append(slices.Clone(args), "--retrain", "--retrain-out", retrained, "--export", export)
+		if asJSON {
+			run = append(run, "--json")
+		}
+		code, stdout, stderr := tt(t, run...)
+		noCrash(t, "audit --retrain", stderr)
+		if code != 1 || !strings.Contains(stderr, "--retrain trained nothing") || !strings.Contains(stderr, "--mark-artifact CUE") {
+			t.Errorf("--json %v: exit %d, stderr %q; want 1 and why nothing was retrained", asJSON, code, stderr)
+		}
+		var got auditOut
+		if asJSON {
+			if err := json.Unmarshal([]byte(stdout), &got); err != nil || got.Associated != clean.Associated || got.Retrained != nil {
+				t.Errorf("--json: the audit printed is not the audit (%v): %d cues associated, %d without --retrain; retrained %v",
+					err, got.Associated, clean.Associated, got.Retrained)
+			}
+		} else if !strings.HasPrefix(stdout, "Cue audit of ") || strings.Contains(stdout, "Retrained without") {
+			t.Errorf("the text printed is not the audit alone:\n%.300s", stdout)
+		}
+		if _, err := os.Stat(export); err != nil {
+			t.Errorf("--json %v: --export was not written: %v", asJSON, err)
+		}
+		if _, err := os.Stat(retrained); err == nil {
+			t.Errorf("--retrain-out %s was written, with nothing retrained", retrained)
+		}
+	}
+	masked := filepath.Join(dir, "masked.tt")
+	code, stdout, stderr := tt(t, append(args, "--masked-out", masked)...)
+	if code != 1 || stdout == "" || !strings.Contains(stderr, "was not written") || strings.Contains(stderr, "(--retrain)") {
+		t.Errorf("--masked-out with nothing acted on: exit %d, stdout %d bytes, stderr %q; want 1, the audit, and no advice to use --retrain",
+			code, len(stdout), stderr)
+	}
 }
 
 // checkPlanted: the two planted cues are the first two artifact-like cues
