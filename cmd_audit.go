@@ -24,7 +24,7 @@ import (
 
 var cmdAudit = &command{
 	Name: "audit",
-	UsageLine: "audit --model MODEL --data FILE [--test FILE] [--top K] [--export FILE] [--json]\n" +
+	UsageLine: "audit --model MODEL --data FILE [--test FILE] [--top K] [--measure N] [--export FILE] [--json]\n" +
 		"               [--marks FILE] [--mark-artifact CUE]... [--mark-task CUE]... [--unmark CUE]...\n" +
 		"               [--seeds N | --models M2,M3,...] [--stable-in K] [--retrain [--retrain-out MODEL2]] [--masked-out MODEL2]\n" +
 		"               [--confirming-out FILE]",
@@ -48,6 +48,11 @@ the training split of --data, and tells in plain words what it found:
                      shape (an identifier with digits, an address, markup), and
                      a label share that differs in the choosing half of the
                      test texts: a rule's score, its weights set by hand.
+
+The reliance of at most --measure N of the associated cues is measured (the
+cues marked first, then the most associated and the most artifact-like by
+turns; default 40): the text says how many were not, and how many of those read
+like collection; a larger N measures more and takes longer.
 
 The test split is --test FILE, or the share train held out of --data as its
 test split. It is halved at random (--seed): the cues are ranked and chosen on
@@ -94,13 +99,16 @@ file, for comparing models on texts that took no part in choosing the cues
 	Run:     runAs(runAudit),
 }
 
+// defaultMeasured is --measure's default, audit.Options.Measured's.
+const defaultMeasured = 40
+
 // maxSeeds bounds --seeds: each seed trains a whole model.
 const maxSeeds = 20
 
 type auditOptions struct {
 	model, data, test            string
 	read                         readOptions
-	top                          int
+	top, measure                 int
 	marks                        string
 	markArtifact, markTask, drop cueList
 	seeds                        int
@@ -138,6 +146,7 @@ func (o *auditOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.test, "test", "", "labeled test file (default: the test split train held out of --data)")
 	o.read.register(fs, true)
 	intVar(fs, &o.top, "top", 15, "cues listed in each list, 1 or more")
+	intVar(fs, &o.measure, "measure", defaultMeasured, "associated cues whose reliance is measured, 1 or more (more takes longer)")
 	fs.StringVar(&o.marks, "marks", "", "the marks file (default: beside the model, its name ending in .marks)")
 	fs.Var(&o.markArtifact, "mark-artifact", "mark a cue as an artifact of how the data was collected (repeatable)")
 	fs.Var(&o.markTask, "mark-task", "mark a cue as language of the task (repeatable)")
@@ -170,7 +179,7 @@ func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		if !o.marking() {
 			return usagef("--data is required: the labeled data the model was trained on")
 		}
-		for _, name := range []string{"test", "seeds", "models", "retrain", "retrain-out", "masked-out", "confirming-out", "export", "json"} {
+		for _, name := range []string{"test", "measure", "seeds", "models", "retrain", "retrain-out", "masked-out", "confirming-out", "export", "json"} {
 			if isSet(fs, name) {
 				return usagef("--%s needs --data: without it the audit only writes the marks", name)
 			}
@@ -182,6 +191,7 @@ func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
 	}
 	audits := 1 + o.seeds + len(o.others)
 	for _, err := range []error{checkExport(o.export), checkAtLeast("top", o.top, 1, "cues listed in each list"),
+		checkAtLeast("measure", o.measure, 1, "cues measured"),
 		checkAtLeast("seeds", o.seeds, 0, "models to train; 0 trains none"), checkAtLeast("stable-in", o.stableIn, 0, "audits; 0 is a majority"),
 		o.read.check(), o.threads.check(env.Stderr)} {
 		if err != nil {
@@ -503,7 +513,7 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 			r.priors[g] += 1 / float64(len(train.Gold))
 		}
 	}
-	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.src.heldoutFile(), r.o.data),
+	opt := audit.Options{Top: r.o.top, Measured: r.o.measure, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.src.heldoutFile(), r.o.data),
 		HeldoutShare: r.src.heldoutShare(), RetrainCommands: r.src.retrainCommands, RetrainedModel: r.o.retrainOut, Seed: r.o.seed, Workers: r.o.threads.N}
 	res, err := audit.Run(ctx, mu, train, held, opt, func(stage string, done, total int) {
 		r.bar.show(done, total, what+"audit: "+auditStage(stage), false)

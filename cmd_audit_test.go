@@ -77,6 +77,27 @@ func TestAuditCommand(t *testing.T) {
 	t.Run("masked-out", func(t *testing.T) { checkMaskedOut(t, base, &res) })
 	t.Run("seeds and retrain", func(t *testing.T) { checkSeedsAndRetrain(t, model, base) })
 	t.Run("nothing to retrain without", func(t *testing.T) { checkNothingToRetrain(t, base, &res) })
+	t.Run("measure", func(t *testing.T) { checkMeasure(t, base, &res) })
+}
+
+// checkMeasure: --measure N measures the reliance of N cues (the demo has
+// more associated cues than 40, and more than 5 frequent enough), and the
+// text says so.
+func checkMeasure(t *testing.T, base []string, res *auditOut) {
+	if res.Measured != 40 {
+		t.Errorf("by default the audit measured %d cues, want --measure's 40 (the demo has %d associated)", res.Measured, res.Associated)
+	}
+	for _, n := range []int{5, 60} {
+		var got auditOut
+		jsonOf(t, &got, append(base, "--measure", strconv.Itoa(n), "--json", "--quiet")...)
+		if got.Measured != n || got.Associated != res.Associated {
+			t.Errorf("--measure %d: %d of %d associated cues measured, want %d of %d", n, got.Measured, got.Associated, n, res.Associated)
+		}
+	}
+	code, out, stderr := tt(t, append(base, "--measure", "5", "--quiet")...)
+	if want := "had their reliance measured (--measure 5); the other " + count(res.Associated-5); code != 0 || !strings.Contains(out, want) {
+		t.Errorf("audit --measure 5: exit %d (%s), the text does not say %q", code, stderr, want)
+	}
 }
 
 // checkNothingToRetrain: with the cues acted on marked task (so none is
@@ -199,6 +220,13 @@ func checkAuditText(t *testing.T, base []string, res *auditOut) {
 		t.Fatalf("the text does not open with what was audited and the story:\n%.2000s", out)
 	}
 	at := len(head) + len(res.Story)
+	// After the story, how many associated cues were measured, as the
+	// JSON counts them.
+	measured := fmt.Sprintf("\n\nOf the %s cues associated with a label in the training texts, %d had their reliance measured (--measure 40); the other %d",
+		count(res.Associated), res.Measured, res.Associated-res.Measured)
+	if end := len(head) + len("\n\n") + len(res.Story); res.Associated <= res.Measured || !strings.HasPrefix(out[end:], measured) {
+		t.Errorf("the story is not followed by %q (the demo has more associated cues than --measure's 40)", measured)
+	}
 	for _, list := range [][]audit.Candidate{res.Ranked, res.Task} {
 		for i := range list {
 			ev := report.DescribeCue(&list[i], &res.Result, nil)
@@ -678,6 +706,8 @@ func TestAuditRefusals(t *testing.T) {
 		want string
 	}{
 		{a("--seeds", "30"), 2, "--seeds 30: give at most 20"},
+		{a("--measure", "0"), 2, "--measure 0: give 1 or more"},
+		{[]string{"audit", "--model", f.model, "--mark-task", "ferry", "--measure", "5"}, 2, "--measure needs --data"},
 		{a("--seeds", "-1"), 2, "--seeds -1: give 0 or more"},
 		{a("--seeds", "2", "--models", f.model+"x"), 2, "give --seeds N or --models, not both"},
 		{a("--stable-in", "2"), 2, "--stable-in needs --seeds or --models"},
