@@ -24,7 +24,7 @@ import (
 
 var cmdAudit = &command{
 	Name: "audit",
-	UsageLine: "audit --model MODEL --data FILE [--test FILE] [--top K] [--export FILE] [--json]\n" +
+	UsageLine: "audit --model MODEL --data FILE [--test FILE] [--top K] [--measure N] [--export FILE] [--json]\n" +
 		"               [--marks FILE] [--mark-artifact CUE]... [--mark-task CUE]... [--unmark CUE]...\n" +
 		"               [--seeds N | --models M2,M3,...] [--stable-in K] [--retrain [--retrain-out MODEL2]] [--masked-out MODEL2]\n" +
 		"               [--confirming-out FILE]",
@@ -48,6 +48,11 @@ the training split of --data, and tells in plain words what it found:
                      shape (an identifier with digits, an address, markup), and
                      a label share that differs in the choosing half of the
                      test texts: a rule's score, its weights set by hand.
+
+The reliance of at most --measure N of the associated cues is measured (the
+cues marked first, then the most associated and the most artifact-like by
+turns; default 40): the text says how many were not, and how many of those read
+like collection; a larger N measures more and takes longer.
 
 The test split is --test FILE, or the share train held out of --data as its
 test split. It is halved at random (--seed): the cues are ranked and chosen on
@@ -78,11 +83,15 @@ patterns the model's own --mask-tokens took out) and compares both models on
 the confirming half of the test texts (the choosing half chose the cues) as
 it is and with the cues taken out; --retrain-out keeps the new model, which
 records the choosing half: eval, compare and report warn when its figures
-include those texts. --masked-out writes a copy of the model with the
-filters masked that helped on the confirming half; on a model with word
-weights (train --wide) the copy also reads the cues' own words as the
-unknown word by the word weights, as the audit measured it. When no mask
-helped, nothing is written and the command fails. --confirming-out writes
+include those texts. When the audit acted on no cue and none is marked
+artifact there is nothing to retrain without: the audit is printed and its
+files written as without --retrain, nothing is trained, and the command
+fails, as --masked-out does when no mask helped. --masked-out writes a copy
+of the model with the filters masked that helped on the confirming half; on
+a model with word weights (train --wide) the copy also reads the cues' own
+words as the unknown word by the word weights, as the audit measured it.
+When no mask helped, nothing is written and the command fails, after the
+audit is printed and its other files written. --confirming-out writes
 the confirming half's texts and labels (as read) to a .csv, .tsv or .jsonl
 file, for comparing models on texts that took no part in choosing the cues
 (telltale compare --test FILE).`,
@@ -90,13 +99,16 @@ file, for comparing models on texts that took no part in choosing the cues
 	Run:     runAs(runAudit),
 }
 
+// defaultMeasured is --measure's default, audit.Options.Measured's.
+const defaultMeasured = 40
+
 // maxSeeds bounds --seeds: each seed trains a whole model.
 const maxSeeds = 20
 
 type auditOptions struct {
 	model, data, test            string
 	read                         readOptions
-	top                          int
+	top, measure                 int
 	marks                        string
 	markArtifact, markTask, drop cueList
 	seeds                        int
@@ -134,6 +146,7 @@ func (o *auditOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.test, "test", "", "labeled test file (default: the test split train held out of --data)")
 	o.read.register(fs, true)
 	intVar(fs, &o.top, "top", 15, "cues listed in each list, 1 or more")
+	intVar(fs, &o.measure, "measure", defaultMeasured, "associated cues whose reliance is measured, 1 or more (more takes longer)")
 	fs.StringVar(&o.marks, "marks", "", "the marks file (default: beside the model, its name ending in .marks)")
 	fs.Var(&o.markArtifact, "mark-artifact", "mark a cue as an artifact of how the data was collected (repeatable)")
 	fs.Var(&o.markTask, "mark-task", "mark a cue as language of the task (repeatable)")
@@ -166,7 +179,7 @@ func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
 		if !o.marking() {
 			return usagef("--data is required: the labeled data the model was trained on")
 		}
-		for _, name := range []string{"test", "seeds", "models", "retrain", "retrain-out", "masked-out", "confirming-out", "export", "json"} {
+		for _, name := range []string{"test", "measure", "seeds", "models", "retrain", "retrain-out", "masked-out", "confirming-out", "export", "json"} {
 			if isSet(fs, name) {
 				return usagef("--%s needs --data: without it the audit only writes the marks", name)
 			}
@@ -178,6 +191,7 @@ func (o *auditOptions) check(fs *flag.FlagSet, env *runEnv) error {
 	}
 	audits := 1 + o.seeds + len(o.others)
 	for _, err := range []error{checkExport(o.export), checkAtLeast("top", o.top, 1, "cues listed in each list"),
+		checkAtLeast("measure", o.measure, 1, "cues measured"),
 		checkAtLeast("seeds", o.seeds, 0, "models to train; 0 trains none"), checkAtLeast("stable-in", o.stableIn, 0, "audits; 0 is a majority"),
 		o.read.check(), o.threads.check(env.Stderr)} {
 		if err != nil {
@@ -306,11 +320,49 @@ func runAudit(ctx context.Context, env *runEnv, o *auditOptions) error {
 	if err := run.print(out); err != nil {
 		return err
 	}
-	if o.maskedOut != "" && !out.Action.Suggested() {
-		return fmt.Errorf("%s was not written: masking the filters that read the cues acted on (or their words' word weights) did not help on the confirming half "+
-			"(or no cue was acted on), so the audit suggests no mask; retrain without the cues instead (--retrain)", o.maskedOut)
+	return run.unmade(out)
+}
+
+// unmade is the error (exit 1) of a run that printed the audit and wrote
+// its files but could not make what --masked-out or --retrain asked for:
+// no mask helped, or nothing was there to retrain without (no cue acted
+// on, none marked artifact); nil when everything asked for was made.
+func (r *auditRun) unmade(out *auditJSON) error {
+	o := r.o
+	noMask := o.maskedOut != "" && !out.Action.Suggested()
+	if !noMask && !out.retrainSkipped {
+		return nil
 	}
-	return nil
+	if len(r.retrainPatterns(out.Result)) == 0 {
+		var parts, remedies, options []string
+		if noMask {
+			parts, remedies, options = append(parts, o.maskedOut+" was not written"), append(remedies, "mask"), append(options, "--masked-out")
+		}
+		if out.retrainSkipped {
+			trained := "--retrain trained nothing"
+			if o.retrainOut != "" {
+				trained += " (" + o.retrainOut + " was not written)"
+			}
+			parts, remedies, options = append(parts, trained), append(remedies, "retrain without"), append(options, "--retrain")
+		}
+		printed := "the audit is printed"
+		if o.export != "" || o.confirmingOut != "" || o.marking() {
+			printed = "the audit is printed and its other files are written"
+		}
+		return fmt.Errorf("%s: the audit acted on no cue and no cue is marked artifact, so there is nothing to %s; %s; "+
+			"mark a cue with --mark-artifact CUE if you judge it an artifact, else the audit found nothing that needs %s",
+			strings.Join(parts, " and "), strings.Join(remedies, " or "), printed, strings.Join(options, " or "))
+	}
+	// Cues to take out, but no mask helped.
+	why := "masking the filters that read the cues acted on (or their words' word weights) did not help on the confirming half, so the audit suggests no mask"
+	if len(out.Action.Cues) == 0 {
+		why = "the audit acted on no cue, so it suggests no mask"
+	}
+	advice := "retrain without the cues instead (--retrain)"
+	if out.Retrained != nil {
+		advice = "the model retrained without the cues (--retrain) is the remedy the audit offers"
+	}
+	return fmt.Errorf("%s was not written: %s; %s", o.maskedOut, why, advice)
 }
 
 // print writes the audit to standard output, as --json asks.
@@ -364,6 +416,9 @@ type auditJSON struct {
 	Retrained      *audit.Retrained `json:"retrained,omitempty"`
 	RetrainedModel string           `json:"retrained_model,omitempty"`
 	MaskedModel    string           `json:"masked_model,omitempty"`
+	// retrainSkipped: --retrain found nothing to retrain without (no cue
+	// acted on, none marked artifact), so it did not train.
+	retrainSkipped bool
 	// Warnings are those on the held-out texts, as eval's (findTestSplit:
 	// why they may not be held-out texts); absent when there are none.
 	Warnings []string `json:"warnings,omitempty"`
@@ -419,10 +474,14 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 		}
 		out.Stability = audit.Stability(results, out.StableIn)
 	}
-	if r.o.retrain {
+	if patterns := r.retrainPatterns(res); r.o.retrain && len(patterns) == 0 {
+		// Nothing to retrain without: the audit stands, and the command
+		// says so when it ends (retrainSkipped).
+		out.retrainSkipped = true
+	} else if r.o.retrain {
 		r.stage = "the retraining without the cues (--retrain)"
 		say(r.env.Stderr, r.o.quiet, "the audit of %s is done; retraining without the cues (--retrain)", r.o.model)
-		if out.Retrained, err = r.retrain(ctx, m, res, *recipe); err != nil {
+		if out.Retrained, err = r.retrain(ctx, m, res, patterns, *recipe); err != nil {
 			return out, err
 		}
 		if r.o.retrainOut != "" {
@@ -454,7 +513,7 @@ func (r *auditRun) one(ctx context.Context, m *cnn.Model, marks *audit.Marks, wh
 			r.priors[g] += 1 / float64(len(train.Gold))
 		}
 	}
-	opt := audit.Options{Top: r.o.top, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.src.heldoutFile(), r.o.data),
+	opt := audit.Options{Top: r.o.top, Measured: r.o.measure, Marks: marks, ModelFile: r.o.model, TrainFile: r.o.data, HeldoutFile: cmpOr(r.src.heldoutFile(), r.o.data),
 		HeldoutShare: r.src.heldoutShare(), RetrainCommands: r.src.retrainCommands, RetrainedModel: r.o.retrainOut, Seed: r.o.seed, Workers: r.o.threads.N}
 	res, err := audit.Run(ctx, mu, train, held, opt, func(stage string, done, total int) {
 		r.bar.show(done, total, what+"audit: "+auditStage(stage), false)
@@ -490,20 +549,23 @@ func (r *auditRun) train(ctx context.Context, recipe cnn.Recipe, seed uint64, wh
 	return tr.Model, nil
 }
 
-// retrain trains without the cues acted on and those marked artifact and
-// compares the two models, with and without them, on the audit's
-// confirming half (the choosing half chose them).
-func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result, recipe cnn.Recipe) (*audit.Retrained, error) {
+// retrainPatterns are the patterns --retrain takes out of the training
+// text: those of the cues the audit res acted on, then those of the cues
+// marked artifact; none when the audit acted on no cue and none is marked.
+func (r *auditRun) retrainPatterns(res *audit.Result) []string {
 	patterns := slices.Clone(res.Action.Patterns)
 	for _, p := range r.marks.Patterns() {
 		if !slices.Contains(patterns, p) {
 			patterns = append(patterns, p)
 		}
 	}
-	if len(patterns) == 0 {
-		return nil, errors.New("--retrain: the audit acted on no cue and no cue is marked artifact, so there is nothing to retrain without; " +
-			"mark a cue with --mark-artifact CUE if you judge it an artifact")
-	}
+	return patterns
+}
+
+// retrain trains without patterns (retrainPatterns, not empty) and
+// compares the two models, with and without them, on the audit's
+// confirming half (the choosing half chose them).
+func (r *auditRun) retrain(ctx context.Context, m *cnn.Model, res *audit.Result, patterns []string, recipe cnn.Recipe) (*audit.Retrained, error) {
 	rt, err := audit.Retrain(ctx, m, patterns, r.es.train, r.es.dev, r.es.test, res.Confirmation, recipe, func(p cnn.Progress) {
 		if p.Phase == "train" {
 			r.bar.show(p.Batch, p.Batches, fmt.Sprintf("retraining without the cues: epoch %d/%d", p.Epoch, p.Epochs), false)
@@ -816,7 +878,7 @@ func (o *auditOptions) writeFiles(env *runEnv, m *cnn.Model, es *evalSet, marks 
 		}
 		say(env.Stderr, o.quiet, "the confirming half's %d texts are written to %s", len(out.Confirmation), o.confirmingOut)
 	}
-	if o.retrainOut != "" {
+	if o.retrainOut != "" && out.Retrained != nil {
 		if err := out.Retrained.Model.Save(o.retrainOut); err != nil {
 			return err
 		}

@@ -76,6 +76,83 @@ func TestAuditCommand(t *testing.T) {
 	t.Run("marks", func(t *testing.T) { checkMarks(t, model, base) })
 	t.Run("masked-out", func(t *testing.T) { checkMaskedOut(t, base, &res) })
 	t.Run("seeds and retrain", func(t *testing.T) { checkSeedsAndRetrain(t, model, base) })
+	t.Run("nothing to retrain without", func(t *testing.T) { checkNothingToRetrain(t, base, &res) })
+	t.Run("measure", func(t *testing.T) { checkMeasure(t, base, &res) })
+}
+
+// checkMeasure: --measure N measures the reliance of N cues (the demo has
+// more associated cues than 40, and more than 5 frequent enough), and the
+// text says so.
+func checkMeasure(t *testing.T, base []string, res *auditOut) {
+	if res.Measured != 40 {
+		t.Errorf("by default the audit measured %d cues, want --measure's 40 (the demo has %d associated)", res.Measured, res.Associated)
+	}
+	for _, n := range []int{5, 60} {
+		var got auditOut
+		jsonOf(t, &got, append(base, "--measure", strconv.Itoa(n), "--json", "--quiet")...)
+		if got.Measured != n || got.Associated != res.Associated {
+			t.Errorf("--measure %d: %d of %d associated cues measured, want %d of %d", n, got.Measured, got.Associated, n, res.Associated)
+		}
+	}
+	code, out, stderr := tt(t, append(base, "--measure", "5", "--quiet")...)
+	if want := "had their reliance measured (--measure 5); the other " + count(res.Associated-5); code != 0 || !strings.Contains(out, want) {
+		t.Errorf("audit --measure 5: exit %d (%s), the text does not say %q", code, stderr, want)
+	}
+}
+
+// checkNothingToRetrain: with the cues acted on marked task (so none is
+// acted on and none is marked artifact), --retrain has nothing to retrain
+// without: the audit is still printed and --export written, as when
+// --masked-out finds no mask, nothing is trained or written by
+// --retrain-out, and the command fails (exit 1) saying why and what to do.
+// --masked-out's message then does not send the user to --retrain, which
+// would refuse too.
+func checkNothingToRetrain(t *testing.T, base []string, res *auditOut) {
+	dir := t.TempDir()
+	marks := filepath.Join(dir, "task.marks")
+	args := append(slices.Clone(base), "--marks", marks, "--quiet")
+	var clean auditOut
+	for _, c := range res.Action.Cues {
+		args = append(args, "--mark-task", c)
+	}
+	jsonOf(t, &clean, append(args, "--json")...)
+	if len(clean.Action.Cues) > 0 {
+		t.Fatalf("with the cues acted on marked task, the audit still acts on %q: the case needs none", clean.Action.Cues)
+	}
+	args = append(slices.Clone(base), "--marks", marks, "--quiet")
+	for _, asJSON := range []bool{false, true} {
+		export, retrained := filepath.Join(dir, fmt.Sprintf("cues%v.csv", asJSON)), filepath.Join(dir, "without.tt")
+		run := append(slices.Clone(args), "--retrain", "--retrain-out", retrained, "--export", export)
+		if asJSON {
+			run = append(run, "--json")
+		}
+		code, stdout, stderr := tt(t, run...)
+		noCrash(t, "audit --retrain", stderr)
+		if code != 1 || !strings.Contains(stderr, "--retrain trained nothing") || !strings.Contains(stderr, "--mark-artifact CUE") {
+			t.Errorf("--json %v: exit %d, stderr %q; want 1 and why nothing was retrained", asJSON, code, stderr)
+		}
+		var got auditOut
+		if asJSON {
+			if err := json.Unmarshal([]byte(stdout), &got); err != nil || got.Associated != clean.Associated || got.Retrained != nil {
+				t.Errorf("--json: the audit printed is not the audit (%v): %d cues associated, %d without --retrain; retrained %v",
+					err, got.Associated, clean.Associated, got.Retrained)
+			}
+		} else if !strings.HasPrefix(stdout, "Cue audit of ") || strings.Contains(stdout, "Retrained without") {
+			t.Errorf("the text printed is not the audit alone:\n%.300s", stdout)
+		}
+		if _, err := os.Stat(export); err != nil {
+			t.Errorf("--json %v: --export was not written: %v", asJSON, err)
+		}
+		if _, err := os.Stat(retrained); err == nil {
+			t.Errorf("--retrain-out %s was written, with nothing retrained", retrained)
+		}
+	}
+	masked := filepath.Join(dir, "masked.tt")
+	code, stdout, stderr := tt(t, append(args, "--masked-out", masked)...)
+	if code != 1 || stdout == "" || !strings.Contains(stderr, "was not written") || strings.Contains(stderr, "(--retrain)") {
+		t.Errorf("--masked-out with nothing acted on: exit %d, stdout %d bytes, stderr %q; want 1, the audit, and no advice to use --retrain",
+			code, len(stdout), stderr)
+	}
 }
 
 // checkPlanted: the two planted cues are the first two artifact-like cues
@@ -143,6 +220,13 @@ func checkAuditText(t *testing.T, base []string, res *auditOut) {
 		t.Fatalf("the text does not open with what was audited and the story:\n%.2000s", out)
 	}
 	at := len(head) + len(res.Story)
+	// After the story, how many associated cues were measured, as the
+	// JSON counts them.
+	measured := fmt.Sprintf("\n\nOf the %s cues associated with a label in the training texts, %d had their reliance measured (--measure 40); the other %d",
+		count(res.Associated), res.Measured, res.Associated-res.Measured)
+	if end := len(head) + len("\n\n") + len(res.Story); res.Associated <= res.Measured || !strings.HasPrefix(out[end:], measured) {
+		t.Errorf("the story is not followed by %q (the demo has more associated cues than --measure's 40)", measured)
+	}
 	for _, list := range [][]audit.Candidate{res.Ranked, res.Task} {
 		for i := range list {
 			ev := report.DescribeCue(&list[i], &res.Result, nil)
@@ -622,6 +706,8 @@ func TestAuditRefusals(t *testing.T) {
 		want string
 	}{
 		{a("--seeds", "30"), 2, "--seeds 30: give at most 20"},
+		{a("--measure", "0"), 2, "--measure 0: give 1 or more"},
+		{[]string{"audit", "--model", f.model, "--mark-task", "ferry", "--measure", "5"}, 2, "--measure needs --data"},
 		{a("--seeds", "-1"), 2, "--seeds -1: give 0 or more"},
 		{a("--seeds", "2", "--models", f.model+"x"), 2, "give --seeds N or --models, not both"},
 		{a("--stable-in", "2"), 2, "--stable-in needs --seeds or --models"},

@@ -66,6 +66,9 @@ func writeAuditText(w io.Writer, v *auditView) error {
 		fmt.Fprintf(bw, "Warning: %s.\n\n", strings.TrimSuffix(w, "."))
 	}
 	fmt.Fprintf(bw, "%s\n", v.Story)
+	if line := measuredLine(r, v.o.measure); line != "" {
+		fmt.Fprintf(bw, "\n%s\n", line)
+	}
 	v.writeList(bw, fmt.Sprintf("Cues that look like how the data was collected (%d), those acted on first, then by reliance × artifact-likeness", len(r.Ranked)), r.Ranked)
 	v.writeList(bw, fmt.Sprintf("Relied on, reads like the task (%d): judge these yourself and mark any that is an artifact", len(r.Task)), r.Task)
 	v.writeStability(bw)
@@ -76,6 +79,50 @@ func writeAuditText(w io.Writer, v *auditView) error {
 		fmt.Fprintf(bw, "  %s\n", m)
 	}
 	return bw.Flush()
+}
+
+// measuredLine says how many of the associated cues had their reliance
+// measured (at most limit, --measure), and of those that were not, which
+// no list of the text shows, how many score as artifact-like; "" when no
+// cue is associated. That count is exact when the audit lists every cue
+// not measured (among its others, cut at --top), else it is of the most
+// associated of them, and worded so.
+func measuredLine(r *audit.Result, limit int) string {
+	if r.Associated == 0 {
+		return ""
+	}
+	assoc := wording.Grouped(r.Associated, "cue", "cues") + " associated with a label in the training texts"
+	rest := r.Associated - r.Measured
+	if rest == 0 {
+		return fmt.Sprintf("All %s had their reliance measured.", assoc)
+	}
+	listed, like := 0, 0
+	for i := range r.Others {
+		if c := &r.Others[i]; c.Verdict == audit.VerdictUnmeasured {
+			listed++
+			if c.ArtifactLike() {
+				like++
+			}
+		}
+	}
+	score := fmt.Sprintf("%s %s as artifact-like (%.2f or more)", count(like), wording.Noun(like, "scores", "score"), audit.ArtifactThreshold)
+	if like == 0 {
+		score = fmt.Sprintf("none scores as artifact-like (%.2f or more)", audit.ArtifactThreshold)
+	}
+	line := fmt.Sprintf("Of the %s, %s had %s reliance measured (--measure %d); the other %s are in no list below, ", assoc, count(r.Measured),
+		wording.Noun(r.Measured, "its", "their"), limit, count(rest))
+	if listed < rest {
+		line += fmt.Sprintf("and of the %s most associated of them (under others in the JSON, which a larger --top lengthens) %s.",
+			count(listed), score)
+	} else {
+		line += fmt.Sprintf("and of them %s.", score)
+	}
+	if r.Measured < limit {
+		// Every cue frequent enough was measured (audit's measure stops at
+		// the limit only).
+		return line + " They occur in too few of the choosing half's texts to be measured, so a larger --measure would not measure them."
+	}
+	return line + " A larger --measure N measures more of them (the marked cues first, then the most associated and the most artifact-like by turns), and takes longer."
 }
 
 // writeActions writes the commands that act on the audit here: keep the
@@ -146,7 +193,12 @@ func (v *auditView) writeStability(w io.Writer) {
 	}
 	fmt.Fprintf(w, "\nOver %d models (this one and %d more of its recipe): a cue is stable when acted on in at least %d of the audits.\n",
 		v.Stability[0].Models, v.Stability[0].Models-1, v.StableIn)
+	shown := 0
 	for _, s := range v.Stability {
+		if s.Found == 0 {
+			continue // listed, acted on in none: counted below
+		}
+		shown++
 		ranks := make([]string, len(s.Ranks))
 		for i, r := range s.Ranks {
 			ranks[i] = fmt.Sprint(r)
@@ -159,6 +211,17 @@ func (v *auditView) writeStability(w io.Writer) {
 			stable = ", stable"
 		}
 		fmt.Fprintf(w, "  acted on in %d of %d (ranks %s)%s: %s → %s\n", s.Found, s.Models, strings.Join(ranks, " "), stable, shellQuote(s.Text), s.Label)
+	}
+	if shown == 0 {
+		fmt.Fprintf(w, "  No cue was acted on in any of the %d audits.\n", v.Stability[0].Models)
+	}
+	if none := len(v.Stability) - shown; none > 0 {
+		where := "the JSON's stability lists them"
+		if v.o.stabilityPath() != "" {
+			where = "the JSON's stability and " + v.o.stabilityPath() + " list them"
+		}
+		fmt.Fprintf(w, "  Not shown: %s listed as artifact-like in an audit but acted on in none (%s).\n",
+			wording.Count(none, "more cue", "more cues"), where)
 	}
 }
 
