@@ -21,9 +21,10 @@ var cmdEval = &command{
 Wilson interval, macro-F1 with its 95% bootstrap interval over texts,
 per-class precision and recall (Wilson intervals) and F1 (bootstrap
 interval; an exact Clopper–Pearson interval where the texts pin an F1, a
-class with no error or nothing right) with support, weighted-F1, the confusion matrix (rows: gold
-label, columns: predicted) and the expected calibration error over
-equal-width confidence bins, both with bootstrap intervals. When the model
+class with no error or nothing right) with support, weighted-F1, the
+confusion matrix (rows: gold label, columns: predicted) and the expected
+calibration error over equal-width confidence bins, both with bootstrap
+intervals. When the model
 file carries the linear baseline train fits beside the CNN, the baseline's
 accuracy and macro-F1 are shown beside the CNN's, with the exact McNemar
 test between the two, and what to try where the baseline is significantly
