@@ -220,9 +220,9 @@ func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.T
 			}
 			bar.line("epoch %d/%d  loss %.4f%s  %.0f examples/s", p.Epoch, p.Epochs, p.Loss, dev, p.ExamplesPerSec)
 		case cnn.PhaseBaseline:
-			bar.line("fitting the linear baseline (TF-IDF n-grams + logistic regression, its C chosen on the dev split)…")
+			bar.line("fitting the linear baseline (TF-IDF n-grams + logistic regression, %s)…", chosenC(len(sp.dev.Examples)))
 		case cnn.PhaseWideFit:
-			bar.line("fitting the start of the word weights (logistic regression on them alone, %s)…", o.fitCWords())
+			bar.line("fitting the start of the word weights (logistic regression on them alone, %s)…", o.fitCWords(len(sp.dev.Examples)))
 		}
 	})
 	bar.done()
@@ -230,10 +230,20 @@ func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.T
 }
 
 // fitCWords says how the fitted start's C is set: --wide-fit-c's, or
-// chosen on the dev split.
-func (o *trainOptions) fitCWords() string {
+// chosen on the dev split of dev texts (chosenC).
+func (o *trainOptions) fitCWords(dev int) string {
 	if c := o.recipe.WideFitC; c > 0 {
 		return "at C " + fmtFloat(c) + " (--wide-fit-c)"
+	}
+	return chosenC(dev)
+}
+
+// chosenC says how a logistic regression's C is chosen: on the dev split
+// of dev texts, or, when it has none, the middle of the grid of Cs
+// (linear.RowsFit), as eval and the report say of the baseline's.
+func chosenC(dev int) string {
+	if dev == 0 {
+		return "its C the grid's middle: the dev split has no text to choose it on"
 	}
 	return "its C chosen on the dev split"
 }
