@@ -76,9 +76,12 @@ type metricsView struct {
 	// Figures: the CNN and, when the model carries one, its linear
 	// baseline, each with accuracy and macro-F1 and their intervals;
 	// McNemar says the test between the two ("" without a baseline).
-	Figures                      []figureRow
-	Level                        string
-	McNemar                      string
+	Figures []figureRow
+	Level   string
+	McNemar string
+	// BaselineStopped says, without a baseline, that training was stopped
+	// before it was fitted (cnn.Info.BaselineStopped), not trained without.
+	BaselineStopped              bool
 	Rows                         []classRow
 	Undefined                    string // DescribeUndefined: what "–" stands for and how macro-F1 counts the labels without a text
 	Labels                       []string
@@ -488,6 +491,8 @@ func metrics(in Input) (*metricsView, error) {
 		mv.Figures = append(mv.Figures, figureRow{Model: "Linear baseline", Note: baselineNote(in.Model),
 			Accuracy: fig.Baseline.Accuracy.String(), MacroF1: fig.Baseline.MacroF1.String()})
 		mv.McNemar = mcnemarLine(in.Model, *fig.McNemar)
+	} else if in.Model != nil {
+		mv.BaselineStopped = in.Model.Info.BaselineStopped
 	}
 	for i, c := range mt.PerClass {
 		ci := iv.PerClass[i]
