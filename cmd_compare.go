@@ -125,7 +125,8 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 		if err != nil {
 			return fmt.Errorf("%s: %w", o.paths[i], err)
 		}
-		row := compareRow{Model: o.paths[i], Metrics: met, Figures: cnn.FiguresOf(met, c), Intervals: cnn.IntervalsOf(met), Baseline: baselineOf(m, c)}
+		row := compareRow{Model: o.paths[i], Metrics: met, Figures: cnn.FiguresOf(met, c), Intervals: cnn.IntervalsOf(met), Baseline: baselineOf(m, c),
+			BaselineNote: missingBaseline(m)}
 		if i == 0 {
 			first = pred
 		} else {
@@ -207,6 +208,9 @@ type compareRow struct {
 	// precision, recall and F1.
 	Intervals cnn.MetricIntervals `json:"intervals"`
 	Baseline  *baselineJSON       `json:"baseline,omitempty"`
+	// BaselineNote says why the model carries no baseline, when training
+	// was stopped before it was fitted (missingBaseline).
+	BaselineNote string `json:"baseline_note,omitempty"`
 	// Flipped is the share of texts whose prediction differs from the first
 	// model's; FlippedInterval is its Wilson interval (nil for the first).
 	Flipped         float64       `json:"flipped_vs_first"`
@@ -285,9 +289,12 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 			"a label with no text here counts with F1 0 for a model that predicts it, and is left out for one that does not\n")
 	}
 	for i, r := range rows {
-		if r.Figures.Baseline != nil {
+		switch {
+		case r.Figures.Baseline != nil:
 			fmt.Fprintln(w)
 			writeFigures(w, fmt.Sprintf("model %d beside its linear baseline, %s", i+1, heading), r.Figures, r.Baseline)
+		case r.BaselineNote != "":
+			fmt.Fprintf(w, "\nmodel %d has no linear baseline: %s\n", i+1, r.BaselineNote)
 		}
 	}
 	return nil

@@ -108,6 +108,9 @@ type evalOutput struct {
 	// precision, recall and F1 (the headline's are in Figures).
 	Intervals cnn.MetricIntervals `json:"intervals"`
 	Baseline  *baselineJSON       `json:"baseline,omitempty"`
+	// BaselineNote says why the model carries no baseline, when training
+	// was stopped before it was fitted (missingBaseline).
+	BaselineNote string `json:"baseline_note,omitempty"`
 }
 
 func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
@@ -143,9 +146,10 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 	}
 	if o.asJSON {
 		return writeJSON(env.Stdout, evalOutput{Metrics: met, Split: es.name, SplitNote: es.note, Warnings: es.warnings, Figures: figures,
-			Intervals: cnn.IntervalsOf(met), Baseline: baselineOf(m, cmp)})
+			Intervals: cnn.IntervalsOf(met), Baseline: baselineOf(m, cmp), BaselineNote: missingBaseline(m)})
 	}
 	writeFigures(env.Stdout, splitHeading(es.name, met.N), figures, baselineOf(m, cmp))
+	writeMissingBaseline(env.Stdout, missingBaseline(m))
 	var why string
 	if len(es.warnings) > 0 {
 		why = "texts that the warnings say are not all held-out texts"

@@ -173,7 +173,7 @@ func runTrain(ctx context.Context, env *runEnv, o *trainOptions) error {
 	if !o.quiet {
 		printWarnings(env.Stderr, sp.all.LabelWarnings())
 	}
-	held := o.heldFilesInTraining(sp) // before --mask-tokens changes the training texts
+	held := o.heldTextsInTraining(sp) // before --mask-tokens changes the training texts
 	// The checks read the training split as it will be learned: with the
 	// --mask-tokens patterns taken out. TrainText takes them out itself
 	// (the recipe's MaskTokens, which the model file records).
@@ -220,9 +220,9 @@ func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.T
 			}
 			bar.line("epoch %d/%d  loss %.4f%s  %.0f examples/s", p.Epoch, p.Epochs, p.Loss, dev, p.ExamplesPerSec)
 		case cnn.PhaseBaseline:
-			bar.line("fitting the linear baseline (TF-IDF n-grams + logistic regression, its C chosen on the dev split)…")
+			bar.line("fitting the linear baseline (TF-IDF n-grams + logistic regression, %s)…", chosenC(len(sp.dev.Examples)))
 		case cnn.PhaseWideFit:
-			bar.line("fitting the start of the word weights (logistic regression on them alone, %s)…", o.fitCWords())
+			bar.line("fitting the start of the word weights (logistic regression on them alone, %s)…", o.fitCWords(len(sp.dev.Examples)))
 		}
 	})
 	bar.done()
@@ -230,10 +230,20 @@ func (o *trainOptions) fit(ctx context.Context, sp *splits, w io.Writer) (*cnn.T
 }
 
 // fitCWords says how the fitted start's C is set: --wide-fit-c's, or
-// chosen on the dev split.
-func (o *trainOptions) fitCWords() string {
+// chosen on the dev split of dev texts (chosenC).
+func (o *trainOptions) fitCWords(dev int) string {
 	if c := o.recipe.WideFitC; c > 0 {
 		return "at C " + fmtFloat(c) + " (--wide-fit-c)"
+	}
+	return chosenC(dev)
+}
+
+// chosenC says how a logistic regression's C is chosen: on the dev split
+// of dev texts, or, when it has none, the middle of the grid of Cs
+// (linear.RowsFit), as eval and the report say of the baseline's.
+func chosenC(dev int) string {
+	if dev == 0 {
+		return "its C the grid's middle: the dev split has no text to choose it on"
 	}
 	return "its C chosen on the dev split"
 }
@@ -354,8 +364,9 @@ type trainSummary struct {
 	TestFigures   *cnn.Figures         `json:"test_figures,omitempty"`
 	Baseline      *baselineJSON        `json:"baseline,omitempty"`
 	Splits        *cnn.SplitRecord     `json:"splits,omitempty"`
-	// Warnings say which of the dev and test files hold texts of the
-	// training split, and how many (heldFilesInTraining): such test figures
+	// Warnings say which of the dev and test splits (files, or shares of
+	// --data) hold texts of the training split, and how many
+	// (heldTextsInTraining): such test figures
 	// are not held-out figures. Absent when there are none; given with
 	// --quiet too.
 	Warnings []string `json:"warnings,omitempty"`
@@ -363,14 +374,14 @@ type trainSummary struct {
 	// text, as the model's recipe records them (info.recipe.mask_tokens).
 	MaskTokens     []string `json:"mask_tokens,omitempty"`
 	advice         string   // baselineAdvice, printed after the test split's figures
-	testInTraining int      // the texts of the test file that are training texts
+	testInTraining int      // the texts of the test split that are training texts
 }
 
 // devNote is train --json's dev_note, when the test split holds no
 // training text.
 const devNote = "the dev split chose the epoch (and the baseline's C): its figures flatter the model; the test split's do not"
 
-// devNoteOf is train --json's dev_note: devNote, unless the test file
+// devNoteOf is train --json's dev_note: devNote, unless the test split
 // holds training texts (held.test), whose figures flatter the model too.
 func devNoteOf(held heldInTraining) string {
 	if held.test == 0 {

@@ -44,6 +44,29 @@ func baselineOf(m *cnn.Model, c *cnn.Comparison) *baselineJSON {
 	return b
 }
 
+// baselineStopped is what eval, compare and the report say of a model
+// that carries no baseline because training was stopped before it was
+// fitted (cnn.Info.BaselineStopped), not trained without one.
+const baselineStopped = "training was stopped before the baseline was fitted"
+
+// missingBaseline is baselineStopped when m carries no baseline because
+// training was stopped before it was fitted; else "".
+func missingBaseline(m *cnn.Model) string {
+	if m.Baseline == nil && m.Info.BaselineStopped {
+		return baselineStopped
+	}
+	return ""
+}
+
+// writeMissingBaseline prints, under figures that writeFigures printed
+// without a baseline, why there is none (missingBaseline's why); nothing
+// when why is "".
+func writeMissingBaseline(w io.Writer, why string) {
+	if why != "" {
+		fmt.Fprintf(w, "  %-15s  none: %s\n", "linear baseline", why)
+	}
+}
+
 // evaluateBeside evaluates m on ds (its texts encoded with enc) and, when
 // m carries a baseline, the baseline on the same texts (c is nil
 // otherwise).

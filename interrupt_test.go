@@ -177,8 +177,24 @@ func TestInterruptKeepsBestModel(t *testing.T) {
 		if m.Info.BestEpoch < 1 {
 			t.Errorf("saved model records best epoch %d", m.Info.BestEpoch)
 		}
-		if code, outp, errs := tt(t, "eval", "--model", model, "--data", "testdata/demo/test.csv"); code != 0 || !strings.Contains(outp, "accuracy") {
-			t.Errorf("eval of the saved model: exit %d\n%s%s", code, outp, errs)
+		// Stopped before its baseline was fitted: the model records it, and
+		// eval and compare say so where the baseline's figures would be.
+		if m.Baseline != nil || !m.Info.BaselineStopped {
+			t.Errorf("saved model: baseline %v, baseline_stopped %v; want none, and it recorded", m.Baseline != nil, m.Info.BaselineStopped)
+		}
+		const none = "linear baseline  none: " + baselineStopped
+		if code, outp, errs := tt(t, "eval", "--model", model, "--data", "testdata/demo/test.csv"); code != 0 || !strings.Contains(outp, "accuracy") || !strings.Contains(outp, none) {
+			t.Errorf("eval of the saved model: exit %d, want %q\n%s%s", code, none, outp, errs)
+		}
+		var ev evalOutput
+		jsonOf(t, &ev, "eval", "--model", model, "--data", "testdata/demo/test.csv", "--json")
+		var rows []compareRow
+		jsonOf(t, &rows, "compare", "--models", model+","+model, "--data", "testdata/demo/test.csv", "--json")
+		if ev.BaselineNote != baselineStopped || len(rows) != 2 || rows[1].BaselineNote != baselineStopped {
+			t.Errorf("eval --json baseline_note %q, compare --json rows %+v; want %q", ev.BaselineNote, rows, baselineStopped)
+		}
+		if _, outp, _ := tt(t, "compare", "--models", model+","+model, "--data", "testdata/demo/test.csv"); !strings.Contains(outp, "model 2 has no linear baseline: "+baselineStopped) {
+			t.Errorf("compare of the saved model does not say why it has no baseline:\n%s", outp)
 		}
 		if got := listTree(t, out); fmt.Sprint(got) != "[model.tt]" {
 			t.Errorf("output folder holds %q, want only model.tt", got)

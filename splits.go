@@ -155,7 +155,8 @@ const mayHoldTraining = "may include texts the model was trained on"
 // those are (on warn unless quiet), then warns (the same; always in the
 // evalSet's warnings) when the texts are the model's training data or
 // hold texts of its training split (found in data, or without it in the
-// data file the model records: checkTraining), and when the recorded test
+// data file the model records: checkTraining; in the test split held out
+// of data, copies of them: checkShared), and when the recorded test
 // file changed since training; it refuses (a usage error) an empty set of
 // texts, and a --relabel label that the one file it is applied to lacks
 // (data, or test when data is "").
@@ -191,8 +192,8 @@ func findTestSplitOf(m *cnn.Model, path, data, test string, r *readOptions, warn
 	if es.train == nil {
 		es.train = es.all
 	}
-	// A test split train drew out of --data is the model's own held-out
-	// split; any other texts are checked.
+	// Any texts but the test split train drew out of --data are checked
+	// against the training split; that split, for copies of its texts.
 	switch {
 	case test != "":
 		es.checkTraining(rec, test, same, r)
@@ -200,6 +201,8 @@ func findTestSplitOf(m *cnn.Model, path, data, test string, r *readOptions, warn
 		es.checkTraining(rec, rec.TestFile, same, r)
 	case !same:
 		es.checkTraining(rec, data, same, r)
+	default:
+		es.checkShared(rec, data)
 	}
 	es.warnCuesChosen(&m.Info) // last: compare gives the other models their own (cueWarnings)
 	// The note first: the warnings are about the texts it names.
@@ -361,6 +364,20 @@ func (es *evalSet) checkTraining(rec *cnn.SplitRecord, name string, same bool, r
 	} else if train == nil {
 		es.note += "; whether they hold texts of the model's training split cannot be checked: " + why
 	}
+}
+
+// checkShared warns when the test split train held out of data (the
+// model's data, rec its splits) holds texts of the training split as
+// well, copies in data (inTraining: the exact text, as telltale data
+// counts its leaks), and says so in the note, which calls the split
+// unused for training.
+func (es *evalSet) checkShared(rec *cnn.SplitRecord, data string) {
+	n := inTraining(es.test, es.train)
+	if n == 0 {
+		return
+	}
+	es.warnings = append(es.warnings, sharedWarning("test", data, rec, n, len(es.test.Examples), "its figures are not all held-out figures"))
+	es.note += fmt.Sprintf("; but %d of them are texts of the training split as well", n)
 }
 
 // recordedTraining is the training split of the model whose split record

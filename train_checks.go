@@ -5,6 +5,7 @@ import (
 	"io"
 	"strings"
 
+	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/internal/wording"
 )
@@ -15,7 +16,7 @@ import (
 // dev split, unless --force; dev or test labels the training split lacks;
 // an empty vocabulary; and a model too large for the machine's memory. It
 // warns of an empty test split, and of a dev or test file that holds
-// texts of the training split (held).
+// texts of the training split, or a share of --data that does (held).
 func (o *trainOptions) checkData(sp *splits, held heldInTraining, w io.Writer) error {
 	all := sp.all
 	if n, k := len(all.Examples), len(all.Labels); k > 2 && 2*k > n && !o.force {
@@ -43,38 +44,73 @@ func (o *trainOptions) checkData(sp *splits, held heldInTraining, w io.Writer) e
 	return o.checkVocabulary(sp)
 }
 
-// heldInTraining is what heldFilesInTraining found: the warnings, and how
-// many texts of the dev and test files are texts of the training split.
+// heldInTraining is what heldTextsInTraining found: the warnings, and how
+// many texts of the dev and test splits are texts of the training split.
 type heldInTraining struct {
 	warnings  []string
 	dev, test int
 }
 
-// heldFilesInTraining says, for the dev file (--dev) and the test file
-// (--test) when given, how many of their texts are also texts of the
-// training split (inTraining): such a test file's figures are not
-// held-out figures, and such a dev file chooses the epoch on texts the
-// model learned. Nothing is said of a held-out share of --data.
-func (o *trainOptions) heldFilesInTraining(sp *splits) heldInTraining {
+// heldTextsInTraining says, for the dev split and the test split, how
+// many of their texts are also texts of the training split (inTraining,
+// the exact text, as telltale data counts its leaks): such a test split's
+// figures are not held-out figures, and such a dev split chooses the epoch
+// on texts the model learned. A split given as a file (--dev, --test) is
+// named by its file; one held out of --data holds such texts when --data
+// holds copies of a text (sharedWarning).
+func (o *trainOptions) heldTextsInTraining(sp *splits) heldInTraining {
 	var h heldInTraining
 	for _, f := range []struct {
-		opt, path, use string
-		ds             *corpus.Dataset
-		n              *int
+		opt, path, which, use string
+		ds                    *corpus.Dataset
+		n                     *int
 	}{
-		{"--dev", o.split.Dev, "the epoch it chooses is chosen on texts the model learned", sp.dev, &h.dev},
-		{"--test", o.split.Test, "its figures are not held-out figures", sp.test, &h.test},
+		{"--dev", o.split.Dev, "dev", "the epoch it chooses is chosen on texts the model learned", sp.dev, &h.dev},
+		{"--test", o.split.Test, "test", "its figures are not held-out figures", sp.test, &h.test},
 	} {
-		if f.path == "" {
+		if *f.n = inTraining(f.ds, sp.train); *f.n == 0 {
 			continue
 		}
-		if *f.n = inTraining(f.ds, sp.train); *f.n > 0 {
-			h.warnings = append(h.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the training split of %s: %s; "+
-				"take them out of one of the files ('telltale data --data %s %s %s' lists them)",
-				f.opt, f.path, *f.n, wording.Texts(len(f.ds.Examples)), o.data, f.use, o.data, f.opt, f.path))
+		if f.path == "" {
+			h.warnings = append(h.warnings, sharedWarning(f.which, o.data, &sp.record, *f.n, len(f.ds.Examples), f.use))
+			continue
 		}
+		h.warnings = append(h.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the training split of %s: %s; "+
+			"take them out of one of the files ('telltale data --data %s %s %s' lists them)",
+			f.opt, f.path, *f.n, wording.Texts(len(f.ds.Examples)), o.data, f.use, o.data, f.opt, f.path))
 	}
 	return h
+}
+
+// sharedWarning is the warning that the dev or test split (which) held
+// out of data, the splits of rec, holds n texts (of its total) that are
+// texts of the training split too: data holds copies of them, and the
+// split drew some; use says what follows for the split.
+func sharedWarning(which, data string, rec *cnn.SplitRecord, n, total int, use string) string {
+	return fmt.Sprintf("the %s split held out of %s: %d of its %s are texts of the training split as well (%s holds copies of them): %s; "+
+		"keep one copy of each text in %s ('telltale data --data %s%s' lists the copies as LEAK)",
+		which, data, n, wording.Texts(total), data, use, data, data, splitFlags(rec))
+}
+
+// splitFlags are the options, after --data, that make rec's dev and test
+// splits again (those not at their default), for telltale data.
+func splitFlags(rec *cnn.SplitRecord) string {
+	var b strings.Builder
+	for _, s := range []struct {
+		opt, file string
+		frac, def float64
+	}{{"dev", rec.DevFile, rec.DevFrac, cnn.DefaultDevFrac}, {"test", rec.TestFile, rec.TestFrac, cnn.DefaultTestFrac}} {
+		switch {
+		case s.file != "":
+			fmt.Fprintf(&b, " --%s %s", s.opt, s.file)
+		case s.frac != s.def:
+			fmt.Fprintf(&b, " --%s-frac %g", s.opt, s.frac)
+		}
+	}
+	if rec.Seed != cnn.DefaultRecipe().Train.Seed && (rec.DevFrac > 0 || rec.TestFrac > 0) {
+		fmt.Fprintf(&b, " --seed %d", rec.Seed)
+	}
+	return b.String()
 }
 
 // checkVocabulary tokenizes the training split as training will and

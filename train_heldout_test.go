@@ -3,10 +3,14 @@ package main
 import (
 	"encoding/csv"
 	"fmt"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"telltale/cnn"
+	"telltale/corpus"
 )
 
 // TestTrainWarnsOfHeldFilesInTraining: a dev or test file that holds texts
@@ -98,4 +102,104 @@ func writeRecords(t *testing.T, path string, recs [][]string) string {
 		t.Fatal(err)
 	}
 	return path
+}
+
+// sharedData writes to dir a two-label CSV file of n distinct texts, each
+// 8 words drawn (seeded) from a list of 40 letters-only words plus a word
+// of its label, so that no two texts are near-exact duplicates either;
+// with copies, the first copies texts written again after them. It
+// returns its path.
+func sharedData(t *testing.T, dir string, n, copies int) string {
+	t.Helper()
+	words := strings.Fields("alpha bravo charlie delta echo foxtrot golf hotel india juliet kilo lima mike november " +
+		"oscar papa quebec romeo sierra tango uniform victor whiskey xray yankee zulu apple berry cherry grape lemon mango " +
+		"melon olive peach pear plum quince raisin sloe")
+	r := rand.New(rand.NewPCG(3, 0))
+	recs := [][]string{{"text", "label"}}
+	seen := map[string]bool{}
+	for len(recs) <= n {
+		label, cue := "ham", "meeting"
+		if len(recs)%2 == 0 {
+			label, cue = "spam", "offer"
+		}
+		w := []string{cue}
+		for range 8 {
+			w = append(w, words[r.IntN(len(words))])
+		}
+		r.Shuffle(len(w), func(i, j int) { w[i], w[j] = w[j], w[i] })
+		if text := strings.Join(w, " "); !seen[text] {
+			seen[text] = true
+			recs = append(recs, []string{text, label})
+		}
+	}
+	recs = append(recs, recs[1:1+copies]...)
+	return writeRecords(t, filepath.Join(dir, fmt.Sprintf("shared%d.csv", copies)), recs)
+}
+
+// TestSharedTextsInTrainingAreWarnedOf: when --data holds copies of a
+// text, the dev and test splits train holds out of it may draw a copy
+// whose twin is in the training split. train warns of each such split
+// with the count of those texts, and eval and compare warn of the test
+// split, in their JSON too; the counts are those of the seeded split
+// counted here, and together those telltale data reports as leaks (its
+// exact duplicates; the texts have no near-exact ones). The same data
+// without the copies gets no warning.
+func TestSharedTextsInTrainingAreWarnedOf(t *testing.T) {
+	dir := t.TempDir()
+	for _, copies := range []int{0, 60} {
+		data := sharedData(t, dir, 200, copies)
+		all := loadExamples(t, data)
+		train, dev, test := all.SplitThree(cnn.DefaultDevFrac, cnn.DefaultTestFrac, cnn.DefaultRecipe().Train.Seed)
+		inTrain := map[string]bool{}
+		for _, e := range train.Examples {
+			inTrain[e.Text] = true
+		}
+		count := func(d *corpus.Dataset) (n int) {
+			for _, e := range d.Examples {
+				if inTrain[e.Text] {
+					n++
+				}
+			}
+			return n
+		}
+		wantDev, wantTest := count(dev), count(test)
+		if copies > 0 && (wantDev == 0 || wantTest == 0) {
+			t.Fatalf("%d copies: the seeded split puts %d in dev and %d in test; want some in each", copies, wantDev, wantTest)
+		}
+		var sum corpus.Summary
+		jsonOf(t, &sum, "data", "--data", data, "--json")
+		if sum.Leaks != wantDev+wantTest {
+			t.Errorf("%d copies: telltale data counts %d leaks, the split %d in dev and %d in test", copies, sum.Leaks, wantDev, wantTest)
+		}
+		model := filepath.Join(dir, fmt.Sprintf("m%d.tt", copies))
+		var ts trainSummary
+		stderr := jsonOf(t, &ts, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--json")
+		noCrash(t, "train", stderr)
+		var ev evalOutput
+		jsonOf(t, &ev, "eval", "--model", model, "--data", data, "--json")
+		other := filepath.Join(dir, fmt.Sprintf("other%d.tt", copies))
+		trainSmall(t, data, other, "--seed", "2")
+		var rows []compareRow
+		jsonOf(t, &rows, "compare", "--models", model+","+other, "--data", data, "--json")
+		if copies == 0 {
+			if len(ts.Warnings) != 0 || len(ev.Warnings) != 0 || len(rows) != 2 || len(rows[0].Warnings) != 0 {
+				t.Errorf("no copies: train warns %q, eval %q, compare %+v", ts.Warnings, ev.Warnings, rows)
+			}
+			continue
+		}
+		devWarn := fmt.Sprintf("the dev split held out of %s: %d of its %d texts are texts of the training split as well", data, wantDev, len(dev.Examples))
+		testWarn := fmt.Sprintf("the test split held out of %s: %d of its %d texts are texts of the training split as well", data, wantTest, len(test.Examples))
+		if len(ts.Warnings) != 2 || !strings.HasPrefix(ts.Warnings[0], devWarn) || !strings.HasPrefix(ts.Warnings[1], testWarn) {
+			t.Errorf("train --json warnings %q, want them to start %q and %q", ts.Warnings, devWarn, testWarn)
+		}
+		if !strings.Contains(ts.DevNote, fmt.Sprintf("as %d texts of it are texts of the training split", wantTest)) {
+			t.Errorf("train --json dev_note %q does not count the test split's %d training texts", ts.DevNote, wantTest)
+		}
+		if len(ev.Warnings) != 1 || !strings.HasPrefix(ev.Warnings[0], testWarn) || strings.HasSuffix(ev.SplitNote, "to choose the epoch") {
+			t.Errorf("eval --json: warnings %q, want one starting %q; note %q", ev.Warnings, testWarn, ev.SplitNote)
+		}
+		if len(rows) != 2 || len(rows[0].Warnings) != 1 || !strings.HasPrefix(rows[0].Warnings[0], testWarn) {
+			t.Errorf("compare --json: rows %+v, want the first warned %q", rows, testWarn)
+		}
+	}
 }

@@ -186,6 +186,12 @@ type Info struct {
 	Version string `json:"version,omitempty"`
 	// Notes holds free-form facts callers want kept with the model.
 	Notes map[string]string `json:"notes,omitempty"`
+	// BaselineStopped records that training was stopped (its context
+	// cancelled) before the linear baseline its recipe asked for was
+	// fitted (TrainText): the model carries none, although it was not
+	// trained without one. False in model files written before it was
+	// recorded.
+	BaselineStopped bool `json:"baseline_stopped,omitempty"`
 	// CuesChosenOn, on a model retrained without cues (audit
 	// --retrain-out, the window's retraining) or masked as an audit
 	// suggested (audit --masked-out, the window's masked copy), are the

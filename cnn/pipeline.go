@@ -72,7 +72,8 @@ const PhaseWideFit = "wide-fit"
 //
 // With r.Baseline it then fits the linear baseline into Model.Baseline
 // (reporting Phase PhaseBaseline first); a cancellation during that fit
-// keeps the trained CNN and leaves Model.Baseline nil.
+// keeps the trained CNN and leaves Model.Baseline nil. A run cancelled
+// before the baseline was fitted records so (Info.BaselineStopped).
 //
 // The patterns of r.Train.MaskTokens are taken out of the training and
 // dev texts first (the CNN and the baseline learn from the masked copy, and
@@ -137,13 +138,17 @@ func TrainText(ctx context.Context, train, dev *corpus.Dataset, r Recipe, progre
 	// Later texts are cut to the length the model was trained on, as the
 	// encoder of a loaded model (Model.Encoder) does.
 	out.Encoder.MaxTokens = m.Info.Recipe.MaxLen
+	if r.Baseline != nil && res.Cancelled {
+		m.Info.BaselineStopped = true
+	}
 	if r.Baseline != nil && !res.Cancelled {
 		if progress != nil {
 			progress(Progress{Phase: PhaseBaseline})
 		}
 		if m.Baseline, err = fitBaseline(ctx, enc.Tok, train, dev, train.Labels, *r.Baseline, *m.Info.Recipe); err != nil {
 			if ctx.Err() != nil {
-				return out, nil // cancelled: the CNN is kept, the baseline left out
+				m.Info.BaselineStopped = true // cancelled: the CNN is kept, the baseline left out
+				return out, nil
 			}
 			return nil, err
 		}

@@ -132,6 +132,9 @@ type kindedError struct {
 	msg  string
 	kind error
 	line int // the line errAt named; 0 for the whole file
+	// emptyLabel marks the error of an empty label, which Stream words
+	// again when the label column looks like text (labelSample).
+	emptyLabel bool
 }
 
 func (e *kindedError) Error() string { return e.msg }

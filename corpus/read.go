@@ -127,11 +127,13 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 	ws := &warnings{path: path}
 	labels := map[string]int{}
 	n := 0
+	var sample labelSample
 	count := func(e Example) error {
 		n++
 		if len(labels) < 2 {
 			labels[e.Label]++
 		}
+		sample.add(e.Label)
 		return fn(e)
 	}
 	switch format {
@@ -161,7 +163,7 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 		return nil, errAt(path, 0, ErrFormat, "unknown format %q: use csv, tsv, jsonl or dir", format)
 	}
 	if err != nil {
-		return ws.result(), err
+		return ws.result(), sample.hint(err)
 	}
 	if n == 0 && format == "dir" {
 		return ws.result(), errAt(path, 0, ErrEmpty, "no examples found in the folder: a data folder holds one sub-folder per label, each with one .txt file per example; "+
@@ -182,6 +184,51 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 		return ws.result(), errAt(path, 0, ErrLabel, "only one label %s in %s: a classifier needs at least two labels; %s", quote(only), wording.Count(n, "example", "examples"), fix)
 	}
 	return ws.result(), nil
+}
+
+// labelSample holds the distinct labels (by their hash) of the first
+// labelSampleSize examples read, to tell a label column that holds texts.
+type labelSample struct {
+	n        int
+	distinct map[uint64]bool
+}
+
+// labelSampleSize is the number of examples a labelSample looks at; the
+// distinct labels a label column that holds texts has beyond it tell
+// nothing more, and would only take memory.
+const labelSampleSize = 1000
+
+// add counts label, among the first labelSampleSize examples.
+func (s *labelSample) add(label string) {
+	if s.n >= labelSampleSize {
+		return
+	}
+	if s.distinct == nil {
+		s.distinct = map[uint64]bool{}
+	}
+	s.n++
+	s.distinct[hashString(label)] = true
+}
+
+// looksLikeText reports whether the labels seen look like texts: more
+// than 50 distinct labels, and more than half of the examples seen (at
+// most the first labelSampleSize) with a label no other has. A label set
+// of a classifier is smaller, and its labels repeat.
+func (s *labelSample) looksLikeText() bool {
+	return len(s.distinct) > 50 && 2*len(s.distinct) > s.n
+}
+
+// hint adds to the error of an empty label, when the labels read before
+// it look like texts, that the text and label columns may be swapped;
+// any other error is returned as is.
+func (s *labelSample) hint(err error) error {
+	var ke *kindedError
+	if !errors.As(err, &ke) || !ke.emptyLabel || !s.looksLikeText() {
+		return err
+	}
+	return &kindedError{msg: fmt.Sprintf("%s; the label column looks like text (%d distinct labels among the first %s): "+
+		"the columns may be swapped: check that --text-col names the text column and --label-col the label column",
+		ke.msg, len(s.distinct), wording.Count(s.n, "example", "examples")), kind: ke.kind, line: ke.line}
 }
 
 func detectFormat(path string, dir bool) string {
@@ -362,7 +409,9 @@ func makeExample(text, label, path, file string, line, labelLine int, opt Option
 	}
 	label = strings.TrimSpace(label)
 	if label == "" && !opt.Unlabeled {
-		return Example{}, false, errAt(path, labelLine, ErrLabel, "empty label: give every example a label, or remove the record")
+		err := errAt(path, labelLine, ErrLabel, "empty label: give every example a label, or remove the record")
+		err.(*kindedError).emptyLabel = true
+		return Example{}, false, err
 	}
 	if !opt.Unlabeled && strings.IndexFunc(label, unicode.IsControl) >= 0 {
 		return Example{}, false, errAt(path, labelLine, ErrLabel,

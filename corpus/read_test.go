@@ -503,3 +503,53 @@ func loadBytesOf(t *testing.T) func(string, Options) (*Dataset, []Warning, error
 		return LoadBytes(path, b, opt)
 	}
 }
+
+// TestEmptyLabelHintsAtSwappedColumns: an empty label after labels that
+// look like texts (here 60 texts as labels, each its own; more than 50
+// distinct and more than half of the examples) says that the text and
+// label columns may be swapped, naming both options, in CSV and JSON
+// Lines; after 60 examples of two labels, or 40 distinct labels (fewer
+// than 51), it does not. A text given as the label column is the common
+// cause of an empty label there: an empty text.
+func TestEmptyLabelHintsAtSwappedColumns(t *testing.T) {
+	const hint = "the columns may be swapped: check that --text-col names the text column and --label-col the label column"
+	csvOf := func(n int, label func(i int) string) string {
+		var b strings.Builder
+		b.WriteString("label,text\n")
+		for i := range n {
+			fmt.Fprintf(&b, "%s,review %d\n", label(i), i)
+		}
+		b.WriteString(" ,x\n")
+		return b.String()
+	}
+	jsonlOf := func(n int, label func(i int) string) string {
+		var b strings.Builder
+		for i := range n {
+			fmt.Fprintf(&b, "{\"text\":\"x\",\"label\":\"%s\"}\n", label(i))
+		}
+		b.WriteString("{\"text\":\"x\",\"label\":\"\"}\n")
+		return b.String()
+	}
+	text := func(i int) string { return fmt.Sprintf("a fine phone number %c%c", 'a'+i%26, 'a'+i/26) }
+	two := func(i int) string { return []string{"pos", "neg"}[i%2] }
+	cases := []struct {
+		name, file, content string
+		line                int
+		want                bool
+	}{
+		{"texts as labels", "a.csv", csvOf(60, text), 62, true},
+		{"texts as labels, JSON Lines", "a.jsonl", jsonlOf(60, text), 61, true},
+		{"two labels", "a.csv", csvOf(60, two), 62, false},
+		{"40 distinct labels", "a.csv", csvOf(40, text), 42, false},
+	}
+	for _, c := range cases {
+		p := writeFile(t, t.TempDir(), c.file, c.content)
+		_, _, err := Load(p, Options{TextCol: "text", LabelCol: "label"})
+		if err == nil || !errors.Is(err, ErrLabel) || !strings.Contains(err.Error(), fmt.Sprintf("line %d: empty label", c.line)) {
+			t.Fatalf("%s: error %v, want an empty label on line %d", c.name, err, c.line)
+		}
+		if got := strings.Contains(err.Error(), hint); got != c.want {
+			t.Errorf("%s: hint %v, want %v: %v", c.name, got, c.want, err)
+		}
+	}
+}

@@ -76,9 +76,12 @@ type metricsView struct {
 	// Figures: the CNN and, when the model carries one, its linear
 	// baseline, each with accuracy and macro-F1 and their intervals;
 	// McNemar says the test between the two ("" without a baseline).
-	Figures                      []figureRow
-	Level                        string
-	McNemar                      string
+	Figures []figureRow
+	Level   string
+	McNemar string
+	// BaselineStopped says, without a baseline, that training was stopped
+	// before it was fitted (cnn.Info.BaselineStopped), not trained without.
+	BaselineStopped              bool
 	Rows                         []classRow
 	Undefined                    string // DescribeUndefined: what "–" stands for and how macro-F1 counts the labels without a text
 	Labels                       []string
@@ -165,14 +168,15 @@ func layout(in Input) (*page, error) {
 
 // recipeExtras are the rows of the training table for the settings only
 // some recipes have: the word weights' rate and start, and the patterns
-// taken out of the training text (train --mask-tokens).
-func recipeExtras(r *cnn.TrainConfig, c cnn.Config) []kv {
+// taken out of the training text (train --mask-tokens). noDev says that
+// the dev split had no text (to choose a C on).
+func recipeExtras(r *cnn.TrainConfig, c cnn.Config, noDev bool) []kv {
 	var rows []kv
 	if c.Wide {
 		rows = append(rows, kv{"Learning rate of the word weights", fmt.Sprintf("%g × the rest's", cmp.Or(r.WideLR, 1))})
 	}
 	if c.Wide && r.WideFit {
-		rows = append(rows, kv{"Start of the word weights", shrunk(r.WideFitShrink) + "the logistic regression fitted on them alone (" + fitC(r.WideFitC) + "); the filters joined from zero"})
+		rows = append(rows, kv{"Start of the word weights", shrunk(r.WideFitShrink) + "the logistic regression fitted on them alone (" + fitC(r.WideFitC, noDev) + "); the filters joined from zero"})
 	}
 	if len(r.MaskTokens) > 0 {
 		rows = append(rows, kv{"Taken out of the training text (--mask-tokens)", strings.Join(r.MaskTokens, "   ")})
@@ -226,7 +230,7 @@ func recipe(in Input) recipeView {
 			{"Embeddings frozen", yesNo(r.FreezeEmb)},
 			{"Seed", fmt.Sprint(r.Seed)},
 		}
-		rv.Train = append(rv.Train, recipeExtras(r, c)...)
+		rv.Train = append(rv.Train, recipeExtras(r, c, info.Splits != nil && info.Splits.Dev == 0)...)
 	}
 	if info.BestEpoch > 0 {
 		rv.Train = append(rv.Train, kv{"Weights kept from epoch", fmt.Sprint(info.BestEpoch) + averaged(info.Recipe)})
@@ -324,10 +328,14 @@ func averaged(r *cnn.TrainConfig) string {
 }
 
 // fitC says how the fitted start's C (cnn.TrainConfig.WideFitC) was set:
-// fixed in the recipe, or chosen on the dev split (0).
-func fitC(c float64) string {
-	if c > 0 {
+// fixed in the recipe, or chosen on the dev split (0); without a dev text
+// (noDev), the middle of the grid, as the baseline's (baselineNote).
+func fitC(c float64, noDev bool) string {
+	switch {
+	case c > 0:
 		return fmt.Sprintf("C %g, fixed", c)
+	case noDev:
+		return "C the middle of the grid: there was no dev split"
 	}
 	return "C chosen on the dev split"
 }
@@ -483,6 +491,8 @@ func metrics(in Input) (*metricsView, error) {
 		mv.Figures = append(mv.Figures, figureRow{Model: "Linear baseline", Note: baselineNote(in.Model),
 			Accuracy: fig.Baseline.Accuracy.String(), MacroF1: fig.Baseline.MacroF1.String()})
 		mv.McNemar = mcnemarLine(in.Model, *fig.McNemar)
+	} else if in.Model != nil {
+		mv.BaselineStopped = in.Model.Info.BaselineStopped
 	}
 	for i, c := range mt.PerClass {
 		ci := iv.PerClass[i]

@@ -359,6 +359,21 @@ func TestBaselineBesideTheCNN(t *testing.T) {
 	if strings.Contains(out, "Linear baseline") || !strings.Contains(out, "The model file carries no linear baseline") {
 		t.Error("a report without the baseline shows one, or does not say it is missing")
 	}
+	// A model whose training was stopped before its baseline was fitted
+	// says so, and does not advise training with the baseline it was
+	// trained with.
+	stopped := d.model.Clone()
+	stopped.Baseline, stopped.Info.BaselineStopped = nil, true
+	in.Model = stopped
+	if r, err = New(in); err != nil {
+		t.Fatal(err)
+	}
+	out = html.UnescapeString(render(t, r))
+	if !strings.Contains(out, "carries no linear baseline, so the CNN is not shown beside one: training was stopped before the baseline was fitted") ||
+		strings.Contains(out, "--baseline=false") {
+		t.Error("a report of a model stopped before its baseline was fitted does not say so, or advises --baseline=false")
+	}
+	in.Model = d.model
 	other := *want
 	other.CNN.N++
 	in.Baseline = &other
