@@ -45,7 +45,10 @@
 //     time), a label share implausibly high at high support; and, when the
 //     selection half of the held-out split has one, a shift of the cue's
 //     label share (question 4 of the design: strong extra evidence, one
-//     signal among the others; the confirmation half takes no part in it).
+//     signal among the others; the confirmation half takes no part in it;
+//     two-sided Fisher, Benjamini–Hochberg over the candidates tested, q
+//     below 0.01, so that no chance shift among hundreds makes a cue
+//     artifact-like).
 //
 // # Two halves
 //
@@ -95,7 +98,7 @@
 //	            net_flip_rate, prob_drop, label_drop, decided, p, flip_p, …}
 //	            (confirmation half; reliance_selection: the same on the
 //	            selection half), shift {heldout_texts, heldout_share,
-//	            train_share, p, present} (selection half), filters {keyed,
+//	            train_share, p, q, present} (selection half), filters {keyed,
 //	            ablation}, score, mark,
 //	            verdict, pattern
 //	relied_on_reads_like_the_task[]   the same fields
