@@ -52,7 +52,16 @@ func signedDrop(x Interval) string {
 
 // accuracy writes an accuracy with its interval: "0.912 (0.890–0.931)".
 func accuracy(x Interval) string {
-	return fmt.Sprintf("%.3f (%.3f–%.3f)", x.Estimate, x.Low, x.High)
+	return dec3(x.Estimate) + " (" + dec3(x.Low) + "–" + dec3(x.High) + ")"
+}
+
+// dec3 writes x with three decimals, and a value that rounds to 0 as
+// "0.000", never "-0.000".
+func dec3(x float64) string {
+	if s := fmt.Sprintf("%.3f", x); s != "-0.000" {
+		return s
+	}
+	return "0.000"
 }
 
 // snippet quotes text i of d around occurrence s, the cue in [brackets].
@@ -385,9 +394,7 @@ func cueNumbers(ns []int) string {
 }
 
 // wordPart writes a word-weight part with its interval: "0.412 (0.390–0.433)".
-func wordPart(x Interval) string {
-	return fmt.Sprintf("%.3f (%.3f–%.3f)", x.Estimate, x.Low, x.High)
-}
+func wordPart(x Interval) string { return accuracy(x) }
 
 // quoted writes words in quotes, comma-separated.
 func quoted(words []string) string {
@@ -465,9 +472,8 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	} else if cr != nil {
 		p("   reliance: replacing it changes %s of %d confirming texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
 			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), interval(cr.NetFlipRate), pval(cr.FlipP))
-		p("     p(%s) drops %.3f (%.3f–%.3f) on average, p(prediction) %.3f (%.3f–%.3f); p(%s) falls in %s, rises in %d (sign test p = %s)\n", c.Label,
-			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, c.Label,
-			wording.Texts(cr.Lower), cr.Higher, pval(cr.P))
+		p("     p(%s) drops %s on average, p(prediction) %s; p(%s) falls in %s, rises in %d (sign test p = %s)\n", c.Label,
+			accuracy(cr.LabelDrop), accuracy(cr.ProbDrop), c.Label, wording.Texts(cr.Lower), cr.Higher, pval(cr.P))
 		for _, ex := range cr.Examples {
 			p("     %s → %s (gold %s): %s\n", ex.Pred, ex.After, ex.Gold, ex.Snippet)
 		}

@@ -246,3 +246,20 @@ func TestStoryOneFlipRate(t *testing.T) {
 		}
 	}
 }
+
+// Figures with three decimals never read "-0.000": a value that rounds to
+// 0 from below is written 0.000, others as they are.
+func TestDec3(t *testing.T) {
+	for _, c := range []struct {
+		x    Interval
+		want string
+	}{
+		{Interval{Estimate: -1e-7, Low: -3e-7, High: 2e-7}, "0.000 (0.000–0.000)"},
+		{Interval{Estimate: 0.065, Low: 0.033, High: 0.108}, "0.065 (0.033–0.108)"},
+		{Interval{Estimate: -0.0126, Low: -0.0304, High: 0.0004}, "-0.013 (-0.030–0.000)"},
+	} {
+		if got := accuracy(c.x); got != c.want {
+			t.Errorf("accuracy(%+v) = %q, want %q", c.x, got, c.want)
+		}
+	}
+}

@@ -190,9 +190,16 @@ func interval(x audit.Interval) string {
 	return pct(x.Estimate) + " (" + strings.TrimSuffix(pct(x.Low), "%") + "–" + pct(x.High) + ")"
 }
 
-// drop writes a difference of probabilities with its interval.
+// drop writes a difference of probabilities with its interval; a value
+// that rounds to 0 is "0.000", never "-0.000".
 func drop(x audit.Interval) string {
-	return num(x.Estimate) + " (" + num(x.Low) + " to " + num(x.High) + ")"
+	z := func(v float64) string {
+		if s := num(v); s != "-0.000" {
+			return s
+		}
+		return "0.000"
+	}
+	return z(x.Estimate) + " (" + z(x.Low) + " to " + z(x.High) + ")"
 }
 
 // accuracy writes an accuracy with its interval.
