@@ -166,6 +166,24 @@ func (c *Candidate) measuredWhy() string {
 	return strings.Join(says, "; ")
 }
 
+// NotRuledOut says, for a ConfidenceOnly cue, what the confirmation half
+// does not rule out: the model's confidence in the cue's label rests on it
+// there though no prediction changed (or none measurably beyond the
+// control), and with so few texts a flip rate up to its interval's upper
+// bound is not ruled out. It is "" for any other cue.
+func (c *Candidate) NotRuledOut() string {
+	cr := c.Confirmed
+	if !c.ConfidenceOnly || cr == nil || cr.Measured == 0 {
+		return ""
+	}
+	changed := "though no prediction changed"
+	if cr.FlipRate.Estimate > 0 {
+		changed = "though its predictions did not change measurably beyond the control"
+	}
+	return fmt.Sprintf("the model's confidence in %s rests on it on its confirming texts, %s: with %s, a flip rate up to %s is not ruled out",
+		c.Label, changed, wording.Count(cr.Measured, "text", "texts"), fmtPct(cr.FlipRate.High))
+}
+
 // Story tells the audit in plain words: the cues the model relies on that
 // look like how the data was collected, why, what the model scores without
 // them and what to do; then the cues it relies on that read like the task.
@@ -183,10 +201,22 @@ func (r *Result) writeStory(w io.Writer) {
 			acted = append(acted, &r.Ranked[k])
 		}
 	}
-	if len(acted) == 0 {
+	var unsettled []*Candidate
+	for k := range r.Ranked {
+		if r.Ranked[k].NotRuledOut() != "" {
+			unsettled = append(unsettled, &r.Ranked[k])
+		}
+	}
+	switch {
+	case len(acted) == 0 && len(unsettled) > 0:
+		p("No cue that looks like how the data was collected changes this model's predictions measurably on the\n")
+		p("confirming half of the test texts, which took no part in choosing it, so the audit acts on none; but that\n")
+		p("does not rule out the cues below, which also look like how the data was collected:\n")
+		r.writeNotRuledOut(p, unsettled)
+	case len(acted) == 0:
 		p("No cue that looks like how the data was collected changes this model's predictions measurably on the\n")
 		p("confirming half of the test texts, which took no part in choosing it: there is nothing to act on.\n")
-	} else {
+	default:
 		p("The model depends on %s that look%s like how the data was collected rather than like the task:\n",
 			wording.Count(len(acted), "cue", "cues"), map[bool]string{true: "s", false: ""}[len(acted) == 1])
 		for n, c := range acted {
@@ -225,8 +255,32 @@ func (r *Result) writeStory(w io.Writer) {
 		}
 		p("\n%s\n", provenance(len(acted) == 1))
 		r.writeWhatToDo(p, acted)
+		if len(unsettled) > 0 {
+			p("\nThe audit acts on no other cue, but it does not rule out these, which also look like how the data was collected:\n")
+			r.writeNotRuledOut(p, unsettled)
+		}
 	}
 	r.writeTask(p)
+}
+
+// writeNotRuledOut writes the ConfidenceOnly cues: the drop in their
+// label's probability that the confirming half confirms, and the flip rate
+// it does not rule out.
+func (r *Result) writeNotRuledOut(p func(string, ...any), unsettled []*Candidate) {
+	for _, c := range unsettled {
+		cr := c.Confirmed
+		p("\n  - %s (%s): replacing it lowers the probability of %s by %s on its %s\n",
+			c.name(), c.Label, c.Label, drop(cr.LabelDrop), wording.Count(cr.Measured, "confirming text", "confirming texts"))
+		p("    (it falls in %s, rises in %d; sign test p = %s, Benjamini–Hochberg q = %s) and changes %s of their predictions,\n",
+			wording.Texts(cr.Lower), cr.Higher, pval(cr.P), pval(c.ConfirmedQ), interval(cr.FlipRate))
+		note := c.NotRuledOut()
+		p("    against %s when the same words are put elsewhere.\n    %s.\n", interval(cr.ControlFlipRate),
+			strings.Replace(strings.ToUpper(note[:1])+note[1:], ": ", ":\n    ", 1))
+	}
+	them := map[bool]string{true: "it", false: "them"}[len(unsettled) == 1]
+	its := map[bool]string{true: "its", false: "their"}[len(unsettled) == 1]
+	p("\nA new test file with more texts holding %s measures %s flips afresh; if you judge %s an artifact, mark %s so,\n", them, its, them, them)
+	p("and retraining without the cues takes %s out too.\n", them)
 }
 
 // writeRecipeMask says, for a model trained with train --mask-tokens, that
@@ -463,6 +517,9 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 		VerdictNotRelied: "not relied on", VerdictTask: "reads like the task"}[c.Verdict]
 	if c.Mark != "" {
 		verdict += ", marked " + c.Mark
+	}
+	if note := c.NotRuledOut(); note != "" {
+		verdict += "; " + note
 	}
 	p("\n%d. %s → %s (%s)\n", n, c.name(), c.Label, verdict)
 	as := c.Association

@@ -263,3 +263,64 @@ func TestDec3(t *testing.T) {
 		}
 	}
 }
+
+// A cue whose label's probability drop the confirming half confirms but
+// whose flips it does not (ConfidenceOnly; a model sure of every text
+// flips none) is not acted on, and the story says what that leaves open
+// rather than a clean bill: the confidence resting on it, and the flip
+// rate its interval does not rule out, the Clopper–Pearson bound for 0 of
+// 14 texts, 1 − 0.025^(1/14) = 23% (Clopper & Pearson 1934). The verdict
+// line of the cue says it too. The figures are the practitioner's
+// SpamAssassin walkthrough's.
+func TestStoryNotRuledOut(t *testing.T) {
+	unsettled := func(flip Interval) Candidate {
+		return Candidate{Words: []string{"http"}, Text: "http", Label: "ham", Verdict: VerdictUnconfirmed, ConfidenceOnly: true,
+			ConfirmedQ: 0.0012, Association: CueAssociation{Texts: 300},
+			Confirmed: &Reliance{Texts: 14, Measured: 14, Draws: 1, Lower: 14, P: 6.1e-05, FlipRate: flip, ControlFlipRate: flip,
+				LabelDrop: Interval{Estimate: 0.065, Low: 0.033, High: 0.108}}}
+	}
+	none := BootstrapMeanIn(make([]float64, 14), 0, 1, 100, 0.95, 1)
+	some := Interval{Estimate: 0.07, Low: 0, High: 0.21}
+	acted := Candidate{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: VerdictActed,
+		Confirmed: &Reliance{Texts: 10, Measured: 10}, Association: CueAssociation{Texts: 20}}
+	for _, c := range []struct {
+		name   string
+		ranked []Candidate
+		want   []string
+		not    []string
+	}{
+		{"none acted on, no flip", []Candidate{unsettled(none)},
+			[]string{"acts on none; but that\ndoes not rule out", "by 0.065 (0.033–0.108) on its 14 confirming texts",
+				"though no prediction changed:\n    with 14 texts, a flip rate up to 23% is not ruled out"},
+			[]string{"nothing to act on"}},
+		{"none acted on, flips within the control's", []Candidate{unsettled(some)},
+			[]string{"did not change measurably beyond the control:\n    with 14 texts, a flip rate up to 21% is not ruled out"},
+			[]string{"nothing to act on", "no prediction changed"}},
+		{"one acted on besides", []Candidate{acted, unsettled(none)},
+			[]string{"The audit acts on no other cue, but it does not rule out these", "a flip rate up to 23% is not ruled out"},
+			nil},
+		{"not confidence only", []Candidate{func() Candidate { c := unsettled(none); c.ConfidenceOnly = false; return c }()},
+			[]string{"nothing to act on"}, []string{"not ruled out"}},
+	} {
+		r := &Result{ConfirmationTexts: 100, Ranked: c.ranked}
+		story := r.Story()
+		for _, w := range c.want {
+			if !strings.Contains(story, w) {
+				t.Errorf("%s: the story lacks %q:\n%s", c.name, w, story)
+			}
+		}
+		for _, w := range c.not {
+			if strings.Contains(story, w) {
+				t.Errorf("%s: the story says %q:\n%s", c.name, w, story)
+			}
+		}
+		var b strings.Builder
+		if err := r.WriteText(&b); err != nil {
+			t.Fatal(err)
+		}
+		line := "→ ham (relied on in choosing, not confirmed; the model's confidence in ham rests on it on its confirming texts"
+		if got := strings.Contains(b.String(), line); got != (c.name != "not confidence only") {
+			t.Errorf("%s: the cue's verdict line holds %q: %v\n%s", c.name, line, got, b.String())
+		}
+	}
+}

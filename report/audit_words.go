@@ -67,6 +67,9 @@ func DescribeCue(c *audit.Candidate, r *audit.Result, priors []float64) CueEvide
 	if c.Mark != "" {
 		ev.Verdict += ", marked " + c.Mark
 	}
+	if note := c.NotRuledOut(); note != "" {
+		ev.Verdict += "; " + note
+	}
 	ev.Artifact = ArtifactScore(c.ArtifactLikeness)
 	if c.Mark == audit.MarkArtifact {
 		ev.Artifact += "; you marked it as an artifact"
