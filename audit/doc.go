@@ -81,7 +81,9 @@
 // the cues' own words as the unknown word there, and a cue no filter reads
 // but the word weights carry (its words' part of its label's logit above 0
 // on the selection half) is masked by its words alone; Action.Suggested
-// tells whether any mask is suggested. Stability merges the audits of models trained
+// tells whether any mask is suggested. Cues marked artifact that the
+// audit does not act on are named apart (Action.Marked): retraining
+// without the cues takes them out too, and the story says so. Stability merges the audits of models trained
 // with several seeds.
 //
 // # JSON
@@ -100,11 +102,11 @@
 //	            selection half), shift {heldout_texts, heldout_share,
 //	            train_share, p, q, present} (selection half), filters {keyed,
 //	            ablation}, score, mark,
-//	            verdict, pattern
+//	            verdict, confidence_only, pattern
 //	relied_on_reads_like_the_task[]   the same fields
 //	action      cues, patterns, counterfactual {accuracy, accuracy_without,
 //	            cue_accuracy, cue_accuracy_without, fixed, broken, p}, mask,
-//	            mask_tried
+//	            mask_tried, marked_cues, marked_patterns
 //	artifact_formula, score_formula
 //
 // Intervals are objects {estimate, low, high}.

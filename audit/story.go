@@ -207,16 +207,20 @@ func (r *Result) writeStory(w io.Writer) {
 			unsettled = append(unsettled, &r.Ranked[k])
 		}
 	}
-	switch {
-	case len(acted) == 0 && len(unsettled) > 0:
+	if len(acted) == 0 {
 		p("No cue that looks like how the data was collected changes this model's predictions measurably on the\n")
-		p("confirming half of the test texts, which took no part in choosing it, so the audit acts on none; but that\n")
-		p("does not rule out the cues below, which also look like how the data was collected:\n")
-		r.writeNotRuledOut(p, unsettled)
-	case len(acted) == 0:
-		p("No cue that looks like how the data was collected changes this model's predictions measurably on the\n")
-		p("confirming half of the test texts, which took no part in choosing it: there is nothing to act on.\n")
-	default:
+		switch {
+		case len(unsettled) > 0:
+			p("confirming half of the test texts, which took no part in choosing it, so the audit acts on none; but that\n")
+			p("does not rule out the cues below, which also look like how the data was collected:\n")
+			r.writeNotRuledOut(p, unsettled)
+		case len(r.Action.Marked) > 0:
+			p("confirming half of the test texts, which took no part in choosing it: by its measures the audit acts on none.\n")
+		default:
+			p("confirming half of the test texts, which took no part in choosing it: there is nothing to act on.\n")
+		}
+		r.writeMarked(p, false)
+	} else {
 		p("The model depends on %s that look%s like how the data was collected rather than like the task:\n",
 			wording.Count(len(acted), "cue", "cues"), map[bool]string{true: "s", false: ""}[len(acted) == 1])
 		for n, c := range acted {
@@ -255,12 +259,45 @@ func (r *Result) writeStory(w io.Writer) {
 		}
 		p("\n%s\n", provenance(len(acted) == 1))
 		r.writeWhatToDo(p, acted)
+		r.writeMarked(p, true)
 		if len(unsettled) > 0 {
 			p("\nThe audit acts on no other cue, but it does not rule out these, which also look like how the data was collected:\n")
 			r.writeNotRuledOut(p, unsettled)
 		}
 	}
 	r.writeTask(p)
+}
+
+// writeMarked says that retraining without the cues takes out the cues
+// marked artifact that the audit does not act on (Action.Marked), as
+// telltale audit --retrain and the window's Retrain do; besides says the
+// audit acts on other cues. It writes nothing when there are none.
+func (r *Result) writeMarked(p func(string, ...any), besides bool) {
+	n := len(r.Action.Marked)
+	if n == 0 {
+		return
+	}
+	it := map[bool]string{true: "it", false: "them"}[n == 1]
+	cues := make([]string, n)
+	for k, c := range r.Action.Marked {
+		cues[k] = "'" + oneLine(c, 70) + "'"
+	}
+	also := ""
+	if besides {
+		also = " also"
+	}
+	p("\nYou%s marked %s as artifact that the audit does not act on by its measures: %s.\n", also,
+		wording.Count(n, "cue", "cues"), strings.Join(cues, ", "))
+	if m := r.Action.RetrainedModel; m != "" {
+		p("As your marks ask, this audit retrains the model's recipe without %s too, into %s (--retrain-out), and compares\n", it, m)
+		p("both models on the confirming half. The patterns that take %s out of the text:\n", it)
+	} else {
+		p("As your marks ask, retraining without the cues (telltale audit --retrain, or Retrain in the window) takes %s out too\n", it)
+		p("and compares both models on the confirming half. The patterns that take %s out of the text:\n", it)
+	}
+	for _, pat := range r.Action.MarkedPatterns {
+		p("    %s\n", pat)
+	}
 }
 
 // writeNotRuledOut writes the ConfidenceOnly cues: the drop in their

@@ -324,3 +324,53 @@ func TestStoryNotRuledOut(t *testing.T) {
 		}
 	}
 }
+
+// Cues marked artifact that the audit does not act on are taken out by
+// retraining without the cues (telltale audit --retrain, the window's
+// Retrain: the acted-on cues' patterns and the marks'), so the story says
+// so, above such a retraining, instead of "nothing to act on"; with the
+// retrained model's file, it names the file.
+func TestStoryMarkedNotActed(t *testing.T) {
+	pat := pattern([]string{"re", ":"})
+	acted := Candidate{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: VerdictActed,
+		Confirmed: &Reliance{Texts: 10, Measured: 10}, Association: CueAssociation{Texts: 20}}
+	for _, c := range []struct {
+		name   string
+		ranked []Candidate
+		marked []string
+		model  string
+		want   []string
+		not    []string
+	}{
+		{"no mark", nil, nil, "", []string{"there is nothing to act on"}, []string{"You marked"}},
+		{"marked, none acted on", nil, []string{"re :"}, "",
+			[]string{"by its measures the audit acts on none", "You marked 1 cue as artifact that the audit does not act on by its measures: 're :'",
+				"telltale audit --retrain, or Retrain in the window) takes it out too", "    " + pat},
+			[]string{"nothing to act on"}},
+		{"marked, none acted on, retrained into a file", nil, []string{"re :"}, "m-without.tt",
+			[]string{"this audit retrains the model's recipe without it too, into m-without.tt (--retrain-out)"},
+			[]string{"nothing to act on"}},
+		{"marked besides a cue acted on", []Candidate{acted}, []string{"re :"}, "",
+			[]string{"You also marked 1 cue as artifact", "    " + pat}, []string{"nothing to act on"}},
+	} {
+		r := &Result{ConfirmationTexts: 100, Ranked: c.ranked, Action: Action{RetrainedModel: c.model}}
+		if len(c.ranked) > 0 {
+			r.Action.Cues, r.Action.Patterns = []string{"stamp"}, []string{pattern([]string{"stamp"})}
+		}
+		for _, m := range c.marked {
+			r.Action.Marked = append(r.Action.Marked, m)
+			r.Action.MarkedPatterns = append(r.Action.MarkedPatterns, pattern(strings.Fields(m)))
+		}
+		story := r.Story()
+		for _, w := range c.want {
+			if !strings.Contains(story, w) {
+				t.Errorf("%s: the story lacks %q:\n%s", c.name, w, story)
+			}
+		}
+		for _, w := range c.not {
+			if strings.Contains(story, w) {
+				t.Errorf("%s: the story says %q:\n%s", c.name, w, story)
+			}
+		}
+	}
+}
