@@ -300,11 +300,15 @@ func (r *Result) writeMarked(p func(string, ...any), besides bool) {
 	}
 }
 
-// writeNotRuledOut writes the ConfidenceOnly cues: the drop in their
+// maxNotRuledOut is the most ConfidenceOnly cues the story names (the
+// first by rank); the list of cues marks every one.
+const maxNotRuledOut = 3
+
+// writeNotRuledOut writes the first ConfidenceOnly cues: the drop in their
 // label's probability that the confirming half confirms, and the flip rate
-// it does not rule out.
+// it does not rule out; then how many more the list below holds.
 func (r *Result) writeNotRuledOut(p func(string, ...any), unsettled []*Candidate) {
-	for _, c := range unsettled {
+	for _, c := range unsettled[:min(len(unsettled), maxNotRuledOut)] {
 		cr := c.Confirmed
 		p("\n  - %s (%s): replacing it lowers the probability of %s by %s on its %s\n",
 			c.name(), c.Label, c.Label, drop(cr.LabelDrop), wording.Count(cr.Measured, "confirming text", "confirming texts"))
@@ -313,6 +317,9 @@ func (r *Result) writeNotRuledOut(p func(string, ...any), unsettled []*Candidate
 		note := c.NotRuledOut()
 		p("    against %s when the same words are put elsewhere.\n    %s.\n", interval(cr.ControlFlipRate),
 			strings.Replace(strings.ToUpper(note[:1])+note[1:], ": ", ":\n    ", 1))
+	}
+	if more := len(unsettled) - maxNotRuledOut; more > 0 {
+		p("\n  - and %s, likewise (the cues listed below say so in their verdicts).\n", wording.Count(more, "more cue", "more cues"))
 	}
 	them := map[bool]string{true: "it", false: "them"}[len(unsettled) == 1]
 	its := map[bool]string{true: "its", false: "their"}[len(unsettled) == 1]

@@ -270,7 +270,8 @@ func TestDec3(t *testing.T) {
 // rather than a clean bill: the confidence resting on it, and the flip
 // rate its interval does not rule out, the Clopper–Pearson bound for 0 of
 // 14 texts, 1 − 0.025^(1/14) = 23% (Clopper & Pearson 1934). The verdict
-// line of the cue says it too. The figures are the practitioner's
+// line of the cue says it too, for every such cue; the story names the
+// first three and counts the rest. The figures are the practitioner's
 // SpamAssassin walkthrough's.
 func TestStoryNotRuledOut(t *testing.T) {
 	unsettled := func(flip Interval) Candidate {
@@ -301,6 +302,8 @@ func TestStoryNotRuledOut(t *testing.T) {
 			nil},
 		{"not confidence only", []Candidate{func() Candidate { c := unsettled(none); c.ConfidenceOnly = false; return c }()},
 			[]string{"nothing to act on"}, []string{"not ruled out"}},
+		{"five, three named", []Candidate{unsettled(none), unsettled(none), unsettled(none), unsettled(some), unsettled(some)},
+			[]string{"  - and 2 more cues, likewise"}, []string{"nothing to act on", "up to 21%"}},
 	} {
 		r := &Result{ConfirmationTexts: 100, Ranked: c.ranked}
 		story := r.Story()
@@ -319,7 +322,13 @@ func TestStoryNotRuledOut(t *testing.T) {
 			t.Fatal(err)
 		}
 		line := "→ ham (relied on in choosing, not confirmed; the model's confidence in ham rests on it on its confirming texts"
-		if got := strings.Contains(b.String(), line); got != (c.name != "not confidence only") {
+		want := 0
+		for _, cand := range c.ranked {
+			if cand.ConfidenceOnly {
+				want++
+			}
+		}
+		if got := strings.Count(b.String(), line); got != want {
 			t.Errorf("%s: the cue's verdict line holds %q: %v\n%s", c.name, line, got, b.String())
 		}
 	}
