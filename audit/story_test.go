@@ -383,3 +383,47 @@ func TestStoryMarkedNotActed(t *testing.T) {
 		}
 	}
 }
+
+// The action names the cues marked artifact that it does not act on, with
+// the patterns Marks.Patterns gives them (those retraining takes out), and
+// leaves out a marked cue it acts on.
+func TestActionMarked(t *testing.T) {
+	mk := NewMarks()
+	for _, ws := range [][]string{{"re", ":"}, {"stamp"}} {
+		if err := mk.Set(ws, MarkArtifact); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := mk.Set([]string{"not"}, MarkTask); err != nil {
+		t.Fatal(err)
+	}
+	a := &auditor{opt: Options{Marks: mk, RetrainedModel: "m-without.tt"}, progress: func(string, int, int) {}}
+	for _, c := range []struct {
+		name   string
+		ranked []Candidate
+		want   []string
+	}{
+		{"none acted on", nil, []string{"re :", "stamp"}},
+		{"the stamp acted on", []Candidate{{Words: []string{"stamp"}, Text: "stamp", Verdict: VerdictActed, Pattern: pattern([]string{"stamp"})}}, []string{"re :"}},
+	} {
+		res := &Result{Ranked: c.ranked}
+		if len(c.ranked) > 0 {
+			// The stamp's pattern stands in the action as acting on it puts
+			// it there (acting itself measures the counterfactual split,
+			// which needs a model).
+			res.Ranked[0].Verdict = VerdictUnconfirmed
+			res.Action.Patterns = []string{c.ranked[0].Pattern}
+		}
+		if err := a.act(t.Context(), res); err != nil {
+			t.Fatal(err)
+		}
+		var wantPats []string
+		for _, w := range c.want {
+			wantPats = append(wantPats, pattern(strings.Fields(w)))
+		}
+		if !slices.Equal(res.Action.Marked, c.want) || !slices.Equal(res.Action.MarkedPatterns, wantPats) || res.Action.RetrainedModel != "m-without.tt" {
+			t.Errorf("%s: marked %q, patterns %q, retrained model %q; want %q, %q, m-without.tt", c.name,
+				res.Action.Marked, res.Action.MarkedPatterns, res.Action.RetrainedModel, c.want, wantPats)
+		}
+	}
+}
