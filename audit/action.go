@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"slices"
+	"strings"
 
 	"telltale/cnn"
 )
@@ -42,6 +43,13 @@ type Action struct {
 	// RetrainedModel is Options.RetrainedModel, the file the model
 	// retrained without the cues goes to; the story names it.
 	RetrainedModel string `json:"-"`
+	// Marked are the cues marked artifact (Options.Marks) that the audit
+	// does not act on, as their words, and MarkedPatterns their patterns
+	// (Marks.Patterns): retraining without the cues (telltale audit
+	// --retrain, the window's Retrain) takes these out beside Patterns, so
+	// the story says it does.
+	Marked         []string `json:"marked_cues,omitempty"`
+	MarkedPatterns []string `json:"marked_patterns,omitempty"`
 	// RecipeMask are the patterns the model's recipe takes out of the
 	// training text already (cnn.TrainConfig.MaskTokens, train
 	// --mask-tokens): retraining the recipe takes them out too, and the
@@ -84,6 +92,13 @@ func (a *auditor) act(ctx context.Context, res *Result) error {
 			res.Action.Patterns = append(res.Action.Patterns, c.Pattern)
 		}
 	}
+	for _, ws := range a.opt.Marks.Cues(MarkArtifact) {
+		if pat := pattern(ws); !slices.Contains(res.Action.Patterns, pat) {
+			res.Action.Marked = append(res.Action.Marked, strings.Join(ws, " "))
+			res.Action.MarkedPatterns = append(res.Action.MarkedPatterns, pat)
+		}
+	}
+	res.Action.RetrainedModel = a.opt.RetrainedModel
 	if len(acted) == 0 {
 		a.progress("action", 1, 1)
 		return nil
@@ -97,7 +112,6 @@ func (a *auditor) act(ctx context.Context, res *Result) error {
 	if res.Action.Mask != nil {
 		res.Action.MaskWords = res.Action.Tried.Words
 	}
-	res.Action.RetrainedModel = a.opt.RetrainedModel
 	if r := a.m.Info.Recipe; r != nil {
 		res.Action.RecipeMask = r.MaskTokens
 	}

@@ -197,6 +197,14 @@ type Candidate struct {
 	// cue (acted on, or listed as relied on and reading like the task).
 	ConfirmedQ float64 `json:"reliance_confirmed_q,omitempty"`
 	Relied     bool    `json:"relied_confirmed"`
+	// ConfidenceOnly marks an artifact-like cue put to the test whose
+	// label's probability drop the confirmation half confirms (its sign
+	// test, ConfirmedQ at most Options.RelianceAlpha, and the drop above
+	// 0) but whose flips it does not (the net flip rate's interval reaches
+	// 0): the model's confidence rests on it there though its predictions
+	// did not measurably change. It is not acted on (VerdictUnconfirmed);
+	// NotRuledOut says what the flips' interval leaves open.
+	ConfidenceOnly bool `json:"confidence_only,omitempty"`
 	// Shift is question 4: the cue's label share in the selection half of
 	// the held-out split.
 	Shift *Shift `json:"shift,omitempty"`
@@ -238,9 +246,12 @@ type Shift struct {
 	HeldoutShare float64 `json:"heldout_share"`
 	TrainShare   float64 `json:"train_share"`
 	// P is the two-sided Fisher exact test of the 2×2 table split × (in
-	// the cue's label or not) over the texts holding it.
+	// the cue's label or not) over the texts holding it (1 when none);
+	// Q is P corrected by Benjamini–Hochberg over every candidate whose
+	// shift is tested (those in the selection half).
 	P float64 `json:"p"`
-	// Present: P < 0.01 and the held-out share is lower.
+	Q float64 `json:"q"`
+	// Present: Q < 0.01 and the held-out share is lower.
 	Present bool `json:"present"`
 }
 
@@ -650,7 +661,9 @@ func (a *auditor) heldoutPasses(ctx context.Context, cands []*Candidate) error {
 	selOcc, confOcc := mt.occurrences(a.sel), mt.occurrences(a.conf)
 	for k, c := range cands {
 		c.selOcc, c.confOcc = selOcc[k], confOcc[k]
-		a.shift(c)
+	}
+	a.shifts(cands)
+	for _, c := range cands {
 		c.ArtifactLikeness = artifactScore(c.Signals)
 	}
 	a.progress("held-out", 2, 2)
@@ -661,11 +674,45 @@ func (a *auditor) heldoutPasses(ctx context.Context, cands []*Candidate) error {
 // apart only when the reasons it lists leave this one out.
 const shiftSays = "in the choosing half of the test texts"
 
-// shift compares the cue's label share in the selection half with
-// training and adds the shift signal. The confirmation half takes no part:
-// its tests decide the verdict and give every figure shown, so nothing it
-// holds may choose or rank a cue.
-func (a *auditor) shift(c *Candidate) {
+// shiftAlpha is the false discovery rate at which a shift counts.
+const shiftAlpha = 0.01
+
+// shifts compares each cue's label share in the selection half with
+// training and adds the shift signal. Each cue that occurs in the
+// selection half is tested (two-sided Fisher), and the p-values are
+// corrected together by Benjamini & Hochberg (1995, BenjaminiHochberg):
+// a shift is present when its q is below shiftAlpha and the held-out share
+// is the lower, so that among the hundreds of candidates a chance shift
+// does not make a cue artifact-like (the signal's weight alone passes
+// ArtifactThreshold). The confirmation half takes no part: its tests
+// decide the verdict and give every figure shown, so nothing it holds may
+// choose or rank a cue.
+func (a *auditor) shifts(cands []*Candidate) {
+	var tested []*Candidate
+	for _, c := range cands {
+		c.Shift = a.shiftOf(c)
+		if c.Shift.HeldoutTexts > 0 {
+			tested = append(tested, c)
+		}
+	}
+	ps := make([]float64, len(tested))
+	for k, c := range tested {
+		ps[k] = c.Shift.P
+	}
+	for k, q := range BenjaminiHochberg(ps) {
+		s := tested[k].Shift
+		s.Q = q
+		s.Present = q < shiftAlpha && s.HeldoutShare < s.TrainShare
+	}
+	for _, c := range cands {
+		a.shiftSignal(c, len(tested))
+	}
+}
+
+// shiftOf counts the selection half's texts holding c and those in its
+// label, and tests them against training (two-sided Fisher); Q and
+// Present are left to shifts.
+func (a *auditor) shiftOf(c *Candidate) *Shift {
 	in, n := 0, 0
 	for _, i := range texts(c.selOcc) {
 		n++
@@ -673,22 +720,27 @@ func (a *auditor) shift(c *Candidate) {
 			in++
 		}
 	}
-	s := &Shift{HeldoutTexts: n, TrainShare: c.Association.Share}
+	s := &Shift{HeldoutTexts: n, TrainShare: c.Association.Share, P: 1, Q: 1}
 	if n > 0 {
 		s.HeldoutShare = float64(in) / float64(n)
 		ta := c.Association
 		s.P = FisherTwoSided(ta.InLabel, ta.Texts-ta.InLabel, in, n-in)
-		s.Present = s.P < 0.01 && s.HeldoutShare < s.TrainShare
 	}
-	c.Shift = s
+	return s
+}
+
+// shiftSignal adds c's shift signal from c.Shift; tested is how many
+// cues' shifts were corrected together.
+func (a *auditor) shiftSignal(c *Candidate, tested int) {
+	s := c.Shift
 	v, says := 0.0, "its label share is the same in the choosing half of the test texts"
 	switch {
-	case n == 0:
+	case s.HeldoutTexts == 0:
 		says = "it does not occur in the choosing half of the test texts"
 	case s.Present:
 		v = min(1, (s.TrainShare-s.HeldoutShare)/max(1e-9, s.TrainShare-1/float64(a.m.Config.Classes)))
-		says = fmt.Sprintf(shiftSays+" only %s of those holding it are %s, against %s in training (Fisher p = %s)",
-			pct(s.HeldoutShare), c.Label, pct(s.TrainShare), pval(s.P))
+		says = fmt.Sprintf(shiftSays+" only %s of those holding it are %s, against %s in training (Fisher p = %s; q = %s by Benjamini–Hochberg over %d cues)",
+			pct(s.HeldoutShare), c.Label, pct(s.TrainShare), pval(s.P), pval(s.Q), tested)
 	}
 	c.Signals = append(c.Signals, Signal{Name: SignalShift, Value: max(0, v), Weight: signalWeights[SignalShift], Says: says})
 }

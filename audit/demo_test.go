@@ -39,6 +39,9 @@ func TestDemoPlantedCues(t *testing.T) {
 				d := demoAudit(t, variant, seed)
 				results = append(results, d.res)
 				checkDemo(t, d.res)
+				if variant == "demo" {
+					checkPlantedShift(t, d.res)
+				}
 				checkExamples(t, d.res, d.held)
 				checkIntervalWidths(t, d.res)
 			})
@@ -55,6 +58,21 @@ func TestDemoPlantedCues(t *testing.T) {
 			if !found {
 				t.Errorf("%s: the cue holding %q is not stable over the seeds: %+v", variant, word, st)
 			}
+		}
+	}
+}
+
+// checkPlantedShift: in the original demo, whose test split spreads both
+// planted cues evenly over the labels (testdata/demo/README.md), both keep
+// the shift signal after Benjamini–Hochberg over every candidate tested.
+func checkPlantedShift(t *testing.T, res *Result) {
+	t.Helper()
+	for _, c := range res.Ranked {
+		if !hasWord(c, "kioskmail", "tkref") {
+			continue
+		}
+		if s := c.Shift; s == nil || !s.Present || c.signal(SignalShift).Value == 0 {
+			t.Errorf("planted cue %q: shift %+v, want present after Benjamini–Hochberg", c.Text, s)
 		}
 	}
 }

@@ -45,7 +45,10 @@
 //     time), a label share implausibly high at high support; and, when the
 //     selection half of the held-out split has one, a shift of the cue's
 //     label share (question 4 of the design: strong extra evidence, one
-//     signal among the others; the confirmation half takes no part in it).
+//     signal among the others; the confirmation half takes no part in it;
+//     two-sided Fisher, Benjamini–Hochberg over the candidates tested, q
+//     below 0.01, so that no chance shift among hundreds makes a cue
+//     artifact-like).
 //
 // # Two halves
 //
@@ -78,7 +81,9 @@
 // the cues' own words as the unknown word there, and a cue no filter reads
 // but the word weights carry (its words' part of its label's logit above 0
 // on the selection half) is masked by its words alone; Action.Suggested
-// tells whether any mask is suggested. Stability merges the audits of models trained
+// tells whether any mask is suggested. Cues marked artifact that the
+// audit does not act on are named apart (Action.Marked): retraining
+// without the cues takes them out too, and the story says so. Stability merges the audits of models trained
 // with several seeds.
 //
 // # JSON
@@ -95,13 +100,13 @@
 //	            net_flip_rate, prob_drop, label_drop, decided, p, flip_p, …}
 //	            (confirmation half; reliance_selection: the same on the
 //	            selection half), shift {heldout_texts, heldout_share,
-//	            train_share, p, present} (selection half), filters {keyed,
+//	            train_share, p, q, present} (selection half), filters {keyed,
 //	            ablation}, score, mark,
-//	            verdict, pattern
+//	            verdict, confidence_only, pattern
 //	relied_on_reads_like_the_task[]   the same fields
 //	action      cues, patterns, counterfactual {accuracy, accuracy_without,
 //	            cue_accuracy, cue_accuracy_without, fixed, broken, p}, mask,
-//	            mask_tried
+//	            mask_tried, marked_cues, marked_patterns
 //	artifact_formula, score_formula
 //
 // Intervals are objects {estimate, low, high}.

@@ -218,7 +218,9 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	// selection half. On the confirmation half each must lower its label's
 	// probability (the sign test, Benjamini–Hochberg over the cues put to
 	// the test) and change predictions beyond the control (the 95%
-	// interval of the net flip rate above 0).
+	// interval of the net flip rate above 0). One that passes the first
+	// and not the second is not acted on, but marked ConfidenceOnly: the
+	// story says what its flips' interval leaves open.
 	var put []int
 	for k := range res.Ranked {
 		if res.Ranked[k].Verdict == VerdictUnconfirmed {
@@ -232,8 +234,12 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	for i, q := range BenjaminiHochberg(ps) {
 		c := &res.Ranked[put[i]]
 		c.ConfirmedQ = q
-		if q <= a.opt.RelianceAlpha && c.Confirmed.LabelDrop.Estimate > 0 && c.Confirmed.NetFlipRate.Low > 0 {
-			c.Verdict, c.Relied = VerdictActed, true
+		if q <= a.opt.RelianceAlpha && c.Confirmed.LabelDrop.Estimate > 0 {
+			if c.Confirmed.NetFlipRate.Low > 0 {
+				c.Verdict, c.Relied = VerdictActed, true
+			} else {
+				c.ConfidenceOnly = true
+			}
 		}
 	}
 	res.Task = a.confirmedTask(res.Task)

@@ -39,7 +39,9 @@ type Reliance struct {
 	// belief in that label rests on the cue. It ranks the cues.
 	LabelDrop Interval `json:"label_drop"`
 	// Decided is the share of all the half's predictions that replacing
-	// the cue changes beyond the control (texts without it count 0).
+	// the cue changes beyond the control (texts without it count 0): a
+	// share, never below 0, with an exact interval where every text gives
+	// the same value (decidedShare).
 	Decided Interval `json:"decided"`
 	// More and Fewer count the texts where the counterfactual flips more
 	// (fewer) of the draws than the control; FlipP is the one-sided exact
@@ -178,7 +180,6 @@ func (j *relianceJob) measure(ctx context.Context, st *explain.SlotTable, worker
 // draw and text of chosen, counterfactual first); all are the texts holding
 // the cue.
 func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][]span, res []editResult) *Reliance {
-	n := len(chosen)
 	f := j.perText(r, chosen, res)
 	seed := seedOf(j.seed, j.key+"/boot")
 	r.FlipRate = BootstrapMeanIn(f.flip, 0, 1, j.boot, 0.95, seed)
@@ -186,19 +187,43 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 	r.NetFlipRate = BootstrapMeanIn(f.net, -1, 1, j.boot, 0.95, seed+2)
 	r.ProbDrop = BootstrapMeanIn(f.drop, -1, 1, j.boot, 0.95, seed+3)
 	r.LabelDrop = BootstrapMeanIn(f.ldrop, -1, 1, j.boot, 0.95, seed+5)
-	// Decided: the net flips of the measured texts scaled to every text
-	// holding the cue, over all texts of the half.
-	decided := make([]float64, j.half.Len())
-	scale := float64(len(all)) / float64(n)
-	for k, i := range chosen {
-		decided[i] = f.net[k] * scale
-	}
-	r.Decided = BootstrapMeanIn(decided, -scale, scale, j.boot, 0.95, seed+4)
+	r.Decided = decidedShare(f.net, chosen, len(all), j.half.Len(), j.boot, seed+4)
 	r.FlipP = SignTest(r.More, r.Fewer)
 	r.P = SignTest(r.Lower, r.Higher)
 	r.Conflict = j.conflict(chosen, res)
 	j.addExamples(r, chosen, byText, res, f.ctlFlip)
 	return r
+}
+
+// decidedShare is Reliance.Decided: the net flips net of the measured
+// texts chosen (indexes in the half), scaled to the cueTexts holding the
+// cue, over all halfTexts of the half (texts without the cue count 0),
+// with BootstrapMean's interval over the half's texts. Where every text of
+// the half gives the same value (no measured text flips more with the cue
+// replaced than kept, or fewer) the interval is exact instead: the share
+// of the cue's texts whose net is not that value v lies below u, the
+// Clopper–Pearson upper bound for 0 of the measured texts, so their mean
+// net lies in [v − u·(v + 1), v + u·(1 − v)] (a net lies in [−1, 1]), and
+// the decided share is that times the cue's share of the half. The
+// decided share is a share of predictions, so not negative: the estimate
+// and both bounds are read as max(0, ·) (a cue whose control flips as
+// many predictions or more decides none). Preconditions: len(net) =
+// len(chosen) ≥ 1, cueTexts ≥ len(net), halfTexts ≥ cueTexts.
+func decidedShare(net []float64, chosen []int, cueTexts, halfTexts, B int, seed uint64) Interval {
+	scale := float64(cueTexts) / float64(len(net))
+	x := make([]float64, halfTexts)
+	for k, i := range chosen {
+		x[i] = net[k] * scale
+	}
+	var iv Interval
+	if slices.ContainsFunc(x, func(v float64) bool { return v != x[0] }) {
+		iv = BootstrapMean(x, B, 0.95, seed)
+	} else {
+		v, share := net[0], float64(cueTexts)/float64(halfTexts)
+		_, u := ClopperPearson(0, len(net), 0.95)
+		iv = Interval{Estimate: share * v, Low: share * (v - u*(v+1)), High: share * (v + u*(1-v))}
+	}
+	return Interval{Estimate: max(0, iv.Estimate), Low: max(0, iv.Low), High: max(0, iv.High)}
 }
 
 // textFigures are the per-text means over the draws, indexed like chosen:

@@ -52,7 +52,16 @@ func signedDrop(x Interval) string {
 
 // accuracy writes an accuracy with its interval: "0.912 (0.890–0.931)".
 func accuracy(x Interval) string {
-	return fmt.Sprintf("%.3f (%.3f–%.3f)", x.Estimate, x.Low, x.High)
+	return dec3(x.Estimate) + " (" + dec3(x.Low) + "–" + dec3(x.High) + ")"
+}
+
+// dec3 writes x with three decimals, and a value that rounds to 0 as
+// "0.000", never "-0.000".
+func dec3(x float64) string {
+	if s := fmt.Sprintf("%.3f", x); s != "-0.000" {
+		return s
+	}
+	return "0.000"
 }
 
 // snippet quotes text i of d around occurrence s, the cue in [brackets].
@@ -157,6 +166,24 @@ func (c *Candidate) measuredWhy() string {
 	return strings.Join(says, "; ")
 }
 
+// NotRuledOut says, for a ConfidenceOnly cue, what the confirmation half
+// does not rule out: the model's confidence in the cue's label rests on it
+// there though no prediction changed (or none measurably beyond the
+// control), and with so few texts a flip rate up to its interval's upper
+// bound is not ruled out. It is "" for any other cue.
+func (c *Candidate) NotRuledOut() string {
+	cr := c.Confirmed
+	if !c.ConfidenceOnly || cr == nil || cr.Measured == 0 {
+		return ""
+	}
+	changed := "though no prediction changed"
+	if cr.FlipRate.Estimate > 0 {
+		changed = "though its predictions did not change measurably beyond the control"
+	}
+	return fmt.Sprintf("the model's confidence in %s rests on it on its confirming texts, %s: with %s, a flip rate up to %s is not ruled out",
+		c.Label, changed, wording.Count(cr.Measured, "text", "texts"), fmtPct(cr.FlipRate.High))
+}
+
 // Story tells the audit in plain words: the cues the model relies on that
 // look like how the data was collected, why, what the model scores without
 // them and what to do; then the cues it relies on that read like the task.
@@ -174,9 +201,25 @@ func (r *Result) writeStory(w io.Writer) {
 			acted = append(acted, &r.Ranked[k])
 		}
 	}
+	var unsettled []*Candidate
+	for k := range r.Ranked {
+		if r.Ranked[k].NotRuledOut() != "" {
+			unsettled = append(unsettled, &r.Ranked[k])
+		}
+	}
 	if len(acted) == 0 {
 		p("No cue that looks like how the data was collected changes this model's predictions measurably on the\n")
-		p("confirming half of the test texts, which took no part in choosing it: there is nothing to act on.\n")
+		switch {
+		case len(unsettled) > 0:
+			p("confirming half of the test texts, which took no part in choosing it, so the audit acts on none; but that\n")
+			p("does not rule out the cues below, which also look like how the data was collected:\n")
+			r.writeNotRuledOut(p, unsettled)
+		case len(r.Action.Marked) > 0:
+			p("confirming half of the test texts, which took no part in choosing it: by its measures the audit acts on none.\n")
+		default:
+			p("confirming half of the test texts, which took no part in choosing it: there is nothing to act on.\n")
+		}
+		r.writeMarked(p, false)
 	} else {
 		p("The model depends on %s that look%s like how the data was collected rather than like the task:\n",
 			wording.Count(len(acted), "cue", "cues"), map[bool]string{true: "s", false: ""}[len(acted) == 1])
@@ -216,8 +259,72 @@ func (r *Result) writeStory(w io.Writer) {
 		}
 		p("\n%s\n", provenance(len(acted) == 1))
 		r.writeWhatToDo(p, acted)
+		r.writeMarked(p, true)
+		if len(unsettled) > 0 {
+			p("\nThe audit acts on no other cue, but it does not rule out these, which also look like how the data was collected:\n")
+			r.writeNotRuledOut(p, unsettled)
+		}
 	}
 	r.writeTask(p)
+}
+
+// writeMarked says that retraining without the cues takes out the cues
+// marked artifact that the audit does not act on (Action.Marked), as
+// telltale audit --retrain and the window's Retrain do; besides says the
+// audit acts on other cues. It writes nothing when there are none.
+func (r *Result) writeMarked(p func(string, ...any), besides bool) {
+	n := len(r.Action.Marked)
+	if n == 0 {
+		return
+	}
+	it := map[bool]string{true: "it", false: "them"}[n == 1]
+	cues := make([]string, n)
+	for k, c := range r.Action.Marked {
+		cues[k] = "'" + oneLine(c, 70) + "'"
+	}
+	also := ""
+	if besides {
+		also = " also"
+	}
+	p("\nYou%s marked %s as artifact that the audit does not act on by its measures: %s.\n", also,
+		wording.Count(n, "cue", "cues"), strings.Join(cues, ", "))
+	if m := r.Action.RetrainedModel; m != "" {
+		p("As your marks ask, this audit retrains the model's recipe without %s too, into %s (--retrain-out), and compares\n", it, m)
+		p("both models on the confirming half. The patterns that take %s out of the text:\n", it)
+	} else {
+		p("As your marks ask, retraining without the cues (telltale audit --retrain, or Retrain in the window) takes %s out too\n", it)
+		p("and compares both models on the confirming half. The patterns that take %s out of the text:\n", it)
+	}
+	for _, pat := range r.Action.MarkedPatterns {
+		p("    %s\n", pat)
+	}
+}
+
+// maxNotRuledOut is the most ConfidenceOnly cues the story names (the
+// first by rank); the list of cues marks every one.
+const maxNotRuledOut = 3
+
+// writeNotRuledOut writes the first ConfidenceOnly cues: the drop in their
+// label's probability that the confirming half confirms, and the flip rate
+// it does not rule out; then how many more the list below holds.
+func (r *Result) writeNotRuledOut(p func(string, ...any), unsettled []*Candidate) {
+	for _, c := range unsettled[:min(len(unsettled), maxNotRuledOut)] {
+		cr := c.Confirmed
+		p("\n  - %s (%s): replacing it lowers the probability of %s by %s on its %s\n",
+			c.name(), c.Label, c.Label, drop(cr.LabelDrop), wording.Count(cr.Measured, "confirming text", "confirming texts"))
+		p("    (it falls in %s, rises in %d; sign test p = %s, Benjamini–Hochberg q = %s) and changes %s of their predictions,\n",
+			wording.Texts(cr.Lower), cr.Higher, pval(cr.P), pval(c.ConfirmedQ), interval(cr.FlipRate))
+		note := c.NotRuledOut()
+		p("    against %s when the same words are put elsewhere.\n    %s.\n", interval(cr.ControlFlipRate),
+			strings.Replace(strings.ToUpper(note[:1])+note[1:], ": ", ":\n    ", 1))
+	}
+	if more := len(unsettled) - maxNotRuledOut; more > 0 {
+		p("\n  - and %s, likewise (the cues listed below say so in their verdicts).\n", wording.Count(more, "more cue", "more cues"))
+	}
+	them := map[bool]string{true: "it", false: "them"}[len(unsettled) == 1]
+	its := map[bool]string{true: "its", false: "their"}[len(unsettled) == 1]
+	p("\nA new test file with more texts holding %s measures %s flips afresh; if you judge %s an artifact, mark %s so,\n", them, its, them, them)
+	p("and retraining without the cues takes %s out too.\n", them)
 }
 
 // writeRecipeMask says, for a model trained with train --mask-tokens, that
@@ -385,9 +492,7 @@ func cueNumbers(ns []int) string {
 }
 
 // wordPart writes a word-weight part with its interval: "0.412 (0.390–0.433)".
-func wordPart(x Interval) string {
-	return fmt.Sprintf("%.3f (%.3f–%.3f)", x.Estimate, x.Low, x.High)
-}
+func wordPart(x Interval) string { return accuracy(x) }
 
 // quoted writes words in quotes, comma-separated.
 func quoted(words []string) string {
@@ -457,6 +562,9 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	if c.Mark != "" {
 		verdict += ", marked " + c.Mark
 	}
+	if note := c.NotRuledOut(); note != "" {
+		verdict += "; " + note
+	}
 	p("\n%d. %s → %s (%s)\n", n, c.name(), c.Label, verdict)
 	as := c.Association
 	p("   association: in %d training texts, %s %s; p = %s, corrected %s\n", as.Texts, fmtPct(as.Share), c.Label, pval(as.P), pval(as.Adjusted))
@@ -465,9 +573,8 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	} else if cr != nil {
 		p("   reliance: replacing it changes %s of %d confirming texts' predictions, elsewhere %s, net %s (sign test p = %s);\n",
 			interval(cr.FlipRate), cr.Measured, interval(cr.ControlFlipRate), interval(cr.NetFlipRate), pval(cr.FlipP))
-		p("     p(%s) drops %.3f (%.3f–%.3f) on average, p(prediction) %.3f (%.3f–%.3f); p(%s) falls in %s, rises in %d (sign test p = %s)\n", c.Label,
-			cr.LabelDrop.Estimate, cr.LabelDrop.Low, cr.LabelDrop.High, cr.ProbDrop.Estimate, cr.ProbDrop.Low, cr.ProbDrop.High, c.Label,
-			wording.Texts(cr.Lower), cr.Higher, pval(cr.P))
+		p("     p(%s) drops %s on average, p(prediction) %s; p(%s) falls in %s, rises in %d (sign test p = %s)\n", c.Label,
+			accuracy(cr.LabelDrop), accuracy(cr.ProbDrop), c.Label, wording.Texts(cr.Lower), cr.Higher, pval(cr.P))
 		for _, ex := range cr.Examples {
 			p("     %s → %s (gold %s): %s\n", ex.Pred, ex.After, ex.Gold, ex.Snippet)
 		}

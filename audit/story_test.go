@@ -246,3 +246,184 @@ func TestStoryOneFlipRate(t *testing.T) {
 		}
 	}
 }
+
+// Figures with three decimals never read "-0.000": a value that rounds to
+// 0 from below is written 0.000, others as they are.
+func TestDec3(t *testing.T) {
+	for _, c := range []struct {
+		x    Interval
+		want string
+	}{
+		{Interval{Estimate: -1e-7, Low: -3e-7, High: 2e-7}, "0.000 (0.000–0.000)"},
+		{Interval{Estimate: 0.065, Low: 0.033, High: 0.108}, "0.065 (0.033–0.108)"},
+		{Interval{Estimate: -0.0126, Low: -0.0304, High: 0.0004}, "-0.013 (-0.030–0.000)"},
+	} {
+		if got := accuracy(c.x); got != c.want {
+			t.Errorf("accuracy(%+v) = %q, want %q", c.x, got, c.want)
+		}
+	}
+}
+
+// A cue whose label's probability drop the confirming half confirms but
+// whose flips it does not (ConfidenceOnly; a model sure of every text
+// flips none) is not acted on, and the story says what that leaves open
+// rather than a clean bill: the confidence resting on it, and the flip
+// rate its interval does not rule out, the Clopper–Pearson bound for 0 of
+// 14 texts, 1 − 0.025^(1/14) = 23% (Clopper & Pearson 1934). The verdict
+// line of the cue says it too, for every such cue; the story names the
+// first three and counts the rest. The figures are the practitioner's
+// SpamAssassin walkthrough's.
+func TestStoryNotRuledOut(t *testing.T) {
+	unsettled := func(flip Interval) Candidate {
+		return Candidate{Words: []string{"http"}, Text: "http", Label: "ham", Verdict: VerdictUnconfirmed, ConfidenceOnly: true,
+			ConfirmedQ: 0.0012, Association: CueAssociation{Texts: 300},
+			Confirmed: &Reliance{Texts: 14, Measured: 14, Draws: 1, Lower: 14, P: 6.1e-05, FlipRate: flip, ControlFlipRate: flip,
+				LabelDrop: Interval{Estimate: 0.065, Low: 0.033, High: 0.108}}}
+	}
+	none := BootstrapMeanIn(make([]float64, 14), 0, 1, 100, 0.95, 1)
+	some := Interval{Estimate: 0.07, Low: 0, High: 0.21}
+	acted := Candidate{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: VerdictActed,
+		Confirmed: &Reliance{Texts: 10, Measured: 10}, Association: CueAssociation{Texts: 20}}
+	for _, c := range []struct {
+		name   string
+		ranked []Candidate
+		want   []string
+		not    []string
+	}{
+		{"none acted on, no flip", []Candidate{unsettled(none)},
+			[]string{"acts on none; but that\ndoes not rule out", "by 0.065 (0.033–0.108) on its 14 confirming texts",
+				"though no prediction changed:\n    with 14 texts, a flip rate up to 23% is not ruled out"},
+			[]string{"nothing to act on"}},
+		{"none acted on, flips within the control's", []Candidate{unsettled(some)},
+			[]string{"did not change measurably beyond the control:\n    with 14 texts, a flip rate up to 21% is not ruled out"},
+			[]string{"nothing to act on", "no prediction changed"}},
+		{"one acted on besides", []Candidate{acted, unsettled(none)},
+			[]string{"The audit acts on no other cue, but it does not rule out these", "a flip rate up to 23% is not ruled out"},
+			nil},
+		{"not confidence only", []Candidate{func() Candidate { c := unsettled(none); c.ConfidenceOnly = false; return c }()},
+			[]string{"nothing to act on"}, []string{"not ruled out"}},
+		{"five, three named", []Candidate{unsettled(none), unsettled(none), unsettled(none), unsettled(some), unsettled(some)},
+			[]string{"  - and 2 more cues, likewise"}, []string{"nothing to act on", "up to 21%"}},
+	} {
+		r := &Result{ConfirmationTexts: 100, Ranked: c.ranked}
+		story := r.Story()
+		for _, w := range c.want {
+			if !strings.Contains(story, w) {
+				t.Errorf("%s: the story lacks %q:\n%s", c.name, w, story)
+			}
+		}
+		for _, w := range c.not {
+			if strings.Contains(story, w) {
+				t.Errorf("%s: the story says %q:\n%s", c.name, w, story)
+			}
+		}
+		var b strings.Builder
+		if err := r.WriteText(&b); err != nil {
+			t.Fatal(err)
+		}
+		line := "→ ham (relied on in choosing, not confirmed; the model's confidence in ham rests on it on its confirming texts"
+		want := 0
+		for _, cand := range c.ranked {
+			if cand.ConfidenceOnly {
+				want++
+			}
+		}
+		if got := strings.Count(b.String(), line); got != want {
+			t.Errorf("%s: the cue's verdict line holds %q: %v\n%s", c.name, line, got, b.String())
+		}
+	}
+}
+
+// Cues marked artifact that the audit does not act on are taken out by
+// retraining without the cues (telltale audit --retrain, the window's
+// Retrain: the acted-on cues' patterns and the marks'), so the story says
+// so, above such a retraining, instead of "nothing to act on"; with the
+// retrained model's file, it names the file.
+func TestStoryMarkedNotActed(t *testing.T) {
+	pat := pattern([]string{"re", ":"})
+	acted := Candidate{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: VerdictActed,
+		Confirmed: &Reliance{Texts: 10, Measured: 10}, Association: CueAssociation{Texts: 20}}
+	for _, c := range []struct {
+		name   string
+		ranked []Candidate
+		marked []string
+		model  string
+		want   []string
+		not    []string
+	}{
+		{"no mark", nil, nil, "", []string{"there is nothing to act on"}, []string{"You marked"}},
+		{"marked, none acted on", nil, []string{"re :"}, "",
+			[]string{"by its measures the audit acts on none", "You marked 1 cue as artifact that the audit does not act on by its measures: 're :'",
+				"telltale audit --retrain, or Retrain in the window) takes it out too", "    " + pat},
+			[]string{"nothing to act on"}},
+		{"marked, none acted on, retrained into a file", nil, []string{"re :"}, "m-without.tt",
+			[]string{"this audit retrains the model's recipe without it too, into m-without.tt (--retrain-out)"},
+			[]string{"nothing to act on"}},
+		{"marked besides a cue acted on", []Candidate{acted}, []string{"re :"}, "",
+			[]string{"You also marked 1 cue as artifact", "    " + pat}, []string{"nothing to act on"}},
+	} {
+		r := &Result{ConfirmationTexts: 100, Ranked: c.ranked, Action: Action{RetrainedModel: c.model}}
+		if len(c.ranked) > 0 {
+			r.Action.Cues, r.Action.Patterns = []string{"stamp"}, []string{pattern([]string{"stamp"})}
+		}
+		for _, m := range c.marked {
+			r.Action.Marked = append(r.Action.Marked, m)
+			r.Action.MarkedPatterns = append(r.Action.MarkedPatterns, pattern(strings.Fields(m)))
+		}
+		story := r.Story()
+		for _, w := range c.want {
+			if !strings.Contains(story, w) {
+				t.Errorf("%s: the story lacks %q:\n%s", c.name, w, story)
+			}
+		}
+		for _, w := range c.not {
+			if strings.Contains(story, w) {
+				t.Errorf("%s: the story says %q:\n%s", c.name, w, story)
+			}
+		}
+	}
+}
+
+// The action names the cues marked artifact that it does not act on, with
+// the patterns Marks.Patterns gives them (those retraining takes out), and
+// leaves out a marked cue it acts on.
+func TestActionMarked(t *testing.T) {
+	mk := NewMarks()
+	for _, ws := range [][]string{{"re", ":"}, {"stamp"}} {
+		if err := mk.Set(ws, MarkArtifact); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := mk.Set([]string{"not"}, MarkTask); err != nil {
+		t.Fatal(err)
+	}
+	a := &auditor{opt: Options{Marks: mk, RetrainedModel: "m-without.tt"}, progress: func(string, int, int) {}}
+	for _, c := range []struct {
+		name   string
+		ranked []Candidate
+		want   []string
+	}{
+		{"none acted on", nil, []string{"re :", "stamp"}},
+		{"the stamp acted on", []Candidate{{Words: []string{"stamp"}, Text: "stamp", Verdict: VerdictActed, Pattern: pattern([]string{"stamp"})}}, []string{"re :"}},
+	} {
+		res := &Result{Ranked: c.ranked}
+		if len(c.ranked) > 0 {
+			// The stamp's pattern stands in the action as acting on it puts
+			// it there (acting itself measures the counterfactual split,
+			// which needs a model).
+			res.Ranked[0].Verdict = VerdictUnconfirmed
+			res.Action.Patterns = []string{c.ranked[0].Pattern}
+		}
+		if err := a.act(t.Context(), res); err != nil {
+			t.Fatal(err)
+		}
+		var wantPats []string
+		for _, w := range c.want {
+			wantPats = append(wantPats, pattern(strings.Fields(w)))
+		}
+		if !slices.Equal(res.Action.Marked, c.want) || !slices.Equal(res.Action.MarkedPatterns, wantPats) || res.Action.RetrainedModel != "m-without.tt" {
+			t.Errorf("%s: marked %q, patterns %q, retrained model %q; want %q, %q, m-without.tt", c.name,
+				res.Action.Marked, res.Action.MarkedPatterns, res.Action.RetrainedModel, c.want, wantPats)
+		}
+	}
+}

@@ -67,6 +67,9 @@ func DescribeCue(c *audit.Candidate, r *audit.Result, priors []float64) CueEvide
 	if c.Mark != "" {
 		ev.Verdict += ", marked " + c.Mark
 	}
+	if note := c.NotRuledOut(); note != "" {
+		ev.Verdict += "; " + note
+	}
 	ev.Artifact = ArtifactScore(c.ArtifactLikeness)
 	if c.Mark == audit.MarkArtifact {
 		ev.Artifact += "; you marked it as an artifact"
@@ -190,9 +193,16 @@ func interval(x audit.Interval) string {
 	return pct(x.Estimate) + " (" + strings.TrimSuffix(pct(x.Low), "%") + "–" + pct(x.High) + ")"
 }
 
-// drop writes a difference of probabilities with its interval.
+// drop writes a difference of probabilities with its interval; a value
+// that rounds to 0 is "0.000", never "-0.000".
 func drop(x audit.Interval) string {
-	return num(x.Estimate) + " (" + num(x.Low) + " to " + num(x.High) + ")"
+	z := func(v float64) string {
+		if s := num(v); s != "-0.000" {
+			return s
+		}
+		return "0.000"
+	}
+	return z(x.Estimate) + " (" + z(x.Low) + " to " + z(x.High) + ")"
 }
 
 // accuracy writes an accuracy with its interval.

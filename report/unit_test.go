@@ -39,6 +39,7 @@ func TestFormats(t *testing.T) {
 		{pvalue(0), "< 1e-300"},
 		{interval(auditpkg.Interval{Estimate: 0.14, Low: 0.086, High: 0.191}), "14.0% (8.6–19.1%)"},
 		{drop(auditpkg.Interval{Estimate: 0.001, Low: -0.046, High: 0.052}), "0.001 (-0.046 to 0.052)"},
+		{drop(auditpkg.Interval{Estimate: -1e-7, Low: -3e-7, High: 2e-7}), "0.000 (0.000 to 0.000)"}, // never "-0.000"
 		{accuracy(auditpkg.Interval{Estimate: 0.9, Low: 0.867, High: 0.926}), "0.900 (0.867–0.926)"},
 		{AssociationTestName(auditpkg.TestBinomial), "exact binomial test"},
 		{CorrectionName(auditpkg.CorrectBonferroni), "Bonferroni"},
