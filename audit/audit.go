@@ -199,10 +199,10 @@ type Candidate struct {
 	Relied     bool    `json:"relied_confirmed"`
 	// ConfidenceOnly marks an artifact-like cue put to the test whose
 	// label's probability drop the confirmation half confirms (its sign
-	// test, ConfirmedQ at most Options.RelianceAlpha, and the drop above
-	// 0) but whose flips it does not (the net flip rate's interval reaches
-	// 0): the model's confidence rests on it there though its predictions
-	// did not measurably change. It is not acted on (VerdictUnconfirmed);
+	// test, ConfirmedQ at most Options.RelianceAlpha, and a mean drop of
+	// at least minConfidenceDrop) but whose flips it does not (the net flip
+	// rate's interval reaches 0): the model's confidence rests on it there
+	// though its predictions did not measurably change. It is not acted on (VerdictUnconfirmed);
 	// NotRuledOut says what the flips' interval leaves open.
 	ConfidenceOnly bool `json:"confidence_only,omitempty"`
 	// Shift is question 4: the cue's label share in the selection half of

@@ -10,6 +10,15 @@ import (
 // for its reliance to be measured.
 const minCueTexts = 5
 
+// minConfidenceDrop is the smallest mean drop in a cue's label probability
+// that the audit reports as the model's confidence resting on the cue
+// (Candidate.ConfidenceOnly): a drop of a hundredth, the smallest a
+// three-decimal figure shows as more than noise in the last digit. A drop
+// below it may pass its sign test (a model sure of every text moves each
+// probability a little, the same way) without being worth a reader's
+// attention. Common practice, no source: a display threshold, not a test.
+const minConfidenceDrop = 0.01
+
 // measure chooses the cues whose reliance is measured and measures it on
 // the selection half.
 func (a *auditor) measure(ctx context.Context, cands []*Candidate) ([]*Candidate, error) {
@@ -219,8 +228,9 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	// probability (the sign test, Benjamini–Hochberg over the cues put to
 	// the test) and change predictions beyond the control (the 95%
 	// interval of the net flip rate above 0). One that passes the first
-	// and not the second is not acted on, but marked ConfidenceOnly: the
-	// story says what its flips' interval leaves open.
+	// and not the second is not acted on, but marked ConfidenceOnly when its
+	// drop is at least minConfidenceDrop: the story says what its flips'
+	// interval leaves open.
 	var put []int
 	for k := range res.Ranked {
 		if res.Ranked[k].Verdict == VerdictUnconfirmed {
@@ -232,15 +242,7 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 		ps[i] = res.Ranked[k].Confirmed.P
 	}
 	for i, q := range BenjaminiHochberg(ps) {
-		c := &res.Ranked[put[i]]
-		c.ConfirmedQ = q
-		if q <= a.opt.RelianceAlpha && c.Confirmed.LabelDrop.Estimate > 0 {
-			if c.Confirmed.NetFlipRate.Low > 0 {
-				c.Verdict, c.Relied = VerdictActed, true
-			} else {
-				c.ConfidenceOnly = true
-			}
-		}
+		res.Ranked[put[i]].settle(q, a.opt.RelianceAlpha)
 	}
 	res.Task = a.confirmedTask(res.Task)
 	// The cues acted on first, then those relied on in choosing only, then
@@ -266,4 +268,23 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 		}
 	}
 	return nil
+}
+
+// settle sets the verdict of a cue put to the test on the confirmation
+// half from the adjusted p-value q of its drop's sign test: acted on when
+// q is at most alpha, the mean drop above 0 and the net flip rate's
+// interval above 0; ConfidenceOnly when only the flips fail and the drop
+// is at least minConfidenceDrop; else it stays as it is. c.Confirmed must
+// be set.
+func (c *Candidate) settle(q, alpha float64) {
+	c.ConfirmedQ = q
+	drop := c.Confirmed.LabelDrop.Estimate
+	if q > alpha || !(drop > 0) {
+		return
+	}
+	if c.Confirmed.NetFlipRate.Low > 0 {
+		c.Verdict, c.Relied = VerdictActed, true
+	} else if drop >= minConfidenceDrop {
+		c.ConfidenceOnly = true
+	}
 }

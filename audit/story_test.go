@@ -427,3 +427,30 @@ func TestActionMarked(t *testing.T) {
 		}
 	}
 }
+
+// TestSettle: a cue put to the test is acted on when its drop's adjusted
+// p-value passes, its mean drop is above 0 and its net flip rate's
+// interval lies above 0; with the flips failing it is marked
+// ConfidenceOnly only for a drop of at least minConfidenceDrop; otherwise
+// it keeps its verdict. (Identities of the rule; the numbers are
+// invented.)
+func TestSettle(t *testing.T) {
+	for _, c := range []struct {
+		name              string
+		q, drop, netLow   float64
+		acted, confidence bool
+	}{
+		{"acted", 0.001, 0.2, 0.01, true, false},
+		{"flips fail, drop large", 0.001, 0.065, 0, false, true},
+		{"flips fail, drop tiny", 0.001, 0.0004, 0, false, false},
+		{"drop test fails", 0.2, 0.2, 0.01, false, false},
+		{"no drop", 0.001, 0, 0.01, false, false},
+	} {
+		cand := Candidate{Verdict: VerdictUnconfirmed, Confirmed: &Reliance{}}
+		cand.Confirmed.LabelDrop.Estimate, cand.Confirmed.NetFlipRate.Low = c.drop, c.netLow
+		cand.settle(c.q, 0.05)
+		if (cand.Verdict == VerdictActed) != c.acted || cand.Relied != c.acted || cand.ConfidenceOnly != c.confidence || cand.ConfirmedQ != c.q {
+			t.Errorf("%s: verdict %s relied %v confidence-only %v q %g", c.name, cand.Verdict, cand.Relied, cand.ConfidenceOnly, cand.ConfirmedQ)
+		}
+	}
+}
