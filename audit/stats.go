@@ -7,6 +7,8 @@ import (
 
 	"gonum.org/v1/gonum/mathext"
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"telltale/cnn"
 )
 
 // BinomialUpper is the one-sided exact binomial p-value P(X ≥ k) for
@@ -168,13 +170,6 @@ func ClopperPearson(k, n int, conf float64) (lo, hi float64) {
 	if n <= 0 {
 		return 0, 1
 	}
-	a := (1 - conf) / 2
-	lo, hi = 0, 1
-	if k > 0 {
-		lo = distuv.Beta{Alpha: float64(k), Beta: float64(n - k + 1)}.Quantile(a)
-	}
-	if k < n {
-		hi = distuv.Beta{Alpha: float64(k + 1), Beta: float64(n - k)}.Quantile(1 - a)
-	}
-	return lo, hi
+	iv := cnn.ClopperPearsonInterval(k, n, conf)
+	return iv.Low, iv.High
 }

@@ -6,6 +6,8 @@ import (
 	"slices"
 
 	"gonum.org/v1/gonum/mathext"
+
+	"telltale/cnn"
 )
 
 // Selectivity says whether a filter's strong activations tell its class
@@ -109,17 +111,11 @@ func BinomialUpper(k, n int, p float64) float64 {
 }
 
 // ClopperPearson is the exact two-sided confidence interval at level (e.g.
-// 0.95) for a binomial proportion with k successes in n > 0 trials.
+// 0.95) for a binomial proportion with k successes in n > 0 trials
+// (cnn.ClopperPearsonInterval).
 func ClopperPearson(k, n int, level float64) (lo, hi float64) {
-	a := (1 - level) / 2
-	lo, hi = 0, 1
-	if k > 0 {
-		lo = mathext.InvRegIncBeta(float64(k), float64(n-k+1), a)
-	}
-	if k < n {
-		hi = mathext.InvRegIncBeta(float64(k+1), float64(n-k), 1-a)
-	}
-	return lo, hi
+	iv := cnn.ClopperPearsonInterval(k, n, level)
+	return iv.Low, iv.High
 }
 
 // Holm returns the p-values adjusted by Holm's step-down method: sorted
