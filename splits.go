@@ -368,7 +368,7 @@ func (es *evalSet) checkTraining(rec *cnn.SplitRecord, name string, same bool, r
 
 // checkShared warns when the test split train held out of data (the
 // model's data, rec its splits) holds texts of the training split as
-// well, copies in data (inTraining: the exact text, as telltale data
+// well, copies in data (inTraining: exact or near-exact, as telltale data
 // counts its leaks), and says so in the note, which calls the split
 // unused for training.
 func (es *evalSet) checkShared(rec *cnn.SplitRecord, data string) {
@@ -377,7 +377,7 @@ func (es *evalSet) checkShared(rec *cnn.SplitRecord, data string) {
 		return
 	}
 	es.warnings = append(es.warnings, sharedWarning("test", data, rec, n, len(es.test.Examples), "its figures are not all held-out figures"))
-	es.note += fmt.Sprintf("; but %d of them are texts of the training split as well", n)
+	es.note += fmt.Sprintf("; but %d of them are texts of the training split as well, or near-exact copies of them", n)
 }
 
 // recordedTraining is the training split of the model whose split record
@@ -427,21 +427,27 @@ func trainingWarning(rec *cnn.SplitRecord, texts *corpus.Dataset, name string, t
 		return ""
 	}
 	if n := inTraining(texts, train); n > 0 {
-		return fmt.Sprintf("%s %s: %d of its %s are texts of the model's training split, so its figures are not all held-out figures",
+		return fmt.Sprintf("%s %s: %d of its %s are texts of the model's training split or near-exact copies of them, so its figures are not all held-out figures",
 			name, mayHoldTraining, n, wording.Texts(len(texts.Examples)))
 	}
 	return ""
 }
 
-// inTraining counts the texts of test that are also texts of train.
+// inTraining counts the texts of test that are also texts of train, or
+// near-exact copies of one (corpus.NearKey: the same words, ignoring case,
+// punctuation and digits), as telltale data counts its leaks.
 func inTraining(test, train *corpus.Dataset) int {
-	seen := make(map[string]bool, len(train.Examples))
+	exact := make(map[string]bool, len(train.Examples))
+	near := make(map[string]bool, len(train.Examples))
 	for _, e := range train.Examples {
-		seen[e.Text] = true
+		exact[e.Text] = true
+		if k := corpus.NearKey(e.Text); k != "" {
+			near[k] = true
+		}
 	}
 	n := 0
 	for _, e := range test.Examples {
-		if seen[e.Text] {
+		if k := corpus.NearKey(e.Text); exact[e.Text] || (k != "" && near[k]) {
 			n++
 		}
 	}

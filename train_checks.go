@@ -53,7 +53,7 @@ type heldInTraining struct {
 
 // heldTextsInTraining says, for the dev split and the test split, how
 // many of their texts are also texts of the training split (inTraining,
-// the exact text, as telltale data counts its leaks): such a test split's
+// exact or near-exact copies, as telltale data counts its leaks): such a test split's
 // figures are not held-out figures, and such a dev split chooses the epoch
 // on texts the model learned. A split given as a file (--dev, --test) is
 // named by its file; one held out of --data holds such texts when --data
@@ -75,7 +75,7 @@ func (o *trainOptions) heldTextsInTraining(sp *splits) heldInTraining {
 			h.warnings = append(h.warnings, sharedWarning(f.which, o.data, &sp.record, *f.n, len(f.ds.Examples), f.use))
 			continue
 		}
-		h.warnings = append(h.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the training split of %s: %s; "+
+		h.warnings = append(h.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the training split of %s or near-exact copies of them: %s; "+
 			"take them out of one of the files ('telltale data --data %s %s %s' lists them)",
 			f.opt, f.path, *f.n, wording.Texts(len(f.ds.Examples)), o.data, f.use, o.data, f.opt, f.path))
 	}
@@ -87,7 +87,7 @@ func (o *trainOptions) heldTextsInTraining(sp *splits) heldInTraining {
 // texts of the training split too: data holds copies of them, and the
 // split drew some; use says what follows for the split.
 func sharedWarning(which, data string, rec *cnn.SplitRecord, n, total int, use string) string {
-	return fmt.Sprintf("the %s split held out of %s: %d of its %s are texts of the training split as well (%s holds copies of them): %s; "+
+	return fmt.Sprintf("the %s split held out of %s: %d of its %s are texts of the training split as well (%s holds copies of them, exact or near-exact): %s; "+
 		"keep one copy of each text in %s ('telltale data --data %s%s' lists the copies as LEAK)",
 		which, data, n, wording.Texts(total), data, use, data, data, splitFlags(rec))
 }

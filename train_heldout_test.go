@@ -107,9 +107,10 @@ func writeRecords(t *testing.T, path string, recs [][]string) string {
 // sharedData writes to dir a two-label CSV file of n distinct texts, each
 // 8 words drawn (seeded) from a list of 40 letters-only words plus a word
 // of its label, so that no two texts are near-exact duplicates either;
-// with copies, the first copies texts written again after them. It
-// returns its path.
-func sharedData(t *testing.T, dir string, n, copies int) string {
+// with copies, the first copies texts written again after them, as they
+// are or, with near, upper-cased with marks and digits added (near-exact
+// copies, corpus.NearKey). It returns its path.
+func sharedData(t *testing.T, dir string, n, copies int, near bool) string {
 	t.Helper()
 	words := strings.Fields("alpha bravo charlie delta echo foxtrot golf hotel india juliet kilo lima mike november " +
 		"oscar papa quebec romeo sierra tango uniform victor whiskey xray yankee zulu apple berry cherry grape lemon mango " +
@@ -132,8 +133,13 @@ func sharedData(t *testing.T, dir string, n, copies int) string {
 			recs = append(recs, []string{text, label})
 		}
 	}
-	recs = append(recs, recs[1:1+copies]...)
-	return writeRecords(t, filepath.Join(dir, fmt.Sprintf("shared%d.csv", copies)), recs)
+	for _, rec := range recs[1 : 1+copies] {
+		if near {
+			rec = []string{strings.ToUpper(rec[0]) + "!! 42", rec[1]}
+		}
+		recs = append(recs, rec)
+	}
+	return writeRecords(t, filepath.Join(dir, fmt.Sprintf("shared%d-%v.csv", copies, near)), recs)
 }
 
 // TestSharedTextsInTrainingAreWarnedOf: when --data holds copies of a
@@ -141,22 +147,27 @@ func sharedData(t *testing.T, dir string, n, copies int) string {
 // whose twin is in the training split. train warns of each such split
 // with the count of those texts, and eval and compare warn of the test
 // split, in their JSON too; the counts are those of the seeded split
-// counted here, and together those telltale data reports as leaks (its
-// exact duplicates; the texts have no near-exact ones). The same data
-// without the copies gets no warning.
+// counted here, and together those telltale data reports as leaks: exact
+// copies, and near-exact ones (upper-cased, with marks and digits added),
+// which the model reads as the same words. The same data without the
+// copies gets no warning.
 func TestSharedTextsInTrainingAreWarnedOf(t *testing.T) {
 	dir := t.TempDir()
-	for _, copies := range []int{0, 60} {
-		data := sharedData(t, dir, 200, copies)
+	for _, c := range []struct {
+		copies int
+		near   bool
+	}{{0, false}, {60, false}, {60, true}} {
+		copies := c.copies
+		data := sharedData(t, dir, 200, copies, c.near)
 		all := loadExamples(t, data)
 		train, dev, test := all.SplitThree(cnn.DefaultDevFrac, cnn.DefaultTestFrac, cnn.DefaultRecipe().Train.Seed)
 		inTrain := map[string]bool{}
 		for _, e := range train.Examples {
-			inTrain[e.Text] = true
+			inTrain[e.Text], inTrain[corpus.NearKey(e.Text)] = true, true
 		}
 		count := func(d *corpus.Dataset) (n int) {
 			for _, e := range d.Examples {
-				if inTrain[e.Text] {
+				if inTrain[e.Text] || inTrain[corpus.NearKey(e.Text)] {
 					n++
 				}
 			}
@@ -171,13 +182,13 @@ func TestSharedTextsInTrainingAreWarnedOf(t *testing.T) {
 		if sum.Leaks != wantDev+wantTest {
 			t.Errorf("%d copies: telltale data counts %d leaks, the split %d in dev and %d in test", copies, sum.Leaks, wantDev, wantTest)
 		}
-		model := filepath.Join(dir, fmt.Sprintf("m%d.tt", copies))
+		model := filepath.Join(dir, fmt.Sprintf("m%d-%v.tt", copies, c.near))
 		var ts trainSummary
 		stderr := jsonOf(t, &ts, "train", "--data", data, "--out", model, "--epochs", "1", "--dim", "8", "--maps", "4", "--json")
 		noCrash(t, "train", stderr)
 		var ev evalOutput
 		jsonOf(t, &ev, "eval", "--model", model, "--data", data, "--json")
-		other := filepath.Join(dir, fmt.Sprintf("other%d.tt", copies))
+		other := filepath.Join(dir, fmt.Sprintf("other%d-%v.tt", copies, c.near))
 		trainSmall(t, data, other, "--seed", "2")
 		var rows []compareRow
 		jsonOf(t, &rows, "compare", "--models", model+","+other, "--data", data, "--json")

@@ -19,7 +19,7 @@ func TestTrainSaysHowTheCIsChosen(t *testing.T) {
 		want string
 	}{
 		{filepath.Join("testdata", "bad", "two-labels.csv"), middle},
-		{sharedData(t, dir, 200, 0), chosen},
+		{sharedData(t, dir, 200, 0, false), chosen},
 	} {
 		code, _, stderr := tt(t, "train", "--data", c.data, "--out", filepath.Join(dir, "m.tt"), "--epochs", "1", "--dim", "4", "--maps", "2", "--force")
 		noCrash(t, c.data, stderr)
@@ -38,7 +38,7 @@ func TestTrainSaysHowTheCIsChosen(t *testing.T) {
 // columns may be swapped, naming both options.
 func TestTrainHintsAtSwappedColumns(t *testing.T) {
 	dir := t.TempDir()
-	recs := readRecords(t, sharedData(t, dir, 120, 0))
+	recs := readRecords(t, sharedData(t, dir, 120, 0, false))
 	recs[100][0] = ""
 	data := writeRecords(t, filepath.Join(dir, "blank.csv"), recs)
 	code, _, stderr := tt(t, "train", "--data", data, "--text-col", "label", "--label-col", "text", "--out", filepath.Join(dir, "m.tt"))

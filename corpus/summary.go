@@ -172,8 +172,10 @@ func (s *Summary) duplicates(sets []*Dataset, names []string) {
 		for i, e := range d.Examples {
 			m := member{si, i, hashString(e.Text)}
 			exact[m.exact] = append(exact[m.exact], m)
-			nk := hashString(nearKey(e.Text))
-			near[nk] = append(near[nk], m)
+			if k := NearKey(e.Text); k != "" { // texts of digits and marks alone are not near copies of each other
+				nk := hashString(k)
+				near[nk] = append(near[nk], m)
+			}
 		}
 	}
 	leaked := map[member]bool{}
@@ -255,9 +257,10 @@ func hashString(s string) uint64 {
 	return h.Sum64()
 }
 
-// nearKey lower-cases s, drops punctuation, symbols and digits and
-// collapses white space.
-func nearKey(s string) string {
+// NearKey lower-cases s, drops punctuation, symbols and digits and
+// collapses white space: two texts with the same key, not empty, are
+// near-exact copies (Summary's near groups and leaks).
+func NearKey(s string) string {
 	var b strings.Builder
 	space := false
 	for _, r := range s {
