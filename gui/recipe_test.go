@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 
+	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
 	"fyne.io/fyne/v2/widget"
 
@@ -242,5 +243,28 @@ func TestRecipeFormOptimizerRate(t *testing.T) {
 		if rec.Train.Optimizer != c.optimizer || rec.Train.LR != c.want {
 			t.Errorf("%s at %q: %s at %g, want %g", c.optimizer, c.lr, rec.Train.Optimizer, rec.Train.LR, c.want)
 		}
+	}
+}
+
+// A recipe that needs fixing puts its error in the status bar in one line
+// (the dialog shows it whole): a second line would make the window taller
+// than a 700-pixel screen.
+func TestRecipeErrorKeepsTheStatusBarOneLine(t *testing.T) {
+	w, st, q := demoWindow(t, fyne.NewSize(1024, 700))
+	before := w.Content().MinSize().Height
+	_ = st.recipe.widths.Set("3,x")
+	_ = st.recipe.epochs.Set("zero")
+	q.drain()
+	st.trainNow()
+	q.drain()
+	s := st.statusText()
+	if !strings.Contains(s, `filter widths "3,x"`) || !strings.Contains(s, "epochs") {
+		t.Fatalf("status %q does not name the fields to fix", s)
+	}
+	if strings.ContainsAny(s, "\r\n") {
+		t.Errorf("status %q has more than one line", s)
+	}
+	if after := w.Content().MinSize().Height; after > before {
+		t.Errorf("the window's least height grew from %v to %v with the error", before, after)
 	}
 }

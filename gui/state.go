@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strings"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
@@ -121,8 +122,17 @@ func (st *State) newStatusBar() {
 	st.stopBtn.Disable()
 }
 
-// setStatus says in the status bar what the window is doing.
-func (st *State) setStatus(s string) { st.statusLine.SetText(s) }
+// setStatus says in the status bar what the window is doing, in one line:
+// the lines of a longer message (an error's list of fixes) are joined, and
+// what does not fit ends in "…" (an error's dialog shows it whole). A
+// second line would make the bar taller and the window with it, past the
+// bottom of a small screen.
+func (st *State) setStatus(s string) {
+	if strings.ContainsAny(s, "\r\n") {
+		s = oneLine(s)
+	}
+	st.statusLine.SetText(s)
+}
 
 // statusText is the status bar's line.
 func (st *State) statusText() string { return st.statusLine.Text }
