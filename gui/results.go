@@ -140,7 +140,7 @@ func (v *resultsView) refresh() {
 	}
 	v.caption.SetText(ms.caption())
 	m := ms.Eval.Metrics
-	head, beside := figureLines(ms.Eval.Figures, ms.Model)
+	head, beside := figureLines(ms.Eval.Figures, ms.Model, ms.BaselineStopped)
 	v.headline.SetText(fmt.Sprintf("Test split, %s: %s (%g%% intervals).", wording.Texts(m.N), head, 100*cnn.IntervalLevel))
 	v.beside.SetText(beside)
 	iv := cnn.IntervalsOf(m)
@@ -163,10 +163,14 @@ func (v *resultsView) refresh() {
 // figureLines words the figures of f as the command line prints them: the
 // CNN's accuracy and macro-F1 with their intervals (head), and the line
 // beside them: the linear baseline's and the McNemar test between the two,
-// or that m carries no baseline.
-func figureLines(f cnn.Figures, m *cnn.Model) (head, beside string) {
+// or that m carries no baseline: stopped says that the run was stopped
+// before the baseline it asked for was fitted.
+func figureLines(f cnn.Figures, m *cnn.Model, stopped bool) (head, beside string) {
 	head = fmt.Sprintf("accuracy %s, macro-F1 %s", f.CNN.Accuracy, f.CNN.MacroF1)
 	if f.Baseline == nil || f.McNemar == nil || m.Baseline == nil {
+		if stopped {
+			return head, "No linear baseline to set beside it: the run was stopped before the baseline was fitted. Train again and let the run end to have one."
+		}
 		return head, "The model carries no linear baseline to set beside it: train with Linear baseline on (the default) to have one."
 	}
 	c := fmt.Sprintf("C = %g from the dev split", m.Baseline.Classifier.C)

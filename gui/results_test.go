@@ -143,12 +143,47 @@ func (s *session) resultsWithoutBaseline() {
 // no baseline.
 func TestFigureLinesWithoutBaseline(t *testing.T) {
 	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
-	head, beside := figureLines(cnn.FiguresOf(m, nil), &cnn.Model{})
+	head, beside := figureLines(cnn.FiguresOf(m, nil), &cnn.Model{}, false)
 	if want := "accuracy " + cnn.WilsonInterval(3, 4, 0.95).String(); !strings.HasPrefix(head, want) {
 		t.Errorf("head %q, want it to start %q", head, want)
 	}
 	if !strings.Contains(beside, "carries no linear baseline") || strings.Contains(beside, "McNemar") {
 		t.Errorf("beside %q", beside)
+	}
+}
+
+// A run stopped before its baseline was fitted says so, rather than ask for
+// the Linear baseline check that was on.
+func TestFigureLinesStoppedBeforeBaseline(t *testing.T) {
+	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
+	_, beside := figureLines(cnn.FiguresOf(m, nil), &cnn.Model{}, true)
+	if !strings.Contains(beside, "stopped before the baseline was fitted") || strings.Contains(beside, "Linear baseline on") {
+		t.Errorf("beside %q", beside)
+	}
+}
+
+// Stopping a run that asked for the baseline, during its epochs, leaves a
+// model without one, and the Results view says the run was stopped.
+func TestStoppedRunSaysWhyNoBaseline(t *testing.T) {
+	_, st, q := demoWindow(t, smallScreen)
+	smallRecipe(st)
+	_ = st.recipe.baseline.Set(true)
+	_ = st.recipe.epochs.Set("50")
+	_ = st.recipe.patience.Set("0")
+	q.drain()
+	st.trainNow()
+	q.waitFor(t, "the first epoch", func() bool { return len(st.trainingView.epochs.rows) > 0 })
+	st.cancel(taskTrain)
+	q.waitFor(t, "the stopped run", func() bool { return st.tasks.idle(taskTrain) && st.tasks.settled(taskTrain) })
+	q.drain()
+	ms := itemGet(st.model)
+	if ms == nil || ms.Model.Baseline != nil || !ms.BaselineStopped {
+		t.Fatalf("the stopped run's model: %v", ms)
+	}
+	st.show(titleResults)
+	q.drain()
+	if b := st.resultsView.beside.Text; !strings.Contains(b, "stopped before the baseline was fitted") {
+		t.Errorf("Results says %q", b)
 	}
 }
 
@@ -174,7 +209,7 @@ func TestFigureLinesBaselineAhead(t *testing.T) {
 			Baseline: &linear.Model{Classifier: &linear.Classifier{C: 10}}}
 		f := cnn.FiguresOf(m, nil)
 		f.Baseline, f.McNemar = &f.CNN, &c.test
-		_, beside := figureLines(f, model)
+		_, beside := figureLines(f, model, false)
 		if strings.Contains(beside, fit) != c.wantFit || strings.Contains(beside, cw) != c.wantCW ||
 			strings.Contains(beside, "The baseline is ahead here") != (c.wantFit || c.wantCW) {
 			t.Errorf("%s: %q; want the fitted start %v, the class weight %v", c.name, beside, c.wantFit, c.wantCW)
