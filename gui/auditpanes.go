@@ -214,6 +214,9 @@ type actionPane struct {
 const noRetrainYet = "Retrain without the cues to compare both models here: the model's recipe on the training split with the cues taken out, " +
 	"both models then on the test split as it is and with the cues taken out."
 
+// retrainingNote is the note while a retraining runs.
+const retrainingNote = "Retraining without the cues… (progress in the status bar)"
+
 func newActionPane(v *auditView) *actionPane {
 	p := &actionPane{v: v}
 	p.text = wrapped("")
@@ -323,8 +326,16 @@ func (p *actionPane) retrain() {
 	if a == nil {
 		return
 	}
-	p.compareNote.SetText("Retraining without the cues… (progress in the status bar)")
+	before := p.compareNote.Text
+	p.compareNote.SetText(retrainingNote)
 	p.v.st.retrainNow(a, func(r *retrained) {
+		if r == nil { // stopped or failed: the note says again what it said
+			if p.compareNote.Text == retrainingNote {
+				p.compareNote.SetText(before)
+			}
+			p.buttons()
+			return
+		}
 		if itemGet(p.v.st.model) != r.of.ms {
 			return
 		}

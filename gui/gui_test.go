@@ -470,6 +470,15 @@ func (s *session) retrain() {
 	if p.retrainBtn.Disabled() {
 		t.Fatalf("Retrain without the cues is disabled after an audit that acts on cues")
 	}
+	// A retraining stopped leaves the note as it was, not saying it runs.
+	before := p.compareNote.Text
+	test.Tap(p.retrainBtn)
+	st.cancel(taskRetrain)
+	q.waitFor(t, "the stopped retraining", func() bool { return st.tasks.idle(taskRetrain) && st.tasks.settled(taskRetrain) })
+	q.drain()
+	if p.result != nil || p.compareNote.Text != before || p.retrainBtn.Disabled() {
+		t.Errorf("after a stopped retraining: result %v, note %q (want %q), Retrain disabled %v", p.result, p.compareNote.Text, before, p.retrainBtn.Disabled())
+	}
 	test.Tap(p.retrainBtn)
 	q.waitFor(t, "the retrained model", func() bool { return p.result != nil })
 	rt := p.result.rt
