@@ -222,11 +222,7 @@ func mostConfused(m cnn.Metrics) (gold, pred int) {
 // with the diagonal of perfect calibration; the title gives the ECE with
 // its interval ece (nil when the confidences are not known).
 func reliabilityPlot(ev *evaluation, ece *cnn.CalibrationFigure) *plot.Plot {
-	e := fmt.Sprintf("%.3f (no interval: the confidences are not known)", ev.Metrics.ECE)
-	if ece != nil {
-		e = fmt.Sprintf("%s, %g%% interval", ece, 100*cnn.IntervalLevel)
-	}
-	p := newPlot(fmt.Sprintf("Reliability (test split): ECE %s over %d bins", e, cnn.DefaultBins), "confidence of the predicted label", "accuracy")
+	p := newPlot(reliabilityTitle(ev.Metrics.ECE, ece), "confidence of the predicted label", "accuracy")
 	bins := reliabilityBins(ev, cnn.DefaultBins)
 	diag, _ := plotter.NewLine(plotter.XYs{{X: 0, Y: 0}, {X: 1, Y: 1}})
 	if diag != nil {
@@ -253,6 +249,22 @@ func reliabilityPlot(ev *evaluation, ece *cnn.CalibrationFigure) *plot.Plot {
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = 0, 1, 0, 1
 	p.Legend.Top = false // bottom right: above the diagonal's far end
 	return p
+}
+
+// reliabilityTitle is the reliability diagram's title in two short lines,
+// so that it fits the pane of a small screen: the ECE, then its
+// bias-corrected estimate with its interval and the calibration test. The
+// plot's font has no "≤": a p-value at its floor reads "p <= …".
+func reliabilityTitle(observed float64, ece *cnn.CalibrationFigure) string {
+	head := fmt.Sprintf("Reliability (test split, %d bins): ECE %.3f", cnn.DefaultBins, observed)
+	if ece == nil {
+		return head + "\nno interval: the confidences are not known"
+	}
+	p := fmt.Sprintf("p = %.2g", ece.P)
+	if _, bound, ok := strings.Cut(ece.String(), "calibration p ≤ "); ok && ece.AtFloor {
+		p = "p <= " + strings.TrimSuffix(bound, ")")
+	}
+	return fmt.Sprintf("%s\nbias-corrected %.3f (%.3f–%.3f), calibration test %s", head, ece.Estimate, ece.Low, ece.High, p)
 }
 
 // reliabilityBins are the test predictions in cnn's equal-width confidence

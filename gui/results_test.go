@@ -8,11 +8,14 @@ import (
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/cnn"
 	"telltale/corpus"
 	"telltale/linear"
+
+	"gonum.org/v1/plot/vg"
 )
 
 // withBaseline fits the linear baseline into m as cnn.TrainText does: on
@@ -280,5 +283,32 @@ func TestRecipeForm(t *testing.T) {
 	r.reset()
 	if on, _ := r.baseline.Get(); !on {
 		t.Error("Defaults did not turn the baseline back on")
+	}
+}
+
+// The reliability diagram's title fits its pane on a 1024×700 screen, line
+// by line in the plot's own font, and writes a p-value at its floor with
+// "<=", which that font has (it has no "≤").
+func TestReliabilityTitleFits(t *testing.T) {
+	_, st, q := sharedLeanWindow(t, smallScreen)
+	st.show(titleResults)
+	q.drain()
+	rv := st.resultsView
+	rv.lower.SelectIndex(1)
+	q.drain()
+	p := rv.reliability.plot
+	if p == nil {
+		t.Fatal("no reliability diagram")
+	}
+	room := vg.Length(rv.reliability.Size().Width - 2*theme.Padding())
+	for _, line := range strings.Split(p.Title.Text, "\n") {
+		if w := p.Title.TextStyle.Width(line); w > room {
+			t.Errorf("title line %q is %.0f wide, the pane has %.0f", line, w, room)
+		}
+	}
+	floor := cnn.NewCalibrationFigure(0.053, cnn.Interval{Estimate: 0.04, Low: 0.024, High: 0.056}, 1/2001.0, 2000)
+	title := reliabilityTitle(0.053, &floor)
+	if !strings.Contains(title, "p <= 0.0005") || strings.Contains(title, "≤") {
+		t.Errorf("title %q, want the p-value at its floor as %q", title, "p <= 0.0005")
 	}
 }
