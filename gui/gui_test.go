@@ -19,6 +19,7 @@ import (
 	"telltale/audit"
 	"telltale/cnn"
 	"telltale/explain"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -271,6 +272,12 @@ func (s *session) audit() audit.Candidate {
 	// Both lists show every cue with the audit's figures.
 	if len(av.ranked.rows) != len(r.Ranked) || len(av.task.rows) != len(r.Task) {
 		t.Errorf("lists of %d and %d rows, the audit lists %d and %d cues", len(av.ranked.rows), len(av.task.rows), len(r.Ranked), len(r.Task))
+	}
+	// The Corpus view's cues note counts the cues of those two lists and
+	// groups the number of tests as the audit's own wording does.
+	listed := fmt.Sprintf("the %d cues the Cue audit view lists", len(av.ranked.rows)+len(av.task.rows))
+	if n := st.corpusView.cuesNote.Text; !strings.Contains(n, listed) || !strings.Contains(n, "over the "+wording.Thousands(r.Tests)+" word") {
+		t.Errorf("the Corpus view's cues note %q, want %q and the %s tests", n, listed, wording.Thousands(r.Tests))
 	}
 	top := r.Ranked[0]
 	row := av.ranked.rows[0]
