@@ -268,3 +268,26 @@ func TestRecipeErrorKeepsTheStatusBarOneLine(t *testing.T) {
 		t.Errorf("the window's least height grew from %v to %v with the error", before, after)
 	}
 }
+
+// The form's entries check their values as they are typed: a value that
+// Train would refuse is marked on its entry, not ticked.
+func TestRecipeEntriesCheckTheirValues(t *testing.T) {
+	_, st, q := demoWindow(t, smallScreen)
+	e := st.trainingView.firstEntry
+	for _, c := range []struct {
+		widths string
+		ok     bool
+	}{{"3,4,5", true}, {"3, 4", true}, {"3,x", false}, {"", false}} {
+		_ = st.recipe.widths.Set(c.widths)
+		q.drain()
+		if err := e.Validate(); (err == nil) != c.ok {
+			t.Errorf("filter widths %q: the entry's check says %v", c.widths, err)
+		}
+	}
+	fe := st.trainingView.testShare
+	_ = st.recipe.testFrac.Set("a tenth")
+	q.drain()
+	if fe.Validate() == nil {
+		t.Error("test share \"a tenth\" passes the entry's check")
+	}
+}
