@@ -191,3 +191,20 @@ func TestHelp(t *testing.T) {
 		}
 	}
 }
+
+// The views that judge a model or a label (Why this label, Results, Cue
+// audit) carry the caution about decisions about people, on screen.
+func TestCautionAboutPeople(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the views' cautions (no task, the UI run in place)")
+	a := test.NewTempApp(t)
+	st := newState(a, Options{}, func(f func()) { f() })
+	st.win = a.NewWindow("cautions")
+	st.win.SetContent(st.build())
+	st.win.Resize(smallScreen)
+	for _, view := range []string{titleWhy, titleResults, titleAudit} {
+		st.show(view)
+		if m := test.RenderToMarkup(st.win.Canvas()); !strings.Contains(m, "alone for decisions about people") {
+			t.Errorf("%s shows no caution about decisions about people", view)
+		}
+	}
+}
