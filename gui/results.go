@@ -2,6 +2,8 @@ package gui
 
 import (
 	"fmt"
+	"math"
+	"strconv"
 	"strings"
 
 	"fyne.io/fyne/v2"
@@ -42,6 +44,7 @@ func newResultsView(st *State) *resultsView {
 	v.headline.TextStyle.Bold = true
 	v.beside = wrapped("")
 	v.classes = newSheet("label", "precision", "recall", "F1", "support")
+	v.classes.exportCols = classExportCols
 	v.cellTexts = newSheet("#", "gold", "predicted", "p(predicted)", "text").wide(4, capText)
 	v.cellNote = wrapped("Click a cell of the confusion matrix to list its texts.")
 	v.confusion = newConfusionGrid(v.showCell)
@@ -144,12 +147,16 @@ func (v *resultsView) refresh() {
 	v.headline.SetText(fmt.Sprintf("Test split, %s: %s (%g%% intervals).", wording.Texts(m.N), head, 100*cnn.IntervalLevel))
 	v.beside.SetText(beside)
 	iv := cnn.IntervalsOf(m)
-	var rows [][]string
+	var rows, export [][]string
 	for i, c := range m.PerClass {
 		ci := iv.PerClass[i]
 		rows = append(rows, []string{c.Label, ci.Precision.String(), ci.Recall.String(), ci.F1.String(), fmt.Sprint(c.Support)})
+		export = append(export, classExportRow(c.Label, ci.Precision, ci.Recall, ci.F1, c.Support))
 	}
 	rows = append(rows, []string{"(weighted by support)", "", "", iv.WeightedF1.String(), fmt.Sprint(m.N)})
+	none := cnn.UndefinedInterval()
+	export = append(export, classExportRow("(weighted by support)", none, none, iv.WeightedF1, m.N))
+	v.classes.exportRows = export
 	v.classes.setRows(rows)
 	v.confusion.set(m)
 	v.reliability.set(reliabilityPlot(ms.Eval, iv.ECE))
@@ -158,6 +165,31 @@ func (v *resultsView) refresh() {
 	v.showCell(g, p)
 	v.body.Objects = []fyne.CanvasObject{v.full}
 	v.body.Refresh()
+}
+
+// classExportCols are the columns of the per-class table as File › Export
+// table as CSV writes it: each figure as its value and its interval's
+// bounds, as the command line's --export writes intervals.
+var classExportCols = []string{"label", "precision", "precision_low", "precision_high", "recall", "recall_low", "recall_high",
+	"f1", "f1_low", "f1_high", "support"}
+
+// classExportRow is one row of classExportCols; a figure with nothing to
+// measure has empty cells.
+func classExportRow(label string, precision, recall, f1 cnn.Interval, support int) []string {
+	row := []string{label}
+	for _, iv := range []cnn.Interval{precision, recall, f1} {
+		row = append(row, numberCell(iv.Estimate), numberCell(iv.Low), numberCell(iv.High))
+	}
+	return append(row, strconv.Itoa(support))
+}
+
+// numberCell writes x for a CSV export as the command line does (eight
+// significant digits), empty when x is not a number.
+func numberCell(x float64) string {
+	if math.IsNaN(x) {
+		return ""
+	}
+	return strconv.FormatFloat(x, 'g', 8, 64)
 }
 
 // figureLines words the figures of f as the command line prints them: the

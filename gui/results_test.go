@@ -1,8 +1,13 @@
 package gui
 
 import (
+	"bytes"
 	"context"
+	"encoding/csv"
+	"fmt"
 	"reflect"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -13,6 +18,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/testref"
 	"telltale/linear"
 
 	"gonum.org/v1/plot/vg"
@@ -310,5 +316,45 @@ func TestReliabilityTitleFits(t *testing.T) {
 	title := reliabilityTitle(0.053, &floor)
 	if !strings.Contains(title, "p <= 0.0005") || strings.Contains(title, "≤") {
 		t.Errorf("title %q, want the p-value at its floor as %q", title, "p <= 0.0005")
+	}
+}
+
+// File › Export table as CSV on Results writes the per-class figures as
+// numbers, each interval as its value, low and high (as --export does),
+// which encoding/csv and strconv read back as cnn's intervals.
+func TestResultsCSVHoldsNumbers(t *testing.T) {
+	_, st, q := sharedLeanWindow(t, smallScreen)
+	st.show(titleResults)
+	q.drain()
+	var b bytes.Buffer
+	if err := st.resultsView.exportTable().writeCSV(&b); err != nil {
+		t.Fatal(err)
+	}
+	recs, err := csv.NewReader(&b).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := itemGet(st.model).Eval.Metrics
+	iv := cnn.IntervalsOf(m)
+	if len(recs) != len(m.PerClass)+2 || !slices.Equal(recs[0], classExportCols) {
+		t.Fatalf("exported %d records with header %q, want %d and %q", len(recs), recs[0], len(m.PerClass)+2, classExportCols)
+	}
+	for i, c := range iv.PerClass {
+		row := recs[1+i]
+		if row[0] != c.Label || row[10] != fmt.Sprint(m.PerClass[i].Support) {
+			t.Errorf("row %q for class %s", row, c.Label)
+		}
+		for k, want := range []cnn.Interval{c.Precision, c.Recall, c.F1} {
+			for j, x := range []float64{want.Estimate, want.Low, want.High} {
+				got, err := strconv.ParseFloat(row[1+3*k+j], 64)
+				if err != nil || !testref.Close(got, x, 1e-12, 1e-7) {
+					t.Errorf("%s, column %s: %q, want %v", c.Label, classExportCols[1+3*k+j], row[1+3*k+j], x)
+				}
+			}
+		}
+	}
+	last := recs[len(recs)-1]
+	if f1, err := strconv.ParseFloat(last[7], 64); err != nil || !testref.Close(f1, iv.WeightedF1.Estimate, 1e-12, 1e-7) || last[1] != "" || last[10] != fmt.Sprint(m.N) {
+		t.Errorf("the weighted row %q, want F1 %v over %d texts", last, iv.WeightedF1.Estimate, m.N)
 	}
 }
