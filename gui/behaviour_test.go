@@ -208,3 +208,18 @@ func TestCautionAboutPeople(t *testing.T) {
 		}
 	}
 }
+
+// A text sent to Why this label from another view is painted for its
+// predicted label, not for the label chosen for the text shown before.
+func TestExplainThisPaintsThePredictedLabel(t *testing.T) {
+	_, st, q := sharedLeanWindow(t, smallScreen)
+	labels := itemGet(st.model).Model.Labels
+	st.show(titleWhy)
+	st.whyView.class.SetSelected(labels[1])
+	q.drain()
+	st.explainThis(itemGet(st.data).Test.Examples[3].Text, nil)
+	q.drain()
+	if got := st.whyView.class.Selected; got != classPredicted {
+		t.Errorf("a text sent from elsewhere is painted for %q, want %q", got, classPredicted)
+	}
+}
