@@ -341,13 +341,24 @@ func (p *actionPane) retrain() {
 		}
 		p.result = r
 		rt := r.rt
-		p.compareNote.SetText(fmt.Sprintf("Retrained with the model's recipe without %s: %s taken out of the training split, %d out of "+
-			"the confirming half of the test split, where both models are compared (the choosing half chose the cues). Accuracies with 95%% Wilson intervals. Word vectors the model may have been trained with are not used: model files do not record them.",
-			wording.Count(len(rt.Patterns), "cue", "cues"), wording.Count(rt.Removed, "match", "matches"), rt.HeldoutRemoved) + recipeMaskNote(rt))
+		p.compareNote.SetText(fmt.Sprintf("Retrained with the model's recipe without %s: %s taken out of the training split, %s out of "+
+			"the confirming half of the test split, where both models are compared (the choosing half chose the cues). Accuracies with 95%% Wilson intervals.",
+			wording.Count(len(rt.Patterns), "cue", "cues"), wording.Grouped(rt.Removed, "match", "matches"), wording.Thousands(rt.HeldoutRemoved)) +
+			vectorsNote(r.of.ms) + recipeMaskNote(rt))
 		p.compare.setRows(retrainRows(rt))
 		p.buttons()
 	})
 	p.buttons()
+}
+
+// vectorsNote says that word vectors are not used in a retraining, for a
+// model opened from a file: model files do not record them. A model
+// trained in this window had none (the window offers no vectors file).
+func vectorsNote(ms *modelState) string {
+	if ms.Run != nil {
+		return ""
+	}
+	return " Word vectors the model may have been trained with are not used: model files do not record them."
 }
 
 // saveRetrained asks where to save the retrained model.

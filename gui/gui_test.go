@@ -465,6 +465,12 @@ func (s *session) marks() {
 	if av.selected != cue.Text || av.evidence.verdict.Selected != mark {
 		t.Errorf("the evidence pane shows %q marked %q after the audit ran again", av.selected, av.evidence.verdict.Selected)
 	}
+	// Saving the model again writes its marks beside it, and the status
+	// line names both files.
+	st.commitSave(path, func(p string) error { return st.saveModel(s.ms, p) })
+	if got, want := st.statusText(), "Wrote "+path+" and ferry.marks beside it"; got != want {
+		t.Errorf("status %q after saving a model with marks, want %q", got, want)
+	}
 }
 
 // retrain: retraining without the cues compares both models on the
@@ -489,6 +495,11 @@ func (s *session) retrain() {
 	test.Tap(p.retrainBtn)
 	q.waitFor(t, "the retrained model", func() bool { return p.result != nil })
 	rt := p.result.rt
+	// A model trained in this window had no word vectors: the note does
+	// not warn of them; its counts are grouped by thousands.
+	if n := p.compareNote.Text; strings.Contains(n, "Word vectors") || !strings.Contains(n, wording.Grouped(rt.Removed, "match", "matches")+" taken out") {
+		t.Errorf("the note after retraining a model trained in the window: %q", n)
+	}
 	a := itemGet(st.audit)
 	if want := retrainPatterns(a.R, a.marks); !slices.Equal(rt.Patterns, want) {
 		t.Errorf("retrained without %q, want the cues acted on and marked artifact %q", rt.Patterns, want)

@@ -41,6 +41,10 @@ type State struct {
 
 	running binding.String // kinds of work running, for the views' buttons
 
+	// wroteBeside are the files a save wrote beside the one chosen (a
+	// model's marks), for the status line that reports the save.
+	wroteBeside []string
+
 	// What is open; each change is seen by every view.
 	data     binding.Item[*corpusState]
 	model    binding.Item[*modelState]
