@@ -113,7 +113,7 @@ func parseWidths(s string) ([]int, error) {
 	for _, f := range strings.Split(s, ",") {
 		w, err := strconv.Atoi(strings.TrimSpace(f))
 		if err != nil {
-			return nil, errors.New("give whole numbers separated by commas, e.g. 3,4,5")
+			return nil, errors.New("whole numbers, e.g. 3,4,5")
 		}
 		ws = append(ws, w)
 	}
@@ -121,16 +121,20 @@ func parseWidths(s string) ([]int, error) {
 }
 
 // The checks of the form's entries as they are typed (the form marks an
-// entry that fails one, where it would show a tick): the number's form
-// only; parse checks the ranges when Train is pressed.
+// entry that fails one, where it would show a tick, and shows the message
+// in place of the hint, on one line: the messages are as short as the
+// hints, so that the form keeps its width): the number's form only; parse
+// checks the ranges when Train is pressed.
 func checkWidths(s string) error {
-	_, err := parseWidths(s)
-	return err
+	if _, err := parseWidths(s); err != nil {
+		return errors.New("whole numbers, e.g. 3,4,5")
+	}
+	return nil
 }
 
 func checkWhole(s string) error {
 	if _, err := strconv.Atoi(strings.TrimSpace(s)); err != nil {
-		return errors.New("give a whole number, e.g. 10")
+		return errors.New("a whole number, e.g. 10")
 	}
 	return nil
 }
@@ -138,7 +142,7 @@ func checkWhole(s string) error {
 func checkReal(s string) error {
 	v, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
 	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-		return errors.New("give a number, e.g. 0.5")
+		return errors.New("a number, e.g. 0.5")
 	}
 	return nil
 }

@@ -272,8 +272,34 @@ func TestRecipeErrorKeepsTheStatusBarOneLine(t *testing.T) {
 // The form's entries check their values as they are typed: a value that
 // Train would refuse is marked on its entry, not ticked.
 func TestRecipeEntriesCheckTheirValues(t *testing.T) {
-	_, st, q := demoWindow(t, smallScreen)
+	w, st, q := demoWindow(t, smallScreen)
 	e := st.trainingView.firstEntry
+	// Each message shows under its entry, in one line: it must not make
+	// the window wider than a 1024-pixel screen.
+	st.show(titleTraining)
+	q.drain()
+	wide := w.Content().MinSize().Width
+	var entries []*widget.Entry
+	for _, it := range st.trainingView.form.Items {
+		if entry, ok := it.Widget.(*widget.Entry); ok && !entry.Disabled() {
+			entries = append(entries, entry)
+		}
+	}
+	if len(entries) < 10 {
+		t.Fatalf("the form has %d enabled entries", len(entries))
+	}
+	for _, entry := range entries {
+		test.Type(entry, "x")
+		q.drain()
+		if entry.Validate() == nil {
+			t.Errorf("%q typed: the entry's check passes", entry.Text)
+		}
+		if got := w.Content().MinSize().Width; got > wide || got > smallScreen.Width {
+			t.Errorf("%q typed: the window's least width grew from %v to %v", entry.Text, wide, got)
+		}
+	}
+	st.recipe.reset()
+	q.drain()
 	for _, c := range []struct {
 		widths string
 		ok     bool
