@@ -415,18 +415,21 @@ type retrained struct {
 // retrainNow trains a model with the audited model's recipe on the
 // training split with the cues taken out (audit.Retrain) and compares both
 // on the audit's confirming half as it is and without the cues; done gets the result on
-// the UI goroutine.
+// the UI goroutine, or nil when the retraining was stopped, failed or could
+// not start.
 func (st *State) retrainNow(as *auditState, done func(*retrained)) {
 	if st.isRunning(taskRetrain) {
 		return
 	}
 	rec, err := retrainRecipe(as.ms.Model, as.cs)
 	if err != nil {
+		done(nil)
 		st.showErrorf(err, "cannot retrain without the cues")
 		return
 	}
 	patterns := retrainPatterns(as.R, as.marks)
 	if len(patterns) == 0 {
+		done(nil)
 		st.showError(errors.New("no cue to retrain without: the audit acted on none and none is marked artifact; mark a cue as an artifact first"))
 		return
 	}
@@ -443,7 +446,7 @@ func (st *State) retrainNow(as *auditState, done func(*retrained)) {
 			err = ctx.Err()
 		}
 		if err != nil {
-			return nil, err
+			return func() { done(nil) }, err
 		}
 		recordRetrained(rt.Model, as)
 		return func() {

@@ -120,6 +120,7 @@ func (v *auditView) modelSaved(path string) error {
 		if err := v.st.writeMarks(file, am.marks); err != nil {
 			return fmt.Errorf("the model is saved, but its marks could not be written beside it to %s: %w", file, err)
 		}
+		v.st.wroteBeside = append(v.st.wroteBeside, file)
 	}
 	am.file = file
 	v.showMarks()

@@ -214,6 +214,9 @@ type actionPane struct {
 const noRetrainYet = "Retrain without the cues to compare both models here: the model's recipe on the training split with the cues taken out, " +
 	"both models then on the test split as it is and with the cues taken out."
 
+// retrainingNote is the note while a retraining runs.
+const retrainingNote = "Retraining without the cues… (progress in the status bar)"
+
 func newActionPane(v *auditView) *actionPane {
 	p := &actionPane{v: v}
 	p.text = wrapped("")
@@ -323,20 +326,39 @@ func (p *actionPane) retrain() {
 	if a == nil {
 		return
 	}
-	p.compareNote.SetText("Retraining without the cues… (progress in the status bar)")
+	before := p.compareNote.Text
+	p.compareNote.SetText(retrainingNote)
 	p.v.st.retrainNow(a, func(r *retrained) {
+		if r == nil { // stopped or failed: the note says again what it said
+			if p.compareNote.Text == retrainingNote {
+				p.compareNote.SetText(before)
+			}
+			p.buttons()
+			return
+		}
 		if itemGet(p.v.st.model) != r.of.ms {
 			return
 		}
 		p.result = r
 		rt := r.rt
-		p.compareNote.SetText(fmt.Sprintf("Retrained with the model's recipe without %s: %s taken out of the training split, %d out of "+
-			"the confirming half of the test split, where both models are compared (the choosing half chose the cues). Accuracies with 95%% Wilson intervals. Word vectors the model may have been trained with are not used: model files do not record them.",
-			wording.Count(len(rt.Patterns), "cue", "cues"), wording.Count(rt.Removed, "match", "matches"), rt.HeldoutRemoved) + recipeMaskNote(rt))
+		p.compareNote.SetText(fmt.Sprintf("Retrained with the model's recipe without %s: %s taken out of the training split, %s out of "+
+			"the confirming half of the test split, where both models are compared (the choosing half chose the cues). Accuracies with 95%% Wilson intervals.",
+			wording.Count(len(rt.Patterns), "cue", "cues"), wording.Grouped(rt.Removed, "match", "matches"), wording.Thousands(rt.HeldoutRemoved)) +
+			vectorsNote(r.of.ms) + recipeMaskNote(rt))
 		p.compare.setRows(retrainRows(rt))
 		p.buttons()
 	})
 	p.buttons()
+}
+
+// vectorsNote says that word vectors are not used in a retraining, for a
+// model opened from a file: model files do not record them. A model
+// trained in this window had none (the window offers no vectors file).
+func vectorsNote(ms *modelState) string {
+	if ms.Run != nil {
+		return ""
+	}
+	return " Word vectors the model may have been trained with are not used: model files do not record them."
 }
 
 // saveRetrained asks where to save the retrained model.

@@ -191,3 +191,35 @@ func TestHelp(t *testing.T) {
 		}
 	}
 }
+
+// The views that judge a model or a label (Why this label, Results, Cue
+// audit) carry the caution about decisions about people, on screen.
+func TestCautionAboutPeople(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the views' cautions (no task, the UI run in place)")
+	a := test.NewTempApp(t)
+	st := newState(a, Options{}, func(f func()) { f() })
+	st.win = a.NewWindow("cautions")
+	st.win.SetContent(st.build())
+	st.win.Resize(smallScreen)
+	for _, view := range []string{titleWhy, titleResults, titleAudit} {
+		st.show(view)
+		if m := test.RenderToMarkup(st.win.Canvas()); !strings.Contains(m, "alone for decisions about people") {
+			t.Errorf("%s shows no caution about decisions about people", view)
+		}
+	}
+}
+
+// A text sent to Why this label from another view is painted for its
+// predicted label, not for the label chosen for the text shown before.
+func TestExplainThisPaintsThePredictedLabel(t *testing.T) {
+	_, st, q := sharedLeanWindow(t, smallScreen)
+	labels := itemGet(st.model).Model.Labels
+	st.show(titleWhy)
+	st.whyView.class.SetSelected(labels[1])
+	q.drain()
+	st.explainThis(itemGet(st.data).Test.Examples[3].Text, nil)
+	q.drain()
+	if got := st.whyView.class.Selected; got != classPredicted {
+		t.Errorf("a text sent from elsewhere is painted for %q, want %q", got, classPredicted)
+	}
+}

@@ -1,9 +1,11 @@
 package gui
 
 import (
+	"bytes"
 	"context"
 	"errors"
 	"fmt"
+	"os"
 	"path/filepath"
 
 	"telltale/cnn"
@@ -22,6 +24,10 @@ type corpusState struct {
 	// pipeData and pipeTest are the content of Path and TestPath when
 	// they are named pipes (see dataSource), nil for other files.
 	pipeData, pipeTest []byte
+	// demoAbs and demoTestAbs are, for the demo corpus, the absolute paths
+	// of the repository's files it was built from, when the current
+	// folder is the repository's and they hold the same bytes ("" else).
+	demoAbs, demoTestAbs string
 	// All is the labeled data; TestFile the test file (nil without one).
 	All, TestFile *corpus.Dataset
 	Plan          splitPlan
@@ -137,13 +143,32 @@ func (cs *corpusState) readDemo(src dataSource) error {
 		return err
 	}
 	cs.Warnings = warns
+	cs.demoAbs = demoCopy(demoTrainFile, src.demoTrain)
 	if len(src.demoTest) > 0 {
 		if cs.TestFile, warns, err = corpus.LoadBytes(demoTestFile, src.demoTest, src.opts); err != nil {
 			return err
 		}
 		cs.Warnings = append(cs.Warnings, warns...)
+		cs.demoTestAbs = demoCopy(demoTestFile, src.demoTest)
 	}
 	return nil
+}
+
+// demoCopy is the absolute path of the repository's file rel (relative to
+// the current folder) when it holds exactly the bytes built in, else "":
+// a model trained on the demo corpus then records where a later command
+// can read its data again, as telltale train --data records it.
+func demoCopy(rel string, built []byte) string {
+	// A regular file of the same size only: nothing else is opened (a
+	// named pipe's open would wait for a writer).
+	if fi, err := os.Stat(rel); err != nil || !fi.Mode().IsRegular() || fi.Size() != int64(len(built)) {
+		return ""
+	}
+	b, err := os.ReadFile(rel)
+	if err != nil || !bytes.Equal(b, built) {
+		return ""
+	}
+	return absPath(rel)
 }
 
 // readFiles reads the data file and the test file, if any. A named pipe
@@ -272,10 +297,14 @@ func (cs *corpusState) record(devFrac, testFrac float64, seed uint64, n *corpusS
 	}
 	if cs.Path == "" {
 		// The built-in copies of files of the repository: named relative
-		// to it, as they have no place on this machine.
-		r.Data = demoTrainFile
+		// to it, and by their absolute paths where the current folder
+		// holds them (demoCopy).
+		r.Data, r.DataAbs = demoTrainFile, cs.demoAbs
 		if cs.TestFile != nil {
 			r.TestFile = demoTestFile
+			if cs.demoTestAbs != "" {
+				r.TestFile = cs.demoTestAbs
+			}
 		}
 	}
 	return r

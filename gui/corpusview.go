@@ -139,10 +139,14 @@ func (v *corpusView) refreshCues() {
 		v.cuesNote.SetText(noCuesYet)
 		return
 	}
-	found := wording.Count(a.R.Associated, "word or phrase predicts", "words and phrases predict")
-	v.cuesNote.SetText(fmt.Sprintf("%s a label in the training split (%s, corrected over the %d word × label tests by %s); "+
-		"listed here: the %d the Cue audit view lists, then the most associated of the others.", found,
-		report.AssociationTestName(a.R.Test), a.R.Tests, report.CorrectionName(a.R.Correction), len(rows)))
+	found := wording.Grouped(a.R.Associated, "word or phrase predicts", "words and phrases predict")
+	listed := "listed here: the most associated."
+	if n := len(a.R.Ranked) + len(a.R.Task); n > 0 {
+		listed = fmt.Sprintf("listed here: the %s the Cue audit view lists, then the most associated of the others.",
+			wording.Grouped(n, "cue", "cues"))
+	}
+	v.cuesNote.SetText(fmt.Sprintf("%s a label in the training split (%s, corrected over the %s word × label tests by %s); %s",
+		found, report.AssociationTestName(a.R.Test), wording.Thousands(a.R.Tests), report.CorrectionName(a.R.Correction), listed))
 }
 
 // splitsLine says how the three splits were made and how big they are.

@@ -166,11 +166,19 @@ func (st *State) saveDialog(title, name string, write func(path string) error) {
 
 // commitSave runs write for path and reports the outcome.
 func (st *State) commitSave(path string, write func(path string) error) {
-	if err := write(path); err != nil {
+	st.wroteBeside = nil
+	err := write(path)
+	beside := st.wroteBeside
+	st.wroteBeside = nil
+	if err != nil {
 		st.showErrorf(err, "could not write %s (any file that was there is unchanged)", path)
 		return
 	}
-	st.setStatus("Wrote " + path)
+	s := "Wrote " + path
+	for _, f := range beside {
+		s += " and " + filepath.Base(f) + " beside it"
+	}
+	st.setStatus(s)
 }
 
 // validFileName accepts a bare file name: not empty, no folder part.

@@ -19,6 +19,7 @@ import (
 	"telltale/audit"
 	"telltale/cnn"
 	"telltale/explain"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -272,6 +273,12 @@ func (s *session) audit() audit.Candidate {
 	if len(av.ranked.rows) != len(r.Ranked) || len(av.task.rows) != len(r.Task) {
 		t.Errorf("lists of %d and %d rows, the audit lists %d and %d cues", len(av.ranked.rows), len(av.task.rows), len(r.Ranked), len(r.Task))
 	}
+	// The Corpus view's cues note counts the cues of those two lists and
+	// groups the number of tests as the audit's own wording does.
+	listed := fmt.Sprintf("the %d cues the Cue audit view lists", len(av.ranked.rows)+len(av.task.rows))
+	if n := st.corpusView.cuesNote.Text; !strings.Contains(n, listed) || !strings.Contains(n, "over the "+wording.Thousands(r.Tests)+" word") {
+		t.Errorf("the Corpus view's cues note %q, want %q and the %s tests", n, listed, wording.Thousands(r.Tests))
+	}
 	top := r.Ranked[0]
 	row := av.ranked.rows[0]
 	lo, hi := audit.Wilson(top.Association.InLabel, top.Association.Texts, 0.95)
@@ -458,6 +465,12 @@ func (s *session) marks() {
 	if av.selected != cue.Text || av.evidence.verdict.Selected != mark {
 		t.Errorf("the evidence pane shows %q marked %q after the audit ran again", av.selected, av.evidence.verdict.Selected)
 	}
+	// Saving the model again writes its marks beside it, and the status
+	// line names both files.
+	st.commitSave(path, func(p string) error { return st.saveModel(s.ms, p) })
+	if got, want := st.statusText(), "Wrote "+path+" and ferry.marks beside it"; got != want {
+		t.Errorf("status %q after saving a model with marks, want %q", got, want)
+	}
 }
 
 // retrain: retraining without the cues compares both models on the
@@ -470,9 +483,23 @@ func (s *session) retrain() {
 	if p.retrainBtn.Disabled() {
 		t.Fatalf("Retrain without the cues is disabled after an audit that acts on cues")
 	}
+	// A retraining stopped leaves the note as it was, not saying it runs.
+	before := p.compareNote.Text
+	test.Tap(p.retrainBtn)
+	st.cancel(taskRetrain)
+	q.waitFor(t, "the stopped retraining", func() bool { return st.tasks.idle(taskRetrain) && st.tasks.settled(taskRetrain) })
+	q.drain()
+	if p.result != nil || p.compareNote.Text != before || p.retrainBtn.Disabled() {
+		t.Errorf("after a stopped retraining: result %v, note %q (want %q), Retrain disabled %v", p.result, p.compareNote.Text, before, p.retrainBtn.Disabled())
+	}
 	test.Tap(p.retrainBtn)
 	q.waitFor(t, "the retrained model", func() bool { return p.result != nil })
 	rt := p.result.rt
+	// A model trained in this window had no word vectors: the note does
+	// not warn of them; its counts are grouped by thousands.
+	if n := p.compareNote.Text; strings.Contains(n, "Word vectors") || !strings.Contains(n, wording.Grouped(rt.Removed, "match", "matches")+" taken out") {
+		t.Errorf("the note after retraining a model trained in the window: %q", n)
+	}
 	a := itemGet(st.audit)
 	if want := retrainPatterns(a.R, a.marks); !slices.Equal(rt.Patterns, want) {
 		t.Errorf("retrained without %q, want the cues acted on and marked artifact %q", rt.Patterns, want)

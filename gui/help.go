@@ -16,8 +16,13 @@ import (
 const Caution = "Explanations describe the model, not the world. Validate a model on data of your own before use, " +
 	"never use it alone for decisions about people, and follow the rules of the place where it is used."
 
-// cautionShort is the one-line form shown on the explanation view.
-const cautionShort = "These numbers describe the model, not the world: validate before use and follow the rules of the place it is used."
+// cautionShort is the short form shown on the explanation view.
+const cautionShort = "These numbers describe the model, not the world: validate before use, never use it alone for decisions about people, " +
+	"and follow the rules of the place it is used."
+
+// cautionPeople ends the introductions of the views that judge a model
+// (Results, Cue audit).
+const cautionPeople = "Never use a model alone for decisions about people."
 
 // dialogSize is the size of the Help dialogs: inside a 1024×700 window.
 var dialogSize = fyne.NewSize(720, 520)

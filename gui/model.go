@@ -30,6 +30,10 @@ type modelState struct {
 	// Run is the training record when the model was trained in this
 	// window; nil for an opened model.
 	Run *cnn.TrainResult
+	// BaselineStopped is set when the model was trained in this window
+	// with the linear baseline asked for, and Stop ended the run before
+	// the baseline was fitted.
+	BaselineStopped bool
 	// Eval is the model on the open corpus's test split, when a corpus is
 	// open and fits the model.
 	Eval *evaluation

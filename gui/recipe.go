@@ -107,6 +107,54 @@ func (r *recipeForm) reset() {
 	_ = r.wideFit.Set(d.Train.WideFit)
 }
 
+// parseWidths reads filter widths: whole numbers separated by commas.
+func parseWidths(s string) ([]int, error) {
+	var ws []int
+	for _, f := range strings.Split(s, ",") {
+		w, err := strconv.Atoi(strings.TrimSpace(f))
+		if err != nil {
+			return nil, errors.New("whole numbers, e.g. 3,4,5")
+		}
+		ws = append(ws, w)
+	}
+	return ws, nil
+}
+
+// The checks of the form's entries as they are typed (the form marks an
+// entry that fails one, where it would show a tick, and shows the message
+// in place of the hint, on one line: the messages are as short as the
+// hints, so that the form keeps its width): the number's form only; parse
+// checks the ranges when Train is pressed.
+func checkWidths(s string) error {
+	if _, err := parseWidths(s); err != nil {
+		return errors.New("whole numbers, e.g. 3,4,5")
+	}
+	return nil
+}
+
+func checkWhole(s string) error {
+	if _, err := strconv.Atoi(strings.TrimSpace(s)); err != nil {
+		return errors.New("a whole number, e.g. 10")
+	}
+	return nil
+}
+
+func checkReal(s string) error {
+	v, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+		return errors.New("a number, e.g. 0.5")
+	}
+	return nil
+}
+
+// checkRealOrEmpty is checkReal where empty means the default.
+func checkRealOrEmpty(s string) error {
+	if strings.TrimSpace(s) == "" {
+		return nil
+	}
+	return checkReal(s)
+}
+
 // fieldErrors collects the form's problems, each naming its field and the fix.
 type fieldErrors []error
 
@@ -156,15 +204,11 @@ func (r *recipeForm) readPlan(fe *fieldErrors) splitPlan {
 func (r *recipeForm) parse(withTestFile bool) (cnn.Recipe, splitPlan, error) {
 	rec := cnn.DefaultRecipe()
 	var fe fieldErrors
-	rec.Model.Widths = nil
-	for _, f := range strings.Split(stringGet(r.widths), ",") {
-		w, err := strconv.Atoi(strings.TrimSpace(f))
-		if err != nil {
-			fe = append(fe, fmt.Errorf("filter widths %q: give whole numbers separated by commas, e.g. 3,4,5", stringGet(r.widths)))
-			break
-		}
-		rec.Model.Widths = append(rec.Model.Widths, w)
+	widths, err := parseWidths(stringGet(r.widths))
+	if err != nil {
+		fe = append(fe, fmt.Errorf("filter widths %q: %w", stringGet(r.widths), err))
 	}
+	rec.Model.Widths = widths
 	rec.Model.Filters = fe.whole(r.maps, "feature maps per width", "e.g. 100")
 	rec.Model.Dim = fe.whole(r.dim, "embedding dimension", "e.g. 128")
 	rec.Model.Dropout = float32(fe.real(r.dropout, "dropout", "a rate in [0, 1), e.g. 0.5"))

@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 
+	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
 	"fyne.io/fyne/v2/widget"
 
@@ -242,5 +243,77 @@ func TestRecipeFormOptimizerRate(t *testing.T) {
 		if rec.Train.Optimizer != c.optimizer || rec.Train.LR != c.want {
 			t.Errorf("%s at %q: %s at %g, want %g", c.optimizer, c.lr, rec.Train.Optimizer, rec.Train.LR, c.want)
 		}
+	}
+}
+
+// A recipe that needs fixing puts its error in the status bar in one line
+// (the dialog shows it whole): a second line would make the window taller
+// than a 700-pixel screen.
+func TestRecipeErrorKeepsTheStatusBarOneLine(t *testing.T) {
+	w, st, q := demoWindow(t, fyne.NewSize(1024, 700))
+	before := w.Content().MinSize().Height
+	_ = st.recipe.widths.Set("3,x")
+	_ = st.recipe.epochs.Set("zero")
+	q.drain()
+	st.trainNow()
+	q.drain()
+	s := st.statusText()
+	if !strings.Contains(s, `filter widths "3,x"`) || !strings.Contains(s, "epochs") {
+		t.Fatalf("status %q does not name the fields to fix", s)
+	}
+	if strings.ContainsAny(s, "\r\n") {
+		t.Errorf("status %q has more than one line", s)
+	}
+	if after := w.Content().MinSize().Height; after > before {
+		t.Errorf("the window's least height grew from %v to %v with the error", before, after)
+	}
+}
+
+// The form's entries check their values as they are typed: a value that
+// Train would refuse is marked on its entry, not ticked.
+func TestRecipeEntriesCheckTheirValues(t *testing.T) {
+	w, st, q := demoWindow(t, smallScreen)
+	e := st.trainingView.firstEntry
+	// Each message shows under its entry, in one line: it must not make
+	// the window wider than a 1024-pixel screen.
+	st.show(titleTraining)
+	q.drain()
+	wide := w.Content().MinSize().Width
+	var entries []*widget.Entry
+	for _, it := range st.trainingView.form.Items {
+		if entry, ok := it.Widget.(*widget.Entry); ok && !entry.Disabled() {
+			entries = append(entries, entry)
+		}
+	}
+	if len(entries) < 10 {
+		t.Fatalf("the form has %d enabled entries", len(entries))
+	}
+	for _, entry := range entries {
+		test.Type(entry, "x")
+		q.drain()
+		if entry.Validate() == nil {
+			t.Errorf("%q typed: the entry's check passes", entry.Text)
+		}
+		if got := w.Content().MinSize().Width; got > wide || got > smallScreen.Width {
+			t.Errorf("%q typed: the window's least width grew from %v to %v", entry.Text, wide, got)
+		}
+	}
+	st.recipe.reset()
+	q.drain()
+	for _, c := range []struct {
+		widths string
+		ok     bool
+	}{{"3,4,5", true}, {"3, 4", true}, {"3,x", false}, {"", false}} {
+		_ = st.recipe.widths.Set(c.widths)
+		q.drain()
+		if err := e.Validate(); (err == nil) != c.ok {
+			t.Errorf("filter widths %q: the entry's check says %v", c.widths, err)
+		}
+	}
+	fe := st.trainingView.testShare
+	_ = st.recipe.testFrac.Set("a tenth")
+	q.drain()
+	if fe.Validate() == nil {
+		t.Error("test share \"a tenth\" passes the entry's check")
 	}
 }

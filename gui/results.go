@@ -2,6 +2,8 @@ package gui
 
 import (
 	"fmt"
+	"math"
+	"strconv"
 	"strings"
 
 	"fyne.io/fyne/v2"
@@ -42,6 +44,7 @@ func newResultsView(st *State) *resultsView {
 	v.headline.TextStyle.Bold = true
 	v.beside = wrapped("")
 	v.classes = newSheet("label", "precision", "recall", "F1", "support")
+	v.classes.exportCols = classExportCols
 	v.cellTexts = newSheet("#", "gold", "predicted", "p(predicted)", "text").wide(4, capText)
 	v.cellNote = wrapped("Click a cell of the confusion matrix to list its texts.")
 	v.confusion = newConfusionGrid(v.showCell)
@@ -140,16 +143,20 @@ func (v *resultsView) refresh() {
 	}
 	v.caption.SetText(ms.caption())
 	m := ms.Eval.Metrics
-	head, beside := figureLines(ms.Eval.Figures, ms.Model)
+	head, beside := figureLines(ms.Eval.Figures, ms.Model, ms.BaselineStopped)
 	v.headline.SetText(fmt.Sprintf("Test split, %s: %s (%g%% intervals).", wording.Texts(m.N), head, 100*cnn.IntervalLevel))
 	v.beside.SetText(beside)
 	iv := cnn.IntervalsOf(m)
-	var rows [][]string
+	var rows, export [][]string
 	for i, c := range m.PerClass {
 		ci := iv.PerClass[i]
 		rows = append(rows, []string{c.Label, ci.Precision.String(), ci.Recall.String(), ci.F1.String(), fmt.Sprint(c.Support)})
+		export = append(export, classExportRow(c.Label, ci.Precision, ci.Recall, ci.F1, c.Support))
 	}
 	rows = append(rows, []string{"(weighted by support)", "", "", iv.WeightedF1.String(), fmt.Sprint(m.N)})
+	none := cnn.UndefinedInterval()
+	export = append(export, classExportRow("(weighted by support)", none, none, iv.WeightedF1, m.N))
+	v.classes.exportRows = export
 	v.classes.setRows(rows)
 	v.confusion.set(m)
 	v.reliability.set(reliabilityPlot(ms.Eval, iv.ECE))
@@ -160,13 +167,42 @@ func (v *resultsView) refresh() {
 	v.body.Refresh()
 }
 
+// classExportCols are the columns of the per-class table as File › Export
+// table as CSV writes it: each figure as its value and its interval's
+// bounds, as the command line's --export writes intervals.
+var classExportCols = []string{"label", "precision", "precision_low", "precision_high", "recall", "recall_low", "recall_high",
+	"f1", "f1_low", "f1_high", "support"}
+
+// classExportRow is one row of classExportCols; a figure with nothing to
+// measure has empty cells.
+func classExportRow(label string, precision, recall, f1 cnn.Interval, support int) []string {
+	row := []string{label}
+	for _, iv := range []cnn.Interval{precision, recall, f1} {
+		row = append(row, numberCell(iv.Estimate), numberCell(iv.Low), numberCell(iv.High))
+	}
+	return append(row, strconv.Itoa(support))
+}
+
+// numberCell writes x for a CSV export as the command line does (eight
+// significant digits), empty when x is not a number.
+func numberCell(x float64) string {
+	if math.IsNaN(x) {
+		return ""
+	}
+	return strconv.FormatFloat(x, 'g', 8, 64)
+}
+
 // figureLines words the figures of f as the command line prints them: the
 // CNN's accuracy and macro-F1 with their intervals (head), and the line
 // beside them: the linear baseline's and the McNemar test between the two,
-// or that m carries no baseline.
-func figureLines(f cnn.Figures, m *cnn.Model) (head, beside string) {
+// or that m carries no baseline: stopped says that the run was stopped
+// before the baseline it asked for was fitted.
+func figureLines(f cnn.Figures, m *cnn.Model, stopped bool) (head, beside string) {
 	head = fmt.Sprintf("accuracy %s, macro-F1 %s", f.CNN.Accuracy, f.CNN.MacroF1)
 	if f.Baseline == nil || f.McNemar == nil || m.Baseline == nil {
+		if stopped {
+			return head, "No linear baseline to set beside it: the run was stopped before the baseline was fitted. Train again and let the run end to have one."
+		}
 		return head, "The model carries no linear baseline to set beside it: train with Linear baseline on (the default) to have one."
 	}
 	c := fmt.Sprintf("C = %g from the dev split", m.Baseline.Classifier.C)
@@ -218,11 +254,7 @@ func mostConfused(m cnn.Metrics) (gold, pred int) {
 // with the diagonal of perfect calibration; the title gives the ECE with
 // its interval ece (nil when the confidences are not known).
 func reliabilityPlot(ev *evaluation, ece *cnn.CalibrationFigure) *plot.Plot {
-	e := fmt.Sprintf("%.3f (no interval: the confidences are not known)", ev.Metrics.ECE)
-	if ece != nil {
-		e = fmt.Sprintf("%s, %g%% interval", ece, 100*cnn.IntervalLevel)
-	}
-	p := newPlot(fmt.Sprintf("Reliability (test split): ECE %s over %d bins", e, cnn.DefaultBins), "confidence of the predicted label", "accuracy")
+	p := newPlot(reliabilityTitle(ev.Metrics.ECE, ece), "confidence of the predicted label", "accuracy")
 	bins := reliabilityBins(ev, cnn.DefaultBins)
 	diag, _ := plotter.NewLine(plotter.XYs{{X: 0, Y: 0}, {X: 1, Y: 1}})
 	if diag != nil {
@@ -249,6 +281,22 @@ func reliabilityPlot(ev *evaluation, ece *cnn.CalibrationFigure) *plot.Plot {
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = 0, 1, 0, 1
 	p.Legend.Top = false // bottom right: above the diagonal's far end
 	return p
+}
+
+// reliabilityTitle is the reliability diagram's title in two short lines,
+// so that it fits the pane of a small screen: the ECE, then its
+// bias-corrected estimate with its interval and the calibration test. The
+// plot's font has no "≤": a p-value at its floor reads "p <= …".
+func reliabilityTitle(observed float64, ece *cnn.CalibrationFigure) string {
+	head := fmt.Sprintf("Reliability (test split, %d bins): ECE %.3f", cnn.DefaultBins, observed)
+	if ece == nil {
+		return head + "\nno interval: the confidences are not known"
+	}
+	p := fmt.Sprintf("p = %.2g", ece.P)
+	if _, bound, ok := strings.Cut(ece.String(), "calibration p ≤ "); ok && ece.AtFloor {
+		p = "p <= " + strings.TrimSuffix(bound, ")")
+	}
+	return fmt.Sprintf("%s\nbias-corrected %.3f (%.3f–%.3f), calibration test %s", head, ece.Estimate, ece.Low, ece.High, p)
 }
 
 // reliabilityBins are the test predictions in cnn's equal-width confidence

@@ -1,18 +1,27 @@
 package gui
 
 import (
+	"bytes"
 	"context"
+	"encoding/csv"
+	"fmt"
 	"reflect"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/testref"
 	"telltale/linear"
+
+	"gonum.org/v1/plot/vg"
 )
 
 // withBaseline fits the linear baseline into m as cnn.TrainText does: on
@@ -143,12 +152,47 @@ func (s *session) resultsWithoutBaseline() {
 // no baseline.
 func TestFigureLinesWithoutBaseline(t *testing.T) {
 	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
-	head, beside := figureLines(cnn.FiguresOf(m, nil), &cnn.Model{})
+	head, beside := figureLines(cnn.FiguresOf(m, nil), &cnn.Model{}, false)
 	if want := "accuracy " + cnn.WilsonInterval(3, 4, 0.95).String(); !strings.HasPrefix(head, want) {
 		t.Errorf("head %q, want it to start %q", head, want)
 	}
 	if !strings.Contains(beside, "carries no linear baseline") || strings.Contains(beside, "McNemar") {
 		t.Errorf("beside %q", beside)
+	}
+}
+
+// A run stopped before its baseline was fitted says so, rather than ask for
+// the Linear baseline check that was on.
+func TestFigureLinesStoppedBeforeBaseline(t *testing.T) {
+	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
+	_, beside := figureLines(cnn.FiguresOf(m, nil), &cnn.Model{}, true)
+	if !strings.Contains(beside, "stopped before the baseline was fitted") || strings.Contains(beside, "Linear baseline on") {
+		t.Errorf("beside %q", beside)
+	}
+}
+
+// Stopping a run that asked for the baseline, during its epochs, leaves a
+// model without one, and the Results view says the run was stopped.
+func TestStoppedRunSaysWhyNoBaseline(t *testing.T) {
+	_, st, q := demoWindow(t, smallScreen)
+	smallRecipe(st)
+	_ = st.recipe.baseline.Set(true)
+	_ = st.recipe.epochs.Set("50")
+	_ = st.recipe.patience.Set("0")
+	q.drain()
+	st.trainNow()
+	q.waitFor(t, "the first epoch", func() bool { return len(st.trainingView.epochs.rows) > 0 })
+	st.cancel(taskTrain)
+	q.waitFor(t, "the stopped run", func() bool { return st.tasks.idle(taskTrain) && st.tasks.settled(taskTrain) })
+	q.drain()
+	ms := itemGet(st.model)
+	if ms == nil || ms.Model.Baseline != nil || !ms.BaselineStopped {
+		t.Fatalf("the stopped run's model: %v", ms)
+	}
+	st.show(titleResults)
+	q.drain()
+	if b := st.resultsView.beside.Text; !strings.Contains(b, "stopped before the baseline was fitted") {
+		t.Errorf("Results says %q", b)
 	}
 }
 
@@ -174,7 +218,7 @@ func TestFigureLinesBaselineAhead(t *testing.T) {
 			Baseline: &linear.Model{Classifier: &linear.Classifier{C: 10}}}
 		f := cnn.FiguresOf(m, nil)
 		f.Baseline, f.McNemar = &f.CNN, &c.test
-		_, beside := figureLines(f, model)
+		_, beside := figureLines(f, model, false)
 		if strings.Contains(beside, fit) != c.wantFit || strings.Contains(beside, cw) != c.wantCW ||
 			strings.Contains(beside, "The baseline is ahead here") != (c.wantFit || c.wantCW) {
 			t.Errorf("%s: %q; want the fitted start %v, the class weight %v", c.name, beside, c.wantFit, c.wantCW)
@@ -245,5 +289,72 @@ func TestRecipeForm(t *testing.T) {
 	r.reset()
 	if on, _ := r.baseline.Get(); !on {
 		t.Error("Defaults did not turn the baseline back on")
+	}
+}
+
+// The reliability diagram's title fits its pane on a 1024×700 screen, line
+// by line in the plot's own font, and writes a p-value at its floor with
+// "<=", which that font has (it has no "≤").
+func TestReliabilityTitleFits(t *testing.T) {
+	_, st, q := sharedLeanWindow(t, smallScreen)
+	st.show(titleResults)
+	q.drain()
+	rv := st.resultsView
+	rv.lower.SelectIndex(1)
+	q.drain()
+	p := rv.reliability.plot
+	if p == nil {
+		t.Fatal("no reliability diagram")
+	}
+	room := vg.Length(rv.reliability.Size().Width - 2*theme.Padding())
+	for _, line := range strings.Split(p.Title.Text, "\n") {
+		if w := p.Title.TextStyle.Width(line); w > room {
+			t.Errorf("title line %q is %.0f wide, the pane has %.0f", line, w, room)
+		}
+	}
+	floor := cnn.NewCalibrationFigure(0.053, cnn.Interval{Estimate: 0.04, Low: 0.024, High: 0.056}, 1/2001.0, 2000)
+	title := reliabilityTitle(0.053, &floor)
+	if !strings.Contains(title, "p <= 0.0005") || strings.Contains(title, "≤") {
+		t.Errorf("title %q, want the p-value at its floor as %q", title, "p <= 0.0005")
+	}
+}
+
+// File › Export table as CSV on Results writes the per-class figures as
+// numbers, each interval as its value, low and high (as --export does),
+// which encoding/csv and strconv read back as cnn's intervals.
+func TestResultsCSVHoldsNumbers(t *testing.T) {
+	_, st, q := sharedLeanWindow(t, smallScreen)
+	st.show(titleResults)
+	q.drain()
+	var b bytes.Buffer
+	if err := st.resultsView.exportTable().writeCSV(&b); err != nil {
+		t.Fatal(err)
+	}
+	recs, err := csv.NewReader(&b).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := itemGet(st.model).Eval.Metrics
+	iv := cnn.IntervalsOf(m)
+	if len(recs) != len(m.PerClass)+2 || !slices.Equal(recs[0], classExportCols) {
+		t.Fatalf("exported %d records with header %q, want %d and %q", len(recs), recs[0], len(m.PerClass)+2, classExportCols)
+	}
+	for i, c := range iv.PerClass {
+		row := recs[1+i]
+		if row[0] != c.Label || row[10] != fmt.Sprint(m.PerClass[i].Support) {
+			t.Errorf("row %q for class %s", row, c.Label)
+		}
+		for k, want := range []cnn.Interval{c.Precision, c.Recall, c.F1} {
+			for j, x := range []float64{want.Estimate, want.Low, want.High} {
+				got, err := strconv.ParseFloat(row[1+3*k+j], 64)
+				if err != nil || !testref.Close(got, x, 1e-12, 1e-7) {
+					t.Errorf("%s, column %s: %q, want %v", c.Label, classExportCols[1+3*k+j], row[1+3*k+j], x)
+				}
+			}
+		}
+	}
+	last := recs[len(recs)-1]
+	if f1, err := strconv.ParseFloat(last[7], 64); err != nil || !testref.Close(f1, iv.WeightedF1.Estimate, 1e-12, 1e-7) || last[1] != "" || last[10] != fmt.Sprint(m.N) {
+		t.Errorf("the weighted row %q, want F1 %v over %d texts", last, iv.WeightedF1.Estimate, m.N)
 	}
 }

@@ -41,6 +41,11 @@ type sheet struct {
 	selected int  // original row index, -1 none
 	quiet    bool // a selection made by the program: no onCell
 	mute     bool // a selection kept through a re-sort: no callbacks
+	// exportCols and exportRows, when set, are what writeCSV writes
+	// instead of the cells shown: numbers as numbers, an interval as its
+	// value, low and high (a row of exportRows for each row of rows).
+	exportCols []string
+	exportRows [][]string
 	// widths are the columns' widths (fitColumns).
 	widths []float32
 	box    *fyne.Container // the table in a layout that widens its last column
@@ -470,12 +475,16 @@ func parseCell(s string) (float64, error) {
 
 // writeCSV writes the header and every row (all rows, in the shown order).
 func (s *sheet) writeCSV(w io.Writer) error {
+	cols, rows := s.cols, s.rows
+	if s.exportCols != nil && len(s.exportRows) == len(s.rows) {
+		cols, rows = s.exportCols, s.exportRows
+	}
 	cw := csv.NewWriter(w)
-	if err := cw.Write(s.cols); err != nil {
+	if err := cw.Write(cols); err != nil {
 		return err
 	}
 	for _, i := range s.order {
-		if err := cw.Write(s.rows[i]); err != nil {
+		if err := cw.Write(rows[i]); err != nil {
 			return err
 		}
 	}

@@ -104,3 +104,43 @@ func TestSplitsAsTrainMakesThem(t *testing.T) {
 		})
 	}
 }
+
+// The demo corpus, opened where the repository's files it is built from
+// are (the repository's root), records their absolute paths, as telltale
+// train --data testdata/demo/train.csv --test testdata/demo/test.csv
+// does, so a later command can read its data again; elsewhere it records
+// only the names, as no file of it is there.
+func TestDemoRecordsItsFiles(t *testing.T) {
+	tr, te := demoFiles(t)
+	plan, err := newRecipeForm().plan()
+	if err != nil {
+		t.Fatal(err)
+	}
+	load := func() cnn.SplitRecord {
+		t.Helper()
+		cs, err := loadCorpus(t.Context(), dataSource{demoTrain: tr, demoTest: te}, plan)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return cs.Record
+	}
+	if r := load(); r.Data != demoTrainFile || r.DataAbs != "" || r.TestFile != demoTestFile {
+		t.Errorf("away from the repository's root the demo records %q, %q and %q", r.Data, r.DataAbs, r.TestFile)
+	}
+	root, err := filepath.Abs("..")
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Chdir(root)
+	r := load()
+	if want := filepath.Join(root, demoTrainFile); r.Data != demoTrainFile || r.DataAbs != want {
+		t.Errorf("the demo records data %q at %q, want %q at %q", r.Data, r.DataAbs, demoTrainFile, want)
+	}
+	if want := filepath.Join(root, demoTestFile); r.TestFile != want {
+		t.Errorf("the demo records the test file %q, want %q", r.TestFile, want)
+	}
+	// Other bytes at that path are not the demo's.
+	if got := demoCopy(demoTrainFile, te); got != "" {
+		t.Errorf("the test file's bytes are taken for the training file's at %q", got)
+	}
+}

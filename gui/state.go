@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strings"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
@@ -39,6 +40,10 @@ type State struct {
 	stopBtn    *widget.Button
 
 	running binding.String // kinds of work running, for the views' buttons
+
+	// wroteBeside are the files a save wrote beside the one chosen (a
+	// model's marks), for the status line that reports the save.
+	wroteBeside []string
 
 	// What is open; each change is seen by every view.
 	data     binding.Item[*corpusState]
@@ -121,8 +126,17 @@ func (st *State) newStatusBar() {
 	st.stopBtn.Disable()
 }
 
-// setStatus says in the status bar what the window is doing.
-func (st *State) setStatus(s string) { st.statusLine.SetText(s) }
+// setStatus says in the status bar what the window is doing, in one line:
+// the lines of a longer message (an error's list of fixes) are joined, and
+// what does not fit ends in "…" (an error's dialog shows it whole). A
+// second line would make the bar taller and the window with it, past the
+// bottom of a small screen.
+func (st *State) setStatus(s string) {
+	if strings.ContainsAny(s, "\r\n") {
+		s = oneLine(s)
+	}
+	st.statusLine.SetText(s)
+}
 
 // statusText is the status bar's line.
 func (st *State) statusText() string { return st.statusLine.Text }

@@ -40,8 +40,10 @@ type task struct {
 	cancel   context.CancelFunc
 	work     work
 	progress progressNote
-	posted   bool      // a progress update waits on the UI goroutine
-	lastPost time.Time // when the last progress update was posted
+	posted   bool        // a progress update waits on the UI goroutine
+	lastPost time.Time   // when the last progress update was posted
+	flush    *time.Timer // posts an update held back by minProgressGap, once the gap has passed
+	ended    bool        // the task's outcome reached the UI goroutine: no more progress is shown
 }
 
 // progressNote is the latest progress a task reported.
@@ -95,7 +97,8 @@ func newTaskRunner(ui func(func())) *taskRunner {
 }
 
 // minProgressGap is the least time between two progress updates of a task
-// that reach the window (its last update always does): each update redraws
+// that reach the window (an update held back by it is posted once the gap
+// has passed, so the latest always gets through): each update redraws
 // the window, which a software renderer does slowly.
 const minProgressGap = 200 * time.Millisecond
 
@@ -174,6 +177,13 @@ func (r *taskRunner) run(t *task) {
 // finish applies t's outcome on the UI goroutine, unless a newer task of
 // its kind was started meanwhile.
 func (r *taskRunner) finish(t *task, apply func(), err error) {
+	r.mu.Lock()
+	t.ended = true
+	if t.flush != nil {
+		t.flush.Stop()
+		t.flush = nil
+	}
+	r.mu.Unlock()
 	cur := r.current(t)
 	if cur {
 		r.mu.Lock()
@@ -201,7 +211,11 @@ func (r *taskRunner) finish(t *task, apply func(), err error) {
 }
 
 // report records t's progress and posts it to the UI goroutine unless an
-// update is already waiting there (which will show the latest figures).
+// update is already waiting there (which will show the latest figures). An
+// update that comes sooner than minProgressGap after the last one posted is
+// held back, not dropped: a timer posts the latest figures once the gap has
+// passed, so the window never keeps showing an older update while the work
+// goes quiet.
 func (r *taskRunner) report(t *task, done, total int, what string) {
 	if !t.inBar {
 		return
@@ -209,20 +223,43 @@ func (r *taskRunner) report(t *task, done, total int, what string) {
 	r.mu.Lock()
 	t.progress = progressNote{done, total, what}
 	now := time.Now()
-	post := !t.posted && (done >= total || now.Sub(t.lastPost) >= minProgressGap)
-	if post {
+	wait := minProgressGap - now.Sub(t.lastPost)
+	post := !t.posted && (done >= total || wait <= 0)
+	switch {
+	case post:
 		t.posted, t.lastPost = true, now
+	case !t.posted && t.flush == nil:
+		t.flush = time.AfterFunc(wait, func() { r.flushProgress(t) })
 	}
 	r.mu.Unlock()
-	if !post {
-		return
+	if post {
+		r.postProgress(t)
 	}
+}
+
+// flushProgress posts t's latest progress, held back by minProgressGap,
+// unless an update already waits on the UI goroutine or t has ended.
+func (r *taskRunner) flushProgress(t *task) {
+	r.mu.Lock()
+	t.flush = nil
+	post := !t.posted && !t.ended
+	if post {
+		t.posted, t.lastPost = true, time.Now()
+	}
+	r.mu.Unlock()
+	if post {
+		r.postProgress(t)
+	}
+}
+
+// postProgress hands t's latest progress to the UI goroutine; t.posted is set.
+func (r *taskRunner) postProgress(t *task) {
 	r.toUI(func() {
 		r.mu.Lock()
 		t.posted = false
-		p := t.progress
+		p, ended := t.progress, t.ended
 		r.mu.Unlock()
-		if !r.current(t) {
+		if ended || !r.current(t) {
 			return
 		}
 		f := -1.0

@@ -105,3 +105,38 @@ func TestTrainingDoesNotFloodTheUI(t *testing.T) {
 		t.Errorf("the run recorded %d epochs and %d loss points, want 3 epochs and a point per report", len(run.Epochs), len(run.LossY))
 	}
 }
+
+// An update that comes within minProgressGap of the one shown before it is
+// not lost: it reaches the window once the gap has passed, even when the
+// work reports nothing more for a while (as training does while it fits the
+// baseline after the last epoch's batches).
+func TestProgressLatestUpdateArrivesLater(t *testing.T) {
+	q := &queue{}
+	r := newTaskRunner(q.post)
+	var last atomic.Value
+	last.Store("")
+	r.onNote = func(_ float64, s string) {
+		if s != "" {
+			last.Store(s)
+		}
+	}
+	release := make(chan struct{})
+	defer close(release)
+	r.start("k", true, func(ctx context.Context, report reporter) (func(), error) {
+		report(1, 10, "batch 1")
+		for last.Load() != "batch 1" {
+			time.Sleep(time.Millisecond)
+		}
+		report(2, 10, "Fitting the baseline")
+		<-release
+		return nil, nil
+	})
+	deadline := time.Now().Add(10 * minProgressGap)
+	for last.Load() != "Fitting the baseline" && time.Now().Before(deadline) {
+		q.drain()
+		time.Sleep(5 * time.Millisecond)
+	}
+	if got := last.Load(); got != "Fitting the baseline" {
+		t.Errorf("status shows %q %v after the last report, want the last report %q", got, 10*minProgressGap, "Fitting the baseline")
+	}
+}

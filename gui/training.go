@@ -184,5 +184,6 @@ func trainModel(ctx context.Context, cs *corpusState, rec cnn.Recipe, progress f
 		return nil, nil, err
 	}
 	ms.Run = res
+	ms.BaselineStopped = rec.Baseline != nil && m.Baseline == nil && (res.Cancelled || ctx.Err() != nil)
 	return ms, res, nil
 }

@@ -49,8 +49,11 @@ func newTrainingView(st *State) *trainingView {
 // options, each with a hint where the value has a special meaning.
 func (v *trainingView) recipeForm() *widget.Form {
 	r := v.st.recipe
-	entry := func(b binding.String, hint string) *widget.FormItem {
-		return &widget.FormItem{Widget: widget.NewEntryWithData(b), HintText: hint}
+	// entry is a field bound to b and checked by check as it is typed.
+	entry := func(b binding.String, check fyne.StringValidator, hint string) *widget.FormItem {
+		e := widget.NewEntryWithData(b)
+		e.Validator = check
+		return &widget.FormItem{Widget: e, HintText: hint}
 	}
 	opt := selectFor(r.optimizer, "adam", "adadelta")
 	weight := selectFor(r.classWeight, classWeightNone, classWeightBalanced)
@@ -60,6 +63,7 @@ func (v *trainingView) recipeForm() *widget.Form {
 	pairs := widget.NewCheckWithData("with word weights", r.wideBigrams)
 	fitted := widget.NewCheckWithData("fitted linear model", r.wideFit)
 	fitC := widget.NewEntryWithData(r.wideFitC)
+	fitC.Validator = checkReal
 	// Word pairs and the fitted start count only with the word weights, the
 	// C only with the fitted start too (parse); the form greys the labels
 	// of what is disabled when it refreshes.
@@ -83,20 +87,20 @@ func (v *trainingView) recipeForm() *widget.Form {
 	r.wide.AddListener(follow)
 	r.wideFit.AddListener(follow)
 	items := []*widget.FormItem{
-		entry(r.widths, ""), entry(r.maps, ""), entry(r.dim, ""), entry(r.epochs, ""),
-		entry(r.patience, "0 never stops early"), entry(r.keepFrom, "none before it; 0 keeps any"),
-		entry(r.dropout, ""), entry(r.maxNorm, "0 is off"),
-		{Widget: opt}, entry(r.lr, "empty: adam 0.002, adadelta 1"), entry(r.batch, ""),
-		entry(r.minCount, ""), entry(r.tokenDropout, "any token to unknown; 0 is off"),
-		entry(r.wordDropout, "α, rare words to unknown; 0 is off"),
+		entry(r.widths, checkWidths, ""), entry(r.maps, checkWhole, ""), entry(r.dim, checkWhole, ""), entry(r.epochs, checkWhole, ""),
+		entry(r.patience, checkWhole, "0 never stops early"), entry(r.keepFrom, checkWhole, "none before it; 0 keeps any"),
+		entry(r.dropout, checkReal, ""), entry(r.maxNorm, checkReal, "0 is off"),
+		{Widget: opt}, entry(r.lr, checkRealOrEmpty, "empty: adam 0.002, adadelta 1"), entry(r.batch, checkWhole, ""),
+		entry(r.minCount, checkWhole, ""), entry(r.tokenDropout, checkReal, "any token to unknown; 0 is off"),
+		entry(r.wordDropout, checkReal, "α, rare words to unknown; 0 is off"),
 		{Widget: weight, HintText: "balanced: imbalanced labels"}, {Widget: baseline, HintText: "TF-IDF + logistic regression"},
 		{Widget: chars, HintText: "slower; unseen words"},
 		{Widget: wide, HintText: "a weight per word and label"},
 		{Widget: pairs, HintText: "a weight per pair and label"},
 		{Widget: fitted, HintText: "logistic regression"},
 		{Widget: fitC, HintText: "0 chooses it on dev"},
-		entry(r.seed, "splits, initialisation, shuffling"),
-		entry(r.devFrac, "share of the data"), entry(r.testFrac, "share of the data"),
+		entry(r.seed, checkWhole, "splits, initialisation, shuffling"),
+		entry(r.devFrac, checkReal, "share of the data"), entry(r.testFrac, checkReal, "share of the data"),
 	}
 	names := []string{"Filter widths", "Feature maps per width", "Embedding dimension", "Epochs (at most)",
 		"Patience (epochs)", "First epoch kept", "Dropout", "Max-norm of output rows", "Optimizer", "Learning rate",

@@ -48,13 +48,13 @@ func viewTable() []viewSpec {
 			func(st *State) view { st.corpusView = newCorpusView(st); return st.corpusView }},
 		{titleTraining, "The training recipe, and the run in progress.",
 			func(st *State) view { st.trainingView = newTrainingView(st); return st.trainingView }},
-		{titleResults, "How the model does on the test split, which took no part in training.",
+		{titleResults, "How the model does on the test split, which took no part in training. " + cautionPeople,
 			func(st *State) view { st.resultsView = newResultsView(st); return st.resultsView }},
 		{titleFilters, "What each filter of the model responds to, over the training split. Margins, thresholds and activations are in log-odds.",
 			func(st *State) view { st.filtersView = newFiltersView(st); return st.filtersView }},
 		{titleWhy, "Why one text gets its label, token by token.",
 			func(st *State) view { st.whyView = newWhyView(st); return st.whyView }},
-		{titleAudit, "The cues the model relies on that look like how its data was collected, and what to do about them.",
+		{titleAudit, "The cues the model relies on that look like how its data was collected, and what to do. " + cautionPeople,
 			func(st *State) view { st.auditView = newAuditView(st); return st.auditView }},
 	}
 }

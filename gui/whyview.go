@@ -142,8 +142,12 @@ func (v *whyView) exportData() any {
 }
 
 // explainThis sends text to the explanation view and shows it, from a row
-// of sheet from (nil: from elsewhere).
+// of sheet from (nil: from elsewhere). The new text is painted for its
+// predicted label, not for a label chosen for the text before it.
 func (st *State) explainThis(text string, from *sheet) {
+	if v := st.whyView; v != nil && v.class.Selected != classPredicted {
+		v.class.SetSelected(classPredicted)
+	}
 	_ = st.explainText.Set(text)
 	st.showFrom(from, titleWhy)
 }
