@@ -195,12 +195,13 @@ func numberCell(x float64) string {
 // figureLines words the figures of f as the command line prints them: the
 // CNN's accuracy and macro-F1 with their intervals (head), and the line
 // beside them: the linear baseline's and the McNemar test between the two,
-// or that m carries no baseline: stopped says that the run was stopped
-// before the baseline it asked for was fitted.
+// or that m carries no baseline: stopped (a run stopped in this window),
+// or m's file record of it (cnn.Info.BaselineStopped, train's Ctrl-C), says
+// that the run was stopped before the baseline it asked for was fitted.
 func figureLines(f cnn.Figures, m *cnn.Model, stopped bool) (head, beside string) {
 	head = fmt.Sprintf("accuracy %s, macro-F1 %s", f.CNN.Accuracy, f.CNN.MacroF1)
 	if f.Baseline == nil || f.McNemar == nil || m.Baseline == nil {
-		if stopped {
+		if stopped || m.Info.BaselineStopped {
 			return head, "No linear baseline to set beside it: the run was stopped before the baseline was fitted. Train again and let the run end to have one."
 		}
 		return head, "The model carries no linear baseline to set beside it: train with Linear baseline on (the default) to have one."

@@ -161,13 +161,23 @@ func TestFigureLinesWithoutBaseline(t *testing.T) {
 	}
 }
 
-// A run stopped before its baseline was fitted says so, rather than ask for
-// the Linear baseline check that was on.
+// A run stopped before its baseline was fitted, in the window or as the
+// model file records it, says so, rather than ask for the Linear baseline
+// check that was on.
 func TestFigureLinesStoppedBeforeBaseline(t *testing.T) {
 	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
-	_, beside := figureLines(cnn.FiguresOf(m, nil), &cnn.Model{}, true)
-	if !strings.Contains(beside, "stopped before the baseline was fitted") || strings.Contains(beside, "Linear baseline on") {
-		t.Errorf("beside %q", beside)
+	for _, c := range []struct {
+		name    string
+		m       *cnn.Model
+		stopped bool
+	}{
+		{"stopped in the window", &cnn.Model{}, true},
+		{"recorded by the model file", &cnn.Model{Info: cnn.Info{BaselineStopped: true}}, false},
+	} {
+		_, beside := figureLines(cnn.FiguresOf(m, nil), c.m, c.stopped)
+		if !strings.Contains(beside, "stopped before the baseline was fitted") || strings.Contains(beside, "Linear baseline on") {
+			t.Errorf("%s: beside %q", c.name, beside)
+		}
 	}
 }
 
