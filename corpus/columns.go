@@ -150,7 +150,9 @@ func LoadBytes(name string, data []byte, opt Options) (*Dataset, []Warning, erro
 	d := &Dataset{Path: name}
 	ws := &warnings{path: name}
 	counts := map[string]int{}
+	var sample labelSample
 	collect := func(e Example) error {
+		sample.add(e.Label)
 		d.Examples = append(d.Examples, e)
 		if counts[e.Label] == 0 {
 			d.Labels = append(d.Labels, e.Label)
@@ -172,7 +174,7 @@ func LoadBytes(name string, data []byte, opt Options) (*Dataset, []Warning, erro
 		return nil, nil, errAt(name, 0, ErrFormat, "unknown format %q: use csv, tsv or jsonl", format)
 	}
 	if err != nil {
-		return nil, ws.result(), err
+		return nil, ws.result(), sample.hint(err)
 	}
 	// The same final checks as Stream.
 	if len(d.Examples) == 0 {

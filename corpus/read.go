@@ -189,8 +189,8 @@ func Stream(path string, opt Options, fn func(Example) error) ([]Warning, error)
 // labelSample holds the distinct labels (by their hash) of the first
 // labelSampleSize examples read, to tell a label column that holds texts.
 type labelSample struct {
-	n        int
-	distinct map[uint64]bool
+	n, spaced int // examples seen, and those whose label has a space within
+	distinct  map[uint64]bool
 }
 
 // labelSampleSize is the number of examples a labelSample looks at; the
@@ -207,15 +207,20 @@ func (s *labelSample) add(label string) {
 		s.distinct = map[uint64]bool{}
 	}
 	s.n++
+	if strings.ContainsFunc(strings.TrimSpace(label), unicode.IsSpace) {
+		s.spaced++
+	}
 	s.distinct[hashString(label)] = true
 }
 
 // looksLikeText reports whether the labels seen look like texts: more
-// than 50 distinct labels, and more than half of the examples seen (at
-// most the first labelSampleSize) with a label no other has. A label set
-// of a classifier is smaller, and its labels repeat.
+// than 50 distinct labels, more than half of the examples seen (at most
+// the first labelSampleSize) with a label no other has, and more than half
+// with a space within their label. A label set of a classifier is smaller,
+// its labels repeat, and even a large one (a hundred intents) names them
+// in single words ("book_flight").
 func (s *labelSample) looksLikeText() bool {
-	return len(s.distinct) > 50 && 2*len(s.distinct) > s.n
+	return len(s.distinct) > 50 && 2*len(s.distinct) > s.n && 2*s.spaced > s.n
 }
 
 // hint adds to the error of an empty label, when the labels read before

@@ -532,6 +532,7 @@ func TestEmptyLabelHintsAtSwappedColumns(t *testing.T) {
 	}
 	text := func(i int) string { return fmt.Sprintf("a fine phone number %c%c", 'a'+i%26, 'a'+i/26) }
 	two := func(i int) string { return []string{"pos", "neg"}[i%2] }
+	intents := func(i int) string { return fmt.Sprintf("intent_%c%c", 'a'+i%26, 'a'+i/26) } // many labels, none a text
 	cases := []struct {
 		name, file, content string
 		line                int
@@ -541,6 +542,7 @@ func TestEmptyLabelHintsAtSwappedColumns(t *testing.T) {
 		{"texts as labels, JSON Lines", "a.jsonl", jsonlOf(60, text), 61, true},
 		{"two labels", "a.csv", csvOf(60, two), 62, false},
 		{"40 distinct labels", "a.csv", csvOf(40, text), 42, false},
+		{"150 intents", "a.csv", csvOf(150, intents), 152, false},
 	}
 	for _, c := range cases {
 		p := writeFile(t, t.TempDir(), c.file, c.content)
@@ -550,6 +552,11 @@ func TestEmptyLabelHintsAtSwappedColumns(t *testing.T) {
 		}
 		if got := strings.Contains(err.Error(), hint); got != c.want {
 			t.Errorf("%s: hint %v, want %v: %v", c.name, got, c.want, err)
+		}
+		// The same from memory (the window's pipes), as LoadBytes reads.
+		_, _, err = LoadBytes(c.file, []byte(c.content), Options{TextCol: "text", LabelCol: "label"})
+		if err == nil || strings.Contains(err.Error(), hint) != c.want {
+			t.Errorf("%s from memory: error %v, want the hint %v", c.name, err, c.want)
 		}
 	}
 }
