@@ -433,16 +433,7 @@ func (s auditSource) trainArgs() []string {
 	if seed != def.Train.Seed {
 		opt("seed", strconv.FormatUint(seed, 10))
 	}
-	r := s.read
-	for _, o := range []struct{ name, value string }{{"text-col", r.TextCol}, {"label-col", r.LabelCol}, {"format", r.Format},
-		{"mail", r.Mail}, {"relabel", r.Relabel}} {
-		if o.value != "" {
-			opt(o.name, o.value)
-		}
-	}
-	if r.MaxTextBytes != corpus.DefaultMaxTextBytes {
-		opt("max-text-bytes", strconv.Itoa(r.MaxTextBytes))
-	}
+	args = append(args, s.read.args()...)
 	args = append(args, recipeArgs(s.m)...)
 	if s.vectors != "" {
 		opt("vectors", s.vectors)

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"slices"
+	"strconv"
 	"strings"
 	"sync"
 
@@ -48,6 +49,26 @@ func (r *readOptions) register(fs *flag.FlagSet, labeled bool) {
 	if labeled {
 		fs.StringVar(&r.Relabel, "relabel", "", "map labels before use, e.g. 'easy-ham-1=ham,spam-1=spam' (an empty target drops the label)")
 	}
+}
+
+// args are the reading options as command-line arguments, those set away
+// from their defaults, for a command the user is told to run on the same
+// file (r may be nil: none).
+func (r *readOptions) args() []string {
+	if r == nil {
+		return nil
+	}
+	var args []string
+	for _, o := range []struct{ name, value string }{{"text-col", r.TextCol}, {"label-col", r.LabelCol}, {"format", r.Format},
+		{"mail", r.Mail}, {"relabel", r.Relabel}} {
+		if o.value != "" {
+			args = append(args, "--"+o.name, o.value)
+		}
+	}
+	if r.MaxTextBytes != 0 && r.MaxTextBytes != corpus.DefaultMaxTextBytes {
+		args = append(args, "--max-text-bytes", strconv.Itoa(r.MaxTextBytes))
+	}
+	return args
 }
 
 // check refuses reading options that cannot work.

@@ -202,7 +202,7 @@ func findTestSplitOf(m *cnn.Model, path, data, test string, r *readOptions, warn
 	case !same:
 		es.checkTraining(rec, data, same, r)
 	default:
-		es.checkShared(rec, data)
+		es.checkShared(rec, data, r)
 	}
 	es.warnCuesChosen(&m.Info) // last: compare gives the other models their own (cueWarnings)
 	// The note first: the warnings are about the texts it names.
@@ -368,16 +368,16 @@ func (es *evalSet) checkTraining(rec *cnn.SplitRecord, name string, same bool, r
 
 // checkShared warns when the test split train held out of data (the
 // model's data, rec its splits) holds texts of the training split as
-// well, copies in data (inTraining: exact or near-exact, as telltale data
-// counts its leaks), and says so in the note, which calls the split
+// well, copies in data (inTraining: exact, or but for case and
+// punctuation), and says so in the note, which calls the split
 // unused for training.
-func (es *evalSet) checkShared(rec *cnn.SplitRecord, data string) {
+func (es *evalSet) checkShared(rec *cnn.SplitRecord, data string, r *readOptions) {
 	n := inTraining(es.test, es.train)
 	if n == 0 {
 		return
 	}
-	es.warnings = append(es.warnings, sharedWarning("test", data, rec, n, len(es.test.Examples), "its figures are not all held-out figures"))
-	es.note += fmt.Sprintf("; but %d of them are texts of the training split as well, or near-exact copies of them", n)
+	es.warnings = append(es.warnings, sharedWarning("test", data, rec, r, n, len(es.test.Examples), "its figures are not all held-out figures"))
+	es.note += fmt.Sprintf("; but %d of them are texts of the training split as well (or copies but for case and punctuation)", n)
 }
 
 // recordedTraining is the training split of the model whose split record
@@ -427,27 +427,29 @@ func trainingWarning(rec *cnn.SplitRecord, texts *corpus.Dataset, name string, t
 		return ""
 	}
 	if n := inTraining(texts, train); n > 0 {
-		return fmt.Sprintf("%s %s: %d of its %s are texts of the model's training split or near-exact copies of them, so its figures are not all held-out figures",
+		return fmt.Sprintf("%s %s: %d of its %s are texts of the model's training split (or copies but for case and punctuation), so its figures are not all held-out figures",
 			name, mayHoldTraining, n, wording.Texts(len(texts.Examples)))
 	}
 	return ""
 }
 
 // inTraining counts the texts of test that are also texts of train, or
-// near-exact copies of one (corpus.NearKey: the same words, ignoring case,
-// punctuation and digits), as telltale data counts its leaks.
+// copies of one but for case, spacing and punctuation (corpus.CopyKey: the
+// same words and numbers). telltale data counts these among its leaks,
+// with texts that differ in their numbers too (corpus.NearKey), which are
+// other texts to a model (another date, another departure).
 func inTraining(test, train *corpus.Dataset) int {
 	exact := make(map[string]bool, len(train.Examples))
 	near := make(map[string]bool, len(train.Examples))
 	for _, e := range train.Examples {
 		exact[e.Text] = true
-		if k := corpus.NearKey(e.Text); k != "" {
+		if k := corpus.CopyKey(e.Text); k != "" {
 			near[k] = true
 		}
 	}
 	n := 0
 	for _, e := range test.Examples {
-		if k := corpus.NearKey(e.Text); exact[e.Text] || (k != "" && near[k]) {
+		if k := corpus.CopyKey(e.Text); exact[e.Text] || (k != "" && near[k]) {
 			n++
 		}
 	}

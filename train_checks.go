@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"io"
+	"strconv"
 	"strings"
 
 	"telltale/cnn"
@@ -53,7 +54,7 @@ type heldInTraining struct {
 
 // heldTextsInTraining says, for the dev split and the test split, how
 // many of their texts are also texts of the training split (inTraining,
-// exact or near-exact copies, as telltale data counts its leaks): such a test split's
+// exact copies or copies but for case and punctuation): such a test split's
 // figures are not held-out figures, and such a dev split chooses the epoch
 // on texts the model learned. A split given as a file (--dev, --test) is
 // named by its file; one held out of --data holds such texts when --data
@@ -72,12 +73,12 @@ func (o *trainOptions) heldTextsInTraining(sp *splits) heldInTraining {
 			continue
 		}
 		if f.path == "" {
-			h.warnings = append(h.warnings, sharedWarning(f.which, o.data, &sp.record, *f.n, len(f.ds.Examples), f.use))
+			h.warnings = append(h.warnings, sharedWarning(f.which, o.data, &sp.record, &o.read, *f.n, len(f.ds.Examples), f.use))
 			continue
 		}
-		h.warnings = append(h.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the training split of %s or near-exact copies of them: %s; "+
-			"take them out of one of the files ('telltale data --data %s %s %s' lists them)",
-			f.opt, f.path, *f.n, wording.Texts(len(f.ds.Examples)), o.data, f.use, o.data, f.opt, f.path))
+		h.warnings = append(h.warnings, fmt.Sprintf("%s %s: %d of its %s are texts of the training split of %s (or copies but for case and punctuation): %s; "+
+			"take them out of one of the files (%s lists them)",
+			f.opt, f.path, *f.n, wording.Texts(len(f.ds.Examples)), o.data, f.use, dataCommand(o.data, nil, &o.read, f.opt, f.path)))
 	}
 	return h
 }
@@ -86,31 +87,35 @@ func (o *trainOptions) heldTextsInTraining(sp *splits) heldInTraining {
 // out of data, the splits of rec, holds n texts (of its total) that are
 // texts of the training split too: data holds copies of them, and the
 // split drew some; use says what follows for the split.
-func sharedWarning(which, data string, rec *cnn.SplitRecord, n, total int, use string) string {
-	return fmt.Sprintf("the %s split held out of %s: %d of its %s are texts of the training split as well (%s holds copies of them, exact or near-exact): %s; "+
-		"keep one copy of each text in %s ('telltale data --data %s%s' lists the copies as LEAK)",
-		which, data, n, wording.Texts(total), data, use, data, data, splitFlags(rec))
+func sharedWarning(which, data string, rec *cnn.SplitRecord, r *readOptions, n, total int, use string) string {
+	return fmt.Sprintf("the %s split held out of %s: %d of its %s are texts of the training split as well (%s holds copies of them, exact or but for case and punctuation): %s; "+
+		"keep one copy of each text in %s (%s lists the copies as LEAK)",
+		which, data, n, wording.Texts(total), data, use, data, dataCommand(data, rec, r))
 }
 
-// splitFlags are the options, after --data, that make rec's dev and test
-// splits again (those not at their default), for telltale data.
-func splitFlags(rec *cnn.SplitRecord) string {
-	var b strings.Builder
-	for _, s := range []struct {
-		opt, file string
-		frac, def float64
-	}{{"dev", rec.DevFile, rec.DevFrac, cnn.DefaultDevFrac}, {"test", rec.TestFile, rec.TestFrac, cnn.DefaultTestFrac}} {
-		switch {
-		case s.file != "":
-			fmt.Fprintf(&b, " --%s %s", s.opt, s.file)
-		case s.frac != s.def:
-			fmt.Fprintf(&b, " --%s-frac %g", s.opt, s.frac)
+// dataCommand is the telltale data command, quoted for a shell, that
+// lists the copies in data: with extra (a split file the user gave) or the
+// options that make rec's dev and test splits again (those not at their
+// default), and the reading options r sets.
+func dataCommand(data string, rec *cnn.SplitRecord, r *readOptions, extra ...string) string {
+	args := append([]string{"telltale", "data", "--data", data}, extra...)
+	if rec != nil && len(extra) == 0 {
+		for _, s := range []struct {
+			opt, file string
+			frac, def float64
+		}{{"dev", rec.DevFile, rec.DevFrac, cnn.DefaultDevFrac}, {"test", rec.TestFile, rec.TestFrac, cnn.DefaultTestFrac}} {
+			switch {
+			case s.file != "":
+				args = append(args, "--"+s.opt, s.file)
+			case s.frac != s.def:
+				args = append(args, "--"+s.opt+"-frac", fmtFloat(s.frac))
+			}
+		}
+		if rec.Seed != cnn.DefaultRecipe().Train.Seed && (rec.DevFrac > 0 || rec.TestFrac > 0) {
+			args = append(args, "--seed", strconv.FormatUint(rec.Seed, 10))
 		}
 	}
-	if rec.Seed != cnn.DefaultRecipe().Train.Seed && (rec.DevFrac > 0 || rec.TestFrac > 0) {
-		fmt.Fprintf(&b, " --seed %d", rec.Seed)
-	}
-	return b.String()
+	return shellJoin(append(args, r.args()...))
 }
 
 // checkVocabulary tokenizes the training split as training will and

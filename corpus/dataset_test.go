@@ -116,15 +116,18 @@ func TestSummarize(t *testing.T) {
 
 // A text in the dev and the test split but not in train is a duplicate
 // across splits, not a leak into training; a dev text also in train is one.
+// Texts of digits and marks alone are not near copies of each other.
 func TestSummarizeThreeLeaks(t *testing.T) {
 	train := &Dataset{Path: "train.csv", Examples: []Example{
 		{Text: "Book two seats", Label: "booking", Line: 2},
 		{Text: "lost my bag on deck 3", Label: "lost", Line: 3},
+		{Text: "7.", Label: "lost", Line: 4},
 	}}
 	train.Labels = uniqueLabels(train.Examples)
 	dev := &Dataset{Path: "train.csv", Examples: []Example{
 		{Text: "Where is the ferry?", Label: "lost", Line: 4},
 		{Text: "book two seats!", Label: "booking", Line: 5},
+		{Text: "42", Label: "lost", Line: 6}, // no words: not a near copy of the train text below
 	}}
 	test := &Dataset{Path: "test.csv", Examples: []Example{
 		{Text: "Where is the ferry?", Label: "lost", Line: 2},

@@ -259,15 +259,26 @@ func hashString(s string) uint64 {
 
 // NearKey lower-cases s, drops punctuation, symbols and digits and
 // collapses white space: two texts with the same key, not empty, are
-// near-exact copies (Summary's near groups and leaks).
-func NearKey(s string) string {
+// near-exact copies (Summary's near groups and leaks), texts that may
+// differ in their numbers too (a template filled with other dates or
+// references).
+func NearKey(s string) string { return textKey(s, true) }
+
+// CopyKey is NearKey with the digits kept: two texts with the same key,
+// not empty, hold the same words and numbers and differ at most in case,
+// spacing, punctuation and symbols.
+func CopyKey(s string) string { return textKey(s, false) }
+
+// textKey lower-cases s, drops punctuation and symbols (and digits, with
+// dropDigits) and collapses white space.
+func textKey(s string, dropDigits bool) string {
 	var b strings.Builder
 	space := false
 	for _, r := range s {
 		switch {
 		case unicode.IsSpace(r):
 			space = b.Len() > 0
-		case unicode.IsPunct(r) || unicode.IsSymbol(r) || unicode.IsDigit(r) || unicode.Is(unicode.Cf, r) || unicode.Is(unicode.Cc, r):
+		case unicode.IsPunct(r) || unicode.IsSymbol(r) || (dropDigits && unicode.IsDigit(r)) || unicode.Is(unicode.Cf, r) || unicode.Is(unicode.Cc, r):
 		default:
 			if space {
 				b.WriteByte(' ')
