@@ -49,9 +49,9 @@ the training split of --data, and tells in plain words what it found:
                      a label share that differs in the choosing half of the
                      test texts: a rule's score, its weights set by hand.
 
-The reliance of at most --measure N of the associated cues is measured (the
-cues marked first, then the most associated and the most artifact-like by
-turns; default 40): the text says how many were not, and how many of those read
+The reliance of --measure N of the associated cues is measured (default
+40; the most associated and the most artifact-like by turns), and of every
+cue marked besides: the text says how many were not, and how many of those read
 like collection; a larger N measures more and takes longer.
 
 The test split is --test FILE, or the share train held out of --data as its
@@ -330,7 +330,7 @@ func runAudit(ctx context.Context, env *runEnv, o *auditOptions) error {
 func (r *auditRun) unmade(out *auditJSON) error {
 	o := r.o
 	noMask := o.maskedOut != "" && !out.Action.Suggested()
-	if !noMask && !out.retrainSkipped {
+	if !noMask && !out.RetrainSkipped {
 		return nil
 	}
 	if len(r.retrainPatterns(out.Result)) == 0 {
@@ -338,7 +338,7 @@ func (r *auditRun) unmade(out *auditJSON) error {
 		if noMask {
 			parts, remedies, options = append(parts, o.maskedOut+" was not written"), append(remedies, "mask"), append(options, "--masked-out")
 		}
-		if out.retrainSkipped {
+		if out.RetrainSkipped {
 			trained := "--retrain trained nothing"
 			if o.retrainOut != "" {
 				trained += " (" + o.retrainOut + " was not written)"
@@ -416,9 +416,10 @@ type auditJSON struct {
 	Retrained      *audit.Retrained `json:"retrained,omitempty"`
 	RetrainedModel string           `json:"retrained_model,omitempty"`
 	MaskedModel    string           `json:"masked_model,omitempty"`
-	// retrainSkipped: --retrain found nothing to retrain without (no cue
-	// acted on, none marked artifact), so it did not train.
-	retrainSkipped bool
+	// RetrainSkipped: --retrain found nothing to retrain without (no cue
+	// acted on, none marked artifact), so it did not train; the command
+	// fails after writing the audit, saying so.
+	RetrainSkipped bool `json:"retrain_skipped,omitempty"`
 	// Warnings are those on the held-out texts, as eval's (findTestSplit:
 	// why they may not be held-out texts); absent when there are none.
 	Warnings []string `json:"warnings,omitempty"`
@@ -476,8 +477,8 @@ func (r *auditRun) all(ctx context.Context, m *cnn.Model, others []*cnn.Model, r
 	}
 	if patterns := r.retrainPatterns(res); r.o.retrain && len(patterns) == 0 {
 		// Nothing to retrain without: the audit stands, and the command
-		// says so when it ends (retrainSkipped).
-		out.retrainSkipped = true
+		// says so when it ends (RetrainSkipped).
+		out.RetrainSkipped = true
 	} else if r.o.retrain {
 		r.stage = "the retraining without the cues (--retrain)"
 		say(r.env.Stderr, r.o.quiet, "the audit of %s is done; retraining without the cues (--retrain)", r.o.model)

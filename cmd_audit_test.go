@@ -32,6 +32,7 @@ type auditOut struct {
 	Retrained      *audit.Retrained `json:"retrained"`
 	RetrainedModel string           `json:"retrained_model"`
 	MaskedModel    string           `json:"masked_model"`
+	RetrainSkipped bool             `json:"retrain_skipped"`
 }
 
 // demoAuditModel trains the README tour's model (the default recipe, 8
@@ -133,9 +134,9 @@ func checkNothingToRetrain(t *testing.T, base []string, res *auditOut) {
 		}
 		var got auditOut
 		if asJSON {
-			if err := json.Unmarshal([]byte(stdout), &got); err != nil || got.Associated != clean.Associated || got.Retrained != nil {
-				t.Errorf("--json: the audit printed is not the audit (%v): %d cues associated, %d without --retrain; retrained %v",
-					err, got.Associated, clean.Associated, got.Retrained)
+			if err := json.Unmarshal([]byte(stdout), &got); err != nil || got.Associated != clean.Associated || got.Retrained != nil || !got.RetrainSkipped {
+				t.Errorf("--json: the audit printed is not the audit (%v): %d cues associated, %d without --retrain; retrained %v, retrain_skipped %v",
+					err, got.Associated, clean.Associated, got.Retrained, got.RetrainSkipped)
 			}
 		} else if !strings.HasPrefix(stdout, "Cue audit of ") || strings.Contains(stdout, "Retrained without") {
 			t.Errorf("the text printed is not the audit alone:\n%.300s", stdout)

@@ -19,12 +19,13 @@ var cmdEval = &command{
 	Short:     "evaluate a model on labeled data: accuracy, per-class F1, confusion matrix, calibration",
 	Long: `Eval runs a saved model on labeled texts and prints accuracy with its 95%
 Wilson interval, macro-F1 with its 95% bootstrap interval over texts,
-per-class precision and recall (Wilson intervals) and F1 (bootstrap
-interval; an exact Clopper–Pearson interval where the texts pin an F1, a
-class with no error or nothing right) with support, weighted-F1, the
-confusion matrix (rows: gold label, columns: predicted) and the expected
-calibration error over equal-width confidence bins, both with bootstrap
-intervals. When the model
+per-class precision and recall (Wilson intervals) and F1 with support,
+weighted-F1, the confusion matrix (rows: gold label, columns: predicted)
+and the expected calibration error over equal-width confidence bins, with
+bootstrap intervals. Where the texts pin an F1 (a class with no error or
+nothing right, so every resample gives the same value), its interval is an
+exact Clopper–Pearson one instead, and so is the macro- or weighted-F1's
+when all of its classes are pinned. When the model
 file carries the linear baseline train fits beside the CNN, the baseline's
 accuracy and macro-F1 are shown beside the CNN's, with the exact McNemar
 test between the two, and what to try where the baseline is significantly

@@ -37,6 +37,12 @@ func refitRecipe(r cnn.Recipe, first *cnn.Model, keptEpoch int) cnn.Recipe {
 // training and dev splits, the refit trains on both, and both are scored
 // on the test split.
 func measureRefit(which, name string, r cnn.Recipe, sp splits) (string, error) {
+	// A choice the refit does not fix: the fitted start's C, chosen on dev
+	// (a learning-rate decay needs nothing: epoch e's rate does not depend
+	// on the number of epochs).
+	if r.Train.WideFit && r.Train.WideFitC == 0 {
+		return "", fmt.Errorf("-refit %s: the refit cannot fix a fitted start's C chosen on dev: set cnn.TrainConfig.WideFitC, or leave the fitted start out", name)
+	}
 	ctx := context.Background()
 	firstTrain, firstDev, scoreOn, refitOn := sp.train, sp.dev, sp.dev, sp.train
 	form, what := "nested", "dev"
