@@ -43,7 +43,12 @@ import (
 // the mean of their upper bounds; the weighted F1 is a mean of the F1s of
 // the classes with gold texts under weights (their shares) that are not
 // known exactly, so it lies between the smallest of their lower bounds and
-// the largest of their upper bounds. Both are conservative bounds.
+// the largest of their upper bounds. Both are conservative bounds, for
+// the classes present in the texts (a class absent from them has no F1 to
+// bound). These statements hold for the exact intervals alone: a figure
+// shown with the exact interval where the texts pin it and the bootstrap
+// elsewhere has the coverage of that mixture, measured by simulation
+// (TestF1IntervalsOfCoverageWithRareErrors), not proved.
 //
 // Which interval is used when: a class's F1 gets the exact interval where
 // none of its texts is an error or none is right (e_c = 0 or TP_c = 0);
