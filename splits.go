@@ -434,27 +434,9 @@ func trainingWarning(rec *cnn.SplitRecord, texts *corpus.Dataset, name string, t
 }
 
 // inTraining counts the texts of test that are also texts of train, or
-// copies of one but for case, spacing and punctuation (corpus.CopyKey: the
-// same words and numbers). telltale data counts these among its leaks,
-// with texts that differ in their numbers too (corpus.NearKey), which are
-// other texts to a model (another date, another departure).
-func inTraining(test, train *corpus.Dataset) int {
-	exact := make(map[string]bool, len(train.Examples))
-	near := make(map[string]bool, len(train.Examples))
-	for _, e := range train.Examples {
-		exact[e.Text] = true
-		if k := corpus.CopyKey(e.Text); k != "" {
-			near[k] = true
-		}
-	}
-	n := 0
-	for _, e := range test.Examples {
-		if k := corpus.CopyKey(e.Text); exact[e.Text] || (k != "" && near[k]) {
-			n++
-		}
-	}
-	return n
-}
+// copies of one but for case, spacing and punctuation (heldout.Copies, the
+// window's count too).
+func inTraining(test, train *corpus.Dataset) int { return heldout.Copies(test, train) }
 
 // changedSince is a warning when ds, read from the model's recorded dev or
 // test file at path (which says which), is not what train read there (its

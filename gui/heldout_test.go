@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -132,6 +133,42 @@ func TestHeldOutWarningsSeedsJoined(t *testing.T) {
 		ws := heldOutWarnings(m, cs)
 		if len(ws) != 1 || !strings.Contains(ws[0], c.want) || strings.Contains(ws[0], c.not) {
 			t.Errorf("%s: %q, want one warning with %q and without %q", c.name, ws, c.want, c.not)
+		}
+	}
+}
+
+// TestHeldOutWarningsCopies: a model trained on the open data with the
+// open plan, whose test split holds a copy of a training text (one
+// upper-cased with a mark added: corpus.CopyKey), is warned of as the
+// command line warns; the same splits without the copy, or with another
+// plan, are not. (An identity of the rule; the texts are invented.)
+func TestHeldOutWarningsCopies(t *testing.T) {
+	mk := func(texts ...string) *corpus.Dataset {
+		d := &corpus.Dataset{Path: "d.csv", Labels: []string{"a", "b"}}
+		for i, s := range texts {
+			d.Examples = append(d.Examples, corpus.Example{Text: s, Label: []string{"a", "b"}[i%2], Line: i + 2})
+		}
+		return d
+	}
+	all := mk("one two three", "four five six", "seven eight", "ONE TWO THREE!")
+	plan := splitPlan{DevFrac: 0.1, TestFrac: 0.2, Seed: 1}
+	m := &cnn.Model{Info: cnn.Info{Splits: &cnn.SplitRecord{Examples: len(all.Examples), Fingerprint: all.Fingerprint(),
+		DevFrac: plan.DevFrac, TestFrac: plan.TestFrac, Seed: plan.Seed}}}
+	for _, c := range []struct {
+		name string
+		test *corpus.Dataset
+		plan splitPlan
+		want bool
+	}{
+		{"a copy", mk("ONE TWO THREE!"), plan, true},
+		{"no copy", mk("nine ten"), plan, false},
+		{"another plan", mk("ONE TWO THREE!"), splitPlan{DevFrac: 0.2, TestFrac: 0.2, Seed: 1}, false},
+	} {
+		cs := &corpusState{All: all, Train: mk("one two three", "four five six"), Test: c.test, Plan: c.plan}
+		ws := heldOutWarnings(m, cs)
+		got := slices.ContainsFunc(ws, func(w string) bool { return strings.Contains(w, "1 of the test split's 1 text are texts of the training split") })
+		if got != c.want {
+			t.Errorf("%s: warnings %q, want the copy warned of: %v", c.name, ws, c.want)
 		}
 	}
 }

@@ -201,14 +201,16 @@ func planOf(m *cnn.Model, cs *corpusState) (splitPlan, bool) {
 // (cnn.SplitRecord.TestFingerprint). The window reads no dev file: it
 // never uses m's recorded dev file.
 //
-// It warns too, as the command line does, when the test split holds the
-// texts that chose the cues a retrained m was retrained without
+// It warns too, as the command line does, when the test split holds
+// copies of texts of the model's training split (heldout.Copies), and when
+// it holds the texts that chose the cues a retrained m was retrained without
 // (cnn.Info.CuesChosenOn); when audits with different seeds chose on them,
 // no confirming half is clean, and the fix asks for another test file.
 func heldOutWarnings(m *cnn.Model, cs *corpusState) []string {
 	var out []string
 	r := m.Info.Splits
-	if _, ok := planOf(m, cs); ok && r.TestFile != "" && r.TestFile == cs.Record.TestFile {
+	plan, ok := planOf(m, cs)
+	if ok && r.TestFile != "" && r.TestFile == cs.Record.TestFile {
 		if w := heldout.Changed("test", r.TestFile, r.TestFingerprint, cs.Record.TestFingerprint,
 			"its figures are not the ones train reported; open the original test file, or retrain"); w != "" {
 			out = append(out, w)
@@ -216,6 +218,16 @@ func heldOutWarnings(m *cnn.Model, cs *corpusState) []string {
 	}
 	if cs == nil || cs.Test == nil {
 		return out
+	}
+	// The open splits are the model's when it was trained on this data
+	// with this plan: then copies of training texts in the test split are
+	// texts it learned (the command line's warning, splits.go).
+	if ok && plan == cs.Plan && cs.Train != nil {
+		if n := heldout.Copies(cs.Test, cs.Train); n > 0 {
+			out = append(out, fmt.Sprintf("%d of the test split's %s are texts of the training split as well (or copies but for case and punctuation): "+
+				"its figures are not all held-out figures; keep one copy of each text in the data (Corpus › Duplicates and leaks lists them)",
+				n, wording.Texts(len(cs.Test.Examples))))
+		}
 	}
 	choices := m.Info.CuesChosenIn(len(cs.Test.Examples), cs.Test.Fingerprint())
 	fix := "for figures on texts that took no part, compare the models on the confirming half (telltale audit --confirming-out FILE writes it; telltale compare --test FILE)"

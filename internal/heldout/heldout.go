@@ -3,6 +3,8 @@ package heldout
 import (
 	"fmt"
 	"strings"
+
+	"telltale/corpus"
 )
 
 // Changed is the warning that the dev or test file at path (which says
@@ -55,4 +57,27 @@ func SeedsJoined(seeds []uint64, fix string) string {
 		list = strings.Join(flags[:len(flags)-1], ", ") + " and " + flags[len(flags)-1]
 	}
 	return fmt.Sprintf("audits run with %s chose on different halves of these texts, so no confirming half took no part: %s", list, fix)
+}
+
+// Copies counts the texts of test that are also texts of train, or copies
+// of one but for case, spacing and punctuation (corpus.CopyKey: the same
+// words and numbers). telltale data counts these among its leaks, with
+// texts that differ in their numbers too (corpus.NearKey), which are other
+// texts to a model (another date, another departure).
+func Copies(test, train *corpus.Dataset) int {
+	exact := make(map[string]bool, len(train.Examples))
+	near := make(map[string]bool, len(train.Examples))
+	for _, e := range train.Examples {
+		exact[e.Text] = true
+		if k := corpus.CopyKey(e.Text); k != "" {
+			near[k] = true
+		}
+	}
+	n := 0
+	for _, e := range test.Examples {
+		if k := corpus.CopyKey(e.Text); exact[e.Text] || (k != "" && near[k]) {
+			n++
+		}
+	}
+	return n
 }
