@@ -166,7 +166,9 @@ func TestHeldOutWarningsCopies(t *testing.T) {
 	} {
 		cs := &corpusState{All: all, Train: mk("one two three", "four five six"), Test: c.test, Plan: c.plan}
 		ws := heldOutWarnings(m, cs)
-		got := slices.ContainsFunc(ws, func(w string) bool { return strings.Contains(w, "1 of the test split's 1 text are texts of the training split") })
+		got := slices.ContainsFunc(ws, func(w string) bool {
+			return strings.Contains(w, "1 of the test split's 1 text are texts of the training split")
+		})
 		if got != c.want {
 			t.Errorf("%s: warnings %q, want the copy warned of: %v", c.name, ws, c.want)
 		}
