@@ -272,19 +272,20 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 
 // settle sets the verdict of a cue put to the test on the confirmation
 // half from the adjusted p-value q of its drop's sign test: acted on when
-// q is at most alpha, the mean drop above 0 and the net flip rate's
-// interval above 0; ConfidenceOnly when only the flips fail and the drop
-// is at least minConfidenceDrop; else it stays as it is. c.Confirmed must
-// be set.
+// q is at most alpha and the 95% intervals of the label's probability drop
+// and of the net flip rate lie above 0 (as for a cue that reads like the
+// task, confirmedTask); ConfidenceOnly when only the flips fail and the
+// mean drop is at least minConfidenceDrop; else it stays as it is.
+// c.Confirmed must be set.
 func (c *Candidate) settle(q, alpha float64) {
 	c.ConfirmedQ = q
-	drop := c.Confirmed.LabelDrop.Estimate
-	if q > alpha || !(drop > 0) {
+	drop := c.Confirmed.LabelDrop
+	if q > alpha || !(drop.Low > 0) {
 		return
 	}
 	if c.Confirmed.NetFlipRate.Low > 0 {
 		c.Verdict, c.Relied = VerdictActed, true
-	} else if drop >= minConfidenceDrop {
+	} else if drop.Estimate >= minConfidenceDrop {
 		c.ConfidenceOnly = true
 	}
 }

@@ -198,7 +198,9 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 // decidedShare is Reliance.Decided: the net flips net of the measured
 // texts chosen (indexes in the half), scaled to the cueTexts holding the
 // cue, over all halfTexts of the half (texts without the cue count 0),
-// with BootstrapMean's interval over the half's texts. Where every text of
+// with BootstrapMean's interval over the half's texts (its upper bound
+// raised to the count bound where few texts have a net above 0,
+// fewNetTexts). Where every text of
 // the half gives the same value (no measured text flips more with the cue
 // replaced than kept, or fewer) the interval is exact instead: the share
 // of the cue's texts whose net is not that value v lies below u, the
@@ -218,12 +220,40 @@ func decidedShare(net []float64, chosen []int, cueTexts, halfTexts, B int, seed 
 	var iv Interval
 	if slices.ContainsFunc(x, func(v float64) bool { return v != x[0] }) {
 		iv = BootstrapMean(x, B, 0.95, seed)
+		// With few texts whose net is above 0 the bootstrap sees only
+		// those and is too narrow: it would bound the share lower after
+		// one flip than after none. A net is at most 1, so the mean net is
+		// at most the share of texts with a net above 0, and the
+		// Clopper–Pearson upper bound of that share bounds it (a
+		// conservative bound, used while such texts are few).
+		if k := countAbove0(net); k <= fewNetTexts {
+			_, u := ClopperPearson(k, len(net), 0.95)
+			iv.High = max(iv.High, float64(cueTexts)/float64(halfTexts)*u)
+		}
 	} else {
 		v, share := net[0], float64(cueTexts)/float64(halfTexts)
 		_, u := ClopperPearson(0, len(net), 0.95)
 		iv = Interval{Estimate: share * v, Low: share * (v - u*(v+1)), High: share * (v + u*(1-v))}
 	}
 	return Interval{Estimate: max(0, iv.Estimate), Low: max(0, iv.Low), High: max(0, iv.High)}
+}
+
+// fewNetTexts is the most texts with a net above 0 for which decidedShare
+// bounds the share from above by their count (Clopper–Pearson) as well as
+// by the bootstrap: a bootstrap of a mean of mostly zeros is too narrow
+// with fewer than about five texts that are not (common practice, no
+// source).
+const fewNetTexts = 5
+
+// countAbove0 is how many values of x are above 0.
+func countAbove0(x []float64) int {
+	n := 0
+	for _, v := range x {
+		if v > 0 {
+			n++
+		}
+	}
+	return n
 }
 
 // textFigures are the per-text means over the draws, indexed like chosen:

@@ -169,8 +169,8 @@ func (c *Candidate) measuredWhy() string {
 // NotRuledOut says, for a ConfidenceOnly cue, what the confirmation half
 // does not rule out: the model's confidence in the cue's label rests on it
 // there though no prediction changed (or none measurably beyond the
-// control), and with so few texts a flip rate up to its interval's upper
-// bound is not ruled out. It is "" for any other cue.
+// control), and with so few texts a net flip rate (beyond the control) up
+// to its interval's upper bound is not ruled out. It is "" for any other cue.
 func (c *Candidate) NotRuledOut() string {
 	cr := c.Confirmed
 	if !c.ConfidenceOnly || cr == nil || cr.Measured == 0 {
@@ -180,8 +180,10 @@ func (c *Candidate) NotRuledOut() string {
 	if cr.FlipRate.Estimate > 0 {
 		changed = "though its predictions did not change measurably beyond the control"
 	}
-	return fmt.Sprintf("the model's confidence in %s rests on it on its confirming texts, %s: with %s, a flip rate up to %s is not ruled out",
-		c.Label, changed, wording.Count(cr.Measured, "text", "texts"), fmtPct(cr.FlipRate.High))
+	// The test that failed is the net rate's (beyond the control), so that
+	// is the rate not ruled out.
+	return fmt.Sprintf("the model's confidence in %s rests on it on its confirming texts, %s: with %s, a flip rate beyond the control of up to %s is not ruled out",
+		c.Label, changed, wording.Count(cr.Measured, "text", "texts"), fmtPct(cr.NetFlipRate.High))
 }
 
 // Story tells the audit in plain words: the cues the model relies on that
@@ -323,6 +325,16 @@ func (r *Result) writeNotRuledOut(p func(string, ...any), unsettled []*Candidate
 	}
 	them := map[bool]string{true: "it", false: "them"}[len(unsettled) == 1]
 	its := map[bool]string{true: "its", false: "their"}[len(unsettled) == 1]
+	unmarked := 0
+	for _, c := range unsettled {
+		if c.Mark != MarkArtifact {
+			unmarked++
+		}
+	}
+	if unmarked == 0 { // all marked artifact already: the story says what the retraining takes out
+		p("\nA new test file with more texts holding %s measures %s flips afresh.\n", them, its)
+		return
+	}
 	p("\nA new test file with more texts holding %s measures %s flips afresh; if you judge %s an artifact, mark %s so,\n", them, its, them, them)
 	p("and retraining without the cues takes %s out too.\n", them)
 }

@@ -277,7 +277,7 @@ func TestStoryNotRuledOut(t *testing.T) {
 	unsettled := func(flip Interval) Candidate {
 		return Candidate{Words: []string{"http"}, Text: "http", Label: "ham", Verdict: VerdictUnconfirmed, ConfidenceOnly: true,
 			ConfirmedQ: 0.0012, Association: CueAssociation{Texts: 300},
-			Confirmed: &Reliance{Texts: 14, Measured: 14, Draws: 1, Lower: 14, P: 6.1e-05, FlipRate: flip, ControlFlipRate: flip,
+			Confirmed: &Reliance{Texts: 14, Measured: 14, Draws: 1, Lower: 14, P: 6.1e-05, FlipRate: flip, ControlFlipRate: flip, NetFlipRate: flip,
 				LabelDrop: Interval{Estimate: 0.065, Low: 0.033, High: 0.108}}}
 	}
 	none := BootstrapMeanIn(make([]float64, 14), 0, 1, 100, 0.95, 1)
@@ -292,16 +292,18 @@ func TestStoryNotRuledOut(t *testing.T) {
 	}{
 		{"none acted on, no flip", []Candidate{unsettled(none)},
 			[]string{"acts on none; but that\ndoes not rule out", "by 0.065 (0.033–0.108) on its 14 confirming texts",
-				"though no prediction changed:\n    with 14 texts, a flip rate up to 23% is not ruled out"},
+				"though no prediction changed:\n    with 14 texts, a flip rate beyond the control of up to 23% is not ruled out"},
 			[]string{"nothing to act on"}},
 		{"none acted on, flips within the control's", []Candidate{unsettled(some)},
-			[]string{"did not change measurably beyond the control:\n    with 14 texts, a flip rate up to 21% is not ruled out"},
+			[]string{"did not change measurably beyond the control:\n    with 14 texts, a flip rate beyond the control of up to 21% is not ruled out"},
 			[]string{"nothing to act on", "no prediction changed"}},
 		{"one acted on besides", []Candidate{acted, unsettled(none)},
-			[]string{"The audit acts on no other cue, but it does not rule out these", "a flip rate up to 23% is not ruled out"},
+			[]string{"The audit acts on no other cue, but it does not rule out these", "a flip rate beyond the control of up to 23% is not ruled out"},
 			nil},
 		{"not confidence only", []Candidate{func() Candidate { c := unsettled(none); c.ConfidenceOnly = false; return c }()},
 			[]string{"nothing to act on"}, []string{"not ruled out"}},
+		{"marked artifact already", []Candidate{func() Candidate { c := unsettled(none); c.Mark = MarkArtifact; return c }()},
+			[]string{"measures its flips afresh."}, []string{"mark it so"}},
 		{"five, three named", []Candidate{unsettled(none), unsettled(none), unsettled(none), unsettled(some), unsettled(some)},
 			[]string{"  - and 2 more cues, likewise"}, []string{"nothing to act on", "up to 21%"}},
 	} {
@@ -324,7 +326,7 @@ func TestStoryNotRuledOut(t *testing.T) {
 		line := "→ ham (relied on in choosing, not confirmed; the model's confidence in ham rests on it on its confirming texts"
 		want := 0
 		for _, cand := range c.ranked {
-			if cand.ConfidenceOnly {
+			if cand.ConfidenceOnly && cand.Mark == "" { // a marked cue's line shows the mark in its place
 				want++
 			}
 		}
@@ -429,25 +431,27 @@ func TestActionMarked(t *testing.T) {
 }
 
 // TestSettle: a cue put to the test is acted on when its drop's adjusted
-// p-value passes, its mean drop is above 0 and its net flip rate's
-// interval lies above 0; with the flips failing it is marked
-// ConfidenceOnly only for a drop of at least minConfidenceDrop; otherwise
-// it keeps its verdict. (Identities of the rule; the numbers are
+// p-value passes and the intervals of its drop and of its net flip rate
+// lie above 0; with the flips failing it is marked ConfidenceOnly only for
+// a mean drop of at least minConfidenceDrop; otherwise it keeps its
+// verdict. (Identities of the rule; the numbers are
 // invented.)
 func TestSettle(t *testing.T) {
 	for _, c := range []struct {
-		name              string
-		q, drop, netLow   float64
-		acted, confidence bool
+		name                     string
+		q, drop, dropLow, netLow float64
+		acted, confidence        bool
 	}{
-		{"acted", 0.001, 0.2, 0.01, true, false},
-		{"flips fail, drop large", 0.001, 0.065, 0, false, true},
-		{"flips fail, drop tiny", 0.001, 0.0004, 0, false, false},
-		{"drop test fails", 0.2, 0.2, 0.01, false, false},
-		{"no drop", 0.001, 0, 0.01, false, false},
+		{"acted", 0.001, 0.2, 0.15, 0.01, true, false},
+		{"flips fail, drop large", 0.001, 0.065, 0.033, 0, false, true},
+		{"flips fail, drop tiny", 0.001, 0.0004, 0.0002, 0, false, false},
+		{"flips fail, drop's interval reaches 0", 0.001, 0.065, -0.01, 0, false, false},
+		{"drop's interval reaches 0", 0.001, 0.2, 0, 0.01, false, false},
+		{"drop test fails", 0.2, 0.2, 0.15, 0.01, false, false},
+		{"no drop", 0.001, 0, 0, 0.01, false, false},
 	} {
 		cand := Candidate{Verdict: VerdictUnconfirmed, Confirmed: &Reliance{}}
-		cand.Confirmed.LabelDrop.Estimate, cand.Confirmed.NetFlipRate.Low = c.drop, c.netLow
+		cand.Confirmed.LabelDrop.Estimate, cand.Confirmed.LabelDrop.Low, cand.Confirmed.NetFlipRate.Low = c.drop, c.dropLow, c.netLow
 		cand.settle(c.q, 0.05)
 		if (cand.Verdict == VerdictActed) != c.acted || cand.Relied != c.acted || cand.ConfidenceOnly != c.confidence || cand.ConfirmedQ != c.q {
 			t.Errorf("%s: verdict %s relied %v confidence-only %v q %g", c.name, cand.Verdict, cand.Relied, cand.ConfidenceOnly, cand.ConfirmedQ)
