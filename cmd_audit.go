@@ -49,9 +49,9 @@ the training split of --data, and tells in plain words what it found:
                      a label share that differs in the choosing half of the
                      test texts: a rule's score, its weights set by hand.
 
-The reliance of --measure N of the associated cues is measured (default
-40; the most associated and the most artifact-like by turns), and of every
-cue marked besides: the text says how many were not, and how many of those read
+The reliance of --measure N of the associated cues is measured (the cues
+marked first, every one of them even beyond N, then the most associated and
+the most artifact-like by turns; default 40): the text says how many were not, and how many of those read
 like collection; a larger N measures more and takes longer.
 
 The test split is --test FILE, or the share train held out of --data as its
