@@ -204,11 +204,12 @@ func TestPredictAndExplainReadData(t *testing.T) {
 
 // TestInTrainingCountsCopies: a test text counts as a training text when
 // it is one, or a copy of one but for case, spacing and punctuation; a
-// text that differs in a number is another text (another reference, as
+// text that differs in a number (13:40 is not 1340) or a symbol is another
+// text (another reference, as
 // the demo corpus's templated messages hold). An identity of the rule
 // (corpus.CopyKey); the texts are invented.
 func TestInTrainingCountsCopies(t *testing.T) {
-	train := &corpus.Dataset{Examples: []corpus.Example{{Text: "Can I switch my booking BW423093?"}, {Text: "where is the 13:40"}}}
+	train := &corpus.Dataset{Examples: []corpus.Example{{Text: "Can I switch my booking BW423093?"}, {Text: "where is the 13:40"}, {Text: "great 👍"}}}
 	for _, c := range []struct {
 		text string
 		want int
@@ -218,6 +219,9 @@ func TestInTrainingCountsCopies(t *testing.T) {
 		{"WHERE IS THE 13:40 !!", 1},
 		{"Can I switch my booking BW984660?", 0},
 		{"where is the 15:55", 0},
+		{"where is the 1340", 0},
+		{"GREAT 👍!", 1},
+		{"great 👎", 0},
 		{"!!!", 0},
 	} {
 		test := &corpus.Dataset{Examples: []corpus.Example{{Text: c.text}}}

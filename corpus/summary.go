@@ -257,28 +257,44 @@ func hashString(s string) uint64 {
 	return h.Sum64()
 }
 
+// CopyKey lower-cases s, collapses white space and drops punctuation
+// except between two digits: two texts with the same key, not empty, hold
+// the same words, numbers ("13:40" is not "1340") and symbols (emoji, £)
+// and differ at most in case, spacing and punctuation.
+func CopyKey(s string) string {
+	rs := []rune(s)
+	var b strings.Builder
+	space := false
+	for i, r := range rs {
+		switch {
+		case unicode.IsSpace(r):
+			space = b.Len() > 0
+		case unicode.IsPunct(r) && !(i > 0 && i+1 < len(rs) && unicode.IsDigit(rs[i-1]) && unicode.IsDigit(rs[i+1])),
+			unicode.Is(unicode.Cf, r), unicode.Is(unicode.Cc, r):
+		default:
+			if space {
+				b.WriteByte(' ')
+				space = false
+			}
+			b.WriteRune(unicode.ToLower(r))
+		}
+	}
+	return b.String()
+}
+
 // NearKey lower-cases s, drops punctuation, symbols and digits and
 // collapses white space: two texts with the same key, not empty, are
 // near-exact copies (Summary's near groups and leaks), texts that may
 // differ in their numbers too (a template filled with other dates or
 // references).
-func NearKey(s string) string { return textKey(s, true) }
-
-// CopyKey is NearKey with the digits kept: two texts with the same key,
-// not empty, hold the same words and numbers and differ at most in case,
-// spacing, punctuation and symbols.
-func CopyKey(s string) string { return textKey(s, false) }
-
-// textKey lower-cases s, drops punctuation and symbols (and digits, with
-// dropDigits) and collapses white space.
-func textKey(s string, dropDigits bool) string {
+func NearKey(s string) string {
 	var b strings.Builder
 	space := false
 	for _, r := range s {
 		switch {
 		case unicode.IsSpace(r):
 			space = b.Len() > 0
-		case unicode.IsPunct(r) || unicode.IsSymbol(r) || (dropDigits && unicode.IsDigit(r)) || unicode.Is(unicode.Cf, r) || unicode.Is(unicode.Cc, r):
+		case unicode.IsPunct(r) || unicode.IsSymbol(r) || unicode.IsDigit(r) || unicode.Is(unicode.Cf, r) || unicode.Is(unicode.Cc, r):
 		default:
 			if space {
 				b.WriteByte(' ')
