@@ -262,24 +262,10 @@ func hashString(s string) uint64 {
 // the same words, numbers ("13:40" is not "1340") and symbols (emoji, £)
 // and differ at most in case, spacing and punctuation.
 func CopyKey(s string) string {
-	rs := []rune(s)
-	var b strings.Builder
-	space := false
-	for i, r := range rs {
-		switch {
-		case unicode.IsSpace(r):
-			space = b.Len() > 0
-		case unicode.IsPunct(r) && !(i > 0 && i+1 < len(rs) && unicode.IsDigit(rs[i-1]) && unicode.IsDigit(rs[i+1])),
-			unicode.Is(unicode.Cf, r), unicode.Is(unicode.Cc, r):
-		default:
-			if space {
-				b.WriteByte(' ')
-				space = false
-			}
-			b.WriteRune(unicode.ToLower(r))
-		}
-	}
-	return b.String()
+	return foldText(s, func(rs []rune, i int) bool {
+		r := rs[i]
+		return unicode.IsPunct(r) && !(i > 0 && i+1 < len(rs) && unicode.IsDigit(rs[i-1]) && unicode.IsDigit(rs[i+1]))
+	})
 }
 
 // NearKey lower-cases s, drops punctuation, symbols and digits and
@@ -288,13 +274,24 @@ func CopyKey(s string) string {
 // differ in their numbers too (a template filled with other dates or
 // references).
 func NearKey(s string) string {
+	return foldText(s, func(rs []rune, i int) bool {
+		r := rs[i]
+		return unicode.IsPunct(r) || unicode.IsSymbol(r) || unicode.IsDigit(r)
+	})
+}
+
+// foldText lower-cases s, collapses white space, and drops format and
+// control characters and the runes drop says (given the runes and the
+// index).
+func foldText(s string, drop func(rs []rune, i int) bool) string {
+	rs := []rune(s)
 	var b strings.Builder
 	space := false
-	for _, r := range s {
+	for i, r := range rs {
 		switch {
 		case unicode.IsSpace(r):
 			space = b.Len() > 0
-		case unicode.IsPunct(r) || unicode.IsSymbol(r) || unicode.IsDigit(r) || unicode.Is(unicode.Cf, r) || unicode.Is(unicode.Cc, r):
+		case unicode.Is(unicode.Cf, r) || unicode.Is(unicode.Cc, r) || drop(rs, i):
 		default:
 			if space {
 				b.WriteByte(' ')
