@@ -309,16 +309,7 @@ func TestStoryNotRuledOut(t *testing.T) {
 	} {
 		r := &Result{ConfirmationTexts: 100, Ranked: c.ranked}
 		story := r.Story()
-		for _, w := range c.want {
-			if !strings.Contains(story, w) {
-				t.Errorf("%s: the story lacks %q:\n%s", c.name, w, story)
-			}
-		}
-		for _, w := range c.not {
-			if strings.Contains(story, w) {
-				t.Errorf("%s: the story says %q:\n%s", c.name, w, story)
-			}
-		}
+		checkStory(t, c.name, story, c.want, c.not)
 		var b strings.Builder
 		if err := r.WriteText(&b); err != nil {
 			t.Fatal(err)
@@ -373,16 +364,7 @@ func TestStoryMarkedNotActed(t *testing.T) {
 			r.Action.MarkedPatterns = append(r.Action.MarkedPatterns, pattern(strings.Fields(m)))
 		}
 		story := r.Story()
-		for _, w := range c.want {
-			if !strings.Contains(story, w) {
-				t.Errorf("%s: the story lacks %q:\n%s", c.name, w, story)
-			}
-		}
-		for _, w := range c.not {
-			if strings.Contains(story, w) {
-				t.Errorf("%s: the story says %q:\n%s", c.name, w, story)
-			}
-		}
+		checkStory(t, c.name, story, c.want, c.not)
 	}
 }
 
@@ -455,6 +437,22 @@ func TestSettle(t *testing.T) {
 		cand.settle(c.q, 0.05)
 		if (cand.Verdict == VerdictActed) != c.acted || cand.Relied != c.acted || cand.ConfidenceOnly != c.confidence || cand.ConfirmedQ != c.q {
 			t.Errorf("%s: verdict %s relied %v confidence-only %v q %g", c.name, cand.Verdict, cand.Relied, cand.ConfidenceOnly, cand.ConfirmedQ)
+		}
+	}
+}
+
+// checkStory reports, for the case named, each of want the story lacks and
+// each of not it holds.
+func checkStory(t *testing.T, name, story string, want, not []string) {
+	t.Helper()
+	for _, w := range want {
+		if !strings.Contains(story, w) {
+			t.Errorf("%s: the story lacks %q:\n%s", name, w, story)
+		}
+	}
+	for _, w := range not {
+		if strings.Contains(story, w) {
+			t.Errorf("%s: the story says %q:\n%s", name, w, story)
 		}
 	}
 }
