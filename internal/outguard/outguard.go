@@ -160,10 +160,20 @@ func (r resolved) inside(dir os.FileInfo) bool {
 // creating and removing a probe file there). The message names the path
 // the user gave and the option to change, never the probe.
 func writable(f File) error {
-	if st, err := os.Stat(f.Path); err == nil && st.IsDir() {
+	st, err := os.Stat(f.Path)
+	switch {
+	case err == nil && st.IsDir():
 		return fail(ErrNotWritable, "%s %s is a folder: give a file name", f.Name, f.Path)
+	case err == nil && !st.Mode().IsRegular():
+		return nil // a stream (a pipe, a device): written to as it is (atomicfile), not replaced
 	}
-	dir := filepath.Dir(f.Path)
+	// A link is written through (atomicfile): its target's folder is where
+	// the file is made.
+	target := f.Path
+	if real, err := filepath.EvalSymlinks(f.Path); err == nil {
+		target = real
+	}
+	dir := filepath.Dir(target)
 	opt := option(f.Name)
 	switch st, err := os.Stat(dir); {
 	case errors.Is(err, fs.ErrNotExist):
@@ -181,21 +191,21 @@ func writable(f File) error {
 	if err := os.Remove(name); err != nil {
 		return err
 	}
-	return replaceable(f, dir, opt)
+	return replaceable(f, target, dir, opt)
 }
 
-// replaceable returns the error for an output that exists as a regular
-// file which a rename over it, as every file is written, would be refused
-// for: a file marked immutable or append-only (chattr +i, +a), or another
-// user's file in a sticky folder. Found before the work, so that nothing
-// is lost at the end. Other outputs (a link, which the rename replaces
-// itself, or a named pipe, which is not opened here) are left alone.
-func replaceable(f File, dir, opt string) error {
-	fi, err := os.Lstat(f.Path)
+// replaceable returns the error for an output whose file (target: the
+// output's path, or a link's target, in the folder dir) exists as a
+// regular file which a rename over it, as every file is written, would be
+// refused for: a file marked immutable or append-only (chattr +i, +a), or
+// another user's file in a sticky folder. Found before the work, so that
+// nothing is lost at the end.
+func replaceable(f File, target, dir, opt string) error {
+	fi, err := os.Lstat(target)
 	if err != nil || !fi.Mode().IsRegular() {
 		return nil
 	}
-	why, fix := inodeFlags(f.Path)
+	why, fix := inodeFlags(target)
 	if why == "" {
 		if di, err := os.Stat(dir); err == nil {
 			why, fix = stickyOwner(fi, di), "ask its owner to remove it"

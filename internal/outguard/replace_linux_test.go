@@ -48,6 +48,14 @@ func TestCheckUnreplaceable(t *testing.T) {
 			if !errors.Is(err, ErrNotWritable) || err.Error() != want {
 				t.Errorf("got %v, want %q", err, want)
 			}
+			// The same through a link, which is written through to its target.
+			link := filepath.Join(t.TempDir(), "link.tt")
+			if err := os.Symlink(out, link); err != nil {
+				t.Fatal(err)
+			}
+			if err := Check([]File{{"--out", link}}, nil); !errors.Is(err, ErrNotWritable) {
+				t.Errorf("through a link: got %v, want the target refused", err)
+			}
 			if b, _ := os.ReadFile(out); string(b) != "old model\n" {
 				t.Errorf("the output now holds %q", b)
 			}
