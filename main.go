@@ -25,6 +25,7 @@ import (
 	"strings"
 	"syscall"
 
+	"telltale/cnn"
 	"telltale/internal/inputfile"
 	"telltale/internal/localeenv"
 	"telltale/internal/outguard"
@@ -228,7 +229,7 @@ func exitCode(ctx context.Context, c *command, err error, stderr io.Writer) int 
 	switch {
 	case err == nil, errors.Is(err, errHelpShown):
 		return 0
-	case errors.As(err, &ue):
+	case errors.As(err, &ue), errors.Is(err, cnn.ErrNotModel): // another kind of file given as --model is a usage error
 		fmt.Fprintf(stderr, "telltale %s: %s\nusage: telltale %s\n", c.Name, errorText(c, err), c.UsageLine)
 		return 2
 	}
