@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"slices"
+	"strconv"
 	"strings"
 
 	"telltale/cnn"
@@ -130,6 +131,9 @@ func maskWordIDs(m *cnn.Model, path string, words []maskWord) ([]int32, error) {
 		case w == corpus.PADWord || w == corpus.UNKWord:
 			return nil, usagef("%s: %s is the %s itself, which has no word weights of its own to mask: give words of the text",
 				mw.where, w, map[bool]string{true: "padding", false: "unknown word"}[w == corpus.PADWord])
+		case id < 0 && m.Tokenizer.Lower && strings.ToLower(w) != w && slices.Contains(m.Vocab, strings.ToLower(w)):
+			return nil, usagef("%s: %s's vocabulary does not contain %q: the model lower-cases its texts, so give %q",
+				mw.where, path, clip(w), clip(strings.ToLower(w)))
 		case id < 0:
 			return nil, usagef("%s: %s's vocabulary does not contain %q; 'telltale export --model %s --out DIR' writes the vocabulary "+
 				"to DIR/vocab.txt, one word a line, written as the model's tokenizer writes them", mw.where, path, clip(w), path)
@@ -225,12 +229,16 @@ func (o *maskOptions) wordList() []string {
 	return out
 }
 
-// maskedWhat says what mask did: "masked filters [3 7]", "words 'a', 'b'
+// maskedWhat says what mask did: "masked filters 3, 7", "words 'a', 'b'
 // read as the unknown word by the word weights", or both.
 func maskedWhat(filters []int, words []string) string {
 	var parts []string
 	if len(filters) > 0 {
-		parts = append(parts, fmt.Sprintf("masked filters %v", filters))
+		ns := make([]string, len(filters))
+		for i, f := range filters {
+			ns[i] = strconv.Itoa(f)
+		}
+		parts = append(parts, "masked filters "+strings.Join(ns, ", "))
 	}
 	if len(words) > 0 {
 		q := make([]string, len(words))

@@ -155,6 +155,7 @@ func TestMaskRefusals(t *testing.T) {
 		{"neither", []string{"--model", wide}, []string{"--filters, --words or --words-file is required"}},
 		{"no word weights", []string{"--model", plain, "--words", "kioskmail"}, []string{plain + " has no word weights", "would change nothing", "--filters"}},
 		{"unknown word", []string{"--model", wide, "--words", "kioskmail,zqxjv"}, []string{"vocabulary does not contain \"zqxjv\"", "telltale export --model " + wide, "vocab.txt"}},
+		{"a word in capitals", []string{"--model", wide, "--words", "KioskMail"}, []string{"does not contain \"KioskMail\": the model lower-cases its texts, so give \"kioskmail\""}},
 		{"unknown-word token", []string{"--model", wide, "--words", corpus.UNKWord}, []string{"is the unknown word itself"}},
 		{"padding", []string{"--model", wide, "--words", corpus.PADWord}, []string{"is the padding itself"}},
 		{"empty item", []string{"--model", wide, "--words", "kioskmail,,tkref"}, []string{"--words", "item 2 of 3 is empty"}},
