@@ -6,6 +6,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"slices"
 	"strings"
 	"unicode/utf8"
 
@@ -89,6 +90,9 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 				p, listed(m.Labels), o.paths[0], listed(models[0].Labels))
 		}
 		models[i] = m
+		if j := slices.IndexFunc(o.paths[:i], func(q string) bool { return sameFile(q, p) }); j >= 0 {
+			say(env.Stderr, o.quiet, "model %d (%s) is the file of model %d again: its figures are the same", i+1, p, j+1)
+		}
 	}
 	es, err := findTestSplitOf(models[0], o.paths[0], o.data, o.test, &o.read, env.Stderr, o.quiet)
 	if err != nil {
@@ -256,16 +260,24 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 	w := env.Stdout
 	fmt.Fprintf(w, "%g%% intervals: Wilson for accuracy and the flipped share, bootstrap over texts for F1s and ECE, exact for an F1 the texts pin\n\n", 100*cnn.IntervalLevel)
 	table := [][]string{{"model", "accuracy", "macro-F1", "weighted-F1", "ECE", "flipped"}}
+	marked := false
 	for i, r := range rows {
 		flip := "-"
 		if i > 0 && r.FlippedInterval != nil {
 			fi := r.FlippedInterval
 			flip = fmt.Sprintf("%.1f%% (%.1f–%.1f%%)", 100*fi.Estimate, 100*fi.Low, 100*fi.High)
 		}
-		table = append(table, []string{oneLine(r.Model, 40), r.Figures.CNN.Accuracy.String(), r.Figures.CNN.MacroF1.String(),
+		name := oneLine(r.Model, 40)
+		if len(r.Warnings) > 0 {
+			name, marked = name+" *", true
+		}
+		table = append(table, []string{name, r.Figures.CNN.Accuracy.String(), r.Figures.CNN.MacroF1.String(),
 			r.Intervals.WeightedF1.String(), eceText(r.Metrics.ECE, r.Intervals.ECE), flip})
 	}
 	writeAligned(w, table)
+	if marked {
+		fmt.Fprintf(w, "* %s\n", notHeldOut)
+	}
 	writePairedTests(w, rows)
 	if len(rows) == 0 {
 		return nil
@@ -293,6 +305,7 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 		case r.Figures.Baseline != nil:
 			fmt.Fprintln(w)
 			writeFigures(w, fmt.Sprintf("model %d beside its linear baseline, %s", i+1, heading), r.Figures, r.Baseline)
+			fmt.Fprint(w, notHeldOutLine(r.Warnings))
 		case r.BaselineNote != "":
 			fmt.Fprintf(w, "\nmodel %d has no linear baseline: %s\n", i+1, r.BaselineNote)
 		}

@@ -150,6 +150,7 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 			Intervals: cnn.IntervalsOf(met), Baseline: baselineOf(m, cmp), BaselineNote: missingBaseline(m)})
 	}
 	writeFigures(env.Stdout, splitHeading(es.name, met.N), figures, baselineOf(m, cmp))
+	fmt.Fprint(env.Stdout, notHeldOutLine(es.warnings))
 	writeMissingBaseline(env.Stdout, missingBaseline(m))
 	var why string
 	if len(es.warnings) > 0 {
@@ -163,6 +164,20 @@ func runEval(ctx context.Context, env *runEnv, o *evalOptions) error {
 
 // splitHeading names the texts a command evaluated: the test split, or all
 // of --data.
+// notHeldOut says, under figures, that the texts are not all held-out
+// texts for the model, where the warnings (on stderr unless --quiet, and
+// in the JSON) say why.
+const notHeldOut = "not all held-out texts for this model: the warnings say why, on stderr and in --json"
+
+// notHeldOutLine is "" without warnings, else a line that says notHeldOut
+// under the figures, so that they say it even with --quiet.
+func notHeldOutLine(warnings []string) string {
+	if len(warnings) == 0 {
+		return ""
+	}
+	return "  (" + notHeldOut + ")\n"
+}
+
 func splitHeading(split string, n int) string {
 	if split == "all" {
 		return fmt.Sprintf("all %d texts of --data", n)

@@ -331,3 +331,36 @@ func TestHeldOutWarningsInJSON(t *testing.T) {
 		}
 	}
 }
+
+// TestFiguresSayNotHeldOut: eval's and compare's text say under the
+// figures, even with --quiet (which drops the warnings), that texts the
+// warnings are about are not all held-out texts; held-out texts get no
+// such line.
+func TestFiguresSayNotHeldOut(t *testing.T) {
+	dir := t.TempDir()
+	data := demoPart(t, dir, 400)
+	model := filepath.Join(dir, "m.tt")
+	trainSmall(t, data, model)
+	held := filepath.Join("testdata", "demo", "test.csv")
+	for _, c := range []struct {
+		args []string
+		want bool
+	}{
+		{[]string{"eval", "--model", model, "--test", data, "--quiet"}, true},
+		{[]string{"eval", "--model", model, "--test", held, "--quiet"}, false},
+		{[]string{"compare", "--models", model + "," + model, "--test", data, "--quiet"}, true},
+		{[]string{"compare", "--models", model + "," + model, "--test", held, "--quiet"}, false},
+	} {
+		code, out, stderr := tt(t, c.args...)
+		if code != 0 {
+			t.Fatalf("%q: exit %d: %s", c.args, code, stderr)
+		}
+		if got := strings.Contains(out, notHeldOut); got != c.want {
+			t.Errorf("%q: the line %q shown %v, want %v:\n%s", c.args, notHeldOut, got, c.want, out)
+		}
+	}
+	// Without --quiet, compare notes that a model file is given twice.
+	if _, _, stderr := tt(t, "compare", "--models", model+","+model, "--test", held); !strings.Contains(stderr, "model 2 ("+model+") is the file of model 1 again") {
+		t.Errorf("compare of a model with itself: stderr %q", stderr)
+	}
+}
