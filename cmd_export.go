@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"flag"
 	"fmt"
 	"os"
@@ -36,7 +37,12 @@ gives telltale's logits. A masked filter's output weights are exported as
 zero, which gives the masked model's logits exactly. A model trained with
 --chars is exported with its character layer (keys chars.*), from which the
 module computes each word's character part, for words outside the
-vocabulary too when given the tokens' characters.`
+vocabulary too when given the tokens' characters.
+
+The folder is made if missing; one that exists must be empty or hold an
+earlier export alone, which the new one replaces whole (written beside it,
+then put in its place); a folder with any other file is refused before the
+work.`
 )
 
 // exportOptions are the options of `telltale export`.
@@ -49,7 +55,7 @@ type exportOptions struct {
 
 func (o *exportOptions) register(fs *flag.FlagSet) {
 	fs.StringVar(&o.Model, "model", "", "model file written by train or import")
-	fs.StringVar(&o.Out, "out", "", "folder to write state_dict.npz, vocab.txt and labels.txt into (made if missing)")
+	fs.StringVar(&o.Out, "out", "", "folder to write state_dict.npz, vocab.txt and labels.txt into (made if missing; or an earlier export's, replaced whole)")
 	fs.BoolVar(&o.JSON, "json", false, "print a summary as one JSON object")
 	fs.BoolVar(&o.Quiet, "quiet", false, "print nothing but errors (and --json output)")
 }
@@ -67,6 +73,9 @@ func (o *exportOptions) check(*flag.FlagSet, *runEnv) error {
 			return usageError{err.Error()}
 		}
 		return usagef("--out %s is a file: give a folder (it is made if missing)", o.Out)
+	}
+	if err := torchmodel.CheckExportDir(o.Out); errors.Is(err, torchmodel.ErrExportDir) {
+		return usageError{"--out: " + strings.TrimPrefix(err.Error(), "torchmodel: ")}
 	}
 	return requireInputs([]outguard.File{{Name: "--model", Path: o.Model}})
 }
@@ -105,7 +114,9 @@ func runExport(ctx context.Context, env *runEnv, o *exportOptions) error {
 	if err := torchmodel.CanExport(m); err != nil {
 		return fmt.Errorf("%s: %w", o.Model, err)
 	}
-	if err := os.MkdirAll(o.Out, 0o755); err != nil {
+	// The folder's own folder is made if missing; the folder itself is
+	// made whole by Export, in place of an earlier export if any.
+	if err := os.MkdirAll(filepath.Dir(o.Out), 0o755); err != nil {
 		return fmt.Errorf("--out %s: %w", o.Out, err)
 	}
 	if err := torchmodel.Export(m, o.Out); err != nil {

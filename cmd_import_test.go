@@ -255,3 +255,40 @@ func TestImportedModelInEveryCommand(t *testing.T) {
 		t.Errorf("export of the imported model: exit %d\n%s", code, stderr)
 	}
 }
+
+// Export makes its folder whole: over an earlier export it leaves the new
+// files alone (none of the earlier ones, such as a tokenizer file the new
+// model has no use for) and no temporary folder beside it; a folder that
+// holds anything else is refused before any work, untouched.
+func TestExportReplacesAnEarlierExportWhole(t *testing.T) {
+	model, _ := exportedModel(t)
+	parent := t.TempDir()
+	out := filepath.Join(parent, "exp")
+	if code, _, stderr := runCmd(t, "", "export", "--model", model, "--out", out); code != 0 {
+		t.Fatalf("first export: exit %d: %s", code, stderr)
+	}
+	stale := filepath.Join(out, torchmodel.TokenizerFile)
+	if err := os.WriteFile(stale, []byte("{}"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if code, _, stderr := runCmd(t, "", "export", "--model", model, "--out", out); code != 0 {
+		t.Fatalf("export over an earlier one: exit %d: %s", code, stderr)
+	}
+	if _, err := os.Stat(stale); err == nil {
+		t.Errorf("the earlier export's %s is still there", torchmodel.TokenizerFile)
+	}
+	if ents, _ := os.ReadDir(parent); len(ents) != 1 {
+		t.Errorf("beside the export: %d entries, want the folder alone", len(ents))
+	}
+	other := filepath.Join(out, "notes.txt")
+	if err := os.WriteFile(other, []byte("mine"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, _, stderr := runCmd(t, "", "export", "--model", model, "--out", out)
+	if code != 2 || !strings.Contains(stderr, "holds notes.txt, which no export writes") {
+		t.Errorf("a folder with another file: exit %d: %s", code, stderr)
+	}
+	if b, err := os.ReadFile(other); err != nil || string(b) != "mine" {
+		t.Errorf("the other file: %q %v", b, err)
+	}
+}

@@ -1,9 +1,13 @@
 package torchmodel
 
 import (
+	"errors"
 	"fmt"
 	"io"
+	"io/fs"
+	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 
 	"telltale/cnn"
@@ -142,13 +146,16 @@ func CanExport(m *cnn.Model) error {
 	return nil
 }
 
-// Export writes m into the folder dir, which must exist: WeightsFile (the
-// StateDict as NumPy's .npz, read without pickle), VocabFile (one token per
-// line, id = line number from 0; line 0 is the padding token, line 1 the
-// unknown token), LabelsFile (the class names in output order) and, for a
-// model with a tokenizer file, TokenizerFile. Each file is written
-// atomically. A model whose words or labels contain a line break cannot be
-// written one per line and is refused before anything is written.
+// Export writes m as the folder dir: WeightsFile (the StateDict as NumPy's
+// .npz, read without pickle), VocabFile (one token per line, id = line
+// number from 0; line 0 is the padding token, line 1 the unknown token),
+// LabelsFile (the class names in output order) and, for a model with a
+// tokenizer file, TokenizerFile. dir's parent must exist; dir itself may
+// not, or be empty, or hold an earlier export's files alone (CheckExportDir).
+// The files are written into a new folder beside dir, which then takes
+// dir's place, so dir never holds a mix of two exports or a part of one.
+// A model whose words or labels contain a line break cannot be written one
+// per line and is refused before anything is written.
 func Export(m *cnn.Model, dir string) (err error) {
 	defer func() { err = plain(err) }()
 	if err := CanExport(m); err != nil {
@@ -167,6 +174,30 @@ func Export(m *cnn.Model, dir string) (err error) {
 			return fmt.Errorf("torchmodel: label %q is empty or holds a line break and cannot be one line of %s: %w", l, LabelsFile, ErrVocab)
 		}
 	}
+	if err := CheckExportDir(dir); err != nil {
+		return err
+	}
+	final := dir
+	dir, err = os.MkdirTemp(filepath.Dir(final), "."+filepath.Base(final)+".*.tmp")
+	if err != nil {
+		return fmt.Errorf("torchmodel: %s: %w (is its folder there and writable?)", final, err)
+	}
+	defer func() {
+		if err != nil {
+			os.RemoveAll(dir)
+		}
+	}()
+	if err := os.Chmod(dir, 0o755); err != nil {
+		return fmt.Errorf("torchmodel: %w", err)
+	}
+	if err := writeExport(m, dir); err != nil {
+		return err
+	}
+	return swapInto(dir, final)
+}
+
+// writeExport writes m's files into the new folder dir (Export).
+func writeExport(m *cnn.Model, dir string) error {
 	arrays := StateDict(m)
 	if err := atomicfile.Write(filepath.Join(dir, WeightsFile), func(w io.Writer) error { return npy.WriteNPZ(w, arrays) }); err != nil {
 		return fmt.Errorf("torchmodel: %w", err)
@@ -192,4 +223,65 @@ func Export(m *cnn.Model, dir string) (err error) {
 		}
 	}
 	return nil
+}
+
+// exportNames are the names of the files an export writes.
+var exportNames = []string{WeightsFile, VocabFile, LabelsFile, TokenizerFile}
+
+// CheckExportDir returns an error (wrapping ErrExportDir) when dir cannot
+// take an export: it is a file, or a folder holding anything but an
+// earlier export's files (a mix the new export would leave behind or
+// overwrite). A missing or empty folder is fine.
+func CheckExportDir(dir string) error {
+	st, err := os.Stat(dir)
+	switch {
+	case errors.Is(err, fs.ErrNotExist):
+		return nil
+	case err != nil:
+		return fmt.Errorf("torchmodel: %s: %w", dir, err)
+	case !st.IsDir():
+		return exportDirError(fmt.Sprintf("torchmodel: %s is a file, not a folder: give a folder", dir))
+	}
+	ents, err := os.ReadDir(dir)
+	if err != nil {
+		return fmt.Errorf("torchmodel: %s: %w", dir, err)
+	}
+	for _, e := range ents {
+		if !slices.Contains(exportNames, e.Name()) {
+			return exportDirError(fmt.Sprintf("torchmodel: the folder %s holds %s, which no export writes: give a new or empty folder, or one that holds an earlier export alone",
+				dir, e.Name()))
+		}
+	}
+	return nil
+}
+
+// ErrExportDir marks a folder that cannot take an export (CheckExportDir).
+var ErrExportDir = errors.New("not a folder for an export")
+
+// exportDirError is CheckExportDir's refusal, which is ErrExportDir.
+type exportDirError string
+
+func (e exportDirError) Error() string        { return string(e) }
+func (e exportDirError) Is(target error) bool { return target == ErrExportDir }
+
+// swapInto makes the folder tmp take final's place: a rename where final
+// is missing or empty, else final (an earlier export, CheckExportDir) is
+// moved aside first and removed once tmp is in place.
+func swapInto(tmp, final string) error {
+	if err := os.Rename(tmp, final); err == nil {
+		return nil
+	}
+	old, err := os.MkdirTemp(filepath.Dir(final), "."+filepath.Base(final)+".*.old")
+	if err != nil {
+		return fmt.Errorf("torchmodel: %s: %w", final, err)
+	}
+	os.Remove(old) // a free name to move the earlier export to
+	if err := os.Rename(final, old); err != nil {
+		return fmt.Errorf("torchmodel: moving the earlier export in %s aside: %w", final, err)
+	}
+	if err := os.Rename(tmp, final); err != nil {
+		os.Rename(old, final) // put the earlier export back
+		return fmt.Errorf("torchmodel: %s: %w", final, err)
+	}
+	return os.RemoveAll(old)
 }
