@@ -100,6 +100,14 @@ func runCompare(ctx context.Context, env *runEnv, o *compareOptions) error {
 	}
 	warnings, notes := make([][]string, len(models)), make([]string, len(models))
 	warnings[0] = es.warnings
+	if models[0].Info.Splits == nil {
+		// The first model (an imported one) records no splits: the texts
+		// are all of --data, unchecked; the row keeps the note for --json.
+		notes[0] = es.note
+		if j := slices.IndexFunc(models[1:], func(m *cnn.Model) bool { return m.Info.Splits != nil }); j >= 0 && o.test == "" {
+			say(env.Stderr, o.quiet, "to compare on the test split a model was trained with, give that model first (%s), or a test file with --test", o.paths[j+1])
+		}
+	}
 	for i, m := range models[1:] {
 		warnings[i+1], notes[i+1] = o.checksFor(m, o.paths[i+1], models[0], es)
 		if notes[i+1] != "" {
