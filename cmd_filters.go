@@ -360,8 +360,11 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 		if fam.Stability != nil {
 			stab = fmt.Sprintf("%.2f", *fam.Stability)
 		}
-		ew.printf("    %-36s %5.1f%% (%.1f–%.1f%%)  stability %s  (%s, about %s)\n",
-			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, wording.Count(fam.Ngrams, "n-gram", "n-grams"), wording.Texts(fam.Count))
+		// The count's interval is the share's, over the windows above the threshold.
+		above := float64(f.Selectivity.Above)
+		ew.printf("    %-36s %5.1f%% (%.1f–%.1f%%)  stability %s  (%s, about %s, %.0f–%.0f)\n",
+			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, wording.Count(fam.Ngrams, "n-gram", "n-grams"), wording.Texts(fam.Count),
+			fam.ShareLow*above, fam.ShareHigh*above)
 	}
 	for _, s := range f.Slots {
 		ew.printf("  slot %d  on: %s\n          off: %s\n", s.Slot, scoreList(s.Triggers, top), scoreList(s.Suppressors, top))
