@@ -109,7 +109,7 @@ func stoppedNote(what string, n int, stdin bool, export string) string {
 	if stdin {
 		of = wording.Count(n, "line", "lines") + " of standard input"
 	}
-	note := fmt.Sprintf("stopped after the %s of the first %s were printed", what, of)
+	note := fmt.Sprintf("stopped after printing the %s of %s, the first in the input", what, of)
 	if export != "" {
 		note += "; nothing was written to " + export
 	}
