@@ -237,7 +237,7 @@ func (s *textSource) batches(env *runEnv) (batchSource, int, error) {
 		}
 		return sliceBatches(texts), len(texts), nil
 	}
-	return lineBatches(env.Stdin, warnTo(env.Stderr, s.quiet)), 0, nil
+	return lineBatches(env.Stdin, warnTo(env.Stderr, s.quiet), s.read.MaxTextBytes), 0, nil
 }
 
 // each calls fn with every text of the source, total (when not nil) with
@@ -268,5 +268,5 @@ func (s *textSource) each(ctx context.Context, env *runEnv, total func(int), fn 
 		}
 		return nil
 	}
-	return eachLine(ctx, env.Stdin, warnTo(env.Stderr, s.quiet), func(t text) error { return fn(text{Text: t.Text, Line: t.Line, Blank: t.Blank}) })
+	return eachLine(ctx, env.Stdin, warnTo(env.Stderr, s.quiet), s.read.MaxTextBytes, func(t text) error { return fn(text{Text: t.Text, Line: t.Line, Blank: t.Blank}) })
 }
