@@ -44,6 +44,11 @@ windows that would have won their filter but for the tokens that kept them
 down; removing those tokens checks each one. In a terminal the text is
 painted by the chosen method; --json gives every number.
 
+Each text of --data or of standard input is named by its input line
+("line N:", or its file in a folder of texts); a blank line of standard
+input gives "line N: blank" (with --json, {"line":N,"blank":true}, as
+predict does), so outputs pair with input lines.
+
 The explanation describes the model, not the world: check it before you act
 on it, and never use a classifier alone for decisions about people.`,
 	Options: func() options { return new(explainOptions) },

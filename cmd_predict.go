@@ -189,7 +189,7 @@ func (s *textSource) register(fs *flag.FlagSet, verb string) {
 	fs.StringVar(&s.text, "text", "", "the text to "+verb+" (default: the texts of --data, else one text per line of standard input)")
 	fs.StringVar(&s.data, "data", "", "texts to "+verb+": a .csv, .tsv or .jsonl file with a text column, or a folder of .txt files")
 	s.read.register(fs, false)
-	fs.BoolVar(&s.quiet, "quiet", false, "print no warnings")
+	fs.BoolVar(&s.quiet, "quiet", false, "print no progress and no warnings")
 }
 
 func (s *textSource) check(fs *flag.FlagSet) error {
