@@ -13,6 +13,7 @@ import (
 	"runtime"
 	"slices"
 	"strings"
+	"sync/atomic"
 
 	"golang.org/x/term"
 
@@ -42,6 +43,11 @@ of it, is never shown: training does not pin it down. Windows kept down are
 windows that would have won their filter but for the tokens that kept them
 down; removing those tokens checks each one. In a terminal the text is
 painted by the chosen method; --json gives every number.
+
+Each text of --data or of standard input is named by its input line
+("line N:", or its file in a folder of texts); a blank line of standard
+input gives "line N: blank" (with --json, {"line":N,"blank":true}, as
+predict does), so outputs pair with input lines.
 
 The explanation describes the model, not the world: check it before you act
 on it, and never use a classifier alone for decisions about people.`,
@@ -142,8 +148,14 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	out := bufio.NewWriterSize(env.Stdout, 64<<10)
 	// The feed stops with the pool's context, which ends at the first error,
 	// even while it waits for a line of standard input.
-	feed := func(ctx context.Context, put func(text) error) error { return o.texts.each(ctx, env, put) }
+	var total atomic.Int64 // set by the feed before its first text
+	feed := func(ctx context.Context, put func(text) error) error {
+		return o.texts.each(ctx, env, func(n int) { total.Store(int64(n)) }, put)
+	}
 	work := func(w int, t text) (explainedText, error) {
+		if t.Blank {
+			return explainedText{out: blankExplanation(t, o.asJSON)}, nil
+		}
 		e, cut, err := explainText(m, enc, t.Text, opt, tables[w])
 		if err != nil {
 			return explainedText{}, err
@@ -153,6 +165,7 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 		case o.asJSON:
 			err = writeExplanationJSON(&b, e, t, cut)
 		default:
+			writeOrigin(&b, t)
 			if cut > 0 {
 				fmt.Fprintf(&b, "(the model reads the first %s; the last %d %s not explained)\n", wording.Count(len(e.Tokens), "token", "tokens"), cut,
 					map[bool]string{true: "is", false: "are"}[cut == 1])
@@ -161,8 +174,10 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 		}
 		return explainedText{e, b.Bytes()}, err
 	}
+	bar := newProgressBar(env.Stderr, o.texts.quiet || o.texts.given)
+	written := 0
 	emit := func(t text, x explainedText) error {
-		if o.export != "" {
+		if o.export != "" && !t.Blank {
 			all = append(all, x.e)
 			origins = append(origins, text{Line: t.Line, File: t.File})
 		}
@@ -170,9 +185,19 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 		if _, err := out.Write(x.out); err != nil {
 			return err
 		}
-		return out.Flush()
+		if err := out.Flush(); err != nil {
+			return err
+		}
+		written++
+		bar.progress("explaining", written, int(total.Load()))
+		return nil
 	}
-	if err := inorder.Run(ctx, workers, feed, work, emit); err != nil || o.export == "" {
+	err = inorder.Run(ctx, workers, feed, work, emit)
+	bar.done()
+	if err != nil && ctx.Err() != nil {
+		return interrupted(stoppedNote("explanations", written, o.texts.stdin(), o.export))
+	}
+	if err != nil || o.export == "" {
 		return err
 	}
 	return report.WriteTableFile(o.export, withOrigins(report.AttributionTable(all), origins))
@@ -199,6 +224,28 @@ func withOrigins(t *report.Table, origins []text) *report.Table {
 		t.Rows[r] = slices.Insert(row, 1, cells...)
 	}
 	return t
+}
+
+// writeOrigin names, in the text output, where a text came from: its line
+// of --data or of standard input, and its file of a folder of texts
+// (nothing for --text).
+func writeOrigin(w io.Writer, t text) {
+	switch {
+	case t.File != "":
+		fmt.Fprintf(w, "file %s:\n", t.File)
+	case t.Line != 0:
+		fmt.Fprintf(w, "line %d:\n", t.Line)
+	}
+}
+
+// blankExplanation is the output of a blank line of standard input, which
+// has nothing to explain: in the text output its line named as blank, with
+// asJSON {"line":N,"blank":true} (as predict writes it).
+func blankExplanation(t text, asJSON bool) []byte {
+	if asJSON {
+		return fmt.Appendf(nil, `{"line":%d,"blank":true}`+"\n", t.Line)
+	}
+	return fmt.Appendf(nil, "line %d: blank\n", t.Line)
 }
 
 // explainedText is one text's explanation and its output, written by a

@@ -67,9 +67,11 @@ func TestKeptDownNamesWordWeights(t *testing.T) {
 
 // TestExplainStdinLines: texts read from standard input keep the number of
 // their input line, blank lines counted (as predict's): --json gives it as
-// line, and --export's rows carry it in the line column after text_index,
-// so a row is traced back to its input. Reference: the input written
-// here, whose texts are on lines 1, 3 and 4.
+// line, a blank line giving {"line":N,"blank":true} as predict does; the
+// text output names each text's line; and --export's rows carry it in the
+// line column after text_index, so a row is traced back to its input.
+// Reference: the input written here, whose texts are on lines 1, 3 and 4
+// and whose line 2 is blank.
 func TestExplainStdinLines(t *testing.T) {
 	model := tinyModel(t)
 	in := "the ferry was late\n\nthanks to the crew\nthe cafe was closed\n"
@@ -80,14 +82,39 @@ func TestExplainStdinLines(t *testing.T) {
 	}
 	var got []int
 	for _, l := range strings.Split(strings.TrimSpace(stdout), "\n") {
-		var e struct{ Line int }
+		var e struct {
+			Line  int
+			Blank bool
+		}
 		if err := json.Unmarshal([]byte(l), &e); err != nil {
 			t.Fatal(err)
+		}
+		if e.Blank {
+			if l != `{"line":2,"blank":true}` {
+				t.Errorf("blank line: %s, want predict's {\"line\":2,\"blank\":true}", l)
+			}
+			continue
 		}
 		got = append(got, e.Line)
 	}
 	if !slices.Equal(got, want) {
 		t.Errorf("--json lines %v, want %v", got, want)
+	}
+	if !strings.Contains(stdout, `{"line":2,"blank":true}`) {
+		t.Errorf("--json: no line for the blank line 2:\n%s", stdout)
+	}
+	code, stdout, stderr = runCmd(t, in, "explain", "--model", model)
+	if code != 0 {
+		t.Fatalf("explain: exit %d: %s", code, stderr)
+	}
+	var heads []string
+	for _, l := range strings.Split(stdout, "\n") {
+		if strings.HasPrefix(l, "line ") {
+			heads = append(heads, l)
+		}
+	}
+	if wantHeads := []string{"line 1:", "line 2: blank", "line 3:", "line 4:"}; !slices.Equal(heads, wantHeads) {
+		t.Errorf("text output names lines %q, want %q", heads, wantHeads)
 	}
 	exp := filepath.Join(t.TempDir(), "attr.csv")
 	if code, _, stderr := runCmd(t, in, "explain", "--model", model, "--export", exp, "--quiet"); code != 0 {

@@ -3,11 +3,13 @@ package main
 import (
 	"context"
 	"flag"
+	"fmt"
 	"slices"
 	"strconv"
 	"strings"
 
 	"telltale/internal/outguard"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -66,22 +68,52 @@ func runPredict(ctx context.Context, env *runEnv, o *predictOptions) error {
 	if err != nil {
 		return err
 	}
-	next, err := o.texts.batches(env)
+	next, total, err := o.texts.batches(env)
 	if err != nil {
 		return err
 	}
 	var kept []text
 	var probs [][]float32
-	var keep func(text, []float32)
-	if o.export != "" {
-		keep = func(t text, p []float32) {
+	bar := newProgressBar(env.Stderr, o.texts.quiet || o.texts.given)
+	written := 0
+	keep := func(t text, p []float32) {
+		written++
+		bar.progress("labeling", written, total)
+		if o.export != "" {
 			kept, probs = append(kept, t), append(probs, append([]float32(nil), p...))
 		}
 	}
-	if err := predictStream(ctx, next, m, enc, env.Stdout, predictFormat(m.Labels, o.asJSON), keep); err != nil || o.export == "" {
+	err = predictStream(ctx, next, m, enc, env.Stdout, predictFormat(m.Labels, o.asJSON), keep)
+	bar.done()
+	if err != nil && ctx.Err() != nil {
+		return interrupted(stoppedNote("labels", written, o.texts.stdin(), o.export))
+	}
+	if err != nil || o.export == "" {
 		return err
 	}
 	return report.WriteTableFile(o.export, predictionTable(m.Labels, kept, probs))
+}
+
+// stoppedNote says what a stopped predict or explain kept: the output of
+// the first n texts (lines, for standard input) was printed, and the
+// export, written only at the end, was not.
+func stoppedNote(what string, n int, stdin bool, export string) string {
+	if n == 0 {
+		note := "stopped before any output was printed"
+		if export != "" {
+			note += "; nothing was written to " + export
+		}
+		return note
+	}
+	of := wording.Texts(n)
+	if stdin {
+		of = wording.Count(n, "line", "lines") + " of standard input"
+	}
+	note := fmt.Sprintf("stopped after printing the %s of %s, the first in the input", what, of)
+	if export != "" {
+		note += "; nothing was written to " + export
+	}
+	return note
 }
 
 // predictFormat appends predict's output line for one text (see
@@ -157,7 +189,7 @@ func (s *textSource) register(fs *flag.FlagSet, verb string) {
 	fs.StringVar(&s.text, "text", "", "the text to "+verb+" (default: the texts of --data, else one text per line of standard input)")
 	fs.StringVar(&s.data, "data", "", "texts to "+verb+": a .csv, .tsv or .jsonl file with a text column, or a folder of .txt files")
 	s.read.register(fs, false)
-	fs.BoolVar(&s.quiet, "quiet", false, "print no warnings")
+	fs.BoolVar(&s.quiet, "quiet", false, "print no progress and no warnings")
 }
 
 func (s *textSource) check(fs *flag.FlagSet) error {
@@ -184,36 +216,48 @@ type text struct {
 	Blank bool
 }
 
-// batches returns the texts of the source in batches (see predictStream);
-// --data is read whole first, standard input as it comes.
-func (s *textSource) batches(env *runEnv) (batchSource, error) {
+// stdin says whether the texts are the lines of standard input.
+func (s *textSource) stdin() bool { return !s.given && s.data == "" }
+
+// batches returns the texts of the source in batches (see predictStream)
+// and their number (0 for standard input, which is read as it comes);
+// --data is read whole first.
+func (s *textSource) batches(env *runEnv) (batchSource, int, error) {
 	switch {
 	case s.given:
-		return sliceBatches([]text{{Text: s.text}}), nil
+		return sliceBatches([]text{{Text: s.text}}), 1, nil
 	case s.data != "":
 		ds, err := s.read.readTexts(s.data, env.Stderr, s.quiet)
 		if err != nil {
-			return nil, err
+			return nil, 0, err
 		}
 		texts := make([]text, len(ds.Examples))
 		for i, e := range ds.Examples {
 			texts[i] = text{Text: e.Text, Line: e.Line, File: e.File, Gold: e.Label}
 		}
-		return sliceBatches(texts), nil
+		return sliceBatches(texts), len(texts), nil
 	}
-	return lineBatches(env.Stdin, warnTo(env.Stderr, s.quiet)), nil
+	return lineBatches(env.Stdin, warnTo(env.Stderr, s.quiet), s.read.MaxTextBytes), 0, nil
 }
 
-// each calls fn with every text of the source.
-func (s *textSource) each(ctx context.Context, env *runEnv, fn func(text) error) error {
+// each calls fn with every text of the source, total (when not nil) with
+// their number first where it is known (--text, --data). Blank lines of
+// standard input are passed on as Blank texts, so that outputs pair with
+// input lines as predict's do.
+func (s *textSource) each(ctx context.Context, env *runEnv, total func(int), fn func(text) error) error {
+	if total == nil {
+		total = func(int) {}
+	}
 	switch {
 	case s.given:
+		total(1)
 		return fn(text{Text: s.text})
 	case s.data != "":
 		ds, err := s.read.readTexts(s.data, env.Stderr, s.quiet)
 		if err != nil {
 			return err
 		}
+		total(len(ds.Examples))
 		for _, e := range ds.Examples {
 			if err := ctx.Err(); err != nil {
 				return err
@@ -224,5 +268,5 @@ func (s *textSource) each(ctx context.Context, env *runEnv, fn func(text) error)
 		}
 		return nil
 	}
-	return eachLine(ctx, env.Stdin, warnTo(env.Stderr, s.quiet), func(t text) error { return fn(text{Text: t.Text, Line: t.Line}) })
+	return eachLine(ctx, env.Stdin, warnTo(env.Stderr, s.quiet), s.read.MaxTextBytes, func(t text) error { return fn(text{Text: t.Text, Line: t.Line, Blank: t.Blank}) })
 }

@@ -170,7 +170,7 @@ func TestPredictStreamOrder(t *testing.T) {
 	var got bytes.Buffer
 	var kept []string
 	keep := func(tx text, _ []float32) { kept = append(kept, tx.Text) }
-	if err := predictStream(t.Context(), lineBatches(strings.NewReader(in.String()), nil), m, enc, &got, format, keep); err != nil {
+	if err := predictStream(t.Context(), lineBatches(strings.NewReader(in.String()), nil, 0), m, enc, &got, format, keep); err != nil {
 		t.Fatal(err)
 	}
 	if got.String() != want.String() {

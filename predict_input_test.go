@@ -2,6 +2,7 @@ package main
 
 import (
 	"encoding/json"
+	"maps"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -89,5 +90,61 @@ func TestPredictExportLineAndGold(t *testing.T) {
 		if r[0] != strconv.Itoa(wantLines[i]) || jsonLines[i] != wantLines[i] || r[2] != wantGold[i] {
 			t.Errorf("row %d: line %s, JSON line %d, gold %q; want line %d, gold %q", i+1, r[0], jsonLines[i], r[2], wantLines[i], wantGold[i])
 		}
+	}
+}
+
+// TestStdinLongLinesCut: a line of standard input over --max-text-bytes is
+// cut to it at a character's start with a warning naming the line, the
+// limit and the fix, as --data cuts its texts — the same cut text, the
+// same warning words and the same probabilities as the same text read
+// from a .jsonl file; --quiet silences the warning. Reference: the cut
+// worked out here (150 two-byte characters, cut at 101 bytes, keep 50);
+// the default limit (1 MiB) cuts a 6 MB line.
+func TestStdinLongLinesCut(t *testing.T) {
+	model := tinyModel(t)
+	long := strings.Repeat("é", 150)
+	in := "the ferry was late\n" + long + "\n"
+	code, out, stderr := runCmd(t, in, "predict", "--model", model, "--json", "--max-text-bytes", "101")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	want := "warning: standard input line 2: text of 300 bytes truncated to 101 bytes (raise --max-text-bytes to keep more)"
+	if !strings.Contains(stderr, want) || strings.Count(stderr, "warning:") != 1 {
+		t.Errorf("stderr %q: want the one warning %q", stderr, want)
+	}
+	lines := strings.Split(strings.TrimSuffix(out, "\n"), "\n")
+	var v struct {
+		Text          string             `json:"text"`
+		Probabilities map[string]float64 `json:"probabilities"`
+	}
+	if len(lines) != 2 || json.Unmarshal([]byte(lines[1]), &v) != nil || v.Text != strings.Repeat("é", 50) {
+		t.Fatalf("the long line's output %q, want its first 50 characters", out)
+	}
+	data := filepath.Join(t.TempDir(), "long.jsonl")
+	if err := os.WriteFile(data, []byte(`{"text":"`+long+`"}`+"\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, fromFile, fileErr := runCmd(t, "", "predict", "--model", model, "--json", "--max-text-bytes", "101", "--data", data)
+	var f struct {
+		Text          string             `json:"text"`
+		Probabilities map[string]float64 `json:"probabilities"`
+	}
+	if code != 0 || json.Unmarshal([]byte(fromFile), &f) != nil || f.Text != v.Text || !maps.Equal(f.Probabilities, v.Probabilities) {
+		t.Errorf("--data cuts the same text otherwise: %s (stdin: %s)", fromFile, lines[1])
+	}
+	if !strings.Contains(fileErr, "text of 300 bytes truncated to 101 bytes (raise --max-text-bytes to keep more)") {
+		t.Errorf("--data's warning %q is worded otherwise than standard input's", fileErr)
+	}
+	if _, _, quiet := runCmd(t, in, "predict", "--model", model, "--max-text-bytes", "101", "--quiet"); quiet != "" {
+		t.Errorf("--quiet: stderr %q", quiet)
+	}
+	big := "short\n" + strings.Repeat("the ferry was late ", 315_789) + "\n" // line 2: 19 × 315,789 = 5,999,991 bytes
+	code, _, stderr = runCmd(t, big, "predict", "--model", model)
+	if want := "warning: standard input line 2: text of 5999991 bytes truncated to 1048576 bytes (raise --max-text-bytes to keep more)"; code != 0 || !strings.Contains(stderr, want) {
+		t.Errorf("a 6 MB line: exit %d, stderr %q; want %q", code, stderr, want)
+	}
+	code, _, stderr = runCmd(t, in, "explain", "--model", model, "--max-text-bytes", "101")
+	if code != 0 || !strings.Contains(stderr, "warning: standard input line 2: text of 300 bytes truncated to 101 bytes") {
+		t.Errorf("explain: exit %d, stderr %q: want the same warning", code, stderr)
 	}
 }

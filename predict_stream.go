@@ -234,12 +234,15 @@ func sliceBatches(texts []text) batchSource {
 // order mark at the start is dropped; invalid UTF-8 is replaced by U+FFFD,
 // the first time with a warning on warn (when not nil) naming the line. A
 // batch ends early when the lines read so far are all r has delivered, so
-// that lines typed or piped one by one are labeled as they come. Each
-// batch's lines are copied once into its buffer and become one string,
-// which the batch's texts are substrings of.
-func lineBatches(r io.Reader, warn io.Writer) batchSource {
+// that lines typed or piped one by one are labeled as they come. A line
+// over limit bytes (--max-text-bytes; 0: no limit) is cut to it at a
+// character's start, with a warning naming the line, as --data's texts
+// are (the first maxCutWarnings such lines). Each batch's lines are copied
+// once into its buffer and become one string, which the batch's texts are
+// substrings of.
+func lineBatches(r io.Reader, warn io.Writer, limit int) batchSource {
 	lr := &lineReader{r: bufio.NewReaderSize(r, 256<<10)}
-	warned := false
+	warned, cuts := false, 0
 	return func(b *textBatch) (bool, error) {
 		b.ends, b.lines = b.ends[:0], b.lines[:0]
 		for len(b.ends) < batchTexts && len(b.buf) < batchBytes {
@@ -269,6 +272,11 @@ func lineBatches(r io.Reader, warn io.Writer) batchSource {
 						"if the input is Latin-1, convert it to UTF-8 first: iconv -f latin1 -t utf-8)\n", lr.n)
 				}
 			}
+			if limit > 0 && len(line) > limit {
+				cuts++
+				warnCut(warn, lr.n, len(line), limit, cuts)
+				line = line[:cutAt(line, limit)]
+			}
 			if len(bytes.TrimSpace(line)) > 0 {
 				b.buf = append(b.buf, line...)
 			}
@@ -281,6 +289,34 @@ func lineBatches(r io.Reader, warn io.Writer) batchSource {
 		b.addLines()
 		return true, nil
 	}
+}
+
+// maxCutWarnings is how many lines of standard input cut to
+// --max-text-bytes are warned of one by one.
+const maxCutWarnings = 10
+
+// warnCut warns on warn (when not nil) that standard input line n, of size
+// bytes, was cut to limit bytes, in the words of --data's warning; the
+// cuts-th cut, past maxCutWarnings, is not reported.
+func warnCut(warn io.Writer, n, size, limit, cuts int) {
+	if warn == nil || cuts > maxCutWarnings {
+		return
+	}
+	later := ""
+	if cuts == maxCutWarnings {
+		later = "; later lines cut are not reported"
+	}
+	fmt.Fprintf(warn, "warning: standard input line %d: text of %d bytes truncated to %d bytes (raise --max-text-bytes to keep more%s)\n", n, size, limit, later)
+}
+
+// cutAt is the length of line cut to at most limit bytes at the start of
+// a character, as corpus cuts --data's texts.
+func cutAt(line []byte, limit int) int {
+	cut := limit
+	for cut > 0 && !utf8.RuneStart(line[cut]) {
+		cut--
+	}
+	return cut
 }
 
 // addLines makes b's texts of the lines in b.buf that end at b.ends, with

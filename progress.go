@@ -8,6 +8,8 @@ import (
 	"time"
 
 	"golang.org/x/term"
+
+	"telltale/internal/wording"
 )
 
 // progressBar draws a one-line progress bar on a terminal and nothing
@@ -63,4 +65,19 @@ func (p *progressBar) note(s string) {
 	}
 	p.last = time.Now()
 	fmt.Fprintf(p.w, "\r%s\x1b[K", s)
+}
+
+// progress shows how many texts are done: a bar when their total is known,
+// else a running count (a stream such as standard input). Off a terminal,
+// and between redraws, it costs a comparison and no allocation, so it may
+// be called once per text.
+func (p *progressBar) progress(verb string, done, total int) {
+	if !p.on || time.Since(p.last) < 100*time.Millisecond {
+		return
+	}
+	if total > 0 {
+		p.show(done, total, fmt.Sprintf("%s: %d of %s", verb, done, wording.Texts(total)), false)
+		return
+	}
+	p.note(verb + ": " + wording.Texts(done) + " so far")
 }

@@ -39,11 +39,12 @@ func sortBy(idx []int, key func(int) float64) {
 // maxStdinLine is the longest line read from standard input.
 const maxStdinLine = 16 << 20
 
-// eachLine calls fn with every line of r that holds more than white space
-// (read as lineBatches reads them, warnings on warn). The lines are read on a goroutine of their own (see lineBatches), so that
+// eachLine calls fn with every line of r, a line of white space only as a
+// Blank text (read as lineBatches reads them, cut to limit bytes, warnings
+// on warn). The lines are read on a goroutine of their own (see lineBatches), so that
 // a cancelled ctx ends the loop even while r blocks (a terminal waiting for
 // input); that goroutine then ends with r.
-func eachLine(ctx context.Context, r io.Reader, warn io.Writer, fn func(text) error) error {
+func eachLine(ctx context.Context, r io.Reader, warn io.Writer, limit int, fn func(text) error) error {
 	type batch struct {
 		texts []text
 		err   error
@@ -53,7 +54,7 @@ func eachLine(ctx context.Context, r io.Reader, warn io.Writer, fn func(text) er
 	defer close(done)
 	go func() {
 		defer close(batches)
-		next := lineBatches(r, warn)
+		next := lineBatches(r, warn, limit)
 		for {
 			var b textBatch
 			more, err := next(&b)
@@ -78,9 +79,6 @@ func eachLine(ctx context.Context, r io.Reader, warn io.Writer, fn func(text) er
 			for _, t := range b.texts {
 				if err := ctx.Err(); err != nil {
 					return err
-				}
-				if t.Blank {
-					continue
 				}
 				if err := fn(t); err != nil {
 					return err
