@@ -261,7 +261,7 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 		}
 		c.Filters = &Filters{Keyed: keyedFilters(a.m, a.selBase, c.selOcc, c.Class)}
 		if ws := a.cueWords(c); len(ws) > 0 {
-			c.Filters.Words, c.Filters.WordPart = wordNames(a.m, ws), a.wordPart(c, ws)
+			c.Filters.Words, c.Filters.WordTexts, c.Filters.WordPart = wordNames(a.m, ws), len(texts(c.confOcc)), a.wordPart(c, ws)
 		}
 		if len(c.Filters.Keyed) > 0 {
 			c.Filters.Ablation = ablate(a.m, a.confBase, a.conf.Gold, c.Filters.Keyed, a.cueWords(c), texts(c.confOcc))
