@@ -55,24 +55,27 @@ func auditLayout(r *audit.Result, priors []float64, modelPath string) *auditView
 // reflow undoes the line breaks a paragraph of the audit's story has for
 // the terminal, so that the page wraps it to its own width: a line
 // indented by none or by more than four spaces continues the one before;
-// an item (indented by two: "  1. …") starts a line, and a command or
-// pattern (indented by four) stands on a line of its own, as does what
-// follows it. The lines kept are trimmed and joined by "\n".
+// an item (indented by two: "  1. …", "  - …") starts a line; a line
+// indented by four continues a dash item ("  - …", whose text it lines up
+// with) and otherwise is a command or pattern, which stands on a line of
+// its own, as does what follows it. The lines kept are trimmed and joined
+// by "\n".
 func reflow(para string) string {
 	var out []string
-	join := false
+	join, dash := false, false
 	for _, line := range strings.Split(para, "\n") {
 		text := strings.TrimSpace(line)
 		if text == "" {
 			continue
 		}
 		indent := len(line) - len(strings.TrimLeft(line, " "))
-		if join && len(out) > 0 && (indent == 0 || indent > 4) {
+		if len(out) > 0 && (join && (indent == 0 || indent > 4) || dash && indent == 4) {
 			out[len(out)-1] += " " + text
-		} else {
-			out = append(out, text)
+			continue
 		}
+		out = append(out, text)
 		join = indent != 4
+		dash = indent == 2 && strings.HasPrefix(text, "- ")
 	}
 	return strings.Join(out, "\n")
 }
