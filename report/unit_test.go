@@ -11,6 +11,7 @@ import (
 
 	auditpkg "telltale/audit"
 	"telltale/cnn"
+	"telltale/corpus"
 	"telltale/explain"
 )
 
@@ -31,6 +32,7 @@ func TestFormats(t *testing.T) {
 		{count(1000), "1,000"},
 		{count(1234567), "1,234,567"},
 		{count(-4500), "-4,500"},
+		{tokens(12159, corpus.Percentiles{Max: 12159}), "12,159"}, // beside the split's 2,200 texts
 		{signed(0), "0.000"},
 		{ints([]int{3, 0, 12}), "3, 0, 12"},
 		// The cue audit's figures.
