@@ -10,6 +10,10 @@ import (
 // for its reliance to be measured.
 const minCueTexts = 5
 
+// MinCueTexts is minCueTexts for those who word the audit: below it a
+// half gives no reliance figure and no word part of a cue (Filters).
+const MinCueTexts = minCueTexts
+
 // minConfidenceDrop is the smallest mean drop in a cue's label probability
 // that the audit reports as the model's confidence resting on the cue
 // (Candidate.ConfidenceOnly): a drop of a hundredth, the smallest a

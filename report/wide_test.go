@@ -379,4 +379,8 @@ func TestAuditWordPartTooFew(t *testing.T) {
 		!strings.Contains(ev.Filters, "'215': "+want) || strings.Contains(ev.Filters, " add ") {
 		t.Errorf("word part over 4 texts: reliance %q, filters %q", ev.Reliance, ev.Filters)
 	}
+	if m := strings.Join(AuditMethod(r), " "); !strings.Contains(m, fmt.Sprintf("only when at least %d of its texts hold the cue", audit.MinCueTexts)) ||
+		!strings.Contains(m, "the part of the cue's words there (the same percentile bootstrap over texts)") {
+		t.Errorf("the method does not say how the word part is made, or its minimum: %q", m)
+	}
 }
