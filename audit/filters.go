@@ -18,22 +18,27 @@ import (
 type Filters struct {
 	Keyed    []int     `json:"keyed"`
 	Ablation *Ablation `json:"ablation,omitempty"`
-	// Words and WordPart are the word-weight path's part of the cue, on a
-	// model with that path (else nil): Words are the cue's words the
-	// remedy reads as the unknown word (cueWords), WordPart the mean over
-	// the confirmation half's texts holding the cue of those words' word
-	// part of the centred logit of the cue's label, Σ_t Σ_c v_c
-	// (Wide[x_t][c] − Wide[UNK][c])/N over the text's tokens t of those
-	// words, v_c = [c = label] − 1/C, N its non-PAD tokens (the split of
-	// explain.Shares), with its 95% bootstrap interval over texts; with
-	// bigram weights (cnn.Config.WideBigrams) N counts the text's found
-	// pairs too, and every found pair holding one of the words adds its
-	// whole part Σ_c v_c (WideBigram[p][c] − Wide[UNK][c])/N, as the
-	// remedy sets its row to the unknown word's (cnn.Model.MaskedWordsCopy).
-	// Reading the words as the unknown word lowers that logit by exactly
-	// this part on each text.
-	Words    []string  `json:"words,omitempty"`
-	WordPart *Interval `json:"word_part,omitempty"`
+	// Words, WordTexts and WordPart are the word-weight path's part of the
+	// cue, on a model with that path (else empty): Words are the cue's
+	// words the remedy reads as the unknown word (cueWords), WordTexts the
+	// confirmation half's texts holding the cue, and WordPart the mean over
+	// those texts of those words' word part of the centred logit of the
+	// cue's label, Σ_t Σ_c v_c (Wide[x_t][c] − Wide[UNK][c])/N over the
+	// text's tokens t of those words, v_c = [c = label] − 1/C, N its
+	// non-PAD tokens (the split of explain.Shares), with its 95% percentile
+	// bootstrap interval over texts (BootstrapMean: the texts resampled,
+	// with no correction for few of them, so that over a handful of texts
+	// it tends to be too narrow). As for a reliance, WordPart is nil when
+	// WordTexts is below minCueTexts: no mean or interval over so few texts
+	// is given. With bigram weights (cnn.Config.WideBigrams) N counts the
+	// text's found pairs too, and every found pair holding one of the
+	// words adds its whole part Σ_c v_c (WideBigram[p][c] − Wide[UNK][c])/N,
+	// as the remedy sets its row to the unknown word's
+	// (cnn.Model.MaskedWordsCopy). Reading the words as the unknown word
+	// lowers that logit by exactly this part on each text.
+	Words     []string  `json:"words,omitempty"`
+	WordTexts int       `json:"word_texts,omitempty"`
+	WordPart  *Interval `json:"word_part,omitempty"`
 }
 
 // Ablation is the model with some filters masked (model surgery,
@@ -170,8 +175,12 @@ func (a *auditor) cueWords(c *Candidate) []int32 {
 }
 
 // wordPart is Filters.WordPart of cue c with words ws (cueWords, not
-// empty) on the confirmation half.
+// empty) on the confirmation half: nil when fewer than minCueTexts of its
+// texts hold the cue, the minimum of a reliance.
 func (a *auditor) wordPart(c *Candidate, ws []int32) *Interval {
+	if len(texts(c.confOcc)) < minCueTexts {
+		return nil
+	}
 	return a.wordPartOn(a.conf, c.confOcc, c, ws, "word part "+c.Text)
 }
 

@@ -10,6 +10,10 @@ import (
 // for its reliance to be measured.
 const minCueTexts = 5
 
+// MinCueTexts is minCueTexts for those who word the audit: below it a
+// half gives no reliance figure and no word part of a cue (Filters).
+const MinCueTexts = minCueTexts
+
 // minConfidenceDrop is the smallest mean drop in a cue's label probability
 // that the audit reports as the model's confidence resting on the cue
 // (Candidate.ConfidenceOnly): a drop of a hundredth, the smallest a
@@ -261,7 +265,7 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 		}
 		c.Filters = &Filters{Keyed: keyedFilters(a.m, a.selBase, c.selOcc, c.Class)}
 		if ws := a.cueWords(c); len(ws) > 0 {
-			c.Filters.Words, c.Filters.WordPart = wordNames(a.m, ws), a.wordPart(c, ws)
+			c.Filters.Words, c.Filters.WordTexts, c.Filters.WordPart = wordNames(a.m, ws), len(texts(c.confOcc)), a.wordPart(c, ws)
 		}
 		if len(c.Filters.Keyed) > 0 {
 			c.Filters.Ablation = ablate(a.m, a.confBase, a.conf.Gold, c.Filters.Keyed, a.cueWords(c), texts(c.confOcc))

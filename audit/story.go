@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strconv"
 	"strings"
 
 	"telltale/internal/wording"
@@ -35,8 +36,12 @@ func interval(x Interval) string {
 
 // tooFew says a reliance was not measured: the cue is in fewer texts of
 // the confirmation half than the audit measures a reliance on.
-func tooFew(r *Reliance) string {
-	return fmt.Sprintf("too few texts (%d) to measure in the confirming half (at least %d)", r.Texts, minCueTexts)
+func tooFew(r *Reliance) string { return tooFewTexts(r.Texts) }
+
+// tooFewTexts says a figure over the n confirming texts holding a cue was
+// not measured, n being below minCueTexts (a reliance, a word part).
+func tooFewTexts(n int) string {
+	return fmt.Sprintf("too few texts (%d) to measure in the confirming half (at least %d)", n, minCueTexts)
 }
 
 // drop writes a probability drop with its interval: "0.210 (0.180–0.240)".
@@ -50,15 +55,24 @@ func signedDrop(x Interval) string {
 	return "drops by " + accuracy(x)
 }
 
-// accuracy writes an accuracy with its interval: "0.912 (0.890–0.931)".
+// accuracy writes an accuracy with its interval: "0.912 (0.890–0.931)";
+// each figure as Figure writes it.
 func accuracy(x Interval) string {
-	return dec3(x.Estimate) + " (" + dec3(x.Low) + "–" + dec3(x.High) + ")"
+	return Figure(x.Estimate) + " (" + Figure(x.Low) + "–" + Figure(x.High) + ")"
 }
 
-// dec3 writes x with three decimals, and a value that rounds to 0 as
-// "0.000", never "-0.000".
-func dec3(x float64) string {
-	if s := fmt.Sprintf("%.3f", x); s != "-0.000" {
+// Figure writes a measured figure (a probability or a change of one, an
+// accuracy, a part of a logit) with three decimals, or, where three
+// decimals would show a nonzero figure as 0.000 (below 0.0005 in size),
+// with two significant digits ("0.00024", "8.3e-05"), so that no
+// measured value or bound reads as none: the rule by which the command
+// line's explain words a change too small for three decimals. Zero is
+// "0.000", never "-0.000". The report writes the audit's figures with it.
+func Figure(x float64) string {
+	if x != 0 && math.Abs(x) < 0.0005 {
+		return strconv.FormatFloat(x, 'g', 2, 64)
+	}
+	if s := strconv.FormatFloat(x, 'f', 3, 64); s != "-0.000" {
 		return s
 	}
 	return "0.000"
@@ -561,8 +575,10 @@ func (r *Result) WriteText(w io.Writer) error {
 	p("  words are grown into the longest phrase they keep in 80%% of their occurrences (or, failing that, into the form\n")
 	p("  they are written in, with no space, in most of them), brackets into the bracketed groups they open or close;\n")
 	p("  a cue passes when its p ≤ %s.\n", pval(r.Cutoff))
-	p("  Reliance: each text edited %s; intervals are 95%% bootstrap intervals over texts (exact Clopper–Pearson bounds where every text gives the same value); the sign test is one-sided.\n",
+	p("  Reliance: each text edited %s; intervals are 95%% percentile bootstrap intervals over texts (exact Clopper–Pearson bounds where every text gives the same value); the sign test is one-sided.\n",
 		"several times (the cue replaced by neutral words, or the same words put elsewhere)")
+	p("  A half measures a cue, its reliance and its words' part in the word weights, only when at least %d of its texts hold it;\n", minCueTexts)
+	p("  the word part's interval is a 95%% percentile bootstrap over texts, too narrow, as a rule, over few more than that.\n")
 	p("  %s.\n  %s.\n", r.ArtifactFormula, r.ScoreFormula)
 	return bw.Flush()
 }
@@ -606,6 +622,8 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 	if f := c.Filters; f != nil && f.WordPart != nil {
 		p("   word weights: its words %s add %s to the centred logit of %s on its test texts, against the unknown word's\n",
 			quoted(f.Words), wordPart(*f.WordPart), c.Label)
-		p("     (mean over the texts, 95%% bootstrap interval); read as the unknown word, as the mask reads them, they add nothing\n")
+		p("     (mean over the texts, 95%% percentile bootstrap interval over texts); read as the unknown word, as the mask reads them, they add nothing\n")
+	} else if f != nil && len(f.Words) > 0 {
+		p("   word weights: its words %s: %s\n", quoted(f.Words), tooFewTexts(f.WordTexts))
 	}
 }

@@ -2,6 +2,7 @@ package audit
 
 import (
 	"fmt"
+	"math"
 	"slices"
 	"strings"
 	"testing"
@@ -247,16 +248,18 @@ func TestStoryOneFlipRate(t *testing.T) {
 	}
 }
 
-// Figures with three decimals never read "-0.000": a value that rounds to
-// 0 from below is written 0.000, others as they are.
+// Figures never read "-0.000" or 0.000 for a value that is not zero: zero
+// of either sign is written 0.000, a nonzero value three decimals would
+// round to 0 gets two significant digits (Figure), others three decimals.
 func TestDec3(t *testing.T) {
 	for _, c := range []struct {
 		x    Interval
 		want string
 	}{
-		{Interval{Estimate: -1e-7, Low: -3e-7, High: 2e-7}, "0.000 (0.000–0.000)"},
+		{Interval{Estimate: math.Copysign(0, -1), Low: math.Copysign(0, -1)}, "0.000 (0.000–0.000)"},
+		{Interval{Estimate: -1e-7, Low: -3e-7, High: 2e-7}, "-1e-07 (-3e-07–2e-07)"},
 		{Interval{Estimate: 0.065, Low: 0.033, High: 0.108}, "0.065 (0.033–0.108)"},
-		{Interval{Estimate: -0.0126, Low: -0.0304, High: 0.0004}, "-0.013 (-0.030–0.000)"},
+		{Interval{Estimate: -0.0126, Low: -0.0304, High: 0.0004}, "-0.013 (-0.030–0.0004)"},
 	} {
 		if got := accuracy(c.x); got != c.want {
 			t.Errorf("accuracy(%+v) = %q, want %q", c.x, got, c.want)

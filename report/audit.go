@@ -55,24 +55,27 @@ func auditLayout(r *audit.Result, priors []float64, modelPath string) *auditView
 // reflow undoes the line breaks a paragraph of the audit's story has for
 // the terminal, so that the page wraps it to its own width: a line
 // indented by none or by more than four spaces continues the one before;
-// an item (indented by two: "  1. …") starts a line, and a command or
-// pattern (indented by four) stands on a line of its own, as does what
-// follows it. The lines kept are trimmed and joined by "\n".
+// an item (indented by two: "  1. …", "  - …") starts a line; a line
+// indented by four continues a dash item ("  - …", whose text it lines up
+// with) and otherwise is a command or pattern, which stands on a line of
+// its own, as does what follows it. The lines kept are trimmed and joined
+// by "\n".
 func reflow(para string) string {
 	var out []string
-	join := false
+	join, dash := false, false
 	for _, line := range strings.Split(para, "\n") {
 		text := strings.TrimSpace(line)
 		if text == "" {
 			continue
 		}
 		indent := len(line) - len(strings.TrimLeft(line, " "))
-		if join && len(out) > 0 && (indent == 0 || indent > 4) {
+		if len(out) > 0 && (join && (indent == 0 || indent > 4) || dash && indent == 4) {
 			out[len(out)-1] += " " + text
-		} else {
-			out = append(out, text)
+			continue
 		}
+		out = append(out, text)
 		join = indent != 4
+		dash = indent == 2 && strings.HasPrefix(text, "- ")
 	}
 	return strings.Join(out, "\n")
 }
@@ -179,7 +182,9 @@ func AuditMethod(r *audit.Result) []string {
 			"bracketed groups it opens or closes; a cue in at least %d training texts passes at p ≤ %s.",
 			AssociationTestName(r.Test), count(r.Tests), CorrectionName(r.Correction), r.Alpha, r.MinSupport, strings.TrimPrefix(pvalue(r.Cutoff), "= ")),
 		"Reliance: each test text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
-			"kept with the same words put elsewhere; intervals are 95% bootstrap intervals over texts (exact Clopper–Pearson bounds where every text gives the same value), sign tests are exact and one-sided. " +
+			"kept with the same words put elsewhere; intervals are 95% percentile bootstrap intervals over texts (exact Clopper–Pearson bounds where every text gives the same value), sign tests are exact and one-sided. " +
+			fmt.Sprintf("A half gives these figures, and on a model with word weights the part of the cue's words there (the same percentile bootstrap over texts), only when at least %d of its texts hold the cue; "+
+				"over few more than that, a percentile bootstrap tends to give too narrow an interval. ", audit.MinCueTexts) +
 			"A cue is acted on when it is artifact-like, relied on in the choosing half and confirmed in the confirming half: there its label's probability falls in more texts than it rises " +
 			"(the sign test, Benjamini–Hochberg over the cues put to the test) and the predictions change beyond the control (the interval of the net change above 0); a small fall in most texts passes the sign test alone.",
 		"Artifact-likeness: the score of a rule, 1 − Π (1 − weight × value) over the signals shown, each value in [0, 1] and each weight set by hand " +

@@ -86,11 +86,13 @@ func DescribeCue(c *audit.Candidate, r *audit.Result, priors []float64) CueEvide
 			wording.Grouped(len(f.Keyed), "filter", "filters"), ints(f.Keyed), wideWords(ab.Words), accuracy(ab.Before), accuracy(ab.After), count(ab.Fixed), count(ab.Broken),
 			pvalue(ab.P), count(ab.CueFlipped), count(ab.CueTexts))
 	}
-	if f := c.Filters; f != nil && f.WordPart != nil {
-		wp := f.WordPart
-		words := fmt.Sprintf("In the word weights its words %s add %s (%s–%s) to the centred logit of %s on its confirming texts, "+
-			"against the unknown word's (mean over the texts, 95%% bootstrap interval); read as the unknown word, as the mask reads them, they add nothing",
-			quotedWords(f.Words), num(wp.Estimate), num(wp.Low), num(wp.High), c.Label)
+	if f := c.Filters; f != nil && len(f.Words) > 0 {
+		words := fmt.Sprintf("In the word weights its words %s: too few texts (%s) in the confirming half to measure", quotedWords(f.Words), count(f.WordTexts))
+		if wp := f.WordPart; wp != nil {
+			words = fmt.Sprintf("In the word weights its words %s add %s to the centred logit of %s on its confirming texts, "+
+				"against the unknown word's (mean over the texts, 95%% percentile bootstrap interval over texts); read as the unknown word, as the mask reads them, they add nothing",
+				quotedWords(f.Words), accuracy(*wp), c.Label)
+		}
 		if ev.Filters != "" {
 			ev.Filters += ". " + words
 		} else {
@@ -193,21 +195,18 @@ func interval(x audit.Interval) string {
 	return pct(x.Estimate) + " (" + strings.TrimSuffix(pct(x.Low), "%") + "–" + pct(x.High) + ")"
 }
 
-// drop writes a difference of probabilities with its interval; a value
-// that rounds to 0 is "0.000", never "-0.000".
+// drop writes a difference of probabilities with its interval, each
+// figure as audit.Figure writes it: three decimals, two significant
+// digits where three would show a nonzero figure as 0.000, and a value of
+// 0 as "0.000", never "-0.000".
 func drop(x audit.Interval) string {
-	z := func(v float64) string {
-		if s := num(v); s != "-0.000" {
-			return s
-		}
-		return "0.000"
-	}
-	return z(x.Estimate) + " (" + z(x.Low) + " to " + z(x.High) + ")"
+	return audit.Figure(x.Estimate) + " (" + audit.Figure(x.Low) + " to " + audit.Figure(x.High) + ")"
 }
 
-// accuracy writes an accuracy with its interval.
+// accuracy writes an accuracy, or another of the audit's figures, with
+// its interval, each figure as audit.Figure writes it: "0.912 (0.890–0.931)".
 func accuracy(x audit.Interval) string {
-	return num(x.Estimate) + " (" + num(x.Low) + "–" + num(x.High) + ")"
+	return audit.Figure(x.Estimate) + " (" + audit.Figure(x.Low) + "–" + audit.Figure(x.High) + ")"
 }
 
 // pvalue writes "= 0.0017" or "< 1e-300".

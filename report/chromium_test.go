@@ -142,6 +142,12 @@ func chromiumLoad(t *testing.T, file string, print bool) pageRun {
 // expression probe on the settled page, its value in DOM.Probe.
 func chromiumProbe(t *testing.T, file string, print bool, probe string) pageRun {
 	t.Helper()
+	return chromiumProbeAt(t, file, print, 1280, probe)
+}
+
+// chromiumProbeAt is chromiumProbe in a window width px wide.
+func chromiumProbeAt(t *testing.T, file string, print bool, width int, probe string) pageRun {
+	t.Helper()
 	ctx, cancel := context.WithTimeout(context.Background(), 90*time.Second)
 	defer cancel()
 	profile := t.TempDir()
@@ -205,7 +211,7 @@ func chromiumProbe(t *testing.T, file string, print bool, probe string) pageRun 
 		}
 	}
 	if err := c.call(ctx, s, "Emulation.setDeviceMetricsOverride", map[string]any{
-		"width": 1280, "height": 1000, "deviceScaleFactor": 1, "mobile": false}, nil); err != nil {
+		"width": width, "height": 1000, "deviceScaleFactor": 1, "mobile": false}, nil); err != nil {
 		fail(err)
 	}
 	if print {
@@ -297,7 +303,7 @@ func chromiumProbe(t *testing.T, file string, print bool, probe string) pageRun 
 	}
 	h := min(run.DOM.Height, 32000)
 	if err := c.call(ctx, s, "Page.captureScreenshot", map[string]any{"format": "png", "captureBeyondViewport": true,
-		"clip": map[string]any{"x": 0, "y": 0, "width": 1280, "height": h, "scale": 1}}, &shot); err != nil {
+		"clip": map[string]any{"x": 0, "y": 0, "width": width, "height": h, "scale": 1}}, &shot); err != nil {
 		fail(err)
 	}
 	if run.PNG, err = base64.StdEncoding.DecodeString(shot.Data); err != nil {

@@ -25,12 +25,18 @@ const hostileText = `Refund <script>alert(1)</script> for "Ann" & 'Bo' <b>now</b
 // hostileExample explains hostileText with the fixture's model.
 func hostileExample(t *testing.T, m *cnn.Model) Example {
 	t.Helper()
+	return exampleOf(t, m, hostileText)
+}
+
+// exampleOf explains text with m, an example of the first label.
+func exampleOf(t *testing.T, m *cnn.Model, text string) Example {
+	t.Helper()
 	tok, err := corpus.NewTokenizer(m.Tokenizer)
 	if err != nil {
 		t.Fatal(err)
 	}
 	v := corpus.NewVocab(m.Vocab, nil)
-	toks := tok.TokenizeFor(v, hostileText)
+	toks := tok.TokenizeFor(v, text)
 	e, err := explain.Explain(m, toks, v.Encode(toks), explain.ExplainOptions{Occlusion: true})
 	if err != nil {
 		t.Fatal(err)
@@ -39,7 +45,7 @@ func hostileExample(t *testing.T, m *cnn.Model) Example {
 	if e.Class == 0 {
 		kind = KindCorrect
 	}
-	return Example{Kind: kind, Text: hostileText, Gold: m.Labels[0], Note: `line "7" <i>&</i>`, Explanation: e}
+	return Example{Kind: kind, Text: text, Gold: m.Labels[0], Note: `line "7" <i>&</i>`, Explanation: e}
 }
 
 // screenshotInput is the demo fixture's input with a hostile example added,

@@ -371,13 +371,14 @@ func maskedCount(m []bool) int {
 	return n
 }
 
-// tokens writes a token count of the percentiles p, "–" when they are of
-// no text.
+// tokens writes a token count of the percentiles p grouped by thousands
+// as every other count of the page ("12,159"), "–" when they are of no
+// text.
 func tokens(n int, p corpus.Percentiles) string {
 	if p.Undefined() {
 		return "–"
 	}
-	return fmt.Sprint(n)
+	return count(n)
 }
 
 func summary(s *corpus.Summary) *summaryView {

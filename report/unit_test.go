@@ -11,6 +11,7 @@ import (
 
 	auditpkg "telltale/audit"
 	"telltale/cnn"
+	"telltale/corpus"
 	"telltale/explain"
 )
 
@@ -31,6 +32,7 @@ func TestFormats(t *testing.T) {
 		{count(1000), "1,000"},
 		{count(1234567), "1,234,567"},
 		{count(-4500), "-4,500"},
+		{tokens(12159, corpus.Percentiles{Max: 12159}), "12,159"}, // beside the split's 2,200 texts
 		{signed(0), "0.000"},
 		{ints([]int{3, 0, 12}), "3, 0, 12"},
 		// The cue audit's figures.
@@ -39,7 +41,13 @@ func TestFormats(t *testing.T) {
 		{pvalue(0), "< 1e-300"},
 		{interval(auditpkg.Interval{Estimate: 0.14, Low: 0.086, High: 0.191}), "14.0% (8.6–19.1%)"},
 		{drop(auditpkg.Interval{Estimate: 0.001, Low: -0.046, High: 0.052}), "0.001 (-0.046 to 0.052)"},
-		{drop(auditpkg.Interval{Estimate: -1e-7, Low: -3e-7, High: 2e-7}), "0.000 (0.000 to 0.000)"}, // never "-0.000"
+		{drop(auditpkg.Interval{Estimate: math.Copysign(0, -1), Low: math.Copysign(0, -1)}), "0.000 (0.000 to 0.000)"}, // never "-0.000"
+		// A figure three decimals would show as 0.000 gets two significant
+		// digits (the export's label_drop 0.00024 (8.3e-05–0.00048) of a
+		// SpamAssassin cue), so no measured figure reads as none.
+		{drop(auditpkg.Interval{Estimate: 0.00024, Low: 8.3e-05, High: 0.00048}), "0.00024 (8.3e-05 to 0.00048)"},
+		{drop(auditpkg.Interval{Estimate: -1e-7, Low: -3e-7, High: 2e-7}), "-1e-07 (-3e-07 to 2e-07)"},
+		{accuracy(auditpkg.Interval{Estimate: 0.0004, Low: 0, High: 0.0021}), "0.0004 (0.000–0.002)"},
 		{accuracy(auditpkg.Interval{Estimate: 0.9, Low: 0.867, High: 0.926}), "0.900 (0.867–0.926)"},
 		{AssociationTestName(auditpkg.TestBinomial), "exact binomial test"},
 		{CorrectionName(auditpkg.CorrectBonferroni), "Bonferroni"},
@@ -181,6 +189,8 @@ func TestReflowStory(t *testing.T) {
 			"1. \"kioskmail\", in 8% of the test texts. It looks like a collection artifact. Replacing it changes 40% of the predictions, against 2% when the same words are put elsewhere."},
 		{"commands", "What to do: retrain without it.\nThese commands write the patterns to a file and train again\non its own splits without it:\n    telltale train --data a.csv\n    telltale eval --model b.tt\n(Mark it as artifact to keep this judgement with the model.)",
 			"What to do: retrain without it. These commands write the patterns to a file and train again on its own splits without it:\ntelltale train --data a.csv\ntelltale eval --model b.tt\n(Mark it as artifact to keep this judgement with the model.)"},
+		{"dash item", "  - 'x' (spam): replacing it lowers the probability of spam by 0.021 on its 8 confirming texts\n    (it falls in 8 texts, rises in 0) and changes 0% of their predictions,\n    against 0% when the same words are put elsewhere.\n    The flips are not ruled out:\n    up to 30%.",
+			"- 'x' (spam): replacing it lowers the probability of spam by 0.021 on its 8 confirming texts (it falls in 8 texts, rises in 0) and changes 0% of their predictions, against 0% when the same words are put elsewhere. The flips are not ruled out: up to 30%."},
 		{"listed cues", "The model also relies on these, which read like the task:\n  \"refund\" (complaints): replacing it lowers the probability.\n  \"lost\" (lost-property): too few texts.",
 			"The model also relies on these, which read like the task:\n\"refund\" (complaints): replacing it lowers the probability.\n\"lost\" (lost-property): too few texts."},
 	} {

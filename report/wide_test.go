@@ -364,3 +364,23 @@ func TestMcNemarLineBaselineAhead(t *testing.T) {
 		t.Errorf("the line does not open with the test: %q", level)
 	}
 }
+
+// TestAuditWordPartTooFew: below the audit's minimum of texts (the
+// audit leaves Filters.WordPart nil, as it leaves a reliance unmeasured)
+// the cue's evidence names its words and says, in the reliance's words,
+// that there were too few texts to measure, with no figure or interval.
+func TestAuditWordPartTooFew(t *testing.T) {
+	cue := audit.Candidate{Words: []string{"215"}, Text: "215", Label: "spam", Verdict: audit.VerdictActed,
+		Confirmed: &audit.Reliance{Texts: 4},
+		Filters:   &audit.Filters{Words: []string{"215"}, WordTexts: 4}}
+	r := &audit.Result{Labels: []string{"ham", "spam"}, Ranked: []audit.Candidate{cue}}
+	ev := DescribeCue(&r.Ranked[0], r, nil)
+	if want := "too few texts (4) in the confirming half to measure"; !strings.Contains(ev.Reliance, want) ||
+		!strings.Contains(ev.Filters, "'215': "+want) || strings.Contains(ev.Filters, " add ") {
+		t.Errorf("word part over 4 texts: reliance %q, filters %q", ev.Reliance, ev.Filters)
+	}
+	if m := strings.Join(AuditMethod(r), " "); !strings.Contains(m, fmt.Sprintf("only when at least %d of its texts hold the cue", audit.MinCueTexts)) ||
+		!strings.Contains(m, "the part of the cue's words there (the same percentile bootstrap over texts)") {
+		t.Errorf("the method does not say how the word part is made, or its minimum: %q", m)
+	}
+}
