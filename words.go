@@ -1,8 +1,9 @@
 package main
 
 import (
-	"strconv"
 	"strings"
+
+	"telltale/audit"
 )
 
 // change says how a probability moves by a drop d (positive: it falls):
@@ -21,13 +22,8 @@ func change(d float64) string {
 }
 
 // amount writes a positive probability change: three decimals, or two
-// significant digits below 0.0005.
-func amount(x float64) string {
-	if x < 0.0005 {
-		return strconv.FormatFloat(x, 'g', 2, 64)
-	}
-	return strconv.FormatFloat(x, 'f', 3, 64)
-}
+// significant digits below 0.0005 (audit.Figure, the audit's rule too).
+func amount(x float64) string { return audit.Figure(x) }
 
 // auditStage is an audit progress stage as the progress bar shows it: the
 // audit's stage "held-out" (a name the window also keys on) is the pass
