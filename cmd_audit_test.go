@@ -833,7 +833,7 @@ func TestAuditBadInputMessages(t *testing.T) {
 		{"bad marks line", a("--marks", garbage), 1, []string{"garbage.marks line 1", `"garbage"`, "a line starts with artifact or task"}},
 		{"marked word unknown", a("--marks", unknown), 1, []string{"unknown.marks line 2", `"zzqqxx"`, "remove the line"}},
 		{"missing --models", a("--models", filepath.Join(f.dir, "none.tt")), 2, []string{"--models " + filepath.Join(f.dir, "none.tt") + ": no such file", "check the path"}},
-		{"--models not a model", a("--models", f.data), 2, []string{"part.csv", "not a telltale model file", "give a file written by telltale train"}},
+		{"--models not a model", a("--models", f.data), 1, []string{"part.csv", "not a telltale model file", "give a file written by telltale train"}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			code, _, stderr := tt(t, c.args...)

@@ -25,7 +25,6 @@ import (
 	"strings"
 	"syscall"
 
-	"telltale/cnn"
 	"telltale/internal/inputfile"
 	"telltale/internal/localeenv"
 	"telltale/internal/outguard"
@@ -229,7 +228,7 @@ func exitCode(ctx context.Context, c *command, err error, stderr io.Writer) int 
 	switch {
 	case err == nil, errors.Is(err, errHelpShown):
 		return 0
-	case errors.As(err, &ue), errors.Is(err, cnn.ErrNotModel): // another kind of file given as --model is a usage error
+	case errors.As(err, &ue):
 		fmt.Fprintf(stderr, "telltale %s: %s\nusage: telltale %s\n", c.Name, errorText(c, err), c.UsageLine)
 		return 2
 	}

@@ -11,7 +11,6 @@ import (
 	"path/filepath"
 	"runtime"
 	"runtime/metrics"
-	"slices"
 	"sort"
 	"strings"
 	"sync"
@@ -150,7 +149,7 @@ func TestBadInputMessages(t *testing.T) {
 			[]string{"--tokenizer " + bad("empty.csv") + " is empty: give a tokenizer file"}},
 		{"missing tokenizer file", append([]string{"train", "--data", train, "--tokenizer", bad("none.json")}, tiny...), 2,
 			[]string{"--tokenizer " + bad("none.json") + ": no such file: check the path"}},
-		{"empty model file", []string{"eval", "--model", bad("empty.csv"), "--data", train}, 2,
+		{"empty model file", []string{"eval", "--model", bad("empty.csv"), "--data", train}, 1,
 			[]string{"empty.csv", "not a telltale model file", "give a file written by telltale train"}},
 	}
 	for _, c := range cases {
@@ -295,14 +294,8 @@ func TestDamagedModelFiles(t *testing.T) {
 		}
 		code, _, stderr := tt(t, "eval", "--model", p, "--data", data)
 		noCrash(t, name, stderr)
-		// Another kind of file (its first bytes are not a model's) is a
-		// usage error, 2; a damaged model file is a failure, 1.
-		wantCode := 1
-		if slices.Contains(want, "not a telltale model file") {
-			wantCode = 2
-		}
-		if code != wantCode || !strings.Contains(stderr, "model file "+p+": ") {
-			t.Errorf("%s: exit %d, stderr %q; want exit %d and a message naming the file", name, code, stderr, wantCode)
+		if code != 1 || !strings.Contains(stderr, "model file "+p+": ") {
+			t.Errorf("%s: exit %d, stderr %q; want exit 1 and a message naming the file", name, code, stderr)
 		}
 		for _, w := range want {
 			if !strings.Contains(stderr, w) {
