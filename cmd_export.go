@@ -67,6 +67,7 @@ func (o *exportOptions) check(*flag.FlagSet, *runEnv) error {
 	case o.Out == "":
 		return usagef("--out is required: the folder to write the files into, e.g. --out exported")
 	}
+	o.Out = filepath.Clean(o.Out) // "exported/" is the folder exported
 	if st, err := os.Stat(o.Out); err == nil && !st.IsDir() {
 		// Said first when the file is the model: the worse mistake.
 		if err := outguard.Check([]outguard.File{{Name: "--out", Path: o.Out}}, []outguard.File{{Name: "--model", Path: o.Model}}); err != nil {

@@ -291,4 +291,26 @@ func TestExportReplacesAnEarlierExportWhole(t *testing.T) {
 	if b, err := os.ReadFile(other); err != nil || string(b) != "mine" {
 		t.Errorf("the other file: %q %v", b, err)
 	}
+	// A folder given with a trailing slash, or through a link (kept, its
+	// target replaced), takes the export; the working folder does not.
+	os.Remove(other)
+	if code, _, stderr := runCmd(t, "", "export", "--model", model, "--out", out+"/"); code != 0 {
+		t.Errorf("--out with a trailing slash: exit %d: %s", code, stderr)
+	}
+	link := filepath.Join(parent, "link")
+	if err := os.Symlink(out, link); err != nil {
+		t.Fatal(err)
+	}
+	if code, _, stderr := runCmd(t, "", "export", "--model", model, "--out", link); code != 0 {
+		t.Errorf("--out through a link: exit %d: %s", code, stderr)
+	}
+	if fi, err := os.Lstat(link); err != nil || fi.Mode()&os.ModeSymlink == 0 {
+		t.Errorf("the link was replaced: %v %v", fi, err)
+	}
+	if _, err := os.Stat(filepath.Join(out, torchmodel.WeightsFile)); err != nil {
+		t.Errorf("the link's target holds no export: %v", err)
+	}
+	if code, _, stderr := runCmd(t, "", "export", "--model", model, "--out", "."); code != 2 || !strings.Contains(stderr, "is the working folder") {
+		t.Errorf("--out .: exit %d: %s", code, stderr)
+	}
 }

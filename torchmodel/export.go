@@ -9,6 +9,7 @@ import (
 	"path/filepath"
 	"slices"
 	"strings"
+	"syscall"
 
 	"telltale/cnn"
 	"telltale/internal/atomicfile"
@@ -177,7 +178,10 @@ func Export(m *cnn.Model, dir string) (err error) {
 	if err := CheckExportDir(dir); err != nil {
 		return err
 	}
-	final := dir
+	final, err := exportTarget(dir)
+	if err != nil {
+		return err
+	}
 	dir, err = os.MkdirTemp(filepath.Dir(final), "."+filepath.Base(final)+".*.tmp")
 	if err != nil {
 		return fmt.Errorf("torchmodel: %s: %w (is its folder there and writable?)", final, err)
@@ -187,7 +191,11 @@ func Export(m *cnn.Model, dir string) (err error) {
 			os.RemoveAll(dir)
 		}
 	}()
-	if err := os.Chmod(dir, 0o755); err != nil {
+	mode := os.FileMode(0o755)
+	if st, err := os.Stat(final); err == nil {
+		mode = st.Mode().Perm() // an earlier export's folder keeps its permissions
+	}
+	if err := os.Chmod(dir, mode); err != nil {
 		return fmt.Errorf("torchmodel: %w", err)
 	}
 	if err := writeExport(m, dir); err != nil {
@@ -229,10 +237,14 @@ func writeExport(m *cnn.Model, dir string) error {
 var exportNames = []string{WeightsFile, VocabFile, LabelsFile, TokenizerFile}
 
 // CheckExportDir returns an error (wrapping ErrExportDir) when dir cannot
-// take an export: it is a file, or a folder holding anything but an
-// earlier export's files (a mix the new export would leave behind or
-// overwrite). A missing or empty folder is fine.
+// take an export: it is a file, the working folder or one holding it, or a
+// folder holding anything but an earlier export's files (a mix the new
+// export would leave behind or overwrite). A missing or empty folder is
+// fine.
 func CheckExportDir(dir string) error {
+	if _, err := exportTarget(dir); err != nil {
+		return err
+	}
 	st, err := os.Stat(dir)
 	switch {
 	case errors.Is(err, fs.ErrNotExist):
@@ -264,11 +276,35 @@ type exportDirError string
 func (e exportDirError) Error() string        { return string(e) }
 func (e exportDirError) Is(target error) bool { return target == ErrExportDir }
 
+// exportTarget is the folder an export to dir replaces: dir cleaned and
+// absolute, or a link's target (the link kept, as files are written
+// through links). The working folder itself (".") cannot be replaced.
+func exportTarget(dir string) (string, error) {
+	abs, err := filepath.Abs(dir)
+	if err != nil {
+		return "", fmt.Errorf("torchmodel: %s: %w", dir, err)
+	}
+	if real, err := filepath.EvalSymlinks(abs); err == nil {
+		abs = real
+	}
+	if wd, err := os.Getwd(); err == nil && (abs == wd || strings.HasPrefix(wd, abs+string(filepath.Separator))) {
+		return "", exportDirError(fmt.Sprintf("torchmodel: %s is the working folder or holds it, which an export cannot replace: give a folder in it, such as %s",
+			dir, filepath.Join(dir, "exported")))
+	}
+	return abs, nil
+}
+
 // swapInto makes the folder tmp take final's place: a rename where final
-// is missing or empty, else final (an earlier export, CheckExportDir) is
-// moved aside first and removed once tmp is in place.
+// is missing or empty, else (final holds an earlier export,
+// CheckExportDir) final is moved aside first and removed once tmp is in
+// place; if tmp cannot take its place the earlier export is put back, and
+// an error names where it is if that fails too.
 func swapInto(tmp, final string) error {
-	if err := os.Rename(tmp, final); err == nil {
+	err := os.Rename(tmp, final)
+	if err == nil || !(errors.Is(err, syscall.ENOTEMPTY) || errors.Is(err, syscall.EEXIST)) {
+		if err != nil {
+			return fmt.Errorf("torchmodel: %s: %w", final, err)
+		}
 		return nil
 	}
 	old, err := os.MkdirTemp(filepath.Dir(final), "."+filepath.Base(final)+".*.old")
@@ -280,8 +316,13 @@ func swapInto(tmp, final string) error {
 		return fmt.Errorf("torchmodel: moving the earlier export in %s aside: %w", final, err)
 	}
 	if err := os.Rename(tmp, final); err != nil {
-		os.Rename(old, final) // put the earlier export back
+		if berr := os.Rename(old, final); berr != nil {
+			return fmt.Errorf("torchmodel: %s: %w; the earlier export is in %s", final, err, old)
+		}
 		return fmt.Errorf("torchmodel: %s: %w", final, err)
 	}
-	return os.RemoveAll(old)
+	// The new export is in place; an earlier one that cannot be removed is
+	// left hidden beside it rather than failing the export.
+	os.RemoveAll(old)
+	return nil
 }

@@ -4,14 +4,14 @@
 // failure at any step removes the temporary file and leaves the destination
 // as it was.
 //
-// A destination that is a symbolic link is written through: its target is
-// replaced so, and the link kept. A destination that is not a regular file
-// (a named pipe, a device such as /dev/stdout or /dev/null) is a stream,
-// not a file a reader could see half-written: it is opened and written to
-// as it is, never replaced by a file.
+// A destination that is a symbolic link is followed as the system follows
+// it (Resolve): its target is replaced so, and the link kept. A destination
+// that is not a regular file (a named pipe, a device, a process's own
+// descriptor such as /dev/stdout) is refused, never replaced by a file.
 package atomicfile
 
 import (
+	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -19,58 +19,70 @@ import (
 	"strings"
 )
 
-// maxLinks bounds the symbolic links followed to a destination, as the
-// system does (40 on Linux).
-const maxLinks = 40
+// ErrNotAFile marks a destination that is not a regular file or a new
+// one: a pipe, a device, a descriptor, or a link that cannot be followed.
+var ErrNotAFile = errors.New("not a file to write")
 
-// Write creates or replaces path with what write produces (a link's
-// target, a stream as it is: see the package comment). Errors name the
-// path; write's own error is wrapped.
-func Write(path string, write func(io.Writer) error) error {
-	for range maxLinks {
-		fi, err := os.Lstat(path)
-		switch {
-		case err != nil || fi.Mode().IsRegular():
-			return writeFile(path, write)
-		case fi.Mode()&os.ModeSymlink == 0:
-			return writeStream(path, write)
-		}
-		if st, err := os.Stat(path); err == nil && !st.Mode().IsRegular() {
-			return writeStream(path, write) // e.g. /dev/stdout, a link the system resolves itself
-		}
-		target, err := os.Readlink(path)
-		if err != nil {
-			return fmt.Errorf("%s: %w", path, err)
-		}
-		if strings.HasPrefix(target, "/proc/") || strings.HasPrefix(target, "/dev/fd/") {
-			// A process's own descriptor (/dev/stdout → /proc/self/fd/1),
-			// even one redirected to a file: written as the stream it is,
-			// so the shell's redirection gets it.
-			return writeStream(path, write)
-		}
-		if !filepath.IsAbs(target) {
-			target = filepath.Join(filepath.Dir(path), target)
-		}
-		path = target
+// Resolve returns the path a file written at path lands on: path itself,
+// or for a symbolic link its target as the system resolves it
+// (filepath.EvalSymlinks). It refuses (ErrNotAFile) a process's own
+// descriptor (/dev/stdout, /dev/fd/N, /proc/…, or a link to one: a file
+// it leads to is the shell's, which a rename would take from it), a link
+// that cannot be followed (a link to a missing file: give the target
+// itself), and an existing destination that is not a regular file (a
+// pipe, a device).
+func Resolve(path string) (string, error) {
+	if abs, err := filepath.Abs(path); err == nil && descriptor(abs) {
+		return "", fmt.Errorf("%s is a process's descriptor, not a file: give a file's path: %w", path, ErrNotAFile)
 	}
-	return fmt.Errorf("%s: more than %d symbolic links in a row: give the file's own path", path, maxLinks)
+	real := path
+	if fi, err := os.Lstat(path); err == nil && fi.Mode()&os.ModeSymlink != 0 {
+		target, _ := os.Readlink(path)
+		if descriptor(target) {
+			return "", fmt.Errorf("%s is a link to %s, a process's descriptor, not a file: give a file's path: %w", path, target, ErrNotAFile)
+		}
+		if real, err = filepath.EvalSymlinks(path); err != nil {
+			return "", fmt.Errorf("%s is a link to %s, which cannot be followed (%v): give the file's own path: %w", path, target, err, ErrNotAFile)
+		}
+	}
+	if st, err := os.Stat(real); err == nil && !st.Mode().IsRegular() && !st.IsDir() {
+		return "", fmt.Errorf("%s is a %s, not a file: give a file's path: %w", path, kind(st.Mode()), ErrNotAFile)
+	}
+	return real, nil
 }
 
-// writeStream writes to the existing non-regular file at path (a pipe, a
-// device) as it is.
-func writeStream(path string, write func(io.Writer) error) error {
-	f, err := os.OpenFile(path, os.O_WRONLY, 0)
+// descriptor reports whether the absolute path p names a process's own
+// descriptor or stream rather than a file.
+func descriptor(p string) bool {
+	for _, pre := range []string{"/dev/std", "/dev/fd/", "/proc/"} {
+		if strings.HasPrefix(p, pre) {
+			return true
+		}
+	}
+	return false
+}
+
+// kind names a file mode that is not a regular file's.
+func kind(m os.FileMode) string {
+	switch {
+	case m&os.ModeNamedPipe != 0:
+		return "named pipe"
+	case m&os.ModeSocket != 0:
+		return "socket"
+	case m&os.ModeDevice != 0:
+		return "device"
+	}
+	return "special file"
+}
+
+// Write creates or replaces path (a link's target: Resolve) with what
+// write produces. Errors name the path; write's own error is wrapped.
+func Write(path string, write func(io.Writer) error) error {
+	real, err := Resolve(path)
 	if err != nil {
-		return fmt.Errorf("%s: %w", path, err)
+		return err
 	}
-	if err := write(f); err != nil {
-		f.Close()
-		return fmt.Errorf("writing %s: %w", path, err)
-	}
-	if err := f.Close(); err != nil {
-		return fmt.Errorf("writing %s: %w", path, err)
-	}
-	return nil
+	return writeFile(real, write)
 }
 
 // writeFile writes the regular file (or the new file) at path through a

@@ -2,7 +2,6 @@ package atomicfile
 
 import (
 	"errors"
-	"fmt"
 	"io"
 	"os"
 	"path/filepath"
@@ -47,12 +46,14 @@ func TestWrite(t *testing.T) {
 	}
 }
 
-// TestWriteThroughLinksAndStreams: a link is written through (its target
-// replaced, the link kept, also a link to a file not there yet); a named
-// pipe gets the content as a stream and stays a pipe; a link to the
-// process's own descriptor, as /dev/stdout is, is written to as a stream,
-// not replaced by a file.
-func TestWriteThroughLinksAndStreams(t *testing.T) {
+// TestWriteThroughLinksRefuseStreams: a link is written through as the
+// system follows it (its target replaced, the link kept), also a relative
+// link in a folder reached through another link, where "../" leads from
+// the folder's real place; a link to a missing file, a named pipe, and a
+// link to a process's descriptor (as /dev/stdout is) are refused before
+// anything is written, and stay what they were. Everything is made in the
+// test's folder, so that a regression can replace nothing of the system's.
+func TestWriteThroughLinksRefuseStreams(t *testing.T) {
 	dir := t.TempDir()
 	content := func(w io.Writer) error { _, err := io.WriteString(w, "new"); return err }
 	target, link := filepath.Join(dir, "target.txt"), filepath.Join(dir, "link.txt")
@@ -71,65 +72,41 @@ func TestWriteThroughLinksAndStreams(t *testing.T) {
 	if b, _ := os.ReadFile(target); string(b) != "new" {
 		t.Errorf("the link's target holds %q, want new", b)
 	}
-	dangling, later := filepath.Join(dir, "dangling.txt"), filepath.Join(dir, "later.txt")
-	if err := os.Symlink(later, dangling); err != nil {
+
+	// sub → other/deep; other/deep/out.txt → ../data.txt, which the system
+	// resolves from other/deep: other/data.txt, not dir/data.txt.
+	for _, d := range []string{"other/deep"} {
+		os.MkdirAll(filepath.Join(dir, d), 0o755)
+	}
+	os.WriteFile(filepath.Join(dir, "data.txt"), []byte("input"), 0o644)
+	os.Symlink(filepath.Join(dir, "other", "deep"), filepath.Join(dir, "sub"))
+	os.Symlink("../data.txt", filepath.Join(dir, "other", "deep", "out.txt"))
+	os.WriteFile(filepath.Join(dir, "other", "data.txt"), []byte("old"), 0o644)
+	if err := Write(filepath.Join(dir, "sub", "out.txt"), content); err != nil {
 		t.Fatal(err)
 	}
-	if err := Write(dangling, content); err != nil {
-		t.Fatal(err)
+	if b, _ := os.ReadFile(filepath.Join(dir, "data.txt")); string(b) != "input" {
+		t.Errorf("a file the link does not lead to was written: %q", b)
 	}
-	if b, _ := os.ReadFile(later); string(b) != "new" {
-		t.Errorf("the dangling link's target holds %q, want new", b)
+	if b, _ := os.ReadFile(filepath.Join(dir, "other", "data.txt")); string(b) != "new" {
+		t.Errorf("the file the system reaches holds %q", b)
 	}
 
+	dangling := filepath.Join(dir, "dangling.txt")
+	os.Symlink(filepath.Join(dir, "missing", "x.txt"), dangling)
 	fifo := filepath.Join(dir, "pipe")
 	if err := syscallMkfifo(fifo); err != nil {
 		t.Skipf("no named pipes here: %v", err)
 	}
-	got := make(chan string)
-	go func() {
-		b, _ := os.ReadFile(fifo)
-		got <- string(b)
-	}()
-	if err := Write(fifo, content); err != nil {
-		t.Fatal(err)
-	}
-	if s := <-got; s != "new" {
-		t.Errorf("the pipe's reader got %q", s)
-	}
-	if fi, _ := os.Lstat(fifo); fi.Mode()&os.ModeNamedPipe == 0 {
-		t.Errorf("the pipe became %v", fi.Mode())
-	}
-	// A link to a process's own descriptor, as /dev/stdout is (made here
-	// in the test's folder, so that a regression replaces nothing of the
-	// system's).
-	r, w, err := os.Pipe()
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer r.Close()
-	fd := fmt.Sprintf("/proc/self/fd/%d", w.Fd())
-	if _, err := os.Stat(fd); err != nil {
-		w.Close()
-		t.Skipf("no %s here: %v", fd, err)
-	}
 	stdout := filepath.Join(dir, "stdout")
-	if err := os.Symlink(fd, stdout); err != nil {
-		t.Fatal(err)
-	}
-	go func() {
-		b, _ := io.ReadAll(r)
-		got <- string(b)
-	}()
-	err = Write(stdout, content)
-	w.Close()
-	if err != nil {
-		t.Fatal(err)
-	}
-	if s := <-got; s != "new" {
-		t.Errorf("the descriptor's reader got %q", s)
-	}
-	if fi, err := os.Lstat(stdout); err != nil || fi.Mode()&os.ModeSymlink == 0 {
-		t.Errorf("the link to the descriptor is no longer a link: %v %v", fi, err)
+	os.Symlink("/proc/self/fd/1", stdout)
+	for _, p := range []string{dangling, fifo, stdout} {
+		before, _ := os.Lstat(p)
+		if err := Write(p, content); !errors.Is(err, ErrNotAFile) || !strings.Contains(err.Error(), p) {
+			t.Errorf("%s: %v, want a refusal naming it", p, err)
+		}
+		if after, _ := os.Lstat(p); after.Mode() != before.Mode() {
+			t.Errorf("%s was %v, is now %v", p, before.Mode(), after.Mode())
+		}
 	}
 }

@@ -8,6 +8,8 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+
+	"telltale/internal/atomicfile"
 )
 
 // File is one path a run reads or writes, with the name the user gave it
@@ -160,18 +162,14 @@ func (r resolved) inside(dir os.FileInfo) bool {
 // creating and removing a probe file there). The message names the path
 // the user gave and the option to change, never the probe.
 func writable(f File) error {
-	st, err := os.Stat(f.Path)
-	switch {
-	case err == nil && st.IsDir():
+	if st, err := os.Stat(f.Path); err == nil && st.IsDir() {
 		return fail(ErrNotWritable, "%s %s is a folder: give a file name", f.Name, f.Path)
-	case err == nil && !st.Mode().IsRegular():
-		return nil // a stream (a pipe, a device): written to as it is (atomicfile), not replaced
 	}
-	// A link is written through (atomicfile): its target's folder is where
-	// the file is made.
-	target := f.Path
-	if real, err := filepath.EvalSymlinks(f.Path); err == nil {
-		target = real
+	// Where the file lands, as atomicfile writes it: a link's target; a
+	// pipe, a device or a process's descriptor is refused.
+	target, err := atomicfile.Resolve(f.Path)
+	if err != nil {
+		return fail(ErrNotWritable, "%s %s", f.Name, strings.TrimSuffix(err.Error(), ": "+atomicfile.ErrNotAFile.Error()))
 	}
 	dir := filepath.Dir(target)
 	opt := option(f.Name)

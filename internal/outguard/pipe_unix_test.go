@@ -7,6 +7,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"strings"
 	"syscall"
 	"testing"
 	"time"
@@ -86,5 +87,41 @@ func TestCheckInputNamedPipeUnreadable(t *testing.T) {
 	want := "--test " + p + " cannot be read (permission denied): make it readable or give another --test"
 	if err := checkWithin(t, p); !errors.Is(err, ErrInput) || err.Error() != want {
 		t.Errorf("got %v, want %q", err, want)
+	}
+}
+
+// TestCheckRefusesStreamsAndDanglingLinks: an output that is a named pipe,
+// a link to a process's descriptor (as /dev/stdout is) or a link to a
+// missing file is refused before the work (ErrNotWritable), naming the
+// option and the path, and stays what it was; a link to a file is
+// checked at its target. All made in the test's folder.
+func TestCheckRefusesStreamsAndDanglingLinks(t *testing.T) {
+	dir := t.TempDir()
+	fifo := filepath.Join(dir, "p.csv")
+	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
+		t.Skipf("no named pipes here: %v", err)
+	}
+	stdout, dangling := filepath.Join(dir, "so.html"), filepath.Join(dir, "d.csv")
+	os.Symlink("/proc/self/fd/1", stdout)
+	os.Symlink(filepath.Join(dir, "missing", "x.csv"), dangling)
+	for _, c := range []struct{ path, want string }{
+		{fifo, "is a named pipe, not a file"},
+		{stdout, "is a link to /proc/self/fd/1, a process's descriptor"},
+		{dangling, "which cannot be followed"},
+	} {
+		before, _ := os.Lstat(c.path)
+		err := Check([]File{{"--out", c.path}}, nil)
+		if !errors.Is(err, ErrNotWritable) || !strings.Contains(err.Error(), "--out "+c.path+" ") || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s: %v, want a refusal that says %q", c.path, err, c.want)
+		}
+		if after, _ := os.Lstat(c.path); after.Mode() != before.Mode() {
+			t.Errorf("%s changed: %v → %v", c.path, before.Mode(), after.Mode())
+		}
+	}
+	target, link := filepath.Join(dir, "t.csv"), filepath.Join(dir, "l.csv")
+	os.WriteFile(target, nil, 0o644)
+	os.Symlink(target, link)
+	if err := Check([]File{{"--out", link}}, nil); err != nil {
+		t.Errorf("a link to a file: %v", err)
 	}
 }
