@@ -110,21 +110,41 @@ func (o *explainOptions) files() (outputs, inputs []outguard.File) {
 		[]outguard.File{{Name: "--model", Path: o.model}, {Name: "--data", Path: o.texts.data}}
 }
 
+// classIndex is the index of the label named class among m's labels, or
+// -1 for "" (the predicted label); another name is a usage error.
+func classIndex(m *cnn.Model, class string) (int, error) {
+	if class == "" {
+		return -1, nil
+	}
+	if c := slices.Index(m.Labels, class); c >= 0 {
+		return c, nil
+	}
+	return -1, usagef("--class %q: the model's labels are %s", clip(class), listed(m.Labels))
+}
+
+// workerTables gives each of the workers a word-slot table of its own,
+// filled text by text: each distinct word's slot scores are computed once
+// per worker, and only for the words the texts use; the workers share the
+// memory bound.
+func workerTables(m *cnn.Model, workers int) ([]*explain.GrowingTable, error) {
+	tables := make([]*explain.GrowingTable, workers)
+	for w := range tables {
+		var err error
+		if tables[w], err = explain.NewGrowingTable(m, explain.DefaultTableBytes/int64(workers)); err != nil {
+			return nil, err
+		}
+	}
+	return tables, nil
+}
+
 func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	m, enc, err := openCNN(o.model)
 	if err != nil {
 		return err
 	}
-	cls := -1
-	if o.class != "" {
-		for c, l := range m.Labels {
-			if l == o.class {
-				cls = c
-			}
-		}
-		if cls < 0 {
-			return usagef("--class %q: the model's labels are %s", clip(o.class), listed(m.Labels))
-		}
+	cls, err := classIndex(m, o.class)
+	if err != nil {
+		return err
 	}
 	paint := o.color == "always"
 	if f, ok := env.Stdout.(*os.File); ok && o.color == "auto" {
@@ -133,15 +153,11 @@ func runExplain(ctx context.Context, env *runEnv, o *explainOptions) error {
 	opt := explain.ExplainOptions{Occlusion: true, OcclusionWidths: o.widths, KeptDown: o.keptDown,
 		IG: o.method == explain.MethodIG || o.asJSON || o.export != ""}
 	// The texts are explained on several goroutines and written in their
-	// order. Each worker has a table of its own, filled text by text: each
-	// distinct word's slot scores are computed once per worker, and only
-	// for the words the texts use; the workers share the memory bound.
+	// order.
 	workers := cmp.Or(o.threads.N, runtime.GOMAXPROCS(0))
-	tables := make([]*explain.GrowingTable, workers)
-	for w := range tables {
-		if tables[w], err = explain.NewGrowingTable(m, explain.DefaultTableBytes/int64(workers)); err != nil {
-			return err
-		}
+	tables, err := workerTables(m, workers)
+	if err != nil {
+		return err
 	}
 	var all []*explain.Explanation
 	var origins []text
