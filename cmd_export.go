@@ -120,7 +120,7 @@ func runExport(ctx context.Context, env *runEnv, o *exportOptions) error {
 	if err := os.MkdirAll(filepath.Dir(o.Out), 0o755); err != nil {
 		return fmt.Errorf("--out %s: %w", o.Out, err)
 	}
-	if err := torchmodel.Export(m, o.Out); err != nil {
+	if err := torchmodel.ExportContext(ctx, m, o.Out); err != nil {
 		return err
 	}
 	s := exportSummary{Files: torchmodel.ExportFiles(m, o.Out), Lower: m.Tokenizer.Lower, Tokenizer: describeTokenizer(m.Tokenizer)}

@@ -1,6 +1,7 @@
 package torchmodel
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"io"
@@ -157,7 +158,11 @@ func CanExport(m *cnn.Model) error {
 // dir's place, so dir never holds a mix of two exports or a part of one.
 // A model whose words or labels contain a line break cannot be written one
 // per line and is refused before anything is written.
-func Export(m *cnn.Model, dir string) (err error) {
+func Export(m *cnn.Model, dir string) error { return ExportContext(context.Background(), m, dir) }
+
+// ExportContext is Export that gives up before the new folder takes dir's
+// place when ctx is done (an interrupt), leaving dir as it was.
+func ExportContext(ctx context.Context, m *cnn.Model, dir string) (err error) {
 	defer func() { err = plain(err) }()
 	if err := CanExport(m); err != nil {
 		return err
@@ -199,6 +204,9 @@ func Export(m *cnn.Model, dir string) (err error) {
 		return fmt.Errorf("torchmodel: %w", err)
 	}
 	if err := writeExport(m, dir); err != nil {
+		return err
+	}
+	if err := ctx.Err(); err != nil {
 		return err
 	}
 	return swapInto(dir, final)

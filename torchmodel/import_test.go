@@ -306,3 +306,32 @@ func FuzzReadVocab(f *testing.F) {
 		}
 	})
 }
+
+// TestExportContextStopped: an export whose context is done by the time
+// its files are written (an interrupt) leaves the earlier export in place
+// and no temporary folder beside it.
+func TestExportContextStopped(t *testing.T) {
+	cfg := cnn.Config{VocabSize: 4, Dim: 2, Widths: []int{2}, Filters: 2, Classes: 2}
+	m, err := cnn.New(cfg, []string{"<pad>", "<unk>", "a", "b"}, []string{"x", "y"}, 5)
+	if err != nil {
+		t.Fatal(err)
+	}
+	parent := t.TempDir()
+	dir := filepath.Join(parent, "exp")
+	if err := Export(m, dir); err != nil {
+		t.Fatal(err)
+	}
+	before, _ := os.ReadFile(filepath.Join(dir, LabelsFile))
+	m.Labels = []string{"p", "q"}
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	if err := ExportContext(ctx, m, dir); !errors.Is(err, context.Canceled) {
+		t.Fatalf("a stopped export: %v, want context.Canceled", err)
+	}
+	if after, _ := os.ReadFile(filepath.Join(dir, LabelsFile)); string(after) != string(before) {
+		t.Errorf("the earlier export's labels became %q", after)
+	}
+	if ents, _ := os.ReadDir(parent); len(ents) != 1 {
+		t.Errorf("%d entries beside the export, want the folder alone", len(ents))
+	}
+}

@@ -35,12 +35,12 @@ func Resolve(path string) (string, error) {
 	if abs, err := filepath.Abs(path); err == nil && descriptor(abs) {
 		return "", fmt.Errorf("%s is a process's descriptor, not a file: give a file's path: %w", path, ErrNotAFile)
 	}
+	if d := viaDescriptor(path); d != "" {
+		return "", fmt.Errorf("%s leads to %s, a process's descriptor, not a file: give a file's path: %w", path, d, ErrNotAFile)
+	}
 	real := path
 	if fi, err := os.Lstat(path); err == nil && fi.Mode()&os.ModeSymlink != 0 {
 		target, _ := os.Readlink(path)
-		if descriptor(target) {
-			return "", fmt.Errorf("%s is a link to %s, a process's descriptor, not a file: give a file's path: %w", path, target, ErrNotAFile)
-		}
 		if real, err = filepath.EvalSymlinks(path); err != nil {
 			return "", fmt.Errorf("%s is a link to %s, which cannot be followed (%v): give the file's own path: %w", path, target, err, ErrNotAFile)
 		}
@@ -50,6 +50,45 @@ func Resolve(path string) (string, error) {
 	}
 	return real, nil
 }
+
+// viaDescriptor is the first of the places path's folder resolves to and
+// each link it follows in turn leads to (at most maxLinks) that is a
+// process's descriptor (descriptor), or "" when none is: a chain of links,
+// or a linked folder, may lead to /proc/self/fd/1 beyond the first link.
+func viaDescriptor(path string) string {
+	cur, err := filepath.Abs(path)
+	if err != nil {
+		return ""
+	}
+	for range maxLinks {
+		if dir, err := filepath.EvalSymlinks(filepath.Dir(cur)); err == nil {
+			if descriptor(dir + string(filepath.Separator)) {
+				return dir
+			}
+			cur = filepath.Join(dir, filepath.Base(cur))
+		}
+		fi, err := os.Lstat(cur)
+		if err != nil || fi.Mode()&os.ModeSymlink == 0 {
+			return ""
+		}
+		target, err := os.Readlink(cur)
+		if err != nil {
+			return ""
+		}
+		if !filepath.IsAbs(target) {
+			target = filepath.Join(filepath.Dir(cur), target)
+		}
+		if descriptor(target) {
+			return target
+		}
+		cur = target
+	}
+	return ""
+}
+
+// maxLinks bounds the links viaDescriptor follows, as the system does (40
+// on Linux).
+const maxLinks = 40
 
 // descriptor reports whether the absolute path p names a process's own
 // descriptor or stream rather than a file.

@@ -5,6 +5,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -98,9 +99,23 @@ func TestWriteThroughLinksRefuseStreams(t *testing.T) {
 	if err := syscallMkfifo(fifo); err != nil {
 		t.Skipf("no named pipes here: %v", err)
 	}
+	// A link to a descriptor of a pipe of the test's own, as /dev/stdout
+	// is a link to /proc/self/fd/1 (so that a regression writes nothing
+	// the test run needs), a chain of links to it, and the descriptor in a
+	// folder linked to /proc/self/fd.
+	r, w, err := os.Pipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	defer w.Close()
+	fd := strconv.Itoa(int(w.Fd()))
 	stdout := filepath.Join(dir, "stdout")
-	os.Symlink("/proc/self/fd/1", stdout)
-	for _, p := range []string{dangling, fifo, stdout} {
+	os.Symlink("/proc/self/fd/"+fd, stdout)
+	chain, fds := filepath.Join(dir, "chain"), filepath.Join(dir, "fds")
+	os.Symlink("stdout", chain)
+	os.Symlink("/proc/self/fd", fds)
+	for _, p := range []string{dangling, fifo, stdout, chain, filepath.Join(fds, fd)} {
 		before, _ := os.Lstat(p)
 		if err := Write(p, content); !errors.Is(err, ErrNotAFile) || !strings.Contains(err.Error(), p) {
 			t.Errorf("%s: %v, want a refusal naming it", p, err)

@@ -106,7 +106,7 @@ func TestCheckRefusesStreamsAndDanglingLinks(t *testing.T) {
 	os.Symlink(filepath.Join(dir, "missing", "x.csv"), dangling)
 	for _, c := range []struct{ path, want string }{
 		{fifo, "is a named pipe, not a file"},
-		{stdout, "is a link to /proc/self/fd/1, a process's descriptor"},
+		{stdout, "leads to /proc/self/fd/1, a process's descriptor"},
 		{dangling, "which cannot be followed"},
 	} {
 		before, _ := os.Lstat(c.path)
