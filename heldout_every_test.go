@@ -11,6 +11,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/heldout"
 	"telltale/internal/wording"
 )
 
@@ -49,8 +50,8 @@ func TestCompareChecksEveryModel(t *testing.T) {
 	all := loadExamples(t, data)
 	rec := loadModelFile(t, a).Info.Splits
 	_, _, aTest := all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
-	inC := inTraining(aTest, cTrain)
-	if inC == 0 || inTraining(&corpus.Dataset{Examples: loadExamples(t, held).Examples}, aTrain) != 0 {
+	inC := heldout.Copies(aTest, cTrain)
+	if inC == 0 || heldout.Copies(&corpus.Dataset{Examples: loadExamples(t, held).Examples}, aTrain) != 0 {
 		t.Fatalf("the files made here do not make the cases: %d texts of a's test split in c's training split", inC)
 	}
 	trainedOnIt := held + " is the data the model was trained on"

@@ -11,6 +11,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/heldout"
 )
 
 // The held-out texts a saved model is evaluated on: a test file that
@@ -98,7 +99,7 @@ func TestEvalSplitWarnsOfAChangedTestFile(t *testing.T) {
 	// split are warned of too, with their count.
 	rec := loadModelFile(t, model).Info.Splits
 	train, _, _ := all.SplitThree(rec.DevFrac, rec.TestFrac, rec.Seed)
-	n := inTraining(&corpus.Dataset{Examples: all.Examples[:100]}, train)
+	n := heldout.Copies(&corpus.Dataset{Examples: all.Examples[:100]}, train)
 	inTrain := fmt.Sprintf("%s %s: %d of its 100 texts are texts of the model's training split", test, mayHoldTraining, n)
 	if n == 0 || ev.N != 100 || !strings.Contains(stderr, "warning: "+test) || !strings.Contains(stderr, changed) ||
 		len(ev.Warnings) != 2 || !strings.Contains(ev.Warnings[0], changed) || !strings.HasPrefix(ev.Warnings[1], inTrain) {
@@ -152,7 +153,7 @@ func TestEvalSplitWarnsOfTrainingTexts(t *testing.T) {
 	ev = evalOutput{}
 	stderr = jsonOf(t, &ev, "eval", "--model", model, "--data", data, "--test", mixed, "--json")
 	train, _, _ := all.SplitThree(m.Info.Splits.DevFrac, m.Info.Splits.TestFrac, m.Info.Splits.Seed)
-	if n := inTraining(&corpus.Dataset{Examples: reversed}, train); n < len(train.Examples) {
+	if n := heldout.Copies(&corpus.Dataset{Examples: reversed}, train); n < len(train.Examples) {
 		t.Fatalf("%d texts of the file counted as training texts, fewer than the %d of the training split", n, len(train.Examples))
 	}
 	if len(ev.Warnings) != 1 || !strings.Contains(ev.Warnings[0], "are texts of the model's training split") ||

@@ -368,11 +368,11 @@ func (es *evalSet) checkTraining(rec *cnn.SplitRecord, name string, same bool, r
 
 // checkShared warns when the test split train held out of data (the
 // model's data, rec its splits) holds texts of the training split as
-// well, copies in data (inTraining: exact, or but for case and
+// well, copies in data (heldout.Copies: exact, or but for case and
 // punctuation), and says so in the note, which calls the split
 // unused for training.
 func (es *evalSet) checkShared(rec *cnn.SplitRecord, data string, r *readOptions) {
-	n := inTraining(es.test, es.train)
+	n := heldout.Copies(es.test, es.train)
 	if n == 0 {
 		return
 	}
@@ -426,17 +426,12 @@ func trainingWarning(rec *cnn.SplitRecord, texts *corpus.Dataset, name string, t
 	if train == nil {
 		return ""
 	}
-	if n := inTraining(texts, train); n > 0 {
+	if n := heldout.Copies(texts, train); n > 0 {
 		return fmt.Sprintf("%s %s: %d of its %s are texts of the model's training split (or copies but for case and punctuation), so its figures are not all held-out figures",
 			name, mayHoldTraining, n, wording.Texts(len(texts.Examples)))
 	}
 	return ""
 }
-
-// inTraining counts the texts of test that are also texts of train, or
-// copies of one but for case, spacing and punctuation (heldout.Copies, the
-// window's count too).
-func inTraining(test, train *corpus.Dataset) int { return heldout.Copies(test, train) }
 
 // changedSince is a warning when ds, read from the model's recorded dev or
 // test file at path (which says which), is not what train read there (its

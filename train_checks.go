@@ -8,6 +8,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/heldout"
 	"telltale/internal/wording"
 )
 
@@ -53,7 +54,7 @@ type heldInTraining struct {
 }
 
 // heldTextsInTraining says, for the dev split and the test split, how
-// many of their texts are also texts of the training split (inTraining,
+// many of their texts are also texts of the training split (heldout.Copies,
 // exact copies or copies but for case and punctuation): such a test split's
 // figures are not held-out figures, and such a dev split chooses the epoch
 // on texts the model learned. A split given as a file (--dev, --test) is
@@ -69,7 +70,7 @@ func (o *trainOptions) heldTextsInTraining(sp *splits) heldInTraining {
 		{"--dev", o.split.Dev, "dev", "the epoch it chooses is chosen on texts the model learned", sp.dev, &h.dev},
 		{"--test", o.split.Test, "test", "its figures are not held-out figures", sp.test, &h.test},
 	} {
-		if *f.n = inTraining(f.ds, sp.train); *f.n == 0 {
+		if *f.n = heldout.Copies(f.ds, sp.train); *f.n == 0 {
 			continue
 		}
 		if f.path == "" {
