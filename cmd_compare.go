@@ -266,7 +266,7 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 		return writeJSON(env.Stdout, rows)
 	}
 	w := env.Stdout
-	fmt.Fprintf(w, "%g%% intervals: Wilson for accuracy and the flipped share, bootstrap over texts for F1s and ECE, exact for an F1 the texts pin\n\n", 100*cnn.IntervalLevel)
+	fmt.Fprintf(w, "%g%% intervals: Wilson for accuracy and the flipped share, bootstrap over texts for F1s and ECE, exact for an F1 with under 10 errors or right texts\n\n", 100*cnn.IntervalLevel)
 	table := [][]string{{"model", "accuracy", "macro-F1", "weighted-F1", "ECE", "flipped"}}
 	marked := false
 	for i, r := range rows {

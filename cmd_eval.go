@@ -22,10 +22,11 @@ Wilson interval, macro-F1 with its 95% bootstrap interval over texts,
 per-class precision and recall (Wilson intervals) and F1 with support,
 weighted-F1, the confusion matrix (rows: gold label, columns: predicted)
 and the expected calibration error over equal-width confidence bins, with
-bootstrap intervals. Where the texts pin an F1 (a class with no error or
-nothing right, so every resample gives the same value), its interval is an
-exact Clopper–Pearson one instead, and so is the macro- or weighted-F1's
-when all of its classes are pinned. When the model
+bootstrap intervals. Where a class has fewer than 10 errors or fewer than
+10 right texts, the bootstrap is too narrow (its resamples hold only the
+few errors seen), so its F1's interval is an exact Clopper–Pearson one
+instead, and the macro-F1's is an exact bound; so is the weighted F1's
+where fewer than 10 texts in all are errors or right. When the model
 file carries the linear baseline train fits beside the CNN, the baseline's
 accuracy and macro-F1 are shown beside the CNN's, with the exact McNemar
 test between the two, and what to try where the baseline is significantly
@@ -259,7 +260,7 @@ func argmax(p []float32) int {
 // writeMetrics prints an evaluation as readable tables, after the
 // figures writeFigures prints, each measured figure with its interval iv.
 func writeMetrics(w io.Writer, m cnn.Metrics, iv cnn.MetricIntervals, bins int) {
-	fmt.Fprintf(w, "weighted-F1 %s   ECE %s (%d bins)   (%g%% intervals: Wilson for precision and recall, bootstrap over texts for F1 and ECE, exact for an F1 the texts pin)\n\n",
+	fmt.Fprintf(w, "weighted-F1 %s   ECE %s (%d bins)   (%g%% intervals: Wilson for precision and recall, bootstrap over texts for F1 and ECE, exact for an F1 with under 10 errors or right texts)\n\n",
 		iv.WeightedF1, eceText(m.ECE, iv.ECE), bins, 100*cnn.IntervalLevel)
 	width := 5
 	for i, l := range m.Labels {

@@ -177,7 +177,7 @@ func basicInterval(est float64, sorted []float64, level float64) Interval {
 // headline's (accuracy and macro-F1, in Figures): weighted F1, ECE and every
 // class's precision, recall and F1, all at IntervalLevel.
 type MetricIntervals struct {
-	WeightedF1 Interval `json:"weighted_f1"` // percentile bootstrap over texts; exact bound where no text or every text is an error (F1IntervalsOf)
+	WeightedF1 Interval `json:"weighted_f1"` // percentile bootstrap over texts; exact bound where fewer than 10 texts are errors or right (F1IntervalsOf)
 	// ECE is BootstrapECE (the bias-corrected ECE with its basic
 	// bootstrap interval over texts) beside the ECE of the texts, with the
 	// p-value of CalibrationTest; nil when the metrics carry no
@@ -210,7 +210,7 @@ func shareInterval(k, n int) Interval {
 
 // IntervalsOf is the intervals of m's figures: Wilson for each class's
 // precision and recall, F1IntervalsOf for the F1s (BootstrapF1s, with
-// exact intervals where the texts pin a figure) and BootstrapECE with
+// exact intervals where a class has few errors or few right texts) and BootstrapECE with
 // CalibrationTest for the ECE (with the bins m was computed with), each with
 // BootstrapResamples resamples seeded by BootstrapSeed, as HeadlineOf.
 // Each Estimate is m's own figure, but the ECE's, which is corrected for

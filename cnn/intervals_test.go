@@ -72,15 +72,16 @@ func correctOf(gold, pred []int) []bool {
 }
 
 // IntervalsOf: Wilson on each class's precision (right of predicted) and
-// recall (right of gold), the bootstrap's F1s, and the ECE only when the
-// metrics carry confidences.
+// recall (right of gold), F1IntervalsOf's F1s (here every class thin, so
+// the exact intervals), and the ECE only when the metrics carry
+// confidences.
 func TestIntervalsOf(t *testing.T) {
 	gold := []int{0, 0, 0, 1, 1, 1, 1, 2, 2, 2}
 	pred := []int{0, 0, 1, 1, 1, 1, 2, 2, 2, 0}
 	conf := []float64{0.9, 0.8, 0.6, 0.7, 0.95, 0.5, 0.4, 0.85, 0.75, 0.55}
 	m := ComputeMetrics([]string{"a", "b", "c"}, gold, pred, conf, 5)
 	iv := IntervalsOf(m)
-	f := BootstrapF1s(m.Confusion, BootstrapResamples, IntervalLevel, BootstrapSeed)
+	f := F1IntervalsOf(m.Confusion, BootstrapResamples, IntervalLevel, BootstrapSeed)
 	// Class b: 3 right of 4 predicted b, 3 right of 4 gold b.
 	if iv.PerClass[1].Precision != WilsonInterval(3, 4, IntervalLevel) || iv.PerClass[1].Recall != WilsonInterval(3, 4, IntervalLevel) ||
 		iv.PerClass[1].F1 != f.PerClass[1] || iv.PerClass[1].Label != "b" || iv.WeightedF1 != f.Weighted {

@@ -530,8 +530,8 @@ func quantileSorted(xs []float64, q float64) float64 {
 
 // Headline is what a user acts on of a classifier on a labeled split: its
 // accuracy with the Wilson interval and its macro-F1 with the bootstrap
-// interval over texts, or its exact bound where the texts pin it
-// (MacroF1IntervalOf), both at IntervalLevel.
+// interval over texts, or its exact bound where a class has few errors or
+// few right texts (MacroF1IntervalOf), both at IntervalLevel.
 type Headline struct {
 	N        int      `json:"n"`
 	Accuracy Interval `json:"accuracy"`
@@ -540,7 +540,7 @@ type Headline struct {
 
 // HeadlineOf is the headline of m: the Wilson interval of its accuracy and
 // MacroF1IntervalOf its confusion matrix (BootstrapMacroF1, or the exact
-// bound where every class present has no error or nothing right) with
+// bound where a class present is thin: fewer than 10 errors or 10 right) with
 // BootstrapResamples resamples seeded by BootstrapSeed.
 func HeadlineOf(m Metrics) Headline {
 	right := 0
