@@ -1,6 +1,7 @@
 // Package atomicfile writes files so that a reader never sees a partial one:
 // the content goes to a temporary file in the destination's folder, which is
-// synced, given the usual permissions and renamed over the destination. A
+// synced, given the replaced file's permissions (or, for a new file, those
+// os.Create gives) and renamed over the destination. A
 // failure at any step removes the temporary file and leaves the destination
 // as it was.
 //
@@ -14,8 +15,11 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 )
 
@@ -125,10 +129,16 @@ func Write(path string, write func(io.Writer) error) error {
 }
 
 // writeFile writes the regular file (or the new file) at path through a
-// temporary file renamed over it.
+// temporary file renamed over it. A file replaced keeps its permissions
+// (a private file stays private); a new one gets those os.Create gives,
+// 0666 less the process's umask.
 func writeFile(path string, write func(io.Writer) error) (err error) {
 	dir := filepath.Dir(path)
-	f, err := os.CreateTemp(dir, "."+filepath.Base(path)+".*.tmp")
+	var keep os.FileMode
+	if fi, serr := os.Stat(path); serr == nil && fi.Mode().IsRegular() {
+		keep = fi.Mode().Perm()
+	}
+	f, err := createTemp(dir, "."+filepath.Base(path)+".")
 	if err != nil {
 		return fmt.Errorf("%s: %w (is the folder there and writable?)", path, err)
 	}
@@ -142,8 +152,10 @@ func writeFile(path string, write func(io.Writer) error) (err error) {
 	if err = write(f); err != nil {
 		return fmt.Errorf("writing %s: %w", path, err)
 	}
-	if err = f.Chmod(0o644); err != nil {
-		return fmt.Errorf("writing %s: %w", path, err)
+	if keep != 0 {
+		if err = f.Chmod(keep); err != nil {
+			return fmt.Errorf("writing %s: %w", path, err)
+		}
 	}
 	if err = f.Sync(); err != nil {
 		return fmt.Errorf("writing %s: %w", path, err)
@@ -159,4 +171,18 @@ func writeFile(path string, write func(io.Writer) error) (err error) {
 		d.Close()
 	}
 	return nil
+}
+
+// createTemp creates a new file dir/prefix<random>.tmp for writing, as
+// os.CreateTemp does but with mode 0666 less the umask (os.CreateTemp's is
+// 0600), so that a new destination gets the permissions os.Create gives.
+func createTemp(dir, prefix string) (*os.File, error) {
+	for range 10000 {
+		name := filepath.Join(dir, prefix+strconv.FormatUint(uint64(rand.Uint32()), 10)+".tmp")
+		f, err := os.OpenFile(name, os.O_RDWR|os.O_CREATE|os.O_EXCL, 0o666)
+		if !errors.Is(err, fs.ErrExist) {
+			return f, err
+		}
+	}
+	return nil, &fs.PathError{Op: "createtemp", Path: filepath.Join(dir, prefix+"*.tmp"), Err: fs.ErrExist}
 }

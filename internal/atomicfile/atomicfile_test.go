@@ -28,14 +28,15 @@ func TestWrite(t *testing.T) {
 	if b, _ := os.ReadFile(p); string(b) != "old" {
 		t.Fatalf("after a failed write the file holds %q", b)
 	}
-	// A good write replaces it, readable by others.
+	// A good write replaces it and keeps its permissions: a private file
+	// stays private.
 	if err := Write(p, func(w io.Writer) error { _, err := io.WriteString(w, "new"); return err }); err != nil {
 		t.Fatal(err)
 	}
 	b, _ := os.ReadFile(p)
 	st, _ := os.Stat(p)
-	if string(b) != "new" || st.Mode().Perm() != 0o644 {
-		t.Fatalf("file holds %q with mode %v", b, st.Mode().Perm())
+	if string(b) != "new" || st.Mode().Perm() != 0o600 {
+		t.Fatalf("file holds %q with mode %v, want 0600 as before", b, st.Mode().Perm())
 	}
 	ents, _ := os.ReadDir(dir)
 	if len(ents) != 1 {

@@ -1,0 +1,55 @@
+//go:build unix
+
+package atomicfile
+
+import (
+	"io"
+	"os"
+	"path/filepath"
+	"syscall"
+	"testing"
+)
+
+// A new file gets 0666 less the umask, as os.Create gives (POSIX open(2):
+// the mode is masked by the process's umask; common practice, no source
+// beyond the standard); a replaced one keeps its own mode whatever the
+// umask. Not parallel: the umask is the process's.
+func TestWritePermissions(t *testing.T) {
+	dir := t.TempDir()
+	for _, c := range []struct {
+		umask    int
+		existing os.FileMode // 0: a new file
+		want     os.FileMode
+	}{
+		{0o022, 0, 0o644},
+		{0o077, 0, 0o600},
+		{0o002, 0, 0o664},
+		{0o022, 0o600, 0o600},
+		{0o077, 0o644, 0o644},
+		{0o022, 0o640, 0o640},
+	} {
+		p := filepath.Join(dir, "out.txt")
+		os.Remove(p)
+		if c.existing != 0 {
+			if err := os.WriteFile(p, []byte("old"), c.existing); err != nil {
+				t.Fatal(err)
+			}
+			if err := os.Chmod(p, c.existing); err != nil {
+				t.Fatal(err)
+			}
+		}
+		old := syscall.Umask(c.umask)
+		err := Write(p, func(w io.Writer) error { _, err := io.WriteString(w, "new"); return err })
+		syscall.Umask(old)
+		if err != nil {
+			t.Fatal(err)
+		}
+		st, err := os.Stat(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if st.Mode().Perm() != c.want {
+			t.Errorf("umask %03o, existing %v: mode %v, want %v", c.umask, c.existing, st.Mode().Perm(), c.want)
+		}
+	}
+}
