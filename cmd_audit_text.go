@@ -176,6 +176,9 @@ func (v *auditView) writeList(w io.Writer, title string, cs []audit.Candidate) {
 		for _, s := range ev.Signals {
 			line("", "· "+s)
 		}
+		if ev.Shift != "" {
+			line("label share", ev.Shift)
+		}
 		if ev.Filters != "" {
 			line("filters", ev.Filters)
 		}

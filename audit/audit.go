@@ -206,8 +206,12 @@ type Candidate struct {
 	// NotRuledOut says what the flips' interval leaves open.
 	ConfidenceOnly bool `json:"confidence_only,omitempty"`
 	// Shift is question 4: the cue's label share in the selection half of
-	// the held-out split.
-	Shift *Shift `json:"shift,omitempty"`
+	// the held-out split (a reason the cue is chosen); ShiftConfirmed the
+	// same on the confirmation half, which took no part in choosing it:
+	// the figure shown of a shift (ConfirmedShiftSays; nil when no
+	// confirming text holds the cue).
+	Shift          *Shift          `json:"shift,omitempty"`
+	ShiftConfirmed *ConfirmedShift `json:"shift_confirmed,omitempty"`
 	// Filters keyed on it, with their ablation.
 	Filters *Filters `json:"filters,omitempty"`
 	// Score = LabelDrop (selection half, at least 0) × ArtifactLikeness.
@@ -253,6 +257,34 @@ type Shift struct {
 	Q float64 `json:"q"`
 	// Present: Q < 0.01 and the held-out share is lower.
 	Present bool `json:"present"`
+}
+
+// ConfirmedShift is a cue's label share among the confirmation half's
+// texts holding it, against training: the figure a person reads of the
+// shift of a cue acted on, since the selection half's (Shift) took part
+// in choosing the cue and, chosen for its extreme share, tends to come out
+// lower than it is (regression to the mean).
+type ConfirmedShift struct {
+	// Texts are the confirmation half's texts holding the cue, InLabel
+	// those of them in its label; Share is InLabel/Texts with its exact
+	// 95% Clopper–Pearson interval; TrainShare the training split's share.
+	Texts      int      `json:"texts"`
+	InLabel    int      `json:"in_label"`
+	Share      Interval `json:"share"`
+	TrainShare float64  `json:"train_share"`
+	// P is the one-sided Fisher exact test that the share is lower than in
+	// training (the 2×2 table split × (in the cue's label or not) over the
+	// texts holding it).
+	P float64 `json:"p_lower"`
+	// Holm is P adjusted by Holm's step-down method over the Family cues
+	// put to the test on the confirmation half whose selection half shows
+	// a shift (Shift.Present): a family fixed before the confirmation half
+	// is read, which holds every such cue acted on. Family is 0 (absent
+	// from JSON) for a cue outside it, and Holm with it. Lower: in it,
+	// Holm ≤ 0.05 and the share lower.
+	Holm   float64 `json:"holm_p,omitempty"`
+	Family int     `json:"holm_family,omitempty"`
+	Lower  bool    `json:"lower"`
 }
 
 // Result is the audit of one model.
@@ -665,13 +697,15 @@ func (a *auditor) heldoutPasses(ctx context.Context, cands []*Candidate) error {
 	a.shifts(cands)
 	for _, c := range cands {
 		c.ArtifactLikeness = artifactScore(c.Signals)
+		c.ShiftConfirmed = a.confirmedShiftOf(c) // shown, never used to choose or rank
 	}
 	a.progress("held-out", 2, 2)
 	return nil
 }
 
-// shiftSays opens the shift signal's reason; the story says the shift
-// apart only when the reasons it lists leave this one out.
+// shiftSays opens the shift signal's reason, which names the choosing
+// half: its share is a reason the cue was chosen, never the evidence
+// shown of it (ConfirmedShift).
 const shiftSays = "in the choosing half of the test texts"
 
 // shiftAlpha is the false discovery rate at which a shift counts.
@@ -753,6 +787,55 @@ func (a *auditor) shiftSignal(c *Candidate, tested int) {
 			pct(s.HeldoutShare), c.Label, pct(s.TrainShare), pval(s.P), pval(s.Q), tested)
 	}
 	c.Signals = append(c.Signals, Signal{Name: SignalShift, Value: max(0, v), Weight: signalWeights[SignalShift], Says: says})
+}
+
+// confirmedShiftAlpha is the family-wise error rate (Holm) at which the
+// confirmation half shows a cue's label share lower than in training.
+const confirmedShiftAlpha = 0.05
+
+// confirmedShiftOf counts the confirmation half's texts holding c and those
+// in its label, and tests them against training (one-sided Fisher: lower
+// than in training); nil when none holds it. Holm, Family and Lower are
+// left to confirmedShifts.
+func (a *auditor) confirmedShiftOf(c *Candidate) *ConfirmedShift {
+	in, n := 0, 0
+	for _, i := range texts(c.confOcc) {
+		n++
+		if a.conf.Gold[i] == c.Class {
+			in++
+		}
+	}
+	if n == 0 {
+		return nil
+	}
+	iv := cnn.ClopperPearsonInterval(in, n, 0.95)
+	ta := c.Association
+	// The training row first: FisherGreater's alternative, the training
+	// texts holding more of the label, is the confirming share's being lower.
+	return &ConfirmedShift{Texts: n, InLabel: in, Share: Interval{Estimate: iv.Estimate, Low: iv.Low, High: iv.High},
+		TrainShare: ta.Share, P: FisherGreater(ta.InLabel, ta.Texts-ta.InLabel, in, n-in)}
+}
+
+// confirmedShifts corrects the confirmation half's shift tests by Holm
+// (1979, "A simple sequentially rejective multiple test procedure", Scand.
+// J. Statist. 6:65–70; explain.Holm) over cs, the cues put to the test
+// there whose selection half shows a shift, and sets Lower.
+func confirmedShifts(cs []*Candidate) {
+	var family []*ConfirmedShift
+	for _, c := range cs {
+		if c.Shift != nil && c.Shift.Present && c.ShiftConfirmed != nil {
+			family = append(family, c.ShiftConfirmed)
+		}
+	}
+	ps := make([]float64, len(family))
+	for k, s := range family {
+		ps[k] = s.P
+	}
+	for k, q := range explain.Holm(ps) {
+		s := family[k]
+		s.Holm, s.Family = q, len(family)
+		s.Lower = q <= confirmedShiftAlpha && s.Share.Estimate < s.TrainShare
+	}
 }
 
 // neutralWords are the label-neutral words edits put in: words of letters

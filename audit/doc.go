@@ -48,7 +48,11 @@
 //     signal among the others; the confirmation half takes no part in it;
 //     two-sided Fisher, Benjamini–Hochberg over the candidates tested, q
 //     below 0.01, so that no chance shift among hundreds makes a cue
-//     artifact-like).
+//     artifact-like). That share took part in choosing the cue, so the
+//     share shown of a shift is the confirmation half's (ConfirmedShift:
+//     exact Clopper–Pearson interval, one-sided Fisher against training,
+//     Holm over the cues put to the test there whose selection half shows
+//     a shift).
 //
 // # Two halves
 //
@@ -100,8 +104,10 @@
 //	            net_flip_rate, prob_drop, label_drop, decided, p, flip_p, …}
 //	            (confirmation half; reliance_selection: the same on the
 //	            selection half), shift {heldout_texts, heldout_share,
-//	            train_share, p, q, present} (selection half), filters {keyed,
-//	            ablation}, score, mark,
+//	            train_share, p, q, present} (selection half),
+//	            shift_confirmed {texts, in_label, share, train_share,
+//	            p_lower, holm_p, holm_family, lower} (confirmation half: the
+//	            share shown), filters {keyed, ablation}, score, mark,
 //	            verdict, confidence_only, pattern
 //	relied_on_reads_like_the_task[]   the same fields
 //	action      cues, patterns, counterfactual {accuracy, accuracy_without,

@@ -242,9 +242,12 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 		}
 	}
 	ps := make([]float64, len(put))
+	shifted := make([]*Candidate, len(put))
 	for i, k := range put {
 		ps[i] = res.Ranked[k].Confirmed.P
+		shifted[i] = &res.Ranked[k]
 	}
+	confirmedShifts(shifted)
 	for i, q := range BenjaminiHochberg(ps) {
 		res.Ranked[put[i]].settle(q, a.opt.RelianceAlpha)
 	}

@@ -1,6 +1,7 @@
 package audit
 
 import (
+	"encoding/json"
 	"strings"
 	"testing"
 
@@ -43,6 +44,10 @@ func TestShiftChoosingHalfOnly(t *testing.T) {
 		sig := c.signal(SignalShift)
 		if sig.Value != 0 || !strings.Contains(sig.Says, "choosing half") {
 			t.Errorf("shift signal %+v: want 0, said of the choosing half", sig)
+		}
+		// The share shown is the confirming half's, counted apart.
+		if cs := a.confirmedShiftOf(c); cs == nil || cs.Texts != 20 || cs.InLabel != confIn {
+			t.Errorf("confirming texts %d of 20 in the label: confirmed shift %+v", confIn, cs)
 		}
 	}
 }
@@ -124,5 +129,147 @@ func TestShiftBenjaminiHochberg(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// confirmingTexts is a confirmation half for the shift tests: n texts, the
+// first inLabel of them in label 0, the rest in label 1, each holding the
+// cue once (text 0 twice, which counts once).
+func confirmingTexts(n, inLabel int) (Data, []span) {
+	d := Data{Gold: make([]int, n)}
+	var occ []span
+	for i := range n {
+		if i >= inLabel {
+			d.Gold[i] = 1
+		}
+		occ = append(occ, span{text: int32(i), start: 0, end: 1})
+		if i == 0 {
+			occ = append(occ, span{text: 0, start: 2, end: 3})
+		}
+	}
+	return d, occ
+}
+
+// The confirming half's label share of a cue counts its texts, not its
+// occurrences, in the cue's class (the counts are those of the
+// construction, so the arithmetic is checked by hand; the test and the
+// interval are checked against SciPy in TestConfirmedShiftSciPy). A cue
+// absent from the confirming half has none.
+func TestConfirmedShiftCounts(t *testing.T) {
+	cases := []struct {
+		name          string
+		n, inLabel    int
+		class         int
+		wantN, wantIn int
+	}{
+		{"3 of 20 in label 0", 20, 3, 0, 20, 3},
+		{"the other label: 17 of 20", 20, 3, 1, 20, 17},
+		{"all in its label", 6, 6, 0, 6, 6},
+		{"one text, held twice", 1, 0, 0, 1, 0},
+		{"absent", 0, 0, 0, 0, 0},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			conf, occ := confirmingTexts(tc.n, tc.inLabel)
+			a := &auditor{conf: conf}
+			c := &Candidate{Class: tc.class, confOcc: occ, Association: CueAssociation{Texts: 100, InLabel: 90, Share: 0.9}}
+			s := a.confirmedShiftOf(c)
+			if tc.wantN == 0 {
+				if s != nil {
+					t.Fatalf("a cue no confirming text holds has a confirmed shift %+v", s)
+				}
+				return
+			}
+			if s == nil {
+				t.Fatal("no confirmed shift")
+			}
+			if s.Texts != tc.wantN || s.InLabel != tc.wantIn || s.Share.Estimate != float64(tc.wantIn)/float64(tc.wantN) || s.TrainShare != 0.9 {
+				t.Errorf("%d of %d texts in the label, share %v, training %v; want %d of %d, training 0.9",
+					s.InLabel, s.Texts, s.Share.Estimate, s.TrainShare, tc.wantIn, tc.wantN)
+			}
+			if !(s.Share.Low <= s.Share.Estimate && s.Share.Estimate <= s.Share.High) {
+				t.Errorf("share %+v outside its interval", s.Share)
+			}
+			if s.Family != 0 || s.Holm != 0 || s.Lower {
+				t.Errorf("the Holm figures are set before the family is: %+v", s)
+			}
+		})
+	}
+}
+
+// The confirming half's one-sided test (its share lower than in training)
+// and its share's interval against SciPy 1.10 (Debian's python3-scipy),
+// run live: scipy.stats.fisher_exact([[in, out], [train in, train out]],
+// alternative="less"), the confirming row first, so that the test's
+// direction is checked as well as its value, and
+// scipy.stats.binomtest(in, n).proportion_ci(0.95, method="exact").
+// Relative tolerance 1e-9 (both sum the same hypergeometric terms and
+// invert the same incomplete beta function in float64), absolute floor
+// 1e-300 for values that underflow. The cases: a strong fall, a weak one,
+// a higher share (p near 1), none in the label, and large counts.
+func TestConfirmedShiftSciPy(t *testing.T) {
+	cases := [][4]int{ // training in its label, training texts, confirming in its label, confirming texts
+		{90, 100, 3, 20}, {180, 200, 1, 5}, {20, 200, 4, 5}, {50, 50, 0, 12}, {576, 672, 40, 60}, {7, 14, 3, 6}, {4100, 4150, 300, 400},
+	}
+	var ref []refCase
+	for _, c := range cases {
+		ref = append(ref, refCase{"fisher-less", []any{c[2], c[3] - c[2], c[0], c[1] - c[0]}}, refCase{"exact", []any{c[2], c[3]}})
+	}
+	want := scipyRef(t, ref)
+	for i, c := range cases {
+		var p float64
+		var ci [2]float64
+		if err := json.Unmarshal(want[2*i], &p); err != nil {
+			t.Fatal(err)
+		}
+		if err := json.Unmarshal(want[2*i+1], &ci); err != nil {
+			t.Fatal(err)
+		}
+		conf, occ := confirmingTexts(c[3], c[2])
+		a := &auditor{conf: conf}
+		s := a.confirmedShiftOf(&Candidate{Class: 0, confOcc: occ,
+			Association: CueAssociation{Texts: c[1], InLabel: c[0], Share: float64(c[0]) / float64(c[1])}})
+		if !testref.Close(s.P, p, 1e-300, 1e-9) {
+			t.Errorf("%v: one-sided p %.17g, SciPy %.17g", c, s.P, p)
+		}
+		if !testref.Close(s.Share.Low, ci[0], 1e-12, 1e-9) || !testref.Close(s.Share.High, ci[1], 1e-12, 1e-9) {
+			t.Errorf("%v: share interval [%.12g, %.12g], SciPy [%.12g, %.12g]", c, s.Share.Low, s.Share.High, ci[0], ci[1])
+		}
+	}
+}
+
+// The confirming half's tests are corrected by Holm (1979) over the cues
+// put to the test whose choosing half shows a shift, and only those: with
+// p = 0.01, 0.04 and 0.03 the step-down gives 3·0.01 = 0.03, then
+// max(0.03, 2·0.03) = 0.06 for 0.03 and max(0.06, 1·0.04) = 0.06 for
+// 0.04 (worked by hand from Holm's definition), so only the first is lower
+// at 0.05; a cue without a shift, or absent from the confirming half, is
+// outside the family, and a share at the training one is never lower.
+func TestConfirmedShiftHolm(t *testing.T) {
+	cue := func(p, share float64, present bool) *Candidate {
+		return &Candidate{Shift: &Shift{Present: present},
+			ShiftConfirmed: &ConfirmedShift{P: p, Share: Interval{Estimate: share}, TrainShare: 0.9}}
+	}
+	cs := []*Candidate{cue(0.01, 0.5, true), cue(0.04, 0.5, true), cue(0.001, 0.5, false), cue(0.03, 0.5, true),
+		{Shift: &Shift{Present: true}}}
+	confirmedShifts(cs)
+	want := []struct {
+		holm   float64
+		family int
+		lower  bool
+	}{{0.03, 3, true}, {0.06, 3, false}, {0, 0, false}, {0.06, 3, false}}
+	for k, w := range want {
+		s := cs[k].ShiftConfirmed
+		if !testref.Close(s.Holm, w.holm, 1e-15, 1e-12) || s.Family != w.family || s.Lower != w.lower {
+			t.Errorf("cue %d (p %v): Holm %v over %d, lower %v; want %v over %d, lower %v", k, s.P, s.Holm, s.Family, s.Lower, w.holm, w.family, w.lower)
+		}
+	}
+	if cs[4].ShiftConfirmed != nil {
+		t.Errorf("a cue absent from the confirming half got %+v", cs[4].ShiftConfirmed)
+	}
+	same := []*Candidate{cue(0.001, 0.9, true)}
+	confirmedShifts(same)
+	if s := same[0].ShiftConfirmed; s.Lower || s.Family != 1 {
+		t.Errorf("a share equal to training's: %+v, want not lower, family 1", s)
 	}
 }

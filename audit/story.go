@@ -180,6 +180,43 @@ func (c *Candidate) measuredWhy() string {
 	return strings.Join(says, "; ")
 }
 
+// ConfirmedShiftSays words the confirmation half's label share of a cue
+// whose selection half shows a shift (c.ShiftConfirmed, in its Holm
+// family): its count, its share with the exact interval, the one-sided
+// test against training, and plainly when that half does not show the
+// share lower. It is "" for a cue outside the family. The story, the
+// command line and the report show it.
+func (c *Candidate) ConfirmedShiftSays() string {
+	share, test := c.confirmedShiftParts()
+	if share == "" {
+		return ""
+	}
+	return share + " " + test
+}
+
+// confirmedShiftParts is ConfirmedShiftSays in two parts, the figure with
+// the finding and the test with what follows, that the story writes on
+// two lines (the window's reflow joins them again).
+func (c *Candidate) confirmedShiftParts() (share, test string) {
+	s := c.ShiftConfirmed
+	if s == nil || s.Family == 0 {
+		return "", ""
+	}
+	share = fmt.Sprintf("On the confirming half, %d of the %d texts holding it are %s, %s, against %s in training:",
+		s.InLabel, s.Texts, c.Label, interval(s.Share), fmtPct(s.TrainShare))
+	test = fmt.Sprintf("(one-sided Fisher p = %s; Holm p = %s over the %d cues whose shift it tests)", pval(s.P), pval(s.Holm), s.Family)
+	if s.Family == 1 {
+		test = fmt.Sprintf("(one-sided Fisher p = %s, the one cue whose shift it tests)", pval(s.P))
+	}
+	switch {
+	case s.Lower:
+		return share + " lower beyond chance", test + "."
+	case s.Share.Estimate < s.TrainShare:
+		return share + " not lower beyond chance", test + ", so the confirming half does not show the shift."
+	}
+	return share + " no lower", test + ", so the confirming half does not show the shift."
+}
+
 // NotRuledOut says, for a ConfidenceOnly cue, what the confirmation half
 // does not rule out: the model's confidence in the cue's label rests on it
 // there though no prediction changed (or none measurably beyond the
@@ -259,11 +296,10 @@ func (r *Result) writeStory(w io.Writer) {
 				p("     (%s fixed, %d broken, two-sided exact McNemar p = %s).\n",
 					wording.Count(cf.Fixed, "prediction", "predictions"), cf.Broken, pval(cf.P))
 			}
-			// The shift is said once: in the reasons above when it is among
-			// the strongest signals, else here.
-			if s := c.Shift; s != nil && s.Present && !strings.Contains(why, shiftSays) {
-				p("     The choosing half shows it is not the task: there %s of the texts holding it are %s, against %s in training.\n",
-					fmtPct(s.HeldoutShare), c.Label, fmtPct(s.TrainShare))
+			// A shift found on the choosing half (among the reasons above or
+			// not) is shown as the confirming half measures it.
+			if share, test := c.confirmedShiftParts(); share != "" {
+				p("     %s\n     %s\n", share, test)
 			}
 		}
 		if cf := r.Action.Counterfactual; cf != nil {
@@ -478,7 +514,8 @@ func provenance(one bool) string {
 	}
 	return fmt.Sprintf("The choosing half of the test texts chose %s; the tests on the confirming half decided that %s %s acted on,\n"+
 		"and every reliance and accuracy figure above comes from that half: what passed those tests (a new test file measures\n"+
-		"them afresh); the association figures come from the training split and the label shift from the choosing half.",
+		"them afresh); the association figures come from the training split, and a label share in the choosing half only says why\n"+
+		"a cue was chosen.",
 		it, they, map[bool]string{true: "is", false: "are"}[one])
 }
 
@@ -579,6 +616,9 @@ func (r *Result) WriteText(w io.Writer) error {
 		"several times (the cue replaced by neutral words, or the same words put elsewhere)")
 	p("  A half measures a cue, its reliance and its words' part in the word weights, only when at least %d of its texts hold it;\n", minCueTexts)
 	p("  the word part's interval is a 95%% percentile bootstrap over texts, too narrow, as a rule, over few more than that.\n")
+	p("  Label shift: a cue's label share in the choosing half (two-sided Fisher test, Benjamini–Hochberg over the cues there) is a\n")
+	p("  signal that chooses it; the share shown is the confirming half's, with its exact Clopper–Pearson 95%% interval and the\n")
+	p("  one-sided Fisher test of its being lower than in training, Holm over the cues put to the test that shifted in the choosing half.\n")
 	p("  %s.\n  %s.\n", r.ArtifactFormula, r.ScoreFormula)
 	return bw.Flush()
 }
@@ -614,6 +654,9 @@ func (r *Result) writeCue(w io.Writer, n int, c *Candidate) {
 		}
 	}
 	p("\n")
+	if says := c.ConfirmedShiftSays(); says != "" {
+		p("   label share: %s\n", says)
+	}
 	if f := c.Filters; f != nil && f.Ablation != nil {
 		ab := f.Ablation
 		p("   filters reading it: %s; masked%s: accuracy %s → %s (%d fixed, %d broken, one-sided exact McNemar p = %s), %d of its %d texts change\n",

@@ -214,7 +214,7 @@ func TestStoryNamesTheHalves(t *testing.T) {
 		"on the 25 of them that hold it:",
 		"The choosing half of the test texts chose it; the tests on the confirming half decided that it is acted on,\n" +
 			"and every reliance and accuracy figure above comes from that half: what passed those tests",
-		"the association figures come from the training split and the label shift from the choosing half.",
+		"the association figures come from the training split, and a label share in the choosing half only says why\na cue was chosen.",
 		"Masking filters 3, chosen on the choosing half, helps on the confirming half",
 		"on texts that took no part in\nchoosing it: the confirming half (as telltale audit --retrain does) or a new test file.",
 	} {
@@ -457,5 +457,75 @@ func checkStory(t *testing.T, name, story string, want, not []string) {
 		if strings.Contains(story, w) {
 			t.Errorf("%s: the story says %q:\n%s", name, w, story)
 		}
+	}
+}
+
+// A cue acted on whose choosing half shows a shift has its label share
+// shown as the confirming half measures it, with its interval and its
+// test, and said plainly when that half does not show it lower; the
+// choosing half's share, which took part in choosing the cue, is not
+// shown as evidence. The figures are invented; the wording is what is
+// checked (the test's values against SciPy: TestConfirmedShiftSciPy).
+func TestStoryConfirmedShift(t *testing.T) {
+	cases := []struct {
+		name     string
+		in       int
+		p, holm  float64
+		lower    bool
+		want     string
+		wantNext string
+	}{
+		{"lower", 3, 1.2e-9, 2.4e-9, true,
+			"On the confirming half, 3 of the 20 texts holding it are spam, 15% (3.2–38%), against 90% in training: lower beyond chance",
+			"     (one-sided Fisher p = 1.2e-09; Holm p = 2.4e-09 over the 2 cues whose shift it tests).\n"},
+		{"not beyond chance", 16, 0.3, 0.6, false,
+			"On the confirming half, 16 of the 20 texts holding it are spam, 80% (56–94%), against 90% in training: not lower beyond chance",
+			"     (one-sided Fisher p = 0.3; Holm p = 0.6 over the 2 cues whose shift it tests), so the confirming half does not show the shift.\n"},
+		{"no lower", 19, 0.9, 1, false,
+			"On the confirming half, 19 of the 20 texts holding it are spam, 95% (75–100%), against 90% in training: no lower",
+			"     (one-sided Fisher p = 0.9; Holm p = 1 over the 2 cues whose shift it tests), so the confirming half does not show the shift.\n"},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			r, _ := storyOfHalves()
+			c := &r.Ranked[0]
+			c.Signals = []Signal{{Name: SignalShift, Value: 1, Weight: signalWeights[SignalShift],
+				Says: shiftSays + " only 5.0% of those holding it are spam, against 90% in training"}}
+			c.Shift = &Shift{HeldoutTexts: 20, HeldoutShare: 0.05, TrainShare: 0.9, Present: true}
+			lo, hi := ClopperPearson(tc.in, 20, 0.95)
+			c.ShiftConfirmed = &ConfirmedShift{Texts: 20, InLabel: tc.in, Share: Interval{Estimate: float64(tc.in) / 20, Low: lo, High: hi},
+				TrainShare: 0.9, P: tc.p, Holm: tc.holm, Family: 2, Lower: tc.lower}
+			story := r.Story()
+			if !strings.Contains(story, "     "+tc.want+"\n"+tc.wantNext) {
+				t.Errorf("the story lacks\n%s\n%s\nin:\n%s", tc.want, tc.wantNext, story)
+			}
+			// The reason it was chosen keeps the choosing half's share, named so.
+			if !strings.Contains(story, "because in the choosing half of the test texts only 5.0%") {
+				t.Errorf("the story drops the reason the cue was chosen:\n%s", story)
+			}
+			if strings.Contains(story, "The choosing half shows") {
+				t.Errorf("the story shows the choosing half's share as evidence:\n%s", story)
+			}
+			var b strings.Builder
+			if err := r.WriteText(&b); err != nil {
+				t.Fatal(err)
+			}
+			if !strings.Contains(b.String(), "   label share: "+tc.want+" "+strings.TrimSpace(tc.wantNext)) {
+				t.Errorf("the cue's lines lack its confirmed shift:\n%s", b.String())
+			}
+		})
+	}
+	// A family of one needs no correction, and says so.
+	r, _ := storyOfHalves()
+	r.Ranked[0].Shift = &Shift{Present: true}
+	r.Ranked[0].ShiftConfirmed = &ConfirmedShift{Texts: 20, InLabel: 3, Share: Interval{Estimate: 0.15}, TrainShare: 0.9, P: 1e-9, Holm: 1e-9, Family: 1, Lower: true}
+	if story := r.Story(); !strings.Contains(story, "lower beyond chance\n     (one-sided Fisher p = 1e-09, the one cue whose shift it tests).") {
+		t.Errorf("a family of one is not told as such:\n%s", story)
+	}
+	// Outside the family (no shift in the choosing half), nothing is said.
+	r, _ = storyOfHalves()
+	r.Ranked[0].ShiftConfirmed = &ConfirmedShift{Texts: 20, InLabel: 3, Share: Interval{Estimate: 0.15}, TrainShare: 0.9, P: 1e-9}
+	if story := r.Story(); strings.Contains(story, "On the confirming half, 3 of") {
+		t.Errorf("a cue outside the family has its confirmed shift told:\n%s", story)
 	}
 }

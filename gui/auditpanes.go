@@ -142,6 +142,9 @@ func (p *evidencePane) show(a *auditState, k int) {
 	for _, s := range ev.Signals {
 		rows = append(rows, [2]string{"", "· " + s})
 	}
+	if ev.Shift != "" {
+		rows = append(rows, [2]string{"Label share", ev.Shift})
+	}
 	if ev.Filters != "" {
 		rows = append(rows, [2]string{"Filters", ev.Filters})
 	}

@@ -188,7 +188,9 @@ func AuditMethod(r *audit.Result) []string {
 			"A cue is acted on when it is artifact-like, relied on in the choosing half and confirmed in the confirming half: there its label's probability falls in more texts than it rises " +
 			"(the sign test, Benjamini–Hochberg over the cues put to the test) and the predictions change beyond the control (the interval of the net change above 0); a small fall in most texts passes the sign test alone.",
 		"Artifact-likeness: the score of a rule, 1 − Π (1 − weight × value) over the signals shown, each value in [0, 1] and each weight set by hand " +
-			"(not fitted to data, so the score is not a probability; the shift signal is measured on the choosing half); " + fmt.Sprintf("%.2f", audit.ArtifactThreshold) +
+			"(not fitted to data, so the score is not a probability; the shift signal is measured on the choosing half, and the label share shown " +
+			"for a cue with that signal is the confirming half's: exact Clopper–Pearson 95% interval, one-sided Fisher test of its being lower than in training, " +
+			"Holm over the cues put to the test that shifted in the choosing half); " + fmt.Sprintf("%.2f", audit.ArtifactThreshold) +
 			" or more reads like how the data was collected. Rank: reliance (the fall of the cue's label's probability beyond the control, choosing half) × artifact-likeness, the cues acted on first.",
 	}
 }

@@ -22,6 +22,11 @@ type CueEvidence struct {
 	Association, Reliance, Artifact string
 	// Signals are the artifact-likeness signals that hold, in plain words.
 	Signals []string
+	// Shift is the confirming half's label share of a cue whose choosing
+	// half shows a shift (audit.Candidate.ConfirmedShiftSays; "" for any
+	// other cue): the figure shown of the shift, as the choosing half's
+	// took part in choosing the cue.
+	Shift string
 	// Filters are the filters keyed on the cue and what masking them does,
 	// then, on a model with word weights, the cue words' part there ("" when
 	// none were looked for or found).
@@ -79,6 +84,7 @@ func DescribeCue(c *audit.Candidate, r *audit.Result, priors []float64) CueEvide
 			ev.Signals = append(ev.Signals, s.Says)
 		}
 	}
+	ev.Shift = c.ConfirmedShiftSays()
 	if f := c.Filters; f != nil && f.Ablation != nil {
 		ab := f.Ablation
 		ev.Filters = fmt.Sprintf("%s read it (%s); masked together%s, the accuracy on the confirming half goes from %s to %s "+

@@ -216,3 +216,25 @@ func TestArtifactScoreWords(t *testing.T) {
 		t.Errorf("the method does not say the artifact-likeness weights are set by hand: %s", method)
 	}
 }
+
+// A cue whose choosing half shows a shift has the confirming half's label
+// share among its evidence, in the audit's words
+// (audit.Candidate.ConfirmedShiftSays), and the page shows it as a row of
+// its card; a cue without it has none. The figures are invented: the
+// wording is what is checked.
+func TestDescribeCueConfirmedShift(t *testing.T) {
+	c := auditpkg.Candidate{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: auditpkg.VerdictActed,
+		Shift: &auditpkg.Shift{Present: true},
+		ShiftConfirmed: &auditpkg.ConfirmedShift{Texts: 20, InLabel: 3, Share: auditpkg.Interval{Estimate: 0.15, Low: 0.032, High: 0.379},
+			TrainShare: 0.9, P: 1.2e-9, Holm: 2.4e-9, Family: 2, Lower: true}}
+	ev := DescribeCue(&c, &auditpkg.Result{}, nil)
+	want := "On the confirming half, 3 of the 20 texts holding it are spam, 15% (3.2–38%), against 90% in training: lower beyond chance " +
+		"(one-sided Fisher p = 1.2e-09; Holm p = 2.4e-09 over the 2 cues whose shift it tests)."
+	if ev.Shift != want {
+		t.Errorf("shift %q, want %q", ev.Shift, want)
+	}
+	c.ShiftConfirmed.Family = 0
+	if ev := DescribeCue(&c, &auditpkg.Result{}, nil); ev.Shift != "" {
+		t.Errorf("a cue outside the family: shift %q, want none", ev.Shift)
+	}
+}

@@ -5,6 +5,7 @@ and writes one JSON list of p-values or [low, high] intervals:
   binom-upper  [k, n, p]     scipy.stats.binom.sf(k - 1, n, p)          P(X >= k)
   fisher-greater [a, b, c, d]  scipy.stats.fisher_exact(alternative="greater")
   fisher-two   [a, b, c, d]  scipy.stats.fisher_exact(alternative="two-sided")
+  fisher-less  [a, b, c, d]  scipy.stats.fisher_exact(alternative="less")
   sign         [pos, neg]    scipy.stats.binomtest(pos, pos+neg, 0.5, alternative="greater")
   wilson       [k, n]        scipy.stats.binomtest(k, n).proportion_ci(0.95, "wilson")
   exact        [k, n]        scipy.stats.binomtest(k, n).proportion_ci(0.95, "exact") (Clopper-Pearson)
@@ -21,6 +22,8 @@ for case in json.load(sys.stdin):
         out.append(float(stats.binom.sf(a[0] - 1, a[1], a[2])))
     elif kind == "fisher-greater":
         out.append(float(stats.fisher_exact([[a[0], a[1]], [a[2], a[3]]], alternative="greater")[1]))
+    elif kind == "fisher-less":
+        out.append(float(stats.fisher_exact([[a[0], a[1]], [a[2], a[3]]], alternative="less")[1]))
     elif kind == "fisher-two":
         out.append(float(stats.fisher_exact([[a[0], a[1]], [a[2], a[3]]], alternative="two-sided")[1]))
     elif kind == "sign":
