@@ -274,7 +274,11 @@ type ConfirmedShift struct {
 	TrainShare float64  `json:"train_share"`
 	// P is the one-sided Fisher exact test that the share is lower than in
 	// training (the 2×2 table split × (in the cue's label or not) over the
-	// texts holding it).
+	// texts holding it). The training share took part in choosing the cue
+	// (an extreme share among many candidates), so it tends to overstate
+	// the share of the data training was drawn from, and the test leans
+	// towards finding the confirming share lower by that much: a shift far
+	// beyond chance stands, a borderline one is weak evidence.
 	P float64 `json:"p_lower"`
 	// Holm is P adjusted by Holm's step-down method over the Family cues
 	// put to the test on the confirmation half whose selection half shows
