@@ -253,6 +253,13 @@ func (es *evalSet) findTexts(rec *cnn.SplitRecord, data, test string, same bool,
 	case same:
 		es.note = fmt.Sprintf("evaluating on the test split that train held out of %s: %.0f%% of its texts, seed %d (%s), never used for training or to choose the epoch",
 			data, 100*rec.TestFrac, rec.Seed, wording.Texts(len(es.test.Examples)))
+	case rec != nil && rec.TestFile != "" && absPath(data) == rec.TestFile:
+		// --data names the model's own test file: its texts are the test
+		// split, none of them trained on (checkTraining still looks for
+		// copies of training texts there).
+		es.test, es.file = es.all, data
+		es.note = fmt.Sprintf("%s is the test file the model was trained with: evaluating on its %s", data, wording.Texts(len(es.all.Examples)))
+		es.warnChanged(rec, data)
 	case rec == nil:
 		es.test, es.name = es.all, "all"
 		es.note = fmt.Sprintf("the model file does not record how its splits were made: evaluating on all %s of %s, which %s",

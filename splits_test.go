@@ -136,6 +136,13 @@ func TestTestFileIsRecorded(t *testing.T) {
 		t.Errorf("eval: %d texts, accuracy %g; train's test figures %d, %g; stderr %q", ev.N, ev.Accuracy, m.Info.Test.N, m.Info.Test.Accuracy, stderr)
 	}
 
+	// The test file given as --data is the test split, not "other data".
+	stderr = jsonOf(t, &ev, "eval", "--model", model, "--data", test, "--json")
+	if ev.Split != "test" || ev.N != m.Info.Test.N || ev.Accuracy != m.Info.Test.Accuracy ||
+		!strings.Contains(stderr, "is the test file the model was trained with") || strings.Contains(stderr, "may include texts the model was trained on") {
+		t.Errorf("eval --data TEST: split %q, %d texts, accuracy %g; train's test figures %d, %g; stderr %q", ev.Split, ev.N, ev.Accuracy, m.Info.Test.N, m.Info.Test.Accuracy, stderr)
+	}
+
 	m.Info.Splits = nil
 	old := filepath.Join(dir, "old.tt")
 	if err := m.Save(old); err != nil {

@@ -2,6 +2,7 @@ package audit
 
 import (
 	"cmp"
+	"math"
 	"slices"
 
 	"telltale/cnn"
@@ -97,8 +98,11 @@ func keyedFilters(m *cnn.Model, b *basePass, occ []span, class int) []int {
 		if m.IsMasked(g) {
 			continue
 		}
+		// The filter's least margin for class over every other class: only
+		// differences of a column are identified (a constant added to it
+		// moves every logit alike; cnn.Model.WithVotesShifted).
 		margin := float64(m.OutW[class*nf+g])
-		worst := margin
+		worst := math.Inf(1)
 		for c := range C {
 			if c != class {
 				worst = min(worst, margin-float64(m.OutW[c*nf+g]))

@@ -34,3 +34,26 @@ func (m *Model) WithFiltersRescaled(ks map[int]float32) *Model {
 	s.Invalidate()
 	return s
 }
+
+// WithVotesShifted returns a copy of m in which every class's output
+// weight of each filter g of ds is raised by ds[g]: every logit gains
+// ds[g] times the filter's pooled unit, the same for every class, so the
+// softmax and every prediction stay as they are (up to float32 rounding)
+// while each class's raw weight on the filter moves. Only differences
+// between classes' weights are identified; a number that changes under it
+// is not. Preconditions: every key is a filter index of m and every shift
+// finite.
+func (m *Model) WithVotesShifted(ds map[int]float32) *Model {
+	s := m.Clone()
+	nf := m.Config.NumFilters()
+	for g, d := range ds {
+		if g < 0 || g >= nf || math.IsNaN(float64(d)) || math.IsInf(float64(d), 0) {
+			panic("cnn: WithVotesShifted: a filter index out of range or a shift not finite")
+		}
+		for c := 0; c < m.Config.Classes; c++ {
+			s.OutW[c*nf+g] += d
+		}
+	}
+	s.Invalidate()
+	return s
+}

@@ -48,3 +48,38 @@ func TestWithFiltersRescaled(t *testing.T) {
 		t.Fatal("the copy shares or keeps filter 0's output weights")
 	}
 }
+
+// Adding a constant to a filter's output weights across the classes moves
+// every logit alike, so no probability moves, while the raw weights do:
+// only a column's differences are identified (common practice, no source:
+// the softmax is invariant to a shift shared by every logit).
+func TestWithVotesShifted(t *testing.T) {
+	vocab := []string{"<pad>", "<unk>", "a", "b", "c", "d", "e", "f", "g", "h"}
+	m, err := New(Config{VocabSize: len(vocab), Dim: 6, Widths: []int{2, 3}, Filters: 4, Classes: 3}, vocab, []string{"x", "y", "z"}, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ds := map[int]float32{0: 2.5, 3: -4, 6: 0.75}
+	s := m.WithVotesShifted(ds)
+	rng := rand.New(rand.NewPCG(4, 4))
+	for range 200 {
+		ids := make([]int32, 1+rng.IntN(12))
+		for i := range ids {
+			ids[i] = int32(1 + rng.IntN(len(vocab)-1))
+		}
+		a, b := m.Forward(ids), s.Forward(ids)
+		for c := range a.Probs {
+			if !scalar.EqualWithinAbsOrRel(float64(a.Probs[c]), float64(b.Probs[c]), 1e-5, 1e-4) {
+				t.Fatalf("%v: p[%d] %g becomes %g", ids, c, a.Probs[c], b.Probs[c])
+			}
+		}
+	}
+	nf := m.Config.NumFilters()
+	for g, d := range ds {
+		for c := range m.Config.Classes {
+			if s.OutW[c*nf+g] != m.OutW[c*nf+g]+d {
+				t.Fatalf("filter %d class %d: %g, want %g + %g", g, c, s.OutW[c*nf+g], m.OutW[c*nf+g], d)
+			}
+		}
+	}
+}

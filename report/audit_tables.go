@@ -23,7 +23,9 @@ var cueSignals = []string{audit.SignalEdge, audit.SignalLine, audit.SignalSpan, 
 // value; reliance on the confirming half ("half" says when only the
 // choosing half measured it), each rate with its 95% bootstrap interval
 // and the sign tests (empty where the half holds the cue in too few texts
-// to measure); the rank score; the keyed filters (space-separated) and the
+// to measure); the choosing half's rank score (its label drop times the
+// artifact-likeness: it orders the list, measured on the texts that chose
+// the cues, so no figure to report; rank_score_choosing); the keyed filters (space-separated) and the
 // accuracy on the confirming half before and with them masked, then the
 // bounds of those accuracies' 95% Wilson intervals and the one-sided exact
 // McNemar p-value of masking.
@@ -37,7 +39,7 @@ func CueTable(r *audit.Result) *Table {
 	for _, x := range []string{"flip_rate", "control_flip_rate", "label_drop", "prob_drop", "decided"} {
 		cols = append(cols, x, x+"_low", x+"_high")
 	}
-	cols = append(cols, "reliance_p", "flip_p", "score", "filters", "filters_accuracy", "filters_accuracy_masked",
+	cols = append(cols, "reliance_p", "flip_p", "rank_score_choosing", "filters", "filters_accuracy", "filters_accuracy_masked",
 		"filters_accuracy_low", "filters_accuracy_high", "filters_accuracy_masked_low", "filters_accuracy_masked_high", "filters_p")
 	t := &Table{Columns: cols}
 	for _, l := range []struct {

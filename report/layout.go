@@ -536,7 +536,7 @@ func metrics(in Input) (*metricsView, error) {
 				continue
 			}
 			mv.Bins = append(mv.Bins, binRow{Range: fmt.Sprintf("(%.2f, %.2f]", b.Lo, b.Hi), Count: count(b.Count),
-				Confidence: num(b.Conf), Accuracy: binAccuracy(b).String(), Gap: signed(b.Acc - b.Conf)})
+				Confidence: num(b.Conf), Accuracy: binAccuracy(b).String(), Gap: binGap(b)})
 		}
 	}
 	return mv, nil
@@ -546,6 +546,14 @@ func metrics(in Input) (*metricsView, error) {
 // interval: a share of the bin's count.
 func binAccuracy(b cnn.ReliabilityBin) cnn.Interval {
 	return cnn.WilsonInterval(int(math.Round(b.Acc*float64(b.Count))), b.Count, cnn.IntervalLevel)
+}
+
+// binGap is a bin's accuracy less its mean confidence, with the interval
+// of the accuracy (binAccuracy) shifted by the same: the mean confidence
+// is the model's own figure for those texts, not an estimate.
+func binGap(b cnn.ReliabilityBin) string {
+	iv := binAccuracy(b)
+	return fmt.Sprintf("%s (%s to %s)", signed(b.Acc-b.Conf), signed(iv.Low-b.Conf), signed(iv.High-b.Conf))
 }
 
 // baselineNote says what the baseline is and how its C was chosen (on the
