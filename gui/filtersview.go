@@ -58,7 +58,7 @@ func newFiltersView(st *State) *filtersView {
 	v.title.TextStyle.Bold = true
 	v.ngrams = container.NewVBox()
 	v.negs = container.NewVBox()
-	v.families = newSheet("family", "pattern", "share", "stability", "n-grams", "texts", "dominant slots").wide(6, capText)
+	v.families = newSheet("family", "pattern", "share", "stability", "n-grams", "texts", "dominant slots").wide(1, capDefault).wide(6, capText)
 	v.familyNote = wrapped("")
 	v.slots = newSheet("slot", "trigger words (slot score)", "suppressor words (slot score)").wide(1, capText).wide(2, capText)
 	v.hist = newPlotView(plotSize)
