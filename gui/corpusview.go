@@ -261,5 +261,6 @@ func lengthPlot(cs *corpusState) *plot.Plot {
 	}
 	h.LineStyle.Width = 0
 	p.Add(h)
+	p.X.Tick.Marker, p.Y.Tick.Marker = countTicks{}, countTicks{}
 	return p
 }
