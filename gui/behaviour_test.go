@@ -223,3 +223,64 @@ func TestExplainThisPaintsThePredictedLabel(t *testing.T) {
 		t.Errorf("a text sent from elsewhere is painted for %q, want %q", got, classPredicted)
 	}
 }
+
+// The Filters view's profile follows the list through a search: a search
+// that keeps the selected filter keeps it on show, one that hides it
+// selects and shows the first filter listed, one that lists nothing says
+// so instead of showing a filter the list no longer holds, and clearing the
+// search shows a listed filter again.
+func TestFilterSearchFollowsTheSelection(t *testing.T) {
+	_, st, q := sharedLeanWindow(t, smallScreen)
+	st.show(titleFilters)
+	q.drain()
+	fv := st.filtersView
+	shown := func() int { // the filter on show, -1 for none
+		if fv.shown == nil {
+			return -1
+		}
+		return fv.shown.Filter
+	}
+	consistent := func(when string) {
+		t.Helper()
+		if shown() < 0 || fv.list.selected != shown() || !slices.Contains(fv.list.order, fv.list.selected) {
+			t.Fatalf("%s: the pane shows filter %d, the list selects row %d of %d listed", when, shown(), fv.list.selected, len(fv.list.order))
+		}
+	}
+	consistent("before a search")
+	first := fv.shown.Filter
+	// Its own label keeps it listed, and on show.
+	fv.query.SetText(fv.shown.Label)
+	consistent("a search that keeps it")
+	if fv.shown.Filter != first {
+		t.Errorf("a search that keeps filter %d listed shows filter %d", first, fv.shown.Filter)
+	}
+	// A label of the model that the filter's row does not hold hides it.
+	hid := false
+	for _, l := range itemGet(st.model).Model.Labels {
+		if rowMatches(fv.list.rows[first], strings.ToLower(l)) {
+			continue
+		}
+		fv.query.SetText(l)
+		if len(fv.list.order) == 0 {
+			continue
+		}
+		hid = true
+		consistent("a search that hides it (" + l + ")")
+		if fv.shown.Filter == first || fv.list.selected != fv.list.visible(0) {
+			t.Errorf("search %q: the pane shows filter %d, want the first listed, %d", l, fv.shown.Filter, fv.list.visible(0))
+		}
+		break
+	}
+	if !hid {
+		t.Fatalf("no label hides filter %d from the list", first)
+	}
+	fv.query.SetText("no filter reads this")
+	if len(fv.list.order) != 0 {
+		t.Fatalf("a search for nothing lists %d filters", len(fv.list.order))
+	}
+	if shown() >= 0 || !strings.Contains(fv.title.Text, "No filter") || len(fv.ngramChips()) != 0 {
+		t.Errorf("with no filter listed the pane shows filter %d, titled %q, with %d chips", shown(), fv.title.Text, len(fv.ngramChips()))
+	}
+	fv.query.SetText("")
+	consistent("the search cleared")
+}

@@ -188,7 +188,7 @@ func summaryFacts(cs *corpusState) string {
 		oov = "no test token to compare with it" // no test split, or one of empty texts
 	}
 	fmt.Fprintf(&b, "\nVocabulary of the training split: %d words; %s. "+
-		"Groups of exact duplicates %d, of near duplicates %d; %s of the dev and test splits also in the training split (leaks).",
+		"Groups of exact duplicates %d, of near-exact duplicates %d; %s of the dev and test splits also in the training split (leaks).",
 		s.VocabSize, oov, s.ExactGroups, s.NearGroups, wording.Texts(s.Leaks))
 	return b.String()
 }
@@ -261,5 +261,6 @@ func lengthPlot(cs *corpusState) *plot.Plot {
 	}
 	h.LineStyle.Width = 0
 	p.Add(h)
+	p.X.Tick.Marker, p.Y.Tick.Marker = countTicks{}, countTicks{}
 	return p
 }

@@ -34,7 +34,60 @@ func (st *State) openDataDialog() {
 		st.openData(dataSource{path: path}, nil)
 	}, st.win)
 	d.SetFilter(notPipes{storage.NewExtensionFileFilter([]string{".csv", ".tsv", ".tab", ".jsonl", ".ndjson"})})
+	setStart(d, st.startFolder(true))
 	d.Show()
+}
+
+// startFolder is the folder an open dialog starts in: the open data file's
+// folder, then the open model file's (the model's first when dataFirst is
+// false), else the working folder; "" when none can be found.
+func (st *State) startFolder(dataFirst bool) string {
+	var data, model string
+	if cs := itemGet(st.data); cs != nil {
+		data = cs.Path
+		if data == "" {
+			data = cs.demoAbs // the demo corpus, where the repository holds it
+		}
+	}
+	if ms := itemGet(st.model); ms != nil {
+		model = ms.Path
+		if model == "" {
+			model = ms.Source
+		}
+	}
+	order := []string{data, model}
+	if !dataFirst {
+		order = []string{model, data}
+	}
+	for _, f := range order {
+		if f == "" {
+			continue
+		}
+		if dir := filepath.Dir(absPath(f)); isDir(dir) {
+			return dir
+		}
+	}
+	if wd, err := os.Getwd(); err == nil {
+		return wd
+	}
+	return ""
+}
+
+// isDir reports whether path names a folder.
+func isDir(path string) bool {
+	info, err := os.Stat(path)
+	return err == nil && info.IsDir()
+}
+
+// setStart makes the file dialog d start in folder dir ("" or a folder
+// that cannot be listed: where the toolkit starts).
+func setStart(d *dialog.FileDialog, dir string) {
+	if dir == "" {
+		return
+	}
+	if l, err := storage.ListerForURI(storage.NewFileURI(dir)); err == nil {
+		d.SetLocation(l)
+	}
 }
 
 // notPipes lists in a file dialog the files its inner filter (nil: every
@@ -55,10 +108,12 @@ func (f notPipes) Matches(u fyne.URI) bool {
 }
 
 // showFileOpen shows the toolkit's file dialog without named pipes
-// (notPipes) and calls done as dialog.ShowFileOpen does.
+// (notPipes), started in the open model's folder (startFolder), and calls
+// done as dialog.ShowFileOpen does.
 func (st *State) showFileOpen(done func(fyne.URIReadCloser, error)) {
 	d := dialog.NewFileOpen(done, st.win)
 	d.SetFilter(notPipes{})
+	setStart(d, st.startFolder(false))
 	d.Show()
 }
 
@@ -119,6 +174,9 @@ func (st *State) saveDialog(title, name string, write func(path string) error) {
 	entry.SetText(name)
 	entry.Validator = validFileName
 	sf := &saveForm{name: entry, folder: func() string { return dir }}
+	// Return in the name saves, as the Save button does (nothing while the
+	// name is not valid: the button is disabled then).
+	entry.OnSubmitted = func(string) { sf.form.Submit() }
 	sf.choose = func() {
 		st.pickFolder(dir, func(d string) {
 			dir = d
@@ -208,11 +266,7 @@ func (st *State) pickFolderDialog(start string, done func(dir string)) {
 		}
 		done(u.Path())
 	}, st.win)
-	if start != "" {
-		if l, err := storage.ListerForURI(storage.NewFileURI(start)); err == nil {
-			d.SetLocation(l)
-		}
-	}
+	setStart(d, start)
 	d.Show()
 }
 

@@ -393,3 +393,60 @@ func TestSaveRefusedOnRecordedSplits(t *testing.T) {
 		t.Errorf("saving onto %s, no input: %v", other, err)
 	}
 }
+
+// Return in the save dialog's file name saves, as the Save button does;
+// with a name the dialog refuses, Return writes nothing either.
+func TestReturnInTheNameSaves(t *testing.T) {
+	testref.SequentialSkipInRace(t, "the save dialog (no task, the UI run in place)")
+	dir := t.TempDir()
+	st, _ := saveState(t, dir)
+	st.exportCSVDialog()
+	sf := shownSave(t, st)
+	sf.choose()
+	sf.name.SetText("../escape.csv")
+	sf.name.TypedKey(&fyne.KeyEvent{Name: fyne.KeyReturn})
+	if _, err := os.Stat(filepath.Join(filepath.Dir(dir), "escape.csv")); err == nil {
+		t.Error("Return saved a name with a folder part outside the chosen folder")
+	}
+	sf.name.SetText("returned.csv")
+	sf.name.TypedKey(&fyne.KeyEvent{Name: fyne.KeyReturn})
+	path := filepath.Join(dir, "returned.csv")
+	if _, err := os.Stat(path); err != nil {
+		t.Fatalf("Return in the file name did not save: %v", err)
+	}
+	if s := st.statusText(); s != "Wrote "+path {
+		t.Errorf("status %q after Return", s)
+	}
+}
+
+// The open dialogs start in the folder of the open file they are about:
+// Open data in the data file's, Open model in the model file's, each in the
+// other's when theirs is not open or its folder is gone, else in the
+// working folder.
+func TestOpenDialogsStartBesideTheOpenFiles(t *testing.T) {
+	a := test.NewTempApp(t)
+	st := newState(a, Options{}, func(f func()) { f() })
+	wd, err := os.Getwd()
+	if err != nil {
+		t.Fatal(err)
+	}
+	check := func(when, wantData, wantModel string) {
+		t.Helper()
+		if got := st.startFolder(true); got != wantData {
+			t.Errorf("%s: Open data starts in %q, want %q", when, got, wantData)
+		}
+		if got := st.startFolder(false); got != wantModel {
+			t.Errorf("%s: Open model starts in %q, want %q", when, got, wantModel)
+		}
+	}
+	check("nothing open", wd, wd)
+	dataDir, modelDir := t.TempDir(), t.TempDir()
+	st.data.Set(&corpusState{Path: filepath.Join(dataDir, "reviews.csv")})
+	check("data open", dataDir, dataDir)
+	st.model.Set(&modelState{Path: filepath.Join(modelDir, "m.tt")})
+	check("data and model open", dataDir, modelDir)
+	if err := os.Remove(dataDir); err != nil {
+		t.Fatal(err)
+	}
+	check("the data's folder gone", modelDir, modelDir)
+}

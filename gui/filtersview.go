@@ -53,12 +53,12 @@ func newFiltersView(st *State) *filtersView {
 	v.list = newSheet(filterCols...).wide(colFilterCues, 200)
 	v.query = widget.NewEntry()
 	v.query.SetPlaceHolder("Search the list: a label, a word of a top n-gram, a width…")
-	v.query.OnChanged = v.list.setQuery
+	v.query.OnChanged = v.search
 	v.title = wrapped("Select a filter in the list.")
 	v.title.TextStyle.Bold = true
 	v.ngrams = container.NewVBox()
 	v.negs = container.NewVBox()
-	v.families = newSheet("family", "pattern", "share", "stability", "n-grams", "texts", "dominant slots").wide(6, capText)
+	v.families = newSheet("family", "pattern", "share", "stability", "n-grams", "texts", "dominant slots").wide(1, capDefault).wide(6, capText)
 	v.familyNote = wrapped("")
 	v.slots = newSheet("slot", "trigger words (slot score)", "suppressor words (slot score)").wide(1, capText).wide(2, capText)
 	v.hist = newPlotView(plotSize)
@@ -115,13 +115,46 @@ func (v *filtersView) exportData() any {
 func (st *State) showFilter(g int, from *sheet) {
 	v := st.filtersView
 	if v.query.Text != "" {
-		v.query.SetText("") // its OnChanged clears the list's search
+		// Not through search, which would show another filter first.
+		on := v.query.OnChanged
+		v.query.OnChanged = nil
+		v.query.SetText("")
+		v.query.OnChanged = on
 	}
 	if v.list.query != "" {
 		v.list.setQuery("")
 	}
 	v.list.selectRow(g)
 	st.showFrom(from, titleFilters)
+}
+
+// search keeps the filters matching q in the list, and the profile pane
+// follows: the selected filter stays when the search keeps it, else the
+// first filter listed is selected and shown, and with none listed the
+// pane says so rather than show a filter the list no longer holds.
+func (v *filtersView) search(q string) {
+	v.list.setQuery(q)
+	switch {
+	case v.list.selected >= 0:
+	case len(v.list.order) > 0:
+		v.list.selectRow(v.list.visible(0))
+	case itemGet(v.st.profiles) != nil:
+		v.clearProfile("No filter in the list matches the search.")
+	}
+}
+
+// clearProfile empties the profile pane, with title in its place.
+func (v *filtersView) clearProfile(title string) {
+	v.shown = nil
+	v.title.SetText(title)
+	v.ngrams.Objects = nil
+	v.ngrams.Refresh()
+	v.negs.Objects = nil
+	v.negs.Refresh()
+	v.families.setRows(nil)
+	v.familyNote.SetText("")
+	v.slots.setRows(nil)
+	v.hist.set(nil)
 }
 
 func (v *filtersView) modelChanged() {
@@ -357,6 +390,8 @@ func (v *filtersView) refresh() {
 	}
 	if len(v.list.order) > 0 {
 		v.list.selectRow(v.list.visible(0))
+	} else {
+		v.clearProfile("No filter in the list matches the search.")
 	}
 	v.body.Objects = []fyne.CanvasObject{v.full}
 	v.body.Refresh()

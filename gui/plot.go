@@ -2,6 +2,8 @@ package gui
 
 import (
 	"image/color"
+	"math"
+	"strconv"
 	"sync"
 
 	"fyne.io/fyne/v2"
@@ -167,15 +169,84 @@ func (r *plotRenderer) Destroy()                     {}
 // plotSize is the least size of a plot cell.
 var plotSize = fyne.NewSize(240, 170)
 
-// xyLine adds one named line to p.
-func xyLine(p *plot.Plot, name string, xs, ys []float64, col color.Color) error {
+// countTicks marks an axis of counts (texts, tokens, epochs): whole numbers
+// only, written without decimals ("750", not gonum/plot's "750.00"), at a
+// step of 1, 2, 2.5 or 5 times a power of ten that is itself whole, so that
+// no tick falls between two counts ("2.5 texts").
+type countTicks struct{}
+
+// Ticks returns the ticks of the range [lo, hi].
+func (countTicks) Ticks(lo, hi float64) []plot.Tick {
+	span := hi - lo
+	if !(span >= 0) || math.IsInf(span, 0) {
+		return nil
+	}
+	step := countStep(span)
+	// Minor ticks at a whole fifth, quarter or half of the step.
+	minor := 0.0
+	for _, d := range []float64{5, 4, 2} {
+		if m := step / d; m >= 1 && m == math.Trunc(m) {
+			minor = m
+			break
+		}
+	}
+	var ts []plot.Tick
+	if minor > 0 {
+		first := math.Ceil(lo / minor)
+		for i := 0.0; i <= span/minor+1; i++ {
+			if v := (first + i) * minor; v <= hi && math.Mod(v, step) != 0 {
+				ts = append(ts, plot.Tick{Value: v})
+			}
+		}
+	}
+	first := math.Ceil(lo / step)
+	for i := 0.0; i <= span/step+1; i++ {
+		v := (first + i) * step
+		if v == 0 {
+			v = 0 // not -0
+		}
+		if v <= hi {
+			ts = append(ts, plot.Tick{Value: v, Label: strconv.FormatFloat(v, 'f', 0, 64)})
+		}
+	}
+	return ts
+}
+
+// countStep is the whole step between labelled ticks over a span: the
+// least of 1, 2, 2.5 and 5 times a power of ten that is whole and leaves at
+// most 4 steps.
+func countStep(span float64) float64 {
+	for p := 1.0; ; p *= 10 {
+		for _, m := range []float64{1, 2, 2.5, 5} {
+			if s := m * p; s == math.Trunc(s) && span/s <= 4 {
+				return s
+			}
+		}
+	}
+}
+
+// legendAbove puts p's legend in a band of its own between the title and
+// the plotting area, flush right, so that no line or bar can run under it.
+func legendAbove(p *plot.Plot) {
+	h := p.Legend.Rectangle(draw.Canvas{}).Size().Y
+	if h == 0 {
+		return
+	}
+	gap := p.Legend.TextStyle.FontExtents().Descent + vg.Points(2)
+	p.Legend.Top = true
+	p.Legend.YOffs = h + gap
+	p.Title.Padding += h + gap
+}
+
+// xyLine adds one named line to p and returns it.
+func xyLine(p *plot.Plot, name string, xs, ys []float64, col color.Color) (*plotter.Line, error) {
 	pts := make(plotter.XYs, len(xs))
 	for i := range xs {
 		pts[i].X, pts[i].Y = xs[i], ys[i]
 	}
 	l, err := plotter.NewLine(pts)
 	if err != nil {
-		return err
+		return nil, err
 	}
 	l.Color = col
 	l.Width = vg.Points(1.5)
@@ -183,5 +254,5 @@ func xyLine(p *plot.Plot, name string, xs, ys []float64, col color.Color) error 
 	if name != "" {
 		p.Legend.Add(name, l)
 	}
-	return nil
+	return l, nil
 }

@@ -131,5 +131,8 @@ func histogramPlot(fp *explain.FilterProfile) *plot.Plot {
 			p.Legend.Add("selectivity threshold "+thresholdText(thr), l)
 		}
 	}
+	p.Y.Tick.Marker = countTicks{}
+	// Above the bars: the highest may stand at either end.
+	legendAbove(p)
 	return p
 }

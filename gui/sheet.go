@@ -24,9 +24,10 @@ import (
 // The first column stays in place when a wide sheet scrolls sideways. New
 // rows open scrolled to the top left with nothing selected.
 type sheet struct {
-	cols []string
-	rows [][]string
-	caps []float32 // widest each column may grow
+	cols  []string
+	rows  [][]string
+	caps  []float32 // widest each column may grow
+	texts []bool    // columns of texts (wide)
 
 	order   []int // visible rows, as indices into rows
 	sortCol int   // -1: original order
@@ -46,9 +47,11 @@ type sheet struct {
 	// value, low and high (a row of exportRows for each row of rows).
 	exportCols []string
 	exportRows [][]string
-	// widths are the columns' widths (fitColumns).
-	widths []float32
-	box    *fyne.Container // the table in a layout that widens its last column
+	// widths are the columns' widths on screen; natural are the widths
+	// fitColumns gives them, before a column of texts gives up room so
+	// that the titles after it fit the table (widenLast).
+	widths, natural []float32
+	box             *fyne.Container // the table in a layout that widens its last column
 	// shownLast is the last column's width on screen.
 	shownLast float32
 	// cellUpdates counts the cells written on screen (each costs the
@@ -68,7 +71,7 @@ const (
 
 // newSheet makes an empty sheet with the given column titles.
 func newSheet(cols ...string) *sheet {
-	s := &sheet{cols: cols, sortCol: -1, selected: -1, caps: make([]float32, len(cols))}
+	s := &sheet{cols: cols, sortCol: -1, selected: -1, caps: make([]float32, len(cols)), texts: make([]bool, len(cols))}
 	for i := range s.caps {
 		s.caps[i] = capDefault
 	}
@@ -156,29 +159,77 @@ func (l *fillLast) Layout(objs []fyne.CanvasObject, size fyne.Size) {
 func (l *fillLast) MinSize(objs []fyne.CanvasObject) fyne.Size { return objs[0].MinSize() }
 
 // widenLast gives the last column the room the others leave, never less
-// than its own width.
+// than its own width. When the columns do not fit the room, a column of
+// texts (wide) first gives up width, down to its title's, when that is
+// enough for every title to be seen whole without scrolling sideways; a
+// text cut there is shown whole in the detail line.
 func (s *sheet) widenLast() {
 	n := len(s.widths)
 	room := s.box.Layout.(*fillLast).room
 	if n == 0 || room <= 0 {
 		return
 	}
-	used := theme.ScrollBarSize() + 2*theme.Padding()
+	s.shrinkTexts(room)
+	used := sheetChrome(n)
 	for _, w := range s.widths[:n-1] {
-		used += w + theme.Size(theme.SizeNameSeparatorThickness)
+		used += w
 	}
 	// The last column takes the room left, down to its title's width;
 	// a longer cell is cut there and shown whole in the detail line.
-	w := max(room-used, textWidth(s.cols[n-1]+" ▼", true)+2*theme.Padding())
+	w := max(room-used, titleWidth(s.cols[n-1]))
 	if w != s.shownLast {
 		s.shownLast = w
 		s.table.SetColumnWidth(n-1, w)
 	}
 }
 
-// wide lets column c grow to w (a column of texts, say).
+// sheetChrome is the width a table of n columns takes besides its
+// columns: its scroll bar, padding and the separators between columns.
+func sheetChrome(n int) float32 {
+	return theme.ScrollBarSize() + 2*theme.Padding() + float32(n-1)*theme.Size(theme.SizeNameSeparatorThickness)
+}
+
+// titleWidth is the width column title t needs, with its sort mark.
+func titleWidth(t string) float32 {
+	return textWidth(t+" ▼", true) + 2*theme.Padding()
+}
+
+// shrinkTexts sets the widths of the columns before the last: their
+// natural widths, less what the columns of texts among them give up, in
+// proportion to what each can give, for every column to fit room with
+// the last at its title's width.
+func (s *sheet) shrinkTexts(room float32) {
+	n := len(s.natural)
+	need := sheetChrome(n) + titleWidth(s.cols[n-1])
+	var spare float32 // what the columns of texts can give up
+	for c, w := range s.natural[:n-1] {
+		need += w
+		if s.texts[c] {
+			spare += max(0, w-titleWidth(s.cols[c]))
+		}
+	}
+	// Only when that is enough: a table that scrolls sideways anyway keeps
+	// its texts whole.
+	give := max(0, need-room)
+	if give > spare {
+		give = 0
+	}
+	for c, w := range s.natural[:n-1] {
+		if give > 0 && s.texts[c] {
+			w -= give * max(0, w-titleWidth(s.cols[c])) / spare
+		}
+		if w != s.widths[c] {
+			s.widths[c] = w
+			s.table.SetColumnWidth(c, w)
+		}
+	}
+}
+
+// wide lets column c grow to w: a column of texts, which gives up width
+// when the table is too narrow for its titles (shrinkTexts).
 func (s *sheet) wide(c int, w float32) *sheet {
 	s.caps[c] = w
+	s.texts[c] = true
 	s.fitColumns()
 	return s
 }
@@ -268,13 +319,15 @@ func textWidth(t string, bold bool) float32 {
 // cells of each column, which are the widest in the theme's font.
 func (s *sheet) fitColumns() {
 	s.widths = make([]float32, len(s.cols))
+	s.natural = make([]float32, len(s.cols))
 	for c, title := range s.cols {
-		head := textWidth(title+" ▼", true) + 2*theme.Padding()
+		head := titleWidth(title)
 		w := head
 		for _, t := range s.longest(c, 3) {
 			w = max(w, textWidth(t, false))
 		}
 		s.widths[c] = min(w, max(s.caps[c], head))
+		s.natural[c] = s.widths[c]
 		s.table.SetColumnWidth(c, s.widths[c])
 	}
 	s.shownLast = -1

@@ -8,6 +8,7 @@ import (
 	"fyne.io/fyne/v2/data/binding"
 	"fyne.io/fyne/v2/widget"
 	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/vg"
 
 	"telltale/cnn"
 )
@@ -222,8 +223,9 @@ func (v *trainingView) redraw(run *trainRun) {
 func (v *trainingView) drawCurves(lossX, lossY, devX, devAcc, devF1 []float64) {
 	pl := newPlot("Training loss", "epoch", "mean cross-entropy")
 	if len(lossX) > 0 {
-		_ = xyLine(pl, "", lossX, lossY, seriesColors[0])
+		_, _ = xyLine(pl, "", lossX, lossY, seriesColors[0])
 	}
+	pl.X.Tick.Marker = countTicks{}
 	v.loss.set(pl)
 	v.dev.set(devPlot(devX, devAcc, devF1))
 }
@@ -231,11 +233,17 @@ func (v *trainingView) drawCurves(lossX, lossY, devX, devAcc, devF1 []float64) {
 func devPlot(devX, devAcc, devF1 []float64) *plot.Plot {
 	pd := newPlot("Dev split after each epoch", "epoch", "")
 	if len(devX) > 0 {
-		_ = xyLine(pd, "accuracy", devX, devAcc, seriesColors[0])
-		_ = xyLine(pd, "macro-F1", devX, devF1, seriesColors[1])
+		_, _ = xyLine(pd, "accuracy", devX, devAcc, seriesColors[0])
+		// Dashed: accuracy shows through where the two lines meet, as
+		// they do on balanced data.
+		if f1, err := xyLine(pd, "macro-F1", devX, devF1, seriesColors[1]); err == nil {
+			f1.Dashes = []vg.Length{vg.Points(5), vg.Points(3)}
+		}
 	}
 	pd.Y.Min, pd.Y.Max = 0, 1
-	pd.Legend.Top = false // dev metrics rise toward the top right
+	pd.X.Tick.Marker = countTicks{}
+	// Above the curves, which may lie anywhere from 0 to 1.
+	legendAbove(pd)
 	return pd
 }
 

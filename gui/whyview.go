@@ -86,13 +86,13 @@ func newWhyView(st *State) *whyView {
 	v.legend = container.NewStack()
 	v.what = wrapped("")
 	v.detail = wrapped("")
-	v.fired = newSheet(slices.Clone(firedCols)...)
+	v.fired = newSheet(slices.Clone(firedCols)...).wide(1, capDefault)
 	v.fired.onSelect = func(row int) {
 		if row < len(v.firedRows) {
 			st.showFilter(v.firedRows[row].Filter, v.fired)
 		}
 	}
-	v.kept = newSheet("filter", "window", "estimate", "this filter", "other filters", "word weights", "whole", "p falls by", "width")
+	v.kept = newSheet("filter", "window", "estimate", "this filter", "other filters", "word weights", "whole", "p falls by", "width").wide(1, capDefault)
 	v.kept.onSelect = func(row int) {
 		if row < len(v.keptRows) {
 			st.showFilter(v.keptRows[row].Filter, v.kept)
