@@ -79,15 +79,18 @@ func NewCalibrationFigure(observed float64, ece Interval, p float64, draws int) 
 	return CalibrationFigure{Interval: ece, Observed: observed, P: p, Draws: draws, AtFloor: p <= floor}
 }
 
-// String writes the figure as the tool shows it: "0.114, bias-corrected
-// 0.101 (0.078–0.126; test of perfect calibration p = 0.012)", or
-// "p ≤ 0.0005" when P is at its floor (the bound rounded up).
+// String writes the figure as the tool shows it, the estimate with its
+// interval first and the observed ECE, biased upward and without an
+// interval of its own, only as the test's statistic: "bias-corrected
+// 0.101 (0.078–0.126); observed 0.114, test of perfect calibration
+// p = 0.012", or "p ≤ 0.0005" when P is at its floor (the bound rounded
+// up).
 func (f CalibrationFigure) String() string {
 	p := fmt.Sprintf("= %.2g", f.P)
 	if f.AtFloor {
 		p = "≤ " + roundUp2(f.P)
 	}
-	return fmt.Sprintf("%.3f, bias-corrected %.3f (%.3f–%.3f; test of perfect calibration p %s)", f.Observed, f.Estimate, f.Low, f.High, p)
+	return fmt.Sprintf("bias-corrected %.3f (%.3f–%.3f); observed %.3f, test of perfect calibration p %s", f.Estimate, f.Low, f.High, f.Observed, p)
 }
 
 // roundUp2 writes x > 0 with two significant digits, rounded up, so that

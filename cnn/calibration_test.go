@@ -73,10 +73,10 @@ func TestCalibrationFigureFloor(t *testing.T) {
 		floor bool
 		text  string
 	}{
-		{CalibrationDraws, wrong, true, "p ≤ 0.0005)"},
-		{99, wrong, true, "p ≤ 0.01)"},
-		{2999, wrong, true, "p ≤ 0.00034)"}, // 1/3000 = 0.000333…
-		{99, []bool{true, true, true, true, true, true, true, true}, false, "p = 1)"},
+		{CalibrationDraws, wrong, true, "; observed 0.950, test of perfect calibration p ≤ 0.0005"},
+		{99, wrong, true, "p ≤ 0.01"},
+		{2999, wrong, true, "p ≤ 0.00034"}, // 1/3000 = 0.000333…
+		{99, []bool{true, true, true, true, true, true, true, true}, false, "p = 1"},
 	} {
 		p := CalibrationTest(conf, tc.right, 0, tc.draws, 1)
 		f := NewCalibrationFigure(0.95, iv, p, tc.draws)
