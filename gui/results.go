@@ -285,19 +285,20 @@ func reliabilityPlot(ev *evaluation, ece *cnn.CalibrationFigure) *plot.Plot {
 }
 
 // reliabilityTitle is the reliability diagram's title in two short lines,
-// so that it fits the pane of a small screen: the ECE, then its
-// bias-corrected estimate with its interval and the calibration test. The
-// plot's font has no "≤": a p-value at its floor reads "p <= …".
+// so that it fits the pane of a small screen: the ECE's bias-corrected
+// estimate with its interval, then the observed ECE (biased upward, the
+// calibration test's statistic) with the test. The plot's font has no
+// "≤": a p-value at its floor reads "p <= …".
 func reliabilityTitle(observed float64, ece *cnn.CalibrationFigure) string {
-	head := fmt.Sprintf("Reliability (test split, %d bins): ECE %.3f", cnn.DefaultBins, observed)
+	head := fmt.Sprintf("Reliability (test split, %d bins)", cnn.DefaultBins)
 	if ece == nil {
-		return head + "\nno interval: the confidences are not known"
+		return fmt.Sprintf("%s: ECE %.3f\nno interval: the confidences are not known", head, observed)
 	}
 	p := fmt.Sprintf("p = %.2g", ece.P)
 	if _, bound, ok := strings.Cut(ece.String(), "calibration p ≤ "); ok && ece.AtFloor {
-		p = "p <= " + strings.TrimSuffix(bound, ")")
+		p = "p <= " + bound
 	}
-	return fmt.Sprintf("%s\nbias-corrected %.3f (%.3f–%.3f), calibration test %s", head, ece.Estimate, ece.Low, ece.High, p)
+	return fmt.Sprintf("%s: ECE bias-corrected %.3f (%.3f–%.3f)\nobserved %.3f, calibration test %s", head, ece.Estimate, ece.Low, ece.High, observed, p)
 }
 
 // reliabilityBins are the test predictions in cnn's equal-width confidence
