@@ -450,8 +450,7 @@ func (st *State) retrainNow(as *auditState, done func(*retrained)) {
 		}
 		recordRetrained(rt.Model, as)
 		return func() {
-			st.setStatus(fmt.Sprintf("Retrained without %s: accuracy %.3f on the confirming half of the test split, against %.3f for the model audited.",
-				wording.Count(len(rt.Patterns), "cue", "cues"), rt.Original.After.Estimate, rt.Original.Before.Estimate))
+			st.setStatus(retrainedStatus(rt))
 			done(&retrained{of: as, rt: rt})
 		}, nil
 	})

@@ -93,8 +93,11 @@ func TestCueRow(t *testing.T) {
 		t.Errorf("row\n %q\nwant\n %q", row, want)
 	}
 	c.Confirmed, c.Reliance = nil, c.Confirmed
-	if got := cueRow(r, &c, 2); !strings.HasSuffix(got[7], "(choosing half)") {
-		t.Errorf("a cue measured on the choosing half only does not say so: %q", got[7])
+	// Each of its three reliance figures is the choosing half's, and each
+	// says so.
+	if got := cueRow(r, &c, 2); !strings.HasSuffix(got[7], "(choosing half)") || !strings.HasSuffix(got[8], "(choosing half)") ||
+		!strings.HasSuffix(got[9], "(choosing half)") {
+		t.Errorf("a cue measured on the choosing half only does not say so in each of its reliance figures: %q", got[7:])
 	}
 	c.Reliance = nil
 	if got := cueRow(r, &c, 2); got[7] != "—" || got[9] != "—" {
@@ -145,6 +148,36 @@ func TestRetrainRows(t *testing.T) {
 	for i := range want {
 		if !slices.Equal(got[i], want[i]) {
 			t.Errorf("row %d %q, want %q", i, got[i], want[i])
+		}
+	}
+}
+
+// The status line after retraining gives the exact McNemar test and both
+// accuracies with their intervals, as the comparison's table does; a
+// difference the test does not find (p ≥ 0.05) reads as none, not as a
+// gain, and the verdict comes before the figures (a long line is cut at
+// its end).
+func TestRetrainedStatus(t *testing.T) {
+	rt := &audit.Retrained{Texts: 400, Patterns: []string{"a", "b", "c"},
+		Original: audit.ModelPair{Before: audit.Interval{Estimate: 0.87, Low: 0.833, High: 0.899},
+			After: audit.Interval{Estimate: 0.895, Low: 0.861, High: 0.921}, OnlyBefore: 16, OnlyAfter: 26, P: 0.15}}
+	want := "Retrained without 3 cues: accuracy on the confirming half not clearly different from the model audited's " +
+		"(two-sided exact McNemar p = 0.15): 0.895 (0.861–0.921) against 0.870 (0.833–0.899), 95% intervals."
+	if got := retrainedStatus(rt); got != want {
+		t.Errorf("status\n %q\nwant\n %q", got, want)
+	}
+	for _, c := range []struct {
+		only, onlyAfter int
+		p               float64
+		want            string
+	}{
+		{5, 30, 1e-5, "Retrained without 3 cues: accuracy on the confirming half higher than the model audited's (two-sided exact McNemar p = 1e-05): "},
+		{30, 5, 1e-5, "Retrained without 3 cues: accuracy on the confirming half lower than the model audited's (two-sided exact McNemar p = 1e-05): "},
+		{16, 26, 0.05, "Retrained without 3 cues: accuracy on the confirming half not clearly different from the model audited's (two-sided exact McNemar p = 0.05): "},
+	} {
+		rt.Original.OnlyBefore, rt.Original.OnlyAfter, rt.Original.P = c.only, c.onlyAfter, c.p
+		if got := retrainedStatus(rt); !strings.HasPrefix(got, c.want) || strings.Contains(got, "\n") {
+			t.Errorf("%d right only before, %d only after, p %g: %q, want it to start %q", c.only, c.onlyAfter, c.p, got, c.want)
 		}
 	}
 }

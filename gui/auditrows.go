@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	"telltale/audit"
+	"telltale/internal/wording"
 	"telltale/report"
 )
 
@@ -31,8 +32,8 @@ var cueCols = []string{"#", "cue", "label", "verdict", "training texts", "share 
 	"predictions changed", "same words elsewhere", "decides"}
 
 // cueRow is cue c, ranked rank (from 1) in its list, as a row. The
-// reliance figures are the confirming half's (the choosing half's, marked
-// so, when the confirming half did not measure it).
+// reliance figures are the confirming half's (the choosing half's, each of
+// the three marked so, when the confirming half did not measure it).
 func cueRow(r *audit.Result, c *audit.Candidate, rank int) []string {
 	as := c.Association
 	lo, hi := audit.Wilson(as.InLabel, as.Texts, 0.95)
@@ -46,7 +47,7 @@ func cueRow(r *audit.Result, c *audit.Candidate, rank int) []string {
 	if rl == nil || rl.Measured == 0 {
 		return append(row, "—", "—", "—")
 	}
-	return append(row, pctInterval(rl.FlipRate)+half, pctInterval(rl.ControlFlipRate), pctInterval(rl.Decided))
+	return append(row, pctInterval(rl.FlipRate)+half, pctInterval(rl.ControlFlipRate)+half, pctInterval(rl.Decided)+half)
 }
 
 // cueRows lists cues cs of audit r in their order.
@@ -126,6 +127,28 @@ func retrainRows(rt *audit.Retrained) [][]string {
 			fmt.Sprint(mp.OnlyAfter), pvalue(mp.P)}
 	}
 	return [][]string{row("as it is", rt.Original), row("without the cues", rt.Counterfactual)}
+}
+
+// retrainedStatus is the status line after retraining without the cues:
+// whether the two-sided exact McNemar test tells the two models' accuracies
+// apart on the confirming half as it is, then both accuracies with their
+// 95% Wilson intervals, all as audit.Retrain measured them (rt.Original).
+// A difference the test does not find at the 5% level, the level of those
+// intervals (common practice, no source), reads as no clear difference,
+// never as a gain or a loss. The verdict and p come first: the status bar
+// ends a line too long for a small screen in "…".
+func retrainedStatus(rt *audit.Retrained) string {
+	mp := rt.Original
+	verdict := "not clearly different from"
+	if mp.P < 0.05 {
+		verdict = "lower than"
+		if mp.OnlyAfter > mp.OnlyBefore {
+			verdict = "higher than"
+		}
+	}
+	return fmt.Sprintf("Retrained without %s: accuracy on the confirming half %s the model audited's (two-sided exact McNemar p = %s): "+
+		"%s against %s, 95%% intervals.",
+		wording.Count(len(rt.Patterns), "cue", "cues"), verdict, pvalue(mp.P), accInterval(mp.After), accInterval(mp.Before))
 }
 
 // windowStory is the story of audit r for the window: its lines, broken to

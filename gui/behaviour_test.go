@@ -127,6 +127,17 @@ func TestNewRunStartsClean(t *testing.T) {
 	if bars != 0 {
 		t.Errorf("the Training view has %d progress bars of its own", bars)
 	}
+	// The epoch table says that the dev split chose the epoch, as train
+	// heads the dev split's figures.
+	captioned := false
+	walkObjects(tv.content(), func(o fyne.CanvasObject) {
+		if l, ok := o.(*widget.Label); ok && strings.Contains(l.Text, "dev split, used to choose the epoch") {
+			captioned = true
+		}
+	})
+	if !captioned {
+		t.Error("the Training view does not say that the dev split chose the epoch")
+	}
 }
 
 // menuItem finds an item of the window's main menu.

@@ -16,6 +16,7 @@ import (
 	"fyne.io/fyne/v2/storage"
 	"fyne.io/fyne/v2/widget"
 
+	"telltale/internal/atomicfile"
 	"telltale/internal/inputfile"
 )
 
@@ -196,6 +197,13 @@ func (st *State) saveDialog(title, name string, write func(path string) error) {
 		st.saveDir = dir
 		if err := st.notAnInput(path); err != nil {
 			st.showError(err)
+			return
+		}
+		// A pipe, a device or a process's descriptor is refused before
+		// anything is asked, as writeFile (atomicfile.Write) would refuse it
+		// after "Replace it?".
+		if _, err := atomicfile.Resolve(path); err != nil {
+			st.showErrorf(err, "could not write %s (any file that was there is unchanged)", path)
 			return
 		}
 		info, err := os.Stat(path)

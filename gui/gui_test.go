@@ -511,6 +511,11 @@ func (s *session) retrain() {
 	if !reflect.DeepEqual(p.compare.rows, retrainRows(rt)) || p.saveRetrain.Disabled() {
 		t.Errorf("the comparison shows %q, want %q, and the retrained model can be saved", p.compare.rows, retrainRows(rt))
 	}
+	// The status bar gives the test between the two models and their
+	// intervals, not the accuracies alone.
+	if got, want := st.statusText(), retrainedStatus(rt); got != want {
+		t.Errorf("status %q after retraining, want %q", got, want)
+	}
 	// The retrained model records the audited model's splits and the
 	// choosing half as the texts that chose its cues, as audit
 	// --retrain-out does; the window warns of them on that test split.

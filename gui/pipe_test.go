@@ -5,6 +5,7 @@ package gui
 import (
 	"context"
 	"errors"
+	"io"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -214,6 +215,40 @@ func TestSplitRecordOfAPipedTestFile(t *testing.T) {
 		}
 		if r := cs.record(0.1, 0, 1, cs); r.TestPipe != piped || r.TestFile != "/data/test.csv" {
 			t.Errorf("test file piped %v: record says pipe %v, file %q", piped, r.TestPipe, r.TestFile)
+		}
+	}
+}
+
+// A save onto a named pipe, or onto a link to a process's descriptor, is
+// refused before "Replace it?" is asked, in the words the writer
+// (atomicfile.Write) refuses it in; nothing is written.
+func TestSaveRefusesAPipeBeforeAsking(t *testing.T) {
+	dir := t.TempDir()
+	fifo, link := filepath.Join(dir, "p.csv"), filepath.Join(dir, "out.csv")
+	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
+		t.Skipf("no named pipe here: %v", err)
+	}
+	if err := os.Symlink("/dev/stdout", link); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct{ name, says string }{
+		{"p.csv", "is a named pipe, not a file"},
+		{"out.csv", "a process's descriptor, not a file"},
+	} {
+		st, _ := saveState(t, dir)
+		written := 0
+		st.writeFile = func(string, func(io.Writer) error) error { written++; return nil }
+		st.exportCSVDialog()
+		sf := shownSave(t, st)
+		sf.choose()
+		sf.name.SetText(c.name)
+		sf.form.Submit()
+		if sf.confirm != nil || written != 0 {
+			t.Errorf("saving as %s asked to replace it (%v) or wrote it (%d writes)", c.name, sf.confirm != nil, written)
+		}
+		path := filepath.Join(dir, c.name)
+		if s := st.statusText(); !strings.Contains(s, "could not write "+path) || !strings.Contains(s, c.says) {
+			t.Errorf("saving as %s: status %q, want it refused as %q", c.name, s, c.says)
 		}
 	}
 }

@@ -199,7 +199,7 @@ func numberCell(x float64) string {
 // or m's file record of it (cnn.Info.BaselineStopped, train's Ctrl-C), says
 // that the run was stopped before the baseline it asked for was fitted.
 func figureLines(f cnn.Figures, m *cnn.Model, stopped bool) (head, beside string) {
-	head = fmt.Sprintf("accuracy %s, macro-F1 %s", f.CNN.Accuracy, f.CNN.MacroF1)
+	head = headlineWords(f.CNN)
 	if f.Baseline == nil || f.McNemar == nil || m.Baseline == nil {
 		if stopped || m.Info.BaselineStopped {
 			return head, "No linear baseline to set beside it: the run was stopped before the baseline was fitted. Train again and let the run end to have one."
@@ -213,6 +213,12 @@ func figureLines(f cnn.Figures, m *cnn.Model, stopped bool) (head, beside string
 	beside = fmt.Sprintf("Linear baseline (%s): accuracy %s, macro-F1 %s. %s.",
 		c, f.Baseline.Accuracy, f.Baseline.MacroF1, capitalize(f.McNemar.Sentence()))
 	return head, beside + baselineAdvice(m, *f.McNemar)
+}
+
+// headlineWords words a headline as the command line prints it: "accuracy
+// 0.912 (0.890–0.931), macro-F1 0.905 (0.880–0.927)".
+func headlineWords(h cnn.Headline) string {
+	return fmt.Sprintf("accuracy %s, macro-F1 %s", h.Accuracy, h.MacroF1)
 }
 
 // baselineAdvice words cnn.BaselineRemedies of m in the Training form's

@@ -161,6 +161,28 @@ func TestFigureLinesWithoutBaseline(t *testing.T) {
 	}
 }
 
+// The status line after a run gives the epoch the dev split chose (or
+// says none did) and the test split's accuracy and macro-F1 with their
+// intervals (cnn.HeadlineOf: Wilson for the accuracy), in one line, as the
+// Results view writes them.
+func TestTrainedStatus(t *testing.T) {
+	m := cnn.ComputeMetrics([]string{"a", "b"}, []int{0, 1, 1, 0}, []int{0, 1, 0, 0}, nil, 0)
+	h := cnn.HeadlineOf(m)
+	got := trainedStatus("Trained", 3, true, h)
+	want := "Trained: epoch 3 chosen on the dev split; test split: accuracy " + cnn.WilsonInterval(3, 4, 0.95).String() +
+		", macro-F1 " + h.MacroF1.String() + " (95% intervals)."
+	if got != want || strings.Contains(got, "\n") {
+		t.Errorf("status %q, want %q", got, want)
+	}
+	// Without a dev split the last epoch is kept, and nothing chose it.
+	if s := trainedStatus("Trained", 3, false, h); strings.Contains(s, "chosen on the dev split") || !strings.Contains(s, "no dev split") {
+		t.Errorf("status without a dev split %q", s)
+	}
+	if head, _ := figureLines(cnn.FiguresOf(m, nil), &cnn.Model{}, false); !strings.Contains(got, head) {
+		t.Errorf("status %q does not word the figures as the Results view does (%q)", got, head)
+	}
+}
+
 // A run stopped before its baseline was fitted, in the window or as the
 // model file records it, says so, rather than ask for the Linear baseline
 // check that was on.

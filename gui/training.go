@@ -149,8 +149,8 @@ func (st *State) trainWork(ctx context.Context, report reporter, run *trainRun, 
 		if res.Cancelled {
 			word = "Stopped; kept the best model so far"
 		}
-		st.setStatus(fmt.Sprintf("%s: best epoch %d, test accuracy %.3f, macro-F1 %.3f.",
-			word, res.BestEpoch, eval.Metrics.Accuracy, eval.Metrics.MacroF1))
+		onDev := res.BestEpoch > 0 && res.Epochs[res.BestEpoch-1].Dev != nil
+		st.setStatus(trainedStatus(word, res.BestEpoch, onDev, eval.Figures.CNN))
 		if cs != itemGet(st.data) {
 			st.data.Set(cs)
 		}
@@ -161,6 +161,19 @@ func (st *State) trainWork(ctx context.Context, report reporter, run *trainRun, 
 			f(true)
 		}
 	}, nil
+}
+
+// trainedStatus is the status line after a run (word: how it ended): the
+// epoch kept, chosen on the dev split (onDev) or, with no dev split, the
+// last, and the test split's headline h (cnn.HeadlineOf of its metrics)
+// with its intervals, as the Results view writes them.
+func trainedStatus(word string, bestEpoch int, onDev bool, h cnn.Headline) string {
+	chosen := "chosen on the dev split"
+	if !onDev {
+		chosen = "kept, the last (no dev split to choose one)"
+	}
+	return fmt.Sprintf("%s: epoch %d %s; test split: %s (%g%% intervals).",
+		word, bestEpoch, chosen, headlineWords(h), 100*cnn.IntervalLevel)
 }
 
 // trainModel trains a new model on cs's training split with early stopping

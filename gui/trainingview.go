@@ -142,7 +142,8 @@ func (v *trainingView) layout() fyne.CanvasObject {
 	left := container.NewBorder(bold("Recipe"), container.NewHBox(v.trainBtn, v.stopBtn, defaults), nil, nil,
 		container.NewVScroll(v.form))
 	curves := container.NewGridWithColumns(2, v.loss, v.dev)
-	right := container.NewBorder(v.line, nil, nil, nil, container.NewVSplit(curves, v.epochs.view()))
+	epochs := container.NewBorder(wrapped(epochsCaption), nil, nil, nil, v.epochs.view())
+	right := container.NewBorder(v.line, nil, nil, nil, container.NewVSplit(curves, epochs))
 	split := container.NewHSplit(left, right)
 	split.Offset = 0.36
 	return split
@@ -246,6 +247,12 @@ func devPlot(devX, devAcc, devF1 []float64) *plot.Plot {
 	legendAbove(pd)
 	return pd
 }
+
+// epochsCaption says what the epoch table's dev figures are, as train
+// heads them ("used to choose the epoch"): the dev split chose the epoch
+// kept, so they measure no model; the test split's, with their intervals,
+// are in Results.
+const epochsCaption = "Each epoch on the dev split, used to choose the epoch kept: no measure of the model (the test split's figures, with intervals, are in Results)."
 
 // epochRows is one row per epoch.
 func epochRows(es []cnn.EpochResult) [][]string {
