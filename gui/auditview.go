@@ -9,6 +9,7 @@ import (
 
 	"telltale/audit"
 	"telltale/internal/wording"
+	"telltale/report"
 )
 
 // auditView shows the cue audit (package audit) of the open model: the
@@ -174,6 +175,7 @@ func (v *auditView) auditChanged() {
 	if a == nil {
 		v.summary.SetText("")
 		v.story.SetText(noAuditYet)
+		v.ranked.exportRows, v.task.exportRows = nil, nil
 		v.ranked.setRows(nil)
 		v.task.setRows(nil)
 		v.setTabTitles(0, 0)
@@ -185,6 +187,13 @@ func (v *auditView) auditChanged() {
 		"halved at random into %d that choose the cues and %d that confirm them: every figure comes from the confirming half unless it says otherwise.",
 		wording.Texts(r.TrainTexts), wording.Texts(r.HeldoutTexts), r.SelectionTexts, r.ConfirmationTexts))
 	v.story.SetText(windowStory(r))
+	// File › Export table as CSV writes the cues as audit --export does:
+	// numbers, each interval as its value, low and high (report.CueTable
+	// lists the artifact-like cues, then those like the task).
+	cues := report.CueTable(r)
+	rows := cues.RowStrings()
+	v.ranked.exportCols, v.ranked.exportRows = cues.Columns, rows[:len(r.Ranked)]
+	v.task.exportCols, v.task.exportRows = cues.Columns, rows[len(r.Ranked):]
 	v.ranked.setRows(cueRows(r, r.Ranked))
 	v.task.setRows(cueRows(r, r.Task))
 	v.setTabTitles(len(r.Ranked), len(r.Task))

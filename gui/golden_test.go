@@ -1,11 +1,15 @@
 package gui
 
 import (
+	"bytes"
+	"encoding/csv"
 	"flag"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"runtime"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -14,6 +18,7 @@ import (
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/report"
 )
 
 var update = flag.Bool("update", false, "rewrite the golden renderings in testdata/")
@@ -131,5 +136,25 @@ func TestGoldenLoaded(t *testing.T) {
 		st.tabs.SelectIndex(i)
 		q.drain()
 		assertRenders(t, filepath.Join("loaded", goldenName(spec.Title)), w.Canvas())
+	}
+	// The audit's table exports as audit --export writes it: its columns,
+	// a row per cue listed, numbers where it holds numbers.
+	var b bytes.Buffer
+	if err := st.auditView.exportTable().writeCSV(&b); err != nil {
+		t.Fatal(err)
+	}
+	recs, err := csv.NewReader(&b).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := itemGet(st.audit).R
+	if cols := report.CueTable(a).Columns; !slices.Equal(recs[0], cols) || len(recs) != 1+len(a.Ranked) {
+		t.Fatalf("audit CSV: header %v, %d rows; want %v, %d rows", recs[0], len(recs)-1, cols, len(a.Ranked))
+	}
+	at := slices.Index(recs[0], "label_share")
+	for _, r := range recs[1:] {
+		if _, err := strconv.ParseFloat(r[at], 64); err != nil {
+			t.Errorf("audit CSV: label_share %q is not a number", r[at])
+		}
 	}
 }

@@ -52,6 +52,19 @@ func (t *Table) WriteCSV(w io.Writer) error {
 	return cw.Error()
 }
 
+// RowStrings is the text of every cell of every row, as WriteCSV writes
+// it.
+func (t *Table) RowStrings() [][]string {
+	out := make([][]string, len(t.Rows))
+	for i, r := range t.Rows {
+		out[i] = make([]string, len(r))
+		for j, c := range r {
+			out[i][j] = cellText(c)
+		}
+	}
+	return out
+}
+
 // WriteJSONL writes one JSON object per row, keys in column order.
 func (t *Table) WriteJSONL(w io.Writer) error {
 	var buf bytes.Buffer
