@@ -43,13 +43,15 @@ at --alpha (filters that fail are not selective); the n-grams that win its max
 pooling most strongly (with the score of every slot); its negative n-grams,
 windows whose positive slots would pass the threshold but whose negative slots
 hold them below it; the families its windows above the threshold fall into,
-with their share and stability; the words that switch each slot on (triggers)
-and off (suppressors); and its activation histogram (in --json). For a model
-that records no splits, --data is streamed, not held, and read twice when a
-filter's negative n-grams need a second search. A model with a character layer
-(train --chars) reads the words outside its vocabulary from their characters,
-as eval does, so its texts are held. Filters are numbered from 0, as in every
-command; --filters shows only those listed.`,
+chosen on the half that chose the threshold, each with its share measured on
+the other half and its stability with a Monte Carlo interval; the words that
+switch each slot on (triggers) and off (suppressors); and its activation
+histogram (in --json). For a model that records no splits, --data is streamed,
+not held, and read twice when a filter's negative n-grams need a second
+search. A model with a character layer (train --chars) reads the words outside
+its vocabulary from their characters, as eval does, so its texts are held.
+Filters are numbered from 0, as in every command; --filters shows only those
+listed.`,
 	Options: func() options { return new(filtersOptions) },
 	Run:     runAs(runFilters),
 }
@@ -350,15 +352,21 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 	}
 	writeNegatives(ew, f, top)
 	if len(f.Families) > 0 {
-		ew.printf("  families (from a sample of %d of the %s above the threshold; share of those windows with its 95%% interval\n"+
-			"  over resampling that sample, which is the share itself when every window of the sample's strata that hold the family\n"+
-			"  was sampled; stability):\n",
-			f.FamilySample, wording.Count(f.Selectivity.Above, "window", "windows"))
+		sel := f.Selectivity
+		ew.printf("  families (chosen on a sample of %d of the choosing half's %s above the threshold; share measured on a sample\n"+
+			"  of %d of the other half's %s above it, which took no part in choosing them, with its 95%% interval over resampling\n"+
+			"  that sample (the share itself when that half was sampled whole); stability with its 95%% Monte Carlo interval):\n",
+			f.FamilySample, wording.Count(sel.Above-sel.Windows, "window", "windows"), f.FamilyMeasured, wording.Count(sel.Windows, "window", "windows"))
 	}
 	for _, fam := range f.Families {
 		stab := "-"
 		if fam.Stability != nil {
-			stab = fmt.Sprintf("%.2f", *fam.Stability)
+			stab = fmt.Sprintf("%.2f (%.2f–%.2f)", *fam.Stability, *fam.StabilityLow, *fam.StabilityHigh)
+		}
+		if math.IsNaN(fam.Share) {
+			ew.printf("    %-36s share –, no measured window  stability %s  (%s)\n",
+				fam.Pattern, stab, wording.Count(fam.Ngrams, "n-gram", "n-grams"))
+			continue
 		}
 		// The count's interval is the share's, over the windows above the threshold.
 		above := float64(f.Selectivity.Above)

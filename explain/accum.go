@@ -95,7 +95,7 @@ type filterAcc struct {
 
 func newFilterAccs(cfg cnn.Config, opt *ProfileOptions, ub []float32) *filterAccs {
 	a := &filterAccs{filters: make([]filterAcc, cfg.NumFilters()), filtersF: cfg.Filters}
-	bars := make([]uint64, famStrata*cfg.NumFilters())
+	bars := make([]uint64, famCells*cfg.NumFilters())
 	for h := range a.assigned {
 		a.assigned[h] = make([]int, cfg.Classes)
 	}
@@ -107,8 +107,8 @@ func newFilterAccs(cfg cnn.Config, opt *ProfileOptions, ub []float32) *filterAcc
 			total:  make([]int32, 4*fineBins),
 			scale:  fineBins / ub[g],
 			sky:    newSkyline(opt.Negatives, opt.Examples),
-			fam:    &famSample{bar: bars[g*famStrata : (g+1)*famStrata]},
-			famBar: bars[g*famStrata : (g+1)*famStrata],
+			fam:    &famSample{bar: bars[g*famCells : (g+1)*famCells]},
+			famBar: bars[g*famCells : (g+1)*famCells],
 			opt:    opt,
 		}
 	}
@@ -367,7 +367,7 @@ func (fa *filterAcc) add(a float32, t int, ids []int32, pred, g, text, gold, hf 
 	fa.hist[4*bin+2*hf+in]++
 	fa.top.push(actEntry{a: a, in: inClass, half: hf == 1}, fa.opt.ExactTop)
 	win := ids[t : t+fa.width]
-	j := stratum(bin)
+	j := cell(hf, bin)
 	prio := priority(fa.opt.Seed, text, g)
 	if b := fa.famBar[j]; b == 0 || prio < b {
 		fa.fam.add(j, prio, a, win, fa.opt.FamilySample)

@@ -102,12 +102,15 @@
 //     texts it saw first are searched again at the end; a filter whose
 //     threshold left a band is searched again over the texts read anew
 //     (ProfileOptions.Reopen) or marked inexact.
-//   - Families: a stratified random sample of all winning windows above the
-//     threshold, each weighted by the windows it stands for
-//     (Horvitz–Thompson), clustered by slot-score vector with weighted
-//     average linkage (Sokal & Michener 1958), clusters that read the same
-//     pattern joined into one family, with share intervals and a bootstrap
-//     stability figure.
+//   - Families: a stratified random sample of the winning windows above
+//     the threshold in the half that chose the threshold, each weighted by
+//     the windows it stands for (Horvitz–Thompson), clustered by slot-score
+//     vector with weighted average linkage (Sokal & Michener 1958),
+//     clusters that read the same pattern joined into one family; each
+//     family's share is measured on the other half's sample (its windows
+//     placed in the nearest family), which took no part in choosing the
+//     families, with a resampling interval, and its bootstrap stability
+//     (Hennig 2007) has a Monte Carlo interval.
 //
 // Memory does not grow with the corpus: per filter it keeps bounded top
 // lists, skylines and samples and a fine histogram. ProfileStream does the

@@ -10,15 +10,23 @@ import (
 
 // Family is a group of a filter's winning windows above its selectivity
 // threshold whose slot-score vectors are close: one of the things the
-// filter means. Families are built from the stratified sample of the
-// windows above the threshold (see FilterProfile.FamilySample), each
-// distinct n-gram weighted by the number of windows it stands for; the
-// clusters whose patterns are equal are one family, so that no two
-// families of a filter share a pattern.
+// filter means. The texts are split in the two halves of Selectivity (a
+// fixed hash of each text's position in the corpus, so that no text's
+// window lies on both sides): families are chosen on the half that chose
+// the threshold and measured on the other. On the choosing half they are
+// built from its stratified sample of the windows above the threshold (see
+// FilterProfile.FamilySample), each distinct n-gram weighted by the number
+// of windows it stands for; the clusters whose patterns are equal are one
+// family, so that no two families of a filter share a pattern. Each window
+// of the other half's sample above the threshold is then placed in the
+// family whose centroid is nearest (the rule that places a text's window,
+// see Profiles.familyOf), and the share is measured there, on windows that
+// took no part in choosing the families or the threshold.
 type Family struct {
-	Ngrams int `json:"ngrams"` // distinct n-grams sampled in the family
-	// Count is Weight rounded: the estimated number of texts whose winning
-	// window is in the family.
+	Ngrams int `json:"ngrams"` // distinct n-grams of the choosing half's sample in the family
+	// Count is Share times the windows above the threshold over both
+	// halves (Selectivity.Above), rounded: the estimated number of texts
+	// whose winning window is in the family (0 when Share is undefined).
 	Count   int          `json:"count"`
 	Pattern string       `json:"pattern"` // e.g. "good|great * service"; "*" marks a wildcard slot
 	Slots   []FamilySlot `json:"slots"`
@@ -30,29 +38,70 @@ type Family struct {
 	// Members holds the tokens of up to five members, largest weight first.
 	Members [][]string `json:"members"`
 
-	// Sampled is the number of sampled windows in the family.
+	// Sampled is the number of the choosing half's sampled windows in the
+	// family.
 	Sampled int `json:"sampled"`
-	// Weight is the estimated number of windows in the family: the sum of
-	// its sampled windows' weights (Horvitz–Thompson; exact when every
-	// window above the threshold was sampled).
+	// Weight is the estimated number of the choosing half's windows in the
+	// family: the sum of its sampled windows' weights (Horvitz–Thompson;
+	// exact when every window of that half above the threshold was
+	// sampled). It orders the families, largest first.
 	Weight float64 `json:"weight"`
-	// Share is Weight over the weight of all windows above the threshold,
-	// with a 95% percentile interval from resampling each stratum's sample
-	// with replacement (the family's n-grams held fixed; a stratum sampled
-	// whole is not resampled, so the interval is the share itself when
-	// every window above the threshold was sampled).
+	// Measured is the number of the other (measuring) half's sampled
+	// windows placed in the family.
+	Measured int `json:"measured"`
+	// Share is measured on the other half alone: the estimated number of
+	// its windows above the threshold placed in the family over the
+	// estimated number of all its windows above the threshold
+	// (Horvitz–Thompson weights), with a 95% percentile interval from
+	// resampling each of that half's strata's sample with replacement (the
+	// families held fixed: they were chosen on the other half; a stratum
+	// sampled whole is not resampled, so the interval is the share itself
+	// when every window of that half above the threshold was sampled). A
+	// family none of whose measured windows was placed in has Share 0;
+	// unless that half was sampled whole, its ShareHigh is then the exact
+	// (Clopper–Pearson) upper bound for 0 successes in the sample's
+	// effective size (Kish 1965, Survey Sampling), as Korn & Graubard 1998
+	// ("Confidence intervals for proportions with small expected number of
+	// positive counts estimated from survey data", Survey Methodology) do
+	// for survey proportions, since resampling never draws what it never
+	// saw. Share, ShareLow and ShareHigh are NaN (JSON null) when no
+	// sampled window of the measuring half lies above the threshold.
 	Share     float64 `json:"share"`
 	ShareLow  float64 `json:"share_low"`
 	ShareHigh float64 `json:"share_high"`
 	// Stability is how often two of the family's n-grams fall in the same
-	// family again when the windows are resampled with replacement and
-	// clustered anew (clusters of one pattern joined, as here): the mean over its pairs of n-grams, each pair
-	// weighted by the product of their weights, of the share of resamples
-	// holding both that put them together (a pairwise form of the
-	// bootstrap cluster stability of Hennig 2007, "Cluster-wise assessment
-	// of cluster stability", Computational Statistics & Data Analysis,
-	// which uses the Jaccard coefficient). Nil for a family of one n-gram.
-	Stability *float64 `json:"stability"`
+	// family again when the choosing half's sample is resampled with
+	// replacement and clustered anew (clusters of one pattern joined, as
+	// here): in each resample, the share of the family's pairs of n-grams
+	// both present whose two n-grams share a family there, each pair
+	// weighted by the product of their weights; Stability is the mean of
+	// that figure over the resamples holding a pair (a pairwise form of
+	// the bootstrap cluster stability of Hennig 2007, "Cluster-wise
+	// assessment of cluster stability", Computational Statistics & Data
+	// Analysis, which averages a Jaccard coefficient over resamples). Nil
+	// for a family of one n-gram.
+	//
+	// StabilityLow and StabilityHigh bound it with 95% confidence over
+	// the Monte Carlo error of its finite number of resamples: the Wilson
+	// score interval (Wilson 1927) with the per-resample figures' mean for
+	// the proportion, which for figures in [0, 1] uses the largest
+	// variance they can have at that mean, μ(1 − μ) (Bhatia & Davis 2000,
+	// "A better bound on the variance", Amer. Math. Monthly), so that the
+	// interval does not shrink to a point when every resample agrees.
+	Stability     *float64 `json:"stability"`
+	StabilityLow  *float64 `json:"stability_low"`
+	StabilityHigh *float64 `json:"stability_high"`
+}
+
+// MarshalJSON writes an undefined share (NaN) and its interval as null.
+func (f Family) MarshalJSON() ([]byte, error) {
+	type plain Family
+	return jsonMarshal(struct {
+		plain
+		Share     *float64 `json:"share"`
+		ShareLow  *float64 `json:"share_low"`
+		ShareHigh *float64 `json:"share_high"`
+	}{plain(f), finite(f.Share), finite(f.ShareLow), finite(f.ShareHigh)})
 }
 
 // FamilySlot describes one slot of a family. A slot is dominant when it is
@@ -74,7 +123,7 @@ const DominantShare = 0.8
 
 // Resamples of the family statistics.
 const (
-	familyStabilityResamples = 20
+	familyStabilityResamples = 50
 	familyShareResamples     = 200
 )
 
@@ -85,13 +134,52 @@ type familyItem struct {
 	slots   []float64
 	weight  float64
 	sampled int
+	// words numbers the tokens: equal tokens, equal numbers (internWords).
+	words []int32
 }
 
-// buildFamilies clusters the sampled windows of filter g at or above theta
-// (see famSample), joins the clusters that read the same
-// (mergeSamePattern) and describes each family.
-func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float64, seed uint64) []Family {
-	ws, m := fs.above(theta)
+// internWords numbers the items' tokens (familyItem.words) unless they are
+// numbered already, and returns a tally for as many numbers.
+func internWords(items []familyItem) *wordTally {
+	var nw int32
+	if len(items) > 0 && items[0].words != nil {
+		for _, it := range items {
+			for _, x := range it.words {
+				nw = max(nw, x+1)
+			}
+		}
+		return &wordTally{weight: make([]float64, nw), seen: make([]bool, nw)}
+	}
+	index := map[string]int32{}
+	for i := range items {
+		items[i].words = make([]int32, len(items[i].tokens))
+		for s, t := range items[i].tokens {
+			x, ok := index[t]
+			if !ok {
+				x = int32(len(index))
+				index[t] = x
+			}
+			items[i].words[s] = x
+		}
+	}
+	return &wordTally{weight: make([]float64, len(index)), seen: make([]bool, len(index))}
+}
+
+// wordTally adds up weights by word number (topWordsAt); between uses its
+// weights are all 0 and no word is seen.
+type wordTally struct {
+	weight []float64
+	seen   []bool
+	order  []int32
+}
+
+// buildFamilies clusters the choosing half's sampled windows of filter g
+// at or above theta (see famSample), joins the clusters that read the
+// same (mergeSamePattern), describes each family and measures its share on
+// the other half's sampled windows at or above theta; above is the number
+// of windows at or above theta over both halves.
+func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float64, seed uint64, above int) []Family {
+	ws, m := fs.above(theta, 0)
 	if len(ws) == 0 {
 		return nil
 	}
@@ -115,9 +203,9 @@ func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float
 	var scratch upgmaScratch
 	scratch.keepDistances(vecs)
 	labels := mergeSamePattern(items, weights, scratch.cut(vecs, weights, cut))
-	// Per stratum, the item of every sampled window (−1 below the
-	// threshold), for resampling.
-	var strata [famStrata][]int
+	// Per cell of the choosing half, the item of every sampled window (−1
+	// below the threshold), for resampling.
+	strata := make([][]int, famStrata)
 	for j := range famStrata {
 		for _, it := range fs.items[j] {
 			k := -1
@@ -128,36 +216,113 @@ func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float
 		}
 	}
 	rng := rand.New(rand.NewPCG(seed, uint64(g)))
-	// resample draws each stratum's sample again with replacement; with
-	// census set, a stratum sampled whole is kept as it is (its windows
-	// carry no sampling error).
-	resample := func(dst []float64, census bool) {
-		clear(dst)
-		for j, ks := range strata {
-			if len(ks) == 0 {
-				continue
-			}
-			w := float64(fs.n[j]) / float64(m[j])
-			if census && m[j] == fs.n[j] {
-				for _, k := range ks {
-					if k >= 0 {
-						dst[k] += w
-					}
-				}
-				continue
-			}
-			for range ks {
-				if k := ks[rng.IntN(len(ks))]; k >= 0 {
+	fams := describeFamilies(items, labels)
+	familyStability(fams, items, labels, vecs, weights, cut, func(dst []float64) { resampleCells(dst, strata, fs.n[:famStrata], m[:famStrata], false, rng) }, &scratch)
+	slices.SortStableFunc(fams, func(x, y Family) int { return cmp.Compare(y.Weight, x.Weight) })
+	measureFamilies(st, g, fs, theta, fams, above, rand.New(rand.NewPCG(seed, uint64(g)^0x6d656173757265)))
+	return fams
+}
+
+// resampleCells adds to dst (cleared first), for every sampled window of
+// the cells whose items (−1 below the threshold) ks holds, its cell's
+// weight n/m to its item's entry, each cell's sample drawn again with
+// replacement; with census set, a cell sampled whole is kept as it is (its
+// windows carry no sampling error).
+func resampleCells(dst []float64, cells [][]int, n, m []int, census bool, rng *rand.Rand) {
+	clear(dst)
+	for j, ks := range cells {
+		if len(ks) == 0 {
+			continue
+		}
+		w := float64(n[j]) / float64(m[j])
+		if census && m[j] == n[j] {
+			for _, k := range ks {
+				if k >= 0 {
 					dst[k] += w
 				}
 			}
+			continue
+		}
+		for range ks {
+			if k := ks[rng.IntN(len(ks))]; k >= 0 {
+				dst[k] += w
+			}
 		}
 	}
-	fams := describeFamilies(items, labels)
-	familyShares(fams, labels, weights, func(dst []float64) { resample(dst, true) })
-	familyStability(fams, items, labels, vecs, weights, cut, func(dst []float64) { resample(dst, false) }, &scratch)
-	slices.SortStableFunc(fams, func(x, y Family) int { return cmp.Compare(y.Weight, x.Weight) })
-	return fams
+}
+
+// measureFamilies places each of the measuring half's sampled windows at
+// or above theta in the nearest family (nearestFamily) and sets the
+// families' Measured, Share with its interval and Count (see Family).
+func measureFamilies(st *SlotTable, g int, fs *famSample, theta float32, fams []Family, above int, rng *rand.Rand) {
+	ws, m := fs.above(theta, 1)
+	nan := math.NaN()
+	for l := range fams {
+		fams[l].Share, fams[l].ShareLow, fams[l].ShareHigh = nan, nan, nan
+	}
+	if len(ws) == 0 {
+		return
+	}
+	famOf := map[string]int{}
+	for _, w := range ws {
+		if _, ok := famOf[w.key]; !ok {
+			famOf[w.key] = nearestFamily(fams, newFamilyItem(st, g, w.key).slots)
+		}
+	}
+	// Per cell of the measuring half, the family of every sampled window
+	// (−1 below the threshold).
+	cells := make([][]int, famStrata)
+	census := true
+	for j := range famStrata {
+		c := famStrata + j
+		for _, it := range fs.items[c] {
+			k := -1
+			if it.act >= theta {
+				k = famOf[it.key]
+			}
+			cells[j] = append(cells[j], k)
+		}
+		census = census && m[c] == fs.n[c]
+	}
+	n, mm := fs.n[famStrata:], m[famStrata:]
+	weights := make([]float64, len(fams))
+	var total, sq float64
+	for _, w := range ws {
+		l := famOf[w.key]
+		weights[l] += w.weight
+		fams[l].Measured++
+		total += w.weight
+		sq += w.weight * w.weight
+	}
+	shares := make([][]float64, len(fams))
+	rw := make([]float64, len(fams))
+	for range familyShareResamples {
+		resampleCells(rw, cells, n, mm, true, rng)
+		var t float64
+		for _, w := range rw {
+			t += w
+		}
+		if t == 0 {
+			continue
+		}
+		for l, w := range rw {
+			shares[l] = append(shares[l], w/t)
+		}
+	}
+	for l := range fams {
+		f := &fams[l]
+		f.Share = weights[l] / total
+		f.ShareLow, f.ShareHigh = percentileInterval(shares[l], 0.95)
+		if f.Measured == 0 {
+			f.Share, f.ShareLow, f.ShareHigh = 0, 0, 0
+			if !census {
+				// Clopper–Pearson's upper bound for 0 of n_eff, Kish's
+				// effective sample size (Σw)²/Σw².
+				f.ShareHigh = 1 - math.Pow(0.025, sq/(total*total))
+			}
+		}
+		f.Count = int(math.Round(f.Share * float64(above)))
+	}
 }
 
 func newFamilyItem(st *SlotTable, g int, key string) familyItem {
@@ -192,7 +357,7 @@ func upgmaCut(x [][]float64, w []float64, cut float64) []int {
 // filter.
 type upgmaScratch struct {
 	d, size       []float64
-	alive         []bool
+	live          []int32
 	parent, chain []int
 	merges        []merge
 	// all, when set by keepDistances, holds the distances between every
@@ -288,20 +453,22 @@ type merge struct {
 // nnChain returns the merges of the average-linkage tree over k clusters
 // with distance matrix d (k×k, overwritten) and weights w[idx[i]].
 //
-// The diagonal and the columns of merged-away clusters hold +Inf, so that
-// the nearest-neighbour search is a plain scan of a row: +Inf never wins
-// (the comparison is strict), as a skipped entry would not.
+// The diagonal holds +Inf, which never wins a nearest-neighbour search
+// (the comparison is strict). The searches and the updates walk the list of
+// the clusters still alive, in increasing order (so that ties go to the
+// first, as in a scan of the whole row), and a merged-away cluster's row
+// and column are left as they are.
 func (u *upgmaScratch) nnChain(d []float64, k int, w []float64, idx []int) []merge {
-	u.size, u.alive = grow(u.size, k), grow(u.alive, k)
-	size, alive := u.size, u.alive
+	u.size, u.live = grow(u.size, k), grow(u.live, k)
+	size, live := u.size, u.live
 	for i := range size {
-		size[i], alive[i] = w[idx[i]], true
+		size[i], live[i] = w[idx[i]], int32(i)
 		d[i*k+i] = math.Inf(1)
 	}
 	merges, chain := u.merges[:0], u.chain[:0]
-	for left := k; left > 1; {
+	for len(live) > 1 {
 		if len(chain) == 0 {
-			chain = append(chain, slices.Index(alive, true))
+			chain = append(chain, int(live[0]))
 		}
 		a := chain[len(chain)-1]
 		prev := -1
@@ -314,9 +481,10 @@ func (u *upgmaScratch) nnChain(d []float64, k int, w []float64, idx []int) []mer
 		if prev >= 0 {
 			bd = d[a*k+prev]
 		}
-		for j, v := range d[a*k : (a+1)*k] {
-			if v < bd {
-				b, bd = j, v
+		row := d[a*k : (a+1)*k]
+		for _, j := range live {
+			if v := row[j]; v < bd {
+				b, bd = int(j), v
 			}
 		}
 		if b != prev {
@@ -326,18 +494,20 @@ func (u *upgmaScratch) nnChain(d []float64, k int, w []float64, idx []int) []mer
 		chain = chain[:len(chain)-2]
 		merges = append(merges, merge{a: a, b: b, d: bd})
 		na, nb := size[a], size[b]
-		for j := 0; j < k; j++ {
-			if alive[j] && j != a && j != b {
-				v := (na*d[a*k+j] + nb*d[b*k+j]) / (na + nb)
-				d[a*k+j], d[j*k+a] = v, v
+		rb := d[b*k : (b+1)*k]
+		at := -1
+		for x, j32 := range live {
+			j := int(j32)
+			if j == b {
+				at = x
+			}
+			if j != a && j != b {
+				v := (na*row[j] + nb*rb[j]) / (na + nb)
+				row[j], d[j*k+a] = v, v
 			}
 		}
 		size[a] += nb
-		alive[b] = false
-		for j := 0; j < k; j++ {
-			d[j*k+b] = math.Inf(1)
-		}
-		left--
+		live = slices.Delete(live, at, at+1)
 	}
 	u.merges, u.chain = merges, chain
 	return merges
@@ -393,8 +563,9 @@ func describeFamilies(items []familyItem, labels []int) []Family {
 	}
 	groups := groupsOf(labels)
 	out := make([]Family, len(groups))
+	tally := internWords(items)
 	for l, ms := range groups {
-		out[l] = describeFamily(items, w, ms)
+		out[l] = describeFamily(items, w, ms, tally)
 	}
 	return out
 }
@@ -426,9 +597,9 @@ type familyLook struct {
 }
 
 // lookOf is how the members ms of items read with item weights w; it sorts
-// ms by weight, largest first (stable). Preconditions: ms is not empty and
-// its weights add up to more than 0.
-func lookOf(items []familyItem, w []float64, ms []int) familyLook {
+// ms by weight, largest first (stable). Preconditions: ms is not empty, its
+// weights add up to more than 0, and tally is internWords's for items.
+func lookOf(items []familyItem, w []float64, ms []int, tally *wordTally) familyLook {
 	slices.SortStableFunc(ms, func(a, b int) int { return cmp.Compare(w[b], w[a]) })
 	n := len(items[ms[0]].slots)
 	lk := familyLook{centroid: make([]float64, n), dominant: make([]bool, n), words: make([][]string, n)}
@@ -459,7 +630,7 @@ func lookOf(items []familyItem, w []float64, ms []int) familyLook {
 	for s := range n {
 		parts[s] = "*"
 		if lk.dominant[s] {
-			lk.words[s] = topWordsAt(items, w, ms, s, 3)
+			lk.words[s] = tally.topWordsAt(items, w, ms, s, 3)
 			parts[s] = strings.Join(lk.words[s], "|")
 		}
 	}
@@ -477,13 +648,14 @@ func lookOf(items []familyItem, w []float64, ms []int) familyLook {
 // labels, 0, 1, … in order of first item; it leaves labels as it is.
 func mergeSamePattern(items []familyItem, w []float64, labels []int) []int {
 	out := slices.Clone(labels)
+	tally := internWords(items)
 	for {
 		groups := groupsOf(out)
 		first := map[string]int{}
 		to := make([]int, len(groups))
 		joined := false
 		for l, ms := range groups {
-			p := lookOf(items, w, slices.Clone(ms)).pattern
+			p := lookOf(items, w, slices.Clone(ms), tally).pattern
 			if f, ok := first[p]; ok {
 				to[l], joined = f, true
 				continue
@@ -507,14 +679,13 @@ func mergeSamePattern(items []familyItem, w []float64, labels []int) []int {
 	}
 }
 
-func describeFamily(items []familyItem, w []float64, ms []int) Family {
-	lk := lookOf(items, w, ms)
+func describeFamily(items []familyItem, w []float64, ms []int, tally *wordTally) Family {
+	lk := lookOf(items, w, ms, tally)
 	f := Family{Ngrams: len(ms), Centroid: lk.centroid, Slots: make([]FamilySlot, len(lk.centroid)),
 		Weight: lk.weight, Pattern: lk.pattern}
 	for _, i := range ms {
 		f.Sampled += items[i].sampled
 	}
-	f.Count = int(math.Round(f.Weight))
 	for s := range f.Slots {
 		f.Slots[s] = FamilySlot{Slot: s, Wildcard: !lk.dominant[s], Mean: lk.centroid[s], Words: lk.words[s]}
 	}
@@ -526,57 +697,54 @@ func describeFamily(items []familyItem, w []float64, ms []int) Family {
 
 // topWordsAt returns the k words of largest weight (item weights w) at
 // slot s among the members; ties keep the order of first appearance.
-func topWordsAt(items []familyItem, w []float64, ms []int, s, k int) []string {
-	weight := map[string]float64{}
-	var order []string
+func (t *wordTally) topWordsAt(items []familyItem, w []float64, ms []int, s, k int) []string {
+	order := t.order[:0]
 	for _, i := range ms {
-		t := items[i].tokens[s]
-		if _, ok := weight[t]; !ok {
-			order = append(order, t)
+		x := items[i].words[s]
+		if !t.seen[x] {
+			t.seen[x] = true
+			order = append(order, x)
 		}
-		weight[t] += w[i]
+		t.weight[x] += w[i]
 	}
-	slices.SortStableFunc(order, func(a, b string) int { return cmp.Compare(weight[b], weight[a]) })
-	return order[:min(k, len(order))]
-}
-
-// familyShares sets each family's Share and its percentile interval.
-func familyShares(fams []Family, labels []int, weights []float64, resample func([]float64)) {
-	var total float64
-	for _, w := range weights {
-		total += w
-	}
-	shares := make([][]float64, len(fams))
-	rw := make([]float64, len(weights))
-	for range familyShareResamples {
-		resample(rw)
-		sums := make([]float64, len(fams))
-		var t float64
-		for i, w := range rw {
-			sums[labels[i]] += w
-			t += w
+	// The k largest, an earlier word winning a tie (as a stable sort).
+	top := make([]int, 0, k+1) // indexes into order
+	for o, x := range order {
+		at := len(top)
+		for at > 0 && t.weight[order[top[at-1]]] < t.weight[x] {
+			at--
 		}
-		for l := range fams {
-			if t > 0 {
-				shares[l] = append(shares[l], sums[l]/t)
+		if at < k {
+			top = slices.Insert(top, at, o)
+			top = top[:min(len(top), k)]
+		}
+	}
+	out := make([]string, len(top))
+	for j, o := range top {
+		x := order[o]
+		for _, i := range ms {
+			if items[i].words[s] == x {
+				out[j] = items[i].tokens[s]
+				break
 			}
 		}
 	}
-	for l := range fams {
-		fams[l].Share = fams[l].Weight / total
-		fams[l].ShareLow, fams[l].ShareHigh = percentileInterval(shares[l], 0.95)
+	for _, x := range order {
+		t.weight[x], t.seen[x] = 0, false
 	}
+	t.order = order
+	return out
 }
 
 // familyStability clusters resampled weights anew (vecs are the items'
 // slot scores), joins the clusters that read the same as buildFamilies
-// does (mergeSamePattern), and counts, for every pair of n-grams of a
-// family both present in a resample, how often they share a family there;
-// a family's figure weights its pairs by the product of their weights.
+// does (mergeSamePattern), and finds, in each resample, the share of a
+// family's pairs of n-grams both present there that share a family there,
+// each pair weighted by the product of their weights; a family's Stability
+// is the mean of those shares over the resamples holding one of its pairs,
+// with its Monte Carlo interval (stabilityInterval).
 func familyStability(fams []Family, items []familyItem, labels []int, vecs [][]float64, weights []float64, cut float64, resample func([]float64), scratch *upgmaScratch) {
 	n := len(labels)
-	together := make([]float64, n*n)
-	both := make([]float64, n*n)
 	rw := make([]float64, n)
 	// Only pairs within a family count: walk each family's members, in
 	// increasing order (so that the sums below add in the order of i, j).
@@ -586,10 +754,13 @@ func familyStability(fams []Family, items []familyItem, labels []int, vecs [][]f
 			members[l] = append(members[l], i)
 		}
 	}
+	sum := make([]float64, len(fams))
+	held := make([]int, len(fams))
 	for range familyStabilityResamples {
 		resample(rw)
 		rl := mergeSamePattern(items, rw, scratch.cut(vecs, rw, cut))
-		for _, ms := range members {
+		for l, ms := range members {
+			var num, den float64
 			for x, i := range ms {
 				if rl[i] < 0 {
 					continue
@@ -598,34 +769,39 @@ func familyStability(fams []Family, items []familyItem, labels []int, vecs [][]f
 					if rl[j] < 0 {
 						continue
 					}
-					both[i*n+j]++
+					pw := weights[i] * weights[j]
+					den += pw
 					if rl[i] == rl[j] {
-						together[i*n+j]++
+						num += pw
 					}
 				}
 			}
-		}
-	}
-	num := make([]float64, len(fams))
-	den := make([]float64, len(fams))
-	for l, ms := range members {
-		for x, i := range ms {
-			for _, j := range ms[x+1:] {
-				if both[i*n+j] == 0 {
-					continue
-				}
-				pw := weights[i] * weights[j]
-				num[l] += pw * together[i*n+j] / both[i*n+j]
-				den[l] += pw
+			if den > 0 {
+				sum[l] += num / den
+				held[l]++
 			}
 		}
 	}
 	for l := range fams {
-		if den[l] > 0 {
-			s := num[l] / den[l]
-			fams[l].Stability = &s
+		if held[l] > 0 {
+			s := sum[l] / float64(held[l])
+			lo, hi := stabilityInterval(s, held[l])
+			fams[l].Stability, fams[l].StabilityLow, fams[l].StabilityHigh = &s, &lo, &hi
 		}
 	}
+}
+
+// stabilityInterval is the 95% Wilson score interval (Wilson 1927) around
+// mean, the mean of r figures in [0, 1], with the variance bound μ(1 − μ)
+// of such figures (Bhatia & Davis 2000): the μ with (mean − μ)² ≤
+// z²·μ(1 − μ)/r. It holds mean.
+func stabilityInterval(mean float64, r int) (lo, hi float64) {
+	const z = 1.959963984540054 // the standard normal's 97.5% quantile
+	nn := float64(r)
+	den := 1 + z*z/nn
+	mid := (mean + z*z/(2*nn)) / den
+	half := z / den * math.Sqrt(max(mean*(1-mean), 0)/nn+z*z/(4*nn*nn))
+	return max(0, min(mid-half, mean)), min(1, max(mid+half, mean))
 }
 
 // percentileInterval returns the (1−level)/2 and (1+level)/2 empirical
@@ -644,8 +820,9 @@ func percentileInterval(xs []float64, level float64) (lo, hi float64) {
 }
 
 // familyOf returns the index of the family of filter g whose centroid is
-// nearest (Euclidean) to the slot scores, or −1 when the activation is below
-// the filter's selectivity threshold or the filter has no families.
+// nearest (Euclidean) to the slot scores (nearestFamily), or −1 when the
+// activation is below the filter's selectivity threshold or the filter has
+// no families.
 func (p *Profiles) familyOf(g int, slots []float64, act float64) int {
 	if g >= len(p.Filters) {
 		return -1
@@ -654,8 +831,16 @@ func (p *Profiles) familyOf(g int, slots []float64, act float64) int {
 	if act < pr.Selectivity.Threshold || len(pr.Families) == 0 || len(pr.Families[0].Centroid) != len(slots) {
 		return -1
 	}
+	return nearestFamily(pr.Families, slots)
+}
+
+// nearestFamily returns the index of the family whose centroid is nearest
+// (Euclidean) to the slot scores, the first on a tie; −1 without families.
+// It places a text's window (Profiles.familyOf) and the measuring half's
+// windows (measureFamilies) alike.
+func nearestFamily(fams []Family, slots []float64) int {
 	best, bd := -1, 0.0
-	for k, fam := range pr.Families {
+	for k, fam := range fams {
 		var d float64
 		for s, v := range slots {
 			x := v - fam.Centroid[s]

@@ -77,13 +77,16 @@ print(json.dumps(out))
 }
 
 // When every window above the threshold is sampled (strata smaller than
-// the sample), the families hold exactly those windows: their weights add
-// up to the count above the threshold, each n-gram with its count, every
-// share interval is the share itself, and two far-apart groups of n-grams
-// are families of stability 1.
+// the sample), the families hold exactly the choosing half's windows:
+// their weights add up to that half's count above the threshold, each
+// n-gram with its count; the measuring half's windows above the threshold
+// are all placed in a family, every share interval is the share itself and
+// the shares add up to 1 (or are undefined when that half has no window
+// above the threshold); and two far-apart groups of n-grams are families
+// of stability 1.
 func TestFamiliesExactWhenAllSampled(t *testing.T) {
 	rng := rand.New(rand.NewPCG(71, 71))
-	checked := 0
+	checked, measured := 0, 0
 	for trial := 0; trial < 20; trial++ {
 		m, _ := tableCase(rng, trial)
 		ids, gold := randomCorpus(rng, m, 50+rng.IntN(150), 10)
@@ -99,26 +102,42 @@ func TestFamiliesExactWhenAllSampled(t *testing.T) {
 				}
 				continue
 			}
-			var weight float64
-			sampled := 0
+			var weight, shares float64
+			sampled, placed := 0, 0
 			for _, f := range pr.Families {
 				weight += f.Weight
 				sampled += f.Sampled
-				if f.ShareLow != f.Share || f.ShareHigh != f.Share {
+				placed += f.Measured
+				shares += f.Share
+				if s.Windows == 0 {
+					if !math.IsNaN(f.Share) || !math.IsNaN(f.ShareLow) || !math.IsNaN(f.ShareHigh) || f.Count != 0 {
+						t.Fatalf("filter %d family %s: share %g in [%g, %g], count %d, want undefined without measured windows", pr.Filter, f.Pattern, f.Share, f.ShareLow, f.ShareHigh, f.Count)
+					}
+				} else if f.ShareLow != f.Share || f.ShareHigh != f.Share {
 					t.Fatalf("filter %d family %s: share %g in [%g, %g], want a point when all is sampled", pr.Filter, f.Pattern, f.Share, f.ShareLow, f.ShareHigh)
 				}
 				if f.Stability != nil && (*f.Stability < 0 || *f.Stability > 1) {
 					t.Fatalf("filter %d family %s: stability %g", pr.Filter, f.Pattern, *f.Stability)
 				}
 			}
-			if sampled != s.Above || !near(weight, float64(s.Above), 1e-9, 1e-12) || pr.FamilySample != s.Above {
-				t.Fatalf("trial %d filter %d: families hold %d sampled windows of weight %g, %d above the threshold (sample %d)", trial, pr.Filter, sampled, weight, s.Above, pr.FamilySample)
+			chosen := s.Above - s.Windows
+			if len(pr.Families) > 0 && (sampled != chosen || !near(weight, float64(chosen), 1e-9, 1e-12) || pr.FamilySample != chosen) {
+				t.Fatalf("trial %d filter %d: families hold %d sampled windows of weight %g, %d of the choosing half above the threshold (sample %d)", trial, pr.Filter, sampled, weight, chosen, pr.FamilySample)
+			}
+			if len(pr.Families) > 0 && (placed != s.Windows || pr.FamilyMeasured != s.Windows) {
+				t.Fatalf("trial %d filter %d: %d measured windows placed in families (sample %d), %d of the measuring half above the threshold", trial, pr.Filter, placed, pr.FamilyMeasured, s.Windows)
+			}
+			if len(pr.Families) > 0 && s.Windows > 0 {
+				if !near(shares, 1, 1e-9, 1e-12) {
+					t.Fatalf("trial %d filter %d: shares add up to %g", trial, pr.Filter, shares)
+				}
+				measured++
 			}
 			checked++
 		}
 	}
-	if checked < 50 {
-		t.Fatalf("only %d filters with families checked", checked)
+	if checked < 50 || measured < 30 {
+		t.Fatalf("only %d filters with families checked, %d with measured shares", checked, measured)
 	}
 	// Two groups far apart: each is one family, kept together in every
 	// resample.
@@ -143,9 +162,9 @@ func TestFamiliesExactWhenAllSampled(t *testing.T) {
 	}
 }
 
-// The family weights estimate the number of windows above the threshold
-// without bias when strata hold more windows than their sample (2 a
-// stratum here): over 60 seeds of the sample, the mean estimated total is
+// The family weights estimate the number of the choosing half's windows
+// above the threshold without bias when strata hold more windows than
+// their sample (2 a stratum here): over 60 seeds of the sample, the mean estimated total is
 // within 4.5 standard errors of the exact count for every filter (a
 // normal deviation that large has probability 7e-6; a few dozen filters
 // are checked).
@@ -170,7 +189,7 @@ func TestFamilyWeightsUnbiased(t *testing.T) {
 			}
 			sums[g] += w
 			sq[g] += w * w
-			above = append(above, pr.Selectivity.Above)
+			above = append(above, pr.Selectivity.Above-pr.Selectivity.Windows)
 		}
 	}
 	checked := 0
@@ -202,8 +221,10 @@ func TestFamilyWeightsUnbiased(t *testing.T) {
 // linkage puts them in two clusters; in every group of these windows "ps"
 // carries at least DominantShare of the positive mass (at worst 1 of
 // 1.22), so both patterns are "* * ps". All four windows are sampled (weight 1
-// each): the one family weighs 4, holds the whole share and, as the four
-// windows stay one family in every resample, has stability 1.
+// each) in the choosing half and again in the measuring half: the one
+// family weighs 4, holds the whole measured share (8 windows above the
+// threshold over both halves: 8 texts) and, as the four windows stay one
+// family in every resample, has stability 1.
 func TestFamiliesOfOnePatternJoined(t *testing.T) {
 	vocab := []string{"<pad>", "<unk>", "the", "same", "in", "of", "ps"}
 	d := len(vocab)
@@ -230,8 +251,9 @@ func TestFamiliesOfOnePatternJoined(t *testing.T) {
 			key = binary.LittleEndian.AppendUint32(key, uint32(id))
 		}
 		fs.items[0] = append(fs.items[0], famItem{act: 1, key: string(key)})
+		fs.items[famStrata] = append(fs.items[famStrata], famItem{act: 1, key: string(key)})
 	}
-	fs.n[0] = len(fs.items[0])
+	fs.n[0], fs.n[famStrata] = len(fs.items[0]), len(fs.items[famStrata])
 	// The premise: average linkage alone makes two clusters.
 	var items []familyItem
 	var vecs [][]float64
@@ -242,7 +264,7 @@ func TestFamiliesOfOnePatternJoined(t *testing.T) {
 	if labels := upgmaCut(vecs, []float64{1, 1, 1, 1}, 0.5); !samePartition(labels, []int{0, 0, 1, 1}) {
 		t.Fatalf("clusters %v of slot scores %v, want the windows with \"in\" apart from those with \"of\"", labels, vecs)
 	}
-	fams := buildFamilies(st, 0, &fs, 0, 0.5, 1)
+	fams := buildFamilies(st, 0, &fs, 0, 0.5, 1, 8)
 	if len(fams) != 1 {
 		var ps []string
 		for _, f := range fams {
@@ -251,8 +273,8 @@ func TestFamiliesOfOnePatternJoined(t *testing.T) {
 		t.Fatalf("%d families %q, want one", len(fams), ps)
 	}
 	f := fams[0]
-	if f.Pattern != "* * ps" || f.Weight != 4 || f.Ngrams != 4 || f.Share != 1 || f.Stability == nil || *f.Stability != 1 {
-		t.Errorf("family %+v, want \"* * ps\" of weight 4, 4 n-grams, share 1 and stability 1", f)
+	if f.Pattern != "* * ps" || f.Weight != 4 || f.Ngrams != 4 || f.Share != 1 || f.Measured != 4 || f.Count != 8 || f.Stability == nil || *f.Stability != 1 {
+		t.Errorf("family %+v, want \"* * ps\" of weight 4, 4 n-grams, share 1 of 4 measured windows (8 texts of 8) and stability 1", f)
 	}
 }
 

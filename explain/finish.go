@@ -66,9 +66,10 @@ func finishProfile(st *SlotTable, g, class int, accs []*filterAccs, counts []int
 	if theta := pr.Selectivity.Threshold; !math.IsInf(theta, 1) {
 		pr.Negatives = negativeNgrams(st, g, skies, float32(theta), opt.Negatives, opt.Examples)
 		sample := mergeSamples(fams, hist, opt.FamilySample)
-		ws, _ := sample.above(float32(theta))
-		pr.FamilySample = len(ws)
-		pr.Families = buildFamilies(st, g, &sample, float32(theta), opt.FamilyCut, opt.Seed)
+		ws, _ := sample.above(float32(theta), 0)
+		mws, _ := sample.above(float32(theta), 1)
+		pr.FamilySample, pr.FamilyMeasured = len(ws), len(mws)
+		pr.Families = buildFamilies(st, g, &sample, float32(theta), opt.FamilyCut, opt.Seed, sel.Above)
 	}
 	pr.setLogOdds(VoteScale(m, g))
 	return pr

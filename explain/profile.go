@@ -39,7 +39,9 @@ type ProfileOptions struct {
 	// (default 0.5).
 	FamilyCut float64
 	// FamilySample is the number of winning windows sampled per activation
-	// stratum (of 32) for the families (default 16).
+	// stratum (of 32) in each half of the corpus for the families (default
+	// 16): one half's sample chooses them, the other's measures their
+	// shares (see Family).
 	FamilySample int
 	// Selective is the Share of Selectivity: how far from the class's base
 	// rate towards purity the selectivity threshold must be (default 0.5).
@@ -186,10 +188,14 @@ type FilterProfile struct {
 	Negatives      []NegativeNgram `json:"negatives"`
 	NegativesExact bool            `json:"negatives_exact"`
 	// Families group the winning windows at or above the selectivity
-	// threshold, largest first; FamilySample is the number of sampled
-	// windows they were built from (of Selectivity.Above).
-	Families     []Family `json:"families"`
-	FamilySample int      `json:"family_sample"`
+	// threshold, largest first (see Family); FamilySample is the number of
+	// the choosing half's sampled windows they were built from (of its
+	// Selectivity.Above − Selectivity.Windows), FamilyMeasured the number
+	// of the other half's sampled windows their shares were measured on (of
+	// its Selectivity.Windows).
+	Families       []Family `json:"families"`
+	FamilySample   int      `json:"family_sample"`
+	FamilyMeasured int      `json:"family_measured"`
 }
 
 // Histogram counts winning-window activations of fired texts in fixed bins

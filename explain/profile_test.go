@@ -338,7 +338,7 @@ func TestFamilyDescription(t *testing.T) {
 		t.Fatalf("%d families, want 1", len(fams))
 	}
 	f := fams[0]
-	if f.Pattern != "* good *" || f.Count != 4 || f.Ngrams != 2 || f.Sampled != 4 {
-		t.Fatalf("family %+v, want pattern \"* good *\" over 4 texts", f)
+	if f.Pattern != "* good *" || f.Weight != 4 || f.Ngrams != 2 || f.Sampled != 4 {
+		t.Fatalf("family %+v, want pattern \"* good *\" of weight 4", f)
 	}
 }

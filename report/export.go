@@ -248,9 +248,12 @@ func at(xs []float64, i int) any {
 // below the threshold), positive (its score without them) and
 // negative_slots (their indexes, space-separated), its count being the
 // windows of the corpus equal to it; "family", with its pattern as ngram,
-// its estimated text count, share of the windows above the threshold with
-// its 95% interval, and stability (empty for a family of one n-gram). A
-// missing number is empty.
+// its estimated text count, its share of the windows above the threshold
+// with its 95% interval, measured on the half of the texts that took no
+// part in choosing the families (empty when none of that half's sampled
+// windows lies above the threshold; see explain.Family), and stability
+// with the bounds of its 95% Monte Carlo interval (empty for a family of
+// one n-gram). A missing number is empty.
 func ProfileTable(p *explain.Profiles) *Table {
 	t := &Table{Columns: []string{"filter", "width", "votes_for", "margin_log_odds"}}
 	for _, l := range p.Labels {
@@ -258,7 +261,8 @@ func ProfileTable(p *explain.Profiles) *Table {
 	}
 	t.Columns = append(t.Columns, "selective", "threshold_log_odds", "purity", "purity_low", "purity_high", "base_rate", "p", "p_holm",
 		"negatives_exact", "family_sample", "kind", "rank", "ngram", "activation_log_odds", "count", "slot_scores_log_odds",
-		"held_down_log_odds", "positive_log_odds", "negative_slots", "share", "share_low", "share_high", "stability")
+		"held_down_log_odds", "positive_log_odds", "negative_slots", "share", "share_low", "share_high", "stability",
+		"stability_low", "stability_high")
 	for _, f := range p.Filters {
 		s := f.Selectivity
 		head := []any{f.Filter, f.Width, f.Label, f.MarginLogOdds}
@@ -270,19 +274,19 @@ func ProfileTable(p *explain.Profiles) *Table {
 		add := func(cells ...any) { t.Add(append(slices.Clone(head), cells...)...) }
 		for r, n := range f.TopNgrams {
 			add("top", r+1, strings.Join(n.Tokens, " "), n.ActivationLogOdds, n.Count, joinFloats(n.SlotsLogOdds),
-				nil, nil, nil, nil, nil, nil, nil)
+				nil, nil, nil, nil, nil, nil, nil, nil, nil)
 		}
 		for r, n := range f.Negatives {
 			add("negative", r+1, strings.Join(n.Tokens, " "), n.ActivationLogOdds, n.Count, joinFloats(n.SlotsLogOdds),
-				n.HeldDownLogOdds, n.PositiveLogOdds, joinInts(n.NegativeSlots), nil, nil, nil, nil)
+				n.HeldDownLogOdds, n.PositiveLogOdds, joinInts(n.NegativeSlots), nil, nil, nil, nil, nil, nil)
 		}
 		for r, fam := range f.Families {
-			var stab any
+			var stab, stabLow, stabHigh any
 			if fam.Stability != nil {
-				stab = *fam.Stability
+				stab, stabLow, stabHigh = *fam.Stability, *fam.StabilityLow, *fam.StabilityHigh
 			}
 			add("family", r+1, fam.Pattern, nil, fam.Count, nil,
-				nil, nil, nil, fam.Share, fam.ShareLow, fam.ShareHigh, stab)
+				nil, nil, nil, fam.Share, fam.ShareLow, fam.ShareHigh, stab, stabLow, stabHigh)
 		}
 	}
 	return t

@@ -151,13 +151,20 @@ func filterCardOf(f explain.FilterProfile, labels []string) filterCard {
 		for _, mb := range fam.Members[:min(2, len(fam.Members))] {
 			members = append(members, strings.Join(mb, " "))
 		}
+		// Stability with its Monte Carlo interval (explain.Family).
 		stab := "–"
 		if fam.Stability != nil {
-			stab = num(*fam.Stability)
+			stab = num(*fam.Stability) + " (" + num(*fam.StabilityLow) + "–" + num(*fam.StabilityHigh) + ")"
 		}
-		card.Families = append(card.Families, familyRow{Pattern: fam.Pattern, Ngrams: count(fam.Ngrams),
+		// The share is the measuring half's (explain.Family); undefined
+		// when none of that half's sampled windows lies above the threshold.
+		row := familyRow{Pattern: fam.Pattern, Ngrams: count(fam.Ngrams),
 			Count: count(fam.Count), Members: strings.Join(members, " · "),
-			Share: pct(fam.Share), ShareCI: pct(fam.ShareLow) + "–" + pct(fam.ShareHigh), Stability: stab})
+			Share: pct(fam.Share), ShareCI: pct(fam.ShareLow) + "–" + pct(fam.ShareHigh), Stability: stab}
+		if math.IsNaN(fam.Share) {
+			row.Count, row.ShareCI = "–", "no measured window"
+		}
+		card.Families = append(card.Families, row)
 	}
 	for _, sw := range f.Slots {
 		card.Slots = append(card.Slots, slotRow{Slot: sw.Slot, Triggers: words(sw.Triggers), Suppressors: words(sw.Suppressors)})
