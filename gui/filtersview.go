@@ -325,12 +325,18 @@ func familyRows(fp *explain.FilterProfile) [][]string {
 				dom = append(dom, fmt.Sprintf("%d:%s (%.3f)", sl.Slot, strings.Join(sl.Words, "|"), sl.MeanLogOdds))
 			}
 		}
+		// Stability with its Monte Carlo interval; the share is the
+		// measuring half's, undefined when none of its sampled windows lies
+		// above the threshold (explain.Family).
 		stab := "—"
-		if f.Stability != nil {
-			stab = fmt.Sprintf("%.2f", *f.Stability)
+		if f.Stability != nil && f.StabilityLow != nil && f.StabilityHigh != nil {
+			stab = fmt.Sprintf("%.2f (%.2f–%.2f)", *f.Stability, *f.StabilityLow, *f.StabilityHigh)
 		}
-		rows = append(rows, []string{fmt.Sprint(k), f.Pattern, fmt.Sprintf("%.1f%% (%.1f–%.1f%%)", 100*f.Share, 100*f.ShareLow, 100*f.ShareHigh),
-			stab, fmt.Sprint(f.Ngrams), fmt.Sprint(f.Count), strings.Join(dom, "  ")})
+		share, count := fmt.Sprintf("%.1f%% (%.1f–%.1f%%)", 100*f.Share, 100*f.ShareLow, 100*f.ShareHigh), fmt.Sprint(f.Count)
+		if math.IsNaN(f.Share) {
+			share, count = "— (no measured window)", "—"
+		}
+		rows = append(rows, []string{fmt.Sprint(k), f.Pattern, share, stab, fmt.Sprint(f.Ngrams), count, strings.Join(dom, "  ")})
 	}
 	return rows
 }
@@ -340,9 +346,10 @@ func familyNote(fp *explain.FilterProfile) string {
 	if math.IsInf(fp.Selectivity.ThresholdLogOdds, 0) {
 		return "Families group the windows above the selectivity threshold; this filter has none."
 	}
-	return fmt.Sprintf("Built from a sample of %d of the %d windows at or above the threshold, each weighted by the windows it stands for. "+
-		"Share: of those windows, with a 95%% interval; stability: how often two of the family's n-grams fall together again when the sample is resampled.",
-		fp.FamilySample, fp.Selectivity.Above)
+	return fmt.Sprintf("Built from a sample of %d of the %d windows at or above the threshold in the half of the texts that chose it, each weighted by the windows it stands for. "+
+		"Share: of the other half's %d windows at or above the threshold (a sample of %d placed in the nearest family), with a 95%% interval; "+
+		"stability: how often two of the family's n-grams fall together again when the sample is resampled, with a 95%% Monte Carlo interval.",
+		fp.FamilySample, fp.Selectivity.Above-fp.Selectivity.Windows, fp.Selectivity.Windows, fp.FamilyMeasured)
 }
 
 func wordScores(ws []explain.WordScore) string {
