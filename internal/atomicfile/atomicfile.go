@@ -134,11 +134,18 @@ func Write(path string, write func(io.Writer) error) error {
 // 0666 less the process's umask.
 func writeFile(path string, write func(io.Writer) error) (err error) {
 	dir := filepath.Dir(path)
-	var keep os.FileMode
+	// A file replaced: the temporary file is made private at once and
+	// given the old file's mode before anything is written, so the new
+	// content is never readable by more than the old was.
+	replacing, keep := false, os.FileMode(0)
 	if fi, serr := os.Stat(path); serr == nil && fi.Mode().IsRegular() {
-		keep = fi.Mode().Perm()
+		replacing, keep = true, fi.Mode().Perm()
 	}
-	f, err := createTemp(dir, "."+filepath.Base(path)+".")
+	perm := os.FileMode(0o666)
+	if replacing {
+		perm = 0o600
+	}
+	f, err := createTemp(dir, "."+filepath.Base(path)+".", perm)
 	if err != nil {
 		return fmt.Errorf("%s: %w (is the folder there and writable?)", path, err)
 	}
@@ -149,13 +156,13 @@ func writeFile(path string, write func(io.Writer) error) (err error) {
 			os.Remove(tmp)
 		}
 	}()
-	if err = write(f); err != nil {
-		return fmt.Errorf("writing %s: %w", path, err)
-	}
-	if keep != 0 {
+	if replacing {
 		if err = f.Chmod(keep); err != nil {
 			return fmt.Errorf("writing %s: %w", path, err)
 		}
+	}
+	if err = write(f); err != nil {
+		return fmt.Errorf("writing %s: %w", path, err)
 	}
 	if err = f.Sync(); err != nil {
 		return fmt.Errorf("writing %s: %w", path, err)
@@ -174,12 +181,13 @@ func writeFile(path string, write func(io.Writer) error) (err error) {
 }
 
 // createTemp creates a new file dir/prefix<random>.tmp for writing, as
-// os.CreateTemp does but with mode 0666 less the umask (os.CreateTemp's is
-// 0600), so that a new destination gets the permissions os.Create gives.
-func createTemp(dir, prefix string) (*os.File, error) {
+// os.CreateTemp does but with mode perm less the umask (os.CreateTemp's is
+// 0600), so that a new destination gets the permissions os.Create gives
+// (perm 0666).
+func createTemp(dir, prefix string, perm os.FileMode) (*os.File, error) {
 	for range 10000 {
 		name := filepath.Join(dir, prefix+strconv.FormatUint(uint64(rand.Uint32()), 10)+".tmp")
-		f, err := os.OpenFile(name, os.O_RDWR|os.O_CREATE|os.O_EXCL, 0o666)
+		f, err := os.OpenFile(name, os.O_RDWR|os.O_CREATE|os.O_EXCL, perm)
 		if !errors.Is(err, fs.ErrExist) {
 			return f, err
 		}

@@ -13,24 +13,29 @@ import (
 // A new file gets 0666 less the umask, as os.Create gives (POSIX open(2):
 // the mode is masked by the process's umask; common practice, no source
 // beyond the standard); a replaced one keeps its own mode whatever the
-// umask. Not parallel: the umask is the process's.
+// umask, and while its new content is written the temporary file is
+// readable by no more than the old file was. Not parallel: the umask is
+// the process's.
 func TestWritePermissions(t *testing.T) {
 	dir := t.TempDir()
 	for _, c := range []struct {
 		umask    int
-		existing os.FileMode // 0: a new file
+		replaced bool // a file is there, with mode existing
+		existing os.FileMode
 		want     os.FileMode
 	}{
-		{0o022, 0, 0o644},
-		{0o077, 0, 0o600},
-		{0o002, 0, 0o664},
-		{0o022, 0o600, 0o600},
-		{0o077, 0o644, 0o644},
-		{0o022, 0o640, 0o640},
+		{0o022, false, 0, 0o644},
+		{0o077, false, 0, 0o600},
+		{0o002, false, 0, 0o664},
+		{0o022, true, 0o600, 0o600},
+		{0o077, true, 0o644, 0o644},
+		{0o022, true, 0o640, 0o640},
+		{0o022, true, 0o400, 0o400},
+		{0o022, true, 0o000, 0o000},
 	} {
 		p := filepath.Join(dir, "out.txt")
 		os.Remove(p)
-		if c.existing != 0 {
+		if c.replaced {
 			if err := os.WriteFile(p, []byte("old"), c.existing); err != nil {
 				t.Fatal(err)
 			}
@@ -39,7 +44,14 @@ func TestWritePermissions(t *testing.T) {
 			}
 		}
 		old := syscall.Umask(c.umask)
-		err := Write(p, func(w io.Writer) error { _, err := io.WriteString(w, "new"); return err })
+		var during os.FileMode
+		err := Write(p, func(w io.Writer) error {
+			if st, err := w.(*os.File).Stat(); err == nil {
+				during = st.Mode().Perm()
+			}
+			_, err := io.WriteString(w, "new")
+			return err
+		})
 		syscall.Umask(old)
 		if err != nil {
 			t.Fatal(err)
@@ -50,6 +62,9 @@ func TestWritePermissions(t *testing.T) {
 		}
 		if st.Mode().Perm() != c.want {
 			t.Errorf("umask %03o, existing %v: mode %v, want %v", c.umask, c.existing, st.Mode().Perm(), c.want)
+		}
+		if c.replaced && during&^c.existing != 0 {
+			t.Errorf("umask %03o, existing %v: mode %v while the new content was written, more open than the old file's", c.umask, c.existing, during)
 		}
 	}
 }
