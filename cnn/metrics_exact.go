@@ -296,11 +296,14 @@ func F1IntervalsOf(confusion [][]int, resamples int, level float64, seed uint64)
 // interval as the tool shows it: F1IntervalsOf's Macro, drawn as
 // BootstrapMacroF1 draws it (the cheaper path of the headline).
 func MacroF1IntervalOf(confusion [][]int, resamples int, level float64, seed uint64) Interval {
-	iv := BootstrapMacroF1(confusion, resamples, level, seed)
-	if flat, n, _ := flatten(confusion); n > 0 {
+	checkBootstrap("MacroF1IntervalOf", resamples, level)
+	// Where the exact bound applies no resample is drawn: the estimate is
+	// the one BootstrapMacroF1 would give.
+	if len(textCells(confusion, "MacroF1IntervalOf")) > 0 {
+		flat, _, _ := flatten(confusion)
 		if lo, hi, ok := exactMacroF1(flat, len(confusion), level); ok {
-			iv.Low, iv.High = lo, hi
+			return Interval{Estimate: macroF1Of(flat, len(confusion)), Low: lo, High: hi}
 		}
 	}
-	return iv
+	return BootstrapMacroF1(confusion, resamples, level, seed)
 }
