@@ -12,19 +12,12 @@ import (
 // filters' scale is not pinned down by the data (common practice, no
 // source: positive homogeneity of ReLU and max pooling).
 func TestWithFiltersRescaled(t *testing.T) {
-	vocab := []string{"<pad>", "<unk>", "a", "b", "c", "d", "e", "f", "g", "h"}
-	m, err := New(Config{VocabSize: len(vocab), Dim: 6, Widths: []int{2, 3}, Filters: 4, Classes: 3}, vocab, []string{"x", "y", "z"}, 3)
-	if err != nil {
-		t.Fatal(err)
-	}
+	m := reparamModel(t)
 	ks := map[int]float32{0: 250, 3: 0.004, 6: 7}
 	s := m.WithFiltersRescaled(ks)
 	rng := rand.New(rand.NewPCG(3, 3))
 	for range 200 {
-		ids := make([]int32, 1+rng.IntN(12))
-		for i := range ids {
-			ids[i] = int32(1 + rng.IntN(len(vocab)-1))
-		}
+		ids := randomIDs(rng, len(m.Vocab))
 		a, b := m.Forward(ids), s.Forward(ids)
 		for c := range a.Probs {
 			if !scalar.EqualWithinAbsOrRel(float64(a.Probs[c]), float64(b.Probs[c]), 1e-5, 1e-4) {
@@ -54,19 +47,12 @@ func TestWithFiltersRescaled(t *testing.T) {
 // only a column's differences are identified (common practice, no source:
 // the softmax is invariant to a shift shared by every logit).
 func TestWithVotesShifted(t *testing.T) {
-	vocab := []string{"<pad>", "<unk>", "a", "b", "c", "d", "e", "f", "g", "h"}
-	m, err := New(Config{VocabSize: len(vocab), Dim: 6, Widths: []int{2, 3}, Filters: 4, Classes: 3}, vocab, []string{"x", "y", "z"}, 3)
-	if err != nil {
-		t.Fatal(err)
-	}
+	m := reparamModel(t)
 	ds := map[int]float32{0: 2.5, 3: -4, 6: 0.75}
 	s := m.WithVotesShifted(ds)
 	rng := rand.New(rand.NewPCG(4, 4))
 	for range 200 {
-		ids := make([]int32, 1+rng.IntN(12))
-		for i := range ids {
-			ids[i] = int32(1 + rng.IntN(len(vocab)-1))
-		}
+		ids := randomIDs(rng, len(m.Vocab))
 		a, b := m.Forward(ids), s.Forward(ids)
 		for c := range a.Probs {
 			if !scalar.EqualWithinAbsOrRel(float64(a.Probs[c]), float64(b.Probs[c]), 1e-5, 1e-4) {
@@ -82,4 +68,26 @@ func TestWithVotesShifted(t *testing.T) {
 			}
 		}
 	}
+}
+
+// reparamModel is a small random model (10 words, widths 2 and 3, three
+// classes) for the reparametrisation tests.
+func reparamModel(t *testing.T) *Model {
+	t.Helper()
+	vocab := []string{"<pad>", "<unk>", "a", "b", "c", "d", "e", "f", "g", "h"}
+	m, err := New(Config{VocabSize: len(vocab), Dim: 6, Widths: []int{2, 3}, Filters: 4, Classes: 3}, vocab, []string{"x", "y", "z"}, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return m
+}
+
+// randomIDs is a text of 1 to 12 word ids drawn from a vocabulary of size
+// words, padding left out.
+func randomIDs(rng *rand.Rand, words int) []int32 {
+	ids := make([]int32, 1+rng.IntN(12))
+	for i := range ids {
+		ids[i] = int32(1 + rng.IntN(words-1))
+	}
+	return ids
 }

@@ -37,6 +37,20 @@ func saveState(t *testing.T, dir string) (*State, *sheet) {
 }
 
 // shownSave returns the save dialog that the last call put on screen.
+// saveCSVAs opens File › Export table as CSV on st, types name in the
+// dialog's folder and submits it, counting writes instead of making them;
+// it returns whether the dialog asked to replace a file and the writes.
+func saveCSVAs(t *testing.T, st *State, name string) (asked bool, written int) {
+	t.Helper()
+	st.writeFile = func(string, func(io.Writer) error) error { written++; return nil }
+	st.exportCSVDialog()
+	sf := shownSave(t, st)
+	sf.choose()
+	sf.name.SetText(name)
+	sf.form.Submit()
+	return sf.confirm != nil, written
+}
+
 func shownSave(t *testing.T, st *State) *saveForm {
 	t.Helper()
 	sf := st.lastSave
@@ -300,14 +314,7 @@ func TestSaveRefusesTheWindowsInputs(t *testing.T) {
 			st.opts.DataPath = filepath.Join(dir, inputs["data"])
 			st.opts.TestPath = filepath.Join(dir, inputs["test"])
 			st.opts.ModelPath = filepath.Join(dir, inputs["model"])
-			written := 0
-			st.writeFile = func(string, func(io.Writer) error) error { written++; return nil }
-			st.exportCSVDialog()
-			sf := shownSave(t, st)
-			sf.choose()
-			sf.name.SetText(c.name)
-			sf.form.Submit()
-			if sf.confirm != nil || written != 0 {
+			if asked, written := saveCSVAs(t, st, c.name); asked || written != 0 {
 				t.Errorf("saving as %s offered to replace it or wrote it (%d writes)", filepath.Join(c.folder, c.name), written)
 			}
 			if s := st.statusText(); !strings.Contains(s, "which this window reads from") {

@@ -5,7 +5,6 @@ package gui
 import (
 	"context"
 	"errors"
-	"io"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -236,15 +235,8 @@ func TestSaveRefusesAPipeBeforeAsking(t *testing.T) {
 		{"out.csv", "a process's descriptor, not a file"},
 	} {
 		st, _ := saveState(t, dir)
-		written := 0
-		st.writeFile = func(string, func(io.Writer) error) error { written++; return nil }
-		st.exportCSVDialog()
-		sf := shownSave(t, st)
-		sf.choose()
-		sf.name.SetText(c.name)
-		sf.form.Submit()
-		if sf.confirm != nil || written != 0 {
-			t.Errorf("saving as %s asked to replace it (%v) or wrote it (%d writes)", c.name, sf.confirm != nil, written)
+		if asked, written := saveCSVAs(t, st, c.name); asked || written != 0 {
+			t.Errorf("saving as %s asked to replace it (%v) or wrote it (%d writes)", c.name, asked, written)
 		}
 		path := filepath.Join(dir, c.name)
 		if s := st.statusText(); !strings.Contains(s, "could not write "+path) || !strings.Contains(s, c.says) {
