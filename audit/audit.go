@@ -208,8 +208,12 @@ type Candidate struct {
 	// Shift is question 4: the cue's label share in the selection half of
 	// the held-out split (a reason the cue is chosen); ShiftConfirmed the
 	// same on the confirmation half, which took no part in choosing it:
-	// the figure shown of a shift (ConfirmedShiftSays; nil when no
-	// confirming text holds the cue).
+	// the figure shown of a shift (ConfirmedShiftSays). It is set only for
+	// a cue in the family of its Holm correction (confirmedShifts): put to
+	// the test on the confirmation half, its selection half showing a
+	// shift, and held by some confirming text; nil for every other cue, so
+	// that no uncorrected one-sided test is reported beside the corrected
+	// ones.
 	Shift          *Shift          `json:"shift,omitempty"`
 	ShiftConfirmed *ConfirmedShift `json:"shift_confirmed,omitempty"`
 	// Filters keyed on it, with their ablation.
@@ -283,11 +287,11 @@ type ConfirmedShift struct {
 	// Holm is P adjusted by Holm's step-down method over the Family cues
 	// put to the test on the confirmation half whose selection half shows
 	// a shift (Shift.Present): a family fixed before the confirmation half
-	// is read, which holds every such cue acted on. Family is 0 (absent
-	// from JSON) for a cue outside it, and Holm with it. Lower: in it,
-	// Holm ≤ 0.05 and the share lower.
-	Holm   float64 `json:"holm_p,omitempty"`
-	Family int     `json:"holm_family,omitempty"`
+	// is read, which holds every such cue acted on. Family is its size
+	// (only a cue in it has a ConfirmedShift). Lower: Holm ≤ 0.05 and the
+	// share lower.
+	Holm   float64 `json:"holm_p"`
+	Family int     `json:"holm_family"`
 	Lower  bool    `json:"lower"`
 }
 
@@ -701,7 +705,6 @@ func (a *auditor) heldoutPasses(ctx context.Context, cands []*Candidate) error {
 	a.shifts(cands)
 	for _, c := range cands {
 		c.ArtifactLikeness = artifactScore(c.Signals)
-		c.ShiftConfirmed = a.confirmedShiftOf(c) // shown, never used to choose or rank
 	}
 	a.progress("held-out", 2, 2)
 	return nil
@@ -800,7 +803,8 @@ const confirmedShiftAlpha = 0.05
 // confirmedShiftOf counts the confirmation half's texts holding c and those
 // in its label, and tests them against training (one-sided Fisher: lower
 // than in training); nil when none holds it. Holm, Family and Lower are
-// left to confirmedShifts.
+// left to holmShifts; only confirmedShifts calls it, for the cues of the
+// family.
 func (a *auditor) confirmedShiftOf(c *Candidate) *ConfirmedShift {
 	in, n := 0, 0
 	for _, i := range texts(c.confOcc) {
@@ -820,17 +824,33 @@ func (a *auditor) confirmedShiftOf(c *Candidate) *ConfirmedShift {
 		TrainShare: ta.Share, P: FisherGreater(ta.InLabel, ta.Texts-ta.InLabel, in, n-in)}
 }
 
-// confirmedShifts corrects the confirmation half's shift tests by Holm
-// (1979, "A simple sequentially rejective multiple test procedure", Scand.
-// J. Statist. 6:65–70; explain.Holm) over cs, the cues put to the test
-// there whose selection half shows a shift, and sets Lower.
-func confirmedShifts(cs []*Candidate) {
+// confirmedShifts measures the confirmation half's shift (confirmedShiftOf)
+// of each cue of cs, the cues put to the test there, whose selection half
+// shows a shift and which some confirming text holds: the family of the
+// Holm correction (holmShifts), fixed before the confirmation half's labels
+// are read. Every other cue of cs is left without one (ShiftConfirmed nil),
+// as is every cue not put to the test (Run never measures theirs): the
+// one-sided test is reported only where it is corrected. Shown, never used
+// to choose or rank.
+func (a *auditor) confirmedShifts(cs []*Candidate) {
 	var family []*ConfirmedShift
 	for _, c := range cs {
-		if c.Shift != nil && c.Shift.Present && c.ShiftConfirmed != nil {
-			family = append(family, c.ShiftConfirmed)
+		c.ShiftConfirmed = nil
+		if c.Shift == nil || !c.Shift.Present {
+			continue
+		}
+		if s := a.confirmedShiftOf(c); s != nil {
+			c.ShiftConfirmed = s
+			family = append(family, s)
 		}
 	}
+	holmShifts(family)
+}
+
+// holmShifts corrects the confirmation half's shift tests of family by Holm
+// (1979, "A simple sequentially rejective multiple test procedure", Scand.
+// J. Statist. 6:65–70; explain.Holm) and sets Holm, Family and Lower.
+func holmShifts(family []*ConfirmedShift) {
 	ps := make([]float64, len(family))
 	for k, s := range family {
 		ps[k] = s.P

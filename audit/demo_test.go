@@ -44,6 +44,7 @@ func TestDemoPlantedCues(t *testing.T) {
 				}
 				checkExamples(t, d.res, d.held)
 				checkIntervalWidths(t, d.res)
+				checkShiftFamily(t, d.res)
 			})
 		}
 		st := Stability(results, 2)
@@ -64,7 +65,8 @@ func TestDemoPlantedCues(t *testing.T) {
 
 // checkPlantedShift: in the original demo, whose test split spreads both
 // planted cues evenly over the labels (testdata/demo/README.md), both keep
-// the shift signal after Benjamini–Hochberg over every candidate tested.
+// the shift signal after Benjamini–Hochberg over every candidate tested,
+// and one acted on has its confirming half's shift shown.
 func checkPlantedShift(t *testing.T, res *Result) {
 	t.Helper()
 	for _, c := range res.Ranked {
@@ -73,6 +75,42 @@ func checkPlantedShift(t *testing.T, res *Result) {
 		}
 		if s := c.Shift; s == nil || !s.Present || c.signal(SignalShift).Value == 0 {
 			t.Errorf("planted cue %q: shift %+v, want present after Benjamini–Hochberg", c.Text, s)
+		}
+		// Acted on, it was put to the test on the confirming half, which
+		// holds it: its shift is in the Holm family, and shown.
+		if c.Verdict == VerdictActed && (c.ShiftConfirmed == nil || c.ShiftConfirmed.Family < 1 || c.ConfirmedShiftSays() == "") {
+			t.Errorf("planted cue %q, acted on: confirmed shift %+v, want one in the Holm family", c.Text, c.ShiftConfirmed)
+		}
+	}
+}
+
+// checkShiftFamily: only a cue of the confirming half's Holm family (put to
+// the test there, its choosing half showing a shift) has a confirmed shift,
+// so no uncorrected one-sided p is reported: none of the cues like the
+// task or the others, and each of the listed cues that has one is in a
+// family at least as large as the number of them listed.
+func checkShiftFamily(t *testing.T, res *Result) {
+	t.Helper()
+	listed, family := 0, 0
+	for _, c := range res.Ranked {
+		s := c.ShiftConfirmed
+		if s == nil {
+			continue
+		}
+		listed++
+		family = max(family, s.Family)
+		if c.Shift == nil || !c.Shift.Present || (c.Verdict != VerdictActed && c.Verdict != VerdictUnconfirmed) || s.Family < 1 || s.Holm < s.P {
+			t.Errorf("%q (verdict %s, shift %+v) has a confirmed shift outside the family: %+v", c.Text, c.Verdict, c.Shift, s)
+		}
+	}
+	if listed > family {
+		t.Errorf("%d listed cues have a confirmed shift, in a family of %d", listed, family)
+	}
+	for _, list := range [][]Candidate{res.Task, res.Others} {
+		for _, c := range list {
+			if c.ShiftConfirmed != nil {
+				t.Errorf("%q (verdict %s), never put to the test on its shift, has a confirmed shift %+v", c.Text, c.Verdict, c.ShiftConfirmed)
+			}
 		}
 	}
 }

@@ -52,7 +52,9 @@
 //     share shown of a shift is the confirmation half's (ConfirmedShift:
 //     exact Clopper–Pearson interval, one-sided Fisher against training,
 //     Holm over the cues put to the test there whose selection half shows
-//     a shift).
+//     a shift, and given only for those; the training share it is tested
+//     against chose the cue, so the test leans towards "lower", and the
+//     sentence shown says so).
 //
 // # Two halves
 //
@@ -107,7 +109,8 @@
 //	            train_share, p, q, present} (selection half),
 //	            shift_confirmed {texts, in_label, share, train_share,
 //	            p_lower, holm_p, holm_family, lower} (confirmation half: the
-//	            share shown), filters {keyed, ablation}, score, mark,
+//	            share shown; only in its Holm family), filters {keyed,
+//	            ablation}, score, mark,
 //	            verdict, confidence_only, pattern
 //	relied_on_reads_like_the_task[]   the same fields
 //	action      cues, patterns, counterfactual {accuracy, accuracy_without,

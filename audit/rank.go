@@ -247,7 +247,7 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 		ps[i] = res.Ranked[k].Confirmed.P
 		shifted[i] = &res.Ranked[k]
 	}
-	confirmedShifts(shifted)
+	a.confirmedShifts(shifted)
 	for i, q := range BenjaminiHochberg(ps) {
 		res.Ranked[put[i]].settle(q, a.opt.RelianceAlpha)
 	}

@@ -48,6 +48,53 @@ type ModelPair struct {
 	P          float64 `json:"p"`
 }
 
+// RetrainAlpha is the level at which the two-sided exact McNemar test of a
+// ModelPair tells the two models' accuracies apart (Direction): 5%, the
+// level of the accuracies' 95% intervals shown beside it (common
+// practice, no source).
+const RetrainAlpha = 0.05
+
+// Direction is how the retrained model's accuracy (ModelPair.After)
+// compares with the audited model's (Before) on the same texts.
+type Direction int
+
+const (
+	// NotClearlyDifferent: the test does not tell them apart at the level
+	// asked; never to be read as a gain or a loss.
+	NotClearlyDifferent Direction = iota
+	// Lower: the retrained model gets fewer of the texts right.
+	Lower
+	// Higher: the retrained model gets more of the texts right.
+	Higher
+)
+
+// String names d as the window and the command line read it.
+func (d Direction) String() string {
+	switch d {
+	case Lower:
+		return "lower"
+	case Higher:
+		return "higher"
+	}
+	return "not clearly different"
+}
+
+// Direction says whether the retrained model's accuracy on p's texts is
+// lower or higher than the audited model's by the two-sided exact McNemar
+// test (P) below alpha, or not clearly different (P at alpha or above).
+// On paired texts the accuracies differ by (OnlyAfter − OnlyBefore) / texts,
+// so the discordant counts give the direction; equal counts (P = 1) are
+// never a difference.
+func (p ModelPair) Direction(alpha float64) Direction {
+	switch {
+	case !(p.P < alpha) || p.OnlyAfter == p.OnlyBefore: // a NaN p is no difference either
+		return NotClearlyDifferent
+	case p.OnlyAfter > p.OnlyBefore:
+		return Higher
+	}
+	return Lower
+}
+
 // Retrain takes the patterns (Action.Patterns, or Marks.Patterns) out of
 // the training texts (corpus.MaskTokens), trains a model on them with
 // recipe r (cnn.TrainText, which takes the patterns r records already,

@@ -2,12 +2,15 @@ package audit
 
 import (
 	"context"
+	"encoding/json"
+	"math"
 	"slices"
 	"strings"
 	"testing"
 
 	"telltale/cnn"
 	"telltale/corpus"
+	"telltale/internal/testref"
 )
 
 // TestRetrainKeepsTheBaseline: a model retrained with the recipe rebuilt
@@ -95,5 +98,82 @@ func TestRetrainCountsWhatTheCuesRemoved(t *testing.T) {
 	}
 	if !slices.Equal(rt.Model.Info.Recipe.MaskTokens, []string{"/tkref-[0-9]+/", "tkref"}) {
 		t.Errorf("the retrained model's mask %q", rt.Model.Info.Recipe.MaskTokens)
+	}
+}
+
+// The verdict of a retraining (ModelPair.Direction) at RetrainAlpha, on
+// paired predictions built to the counts: the two-sided exact McNemar p of
+// pair() against SciPy 1.10 (Debian's python3-scipy), run live:
+// scipy.stats.binomtest(only before, only before + only after, 0.5).pvalue
+// (relative tolerance 1e-9, both sum the same binomial terms); the
+// direction worked by hand: the retrained model's accuracy differs from the
+// audited one's by (only after − only before) / texts, and counts only as
+// a difference when p < 0.05 (3 against 12 gives p = 2·576/2^15 ≈ 0.035,
+// 4 against 12 gives 2·2517/2^16 ≈ 0.077, from the binomial sums).
+func TestModelPairDirection(t *testing.T) {
+	cases := []struct {
+		onlyBefore, onlyAfter, both int
+		want                        Direction
+	}{
+		{5, 30, 300, Higher},
+		{30, 5, 300, Lower},
+		{16, 26, 350, NotClearlyDifferent},
+		{3, 12, 50, Higher},
+		{12, 3, 50, Lower},
+		{4, 12, 50, NotClearlyDifferent},
+		{12, 4, 50, NotClearlyDifferent},
+		{7, 7, 100, NotClearlyDifferent},
+	}
+	var ref []refCase
+	for _, c := range cases {
+		ref = append(ref, refCase{"sign-two", []any{c.onlyBefore, c.onlyAfter}})
+	}
+	want := scipyRef(t, ref)
+	for i, c := range cases {
+		// gold all 0; a model is right where it says 0.
+		var before, after, gold []int
+		add := func(n, b, a int) {
+			for range n {
+				before, after, gold = append(before, b), append(after, a), append(gold, 0)
+			}
+		}
+		add(c.onlyBefore, 0, 1)
+		add(c.onlyAfter, 1, 0)
+		add(c.both, 0, 0)
+		add(10, 1, 1) // both wrong
+		mp := pair(before, after, gold)
+		var p float64
+		if err := json.Unmarshal(want[i], &p); err != nil {
+			t.Fatal(err)
+		}
+		if mp.OnlyBefore != c.onlyBefore || mp.OnlyAfter != c.onlyAfter || !testref.Close(mp.P, p, 1e-300, 1e-9) {
+			t.Errorf("%d only before, %d only after: counted %d, %d, p %.17g; SciPy p %.17g", c.onlyBefore, c.onlyAfter, mp.OnlyBefore, mp.OnlyAfter, mp.P, p)
+		}
+		if got := mp.Direction(RetrainAlpha); got != c.want {
+			t.Errorf("%d only before, %d only after (p %.3g): %v, want %v", c.onlyBefore, c.onlyAfter, mp.P, got, c.want)
+		}
+		if d := mp.After.Estimate - mp.Before.Estimate; (c.want == Higher && d <= 0) || (c.want == Lower && d >= 0) {
+			t.Errorf("%d only before, %d only after: %v, but the accuracies differ by %v", c.onlyBefore, c.onlyAfter, c.want, d)
+		}
+	}
+	// At the level itself, or with no figure, there is no difference; the
+	// level is the one asked.
+	for _, c := range []struct {
+		mp    ModelPair
+		alpha float64
+		want  Direction
+	}{
+		{ModelPair{OnlyBefore: 16, OnlyAfter: 26, P: 0.05}, 0.05, NotClearlyDifferent},
+		{ModelPair{OnlyBefore: 16, OnlyAfter: 26, P: 0.0499}, 0.05, Higher},
+		{ModelPair{OnlyBefore: 26, OnlyAfter: 16, P: 0.03}, 0.01, NotClearlyDifferent},
+		{ModelPair{OnlyBefore: 26, OnlyAfter: 16, P: math.NaN()}, 0.05, NotClearlyDifferent},
+		{ModelPair{P: 1}, 0.05, NotClearlyDifferent},
+	} {
+		if got := c.mp.Direction(c.alpha); got != c.want {
+			t.Errorf("%+v at %v: %v, want %v", c.mp, c.alpha, got, c.want)
+		}
+	}
+	if RetrainAlpha != 0.05 {
+		t.Errorf("RetrainAlpha %v: the accuracies' intervals beside it are 95%%", RetrainAlpha)
 	}
 }

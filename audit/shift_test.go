@@ -238,38 +238,78 @@ func TestConfirmedShiftSciPy(t *testing.T) {
 	}
 }
 
-// The confirming half's tests are corrected by Holm (1979) over the cues
-// put to the test whose choosing half shows a shift, and only those: with
-// p = 0.01, 0.04 and 0.03 the step-down gives 3·0.01 = 0.03, then
-// max(0.03, 2·0.03) = 0.06 for 0.03 and max(0.06, 1·0.04) = 0.06 for
-// 0.04 (worked by hand from Holm's definition), so only the first is lower
-// at 0.05; a cue without a shift, or absent from the confirming half, is
-// outside the family, and a share at the training one is never lower.
+// The confirming half's tests are corrected by Holm (1979): with p = 0.01,
+// 0.04 and 0.03 the step-down gives 3·0.01 = 0.03, then max(0.03, 2·0.03)
+// = 0.06 for 0.03 and max(0.06, 1·0.04) = 0.06 for 0.04 (worked by hand
+// from Holm's definition), so only the first is lower at 0.05; a share at
+// the training one is never lower, however small its p.
 func TestConfirmedShiftHolm(t *testing.T) {
-	cue := func(p, share float64, present bool) *Candidate {
-		return &Candidate{Shift: &Shift{Present: present},
-			ShiftConfirmed: &ConfirmedShift{P: p, Share: Interval{Estimate: share}, TrainShare: 0.9}}
+	shift := func(p, share float64) *ConfirmedShift {
+		return &ConfirmedShift{P: p, Share: Interval{Estimate: share}, TrainShare: 0.9}
 	}
-	cs := []*Candidate{cue(0.01, 0.5, true), cue(0.04, 0.5, true), cue(0.001, 0.5, false), cue(0.03, 0.5, true),
-		{Shift: &Shift{Present: true}}}
-	confirmedShifts(cs)
+	family := []*ConfirmedShift{shift(0.01, 0.5), shift(0.04, 0.5), shift(0.03, 0.5)}
+	holmShifts(family)
 	want := []struct {
-		holm   float64
-		family int
-		lower  bool
-	}{{0.03, 3, true}, {0.06, 3, false}, {0, 0, false}, {0.06, 3, false}}
+		holm  float64
+		lower bool
+	}{{0.03, true}, {0.06, false}, {0.06, false}}
 	for k, w := range want {
-		s := cs[k].ShiftConfirmed
-		if !testref.Close(s.Holm, w.holm, 1e-15, 1e-12) || s.Family != w.family || s.Lower != w.lower {
-			t.Errorf("cue %d (p %v): Holm %v over %d, lower %v; want %v over %d, lower %v", k, s.P, s.Holm, s.Family, s.Lower, w.holm, w.family, w.lower)
+		s := family[k]
+		if !testref.Close(s.Holm, w.holm, 1e-15, 1e-12) || s.Family != 3 || s.Lower != w.lower {
+			t.Errorf("cue %d (p %v): Holm %v over %d, lower %v; want %v over 3, lower %v", k, s.P, s.Holm, s.Family, s.Lower, w.holm, w.lower)
 		}
 	}
-	if cs[4].ShiftConfirmed != nil {
-		t.Errorf("a cue absent from the confirming half got %+v", cs[4].ShiftConfirmed)
+	same := []*ConfirmedShift{shift(0.001, 0.9)}
+	holmShifts(same)
+	if s := same[0]; s.Lower || s.Family != 1 || s.Holm != 0.001 {
+		t.Errorf("a share equal to training's: %+v, want not lower, Holm p 0.001 over 1", s)
 	}
-	same := []*Candidate{cue(0.001, 0.9, true)}
-	confirmedShifts(same)
-	if s := same[0].ShiftConfirmed; s.Lower || s.Family != 1 {
-		t.Errorf("a share equal to training's: %+v, want not lower, family 1", s)
+}
+
+// Only a cue of the Holm family has a confirmed shift: put to the test on
+// the confirming half (confirmedShifts is given those), its choosing half
+// showing a shift, and held by some confirming text. A cue put to the test
+// without a shift, or absent from the confirming half, has none, even one
+// left over from before; so no uncorrected one-sided p is reported. The
+// family's members carry the test confirmedShiftOf gives each alone
+// (checked against SciPy in TestConfirmedShiftSciPy), corrected together.
+func TestConfirmedShiftFamily(t *testing.T) {
+	// 20 confirming texts, the first 3 in label 0.
+	conf, all := confirmingTexts(20, 3)
+	assoc := CueAssociation{Texts: 100, InLabel: 90, Share: 0.9}
+	cue := func(present bool, occ []span) *Candidate {
+		return &Candidate{Class: 0, Association: assoc, Shift: &Shift{Present: present}, confOcc: occ,
+			ShiftConfirmed: &ConfirmedShift{P: 1e-9, Family: 7}} // left over: replaced or cleared
+	}
+	cs := []*Candidate{
+		cue(true, all),     // in the family: 3 of 20
+		cue(true, all[:6]), // in the family: texts 0–4 (text 0 held twice), 3 of 5
+		cue(false, all),    // no shift in the choosing half
+		cue(true, nil),     // no confirming text holds it
+		{Class: 0, Association: assoc, confOcc: all}, // no shift measured
+	}
+	a := &auditor{conf: conf}
+	a.confirmedShifts(cs)
+	for k, in := range []bool{true, true, false, false, false} {
+		s := cs[k].ShiftConfirmed
+		if !in {
+			if s != nil {
+				t.Errorf("cue %d, outside the family, has a confirmed shift %+v", k, s)
+			}
+			continue
+		}
+		alone := a.confirmedShiftOf(&Candidate{Class: 0, Association: assoc, confOcc: cs[k].confOcc})
+		if s == nil || s.Family != 2 || s.Texts != alone.Texts || s.InLabel != alone.InLabel || s.P != alone.P {
+			t.Fatalf("cue %d: %+v, want the test alone %+v in a family of 2", k, s, alone)
+		}
+	}
+	// Holm over two: the smaller p doubled, the larger kept at least that.
+	p0, p1 := cs[0].ShiftConfirmed.P, cs[1].ShiftConfirmed.P
+	if cs[0].ShiftConfirmed.InLabel != 3 || cs[1].ShiftConfirmed.Texts != 5 || !(p0 < p1) {
+		t.Fatalf("the construction: %+v, %+v", cs[0].ShiftConfirmed, cs[1].ShiftConfirmed)
+	}
+	if h0, h1 := cs[0].ShiftConfirmed.Holm, cs[1].ShiftConfirmed.Holm; !testref.Close(h0, min(1, 2*p0), 1e-300, 1e-12) ||
+		!testref.Close(h1, max(h0, p1), 1e-300, 1e-12) {
+		t.Errorf("Holm %v, %v for p %v, %v", h0, h1, p0, p1)
 	}
 }

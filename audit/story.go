@@ -184,37 +184,40 @@ func (c *Candidate) measuredWhy() string {
 // whose selection half shows a shift (c.ShiftConfirmed, in its Holm
 // family): its count, its share with the exact interval, the one-sided
 // test against training, and plainly when that half does not show the
-// share lower. It is "" for a cue outside the family. The story, the
-// command line and the report show it.
+// share lower. A share found lower says, in the same sentence, that the
+// test leans that way: the training share it is tested against chose the
+// cue for being extreme (regression to the mean). It is "" for a cue
+// outside the family. The story, the command line and the report show it.
 func (c *Candidate) ConfirmedShiftSays() string {
-	share, test := c.confirmedShiftParts()
-	if share == "" {
-		return ""
-	}
-	return share + " " + test
+	return strings.Join(c.confirmedShiftLines(), " ")
 }
 
-// confirmedShiftParts is ConfirmedShiftSays in two parts, the figure with
-// the finding and the test with what follows, that the story writes on
-// two lines (the window's reflow joins them again).
-func (c *Candidate) confirmedShiftParts() (share, test string) {
+// leansLower is the caveat of a confirming share found lower than in
+// training (ConfirmedShift.P).
+const leansLower = "the training share chose the cue, so the test leans towards finding it lower"
+
+// confirmedShiftLines is ConfirmedShiftSays in the lines the story writes
+// (the window's reflow joins them again): the figure with the finding, the
+// test, and for a share found lower the test's caveat; none for a cue
+// outside the family.
+func (c *Candidate) confirmedShiftLines() []string {
 	s := c.ShiftConfirmed
 	if s == nil || s.Family == 0 {
-		return "", ""
+		return nil
 	}
-	share = fmt.Sprintf("On the confirming half, %d of the %d texts holding it are %s, %s, against %s in training:",
+	share := fmt.Sprintf("On the confirming half, %d of the %d texts holding it are %s, %s, against %s in training:",
 		s.InLabel, s.Texts, c.Label, interval(s.Share), fmtPct(s.TrainShare))
-	test = fmt.Sprintf("(one-sided Fisher p = %s; Holm p = %s over the %d cues whose shift it tests)", pval(s.P), pval(s.Holm), s.Family)
+	test := fmt.Sprintf("(one-sided Fisher p = %s; Holm p = %s over the %d cues whose shift it tests", pval(s.P), pval(s.Holm), s.Family)
 	if s.Family == 1 {
-		test = fmt.Sprintf("(one-sided Fisher p = %s, the one cue whose shift it tests)", pval(s.P))
+		test = fmt.Sprintf("(one-sided Fisher p = %s, the one cue whose shift it tests", pval(s.P))
 	}
 	switch {
 	case s.Lower:
-		return share + " lower beyond chance", test + "."
+		return []string{share + " lower beyond chance", test + ";", leansLower + ")."}
 	case s.Share.Estimate < s.TrainShare:
-		return share + " not lower beyond chance", test + ", so the confirming half does not show the shift."
+		return []string{share + " not lower beyond chance", test + "), so the confirming half does not show the shift."}
 	}
-	return share + " no lower", test + ", so the confirming half does not show the shift."
+	return []string{share + " no lower", test + "), so the confirming half does not show the shift."}
 }
 
 // NotRuledOut says, for a ConfidenceOnly cue, what the confirmation half
@@ -298,8 +301,8 @@ func (r *Result) writeStory(w io.Writer) {
 			}
 			// A shift found on the choosing half (among the reasons above or
 			// not) is shown as the confirming half measures it.
-			if share, test := c.confirmedShiftParts(); share != "" {
-				p("     %s\n     %s\n", share, test)
+			for _, l := range c.confirmedShiftLines() {
+				p("     %s\n", l)
 			}
 		}
 		if cf := r.Action.Counterfactual; cf != nil {

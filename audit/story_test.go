@@ -462,9 +462,10 @@ func checkStory(t *testing.T, name, story string, want, not []string) {
 
 // A cue acted on whose choosing half shows a shift has its label share
 // shown as the confirming half measures it, with its interval and its
-// test, and said plainly when that half does not show it lower; the
-// choosing half's share, which took part in choosing the cue, is not
-// shown as evidence. The figures are invented; the wording is what is
+// test, and said plainly when that half does not show it lower; a share
+// found lower says in the same sentence that the test leans that way (the
+// training share it is tested against chose the cue); the choosing half's
+// share, which took part in choosing the cue, is not shown as evidence. The figures are invented; the wording is what is
 // checked (the test's values against SciPy: TestConfirmedShiftSciPy).
 func TestStoryConfirmedShift(t *testing.T) {
 	cases := []struct {
@@ -477,7 +478,8 @@ func TestStoryConfirmedShift(t *testing.T) {
 	}{
 		{"lower", 3, 1.2e-9, 2.4e-9, true,
 			"On the confirming half, 3 of the 20 texts holding it are spam, 15% (3.2–38%), against 90% in training: lower beyond chance",
-			"     (one-sided Fisher p = 1.2e-09; Holm p = 2.4e-09 over the 2 cues whose shift it tests).\n"},
+			"     (one-sided Fisher p = 1.2e-09; Holm p = 2.4e-09 over the 2 cues whose shift it tests;\n" +
+				"     the training share chose the cue, so the test leans towards finding it lower).\n"},
 		{"not beyond chance", 16, 0.3, 0.6, false,
 			"On the confirming half, 16 of the 20 texts holding it are spam, 80% (56–94%), against 90% in training: not lower beyond chance",
 			"     (one-sided Fisher p = 0.3; Holm p = 0.6 over the 2 cues whose shift it tests), so the confirming half does not show the shift.\n"},
@@ -510,7 +512,7 @@ func TestStoryConfirmedShift(t *testing.T) {
 			if err := r.WriteText(&b); err != nil {
 				t.Fatal(err)
 			}
-			if !strings.Contains(b.String(), "   label share: "+tc.want+" "+strings.TrimSpace(tc.wantNext)) {
+			if !strings.Contains(b.String(), "   label share: "+tc.want+" "+strings.Join(strings.Fields(tc.wantNext), " ")) {
 				t.Errorf("the cue's lines lack its confirmed shift:\n%s", b.String())
 			}
 		})
@@ -519,7 +521,8 @@ func TestStoryConfirmedShift(t *testing.T) {
 	r, _ := storyOfHalves()
 	r.Ranked[0].Shift = &Shift{Present: true}
 	r.Ranked[0].ShiftConfirmed = &ConfirmedShift{Texts: 20, InLabel: 3, Share: Interval{Estimate: 0.15}, TrainShare: 0.9, P: 1e-9, Holm: 1e-9, Family: 1, Lower: true}
-	if story := r.Story(); !strings.Contains(story, "lower beyond chance\n     (one-sided Fisher p = 1e-09, the one cue whose shift it tests).") {
+	if story := r.Story(); !strings.Contains(story, "lower beyond chance\n     (one-sided Fisher p = 1e-09, the one cue whose shift it tests;\n"+
+		"     the training share chose the cue, so the test leans towards finding it lower).") {
 		t.Errorf("a family of one is not told as such:\n%s", story)
 	}
 	// Outside the family (no shift in the choosing half), nothing is said.

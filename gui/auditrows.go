@@ -133,19 +133,14 @@ func retrainRows(rt *audit.Retrained) [][]string {
 // whether the two-sided exact McNemar test tells the two models' accuracies
 // apart on the confirming half as it is, then both accuracies with their
 // 95% Wilson intervals, all as audit.Retrain measured them (rt.Original).
-// A difference the test does not find at the 5% level, the level of those
-// intervals (common practice, no source), reads as no clear difference,
-// never as a gain or a loss. The verdict and p come first: the status bar
+// The verdict is audit's (ModelPair.Direction at audit.RetrainAlpha): a
+// difference the test does not find reads as no clear difference, never as
+// a gain or a loss. The verdict and p come first: the status bar
 // ends a line too long for a small screen in "…".
 func retrainedStatus(rt *audit.Retrained) string {
 	mp := rt.Original
-	verdict := "not clearly different from"
-	if mp.P < 0.05 {
-		verdict = "lower than"
-		if mp.OnlyAfter > mp.OnlyBefore {
-			verdict = "higher than"
-		}
-	}
+	verdict := map[audit.Direction]string{audit.NotClearlyDifferent: "not clearly different from", audit.Lower: "lower than",
+		audit.Higher: "higher than"}[mp.Direction(audit.RetrainAlpha)]
 	return fmt.Sprintf("Retrained without %s: accuracy on the confirming half %s the model audited's (two-sided exact McNemar p = %s): "+
 		"%s against %s, 95%% intervals.",
 		wording.Count(len(rt.Patterns), "cue", "cues"), verdict, pvalue(mp.P), accInterval(mp.After), accInterval(mp.Before))

@@ -20,8 +20,16 @@ var cueSignals = []string{audit.SignalEdge, audit.SignalLine, audit.SignalSpan, 
 // those in the label, the share with its 95% Wilson interval, the exact
 // p-value and the corrected one, each with its bound where it is below
 // audit.PFloor: p_below, adjusted_p_below); artifact-likeness and every signal's
-// value; reliance on the confirming half ("half" says when only the
-// choosing half measured it), each rate with its 95% bootstrap interval
+// value (signal_shift is the choosing half's shift, a reason the cue was
+// chosen); the confirming half's shift, the figure shown of it
+// (audit.ConfirmedShift; empty cells for a cue outside its Holm family):
+// the confirming texts holding the cue (shift_confirmed_texts), those in
+// its label, their share with its exact 95% Clopper–Pearson interval, the
+// one-sided Fisher p-value of the share being lower than in training
+// (shift_confirmed_p_lower; the training share chose the cue, so it leans
+// towards lower), its Holm-adjusted p-value and whether the share is lower
+// at Holm p ≤ 0.05 (shift_confirmed_lower); reliance on the confirming
+// half ("half" says when only the choosing half measured it), each rate with its 95% bootstrap interval
 // and the sign tests (empty where the half holds the cue in too few texts
 // to measure); the choosing half's rank score (its label drop times the
 // artifact-likeness: it orders the list, measured on the texts that chose
@@ -35,6 +43,8 @@ func CueTable(r *audit.Result) *Table {
 	for _, s := range cueSignals {
 		cols = append(cols, "signal_"+s)
 	}
+	cols = append(cols, "shift_confirmed_texts", "shift_confirmed_in_label", "shift_confirmed_share", "shift_confirmed_share_low",
+		"shift_confirmed_share_high", "shift_confirmed_p_lower", "shift_confirmed_holm_p", "shift_confirmed_lower")
 	cols = append(cols, "half", "heldout_texts", "measured")
 	for _, x := range []string{"flip_rate", "control_flip_rate", "label_drop", "prob_drop", "decided"} {
 		cols = append(cols, x, x+"_low", x+"_high")
@@ -66,6 +76,11 @@ func cueRow(list string, rank int, c *audit.Candidate) []any {
 			}
 		}
 		row = append(row, v)
+	}
+	if s := c.ShiftConfirmed; s != nil && s.Family > 0 {
+		row = append(row, s.Texts, s.InLabel, s.Share.Estimate, s.Share.Low, s.Share.High, s.P, s.Holm, s.Lower)
+	} else {
+		row = append(row, make([]any, 8)...)
 	}
 	rl, half := c.Confirmed, "confirming"
 	if rl == nil {

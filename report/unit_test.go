@@ -229,7 +229,8 @@ func TestDescribeCueConfirmedShift(t *testing.T) {
 			TrainShare: 0.9, P: 1.2e-9, Holm: 2.4e-9, Family: 2, Lower: true}}
 	ev := DescribeCue(&c, &auditpkg.Result{}, nil)
 	want := "On the confirming half, 3 of the 20 texts holding it are spam, 15% (3.2–38%), against 90% in training: lower beyond chance " +
-		"(one-sided Fisher p = 1.2e-09; Holm p = 2.4e-09 over the 2 cues whose shift it tests)."
+		"(one-sided Fisher p = 1.2e-09; Holm p = 2.4e-09 over the 2 cues whose shift it tests; " +
+		"the training share chose the cue, so the test leans towards finding it lower)."
 	if ev.Shift != want {
 		t.Errorf("shift %q, want %q", ev.Shift, want)
 	}

@@ -7,6 +7,7 @@ and writes one JSON list of p-values or [low, high] intervals:
   fisher-two   [a, b, c, d]  scipy.stats.fisher_exact(alternative="two-sided")
   fisher-less  [a, b, c, d]  scipy.stats.fisher_exact(alternative="less")
   sign         [pos, neg]    scipy.stats.binomtest(pos, pos+neg, 0.5, alternative="greater")
+  sign-two     [pos, neg]    scipy.stats.binomtest(pos, pos+neg, 0.5).pvalue (two-sided: the exact McNemar test)
   wilson       [k, n]        scipy.stats.binomtest(k, n).proportion_ci(0.95, "wilson")
   exact        [k, n]        scipy.stats.binomtest(k, n).proportion_ci(0.95, "exact") (Clopper-Pearson)
 """
@@ -28,6 +29,8 @@ for case in json.load(sys.stdin):
         out.append(float(stats.fisher_exact([[a[0], a[1]], [a[2], a[3]]], alternative="two-sided")[1]))
     elif kind == "sign":
         out.append(float(stats.binomtest(a[0], a[0] + a[1], 0.5, alternative="greater").pvalue))
+    elif kind == "sign-two":
+        out.append(float(stats.binomtest(a[0], a[0] + a[1], 0.5).pvalue))
     elif kind == "wilson":
         ci = stats.binomtest(a[0], a[1]).proportion_ci(confidence_level=0.95, method="wilson")
         out.append([float(ci.low), float(ci.high)])
