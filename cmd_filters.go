@@ -355,7 +355,9 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 		sel := f.Selectivity
 		ew.printf("  families (chosen on a sample of %d of the choosing half's %s above the threshold; share measured on a sample\n"+
 			"  of %d of the other half's %s above it, which took no part in choosing them, with its 95%% interval over resampling\n"+
-			"  that sample (the share itself when that half was sampled whole); stability with its 95%% Monte Carlo interval):\n",
+			"  that sample, exact (Clopper–Pearson in its effective size) where the family or the rest holds fewer than 10 of its\n"+
+			"  windows; texts with the same interval; stability on the half that chose the families, its interval the Monte Carlo\n"+
+			"  error of 50 resamples, not the sampling error of the texts):\n",
 			f.FamilySample, wording.Count(sel.Above-sel.Windows, "window", "windows"), f.FamilyMeasured, wording.Count(sel.Windows, "window", "windows"))
 	}
 	for _, fam := range f.Families {
@@ -368,11 +370,11 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 				fam.Pattern, stab, wording.Count(fam.Ngrams, "n-gram", "n-grams"))
 			continue
 		}
-		// The count's interval is the share's, over the windows above the threshold.
-		above := float64(f.Selectivity.Above)
-		ew.printf("    %-36s %5.1f%% (%.1f–%.1f%%)  stability %s  (%s, about %s, %.0f–%.0f)\n",
+		// The count's interval is the share's, over the windows above the
+		// threshold (explain.Family).
+		ew.printf("    %-36s %5.1f%% (%.1f–%.1f%%)  stability %s  (%s, about %s, %d–%d)\n",
 			fam.Pattern, 100*fam.Share, 100*fam.ShareLow, 100*fam.ShareHigh, stab, wording.Count(fam.Ngrams, "n-gram", "n-grams"), wording.Texts(fam.Count),
-			fam.ShareLow*above, fam.ShareHigh*above)
+			fam.CountLow, fam.CountHigh)
 	}
 	for _, s := range f.Slots {
 		ew.printf("  slot %d  on: %s\n          off: %s\n", s.Slot, scoreList(s.Triggers, top), scoreList(s.Suppressors, top))

@@ -109,8 +109,12 @@
 //     clusters that read the same pattern joined into one family; each
 //     family's share is measured on the other half's sample (its windows
 //     placed in the nearest family), which took no part in choosing the
-//     families, with a resampling interval, and its bootstrap stability
-//     (Hennig 2007) has a Monte Carlo interval.
+//     families, with a resampling interval (the exact Clopper–Pearson
+//     interval in Kish's effective size where a family, or the rest, holds
+//     fewer than 10 measured windows), and the estimated number of texts
+//     with its interval; its bootstrap stability (Hennig 2007) is measured
+//     on the half that chose the families, and its interval is the Monte
+//     Carlo error of 50 resamples, not the sampling error of the texts.
 //
 // Memory does not grow with the corpus: per filter it keeps bounded top
 // lists, skylines and samples and a fine histogram. ProfileStream does the

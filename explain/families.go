@@ -6,6 +6,8 @@ import (
 	"math/rand/v2"
 	"slices"
 	"strings"
+
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // Family is a group of a filter's winning windows above its selectivity
@@ -26,10 +28,14 @@ type Family struct {
 	Ngrams int `json:"ngrams"` // distinct n-grams of the choosing half's sample in the family
 	// Count is Share times the windows above the threshold over both
 	// halves (Selectivity.Above), rounded: the estimated number of texts
-	// whose winning window is in the family (0 when Share is undefined).
-	Count   int          `json:"count"`
-	Pattern string       `json:"pattern"` // e.g. "good|great * service"; "*" marks a wildcard slot
-	Slots   []FamilySlot `json:"slots"`
+	// whose winning window is in the family; CountLow and CountHigh are
+	// ShareLow and ShareHigh times the same, rounded (all 0 when Share is
+	// undefined).
+	Count     int          `json:"count"`
+	CountLow  int          `json:"count_low"`
+	CountHigh int          `json:"count_high"`
+	Pattern   string       `json:"pattern"` // e.g. "good|great * service"; "*" marks a wildcard slot
+	Slots     []FamilySlot `json:"slots"`
 	// Centroid is the weighted mean slot-score vector, raw, never shown;
 	// CentroidLogOdds is it in log-odds units (times the filter's
 	// VoteScale).
@@ -52,20 +58,25 @@ type Family struct {
 	// Share is measured on the other half alone: the estimated number of
 	// its windows above the threshold placed in the family over the
 	// estimated number of all its windows above the threshold
-	// (Horvitz–Thompson weights), with a 95% percentile interval from
-	// resampling each of that half's strata's sample with replacement (the
-	// families held fixed: they were chosen on the other half; a stratum
-	// sampled whole is not resampled, so the interval is the share itself
-	// when every window of that half above the threshold was sampled). A
-	// family none of whose measured windows was placed in has Share 0;
-	// unless that half was sampled whole, its ShareHigh is then the exact
-	// (Clopper–Pearson) upper bound for 0 successes in the sample's
-	// effective size (Kish 1965, Survey Sampling), as Korn & Graubard 1998
-	// ("Confidence intervals for proportions with small expected number of
-	// positive counts estimated from survey data", Survey Methodology) do
-	// for survey proportions, since resampling never draws what it never
-	// saw. Share, ShareLow and ShareHigh are NaN (JSON null) when no
-	// sampled window of the measuring half lies above the threshold.
+	// (Horvitz–Thompson weights). That half is a random half of the texts
+	// standing for them all, so even when every one of its windows above
+	// the threshold was sampled its share carries sampling error. Its 95%
+	// interval is the percentile interval from resampling each of that
+	// half's strata's sample with replacement, the strata sampled whole
+	// pooled as one (the families held fixed: they were chosen on the
+	// other half), except where the family holds
+	// fewer than familyThinCount of the measured windows, or the other
+	// families fewer than that, where the percentile interval is too
+	// narrow (resampling never draws what it never saw): there it is the
+	// exact (Clopper–Pearson) interval for Share times the sample's
+	// effective size (Kish 1965, Survey Sampling) successes of that size,
+	// as Korn & Graubard 1998 ("Confidence intervals for proportions with
+	// small expected number of positive counts estimated from survey
+	// data", Survey Methodology) do for survey proportions (exactShare). A
+	// family none of whose measured windows was placed in has Share 0 and
+	// ShareHigh 1 − 0.025^(1/n_eff). Share, ShareLow and ShareHigh are NaN
+	// (JSON null) when no sampled window of the measuring half lies above
+	// the threshold.
 	Share     float64 `json:"share"`
 	ShareLow  float64 `json:"share_low"`
 	ShareHigh float64 `json:"share_high"`
@@ -78,11 +89,13 @@ type Family struct {
 	// that figure over the resamples holding a pair (a pairwise form of
 	// the bootstrap cluster stability of Hennig 2007, "Cluster-wise
 	// assessment of cluster stability", Computational Statistics & Data
-	// Analysis, which averages a Jaccard coefficient over resamples). Nil
-	// for a family of one n-gram.
+	// Analysis, which averages a Jaccard coefficient over resamples). It
+	// is measured on the half that chose the families, not on the
+	// measuring half. Nil for a family of one n-gram.
 	//
 	// StabilityLow and StabilityHigh bound it with 95% confidence over
-	// the Monte Carlo error of its finite number of resamples: the Wilson
+	// the Monte Carlo error of its familyStabilityResamples (50)
+	// resamples alone, not the sampling error of the texts: the Wilson
 	// score interval (Wilson 1927) with the per-resample figures' mean for
 	// the proportion, which for figures in [0, 1] uses the largest
 	// variance they can have at that mean, μ(1 − μ) (Bhatia & Davis 2000,
@@ -226,34 +239,43 @@ func buildFamilies(st *SlotTable, g int, fs *famSample, theta float32, cut float
 // resampleCells adds to dst (cleared first), for every sampled window of
 // the cells whose items (−1 below the threshold) ks holds, its cell's
 // weight n/m to its item's entry, each cell's sample drawn again with
-// replacement; with census set, a cell sampled whole is kept as it is (its
-// windows carry no sampling error).
-func resampleCells(dst []float64, cells [][]int, n, m []int, census bool, rng *rand.Rand) {
+// replacement. With pool set, the cells sampled whole are drawn again as
+// one, with replacement as well: their windows stand for the windows of
+// other texts like them, so they carry sampling error all the same, and
+// as strata they would hide it (a cell of one window always draws it
+// again); the texts being drawn at random, how many of their windows fall
+// in each such cell is itself random, so they are resampled as the simple
+// random sample they are (Efron 1979, "Bootstrap methods: another look
+// at the jackknife", Annals of Statistics).
+func resampleCells(dst []float64, cells [][]int, n, m []int, pool bool, rng *rand.Rand) {
 	clear(dst)
+	var whole []int
 	for j, ks := range cells {
 		if len(ks) == 0 {
 			continue
 		}
-		w := float64(n[j]) / float64(m[j])
-		if census && m[j] == n[j] {
-			for _, k := range ks {
-				if k >= 0 {
-					dst[k] += w
-				}
-			}
+		if pool && m[j] == n[j] {
+			whole = append(whole, ks...)
 			continue
 		}
+		w := float64(n[j]) / float64(m[j])
 		for range ks {
 			if k := ks[rng.IntN(len(ks))]; k >= 0 {
 				dst[k] += w
 			}
 		}
 	}
+	for range whole {
+		if k := whole[rng.IntN(len(whole))]; k >= 0 {
+			dst[k]++
+		}
+	}
 }
 
 // measureFamilies places each of the measuring half's sampled windows at
 // or above theta in the nearest family (nearestFamily) and sets the
-// families' Measured, Share with its interval and Count (see Family).
+// families' Measured, Share with its interval and Count with its interval
+// (see Family).
 func measureFamilies(st *SlotTable, g int, fs *famSample, theta float32, fams []Family, above int, rng *rand.Rand) {
 	ws, m := fs.above(theta, 1)
 	nan := math.NaN()
@@ -272,32 +294,63 @@ func measureFamilies(st *SlotTable, g int, fs *famSample, theta float32, fams []
 	// Per cell of the measuring half, the family of every sampled window
 	// (−1 below the threshold).
 	cells := make([][]int, famStrata)
-	census := true
 	for j := range famStrata {
-		c := famStrata + j
-		for _, it := range fs.items[c] {
+		for _, it := range fs.items[famStrata+j] {
 			k := -1
 			if it.act >= theta {
 				k = famOf[it.key]
 			}
 			cells[j] = append(cells[j], k)
 		}
-		census = census && m[c] == fs.n[c]
 	}
-	n, mm := fs.n[famStrata:], m[famStrata:]
+	measureShares(fams, cells, fs.n[famStrata:], m[famStrata:], familyThinCount, rng)
+	for l := range fams {
+		f := &fams[l]
+		a := float64(above)
+		f.Count = int(math.Round(f.Share * a))
+		f.CountLow, f.CountHigh = int(math.Round(f.ShareLow*a)), int(math.Round(f.ShareHigh*a))
+	}
+}
+
+// familyThinCount is the number of a family's measured windows, or of the
+// measured windows outside it, below which its share takes the exact
+// interval (see Family), the thinCount of cnn's F1 intervals
+// (cnn/metrics_exact.go), where the percentile bootstrap is too narrow in
+// the same way: with about 4 of 200 measured windows in a family it covers
+// the share in about 91% of samples (TestFamilyShareCoverageThin).
+const familyThinCount = 10
+
+// measureShares sets the families' Measured, Share, ShareLow and ShareHigh
+// from cells, per stratum of the measuring half the family of each of its
+// sampled windows (−1 below the threshold), n and m the strata's window
+// counts and sample sizes: the share is the Horvitz–Thompson estimate, its
+// interval the 95% percentile interval of familyShareResamples resamples
+// of every stratum's sample with replacement (the strata sampled whole
+// pooled, see resampleCells), or, where the family holds
+// fewer than thin measured windows or the others hold fewer than thin, the
+// exact interval in Kish's effective size (exactShare). At least one
+// window lies above the threshold.
+func measureShares(fams []Family, cells [][]int, n, m []int, thin int, rng *rand.Rand) {
 	weights := make([]float64, len(fams))
 	var total, sq float64
-	for _, w := range ws {
-		l := famOf[w.key]
-		weights[l] += w.weight
-		fams[l].Measured++
-		total += w.weight
-		sq += w.weight * w.weight
+	measured := 0
+	for j, ks := range cells {
+		for _, k := range ks {
+			if k < 0 {
+				continue
+			}
+			w := float64(n[j]) / float64(m[j])
+			weights[k] += w
+			fams[k].Measured++
+			measured++
+			total += w
+			sq += w * w
+		}
 	}
 	shares := make([][]float64, len(fams))
 	rw := make([]float64, len(fams))
 	for range familyShareResamples {
-		resampleCells(rw, cells, n, mm, true, rng)
+		resampleCells(rw, cells, n, m, true, rng)
 		var t float64
 		for _, w := range rw {
 			t += w
@@ -309,20 +362,39 @@ func measureFamilies(st *SlotTable, g int, fs *famSample, theta float32, fams []
 			shares[l] = append(shares[l], w/t)
 		}
 	}
+	nEff := total * total / sq
 	for l := range fams {
 		f := &fams[l]
 		f.Share = weights[l] / total
-		f.ShareLow, f.ShareHigh = percentileInterval(shares[l], 0.95)
-		if f.Measured == 0 {
-			f.Share, f.ShareLow, f.ShareHigh = 0, 0, 0
-			if !census {
-				// Clopper–Pearson's upper bound for 0 of n_eff, Kish's
-				// effective sample size (Σw)²/Σw².
-				f.ShareHigh = 1 - math.Pow(0.025, sq/(total*total))
-			}
+		if f.Measured < thin || measured-f.Measured < thin {
+			f.ShareLow, f.ShareHigh = exactShare(f.Share, nEff)
+		} else {
+			f.ShareLow, f.ShareHigh = percentileInterval(shares[l], 0.95)
 		}
-		f.Count = int(math.Round(f.Share * float64(above)))
 	}
+}
+
+// exactShare is the 95% Clopper–Pearson interval (Clopper & Pearson 1934)
+// of a share p estimated from weighted windows of effective size nEff
+// (Kish 1965, Survey Sampling: (Σw)²/Σw²), taken as p·nEff successes of
+// nEff as Korn & Graubard 1998 ("Confidence intervals for proportions with
+// small expected number of positive counts estimated from survey data",
+// Survey Methodology) do for survey proportions (without their
+// degrees-of-freedom adjustment: the strata are many and the design's
+// degrees of freedom are not tracked). For p = 0 its upper bound is
+// 1 − 0.025^(1/nEff), for p = 1 its lower bound 0.025^(1/nEff); it is no
+// point while nEff is finite.
+func exactShare(p, nEff float64) (lo, hi float64) {
+	const a = 0.025
+	x := p * nEff
+	lo, hi = 0, 1
+	if x > 0 {
+		lo = distuv.Beta{Alpha: x, Beta: nEff - x + 1}.Quantile(a)
+	}
+	if x < nEff {
+		hi = distuv.Beta{Alpha: x + 1, Beta: nEff - x}.Quantile(1 - a)
+	}
+	return min(lo, p), max(hi, p)
 }
 
 func newFamilyItem(st *SlotTable, g int, key string) familyItem {

@@ -80,10 +80,15 @@ print(json.dumps(out))
 // the sample), the families hold exactly the choosing half's windows:
 // their weights add up to that half's count above the threshold, each
 // n-gram with its count; the measuring half's windows above the threshold
-// are all placed in a family, every share interval is the share itself and
-// the shares add up to 1 (or are undefined when that half has no window
-// above the threshold); and two far-apart groups of n-grams are families
-// of stability 1.
+// are all placed in a family and the shares add up to 1 (or are undefined
+// when that half has no window above the threshold). That half stands for
+// other texts, so no share interval is a point; each holds its share, and
+// that of a family with fewer than familyThinCount of the measured windows
+// (or of one whose others are that few), every weight being 1, is the
+// Clopper–Pearson interval of its windows among them
+// (cnn.ClopperPearsonInterval, checked against SciPy there), the counts'
+// the shares' times the windows above the threshold. Two far-apart groups
+// of n-grams are families of stability 1.
 func TestFamiliesExactWhenAllSampled(t *testing.T) {
 	rng := rand.New(rand.NewPCG(71, 71))
 	checked, measured := 0, 0
@@ -113,8 +118,20 @@ func TestFamiliesExactWhenAllSampled(t *testing.T) {
 					if !math.IsNaN(f.Share) || !math.IsNaN(f.ShareLow) || !math.IsNaN(f.ShareHigh) || f.Count != 0 {
 						t.Fatalf("filter %d family %s: share %g in [%g, %g], count %d, want undefined without measured windows", pr.Filter, f.Pattern, f.Share, f.ShareLow, f.ShareHigh, f.Count)
 					}
-				} else if f.ShareLow != f.Share || f.ShareHigh != f.Share {
-					t.Fatalf("filter %d family %s: share %g in [%g, %g], want a point when all is sampled", pr.Filter, f.Pattern, f.Share, f.ShareLow, f.ShareHigh)
+				} else {
+					if !(f.ShareLow <= f.Share && f.Share <= f.ShareHigh && f.ShareLow < f.ShareHigh) {
+						t.Fatalf("filter %d family %s: share %g in [%g, %g], want an interval holding it, no point", pr.Filter, f.Pattern, f.Share, f.ShareLow, f.ShareHigh)
+					}
+					if f.Measured < familyThinCount || s.Windows-f.Measured < familyThinCount {
+						cp := cnn.ClopperPearsonInterval(f.Measured, s.Windows, 0.95)
+						if !near(f.ShareLow, cp.Low, 1e-9, 1e-9) || !near(f.ShareHigh, cp.High, 1e-9, 1e-9) {
+							t.Fatalf("filter %d family %s: %d of %d measured windows, share in [%g, %g], Clopper–Pearson [%g, %g]", pr.Filter, f.Pattern, f.Measured, s.Windows, f.ShareLow, f.ShareHigh, cp.Low, cp.High)
+						}
+					}
+					a := float64(s.Above)
+					if f.Count != int(math.Round(f.Share*a)) || f.CountLow != int(math.Round(f.ShareLow*a)) || f.CountHigh != int(math.Round(f.ShareHigh*a)) {
+						t.Fatalf("filter %d family %s: count %d (%d–%d) for share %g (%g–%g) of %d", pr.Filter, f.Pattern, f.Count, f.CountLow, f.CountHigh, f.Share, f.ShareLow, f.ShareHigh, s.Above)
+					}
 				}
 				if f.Stability != nil && (*f.Stability < 0 || *f.Stability > 1) {
 					t.Fatalf("filter %d family %s: stability %g", pr.Filter, f.Pattern, *f.Stability)

@@ -325,14 +325,15 @@ func familyRows(fp *explain.FilterProfile) [][]string {
 				dom = append(dom, fmt.Sprintf("%d:%s (%.3f)", sl.Slot, strings.Join(sl.Words, "|"), sl.MeanLogOdds))
 			}
 		}
-		// Stability with its Monte Carlo interval; the share is the
-		// measuring half's, undefined when none of its sampled windows lies
-		// above the threshold (explain.Family).
+		// Stability with its Monte Carlo interval; the share and the count
+		// of texts, with their intervals, are the measuring half's,
+		// undefined when none of its sampled windows lies above the
+		// threshold (explain.Family).
 		stab := "—"
 		if f.Stability != nil && f.StabilityLow != nil && f.StabilityHigh != nil {
 			stab = fmt.Sprintf("%.2f (%.2f–%.2f)", *f.Stability, *f.StabilityLow, *f.StabilityHigh)
 		}
-		share, count := fmt.Sprintf("%.1f%% (%.1f–%.1f%%)", 100*f.Share, 100*f.ShareLow, 100*f.ShareHigh), fmt.Sprint(f.Count)
+		share, count := fmt.Sprintf("%.1f%% (%.1f–%.1f%%)", 100*f.Share, 100*f.ShareLow, 100*f.ShareHigh), fmt.Sprintf("%d (%d–%d)", f.Count, f.CountLow, f.CountHigh)
 		if math.IsNaN(f.Share) {
 			share, count = "— (no measured window)", "—"
 		}
@@ -347,8 +348,8 @@ func familyNote(fp *explain.FilterProfile) string {
 		return "Families group the windows above the selectivity threshold; this filter has none."
 	}
 	return fmt.Sprintf("Built from a sample of %d of the %d windows at or above the threshold in the half of the texts that chose it, each weighted by the windows it stands for. "+
-		"Share: of the other half's %d windows at or above the threshold (a sample of %d placed in the nearest family), with a 95%% interval; "+
-		"stability: how often two of the family's n-grams fall together again when the sample is resampled, with a 95%% Monte Carlo interval.",
+		"Share: of the other half's %d windows at or above the threshold (a sample of %d placed in the nearest family), with a 95%% interval; texts: the share of all windows above the threshold, with its interval; "+
+		"stability: how often two of the family's n-grams fall together again when the sample is resampled, on the half that chose the families; the interval is the Monte Carlo error of 50 resamples, not the sampling error of the texts.",
 		fp.FamilySample, fp.Selectivity.Above-fp.Selectivity.Windows, fp.Selectivity.Windows, fp.FamilyMeasured)
 }
 

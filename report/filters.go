@@ -49,7 +49,7 @@ type ngramRow struct {
 	HeldDown, Positive, By  string // negative n-grams only
 }
 
-type familyRow struct{ Pattern, Ngrams, Count, Members, Share, ShareCI, Stability string }
+type familyRow struct{ Pattern, Ngrams, Count, CountCI, Members, Share, ShareCI, Stability string }
 
 type slotRow struct {
 	Slot                  int
@@ -156,13 +156,14 @@ func filterCardOf(f explain.FilterProfile, labels []string) filterCard {
 		if fam.Stability != nil {
 			stab = num(*fam.Stability) + " (" + num(*fam.StabilityLow) + "–" + num(*fam.StabilityHigh) + ")"
 		}
-		// The share is the measuring half's (explain.Family); undefined
-		// when none of that half's sampled windows lies above the threshold.
+		// The share and the count of texts, with their intervals, are the
+		// measuring half's (explain.Family); undefined when none of that
+		// half's sampled windows lies above the threshold.
 		row := familyRow{Pattern: fam.Pattern, Ngrams: count(fam.Ngrams),
-			Count: count(fam.Count), Members: strings.Join(members, " · "),
+			Count: count(fam.Count), CountCI: count(fam.CountLow) + "–" + count(fam.CountHigh), Members: strings.Join(members, " · "),
 			Share: pct(fam.Share), ShareCI: pct(fam.ShareLow) + "–" + pct(fam.ShareHigh), Stability: stab}
 		if math.IsNaN(fam.Share) {
-			row.Count, row.ShareCI = "–", "no measured window"
+			row.Count, row.CountCI, row.ShareCI = "–", "", "no measured window"
 		}
 		card.Families = append(card.Families, row)
 	}
