@@ -306,6 +306,10 @@ func measureFamilies(st *SlotTable, g int, fs *famSample, theta float32, fams []
 	measureShares(fams, cells, fs.n[famStrata:], m[famStrata:], familyThinCount, rng)
 	for l := range fams {
 		f := &fams[l]
+		if math.IsNaN(f.Share) {
+			f.Count, f.CountLow, f.CountHigh = 0, 0, 0 // int(NaN) is no number
+			continue
+		}
 		a := float64(above)
 		f.Count = int(math.Round(f.Share * a))
 		f.CountLow, f.CountHigh = int(math.Round(f.ShareLow*a)), int(math.Round(f.ShareHigh*a))

@@ -248,7 +248,8 @@ func at(xs []float64, i int) any {
 // below the threshold), positive (its score without them) and
 // negative_slots (their indexes, space-separated), its count being the
 // windows of the corpus equal to it; "family", with its pattern as ngram,
-// its estimated text count, its share of the windows above the threshold
+// its estimated text count with its 95% interval (count_low, count_high:
+// the share's bounds times the windows above the threshold), its share of the windows above the threshold
 // with its 95% interval, measured on the half of the texts that took no
 // part in choosing the families (empty when none of that half's sampled
 // windows lies above the threshold; see explain.Family), and stability
@@ -260,7 +261,7 @@ func ProfileTable(p *explain.Profiles) *Table {
 		t.Columns = append(t.Columns, "centred_vote_log_odds_"+l)
 	}
 	t.Columns = append(t.Columns, "selective", "threshold_log_odds", "purity", "purity_low", "purity_high", "base_rate", "p", "p_holm",
-		"negatives_exact", "family_sample", "kind", "rank", "ngram", "activation_log_odds", "count", "slot_scores_log_odds",
+		"negatives_exact", "family_sample", "kind", "rank", "ngram", "activation_log_odds", "count", "count_low", "count_high", "slot_scores_log_odds",
 		"held_down_log_odds", "positive_log_odds", "negative_slots", "share", "share_low", "share_high", "stability",
 		"stability_low", "stability_high")
 	for _, f := range p.Filters {
@@ -273,11 +274,11 @@ func ProfileTable(p *explain.Profiles) *Table {
 			f.NegativesExact, f.FamilySample)
 		add := func(cells ...any) { t.Add(append(slices.Clone(head), cells...)...) }
 		for r, n := range f.TopNgrams {
-			add("top", r+1, strings.Join(n.Tokens, " "), n.ActivationLogOdds, n.Count, joinFloats(n.SlotsLogOdds),
+			add("top", r+1, strings.Join(n.Tokens, " "), n.ActivationLogOdds, n.Count, nil, nil, joinFloats(n.SlotsLogOdds),
 				nil, nil, nil, nil, nil, nil, nil, nil, nil)
 		}
 		for r, n := range f.Negatives {
-			add("negative", r+1, strings.Join(n.Tokens, " "), n.ActivationLogOdds, n.Count, joinFloats(n.SlotsLogOdds),
+			add("negative", r+1, strings.Join(n.Tokens, " "), n.ActivationLogOdds, n.Count, nil, nil, joinFloats(n.SlotsLogOdds),
 				n.HeldDownLogOdds, n.PositiveLogOdds, joinInts(n.NegativeSlots), nil, nil, nil, nil, nil, nil)
 		}
 		for r, fam := range f.Families {
@@ -285,7 +286,11 @@ func ProfileTable(p *explain.Profiles) *Table {
 			if fam.Stability != nil {
 				stab, stabLow, stabHigh = *fam.Stability, *fam.StabilityLow, *fam.StabilityHigh
 			}
-			add("family", r+1, fam.Pattern, nil, fam.Count, nil,
+			var count, countLow, countHigh any = fam.Count, fam.CountLow, fam.CountHigh
+			if math.IsNaN(fam.Share) { // no measured window: no estimate
+				count, countLow, countHigh = nil, nil, nil
+			}
+			add("family", r+1, fam.Pattern, nil, count, countLow, countHigh, nil,
 				nil, nil, nil, fam.Share, fam.ShareLow, fam.ShareHigh, stab, stabLow, stabHigh)
 		}
 	}
