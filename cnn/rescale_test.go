@@ -19,11 +19,7 @@ func TestWithFiltersRescaled(t *testing.T) {
 	for range 200 {
 		ids := randomIDs(rng, len(m.Vocab))
 		a, b := m.Forward(ids), s.Forward(ids)
-		for c := range a.Probs {
-			if !scalar.EqualWithinAbsOrRel(float64(a.Probs[c]), float64(b.Probs[c]), 1e-5, 1e-4) {
-				t.Fatalf("%v: p[%d] %g becomes %g", ids, c, a.Probs[c], b.Probs[c])
-			}
-		}
+		sameProbs(t, ids, a.Probs, b.Probs)
 		for g := range a.Pooled {
 			k := float32(1)
 			if v, ok := ks[g]; ok {
@@ -54,11 +50,7 @@ func TestWithVotesShifted(t *testing.T) {
 	for range 200 {
 		ids := randomIDs(rng, len(m.Vocab))
 		a, b := m.Forward(ids), s.Forward(ids)
-		for c := range a.Probs {
-			if !scalar.EqualWithinAbsOrRel(float64(a.Probs[c]), float64(b.Probs[c]), 1e-5, 1e-4) {
-				t.Fatalf("%v: p[%d] %g becomes %g", ids, c, a.Probs[c], b.Probs[c])
-			}
-		}
+		sameProbs(t, ids, a.Probs, b.Probs)
 	}
 	nf := m.Config.NumFilters()
 	for g, d := range ds {
@@ -90,4 +82,15 @@ func randomIDs(rng *rand.Rand, words int) []int32 {
 		ids[i] = int32(1 + rng.IntN(words-1))
 	}
 	return ids
+}
+
+// sameProbs fails t unless the probabilities a and b of text ids agree to
+// float32 rounding.
+func sameProbs(t *testing.T, ids []int32, a, b []float32) {
+	t.Helper()
+	for c := range a {
+		if !scalar.EqualWithinAbsOrRel(float64(a[c]), float64(b[c]), 1e-5, 1e-4) {
+			t.Fatalf("%v: p[%d] %g becomes %g", ids, c, a[c], b[c])
+		}
+	}
 }
