@@ -244,8 +244,8 @@ func (v *auditView) writeRetrained(w io.Writer) {
 		what string
 		mp   audit.ModelPair
 	}{{"as they are", rt.Original}, {"without the cues", rt.Counterfactual}} {
-		fmt.Fprintf(w, "  %s: accuracy %s with this model, %s retrained; %d right only before, %d only after (two-sided exact McNemar p = %.2g)\n",
-			p.what, accInterval(p.mp.Before), accInterval(p.mp.After), p.mp.OnlyBefore, p.mp.OnlyAfter, p.mp.P)
+		fmt.Fprintf(w, "  %s: accuracy %s with this model, %s retrained; %d right only before, %d only after (two-sided exact McNemar p = %.2g: %s)\n",
+			p.what, accInterval(p.mp.Before), accInterval(p.mp.After), p.mp.OnlyBefore, p.mp.OnlyAfter, p.mp.P, p.mp.Direction(audit.RetrainAlpha))
 	}
 	if v.RetrainedModel != "" {
 		fmt.Fprintf(w, "  The retrained model is in %s.\n", v.RetrainedModel)

@@ -91,3 +91,23 @@ func TestStabilityShowsActedOn(t *testing.T) {
 		}
 	}
 }
+
+// --retrain's comparison says what its exact McNemar test tells, as the
+// window's status does (audit.ModelPair.Direction): a difference at
+// p ≥ 0.05 is not clearly one.
+func TestWriteRetrainedSaysTheVerdict(t *testing.T) {
+	pair := func(onlyBefore, onlyAfter int, p float64) audit.ModelPair {
+		return audit.ModelPair{Before: audit.Interval{Estimate: 0.87, Low: 0.83, High: 0.9}, After: audit.Interval{Estimate: 0.895, Low: 0.86, High: 0.92},
+			OnlyBefore: onlyBefore, OnlyAfter: onlyAfter, P: p}
+	}
+	v := &auditView{auditJSON: &auditJSON{Retrained: &audit.Retrained{Patterns: []string{"x"}, Texts: 400,
+		Original: pair(15, 25, 0.15), Counterfactual: pair(2, 14, 0.004)}}, o: &auditOptions{}}
+	var b strings.Builder
+	v.writeRetrained(&b)
+	for _, want := range []string{"15 right only before, 25 only after (two-sided exact McNemar p = 0.15: not clearly different)",
+		"2 right only before, 14 only after (two-sided exact McNemar p = 0.004: higher)"} {
+		if !strings.Contains(b.String(), want) {
+			t.Errorf("the comparison does not say %q:\n%s", want, b.String())
+		}
+	}
+}
