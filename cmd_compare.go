@@ -22,7 +22,8 @@ var cmdCompare = &command{
 metrics side by side, e.g. a model against its masked copy, or against one
 retrained with --mask-tokens: accuracy with its 95% Wilson interval,
 macro-F1, weighted-F1, per-class F1 and the calibration error with their 95%
-bootstrap intervals over texts, the share of predictions that differ from
+bootstrap intervals over texts (exact bounds for the F1s where a class has
+fewer than 10 errors or 10 right texts, as eval says), the share of predictions that differ from
 the first model's with its Wilson interval, and the exact McNemar test of
 each model against the first (the texts only one of the two labels right).
 A model whose file carries the linear baseline train fits beside the CNN is
@@ -266,7 +267,7 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 		return writeJSON(env.Stdout, rows)
 	}
 	w := env.Stdout
-	fmt.Fprintf(w, "%g%% intervals: Wilson for accuracy and the flipped share, bootstrap over texts for F1s and ECE, exact for an F1 with under 10 errors or right texts\n\n", 100*cnn.IntervalLevel)
+	fmt.Fprintf(w, "%g%% intervals: Wilson for accuracy and the flipped share, bootstrap over texts for F1s and ECE, exact for an F1 with under 10 errors or right texts (a class's by Clopper–Pearson, the macro-F1's a Bonferroni bound, the weighted F1's a bound over the class shares)\n\n", 100*cnn.IntervalLevel)
 	table := [][]string{{"model", "accuracy", "macro-F1", "weighted-F1", "ECE", "flipped"}}
 	marked := false
 	for i, r := range rows {

@@ -260,7 +260,7 @@ func argmax(p []float32) int {
 // writeMetrics prints an evaluation as readable tables, after the
 // figures writeFigures prints, each measured figure with its interval iv.
 func writeMetrics(w io.Writer, m cnn.Metrics, iv cnn.MetricIntervals, bins int) {
-	fmt.Fprintf(w, "weighted-F1 %s   ECE %s (%d bins)   (%g%% intervals: Wilson for precision and recall, bootstrap over texts for F1 and ECE, exact for an F1 with under 10 errors or right texts)\n\n",
+	fmt.Fprintf(w, "weighted-F1 %s   ECE %s (%d bins)   (%g%% intervals: Wilson for precision and recall, bootstrap over texts for F1 and ECE, exact for an F1 with under 10 errors or right texts: a class's by Clopper–Pearson, the macro-F1's a Bonferroni bound, the weighted F1's a bound over the class shares)\n\n",
 		iv.WeightedF1, eceText(m.ECE, iv.ECE), bins, 100*cnn.IntervalLevel)
 	width := 5
 	for i, l := range m.Labels {

@@ -39,7 +39,8 @@ measured against on the same training split: TF-IDF features of the
 unigrams and bigrams of the tokens the CNN sees and a multinomial logistic
 regression, its regularisation C chosen by macro-F1 on the dev split. The
 model file keeps it, and the test split shows both: accuracy with its 95%
-Wilson interval, macro-F1 with its 95% bootstrap interval over texts, and
+Wilson interval, macro-F1 with its 95% bootstrap interval over texts (an
+exact bound where a class has fewer than 10 errors or 10 right texts), and
 the exact McNemar test between the two (how many texts only the CNN labels
 right, how many only the baseline). Where the baseline is significantly
 ahead (p < 0.05), a line after the figures says what to try (--wide-fit,

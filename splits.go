@@ -410,7 +410,7 @@ func recordedTraining(rec *cnn.SplitRecord, all *corpus.Dataset, r *readOptions)
 		}
 		if !isModelData(rec, ds) {
 			return nil, fmt.Sprintf("%s, the data the model was trained on, no longer holds what train read there "+
-				"(it changed since training, or is read here with other column options)", rec.DataAbs)
+				"(it changed since training, or is read here with other options than train's: --text-col, --label-col, --mail, --relabel)", rec.DataAbs)
 		}
 		data = ds
 	}

@@ -250,7 +250,7 @@ func recipe(in Input) recipeView {
 		row := epochRow{Epoch: fmt.Sprint(e.Epoch), Loss: num(e.Loss), DevAcc: "–", DevF1: "–",
 			Speed: count(int(math.Round(e.ExamplesPerSec))), Best: e.Epoch == info.BestEpoch}
 		if e.Dev != nil {
-			row.DevAcc, row.DevF1 = pct(e.Dev.Accuracy), num(e.Dev.MacroF1)
+			row.DevAcc, row.DevF1 = num(e.Dev.Accuracy), num(e.Dev.MacroF1)
 		}
 		rv.Epochs = append(rv.Epochs, row)
 	}
