@@ -23,9 +23,10 @@ metrics side by side, e.g. a model against its masked copy, or against one
 retrained with --mask-tokens: accuracy with its 95% Wilson interval,
 macro-F1, weighted-F1, per-class F1 and the calibration error with their 95%
 bootstrap intervals over texts (exact bounds for the F1s where a class has
-fewer than 10 errors or 10 right texts, as eval says), the share of predictions that differ from
-the first model's with its Wilson interval, and the exact McNemar test of
-each model against the first (the texts only one of the two labels right).
+fewer than 10 errors or 10 right texts, as eval says), the share of
+predictions that differ from the first model's with its Wilson interval,
+and the exact McNemar test of each model against the first (the texts only
+one of the two labels right).
 A model whose file carries the linear baseline train fits beside the CNN is
 then shown beside it, with the exact McNemar test between the two, as train
 shows them. The texts are found as eval finds them for the first model:
