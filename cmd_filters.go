@@ -353,20 +353,25 @@ func writeFilter(ew *errWriter, p *explain.Profiles, f *explain.FilterProfile, t
 	writeNegatives(ew, f, top)
 	if len(f.Families) > 0 {
 		sel := f.Selectivity
-		ew.printf("  families (chosen on a sample of %d of the choosing half's %s above the threshold; share measured on a sample\n"+
-			"  of %d of the other half's %s above it, which took no part in choosing them, with its 95%% interval over resampling\n"+
-			"  that sample, exact (Clopper–Pearson in its effective size) where the family or the rest holds fewer than 10 of its\n"+
-			"  windows; texts with the same interval; stability on the half that chose the families, its interval the Monte Carlo\n"+
-			"  error of 50 resamples, not the sampling error of the texts):\n",
-			f.FamilySample, wording.Count(sel.Above-sel.Windows, "window", "windows"), f.FamilyMeasured, wording.Count(sel.Windows, "window", "windows"))
+		if f.FamilyMeasured == 0 {
+			ew.printf("  families (chosen on a sample of %d of the choosing half's %s above the threshold; none of the other half's measured; stability – for one n-gram):\n",
+				f.FamilySample, wording.Count(sel.Above-sel.Windows, "window", "windows"))
+		} else {
+			ew.printf("  families (chosen on a sample of %d of the choosing half's %s above the threshold; share measured on a sample\n"+
+				"  of %d of the other half's %s above it, which took no part in choosing them, with its 95%% interval over resampling\n"+
+				"  that sample, at least the exact one (Clopper–Pearson in its effective size), the exact one alone where the family\n"+
+				"  or the rest holds fewer than 10 of its windows; texts with the same interval; stability on the half that chose the\n"+
+				"  families, its interval the Monte Carlo error of 50 resamples, not the sampling error of the texts; – for one n-gram):\n",
+				f.FamilySample, wording.Count(sel.Above-sel.Windows, "window", "windows"), f.FamilyMeasured, wording.Count(sel.Windows, "window", "windows"))
+		}
 	}
 	for _, fam := range f.Families {
-		stab := "-"
+		stab := "–" // one n-gram: no stability (said in the header)
 		if fam.Stability != nil {
 			stab = fmt.Sprintf("%.2f (%.2f–%.2f)", *fam.Stability, *fam.StabilityLow, *fam.StabilityHigh)
 		}
 		if math.IsNaN(fam.Share) {
-			ew.printf("    %-36s share –, no measured window  stability %s  (%s)\n",
+			ew.printf("    %-36s share –  stability %s  (%s)\n",
 				fam.Pattern, stab, wording.Count(fam.Ngrams, "n-gram", "n-grams"))
 			continue
 		}

@@ -64,11 +64,14 @@ type Family struct {
 	// interval is the percentile interval from resampling each of that
 	// half's strata's sample with replacement, the strata sampled whole
 	// pooled as one (the families held fixed: they were chosen on the
-	// other half), except where the family holds
+	// other half), widened where needed to hold the exact interval below
+	// (resampling holds each stratum's size fixed, so strata pure in the
+	// family carry no variance and the percentile interval alone can be a
+	// point), and where the family holds
 	// fewer than familyThinCount of the measured windows, or the other
 	// families fewer than that, where the percentile interval is too
-	// narrow (resampling never draws what it never saw): there it is the
-	// exact (Clopper–Pearson) interval for Share times the sample's
+	// narrow (resampling never draws what it never saw), it is the
+	// exact (Clopper–Pearson) interval alone for Share times the sample's
 	// effective size (Kish 1965, Survey Sampling) successes of that size,
 	// as Korn & Graubard 1998 ("Confidence intervals for proportions with
 	// small expected number of positive counts estimated from survey
@@ -303,7 +306,7 @@ func measureFamilies(st *SlotTable, g int, fs *famSample, theta float32, fams []
 			cells[j] = append(cells[j], k)
 		}
 	}
-	measureShares(fams, cells, fs.n[famStrata:], m[famStrata:], familyThinCount, rng)
+	measureShares(fams, cells, fs.n[famStrata:], m[famStrata:], familyThinCount, true, rng)
 	for l := range fams {
 		f := &fams[l]
 		if math.IsNaN(f.Share) {
@@ -330,11 +333,13 @@ const familyThinCount = 10
 // counts and sample sizes: the share is the Horvitz–Thompson estimate, its
 // interval the 95% percentile interval of familyShareResamples resamples
 // of every stratum's sample with replacement (the strata sampled whole
-// pooled, see resampleCells), or, where the family holds
+// pooled, see resampleCells) joined with (the hull of) the exact interval
+// in Kish's effective size (exactShare), or, where the family holds
 // fewer than thin measured windows or the others hold fewer than thin, the
-// exact interval in Kish's effective size (exactShare). At least one
+// exact interval alone. Without floor (for the tests' older rules) the
+// percentile interval is not joined with the exact one. At least one
 // window lies above the threshold.
-func measureShares(fams []Family, cells [][]int, n, m []int, thin int, rng *rand.Rand) {
+func measureShares(fams []Family, cells [][]int, n, m []int, thin int, floor bool, rng *rand.Rand) {
 	weights := make([]float64, len(fams))
 	var total, sq float64
 	measured := 0
@@ -370,10 +375,18 @@ func measureShares(fams []Family, cells [][]int, n, m []int, thin int, rng *rand
 	for l := range fams {
 		f := &fams[l]
 		f.Share = weights[l] / total
-		if f.Measured < thin || measured-f.Measured < thin {
-			f.ShareLow, f.ShareHigh = exactShare(f.Share, nEff)
-		} else {
-			f.ShareLow, f.ShareHigh = percentileInterval(shares[l], 0.95)
+		f.ShareLow, f.ShareHigh = exactShare(f.Share, nEff)
+		if f.Measured >= thin && measured-f.Measured >= thin {
+			if !floor {
+				f.ShareLow, f.ShareHigh = f.Share, f.Share
+			}
+			// The resampling holds each stratum's size fixed, so strata
+			// pure in the family (all or none of their windows in it)
+			// carry no variance there, although which texts fell in the
+			// measuring half is random: the interval is at least the
+			// exact one, the hull of the two.
+			lo, hi := percentileInterval(shares[l], 0.95)
+			f.ShareLow, f.ShareHigh = min(f.ShareLow, lo), max(f.ShareHigh, hi)
 		}
 	}
 }

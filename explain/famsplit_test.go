@@ -10,6 +10,7 @@ import (
 	"testing"
 
 	"telltale/cnn"
+	"telltale/internal/testref"
 )
 
 // The family sample's halves are the selectivity's (half): every window
@@ -309,8 +310,9 @@ func TestFamiliesDeterministic(t *testing.T) {
 // effective size 147). Over 4,000 runs a coverage of 95% would fall below
 // 94% with probability 0.21% (exact binomial); the exact interval is
 // conservative, so the new rule's coverage should lie above. The old rule
-// (the exact bound only for a family with no measured window, thin 1;
-// here with a census resampled as well, where it once gave a point) must
+// (the exact bound only for a family with no measured window, thin 1, and
+// the percentile interval alone elsewhere; here with a census resampled as
+// well, where it once gave a point) must
 // fall below 94% in both, so that this test can fail.
 func TestFamilyShareCoverageThin(t *testing.T) {
 	const runs = 4000
@@ -347,7 +349,7 @@ func TestFamilyShareCoverageThin(t *testing.T) {
 					}
 				}
 				fams := make([]Family, 2)
-				measureShares(fams, cells, d.n, d.m, rule.thin, rng)
+				measureShares(fams, cells, d.n, d.m, rule.thin, rule.thin != 1, rng)
 				f := fams[0]
 				if !(f.ShareLow <= f.Share && f.Share <= f.ShareHigh) {
 					t.Fatalf("%s, %s: share %g outside (%g–%g)", d.name, rule.name, f.Share, f.ShareLow, f.ShareHigh)
@@ -365,6 +367,44 @@ func TestFamilyShareCoverageThin(t *testing.T) {
 			if rule.thin == 1 && c >= 0.94 {
 				t.Errorf("%s, %s rule: coverage %.3f; the percentile interval was expected below 0.94 here, so this test could not fail", d.name, rule.name, c)
 			}
+		}
+	}
+}
+
+// Where the measuring half's strata are pure (each stratum's sampled
+// windows all in the family or all outside it), resampling within the
+// strata draws the same share every time, and the percentile interval
+// alone is a point (as "9.9% (9.9–9.9%)" once was), although which texts
+// fell in that half is random. The interval is at least the exact
+// Clopper–Pearson interval in Kish's effective size (exactShare): here two
+// strata of 1,000 windows sampled 50 each, one all in family 0 and one
+// all outside it, a share of 0.5 of an effective 100 windows, whose 95%
+// Clopper–Pearson interval is 0.3983–0.6017 (R's binom.test(50, 100):
+// 0.3983211–0.6016789). The percentile interval alone must
+// be a point here, so that this test can fail.
+func TestFamilySharePureStrata(t *testing.T) {
+	n, m := []int{1000, 1000}, []int{50, 50}
+	cells := make([][]int, 2)
+	for j := range cells {
+		for range m[j] {
+			cells[j] = append(cells[j], j)
+		}
+	}
+	for _, floor := range []bool{false, true} {
+		fams := make([]Family, 2)
+		measureShares(fams, cells, n, m, familyThinCount, floor, rand.New(rand.NewPCG(5, 6)))
+		f := fams[0]
+		if f.Share != 0.5 {
+			t.Fatalf("floor %v: share %g, want 0.5", floor, f.Share)
+		}
+		if !floor {
+			if f.ShareLow != f.ShareHigh {
+				t.Fatalf("percentile interval alone (%g–%g) is no point; this test could not fail", f.ShareLow, f.ShareHigh)
+			}
+			continue
+		}
+		if !testref.Close(f.ShareLow, 0.3983, 1e-3, 0) || !testref.Close(f.ShareHigh, 0.6017, 1e-3, 0) {
+			t.Errorf("interval %g–%g, want the exact 0.3983–0.6017", f.ShareLow, f.ShareHigh)
 		}
 	}
 }

@@ -27,3 +27,25 @@ func TestFamilyCountInterval(t *testing.T) {
 		t.Errorf("family * b (share undefined): count %q (%q), want – without an interval", b.Count, b.CountCI)
 	}
 }
+
+// The families' footnote counts the windows above the threshold of the
+// half of the texts that chose it (Selectivity.Above − Selectivity.Windows,
+// as the window's family note does), not of both halves; a family's
+// pattern may break only after "|" (a zero-width space follows each) or at
+// its spaces, and its stability's interval stands on a line of its own.
+func TestFamilyFootnoteAndPattern(t *testing.T) {
+	s, lo, hi := 0.9, 0.8, 0.95
+	f := explain.FilterProfile{FamilySample: 5, Selectivity: explain.Selectivity{Above: 2424, Windows: 1200},
+		Families: []explain.Family{{Pattern: "re|200 * coar|x", Share: 0.5, ShareLow: 0.4, ShareHigh: 0.6, Stability: &s, StabilityLow: &lo, StabilityHigh: &hi}}}
+	card := filterCardOf(f, []string{"p", "q"})
+	if card.FamilyTotal != "1,224" {
+		t.Errorf("footnote total %q, want 1,224 (the choosing half's windows)", card.FamilyTotal)
+	}
+	r := card.Families[0]
+	if r.Pattern != "re|\u200b200 * coar|\u200bx" {
+		t.Errorf("pattern %q: want a zero-width space after each |", r.Pattern)
+	}
+	if r.Stability != "0.900" || r.StabilityCI != "0.800–0.950" {
+		t.Errorf("stability %q, interval %q: want the interval apart", r.Stability, r.StabilityCI)
+	}
+}

@@ -49,7 +49,14 @@ type ngramRow struct {
 	HeldDown, Positive, By  string // negative n-grams only
 }
 
-type familyRow struct{ Pattern, Ngrams, Count, CountCI, Members, Share, ShareCI, Stability string }
+// familyRow is one family of a filter card. Pattern may break only after
+// "|" (a zero-width space follows each) or at its spaces, so that the
+// column keeps its words whole; the share's and the stability's intervals
+// stand on a second, small line.
+type familyRow struct {
+	Pattern, Ngrams, Count, CountCI, Members string
+	Share, ShareCI, Stability, StabilityCI   string
+}
 
 type slotRow struct {
 	Slot                  int
@@ -116,7 +123,7 @@ func filterCardOf(f explain.FilterProfile, labels []string) filterCard {
 	card := filterCard{ID: f.Filter, Width: f.Width, Label: f.Label, Margin: signed(f.MarginLogOdds), Votes: centredVotes(f.CentredVotesLogOdds, labels),
 		Threshold: num(s.ThresholdLogOdds), Above: count(s.Above), HeldOut: heldOut(&s, f.Label),
 		Fired: count(f.Fired), MaxAct: num(f.MaxLogOdds), FamilyCount: len(f.Families),
-		FamilySample: count(f.FamilySample), FamilyTotal: count(s.Above)}
+		FamilySample: count(f.FamilySample), FamilyTotal: count(s.Above - s.Windows)}
 	if !s.ThresholdExact && !math.IsInf(s.ThresholdLogOdds, 0) {
 		card.ThresholdNote = "at a histogram bin edge"
 	}
@@ -152,16 +159,16 @@ func filterCardOf(f explain.FilterProfile, labels []string) filterCard {
 			members = append(members, strings.Join(mb, " "))
 		}
 		// Stability with its Monte Carlo interval (explain.Family).
-		stab := "–"
+		stab, stabCI := "–", "one n-gram"
 		if fam.Stability != nil {
-			stab = num(*fam.Stability) + " (" + num(*fam.StabilityLow) + "–" + num(*fam.StabilityHigh) + ")"
+			stab, stabCI = num(*fam.Stability), num(*fam.StabilityLow)+"–"+num(*fam.StabilityHigh)
 		}
 		// The share and the count of texts, with their intervals, are the
 		// measuring half's (explain.Family); undefined when none of that
 		// half's sampled windows lies above the threshold.
-		row := familyRow{Pattern: fam.Pattern, Ngrams: count(fam.Ngrams),
+		row := familyRow{Pattern: strings.ReplaceAll(fam.Pattern, "|", "|\u200b"), Ngrams: count(fam.Ngrams),
 			Count: count(fam.Count), CountCI: count(fam.CountLow) + "–" + count(fam.CountHigh), Members: strings.Join(members, " · "),
-			Share: pct(fam.Share), ShareCI: pct(fam.ShareLow) + "–" + pct(fam.ShareHigh), Stability: stab}
+			Share: pct(fam.Share), ShareCI: pct(fam.ShareLow) + "–" + pct(fam.ShareHigh), Stability: stab, StabilityCI: stabCI}
 		if math.IsNaN(fam.Share) {
 			row.Count, row.CountCI, row.ShareCI = "–", "", "no measured window"
 		}
