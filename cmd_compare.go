@@ -268,8 +268,8 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 		return writeJSON(env.Stdout, rows)
 	}
 	w := env.Stdout
-	fmt.Fprintf(w, "%g%% intervals: Wilson for accuracy and the flipped share, bootstrap over texts for F1s and ECE, exact for an F1 with under 10 errors or right texts (a class's by Clopper–Pearson, the macro-F1's a Bonferroni bound, the weighted F1's a bound over the class shares)\n\n", 100*cnn.IntervalLevel)
-	table := [][]string{{"model", "accuracy", "macro-F1", "weighted-F1", "ECE", "flipped"}}
+	fmt.Fprintf(w, "%g%% intervals: Wilson for accuracy and the flipped share, bootstrap over texts for F1s and ECE,\nexact for an F1 with under 10 errors or right texts (a class's by Clopper–Pearson, the macro-F1's a Bonferroni bound, the weighted F1's a bound over the class shares)\n\n", 100*cnn.IntervalLevel)
+	table := [][]string{{"model", "accuracy", "macro-F1", "weighted-F1", "ECE (bias-corrected)", "flipped"}}
 	marked := false
 	for i, r := range rows {
 		flip := "-"
@@ -282,9 +282,10 @@ func writeComparison(env *runEnv, rows []compareRow, heading string, asJSON bool
 			name, marked = name+" *", true
 		}
 		table = append(table, []string{name, r.Figures.CNN.Accuracy.String(), r.Figures.CNN.MacroF1.String(),
-			r.Intervals.WeightedF1.String(), eceText(r.Metrics.ECE, r.Intervals.ECE), flip})
+			r.Intervals.WeightedF1.String(), eceCell(r.Metrics.ECE, r.Intervals.ECE), flip})
 	}
 	writeAligned(w, table)
+	writeCalibrationTests(w, rows)
 	if marked {
 		fmt.Fprintf(w, "* %s\n", notHeldOut)
 	}
@@ -361,5 +362,32 @@ func writePairedTests(w io.Writer, rows []compareRow) {
 		}
 		fmt.Fprintf(w, "model %d: %d right only with model 1, %d only with model %d; two-sided p = %s\n",
 			i+2, r.VsFirst.OnlyA, r.VsFirst.OnlyB, i+2, cnn.PValue(r.VsFirst.P))
+	}
+}
+
+// eceCell is a model's ECE as the compare table shows it: the
+// bias-corrected estimate with its interval (the observed figure and the
+// calibration test follow the table: writeCalibrationTests), or the
+// observed figure where the confidences are not known.
+func eceCell(ece float64, iv *cnn.CalibrationFigure) string {
+	if iv == nil {
+		return fmt.Sprintf("%.3f (no interval)", ece)
+	}
+	return fmt.Sprintf("%.3f (%.3f–%.3f)", iv.Estimate, iv.Low, iv.High)
+}
+
+// writeCalibrationTests writes, under the compare table, each model's
+// observed ECE with its test of perfect calibration, as eval prints them.
+func writeCalibrationTests(w io.Writer, rows []compareRow) {
+	var parts []string
+	for i, r := range rows {
+		if r.Intervals.ECE == nil {
+			continue
+		}
+		_, test, _ := strings.Cut(r.Intervals.ECE.String(), "; ")
+		parts = append(parts, fmt.Sprintf("model %d %s", i+1, test))
+	}
+	if len(parts) > 0 {
+		fmt.Fprintf(w, "ECE: %s\n", strings.Join(parts, "; "))
 	}
 }
