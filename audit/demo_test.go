@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"telltale/corpus"
+	"telltale/internal/testref"
 )
 
 // TestDemoPlantedCues trains the default recipe (8 epochs, as the README's
@@ -223,14 +224,7 @@ func checkDemo(t *testing.T, res *Result) {
 	}
 	// The JSON holds the ranked cues and the action under the documented
 	// keys (doc.go), and the story names no internal field.
-	js, err := json.Marshal(res)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var back map[string]any
-	if err := json.Unmarshal(js, &back); err != nil {
-		t.Fatal(err)
-	}
+	back := testref.JSONFields(t, res)
 	for _, key := range []string{"ranked", "relied_on_reads_like_the_task", "action", "test", "correction", "cutoff"} {
 		if _, ok := back[key]; !ok {
 			t.Errorf("JSON lacks %q", key)

@@ -1,10 +1,11 @@
 package cnn
 
 import (
-	"encoding/json"
 	"math/rand/v2"
 	"strings"
 	"testing"
+
+	"telltale/internal/testref"
 )
 
 // TestCalibrationTestLevel checks the consistency-resampling test of
@@ -83,16 +84,9 @@ func TestCalibrationFigureFloor(t *testing.T) {
 		if f.AtFloor != tc.floor || !strings.HasSuffix(f.String(), tc.text) {
 			t.Errorf("%d draws, p %g: at floor %v, %q; want %v, ending %q", tc.draws, p, f.AtFloor, f.String(), tc.floor, tc.text)
 		}
-		b, err := json.Marshal(f)
-		if err != nil {
-			t.Fatal(err)
-		}
-		var back map[string]any
-		if err := json.Unmarshal(b, &back); err != nil {
-			t.Fatal(err)
-		}
+		back := testref.JSONFields(t, f)
 		if back["calibration_p_at_floor"] != tc.floor || back["calibration_draws"] != float64(tc.draws) || back["calibration_p"] != p || back["observed"] != 0.95 {
-			t.Errorf("%d draws: JSON %s", tc.draws, b)
+			t.Errorf("%d draws: JSON %v", tc.draws, back)
 		}
 	}
 }

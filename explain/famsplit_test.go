@@ -172,14 +172,7 @@ func TestFamilyShareFromMeasuringHalf(t *testing.T) {
 		if !math.IsNaN(f.Share) || !math.IsNaN(f.ShareLow) || !math.IsNaN(f.ShareHigh) || f.Count != 0 || f.Measured != 0 {
 			t.Fatalf("family %s: share %g (%g–%g), count %d, measured %d; want undefined", f.Pattern, f.Share, f.ShareLow, f.ShareHigh, f.Count, f.Measured)
 		}
-		b, err := json.Marshal(f)
-		if err != nil {
-			t.Fatal(err)
-		}
-		var back map[string]any
-		if err := json.Unmarshal(b, &back); err != nil {
-			t.Fatal(err)
-		}
+		back := testref.JSONFields(t, f)
 		for _, k := range []string{"share", "share_low", "share_high"} {
 			if v, ok := back[k]; !ok || v != nil {
 				t.Fatalf("family %s: JSON %s = %v, want null", f.Pattern, k, v)

@@ -8,6 +8,7 @@ package testref
 
 import (
 	"bytes"
+	"encoding/json"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -113,4 +114,19 @@ func RunScript(t testing.TB, name string, stdin []byte, args ...string) []byte {
 		t.Fatalf("%s: %v\n%s", name, err, stderr.String())
 	}
 	return out
+}
+
+// JSONFields marshals v and reads it back as a JSON object, to check the
+// keys and values a reader of the JSON sees; it fails t on an error.
+func JSONFields(t testing.TB, v any) map[string]any {
+	t.Helper()
+	b, err := json.Marshal(v)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var back map[string]any
+	if err := json.Unmarshal(b, &back); err != nil {
+		t.Fatal(err)
+	}
+	return back
 }
