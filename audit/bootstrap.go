@@ -59,21 +59,44 @@ func quantileSorted(xs []float64, q float64) float64 {
 	return xs[i] + (h-float64(i))*(xs[i+1]-xs[i])
 }
 
-// BootstrapMeanIn is BootstrapMean for values known to lie in [lo, hi]
-// (shares of edits, probability drops), with an interval that does not
-// collapse when every value is the same v, where every resample's mean is
-// v. The texts behind the values are then n draws none of which fell
-// elsewhere; the share q of texts whose value is not v lies below u, the
-// Clopper–Pearson upper bound for 0 of n (ClopperPearson), and the mean
-// below v + q·(hi − v) and above v − q·(v − lo): the interval is
-// [v − u·(v − lo), v + u·(hi − v)]. For shares that are all 0 it is
-// [0, u], for 12 texts about [0, 0.26] at 95%. Preconditions: as
-// BootstrapMean, lo ≤ every x ≤ hi.
-func BootstrapMeanIn(x []float64, lo, hi float64, B int, conf float64, seed uint64) Interval {
-	if len(x) == 0 || slices.ContainsFunc(x, func(v float64) bool { return v != x[0] }) {
+// MeanIntervalIn is the mean of values known to lie in [lo, hi] (shares
+// of edits, probability drops), one per text, with a 95% interval over
+// texts that stays valid where few texts differ from the rest:
+//   - every value the same v: every resample's mean is v, so the texts are
+//     n draws none of which fell elsewhere; the share q of texts whose
+//     value is not v lies below u, the Clopper–Pearson upper bound for 0
+//     of n (ClopperPearson), and the mean below v + q·(hi − v) and above
+//     v − q·(v − lo): the interval is [v − u·(v − lo), v + u·(hi − v)].
+//     For shares that are all 0 it is [0, u], for 12 texts about
+//     [0, 0.26] at 95%;
+//   - fewer than thinOffMode values differ from the most common one: the
+//     exact betting interval (BettingMeanInterval), since the bootstrap
+//     sees only those few;
+//   - otherwise the percentile bootstrap (BootstrapMean).
+//
+// Preconditions: as BootstrapMean, lo < hi, lo ≤ every x ≤ hi.
+func MeanIntervalIn(x []float64, lo, hi float64, B int, conf float64, seed uint64) Interval {
+	if len(x) == 0 {
 		return BootstrapMean(x, B, conf, seed)
 	}
-	v := x[0]
-	_, u := ClopperPearson(0, len(x), conf)
-	return Interval{Estimate: v, Low: v - u*(v-lo), High: v + u*(hi-v)}
+	switch off := len(x) - modeCount(x); {
+	case off == 0:
+		v := x[0]
+		_, u := ClopperPearson(0, len(x), conf)
+		return Interval{Estimate: v, Low: v - u*(v-lo), High: v + u*(hi-v)}
+	case off < thinOffMode:
+		return BettingMeanInterval(x, lo, hi, conf, seed)
+	}
+	return BootstrapMean(x, B, conf, seed)
+}
+
+// modeCount is how many values of x equal its most common value.
+func modeCount(x []float64) int {
+	counts := make(map[float64]int, 8)
+	best := 0
+	for _, v := range x {
+		counts[v]++
+		best = max(best, counts[v])
+	}
+	return best
 }

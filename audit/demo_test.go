@@ -260,10 +260,8 @@ func TestRetrainWithoutCues(t *testing.T) {
 		t.Skip("trains up to two models; skipped with -short")
 	}
 	d := demoAudit(t, "demo-equal", 1) // the model and audit of TestDemoPlantedCues, shared
-	if len(d.res.Action.Patterns) != 2 {
-		t.Fatalf("the action names %v, want the two planted cues", d.res.Action.Cues)
-	}
-	rt, err := Retrain(context.Background(), d.m, d.res.Action.Patterns, d.train, d.dev, d.test, d.res.Confirmation, d.recipe, nil)
+	patterns := plantedPatterns(t, d)
+	rt, err := Retrain(context.Background(), d.m, patterns, d.train, d.dev, d.test, d.res.Confirmation, d.recipe, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -273,7 +271,7 @@ func TestRetrainWithoutCues(t *testing.T) {
 	if rt.Texts != d.res.ConfirmationTexts {
 		t.Errorf("the models are compared on %d texts, the confirming half has %d", rt.Texts, d.res.ConfirmationTexts)
 	}
-	cm, err := corpus.MaskTokens(d.res.Action.Patterns)
+	cm, err := corpus.MaskTokens(patterns)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -295,6 +293,28 @@ func TestRetrainWithoutCues(t *testing.T) {
 		t.Errorf("without the cues the retrained model scores %.3f, significantly below the audited model's %.3f (only the audited model right on %d texts, only the retrained on %d, one-sided p = %.2g)",
 			cf.After.Estimate, cf.Before.Estimate, cf.OnlyBefore, cf.OnlyAfter, cf.P/2)
 	}
+}
+
+// plantedPatterns are the patterns of the two cues planted in the demo,
+// as the audit of d ranks them: each acted on, or marked confidence_only
+// (its probability drop confirmed but not its flips), whose pattern a user
+// who marks it artifact adds to the retraining (Action.MarkedPatterns).
+// On the equal-rates demo, seed 1, the footer flips 5 of its 71
+// confirming texts more with it replaced than kept and 1 fewer: the exact
+// interval of its net flip rate holds 0, so the audit acts on the stamp
+// alone.
+func plantedPatterns(t *testing.T, d *demoRun) []string {
+	t.Helper()
+	var patterns []string
+	for _, c := range d.res.Ranked {
+		if hasWord(c, "kioskmail", "tkref") && (c.Verdict == VerdictActed || c.ConfidenceOnly) {
+			patterns = append(patterns, c.Pattern)
+		}
+	}
+	if len(patterns) != 2 || len(d.res.Action.Patterns) == 0 {
+		t.Fatalf("acted on %v; the planted cues acted on or confidence_only give %v, want both", d.res.Action.Cues, patterns)
+	}
+	return patterns
 }
 
 // TestRunRepeats: the same audit run again gives the same result, to the

@@ -15,9 +15,10 @@ import (
 // replaced by as many label-neutral words (the counterfactual), and the
 // cue kept with the same neutral words inserted at random places (the
 // control). Both add the same words, so the difference between them is the
-// cue's own doing. Intervals are 95% percentile bootstrap intervals over
-// texts (BootstrapMeanIn: an exact bound where every text gives the same
-// value).
+// cue's own doing. Intervals are 95% intervals over texts
+// (MeanIntervalIn): the percentile bootstrap, or an exact bound where
+// every text gives the same value or fewer than 10 texts differ from the
+// most common value.
 type Reliance struct {
 	// Texts is the number of texts of the half holding the cue; Measured
 	// how many were edited (a seeded sample of at most Options.MaxTexts).
@@ -182,12 +183,12 @@ func (j *relianceJob) measure(ctx context.Context, st *explain.SlotTable, worker
 func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][]span, res []editResult) *Reliance {
 	f := j.perText(r, chosen, res)
 	seed := seedOf(j.seed, j.key+"/boot")
-	r.FlipRate = BootstrapMeanIn(f.flip, 0, 1, j.boot, 0.95, seed)
-	r.ControlFlipRate = BootstrapMeanIn(f.ctlFlip, 0, 1, j.boot, 0.95, seed+1)
-	r.NetFlipRate = BootstrapMeanIn(f.net, -1, 1, j.boot, 0.95, seed+2)
-	r.ProbDrop = BootstrapMeanIn(f.drop, -1, 1, j.boot, 0.95, seed+3)
-	r.LabelDrop = BootstrapMeanIn(f.ldrop, -1, 1, j.boot, 0.95, seed+5)
-	r.Decided = decidedShare(f.net, chosen, len(all), j.half.Len(), j.boot, seed+4)
+	r.FlipRate = MeanIntervalIn(f.flip, 0, 1, j.boot, 0.95, seed)
+	r.ControlFlipRate = MeanIntervalIn(f.ctlFlip, 0, 1, j.boot, 0.95, seed+1)
+	r.NetFlipRate = MeanIntervalIn(f.net, -1, 1, j.boot, 0.95, seed+2)
+	r.ProbDrop = MeanIntervalIn(f.drop, -1, 1, j.boot, 0.95, seed+3)
+	r.LabelDrop = MeanIntervalIn(f.ldrop, -1, 1, j.boot, 0.95, seed+5)
+	r.Decided = decidedShare(f.net, chosen, len(all), j.half.Len(), j.boot, seed+4, r.NetFlipRate)
 	r.FlipP = SignTest(r.More, r.Fewer)
 	r.P = SignTest(r.Lower, r.Higher)
 	r.Conflict = j.conflict(chosen, res)
@@ -197,43 +198,40 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 
 // decidedShare is Reliance.Decided: the net flips net of the measured
 // texts chosen (indexes in the half), scaled to the cueTexts holding the
-// cue, over all halfTexts of the half (texts without the cue count 0),
-// with BootstrapMean's interval over the half's texts (its upper bound
-// raised to the count bound where few texts have a net above 0,
-// fewNetTexts). Where every text of
-// the half gives the same value (no measured text flips more with the cue
-// replaced than kept, or fewer) the interval is exact instead: the share
-// of the cue's texts whose net is not that value v lies below u, the
-// Clopper–Pearson upper bound for 0 of the measured texts, so their mean
-// net lies in [v − u·(v + 1), v + u·(1 − v)] (a net lies in [−1, 1]), and
-// the decided share is that times the cue's share of the half. The
-// decided share is a share of predictions, so not negative: the estimate
-// and both bounds are read as max(0, ·) (a cue whose control flips as
-// many predictions or more decides none). Preconditions: len(net) =
-// len(chosen) ≥ 1, cueTexts ≥ len(net), halfTexts ≥ cueTexts.
-func decidedShare(net []float64, chosen []int, cueTexts, halfTexts, B int, seed uint64) Interval {
-	scale := float64(cueTexts) / float64(len(net))
-	x := make([]float64, halfTexts)
-	for k, i := range chosen {
-		x[i] = net[k] * scale
-	}
+// cue, over all halfTexts of the half (texts without the cue count 0).
+// Where fewer than thinOffMode measured texts have a net other than the
+// most common one, its interval is the net's own, netIv (MeanIntervalIn's
+// exact bound: Clopper–Pearson where every net is the same, the betting
+// interval where few differ), times the cue's share of the half. Else it
+// is BootstrapMean's interval over the half's texts, its upper bound
+// raised to the count bound where few texts have a net above 0
+// (fewNetTexts). The decided share is a share of predictions, so not
+// negative: the estimate and both bounds are read as max(0, ·) (a cue
+// whose control flips as many predictions or more decides none).
+// Preconditions: len(net) = len(chosen) ≥ 1, cueTexts ≥ len(net),
+// halfTexts ≥ cueTexts, netIv = MeanIntervalIn(net, −1, 1, …).
+func decidedShare(net []float64, chosen []int, cueTexts, halfTexts, B int, seed uint64, netIv Interval) Interval {
+	share := float64(cueTexts) / float64(halfTexts)
 	var iv Interval
-	if slices.ContainsFunc(x, func(v float64) bool { return v != x[0] }) {
+	if len(net)-modeCount(net) < thinOffMode {
+		iv = Interval{Estimate: share * netIv.Estimate, Low: share * netIv.Low, High: share * netIv.High}
+	} else {
+		scale := float64(cueTexts) / float64(len(net))
+		x := make([]float64, halfTexts)
+		for k, i := range chosen {
+			x[i] = net[k] * scale
+		}
 		iv = BootstrapMean(x, B, 0.95, seed)
-		// With few texts whose net is above 0 the bootstrap sees only
-		// those and is too narrow: it would bound the share lower after
-		// one flip than after none. A net is at most 1, so the mean net is
-		// at most the share of texts with a net above 0, and the
-		// Clopper–Pearson upper bound of that share bounds it (a
-		// conservative bound, used while such texts are few).
+		// With few texts whose net is above 0 (but many below it) the
+		// bootstrap sees only those and is too narrow: it would bound the
+		// share lower after one flip than after none. A net is at most 1,
+		// so the mean net is at most the share of texts with a net above
+		// 0, and the Clopper–Pearson upper bound of that share bounds it
+		// (a conservative bound, used while such texts are few).
 		if k := countAbove0(net); k <= fewNetTexts {
 			_, u := ClopperPearson(k, len(net), 0.95)
-			iv.High = max(iv.High, float64(cueTexts)/float64(halfTexts)*u)
+			iv.High = max(iv.High, share*u)
 		}
-	} else {
-		v, share := net[0], float64(cueTexts)/float64(halfTexts)
-		_, u := ClopperPearson(0, len(net), 0.95)
-		iv = Interval{Estimate: share * v, Low: share * (v - u*(v+1)), High: share * (v + u*(1-v))}
 	}
 	return Interval{Estimate: max(0, iv.Estimate), Low: max(0, iv.Low), High: max(0, iv.High)}
 }

@@ -157,10 +157,11 @@ func TestClopperPearsonSciPy(t *testing.T) {
 	}
 }
 
-// BootstrapMeanIn: values that are all the same give the Clopper–Pearson
+// MeanIntervalIn: values that are all the same give the Clopper–Pearson
 // bound for 0 of n texts scaled to the room left in [lo, hi], never a
-// point; other values give BootstrapMean's interval unchanged.
-func TestBootstrapMeanIn(t *testing.T) {
+// point; fewer than 10 values off the most common one give the betting
+// interval, more give BootstrapMean's interval unchanged.
+func TestMeanIntervalIn(t *testing.T) {
 	_, u := ClopperPearson(0, 12, 0.95)
 	for _, c := range []struct {
 		name           string
@@ -172,7 +173,7 @@ func TestBootstrapMeanIn(t *testing.T) {
 		{"shares all 1", []float64{1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1}, 0, 1, 1 - u, 1},
 		{"differences all 0", make([]float64, 12), -1, 1, -u, u},
 	} {
-		got := BootstrapMeanIn(c.x, c.lo, c.hi, 1000, 0.95, 1)
+		got := MeanIntervalIn(c.x, c.lo, c.hi, 1000, 0.95, 1)
 		if got.Estimate != c.x[0] || !testref.Close(got.Low, c.wantLo, 1e-15, 1e-12) || !testref.Close(got.High, c.wantHi, 1e-15, 1e-12) {
 			t.Errorf("%s: %+v, want [%v, %v]", c.name, got, c.wantLo, c.wantHi)
 		}
@@ -180,9 +181,13 @@ func TestBootstrapMeanIn(t *testing.T) {
 			t.Errorf("%s: interval %+v of width below 0.2 for 12 texts", c.name, got)
 		}
 	}
-	x := []float64{0, 0, 1, 0.5, 0, 1, 0, 0, 0.25, 0}
-	if a, b := BootstrapMeanIn(x, 0, 1, 500, 0.95, 7), BootstrapMean(x, 500, 0.95, 7); a != b {
-		t.Errorf("mixed values: %+v, BootstrapMean %+v", a, b)
+	x := []float64{0, 0, 1, 0.5, 0, 1, 0, 0, 0.25, 0, 0.5, 1, 0.75, 0.25, 1, 1, 0, 0.5, 0.5, 0.25}
+	if a, b := MeanIntervalIn(x, 0, 1, 500, 0.95, 7), BootstrapMean(x, 500, 0.95, 7); a != b {
+		t.Errorf("mixed values, 13 off the most common: %+v, BootstrapMean %+v", a, b)
+	}
+	thin := []float64{0, 0, 1, 0.5, 0, 1, 0, 0, 0.25, 0}
+	if a, b := MeanIntervalIn(thin, 0, 1, 500, 0.95, 7), BettingMeanInterval(thin, 0, 1, 0.95, 7); a != b {
+		t.Errorf("4 values off the most common: %+v, BettingMeanInterval %+v", a, b)
 	}
 }
 

@@ -615,8 +615,10 @@ func (r *Result) WriteText(w io.Writer) error {
 	p("  words are grown into the longest phrase they keep in 80%% of their occurrences (or, failing that, into the form\n")
 	p("  they are written in, with no space, in most of them), brackets into the bracketed groups they open or close;\n")
 	p("  a cue passes when its p ≤ %s.\n", pval(r.Cutoff))
-	p("  Reliance: each text edited %s; intervals are 95%% percentile bootstrap intervals over texts (exact Clopper–Pearson bounds where every text gives the same value); the sign test is one-sided.\n",
+	p("  Reliance: each text edited %s; the sign test is one-sided;\n",
 		"several times (the cue replaced by neutral words, or the same words put elsewhere)")
+	p("  intervals are 95%% over texts: percentile bootstrap, or exact where fewer than %d texts differ from the most common value\n", thinOffMode)
+	p("  (Clopper–Pearson where none does, else the betting interval of Waudby-Smith & Ramdas 2024).\n")
 	p("  A half measures a cue, its reliance and its words' part in the word weights, only when at least %d of its texts hold it;\n", minCueTexts)
 	p("  the word part's interval is a 95%% percentile bootstrap over texts, too narrow, as a rule, over few more than that.\n")
 	p("  Label shift: a cue's label share in the choosing half (two-sided Fisher test, Benjamini–Hochberg over the cues there) is a\n")

@@ -283,7 +283,7 @@ func TestStoryNotRuledOut(t *testing.T) {
 			Confirmed: &Reliance{Texts: 14, Measured: 14, Draws: 1, Lower: 14, P: 6.1e-05, FlipRate: flip, ControlFlipRate: flip, NetFlipRate: flip,
 				LabelDrop: Interval{Estimate: 0.065, Low: 0.033, High: 0.108}}}
 	}
-	none := BootstrapMeanIn(make([]float64, 14), 0, 1, 100, 0.95, 1)
+	none := MeanIntervalIn(make([]float64, 14), 0, 1, 100, 0.95, 1)
 	some := Interval{Estimate: 0.07, Low: 0, High: 0.21}
 	acted := Candidate{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: VerdictActed,
 		Confirmed: &Reliance{Texts: 10, Measured: 10}, Association: CueAssociation{Texts: 20}}
