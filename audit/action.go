@@ -78,7 +78,7 @@ type Counterfactual struct {
 
 func wilsonInterval(k, n int) Interval {
 	lo, hi := Wilson(k, n, 0.95)
-	return Interval{Estimate: float64(k) / float64(max(1, n)), Low: lo, High: hi}
+	return Interval{Estimate: float64(k) / float64(max(1, n)), Low: lo, High: hi, Method: cnn.MethodWilson}
 }
 
 // act builds the action from the acted-on cues.

@@ -820,7 +820,7 @@ func (a *auditor) confirmedShiftOf(c *Candidate) *ConfirmedShift {
 	ta := c.Association
 	// The training row first: FisherGreater's alternative, the training
 	// texts holding more of the label, is the confirming share's being lower.
-	return &ConfirmedShift{Texts: n, InLabel: in, Share: Interval{Estimate: iv.Estimate, Low: iv.Low, High: iv.High},
+	return &ConfirmedShift{Texts: n, InLabel: in, Share: Interval{Estimate: iv.Estimate, Low: iv.Low, High: iv.High, Method: iv.Method},
 		TrainShare: ta.Share, P: FisherGreater(ta.InLabel, ta.Texts-ta.InLabel, in, n-in)}
 }
 

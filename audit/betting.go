@@ -68,10 +68,10 @@ func BettingMeanInterval(x []float64, lo, hi, conf float64, seed uint64) Interva
 	first := sort.Search(bettingGrid+1, upOK)
 	last := sort.Search(bettingGrid+1, func(g int) bool { return !downOK(g) }) - 1
 	if first > last { // only for a mean outside [lo, hi]; the widest then
-		return Interval{Estimate: est, Low: lo, High: hi}
+		return Interval{Estimate: est, Low: lo, High: hi, Method: MethodBetting}
 	}
 	at := func(g int) float64 { return lo + (hi-lo)*float64(max(0, min(bettingGrid, g)))/bettingGrid }
-	return Interval{Estimate: est, Low: min(est, at(first-1)), High: max(est, at(last+1))}
+	return Interval{Estimate: est, Low: min(est, at(first-1)), High: max(est, at(last+1)), Method: MethodBetting}
 }
 
 // plugInBets are the bets' sizes before the caps of each candidate mean:

@@ -3,6 +3,8 @@ package audit
 import (
 	"math/rand/v2"
 	"slices"
+
+	"telltale/cnn"
 )
 
 // Interval is an estimate with its two-sided confidence interval.
@@ -10,7 +12,19 @@ type Interval struct {
 	Estimate float64 `json:"estimate"`
 	Low      float64 `json:"low"`
 	High     float64 `json:"high"`
+	// Method names how Low and High were found: cnn's Method… constants,
+	// or MethodBetting.
+	Method string `json:"method,omitempty"`
 }
+
+// The methods of the audit's own intervals (Interval.Method).
+const (
+	// MethodBetting names the betting interval (BettingMeanInterval).
+	MethodBetting = "betting"
+	// MethodBootstrapRaised names a percentile bootstrap interval whose
+	// upper bound was raised to a Clopper–Pearson bound (decidedShare).
+	MethodBootstrapRaised = "percentile-bootstrap+clopper-pearson-high"
+)
 
 // BootstrapMean is the mean of x with its percentile bootstrap interval
 // (Efron & Tibshirani 1993, "An Introduction to the Bootstrap", ch. 13):
@@ -29,7 +43,7 @@ func BootstrapMean(x []float64, B int, conf float64, seed uint64) Interval {
 	}
 	est := sum / float64(n)
 	if n < 2 {
-		return Interval{Estimate: est, Low: est, High: est}
+		return Interval{Estimate: est, Low: est, High: est, Method: cnn.MethodBootstrap}
 	}
 	r := rand.New(rand.NewPCG(seed, 0x9e3779b97f4a7c15))
 	means := make([]float64, B)
@@ -41,7 +55,7 @@ func BootstrapMean(x []float64, B int, conf float64, seed uint64) Interval {
 		means[b] = s / float64(n)
 	}
 	slices.Sort(means)
-	return Interval{Estimate: est, Low: quantileSorted(means, (1-conf)/2), High: quantileSorted(means, (1+conf)/2)}
+	return Interval{Estimate: est, Low: quantileSorted(means, (1-conf)/2), High: quantileSorted(means, (1+conf)/2), Method: cnn.MethodBootstrap}
 }
 
 // quantileSorted is the q-quantile of sorted xs with linear interpolation
@@ -83,7 +97,7 @@ func MeanIntervalIn(x []float64, lo, hi float64, B int, conf float64, seed uint6
 	case off == 0:
 		v := x[0]
 		_, u := ClopperPearson(0, len(x), conf)
-		return Interval{Estimate: v, Low: v - u*(v-lo), High: v + u*(hi-v)}
+		return Interval{Estimate: v, Low: v - u*(v-lo), High: v + u*(hi-v), Method: cnn.MethodClopperPearson}
 	case off < thinOffMode:
 		return BettingMeanInterval(x, lo, hi, conf, seed)
 	}

@@ -214,7 +214,7 @@ func decidedShare(net []float64, chosen []int, cueTexts, halfTexts, B int, seed 
 	share := float64(cueTexts) / float64(halfTexts)
 	var iv Interval
 	if len(net)-modeCount(net) < thinOffMode {
-		iv = Interval{Estimate: share * netIv.Estimate, Low: share * netIv.Low, High: share * netIv.High}
+		iv = Interval{Estimate: share * netIv.Estimate, Low: share * netIv.Low, High: share * netIv.High, Method: netIv.Method}
 	} else {
 		scale := float64(cueTexts) / float64(len(net))
 		x := make([]float64, halfTexts)
@@ -230,10 +230,12 @@ func decidedShare(net []float64, chosen []int, cueTexts, halfTexts, B int, seed 
 		// (a conservative bound, used while such texts are few).
 		if k := countAbove0(net); k <= fewNetTexts {
 			_, u := ClopperPearson(k, len(net), 0.95)
-			iv.High = max(iv.High, share*u)
+			if share*u > iv.High {
+				iv.High, iv.Method = share*u, MethodBootstrapRaised
+			}
 		}
 	}
-	return Interval{Estimate: max(0, iv.Estimate), Low: max(0, iv.Low), High: max(0, iv.High)}
+	return Interval{Estimate: max(0, iv.Estimate), Low: max(0, iv.Low), High: max(0, iv.High), Method: iv.Method}
 }
 
 // fewNetTexts is the most texts with a net above 0 for which decidedShare

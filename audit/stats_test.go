@@ -7,6 +7,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"telltale/cnn"
 	"telltale/internal/testref"
 )
 
@@ -188,6 +189,16 @@ func TestMeanIntervalIn(t *testing.T) {
 	thin := []float64{0, 0, 1, 0.5, 0, 1, 0, 0, 0.25, 0}
 	if a, b := MeanIntervalIn(thin, 0, 1, 500, 0.95, 7), BettingMeanInterval(thin, 0, 1, 0.95, 7); a != b {
 		t.Errorf("4 values off the most common: %+v, BettingMeanInterval %+v", a, b)
+	}
+	// Each branch names its method, so that a script reading the JSON
+	// knows which ran.
+	for _, c := range []struct {
+		x    []float64
+		want string
+	}{{make([]float64, 12), cnn.MethodClopperPearson}, {thin, MethodBetting}, {x, cnn.MethodBootstrap}} {
+		if got := MeanIntervalIn(c.x, 0, 1, 500, 0.95, 7).Method; got != c.want {
+			t.Errorf("%v: method %q, want %q", c.x, got, c.want)
+		}
 	}
 }
 

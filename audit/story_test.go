@@ -182,12 +182,12 @@ func storyOfHalves() (*Result, string) {
 	r := &Result{ConfirmationTexts: 400, SelectionTexts: 400, HeldoutTexts: 800}
 	r.Ranked = []Candidate{{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: VerdictActed, Relied: true,
 		Association: CueAssociation{Texts: 20},
-		Confirmed:   rel(Interval{0.241, 0.181, 0.307}, Interval{0.084, 0.051, 0.119}, Interval{0.157, 0.1, 0.2})}}
+		Confirmed:   rel(Interval{Estimate: 0.241, Low: 0.181, High: 0.307}, Interval{Estimate: 0.084, Low: 0.051, High: 0.119}, Interval{Estimate: 0.157, Low: 0.1, High: 0.2})}}
 	r.Task = []Candidate{
 		{Words: []string{"book"}, Text: "book", Label: "bookings", Verdict: VerdictTask, Relied: true,
-			Confirmed: rel(Interval{0.187, 0.067, 0.347}, Interval{0.013, 0, 0.053}, Interval{0.17, 0.04, 0.32})},
+			Confirmed: rel(Interval{Estimate: 0.187, Low: 0.067, High: 0.347}, Interval{Estimate: 0.013, Low: 0, High: 0.053}, Interval{Estimate: 0.17, Low: 0.04, High: 0.32})},
 		{Words: []string{"ferry"}, Text: "ferry", Label: "timetable", Verdict: VerdictTask, Mark: MarkTask,
-			Confirmed: rel(Interval{0.052, 0.01, 0.1}, Interval{0.031, 0, 0.07}, Interval{0.021, -0.02, 0.06})},
+			Confirmed: rel(Interval{Estimate: 0.052, Low: 0.01, High: 0.1}, Interval{Estimate: 0.031, Low: 0, High: 0.07}, Interval{Estimate: 0.021, Low: -0.02, High: 0.06})},
 	}
 	r.Action = Action{Cues: []string{"stamp"}, Patterns: []string{pattern([]string{"stamp"})},
 		Counterfactual: &Counterfactual{Texts: 400, CueTexts: 25, Accuracy: wilsonInterval(333, 400), AccuracyWithout: wilsonInterval(361, 400),

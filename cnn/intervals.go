@@ -170,6 +170,7 @@ func basicInterval(est float64, sorted []float64, level float64) Interval {
 		Estimate: clip(2*est - quantileSorted(sorted, 0.5)),
 		Low:      clip(2*est - quantileSorted(sorted, (1+level)/2)),
 		High:     clip(2*est - quantileSorted(sorted, (1-level)/2)),
+		Method:   MethodBasicBootstrap,
 	}
 }
 

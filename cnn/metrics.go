@@ -316,7 +316,22 @@ type Interval struct {
 	Estimate float64 `json:"estimate"`
 	Low      float64 `json:"low"`
 	High     float64 `json:"high"`
+	// Method names how Low and High were found, one of the Method…
+	// constants ("" for a figure with nothing to measure).
+	Method string `json:"method,omitempty"`
 }
+
+// The methods of the intervals (Interval.Method): where the data decide
+// between them (the thin rule of the F1s) a script reads which one ran.
+const (
+	MethodWilson          = "wilson"               // Wilson's score interval
+	MethodClopperPearson  = "clopper-pearson"      // the exact binomial interval
+	MethodBootstrap       = "percentile-bootstrap" // over texts
+	MethodBasicBootstrap  = "basic-bootstrap"      // over texts, bias-corrected (ECE)
+	MethodExactF1         = "exact"                // a thin class's F1: Clopper–Pearson mapped
+	MethodExactBonferroni = "exact-bonferroni"     // the macro-F1's exact bound
+	MethodExactBound      = "exact-bound"          // the weighted F1's exact bound
+)
 
 // String writes the interval as the tool shows it: "0.834 (0.806–0.859)",
 // and "–" for a figure with nothing to measure (Undefined).
@@ -337,14 +352,14 @@ func WilsonInterval(k, n int, level float64) Interval {
 		panic(fmt.Sprintf("cnn: WilsonInterval(%d, %d, %g): need 0 ≤ k ≤ n and a level in (0, 1)", k, n, level))
 	}
 	if n == 0 {
-		return Interval{Low: 0, High: 1}
+		return Interval{Low: 0, High: 1, Method: MethodWilson}
 	}
 	z := distuv.UnitNormal.Quantile(1 - (1-level)/2)
 	p, nn := float64(k)/float64(n), float64(n)
 	den := 1 + z*z/nn
 	mid := (p + z*z/(2*nn)) / den
 	half := z / den * math.Sqrt(p*(1-p)/nn+z*z/(4*nn*nn))
-	iv := Interval{Estimate: p, Low: max(0, mid-half), High: min(1, mid+half)}
+	iv := Interval{Estimate: p, Low: max(0, mid-half), High: min(1, mid+half), Method: MethodWilson}
 	// At k = 0 the lower bound is 0 and at k = n the upper 1 exactly, which
 	// the floating point above can miss by a rounding.
 	if k == 0 {
@@ -441,7 +456,7 @@ func bootstrapPercentiles(n, m, resamples int, level float64, seed uint64, stat 
 			ivs[j] = Interval{Low: math.NaN(), High: math.NaN()}
 			continue
 		}
-		ivs[j] = Interval{Low: quantileSorted(v, (1-level)/2), High: quantileSorted(v, (1+level)/2)}
+		ivs[j] = Interval{Low: quantileSorted(v, (1-level)/2), High: quantileSorted(v, (1+level)/2), Method: MethodBootstrap}
 	}
 	return ivs
 }

@@ -91,10 +91,10 @@ func ClopperPearsonInterval(k, n int, level float64) Interval {
 		panic(fmt.Sprintf("cnn: ClopperPearsonInterval(%d, %d, %g): need 0 ≤ k ≤ n and a level in (0, 1)", k, n, level))
 	}
 	if n == 0 {
-		return Interval{Low: 0, High: 1}
+		return Interval{Low: 0, High: 1, Method: MethodClopperPearson}
 	}
 	a := (1 - level) / 2
-	iv := Interval{Estimate: float64(k) / float64(n), Low: 0, High: 1}
+	iv := Interval{Estimate: float64(k) / float64(n), Low: 0, High: 1, Method: MethodClopperPearson}
 	if k > 0 {
 		iv.Low = distuv.Beta{Alpha: float64(k), Beta: float64(n - k + 1)}.Quantile(a)
 	}
@@ -114,7 +114,7 @@ func f1OfErrorShare(r float64) float64 { return 2 * (1 - r) / (2 - r) }
 // 2tp/(2tp+e). Precondition: tp+e ≥ 1.
 func exactClassF1(tp, e int, level float64) Interval {
 	r := ClopperPearsonInterval(e, tp+e, level)
-	return Interval{Estimate: ratio(2*tp, 2*tp+e), Low: f1OfErrorShare(r.High), High: f1OfErrorShare(r.Low)}
+	return Interval{Estimate: ratio(2*tp, 2*tp+e), Low: f1OfErrorShare(r.High), High: f1OfErrorShare(r.Low), Method: MethodExactF1}
 }
 
 // thinF1 reports whether a class with tp right texts and e errors among
@@ -135,14 +135,15 @@ func exactF1s(confusion [][]int, f *F1Intervals, level float64) {
 		tp, fp, fn := classCounts(flat, k, c)
 		if tp+fn > 0 && thinF1(tp, fp+fn) {
 			iv := exactClassF1(tp, fp+fn, level)
-			f.PerClass[c].Low, f.PerClass[c].High = iv.Low, iv.High
+			f.PerClass[c].Low, f.PerClass[c].High, f.PerClass[c].Method = iv.Low, iv.High, iv.Method
 		}
 	}
 	if lo, hi, ok := exactMacroF1(flat, k, level); ok {
-		f.Macro.Low, f.Macro.High = lo, hi
+		f.Macro.Low, f.Macro.High, f.Macro.Method = lo, hi, MethodExactBonferroni
 	}
 	if min(wrong, n-wrong) < thinCount {
 		f.Weighted.Low, f.Weighted.High = exactWeightedF1(flat, k, level)
+		f.Weighted.Method = MethodExactBound
 	}
 }
 
@@ -302,7 +303,7 @@ func MacroF1IntervalOf(confusion [][]int, resamples int, level float64, seed uin
 	if len(textCells(confusion, "MacroF1IntervalOf")) > 0 {
 		flat, _, _ := flatten(confusion)
 		if lo, hi, ok := exactMacroF1(flat, len(confusion), level); ok {
-			return Interval{Estimate: macroF1Of(flat, len(confusion)), Low: lo, High: hi}
+			return Interval{Estimate: macroF1Of(flat, len(confusion)), Low: lo, High: hi, Method: MethodExactBonferroni}
 		}
 	}
 	return BootstrapMacroF1(confusion, resamples, level, seed)

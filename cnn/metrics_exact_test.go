@@ -194,6 +194,16 @@ func TestF1IntervalsOfKeepsTheBootstrap(t *testing.T) {
 		if (macroThin && f.Macro.Low >= f.Macro.High) || (weightedThin && f.Weighted.Low >= f.Weighted.High) {
 			t.Fatalf("case %d: a thin figure without width: macro %+v, weighted %+v", i, f.Macro, f.Weighted)
 		}
+		// Each interval names the method that made it (a script reads it).
+		methodOf := func(thin bool, exact string) string {
+			if thin {
+				return exact
+			}
+			return MethodBootstrap
+		}
+		if f.Macro.Method != methodOf(macroThin, MethodExactBonferroni) || f.Weighted.Method != methodOf(weightedThin, MethodExactBound) {
+			t.Fatalf("case %d: methods macro %q (thin %v), weighted %q (thin %v)", i, f.Macro.Method, macroThin, f.Weighted.Method, weightedThin)
+		}
 		for c := range k {
 			tp, fp, fn := classCounts(flat, k, c)
 			if tp+fn == 0 {
@@ -202,7 +212,7 @@ func TestF1IntervalsOfKeepsTheBootstrap(t *testing.T) {
 			holds("class", f.PerClass[c])
 			if thinF1(tp, fp+fn) {
 				thinSeen++
-				if iv := exactClassF1(tp, fp+fn, 0.95); f.PerClass[c].Low != iv.Low || f.PerClass[c].High != iv.High || f.PerClass[c].Low >= f.PerClass[c].High {
+				if iv := exactClassF1(tp, fp+fn, 0.95); f.PerClass[c].Low != iv.Low || f.PerClass[c].High != iv.High || f.PerClass[c].Low >= f.PerClass[c].High || f.PerClass[c].Method != MethodExactF1 {
 					t.Fatalf("case %d class %d thin: %+v, want the exact %+v with width", i, c, f.PerClass[c], iv)
 				}
 			} else if f.PerClass[c] != bs.PerClass[c] {
