@@ -144,8 +144,9 @@ type TrainConfig struct {
 	// counts, α = 1, each table on its own, one class against the rest
 	// (the largest |r| over the classes); nbrate.go. The factor scales
 	// the optimizer's step, not the decoupled weight decay. 0 turns it
-	// off; the twenty-eighth round measured 1 and 0.5
-	// (docs/default-recipe.md). It must be finite and not negative; Train
+	// off; a screen on the review sets measured 1 and 0.5 and left it out
+	// of the default (docs/default-recipe.md, "Each word's and pair's own
+	// rate"). It must be finite and not negative; Train
 	// refuses it with the fitted start held (WideFitFolds, WideFitScale)
 	// and for a model without word weights.
 	WideNBRate float64 `json:"wide_nb_rate,omitempty"`

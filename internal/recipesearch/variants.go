@@ -124,7 +124,7 @@ var variants = map[string]func(r *cnn.Recipe){
 	// each row of the word and bigram weights at its own rate, by its
 	// naive-Bayes log-count ratio r in the training split (Wang & Manning
 	// 2012; cnn.TrainConfig.WideNBRate): |r| or √|r| over the table's mean
-	// (the twenty-eighth round)
+	// (docs/default-recipe.md, "Each word's and pair's own rate")
 	"nbrate":      func(r *cnn.Recipe) { r.Train.WideNBRate = 1 },
 	"nbrate-sqrt": func(r *cnn.Recipe) { r.Train.WideNBRate = 0.5 },
 }
