@@ -390,6 +390,7 @@ func unflaggedSettings(m *cnn.Model) []string {
 	add(r.LRDecay != dt.LRDecay, "lr_decay", r.LRDecay)
 	add(r.WideSparse != dt.WideSparse, "wide_sparse", r.WideSparse)
 	add(r.WideDecay != dt.WideDecay, "wide_decay", r.WideDecay)
+	add(r.WideNBRate != dt.WideNBRate, "wide_nb_rate", r.WideNBRate)
 	add(r.WideFitFolds != dt.WideFitFolds, "wide_fit_folds", r.WideFitFolds)
 	add(r.WideFitScale != dt.WideFitScale, "wide_fit_scale", r.WideFitScale)
 	add(r.WideFitShrink != dt.WideFitShrink, "wide_fit_shrink", r.WideFitShrink)

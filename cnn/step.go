@@ -90,7 +90,9 @@ type threadBuf struct {
 // is a table trained row-sparse (TrainConfig.WideSparse): *rows lists the
 // table rows with gradient in the current step, row r being
 // p[(r−first)·width:(r−first+1)·width] (first: the table rows left out of
-// p in front, as the PAD row).
+// p in front, as the PAD row). rowLR, when set (TrainConfig.WideNBRate),
+// holds a factor on the learning rate of each row of the table, row r's
+// at rowLR[r−first] (then first and width are set as for rows).
 type paramGroup struct {
 	p, g, s1, s2 []float32
 	decay, head  bool
@@ -99,6 +101,7 @@ type paramGroup struct {
 	extraDecay   float64 // TrainConfig.WideDecay on the wide tables, else 0
 	rows         *[]int32
 	first, width int
+	rowLR        []float64
 }
 
 // trainer holds everything a training step needs, allocated once.
@@ -190,6 +193,9 @@ type trainer struct {
 
 	groups []paramGroup
 	cur    *paramGroup
+	// wideGroup and bigramGroup index the word and bigram weight tables'
+	// groups in groups (−1: none).
+	wideGroup, bigramGroup int
 
 	// ch is the character layer's part (nil for a model without one).
 	ch *charTrain
@@ -272,6 +278,7 @@ func newTrainer(m *Model, tc TrainConfig) *trainer {
 // (Config.Wide, WideBigrams) through add, and sets up the bigrams' dropout.
 func (tr *trainer) addWideGroups(add func(p, g []float32, decay bool)) {
 	m, tc, cfg := tr.m, tr.tc, tr.m.Config
+	tr.wideGroup, tr.bigramGroup = -1, -1
 	held := tc.WideFit && (tc.WideFitFolds >= 2 || tc.WideFitScale)
 	if held && tc.WideFitScale {
 		tr.scale, tr.gScale = []float32{1}, []float32{0}
@@ -282,11 +289,11 @@ func (tr *trainer) addWideGroups(add func(p, g []float32, decay bool)) {
 		// of the head warm-up, and the PAD row is never trained.
 		tr.gWide = make([]float32, len(m.Wide))
 		add(m.Wide[cfg.Classes:], tr.gWide[cfg.Classes:], true)
-		tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
-		tr.groups[len(tr.groups)-1].extraDecay = tc.WideDecay
+		tr.wideGroup = len(tr.groups) - 1
+		g := &tr.groups[tr.wideGroup]
+		g.lrMul, g.extraDecay, g.first, g.width = tc.WideLR, tc.WideDecay, 1, cfg.Classes
 		if tc.WideSparse {
-			g := &tr.groups[len(tr.groups)-1]
-			g.rows, g.first, g.width = &tr.wideRows, 1, cfg.Classes
+			g.rows = &tr.wideRows
 		}
 	}
 	if cfg.WideBigrams {
@@ -294,11 +301,11 @@ func (tr *trainer) addWideGroups(add func(p, g []float32, decay bool)) {
 			// As the word weights: weight decay, the same factor on the rate.
 			tr.gBig = make([]float32, len(m.WideBigram))
 			add(m.WideBigram, tr.gBig, true)
-			tr.groups[len(tr.groups)-1].lrMul = tc.WideLR
-			tr.groups[len(tr.groups)-1].extraDecay = tc.WideDecay
+			tr.bigramGroup = len(tr.groups) - 1
+			g := &tr.groups[tr.bigramGroup]
+			g.lrMul, g.extraDecay, g.width = tc.WideLR, tc.WideDecay, cfg.Classes
 			if tc.WideSparse {
-				g := &tr.groups[len(tr.groups)-1]
-				g.rows, g.width = &tr.bs.rows, cfg.Classes
+				g.rows = &tr.bs.rows
 			}
 		}
 		tr.bs.init(len(m.Bigrams))
@@ -311,8 +318,9 @@ func (tr *trainer) addWideGroups(add func(p, g []float32, decay bool)) {
 
 func (tr *trainer) close() { tr.wk.close() }
 
-// prepare sets the class weights and word-dropout probabilities that the
-// training split d calls for, and looks up the bigrams of its texts once
+// prepare sets the class weights, word-dropout probabilities and the wide
+// tables' per-row rate factors (TrainConfig.WideNBRate) that the training
+// split d calls for, and looks up the bigrams of its texts once
 // (Config.WideBigrams). Neither d nor the model's bigram set (SetBigrams)
 // may change while steps are taken on d: the prepared rows index both.
 func (tr *trainer) prepare(d Data) {
@@ -320,6 +328,7 @@ func (tr *trainer) prepare(d Data) {
 	if cfg.WideBigrams {
 		tr.prep.build(tr.m, d.IDs)
 	}
+	tr.setNBRates(d)
 	if tr.tc.ClassWeight == "balanced" {
 		n := make([]int, cfg.Classes)
 		for _, y := range d.Labels {
@@ -820,6 +829,29 @@ func (tr *trainer) opt(_, lo, hi int) {
 			g.p[lo+i] *= k
 		}
 	}
+	if g.rowLR == nil {
+		tr.optRange(g, lo, hi, lr)
+		return
+	}
+	// A row's step at its own rate (TrainConfig.WideNBRate; its decay
+	// above stays at the group's); a run of rows with one factor takes one
+	// step.
+	w := g.width
+	for a := lo; a < hi; {
+		f := g.rowLR[a/w]
+		b := min(hi, (a/w+1)*w)
+		for b < hi && g.rowLR[b/w] == f {
+			b = min(hi, b+w)
+		}
+		tr.optRange(g, a, b, lr*f)
+		a = b
+	}
+}
+
+// optRange applies the optimizer's step at rate lr to elements lo..hi of
+// group g.
+func (tr *trainer) optRange(g *paramGroup, lo, hi int, lr float64) {
+	tc := tr.tc
 	if tc.Optimizer == "adadelta" {
 		adadeltaUpdate(g.p[lo:hi], g.g[lo:hi], g.s1[lo:hi], g.s2[lo:hi], float32(lr), float32(tc.Rho), float32(tc.Eps))
 		return
@@ -851,6 +883,9 @@ func (tr *trainer) lazyAdam(g *paramGroup) {
 	w := g.width
 	for _, r := range *g.rows {
 		o := (int(r) - g.first) * w
+		if g.rowLR != nil { // TrainConfig.WideNBRate
+			step = float32(lr * g.rowLR[int(r)-g.first] * math.Sqrt(bc2) / bc1)
+		}
 		sparseAdamRow(g.p[o:o+w], g.g[o:o+w], g.s1[o:o+w], g.s2[o:o+w],
 			float32(1-tc.Beta1), float32(1-tc.Beta2), float32(tc.Eps), step)
 	}

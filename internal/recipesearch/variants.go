@@ -121,6 +121,12 @@ var variants = map[string]func(r *cnn.Recipe){
 	"wdec01": func(r *cnn.Recipe) { r.Train.WideDecay = 0.01 },
 	"wdec03": func(r *cnn.Recipe) { r.Train.WideDecay = 0.03 },
 	"wdec10": func(r *cnn.Recipe) { r.Train.WideDecay = 0.1 },
+	// each row of the word and bigram weights at its own rate, by its
+	// naive-Bayes log-count ratio r in the training split (Wang & Manning
+	// 2012; cnn.TrainConfig.WideNBRate): |r| or √|r| over the table's mean
+	// (docs/default-recipe.md, "Each word's and pair's own rate")
+	"nbrate":      func(r *cnn.Recipe) { r.Train.WideNBRate = 1 },
+	"nbrate-sqrt": func(r *cnn.Recipe) { r.Train.WideNBRate = 0.5 },
 }
 
 // kim turns the word and bigram weights off and the rest back to the
