@@ -182,7 +182,7 @@ func AuditMethod(r *audit.Result) []string {
 			"bracketed groups it opens or closes; a cue in at least %d training texts passes at p ≤ %s.",
 			AssociationTestName(r.Test), count(r.Tests), CorrectionName(r.Correction), r.Alpha, r.MinSupport, strings.TrimPrefix(pvalue(r.Cutoff), "= ")),
 		"Reliance: each test text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
-			"kept with the same words put elsewhere; intervals are 95% percentile bootstrap intervals over texts (exact Clopper–Pearson bounds where every text gives the same value), sign tests are exact and one-sided. " +
+			"kept with the same words put elsewhere; intervals are 95% intervals over texts, the percentile bootstrap, or exact where fewer than 10 texts differ from the most common value (Clopper–Pearson where none does, else the betting interval of Waudby-Smith & Ramdas 2024), sign tests are exact and one-sided. " +
 			fmt.Sprintf("A half gives these figures, and on a model with word weights the part of the cue's words there (the same percentile bootstrap over texts), only when at least %d of its texts hold the cue; "+
 				"over few more than that, a percentile bootstrap tends to give too narrow an interval. ", audit.MinCueTexts) +
 			"A cue is acted on when it is artifact-like, relied on in the choosing half and confirmed in the confirming half: there its label's probability falls in more texts than it rises " +
