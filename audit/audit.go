@@ -200,8 +200,8 @@ type Candidate struct {
 	// ConfidenceOnly marks an artifact-like cue put to the test whose
 	// label's probability drop the confirmation half confirms (its sign
 	// test, ConfirmedQ at most Options.RelianceAlpha, the drop's interval
-	// above 0 and a mean drop of at least minConfidenceDrop) but whose flips it does not (the net flip
-	// rate's interval reaches 0): the model's confidence rests on it there
+	// above 0 and a mean drop of at least minConfidenceDrop) but whose flips it does not
+	// (Reliance.FlipsConfirmed): the model's confidence rests on it there
 	// though its predictions did not measurably change. It is not acted on (VerdictUnconfirmed);
 	// NotRuledOut says what the flips' interval leaves open.
 	ConfidenceOnly bool `json:"confidence_only,omitempty"`

@@ -17,14 +17,9 @@ type Interval struct {
 	Method string `json:"method,omitempty"`
 }
 
-// The methods of the audit's own intervals (Interval.Method).
-const (
-	// MethodBetting names the betting interval (BettingMeanInterval).
-	MethodBetting = "betting"
-	// MethodBootstrapRaised names a percentile bootstrap interval whose
-	// upper bound was raised to a Clopper–Pearson bound (decidedShare).
-	MethodBootstrapRaised = "percentile-bootstrap+clopper-pearson-high"
-)
+// MethodBetting names the betting interval (BettingMeanInterval) in
+// Interval.Method.
+const MethodBetting = "betting"
 
 // BootstrapMean is the mean of x with its percentile bootstrap interval
 // (Efron & Tibshirani 1993, "An Introduction to the Bootstrap", ch. 13):
@@ -73,33 +68,40 @@ func quantileSorted(xs []float64, q float64) float64 {
 	return xs[i] + (h-float64(i))*(xs[i+1]-xs[i])
 }
 
-// MeanIntervalIn is the mean of values known to lie in [lo, hi] (shares
-// of edits, probability drops), one per text, with a 95% interval over
-// texts that stays valid where few texts differ from the rest:
-//   - every value the same v: every resample's mean is v, so the texts are
-//     n draws none of which fell elsewhere; the share q of texts whose
-//     value is not v lies below u, the Clopper–Pearson upper bound for 0
-//     of n (ClopperPearson), and the mean below v + q·(hi − v) and above
-//     v − q·(v − lo): the interval is [v − u·(v − lo), v + u·(hi − v)].
-//     For shares that are all 0 it is [0, u], for 12 texts about
-//     [0, 0.26] at 95%;
-//   - fewer than thinOffMode values differ from the most common one: the
-//     exact betting interval (BettingMeanInterval), since the bootstrap
-//     sees only those few;
-//   - otherwise the percentile bootstrap (BootstrapMean).
+// ExactMeanIn is the mean of values known to lie in [lo, hi], one per
+// text, with an exact interval at level conf over texts, valid for any
+// distribution there and at any number of texts:
+//   - every value the same v: the texts are n draws none of which fell
+//     elsewhere; the share q of texts whose value is not v lies below u,
+//     the Clopper–Pearson upper bound for 0 of n (ClopperPearson), and the
+//     mean below v + q·(hi − v) and above v − q·(v − lo): the interval is
+//     [v − u·(v − lo), v + u·(hi − v)]. For shares that are all 0 it is
+//     [0, u], for 12 texts about [0, 0.26] at 95%;
+//   - otherwise the betting interval (BettingMeanInterval).
 //
-// Preconditions: as BootstrapMean, lo < hi, lo ≤ every x ≤ hi.
-func MeanIntervalIn(x []float64, lo, hi float64, B int, conf float64, seed uint64) Interval {
-	if len(x) == 0 {
-		return BootstrapMean(x, B, conf, seed)
-	}
-	switch off := len(x) - modeCount(x); {
-	case off == 0:
+// The audit gives it to the flip rates, whose values (steps of one draw)
+// are mostly 0 with few texts off it, where a bootstrap sees only those
+// few and is too narrow. Preconditions: len(x) ≥ 1, lo < hi, lo ≤ every
+// x ≤ hi, 0 < conf < 1.
+func ExactMeanIn(x []float64, lo, hi, conf float64, seed uint64) Interval {
+	if modeCount(x) == len(x) {
 		v := x[0]
 		_, u := ClopperPearson(0, len(x), conf)
 		return Interval{Estimate: v, Low: v - u*(v-lo), High: v + u*(hi-v), Method: cnn.MethodClopperPearson}
-	case off < thinOffMode:
-		return BettingMeanInterval(x, lo, hi, conf, seed)
+	}
+	return BettingMeanInterval(x, lo, hi, conf, seed)
+}
+
+// MeanIntervalIn is the mean of values known to lie in [lo, hi] that
+// rarely repeat (probability drops), one per text, with an interval at
+// level conf over texts: ExactMeanIn's where fewer than thinOffMode values
+// differ from the most common one (for values that never repeat: 10
+// texts or fewer), where a bootstrap of so few is too narrow; the
+// percentile bootstrap (BootstrapMean) otherwise. Preconditions: as
+// BootstrapMean, lo < hi, lo ≤ every x ≤ hi.
+func MeanIntervalIn(x []float64, lo, hi float64, B int, conf float64, seed uint64) Interval {
+	if len(x) > 0 && len(x)-modeCount(x) < thinOffMode {
+		return ExactMeanIn(x, lo, hi, conf, seed)
 	}
 	return BootstrapMean(x, B, conf, seed)
 }

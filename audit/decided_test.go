@@ -17,8 +17,9 @@ import (
 // 1983). The earlier interval ran from −4.2% to 4.2%. A cue in every text
 // flipping each of them in every draw, as no control does, decides all
 // of them with the lower bound 1 − 2·that bound for its texts (a net lies
-// in [−1, 1]); nets of −1 and 0 (the control flips more) give a share of
-// 0 with no bound below it.
+// in [−1, 1]); nets of −1 and 0, half each (the control flips more), give
+// a share of 0: the exact interval of their mean net lies below 0, so the
+// share, its positive part, is 0 at both bounds.
 func TestDecidedShare(t *testing.T) {
 	cp0 := func(n int) float64 { return 1 - math.Pow(0.025, 1/float64(n)) }
 	type want struct{ est, lo, hi float64 }
@@ -32,8 +33,9 @@ func TestDecidedShare(t *testing.T) {
 	}{
 		{"nothing flips", 86, zeros(14), zeros(14), zeros(14), want{0, 0, 14.0 / 86 * cp0(14)}, true},
 		{"every text flips", 20, zeros(20), ones(20), zeros(20), want{1, 1 - 2*cp0(20), 1}, true},
-		// No net above 0: the count bound, 0 of 20, times the cue's share.
-		{"the control flips more", 40, zeros(20), zeros(20), alternate(20), want{0, 0, 20.0 / 40 * cp0(20)}, true},
+		// Every net at or below 0, half of them −1: the mean net's exact
+		// interval lies below 0.
+		{"the control flips more", 40, zeros(20), zeros(20), alternate(20), want{0, 0, 0}, true},
 		// One text of 14 flips: the upper bound is at least the count
 		// bound for 1 of 14, above the bound for none (monotone).
 		{"one text flips", 86, zeros(14), append(zeros(13), 1), zeros(14), want{1.0 / 86, 0, 14.0 / 86 * cp1of14}, false},

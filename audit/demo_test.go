@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"slices"
 	"strings"
 	"testing"
 
@@ -295,26 +296,33 @@ func TestRetrainWithoutCues(t *testing.T) {
 	}
 }
 
-// plantedPatterns are the patterns of the two cues planted in the demo,
-// as the audit of d ranks them: each acted on, or marked confidence_only
-// (its probability drop confirmed but not its flips), whose pattern a user
-// who marks it artifact adds to the retraining (Action.MarkedPatterns).
-// On the equal-rates demo, seed 1, the footer flips 5 of its 71
-// confirming texts more with it replaced than kept and 1 fewer: the exact
-// interval of its net flip rate holds 0, so the audit acts on the stamp
-// alone.
+// plantedPatterns are the patterns of the two cues planted in the demo
+// as the audit of d, the equal-rates demo at seed 1, ranks them (the
+// README tells it): the stamp acted on, and the footer marked
+// confidence_only (its probability drop confirmed but not its flips),
+// whose pattern a user who marks it artifact adds to the retraining
+// (Action.MarkedPatterns). The footer flips 5 of its 71 confirming texts
+// more with it replaced than kept and 1 fewer: the exact interval of its
+// net flip rate holds 0.
 func plantedPatterns(t *testing.T, d *demoRun) []string {
 	t.Helper()
-	var patterns []string
-	for _, c := range d.res.Ranked {
-		if hasWord(c, "kioskmail", "tkref") && (c.Verdict == VerdictActed || c.ConfidenceOnly) {
-			patterns = append(patterns, c.Pattern)
+	var stamp, footer *Candidate
+	for i, c := range d.res.Ranked {
+		switch {
+		case hasWord(c, "tkref"):
+			stamp = &d.res.Ranked[i]
+		case hasWord(c, "kioskmail"):
+			footer = &d.res.Ranked[i]
 		}
 	}
-	if len(patterns) != 2 || len(d.res.Action.Patterns) == 0 {
-		t.Fatalf("acted on %v; the planted cues acted on or confidence_only give %v, want both", d.res.Action.Cues, patterns)
+	if stamp == nil || footer == nil {
+		t.Fatalf("the ranked cues lack a planted one (stamp %v, footer %v)", stamp != nil, footer != nil)
 	}
-	return patterns
+	if stamp.Verdict != VerdictActed || !footer.ConfidenceOnly || !slices.Equal(d.res.Action.Patterns, []string{stamp.Pattern}) {
+		t.Fatalf("acted on %v; the stamp %s, the footer %s (confidence_only %v): want the stamp acted on, the footer confidence_only",
+			d.res.Action.Cues, stamp.Verdict, footer.Verdict, footer.ConfidenceOnly)
+	}
+	return []string{stamp.Pattern, footer.Pattern}
 }
 
 // TestRunRepeats: the same audit run again gives the same result, to the

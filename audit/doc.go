@@ -32,9 +32,10 @@
 //     is the cue's doing. Several seeded draws per text; the share of
 //     predictions changed, the drop of the probability of the prediction
 //     and of the cue's label, the share of all predictions the cue decides,
-//     each with an interval over texts (the bootstrap, or an exact bound
-//     where few texts differ from the rest); exact sign tests paired by
-//     text; and the filters keyed on the cue with what masking them does.
+//     each with an interval over texts (exact for the flips, the
+//     bootstrap for the drops unless few texts hold the cue); exact sign
+//     tests paired by text; and the filters keyed on the cue with what
+//     masking them does.
 //  3. Artifact-likeness: does it read like collection rather than task?
 //     Signals that need no shift, each shown with its value: a fixed
 //     position (the very start or end of the text), a line of its own, a

@@ -168,8 +168,8 @@ func (a *auditor) result(cands, measured []*Candidate) *Result {
 // confirmedTask keeps the cues of task (measured on the confirmation half)
 // that the confirmation half confirms the model relies on, by the rule of
 // the cues acted on: the sign test significant after Benjamini–Hochberg
-// over task's cues, and the 95% intervals of the label's probability drop
-// and of the net flip rate above 0. A cue a person marked task stays
+// over task's cues, the 95% interval of the label's probability drop
+// above 0, and the flips confirmed (Reliance.FlipsConfirmed). A cue a person marked task stays
 // listed (a person's verdict is always shown), with Relied false when
 // unconfirmed.
 func (a *auditor) confirmedTask(task []Candidate) []Candidate {
@@ -182,7 +182,7 @@ func (a *auditor) confirmedTask(task []Candidate) []Candidate {
 		c := task[k]
 		cr := c.Confirmed
 		c.ConfirmedQ = q
-		c.Relied = cr.Measured > 0 && q <= a.opt.RelianceAlpha && cr.LabelDrop.Low > 0 && cr.NetFlipRate.Low > 0
+		c.Relied = cr.Measured > 0 && q <= a.opt.RelianceAlpha && cr.LabelDrop.Low > 0 && cr.FlipsConfirmed()
 		if c.Relied || c.Mark != "" {
 			out = append(out, c)
 		}
@@ -230,8 +230,8 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 	// The cues put to the test: artifact-like and relied on in the
 	// selection half. On the confirmation half each must lower its label's
 	// probability (the sign test, Benjamini–Hochberg over the cues put to
-	// the test) and change predictions beyond the control (the 95%
-	// interval of the net flip rate above 0). One that passes the first
+	// the test) and change predictions beyond the control
+	// (Reliance.FlipsConfirmed). One that passes the first
 	// and not the second is not acted on, but marked ConfidenceOnly when its
 	// drop is at least minConfidenceDrop: the story says what its flips'
 	// interval leaves open.
@@ -279,9 +279,9 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 
 // settle sets the verdict of a cue put to the test on the confirmation
 // half from the adjusted p-value q of its drop's sign test: acted on when
-// q is at most alpha and the 95% intervals of the label's probability drop
-// and of the net flip rate lie above 0 (as for a cue that reads like the
-// task, confirmedTask); ConfidenceOnly when only the flips fail and the
+// q is at most alpha, the 95% interval of the label's probability drop
+// lies above 0 and the flips are confirmed (Reliance.FlipsConfirmed; as
+// for a cue that reads like the task, confirmedTask); ConfidenceOnly when only the flips fail and the
 // mean drop is at least minConfidenceDrop; else it stays as it is.
 // c.Confirmed must be set.
 func (c *Candidate) settle(q, alpha float64) {
@@ -290,7 +290,7 @@ func (c *Candidate) settle(q, alpha float64) {
 	if q > alpha || !(drop.Low > 0) {
 		return
 	}
-	if c.Confirmed.NetFlipRate.Low > 0 {
+	if c.Confirmed.FlipsConfirmed() {
 		c.Verdict, c.Relied = VerdictActed, true
 	} else if drop.Estimate >= minConfidenceDrop {
 		c.ConfidenceOnly = true

@@ -15,10 +15,10 @@ import (
 // replaced by as many label-neutral words (the counterfactual), and the
 // cue kept with the same neutral words inserted at random places (the
 // control). Both add the same words, so the difference between them is the
-// cue's own doing. Intervals are 95% intervals over texts
-// (MeanIntervalIn): the percentile bootstrap, or an exact bound where
-// every text gives the same value or fewer than 10 texts differ from the
-// most common value.
+// cue's own doing. Intervals are 95% intervals over texts: the flip
+// rates' and the decided share's exact (ExactMeanIn), the probability
+// drops' the percentile bootstrap, or exact where fewer than 10 texts
+// differ from the most common value (MeanIntervalIn).
 type Reliance struct {
 	// Texts is the number of texts of the half holding the cue; Measured
 	// how many were edited (a seeded sample of at most Options.MaxTexts).
@@ -41,8 +41,8 @@ type Reliance struct {
 	LabelDrop Interval `json:"label_drop"`
 	// Decided is the share of all the half's predictions that replacing
 	// the cue changes beyond the control (texts without it count 0): a
-	// share, never below 0, with an exact interval where every text gives
-	// the same value (decidedShare).
+	// share, never below 0, with the exact interval of NetFlipRate times
+	// the cue's share of the half (decidedShare).
 	Decided Interval `json:"decided"`
 	// More and Fewer count the texts where the counterfactual flips more
 	// (fewer) of the draws than the control; FlipP is the one-sided exact
@@ -61,6 +61,25 @@ type Reliance struct {
 	Conflict *Conflict `json:"conflict,omitempty"`
 	// Examples are texts whose prediction the replacement changed.
 	Examples []Example `json:"examples,omitempty"`
+}
+
+// flipSignLevel is the level of the sign test of the flips in
+// FlipsConfirmed: half of 5%, the other half going to the net flip rate's
+// interval (Bonferroni).
+const flipSignLevel = 0.025
+
+// FlipsConfirmed reports whether replacing the cue changes predictions
+// beyond the control, by either of two exact one-sided tests at 2.5%
+// each, 5% in all (Bonferroni): the net flip rate's 95% interval lies
+// above 0 (its lower bound is a 2.5% test of the mean), or the sign test
+// of the texts that flip more draws with the cue replaced than kept
+// against those that flip fewer has FlipP ≤ 0.025. The first weighs how
+// much they flip, and finds a cue whose texts flip often both ways; the
+// second counts which way, and finds a few texts that all flip one way
+// (6 of them with none the other way), where an interval for the mean of
+// values as low as −1 cannot yet exclude 0.
+func (r *Reliance) FlipsConfirmed() bool {
+	return r.Measured > 0 && (r.NetFlipRate.Low > 0 || r.FlipP <= flipSignLevel)
 }
 
 // Conflict is the model on the texts holding a cue whose gold label is not
@@ -183,12 +202,12 @@ func (j *relianceJob) measure(ctx context.Context, st *explain.SlotTable, worker
 func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][]span, res []editResult) *Reliance {
 	f := j.perText(r, chosen, res)
 	seed := seedOf(j.seed, j.key+"/boot")
-	r.FlipRate = MeanIntervalIn(f.flip, 0, 1, j.boot, 0.95, seed)
-	r.ControlFlipRate = MeanIntervalIn(f.ctlFlip, 0, 1, j.boot, 0.95, seed+1)
-	r.NetFlipRate = MeanIntervalIn(f.net, -1, 1, j.boot, 0.95, seed+2)
+	r.FlipRate = ExactMeanIn(f.flip, 0, 1, 0.95, seed)
+	r.ControlFlipRate = ExactMeanIn(f.ctlFlip, 0, 1, 0.95, seed+1)
+	r.NetFlipRate = ExactMeanIn(f.net, -1, 1, 0.95, seed+2)
 	r.ProbDrop = MeanIntervalIn(f.drop, -1, 1, j.boot, 0.95, seed+3)
 	r.LabelDrop = MeanIntervalIn(f.ldrop, -1, 1, j.boot, 0.95, seed+5)
-	r.Decided = decidedShare(f.net, chosen, len(all), j.half.Len(), j.boot, seed+4, r.NetFlipRate)
+	r.Decided = decidedShare(r.NetFlipRate, len(all), j.half.Len())
 	r.FlipP = SignTest(r.More, r.Fewer)
 	r.P = SignTest(r.Lower, r.Higher)
 	r.Conflict = j.conflict(chosen, res)
@@ -196,64 +215,18 @@ func (j *relianceJob) summarize(r *Reliance, all, chosen []int, byText map[int][
 	return r
 }
 
-// decidedShare is Reliance.Decided: the net flips net of the measured
-// texts chosen (indexes in the half), scaled to the cueTexts holding the
-// cue, over all halfTexts of the half (texts without the cue count 0).
-// Where fewer than thinOffMode measured texts have a net other than the
-// most common one, its interval is the net's own, netIv (MeanIntervalIn's
-// exact bound: Clopper–Pearson where every net is the same, the betting
-// interval where few differ), times the cue's share of the half. Else it
-// is BootstrapMean's interval over the half's texts, its upper bound
-// raised to the count bound where few texts have a net above 0
-// (fewNetTexts). The decided share is a share of predictions, so not
-// negative: the estimate and both bounds are read as max(0, ·) (a cue
+// decidedShare is Reliance.Decided: the net flip rate netIv of the
+// measured texts (ExactMeanIn's exact interval) times the cue's share of
+// the half, cueTexts of halfTexts: the share of all the half's
+// predictions the cue changes beyond the control (texts without it count
+// 0), with the cue's count in the half known. A share of predictions is
+// not negative: the estimate and both bounds are read as max(0, ·) (a cue
 // whose control flips as many predictions or more decides none).
-// Preconditions: len(net) = len(chosen) ≥ 1, cueTexts ≥ len(net),
-// halfTexts ≥ cueTexts, netIv = MeanIntervalIn(net, −1, 1, …).
-func decidedShare(net []float64, chosen []int, cueTexts, halfTexts, B int, seed uint64, netIv Interval) Interval {
+// Preconditions: halfTexts ≥ cueTexts ≥ 1.
+func decidedShare(netIv Interval, cueTexts, halfTexts int) Interval {
 	share := float64(cueTexts) / float64(halfTexts)
-	var iv Interval
-	if len(net)-modeCount(net) < thinOffMode {
-		iv = Interval{Estimate: share * netIv.Estimate, Low: share * netIv.Low, High: share * netIv.High, Method: netIv.Method}
-	} else {
-		scale := float64(cueTexts) / float64(len(net))
-		x := make([]float64, halfTexts)
-		for k, i := range chosen {
-			x[i] = net[k] * scale
-		}
-		iv = BootstrapMean(x, B, 0.95, seed)
-		// With few texts whose net is above 0 (but many below it) the
-		// bootstrap sees only those and is too narrow: it would bound the
-		// share lower after one flip than after none. A net is at most 1,
-		// so the mean net is at most the share of texts with a net above
-		// 0, and the Clopper–Pearson upper bound of that share bounds it
-		// (a conservative bound, used while such texts are few).
-		if k := countAbove0(net); k <= fewNetTexts {
-			_, u := ClopperPearson(k, len(net), 0.95)
-			if share*u > iv.High {
-				iv.High, iv.Method = share*u, MethodBootstrapRaised
-			}
-		}
-	}
-	return Interval{Estimate: max(0, iv.Estimate), Low: max(0, iv.Low), High: max(0, iv.High), Method: iv.Method}
-}
-
-// fewNetTexts is the most texts with a net above 0 for which decidedShare
-// bounds the share from above by their count (Clopper–Pearson) as well as
-// by the bootstrap: a bootstrap of a mean of mostly zeros is too narrow
-// with fewer than about five texts that are not (common practice, no
-// source).
-const fewNetTexts = 5
-
-// countAbove0 is how many values of x are above 0.
-func countAbove0(x []float64) int {
-	n := 0
-	for _, v := range x {
-		if v > 0 {
-			n++
-		}
-	}
-	return n
+	return Interval{Estimate: max(0, share*netIv.Estimate), Low: max(0, share*netIv.Low),
+		High: max(0, share*netIv.High), Method: netIv.Method}
 }
 
 // textFigures are the per-text means over the draws, indexed like chosen:

@@ -190,6 +190,20 @@ func TestMeanIntervalIn(t *testing.T) {
 	if a, b := MeanIntervalIn(thin, 0, 1, 500, 0.95, 7), BettingMeanInterval(thin, 0, 1, 0.95, 7); a != b {
 		t.Errorf("4 values off the most common: %+v, BettingMeanInterval %+v", a, b)
 	}
+	// The switch: 9 values off the most common one take the exact
+	// interval, 10 the bootstrap.
+	for _, c := range []struct {
+		off  int
+		want string
+	}{{9, MethodBetting}, {10, cnn.MethodBootstrap}} {
+		v := make([]float64, 40)
+		for i := range c.off {
+			v[i*4] = 0.1 * float64(i+1)
+		}
+		if got := MeanIntervalIn(v, 0, 1, 500, 0.95, 7).Method; got != c.want {
+			t.Errorf("%d values off the most common: method %q, want %q", c.off, got, c.want)
+		}
+	}
 	// Each branch names its method, so that a script reading the JSON
 	// knows which ran.
 	for _, c := range []struct {

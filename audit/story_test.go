@@ -107,19 +107,22 @@ func TestStoryTaskMarks(t *testing.T) {
 
 // The task list keeps a cue only when the confirmation half confirms the
 // model relies on it: the sign test significant after Benjamini–Hochberg
-// over the list, and the intervals of the label's probability drop and of
-// the net flip rate above 0; a cue too rare there to measure is not
+// over the list, the interval of the label's probability drop above 0,
+// and the flips confirmed (the net flip rate's interval above 0, or the
+// flips' sign test at 2.5%); a cue too rare there to measure is not
 // confirmed; a cue a person marked stays listed, unconfirmed.
 func TestConfirmedTask(t *testing.T) {
 	a := &auditor{opt: Options{RelianceAlpha: 0.05}}
-	rel := func(p, dropLow, netLow float64, measured int) *Reliance {
-		return &Reliance{Texts: max(measured, 1), Measured: measured, P: p,
+	relFlips := func(p, dropLow, netLow, flipP float64, measured int) *Reliance {
+		return &Reliance{Texts: max(measured, 1), Measured: measured, P: p, FlipP: flipP,
 			LabelDrop: Interval{Estimate: dropLow + 0.05, Low: dropLow, High: dropLow + 0.1}, NetFlipRate: Interval{Estimate: netLow + 0.05, Low: netLow, High: netLow + 0.1}}
 	}
+	rel := func(p, dropLow, netLow float64, measured int) *Reliance { return relFlips(p, dropLow, netLow, 1, measured) }
 	task := []Candidate{
 		{Text: "confirmed", Confirmed: rel(0.001, 0.02, 0.01, 40)},
+		{Text: "flips by their sign test", Confirmed: relFlips(0.001, 0.02, 0, 0.016, 40)},
 		{Text: "drop interval at 0", Confirmed: rel(0.001, 0, 0.01, 40)},
-		{Text: "no prediction changes", Confirmed: rel(0.001, 0.02, 0, 40)},
+		{Text: "no prediction changes", Confirmed: relFlips(0.001, 0.02, 0, 0.031, 40)},
 		{Text: "sign test p 0.12", Confirmed: rel(0.12, 0.02, 0.01, 40)},
 		{Text: "too few texts", Confirmed: &Reliance{Texts: 1, P: 1}},
 		{Text: "marked, unconfirmed", Mark: MarkTask, Confirmed: rel(0.5, -0.1, -0.1, 40)},
@@ -129,11 +132,11 @@ func TestConfirmedTask(t *testing.T) {
 	for _, c := range got {
 		names = append(names, fmt.Sprintf("%s:%v", c.Text, c.Relied))
 	}
-	if want := "confirmed:true marked, unconfirmed:false"; strings.Join(names, " ") != want {
+	if want := "confirmed:true flips by their sign test:true marked, unconfirmed:false"; strings.Join(names, " ") != want {
 		t.Errorf("task list %q, want %q", strings.Join(names, " "), want)
 	}
-	// Benjamini–Hochberg over the list: 0.001 among six p-values is
-	// 0.006 adjusted.
+	// Benjamini–Hochberg over the list: 0.001 among seven p-values is
+	// about 0.002 adjusted.
 	if q := got[0].ConfirmedQ; q <= 0.001 || q > 0.05 {
 		t.Errorf("adjusted p %g of the confirmed cue", q)
 	}
@@ -416,8 +419,10 @@ func TestActionMarked(t *testing.T) {
 }
 
 // TestSettle: a cue put to the test is acted on when its drop's adjusted
-// p-value passes and the intervals of its drop and of its net flip rate
-// lie above 0; with the flips failing it is marked ConfidenceOnly only for
+// p-value passes, the interval of its drop lies above 0 and its flips are
+// confirmed (its net flip rate's interval above 0, or the flips' sign
+// test p at most 0.025); with the flips failing it is marked
+// ConfidenceOnly only for
 // a mean drop of at least minConfidenceDrop; otherwise it keeps its
 // verdict. (Identities of the rule; the numbers are
 // invented.)
@@ -426,16 +431,19 @@ func TestSettle(t *testing.T) {
 		name                     string
 		q, drop, dropLow, netLow float64
 		acted, confidence        bool
+		flipP                    float64
 	}{
-		{"acted", 0.001, 0.2, 0.15, 0.01, true, false},
-		{"flips fail, drop large", 0.001, 0.065, 0.033, 0, false, true},
-		{"flips fail, drop tiny", 0.001, 0.0004, 0.0002, 0, false, false},
-		{"flips fail, drop's interval reaches 0", 0.001, 0.065, -0.01, 0, false, false},
-		{"drop's interval reaches 0", 0.001, 0.2, 0, 0.01, false, false},
-		{"drop test fails", 0.2, 0.2, 0.15, 0.01, false, false},
-		{"no drop", 0.001, 0, 0, 0.01, false, false},
+		{"acted", 0.001, 0.2, 0.15, 0.01, true, false, 1},
+		{"acted on the flips' sign test", 0.001, 0.2, 0.15, 0, true, false, 0.016},
+		{"flips' sign test at 0.031", 0.001, 0.2, 0.15, 0, false, true, 0.031},
+		{"flips fail, drop large", 0.001, 0.065, 0.033, 0, false, true, 1},
+		{"flips fail, drop tiny", 0.001, 0.0004, 0.0002, 0, false, false, 1},
+		{"flips fail, drop's interval reaches 0", 0.001, 0.065, -0.01, 0, false, false, 1},
+		{"drop's interval reaches 0", 0.001, 0.2, 0, 0.01, false, false, 1},
+		{"drop test fails", 0.2, 0.2, 0.15, 0.01, false, false, 1},
+		{"no drop", 0.001, 0, 0, 0.01, false, false, 1},
 	} {
-		cand := Candidate{Verdict: VerdictUnconfirmed, Confirmed: &Reliance{}}
+		cand := Candidate{Verdict: VerdictUnconfirmed, Confirmed: &Reliance{Measured: 40, FlipP: c.flipP}}
 		cand.Confirmed.LabelDrop.Estimate, cand.Confirmed.LabelDrop.Low, cand.Confirmed.NetFlipRate.Low = c.drop, c.dropLow, c.netLow
 		cand.settle(c.q, 0.05)
 		if (cand.Verdict == VerdictActed) != c.acted || cand.Relied != c.acted || cand.ConfidenceOnly != c.confidence || cand.ConfirmedQ != c.q {

@@ -182,11 +182,11 @@ func AuditMethod(r *audit.Result) []string {
 			"bracketed groups it opens or closes; a cue in at least %d training texts passes at p ≤ %s.",
 			AssociationTestName(r.Test), count(r.Tests), CorrectionName(r.Correction), r.Alpha, r.MinSupport, strings.TrimPrefix(pvalue(r.Cutoff), "= ")),
 		"Reliance: each test text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
-			"kept with the same words put elsewhere; intervals are 95% intervals over texts, the percentile bootstrap, or exact where fewer than 10 texts differ from the most common value (Clopper–Pearson where none does, else the betting interval of Waudby-Smith & Ramdas 2024), sign tests are exact and one-sided. " +
+			"kept with the same words put elsewhere; intervals are 95% intervals over texts: exact for the flip rates and the decided share (Clopper–Pearson where every text gives the same value, else the betting interval of Waudby-Smith & Ramdas 2024), the percentile bootstrap for the probability drops, or the same exact interval where fewer than 10 texts differ from the most common value; sign tests are exact and one-sided. " +
 			fmt.Sprintf("A half gives these figures, and on a model with word weights the part of the cue's words there (the same percentile bootstrap over texts), only when at least %d of its texts hold the cue; "+
 				"over few more than that, a percentile bootstrap tends to give too narrow an interval. ", audit.MinCueTexts) +
 			"A cue is acted on when it is artifact-like, relied on in the choosing half and confirmed in the confirming half: there its label's probability falls in more texts than it rises " +
-			"(the sign test, Benjamini–Hochberg over the cues put to the test) and the predictions change beyond the control (the interval of the net change above 0); a small fall in most texts passes the sign test alone.",
+			"(the sign test, Benjamini–Hochberg over the cues put to the test) and the predictions change beyond the control (the exact interval of the net change above 0, or the exact sign test of texts flipping more against fewer at p ≤ 0.025: two tests at 2.5% each); a small fall in most texts passes the sign test alone.",
 		"Artifact-likeness: the score of a rule, 1 − Π (1 − weight × value) over the signals shown, each value in [0, 1] and each weight set by hand " +
 			"(not fitted to data, so the score is not a probability; the shift signal is measured on the choosing half, and the label share shown " +
 			"for a cue with that signal is the confirming half's: exact Clopper–Pearson 95% interval, one-sided Fisher test of its being lower than in training, " +

@@ -29,7 +29,7 @@ var cueSignals = []string{audit.SignalEdge, audit.SignalLine, audit.SignalSpan, 
 // (shift_confirmed_p_lower; the training share chose the cue, so it leans
 // towards lower), its Holm-adjusted p-value and whether the share is lower
 // at Holm p ≤ 0.05 (shift_confirmed_lower); reliance on the confirming
-// half ("half" says when only the choosing half measured it), each rate with its 95% bootstrap interval
+// half ("half" says when only the choosing half measured it), each rate with its 95% interval over texts (audit.Reliance)
 // and the sign tests (empty where the half holds the cue in too few texts
 // to measure); the choosing half's rank score (its label drop times the
 // artifact-likeness: it orders the list, measured on the texts that chose
