@@ -117,7 +117,9 @@ func TestConfirmedTask(t *testing.T) {
 		return &Reliance{Texts: max(measured, 1), Measured: measured, P: p, FlipP: flipP,
 			LabelDrop: Interval{Estimate: dropLow + 0.05, Low: dropLow, High: dropLow + 0.1}, NetFlipRate: Interval{Estimate: netLow + 0.05, Low: netLow, High: netLow + 0.1}}
 	}
-	rel := func(p, dropLow, netLow float64, measured int) *Reliance { return relFlips(p, dropLow, netLow, 1, measured) }
+	rel := func(p, dropLow, netLow float64, measured int) *Reliance {
+		return relFlips(p, dropLow, netLow, 1, measured)
+	}
 	task := []Candidate{
 		{Text: "confirmed", Confirmed: rel(0.001, 0.02, 0.01, 40)},
 		{Text: "flips by their sign test", Confirmed: relFlips(0.001, 0.02, 0, 0.016, 40)},
