@@ -451,17 +451,8 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	if err != nil {
 		return nil, err
 	}
-	if err := m.checkShapes(); err != nil {
+	if err := checkModelSettings(m, tc); err != nil {
 		return nil, err
-	}
-	if err := checkWideFit(m.Config, tc); err != nil {
-		return nil, err
-	}
-	if tc.WideDecay > 0 && !m.Config.Wide && !m.Config.WideBigrams {
-		return nil, fmt.Errorf("cnn: wide weight decay %g on a model without word or bigram weights: set wide decay 0 or turn the word weights on", tc.WideDecay)
-	}
-	if tc.WideNBRate > 0 && !m.Config.Wide {
-		return nil, fmt.Errorf("cnn: naive-Bayes rate exponent %g on a model without word weights: set it to 0 or turn the word weights on", tc.WideNBRate)
 	}
 	if train.Len() == 0 {
 		return nil, fmt.Errorf("cnn: the training split is empty")
@@ -529,6 +520,25 @@ func Train(ctx context.Context, m *Model, train, dev Data, tc TrainConfig, progr
 	}
 	run.finish(sel)
 	return res, nil
+}
+
+// checkModelSettings returns an error if m's tensors do not fit its
+// configuration or a setting of tc needs a part m lacks (the fitted start,
+// the wide tables' decay and rates need the word weights).
+func checkModelSettings(m *Model, tc TrainConfig) error {
+	if err := m.checkShapes(); err != nil {
+		return err
+	}
+	if err := checkWideFit(m.Config, tc); err != nil {
+		return err
+	}
+	if tc.WideDecay > 0 && !m.Config.Wide && !m.Config.WideBigrams {
+		return fmt.Errorf("cnn: wide weight decay %g on a model without word or bigram weights: set wide decay 0 or turn the word weights on", tc.WideDecay)
+	}
+	if tc.WideNBRate > 0 && !m.Config.Wide {
+		return fmt.Errorf("cnn: naive-Bayes rate exponent %g on a model without word weights: set it to 0 or turn the word weights on", tc.WideNBRate)
+	}
+	return nil
 }
 
 // endEpoch brings the model up to date with the epoch's training: the
