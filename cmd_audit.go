@@ -41,7 +41,8 @@ the training split of --data, and tells in plain words what it found:
                      it, it is replaced by label-neutral words, against a
                      control that keeps it and puts the same words elsewhere:
                      how many predictions change and how much its label's
-                     probability falls, with 95% bootstrap intervals.
+                     probability falls, with 95% intervals over texts (exact
+                     for the flips, the bootstrap for the probability drops).
   artifact-likeness  Does it read like how the data was collected rather than
                      like the task? Where it sits (a line of its own, the start
                      or end of the text), the same neighbours every time, its

@@ -38,7 +38,7 @@ func BootstrapMean(x []float64, B int, conf float64, seed uint64) Interval {
 	}
 	est := sum / float64(n)
 	if n < 2 {
-		return Interval{Estimate: est, Low: est, High: est, Method: cnn.MethodBootstrap}
+		return Interval{Estimate: est, Low: est, High: est} // one value: nothing to resample
 	}
 	r := rand.New(rand.NewPCG(seed, 0x9e3779b97f4a7c15))
 	means := make([]float64, B)
@@ -94,13 +94,13 @@ func ExactMeanIn(x []float64, lo, hi, conf float64, seed uint64) Interval {
 
 // MeanIntervalIn is the mean of values known to lie in [lo, hi] that
 // rarely repeat (probability drops), one per text, with an interval at
-// level conf over texts: ExactMeanIn's where fewer than thinOffMode values
+// level conf over texts: ExactMeanIn's where fewer than ThinOffMode values
 // differ from the most common one (for values that never repeat: 10
 // texts or fewer), where a bootstrap of so few is too narrow; the
 // percentile bootstrap (BootstrapMean) otherwise. Preconditions: as
 // BootstrapMean, lo < hi, lo ≤ every x ≤ hi.
 func MeanIntervalIn(x []float64, lo, hi float64, B int, conf float64, seed uint64) Interval {
-	if len(x) > 0 && len(x)-modeCount(x) < thinOffMode {
+	if len(x) > 0 && len(x)-modeCount(x) < ThinOffMode {
 		return ExactMeanIn(x, lo, hi, conf, seed)
 	}
 	return BootstrapMean(x, B, conf, seed)

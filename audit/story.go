@@ -617,9 +617,10 @@ func (r *Result) WriteText(w io.Writer) error {
 	p("  a cue passes when its p ≤ %s.\n", pval(r.Cutoff))
 	p("  Reliance: each text edited %s; the sign test is one-sided;\n",
 		"several times (the cue replaced by neutral words, or the same words put elsewhere)")
-	p("  intervals are 95%% over texts: exact for the flip rates and the decided share (Clopper–Pearson where every text gives\n")
-	p("  the same value, else the betting interval of Waudby-Smith & Ramdas 2024), the percentile bootstrap for the probability\n")
-	p("  drops, or the same exact interval where fewer than %d texts differ from the most common value.\n", thinOffMode)
+	p("  intervals are 95%% over texts: exact, covering at least 95%%, for the flip rates and the decided share (Clopper–Pearson\n")
+	p("  where every text gives the same value, else the betting interval of Waudby-Smith & Ramdas 2024); the percentile bootstrap\n")
+	p("  for the probability drops, or the same exact interval where fewer than %d texts differ from the most common value\n", ThinOffMode)
+	p("  (a cue measured on so few texts seldom has its drop bounded above 0, so it is seldom confirmed).\n")
 	p("  A half measures a cue, its reliance and its words' part in the word weights, only when at least %d of its texts hold it;\n", minCueTexts)
 	p("  the word part's interval is a 95%% percentile bootstrap over texts, too narrow, as a rule, over few more than that.\n")
 	p("  Label shift: a cue's label share in the choosing half (two-sided Fisher test, Benjamini–Hochberg over the cues there) is a\n")

@@ -352,7 +352,7 @@ func WilsonInterval(k, n int, level float64) Interval {
 		panic(fmt.Sprintf("cnn: WilsonInterval(%d, %d, %g): need 0 ≤ k ≤ n and a level in (0, 1)", k, n, level))
 	}
 	if n == 0 {
-		return Interval{Low: 0, High: 1, Method: MethodWilson}
+		return Interval{Low: 0, High: 1}
 	}
 	z := distuv.UnitNormal.Quantile(1 - (1-level)/2)
 	p, nn := float64(k)/float64(n), float64(n)

@@ -91,7 +91,7 @@ func ClopperPearsonInterval(k, n int, level float64) Interval {
 		panic(fmt.Sprintf("cnn: ClopperPearsonInterval(%d, %d, %g): need 0 ≤ k ≤ n and a level in (0, 1)", k, n, level))
 	}
 	if n == 0 {
-		return Interval{Low: 0, High: 1, Method: MethodClopperPearson}
+		return Interval{Low: 0, High: 1}
 	}
 	a := (1 - level) / 2
 	iv := Interval{Estimate: float64(k) / float64(n), Low: 0, High: 1, Method: MethodClopperPearson}

@@ -194,16 +194,7 @@ func TestF1IntervalsOfKeepsTheBootstrap(t *testing.T) {
 		if (macroThin && f.Macro.Low >= f.Macro.High) || (weightedThin && f.Weighted.Low >= f.Weighted.High) {
 			t.Fatalf("case %d: a thin figure without width: macro %+v, weighted %+v", i, f.Macro, f.Weighted)
 		}
-		// Each interval names the method that made it (a script reads it).
-		methodOf := func(thin bool, exact string) string {
-			if thin {
-				return exact
-			}
-			return MethodBootstrap
-		}
-		if f.Macro.Method != methodOf(macroThin, MethodExactBonferroni) || f.Weighted.Method != methodOf(weightedThin, MethodExactBound) {
-			t.Fatalf("case %d: methods macro %q (thin %v), weighted %q (thin %v)", i, f.Macro.Method, macroThin, f.Weighted.Method, weightedThin)
-		}
+		checkF1Methods(t, i, f, macroThin, weightedThin)
 		for c := range k {
 			tp, fp, fn := classCounts(flat, k, c)
 			if tp+fn == 0 {
@@ -237,6 +228,22 @@ func TestF1IntervalsOfKeepsTheBootstrap(t *testing.T) {
 	}
 	if thinSeen == 0 || bootSeen == 0 {
 		t.Fatalf("%d thin classes and %d with the bootstrap in the random cases: the test tests one path only", thinSeen, bootSeen)
+	}
+}
+
+// checkF1Methods checks that the macro and weighted F1 intervals of case
+// i name the method that made them (a script reads it): the exact bound
+// where the figure is thin, the bootstrap otherwise.
+func checkF1Methods(t *testing.T, i int, f F1Intervals, macroThin, weightedThin bool) {
+	t.Helper()
+	methodOf := func(thin bool, exact string) string {
+		if thin {
+			return exact
+		}
+		return MethodBootstrap
+	}
+	if f.Macro.Method != methodOf(macroThin, MethodExactBonferroni) || f.Weighted.Method != methodOf(weightedThin, MethodExactBound) {
+		t.Fatalf("case %d: methods macro %q (thin %v), weighted %q (thin %v)", i, f.Macro.Method, macroThin, f.Weighted.Method, weightedThin)
 	}
 }
 

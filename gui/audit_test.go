@@ -80,7 +80,7 @@ func footer() audit.Candidate {
 
 // A cue's row shows the audit's numbers: the association share with its
 // Wilson interval (audit.Wilson), the confirming half's rates with their
-// bootstrap intervals, the verdict in words.
+// intervals, the verdict in words.
 func TestCueRow(t *testing.T) {
 	c := footer()
 	r := &audit.Result{Ranked: []audit.Candidate{c}}

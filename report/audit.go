@@ -2,6 +2,7 @@ package report
 
 import (
 	"fmt"
+	"strconv"
 	"strings"
 
 	"telltale/audit"
@@ -182,7 +183,7 @@ func AuditMethod(r *audit.Result) []string {
 			"bracketed groups it opens or closes; a cue in at least %d training texts passes at p ≤ %s.",
 			AssociationTestName(r.Test), count(r.Tests), CorrectionName(r.Correction), r.Alpha, r.MinSupport, strings.TrimPrefix(pvalue(r.Cutoff), "= ")),
 		"Reliance: each test text that holds the cue is edited several times, the cue replaced by label-neutral words and, as a control, " +
-			"kept with the same words put elsewhere; intervals are 95% intervals over texts: exact for the flip rates and the decided share (Clopper–Pearson where every text gives the same value, else the betting interval of Waudby-Smith & Ramdas 2024), the percentile bootstrap for the probability drops, or the same exact interval where fewer than 10 texts differ from the most common value; sign tests are exact and one-sided. " +
+			"kept with the same words put elsewhere; intervals are 95% intervals over texts: exact for the flip rates and the decided share (Clopper–Pearson where every text gives the same value, else the betting interval of Waudby-Smith & Ramdas 2024), the percentile bootstrap for the probability drops, or the same exact interval where fewer than " + strconv.Itoa(audit.ThinOffMode) + " texts differ from the most common value (a cue measured on so few texts seldom has its drop bounded above 0); sign tests are exact and one-sided. " +
 			fmt.Sprintf("A half gives these figures, and on a model with word weights the part of the cue's words there (the same percentile bootstrap over texts), only when at least %d of its texts hold the cue; "+
 				"over few more than that, a percentile bootstrap tends to give too narrow an interval. ", audit.MinCueTexts) +
 			"A cue is acted on when it is artifact-like, relied on in the choosing half and confirmed in the confirming half: there its label's probability falls in more texts than it rises " +

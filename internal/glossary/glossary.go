@@ -85,7 +85,7 @@ var Terms = []Term{
 		Formula: "one-sided Fisher exact test of the cue's training texts in its label (or, on request, the exact binomial test against the label's share), corrected over every word × label tested (Benjamini & Hochberg 1995, which bounds the share of chance findings; Bonferroni, which bounds the chance of any, on request)",
 		Meaning: "whether a cue predicts a label in the training split; a word grows into the longest phrase it keeps in 80% of its occurrences."},
 	{Name: "reliance", Topic: "cue audit",
-		Formula: "mean over test texts holding the cue of p(label | control) − p(label | cue replaced by neutral words), 95% interval over texts (percentile bootstrap; exact for a cue measured on 10 texts or fewer: the betting interval of Waudby-Smith & Ramdas 2024, as for every flip rate)",
+		Formula: "mean over test texts holding the cue of p(label | control) − p(label | cue replaced by neutral words), 95% interval over texts (percentile bootstrap; where fewer than 10 texts differ from the most common value, as for any cue measured on 10 texts or fewer, an exact one covering at least 95%: Clopper–Pearson where all are equal, else the betting interval of Waudby-Smith & Ramdas 2024, as for every flip rate)",
 		Meaning: "how much this model depends on the cue; the control keeps the cue and puts the same neutral words elsewhere."},
 	{Name: "neutral words", Topic: "cue audit",
 		Formula: "the 50 most common words of letters in at least 20 training texts, in no cue, whose label shares differ from the training split's by a total variation distance ≤ 0.05",
