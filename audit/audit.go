@@ -200,10 +200,11 @@ type Candidate struct {
 	// ConfidenceOnly marks an artifact-like cue put to the test whose
 	// label's probability drop the confirmation half confirms (its sign
 	// test, ConfirmedQ at most Options.RelianceAlpha, the drop's interval
-	// above 0 and a mean drop of at least minConfidenceDrop) but whose flips it does not
-	// (Reliance.FlipsConfirmed): the model's confidence rests on it there
-	// though its predictions did not measurably change. It is not acted on (VerdictUnconfirmed);
-	// NotRuledOut says what the flips' interval leaves open.
+	// above 0 and a mean drop of at least minConfidenceDrop) but whose
+	// flips it does not (Reliance.FlipsConfirmed): the model's confidence
+	// rests on it there though its predictions did not measurably change.
+	// It is not acted on (VerdictUnconfirmed); NotRuledOut says what the
+	// flips' interval leaves open.
 	ConfidenceOnly bool `json:"confidence_only,omitempty"`
 	// Shift is question 4: the cue's label share in the selection half of
 	// the held-out split (a reason the cue is chosen); ShiftConfirmed the

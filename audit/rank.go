@@ -169,9 +169,9 @@ func (a *auditor) result(cands, measured []*Candidate) *Result {
 // that the confirmation half confirms the model relies on, by the rule of
 // the cues acted on: the sign test significant after Benjamini–Hochberg
 // over task's cues, the 95% interval of the label's probability drop
-// above 0, and the flips confirmed (Reliance.FlipsConfirmed). A cue a person marked task stays
-// listed (a person's verdict is always shown), with Relied false when
-// unconfirmed.
+// above 0, and the flips confirmed (Reliance.FlipsConfirmed). A cue a
+// person marked task stays listed (a person's verdict is always shown),
+// with Relied false when unconfirmed.
 func (a *auditor) confirmedTask(task []Candidate) []Candidate {
 	ps := make([]float64, len(task))
 	for k := range task {
@@ -281,8 +281,9 @@ func (a *auditor) confirm(ctx context.Context, res *Result) error {
 // half from the adjusted p-value q of its drop's sign test: acted on when
 // q is at most alpha, the 95% interval of the label's probability drop
 // lies above 0 and the flips are confirmed (Reliance.FlipsConfirmed; as
-// for a cue that reads like the task, confirmedTask); ConfidenceOnly when only the flips fail and the
-// mean drop is at least minConfidenceDrop; else it stays as it is.
+// for a cue that reads like the task, confirmedTask); ConfidenceOnly when
+// only the flips fail and the mean drop is at least minConfidenceDrop;
+// else it stays as it is.
 // c.Confirmed must be set.
 func (c *Candidate) settle(q, alpha float64) {
 	c.ConfirmedQ = q
