@@ -293,6 +293,12 @@ func (r *Result) writeStory(w io.Writer) {
 			p("     Replacing it by neutral words changes %s of the predictions on the texts that hold it, against %s\n",
 				interval(cr.FlipRate), interval(cr.ControlFlipRate))
 			p("     when the same words are put elsewhere; it decides %s of all predictions on the confirming half.\n", interval(cr.Decided))
+			if !(cr.NetFlipRate.Low > 0) {
+				// Confirmed by the flips' direction alone (FlipsConfirmed):
+				// say so, since the rates' intervals overlap.
+				p("     %s flip more with it replaced than kept, %d fewer (one-sided exact sign test p = %s): few, but all one way.\n",
+					wording.Texts(cr.More), cr.Fewer, pval(cr.FlipP))
+			}
 			if cf := cr.Conflict; cf != nil {
 				p("     On the %d of those texts whose label is not %s, accuracy goes from %s to %s without it\n",
 					cf.Texts, c.Label, accuracy(cf.Before), accuracy(cf.After))

@@ -542,3 +542,28 @@ func TestStoryConfirmedShift(t *testing.T) {
 		t.Errorf("a cue outside the family has its confirmed shift told:\n%s", story)
 	}
 }
+
+// A cue acted on by the direction of its flips alone (6 texts flip more
+// with it replaced, none fewer: the exact sign test p = 0.5⁶, while the
+// net flip rate's interval reaches below 0) says so, since its rates'
+// intervals overlap; one whose net interval lies above 0 does not.
+func TestStoryFlipsByDirection(t *testing.T) {
+	for _, c := range []struct {
+		name   string
+		netLow float64
+		says   bool
+	}{{"net interval reaches 0", -0.01, true}, {"net interval above 0", 0.01, false}} {
+		r := &Result{ConfirmationTexts: 400}
+		r.Ranked = []Candidate{{Words: []string{"stamp"}, Text: "stamp", Label: "spam", Verdict: VerdictActed, Relied: true,
+			Association: CueAssociation{Texts: 20},
+			Confirmed: &Reliance{Texts: 71, Measured: 71, More: 6, Fewer: 0, FlipP: SignTest(6, 0),
+				FlipRate:        Interval{Estimate: 0.09, Low: 0.03, High: 0.2},
+				ControlFlipRate: Interval{Estimate: 0.01, Low: 0, High: 0.07},
+				NetFlipRate:     Interval{Estimate: 0.08, Low: c.netLow, High: 0.19}}}}
+		r.Action = Action{Cues: []string{"stamp"}, Patterns: []string{pattern([]string{"stamp"})}}
+		want := "6 texts flip more with it replaced than kept, 0 fewer (one-sided exact sign test p = " + pval(SignTest(6, 0)) + "): few, but all one way."
+		if got := strings.Contains(r.Story(), want); got != c.says {
+			t.Errorf("%s: the story says %q: %v, want %v:\n%s", c.name, want, got, c.says, r.Story())
+		}
+	}
+}
