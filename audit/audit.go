@@ -759,13 +759,7 @@ func (a *auditor) shifts(cands []*Candidate) {
 // test leans towards finding a shift, and Benjamini–Hochberg does not undo
 // that; the README says so beside the signal.
 func (a *auditor) shiftOf(c *Candidate) *Shift {
-	in, n := 0, 0
-	for _, i := range texts(c.selOcc) {
-		n++
-		if a.sel.Gold[i] == c.Class {
-			in++
-		}
-	}
+	in, n := inLabel(c.selOcc, a.sel.Gold, c.Class)
 	s := &Shift{HeldoutTexts: n, TrainShare: c.Association.Share, P: 1, Q: 1}
 	if n > 0 {
 		s.HeldoutShare = float64(in) / float64(n)
@@ -773,6 +767,18 @@ func (a *auditor) shiftOf(c *Candidate) *Shift {
 		s.P = FisherTwoSided(ta.InLabel, ta.Texts-ta.InLabel, in, n-in)
 	}
 	return s
+}
+
+// inLabel counts the texts of a half that hold occurrences occ, n, and
+// those of them whose gold label is class, in.
+func inLabel(occ []span, gold []int, class int) (in, n int) {
+	for _, i := range texts(occ) {
+		n++
+		if gold[i] == class {
+			in++
+		}
+	}
+	return in, n
 }
 
 // shiftSignal adds c's shift signal from c.Shift; tested is how many
@@ -807,13 +813,7 @@ const confirmedShiftAlpha = 0.05
 // left to holmShifts; only confirmedShifts calls it, for the cues of the
 // family.
 func (a *auditor) confirmedShiftOf(c *Candidate) *ConfirmedShift {
-	in, n := 0, 0
-	for _, i := range texts(c.confOcc) {
-		n++
-		if a.conf.Gold[i] == c.Class {
-			in++
-		}
-	}
+	in, n := inLabel(c.confOcc, a.conf.Gold, c.Class)
 	if n == 0 {
 		return nil
 	}
