@@ -84,7 +84,12 @@ func quantileSorted(xs []float64, q float64) float64 {
 // few and is too narrow. Preconditions: len(x) ≥ 1, lo < hi, lo ≤ every
 // x ≤ hi, 0 < conf < 1.
 func ExactMeanIn(x []float64, lo, hi, conf float64, seed uint64) Interval {
-	if modeCount(x) == len(x) {
+	return exactMeanIn(x, modeCount(x), lo, hi, conf, seed)
+}
+
+// exactMeanIn is ExactMeanIn with mode, x's modeCount, counted already.
+func exactMeanIn(x []float64, mode int, lo, hi, conf float64, seed uint64) Interval {
+	if mode == len(x) {
 		v := x[0]
 		_, u := ClopperPearson(0, len(x), conf)
 		return Interval{Estimate: v, Low: v - u*(v-lo), High: v + u*(hi-v), Method: cnn.MethodClopperPearson}
@@ -100,8 +105,11 @@ func ExactMeanIn(x []float64, lo, hi, conf float64, seed uint64) Interval {
 // percentile bootstrap (BootstrapMean) otherwise. Preconditions: as
 // BootstrapMean, lo < hi, lo ≤ every x ≤ hi.
 func MeanIntervalIn(x []float64, lo, hi float64, B int, conf float64, seed uint64) Interval {
-	if len(x) > 0 && len(x)-modeCount(x) < ThinOffMode {
-		return ExactMeanIn(x, lo, hi, conf, seed)
+	if len(x) == 0 {
+		return BootstrapMean(x, B, conf, seed)
+	}
+	if mode := modeCount(x); len(x)-mode < ThinOffMode {
+		return exactMeanIn(x, mode, lo, hi, conf, seed)
 	}
 	return BootstrapMean(x, B, conf, seed)
 }
